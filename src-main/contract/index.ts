@@ -1,0 +1,7 @@
+/**
+ * The typed API that the renderer, IPC, the HTTP server and the CLI all speak.
+ * It imports nothing from elsewhere in the project.
+ */
+export * from './errors';
+export * from './validate';
+export * from './image';

@@ -1,0 +1,2 @@
+/** The pure engine: imports no Node, no Electron, no DOM. */
+export * as linalg from './linalg';

@@ -1,0 +1,50 @@
+import { parseArgs, type ParseArgsConfig } from 'node:util';
+import { UsageError } from '../../contract';
+
+/** Where a command writes. Tests pass their own; the CLI passes process streams. */
+export interface CliIO {
+  stdout: (text: string) => void;
+  stderr: (text: string) => void;
+  /** True when stderr is a terminal, so live progress may be drawn. */
+  isTTY: boolean;
+}
+
+/** One `rankfold <name>` sub-command. `run` returns the exit code. */
+export interface Command {
+  name: string;
+  summary: string;
+  /** Full help text, printed by `rankfold <name> --help`. */
+  help: string;
+  run(argv: string[], io: CliIO): Promise<number>;
+}
+
+export type OptionSpec = NonNullable<ParseArgsConfig['options']>;
+
+/**
+ * Parse a command's arguments with node:util parseArgs, turning its errors into a UsageError that
+ * names the command and points at its help.
+ */
+export function parseCommandArgs(command: string, argv: string[], options: OptionSpec, maxPositionals = 1) {
+  let parsed: ReturnType<typeof parseArgs<{ options: OptionSpec; allowPositionals: true; strict: true; args: string[] }>>;
+  try {
+    parsed = parseArgs({ args: argv, options: { ...options, help: { type: 'boolean', short: 'h' } }, allowPositionals: true, strict: true });
+  } catch (err) {
+    const msg = err instanceof Error ? err.message.replace(/\. To specify a positional argument.*$/s, '') : String(err);
+    throw new UsageError(`${command}: ${msg}. See \`rankfold ${command} --help\`.`);
+  }
+  if (parsed.positionals.length > maxPositionals)
+    throw new UsageError(
+      `${command}: too many arguments (${parsed.positionals.slice(maxPositionals).join(' ')}). See \`rankfold ${command} --help\`.`,
+    );
+  return { values: parsed.values as Record<string, string | boolean | string[] | undefined>, positionals: parsed.positionals };
+}
+
+/** The caution shown wherever output is lossy. */
+export const LOSSY_CAUTION =
+  'Caution: this output is lossy and changes pixel data. Keep preservation masters lossless; medical, forensic and legal ' +
+  "images need your institution's approval. Follow your local digitisation guidelines.";
+
+/** The caution shown wherever pixels are cleaned. */
+export const CLEANING_CAUTION =
+  'Caution: cleaning alters pixel data. Keep the original and the removed part (--removed) where your institution ' +
+  'requires it; never clean preservation masters, medical, forensic or legal images without approval. Follow your local digitisation guidelines.';

@@ -1,0 +1,91 @@
+/**
+ * `rankfold` command-line entry. Each sub-command lives in ./commands/<name>.ts and is loaded on demand.
+ * Exit codes: 0 success, 1 usage or input error, 2 partial failure (batch). See docs/cli.md.
+ */
+import { RankfoldError, UsageError } from '../../contract';
+import type { CliIO, Command } from './command';
+
+const commands: Record<string, { summary: string; load: () => Promise<{ command: Command }> }> = {
+  inspect: { summary: 'show size, depth and the singular-value spectrum of a scan', load: () => import('./commands/inspect') },
+  compress: { summary: 'write a .rkf file that meets a storage budget or quality floor', load: () => import('./commands/compress') },
+  expand: { summary: 'decode a .rkf file back to PNG or TIFF', load: () => import('./commands/expand') },
+  clean: { summary: 'remove sensor noise and row/column banding, and show what was removed', load: () => import('./commands/clean') },
+  batch: { summary: 'compress a whole folder unattended, with a report', load: () => import('./commands/batch') },
+  serve: { summary: 'open the app in a browser on this machine (127.0.0.1 only)', load: () => import('./commands/serve') },
+};
+
+const VERSION = '0.1.0';
+
+function generalHelp(): string {
+  const width = Math.max(...Object.keys(commands).map((c) => c.length));
+  const lines = Object.entries(commands).map(([name, c]) => `  ${name.padEnd(width)}  ${c.summary}`);
+  return [
+    'Rankfold: compress and clean scans with truncated singular value decomposition.',
+    '',
+    'Usage: rankfold <command> [options]',
+    '',
+    'Commands:',
+    ...lines,
+    '',
+    'Run `rankfold <command> --help` for the options of one command.',
+    '',
+    'Lossy compression and cleaning change pixel data. Keep preservation masters lossless; medical,',
+    "forensic and legal images need your institution's approval. Follow your local digitisation guidelines.",
+    '',
+  ].join('\n');
+}
+
+export async function main(argv: string[], io: CliIO): Promise<number> {
+  const [name, ...rest] = argv;
+  if (name === undefined || name === '--help' || name === '-h' || name === 'help') {
+    io.stdout(generalHelp());
+    return name === undefined ? 1 : 0;
+  }
+  if (name === '--version' || name === '-V') {
+    io.stdout(`${VERSION}\n`);
+    return 0;
+  }
+  const entry = commands[name];
+  if (!entry) {
+    io.stderr(`rankfold: unknown command "${name}". Commands: ${Object.keys(commands).join(', ')}.\n`);
+    return 1;
+  }
+  try {
+    const { command } = await entry.load();
+    if (rest.includes('--help') || rest.includes('-h')) {
+      io.stdout(command.help.endsWith('\n') ? command.help : `${command.help}\n`);
+      return 0;
+    }
+    return await command.run(rest, io);
+  } catch (err) {
+    if (err instanceof UsageError) {
+      io.stderr(`rankfold ${name}: ${err.message}\n`);
+      return 1;
+    }
+    if (err instanceof RankfoldError) {
+      io.stderr(`rankfold ${name}: ${err.message}\n`);
+      return 1;
+    }
+    const e = err as Error;
+    io.stderr(`rankfold ${name}: unexpected internal error: ${e?.message ?? String(err)}\n${process.env.RANKFOLD_DEBUG ? `${e?.stack}\n` : ''}`);
+    return 1;
+  }
+}
+
+const isEntry = process.argv[1] && /(?:rankfold(?:\.mjs)?|cli\.js)$/.test(process.argv[1]);
+if (isEntry) {
+  const io: CliIO = {
+    stdout: (t) => process.stdout.write(t),
+    stderr: (t) => process.stderr.write(t),
+    isTTY: Boolean(process.stderr.isTTY),
+  };
+  main(process.argv.slice(2), io).then(
+    (code) => {
+      process.exitCode = code;
+    },
+    (err) => {
+      process.stderr.write(`rankfold: ${String(err)}\n`);
+      process.exitCode = 1;
+    },
+  );
+}
