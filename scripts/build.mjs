@@ -34,7 +34,7 @@ for (const file of list(asmDir, /\.ts$/)) {
 }
 
 // 2. Bundles.
-rmSync(r('dist'), { recursive: true, force: true });
+// dist/ is not wiped: several builds may run at once while developing, and esbuild overwrites its outputs.
 const common = { bundle: true, sourcemap: 'linked', target: 'es2022', logLevel: 'warning', absWorkingDir: root };
 const nodeExternal = ['sharp', 'electron', 'playwright-core', 'ml-matrix', 'pngjs', 'cli-progress', 'picomatch'];
 const builds = [];

@@ -5,3 +5,4 @@
 export * from './errors';
 export * from './validate';
 export * from './image';
+export * from './compress';

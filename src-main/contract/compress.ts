@@ -1,0 +1,95 @@
+/** Requests and results of `compress` and `expand`, shared by the CLI, the worker pool, IPC and HTTP. */
+import { UsageError } from './errors';
+
+/** What the user asks for. Exactly one kind. */
+export type Budget =
+  | { kind: 'rank'; rank: number }
+  | { kind: 'bytes'; bytes: number }
+  | { kind: 'percent'; percent: number }
+  | { kind: 'bpp'; bpp: number }
+  | { kind: 'psnr'; db: number }
+  | { kind: 'ssim'; value: number };
+
+/** Tile size: 0 = whole plane, 16–512 = square tiles, 'auto' = best of a few sizes for the budget. */
+export type TileChoice = number | 'auto';
+
+export interface CompressOptions {
+  budget: Budget;
+  tile: TileChoice;
+  /** TIFF page, 0-based. */
+  page?: number;
+  /** Overwrite an existing output. */
+  force?: boolean;
+  /** Also encode JPEG/WebP/AVIF at the nearest size ≤ ours and report their PSNR/SSIM. */
+  compare?: boolean;
+  /** Refuse inputs with more pixels than this. */
+  pixelLimit?: number;
+}
+
+export interface ErrorFigures {
+  /** Achieved ‖A − Â‖_F over all coded planes, in grey levels of the input. */
+  frobenius: number;
+  /** Eckart–Young optimum at the same ranks: sqrt(Σ_{i>k} σ_i²), in grey levels. */
+  frobeniusOptimal: number;
+  /** Eckart–Young spectral bound σ_{k+1} (largest over planes/tiles), in grey levels. */
+  spectralBound: number;
+}
+
+export interface CodecComparison {
+  codec: 'jpeg' | 'webp' | 'avif';
+  bytes: number;
+  quality: number;
+  psnr: number;
+  ssim: number;
+}
+
+export interface CompressReport {
+  input: string;
+  output: string;
+  width: number;
+  height: number;
+  channels: number;
+  bitDepth: 8 | 16;
+  sourceSha256: string;
+  rawBytes: number;
+  inputBytes: number;
+  outputBytes: number;
+  /** rawBytes / outputBytes. */
+  ratio: number;
+  /** 8 · outputBytes / (width · height). */
+  bpp: number;
+  /** Per channel: the rank (whole plane) or a per-tile summary. */
+  ranks: Array<{ channel: string; rank?: number; tiles?: { count: number; min: number; max: number; mean: number; total: number } }>;
+  psnr: number;
+  ssim: number;
+  errors: ErrorFigures;
+  timings: { decodeMs: number; factorMs: number; encodeMs: number };
+  compare?: CodecComparison[];
+}
+
+const SIZE_UNITS: Record<string, number> = { b: 1, kb: 1e3, mb: 1e6, gb: 1e9, kib: 1024, mib: 1024 ** 2, gib: 1024 ** 3 };
+
+/**
+ * Parse `--budget` text: `250kB`, `1.5MB`, `2MiB`, `120000` (bytes) or `5%` (of the raw sample bytes).
+ * kB/MB/GB are decimal (SI); KiB/MiB/GiB are binary (IEC 80000-13).
+ * @throws UsageError with the exact text it could not read.
+ */
+export function parseBudgetText(text: string): Budget {
+  const t = text.trim();
+  const pct = /^(\d+(?:\.\d+)?)\s*%$/.exec(t);
+  if (pct) {
+    const percent = Number(pct[1]);
+    if (!(percent > 0 && percent <= 100))
+      throw new UsageError(`Expected a percentage above 0 and at most 100 for budget but received ${JSON.stringify(text)}`);
+    return { kind: 'percent', percent };
+  }
+  const m = /^(\d+(?:\.\d+)?)\s*([a-zA-Z]*)$/.exec(t);
+  const unit = m ? (m[2] || 'b').toLowerCase() : '';
+  if (!m || !(unit in SIZE_UNITS))
+    throw new UsageError(
+      `Expected a size such as 250kB, 1.5MB, 2MiB or 5% for budget but received ${JSON.stringify(text)}`,
+    );
+  const bytes = Math.floor(Number(m[1]) * SIZE_UNITS[unit]);
+  if (!(bytes >= 64)) throw new UsageError(`Expected a budget of at least 64 bytes but received ${JSON.stringify(text)}`);
+  return { kind: 'bytes', bytes };
+}
