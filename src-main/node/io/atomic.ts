@@ -1,0 +1,97 @@
+/**
+ * Atomic output: write to a temporary file in the destination folder, fsync it, rename it over the
+ * target, then fsync the folder. A crash or kill leaves either the old state or the complete new file,
+ * never a partial one. Temporary names start with `.rankfold-tmp-` so a resumed batch can sweep them.
+ */
+import { randomBytes } from 'node:crypto';
+import { constants } from 'node:fs';
+import { access, mkdir, open, rename, unlink } from 'node:fs/promises';
+import { basename, dirname, join } from 'node:path';
+import { OutputError } from '../../contract';
+
+export const TEMP_PREFIX = '.rankfold-tmp-';
+
+export interface WriteOptions {
+  /** Replace an existing file. Default false: an existing output is an error. */
+  force?: boolean;
+  /** Create missing parent folders. Default true. */
+  mkdirs?: boolean;
+}
+
+/** True if a file exists at `path`. */
+export async function exists(path: string): Promise<boolean> {
+  try {
+    await access(path, constants.F_OK);
+    return true;
+  } catch {
+    return false;
+  }
+}
+
+/** Throw OutputError if `path` exists and force is not set. */
+export async function assertWritable(path: string, force = false): Promise<void> {
+  if (!force && (await exists(path))) throw new OutputError(path, 'already exists; pass --force to overwrite it');
+}
+
+/** Write `data` to `path` atomically. */
+export async function writeFileAtomic(path: string, data: Uint8Array | string, options: WriteOptions = {}): Promise<void> {
+  const dir = dirname(path);
+  if (options.mkdirs !== false) {
+    try {
+      await mkdir(dir, { recursive: true });
+    } catch (err) {
+      throw describeWriteError(path, err);
+    }
+  }
+  await assertWritable(path, options.force);
+  const tmp = join(dir, `${TEMP_PREFIX}${randomBytes(6).toString('hex')}-${basename(path)}`);
+  let fh: Awaited<ReturnType<typeof open>> | undefined;
+  try {
+    fh = await open(tmp, 'wx', 0o644);
+    await fh.writeFile(data);
+    await fh.sync();
+    await fh.close();
+    fh = undefined;
+    if (!options.force && (await exists(path))) throw new OutputError(path, 'already exists; pass --force to overwrite it');
+    await rename(tmp, path);
+  } catch (err) {
+    if (fh) await fh.close().catch(() => {});
+    await unlink(tmp).catch(() => {});
+    throw err instanceof OutputError ? err : describeWriteError(path, err);
+  }
+  await syncDir(dir);
+}
+
+async function syncDir(dir: string) {
+  try {
+    const d = await open(dir, 'r');
+    try {
+      await d.sync();
+    } finally {
+      await d.close();
+    }
+  } catch {
+    // Some file systems refuse fsync on folders; the rename is still atomic there.
+  }
+}
+
+/** Map an errno to a sentence a user can act on. */
+export function describeWriteError(path: string, err: unknown): OutputError {
+  const code = (err as NodeJS.ErrnoException)?.code;
+  switch (code) {
+    case 'EACCES':
+    case 'EPERM':
+      return new OutputError(path, 'permission denied when writing; choose a folder you can write to', { code });
+    case 'EROFS':
+      return new OutputError(path, 'the file system is read-only', { code });
+    case 'ENOSPC':
+    case 'EDQUOT':
+      return new OutputError(path, 'the disk is full (no space left); free space and run again', { code });
+    case 'ENOTDIR':
+      return new OutputError(path, 'a part of the output path is a file, not a folder', { code });
+    case 'ENAMETOOLONG':
+      return new OutputError(path, 'the output path is too long for this file system', { code });
+    default:
+      return new OutputError(path, `cannot be written (${code ?? (err as Error)?.message ?? String(err)})`, { code });
+  }
+}
