@@ -1,0 +1,13 @@
+/** Image quality metrics and Eckart–Young bounds. Pure TypeScript over typed arrays. */
+
+export {
+  energyRank,
+  frobeniusOptimal,
+  frobeniusOptimalCurve,
+  optimalRankPsnr,
+  psnrFromFrobenius,
+  rankForPsnr,
+  spectralBound,
+} from './eckart-young';
+export { frobeniusError, mse, psnr, psnrFromMse, psnrPlanes, sse } from './psnr';
+export { gaussianTaps, SSIM_DEFAULTS, type SsimOptions, ssim, ssimPlanes } from './ssim';
