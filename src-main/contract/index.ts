@@ -6,3 +6,5 @@ export * from './errors';
 export * from './validate';
 export * from './image';
 export * from './compress';
+export * from './batch';
+export * from './api';

@@ -1,12 +1,130 @@
-import { RankfoldError } from '../../../contract';
-import type { Command } from '../command';
+/**
+ * `rankfold batch IN_DIR -o OUT_DIR [budget] [options]` and `rankfold batch --merge MANIFEST…`.
+ * Exit codes: 0 every file succeeded (or was kept by --resume), 2 some files failed or the run was
+ * interrupted (the failures are listed), 1 usage error. See docs/cli/batch.md.
+ */
+import type { BatchEvent, BatchSummary } from '../../../contract';
+import { parseBatchArgs } from '../../batch/args';
+import { rowToJson } from '../../batch/manifest';
+import { mergeManifests } from '../../batch/merge';
+import { type ProgressView, terminalProgress } from '../../batch/progress';
+import { runBatch } from '../../batch/run';
+import { batchWorkerFile } from '../../batch/worker-path';
+import { type CliIO, type Command, LOSSY_CAUTION } from '../command';
 
-// Placeholder until the issue that owns `rankfold batch` lands.
+const HELP = `rankfold batch: compress a whole folder unattended, with a manifest, a CSV and an HTML report.
+
+Usage:
+  rankfold batch IN_DIR -o OUT_DIR (--rank K | --budget SIZE | --bpp X | --min-psnr DB | --min-ssim S) [options]
+  rankfold batch --merge MANIFEST.jsonl… [-o DIR] [--report FILE.html] [--manifest FILE.jsonl]
+
+Walks IN_DIR recursively (hidden files and folders skipped) and writes one .rkf per input under OUT_DIR,
+mirroring the folders. Nothing is ever written inside IN_DIR; OUT_DIR may not be IN_DIR or inside it.
+
+Budget (exactly one, as for \`rankfold compress\`):
+  --rank K             keep K singular values per plane (1–65535)
+  --budget SIZE        file size limit: 250kB, 1.5MB, 2MiB, 120000 (bytes) or 5% of the raw samples
+  --bpp X              bits per pixel (0.001–64)
+  --min-psnr DB        smallest file with at least this PSNR (1–200 dB)
+  --min-ssim S         smallest file with at least this SSIM (0–1)
+  --tile N|auto|0      tile size 16–512, auto, or 0 for whole planes (default auto)
+  --pixel-limit N      refuse inputs with more pixels (default 268402689)
+
+Batch:
+  -j, --jobs N         worker threads (default: the number of cores)
+  --include GLOB       only files matching GLOB (repeatable; a pattern without / matches in any folder)
+  --exclude GLOB       skip files matching GLOB (repeatable)
+  --resume             keep outputs whose recorded source hash matches the input; redo the rest
+  --force              rewrite outputs that already exist
+  --dry-run            list what would be done; write nothing
+  --expand-check       decode every written file again and check its PSNR
+  --timeout SEC        stop a file that takes longer (default 1800; 0 = no limit)
+  --shard I/N          take slice I of N (I counts from 0), by a stable hash of each relative path
+  --manifest FILE      manifest path (default OUT_DIR/rankfold-manifest[-IofN].jsonl; CSV beside it)
+  --report FILE.html   report path (default beside the manifest)
+  --json               one JSON line per event on stdout (start, each file, end)
+
+Output names: a/b.png → a/b.rkf. When two inputs in one folder would share a name (a.png, a.tif; case and
+Unicode form ignored), each keeps its whole name: a.png.rkf, a.tif.rkf.
+
+Exit codes: 0 all files done or kept; 2 some files failed or the run was interrupted (listed); 1 usage error.
+
+${LOSSY_CAUTION}
+`;
+
+function humanLine(e: Extract<BatchEvent, { event: 'file' }>): string {
+  const n = `[${e.done}/${e.total}]`;
+  if (e.status === 'failed') return `${n} FAILED ${e.path}: ${e.error?.message ?? 'unknown error'}\n`;
+  if (e.status === 'planned') return `${n} would write ${e.output}  ←  ${e.path}\n`;
+  const psnr =
+    e.psnr === undefined ? '' : Number.isFinite(e.psnr) ? ` PSNR ${e.psnr.toFixed(2)} dB` : ' exact';
+  return `${n} ${e.status === 'kept' ? 'kept' : 'ok'} ${e.path} → ${e.output}${e.ratio !== undefined ? ` ratio ${e.ratio.toFixed(2)}` : ''}${psnr}\n`;
+}
+
+function summaryText(s: BatchSummary, warnings: string[], interrupted: boolean): string {
+  const lines = [
+    `batch: ${s.total} file${s.total === 1 ? '' : 's'}: ${s.ok} compressed, ${s.kept} kept, ${s.failed} failed${s.planned ? `, ${s.planned} planned (dry run)` : ''} in ${(s.elapsedMs / 1000).toFixed(1)} s` +
+      (s.outputBytes ? `; ${(s.outputBytes / 1e6).toFixed(2)} MB written` : ''),
+  ];
+  if (interrupted) lines.push('batch: interrupted; run the same command with --resume to finish');
+  if (s.failures.length) {
+    lines.push('Failed files:');
+    for (const f of s.failures) lines.push(`  ${f}`);
+  }
+  for (const w of warnings) lines.push(`warning: ${w}`);
+  if (s.manifest) lines.push(`manifest: ${s.manifest}`);
+  if (s.csv) lines.push(`csv:      ${s.csv}`);
+  if (s.report) lines.push(`report:   ${s.report}`);
+  return `${lines.join('\n')}\n`;
+}
+
+async function run(argv: string[], io: CliIO): Promise<number> {
+  const args = parseBatchArgs(argv);
+  if (args.mode === 'merge') {
+    const r = await mergeManifests(args.manifests, args);
+    if (args.json)
+      io.stdout(`${JSON.stringify({ event: 'end', summary: r.summary, warnings: r.warnings })}\n`);
+    else io.stderr(summaryText(r.summary, r.warnings, false));
+    return r.summary.failed > 0 || r.warnings.length > 0 ? 2 : 0;
+  }
+  const workerFile = args.dryRun ? '' : batchWorkerFile();
+  if (!args.json && !args.dryRun) io.stderr(`${LOSSY_CAUTION}\n`);
+  let bar: ProgressView | undefined;
+  const controller = new AbortController();
+  const onSignal = () => controller.abort();
+  process.once('SIGINT', onSignal);
+  process.once('SIGTERM', onSignal);
+  try {
+    const result = await runBatch({
+      ...args,
+      workerFile,
+      signal: controller.signal,
+      onEvent: (e) => {
+        if (args.json)
+          io.stdout(e.event === 'file' ? `${rowToJson(e as never)}\n` : `${JSON.stringify(e)}\n`);
+        if (e.event === 'start' && io.isTTY && !args.dryRun) bar = terminalProgress(e.total);
+        if (e.event === 'file' && !bar && !args.json) io.stderr(humanLine(e));
+        else if (e.event === 'file' && bar && e.status === 'failed') {
+          // Failures are worth seeing live, above the bar.
+          process.stderr.write(`\r\x1b[2K${humanLine(e)}`);
+        }
+      },
+      onProgress: (p) => bar?.update(p),
+    });
+    bar?.stop();
+    io.stderr(summaryText(result.summary, result.warnings, result.interrupted));
+    const writeProblems = result.warnings.some((w) => /cannot be written|could not be appended/.test(w));
+    return result.summary.failed > 0 || result.interrupted || writeProblems ? 2 : 0;
+  } finally {
+    bar?.stop();
+    process.removeListener('SIGINT', onSignal);
+    process.removeListener('SIGTERM', onSignal);
+  }
+}
+
 export const command: Command = {
   name: 'batch',
-  summary: 'batch',
-  help: 'rankfold batch: not built yet.',
-  async run() {
-    throw new RankfoldError('`rankfold batch` is not built yet in this version.');
-  },
+  summary: 'compress a whole folder unattended, with a report',
+  help: HELP,
+  run,
 };

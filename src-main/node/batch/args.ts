@@ -1,0 +1,194 @@
+/**
+ * Arguments of `rankfold batch`, parsed into a {@link BatchRunOptions} (without the callbacks) or a merge
+ * request. Kept apart from the command so tests (and docs/scale.md's examples) can parse without running.
+ */
+import { availableParallelism } from 'node:os';
+import {
+  type Budget,
+  type CompressOptions,
+  parseBudgetText,
+  parseIntegerOption,
+  parseNumberOption,
+  parseShardText,
+  type Shard,
+  type TileChoice,
+  UsageError,
+} from '../../contract';
+import { type OptionSpec, parseCommandArgs } from '../cli/command';
+import { DEFAULT_PIXEL_LIMIT } from '../image/decode';
+import { DEFAULT_TIMEOUT_MS } from './run';
+
+export const BATCH_OPTIONS: OptionSpec = {
+  output: { type: 'string', short: 'o' },
+  rank: { type: 'string' },
+  budget: { type: 'string' },
+  bpp: { type: 'string' },
+  'min-psnr': { type: 'string' },
+  'min-ssim': { type: 'string' },
+  tile: { type: 'string' },
+  'pixel-limit': { type: 'string' },
+  jobs: { type: 'string', short: 'j' },
+  include: { type: 'string', multiple: true },
+  exclude: { type: 'string', multiple: true },
+  report: { type: 'string' },
+  manifest: { type: 'string' },
+  resume: { type: 'boolean' },
+  force: { type: 'boolean' },
+  'dry-run': { type: 'boolean' },
+  json: { type: 'boolean' },
+  'expand-check': { type: 'boolean' },
+  timeout: { type: 'string' },
+  shard: { type: 'string' },
+  merge: { type: 'boolean' },
+};
+
+/** Default tile choice when --tile is not given. */
+export const DEFAULT_TILE: TileChoice = 'auto';
+
+export interface ParsedBatch {
+  mode: 'run';
+  inDir: string;
+  outDir: string;
+  compress: CompressOptions;
+  jobs: number;
+  include: string[];
+  exclude: string[];
+  shard: Shard;
+  resume: boolean;
+  force: boolean;
+  dryRun: boolean;
+  json: boolean;
+  expandCheck: boolean;
+  timeoutMs: number;
+  report?: string;
+  manifest?: string;
+}
+
+export interface ParsedMerge {
+  mode: 'merge';
+  manifests: string[];
+  outDir?: string;
+  report?: string;
+  manifest?: string;
+  json: boolean;
+}
+
+const str = (v: unknown) => (typeof v === 'string' ? v : undefined);
+
+/** Read the one budget option. Exactly one of --rank, --budget, --bpp, --min-psnr, --min-ssim. */
+export function parseBudgetOptions(values: Record<string, unknown>): Budget {
+  const given = ['rank', 'budget', 'bpp', 'min-psnr', 'min-ssim'].filter((k) => values[k] !== undefined);
+  if (given.length === 0)
+    throw new UsageError(
+      'batch: give one budget: --rank K, --budget SIZE (e.g. 250kB or 5%), --bpp X, --min-psnr DB or --min-ssim S',
+    );
+  if (given.length > 1)
+    throw new UsageError(`batch: give only one budget, not ${given.map((g) => `--${g}`).join(' and ')}`);
+  const k = given[0];
+  const v = str(values[k]);
+  switch (k) {
+    case 'rank':
+      return { kind: 'rank', rank: parseIntegerOption('rank', v, 1, 65535) };
+    case 'budget':
+      return parseBudgetText(v ?? '');
+    case 'bpp':
+      return { kind: 'bpp', bpp: parseNumberOption('bpp', v, 0.001, 64) };
+    case 'min-psnr':
+      return { kind: 'psnr', db: parseNumberOption('min-psnr', v, 1, 200) };
+    default:
+      return { kind: 'ssim', value: parseNumberOption('min-ssim', v, 0.0001, 1) };
+  }
+}
+
+export function parseTileOption(text: string | undefined): TileChoice {
+  if (text === undefined) return DEFAULT_TILE;
+  if (text.trim() === 'auto') return 'auto';
+  if (text.trim() === '0') return 0;
+  return parseIntegerOption('tile', text, 16, 512);
+}
+
+/** Parse `rankfold batch …` argv. @throws UsageError */
+export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
+  const { values, positionals } = parseCommandArgs('batch', argv, BATCH_OPTIONS, Number.POSITIVE_INFINITY);
+  if (values.merge) {
+    if (!positionals.length)
+      throw new UsageError('batch --merge: give one or more shard manifests (rankfold-manifest-*.jsonl)');
+    const bad = [
+      'rank',
+      'budget',
+      'bpp',
+      'min-psnr',
+      'min-ssim',
+      'tile',
+      'resume',
+      'shard',
+      'dry-run',
+      'expand-check',
+      'jobs',
+    ].filter((k) => values[k] !== undefined);
+    if (bad.length)
+      throw new UsageError(
+        `batch --merge only joins manifests; it does not take ${bad.map((b) => `--${b}`).join(', ')}`,
+      );
+    return {
+      mode: 'merge',
+      manifests: positionals,
+      outDir: str(values.output),
+      report: str(values.report),
+      manifest: str(values.manifest),
+      json: Boolean(values.json),
+    };
+  }
+  if (positionals.length !== 1)
+    throw new UsageError(
+      positionals.length
+        ? `batch: give one input folder, not ${positionals.length} (${positionals.join(' ')}). See \`rankfold batch --help\`.`
+        : 'batch: give an input folder: rankfold batch IN_DIR -o OUT_DIR. See `rankfold batch --help`.',
+    );
+  const outDir = str(values.output);
+  if (!outDir)
+    throw new UsageError('batch: give an output folder with -o OUT_DIR (outside the input folder)');
+  if (values.resume && values.force)
+    throw new UsageError(
+      'batch: --resume keeps matching outputs and --force rewrites them all; give one of them',
+    );
+  const budget = parseBudgetOptions(values);
+  const compress: CompressOptions = {
+    budget,
+    tile: parseTileOption(str(values.tile)),
+    pixelLimit:
+      values['pixel-limit'] !== undefined
+        ? parseIntegerOption('pixel-limit', str(values['pixel-limit']), 1, Number.MAX_SAFE_INTEGER)
+        : DEFAULT_PIXEL_LIMIT,
+  };
+  const jobs =
+    values.jobs !== undefined ? parseIntegerOption('jobs', str(values.jobs), 1, 256) : availableParallelism();
+  const timeoutMs =
+    values.timeout !== undefined
+      ? Math.round(parseNumberOption('timeout', str(values.timeout), 0, 7 * 24 * 3600) * 1000)
+      : DEFAULT_TIMEOUT_MS;
+  const report = str(values.report);
+  if (report !== undefined && !/\.html?$/i.test(report))
+    throw new UsageError(`batch: --report takes an .html file name, not ${JSON.stringify(report)}`);
+  const manifest = str(values.manifest);
+  if (manifest !== undefined && !/\.jsonl$/i.test(manifest))
+    throw new UsageError(`batch: --manifest takes a .jsonl file name, not ${JSON.stringify(manifest)}`);
+  return {
+    mode: 'run',
+    inDir: positionals[0],
+    outDir,
+    compress,
+    jobs,
+    include: (values.include as string[] | undefined) ?? [],
+    exclude: (values.exclude as string[] | undefined) ?? [],
+    shard: values.shard !== undefined ? parseShardText(str(values.shard) ?? '') : { index: 0, count: 1 },
+    resume: Boolean(values.resume),
+    force: Boolean(values.force),
+    dryRun: Boolean(values['dry-run']),
+    json: Boolean(values.json),
+    expandCheck: Boolean(values['expand-check']),
+    timeoutMs,
+    report,
+    manifest,
+  };
+}

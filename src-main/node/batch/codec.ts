@@ -1,0 +1,72 @@
+/**
+ * The batch runner's view of the codec: `compressFile` and `expandFile` from src-main/node/services.
+ * They are imported lazily inside the worker so the main thread stays light, and so a build without the
+ * codec still gives a clear per-file error instead of failing to start.
+ */
+import { createHash } from 'node:crypto';
+import { createReadStream } from 'node:fs';
+import { type CompressOptions, type CompressReport, InputError, RankfoldError } from '../../contract';
+
+export type CompressFile = (
+  input: string,
+  output: string,
+  options: CompressOptions,
+  hooks?: { onProgress?: (p: unknown) => void; signal?: AbortSignal },
+) => Promise<CompressReport>;
+
+export type ExpandFile = (input: string, output: string, options?: { force?: boolean }) => Promise<unknown>;
+
+let compressor: CompressFile | undefined;
+
+/** Load `compressFile` from src-main/node/services/compress. */
+export async function loadCompressor(): Promise<CompressFile> {
+  if (compressor) return compressor;
+  let mod: { compressFile?: CompressFile };
+  try {
+    // @ts-expect-error -- resolved by the build once the codec service exists.
+    mod = await import('../services/compress');
+  } catch (err) {
+    throw new RankfoldError(
+      `this build has no compressor (src-main/node/services/compress): ${(err as Error).message}`,
+    );
+  }
+  if (typeof mod.compressFile !== 'function')
+    throw new RankfoldError('this build has no compressFile in services/compress');
+  compressor = mod.compressFile;
+  return compressor;
+}
+
+/** Load `expandFile` from src-main/node/services/expand, used by --expand-check and report thumbnails. */
+export async function loadExpander(): Promise<ExpandFile> {
+  let mod: { expandFile?: ExpandFile };
+  try {
+    // @ts-expect-error -- resolved by the build once the codec service exists.
+    mod = await import('../services/expand');
+  } catch (err) {
+    throw new RankfoldError(
+      `this build has no container reader (src-main/node/services/expand): ${(err as Error).message}`,
+    );
+  }
+  if (typeof mod.expandFile !== 'function')
+    throw new RankfoldError('this build has no expandFile in services/expand');
+  return mod.expandFile;
+}
+
+/** SHA-256 (hex) of a file's bytes, streamed. Errors name the file. */
+export function hashFile(file: string): Promise<string> {
+  return new Promise((resolve, reject) => {
+    const h = createHash('sha256');
+    const s = createReadStream(file);
+    s.on('data', (c) => h.update(c));
+    s.on('end', () => resolve(h.digest('hex')));
+    s.on('error', (err) => {
+      const code = (err as NodeJS.ErrnoException).code;
+      if (code === 'EACCES' || code === 'EPERM')
+        reject(new InputError(file, 'permission denied when reading'));
+      else if (code === 'ENOENT')
+        reject(new InputError(file, 'no such file (it disappeared during the batch)'));
+      else if (code === 'EISDIR') reject(new InputError(file, 'is a folder, not an image file'));
+      else reject(new InputError(file, `cannot be read (${code ?? err.message})`));
+    });
+  });
+}

@@ -1,0 +1,378 @@
+/**
+ * Run a batch: plan, resume, dispatch to the worker pool, journal every finished file, and write the
+ * manifest, CSV and HTML report at the end. Used by `rankfold batch` and by any other transport.
+ */
+import { mkdir, readdir, stat, unlink } from 'node:fs/promises';
+import { availableParallelism } from 'node:os';
+import { basename, dirname, join } from 'node:path';
+import {
+  type BatchEvent,
+  type BatchRow,
+  type BatchSummary,
+  type CompressOptions,
+  type ErrorPayload,
+  MANIFEST_VERSION,
+  type Shard,
+  shardText,
+  toErrorPayload,
+} from '../../contract';
+import { TEMP_PREFIX, writeFileAtomic } from '../io/atomic';
+import { hashFile } from './codec';
+import type { BatchJob, BatchJobResult } from './job';
+import { ManifestJournal, manifestBase, readManifest, rowsToCsv, writeManifest } from './manifest';
+import { checkFolders, type PlannedFile, planBatch } from './plan';
+import { WorkerPool } from './pool';
+import { writeReport } from './report';
+
+/** Default per-file limit: 30 minutes, far above a 300-megapixel scan on one core. */
+export const DEFAULT_TIMEOUT_MS = 30 * 60 * 1000;
+
+export interface BatchRunOptions {
+  inDir: string;
+  outDir: string;
+  compress: CompressOptions;
+  /** Worker threads. Default: the number of cores. */
+  jobs?: number;
+  include?: string[];
+  exclude?: string[];
+  shard?: Shard;
+  resume?: boolean;
+  dryRun?: boolean;
+  /** Overwrite existing outputs. */
+  force?: boolean;
+  expandCheck?: boolean;
+  /** Per-file limit in ms; 0 = none. */
+  timeoutMs?: number;
+  /** Manifest path; default OUT_DIR/rankfold-manifest[-IofN].jsonl. The CSV sits beside it. */
+  manifest?: string;
+  /** HTML report path; default beside the manifest. */
+  report?: string;
+  /** Built worker file (dist/workers/batch.js). */
+  workerFile: string | URL;
+  /** Called for every event (start, each file, end). */
+  onEvent?: (e: BatchEvent) => void;
+  /** Called when a job reports progress, with bytes of input finished so far. */
+  onProgress?: (p: {
+    done: number;
+    total: number;
+    bytesDone: number;
+    bytesTotal: number;
+    failed: number;
+  }) => void;
+  /** Abort: queued files are not started, running ones are stopped; finished rows are kept. */
+  signal?: AbortSignal;
+}
+
+export interface BatchResult {
+  summary: BatchSummary;
+  rows: BatchRow[];
+  /** Non-fatal problems: folders that could not be listed, manifest/report write errors. */
+  warnings: string[];
+  interrupted: boolean;
+}
+
+/** Remove our own stale temp files for the given outputs (never another shard's). */
+export async function sweepTemps(outputs: string[]): Promise<number> {
+  const byDir = new Map<string, Set<string>>();
+  for (const o of outputs) {
+    const d = dirname(o);
+    const set = byDir.get(d) ?? new Set<string>();
+    set.add(basename(o));
+    byDir.set(d, set);
+  }
+  let removed = 0;
+  for (const [dir, names] of byDir) {
+    let entries: string[];
+    try {
+      entries = await readdir(dir);
+    } catch {
+      continue;
+    }
+    for (const e of entries) {
+      if (!e.startsWith(TEMP_PREFIX)) continue;
+      // Temp names are `${TEMP_PREFIX}<12 hex>-<final name>`.
+      const m = /^[0-9a-f]{12}-(.*)$/s.exec(e.slice(TEMP_PREFIX.length));
+      if (!m || !names.has(m[1])) continue;
+      try {
+        await unlink(join(dir, e));
+        removed++;
+      } catch {}
+    }
+  }
+  return removed;
+}
+
+function baseRow(f: PlannedFile, shard: string): BatchRow {
+  return {
+    v: MANIFEST_VERSION,
+    path: f.path,
+    output: f.output,
+    inputAbs: f.inputAbs,
+    outputAbs: f.outputAbs,
+    status: 'planned',
+    shard,
+    at: new Date().toISOString(),
+  };
+}
+
+function rowFromResult(f: PlannedFile, shard: string, r: BatchJobResult): BatchRow {
+  const rep = r.report;
+  const row: BatchRow = {
+    ...baseRow(f, shard),
+    fileSha256: r.fileSha256,
+    sourceSha256: rep.sourceSha256,
+    inputBytes: rep.inputBytes,
+    rawBytes: rep.rawBytes,
+    bytes: rep.outputBytes,
+    ratio: rep.ratio,
+    bpp: rep.bpp,
+    psnr: rep.psnr,
+    ssim: rep.ssim,
+    width: rep.width,
+    height: rep.height,
+    channels: rep.channels,
+    bitDepth: rep.bitDepth,
+    ranks: rep.ranks,
+    timeMs: r.timeMs,
+    status: 'ok',
+  };
+  if (r.check) {
+    row.check = r.check;
+    if (!r.check.ok) {
+      row.status = 'failed';
+      row.error = { name: 'CheckError', message: `${f.path}: --expand-check failed: ${r.check.message}` };
+    }
+  }
+  return row;
+}
+
+function failedRow(f: PlannedFile, shard: string, error: ErrorPayload, timeMs?: number): BatchRow {
+  return { ...baseRow(f, shard), status: 'failed', error, inputBytes: f.size, timeMs };
+}
+
+async function existingSize(p: string): Promise<number | undefined> {
+  try {
+    const s = await stat(p);
+    return s.isFile() ? s.size : undefined;
+  } catch {
+    return undefined;
+  }
+}
+
+/** Run `n` async tasks over items with at most `limit` at once, in order of items. */
+async function eachLimit<T>(items: T[], limit: number, fn: (t: T) => Promise<void>) {
+  let i = 0;
+  await Promise.all(
+    Array.from({ length: Math.min(limit, items.length) }, async () => {
+      while (i < items.length) await fn(items[i++]);
+    }),
+  );
+}
+
+export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
+  const started = performance.now();
+  const { inDir, outDir } = await checkFolders(o.inDir, o.outDir);
+  const shard = o.shard ?? { index: 0, count: 1 };
+  const shardLabel = shardText(shard);
+  const plan = await planBatch(inDir, outDir, { include: o.include, exclude: o.exclude, shard });
+  const warnings = plan.problems.map((p) => `${p.path}: ${p.message}`);
+  const jobs = Math.max(1, Math.min(o.jobs ?? availableParallelism(), 256));
+  const base = manifestBase(shard.index, shard.count);
+  const manifestPath = o.manifest ?? join(outDir, `${base}.jsonl`);
+  const csvPath = manifestPath.replace(/\.jsonl?$/i, '') + '.csv';
+  const reportPath = o.report ?? manifestPath.replace(/\.jsonl?$/i, '') + '.html';
+
+  // Resume: which outputs are already right?
+  const previous = new Map<string, BatchRow>();
+  if (o.resume) {
+    try {
+      for (const r of (await readManifest(manifestPath)).rows) previous.set(r.path, r);
+    } catch (err) {
+      warnings.push(
+        `previous manifest ${manifestPath} cannot be read (${(err as Error).message}); every output is checked again`,
+      );
+    }
+  }
+  const kept = new Map<string, BatchRow>();
+  const overwrite = new Set<string>();
+  if (o.resume) {
+    await eachLimit(plan.files, jobs, async (f) => {
+      const size = await existingSize(f.outputAbs);
+      if (size === undefined) return;
+      const prev = previous.get(f.path);
+      if (
+        prev &&
+        (prev.status === 'ok' || prev.status === 'kept') &&
+        prev.output === f.output &&
+        prev.bytes === size &&
+        prev.fileSha256
+      ) {
+        try {
+          if ((await hashFile(f.inputAbs)) === prev.fileSha256) {
+            kept.set(f.path, {
+              ...prev,
+              inputAbs: f.inputAbs,
+              outputAbs: f.outputAbs,
+              status: 'kept',
+              shard: shardLabel,
+            });
+            return;
+          }
+        } catch {
+          // Unreadable now: compress again, which reports the problem for this file.
+        }
+      }
+      // An output with no matching record (a kill between rename and journal, or a changed source): redo it.
+      overwrite.add(f.path);
+    });
+  }
+  const todo = plan.files.filter((f) => !kept.has(f.path));
+  const total = plan.files.length;
+  const bytesTotal = todo.reduce((s, f) => s + f.size, 0);
+  o.onEvent?.({ event: 'start', total, kept: kept.size, jobs, shard: shardLabel, inDir, outDir });
+
+  const rows: BatchRow[] = [];
+  let done = 0;
+  let failed = 0;
+  let bytesDone = 0;
+  const emit = (row: BatchRow) => {
+    done++;
+    if (row.status === 'failed') failed++;
+    o.onEvent?.({ event: 'file', done, total, ...row });
+    o.onProgress?.({ done, total, bytesDone, bytesTotal, failed });
+  };
+  for (const f of plan.files) {
+    const k = kept.get(f.path);
+    if (k) {
+      rows.push(k);
+      emit(k);
+    }
+  }
+
+  if (o.dryRun) {
+    for (const f of todo) {
+      const row = baseRow(f, shardLabel);
+      rows.push(row);
+      emit(row);
+    }
+    return finish(false);
+  }
+
+  // Folders and the journal. A folder we cannot create is reported per file by the compressor.
+  try {
+    await mkdir(outDir, { recursive: true });
+  } catch (err) {
+    warnings.push(
+      `output folder ${outDir} cannot be created (${(err as NodeJS.ErrnoException).code ?? (err as Error).message})`,
+    );
+  }
+  await sweepTemps(plan.files.map((f) => f.outputAbs));
+  const journal = new ManifestJournal(manifestPath);
+  let journalOk = true;
+  try {
+    await journal.open(!o.resume);
+  } catch (err) {
+    journalOk = false;
+    warnings.push(
+      `manifest ${manifestPath} cannot be written (${(err as NodeJS.ErrnoException).code ?? (err as Error).message}); rows are only in the --json output`,
+    );
+  }
+
+  let interrupted = false;
+  const pool = new WorkerPool<BatchJob, BatchJobResult>(
+    o.workerFile,
+    Math.min(jobs, Math.max(1, todo.length)),
+  );
+  const onAbort = () => {
+    interrupted = true;
+    void pool.close();
+  };
+  if (o.signal?.aborted) onAbort();
+  o.signal?.addEventListener('abort', onAbort, { once: true });
+  try {
+    await Promise.all(
+      todo.map(async (f) => {
+        const outcome = await pool.run(
+          {
+            input: f.inputAbs,
+            output: f.outputAbs,
+            options: o.compress,
+            overwrite: Boolean(o.force) || overwrite.has(f.path),
+            expandCheck: Boolean(o.expandCheck),
+          },
+          { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: f.path },
+        );
+        if (!outcome.ok && outcome.error.name === 'CancelledError') return;
+        bytesDone += f.size;
+        let row: BatchRow;
+        if (outcome.ok) row = rowFromResult(f, shardLabel, outcome.value);
+        else {
+          // A stopped worker may have left its temp file behind.
+          await sweepTemps([f.outputAbs]);
+          row = failedRow(f, shardLabel, outcome.error);
+        }
+        rows.push(row);
+        if (journalOk) await journal.append(row);
+        emit(row);
+      }),
+    );
+  } finally {
+    o.signal?.removeEventListener('abort', onAbort);
+    await pool.close();
+    await journal.close();
+  }
+  if (journal.error)
+    warnings.push(`manifest ${manifestPath}: a row could not be appended (${journal.error.message})`);
+  return finish(interrupted);
+
+  async function finish(wasInterrupted: boolean): Promise<BatchResult> {
+    const summary: BatchSummary = {
+      total,
+      ok: rows.filter((r) => r.status === 'ok').length,
+      kept: rows.filter((r) => r.status === 'kept').length,
+      failed: rows.filter((r) => r.status === 'failed').length,
+      planned: rows.filter((r) => r.status === 'planned').length,
+      inputBytes: rows.reduce((s, r) => s + (r.inputBytes ?? 0), 0),
+      outputBytes: rows.reduce((s, r) => s + (r.status === 'failed' ? 0 : (r.bytes ?? 0)), 0),
+      megapixels: rows.reduce(
+        (s, r) => s + (r.status === 'ok' && r.width && r.height ? (r.width * r.height) / 1e6 : 0),
+        0,
+      ),
+      elapsedMs: performance.now() - started,
+      failures: rows
+        .filter((r) => r.status === 'failed')
+        .map((r) => r.path)
+        .sort(),
+    };
+    if (!o.dryRun) {
+      // Kept rows from an interrupted run are still true; unstarted files simply have no row yet.
+      try {
+        await writeManifest(manifestPath, rows);
+        summary.manifest = manifestPath;
+      } catch (err) {
+        warnings.push(`manifest ${manifestPath} cannot be written (${(err as Error).message})`);
+      }
+      try {
+        await writeFileAtomic(csvPath, rowsToCsv(rows), { force: true });
+        summary.csv = csvPath;
+      } catch (err) {
+        warnings.push(`CSV ${csvPath} cannot be written (${(err as Error).message})`);
+      }
+      try {
+        await writeReport(reportPath, rows, {
+          title: `Rankfold batch of ${inDir}`,
+          inDir,
+          outDir,
+          shards: [shardLabel],
+          elapsedMs: summary.elapsedMs,
+          warnings,
+        });
+        summary.report = reportPath;
+      } catch (err) {
+        warnings.push(`report ${reportPath} cannot be written (${toErrorPayload(err).message})`);
+      }
+    }
+    o.onEvent?.({ event: 'end', summary });
+    return { summary, rows, warnings, interrupted: wasInterrupted };
+  }
+}

@@ -1,0 +1,39 @@
+/**
+ * Batch worker: compresses one file per job (see src-main/node/batch/pool.ts for the protocol).
+ * Everything that can go wrong with one file is caught here and returned as an ErrorPayload, so the
+ * batch goes on; a crash of this thread is contained by the pool.
+ */
+import { parentPort } from 'node:worker_threads';
+import { toErrorPayload } from '../../contract';
+import { expandCheck } from '../batch/check';
+import { hashFile, loadCompressor } from '../batch/codec';
+import type { BatchJob, BatchJobResult } from '../batch/job';
+import { probeImage } from '../image/decode';
+
+if (!parentPort) throw new Error('src-main/node/workers/batch.ts must run as a worker thread');
+const port = parentPort;
+
+port.on('message', async (msg: { type: string; id: number; payload: BatchJob }) => {
+  if (msg.type !== 'job') return;
+  const { id, payload } = msg;
+  const started = performance.now();
+  try {
+    const fileSha256 = await hashFile(payload.input);
+    // Header check first: empty, non-image, unsupported depth and over-limit files fail here, fast and with one wording.
+    await probeImage(payload.input, { page: payload.options.page, pixelLimit: payload.options.pixelLimit });
+    const compressFile = await loadCompressor();
+    const report = await compressFile(
+      payload.input,
+      payload.output,
+      { ...payload.options, force: payload.overwrite },
+      { onProgress: (p: unknown) => port.postMessage({ type: 'progress', id, data: p }) },
+    );
+    const check = payload.expandCheck
+      ? await expandCheck(payload.input, payload.output, report, payload.options)
+      : undefined;
+    const result: BatchJobResult = { report, fileSha256, check, timeMs: performance.now() - started };
+    port.postMessage({ type: 'done', id, result });
+  } catch (err) {
+    port.postMessage({ type: 'error', id, error: toErrorPayload(err) });
+  }
+});
