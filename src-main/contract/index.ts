@@ -7,4 +7,3 @@ export * from './validate';
 export * from './image';
 export * from './compress';
 export * from './batch';
-export * from './api';
