@@ -22,8 +22,11 @@ for (const file of list(asmDir, /\.ts$/)) {
   const out = join(genDir, `${name}.wasm`);
   execFileSync(
     process.execPath,
+    // Files named *-shared.ts import a shared memory (worker threads need a declared maximum: 4 GiB);
+    // the others import a plain growable memory, which browser pages can create without cross-origin isolation.
     [ascBin, join(asmDir, file), '-o', out, '-O3', '--noAssert', '--runtime', 'stub', '--enable', 'simd',
-      '--importMemory', '--sharedMemory', '--initialMemory', '1', '--maximumMemory', '65536', '--exportRuntime'],
+      '--importMemory', '--initialMemory', '1',
+      ...(name.endsWith('-shared') ? ['--enable', 'threads', '--sharedMemory', '--maximumMemory', '65536'] : [])],
     { cwd: root, stdio: 'inherit' },
   );
   const b64 = readFileSync(out).toString('base64');

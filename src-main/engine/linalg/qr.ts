@@ -1,0 +1,270 @@
+/**
+ * Thin QR factorisations of tall m×l blocks: CholeskyQR2 (with a shifted first pass and extra passes
+ * when needed) on the fast product kernel, and Householder QR as the fallback for rank-deficient or
+ * very ill-conditioned blocks.
+ *
+ * References
+ * - T. Fukaya, Y. Nakatsukasa, Y. Yanagisawa, Y. Yamamoto, "CholeskyQR2: a simple and
+ *   communication-avoiding algorithm for computing a tall-skinny QR factorization", ScalA 2014, IEEE.
+ *   doi:10.1109/ScalA.2014.11. §3: two passes give orthogonality O(u) when u·κ(X)² ≲ 1.
+ * - T. Fukaya, R. Kannan, Y. Nakatsukasa, Y. Yamamoto, Y. Yanagisawa, "Shifted Cholesky QR for
+ *   computing the QR factorization of ill-conditioned matrices", SIAM J. Sci. Comput. 42(1):A477–A503,
+ *   2020. doi:10.1137/18M1218212. §3, shift s = 11(ml + l(l+1))·u·‖X‖₂² (we use ‖X‖_F² ≥ ‖X‖₂²).
+ * - G. H. Golub, C. F. Van Loan, "Matrix Computations", 4th ed., Johns Hopkins 2013, §5.2.2
+ *   (Householder QR, Algorithm 5.2.1) — section number from memory.
+ */
+import type { FloatArray } from './matrix';
+import type { Workspace } from './workspace';
+
+/** Unit roundoff of float64 and float32. */
+const U64 = 2 ** -53;
+const U32 = 2 ** -24;
+/** ‖QᵀQ − I‖_max below this means one more Cholesky pass gives full working-precision orthogonality (κ ≤ √3). */
+const ACCEPT_DEVIATION = 0.5;
+/** Cholesky passes before giving up and calling Householder (CholeskyQR2 needs 2, shifted CholeskyQR3 needs 3). */
+const MAX_PASSES = 4;
+
+/** Scratch sizes (elements) an `Orthonormalizer` needs for blocks up to m×l: [precision of Y, f64]. */
+export function qrScratch(m: number, l: number, f32: boolean): [number, number] {
+  return f32 ? [m * l + l * l, m * l + 4 * l * l] : [m * l + l * l, 4 * l * l];
+}
+
+/** Scratch buffers for repeated QR of blocks up to maxM×maxL, allocated once from a workspace. */
+export class Orthonormalizer {
+  private readonly Yd: Float64Array | null;
+  private readonly T: FloatArray;
+  private readonly Ri: FloatArray;
+  private readonly G: Float64Array;
+  private readonly Rc: Float64Array;
+  private readonly Rinv: Float64Array;
+  private readonly Rt: Float64Array;
+  /** How many calls ended in the Householder fallback (diagnostics for tests and the bench). */
+  householderCalls = 0;
+  constructor(
+    private readonly ws: Workspace,
+    maxM: number,
+    maxL: number,
+    f32: boolean,
+  ) {
+    this.Yd = f32 ? ws.f64(maxM * maxL) : null;
+    this.T = f32 ? ws.f32(maxM * maxL) : ws.f64(maxM * maxL);
+    this.Ri = f32 ? ws.f32(maxL * maxL) : ws.f64(maxL * maxL);
+    this.G = ws.f64(maxL * maxL);
+    this.Rc = ws.f64(maxL * maxL);
+    this.Rinv = ws.f64(maxL * maxL);
+    this.Rt = ws.f64(maxL * maxL);
+  }
+  /** See `orthonormalize`. */
+  run(Y: FloatArray, m: number, l: number, R?: Float64Array): 'cholesky' | 'householder' {
+    const r = orthonormalizeWith(this.ws, this, Y, m, l, R);
+    if (r === 'householder') this.householderCalls++;
+    return r;
+  }
+  /** @internal */ scratch() {
+    return { Yd: this.Yd, T: this.T, Ri: this.Ri, G: this.G, Rc: this.Rc, Rinv: this.Rinv, Rt: this.Rt };
+  }
+}
+
+/**
+ * Replace the m×l row-major block Y (m ≥ l) by an orthonormal basis Q of its range, Y = Q·R.
+ * When `R` (l×l, f64, row-major) is given it receives the upper-triangular factor.
+ * Runs CholeskyQR2 (Gram matrix in f64 even for f32 blocks); a Cholesky breakdown triggers the
+ * shifted variant; if passes do not converge (numerically rank-deficient Y) it falls back to Householder.
+ * @returns the method that finished: 'cholesky' or 'householder'.
+ */
+export function orthonormalize(ws: Workspace, Y: FloatArray, m: number, l: number, R?: Float64Array): 'cholesky' | 'householder' {
+  return new Orthonormalizer(ws, m, l, Y instanceof Float32Array).run(Y, m, l, R);
+}
+
+function orthonormalizeWith(
+  ws: Workspace,
+  o: Orthonormalizer,
+  Y: FloatArray,
+  m: number,
+  l: number,
+  R?: Float64Array,
+): 'cholesky' | 'householder' {
+  if (l === 0) return 'cholesky';
+  if (m < l) throw new RangeError(`orthonormalize needs rows ≥ columns, got ${m}×${l}`);
+  const f32 = Y instanceof Float32Array;
+  const u = f32 ? U32 : U64;
+  const sc = o.scratch();
+  const Yd = sc.Yd ? sc.Yd.subarray(0, m * l) : null;
+  const T = sc.T.subarray(0, m * l);
+  const Ri = sc.Ri;
+  const { G, Rc, Rinv, Rt } = sc;
+  if (R) {
+    R.fill(0);
+    for (let i = 0; i < l; i++) R[i * l + i] = 1;
+  }
+  let shifted = false;
+  for (let pass = 0; pass < MAX_PASSES; pass++) {
+    // Gram matrix G = YᵀY in f64 (conversion f32 → f64 is exact).
+    let src: Float64Array;
+    if (Yd) {
+      Yd.set(Y.subarray(0, m * l));
+      src = Yd;
+    } else src = Y as Float64Array;
+    ws.gemm(l, l, m, src, 0, 1, l, src, 0, l, G, 0, l, false);
+    let dev = 0;
+    let frob = 0;
+    for (let i = 0; i < l; i++)
+      for (let j = 0; j < l; j++) {
+        const g = G[i * l + j];
+        dev = Math.max(dev, Math.abs(g - (i === j ? 1 : 0)));
+        if (i === j) frob += g;
+      }
+    if (!Number.isFinite(frob)) throw new RangeError('orthonormalize: block contains NaN or infinity');
+    let shift = 0;
+    if (pass === 0 && shifted) shift = 11 * (m * l + l * (l + 1)) * u * frob;
+    if (!cholesky(G, l, shift, Rc, u)) {
+      if (pass === 0 && !shifted) {
+        shifted = true;
+        pass = -1;
+        continue;
+      }
+      householderInPlace(Y, m, l, R);
+      return 'householder';
+    }
+    invertUpper(Rc, l, Rinv);
+    for (let i = 0; i < l * l; i++) Ri[i] = Rinv[i];
+    ws.gemm(m, l, l, Y, 0, l, 1, Ri, 0, l, T, 0, l, false);
+    Y.set(T, 0);
+    if (R) {
+      // R ← Rc·R (both upper triangular).
+      for (let i = 0; i < l; i++)
+        for (let j = i; j < l; j++) {
+          let s = 0;
+          for (let p = i; p <= j; p++) s += Rc[i * l + p] * R[p * l + j];
+          Rt[i * l + j] = s;
+        }
+      for (let i = 0; i < l; i++) for (let j = 0; j < l; j++) R[i * l + j] = j >= i ? Rt[i * l + j] : 0;
+    }
+    if (dev < ACCEPT_DEVIATION && !(shift > 0)) return 'cholesky';
+  }
+  householderInPlace(Y, m, l, R);
+  return 'householder';
+}
+
+/**
+ * Upper Cholesky factor of (G + shift·I) into Rc; false on breakdown. A pivot below
+ * `BREAKDOWN·u·max diag` counts as breakdown: it means κ(Y)² exceeds what precision u can represent.
+ */
+function cholesky(G: Float64Array, l: number, shift: number, Rc: Float64Array, u: number): boolean {
+  let maxDiag = 0;
+  for (let i = 0; i < l; i++) maxDiag = Math.max(maxDiag, G[i * l + i] + shift);
+  if (!(maxDiag > 0)) return false;
+  const floor = l * u * maxDiag;
+  Rc.fill(0);
+  for (let j = 0; j < l; j++) {
+    let d = G[j * l + j] + shift;
+    for (let p = 0; p < j; p++) d -= Rc[p * l + j] * Rc[p * l + j];
+    if (!(d > floor)) return false;
+    const rjj = Math.sqrt(d);
+    Rc[j * l + j] = rjj;
+    for (let i = j + 1; i < l; i++) {
+      let s = 0.5 * (G[j * l + i] + G[i * l + j]);
+      for (let p = 0; p < j; p++) s -= Rc[p * l + j] * Rc[p * l + i];
+      Rc[j * l + i] = s / rjj;
+    }
+  }
+  return true;
+}
+
+/** Inverse of an upper-triangular l×l matrix (back substitution, column by column). */
+function invertUpper(Rc: Float64Array, l: number, out: Float64Array): void {
+  out.fill(0);
+  for (let j = 0; j < l; j++) {
+    out[j * l + j] = 1 / Rc[j * l + j];
+    for (let i = j - 1; i >= 0; i--) {
+      let s = 0;
+      for (let p = i + 1; p <= j; p++) s += Rc[i * l + p] * out[p * l + j];
+      out[i * l + j] = -s / Rc[i * l + i];
+    }
+  }
+}
+
+/**
+ * Householder QR in f64: Y (m×l, m ≥ l) ← Q (thin, orthonormal columns); if R is given, R ← R_h·R.
+ * Zero columns give unit vectors of the completion, so Q is orthonormal even for Y = 0.
+ */
+export function householderInPlace(Y: FloatArray, m: number, l: number, R?: Float64Array): void {
+  const W = new Float64Array(m * l);
+  for (let i = 0; i < m * l; i++) W[i] = Y[i];
+  const Rh = householderQr(W, m, l);
+  for (let i = 0; i < m * l; i++) Y[i] = W[i];
+  if (R) {
+    const out = new Float64Array(l * l);
+    for (let i = 0; i < l; i++)
+      for (let j = i; j < l; j++) {
+        let s = 0;
+        for (let p = i; p <= j; p++) s += Rh[i * l + p] * R[p * l + j];
+        out[i * l + j] = s;
+      }
+    R.set(out);
+  }
+}
+
+/**
+ * Householder QR of the m×l row-major f64 matrix W (m ≥ l), overwritten by the thin Q; returns R (l×l).
+ * Sign convention: diag(R) ≥ 0.
+ */
+export function householderQr(W: Float64Array, m: number, l: number): Float64Array {
+  if (m < l) throw new RangeError(`householderQr needs rows ≥ columns, got ${m}×${l}`);
+  // Work on columns (transposed copy) so each reflector touches contiguous memory.
+  const C = new Float64Array(l * m);
+  for (let i = 0; i < m; i++) for (let j = 0; j < l; j++) C[j * m + i] = W[i * l + j];
+  const V = new Float64Array(l * m);
+  const beta = new Float64Array(l);
+  const R = new Float64Array(l * l);
+  for (let j = 0; j < l; j++) {
+    const cj = j * m;
+    let norm = 0;
+    for (let i = j; i < m; i++) norm += C[cj + i] * C[cj + i];
+    norm = Math.sqrt(norm);
+    const vj = j * m;
+    if (norm === 0) {
+      beta[j] = 0;
+    } else {
+      const x0 = C[cj + j];
+      const alpha = x0 >= 0 ? -norm : norm;
+      for (let i = j; i < m; i++) V[vj + i] = C[cj + i];
+      V[vj + j] = x0 - alpha;
+      let vv = 0;
+      for (let i = j; i < m; i++) vv += V[vj + i] * V[vj + i];
+      beta[j] = vv > 0 ? 2 / vv : 0;
+      // Apply to the remaining columns.
+      for (let c = j; c < l; c++) {
+        const cc = c * m;
+        let d = 0;
+        for (let i = j; i < m; i++) d += V[vj + i] * C[cc + i];
+        d *= beta[j];
+        if (d !== 0) for (let i = j; i < m; i++) C[cc + i] -= d * V[vj + i];
+      }
+    }
+    for (let i = 0; i <= j; i++) R[i * l + j] = C[cj + i];
+  }
+  // Form thin Q = H_0 … H_{l-1} [I; 0] column by column (stored in C).
+  C.fill(0);
+  for (let c = 0; c < l; c++) {
+    const cc = c * m;
+    C[cc + c] = 1;
+    for (let j = Math.min(c, l - 1); j >= 0; j--) {
+      if (beta[j] === 0) continue;
+      const vj = j * m;
+      let d = 0;
+      for (let i = j; i < m; i++) d += V[vj + i] * C[cc + i];
+      d *= beta[j];
+      if (d !== 0) for (let i = j; i < m; i++) C[cc + i] -= d * V[vj + i];
+    }
+  }
+  // Make diag(R) ≥ 0.
+  for (let j = 0; j < l; j++) {
+    if (R[j * l + j] < 0) {
+      for (let c = j; c < l; c++) R[j * l + c] = -R[j * l + c];
+      for (let i = 0; i < m; i++) C[j * m + i] = -C[j * m + i];
+    }
+  }
+  for (let i = 0; i < m; i++) for (let j = 0; j < l; j++) W[i * l + j] = C[j * m + i];
+  return R;
+}

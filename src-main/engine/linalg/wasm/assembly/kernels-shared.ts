@@ -1,0 +1,2 @@
+// Same kernels, compiled against a shared memory for the worker threads (src-main/node/parallel).
+export * from './kernels';

@@ -1,0 +1,203 @@
+// AssemblyScript source of the WebAssembly SIMD kernels (compiled by scripts/build.mjs).
+// All pointers are byte offsets into the imported memory; the host (wasm/runtime.ts) owns allocation.
+// The matrices are row-major. A(i,p) is read at a + 4·(i·rsA + p·csA) (f32) or 8·(…) (f64), which lets
+// one kernel serve both A·B (rsA = lda, csA = 1) and Aᵀ·B (rsA = 1, csA = lda). B and C are row-major
+// with leading dimensions ldb and ldc.
+//
+// Reference for the blocking: K. Goto, R. A. van de Geijn, "Anatomy of high-performance matrix
+// multiplication", ACM TOMS 34(3), 2008, doi:10.1145/1356052.1356053, §4 (register block, L1 panel of B).
+
+/** Depth of one K block: a 4×KC strip of A (4 KiB in f32) stays in L1 while all of B's KC×n panel streams. */
+const KC: i32 = 256;
+
+// ---------------------------------------------------------------- f32, register block 4 rows × 8 columns
+@inline function kern4x8f32(kc: i32, pa: usize, rA: usize, sA: usize, pb: usize, sB: usize, pc: usize, ldc4: usize, acc: bool): void {
+  let c00 = f32x4.splat(0), c01 = f32x4.splat(0);
+  let c10 = f32x4.splat(0), c11 = f32x4.splat(0);
+  let c20 = f32x4.splat(0), c21 = f32x4.splat(0);
+  let c30 = f32x4.splat(0), c31 = f32x4.splat(0);
+  for (let p = 0; p < kc; p++) {
+    const b0 = v128.load(pb);
+    const b1 = v128.load(pb, 16);
+    let a = f32x4.splat(load<f32>(pa));
+    c00 = f32x4.add(c00, f32x4.mul(a, b0)); c01 = f32x4.add(c01, f32x4.mul(a, b1));
+    a = f32x4.splat(load<f32>(pa + rA));
+    c10 = f32x4.add(c10, f32x4.mul(a, b0)); c11 = f32x4.add(c11, f32x4.mul(a, b1));
+    a = f32x4.splat(load<f32>(pa + 2 * rA));
+    c20 = f32x4.add(c20, f32x4.mul(a, b0)); c21 = f32x4.add(c21, f32x4.mul(a, b1));
+    a = f32x4.splat(load<f32>(pa + 3 * rA));
+    c30 = f32x4.add(c30, f32x4.mul(a, b0)); c31 = f32x4.add(c31, f32x4.mul(a, b1));
+    pa += sA;
+    pb += sB;
+  }
+  if (acc) {
+    c00 = f32x4.add(c00, v128.load(pc)); c01 = f32x4.add(c01, v128.load(pc, 16)); 
+    c10 = f32x4.add(c10, v128.load(pc + ldc4)); c11 = f32x4.add(c11, v128.load(pc + ldc4, 16));
+    c20 = f32x4.add(c20, v128.load(pc + 2 * ldc4)); c21 = f32x4.add(c21, v128.load(pc + 2 * ldc4, 16));
+    c30 = f32x4.add(c30, v128.load(pc + 3 * ldc4)); c31 = f32x4.add(c31, v128.load(pc + 3 * ldc4, 16));
+  }
+  v128.store(pc, c00); v128.store(pc, c01, 16);
+  v128.store(pc + ldc4, c10); v128.store(pc + ldc4, c11, 16);
+  v128.store(pc + 2 * ldc4, c20); v128.store(pc + 2 * ldc4, c21, 16);
+  v128.store(pc + 3 * ldc4, c30); v128.store(pc + 3 * ldc4, c31, 16);
+}
+
+@inline function kern1x8f32(kc: i32, pa: usize, sA: usize, pb: usize, sB: usize, pc: usize, acc: bool): void {
+  let c0 = f32x4.splat(0), c1 = f32x4.splat(0);
+  for (let p = 0; p < kc; p++) {
+    const a = f32x4.splat(load<f32>(pa));
+    c0 = f32x4.add(c0, f32x4.mul(a, v128.load(pb)));
+    c1 = f32x4.add(c1, f32x4.mul(a, v128.load(pb, 16)));
+    pa += sA;
+    pb += sB;
+  }
+  if (acc) { c0 = f32x4.add(c0, v128.load(pc)); c1 = f32x4.add(c1, v128.load(pc, 16)); }
+  v128.store(pc, c0); v128.store(pc, c1, 16);
+}
+
+@inline function kern4x1f32(kc: i32, pa: usize, rA: usize, sA: usize, pb: usize, sB: usize, pc: usize, ldc4: usize, acc: bool): void {
+  let s0: f32 = 0, s1: f32 = 0, s2: f32 = 0, s3: f32 = 0;
+  for (let p = 0; p < kc; p++) {
+    const b = load<f32>(pb);
+    s0 += load<f32>(pa) * b; s1 += load<f32>(pa + rA) * b;
+    s2 += load<f32>(pa + 2 * rA) * b; s3 += load<f32>(pa + 3 * rA) * b;
+    pa += sA;
+    pb += sB;
+  }
+  if (acc) { s0 += load<f32>(pc); s1 += load<f32>(pc + ldc4); s2 += load<f32>(pc + 2 * ldc4); s3 += load<f32>(pc + 3 * ldc4); }
+  store<f32>(pc, s0); store<f32>(pc + ldc4, s1); store<f32>(pc + 2 * ldc4, s2); store<f32>(pc + 3 * ldc4, s3);
+}
+
+@inline function kern1x1f32(kc: i32, pa: usize, sA: usize, pb: usize, sB: usize, pc: usize, acc: bool): void {
+  let s: f32 = 0;
+  for (let p = 0; p < kc; p++) { s += load<f32>(pa) * load<f32>(pb); pa += sA; pb += sB; }
+  if (acc) s += load<f32>(pc);
+  store<f32>(pc, s);
+}
+
+/** C[m×n] (+)= A(m×k)·B[k×n] in f32. `accumulate` 0 overwrites C, 1 adds to it. */
+export function gemmF32(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b: usize, ldb: i32, c: usize, ldc: i32, accumulate: i32): void {
+  const rA = <usize>rsA << 2, sA = <usize>csA << 2, sB = <usize>ldb << 2, ldc4 = <usize>ldc << 2;
+  if (k <= 0) {
+    if (!accumulate) for (let i = 0; i < m; i++) memory.fill(c + <usize>i * ldc4, 0, <usize>n << 2);
+    return;
+  }
+  const n8 = n & ~7, m4 = m & ~3;
+  for (let p0 = 0; p0 < k; p0 += KC) {
+    const kc = min(KC, k - p0);
+    const acc = accumulate != 0 || p0 > 0;
+    const aP = a + (<usize>p0) * sA;
+    const bP = b + (<usize>p0) * sB;
+    let i = 0;
+    for (; i < m4; i += 4) {
+      const pa = aP + <usize>i * rA;
+      const pc = c + <usize>i * ldc4;
+      let j = 0;
+      for (; j < n8; j += 8) kern4x8f32(kc, pa, rA, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), ldc4, acc);
+      for (; j < n; j++) kern4x1f32(kc, pa, rA, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), ldc4, acc);
+    }
+    for (; i < m; i++) {
+      const pa = aP + <usize>i * rA;
+      const pc = c + <usize>i * ldc4;
+      let j = 0;
+      for (; j < n8; j += 8) kern1x8f32(kc, pa, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), acc);
+      for (; j < n; j++) kern1x1f32(kc, pa, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), acc);
+    }
+  }
+}
+
+// ---------------------------------------------------------------- f64, register block 4 rows × 4 columns
+@inline function kern4x4f64(kc: i32, pa: usize, rA: usize, sA: usize, pb: usize, sB: usize, pc: usize, ldc8: usize, acc: bool): void {
+  let c00 = f64x2.splat(0), c01 = f64x2.splat(0);
+  let c10 = f64x2.splat(0), c11 = f64x2.splat(0);
+  let c20 = f64x2.splat(0), c21 = f64x2.splat(0);
+  let c30 = f64x2.splat(0), c31 = f64x2.splat(0);
+  for (let p = 0; p < kc; p++) {
+    const b0 = v128.load(pb);
+    const b1 = v128.load(pb, 16);
+    let a = f64x2.splat(load<f64>(pa));
+    c00 = f64x2.add(c00, f64x2.mul(a, b0)); c01 = f64x2.add(c01, f64x2.mul(a, b1));
+    a = f64x2.splat(load<f64>(pa + rA));
+    c10 = f64x2.add(c10, f64x2.mul(a, b0)); c11 = f64x2.add(c11, f64x2.mul(a, b1));
+    a = f64x2.splat(load<f64>(pa + 2 * rA));
+    c20 = f64x2.add(c20, f64x2.mul(a, b0)); c21 = f64x2.add(c21, f64x2.mul(a, b1));
+    a = f64x2.splat(load<f64>(pa + 3 * rA));
+    c30 = f64x2.add(c30, f64x2.mul(a, b0)); c31 = f64x2.add(c31, f64x2.mul(a, b1));
+    pa += sA;
+    pb += sB;
+  }
+  if (acc) {
+    c00 = f64x2.add(c00, v128.load(pc)); c01 = f64x2.add(c01, v128.load(pc, 16));
+    c10 = f64x2.add(c10, v128.load(pc + ldc8)); c11 = f64x2.add(c11, v128.load(pc + ldc8, 16));
+    c20 = f64x2.add(c20, v128.load(pc + 2 * ldc8)); c21 = f64x2.add(c21, v128.load(pc + 2 * ldc8, 16));
+    c30 = f64x2.add(c30, v128.load(pc + 3 * ldc8)); c31 = f64x2.add(c31, v128.load(pc + 3 * ldc8, 16));
+  }
+  v128.store(pc, c00); v128.store(pc, c01, 16);
+  v128.store(pc + ldc8, c10); v128.store(pc + ldc8, c11, 16);
+  v128.store(pc + 2 * ldc8, c20); v128.store(pc + 2 * ldc8, c21, 16);
+  v128.store(pc + 3 * ldc8, c30); v128.store(pc + 3 * ldc8, c31, 16);
+}
+
+@inline function kern1x4f64(kc: i32, pa: usize, sA: usize, pb: usize, sB: usize, pc: usize, acc: bool): void {
+  let c0 = f64x2.splat(0), c1 = f64x2.splat(0);
+  for (let p = 0; p < kc; p++) {
+    const a = f64x2.splat(load<f64>(pa));
+    c0 = f64x2.add(c0, f64x2.mul(a, v128.load(pb)));
+    c1 = f64x2.add(c1, f64x2.mul(a, v128.load(pb, 16)));
+    pa += sA;
+    pb += sB;
+  }
+  if (acc) { c0 = f64x2.add(c0, v128.load(pc)); c1 = f64x2.add(c1, v128.load(pc, 16)); }
+  v128.store(pc, c0); v128.store(pc, c1, 16);
+}
+
+@inline function kern4x1f64(kc: i32, pa: usize, rA: usize, sA: usize, pb: usize, sB: usize, pc: usize, ldc8: usize, acc: bool): void {
+  let s0: f64 = 0, s1: f64 = 0, s2: f64 = 0, s3: f64 = 0;
+  for (let p = 0; p < kc; p++) {
+    const b = load<f64>(pb);
+    s0 += load<f64>(pa) * b; s1 += load<f64>(pa + rA) * b;
+    s2 += load<f64>(pa + 2 * rA) * b; s3 += load<f64>(pa + 3 * rA) * b;
+    pa += sA;
+    pb += sB;
+  }
+  if (acc) { s0 += load<f64>(pc); s1 += load<f64>(pc + ldc8); s2 += load<f64>(pc + 2 * ldc8); s3 += load<f64>(pc + 3 * ldc8); }
+  store<f64>(pc, s0); store<f64>(pc + ldc8, s1); store<f64>(pc + 2 * ldc8, s2); store<f64>(pc + 3 * ldc8, s3);
+}
+
+@inline function kern1x1f64(kc: i32, pa: usize, sA: usize, pb: usize, sB: usize, pc: usize, acc: bool): void {
+  let s: f64 = 0;
+  for (let p = 0; p < kc; p++) { s += load<f64>(pa) * load<f64>(pb); pa += sA; pb += sB; }
+  if (acc) s += load<f64>(pc);
+  store<f64>(pc, s);
+}
+
+/** C[m×n] (+)= A(m×k)·B[k×n] in f64. `accumulate` 0 overwrites C, 1 adds to it. */
+export function gemmF64(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b: usize, ldb: i32, c: usize, ldc: i32, accumulate: i32): void {
+  const rA = <usize>rsA << 3, sA = <usize>csA << 3, sB = <usize>ldb << 3, ldc8 = <usize>ldc << 3;
+  if (k <= 0) {
+    if (!accumulate) for (let i = 0; i < m; i++) memory.fill(c + <usize>i * ldc8, 0, <usize>n << 3);
+    return;
+  }
+  const n4 = n & ~3, m4 = m & ~3;
+  for (let p0 = 0; p0 < k; p0 += KC) {
+    const kc = min(KC, k - p0);
+    const acc = accumulate != 0 || p0 > 0;
+    const aP = a + (<usize>p0) * sA;
+    const bP = b + (<usize>p0) * sB;
+    let i = 0;
+    for (; i < m4; i += 4) {
+      const pa = aP + <usize>i * rA;
+      const pc = c + <usize>i * ldc8;
+      let j = 0;
+      for (; j < n4; j += 4) kern4x4f64(kc, pa, rA, sA, bP + (<usize>j << 3), sB, pc + (<usize>j << 3), ldc8, acc);
+      for (; j < n; j++) kern4x1f64(kc, pa, rA, sA, bP + (<usize>j << 3), sB, pc + (<usize>j << 3), ldc8, acc);
+    }
+    for (; i < m; i++) {
+      const pa = aP + <usize>i * rA;
+      const pc = c + <usize>i * ldc8;
+      let j = 0;
+      for (; j < n4; j += 4) kern1x4f64(kc, pa, sA, bP + (<usize>j << 3), sB, pc + (<usize>j << 3), acc);
+      for (; j < n; j++) kern1x1f64(kc, pa, sA, bP + (<usize>j << 3), sB, pc + (<usize>j << 3), acc);
+    }
+  }
+}

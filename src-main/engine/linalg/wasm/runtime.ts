@@ -1,0 +1,111 @@
+/**
+ * Loads the WebAssembly SIMD kernels and owns their linear memory.
+ *
+ * The module is compiled asynchronously (`initEngine`), because browser main threads refuse large
+ * synchronous compiles. Until then, and wherever WebAssembly or SIMD is missing, every numeric
+ * function runs the pure-TypeScript fallback with the same results up to rounding.
+ */
+import { wasmBase64 } from './generated/kernels';
+
+/** The raw kernel exports. Pointers are byte offsets into `memory`. */
+export interface KernelExports {
+  gemmF32(m: number, n: number, k: number, a: number, rsA: number, csA: number, b: number, ldb: number, c: number, ldc: number, acc: number): void;
+  gemmF64(m: number, n: number, k: number, a: number, rsA: number, csA: number, b: number, ldb: number, c: number, ldc: number, acc: number): void;
+}
+
+export interface WasmKernels {
+  readonly exports: KernelExports;
+  readonly memory: WebAssembly.Memory;
+}
+
+/** Bytes in a WebAssembly page. */
+const PAGE = 65536;
+/** Bytes kept free at the start of memory for the module's own static data (it has none today). */
+export const RESERVED_BYTES = PAGE;
+
+let kernels: WasmKernels | null = null;
+let pending: Promise<{ wasm: boolean }> | null = null;
+let disabled = false;
+
+/** Decode base64 without atob/Buffer (neither is in ES2022). RFC 4648 §4. */
+export function decodeBase64(s: string): Uint8Array {
+  const table = new Uint8Array(128);
+  const alphabet = 'ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/';
+  for (let i = 0; i < 64; i++) table[alphabet.charCodeAt(i)] = i;
+  let len = s.length;
+  while (len > 0 && s[len - 1] === '=') len--;
+  const out = new Uint8Array((len * 3) >> 2);
+  let o = 0;
+  for (let i = 0; i < len; i += 4) {
+    const a = table[s.charCodeAt(i)];
+    const b = table[s.charCodeAt(i + 1)];
+    const c = i + 2 < len ? table[s.charCodeAt(i + 2)] : 0;
+    const d = i + 3 < len ? table[s.charCodeAt(i + 3)] : 0;
+    const v = (a << 18) | (b << 12) | (c << 6) | d;
+    if (o < out.length) out[o++] = v >> 16;
+    if (o < out.length) out[o++] = (v >> 8) & 255;
+    if (o < out.length) out[o++] = v & 255;
+  }
+  return out;
+}
+
+/** The kernel module bytes (also used by src-main/node/parallel for its shared-memory twin). */
+export function kernelBytes(): Uint8Array {
+  return decodeBase64(wasmBase64);
+}
+
+/**
+ * Compile and instantiate the WebAssembly SIMD kernels. Safe to call many times; resolves to
+ * `{ wasm: false }` where WebAssembly SIMD is unavailable, in which case the TS fallback is used.
+ * @example const { wasm } = await initEngine();
+ */
+export function initEngine(): Promise<{ wasm: boolean }> {
+  if (kernels) return Promise.resolve({ wasm: !disabled });
+  if (!pending)
+    pending = (async () => {
+      try {
+        if (typeof WebAssembly !== 'object') return { wasm: false };
+        const module = await WebAssembly.compile(kernelBytes());
+        const memory = new WebAssembly.Memory({ initial: 16 });
+        const instance = await WebAssembly.instantiate(module, { env: { memory, abort: abortHandler } });
+        kernels = { exports: instance.exports as unknown as KernelExports, memory };
+        return { wasm: !disabled };
+      } catch {
+        kernels = null;
+        pending = null;
+        return { wasm: false };
+      }
+    })();
+  return pending;
+}
+
+function abortHandler(): never {
+  throw new Error('rankfold engine: WebAssembly kernel aborted');
+}
+
+/** The kernels if initialised and not disabled, else null (callers fall back to TypeScript). */
+export function activeKernels(): WasmKernels | null {
+  return disabled ? null : kernels;
+}
+
+/**
+ * Force the pure-TypeScript path (true) or allow WebAssembly again (false). For tests that compare
+ * the two paths and for diagnosing a suspected kernel fault.
+ */
+export function setWasmDisabled(value: boolean): void {
+  disabled = value;
+}
+
+/** Whether numeric functions currently run on WebAssembly. */
+export function wasmActive(): boolean {
+  return !disabled && kernels !== null;
+}
+
+/** Make sure the kernels' memory has at least `bytes` bytes; may detach earlier views of its buffer. */
+export function ensureMemory(k: WasmKernels, bytes: number): void {
+  const have = k.memory.buffer.byteLength;
+  if (bytes <= have) return;
+  if (bytes > 4 * 1024 * 1024 * 1024 - PAGE)
+    throw new RangeError(`rankfold engine: needs ${Math.ceil(bytes / 2 ** 20)} MiB of WebAssembly memory; the limit is 4 GiB`);
+  k.memory.grow(Math.ceil((bytes - have) / PAGE));
+}

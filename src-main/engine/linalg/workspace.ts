@@ -1,0 +1,138 @@
+/**
+ * Workspaces: where the engine's algorithms allocate their arrays and run their products.
+ *
+ * An algorithm asks a backend for one workspace sized for the whole computation, allocates its
+ * Float32Array / Float64Array buffers from it, and calls `gemm` on them. The WebAssembly backend
+ * hands out views of the kernels' linear memory so `gemm` runs the SIMD kernel on them in place; the
+ * TypeScript backend hands out ordinary arrays and runs the blocked TS loop. src-main/node/parallel
+ * implements the same interface over a shared memory and two worker threads.
+ */
+import { gemmTs } from './gemm-ts';
+import type { FloatArray } from './matrix';
+import { activeKernels, ensureMemory, RESERVED_BYTES, type WasmKernels } from './wasm/runtime';
+
+/** Every allocation starts on a 16-byte boundary (one v128). */
+const ALIGN = 16;
+
+/**
+ * C[m×n] (+)= A(m×k)·B[k×n] on arrays of one precision. A(i,p) = a[aOff + i·rsA + p·csA]; B and C are
+ * row-major from bOff / cOff with leading dimensions ldb / ldc. `accumulate` adds to C instead of overwriting.
+ */
+export type Gemm = <T extends FloatArray>(
+  m: number, n: number, k: number,
+  a: T, aOff: number, rsA: number, csA: number,
+  b: T, bOff: number, ldb: number,
+  c: T, cOff: number, ldc: number,
+  accumulate: boolean,
+) => void;
+
+export interface Workspace {
+  f32(n: number): Float32Array;
+  f64(n: number): Float64Array;
+  gemm: Gemm;
+  /** Return the space to the backend. Views must not be used afterwards. */
+  release(): void;
+  /** Short label for diagnostics and the bench ("wasm", "ts", "2 workers"). */
+  readonly label: string;
+}
+
+export interface Backend {
+  /** A workspace able to hold `bytes` bytes of arrays (allocate with some slack for alignment). */
+  workspace(bytes: number): Workspace;
+  readonly label: string;
+}
+
+/** Bytes needed for arrays of these element counts, with alignment slack. */
+export function bytesFor(f32Elements: number, f64Elements: number, arrays = 64): number {
+  return 4 * f32Elements + 8 * f64Elements + ALIGN * arrays;
+}
+
+class TsWorkspace implements Workspace {
+  readonly label = 'ts';
+  f32(n: number) {
+    return new Float32Array(n);
+  }
+  f64(n: number) {
+    return new Float64Array(n);
+  }
+  gemm: Gemm = gemmTs;
+  release() {}
+}
+
+/** The pure-TypeScript backend. */
+export const tsBackend: Backend = { label: 'ts', workspace: () => new TsWorkspace() };
+
+let wasmBusy = false;
+
+class WasmWorkspace implements Workspace {
+  readonly label = 'wasm';
+  private top = RESERVED_BYTES;
+  private readonly end: number;
+  constructor(
+    private readonly k: WasmKernels,
+    bytes: number,
+  ) {
+    this.end = RESERVED_BYTES + bytes;
+    ensureMemory(k, this.end);
+  }
+  private take(bytes: number): number {
+    const p = this.top;
+    const next = p + Math.ceil(bytes / ALIGN) * ALIGN;
+    if (next > this.end) throw new RangeError(`rankfold engine: workspace overflow (${next} > ${this.end} bytes); this is a bug`);
+    this.top = next;
+    return p;
+  }
+  f32(n: number) {
+    return new Float32Array(this.k.memory.buffer, this.take(4 * n), n);
+  }
+  f64(n: number) {
+    return new Float64Array(this.k.memory.buffer, this.take(8 * n), n);
+  }
+  gemm: Gemm = (m, n, k, a, aOff, rsA, csA, b, bOff, ldb, c, cOff, ldc, accumulate) => {
+    const buf = this.k.memory.buffer;
+    if (a.buffer !== buf || b.buffer !== buf || c.buffer !== buf || m === 0 || n === 0) {
+      gemmTs(m, n, k, a, aOff, rsA, csA, b, bOff, ldb, c, cOff, ldc, accumulate);
+      return;
+    }
+    const e = this.k.exports;
+    if (a instanceof Float32Array)
+      e.gemmF32(m, n, k, a.byteOffset + 4 * aOff, rsA, csA, b.byteOffset + 4 * bOff, ldb, c.byteOffset + 4 * cOff, ldc, accumulate ? 1 : 0);
+    else e.gemmF64(m, n, k, a.byteOffset + 8 * aOff, rsA, csA, b.byteOffset + 8 * bOff, ldb, c.byteOffset + 8 * cOff, ldc, accumulate ? 1 : 0);
+  };
+  release() {
+    wasmBusy = false;
+  }
+}
+
+/** The WebAssembly backend over the engine's own kernels; null before `initEngine` or when disabled. */
+export function wasmBackend(): Backend | null {
+  const k = activeKernels();
+  if (!k) return null;
+  return {
+    label: 'wasm',
+    workspace: (bytes) => {
+      // One computation at a time owns the linear memory (JS is single-threaded; nesting is a bug).
+      if (wasmBusy) return new TsWorkspace();
+      wasmBusy = true;
+      try {
+        return new WasmWorkspace(k, bytes);
+      } catch (err) {
+        wasmBusy = false;
+        throw err;
+      }
+    },
+  };
+}
+
+/** The backend numeric functions use by default: WebAssembly once initialised, else TypeScript. */
+export function defaultBackend(): Backend {
+  return wasmBackend() ?? tsBackend;
+}
+
+/** Copy a matrix's data into a workspace array of the given precision. */
+export function copyIn(ws: Workspace, data: FloatArray, len: number, precision: 'f32' | 'f64'): FloatArray {
+  const out = precision === 'f32' ? ws.f32(len) : ws.f64(len);
+  if (data.length === len) out.set(data);
+  else out.set(data.subarray(0, len));
+  return out;
+}
