@@ -1,11 +1,20 @@
 /**
  * Decode a scan through sharp (libvips) into per-channel Float32 planes plus the metadata that
- * `expand` writes back. EXIF orientation is applied; 16-bit stays 16-bit.
+ * `expand` writes back.
+ *
+ * - EXIF orientation is applied (planes are upright); the source's orientation is kept in `meta`.
+ * - 16-bit stays 16-bit (planes on 0–65535); 8-bit and lower depths come out on 0–255.
+ * - Alpha is its own plane (channels 2 = gray+alpha, 4 = RGBA).
+ * - Samples are not colour-managed: an embedded ICC profile is kept in `meta.icc` and the samples are
+ *   exactly as stored. (CMYK sources are the exception: they are converted to sRGB and the CMYK
+ *   profile is dropped.) Palette images are expanded to RGB(A).
+ * - Multi-page TIFF: `page` picks one page (0-based).
+ * - Every failure is an InputError whose message names the file and the problem.
  */
 import { createHash } from 'node:crypto';
 import { stat } from 'node:fs/promises';
 import sharp, { type Metadata, type OutputInfo } from 'sharp';
-import { type DecodedImage, InputError } from '../../contract';
+import { checkInteger, type DecodedImage, InputError } from '../../contract';
 
 /** Default pixel limit: 2^28 ≈ 268 megapixels, sharp's own default for `limitInputPixels`. */
 export const DEFAULT_PIXEL_LIMIT = 268_402_689;
@@ -13,59 +22,127 @@ export const DEFAULT_PIXEL_LIMIT = 268_402_689;
 export interface DecodeOptions {
   /** TIFF page (0-based). Default 0. */
   page?: number;
-  /** Refuse images with more pixels than this (sharp's `limitInputPixels`). */
+  /** Refuse images with more pixels than this (sharp's `limitInputPixels`). Default {@link DEFAULT_PIXEL_LIMIT}. */
   pixelLimit?: number;
 }
 
 const SUPPORTED = new Set(['png', 'tiff', 'jpeg', 'webp']);
+const FORMAT_NAMES = 'PNG, TIFF, JPEG and WebP';
+
+/** Header facts about a scan, without decoding its pixels. */
+export interface ProbeResult {
+  meta: Metadata;
+  /** Upright size (after EXIF orientation). */
+  width: number;
+  height: number;
+  bitDepth: 8 | 16;
+  pages: number;
+  inputBytes: number;
+}
+
+function checkOptions(options: DecodeOptions) {
+  const page = options.page === undefined ? 0 : checkInteger('page', options.page, 0, 100_000);
+  const pixelLimit =
+    options.pixelLimit === undefined
+      ? DEFAULT_PIXEL_LIMIT
+      : checkInteger('pixelLimit', options.pixelLimit, 1, 2 ** 42);
+  return { page, pixelLimit };
+}
 
 /** Read the header only: format, size, depth, pages. Throws InputError naming the file. */
-export async function probeImage(file: string, options: DecodeOptions = {}) {
+export async function probeImage(file: string, options: DecodeOptions = {}): Promise<ProbeResult> {
+  const { page, pixelLimit } = checkOptions(options);
   const st = await statInput(file);
-  const limit = options.pixelLimit ?? DEFAULT_PIXEL_LIMIT;
   let meta: Metadata;
   try {
-    meta = await sharp(file, { limitInputPixels: false, failOn: 'error', page: options.page ?? 0 }).metadata();
+    meta = await sharp(file, { limitInputPixels: false, failOn: 'error', page }).metadata();
   } catch (err) {
-    throw new InputError(file, `not a readable image (${cleanSharpMessage(err)})`);
+    throw describeSharpError(file, err, 'read');
   }
   if (!meta.format || !SUPPORTED.has(meta.format))
-    throw new InputError(file, `unsupported format "${meta.format ?? 'unknown'}"; Rankfold reads PNG, TIFF, JPEG and WebP`);
-  const pages = meta.pages ?? 1;
-  if ((options.page ?? 0) >= pages)
-    throw new InputError(file, `has ${pages} page${pages === 1 ? '' : 's'}; page ${options.page} does not exist (pages count from 0)`);
-  const width = meta.width ?? 0;
-  const height = meta.height ?? 0;
-  if (width * height > limit)
     throw new InputError(
       file,
-      `is ${width}×${height} = ${width * height} pixels, over the pixel limit of ${limit} (sharp limitInputPixels); raise it with --pixel-limit`,
+      `is in an unsupported format ("${meta.format ?? 'unknown'}"); Rankfold reads ${FORMAT_NAMES}`,
+      { format: meta.format },
+    );
+  const pages = meta.pages ?? 1;
+  if (page >= pages)
+    throw new InputError(
+      file,
+      `has ${pages} page${pages === 1 ? '' : 's'}; page ${page} does not exist (pages count from 0, so use 0–${pages - 1})`,
+    );
+  const storedW = meta.width ?? 0;
+  const storedH = meta.pageHeight && pages > 1 ? meta.pageHeight : (meta.height ?? 0);
+  if (!(storedW > 0 && storedH > 0)) throw new InputError(file, 'has no pixels (width or height is 0)');
+  const pixels = storedW * storedH;
+  if (pixels > pixelLimit)
+    throw new InputError(
+      file,
+      `is ${storedW}×${storedH} = ${pixels} pixels, over the pixel limit of ${pixelLimit} (sharp limitInputPixels); raise it with --pixel-limit`,
+      { pixels, pixelLimit },
     );
   const bitDepth = depthBits(file, meta.depth);
-  return { meta, width, height, bitDepth, pages, inputBytes: st.size };
+  const swap = (meta.orientation ?? 1) >= 5;
+  return {
+    meta,
+    width: swap ? storedH : storedW,
+    height: swap ? storedW : storedH,
+    bitDepth,
+    pages,
+    inputBytes: st.size,
+  };
 }
 
 /** Decode a scan into planes. */
 export async function decodeImage(file: string, options: DecodeOptions = {}): Promise<DecodedImage> {
-  const page = options.page ?? 0;
-  const probe = await probeImage(file, options);
+  const { page, pixelLimit } = checkOptions(options);
+  const probe = await probeImage(file, { page, pixelLimit });
   const { meta, bitDepth } = probe;
   const hasAlpha = Boolean(meta.hasAlpha);
-  const isColour = (meta.channels ?? 1) - (hasAlpha ? 1 : 0) >= 3;
-  let img = sharp(file, { limitInputPixels: options.pixelLimit ?? DEFAULT_PIXEL_LIMIT, failOn: 'error', page }).rotate();
-  const space = isColour ? (bitDepth === 16 ? 'rgb16' : 'srgb') : bitDepth === 16 ? 'grey16' : 'b-w';
-  img = img.toColourspace(space);
+  const isCmyk = meta.space === 'cmyk';
+  const isColour =
+    isCmyk ||
+    meta.space === 'srgb' ||
+    meta.space === 'rgb16' ||
+    (meta.channels ?? 1) - (hasAlpha ? 1 : 0) >= 3;
+  // sharp's 8-bit 'b-w' output drops an alpha band, so 8-bit gray+alpha is read as sRGB (R = G = B = gray,
+  // an exact band copy) and bands 0 and 3 are kept.
+  const grayAlpha8 = !isColour && hasAlpha && bitDepth === 8;
+  const space =
+    isColour || grayAlpha8 ? (bitDepth === 16 ? 'rgb16' : 'srgb') : bitDepth === 16 ? 'grey16' : 'b-w';
   let data: Buffer;
   let info: OutputInfo;
   try {
-    ({ data, info } = await img.raw({ depth: bitDepth === 16 ? 'ushort' : 'uchar' }).toBuffer({ resolveWithObject: true }));
+    ({ data, info } = await sharp(file, { limitInputPixels: pixelLimit, failOn: 'error', page })
+      .rotate()
+      // Keep the embedded ICC profile attached instead of colour-converting to sRGB: samples stay as stored.
+      .keepIccProfile()
+      .toColourspace(space)
+      .raw({ depth: bitDepth === 16 ? 'ushort' : 'uchar' })
+      .toBuffer({ resolveWithObject: true }));
   } catch (err) {
-    throw new InputError(file, `cannot be decoded (${cleanSharpMessage(err)})`);
+    throw describeSharpError(file, err, 'decode');
   }
-  const channels = info.channels as 1 | 2 | 3 | 4;
   const width = info.width;
   const height = info.height;
   const n = width * height;
+  if (grayAlpha8) {
+    if (info.channels !== 4)
+      throw new InputError(file, `gray+alpha decoded to ${info.channels} bands, expected 4`);
+    const ga = Buffer.alloc(n * 2);
+    for (let i = 0; i < n; i++) {
+      ga[2 * i] = data[4 * i];
+      ga[2 * i + 1] = data[4 * i + 3];
+    }
+    data = ga;
+    info = { ...info, channels: 2 };
+  }
+  const channels = info.channels as 1 | 2 | 3 | 4;
+  if (data.length !== n * channels * (bitDepth / 8))
+    throw new InputError(
+      file,
+      `decoded to ${data.length} bytes, expected ${n * channels * (bitDepth / 8)}; the file may be corrupt`,
+    );
   const planes: Float32Array[] = [];
   for (let c = 0; c < channels; c++) planes.push(new Float32Array(n));
   const hash = createHash('sha256');
@@ -88,7 +165,7 @@ export async function decodeImage(file: string, options: DecodeOptions = {}): Pr
     planes,
     meta: {
       format: meta.format ?? 'unknown',
-      icc: meta.icc ? new Uint8Array(meta.icc) : undefined,
+      icc: meta.icc && !isCmyk ? new Uint8Array(meta.icc) : undefined,
       density: meta.density,
       orientation: meta.orientation,
       pages: probe.pages,
@@ -107,7 +184,8 @@ export function hashSamples(planes: ArrayLike<number>[], bitDepth: 8 | 16): stri
   const hash = createHash('sha256');
   if (bitDepth === 16) {
     const buf = Buffer.alloc(n * ch * 2);
-    for (let i = 0, p = 0; i < n; i++) for (let c = 0; c < ch; c++, p += 2) buf.writeUInt16BE(planes[c][i], p);
+    for (let i = 0, p = 0; i < n; i++)
+      for (let c = 0; c < ch; c++, p += 2) buf.writeUInt16BE(planes[c][i], p);
     hash.update(buf);
   } else {
     const buf = Buffer.alloc(n * ch);
@@ -129,22 +207,46 @@ async function statInput(file: string) {
     st = await stat(file);
   } catch (err) {
     const code = (err as NodeJS.ErrnoException).code;
-    if (code === 'ENOENT') throw new InputError(file, 'no such file');
-    if (code === 'EACCES' || code === 'EPERM') throw new InputError(file, 'permission denied when reading');
-    throw new InputError(file, `cannot be read (${code ?? String(err)})`);
+    if (code === 'ENOENT') throw new InputError(file, 'no such file', { code });
+    if (code === 'EACCES' || code === 'EPERM')
+      throw new InputError(file, 'permission denied when reading', { code });
+    if (code === 'ENOTDIR')
+      throw new InputError(file, 'a part of the path is a file, not a folder', { code });
+    throw new InputError(file, `cannot be read (${code ?? String(err)})`, { code });
   }
   if (st.isDirectory()) throw new InputError(file, 'is a folder, not an image file');
+  if (!st.isFile()) throw new InputError(file, 'is not a regular file');
   if (st.size === 0) throw new InputError(file, 'is empty (0 bytes)');
   return st;
 }
 
 function depthBits(file: string, depth: string | undefined): 8 | 16 {
-  if (depth === 'uchar' || depth === 'char') return 8;
-  if (depth === 'ushort' || depth === 'short') return 16;
-  throw new InputError(file, `has an unsupported sample format "${depth ?? 'unknown'}"; Rankfold reads 8- and 16-bit integer samples`);
+  if (depth === 'uchar') return 8;
+  if (depth === 'ushort') return 16;
+  throw new InputError(
+    file,
+    `has an unsupported sample format "${depth ?? 'unknown'}"; Rankfold reads unsigned 8- and 16-bit integer samples`,
+    { depth },
+  );
 }
 
-function cleanSharpMessage(err: unknown): string {
-  const m = err instanceof Error ? err.message : String(err);
-  return m.split('\n')[0].replace(/^Input file /, '').replace(/^Input buffer /, '').trim();
+/** Turn a libvips/sharp message into a sentence naming the file and the problem. */
+function describeSharpError(file: string, err: unknown, stage: 'read' | 'decode'): InputError {
+  const raw = err instanceof Error ? err.message : String(err);
+  const first = raw
+    .split('\n')[0]
+    .replace(/^Input (file|buffer) /, '')
+    .trim();
+  if (/unsupported image format/i.test(raw))
+    return new InputError(
+      file,
+      `is not an image Rankfold can read (unrecognised contents); Rankfold reads ${FORMAT_NAMES}`,
+    );
+  if (/pixel limit/i.test(raw)) return new InputError(file, `is over the pixel limit (${first})`);
+  if (/read error|premature end|truncat|unexpected end|not enough data|corrupt|bad|invalid|crc/i.test(raw))
+    return new InputError(
+      file,
+      `cannot be ${stage === 'read' ? 'read' : 'decoded'}: the file is truncated or corrupt (${first})`,
+    );
+  return new InputError(file, `cannot be ${stage === 'read' ? 'read as an image' : 'decoded'} (${first})`);
 }

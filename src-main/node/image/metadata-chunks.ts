@@ -1,0 +1,152 @@
+/**
+ * Put an ICC profile and an orientation into PNG and TIFF bytes that sharp wrote without them.
+ *
+ * Why by hand: sharp 0.35 attaches an ICC profile only through `withIccProfile(path)`, which also
+ * colour-converts the pixels, and `withMetadata({ orientation })` attaches an sRGB profile and converts
+ * gray to RGB. Both would break bit-exact output, so the pixels are encoded by sharp and the metadata is
+ * added here, without touching the pixel data.
+ *
+ * References
+ * - PNG (Third Edition), W3C 2025 / ISO/IEC 15948: §11.3.2.4 iCCP (profile name, null, compression method 0,
+ *   zlib stream), eXIf (an Exif/TIFF structure, before IDAT), §5.3 chunk layout with CRC-32 over type+data.
+ * - TIFF 6.0 (Adobe 1992): §2 header and IFD structure (entries sorted by tag, word-aligned offsets),
+ *   tag 274 Orientation (SHORT). ICC.1:2022 Annex B.4: TIFF tag 34675 InterColorProfile (UNDEFINED).
+ */
+import { crc32, deflateSync } from 'node:zlib';
+
+const PNG_SIGNATURE = Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]);
+
+export interface ExtraMetadata {
+  icc?: Uint8Array;
+  /** EXIF orientation 2–8; 1 or undefined writes nothing. */
+  orientation?: number;
+}
+
+function pngChunk(type: string, data: Uint8Array): Buffer {
+  const out = Buffer.alloc(12 + data.length);
+  out.writeUInt32BE(data.length, 0);
+  out.write(type, 4, 'latin1');
+  Buffer.from(data.buffer, data.byteOffset, data.byteLength).copy(out, 8);
+  out.writeUInt32BE(crc32(out.subarray(4, 8 + data.length)), 8 + data.length);
+  return out;
+}
+
+/** A big-endian Exif (TIFF-structured) block with a single IFD0 entry: Orientation. */
+function exifOrientation(o: number): Buffer {
+  const b = Buffer.alloc(8 + 2 + 12 + 4);
+  b.write('MM', 0, 'latin1');
+  b.writeUInt16BE(42, 2);
+  b.writeUInt32BE(8, 4);
+  b.writeUInt16BE(1, 8);
+  b.writeUInt16BE(0x0112, 10); // Orientation
+  b.writeUInt16BE(3, 12); // SHORT
+  b.writeUInt32BE(1, 14);
+  b.writeUInt16BE(o, 18);
+  b.writeUInt32BE(0, 22); // no next IFD
+  return b;
+}
+
+/** Insert iCCP and eXIf after IHDR, dropping any sRGB/iCCP/eXIf chunk the encoder wrote. */
+export function addPngMetadata(png: Buffer, extra: ExtraMetadata): Buffer {
+  if (!extra.icc && !(extra.orientation && extra.orientation !== 1)) return png;
+  if (
+    png.length < 33 ||
+    !png.subarray(0, 8).equals(PNG_SIGNATURE) ||
+    png.toString('latin1', 12, 16) !== 'IHDR'
+  )
+    throw new Error('internal: encoder output is not a PNG');
+  const parts: Buffer[] = [png.subarray(0, 33)];
+  if (extra.icc) {
+    const name = Buffer.from('ICC profile\0\0', 'latin1'); // name, null separator, compression method 0
+    parts.push(pngChunk('iCCP', Buffer.concat([name, deflateSync(extra.icc, { level: 9 })])));
+  }
+  if (extra.orientation && extra.orientation !== 1)
+    parts.push(pngChunk('eXIf', exifOrientation(extra.orientation)));
+  let p = 33;
+  while (p + 12 <= png.length) {
+    const len = png.readUInt32BE(p);
+    const type = png.toString('latin1', p + 4, p + 8);
+    const end = p + 12 + len;
+    if (end > png.length) throw new Error('internal: encoder output PNG is truncated');
+    const drop =
+      (extra.icc && (type === 'iCCP' || type === 'sRGB')) || (extra.orientation && type === 'eXIf');
+    if (!drop) parts.push(png.subarray(p, end));
+    p = end;
+  }
+  return Buffer.concat(parts);
+}
+
+interface IfdEntry {
+  tag: number;
+  raw: Buffer; // the 12 bytes
+}
+
+/** Rewrite IFD0 of a classic TIFF with Orientation and InterColorProfile set; the old IFD becomes unused bytes. */
+export function addTiffMetadata(tiff: Buffer, extra: ExtraMetadata): Buffer {
+  if (!extra.icc && !(extra.orientation && extra.orientation !== 1)) return tiff;
+  const order = tiff.toString('latin1', 0, 2);
+  if (order !== 'II' && order !== 'MM') throw new Error('internal: encoder output is not a TIFF');
+  const le = order === 'II';
+  const u16 = (o: number) => (le ? tiff.readUInt16LE(o) : tiff.readUInt16BE(o));
+  const u32 = (o: number) => (le ? tiff.readUInt32LE(o) : tiff.readUInt32BE(o));
+  if (u16(2) !== 42)
+    throw new Error('internal: encoder wrote a BigTIFF; metadata patching needs classic TIFF');
+  const ifd = u32(4);
+  const n = u16(ifd);
+  const next = u32(ifd + 2 + 12 * n);
+  const entries: IfdEntry[] = [];
+  for (let i = 0; i < n; i++) {
+    const at = ifd + 2 + 12 * i;
+    entries.push({ tag: u16(at), raw: Buffer.from(tiff.subarray(at, at + 12)) });
+  }
+  const entry = (tag: number, type: number, count: number, value: (b: Buffer) => void): IfdEntry => {
+    const raw = Buffer.alloc(12);
+    if (le) {
+      raw.writeUInt16LE(tag, 0);
+      raw.writeUInt16LE(type, 2);
+      raw.writeUInt32LE(count, 4);
+    } else {
+      raw.writeUInt16BE(tag, 0);
+      raw.writeUInt16BE(type, 2);
+      raw.writeUInt32BE(count, 4);
+    }
+    value(raw);
+    return { tag, raw };
+  };
+  const tail: Buffer[] = [];
+  let end = tiff.length + (tiff.length % 2);
+  const pad = Buffer.alloc(tiff.length % 2);
+  const set = (e: IfdEntry) => {
+    const i = entries.findIndex((x) => x.tag === e.tag);
+    if (i >= 0) entries[i] = e;
+    else entries.push(e);
+  };
+  if (extra.orientation && extra.orientation !== 1) {
+    const o = extra.orientation;
+    set(entry(274, 3, 1, (b) => (le ? b.writeUInt16LE(o, 8) : b.writeUInt16BE(o, 8))));
+  }
+  if (extra.icc) {
+    const icc = Buffer.from(extra.icc.buffer, extra.icc.byteOffset, extra.icc.byteLength);
+    const at = end;
+    tail.push(icc);
+    end += icc.length;
+    if (icc.length % 2) {
+      tail.push(Buffer.alloc(1));
+      end += 1;
+    }
+    set(entry(34675, 7, icc.length, (b) => (le ? b.writeUInt32LE(at, 8) : b.writeUInt32BE(at, 8))));
+  }
+  entries.sort((a, b) => a.tag - b.tag);
+  const newIfd = Buffer.alloc(2 + 12 * entries.length + 4);
+  if (le) newIfd.writeUInt16LE(entries.length, 0);
+  else newIfd.writeUInt16BE(entries.length, 0);
+  for (let i = 0; i < entries.length; i++) entries[i].raw.copy(newIfd, 2 + 12 * i);
+  if (le) newIfd.writeUInt32LE(next, 2 + 12 * entries.length);
+  else newIfd.writeUInt32BE(next, 2 + 12 * entries.length);
+  const ifdAt = end;
+  if (ifdAt + newIfd.length > 0xffffffff) throw new Error('internal: TIFF would exceed 4 GiB');
+  const out = Buffer.concat([tiff, pad, ...tail, newIfd]);
+  if (le) out.writeUInt32LE(ifdAt, 4);
+  else out.writeUInt32BE(ifdAt, 4);
+  return out;
+}
