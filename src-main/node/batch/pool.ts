@@ -151,7 +151,8 @@ export class WorkerPool<I, O> {
     slot.retiring = true;
     slot.job = undefined;
     this.remove(slot);
-    const seconds = Math.round((job.options.timeoutMs ?? 0) / 1000);
+    const ms = job.options.timeoutMs ?? 0;
+    const seconds = ms < 10_000 ? (ms / 1000).toFixed(1) : String(Math.round(ms / 1000));
     slot.worker.terminate().then(
       () => {
         job.resolve({
