@@ -55,7 +55,7 @@ export async function probeImage(file: string, options: DecodeOptions = {}): Pro
   const st = await statInput(file);
   let meta: Metadata;
   try {
-    meta = await sharp(file, { limitInputPixels: false, failOn: 'error', page }).metadata();
+    meta = await sharp(file, { limitInputPixels: false, failOn: 'error' }).metadata();
   } catch (err) {
     throw describeSharpError(file, err, 'read');
   }
@@ -69,8 +69,17 @@ export async function probeImage(file: string, options: DecodeOptions = {}): Pro
   if (page >= pages)
     throw new InputError(
       file,
-      `has ${pages} page${pages === 1 ? '' : 's'}; page ${page} does not exist (pages count from 0, so use 0–${pages - 1})`,
+      pages === 1
+        ? `has 1 page; page ${page} does not exist (pages count from 0, so use 0)`
+        : `has ${pages} pages; page ${page} does not exist (pages count from 0, so use 0–${pages - 1})`,
     );
+  if (page > 0) {
+    try {
+      meta = await sharp(file, { limitInputPixels: false, failOn: 'error', page }).metadata();
+    } catch (err) {
+      throw describeSharpError(file, err, 'read');
+    }
+  }
   const storedW = meta.width ?? 0;
   const storedH = meta.pageHeight && pages > 1 ? meta.pageHeight : (meta.height ?? 0);
   if (!(storedW > 0 && storedH > 0)) throw new InputError(file, 'has no pixels (width or height is 0)');
