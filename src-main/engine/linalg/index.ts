@@ -12,3 +12,5 @@ export {
 } from './randomized-svd';
 export { Rng, DEFAULT_SEED } from './random';
 export { type Backend, type Workspace, type Gemm, tsBackend, wasmBackend, defaultBackend, bytesFor } from './workspace';
+export { singularValues, fullSvd, JACOBI_LIMIT } from './singular-values';
+export { symmetricEigenvalues, tridiagonalEigenvalues } from './symmetric-eigen';

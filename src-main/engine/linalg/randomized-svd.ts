@@ -70,7 +70,6 @@ export function checkRank(a: Matrix, k: number, fn: string): void {
  */
 export function randomizedSvd(a: Matrix, k: number, opts: RandomizedSvdOptions = {}): SvdResult {
   checkRank(a, k, 'randomizedSvd');
-  assertFinite(a);
   const m = a.rows;
   const n = a.cols;
   const r = Math.min(m, n);
@@ -89,6 +88,10 @@ export function randomizedSvd(a: Matrix, k: number, opts: RandomizedSvdOptions =
   const ws = backend.workspace(randomizedSvdBytes(m, n, k, l, blocks, f32));
   try {
     return core(ws, a, k, l, q, blocks, f32, opts.seed ?? DEFAULT_SEED);
+  } catch (err) {
+    // Non-finite input shows up as NaN in the first Gram matrix; scan only then (saves a pass over A).
+    assertFinite(a);
+    throw err;
   } finally {
     ws.release();
   }
