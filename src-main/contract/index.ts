@@ -7,3 +7,4 @@ export * from './validate';
 export * from './image';
 export * from './compress';
 export * from './batch';
+export * from './api';

@@ -1,0 +1,376 @@
+/**
+ * The app's back end, shared by browser mode (./http.ts) and Electron (src-main/electron/ipc.ts): it owns
+ * the open scans (one worker thread each), the jobs and their progress events, and the file-access
+ * policy. Every call arrives already validated against src-main/contract/api.ts.
+ *
+ * File access is limited to what the user opened or chose in this session: files and folders picked in
+ * a dialog (Electron) or typed into the page (browser mode), files uploaded through the page's picker,
+ * and the bundled samples.
+ */
+import { randomBytes } from 'node:crypto';
+import { EventEmitter } from 'node:events';
+import { mkdtemp, readdir, realpath, rm, stat, writeFile } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import { basename, dirname, extname, join, resolve, sep } from 'node:path';
+import {
+  type ApiMethod,
+  type BatchRequest,
+  type BatchResult,
+  type CleanRequest,
+  type CleanResult,
+  type EvaluateRequest,
+  type EvaluateResult,
+  type FactorRequest,
+  InputError,
+  type OpenScanRequest,
+  type PickRequest,
+  type PickResult,
+  type ProgressEvent,
+  RankfoldError,
+  type SampleInfo,
+  type SaveRequest,
+  type SaveResult,
+  type ScanSummary,
+  UsageError,
+} from '../../contract';
+import { runBatchJob } from './batch-bridge';
+import { SessionWorker } from './session-worker';
+
+const SCAN_EXT = new Set(['.png', '.tif', '.tiff', '.jpg', '.jpeg', '.webp']);
+/** Largest upload accepted from the page: 2 GiB, above any single scan the decoder's pixel limit allows at 8 bits. */
+export const MAX_UPLOAD_BYTES = 2 * 1024 ** 3;
+
+export interface BackendOptions {
+  /** Folder holding the built worker entries (dist/workers). */
+  workersDir: string;
+  /** Folder of demo scans offered in the page. */
+  samplesDir?: string;
+  /** How `pick` asks the user. Browser mode: the page sends the typed path as `suggested`. */
+  picker?: (req: PickRequest) => Promise<string | undefined>;
+  /** Recently opened files (Electron persists them). */
+  recent?: { list(): string[]; add(path: string): void };
+}
+
+const newId = () => randomBytes(9).toString('base64url');
+
+export class Backend extends EventEmitter {
+  private readonly scans = new Map<string, { file: string; summary: ScanSummary; session: SessionWorker }>();
+  private readonly chosenFiles = new Set<string>();
+  private readonly chosenFolders = new Set<string>();
+  private readonly saveTargets = new Set<string>();
+  private readonly uploads = new Map<string, string>();
+  private readonly blobs = new Map<string, { data: ArrayBuffer; fileName: string; type: string }>();
+  private readonly reports = new Map<string, string>();
+  private readonly batches = new Map<string, AbortController>();
+  private readonly recentList: string[] = [];
+  private uploadDir?: string;
+
+  constructor(readonly options: BackendOptions) {
+    super();
+  }
+
+  /** Dispatch one validated request. */
+  async call(method: ApiMethod, payload: unknown): Promise<unknown> {
+    switch (method) {
+      case 'listSamples':
+        return this.listSamples();
+      case 'listRecent':
+        return this.options.recent?.list() ?? [...this.recentList];
+      case 'pick':
+        return this.pick(payload as PickRequest);
+      case 'openScan':
+        return this.openScan(payload as OpenScanRequest);
+      case 'factors':
+        return this.factors(payload as FactorRequest);
+      case 'evaluate':
+        return this.evaluate(payload as EvaluateRequest);
+      case 'clean':
+        return this.clean(payload as CleanRequest);
+      case 'fetchImages':
+        return this.blob(payload as string).data;
+      case 'save':
+        return this.save(payload as SaveRequest);
+      case 'batch':
+        return this.batch(payload as BatchRequest);
+      case 'openReport':
+        return this.reportPath(payload as string);
+      case 'cancel':
+        return this.cancel(payload as string);
+    }
+  }
+
+  private progress(e: ProgressEvent) {
+    this.emit('progress', e);
+  }
+
+  // ---- access policy -------------------------------------------------------------------------
+
+  /** Record a path the user chose; returns its real path. */
+  async allow(path: string, kind: PickRequest['kind']): Promise<string> {
+    const abs = resolve(path);
+    if (kind === 'save') {
+      const dir = await realpath(dirname(abs)).catch(() => {
+        throw new InputError(dirname(abs), 'folder does not exist; choose a folder that exists');
+      });
+      const target = join(dir, basename(abs));
+      this.saveTargets.add(target);
+      return target;
+    }
+    const real = await realpath(abs).catch(() => {
+      throw new InputError(abs, 'does not exist');
+    });
+    const st = await stat(real);
+    if (kind === 'folder') {
+      if (!st.isDirectory()) throw new InputError(real, 'is not a folder');
+      this.chosenFolders.add(real);
+    } else {
+      if (!st.isFile()) throw new InputError(real, 'is not a file');
+      this.chosenFiles.add(real);
+    }
+    return real;
+  }
+
+  private isInside(file: string, folder: string) {
+    return file === folder || file.startsWith(folder.endsWith(sep) ? folder : folder + sep);
+  }
+
+  /** Real path of a file the user may read, or a refusal naming it. */
+  private async readable(path: string): Promise<string> {
+    const real = await realpath(resolve(path)).catch(() => {
+      throw new InputError(path, 'does not exist');
+    });
+    const samples = this.options.samplesDir
+      ? await realpath(this.options.samplesDir).catch(() => undefined)
+      : undefined;
+    const ok =
+      this.chosenFiles.has(real) ||
+      [...this.chosenFolders].some((f) => this.isInside(real, f)) ||
+      (samples !== undefined && this.isInside(real, samples));
+    if (!ok)
+      throw new UsageError(
+        `${path}: not opened or chosen in this session; open it through the page or a dialog first`,
+      );
+    return real;
+  }
+
+  private async pick(req: PickRequest): Promise<PickResult> {
+    const chosen = this.options.picker ? await this.options.picker(req) : req.suggested;
+    if (!chosen) return {};
+    return { path: await this.allow(chosen, req.kind) };
+  }
+
+  /** Keep bytes the page uploaded from its own file picker; returns an upload id. */
+  async upload(name: string, data: Uint8Array): Promise<string> {
+    const ext = extname(name).toLowerCase();
+    if (!SCAN_EXT.has(ext))
+      throw new InputError(name, `is not a scan Rankfold reads (${[...SCAN_EXT].join(', ')})`);
+    this.uploadDir ??= await mkdtemp(join(tmpdir(), 'rankfold-upload-'));
+    const id = newId();
+    const dir = join(this.uploadDir, id);
+    const { mkdir } = await import('node:fs/promises');
+    await mkdir(dir);
+    const safe = basename(name).replace(/[^A-Za-z0-9._ -]/g, '_') || `scan${ext}`;
+    const file = join(dir, safe);
+    await writeFile(file, data);
+    this.uploads.set(id, file);
+    this.chosenFiles.add(await realpath(file));
+    return id;
+  }
+
+  // ---- scans ---------------------------------------------------------------------------------
+
+  private async listSamples(): Promise<SampleInfo[]> {
+    const dir = this.options.samplesDir;
+    if (!dir) return [];
+    const names = await readdir(dir).catch(() => [] as string[]);
+    const out: SampleInfo[] = [];
+    for (const name of names.sort()) {
+      if (!SCAN_EXT.has(extname(name).toLowerCase())) continue;
+      const st = await stat(join(dir, name));
+      out.push({ name, title: basename(name, extname(name)).replace(/[-_]+/g, ' '), bytes: st.size });
+    }
+    return out;
+  }
+
+  private async openScan(req: OpenScanRequest): Promise<ScanSummary> {
+    let file: string;
+    if (req.source.kind === 'sample') {
+      if (!this.options.samplesDir) throw new UsageError('No samples folder in this installation');
+      file = await this.readable(join(this.options.samplesDir, req.source.name));
+    } else if (req.source.kind === 'upload') {
+      const f = this.uploads.get(req.source.uploadId);
+      if (!f) throw new UsageError(`Unknown upload ${req.source.uploadId}; pick the file again`);
+      file = f;
+    } else file = await this.readable(req.source.path);
+    const session = new SessionWorker(this.options.workersDir, file, req.page);
+    const scanId = newId();
+    try {
+      const fig = await session.open((p) => this.progress({ job: `open-${scanId}`, ...p }));
+      const name = req.source.kind === 'sample' ? req.source.name : basename(file);
+      const summary: ScanSummary = { scanId, name, ...fig };
+      // One scan at a time per page keeps memory bounded on 24 GiB machines with huge scans.
+      for (const [id, s] of this.scans) {
+        void s.session.close();
+        this.scans.delete(id);
+      }
+      this.scans.set(scanId, { file, summary, session });
+      if (req.source.kind === 'path') this.addRecent(file);
+      return summary;
+    } catch (err) {
+      void session.close();
+      throw err;
+    }
+  }
+
+  private addRecent(file: string) {
+    if (this.options.recent) return this.options.recent.add(file);
+    const i = this.recentList.indexOf(file);
+    if (i >= 0) this.recentList.splice(i, 1);
+    this.recentList.unshift(file);
+    this.recentList.length = Math.min(this.recentList.length, 10);
+  }
+
+  private scan(scanId: string) {
+    const s = this.scans.get(scanId);
+    if (!s)
+      throw new UsageError(
+        `Scan ${scanId} is not open (it may have been replaced by another); open it again`,
+      );
+    return s;
+  }
+
+  private onJob(job: string) {
+    return (p: { done: number; total: number; stage: string }) => this.progress({ job, ...p });
+  }
+
+  private factors(req: FactorRequest): Promise<ArrayBuffer> {
+    return this.scan(req.scanId).session.run<ArrayBuffer>(
+      'factors',
+      { maxRank: req.maxRank },
+      req.job,
+      this.onJob(req.job),
+    );
+  }
+
+  private evaluate(req: EvaluateRequest): Promise<EvaluateResult> {
+    const s = this.scan(req.scanId);
+    return s.session.run<EvaluateResult>(
+      'evaluate',
+      { budget: req.budget, tile: req.tile, input: s.file },
+      req.job,
+      this.onJob(req.job),
+    );
+  }
+
+  private async clean(req: CleanRequest): Promise<CleanResult> {
+    const s = this.scan(req.scanId);
+    const r = await s.session.run<{
+      images: ArrayBuffer;
+      report: Record<string, unknown>;
+      profile: CleanResult['profile'];
+    }>('clean', { settings: req.settings }, req.job, this.onJob(req.job));
+    const imagesId = newId();
+    this.blobs.set(imagesId, { data: r.images, fileName: 'cleaned.bin', type: 'application/octet-stream' });
+    return { imagesId, report: r.report, profile: r.profile };
+  }
+
+  blob(id: string) {
+    const b = this.blobs.get(id);
+    if (!b) throw new UsageError(`Nothing to download under ${id}; save again`);
+    return b;
+  }
+
+  private async save(req: SaveRequest): Promise<SaveResult> {
+    const s = this.scan(req.scanId);
+    let target: string | undefined;
+    if (req.path) {
+      target = resolve(req.path);
+      if (!this.saveTargets.has(target))
+        throw new UsageError(`${req.path}: choose where to save in the save dialog or type the path first`);
+    }
+    const r = await s.session.run<{
+      data?: ArrayBuffer;
+      fileName: string;
+      bytes: number;
+      caution: string;
+      path?: string;
+    }>(
+      'save',
+      {
+        kind: req.kind,
+        budget: req.budget,
+        tile: req.tile,
+        settings: req.settings,
+        path: target,
+        force: req.force,
+        input: s.file,
+      },
+      req.job,
+      this.onJob(req.job),
+    );
+    if (r.data) {
+      const downloadId = newId();
+      this.blobs.set(downloadId, {
+        data: r.data,
+        fileName: r.fileName,
+        type:
+          req.kind === 'rkf'
+            ? 'application/octet-stream'
+            : `image/${extname(r.fileName).slice(1) === 'png' ? 'png' : 'tiff'}`,
+      });
+      return { downloadId, fileName: r.fileName, bytes: r.bytes, caution: r.caution };
+    }
+    return { path: r.path, fileName: r.fileName, bytes: r.bytes, caution: r.caution };
+  }
+
+  private async batch(req: BatchRequest): Promise<BatchResult> {
+    const input = await realpath(resolve(req.input)).catch(() => {
+      throw new InputError(req.input, 'folder does not exist');
+    });
+    if (!this.chosenFolders.has(input)) throw new UsageError(`${req.input}: choose the input folder first`);
+    const output = resolve(req.output);
+    const outReal = await realpath(output).catch(() => output);
+    if (!this.chosenFolders.has(outReal) && !this.saveTargets.has(output))
+      throw new UsageError(`${req.output}: choose the output folder first`);
+    if (this.batches.has(req.job)) throw new UsageError(`Batch job ${req.job} is already running`);
+    const ctl = new AbortController();
+    this.batches.set(req.job, ctl);
+    try {
+      const r = await runBatchJob(
+        { ...req, input, output: outReal },
+        ctl.signal,
+        (e) => this.progress({ ...e, job: req.job }),
+        this.options.workersDir,
+      );
+      let reportId: string | undefined;
+      if (r.reportPath) {
+        reportId = newId();
+        this.reports.set(reportId, r.reportPath);
+      }
+      return { ...r, reportId };
+    } finally {
+      this.batches.delete(req.job);
+    }
+  }
+
+  reportPath(id: string): string {
+    const p = this.reports.get(id);
+    if (!p) throw new UsageError(`Unknown report ${id}; run the batch again`);
+    return p;
+  }
+
+  private async cancel(job: string): Promise<void> {
+    const b = this.batches.get(job);
+    if (b) b.abort();
+    for (const s of this.scans.values()) s.session.cancel(job);
+  }
+
+  async close(): Promise<void> {
+    for (const b of this.batches.values()) b.abort();
+    await Promise.all([...this.scans.values()].map((s) => s.session.close()));
+    this.scans.clear();
+    if (this.uploadDir) await rm(this.uploadDir, { recursive: true, force: true });
+  }
+}
+
+export { RankfoldError };

@@ -1,0 +1,58 @@
+/**
+ * The jobs one scan session runs, inside its worker thread (src-main/node/workers/scan-session.ts).
+ * Each op calls the same services the CLI calls, so the page's figures equal `rankfold compress --json`.
+ */
+import { type DecodedImage, RankfoldError, type ScanSummary } from '../../contract';
+import { decodeImage } from '../image/decode';
+import { factorScan, type ProgressFn } from './factor';
+import { sessionServices } from './services-bridge';
+
+export type SessionOp = 'open' | 'factors' | 'evaluate' | 'clean' | 'save';
+
+export interface OpResult {
+  value: unknown;
+  transfer?: ArrayBuffer[];
+}
+
+export async function runSessionOp(
+  state: { image?: DecodedImage },
+  op: SessionOp,
+  args: Record<string, unknown>,
+  progress: ProgressFn,
+): Promise<OpResult> {
+  if (op === 'open') {
+    progress(0, 1, 'decoding');
+    const image = await decodeImage(args.file as string, { page: args.page as number | undefined });
+    state.image = image;
+    const summary: Omit<ScanSummary, 'scanId' | 'name'> = {
+      width: image.width,
+      height: image.height,
+      channels: image.channels,
+      bitDepth: image.bitDepth,
+      colour: image.colour,
+      inputBytes: image.inputBytes,
+      rawBytes: image.rawBytes,
+      format: image.meta.format,
+    };
+    progress(1, 1, 'decoded');
+    return { value: summary };
+  }
+  const image = state.image;
+  if (!image) throw new RankfoldError('No scan is open in this session; open it again.');
+  if (op === 'factors') {
+    const bytes = factorScan(image, args.maxRank as number, progress);
+    const buf = bytes.buffer as ArrayBuffer;
+    return { value: buf, transfer: [buf] };
+  }
+  const services = await sessionServices();
+  if (op === 'evaluate') return { value: await services.evaluate(image, args, progress) };
+  if (op === 'clean') {
+    const r = await services.clean(image, args, progress);
+    return { value: r, transfer: r.images ? [r.images] : [] };
+  }
+  if (op === 'save') {
+    const r = await services.save(image, args, progress);
+    return { value: r, transfer: r.data ? [r.data] : [] };
+  }
+  throw new RankfoldError(`Unknown session job ${String(op)}`);
+}

@@ -1,0 +1,132 @@
+/**
+ * Main-thread handle on one scan session's worker thread. Requests are queued one at a time; cancel
+ * terminates the thread (the only way to stop synchronous number crunching promptly) and the next
+ * request starts a fresh thread that decodes the scan again.
+ */
+import { join } from 'node:path';
+import { Worker } from 'node:worker_threads';
+import { CancelledError, type ErrorPayload, fromErrorPayload, type ScanSummary } from '../../contract';
+
+export interface SessionProgress {
+  done: number;
+  total: number;
+  stage: string;
+}
+
+interface Pending {
+  resolve: (v: unknown) => void;
+  reject: (e: unknown) => void;
+  onProgress?: (p: SessionProgress) => void;
+  job?: string;
+}
+
+export class SessionWorker {
+  private worker?: Worker;
+  private nextId = 1;
+  private pending = new Map<number, Pending>();
+  private opened?: Promise<Omit<ScanSummary, 'scanId' | 'name'>>;
+  private chain: Promise<unknown> = Promise.resolve();
+
+  constructor(
+    private readonly workersDir: string,
+    private readonly file: string,
+    private readonly page?: number,
+  ) {}
+
+  private spawn(): Worker {
+    const w = new Worker(join(this.workersDir, 'scan-session.js'));
+    w.on(
+      'message',
+      (msg: {
+        id: number;
+        ok?: boolean;
+        value?: unknown;
+        error?: ErrorPayload;
+        progress?: SessionProgress;
+      }) => {
+        const p = this.pending.get(msg.id);
+        if (!p) return;
+        if (msg.progress) return p.onProgress?.(msg.progress);
+        this.pending.delete(msg.id);
+        if (msg.ok) p.resolve(msg.value);
+        else p.reject(fromErrorPayload(msg.error ?? { name: 'Error', message: 'worker failed' }));
+      },
+    );
+    w.on('error', (err) => this.failAll(err));
+    w.on('exit', () => {
+      if (this.worker === w) {
+        this.worker = undefined;
+        this.opened = undefined;
+      }
+      this.failAll(new CancelledError('the job'));
+    });
+    this.worker = w;
+    return w;
+  }
+
+  private failAll(err: unknown) {
+    for (const [id, p] of this.pending) {
+      this.pending.delete(id);
+      p.reject(err);
+    }
+  }
+
+  private send<T>(
+    op: string,
+    args: Record<string, unknown>,
+    onProgress?: (p: SessionProgress) => void,
+    job?: string,
+  ): Promise<T> {
+    const w = this.worker ?? this.spawn();
+    const id = this.nextId++;
+    return new Promise<T>((resolve, reject) => {
+      this.pending.set(id, { resolve: resolve as (v: unknown) => void, reject, onProgress, job });
+      w.postMessage({ id, op, args });
+    });
+  }
+
+  /** Decode (again, after a cancel) and return the scan's figures. */
+  open(onProgress?: (p: SessionProgress) => void): Promise<Omit<ScanSummary, 'scanId' | 'name'>> {
+    if (!this.opened || !this.worker) {
+      this.opened = this.send('open', { file: this.file, page: this.page }, onProgress);
+      this.opened.catch(() => {
+        this.opened = undefined;
+      });
+    }
+    return this.opened;
+  }
+
+  /** Run one job after the ones before it. */
+  run<T>(
+    op: string,
+    args: Record<string, unknown>,
+    job: string,
+    onProgress?: (p: SessionProgress) => void,
+  ): Promise<T> {
+    const next = this.chain.then(async () => {
+      await this.open();
+      return this.send<T>(op, args, onProgress, job);
+    });
+    this.chain = next.catch(() => undefined);
+    return next;
+  }
+
+  /** Stop the job with this id if it is running in this session. Returns true if something was stopped. */
+  cancel(job: string): boolean {
+    const hit = [...this.pending.values()].some((p) => p.job === job);
+    if (hit && this.worker) {
+      const w = this.worker;
+      this.worker = undefined;
+      this.opened = undefined;
+      this.failAll(new CancelledError('the job'));
+      void w.terminate();
+    }
+    return hit;
+  }
+
+  async close(): Promise<void> {
+    const w = this.worker;
+    this.worker = undefined;
+    if (w) await w.terminate();
+  }
+}

@@ -1,0 +1,25 @@
+/**
+ * Worker thread behind one open scan in the app (browser mode and Electron alike). It decodes the scan
+ * once, keeps its planes, and runs the heavy jobs on them (factor, evaluate at a budget, clean, save),
+ * so the server's and Electron's event loops never do heavy work. Cancel = the host terminates it.
+ *
+ * Messages in:  { id, op, args }. Messages out: { id, ok, value } | { id, ok: false, error } | { id, progress }.
+ */
+import { parentPort } from 'node:worker_threads';
+import { type DecodedImage, toErrorPayload } from '../../contract';
+import { runSessionOp, type SessionOp } from '../server/session-ops';
+
+if (!parentPort) throw new Error('scan-session must run as a worker thread');
+const port = parentPort;
+const state: { image?: DecodedImage } = {};
+
+port.on('message', async (msg: { id: number; op: SessionOp; args: Record<string, unknown> }) => {
+  try {
+    const { value, transfer } = await runSessionOp(state, msg.op, msg.args, (done, total, stage) =>
+      port.postMessage({ id: msg.id, progress: { done, total, stage } }),
+    );
+    port.postMessage({ id: msg.id, ok: true, value }, transfer ?? []);
+  } catch (err) {
+    port.postMessage({ id: msg.id, ok: false, error: toErrorPayload(err) });
+  }
+});
