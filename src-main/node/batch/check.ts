@@ -1,14 +1,11 @@
 /**
- * `--expand-check`: decode the written .rkf again (through the codec's own reader) and measure PSNR against
+ * `--expand-check`: decode the written .rkf again (through the codec's own reader, which validates every chunk CRC) and measure PSNR against
  * the original. The file passes when the sizes agree and the PSNR is within {@link CHECK_TOLERANCE_DB} of
  * the PSNR the compressor reported.
  */
-import { mkdtemp, rm } from 'node:fs/promises';
-import { tmpdir } from 'node:os';
-import { join } from 'node:path';
 import type { CompressOptions, CompressReport } from '../../contract';
 import { decodeImage } from '../image/decode';
-import { loadExpander } from './codec';
+import { loadReader } from './codec';
 import type { ExpandCheck } from './job';
 
 /**
@@ -41,33 +38,32 @@ export async function expandCheck(
   report: CompressReport,
   options: CompressOptions,
 ): Promise<ExpandCheck> {
-  const expandFile = await loadExpander();
-  const dir = await mkdtemp(join(tmpdir(), 'rankfold-check-'));
-  try {
-    const png = join(dir, 'check.png');
-    await expandFile(output, png, { force: true });
-    const [orig, back] = await Promise.all([
-      decodeImage(input, { page: options.page, pixelLimit: options.pixelLimit }),
-      decodeImage(png, { pixelLimit: Number.MAX_SAFE_INTEGER }),
-    ]);
-    if (orig.width !== back.width || orig.height !== back.height || orig.channels !== back.channels)
-      return {
-        psnr: Number.NaN,
+  const readRkf = await loadReader();
+  const [orig, { decoded }] = await Promise.all([
+    decodeImage(input, { page: options.page, pixelLimit: options.pixelLimit }),
+    readRkf(output, { pixelLimit: Number.MAX_SAFE_INTEGER }),
+  ]);
+  if (orig.width !== decoded.width || orig.height !== decoded.height || orig.channels !== decoded.channels)
+    return {
+      psnr: Number.NaN,
+      ok: false,
+      message: `decoded output is ${decoded.width}×${decoded.height}×${decoded.channels}, the source is ${orig.width}×${orig.height}×${orig.channels}`,
+    };
+  if (decoded.header.sourceSha256 !== orig.sourceSha256)
+    return {
+      psnr: Number.NaN,
+      ok: false,
+      message: 'the source SHA-256 recorded in the .rkf header does not match the input',
+    };
+  const psnr = psnrOfPlanes(orig.planes, decoded.samples, orig.bitDepth === 16 ? 65535 : 255);
+  const same =
+    (psnr === Number.POSITIVE_INFINITY && report.psnr === Number.POSITIVE_INFINITY) ||
+    Math.abs(psnr - report.psnr) <= CHECK_TOLERANCE_DB;
+  return same
+    ? { psnr, ok: true }
+    : {
+        psnr,
         ok: false,
-        message: `decoded output is ${back.width}×${back.height}×${back.channels}, the source is ${orig.width}×${orig.height}×${orig.channels}`,
+        message: `re-measured PSNR ${psnr.toFixed(3)} dB differs from the reported ${report.psnr.toFixed(3)} dB`,
       };
-    const psnr = psnrOfPlanes(orig.planes, back.planes, orig.bitDepth === 16 ? 65535 : 255);
-    const same =
-      (psnr === Number.POSITIVE_INFINITY && report.psnr === Number.POSITIVE_INFINITY) ||
-      Math.abs(psnr - report.psnr) <= CHECK_TOLERANCE_DB;
-    return same
-      ? { psnr, ok: true }
-      : {
-          psnr,
-          ok: false,
-          message: `re-measured PSNR ${psnr.toFixed(3)} dB differs from the reported ${report.psnr.toFixed(3)} dB`,
-        };
-  } finally {
-    await rm(dir, { recursive: true, force: true });
-  }
 }

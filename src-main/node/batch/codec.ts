@@ -23,7 +23,6 @@ export async function loadCompressor(): Promise<CompressFile> {
   if (compressor) return compressor;
   let mod: { compressFile?: CompressFile };
   try {
-    // @ts-expect-error -- resolved by the build once the codec service exists.
     mod = await import('../services/compress');
   } catch (err) {
     throw new RankfoldError(
@@ -40,7 +39,6 @@ export async function loadCompressor(): Promise<CompressFile> {
 export async function loadExpander(): Promise<ExpandFile> {
   let mod: { expandFile?: ExpandFile };
   try {
-    // @ts-expect-error -- resolved by the build once the codec service exists.
     mod = await import('../services/expand');
   } catch (err) {
     throw new RankfoldError(
@@ -50,6 +48,34 @@ export async function loadExpander(): Promise<ExpandFile> {
   if (typeof mod.expandFile !== 'function')
     throw new RankfoldError('this build has no expandFile in services/expand');
   return mod.expandFile;
+}
+
+export type ReadRkf = (
+  input: string,
+  opts?: { pixelLimit?: number },
+) => Promise<{
+  decoded: {
+    width: number;
+    height: number;
+    channels: number;
+    samples: Float32Array[];
+    header: { sourceSha256: string };
+  };
+}>;
+
+/** Load `readRkf` (validate and decode a container into samples) from src-main/node/services/expand. */
+export async function loadReader(): Promise<ReadRkf> {
+  let mod: { readRkf?: ReadRkf };
+  try {
+    mod = await import('../services/expand');
+  } catch (err) {
+    throw new RankfoldError(
+      `this build has no container reader (src-main/node/services/expand): ${(err as Error).message}`,
+    );
+  }
+  if (typeof mod.readRkf !== 'function')
+    throw new RankfoldError('this build has no readRkf in services/expand');
+  return mod.readRkf;
 }
 
 /** SHA-256 (hex) of a file's bytes, streamed. Errors name the file. */

@@ -64,7 +64,9 @@ function humanLine(e: Extract<BatchEvent, { event: 'file' }>): string {
 function summaryText(s: BatchSummary, warnings: string[], interrupted: boolean): string {
   const lines = [
     `batch: ${s.total} file${s.total === 1 ? '' : 's'}: ${s.ok} compressed, ${s.kept} kept, ${s.failed} failed${s.planned ? `, ${s.planned} planned (dry run)` : ''} in ${(s.elapsedMs / 1000).toFixed(1)} s` +
-      (s.outputBytes ? `; ${(s.outputBytes / 1e6).toFixed(2)} MB written` : ''),
+      (s.outputBytes
+        ? `; ${s.outputBytes >= 1e6 ? `${(s.outputBytes / 1e6).toFixed(2)} MB` : `${(s.outputBytes / 1e3).toFixed(1)} kB`} written`
+        : ''),
   ];
   if (interrupted) lines.push('batch: interrupted; run the same command with --resume to finish');
   if (s.failures.length) {
