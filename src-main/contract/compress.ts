@@ -38,6 +38,8 @@ export interface ErrorFigures {
 export interface CodecComparison {
   codec: 'jpeg' | 'webp' | 'avif';
   bytes: number;
+  /** False when even the lowest quality is larger than our file (then bytes/quality are of quality 1). */
+  fits?: boolean;
   quality: number;
   psnr: number;
   ssim: number;
@@ -59,15 +61,62 @@ export interface CompressReport {
   /** 8 · outputBytes / (width · height). */
   bpp: number;
   /** Per channel: the rank (whole plane) or a per-tile summary. */
-  ranks: Array<{ channel: string; rank?: number; tiles?: { count: number; min: number; max: number; mean: number; total: number } }>;
+  ranks: Array<{
+    channel: string;
+    rank?: number;
+    tiles?: { count: number; min: number; max: number; mean: number; total: number };
+  }>;
   psnr: number;
   ssim: number;
   errors: ErrorFigures;
   timings: { decodeMs: number; factorMs: number; encodeMs: number };
   compare?: CodecComparison[];
+  /** Tile side used (0 = whole plane). */
+  tile: number;
+  /** Entropy coder of the factor streams ('rc' = Rankfold's range coder). */
+  entropy: string;
+  /** True when the expanded samples equal the source exactly (then `expand` checks the source hash). */
+  lossless: boolean;
 }
 
-const SIZE_UNITS: Record<string, number> = { b: 1, kb: 1e3, mb: 1e6, gb: 1e9, kib: 1024, mib: 1024 ** 2, gib: 1024 ** 3 };
+/** Options of `expand`. */
+export interface ExpandOptions {
+  /** Overwrite an existing output. */
+  force?: boolean;
+  /** Refuse containers declaring more pixels than this. */
+  pixelLimit?: number;
+  /** 'restore' (default) writes the source's stored layout and orientation tag; 'upright' writes upright pixels. */
+  orientation?: 'restore' | 'upright';
+}
+
+export interface ExpandReport {
+  input: string;
+  output: string;
+  format: 'png' | 'tiff';
+  width: number;
+  height: number;
+  channels: number;
+  bitDepth: 8 | 16;
+  inputBytes: number;
+  outputBytes: number;
+  /** The container said the compression was lossless, so the source SHA-256 was checked (and matched). */
+  hashChecked: boolean;
+  sourceSha256: string;
+  lossless: boolean;
+  metadata: { icc: boolean; density?: number; orientation?: number };
+  /** decodeMs covers reading, validating and decoding the container. */
+  timings: { decodeMs: number; writeMs: number };
+}
+
+const SIZE_UNITS: Record<string, number> = {
+  b: 1,
+  kb: 1e3,
+  mb: 1e6,
+  gb: 1e9,
+  kib: 1024,
+  mib: 1024 ** 2,
+  gib: 1024 ** 3,
+};
 
 /**
  * Parse `--budget` text: `250kB`, `1.5MB`, `2MiB`, `120000` (bytes) or `5%` (of the raw sample bytes).
@@ -80,7 +129,9 @@ export function parseBudgetText(text: string): Budget {
   if (pct) {
     const percent = Number(pct[1]);
     if (!(percent > 0 && percent <= 100))
-      throw new UsageError(`Expected a percentage above 0 and at most 100 for budget but received ${JSON.stringify(text)}`);
+      throw new UsageError(
+        `Expected a percentage above 0 and at most 100 for budget but received ${JSON.stringify(text)}`,
+      );
     return { kind: 'percent', percent };
   }
   const m = /^(\d+(?:\.\d+)?)\s*([a-zA-Z]*)$/.exec(t);
@@ -90,6 +141,7 @@ export function parseBudgetText(text: string): Budget {
       `Expected a size such as 250kB, 1.5MB, 2MiB or 5% for budget but received ${JSON.stringify(text)}`,
     );
   const bytes = Math.floor(Number(m[1]) * SIZE_UNITS[unit]);
-  if (!(bytes >= 64)) throw new UsageError(`Expected a budget of at least 64 bytes but received ${JSON.stringify(text)}`);
+  if (!(bytes >= 64))
+    throw new UsageError(`Expected a budget of at least 64 bytes but received ${JSON.stringify(text)}`);
   return { kind: 'bytes', bytes };
 }

@@ -1,12 +1,164 @@
-import { RankfoldError } from '../../../contract';
-import type { Command } from '../command';
+/** `rankfold compress IN -o OUT.rkf`: write a .rkf file that meets a storage budget or a quality floor. */
+import {
+  type Budget,
+  type CompressReport,
+  parseBudgetText,
+  parseIntegerOption,
+  parseNumberOption,
+  type TileChoice,
+  UsageError,
+} from '../../../contract';
+import { compressFile } from '../../services/compress';
+import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
 
-// Placeholder until the issue that owns `rankfold compress` lands.
+const options = {
+  output: { type: 'string', short: 'o' },
+  rank: { type: 'string' },
+  budget: { type: 'string' },
+  bpp: { type: 'string' },
+  'min-psnr': { type: 'string' },
+  'min-ssim': { type: 'string' },
+  tile: { type: 'string' },
+  page: { type: 'string' },
+  'pixel-limit': { type: 'string' },
+  json: { type: 'boolean' },
+  force: { type: 'boolean' },
+  compare: { type: 'boolean' },
+  stack: { type: 'boolean' },
+} as const;
+
+const help = `Usage: rankfold compress IN -o OUT.rkf (--rank K | --budget SIZE | --bpp X | --min-psnr DB | --min-ssim S) [options]
+
+Write a Rankfold container (.rkf) holding a truncated SVD of the scan, whole or in tiles, that meets
+one budget. Figures are measured on the file as written, decoded again.
+
+Budgets (give exactly one):
+  --rank K          keep K singular components per plane (per tile when tiled)
+  --budget SIZE     at most SIZE on disk: 250kB, 1.5MB, 2MiB, 120000 (bytes) or 5% of the raw samples
+  --bpp X           at most X bits per pixel on disk
+  --min-psnr DB     the smallest file found whose PSNR is at least DB (MAX = 255 or 65535)
+  --min-ssim S      the smallest file found whose SSIM (Wang et al. 2004) is at least S
+
+Options:
+  -o, --output FILE   output .rkf file (required)
+  --tile N|auto|0     tile side 16–512, auto (best of 32, 64, 128 for the budget) or 0 for whole planes.
+                      Default: auto (whole planes with --rank)
+  --page N            TIFF page to read, from 0 (default 0)
+  --pixel-limit N     refuse inputs with more pixels than N (default 268402689)
+  --compare           also encode JPEG (mozjpeg), WebP and AVIF at the nearest size ≤ ours, and report them
+  --json              print the report as one JSON object
+  --force             overwrite an existing output
+  --stack             compress a folder or multi-page TIFF of frames jointly (stack mode)
+
+The input is never modified; the output is written atomically and never overwritten without --force.
+
+${LOSSY_CAUTION}
+`;
+
+function budgetFrom(v: Record<string, unknown>): Budget {
+  const given = ['rank', 'budget', 'bpp', 'min-psnr', 'min-ssim'].filter((k) => v[k] !== undefined);
+  if (given.length !== 1)
+    throw new UsageError(
+      given.length === 0
+        ? 'compress: give one budget: --rank K, --budget SIZE, --bpp X, --min-psnr DB or --min-ssim S. See `rankfold compress --help`.'
+        : `compress: give only one budget, not ${given.map((g) => `--${g}`).join(' and ')}`,
+    );
+  const text = v[given[0]] as string;
+  switch (given[0]) {
+    case 'rank':
+      return { kind: 'rank', rank: parseIntegerOption('rank', text, 1, 65535) };
+    case 'budget':
+      return parseBudgetText(text);
+    case 'bpp':
+      return { kind: 'bpp', bpp: parseNumberOption('bpp', text, 0.001, 64) };
+    case 'min-psnr':
+      return { kind: 'psnr', db: parseNumberOption('min-psnr', text, 1, 200) };
+    default:
+      return { kind: 'ssim', value: parseNumberOption('min-ssim', text, 0.01, 1) };
+  }
+}
+
+export function parseTile(text: string | undefined): TileChoice {
+  if (text === undefined || text === 'auto') return 'auto';
+  if (text.trim() === '0') return 0;
+  return parseIntegerOption('tile', text, 16, 512);
+}
+
+const fmt = (x: number, d = 2) =>
+  Number.isFinite(x) ? x.toFixed(d) : x === Number.POSITIVE_INFINITY ? '∞' : 'n/a';
+
+export function formatReport(r: CompressReport): string {
+  const ranks = r.ranks
+    .map((c) =>
+      c.rank !== undefined
+        ? `${c.channel} rank ${c.rank}`
+        : `${c.channel} ${c.tiles?.count} tiles of ${r.tile}px, rank ${c.tiles?.min}–${c.tiles?.max} (mean ${fmt(c.tiles?.mean ?? 0, 1)})`,
+    )
+    .join('; ');
+  const lines = [
+    `${r.input} → ${r.output}`,
+    `  ${r.width}×${r.height}, ${r.channels} channel(s), ${r.bitDepth}-bit`,
+    `  raw ${r.rawBytes} B, input file ${r.inputBytes} B, output ${r.outputBytes} B: ratio ${fmt(r.ratio, 1)}:1, ${fmt(r.bpp, 3)} bpp`,
+    `  ranks: ${ranks}`,
+    `  measured on the decoded file: PSNR ${fmt(r.psnr)} dB, SSIM ${fmt(r.ssim, 4)}${r.lossless ? ' (lossless: decodes to the source samples exactly)' : ''}`,
+    `  Frobenius error ${fmt(r.errors.frobenius, 1)} grey levels (Eckart–Young optimum at these ranks ${fmt(r.errors.frobeniusOptimal, 1)}; spectral bound σ_k+1 ${fmt(r.errors.spectralBound, 1)})`,
+    `  time: decode ${fmt(r.timings.decodeMs, 0)} ms, factor ${fmt(r.timings.factorMs, 0)} ms, encode ${fmt(r.timings.encodeMs, 0)} ms`,
+  ];
+  if (r.compare) {
+    lines.push('  at the nearest size ≤ ours:');
+    for (const c of r.compare) {
+      const better = c.psnr > r.psnr ? '  ← better PSNR than Rankfold here' : '';
+      lines.push(
+        `    ${c.codec.padEnd(5)} q${String(c.quality).padStart(3)} ${String(c.bytes).padStart(9)} B  PSNR ${fmt(c.psnr)} dB  SSIM ${fmt(c.ssim, 4)}${c.fits === false ? '  (even quality 1 is larger than ours)' : ''}${better}`,
+      );
+    }
+  }
+  return `${lines.join('\n')}\n`;
+}
+
 export const command: Command = {
   name: 'compress',
-  summary: 'compress',
-  help: 'rankfold compress: not built yet.',
-  async run() {
-    throw new RankfoldError('`rankfold compress` is not built yet in this version.');
+  summary: 'write a .rkf file that meets a storage budget or quality floor',
+  help,
+  async run(argv, io) {
+    if (argv.includes('--stack')) {
+      const mod = (await import('./compress-stack')) as {
+        runStack(argv: string[], io: CliIO): Promise<number>;
+      };
+      return mod.runStack(argv, io);
+    }
+    const { values: v, positionals } = parseCommandArgs('compress', argv, options);
+    const input = positionals[0];
+    if (!input) throw new UsageError('compress: missing input file. See `rankfold compress --help`.');
+    const output = v.output as string | undefined;
+    if (!output) throw new UsageError('compress: missing -o OUT.rkf. See `rankfold compress --help`.');
+    const budget = budgetFrom(v);
+    const report = await compressFile(
+      input,
+      output,
+      {
+        budget,
+        tile: parseTile(v.tile as string | undefined),
+        page: v.page !== undefined ? parseIntegerOption('page', v.page as string, 0, 100000) : undefined,
+        pixelLimit:
+          v['pixel-limit'] !== undefined
+            ? parseIntegerOption('pixel-limit', v['pixel-limit'] as string, 1, 2 ** 40)
+            : undefined,
+        force: Boolean(v.force),
+        compare: Boolean(v.compare),
+      },
+      {
+        onProgress:
+          io.isTTY && !v.json
+            ? (p) => io.stderr(`\r${p.stage.padEnd(10)} ${Math.round(p.fraction * 100)}%`)
+            : undefined,
+      },
+    );
+    if (io.isTTY && !v.json) io.stderr('\r                \r');
+    if (v.json) {
+      io.stdout(`${JSON.stringify({ ...report, caution: report.lossless ? undefined : LOSSY_CAUTION })}\n`);
+      if (!report.lossless) io.stderr(`${LOSSY_CAUTION}\n`);
+    } else io.stdout(formatReport(report) + (report.lossless ? '' : `${LOSSY_CAUTION}\n`));
+    return 0;
   },
 };

@@ -1,12 +1,75 @@
-import { RankfoldError } from '../../../contract';
-import type { Command } from '../command';
+/** `rankfold expand IN.rkf -o OUT.png|OUT.tif`: decode a container back to PNG or TIFF. */
+import { type ExpandReport, UsageError } from '../../../contract';
+import { expandFile } from '../../services/expand';
+import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
 
-// Placeholder until the issue that owns `rankfold expand` lands.
+const options = {
+  output: { type: 'string', short: 'o' },
+  json: { type: 'boolean' },
+  force: { type: 'boolean' },
+  upright: { type: 'boolean' },
+  'pixel-limit': { type: 'string' },
+  frame: { type: 'string' },
+} as const;
+
+const help = `Usage: rankfold expand IN.rkf -o OUT.png|OUT.tif [--json] [--force]
+
+Decode a Rankfold container back to PNG or TIFF, at the bit depth of the source (8 or 16), with its
+ICC profile, resolution (DPI) and orientation restored. The whole file is validated first (every
+chunk's CRC-32, the version, the dimensions); a damaged file is refused and nothing is written.
+When the container was lossless, the decoded samples are checked against the stored SHA-256 of the source.
+
+Options:
+  -o, --output FILE   .png, .tif or .tiff (required)
+  --upright           write upright pixels without an orientation tag (default: restore the source's layout and tag)
+  --pixel-limit N     refuse containers declaring more pixels than N (default 268402689)
+  --frame I           one frame of a stack container
+  --json              print the report as one JSON object
+  --force             overwrite an existing output
+
+${LOSSY_CAUTION}
+`;
+
+function formatReport(r: ExpandReport): string {
+  return [
+    `${r.input} → ${r.output} (${r.format.toUpperCase()}, ${r.width}×${r.height}, ${r.channels} channel(s), ${r.bitDepth}-bit, ${r.outputBytes} B)`,
+    `  metadata: ICC ${r.metadata.icc ? 'restored' : 'none'}, DPI ${r.metadata.density ?? 'none'}, orientation ${r.metadata.orientation ?? 'none'}`,
+    r.hashChecked
+      ? `  lossless: the samples match the stored source SHA-256 ${r.sourceSha256}`
+      : '  lossy: the samples differ from the source (see the PSNR/SSIM reported by compress)',
+    '',
+  ].join('\n');
+}
+
 export const command: Command = {
   name: 'expand',
-  summary: 'expand',
-  help: 'rankfold expand: not built yet.',
-  async run() {
-    throw new RankfoldError('`rankfold expand` is not built yet in this version.');
+  summary: 'decode a .rkf file back to PNG or TIFF',
+  help,
+  async run(argv, io) {
+    if (argv.includes('--frame') || argv.some((a) => a.startsWith('--frame='))) {
+      const mod = (await import('./expand-stack')) as {
+        runStack(argv: string[], io: CliIO): Promise<number>;
+      };
+      return mod.runStack(argv, io);
+    }
+    const { values: v, positionals } = parseCommandArgs('expand', argv, options);
+    const input = positionals[0];
+    if (!input) throw new UsageError('expand: missing input .rkf file. See `rankfold expand --help`.');
+    const output = v.output as string | undefined;
+    if (!output) throw new UsageError('expand: missing -o OUT.png or OUT.tif. See `rankfold expand --help`.');
+    const pixelLimit = v['pixel-limit'] !== undefined ? Number(v['pixel-limit']) : undefined;
+    if (pixelLimit !== undefined && !(Number.isInteger(pixelLimit) && pixelLimit >= 1))
+      throw new UsageError(
+        `expand: expected a positive integer for --pixel-limit but received ${JSON.stringify(v['pixel-limit'])}`,
+      );
+    const report = await expandFile(input, output, {
+      force: Boolean(v.force),
+      pixelLimit,
+      orientation: v.upright ? 'upright' : 'restore',
+    });
+    if (v.json)
+      io.stdout(`${JSON.stringify({ ...report, caution: report.lossless ? undefined : LOSSY_CAUTION })}\n`);
+    else io.stdout(formatReport(report) + (report.lossless ? '' : `${LOSSY_CAUTION}\n`));
+    return 0;
   },
 };

@@ -1,0 +1,244 @@
+/**
+ * A single scan in the .rkf container (layout "image"): the HEAD JSON header, one PLNE chunk per coded
+ * plane (Y or gray, Cb, Cr), an ALPH chunk for a lossless alpha plane and an ICCP chunk for the ICC
+ * profile. Reading validates the header against the chunks before anything is decoded.
+ */
+import { FormatError } from '../../contract/errors';
+import { chromaOffset, toSamples, ycbcrToRgb } from '../lowrank/colour';
+import { decodeLosslessPlane } from './alpha';
+import { type Chunk, type ContainerView, readContainer, writeContainer } from './container';
+import { type ByteCompressor, decodePlane, type EntropyId, encodePlane } from './entropy';
+import { DEAD_ZONE, reconstructPlane } from './quantise';
+import type { QuantPlane } from './quantised';
+
+export type ColourTransform = 'none' | 'ycbcr-jfif';
+
+export interface PlaneHeader {
+  /** 'gray', 'Y', 'Cb' or 'Cr'. */
+  name: string;
+  tile: number;
+  step: number;
+  meanStep: number;
+  entropy: EntropyId;
+}
+
+export interface RkfHeader {
+  format: 'rankfold';
+  /** 'image' now; the stack layout adds 'stack'. */
+  layout: 'image' | string;
+  width: number;
+  height: number;
+  bitDepth: 8 | 16;
+  /** Channels of the source and of the expanded output: 1 gray, 2 gray+alpha, 3 RGB, 4 RGBA. */
+  channels: 1 | 2 | 3 | 4;
+  colourTransform: ColourTransform;
+  alpha: 'none' | 'lossless';
+  quantiser: { kind: 'uniform-dead-zone'; weighting: 'sigma'; deadZone: number };
+  planes: PlaneHeader[];
+  /** SHA-256 (hex) of the decoded source samples, interleaved, 16-bit big-endian. */
+  sourceSha256: string;
+  /** True when the expanded samples equal the source exactly (the hash can then be checked). */
+  lossless: boolean;
+  metadata: {
+    format?: string;
+    density?: number;
+    orientation?: number;
+    page?: number;
+    pages?: number;
+    icc?: boolean;
+  };
+  encoder: string;
+}
+
+/** Default largest image a reader accepts: 2^28 pixels, like the decoder's pixel limit. */
+export const MAX_PIXELS = 268_402_689;
+const MAX_SIDE = 1 << 20;
+
+export interface ImageFileParts {
+  header: RkfHeader;
+  planes: Uint8Array[];
+  alpha?: Uint8Array;
+  icc?: Uint8Array;
+}
+
+/** The header is ASCII JSON: any non-ASCII character is written as a \uXXXX escape (ECMA-404 §9). */
+function asciiJson(value: unknown): Uint8Array {
+  const text = JSON.stringify(value).replace(
+    /[\u007f-\uffff]/g,
+    (ch) => `\\u${ch.charCodeAt(0).toString(16).padStart(4, '0')}`,
+  );
+  const out = new Uint8Array(text.length);
+  for (let i = 0; i < text.length; i++) out[i] = text.charCodeAt(i);
+  return out;
+}
+
+function parseAsciiJson(bytes: Uint8Array): unknown {
+  let text = '';
+  for (let i = 0; i < bytes.length; i += 8192) {
+    const part = bytes.subarray(i, i + 8192);
+    for (let k = 0; k < part.length; k++)
+      if (part[k] > 0x7e || (part[k] < 0x20 && part[k] !== 0x0a)) throw new SyntaxError('non-ASCII header');
+    text += String.fromCharCode(...part);
+  }
+  return JSON.parse(text);
+}
+
+export function quantiserInfo(): RkfHeader['quantiser'] {
+  return { kind: 'uniform-dead-zone', weighting: 'sigma', deadZone: DEAD_ZONE };
+}
+
+/** Encode the planes' factor streams (one per plane) for a header. */
+export function encodePlanes(
+  planes: QuantPlane[],
+  entropy: EntropyId,
+  compressors: ByteCompressor[] = [],
+): Uint8Array[] {
+  return planes.map((p) => encodePlane(p, entropy, compressors));
+}
+
+export function writeImageFile(parts: ImageFileParts): Uint8Array {
+  const chunks: Chunk[] = [{ type: 'HEAD', id: 0, payload: asciiJson(parts.header) }];
+  if (parts.icc) chunks.push({ type: 'ICCP', id: 0, payload: parts.icc });
+  parts.planes.forEach((payload, id) => {
+    chunks.push({ type: 'PLNE', id, payload });
+  });
+  if (parts.alpha) chunks.push({ type: 'ALPH', id: 0, payload: parts.alpha });
+  return writeContainer(chunks);
+}
+
+const KNOWN = new Set(['HEAD', 'PLNE', 'ALPH', 'ICCP', 'INDX']);
+
+export interface ReadOptions {
+  compressors?: ByteCompressor[];
+  maxPixels?: number;
+}
+
+/** Parse and validate the header of a container (all CRCs are checked). */
+export function readImageHeader(
+  bytes: Uint8Array,
+  file: string,
+  opts: ReadOptions = {},
+): { view: ContainerView; header: RkfHeader } {
+  const view = readContainer(bytes, file);
+  const fail = (problem: string): never => {
+    throw new FormatError(file, problem);
+  };
+  let header: RkfHeader;
+  try {
+    header = parseAsciiJson(view.payload(0)) as RkfHeader;
+  } catch {
+    return fail('is damaged: the header (HEAD) is not valid ASCII JSON');
+  }
+  if (typeof header !== 'object' || header === null || header.format !== 'rankfold')
+    fail('has a header that is not a Rankfold header');
+  for (const e of view.entries)
+    if (!KNOWN.has(e.type) && e.type[0] >= 'A' && e.type[0] <= 'Z')
+      fail(
+        `contains a critical chunk type "${e.type}" that this Rankfold does not know; use a newer Rankfold`,
+      );
+  if (header.layout !== 'image')
+    fail(
+      `has layout "${String(header.layout)}", which \`expand\` reads only with --frame or the stack reader (this reader handles "image")`,
+    );
+  const { width, height } = header;
+  const int = (v: unknown, lo: number, hi: number) =>
+    Number.isInteger(v) && (v as number) >= lo && (v as number) <= hi;
+  if (!int(width, 1, MAX_SIDE) || !int(height, 1, MAX_SIDE))
+    fail(`has impossible dimensions ${String(width)}×${String(height)} (each side must be 1–${MAX_SIDE})`);
+  const maxPixels = opts.maxPixels ?? MAX_PIXELS;
+  if (width * height > maxPixels)
+    fail(
+      `declares ${width}×${height} = ${width * height} pixels, over the limit of ${maxPixels}; raise it with --pixel-limit if the file is trusted`,
+    );
+  if (header.bitDepth !== 8 && header.bitDepth !== 16)
+    fail(`declares bit depth ${String(header.bitDepth)}; only 8 and 16 are valid`);
+  if (!int(header.channels, 1, 4)) fail(`declares ${String(header.channels)} channels; 1–4 are valid`);
+  const colour = header.channels >= 3;
+  const wantPlanes = colour ? 3 : 1;
+  if (colour && header.colourTransform !== 'ycbcr-jfif')
+    fail(`declares colour transform "${String(header.colourTransform)}" for a colour image`);
+  if (!colour && header.colourTransform !== 'none')
+    fail(`declares colour transform "${String(header.colourTransform)}" for a gray image`);
+  const hasAlpha = header.channels === 2 || header.channels === 4;
+  if ((header.alpha === 'lossless') !== hasAlpha)
+    fail('is inconsistent: its alpha setting does not match its channel count');
+  if (!Array.isArray(header.planes) || header.planes.length !== wantPlanes)
+    fail(
+      `is inconsistent: ${header.channels} channels need ${wantPlanes} coded plane(s), the header lists ${Array.isArray(header.planes) ? header.planes.length : 'none'}`,
+    );
+  header.planes.forEach((p, k) => {
+    if (!(p.tile === 0 || int(p.tile, 16, 512)))
+      fail(`plane ${k} has tile size ${String(p.tile)}; valid sizes are 0 (whole plane) and 16–512`);
+    if (!(typeof p.step === 'number' && Number.isFinite(p.step) && p.step > 0))
+      fail(`plane ${k} has an invalid quantiser step ${String(p.step)}`);
+    if (!(typeof p.meanStep === 'number' && Number.isFinite(p.meanStep) && p.meanStep >= 0))
+      fail(`plane ${k} has an invalid mean step`);
+    if (typeof p.entropy !== 'string') fail(`plane ${k} names no entropy coder`);
+    if (view.find('PLNE', k) < 0)
+      fail(`is truncated or damaged: the data of plane ${k} (PLNE #${k}) is missing`);
+  });
+  if (view.entries.filter((e) => e.type === 'PLNE').length !== wantPlanes)
+    fail('is inconsistent: unexpected extra plane chunks');
+  if (hasAlpha && view.find('ALPH') < 0) fail('is truncated or damaged: the alpha plane (ALPH) is missing');
+  if (typeof header.sourceSha256 !== 'string' || !/^[0-9a-f]{64}$/.test(header.sourceSha256))
+    fail('has no valid source SHA-256');
+  return { view, header };
+}
+
+export interface DecodedRkf {
+  header: RkfHeader;
+  width: number;
+  height: number;
+  bitDepth: 8 | 16;
+  channels: 1 | 2 | 3 | 4;
+  /** Samples per output channel (gray[,A] or R,G,B[,A]), rounded and clamped. */
+  samples: Float32Array[];
+  icc?: Uint8Array;
+}
+
+/**
+ * Decode a whole image file. Each step names the file and the problem on failure.
+ * @throws FormatError
+ */
+export function decodeImageFile(bytes: Uint8Array, file: string, opts: ReadOptions = {}): DecodedRkf {
+  const { view, header } = readImageHeader(bytes, file, opts);
+  const { width, height, bitDepth } = header;
+  const max = bitDepth === 16 ? 65535 : 255;
+  const planes: Float64Array[] = header.planes.map((ph, k) => {
+    try {
+      const q = decodePlane(
+        view.payload(view.find('PLNE', k)),
+        { width, height, tile: ph.tile, step: ph.step, meanStep: ph.meanStep },
+        ph.entropy,
+        opts.compressors,
+      );
+      return reconstructPlane(q);
+    } catch (err) {
+      if (err instanceof FormatError) throw err;
+      throw new FormatError(file, `plane ${k} (${ph.name}) cannot be decoded: ${(err as Error).message}`);
+    }
+  });
+  let samples: Float32Array[];
+  if (header.colourTransform === 'ycbcr-jfif')
+    samples = ycbcrToRgb(planes[0], planes[1], planes[2], bitDepth).map((p) => toSamples(p, max));
+  else samples = [toSamples(planes[0], max)];
+  if (header.alpha === 'lossless') {
+    try {
+      samples.push(decodeLosslessPlane(view.payload(view.find('ALPH')), width, height, max));
+    } catch (err) {
+      throw new FormatError(file, `the alpha plane cannot be decoded: ${(err as Error).message}`);
+    }
+  }
+  const iccIndex = view.find('ICCP');
+  return {
+    header,
+    width,
+    height,
+    bitDepth,
+    channels: header.channels,
+    samples,
+    icc: iccIndex >= 0 ? view.payload(iccIndex).slice() : undefined,
+  };
+}
+
+export { chromaOffset };

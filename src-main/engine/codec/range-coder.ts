@@ -1,0 +1,239 @@
+/**
+ * Adaptive binary range coder with context-modelled integer binarisation.
+ *
+ * The carry-less byte-wise range coder with a cache byte follows the structure published with the
+ * LZMA SDK (I. Pavlov, public domain, "RangeEnc_ShiftLow"; from memory) and G. N. N. Martin, "Range
+ * encoding: an algorithm for removing redundancy from a digitised message", Video & Data Recording
+ * Conference, Southampton, 1979. Probabilities are 15-bit and adapt at two rates whose average is used
+ * (a common practice in context-mixing coders). Integers are binarised as a zero flag, a sign and a
+ * unary-then-Exp-Golomb magnitude, each bin with its own adaptive context, in the spirit of CABAC
+ * (Marpe, Schwarz, Wiegand, IEEE TCSVT 13(7), 2003).
+ */
+
+const PROB_BITS = 15;
+const PROB_ONE = 1 << PROB_BITS;
+const PROB_INIT = PROB_ONE >>> 1;
+const TOP = 2 ** 24;
+/** Largest magnitude the integer coder accepts; bigger values mean a corrupt stream. */
+export const MAX_MAGNITUDE = 2 ** 30;
+
+/** One adaptive binary context: two estimators (fast and slow) of P(bit = 0). */
+export class BitModel {
+  fast = PROB_INIT;
+  slow = PROB_INIT;
+  p(): number {
+    const v = (this.fast + this.slow) >>> 1;
+    return v < 32 ? 32 : v > PROB_ONE - 32 ? PROB_ONE - 32 : v;
+  }
+  update(bit: number): void {
+    if (bit) {
+      this.fast -= this.fast >> 4;
+      this.slow -= this.slow >> 7;
+    } else {
+      this.fast += (PROB_ONE - this.fast) >> 4;
+      this.slow += (PROB_ONE - this.slow) >> 7;
+    }
+  }
+}
+
+export function models(n: number): BitModel[] {
+  return Array.from({ length: n }, () => new BitModel());
+}
+
+/** Growable byte sink. */
+class ByteSink {
+  buf = new Uint8Array(1 << 12);
+  length = 0;
+  push(b: number) {
+    if (this.length === this.buf.length) {
+      const nb = new Uint8Array(this.buf.length * 2);
+      nb.set(this.buf);
+      this.buf = nb;
+    }
+    this.buf[this.length++] = b;
+  }
+  bytes(): Uint8Array {
+    return this.buf.slice(0, this.length);
+  }
+}
+
+export class RangeEncoder {
+  private low = 0;
+  private range = 0xffffffff;
+  private cache = 0;
+  private cacheSize = 1;
+  private out = new ByteSink();
+
+  encodeBit(m: BitModel, bit: number): void {
+    const bound = (this.range >>> PROB_BITS) * m.p();
+    if (bit) {
+      this.low += bound;
+      this.range = (this.range - bound) >>> 0;
+    } else {
+      this.range = bound >>> 0;
+    }
+    m.update(bit);
+    while (this.range < TOP) {
+      this.range = (this.range * 256) >>> 0;
+      this.shiftLow();
+    }
+  }
+
+  /** A bit with probability ½ (no model). */
+  encodeDirect(bit: number): void {
+    this.range = this.range >>> 1;
+    if (bit) this.low += this.range;
+    while (this.range < TOP) {
+      this.range = (this.range * 256) >>> 0;
+      this.shiftLow();
+    }
+  }
+
+  private shiftLow(): void {
+    if (this.low < 0xff000000 || this.low >= 0x100000000) {
+      const carry = this.low >= 0x100000000 ? 1 : 0;
+      let temp = this.cache;
+      do {
+        this.out.push((temp + carry) & 0xff);
+        temp = 0xff;
+      } while (--this.cacheSize !== 0);
+      this.cache = Math.floor(this.low / 0x1000000) & 0xff;
+    }
+    this.cacheSize++;
+    this.low = (this.low % 0x1000000) * 256;
+  }
+
+  finish(): Uint8Array {
+    for (let i = 0; i < 5; i++) this.shiftLow();
+    return this.out.bytes();
+  }
+}
+
+export class RangeDecoder {
+  private range = 0xffffffff;
+  private code = 0;
+  private pos = 0;
+  /** Bytes read past the end (a sign of a corrupt or truncated stream). */
+  overrun = 0;
+  constructor(private readonly data: Uint8Array) {
+    for (let i = 0; i < 5; i++) this.code = ((this.code * 256) >>> 0) + this.next();
+    this.code >>>= 0;
+  }
+  private next(): number {
+    if (this.pos < this.data.length) return this.data[this.pos++];
+    this.overrun++;
+    return 0;
+  }
+  decodeBit(m: BitModel): number {
+    const bound = (this.range >>> PROB_BITS) * m.p();
+    let bit: number;
+    if (this.code < bound) {
+      this.range = bound >>> 0;
+      bit = 0;
+    } else {
+      this.code = (this.code - bound) >>> 0;
+      this.range = (this.range - bound) >>> 0;
+      bit = 1;
+    }
+    m.update(bit);
+    while (this.range < TOP) {
+      this.range = (this.range * 256) >>> 0;
+      this.code = ((this.code * 256) >>> 0) + this.next();
+      this.code >>>= 0;
+    }
+    return bit;
+  }
+  decodeDirect(): number {
+    this.range = this.range >>> 1;
+    let bit = 0;
+    if (this.code >= this.range) {
+      this.code = (this.code - this.range) >>> 0;
+      bit = 1;
+    }
+    while (this.range < TOP) {
+      this.range = (this.range * 256) >>> 0;
+      this.code = ((this.code * 256) >>> 0) + this.next();
+      this.code >>>= 0;
+    }
+    return bit;
+  }
+}
+
+/** Number of unary magnitude bins before the Exp-Golomb escape. */
+const UNARY = 14;
+const EG_BITS = 32;
+
+/**
+ * Contexts for one family of signed integers: `classes` selects a zero/magnitude context set (e.g. the
+ * size of the previous value), and signs are modelled on the previous sign.
+ */
+export class IntModel {
+  readonly zero: BitModel[];
+  readonly sign: BitModel[];
+  readonly unary: BitModel[];
+  readonly egPrefix: BitModel[];
+  readonly egBits: BitModel[];
+  constructor(readonly classes: number) {
+    this.zero = models(classes);
+    this.sign = models(3 * classes);
+    this.unary = models(classes * UNARY);
+    this.egPrefix = models(EG_BITS);
+    this.egBits = models(EG_BITS);
+  }
+}
+
+/** Encode a signed integer with context class `cls` and previous sign `prevSign` (−1, 0, 1). */
+export function encodeInt(enc: RangeEncoder, m: IntModel, v: number, cls: number, prevSign: number): void {
+  if (v === 0) {
+    enc.encodeBit(m.zero[cls], 0);
+    return;
+  }
+  enc.encodeBit(m.zero[cls], 1);
+  enc.encodeBit(m.sign[cls * 3 + prevSign + 1], v < 0 ? 1 : 0);
+  encodeMagnitude(enc, m, Math.abs(v) - 1, cls);
+}
+
+export function decodeInt(dec: RangeDecoder, m: IntModel, cls: number, prevSign: number): number {
+  if (!dec.decodeBit(m.zero[cls])) return 0;
+  const neg = dec.decodeBit(m.sign[cls * 3 + prevSign + 1]);
+  const mag = decodeMagnitude(dec, m, cls) + 1;
+  return neg ? -mag : mag;
+}
+
+/** Encode a non-negative integer: unary bins up to UNARY, then an Exp-Golomb (order 0) escape. */
+export function encodeMagnitude(enc: RangeEncoder, m: IntModel, a: number, cls: number): void {
+  if (!(a >= 0 && a < MAX_MAGNITUDE)) throw new RangeError(`integer ${a} outside the coder's range`);
+  const base = cls * UNARY;
+  for (let i = 0; i < UNARY; i++) {
+    if (a === i) {
+      enc.encodeBit(m.unary[base + i], 0);
+      return;
+    }
+    enc.encodeBit(m.unary[base + i], 1);
+  }
+  const r = a - UNARY + 1; // ≥ 1
+  const nbits = 31 - Math.clz32(r);
+  for (let i = 0; i < nbits; i++) enc.encodeBit(m.egPrefix[i], 1);
+  enc.encodeBit(m.egPrefix[nbits], 0);
+  for (let i = nbits - 1; i >= 0; i--) {
+    const bit = (r >>> i) & 1;
+    if (i === nbits - 1) enc.encodeBit(m.egBits[nbits], bit);
+    else enc.encodeDirect(bit);
+  }
+}
+
+export function decodeMagnitude(dec: RangeDecoder, m: IntModel, cls: number): number {
+  const base = cls * UNARY;
+  for (let i = 0; i < UNARY; i++) if (!dec.decodeBit(m.unary[base + i])) return i;
+  let nbits = 0;
+  while (dec.decodeBit(m.egPrefix[nbits])) {
+    nbits++;
+    if (nbits >= 30) throw new RangeError('corrupt integer code (Exp-Golomb prefix too long)');
+  }
+  let r = 1;
+  for (let i = nbits - 1; i >= 0; i--) {
+    const bit = i === nbits - 1 ? dec.decodeBit(m.egBits[nbits]) : dec.decodeDirect();
+    r = r * 2 + bit;
+  }
+  return r + UNARY - 1;
+}

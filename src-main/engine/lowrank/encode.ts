@@ -1,0 +1,375 @@
+/**
+ * Encode one decoded scan into an .rkf file under a budget: colour transform, factorisation (whole
+ * plane or tiles), rate–distortion search, entropy coding and the container. The result is decoded
+ * again with the real reader so every figure in the report is measured on the file as written.
+ */
+import type { Budget, DecodedImage } from '../../contract';
+import { UsageError } from '../../contract/errors';
+import { encodeLosslessPlane } from '../codec/alpha';
+import type { ByteCompressor, EntropyId } from '../codec/entropy';
+import {
+  type DecodedRkf,
+  decodeImageFile,
+  encodePlanes,
+  type PlaneHeader,
+  quantiserInfo,
+  type RkfHeader,
+  writeImageFile,
+} from '../codec/image-file';
+import type { QuantPlane } from '../codec/quantised';
+import { psnrPlanes, ssimPlanes } from '../metrics';
+import { rgbToYcbcr, YCBCR_ERROR_WEIGHTS } from './colour';
+import { factorPlane, type PlaneFactors } from './factorise';
+import { type Plan, type PlaneInput, solveBytes, solveError, solveRank } from './solve';
+
+/** Tile sides `--tile auto` tries. */
+export const AUTO_TILES = [32, 64, 128] as const;
+/** Relative quantisation loss allowed at a fixed rank: 2.3% of the truncation error ≈ 0.1 dB. */
+export const RANK_QUANT_LOSS = 0.023;
+/** Per-sample quantisation MSE floor at a fixed rank (grey levels² on the 8-bit scale). */
+export const RANK_QUANT_FLOOR_MSE = 0.01;
+
+export interface EncodeOptions {
+  budget: Budget;
+  tile: number | 'auto';
+  entropy?: EntropyId;
+  compressors?: ByteCompressor[];
+  encoder?: string;
+  onProgress?: (stage: string, fraction: number) => void;
+  /** Throws (e.g. CancelledError) when the job should stop. */
+  checkCancelled?: () => void;
+  /** Clock in milliseconds (for timings); defaults to Date.now. */
+  now?: () => number;
+}
+
+export interface PlaneRankSummary {
+  channel: string;
+  tile: number;
+  ranks: Int32Array;
+}
+
+export interface EncodeResult {
+  bytes: Uint8Array;
+  header: RkfHeader;
+  decoded: DecodedRkf;
+  ranks: PlaneRankSummary[];
+  psnr: number;
+  ssim: number;
+  errors: { frobenius: number; frobeniusOptimal: number; spectralBound: number };
+  factorMs: number;
+  encodeMs: number;
+  lossless: boolean;
+}
+
+function maxOf(bitDepth: 8 | 16): number {
+  return bitDepth === 16 ? 65535 : 255;
+}
+
+/** Resolve a budget to bytes when it is one; undefined for rank and quality floors. */
+export function budgetBytes(
+  b: Budget,
+  img: { width: number; height: number; rawBytes: number },
+): number | undefined {
+  if (b.kind === 'bytes') return b.bytes;
+  if (b.kind === 'percent') return Math.floor((img.rawBytes * b.percent) / 100);
+  if (b.kind === 'bpp') return Math.floor((b.bpp * img.width * img.height) / 8);
+  return undefined;
+}
+
+interface Prepared {
+  names: string[];
+  planes: ArrayLike<number>[];
+  weights: number[];
+  colour: boolean;
+}
+
+function prepare(img: DecodedImage): Prepared {
+  const colour = img.channels >= 3;
+  if (colour) {
+    const ycc = rgbToYcbcr(img.planes[0], img.planes[1], img.planes[2], img.bitDepth);
+    return { names: ['Y', 'Cb', 'Cr'], planes: ycc, weights: [...YCBCR_ERROR_WEIGHTS], colour };
+  }
+  return { names: ['gray'], planes: [img.planes[0]], weights: [1], colour };
+}
+
+export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult {
+  const now = opts.now ?? Date.now;
+  const progress = opts.onProgress ?? (() => {});
+  const cancel = opts.checkCancelled ?? (() => {});
+  const entropy = opts.entropy ?? 'rc';
+  const max = maxOf(img.bitDepth);
+  const { width, height } = img;
+  const prep = prepare(img);
+  const hasAlpha = img.channels === 2 || img.channels === 4;
+  const alpha = hasAlpha ? encodeLosslessPlane(img.planes[img.channels - 1], width, height) : undefined;
+  const meanStep = max / 1020;
+  const byteBudget = budgetBytes(opts.budget, img);
+  const tiles: number[] =
+    opts.tile === 'auto'
+      ? opts.budget.kind === 'rank'
+        ? [0]
+        : AUTO_TILES.filter((t) => t < Math.max(width, height) || t === AUTO_TILES[0])
+      : [opts.tile];
+  for (const t of tiles)
+    if (t !== 0 && Math.min(width, height) < 8)
+      throw new UsageError(
+        `${img.file}: image is ${width}×${height} pixels; tiles need at least 8×8 — pass --tile 0 for a whole-image SVD`,
+      );
+
+  const header = (planes: QuantPlane[], lossless: boolean): RkfHeader => ({
+    format: 'rankfold',
+    layout: 'image',
+    width,
+    height,
+    bitDepth: img.bitDepth,
+    channels: img.channels,
+    colourTransform: prep.colour ? 'ycbcr-jfif' : 'none',
+    alpha: hasAlpha ? 'lossless' : 'none',
+    quantiser: quantiserInfo(),
+    planes: planes.map(
+      (p, k): PlaneHeader => ({
+        name: prep.names[k],
+        tile: p.tile,
+        step: p.step,
+        meanStep: p.meanStep,
+        entropy,
+      }),
+    ),
+    sourceSha256: img.sourceSha256,
+    lossless,
+    metadata: {
+      format: img.meta.format,
+      density: img.meta.density,
+      orientation: img.meta.orientation,
+      page: img.meta.page,
+      pages: img.meta.pages,
+      icc: img.meta.icc ? true : undefined,
+    },
+    encoder: opts.encoder ?? 'rankfold',
+  });
+  const build = (planes: QuantPlane[], lossless = false) =>
+    writeImageFile({
+      header: header(planes, lossless),
+      planes: encodePlanes(planes, entropy, opts.compressors),
+      alpha,
+      icc: img.meta.icc,
+    });
+  const measure = (planes: QuantPlane[]) => {
+    cancel();
+    return build(planes).length;
+  };
+
+  let factorMs = 0;
+  let encodeMs = 0;
+  let best: { plan: Plan; inputs: PlaneInput[]; factors: PlaneFactors[]; size: number } | undefined;
+  const total = tiles.length;
+  for (let ti = 0; ti < tiles.length; ti++) {
+    const tile = tiles[ti];
+    const t0 = now();
+    progress('factor', ti / total);
+    const factors = prep.planes.map((p) => {
+      cancel();
+      return factorPlane(p, width, height, {
+        tile,
+        meanRemoval: tile !== 0,
+        meanStep,
+        maxRank: Math.min(width, height),
+      });
+    });
+    const inputs: PlaneInput[] = factors.map((f, k) => ({
+      factors: f,
+      weight: prep.weights[k],
+      stepScale: Math.sqrt(prep.weights[0] / prep.weights[k]),
+    }));
+    const t1 = now();
+    factorMs += t1 - t0;
+    progress('allocate', (ti + 0.5) / total);
+    const plan = solveFor(inputs, opts.budget, byteBudget, max, measure, img, prep, build);
+    const size = plan.bytes || measure(plan.planes);
+    encodeMs += now() - t1;
+    const better =
+      !best ||
+      (byteBudget !== undefined || opts.budget.kind === 'rank'
+        ? plan.estimatedError < best.plan.estimatedError
+        : size < best.size);
+    if (better) best = { plan, inputs, factors, size };
+  }
+  if (!best) throw new RangeError('no tile size to try');
+  const t2 = now();
+  progress('write', 0.95);
+  let bytes = build(best.plan.planes);
+  let decoded = decodeImageFile(bytes, img.file);
+  const colourSamples = img.planes.slice(0, prep.colour ? 3 : 1);
+  const lossless = sameSamples(decoded.samples, img.planes);
+  if (lossless) {
+    bytes = build(best.plan.planes, true);
+    decoded = decodeImageFile(bytes, img.file);
+  }
+  encodeMs += now() - t2;
+  const outPlanes = decoded.samples.slice(0, colourSamples.length);
+  const psnr = psnrPlanes(colourSamples, outPlanes, max);
+  const ssim =
+    width >= 11 && height >= 11 ? ssimPlanes(colourSamples, outPlanes, width, height, max) : Number.NaN;
+  let sse = 0;
+  for (let c = 0; c < colourSamples.length; c++)
+    for (let i = 0; i < colourSamples[c].length; i++) {
+      const d = colourSamples[c][i] - outPlanes[c][i];
+      sse += d * d;
+    }
+  const ranks = best.plan.planes.map((p, k) => ({
+    channel: prep.names[k],
+    tile: p.tile,
+    ranks: Int32Array.from(p.tiles, (t) => t.u.length),
+  }));
+  let trunc = 0;
+  let spectral = 0;
+  best.factors.forEach((f, k) => {
+    f.tiles.forEach((tf, t) => {
+      const r = ranks[k].ranks[t];
+      let kept = 0;
+      for (let i = 0; i < r; i++) kept += tf.s[i] * tf.s[i];
+      trunc += prep.weights[k] * Math.max(0, tf.energy - kept);
+      if (r < tf.s.length) spectral = Math.max(spectral, tf.s[r]);
+    });
+  });
+  progress('done', 1);
+  return {
+    bytes,
+    header: decoded.header,
+    decoded,
+    ranks,
+    psnr,
+    ssim,
+    errors: { frobenius: Math.sqrt(sse), frobeniusOptimal: Math.sqrt(trunc), spectralBound: spectral },
+    factorMs,
+    encodeMs,
+    lossless,
+  };
+}
+
+function sameSamples(a: Float32Array[], b: Float32Array[]): boolean {
+  if (a.length !== b.length) return false;
+  for (let c = 0; c < a.length; c++)
+    for (let i = 0; i < a[c].length; i++) if (a[c][i] !== b[c][i]) return false;
+  return true;
+}
+
+function solveFor(
+  inputs: PlaneInput[],
+  budget: Budget,
+  byteBudget: number | undefined,
+  max: number,
+  measure: (p: QuantPlane[]) => number,
+  img: DecodedImage,
+  prep: Prepared,
+  build: (p: QuantPlane[]) => Uint8Array,
+): Plan {
+  if (budget.kind === 'rank') {
+    let loss = RANK_QUANT_LOSS;
+    let plan = solveRank(inputs, budget.rank, max, loss, RANK_QUANT_FLOOR_MSE);
+    // Verify on the decoded file: the quantiser may not cost more than ~0.25 dB over the rank-K optimum.
+    for (let i = 0; i < 3; i++) {
+      const trunc = plan.estimatedError;
+      const measured = measuredSse(build(plan.planes), img, prep);
+      if (measured <= trunc * 1.06 + 1e-9 || trunc === 0) break;
+      loss /= 4;
+      plan = solveRank(inputs, budget.rank, max, loss, RANK_QUANT_FLOOR_MSE / 4);
+    }
+    return plan;
+  }
+  if (byteBudget !== undefined) {
+    try {
+      return solveBytes(inputs, byteBudget, max, measure);
+    } catch (err) {
+      const m = /minimum size (\d+)/.exec((err as Error).message);
+      if (m)
+        throw new UsageError(
+          `${img.file}: a budget of ${byteBudget} bytes is below the smallest possible file for this image (${m[1]} bytes: header, tile means${prep.colour ? ', three planes' : ''}${img.hasAlpha ? ', lossless alpha' : ''}); raise the budget or use a larger --tile`,
+        );
+      throw err;
+    }
+  }
+  const nc = prep.colour ? 3 : 1;
+  const count = img.width * img.height * nc;
+  const meets = (bytes: Uint8Array) => {
+    const d = decodeImageFile(bytes, img.file);
+    const src = img.planes.slice(0, nc);
+    const out = d.samples.slice(0, nc);
+    if (budget.kind === 'psnr') return psnrPlanes(src, out, max) >= budget.db;
+    return ssimPlanes(src, out, img.width, img.height, max) >= (budget as { value: number }).value;
+  };
+  if (budget.kind === 'psnr') {
+    let dmax = count * max * max * 10 ** (-budget.db / 10);
+    let found: Plan | undefined;
+    for (let i = 0; i < 6; i++) {
+      const plan = solveError(inputs, dmax, max);
+      const bytes = build(plan.planes);
+      if (meets(bytes)) {
+        plan.bytes = bytes.length;
+        if (!found || plan.bytes < found.bytes) found = plan;
+        if (i > 0) break;
+        dmax *= 1.03; // try slightly larger error once: the estimate is conservative near rounding
+      } else dmax /= found ? 1.01 : 1.25;
+    }
+    if (!found) {
+      const plan = solveRank(inputs, Math.max(img.width, img.height), max, 0, 0.0005);
+      if (!meets(build(plan.planes)))
+        throw new UsageError(
+          `${img.file}: PSNR ${budget.db} dB cannot be reached by this codec for this image`,
+        );
+      found = plan;
+    }
+    return found;
+  }
+  if (budget.kind === 'ssim') {
+    if (img.width < 11 || img.height < 11)
+      throw new UsageError(`${img.file}: SSIM needs at least 11×11 pixels (Wang et al. 2004 window)`);
+    let lo = measure(inputs.map((i) => emptyPlane(i)));
+    let hi = img.rawBytes + lo;
+    let found: Plan | undefined;
+    for (let i = 0; i < 12 && hi - lo > Math.max(16, lo * 0.005); i++) {
+      const mid = Math.floor(Math.sqrt(lo * hi));
+      const plan = solveBytes(inputs, mid, max, measure);
+      const bytes = build(plan.planes);
+      if (meets(bytes)) {
+        hi = Math.min(mid, bytes.length);
+        if (!found || bytes.length < found.bytes) found = { ...plan, bytes: bytes.length };
+      } else lo = mid;
+    }
+    if (!found) {
+      const plan = solveRank(inputs, Math.max(img.width, img.height), max, 0, 0.0005);
+      if (!meets(build(plan.planes)))
+        throw new UsageError(
+          `${img.file}: SSIM ${budget.value} cannot be reached by this codec for this image`,
+        );
+      found = plan;
+    }
+    return found;
+  }
+  throw new UsageError(`unknown budget kind ${(budget as { kind: string }).kind}`);
+}
+
+function emptyPlane(inp: PlaneInput): QuantPlane {
+  const f = inp.factors;
+  return {
+    width: f.width,
+    height: f.height,
+    tile: f.tile,
+    step: 1,
+    meanStep: f.meanStep,
+    tiles: f.tiles.map((t) => ({ meanQ: t.meanQ, u: [], v: [] })),
+  };
+}
+
+/** Weighted squared error of a built file against the source in the factor domain's weighting (RGB SSE). */
+function measuredSse(bytes: Uint8Array, img: DecodedImage, prep: Prepared): number {
+  const d = decodeImageFile(bytes, img.file);
+  const nc = prep.colour ? 3 : 1;
+  let s = 0;
+  for (let c = 0; c < nc; c++)
+    for (let i = 0; i < img.planes[c].length; i++) {
+      const e = img.planes[c][i] - d.samples[c][i];
+      s += e * e;
+    }
+  return s;
+}

@@ -1,0 +1,102 @@
+/**
+ * Factor a plane, whole or tile by tile, into σ, U, V. Tiles use the exact one-sided Jacobi SVD; a whole
+ * plane uses the engine's randomized SVD when it is available and the plane is large, else Jacobi.
+ */
+
+import { type TileRect, tileGrid } from '../codec/quantised';
+import * as linalg from '../linalg';
+import { jacobiSvd, type Matrix, type SvdResult } from '../linalg';
+
+export interface TileFactors {
+  rect: TileRect;
+  /** Quantised tile mean (in mean steps) that was subtracted before the SVD. */
+  meanQ: number;
+  /** ‖tile − mean‖²_F: the energy a rank-0 tile leaves as error. */
+  energy: number;
+  s: Float64Array;
+  /** h×r, columns are left singular vectors. */
+  U: Matrix;
+  /** w×r. */
+  V: Matrix;
+}
+
+export interface PlaneFactors {
+  width: number;
+  height: number;
+  tile: number;
+  meanStep: number;
+  tiles: TileFactors[];
+}
+
+export interface FactorOptions {
+  /** 0 = whole plane, else square tile side. */
+  tile: number;
+  /** Subtract each tile's mean first (per-tile mean removal). */
+  meanRemoval: boolean;
+  /** Step of stored means (grey levels). */
+  meanStep: number;
+  /** Largest rank needed for a whole plane (randomized SVD only). */
+  maxRank?: number;
+  /** Seed for the randomized SVD. */
+  seed?: number;
+}
+
+/** Planes above this many pixels on the short side use the randomized SVD when the engine has it. */
+const RANDOMIZED_MIN_SIDE = 400;
+
+type RandomizedSvd = (a: Matrix, k: number, opts?: Record<string, unknown>) => SvdResult;
+
+function randomized(): RandomizedSvd | undefined {
+  const f = (linalg as unknown as Record<string, unknown>).randomizedSvd;
+  return typeof f === 'function' ? (f as RandomizedSvd) : undefined;
+}
+
+export function factorPlane(
+  plane: ArrayLike<number>,
+  width: number,
+  height: number,
+  opts: FactorOptions,
+): PlaneFactors {
+  const rects = tileGrid(width, height, opts.tile);
+  const tiles: TileFactors[] = [];
+  for (const rect of rects) {
+    const { x, y, w, h } = rect;
+    const a = new Float64Array(w * h);
+    let sum = 0;
+    for (let i = 0; i < h; i++)
+      for (let j = 0; j < w; j++) {
+        const v = plane[(y + i) * width + x + j];
+        a[i * w + j] = v;
+        sum += v;
+      }
+    const meanQ = opts.meanRemoval ? Math.round(sum / (w * h) / opts.meanStep) : 0;
+    const mean = meanQ * opts.meanStep;
+    let energy = 0;
+    for (let k = 0; k < a.length; k++) {
+      a[k] -= mean;
+      energy += a[k] * a[k];
+    }
+    const mat: Matrix = { rows: h, cols: w, data: a };
+    let svd: SvdResult;
+    const rsvd = randomized();
+    const kmax = Math.min(w, h);
+    if (
+      rsvd &&
+      Math.min(w, h) >= RANDOMIZED_MIN_SIDE &&
+      opts.maxRank !== undefined &&
+      opts.maxRank < kmax / 2
+    )
+      svd = rsvd(mat, Math.max(1, opts.maxRank), { seed: opts.seed ?? 1 });
+    else svd = energy === 0 ? zeroSvd(h, w) : jacobiSvd(mat);
+    tiles.push({ rect, meanQ, energy, s: svd.s, U: svd.U, V: svd.V });
+  }
+  return { width, height, tile: opts.tile, meanStep: opts.meanRemoval ? opts.meanStep : 0, tiles };
+}
+
+function zeroSvd(h: number, w: number): SvdResult {
+  return {
+    s: new Float64Array(0),
+    U: { rows: h, cols: 0, data: new Float64Array(0) },
+    V: { rows: w, cols: 0, data: new Float64Array(0) },
+  };
+}

@@ -1,0 +1,426 @@
+/**
+ * Turn a budget into ranks and a quantiser step: the rate–distortion search of the codec.
+ *
+ * For a trial step Δ every candidate component is quantised once; its gain (σ² less its quantisation
+ * error) and its estimated cost in bits (a context-conditioned empirical entropy of its entries) feed the
+ * greedy allocation of ./allocate. Byte budgets are then met on the real encoded size by a secant and
+ * bisection search over the greedy prefix, calling back into the container writer.
+ */
+import { componentError, DEAD_ZONE, quantiseVector } from '../codec/quantise';
+import type { QuantPlane, QuantTile } from '../codec/quantised';
+import { type Block, greedyOrder } from './allocate';
+import type { PlaneFactors } from './factorise';
+
+export interface PlaneInput {
+  factors: PlaneFactors;
+  /** Share of this plane's squared error in the reported (RGB or gray) squared error. */
+  weight: number;
+  /** This plane's step is Δ·stepScale (so every plane adds the same weighted noise per entry). */
+  stepScale: number;
+}
+
+interface Comp {
+  qu: Int32Array;
+  qv: Int32Array;
+}
+
+/** All candidate components of every tile of every plane, quantised at one Δ. */
+export interface Candidate {
+  delta: number;
+  /** Flattened tiles: [plane][tile] → components. */
+  comps: Comp[][][];
+  order: Block[];
+  /** cumCost[P], cumGain[P]: totals of the first P blocks (bits, weighted squared grey levels). */
+  cumCost: Float64Array;
+  cumGain: Float64Array;
+  /** Weighted squared error with no component at all (means only). */
+  baseD: number;
+  /** Flat tile index → [plane, tile]. */
+  index: Array<[number, number]>;
+}
+
+const ESC = 16;
+
+function magClass(a: number): number {
+  return a < 3 ? a : 3;
+}
+
+/** Estimated code lengths (bits) of entry magnitudes, conditioned on the previous entry's magnitude class. */
+function costTable(comps: Comp[][][]): Float64Array[] {
+  const counts = Array.from({ length: 4 }, () => new Float64Array(ESC + 1).fill(0.5));
+  const count = (q: Int32Array) => {
+    let prev = 0;
+    for (let j = 0; j < q.length; j++) {
+      const a = Math.abs(q[j]);
+      counts[magClass(prev)][a < ESC ? a : ESC]++;
+      prev = a;
+    }
+  };
+  for (const p of comps)
+    for (const t of p)
+      for (const c of t) {
+        count(c.qu);
+        count(c.qv);
+      }
+  return counts.map((row) => {
+    const total = row.reduce((s, x) => s + x, 0);
+    return row.map((x, a) => -Math.log2(x / total) + (a > 0 ? 1 : 0));
+  });
+}
+
+function vectorBits(q: Int32Array, table: Float64Array[]): number {
+  let bits = 0;
+  let prev = 0;
+  for (let j = 0; j < q.length; j++) {
+    const a = Math.abs(q[j]);
+    bits += table[magClass(prev)][a < ESC ? a : ESC];
+    if (a >= ESC) bits += 2 * Math.log2(a - ESC + 2) + 1;
+    prev = a;
+  }
+  return bits;
+}
+
+export interface CandidateOptions {
+  /** Cap on each tile's rank (rank budgets). */
+  maxRank?: number;
+}
+
+/** Quantise every useful component at step Δ and order them greedily. */
+export function buildCandidate(inputs: PlaneInput[], delta: number, opts: CandidateOptions = {}): Candidate {
+  const comps: Comp[][][] = [];
+  const errs: Float64Array[][] = [];
+  const index: Array<[number, number]> = [];
+  let baseD = 0;
+  for (let p = 0; p < inputs.length; p++) {
+    const { factors, weight, stepScale } = inputs[p];
+    const step = delta * stepScale;
+    const pc: Comp[][] = [];
+    const pe: Float64Array[] = [];
+    for (let t = 0; t < factors.tiles.length; t++) {
+      const tf = factors.tiles[t];
+      baseD += weight * tf.energy;
+      const r = Math.min(tf.s.length, tf.U.cols, tf.V.cols, opts.maxRank ?? Number.POSITIVE_INFINITY);
+      const list: Comp[] = [];
+      const e: number[] = [];
+      for (let i = 0; i < r; i++) {
+        const sigma = tf.s[i];
+        // Entries of σ·u are at most σ; below the dead zone they all round to 0 (rank caps still apply).
+        if (opts.maxRank === undefined && sigma < (0.5 + DEAD_ZONE) * step) break;
+        const qu = quantiseVector(
+          column(tf.U.data, tf.U.cols, i, tf.rect.h),
+          sigma,
+          step,
+          new Int32Array(tf.rect.h),
+        );
+        const qv = quantiseVector(
+          column(tf.V.data, tf.V.cols, i, tf.rect.w),
+          sigma,
+          step,
+          new Int32Array(tf.rect.w),
+        );
+        list.push({ qu, qv });
+        e.push(componentError(qu, qv, tf.U.data, tf.U.cols, i, tf.V.data, tf.V.cols, i, sigma, step));
+      }
+      pc.push(list);
+      pe.push(Float64Array.from(e));
+      index.push([p, t]);
+    }
+    comps.push(pc);
+    errs.push(pe);
+  }
+  const table = costTable(comps);
+  const seqs = index.map(([p, t]) => {
+    const tf = inputs[p].factors.tiles[t];
+    const list = comps[p][t];
+    const gains = new Float64Array(list.length);
+    const costs = new Float64Array(list.length);
+    for (let i = 0; i < list.length; i++) {
+      gains[i] = inputs[p].weight * (tf.s[i] * tf.s[i] - errs[p][t][i]);
+      costs[i] = vectorBits(list[i].qu, table) + vectorBits(list[i].qv, table) + 2;
+    }
+    return { gains, costs };
+  });
+  const order = greedyOrder(seqs);
+  const cumCost = new Float64Array(order.length + 1);
+  const cumGain = new Float64Array(order.length + 1);
+  for (let k = 0; k < order.length; k++) {
+    cumCost[k + 1] = cumCost[k] + order[k].cost;
+    cumGain[k + 1] = cumGain[k] + order[k].gain;
+  }
+  return { delta, comps, order, cumCost, cumGain, baseD, index };
+}
+
+function column(data: ArrayLike<number>, cols: number, i: number, rows: number): Float64Array {
+  const out = new Float64Array(rows);
+  for (let j = 0; j < rows; j++) out[j] = data[j * cols + i];
+  return out;
+}
+
+/** Ranks per [plane][tile] after the first P greedy blocks. */
+export function prefixRanks(c: Candidate, P: number): Int32Array[] {
+  const ranks = c.comps.map((pc) => new Int32Array(pc.length));
+  for (let k = 0; k < P && k < c.order.length; k++) {
+    const b = c.order[k];
+    const [p, t] = c.index[b.tile];
+    if (b.endRank > ranks[p][t]) ranks[p][t] = b.endRank;
+  }
+  return ranks;
+}
+
+/** Build the quantised planes for explicit ranks. */
+export function quantPlanes(inputs: PlaneInput[], c: Candidate, ranks: Int32Array[]): QuantPlane[] {
+  return inputs.map((inp, p) => {
+    const f = inp.factors;
+    const tiles: QuantTile[] = f.tiles.map((tf, t) => {
+      const r = Math.min(ranks[p][t], c.comps[p][t].length);
+      const list = c.comps[p][t].slice(0, r);
+      return { meanQ: tf.meanQ, u: list.map((x) => x.qu), v: list.map((x) => x.qv) };
+    });
+    return {
+      width: f.width,
+      height: f.height,
+      tile: f.tile,
+      step: c.delta * inp.stepScale,
+      meanStep: f.meanStep,
+      tiles,
+    };
+  });
+}
+
+/** Estimated weighted squared error after the first P blocks. */
+export function estimatedError(c: Candidate, P: number): number {
+  return Math.max(0, c.baseD - c.cumGain[Math.min(P, c.order.length)]);
+}
+
+/** Largest P whose estimated payload (bits·ratio/8) fits in `bytes`. */
+export function prefixForBytes(c: Candidate, bytes: number, ratio: number): number {
+  const bits = (bytes * 8) / ratio;
+  let lo = 0;
+  let hi = c.order.length;
+  while (lo < hi) {
+    const mid = (lo + hi + 1) >> 1;
+    if (c.cumCost[mid] <= bits) lo = mid;
+    else hi = mid - 1;
+  }
+  return lo;
+}
+
+/** Smallest P whose estimated error is ≤ dmax (order.length if none). */
+export function prefixForError(c: Candidate, dmax: number): number {
+  let lo = 0;
+  let hi = c.order.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if (estimatedError(c, mid) <= dmax) hi = mid;
+    else lo = mid + 1;
+  }
+  return lo;
+}
+
+/** Steps tried: base·2^(k/2), base = one grey level of the plane scale. */
+export function stepGrid(maxValue: number): number[] {
+  const base = maxValue / 255;
+  const out: number[] = [];
+  for (let k = -6; k <= 16; k++) out.push(base * 2 ** (k / 2));
+  return out;
+}
+
+export interface Plan {
+  planes: QuantPlane[];
+  delta: number;
+  /** Real size reported by the measure callback (bytes), when measured. */
+  bytes: number;
+  estimatedError: number;
+}
+
+/**
+ * Meet a byte budget on the real encoded size. `measure` returns the size of the complete file for
+ * the given planes. Returns the plan of least estimated error among the steps tried that fits.
+ * @throws RangeError when even rank 0 everywhere does not fit (the caller reports the minimum size).
+ */
+export function solveBytes(
+  inputs: PlaneInput[],
+  budget: number,
+  maxValue: number,
+  measure: (planes: QuantPlane[]) => number,
+): Plan {
+  const grid = stepGrid(maxValue);
+  // Overhead: header, means, alpha and the rank codes of an all-zero-rank file.
+  const empty = buildCandidate(inputs, grid[grid.length - 1]);
+  const overhead = measure(quantPlanes(inputs, empty, prefixRanks(empty, 0)));
+  if (overhead > budget) throw new RangeError(`minimum size ${overhead}`);
+  const payload = budget - overhead;
+  // Pass 1: coarse scan of steps on the estimate alone.
+  const scan = (ks: number[], ratio: number) =>
+    ks.map((k) => {
+      const c = buildCandidate(inputs, grid[k]);
+      return { k, c, err: estimatedError(c, prefixForBytes(c, payload, ratio)) };
+    });
+  const coarse = scan(
+    grid.map((_, k) => k).filter((k) => k % 2 === 0),
+    1,
+  ).sort((a, b) => a.err - b.err);
+  let best: Plan | undefined;
+  let ratio = 1;
+  const tried = new Set<number>();
+  const refineAt = (k: number) => {
+    if (k < 0 || k >= grid.length || tried.has(k)) return;
+    tried.add(k);
+    const c = buildCandidate(inputs, grid[k]);
+    const r = refine(inputs, c, budget, overhead, ratio, measure);
+    if (r.bytes <= budget) {
+      if (c.cumCost[r.P] > 0 && r.bytes > overhead)
+        ratio = Math.max(0.2, Math.min(5, ((r.bytes - overhead) * 8) / c.cumCost[r.P]));
+      const err = estimatedError(c, r.P);
+      if (!best || err < best.estimatedError)
+        best = {
+          planes: quantPlanes(inputs, c, prefixRanks(c, r.P)),
+          delta: c.delta,
+          bytes: r.bytes,
+          estimatedError: err,
+        };
+    }
+  };
+  const k0 = coarse[0].k;
+  refineAt(k0);
+  // Pass 2: with the measured ratio, look at the neighbours of the best coarse step.
+  const fine = scan(
+    [k0 - 2, k0 - 1, k0 + 1, k0 + 2].filter((k) => k >= 0 && k < grid.length),
+    ratio,
+  ).sort((a, b) => a.err - b.err);
+  for (const f of fine.slice(0, 2)) refineAt(f.k);
+  if (!best) {
+    const c = empty;
+    best = {
+      planes: quantPlanes(inputs, c, prefixRanks(c, 0)),
+      delta: c.delta,
+      bytes: overhead,
+      estimatedError: c.baseD,
+    };
+  }
+  return best;
+}
+
+/** Largest greedy prefix whose real size fits, by secant steps on the size model and bisection. */
+function refine(
+  inputs: PlaneInput[],
+  c: Candidate,
+  budget: number,
+  overhead: number,
+  ratio0: number,
+  measure: (planes: QuantPlane[]) => number,
+): { P: number; bytes: number } {
+  const N = c.order.length;
+  const size = (P: number) => measure(quantPlanes(inputs, c, prefixRanks(c, P)));
+  let lo = 0;
+  let loBytes = overhead;
+  let hi = N + 1;
+  let ratio = ratio0;
+  let guess = prefixForBytes(c, budget - overhead, ratio);
+  for (let iter = 0; iter < 14 && hi - lo > 1; iter++) {
+    if (!(guess > lo && guess < hi)) guess = (lo + hi) >> 1;
+    const s = size(guess);
+    if (s <= budget) {
+      lo = guess;
+      loBytes = s;
+    } else hi = guess;
+    if (c.cumCost[guess] > 0 && s > overhead) ratio = ((s - overhead) * 8) / c.cumCost[guess];
+    // Aim a little under the budget so the next probe is likely to fit.
+    guess = prefixForBytes(c, (budget - overhead) * (s <= budget ? 1 : 0.995), ratio);
+    if (guess >= hi) guess = hi - 1;
+    if (guess <= lo) guess = lo + 1;
+  }
+  return { P: lo, bytes: loBytes };
+}
+
+/**
+ * Fixed ranks (a rank budget): each tile keeps min(K, its size) components, and Δ is the largest step
+ * whose estimated quantisation error stays ≤ `quantError` (weighted squared grey levels).
+ */
+export function solveRank(
+  inputs: PlaneInput[],
+  rank: number,
+  maxValue: number,
+  lossFraction: number,
+  floorMse: number,
+): Plan {
+  // Truncation error at rank K.
+  let trunc = 0;
+  let count = 0;
+  for (const inp of inputs)
+    for (const tf of inp.factors.tiles) {
+      let kept = 0;
+      for (let i = 0; i < Math.min(rank, tf.s.length); i++) kept += tf.s[i] * tf.s[i];
+      trunc += inp.weight * Math.max(0, tf.energy - kept);
+      count += tf.rect.w * tf.rect.h * inp.weight;
+    }
+  const target = Math.max(lossFraction * trunc, floorMse * count * (maxValue / 255) ** 2);
+  const quantErr = (c: Candidate) => {
+    let e = 0;
+    for (let p = 0; p < inputs.length; p++)
+      for (let t = 0; t < c.comps[p].length; t++) {
+        const tf = inputs[p].factors.tiles[t];
+        for (let i = 0; i < c.comps[p][t].length; i++) {
+          const { qu, qv } = c.comps[p][t][i];
+          e +=
+            inputs[p].weight *
+            (componentError(
+              qu,
+              qv,
+              tf.U.data,
+              tf.U.cols,
+              i,
+              tf.V.data,
+              tf.V.cols,
+              i,
+              tf.s[i],
+              c.delta * inputs[p].stepScale,
+            ) -
+              0);
+        }
+      }
+    return e;
+  };
+  // Bisection over a quarter-octave step grid.
+  const base = maxValue / 255;
+  let lo = -40; // fine enough: 2^-10 grey levels
+  let hi = 40;
+  let bestC: Candidate | undefined;
+  while (hi - lo > 1) {
+    const mid = (lo + hi) >> 1;
+    const c = buildCandidate(inputs, base * 2 ** (mid / 4), { maxRank: rank });
+    if (quantErr(c) <= target) {
+      lo = mid;
+      bestC = c;
+    } else hi = mid;
+  }
+  const c = bestC ?? buildCandidate(inputs, base * 2 ** (lo / 4), { maxRank: rank });
+  const ranks = inputs.map((inp) => Int32Array.from(inp.factors.tiles, (tf) => Math.min(rank, tf.s.length)));
+  return {
+    planes: quantPlanes(inputs, c, ranks),
+    delta: c.delta,
+    bytes: 0,
+    estimatedError: trunc + quantErr(c),
+  };
+}
+
+/** Smallest estimated size whose estimated error is ≤ dmax, over the step grid. */
+export function solveError(inputs: PlaneInput[], dmax: number, maxValue: number): Plan {
+  let best: { c: Candidate; P: number; cost: number } | undefined;
+  for (const delta of stepGrid(maxValue)) {
+    const c = buildCandidate(inputs, delta);
+    const P = prefixForError(c, dmax);
+    if (estimatedError(c, P) > dmax) continue;
+    if (!best || c.cumCost[P] < best.cost) best = { c, P, cost: c.cumCost[P] };
+  }
+  if (!best) {
+    const c = buildCandidate(inputs, stepGrid(maxValue)[0]);
+    best = { c, P: c.order.length, cost: c.cumCost[c.order.length] };
+  }
+  return {
+    planes: quantPlanes(inputs, best.c, prefixRanks(best.c, best.P)),
+    delta: best.c.delta,
+    bytes: 0,
+    estimatedError: estimatedError(best.c, best.P),
+  };
+}

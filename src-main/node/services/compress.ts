@@ -1,0 +1,316 @@
+/**
+ * `compress` as a service: decode a scan, encode it under a budget into an .rkf container, write it
+ * atomically, and report figures measured on the decoded file. Used by the CLI, the batch runner,
+ * the workers, IPC and HTTP alike.
+ */
+import { stat } from 'node:fs/promises';
+import { performance } from 'node:perf_hooks';
+import {
+  brotliCompressSync,
+  brotliDecompressSync,
+  constants,
+  deflateRawSync,
+  inflateRawSync,
+} from 'node:zlib';
+import sharp from 'sharp';
+import type { CodecComparison } from '../../contract';
+import {
+  type Budget,
+  CancelledError,
+  type CompressOptions,
+  type CompressReport,
+  type DecodedImage,
+  invalidParameterError,
+  OutputError,
+  UsageError,
+} from '../../contract';
+import type { ByteCompressor, EntropyId } from '../../engine/codec/entropy';
+import { type EncodeResult, encodeScan } from '../../engine/lowrank/encode';
+import { psnrPlanes, ssimPlanes } from '../../engine/metrics';
+import { decodeImage } from '../image/decode';
+import { assertWritable, writeFileAtomic } from '../io/atomic';
+
+export interface CompressHooks {
+  onProgress?(p: { stage: string; fraction: number }): void;
+  signal?: AbortSignal;
+}
+
+/** Extra knobs for benchmarks and tests; not part of the public options. */
+export interface CompressInternals {
+  entropy?: EntropyId;
+}
+
+export const ENCODER_NAME = 'rankfold 0.1.0';
+
+/** Validate the options object (it may come from IPC or HTTP). */
+export function checkCompressOptions(o: CompressOptions): void {
+  const b = o.budget as Budget | undefined;
+  if (!b || typeof b !== 'object') throw invalidParameterError('budget', 'a budget object', b);
+  const pos = (v: unknown, name: string, hi = Number.MAX_SAFE_INTEGER) => {
+    if (!(typeof v === 'number' && Number.isFinite(v) && v > 0 && v <= hi))
+      throw invalidParameterError(name, `number above 0 and at most ${hi}`, v);
+  };
+  switch (b.kind) {
+    case 'rank':
+      if (!(Number.isInteger(b.rank) && b.rank >= 1 && b.rank <= 65535))
+        throw invalidParameterError('rank', 'integer between 1 and 65535', b.rank);
+      break;
+    case 'bytes':
+      if (!(Number.isInteger(b.bytes) && b.bytes >= 64))
+        throw invalidParameterError('budget', 'integer number of bytes ≥ 64', b.bytes);
+      break;
+    case 'percent':
+      pos(b.percent, 'budget percent', 100);
+      break;
+    case 'bpp':
+      pos(b.bpp, 'bpp', 64);
+      break;
+    case 'psnr':
+      pos(b.db, 'min-psnr', 200);
+      break;
+    case 'ssim':
+      pos(b.value, 'min-ssim', 1);
+      break;
+    default:
+      throw invalidParameterError(
+        'budget.kind',
+        'one of rank, bytes, percent, bpp, psnr, ssim',
+        (b as { kind: unknown }).kind,
+      );
+  }
+  if (!(o.tile === 'auto' || o.tile === 0 || (Number.isInteger(o.tile) && o.tile >= 16 && o.tile <= 512)))
+    throw invalidParameterError('tile', 'auto, 0 (whole plane) or an integer between 16 and 512', o.tile);
+}
+
+function summariseRanks(r: EncodeResult): CompressReport['ranks'] {
+  return r.ranks.map((p) => {
+    if (p.tile === 0) return { channel: p.channel, rank: p.ranks[0] ?? 0 };
+    let min = Number.POSITIVE_INFINITY;
+    let max = 0;
+    let total = 0;
+    for (const k of p.ranks) {
+      min = Math.min(min, k);
+      max = Math.max(max, k);
+      total += k;
+    }
+    return {
+      channel: p.channel,
+      tiles: { count: p.ranks.length, min, max, mean: total / Math.max(1, p.ranks.length), total },
+    };
+  });
+}
+
+/**
+ * Compress an already decoded scan in memory.
+ * @returns the container bytes and the report (with `output` empty and timings.decodeMs 0).
+ * @throws UsageError for an impossible budget, CancelledError when the signal fires.
+ */
+export async function compressDecoded(
+  decoded: DecodedImage,
+  options: CompressOptions,
+  hooks: CompressHooks & CompressInternals = {},
+): Promise<{ bytes: Uint8Array; report: CompressReport; result: EncodeResult }> {
+  checkCompressOptions(options);
+  const check = () => {
+    if (hooks.signal?.aborted) throw new CancelledError(`compressing ${decoded.file}`);
+  };
+  check();
+  const result = encodeScan(decoded, {
+    budget: options.budget,
+    tile: options.tile,
+    entropy: hooks.entropy ?? 'rc',
+    compressors: COMPRESSORS,
+    encoder: ENCODER_NAME,
+    onProgress: hooks.onProgress ? (stage, fraction) => hooks.onProgress?.({ stage, fraction }) : undefined,
+    checkCancelled: check,
+    now: () => performance.now(),
+  });
+  const { width, height } = decoded;
+  const outputBytes = result.bytes.length;
+  const report: CompressReport = {
+    input: decoded.file,
+    output: '',
+    width,
+    height,
+    channels: decoded.channels,
+    bitDepth: decoded.bitDepth,
+    sourceSha256: decoded.sourceSha256,
+    rawBytes: decoded.rawBytes,
+    inputBytes: decoded.inputBytes,
+    outputBytes,
+    ratio: decoded.rawBytes / outputBytes,
+    bpp: (8 * outputBytes) / (width * height),
+    ranks: summariseRanks(result),
+    psnr: result.psnr,
+    ssim: result.ssim,
+    errors: result.errors,
+    timings: { decodeMs: 0, factorMs: round1(result.factorMs), encodeMs: round1(result.encodeMs) },
+    tile: result.ranks[0]?.tile ?? 0,
+    entropy: hooks.entropy ?? 'rc',
+    lossless: result.lossless,
+  };
+  if (options.compare) {
+    hooks.onProgress?.({ stage: 'compare', fraction: 0.97 });
+    report.compare = await compareCodecs(decoded, outputBytes);
+  }
+  return { bytes: result.bytes, report, result };
+}
+
+function round1(x: number): number {
+  return Math.round(x * 10) / 10;
+}
+
+/**
+ * Compress `input` to the .rkf file `output`. Never overwrites without `options.force`, never touches
+ * the input, writes atomically, and writes nothing when anything fails.
+ * @example const report = await compressFile('scan.tif', 'scan.rkf', { budget: { kind: 'bytes', bytes: 250_000 }, tile: 'auto' });
+ * @throws InputError (bad input), UsageError (options), OutputError (output), CancelledError.
+ */
+export async function compressFile(
+  input: string,
+  output: string,
+  options: CompressOptions,
+  hooks: CompressHooks & CompressInternals = {},
+): Promise<CompressReport> {
+  checkCompressOptions(options);
+  if (!/\.rkf$/i.test(output)) throw new UsageError(`${output}: the output of compress must end in .rkf`);
+  await assertWritable(output, options.force);
+  if (await sameFile(input, output))
+    throw new OutputError(output, 'is the input file; Rankfold never overwrites its input');
+  hooks.onProgress?.({ stage: 'decode', fraction: 0 });
+  const t0 = performance.now();
+  const decoded = await decodeImage(input, { page: options.page, pixelLimit: options.pixelLimit });
+  const decodeMs = performance.now() - t0;
+  const { bytes, report } = await compressDecoded(decoded, options, hooks);
+  if (hooks.signal?.aborted) throw new CancelledError(`compressing ${input}`);
+  await writeFileAtomic(output, bytes, { force: options.force });
+  const onDisk = (await stat(output)).size;
+  const byteBudget = options.budget.kind === 'bytes' ? options.budget.bytes : undefined;
+  if (byteBudget !== undefined && onDisk > byteBudget)
+    throw new OutputError(output, `is ${onDisk} bytes on disk, over the budget of ${byteBudget}`);
+  return {
+    ...report,
+    output,
+    outputBytes: onDisk,
+    timings: { ...report.timings, decodeMs: round1(decodeMs) },
+  };
+}
+
+async function sameFile(a: string, b: string): Promise<boolean> {
+  try {
+    const [x, y] = await Promise.all([stat(a), stat(b)]);
+    return x.ino === y.ino && x.dev === y.dev;
+  } catch {
+    return false;
+  }
+}
+
+/** General-purpose byte compressors from node:zlib, handed to the pure engine as functions. */
+export const brotli: ByteCompressor = {
+  id: 'brotli',
+  compress: (b) =>
+    new Uint8Array(
+      brotliCompressSync(b, {
+        params: {
+          [constants.BROTLI_PARAM_QUALITY]: 11,
+          [constants.BROTLI_PARAM_LGWIN]: 24,
+          [constants.BROTLI_PARAM_SIZE_HINT]: b.length,
+        },
+      }),
+    ),
+  decompress: (b, maxLength) => new Uint8Array(brotliDecompressSync(b, { maxOutputLength: maxLength })),
+};
+
+export const deflate: ByteCompressor = {
+  id: 'deflate',
+  compress: (b) => new Uint8Array(deflateRawSync(b, { level: 9 })),
+  decompress: (b, maxLength) => new Uint8Array(inflateRawSync(b, { maxOutputLength: maxLength })),
+};
+
+export const COMPRESSORS: ByteCompressor[] = [brotli, deflate];
+
+type StdCodec = CodecComparison['codec'];
+
+/** Encode 8-bit interleaved samples with a standard codec through sharp at one quality. */
+export async function encodeStandard(
+  raw: Uint8Array,
+  width: number,
+  height: number,
+  channels: 1 | 3,
+  codec: StdCodec,
+  quality: number,
+): Promise<Buffer> {
+  const img = sharp(Buffer.from(raw.buffer, raw.byteOffset, raw.byteLength), {
+    raw: { width, height, channels },
+  });
+  if (codec === 'jpeg') return img.jpeg({ quality, mozjpeg: true }).toBuffer();
+  if (codec === 'webp') return img.webp({ quality, effort: 6 }).toBuffer();
+  return img.avif({ quality, effort: 4 }).toBuffer();
+}
+
+/** Decode a standard-codec file back to planes of `channels` channels on the 8-bit scale. */
+export async function decodeStandard(bytes: Buffer, channels: 1 | 3): Promise<Float32Array[]> {
+  const { data, info } = await sharp(bytes)
+    .toColourspace(channels === 1 ? 'b-w' : 'srgb')
+    .removeAlpha()
+    .raw()
+    .toBuffer({ resolveWithObject: true });
+  const n = info.width * info.height;
+  const planes = Array.from({ length: channels }, () => new Float32Array(n));
+  const ch = info.channels;
+  for (let i = 0; i < n; i++)
+    for (let c = 0; c < channels; c++) planes[c][i] = data[i * ch + Math.min(c, ch - 1)];
+  return planes;
+}
+
+/**
+ * JPEG (mozjpeg), WebP and AVIF through sharp at the largest quality whose file is ≤ `bytes`
+ * (binary search on quality 1–100), with PSNR/SSIM against the source. Alpha is left out (ours stores
+ * it losslessly in the same byte count). 16-bit sources are compared on their 8-bit rendering scaled
+ * by 257, since these codecs are used at 8 bits here.
+ */
+export async function compareCodecs(
+  d: DecodedImage,
+  bytes: number,
+  codecs: StdCodec[] = ['jpeg', 'webp', 'avif'],
+): Promise<CodecComparison[]> {
+  const nc: 1 | 3 = d.channels >= 3 ? 3 : 1;
+  const n = d.width * d.height;
+  const scale = d.bitDepth === 16 ? 257 : 1;
+  const raw = new Uint8Array(n * nc);
+  for (let i = 0; i < n; i++)
+    for (let c = 0; c < nc; c++) raw[i * nc + c] = Math.round(d.planes[c][i] / scale);
+  const src = d.planes.slice(0, nc);
+  const max = d.bitDepth === 16 ? 65535 : 255;
+  const out: CodecComparison[] = [];
+  for (const codec of codecs) {
+    let lo = 1;
+    let hi = 100;
+    let best: { q: number; buf: Buffer } | undefined;
+    const first = await encodeStandard(raw, d.width, d.height, nc, codec, 1);
+    if (first.length <= bytes) {
+      best = { q: 1, buf: first };
+      while (lo < hi) {
+        const mid = (lo + hi + 1) >> 1;
+        const buf = await encodeStandard(raw, d.width, d.height, nc, codec, mid);
+        if (buf.length <= bytes) {
+          lo = mid;
+          best = { q: mid, buf };
+        } else hi = mid - 1;
+      }
+    }
+    const chosen = best ?? { q: 1, buf: first };
+    const planes = (await decodeStandard(chosen.buf, nc)).map((p) =>
+      scale === 1 ? p : p.map((v) => v * scale),
+    );
+    out.push({
+      codec,
+      bytes: chosen.buf.length,
+      quality: chosen.q,
+      fits: best !== undefined,
+      psnr: psnrPlanes(src, planes, max),
+      ssim: d.width >= 11 && d.height >= 11 ? ssimPlanes(src, planes, d.width, d.height, max) : Number.NaN,
+    });
+  }
+  return out;
+}
