@@ -12,10 +12,19 @@ const KC = 256;
 
 /** C[m×n] (+)= A(m×k)·B[k×n]; see `Gemm` in workspace.ts for the addressing. */
 export function gemmTs<T extends FloatArray>(
-  m: number, n: number, k: number,
-  a: T, aOff: number, rsA: number, csA: number,
-  b: T, bOff: number, ldb: number,
-  c: T, cOff: number, ldc: number,
+  m: number,
+  n: number,
+  k: number,
+  a: T,
+  aOff: number,
+  rsA: number,
+  csA: number,
+  b: T,
+  bOff: number,
+  ldb: number,
+  c: T,
+  cOff: number,
+  ldc: number,
   accumulate: boolean,
 ): void {
   if (!accumulate) for (let i = 0; i < m; i++) c.fill(0, cOff + i * ldc, cOff + i * ldc + n);
@@ -36,7 +45,8 @@ export function gemmTs<T extends FloatArray>(
         const b1 = b0 + ldb;
         const b2 = b1 + ldb;
         const b3 = b2 + ldb;
-        for (let j = 0; j < n; j++) c[ci + j] += a0 * b[b0 + j] + a1 * b[b1 + j] + a2 * b[b2 + j] + a3 * b[b3 + j];
+        for (let j = 0; j < n; j++)
+          c[ci + j] += a0 * b[b0 + j] + a1 * b[b1 + j] + a2 * b[b2 + j] + a3 * b[b3 + j];
       }
       for (; p < p1; p++) {
         const av = a[ai + p * csA];

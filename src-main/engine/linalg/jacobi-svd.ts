@@ -12,8 +12,9 @@
  *   29(4):1322–1342, 2008. doi:10.1137/050639193. §3: a QR factorisation first (we do so for tall
  *   inputs, m > 2n) shortens the columns Jacobi rotates.
  */
-import { householderQr } from './qr';
+
 import { type Matrix, type SvdResult, transpose } from './matrix';
+import { householderQr } from './qr';
 
 /** Machine epsilon of float64. */
 const EPS = 2.220446049250313e-16;
@@ -45,7 +46,12 @@ function jacobi(a: Matrix, vectors: boolean): { s: Float64Array; U?: Matrix; V?:
   }
   const m = a.rows;
   const n = a.cols;
-  if (n === 0) return { s: new Float64Array(0), U: { rows: m, cols: 0, data: new Float64Array(0) }, V: { rows: 0, cols: 0, data: new Float64Array(0) } };
+  if (n === 0)
+    return {
+      s: new Float64Array(0),
+      U: { rows: m, cols: 0, data: new Float64Array(0) },
+      V: { rows: 0, cols: 0, data: new Float64Array(0) },
+    };
   let Q: Float64Array | null = null;
   let src: ArrayLike<number> = a.data;
   let rows = m;

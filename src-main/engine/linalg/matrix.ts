@@ -15,12 +15,17 @@ export type Precision = 'f32' | 'f64';
 /** Make a matrix view; allocates zeros when `data` is omitted. */
 export function matrix<T extends FloatArray = Float64Array>(rows: number, cols: number, data?: T): Matrix<T> {
   const d = data ?? (new Float64Array(rows * cols) as unknown as T);
-  if (d.length < rows * cols) throw new RangeError(`matrix ${rows}×${cols} needs ${rows * cols} elements, got ${d.length}`);
+  if (d.length < rows * cols)
+    throw new RangeError(`matrix ${rows}×${cols} needs ${rows * cols} elements, got ${d.length}`);
   return { rows, cols, data: d };
 }
 
 export function zeros(rows: number, cols: number, precision: Precision = 'f64'): Matrix {
-  return { rows, cols, data: precision === 'f32' ? new Float32Array(rows * cols) : new Float64Array(rows * cols) };
+  return {
+    rows,
+    cols,
+    data: precision === 'f32' ? new Float32Array(rows * cols) : new Float64Array(rows * cols),
+  };
 }
 
 /** Build from nested arrays (tests and small chores). */
@@ -39,7 +44,11 @@ export function toRows(a: Matrix): number[][] {
 }
 
 export function transpose(a: Matrix): Matrix {
-  const out = { rows: a.cols, cols: a.rows, data: new (a.data.constructor as Float64ArrayConstructor)(a.data.length) };
+  const out = {
+    rows: a.cols,
+    cols: a.rows,
+    data: new (a.data.constructor as Float64ArrayConstructor)(a.data.length),
+  };
   const { rows: m, cols: n, data } = a;
   const B = 32;
   for (let i0 = 0; i0 < m; i0 += B)

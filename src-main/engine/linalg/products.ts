@@ -30,7 +30,9 @@ function run(
   if (k !== kb) throw new RangeError(`matrix product: inner dimensions differ (${k} vs ${kb})`);
   const la = a.rows * a.cols;
   const lb = b.rows * b.cols;
-  const ws = backend.workspace(p === 'f32' ? bytesFor(la + 2 * lb + m * n, 0) : bytesFor(0, la + 2 * lb + m * n));
+  const ws = backend.workspace(
+    p === 'f32' ? bytesFor(la + 2 * lb + m * n, 0) : bytesFor(0, la + 2 * lb + m * n),
+  );
   try {
     const A = copyIn(ws, a.data, la, p);
     let B = copyIn(ws, b.data, lb, p);
@@ -56,16 +58,31 @@ function run(
  * @throws RangeError when the inner dimensions differ.
  * @example const C = matmul(A, B);
  */
-export function matmul(a: Matrix, b: Matrix, precision?: Precision, backend: Backend = defaultBackend()): Matrix {
+export function matmul(
+  a: Matrix,
+  b: Matrix,
+  precision?: Precision,
+  backend: Backend = defaultBackend(),
+): Matrix {
   return run('ab', a, b, precision, backend);
 }
 
 /** C = Aᵀ·B without forming Aᵀ. @throws RangeError when a.rows ≠ b.rows. */
-export function matmulTransA(a: Matrix, b: Matrix, precision?: Precision, backend: Backend = defaultBackend()): Matrix {
+export function matmulTransA(
+  a: Matrix,
+  b: Matrix,
+  precision?: Precision,
+  backend: Backend = defaultBackend(),
+): Matrix {
   return run('atb', a, b, precision, backend);
 }
 
 /** C = A·Bᵀ. @throws RangeError when a.cols ≠ b.cols. */
-export function matmulTransB(a: Matrix, b: Matrix, precision?: Precision, backend: Backend = defaultBackend()): Matrix {
+export function matmulTransB(
+  a: Matrix,
+  b: Matrix,
+  precision?: Precision,
+  backend: Backend = defaultBackend(),
+): Matrix {
   return run('abt', a, b, precision, backend);
 }

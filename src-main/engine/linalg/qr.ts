@@ -72,7 +72,13 @@ export class Orthonormalizer {
  * shifted variant; if passes do not converge (numerically rank-deficient Y) it falls back to Householder.
  * @returns the method that finished: 'cholesky' or 'householder'.
  */
-export function orthonormalize(ws: Workspace, Y: FloatArray, m: number, l: number, R?: Float64Array): 'cholesky' | 'householder' {
+export function orthonormalize(
+  ws: Workspace,
+  Y: FloatArray,
+  m: number,
+  l: number,
+  R?: Float64Array,
+): 'cholesky' | 'householder' {
   return new Orthonormalizer(ws, m, l, Y instanceof Float32Array).run(Y, m, l, R);
 }
 

@@ -55,9 +55,13 @@ export function assertFinite(a: Matrix, what = 'matrix'): void {
 export function checkRank(a: Matrix, k: number, fn: string): void {
   const r = Math.min(a.rows, a.cols);
   if (!Number.isInteger(k) || k < 1 || k > r)
-    throw new RangeError(`${fn}: expected integer between 1 and ${r} for rank but received ${k} of type ${typeof k}`);
+    throw new RangeError(
+      `${fn}: expected integer between 1 and ${r} for rank but received ${k} of type ${typeof k}`,
+    );
   if (a.data.length < a.rows * a.cols)
-    throw new RangeError(`${fn}: matrix ${a.rows}×${a.cols} needs ${a.rows * a.cols} elements, got ${a.data.length}`);
+    throw new RangeError(
+      `${fn}: matrix ${a.rows}×${a.cols} needs ${a.rows * a.cols} elements, got ${a.data.length}`,
+    );
 }
 
 /**
@@ -82,9 +86,7 @@ export function randomizedSvd(a: Matrix, k: number, opts: RandomizedSvdOptions =
   const backend = opts.backend ?? defaultBackend();
   const l = k + p;
   const blocks = method === 'krylov' ? Math.max(1, Math.min(q + 1, Math.floor(r / l))) : 1;
-  const L = l * blocks;
   const f32 = precision === 'f32';
-  const mx = Math.max(m, n);
   const ws = backend.workspace(randomizedSvdBytes(m, n, k, l, blocks, f32));
   try {
     return core(ws, a, k, l, q, blocks, f32, opts.seed ?? DEFAULT_SEED);
@@ -98,15 +100,32 @@ export function randomizedSvd(a: Matrix, k: number, opts: RandomizedSvdOptions =
 }
 
 /** Workspace bytes `core` allocates (elements listed in the order it allocates them). */
-export function randomizedSvdBytes(m: number, n: number, k: number, l: number, blocks: number, f32: boolean): number {
+export function randomizedSvdBytes(
+  m: number,
+  n: number,
+  k: number,
+  l: number,
+  blocks: number,
+  f32: boolean,
+): number {
   const L = l * blocks;
   const mx = Math.max(m, n);
-  const pe = m * n + n * l + m * l + n * l + mx * L + L * L + (blocks > 1 ? m * L + L * l : 0) + n * L + L * k + m * k;
+  const pe =
+    m * n + n * l + m * l + n * l + mx * L + L * L + (blocks > 1 ? m * L + L * l : 0) + n * L + L * k + m * k;
   const de = (f32 ? mx * L : 0) + 4 * L * L + (f32 ? n * L + 5 * L * L : 0) + n * L + L * L + L * k + n * k;
   return f32 ? bytesFor(pe, de) : bytesFor(0, pe + de);
 }
 
-function core(ws: Workspace, a: Matrix, k: number, l: number, q: number, blocks: number, f32: boolean, seed: number): SvdResult {
+function core(
+  ws: Workspace,
+  a: Matrix,
+  k: number,
+  l: number,
+  q: number,
+  blocks: number,
+  f32: boolean,
+  seed: number,
+): SvdResult {
   const m = a.rows;
   const n = a.cols;
   const L = l * blocks;
@@ -119,8 +138,10 @@ function core(ws: Workspace, a: Matrix, k: number, l: number, q: number, blocks:
   const orth = new Orthonormalizer(ws, Math.max(m, n), L, f32);
   new Rng(seed).fillNormal(Om);
   // Products with A (m×n, row-major): A·X uses (rsA, csA) = (n, 1); Aᵀ·X uses (1, n).
-  const mulA = (X: FloatArray, out: FloatArray, w: number) => ws.gemm(m, w, n, A, 0, n, 1, X, 0, w, out, 0, w, false);
-  const mulAt = (X: FloatArray, out: FloatArray, w: number) => ws.gemm(n, w, m, A, 0, 1, n, X, 0, w, out, 0, w, false);
+  const mulA = (X: FloatArray, out: FloatArray, w: number) =>
+    ws.gemm(m, w, n, A, 0, n, 1, X, 0, w, out, 0, w, false);
+  const mulAt = (X: FloatArray, out: FloatArray, w: number) =>
+    ws.gemm(n, w, m, A, 0, 1, n, X, 0, w, out, 0, w, false);
   let Qm: FloatArray;
   if (blocks === 1) {
     mulA(Om, Y, l);

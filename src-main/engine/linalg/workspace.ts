@@ -19,10 +19,19 @@ const ALIGN = 16;
  * row-major from bOff / cOff with leading dimensions ldb / ldc. `accumulate` adds to C instead of overwriting.
  */
 export type Gemm = <T extends FloatArray>(
-  m: number, n: number, k: number,
-  a: T, aOff: number, rsA: number, csA: number,
-  b: T, bOff: number, ldb: number,
-  c: T, cOff: number, ldc: number,
+  m: number,
+  n: number,
+  k: number,
+  a: T,
+  aOff: number,
+  rsA: number,
+  csA: number,
+  b: T,
+  bOff: number,
+  ldb: number,
+  c: T,
+  cOff: number,
+  ldc: number,
   accumulate: boolean,
 ) => void;
 
@@ -78,7 +87,10 @@ class WasmWorkspace implements Workspace {
   private take(bytes: number): number {
     const p = this.top;
     const next = p + Math.ceil(bytes / ALIGN) * ALIGN;
-    if (next > this.end) throw new RangeError(`rankfold engine: workspace overflow (${next} > ${this.end} bytes); this is a bug`);
+    if (next > this.end)
+      throw new RangeError(
+        `rankfold engine: workspace overflow (${next} > ${this.end} bytes); this is a bug`,
+      );
     this.top = next;
     return p;
   }
@@ -96,8 +108,33 @@ class WasmWorkspace implements Workspace {
     }
     const e = this.k.exports;
     if (a instanceof Float32Array)
-      e.gemmF32(m, n, k, a.byteOffset + 4 * aOff, rsA, csA, b.byteOffset + 4 * bOff, ldb, c.byteOffset + 4 * cOff, ldc, accumulate ? 1 : 0);
-    else e.gemmF64(m, n, k, a.byteOffset + 8 * aOff, rsA, csA, b.byteOffset + 8 * bOff, ldb, c.byteOffset + 8 * cOff, ldc, accumulate ? 1 : 0);
+      e.gemmF32(
+        m,
+        n,
+        k,
+        a.byteOffset + 4 * aOff,
+        rsA,
+        csA,
+        b.byteOffset + 4 * bOff,
+        ldb,
+        c.byteOffset + 4 * cOff,
+        ldc,
+        accumulate ? 1 : 0,
+      );
+    else
+      e.gemmF64(
+        m,
+        n,
+        k,
+        a.byteOffset + 8 * aOff,
+        rsA,
+        csA,
+        b.byteOffset + 8 * bOff,
+        ldb,
+        c.byteOffset + 8 * cOff,
+        ldc,
+        accumulate ? 1 : 0,
+      );
   };
   release() {
     wasmBusy = false;

@@ -9,8 +9,32 @@ import { wasmBase64 } from './generated/kernels';
 
 /** The raw kernel exports. Pointers are byte offsets into `memory`. */
 export interface KernelExports {
-  gemmF32(m: number, n: number, k: number, a: number, rsA: number, csA: number, b: number, ldb: number, c: number, ldc: number, acc: number): void;
-  gemmF64(m: number, n: number, k: number, a: number, rsA: number, csA: number, b: number, ldb: number, c: number, ldc: number, acc: number): void;
+  gemmF32(
+    m: number,
+    n: number,
+    k: number,
+    a: number,
+    rsA: number,
+    csA: number,
+    b: number,
+    ldb: number,
+    c: number,
+    ldc: number,
+    acc: number,
+  ): void;
+  gemmF64(
+    m: number,
+    n: number,
+    k: number,
+    a: number,
+    rsA: number,
+    csA: number,
+    b: number,
+    ldb: number,
+    c: number,
+    ldc: number,
+    acc: number,
+  ): void;
 }
 
 export interface WasmKernels {
@@ -106,6 +130,8 @@ export function ensureMemory(k: WasmKernels, bytes: number): void {
   const have = k.memory.buffer.byteLength;
   if (bytes <= have) return;
   if (bytes > 4 * 1024 * 1024 * 1024 - PAGE)
-    throw new RangeError(`rankfold engine: needs ${Math.ceil(bytes / 2 ** 20)} MiB of WebAssembly memory; the limit is 4 GiB`);
+    throw new RangeError(
+      `rankfold engine: needs ${Math.ceil(bytes / 2 ** 20)} MiB of WebAssembly memory; the limit is 4 GiB`,
+    );
   k.memory.grow(Math.ceil((bytes - have) / PAGE));
 }

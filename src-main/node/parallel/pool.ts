@@ -1,0 +1,254 @@
+/**
+ * Two (or N) worker_threads sharing one WebAssembly.Memory, presented as an engine `Backend`: any
+ * engine algorithm that takes `{ backend }` (randomizedSvd, the products, singularValues) runs its
+ * matrix products split by output rows across the workers, with no copying between threads.
+ *
+ * Calls stay synchronous: the calling thread hands each worker its share through a shared control
+ * block and blocks in Atomics.wait until all have finished (allowed on Node's main thread and in
+ * workers; NOT in a browser page, which is why this lives in src-main/node).
+ *
+ * Large products only: below PARALLEL_MIN_FLOPS the calling thread runs the kernel itself on the
+ * same memory, since waking a worker costs ~10–50 µs.
+ */
+import { existsSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
+import { Worker } from 'node:worker_threads';
+import type { Backend, FloatArray, Gemm, Workspace } from '../../engine/linalg';
+import { gemmTs } from '../../engine/linalg/gemm-ts';
+import { wasmBase64 } from '../../engine/linalg/wasm/generated/kernels-shared';
+import { decodeBase64, type KernelExports, RESERVED_BYTES } from '../../engine/linalg/wasm/runtime';
+import {
+  CTRL_WORDS,
+  DONE,
+  KIND_F32,
+  KIND_F64,
+  P,
+  PARAM_WORDS,
+  SEQ,
+  SHUTDOWN,
+  STATUS,
+  STATUS_OK,
+} from './protocol';
+
+/** Products below this many flops run on the calling thread (a wake-up round trip costs ~10–50 µs). */
+export const PARALLEL_MIN_FLOPS = 2e6;
+/** Bytes in a WebAssembly page; shared memory must declare its maximum (wasm32: 65536 pages = 4 GiB). */
+const PAGE = 65536;
+const MAX_PAGES = 65536;
+const ALIGN = 16;
+/** Atomics.wait slice while waiting for a worker, so a dead worker is noticed instead of hanging forever. */
+const WAIT_SLICE_MS = 1000;
+
+export interface PoolOptions {
+  /** Worker threads. Default 2 (the machines Rankfold targets have 2 cores). Range 1…16. */
+  workers?: number;
+  /** Path of the built worker (dist/workers/linalg.js). Found automatically in the repo and in dist/. */
+  workerFile?: string;
+}
+
+function findWorkerFile(explicit?: string): string {
+  const candidates = explicit
+    ? [explicit]
+    : [
+        './workers/linalg.js',
+        '../workers/linalg.js',
+        '../../../dist/workers/linalg.js',
+        '../dist/workers/linalg.js',
+      ].map((p) => fileURLToPath(new URL(p, import.meta.url)));
+  for (const c of candidates) if (existsSync(c)) return c;
+  throw new Error(
+    `linalg worker not found (looked for ${candidates.join(', ')}); run \`npm run build\` first`,
+  );
+}
+
+export class LinalgPool implements Backend {
+  readonly label: string;
+  private top = RESERVED_BYTES;
+  private busy = false;
+  private seq = 0;
+  private closed = false;
+  private readonly ctrl: Int32Array;
+  private readonly params: Float64Array;
+  private constructor(
+    private readonly memory: WebAssembly.Memory,
+    private readonly local: KernelExports,
+    private readonly workers: Worker[],
+    ctrl: SharedArrayBuffer,
+    params: SharedArrayBuffer,
+  ) {
+    this.ctrl = new Int32Array(ctrl);
+    this.params = new Float64Array(params);
+    this.label = `${workers.length} worker${workers.length === 1 ? '' : 's'}`;
+  }
+
+  /** Start the workers and wait until each has instantiated the kernels. */
+  static async create(options: PoolOptions = {}): Promise<LinalgPool> {
+    const count = options.workers ?? 2;
+    if (!Number.isInteger(count) || count < 1 || count > 16)
+      throw new RangeError(`LinalgPool: expected integer between 1 and 16 for workers but received ${count}`);
+    const file = findWorkerFile(options.workerFile);
+    const memory = new WebAssembly.Memory({ initial: 17, maximum: MAX_PAGES, shared: true });
+    const module = await WebAssembly.compile(decodeBase64(wasmBase64));
+    const inst = await WebAssembly.instantiate(module, {
+      env: {
+        memory,
+        abort: () => {
+          throw new Error('kernel abort');
+        },
+      },
+    });
+    const ctrl = new SharedArrayBuffer(4 * CTRL_WORDS * count);
+    const params = new SharedArrayBuffer(8 * PARAM_WORDS * count);
+    const workers: Worker[] = [];
+    try {
+      for (let slot = 0; slot < count; slot++) {
+        const w = new Worker(file, { workerData: { memory, ctrl, params, slot } });
+        workers.push(w);
+        await new Promise<void>((resolve, reject) => {
+          w.once('message', () => resolve());
+          w.once('error', reject);
+          w.once('exit', (code) => reject(new Error(`linalg worker exited during start-up (code ${code})`)));
+        });
+        w.removeAllListeners('exit');
+        w.removeAllListeners('error');
+        w.on('error', () => {});
+        w.unref();
+      }
+    } catch (err) {
+      await Promise.all(workers.map((w) => w.terminate()));
+      throw err;
+    }
+    return new LinalgPool(memory, inst.exports as unknown as KernelExports, workers, ctrl, params);
+  }
+
+  get workerCount(): number {
+    return this.workers.length;
+  }
+
+  workspace(bytes: number): Workspace {
+    if (this.closed) throw new Error('LinalgPool is closed');
+    if (this.busy) throw new Error('LinalgPool: one computation at a time (its workspace is in use)');
+    this.busy = true;
+    const start = RESERVED_BYTES;
+    this.top = start;
+    const need = start + bytes;
+    const have = this.memory.buffer.byteLength;
+    if (need > have) {
+      if (need > MAX_PAGES * PAGE) {
+        this.busy = false;
+        throw new RangeError(
+          `LinalgPool: needs ${Math.ceil(need / 2 ** 20)} MiB of shared memory; the limit is 4 GiB`,
+        );
+      }
+      this.memory.grow(Math.ceil((need - have) / PAGE));
+    }
+    const end = need;
+    const take = (b: number) => {
+      const p = this.top;
+      this.top += Math.ceil(b / ALIGN) * ALIGN;
+      if (this.top > end)
+        throw new RangeError(`LinalgPool: workspace overflow (${this.top} > ${end}); this is a bug`);
+      return p;
+    };
+    const buffer = this.memory.buffer as SharedArrayBuffer;
+    handedOut.add(buffer);
+    return {
+      label: this.label,
+      f32: (n) => new Float32Array(buffer, take(4 * n), n),
+      f64: (n) => new Float64Array(buffer, take(8 * n), n),
+      gemm: this.gemm,
+      release: () => {
+        this.busy = false;
+      },
+    };
+  }
+
+  /** Split C's rows across the workers (multiples of 4, the kernels' register block). */
+  private readonly gemm: Gemm = (m, n, k, a, aOff, rsA, csA, b, bOff, ldb, c, cOff, ldc, accumulate) => {
+    const same = (x: FloatArray) => sameMemory(x, this.memory);
+    if (m === 0 || n === 0) return;
+    if (!same(a) || !same(b) || !same(c)) {
+      gemmTs(m, n, k, a, aOff, rsA, csA, b, bOff, ldb, c, cOff, ldc, accumulate);
+      return;
+    }
+    const bpe = a.BYTES_PER_ELEMENT;
+    const pa = a.byteOffset + bpe * aOff;
+    const pb = b.byteOffset + bpe * bOff;
+    const pc = c.byteOffset + bpe * cOff;
+    const kind = a instanceof Float32Array ? KIND_F32 : KIND_F64;
+    const W = this.workers.length;
+    if (2 * m * n * k < PARALLEL_MIN_FLOPS || m < 8) {
+      (kind === KIND_F32 ? this.local.gemmF32 : this.local.gemmF64)(
+        m,
+        n,
+        k,
+        pa,
+        rsA,
+        csA,
+        pb,
+        ldb,
+        pc,
+        ldc,
+        accumulate ? 1 : 0,
+      );
+      return;
+    }
+    const seq = ++this.seq;
+    const per = Math.ceil(m / W / 4) * 4;
+    const used: number[] = [];
+    for (let w = 0; w < W; w++) {
+      const i0 = w * per;
+      const rows = Math.min(per, m - i0);
+      if (rows <= 0) break;
+      const q = w * PARAM_WORDS;
+      const prm = this.params;
+      prm[q + P.kind] = kind;
+      prm[q + P.m] = rows;
+      prm[q + P.n] = n;
+      prm[q + P.k] = k;
+      prm[q + P.a] = pa + bpe * i0 * rsA;
+      prm[q + P.rsA] = rsA;
+      prm[q + P.csA] = csA;
+      prm[q + P.b] = pb;
+      prm[q + P.ldb] = ldb;
+      prm[q + P.c] = pc + bpe * i0 * ldc;
+      prm[q + P.ldc] = ldc;
+      prm[q + P.acc] = accumulate ? 1 : 0;
+      Atomics.store(this.ctrl, w * CTRL_WORDS + SEQ, seq);
+      Atomics.notify(this.ctrl, w * CTRL_WORDS + SEQ);
+      used.push(w);
+    }
+    for (const w of used) {
+      const at = w * CTRL_WORDS + DONE;
+      let waited = 0;
+      for (;;) {
+        const done = Atomics.load(this.ctrl, at);
+        if (done === seq) break;
+        Atomics.wait(this.ctrl, at, done, WAIT_SLICE_MS);
+        waited += WAIT_SLICE_MS;
+        if (waited > 600_000)
+          throw new Error('LinalgPool: a worker did not answer for 10 minutes; it has probably died');
+      }
+      if (Atomics.load(this.ctrl, w * CTRL_WORDS + STATUS) !== STATUS_OK)
+        throw new Error('LinalgPool: a worker kernel failed (out of bounds memory access?)');
+    }
+  };
+
+  /** Stop the workers. The pool cannot be used afterwards. */
+  async close(): Promise<void> {
+    if (this.closed) return;
+    this.closed = true;
+    for (let w = 0; w < this.workers.length; w++) {
+      Atomics.store(this.ctrl, w * CTRL_WORDS + SEQ, SHUTDOWN);
+      Atomics.notify(this.ctrl, w * CTRL_WORDS + SEQ);
+    }
+    await Promise.all(this.workers.map((w) => w.terminate()));
+  }
+}
+
+function sameMemory(x: FloatArray, memory: WebAssembly.Memory): boolean {
+  // Every `memory.buffer` of a shared memory aliases the same bytes; accept the current one and any
+  // buffer a workspace handed out.
+  return x.buffer === memory.buffer || handedOut.has(x.buffer as SharedArrayBuffer);
+}
+const handedOut = new WeakSet<SharedArrayBuffer>();

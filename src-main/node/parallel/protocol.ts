@@ -1,0 +1,42 @@
+/**
+ * Shared control block between the calling thread and the linalg workers (src-main/node/workers/linalg.ts).
+ * One slot per worker: the caller writes the product's parameters, bumps `seq` and notifies; the
+ * worker runs its share and stores `seq` into `done` (and a status) and notifies back.
+ */
+/** Int32 words per slot in the control array: [seq, done, status, spare]. */
+export const CTRL_WORDS = 4;
+/** Float64 words per slot in the parameter array. */
+export const PARAM_WORDS = 16;
+export const SEQ = 0;
+export const DONE = 1;
+export const STATUS = 2;
+/** Parameter layout (Float64Array, per slot). */
+export const P = {
+  kind: 0,
+  m: 1,
+  n: 2,
+  k: 3,
+  a: 4,
+  rsA: 5,
+  csA: 6,
+  b: 7,
+  ldb: 8,
+  c: 9,
+  ldc: 10,
+  acc: 11,
+} as const;
+/** `kind` values. */
+export const KIND_F32 = 0;
+export const KIND_F64 = 1;
+/** `seq` value that tells a worker to leave its loop. */
+export const SHUTDOWN = -1;
+/** Worker status after a job: 0 ok, 1 the kernel threw. */
+export const STATUS_OK = 0;
+export const STATUS_ERROR = 1;
+
+export interface LinalgWorkerData {
+  memory: WebAssembly.Memory;
+  ctrl: SharedArrayBuffer;
+  params: SharedArrayBuffer;
+  slot: number;
+}

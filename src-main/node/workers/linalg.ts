@@ -1,0 +1,66 @@
+/**
+ * Linear-algebra worker: runs its share of matrix products on the shared WebAssembly memory.
+ * Started by src-main/node/parallel/pool.ts; it blocks in Atomics.wait between jobs, so it needs no
+ * event loop and answers within microseconds.
+ */
+import { parentPort, workerData } from 'node:worker_threads';
+import { wasmBase64 } from '../../engine/linalg/wasm/generated/kernels-shared';
+import { decodeBase64, type KernelExports } from '../../engine/linalg/wasm/runtime';
+import {
+  CTRL_WORDS,
+  DONE,
+  KIND_F32,
+  type LinalgWorkerData,
+  P,
+  PARAM_WORDS,
+  SEQ,
+  SHUTDOWN,
+  STATUS,
+  STATUS_ERROR,
+  STATUS_OK,
+} from '../parallel/protocol';
+
+const data = workerData as LinalgWorkerData;
+const module = new WebAssembly.Module(decodeBase64(wasmBase64));
+const instance = new WebAssembly.Instance(module, {
+  env: {
+    memory: data.memory,
+    abort: () => {
+      throw new Error('kernel abort');
+    },
+  },
+});
+const k = instance.exports as unknown as KernelExports;
+const ctrl = new Int32Array(data.ctrl);
+const params = new Float64Array(data.params);
+const c0 = data.slot * CTRL_WORDS;
+const p0 = data.slot * PARAM_WORDS;
+parentPort?.postMessage('ready');
+let seq = Atomics.load(ctrl, c0 + SEQ);
+for (;;) {
+  Atomics.wait(ctrl, c0 + SEQ, seq);
+  seq = Atomics.load(ctrl, c0 + SEQ);
+  if (seq === SHUTDOWN) break;
+  let status = STATUS_OK;
+  try {
+    const f = params[p0 + P.kind] === KIND_F32 ? k.gemmF32 : k.gemmF64;
+    f(
+      params[p0 + P.m],
+      params[p0 + P.n],
+      params[p0 + P.k],
+      params[p0 + P.a],
+      params[p0 + P.rsA],
+      params[p0 + P.csA],
+      params[p0 + P.b],
+      params[p0 + P.ldb],
+      params[p0 + P.c],
+      params[p0 + P.ldc],
+      params[p0 + P.acc],
+    );
+  } catch {
+    status = STATUS_ERROR;
+  }
+  Atomics.store(ctrl, c0 + STATUS, status);
+  Atomics.store(ctrl, c0 + DONE, seq);
+  Atomics.notify(ctrl, c0 + DONE);
+}
