@@ -1,0 +1,515 @@
+/**
+ * Stack layout of the .rkf container: a series of same-size frames coded jointly.
+ *
+ * Model (see src-main/engine/stack/frame-svd.ts): per channel (Y, or Y/Cb/Cr for colour, JFIF full
+ * range), frame j is rebuilt as
+ *     F̂_j = μ̂ + d_j·1 + Σ_{i<k} c_{ji} · P̂_i  [+ R̂_j]
+ * with μ̂ the coded mean frame, P̂_i the coded eigen-frames (σ-weighted: P_i = Y·v_i), d_j and c_j
+ * float32 coefficients refitted by least squares against the *decoded* planes, and R̂_j an optional
+ * coded residual for frame j kept only where it pays at the operating slope.
+ *
+ * Rate–distortion: one pixel-domain step Δ for every plane whose error reaches the frames with unit
+ * weight (eigen-frames: Σ_j c_ji² ≈ 1; residuals), and Δ/√N for the mean frame (its error reaches all N
+ * frames). Equal step = equal distortion slope, the high-rate condition for an optimal allocation
+ * (reverse water-filling; Cover & Thomas, Elements of Information Theory, 2nd ed., §10.3.3, from memory).
+ * An eigen-frame or a residual is kept when the squared error it removes is at least λ per byte spent,
+ * λ = 16·ln2·Δ²/12 (the slope dD/dR of a uniform quantiser at high rate, D = Δ²/12 per sample, 6.02 dB
+ * per bit — common practice).
+ *
+ * Random access: one frame needs the header, the mean, the k eigen-frames, its coefficient row and its
+ * own residual — never another frame's data. Full decodes call the same per-frame routine, so a frame
+ * is bit-identical either way.
+ *
+ * Chunks (ids are u32): HEAD (JSON, `layout: "stack"`), SMEA c (mean of channel c), SBAS c·65536+i
+ * (eigen-frame i of channel c), SCOF c (float32 big-endian: per frame, d_j then c_j0…c_j(k−1)),
+ * SRES c·65536+j (residual of frame j, channel c). Planes are coded by stack-plane.ts.
+ */
+import { FormatError } from '../../contract/errors';
+import { chromaOffset, rgbToYcbcr, toSamples, ycbcrToRgb } from '../lowrank/colour';
+import { ssim } from '../metrics';
+import {
+  centredFrames,
+  eigenFrames,
+  type FrameModeSvd,
+  frameModeSvd,
+  rebuildFrame,
+} from '../stack/frame-svd';
+import { type Chunk, readContainer, writeContainer } from './container';
+import { decodePlane, encodePlane } from './stack-plane';
+
+export const STACK_LAYOUT = 'stack';
+export const STACK_VERSION = 1;
+/** Largest number of eigen-frames considered per channel. */
+export const MAX_STACK_RANK = 64;
+/** λ per byte in units of Δ²: 8 bits · 2·ln2 · (1/12). */
+const LAMBDA_PER_BYTE = (16 * Math.LN2) / 12;
+
+/** One frame of a series: one plane per channel (gray: [Y]; colour: [R, G, B]), on the source scale. */
+export interface StackFrameInput {
+  planes: ArrayLike<number>[];
+  /** File name or page label, kept in the frame table. */
+  name?: string;
+  /** SHA-256 of the decoded source samples (see docs/format.md). */
+  sourceSha256?: string;
+}
+
+export interface StackInput {
+  width: number;
+  height: number;
+  bitDepth: 8 | 16;
+  /** 1 = gray, 3 = RGB. */
+  channels: 1 | 3;
+  frames: StackFrameInput[];
+  /** Free-form metadata carried in the header (ICC as base64, density…). */
+  meta?: Record<string, unknown>;
+}
+
+export interface StackHeader {
+  layout: 'stack';
+  stackVersion: number;
+  width: number;
+  height: number;
+  bitDepth: 8 | 16;
+  channels: 1 | 3;
+  /** Coded colour model: 'gray' or 'ycbcr' (JFIF full range). */
+  colour: 'gray' | 'ycbcr';
+  frameCount: number;
+  model: 'frame-svd';
+  planeCoder: 'cdf97-rc';
+  /** Pixel-domain quantiser step Δ of eigen-frames and residuals. */
+  step: number;
+  /** Number of eigen-frames per coded channel. */
+  ranks: number[];
+  /** Frame-mode singular values per coded channel, after mean removal (sample scale). */
+  spectrum: number[][];
+  frameTable: Array<{ name?: string; sourceSha256?: string; residual: boolean[] }>;
+  meta?: Record<string, unknown>;
+}
+
+/** A series prepared once (colour transform, frame-mode SVD, eigen-frames) for encodes at many steps. */
+export interface PreparedStack {
+  input: StackInput;
+  /** Coded planes: [channel][frame]. */
+  coded: Float64Array[][];
+  svd: FrameModeSvd[];
+  /** Eigen-frames per channel, up to min(N, MAX_STACK_RANK). */
+  eigen: Float64Array[][];
+}
+
+export interface StackParams {
+  /** Pixel-domain step Δ (> 0) on the source scale. */
+  step: number;
+  /** Fixed number of eigen-frames per channel (default: chosen by the λ rule). */
+  rank?: number;
+  /** Code per-frame residuals where they pay (default true). */
+  residuals?: boolean;
+}
+
+export interface StackByteSplit {
+  header: number;
+  mean: number;
+  basis: number;
+  coefficients: number;
+  residuals: number;
+  /** Chunk framing, index and trailer. */
+  container: number;
+}
+
+export interface EncodedStack {
+  bytes: Uint8Array;
+  header: StackHeader;
+  /** Decoded frames on the source scale (rounded, clamped): [frame][channel]. */
+  decoded: Float32Array[][];
+  split: StackByteSplit;
+}
+
+const chunkId = (c: number, i: number) => c * 65536 + i;
+
+/** JSON as ASCII bytes: non-ASCII characters are written as \uXXXX escapes, which is valid UTF-8 JSON (RFC 8259 §7). */
+function jsonBytes(value: unknown): Uint8Array {
+  const text = JSON.stringify(value).replace(
+    /[\u007f-\uffff]/g,
+    (ch) => `\\u${ch.charCodeAt(0).toString(16).padStart(4, '0')}`,
+  );
+  return Uint8Array.from(text, (ch) => ch.charCodeAt(0));
+}
+
+/** Decode UTF-8 (RFC 3629); malformed sequences become U+FFFD. */
+function utf8Text(b: Uint8Array): string {
+  let out = '';
+  for (let i = 0; i < b.length; ) {
+    const c = b[i++];
+    let cp = 0xfffd;
+    if (c < 0x80) cp = c;
+    else if (c >= 0xc2 && c < 0xe0 && i < b.length) cp = ((c & 0x1f) << 6) | (b[i++] & 0x3f);
+    else if (c >= 0xe0 && c < 0xf0 && i + 1 < b.length) {
+      cp = ((c & 0x0f) << 12) | ((b[i] & 0x3f) << 6) | (b[i + 1] & 0x3f);
+      i += 2;
+    } else if (c >= 0xf0 && c < 0xf5 && i + 2 < b.length) {
+      cp = ((c & 0x07) << 18) | ((b[i] & 0x3f) << 12) | ((b[i + 1] & 0x3f) << 6) | (b[i + 2] & 0x3f);
+      i += 3;
+    }
+    out += String.fromCodePoint(cp);
+  }
+  return out;
+}
+
+/** Validate sizes and prepare the series. @throws RangeError on inconsistent frames (callers name files first). */
+export function prepareStack(input: StackInput, maxRank = MAX_STACK_RANK): PreparedStack {
+  const { width, height, channels, frames } = input;
+  const n = width * height;
+  if (frames.length < 2) throw new RangeError(`a stack needs at least 2 frames, got ${frames.length}`);
+  frames.forEach((f, j) => {
+    if (f.planes.length !== channels)
+      throw new RangeError(`frame ${j} has ${f.planes.length} channels; expected ${channels}`);
+    for (const p of f.planes)
+      if (p.length !== n)
+        throw new RangeError(`frame ${j} has a plane of ${p.length} samples; expected ${n}`);
+  });
+  const coded: Float64Array[][] = channels === 3 ? [[], [], []] : [[]];
+  for (const f of frames) {
+    if (channels === 3) {
+      const ycc = rgbToYcbcr(f.planes[0], f.planes[1], f.planes[2], input.bitDepth);
+      for (let c = 0; c < 3; c++) coded[c].push(ycc[c]);
+    } else coded[0].push(Float64Array.from(f.planes[0]));
+  }
+  const svd = coded.map((planes) => frameModeSvd(planes, width, height));
+  const eigen = coded.map((planes, c) =>
+    eigenFrames(centredFrames(planes, svd[c].mean, svd[c].offsets), svd[c], Math.min(maxRank, frames.length)),
+  );
+  return { input, coded, svd, eigen };
+}
+
+/** Solve the SPD system A x = b (m×m) by Cholesky with a tiny ridge for rank-deficient bases. */
+function solveSpd(A: Float64Array, b: Float64Array, m: number): Float64Array {
+  const L = Float64Array.from(A);
+  let tr = 0;
+  for (let i = 0; i < m; i++) tr += A[i * m + i];
+  const ridge = 1e-13 * (tr / Math.max(1, m)) + 1e-300;
+  for (let j = 0; j < m; j++) {
+    let d = L[j * m + j] + ridge;
+    for (let k = 0; k < j; k++) d -= L[j * m + k] ** 2;
+    d = Math.sqrt(Math.max(d, ridge));
+    L[j * m + j] = d;
+    for (let i = j + 1; i < m; i++) {
+      let s = L[i * m + j];
+      for (let k = 0; k < j; k++) s -= L[i * m + k] * L[j * m + k];
+      L[i * m + j] = s / d;
+    }
+  }
+  const y = new Float64Array(m);
+  for (let i = 0; i < m; i++) {
+    let s = b[i];
+    for (let k = 0; k < i; k++) s -= L[i * m + k] * y[k];
+    y[i] = s / L[i * m + i];
+  }
+  const x = new Float64Array(m);
+  for (let i = m - 1; i >= 0; i--) {
+    let s = y[i];
+    for (let k = i + 1; k < m; k++) s -= L[k * m + i] * x[k];
+    x[i] = s / L[i * m + i];
+  }
+  return x;
+}
+
+function sse(a: ArrayLike<number>, b: ArrayLike<number>): number {
+  let s = 0;
+  for (let i = 0; i < a.length; i++) {
+    const d = a[i] - b[i];
+    s += d * d;
+  }
+  return s;
+}
+
+function energy(a: ArrayLike<number>): number {
+  let s = 0;
+  for (let i = 0; i < a.length; i++) s += a[i] * a[i];
+  return s;
+}
+
+function f32be(values: ArrayLike<number>): Uint8Array {
+  const out = new Uint8Array(values.length * 4);
+  const dv = new DataView(out.buffer);
+  for (let i = 0; i < values.length; i++) dv.setFloat32(i * 4, values[i], false);
+  return out;
+}
+
+/** Planes back to source samples: YCbCr → RGB for colour, then round and clamp. */
+function toSource(planes: Float64Array[], channels: 1 | 3, bitDepth: 8 | 16): Float32Array[] {
+  const max = bitDepth === 16 ? 65535 : 255;
+  if (channels === 1) return [toSamples(planes[0], max)];
+  return ycbcrToRgb(planes[0], planes[1], planes[2], bitDepth).map((p) => toSamples(p, max));
+}
+
+/**
+ * Encode a prepared series at one quantiser step.
+ * @example const e = encodeStack(prepareStack(input), { step: 4 }); e.bytes // the .rkf file
+ */
+export function encodeStack(prep: PreparedStack, params: StackParams): EncodedStack {
+  const { input, coded, svd, eigen } = prep;
+  const { width, height, channels, bitDepth } = input;
+  const N = input.frames.length;
+  const n = width * height;
+  const step = params.step;
+  if (!(step > 0 && Number.isFinite(step)))
+    throw new RangeError(`stack quantiser step must be > 0, got ${step}`);
+  const lambda = LAMBDA_PER_BYTE * step * step;
+  const chunks: Chunk[] = [];
+  const split: StackByteSplit = { header: 0, mean: 0, basis: 0, coefficients: 0, residuals: 0, container: 0 };
+  const ranks: number[] = [];
+  const residualFlags: boolean[][] = Array.from({ length: N }, () => []);
+  const rebuilt: Float64Array[][] = Array.from({ length: N }, () => []);
+  const body: Chunk[] = [];
+  for (let c = 0; c < coded.length; c++) {
+    const frames = coded[c];
+    const mean = encodePlane(svd[c].mean, width, height, step / Math.sqrt(N));
+    body.push({ type: 'SMEA', id: c, payload: mean.bytes });
+    split.mean += mean.bytes.length;
+    // Eigen-frames: fixed rank, or keep while the captured energy pays λ per byte.
+    const basis: Float64Array[] = [];
+    const kmax = params.rank !== undefined ? Math.min(params.rank, eigen[c].length) : eigen[c].length;
+    for (let i = 0; i < kmax; i++) {
+      const P = eigen[c][i];
+      const code = encodePlane(P, width, height, step);
+      const gain = svd[c].sigma[i] ** 2 - sse(P, code.decoded);
+      if (params.rank === undefined && !(gain >= lambda * (code.bytes.length + 4 * N))) break;
+      basis.push(code.decoded);
+      body.push({ type: 'SBAS', id: chunkId(c, i), payload: code.bytes });
+      split.basis += code.bytes.length;
+    }
+    const k = basis.length;
+    ranks.push(k);
+    // Least-squares coefficients [d_j, c_j] against the decoded planes [1, P̂_0 … P̂_{k−1}].
+    const m = k + 1;
+    const G = new Float64Array(m * m);
+    const ones = (i: number) => (i === 0 ? null : basis[i - 1]);
+    for (let a = 0; a < m; a++)
+      for (let b = a; b < m; b++) {
+        const pa = ones(a);
+        const pb = ones(b);
+        let s = 0;
+        if (!pa && !pb) s = n;
+        else if (!pa) for (let p = 0; p < n; p++) s += (pb as Float64Array)[p];
+        else if (!pb) for (let p = 0; p < n; p++) s += pa[p];
+        else for (let p = 0; p < n; p++) s += pa[p] * pb[p];
+        G[a * m + b] = G[b * m + a] = s;
+      }
+    const coef = new Float32Array(N * m);
+    for (let j = 0; j < N; j++) {
+      const F = frames[j];
+      const rhs = new Float64Array(m);
+      for (let p = 0; p < n; p++) rhs[0] += F[p] - mean.decoded[p];
+      for (let i = 0; i < k; i++) {
+        const P = basis[i];
+        let s = 0;
+        for (let p = 0; p < n; p++) s += P[p] * (F[p] - mean.decoded[p]);
+        rhs[i + 1] = s;
+      }
+      coef.set(solveSpd(G, rhs, m), j * m);
+    }
+    const cof = f32be(coef);
+    body.push({ type: 'SCOF', id: c, payload: cof });
+    split.coefficients += cof.length;
+    for (let j = 0; j < N; j++) {
+      const row = coef.subarray(j * m, (j + 1) * m);
+      const rec = rebuildFrame(mean.decoded, row[0], basis, row.subarray(1));
+      let keep = false;
+      if (params.residuals !== false) {
+        const R = new Float64Array(n);
+        const F = frames[j];
+        for (let p = 0; p < n; p++) R[p] = F[p] - rec[p];
+        const code = encodePlane(R, width, height, step);
+        if (code.nonZero > 0) {
+          const gain = energy(R) - sse(R, code.decoded);
+          if (gain >= lambda * code.bytes.length) {
+            keep = true;
+            for (let p = 0; p < n; p++) rec[p] += code.decoded[p];
+            body.push({ type: 'SRES', id: chunkId(c, j), payload: code.bytes });
+            split.residuals += code.bytes.length;
+          }
+        }
+      }
+      residualFlags[j].push(keep);
+      rebuilt[j].push(rec);
+    }
+  }
+  const header: StackHeader = {
+    layout: 'stack',
+    stackVersion: STACK_VERSION,
+    width,
+    height,
+    bitDepth,
+    channels,
+    colour: channels === 3 ? 'ycbcr' : 'gray',
+    frameCount: N,
+    model: 'frame-svd',
+    planeCoder: 'cdf97-rc',
+    step,
+    ranks,
+    spectrum: svd.map((s) => Array.from(s.sigma, (v) => Number(v.toPrecision(6)))),
+    frameTable: input.frames.map((f, j) => ({
+      name: f.name,
+      sourceSha256: f.sourceSha256,
+      residual: residualFlags[j],
+    })),
+    meta: input.meta,
+  };
+  const head = jsonBytes(header);
+  chunks.push({ type: 'HEAD', id: 0, payload: head }, ...body);
+  split.header = head.length;
+  const bytes = writeContainer(chunks);
+  split.container =
+    bytes.length - split.header - split.mean - split.basis - split.coefficients - split.residuals;
+  const decoded = rebuilt.map((planes) => toSource(planes, channels, bitDepth));
+  return { bytes, header, decoded, split };
+}
+
+/** True when the container's HEAD says `layout: "stack"`. Cheap: reads only the header chunk. */
+export function isStackContainer(bytes: Uint8Array, file = 'input'): boolean {
+  const view = readContainer(bytes, file, false);
+  try {
+    const h = JSON.parse(utf8Text(view.payload(0)));
+    return h?.layout === STACK_LAYOUT;
+  } catch {
+    return false;
+  }
+}
+
+/** Random-access reader of a stack container. Verifies the CRC of each chunk it uses, on first use. */
+export interface StackReader {
+  header: StackHeader;
+  /** Decode frame j (0-based): one plane per source channel, rounded and clamped. */
+  frame(j: number): Float32Array[];
+  /** Chunks the reader has verified and decoded so far (for tests of random access). */
+  readonly touched: ReadonlySet<string>;
+}
+
+/**
+ * Open a stack container held in memory.
+ * @throws FormatError naming `file` for a damaged, truncated or inconsistent file.
+ */
+export function openStack(bytes: Uint8Array, file: string): StackReader {
+  const view = readContainer(bytes, file, false);
+  const fail = (problem: string): never => {
+    throw new FormatError(file, problem);
+  };
+  let header: StackHeader;
+  try {
+    header = JSON.parse(utf8Text(view.payload(0)));
+  } catch (err) {
+    if (err instanceof FormatError) throw err;
+    return fail('is damaged: its header is not valid JSON');
+  }
+  if (header?.layout !== STACK_LAYOUT)
+    fail('is not a stack file (its header has no stack layout); use `rankfold expand` without --frame');
+  if (header.stackVersion !== STACK_VERSION)
+    fail(
+      `uses stack layout version ${header.stackVersion}, which this Rankfold does not read (it reads ${STACK_VERSION})`,
+    );
+  const { width, height, frameCount, channels, bitDepth } = header;
+  const okInt = (v: unknown, lo: number, hi: number) =>
+    Number.isInteger(v) && (v as number) >= lo && (v as number) <= hi;
+  if (!okInt(width, 1, 1 << 20) || !okInt(height, 1, 1 << 20) || width * height > 2 ** 31)
+    fail(`is damaged: frame size ${width}×${height} is not plausible`);
+  if (!okInt(frameCount, 2, 1 << 16)) fail(`is damaged: frame count ${frameCount} is not plausible`);
+  if (!(channels === 1 || channels === 3) || !(bitDepth === 8 || bitDepth === 16))
+    fail(`is damaged: ${channels} channels at ${bitDepth} bits is not a stack format Rankfold writes`);
+  const coded = channels === 3 ? 3 : 1;
+  if (
+    !Array.isArray(header.ranks) ||
+    header.ranks.length !== coded ||
+    !header.ranks.every((r) => okInt(r, 0, MAX_STACK_RANK))
+  )
+    fail('is damaged: the eigen-frame counts in the header are inconsistent');
+  if (!Array.isArray(header.frameTable) || header.frameTable.length !== frameCount)
+    fail('is damaged: the frame table does not list every frame');
+  if (!(header.step > 0 && Number.isFinite(header.step)))
+    fail('is damaged: the quantiser step is not a positive number');
+  const n = width * height;
+  const touched = new Set<string>();
+  const chunk = (type: string, id: number): Uint8Array => {
+    const k = view.find(type, id);
+    if (k < 0) fail(`is truncated or damaged: chunk ${type} #${id} is missing`);
+    touched.add(`${type}#${id}`);
+    return view.payload(k);
+  };
+  const plane = (type: string, id: number, step: number): Float64Array => {
+    const b = chunk(type, id);
+    try {
+      return decodePlane(b, width, height, step);
+    } catch {
+      return fail(`is damaged: chunk ${type} #${id} does not decode`);
+    }
+  };
+  const means: Float64Array[] = [];
+  const bases: Float64Array[][] = [];
+  const coefs: Float32Array[] = [];
+  const channelModel = (c: number) => {
+    if (!means[c]) {
+      means[c] = plane('SMEA', c, header.step / Math.sqrt(frameCount));
+      const k = header.ranks[c];
+      bases[c] = Array.from({ length: k }, (_, i) => plane('SBAS', chunkId(c, i), header.step));
+      const raw = chunk('SCOF', c);
+      if (raw.length !== frameCount * (k + 1) * 4)
+        fail(`is damaged: coefficient chunk SCOF #${c} has the wrong length`);
+      const dv = new DataView(raw.buffer, raw.byteOffset, raw.byteLength);
+      coefs[c] = Float32Array.from({ length: raw.length / 4 }, (_, i) => dv.getFloat32(i * 4, false));
+    }
+    return { mean: means[c], basis: bases[c], coef: coefs[c] };
+  };
+  return {
+    header,
+    touched,
+    frame(j: number) {
+      if (!Number.isInteger(j) || j < 0 || j >= frameCount)
+        throw new FormatError(
+          file,
+          `has ${frameCount} frames (0–${frameCount - 1}); frame ${j} does not exist`,
+        );
+      const planes: Float64Array[] = [];
+      for (let c = 0; c < coded; c++) {
+        const { mean, basis, coef } = channelModel(c);
+        const m = basis.length + 1;
+        const row = coef.subarray(j * m, (j + 1) * m);
+        const rec = rebuildFrame(mean, row[0], basis, row.subarray(1));
+        if (header.frameTable[j].residual?.[c]) {
+          const R = plane('SRES', chunkId(c, j), header.step);
+          for (let p = 0; p < n; p++) rec[p] += R[p];
+        }
+        planes.push(rec);
+      }
+      return toSource(planes, channels, bitDepth);
+    },
+  };
+}
+
+/** Decode one frame of an in-memory stack file (the app's frame slider). @throws FormatError. */
+export function decodeStackFrame(bytes: Uint8Array, j: number, file = 'stack'): Float32Array[] {
+  return openStack(bytes, file).frame(j);
+}
+
+/** Per-frame PSNR (dB, pooled over channels) of decoded frames against the input. */
+export function framePsnr(input: StackInput, decoded: Float32Array[][]): number[] {
+  const max = input.bitDepth === 16 ? 65535 : 255;
+  return input.frames.map((f, j) => {
+    let s = 0;
+    for (let c = 0; c < f.planes.length; c++) s += sse(f.planes[c], decoded[j][c]);
+    const mse = s / (f.planes.length * input.width * input.height);
+    return mse === 0 ? Number.POSITIVE_INFINITY : 10 * Math.log10((max * max) / mse);
+  });
+}
+
+/** Per-frame SSIM (Wang et al. 2004 via the metrics module; mean over channels) of decoded frames. */
+export function frameSsim(input: StackInput, decoded: Float32Array[][]): number[] {
+  const max = input.bitDepth === 16 ? 65535 : 255;
+  if (input.width < 11 || input.height < 11) return input.frames.map(() => Number.NaN);
+  return input.frames.map((f, j) => {
+    let s = 0;
+    for (let c = 0; c < f.planes.length; c++)
+      s += ssim(f.planes[c], decoded[j][c], input.width, input.height, max);
+    return s / f.planes.length;
+  });
+}
+
+/** Chroma offset used for colour stacks (exposed for docs and tests). */
+export const stackChromaOffset = chromaOffset;

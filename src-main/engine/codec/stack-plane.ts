@@ -1,0 +1,349 @@
+/**
+ * Plane coder of the stack layout: codes one real-valued plane (an eigen-frame, the mean frame or a
+ * per-frame residual) at a given quantiser step, so that the decoder can rebuild any single frame
+ * without touching the others. Used where the tiled SVD codec is not available for signed basis planes.
+ *
+ * Pipeline: separable biorthogonal CDF 9/7 wavelet (lifting form), uniform dead-zone quantiser with
+ * one step per sub-band scaled so that every sub-band costs the same distortion per unit of step in
+ * the pixel domain, then context-modelled adaptive binary range coding (stack-range-coder.ts).
+ *
+ * References
+ * - A. Cohen, I. Daubechies, J.-C. Feauveau, "Biorthogonal bases of compactly supported wavelets",
+ *   Comm. Pure Appl. Math. 45(5):485–560, 1992 (the 9/7 filter pair).
+ * - I. Daubechies, W. Sweldens, "Factoring wavelet transforms into lifting steps", J. Fourier Anal.
+ *   Appl. 4(3):247–269, 1998, §7 (lifting coefficients α, β, γ, δ and scale ζ of the 9/7 pair; the
+ *   numerical values below are the commonly published ones, from memory).
+ * - S. Mallat, "A theory for multiresolution signal decomposition: the wavelet representation",
+ *   IEEE TPAMI 11(7):674–693, 1989 (the dyadic 2-D decomposition).
+ * - G. J. Sullivan, "Efficient scalar quantization of exponential and Laplacian random variables",
+ *   IEEE Trans. Inf. Theory 42(5):1365–1374, 1996 (dead-zone quantisers for Laplacian sources).
+ */
+import {
+  bitModels,
+  decodeUInt,
+  encodeUInt,
+  RangeDecoder,
+  RangeEncoder,
+  UINT_MODELS,
+} from './stack-range-coder';
+
+const ALPHA = -1.586134342059924;
+const BETA = -0.052980118572961;
+const GAMMA = 0.882911075530934;
+const DELTA = 0.443506852043971;
+const ZETA = 1.149604398860241;
+
+/** Smallest side a level may split (below it the filters see mostly boundary extension). */
+const MIN_SIDE = 12;
+/** Most decomposition levels. */
+const MAX_LEVELS = 6;
+/** Dead-zone rounding offset: q = sign(c)·⌊|c|/Δ + ρ⌋. 0.5 is plain rounding; less widens the zero bin. */
+export const DEAD_ZONE_RHO = 0.38;
+
+/** Number of levels used for a w×h plane. */
+export function levelsFor(width: number, height: number): number {
+  let l = 0;
+  let w = width;
+  let h = height;
+  while (l < MAX_LEVELS && Math.min(w, h) >= MIN_SIDE) {
+    w = (w + 1) >> 1;
+    h = (h + 1) >> 1;
+    l++;
+  }
+  return l;
+}
+
+/** Forward 1-D 9/7 lifting on x[o], x[o+s], … (n samples); writes lows then highs into tmp, then back. */
+function fwd1d(x: Float64Array, o: number, s: number, n: number, tmp: Float64Array): void {
+  if (n < 2) return;
+  const nL = (n + 1) >> 1;
+  const nH = n >> 1;
+  const L = tmp;
+  const H = tmp.subarray(nL);
+  for (let i = 0; i < nL; i++) L[i] = x[o + 2 * i * s];
+  for (let i = 0; i < nH; i++) H[i] = x[o + (2 * i + 1) * s];
+  const lift = (a: Float64Array, na: number, b: Float64Array, nb: number, c: number, bFromA: boolean) => {
+    // bFromA: update b (highs) from neighbours in a (lows): b[i] += c·(a[i] + a[i+1]).
+    // otherwise: update a (lows) from b (highs): a[i] += c·(b[i−1] + b[i]). Symmetric extension = clamping.
+    if (bFromA) for (let i = 0; i < nb; i++) b[i] += c * (a[i] + a[Math.min(i + 1, na - 1)]);
+    else for (let i = 0; i < na; i++) a[i] += c * (b[Math.max(i - 1, 0)] + b[Math.min(i, nb - 1)]);
+  };
+  lift(L, nL, H, nH, ALPHA, true);
+  lift(L, nL, H, nH, BETA, false);
+  lift(L, nL, H, nH, GAMMA, true);
+  lift(L, nL, H, nH, DELTA, false);
+  for (let i = 0; i < nL; i++) x[o + i * s] = L[i] / ZETA;
+  for (let i = 0; i < nH; i++) x[o + (nL + i) * s] = H[i] * ZETA;
+}
+
+function inv1d(x: Float64Array, o: number, s: number, n: number, tmp: Float64Array): void {
+  if (n < 2) return;
+  const nL = (n + 1) >> 1;
+  const nH = n >> 1;
+  const L = tmp;
+  const H = tmp.subarray(nL);
+  for (let i = 0; i < nL; i++) L[i] = x[o + i * s] * ZETA;
+  for (let i = 0; i < nH; i++) H[i] = x[o + (nL + i) * s] / ZETA;
+  for (let i = 0; i < nL; i++) L[i] -= DELTA * (H[Math.max(i - 1, 0)] + H[Math.min(i, nH - 1)]);
+  for (let i = 0; i < nH; i++) H[i] -= GAMMA * (L[i] + L[Math.min(i + 1, nL - 1)]);
+  for (let i = 0; i < nL; i++) L[i] -= BETA * (H[Math.max(i - 1, 0)] + H[Math.min(i, nH - 1)]);
+  for (let i = 0; i < nH; i++) H[i] -= ALPHA * (L[i] + L[Math.min(i + 1, nL - 1)]);
+  for (let i = 0; i < nL; i++) x[o + 2 * i * s] = L[i];
+  for (let i = 0; i < nH; i++) x[o + (2 * i + 1) * s] = H[i];
+}
+
+/** In-place 2-D forward transform (Mallat layout). */
+export function forwardWavelet(x: Float64Array, width: number, height: number, levels: number): void {
+  const tmp = new Float64Array(Math.max(width, height));
+  let w = width;
+  let h = height;
+  for (let l = 0; l < levels; l++) {
+    for (let y = 0; y < h; y++) fwd1d(x, y * width, 1, w, tmp);
+    for (let c = 0; c < w; c++) fwd1d(x, c, width, h, tmp);
+    w = (w + 1) >> 1;
+    h = (h + 1) >> 1;
+  }
+}
+
+/** In-place 2-D inverse transform. */
+export function inverseWavelet(x: Float64Array, width: number, height: number, levels: number): void {
+  const tmp = new Float64Array(Math.max(width, height));
+  const ws = [width];
+  const hs = [height];
+  for (let l = 1; l < levels; l++) {
+    ws.push((ws[l - 1] + 1) >> 1);
+    hs.push((hs[l - 1] + 1) >> 1);
+  }
+  for (let l = levels - 1; l >= 0; l--) {
+    const w = ws[l];
+    const h = hs[l];
+    for (let c = 0; c < w; c++) inv1d(x, c, width, h, tmp);
+    for (let y = 0; y < h; y++) inv1d(x, y * width, 1, w, tmp);
+  }
+}
+
+/** Synthesis energy of one unit coefficient in the 1-D low band after `l` levels, or high band of level l. */
+const gainCache = new Map<string, number>();
+function gain1d(kind: 'low' | 'high', l: number): number {
+  const key = `${kind}${l}`;
+  const hit = gainCache.get(key);
+  if (hit !== undefined) return hit;
+  const n = 1024;
+  const x = new Float64Array(n);
+  // Band extents in the Mallat layout of a length-1024 signal.
+  let lowLen = n;
+  for (let i = 0; i < (kind === 'low' ? l : l - 1); i++) lowLen = (lowLen + 1) >> 1;
+  const pos = kind === 'low' ? lowLen >> 1 : ((lowLen + 1) >> 1) + (lowLen >> 2);
+  x[pos] = 1;
+  const tmp = new Float64Array(n);
+  const lens = [n];
+  for (let i = 1; i < l; i++) lens.push((lens[i - 1] + 1) >> 1);
+  for (let i = l - 1; i >= 0; i--) inv1d(x, 0, 1, lens[i], tmp);
+  let e = 0;
+  for (let i = 0; i < n; i++) e += x[i] * x[i];
+  gainCache.set(key, e);
+  return e;
+}
+
+interface Band {
+  x0: number;
+  y0: number;
+  w: number;
+  h: number;
+  /** 0 = LL, 1 = HL (horizontal high), 2 = LH, 3 = HH. */
+  orient: number;
+  level: number;
+  /** Synthesis energy gain (pixel-domain squared error per unit squared coefficient error). */
+  gain: number;
+}
+
+/** Sub-bands in coding order: LL of the coarsest level, then HL, LH, HH from coarse to fine. */
+export function bandsFor(width: number, height: number, levels: number): Band[] {
+  const ws = [width];
+  const hs = [height];
+  for (let l = 1; l <= levels; l++) {
+    ws.push((ws[l - 1] + 1) >> 1);
+    hs.push((hs[l - 1] + 1) >> 1);
+  }
+  const bands: Band[] = [];
+  const gl = (l: number) => (l === 0 ? 1 : gain1d('low', l));
+  bands.push({
+    x0: 0,
+    y0: 0,
+    w: ws[levels],
+    h: hs[levels],
+    orient: 0,
+    level: levels,
+    gain: gl(levels) * gl(levels),
+  });
+  for (let l = levels; l >= 1; l--) {
+    const lw = ws[l];
+    const lh = hs[l];
+    const hw = ws[l - 1] - lw;
+    const hh = hs[l - 1] - lh;
+    const gh = gain1d('high', l);
+    bands.push({ x0: lw, y0: 0, w: hw, h: lh, orient: 1, level: l, gain: gh * gl(l) });
+    bands.push({ x0: 0, y0: lh, w: lw, h: hh, orient: 2, level: l, gain: gl(l) * gh });
+    bands.push({ x0: lw, y0: lh, w: hw, h: hh, orient: 3, level: l, gain: gh * gh });
+  }
+  return bands.filter((b) => b.w > 0 && b.h > 0);
+}
+
+const ZERO_CTX = 5 * 7 * 3;
+const MAG_CTX = 5 * 4;
+const SIGN_CTX = 5;
+
+function bandClass(b: Band): number {
+  if (b.orient === 0) return 0;
+  const fine = b.level === 1 ? 2 : 0;
+  return 1 + fine + (b.orient === 3 ? 1 : 0);
+}
+
+/** The coefficient of the parent band (same orientation, next coarser level), or 0. */
+function parentOf(
+  q: Int32Array,
+  width: number,
+  b: Band,
+  parent: Band | undefined,
+  x: number,
+  y: number,
+): number {
+  if (!parent) return 0;
+  const px = Math.min(parent.w - 1, x >> 1);
+  const py = Math.min(parent.h - 1, y >> 1);
+  return q[(parent.y0 + py) * width + parent.x0 + px];
+}
+
+/** Visit every coefficient of every band in coding order, with its contexts. */
+function walk(
+  q: Int32Array,
+  width: number,
+  bands: Band[],
+  visit: (idx: number, zctx: number, mctx: number, sctx: number, isLL: boolean) => void,
+): void {
+  const byKey = new Map<string, Band>();
+  for (const b of bands) byKey.set(`${b.orient}:${b.level}`, b);
+  for (const b of bands) {
+    const bc = bandClass(b);
+    const parent = b.orient === 0 ? undefined : byKey.get(`${b.orient}:${b.level + 1}`);
+    for (let y = 0; y < b.h; y++) {
+      const row = (b.y0 + y) * width + b.x0;
+      for (let x = 0; x < b.w; x++) {
+        const idx = row + x;
+        const left = x > 0 ? Math.abs(q[idx - 1]) : 0;
+        const up = y > 0 ? Math.abs(q[idx - width]) : 0;
+        const ul = x > 0 && y > 0 ? q[idx - width - 1] : 0;
+        const ur = y > 0 && x + 1 < b.w ? q[idx - width + 1] : 0;
+        const p = Math.abs(parentOf(q, width, parent, x, y));
+        const sig =
+          2 * (left !== 0 ? 1 : 0) + 2 * (up !== 0 ? 1 : 0) + (ul !== 0 ? 1 : 0) + (ur !== 0 ? 1 : 0);
+        const pc = p === 0 ? 0 : p === 1 ? 1 : 2;
+        const zctx = (bc * 7 + Math.min(sig, 6)) * 3 + pc;
+        const m = left + up + (p > 0 ? 1 : 0);
+        const mc = m === 0 ? 0 : m <= 2 ? 1 : m <= 6 ? 2 : 3;
+        visit(idx, zctx, bc * 4 + mc, bc, b.orient === 0);
+      }
+    }
+  }
+}
+
+/** Per-band quantiser steps for pixel-domain step `step`: Δ_b = step / √gain_b. */
+function bandSteps(bands: Band[], step: number): Float64Array {
+  return Float64Array.from(bands, (b) => step / Math.sqrt(b.gain));
+}
+
+function bandIndexMap(width: number, height: number, bands: Band[]): Uint8Array {
+  const map = new Uint8Array(width * height);
+  bands.forEach((b, i) => {
+    for (let y = 0; y < b.h; y++) map.fill(i, (b.y0 + y) * width + b.x0, (b.y0 + y) * width + b.x0 + b.w);
+  });
+  return map;
+}
+
+export interface PlaneCode {
+  /** Range-coded quantised coefficients. */
+  bytes: Uint8Array;
+  /** The plane exactly as the decoder will rebuild it. */
+  decoded: Float64Array;
+  /** Number of non-zero quantised coefficients. */
+  nonZero: number;
+}
+
+/**
+ * Code a plane at pixel-domain quantiser step `step` (> 0). The decoder needs width, height and step.
+ * @example const { bytes, decoded } = encodePlane(plane, 256, 256, 2.5);
+ */
+export function encodePlane(
+  plane: ArrayLike<number>,
+  width: number,
+  height: number,
+  step: number,
+): PlaneCode {
+  if (!(step > 0) || !Number.isFinite(step))
+    throw new RangeError(`plane quantiser step must be > 0, got ${step}`);
+  const n = width * height;
+  const x = Float64Array.from(plane as ArrayLike<number>);
+  if (x.length !== n) throw new RangeError(`plane has ${x.length} samples; expected ${width}×${height}`);
+  const levels = levelsFor(width, height);
+  forwardWavelet(x, width, height, levels);
+  const bands = bandsFor(width, height, levels);
+  const steps = bandSteps(bands, step);
+  const map = bandIndexMap(width, height, bands);
+  const q = new Int32Array(n);
+  let nonZero = 0;
+  for (let i = 0; i < n; i++) {
+    const bi = map[i];
+    const rho = bands[bi].orient === 0 ? 0.5 : DEAD_ZONE_RHO;
+    const a = Math.floor(Math.abs(x[i]) / steps[bi] + rho);
+    q[i] = x[i] < 0 ? -a : a;
+    if (a) nonZero++;
+  }
+  const enc = new RangeEncoder();
+  const zm = bitModels(ZERO_CTX);
+  const mm = bitModels(MAG_CTX * UINT_MODELS);
+  const sm = bitModels(SIGN_CTX);
+  // One leading flag: an all-zero plane costs a few bytes.
+  const flag = bitModels(1);
+  enc.bit(flag, 0, nonZero ? 1 : 0);
+  if (nonZero)
+    walk(q, width, bands, (idx, zctx, mctx, sctx) => {
+      const v = q[idx];
+      enc.bit(zm, zctx, v === 0 ? 0 : 1);
+      if (v !== 0) {
+        enc.bit(sm, sctx, v < 0 ? 1 : 0);
+        encodeUInt(enc, mm, mctx * UINT_MODELS, Math.abs(v) - 1);
+      }
+    });
+  const bytes = enc.finish();
+  return { bytes, decoded: decodePlane(bytes, width, height, step), nonZero };
+}
+
+/**
+ * Rebuild a plane coded by {@link encodePlane}.
+ * @throws RangeError if the bytes run out (the caller turns this into a FormatError naming the file).
+ */
+export function decodePlane(bytes: Uint8Array, width: number, height: number, step: number): Float64Array {
+  const n = width * height;
+  const levels = levelsFor(width, height);
+  const bands = bandsFor(width, height, levels);
+  const steps = bandSteps(bands, step);
+  const map = bandIndexMap(width, height, bands);
+  const q = new Int32Array(n);
+  const dec = new RangeDecoder(bytes);
+  const zm = bitModels(ZERO_CTX);
+  const mm = bitModels(MAG_CTX * UINT_MODELS);
+  const sm = bitModels(SIGN_CTX);
+  const flag = bitModels(1);
+  const x = new Float64Array(n);
+  if (dec.bit(flag, 0) === 0) return x;
+  walk(q, width, bands, (idx, zctx, mctx, sctx) => {
+    if (dec.bit(zm, zctx) === 0) return;
+    const neg = dec.bit(sm, sctx);
+    const a = decodeUInt(dec, mm, mctx * UINT_MODELS) + 1;
+    q[idx] = neg ? -a : a;
+  });
+  if (dec.overrun) throw new RangeError('plane data is truncated');
+  for (let i = 0; i < n; i++) x[i] = q[i] * steps[map[i]];
+  inverseWavelet(x, width, height, levels);
+  return x;
+}

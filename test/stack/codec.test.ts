@@ -1,0 +1,178 @@
+// Stack layout: plane coder, joint encode/decode, random access, damaged files, rate control.
+import { describe, expect, it } from 'vitest';
+import { FormatError } from '../../src-main/contract';
+import { readContainer } from '../../src-main/engine/codec/container';
+import { fitStack } from '../../src-main/engine/codec/stack-budget';
+import {
+  decodeStackFrame,
+  encodeStack,
+  framePsnr,
+  isStackContainer,
+  openStack,
+  prepareStack,
+  type StackInput,
+} from '../../src-main/engine/codec/stack-codec';
+import {
+  decodePlane,
+  encodePlane,
+  forwardWavelet,
+  inverseWavelet,
+} from '../../src-main/engine/codec/stack-plane';
+import { bitModels, RangeDecoder, RangeEncoder } from '../../src-main/engine/codec/stack-range-coder';
+import { driftingSpecimen, formPages, phantomSlices, seededRandom } from '../../src-main/engine/stack';
+
+const asInput = (s: {
+  width: number;
+  height: number;
+  bitDepth: 8 | 16;
+  frames: Float32Array[];
+}): StackInput => ({
+  width: s.width,
+  height: s.height,
+  bitDepth: s.bitDepth,
+  channels: 1,
+  frames: s.frames.map((p, j) => ({ planes: [p], name: `frame-${j}.png` })),
+});
+
+describe('plane coder', () => {
+  it('the 9/7 lifting transform is perfectly invertible on odd sizes (biorthogonality, Cohen–Daubechies–Feauveau 1992)', () => {
+    const rnd = seededRandom(3);
+    const x = Float64Array.from({ length: 37 * 23 }, () => rnd() * 255);
+    const y = Float64Array.from(x);
+    forwardWavelet(y, 37, 23, 3);
+    inverseWavelet(y, 37, 23, 3);
+    for (let i = 0; i < x.length; i++) expect(Math.abs(x[i] - y[i])).toBeLessThan(1e-9);
+  });
+
+  it('the 9/7 low-pass keeps a constant signal in the low band only (vanishing moments of the analysis high-pass)', () => {
+    const x = new Float64Array(64 * 64).fill(100);
+    forwardWavelet(x, 64, 64, 1);
+    // High bands of a constant are zero (the 9/7 high-pass annihilates polynomials of degree < 4).
+    for (let y = 0; y < 64; y++)
+      for (let c = 0; c < 64; c++) if (y >= 32 || c >= 32) expect(Math.abs(x[y * 64 + c])).toBeLessThan(1e-9);
+  });
+
+  it('the range coder round-trips a skewed bit string and compresses it below its entropy + 1%', () => {
+    const rnd = seededRandom(9);
+    const bits = Array.from({ length: 20000 }, () => (rnd() < 0.1 ? 1 : 0));
+    const enc = new RangeEncoder();
+    const m = bitModels(1);
+    for (const b of bits) enc.bit(m, 0, b);
+    const bytes = enc.finish();
+    const dm = bitModels(1);
+    const dec = new RangeDecoder(bytes);
+    expect(bits.every((b) => dec.bit(dm, 0) === b)).toBe(true);
+    // Shannon entropy of a Bernoulli(0.1) source: H = 0.469 bits (definition); an adaptive model pays a little more.
+    const h = -(0.1 * Math.log2(0.1) + 0.9 * Math.log2(0.9));
+    expect((bytes.length * 8) / bits.length).toBeLessThan(h * 1.05);
+  });
+
+  it('quantisation error at a fine step is close to the uniform-quantiser Δ²/12 (common practice)', () => {
+    const s = phantomSlices({ width: 64, height: 64, frames: 1, noise: 4 });
+    const x = s.frames[0];
+    const { decoded, bytes } = encodePlane(x, 64, 64, 1);
+    let e = 0;
+    for (let i = 0; i < x.length; i++) e += (x[i] - decoded[i]) ** 2;
+    const ratio = e / x.length / (1 / 12);
+    expect(ratio).toBeGreaterThan(0.5);
+    expect(ratio).toBeLessThan(1.6);
+    expect(decodePlane(bytes, 64, 64, 1)).toEqual(decoded);
+  });
+});
+
+describe('stack layout encode / decode', () => {
+  const series = driftingSpecimen({ width: 48, height: 40, frames: 16, seed: 5, noise: 2 });
+  const input = asInput(series);
+  const prep = prepareStack(input);
+  const enc = encodeStack(prep, { step: 3 });
+
+  it('writes a container whose header says layout "stack" and keeps the per-frame names and hashes', () => {
+    expect(isStackContainer(enc.bytes)).toBe(true);
+    const r = openStack(enc.bytes, 'series.rkf');
+    expect(r.header.frameCount).toBe(16);
+    expect(r.header.frameTable[7].name).toBe('frame-7.png');
+    expect(r.header.spectrum[0].length).toBe(16);
+  });
+
+  it('random-access decode of one frame equals the same frame of a full decode, bit for bit, and reads no other frame', () => {
+    for (const j of [0, 7, 15]) {
+      const one = openStack(enc.bytes, 'series.rkf');
+      const f = one.frame(j);
+      expect([...one.touched].filter((t) => t.startsWith('SRES') && t !== `SRES#${j}`)).toEqual([]);
+      const all = openStack(enc.bytes, 'series.rkf');
+      const frames = Array.from({ length: 16 }, (_, i) => all.frame(i));
+      expect(Buffer.from(f[0].buffer).equals(Buffer.from(frames[j][0].buffer))).toBe(true);
+      expect(Buffer.from(f[0].buffer).equals(Buffer.from(enc.decoded[j][0].buffer))).toBe(true);
+    }
+  });
+
+  it('the encoder’s reported decode is what the decoder rebuilds (so its PSNR figures are honest)', () => {
+    const psnr = framePsnr(
+      input,
+      Array.from({ length: 16 }, (_, j) => decodeStackFrame(enc.bytes, j)),
+    );
+    expect(psnr).toEqual(framePsnr(input, enc.decoded));
+    expect(Math.min(...psnr)).toBeGreaterThan(35);
+  });
+
+  it('a finer step never gives a worse series (PSNR non-decreasing as Δ falls)', () => {
+    const p = [12, 6, 3, 1.5].map((step) => {
+      const ps = framePsnr(input, encodeStack(prep, { step }).decoded);
+      return ps.reduce((a, b) => a + b) / ps.length;
+    });
+    for (let i = 1; i < p.length; i++) expect(p[i]).toBeGreaterThan(p[i - 1] - 0.05);
+  });
+
+  it('refuses a damaged or truncated stack file with a FormatError naming the file', () => {
+    const bad = enc.bytes.slice();
+    bad[Math.floor(bad.length / 2)] ^= 0xff;
+    expect(() => openStack(bad, 'damaged.rkf').frame(3)).toThrow(FormatError);
+    expect(() => {
+      const r = openStack(bad, 'damaged.rkf');
+      for (let j = 0; j < 16; j++) r.frame(j);
+    }).toThrow(/damaged\.rkf: .*CRC-32/);
+    expect(() => openStack(enc.bytes.subarray(0, enc.bytes.length - 40), 'cut.rkf')).toThrow(
+      /cut\.rkf: .*truncated/,
+    );
+    expect(() => openStack(enc.bytes, 's.rkf').frame(16)).toThrow(
+      /s\.rkf: has 16 frames \(0–15\); frame 16 does not exist/,
+    );
+    // All chunks carry valid CRCs in an intact file (container check of every chunk).
+    expect(() => readContainer(enc.bytes, 'ok.rkf', true)).not.toThrow();
+  });
+
+  it('colour and 16-bit series round-trip through the same layout', () => {
+    const base = phantomSlices({ width: 32, height: 24, frames: 8, bitDepth: 16, noise: 0 });
+    const rgb: StackInput = {
+      width: 32,
+      height: 24,
+      bitDepth: 16,
+      channels: 3,
+      frames: base.frames.map((p) => ({ planes: [p, p.map((v) => v * 0.8), p.map((v) => 65535 - v)] })),
+    };
+    const e = encodeStack(prepareStack(rgb), { step: 20 });
+    const f = openStack(e.bytes, 'rgb.rkf').frame(5);
+    expect(f.length).toBe(3);
+    expect(Math.min(...framePsnr(rgb, e.decoded))).toBeGreaterThan(50);
+    expect(Math.max(...f[2])).toBeLessThanOrEqual(65535);
+  });
+});
+
+describe('stack rate control', () => {
+  it('meets a byte budget for the whole series (file bytes ≤ budget)', () => {
+    const s = formPages({ width: 64, height: 80, frames: 12, seed: 2 });
+    const prep = prepareStack(asInput(s));
+    const budget = Math.floor((0.5 * 64 * 80 * 12) / 8);
+    const fit = fitStack(prep, { maxBytes: budget });
+    expect(fit.encoded.bytes.length).toBeLessThanOrEqual(budget);
+    expect(fit.encoded.bytes.length).toBeGreaterThan(0.8 * budget);
+  });
+
+  it('meets a per-frame PSNR floor on the worst frame', () => {
+    const s = driftingSpecimen({ width: 48, height: 48, frames: 12, seed: 8, noise: 1 });
+    const prep = prepareStack(asInput(s));
+    const fit = fitStack(prep, { minPsnr: 40 });
+    expect(Math.min(...fit.psnr)).toBeGreaterThanOrEqual(40);
+    expect(Math.min(...framePsnr(prep.input, fit.encoded.decoded))).toBeGreaterThanOrEqual(40);
+  });
+});
