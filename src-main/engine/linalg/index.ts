@@ -23,3 +23,10 @@ export {
   type Workspace,
   wasmBackend,
 } from './workspace';
+export {
+  adaptiveRandomizedSvd,
+  type AdaptiveSvdOptions,
+  type AdaptiveSvdResult,
+  HMT_ESTIMATE_FACTOR,
+  DEFAULT_PROBES,
+} from './adaptive-svd';
