@@ -224,6 +224,17 @@ describe('singularValues on the Gram route (short side > 256)', () => {
   });
 });
 
+describe('singularValues, rank-deficient on the Gram route', () => {
+  it('300×280 of rank 100: top 100 within the bound, the other 180 below √(nε)·σ₁ (stated accuracy in TSDoc)', () => {
+    const sigma = Array.from({ length: 100 }, (_, i) => 10 * 0.95 ** i);
+    const s = singularValues(withSpectrum(300, 280, sigma, 31));
+    sigma.forEach((v, i) =>
+      expect(Math.abs(s[i] - v)).toBeLessThan((280 * 2.2e-16 * sigma[0] ** 2) / v + 1e-13 * sigma[0]),
+    );
+    for (let i = 100; i < 280; i++) expect(s[i]).toBeLessThan(Math.sqrt(280 * 2.2e-16) * sigma[0]);
+  });
+});
+
 describe('adaptiveRandomizedSvd (HMT 2011 §4.3, eq. 4.3)', () => {
   it('reaches the tolerance: true ‖A−A_j‖₂ ≤ tol ≤ errorEstimate bound, and j ≥ #{σ > tol}', () => {
     const sigma = decay(100, 0.9);

@@ -9,9 +9,9 @@
  *   ‖E‖₂ ≤ 10·√(2/π)·maxᵢ ‖Eω⁽ⁱ⁾‖ with probability at least 1 − 10⁻ʳ.
  *   We apply it to E = A − U_j·diag(s_j)·V_jᵀ directly, for every candidate rank j at once.
  */
-import { matrix, type Matrix, type SvdResult } from './matrix';
-import { checkRank, type RandomizedSvdOptions, randomizedSvd } from './randomized-svd';
+import { type Matrix, matrix, type SvdResult } from './matrix';
 import { DEFAULT_SEED, Rng } from './random';
+import { checkRank, type RandomizedSvdOptions, randomizedSvd } from './randomized-svd';
 
 /** HMT eq. (4.3): the factor 10·√(2/π) between the largest probe norm and the bound. */
 export const HMT_ESTIMATE_FACTOR = 10 * Math.sqrt(2 / Math.PI);
@@ -45,7 +45,11 @@ export interface AdaptiveSvdResult extends SvdResult {
  * @throws RangeError when tol is negative or not finite, or A has NaN/infinite entries.
  * @example const r = adaptiveRandomizedSvd(plane, 0.01 * sigma1); // r.rank, r.errorEstimate
  */
-export function adaptiveRandomizedSvd(a: Matrix, tol: number, opts: AdaptiveSvdOptions = {}): AdaptiveSvdResult {
+export function adaptiveRandomizedSvd(
+  a: Matrix,
+  tol: number,
+  opts: AdaptiveSvdOptions = {},
+): AdaptiveSvdResult {
   if (!(tol >= 0) || !Number.isFinite(tol))
     throw new RangeError(`adaptiveRandomizedSvd: expected a finite number ≥ 0 for tol but received ${tol}`);
   const m = a.rows;
@@ -55,7 +59,9 @@ export function adaptiveRandomizedSvd(a: Matrix, tol: number, opts: AdaptiveSvdO
   checkRank(a, maxRank, 'adaptiveRandomizedSvd (maxRank)');
   const r = opts.probes ?? DEFAULT_PROBES;
   if (!Number.isInteger(r) || r < 1 || r > 50)
-    throw new RangeError(`adaptiveRandomizedSvd: expected integer between 1 and 50 for probes but received ${r}`);
+    throw new RangeError(
+      `adaptiveRandomizedSvd: expected integer between 1 and 50 for probes but received ${r}`,
+    );
   // Probe block Ω (n×r) and AΩ (m×r), computed once in f64.
   const rng = new Rng((opts.seed ?? DEFAULT_SEED) ^ 0x9e3779b9);
   const Om = new Float64Array(n * r);
@@ -68,7 +74,8 @@ export function adaptiveRandomizedSvd(a: Matrix, tol: number, opts: AdaptiveSvdO
       for (let c = 0; c < r; c++) AOm[i * r + c] += v * Om[p * r + c];
     }
   for (let i = 0; i < m * r; i++)
-    if (!Number.isFinite(AOm[i])) throw new RangeError('adaptiveRandomizedSvd: matrix has NaN or infinite entries');
+    if (!Number.isFinite(AOm[i]))
+      throw new RangeError('adaptiveRandomizedSvd: matrix has NaN or infinite entries');
   let k = Math.min(opts.initialRank ?? DEFAULT_INITIAL_RANK, maxRank);
   for (;;) {
     const res = randomizedSvd(a, k, opts);
@@ -84,7 +91,14 @@ export function adaptiveRandomizedSvd(a: Matrix, tol: number, opts: AdaptiveSvdO
 }
 
 /** est[j] = 10√(2/π)·maxᵢ‖(A − U_j S_j V_jᵀ)ωᵢ‖ for j = 0…k. */
-function estimates(res: SvdResult, Om: Float64Array, AOm: Float64Array, m: number, n: number, r: number): Float64Array {
+function estimates(
+  res: SvdResult,
+  Om: Float64Array,
+  AOm: Float64Array,
+  m: number,
+  n: number,
+  r: number,
+): Float64Array {
   const k = res.s.length;
   const Vt = new Float64Array(k * r); // s_t·(v_tᵀ ω_c)
   for (let p = 0; p < n; p++)

@@ -1,5 +1,12 @@
 /** Public surface of the linear-algebra engine. Pure TypeScript over typed arrays (plus WebAssembly kernels). */
 
+export {
+  type AdaptiveSvdOptions,
+  type AdaptiveSvdResult,
+  adaptiveRandomizedSvd,
+  DEFAULT_PROBES,
+  HMT_ESTIMATE_FACTOR,
+} from './adaptive-svd';
 export { jacobiSingularValues, jacobiSvd } from './jacobi-svd';
 export * from './matrix';
 export { matmul, matmulTransA, matmulTransB } from './products';
@@ -23,10 +30,3 @@ export {
   type Workspace,
   wasmBackend,
 } from './workspace';
-export {
-  adaptiveRandomizedSvd,
-  type AdaptiveSvdOptions,
-  type AdaptiveSvdResult,
-  HMT_ESTIMATE_FACTOR,
-  DEFAULT_PROBES,
-} from './adaptive-svd';

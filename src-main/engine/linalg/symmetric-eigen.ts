@@ -95,13 +95,19 @@ export function tridiagonalEigenvalues(dIn: Float64Array, eIn: Float64Array): Fl
   const d = Float64Array.from(dIn);
   const E = new Float64Array(n);
   E.set(eIn.subarray(0, Math.max(0, n - 1)));
+  // Deflate when |e| ≤ ε·(|d_m|+|d_{m+1}|) (relative, tql1) or |e| ≤ ε·‖T‖ (absolute): the latter changes
+  // eigenvalues by ≤ ε‖T‖ (Weyl) and is needed when d ≈ 0 (rank-deficient Gram matrices).
+  let normT = 0;
+  for (let i = 0; i < n; i++)
+    normT = Math.max(normT, Math.abs(d[i]) + Math.abs(E[i]) + (i > 0 ? Math.abs(E[i - 1]) : 0));
+  const absTol = EPS * normT;
   for (let l = 0; l < n; l++) {
     let iter = 0;
     let m: number;
     do {
       for (m = l; m < n - 1; m++) {
         const dd = Math.abs(d[m]) + Math.abs(d[m + 1]);
-        if (Math.abs(E[m]) <= EPS * dd) break;
+        if (Math.abs(E[m]) <= EPS * dd || Math.abs(E[m]) <= absTol) break;
       }
       if (m !== l) {
         if (iter++ === MAX_QL_ITERS) throw new Error('tridiagonalEigenvalues: QL iteration did not converge');

@@ -1,0 +1,71 @@
+// The worker-thread backend (src-main/node/parallel) against the single-thread engine.
+// Uses the built worker dist/workers/linalg.js (run `npm run build` first, as `npm test` does).
+// Reference: the single-thread WebAssembly path of the same engine, itself checked against LAPACK and
+// ml-matrix in reference-svd.test.ts / properties.test.ts. Style rule (STYLE.md): one worker and two
+// workers give bit-identical results.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import {
+  initEngine,
+  matmul,
+  matmulTransA,
+  randomizedSvd,
+  singularValues,
+} from '../../src-main/engine/linalg';
+import { LinalgPool } from '../../src-main/node/parallel/pool';
+import { randomMatrix, withSpectrum } from './helpers';
+
+let one: LinalgPool;
+let two: LinalgPool;
+
+beforeAll(async () => {
+  await initEngine();
+  one = await LinalgPool.create({ workers: 1 });
+  two = await LinalgPool.create({ workers: 2 });
+});
+
+afterAll(async () => {
+  await one?.close();
+  await two?.close();
+});
+
+describe('LinalgPool (2 worker_threads over a shared WebAssembly.Memory)', () => {
+  it('products A·B and Aᵀ·B are bit-identical to the single-thread kernel, f32 and f64, odd sizes', () => {
+    for (const f32 of [true, false]) {
+      const A = randomMatrix(301, 257, 1, f32);
+      const B = randomMatrix(257, 45, 2, f32);
+      const C = randomMatrix(301, 45, 3, f32);
+      const ref = matmul(A, B);
+      const refT = matmulTransA(A, C);
+      for (const pool of [one, two]) {
+        expect(Array.from(matmul(A, B, undefined, pool).data)).toEqual(Array.from(ref.data));
+        expect(Array.from(matmulTransA(A, C, undefined, pool).data)).toEqual(Array.from(refT.data));
+      }
+    }
+  });
+
+  it('randomizedSvd and singularValues through the pool equal the single-thread results exactly', () => {
+    const A = withSpectrum(
+      400,
+      300,
+      Array.from({ length: 100 }, (_, i) => 50 * 0.93 ** i),
+      2,
+      true,
+    );
+    const ref = randomizedSvd(A, 20, { seed: 9 });
+    const viaTwo = randomizedSvd(A, 20, { seed: 9, backend: two });
+    const viaOne = randomizedSvd(A, 20, { seed: 9, backend: one });
+    expect(Array.from(viaTwo.s)).toEqual(Array.from(ref.s));
+    expect(Array.from(viaOne.s)).toEqual(Array.from(ref.s));
+    expect(Array.from(viaTwo.U.data)).toEqual(Array.from(ref.U.data));
+    expect(Array.from(singularValues(A, two))).toEqual(Array.from(singularValues(A)));
+  });
+
+  it('refuses a second concurrent workspace and a bad worker count with clear messages', async () => {
+    const ws = two.workspace(1024);
+    expect(() => two.workspace(1024)).toThrow('one computation at a time');
+    ws.release();
+    await expect(LinalgPool.create({ workers: 0 })).rejects.toThrow(
+      'expected integer between 1 and 16 for workers but received 0',
+    );
+  });
+});
