@@ -4,8 +4,8 @@
  * The carry-less byte-wise range coder with a cache byte follows the structure published with the
  * LZMA SDK (I. Pavlov, public domain, "RangeEnc_ShiftLow"; from memory) and G. N. N. Martin, "Range
  * encoding: an algorithm for removing redundancy from a digitised message", Video & Data Recording
- * Conference, Southampton, 1979. Probabilities are 15-bit and adapt at two rates whose average is used
- * (a common practice in context-mixing coders). Integers are binarised as a zero flag, a sign and a
+ * Conference, Southampton, 1979. Probabilities are 15-bit; each context averages a fast and a slow
+ * adaptive estimate (windows of 16 and 128 observations), both starting as frequency counts (common practice). Integers are binarised as a zero flag, a sign and a
  * unary-then-Exp-Golomb magnitude, each bin with its own adaptive context, in the spirit of CABAC
  * (Marpe, Schwarz, Wiegand, IEEE TCSVT 13(7), 2003).
  */
@@ -17,22 +17,32 @@ const TOP = 2 ** 24;
 /** Largest magnitude the integer coder accepts; bigger values mean a corrupt stream. */
 export const MAX_MAGNITUDE = 2 ** 30;
 
-/** One adaptive binary context: two estimators (fast and slow) of P(bit = 0). */
+/**
+ * Adaptation: two estimators of P(bit = 0), a fast one (window ≈ 16 observations) and a slow one
+ * (≈ 128), averaged. Both start as a running frequency count (rate 1/(n + 1.5)) so fresh contexts
+ * learn quickly.
+ */
+export const FAST_WINDOW = 16;
+export const SLOW_WINDOW = 128;
+const RECIP = Uint32Array.from({ length: SLOW_WINDOW }, (_, n) => Math.round(65536 / (n + 1.5)));
+
+/** One adaptive binary context. */
 export class BitModel {
   fast = PROB_INIT;
   slow = PROB_INIT;
+  n = 0;
   p(): number {
     const v = (this.fast + this.slow) >>> 1;
     return v < 32 ? 32 : v > PROB_ONE - 32 ? PROB_ONE - 32 : v;
   }
   update(bit: number): void {
-    if (bit) {
-      this.fast -= this.fast >> 4;
-      this.slow -= this.slow >> 7;
-    } else {
-      this.fast += (PROB_ONE - this.fast) >> 4;
-      this.slow += (PROB_ONE - this.slow) >> 7;
-    }
+    const n = this.n;
+    const rs = RECIP[n];
+    const rf = n < FAST_WINDOW ? rs : RECIP[FAST_WINDOW - 1];
+    if (n < SLOW_WINDOW - 1) this.n = n + 1;
+    const target = bit ? 0 : PROB_ONE;
+    this.fast += Math.trunc(((target - this.fast) * rf) / 65536);
+    this.slow += Math.trunc(((target - this.slow) * rs) / 65536);
   }
 }
 

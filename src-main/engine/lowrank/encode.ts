@@ -173,7 +173,7 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
         tile,
         meanRemoval: tile !== 0,
         meanStep,
-        maxRank: Math.min(width, height),
+        maxRank: tile === 0 ? wholePlaneRank(opts.budget, byteBudget, width, height) : undefined,
       });
     });
     const inputs: PlaneInput[] = factors.map((f, k) => ({
@@ -247,6 +247,14 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
   };
 }
 
+/** Components a whole-plane SVD needs for a budget (generous: ~1 bit per stored entry). */
+function wholePlaneRank(b: Budget, bytes: number | undefined, width: number, height: number): number {
+  const side = Math.min(width, height);
+  if (b.kind === 'rank') return Math.min(side, b.rank);
+  if (bytes !== undefined) return Math.min(side, Math.ceil((8 * bytes) / (width + height)) + 16);
+  return Math.min(side, Math.max(64, Math.ceil(side / 3)));
+}
+
 function sameSamples(a: Float32Array[], b: Float32Array[]): boolean {
   if (a.length !== b.length) return false;
   for (let c = 0; c < a.length; c++)
@@ -301,8 +309,10 @@ function solveFor(
   if (budget.kind === 'psnr') {
     let dmax = count * max * max * 10 ** (-budget.db / 10);
     let found: Plan | undefined;
+    let around: number | undefined;
     for (let i = 0; i < 6; i++) {
-      const plan = solveError(inputs, dmax, max);
+      const plan = solveError(inputs, dmax, max, around);
+      around = plan.stepIndex;
       const bytes = build(plan.planes);
       if (meets(bytes)) {
         plan.bytes = bytes.length;

@@ -228,6 +228,8 @@ export function stepGrid(maxValue: number): number[] {
 export interface Plan {
   planes: QuantPlane[];
   delta: number;
+  /** Index of Δ in stepGrid (quality-floor search). */
+  stepIndex?: number;
   /** Real size reported by the measure callback (bytes), when measured. */
   bytes: number;
   estimatedError: number;
@@ -283,12 +285,9 @@ export function solveBytes(
   };
   const k0 = coarse[0].k;
   refineAt(k0);
-  // Pass 2: with the measured ratio, look at the neighbours of the best coarse step.
-  const fine = scan(
-    [k0 - 2, k0 - 1, k0 + 1, k0 + 2].filter((k) => k >= 0 && k < grid.length),
-    ratio,
-  ).sort((a, b) => a.err - b.err);
-  for (const f of fine.slice(0, 2)) refineAt(f.k);
+  // Pass 2: with the measured ratio, the best neighbour of the best coarse step (half an octave away).
+  const fine = scan([k0 - 1, k0 + 1].filter((k) => k >= 0 && k < grid.length), ratio).sort((a, b) => a.err - b.err);
+  if (fine.length) refineAt(fine[0].k);
   if (!best) {
     const c = empty;
     best = {
@@ -300,6 +299,9 @@ export function solveBytes(
   }
   return best;
 }
+
+/** A probe within 0.4% under the budget ends the size search (one more component rarely fits). */
+const CLOSE_ENOUGH = 0.996;
 
 /** Largest greedy prefix whose real size fits, by secant steps on the size model and bisection. */
 function refine(
@@ -323,6 +325,7 @@ function refine(
     if (s <= budget) {
       lo = guess;
       loBytes = s;
+      if (s >= budget * CLOSE_ENOUGH) break;
     } else hi = guess;
     if (c.cumCost[guess] > 0 && s > overhead) ratio = ((s - overhead) * 8) / c.cumCost[guess];
     // Aim a little under the budget so the next probe is likely to fit.
@@ -405,22 +408,35 @@ export function solveRank(
 }
 
 /** Smallest estimated size whose estimated error is ≤ dmax, over the step grid. */
-export function solveError(inputs: PlaneInput[], dmax: number, maxValue: number): Plan {
-  let best: { c: Candidate; P: number; cost: number } | undefined;
-  for (const delta of stepGrid(maxValue)) {
-    const c = buildCandidate(inputs, delta);
+export function solveError(inputs: PlaneInput[], dmax: number, maxValue: number, around?: number): Plan {
+  const grid = stepGrid(maxValue);
+  let best: { c: Candidate; P: number; cost: number; k: number } | undefined;
+  const tryK = (k: number) => {
+    if (k < 0 || k >= grid.length) return;
+    const c = buildCandidate(inputs, grid[k]);
     const P = prefixForError(c, dmax);
-    if (estimatedError(c, P) > dmax) continue;
-    if (!best || c.cumCost[P] < best.cost) best = { c, P, cost: c.cumCost[P] };
+    if (estimatedError(c, P) > dmax) return;
+    if (!best || c.cumCost[P] < best.cost) best = { c, P, cost: c.cumCost[P], k };
+  };
+  // Coarse scan (whole octaves), or a neighbourhood of a previous answer, then the half-octave neighbours.
+  const ks = around === undefined ? grid.map((_, k) => k).filter((k) => k % 2 === 0) : [around - 2, around, around + 2];
+  for (const k of ks) tryK(k);
+  const found = best as { k: number } | undefined;
+  if (found) {
+    const k0 = found.k;
+    tryK(k0 - 1);
+    tryK(k0 + 1);
   }
   if (!best) {
-    const c = buildCandidate(inputs, stepGrid(maxValue)[0]);
-    best = { c, P: c.order.length, cost: c.cumCost[c.order.length] };
+    const c = buildCandidate(inputs, grid[0]);
+    best = { c, P: c.order.length, cost: c.cumCost[c.order.length], k: 0 };
   }
+  const b = best as { c: Candidate; P: number; k: number };
   return {
-    planes: quantPlanes(inputs, best.c, prefixRanks(best.c, best.P)),
-    delta: best.c.delta,
+    planes: quantPlanes(inputs, b.c, prefixRanks(b.c, b.P)),
+    delta: b.c.delta,
     bytes: 0,
-    estimatedError: estimatedError(best.c, best.P),
+    estimatedError: estimatedError(b.c, b.P),
+    stepIndex: b.k,
   };
 }

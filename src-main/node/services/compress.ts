@@ -25,6 +25,7 @@ import {
   UsageError,
 } from '../../contract';
 import type { ByteCompressor, EntropyId } from '../../engine/codec/entropy';
+import { initEngine } from '../../engine/linalg';
 import { type EncodeResult, encodeScan } from '../../engine/lowrank/encode';
 import { psnrPlanes, ssimPlanes } from '../../engine/metrics';
 import { decodeImage } from '../image/decode';
@@ -115,6 +116,7 @@ export async function compressDecoded(
     if (hooks.signal?.aborted) throw new CancelledError(`compressing ${decoded.file}`);
   };
   check();
+  await initEngine();
   const result = encodeScan(decoded, {
     budget: options.budget,
     tile: options.tile,
