@@ -18,14 +18,24 @@ export function pagePixels(width: number, height: number, seed: number, channels
       const ruled = y % 12 === 0 ? 70 : 0;
       const ink = (x + 3 * y + seed) % 29 < 2 ? 90 : 0;
       const v = 220 - ruled - ink - 20 * Math.sin((x + seed) / 17) - 8 * rnd();
-      for (let c = 0; c < channels; c++) buf[(y * width + x) * channels + c] = Math.max(0, Math.min(255, v - c * 15));
+      for (let c = 0; c < channels; c++)
+        buf[(y * width + x) * channels + c] = Math.max(0, Math.min(255, v - c * 15));
     }
   return buf;
 }
 
-export async function writePage(file: string, width: number, height: number, seed: number, format: 'png' | 'tiff' = 'png', channels = 1) {
+export async function writePage(
+  file: string,
+  width: number,
+  height: number,
+  seed: number,
+  format: 'png' | 'tiff' = 'png',
+  channels = 1,
+) {
   await mkdir(dirname(file), { recursive: true });
-  const img = sharp(pagePixels(width, height, seed, channels), { raw: { width, height, channels: channels as 1 | 3 } });
+  const img = sharp(pagePixels(width, height, seed, channels), {
+    raw: { width, height, channels: channels as 1 | 3 },
+  });
   await (format === 'png' ? img.png() : img.tiff()).toFile(file);
 }
 

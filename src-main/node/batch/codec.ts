@@ -5,7 +5,10 @@
  */
 import { createHash } from 'node:crypto';
 import { createReadStream } from 'node:fs';
+import { mkdir } from 'node:fs/promises';
+import { dirname } from 'node:path';
 import { type CompressOptions, type CompressReport, InputError, RankfoldError } from '../../contract';
+import { describeWriteError } from '../io/atomic';
 
 export type CompressFile = (
   input: string,
@@ -95,4 +98,30 @@ export function hashFile(file: string): Promise<string> {
       else reject(new InputError(file, `cannot be read (${code ?? err.message})`));
     });
   });
+}
+
+/**
+ * Create the output's folder. A recursive mkdir reports ENOENT for any failure below an existing folder
+ * (a read-only file system, for one), so on failure each level is made alone to get the real reason.
+ * @throws OutputError naming the output and the reason.
+ */
+export async function makeOutputFolder(output: string): Promise<void> {
+  const dir = dirname(output);
+  try {
+    await mkdir(dir, { recursive: true });
+    return;
+  } catch (err) {
+    const chain: string[] = [];
+    for (let d = dir; dirname(d) !== d; d = dirname(d)) chain.unshift(d);
+    for (const d of chain) {
+      try {
+        await mkdir(d);
+      } catch (e) {
+        const code = (e as NodeJS.ErrnoException).code;
+        if (code === 'EEXIST') continue;
+        throw describeWriteError(output, e);
+      }
+    }
+    throw describeWriteError(output, err);
+  }
 }

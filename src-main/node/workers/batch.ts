@@ -6,7 +6,7 @@
 import { parentPort } from 'node:worker_threads';
 import { toErrorPayload } from '../../contract';
 import { expandCheck } from '../batch/check';
-import { hashFile, loadCompressor } from '../batch/codec';
+import { hashFile, loadCompressor, makeOutputFolder } from '../batch/codec';
 import type { BatchJob, BatchJobResult } from '../batch/job';
 import { probeImage } from '../image/decode';
 
@@ -21,6 +21,7 @@ port.on('message', async (msg: { type: string; id: number; payload: BatchJob }) 
     const fileSha256 = await hashFile(payload.input);
     // Header check first: empty, non-image, unsupported depth and over-limit files fail here, fast and with one wording.
     await probeImage(payload.input, { page: payload.options.page, pixelLimit: payload.options.pixelLimit });
+    await makeOutputFolder(payload.output);
     const compressFile = await loadCompressor();
     const report = await compressFile(
       payload.input,

@@ -1,0 +1,356 @@
+// `rankfold batch` end to end, through the built CLI (dist/cli.js + dist/workers/batch.js; `npm test` builds
+// first), on real files in temp folders. Properties checked: inputs untouched, one row per input, clear
+// per-file errors, atomic outputs (no temp files left), resume after SIGKILL gives the same outputs,
+// 1 job and 2 jobs give byte-identical files, shards + merge cover every file once.
+import { type ChildProcess, spawn, spawnSync } from 'node:child_process';
+import { createHash } from 'node:crypto';
+import { existsSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { mkdir, mkdtemp, rm, writeFile } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import { join, relative } from 'node:path';
+import sharp from 'sharp';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { BatchRow } from '../../src-main/contract';
+import { repoRoot } from '../helpers/fixtures';
+import { floatTiff, put, writePage, writePage16 } from './images';
+
+const cli = join(repoRoot, 'bin', 'rankfold.mjs');
+const built =
+  existsSync(join(repoRoot, 'dist', 'cli.js')) && existsSync(join(repoRoot, 'dist', 'workers', 'batch.js'));
+const isRoot = process.getuid?.() === 0;
+// Small, fast settings: 32-pixel tiles at a fixed rank.
+const BUDGET = ['--rank', '6', '--tile', '32'];
+
+let root: string;
+
+function run(args: string[]) {
+  const r = spawnSync(process.execPath, [cli, 'batch', ...args], {
+    encoding: 'utf8',
+    env: { ...process.env, FORCE_COLOR: '0' },
+  });
+  return { code: r.status, stdout: r.stdout, stderr: r.stderr, signal: r.signal };
+}
+
+function jsonLines(stdout: string): Record<string, unknown>[] {
+  return stdout
+    .split('\n')
+    .filter((l) => l.trim())
+    .map((l) => JSON.parse(l));
+}
+
+function filesUnder(dir: string): string[] {
+  const out: string[] = [];
+  const visit = (d: string) => {
+    for (const e of readdirSync(d, { withFileTypes: true })) {
+      const p = join(d, e.name);
+      if (e.isDirectory()) visit(p);
+      else out.push(relative(dir, p).split('\\').join('/'));
+    }
+  };
+  if (existsSync(dir)) visit(dir);
+  return out.sort();
+}
+
+function hashTree(dir: string, filter: (rel: string) => boolean = () => true): Record<string, string> {
+  const out: Record<string, string> = {};
+  for (const f of filesUnder(dir).filter(filter))
+    out[f] = createHash('sha256')
+      .update(readFileSync(join(dir, f)))
+      .digest('hex');
+  return out;
+}
+
+const rkfOnly = (f: string) => f.endsWith('.rkf') && !f.split('/').pop()!.startsWith('.');
+
+function manifestRows(file: string): BatchRow[] {
+  return readFileSync(file, 'utf8')
+    .split('\n')
+    .filter((l) => l.trim())
+    .map((l) => JSON.parse(l));
+}
+
+async function goodSet(dir: string, count: number, w = 96, h = 64) {
+  for (let i = 0; i < count; i++)
+    await writePage(join(dir, `box-${i % 3}`, `page-${String(i).padStart(2, '0')}.png`), w, h, i + 1);
+}
+
+beforeAll(async () => {
+  root = await mkdtemp(join(tmpdir(), 'rankfold-batch-e2e-'));
+});
+afterAll(async () => {
+  await rm(root, { recursive: true, force: true });
+});
+
+describe.skipIf(!built)('rankfold batch (built CLI)', () => {
+  let mixedIn: string;
+  const deepDir = [
+    'Harrowgate County Survey Office',
+    'Ledgers 1901–1910',
+    'Band Ω',
+    'Fenwick Lab',
+    'gels',
+    'Gel №12 (ß)',
+  ];
+
+  beforeAll(async () => {
+    mixedIn = join(root, 'mixed-in');
+    await goodSet(mixedIn, 4);
+    await writePage(join(mixedIn, 'colour', 'map.tif'), 80, 60, 9, 'tiff', 3);
+    await writePage16(join(mixedIn, 'plates', 'plate-16bit.png'), 64, 48, 5);
+    await writePage(join(mixedIn, ...deepDir, 'lane 3 — 東.png'), 64, 48, 11);
+    // Two inputs that would share an output name.
+    await writePage(join(mixedIn, 'dup', 'sheet.png'), 64, 48, 21);
+    await writePage(join(mixedIn, 'dup', 'sheet.tif'), 64, 48, 22, 'tiff');
+    // Bad files.
+    await put(join(mixedIn, 'bad', 'empty.png'), '');
+    const png = await sharp(Buffer.alloc(96 * 64, 128), { raw: { width: 96, height: 64, channels: 1 } })
+      .png()
+      .toBuffer();
+    await put(join(mixedIn, 'bad', 'truncated.png'), png.subarray(0, Math.floor(png.length / 2)));
+    await put(
+      join(mixedIn, 'bad', 'corrupt.tif'),
+      Buffer.from('II*\0garbage that is not a TIFF directory at all'),
+    );
+    await put(join(mixedIn, 'bad', 'notes.txt'), 'Box 12 inventory, checked by the night shift.\n');
+    await put(join(mixedIn, 'bad', 'float32.tif'), floatTiff(16, 8));
+    await writePage(join(mixedIn, 'bad', 'oversize.png'), 200, 150, 3);
+  });
+
+  const PIXEL_LIMIT = ['--pixel-limit', '20000']; // 200×150 = 30000 is over; every good file is ≤ 96×64 = 6144
+
+  it('compresses good files, fails each bad file with a clear message, goes on, and leaves the inputs alone', () => {
+    const before = hashTree(mixedIn);
+    const out = join(root, 'mixed-out');
+    const r = run([mixedIn, '-o', out, ...BUDGET, ...PIXEL_LIMIT, '--jobs', '2', '--json', '--expand-check']);
+    expect(r.code, r.stderr).toBe(2);
+    expect(hashTree(mixedIn)).toEqual(before); // inputs byte-identical, and nothing added inside IN_DIR
+    const events = jsonLines(r.stdout);
+    expect(events[0].event).toBe('start');
+    expect(events.at(-1)!.event).toBe('end');
+    const files = events.filter((e) => e.event === 'file') as unknown as BatchRow[];
+    expect(files.map((f) => f.path).sort()).toEqual(Object.keys(before).sort());
+    const byPath = new Map(files.map((f) => [f.path, f]));
+    const msg = (p: string) => byPath.get(p)!.error?.message ?? '';
+    expect(msg('bad/empty.png')).toContain('is empty (0 bytes)');
+    expect(msg('bad/truncated.png')).toMatch(/truncated|cannot be decoded|not a readable image/);
+    expect(msg('bad/corrupt.tif')).toMatch(/not a readable image|not an image|cannot be decoded/);
+    expect(msg('bad/notes.txt')).toMatch(/not an image|not a readable image/);
+    expect(msg('bad/float32.tif')).toContain('unsupported sample format "float"');
+    expect(msg('bad/oversize.png')).toContain('over the pixel limit of 20000');
+    for (const p of Object.keys(before)) {
+      const row = byPath.get(p)!;
+      if (p.startsWith('bad/')) {
+        expect(row.status, p).toBe('failed');
+        expect(row.error!.message, p).toContain(p.split('/').pop()!); // the message names the file
+      } else {
+        expect(row.status, `${p}: ${row.error?.message}`).toBe('ok');
+        expect(row.check?.ok, p).toBe(true);
+        expect(row.sourceSha256).toMatch(/^[0-9a-f]{64}$/);
+        expect(row.fileSha256).toBe(before[p]);
+      }
+    }
+    // Outputs: one per good input, folders mirrored, collisions disambiguated, nothing partial.
+    const outs = filesUnder(out).filter(rkfOnly);
+    expect(outs).toContain(`${deepDir.join('/')}/lane 3 — 東.rkf`);
+    expect(outs).toContain('dup/sheet.png.rkf');
+    expect(outs).toContain('dup/sheet.tif.rkf');
+    expect(outs).toContain('plates/plate-16bit.rkf');
+    expect(outs).toHaveLength(Object.keys(before).filter((p) => !p.startsWith('bad/')).length);
+    expect(filesUnder(out).filter((f) => f.split('/').pop()!.startsWith('.rankfold-tmp-'))).toEqual([]);
+    // Manifest: one row per input, sorted; CSV with the same rows; report lists the failures.
+    const rows = manifestRows(join(out, 'rankfold-manifest.jsonl'));
+    expect(rows.map((x) => x.path)).toEqual(Object.keys(before).sort());
+    const csv = readFileSync(join(out, 'rankfold-manifest.csv'), 'utf8').trim().split('\r\n');
+    expect(csv).toHaveLength(rows.length + 1);
+    const html = readFileSync(join(out, 'rankfold-manifest.html'), 'utf8');
+    expect(html).toContain('Failures (6)');
+    expect(html).toContain('over the pixel limit of 20000');
+    expect(html).toMatch(/<img src="data:image\/png;base64,[A-Za-z0-9+/=]{100,}"/);
+    expect(html).not.toMatch(/(?:src|href)="https?:/);
+    expect(r.stderr).toContain('Failed files:');
+    expect(r.stderr).toContain('bad/notes.txt');
+  });
+
+  it('gives byte-identical .rkf files and the same manifest with 1 job and with 2 jobs', () => {
+    const o1 = join(root, 'jobs1');
+    const o2 = join(root, 'jobs2');
+    expect(run([mixedIn, '-o', o1, ...BUDGET, ...PIXEL_LIMIT, '--jobs', '1']).code).toBe(2);
+    expect(run([mixedIn, '-o', o2, ...BUDGET, ...PIXEL_LIMIT, '--jobs', '2']).code).toBe(2);
+    const h1 = hashTree(o1, rkfOnly);
+    expect(Object.keys(h1).length).toBeGreaterThan(5);
+    expect(hashTree(o2, rkfOnly)).toEqual(h1);
+    const strip = (rows: BatchRow[]) => rows.map(({ at, timeMs, outputAbs, ...rest }) => rest);
+    expect(strip(manifestRows(join(o2, 'rankfold-manifest.jsonl')))).toEqual(
+      strip(manifestRows(join(o1, 'rankfold-manifest.jsonl'))),
+    );
+  });
+
+  it('refuses an output folder inside the input folder (exit 1) and writes nothing', () => {
+    const before = hashTree(mixedIn);
+    const r = run([mixedIn, '-o', join(mixedIn, 'box-0', 'out'), ...BUDGET]);
+    expect(r.code).toBe(1);
+    expect(r.stderr).toContain('is inside the input folder');
+    expect(run([mixedIn, '-o', mixedIn, ...BUDGET]).code).toBe(1);
+    expect(hashTree(mixedIn)).toEqual(before);
+    expect(run([mixedIn, ...BUDGET]).stderr).toContain('give an output folder with -o');
+    expect(run([mixedIn, '-o', join(root, 'x'), '--rank', '5', '--bpp', '1']).stderr).toContain(
+      'give only one budget',
+    );
+  });
+
+  it('a SIGKILL in the middle, then --resume, ends with the same outputs as an uninterrupted run', async () => {
+    const inDir = join(root, 'kill-in');
+    await goodSet(inDir, 14, 160, 120);
+    const ref = join(root, 'kill-ref');
+    expect(run([inDir, '-o', ref, ...BUDGET, '--jobs', '1']).code).toBe(0);
+    const refHashes = hashTree(ref, rkfOnly);
+    expect(Object.keys(refHashes)).toHaveLength(14);
+
+    const out = join(root, 'kill-out');
+    const child: ChildProcess = spawn(
+      process.execPath,
+      [cli, 'batch', inDir, '-o', out, ...BUDGET, '--jobs', '1', '--json'],
+      {
+        stdio: ['ignore', 'pipe', 'pipe'],
+      },
+    );
+    let seen = 0;
+    const exit = new Promise<{ code: number | null; signal: NodeJS.Signals | null }>((resolve) =>
+      child.on('exit', (code, signal) => resolve({ code, signal })),
+    );
+    child.stdout!.on('data', (chunk: Buffer) => {
+      seen += (chunk.toString().match(/"event":"file"/g) ?? []).length;
+      if (seen >= 3) child.kill('SIGKILL');
+    });
+    const ended = await exit;
+    expect(ended.signal, 'the batch finished before the kill; make the folder bigger').toBe('SIGKILL');
+    const partial = hashTree(out, rkfOnly);
+    expect(Object.keys(partial).length).toBeGreaterThanOrEqual(3);
+    expect(Object.keys(partial).length).toBeLessThan(14);
+    // Whatever exists after the kill is complete: identical to the uninterrupted run's file.
+    for (const [f, h] of Object.entries(partial)) expect(h, f).toBe(refHashes[f]);
+    // A stale temp file of ours (swept) and one of another shard's outputs (left alone).
+    await mkdir(join(out, 'box-1'), { recursive: true });
+    await mkdir(join(out, 'box-2'), { recursive: true });
+    await writeFile(join(out, 'box-1', '.rankfold-tmp-0123456789ab-page-13.rkf'), 'partial');
+    await writeFile(join(out, 'box-2', '.rankfold-tmp-0123456789ab-not-ours.rkf'), 'other shard');
+
+    const r = run([inDir, '-o', out, ...BUDGET, '--jobs', '2', '--resume', '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    expect(hashTree(out, rkfOnly)).toEqual(refHashes);
+    const events = jsonLines(r.stdout).filter((e) => e.event === 'file');
+    expect(events).toHaveLength(14);
+    expect(events.filter((e) => e.status === 'kept').length).toBeGreaterThanOrEqual(3);
+    expect(existsSync(join(out, 'box-1', '.rankfold-tmp-0123456789ab-page-13.rkf'))).toBe(false);
+    expect(existsSync(join(out, 'box-2', '.rankfold-tmp-0123456789ab-not-ours.rkf'))).toBe(true);
+    const rows = manifestRows(join(out, 'rankfold-manifest.jsonl'));
+    expect(rows.map((x) => x.path)).toEqual(filesUnder(inDir));
+    expect(rows.every((x) => x.status === 'ok' || x.status === 'kept')).toBe(true);
+
+    // A changed source is compressed again, not kept.
+    await writePage(join(inDir, 'box-0', 'page-00.png'), 160, 120, 99);
+    const again = jsonLines(run([inDir, '-o', out, ...BUDGET, '--resume', '--json']).stdout).filter(
+      (e) => e.event === 'file',
+    );
+    expect(again.find((e) => e.path === 'box-0/page-00.png')!.status).toBe('ok');
+    expect(again.filter((e) => e.status === 'kept')).toHaveLength(13);
+    // Without --resume or --force an existing output is a per-file error, never overwritten.
+    const noResume = run([inDir, '-o', out, ...BUDGET, '--json']);
+    expect(noResume.code).toBe(2);
+    expect(noResume.stdout).toContain('already exists');
+  });
+
+  it('shards cover every file once and --merge joins their manifests', () => {
+    const out = join(root, 'shards-out');
+    for (let s = 0; s < 3; s++) {
+      const r = run([mixedIn, '-o', out, ...BUDGET, ...PIXEL_LIMIT, '--jobs', '1', '--shard', `${s}/3`]);
+      expect([0, 2]).toContain(r.code);
+    }
+    const shardRows = [0, 1, 2].flatMap((s) => manifestRows(join(out, `rankfold-manifest-${s}of3.jsonl`)));
+    const inputs = filesUnder(mixedIn);
+    expect(shardRows.map((x) => x.path).sort()).toEqual(inputs);
+    const m = run([
+      '--merge',
+      ...[0, 1, 2].map((s) => join(out, `rankfold-manifest-${s}of3.jsonl`)),
+      '-o',
+      join(root, 'merged'),
+    ]);
+    expect(m.code).toBe(2); // some inputs are bad files
+    const merged = manifestRows(join(root, 'merged', 'rankfold-manifest.jsonl'));
+    expect(merged.map((x) => x.path)).toEqual(inputs);
+    expect(existsSync(join(root, 'merged', 'rankfold-manifest.html'))).toBe(true);
+    // Sharded outputs equal the unsharded run's.
+    expect(hashTree(out, rkfOnly)).toEqual(hashTree(join(root, 'jobs1'), rkfOnly));
+  });
+
+  it('an output folder that cannot be written fails every file with a clear error (path under a file)', async () => {
+    const blocker = join(root, 'blocker.txt');
+    await writeFile(blocker, 'a file, not a folder');
+    const r = run([join(mixedIn, 'box-0'), '-o', join(blocker, 'out'), ...BUDGET, '--json']);
+    expect(r.code).toBe(2);
+    const files = jsonLines(r.stdout).filter((e) => e.event === 'file') as unknown as BatchRow[];
+    expect(files.length).toBeGreaterThan(0);
+    for (const f of files) {
+      expect(f.status).toBe('failed');
+      expect(f.error!.message).toContain('a part of the output path is a file, not a folder');
+    }
+    expect(r.stderr).toContain('cannot be written');
+  });
+
+  it.skipIf(isRoot)(
+    'a folder without write permission fails every file (only when not root: root ignores mode bits)',
+    async () => {
+      const out = join(root, 'readonly-out');
+      await mkdir(out);
+      spawnSync('chmod', ['0555', out]);
+      const r = run([join(mixedIn, 'box-0'), '-o', out, ...BUDGET, '--json']);
+      spawnSync('chmod', ['0755', out]);
+      expect(r.code).toBe(2);
+      for (const f of jsonLines(r.stdout).filter((e) => e.event === 'file') as unknown as BatchRow[])
+        expect(f.error!.message).toContain('permission denied when writing');
+    },
+  );
+
+  describe('on small file systems (tmpfs; skipped where mounting is not allowed)', () => {
+    const mountRoot = mkdtempSync(join(tmpdir(), 'rankfold-batch-mnt-'));
+    const mnt = (name: string, opts: string) => {
+      const dir = join(mountRoot, name);
+      mkdirSync(dir);
+      const r = spawnSync('mount', ['-t', 'tmpfs', '-o', opts, 'tmpfs', dir], { encoding: 'utf8' });
+      return r.status === 0 ? dir : undefined;
+    };
+    const ro = mnt('ro-mnt', 'ro,size=1m');
+    const tiny = mnt('tiny-mnt', 'size=12k');
+    afterAll(() => {
+      for (const d of [ro, tiny]) if (d) spawnSync('umount', [d]);
+      rmSync(mountRoot, { recursive: true, force: true });
+    });
+
+    it.skipIf(!ro)('a read-only file system fails every file and says so', () => {
+      const r = run([join(mixedIn, 'box-0'), '-o', join(ro!, 'out'), ...BUDGET, '--json']);
+      expect(r.code).toBe(2);
+      const files = jsonLines(r.stdout).filter((e) => e.event === 'file') as unknown as BatchRow[];
+      expect(files.length).toBeGreaterThan(0);
+      for (const f of files) expect(f.error!.message).toContain('read-only');
+    });
+
+    it.skipIf(!tiny)(
+      'a full disk fails the files that do not fit, leaves no partial output, and goes on',
+      async () => {
+        const inDir = join(root, 'full-in');
+        await goodSet(inDir, 12, 160, 120);
+        const out = join(tiny!, 'out');
+        const r = run([inDir, '-o', out, '--rank', '16', '--tile', '32', '--jobs', '2', '--json']);
+        expect(r.code).toBe(2);
+        const files = jsonLines(r.stdout).filter((e) => e.event === 'file') as unknown as BatchRow[];
+        expect(files).toHaveLength(12);
+        const full = files.filter((f) => f.status === 'failed');
+        expect(full.length).toBeGreaterThan(0);
+        for (const f of full) expect(f.error!.message).toMatch(/disk is full|no space/);
+        expect(filesUnder(out).filter((f) => f.split('/').pop()!.startsWith('.rankfold-tmp-'))).toEqual([]);
+        for (const f of filesUnder(out).filter(rkfOnly))
+          expect(statSync(join(out, f)).size).toBeGreaterThan(0);
+      },
+    );
+  });
+});
