@@ -1,0 +1,150 @@
+/**
+ * Batch throughput: megapixels per second with 1 and with 2 worker threads on one folder of scan-like pages
+ * (the fictional Harrowgate County Survey Office ledger box), measured in the same run. Target: 2 jobs
+ * ≥ 1.8× one job. Writes `${RANKFOLD_BENCH_OUT ?? 'docs/bench'}/40-batch.md`.
+ *
+ * Usage: `npm run bench batch` (RANKFOLD_BENCH_PAGES, RANKFOLD_BENCH_EDGE and RANKFOLD_BENCH_ROUNDS
+ * change the folder size and the number of alternating rounds).
+ */
+import { mkdir, mkdtemp, rm, writeFile } from 'node:fs/promises';
+import { availableParallelism, cpus, loadavg, tmpdir } from 'node:os';
+import { join } from 'node:path';
+import sharp from 'sharp';
+import { runBatch } from '../src-main/node/batch/run';
+import { batchWorkerFile } from '../src-main/node/batch/worker-path';
+
+const PAGES = Number(process.env.RANKFOLD_BENCH_PAGES ?? 8);
+const EDGE = Number(process.env.RANKFOLD_BENCH_EDGE ?? 512);
+const ROUNDS = Number(process.env.RANKFOLD_BENCH_ROUNDS ?? 2);
+const OPTIONS = { budget: { kind: 'psnr' as const, db: 36 }, tile: 64 };
+const OPTIONS_TEXT = '--min-psnr 36 --tile 64';
+
+/** A ledger page: paper texture, ruled lines, ink strokes, a faint fold shadow; gray 8-bit (even pages) or RGB. */
+function ledgerPage(w: number, h: number, seed: number, channels: 1 | 3): Buffer {
+  const buf = Buffer.alloc(w * h * channels);
+  let s = (seed * 2654435761) >>> 0 || 1;
+  const rnd = () => {
+    s ^= s << 13;
+    s ^= s >>> 17;
+    s ^= s << 5;
+    return (s >>> 0) / 4294967296;
+  };
+  const strokes = Array.from({ length: 400 }, () => ({
+    x: rnd() * w,
+    y: Math.floor(rnd() * (h / 24)) * 24 + 18,
+    len: 10 + rnd() * 80,
+  }));
+  const ink = new Float32Array(w * h);
+  for (const st of strokes)
+    for (let x = Math.floor(st.x); x < Math.min(w, st.x + st.len); x++)
+      for (let dy = -3; dy <= 0; dy++) {
+        const y = st.y + dy + Math.round(2 * Math.sin(x / 5 + seed));
+        if (y >= 0 && y < h) ink[y * w + x] = 1;
+      }
+  for (let y = 0; y < h; y++)
+    for (let x = 0; x < w; x++) {
+      const paper =
+        225 +
+        10 * Math.sin(x / 97 + seed) * Math.cos(y / 131) -
+        25 * Math.exp(-(((x - w / 2) / (w / 30)) ** 2)) +
+        6 * (rnd() - 0.5);
+      const ruled = y % 24 === 20 ? 45 : 0;
+      const v = paper - ruled - 150 * ink[y * w + x];
+      for (let c = 0; c < channels; c++)
+        buf[(y * w + x) * channels + c] = Math.max(
+          0,
+          Math.min(255, v - (channels === 3 ? [0, 8, 30][c] : 0)),
+        );
+    }
+  return buf;
+}
+
+async function makeFolder(dir: string) {
+  for (let i = 0; i < PAGES; i++) {
+    const channels = i % 2 ? 3 : 1;
+    const sub = join(dir, `ledger-box-${Math.floor(i / 4) + 1}`);
+    await mkdir(sub, { recursive: true });
+    const img = sharp(ledgerPage(EDGE, Math.round(EDGE * 1.3), i + 1, channels), {
+      raw: { width: EDGE, height: Math.round(EDGE * 1.3), channels },
+    });
+    await (i % 4 === 3 ? img.tiff({ compression: 'lzw' }) : img.png()).toFile(
+      join(sub, `folio-${String(i + 1).padStart(3, '0')}.${i % 4 === 3 ? 'tif' : 'png'}`),
+    );
+  }
+}
+
+async function once(inDir: string, outDir: string, jobs: number) {
+  await rm(outDir, { recursive: true, force: true });
+  const t0 = performance.now();
+  const r = await runBatch({
+    inDir,
+    outDir,
+    compress: OPTIONS,
+    jobs,
+    workerFile: batchWorkerFile(),
+    timeoutMs: 0,
+  });
+  const seconds = (performance.now() - t0) / 1000;
+  if (r.summary.failed)
+    throw new Error(
+      `bench batch: ${r.summary.failed} files failed: ${r.rows.find((x) => x.error)?.error?.message}`,
+    );
+  return { seconds, megapixels: r.summary.megapixels, mps: r.summary.megapixels / seconds };
+}
+
+async function main() {
+  const root = await mkdtemp(join(tmpdir(), 'rankfold-bench-batch-'));
+  try {
+    const inDir = join(root, 'in');
+    await makeFolder(inDir);
+    const results: Record<1 | 2, { seconds: number; megapixels: number; mps: number }[]> = { 1: [], 2: [] };
+    const load0 = loadavg()[0];
+    // Warm-up on two pages (file cache, JIT of the main thread), not counted.
+    await once(inDir, join(root, 'warm'), 2, ['folio-001.png', 'folio-002.png']);
+    // Alternate 1 and 2 jobs so a change in machine load hits both alike.
+    for (let r = 0; r < ROUNDS; r++) {
+      for (const jobs of [1, 2] as const) {
+        const x = await once(inDir, join(root, `out-${jobs}`), jobs);
+        results[jobs].push(x);
+        console.error(
+          `bench batch: round ${r + 1}, ${jobs} job${jobs === 1 ? '' : 's'}: ${x.mps.toFixed(3)} MP/s (${x.seconds.toFixed(2)} s)`,
+        );
+      }
+    }
+    const load1 = loadavg()[0];
+    const best = (j: 1 | 2) => results[j].reduce((a, b) => (b.mps > a.mps ? b : a));
+    const b1 = best(1);
+    const b2 = best(2);
+    const speedup = b2.mps / b1.mps;
+    const target = 1.8;
+    const lines = [
+      '## Batch throughput (`npm run bench batch`)',
+      '',
+      `Folder: ${PAGES} synthetic ledger pages of ${EDGE}×${Math.round(EDGE * 1.3)} (${b1.megapixels.toFixed(2)} MP in all; gray and RGB, PNG and TIFF), \`rankfold batch ${OPTIONS_TEXT}\`.`,
+      `Machine: ${availableParallelism()} × ${cpus()[0]?.model ?? 'unknown CPU'}; 1-minute load average ${load0.toFixed(2)} before, ${load1.toFixed(2)} after (a load above the core count means other work shared the cores).`,
+      `Best of ${ROUNDS} alternating rounds after a warm-up on two pages; the baseline (1 job) is measured in the same run.`,
+      '',
+      '| jobs | wall time | throughput | vs 1 job |',
+      '|---|---|---|---|',
+      `| 1 | ${b1.seconds.toFixed(2)} s | ${b1.mps.toFixed(3)} MP/s | 1.00× |`,
+      `| 2 | ${b2.seconds.toFixed(2)} s | ${b2.mps.toFixed(3)} MP/s | ${speedup.toFixed(2)}× |`,
+      '',
+      `Target: 2 jobs ≥ ${target}× one job — ${speedup >= target ? 'met' : 'NOT met'} (${speedup.toFixed(2)}×).` +
+        (availableParallelism() < 2
+          ? ' This machine has fewer than 2 cores, so the target cannot be met here.'
+          : ''),
+      '',
+    ];
+    const outDir = process.env.RANKFOLD_BENCH_OUT ?? 'docs/bench';
+    await mkdir(outDir, { recursive: true });
+    await writeFile(join(outDir, '40-batch.md'), lines.join('\n'));
+    console.log(lines.join('\n'));
+  } finally {
+    await rm(root, { recursive: true, force: true });
+  }
+}
+
+main().catch((err) => {
+  console.error(err);
+  process.exitCode = 1;
+});
