@@ -65,6 +65,7 @@ export interface StackInput {
 }
 
 export interface StackHeader {
+  format: 'rankfold';
   layout: 'stack';
   stackVersion: number;
   width: number;
@@ -334,6 +335,7 @@ export function encodeStack(prep: PreparedStack, params: StackParams): EncodedSt
     }
   }
   const header: StackHeader = {
+    format: 'rankfold',
     layout: 'stack',
     stackVersion: STACK_VERSION,
     width,

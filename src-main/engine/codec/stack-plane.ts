@@ -200,14 +200,7 @@ function bandClass(b: Band): number {
 }
 
 /** The coefficient of the parent band (same orientation, next coarser level), or 0. */
-function parentOf(
-  q: Int32Array,
-  width: number,
-  b: Band,
-  parent: Band | undefined,
-  x: number,
-  y: number,
-): number {
+function parentOf(q: Int32Array, width: number, parent: Band | undefined, x: number, y: number): number {
   if (!parent) return 0;
   const px = Math.min(parent.w - 1, x >> 1);
   const py = Math.min(parent.h - 1, y >> 1);

@@ -1,10 +1,147 @@
 /**
- * Stack mode of `rankfold compress --stack` (joint compression of frame series).
- * Placeholder: the stack-mode work replaces this file with the real `runStack`.
+ * `rankfold compress --stack IN_DIR|IN.tif -o OUT.rkf`: code a series of same-size frames jointly
+ * (stack mode). Called by compress.ts when `--stack` is present.
  */
-import { RankfoldError } from '../../../contract';
-import type { CliIO } from '../command';
+import {
+  type Budget,
+  parseBudgetText,
+  parseIntegerOption,
+  parseNumberOption,
+  type StackCompressOptions,
+  type StackReport,
+  UsageError,
+} from '../../../contract';
+import { compressStackFile } from '../../services/stack';
+import { type CliIO, LOSSY_CAUTION, parseCommandArgs } from '../command';
 
-export async function runStack(_argv: string[], _io: CliIO): Promise<number> {
-  throw new RankfoldError('compress --stack: stack mode is not available in this version yet.');
+const options = {
+  stack: { type: 'boolean' },
+  output: { type: 'string', short: 'o' },
+  rank: { type: 'string' },
+  budget: { type: 'string' },
+  bpp: { type: 'string' },
+  'min-psnr': { type: 'string' },
+  'min-ssim': { type: 'string' },
+  frames: { type: 'string' },
+  'no-residuals': { type: 'boolean' },
+  'pixel-limit': { type: 'string' },
+  json: { type: 'boolean' },
+  force: { type: 'boolean' },
+} as const;
+
+export const stackHelp = `Usage: rankfold compress --stack IN_DIR|IN.tif -o OUT.rkf (--budget SIZE | --bpp X | --rank K | --min-psnr DB | --min-ssim S) [options]
+
+Code a series of same-size frames (time-lapse, serial sections, pages of one form, bracketed
+exposures) jointly: the mean frame, a few eigen-frames shared by all frames, per-frame weights, and a
+per-frame residual where it pays. One frame can be expanded without decoding the others.
+
+Input: a folder of frames, taken in natural name order (frame-2 before frame-10), or a multi-page TIFF.
+All frames must have the same size, bit depth (8 or 16) and colour model (gray or RGB).
+
+Budgets, for the whole series:
+  --budget SIZE     at most SIZE on disk: 250kB, 1.5MB, 2MiB, 120000 (bytes) or 5% of the raw samples
+  --bpp X           at most X bits per pixel on disk, counted over all frames
+  --rank K          keep K eigen-frames per channel (0–64), finely quantised, no residuals
+  --min-psnr DB     every frame's PSNR at least DB (the worst frame must meet it); the smallest file found.
+                    May be combined with --budget or --bpp: then both must hold.
+  --min-ssim S      every frame's SSIM (Wang et al. 2004) at least S
+
+Options:
+  -o, --output FILE   output .rkf file (required)
+  --frames GLOB       only the files of the folder whose names match GLOB, e.g. 'plate-*.tif'
+  --no-residuals      code the shared model only (no per-frame residuals)
+  --pixel-limit N     refuse frames with more pixels than N (default 268402689)
+  --json              print the report as one JSON object: per-frame PSNR/SSIM, the frame-mode
+                      spectrum, and the bytes spent on basis against coefficients
+  --force             overwrite an existing output
+
+The input is never modified; the output is written atomically and never overwritten without --force.
+A frame of a different size, bit depth or colour model stops the run with its name; nothing is written.
+
+${LOSSY_CAUTION}
+`;
+
+function targetFrom(v: Record<string, unknown>): StackCompressOptions {
+  const main = ['rank', 'budget', 'bpp'].filter((k) => v[k] !== undefined);
+  if (main.length > 1)
+    throw new UsageError(`compress --stack: give only one of ${main.map((g) => `--${g}`).join(' and ')}`);
+  const o: StackCompressOptions = {};
+  if (v['min-psnr'] !== undefined) o.minPsnr = parseNumberOption('min-psnr', v['min-psnr'] as string, 1, 200);
+  if (v['min-ssim'] !== undefined)
+    o.minSsim = parseNumberOption('min-ssim', v['min-ssim'] as string, 0.01, 1);
+  let budget: Budget | undefined;
+  if (v.rank !== undefined)
+    budget = { kind: 'rank', rank: parseIntegerOption('rank', v.rank as string, 0, 64) };
+  else if (v.budget !== undefined) budget = parseBudgetText(v.budget as string);
+  else if (v.bpp !== undefined)
+    budget = { kind: 'bpp', bpp: parseNumberOption('bpp', v.bpp as string, 0.001, 64) };
+  if (budget?.kind === 'rank' && (o.minPsnr !== undefined || o.minSsim !== undefined))
+    throw new UsageError(
+      'compress --stack: --rank fixes the model; combine --min-psnr or --min-ssim with --budget or --bpp instead',
+    );
+  if (!budget && o.minPsnr === undefined && o.minSsim === undefined)
+    throw new UsageError(
+      'compress --stack: give a budget: --budget SIZE, --bpp X, --rank K, --min-psnr DB or --min-ssim S. See `rankfold compress --help`.',
+    );
+  o.budget = budget;
+  return o;
+}
+
+const fmt = (x: number, d = 2) =>
+  Number.isFinite(x) ? x.toFixed(d) : x === Number.POSITIVE_INFINITY ? '∞' : 'n/a';
+
+export function formatStackReport(r: StackReport): string {
+  const lines = [
+    `${r.input} → ${r.output} (stack of ${r.frames} frames)`,
+    `  ${r.width}×${r.height}, ${r.channels === 3 ? 'colour' : 'gray'}, ${r.bitDepth}-bit`,
+    `  raw ${r.rawBytes} B, input files ${r.inputBytes} B, output ${r.outputBytes} B: ratio ${fmt(r.ratio, 1)}:1, ${fmt(r.bpp, 3)} bpp`,
+    `  bytes: basis ${r.bytes.basis} (mean frame ${r.bytes.mean}, eigen-frames ${r.bytes.eigenFrames}), coefficients ${r.bytes.coefficients}, residuals ${r.bytes.residuals}, overhead ${r.bytes.overhead}`,
+  ];
+  for (const s of r.spectrum)
+    lines.push(
+      `  ${s.channel}: ${s.stored} eigen-frame(s) stored; ${s.eigenFramesFor['90%']} carry 90% of the variation, ${s.eigenFramesFor['99%']} carry 99%` +
+        ` (σ ${s.sigma
+          .slice(0, 6)
+          .map((x) => fmt(x, 0))
+          .join(', ')}${s.sigma.length > 6 ? ', …' : ''})`,
+    );
+  lines.push(
+    `  measured on the decoded file: PSNR worst ${fmt(r.psnr.worst)} dB (frame ${r.psnr.worstFrame}), mean ${fmt(r.psnr.mean)} dB; SSIM worst ${fmt(r.ssim.worst, 4)}, mean ${fmt(r.ssim.mean, 4)}`,
+    `  frames with their own residual: ${r.perFrame.filter((f) => f.residual).length} of ${r.frames}`,
+    `  time: decode ${fmt(r.timings.decodeMs, 0)} ms, factor ${fmt(r.timings.factorMs, 0)} ms, encode ${fmt(r.timings.encodeMs, 0)} ms`,
+  );
+  return `${lines.join('\n')}\n`;
+}
+
+/** Entry from compress.ts when `--stack` is given. Returns the exit code. */
+export async function runStack(argv: string[], io: CliIO): Promise<number> {
+  const { values: v, positionals } = parseCommandArgs('compress', argv, options);
+  const input = positionals[0];
+  if (!input)
+    throw new UsageError(
+      'compress --stack: missing input folder or multi-page TIFF. See `rankfold compress --help`.',
+    );
+  const output = v.output as string | undefined;
+  if (!output) throw new UsageError('compress --stack: missing -o OUT.rkf. See `rankfold compress --help`.');
+  const o = targetFrom(v);
+  o.frames = v.frames as string | undefined;
+  o.force = Boolean(v.force);
+  o.residuals = v['no-residuals'] ? false : undefined;
+  if (v['pixel-limit'] !== undefined)
+    o.pixelLimit = parseIntegerOption('pixel-limit', v['pixel-limit'] as string, 1, 2 ** 40);
+  let last = -1;
+  const report = await compressStackFile(input, output, o, {
+    onProgress: ({ fraction }) => {
+      const pct = Math.floor(fraction * 100);
+      if (io.isTTY && !v.json && pct !== last) {
+        last = pct;
+        io.stderr(`\rcompress --stack: ${pct}%`);
+      }
+    },
+  });
+  if (io.isTTY && !v.json && last >= 0) io.stderr('\r\x1b[K');
+  if (v.json) io.stdout(`${JSON.stringify(report)}\n`);
+  else io.stdout(formatStackReport(report));
+  io.stderr(`${LOSSY_CAUTION}\n`);
+  return 0;
 }

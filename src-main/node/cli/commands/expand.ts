@@ -52,6 +52,9 @@ export const command: Command = {
       };
       return mod.runStack(argv, io);
     }
+    // Stack-layout files without --frame expand all frames (stack mode's addition).
+    const stack = await import('./expand-stack');
+    if (await stack.wantsStack(argv)) return stack.runStack(argv, io);
     const { values: v, positionals } = parseCommandArgs('expand', argv, options);
     const input = positionals[0];
     if (!input) throw new UsageError('expand: missing input .rkf file. See `rankfold expand --help`.');

@@ -1,0 +1,478 @@
+/**
+ * Stack mode as a service: read a series (a folder of same-size frames in natural name order, or a
+ * multi-page TIFF), code it jointly into one .rkf file with the stack layout, and decode one frame or
+ * all of them. Used by the CLI (`compress --stack`, `expand --frame`) and, in memory, by the app.
+ */
+import { readdir, readFile, stat } from 'node:fs/promises';
+import { basename, extname, join } from 'node:path';
+import { performance } from 'node:perf_hooks';
+import picomatch from 'picomatch';
+import sharp, { type SharpOptions } from 'sharp';
+import {
+  type Budget,
+  type DecodedImage,
+  FormatError,
+  InputError,
+  OutputError,
+  RankfoldError,
+  type StackCompressOptions,
+  type StackExpandReport,
+  type StackReport,
+  type StackSpectrum,
+  UsageError,
+} from '../../contract';
+import { fitStack, type StackFit, type StackTarget, StackTargetError } from '../../engine/codec/stack-budget';
+import {
+  decodeStackFrame as decodeFrameBytes,
+  MAX_STACK_RANK,
+  openStack,
+  prepareStack,
+  type StackInput,
+} from '../../engine/codec/stack-codec';
+import { decodeImage, probeImage } from '../image/decode';
+import { encodeImage, formatFromPath } from '../image/encode';
+import { assertWritable, writeFileAtomic } from '../io/atomic';
+
+const IMAGE_EXT = new Set(['.png', '.tif', '.tiff', '.jpg', '.jpeg', '.webp']);
+/** Natural sort: "frame-2" before "frame-10" (Unicode collation with numeric ordering, ECMA-402). */
+const collator = new Intl.Collator('en', { numeric: true, sensitivity: 'base' });
+export const naturalCompare = (a: string, b: string) =>
+  collator.compare(a, b) || (a < b ? -1 : a > b ? 1 : 0);
+
+/** Where each frame comes from. */
+export interface FrameSource {
+  file: string;
+  page?: number;
+  /** Label kept in the frame table. */
+  name: string;
+}
+
+/**
+ * List the frames of a series: a folder's image files (natural order, optionally filtered by a glob on
+ * the file name), or every page of a multi-page TIFF.
+ * @throws InputError naming the folder or file when there is nothing to stack.
+ */
+export async function listStackFrames(source: string, glob?: string): Promise<FrameSource[]> {
+  let st: Awaited<ReturnType<typeof stat>>;
+  try {
+    st = await stat(source);
+  } catch {
+    throw new InputError(source, 'no such file or folder');
+  }
+  if (st.isDirectory()) {
+    const match = glob ? picomatch(glob, { dot: false }) : () => true;
+    const names = (await readdir(source, { withFileTypes: true }))
+      .filter((d) => d.isFile() && !d.name.startsWith('.') && IMAGE_EXT.has(extname(d.name).toLowerCase()))
+      .map((d) => d.name)
+      .filter((n) => match(n))
+      .sort(naturalCompare);
+    if (names.length < 2)
+      throw new InputError(
+        source,
+        `holds ${names.length} image file${names.length === 1 ? '' : 's'}${glob ? ` matching --frames ${JSON.stringify(glob)}` : ''}; a stack needs at least 2 frames (PNG, TIFF, JPEG or WebP)`,
+      );
+    return names.map((n) => ({ file: join(source, n), name: n }));
+  }
+  if (glob)
+    throw new UsageError(
+      'compress --stack: --frames selects files in a folder; a multi-page TIFF always uses all its pages',
+    );
+  const probe = await probeImage(source);
+  if (probe.pages < 2)
+    throw new InputError(
+      source,
+      `has ${probe.pages} page; stack mode needs a folder of frames or a multi-page TIFF with at least 2 pages`,
+    );
+  return Array.from({ length: probe.pages }, (_, page) => ({
+    file: source,
+    page,
+    name: `${basename(source)}#${page}`,
+  }));
+}
+
+/** A frame of an in-memory series (what the app hands over): planes on the source scale. */
+export interface StackFrame {
+  width: number;
+  height: number;
+  bitDepth: 8 | 16;
+  /** 1 = gray, 3 = RGB. */
+  channels: number;
+  planes: ArrayLike<number>[];
+  name?: string;
+  sourceSha256?: string;
+  /** For messages. */
+  file?: string;
+}
+
+/**
+ * Check that every frame matches the first in size, bit depth and channels.
+ * @throws InputError naming the first frame that differs, and how.
+ */
+export function checkSeries(frames: StackFrame[]): StackInput {
+  if (frames.length < 2) throw new UsageError(`a stack needs at least 2 frames, got ${frames.length}`);
+  const first = frames[0];
+  const label = (f: StackFrame, j: number) => f.file ?? f.name ?? `frame ${j}`;
+  for (let j = 0; j < frames.length; j++) {
+    const f = frames[j];
+    if (f.channels === 2 || f.channels === 4)
+      throw new InputError(
+        label(f, j),
+        'has an alpha channel; stack mode codes gray or colour frames only — flatten the alpha first or compress this scan on its own',
+      );
+    if (f.channels !== 1 && f.channels !== 3)
+      throw new InputError(label(f, j), `has ${f.channels} channels; stack mode codes 1 (gray) or 3 (RGB)`);
+    if (f.width !== first.width || f.height !== first.height)
+      throw new InputError(
+        label(f, j),
+        `is ${f.width}×${f.height} but the first frame (${label(first, 0)}) is ${first.width}×${first.height}; every frame of a stack must have the same size`,
+      );
+    if (f.bitDepth !== first.bitDepth)
+      throw new InputError(
+        label(f, j),
+        `is ${f.bitDepth}-bit but the first frame (${label(first, 0)}) is ${first.bitDepth}-bit; every frame of a stack must have the same bit depth`,
+      );
+    if (f.channels !== first.channels)
+      throw new InputError(
+        label(f, j),
+        `is ${f.channels === 1 ? 'gray' : 'colour'} but the first frame (${label(first, 0)}) is ${first.channels === 1 ? 'gray' : 'colour'}; every frame of a stack must have the same colour model`,
+      );
+  }
+  return {
+    width: first.width,
+    height: first.height,
+    bitDepth: first.bitDepth,
+    channels: first.channels as 1 | 3,
+    frames: frames.map((f, j) => ({
+      planes: f.planes,
+      name: f.name ?? `frame ${j}`,
+      sourceSha256: f.sourceSha256,
+    })),
+  };
+}
+
+/**
+ * Decode every frame of a series, checking each against the first as soon as it is read.
+ * @throws InputError naming the frame file that does not match.
+ */
+export async function loadStack(
+  source: string,
+  options: { frames?: string; pixelLimit?: number } = {},
+): Promise<{ frames: StackFrame[]; inputBytes: number; sources: FrameSource[] }> {
+  const sources = await listStackFrames(source, options.frames);
+  const frames: StackFrame[] = [];
+  let inputBytes = 0;
+  const seenFiles = new Set<string>();
+  for (const s of sources) {
+    const img: DecodedImage = await decodeImage(s.file, { page: s.page, pixelLimit: options.pixelLimit });
+    if (!seenFiles.has(s.file)) {
+      inputBytes += img.inputBytes;
+      seenFiles.add(s.file);
+    }
+    const f: StackFrame = {
+      width: img.width,
+      height: img.height,
+      bitDepth: img.bitDepth,
+      channels: img.channels,
+      planes: img.planes,
+      name: s.name,
+      sourceSha256: img.sourceSha256,
+      file: s.page !== undefined ? `${s.file} (page ${s.page})` : s.file,
+    };
+    frames.push(f);
+    checkSeries(frames.length === 1 ? [f, f] : [frames[0], f]);
+  }
+  return { frames, inputBytes, sources };
+}
+
+function targetFrom(input: StackInput, o: StackCompressOptions): StackTarget {
+  const raw = input.width * input.height * input.channels * input.frames.length * (input.bitDepth / 8);
+  const t: StackTarget = { minPsnr: o.minPsnr, minSsim: o.minSsim, residuals: o.residuals };
+  const b: Budget | undefined = o.budget;
+  if (b) {
+    switch (b.kind) {
+      case 'rank':
+        if (!(Number.isInteger(b.rank) && b.rank >= 0 && b.rank <= MAX_STACK_RANK))
+          throw new UsageError(
+            `Expected integer between 0 and ${MAX_STACK_RANK} for rank (eigen-frames per channel) but received ${b.rank}`,
+          );
+        t.rank = Math.min(b.rank, input.frames.length);
+        break;
+      case 'bytes':
+        t.maxBytes = b.bytes;
+        break;
+      case 'percent':
+        t.maxBytes = Math.floor((raw * b.percent) / 100);
+        break;
+      case 'bpp':
+        t.maxBytes = Math.floor((b.bpp * input.width * input.height * input.frames.length) / 8);
+        break;
+      case 'psnr':
+        t.minPsnr = Math.max(t.minPsnr ?? 0, b.db);
+        break;
+      case 'ssim':
+        t.minSsim = Math.max(t.minSsim ?? 0, b.value);
+        break;
+    }
+  }
+  if (t.maxBytes === undefined && t.minPsnr === undefined && t.minSsim === undefined && t.rank === undefined)
+    throw new UsageError(
+      'compress --stack: give a budget (--rank K, --budget SIZE, --bpp X, --min-psnr DB or --min-ssim S)',
+    );
+  return t;
+}
+
+function spectrumOf(sigma: number[], channel: string, stored: number): StackSpectrum {
+  const e = sigma.map((s) => s * s);
+  const total = e.reduce((a, b) => a + b, 0);
+  let acc = 0;
+  const cumulativeEnergy = e.map((v) => {
+    acc += v;
+    return total > 0 ? Number((acc / total).toFixed(6)) : 1;
+  });
+  const need = (f: number) =>
+    total === 0 ? 0 : cumulativeEnergy.findIndex((c) => c >= f) + 1 || sigma.length;
+  return {
+    channel,
+    sigma,
+    cumulativeEnergy,
+    eigenFramesFor: { '90%': need(0.9), '99%': need(0.99), '99.9%': need(0.999) },
+    stored,
+  };
+}
+
+function worstAndMean(v: number[]) {
+  let worst = Number.POSITIVE_INFINITY;
+  let worstFrame = 0;
+  let sum = 0;
+  v.forEach((x, j) => {
+    if (x < worst) {
+      worst = x;
+      worstFrame = j;
+    }
+    sum += x;
+  });
+  return { worst, mean: sum / v.length, worstFrame };
+}
+
+export interface StackHooks {
+  onProgress?(p: { stage: string; fraction: number }): void;
+}
+
+/**
+ * Compress an in-memory series (the app's API). Returns the .rkf bytes and the report (input/output
+ * names empty unless given).
+ * @throws InputError for mismatched frames, UsageError for a target that cannot be met.
+ */
+export function compressStack(
+  frames: StackFrame[],
+  options: StackCompressOptions,
+  names: { input?: string; output?: string; inputBytes?: number; decodeMs?: number } = {},
+  hooks: StackHooks = {},
+): { bytes: Uint8Array; report: StackReport } {
+  const input = checkSeries(frames);
+  const target = targetFrom(input, options);
+  const t0 = performance.now();
+  let prep: ReturnType<typeof prepareStack>;
+  try {
+    prep = prepareStack(input);
+  } catch (err) {
+    throw new UsageError(`compress --stack: ${(err as Error).message}`);
+  }
+  const t1 = performance.now();
+  let fit: StackFit;
+  try {
+    fit = fitStack(prep, target, (f) => hooks.onProgress?.({ stage: 'encode', fraction: f }));
+  } catch (err) {
+    if (err instanceof StackTargetError) throw new UsageError(`compress --stack: ${err.message}`);
+    throw err;
+  }
+  const t2 = performance.now();
+  const e = fit.encoded;
+  const N = input.frames.length;
+  const raw = input.width * input.height * input.channels * N * (input.bitDepth / 8);
+  const channelNames = input.channels === 3 ? ['Y', 'Cb', 'Cr'] : ['gray'];
+  const report: StackReport = {
+    input: names.input ?? '',
+    output: names.output ?? '',
+    layout: 'stack',
+    frames: N,
+    width: input.width,
+    height: input.height,
+    channels: input.channels,
+    bitDepth: input.bitDepth,
+    rawBytes: raw,
+    inputBytes: names.inputBytes ?? 0,
+    outputBytes: e.bytes.length,
+    ratio: raw / e.bytes.length,
+    bpp: (8 * e.bytes.length) / (input.width * input.height * N),
+    step: e.header.step,
+    bytes: {
+      basis: e.split.mean + e.split.basis,
+      mean: e.split.mean,
+      eigenFrames: e.split.basis,
+      coefficients: e.split.coefficients,
+      residuals: e.split.residuals,
+      overhead: e.split.header + e.split.container,
+    },
+    spectrum: e.header.spectrum.map((s, c) => spectrumOf(s, channelNames[c], e.header.ranks[c])),
+    psnr: worstAndMean(fit.psnr),
+    ssim: worstAndMean(fit.ssim),
+    perFrame: input.frames.map((f, j) => ({
+      index: j,
+      name: f.name ?? `frame ${j}`,
+      sourceSha256: f.sourceSha256 ?? '',
+      psnr: fit.psnr[j],
+      ssim: fit.ssim[j],
+      residual: e.header.frameTable[j].residual.some(Boolean),
+    })),
+    timings: { decodeMs: names.decodeMs ?? 0, factorMs: t1 - t0, encodeMs: t2 - t1 },
+  };
+  return { bytes: e.bytes, report };
+}
+
+/** Decode frame `i` of an in-memory stack file (the app's frame slider). @throws FormatError. */
+export function decodeStackFrame(bytes: Uint8Array, i: number, file = 'stack'): Float32Array[] {
+  return decodeFrameBytes(bytes, i, file);
+}
+
+/**
+ * `compress --stack`: read a folder or multi-page TIFF, code it jointly, write OUT.rkf atomically.
+ * Nothing is written when a frame is refused or the target cannot be met.
+ */
+export async function compressStackFile(
+  source: string,
+  output: string,
+  options: StackCompressOptions,
+  hooks: StackHooks = {},
+): Promise<StackReport> {
+  await assertWritable(output, options.force);
+  const t0 = performance.now();
+  const { frames, inputBytes } = await loadStack(source, {
+    frames: options.frames,
+    pixelLimit: options.pixelLimit,
+  });
+  const decodeMs = performance.now() - t0;
+  const { bytes, report } = compressStack(
+    frames,
+    options,
+    { input: source, output, inputBytes, decodeMs },
+    hooks,
+  );
+  await writeFileAtomic(output, bytes, { force: options.force });
+  return report;
+}
+
+async function readStackFile(file: string) {
+  let bytes: Uint8Array;
+  try {
+    bytes = new Uint8Array(await readFile(file));
+  } catch (err) {
+    const code = (err as NodeJS.ErrnoException).code;
+    throw new InputError(
+      file,
+      code === 'ENOENT' ? 'no such file' : `cannot be read (${code ?? String(err)})`,
+    );
+  }
+  return openStack(bytes, file);
+}
+
+/**
+ * `expand` of a stack file: one frame (`frame`), or every frame into a folder of numbered PNG files
+ * (or TIFF when the folder name is given with --format tiff), or into one multi-page TIFF when
+ * `output` ends in .tif/.tiff. Nothing is written if the file fails validation.
+ */
+export async function expandStackFile(
+  file: string,
+  output: string,
+  options: { frame?: number; force?: boolean } = {},
+): Promise<StackExpandReport> {
+  const reader = await readStackFile(file);
+  const h = reader.header;
+  const ext = extname(output).toLowerCase();
+  const isTiff = ext === '.tif' || ext === '.tiff';
+  const base = {
+    input: file,
+    width: h.width,
+    height: h.height,
+    channels: h.channels,
+    bitDepth: h.bitDepth,
+  };
+  const source = (j: number) => ({
+    index: j,
+    name: h.frameTable[j].name,
+    sourceSha256: h.frameTable[j].sourceSha256,
+  });
+  if (options.frame !== undefined) {
+    const planes = reader.frame(options.frame);
+    const format = formatFromPath(output);
+    await encodeImage(
+      output,
+      { width: h.width, height: h.height, channels: h.channels, bitDepth: h.bitDepth, planes },
+      {
+        force: options.force,
+        format,
+      },
+    );
+    return { ...base, frames: [options.frame], outputs: [output], format, sources: [source(options.frame)] };
+  }
+  const all = Array.from({ length: h.frameCount }, (_, j) => j);
+  if (isTiff) {
+    await assertWritable(output, options.force);
+    const n = h.width * h.height;
+    const ch = h.channels;
+    const samples =
+      h.bitDepth === 16 ? new Uint16Array(n * ch * h.frameCount) : new Uint8Array(n * ch * h.frameCount);
+    for (const j of all) {
+      const planes = reader.frame(j);
+      const o = j * n * ch;
+      for (let p = 0; p < n; p++) for (let c = 0; c < ch; c++) samples[o + p * ch + c] = planes[c][p];
+    }
+    const space = ch === 1 ? (h.bitDepth === 16 ? 'grey16' : 'b-w') : h.bitDepth === 16 ? 'rgb16' : 'srgb';
+    let tiff: Buffer;
+    try {
+      tiff = await sharp(samples, {
+        raw: { width: h.width, height: h.height * h.frameCount, channels: ch as 1 | 3, pageHeight: h.height },
+        limitInputPixels: false,
+      } as SharpOptions)
+        .toColourspace(space)
+        .tiff({ compression: 'deflate', predictor: 'horizontal' })
+        .toBuffer();
+    } catch (err) {
+      throw new OutputError(output, `cannot be encoded as a multi-page TIFF (${(err as Error).message})`);
+    }
+    await writeFileAtomic(output, tiff, { force: options.force });
+    return { ...base, frames: all, outputs: [output], format: 'tiff', sources: all.map(source) };
+  }
+  if (ext === '.png' || ext === '.jpg' || ext === '.jpeg' || ext === '.webp')
+    throw new UsageError(
+      `expand: ${output} is a single image file, but ${file} holds ${h.frameCount} frames; give --frame I, a folder, or a .tif for one multi-page TIFF`,
+    );
+  // A folder of numbered PNG files. Decode everything first so a damaged chunk writes nothing.
+  const digits = Math.max(3, String(h.frameCount).length);
+  const outputs = all.map((j) => join(output, `frame-${String(j + 1).padStart(digits, '0')}.png`));
+  for (const o of outputs) await assertWritable(o, options.force);
+  const decoded = all.map((j) => reader.frame(j));
+  for (const j of all)
+    await encodeImage(
+      outputs[j],
+      { width: h.width, height: h.height, channels: h.channels, bitDepth: h.bitDepth, planes: decoded[j] },
+      {
+        force: options.force,
+        format: 'png',
+      },
+    );
+  return { ...base, frames: all, outputs, format: 'png', sources: all.map(source) };
+}
+
+/** True when `file` is a .rkf file with the stack layout (reads and checks only the header chunk). */
+export async function isStackFile(file: string): Promise<boolean> {
+  try {
+    const bytes = new Uint8Array(await readFile(file));
+    openStack(bytes, file);
+    return true;
+  } catch (err) {
+    if (err instanceof FormatError && /not a stack file/.test(err.message)) return false;
+    if (err instanceof RankfoldError) return /stack layout version/.test(err.message);
+    return false;
+  }
+}
