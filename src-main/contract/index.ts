@@ -8,6 +8,4 @@ export * from './image';
 export * from './compress';
 export * from './batch';
 export * from './api';
-export * from './inspect';
 export * from './stack';
-export * from './clean';
