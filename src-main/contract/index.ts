@@ -8,4 +8,6 @@ export * from './image';
 export * from './compress';
 export * from './batch';
 export * from './api';
+export * from './inspect';
 export * from './stack';
+export * from './clean';
