@@ -73,7 +73,7 @@ async function makeFolder(dir: string) {
   }
 }
 
-async function once(inDir: string, outDir: string, jobs: number) {
+async function once(inDir: string, outDir: string, jobs: number, include: string[] = []) {
   await rm(outDir, { recursive: true, force: true });
   const t0 = performance.now();
   const r = await runBatch({
@@ -81,6 +81,7 @@ async function once(inDir: string, outDir: string, jobs: number) {
     outDir,
     compress: OPTIONS,
     jobs,
+    include,
     workerFile: batchWorkerFile(),
     timeoutMs: 0,
   });

@@ -49,6 +49,10 @@ export interface BatchRow {
   /** Wall time for this file in the worker, milliseconds. */
   timeMs?: number;
   status: BatchStatus;
+  /** Budget and tile that made the output, e.g. `min-psnr=40 tile=auto`. */
+  settings?: string;
+  /** A remark on the status, e.g. how a kept output was verified. */
+  note?: string;
   error?: ErrorPayload;
   /** `--expand-check`: metrics measured again on the decoded output. */
   check?: { psnr: number; ssim?: number; ok: boolean; message?: string };

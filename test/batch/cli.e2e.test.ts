@@ -247,6 +247,22 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     expect(rows.map((x) => x.path)).toEqual(filesUnder(inDir));
     expect(rows.every((x) => x.status === 'ok' || x.status === 'kept')).toBe(true);
 
+    // With the manifest lost, the .rkf headers' source SHA-256 decides: everything is kept, nothing rewritten.
+    await rm(join(out, 'rankfold-manifest.jsonl'));
+    const byHeader = run([inDir, '-o', out, ...BUDGET, '--resume', '--json']);
+    expect(byHeader.code, byHeader.stderr).toBe(0);
+    const hdrEvents = jsonLines(byHeader.stdout).filter((e) => e.event === 'file');
+    expect(hdrEvents.map((e) => e.status)).toEqual(new Array(14).fill('kept'));
+    expect(String(hdrEvents[0].note)).toContain('.rkf header records the same source SHA-256');
+    expect(hashTree(out, rkfOnly)).toEqual(refHashes);
+    // Other settings: every file is made again.
+    const other = jsonLines(
+      run([inDir, '-o', out, '--rank', '3', '--tile', '32', '--resume', '--json']).stdout,
+    );
+    expect(other.filter((e) => e.event === 'file' && e.status === 'ok')).toHaveLength(14);
+    expect(run([inDir, '-o', out, ...BUDGET, '--force']).code).toBe(0);
+    expect(hashTree(out, rkfOnly)).toEqual(refHashes);
+
     // A changed source is compressed again, not kept.
     await writePage(join(inDir, 'box-0', 'page-00.png'), 160, 120, 99);
     const again = jsonLines(run([inDir, '-o', out, ...BUDGET, '--resume', '--json']).stdout).filter(

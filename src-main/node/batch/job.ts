@@ -8,6 +8,11 @@ export interface BatchJob {
   /** Replace an existing output (set by --force, or by --resume for an output with no matching record). */
   overwrite: boolean;
   expandCheck: boolean;
+  /**
+   * --resume found this output but no matching manifest row: keep it if its .rkf header's source SHA-256
+   * equals the decoded input's, otherwise compress again (overwriting).
+   */
+  verifyExisting?: boolean;
 }
 
 export interface ExpandCheck {
@@ -17,8 +22,22 @@ export interface ExpandCheck {
   message?: string;
 }
 
+/** What the .rkf header of an output kept by `verifyExisting` says. */
+export interface KeptOutput {
+  sourceSha256: string;
+  width: number;
+  height: number;
+  channels: number;
+  bitDepth: number;
+  bytes: number;
+  rawBytes: number;
+  inputBytes: number;
+}
+
 export interface BatchJobResult {
-  report: CompressReport;
+  /** Set when an existing output was verified by its header and kept (then `report` is absent). */
+  kept?: KeptOutput;
+  report?: CompressReport;
   fileSha256: string;
   check?: ExpandCheck;
   timeMs: number;

@@ -115,9 +115,48 @@ function baseRow(f: PlannedFile, shard: string): BatchRow {
   };
 }
 
-function rowFromResult(f: PlannedFile, shard: string, r: BatchJobResult): BatchRow {
+/** The settings that shape an output, as text; --resume redoes a file whose row has other settings. */
+export function settingsText(c: CompressOptions): string {
+  const b = c.budget;
+  const budget =
+    b.kind === 'rank'
+      ? `rank=${b.rank}`
+      : b.kind === 'bytes'
+        ? `bytes=${b.bytes}`
+        : b.kind === 'percent'
+          ? `percent=${b.percent}`
+          : b.kind === 'bpp'
+            ? `bpp=${b.bpp}`
+            : b.kind === 'psnr'
+              ? `min-psnr=${b.db}`
+              : `min-ssim=${b.value}`;
+  return `${budget} tile=${c.tile}${c.page ? ` page=${c.page}` : ''}`;
+}
+
+function rowFromResult(f: PlannedFile, shard: string, r: BatchJobResult, settings: string): BatchRow {
+  if (r.kept || !r.report) {
+    const k = r.kept!;
+    return {
+      ...baseRow(f, shard),
+      fileSha256: r.fileSha256,
+      sourceSha256: k.sourceSha256,
+      inputBytes: k.inputBytes,
+      rawBytes: k.rawBytes,
+      bytes: k.bytes,
+      ratio: k.rawBytes / k.bytes,
+      bpp: (8 * k.bytes) / (k.width * k.height),
+      width: k.width,
+      height: k.height,
+      channels: k.channels,
+      bitDepth: k.bitDepth,
+      timeMs: r.timeMs,
+      status: 'kept',
+      note: 'kept: the .rkf header records the same source SHA-256 (no manifest row; PSNR/SSIM not re-measured)',
+    };
+  }
   const rep = r.report;
   const row: BatchRow = {
+    settings,
     ...baseRow(f, shard),
     fileSha256: r.fileSha256,
     sourceSha256: rep.sourceSha256,
@@ -195,6 +234,8 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
   }
   const kept = new Map<string, BatchRow>();
   const overwrite = new Set<string>();
+  const verify = new Set<string>();
+  const settings = settingsText(o.compress);
   if (o.resume) {
     await eachLimit(plan.files, jobs, async (f) => {
       const size = await existingSize(f.outputAbs);
@@ -205,6 +246,7 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
         (prev.status === 'ok' || prev.status === 'kept') &&
         prev.output === f.output &&
         prev.bytes === size &&
+        prev.settings === settings &&
         prev.fileSha256
       ) {
         try {
@@ -222,8 +264,10 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
           // Unreadable now: compress again, which reports the problem for this file.
         }
       }
-      // An output with no matching record (a kill between rename and journal, or a changed source): redo it.
-      overwrite.add(f.path);
+      // No row (a kill between rename and journal, or a lost manifest): the worker checks the .rkf header.
+      // A row that does not match (other settings, changed source): compress again.
+      if (!prev || prev.status === 'failed') verify.add(f.path);
+      else overwrite.add(f.path);
     });
   }
   const todo = plan.files.filter((f) => !kept.has(f.path));
@@ -298,6 +342,7 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
             output: f.outputAbs,
             options: o.compress,
             overwrite: Boolean(o.force) || overwrite.has(f.path),
+            verifyExisting: !o.force && verify.has(f.path),
             expandCheck: Boolean(o.expandCheck),
           },
           { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: f.path },
@@ -305,7 +350,7 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
         if (!outcome.ok && outcome.error.name === 'CancelledError') return;
         bytesDone += f.size;
         let row: BatchRow;
-        if (outcome.ok) row = rowFromResult(f, shardLabel, outcome.value);
+        if (outcome.ok) row = rowFromResult(f, shardLabel, outcome.value, settings);
         else {
           // A stopped worker may have left its temp file behind.
           await sweepTemps([f.outputAbs]);

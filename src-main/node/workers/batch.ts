@@ -8,7 +8,8 @@ import { toErrorPayload } from '../../contract';
 import { expandCheck } from '../batch/check';
 import { hashFile, loadCompressor, makeOutputFolder } from '../batch/codec';
 import type { BatchJob, BatchJobResult } from '../batch/job';
-import { probeImage } from '../image/decode';
+import { verifyByHeader } from '../batch/verify';
+import { decodeImage, probeImage } from '../image/decode';
 
 if (!parentPort) throw new Error('src-main/node/workers/batch.ts must run as a worker thread');
 const port = parentPort;
@@ -21,12 +22,20 @@ port.on('message', async (msg: { type: string; id: number; payload: BatchJob }) 
     const fileSha256 = await hashFile(payload.input);
     // Header check first: empty, non-image, unsupported depth and over-limit files fail here, fast and with one wording.
     await probeImage(payload.input, { page: payload.options.page, pixelLimit: payload.options.pixelLimit });
+    if (payload.verifyExisting) {
+      const kept = await verifyByHeader(payload.input, payload.output, payload.options, decodeImage);
+      if (kept) {
+        const result: BatchJobResult = { kept, fileSha256, timeMs: performance.now() - started };
+        port.postMessage({ type: 'done', id, result });
+        return;
+      }
+    }
     await makeOutputFolder(payload.output);
     const compressFile = await loadCompressor();
     const report = await compressFile(
       payload.input,
       payload.output,
-      { ...payload.options, force: payload.overwrite },
+      { ...payload.options, force: payload.overwrite || payload.verifyExisting },
       { onProgress: (p: unknown) => port.postMessage({ type: 'progress', id, data: p }) },
     );
     const check = payload.expandCheck
