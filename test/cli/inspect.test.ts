@@ -66,9 +66,8 @@ describe('rankfold inspect --json on the open test images', () => {
       expect(r.singularValues).toHaveLength(Math.min(m, n)); // full spectrum: short side ≤ 2048
       expect(r.spectra[0].complete).toBe(true);
       const s1 = ref.first_20_singular_values[0];
-      ref.first_20_singular_values.forEach((v, i) =>
-        expect(Math.abs(r.singularValues[i] - v)).toBeLessThan(1e-9 * s1),
-      );
+      for (const [i, v] of ref.first_20_singular_values.entries())
+        expect(Math.abs(r.singularValues[i] - v)).toBeLessThan(1e-9 * s1);
       for (let i = 1; i < r.singularValues.length; i++)
         expect(r.singularValues[i]).toBeLessThanOrEqual(r.singularValues[i - 1]);
       expect(r.spectra[0].energy).toBe(ref.pixel_sum_of_squares); // exact integer sum
@@ -119,7 +118,9 @@ describe('rankfold inspect on colour, pages and text output', () => {
       Array.from({ length: h }, (_, y) => Array.from({ length: w }, (_, x) => p(y * w + x)));
     const check = (got: number[], p: (i: number) => number) => {
       const want = new MlSVD(new MlMatrix(rows(p)), { autoTranspose: true }).diagonal;
-      want.forEach((v, i) => expect(Math.abs(got[i] - v)).toBeLessThan(1e-4 * want[0]));
+      want.forEach((v, i) => {
+        expect(Math.abs(got[i] - v)).toBeLessThan(1e-4 * want[0]);
+      });
     };
     // Luma is formed in float32 from the exact weights, hence the 1e-4·σ₁ tolerance (f32 rounding of Y, ~1e-7 relative).
     check(r.singularValues, (i) => 0.299 * R[i] + 0.587 * G[i] + 0.114 * B[i]);
