@@ -77,6 +77,8 @@ describe('container', () => {
   });
 
   it('says when a file is not a container', () => {
-    expect(() => readContainer(ascii('hello, this is not a rankfold file at all'), 'n.rkf')).toThrow(/not a Rankfold \.rkf file/);
+    expect(() => readContainer(ascii('hello, this is not a rankfold file at all'), 'n.rkf')).toThrow(
+      /not a Rankfold \.rkf file/,
+    );
   });
 });

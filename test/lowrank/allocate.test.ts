@@ -1,7 +1,12 @@
 // Greedy rank allocation against exhaustive search (the optimality argument is in src-main/engine/lowrank/allocate.ts:
 // Fox 1966 marginal analysis; Shoham & Gersho 1988 — both from memory).
 import { describe, expect, it } from 'vitest';
-import { allocateGreedy, greedyOrder, hullBlocks, ranksOfPrefix } from '../../src-main/engine/lowrank/allocate';
+import {
+  allocateGreedy,
+  greedyOrder,
+  hullBlocks,
+  ranksOfPrefix,
+} from '../../src-main/engine/lowrank/allocate';
 
 function lcg(seed: number) {
   let s = seed >>> 0;

@@ -274,14 +274,19 @@ function solveFor(
 ): Plan {
   if (budget.kind === 'rank') {
     let loss = RANK_QUANT_LOSS;
-    let plan = solveRank(inputs, budget.rank, max, loss, RANK_QUANT_FLOOR_MSE);
+    let floor = RANK_QUANT_FLOOR_MSE;
+    let plan = solveRank(inputs, budget.rank, max, loss, floor);
+    const fullRank = inputs.every((i) =>
+      i.factors.tiles.every((t) => budget.rank >= Math.min(t.rect.w, t.rect.h)),
+    );
     // Verify on the decoded file: the quantiser may not cost more than ~0.25 dB over the rank-K optimum.
-    for (let i = 0; i < 3; i++) {
-      const trunc = plan.estimatedError;
+    // At full rank, refine the step until the file decodes to the source exactly (lossless), if it can.
+    for (let i = 0; i < (fullRank ? 8 : 3); i++) {
       const measured = measuredSse(build(plan.planes), img, prep);
-      if (measured <= trunc * 1.06 + 1e-9 || trunc === 0) break;
+      if (fullRank ? measured === 0 : measured <= plan.estimatedError * 1.06 + 1e-9) break;
       loss /= 4;
-      plan = solveRank(inputs, budget.rank, max, loss, RANK_QUANT_FLOOR_MSE / 4);
+      floor /= 4;
+      plan = solveRank(inputs, budget.rank, max, loss, floor);
     }
     return plan;
   }
@@ -337,7 +342,7 @@ function solveFor(
     let lo = measure(inputs.map((i) => emptyPlane(i)));
     let hi = img.rawBytes + lo;
     let found: Plan | undefined;
-    for (let i = 0; i < 12 && hi - lo > Math.max(16, lo * 0.005); i++) {
+    for (let i = 0; i < 10 && hi - lo > Math.max(16, hi * 0.02); i++) {
       const mid = Math.floor(Math.sqrt(lo * hi));
       const plan = solveBytes(inputs, mid, max, measure);
       const bytes = build(plan.planes);

@@ -286,7 +286,10 @@ export function solveBytes(
   const k0 = coarse[0].k;
   refineAt(k0);
   // Pass 2: with the measured ratio, the best neighbour of the best coarse step (half an octave away).
-  const fine = scan([k0 - 1, k0 + 1].filter((k) => k >= 0 && k < grid.length), ratio).sort((a, b) => a.err - b.err);
+  const fine = scan(
+    [k0 - 1, k0 + 1].filter((k) => k >= 0 && k < grid.length),
+    ratio,
+  ).sort((a, b) => a.err - b.err);
   if (fine.length) refineAt(fine[0].k);
   if (!best) {
     const c = empty;
@@ -419,7 +422,10 @@ export function solveError(inputs: PlaneInput[], dmax: number, maxValue: number,
     if (!best || c.cumCost[P] < best.cost) best = { c, P, cost: c.cumCost[P], k };
   };
   // Coarse scan (whole octaves), or a neighbourhood of a previous answer, then the half-octave neighbours.
-  const ks = around === undefined ? grid.map((_, k) => k).filter((k) => k % 2 === 0) : [around - 2, around, around + 2];
+  const ks =
+    around === undefined
+      ? grid.map((_, k) => k).filter((k) => k % 2 === 0)
+      : [around - 2, around, around + 2];
   for (const k of ks) tryK(k);
   const found = best as { k: number } | undefined;
   if (found) {
