@@ -1,0 +1,127 @@
+/** Requests and results of `clean`, shared by the CLI, the worker pool, IPC and HTTP. */
+import { UsageError } from './errors';
+
+/** 'auto' estimates σ from the image; a number is σ in grey levels of the input; 'off' skips denoising. */
+export type NoiseMode = 'auto' | 'off' | number;
+export type BandingMode = 'auto' | 'rows' | 'columns' | 'both' | 'off';
+export type BandingDirectionResult = 'none' | 'rows' | 'columns' | 'both';
+/** 'groups' = block-matched patch groups (default); 'tiles' = overlapping tiles with Hann blending. */
+export type DenoiseMethod = 'groups' | 'tiles';
+
+export const BANDING_MODES: readonly BandingMode[] = ['auto', 'rows', 'columns', 'both', 'off'];
+export const DENOISE_METHODS: readonly DenoiseMethod[] = ['groups', 'tiles'];
+
+export interface CleanOptions {
+  noise: NoiseMode;
+  banding: BandingMode;
+  /** Keep exactly this many singular components per group/tile instead of the Gavish–Donoho threshold. */
+  rank?: number;
+  /** Fixed singular-value threshold per group/tile, in grey levels, instead of the Gavish–Donoho threshold. */
+  threshold?: number;
+  method?: DenoiseMethod;
+  /** Patch side (groups) in pixels, 4–12; automatic from σ when omitted. */
+  patch?: number;
+  /** Patches per group, 8–96; automatic when omitted. */
+  groupSize?: number;
+  /** Tile side (tiles method), 8–128; automatic when omitted. */
+  tile?: number;
+  /** Worker threads for denoising: 0 = in this thread; default 2. Output is identical for any count. */
+  workers?: number;
+  /** TIFF page, 0-based. */
+  page?: number;
+  pixelLimit?: number;
+  /** Overwrite existing outputs. */
+  force?: boolean;
+  /** Also write the removed part as an 8-bit PNG (offset to mid-grey, scaled). */
+  removed?: string;
+  /** Also write the stripe profiles as CSV. */
+  profile?: string;
+}
+
+export interface AxisBandingReport {
+  detected: boolean;
+  removed: boolean;
+  /** RMS of the stripe profile, grey levels of the input (strongest channel). */
+  strength: number;
+  /** Dominant period in pixels, or null. */
+  period: number | null;
+  /** Standard error of the profile estimate, grey levels. */
+  noiseFloor: number;
+  /** Agreement of the two image halves' profiles (1 = identical). */
+  consistency: number;
+}
+
+export interface BandingReport {
+  mode: BandingMode;
+  direction: BandingDirectionResult;
+  /** RMS of the removed stripe pattern (rows and columns combined), grey levels; 0 when none removed. */
+  strength: number;
+  /** Period of the strongest removed axis, or null. */
+  period: number | null;
+  rows: AxisBandingReport | null;
+  columns: AxisBandingReport | null;
+}
+
+export interface NoisePlaneReport {
+  /** 'gray', or 'Y', 'Cb', 'Cr' for colour (JFIF YCbCr). */
+  plane: string;
+  /** σ used, in that plane's units (grey levels). */
+  sigma: number;
+  /** Gavish–Donoho threshold of a typical group/tile of this plane, grey levels. */
+  threshold: number;
+}
+
+export interface CleanReport {
+  input: string;
+  output: string;
+  removed?: string;
+  removedScale?: number;
+  profile?: string;
+  width: number;
+  height: number;
+  channels: number;
+  bitDepth: 8 | 16;
+  /** σ̂ of the noise in grey levels of the input (per colour channel), or null when denoising is off. */
+  noiseSigma: number | null;
+  /** How noiseSigma was obtained. */
+  noiseSource: 'estimated' | 'given' | 'off';
+  /** Gavish–Donoho σ̂ = y_med/√(n·μ_β), median over sampled patch groups (a cross-check), grey levels. */
+  noiseSigmaMedianRule: number | null;
+  /** Threshold of a typical group (luma/gray plane), grey levels; null when off or a fixed rank is used. */
+  threshold: number | null;
+  method: DenoiseMethod | 'off';
+  /** Why denoising did not run, when it did not. */
+  noiseSkipped?: string;
+  /** Per-group (or per-tile) kept rank. */
+  rank: { fixed: number | null; groups: number; mean: number; min: number; max: number } | null;
+  planes: NoisePlaneReport[];
+  params: {
+    patch?: number;
+    groupSize?: number;
+    stride?: number;
+    searchRadius?: number;
+    tile?: number;
+  } | null;
+  banding: BandingReport;
+  /** PSNR of the output against the input, dB; null when the output equals the input (infinite PSNR). */
+  psnrChange: number | null;
+  /** Samples whose value changed. */
+  changedSamples: number;
+  /** RMS of the removed part, grey levels. */
+  removedRms: number;
+  workers: number;
+  timings: { decodeMs: number; bandingMs: number; denoiseMs: number; encodeMs: number; totalMs: number };
+  caution: string;
+}
+
+/** Parse `--noise auto|off|SIGMA`. */
+export function parseNoiseText(text: string, maxValue = 65535): NoiseMode {
+  const t = text.trim().toLowerCase();
+  if (t === 'auto' || t === 'off') return t;
+  const v = Number(t);
+  if (t === '' || !Number.isFinite(v) || !(v > 0) || v > maxValue)
+    throw new UsageError(
+      `Expected auto, off or a noise σ above 0 in grey levels (e.g. 8) for noise but received ${JSON.stringify(text)}`,
+    );
+  return v;
+}

@@ -1,0 +1,371 @@
+/**
+ * The cleaning pipeline on decoded planes, split so that the costly denoising step can run in worker
+ * threads over row bands: prepareClean (banding, noise level, sizes) → denoise bands → finishClean
+ * (back to RGB, rounding, removed part, report figures). Pure: no Node, no I/O.
+ */
+import type { BandingMode, BandingReport, DenoiseMethod, NoiseMode, NoisePlaneReport } from '../../contract';
+import { psnrPlanes } from '../metrics';
+import { analyseBanding, type BandingAnalysis, subtractProfiles } from './banding';
+import { NOISE_GAIN_YCBCR, rgbToYcbcr, ycbcrToRgb } from './colour';
+import { lambdaStar } from './gavish-donoho';
+import { estimateNoiseSigma } from './noise-estimate';
+import {
+  autoGroupParams,
+  denoiseGroupsBand,
+  type GroupParams,
+  type GroupStats,
+  groupMedianRuleSigma,
+} from './patch-groups';
+import { autoTileSize, denoiseTiles } from './tiles';
+
+export interface CleanInput {
+  width: number;
+  height: number;
+  channels: 1 | 2 | 3 | 4;
+  bitDepth: 8 | 16;
+  planes: Float32Array[];
+}
+
+export interface CleanSettings {
+  noise: NoiseMode;
+  banding: BandingMode;
+  rank?: number;
+  threshold?: number;
+  method?: DenoiseMethod;
+  patch?: number;
+  groupSize?: number;
+  tile?: number;
+}
+
+/** Below this σ (8-bit scale) an estimated noise level is taken as "no noise": 8-bit rounding alone gives 0.29. */
+export const MIN_AUTO_SIGMA_8BIT = 0.6;
+
+export interface PreparedClean {
+  width: number;
+  height: number;
+  maxValue: number;
+  colour: boolean;
+  /** Colour (non-alpha) channels after banding removal, unrounded. */
+  corrected: Float32Array[];
+  /** Planes to denoise: [gray] or [Y, Cb, Cr]; empty when denoising is off. */
+  work: Float32Array[];
+  workNames: string[];
+  sigmas: number[];
+  noiseSigma: number | null;
+  noiseSource: 'estimated' | 'given' | 'off';
+  noiseSkipped?: string;
+  method: DenoiseMethod | 'off';
+  params: GroupParams | null;
+  tile: number | null;
+  banding: BandingReport;
+  /** Per colour channel profiles that were subtracted (null when that axis was not removed). */
+  rowProfiles: Float64Array[] | null;
+  columnProfiles: Float64Array[] | null;
+  bandingMs: number;
+  /** User overrides of the threshold rule. */
+  fixed: { rank?: number; threshold?: number };
+}
+
+const clock = (globalThis as { performance?: { now(): number } }).performance;
+const now = () => (clock ? clock.now() : Date.now());
+
+export function prepareClean(input: CleanInput, settings: CleanSettings): PreparedClean {
+  const { width, height, channels } = input;
+  const maxValue = input.bitDepth === 16 ? 65535 : 255;
+  const colourCount = channels >= 3 ? 3 : 1;
+  const colour = colourCount === 3;
+  const t0 = now();
+  // 1. Banding, per colour channel; an axis found in any channel is removed from all of them.
+  let corrected = input.planes.slice(0, colourCount);
+  const analyses: BandingAnalysis[] = [];
+  let rowProfiles: Float64Array[] | null = null;
+  let columnProfiles: Float64Array[] | null = null;
+  if (settings.banding !== 'off') {
+    for (const plane of corrected)
+      analyses.push(analyseBanding(plane, width, height, settings.banding, { maxValue }));
+    const removeRows = analyses.some((a) => a.removeRows);
+    const removeColumns = analyses.some((a) => a.removeColumns);
+    if (removeRows || removeColumns) {
+      rowProfiles = removeRows ? analyses.map((a) => a.rows.profile) : null;
+      columnProfiles = removeColumns ? analyses.map((a) => a.columns.profile) : null;
+      corrected = corrected.map((p, c) =>
+        subtractProfiles(p, width, height, rowProfiles?.[c] ?? null, columnProfiles?.[c] ?? null),
+      );
+    }
+  }
+  const banding = bandingReport(settings.banding, analyses, rowProfiles, columnProfiles);
+  const bandingMs = now() - t0;
+  // 2. Noise level and sizes.
+  const fixed = { rank: settings.rank, threshold: settings.threshold };
+  const base = {
+    width,
+    height,
+    maxValue,
+    colour,
+    corrected,
+    banding,
+    rowProfiles,
+    columnProfiles,
+    bandingMs,
+    fixed,
+  };
+  if (settings.noise === 'off')
+    return {
+      ...base,
+      work: [],
+      workNames: [],
+      sigmas: [],
+      noiseSigma: null,
+      noiseSource: 'off',
+      method: 'off',
+      params: null,
+      tile: null,
+    };
+  const work = colour
+    ? rgbToYcbcr(corrected[0], corrected[1], corrected[2], (maxValue + 1) / 2)
+    : [corrected[0]];
+  const workNames = colour ? ['Y', 'Cb', 'Cr'] : ['gray'];
+  let sigmas: number[];
+  let noiseSigma: number;
+  if (typeof settings.noise === 'number') {
+    noiseSigma = settings.noise;
+    sigmas = colour ? NOISE_GAIN_YCBCR.map((g) => g * noiseSigma) : [noiseSigma];
+  } else {
+    sigmas = work.map((p, c) =>
+      c === 0 ? estimateNoiseSigma(p, width, height, 0, maxValue) : estimateNoiseSigma(p, width, height),
+    );
+    noiseSigma = colour ? sigmas[0] / NOISE_GAIN_YCBCR[0] : sigmas[0];
+  }
+  const noiseSource = typeof settings.noise === 'number' ? 'given' : 'estimated';
+  const sigma8 = (noiseSigma * 255) / maxValue;
+  const method = settings.method ?? 'groups';
+  const fixedOverride = settings.rank !== undefined || settings.threshold !== undefined;
+  if (noiseSource === 'estimated' && sigma8 < MIN_AUTO_SIGMA_8BIT && !fixedOverride)
+    return {
+      ...base,
+      work: [],
+      workNames: [],
+      sigmas: [],
+      noiseSigma,
+      noiseSource,
+      noiseSkipped: `estimated noise σ ${noiseSigma.toFixed(2)} is below ${((MIN_AUTO_SIGMA_8BIT * maxValue) / 255).toFixed(2)} grey levels (rounding level); nothing to remove`,
+      method: 'off',
+      params: null,
+      tile: null,
+    };
+  if (method === 'tiles') {
+    const tile = settings.tile ?? autoTileSize(sigma8);
+    return { ...base, work, workNames, sigmas, noiseSigma, noiseSource, method, params: null, tile };
+  }
+  const auto = autoGroupParams(sigma8);
+  const patch = settings.patch ?? auto.patch;
+  const params: GroupParams = {
+    ...auto,
+    patch,
+    stride: Math.max(1, patch - 1),
+    groupSize: settings.groupSize ?? auto.groupSize,
+    rank: settings.rank,
+    threshold: settings.threshold,
+  };
+  return { ...base, work, workNames, sigmas, noiseSigma, noiseSource, method, params, tile: null };
+}
+
+function bandingReport(
+  mode: BandingMode,
+  analyses: BandingAnalysis[],
+  rowProfiles: Float64Array[] | null,
+  columnProfiles: Float64Array[] | null,
+): BandingReport {
+  if (mode === 'off' || analyses.length === 0)
+    return { mode, direction: 'none', strength: 0, period: null, rows: null, columns: null };
+  const axis = (key: 'rows' | 'columns', removed: boolean) => {
+    const best = analyses.reduce((a, b) => (b[key].strength > a[key].strength ? b : a))[key];
+    return {
+      detected: analyses.some((a) => a[key].detected),
+      removed,
+      strength: best.strength,
+      period: best.period,
+      noiseFloor: best.noiseFloor,
+      consistency: best.consistency,
+    };
+  };
+  const rows = axis('rows', rowProfiles !== null);
+  const columns = axis('columns', columnProfiles !== null);
+  const direction =
+    rows.removed && columns.removed ? 'both' : rows.removed ? 'rows' : columns.removed ? 'columns' : 'none';
+  const strength = Math.sqrt(
+    (rows.removed ? rows.strength ** 2 : 0) + (columns.removed ? columns.strength ** 2 : 0),
+  );
+  const period =
+    rows.removed && columns.removed
+      ? rows.strength >= columns.strength
+        ? rows.period
+        : columns.period
+      : rows.removed
+        ? rows.period
+        : columns.removed
+          ? columns.period
+          : null;
+  return { mode, direction, strength, period, rows, columns };
+}
+
+export interface DenoiseStats {
+  groups: number;
+  rankSum: number;
+  rankMin: number;
+  rankMax: number;
+  exact: number;
+}
+
+/** Merge band statistics. Groups near a band edge are counted by both bands; the summary is indicative. */
+export function mergeStats(parts: GroupStats[]): DenoiseStats {
+  const out: DenoiseStats = {
+    groups: 0,
+    rankSum: 0,
+    rankMin: Number.POSITIVE_INFINITY,
+    rankMax: 0,
+    exact: 0,
+  };
+  for (const s of parts) {
+    out.groups += s.groups;
+    out.rankSum += s.rankSum;
+    out.rankMin = Math.min(out.rankMin, s.rankMin);
+    out.rankMax = Math.max(out.rankMax, s.rankMax);
+    out.exact += s.exact;
+  }
+  if (!Number.isFinite(out.rankMin)) out.rankMin = 0;
+  return out;
+}
+
+/** Split rows into `count` bands of near-equal height. */
+export function rowBands(height: number, count: number): Array<[number, number]> {
+  const n = Math.max(1, Math.min(count, height));
+  const out: Array<[number, number]> = [];
+  for (let i = 0; i < n; i++) out.push([Math.floor((i * height) / n), Math.floor(((i + 1) * height) / n)]);
+  return out;
+}
+
+/** Denoise in this thread (same band code as the workers, so the result is identical). */
+export function denoiseInProcess(
+  prep: PreparedClean,
+  bands = 1,
+  onProgress?: (fraction: number) => void,
+): { planes: Float32Array[]; stats: DenoiseStats } {
+  const { width, height } = prep;
+  if (prep.method === 'tiles') {
+    const parts = prep.work.map((p, c) =>
+      denoiseTiles(p, width, height, prep.sigmas[c], prep.tile ?? 16, prep.fixed),
+    );
+    return {
+      planes: parts.map((r) => r.plane),
+      stats: mergeStats(
+        parts.map((r) => ({
+          groups: r.stats.tiles,
+          rankSum: r.stats.rankSum,
+          rankMin: r.stats.rankMin,
+          rankMax: r.stats.rankMax,
+          exact: 0,
+        })),
+      ),
+    };
+  }
+  const params = prep.params as GroupParams;
+  const out = prep.work.map(() => new Float32Array(width * height));
+  const stats: GroupStats[] = [];
+  const list = rowBands(height, bands);
+  list.forEach(([r0, r1], b) => {
+    const res = denoiseGroupsBand(prep.work, width, height, prep.sigmas, params, r0, r1, prep.work[0], (f) =>
+      onProgress?.((b + f) / list.length),
+    );
+    for (let c = 0; c < res.planes.length; c++) out[c].set(res.planes[c], r0 * width);
+    stats.push(res.stats);
+  });
+  return { planes: out, stats: mergeStats(stats) };
+}
+
+export interface FinishedClean {
+  /** All channels (alpha copied unchanged), integer-valued, clipped to the sample range. */
+  planes: Float32Array[];
+  /** input − output per colour channel. */
+  removed: Float32Array[];
+  psnrChange: number | null;
+  changedSamples: number;
+  removedRms: number;
+  noisePlanes: NoisePlaneReport[];
+  threshold: number | null;
+  noiseSigmaMedianRule: number | null;
+}
+
+export function finishClean(
+  input: CleanInput,
+  prep: PreparedClean,
+  denoised: Float32Array[] | null,
+): FinishedClean {
+  const { width, height, maxValue } = prep;
+  const colourCount = prep.corrected.length;
+  let colourPlanes = prep.corrected;
+  if (denoised?.length)
+    colourPlanes = prep.colour
+      ? ycbcrToRgb(denoised[0], denoised[1], denoised[2], (maxValue + 1) / 2)
+      : [denoised[0]];
+  const planes: Float32Array[] = [];
+  const removed: Float32Array[] = [];
+  let changed = 0;
+  let sq = 0;
+  for (let c = 0; c < colourCount; c++) {
+    const src = input.planes[c];
+    const v = colourPlanes[c];
+    const o = new Float32Array(width * height);
+    const r = new Float32Array(width * height);
+    for (let i = 0; i < o.length; i++) {
+      const q = Math.min(maxValue, Math.max(0, Math.round(v[i])));
+      o[i] = q;
+      const d = src[i] - q;
+      r[i] = d;
+      if (d !== 0) changed++;
+      sq += d * d;
+    }
+    planes.push(o);
+    removed.push(r);
+  }
+  for (let c = colourCount; c < input.planes.length; c++) planes.push(Float32Array.from(input.planes[c]));
+  const psnr =
+    changed === 0
+      ? null
+      : psnrPlanes(planes.slice(0, colourCount), input.planes.slice(0, colourCount), maxValue);
+  const params = prep.params;
+  const noisePlanes: NoisePlaneReport[] = prep.work.length
+    ? prep.workNames.map((name, c) => ({
+        plane: name,
+        sigma: prep.sigmas[c],
+        threshold: typicalThreshold(prep, c),
+      }))
+    : [];
+  const fixedRank = prep.fixed.rank !== undefined;
+  return {
+    planes,
+    removed,
+    psnrChange: psnr,
+    changedSamples: changed,
+    removedRms: Math.sqrt(sq / (colourCount * width * height)),
+    noisePlanes,
+    threshold: noisePlanes.length && !fixedRank ? noisePlanes[0].threshold : null,
+    noiseSigmaMedianRule:
+      params && prep.work.length ? groupMedianRuleSigma(prep.work[0], width, height, params, 256) : null,
+  };
+}
+
+/** Threshold of a full group (m = patch², n = groupSize − 1 after centring) or a tile, for the report. */
+function typicalThreshold(prep: PreparedClean, plane: number): number {
+  const sigma = prep.sigmas[plane];
+  if (prep.params) {
+    if (prep.params.threshold !== undefined) return prep.params.threshold;
+    const m = prep.params.patch ** 2;
+    const n = prep.params.groupSize - 1;
+    const big = Math.max(m, n);
+    return lambdaStar(Math.min(m, n) / big) * Math.sqrt(big) * sigma;
+  }
+  if (prep.fixed.threshold !== undefined) return prep.fixed.threshold;
+  const T = prep.tile ?? 16;
+  return lambdaStar(1) * Math.sqrt(T) * sigma;
+}

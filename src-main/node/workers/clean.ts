@@ -1,0 +1,57 @@
+/**
+ * Denoising worker: runs the patch-group denoiser on one band of rows and writes the band into the shared
+ * output planes. Started by src-main/node/services/clean.ts (one worker per band). Every band reads the
+ * whole input and processes, in global order, every group that can reach it, so the output does not
+ * depend on how many workers share the image.
+ */
+import { parentPort, workerData } from 'node:worker_threads';
+import { toErrorPayload } from '../../contract';
+import { denoiseGroupsBand, type GroupParams } from '../../engine/clean';
+
+export interface CleanWorkerData {
+  width: number;
+  height: number;
+  /** SharedArrayBuffers holding the Float32 input planes (gray, or Y Cb Cr). */
+  input: SharedArrayBuffer[];
+  /** SharedArrayBuffers for the Float32 output planes; this worker writes rows [rowStart, rowEnd). */
+  output: SharedArrayBuffer[];
+  sigmas: number[];
+  params: GroupParams;
+  rowStart: number;
+  rowEnd: number;
+}
+
+export type CleanWorkerMessage =
+  | { type: 'progress'; fraction: number }
+  | {
+      type: 'done';
+      stats: { groups: number; rankSum: number; rankMin: number; rankMax: number; exact: number };
+    }
+  | { type: 'error'; error: ReturnType<typeof toErrorPayload> };
+
+const data = workerData as CleanWorkerData;
+try {
+  const planes = data.input.map((b) => new Float32Array(b));
+  let last = 0;
+  const res = denoiseGroupsBand(
+    planes,
+    data.width,
+    data.height,
+    data.sigmas,
+    data.params,
+    data.rowStart,
+    data.rowEnd,
+    planes[0],
+    (f) => {
+      if (f - last >= 0.02 || f >= 1) {
+        last = f;
+        parentPort?.postMessage({ type: 'progress', fraction: f } satisfies CleanWorkerMessage);
+      }
+    },
+  );
+  for (let c = 0; c < res.planes.length; c++)
+    new Float32Array(data.output[c]).set(res.planes[c], data.rowStart * data.width);
+  parentPort?.postMessage({ type: 'done', stats: res.stats } satisfies CleanWorkerMessage);
+} catch (err) {
+  parentPort?.postMessage({ type: 'error', error: toErrorPayload(err) } satisfies CleanWorkerMessage);
+}
