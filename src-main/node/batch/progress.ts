@@ -33,7 +33,7 @@ export function terminalProgress(total: number, stream: NodeJS.WriteStream = pro
       const secs = (performance.now() - started) / 1000;
       const rate = secs > 0 ? p.bytesDone / secs : 0;
       bar.update(p.done, {
-        mbps: (rate / 1e6).toFixed(1),
+        mbps: (rate / 1e6).toFixed(rate < 1e6 ? 2 : 1),
         etaText: rate > 0 ? fmtEta((p.bytesTotal - p.bytesDone) / rate) : '–',
         failed: p.failed,
       });

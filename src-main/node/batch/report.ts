@@ -95,8 +95,8 @@ h1{font-size:22px;margin:0 0 4px}h2{font-size:17px;margin:28px 0 8px;border-bott
 table{border-collapse:collapse;width:100%;background:#fff}th,td{border-bottom:1px solid #e6e6e0;padding:4px 6px;text-align:left;vertical-align:top}
 th button{font:inherit;font-weight:600;background:none;border:0;padding:0;cursor:pointer;color:#1d4f73}th button::after{content:" ↕";color:#99a}
 td.n{text-align:right;font-variant-numeric:tabular-nums}tr.failed td{background:#fff1f0}.err{color:#a02020}
-.pairs{display:grid;grid-template-columns:repeat(auto-fill,minmax(340px,1fr));gap:14px}.pair{background:#fff;border:1px solid #e2e2da;padding:8px}
-.pair img{max-width:160px;max-height:160px;margin-right:6px;image-rendering:auto;border:1px solid #ccc}.pair figcaption{font-size:12px}
+.pairs{display:grid;grid-template-columns:repeat(auto-fill,minmax(340px,1fr));gap:14px}.pair{background:#fff;border:1px solid #e2e2da;padding:8px;margin:0}.duo{display:flex;gap:6px;align-items:flex-start}.duo span{font-size:11px;color:#667;display:block}
+.pair img{max-width:160px;max-height:200px;border:1px solid #ccc}.pair figcaption{font-size:12px}
 code{font-size:12px}`;
 
 const SCRIPT = `(function(){var t=document.getElementById('rows');if(!t)return;var dir={};
@@ -160,9 +160,9 @@ export function renderReport(
   const pairs = worst
     .map((r) => {
       const t = thumbs.get(r.path) ?? {};
-      const img = (src: string | undefined, alt: string) =>
-        src ? `<img src="${src}" alt="${escapeHtml(alt)}">` : '';
-      return `<figure class="pair">${img(t.original, `original ${r.path}`)}${img(t.reconstruction, `reconstruction ${r.path}`)}<figcaption><b>${escapeHtml(r.path)}</b><br>left: original · right: reconstruction from the .rkf<br>PSNR ${fmtDb(r.psnr)} dB · SSIM ${r.ssim?.toFixed(4) ?? '–'} · ratio ${r.ratio?.toFixed(2) ?? '–'}×${t.note ? `<br><span class="muted">${escapeHtml(t.note)}</span>` : ''}</figcaption></figure>`;
+      const img = (src: string | undefined, alt: string, label: string) =>
+        src ? `<div><img src="${src}" alt="${escapeHtml(alt)}"><span>${label}</span></div>` : '';
+      return `<figure class="pair"><div class="duo">${img(t.original, `original ${r.path}`, 'original')}${img(t.reconstruction, `reconstruction ${r.path}`, 'reconstruction (.rkf)')}</div><figcaption><b>${escapeHtml(r.path)}</b><br>PSNR ${fmtDb(r.psnr)} dB · SSIM ${r.ssim?.toFixed(4) ?? '–'} · ratio ${r.ratio?.toFixed(2) ?? '–'}×${t.note ? `<br><span class="muted">${escapeHtml(t.note)}</span>` : ''}</figcaption></figure>`;
     })
     .join('\n');
   const failures = failed.length

@@ -68,7 +68,10 @@ function summaryText(s: BatchSummary, warnings: string[], interrupted: boolean):
         ? `; ${s.outputBytes >= 1e6 ? `${(s.outputBytes / 1e6).toFixed(2)} MB` : `${(s.outputBytes / 1e3).toFixed(1)} kB`} written`
         : ''),
   ];
-  if (interrupted) lines.push('batch: interrupted; run the same command with --resume to finish');
+  if (interrupted) {
+    const left = s.total - s.ok - s.kept - s.failed;
+    lines.push(`batch: interrupted with ${left} file${left === 1 ? '' : 's'} not finished; run the same command with --resume to finish`);
+  }
   if (s.failures.length) {
     lines.push('Failed files:');
     for (const f of s.failures) lines.push(`  ${f}`);
