@@ -26,9 +26,9 @@ describe('singular values of real images vs LAPACK (rank_approx_images.json)', (
       const A = { rows, cols, data: plane };
       const s = singularValues(A);
       expect(s.length).toBe(Math.min(rows, cols));
-      im.first_20_singular_values.forEach((v: number, i: number) =>
-        expect(Math.abs(s[i] - v) / v).toBeLessThan(1e-10),
-      );
+      im.first_20_singular_values.forEach((v: number, i: number) => {
+        expect(Math.abs(s[i] - v) / v).toBeLessThan(1e-10);
+      });
       const energy = s.reduce((acc, v) => acc + v * v, 0);
       expect(Math.abs(energy - im.pixel_sum_of_squares) / im.pixel_sum_of_squares).toBeLessThan(1e-12);
       // Acceptance criterion of the engine (issue 2): top singular values within 1e-4·σ₁ of LAPACK.
@@ -36,9 +36,9 @@ describe('singular values of real images vs LAPACK (rank_approx_images.json)', (
       // (HMT §10), so the top 20 are read from a rank-40 run, as `rankfold inspect` would.
       const r = randomizedSvd(A, 40, { seed: 1 });
       const s1 = im.first_20_singular_values[0];
-      im.first_20_singular_values.forEach((v: number, i: number) =>
-        expect(Math.abs(r.s[i] - v)).toBeLessThan(1e-4 * s1),
-      );
+      im.first_20_singular_values.forEach((v: number, i: number) => {
+        expect(Math.abs(r.s[i] - v)).toBeLessThan(1e-4 * s1);
+      });
     });
   }
 });

@@ -10,17 +10,22 @@ describe('one-sided Jacobi SVD against LAPACK', () => {
   it('int6x4: singular values match dgesdd to 1e-13 relative', () => {
     const c = ref.cases.find((x: any) => x.name === 'int6x4');
     const { s } = jacobiSvd(fromRows(c.matrix));
-    c.singular_values_lapack.forEach((v: number, i: number) =>
-      expect(Math.abs(s[i] - v) / v).toBeLessThan(1e-13),
-    );
+    c.singular_values_lapack.forEach((v: number, i: number) => {
+      expect(Math.abs(s[i] - v) / v).toBeLessThan(1e-13);
+    });
   });
 
   it('agrees with ml-matrix 6.x SVD on a random 30×20 matrix', () => {
     let seed = 7;
-    const rnd = () => (seed = (seed * 1103515245 + 12345) % 2147483648) / 2147483648 - 0.5;
+    const rnd = () => {
+      seed = (seed * 1103515245 + 12345) % 2147483648;
+      return seed / 2147483648 - 0.5;
+    };
     const rows = Array.from({ length: 30 }, () => Array.from({ length: 20 }, rnd));
     const ours = jacobiSvd(fromRows(rows)).s;
     const theirs = new MlSVD(new MlMatrix(rows)).diagonal;
-    theirs.forEach((v, i) => expect(Math.abs(ours[i] - v)).toBeLessThan(1e-12 * theirs[0]));
+    theirs.forEach((v, i) => {
+      expect(Math.abs(ours[i] - v)).toBeLessThan(1e-12 * theirs[0]);
+    });
   });
 });

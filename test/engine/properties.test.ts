@@ -3,7 +3,6 @@ import { Matrix as MlMatrix, SVD as MlSVD } from 'ml-matrix';
 import { beforeAll, describe, expect, it } from 'vitest';
 import {
   adaptiveRandomizedSvd,
-  fromRows,
   initEngine,
   jacobiSvd,
   type Matrix,
@@ -55,7 +54,9 @@ describe('orthonormality, reconstruction, ordering (definition of the SVD, GVL �
     const res = randomizedSvd(A, 12, { precision: 'f64' });
     expect(orthogonalityError(res.U)).toBeLessThan(1e-12);
     expect(orthogonalityError(res.V)).toBeLessThan(1e-12);
-    [9, 7, 5, 3, 1].forEach((v, i) => expect(Math.abs(res.s[i] - v)).toBeLessThan(1e-12 * 9));
+    [9, 7, 5, 3, 1].forEach((v, i) => {
+      expect(Math.abs(res.s[i] - v)).toBeLessThan(1e-12 * 9);
+    });
     for (let i = 5; i < 12; i++) expect(res.s[i]).toBeLessThan(1e-13 * 9);
     const j = jacobiSvd(A);
     expect(orthogonalityError(j.U)).toBeLessThan(1e-12);
@@ -151,6 +152,18 @@ describe('randomized SVD accuracy and determinism', () => {
           for (let p = 0; p < 29; p++) s += A.data[i * 29 + p] * B.data[p * 13 + j];
           expect(Math.abs(C.data[i * 13 + j] - s)).toBeLessThan(tol);
         }
+      // One-sided Jacobi: the WebAssembly sweeps (f64x2) vs the TypeScript sweeps.
+      const J = randomMatrix(70, 45, 12);
+      const jw = jacobiSvd(J);
+      setWasmDisabled(true);
+      const jt = jacobiSvd(J);
+      setWasmDisabled(false);
+      for (let i = 0; i < 45; i++) expect(Math.abs(jw.s[i] - jt.s[i])).toBeLessThan(1e-13 * jw.s[0]);
+      for (let c = 0; c < 45; c++) {
+        let d = 0;
+        for (let i = 0; i < 45; i++) d += jw.V.data[i * 45 + c] * jt.V.data[i * 45 + c];
+        expect(Math.abs(Math.abs(d) - 1)).toBeLessThan(1e-10); // same vector up to sign (distinct σ)
+      }
       const M = withSpectrum(90, 60, decay(60), 5, f32);
       const w = randomizedSvd(M, 12, { seed: 1 });
       setWasmDisabled(true);
@@ -199,7 +212,9 @@ describe('agreement with ml-matrix 6.x SVD (npm ml-matrix, package.json ^6.12)',
       const rows = Array.from({ length: m }, (_, i) => Array.from(A.data.subarray(i * n, (i + 1) * n)));
       const theirs = new MlSVD(new MlMatrix(rows), { autoTranspose: true }).diagonal;
       const ours = singularValues(A);
-      theirs.forEach((v, i) => expect(Math.abs(ours[i] - v)).toBeLessThan(1e-10 * theirs[0]));
+      theirs.forEach((v, i) => {
+        expect(Math.abs(ours[i] - v)).toBeLessThan(1e-10 * theirs[0]);
+      });
       const top = randomizedSvd(A, 10, { precision: 'f64', powerIters: 12 }).s;
       // Random matrices have a flat spectrum: only many power iterations resolve the top 10 closely.
       for (let i = 0; i < 10; i++) expect(Math.abs(top[i] - theirs[i])).toBeLessThan(2e-3 * theirs[0]);
@@ -228,9 +243,9 @@ describe('singularValues, rank-deficient on the Gram route', () => {
   it('300×280 of rank 100: top 100 within the bound, the other 180 below √(nε)·σ₁ (stated accuracy in TSDoc)', () => {
     const sigma = Array.from({ length: 100 }, (_, i) => 10 * 0.95 ** i);
     const s = singularValues(withSpectrum(300, 280, sigma, 31));
-    sigma.forEach((v, i) =>
-      expect(Math.abs(s[i] - v)).toBeLessThan((280 * 2.2e-16 * sigma[0] ** 2) / v + 1e-13 * sigma[0]),
-    );
+    sigma.forEach((v, i) => {
+      expect(Math.abs(s[i] - v)).toBeLessThan((280 * 2.2e-16 * sigma[0] ** 2) / v + 1e-13 * sigma[0]);
+    });
     for (let i = 100; i < 280; i++) expect(s[i]).toBeLessThan(Math.sqrt(280 * 2.2e-16) * sigma[0]);
   });
 });

@@ -46,9 +46,9 @@ describe('singular values vs LAPACK dgesdd (numpy 1.24.2, svd_reference.json)', 
       const r = Math.min(A.rows, A.cols);
       const { s } = randomizedSvd(A, r, { precision: 'f64', seed: 3 });
       // Full-rank randomized SVD is an exact SVD up to the CholeskyQR2/Householder roundoff.
-      c.singular_values_lapack.forEach((v: number, i: number) =>
-        expect(Math.abs(s[i] - v)).toBeLessThan(1e-11 * c.singular_values_lapack[0]),
-      );
+      c.singular_values_lapack.forEach((v: number, i: number) => {
+        expect(Math.abs(s[i] - v)).toBeLessThan(1e-11 * c.singular_values_lapack[0]);
+      });
     });
   }
 
@@ -67,7 +67,9 @@ describe('circulant closed forms (svd_reference.json circulant_closed_form; Davi
       Math.abs(4 + 2 * Math.cos((2 * Math.PI * k) / 8)),
     ).sort((a, b) => b - a);
     const s = singularValues(fromRows(c.matrix));
-    closed.forEach((v, i) => expect(Math.abs(s[i] - v)).toBeLessThan(1e-13 * closed[0]));
+    closed.forEach((v, i) => {
+      expect(Math.abs(s[i] - v)).toBeLessThan(1e-13 * closed[0]);
+    });
   });
   it('circulant8_ramp: σ = {36, 4/sin(πk/8)} (first row 1..8)', () => {
     const c = ref.circulant_closed_form.cases.find((x: any) => x.name === 'circulant8_ramp');
@@ -75,7 +77,9 @@ describe('circulant closed forms (svd_reference.json circulant_closed_form; Davi
       (a, b) => b - a,
     );
     const s = singularValues(fromRows(c.matrix));
-    closed.forEach((v, i) => expect(Math.abs(s[i] - v) / v).toBeLessThan(1e-13));
+    closed.forEach((v, i) => {
+      expect(Math.abs(s[i] - v) / v).toBeLessThan(1e-13);
+    });
   });
   it('generic |DFT(c)| for a random first row of length 33', () => {
     const n = 33;
@@ -91,7 +95,9 @@ describe('circulant closed forms (svd_reference.json circulant_closed_form; Davi
       return Math.hypot(re, im);
     }).sort((a, b) => b - a);
     const s = singularValues(fromRows(C));
-    dft.forEach((v, i) => expect(Math.abs(s[i] - v)).toBeLessThan(1e-12 * dft[0]));
+    dft.forEach((v, i) => {
+      expect(Math.abs(s[i] - v)).toBeLessThan(1e-12 * dft[0]);
+    });
   });
 });
 
@@ -124,6 +130,8 @@ describe('symmetric tridiagonal QL route (Bowdler et al. 1968, tql1)', () => {
     }
     const got = Array.from(symmetricEigenvalues(S, n)).sort((a, b) => a - b);
     const want = Array.from({ length: n }, (_, j) => 2 - 2 * Math.cos((Math.PI * (j + 1)) / (n + 1)));
-    want.forEach((v, i) => expect(Math.abs(got[i] - v)).toBeLessThan(1e-13));
+    want.forEach((v, i) => {
+      expect(Math.abs(got[i] - v)).toBeLessThan(1e-13);
+    });
   });
 });

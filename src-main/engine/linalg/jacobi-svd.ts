@@ -15,6 +15,7 @@
 
 import { type Matrix, type SvdResult, transpose } from './matrix';
 import { householderQr } from './qr';
+import { bytesFor, defaultBackend, type Workspace } from './workspace';
 
 /** Machine epsilon of float64. */
 const EPS = 2.220446049250313e-16;
@@ -22,6 +23,8 @@ const EPS = 2.220446049250313e-16;
 const MAX_SWEEPS = 60;
 /** Precondition with QR when m > TALL_RATIO·n: Jacobi then rotates n-long instead of m-long columns. */
 const TALL_RATIO = 2;
+/** Below this many columns the TypeScript sweeps are as fast as a kernel call. */
+const FAST_MIN = 8;
 
 /**
  * Full thin SVD of an m×n matrix by one-sided Jacobi in float64.
@@ -31,17 +34,38 @@ const TALL_RATIO = 2;
  * @example const { s, U, V } = jacobiSvd(fromRows([[3, 0], [4, 5]]));
  */
 export function jacobiSvd(a: Matrix): SvdResult {
-  return jacobi(a, true) as SvdResult;
+  return withWorkspace(a, true) as SvdResult;
 }
 
 /** Singular values only (same accuracy as `jacobiSvd`, no vectors accumulated). */
 export function jacobiSingularValues(a: Matrix): Float64Array {
-  return jacobi(a, false).s;
+  return withWorkspace(a, false).s;
 }
 
-function jacobi(a: Matrix, vectors: boolean): { s: Float64Array; U?: Matrix; V?: Matrix } {
+/** Workspace bytes `jacobiSvdIn` needs for an m×n input. */
+export function jacobiBytes(m: number, n: number): number {
+  const r = Math.min(m, n);
+  const rows = Math.min(Math.max(m, n), TALL_RATIO * r);
+  return bytesFor(0, r * rows + r * r + 2 * r);
+}
+
+function withWorkspace(a: Matrix, vectors: boolean) {
+  const ws = defaultBackend().workspace(jacobiBytes(a.rows, a.cols));
+  try {
+    return jacobi(a, vectors, ws);
+  } finally {
+    ws.release();
+  }
+}
+
+/** `jacobiSvd` on a caller's workspace (which must have `jacobiBytes(m, n)` free): the sweeps run on its kernel. */
+export function jacobiSvdIn(a: Matrix, ws: Workspace): SvdResult {
+  return jacobi(a, true, ws) as SvdResult;
+}
+
+function jacobi(a: Matrix, vectors: boolean, ws?: Workspace): { s: Float64Array; U?: Matrix; V?: Matrix } {
   if (a.rows < a.cols) {
-    const t = jacobi(transpose(a), vectors);
+    const t = jacobi(transpose(a), vectors, ws);
     return { s: t.s, U: t.V, V: t.U };
   }
   const m = a.rows;
@@ -65,13 +89,18 @@ function jacobi(a: Matrix, vectors: boolean): { s: Float64Array; U?: Matrix; V?:
     rows = n;
   }
   // Columns of the working matrix are contiguous: W[j*rows + i] = A[i, j]. Vt holds Vᵀ (rows contiguous).
-  const W = new Float64Array(n * rows);
+  const fast = ws?.jacobi !== undefined && n >= FAST_MIN;
+  const W = fast ? ws!.f64(n * rows) : new Float64Array(n * rows);
   for (let i = 0; i < rows; i++) for (let j = 0; j < n; j++) W[j * rows + i] = src[i * n + j];
-  const Vt = vectors ? new Float64Array(n * n) : null;
-  if (Vt) for (let j = 0; j < n; j++) Vt[j * n + j] = 1;
+  const Vt = vectors ? (fast ? ws!.f64(n * n) : new Float64Array(n * n)) : null;
+  if (Vt) {
+    Vt.fill(0);
+    for (let j = 0; j < n; j++) Vt[j * n + j] = 1;
+  }
   /** Rotation threshold: columns count as orthogonal when |γ| ≤ rows·ε·√(αβ) (Demmel–Veselić §4). */
   const tol = EPS * rows;
-  for (let sweep = 0; sweep < MAX_SWEEPS; sweep++) {
+  const done = fast ? ws!.jacobi!(W, rows, n, Vt, tol, MAX_SWEEPS) : -1;
+  for (let sweep = 0; sweep < MAX_SWEEPS && done < 0; sweep++) {
     let rotated = false;
     for (let p = 0; p < n - 1; p++) {
       const po = p * rows;

@@ -38,6 +38,7 @@ export class Orthonormalizer {
   private readonly Rc: Float64Array;
   private readonly Rinv: Float64Array;
   private readonly Rt: Float64Array;
+  private readonly Gw: Float32Array | null;
   /** How many calls ended in the Householder fallback (diagnostics for tests and the bench). */
   householderCalls = 0;
   constructor(
@@ -53,15 +54,25 @@ export class Orthonormalizer {
     this.Rc = ws.f64(maxL * maxL);
     this.Rinv = ws.f64(maxL * maxL);
     this.Rt = ws.f64(maxL * maxL);
+    this.Gw = f32 ? ws.f32(maxL * maxL) : null;
   }
   /** See `orthonormalize`. */
-  run(Y: FloatArray, m: number, l: number, R?: Float64Array): 'cholesky' | 'householder' {
-    const r = orthonormalizeWith(this.ws, this, Y, m, l, R);
+  run(Y: FloatArray, m: number, l: number, R?: Float64Array, final = true): 'cholesky' | 'householder' {
+    const r = orthonormalizeWith(this.ws, this, Y, m, l, R, final);
     if (r === 'householder') this.householderCalls++;
     return r;
   }
   /** @internal */ scratch() {
-    return { Yd: this.Yd, T: this.T, Ri: this.Ri, G: this.G, Rc: this.Rc, Rinv: this.Rinv, Rt: this.Rt };
+    return {
+      Yd: this.Yd,
+      T: this.T,
+      Ri: this.Ri,
+      G: this.G,
+      Rc: this.Rc,
+      Rinv: this.Rinv,
+      Rt: this.Rt,
+      Gw: this.Gw,
+    };
   }
 }
 
@@ -82,6 +93,20 @@ export function orthonormalize(
   return new Orthonormalizer(ws, m, l, Y instanceof Float32Array).run(Y, m, l, R);
 }
 
+/** Row block of the Gram product: only the upper block triangle is formed, then mirrored. */
+const GRAM_BLOCK = 64;
+
+/** G = YᵀY (l×l) for the m×l block Y, same precision. */
+function gram<T extends FloatArray>(ws: Workspace, Y: T, m: number, l: number, G: T): void {
+  for (let i0 = 0; i0 < l; i0 += GRAM_BLOCK) {
+    const ni = Math.min(GRAM_BLOCK, l - i0);
+    ws.gemm(ni, l - i0, m, Y, i0, 1, l, Y, i0, l, G, i0 * l + i0, l, false);
+  }
+  for (let i = 1; i < l; i++)
+    for (let j = 0; j < Math.min(i, Math.floor(i / GRAM_BLOCK) * GRAM_BLOCK); j++)
+      G[i * l + j] = G[j * l + i];
+}
+
 function orthonormalizeWith(
   ws: Workspace,
   o: Orthonormalizer,
@@ -89,6 +114,7 @@ function orthonormalizeWith(
   m: number,
   l: number,
   R?: Float64Array,
+  final = true,
 ): 'cholesky' | 'householder' {
   if (l === 0) return 'cholesky';
   if (m < l) throw new RangeError(`orthonormalize needs rows ≥ columns, got ${m}×${l}`);
@@ -106,12 +132,14 @@ function orthonormalizeWith(
   let shifted = false;
   for (let pass = 0; pass < MAX_PASSES; pass++) {
     // Gram matrix G = YᵀY in f64 (conversion f32 → f64 is exact).
-    let src: Float64Array;
-    if (Yd) {
+    // Later passes see a nearly orthonormal block, whose Gram matrix is well conditioned: working precision suffices.
+    if (Yd && pass > 0 && sc.Gw) {
+      gram(ws, Y as Float32Array, m, l, sc.Gw);
+      for (let i = 0; i < l * l; i++) G[i] = sc.Gw[i];
+    } else if (Yd) {
       Yd.set(Y.subarray(0, m * l));
-      src = Yd;
-    } else src = Y as Float64Array;
-    ws.gemm(l, l, m, src, 0, 1, l, src, 0, l, G, 0, l, false);
+      gram(ws, Yd, m, l, G);
+    } else gram(ws, Y as Float64Array, m, l, G);
     let dev = 0;
     let frob = 0;
     for (let i = 0; i < l; i++)
@@ -147,6 +175,8 @@ function orthonormalizeWith(
       for (let i = 0; i < l; i++) for (let j = 0; j < l; j++) R[i * l + j] = j >= i ? Rt[i * l + j] : 0;
     }
     if (dev < ACCEPT_DEVIATION && !(shift > 0)) return 'cholesky';
+    // Intermediate power-iteration steps need a well-conditioned basis, not one orthonormal to the last bit.
+    if (!final && !(shift > 0)) return 'cholesky';
   }
   householderInPlace(Y, m, l, R);
   return 'householder';

@@ -11,7 +11,7 @@
  *   value decomposition", NeurIPS 2015 (arXiv:1504.05477). Algorithm 2: K = [AΠ, (AAᵀ)AΠ, …,
  *   (AAᵀ)^q AΠ], Q = orth(K), SVD of QᵀA restricted to the top k.
  */
-import { jacobiSvd } from './jacobi-svd';
+import { jacobiBytes, jacobiSvdIn } from './jacobi-svd';
 import type { FloatArray, Matrix, Precision, SvdResult } from './matrix';
 import { Orthonormalizer } from './qr';
 import { DEFAULT_SEED, Rng } from './random';
@@ -111,9 +111,19 @@ export function randomizedSvdBytes(
   const L = l * blocks;
   const mx = Math.max(m, n);
   const pe =
-    m * n + n * l + m * l + n * l + mx * L + L * L + (blocks > 1 ? m * L + L * l : 0) + n * L + L * k + m * k;
+    (f32 ? L * L : 0) +
+    m * n +
+    n * l +
+    m * l +
+    n * l +
+    mx * L +
+    L * L +
+    (blocks > 1 ? m * L + L * l : 0) +
+    n * L +
+    L * k +
+    m * k;
   const de = (f32 ? mx * L : 0) + 4 * L * L + (f32 ? n * L + 5 * L * L : 0) + n * L + L * L + L * k + n * k;
-  return f32 ? bytesFor(pe, de) : bytesFor(0, pe + de);
+  return (f32 ? bytesFor(pe, de) : bytesFor(0, pe + de)) + jacobiBytes(L, L);
 }
 
 function core(
@@ -144,13 +154,14 @@ function core(
     ws.gemm(n, w, m, A, 0, 1, n, X, 0, w, out, 0, w, false);
   let Qm: FloatArray;
   if (blocks === 1) {
+    // Intermediate bases need only be well conditioned (one Cholesky pass); the last is made orthonormal.
     mulA(Om, Y, l);
-    orth.run(Y, m, l);
+    orth.run(Y, m, l, undefined, q === 0);
     for (let it = 0; it < q; it++) {
       mulAt(Y, Z, l);
-      orth.run(Z, n, l);
+      orth.run(Z, n, l, undefined, false);
       mulA(Z, Y, l);
-      orth.run(Y, m, l);
+      orth.run(Y, m, l, undefined, it === q - 1);
     }
     Qm = Y;
   } else {
@@ -166,7 +177,7 @@ function core(
     put(0);
     for (let blk = 1; blk < blocks; blk++) {
       mulAt(Y, Z, l);
-      orth.run(Z, n, l);
+      orth.run(Z, n, l, undefined, false);
       mulA(Z, Y, l);
       const w = blk * l;
       for (let pass = 0; pass < 2; pass++) {
@@ -188,7 +199,7 @@ function core(
   const R = ws.f64(L * L);
   const orth64 = f32 ? new Orthonormalizer(ws, n, L, false) : orth;
   orth64.run(Btd, n, L, R);
-  const small = jacobiSvd({ rows: L, cols: L, data: R });
+  const small = jacobiSvdIn({ rows: L, cols: L, data: R }, ws);
   // small.U: L×L (left vectors of R), small.V: L×L (right vectors of R).
   const Vk = alloc(L * k);
   for (let i = 0; i < L; i++) for (let j = 0; j < k; j++) Vk[i * k + j] = small.V.data[i * small.V.cols + j];

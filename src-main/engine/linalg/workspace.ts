@@ -39,6 +39,19 @@ export interface Workspace {
   f32(n: number): Float32Array;
   f64(n: number): Float64Array;
   gemm: Gemm;
+  /**
+   * Optional fast one-sided Jacobi sweeps (see jacobi-svd.ts) on arrays from this workspace:
+   * W holds n contiguous columns of length `rows`, Vt (n×n) receives the rotations (or null).
+   * Returns the sweeps used, or -1 when the arrays are not kernel-visible (caller falls back to TS).
+   */
+  jacobi?(
+    W: Float64Array,
+    rows: number,
+    n: number,
+    Vt: Float64Array | null,
+    tol: number,
+    maxSweeps: number,
+  ): number;
   /** Return the space to the backend. Views must not be used afterwards. */
   release(): void;
   /** Short label for diagnostics and the bench ("wasm", "ts", "2 workers"). */
@@ -136,6 +149,18 @@ class WasmWorkspace implements Workspace {
         accumulate ? 1 : 0,
       );
   };
+  jacobi(
+    W: Float64Array,
+    rows: number,
+    n: number,
+    Vt: Float64Array | null,
+    tol: number,
+    maxSweeps: number,
+  ): number {
+    const buf = this.k.memory.buffer;
+    if (W.buffer !== buf || (Vt && Vt.buffer !== buf)) return -1;
+    return this.k.exports.jacobiF64(W.byteOffset, rows, n, Vt ? Vt.byteOffset : 0, tol, maxSweeps);
+  }
   release() {
     wasmBusy = false;
   }

@@ -35,6 +35,8 @@ export interface KernelExports {
     ldc: number,
     acc: number,
   ): void;
+  /** One-sided Jacobi sweeps on contiguous columns; returns sweeps used (maxSweeps + 1: not converged). */
+  jacobiF64(w: number, rows: number, n: number, vt: number, tol: number, maxSweeps: number): number;
 }
 
 export interface WasmKernels {

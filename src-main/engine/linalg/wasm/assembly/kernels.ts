@@ -201,3 +201,69 @@ export function gemmF64(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b:
     }
   }
 }
+
+// ---------------------------------------------------------------- one-sided Jacobi (Hestenes), f64x2
+// Reference: J. Demmel, K. Veselić, SIAM J. Matrix Anal. Appl. 13(4), 1992, doi:10.1137/0613074, §4.
+// Columns of the working matrix are contiguous: column j at w + 8·j·rows. Rotations are accumulated
+// into the rows of vt (n×n, Vᵀ) when vt ≠ 0. Returns the number of sweeps used (maxSweeps + 1 if not converged).
+
+@inline function hsum(v: v128): f64 {
+  return f64x2.extract_lane(v, 0) + f64x2.extract_lane(v, 1);
+}
+
+function rotate(px: usize, qx: usize, len: i32, c: f64, s: f64): void {
+  const cv = f64x2.splat(c), sv = f64x2.splat(s);
+  const len2 = len & ~1;
+  let i = 0;
+  for (; i < len2; i += 2) {
+    const o = <usize>i << 3;
+    const x = v128.load(px + o), y = v128.load(qx + o);
+    v128.store(px + o, f64x2.sub(f64x2.mul(cv, x), f64x2.mul(sv, y)));
+    v128.store(qx + o, f64x2.add(f64x2.mul(sv, x), f64x2.mul(cv, y)));
+  }
+  if (i < len) {
+    const o = <usize>i << 3;
+    const x = load<f64>(px + o), y = load<f64>(qx + o);
+    store<f64>(px + o, c * x - s * y);
+    store<f64>(qx + o, s * x + c * y);
+  }
+}
+
+export function jacobiF64(w: usize, rows: i32, n: i32, vt: usize, tol: f64, maxSweeps: i32): i32 {
+  const rows2 = rows & ~1;
+  const colBytes = <usize>rows << 3;
+  for (let sweep = 1; sweep <= maxSweeps; sweep++) {
+    let rotated = false;
+    for (let p = 0; p < n - 1; p++) {
+      const px = w + <usize>p * colBytes;
+      for (let q = p + 1; q < n; q++) {
+        const qx = w + <usize>q * colBytes;
+        let av = f64x2.splat(0), bv = f64x2.splat(0), gv = f64x2.splat(0);
+        let i = 0;
+        for (; i < rows2; i += 2) {
+          const o = <usize>i << 3;
+          const x = v128.load(px + o), y = v128.load(qx + o);
+          av = f64x2.add(av, f64x2.mul(x, x));
+          bv = f64x2.add(bv, f64x2.mul(y, y));
+          gv = f64x2.add(gv, f64x2.mul(x, y));
+        }
+        let alpha = hsum(av), beta = hsum(bv), gamma = hsum(gv);
+        if (i < rows) {
+          const o = <usize>i << 3;
+          const x = load<f64>(px + o), y = load<f64>(qx + o);
+          alpha += x * x; beta += y * y; gamma += x * y;
+        }
+        if (gamma == 0 || abs(gamma) <= tol * sqrt(alpha * beta)) continue;
+        rotated = true;
+        const zeta = (beta - alpha) / (2 * gamma);
+        const t = (zeta >= 0 ? 1.0 : -1.0) / (abs(zeta) + sqrt(1 + zeta * zeta));
+        const c = 1 / sqrt(1 + t * t);
+        const s = c * t;
+        rotate(px, qx, rows, c, s);
+        if (vt != 0) rotate(vt + <usize>p * (<usize>n << 3), vt + <usize>q * (<usize>n << 3), n, c, s);
+      }
+    }
+    if (!rotated) return sweep;
+  }
+  return maxSweeps + 1;
+}

@@ -1,0 +1,307 @@
+// Engine benchmark: `npm run bench engine`. Writes section 10-engine.md (see scripts/bench.mjs).
+// Every speed figure is a ratio against a baseline measured in this same run (ml-matrix SVD, the TS
+// fallback, one worker). Inputs have image-like decaying spectra with a KNOWN spectrum, so the
+// Eckart–Young optimum ‖A − A_k‖_F = (Σ_{i>k} σᵢ²)^{1/2} is exact.
+import { mkdirSync, writeFileSync } from 'node:fs';
+import { cpus } from 'node:os';
+import { join } from 'node:path';
+import { Matrix as MlMatrix, SVD as MlSVD } from 'ml-matrix';
+import {
+  type Backend,
+  defaultBackend,
+  initEngine,
+  type Matrix,
+  matmul,
+  randomizedSvd,
+  singularValues,
+  tsBackend,
+} from '../src-main/engine/linalg';
+import { LinalgPool } from '../src-main/node/parallel/pool';
+
+const QUICK = process.env.RANKFOLD_BENCH_QUICK === '1';
+const out: string[] = [];
+const log = (s = '') => {
+  out.push(s);
+  console.log(s);
+};
+
+/** σᵢ = 1000/(1+i) + 1: a power-law decay with a noise floor, like scanned documents and photographs. */
+const spectrumOf = (r: number) => Float64Array.from({ length: r }, (_, i) => 1000 / (1 + i) + 1);
+
+/** Orthonormal DCT-II basis, m×r (row-major): exact orthonormal columns without a QR. */
+function dctBasis(m: number, r: number): Float32Array {
+  const B = new Float32Array(m * r);
+  for (let t = 0; t < r; t++) {
+    const sc = t === 0 ? Math.sqrt(1 / m) : Math.sqrt(2 / m);
+    for (let i = 0; i < m; i++) B[i * r + t] = sc * Math.cos((Math.PI * (i + 0.5) * t) / m);
+  }
+  return B;
+}
+
+/** A = U·diag(σ)·Vᵀ (f32, as scans are stored) with DCT bases and a random sign flip per row/column. */
+function makeInput(m: number, n: number): { A: Matrix; sigma: Float64Array } {
+  const r = Math.min(m, n);
+  const sigma = spectrumOf(r);
+  const U = dctBasis(m, r);
+  const V = dctBasis(n, r);
+  let x = 12345;
+  const sign = () => {
+    x = (x * 1103515245 + 12345) % 2147483648;
+    return x < 1073741824 ? 1 : -1;
+  };
+  for (let i = 0; i < m; i++) {
+    const s = sign();
+    for (let t = 0; t < r; t++) U[i * r + t] *= s * sigma[t];
+  }
+  for (let j = 0; j < n; j++) {
+    const s = sign();
+    for (let t = 0; t < r; t++) V[j * r + t] *= s;
+  }
+  const Vt = new Float32Array(r * n);
+  for (let j = 0; j < n; j++) for (let t = 0; t < r; t++) Vt[t * n + j] = V[j * r + t];
+  const A = matmul({ rows: m, cols: r, data: U }, { rows: r, cols: n, data: Vt });
+  return { A, sigma };
+}
+
+function median(xs: number[]): number {
+  const s = [...xs].sort((a, b) => a - b);
+  return s[Math.floor(s.length / 2)];
+}
+
+function time(fn: () => void, reps: number): number {
+  fn(); // warm-up (JIT, memory growth)
+  const ts: number[] = [];
+  for (let i = 0; i < reps; i++) {
+    const t = performance.now();
+    fn();
+    ts.push(performance.now() - t);
+  }
+  return median(ts);
+}
+
+/** ‖A − U diag(s) Vᵀ‖_F computed explicitly in f64 on the product kernel. */
+function frobError(A: Matrix, res: { s: Float64Array; U: Matrix; V: Matrix }): number {
+  const { rows: m, cols: n } = A;
+  const k = res.s.length;
+  const US = new Float64Array(m * k);
+  for (let i = 0; i < m; i++) for (let t = 0; t < k; t++) US[i * k + t] = res.U.data[i * k + t] * res.s[t];
+  const Vt = new Float64Array(k * n);
+  for (let j = 0; j < n; j++) for (let t = 0; t < k; t++) Vt[t * n + j] = res.V.data[j * k + t];
+  const R = matmul({ rows: m, cols: k, data: US }, { rows: k, cols: n, data: Vt }, 'f64');
+  let e = 0;
+  for (let i = 0; i < m * n; i++) {
+    const d = A.data[i] - R.data[i];
+    e += d * d;
+  }
+  return Math.sqrt(e);
+}
+
+const optimum = (sigma: Float64Array, k: number) =>
+  Math.sqrt(sigma.subarray(k).reduce((s, v) => s + v * v, 0));
+
+/** GFLOP/s of C = A·X (m×n·n×w) on one backend, arrays resident in its workspace. */
+function gemmRate(
+  backend: Backend,
+  m: number,
+  n: number,
+  w: number,
+  f32: boolean,
+  trans: boolean,
+  reps: number,
+): number {
+  const bytes = (f32 ? 4 : 8) * (m * n + n * w + m * w) + 1024;
+  const ws = backend.workspace(bytes);
+  try {
+    const alloc = (len: number) => (f32 ? ws.f32(len) : ws.f64(len));
+    const A = alloc(m * n);
+    for (let i = 0; i < A.length; i++) A[i] = Math.sin(i * 0.37);
+    const X = alloc(Math.max(n, m) * w);
+    for (let i = 0; i < X.length; i++) X[i] = Math.cos(i * 0.11);
+    const C = alloc(Math.max(n, m) * w);
+    const ms = trans
+      ? time(() => ws.gemm(n, w, m, A, 0, 1, n, X, 0, w, C, 0, w, false), reps)
+      : time(() => ws.gemm(m, w, n, A, 0, n, 1, X, 0, w, C, 0, w, false), reps);
+    return (2 * m * n * w) / ms / 1e6;
+  } finally {
+    ws.release();
+  }
+}
+
+async function main() {
+  const { wasm } = await initEngine();
+  const cpu = cpus()[0]?.model ?? 'unknown CPU';
+  log('## Engine (linear algebra)');
+  log('');
+  log(
+    `Machine: ${cpus().length} × ${cpu}, Node ${process.version}; WebAssembly SIMD ${wasm ? 'on' : 'OFF (TS fallback)'}.`,
+  );
+  log(
+    'Inputs: A = U·diag(σ)·Vᵀ stored in f32, σᵢ = 1000/(1+i) + 1 (power-law decay plus a noise floor), U, V orthonormal',
+  );
+  log('(DCT-II bases with random signs), so the Eckart–Young optimum is known exactly. Times are medians.');
+  log('Defaults: oversample p = 10, q = 3 power iterations, f32 storage, single thread unless stated.');
+  log('');
+
+  // ---- 1. ml-matrix baseline (full SVD), measured at 512², extrapolated as m·n·min(m,n).
+  const shapes: [number, number][] = QUICK
+    ? [[512, 512]]
+    : [
+        [512, 512],
+        [1024, 1024],
+        [1500, 2000],
+      ];
+  const inputs = new Map<string, { A: Matrix; sigma: Float64Array }>();
+  for (const [m, n] of shapes) inputs.set(`${m}×${n}`, makeInput(m, n));
+  const base = inputs.get('512×512')!;
+  const rows = Array.from({ length: 512 }, (_, i) =>
+    Array.from(base.A.data.subarray(i * 512, (i + 1) * 512)),
+  );
+  const t0 = performance.now();
+  new MlSVD(new MlMatrix(rows), { autoTranspose: true });
+  const ml512 = performance.now() - t0;
+  const mlTime = (m: number, n: number) => ml512 * ((m * n * Math.min(m, n)) / 512 ** 3);
+  log(
+    `ml-matrix 6.x \`new SVD\` (full SVD) on 512×512: ${(ml512 / 1000).toFixed(1)} s measured; larger sizes`,
+  );
+  log('extrapolated by m·n·min(m,n) (ml-matrix would take minutes there, so it is not run).');
+  log('');
+
+  // ---- 2. Randomized SVD: time, ratio to ml-matrix, Frobenius error ÷ optimum.
+  log('| input | k | ours (ms) | ml-matrix (s) | speed-up vs ml-matrix | ‖A−A_k‖_F ÷ optimum |');
+  log('|---|---|---|---|---|---|');
+  let target: { ms: number; ratio: number } | null = null;
+  for (const [m, n] of shapes) {
+    const { A, sigma } = inputs.get(`${m}×${n}`)!;
+    for (const k of [10, 50, 200]) {
+      let res = randomizedSvd(A, k, { seed: 1 });
+      const reps = k === 200 || m * n > 2e6 ? 3 : 5;
+      const ms = time(() => {
+        res = randomizedSvd(A, k, { seed: 1 });
+      }, reps);
+      const ratio = frobError(A, res) / optimum(sigma, k);
+      const ml = mlTime(m, n);
+      const est = m === 512 ? '' : ' (extrap.)';
+      log(
+        `| ${m}×${n} | ${k} | ${ms.toFixed(1)} | ${(ml / 1000).toFixed(1)}${est} | ${(ml / ms).toFixed(0)}× | ${ratio.toFixed(4)} |`,
+      );
+      if (m === 1500 && k === 50) target = { ms, ratio };
+    }
+  }
+  log('');
+  if (target)
+    log(
+      `**Target** rank-50 of 1500×2000 in ≤ 150 ms with error ≤ 1.01× optimum: ${target.ms.toFixed(0)} ms, ${target.ratio.toFixed(4)}× → ${target.ms <= 150 && target.ratio <= 1.01 ? 'met' : 'NOT met on this run'}.`,
+    );
+  log('');
+
+  // ---- 3. Power iteration vs block Krylov at comparable cost (1500×2000 or the largest input, k = 50).
+  const big = inputs.get(QUICK ? '512×512' : '1500×2000')!;
+  const k = 50;
+  log(`Power iteration vs block Krylov (Musco & Musco 2015), ${big.A.rows}×${big.A.cols}, k = ${k}, p = 10.`);
+  log(
+    'Passes over A: power q → 2q+2; Krylov q → 2q+2 as well, but its last pass and its small SVD are (q+1)× wider.',
+  );
+  log('');
+  log('| method | q | ms | error ÷ optimum |');
+  log('|---|---|---|---|');
+  const cmp: { name: string; ms: number; ratio: number }[] = [];
+  for (const [method, q] of [
+    ['power', 1],
+    ['power', 2],
+    ['power', 3],
+    ['power', 4],
+    ['krylov', 1],
+    ['krylov', 2],
+  ] as const) {
+    let res = randomizedSvd(big.A, k, { method, powerIters: q, seed: 1 });
+    const ms = time(() => {
+      res = randomizedSvd(big.A, k, { method, powerIters: q, seed: 1 });
+    }, 3);
+    const ratio = frobError(big.A, res) / optimum(big.sigma, k);
+    cmp.push({ name: `${method} q=${q}`, ms, ratio });
+    log(`| ${method} | ${q} | ${ms.toFixed(1)} | ${ratio.toFixed(5)} |`);
+  }
+  log('');
+  // Verdict: for each Krylov run, the best power run that is no slower.
+  for (const kr of cmp.filter((c) => c.name.startsWith('krylov'))) {
+    const rivals = cmp.filter((c) => c.name.startsWith('power') && c.ms <= kr.ms * 1.05);
+    const best = rivals.sort((a, b) => a.ratio - b.ratio)[0];
+    log(
+      best
+        ? `- ${kr.name} (${kr.ms.toFixed(0)} ms, ${kr.ratio.toFixed(5)}) vs the best power run at no more time, ${best.name} (${best.ms.toFixed(0)} ms, ${best.ratio.toFixed(5)}): ${kr.ratio < best.ratio ? 'Krylov more accurate' : 'power at least as accurate'}.`
+        : `- ${kr.name}: no power run as fast.`,
+    );
+  }
+  log('');
+
+  // ---- 4. Product kernel GFLOP/s (single thread) and the TS fallback as baseline.
+  const [gm, gn, gw] = QUICK ? [512, 512, 64] : [1500, 2000, 64];
+  const wasmB = defaultBackend();
+  log(`Product kernel, ${gm}×${gn} times ${gn}×${gw} (A·X) and Aᵀ·Y, GFLOP/s (one thread):`);
+  log('');
+  log('| kernel | A·X | Aᵀ·Y | ratio to TS fallback (A·X) |');
+  log('|---|---|---|---|');
+  const ts32 = gemmRate(tsBackend, gm, gn, gw, true, false, 2);
+  const ts64 = gemmRate(tsBackend, gm, gn, gw, false, false, 2);
+  const w32 = gemmRate(wasmB, gm, gn, gw, true, false, 7);
+  const w32t = gemmRate(wasmB, gm, gn, gw, true, true, 7);
+  const w64 = gemmRate(wasmB, gm, gn, gw, false, false, 7);
+  const w64t = gemmRate(wasmB, gm, gn, gw, false, true, 7);
+  log(`| WebAssembly SIMD f32x4 | ${w32.toFixed(1)} | ${w32t.toFixed(1)} | ${(w32 / ts32).toFixed(1)}× |`);
+  log(`| WebAssembly SIMD f64x2 | ${w64.toFixed(1)} | ${w64t.toFixed(1)} | ${(w64 / ts64).toFixed(1)}× |`);
+  log(`| TypeScript fallback f32 / f64 | ${ts32.toFixed(2)} / ${ts64.toFixed(2)} | — | 1× |`);
+  log('');
+
+  // ---- 5. Workers: 1 vs 2 on the product kernel and on the whole randomized SVD.
+  const one = await LinalgPool.create({ workers: 1 });
+  const two = await LinalgPool.create({ workers: 2 });
+  try {
+    const p1 = gemmRate(one, gm, gn, gw, true, false, 9);
+    const p2 = gemmRate(two, gm, gn, gw, true, false, 9);
+    const p1t = gemmRate(one, gm, gn, gw, true, true, 9);
+    const p2t = gemmRate(two, gm, gn, gw, true, true, 9);
+    const msOf = (b: Backend) => time(() => randomizedSvd(big.A, 50, { seed: 1, backend: b }), 3);
+    const s1 = msOf(one);
+    const s2 = msOf(two);
+    log('Worker threads (src-main/node/parallel, shared WebAssembly.Memory), f32:');
+    log('');
+    log('| | 1 worker | 2 workers | speed-up |');
+    log('|---|---|---|---|');
+    log(`| product A·X (GFLOP/s) | ${p1.toFixed(1)} | ${p2.toFixed(1)} | ${(p2 / p1).toFixed(2)}× |`);
+    log(`| product Aᵀ·Y (GFLOP/s) | ${p1t.toFixed(1)} | ${p2t.toFixed(1)} | ${(p2t / p1t).toFixed(2)}× |`);
+    log(
+      `| randomizedSvd k = 50, ${big.A.rows}×${big.A.cols} (ms) | ${s1.toFixed(1)} | ${s2.toFixed(1)} | ${(s1 / s2).toFixed(2)}× |`,
+    );
+    log('');
+    log(
+      `**Target** 2 workers ≥ 1.7× one worker on the product kernel: ${(p2 / p1).toFixed(2)}× (A·X) → ${p2 / p1 >= 1.7 ? 'met' : 'NOT met on this run'}.`,
+    );
+    log('The randomized SVD gains less: its QR, small Jacobi SVD and copies run on the calling thread.');
+  } finally {
+    await one.close();
+    await two.close();
+  }
+  log('');
+
+  // ---- 6. Full spectrum (singularValues).
+  log('Full spectrum `singularValues` (all σ; f64 Gram on the kernel + tridiagonal QL in TS):');
+  log('');
+  log('| input | ms |');
+  log('|---|---|');
+  for (const N of QUICK ? [512] : [512, 1024, 2048]) {
+    const A = N === 512 ? base.A : makeInput(N, N).A;
+    const ms = time(() => singularValues(A), N >= 2048 ? 0 : 1);
+    log(`| ${N}×${N} | ${ms.toFixed(0)} |`);
+  }
+  log('');
+  log(
+    'Load note: figures come from whatever else ran on the machine at the time; re-run on a quiet machine for release numbers.',
+  );
+
+  const dir = process.env.RANKFOLD_BENCH_OUT ?? 'docs/bench';
+  mkdirSync(dir, { recursive: true });
+  writeFileSync(join(dir, '10-engine.md'), `${out.join('\n')}\n`);
+  console.error(`wrote ${join(dir, '10-engine.md')}`);
+}
+
+await main();
