@@ -308,7 +308,8 @@ export function encodePlane(
       }
     });
   const bytes = enc.finish();
-  return { bytes, decoded: decodePlane(bytes, width, height, step), nonZero };
+  // The range coder is lossless, so the decoder recovers q exactly; rebuild from q by the same routine.
+  return { bytes, decoded: dequantise(q, width, height, levels, steps, map), nonZero };
 }
 
 /**
@@ -327,8 +328,7 @@ export function decodePlane(bytes: Uint8Array, width: number, height: number, st
   const mm = bitModels(MAG_CTX * UINT_MODELS);
   const sm = bitModels(SIGN_CTX);
   const flag = bitModels(1);
-  const x = new Float64Array(n);
-  if (dec.bit(flag, 0) === 0) return x;
+  if (dec.bit(flag, 0) === 0) return new Float64Array(n);
   walk(q, width, bands, (idx, zctx, mctx, sctx) => {
     if (dec.bit(zm, zctx) === 0) return;
     const neg = dec.bit(sm, sctx);
@@ -336,7 +336,20 @@ export function decodePlane(bytes: Uint8Array, width: number, height: number, st
     q[idx] = neg ? -a : a;
   });
   if (dec.overrun) throw new RangeError('plane data is truncated');
-  for (let i = 0; i < n; i++) x[i] = q[i] * steps[map[i]];
+  return dequantise(q, width, height, levels, steps, map);
+}
+
+/** Reconstruction x̂ = q·Δ_b, then the inverse transform (shared by encoder and decoder). */
+function dequantise(
+  q: Int32Array,
+  width: number,
+  height: number,
+  levels: number,
+  steps: Float64Array,
+  map: Uint8Array,
+): Float64Array {
+  const x = new Float64Array(width * height);
+  for (let i = 0; i < x.length; i++) x[i] = q[i] * steps[map[i]];
   inverseWavelet(x, width, height, levels);
   return x;
 }

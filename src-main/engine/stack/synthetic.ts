@@ -49,6 +49,10 @@ export interface SeriesOptions {
   /** Gaussian noise σ in grey levels of the output scale. */
   noise?: number;
   bitDepth?: 8 | 16;
+  /** Amplitude (grey levels) of fine specimen texture that moves with the specimen (driftingSpecimen). Default 0. */
+  texture?: number;
+  /** Total drift in pixels over the series (driftingSpecimen). Default 3. */
+  drift?: number;
 }
 
 function quantise(v: number, max: number): number {
@@ -76,11 +80,23 @@ export function driftingSpecimen(o: SeriesOptions = {}): SyntheticSeries {
     a: 40 + rnd() * 80,
     ring: rnd() < 0.5,
   }));
+  // Fine texture: a sum of random plane waves (periods 2.5–12 px), evaluated in specimen coordinates.
+  const waves = Array.from({ length: o.texture ? 24 : 0 }, () => {
+    const period = 2.5 + rnd() * 9.5;
+    const angle = rnd() * Math.PI;
+    return {
+      kx: (2 * Math.PI * Math.cos(angle)) / period,
+      ky: (2 * Math.PI * Math.sin(angle)) / period,
+      ph: rnd() * 6.283,
+    };
+  });
+  const texAmp = (o.texture ?? 0) / Math.sqrt(Math.max(1, waves.length / 2));
   const frames: Float32Array[] = [];
   for (let j = 0; j < N; j++) {
     const t = N > 1 ? j / (N - 1) : 0;
-    const dx = 3 * t;
-    const dy = 1.5 * Math.sin(Math.PI * t);
+    const drift = o.drift ?? 3;
+    const dx = drift * t;
+    const dy = 0.5 * drift * Math.sin(Math.PI * t);
     const fade = 1 - 0.35 * t;
     const f = new Float32Array(width * height);
     for (let y = 0; y < height; y++)
@@ -91,6 +107,11 @@ export function driftingSpecimen(o: SeriesOptions = {}): SyntheticSeries {
           const ey = y - dy - c.y;
           const d2 = (ex * ex + ey * ey) / (c.r * c.r);
           v += fade * c.a * (c.ring ? Math.exp(-4 * (Math.sqrt(d2) - 0.8) ** 2) * 0.8 : Math.exp(-d2));
+        }
+        if (waves.length) {
+          let tex = 0;
+          for (const w of waves) tex += Math.cos(w.kx * (x - dx) + w.ky * (y - dy) + w.ph);
+          v += fade * texAmp * tex;
         }
         f[y * width + x] = quantise((v + noise * gauss()) * scale, max);
       }
