@@ -70,7 +70,9 @@ function summaryText(s: BatchSummary, warnings: string[], interrupted: boolean):
   ];
   if (interrupted) {
     const left = s.total - s.ok - s.kept - s.failed;
-    lines.push(`batch: interrupted with ${left} file${left === 1 ? '' : 's'} not finished; run the same command with --resume to finish`);
+    lines.push(
+      `batch: interrupted with ${left} file${left === 1 ? '' : 's'} not finished; run the same command with --resume to finish`,
+    );
   }
   if (s.failures.length) {
     lines.push('Failed files:');
@@ -118,8 +120,13 @@ async function run(argv: string[], io: CliIO): Promise<number> {
     });
     bar?.stop();
     io.stderr(summaryText(result.summary, result.warnings, result.interrupted));
-    const writeProblems = result.warnings.some((w) => /cannot be written|could not be appended/.test(w));
-    return result.summary.failed > 0 || result.interrupted || writeProblems ? 2 : 0;
+    if (result.summary.total === 0 && !args.json)
+      io.stderr(
+        'batch: no input files found (hidden files and folders are skipped; check IN_DIR and --include/--exclude)\n',
+      );
+    // Every warning is something lost or not recorded: a folder that could not be listed, a manifest,
+    // CSV or report that could not be written.
+    return result.summary.failed > 0 || result.interrupted || result.warnings.length > 0 ? 2 : 0;
   } finally {
     bar?.stop();
     process.removeListener('SIGINT', onSignal);
