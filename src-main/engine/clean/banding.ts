@@ -19,8 +19,8 @@
  *   cited for the idea of per-column statistics, from memory).
  * - The standard error of a sample median of N Gaussian values, √(π/2)·σ/√N (asymptotic; common
  *   statistical fact, from memory), used for the significance test.
- * - Spectrum of the profile by a direct DFT; peak position refined by a parabola through the peak bin and
- *   its neighbours (common practice in spectral peak estimation).
+ * - Spectrum of the profile by a direct DFT; the peak is refined on a 1/64-bin grid of the DTFT and a final
+ *   parabola (zero-padding interpolation; common practice in spectral peak estimation).
  */
 
 export type BandingAxis = 'rows' | 'columns';
@@ -231,9 +231,33 @@ export function dominantPeriod(profile: ArrayLike<number>): { period: number | n
   const lo = power[best - 1];
   const hi = best + 1 <= K ? power[best + 1] : 0;
   const share = (lo + power[best] + hi) / total;
-  const denom = lo - 2 * power[best] + hi;
-  const delta = denom !== 0 ? Math.max(-0.5, Math.min(0.5, (0.5 * (lo - hi)) / denom)) : 0;
-  return { period: L / (best + delta), share };
+  // Refine between bins: evaluate the DTFT on a fine grid within ±1 bin of the peak (equivalent to heavy
+  // zero padding), then a parabola through the finest maximum and its neighbours.
+  const dtft = (f: number) => {
+    let re = 0;
+    let im = 0;
+    const w = (2 * Math.PI * f) / L;
+    for (let x = 0; x < L; x++) {
+      re += profile[x] * Math.cos(w * x);
+      im -= profile[x] * Math.sin(w * x);
+    }
+    return re * re + im * im;
+  };
+  const step = 1 / 64;
+  let fBest = best;
+  let pBest = power[best];
+  for (let f = best - 1 + step; f < best + 1; f += step) {
+    const pw = dtft(f);
+    if (pw > pBest) {
+      pBest = pw;
+      fBest = f;
+    }
+  }
+  const pl = dtft(fBest - step);
+  const ph = dtft(fBest + step);
+  const denom = pl - 2 * pBest + ph;
+  const delta = denom !== 0 ? Math.max(-1, Math.min(1, (0.5 * (pl - ph)) / denom)) : 0;
+  return { period: L / (fBest + delta * step), share };
 }
 
 /** Running median with a window [x−w, x+w] clipped to the line, via a sorted sliding window. */

@@ -134,10 +134,16 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     sigmas = work.map((p, c) =>
       c === 0 ? estimateNoiseSigma(p, width, height, 0, maxValue) : estimateNoiseSigma(p, width, height),
     );
-    noiseSigma = colour ? sigmas[0] / NOISE_GAIN_YCBCR[0] : sigmas[0];
+    // Each plane's own σ is measured (scanner noise is rarely equal across channels, and gray scans
+    // stored as RGB have no chroma noise at all); the headline figure is the mean over R, G, B.
+    noiseSigma = colour
+      ? corrected.reduce((a, p) => a + estimateNoiseSigma(p, width, height, 0, maxValue), 0) /
+        corrected.length
+      : sigmas[0];
   }
   const noiseSource = typeof settings.noise === 'number' ? 'given' : 'estimated';
-  const sigma8 = (noiseSigma * 255) / maxValue;
+  // Sizes follow the noise of the plane used for matching (gray or luma).
+  const sigma8 = (sigmas[0] * 255) / maxValue;
   const method = settings.method ?? 'groups';
   const fixedOverride = settings.rank !== undefined || settings.threshold !== undefined;
   if (noiseSource === 'estimated' && sigma8 < MIN_AUTO_SIGMA_8BIT && !fixedOverride)

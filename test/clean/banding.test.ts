@@ -1,0 +1,106 @@
+// Banding: detection (direction, strength, period) and removal as a rank-one pattern, on fixture images
+// with synthetic stripes of known profile. There are no published reference values for banding removal
+// (test/fixtures/reference/notes.md, "Not covered"), so the checks are orderings and bounds against the
+// known synthetic truth.
+import { describe, expect, it } from 'vitest';
+import { analyseBanding, dominantPeriod, runningMedian, subtractProfiles } from '../../src-main/engine/clean';
+import { damage, fixtureGray, psnr, randomProfile, rounded, sineProfile } from './helpers';
+
+const opts = { maxValue: 255 };
+
+function removedShare(truth: Float64Array, estimate: Float64Array | null): number {
+  let e0 = 0;
+  let e1 = 0;
+  for (let i = 0; i < truth.length; i++) {
+    e0 += truth[i] ** 2;
+    e1 += (truth[i] - (estimate ? estimate[i] : 0)) ** 2;
+  }
+  return 1 - e1 / e0;
+}
+
+describe('banding detection and removal', () => {
+  for (const rms of [3, 8])
+    it(`moon.png: random column stripes of RMS ${rms} + noise σ 3 → columns, strength ±15 %, ≥ 90 % of the stripe energy removed, PSNR up`, async () => {
+      const truth = await fixtureGray('moon.png');
+      const columns = randomProfile(truth.width, rms, 40 + rms);
+      const dam = damage(truth, { sigma: 3, seed: 2, columns });
+      const a = analyseBanding(dam, truth.width, truth.height, 'auto', opts);
+      expect(a.direction).toBe('columns');
+      expect(Math.abs(a.columns.strength / rms - 1)).toBeLessThan(0.15);
+      expect(removedShare(columns, a.columns.profile)).toBeGreaterThan(0.9);
+      const out = rounded(subtractProfiles(dam, truth.width, truth.height, null, a.columns.profile));
+      expect(psnr(out, truth.data)).toBeGreaterThan(psnr(dam, truth.data) + 1);
+    });
+
+  it('camera.png (textured, vertical structures): column stripes of RMS 8 are found and ≥ 90 % removed', async () => {
+    const truth = await fixtureGray('camera.png');
+    const columns = randomProfile(truth.width, 8, 77);
+    const dam = damage(truth, { sigma: 3, seed: 3, columns });
+    const a = analyseBanding(dam, truth.width, truth.height, 'auto', opts);
+    expect(a.direction).toBe('columns');
+    expect(removedShare(columns, a.columns.profile)).toBeGreaterThan(0.9);
+  });
+
+  it('periodic row banding (period 12.5 px, RMS 4) on text.png → rows, period within 2 %', async () => {
+    const truth = await fixtureGray('text.png');
+    const rows = sineProfile(truth.height, 4, 12.5);
+    const dam = damage(truth, { sigma: 3, seed: 4, rows });
+    const a = analyseBanding(dam, truth.width, truth.height, 'auto', opts);
+    expect(a.direction).toBe('rows');
+    expect(a.rows.period).not.toBeNull();
+    expect(Math.abs((a.rows.period as number) / 12.5 - 1)).toBeLessThan(0.02);
+    const out = rounded(subtractProfiles(dam, truth.width, truth.height, a.rows.profile, null));
+    expect(psnr(out, truth.data)).toBeGreaterThan(psnr(dam, truth.data) + 1);
+  });
+
+  it('rows and columns together → both', async () => {
+    const truth = await fixtureGray('moon.png');
+    const dam = damage(truth, {
+      sigma: 3,
+      seed: 5,
+      rows: sineProfile(truth.height, 4, 20),
+      columns: randomProfile(truth.width, 3, 6),
+    });
+    expect(analyseBanding(dam, truth.width, truth.height, 'auto', opts).direction).toBe('both');
+  });
+
+  for (const name of ['camera.png', 'moon.png', 'page.png', 'text.png', 'phantom.png'])
+    it(`${name} without stripes: no banding found, so removal leaves it exactly as it was (PSNR ∞ ≥ 50 dB)`, async () => {
+      const truth = await fixtureGray(name);
+      const a = analyseBanding(truth.data, truth.width, truth.height, 'auto', opts);
+      expect(a.direction).toBe('none');
+      expect(a.removeRows || a.removeColumns).toBe(false);
+    });
+
+  it('text lines (page.png) are not taken for row banding even with noise', async () => {
+    const truth = await fixtureGray('page.png');
+    const a = analyseBanding(damage(truth, { sigma: 5, seed: 8 }), truth.width, truth.height, 'auto', opts);
+    expect(a.rows.detected).toBe(false);
+  });
+
+  it('noise alone is not banding (moon.png, σ = 10)', async () => {
+    const truth = await fixtureGray('moon.png');
+    expect(
+      analyseBanding(damage(truth, { sigma: 10, seed: 9 }), truth.width, truth.height, 'auto', opts)
+        .direction,
+    ).toBe('none');
+  });
+
+  it('dominantPeriod finds the period of a pure sinusoid to 1 % and reports none for white noise', () => {
+    const { period, share } = dominantPeriod(sineProfile(500, 1, 23));
+    expect(Math.abs((period as number) / 23 - 1)).toBeLessThan(0.01);
+    expect(share).toBeGreaterThan(0.9);
+    expect(dominantPeriod(randomProfile(500, 1, 3)).share).toBeLessThan(0.3);
+  });
+
+  it('runningMedian matches a direct median of each clipped window', () => {
+    const line = Float64Array.from({ length: 41 }, (_, i) => (i * 37) % 17);
+    const out = new Float64Array(41);
+    runningMedian(line, 4, out);
+    for (let x = 0; x < 41; x++) {
+      const w = Array.from(line.slice(Math.max(0, x - 4), Math.min(41, x + 5))).sort((a, b) => a - b);
+      const med = w.length % 2 ? w[(w.length - 1) / 2] : (w[w.length / 2 - 1] + w[w.length / 2]) / 2;
+      expect(out[x]).toBe(med);
+    }
+  });
+});

@@ -1,0 +1,167 @@
+// Local low-rank denoising (block-matched patch groups, Gavish–Donoho threshold per group) on crops of the
+// fixture images with synthetic Gaussian noise. Margins are stated per image; the references for the
+// method are in src-main/engine/clean/patch-groups.ts (Dong, Shi & Li 2013; Gu et al. 2014).
+import { describe, expect, it } from 'vitest';
+import {
+  autoGroupParams,
+  denoiseGroupsBand,
+  denoiseInProcess,
+  denoiseTiles,
+  estimateNoiseSigma,
+  prepareClean,
+} from '../../src-main/engine/clean';
+import { damage, fixtureGray, psnr, rounded } from './helpers';
+
+const crop = { x: 128, y: 128, w: 192, h: 192 };
+
+describe('patch-group denoiser', () => {
+  // Measured gains with the automatic settings (σ estimated from the image) are in bench/clean.bench.ts;
+  // the margins here are set below them so that a regression of about 1 dB fails.
+  const cases: Array<[string, typeof crop | undefined, number, number]> = [
+    ['camera.png', crop, 10, 3.0],
+    ['moon.png', crop, 10, 6.0],
+    ['text.png', undefined, 10, 4.5],
+    ['page.png', undefined, 10, 2.5],
+    ['camera.png', crop, 5, 1.5],
+    ['moon.png', crop, 20, 8.0],
+  ];
+  for (const [name, c, sigma, margin] of cases)
+    it(`${name}${c ? ' crop' : ''}, σ = ${sigma}: psnr(cleaned, truth) > psnr(noisy, truth) + ${margin} dB`, async () => {
+      const truth = await fixtureGray(name, c);
+      const noisy = damage(truth, { sigma, seed: 7 });
+      const prep = prepareClean(
+        { width: truth.width, height: truth.height, channels: 1, bitDepth: 8, planes: [noisy] },
+        { noise: 'auto', banding: 'off' },
+      );
+      const { planes } = denoiseInProcess(prep);
+      const gain = psnr(rounded(planes[0]), truth.data) - psnr(noisy, truth.data);
+      expect(gain).toBeGreaterThan(margin);
+    });
+
+  it('the band split does not change a single bit (1, 2 and 3 bands; split independence)', async () => {
+    const truth = await fixtureGray('camera.png', { x: 100, y: 100, w: 96, h: 120 });
+    const noisy = damage(truth, { sigma: 10, seed: 9 });
+    const params = autoGroupParams(10);
+    const whole = denoiseGroupsBand([noisy], truth.width, truth.height, [10], params, 0, truth.height)
+      .planes[0];
+    for (const cuts of [
+      [0, 60, 120],
+      [0, 17, 71, 120],
+    ]) {
+      const joined = new Float32Array(whole.length);
+      for (let b = 0; b + 1 < cuts.length; b++) {
+        const part = denoiseGroupsBand([noisy], truth.width, truth.height, [10], params, cuts[b], cuts[b + 1])
+          .planes[0];
+        joined.set(part, cuts[b] * truth.width);
+      }
+      expect(Buffer.from(joined.buffer).equals(Buffer.from(whole.buffer))).toBe(true);
+    }
+  });
+
+  it('rank 0 for every group gives each group its mean patch (a smoother image, never the noisy one)', async () => {
+    const truth = await fixtureGray('moon.png', crop);
+    const noisy = damage(truth, { sigma: 10, seed: 5 });
+    const params = { ...autoGroupParams(10), rank: 0 };
+    const { planes, stats } = denoiseGroupsBand(
+      [noisy],
+      truth.width,
+      truth.height,
+      [10],
+      params,
+      0,
+      truth.height,
+    );
+    expect(stats.rankMax).toBe(0);
+    expect(psnr(planes[0], truth.data)).toBeGreaterThan(psnr(noisy, truth.data));
+  });
+
+  it('a threshold of 0 keeps every component, so the output equals the input to float rounding', async () => {
+    const truth = await fixtureGray('moon.png', { x: 0, y: 0, w: 64, h: 64 });
+    const noisy = damage(truth, { sigma: 10, seed: 5 });
+    const params = { ...autoGroupParams(10), threshold: 0 };
+    const { planes } = denoiseGroupsBand([noisy], truth.width, truth.height, [10], params, 0, truth.height);
+    let max = 0;
+    for (let i = 0; i < noisy.length; i++) max = Math.max(max, Math.abs(planes[0][i] - noisy[i]));
+    expect(max).toBeLessThan(1e-3);
+  });
+
+  it('tiles fallback (Hann-blended 16 px tiles) also improves PSNR, by less than the groups', async () => {
+    const truth = await fixtureGray('moon.png', crop);
+    const noisy = damage(truth, { sigma: 10, seed: 7 });
+    const sigma = estimateNoiseSigma(noisy, truth.width, truth.height, 0, 255);
+    const tiles = denoiseTiles(noisy, truth.width, truth.height, sigma, 16).plane;
+    const groups = denoiseGroupsBand(
+      [noisy],
+      truth.width,
+      truth.height,
+      [sigma],
+      autoGroupParams(sigma),
+      0,
+      truth.height,
+    ).planes[0];
+    const base = psnr(noisy, truth.data);
+    expect(psnr(rounded(tiles), truth.data)).toBeGreaterThan(base + 1);
+    expect(psnr(rounded(groups), truth.data)).toBeGreaterThan(psnr(rounded(tiles), truth.data));
+  });
+
+  it('16-bit: the same image on the 0–65535 scale gains the same as on 0–255 (within 0.3 dB)', async () => {
+    const truth = await fixtureGray('moon.png', crop);
+    const noisy8 = damage(truth, { sigma: 10, seed: 7 });
+    const scale = 257;
+    const truth16 = truth.data.map((v) => v * scale);
+    const noisy16 = noisy8.map((v) => v * scale);
+    const run = (planes: Float32Array[], bitDepth: 8 | 16) => {
+      const prep = prepareClean(
+        { width: truth.width, height: truth.height, channels: 1, bitDepth, planes },
+        { noise: 'auto', banding: 'off' },
+      );
+      return denoiseInProcess(prep).planes[0];
+    };
+    const g8 = psnr(rounded(run([noisy8], 8)), truth.data) - psnr(noisy8, truth.data);
+    const g16 = psnr(rounded(run([noisy16], 16), 65535), truth16, 65535) - psnr(noisy16, truth16, 65535);
+    expect(Math.abs(g16 - g8)).toBeLessThan(0.3);
+  });
+
+  it('colour: phantom.png (centre crop) with σ = 10 per channel gains > 3 dB through luma/chroma denoising', async () => {
+    const { decodeImage } = await import('../../src-main/node/image/decode');
+    const { image } = await import('../helpers/fixtures');
+    const full = await decodeImage(image('phantom.png'));
+    // 200×200 crop of the centre, to keep the test short.
+    const W = 200;
+    const d = {
+      width: W,
+      height: W,
+      planes: full.planes
+        .slice(0, 3)
+        .map((p) =>
+          Float32Array.from(
+            { length: W * W },
+            (_, i) => p[(100 + Math.floor(i / W)) * full.width + 100 + (i % W)],
+          ),
+        ),
+    };
+    const planes = d.planes.map((p, c) =>
+      damage({ width: d.width, height: d.height, data: p }, { sigma: 10, seed: 20 + c }),
+    );
+    const prep = prepareClean(
+      { width: d.width, height: d.height, channels: 3, bitDepth: 8, planes },
+      { noise: 'auto', banding: 'off' },
+    );
+    expect(prep.workNames).toEqual(['Y', 'Cb', 'Cr']);
+    const { finishClean } = await import('../../src-main/engine/clean');
+    const fin = finishClean(
+      { width: d.width, height: d.height, channels: 3, bitDepth: 8, planes },
+      prep,
+      denoiseInProcess(prep).planes,
+    );
+    const before = psnr(
+      Float32Array.from(planes.flatMap((p) => Array.from(p))),
+      Float32Array.from(d.planes.slice(0, 3).flatMap((p) => Array.from(p))),
+    );
+    const after = psnr(
+      Float32Array.from(fin.planes.flatMap((p) => Array.from(p))),
+      Float32Array.from(d.planes.slice(0, 3).flatMap((p) => Array.from(p))),
+    );
+    expect(after - before).toBeGreaterThan(3);
+  });
+});

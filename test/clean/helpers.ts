@@ -1,0 +1,88 @@
+/** Synthetic damage for the cleaning tests: seeded Gaussian noise and stripe patterns on fixture images. */
+import { decodeImage } from '../../src-main/node/image/decode';
+import { image } from '../helpers/fixtures';
+
+/** Park–Miller-style LCG (Numerical Recipes "quick and dirty" constants 1664525, 1013904223), seeded. */
+export function rng(seed: number): () => number {
+  let s = seed >>> 0;
+  return () => {
+    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
+    return (s + 0.5) / 4294967296;
+  };
+}
+
+/** Box–Muller transform (Box & Muller, Ann. Math. Statist. 29(2), 1958): one N(0,1) sample per call. */
+export function gaussian(r: () => number): () => number {
+  return () => Math.sqrt(-2 * Math.log(r())) * Math.cos(2 * Math.PI * r());
+}
+
+export interface Gray {
+  width: number;
+  height: number;
+  data: Float32Array;
+}
+
+/** First channel of a fixture (the skimage gray images are stored as 3 equal channels), optionally cropped. */
+export async function fixtureGray(
+  name: string,
+  crop?: { x: number; y: number; w: number; h: number },
+): Promise<Gray> {
+  const d = await decodeImage(image(name));
+  const c = crop ?? { x: 0, y: 0, w: d.width, h: d.height };
+  const out = new Float32Array(c.w * c.h);
+  for (let y = 0; y < c.h; y++)
+    for (let x = 0; x < c.w; x++) out[y * c.w + x] = d.planes[0][(c.y + y) * d.width + c.x + x];
+  return { width: c.w, height: c.h, data: out };
+}
+
+/** truth + σ·N(0,1) (+ optional row/column offsets), rounded and clipped to [0, max] as a real file would be. */
+export function damage(
+  truth: Gray,
+  opts: { sigma?: number; seed?: number; rows?: Float64Array; columns?: Float64Array; max?: number },
+): Float32Array {
+  const g = gaussian(rng(opts.seed ?? 1));
+  const max = opts.max ?? 255;
+  const out = new Float32Array(truth.data.length);
+  for (let y = 0; y < truth.height; y++)
+    for (let x = 0; x < truth.width; x++) {
+      const i = y * truth.width + x;
+      const v =
+        truth.data[i] +
+        (opts.sigma ? opts.sigma * g() : 0) +
+        (opts.rows ? opts.rows[y] : 0) +
+        (opts.columns ? opts.columns[x] : 0);
+      out[i] = Math.min(max, Math.max(0, Math.round(v)));
+    }
+  return out;
+}
+
+/** Zero-mean random profile with the given RMS (exactly, after normalisation). */
+export function randomProfile(length: number, rms: number, seed: number): Float64Array {
+  const g = gaussian(rng(seed));
+  const p = Float64Array.from({ length }, () => g());
+  const mean = p.reduce((a, b) => a + b, 0) / length;
+  let s = 0;
+  for (let i = 0; i < length; i++) {
+    p[i] -= mean;
+    s += p[i] * p[i];
+  }
+  const k = rms / Math.sqrt(s / length);
+  for (let i = 0; i < length; i++) p[i] *= k;
+  return p;
+}
+
+/** RMS·√2·sin(2πi/period): a periodic profile with the given RMS. */
+export function sineProfile(length: number, rms: number, period: number): Float64Array {
+  return Float64Array.from({ length }, (_, i) => rms * Math.SQRT2 * Math.sin((2 * Math.PI * i) / period));
+}
+
+/** PSNR in dB, 10·log10(MAX²/MSE) (the textbook definition; skimage 0.19.3 peak_signal_noise_ratio agrees). */
+export function psnr(a: ArrayLike<number>, b: ArrayLike<number>, max = 255): number {
+  let s = 0;
+  for (let i = 0; i < a.length; i++) s += (a[i] - b[i]) ** 2;
+  return 10 * Math.log10((max * max) / (s / a.length));
+}
+
+export function rounded(p: Float32Array, max = 255): Float32Array {
+  return p.map((v) => Math.min(max, Math.max(0, Math.round(v))));
+}
