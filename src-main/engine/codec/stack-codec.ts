@@ -87,6 +87,16 @@ export interface StackHeader {
   meta?: Record<string, unknown>;
 }
 
+/**
+ * The header as stored in HEAD: the frame table is split into `frameNames`, one `residualMask` string
+ * per coded channel ('1' = frame j has an SRES chunk), and the SHSH chunk (32 bytes of SHA-256 per frame,
+ * all zero when unknown).
+ */
+interface StackHeaderJson extends Omit<StackHeader, 'frameTable'> {
+  frameNames: Array<string | null>;
+  residualMask: string[];
+}
+
 /** A series prepared once (colour transform, frame-mode SVD, eigen-frames) for encodes at many steps. */
 export interface PreparedStack {
   input: StackInput;
@@ -348,7 +358,7 @@ export function encodeStack(prep: PreparedStack, params: StackParams): EncodedSt
     planeCoder: 'cdf97-rc',
     step,
     ranks,
-    spectrum: svd.map((s) => Array.from(s.sigma, (v) => Number(v.toPrecision(6)))),
+    spectrum: svd.map((s) => Array.from(s.sigma, (v) => Number(v.toPrecision(4)))),
     frameTable: input.frames.map((f, j) => ({
       name: f.name,
       sourceSha256: f.sourceSha256,
@@ -356,9 +366,21 @@ export function encodeStack(prep: PreparedStack, params: StackParams): EncodedSt
     })),
     meta: input.meta,
   };
-  const head = jsonBytes(header);
-  chunks.push({ type: 'HEAD', id: 0, payload: head }, ...body);
-  split.header = head.length;
+  const { frameTable, ...fixed } = header;
+  const serial: StackHeaderJson = {
+    ...fixed,
+    frameNames: frameTable.map((f) => f.name ?? null),
+    residualMask: ranks.map((_, c) => frameTable.map((f) => (f.residual[c] ? '1' : '0')).join('')),
+  };
+  const head = jsonBytes(serial);
+  const hashes = new Uint8Array(32 * N);
+  frameTable.forEach((f, j) => {
+    if (f.sourceSha256 && /^[0-9a-f]{64}$/i.test(f.sourceSha256))
+      for (let b = 0; b < 32; b++)
+        hashes[j * 32 + b] = Number.parseInt(f.sourceSha256.slice(2 * b, 2 * b + 2), 16);
+  });
+  chunks.push({ type: 'HEAD', id: 0, payload: head }, { type: 'SHSH', id: 0, payload: hashes }, ...body);
+  split.header = head.length + hashes.length;
   const bytes = writeContainer(chunks);
   split.container =
     bytes.length - split.header - split.mean - split.basis - split.coefficients - split.residuals;
@@ -395,7 +417,7 @@ export function openStack(bytes: Uint8Array, file: string): StackReader {
   const fail = (problem: string): never => {
     throw new FormatError(file, problem);
   };
-  let header: StackHeader;
+  let header: StackHeaderJson & { frameTable?: StackHeader['frameTable'] };
   try {
     header = JSON.parse(utf8Text(view.payload(0)));
   } catch (err) {
@@ -423,8 +445,33 @@ export function openStack(bytes: Uint8Array, file: string): StackReader {
     !header.ranks.every((r) => okInt(r, 0, MAX_STACK_RANK))
   )
     fail('is damaged: the eigen-frame counts in the header are inconsistent');
-  if (!Array.isArray(header.frameTable) || header.frameTable.length !== frameCount)
+  if (
+    !Array.isArray(header.frameNames) ||
+    header.frameNames.length !== frameCount ||
+    !Array.isArray(header.residualMask) ||
+    header.residualMask.length !== coded ||
+    !header.residualMask.every((m) => typeof m === 'string' && m.length === frameCount && /^[01]*$/.test(m))
+  )
     fail('is damaged: the frame table does not list every frame');
+  const hk = view.find('SHSH', 0);
+  if (hk < 0) fail('is truncated or damaged: the frame hash chunk SHSH is missing');
+  const hashBytes = view.payload(hk);
+  if (hashBytes.length !== 32 * frameCount)
+    fail('is damaged: the frame hash chunk SHSH has the wrong length');
+  header.frameTable = header.frameNames.map((name, j) => {
+    let hex = '';
+    let known = false;
+    for (let b = 0; b < 32; b++) {
+      const v = hashBytes[j * 32 + b];
+      if (v) known = true;
+      hex += v.toString(16).padStart(2, '0');
+    }
+    return {
+      name: name ?? undefined,
+      sourceSha256: known ? hex : undefined,
+      residual: header.residualMask.map((m) => m[j] === '1'),
+    };
+  });
   if (!(header.step > 0 && Number.isFinite(header.step)))
     fail('is damaged: the quantiser step is not a positive number');
   const n = width * height;
@@ -459,8 +506,9 @@ export function openStack(bytes: Uint8Array, file: string): StackReader {
     }
     return { mean: means[c], basis: bases[c], coef: coefs[c] };
   };
+  const full = header as unknown as StackHeader;
   return {
-    header,
+    header: full,
     touched,
     frame(j: number) {
       if (!Number.isInteger(j) || j < 0 || j >= frameCount)
@@ -474,7 +522,7 @@ export function openStack(bytes: Uint8Array, file: string): StackReader {
         const m = basis.length + 1;
         const row = coef.subarray(j * m, (j + 1) * m);
         const rec = rebuildFrame(mean, row[0], basis, row.subarray(1));
-        if (header.frameTable[j].residual?.[c]) {
+        if (full.frameTable[j].residual[c]) {
           const R = plane('SRES', chunkId(c, j), header.step);
           for (let p = 0; p < n; p++) rec[p] += R[p];
         }
