@@ -276,6 +276,62 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     expect(noResume.stdout).toContain('already exists');
   });
 
+  it('a file over --timeout is stopped and fails alone, with no temp file left', () => {
+    const out = join(root, 'timeout-out');
+    const r = run([
+      join(mixedIn, 'box-0'),
+      '-o',
+      out,
+      ...BUDGET,
+      '--timeout',
+      '0.05',
+      '--jobs',
+      '1',
+      '--json',
+    ]);
+    const files = jsonLines(r.stdout).filter((e) => e.event === 'file') as unknown as BatchRow[];
+    const timedOut = files.filter((f) => f.error?.name === 'TimeoutError');
+    expect(timedOut.length).toBeGreaterThan(0);
+    expect(r.code).toBe(2);
+    for (const f of timedOut)
+      expect(f.error!.message).toBe(
+        `${f.path}: took longer than the per-file limit of 0.1 s and was stopped; raise it with --timeout`,
+      );
+    expect(filesUnder(out).filter((f) => f.split('/').pop()!.startsWith('.rankfold-tmp-'))).toEqual([]);
+  });
+
+  it('SIGINT stops cleanly: finished rows are kept, exit 2, and the message says to resume', async () => {
+    const inDir = join(root, 'sigint-in');
+    await goodSet(inDir, 10, 160, 120);
+    const out = join(root, 'sigint-out');
+    const child = spawn(
+      process.execPath,
+      [cli, 'batch', inDir, '-o', out, ...BUDGET, '--jobs', '1', '--json'],
+      { stdio: ['ignore', 'pipe', 'pipe'] },
+    );
+    let stderr = '';
+    let done = 0;
+    let sent = false;
+    child.stderr!.on('data', (c: Buffer) => {
+      stderr += c.toString();
+    });
+    child.stdout!.on('data', (c: Buffer) => {
+      done += (c.toString().match(/"event":"file"/g) ?? []).length;
+      if (done >= 2 && !sent) {
+        sent = true; // a second SIGINT is a hard stop, by design
+        child.kill('SIGINT');
+      }
+    });
+    const code = await new Promise<number | null>((resolve) => child.on('exit', (c) => resolve(c)));
+    expect(code).toBe(2);
+    expect(stderr).toMatch(/interrupted with \d+ files? not finished; run the same command with --resume/);
+    const rows = manifestRows(join(out, 'rankfold-manifest.jsonl'));
+    expect(rows.length).toBeGreaterThanOrEqual(2);
+    expect(rows.length).toBeLessThan(filesUnder(inDir).length);
+    expect(rows.every((x) => x.status === 'ok')).toBe(true);
+    expect(filesUnder(out).filter((f) => f.split('/').pop()!.startsWith('.rankfold-tmp-'))).toEqual([]);
+  });
+
   it('shards cover every file once and --merge joins their manifests', () => {
     const out = join(root, 'shards-out');
     for (let s = 0; s < 3; s++) {

@@ -347,7 +347,11 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
           },
           { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: f.path },
         );
-        if (!outcome.ok && outcome.error.name === 'CancelledError') return;
+        if (!outcome.ok && outcome.error.name === 'CancelledError') {
+          // Stopped by an interrupt: no row (it was not finished), and no temp file left behind.
+          await sweepTemps([f.outputAbs]);
+          return;
+        }
         bytesDone += f.size;
         let row: BatchRow;
         if (outcome.ok) row = rowFromResult(f, shardLabel, outcome.value, settings);
