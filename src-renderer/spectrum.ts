@@ -24,7 +24,7 @@ export class SpectrumCharts {
 
   private size(host: HTMLElement) {
     const r = host.getBoundingClientRect();
-    return { width: Math.max(200, Math.floor(r.width)), height: Math.max(120, Math.floor(r.height) - 28) };
+    return { width: Math.max(200, Math.floor(r.width)), height: Math.max(120, Math.floor(r.height) - 34) };
   }
 
   private resize() {
@@ -64,7 +64,7 @@ export class SpectrumCharts {
     const energy = Float64Array.from(ks, (k) => 100 * model.energyFraction(k));
     const psnr = Float64Array.from(ks, (k) => Math.min(120, model.psnrOptimal(k)));
     const frob = Float64Array.from(ks, (k) => Math.max(1e-6, model.frobeniusOptimal(k)));
-    const spec = Float64Array.from(ks, (k) => Math.max(1e-6, model.spectralBound(k)));
+    const spec = Array.from(ks, (k) => (k < K ? Math.max(1e-6, model.spectralBound(k)) : null));
     this.sigmaPlot?.destroy();
     this.errorPlot?.destroy();
     const axisStyle = {
@@ -88,7 +88,7 @@ export class SpectrumCharts {
           { label: 'cumulative energy %', scale: 'e', stroke: '#8a6d1f', width: 1.5, dash: [4, 3] },
         ],
         hooks: this.marks(),
-        legend: { show: true },
+        legend: { live: false },
       },
       [Array.from(ks), Array.from(sigma), Array.from(energy)],
       this.sigmaHost,
@@ -110,8 +110,9 @@ export class SpectrumCharts {
           { label: 'spectral σₖ₊₁', scale: 'g', stroke: '#8a6d1f', width: 1.5, dash: [4, 3] },
         ],
         hooks: this.marks(),
+        legend: { live: false },
       },
-      [Array.from(ks), Array.from(psnr), Array.from(frob), Array.from(spec)],
+      [Array.from(ks), Array.from(psnr), Array.from(frob), spec],
       this.errorHost,
     );
   }

@@ -270,8 +270,14 @@ export class Backend extends EventEmitter {
       profile: CleanResult['profile'];
     }>('clean', { settings: req.settings }, req.job, this.onJob(req.job));
     const imagesId = newId();
-    this.blobs.set(imagesId, { data: r.images, fileName: 'cleaned.bin', type: 'application/octet-stream' });
+    this.putBlob(imagesId, { data: r.images, fileName: 'cleaned.bin', type: 'application/octet-stream' });
     return { imagesId, report: r.report, profile: r.profile };
+  }
+
+  /** Keep a blob for the page to fetch; only the most recent few stay, so memory stays bounded. */
+  private putBlob(id: string, b: { data: ArrayBuffer; fileName: string; type: string }) {
+    this.blobs.set(id, b);
+    while (this.blobs.size > 6) this.blobs.delete(this.blobs.keys().next().value as string);
   }
 
   blob(id: string) {
@@ -310,7 +316,7 @@ export class Backend extends EventEmitter {
     );
     if (r.data) {
       const downloadId = newId();
-      this.blobs.set(downloadId, {
+      this.putBlob(downloadId, {
         data: r.data,
         fileName: r.fileName,
         type:

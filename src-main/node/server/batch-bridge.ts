@@ -1,8 +1,12 @@
 /**
- * Adapter from the app's Batch panel to the batch runner (src-main/node/batch), the same one
- * `rankfold batch` uses. Filled in as the runner lands.
+ * Adapter from the app's Batch panel to the batch runner (src-main/node/batch/run.ts), the same one
+ * `rankfold batch` uses: same worker pool, manifest, CSV and HTML report. Runs on the main thread
+ * only as orchestration; every file is compressed in the runner's worker threads.
  */
-import { type BatchFileStatus, type BatchRequest, RankfoldError } from '../../contract';
+import { availableParallelism } from 'node:os';
+import { join } from 'node:path';
+import type { BatchFileStatus, BatchRequest } from '../../contract';
+import { runBatch } from '../batch/run';
 
 export interface BatchProgress {
   stage: string;
@@ -12,11 +16,47 @@ export interface BatchProgress {
   message?: string;
 }
 
+const STATE: Record<string, BatchFileStatus['state']> = {
+  ok: 'done',
+  kept: 'skipped',
+  failed: 'failed',
+  planned: 'queued',
+};
+
 export async function runBatchJob(
-  _req: BatchRequest,
-  _signal: AbortSignal,
-  _progress: (e: BatchProgress) => void,
-  _workersDir: string,
+  req: BatchRequest,
+  signal: AbortSignal,
+  progress: (e: BatchProgress) => void,
+  workersDir: string,
 ): Promise<{ files: BatchFileStatus[]; reportPath?: string; cancelled: boolean }> {
-  throw new RankfoldError('This build has no batch runner yet.');
+  const r = await runBatch({
+    inDir: req.input,
+    outDir: req.output,
+    compress: { budget: req.budget, tile: req.tile },
+    force: req.force,
+    jobs: Math.max(1, Math.min(2, availableParallelism() - 1)),
+    workerFile: join(workersDir, 'batch.js'),
+    signal,
+    onEvent: (e) => {
+      if (e.event === 'start') progress({ stage: 'started', done: 0, total: e.total });
+      else if (e.event === 'file')
+        progress({
+          stage: STATE[e.status] ?? e.status,
+          done: e.done,
+          total: e.total,
+          file: e.path,
+          message:
+            e.error?.message ??
+            (e.psnr !== undefined ? `${e.bytes} bytes, PSNR ${e.psnr.toFixed(2)} dB` : undefined),
+        });
+    },
+  });
+  const files: BatchFileStatus[] = r.rows.map((row) => ({
+    file: row.path,
+    state: STATE[row.status] ?? 'failed',
+    message: row.error?.message,
+    outputBytes: row.bytes,
+    psnr: row.psnr,
+  }));
+  return { files, reportPath: r.summary.report, cancelled: r.interrupted };
 }

@@ -1,28 +1,255 @@
 /**
- * Adapter from the app's session jobs to the shared services (compress, clean), so the page's figures
- * are the CLI's figures. Filled in as the services land.
+ * Adapter from the app's session jobs to the shared services, so the page's figures are the CLI's
+ * figures: evaluate = `compressDecoded` (what `rankfold compress --json` reports for the same budget
+ * and tile), save = the same bytes written atomically, or handed back for a download.
+ * Runs inside the session's worker thread.
  */
-import type { DecodedImage } from '../../contract';
-import { RankfoldError } from '../../contract';
+import { basename, extname } from 'node:path';
+import {
+  type Budget,
+  type CleanSettings,
+  type DecodedImage,
+  type EvaluateResult,
+  encodeFactorSet,
+  type FactorArrays,
+  RankfoldError,
+  type SaveKind,
+  type TileChoice,
+  type TileRankMap,
+  UsageError,
+} from '../../contract';
+import { encodeImage, encodeImageBuffer, formatFromPath } from '../image/encode';
+import { assertWritable, writeFileAtomic } from '../io/atomic';
+import { compressDecoded } from '../services/compress';
 import type { ProgressFn } from './factor';
 
-export interface SessionServices {
-  evaluate(image: DecodedImage, args: Record<string, unknown>, progress: ProgressFn): Promise<unknown>;
-  clean(
-    image: DecodedImage,
-    args: Record<string, unknown>,
-    progress: ProgressFn,
-  ): Promise<{ images?: ArrayBuffer } & Record<string, unknown>>;
-  save(
-    image: DecodedImage,
-    args: Record<string, unknown>,
-    progress: ProgressFn,
-  ): Promise<{ data?: ArrayBuffer } & Record<string, unknown>>;
+/** Same wording as the CLI (src-main/node/cli/command.ts), kept here so the worker bundle stays small. */
+export const LOSSY_CAUTION =
+  'Caution: this output is lossy and changes pixel data. Keep preservation masters lossless; medical, forensic and legal ' +
+  "images need your institution's approval. Follow your local digitisation guidelines.";
+export const CLEANING_CAUTION =
+  'Caution: cleaning alters pixel data. Keep the original and the removed part (--removed) where your institution ' +
+  'requires it; never clean preservation masters, medical, forensic or legal images without approval. Follow your local digitisation guidelines.';
+
+type Progress = ProgressFn;
+
+function hooks(progress: Progress) {
+  return {
+    onProgress: (p: { stage: string; fraction: number }) =>
+      progress(Math.round(p.fraction * 100), 100, p.stage),
+  };
 }
 
-export async function sessionServices(): Promise<SessionServices> {
-  const missing = async (): Promise<never> => {
-    throw new RankfoldError('This build has no compress/clean service yet.');
-  };
-  return { evaluate: missing, clean: missing, save: missing };
+function tileMaps(
+  image: DecodedImage,
+  ranks: { channel: string; tile: number; ranks: Int32Array }[],
+): TileRankMap[] | undefined {
+  const tiled = ranks.filter((r) => r.tile > 0);
+  if (!tiled.length) return undefined;
+  return tiled.map((r) => ({
+    channel: r.channel,
+    tile: r.tile,
+    cols: Math.ceil(image.width / r.tile),
+    rows: Math.ceil(image.height / r.tile),
+    ranks: Array.from(r.ranks),
+  }));
 }
+
+function planesSet(
+  image: DecodedImage,
+  prefix: string,
+  planes: Float32Array[],
+  extra: FactorArrays = {},
+): ArrayBuffer {
+  const arrays: FactorArrays = { ...extra };
+  planes.forEach((p, i) => {
+    arrays[`${prefix}.${i}`] = p;
+  });
+  const names = image.colour === 'rgb' ? ['R', 'G', 'B', 'A'] : ['Y', 'A'];
+  const bytes = encodeFactorSet(
+    {
+      width: image.width,
+      height: image.height,
+      channels: planes.map((_, i) => names[i]),
+      ranks: planes.map(() => 0),
+      energy: planes.map(() => 0),
+      peak: image.bitDepth === 16 ? 65535 : 255,
+      complete: false,
+    },
+    arrays,
+  );
+  return bytes.buffer as ArrayBuffer;
+}
+
+/** Encode at a budget; tiled results also return the decoded planes for the page to show. */
+export async function evaluate(
+  image: DecodedImage,
+  args: { budget: Budget; tile: TileChoice; input: string },
+  progress: Progress,
+): Promise<EvaluateResult & { preview?: ArrayBuffer }> {
+  const { report, result } = await compressDecoded(
+    image,
+    { budget: args.budget, tile: args.tile },
+    hooks(progress),
+  );
+  const tileRanks = tileMaps(image, result.ranks);
+  const preview = tileRanks ? planesSet(image, 'rec', result.decoded.samples) : undefined;
+  return { report: { ...report, input: args.input }, tileRanks, preview };
+}
+
+export interface CleanOutput {
+  images: ArrayBuffer;
+  report: Record<string, unknown>;
+  profile: { columns: number[]; rows: number[] };
+}
+
+/** Column and row means of a plane (the stripe profile of what cleaning removed). */
+export function stripeProfile(
+  plane: Float32Array,
+  width: number,
+  height: number,
+): { columns: number[]; rows: number[] } {
+  const columns = new Float64Array(width);
+  const rows = new Float64Array(height);
+  for (let r = 0; r < height; r++) {
+    let s = 0;
+    const o = r * width;
+    for (let c = 0; c < width; c++) {
+      const v = plane[o + c];
+      s += v;
+      columns[c] += v;
+    }
+    rows[r] = s / width;
+  }
+  for (let c = 0; c < width; c++) columns[c] /= height;
+  return { columns: Array.from(columns), rows: Array.from(rows) };
+}
+
+type CleanFn = (
+  image: DecodedImage,
+  settings: CleanSettings,
+  progress: Progress,
+) => Promise<{ cleaned: Float32Array[]; report: Record<string, unknown> }>;
+
+/** The cleaning service, loaded when the build has it. */
+async function cleaner(): Promise<CleanFn> {
+  const { cleanWithService } = await import('./clean-adapter');
+  return cleanWithService;
+}
+
+export async function clean(
+  image: DecodedImage,
+  args: { settings: CleanSettings },
+  progress: Progress,
+): Promise<CleanOutput> {
+  const run = await cleaner();
+  const { cleaned, report } = await run(image, args.settings, progress);
+  const removed = image.planes.map((p, c) => {
+    const out = new Float32Array(p.length);
+    const q = cleaned[c];
+    for (let i = 0; i < p.length; i++) out[i] = p[i] - q[i];
+    return out;
+  });
+  const extra: FactorArrays = {};
+  removed.forEach((r, i) => {
+    extra[`removed.${i}`] = r;
+  });
+  const images = planesSet(image, 'cleaned', cleaned, extra);
+  return { images, report, profile: stripeProfile(removed[0], image.width, image.height) };
+}
+
+export interface SaveOutput {
+  data?: ArrayBuffer;
+  fileName: string;
+  bytes: number;
+  caution: string;
+  path?: string;
+}
+
+function outName(input: string, kind: SaveKind, bitDepth: 8 | 16): string {
+  const stem = basename(input, extname(input));
+  if (kind === 'rkf') return `${stem}.rkf`;
+  const ext = bitDepth === 16 ? '.tif' : '.png';
+  return kind === 'cleaned' ? `${stem}-cleaned${ext}` : `${stem}-expanded${ext}`;
+}
+
+/** Write (path given) or return (download) the .rkf, the expanded image or the cleaned image. */
+export async function save(
+  image: DecodedImage,
+  args: {
+    kind: SaveKind;
+    budget: Budget;
+    tile: TileChoice;
+    settings?: CleanSettings;
+    path?: string;
+    force?: boolean;
+    input: string;
+  },
+  progress: Progress,
+): Promise<SaveOutput> {
+  const fileName = args.path ? basename(args.path) : outName(args.input, args.kind, image.bitDepth);
+  if (args.kind === 'rkf' && !/\.rkf$/i.test(fileName))
+    throw new UsageError(`${fileName}: a compressed file must end in .rkf`);
+  if (args.path) await assertWritable(args.path, args.force);
+  const meta = { icc: image.meta.icc, density: image.meta.density, orientation: image.meta.orientation };
+  let planes: Float32Array[];
+  let caution = LOSSY_CAUTION;
+  if (args.kind === 'cleaned') {
+    if (!args.settings) throw new UsageError('Saving a cleaned image needs the clean settings');
+    planes = (await (await cleaner())(image, args.settings, progress)).cleaned;
+    caution = CLEANING_CAUTION;
+  } else {
+    const { bytes, result } = await compressDecoded(
+      image,
+      { budget: args.budget, tile: args.tile },
+      hooks(progress),
+    );
+    if (args.kind === 'rkf') {
+      if (args.path) {
+        await writeFileAtomic(args.path, bytes, { force: args.force });
+        return { path: args.path, fileName, bytes: bytes.length, caution };
+      }
+      const copy = bytes.slice();
+      return { data: copy.buffer as ArrayBuffer, fileName, bytes: copy.length, caution };
+    }
+    planes = result.decoded.samples;
+  }
+  const img = {
+    width: image.width,
+    height: image.height,
+    channels: image.channels,
+    bitDepth: image.bitDepth,
+    planes,
+    meta,
+  };
+  if (args.path) {
+    formatFromPath(args.path);
+    const w = await encodeImage(args.path, img, { force: args.force });
+    return { path: args.path, fileName, bytes: w.bytes, caution };
+  }
+  const buf = await encodeImageBuffer(img, { format: formatFromPath(fileName) });
+  const copy = new Uint8Array(buf);
+  return { data: copy.buffer as ArrayBuffer, fileName, bytes: copy.length, caution };
+}
+
+export async function sessionServices() {
+  return {
+    evaluate: evaluate as (
+      i: DecodedImage,
+      a: Record<string, unknown>,
+      p: Progress,
+    ) => Promise<EvaluateResult & { preview?: ArrayBuffer }>,
+    clean: clean as unknown as (
+      i: DecodedImage,
+      a: Record<string, unknown>,
+      p: Progress,
+    ) => Promise<CleanOutput>,
+    save: save as unknown as (
+      i: DecodedImage,
+      a: Record<string, unknown>,
+      p: Progress,
+    ) => Promise<SaveOutput>,
+  };
+}
+
+export { RankfoldError };

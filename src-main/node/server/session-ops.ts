@@ -4,7 +4,7 @@
  */
 import { type DecodedImage, RankfoldError, type ScanSummary } from '../../contract';
 import { decodeImage } from '../image/decode';
-import { factorScan, type ProgressFn } from './factor';
+import { factorScan, type ProgressFn, readyEngine } from './factor';
 import { sessionServices } from './services-bridge';
 
 export type SessionOp = 'open' | 'factors' | 'evaluate' | 'clean' | 'save';
@@ -40,12 +40,16 @@ export async function runSessionOp(
   const image = state.image;
   if (!image) throw new RankfoldError('No scan is open in this session; open it again.');
   if (op === 'factors') {
+    await readyEngine();
     const bytes = factorScan(image, args.maxRank as number, progress);
     const buf = bytes.buffer as ArrayBuffer;
     return { value: buf, transfer: [buf] };
   }
   const services = await sessionServices();
-  if (op === 'evaluate') return { value: await services.evaluate(image, args, progress) };
+  if (op === 'evaluate') {
+    const r = await services.evaluate(image, args, progress);
+    return { value: r, transfer: r.preview ? [r.preview] : [] };
+  }
   if (op === 'clean') {
     const r = await services.clean(image, args, progress);
     return { value: r, transfer: r.images ? [r.images] : [] };

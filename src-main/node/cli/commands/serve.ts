@@ -58,7 +58,7 @@ export const command: Command = {
     const staticDir = join(dist, 'renderer');
     if (!existsSync(join(staticDir, 'index.html')))
       throw new RankfoldError(`${staticDir}: the page is not built; run \`npm run build\` first`);
-    const samplesDir = join(dist, '..', 'samples');
+    const samplesDir = process.env.RANKFOLD_SAMPLES_DIR ?? join(dist, '..', 'samples');
     const backend = new Backend({
       workersDir: join(dist, 'workers'),
       samplesDir: existsSync(samplesDir) ? samplesDir : undefined,
