@@ -139,7 +139,7 @@ async function main() {
     'Inputs: A = U·diag(σ)·Vᵀ stored in f32, σᵢ = 1000/(1+i) + 1 (power-law decay plus a noise floor), U, V orthonormal',
   );
   log('(DCT-II bases with random signs), so the Eckart–Young optimum is known exactly. Times are medians.');
-  log('Defaults: oversample p = 10, q = 3 power iterations, f32 storage, single thread unless stated.');
+  log('Defaults: oversample p = 10, q = 2 power iterations (3 when k+p > min(m,n)/8), f32 storage, single thread unless stated.');
   log('');
 
   // ---- 1. ml-matrix baseline (full SVD), measured at 512², extrapolated as m·n·min(m,n).

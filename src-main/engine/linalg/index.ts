@@ -15,6 +15,7 @@ export { DEFAULT_SEED, Rng } from './random';
 export {
   DEFAULT_OVERSAMPLE,
   DEFAULT_POWER_ITERS,
+  defaultPowerIters,
   type RandomizedSvdOptions,
   randomizedSvd,
 } from './randomized-svd';

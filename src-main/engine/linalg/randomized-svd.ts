@@ -20,16 +20,24 @@ import { type Backend, bytesFor, defaultBackend, type Workspace } from './worksp
 /** HMT §4.2: "p = 5 or p = 10 is often enough"; 10 keeps the error within ~1% of optimal at q ≥ 2. */
 export const DEFAULT_OVERSAMPLE = 10;
 /**
- * Power iterations q. Measured on image-like spectra (bench/engine.bench.ts, 1500×2000, k = 50):
- * q = 2 gives Frobenius error ≈ 1.004× the optimum, q = 3 ≈ 1.001×; we take 3 to stay clear of the
- * 1.01× target on flatter spectra at ~15% more time.
+ * Default power iterations q, picked by measured accuracy (bench/engine.bench.ts, σᵢ = 1000/(1+i) + 1):
+ * with l = k + p ≤ min(m,n)/8, q = 2 gives Frobenius error ≈ 1.004× the Eckart–Young optimum
+ * (1500×2000, k = 50); when l is a larger share of the spectrum its tail is flatter and q = 2 drifts
+ * past 1.01× (512², k = 200), so q = 3 is used there (≈ 1.009×).
  */
-export const DEFAULT_POWER_ITERS = 3;
+export const DEFAULT_POWER_ITERS = 2;
+/** l beyond min(m,n)/LARGE_BLOCK_FRACTION counts as a large share of the spectrum (one more power step). */
+const LARGE_BLOCK_FRACTION = 8;
+
+/** The q used when `powerIters` is not given, for l = k + p columns and r = min(m, n). */
+export function defaultPowerIters(l: number, r: number): number {
+  return l > r / LARGE_BLOCK_FRACTION ? DEFAULT_POWER_ITERS + 1 : DEFAULT_POWER_ITERS;
+}
 
 export interface RandomizedSvdOptions {
   /** Extra columns p in the test matrix (HMT §4.2). Default 10, range 0…min(m,n)−k. */
   oversample?: number;
-  /** Power iterations q (HMT Alg. 4.4). Default 3, range 0…50. */
+  /** Power iterations q (HMT Alg. 4.4). Default 2, or 3 when k + p > min(m,n)/8 (see `defaultPowerIters`); range 0…50. */
   powerIters?: number;
   /** Seed of the Gaussian test matrix; the same seed gives bit-identical output on one backend. Default 0x5eed. */
   seed?: number;
@@ -78,7 +86,7 @@ export function randomizedSvd(a: Matrix, k: number, opts: RandomizedSvdOptions =
   const n = a.cols;
   const r = Math.min(m, n);
   const p = Math.max(0, Math.min(opts.oversample ?? DEFAULT_OVERSAMPLE, r - k));
-  const q = opts.powerIters ?? DEFAULT_POWER_ITERS;
+  const q = opts.powerIters ?? defaultPowerIters(k + p, r);
   if (!Number.isInteger(q) || q < 0 || q > 50)
     throw new RangeError(`randomizedSvd: expected integer between 0 and 50 for powerIters but received ${q}`);
   const precision: Precision = opts.precision ?? (a.data instanceof Float32Array ? 'f32' : 'f64');

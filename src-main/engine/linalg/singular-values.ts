@@ -14,7 +14,7 @@
 import { jacobiSingularValues, jacobiSvd } from './jacobi-svd';
 import type { Matrix, SvdResult } from './matrix';
 import { assertFinite } from './randomized-svd';
-import { symmetricEigenvalues } from './symmetric-eigen';
+import { tridiagonalEigenvalues, tridiagonalize } from './symmetric-eigen';
 import { type Backend, bytesFor, defaultBackend } from './workspace';
 
 /**
@@ -34,7 +34,7 @@ const GRAM_BLOCK = 128;
  * (Weyl), i.e. an absolute error in σᵢ of about c·n·ε·σ₁²/(2σᵢ): for σᵢ ≥ 1e-4·σ₁ and n ≤ 2048 this is
  * ≲ 1e-8·σ₁ — far inside the 1e-4·σ₁ needed for spectra — but σᵢ below ~√(nε)·σ₁ ≈ 1e-6·σ₁ carry no
  * correct digits (they come back as ≈0 or ~1e-6·σ₁ instead). Use `jacobiSvd` where tiny σ matter.
- * Cost at 2048×2048: a few seconds (Gram on WebAssembly, tridiagonalisation in TypeScript).
+ * Cost at 2048×2048: a few seconds (Gram product and tridiagonalisation on WebAssembly SIMD).
  * @throws RangeError if A has NaN or infinite entries.
  * @example const s = singularValues(plane); // s[0] ≥ s[1] ≥ …
  */
@@ -46,26 +46,29 @@ export function singularValues(a: Matrix, backend: Backend = defaultBackend()): 
   assertFinite(a);
   if (r <= JACOBI_LIMIT) return jacobiSingularValues(a);
   const long = Math.max(m, n);
-  const ws = backend.workspace(bytesFor(0, long * r + r * r));
-  let G: Float64Array;
+  const ws = backend.workspace(bytesFor(0, long * r + r * r + 4 * r + 2));
+  let lambda: Float64Array;
   try {
     // X is long×short row-major: A itself if m ≥ n, else Aᵀ.
     const X = ws.f64(long * r);
     if (m >= n) for (let i = 0; i < m * n; i++) X[i] = a.data[i];
     else for (let i = 0; i < m; i++) for (let j = 0; j < n; j++) X[j * m + i] = a.data[i * n + j];
-    const Gw = ws.f64(r * r);
-    // Upper block triangle: G[i0:i1, i0:] = X[:, i0:i1]ᵀ·X[:, i0:].
+    const G = ws.f64(r * r);
+    // Upper block triangle: G[i0:i1, i0:] = X[:, i0:i1]ᵀ·X[:, i0:], then mirrored into the lower triangle.
     for (let i0 = 0; i0 < r; i0 += GRAM_BLOCK) {
       const ni = Math.min(GRAM_BLOCK, r - i0);
-      ws.gemm(ni, r - i0, long, X, i0, 1, r, X, i0, r, Gw, i0 * r + i0, r, false);
+      ws.gemm(ni, r - i0, long, X, i0, 1, r, X, i0, r, G, i0 * r + i0, r, false);
     }
-    G = new Float64Array(r * r);
-    // Lower triangle from the computed upper part.
-    for (let i = 0; i < r; i++) for (let j = 0; j <= i; j++) G[i * r + j] = Gw[j * r + i];
+    for (let i = 1; i < r; i++) for (let j = 0; j < i; j++) G[i * r + j] = G[j * r + i];
+    const d = ws.f64(r);
+    const e = ws.f64(Math.max(r - 1, 1));
+    const v = ws.f64(r);
+    const p = ws.f64(r);
+    if (!ws.tridiag?.(G, r, d, e, v, p)) tridiagonalize(G, r, d, e);
+    lambda = tridiagonalEigenvalues(d, e.subarray(0, Math.max(r - 1, 0)));
   } finally {
     ws.release();
   }
-  const lambda = symmetricEigenvalues(G, r);
   const s = new Float64Array(r);
   for (let i = 0; i < r; i++) s[i] = Math.sqrt(Math.max(lambda[i], 0));
   s.sort().reverse();

@@ -52,6 +52,18 @@ export interface Workspace {
     tol: number,
     maxSweeps: number,
   ): number;
+  /**
+   * Optional fast Householder tridiagonalisation (symmetric-eigen.ts `tridiagonalize`) on arrays from
+   * this workspace; v and p are n-element scratch. Returns false when it cannot run (caller uses TS).
+   */
+  tridiag?(
+    S: Float64Array,
+    n: number,
+    d: Float64Array,
+    e: Float64Array,
+    v: Float64Array,
+    p: Float64Array,
+  ): boolean;
   /** Return the space to the backend. Views must not be used afterwards. */
   release(): void;
   /** Short label for diagnostics and the bench ("wasm", "ts", "2 workers"). */
@@ -160,6 +172,19 @@ class WasmWorkspace implements Workspace {
     const buf = this.k.memory.buffer;
     if (W.buffer !== buf || (Vt && Vt.buffer !== buf)) return -1;
     return this.k.exports.jacobiF64(W.byteOffset, rows, n, Vt ? Vt.byteOffset : 0, tol, maxSweeps);
+  }
+  tridiag(
+    S: Float64Array,
+    n: number,
+    d: Float64Array,
+    e: Float64Array,
+    v: Float64Array,
+    p: Float64Array,
+  ): boolean {
+    const buf = this.k.memory.buffer;
+    if ([S, d, e, v, p].some((x) => x.buffer !== buf)) return false;
+    this.k.exports.tridiagF64(S.byteOffset, n, d.byteOffset, e.byteOffset, v.byteOffset, p.byteOffset);
+    return true;
   }
   release() {
     wasmBusy = false;

@@ -161,6 +161,11 @@ export class LinalgPool implements Backend {
         if (!sameMemory(W, this.memory) || (Vt && !sameMemory(Vt, this.memory))) return -1;
         return this.local.jacobiF64(W.byteOffset, rows, n, Vt ? Vt.byteOffset : 0, tol, maxSweeps);
       },
+      tridiag: (S, n, d, e, v, p) => {
+        if (![S, d, e, v, p].every((x) => sameMemory(x, this.memory))) return false;
+        this.local.tridiagF64(S.byteOffset, n, d.byteOffset, e.byteOffset, v.byteOffset, p.byteOffset);
+        return true;
+      },
       release: () => {
         this.busy = false;
       },
@@ -256,3 +261,25 @@ function sameMemory(x: FloatArray, memory: WebAssembly.Memory): boolean {
   return x.buffer === memory.buffer || handedOut.has(x.buffer as SharedArrayBuffer);
 }
 const handedOut = new WeakSet<SharedArrayBuffer>();
+
+let shared: Promise<LinalgPool> | null = null;
+
+/**
+ * The process-wide pool (created on first use with `options`), for services that factor many large
+ * planes: `randomizedSvd(plane, k, { backend: await sharedLinalgPool() })`.
+ */
+export function sharedLinalgPool(options: PoolOptions = {}): Promise<LinalgPool> {
+  if (!shared)
+    shared = LinalgPool.create(options).catch((err) => {
+      shared = null;
+      throw err;
+    });
+  return shared;
+}
+
+/** Close the process-wide pool, if one was started. */
+export async function closeSharedLinalgPool(): Promise<void> {
+  const p = shared;
+  shared = null;
+  if (p) await (await p).close();
+}

@@ -267,3 +267,98 @@ export function jacobiF64(w: usize, rows: i32, n: i32, vt: usize, tol: f64, maxS
   }
   return maxSweeps + 1;
 }
+
+// ---------------------------------------------------------------- Householder tridiagonalisation, f64x2
+// Reference: G. H. Golub, C. F. Van Loan, Matrix Computations, 4th ed., 2013, Algorithm 8.3.1 (from memory).
+// S (n×n, row-major) holds the LOWER triangle of a symmetric matrix and is overwritten. d (n) and e (n−1)
+// receive the tridiagonal matrix. v and p are scratch vectors of n f64. Same algorithm as
+// symmetric-eigen.ts `tridiagonalize` (the TypeScript fallback).
+export function tridiagF64(s: usize, n: i32, d: usize, e: usize, v: usize, p: usize): void {
+  const rowBytes = <usize>n << 3;
+  for (let k = 0; k < n - 2; k++) {
+    store<f64>(d + (<usize>k << 3), load<f64>(s + <usize>k * rowBytes + (<usize>k << 3)));
+    const k1 = k + 1;
+    let scale: f64 = 0;
+    for (let j = k1; j < n; j++) scale = max(scale, abs(load<f64>(s + <usize>j * rowBytes + (<usize>k << 3))));
+    if (scale == 0) {
+      store<f64>(e + (<usize>k << 3), 0);
+      continue;
+    }
+    let norm2: f64 = 0;
+    for (let j = k1; j < n; j++) {
+      const x = load<f64>(s + <usize>j * rowBytes + (<usize>k << 3)) / scale;
+      store<f64>(v + (<usize>j << 3), x);
+      norm2 += x * x;
+    }
+    const norm = sqrt(norm2);
+    const v0 = load<f64>(v + (<usize>k1 << 3));
+    const alpha = v0 >= 0 ? -norm : norm;
+    store<f64>(e + (<usize>k << 3), alpha * scale);
+    store<f64>(v + (<usize>k1 << 3), v0 - alpha);
+    let vv: f64 = 0;
+    for (let j = k1; j < n; j++) {
+      const x = load<f64>(v + (<usize>j << 3));
+      vv += x * x;
+    }
+    if (vv == 0) continue;
+    const beta = 2 / vv;
+    for (let j = k1; j < n; j++) store<f64>(p + (<usize>j << 3), 0);
+    // p = S22·v from the lower triangle, row by row: dot into p[j], axpy into p[k1..j-1].
+    for (let j = k1; j < n; j++) {
+      const row = s + <usize>j * rowBytes;
+      const vj = load<f64>(v + (<usize>j << 3));
+      const vjv = f64x2.splat(vj);
+      let dotv = f64x2.splat(0);
+      let i = k1;
+      for (; i + 1 < j; i += 2) {
+        const o = <usize>i << 3;
+        const a = v128.load(row + o);
+        dotv = f64x2.add(dotv, f64x2.mul(a, v128.load(v + o)));
+        v128.store(p + o, f64x2.add(v128.load(p + o), f64x2.mul(a, vjv)));
+      }
+      let dot = hsum(dotv);
+      for (; i < j; i++) {
+        const o = <usize>i << 3;
+        const a = load<f64>(row + o);
+        dot += a * load<f64>(v + o);
+        store<f64>(p + o, load<f64>(p + o) + a * vj);
+      }
+      const oj = <usize>j << 3;
+      store<f64>(p + oj, load<f64>(p + oj) + dot + load<f64>(row + oj) * vj);
+    }
+    let pv: f64 = 0;
+    for (let j = k1; j < n; j++) {
+      const o = <usize>j << 3;
+      const x = load<f64>(p + o) * beta;
+      store<f64>(p + o, x);
+      pv += x * load<f64>(v + o);
+    }
+    const h = 0.5 * beta * pv;
+    for (let j = k1; j < n; j++) {
+      const o = <usize>j << 3;
+      store<f64>(p + o, load<f64>(p + o) - h * load<f64>(v + o));
+    }
+    // S22 -= v·wᵀ + w·vᵀ on the lower triangle (w is in p).
+    for (let j = k1; j < n; j++) {
+      const row = s + <usize>j * rowBytes;
+      const vj = load<f64>(v + (<usize>j << 3));
+      const wj = load<f64>(p + (<usize>j << 3));
+      const vjv = f64x2.splat(vj), wjv = f64x2.splat(wj);
+      let i = k1;
+      for (; i + 1 <= j; i += 2) {
+        const o = <usize>i << 3;
+        const upd = f64x2.add(f64x2.mul(vjv, v128.load(p + o)), f64x2.mul(wjv, v128.load(v + o)));
+        v128.store(row + o, f64x2.sub(v128.load(row + o), upd));
+      }
+      for (; i <= j; i++) {
+        const o = <usize>i << 3;
+        store<f64>(row + o, load<f64>(row + o) - (vj * load<f64>(p + o) + wj * load<f64>(v + o)));
+      }
+    }
+  }
+  if (n >= 2) {
+    store<f64>(d + (<usize>(n - 2) << 3), load<f64>(s + <usize>(n - 2) * rowBytes + (<usize>(n - 2) << 3)));
+    store<f64>(e + (<usize>(n - 2) << 3), load<f64>(s + <usize>(n - 1) * rowBytes + (<usize>(n - 2) << 3)));
+  }
+  if (n >= 1) store<f64>(d + (<usize>(n - 1) << 3), load<f64>(s + <usize>(n - 1) * rowBytes + (<usize>(n - 1) << 3)));
+}
