@@ -312,19 +312,25 @@ function solveFor(
     return ssimPlanes(src, out, img.width, img.height, max) >= (budget as { value: number }).value;
   };
   if (budget.kind === 'psnr') {
-    let dmax = count * max * max * 10 ** (-budget.db / 10);
+    const target = count * max * max * 10 ** (-budget.db / 10);
+    let dmax = target;
     let found: Plan | undefined;
     let around: number | undefined;
+    // Secant steps on the allowed error: clamping and rounding make the measured error differ from the
+    // factor-domain figure, so aim the next trial by the measured ratio (just under the floor).
     for (let i = 0; i < 6; i++) {
       const plan = solveError(inputs, dmax, max, around);
       around = plan.stepIndex;
       const bytes = build(plan.planes);
-      if (meets(bytes)) {
+      const measured = measuredSse(bytes, img, prep);
+      const ok = psnrOf(measured, count, max) >= budget.db;
+      if (ok) {
         plan.bytes = bytes.length;
         if (!found || plan.bytes < found.bytes) found = plan;
-        if (i > 0) break;
-        dmax *= 1.03; // try slightly larger error once: the estimate is conservative near rounding
-      } else dmax /= found ? 1.01 : 1.25;
+      }
+      const ratio = measured > 0 ? target / measured : 2;
+      if (ok && ratio < 1.02) break;
+      dmax *= Math.min(4, Math.max(0.25, ratio)) * (ok ? 0.998 : 0.99);
     }
     if (!found) {
       const plan = solveRank(inputs, Math.max(img.width, img.height), max, 0, 0.0005);
@@ -362,6 +368,10 @@ function solveFor(
     return found;
   }
   throw new UsageError(`unknown budget kind ${(budget as { kind: string }).kind}`);
+}
+
+function psnrOf(sse: number, count: number, max: number): number {
+  return sse === 0 ? Number.POSITIVE_INFINITY : 10 * Math.log10((max * max * count) / sse);
 }
 
 function emptyPlane(inp: PlaneInput): QuantPlane {

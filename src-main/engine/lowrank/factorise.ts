@@ -12,6 +12,8 @@ export interface TileFactors {
   meanQ: number;
   /** ‖tile − mean‖²_F: the energy a rank-0 tile leaves as error. */
   energy: number;
+  /** The tile minus its mean, h×w row-major (the quantiser refits against it). */
+  data: Float32Array;
   s: Float64Array;
   /** h×r, columns are left singular vectors. */
   U: Matrix;
@@ -76,7 +78,7 @@ export function factorPlane(
       // Halko, Martinsson & Tropp 2011, Alg. 4.4 with q = 4 power steps: ≈1.0005× the optimal Frobenius error.
       svd = randomizedSvd(mat, Math.max(1, opts.maxRank), { seed: opts.seed ?? 1, powerIters: 4 });
     else svd = opts.tile === 0 ? fullSvd(mat) : jacobiSvd(mat);
-    tiles.push({ rect, meanQ, energy, s: svd.s, U: svd.U, V: svd.V });
+    tiles.push({ rect, meanQ, energy, data: Float32Array.from(a), s: svd.s, U: svd.U, V: svd.V });
   }
   return { width, height, tile: opts.tile, meanStep: opts.meanRemoval ? opts.meanStep : 0, tiles };
 }

@@ -6,7 +6,7 @@
  * greedy allocation of ./allocate. Byte budgets are then met on the real encoded size by a secant and
  * bisection search over the greedy prefix, calling back into the container writer.
  */
-import { componentError, DEAD_ZONE, quantiseVector } from '../codec/quantise';
+import { componentScale, DEAD_ZONE, quantiseVector } from '../codec/quantise';
 import type { QuantPlane, QuantTile } from '../codec/quantised';
 import { type Block, greedyOrder } from './allocate';
 import type { PlaneFactors } from './factorise';
@@ -37,6 +37,8 @@ export interface Candidate {
   baseD: number;
   /** Flat tile index → [plane, tile]. */
   index: Array<[number, number]>;
+  /** errs[p][t][i] = σᵢ² − (exact reduction of the tile's squared error by component i after refit). */
+  errs: Float64Array[][];
 }
 
 const ESC = 16;
@@ -102,24 +104,56 @@ export function buildCandidate(inputs: PlaneInput[], delta: number, opts: Candid
       const r = Math.min(tf.s.length, tf.U.cols, tf.V.cols, opts.maxRank ?? Number.POSITIVE_INFINITY);
       const list: Comp[] = [];
       const e: number[] = [];
+      const { h, w } = tf.rect;
+      // Residual of the tile after the components taken so far (quantised), for the refit.
+      const R = Float64Array.from(tf.data);
+      let rn = 0;
+      for (let k = 0; k < R.length; k++) rn += R[k] * R[k];
+      const wv = new Float64Array(w);
       for (let i = 0; i < r; i++) {
         const sigma = tf.s[i];
         // Entries of σ·u are at most σ; below the dead zone they all round to 0 (rank caps still apply).
         if (opts.maxRank === undefined && sigma < (0.5 + DEAD_ZONE) * step) break;
-        const qu = quantiseVector(
-          column(tf.U.data, tf.U.cols, i, tf.rect.h),
-          sigma,
-          step,
-          new Int32Array(tf.rect.h),
-        );
-        const qv = quantiseVector(
-          column(tf.V.data, tf.V.cols, i, tf.rect.w),
-          sigma,
-          step,
-          new Int32Array(tf.rect.w),
-        );
+        const qu = quantiseVector(column(tf.U.data, tf.U.cols, i, h), sigma, step, new Int32Array(h));
+        const qv = new Int32Array(w);
+        let nu2 = 0;
+        for (let k = 0; k < h; k++) nu2 += qu[k] * qu[k];
+        let gain = 0;
+        if (nu2 > 0) {
+          // Quantise-and-refit: given û = Δ·q_u, the best right factor is w = Rᵀû/‖û‖² (least squares);
+          // store b = w·‖w‖·‖û‖ so the decoder's ŝ = sqrt(‖û‖‖b̂‖) rebuilds û·wᵀ. Later components
+          // see the residual, so they also absorb earlier quantisation errors.
+          wv.fill(0);
+          for (let y = 0; y < h; y++) {
+            const a = qu[y];
+            if (a === 0) continue;
+            const row = y * w;
+            for (let x = 0; x < w; x++) wv[x] += R[row + x] * a;
+          }
+          let nw2 = 0;
+          for (let x = 0; x < w; x++) {
+            wv[x] /= step * nu2;
+            nw2 += wv[x] * wv[x];
+          }
+          quantiseVector(wv, Math.sqrt(nw2) * step * Math.sqrt(nu2), step, qv);
+          const c = componentScale(qu, qv, step);
+          if (c !== 0) {
+            let nn = 0;
+            for (let y = 0; y < h; y++) {
+              const a = qu[y] * c;
+              const row = y * w;
+              for (let x = 0; x < w; x++) {
+                const v = R[row + x] - a * qv[x];
+                R[row + x] = v;
+                nn += v * v;
+              }
+            }
+            gain = rn - nn;
+            rn = nn;
+          }
+        }
         list.push({ qu, qv });
-        e.push(componentError(qu, qv, tf.U.data, tf.U.cols, i, tf.V.data, tf.V.cols, i, sigma, step));
+        e.push(sigma * sigma - gain);
       }
       pc.push(list);
       pe.push(Float64Array.from(e));
@@ -147,7 +181,7 @@ export function buildCandidate(inputs: PlaneInput[], delta: number, opts: Candid
     cumCost[k + 1] = cumCost[k] + order[k].cost;
     cumGain[k + 1] = cumGain[k] + order[k].gain;
   }
-  return { delta, comps, order, cumCost, cumGain, baseD, index };
+  return { delta, comps, order, cumCost, cumGain, baseD, index, errs };
 }
 
 function column(data: ArrayLike<number>, cols: number, i: number, rows: number): Float64Array {
@@ -361,30 +395,11 @@ export function solveRank(
       count += tf.rect.w * tf.rect.h * inp.weight;
     }
   const target = Math.max(lossFraction * trunc, floorMse * count * (maxValue / 255) ** 2);
+  /** Exact squared error at rank K (the refit residual) minus the truncation error. */
   const quantErr = (c: Candidate) => {
     let e = 0;
     for (let p = 0; p < inputs.length; p++)
-      for (let t = 0; t < c.comps[p].length; t++) {
-        const tf = inputs[p].factors.tiles[t];
-        for (let i = 0; i < c.comps[p][t].length; i++) {
-          const { qu, qv } = c.comps[p][t][i];
-          e +=
-            inputs[p].weight *
-            (componentError(
-              qu,
-              qv,
-              tf.U.data,
-              tf.U.cols,
-              i,
-              tf.V.data,
-              tf.V.cols,
-              i,
-              tf.s[i],
-              c.delta * inputs[p].stepScale,
-            ) -
-              0);
-        }
-      }
+      for (let t = 0; t < c.comps[p].length; t++) for (const x of c.errs[p][t]) e += inputs[p].weight * x;
     return e;
   };
   // Bisection over a quarter-octave step grid.
