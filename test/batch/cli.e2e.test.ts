@@ -166,6 +166,8 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     expect(html).toContain('Failures (6)');
     expect(html).toContain('over the pixel limit of 20000');
     expect(html).toMatch(/<img src="data:image\/png;base64,[A-Za-z0-9+/=]{100,}"/);
+    // Six worst files × (original + reconstruction), all inline.
+    expect((html.match(/<img src="data:image\/png;base64,[A-Za-z0-9+/=]{100,}"/g) ?? []).length).toBe(12);
     expect(html).not.toMatch(/(?:src|href)="https?:/);
     expect(r.stderr).toContain('Failed files:');
     expect(r.stderr).toContain('bad/notes.txt');
@@ -191,6 +193,9 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     expect(r.code).toBe(1);
     expect(r.stderr).toContain('is inside the input folder');
     expect(run([mixedIn, '-o', mixedIn, ...BUDGET]).code).toBe(1);
+    const rep = run([mixedIn, '-o', join(root, 'elsewhere'), ...BUDGET, '--report', join(mixedIn, 'r.html')]);
+    expect(rep.code).toBe(1);
+    expect(rep.stderr).toContain('would be written inside the input folder');
     expect(hashTree(mixedIn)).toEqual(before);
     expect(run([mixedIn, ...BUDGET]).stderr).toContain('give an output folder with -o');
     expect(run([mixedIn, '-o', join(root, 'x'), '--rank', '5', '--bpp', '1']).stderr).toContain(

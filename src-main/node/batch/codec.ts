@@ -61,6 +61,7 @@ export type ReadRkf = (
     width: number;
     height: number;
     channels: number;
+    bitDepth: number;
     samples: Float32Array[];
     header: { sourceSha256: string };
   };

@@ -86,7 +86,8 @@ async function realpathLoose(p: string): Promise<string> {
   }
 }
 
-function isInside(child: string, parent: string): boolean {
+/** True when `child` is `parent` or lies below it (both absolute). */
+export function isInside(child: string, parent: string): boolean {
   const r = relative(parent, child);
   return r === '' || (!r.startsWith('..') && !isAbsolute(r));
 }

@@ -4,7 +4,7 @@
  */
 import { mkdir, readdir, stat, unlink } from 'node:fs/promises';
 import { availableParallelism } from 'node:os';
-import { basename, dirname, join } from 'node:path';
+import { basename, dirname, join, resolve } from 'node:path';
 import {
   type BatchEvent,
   type BatchRow,
@@ -15,12 +15,13 @@ import {
   type Shard,
   shardText,
   toErrorPayload,
+  UsageError,
 } from '../../contract';
 import { TEMP_PREFIX, writeFileAtomic } from '../io/atomic';
 import { hashFile } from './codec';
 import type { BatchJob, BatchJobResult } from './job';
 import { ManifestJournal, manifestBase, readManifest, rowsToCsv, writeManifest } from './manifest';
-import { checkFolders, type PlannedFile, planBatch } from './plan';
+import { checkFolders, isInside, type PlannedFile, planBatch } from './plan';
 import { WorkerPool } from './pool';
 import { writeReport } from './report';
 
@@ -220,6 +221,14 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
   const manifestPath = o.manifest ?? join(outDir, `${base}.jsonl`);
   const csvPath = manifestPath.replace(/\.jsonl?$/i, '') + '.csv';
   const reportPath = o.report ?? manifestPath.replace(/\.jsonl?$/i, '') + '.html';
+  for (const [what, p] of [
+    ['manifest', manifestPath],
+    ['report', reportPath],
+  ] as const)
+    if (isInside(resolve(p), inDir))
+      throw new UsageError(
+        `the ${what} ${p} would be written inside the input folder ${inDir}; batch never writes there — choose another path`,
+      );
 
   // Resume: which outputs are already right?
   const previous = new Map<string, BatchRow>();

@@ -1,13 +1,10 @@
 /**
- * Thumbnails for the report: the original and the reconstruction (the .rkf expanded again) side by side,
+ * Thumbnails for the report: the original and the reconstruction (the .rkf decoded again, in memory) side by side,
  * as PNG data URIs so the HTML page needs no other file and no network.
  */
-import { mkdtemp, rm } from 'node:fs/promises';
-import { tmpdir } from 'node:os';
-import { join } from 'node:path';
-import sharp from 'sharp';
+import sharp, { type Sharp } from 'sharp';
 import type { BatchRow } from '../../contract';
-import { loadExpander } from './codec';
+import { loadReader, type ReadRkf } from './codec';
 
 /** Longest edge of a thumbnail in pixels: enough to see banding and blur, small enough for a page of six pairs. */
 export const THUMB_EDGE = 320;
@@ -20,8 +17,11 @@ export interface ThumbPair {
 }
 
 async function thumb(file: string): Promise<string> {
-  const buf = await sharp(file, { limitInputPixels: false })
-    .rotate()
+  return dataUrl(sharp(file, { limitInputPixels: false }).rotate());
+}
+
+async function dataUrl(img: Sharp): Promise<string> {
+  const buf = await img
     .resize(THUMB_EDGE, THUMB_EDGE, { fit: 'inside', withoutEnlargement: true, kernel: 'lanczos3' })
     .toColourspace('srgb')
     .png({ compressionLevel: 9 })
@@ -29,42 +29,46 @@ async function thumb(file: string): Promise<string> {
   return `data:image/png;base64,${buf.toString('base64')}`;
 }
 
+/** Thumbnail of a .rkf decoded in memory (no temporary file anywhere). */
+async function rkfThumb(readRkf: ReadRkf, file: string): Promise<string> {
+  const { decoded } = await readRkf(file, { pixelLimit: Number.MAX_SAFE_INTEGER });
+  const { width, height, channels, samples } = decoded;
+  const scale = decoded.bitDepth === 16 ? 1 / 257 : 1;
+  const raw = Buffer.alloc(width * height * channels);
+  for (let i = 0, p = 0; i < width * height; i++)
+    for (let c = 0; c < channels; c++, p++)
+      raw[p] = Math.max(0, Math.min(255, Math.round(samples[c][i] * scale)));
+  return dataUrl(sharp(raw, { raw: { width, height, channels: channels as 1 | 2 | 3 | 4 } }));
+}
+
 /** Thumbnail pairs for the given rows (best effort: a missing file gives a note, never an error). */
 export async function makeThumbnails(rows: BatchRow[]): Promise<Map<string, ThumbPair>> {
   const out = new Map<string, ThumbPair>();
   if (!rows.length) return out;
-  const dir = await mkdtemp(join(tmpdir(), 'rankfold-thumbs-'));
+  let readRkf: ReadRkf | undefined;
+  let readProblem = '';
   try {
-    let expandFile: Awaited<ReturnType<typeof loadExpander>> | undefined;
-    let expandProblem = '';
+    readRkf = await loadReader();
+  } catch (err) {
+    readProblem = (err as Error).message;
+  }
+  for (const r of rows) {
+    const pair: ThumbPair = {};
+    const notes: string[] = [];
     try {
-      expandFile = await loadExpander();
+      pair.original = await thumb(r.inputAbs);
     } catch (err) {
-      expandProblem = (err as Error).message;
+      notes.push(`original unavailable (${(err as Error).message.split('\n')[0]})`);
     }
-    let i = 0;
-    for (const r of rows) {
-      const pair: ThumbPair = {};
-      const notes: string[] = [];
+    if (readRkf) {
       try {
-        pair.original = await thumb(r.inputAbs);
+        pair.reconstruction = await rkfThumb(readRkf, r.outputAbs);
       } catch (err) {
-        notes.push(`original unavailable (${(err as Error).message.split('\n')[0]})`);
+        notes.push(`reconstruction unavailable (${(err as Error).message.split('\n')[0]})`);
       }
-      if (expandFile) {
-        try {
-          const png = join(dir, `r${i++}.png`);
-          await expandFile(r.outputAbs, png, { force: true });
-          pair.reconstruction = await thumb(png);
-        } catch (err) {
-          notes.push(`reconstruction unavailable (${(err as Error).message.split('\n')[0]})`);
-        }
-      } else notes.push(`reconstruction unavailable (${expandProblem})`);
-      if (notes.length) pair.note = notes.join('; ');
-      out.set(r.path, pair);
-    }
-  } finally {
-    await rm(dir, { recursive: true, force: true });
+    } else notes.push(`reconstruction unavailable (${readProblem})`);
+    if (notes.length) pair.note = notes.join('; ');
+    out.set(r.path, pair);
   }
   return out;
 }
