@@ -167,7 +167,11 @@ export const command: Command = {
       values['pixel-limit'] === undefined
         ? undefined
         : parseIntegerOption('--pixel-limit', values['pixel-limit'] as string, 1, 2 ** 42);
-    const report = await inspectScan({ file, page, pixelLimit });
+    const onProgress = io.isTTY
+      ? (_stage: string, done: number, total: number) =>
+          io.stderr(`\rinspect: spectrum ${done}/${total} planes${done === total ? '\n' : ''}`)
+      : undefined;
+    const report = await inspectScan({ file, page, pixelLimit }, { onProgress });
     io.stdout(
       values.json ? `${JSON.stringify(report)}\n` : formatInspectReport(report, Boolean(values.full)),
     );
