@@ -1,5 +1,5 @@
 // Manifest (JSON lines), CSV (RFC 4180) and merge of shard manifests; the HTML report is self-contained.
-import { appendFile, mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
+import { appendFile, mkdtemp, readFile, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
