@@ -89,14 +89,16 @@ export function estimateStripeProfile(
       : (line: number, pos: number) => plane[pos * width + line];
   const nLines = Math.min(lineCount, MAX_SAMPLE_LINES);
   const w = Math.max(2, Math.min(options.halfWindow ?? DEFAULT_HALF_WINDOW, Math.floor(lineLen / 4)));
+  // Residuals stored position-major (resid[x·nLines + k]) so each position's values are contiguous.
   const resid = new Float64Array(nLines * lineLen);
   const line = new Float64Array(lineLen);
   const med = new Float64Array(lineLen);
   for (let k = 0; k < nLines; k++) {
     const li = nLines === lineCount ? k : Math.floor(((k + 0.5) * lineCount) / nLines);
-    for (let x = 0; x < lineLen; x++) line[x] = at(li, x);
+    if (axis === 'columns') for (let x = 0; x < lineLen; x++) line[x] = plane[li * width + x];
+    else for (let x = 0; x < lineLen; x++) line[x] = plane[x * width + li];
     runningMedian(line, w, med);
-    for (let x = 0; x < lineLen; x++) resid[k * lineLen + x] = line[x] - med[x];
+    for (let x = 0; x < lineLen; x++) resid[x * nLines + k] = line[x] - med[x];
   }
   const half = nLines >> 1;
   const profile = new Float64Array(lineLen);
@@ -104,10 +106,13 @@ export function estimateStripeProfile(
   const bottom = new Float64Array(lineLen);
   const col = new Float64Array(nLines);
   for (let x = 0; x < lineLen; x++) {
-    for (let k = 0; k < nLines; k++) col[k] = resid[k * lineLen + x];
-    top[x] = median(col.slice(0, half));
-    bottom[x] = median(col.slice(half));
-    profile[x] = median(col);
+    const o = x * nLines;
+    col.set(resid.subarray(o, o + half));
+    top[x] = medianInPlace(col, half);
+    col.set(resid.subarray(o + half, o + nLines));
+    bottom[x] = medianInPlace(col, nLines - half);
+    col.set(resid.subarray(o, o + nLines));
+    profile[x] = medianInPlace(col, nLines);
   }
   removeMean(profile);
   removeMean(top);
@@ -118,8 +123,9 @@ export function estimateStripeProfile(
   let se2 = 0;
   const spread = new Float64Array(lineLen);
   for (let x = 0; x < lineLen; x++) {
-    for (let k = 0; k < nLines; k++) col[k] = Math.abs(resid[k * lineLen + x] - profile[x]);
-    spread[x] = median(col) / MAD_TO_SIGMA;
+    const o = x * nLines;
+    for (let k = 0; k < nLines; k++) col[k] = Math.abs(resid[o + k] - profile[x]);
+    spread[x] = medianInPlace(col, nLines) / MAD_TO_SIGMA;
     se2 += spread[x] * spread[x];
   }
   const noiseFloor = (MEDIAN_SE_FACTOR * Math.sqrt(se2 / lineLen)) / Math.sqrt(nLines);
@@ -213,14 +219,19 @@ export function dominantPeriod(profile: ArrayLike<number>): { period: number | n
   const K = Math.floor(L / 2);
   if (K < 3) return { period: null, share: 0 };
   const power = new Float64Array(K + 1);
+  const cosT = new Float64Array(L);
+  const sinT = new Float64Array(L);
+  for (let x = 0; x < L; x++) {
+    cosT[x] = Math.cos((2 * Math.PI * x) / L);
+    sinT[x] = Math.sin((2 * Math.PI * x) / L);
+  }
   let total = 0;
   for (let k = 1; k <= K; k++) {
     let re = 0;
     let im = 0;
-    const w = (2 * Math.PI * k) / L;
-    for (let x = 0; x < L; x++) {
-      re += profile[x] * Math.cos(w * x);
-      im -= profile[x] * Math.sin(w * x);
+    for (let x = 0, idx = 0; x < L; x++, idx = (idx + k) % L) {
+      re += profile[x] * cosT[idx];
+      im -= profile[x] * sinT[idx];
     }
     power[k] = re * re + im * im;
     total += power[k];
@@ -298,11 +309,41 @@ export function runningMedian(line: Float64Array, w: number, out: Float64Array):
   }
 }
 
-function median(a: Float64Array): number {
-  const s = Float64Array.from(a).sort();
-  const n = s.length;
+/** Median of a[0..n) by quickselect (Hoare's FIND, CACM 4(7), 1961); reorders a. */
+export function medianInPlace(a: Float64Array, n: number): number {
   if (n === 0) return 0;
-  return n % 2 ? s[(n - 1) >> 1] : (s[n / 2 - 1] + s[n / 2]) / 2;
+  const k = n >> 1;
+  const hi = select(a, 0, n - 1, k);
+  if (n % 2) return hi;
+  // Lower middle: the largest value left of k after selection.
+  let lo = a[0];
+  for (let i = 1; i < k; i++) if (a[i] > lo) lo = a[i];
+  return (lo + hi) / 2;
+}
+
+function select(a: Float64Array, left0: number, right0: number, k: number): number {
+  let left = left0;
+  let right = right0;
+  while (right > left) {
+    const pivot = a[(left + right) >> 1];
+    let i = left;
+    let j = right;
+    while (i <= j) {
+      while (a[i] < pivot) i++;
+      while (a[j] > pivot) j--;
+      if (i <= j) {
+        const t = a[i];
+        a[i] = a[j];
+        a[j] = t;
+        i++;
+        j--;
+      }
+    }
+    if (k <= j) right = j;
+    else if (k >= i) left = i;
+    else return a[k];
+  }
+  return a[k];
 }
 
 function removeMean(a: Float64Array) {
