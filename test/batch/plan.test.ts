@@ -156,5 +156,6 @@ describe('walk and filters', () => {
     expect(only.files).toHaveLength(1);
     expect(fileFilter(['scans/**/*.tif'])('scans/a/b.tif')).toBe(true);
     expect(fileFilter(['scans/**/*.tif'])('other/b.tif')).toBe(false);
+    expect(fileFilter(['./scans/*.tif'])('scans/b.tif')).toBe(true);
   });
 });

@@ -221,7 +221,10 @@ export function outputNames(rels: string[]): Map<string, string> {
 /** Compile include/exclude globs (picomatch, matched against the '/'-separated relative path). */
 export function fileFilter(include: string[] = [], exclude: string[] = []): (rel: string) => boolean {
   const opts = { dot: false, nocase: false };
-  const fix = (g: string) => (g.includes('/') ? g : `**/${g}`);
+  const fix = (raw: string) => {
+    const g = raw.replace(/^\.\//, '');
+    return g.includes('/') ? g : `**/${g}`;
+  };
   let inc: ((s: string) => boolean) | undefined;
   let exc: ((s: string) => boolean) | undefined;
   try {
