@@ -48,7 +48,7 @@ describe('range coder', () => {
     vals.push(2 ** 30 - 1, -(2 ** 30 - 1), 0, 0, 1, -1);
     const enc = new RangeEncoder();
     const m = new IntModel(4);
-    vals.forEach((v, i) => encodeInt(enc, m, v, i % 4, (i % 3) - 1));
+    for (const [i, v] of vals.entries()) encodeInt(enc, m, v, i % 4, (i % 3) - 1);
     const dec = new RangeDecoder(enc.finish());
     const m2 = new IntModel(4);
     expect(vals.map((_, i) => decodeInt(dec, m2, i % 4, (i % 3) - 1))).toEqual(vals);

@@ -245,7 +245,10 @@ describe('damaged containers', () => {
       return writeContainer(chunks);
     };
     await damaged(
-      rewrite((h) => ((h.width = 100000), (h.height = 100000))),
+      rewrite((h) => {
+        h.width = 100000;
+        h.height = 100000;
+      }),
       /over the limit/,
     );
     await damaged(

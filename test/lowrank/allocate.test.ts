@@ -64,7 +64,7 @@ describe('greedy allocation', () => {
         // Breakpoint p: the first p blocks.
         expect(gain).toBeCloseTo(bruteForce(gains, costs, cost), 6);
         const r = ranksOfPrefix(order, p, tiles);
-        r.forEach((k, t) => expect(k).toBeLessThanOrEqual(gains[t].length));
+        for (const [t, k] of r.entries()) expect(k).toBeLessThanOrEqual(gains[t].length);
         if (p < order.length) {
           cost += order[p].cost;
           gain += order[p].gain;

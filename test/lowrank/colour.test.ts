@@ -11,9 +11,8 @@ describe('YCbCr (JFIF 1.02, BT.601 full range)', () => {
       [-0.1687, -0.3313, 0.5],
       [0.5, -0.4187, -0.0813],
     ];
-    RGB_TO_YCBCR.forEach((row, i) =>
-      row.forEach((v, j) => expect(Math.abs(v - spec[i][j])).toBeLessThan(6e-5)),
-    );
+    for (const [i, row] of RGB_TO_YCBCR.entries())
+      for (const [j, v] of row.entries()) expect(Math.abs(v - spec[i][j])).toBeLessThan(6e-5);
     // Exact values from notes.md: Cb row −0.168736, −0.331264, 0.5; Cr row 0.5, −0.418688, −0.081312.
     expect(RGB_TO_YCBCR[1]).toEqual([-0.168736, -0.331264, 0.5]);
     expect(RGB_TO_YCBCR[2]).toEqual([0.5, -0.418688, -0.081312]);
@@ -39,7 +38,8 @@ describe('YCbCr (JFIF 1.02, BT.601 full range)', () => {
       [0, 255, 0, 128],
       [0, 0, 255, 128],
     ];
-    [r, g, b].forEach((p, c) => p.forEach((v, i) => expect(Math.abs(v - want[c][i])).toBeLessThan(0.02)));
+    for (const [c, p] of [r, g, b].entries())
+      for (const [i, v] of p.entries()) expect(Math.abs(v - want[c][i])).toBeLessThan(0.02);
   });
 
   it('uses the half-range offset 32768 at 16 bits', () => {
