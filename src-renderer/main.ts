@@ -524,6 +524,17 @@ stage.addEventListener('dragleave', () => stage.classList.remove('dragover'));
 stage.addEventListener('drop', (e) => {
   e.preventDefault();
   stage.classList.remove('dragover');
+  const dropped = e.dataTransfer?.files?.[0];
+  if (dropped && api.openDropped) {
+    // Desktop: the shell reads the real path of what was dropped (file or folder).
+    void api.openDropped(dropped).then((r) => {
+      if (!r) return;
+      if (r.kind === 'file') return open({ kind: 'path', path: r.path });
+      $<HTMLInputElement>('batch-in').value = r.path;
+      selectTab('batch');
+    }, fail);
+    return;
+  }
   const items = [...(e.dataTransfer?.items ?? [])];
   const entry = items[0]?.webkitGetAsEntry?.();
   if (entry?.isDirectory) {
@@ -747,6 +758,30 @@ $('batch-cancel').addEventListener('click', () => {
 });
 $('batch-report').addEventListener('click', () => {
   if (state.reportId) void api.openReport(state.reportId);
+});
+
+// ---- desktop menu ------------------------------------------------------------------------------
+
+api.onMenuCommand?.((c) => {
+  if (c === 'open')
+    void api
+      .pick({ kind: 'file' })
+      .then((r) => (r.path ? open({ kind: 'path', path: r.path }) : undefined), fail);
+  else if (c === 'open-folder')
+    void api.pick({ kind: 'folder' }).then((r) => {
+      if (!r.path) return;
+      $<HTMLInputElement>('batch-in').value = r.path;
+      selectTab('batch');
+    }, fail);
+  else if (c === 'save') {
+    selectTab('save');
+    $('save-run').click();
+  } else if (c.startsWith('view-'))
+    document.querySelector<HTMLButtonElement>(`[data-mode="${c.slice(5)}"]`)?.click();
+  else if (c === 'zoom-fit') view.fit();
+  else if (c === 'zoom-1') view.zoom(1, undefined, 1);
+  else if (c === 'zoom-in') view.zoom(1.5);
+  else if (c === 'zoom-out') view.zoom(1 / 1.5);
 });
 
 // ---- start --------------------------------------------------------------------------------------

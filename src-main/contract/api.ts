@@ -200,7 +200,33 @@ export interface RankfoldApi {
   onProgress(cb: (e: ProgressEvent) => void): () => void;
   /** Files dropped on or opened from the shell (menu, recent files, drag-drop in Electron). */
   onOpenPath(cb: (path: string) => void): () => void;
+  /** Desktop only: a file or folder dropped on the window (a DOM File); the shell records it as chosen. */
+  openDropped?(file: unknown): Promise<DroppedResult | undefined>;
+  /** Desktop only: menu commands (open, save, view modes, zoom). */
+  onMenuCommand?(cb: (command: MenuCommand) => void): () => void;
 }
+
+export interface DroppedResult {
+  path: string;
+  kind: 'file' | 'folder';
+}
+
+/** Commands the desktop menu sends to the page. */
+export const MENU_COMMANDS = [
+  'open',
+  'open-folder',
+  'save',
+  'view-side',
+  'view-swipe',
+  'view-diff',
+  'view-layer',
+  'view-tiles',
+  'zoom-fit',
+  'zoom-1',
+  'zoom-in',
+  'zoom-out',
+] as const;
+export type MenuCommand = (typeof MENU_COMMANDS)[number];
 
 /** Request methods and their payload validators: the allow-list shared by IPC and HTTP. */
 export const API_METHODS = [
@@ -216,6 +242,7 @@ export const API_METHODS = [
   'batch',
   'openReport',
   'cancel',
+  'dropped',
 ] as const;
 export type ApiMethod = (typeof API_METHODS)[number];
 
@@ -380,6 +407,7 @@ export const validators: { [M in ApiMethod]: (v: unknown) => unknown } = {
   },
   openReport: (v): string => checkId('reportId', v),
   cancel: (v): string => checkId('job', v),
+  dropped: (v): string => checkPath('path', v),
 };
 
 function none(name: string, v: unknown): undefined {

@@ -18,6 +18,9 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { image, reference } from '../helpers/fixtures';
 import { cliJson, launch, readouts, type Served, serve, shot } from './harness';
 
+// Functions passed to page.waitForFunction run in the page; the Node type-check has no DOM lib.
+declare const document: { getElementById(id: string): { dataset: Record<string, string | undefined> } | null };
+
 const samples = mkdtempSync(join(tmpdir(), 'rankfold-e2e-samples-'));
 copyFileSync(image('camera.png'), join(samples, 'camera.png'));
 copyFileSync(image('moon.png'), join(samples, 'moon.png'));

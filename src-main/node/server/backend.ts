@@ -96,6 +96,8 @@ export class Backend extends EventEmitter {
         return this.reportPath(payload as string);
       case 'cancel':
         return this.cancel(payload as string);
+      case 'dropped':
+        return this.dropped(payload as string);
     }
   }
 
@@ -151,6 +153,15 @@ export class Backend extends EventEmitter {
         `${path}: not opened or chosen in this session; open it through the page or a dialog first`,
       );
     return real;
+  }
+
+  /** A file or folder dropped on the desktop window: the user chose it. */
+  private async dropped(path: string): Promise<{ path: string; kind: 'file' | 'folder' }> {
+    const real = await realpath(resolve(path)).catch(() => {
+      throw new InputError(path, 'does not exist');
+    });
+    const kind = (await stat(real)).isDirectory() ? 'folder' : 'file';
+    return { path: await this.allow(real, kind), kind };
   }
 
   private async pick(req: PickRequest): Promise<PickResult> {
