@@ -101,6 +101,8 @@ export interface ExpandReport {
   outputBytes: number;
   /** The container said the compression was lossless, so the source SHA-256 was checked (and matched). */
   hashChecked: boolean;
+  /** The lossless alpha plane was checked against its stored SHA-256 (and matched). */
+  alphaChecked: boolean;
   sourceSha256: string;
   lossless: boolean;
   metadata: { icc: boolean; density?: number; orientation?: number };

@@ -37,6 +37,8 @@ export interface RkfHeader {
   planes: PlaneHeader[];
   /** SHA-256 (hex) of the decoded source samples, interleaved, 16-bit big-endian. */
   sourceSha256: string;
+  /** SHA-256 (hex) of the alpha plane alone (stored losslessly), when there is one. */
+  alphaSha256?: string;
   /** True when the expanded samples equal the source exactly (the hash can then be checked). */
   lossless: boolean;
   metadata: {
@@ -182,6 +184,11 @@ export function readImageHeader(
   if (hasAlpha && view.find('ALPH') < 0) fail('is truncated or damaged: the alpha plane (ALPH) is missing');
   if (typeof header.sourceSha256 !== 'string' || !/^[0-9a-f]{64}$/.test(header.sourceSha256))
     fail('has no valid source SHA-256');
+  if (
+    header.alphaSha256 !== undefined &&
+    !(typeof header.alphaSha256 === 'string' && /^[0-9a-f]{64}$/.test(header.alphaSha256))
+  )
+    fail('has an invalid alpha SHA-256');
   return { view, header };
 }
 

@@ -38,6 +38,8 @@ export interface EncodeOptions {
   onProgress?: (stage: string, fraction: number) => void;
   /** Throws (e.g. CancelledError) when the job should stop. */
   checkCancelled?: () => void;
+  /** SHA-256 of the alpha plane's samples (16-bit big-endian), hashed by the caller; stored so expand can check it. */
+  alphaSha256?: string;
   /** Clock in milliseconds (for timings); defaults to Date.now. */
   now?: () => number;
 }
@@ -136,6 +138,7 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
       }),
     ),
     sourceSha256: img.sourceSha256,
+    alphaSha256: hasAlpha ? opts.alphaSha256 : undefined,
     lossless,
     metadata: {
       format: img.meta.format,

@@ -28,7 +28,7 @@ import type { ByteCompressor, EntropyId } from '../../engine/codec/entropy';
 import { initEngine } from '../../engine/linalg';
 import { type EncodeResult, encodeScan } from '../../engine/lowrank/encode';
 import { psnrPlanes, ssimPlanes } from '../../engine/metrics';
-import { decodeImage } from '../image/decode';
+import { decodeImage, hashSamples } from '../image/decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 
 export interface CompressHooks {
@@ -123,6 +123,9 @@ export async function compressDecoded(
     entropy: hooks.entropy ?? 'rc',
     compressors: COMPRESSORS,
     encoder: ENCODER_NAME,
+    alphaSha256: decoded.hasAlpha
+      ? hashSamples([decoded.planes[decoded.channels - 1]], decoded.bitDepth)
+      : undefined,
     onProgress: hooks.onProgress ? (stage, fraction) => hooks.onProgress?.({ stage, fraction }) : undefined,
     checkCancelled: check,
     now: () => performance.now(),

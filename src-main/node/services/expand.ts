@@ -60,6 +60,14 @@ export async function expandFile(
   const t2 = performance.now();
   const h = decoded.header;
   let hashChecked = false;
+  if (h.alphaSha256 !== undefined && decoded.channels % 2 === 0) {
+    const got = hashSamples([decoded.samples[decoded.channels - 1]], decoded.bitDepth);
+    if (got !== h.alphaSha256)
+      throw new FormatError(
+        input,
+        'its lossless alpha plane does not match the stored alpha SHA-256; nothing was written',
+      );
+  }
   if (h.lossless) {
     const got = hashSamples(decoded.samples, decoded.bitDepth);
     if (got !== h.sourceSha256)
@@ -94,6 +102,7 @@ export async function expandFile(
     inputBytes,
     outputBytes: written.bytes,
     hashChecked,
+    alphaChecked: h.alphaSha256 !== undefined,
     sourceSha256: h.sourceSha256,
     lossless: h.lossless,
     metadata: { icc: Boolean(decoded.icc), density: h.metadata.density, orientation: h.metadata.orientation },
