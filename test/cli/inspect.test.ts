@@ -7,7 +7,10 @@ import { Matrix as MlMatrix, SVD as MlSVD } from 'ml-matrix';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { InspectReport } from '../../src-main/contract';
+import { jacobiSingularValues } from '../../src-main/engine/linalg';
+import { energyRank } from '../../src-main/engine/metrics';
 import { encodeImageBuffer } from '../../src-main/node/image/encode';
+import { lumaPlane, planeSpectrum } from '../../src-main/node/services/inspect';
 import { image, reference, repoRoot } from '../helpers/fixtures';
 
 // Runs the built CLI (`npm test` builds first): node bin/rankfold.mjs inspect …
@@ -208,5 +211,46 @@ describe('rankfold inspect errors: stderr, non-zero exit, nothing on stdout', ()
       'Expected integer between 0 and 100000 for --page but received "two" of type string',
     );
     await expectFailure([image('camera.png'), '--page', '1'], 'has 1 page; page 1 does not exist');
+  });
+});
+
+describe('inspect service: the top-values path used above 2048 pixels (tested here on a small plane with a small policy)', () => {
+  it('top 20 by randomized SVD match the full one-sided Jacobi spectrum; tail errors use the exact Σx²', () => {
+    const w = 150;
+    const h = 120;
+    const plane = new Float32Array(w * h);
+    for (let y = 0; y < h; y++)
+      for (let x = 0; x < w; x++)
+        plane[y * w + x] =
+          120 +
+          50 * Math.sin(x / 9) * Math.cos(y / 13) +
+          20 * Math.sin((x * y) / 400) +
+          ((x * 31 + y * 17) % 11);
+    const full = jacobiSingularValues({ rows: h, cols: w, data: Float64Array.from(plane) });
+    const top = planeSpectrum(plane, w, h, 255, 'gray', { fullLimit: 50, topValues: 20 });
+    expect(top.complete).toBe(false);
+    expect(top.method).toBe('randomized');
+    expect(top.singularValues).toHaveLength(20);
+    for (let i = 0; i < 20; i++)
+      expect(Math.abs(top.singularValues[i] - full[i])).toBeLessThan(1e-4 * full[0]);
+    // Eckart–Young with the exact energy: sqrt(Σx² − Σ_{i≤k}σᵢ²) equals the full-spectrum tail.
+    let tail10 = 0;
+    for (let i = full.length - 1; i >= 10; i--) tail10 += full[i] ** 2;
+    const e10 = top.errors.find((e) => e.k === 10)!;
+    expect(Math.abs(e10.frobenius - Math.sqrt(tail10)) / Math.sqrt(tail10)).toBeLessThan(1e-4);
+    // Energy ranks beyond the known values are null, those within agree with the full spectrum.
+    for (const er of top.energyRanks) {
+      const k = energyRank(full, er.fraction);
+      if (k <= 20) expect(er.rank).toBe(k);
+      else expect(er.rank).toBeNull();
+    }
+  });
+
+  it('lumaPlane uses the BT.601 / JFIF 1.02 weights 0.299, 0.587, 0.114 (test/fixtures/reference/notes.md)', () => {
+    const y = lumaPlane([255, 0, 0, 10], [0, 255, 0, 20], [0, 0, 255, 30]);
+    expect(y[0]).toBeCloseTo(0.299 * 255, 4);
+    expect(y[1]).toBeCloseTo(0.587 * 255, 4);
+    expect(y[2]).toBeCloseTo(0.114 * 255, 4);
+    expect(y[3]).toBeCloseTo(0.299 * 10 + 0.587 * 20 + 0.114 * 30, 5);
   });
 });
