@@ -145,6 +145,40 @@ describe('decodeImage features', () => {
   });
 });
 
+describe('decodeImage formats', () => {
+  it('lossless WebP RGBA decodes to the written samples (sharp/libwebp encoder, lossless mode)', async () => {
+    const w = 16;
+    const h = 8;
+    const px = Uint8Array.from({ length: w * h * 4 }, (_, i) =>
+      i % 4 === 3 ? 200 - (i % 50) : (i * 29) % 256,
+    );
+    const file = join(dir, 'slide.webp');
+    await writeFile(
+      file,
+      await sharp(px, { raw: { width: w, height: h, channels: 4 } })
+        .webp({ lossless: true, exact: true })
+        .toBuffer(),
+    );
+    const img = await decodeImage(file);
+    expect([img.meta.format, img.channels, img.bitDepth, img.hasAlpha]).toEqual(['webp', 4, 8, true]);
+    for (let i = 0; i < w * h; i++) for (let c = 0; c < 4; c++) expect(img.planes[c][i]).toBe(px[4 * i + c]);
+  });
+
+  it('CMYK JPEG is converted to 3-channel RGB, and its CMYK profile is not carried over', async () => {
+    const file = join(dir, 'cmyk.jpg');
+    await writeFile(
+      file,
+      await sharp({ create: { width: 12, height: 10, channels: 3, background: { r: 30, g: 120, b: 200 } } })
+        .toColourspace('cmyk')
+        .jpeg({ quality: 95 })
+        .toBuffer(),
+    );
+    expect((await sharp(file).metadata()).space).toBe('cmyk');
+    const img = await decodeImage(file);
+    expect([img.channels, img.colour, img.meta.icc]).toEqual([3, 'rgb', undefined]);
+  });
+});
+
 describe('decodeImage errors name the file and the problem', () => {
   it('missing file', async () => {
     const f = join(dir, 'nope.png');
