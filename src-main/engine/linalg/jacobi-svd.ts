@@ -15,6 +15,7 @@
 
 import { type Matrix, type SvdResult, transpose } from './matrix';
 import { householderQr } from './qr';
+import { Rng } from './random';
 import { bytesFor, defaultBackend, type Workspace } from './workspace';
 
 /** Machine epsilon of float64. */
@@ -25,6 +26,8 @@ const MAX_SWEEPS = 60;
 const TALL_RATIO = 2;
 /** Below this many columns the TypeScript sweeps are as fast as a kernel call. */
 const FAST_MIN = 8;
+/** Fixed seed of the completion block for zero singular values (deterministic output). */
+const COMPLETION_SEED = 0x0c0ffee;
 
 /**
  * Full thin SVD of an m×n matrix by one-sided Jacobi in float64.
@@ -99,7 +102,16 @@ function jacobi(a: Matrix, vectors: boolean, ws?: Workspace): { s: Float64Array;
   }
   /** Rotation threshold: columns count as orthogonal when |γ| ≤ rows·ε·√(αβ) (Demmel–Veselić §4). */
   const tol = EPS * rows;
-  const done = fast ? ws!.jacobi!(W, rows, n, Vt, tol, MAX_SWEEPS) : -1;
+  /**
+   * Negligible-column floor: a pair whose smaller column has norm ≤ ε·‖A‖_F is not rotated. Such a
+   * rotation would move the other column by at most that norm (a backward error of ε‖A‖_F), and
+   * rotating noise-level columns against each other otherwise never meets the relative test above
+   * (rank-deficient inputs then ran all MAX_SWEEPS).
+   */
+  let fro2 = 0;
+  for (let i = 0; i < n * rows; i++) fro2 += W[i] * W[i];
+  const floor2 = EPS * EPS * fro2;
+  const done = fast ? ws!.jacobi!(W, rows, n, Vt, tol, MAX_SWEEPS, floor2) : -1;
   for (let sweep = 0; sweep < MAX_SWEEPS && done < 0; sweep++) {
     let rotated = false;
     for (let p = 0; p < n - 1; p++) {
@@ -116,7 +128,12 @@ function jacobi(a: Matrix, vectors: boolean, ws?: Workspace): { s: Float64Array;
           beta += y * y;
           gamma += x * y;
         }
-        if (gamma === 0 || Math.abs(gamma) <= tol * Math.sqrt(alpha * beta)) continue;
+        if (
+          gamma === 0 ||
+          Math.abs(gamma) <= tol * Math.sqrt(alpha * beta) ||
+          Math.min(alpha, beta) <= floor2
+        )
+          continue;
         rotated = true;
         const zeta = (beta - alpha) / (2 * gamma);
         const t = Math.sign(zeta || 1) / (Math.abs(zeta) + Math.sqrt(1 + zeta * zeta));
@@ -178,28 +195,18 @@ function jacobi(a: Matrix, vectors: boolean, ws?: Workspace): { s: Float64Array;
   return { s, U: { rows: m, cols: n, data: Ur }, V: { rows: n, cols: n, data: Vout } };
 }
 
-/** Replace zero columns of U (from zero singular values) by an orthonormal completion. */
+/**
+ * Replace the columns of U whose σ is negligible (the sorted tail, σ ≤ tiny) by an orthonormal
+ * completion: Householder QR of [U_good | fixed pseudo-random block]; the Q columns beyond the good
+ * ones are orthogonal to them. O(m·n²) once, instead of a search per column.
+ */
 function completeOrthonormal(U: Float64Array, m: number, n: number, s: Float64Array, tiny: number) {
-  for (let k = 0; k < n; k++) {
-    if (s[k] > tiny && s[k] > 0) continue;
-    for (let e = 0; e < m; e++) {
-      const v = new Float64Array(m);
-      v[e] = 1;
-      for (let pass = 0; pass < 2; pass++)
-        for (let j = 0; j < n; j++) {
-          if (j === k) continue;
-          if (j > k && !(s[j] > tiny)) continue;
-          let d = 0;
-          for (let i = 0; i < m; i++) d += U[i * n + j] * v[i];
-          for (let i = 0; i < m; i++) v[i] -= d * U[i * n + j];
-        }
-      let nn = 0;
-      for (let i = 0; i < m; i++) nn += v[i] * v[i];
-      nn = Math.sqrt(nn);
-      if (nn > 0.5) {
-        for (let i = 0; i < m; i++) U[i * n + k] = v[i] / nn;
-        break;
-      }
-    }
-  }
+  let g = 0;
+  while (g < n && s[g] > tiny && s[g] > 0) g++;
+  if (g === n) return;
+  const M = new Float64Array(m * n);
+  const rng = new Rng(COMPLETION_SEED);
+  for (let i = 0; i < m; i++) for (let j = 0; j < n; j++) M[i * n + j] = j < g ? U[i * n + j] : rng.normal();
+  householderQr(M, m, n);
+  for (let i = 0; i < m; i++) for (let j = g; j < n; j++) U[i * n + j] = M[i * n + j];
 }

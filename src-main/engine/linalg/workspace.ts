@@ -51,6 +51,7 @@ export interface Workspace {
     Vt: Float64Array | null,
     tol: number,
     maxSweeps: number,
+    floor2: number,
   ): number;
   /**
    * Optional fast Householder tridiagonalisation (symmetric-eigen.ts `tridiagonalize`) on arrays from
@@ -168,10 +169,11 @@ class WasmWorkspace implements Workspace {
     Vt: Float64Array | null,
     tol: number,
     maxSweeps: number,
+    floor2: number,
   ): number {
     const buf = this.k.memory.buffer;
     if (W.buffer !== buf || (Vt && Vt.buffer !== buf)) return -1;
-    return this.k.exports.jacobiF64(W.byteOffset, rows, n, Vt ? Vt.byteOffset : 0, tol, maxSweeps);
+    return this.k.exports.jacobiF64(W.byteOffset, rows, n, Vt ? Vt.byteOffset : 0, tol, maxSweeps, floor2);
   }
   tridiag(
     S: Float64Array,

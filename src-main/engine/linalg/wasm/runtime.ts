@@ -36,7 +36,15 @@ export interface KernelExports {
     acc: number,
   ): void;
   /** One-sided Jacobi sweeps on contiguous columns; returns sweeps used (maxSweeps + 1: not converged). */
-  jacobiF64(w: number, rows: number, n: number, vt: number, tol: number, maxSweeps: number): number;
+  jacobiF64(
+    w: number,
+    rows: number,
+    n: number,
+    vt: number,
+    tol: number,
+    maxSweeps: number,
+    floor2: number,
+  ): number;
   /** Householder tridiagonalisation of a lower-stored symmetric matrix (see symmetric-eigen.ts). */
   tridiagF64(s: number, n: number, d: number, e: number, v: number, p: number): void;
 }

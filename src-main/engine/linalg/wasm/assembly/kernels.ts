@@ -205,7 +205,8 @@ export function gemmF64(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b:
 // ---------------------------------------------------------------- one-sided Jacobi (Hestenes), f64x2
 // Reference: J. Demmel, K. Veselić, SIAM J. Matrix Anal. Appl. 13(4), 1992, doi:10.1137/0613074, §4.
 // Columns of the working matrix are contiguous: column j at w + 8·j·rows. Rotations are accumulated
-// into the rows of vt (n×n, Vᵀ) when vt ≠ 0. Returns the number of sweeps used (maxSweeps + 1 if not converged).
+// into the rows of vt (n×n, Vᵀ) when vt ≠ 0. Pairs whose smaller column has squared norm ≤ floor2 are
+// left alone (that column is negligible: below ε‖A‖_F). Returns the number of sweeps used (maxSweeps + 1 if not converged).
 
 @inline function hsum(v: v128): f64 {
   return f64x2.extract_lane(v, 0) + f64x2.extract_lane(v, 1);
@@ -229,7 +230,7 @@ function rotate(px: usize, qx: usize, len: i32, c: f64, s: f64): void {
   }
 }
 
-export function jacobiF64(w: usize, rows: i32, n: i32, vt: usize, tol: f64, maxSweeps: i32): i32 {
+export function jacobiF64(w: usize, rows: i32, n: i32, vt: usize, tol: f64, maxSweeps: i32, floor2: f64): i32 {
   const rows2 = rows & ~1;
   const colBytes = <usize>rows << 3;
   for (let sweep = 1; sweep <= maxSweeps; sweep++) {
@@ -253,7 +254,7 @@ export function jacobiF64(w: usize, rows: i32, n: i32, vt: usize, tol: f64, maxS
           const x = load<f64>(px + o), y = load<f64>(qx + o);
           alpha += x * x; beta += y * y; gamma += x * y;
         }
-        if (gamma == 0 || abs(gamma) <= tol * sqrt(alpha * beta)) continue;
+        if (gamma == 0 || abs(gamma) <= tol * sqrt(alpha * beta) || min(alpha, beta) <= floor2) continue;
         rotated = true;
         const zeta = (beta - alpha) / (2 * gamma);
         const t = (zeta >= 0 ? 1.0 : -1.0) / (abs(zeta) + sqrt(1 + zeta * zeta));
