@@ -204,12 +204,13 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
   });
 
   it('a SIGKILL in the middle, then --resume, ends with the same outputs as an uninterrupted run', async () => {
+    const N = 10;
     const inDir = join(root, 'kill-in');
-    await goodSet(inDir, 14, 160, 120);
+    await goodSet(inDir, N, 128, 96);
     const ref = join(root, 'kill-ref');
     expect(run([inDir, '-o', ref, ...BUDGET, '--jobs', '1']).code).toBe(0);
     const refHashes = hashTree(ref, rkfOnly);
-    expect(Object.keys(refHashes)).toHaveLength(14);
+    expect(Object.keys(refHashes)).toHaveLength(N);
 
     const out = join(root, 'kill-out');
     const child: ChildProcess = spawn(
@@ -225,28 +226,28 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     );
     child.stdout!.on('data', (chunk: Buffer) => {
       seen += (chunk.toString().match(/"event":"file"/g) ?? []).length;
-      if (seen >= 3) child.kill('SIGKILL');
+      if (seen >= 2) child.kill('SIGKILL');
     });
     const ended = await exit;
     expect(ended.signal, 'the batch finished before the kill; make the folder bigger').toBe('SIGKILL');
     const partial = hashTree(out, rkfOnly);
-    expect(Object.keys(partial).length).toBeGreaterThanOrEqual(3);
-    expect(Object.keys(partial).length).toBeLessThan(14);
+    expect(Object.keys(partial).length).toBeGreaterThanOrEqual(2);
+    expect(Object.keys(partial).length).toBeLessThan(N);
     // Whatever exists after the kill is complete: identical to the uninterrupted run's file.
     for (const [f, h] of Object.entries(partial)) expect(h, f).toBe(refHashes[f]);
     // A stale temp file of ours (swept) and one of another shard's outputs (left alone).
     await mkdir(join(out, 'box-1'), { recursive: true });
     await mkdir(join(out, 'box-2'), { recursive: true });
-    await writeFile(join(out, 'box-1', '.rankfold-tmp-0123456789ab-page-13.rkf'), 'partial');
+    await writeFile(join(out, 'box-1', '.rankfold-tmp-0123456789ab-page-07.rkf'), 'partial');
     await writeFile(join(out, 'box-2', '.rankfold-tmp-0123456789ab-not-ours.rkf'), 'other shard');
 
     const r = run([inDir, '-o', out, ...BUDGET, '--jobs', '2', '--resume', '--json']);
     expect(r.code, r.stderr).toBe(0);
     expect(hashTree(out, rkfOnly)).toEqual(refHashes);
     const events = jsonLines(r.stdout).filter((e) => e.event === 'file');
-    expect(events).toHaveLength(14);
-    expect(events.filter((e) => e.status === 'kept').length).toBeGreaterThanOrEqual(3);
-    expect(existsSync(join(out, 'box-1', '.rankfold-tmp-0123456789ab-page-13.rkf'))).toBe(false);
+    expect(events).toHaveLength(N);
+    expect(events.filter((e) => e.status === 'kept').length).toBeGreaterThanOrEqual(2);
+    expect(existsSync(join(out, 'box-1', '.rankfold-tmp-0123456789ab-page-07.rkf'))).toBe(false);
     expect(existsSync(join(out, 'box-2', '.rankfold-tmp-0123456789ab-not-ours.rkf'))).toBe(true);
     const rows = manifestRows(join(out, 'rankfold-manifest.jsonl'));
     expect(rows.map((x) => x.path)).toEqual(filesUnder(inDir));
@@ -257,24 +258,21 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     const byHeader = run([inDir, '-o', out, ...BUDGET, '--resume', '--json']);
     expect(byHeader.code, byHeader.stderr).toBe(0);
     const hdrEvents = jsonLines(byHeader.stdout).filter((e) => e.event === 'file');
-    expect(hdrEvents.map((e) => e.status)).toEqual(new Array(14).fill('kept'));
+    expect(hdrEvents.map((e) => e.status)).toEqual(new Array(N).fill('kept'));
     expect(String(hdrEvents[0].note)).toContain('.rkf header records the same source SHA-256');
     expect(hashTree(out, rkfOnly)).toEqual(refHashes);
-    // Other settings: every file is made again.
-    const other = jsonLines(
-      run([inDir, '-o', out, '--rank', '3', '--tile', '32', '--resume', '--json']).stdout,
-    );
-    expect(other.filter((e) => e.event === 'file' && e.status === 'ok')).toHaveLength(14);
-    expect(run([inDir, '-o', out, ...BUDGET, '--force']).code).toBe(0);
-    expect(hashTree(out, rkfOnly)).toEqual(refHashes);
-
     // A changed source is compressed again, not kept.
     await writePage(join(inDir, 'box-0', 'page-00.png'), 160, 120, 99);
     const again = jsonLines(run([inDir, '-o', out, ...BUDGET, '--resume', '--json']).stdout).filter(
       (e) => e.event === 'file',
     );
     expect(again.find((e) => e.path === 'box-0/page-00.png')!.status).toBe('ok');
-    expect(again.filter((e) => e.status === 'kept')).toHaveLength(13);
+    expect(again.filter((e) => e.status === 'kept')).toHaveLength(N - 1);
+    // Other settings: every file is made again.
+    const other = jsonLines(
+      run([inDir, '-o', out, '--rank', '3', '--tile', '32', '--resume', '--json']).stdout,
+    );
+    expect(other.filter((e) => e.event === 'file' && e.status === 'ok')).toHaveLength(N);
     // Without --resume or --force an existing output is a per-file error, never overwritten.
     const noResume = run([inDir, '-o', out, ...BUDGET, '--json']);
     expect(noResume.code).toBe(2);

@@ -152,6 +152,8 @@ function rowFromResult(f: PlannedFile, shard: string, r: BatchJobResult, setting
       bitDepth: k.bitDepth,
       timeMs: r.timeMs,
       status: 'kept',
+      // Accepted for this run's settings (the header does not record the budget).
+      settings,
       note: 'kept: the .rkf header records the same source SHA-256 (no manifest row; PSNR/SSIM not re-measured)',
     };
   }
