@@ -52,8 +52,8 @@ export function autoGroupParams(sigma8: number): GroupParams {
   return {
     patch,
     groupSize: patch === 6 ? 24 : patch === 7 ? 32 : 40,
-    stride: patch - 1,
-    searchRadius: 10,
+    stride: patch,
+    searchRadius: 8,
     lanczosSteps: 12,
   };
 }

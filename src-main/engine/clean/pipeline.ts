@@ -168,7 +168,8 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
   const params: GroupParams = {
     ...auto,
     patch,
-    stride: Math.max(1, patch - 1),
+    // Reference patches tile the image without overlap; the other members of each group overlap them.
+    stride: patch,
     groupSize: settings.groupSize ?? auto.groupSize,
     rank: settings.rank,
     threshold: settings.threshold,
