@@ -292,10 +292,9 @@ export function solveBytes(
       const c = buildCandidate(inputs, grid[k]);
       return { k, c, err: estimatedError(c, prefixForBytes(c, payload, ratio)) };
     });
-  const coarse = scan(
-    grid.map((_, k) => k).filter((k) => k % 2 === 0),
-    1,
-  ).sort((a, b) => a.err - b.err);
+  // The estimated error at the budget is unimodal in the step in practice (too fine: few components
+  // fit; too coarse: each is crude), so climb from the middle of the grid by whole octaves.
+  const coarse = hillClimb(grid.length, (k) => scan([k], 1)[0].err);
   let best: Plan | undefined;
   let ratio = 1;
   const tried = new Set<number>();
@@ -335,6 +334,29 @@ export function solveBytes(
     };
   }
   return best;
+}
+
+/** Minimise f over even indices of [0, n) by walking downhill from the middle; returns [{ k }] best first. */
+function hillClimb(n: number, f: (k: number) => number): Array<{ k: number; err: number }> {
+  const memo = new Map<number, number>();
+  const at = (k: number) => {
+    let v = memo.get(k);
+    if (v === undefined) {
+      v = f(k);
+      memo.set(k, v);
+    }
+    return v;
+  };
+  let k = Math.floor(n / 4) * 2;
+  for (;;) {
+    const here = at(k);
+    const up = k + 2 < n ? at(k + 2) : Number.POSITIVE_INFINITY;
+    const down = k - 2 >= 0 ? at(k - 2) : Number.POSITIVE_INFINITY;
+    if (up < here && up <= down) k += 2;
+    else if (down < here) k -= 2;
+    else break;
+  }
+  return [...memo.entries()].map(([kk, err]) => ({ k: kk, err })).sort((a, b) => a.err - b.err);
 }
 
 /** A probe within 0.4% under the budget ends the size search (one more component rarely fits). */
@@ -429,19 +451,21 @@ export function solveRank(
 export function solveError(inputs: PlaneInput[], dmax: number, maxValue: number, around?: number): Plan {
   const grid = stepGrid(maxValue);
   let best: { c: Candidate; P: number; cost: number; k: number } | undefined;
-  const tryK = (k: number) => {
-    if (k < 0 || k >= grid.length) return;
+  /** Estimated bits to reach dmax at step k (Infinity when even every component does not reach it). */
+  const tryK = (k: number): number => {
+    if (k < 0 || k >= grid.length) return Number.POSITIVE_INFINITY;
     const c = buildCandidate(inputs, grid[k]);
     const P = prefixForError(c, dmax);
-    if (estimatedError(c, P) > dmax) return;
+    if (estimatedError(c, P) > dmax) return Number.POSITIVE_INFINITY;
     if (!best || c.cumCost[P] < best.cost) best = { c, P, cost: c.cumCost[P], k };
+    return c.cumCost[P];
   };
-  // Coarse scan (whole octaves), or a neighbourhood of a previous answer, then the half-octave neighbours.
-  const ks =
-    around === undefined
-      ? grid.map((_, k) => k).filter((k) => k % 2 === 0)
-      : [around - 2, around, around + 2];
-  for (const k of ks) tryK(k);
+  if (around === undefined) {
+    // Climb by octaves on the estimated cost; scan every octave when the climb finds nothing feasible.
+    const climb = hillClimb(grid.length, tryK);
+    if (!Number.isFinite(climb[0]?.err ?? Number.POSITIVE_INFINITY))
+      for (let k = 0; k < grid.length; k += 2) tryK(k);
+  } else for (const k of [around - 2, around, around + 2]) tryK(k);
   const found = best as { k: number } | undefined;
   if (found) {
     const k0 = found.k;
