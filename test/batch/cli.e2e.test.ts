@@ -60,6 +60,9 @@ function hashTree(dir: string, filter: (rel: string) => boolean = () => true): R
   return out;
 }
 
+const near = (x: unknown, y: unknown, tol: number) =>
+  x !== undefined && (String(x) === String(y) || Math.abs(Number(x) - Number(y)) <= tol);
+
 const rkfOnly = (f: string) => f.endsWith('.rkf') && !f.split('/').pop()!.startsWith('.');
 
 function manifestRows(file: string): BatchRow[] {
@@ -96,6 +99,7 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     mixedIn = join(root, 'mixed-in');
     await goodSet(mixedIn, 4);
     await writePage(join(mixedIn, 'colour', 'map.tif'), 80, 60, 9, 'tiff', 3);
+    await writePage(join(mixedIn, 'colour', 'overlay-rgba.png'), 48, 40, 13, 'png', 4);
     await writePage16(join(mixedIn, 'plates', 'plate-16bit.png'), 64, 48, 5);
     await writePage(join(mixedIn, ...deepDir, 'lane 3 — 東.png'), 64, 48, 11);
     // Two inputs that would share an output name.
@@ -145,6 +149,9 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
       } else {
         expect(row.status, `${p}: ${row.error?.message}`).toBe('ok');
         expect(row.check?.ok, p).toBe(true);
+        // Re-measured PSNR and SSIM agree (an exact file has PSNR "Infinity" in the JSON on both sides).
+        expect(near(row.check!.psnr, row.psnr, 0.01), p).toBe(true);
+        expect(near(row.check!.ssim, row.ssim, 1e-4), p).toBe(true);
         expect(row.sourceSha256).toMatch(/^[0-9a-f]{64}$/);
         expect(row.fileSha256).toBe(before[p]);
       }
