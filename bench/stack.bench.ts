@@ -6,6 +6,7 @@
  * per-frame residuals, mean + residuals only, truncated HOSVD with quantised factors).
  * Writes `${RANKFOLD_BENCH_OUT ?? 'docs/bench'}/60-stack.md`.
  */
+import { createHash } from 'node:crypto';
 import { mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
@@ -83,7 +84,7 @@ async function perFrameJpeg(s: SyntheticSeries, budget: number): Promise<Result>
   const t = performance.now();
   const r = await bestQuality(budget, async (q) => {
     const parts = await Promise.all(s.frames.map((f) => jpeg(f, s.width, s.height, q)));
-    return { bytes: sum(parts.map((p) => p.bytes)), q, ps: parts.map((p, j) => psnr(s.frames[j], p.dec)) };
+    return { bytes: sum(parts.map((p) => p.bytes)), q, parts };
   });
   if (!r)
     return {
@@ -93,12 +94,26 @@ async function perFrameJpeg(s: SyntheticSeries, budget: number): Promise<Result>
       ms: 0,
       note: 'quality 1 is over budget',
     };
+  // Top up: raise single frames to q+1 while the total still fits, so JPEG uses its budget fully.
+  const parts = r.parts.slice();
+  let bytes = r.bytes;
+  let raised = 0;
+  if (r.q < 100)
+    for (let j = 0; j < parts.length; j++) {
+      const up = await jpeg(s.frames[j], s.width, s.height, r.q + 1);
+      if (bytes - parts[j].bytes + up.bytes <= budget) {
+        bytes += up.bytes - parts[j].bytes;
+        parts[j] = up;
+        raised++;
+      }
+    }
+  const ps = parts.map((p, j) => psnr(s.frames[j], p.dec));
   return {
-    bytes: r.bytes,
-    mean: meanOf(r.ps),
-    worst: Math.min(...r.ps),
+    bytes,
+    mean: meanOf(ps),
+    worst: Math.min(...ps),
     ms: performance.now() - t,
-    note: `q${r.q}`,
+    note: `q${r.q} (${raised} frames at q${r.q + 1})`,
   };
 }
 
@@ -184,7 +199,7 @@ async function perFrameRankfold(s: SyntheticSeries, budget: number): Promise<Res
         meta: { format: 'png' },
         inputBytes: 0,
         rawBytes: s.width * s.height,
-        sourceSha256: '',
+        sourceSha256: createHash('sha256').update(Uint8Array.from(f)).digest('hex'),
       };
       const r = await compressDecoded(img, { budget: { kind: 'bytes', bytes: per }, tile: 'auto' });
       bytes += r.bytes.length;
@@ -344,9 +359,10 @@ const f2 = (x: number) => (Number.isFinite(x) ? x.toFixed(2) : 'n/a');
 const d2 = (x: number) => (Number.isFinite(x) ? `${x >= 0 ? '+' : ''}${x.toFixed(2)}` : 'n/a');
 
 async function main() {
-  const series: Array<{ name: string; s: SyntheticSeries; correlated: boolean }> = [
+  const series: Array<{ name: string; label: string; s: SyntheticSeries }> = [
     {
       name: 'Fenwick Lab time-lapse (textured specimen, 0.5 px drift, fade, noise σ=1.5), 24 × 192×160',
+      label: 'time-lapse, 24 frames, 0.5 px drift',
       s: driftingSpecimen({
         width: 192,
         height: 160,
@@ -356,22 +372,21 @@ async function main() {
         texture: 40,
         drift: 0.5,
       }),
-      correlated: true,
     },
     {
       name: 'Fenwick Lab time-lapse (textured, 2 px drift, noise σ=1), 64 × 128×128',
+      label: 'time-lapse, 64 frames, 2 px drift',
       s: driftingSpecimen({ width: 128, height: 128, frames: 64, seed: 7, noise: 1, texture: 30, drift: 2 }),
-      correlated: true,
     },
     {
       name: 'Smooth 3-D phantom, 32 slices of 160×160',
+      label: '3-D phantom, 32 slices',
       s: phantomSlices({ width: 160, height: 160, frames: 32 }),
-      correlated: true,
     },
     {
       name: 'Harrowgate return forms, 16 pages of 160×200 (different handwriting)',
+      label: 'forms, 16 pages',
       s: formPages({ width: 160, height: 200, frames: 16 }),
-      correlated: true,
     },
   ];
   if (QUICK) series.splice(1, 3);
@@ -386,11 +401,12 @@ async function main() {
     'coefficients refitted on the decoded images). Series are synthetic and seeded (src-main/engine/stack/synthetic.ts).',
     '',
   ];
+  const intro = lines.length;
   const summary: string[] = [
     '| series | bpp | stack mean / worst | Δ vs per-frame JPEG | Δ vs eigen-JPEG baseline | Δ vs per-frame Rankfold |',
     '|---|---|---|---|---|---|',
   ];
-  for (const { name, s } of series) {
+  for (const { name, label, s } of series) {
     const input: StackInput = {
       width: s.width,
       height: s.height,
@@ -444,7 +460,7 @@ async function main() {
           `| ${bpp} | ${label} | ${Number.isFinite(r.bytes) ? r.bytes : 'n/a'} | ${f2(r.mean)} | ${f2(r.worst)} | ${r.note ?? ''} | ${r.ms.toFixed(0)} |`,
         );
       summary.push(
-        `| ${name.split(',')[0]} | ${bpp} | ${f2(stack.mean)} / ${f2(stack.worst)} | ${d2(stack.mean - jp.mean)} | ${d2(stack.mean - ej.mean)} | ${rf ? d2(stack.mean - rf.mean) : 'n/a'} |`,
+        `| ${label} | ${bpp} | ${f2(stack.mean)} / ${f2(stack.worst)} | ${d2(stack.mean - jp.mean)} | ${d2(stack.mean - ej.mean)} | ${rf ? d2(stack.mean - rf.mean) : 'n/a'} |`,
       );
       console.error(
         `stack bench: ${name} @ ${bpp} bpp: stack ${f2(stack.mean)} dB, JPEG ${f2(jp.mean)}, eigen-JPEG ${f2(ej.mean)}, per-frame Rankfold ${rf ? f2(rf.mean) : 'n/a'}`,
@@ -453,12 +469,12 @@ async function main() {
     lines.push('');
   }
   const text = [
-    ...lines.slice(0, 10),
+    ...lines.slice(0, intro),
     '### Summary (mean-frame PSNR differences, dB; positive = stack mode better)',
     '',
     ...summary,
     '',
-    ...lines.slice(10),
+    ...lines.slice(intro),
   ].join('\n');
   const outDir = process.env.RANKFOLD_BENCH_OUT ?? 'docs/bench';
   mkdirSync(outDir, { recursive: true });
