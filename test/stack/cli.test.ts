@@ -202,6 +202,38 @@ describe('compress --stack (multi-page 16-bit TIFF) with a per-frame PSNR floor'
   });
 });
 
+describe('compress --stack (colour folder)', () => {
+  it('codes RGB frames and expands one frame as RGB within a few grey levels', async () => {
+    const col = join(dir, 'colour');
+    await import('node:fs/promises').then((fs) => fs.mkdir(col));
+    const s = driftingSpecimen({ width: 40, height: 32, frames: 6, seed: 12, noise: 1 });
+    for (let j = 0; j < 6; j++) {
+      const rgb = new Uint8Array(40 * 32 * 3);
+      for (let p = 0; p < 40 * 32; p++) {
+        const v = s.frames[j][p];
+        rgb[3 * p] = v;
+        rgb[3 * p + 1] = Math.round(v * 0.7);
+        rgb[3 * p + 2] = 255 - v;
+      }
+      await sharp(rgb, { raw: { width: 40, height: 32, channels: 3 } })
+        .png()
+        .toFile(join(col, `c${j}.png`));
+    }
+    const out = join(dir, 'colour.rkf');
+    const r = await run('compress', '--stack', col, '-o', out, '--min-psnr', '40', '--json');
+    expect(r.code).toBe(0);
+    const rep: StackReport = JSON.parse(r.out);
+    expect(rep.channels).toBe(3);
+    expect(rep.spectrum.map((x) => x.channel)).toEqual(['Y', 'Cb', 'Cr']);
+    const png = join(dir, 'c2-out.png');
+    expect((await run('expand', out, '--frame', '2', '-o', png)).code).toBe(0);
+    const { data, info } = await sharp(png).raw().toBuffer({ resolveWithObject: true });
+    expect(info.channels).toBe(3);
+    const src = await sharp(join(col, 'c2.png')).raw().toBuffer();
+    expect(psnr(src, data, 255)).toBeGreaterThanOrEqual(40);
+  });
+});
+
 describe('in-memory service API', () => {
   it('compressStack / decodeStackFrame round-trip and refuse a mismatched frame naming it', () => {
     const frames = form.frames.slice(0, 6).map((p, j) => ({
@@ -217,5 +249,17 @@ describe('in-memory service API', () => {
     expect(decodeStackFrame(bytes, 2)[0].length).toBe(64 * 72);
     const bad = [...frames, { ...frames[0], width: 72, height: 64, name: 'rotated-page' }];
     expect(() => compressStack(bad, { budget: { kind: 'bpp', bpp: 1 } })).toThrow(/rotated-page: is 72×64/);
+    const mixed = [
+      ...frames,
+      {
+        ...frames[0],
+        channels: 3,
+        planes: [frames[0].planes[0], frames[0].planes[0], frames[0].planes[0]],
+        name: 'colour-page',
+      },
+    ];
+    expect(() => compressStack(mixed, { budget: { kind: 'bpp', bpp: 1 } })).toThrow(
+      /colour-page: is colour but the first frame \(p0\) is gray/,
+    );
   });
 });

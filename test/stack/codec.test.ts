@@ -168,6 +168,14 @@ describe('stack rate control', () => {
     expect(fit.encoded.bytes.length).toBeGreaterThan(0.8 * budget);
   });
 
+  it('--rank K keeps exactly K eigen-frames and no residuals', () => {
+    const s = phantomSlices({ width: 40, height: 40, frames: 12, seed: 6 });
+    const fit = fitStack(prepareStack(asInput(s)), { rank: 3 });
+    expect(fit.encoded.header.ranks).toEqual([3]);
+    expect(fit.encoded.header.frameTable.every((f) => !f.residual[0])).toBe(true);
+    expect(fit.encoded.split.residuals).toBe(0);
+  });
+
   it('meets a per-frame PSNR floor on the worst frame', () => {
     const s = driftingSpecimen({ width: 48, height: 48, frames: 12, seed: 8, noise: 1 });
     const prep = prepareStack(asInput(s));
