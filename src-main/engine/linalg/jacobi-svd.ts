@@ -111,7 +111,7 @@ function jacobi(a: Matrix, vectors: boolean, ws?: Workspace): { s: Float64Array;
   let fro2 = 0;
   for (let i = 0; i < n * rows; i++) fro2 += W[i] * W[i];
   const floor2 = EPS * EPS * fro2;
-  const done = fast ? ws!.jacobi!(W, rows, n, Vt, tol, MAX_SWEEPS, floor2) : -1;
+  const done = fast ? ws!.jacobi!(W, rows, n, Vt, tol, MAX_SWEEPS, floor2, ws!.f64(n)) : -1;
   for (let sweep = 0; sweep < MAX_SWEEPS && done < 0; sweep++) {
     let rotated = false;
     for (let p = 0; p < n - 1; p++) {

@@ -52,6 +52,7 @@ export interface Workspace {
     tol: number,
     maxSweeps: number,
     floor2: number,
+    norms: Float64Array,
   ): number;
   /**
    * Optional fast Householder tridiagonalisation (symmetric-eigen.ts `tridiagonalize`) on arrays from
@@ -170,10 +171,20 @@ class WasmWorkspace implements Workspace {
     tol: number,
     maxSweeps: number,
     floor2: number,
+    norms: Float64Array,
   ): number {
     const buf = this.k.memory.buffer;
-    if (W.buffer !== buf || (Vt && Vt.buffer !== buf)) return -1;
-    return this.k.exports.jacobiF64(W.byteOffset, rows, n, Vt ? Vt.byteOffset : 0, tol, maxSweeps, floor2);
+    if (W.buffer !== buf || (Vt && Vt.buffer !== buf) || norms.buffer !== buf) return -1;
+    return this.k.exports.jacobiF64(
+      W.byteOffset,
+      rows,
+      n,
+      Vt ? Vt.byteOffset : 0,
+      tol,
+      maxSweeps,
+      floor2,
+      norms.byteOffset,
+    );
   }
   tridiag(
     S: Float64Array,

@@ -157,9 +157,23 @@ export class LinalgPool implements Backend {
       f32: (n) => new Float32Array(buffer, take(4 * n), n),
       f64: (n) => new Float64Array(buffer, take(8 * n), n),
       gemm: this.gemm,
-      jacobi: (W, rows, n, Vt, tol, maxSweeps, floor2) => {
-        if (!sameMemory(W, this.memory) || (Vt && !sameMemory(Vt, this.memory))) return -1;
-        return this.local.jacobiF64(W.byteOffset, rows, n, Vt ? Vt.byteOffset : 0, tol, maxSweeps, floor2);
+      jacobi: (W, rows, n, Vt, tol, maxSweeps, floor2, norms) => {
+        if (
+          !sameMemory(W, this.memory) ||
+          (Vt && !sameMemory(Vt, this.memory)) ||
+          !sameMemory(norms, this.memory)
+        )
+          return -1;
+        return this.local.jacobiF64(
+          W.byteOffset,
+          rows,
+          n,
+          Vt ? Vt.byteOffset : 0,
+          tol,
+          maxSweeps,
+          floor2,
+          norms.byteOffset,
+        );
       },
       tridiag: (S, n, d, e, v, p) => {
         if (![S, d, e, v, p].every((x) => sameMemory(x, this.memory))) return false;

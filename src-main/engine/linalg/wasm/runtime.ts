@@ -44,6 +44,7 @@ export interface KernelExports {
     tol: number,
     maxSweeps: number,
     floor2: number,
+    norms: number,
   ): number;
   /** Householder tridiagonalisation of a lower-stored symmetric matrix (see symmetric-eigen.ts). */
   tridiagF64(s: number, n: number, d: number, e: number, v: number, p: number): void;

@@ -230,31 +230,44 @@ function rotate(px: usize, qx: usize, len: i32, c: f64, s: f64): void {
   }
 }
 
-export function jacobiF64(w: usize, rows: i32, n: i32, vt: usize, tol: f64, maxSweeps: i32, floor2: f64): i32 {
-  const rows2 = rows & ~1;
+@inline function dotF64(px: usize, qx: usize, len: i32): f64 {
+  const len2 = len & ~1;
+  let gv = f64x2.splat(0);
+  let i = 0;
+  for (; i < len2; i += 2) {
+    const o = <usize>i << 3;
+    gv = f64x2.add(gv, f64x2.mul(v128.load(px + o), v128.load(qx + o)));
+  }
+  let g = hsum(gv);
+  if (i < len) {
+    const o = <usize>i << 3;
+    g += load<f64>(px + o) * load<f64>(qx + o);
+  }
+  return g;
+}
+
+/**
+ * Column norms² are recomputed at the start of every sweep and updated after each rotation with
+ * Rutishauser's formulas α' = α − tγ, β' = β + tγ, so a pair costs one dot product, not three
+ * (as in LAPACK dgesvj). `norms` is scratch for n f64.
+ */
+export function jacobiF64(w: usize, rows: i32, n: i32, vt: usize, tol: f64, maxSweeps: i32, floor2: f64, norms: usize): i32 {
   const colBytes = <usize>rows << 3;
   for (let sweep = 1; sweep <= maxSweeps; sweep++) {
+    for (let j = 0; j < n; j++) {
+      const px = w + <usize>j * colBytes;
+      store<f64>(norms + (<usize>j << 3), dotF64(px, px, rows));
+    }
     let rotated = false;
     for (let p = 0; p < n - 1; p++) {
       const px = w + <usize>p * colBytes;
       for (let q = p + 1; q < n; q++) {
         const qx = w + <usize>q * colBytes;
-        let av = f64x2.splat(0), bv = f64x2.splat(0), gv = f64x2.splat(0);
-        let i = 0;
-        for (; i < rows2; i += 2) {
-          const o = <usize>i << 3;
-          const x = v128.load(px + o), y = v128.load(qx + o);
-          av = f64x2.add(av, f64x2.mul(x, x));
-          bv = f64x2.add(bv, f64x2.mul(y, y));
-          gv = f64x2.add(gv, f64x2.mul(x, y));
-        }
-        let alpha = hsum(av), beta = hsum(bv), gamma = hsum(gv);
-        if (i < rows) {
-          const o = <usize>i << 3;
-          const x = load<f64>(px + o), y = load<f64>(qx + o);
-          alpha += x * x; beta += y * y; gamma += x * y;
-        }
-        if (gamma == 0 || abs(gamma) <= tol * sqrt(alpha * beta) || min(alpha, beta) <= floor2) continue;
+        const alpha = load<f64>(norms + (<usize>p << 3));
+        const beta = load<f64>(norms + (<usize>q << 3));
+        if (min(alpha, beta) <= floor2) continue;
+        const gamma = dotF64(px, qx, rows);
+        if (gamma == 0 || abs(gamma) <= tol * sqrt(alpha * beta)) continue;
         rotated = true;
         const zeta = (beta - alpha) / (2 * gamma);
         const t = (zeta >= 0 ? 1.0 : -1.0) / (abs(zeta) + sqrt(1 + zeta * zeta));
@@ -262,6 +275,13 @@ export function jacobiF64(w: usize, rows: i32, n: i32, vt: usize, tol: f64, maxS
         const s = c * t;
         rotate(px, qx, rows, c, s);
         if (vt != 0) rotate(vt + <usize>p * (<usize>n << 3), vt + <usize>q * (<usize>n << 3), n, c, s);
+        let a2 = alpha - t * gamma;
+        let b2 = beta + t * gamma;
+        // Cancellation guard: recompute a norm that the update made tiny or negative.
+        if (a2 <= 0.5 * alpha * 1e-8) a2 = dotF64(px, px, rows);
+        if (b2 <= 0.5 * beta * 1e-8) b2 = dotF64(qx, qx, rows);
+        store<f64>(norms + (<usize>p << 3), a2);
+        store<f64>(norms + (<usize>q << 3), b2);
       }
     }
     if (!rotated) return sweep;
