@@ -182,6 +182,31 @@ describe('randomized SVD accuracy and determinism', () => {
   });
 });
 
+describe('option grid (shapes × ranks × methods × precisions × q): no workspace overflow, valid factors', () => {
+  it('every combination returns k non-increasing σ and orthonormal U, V (definition of the SVD)', () => {
+    for (const [m, n] of [
+      [5, 3],
+      [17, 40],
+      [64, 64],
+      [100, 30],
+    ])
+      for (const k of [1, Math.ceil(Math.min(m, n) / 2), Math.min(m, n)])
+        for (const method of ['power', 'krylov'] as const)
+          for (const precision of ['f32', 'f64'] as const)
+            for (const powerIters of [0, 1, 3]) {
+              const A = withSpectrum(m, n, decay(Math.min(m, n), 0.8), m + n + k, precision === 'f32');
+              const r = randomizedSvd(A, k, { method, precision, powerIters, seed: 5 });
+              const tol = precision === 'f32' ? 2e-5 : 1e-12;
+              expect(r.s.length).toBe(k);
+              for (let i = 1; i < k; i++) expect(r.s[i]).toBeLessThanOrEqual(r.s[i - 1]);
+              expect(orthogonalityError(r.U)).toBeLessThan(tol);
+              expect(orthogonalityError(r.V)).toBeLessThan(tol);
+              // σ₁ is found to within a few % even with q = 0 on this spectrum (HMT Thm 10.6 scale).
+              expect(Math.abs(r.s[0] - 100) / 100).toBeLessThan(0.05);
+            }
+  });
+});
+
 describe('QR (CholeskyQR2 with Householder fallback; Fukaya et al. 2014/2020)', () => {
   it('orthonormal Q and A = QR for well-conditioned, ill-conditioned (κ≈1e12) and rank-deficient blocks', () => {
     const ws = tsBackend.workspace(0);
