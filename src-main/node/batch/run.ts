@@ -201,6 +201,11 @@ async function existingSize(p: string): Promise<number | undefined> {
   }
 }
 
+/** Files in the order they are handed to workers: largest first, ties by path. */
+export function dispatchOrder(files: PlannedFile[]): PlannedFile[] {
+  return files.slice().sort((a, b) => b.size - a.size || (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
+}
+
 /** Run `n` async tasks over items with at most `limit` at once, in order of items. */
 async function eachLimit<T>(items: T[], limit: number, fn: (t: T) => Promise<void>) {
   let i = 0;
@@ -346,7 +351,9 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
   o.signal?.addEventListener('abort', onAbort, { once: true });
   try {
     await Promise.all(
-      todo.map(async (f) => {
+      // Largest files first (longest-processing-time order), so no worker idles at the end on one big scan.
+      // Outputs do not depend on the order; the manifest is sorted by path at the end.
+      dispatchOrder(todo).map(async (f) => {
         const outcome = await pool.run(
           {
             input: f.inputAbs,
