@@ -2,10 +2,10 @@
  * Rate control for the stack layout: find the quantiser step (and the number of eigen-frames) that
  * meets a byte budget for the whole series, or a per-frame quality floor (the worst frame must meet it).
  *
- * Method: bisection on log Δ, first with the per-component λ rule of stack-codec.ts, then a choice of
+ * Method: a bracketing + false-position search on log Δ, first with the per-component λ rule of stack-codec.ts, then a choice of
  * the eigen-frame count k among a few candidates by the Lagrangian J = SSE + λ·bytes at that step
  * (Everett's generalised Lagrange multipliers — H. Everett, Operations Research 11(3), 1963; Shoham &
- * Gersho, IEEE Trans. ASSP 36(9), 1988 — from memory), then a second bisection with k fixed.
+ * Gersho, IEEE Trans. ASSP 36(9), 1988 — from memory), then a second search with k fixed.
  * File size falls and distortion rises with Δ (monotone in practice, not guaranteed); the search keeps
  * the best feasible point it has seen, so the answer always meets the target when one was found.
  */
@@ -34,11 +34,13 @@ export interface StackFit {
 
 /** Step of a `--rank K` only encode, in grey levels of 8-bit data (scaled for 16-bit): near-lossless basis. */
 const RANK_ONLY_STEP = 0.5;
-/** Halvings of the log-step bracket [0.02, 1024]·scale: 11 give Δ to about 1%. */
-const BISECTIONS = 11;
-/** Halvings of the narrow bracket [Δ/2, 2Δ] around the first answer, once k is fixed. */
-const REFINEMENTS = 7;
-const RANK_CANDIDATES = [0, 1, 2, 3, 4, 6, 8, 12, 16, 24, 32, 48, 64];
+/** Most encodes of the first step search (bracketing + false position) over Δ ∈ [0.02, 1024]·scale. */
+const SEARCH_EVALS = 12;
+/** Most encodes of the second search, started at the first answer, once k is fixed. */
+const REFINEMENTS = 6;
+/** The search stops when the bracket on Δ is narrower than 1%. */
+const STEP_TOLERANCE = 0.01;
+const RANK_CANDIDATES = [0, 1, 2, 4, 8, 16, 32, 64];
 
 export class StackTargetError extends Error {
   constructor(
@@ -62,7 +64,7 @@ export function fitStack(
 ): StackFit {
   const scale = prep.input.bitDepth === 16 ? 257 : 1;
   let evaluations = 0;
-  const total = BISECTIONS + REFINEMENTS + RANK_CANDIDATES.length + 2;
+  const total = SEARCH_EVALS + REFINEMENTS + RANK_CANDIDATES.length + 2;
   const floors = target.minPsnr !== undefined || target.minSsim !== undefined;
   const evaluate = (step: number, rank: number | undefined, residuals: boolean): StackFit => {
     const encoded = encodeStack(prep, { step, rank, residuals });
@@ -84,37 +86,58 @@ export function fitStack(
   }
   const residuals = target.residuals ?? true;
 
-  /** Bisection on log step; returns the best feasible fit (or undefined) and the last probe. */
-  const bisect = (
-    rank: number | undefined,
-    lo = Math.log(0.02 * scale),
-    hi = Math.log(1024 * scale),
-    iterations = BISECTIONS,
-  ) => {
+  /** Signed violation of the target (≤ 0 = met): log byte ratio, or dB (and 100·SSIM) short of the floors. */
+  const violation = (f: StackFit): number => {
+    if (!floors) return Math.log(f.encoded.bytes.length / (target.maxBytes as number));
+    let v = Number.NEGATIVE_INFINITY;
+    if (target.minPsnr !== undefined) v = Math.max(v, target.minPsnr - Math.min(...f.psnr));
+    if (target.minSsim !== undefined) v = Math.max(v, 100 * (target.minSsim - Math.min(...f.ssim)));
+    return v;
+  };
+  const uMin = Math.log(0.02 * scale);
+  const uMax = Math.log(1024 * scale);
+  /**
+   * Find the boundary in u = log Δ where the target starts to fail: bracket it by doubling moves, then
+   * regula falsi (false position) between the feasible and infeasible probes, clamped so each probe cuts
+   * the bracket by at least 15%. Returns the best feasible fit and the nearest infeasible probe.
+   */
+  const bisect = (rank: number | undefined, u0: number, span: number, maxEvals: number) => {
     let best: StackFit | undefined;
-    let closest: StackFit | undefined;
-    for (let it = 0; it < iterations; it++) {
-      const mid = (lo + hi) / 2;
-      const f = evaluate(Math.exp(mid), rank, residuals);
-      const ok = meetsFloors(f) && fitsBytes(f);
-      if (ok) {
-        // Floors: prefer the smallest file; bytes only: prefer the best quality.
+    let a: { u: number; s: number } | undefined;
+    let b: { u: number; s: number; f: StackFit } | undefined;
+    const towardFeasible = floors ? -1 : 1;
+    let u = Math.min(uMax, Math.max(uMin, u0));
+    let move = span;
+    for (let it = 0; it < maxEvals; it++) {
+      const f = evaluate(Math.exp(u), rank, residuals);
+      const sv = violation(f);
+      const ok = sv <= 0 && meetsFloors(f) && fitsBytes(f);
+      if (sv <= 0) {
+        if (!a || (floors ? u > a.u : u < a.u)) a = { u, s: sv };
         if (
-          !best ||
-          (floors ? f.encoded.bytes.length < best.encoded.bytes.length : mean(f.psnr) > mean(best.psnr))
+          ok &&
+          (!best ||
+            (floors ? f.encoded.bytes.length < best.encoded.bytes.length : mean(f.psnr) > mean(best.psnr)))
         )
           best = f;
-      } else closest = f;
-      if (floors) {
-        if (meetsFloors(f)) lo = mid;
-        else hi = mid;
-      } else if (fitsBytes(f)) hi = mid;
-      else lo = mid;
+      } else if (!b || (floors ? u < b.u : u > b.u)) b = { u, s: sv, f };
+      let next: number;
+      if (a && b) {
+        if (Math.abs(a.u - b.u) < STEP_TOLERANCE) break;
+        const frac = Math.min(0.85, Math.max(0.15, (0 - a.s) / (b.s - a.s)));
+        next = a.u + frac * (b.u - a.u);
+      } else {
+        next = a ? u - towardFeasible * move : u + towardFeasible * move;
+        move *= 2;
+        if ((next <= uMin && u <= uMin) || (next >= uMax && u >= uMax)) break;
+        next = Math.min(uMax, Math.max(uMin, next));
+      }
+      u = next;
     }
-    return { best, closest };
+    return { best, closest: b?.f };
   };
 
-  let first = bisect(target.rank);
+  let first = bisect(target.rank, Math.log(4 * scale), Math.log(4), SEARCH_EVALS);
   if (!first.best) {
     // One more try at the extreme end of the range before giving up.
     const edge = floors
@@ -131,7 +154,10 @@ export function fitStack(
     const kmax = prep.eigen[0].length;
     let bestJ = Number.POSITIVE_INFINITY;
     let bestK = best.encoded.header.ranks[0];
-    for (const k of RANK_CANDIDATES.filter((r) => r <= kmax).concat(best.encoded.header.ranks[0])) {
+    const kRule = best.encoded.header.ranks[0];
+    // Candidates far above the λ rule's own count never won in the benchmark; skip them to save encodes.
+    const candidates = RANK_CANDIDATES.filter((r) => r <= kmax && r <= Math.max(4, 2 * kRule));
+    for (const k of candidates.includes(kRule) ? candidates : candidates.concat(kRule)) {
       const f = evaluate(step, k, residuals);
       const J = sseOf(f, prep) + lambda * f.encoded.bytes.length;
       if (J < bestJ) {
@@ -139,7 +165,7 @@ export function fitStack(
         bestK = k;
       }
     }
-    const second = bisect(bestK, Math.log(step / 2), Math.log(step * 2), REFINEMENTS);
+    const second = bisect(bestK, Math.log(step), Math.log(1.25), REFINEMENTS);
     if (second.best) {
       const better = floors
         ? second.best.encoded.bytes.length < best.encoded.bytes.length

@@ -92,14 +92,105 @@ function inv1d(x: Float64Array, o: number, s: number, n: number, tmp: Float64Arr
   for (let i = 0; i < nH; i++) x[o + (2 * i + 1) * s] = H[i];
 }
 
+/**
+ * Column pass of one level on the top-left w×h region (row stride `width`), done as operations on
+ * whole rows so memory is read contiguously. Per sample, the arithmetic and its order are exactly those
+ * of {@link fwd1d} on the column, so results are bit-identical to a column-by-column transform.
+ */
+function fwdCols(x: Float64Array, width: number, w: number, h: number, buf: Float64Array): void {
+  if (h < 2) return;
+  const nL = (h + 1) >> 1;
+  const nH = h >> 1;
+  for (let i = 0; i < h; i++) {
+    const src = (i & 1 ? nL + (i >> 1) : i >> 1) * w;
+    buf.set(x.subarray(i * width, i * width + w), src);
+  }
+  const L = (i: number) => i * w;
+  const H = (i: number) => (nL + i) * w;
+  const predict = (c: number) => {
+    for (let i = 0; i < nH; i++) {
+      const hi = H(i);
+      const a = L(i);
+      const b = L(Math.min(i + 1, nL - 1));
+      for (let k = 0; k < w; k++) buf[hi + k] += c * (buf[a + k] + buf[b + k]);
+    }
+  };
+  const update = (c: number) => {
+    for (let i = 0; i < nL; i++) {
+      const lo = L(i);
+      const a = H(Math.max(i - 1, 0));
+      const b = H(Math.min(i, nH - 1));
+      for (let k = 0; k < w; k++) buf[lo + k] += c * (buf[a + k] + buf[b + k]);
+    }
+  };
+  predict(ALPHA);
+  update(BETA);
+  predict(GAMMA);
+  update(DELTA);
+  for (let i = 0; i < nL; i++) {
+    const o = i * width;
+    const b = L(i);
+    for (let k = 0; k < w; k++) x[o + k] = buf[b + k] / ZETA;
+  }
+  for (let i = 0; i < nH; i++) {
+    const o = (nL + i) * width;
+    const b = H(i);
+    for (let k = 0; k < w; k++) x[o + k] = buf[b + k] * ZETA;
+  }
+}
+
+/** Inverse of {@link fwdCols}, bit-identical to {@link inv1d} on every column. */
+function invCols(x: Float64Array, width: number, w: number, h: number, buf: Float64Array): void {
+  if (h < 2) return;
+  const nL = (h + 1) >> 1;
+  const nH = h >> 1;
+  const L = (i: number) => i * w;
+  const H = (i: number) => (nL + i) * w;
+  for (let i = 0; i < nL; i++) {
+    const o = i * width;
+    const b = L(i);
+    for (let k = 0; k < w; k++) buf[b + k] = x[o + k] * ZETA;
+  }
+  for (let i = 0; i < nH; i++) {
+    const o = (nL + i) * width;
+    const b = H(i);
+    for (let k = 0; k < w; k++) buf[b + k] = x[o + k] / ZETA;
+  }
+  const unupdate = (c: number) => {
+    for (let i = 0; i < nL; i++) {
+      const lo = L(i);
+      const a = H(Math.max(i - 1, 0));
+      const b = H(Math.min(i, nH - 1));
+      for (let k = 0; k < w; k++) buf[lo + k] -= c * (buf[a + k] + buf[b + k]);
+    }
+  };
+  const unpredict = (c: number) => {
+    for (let i = 0; i < nH; i++) {
+      const hi = H(i);
+      const a = L(i);
+      const b = L(Math.min(i + 1, nL - 1));
+      for (let k = 0; k < w; k++) buf[hi + k] -= c * (buf[a + k] + buf[b + k]);
+    }
+  };
+  unupdate(DELTA);
+  unpredict(GAMMA);
+  unupdate(BETA);
+  unpredict(ALPHA);
+  for (let i = 0; i < h; i++) {
+    const src = (i & 1 ? nL + (i >> 1) : i >> 1) * w;
+    x.set(buf.subarray(src, src + w), i * width);
+  }
+}
+
 /** In-place 2-D forward transform (Mallat layout). */
 export function forwardWavelet(x: Float64Array, width: number, height: number, levels: number): void {
   const tmp = new Float64Array(Math.max(width, height));
+  const buf = new Float64Array(width * height);
   let w = width;
   let h = height;
   for (let l = 0; l < levels; l++) {
     for (let y = 0; y < h; y++) fwd1d(x, y * width, 1, w, tmp);
-    for (let c = 0; c < w; c++) fwd1d(x, c, width, h, tmp);
+    fwdCols(x, width, w, h, buf);
     w = (w + 1) >> 1;
     h = (h + 1) >> 1;
   }
@@ -108,6 +199,7 @@ export function forwardWavelet(x: Float64Array, width: number, height: number, l
 /** In-place 2-D inverse transform. */
 export function inverseWavelet(x: Float64Array, width: number, height: number, levels: number): void {
   const tmp = new Float64Array(Math.max(width, height));
+  const buf = new Float64Array(width * height);
   const ws = [width];
   const hs = [height];
   for (let l = 1; l < levels; l++) {
@@ -117,8 +209,26 @@ export function inverseWavelet(x: Float64Array, width: number, height: number, l
   for (let l = levels - 1; l >= 0; l--) {
     const w = ws[l];
     const h = hs[l];
-    for (let c = 0; c < w; c++) inv1d(x, c, width, h, tmp);
+    invCols(x, width, w, h, buf);
     for (let y = 0; y < h; y++) inv1d(x, y * width, 1, w, tmp);
+  }
+}
+
+/** Column-by-column reference transforms (used by tests to check the row-wise column pass). */
+export function forwardWaveletReference(
+  x: Float64Array,
+  width: number,
+  height: number,
+  levels: number,
+): void {
+  const tmp = new Float64Array(Math.max(width, height));
+  let w = width;
+  let h = height;
+  for (let l = 0; l < levels; l++) {
+    for (let y = 0; y < h; y++) fwd1d(x, y * width, 1, w, tmp);
+    for (let c = 0; c < w; c++) fwd1d(x, c, width, h, tmp);
+    w = (w + 1) >> 1;
+    h = (h + 1) >> 1;
   }
 }
 
