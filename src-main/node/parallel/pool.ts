@@ -150,7 +150,7 @@ export class LinalgPool implements Backend {
         throw new RangeError(`LinalgPool: workspace overflow (${this.top} > ${end}); this is a bug`);
       return p;
     };
-    const buffer = this.memory.buffer as SharedArrayBuffer;
+    const buffer = this.memory.buffer as unknown as SharedArrayBuffer;
     handedOut.add(buffer);
     return {
       label: this.label,

@@ -65,7 +65,7 @@ let pending: Promise<{ wasm: boolean }> | null = null;
 let disabled = false;
 
 /** Decode base64 without atob/Buffer (neither is in ES2022). RFC 4648 §4. */
-export function decodeBase64(s: string): Uint8Array {
+export function decodeBase64(s: string): Uint8Array<ArrayBuffer> {
   const table = new Uint8Array(128);
   const alphabet = 'ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/';
   for (let i = 0; i < 64; i++) table[alphabet.charCodeAt(i)] = i;
@@ -87,7 +87,7 @@ export function decodeBase64(s: string): Uint8Array {
 }
 
 /** The kernel module bytes (also used by src-main/node/parallel for its shared-memory twin). */
-export function kernelBytes(): Uint8Array {
+export function kernelBytes(): Uint8Array<ArrayBuffer> {
   return decodeBase64(wasmBase64);
 }
 
