@@ -120,3 +120,22 @@ describe('samples/line-sensor-banding.png against its truth (samples/generate.mj
     expect(psnr(out, truth.planes[0])).toBeGreaterThan(psnr(dam.planes[0], truth.planes[0]) + 3);
   });
 });
+
+describe('full-length lines of the scene are content, not banding', () => {
+  it('samples/map-sheet.png (grid, neatline, fold creases) and the other clean samples are left bit-identical', async () => {
+    const { decodeImage } = await import('../../src-main/node/image/decode');
+    const { repoRoot } = await import('../helpers/fixtures');
+    const { join } = await import('node:path');
+    for (const f of ['map-sheet.png', 'ledger-page.png', 'gel-scan.tif']) {
+      const d = await decodeImage(join(repoRoot, 'samples', f));
+      const a = analyseBanding(d.planes[0], d.width, d.height, 'auto', { maxValue: 255 });
+      expect(a.direction, f).toBe('none');
+    }
+  });
+
+  it('one dark full-height line in otherwise clean content is not removed in auto mode (a ruled line)', async () => {
+    const truth = await fixtureGray('moon.png');
+    const lined = truth.data.map((v, i) => (i % truth.width === 200 ? 20 : v));
+    expect(analyseBanding(lined, truth.width, truth.height, 'auto', opts).direction).toBe('none');
+  });
+});

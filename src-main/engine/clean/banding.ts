@@ -32,6 +32,8 @@ export interface StripeProfile {
   profile: Float64Array;
   /** RMS of the profile in grey levels of the input. */
   strength: number;
+  /** 1.4826·median|profile|: the strength of the bulk of the profile, insensitive to a few spikes. */
+  robustStrength: number;
   /** RMS standard error of the median profile (from the spread across lines at each position). */
   noiseFloor: number;
   /** ⟨top-half profile, bottom-half profile⟩ / ‖profile‖², clamped to [−1, 1] (1 = the same stripes in both halves). */
@@ -42,6 +44,8 @@ export interface StripeProfile {
   period: number | null;
   /** Fraction of the profile's energy within ±1 bin of the spectral peak. */
   periodShare: number;
+  /** Positions whose offset was left as content by the spike limit (automatic mode). */
+  clipped?: number;
   /** True when the detection test passed. */
   detected: boolean;
 }
@@ -65,6 +69,8 @@ export const SIGNIFICANCE = 4;
 export const MIN_CONSISTENCY = 0.5;
 /** Largest spread ratio of a detected profile: above it, the "stripes" follow content (text lines, edges). */
 export const MAX_SPREAD_RATIO = 1.8;
+/** In automatic mode, profile values beyond this many robust strengths are content, not banding. */
+export const SPIKE_FACTOR = 5;
 /** A period is reported when the spectral peak (±1 bin) holds at least this share of the energy. */
 export const MIN_PERIOD_SHARE = 0.3;
 /** √(π/2): standard error of a median relative to the mean's, for Gaussian data. */
@@ -146,16 +152,24 @@ export function estimateStripeProfile(
   // content leaking into either half's median is not (and one busy half does not veto a real stripe).
   const consistency = sharedEnergy(top, bottom, profile);
   const { period, share } = dominantPeriod(profile);
+  // Robust strength 1.4826·median|profile| (MAD scale): a few full-length straight lines of the scene (a map
+  // grid, a neatline, a table rule) make isolated spikes in the profile that pass every other test; they
+  // barely move the median, whereas real banding affects most lines.
+  // Measured around the profile's median, not its mean: spikes shift the mean of everything else.
+  const centre = medianInPlace(Float64Array.from(profile), profile.length);
+  const absP = Float64Array.from(profile, (v) => Math.abs(v - centre));
+  const robustStrength = medianInPlace(absP, absP.length) / MAD_TO_SIGMA;
   const minStrength = (MIN_STRENGTH_8BIT * options.maxValue) / 255;
   const detected =
-    strength >= minStrength &&
-    strength >= SIGNIFICANCE * noiseFloor &&
+    robustStrength >= minStrength &&
+    robustStrength >= SIGNIFICANCE * noiseFloor &&
     consistency >= MIN_CONSISTENCY &&
     spreadRatio <= MAX_SPREAD_RATIO;
   return {
     axis,
     profile,
     strength,
+    robustStrength,
     noiseFloor,
     consistency,
     spreadRatio,
@@ -188,12 +202,37 @@ export function analyseBanding(
 ): BandingAnalysis {
   const columns = estimateStripeProfile(plane, width, height, 'columns', options);
   const removeColumns = mode === 'auto' ? columns.detected : mode === 'columns' || mode === 'both';
+  if (mode === 'auto') clipSpikes(columns);
   const base = removeColumns ? subtractProfiles(plane, width, height, null, columns.profile) : plane;
   const rows = estimateStripeProfile(base, width, height, 'rows', options);
+  if (mode === 'auto') clipSpikes(rows);
   const removeRows = mode === 'auto' ? rows.detected : mode === 'rows' || mode === 'both';
   const direction: BandingDirection =
     removeRows && removeColumns ? 'both' : removeRows ? 'rows' : removeColumns ? 'columns' : 'none';
   return { direction, columns, rows, removeColumns, removeRows };
+}
+
+/**
+ * In automatic mode, positions where the profile exceeds SPIKE_FACTOR × its robust strength (plus the
+ * noise floor) are treated as content (a ruled line, a grid line) and keep their offset: the subtracted
+ * profile is clipped there. `clipped` counts them. Forced modes (--banding rows|columns|both) subtract all.
+ */
+function clipSpikes(p: StripeProfile) {
+  const limit = SPIKE_FACTOR * p.robustStrength + p.noiseFloor;
+  const centre = medianInPlace(Float64Array.from(p.profile), p.profile.length);
+  let n = 0;
+  for (let i = 0; i < p.profile.length; i++) {
+    const d = p.profile[i] - centre;
+    if (Math.abs(d) > limit) {
+      p.profile[i] = centre + Math.sign(d) * limit;
+      n++;
+    }
+  }
+  p.clipped = n;
+  if (n > 0) {
+    removeMean(p.profile);
+    if (p.detected) p.strength = rms(p.profile);
+  }
 }
 
 /** plane − b·1ᵀ − 1·sᵀ, as a new plane. Either profile may be null. */
