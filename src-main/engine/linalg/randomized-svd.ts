@@ -11,6 +11,8 @@
  *   value decomposition", NeurIPS 2015 (arXiv:1504.05477). Algorithm 2: K = [AΠ, (AAᵀ)AΠ, …,
  *   (AAᵀ)^q AΠ], Q = orth(K), SVD of QᵀA restricted to the top k.
  */
+
+import { blockKrylovBasis, type RangeOps } from './block-krylov';
 import { jacobiBytes, jacobiSvdIn } from './jacobi-svd';
 import type { FloatArray, Matrix, Precision, SvdResult } from './matrix';
 import { Orthonormalizer } from './qr';
@@ -134,6 +136,23 @@ export function randomizedSvdBytes(
   return (f32 ? bytesFor(pe, de) : bytesFor(0, pe + de)) + jacobiBytes(L, L);
 }
 
+/**
+ * Randomized subspace iteration, HMT 2011 Algorithm 4.4: starting from Y = AΩ, q rounds of
+ * Z = orth(AᵀY), Y = orth(AZ). Intermediate bases need only be well conditioned (one Cholesky pass);
+ * the last is made orthonormal. Returns the m×l basis (in Y).
+ */
+function powerBasis(o: RangeOps, Y: FloatArray, Z: FloatArray, q: number): FloatArray {
+  const { orth, mulA, mulAt, m, n, l } = o;
+  orth.run(Y, m, l, undefined, q === 0);
+  for (let it = 0; it < q; it++) {
+    mulAt(Y, Z, l);
+    orth.run(Z, n, l, undefined, false);
+    mulA(Z, Y, l);
+    orth.run(Y, m, l, undefined, it === q - 1);
+  }
+  return Y;
+}
+
 function core(
   ws: Workspace,
   a: Matrix,
@@ -160,45 +179,9 @@ function core(
     ws.gemm(m, w, n, A, 0, n, 1, X, 0, w, out, 0, w, false);
   const mulAt = (X: FloatArray, out: FloatArray, w: number) =>
     ws.gemm(n, w, m, A, 0, 1, n, X, 0, w, out, 0, w, false);
-  let Qm: FloatArray;
-  if (blocks === 1) {
-    // Intermediate bases need only be well conditioned (one Cholesky pass); the last is made orthonormal.
-    mulA(Om, Y, l);
-    orth.run(Y, m, l, undefined, q === 0);
-    for (let it = 0; it < q; it++) {
-      mulAt(Y, Z, l);
-      orth.run(Z, n, l, undefined, false);
-      mulA(Z, Y, l);
-      orth.run(Y, m, l, undefined, it === q - 1);
-    }
-    Qm = Y;
-  } else {
-    // Block Krylov: K = [Y₀ … Y_{b−1}], each block orthonormalised and projected off the previous
-    // ones twice (classical Gram–Schmidt, twice is enough), then the whole K once more.
-    const K = alloc(m * L);
-    const C = alloc(L * l);
-    mulA(Om, Y, l);
-    orth.run(Y, m, l);
-    const put = (blk: number) => {
-      for (let i = 0; i < m; i++) K.set(Y.subarray(i * l, (i + 1) * l), i * L + blk * l);
-    };
-    put(0);
-    for (let blk = 1; blk < blocks; blk++) {
-      mulAt(Y, Z, l);
-      orth.run(Z, n, l, undefined, false);
-      mulA(Z, Y, l);
-      const w = blk * l;
-      for (let pass = 0; pass < 2; pass++) {
-        ws.gemm(w, l, m, K, 0, 1, L, Y, 0, l, C, 0, l, false);
-        for (let i = 0; i < w * l; i++) C[i] = -C[i];
-        ws.gemm(m, l, w, K, 0, L, 1, C, 0, l, Y, 0, l, true);
-      }
-      orth.run(Y, m, l);
-      put(blk);
-    }
-    orth.run(K, m, L);
-    Qm = K;
-  }
+  const ops: RangeOps = { ws, orth, mulA, mulAt, alloc, m, n, l };
+  mulA(Om, Y, l);
+  const Qm = blocks === 1 ? powerBasis(ops, Y, Z, q) : blockKrylovBasis(ops, Y, Z, blocks);
   // B = QᵀA (L×n), handled as Bᵀ = AᵀQ (n×L) = Q₂R; R = U_R Σ V_Rᵀ; A ≈ (Q V_R) Σ (Q₂ U_R)ᵀ.
   const Bt = alloc(n * L);
   mulAt(Qm, Bt, L);
