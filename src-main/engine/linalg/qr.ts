@@ -6,7 +6,7 @@
  * References
  * - T. Fukaya, Y. Nakatsukasa, Y. Yanagisawa, Y. Yamamoto, "CholeskyQR2: a simple and
  *   communication-avoiding algorithm for computing a tall-skinny QR factorization", ScalA 2014, IEEE.
- *   doi:10.1109/ScalA.2014.11. §3: two passes give orthogonality O(u) when u·κ(X)² ≲ 1.
+ *   doi:10.1109/ScalA.2014.11 (DOI from memory). §3: two passes give orthogonality O(u) when u·κ(X)² ≲ 1.
  * - T. Fukaya, R. Kannan, Y. Nakatsukasa, Y. Yamamoto, Y. Yanagisawa, "Shifted Cholesky QR for
  *   computing the QR factorization of ill-conditioned matrices", SIAM J. Sci. Comput. 42(1):A477–A503,
  *   2020. doi:10.1137/18M1218212. §3, shift s = 11(ml + l(l+1))·u·‖X‖₂² (we use ‖X‖_F² ≥ ‖X‖₂²).

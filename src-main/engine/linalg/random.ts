@@ -3,9 +3,9 @@
  *
  * References
  * - D. Blackman, S. Vigna, "Scrambled linear pseudorandom number generators", ACM Trans. Math. Softw.
- *   47(4), article 36, 2021. doi:10.1145/3460772. xoshiro128** (§4, Figure 3 of the paper's code).
+ *   47(4), article 36, 2021. doi:10.1145/3460772. xoshiro128** (DOI from memory).
  * - G. Steele, D. Lea, C. Flood, "Fast splittable pseudorandom number generators", OOPSLA 2014.
- *   doi:10.1145/2660193.2660195. SplitMix, used here (32-bit variant) only to spread the seed.
+ *   doi:10.1145/2660193.2660195 (from memory). SplitMix, used here (32-bit variant) only to spread the seed.
  * - G. E. P. Box, M. E. Muller, "A note on the generation of random normal deviates", Ann. Math. Statist.
  *   29(2):610–611, 1958. doi:10.1214/aoms/1177706645.
  */

@@ -7,7 +7,7 @@
  *   (Householder tridiagonalisation, Algorithm 8.3.1) and §8.3.3–8.3.5 (implicit symmetric QR step) —
  *   numbers from memory.
  * - H. Bowdler, R. S. Martin, C. Reinsch, J. H. Wilkinson, "The QR and QL algorithms for symmetric
- *   matrices", Numer. Math. 11:293–306, 1968. doi:10.1007/BF02166681 (procedure tql1).
+ *   matrices", Numer. Math. 11:293–306, 1968. doi:10.1007/BF02166681 (procedure tql1; DOI from memory).
  * Accuracy: backward stable; every computed eigenvalue is within a small multiple of n·ε·‖S‖₂ of an
  * exact eigenvalue of S (Weyl's inequality).
  */
