@@ -133,6 +133,20 @@ describe('compress --stack (folder)', () => {
     expect(Buffer.from(Uint8Array.from(mem[0])).equals(Buffer.from(a))).toBe(true);
   });
 
+  it('expand refuses a damaged stack file, naming it, and writes nothing', async () => {
+    const good = readFileSync(join(dir, 'forms.rkf'));
+    const bad = Buffer.from(good);
+    bad[Math.floor(bad.length * 0.6)] ^= 0x5a;
+    const file = join(dir, 'damaged-copy.rkf');
+    writeFileSync(file, bad);
+    for (const target of [join(dir, 'damaged-out'), join(dir, 'damaged-out.tif')]) {
+      const r = await run('expand', file, '-o', target);
+      expect(r.code).toBe(1);
+      expect(r.err).toMatch(/damaged-copy\.rkf: is damaged: chunk .* fails its CRC-32 check/);
+      expect(existsSync(target)).toBe(false);
+    }
+  });
+
   it('refuses a frame of another size, naming the file, and writes nothing', async () => {
     const bad = join(dir, 'bad-size');
     await import('node:fs/promises').then((fs) => fs.mkdir(bad));

@@ -11,10 +11,8 @@ import sharp, { type SharpOptions } from 'sharp';
 import {
   type Budget,
   type DecodedImage,
-  FormatError,
   InputError,
   OutputError,
-  RankfoldError,
   type StackCompressOptions,
   type StackExpandReport,
   type StackReport,
@@ -24,6 +22,7 @@ import {
 import { fitStack, type StackFit, type StackTarget, StackTargetError } from '../../engine/codec/stack-budget';
 import {
   decodeStackFrame as decodeFrameBytes,
+  isStackContainer,
   MAX_STACK_RANK,
   openStack,
   prepareStack,
@@ -464,15 +463,14 @@ export async function expandStackFile(
   return { ...base, frames: all, outputs, format: 'png', sources: all.map(source) };
 }
 
-/** True when `file` is a .rkf file with the stack layout (reads and checks only the header chunk). */
+/**
+ * True when `file` is a .rkf file whose header says `layout: "stack"` (only the header is read and
+ * checked), so that the stack reader — with its precise messages — handles it even when it is damaged.
+ */
 export async function isStackFile(file: string): Promise<boolean> {
   try {
-    const bytes = new Uint8Array(await readFile(file));
-    openStack(bytes, file);
-    return true;
-  } catch (err) {
-    if (err instanceof FormatError && /not a stack file/.test(err.message)) return false;
-    if (err instanceof RankfoldError) return /stack layout version/.test(err.message);
+    return isStackContainer(new Uint8Array(await readFile(file)), file);
+  } catch {
     return false;
   }
 }
