@@ -11,7 +11,7 @@ import {
   randomizedSvd,
   singularValues,
 } from '../../src-main/engine/linalg';
-import { LinalgPool } from '../../src-main/node/parallel/pool';
+import { closeSharedLinalgPool, LinalgPool, sharedLinalgPool } from '../../src-main/node/parallel/pool';
 import { randomMatrix, withSpectrum } from './helpers';
 
 let one: LinalgPool;
@@ -58,6 +58,21 @@ describe('LinalgPool (2 worker_threads over a shared WebAssembly.Memory)', () =>
     expect(Array.from(viaOne.s)).toEqual(Array.from(ref.s));
     expect(Array.from(viaTwo.U.data)).toEqual(Array.from(ref.U.data));
     expect(Array.from(singularValues(A, two))).toEqual(Array.from(singularValues(A)));
+  });
+
+  it('sharedLinalgPool returns one process-wide pool until closed', async () => {
+    const a = await sharedLinalgPool();
+    const b = await sharedLinalgPool();
+    expect(a).toBe(b);
+    expect(a.workerCount).toBe(2);
+    const A = randomMatrix(64, 48, 4, true);
+    expect(Array.from(matmul(A, randomMatrix(48, 16, 5, true), undefined, a).data)).toEqual(
+      Array.from(matmul(A, randomMatrix(48, 16, 5, true)).data),
+    );
+    await closeSharedLinalgPool();
+    const c = await sharedLinalgPool();
+    expect(c).not.toBe(a);
+    await closeSharedLinalgPool();
   });
 
   it('refuses a second concurrent workspace and a bad worker count with clear messages', async () => {
