@@ -80,10 +80,10 @@ export function parseBudgetOptions(values: Record<string, unknown>): Budget {
   const given = ['rank', 'budget', 'bpp', 'min-psnr', 'min-ssim'].filter((k) => values[k] !== undefined);
   if (given.length === 0)
     throw new UsageError(
-      'batch: give one budget: --rank K, --budget SIZE (e.g. 250kB or 5%), --bpp X, --min-psnr DB or --min-ssim S',
+      'give one budget: --rank K, --budget SIZE (e.g. 250kB or 5%), --bpp X, --min-psnr DB or --min-ssim S',
     );
   if (given.length > 1)
-    throw new UsageError(`batch: give only one budget, not ${given.map((g) => `--${g}`).join(' and ')}`);
+    throw new UsageError(`give only one budget, not ${given.map((g) => `--${g}`).join(' and ')}`);
   const k = given[0];
   const v = str(values[k]);
   switch (k) {
@@ -112,7 +112,7 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
   const { values, positionals } = parseCommandArgs('batch', argv, BATCH_OPTIONS, Number.POSITIVE_INFINITY);
   if (values.merge) {
     if (!positionals.length)
-      throw new UsageError('batch --merge: give one or more shard manifests (rankfold-manifest-*.jsonl)');
+      throw new UsageError('--merge: give one or more shard manifests (rankfold-manifest-*.jsonl)');
     const bad = [
       'rank',
       'budget',
@@ -128,7 +128,7 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
     ].filter((k) => values[k] !== undefined);
     if (bad.length)
       throw new UsageError(
-        `batch --merge only joins manifests; it does not take ${bad.map((b) => `--${b}`).join(', ')}`,
+        `--merge only joins manifests; it does not take ${bad.map((b) => `--${b}`).join(', ')}`,
       );
     return {
       mode: 'merge',
@@ -142,16 +142,13 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
   if (positionals.length !== 1)
     throw new UsageError(
       positionals.length
-        ? `batch: give one input folder, not ${positionals.length} (${positionals.join(' ')}). See \`rankfold batch --help\`.`
-        : 'batch: give an input folder: rankfold batch IN_DIR -o OUT_DIR. See `rankfold batch --help`.',
+        ? `give one input folder, not ${positionals.length} (${positionals.join(' ')}). See \`rankfold batch --help\`.`
+        : 'give an input folder: rankfold batch IN_DIR -o OUT_DIR. See `rankfold batch --help`.',
     );
   const outDir = str(values.output);
-  if (!outDir)
-    throw new UsageError('batch: give an output folder with -o OUT_DIR (outside the input folder)');
+  if (!outDir) throw new UsageError('give an output folder with -o OUT_DIR (outside the input folder)');
   if (values.resume && values.force)
-    throw new UsageError(
-      'batch: --resume keeps matching outputs and --force rewrites them all; give one of them',
-    );
+    throw new UsageError('--resume keeps matching outputs and --force rewrites them all; give one of them');
   const budget = parseBudgetOptions(values);
   const compress: CompressOptions = {
     budget,
@@ -169,10 +166,10 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
       : DEFAULT_TIMEOUT_MS;
   const report = str(values.report);
   if (report !== undefined && !/\.html?$/i.test(report))
-    throw new UsageError(`batch: --report takes an .html file name, not ${JSON.stringify(report)}`);
+    throw new UsageError(`--report takes an .html file name, not ${JSON.stringify(report)}`);
   const manifest = str(values.manifest);
   if (manifest !== undefined && !/\.jsonl$/i.test(manifest))
-    throw new UsageError(`batch: --manifest takes a .jsonl file name, not ${JSON.stringify(manifest)}`);
+    throw new UsageError(`--manifest takes a .jsonl file name, not ${JSON.stringify(manifest)}`);
   return {
     mode: 'run',
     inDir: positionals[0],

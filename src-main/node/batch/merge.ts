@@ -82,7 +82,7 @@ export async function mergeManifests(
     } catch (err) {
       const code = (err as NodeJS.ErrnoException).code;
       throw new UsageError(
-        `batch --merge: manifest ${m} cannot be read (${code === 'ENOENT' ? 'no such file' : (code ?? (err as Error).message)})`,
+        `--merge: manifest ${m} cannot be read (${code === 'ENOENT' ? 'no such file' : (code ?? (err as Error).message)})`,
       );
     }
   }
@@ -92,7 +92,7 @@ export async function mergeManifests(
   const manifestPath = options.manifest ?? join(outDir, `${MANIFEST_NAME}.jsonl`);
   if (manifests.some((m) => resolve(m) === resolve(manifestPath)))
     throw new UsageError(
-      `batch --merge: the merged manifest ${manifestPath} would replace one of its inputs; pass --manifest or -o`,
+      `--merge: the merged manifest ${manifestPath} would replace one of its inputs; pass --manifest or -o`,
     );
   const csvPath = manifestPath.replace(/\.jsonl?$/i, '') + '.csv';
   const reportPath = options.report ?? manifestPath.replace(/\.jsonl?$/i, '') + '.html';
