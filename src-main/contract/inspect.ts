@@ -37,8 +37,8 @@ export interface RankError {
   frobenius: number;
   /** Root-mean-square error per pixel, frobenius/sqrt(width·height). */
   rms: number;
-  /** PSNR of the unrounded best rank-k approximation, 10·log10(MAX²·N/‖A−A_k‖_F²). */
-  psnrDb: number;
+  /** PSNR of the unrounded best rank-k approximation, 10·log10(MAX²·N/‖A−A_k‖_F²); null when the error is 0 (infinite PSNR; JSON has no Infinity). */
+  psnrDb: number | null;
 }
 
 /** The spectrum of one plane. */
@@ -84,7 +84,10 @@ export interface InspectReport {
   plane: 'gray' | 'luma';
   /** Singular values of the gray or luma plane, in grey levels of the input. Same as spectra[0].singularValues. */
   singularValues: number[];
-  /** The gray or luma plane first, then red, green and blue for colour scans. Alpha is not analysed. */
+  /**
+   * The gray or luma plane first, then red, green and blue for colour scans. Alpha is not analysed.
+   * Colour channels get every value up to 1024 pixels on the short side, else their top 128.
+   */
   spectra: PlaneSpectrum[];
   timings: { decodeMs: number; spectrumMs: number };
 }

@@ -78,7 +78,9 @@ describe('rankfold inspect --json on the open test images', () => {
         const want = ref.rank_k.find((x) => x.k === e.k);
         if (!want) continue;
         expect(Math.abs(e.frobenius - want.frobenius_error) / want.frobenius_error).toBeLessThan(1e-7);
-        expect(Math.abs(e.psnrDb - want.psnr_eckart_young_db)).toBeLessThan(1e-5);
+        expect(Math.abs((e.psnrDb ?? Number.POSITIVE_INFINITY) - want.psnr_eckart_young_db)).toBeLessThan(
+          1e-5,
+        );
       }
       for (const er of r.spectra[0].energyRanks) {
         // Independent check from the reference σ₁…σ₂₀ and Σx², where the rank is ≤ 20.
@@ -150,6 +152,33 @@ describe('rankfold inspect on colour, pages and text output', () => {
     expect(p0.singularValues[0]).toBeCloseTo(10 * Math.sqrt(w * h), 9);
     expect(p0.singularValues[1]).toBeLessThan(1e-9);
     expect(p1.singularValues[1]).toBeGreaterThan(1);
+  });
+
+  it('rank-1 and all-zero planes: the rank-1 error is ~0; exactly 0 gives PSNR null in JSON and ∞ in text', async () => {
+    const w = 20;
+    const h = 12;
+    const write = async (name: string, v: number) => {
+      const file = join(dir, name);
+      const plane = new Float32Array(w * h).fill(v);
+      await writeFile(
+        file,
+        await encodeImageBuffer(
+          { width: w, height: h, channels: 1, bitDepth: 8, planes: [plane] },
+          { format: 'png' },
+        ),
+      );
+      return file;
+    };
+    const flat = await inspectJson(await write('flat.png', 77));
+    expect(flat.singularValues[0]).toBeCloseTo(77 * Math.sqrt(w * h), 9); // rank 1: σ₁ = 77·sqrt(wh), the rest ≈ 0
+    expect(flat.spectra[0].errors[0].frobenius).toBeLessThan(1e-12 * flat.singularValues[0]);
+    const blackFile = await write('black.png', 0);
+    const black = await inspectJson(blackFile);
+    const e1 = black.spectra[0].errors[0];
+    expect([e1.k, e1.frobenius, e1.psnrDb]).toEqual([1, 0, null]);
+    expect(black.spectra[0].energyRanks.map((x) => x.rank)).toEqual([0, 0, 0]);
+    const text = await rankfold('inspect', blackFile);
+    expect(text.stdout).toMatch(/\n\s+1\s+0\s+0\s+0\s+∞ \(exact\)/);
   });
 
   it('text output lists size, spectrum, energy ranks and the Eckart–Young table', async () => {

@@ -171,12 +171,13 @@ export function planeSpectrum(
   const n = width * height;
   const errors = INSPECT_RANKS.filter((k) => k < s.length).map((k) => {
     const frobenius = frobeniusOptimal(s, k, total);
+    const db = psnrFromFrobenius(frobenius, n, maxValue);
     return {
       k,
       spectral: spectralBound(s, k),
       frobenius,
       rms: frobenius / Math.sqrt(n),
-      psnrDb: psnrFromFrobenius(frobenius, n, maxValue),
+      psnrDb: Number.isFinite(db) ? db : null,
     };
   });
   return { plane: name, singularValues: Array.from(s), complete, method, energy, energyRanks, errors };

@@ -119,12 +119,14 @@ export function formatInspectReport(r: InspectReport, full = false): string {
     num(e.spectral),
     num(e.frobenius),
     num(e.rms, 4),
-    e.psnrDb.toFixed(2),
+    e.psnrDb === null ? '∞ (exact)' : e.psnrDb.toFixed(2),
   ]);
   const widths = head.map((h, c) => Math.max(h.length, ...rows.map((row) => row[c].length)));
   const fmt = (cells: string[]) => `  ${cells.map((c, i) => c.padStart(widths[i])).join('   ')}`;
-  out.push(fmt(head));
-  for (const row of rows) out.push(fmt(row));
+  if (rows.length) {
+    out.push(fmt(head));
+    for (const row of rows) out.push(fmt(row));
+  } else out.push(`  (the plane has rank ≤ ${main.singularValues.length}: no smaller rank to compare)`);
   if (r.spectra.length > 1) {
     out.push('');
     out.push('Per channel:');
@@ -135,7 +137,7 @@ export function formatInspectReport(r: InspectReport, full = false): string {
         sp.plane,
         num(sp.singularValues[0] ?? 0),
         ...sp.energyRanks.map((e) => (e.rank === null ? `> ${sp.singularValues.length}` : String(e.rank))),
-        at50 ? `${at50.psnrDb.toFixed(2)} dB` : '–',
+        at50 ? (at50.psnrDb === null ? '∞' : `${at50.psnrDb.toFixed(2)} dB`) : '–',
         sp.complete ? 'all' : `top ${sp.singularValues.length}`,
       ];
     });
