@@ -12,9 +12,10 @@
  *   window lies fully inside the image (rows 5…H−6, columns 5…W−6). See
  *   test/fixtures/reference/image_metrics.json, "ssim_algorithm_for_reimplementation".
  *
- * Speed: the 2-D window is separable (w = g⊗g), so each of the five local sums (x, y, x², y², xy) is a
- * horizontal 11-tap pass followed by a vertical 11-tap pass over a ring of 11 filtered rows: O(N) time,
- * O(11·W) memory. Accumulation is in float64.
+ * Speed: the 2-D window is separable (w = g⊗g) and symmetric, so each of the five local sums
+ * (x, y, x², y², xy) is a horizontal 11-tap pass followed by a vertical 11-tap pass over a ring of 11
+ * filtered rows, adding mirrored samples before multiplying: O(N) time, O(11·W) memory. All
+ * accumulation is in float64.
  */
 import { invalidParameterError } from '../../contract';
 
@@ -85,33 +86,49 @@ export function ssim(
   const g = gaussianTaps(sigma, radius);
   const C1 = k1 * dataRange * (k1 * dataRange);
   const C2 = k2 * dataRange * (k2 * dataRange);
-  const wv = width - 2 * radius;
-  const hv = height - 2 * radius;
-  // Ring of `side` horizontally filtered rows, five quantities each.
-  const ring = new Float64Array(side * 5 * wv);
+  const R = radius;
+  const wv = width - 2 * R;
+  const hv = height - 2 * R;
+  // Ring of `side` horizontally filtered rows, five quantities each (x, y, x², y², xy).
   const stride = 5 * wv;
+  const ring = new Float64Array(side * stride);
+  // One input row and its products, in float64.
+  const rx = new Float64Array(width);
+  const ry = new Float64Array(width);
+  const rxx = new Float64Array(width);
+  const ryy = new Float64Array(width);
+  const rxy = new Float64Array(width);
+  const gc = g[R];
 
+  // The window is symmetric (g[t] = g[2R−t]), so each pass adds mirrored samples before multiplying.
   const filterRow = (y: number) => {
-    const off = (y % side) * stride;
     const row = y * width;
+    for (let i = 0; i < width; i++) {
+      const p = a[row + i];
+      const q = b[row + i];
+      rx[i] = p;
+      ry[i] = q;
+      rxx[i] = p * p;
+      ryy[i] = q * q;
+      rxy[i] = p * q;
+    }
+    const off = (y % side) * stride;
     for (let j = 0; j < wv; j++) {
-      let sx = 0;
-      let sy = 0;
-      let sxx = 0;
-      let syy = 0;
-      let sxy = 0;
-      const base = row + j;
-      for (let t = 0; t < side; t++) {
+      const c = j + R;
+      let sx = gc * rx[c];
+      let sy = gc * ry[c];
+      let sxx = gc * rxx[c];
+      let syy = gc * ryy[c];
+      let sxy = gc * rxy[c];
+      for (let t = 0; t < R; t++) {
         const w = g[t];
-        const x = a[base + t];
-        const v = b[base + t];
-        const wx = w * x;
-        const wy = w * v;
-        sx += wx;
-        sy += wy;
-        sxx += wx * x;
-        syy += wy * v;
-        sxy += wx * v;
+        const lo = j + t;
+        const hi = j + 2 * R - t;
+        sx += w * (rx[lo] + rx[hi]);
+        sy += w * (ry[lo] + ry[hi]);
+        sxx += w * (rxx[lo] + rxx[hi]);
+        syy += w * (ryy[lo] + ryy[hi]);
+        sxy += w * (rxy[lo] + rxy[hi]);
       }
       ring[off + j] = sx;
       ring[off + wv + j] = sy;
@@ -121,39 +138,33 @@ export function ssim(
     }
   };
 
-  const mx = new Float64Array(wv);
-  const my = new Float64Array(wv);
-  const mxx = new Float64Array(wv);
-  const myy = new Float64Array(wv);
-  const mxy = new Float64Array(wv);
   let total = 0;
   for (let y = 0; y < height; y++) {
     filterRow(y);
     if (y < side - 1) continue;
-    // Window rows y−2r … y, centre row y−r.
-    mx.fill(0);
-    my.fill(0);
-    mxx.fill(0);
-    myy.fill(0);
-    mxy.fill(0);
-    for (let t = 0; t < side; t++) {
-      const w = g[t];
-      const off = ((y - side + 1 + t) % side) * stride;
-      for (let j = 0; j < wv; j++) {
-        mx[j] += w * ring[off + j];
-        my[j] += w * ring[off + wv + j];
-        mxx[j] += w * ring[off + 2 * wv + j];
-        myy[j] += w * ring[off + 3 * wv + j];
-        mxy[j] += w * ring[off + 4 * wv + j];
-      }
-    }
+    // Window rows y−2R … y (centre row y−R): ring slots of row y−2R+t.
+    const base = y - side + 1;
+    const oc = ((base + R) % side) * stride;
     let rowSum = 0;
     for (let j = 0; j < wv; j++) {
-      const ux = mx[j];
-      const uy = my[j];
-      const vx = mxx[j] - ux * ux;
-      const vy = myy[j] - uy * uy;
-      const vxy = mxy[j] - ux * uy;
+      let ux = gc * ring[oc + j];
+      let uy = gc * ring[oc + wv + j];
+      let uxx = gc * ring[oc + 2 * wv + j];
+      let uyy = gc * ring[oc + 3 * wv + j];
+      let uxy = gc * ring[oc + 4 * wv + j];
+      for (let t = 0; t < R; t++) {
+        const w = g[t];
+        const lo = ((base + t) % side) * stride + j;
+        const hi = ((base + 2 * R - t) % side) * stride + j;
+        ux += w * (ring[lo] + ring[hi]);
+        uy += w * (ring[lo + wv] + ring[hi + wv]);
+        uxx += w * (ring[lo + 2 * wv] + ring[hi + 2 * wv]);
+        uyy += w * (ring[lo + 3 * wv] + ring[hi + 3 * wv]);
+        uxy += w * (ring[lo + 4 * wv] + ring[hi + 4 * wv]);
+      }
+      const vx = uxx - ux * ux;
+      const vy = uyy - uy * uy;
+      const vxy = uxy - ux * uy;
       rowSum += ((2 * ux * uy + C1) * (2 * vxy + C2)) / ((ux * ux + uy * uy + C1) * (vx + vy + C2));
     }
     total += rowSum;
