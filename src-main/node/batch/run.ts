@@ -350,39 +350,39 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
   if (o.signal?.aborted) onAbort();
   o.signal?.addEventListener('abort', onAbort, { once: true });
   try {
-    await Promise.all(
-      // Largest files first (longest-processing-time order), so no worker idles at the end on one big scan.
-      // Outputs do not depend on the order; the manifest is sorted by path at the end.
-      dispatchOrder(todo).map(async (f) => {
-        const outcome = await pool.run(
-          {
-            input: f.inputAbs,
-            output: f.outputAbs,
-            options: o.compress,
-            overwrite: Boolean(o.force) || overwrite.has(f.path),
-            verifyExisting: !o.force && verify.has(f.path),
-            expandCheck: Boolean(o.expandCheck),
-          },
-          { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: f.path },
-        );
-        if (!outcome.ok && outcome.error.name === 'CancelledError') {
-          // Stopped by an interrupt: no row (it was not finished), and no temp file left behind.
-          await sweepTemps([f.outputAbs]);
-          return;
-        }
-        bytesDone += f.size;
-        let row: BatchRow;
-        if (outcome.ok) row = rowFromResult(f, shardLabel, outcome.value, settings);
-        else {
-          // A stopped worker may have left its temp file behind.
-          await sweepTemps([f.outputAbs]);
-          row = failedRow(f, shardLabel, outcome.error);
-        }
-        rows.push(row);
-        if (journalOk) await journal.append(row);
-        emit(row);
-      }),
-    );
+    // Largest files first (longest-processing-time order), so no worker idles at the end on one big scan.
+    // Outputs do not depend on the order; the manifest is sorted by path at the end. Only `pool.size` files
+    // are in flight at once, so the pool queue stays short however many files a shard holds.
+    await eachLimit(dispatchOrder(todo), pool.size, async (f) => {
+      if (interrupted) return;
+      const outcome = await pool.run(
+        {
+          input: f.inputAbs,
+          output: f.outputAbs,
+          options: o.compress,
+          overwrite: Boolean(o.force) || overwrite.has(f.path),
+          verifyExisting: !o.force && verify.has(f.path),
+          expandCheck: Boolean(o.expandCheck),
+        },
+        { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: f.path },
+      );
+      if (!outcome.ok && outcome.error.name === 'CancelledError') {
+        // Stopped by an interrupt: no row (it was not finished), and no temp file left behind.
+        await sweepTemps([f.outputAbs]);
+        return;
+      }
+      bytesDone += f.size;
+      let row: BatchRow;
+      if (outcome.ok) row = rowFromResult(f, shardLabel, outcome.value, settings);
+      else {
+        // A stopped worker may have left its temp file behind.
+        await sweepTemps([f.outputAbs]);
+        row = failedRow(f, shardLabel, outcome.error);
+      }
+      rows.push(row);
+      if (journalOk) await journal.append(row);
+      emit(row);
+    });
   } finally {
     o.signal?.removeEventListener('abort', onAbort);
     await pool.close();
