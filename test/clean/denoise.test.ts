@@ -165,3 +165,19 @@ describe('patch-group denoiser', () => {
     expect(after - before).toBeGreaterThan(3);
   });
 });
+
+describe('gray scans stored as RGB', () => {
+  it('noise on equal R = G = B leaves chroma noiseless: only luma is denoised, chroma passes through', async () => {
+    const truth = await fixtureGray('moon.png', crop);
+    const noisy = damage(truth, { sigma: 10, seed: 7 });
+    const planes = [noisy, Float32Array.from(noisy), Float32Array.from(noisy)];
+    const prep = prepareClean(
+      { width: truth.width, height: truth.height, channels: 3, bitDepth: 8, planes },
+      { noise: 'auto', banding: 'off' },
+    );
+    expect(prep.active).toEqual([0]);
+    const out = denoiseInProcess(prep).planes;
+    expect(out[1]).toBe(prep.work[1]);
+    expect(psnr(rounded(out[0]), truth.data)).toBeGreaterThan(psnr(noisy, truth.data) + 6);
+  });
+});

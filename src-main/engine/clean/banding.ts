@@ -89,10 +89,6 @@ export function estimateStripeProfile(
   // For column stripes the "lines" are rows (we look along x); for row stripes they are columns.
   const lineLen = axis === 'columns' ? width : height;
   const lineCount = axis === 'columns' ? height : width;
-  const at =
-    axis === 'columns'
-      ? (line: number, pos: number) => plane[line * width + pos]
-      : (line: number, pos: number) => plane[pos * width + line];
   const nLines = Math.min(lineCount, MAX_SAMPLE_LINES);
   const w = Math.max(2, Math.min(options.halfWindow ?? DEFAULT_HALF_WINDOW, Math.floor(lineLen / 4)));
   // Residuals stored position-major (resid[x·nLines + k]) so each position's values are contiguous.

@@ -51,6 +51,11 @@ export interface PreparedClean {
   work: Float32Array[];
   workNames: string[];
   sigmas: number[];
+  /**
+   * Indices of the work planes that are denoised. A plane whose estimated σ is below rounding level (the
+   * chroma of a gray scan stored as RGB, for example) is passed through; the guide plane 0 is always in.
+   */
+  active: number[];
   noiseSigma: number | null;
   noiseSource: 'estimated' | 'given' | 'off';
   noiseSkipped?: string;
@@ -115,6 +120,7 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
       work: [],
       workNames: [],
       sigmas: [],
+      active: [],
       noiseSigma: null,
       noiseSource: 'off',
       method: 'off',
@@ -142,6 +148,11 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
       : sigmas[0];
   }
   const noiseSource = typeof settings.noise === 'number' ? 'given' : 'estimated';
+  const active = sigmas
+    .map((sg, c) =>
+      c === 0 || noiseSource === 'given' || (sg * 255) / maxValue >= MIN_AUTO_SIGMA_8BIT ? c : -1,
+    )
+    .filter((c) => c >= 0);
   // Sizes follow the noise of the plane used for matching (gray or luma).
   const sigma8 = (sigmas[0] * 255) / maxValue;
   const method = settings.method ?? 'groups';
@@ -152,6 +163,7 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
       work: [],
       workNames: [],
       sigmas: [],
+      active: [],
       noiseSigma,
       noiseSource,
       noiseSkipped: `estimated noise σ ${noiseSigma.toFixed(2)} is below ${((MIN_AUTO_SIGMA_8BIT * maxValue) / 255).toFixed(2)} grey levels (rounding level); nothing to remove`,
@@ -161,7 +173,7 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     };
   if (method === 'tiles') {
     const tile = settings.tile ?? autoTileSize(sigma8);
-    return { ...base, work, workNames, sigmas, noiseSigma, noiseSource, method, params: null, tile };
+    return { ...base, work, workNames, sigmas, active, noiseSigma, noiseSource, method, params: null, tile };
   }
   const auto = autoGroupParams(sigma8);
   const patch = settings.patch ?? auto.patch;
@@ -174,7 +186,7 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     rank: settings.rank,
     threshold: settings.threshold,
   };
-  return { ...base, work, workNames, sigmas, noiseSigma, noiseSource, method, params, tile: null };
+  return { ...base, work, workNames, sigmas, active, noiseSigma, noiseSource, method, params, tile: null };
 }
 
 function bandingReport(
@@ -259,12 +271,17 @@ export function denoiseInProcess(
   onProgress?: (fraction: number) => void,
 ): { planes: Float32Array[]; stats: DenoiseStats } {
   const { width, height } = prep;
+  const planes = prep.active.map((c) => prep.work[c]);
+  const sigmas = prep.active.map((c) => prep.sigmas[c]);
   if (prep.method === 'tiles') {
-    const parts = prep.work.map((p, c) =>
-      denoiseTiles(p, width, height, prep.sigmas[c], prep.tile ?? 16, prep.fixed),
+    const parts = planes.map((p, k) =>
+      denoiseTiles(p, width, height, sigmas[k], prep.tile ?? 16, prep.fixed),
     );
     return {
-      planes: parts.map((r) => r.plane),
+      planes: withPassThrough(
+        prep,
+        parts.map((r) => r.plane),
+      ),
       stats: mergeStats(
         parts.map((r) => ({
           groups: r.stats.tiles,
@@ -277,17 +294,25 @@ export function denoiseInProcess(
     };
   }
   const params = prep.params as GroupParams;
-  const out = prep.work.map(() => new Float32Array(width * height));
+  const out = planes.map(() => new Float32Array(width * height));
   const stats: GroupStats[] = [];
   const list = rowBands(height, bands);
   list.forEach(([r0, r1], b) => {
-    const res = denoiseGroupsBand(prep.work, width, height, prep.sigmas, params, r0, r1, prep.work[0], (f) =>
+    const res = denoiseGroupsBand(planes, width, height, sigmas, params, r0, r1, planes[0], (f) =>
       onProgress?.((b + f) / list.length),
     );
     for (let c = 0; c < res.planes.length; c++) out[c].set(res.planes[c], r0 * width);
     stats.push(res.stats);
   });
-  return { planes: out, stats: mergeStats(stats) };
+  return { planes: withPassThrough(prep, out), stats: mergeStats(stats) };
+}
+
+/** All work planes: the denoised ones (in `prep.active` order) and the passed-through others. */
+export function withPassThrough(prep: PreparedClean, denoised: Float32Array[]): Float32Array[] {
+  return prep.work.map((p, c) => {
+    const k = prep.active.indexOf(c);
+    return k >= 0 ? denoised[k] : p;
+  });
 }
 
 export interface FinishedClean {
@@ -342,11 +367,13 @@ export function finishClean(
       : psnrPlanes(planes.slice(0, colourCount), input.planes.slice(0, colourCount), maxValue);
   const params = prep.params;
   const noisePlanes: NoisePlaneReport[] = prep.work.length
-    ? prep.workNames.map((name, c) => ({
-        plane: name,
-        sigma: prep.sigmas[c],
-        threshold: typicalThreshold(prep, c),
-      }))
+    ? prep.active
+        .map((c) => ({ name: prep.workNames[c], c }))
+        .map(({ name, c }) => ({
+          plane: name,
+          sigma: prep.sigmas[c],
+          threshold: typicalThreshold(prep, c),
+        }))
     : [];
   const fixedRank = prep.fixed.rank !== undefined;
   return {

@@ -32,6 +32,7 @@ import {
   type PreparedClean,
   prepareClean,
   rowBands,
+  withPassThrough,
 } from '../../engine/clean';
 import { decodeImage } from '../image/decode';
 import { encodeImage } from '../image/encode';
@@ -106,12 +107,13 @@ async function denoise(
   }
   const { width, height } = prep;
   const n = width * height;
-  const input = prep.work.map((p) => {
+  const planes = prep.active.map((c) => prep.work[c]);
+  const input = planes.map((p) => {
     const b = new SharedArrayBuffer(n * 4);
     new Float32Array(b).set(p);
     return b;
   });
-  const output = prep.work.map(() => new SharedArrayBuffer(n * 4));
+  const output = planes.map(() => new SharedArrayBuffer(n * 4));
   const file = cleanWorkerFile();
   const bands = rowBands(height, workers);
   const fractions = bands.map(() => 0);
@@ -130,7 +132,7 @@ async function denoise(
               height,
               input,
               output,
-              sigmas: prep.sigmas,
+              sigmas: prep.active.map((c) => prep.sigmas[c]),
               params: prep.params!,
               rowStart,
               rowEnd,
@@ -174,7 +176,13 @@ async function denoise(
           }),
       ),
     );
-    return { planes: output.map((b) => new Float32Array(b)), stats: mergeStats(stats) };
+    return {
+      planes: withPassThrough(
+        prep,
+        output.map((b) => new Float32Array(b)),
+      ),
+      stats: mergeStats(stats),
+    };
   } catch (err) {
     stop();
     throw err;
@@ -214,7 +222,7 @@ function buildReport(
         ? {
             fixed,
             groups: stats.groups,
-            mean: stats.rankSum / (stats.groups * prep.work.length),
+            mean: stats.rankSum / (stats.groups * Math.max(1, prep.active.length)),
             min: stats.rankMin,
             max: stats.rankMax,
           }
