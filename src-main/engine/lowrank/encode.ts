@@ -106,12 +106,16 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
   const alpha = hasAlpha ? encodeLosslessPlane(img.planes[img.channels - 1], width, height) : undefined;
   const meanStep = max / 1020;
   const byteBudget = budgetBytes(opts.budget, img);
+  const probed =
+    opts.tile === 'auto' && opts.budget.kind !== 'rank' ? probeTile(img, opts, byteBudget) : undefined;
   const tiles: number[] =
-    opts.tile === 'auto'
-      ? opts.budget.kind === 'rank'
-        ? [0]
-        : AUTO_TILES.filter((t) => t < Math.max(width, height) || t === AUTO_TILES[0])
-      : [opts.tile];
+    probed !== undefined
+      ? [probed]
+      : opts.tile === 'auto'
+        ? opts.budget.kind === 'rank'
+          ? [0]
+          : AUTO_TILES.filter((t) => t < Math.max(width, height) || t === AUTO_TILES[0])
+        : [opts.tile];
   for (const t of tiles)
     if (t !== 0 && Math.min(width, height) < 8)
       throw new UsageError(
@@ -248,6 +252,42 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
     encodeMs,
     lossless,
   };
+}
+
+/** Above this many pixels, `--tile auto` chooses the tile size on a centred crop of about this size. */
+export const AUTO_PROBE_PIXELS = 1 << 20;
+
+/** For large scans: pick the auto tile size on a centred crop at the same bits per pixel or floor. */
+function probeTile(
+  img: DecodedImage,
+  opts: EncodeOptions,
+  byteBudget: number | undefined,
+): number | undefined {
+  const { width, height } = img;
+  if (width * height <= AUTO_PROBE_PIXELS * 1.5) return undefined;
+  const side = Math.sqrt(AUTO_PROBE_PIXELS);
+  const cw = Math.min(width, Math.round(side * Math.sqrt(width / height)));
+  const ch = Math.min(height, Math.round(AUTO_PROBE_PIXELS / cw));
+  const x0 = Math.floor((width - cw) / 2);
+  const y0 = Math.floor((height - ch) / 2);
+  const planes = img.planes.map((p) => {
+    const out = new Float32Array(cw * ch);
+    for (let y = 0; y < ch; y++)
+      out.set(p.subarray((y0 + y) * width + x0, (y0 + y) * width + x0 + cw), y * cw);
+    return out;
+  });
+  const crop: DecodedImage = {
+    ...img,
+    width: cw,
+    height: ch,
+    planes,
+    rawBytes: (img.rawBytes * cw * ch) / (width * height),
+    meta: { ...img.meta, icc: undefined },
+  };
+  const budget: Budget =
+    byteBudget !== undefined ? { kind: 'bpp', bpp: (8 * byteBudget) / (width * height) } : opts.budget;
+  const r = encodeScan(crop, { ...opts, budget, onProgress: undefined });
+  return r.ranks[0]?.tile;
 }
 
 /** Components a whole-plane SVD needs for a budget (generous: ~1 bit per stored entry). */

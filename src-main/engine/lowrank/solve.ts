@@ -6,7 +6,7 @@
  * greedy allocation of ./allocate. Byte budgets are then met on the real encoded size by a secant and
  * bisection search over the greedy prefix, calling back into the container writer.
  */
-import { componentScale, DEAD_ZONE, quantiseVector } from '../codec/quantise';
+import { componentError, componentScale, DEAD_ZONE, quantiseVector } from '../codec/quantise';
 import type { QuantPlane, QuantTile } from '../codec/quantised';
 import { type Block, greedyOrder } from './allocate';
 import type { PlaneFactors } from './factorise';
@@ -85,6 +85,11 @@ function vectorBits(q: Int32Array, table: Float64Array[]): number {
 export interface CandidateOptions {
   /** Cap on each tile's rank (rank budgets). */
   maxRank?: number;
+  /**
+   * false: quantise u and v independently and estimate each component's error from the SVD (O(h + w) per
+   * component; used to scan steps). true (default): quantise-and-refit against the residual (O(h·w)).
+   */
+  refit?: boolean;
 }
 
 /** Quantise every useful component at step Δ and order them greedily. */
@@ -106,7 +111,7 @@ export function buildCandidate(inputs: PlaneInput[], delta: number, opts: Candid
       const e: number[] = [];
       const { h, w } = tf.rect;
       // Residual of the tile after the components taken so far (quantised), for the refit.
-      const R = Float64Array.from(tf.data);
+      const R = opts.refit === false ? new Float64Array(0) : Float64Array.from(tf.data);
       let rn = 0;
       for (let k = 0; k < R.length; k++) rn += R[k] * R[k];
       const wv = new Float64Array(w);
@@ -119,7 +124,12 @@ export function buildCandidate(inputs: PlaneInput[], delta: number, opts: Candid
         let nu2 = 0;
         for (let k = 0; k < h; k++) nu2 += qu[k] * qu[k];
         let gain = 0;
-        if (nu2 > 0) {
+        if (opts.refit === false) {
+          quantiseVector(column(tf.V.data, tf.V.cols, i, w), sigma, step, qv);
+          gain =
+            sigma * sigma -
+            componentError(qu, qv, tf.U.data, tf.U.cols, i, tf.V.data, tf.V.cols, i, sigma, step);
+        } else if (nu2 > 0) {
           // Quantise-and-refit: given û = Δ·q_u, the best right factor is w = Rᵀû/‖û‖² (least squares);
           // store b = w·‖w‖·‖û‖ so the decoder's ŝ = sqrt(‖û‖‖b̂‖) rebuilds û·wᵀ. Later components
           // see the residual, so they also absorb earlier quantisation errors.
@@ -282,15 +292,19 @@ export function solveBytes(
 ): Plan {
   const grid = stepGrid(maxValue);
   // Overhead: header, means, alpha and the rank codes of an all-zero-rank file.
-  const empty = buildCandidate(inputs, grid[grid.length - 1]);
+  const empty = buildCandidate(inputs, grid[grid.length - 1], { refit: false });
   const overhead = measure(quantPlanes(inputs, empty, prefixRanks(empty, 0)));
   if (overhead > budget) throw new RangeError(`minimum size ${overhead}`);
   const payload = budget - overhead;
   // Pass 1: coarse scan of steps on the estimate alone.
+  // Steps are compared on a deterministic sample of at most SCAN_TILES tiles (every s-th tile of each
+  // plane), with the payload scaled by the sampled share of pixels: the comparison, not the absolute
+  // figure, matters here, and the final plan is refined on every tile with real encodes.
+  const sample = sampleTiles(inputs);
   const scan = (ks: number[], ratio: number) =>
     ks.map((k) => {
-      const c = buildCandidate(inputs, grid[k]);
-      return { k, c, err: estimatedError(c, prefixForBytes(c, payload, ratio)) };
+      const c = buildCandidate(sample.inputs, grid[k], { refit: false });
+      return { k, c, err: estimatedError(c, prefixForBytes(c, payload * sample.fraction, ratio)) };
     });
   // The estimated error at the budget is unimodal in the step in practice (too fine: few components
   // fit; too coarse: each is crude), so climb from the middle of the grid by whole octaves.
@@ -334,6 +348,24 @@ export function solveBytes(
     };
   }
   return best;
+}
+
+/** Most tiles the step scan looks at. */
+const SCAN_TILES = 256;
+
+function sampleTiles(inputs: PlaneInput[]): { inputs: PlaneInput[]; fraction: number } {
+  const total = inputs.reduce((s, i) => s + i.factors.tiles.length, 0);
+  const stride = Math.max(1, Math.floor(total / SCAN_TILES));
+  if (stride === 1) return { inputs, fraction: 1 };
+  let all = 0;
+  let kept = 0;
+  const sampled = inputs.map((inp) => {
+    const tiles = inp.factors.tiles.filter((_, t) => t % stride === Math.floor(stride / 2));
+    for (const t of inp.factors.tiles) all += t.rect.w * t.rect.h;
+    for (const t of tiles) kept += t.rect.w * t.rect.h;
+    return { ...inp, factors: { ...inp.factors, tiles } };
+  });
+  return { inputs: sampled, fraction: kept / all };
 }
 
 /** Minimise f over even indices of [0, n) by walking downhill from the middle; returns [{ k }] best first. */
