@@ -10,7 +10,10 @@ import { mkdirSync, writeFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { cpus, loadavg } from 'node:os';
 import { join } from 'node:path';
+import { initEngine, randomizedSvd, singularValues } from '../src-main/engine/linalg';
 import { psnr, ssim } from '../src-main/engine/metrics';
+import { decodeImage } from '../src-main/node/image/decode';
+import { topSingularValues } from '../src-main/node/services/inspect';
 
 const require = createRequire(import.meta.url);
 const ssimJs = require('ssim.js') as {
@@ -110,6 +113,20 @@ const big = planes(4000, 3000);
 const ssimBig = time(() => ssim(big.a, big.b, 4000, 3000, 255), 2);
 const psnrBig = time(() => psnr(big.a, big.b, 255), 3);
 
+// inspect's spectrum routes on samples/ledger-page.png (1600×2100): the full spectrum (engine singularValues),
+// our values-only top 512 (f64 range finder), and the engine's randomizedSvd at k = 512 (f32, with vectors).
+await initEngine();
+const page = await decodeImage('samples/ledger-page.png');
+const pa = { rows: page.height, cols: page.width, data: page.planes[0] };
+const fullS = time(() => singularValues(pa), 1);
+const topS = time(() => topSingularValues(pa, 512, 32, 2), 1);
+const rsvd = time(() => randomizedSvd(pa, 512, { oversample: 32, powerIters: 2, precision: 'f32' }).s, 1);
+const errTop = (s: ArrayLike<number>, upTo: number) => {
+  let e = 0;
+  for (let i = 0; i < upTo; i++) e = Math.max(e, Math.abs(s[i] - fullS.value[i]) / fullS.value[0]);
+  return e.toExponential(1);
+};
+
 const lines = [
   '## Metrics: SSIM and PSNR',
   '',
@@ -122,6 +139,14 @@ const lines = [
   `| direct 11×11 sum (same formula, non-separable) | ${naive.ms.toFixed(0)} ms | ${(naive.ms / ours.ms).toFixed(1)}× slower | ${naive.value.toFixed(12)} |`,
   '',
   `12-megapixel plane (4000×3000): SSIM ${ssimBig.ms.toFixed(0)} ms (${(12 / (ssimBig.ms / 1000)).toFixed(1)} MP/s), PSNR ${psnrBig.ms.toFixed(0)} ms (${(12 / (psnrBig.ms / 1000)).toFixed(0)} MP/s).`,
+  '',
+  '### inspect: spectrum routes on samples/ledger-page.png (1600×2100)',
+  '',
+  '| route | time | ratio to full spectrum | max abs. error / σ₁, top 100 | top 512 |',
+  '|---|---|---|---|---|',
+  `| full spectrum (engine singularValues, Gram + QL) | ${fullS.ms.toFixed(0)} ms | 1.00 | reference | reference |`,
+  `| top 512, values only, f64 range finder (inspect above 2048 px) | ${topS.ms.toFixed(0)} ms | ${(topS.ms / fullS.ms).toFixed(2)} | ${errTop(topS.value, 100)} | ${errTop(topS.value, 512)} |`,
+  `| engine randomizedSvd k = 512, f32, with vectors | ${rsvd.ms.toFixed(0)} ms | ${(rsvd.ms / fullS.ms).toFixed(2)} | ${errTop(rsvd.value, 100)} | ${errTop(rsvd.value, 512)} |`,
   '',
 ];
 const outDir = process.env.RANKFOLD_BENCH_OUT ?? 'docs/bench';
