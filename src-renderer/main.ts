@@ -29,7 +29,7 @@ const CLEANING_CAUTION =
 const FIRST_PASS_RANK = 40;
 /** Rank of the background factorisation that follows, by scan size (megapixels → rank). */
 function secondPassRank(pixels: number): number {
-  return pixels <= 4e6 ? 300 : pixels <= 16e6 ? 160 : 96;
+  return pixels <= 1e6 ? 300 : pixels <= 4e6 ? 200 : pixels <= 16e6 ? 120 : 80;
 }
 
 const $ = <T extends HTMLElement = HTMLElement>(id: string) => document.getElementById(id) as T;
@@ -242,15 +242,18 @@ function pump() {
   const frame = () => {
     const done = m.step(10);
     view.paint();
+    if (m.applied > 0 && state.firstPaintMs === undefined && state.openedAt) {
+      // The first reconstruction is on screen (the spectrum was drawn before it).
+      state.firstPaintMs = performance.now() - state.openedAt;
+      document.body.dataset.firstPaintMs = state.firstPaintMs.toFixed(1);
+    }
     if (done) {
       animating = false;
       const ms = performance.now() - stepStart;
       document.body.dataset.lastStepMs = ms.toFixed(2);
       document.body.dataset.appliedRank = String(m.applied);
-      if (state.firstPaintMs === undefined && state.openedAt) {
-        state.firstPaintMs = performance.now() - state.openedAt;
-        document.body.dataset.firstPaintMs = state.firstPaintMs.toFixed(1);
-      }
+      if (state.openedAt && document.body.dataset.initialRankMs === undefined)
+        document.body.dataset.initialRankMs = (performance.now() - state.openedAt).toFixed(1);
       return;
     }
     requestAnimationFrame(frame);
@@ -395,14 +398,19 @@ $<HTMLSelectElement>('tile-size').addEventListener('change', (e) => {
 
 // ---- opening scans ------------------------------------------------------------------------------
 
+let openSeq = 0;
 async function open(source: Parameters<typeof api.openScan>[0]['source']) {
+  const seq = ++openSeq;
+  const current = () => seq === openSeq;
   state.openedAt = performance.now();
   state.firstPaintMs = undefined;
   delete document.body.dataset.firstPaintMs;
+  delete document.body.dataset.initialRankMs;
   const job = newJob();
   busy(job, 'Reading the scan…');
   try {
     const scan = await api.openScan({ source });
+    if (!current()) return;
     state.scan = scan;
     state.cleaned = undefined;
     state.preview = undefined;
@@ -414,6 +422,7 @@ async function open(source: Parameters<typeof api.openScan>[0]['source']) {
     const minDim = Math.min(scan.width, scan.height);
     busy(job, 'Factoring…');
     const first = await api.factors({ scanId: scan.scanId, maxRank: Math.min(minDim, FIRST_PASS_RANK), job });
+    if (!current()) return;
     installModel(first, Math.min(20, minDim));
     busy(undefined);
     status(`Opened ${scan.name}. Refining the spectrum in the background…`);
@@ -421,14 +430,15 @@ async function open(source: Parameters<typeof api.openScan>[0]['source']) {
     const k2 = Math.min(minDim, secondPassRank(scan.width * scan.height));
     if (k2 > FIRST_PASS_RANK) {
       const job2 = newJob();
-      const more = await api.factors({ scanId: scan.scanId, maxRank: k2, job: job2 });
-      if (state.scan?.scanId === scan.scanId) {
+      const more = await api.factors({ scanId: scan.scanId, maxRank: k2, job: job2, background: true });
+      if (current()) {
         installModel(more, Number(rankInput.value));
         status(`Spectrum to rank ${k2} ready.`);
       }
     } else status(`Opened ${scan.name}.`);
     void refreshRecent();
   } catch (err) {
+    if (!current()) return;
     busy(undefined);
     fail(err);
   }

@@ -50,6 +50,8 @@ export interface FactorRequest {
   maxRank: number;
   /** Client-chosen job id, for progress events and cancel. */
   job: string;
+  /** Run on the scan's background lane (a refinement), so encodes are not held up behind it. */
+  background?: boolean;
 }
 
 export interface EvaluateRequest {
@@ -356,11 +358,12 @@ export const validators: { [M in ApiMethod]: (v: unknown) => unknown } = {
     };
   },
   factors: (v): FactorRequest => {
-    const o = obj('factors', v, ['scanId', 'maxRank', 'job']);
+    const o = obj('factors', v, ['scanId', 'maxRank', 'job', 'background']);
     return {
       scanId: checkId('scanId', o.scanId),
       maxRank: checkInteger('maxRank', o.maxRank, 1, MAX_RANK),
       job: checkId('job', o.job),
+      background: o.background === undefined ? undefined : checkBool('background', o.background),
     };
   },
   evaluate: (v): EvaluateRequest => {

@@ -19,7 +19,9 @@ import { image, reference } from '../helpers/fixtures';
 import { cliJson, launch, readouts, type Served, serve, shot } from './harness';
 
 // Functions passed to page.waitForFunction run in the page; the Node type-check has no DOM lib.
-declare const document: { getElementById(id: string): { dataset: Record<string, string | undefined> } | null };
+declare const document: {
+  getElementById(id: string): { dataset: Record<string, string | undefined> } | null;
+};
 
 const samples = mkdtempSync(join(tmpdir(), 'rankfold-e2e-samples-'));
 copyFileSync(image('camera.png'), join(samples, 'camera.png'));
@@ -81,6 +83,14 @@ describe('browser mode, end to end', () => {
 
   it('moving the slider changes the readouts, which equal `compress --json` at that rank', async () => {
     const at20 = await readouts(page);
+    // The first factorisation stops at rank 40; the slider reaches further once the refinement lands.
+    await page.waitForFunction(
+      () => Number((document.getElementById('rank') as unknown as { max: string }).max) >= 50,
+      undefined,
+      {
+        timeout: 60_000,
+      },
+    );
     await page.getByRole('slider', { name: 'Rank' }).fill('50');
     // Instant estimate first (from the spectrum), then the encoder's own figures.
     await waitExact(50);

@@ -127,7 +127,7 @@ describe('IPC admission: sender, then the contract validator', () => {
   it('refuses unexpected fields', () => {
     expect(admitCall('factors', page, { scanId: 'a', maxRank: 10, job: 'j', path: '/etc' })).toEqual({
       ok: false,
-      reason: 'Unexpected field "path" in factors; allowed: scanId, maxRank, job',
+      reason: 'Unexpected field "path" in factors; allowed: scanId, maxRank, job, background',
     });
   });
   it('uploads need a plain name and bytes', () => {

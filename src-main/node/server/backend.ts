@@ -54,7 +54,12 @@ export interface BackendOptions {
 const newId = () => randomBytes(9).toString('base64url');
 
 export class Backend extends EventEmitter {
-  private readonly scans = new Map<string, { file: string; summary: ScanSummary; session: SessionWorker }>();
+  /** Per scan: one worker for encode/clean/save and one for factorisations, so a long background
+   *  factorisation never delays the exact figures of a slider release. */
+  private readonly scans = new Map<
+    string,
+    { file: string; summary: ScanSummary; session: SessionWorker; factorLane: SessionWorker }
+  >();
   private readonly chosenFiles = new Set<string>();
   private readonly chosenFolders = new Set<string>();
   private readonly saveTargets = new Set<string>();
@@ -222,9 +227,13 @@ export class Backend extends EventEmitter {
       // One scan at a time per page keeps memory bounded on 24 GiB machines with huge scans.
       for (const [id, s] of this.scans) {
         void s.session.close();
+        void s.factorLane.close();
         this.scans.delete(id);
       }
-      this.scans.set(scanId, { file, summary, session });
+      const factorLane = new SessionWorker(this.options.workersDir, file, req.page);
+      this.scans.set(scanId, { file, summary, session, factorLane });
+      // Decode on the background lane now, so its refinement can start as soon as the page asks.
+      factorLane.open().catch(() => undefined);
       if (req.source.kind === 'path') this.addRecent(file);
       return summary;
     } catch (err) {
@@ -255,12 +264,9 @@ export class Backend extends EventEmitter {
   }
 
   private factors(req: FactorRequest): Promise<ArrayBuffer> {
-    return this.scan(req.scanId).session.run<ArrayBuffer>(
-      'factors',
-      { maxRank: req.maxRank },
-      req.job,
-      this.onJob(req.job),
-    );
+    const s = this.scan(req.scanId);
+    const lane = req.background ? s.factorLane : s.session;
+    return lane.run<ArrayBuffer>('factors', { maxRank: req.maxRank }, req.job, this.onJob(req.job));
   }
 
   private evaluate(req: EvaluateRequest): Promise<EvaluateResult> {
@@ -379,12 +385,15 @@ export class Backend extends EventEmitter {
   private async cancel(job: string): Promise<void> {
     const b = this.batches.get(job);
     if (b) b.abort();
-    for (const s of this.scans.values()) s.session.cancel(job);
+    for (const s of this.scans.values()) {
+      s.session.cancel(job);
+      s.factorLane.cancel(job);
+    }
   }
 
   async close(): Promise<void> {
     for (const b of this.batches.values()) b.abort();
-    await Promise.all([...this.scans.values()].map((s) => s.session.close()));
+    await Promise.all([...this.scans.values()].flatMap((s) => [s.session.close(), s.factorLane.close()]));
     this.scans.clear();
     if (this.uploadDir) await rm(this.uploadDir, { recursive: true, force: true });
   }
