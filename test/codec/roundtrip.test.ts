@@ -330,3 +330,31 @@ describe('metadata and tiles', () => {
     expect(edge / ne).toBeLessThan(1.5 * (inner / ni));
   });
 });
+
+describe('service hooks', () => {
+  it('reports progress and stops on an aborted signal without writing', async () => {
+    const stages: string[] = [];
+    await compressFile(
+      image('page.png'),
+      out('rkf'),
+      { budget: { kind: 'bpp', bpp: 0.5 }, tile: 32 },
+      {
+        onProgress: (p) => stages.push(p.stage),
+      },
+    );
+    expect(stages[0]).toBe('decode');
+    expect(stages).toContain('done');
+    const ac = new AbortController();
+    ac.abort();
+    const f = out('rkf');
+    await expect(
+      compressFile(
+        image('page.png'),
+        f,
+        { budget: { kind: 'bpp', bpp: 0.5 }, tile: 32 },
+        { signal: ac.signal },
+      ),
+    ).rejects.toThrow(/cancelled/);
+    expect(() => statSync(f)).toThrow();
+  });
+});

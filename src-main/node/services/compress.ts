@@ -26,7 +26,7 @@ import {
 } from '../../contract';
 import type { ByteCompressor, EntropyId } from '../../engine/codec/entropy';
 import { initEngine } from '../../engine/linalg';
-import { type EncodeResult, encodeScan } from '../../engine/lowrank/encode';
+import { budgetBytes, type EncodeResult, encodeScan } from '../../engine/lowrank/encode';
 import { psnrPlanes, ssimPlanes } from '../../engine/metrics';
 import { decodeImage, hashSamples } from '../image/decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
@@ -188,11 +188,14 @@ export async function compressFile(
   const decodeMs = performance.now() - t0;
   const { bytes, report } = await compressDecoded(decoded, options, hooks);
   if (hooks.signal?.aborted) throw new CancelledError(`compressing ${input}`);
+  const byteBudget = budgetBytes(options.budget, decoded);
+  if (byteBudget !== undefined && bytes.length > byteBudget)
+    throw new OutputError(
+      output,
+      `would be ${bytes.length} bytes, over the budget of ${byteBudget}; nothing was written`,
+    );
   await writeFileAtomic(output, bytes, { force: options.force });
   const onDisk = (await stat(output)).size;
-  const byteBudget = options.budget.kind === 'bytes' ? options.budget.bytes : undefined;
-  if (byteBudget !== undefined && onDisk > byteBudget)
-    throw new OutputError(output, `is ${onDisk} bytes on disk, over the budget of ${byteBudget}`);
   return {
     ...report,
     output,
