@@ -3,7 +3,7 @@
 // fallback, one worker). Inputs have image-like decaying spectra with a KNOWN spectrum, so the
 // Eckart–Young optimum ‖A − A_k‖_F = (Σ_{i>k} σᵢ²)^{1/2} is exact.
 import { mkdirSync, writeFileSync } from 'node:fs';
-import { cpus } from 'node:os';
+import { cpus, loadavg } from 'node:os';
 import { join } from 'node:path';
 import { Matrix as MlMatrix, SVD as MlSVD } from 'ml-matrix';
 import {
@@ -212,6 +212,7 @@ async function main() {
     ['power', 2],
     ['power', 3],
     ['power', 4],
+    ['power', 5],
     ['power', 6],
     ['krylov', 1],
     ['krylov', 2],
