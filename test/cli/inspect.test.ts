@@ -181,6 +181,16 @@ describe('rankfold inspect on colour, pages and text output', () => {
     expect(text.stdout).toMatch(/\n\s+1\s+0\s+0\s+0\s+∞ \(exact\)/);
   });
 
+  it('works on a committed sample: samples/gel-scan.tif --page 1 (2-page TIFF, 1200×960, Gram route)', async () => {
+    const r = await inspectJson(join(repoRoot, 'samples', 'gel-scan.tif'), '--page', '1');
+    expect([r.width, r.height, r.pages, r.page, r.bitDepth, r.format]).toEqual([1200, 960, 2, 1, 8, 'tiff']);
+    expect(r.spectra[0].method).toBe('gram');
+    expect(r.singularValues).toHaveLength(960);
+    // Σσ² = Σx² (Frobenius energy), to the Gram route's accuracy.
+    const sumSq = r.singularValues.reduce((acc, v) => acc + v * v, 0);
+    expect(Math.abs(sumSq - r.spectra[0].energy) / r.spectra[0].energy).toBeLessThan(1e-9);
+  });
+
   it('text output lists size, spectrum, energy ranks and the Eckart–Young table', async () => {
     const r = await rankfold('inspect', image('camera.png'));
     expect(r.code).toBe(0);
