@@ -136,6 +136,11 @@ async function main() {
     `Machine: ${cpus().length} × ${cpu}, Node ${process.version}; WebAssembly SIMD ${wasm ? 'on' : 'OFF (TS fallback)'}.`,
   );
   log(
+    `Load average when the run started: ${loadavg()
+      .map((x) => x.toFixed(1))
+      .join(', ')} (above ~0.5 the figures below are pessimistic).`,
+  );
+  log(
     'Inputs: A = U·diag(σ)·Vᵀ stored in f32, σᵢ = 1000/(1+i) + 1 (power-law decay plus a noise floor), U, V orthonormal',
   );
   log('(DCT-II bases with random signs), so the Eckart–Young optimum is known exactly. Times are medians.');
