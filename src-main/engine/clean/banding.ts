@@ -63,8 +63,8 @@ export const MAX_SAMPLE_LINES = 512;
 export const DEFAULT_HALF_WINDOW = 32;
 /** Minimum RMS of a detected profile, in 8-bit grey levels: below this, removal is within rounding. */
 export const MIN_STRENGTH_8BIT = 0.3;
-/** Profile RMS must exceed this many times its noise floor. */
-export const SIGNIFICANCE = 4;
+/** The robust strength must exceed this many times the noise floor (3 keeps all clean test images and samples untouched). */
+export const SIGNIFICANCE = 3;
 /** Minimum correlation between the two halves' profiles. */
 export const MIN_CONSISTENCY = 0.5;
 /** Largest spread ratio of a detected profile: above it, the "stripes" follow content (text lines, edges). */
