@@ -73,6 +73,8 @@ function status(text: string, isError = false) {
   const el = $('status-text');
   el.textContent = text;
   el.style.color = isError ? '#9b2c1a' : '';
+  if (isError) el.dataset.error = text;
+  else delete el.dataset.error;
 }
 function busy(job: string | undefined, label?: string) {
   state.job = job;
@@ -605,8 +607,7 @@ function cleanSettings() {
       noiseSel === 'fixed'
         ? Number($<HTMLInputElement>('clean-noise-sigma').value)
         : (noiseSel as 'auto' | 'off'),
-    banding: $<HTMLSelectElement>('clean-banding').value as 'off' | 'rows' | 'columns' | 'both',
-    bandingStrength: Number($<HTMLInputElement>('clean-strength').value),
+    banding: $<HTMLSelectElement>('clean-banding').value as 'auto' | 'off' | 'rows' | 'columns' | 'both',
   };
 }
 

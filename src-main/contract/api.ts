@@ -81,10 +81,8 @@ export interface EvaluateResult {
 export interface CleanSettings {
   /** Sensor-noise removal: 'off', 'auto' (estimated threshold) or a fixed noise σ in grey levels. */
   noise: 'off' | 'auto' | number;
-  /** Row/column banding removal. */
-  banding: 'off' | 'rows' | 'columns' | 'both';
-  /** Strength of banding removal, 0–1. */
-  bandingStrength: number;
+  /** Row/column banding removal ('auto' detects the direction). */
+  banding: 'auto' | 'off' | 'rows' | 'columns' | 'both';
 }
 
 export interface CleanRequest {
@@ -315,13 +313,14 @@ export function checkTile(v: unknown): TileChoice {
 }
 
 export function checkCleanSettings(v: unknown): CleanSettings {
-  const o = obj('settings', v, ['noise', 'banding', 'bandingStrength']);
+  const o = obj('settings', v, ['noise', 'banding']);
   const noise =
-    o.noise === 'off' || o.noise === 'auto' ? o.noise : checkNumber('settings.noise', o.noise, 0, 65535);
+    o.noise === 'off' || o.noise === 'auto'
+      ? o.noise
+      : checkNumber('settings.noise', o.noise, 0.000001, 65535);
   return {
     noise,
-    banding: checkOneOf('settings.banding', o.banding, ['off', 'rows', 'columns', 'both'] as const),
-    bandingStrength: checkNumber('settings.bandingStrength', o.bandingStrength, 0, 1),
+    banding: checkOneOf('settings.banding', o.banding, ['auto', 'off', 'rows', 'columns', 'both'] as const),
   };
 }
 

@@ -194,10 +194,19 @@ describe('browser mode, end to end', () => {
   it('cleans the scan and shows the removed part and its stripe profile', async () => {
     await page.getByRole('tab', { name: 'Clean' }).click();
     await page.getByRole('button', { name: 'Clean', exact: true }).click();
-    await page.waitForSelector('#clean-report[data-done="true"]', { timeout: 60_000 });
+    await page.waitForSelector('#clean-report[data-done="true"], #status-text[data-error]', {
+      timeout: 60_000,
+    });
+    expect(await page.getAttribute('#status-text', 'data-error')).toBeNull();
     expect(await page.getByRole('button', { name: 'Show cleaned' }).isEnabled()).toBe(true);
     expect(await page.textContent('#clean-caution')).toContain('cleaning alters pixel data');
-    await shot(page, 'e2e-08-clean');
+    // The report is the cleaning service's own (σ̂ of the noise, method) and the profile plot is drawn.
+    expect(await page.textContent('#clean-report')).toMatch(/noiseSigma: \d/);
+    expect(await page.locator('#clean-profile canvas').count()).toBeGreaterThan(0);
+    await shot(page, 'e2e-08-clean-removed');
+    await page.getByRole('button', { name: 'Show cleaned' }).click();
+    await shot(page, 'e2e-08b-clean-cleaned');
+    await page.getByRole('button', { name: 'Back to rank view' }).click();
   });
 
   it('saves the .rkf as a download with the lossy caution', async () => {

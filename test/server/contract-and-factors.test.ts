@@ -41,13 +41,15 @@ describe('request validators', () => {
     expect(() => checkTile(1000)).toThrow(
       'Expected integer between 16 and 512 for tile but received 1000 of type number',
     );
-    expect(checkCleanSettings({ noise: 'auto', banding: 'both', bandingStrength: 1 })).toEqual({
+    expect(checkCleanSettings({ noise: 'auto', banding: 'both' })).toEqual({
       noise: 'auto',
       banding: 'both',
-      bandingStrength: 1,
     });
-    expect(() => checkCleanSettings({ noise: -1, banding: 'both', bandingStrength: 1 })).toThrow(
-      'Expected number between 0 and 65535 for settings.noise but received -1 of type number',
+    expect(() => checkCleanSettings({ noise: -1, banding: 'both' })).toThrow(
+      'Expected number between 0.000001 and 65535 for settings.noise but received -1 of type number',
+    );
+    expect(() => checkCleanSettings({ noise: 'auto', banding: 'sideways' })).toThrow(
+      'Expected one of auto, off, rows, columns, both for settings.banding but received "sideways" of type string',
     );
   });
   it('methods are an allow-list; ids and paths are checked', () => {

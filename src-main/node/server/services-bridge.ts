@@ -125,13 +125,9 @@ export function stripeProfile(
   return { columns: Array.from(columns), rows: Array.from(rows) };
 }
 
-type CleanFn = (
-  image: DecodedImage,
-  settings: CleanSettings,
-  progress: Progress,
-) => Promise<{ cleaned: Float32Array[]; report: Record<string, unknown> }>;
+type CleanFn = typeof import('./clean-adapter').cleanWithService;
 
-/** The cleaning service, loaded when the build has it. */
+/** The cleaning service, loaded on first use (its worker pool starts only when cleaning). */
 async function cleaner(): Promise<CleanFn> {
   const { cleanWithService } = await import('./clean-adapter');
   return cleanWithService;
@@ -143,19 +139,22 @@ export async function clean(
   progress: Progress,
 ): Promise<CleanOutput> {
   const run = await cleaner();
-  const { cleaned, report } = await run(image, args.settings, progress);
-  const removed = image.planes.map((p, c) => {
-    const out = new Float32Array(p.length);
-    const q = cleaned[c];
-    for (let i = 0; i < p.length; i++) out[i] = p[i] - q[i];
-    return out;
-  });
+  const { cleaned, removed, report, profile } = await run(image, args.settings, progress);
   const extra: FactorArrays = {};
   removed.forEach((r, i) => {
     extra[`removed.${i}`] = r;
   });
-  const images = planesSet(image, 'cleaned', cleaned, extra);
-  return { images, report, profile: stripeProfile(removed[0], image.width, image.height) };
+  const images = planesSet(image, 'cleaned', cleaned.slice(0, removed.length), extra);
+  // The stripe profile the service subtracted (first colour channel); else the means of the removed part.
+  const measured = stripeProfile(removed[0], image.width, image.height);
+  return {
+    images,
+    report,
+    profile: {
+      columns: profile.columns ? Array.from(profile.columns[0]) : measured.columns,
+      rows: profile.rows ? Array.from(profile.rows[0]) : measured.rows,
+    },
+  };
 }
 
 export interface SaveOutput {
