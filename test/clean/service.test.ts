@@ -160,6 +160,10 @@ describe('rankfold clean (CLI)', () => {
       'Expected one of auto, rows, columns, both, off for banding but received "diagonal" of type string',
     );
     expect(existsSync(join(dir, 'y.png')) || existsSync(join(dir, 'z.png'))).toBe(false);
+    const r4 = await run('clean', noisyPng, '-o', join(dir, 'w.png'), '--removed', join(dir, 'removed.tif'));
+    expect(r4.code).toBe(1);
+    expect(r4.stderr).toContain('the removed part is written as PNG');
+    expect(existsSync(join(dir, 'w.png'))).toBe(false);
   });
 });
 

@@ -35,7 +35,7 @@ import {
   withPassThrough,
 } from '../../engine/clean';
 import { decodeImage } from '../image/decode';
-import { encodeImage } from '../image/encode';
+import { encodeImage, formatFromPath } from '../image/encode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import type { CleanWorkerData, CleanWorkerMessage } from '../workers/clean';
 
@@ -315,6 +315,11 @@ export async function cleanFile(
       );
   if (new Set(outs.map((f) => resolve(f))).size !== outs.length)
     throw new UsageError('The output, --removed and --profile files must be different files.');
+  formatFromPath(output); // an unknown extension fails now, not after the work
+  if (opts.removed && !/\.png$/i.test(opts.removed))
+    throw new UsageError(
+      `${opts.removed}: the removed part is written as PNG; give a file name ending in .png`,
+    );
   for (const f of outs) await assertWritable(f, opts.force);
   const t0 = performance.now();
   hooks.onProgress?.('decode', 0);
