@@ -10,7 +10,12 @@ import * as esbuild from 'esbuild';
 
 const root = resolve(dirname(fileURLToPath(import.meta.url)), '..');
 const r = (...p) => join(root, ...p);
-const list = (dir, re) => (existsSync(r(dir)) ? readdirSync(r(dir)).filter((f) => re.test(f)).sort() : []);
+const list = (dir, re) =>
+  existsSync(r(dir))
+    ? readdirSync(r(dir))
+        .filter((f) => re.test(f))
+        .sort()
+    : [];
 
 // 1. WebAssembly SIMD kernels.
 const asmDir = 'src-main/engine/linalg/wasm/assembly';
@@ -24,9 +29,24 @@ for (const file of list(asmDir, /\.ts$/)) {
     process.execPath,
     // Files named *-shared.ts import a shared memory (worker threads need a declared maximum: 4 GiB);
     // the others import a plain growable memory, which browser pages can create without cross-origin isolation.
-    [ascBin, join(asmDir, file), '-o', out, '-O3', '--noAssert', '--runtime', 'stub', '--enable', 'simd',
-      '--importMemory', '--initialMemory', '1',
-      ...(name.endsWith('-shared') ? ['--enable', 'threads', '--sharedMemory', '--maximumMemory', '65536'] : [])],
+    [
+      ascBin,
+      join(asmDir, file),
+      '-o',
+      out,
+      '-O3',
+      '--noAssert',
+      '--runtime',
+      'stub',
+      '--enable',
+      'simd',
+      '--importMemory',
+      '--initialMemory',
+      '1',
+      ...(name.endsWith('-shared')
+        ? ['--enable', 'threads', '--sharedMemory', '--maximumMemory', '65536']
+        : []),
+    ],
     { cwd: root, stdio: 'inherit' },
   );
   const b64 = readFileSync(out).toString('base64');
@@ -38,28 +58,85 @@ for (const file of list(asmDir, /\.ts$/)) {
 
 // 2. Bundles.
 // dist/ is not wiped: several builds may run at once while developing, and esbuild overwrites its outputs.
-const common = { bundle: true, sourcemap: 'linked', target: 'es2022', logLevel: 'warning', absWorkingDir: root };
-const nodeExternal = ['sharp', 'electron', 'playwright-core', 'ml-matrix', 'pngjs', 'cli-progress', 'picomatch'];
+const common = {
+  bundle: true,
+  sourcemap: 'linked',
+  target: 'es2022',
+  logLevel: 'warning',
+  absWorkingDir: root,
+};
+const nodeExternal = [
+  'sharp',
+  'electron',
+  'playwright-core',
+  'ml-matrix',
+  'pngjs',
+  'cli-progress',
+  'picomatch',
+];
 const builds = [];
 const nodeEntries = {};
 if (existsSync(r('src-main/node/cli/main.ts'))) nodeEntries.cli = 'src-main/node/cli/main.ts';
-for (const f of list('src-main/node/workers', /\.ts$/)) nodeEntries[`workers/${f.replace(/\.ts$/, '')}`] = `src-main/node/workers/${f}`;
-builds.push(esbuild.build({ ...common, entryPoints: nodeEntries, outdir: r('dist'), platform: 'node', format: 'esm',
-  external: nodeExternal, banner: { js: "import { createRequire as __rfRequire } from 'node:module'; const require = __rfRequire(import.meta.url);" } }));
-const benchEntries = Object.fromEntries(list('bench', /\.bench\.ts$/).map((f) => [f.replace(/\.ts$/, ''), `bench/${f}`]));
+for (const f of list('src-main/node/workers', /\.ts$/))
+  nodeEntries[`workers/${f.replace(/\.ts$/, '')}`] = `src-main/node/workers/${f}`;
+builds.push(
+  esbuild.build({
+    ...common,
+    entryPoints: nodeEntries,
+    outdir: r('dist'),
+    platform: 'node',
+    format: 'esm',
+    external: nodeExternal,
+    banner: {
+      js: "import { createRequire as __rfRequire } from 'node:module'; const require = __rfRequire(import.meta.url);",
+    },
+  }),
+);
+const benchEntries = Object.fromEntries(
+  list('bench', /\.bench\.ts$/).map((f) => [f.replace(/\.ts$/, ''), `bench/${f}`]),
+);
 if (Object.keys(benchEntries).length)
-  builds.push(esbuild.build({ ...common, entryPoints: benchEntries, outdir: r('dist/bench'), platform: 'node', format: 'esm',
-    external: nodeExternal, banner: { js: "import { createRequire as __rfRequire } from 'node:module'; const require = __rfRequire(import.meta.url);" } }));
+  builds.push(
+    esbuild.build({
+      ...common,
+      entryPoints: benchEntries,
+      outdir: r('dist/bench'),
+      platform: 'node',
+      format: 'esm',
+      external: nodeExternal,
+      banner: {
+        js: "import { createRequire as __rfRequire } from 'node:module'; const require = __rfRequire(import.meta.url);",
+      },
+    }),
+  );
 if (existsSync(r('src-renderer/main.ts'))) {
-  builds.push(esbuild.build({ ...common, entryPoints: { app: 'src-renderer/main.ts' }, outdir: r('dist/renderer'), platform: 'browser', format: 'esm',
-    loader: { '.css': 'css' } }));
+  builds.push(
+    esbuild.build({
+      ...common,
+      entryPoints: { app: 'src-renderer/main.ts' },
+      outdir: r('dist/renderer'),
+      platform: 'browser',
+      format: 'esm',
+      loader: { '.css': 'css' },
+    }),
+  );
 }
 const electronEntries = {};
 if (existsSync(r('src-main/electron/main.ts'))) electronEntries.main = 'src-main/electron/main.ts';
 if (existsSync(r('src-main/electron/preload.ts'))) electronEntries.preload = 'src-main/electron/preload.ts';
 if (Object.keys(electronEntries).length)
-  builds.push(esbuild.build({ ...common, entryPoints: electronEntries, outdir: r('dist/electron'), platform: 'node', format: 'cjs',
-    outExtension: { '.js': '.cjs' }, external: nodeExternal }));
+  builds.push(
+    esbuild.build({
+      ...common,
+      entryPoints: electronEntries,
+      outdir: r('dist/electron'),
+      platform: 'node',
+      format: 'cjs',
+      outExtension: { '.js': '.cjs' },
+      external: nodeExternal,
+    }),
+  );
 await Promise.all(builds);
-if (existsSync(r('src-renderer/static'))) cpSync(r('src-renderer/static'), r('dist/renderer'), { recursive: true });
+if (existsSync(r('src-renderer/static')))
+  cpSync(r('src-renderer/static'), r('dist/renderer'), { recursive: true });
 console.log('rankfold: build done');

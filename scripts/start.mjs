@@ -24,8 +24,14 @@ function electronBinary() {
 
 let { dir, bin } = electronBinary();
 if (!bin && dir && process.env.RANKFOLD_NO_ELECTRON_FETCH !== '1') {
-  console.error('rankfold: Electron runtime not installed; trying to fetch it (node node_modules/electron/install.js)…');
-  const r = spawnSync(process.execPath, [join(dir, 'install.js')], { stdio: 'inherit', timeout: 120_000, env: { ...process.env, ELECTRON_SKIP_BINARY_DOWNLOAD: '' } });
+  console.error(
+    'rankfold: Electron runtime not installed; trying to fetch it (node node_modules/electron/install.js)…',
+  );
+  const r = spawnSync(process.execPath, [join(dir, 'install.js')], {
+    stdio: 'inherit',
+    timeout: 120_000,
+    env: { ...process.env, ELECTRON_SKIP_BINARY_DOWNLOAD: '' },
+  });
   if (r.status === 0) ({ bin } = electronBinary());
 }
 const mainJs = join(root, 'dist', 'electron', 'main.cjs');
@@ -37,6 +43,10 @@ if (bin && existsSync(mainJs)) {
     'rankfold: the Electron runtime is not available (it could not be downloaded), so Rankfold opens in browser mode instead.\n' +
       'To get the desktop window, run `node node_modules/electron/install.js` on a machine with internet access, then `npm start` again.',
   );
-  const child = spawn(process.execPath, [join(root, 'bin', 'rankfold.mjs'), 'serve', ...process.argv.slice(2)], { stdio: 'inherit' });
+  const child = spawn(
+    process.execPath,
+    [join(root, 'bin', 'rankfold.mjs'), 'serve', ...process.argv.slice(2)],
+    { stdio: 'inherit' },
+  );
   child.on('exit', (code) => process.exit(code ?? 0));
 }
