@@ -46,7 +46,7 @@ export function singularValues(a: Matrix, backend: Backend = defaultBackend()): 
   assertFinite(a);
   if (r <= JACOBI_LIMIT) return jacobiSingularValues(a);
   const long = Math.max(m, n);
-  const ws = backend.workspace(bytesFor(0, long * r + r * r + 4 * r + 2));
+  const ws = backend.workspace(bytesFor(0, long * r + r * r + 6 * r + 2));
   let lambda: Float64Array;
   try {
     // X is long×short row-major: A itself if m ≥ n, else Aᵀ.
@@ -62,8 +62,8 @@ export function singularValues(a: Matrix, backend: Backend = defaultBackend()): 
     for (let i = 1; i < r; i++) for (let j = 0; j < i; j++) G[i * r + j] = G[j * r + i];
     const d = ws.f64(r);
     const e = ws.f64(Math.max(r - 1, 1));
-    const v = ws.f64(r);
-    const p = ws.f64(r);
+    const v = ws.f64(2 * r);
+    const p = ws.f64(2 * r);
     if (!ws.tridiag?.(G, r, d, e, v, p)) tridiagonalize(G, r, d, e);
     lambda = tridiagonalEigenvalues(d, e.subarray(0, Math.max(r - 1, 0)));
   } finally {

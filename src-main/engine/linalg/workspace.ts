@@ -56,7 +56,7 @@ export interface Workspace {
   ): number;
   /**
    * Optional fast Householder tridiagonalisation (symmetric-eigen.ts `tridiagonalize`) on arrays from
-   * this workspace; v and p are n-element scratch. Returns false when it cannot run (caller uses TS).
+   * this workspace; v and p are 2n-element scratch. Returns false when it cannot run (caller uses TS).
    */
   tridiag?(
     S: Float64Array,
@@ -195,8 +195,17 @@ class WasmWorkspace implements Workspace {
     p: Float64Array,
   ): boolean {
     const buf = this.k.memory.buffer;
-    if ([S, d, e, v, p].some((x) => x.buffer !== buf)) return false;
-    this.k.exports.tridiagF64(S.byteOffset, n, d.byteOffset, e.byteOffset, v.byteOffset, p.byteOffset);
+    if ([S, d, e, v, p].some((x) => x.buffer !== buf) || v.length < 2 * n || p.length < 2 * n) return false;
+    this.k.exports.tridiagF64(
+      S.byteOffset,
+      n,
+      d.byteOffset,
+      e.byteOffset,
+      v.byteOffset,
+      p.byteOffset,
+      v.byteOffset + 8 * n,
+      p.byteOffset + 8 * n,
+    );
     return true;
   }
   release() {

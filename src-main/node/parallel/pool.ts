@@ -176,8 +176,18 @@ export class LinalgPool implements Backend {
         );
       },
       tridiag: (S, n, d, e, v, p) => {
-        if (![S, d, e, v, p].every((x) => sameMemory(x, this.memory))) return false;
-        this.local.tridiagF64(S.byteOffset, n, d.byteOffset, e.byteOffset, v.byteOffset, p.byteOffset);
+        if (![S, d, e, v, p].every((x) => sameMemory(x, this.memory)) || v.length < 2 * n || p.length < 2 * n)
+          return false;
+        this.local.tridiagF64(
+          S.byteOffset,
+          n,
+          d.byteOffset,
+          e.byteOffset,
+          v.byteOffset,
+          p.byteOffset,
+          v.byteOffset + 8 * n,
+          p.byteOffset + 8 * n,
+        );
         return true;
       },
       release: () => {

@@ -47,7 +47,7 @@ export interface KernelExports {
     norms: number,
   ): number;
   /** Householder tridiagonalisation of a lower-stored symmetric matrix (see symmetric-eigen.ts). */
-  tridiagF64(s: number, n: number, d: number, e: number, v: number, p: number): void;
+  tridiagF64(s: number, n: number, d: number, e: number, v: number, p: number, v2: number, p2: number): void;
 }
 
 export interface WasmKernels {

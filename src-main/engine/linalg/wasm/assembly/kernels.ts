@@ -292,88 +292,154 @@ export function jacobiF64(w: usize, rows: i32, n: i32, vt: usize, tol: f64, maxS
 // ---------------------------------------------------------------- Householder tridiagonalisation, f64x2
 // Reference: G. H. Golub, C. F. Van Loan, Matrix Computations, 4th ed., 2013, Algorithm 8.3.1 (from memory).
 // S (n×n, row-major) holds the LOWER triangle of a symmetric matrix and is overwritten. d (n) and e (n−1)
-// receive the tridiagonal matrix. v and p are scratch vectors of n f64. Same algorithm as
-// symmetric-eigen.ts `tridiagonalize` (the TypeScript fallback).
-export function tridiagF64(s: usize, n: i32, d: usize, e: usize, v: usize, p: usize): void {
+// receive the tridiagonal matrix. v, p, v2, p2 are scratch vectors of n f64. Same arithmetic as
+// symmetric-eigen.ts `tridiagonalize` (the TypeScript fallback), but one pass over the trailing triangle
+// per step: the rank-2 update of step k is fused with the product S₂₂·v of step k+1 (after updating
+// column k+1 first, which defines the next reflector). Halves the memory traffic of this memory-bound loop.
+
+/** Reflector for column k (rows k+1…n−1): v (unscaled form), e[k]; returns β = 2/vᵀv, 0 for none (then v = 0). */
+function houseCol(s: usize, n: i32, k: i32, v: usize, e: usize): f64 {
   const rowBytes = <usize>n << 3;
-  for (let k = 0; k < n - 2; k++) {
-    store<f64>(d + (<usize>k << 3), load<f64>(s + <usize>k * rowBytes + (<usize>k << 3)));
-    const k1 = k + 1;
-    let scale: f64 = 0;
-    for (let j = k1; j < n; j++) scale = max(scale, abs(load<f64>(s + <usize>j * rowBytes + (<usize>k << 3))));
-    if (scale == 0) {
-      store<f64>(e + (<usize>k << 3), 0);
-      continue;
+  const ck = <usize>k << 3;
+  const k1 = k + 1;
+  let scale: f64 = 0;
+  for (let j = k1; j < n; j++) scale = max(scale, abs(load<f64>(s + <usize>j * rowBytes + ck)));
+  if (scale == 0) {
+    store<f64>(e + ck, 0);
+    for (let j = k1; j < n; j++) store<f64>(v + (<usize>j << 3), 0);
+    return 0;
+  }
+  let norm2: f64 = 0;
+  for (let j = k1; j < n; j++) {
+    const x = load<f64>(s + <usize>j * rowBytes + ck) / scale;
+    store<f64>(v + (<usize>j << 3), x);
+    norm2 += x * x;
+  }
+  const norm = sqrt(norm2);
+  const v0 = load<f64>(v + (<usize>k1 << 3));
+  const alpha = v0 >= 0 ? -norm : norm;
+  store<f64>(e + ck, alpha * scale);
+  store<f64>(v + (<usize>k1 << 3), v0 - alpha);
+  let vv: f64 = 0;
+  for (let j = k1; j < n; j++) {
+    const x = load<f64>(v + (<usize>j << 3));
+    vv += x * x;
+  }
+  if (vv == 0) {
+    for (let j = k1; j < n; j++) store<f64>(v + (<usize>j << 3), 0);
+    return 0;
+  }
+  return 2 / vv;
+}
+
+/** p[j0…n) = β·S₂₂·v with S₂₂ the lower-stored block from j0 (dot into p[j], axpy into p[j0…j)). */
+function symvLower(s: usize, n: i32, j0: i32, v: usize, p: usize, beta: f64): void {
+  const rowBytes = <usize>n << 3;
+  for (let j = j0; j < n; j++) store<f64>(p + (<usize>j << 3), 0);
+  for (let j = j0; j < n; j++) {
+    const row = s + <usize>j * rowBytes;
+    const vj = load<f64>(v + (<usize>j << 3));
+    const vjv = f64x2.splat(vj);
+    let dotv = f64x2.splat(0);
+    let i = j0;
+    for (; i + 1 < j; i += 2) {
+      const o = <usize>i << 3;
+      const a = v128.load(row + o);
+      dotv = f64x2.add(dotv, f64x2.mul(a, v128.load(v + o)));
+      v128.store(p + o, f64x2.add(v128.load(p + o), f64x2.mul(a, vjv)));
     }
-    let norm2: f64 = 0;
-    for (let j = k1; j < n; j++) {
-      const x = load<f64>(s + <usize>j * rowBytes + (<usize>k << 3)) / scale;
-      store<f64>(v + (<usize>j << 3), x);
-      norm2 += x * x;
+    let dot = hsum(dotv);
+    for (; i < j; i++) {
+      const o = <usize>i << 3;
+      const a = load<f64>(row + o);
+      dot += a * load<f64>(v + o);
+      store<f64>(p + o, load<f64>(p + o) + a * vj);
     }
-    const norm = sqrt(norm2);
-    const v0 = load<f64>(v + (<usize>k1 << 3));
-    const alpha = v0 >= 0 ? -norm : norm;
-    store<f64>(e + (<usize>k << 3), alpha * scale);
-    store<f64>(v + (<usize>k1 << 3), v0 - alpha);
-    let vv: f64 = 0;
-    for (let j = k1; j < n; j++) {
-      const x = load<f64>(v + (<usize>j << 3));
-      vv += x * x;
-    }
-    if (vv == 0) continue;
-    const beta = 2 / vv;
-    for (let j = k1; j < n; j++) store<f64>(p + (<usize>j << 3), 0);
-    // p = S22·v from the lower triangle, row by row: dot into p[j], axpy into p[k1..j-1].
-    for (let j = k1; j < n; j++) {
-      const row = s + <usize>j * rowBytes;
-      const vj = load<f64>(v + (<usize>j << 3));
-      const vjv = f64x2.splat(vj);
-      let dotv = f64x2.splat(0);
-      let i = k1;
-      for (; i + 1 < j; i += 2) {
-        const o = <usize>i << 3;
-        const a = v128.load(row + o);
-        dotv = f64x2.add(dotv, f64x2.mul(a, v128.load(v + o)));
-        v128.store(p + o, f64x2.add(v128.load(p + o), f64x2.mul(a, vjv)));
+    const oj = <usize>j << 3;
+    store<f64>(p + oj, load<f64>(p + oj) + dot + load<f64>(row + oj) * vj);
+  }
+  for (let j = j0; j < n; j++) store<f64>(p + (<usize>j << 3), load<f64>(p + (<usize>j << 3)) * beta);
+}
+
+export function tridiagF64(s: usize, n: i32, d: usize, e: usize, v: usize, p: usize, v2: usize, p2: usize): void {
+  const rowBytes = <usize>n << 3;
+  if (n > 2) {
+    store<f64>(d, load<f64>(s));
+    let beta = houseCol(s, n, 0, v, e);
+    symvLower(s, n, 1, v, p, beta);
+    let cv = v, cp = p, nv = v2, np = p2;
+    for (let k = 0; k < n - 2; k++) {
+      const k1 = k + 1;
+      // w = p − (β/2)(pᵀv)·v, stored over p.
+      let pv: f64 = 0;
+      for (let j = k1; j < n; j++) pv += load<f64>(cp + (<usize>j << 3)) * load<f64>(cv + (<usize>j << 3));
+      const h = 0.5 * beta * pv;
+      for (let j = k1; j < n; j++) {
+        const o = <usize>j << 3;
+        store<f64>(cp + o, load<f64>(cp + o) - h * load<f64>(cv + o));
       }
-      let dot = hsum(dotv);
-      for (; i < j; i++) {
-        const o = <usize>i << 3;
-        const a = load<f64>(row + o);
-        dot += a * load<f64>(v + o);
-        store<f64>(p + o, load<f64>(p + o) + a * vj);
-      }
-      const oj = <usize>j << 3;
-      store<f64>(p + oj, load<f64>(p + oj) + dot + load<f64>(row + oj) * vj);
-    }
-    let pv: f64 = 0;
-    for (let j = k1; j < n; j++) {
-      const o = <usize>j << 3;
-      const x = load<f64>(p + o) * beta;
-      store<f64>(p + o, x);
-      pv += x * load<f64>(v + o);
-    }
-    const h = 0.5 * beta * pv;
-    for (let j = k1; j < n; j++) {
-      const o = <usize>j << 3;
-      store<f64>(p + o, load<f64>(p + o) - h * load<f64>(v + o));
-    }
-    // S22 -= v·wᵀ + w·vᵀ on the lower triangle (w is in p).
-    for (let j = k1; j < n; j++) {
-      const row = s + <usize>j * rowBytes;
-      const vj = load<f64>(v + (<usize>j << 3));
-      const wj = load<f64>(p + (<usize>j << 3));
-      const vjv = f64x2.splat(vj), wjv = f64x2.splat(wj);
-      let i = k1;
-      for (; i + 1 <= j; i += 2) {
-        const o = <usize>i << 3;
-        const upd = f64x2.add(f64x2.mul(vjv, v128.load(p + o)), f64x2.mul(wjv, v128.load(v + o)));
-        v128.store(row + o, f64x2.sub(v128.load(row + o), upd));
-      }
-      for (; i <= j; i++) {
-        const o = <usize>i << 3;
-        store<f64>(row + o, load<f64>(row + o) - (vj * load<f64>(p + o) + wj * load<f64>(v + o)));
+      if (k + 1 < n - 2) {
+        // Column k+1 first (rows k+1…n−1): it defines the next reflector.
+        const c1 = <usize>k1 << 3;
+        const vk1 = load<f64>(cv + c1);
+        const wk1 = load<f64>(cp + c1);
+        for (let j = k1; j < n; j++) {
+          const at = s + <usize>j * rowBytes + c1;
+          store<f64>(at, load<f64>(at) - (load<f64>(cv + (<usize>j << 3)) * wk1 + load<f64>(cp + (<usize>j << 3)) * vk1));
+        }
+        store<f64>(d + c1, load<f64>(s + <usize>k1 * rowBytes + c1));
+        const nbeta = houseCol(s, n, k1, nv, e);
+        // Fused pass over rows k+2…n−1: rank-2 update of step k, then S₂₂·v of step k+1 on the new values.
+        const k2 = k + 2;
+        for (let j = k2; j < n; j++) store<f64>(np + (<usize>j << 3), 0);
+        for (let j = k2; j < n; j++) {
+          const row = s + <usize>j * rowBytes;
+          const oj = <usize>j << 3;
+          const vj = load<f64>(cv + oj);
+          const wj = load<f64>(cp + oj);
+          const nvj = load<f64>(nv + oj);
+          const vjv = f64x2.splat(vj), wjv = f64x2.splat(wj), nvjv = f64x2.splat(nvj);
+          let dotv = f64x2.splat(0);
+          let i = k2;
+          for (; i + 1 < j; i += 2) {
+            const o = <usize>i << 3;
+            const upd = f64x2.add(f64x2.mul(vjv, v128.load(cp + o)), f64x2.mul(wjv, v128.load(cv + o)));
+            const a = f64x2.sub(v128.load(row + o), upd);
+            v128.store(row + o, a);
+            dotv = f64x2.add(dotv, f64x2.mul(a, v128.load(nv + o)));
+            v128.store(np + o, f64x2.add(v128.load(np + o), f64x2.mul(a, nvjv)));
+          }
+          let dot = hsum(dotv);
+          for (; i < j; i++) {
+            const o = <usize>i << 3;
+            const a = load<f64>(row + o) - (vj * load<f64>(cp + o) + wj * load<f64>(cv + o));
+            store<f64>(row + o, a);
+            dot += a * load<f64>(nv + o);
+            store<f64>(np + o, load<f64>(np + o) + a * nvj);
+          }
+          const a = load<f64>(row + oj) - 2 * vj * wj;
+          store<f64>(row + oj, a);
+          store<f64>(np + oj, load<f64>(np + oj) + dot + a * nvj);
+        }
+        for (let j = k2; j < n; j++) store<f64>(np + (<usize>j << 3), load<f64>(np + (<usize>j << 3)) * nbeta);
+        const tv = cv;
+        cv = nv;
+        nv = tv;
+        const tp = cp;
+        cp = np;
+        np = tp;
+        beta = nbeta;
+      } else {
+        // Last reflector: plain rank-2 update of the trailing 2×2 block.
+        for (let j = k1; j < n; j++) {
+          const row = s + <usize>j * rowBytes;
+          const vj = load<f64>(cv + (<usize>j << 3));
+          const wj = load<f64>(cp + (<usize>j << 3));
+          for (let i = k1; i <= j; i++) {
+            const o = <usize>i << 3;
+            store<f64>(row + o, load<f64>(row + o) - (vj * load<f64>(cp + o) + wj * load<f64>(cv + o)));
+          }
+        }
       }
     }
   }
