@@ -187,6 +187,23 @@ describe('stack rate control', () => {
     expect(fit.encoded.split.residuals).toBe(0);
   });
 
+  it('combines a per-frame PSNR floor with a byte budget, and says so when both cannot hold', () => {
+    const s = driftingSpecimen({ width: 40, height: 40, frames: 10, seed: 13, noise: 1 });
+    const prep = prepareStack(asInput(s));
+    const fit = fitStack(prep, { minPsnr: 38, maxBytes: 40 * 40 * 10 });
+    expect(Math.min(...fit.psnr)).toBeGreaterThanOrEqual(38);
+    expect(fit.encoded.bytes.length).toBeLessThanOrEqual(40 * 40 * 10);
+    expect(() => fitStack(prep, { minPsnr: 60, maxBytes: 2000 })).toThrow(
+      /quality floor needs more than the budget/,
+    );
+  });
+
+  it('meets a per-frame SSIM floor (Wang et al. 2004, via the metrics module) on the worst frame', () => {
+    const s = formPages({ width: 48, height: 56, frames: 8, seed: 3 });
+    const fit = fitStack(prepareStack(asInput(s)), { minSsim: 0.9 });
+    expect(Math.min(...fit.ssim)).toBeGreaterThanOrEqual(0.9);
+  });
+
   it('meets a per-frame PSNR floor on the worst frame', () => {
     const s = driftingSpecimen({ width: 48, height: 48, frames: 12, seed: 8, noise: 1 });
     const prep = prepareStack(asInput(s));

@@ -124,7 +124,9 @@ export function fitStack(
       let next: number;
       if (a && b) {
         if (Math.abs(a.u - b.u) < STEP_TOLERANCE) break;
-        const frac = Math.min(0.85, Math.max(0.15, (0 - a.s) / (b.s - a.s)));
+        // Violations can be ±∞ (a frame decoded exactly has PSNR ∞): fall back to the midpoint then.
+        const raw = (0 - a.s) / (b.s - a.s);
+        const frac = Number.isFinite(raw) ? Math.min(0.85, Math.max(0.15, raw)) : 0.5;
         next = a.u + frac * (b.u - a.u);
       } else {
         next = a ? u - towardFeasible * move : u + towardFeasible * move;
