@@ -72,6 +72,7 @@ export interface StackReport {
   };
   spectrum: StackSpectrum[];
   psnr: { worst: number; mean: number; worstFrame: number };
+  /** NaN (null in JSON) when frames are smaller than the 11×11 SSIM window. */
   ssim: { worst: number; mean: number; worstFrame: number };
   perFrame: StackFrameReport[];
   timings: { decodeMs: number; factorMs: number; encodeMs: number };

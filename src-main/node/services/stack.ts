@@ -213,6 +213,10 @@ function targetFrom(input: StackInput, o: StackCompressOptions): StackTarget {
         break;
     }
   }
+  if (t.minSsim !== undefined && (input.width < 11 || input.height < 11))
+    throw new UsageError(
+      `compress --stack: frames of ${input.width}×${input.height} are smaller than the 11×11 SSIM window (Wang et al. 2004); use --min-psnr instead`,
+    );
   if (t.maxBytes === undefined && t.minPsnr === undefined && t.minSsim === undefined && t.rank === undefined)
     throw new UsageError(
       'compress --stack: give a budget (--rank K, --budget SIZE, --bpp X, --min-psnr DB or --min-ssim S)',
@@ -240,6 +244,7 @@ function spectrumOf(sigma: number[], channel: string, stored: number): StackSpec
 }
 
 function worstAndMean(v: number[]) {
+  if (v.some((x) => Number.isNaN(x))) return { worst: Number.NaN, mean: Number.NaN, worstFrame: -1 };
   let worst = Number.POSITIVE_INFINITY;
   let worstFrame = 0;
   let sum = 0;
