@@ -193,14 +193,12 @@ function modelSource(): ViewSource | undefined {
     height: m.height,
     peak: m.peak,
     original: m.planes.map((p) => p.src),
-    recon: () =>
-      state.tiled && state.preview
-        ? state.preview.planes
-        : state.showing === 'cleaned' && state.cleaned
-          ? state.cleaned.cleaned
-          : state.showing === 'removed' && state.cleaned
-            ? state.cleaned.removed
-            : m.planes.map((p) => p.acc),
+    recon: () => {
+      if (state.showing === 'cleaned' && state.cleaned) return state.cleaned.cleaned;
+      if (state.showing === 'removed' && state.cleaned) return removedPlanes(m.peak);
+      if (state.tiled && state.preview) return state.preview.planes;
+      return m.planes.map((p) => p.acc);
+    },
     layer: (i) => {
       const k = Math.min(m.maxRank - 1, Math.max(0, i));
       return m.planes.map((p) => ({
@@ -213,13 +211,31 @@ function modelSource(): ViewSource | undefined {
   };
 }
 
+/** The removed part offset to mid-grey and amplified by the gain control, rebuilt when the gain changes. */
+let removedView: { gain: number; planes: Float32Array[] } | undefined;
+function removedPlanes(peak: number): Float32Array[] {
+  const c = state.cleaned!;
+  if (!removedView || removedView.gain !== view.gain) {
+    const mid = peak / 2;
+    removedView = {
+      gain: view.gain,
+      planes: c.removed.map((a) => {
+        const out = new Float32Array(a.length);
+        for (let i = 0; i < a.length; i++) out[i] = mid + view.gain * a[i];
+        return out;
+      }),
+    };
+  }
+  return removedView.planes;
+}
+
 function labelPanes() {
   const k = Number(rankInput.value);
   const right =
     state.showing === 'cleaned'
       ? 'cleaned'
       : state.showing === 'removed'
-        ? 'removed part (offset to mid-grey)'
+        ? `removed part × ${view.gain} (mid-grey = nothing removed)`
         : view.mode === 'diff'
           ? `difference at rank ${k} × ${view.gain}`
           : view.mode === 'layer'
@@ -319,6 +335,16 @@ async function evaluateNow() {
     if (seq !== state.evalSeq || JSON.stringify(budget) !== JSON.stringify(state.budget)) return;
     const ranks = r.report.ranks;
     const rank = ranks[0]?.rank ?? ranks[0]?.tiles?.max;
+    // Tiled mode: the page shows the encoder's own decoded result, fetched before the figures turn exact.
+    if (r.previewId) {
+      const { arrays, header } = decodeFactorSet(await api.fetchImages(r.previewId));
+      if (seq !== state.evalSeq) return;
+      state.preview = {
+        planes: header.channels.map((_, p) => arrays[`rec.${p}`] as Float32Array),
+        tiles: r.tileRanks,
+      };
+    } else state.preview = undefined;
+    $('stage').dataset.tiles = String(r.tileRanks?.[0]?.ranks.length ?? '');
     if (budget.kind === 'rank') {
       if (!state.tiled) state.calib = { rank: budget.rank, bytes: r.report.outputBytes };
       showReport(r.report, budget.rank);
@@ -327,13 +353,6 @@ async function evaluateNow() {
       if (rank !== undefined) setRank(rank, false);
       showReport(r.report, rank);
     }
-    if (r.previewId) {
-      const { arrays, header } = decodeFactorSet(await api.fetchImages(r.previewId));
-      state.preview = {
-        planes: header.channels.map((_, p) => arrays[`rec.${p}`] as Float32Array),
-        tiles: r.tileRanks,
-      };
-    } else state.preview = undefined;
     view.setSource(modelSource()!);
     status(
       `Encoded: ${fmtBytes(r.report.outputBytes)}, PSNR ${fmt.psnr(r.report.psnr)}, SSIM ${r.report.ssim.toFixed(4)}.`,
@@ -620,20 +639,28 @@ $('clean-run').addEventListener('click', async () => {
     const r = await api.clean({ scanId: s.scanId, settings: cleanSettings(), job });
     const { header, arrays } = decodeFactorSet(await api.fetchImages(r.imagesId));
     const n = header.channels.length;
-    const removed = Array.from({ length: n }, (_, p) => {
-      const a = arrays[`removed.${p}`] as Float32Array;
-      const mid = header.peak / 2;
-      const out = new Float32Array(a.length);
-      for (let i = 0; i < a.length; i++) out[i] = a[i] + mid;
-      return out;
-    });
+    const removed = Array.from({ length: n }, (_, p) => arrays[`removed.${p}`] as Float32Array);
     state.cleaned = {
       cleaned: Array.from({ length: n }, (_, p) => arrays[`cleaned.${p}`] as Float32Array),
       removed,
     };
+    removedView = undefined;
     state.showing = 'removed';
+    const shown = [
+      'noiseSigma',
+      'noiseSource',
+      'threshold',
+      'method',
+      'psnrChange',
+      'changedSamples',
+      'removedRms',
+      'noiseSkipped',
+    ];
     $('clean-report').textContent = Object.entries(r.report)
-      .filter(([, v]) => typeof v === 'number' || typeof v === 'string' || typeof v === 'boolean')
+      .filter(
+        ([k, v]) =>
+          shown.includes(k) && (typeof v === 'number' || typeof v === 'string' || typeof v === 'boolean'),
+      )
       .map(([k, v]) => `${k}: ${typeof v === 'number' ? Number(v.toPrecision(6)) : v}`)
       .join('\n');
     $('clean-report').dataset.done = 'true';

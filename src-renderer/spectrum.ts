@@ -135,8 +135,9 @@ export function profilePlot(host: HTMLElement, columns: number[], rows: number[]
   return new uPlot(
     {
       width: Math.max(220, Math.floor(r.width)),
-      height: 150,
+      height: 170,
       title: 'Stripe profile of the removed part',
+      legend: { live: false },
       scales: { x: { time: false } },
       axes: [{ label: 'column / row' }, { label: 'mean removed' }],
       series: [

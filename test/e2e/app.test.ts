@@ -185,6 +185,8 @@ describe('browser mode, end to end', () => {
         document.getElementById('readouts')?.dataset.state === 'exact' &&
         document.getElementById('readouts')?.dataset.rank === '8',
     );
+    // 512×512 in tiles of 64: an 8×8 grid of tile ranks, each 8 (the rank asked for).
+    expect(await page.getAttribute('#stage', 'data-tiles')).toBe('64');
     await page.getByRole('button', { name: 'Tile ranks' }).click();
     await shot(page, 'e2e-07-tile-ranks');
     await page.getByRole('radio', { name: 'whole plane' }).check();

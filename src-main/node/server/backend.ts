@@ -269,14 +269,18 @@ export class Backend extends EventEmitter {
     return lane.run<ArrayBuffer>('factors', { maxRank: req.maxRank }, req.job, this.onJob(req.job));
   }
 
-  private evaluate(req: EvaluateRequest): Promise<EvaluateResult> {
+  private async evaluate(req: EvaluateRequest): Promise<EvaluateResult> {
     const s = this.scan(req.scanId);
-    return s.session.run<EvaluateResult>(
+    const { preview, ...r } = await s.session.run<EvaluateResult & { preview?: ArrayBuffer }>(
       'evaluate',
       { budget: req.budget, tile: req.tile, input: s.file },
       req.job,
       this.onJob(req.job),
     );
+    if (!preview) return r;
+    const previewId = newId();
+    this.putBlob(previewId, { data: preview, fileName: 'preview.bin', type: 'application/octet-stream' });
+    return { ...r, previewId };
   }
 
   private async clean(req: CleanRequest): Promise<CleanResult> {
