@@ -123,7 +123,7 @@ async function eigenJpegBaseline(s: SyntheticSeries, prep: PreparedStack, budget
   const n = s.width * s.height;
   const N = s.frames.length;
   const mean = prep.svd[0].mean;
-  const P = prep.eigen[0].slice(0, 2);
+  const P = [prep.eigen[0].get(0), prep.eigen[0].get(1)];
   const scales = P.map((p) => 127 / Math.max(1e-9, ...Array.from(p, Math.abs)));
   const r = await bestQuality(budget, async (q) => {
     const jm = await jpeg(mean, s.width, s.height, q);

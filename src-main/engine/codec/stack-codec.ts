@@ -27,13 +27,7 @@
 import { FormatError } from '../../contract/errors';
 import { chromaOffset, rgbToYcbcr, toSamples, ycbcrToRgb } from '../lowrank/colour';
 import { ssim } from '../metrics';
-import {
-  centredFrames,
-  eigenFrames,
-  type FrameModeSvd,
-  frameModeSvd,
-  rebuildFrame,
-} from '../stack/frame-svd';
+import { eigenFrameOf, type FrameModeSvd, frameModeSvd, rebuildFrame } from '../stack/frame-svd';
 import { type Chunk, readContainer, writeContainer } from './container';
 import { decodePlane, encodePlane } from './stack-plane';
 
@@ -97,14 +91,20 @@ interface StackHeaderJson extends Omit<StackHeader, 'frameTable'> {
   residualMask: string[];
 }
 
+/** Eigen-frames of one channel, formed on demand (most encodes need only the first few). */
+export interface LazyEigenFrames {
+  readonly length: number;
+  get(i: number): Float64Array;
+}
+
 /** A series prepared once (colour transform, frame-mode SVD, eigen-frames) for encodes at many steps. */
 export interface PreparedStack {
   input: StackInput;
   /** Coded planes: [channel][frame]. */
   coded: Float64Array[][];
   svd: FrameModeSvd[];
-  /** Eigen-frames per channel, up to min(N, MAX_STACK_RANK). */
-  eigen: Float64Array[][];
+  /** Eigen-frames per channel, up to min(N, MAX_STACK_RANK), computed on first use and kept. */
+  eigen: LazyEigenFrames[];
 }
 
 export interface StackParams {
@@ -185,9 +185,18 @@ export function prepareStack(input: StackInput, maxRank = MAX_STACK_RANK): Prepa
     } else coded[0].push(Float64Array.from(f.planes[0]));
   }
   const svd = coded.map((planes) => frameModeSvd(planes, width, height));
-  const eigen = coded.map((planes, c) =>
-    eigenFrames(centredFrames(planes, svd[c].mean, svd[c].offsets), svd[c], Math.min(maxRank, frames.length)),
-  );
+  const eigen = coded.map((planes, c): LazyEigenFrames => {
+    const cache: Float64Array[] = [];
+    const length = Math.min(maxRank, frames.length);
+    return {
+      length,
+      get(i: number) {
+        if (i < 0 || i >= length) throw new RangeError(`eigen-frame ${i} of ${length}`);
+        cache[i] ??= eigenFrameOf(planes, svd[c], i);
+        return cache[i];
+      },
+    };
+  });
   return { input, coded, svd, eigen };
 }
 
@@ -280,7 +289,7 @@ export function encodeStack(prep: PreparedStack, params: StackParams): EncodedSt
     const basis: Float64Array[] = [];
     const kmax = params.rank !== undefined ? Math.min(params.rank, eigen[c].length) : eigen[c].length;
     for (let i = 0; i < kmax; i++) {
-      const P = eigen[c][i];
+      const P = eigen[c].get(i);
       const code = encodePlane(P, width, height, step);
       const gain = svd[c].sigma[i] ** 2 - sse(P, code.decoded);
       if (params.rank === undefined && !(gain >= lambda * (code.bytes.length + 4 * N))) break;

@@ -111,24 +111,36 @@ export function frameModeSvd(
   const { mean, offsets } = seriesMeans(frames, width, height, options);
   const n = width * height;
   const N = frames.length;
-  // Centred frames as float64 (the Gram needs them N²/2 times; copying once is cheaper than recentring).
-  const Y = centredFrames(frames, mean, offsets);
+  // Gram of the centred frames, accumulated over pixel blocks so that only an N×BLOCK slice of
+  // Y = X − μ1ᵀ − 1dᵀ is held at a time (memory N·BLOCK instead of N·h·w).
   const G = new Float64Array(N * N);
-  for (let a = 0; a < N; a++) {
-    const ya = Y[a];
-    for (let b = a; b < N; b++) {
-      const yb = Y[b];
-      let s0 = 0;
-      let s1 = 0;
-      let p = 0;
-      for (; p + 1 < n; p += 2) {
-        s0 += ya[p] * yb[p];
-        s1 += ya[p + 1] * yb[p + 1];
+  const BLOCK = 4096;
+  const Yb = Array.from({ length: N }, () => new Float64Array(BLOCK));
+  for (let p0 = 0; p0 < n; p0 += BLOCK) {
+    const len = Math.min(BLOCK, n - p0);
+    for (let j = 0; j < N; j++) {
+      const f = frames[j];
+      const y = Yb[j];
+      const d = offsets[j];
+      for (let q = 0; q < len; q++) y[q] = f[p0 + q] - mean[p0 + q] - d;
+    }
+    for (let a = 0; a < N; a++) {
+      const ya = Yb[a];
+      for (let b = a; b < N; b++) {
+        const yb = Yb[b];
+        let s0 = 0;
+        let s1 = 0;
+        let q = 0;
+        for (; q + 1 < len; q += 2) {
+          s0 += ya[q] * yb[q];
+          s1 += ya[q + 1] * yb[q + 1];
+        }
+        if (q < len) s0 += ya[q] * yb[q];
+        G[a * N + b] += s0 + s1;
       }
-      if (p < n) s0 += ya[p] * yb[p];
-      G[a * N + b] = G[b * N + a] = s0 + s1;
     }
   }
+  for (let a = 0; a < N; a++) for (let b = 0; b < a; b++) G[a * N + b] = G[b * N + a];
   let energy = 0;
   for (let j = 0; j < N; j++) energy += G[j * N + j];
   const { s, V } = jacobiSvd({ rows: N, cols: N, data: G });
@@ -211,6 +223,25 @@ export function rebuildFrame(
     for (let p = 0; p < n; p++) out[p] += c * b[p];
   }
   return out;
+}
+
+/**
+ * Eigen-frame i, P_i = Σ_j V[j,i]·(F_j − μ − d_j), straight from the frames (no centred copy held).
+ * Same arithmetic as {@link eigenFrames} on {@link centredFrames}, so the values are identical.
+ */
+export function eigenFrameOf(frames: ArrayLike<number>[], svd: FrameModeSvd, i: number): Float64Array {
+  const N = svd.frames;
+  const n = svd.width * svd.height;
+  const P = new Float64Array(n);
+  const { mean, offsets } = svd;
+  for (let j = 0; j < N; j++) {
+    const w = svd.V[j * N + i];
+    if (w === 0) continue;
+    const f = frames[j];
+    const d = offsets[j];
+    for (let p = 0; p < n; p++) P[p] += w * (f[p] - mean[p] - d);
+  }
+  return P;
 }
 
 /** Number of eigen-frames that carry `fraction` of the energy left after mean removal (0 if there is none). */

@@ -1,6 +1,7 @@
 /** Joint low-rank models of scan series (stack mode). Pure TypeScript over typed arrays. */
 export {
   centredFrames,
+  eigenFrameOf,
   eigenFrames,
   eigenFramesForEnergy,
   type FrameModeOptions,
