@@ -19,9 +19,7 @@ import sharp from 'sharp';
 // Functions passed to page.evaluate run in the page; the Node type-check has no DOM lib.
 declare const document: {
   body: { dataset: Record<string, string | undefined> };
-  getElementById(
-    id: string,
-  ): {
+  getElementById(id: string): {
     value: string;
     dataset: Record<string, string | undefined>;
     dispatchEvent(e: unknown): boolean;

@@ -258,6 +258,10 @@ function pump() {
   if (animating) return;
   animating = true;
   const frame = () => {
+    if (m !== state.model) {
+      animating = false;
+      return pump();
+    }
     const done = m.step(10);
     view.paint();
     if (m.applied > 0 && state.firstPaintMs === undefined && state.openedAt) {
@@ -424,6 +428,7 @@ async function open(source: Parameters<typeof api.openScan>[0]['source']) {
   const seq = ++openSeq;
   const current = () => seq === openSeq;
   state.openedAt = performance.now();
+  state.model = undefined;
   state.firstPaintMs = undefined;
   delete document.body.dataset.firstPaintMs;
   delete document.body.dataset.initialRankMs;

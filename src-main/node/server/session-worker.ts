@@ -52,12 +52,15 @@ export class SessionWorker {
         else p.reject(fromErrorPayload(msg.error ?? { name: 'Error', message: 'worker failed' }));
       },
     );
-    w.on('error', (err) => this.failAll(err));
+    // A crash or exit of the current thread fails its jobs; the exit of a thread we terminated on
+    // purpose (cancel) arrives later and must not touch jobs already queued on its replacement.
+    w.on('error', (err) => {
+      if (this.worker === w) this.failAll(err);
+    });
     w.on('exit', () => {
-      if (this.worker === w) {
-        this.worker = undefined;
-        this.opened = undefined;
-      }
+      if (this.worker !== w) return;
+      this.worker = undefined;
+      this.opened = undefined;
       this.failAll(new CancelledError('the job'));
     });
     this.worker = w;

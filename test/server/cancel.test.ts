@@ -1,0 +1,49 @@
+/**
+ * Long jobs run in worker threads and can be cancelled: the job rejects with CancelledError (the one
+ * error class for stopped jobs, src-main/contract/errors.ts), progress events arrive while it runs,
+ * and the scan stays usable afterwards (the next job decodes it again in a fresh thread).
+ */
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import sharp from 'sharp';
+import { afterAll, describe, expect, it } from 'vitest';
+import type { ProgressEvent, ScanSummary } from '../../src-main/contract';
+import { Backend } from '../../src-main/node/server/backend';
+import { repoRoot } from '../helpers/fixtures';
+
+const dir = mkdtempSync(join(tmpdir(), 'rankfold-cancel-'));
+const backend = new Backend({ workersDir: join(repoRoot, 'dist', 'workers'), samplesDir: dir });
+afterAll(() => backend.close());
+
+describe('cancel', () => {
+  it('stops a running factorisation, then the scan still answers', async () => {
+    const w = 1600;
+    const h = 1200;
+    const px = Buffer.alloc(w * h);
+    let s = 12345;
+    for (let i = 0; i < px.length; i++) {
+      s = (s * 1103515245 + 12345) >>> 0;
+      px[i] = s >>> 24;
+    }
+    await sharp(px, { raw: { width: w, height: h, channels: 1 } })
+      .png()
+      .toFile(join(dir, 'noise.png'));
+    const events: ProgressEvent[] = [];
+    backend.on('progress', (e: ProgressEvent) => events.push(e));
+    const scan = (await backend.call('openScan', {
+      source: { kind: 'sample', name: 'noise.png' },
+    })) as ScanSummary;
+    const job = backend.call('factors', { scanId: scan.scanId, maxRank: 600, job: 'long1' });
+    await new Promise((r) => setTimeout(r, 300));
+    await backend.call('cancel', 'long1');
+    await expect(job).rejects.toThrow('the job was cancelled');
+    expect(events.some((e) => e.job === 'long1')).toBe(true);
+    const again = (await backend.call('factors', {
+      scanId: scan.scanId,
+      maxRank: 4,
+      job: 'short1',
+    })) as ArrayBuffer;
+    expect(again.byteLength).toBeGreaterThan(w * h);
+  });
+});
