@@ -24,6 +24,7 @@ import { COMPRESSORS, compareCodecs, compressDecoded } from '../src-main/node/se
 const root = process.cwd();
 const outDir = process.env.RANKFOLD_BENCH_OUT ?? join(root, 'docs', 'bench');
 const RATES = (process.env.RANKFOLD_BENCH_RATES ?? '0.1,0.25,0.5,1,2').split(',').map(Number);
+const ENTROPY_RATES = (process.env.RANKFOLD_BENCH_ENTROPY_RATES ?? '0.25,1').split(',').map(Number);
 const DOCUMENT_LIKE = /page|text|ledger|form|letter|map|deed|register|survey/i;
 
 function images(): string[] {
@@ -43,6 +44,9 @@ const f4 = (x: number) => (Number.isFinite(x) ? x.toFixed(4) : 'n/a');
 
 async function main() {
   const lines: string[] = ['## Codec: entropy coders and rate–distortion (20-codec)', ''];
+  mkdirSync(outDir, { recursive: true });
+  // Written after every row, so an interrupted run keeps what it measured.
+  const flush = () => writeFileSync(join(outDir, '20-codec.md'), `${lines.join('\n')}\n`);
   const files = images();
   lines.push(
     `Images: ${files.map((f) => basename(f)).join(', ')}. Machine: ${cpus().length} × ${cpus()[0]?.model ?? '?'}, Node ${process.version}.`,
@@ -58,7 +62,7 @@ async function main() {
   const ratios: { rc: number; brotli: number }[] = [];
   for (const file of files) {
     const img = await decodeImage(file);
-    for (const bpp of [0.25, 1]) {
+    for (const bpp of ENTROPY_RATES) {
       const { bytes, report } = await compressDecoded(img, { budget: { kind: 'bpp', bpp }, tile: 'auto' });
       const { view, header } = readImageHeader(bytes, file);
       let sizes = { deflate: 0, brotli: 0, rc: 0 };
@@ -86,6 +90,7 @@ async function main() {
         };
       });
       ratios.push({ rc: sizes.rc / sizes.deflate, brotli: sizes.brotli / sizes.deflate });
+      process.stderr.write(`codec bench: entropy ${basename(file)} ${bpp} bpp done\n`);
       lines.push(
         `| ${basename(file)} | ${bpp} | ${report.tile} | ${sizes.deflate} | ${sizes.brotli} (${f2(sizes.brotli / sizes.deflate)}) | ${sizes.rc} (${f2(sizes.rc / sizes.deflate)}) | ${encMs.toFixed(0)} | ${decMs.toFixed(0)} |`,
       );
@@ -99,6 +104,7 @@ async function main() {
     '',
   );
 
+  flush();
   // 2. Rate–distortion.
   lines.push('### Rate–distortion against standard codecs at equal bytes (PSNR dB / SSIM)', '');
   lines.push(
@@ -128,6 +134,7 @@ async function main() {
         `| ${basename(file)} | ${bpp} | ${rep.outputBytes} | ${f2(rep.psnr)} / ${f4(rep.ssim)} (${rep.tile}) | ${cell(cmp[0])} | ${cell(cmp[1])} | ${cell(cmp[2])} | ${gap >= 0 ? '+' : ''}${f2(gap)} |`,
       );
       process.stderr.write(`codec bench: ${basename(file)} ${bpp} bpp done\n`);
+      flush();
     }
   }
   const docLow = gaps.filter((g) => g.doc && g.bpp <= 0.25).map((g) => g.gap);
@@ -140,8 +147,7 @@ async function main() {
     '- "over" marks a standard codec whose lowest quality is still larger than our file; its figures are then at a larger size and the row is left out of the gaps.',
     '',
   );
-  mkdirSync(outDir, { recursive: true });
-  writeFileSync(join(outDir, '20-codec.md'), `${lines.join('\n')}\n`);
+  flush();
   process.stderr.write(`codec bench: wrote ${join(outDir, '20-codec.md')}\n`);
 }
 
