@@ -165,14 +165,18 @@ function orthonormalizeWith(
     ws.gemm(m, l, l, Y, 0, l, 1, Ri, 0, l, T, 0, l, false);
     Y.set(T, 0);
     if (R) {
-      // R ← Rc·R (both upper triangular).
-      for (let i = 0; i < l; i++)
-        for (let j = i; j < l; j++) {
-          let s = 0;
-          for (let p = i; p <= j; p++) s += Rc[i * l + p] * R[p * l + j];
-          Rt[i * l + j] = s;
+      // R ← Rc·R (both upper triangular), row by row: row i = Σ_{p ≥ i} Rc[i,p]·R[p,:] (contiguous rows).
+      Rt.fill(0);
+      for (let i = 0; i < l; i++) {
+        const ri = i * l;
+        for (let p = i; p < l; p++) {
+          const c = Rc[ri + p];
+          if (c === 0) continue;
+          const rp = p * l;
+          for (let j = p; j < l; j++) Rt[ri + j] += c * R[rp + j];
         }
-      for (let i = 0; i < l; i++) for (let j = 0; j < l; j++) R[i * l + j] = j >= i ? Rt[i * l + j] : 0;
+      }
+      R.set(Rt.subarray(0, l * l));
     }
     if (dev < ACCEPT_DEVIATION && !(shift > 0)) return 'cholesky';
     // Intermediate power-iteration steps need a well-conditioned basis, not one orthonormal to the last bit.
@@ -191,32 +195,45 @@ function cholesky(G: Float64Array, l: number, shift: number, Rc: Float64Array, u
   for (let i = 0; i < l; i++) maxDiag = Math.max(maxDiag, G[i * l + i] + shift);
   if (!(maxDiag > 0)) return false;
   const floor = l * u * maxDiag;
-  Rc.fill(0);
-  for (let j = 0; j < l; j++) {
-    let d = G[j * l + j] + shift;
-    for (let p = 0; p < j; p++) d -= Rc[p * l + j] * Rc[p * l + j];
-    if (!(d > floor)) return false;
-    const rjj = Math.sqrt(d);
-    Rc[j * l + j] = rjj;
-    for (let i = j + 1; i < l; i++) {
-      let s = 0.5 * (G[j * l + i] + G[i * l + j]);
-      for (let p = 0; p < j; p++) s -= Rc[p * l + j] * Rc[p * l + i];
-      Rc[j * l + i] = s / rjj;
+  // Lower factor L (G + shift·I = L·Lᵀ) computed row by row so every inner product runs over
+  // contiguous memory; Rc = Lᵀ at the end. Rc is used as L's storage first.
+  const L = Rc;
+  L.fill(0);
+  for (let i = 0; i < l; i++) {
+    const ri = i * l;
+    for (let j = 0; j <= i; j++) {
+      const rj = j * l;
+      let sum = 0.5 * (G[ri + j] + G[rj + i]) + (i === j ? shift : 0);
+      for (let p = 0; p < j; p++) sum -= L[ri + p] * L[rj + p];
+      if (i === j) {
+        if (!(sum > floor)) return false;
+        L[ri + i] = Math.sqrt(sum);
+      } else L[ri + j] = sum / L[rj + j];
     }
   }
+  // In-place transpose: Rc = Lᵀ (upper).
+  for (let i = 0; i < l; i++)
+    for (let j = 0; j < i; j++) {
+      Rc[j * l + i] = L[i * l + j];
+      Rc[i * l + j] = 0;
+    }
   return true;
 }
 
-/** Inverse of an upper-triangular l×l matrix (back substitution, column by column). */
+/** Inverse of an upper-triangular l×l matrix, bottom row first: X[i,:] = (e_i − Σ_{p>i} R[i,p]·X[p,:]) / R[i,i]. */
 function invertUpper(Rc: Float64Array, l: number, out: Float64Array): void {
   out.fill(0);
-  for (let j = 0; j < l; j++) {
-    out[j * l + j] = 1 / Rc[j * l + j];
-    for (let i = j - 1; i >= 0; i--) {
-      let s = 0;
-      for (let p = i + 1; p <= j; p++) s += Rc[i * l + p] * out[p * l + j];
-      out[i * l + j] = -s / Rc[i * l + i];
+  for (let i = l - 1; i >= 0; i--) {
+    const ri = i * l;
+    out[ri + i] = 1;
+    for (let p = i + 1; p < l; p++) {
+      const c = Rc[ri + p];
+      if (c === 0) continue;
+      const rp = p * l;
+      for (let j = p; j < l; j++) out[ri + j] -= c * out[rp + j];
     }
+    const inv = 1 / Rc[ri + i];
+    for (let j = i; j < l; j++) out[ri + j] *= inv;
   }
 }
 
