@@ -6,6 +6,7 @@
  * Binary factor sets (σ, U, V and the source planes) travel once per scan in the layout of
  * {@link encodeFactorSet}; the page rebuilds any rank from them itself.
  */
+import { utf8Decode, utf8Encode } from './utf8';
 import type { Budget, CompressReport, TileChoice } from './compress';
 import { UsageError } from './errors';
 import {
@@ -470,7 +471,7 @@ export function encodeFactorSet(header: Omit<FactorSetHeader, 'blocks'>, arrays:
     blocks.push({ name, type, length: a.length, offset: off });
     off += Math.ceil(a.byteLength / 8) * 8;
   }
-  const json = new TextEncoder().encode(JSON.stringify({ ...header, blocks }));
+  const json = utf8Encode(JSON.stringify({ ...header, blocks }));
   const headLen = 8 + Math.ceil(json.length / 8) * 8;
   const out = new Uint8Array(headLen + off);
   const dv = new DataView(out.buffer);
@@ -491,7 +492,7 @@ export function decodeFactorSet(buf: ArrayBuffer): { header: FactorSetHeader; ar
   if (dv.getUint32(0, true) !== MAGIC) throw new UsageError('factor set has a wrong magic number');
   const len = dv.getUint32(4, true);
   if (8 + len > buf.byteLength) throw new UsageError('factor set header is truncated');
-  const header = JSON.parse(new TextDecoder().decode(new Uint8Array(buf, 8, len))) as FactorSetHeader;
+  const header = JSON.parse(utf8Decode(new Uint8Array(buf, 8, len))) as FactorSetHeader;
   const headLen = 8 + Math.ceil(len / 8) * 8;
   const arrays: FactorArrays = {};
   for (const b of header.blocks) {
