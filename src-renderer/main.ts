@@ -26,7 +26,7 @@ const CLEANING_CAUTION =
   'clean preservation masters, medical, forensic or legal images without approval. Follow your local digitisation guidelines.';
 
 /** Rank of the first factorisation: small enough to show within a second on a 12-megapixel scan. */
-const FIRST_PASS_RANK = 40;
+const FIRST_PASS_RANK = 24;
 /** Rank of the background factorisation that follows, by scan size (megapixels → rank). */
 function secondPassRank(pixels: number): number {
   return pixels <= 1e6 ? 300 : pixels <= 4e6 ? 200 : pixels <= 16e6 ? 120 : 80;
@@ -362,7 +362,7 @@ async function evaluateNow() {
       `Encoded: ${fmtBytes(r.report.outputBytes)}, PSNR ${fmt.psnr(r.report.psnr)}, SSIM ${r.report.ssim.toFixed(4)}.`,
     );
   } catch (err) {
-    if (seq === state.evalSeq) fail(err);
+    if (seq === state.evalSeq && s === state.scan) fail(err);
   } finally {
     busy(undefined);
     evalRunning = false;
@@ -437,6 +437,7 @@ async function open(source: Parameters<typeof api.openScan>[0]['source']) {
   try {
     const scan = await api.openScan({ source });
     if (!current()) return;
+    document.body.dataset.openMs = (performance.now() - state.openedAt).toFixed(1);
     state.scan = scan;
     state.cleaned = undefined;
     state.preview = undefined;
@@ -449,6 +450,7 @@ async function open(source: Parameters<typeof api.openScan>[0]['source']) {
     busy(job, 'Factoring…');
     const first = await api.factors({ scanId: scan.scanId, maxRank: Math.min(minDim, FIRST_PASS_RANK), job });
     if (!current()) return;
+    document.body.dataset.factorsMs = (performance.now() - state.openedAt).toFixed(1);
     installModel(first, Math.min(20, minDim));
     busy(undefined);
     status(`Opened ${scan.name}. Refining the spectrum in the background…`);

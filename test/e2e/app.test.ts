@@ -83,7 +83,7 @@ describe('browser mode, end to end', () => {
 
   it('moving the slider changes the readouts, which equal `compress --json` at that rank', async () => {
     const at20 = await readouts(page);
-    // The first factorisation stops at rank 40; the slider reaches further once the refinement lands.
+    // The first factorisation stops at rank 24; the slider reaches further once the refinement lands.
     await page.waitForFunction(
       () => Number((document.getElementById('rank') as unknown as { max: string }).max) >= 50,
       undefined,

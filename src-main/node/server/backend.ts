@@ -34,6 +34,7 @@ import {
   UsageError,
 } from '../../contract';
 import { runBatchJob } from './batch-bridge';
+import { Worker } from 'node:worker_threads';
 import { SessionWorker } from './session-worker';
 
 const SCAN_EXT = new Set(['.png', '.tif', '.tiff', '.jpg', '.jpeg', '.webp']);
@@ -72,6 +73,9 @@ export class Backend extends EventEmitter {
 
   constructor(readonly options: BackendOptions) {
     super();
+    setImmediate(() => {
+      if (!this.closed && !this.spare) this.spare = this.newThread();
+    }).unref();
   }
 
   /** Dispatch one validated request. */
@@ -218,7 +222,7 @@ export class Backend extends EventEmitter {
       if (!f) throw new UsageError(`Unknown upload ${req.source.uploadId}; pick the file again`);
       file = f;
     } else file = await this.readable(req.source.path);
-    const session = new SessionWorker(this.options.workersDir, file, req.page);
+    const session = new SessionWorker(this.options.workersDir, file, req.page).adopt(this.takeSpare());
     const scanId = newId();
     try {
       const fig = await session.open((p) => this.progress({ job: `open-${scanId}`, ...p }));
@@ -232,14 +236,30 @@ export class Backend extends EventEmitter {
       }
       const factorLane = new SessionWorker(this.options.workersDir, file, req.page);
       this.scans.set(scanId, { file, summary, session, factorLane });
-      // Decode on the background lane now, so its refinement can start as soon as the page asks.
-      factorLane.open().catch(() => undefined);
       if (req.source.kind === 'path') this.addRecent(file);
       return summary;
     } catch (err) {
       void session.close();
       throw err;
     }
+  }
+
+  private spare?: Worker;
+  /** A scan-session thread started ahead of time, so opening a scan does not wait for a thread to load. */
+  private takeSpare(): Worker {
+    const w = this.spare ?? this.newThread();
+    this.spare = undefined;
+    setTimeout(() => {
+      if (!this.closed && !this.spare) this.spare = this.newThread();
+    }, 2000).unref();
+    return w;
+  }
+
+  private newThread(): Worker {
+    const w = new Worker(join(this.options.workersDir, 'scan-session.js'));
+    // A missing build shows up on the first real request, with the session's own error handling.
+    w.on('error', () => undefined);
+    return w;
   }
 
   private addRecent(file: string) {
@@ -266,7 +286,14 @@ export class Backend extends EventEmitter {
   private factors(req: FactorRequest): Promise<ArrayBuffer> {
     const s = this.scan(req.scanId);
     const lane = req.background ? s.factorLane : s.session;
-    return lane.run<ArrayBuffer>('factors', { maxRank: req.maxRank }, req.job, this.onJob(req.job));
+    // The first, foreground pass favours speed (one power iteration); the refinement favours accuracy.
+    const powerIters = req.background ? 2 : 1;
+    return lane.run<ArrayBuffer>(
+      'factors',
+      { maxRank: req.maxRank, powerIters },
+      req.job,
+      this.onJob(req.job),
+    );
   }
 
   private async evaluate(req: EvaluateRequest): Promise<EvaluateResult> {
@@ -395,7 +422,12 @@ export class Backend extends EventEmitter {
     }
   }
 
+  private closed = false;
+
   async close(): Promise<void> {
+    this.closed = true;
+    if (this.spare) await this.spare.terminate();
+    this.spare = undefined;
     for (const b of this.batches.values()) b.abort();
     await Promise.all([...this.scans.values()].flatMap((s) => [s.session.close(), s.factorLane.close()]));
     this.scans.clear();

@@ -29,11 +29,18 @@ export function readyEngine(): Promise<unknown> {
 }
 
 /** Truncated SVD of one m×n plane (row-major f32) to rank k, with the engine's randomized SVD. */
-export function planeSvd(plane: Float32Array, m: number, n: number, k: number, seed = 1): PlaneSvd {
+export function planeSvd(
+  plane: Float32Array,
+  m: number,
+  n: number,
+  k: number,
+  seed = 1,
+  powerIters = POWER_ITERATIONS,
+): PlaneSvd {
   const r = Math.min(k, m, n);
   const res = linalg.randomizedSvd({ rows: m, cols: n, data: plane }, r, {
     seed,
-    powerIters: POWER_ITERATIONS,
+    powerIters,
   });
   return {
     s: Float64Array.from(res.s.subarray(0, r)),
@@ -53,7 +60,12 @@ function columnsToRows(a: linalg.Matrix, k: number): Float32Array {
 }
 
 /** Factor every plane to `maxRank` and pack σ, U, V and the source planes. */
-export function factorScan(img: DecodedImage, maxRank: number, onProgress?: ProgressFn): Uint8Array {
+export function factorScan(
+  img: DecodedImage,
+  maxRank: number,
+  onProgress?: ProgressFn,
+  powerIters = POWER_ITERATIONS,
+): Uint8Array {
   const m = img.height;
   const n = img.width;
   const k = Math.max(1, Math.min(maxRank, m, n));
@@ -67,7 +79,7 @@ export function factorScan(img: DecodedImage, maxRank: number, onProgress?: Prog
     let e = 0;
     for (let i = 0; i < plane.length; i++) e += plane[i] * plane[i];
     energy.push(e);
-    const svd = planeSvd(plane, m, n, k, 1 + c);
+    const svd = planeSvd(plane, m, n, k, 1 + c, powerIters);
     ranks.push(svd.s.length);
     arrays[`sigma.${c}`] = Float32Array.from(svd.s);
     arrays[`u.${c}`] = svd.ut;

@@ -41,7 +41,7 @@ export async function runSessionOp(
   if (!image) throw new RankfoldError('No scan is open in this session; open it again.');
   if (op === 'factors') {
     await readyEngine();
-    const bytes = factorScan(image, args.maxRank as number, progress);
+    const bytes = factorScan(image, args.maxRank as number, progress, args.powerIters as number | undefined);
     const buf = bytes.buffer as ArrayBuffer;
     return { value: buf, transfer: [buf] };
   }

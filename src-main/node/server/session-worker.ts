@@ -33,8 +33,16 @@ export class SessionWorker {
     private readonly page?: number,
   ) {}
 
+  /** Use a thread started ahead of time (it has loaded its code already), for the first job only. */
+  adopt(w: Worker): this {
+    this.spare = w;
+    return this;
+  }
+  private spare?: Worker;
+
   private spawn(): Worker {
-    const w = new Worker(join(this.workersDir, 'scan-session.js'));
+    const w = this.spare ?? new Worker(join(this.workersDir, 'scan-session.js'));
+    this.spare = undefined;
     w.on(
       'message',
       (msg: {
@@ -130,6 +138,10 @@ export class SessionWorker {
   async close(): Promise<void> {
     const w = this.worker;
     this.worker = undefined;
+    this.opened = undefined;
+    this.failAll(new CancelledError('the job (its scan was closed)'));
+    if (this.spare) await this.spare.terminate();
+    this.spare = undefined;
     if (w) await w.terminate();
   }
 }
