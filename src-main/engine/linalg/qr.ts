@@ -133,10 +133,15 @@ function orthonormalizeWith(
   for (let pass = 0; pass < MAX_PASSES; pass++) {
     // Gram matrix G = YᵀY in f64 (conversion f32 → f64 is exact).
     // Later passes see a nearly orthonormal block, whose Gram matrix is well conditioned: working precision suffices.
-    if (Yd && pass > 0 && sc.Gw) {
+    // Not after a shifted pass: that block can still be ill-conditioned enough to break an f32 Gram matrix.
+    // uG: unit roundoff of the Gram matrix actually formed (f64 from exactly converted f32 samples,
+    // or f32 on later passes); the Cholesky breakdown floor and the shift use it, not the block's u.
+    let uG = u;
+    if (Yd && pass > 0 && sc.Gw && !shifted) {
       gram(ws, Y as Float32Array, m, l, sc.Gw);
       for (let i = 0; i < l * l; i++) G[i] = sc.Gw[i];
     } else if (Yd) {
+      uG = U64;
       Yd.set(Y.subarray(0, m * l));
       gram(ws, Yd, m, l, G);
     } else gram(ws, Y as Float64Array, m, l, G);
@@ -150,8 +155,8 @@ function orthonormalizeWith(
       }
     if (!Number.isFinite(frob)) throw new RangeError('orthonormalize: block contains NaN or infinity');
     let shift = 0;
-    if (pass === 0 && shifted) shift = 11 * (m * l + l * (l + 1)) * u * frob;
-    if (!cholesky(G, l, shift, Rc, u)) {
+    if (pass === 0 && shifted) shift = 11 * (m * l + l * (l + 1)) * uG * frob;
+    if (!cholesky(G, l, shift, Rc, uG)) {
       if (pass === 0 && !shifted) {
         shifted = true;
         pass = -1;
