@@ -217,12 +217,12 @@ async function main() {
       `| open 3000×4000 → spectrum + first reconstruction, wall clock from the click | ${fmt(openWall)} ms | decode alone ${fmt(decodeMs)} ms | ${(openWall / decodeMs).toFixed(2)}× | ≤ 1500 ms |`,
       `| same, measured in the page (click handler → first painted frame) | ${fmt(openPage)} ms | | | |`,
       `| of which: scan decoded and described (openScan answered) | ${fmt(openDecode)} ms | | | |`,
-      `| of which: rank-40 factors received (σ, U, V, source planes) | ${fmt(openFactors)} ms | | | |`,
+      `| of which: first factors received (rank 24: σ, U, V and the source planes) | ${fmt(openFactors)} ms | | | |`,
       `| slider step at 2000×1500, rebuild one layer + repaint (median of ${STEPS}) | ${fmt(sMed)} ms | repaint only ${fmt(rMed)} ms | ${(sMed / rMed).toFixed(2)}× | ≤ 16 ms |`,
       `| slider step, 95th percentile | ${fmt(sP95)} ms | | | ≤ 16 ms |`,
       `| slider step until the next animation frame (median) | ${fmt(fMed)} ms | | | |`,
       '',
-      `Verdict: open ${openWall <= 1500 ? 'meets' : 'misses'} the 1.5 s target; slider step ${sP95 <= 16 ? 'meets' : sMed <= 16 ? 'meets at the median but not at p95 of' : 'misses'} the 16 ms target.`,
+      `Verdict: open, measured in the page, ${openPage <= 1500 ? 'meets' : 'misses'} the 1.5 s target (wall clock with the driver's click and polling: ${openWall <= 1500 ? 'meets' : 'misses'}); slider step ${sP95 <= 16 ? 'meets' : sMed <= 16 ? 'meets at the median but not at p95 of' : 'misses'} the 16 ms target.`,
       '',
     );
   } finally {

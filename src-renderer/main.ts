@@ -191,11 +191,11 @@ function modelSource(): ViewSource | undefined {
   return {
     width: m.width,
     height: m.height,
-    peak: m.peak,
+    peak: m.displayPeak,
     original: m.planes.map((p) => p.src),
     recon: () => {
       if (state.showing === 'cleaned' && state.cleaned) return state.cleaned.cleaned;
-      if (state.showing === 'removed' && state.cleaned) return removedPlanes(m.peak);
+      if (state.showing === 'removed' && state.cleaned) return removedPlanes(m.displayPeak);
       if (state.tiled && state.preview) return state.preview.planes;
       return m.planes.map((p) => p.acc);
     },

@@ -62,6 +62,20 @@ export class LowRankModel {
     return this.header.peak;
   }
 
+  private brightest?: number;
+  /**
+   * White point for display: the brightest source sample (16-bit scans often use a fraction of 0–65535),
+   * at least 1. Figures always use {@link peak}, the nominal scale.
+   */
+  get displayPeak(): number {
+    if (this.brightest === undefined) {
+      let mx = 1;
+      for (const p of this.planes) for (let i = 0; i < p.src.length; i++) if (p.src[i] > mx) mx = p.src[i];
+      this.brightest = mx;
+    }
+    return this.brightest;
+  }
+
   /** Add (sign 1) or remove (sign −1) layer i of every plane. */
   private layer(i: number, sign: 1 | -1) {
     const m = this.height;

@@ -12,6 +12,7 @@ import { EventEmitter } from 'node:events';
 import { mkdtemp, readdir, realpath, rm, stat, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { basename, dirname, extname, join, resolve, sep } from 'node:path';
+import { Worker } from 'node:worker_threads';
 import {
   type ApiMethod,
   type BatchRequest,
@@ -34,7 +35,6 @@ import {
   UsageError,
 } from '../../contract';
 import { runBatchJob } from './batch-bridge';
-import { Worker } from 'node:worker_threads';
 import { SessionWorker } from './session-worker';
 
 const SCAN_EXT = new Set(['.png', '.tif', '.tiff', '.jpg', '.jpeg', '.webp']);
