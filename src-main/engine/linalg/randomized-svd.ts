@@ -149,7 +149,16 @@ export function randomizedSvdBytes(
     n * L +
     L * k +
     m * k;
-  const de = (f32 ? mx * L : 0) + 5 * L * L + 2 * n * L + 16 * L * L + (f32 ? n * L + 5 * L * L : 0) + n * L + L * L + L * k + n * k;
+  const de =
+    (f32 ? mx * L : 0) +
+    5 * L * L +
+    2 * n * L +
+    16 * L * L +
+    (f32 ? n * L + 5 * L * L : 0) +
+    n * L +
+    L * L +
+    L * k +
+    n * k;
   return (f32 ? bytesFor(pe, de) : bytesFor(0, pe + de)) + jacobiBytes(L, L);
 }
 
@@ -300,7 +309,11 @@ function gramCore(
   const V2 = ws.f64(n * k);
   ws.gemm(n, k, k, V64, 0, k, 1, copyTo(ws, Vm), 0, k, V2, 0, k, false);
   for (let i = 0; i < n * k; i++) Vout[i] = V2[i];
-  return { s: Float64Array.from(small.s), U: { rows: m, cols: k, data: Uout }, V: { rows: n, cols: k, data: Vout } };
+  return {
+    s: Float64Array.from(small.s),
+    U: { rows: m, cols: k, data: Uout },
+    V: { rows: n, cols: k, data: Vout },
+  };
 }
 
 /** Copy a plain array into the workspace so the kernel can read it. */

@@ -154,7 +154,13 @@ export function tridiagonalEigenvalues(dIn: Float64Array, eIn: Float64Array): Fl
  * reflectors are those of `tridiagonalize` (Golub & Van Loan §8.3.1), accumulated backwards
  * (Q = H₀(H₁(…H_{n−3})), GVL §5.1.6 backward accumulation — from memory), 4n³/3 flops.
  */
-export function tridiagonalizeQ(S: Float64Array, n: number, d: Float64Array, e: Float64Array, Q: Float64Array): void {
+export function tridiagonalizeQ(
+  S: Float64Array,
+  n: number,
+  d: Float64Array,
+  e: Float64Array,
+  Q: Float64Array,
+): void {
   const beta = new Float64Array(Math.max(n, 1));
   const v = new Float64Array(n);
   const p = new Float64Array(n);
@@ -246,7 +252,11 @@ export function tridiagonalizeQ(S: Float64Array, n: number, d: Float64Array, e: 
  * Et is the eigenvector of eigenvalue i. Rows are contiguous, so each rotation updates two rows.
  * Returns the eigenvalues (in no particular order; row i of Et belongs to value i).
  */
-export function tridiagonalEigenvectors(dIn: Float64Array, eIn: Float64Array, Et: Float64Array): Float64Array {
+export function tridiagonalEigenvectors(
+  dIn: Float64Array,
+  eIn: Float64Array,
+  Et: Float64Array,
+): Float64Array {
   const n = dIn.length;
   const d = Float64Array.from(dIn);
   const E = new Float64Array(n);
@@ -264,7 +274,8 @@ export function tridiagonalEigenvectors(dIn: Float64Array, eIn: Float64Array, Et
         if (Math.abs(E[m]) <= EPS * dd || Math.abs(E[m]) <= absTol) break;
       }
       if (m !== l) {
-        if (iter++ === MAX_QL_ITERS) throw new Error('tridiagonalEigenvectors: QL iteration did not converge');
+        if (iter++ === MAX_QL_ITERS)
+          throw new Error('tridiagonalEigenvectors: QL iteration did not converge');
         let g = (d[l + 1] - d[l]) / (2 * E[l]);
         let r = Math.hypot(g, 1);
         g = d[m] - d[l] + E[l] / (g + (g >= 0 ? Math.abs(r) : -Math.abs(r)));
