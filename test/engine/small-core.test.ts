@@ -2,7 +2,7 @@
 // refinement for graded spectra and its Jacobi fallback), and the symmetric eigensolver behind it.
 import { Matrix as MlMatrix, SVD as MlSVD } from 'ml-matrix';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { initEngine, jacobiSvd, randomizedSvd, tsBackend } from '../../src-main/engine/linalg';
+import { initEngine, jacobiSvd, randomizedSvd, tsBackend, wasmBackend } from '../../src-main/engine/linalg';
 import { symmetricEigen } from '../../src-main/engine/linalg/symmetric-eigen';
 import { frob, orthogonalityError, randomMatrix, residual, withSpectrum } from './helpers';
 
@@ -19,7 +19,8 @@ describe('symmetricEigen (tridiagonalisation + QL with vectors)', () => {
       if (i > 0) S[i * n + i - 1] = S[(i - 1) * n + i] = -1;
     }
     const { values, vectorsT } = symmetricEigen(S.slice(), n);
-    for (let j = 1; j <= n; j++) expect(Math.abs(values[n - j] - (2 - 2 * Math.cos((j * Math.PI) / (n + 1))))).toBeLessThan(1e-13);
+    for (let j = 1; j <= n; j++)
+      expect(Math.abs(values[n - j] - (2 - 2 * Math.cos((j * Math.PI) / (n + 1))))).toBeLessThan(1e-13);
     // Residual ‖S w − λ w‖ and orthonormality of the eigenvectors (definition; backward stability).
     let res = 0;
     for (let r = 0; r < n; r++)
@@ -38,12 +39,42 @@ describe('symmetricEigen (tridiagonalisation + QL with vectors)', () => {
     const n = 90;
     const X = randomMatrix(n, n, 5);
     const S = new Float64Array(n * n);
-    for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) S[i * n + j] = X.data[i * n + j] + X.data[j * n + i];
+    for (let i = 0; i < n; i++)
+      for (let j = 0; j < n; j++) S[i * n + j] = X.data[i * n + j] + X.data[j * n + i];
     const rows = Array.from({ length: n }, (_, i) => Array.from(S.subarray(i * n, i * n + n)));
-    const ref = [...new EVD(new MlMatrix(rows), { assumeSymmetric: true }).realEigenvalues].sort((a, b) => b - a);
+    const ref = [...new EVD(new MlMatrix(rows), { assumeSymmetric: true }).realEigenvalues].sort(
+      (a, b) => b - a,
+    );
     const { values } = symmetricEigen(S.slice(), n);
     const scale = Math.max(Math.abs(ref[0]), Math.abs(ref[n - 1]));
     for (let i = 0; i < n; i++) expect(Math.abs(values[i] - ref[i])).toBeLessThan(1e-11 * scale);
+  });
+});
+
+describe('symmetricEigen: WebAssembly kernel and TypeScript agree', () => {
+  it('random symmetric 131×131 (odd size): eigenvalues to 1e-12·‖S‖, eigenvectors to 1e-9 up to sign', () => {
+    const n = 131;
+    const X = randomMatrix(n, n, 9);
+    const ws = wasmBackend()!.workspace(8 * (3 * n * n + 20 * n) + 4096);
+    try {
+      const S = ws.f64(n * n);
+      for (let i = 0; i < n; i++)
+        for (let j = 0; j < n; j++) S[i * n + j] = X.data[i * n + j] + X.data[j * n + i];
+      const ts = symmetricEigen(S.slice(), n);
+      const wa = symmetricEigen(S, n, ws);
+      const scale = Math.max(Math.abs(ts.values[0]), Math.abs(ts.values[n - 1]));
+      for (let i = 0; i < n; i++) {
+        expect(Math.abs(ts.values[i] - wa.values[i])).toBeLessThan(1e-12 * scale);
+        let dot = 0;
+        for (let j = 0; j < n; j++) dot += ts.vectorsT[i * n + j] * wa.vectorsT[i * n + j];
+        expect(Math.abs(Math.abs(dot) - 1)).toBeLessThan(1e-9);
+      }
+      expect(orthogonalityError({ rows: n, cols: n, data: Float64Array.from(wa.vectorsT) })).toBeLessThan(
+        1e-13,
+      );
+    } finally {
+      ws.release();
+    }
   });
 });
 

@@ -260,7 +260,7 @@ function gramCore(
   const G = ws.f64(L * L);
   // G(i,j) = Σ_p Btd[p, i]·Btd[p, j]: Aᵀ·B form with rsA = 1, csA = L.
   ws.gemm(L, L, n, Btd, 0, 1, L, Btd, 0, L, G, 0, L, false);
-  const { values, vectorsT } = symmetricEigen(G, L);
+  const { values, vectorsT } = symmetricEigen(G, L, ws);
   const s1 = Math.sqrt(Math.max(values[0], 0));
   const sk = Math.sqrt(Math.max(values[k - 1], 0));
   if (!(s1 > 0) || sk < GRAM_CORE_FLOOR * s1) return null;

@@ -12,6 +12,8 @@
  * exact eigenvalue of S (Weyl's inequality).
  */
 
+import type { Workspace } from './workspace';
+
 /** Machine epsilon of float64. */
 const EPS = 2.220446049250313e-16;
 /** QL iterations allowed per eigenvalue; 2–3 are typical, 60 is far beyond need. */
@@ -327,14 +329,28 @@ export function tridiagonalEigenvectors(
  * Backward stable: each λ within a small multiple of n·ε·‖S‖₂ (Weyl), each eigenvector's angle
  * error ≲ n·ε·‖S‖₂ / gapᵢ (Davis–Kahan sin θ; GVL §8.1.3 — from memory).
  */
-export function symmetricEigen(S: Float64Array, n: number): { values: Float64Array; vectorsT: Float64Array } {
-  const d = new Float64Array(n);
-  const e = new Float64Array(Math.max(n - 1, 1));
-  const Q = new Float64Array(n * n);
-  tridiagonalizeQ(S, n, d, e, Q);
-  const Et = new Float64Array(n * n);
-  for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) Et[j * n + i] = Q[i * n + j];
-  const lam = tridiagonalEigenvectors(d, e.subarray(0, Math.max(n - 1, 0)), Et);
+export function symmetricEigen(
+  S: Float64Array,
+  n: number,
+  ws?: Workspace,
+): { values: Float64Array; vectorsT: Float64Array } {
+  let lam: Float64Array;
+  let Et: Float64Array;
+  // On a WebAssembly workspace (S from it, 6n + n + n² f64 free) the whole decomposition runs in the kernel.
+  const dw = ws?.symEigen ? ws.f64(n) : null;
+  const Ew = ws?.symEigen ? ws.f64(n * n) : null;
+  if (ws?.symEigen && dw && Ew && ws.symEigen(S, n, dw, Ew)) {
+    lam = dw;
+    Et = Ew;
+  } else {
+    const d = new Float64Array(n);
+    const e = new Float64Array(Math.max(n - 1, 1));
+    const Q = new Float64Array(n * n);
+    tridiagonalizeQ(S, n, d, e, Q);
+    Et = new Float64Array(n * n);
+    for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) Et[j * n + i] = Q[i * n + j];
+    lam = tridiagonalEigenvectors(d, e.subarray(0, Math.max(n - 1, 0)), Et);
+  }
   const order = Array.from({ length: n }, (_, i) => i).sort((a, b) => lam[b] - lam[a] || a - b);
   const values = new Float64Array(n);
   const vectorsT = new Float64Array(n * n);

@@ -11,6 +11,8 @@ import { gemmTs } from './gemm-ts';
 import type { FloatArray } from './matrix';
 import { activeKernels, ensureMemory, RESERVED_BYTES, type WasmKernels } from './wasm/runtime';
 
+/** QL iterations allowed per eigenvalue in the WebAssembly eigensolver (as symmetric-eigen.ts). */
+const MAX_QL_ITERS_WASM = 60;
 /** Every allocation starts on a 16-byte boundary (one v128). */
 const ALIGN = 16;
 
@@ -66,6 +68,13 @@ export interface Workspace {
     v: Float64Array,
     p: Float64Array,
   ): boolean;
+  /**
+   * Optional fast symmetric eigen-decomposition (symmetric-eigen.ts `symmetricEigen` steps) of the
+   * lower-stored n×n S (overwritten) from this workspace: d (n) receives the eigenvalues unsorted, row
+   * i of Et (n×n) the eigenvector of d[i]. Takes 6n f64 scratch from the workspace. Returns false when
+   * it cannot run (caller uses TS); throws when the QL iteration does not converge.
+   */
+  symEigen?(S: Float64Array, n: number, d: Float64Array, Et: Float64Array): boolean;
   /** Return the space to the backend. Views must not be used afterwards. */
   release(): void;
   /** Short label for diagnostics and the bench ("wasm", "ts", "2 workers"). */
@@ -206,6 +215,27 @@ class WasmWorkspace implements Workspace {
       v.byteOffset + 8 * n,
       p.byteOffset + 8 * n,
     );
+    return true;
+  }
+  symEigen(S: Float64Array, n: number, d: Float64Array, Et: Float64Array): boolean {
+    const buf = this.k.memory.buffer;
+    if (S.buffer !== buf || d.buffer !== buf || Et.buffer !== buf) return false;
+    const sc = [this.f64(n), this.f64(2 * n), this.f64(2 * n), this.f64(n), this.f64(n), this.f64(n)];
+    const [e, v, p, v2, p2, betas] = sc;
+    const rc = this.k.exports.symEigenF64(
+      S.byteOffset,
+      n,
+      d.byteOffset,
+      e.byteOffset,
+      Et.byteOffset,
+      v.byteOffset,
+      p.byteOffset,
+      v2.byteOffset,
+      p2.byteOffset,
+      betas.byteOffset,
+      MAX_QL_ITERS_WASM,
+    );
+    if (rc !== 0) throw new Error('symmetricEigen: QL iteration did not converge');
     return true;
   }
   release() {

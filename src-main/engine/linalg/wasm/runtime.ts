@@ -48,6 +48,20 @@ export interface KernelExports {
   ): number;
   /** Householder tridiagonalisation of a lower-stored symmetric matrix (see symmetric-eigen.ts). */
   tridiagF64(s: number, n: number, d: number, e: number, v: number, p: number, v2: number, p2: number): void;
+  /** Symmetric eigen-decomposition with vectors (see symmetric-eigen.ts `symmetricEigen`); 0 or -1 (no convergence). */
+  symEigenF64(
+    s: number,
+    n: number,
+    d: number,
+    e: number,
+    et: number,
+    v: number,
+    p: number,
+    v2: number,
+    p2: number,
+    betas: number,
+    maxIter: number,
+  ): number;
 }
 
 export interface WasmKernels {

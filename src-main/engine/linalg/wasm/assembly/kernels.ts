@@ -362,10 +362,26 @@ function symvLower(s: usize, n: i32, j0: i32, v: usize, p: usize, beta: f64): vo
 }
 
 export function tridiagF64(s: usize, n: i32, d: usize, e: usize, v: usize, p: usize, v2: usize, p2: usize): void {
+  tridiagImpl(s, n, d, e, v, p, v2, p2, 0);
+}
+
+/** houseCol, then (when betas ≠ 0) the reflector kept in column k below the diagonal and β in betas[k]. */
+function houseKeep(s: usize, n: i32, k: i32, v: usize, e: usize, betas: usize): f64 {
+  const beta = houseCol(s, n, k, v, e);
+  if (betas != 0) {
+    const rowBytes = <usize>n << 3;
+    const ck = <usize>k << 3;
+    for (let j = k + 1; j < n; j++) store<f64>(s + <usize>j * rowBytes + ck, load<f64>(v + (<usize>j << 3)));
+    store<f64>(betas + ck, beta);
+  }
+  return beta;
+}
+
+function tridiagImpl(s: usize, n: i32, d: usize, e: usize, v: usize, p: usize, v2: usize, p2: usize, betas: usize): void {
   const rowBytes = <usize>n << 3;
   if (n > 2) {
     store<f64>(d, load<f64>(s));
-    let beta = houseCol(s, n, 0, v, e);
+    let beta = houseKeep(s, n, 0, v, e, betas);
     symvLower(s, n, 1, v, p, beta);
     let cv = v, cp = p, nv = v2, np = p2;
     for (let k = 0; k < n - 2; k++) {
@@ -388,7 +404,7 @@ export function tridiagF64(s: usize, n: i32, d: usize, e: usize, v: usize, p: us
           store<f64>(at, load<f64>(at) - (load<f64>(cv + (<usize>j << 3)) * wk1 + load<f64>(cp + (<usize>j << 3)) * vk1));
         }
         store<f64>(d + c1, load<f64>(s + <usize>k1 * rowBytes + c1));
-        const nbeta = houseCol(s, n, k1, nv, e);
+        const nbeta = houseKeep(s, n, k1, nv, e, betas);
         // Fused pass over rows k+2…n−1: rank-2 update of step k, then S₂₂·v of step k+1 on the new values.
         const k2 = k + 2;
         for (let j = k2; j < n; j++) store<f64>(np + (<usize>j << 3), 0);
@@ -448,4 +464,137 @@ export function tridiagF64(s: usize, n: i32, d: usize, e: usize, v: usize, p: us
     store<f64>(e + (<usize>(n - 2) << 3), load<f64>(s + <usize>(n - 1) * rowBytes + (<usize>(n - 2) << 3)));
   }
   if (n >= 1) store<f64>(d + (<usize>(n - 1) << 3), load<f64>(s + <usize>(n - 1) * rowBytes + (<usize>(n - 1) << 3)));
+}
+
+/**
+ * Symmetric eigen-decomposition with vectors (symmetric-eigen.ts `symmetricEigen`, same steps):
+ * Householder tridiagonalisation keeping the reflectors, Et = Qᵀ accumulated by right products
+ * Et ← Et·H_k (rows contiguous), then implicit QL (tql2) rotating rows i, i+1 of Et.
+ * On return d holds the eigenvalues (unsorted) and row i of Et the eigenvector of d[i].
+ * Returns 0, or -1 when a QL iteration did not converge. betas: n f64 scratch.
+ */
+export function symEigenF64(s: usize, n: i32, d: usize, e: usize, et: usize, v: usize, p: usize, v2: usize, p2: usize, betas: usize, maxIter: i32): i32 {
+  const rowBytes = <usize>n << 3;
+  for (let k = 0; k < n; k++) store<f64>(betas + (<usize>k << 3), 0);
+  tridiagImpl(s, n, d, e, v, p, v2, p2, betas);
+  // Et = I, then Et ← Et·H_k for k = n−3 … 0 (only rows/columns k+1… change).
+  for (let i = 0; i < n; i++) {
+    const row = et + <usize>i * rowBytes;
+    for (let j = 0; j < n; j++) store<f64>(row + (<usize>j << 3), i == j ? 1.0 : 0.0);
+  }
+  for (let k = n - 3; k >= 0; k--) {
+    const beta = load<f64>(betas + (<usize>k << 3));
+    if (beta == 0) continue;
+    const k1 = k + 1;
+    const ck = <usize>k << 3;
+    for (let j = k1; j < n; j++) store<f64>(v + (<usize>j << 3), load<f64>(s + <usize>j * rowBytes + ck));
+    for (let r = k1; r < n; r++) {
+      const row = et + <usize>r * rowBytes;
+      let tv = f64x2.splat(0);
+      let j = k1;
+      for (; j + 1 < n; j += 2) {
+        const o = <usize>j << 3;
+        tv = f64x2.add(tv, f64x2.mul(v128.load(row + o), v128.load(v + o)));
+      }
+      let t = hsum(tv);
+      for (; j < n; j++) t += load<f64>(row + (<usize>j << 3)) * load<f64>(v + (<usize>j << 3));
+      t *= beta;
+      if (t == 0) continue;
+      const tt = f64x2.splat(t);
+      j = k1;
+      for (; j + 1 < n; j += 2) {
+        const o = <usize>j << 3;
+        v128.store(row + o, f64x2.sub(v128.load(row + o), f64x2.mul(tt, v128.load(v + o))));
+      }
+      for (; j < n; j++) {
+        const o = <usize>j << 3;
+        store<f64>(row + o, load<f64>(row + o) - t * load<f64>(v + o));
+      }
+    }
+  }
+  // tql2 (Bowdler, Martin, Reinsch, Wilkinson 1968) with the deflation tests of tridiagonalEigenvalues.
+  const E = p; // n f64: sub-diagonal shifted down by one slot, E[n-1] = 0
+  for (let i = 0; i < n - 1; i++) store<f64>(E + (<usize>i << 3), load<f64>(e + (<usize>i << 3)));
+  if (n > 0) store<f64>(E + (<usize>(n - 1) << 3), 0);
+  const EPS: f64 = 2.220446049250313e-16;
+  let normT: f64 = 0;
+  for (let i = 0; i < n; i++) {
+    let t = abs(load<f64>(d + (<usize>i << 3))) + abs(load<f64>(E + (<usize>i << 3)));
+    if (i > 0) t += abs(load<f64>(E + (<usize>(i - 1) << 3)));
+    normT = max(normT, t);
+  }
+  const absTol = EPS * normT;
+  for (let l = 0; l < n; l++) {
+    let iter = 0;
+    let m = l;
+    do {
+      for (m = l; m < n - 1; m++) {
+        const dd = abs(load<f64>(d + (<usize>m << 3))) + abs(load<f64>(d + (<usize>(m + 1) << 3)));
+        const em = abs(load<f64>(E + (<usize>m << 3)));
+        if (em <= EPS * dd || em <= absTol) break;
+      }
+      if (m != l) {
+        if (iter++ == maxIter) return -1;
+        const dl = load<f64>(d + (<usize>l << 3));
+        const el = load<f64>(E + (<usize>l << 3));
+        let g = (load<f64>(d + (<usize>(l + 1) << 3)) - dl) / (2 * el);
+        let r = hypot(g, 1);
+        g = load<f64>(d + (<usize>m << 3)) - dl + el / (g + (g >= 0 ? abs(r) : -abs(r)));
+        let sn: f64 = 1, c: f64 = 1, pp: f64 = 0;
+        let early = false;
+        for (let i = m - 1; i >= l; i--) {
+          const ei = load<f64>(E + (<usize>i << 3));
+          const f = sn * ei;
+          const b = c * ei;
+          r = hypot(f, g);
+          store<f64>(E + (<usize>(i + 1) << 3), r);
+          if (r == 0) {
+            const o = <usize>(i + 1) << 3;
+            store<f64>(d + o, load<f64>(d + o) - pp);
+            store<f64>(E + (<usize>m << 3), 0);
+            early = true;
+            break;
+          }
+          sn = f / r;
+          c = g / r;
+          g = load<f64>(d + (<usize>(i + 1) << 3)) - pp;
+          r = (load<f64>(d + (<usize>i << 3)) - g) * sn + 2 * c * b;
+          pp = sn * r;
+          store<f64>(d + (<usize>(i + 1) << 3), g + pp);
+          g = c * r - b;
+          const ri = et + <usize>i * rowBytes;
+          const rj = ri + rowBytes;
+          const cv = f64x2.splat(c), sv = f64x2.splat(sn);
+          let q = 0;
+          for (; q + 1 < n; q += 2) {
+            const o = <usize>q << 3;
+            const x = v128.load(ri + o);
+            const y = v128.load(rj + o);
+            v128.store(rj + o, f64x2.add(f64x2.mul(sv, x), f64x2.mul(cv, y)));
+            v128.store(ri + o, f64x2.sub(f64x2.mul(cv, x), f64x2.mul(sv, y)));
+          }
+          for (; q < n; q++) {
+            const o = <usize>q << 3;
+            const x = load<f64>(ri + o);
+            const y = load<f64>(rj + o);
+            store<f64>(rj + o, sn * x + c * y);
+            store<f64>(ri + o, c * x - sn * y);
+          }
+        }
+        if (early) continue;
+        store<f64>(d + (<usize>l << 3), load<f64>(d + (<usize>l << 3)) - pp);
+        store<f64>(E + (<usize>l << 3), g);
+        store<f64>(E + (<usize>m << 3), 0);
+      }
+    } while (m != l);
+  }
+  return 0;
+}
+
+@inline function hypot(a: f64, b: f64): f64 {
+  const x = abs(a), y = abs(b);
+  const big = max(x, y);
+  if (big == 0) return 0;
+  const sm = min(x, y) / big;
+  return big * sqrt(1 + sm * sm);
 }
