@@ -188,6 +188,15 @@ async function main() {
     );
     const error = await page.getAttribute('#status-text', 'data-error');
     if (error) throw new Error(`the page reported: ${error}`);
+    // Steady state: the background refinement has landed and its rebuild is done.
+    await page.waitForSelector('body[data-refined]', { timeout: 300_000 });
+    await page.waitForFunction(
+      () => document.body.dataset.appliedRank === (document.getElementById('rank')?.value ?? ''),
+      undefined,
+      {
+        timeout: 60_000,
+      },
+    );
     const max = Number(await page.getAttribute('#rank', 'max'));
     const start = Number(await page.inputValue('#rank'));
     const steps: { syncMs: number; frameMs: number }[] = [];

@@ -432,6 +432,7 @@ async function open(source: Parameters<typeof api.openScan>[0]['source']) {
   state.firstPaintMs = undefined;
   delete document.body.dataset.firstPaintMs;
   delete document.body.dataset.initialRankMs;
+  delete document.body.dataset.refined;
   const job = newJob();
   busy(job, 'Reading the scan…');
   try {
@@ -461,6 +462,7 @@ async function open(source: Parameters<typeof api.openScan>[0]['source']) {
       const more = await api.factors({ scanId: scan.scanId, maxRank: k2, job: job2, background: true });
       if (current()) {
         installModel(more, Number(rankInput.value));
+        document.body.dataset.refined = scan.scanId;
         status(`Spectrum to rank ${k2} ready.`);
       }
     } else status(`Opened ${scan.name}.`);
@@ -781,7 +783,17 @@ $('batch-run').addEventListener('click', async () => {
       job,
     });
     for (const f of r.files)
-      batchProgress({ done: 0, total: r.files.length, stage: f.state, file: f.file, message: f.message });
+      batchProgress({
+        done: 0,
+        total: r.files.length,
+        stage: f.state,
+        file: f.file,
+        message:
+          f.message ??
+          (f.outputBytes !== undefined
+            ? `${fmtBytes(f.outputBytes)}, PSNR ${f.psnr?.toFixed(2)} dB`
+            : undefined),
+      });
     state.reportId = r.reportId;
     $<HTMLButtonElement>('batch-report').disabled = !r.reportId;
     const failed = r.files.filter((f) => f.state === 'failed').length;

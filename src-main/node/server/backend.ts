@@ -222,6 +222,8 @@ export class Backend extends EventEmitter {
       if (!f) throw new UsageError(`Unknown upload ${req.source.uploadId}; pick the file again`);
       file = f;
     } else file = await this.readable(req.source.path);
+    // A new scan takes the cores: stop the previous scan's background refinement first.
+    for (const s of this.scans.values()) void s.factorLane.close();
     const session = new SessionWorker(this.options.workersDir, file, req.page).adopt(this.takeSpare());
     const scanId = newId();
     try {
