@@ -75,6 +75,66 @@ const KC: i32 = 256;
   store<f32>(pc, s);
 }
 
+// Remainder blocks of 4 columns (f32) / 2 columns (f64): one v128 per row, so widths like l = 60 or
+// 210 do not fall back to scalar columns (a scalar column costs about as much as a full 8-wide block).
+@inline function kern4x4f32(kc: i32, pa: usize, rA: usize, sA: usize, pb: usize, sB: usize, pc: usize, ldc4: usize, acc: bool): void {
+  let c0 = f32x4.splat(0), c1 = f32x4.splat(0), c2 = f32x4.splat(0), c3 = f32x4.splat(0);
+  for (let p = 0; p < kc; p++) {
+    const b0 = v128.load(pb);
+    c0 = f32x4.add(c0, f32x4.mul(f32x4.splat(load<f32>(pa)), b0));
+    c1 = f32x4.add(c1, f32x4.mul(f32x4.splat(load<f32>(pa + rA)), b0));
+    c2 = f32x4.add(c2, f32x4.mul(f32x4.splat(load<f32>(pa + 2 * rA)), b0));
+    c3 = f32x4.add(c3, f32x4.mul(f32x4.splat(load<f32>(pa + 3 * rA)), b0));
+    pa += sA;
+    pb += sB;
+  }
+  if (acc) {
+    c0 = f32x4.add(c0, v128.load(pc)); c1 = f32x4.add(c1, v128.load(pc + ldc4));
+    c2 = f32x4.add(c2, v128.load(pc + 2 * ldc4)); c3 = f32x4.add(c3, v128.load(pc + 3 * ldc4));
+  }
+  v128.store(pc, c0); v128.store(pc + ldc4, c1); v128.store(pc + 2 * ldc4, c2); v128.store(pc + 3 * ldc4, c3);
+}
+
+@inline function kern1x4f32(kc: i32, pa: usize, sA: usize, pb: usize, sB: usize, pc: usize, acc: bool): void {
+  let c0 = f32x4.splat(0);
+  for (let p = 0; p < kc; p++) {
+    c0 = f32x4.add(c0, f32x4.mul(f32x4.splat(load<f32>(pa)), v128.load(pb)));
+    pa += sA;
+    pb += sB;
+  }
+  if (acc) c0 = f32x4.add(c0, v128.load(pc));
+  v128.store(pc, c0);
+}
+
+@inline function kern4x2f64(kc: i32, pa: usize, rA: usize, sA: usize, pb: usize, sB: usize, pc: usize, ldc8: usize, acc: bool): void {
+  let c0 = f64x2.splat(0), c1 = f64x2.splat(0), c2 = f64x2.splat(0), c3 = f64x2.splat(0);
+  for (let p = 0; p < kc; p++) {
+    const b0 = v128.load(pb);
+    c0 = f64x2.add(c0, f64x2.mul(f64x2.splat(load<f64>(pa)), b0));
+    c1 = f64x2.add(c1, f64x2.mul(f64x2.splat(load<f64>(pa + rA)), b0));
+    c2 = f64x2.add(c2, f64x2.mul(f64x2.splat(load<f64>(pa + 2 * rA)), b0));
+    c3 = f64x2.add(c3, f64x2.mul(f64x2.splat(load<f64>(pa + 3 * rA)), b0));
+    pa += sA;
+    pb += sB;
+  }
+  if (acc) {
+    c0 = f64x2.add(c0, v128.load(pc)); c1 = f64x2.add(c1, v128.load(pc + ldc8));
+    c2 = f64x2.add(c2, v128.load(pc + 2 * ldc8)); c3 = f64x2.add(c3, v128.load(pc + 3 * ldc8));
+  }
+  v128.store(pc, c0); v128.store(pc + ldc8, c1); v128.store(pc + 2 * ldc8, c2); v128.store(pc + 3 * ldc8, c3);
+}
+
+@inline function kern1x2f64(kc: i32, pa: usize, sA: usize, pb: usize, sB: usize, pc: usize, acc: bool): void {
+  let c0 = f64x2.splat(0);
+  for (let p = 0; p < kc; p++) {
+    c0 = f64x2.add(c0, f64x2.mul(f64x2.splat(load<f64>(pa)), v128.load(pb)));
+    pa += sA;
+    pb += sB;
+  }
+  if (acc) c0 = f64x2.add(c0, v128.load(pc));
+  v128.store(pc, c0);
+}
+
 /** C[m×n] (+)= A(m×k)·B[k×n] in f32. `accumulate` 0 overwrites C, 1 adds to it. */
 export function gemmF32(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b: usize, ldb: i32, c: usize, ldc: i32, accumulate: i32): void {
   const rA = <usize>rsA << 2, sA = <usize>csA << 2, sB = <usize>ldb << 2, ldc4 = <usize>ldc << 2;
@@ -94,6 +154,7 @@ export function gemmF32(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b:
       const pc = c + <usize>i * ldc4;
       let j = 0;
       for (; j < n8; j += 8) kern4x8f32(kc, pa, rA, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), ldc4, acc);
+      if (j + 4 <= n) { kern4x4f32(kc, pa, rA, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), ldc4, acc); j += 4; }
       for (; j < n; j++) kern4x1f32(kc, pa, rA, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), ldc4, acc);
     }
     for (; i < m; i++) {
@@ -101,6 +162,7 @@ export function gemmF32(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b:
       const pc = c + <usize>i * ldc4;
       let j = 0;
       for (; j < n8; j += 8) kern1x8f32(kc, pa, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), acc);
+      if (j + 4 <= n) { kern1x4f32(kc, pa, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), acc); j += 4; }
       for (; j < n; j++) kern1x1f32(kc, pa, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), acc);
     }
   }
@@ -190,6 +252,7 @@ export function gemmF64(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b:
       const pc = c + <usize>i * ldc8;
       let j = 0;
       for (; j < n4; j += 4) kern4x4f64(kc, pa, rA, sA, bP + (<usize>j << 3), sB, pc + (<usize>j << 3), ldc8, acc);
+      if (j + 2 <= n) { kern4x2f64(kc, pa, rA, sA, bP + (<usize>j << 3), sB, pc + (<usize>j << 3), ldc8, acc); j += 2; }
       for (; j < n; j++) kern4x1f64(kc, pa, rA, sA, bP + (<usize>j << 3), sB, pc + (<usize>j << 3), ldc8, acc);
     }
     for (; i < m; i++) {
@@ -197,6 +260,7 @@ export function gemmF64(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b:
       const pc = c + <usize>i * ldc8;
       let j = 0;
       for (; j < n4; j += 4) kern1x4f64(kc, pa, sA, bP + (<usize>j << 3), sB, pc + (<usize>j << 3), acc);
+      if (j + 2 <= n) { kern1x2f64(kc, pa, sA, bP + (<usize>j << 3), sB, pc + (<usize>j << 3), acc); j += 2; }
       for (; j < n; j++) kern1x1f64(kc, pa, sA, bP + (<usize>j << 3), sB, pc + (<usize>j << 3), acc);
     }
   }
