@@ -3,7 +3,7 @@
  *
  * The carry-less byte-wise range coder with a cache byte follows the structure published with the
  * LZMA SDK (I. Pavlov, public domain, "RangeEnc_ShiftLow"; from memory) and G. N. N. Martin, "Range
- * encoding: an algorithm for removing redundancy from a digitised message", Video & Data Recording
+ * encoding: an algorithm for removing redundancy from a digitised message", IERE Data Recording
  * Conference, Southampton, 1979. Probabilities are 15-bit; each context averages a fast and a slow
  * adaptive estimate (windows of 16 and 128 observations), both starting as frequency counts (common practice). Integers are binarised as a zero flag, a sign and a
  * unary-then-Exp-Golomb magnitude, each bin with its own adaptive context, in the spirit of CABAC

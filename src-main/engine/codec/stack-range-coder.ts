@@ -2,7 +2,7 @@
  * Adaptive binary range coder with 11-bit probabilities, used by the stack layout's plane coder.
  *
  * The arithmetic is the carry-propagating range coder of G. N. N. Martin, "Range encoding: an algorithm
- * for removing redundancy from a digitised message", Video & Data Recording Conference, Southampton,
+ * for removing redundancy from a digitised message", IERE Data Recording Conference, Southampton,
  * 1979, in the binary adaptive form whose probability update is p ← p ± (2048 − p or p) >> 5 (a
  * well-known construction, here from memory). Pure TypeScript; no dependency.
  */
