@@ -7,11 +7,11 @@ beforeAll(async () => {
   expect((await initEngine()).wasm).toBe(true);
 });
 
-it('A·B and Aᵀ·B for n = 1…13 and 60, 210 columns, f32 and f64, with accumulate', () => {
+it('A·B and Aᵀ·B for n = 1…13 and 60, 210, 300 columns (two f32 column blocks), f32 and f64, with accumulate', () => {
   const m = 37;
   const k = 301; // > one K block (256)
   for (const f32 of [true, false])
-    for (const n of [1, 2, 3, 4, 5, 6, 7, 9, 10, 11, 12, 13, 60, 210]) {
+    for (const n of [1, 2, 3, 4, 5, 6, 7, 9, 10, 11, 12, 13, 60, 210, 300]) {
       const ws = wasmBackend()!.workspace(8 * (2 * m * k + 2 * k * n + 4 * m * n) + 4096);
       try {
         const alloc = (len: number) => (f32 ? ws.f32(len) : ws.f64(len));

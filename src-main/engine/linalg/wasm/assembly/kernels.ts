@@ -9,6 +9,8 @@
 
 /** Depth of one K block: a 4×KC strip of A (4 KiB in f32) stays in L1 while all of B's KC×n panel streams. */
 const KC: i32 = 256;
+/** Width of one f32 column block of B: a KC×NC panel is 256 KiB (fits L2). (f64: measured slower on the Gram shape.) */
+const NC_F32: i32 = 256;
 
 // ---------------------------------------------------------------- f32, register block 4 rows × 8 columns
 @inline function kern4x8f32(kc: i32, pa: usize, rA: usize, sA: usize, pb: usize, sB: usize, pc: usize, ldc4: usize, acc: bool): void {
@@ -142,28 +144,33 @@ export function gemmF32(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b:
     if (!accumulate) for (let i = 0; i < m; i++) memory.fill(c + <usize>i * ldc4, 0, <usize>n << 2);
     return;
   }
-  const n8 = n & ~7, m4 = m & ~3;
+  const m4 = m & ~3;
   for (let p0 = 0; p0 < k; p0 += KC) {
     const kc = min(KC, k - p0);
     const acc = accumulate != 0 || p0 > 0;
     const aP = a + (<usize>p0) * sA;
     const bP = b + (<usize>p0) * sB;
-    let i = 0;
-    for (; i < m4; i += 4) {
-      const pa = aP + <usize>i * rA;
-      const pc = c + <usize>i * ldc4;
-      let j = 0;
-      for (; j < n8; j += 8) kern4x8f32(kc, pa, rA, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), ldc4, acc);
-      if (j + 4 <= n) { kern4x4f32(kc, pa, rA, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), ldc4, acc); j += 4; }
-      for (; j < n; j++) kern4x1f32(kc, pa, rA, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), ldc4, acc);
-    }
-    for (; i < m; i++) {
-      const pa = aP + <usize>i * rA;
-      const pc = c + <usize>i * ldc4;
-      let j = 0;
-      for (; j < n8; j += 8) kern1x8f32(kc, pa, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), acc);
-      if (j + 4 <= n) { kern1x4f32(kc, pa, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), acc); j += 4; }
-      for (; j < n; j++) kern1x1f32(kc, pa, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), acc);
+    // Column blocks of NC_F32: the KC×NC panel of B (≤ 256 KiB) stays in L2 while every row strip passes.
+    for (let j0 = 0; j0 < n; j0 += NC_F32) {
+      const j1 = min(n, j0 + NC_F32);
+      const n8 = j0 + ((j1 - j0) & ~7);
+      let i = 0;
+      for (; i < m4; i += 4) {
+        const pa = aP + <usize>i * rA;
+        const pc = c + <usize>i * ldc4;
+        let j = j0;
+        for (; j < n8; j += 8) kern4x8f32(kc, pa, rA, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), ldc4, acc);
+        if (j + 4 <= j1) { kern4x4f32(kc, pa, rA, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), ldc4, acc); j += 4; }
+        for (; j < j1; j++) kern4x1f32(kc, pa, rA, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), ldc4, acc);
+      }
+      for (; i < m; i++) {
+        const pa = aP + <usize>i * rA;
+        const pc = c + <usize>i * ldc4;
+        let j = j0;
+        for (; j < n8; j += 8) kern1x8f32(kc, pa, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), acc);
+        if (j + 4 <= j1) { kern1x4f32(kc, pa, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), acc); j += 4; }
+        for (; j < j1; j++) kern1x1f32(kc, pa, sA, bP + (<usize>j << 2), sB, pc + (<usize>j << 2), acc);
+      }
     }
   }
 }
