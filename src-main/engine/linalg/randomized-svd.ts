@@ -96,6 +96,12 @@ export function checkRank(a: Matrix, k: number, fn: string): void {
  * Expected Frobenius error: HMT Thm 10.5 / Cor 10.10; with the defaults, within ~0.5% of the
  * Eckart–Young optimum on image spectra. Deterministic for a given seed and backend.
  * U is m×k, V is n×k, in the working precision; s (Float64Array) is non-increasing.
+ * Small SVD of B = QᵀA (L = k + p columns): for L < 48 one-sided Jacobi on the R of Bᵀ = Q₂R; from 48
+ * up the eigen-decomposition of the L×L Gram matrix B·Bᵀ (Householder + QL with vectors, in WASM),
+ * which gives each of the leading σᵢ to ≲ c·L·ε·σ₁²/σᵢ (≤ 1e-9·σ₁ for σᵢ ≥ 3e-4·σ₁) — orders below the
+ * range finder's own error — with U orthonormal to working precision; when σ_k/σ₁ < 3e-4 (f32) or
+ * 3e-3 (f64) V is re-orthonormalised and the nearly diagonal k×k core re-diagonalised by Jacobi, and
+ * below 1e-6 the Jacobi route on R is used instead.
  * @throws RangeError when k is not an integer in 1…min(m,n) or A has NaN/infinite entries.
  * @example const { s, U, V } = randomizedSvd(image, 50, { seed: 1 });
  */
