@@ -53,3 +53,51 @@ it('A·B and Aᵀ·B for n = 1…13 and 60, 210, 300 columns (two f32 column blo
       }
     }
 });
+
+it('kernel Cholesky and triangular inverse: L·Lᵀ = G + shift·I, R⁻¹·R = I (definitions), breakdown on an indefinite G', () => {
+  const l = 67;
+  const ws = wasmBackend()!.workspace(8 * (5 * l * l) + 4096);
+  try {
+    const G = ws.f64(l * l);
+    const L = ws.f64(l * l);
+    const R = ws.f64(l * l);
+    const Ri = ws.f64(l * l);
+    let x = 3;
+    const rnd = () => {
+      x = (x * 1103515245 + 12345) % 2147483648;
+      return x / 2147483648 - 0.5;
+    };
+    const X = Array.from({ length: 2 * l * l }, rnd);
+    for (let i = 0; i < l; i++)
+      for (let j = 0; j < l; j++) {
+        let s = 0;
+        for (let p = 0; p < 2 * l; p++) s += X[p * l + i] * X[p * l + j];
+        G[i * l + j] = s;
+      }
+    const shift = 0.25;
+    expect(ws.choleskyLower!(G, l, shift, 1e-12, L)).toBe(1);
+    let err = 0;
+    for (let i = 0; i < l; i++)
+      for (let j = 0; j < l; j++) {
+        let s = 0;
+        for (let p = 0; p < l; p++) s += L[i * l + p] * L[j * l + p];
+        err = Math.max(err, Math.abs(s - G[i * l + j] - (i === j ? shift : 0)));
+        if (j > i) expect(L[i * l + j]).toBe(0);
+      }
+    expect(err).toBeLessThan(1e-12 * l);
+    for (let i = 0; i < l; i++) for (let j = 0; j < l; j++) R[i * l + j] = L[j * l + i];
+    expect(ws.invertUpper!(R, l, Ri)).toBe(true);
+    let e2 = 0;
+    for (let i = 0; i < l; i++)
+      for (let j = 0; j < l; j++) {
+        let s = 0;
+        for (let p = 0; p < l; p++) s += Ri[i * l + p] * R[p * l + j];
+        e2 = Math.max(e2, Math.abs(s - (i === j ? 1 : 0)));
+      }
+    expect(e2).toBeLessThan(1e-12);
+    G[5 * l + 5] = -1; // not positive definite any more
+    expect(ws.choleskyLower!(G, l, 0, 1e-12, L)).toBe(0);
+  } finally {
+    ws.release();
+  }
+});

@@ -156,7 +156,7 @@ function orthonormalizeWith(
     if (!Number.isFinite(frob)) throw new RangeError('orthonormalize: block contains NaN or infinity');
     let shift = 0;
     if (pass === 0 && shifted) shift = 11 * (m * l + l * (l + 1)) * uG * frob;
-    if (!cholesky(G, l, shift, Rc, uG)) {
+    if (!cholesky(G, l, shift, Rc, uG, ws)) {
       if (pass === 0 && !shifted) {
         shifted = true;
         pass = -1;
@@ -165,7 +165,7 @@ function orthonormalizeWith(
       householderInPlace(Y, m, l, R);
       return 'householder';
     }
-    invertUpper(Rc, l, Rinv);
+    if (!ws.invertUpper?.(Rc, l, Rinv)) invertUpper(Rc, l, Rinv);
     for (let i = 0; i < l * l; i++) Ri[i] = Rinv[i];
     ws.gemm(m, l, l, Y, 0, l, 1, Ri, 0, l, T, 0, l, false);
     Y.set(T, 0);
@@ -195,7 +195,14 @@ function orthonormalizeWith(
  * Upper Cholesky factor of (G + shift·I) into Rc; false on breakdown. A pivot below
  * `BREAKDOWN·u·max diag` counts as breakdown: it means κ(Y)² exceeds what precision u can represent.
  */
-function cholesky(G: Float64Array, l: number, shift: number, Rc: Float64Array, u: number): boolean {
+function cholesky(
+  G: Float64Array,
+  l: number,
+  shift: number,
+  Rc: Float64Array,
+  u: number,
+  ws?: Workspace,
+): boolean {
   let maxDiag = 0;
   for (let i = 0; i < l; i++) maxDiag = Math.max(maxDiag, G[i * l + i] + shift);
   if (!(maxDiag > 0)) return false;
@@ -203,8 +210,10 @@ function cholesky(G: Float64Array, l: number, shift: number, Rc: Float64Array, u
   // Lower factor L (G + shift·I = L·Lᵀ) computed row by row so every inner product runs over
   // contiguous memory; Rc = Lᵀ at the end. Rc is used as L's storage first.
   const L = Rc;
-  L.fill(0);
-  for (let i = 0; i < l; i++) {
+  const fast = ws?.choleskyLower?.(G, l, shift, floor, L) ?? -1;
+  if (fast === 0) return false;
+  if (fast < 0) L.fill(0);
+  for (let i = 0; i < l && fast < 0; i++) {
     const ri = i * l;
     for (let j = 0; j <= i; j++) {
       const rj = j * l;

@@ -75,6 +75,12 @@ export interface Workspace {
    * it cannot run (caller uses TS); throws when the QL iteration does not converge.
    */
   symEigen?(S: Float64Array, n: number, d: Float64Array, Et: Float64Array): boolean;
+  /**
+   * Optional kernel versions of qr.ts `cholesky` (lower factor into L; 1 ok, 0 breakdown, -1 cannot
+   * run) and `invertUpper` (false: cannot run). Same operations in the same order: bit-identical.
+   */
+  choleskyLower?(G: Float64Array, l: number, shift: number, floor: number, L: Float64Array): number;
+  invertUpper?(R: Float64Array, l: number, out: Float64Array): boolean;
   /** Return the space to the backend. Views must not be used afterwards. */
   release(): void;
   /** Short label for diagnostics and the bench ("wasm", "ts", "2 workers"). */
@@ -236,6 +242,17 @@ class WasmWorkspace implements Workspace {
       MAX_QL_ITERS_WASM,
     );
     if (rc !== 0) throw new Error('symmetricEigen: QL iteration did not converge');
+    return true;
+  }
+  choleskyLower(G: Float64Array, l: number, shift: number, floor: number, L: Float64Array): number {
+    const buf = this.k.memory.buffer;
+    if (G.buffer !== buf || L.buffer !== buf) return -1;
+    return this.k.exports.cholLowerF64(G.byteOffset, l, shift, floor, L.byteOffset);
+  }
+  invertUpper(R: Float64Array, l: number, out: Float64Array): boolean {
+    const buf = this.k.memory.buffer;
+    if (R.buffer !== buf || out.buffer !== buf) return false;
+    this.k.exports.invUpperF64(R.byteOffset, l, out.byteOffset);
     return true;
   }
   release() {

@@ -669,3 +669,49 @@ export function symEigenF64(s: usize, n: i32, d: usize, e: usize, et: usize, v: 
   const sm = min(x, y) / big;
   return big * sqrt(1 + sm * sm);
 }
+
+/**
+ * Lower Cholesky factor of (sym(G) + shift·I) into l (row-major), the same operations in the same
+ * order as qr.ts `cholesky` (bit-identical results). Returns 1, or 0 on a pivot ≤ floor (breakdown).
+ */
+export function cholLowerF64(g: usize, n: i32, shift: f64, floor: f64, l: usize): i32 {
+  const rowBytes = <usize>n << 3;
+  memory.fill(l, 0, <usize>n * rowBytes);
+  for (let i = 0; i < n; i++) {
+    const ri = <usize>i * rowBytes;
+    for (let j = 0; j <= i; j++) {
+      const rj = <usize>j * rowBytes;
+      let sum = 0.5 * (load<f64>(g + ri + (<usize>j << 3)) + load<f64>(g + rj + (<usize>i << 3))) + (i == j ? shift : 0);
+      for (let p = 0; p < j; p++) sum -= load<f64>(l + ri + (<usize>p << 3)) * load<f64>(l + rj + (<usize>p << 3));
+      if (i == j) {
+        if (!(sum > floor)) return 0;
+        store<f64>(l + ri + (<usize>i << 3), sqrt(sum));
+      } else store<f64>(l + ri + (<usize>j << 3), sum / load<f64>(l + rj + (<usize>j << 3)));
+    }
+  }
+  return 1;
+}
+
+/** Inverse of the upper-triangular R (row-major), same operations and order as qr.ts `invertUpper`. */
+export function invUpperF64(r: usize, n: i32, out: usize): void {
+  const rowBytes = <usize>n << 3;
+  memory.fill(out, 0, <usize>n * rowBytes);
+  for (let i = n - 1; i >= 0; i--) {
+    const ri = <usize>i * rowBytes;
+    store<f64>(out + ri + (<usize>i << 3), 1);
+    for (let p = i + 1; p < n; p++) {
+      const c = load<f64>(r + ri + (<usize>p << 3));
+      if (c == 0) continue;
+      const rp = <usize>p * rowBytes;
+      for (let j = p; j < n; j++) {
+        const o = <usize>j << 3;
+        store<f64>(out + ri + o, load<f64>(out + ri + o) - c * load<f64>(out + rp + o));
+      }
+    }
+    const inv = 1 / load<f64>(r + ri + (<usize>i << 3));
+    for (let j = i; j < n; j++) {
+      const o = ri + (<usize>j << 3);
+      store<f64>(out + o, load<f64>(out + o) * inv);
+    }
+  }
+}
