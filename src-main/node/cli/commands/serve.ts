@@ -18,6 +18,9 @@ Options:
   --no-open    do not open the default browser
   -h, --help   show this help
 
+The demo scans offered in the page come from the samples/ folder of this installation, or from the
+folder named by the environment variable RANKFOLD_SAMPLES_DIR.
+
 Stop it with Ctrl+C.
 
 ${LOSSY_CAUTION}
