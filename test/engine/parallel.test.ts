@@ -58,6 +58,11 @@ describe('LinalgPool (2 worker_threads over a shared WebAssembly.Memory)', () =>
     expect(Array.from(viaOne.s)).toEqual(Array.from(ref.s));
     expect(Array.from(viaTwo.U.data)).toEqual(Array.from(ref.U.data));
     expect(Array.from(singularValues(A, two))).toEqual(Array.from(singularValues(A)));
+    // k + p = 70 ≥ 48: the Gram small core (symmetric eigen kernel, kernel Cholesky) runs on both.
+    const big = randomizedSvd(A, 60, { seed: 9 });
+    const bigTwo = randomizedSvd(A, 60, { seed: 9, backend: two });
+    expect(Array.from(bigTwo.s)).toEqual(Array.from(big.s));
+    expect(Array.from(bigTwo.V.data)).toEqual(Array.from(big.V.data));
   });
 
   it('sharedLinalgPool returns one process-wide pool until closed', async () => {

@@ -190,6 +190,35 @@ export class LinalgPool implements Backend {
         );
         return true;
       },
+      // The engine's optional kernels (workspace.ts), forwarded as above so results equal one thread's.
+      symEigen: (S, n, d, Et) => {
+        if (![S, d, Et].every((x) => sameMemory(x, this.memory))) return false;
+        const sc = [n, 2 * n, 2 * n, n, n, n].map((len) => take(8 * len));
+        const rc = this.local.symEigenF64(
+          S.byteOffset,
+          n,
+          d.byteOffset,
+          sc[0],
+          Et.byteOffset,
+          sc[1],
+          sc[2],
+          sc[3],
+          sc[4],
+          sc[5],
+          60,
+        );
+        if (rc !== 0) throw new Error('symmetricEigen: QL iteration did not converge');
+        return true;
+      },
+      choleskyLower: (G, l, shift, floor, L) =>
+        sameMemory(G, this.memory) && sameMemory(L, this.memory)
+          ? this.local.cholLowerF64(G.byteOffset, l, shift, floor, L.byteOffset)
+          : -1,
+      invertUpper: (R, l, out) => {
+        if (!sameMemory(R, this.memory) || !sameMemory(out, this.memory)) return false;
+        this.local.invUpperF64(R.byteOffset, l, out.byteOffset);
+        return true;
+      },
       release: () => {
         this.busy = false;
       },
