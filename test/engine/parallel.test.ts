@@ -5,6 +5,7 @@
 // workers give bit-identical results.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import {
+  defaultBackend,
   initEngine,
   matmul,
   matmulTransA,
@@ -28,8 +29,9 @@ afterAll(async () => {
   await two?.close();
 });
 
-describe('LinalgPool (2 worker_threads over a shared WebAssembly.Memory)', () => {
+describe('LinalgPool (calling thread + worker_threads over a shared WebAssembly.Memory)', () => {
   it('products A·B and Aᵀ·B are bit-identical to the single-thread kernel, f32 and f64, odd sizes', () => {
+    const before = two.splitProducts;
     for (const f32 of [true, false]) {
       const A = randomMatrix(301, 257, 1, f32);
       const B = randomMatrix(257, 45, 2, f32);
@@ -40,6 +42,37 @@ describe('LinalgPool (2 worker_threads over a shared WebAssembly.Memory)', () =>
         expect(Array.from(matmul(A, B, undefined, pool).data)).toEqual(Array.from(ref.data));
         expect(Array.from(matmulTransA(A, C, undefined, pool).data)).toEqual(Array.from(refT.data));
       }
+    }
+    // The products above are over PARALLEL_MIN_FLOPS: the 2-thread pool really split them (4 calls),
+    // the 1-thread pool never splits.
+    expect(two.splitProducts - before).toBe(4);
+    expect(one.splitProducts).toBe(0);
+    expect(one.workerCount).toBe(1);
+  });
+
+  it('uneven shares (9 rows: caller 8, worker 1) and accumulate (C += A·B) match one thread exactly', () => {
+    for (const accumulate of [false, true]) {
+      const [m, n, k] = [9, 250, 1000];
+      const A = randomMatrix(m, k, 6, true).data as Float32Array;
+      const B = randomMatrix(k, n, 7, true).data as Float32Array;
+      const C0 = randomMatrix(m, n, 8, true).data as Float32Array;
+      const run = (ws: ReturnType<LinalgPool['workspace']>) => {
+        try {
+          const [a, b, c] = [ws.f32(m * k), ws.f32(k * n), ws.f32(m * n)];
+          a.set(A);
+          b.set(B);
+          c.set(C0);
+          ws.gemm(m, n, k, a, 0, k, 1, b, 0, n, c, 0, n, accumulate);
+          return Array.from(c);
+        } finally {
+          ws.release();
+        }
+      };
+      const bytes = 4 * (m * k + k * n + m * n) + 256;
+      const ref = run(defaultBackend().workspace(bytes));
+      const before = two.splitProducts;
+      expect(run(two.workspace(bytes))).toEqual(ref);
+      expect(two.splitProducts - before).toBe(1);
     }
   });
 
@@ -52,10 +85,12 @@ describe('LinalgPool (2 worker_threads over a shared WebAssembly.Memory)', () =>
       true,
     );
     const ref = randomizedSvd(A, 20, { seed: 9 });
+    const splitsBefore = two.splitProducts;
     const viaTwo = randomizedSvd(A, 20, { seed: 9, backend: two });
     const viaOne = randomizedSvd(A, 20, { seed: 9, backend: one });
     expect(Array.from(viaTwo.s)).toEqual(Array.from(ref.s));
     expect(Array.from(viaOne.s)).toEqual(Array.from(ref.s));
+    expect(two.splitProducts).toBeGreaterThan(splitsBefore); // its 400×300×30 products were split
     expect(Array.from(viaTwo.U.data)).toEqual(Array.from(ref.U.data));
     expect(Array.from(singularValues(A, two))).toEqual(Array.from(singularValues(A)));
     // k + p = 70 ≥ 48: the Gram small core (symmetric eigen kernel, kernel Cholesky) runs on both.

@@ -1,14 +1,20 @@
 /**
- * Two (or N) worker_threads sharing one WebAssembly.Memory, presented as an engine `Backend`: any
- * engine algorithm that takes `{ backend }` (randomizedSvd, the products, singularValues) runs its
- * matrix products split by output rows across the workers, with no copying between threads.
+ * N computing threads sharing one WebAssembly.Memory, presented as an engine `Backend`: any engine
+ * algorithm that takes `{ backend }` (randomizedSvd, the products, singularValues) runs its large
+ * matrix products split by output rows, with no copying between threads.
  *
- * Calls stay synchronous: the calling thread hands each worker its share through a shared control
- * block and blocks in Atomics.wait until all have finished (allowed on Node's main thread and in
- * workers; NOT in a browser page, which is why this lives in src-main/node).
+ * `workers: N` means N threads compute: the calling thread takes the first share itself and N − 1
+ * worker_threads take the rest (so on the 2-core machines Rankfold targets, `workers: 2` is the
+ * caller + one worker thread, one per core; `workers: 1` starts no thread and equals the
+ * single-thread engine). A caller that only waited would leave its core idle.
  *
- * Large products only: below PARALLEL_MIN_FLOPS the calling thread runs the kernel itself on the
- * same memory, since waking a worker costs ~10–50 µs.
+ * Calls stay synchronous: the calling thread posts each worker's share through a shared control
+ * block, computes its own share, then blocks in Atomics.wait until the workers have finished
+ * (allowed on Node's main thread and in workers; NOT in a browser page, which is why this lives in
+ * src-main/node).
+ *
+ * Large products only: below PARALLEL_MIN_FLOPS the calling thread runs the whole kernel, since a
+ * wake-up round trip costs ~10–50 µs.
  */
 import { existsSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
@@ -30,8 +36,11 @@ import {
   STATUS_OK,
 } from './protocol';
 
-/** Products below this many flops run on the calling thread (a wake-up round trip costs ~10–50 µs). */
-export const PARALLEL_MIN_FLOPS = 2e6;
+/**
+ * Products below this many flops run on the calling thread alone: 4 Mflop is ~0.15 ms at the
+ * kernel's ~25 GFLOP/s, so a ~10–50 µs wake-up round trip would eat most of the gain below it.
+ */
+export const PARALLEL_MIN_FLOPS = 4e6;
 /** Bytes in a WebAssembly page; shared memory must declare its maximum (wasm32: 65536 pages = 4 GiB). */
 const PAGE = 65536;
 const MAX_PAGES = 65536;
@@ -40,7 +49,10 @@ const ALIGN = 16;
 const WAIT_SLICE_MS = 1000;
 
 export interface PoolOptions {
-  /** Worker threads. Default 2 (the machines Rankfold targets have 2 cores). Range 1…16. */
+  /**
+   * Computing threads, the calling thread included (N − 1 worker_threads are started). Default 2
+   * (the machines Rankfold targets have 2 cores). Range 1…16.
+   */
   workers?: number;
   /** Path of the built worker (dist/workers/linalg.js). Found automatically in the repo and in dist/. */
   workerFile?: string;
@@ -67,6 +79,7 @@ export class LinalgPool implements Backend {
   private busy = false;
   private seq = 0;
   private closed = false;
+  private splits = 0;
   private readonly ctrl: Int32Array;
   private readonly params: Float64Array;
   private constructor(
@@ -78,15 +91,17 @@ export class LinalgPool implements Backend {
   ) {
     this.ctrl = new Int32Array(ctrl);
     this.params = new Float64Array(params);
-    this.label = `${workers.length} worker${workers.length === 1 ? '' : 's'}`;
+    const n = workers.length + 1;
+    this.label = `${n} worker${n === 1 ? '' : 's'}`;
   }
 
-  /** Start the workers and wait until each has instantiated the kernels. */
+  /** Start the N − 1 worker threads and wait until each has instantiated the kernels. */
   static async create(options: PoolOptions = {}): Promise<LinalgPool> {
     const count = options.workers ?? 2;
     if (!Number.isInteger(count) || count < 1 || count > 16)
       throw new RangeError(`LinalgPool: expected integer between 1 and 16 for workers but received ${count}`);
-    const file = findWorkerFile(options.workerFile);
+    const spawn = count - 1;
+    const file = spawn > 0 ? findWorkerFile(options.workerFile) : '';
     const memory = new WebAssembly.Memory({ initial: 17, maximum: MAX_PAGES, shared: true });
     const module = await WebAssembly.compile(decodeBase64(wasmBase64));
     const inst = await WebAssembly.instantiate(module, {
@@ -97,11 +112,11 @@ export class LinalgPool implements Backend {
         },
       },
     });
-    const ctrl = new SharedArrayBuffer(4 * CTRL_WORDS * count);
-    const params = new SharedArrayBuffer(8 * PARAM_WORDS * count);
+    const ctrl = new SharedArrayBuffer(4 * CTRL_WORDS * Math.max(1, spawn));
+    const params = new SharedArrayBuffer(8 * PARAM_WORDS * Math.max(1, spawn));
     const workers: Worker[] = [];
     try {
-      for (let slot = 0; slot < count; slot++) {
+      for (let slot = 0; slot < spawn; slot++) {
         const w = new Worker(file, { workerData: { memory, ctrl, params, slot } });
         workers.push(w);
         await new Promise<void>((resolve, reject) => {
@@ -121,8 +136,14 @@ export class LinalgPool implements Backend {
     return new LinalgPool(memory, inst.exports as unknown as KernelExports, workers, ctrl, params);
   }
 
+  /** Computing threads, the calling thread included (the `workers` option). */
   get workerCount(): number {
-    return this.workers.length;
+    return this.workers.length + 1;
+  }
+
+  /** How many products so far were split across threads (the rest ran on the calling thread alone). */
+  get splitProducts(): number {
+    return this.splits;
   }
 
   workspace(bytes: number): Workspace {
@@ -225,7 +246,11 @@ export class LinalgPool implements Backend {
     };
   }
 
-  /** Split C's rows across the workers (multiples of 4, the kernels' register block). */
+  /**
+   * Split C's rows into one share per computing thread (multiples of 4, the kernels' register
+   * block, so every element sees the same operation order as one thread: bit-identical results).
+   * Share 0 runs on the calling thread while the workers run shares 1…N−1.
+   */
   private readonly gemm: Gemm = (m, n, k, a, aOff, rsA, csA, b, bOff, ldb, c, cOff, ldc, accumulate) => {
     const same = (x: FloatArray) => sameMemory(x, this.memory);
     if (m === 0 || n === 0) return;
@@ -238,28 +263,19 @@ export class LinalgPool implements Backend {
     const pb = b.byteOffset + bpe * bOff;
     const pc = c.byteOffset + bpe * cOff;
     const kind = a instanceof Float32Array ? KIND_F32 : KIND_F64;
-    const W = this.workers.length;
-    if (2 * m * n * k < PARALLEL_MIN_FLOPS || m < 8) {
-      (kind === KIND_F32 ? this.local.gemmF32 : this.local.gemmF64)(
-        m,
-        n,
-        k,
-        pa,
-        rsA,
-        csA,
-        pb,
-        ldb,
-        pc,
-        ldc,
-        accumulate ? 1 : 0,
-      );
+    const kernel = kind === KIND_F32 ? this.local.gemmF32 : this.local.gemmF64;
+    const acc = accumulate ? 1 : 0;
+    const threads = this.workers.length + 1;
+    const per = Math.ceil(m / threads / 4) * 4;
+    if (threads === 1 || 2 * m * n * k < PARALLEL_MIN_FLOPS || per >= m) {
+      kernel(m, n, k, pa, rsA, csA, pb, ldb, pc, ldc, acc);
       return;
     }
+    this.splits++;
     const seq = ++this.seq;
-    const per = Math.ceil(m / W / 4) * 4;
-    const used: number[] = [];
-    for (let w = 0; w < W; w++) {
-      const i0 = w * per;
+    let posted = 0;
+    for (let w = 0; w < this.workers.length; w++) {
+      const i0 = (w + 1) * per;
       const rows = Math.min(per, m - i0);
       if (rows <= 0) break;
       const q = w * PARAM_WORDS;
@@ -275,12 +291,21 @@ export class LinalgPool implements Backend {
       prm[q + P.ldb] = ldb;
       prm[q + P.c] = pc + bpe * i0 * ldc;
       prm[q + P.ldc] = ldc;
-      prm[q + P.acc] = accumulate ? 1 : 0;
+      prm[q + P.acc] = acc;
       Atomics.store(this.ctrl, w * CTRL_WORDS + SEQ, seq);
       Atomics.notify(this.ctrl, w * CTRL_WORDS + SEQ);
-      used.push(w);
+      posted++;
     }
-    for (const w of used) {
+    // The calling thread's own share; a throw here must still wait for the workers, whose shares
+    // write into the same memory.
+    let failure: unknown = null;
+    try {
+      kernel(per, n, k, pa, rsA, csA, pb, ldb, pc, ldc, acc);
+    } catch (err) {
+      failure = err;
+    }
+    let workerFailed = false;
+    for (let w = 0; w < posted; w++) {
       const at = w * CTRL_WORDS + DONE;
       let waited = 0;
       for (;;) {
@@ -291,9 +316,10 @@ export class LinalgPool implements Backend {
         if (waited > 600_000)
           throw new Error('LinalgPool: a worker did not answer for 10 minutes; it has probably died');
       }
-      if (Atomics.load(this.ctrl, w * CTRL_WORDS + STATUS) !== STATUS_OK)
-        throw new Error('LinalgPool: a worker kernel failed (out of bounds memory access?)');
+      if (Atomics.load(this.ctrl, w * CTRL_WORDS + STATUS) !== STATUS_OK) workerFailed = true;
     }
+    if (failure) throw failure;
+    if (workerFailed) throw new Error('LinalgPool: a worker kernel failed (out of bounds memory access?)');
   };
 
   /** Stop the workers. The pool cannot be used afterwards. */
