@@ -50,7 +50,7 @@ describe('LinalgPool (calling thread + worker_threads over a shared WebAssembly.
     expect(one.workerCount).toBe(1);
   });
 
-  it('uneven shares (9 rows: caller 8, worker 1) and accumulate (C += A·B) match one thread exactly', () => {
+  it('uneven blocks (9 rows: 4 + 4 + 1, claimed by caller and worker) and accumulate (C += A·B) match one thread exactly', () => {
     for (const accumulate of [false, true]) {
       const [m, n, k] = [9, 250, 1000];
       const A = randomMatrix(m, k, 6, true).data as Float32Array;

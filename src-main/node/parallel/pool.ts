@@ -28,6 +28,7 @@ import {
   DONE,
   KIND_F32,
   KIND_F64,
+  nextRowWord,
   P,
   PARAM_WORDS,
   SEQ,
@@ -112,7 +113,8 @@ export class LinalgPool implements Backend {
         },
       },
     });
-    const ctrl = new SharedArrayBuffer(4 * CTRL_WORDS * Math.max(1, spawn));
+    // One slot per worker, plus one for the shared row counter.
+    const ctrl = new SharedArrayBuffer(4 * CTRL_WORDS * (spawn + 1));
     const params = new SharedArrayBuffer(8 * PARAM_WORDS * Math.max(1, spawn));
     const workers: Worker[] = [];
     try {
@@ -247,9 +249,9 @@ export class LinalgPool implements Backend {
   }
 
   /**
-   * Split C's rows into one share per computing thread (multiples of 4, the kernels' register
-   * block, so every element sees the same operation order as one thread: bit-identical results).
-   * Share 0 runs on the calling thread while the workers run shares 1…N−1.
+   * Split C's rows into blocks (multiples of 4, the kernels' register block, so every element sees
+   * the same operation order as one thread: bit-identical results) that the calling thread and the
+   * workers claim from a shared counter until none is left.
    */
   private readonly gemm: Gemm = (m, n, k, a, aOff, rsA, csA, b, bOff, ldb, c, cOff, ldc, accumulate) => {
     const same = (x: FloatArray) => sameMemory(x, this.memory);
@@ -273,36 +275,52 @@ export class LinalgPool implements Backend {
     }
     this.splits++;
     const seq = ++this.seq;
-    let posted = 0;
+    // About 8 blocks per thread: enough to even out a late start or a preempted thread, few enough
+    // that each block still reuses the B panel over many rows.
+    const chunk = Math.max(4, Math.ceil(m / threads / 8 / 4) * 4);
+    const next = nextRowWord(this.workers.length);
+    Atomics.store(this.ctrl, next, 0);
+    const prm = this.params;
     for (let w = 0; w < this.workers.length; w++) {
-      const i0 = (w + 1) * per;
-      const rows = Math.min(per, m - i0);
-      if (rows <= 0) break;
       const q = w * PARAM_WORDS;
-      const prm = this.params;
       prm[q + P.kind] = kind;
-      prm[q + P.m] = rows;
+      prm[q + P.m] = m;
       prm[q + P.n] = n;
       prm[q + P.k] = k;
-      prm[q + P.a] = pa + bpe * i0 * rsA;
+      prm[q + P.a] = pa;
       prm[q + P.rsA] = rsA;
       prm[q + P.csA] = csA;
       prm[q + P.b] = pb;
       prm[q + P.ldb] = ldb;
-      prm[q + P.c] = pc + bpe * i0 * ldc;
+      prm[q + P.c] = pc;
       prm[q + P.ldc] = ldc;
       prm[q + P.acc] = acc;
+      prm[q + P.chunk] = chunk;
       Atomics.store(this.ctrl, w * CTRL_WORDS + SEQ, seq);
       Atomics.notify(this.ctrl, w * CTRL_WORDS + SEQ);
-      posted++;
     }
-    // The calling thread's own share; a throw here must still wait for the workers, whose shares
-    // write into the same memory.
+    const posted = this.workers.length;
+    // The calling thread claims blocks like any worker; a throw here must still wait for the
+    // workers, whose blocks write into the same memory.
     let failure: unknown = null;
     try {
-      kernel(per, n, k, pa, rsA, csA, pb, ldb, pc, ldc, acc);
+      for (let i0 = Atomics.add(this.ctrl, next, chunk); i0 < m; i0 = Atomics.add(this.ctrl, next, chunk))
+        kernel(
+          Math.min(chunk, m - i0),
+          n,
+          k,
+          pa + bpe * i0 * rsA,
+          rsA,
+          csA,
+          pb,
+          ldb,
+          pc + bpe * i0 * ldc,
+          ldc,
+          acc,
+        );
     } catch (err) {
       failure = err;
+      Atomics.store(this.ctrl, next, m); // let the workers stop early
     }
     let workerFailed = false;
     for (let w = 0; w < posted; w++) {

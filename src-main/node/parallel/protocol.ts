@@ -1,7 +1,10 @@
 /**
  * Shared control block between the calling thread and the linalg workers (src-main/node/workers/linalg.ts).
- * One slot per worker: the caller writes the product's parameters, bumps `seq` and notifies; the
- * worker runs its share and stores `seq` into `done` (and a status) and notifies back.
+ * One slot per worker: the caller writes the product's parameters, resets the shared row counter
+ * (the word after the last slot), bumps `seq` and notifies; every thread, the caller included, then
+ * claims blocks of `chunk` rows of C with Atomics.add on the counter until all are taken (so a
+ * thread that starts late or is slowed by other processes simply takes fewer blocks). Each worker
+ * stores `seq` into `done` (and a status) and notifies back.
  */
 /** Int32 words per slot in the control array: [seq, done, status, spare]. */
 export const CTRL_WORDS = 4;
@@ -24,7 +27,11 @@ export const P = {
   c: 9,
   ldc: 10,
   acc: 11,
+  /** Rows per claimed block (a multiple of 4, the kernels' register block). */
+  chunk: 12,
 } as const;
+/** Index in the control Int32Array of the shared next-row counter, for `workers` worker slots. */
+export const nextRowWord = (workers: number) => workers * CTRL_WORDS;
 /** `kind` values. */
 export const KIND_F32 = 0;
 export const KIND_F64 = 1;
