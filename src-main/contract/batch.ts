@@ -1,6 +1,6 @@
 /**
  * `rankfold batch`: the manifest row, the per-file events and the shard selector, shared by the CLI, the
- * batch runner, IPC and HTTP. See docs/cli/batch.md and docs/scale.md.
+ * batch runner, IPC and HTTP. See docs/cli.md and docs/scale.md.
  */
 
 import type { CompressReport } from './compress';

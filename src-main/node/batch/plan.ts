@@ -1,7 +1,7 @@
 /**
  * Plan a batch: walk IN_DIR, filter, map every input to one output path under OUT_DIR, and take a shard.
  *
- * Output names (documented in docs/cli/batch.md):
+ * Output names (documented in docs/cli.md):
  * 1. `dir/name.ext` → `dir/name.rkf` (the folder structure is mirrored).
  * 2. If two or more inputs in one folder would get the same output name — compared without case and after
  *    Unicode NFC, so the result is safe on case-insensitive disks too — every one of them keeps its whole

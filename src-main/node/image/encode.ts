@@ -1,7 +1,7 @@
 /**
  * Write planes back to PNG or TIFF through sharp (libvips), 8 or 16 bits, with metadata restored.
  *
- * What each format keeps (see docs/cli/inspect.md "Output files"):
+ * What each format keeps (see docs/cli.md, inspect, "Output files"):
  * - **PNG**: 8/16-bit gray, gray+alpha, RGB, RGBA (lossless, zlib). ICC profile as iCCP; DPI as pHYs,
  *   which stores whole pixels per metre, so DPI comes back to within ±0.0013 dpi (300 → 11811 px/m →
  *   299.9994); orientation as an eXIf chunk (PNG Third Edition; honoured by libvips, browsers and most

@@ -1,7 +1,7 @@
 /**
  * `rankfold batch IN_DIR -o OUT_DIR [budget] [options]` and `rankfold batch --merge MANIFEST…`.
  * Exit codes: 0 every file succeeded (or was kept by --resume), 2 some files failed or the run was
- * interrupted (the failures are listed), 1 usage error. See docs/cli/batch.md.
+ * interrupted (the failures are listed), 1 usage error. See docs/cli.md.
  */
 import type { BatchEvent, BatchSummary } from '../../../contract';
 import { parseBatchArgs } from '../../batch/args';
