@@ -3,7 +3,7 @@
 // CLI, the compute workers, the page, the Electron main/preload and the benchmarks.
 // Run by `npm install` through `prepare`, and by `npm test` / `npm run bench` before they start.
 import { execFileSync } from 'node:child_process';
-import { cpSync, existsSync, mkdirSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { cpSync, existsSync, mkdirSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import * as esbuild from 'esbuild';

@@ -6,9 +6,10 @@
  * Binary factor sets (σ, U, V and the source planes) travel once per scan in the layout of
  * {@link encodeFactorSet}; the page rebuilds any rank from them itself.
  */
-import { utf8Decode, utf8Encode } from './utf8';
+
 import type { Budget, CompressReport, TileChoice } from './compress';
 import { UsageError } from './errors';
+import { utf8Decode, utf8Encode } from './utf8';
 import {
   checkBool,
   checkInteger,

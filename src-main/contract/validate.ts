@@ -27,16 +27,20 @@ function describe(v: unknown): string {
 
 /** The one error format: `Expected <expected> for <name> but received <value> of type <type>`. */
 export function invalidParameterError(name: string, expected: string, actual: unknown): UsageError {
-  return new UsageError(`Expected ${expected} for ${name} but received ${describe(actual)}`, { parameter: name });
+  return new UsageError(`Expected ${expected} for ${name} but received ${describe(actual)}`, {
+    parameter: name,
+  });
 }
 
 export function checkInteger(name: string, v: unknown, lo: number, hi: number): number {
-  if (!is.integer(v) || !is.inRange(v, lo, hi)) throw invalidParameterError(name, `integer between ${lo} and ${hi}`, v);
+  if (!is.integer(v) || !is.inRange(v, lo, hi))
+    throw invalidParameterError(name, `integer between ${lo} and ${hi}`, v);
   return v;
 }
 
 export function checkNumber(name: string, v: unknown, lo: number, hi: number): number {
-  if (!is.number(v) || !is.inRange(v, lo, hi)) throw invalidParameterError(name, `number between ${lo} and ${hi}`, v);
+  if (!is.number(v) || !is.inRange(v, lo, hi))
+    throw invalidParameterError(name, `number between ${lo} and ${hi}`, v);
   return v;
 }
 

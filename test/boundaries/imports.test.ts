@@ -2,7 +2,7 @@
 // the engine; only src-main/electron imports 'electron'. The per-folder tsconfig files enforce the same
 // at type-check time (no Node types and no DOM lib for the engine).
 import { readdirSync, readFileSync, statSync } from 'node:fs';
-import { join, relative, resolve, dirname } from 'node:path';
+import { dirname, join, relative, resolve } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { repoRoot } from '../helpers/fixtures';
 
@@ -17,7 +17,8 @@ function sources(dir: string): string[] {
   return out;
 }
 
-const importRe = /(?:import|export)\s[^'"]*?from\s*['"]([^'"]+)['"]|import\s*\(\s*['"]([^'"]+)['"]\s*\)|require\(\s*['"]([^'"]+)['"]\s*\)/g;
+const importRe =
+  /(?:import|export)\s[^'"]*?from\s*['"]([^'"]+)['"]|import\s*\(\s*['"]([^'"]+)['"]\s*\)|require\(\s*['"]([^'"]+)['"]\s*\)/g;
 function importsOf(file: string): string[] {
   const text = readFileSync(file, 'utf8');
   const out: string[] = [];
@@ -25,7 +26,8 @@ function importsOf(file: string): string[] {
   return out;
 }
 
-const nodeBuiltins = /^(node:|fs$|path$|os$|crypto$|worker_threads$|child_process$|http$|url$|util$|zlib$|stream$|buffer$)/;
+const nodeBuiltins =
+  /^(node:|fs$|path$|os$|crypto$|worker_threads$|child_process$|http$|url$|util$|zlib$|stream$|buffer$)/;
 
 describe('import boundaries', () => {
   it('src-main/engine imports nothing from Node, Electron, the DOM or other layers', () => {
@@ -33,12 +35,24 @@ describe('import boundaries', () => {
     const bad: string[] = [];
     for (const f of sources(engine)) {
       for (const spec of importsOf(f)) {
-        const outside = spec.startsWith('.') && !resolve(dirname(f), spec).startsWith(engine) && !resolve(dirname(f), spec).startsWith(join(repoRoot, 'src-main', 'contract'));
-        if (nodeBuiltins.test(spec) || spec === 'electron' || outside || (!spec.startsWith('.') && spec !== 'ml-matrix'))
+        const outside =
+          spec.startsWith('.') &&
+          !resolve(dirname(f), spec).startsWith(engine) &&
+          !resolve(dirname(f), spec).startsWith(join(repoRoot, 'src-main', 'contract'));
+        if (
+          nodeBuiltins.test(spec) ||
+          spec === 'electron' ||
+          outside ||
+          (!spec.startsWith('.') && spec !== 'ml-matrix')
+        )
           bad.push(`${relative(repoRoot, f)} imports ${spec}`);
       }
       const text = readFileSync(f, 'utf8');
-      if (/\b(document|window|process|Buffer|require)\s*[.(]/.test(text.replace(/\/\/.*$|\/\*[\s\S]*?\*\//gm, '')))
+      if (
+        /\b(document|window|process|Buffer|require)\s*[.(]/.test(
+          text.replace(/\/\/.*$|\/\*[\s\S]*?\*\//gm, ''),
+        )
+      )
         bad.push(`${relative(repoRoot, f)} uses a Node or DOM global`);
     }
     expect(bad).toEqual([]);
@@ -52,8 +66,10 @@ describe('import boundaries', () => {
       for (const spec of importsOf(f)) {
         if (spec.startsWith('.')) {
           const target = resolve(dirname(f), spec);
-          if (!allowed.some((a) => target.startsWith(a))) bad.push(`${relative(repoRoot, f)} imports ${spec}`);
-        } else if (nodeBuiltins.test(spec) || spec === 'electron' || spec === 'sharp') bad.push(`${relative(repoRoot, f)} imports ${spec}`);
+          if (!allowed.some((a) => target.startsWith(a)))
+            bad.push(`${relative(repoRoot, f)} imports ${spec}`);
+        } else if (nodeBuiltins.test(spec) || spec === 'electron' || spec === 'sharp')
+          bad.push(`${relative(repoRoot, f)} imports ${spec}`);
       }
     }
     expect(bad).toEqual([]);
@@ -62,7 +78,8 @@ describe('import boundaries', () => {
   it("only src-main/electron imports 'electron'", () => {
     const bad: string[] = [];
     for (const dir of ['src-main/contract', 'src-main/engine', 'src-main/node', 'src-renderer']) {
-      for (const f of sources(join(repoRoot, dir))) if (importsOf(f).includes('electron')) bad.push(relative(repoRoot, f));
+      for (const f of sources(join(repoRoot, dir)))
+        if (importsOf(f).includes('electron')) bad.push(relative(repoRoot, f));
     }
     expect(bad).toEqual([]);
   });

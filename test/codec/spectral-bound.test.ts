@@ -17,13 +17,20 @@ describe('whole-plane spectral bound', () => {
   it('camera.png --rank 20 --tile 0 reports σ21 and the Frobenius optimum of rank_approx_images.json', async () => {
     const img = await decodeImage(image('camera.png'));
     const s = singularValues({ rows: img.height, cols: img.width, data: Float64Array.from(img.planes[0]) });
-    const r = await compressFile(image('camera.png'), join(dir, 'c.rkf'), { budget: { kind: 'rank', rank: 20 }, tile: 0 });
+    const r = await compressFile(image('camera.png'), join(dir, 'c.rkf'), {
+      budget: { kind: 'rank', rank: 20 },
+      tile: 0,
+    });
     expect(r.ranks[0].rank).toBe(20);
     expect(Math.abs(r.errors.spectralBound - s[20]) / s[20]).toBeLessThan(1e-3);
     // numpy 1.24.2 (LAPACK dgesdd): Frobenius error of the optimal rank-20 approximation of camera.png.
-    const ref = reference('rank_approx_images.json').images.find((x: { file: string }) => x.file === 'camera.png');
+    const ref = reference('rank_approx_images.json').images.find(
+      (x: { file: string }) => x.file === 'camera.png',
+    );
     const k20 = ref.rank_k.find((x: { k: number }) => x.k === 20);
-    expect(Math.abs(r.errors.frobeniusOptimal - k20.frobenius_error) / k20.frobenius_error).toBeLessThan(1e-3);
+    expect(Math.abs(r.errors.frobeniusOptimal - k20.frobenius_error) / k20.frobenius_error).toBeLessThan(
+      1e-3,
+    );
     const psnrOpt = k20.psnr_eckart_young_db;
     const fromFrob = 20 * Math.log10((255 * Math.sqrt(512 * 512)) / r.errors.frobeniusOptimal);
     expect(Math.abs(fromFrob - psnrOpt)).toBeLessThan(0.01);

@@ -77,7 +77,10 @@ export function factorPlane(
     else if (kmax >= RANDOMIZED_MIN_SIDE && opts.maxRank !== undefined && opts.maxRank < kmax / 2)
       // Halko, Martinsson & Tropp 2011, Alg. 4.4 with q = 4 power steps: ≈1.0005× the optimal Frobenius error.
       // One component beyond the cap, so the Eckart–Young spectral bound σ_{k+1} is known at rank k.
-      svd = randomizedSvd(mat, Math.min(kmax, Math.max(1, opts.maxRank) + 1), { seed: opts.seed ?? 1, powerIters: 4 });
+      svd = randomizedSvd(mat, Math.min(kmax, Math.max(1, opts.maxRank) + 1), {
+        seed: opts.seed ?? 1,
+        powerIters: 4,
+      });
     else svd = opts.tile === 0 ? fullSvd(mat) : jacobiSvd(mat);
     tiles.push({ rect, meanQ, energy, data: Float32Array.from(a), s: svd.s, U: svd.U, V: svd.V });
   }

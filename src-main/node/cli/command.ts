@@ -1,4 +1,4 @@
-import { parseArgs, type ParseArgsConfig } from 'node:util';
+import { type ParseArgsConfig, parseArgs } from 'node:util';
 import { UsageError } from '../../contract';
 
 /** Where a command writes. Tests pass their own; the CLI passes process streams. */
@@ -25,18 +25,29 @@ export type OptionSpec = NonNullable<ParseArgsConfig['options']>;
  * names the command and points at its help.
  */
 export function parseCommandArgs(command: string, argv: string[], options: OptionSpec, maxPositionals = 1) {
-  let parsed: ReturnType<typeof parseArgs<{ options: OptionSpec; allowPositionals: true; strict: true; args: string[] }>>;
+  let parsed: ReturnType<
+    typeof parseArgs<{ options: OptionSpec; allowPositionals: true; strict: true; args: string[] }>
+  >;
   try {
-    parsed = parseArgs({ args: argv, options: { ...options, help: { type: 'boolean', short: 'h' } }, allowPositionals: true, strict: true });
+    parsed = parseArgs({
+      args: argv,
+      options: { ...options, help: { type: 'boolean', short: 'h' } },
+      allowPositionals: true,
+      strict: true,
+    });
   } catch (err) {
-    const msg = err instanceof Error ? err.message.replace(/\. To specify a positional argument.*$/s, '') : String(err);
+    const msg =
+      err instanceof Error ? err.message.replace(/\. To specify a positional argument.*$/s, '') : String(err);
     throw new UsageError(`${command}: ${msg}. See \`rankfold ${command} --help\`.`);
   }
   if (parsed.positionals.length > maxPositionals)
     throw new UsageError(
       `${command}: too many arguments (${parsed.positionals.slice(maxPositionals).join(' ')}). See \`rankfold ${command} --help\`.`,
     );
-  return { values: parsed.values as Record<string, string | boolean | string[] | undefined>, positionals: parsed.positionals };
+  return {
+    values: parsed.values as Record<string, string | boolean | string[] | undefined>,
+    positionals: parsed.positionals,
+  };
 }
 
 /** The caution shown wherever output is lossy. */

@@ -6,12 +6,27 @@ import { RankfoldError, UsageError } from '../../contract';
 import type { CliIO, Command } from './command';
 
 const commands: Record<string, { summary: string; load: () => Promise<{ command: Command }> }> = {
-  inspect: { summary: 'show size, depth and the singular-value spectrum of a scan', load: () => import('./commands/inspect') },
-  compress: { summary: 'write a .rkf file that meets a storage budget or quality floor', load: () => import('./commands/compress') },
+  inspect: {
+    summary: 'show size, depth and the singular-value spectrum of a scan',
+    load: () => import('./commands/inspect'),
+  },
+  compress: {
+    summary: 'write a .rkf file that meets a storage budget or quality floor',
+    load: () => import('./commands/compress'),
+  },
   expand: { summary: 'decode a .rkf file back to PNG or TIFF', load: () => import('./commands/expand') },
-  clean: { summary: 'remove sensor noise and row/column banding, and show what was removed', load: () => import('./commands/clean') },
-  batch: { summary: 'compress a whole folder unattended, with a report', load: () => import('./commands/batch') },
-  serve: { summary: 'open the app in a browser on this machine (127.0.0.1 only)', load: () => import('./commands/serve') },
+  clean: {
+    summary: 'remove sensor noise and row/column banding, and show what was removed',
+    load: () => import('./commands/clean'),
+  },
+  batch: {
+    summary: 'compress a whole folder unattended, with a report',
+    load: () => import('./commands/batch'),
+  },
+  serve: {
+    summary: 'open the app in a browser on this machine (127.0.0.1 only)',
+    load: () => import('./commands/serve'),
+  },
 };
 
 const VERSION = '0.1.0';
@@ -67,7 +82,9 @@ export async function main(argv: string[], io: CliIO): Promise<number> {
       return 1;
     }
     const e = err as Error;
-    io.stderr(`rankfold ${name}: unexpected internal error: ${e?.message ?? String(err)}\n${process.env.RANKFOLD_DEBUG ? `${e?.stack}\n` : ''}`);
+    io.stderr(
+      `rankfold ${name}: unexpected internal error: ${e?.message ?? String(err)}\n${process.env.RANKFOLD_DEBUG ? `${e?.stack}\n` : ''}`,
+    );
     return 1;
   }
 }

@@ -30,11 +30,16 @@ export async function exists(path: string): Promise<boolean> {
 
 /** Throw OutputError if `path` exists and force is not set. */
 export async function assertWritable(path: string, force = false): Promise<void> {
-  if (!force && (await exists(path))) throw new OutputError(path, 'already exists; pass --force to overwrite it');
+  if (!force && (await exists(path)))
+    throw new OutputError(path, 'already exists; pass --force to overwrite it');
 }
 
 /** Write `data` to `path` atomically. */
-export async function writeFileAtomic(path: string, data: Uint8Array | string, options: WriteOptions = {}): Promise<void> {
+export async function writeFileAtomic(
+  path: string,
+  data: Uint8Array | string,
+  options: WriteOptions = {},
+): Promise<void> {
   const dir = dirname(path);
   if (options.mkdirs !== false) {
     try {
@@ -52,7 +57,8 @@ export async function writeFileAtomic(path: string, data: Uint8Array | string, o
     await fh.sync();
     await fh.close();
     fh = undefined;
-    if (!options.force && (await exists(path))) throw new OutputError(path, 'already exists; pass --force to overwrite it');
+    if (!options.force && (await exists(path)))
+      throw new OutputError(path, 'already exists; pass --force to overwrite it');
     await rename(tmp, path);
   } catch (err) {
     if (fh) await fh.close().catch(() => {});
@@ -81,7 +87,9 @@ export function describeWriteError(path: string, err: unknown): OutputError {
   switch (code) {
     case 'EACCES':
     case 'EPERM':
-      return new OutputError(path, 'permission denied when writing; choose a folder you can write to', { code });
+      return new OutputError(path, 'permission denied when writing; choose a folder you can write to', {
+        code,
+      });
     case 'EROFS':
       return new OutputError(path, 'the file system is read-only', { code });
     case 'ENOSPC':
@@ -92,6 +100,8 @@ export function describeWriteError(path: string, err: unknown): OutputError {
     case 'ENAMETOOLONG':
       return new OutputError(path, 'the output path is too long for this file system', { code });
     default:
-      return new OutputError(path, `cannot be written (${code ?? (err as Error)?.message ?? String(err)})`, { code });
+      return new OutputError(path, `cannot be written (${code ?? (err as Error)?.message ?? String(err)})`, {
+        code,
+      });
   }
 }
