@@ -24,6 +24,7 @@ import { gemmTs } from '../../engine/linalg/gemm-ts';
 import { wasmBase64 } from '../../engine/linalg/wasm/generated/kernels-shared';
 import { decodeBase64, type KernelExports, RESERVED_BYTES } from '../../engine/linalg/wasm/runtime';
 import {
+  CLAIM,
   CTRL_WORDS,
   DONE,
   KIND_F32,
@@ -298,6 +299,7 @@ export class LinalgPool implements Backend {
       prm[q + P.ldc] = ldc;
       prm[q + P.acc] = acc;
       prm[q + P.chunk] = chunk;
+      Atomics.store(this.ctrl, w * CTRL_WORDS + CLAIM, seq);
       Atomics.store(this.ctrl, w * CTRL_WORDS + SEQ, seq);
       Atomics.notify(this.ctrl, w * CTRL_WORDS + SEQ);
     }
@@ -326,6 +328,8 @@ export class LinalgPool implements Backend {
     }
     let workerFailed = false;
     for (let w = 0; w < posted; w++) {
+      // A worker that has not woken yet (busy machine) is not waited for: withdraw its offer.
+      if (Atomics.compareExchange(this.ctrl, w * CTRL_WORDS + CLAIM, seq, 0) === seq) continue;
       const at = w * CTRL_WORDS + DONE;
       let waited = 0;
       // The worker is on its last block: poll briefly before sleeping on the futex.

@@ -6,13 +6,19 @@
  * thread that starts late or is slowed by other processes simply takes fewer blocks). Each worker
  * stores `seq` into `done` (and a status) and notifies back.
  */
-/** Int32 words per slot in the control array: [seq, done, status, spare]. */
+/** Int32 words per slot in the control array: [seq, done, status, claim]. */
 export const CTRL_WORDS = 4;
 /** Float64 words per slot in the parameter array. */
 export const PARAM_WORDS = 16;
 export const SEQ = 0;
 export const DONE = 1;
 export const STATUS = 2;
+/**
+ * Offer word: the caller stores `seq` when it posts a product; a waking worker takes it with
+ * compareExchange(seq → −seq) before reading the parameters; a caller that has finished every row
+ * block withdraws an untaken offer with compareExchange(seq → 0) and need not wait for that worker.
+ */
+export const CLAIM = 3;
 /** Parameter layout (Float64Array, per slot). */
 export const P = {
   kind: 0,

@@ -7,6 +7,7 @@ import { parentPort, workerData } from 'node:worker_threads';
 import { wasmBase64 } from '../../engine/linalg/wasm/generated/kernels-shared';
 import { decodeBase64, type KernelExports } from '../../engine/linalg/wasm/runtime';
 import {
+  CLAIM,
   CTRL_WORDS,
   DONE,
   KIND_F32,
@@ -46,6 +47,8 @@ for (;;) {
   Atomics.wait(ctrl, c0 + SEQ, seq);
   seq = Atomics.load(ctrl, c0 + SEQ);
   if (seq === SHUTDOWN) break;
+  // Take the offer; if the caller already withdrew it (it did every block itself), go back to sleep.
+  if (Atomics.compareExchange(ctrl, c0 + CLAIM, seq, -seq) !== seq) continue;
   let status = STATUS_OK;
   try {
     const f32 = params[p0 + P.kind] === KIND_F32;
