@@ -28,11 +28,17 @@ if (!bin && dir && process.env.RANKFOLD_NO_ELECTRON_FETCH !== '1') {
     'rankfold: Electron runtime not installed; trying to fetch it (node node_modules/electron/install.js)…',
   );
   const r = spawnSync(process.execPath, [join(dir, 'install.js')], {
-    stdio: 'inherit',
+    stdio: ['ignore', 'inherit', 'pipe'],
+    encoding: 'utf8',
     timeout: 120_000,
     env: { ...process.env, ELECTRON_SKIP_BINARY_DOWNLOAD: '' },
   });
   if (r.status === 0) ({ bin } = electronBinary());
+  else {
+    const why =
+      (r.error?.message ?? r.stderr ?? '').split('\n').find((l) => l.trim()) ?? `exit status ${r.status}`;
+    console.error(`rankfold: the download did not work (${why.trim()}).`);
+  }
 }
 const mainJs = join(root, 'dist', 'electron', 'main.cjs');
 if (bin && existsSync(mainJs)) {
