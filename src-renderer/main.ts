@@ -12,6 +12,7 @@ import {
   type EvaluateResult,
   parseBudgetText,
   type ScanSummary,
+  type StackFrameInfo,
 } from '../src-main/contract';
 import { LowRankModel } from './model';
 import { profilePlot, SpectrumCharts } from './spectrum';
@@ -427,6 +428,7 @@ let openSeq = 0;
 async function open(source: Parameters<typeof api.openScan>[0]['source']) {
   const seq = ++openSeq;
   const current = () => seq === openSeq;
+  leaveStack();
   state.openedAt = performance.now();
   state.model = undefined;
   state.firstPaintMs = undefined;
@@ -507,18 +509,145 @@ async function uploadAndOpen(f: File) {
 async function openPath(path: string) {
   try {
     const r = await api.pick({ kind: 'file', suggested: path });
-    if (r.path) await open({ kind: 'path', path: r.path });
+    if (r.path) await openChosen(r.path);
   } catch (err) {
     fail(err);
   }
 }
+
+/** A chosen path: a stack file (.rkf) opens in stack mode, anything else as a scan. */
+function openChosen(path: string) {
+  return /\.rkf$/i.test(path) ? openStack(path) : open({ kind: 'path', path });
+}
+
+// ---- stack files: a frame slider over one .rkf with the stack layout ----------------------------
+
+const frameInput = $<HTMLInputElement>('frame');
+const stackState: { path?: string; info?: StackFrameInfo; want: number; loading?: number; seq: number } = {
+  want: 0,
+  seq: 0,
+};
+
+function leaveStack() {
+  stackState.path = undefined;
+  stackState.info = undefined;
+  stackState.seq++;
+  $('stack-card').hidden = true;
+  frameInput.disabled = true;
+  delete document.body.dataset.stackFrame;
+}
+
+async function openStack(path: string) {
+  ++openSeq; // a scan still opening must not take over the view
+  leaveStack();
+  state.model = undefined;
+  state.scan = undefined;
+  state.cleaned = undefined;
+  state.preview = undefined;
+  state.showing = 'model';
+  rankInput.disabled = true;
+  stackState.path = path;
+  stackState.want = 0;
+  busy(newJob(), 'Reading the stack…');
+  await loadFrame(stackState.seq);
+}
+
+/** Fetch the frame the slider asks for; slider moves during a fetch coalesce into one more fetch. */
+async function loadFrame(seq: number) {
+  if (stackState.loading === seq || !stackState.path) return;
+  stackState.loading = seq;
+  try {
+    while (seq === stackState.seq) {
+      const want = stackState.want;
+      const buf = await api.stackFrame({ path: stackState.path, frame: want });
+      if (seq !== stackState.seq) return;
+      showFrame(buf);
+      if (stackState.want === want) break;
+    }
+    busy(undefined);
+  } catch (err) {
+    busy(undefined);
+    if (seq === stackState.seq) fail(err);
+  } finally {
+    if (stackState.loading === seq) stackState.loading = undefined;
+  }
+}
+
+function showFrame(buf: ArrayBuffer) {
+  const { header, arrays } = decodeFactorSet(buf);
+  const info = header.stack;
+  if (!info) throw new Error('the back end sent no stack summary');
+  const first = !stackState.info;
+  stackState.info = info;
+  const original = header.channels.map((_, c) => arrays[`src.${c}`] as Uint8Array | Uint16Array);
+  const recon = original.map((a) => Float32Array.from(a));
+  view.setSource({
+    width: header.width,
+    height: header.height,
+    peak: header.peak,
+    original,
+    recon: () => recon,
+  });
+  const label = info.frameNames[info.frame] ?? `frame ${info.frame + 1}`;
+  $('label-left').textContent = `frame ${info.frame + 1} of ${info.frameCount} · decoded`;
+  $('label-right').textContent = `${label} · decoded (the originals are not in the file)`;
+  $('frame-out').textContent = `${info.frame + 1} / ${info.frameCount}`;
+  frameInput.value = String(info.frame + 1);
+  const put = (metric: string, value: number, text: string) => {
+    const el = document.querySelector<HTMLElement>(`#stack-card [data-metric="${metric}"]`)!;
+    el.dataset.value = String(value);
+    el.querySelector('dd')!.textContent = text;
+  };
+  put('frame', info.frame + 1, `${info.frame + 1} · ${label}`);
+  put('frame-count', info.frameCount, String(info.frameCount));
+  put('eigen-frames', Math.max(...info.ranks), info.ranks.join(' / '));
+  put('residual', info.residual ? 1 : 0, info.residual ? 'yes' : 'no');
+  // Sizes are the whole stack's: the eigen-frames are shared by every frame.
+  setReadouts(
+    {
+      psnr: info.psnr,
+      ssim: info.ssim,
+      bytes: info.fileBytes,
+      ratio: info.rawBytes / info.fileBytes,
+      bpp: (8 * info.fileBytes) / (header.width * header.height * info.frameCount),
+    },
+    true,
+    undefined,
+  );
+  const hasQuality = info.psnr !== undefined;
+  for (const m of ['psnr', 'ssim'])
+    if (!hasQuality) document.querySelector(`#readouts [data-metric="${m}"] dd`)!.textContent = 'not in file';
+  $('readout-state').textContent = 'stack file';
+  $('stack-note').textContent = hasQuality
+    ? 'PSNR and SSIM of this frame as recorded in the file; sizes are for the whole stack.'
+    : 'This stack file records no per-frame PSNR or SSIM and holds no originals to compare against, so only sizes are shown (bytes, ratio and bits per pixel of the whole stack; the eigen-frames are shared by every frame). Per-frame figures are in the report of `rankfold compress --stack --json`.';
+  document.body.dataset.stackFrame = String(info.frame);
+  if (first) {
+    $('stack-card').hidden = false;
+    $('drop-hint').hidden = true;
+    frameInput.min = '1';
+    frameInput.max = String(info.frameCount);
+    frameInput.disabled = false;
+    charts.showFrameMode(info.spectrum, Math.max(...info.ranks));
+    $('scan-info').textContent =
+      `${info.name} · stack of ${info.frameCount} frames · ${header.width}×${header.height} px · ${info.bitDepth}-bit · ${header.channels.length} channel${header.channels.length > 1 ? 's' : ''} · ${fmtBytes(info.fileBytes)}`;
+    status(`Opened the stack ${info.name}: ${info.frameCount} frames, ${info.ranks.join('/')} eigen-frames.`);
+    void refreshRecent();
+  }
+}
+
+frameInput.addEventListener('input', () => {
+  stackState.want = Number(frameInput.value) - 1;
+  $('frame-out').textContent = `${frameInput.value} / ${frameInput.max}`;
+  void loadFrame(stackState.seq);
+});
 
 $('path-form').addEventListener('submit', (e) => {
   e.preventDefault();
   const p = $<HTMLInputElement>('path-input').value.trim();
   if (p) void openPath(p);
 });
-api.onOpenPath((p) => void open({ kind: 'path', path: p }));
+api.onOpenPath((p) => void openChosen(p));
 
 async function refreshSamples() {
   const list = $('samples');
@@ -569,7 +698,7 @@ stage.addEventListener('drop', (e) => {
     // Desktop: the shell reads the real path of what was dropped (file or folder).
     void api.openDropped(dropped).then((r) => {
       if (!r) return;
-      if (r.kind === 'file') return open({ kind: 'path', path: r.path });
+      if (r.kind === 'file') return openChosen(r.path);
       $<HTMLInputElement>('batch-in').value = r.path;
       selectTab('batch');
     }, fail);

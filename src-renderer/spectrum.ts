@@ -117,6 +117,97 @@ export class SpectrumCharts {
     );
   }
 
+  /**
+   * Stack files: the frame-mode spectrum from the file header (singular values of the mean-removed frame
+   * matrix per coded channel) with cumulative energy, and the energy left after i eigen-frames.
+   * `stored` (eigen-frames kept in the file) is marked.
+   */
+  showFrameMode(spectrum: { channel: string; sigma: number[] }[], stored: number) {
+    const K = Math.max(1, ...spectrum.map((s) => s.sigma.length));
+    const ks = Array.from({ length: K }, (_, i) => i + 1);
+    const axisStyle = {
+      stroke: '#3b4656',
+      grid: { stroke: 'rgba(29,42,58,0.08)' },
+      ticks: { stroke: 'rgba(29,42,58,0.2)' },
+    };
+    const colours = ['#1d2a3a', '#7a3b69', '#2f5d8a'];
+    const cumulative = (sigma: number[]) => {
+      const total = sigma.reduce((a, v) => a + v * v, 0) || 1;
+      let run = 0;
+      return ks.map((k) => {
+        if (k <= sigma.length) run += sigma[k - 1] ** 2;
+        return run / total;
+      });
+    };
+    const cum = spectrum.map((s) => cumulative(s.sigma));
+    this.sigmaPlot?.destroy();
+    this.errorPlot?.destroy();
+    this.rank = stored;
+    this.budgetRank = undefined;
+    this.sigmaPlot = new uPlot(
+      {
+        ...this.size(this.sigmaHost),
+        title: 'Frame-mode singular values (eigen-frames) and cumulative energy',
+        scales: { x: { time: false }, s: { distr: 3 }, e: { range: [0, 100] } },
+        axes: [
+          { ...axisStyle, label: 'eigen-frame i' },
+          { ...axisStyle, scale: 's', label: 'σᵢ (grey levels)' },
+          { ...axisStyle, scale: 'e', side: 1, label: 'energy %', grid: { show: false } },
+        ],
+        series: [
+          {},
+          ...spectrum.map((s, c) => ({
+            label: `σᵢ ${s.channel}`,
+            scale: 's',
+            stroke: colours[c % colours.length],
+            width: 1.5,
+          })),
+          {
+            label: `cumulative energy % (${spectrum[0]?.channel ?? ''})`,
+            scale: 'e',
+            stroke: '#8a6d1f',
+            width: 1.5,
+            dash: [4, 3],
+          },
+        ],
+        hooks: this.marks(),
+        legend: { live: false },
+      },
+      [
+        ks,
+        ...spectrum.map((s) =>
+          ks.map((k) => (k <= s.sigma.length && s.sigma[k - 1] > 0 ? s.sigma[k - 1] : null)),
+        ),
+        (cum[0] ?? ks.map(() => 0)).map((f) => 100 * f),
+      ],
+      this.sigmaHost,
+    );
+    this.errorPlot = new uPlot(
+      {
+        ...this.size(this.errorHost),
+        title: 'Energy left after i eigen-frames',
+        scales: { x: { time: false }, r: { distr: 3 } },
+        axes: [
+          { ...axisStyle, label: 'eigen-frames i' },
+          { ...axisStyle, scale: 'r', label: 'energy left %' },
+        ],
+        series: [
+          {},
+          ...spectrum.map((s, c) => ({
+            label: s.channel,
+            scale: 'r',
+            stroke: colours[c % colours.length],
+            width: 1.5,
+          })),
+        ],
+        hooks: this.marks(),
+        legend: { live: false },
+      },
+      [ks, ...cum.map((cs) => cs.map((f) => (f < 1 - 1e-12 ? 100 * (1 - f) : null)))],
+      this.errorHost,
+    );
+  }
+
   mark(rank: number, budgetRank?: number) {
     this.rank = rank;
     this.budgetRank = budgetRank;

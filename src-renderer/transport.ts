@@ -50,6 +50,8 @@ class HttpApi implements RankfoldApi {
   clean = (req: Parameters<RankfoldApi['clean']>[0]) =>
     this.post('clean', req) as ReturnType<RankfoldApi['clean']>;
   fetchImages = (id: string) => this.post('fetchImages', id) as Promise<ArrayBuffer>;
+  stackFrame = (req: Parameters<RankfoldApi['stackFrame']>[0]) =>
+    this.post('stackFrame', req) as Promise<ArrayBuffer>;
   save = (req: Parameters<RankfoldApi['save']>[0]) =>
     this.post('save', req) as ReturnType<RankfoldApi['save']>;
   batch = (req: Parameters<RankfoldApi['batch']>[0]) =>

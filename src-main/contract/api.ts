@@ -169,6 +169,35 @@ export interface SampleInfo {
   bytes: number;
 }
 
+/** One frame of a stack file (`layout: "stack"`, written by `rankfold compress --stack`). */
+export interface StackFrameRequest {
+  /** A .rkf stack file the user opened or chose in this session. */
+  path: string;
+  /** 0-based frame index. */
+  frame: number;
+}
+
+/** What the page shows about a stack and one of its frames; carried in the factor-set header as `stack`. */
+export interface StackFrameInfo {
+  name: string;
+  frame: number;
+  frameCount: number;
+  frameNames: Array<string | null>;
+  /** Eigen-frames stored per coded channel. */
+  ranks: number[];
+  /** Frame-mode singular values per coded channel ('gray', or 'Y', 'Cb', 'Cr'), from the header. */
+  spectrum: { channel: string; sigma: number[] }[];
+  /** Size of the whole stack file, and of its frames as raw samples. */
+  fileBytes: number;
+  rawBytes: number;
+  bitDepth: 8 | 16;
+  /** True when this frame carries a coded residual in some channel. */
+  residual: boolean;
+  /** Per-frame PSNR/SSIM when the file records them; the stack layout does not, so these are absent. */
+  psnr?: number;
+  ssim?: number;
+}
+
 /** Progress of a long job; `done` of `total` in the job's own units (planes, files, passes). */
 export interface ProgressEvent {
   job: string;
@@ -194,6 +223,8 @@ export interface RankfoldApi {
   clean(req: CleanRequest): Promise<CleanResult>;
   /** Planes kept on the back end (cleaned/removed, or a tiled preview), in the factor-set layout. */
   fetchImages(imagesId: string): Promise<ArrayBuffer>;
+  /** One decoded frame of a stack file (`src.p` blocks) with the stack's summary in `header.stack`. */
+  stackFrame(req: StackFrameRequest): Promise<ArrayBuffer>;
   save(req: SaveRequest): Promise<SaveResult>;
   batch(req: BatchRequest): Promise<BatchResult>;
   openReport(reportId: string): Promise<void>;
@@ -240,6 +271,7 @@ export const API_METHODS = [
   'evaluate',
   'clean',
   'fetchImages',
+  'stackFrame',
   'save',
   'batch',
   'openReport',
@@ -385,6 +417,10 @@ export const validators: { [M in ApiMethod]: (v: unknown) => unknown } = {
     };
   },
   fetchImages: (v): string => checkId('imagesId', v),
+  stackFrame: (v): StackFrameRequest => {
+    const o = obj('stackFrame', v, ['path', 'frame']);
+    return { path: checkPath('path', o.path), frame: checkInteger('frame', o.frame, 0, 1_000_000) };
+  },
   save: (v): SaveRequest => {
     const o = obj('save', v, ['scanId', 'kind', 'budget', 'tile', 'settings', 'path', 'force', 'job']);
     return {
@@ -457,6 +493,8 @@ export interface FactorSetHeader {
   complete: boolean;
   /** Full spectra when computed (`spectrum.p` blocks). */
   blocks: BlockInfo[];
+  /** Set when the planes are one frame of a stack file. */
+  stack?: StackFrameInfo;
 }
 
 export type FactorArrays = Record<string, Float32Array | Uint8Array | Uint16Array>;

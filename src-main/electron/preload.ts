@@ -43,6 +43,7 @@ const api: RankfoldApi = {
   evaluate: (req) => call('evaluate', req) as ReturnType<RankfoldApi['evaluate']>,
   clean: (req) => call('clean', req) as ReturnType<RankfoldApi['clean']>,
   fetchImages: (id) => call('fetchImages', id) as Promise<ArrayBuffer>,
+  stackFrame: (req) => call('stackFrame', req) as Promise<ArrayBuffer>,
   save: (req) => call('save', req) as ReturnType<RankfoldApi['save']>,
   batch: (req) => call('batch', req) as ReturnType<RankfoldApi['batch']>,
   openReport: async (id) => {

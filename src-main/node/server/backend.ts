@@ -32,10 +32,12 @@ import {
   type SaveRequest,
   type SaveResult,
   type ScanSummary,
+  type StackFrameRequest,
   UsageError,
 } from '../../contract';
 import { runBatchJob } from './batch-bridge';
 import { SessionWorker } from './session-worker';
+import { openStackFrame, type StackSession } from './stack-bridge';
 
 const SCAN_EXT = new Set(['.png', '.tif', '.tiff', '.jpg', '.jpeg', '.webp']);
 /** Largest upload accepted from the page: 2 GiB, above any single scan the decoder's pixel limit allows at 8 bits. */
@@ -69,6 +71,8 @@ export class Backend extends EventEmitter {
   private readonly reports = new Map<string, string>();
   private readonly batches = new Map<string, AbortController>();
   private readonly recentList: string[] = [];
+  /** The open stack file (one at a time, like scans), read once and decoded a frame at a time. */
+  private stack?: StackSession;
   private uploadDir?: string;
 
   constructor(readonly options: BackendOptions) {
@@ -97,6 +101,8 @@ export class Backend extends EventEmitter {
         return this.clean(payload as CleanRequest);
       case 'fetchImages':
         return this.blob(payload as string).data;
+      case 'stackFrame':
+        return this.stackFrame(payload as StackFrameRequest);
       case 'save':
         return this.save(payload as SaveRequest);
       case 'batch':
@@ -322,6 +328,15 @@ export class Backend extends EventEmitter {
     const imagesId = newId();
     this.putBlob(imagesId, { data: r.images, fileName: 'cleaned.bin', type: 'application/octet-stream' });
     return { imagesId, report: r.report, profile: r.profile };
+  }
+
+  /** One frame of a stack file the user opened or chose (same access rule as scans). */
+  private async stackFrame(req: StackFrameRequest): Promise<ArrayBuffer> {
+    const file = await this.readable(req.path);
+    const r = await openStackFrame(this.stack, file, req.frame);
+    if (this.stack?.file !== file) this.addRecent(file);
+    this.stack = r.session;
+    return r.data;
   }
 
   /** Keep a blob for the page to fetch; only the most recent few stay, so memory stays bounded. */

@@ -1,0 +1,94 @@
+/**
+ * The app's view of a stack file (`layout: "stack"`, see docs/format.md "Stack layout"): read the file
+ * once, keep its random-access reader, and hand out one decoded frame at a time in the factor-set layout
+ * of src-main/contract/api.ts (`src.p` blocks) with the stack's summary in `header.stack`.
+ *
+ * The stack layout records no per-frame PSNR/SSIM (the originals are not in the file), so the summary
+ * carries sizes only; the page says so.
+ */
+import { readFile, stat } from 'node:fs/promises';
+import { basename } from 'node:path';
+import { encodeFactorSet, InputError, type StackFrameInfo, UsageError } from '../../contract';
+import { isStackContainer, openStack, type StackReader } from '../../engine/codec/stack-codec';
+
+export interface StackSession {
+  file: string;
+  mtimeMs: number;
+  size: number;
+  reader: StackReader;
+}
+
+const CHANNEL_NAMES: Record<string, string[]> = { gray: ['gray'], ycbcr: ['Y', 'Cb', 'Cr'] };
+
+async function load(file: string): Promise<StackSession> {
+  let bytes: Uint8Array;
+  let st: Awaited<ReturnType<typeof stat>>;
+  try {
+    st = await stat(file);
+    bytes = new Uint8Array(await readFile(file));
+  } catch (err) {
+    throw new InputError(file, `cannot be read (${(err as NodeJS.ErrnoException).code ?? String(err)})`);
+  }
+  if (!isStackContainer(bytes, file))
+    throw new InputError(
+      file,
+      'is not a stack file (a .rkf written by `rankfold compress --stack`); open single scans as images',
+    );
+  return { file, mtimeMs: st.mtimeMs, size: st.size, reader: openStack(bytes, file) };
+}
+
+/**
+ * Decode frame `frame` of `file`, reusing `current` when it is the same unchanged file.
+ * @throws UsageError for a frame index out of range; FormatError for a damaged file.
+ */
+export async function openStackFrame(
+  current: StackSession | undefined,
+  file: string,
+  frame: number,
+): Promise<{ session: StackSession; data: ArrayBuffer }> {
+  let session = current;
+  if (!session || session.file !== file || (await stat(file)).mtimeMs !== session.mtimeMs)
+    session = await load(file);
+  const h = session.reader.header;
+  if (frame >= h.frameCount)
+    throw new UsageError(
+      `${file}: frame ${frame} does not exist; the stack holds frames 0–${h.frameCount - 1}`,
+    );
+  const planes = session.reader.frame(frame);
+  const names = CHANNEL_NAMES[h.colour] ?? h.spectrum.map((_, c) => `c${c}`);
+  const info: StackFrameInfo = {
+    name: basename(file),
+    frame,
+    frameCount: h.frameCount,
+    frameNames: h.frameTable.map((f) => f.name ?? null),
+    ranks: h.ranks,
+    spectrum: h.spectrum.map((sigma, c) => ({ channel: names[c] ?? `c${c}`, sigma })),
+    fileBytes: session.size,
+    rawBytes: h.width * h.height * h.channels * (h.bitDepth / 8) * h.frameCount,
+    bitDepth: h.bitDepth,
+    residual: h.frameTable[frame].residual.some(Boolean),
+  };
+  const arrays: Record<string, Uint8Array | Uint16Array> = {};
+  planes.forEach((p, c) => {
+    const out = h.bitDepth === 16 ? new Uint16Array(p.length) : new Uint8Array(p.length);
+    for (let i = 0; i < p.length; i++) out[i] = p[i];
+    arrays[`src.${c}`] = out;
+  });
+  const packed = encodeFactorSet(
+    {
+      width: h.width,
+      height: h.height,
+      channels: h.channels === 1 ? ['gray'] : ['r', 'g', 'b'],
+      ranks: planes.map(() => 0),
+      energy: planes.map(() => 0),
+      peak: h.bitDepth === 16 ? 65535 : 255,
+      complete: false,
+      stack: info,
+    },
+    arrays,
+  );
+  return {
+    session,
+    data: packed.buffer.slice(packed.byteOffset, packed.byteOffset + packed.byteLength) as ArrayBuffer,
+  };
+}

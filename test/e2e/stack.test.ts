@@ -1,0 +1,146 @@
+/**
+ * Stack files in the page (browser mode): an 8-frame series written by the built CLI's
+ * `compress --stack`, opened by path, browsed with the "Frame" slider.
+ *
+ * Outside references:
+ * - the CLI's own `compress --stack --json` report (frames, outputBytes, stored eigen-frames) and the
+ *   file size on disk (node:fs stat), which the page's readouts must equal;
+ * - the CLI's `expand --frame I` output read back with sharp 0.33 (`raw()`), which the frame the back
+ *   end sends to the page must equal sample for sample;
+ * - raw size = width · height · channels · bytes per sample · frames (common practice).
+ */
+import { mkdirSync, mkdtempSync, rmSync, statSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import type { BrowserContext, Page } from 'playwright-core';
+import sharp from 'sharp';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { decodeFactorSet } from '../../src-main/contract';
+import { cliJson, launch, readouts, type Served, serve, shot } from './harness';
+
+const W = 64;
+const H = 48;
+const N = 8;
+const dir = mkdtempSync(join(tmpdir(), 'rankfold-e2e-stack-'));
+const framesDir = join(dir, 'plate');
+const stackFile = join(dir, 'plate.rkf');
+
+/** A fictional Fenwick Lab plate: a slow gradient that fades, and a bright spot drifting right. */
+async function writeSeries() {
+  mkdirSync(framesDir);
+  for (let j = 0; j < N; j++) {
+    const px = new Uint8Array(W * H);
+    for (let y = 0; y < H; y++)
+      for (let x = 0; x < W; x++) {
+        const base = 40 + (120 * x) / W + (40 * y) / H - 4 * j;
+        const dx = x - (10 + 6 * j);
+        const dy = y - 24;
+        const spot = 90 * Math.exp(-(dx * dx + dy * dy) / 18);
+        px[y * W + x] = Math.max(0, Math.min(255, Math.round(base + spot)));
+      }
+    await sharp(px, { raw: { width: W, height: H, channels: 1 } })
+      .toColourspace('b-w')
+      .png()
+      .toFile(join(framesDir, `frame-${j + 1}.png`));
+  }
+}
+
+let served: Served;
+let ctx: BrowserContext;
+let page: Page;
+let report: Record<string, unknown>;
+const pageErrors: string[] = [];
+
+beforeAll(async () => {
+  await writeSeries();
+  report = await cliJson(['compress', '--stack', framesDir, '-o', stackFile, '--bpp', '2']);
+  served = await serve();
+  ctx = await launch();
+  page = await ctx.newPage();
+  page.on('pageerror', (e) => pageErrors.push(e.message));
+  await page.goto(served.url);
+  await page.waitForSelector('body[data-ready="true"]');
+}, 60_000);
+
+afterAll(async () => {
+  await ctx?.close();
+  await served?.stop();
+  rmSync(dir, { recursive: true, force: true });
+});
+
+async function apiStackFrame(path: string, frame: number) {
+  const res = await fetch(`${served.origin}/api/call/stackFrame`, {
+    method: 'POST',
+    headers: { 'Content-Type': 'application/json', 'X-Rankfold-Token': served.token },
+    body: JSON.stringify({ path, frame }),
+  });
+  if ((res.headers.get('content-type') ?? '').startsWith('application/octet-stream'))
+    return { buf: await res.arrayBuffer() };
+  return { error: ((await res.json()) as { error: { message: string } }).error.message };
+}
+
+describe('stack files in the page', () => {
+  it('refuses a stack file the user has not opened or chosen', async () => {
+    const r = await apiStackFrame(stackFile, 0);
+    expect(r.error).toMatch(/not opened or chosen/);
+  });
+
+  it('opens the stack: Frame slider, frame-mode spectrum and size readouts equal to the CLI report', async () => {
+    await page.getByLabel('Path of a scan on this machine').fill(stackFile);
+    await page.getByRole('button', { name: 'Open', exact: true }).click();
+    await page.waitForSelector('body[data-stack-frame="0"]', { timeout: 30_000 });
+    const slider = page.getByRole('slider', { name: 'Frame' });
+    expect(await slider.isEnabled()).toBe(true);
+    expect(await slider.getAttribute('max')).toBe(String(N));
+    expect(await page.textContent('#scan-info')).toContain(`stack of ${N} frames`);
+    expect(await page.textContent('#scan-info')).toContain(`${W}×${H} px`);
+    const r = await readouts(page);
+    // Whole-file figures: the CLI's report and the size on disk.
+    expect(report.frames).toBe(N);
+    expect(report.channels).toBe(1);
+    expect(r.bytes).toBe(statSync(stackFile).size);
+    expect(r.bytes).toBe(report.outputBytes);
+    expect(r.ratio).toBeCloseTo((W * H * N) / statSync(stackFile).size, 9);
+    expect(r.bpp).toBeCloseTo(report.bpp as number, 9);
+    expect(r['frame-count']).toBe(N);
+    expect(r['eigen-frames']).toBe((report.spectrum as { stored: number }[])[0].stored);
+    expect(r.frame).toBe(1);
+    // No per-frame PSNR/SSIM in the file: blank values, and the page says so.
+    expect(await page.getAttribute('[data-metric="psnr"]', 'data-value')).toBe('');
+    expect(await page.textContent('[data-metric="psnr"] dd')).toBe('not in file');
+    expect(await page.textContent('#stack-note')).toMatch(/records no per-frame PSNR or SSIM/);
+    // The frame-mode spectrum chart replaced the rank spectrum.
+    expect(await page.textContent('#chart-sigma')).toContain('Frame-mode singular values');
+  });
+
+  it('moving the Frame slider shows another frame and updates the readouts', async () => {
+    const before = await page.locator('#canvas-right').screenshot();
+    await page.getByRole('slider', { name: 'Frame' }).fill('7');
+    await page.waitForSelector('body[data-stack-frame="6"]', { timeout: 30_000 });
+    const after = await page.locator('#canvas-right').screenshot();
+    expect(Buffer.compare(before, after)).not.toBe(0);
+    const r = await readouts(page);
+    expect(r.frame).toBe(7);
+    expect(await page.textContent('[data-metric="frame"] dd')).toContain('frame-7.png');
+    await shot(page, 'stack-frame-7');
+  });
+
+  it('the frame sent to the page equals `rankfold expand --frame 6`, read back with sharp', async () => {
+    const out = join(dir, 'f6.png');
+    await cliJson(['expand', stackFile, '-o', out, '--frame', '6']);
+    expect((await sharp(out).metadata()).channels).toBe(1);
+    const { data, info } = await sharp(out).toColourspace('b-w').raw().toBuffer({ resolveWithObject: true });
+    expect(info.channels).toBe(1);
+    const r = await apiStackFrame(stackFile, 6);
+    const { header, arrays } = decodeFactorSet(r.buf as ArrayBuffer);
+    expect(header.stack?.frame).toBe(6);
+    expect([header.width, header.height]).toEqual([W, H]);
+    expect(Array.from(arrays['src.0'])).toEqual(Array.from(data));
+    const bad = await apiStackFrame(stackFile, N);
+    expect(bad.error).toMatch(/frame 8 does not exist/);
+  });
+
+  it('raised no errors in the page', () => {
+    expect(pageErrors).toEqual([]);
+  });
+});
