@@ -53,7 +53,7 @@ const pageErrors: string[] = [];
 
 beforeAll(async () => {
   await writeSeries();
-  report = await cliJson(['compress', '--stack', framesDir, '-o', stackFile, '--bpp', '2']);
+  report = await cliJson(['compress', '--stack', framesDir, '-o', stackFile, '--bpp', '0.5']);
   served = await serve();
   ctx = await launch();
   page = await ctx.newPage();
@@ -103,7 +103,9 @@ describe('stack files in the page', () => {
     expect(r.ratio).toBeCloseTo((W * H * N) / statSync(stackFile).size, 9);
     expect(r.bpp).toBeCloseTo(report.bpp as number, 9);
     expect(r['frame-count']).toBe(N);
-    expect(r['eigen-frames']).toBe((report.spectrum as { stored: number }[])[0].stored);
+    const stored = (report.spectrum as { stored: number }[])[0].stored;
+    expect(stored).toBeGreaterThan(0);
+    expect(r['eigen-frames']).toBe(stored);
     expect(r.frame).toBe(1);
     // No per-frame PSNR/SSIM in the file: blank values, and the page says so.
     expect(await page.getAttribute('[data-metric="psnr"]', 'data-value')).toBe('');
