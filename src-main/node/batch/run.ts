@@ -5,6 +5,7 @@
 import { mkdir, readdir, stat, unlink } from 'node:fs/promises';
 import { availableParallelism } from 'node:os';
 import { basename, dirname, join, resolve } from 'node:path';
+import sharp from 'sharp';
 import {
   type BatchEvent,
   type BatchRow,
@@ -224,6 +225,9 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
   const plan = await planBatch(inDir, outDir, { include: o.include, exclude: o.exclude, shard });
   const warnings = plan.problems.map((p) => `${p.path}: ${p.message}`);
   const jobs = Math.max(1, Math.min(o.jobs ?? availableParallelism(), 256));
+  // One job = one core: libvips' own thread pool is process-wide and shared by every worker, so batch
+  // parallelism comes from --jobs alone and throughput scales with the job count (docs/cli.md, batch).
+  sharp.concurrency(1);
   const base = manifestBase(shard.index, shard.count);
   const manifestPath = o.manifest ?? join(outDir, `${base}.jsonl`);
   const csvPath = manifestPath.replace(/\.jsonl?$/i, '') + '.csv';
