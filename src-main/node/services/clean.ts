@@ -3,6 +3,7 @@
  * was done. Used alike by the CLI, IPC and HTTP handlers. The input file is only read; outputs are
  * written atomically and never replace an existing file without `force`.
  */
+
 import { existsSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -34,6 +35,7 @@ import {
   rowBands,
   withPassThrough,
 } from '../../engine/clean';
+import { crc32 } from '../../engine/codec/crc32';
 import { decodeImage } from '../image/decode';
 import { encodeImage, formatFromPath } from '../image/encode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
@@ -397,23 +399,6 @@ export function insertPngText(png: Buffer, keyword: string, text: string): Buffe
   chunk.writeUInt32BE(crc32(chunk.subarray(4, 8 + data.length)), 8 + data.length);
   const ihdrEnd = 8 + 8 + 13 + 4;
   return Buffer.concat([png.subarray(0, ihdrEnd), chunk, png.subarray(ihdrEnd)]);
-}
-
-const CRC_TABLE = (() => {
-  const t = new Uint32Array(256);
-  for (let n = 0; n < 256; n++) {
-    let c = n;
-    for (let k = 0; k < 8; k++) c = c & 1 ? 0xedb88320 ^ (c >>> 1) : c >>> 1;
-    t[n] = c >>> 0;
-  }
-  return t;
-})();
-
-/** CRC-32 as PNG uses it (ISO/IEC 15948 Annex D). */
-export function crc32(bytes: Uint8Array): number {
-  let c = 0xffffffff;
-  for (let i = 0; i < bytes.length; i++) c = CRC_TABLE[(c ^ bytes[i]) & 0xff] ^ (c >>> 8);
-  return (c ^ 0xffffffff) >>> 0;
 }
 
 /** CSV of the subtracted stripe profiles: `axis,index,<channel…>`, offsets in grey levels of the input. */
