@@ -614,7 +614,7 @@ function showFrame(buf: ArrayBuffer) {
     true,
     undefined,
   );
-  const hasQuality = info.psnr !== undefined;
+  const hasQuality = info.psnr !== undefined || info.ssim !== undefined;
   for (const m of ['psnr', 'ssim'])
     if (!hasQuality) document.querySelector(`#readouts [data-metric="${m}"] dd`)!.textContent = 'not in file';
   $('readout-state').textContent = 'stack file';

@@ -193,7 +193,7 @@ export interface StackFrameInfo {
   bitDepth: 8 | 16;
   /** True when this frame carries a coded residual in some channel. */
   residual: boolean;
-  /** Per-frame PSNR/SSIM when the file records them; the stack layout does not, so these are absent. */
+  /** This frame's PSNR (dB) and SSIM as recorded in the file (SQAL chunk); absent when the file does not record them. */
   psnr?: number;
   ssim?: number;
 }

@@ -237,6 +237,22 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     });
     const ended = await exit;
     expect(ended.signal, 'the batch finished before the kill; make the folder bigger').toBe('SIGKILL');
+    // `rankfold batch` runs its jobs in a relaunched process (src-main/node/cli/relaunch.ts): killing the
+    // command must kill that too, or it would go on writing beside the resumed run.
+    if (existsSync('/proc')) {
+      const alive = () =>
+        readdirSync('/proc')
+          .filter((d) => /^\d+$/.test(d))
+          .filter((d) => {
+            try {
+              return readFileSync(`/proc/${d}/cmdline`, 'utf8').includes(out);
+            } catch {
+              return false;
+            }
+          });
+      for (let i = 0; i < 50 && alive().length; i++) await new Promise((r) => setTimeout(r, 20));
+      expect(alive(), 'a batch process outlived the SIGKILL of the command').toEqual([]);
+    }
     const partial = hashTree(out, rkfOnly);
     expect(Object.keys(partial).length).toBeGreaterThanOrEqual(2);
     expect(Object.keys(partial).length).toBeLessThan(N);

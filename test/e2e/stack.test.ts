@@ -85,7 +85,7 @@ describe('stack files in the page', () => {
     expect(r.error).toMatch(/not opened or chosen/);
   });
 
-  it('opens the stack: Frame slider, frame-mode spectrum and size readouts equal to the CLI report', async () => {
+  it('opens the stack: Frame slider, frame-mode spectrum, per-frame PSNR/SSIM and size readouts equal to the CLI report', async () => {
     await page.getByLabel('Path of a scan on this machine').fill(stackFile);
     await page.getByRole('button', { name: 'Open', exact: true }).click();
     await page.waitForSelector('body[data-stack-frame="0"]', { timeout: 30_000 });
@@ -107,10 +107,11 @@ describe('stack files in the page', () => {
     expect(stored).toBeGreaterThan(0);
     expect(r['eigen-frames']).toBe(stored);
     expect(r.frame).toBe(1);
-    // No per-frame PSNR/SSIM in the file: blank values, and the page says so.
-    expect(await page.getAttribute('[data-metric="psnr"]', 'data-value')).toBe('');
-    expect(await page.textContent('[data-metric="psnr"] dd')).toBe('not in file');
-    expect(await page.textContent('#stack-note')).toMatch(/records no per-frame PSNR or SSIM/);
+    // This frame's PSNR/SSIM as recorded in the file (float32) equal the CLI report's per-frame figures.
+    const first = (report.perFrame as { psnr: number; ssim: number }[])[0];
+    expect(r.psnr).toBeCloseTo(first.psnr, 4);
+    expect(r.ssim).toBeCloseTo(first.ssim, 6);
+    expect(await page.textContent('#stack-note')).toMatch(/as recorded in the file/);
     // The frame-mode spectrum chart replaced the rank spectrum.
     expect(await page.textContent('#chart-sigma')).toContain('Frame-mode singular values');
   });
@@ -123,6 +124,7 @@ describe('stack files in the page', () => {
     expect(Buffer.compare(before, after)).not.toBe(0);
     const r = await readouts(page);
     expect(r.frame).toBe(7);
+    expect(r.psnr).toBeCloseTo((report.perFrame as { psnr: number }[])[6].psnr, 4);
     expect(await page.textContent('[data-metric="frame"] dd')).toContain('frame-7.png');
     await shot(page, 'stack-frame-7');
   });

@@ -179,6 +179,34 @@ describe('stack rate control', () => {
     expect(fit.encoded.bytes.length).toBeGreaterThan(0.8 * budget);
   });
 
+  it('records each frame’s PSNR and SSIM in the file (SQAL) without changing its size, and a reader returns them', () => {
+    const s = driftingSpecimen({ width: 48, height: 40, frames: 9, seed: 21, noise: 1 });
+    const prep = prepareStack(asInput(s));
+    const budget = 48 * 40 * 9 * 0.4;
+    const trial = encodeStack(prep, { step: 6 });
+    const fit = fitStack(prep, { maxBytes: budget });
+    expect(fit.encoded.bytes.length).toBeLessThanOrEqual(budget);
+    const reader = openStack(fit.encoded.bytes, 'series.rkf');
+    // The values read back are float32 copies of the figures measured on the decoded frames.
+    reader.header.frameTable.forEach((f, j) => {
+      expect(f.psnr).toBeCloseTo(fit.psnr[j], 4);
+      expect(f.ssim).toBeCloseTo(fit.ssim[j], 6);
+    });
+    // Independent check of one figure: PSNR of the reader's own decode against the source (10·log10(255²/MSE)).
+    const dec = reader.frame(4)[0];
+    let se = 0;
+    for (let p = 0; p < dec.length; p++) se += (dec[p] - s.frames[4][p]) ** 2;
+    expect(reader.header.frameTable[4].psnr).toBeCloseTo(10 * Math.log10((255 * 255 * dec.length) / se), 4);
+    // A trial encode holds the chunk at its final size with NaN: not recorded.
+    expect(
+      openStack(trial.bytes, 't.rkf').header.frameTable.every(
+        (f) => f.psnr === undefined && f.ssim === undefined,
+      ),
+    ).toBe(true);
+    const view = readContainer(fit.encoded.bytes, 'series.rkf', true);
+    expect(view.payload(view.find('SQAL', 0)).length).toBe(8 * 9);
+  });
+
   it('--rank K keeps exactly K eigen-frames and no residuals', () => {
     const s = phantomSlices({ width: 40, height: 40, frames: 12, seed: 6 });
     const fit = fitStack(prepareStack(asInput(s)), { rank: 3 });

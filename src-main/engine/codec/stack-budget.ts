@@ -9,7 +9,14 @@
  * File size falls and distortion rises with Δ (monotone in practice, not guaranteed); the search keeps
  * the best feasible point it has seen, so the answer always meets the target when one was found.
  */
-import { type EncodedStack, encodeStack, framePsnr, frameSsim, type PreparedStack } from './stack-codec';
+import {
+  type EncodedStack,
+  encodeStack,
+  framePsnr,
+  frameSsim,
+  type PreparedStack,
+  recordFrameQuality,
+} from './stack-codec';
 
 export interface StackTarget {
   /** Largest file in bytes (container included). */
@@ -179,7 +186,7 @@ export function fitStack(
 
   function finish(f: StackFit): StackFit {
     const ssim = f.ssim.length ? f.ssim : frameSsim(prep.input, f.encoded.decoded);
-    return { ...f, ssim, evaluations };
+    return { ...f, encoded: recordFrameQuality(f.encoded, f.psnr, ssim), ssim, evaluations };
   }
 }
 

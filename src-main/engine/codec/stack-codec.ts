@@ -22,7 +22,8 @@
  *
  * Chunks (ids are u32): HEAD (JSON, `layout: "stack"`), SMEA c (mean of channel c), SBAS c·65536+i
  * (eigen-frame i of channel c), SCOF c (float32 big-endian: per frame, d_j then c_j0…c_j(k−1)),
- * SRES c·65536+j (residual of frame j, channel c). Planes are coded by stack-plane.ts.
+ * SRES c·65536+j (residual of frame j, channel c), SQAL 0 (float32 big-endian: per frame, PSNR then SSIM of
+ * the decoded frame against its source, NaN = not recorded). Planes are coded by stack-plane.ts.
  */
 import { FormatError } from '../../contract/errors';
 import { chromaOffset, rgbToYcbcr, toSamples, ycbcrToRgb } from '../lowrank/colour';
@@ -77,7 +78,14 @@ export interface StackHeader {
   ranks: number[];
   /** Frame-mode singular values per coded channel, after mean removal (sample scale). */
   spectrum: number[][];
-  frameTable: Array<{ name?: string; sourceSha256?: string; residual: boolean[] }>;
+  frameTable: Array<{
+    name?: string;
+    sourceSha256?: string;
+    residual: boolean[];
+    /** PSNR (dB, pooled over channels) and SSIM of the decoded frame against its source, when recorded (SQAL). */
+    psnr?: number;
+    ssim?: number;
+  }>;
   meta?: Record<string, unknown>;
 }
 
@@ -132,7 +140,12 @@ export interface EncodedStack {
   /** Decoded frames on the source scale (rounded, clamped): [frame][channel]. */
   decoded: Float32Array[][];
   split: StackByteSplit;
+  /** The chunks of `bytes`, so the frame-quality chunk can be filled in without coding again. */
+  chunks: Chunk[];
 }
+
+/** Bytes of the SQAL chunk for N frames: a PSNR and an SSIM per frame, float32. Fixed, so budgets count it from the first trial. */
+const qualityBytes = (N: number) => 8 * N;
 
 const chunkId = (c: number, i: number) => c * 65536 + i;
 
@@ -388,13 +401,49 @@ export function encodeStack(prep: PreparedStack, params: StackParams): EncodedSt
       for (let b = 0; b < 32; b++)
         hashes[j * 32 + b] = Number.parseInt(f.sourceSha256.slice(2 * b, 2 * b + 2), 16);
   });
-  chunks.push({ type: 'HEAD', id: 0, payload: head }, { type: 'SHSH', id: 0, payload: hashes }, ...body);
-  split.header = head.length + hashes.length;
+  // Frame quality is measured on the decoded frames after the rate control has chosen this encode
+  // (recordFrameQuality); until then the chunk holds NaN, "not recorded", at its final size.
+  const quality = f32be(new Float32Array(2 * N).fill(Number.NaN));
+  chunks.push(
+    { type: 'HEAD', id: 0, payload: head },
+    { type: 'SHSH', id: 0, payload: hashes },
+    { type: 'SQAL', id: 0, payload: quality },
+    ...body,
+  );
+  split.header = head.length + hashes.length + quality.length;
   const bytes = writeContainer(chunks);
   split.container =
     bytes.length - split.header - split.mean - split.basis - split.coefficients - split.residuals;
   const decoded = rebuilt.map((planes) => toSource(planes, channels, bitDepth));
-  return { bytes, header, decoded, split };
+  return { bytes, header, decoded, split, chunks };
+}
+
+/**
+ * Record each frame's PSNR and SSIM (measured on `e.decoded`, the frames exactly as a reader rebuilds them)
+ * in the SQAL chunk. The file keeps its size, so a byte budget met by `e` is still met.
+ */
+export function recordFrameQuality(e: EncodedStack, psnr: number[], ssim: number[]): EncodedStack {
+  const N = e.header.frameCount;
+  if (psnr.length !== N || ssim.length !== N)
+    throw new RangeError(
+      `frame quality needs ${N} PSNR and SSIM values, got ${psnr.length} and ${ssim.length}`,
+    );
+  const values = new Float32Array(2 * N);
+  for (let j = 0; j < N; j++) {
+    values[2 * j] = psnr[j];
+    values[2 * j + 1] = ssim[j];
+  }
+  const payload = f32be(values);
+  const chunks = e.chunks.map((c) => (c.type === 'SQAL' ? { ...c, payload } : c));
+  const bytes = writeContainer(chunks);
+  if (bytes.length !== e.bytes.length || payload.length !== qualityBytes(N))
+    throw new Error('internal: recording frame quality changed the stack file size');
+  const frameTable = e.header.frameTable.map((f, j) => ({
+    ...f,
+    psnr: Number.isNaN(values[2 * j]) ? undefined : values[2 * j],
+    ssim: Number.isNaN(values[2 * j + 1]) ? undefined : values[2 * j + 1],
+  }));
+  return { ...e, bytes, chunks, header: { ...e.header, frameTable } };
 }
 
 /** True when the container's HEAD says `layout: "stack"`. Cheap: reads only the header chunk. */
@@ -467,6 +516,20 @@ export function openStack(bytes: Uint8Array, file: string): StackReader {
   const hashBytes = view.payload(hk);
   if (hashBytes.length !== 32 * frameCount)
     fail('is damaged: the frame hash chunk SHSH has the wrong length');
+  // SQAL is optional (files written before it existed have none): absent or NaN = not recorded.
+  const qk = view.find('SQAL', 0);
+  let quality: Float32Array | undefined;
+  if (qk >= 0) {
+    const raw = view.payload(qk);
+    if (raw.length !== qualityBytes(frameCount))
+      fail('is damaged: the frame quality chunk SQAL has the wrong length');
+    const dv = new DataView(raw.buffer, raw.byteOffset, raw.byteLength);
+    quality = Float32Array.from({ length: 2 * frameCount }, (_, i) => dv.getFloat32(i * 4, false));
+  }
+  const recorded = (i: number) => {
+    const v = quality?.[i];
+    return v === undefined || Number.isNaN(v) ? undefined : v;
+  };
   header.frameTable = header.frameNames.map((name, j) => {
     let hex = '';
     let known = false;
@@ -479,6 +542,8 @@ export function openStack(bytes: Uint8Array, file: string): StackReader {
       name: name ?? undefined,
       sourceSha256: known ? hex : undefined,
       residual: header.residualMask.map((m) => m[j] === '1'),
+      psnr: recorded(2 * j),
+      ssim: recorded(2 * j + 1),
     };
   });
   if (!(header.step > 0 && Number.isFinite(header.step)))

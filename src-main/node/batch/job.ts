@@ -1,5 +1,6 @@
 /** What the batch runner sends to a batch worker, and what comes back. */
 import type { CompressOptions, CompressReport } from '../../contract';
+import type { ThumbPair } from './thumbs';
 
 export interface BatchJob {
   input: string;
@@ -42,3 +43,17 @@ export interface BatchJobResult {
   check?: ExpandCheck;
   timeMs: number;
 }
+
+/** Report thumbnails of one finished file, made by a worker once the files are done (so in parallel). */
+export interface ThumbJob {
+  kind: 'thumbs';
+  path: string;
+  inputAbs: string;
+  outputAbs: string;
+}
+
+/** Everything a batch worker takes: a file to compress, or a finished file to draw for the report. */
+export type BatchWork = BatchJob | ThumbJob;
+export type BatchWorkResult = BatchJobResult | ThumbPair;
+
+export const isThumbJob = (w: BatchWork): w is ThumbJob => (w as ThumbJob).kind === 'thumbs';

@@ -201,8 +201,16 @@ export function worstRows(rows: BatchRow[], count = WORST_COUNT): BatchRow[] {
     .slice(0, count);
 }
 
-/** Render with thumbnails of the worst files and write atomically. */
-export async function writeReport(file: string, rows: BatchRow[], info: ReportInfo): Promise<void> {
-  const thumbs = await makeThumbnails(worstRows(rows));
+/**
+ * Render with thumbnails of the worst files (`worstRows`) and write atomically. `thumbs`, when given, holds
+ * those pairs already drawn (the batch runner draws them on its workers); otherwise they are drawn here.
+ */
+export async function writeReport(
+  file: string,
+  rows: BatchRow[],
+  info: ReportInfo,
+  thumbs?: Map<string, ThumbPair>,
+): Promise<void> {
+  thumbs ??= await makeThumbnails(worstRows(rows));
   await writeFileAtomic(file, renderReport(rows, info, thumbs), { force: true });
 }

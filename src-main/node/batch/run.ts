@@ -20,11 +20,12 @@ import {
 } from '../../contract';
 import { TEMP_PREFIX, writeFileAtomic } from '../io/atomic';
 import { hashFile } from './codec';
-import type { BatchJob, BatchJobResult } from './job';
+import type { BatchJobResult, BatchWork, BatchWorkResult } from './job';
 import { ManifestJournal, manifestBase, readManifest, rowsToCsv, writeManifest } from './manifest';
 import { checkFolders, isInside, type PlannedFile, planBatch } from './plan';
 import { WorkerPool } from './pool';
-import { writeReport } from './report';
+import { worstRows, writeReport } from './report';
+import { makeThumbnails, type ThumbPair } from './thumbs';
 
 /** Default per-file limit: 30 minutes, far above a 300-megapixel scan on one core. */
 export const DEFAULT_TIMEOUT_MS = 30 * 60 * 1000;
@@ -343,7 +344,8 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
   }
 
   let interrupted = false;
-  const pool = new WorkerPool<BatchJob, BatchJobResult>(
+  let thumbs: Map<string, ThumbPair> | undefined;
+  const pool = new WorkerPool<BatchWork, BatchWorkResult>(
     o.workerFile,
     Math.min(jobs, Math.max(1, todo.length)),
   );
@@ -377,7 +379,7 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
       }
       bytesDone += f.size;
       let row: BatchRow;
-      if (outcome.ok) row = rowFromResult(f, shardLabel, outcome.value, settings);
+      if (outcome.ok) row = rowFromResult(f, shardLabel, outcome.value as BatchJobResult, settings);
       else {
         // A stopped worker may have left its temp file behind.
         await sweepTemps([f.outputAbs]);
@@ -387,6 +389,16 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
       if (journalOk) await journal.append(row);
       emit(row);
     });
+    // The report's thumbnails, drawn on the workers while they are still up: in parallel, not at the end on
+    // this thread. (After an interrupt the pool is closed, and the report draws them itself.)
+    if (!interrupted)
+      thumbs = await makeThumbnails(worstRows(rows), async (r) => {
+        const t = await pool.run(
+          { kind: 'thumbs', path: r.path, inputAbs: r.inputAbs, outputAbs: r.outputAbs },
+          { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: r.path },
+        );
+        return t.ok ? (t.value as ThumbPair) : { note: `thumbnails unavailable (${t.error.message})` };
+      });
   } finally {
     o.signal?.removeEventListener('abort', onAbort);
     await pool.close();
@@ -430,14 +442,19 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
         warnings.push(`CSV ${csvPath} cannot be written (${(err as Error).message})`);
       }
       try {
-        await writeReport(reportPath, rows, {
-          title: `Rankfold batch of ${inDir}`,
-          inDir,
-          outDir,
-          shards: [shardLabel],
-          elapsedMs: summary.elapsedMs,
-          warnings,
-        });
+        await writeReport(
+          reportPath,
+          rows,
+          {
+            title: `Rankfold batch of ${inDir}`,
+            inDir,
+            outDir,
+            shards: [shardLabel],
+            elapsedMs: summary.elapsedMs,
+            warnings,
+          },
+          thumbs,
+        );
         summary.report = reportPath;
       } catch (err) {
         warnings.push(`report ${reportPath} cannot be written (${toErrorPayload(err).message})`);

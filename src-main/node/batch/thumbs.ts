@@ -41,34 +41,45 @@ async function rkfThumb(readRkf: ReadRkf, file: string): Promise<string> {
   return dataUrl(sharp(raw, { raw: { width, height, channels: channels as 1 | 2 | 3 | 4 } }));
 }
 
-/** Thumbnail pairs for the given rows (best effort: a missing file gives a note, never an error). */
-export async function makeThumbnails(rows: BatchRow[]): Promise<Map<string, ThumbPair>> {
-  const out = new Map<string, ThumbPair>();
-  if (!rows.length) return out;
-  let readRkf: ReadRkf | undefined;
-  let readProblem = '';
+/** The thumbnail pair of one finished file (best effort: a missing file gives a note, never an error). */
+export async function thumbnailPair(
+  r: Pick<BatchRow, 'inputAbs' | 'outputAbs'>,
+  reader?: () => Promise<ReadRkf>,
+): Promise<ThumbPair> {
+  const pair: ThumbPair = {};
+  const notes: string[] = [];
   try {
-    readRkf = await loadReader();
+    pair.original = await thumb(r.inputAbs);
   } catch (err) {
-    readProblem = (err as Error).message;
+    notes.push(`original unavailable (${(err as Error).message.split('\n')[0]})`);
   }
-  for (const r of rows) {
-    const pair: ThumbPair = {};
-    const notes: string[] = [];
+  try {
+    const readRkf = await (reader ?? loadReader)();
     try {
-      pair.original = await thumb(r.inputAbs);
+      pair.reconstruction = await rkfThumb(readRkf, r.outputAbs);
     } catch (err) {
-      notes.push(`original unavailable (${(err as Error).message.split('\n')[0]})`);
+      notes.push(`reconstruction unavailable (${(err as Error).message.split('\n')[0]})`);
     }
-    if (readRkf) {
-      try {
-        pair.reconstruction = await rkfThumb(readRkf, r.outputAbs);
-      } catch (err) {
-        notes.push(`reconstruction unavailable (${(err as Error).message.split('\n')[0]})`);
-      }
-    } else notes.push(`reconstruction unavailable (${readProblem})`);
-    if (notes.length) pair.note = notes.join('; ');
-    out.set(r.path, pair);
+  } catch (err) {
+    notes.push(`reconstruction unavailable (${(err as Error).message})`);
   }
+  if (notes.length) pair.note = notes.join('; ');
+  return pair;
+}
+
+/**
+ * Thumbnail pairs for the given rows, keyed by path. Without `draw`, drawn here one row after another (one
+ * decoded scan in memory at a time); with it, all are asked for at once (the batch runner passes its
+ * worker pool, which bounds how many run together).
+ */
+export async function makeThumbnails(
+  rows: BatchRow[],
+  draw?: (r: BatchRow) => Promise<ThumbPair>,
+): Promise<Map<string, ThumbPair>> {
+  const out = new Map<string, ThumbPair>();
+  if (draw) {
+    const pairs = await Promise.all(rows.map(draw));
+    for (let i = 0; i < rows.length; i++) out.set(rows[i].path, pairs[i]);
+  } else for (const r of rows) out.set(r.path, await thumbnailPair(r));
   return out;
 }

@@ -4,6 +4,7 @@
  */
 import { RankfoldError, UsageError } from '../../contract';
 import type { CliIO, Command } from './command';
+import { BATCH_V8_FLAGS, followLauncher, needsBatchRelaunch, relaunch } from './relaunch';
 
 const commands: Record<string, { summary: string; load: () => Promise<{ command: Command }> }> = {
   inspect: {
@@ -96,7 +97,11 @@ if (isEntry) {
     stderr: (t) => process.stderr.write(t),
     isTTY: Boolean(process.stderr.isTTY),
   };
-  main(process.argv.slice(2), io).then(
+  const argv = process.argv.slice(2);
+  const started = needsBatchRelaunch(argv, process.execArgv, process.env)
+    ? relaunch(process.argv[1], argv, BATCH_V8_FLAGS)
+    : (followLauncher(), main(argv, io));
+  started.then(
     (code) => {
       process.exitCode = code;
     },

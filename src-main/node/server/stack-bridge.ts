@@ -3,8 +3,8 @@
  * once, keep its random-access reader, and hand out one decoded frame at a time in the factor-set layout
  * of src-main/contract/api.ts (`src.p` blocks) with the stack's summary in `header.stack`.
  *
- * The stack layout records no per-frame PSNR/SSIM (the originals are not in the file), so the summary
- * carries sizes only; the page says so.
+ * Per-frame PSNR/SSIM come from the file's SQAL chunk, measured against the originals when the stack was
+ * written; a file without that chunk gives sizes only, and the page says so.
  */
 import { readFile, stat } from 'node:fs/promises';
 import { basename } from 'node:path';
@@ -17,6 +17,8 @@ export interface StackSession {
   size: number;
   reader: StackReader;
 }
+
+const finite = (v: number | undefined) => (v !== undefined && Number.isFinite(v) ? v : undefined);
 
 const CHANNEL_NAMES: Record<string, string[]> = { gray: ['gray'], ycbcr: ['Y', 'Cb', 'Cr'] };
 
@@ -67,6 +69,9 @@ export async function openStackFrame(
     rawBytes: h.width * h.height * h.channels * (h.bitDepth / 8) * h.frameCount,
     bitDepth: h.bitDepth,
     residual: h.frameTable[frame].residual.some(Boolean),
+    // JSON has no ∞ (a frame decoded exactly): such a PSNR is left out and shows as a dash.
+    psnr: finite(h.frameTable[frame].psnr),
+    ssim: finite(h.frameTable[frame].ssim),
   };
   const arrays: Record<string, Uint8Array | Uint16Array> = {};
   planes.forEach((p, c) => {

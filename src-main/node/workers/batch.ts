@@ -7,16 +7,22 @@ import { parentPort } from 'node:worker_threads';
 import { toErrorPayload } from '../../contract';
 import { expandCheck } from '../batch/check';
 import { hashFile, loadCompressor, makeOutputFolder } from '../batch/codec';
-import type { BatchJob, BatchJobResult } from '../batch/job';
+import { type BatchJobResult, type BatchWork, isThumbJob } from '../batch/job';
+import { thumbnailPair } from '../batch/thumbs';
 import { verifyByHeader } from '../batch/verify';
 import { decodeImage, probeImage } from '../image/decode';
 
 if (!parentPort) throw new Error('src-main/node/workers/batch.ts must run as a worker thread');
 const port = parentPort;
 
-port.on('message', async (msg: { type: string; id: number; payload: BatchJob }) => {
+port.on('message', async (msg: { type: string; id: number; payload: BatchWork }) => {
   if (msg.type !== 'job') return;
   const { id, payload } = msg;
+  if (isThumbJob(payload)) {
+    // Best effort by design: a missing file gives a note in the pair, never an error.
+    port.postMessage({ type: 'done', id, result: await thumbnailPair(payload) });
+    return;
+  }
   const started = performance.now();
   try {
     const fileSha256 = await hashFile(payload.input);
