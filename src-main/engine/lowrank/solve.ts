@@ -110,11 +110,12 @@ export function buildCandidate(inputs: PlaneInput[], delta: number, opts: Candid
       const list: Comp[] = [];
       const e: number[] = [];
       const { h, w } = tf.rect;
-      // Residual of the tile after the components taken so far (quantised), for the refit.
-      const R = opts.refit === false ? new Float64Array(0) : Float64Array.from(tf.data);
-      let rn = 0;
-      for (let k = 0; k < R.length; k++) rn += R[k] * R[k];
-      const wv = new Float64Array(w);
+      // Refit bookkeeping. The residual R_i = D − Σ_{l<i} c_l·qu_l·qv_lᵀ (D = the tile) is never formed:
+      // R_iᵀ·qu = Dᵀ·qu − Σ_l c_l·(qu_l·qu)·qv_l, and the error it leaves follows from that product alone,
+      // so each component costs O(nnz(qu)·w + i·(h + w)) instead of two passes over the tile.
+      const D = tf.data;
+      const kept: Array<{ qu: Int32Array; qv: Int32Array; c: number }> = [];
+      const rtq = new Float64Array(w);
       for (let i = 0; i < r; i++) {
         const sigma = tf.s[i];
         // Entries of σ·u are at most σ; below the dead zone they all round to 0 (rank caps still apply).
@@ -133,33 +134,36 @@ export function buildCandidate(inputs: PlaneInput[], delta: number, opts: Candid
           // Quantise-and-refit: given û = Δ·q_u, the best right factor is w = Rᵀû/‖û‖² (least squares);
           // store b = w·‖w‖·‖û‖ so the decoder's ŝ = sqrt(‖û‖‖b̂‖) rebuilds û·wᵀ. Later components
           // see the residual, so they also absorb earlier quantisation errors.
-          wv.fill(0);
+          rtq.fill(0);
           for (let y = 0; y < h; y++) {
             const a = qu[y];
             if (a === 0) continue;
             const row = y * w;
-            for (let x = 0; x < w; x++) wv[x] += R[row + x] * a;
+            for (let x = 0; x < w; x++) rtq[x] += D[row + x] * a;
           }
+          for (const k of kept) {
+            let d = 0;
+            for (let y = 0; y < h; y++) d += k.qu[y] * qu[y];
+            if (d === 0) continue;
+            const f = k.c * d;
+            for (let x = 0; x < w; x++) rtq[x] -= f * k.qv[x];
+          }
+          // rtq = Rᵀ·qu; the least-squares right factor is rtq/(Δ·‖qu‖²).
           let nw2 = 0;
-          for (let x = 0; x < w; x++) {
-            wv[x] /= step * nu2;
-            nw2 += wv[x] * wv[x];
-          }
-          quantiseVector(wv, Math.sqrt(nw2) * step * Math.sqrt(nu2), step, qv);
+          for (let x = 0; x < w; x++) nw2 += rtq[x] * rtq[x];
+          const inv = 1 / (step * nu2);
+          quantiseVector(rtq, inv * Math.sqrt(nw2 * inv * inv) * step * Math.sqrt(nu2), step, qv);
           const c = componentScale(qu, qv, step);
           if (c !== 0) {
-            let nn = 0;
-            for (let y = 0; y < h; y++) {
-              const a = qu[y] * c;
-              const row = y * w;
-              for (let x = 0; x < w; x++) {
-                const v = R[row + x] - a * qv[x];
-                R[row + x] = v;
-                nn += v * v;
-              }
+            // ‖R − c·qu·qvᵀ‖² = ‖R‖² − 2c·(Rᵀqu)·qv + c²·‖qu‖²·‖qv‖².
+            let tq = 0;
+            let nv2 = 0;
+            for (let x = 0; x < w; x++) {
+              tq += rtq[x] * qv[x];
+              nv2 += qv[x] * qv[x];
             }
-            gain = rn - nn;
-            rn = nn;
+            gain = 2 * c * tq - c * c * nu2 * nv2;
+            kept.push({ qu, qv, c });
           }
         }
         list.push({ qu, qv });
