@@ -33,7 +33,8 @@ import { type Chunk, readContainer, writeContainer } from './container';
 import { decodePlane, encodePlane } from './stack-plane';
 
 export const STACK_LAYOUT = 'stack';
-export const STACK_VERSION = 1;
+/** 2: planes coded with the codec's range coder (two-speed adaptive contexts) and the SQAL chunk. */
+export const STACK_VERSION = 2;
 /** Largest number of eigen-frames considered per channel. */
 export const MAX_STACK_RANK = 64;
 /** λ per byte in units of Δ²: 8 bits · 2·ln2 · (1/12). */

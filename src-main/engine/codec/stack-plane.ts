@@ -5,7 +5,8 @@
  *
  * Pipeline: separable biorthogonal CDF 9/7 wavelet (lifting form), uniform dead-zone quantiser with
  * one step per sub-band scaled so that every sub-band costs the same distortion per unit of step in
- * the pixel domain, then context-modelled adaptive binary range coding (stack-range-coder.ts).
+ * the pixel domain, then context-modelled adaptive binary range coding (the codec's range-coder.ts:
+ * zero flags and signs on their own contexts, magnitudes by its unary-then-Exp-Golomb binarisation).
  *
  * References
  * - A. Cohen, I. Daubechies, J.-C. Feauveau, "Biorthogonal bases of compactly supported wavelets",
@@ -19,13 +20,13 @@
  *   IEEE Trans. Inf. Theory 42(5):1365–1374, 1996 (dead-zone quantisers for Laplacian sources).
  */
 import {
-  bitModels,
-  decodeUInt,
-  encodeUInt,
+  decodeMagnitude,
+  encodeMagnitude,
+  IntModel,
+  models,
   RangeDecoder,
   RangeEncoder,
-  UINT_MODELS,
-} from './stack-range-coder';
+} from './range-coder';
 
 const ALPHA = -1.586134342059924;
 const BETA = -0.052980118572961;
@@ -402,19 +403,18 @@ export function encodePlane(
     if (a) nonZero++;
   }
   const enc = new RangeEncoder();
-  const zm = bitModels(ZERO_CTX);
-  const mm = bitModels(MAG_CTX * UINT_MODELS);
-  const sm = bitModels(SIGN_CTX);
+  const zm = models(ZERO_CTX);
+  const mm = new IntModel(MAG_CTX);
+  const sm = models(SIGN_CTX);
   // One leading flag: an all-zero plane costs a few bytes.
-  const flag = bitModels(1);
-  enc.bit(flag, 0, nonZero ? 1 : 0);
+  enc.encodeDirect(nonZero ? 1 : 0);
   if (nonZero)
     walk(q, width, bands, (idx, zctx, mctx, sctx) => {
       const v = q[idx];
-      enc.bit(zm, zctx, v === 0 ? 0 : 1);
+      enc.encodeBit(zm[zctx], v === 0 ? 0 : 1);
       if (v !== 0) {
-        enc.bit(sm, sctx, v < 0 ? 1 : 0);
-        encodeUInt(enc, mm, mctx * UINT_MODELS, Math.abs(v) - 1);
+        enc.encodeBit(sm[sctx], v < 0 ? 1 : 0);
+        encodeMagnitude(enc, mm, Math.abs(v) - 1, mctx);
       }
     });
   const bytes = enc.finish();
@@ -434,18 +434,18 @@ export function decodePlane(bytes: Uint8Array, width: number, height: number, st
   const map = bandIndexMap(width, height, bands);
   const q = new Int32Array(n);
   const dec = new RangeDecoder(bytes);
-  const zm = bitModels(ZERO_CTX);
-  const mm = bitModels(MAG_CTX * UINT_MODELS);
-  const sm = bitModels(SIGN_CTX);
-  const flag = bitModels(1);
-  if (dec.bit(flag, 0) === 0) return new Float64Array(n);
+  const zm = models(ZERO_CTX);
+  const mm = new IntModel(MAG_CTX);
+  const sm = models(SIGN_CTX);
+  if (dec.decodeDirect() === 0) return new Float64Array(n);
   walk(q, width, bands, (idx, zctx, mctx, sctx) => {
-    if (dec.bit(zm, zctx) === 0) return;
-    const neg = dec.bit(sm, sctx);
-    const a = decodeUInt(dec, mm, mctx * UINT_MODELS) + 1;
+    if (dec.decodeBit(zm[zctx]) === 0) return;
+    const neg = dec.decodeBit(sm[sctx]);
+    const a = decodeMagnitude(dec, mm, mctx) + 1;
     q[idx] = neg ? -a : a;
   });
-  if (dec.overrun) throw new RangeError('plane data is truncated');
+  // The coder's 5-byte flush: reading further means the plane's bytes ran out.
+  if (dec.overrun > 5) throw new RangeError('plane data is truncated');
   return dequantise(q, width, height, levels, steps, map);
 }
 

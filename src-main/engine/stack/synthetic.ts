@@ -53,10 +53,15 @@ export interface SeriesOptions {
   texture?: number;
   /** Total drift in pixels over the series (driftingSpecimen). Default 3. */
   drift?: number;
+  /**
+   * The noise-free series before rounding (same seed, same scene): what a coder that spent nothing on
+   * sensor noise could at best rebuild. For the benchmark's noise-floor row (driftingSpecimen, phantomSlices).
+   */
+  clean?: boolean;
 }
 
-function quantise(v: number, max: number): number {
-  return Math.min(max, Math.max(0, Math.round(v)));
+function quantise(v: number, max: number, round = true): number {
+  return Math.min(max, Math.max(0, round ? Math.round(v) : v));
 }
 
 /**
@@ -72,7 +77,7 @@ export function driftingSpecimen(o: SeriesOptions = {}): SyntheticSeries {
   const scale = max / 255;
   const rnd = seededRandom(o.seed ?? 1);
   const gauss = seededNormal((o.seed ?? 1) + 7919);
-  const noise = o.noise ?? 2;
+  const noise = o.clean ? 0 : (o.noise ?? 2);
   const cells = Array.from({ length: 14 }, () => ({
     x: rnd() * width,
     y: rnd() * height,
@@ -113,7 +118,7 @@ export function driftingSpecimen(o: SeriesOptions = {}): SyntheticSeries {
           for (const w of waves) tex += Math.cos(w.kx * (x - dx) + w.ky * (y - dy) + w.ph);
           v += fade * texAmp * tex;
         }
-        f[y * width + x] = quantise((v + noise * gauss()) * scale, max);
+        f[y * width + x] = quantise((v + noise * gauss()) * scale, max, !o.clean);
       }
     frames.push(f);
   }
@@ -130,7 +135,7 @@ export function phantomSlices(o: SeriesOptions = {}): SyntheticSeries {
   const bitDepth = o.bitDepth ?? 8;
   const max = bitDepth === 16 ? 65535 : 255;
   const gauss = seededNormal((o.seed ?? 3) + 104729);
-  const noise = o.noise ?? 0.5;
+  const noise = o.clean ? 0 : (o.noise ?? 0.5);
   // (centre, semi-axes, level) — a head-like phantom of our own design.
   const shapes = [
     { c: [0, 0, 0], a: [0.85, 0.9, 0.8], v: 90 },
@@ -155,7 +160,7 @@ export function phantomSlices(o: SeriesOptions = {}): SyntheticSeries {
             ((x - s.c[0]) / s.a[0]) ** 2 + ((y - s.c[1]) / s.a[1]) ** 2 + ((z - s.c[2]) / s.a[2]) ** 2;
           v += s.v / (1 + Math.exp(edge * (q - 1)));
         }
-        f[yy * width + xx] = quantise(((v + noise * gauss()) * max) / 255, max);
+        f[yy * width + xx] = quantise(((v + noise * gauss()) * max) / 255, max, !o.clean);
       }
     frames.push(f);
   }
