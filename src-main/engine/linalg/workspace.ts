@@ -9,7 +9,13 @@
  */
 import { gemmTs } from './gemm-ts';
 import type { FloatArray } from './matrix';
-import { activeKernels, ensureMemory, RESERVED_BYTES, type WasmKernels } from './wasm/runtime';
+import {
+  activeKernels,
+  ensureMemory,
+  type KernelExports,
+  RESERVED_BYTES,
+  type WasmKernels,
+} from './wasm/runtime';
 
 /** QL iterations allowed per eigenvalue in the WebAssembly eigensolver (as symmetric-eigen.ts). */
 const MAX_QL_ITERS_WASM = 60;
@@ -113,42 +119,102 @@ class TsWorkspace implements Workspace {
 /** The pure-TypeScript backend. */
 export const tsBackend: Backend = { label: 'ts', workspace: () => new TsWorkspace() };
 
+/** The optional Workspace members that the WebAssembly kernels implement. */
+export type KernelOps = Required<
+  Pick<Workspace, 'jacobi' | 'tridiag' | 'symEigen' | 'choleskyLower' | 'invertUpper'>
+>;
+
+/**
+ * The optional kernels of a workspace over WebAssembly memory: each runs the kernel in place when
+ * `inMemory` accepts every array it is given (else returns its "cannot run" value, and the caller uses
+ * TS). `f64` allocates symEigen's scratch from the same workspace. Shared by the wasm backend below and
+ * by src-main/node/parallel's pool, so both make the same kernel calls: equal results.
+ */
+export function kernelOps(
+  exports: KernelExports,
+  inMemory: (x: FloatArray) => boolean,
+  f64: (n: number) => Float64Array,
+): KernelOps {
+  return {
+    jacobi: (W, rows, n, Vt, tol, maxSweeps, floor2, norms) => {
+      if (!inMemory(W) || (Vt && !inMemory(Vt)) || !inMemory(norms)) return -1;
+      return exports.jacobiF64(
+        W.byteOffset,
+        rows,
+        n,
+        Vt ? Vt.byteOffset : 0,
+        tol,
+        maxSweeps,
+        floor2,
+        norms.byteOffset,
+      );
+    },
+    tridiag: (S, n, d, e, v, p) => {
+      if (![S, d, e, v, p].every(inMemory) || v.length < 2 * n || p.length < 2 * n) return false;
+      exports.tridiagF64(
+        S.byteOffset,
+        n,
+        d.byteOffset,
+        e.byteOffset,
+        v.byteOffset,
+        p.byteOffset,
+        v.byteOffset + 8 * n,
+        p.byteOffset + 8 * n,
+      );
+      return true;
+    },
+    symEigen: (S, n, d, Et) => {
+      if (![S, d, Et].every(inMemory)) return false;
+      const [e, v, p, v2, p2, betas] = [n, 2 * n, 2 * n, n, n, n].map(f64);
+      const rc = exports.symEigenF64(
+        S.byteOffset,
+        n,
+        d.byteOffset,
+        e.byteOffset,
+        Et.byteOffset,
+        v.byteOffset,
+        p.byteOffset,
+        v2.byteOffset,
+        p2.byteOffset,
+        betas.byteOffset,
+        MAX_QL_ITERS_WASM,
+      );
+      if (rc !== 0) throw new Error('symmetricEigen: QL iteration did not converge');
+      return true;
+    },
+    choleskyLower: (G, l, shift, floor, L) =>
+      inMemory(G) && inMemory(L) ? exports.cholLowerF64(G.byteOffset, l, shift, floor, L.byteOffset) : -1,
+    invertUpper: (R, l, out) => {
+      if (!inMemory(R) || !inMemory(out)) return false;
+      exports.invUpperF64(R.byteOffset, l, out.byteOffset);
+      return true;
+    },
+  };
+}
+
 let wasmBusy = false;
 
-class WasmWorkspace implements Workspace {
-  readonly label = 'wasm';
-  private top = RESERVED_BYTES;
-  private readonly end: number;
-  constructor(
-    private readonly k: WasmKernels,
-    bytes: number,
-  ) {
-    this.end = RESERVED_BYTES + bytes;
-    ensureMemory(k, this.end);
-  }
-  private take(bytes: number): number {
-    const p = this.top;
-    const next = p + Math.ceil(bytes / ALIGN) * ALIGN;
-    if (next > this.end)
-      throw new RangeError(
-        `rankfold engine: workspace overflow (${next} > ${this.end} bytes); this is a bug`,
-      );
-    this.top = next;
+/** A workspace over the engine's own kernel memory (allocations bump a pointer from RESERVED_BYTES). */
+function wasmWorkspace(kernels: WasmKernels, bytes: number): Workspace {
+  const end = RESERVED_BYTES + bytes;
+  ensureMemory(kernels, end);
+  let top = RESERVED_BYTES;
+  const take = (size: number): number => {
+    const p = top;
+    const next = p + Math.ceil(size / ALIGN) * ALIGN;
+    if (next > end)
+      throw new RangeError(`rankfold engine: workspace overflow (${next} > ${end} bytes); this is a bug`);
+    top = next;
     return p;
-  }
-  f32(n: number) {
-    return new Float32Array(this.k.memory.buffer, this.take(4 * n), n);
-  }
-  f64(n: number) {
-    return new Float64Array(this.k.memory.buffer, this.take(8 * n), n);
-  }
-  gemm: Gemm = (m, n, k, a, aOff, rsA, csA, b, bOff, ldb, c, cOff, ldc, accumulate) => {
-    const buf = this.k.memory.buffer;
+  };
+  const f64 = (n: number) => new Float64Array(kernels.memory.buffer, take(8 * n), n);
+  const gemm: Gemm = (m, n, k, a, aOff, rsA, csA, b, bOff, ldb, c, cOff, ldc, accumulate) => {
+    const buf = kernels.memory.buffer;
     if (a.buffer !== buf || b.buffer !== buf || c.buffer !== buf || m === 0 || n === 0) {
       gemmTs(m, n, k, a, aOff, rsA, csA, b, bOff, ldb, c, cOff, ldc, accumulate);
       return;
     }
-    const e = this.k.exports;
+    const e = kernels.exports;
     if (a instanceof Float32Array)
       e.gemmF32(
         m,
@@ -178,86 +244,16 @@ class WasmWorkspace implements Workspace {
         accumulate ? 1 : 0,
       );
   };
-  jacobi(
-    W: Float64Array,
-    rows: number,
-    n: number,
-    Vt: Float64Array | null,
-    tol: number,
-    maxSweeps: number,
-    floor2: number,
-    norms: Float64Array,
-  ): number {
-    const buf = this.k.memory.buffer;
-    if (W.buffer !== buf || (Vt && Vt.buffer !== buf) || norms.buffer !== buf) return -1;
-    return this.k.exports.jacobiF64(
-      W.byteOffset,
-      rows,
-      n,
-      Vt ? Vt.byteOffset : 0,
-      tol,
-      maxSweeps,
-      floor2,
-      norms.byteOffset,
-    );
-  }
-  tridiag(
-    S: Float64Array,
-    n: number,
-    d: Float64Array,
-    e: Float64Array,
-    v: Float64Array,
-    p: Float64Array,
-  ): boolean {
-    const buf = this.k.memory.buffer;
-    if ([S, d, e, v, p].some((x) => x.buffer !== buf) || v.length < 2 * n || p.length < 2 * n) return false;
-    this.k.exports.tridiagF64(
-      S.byteOffset,
-      n,
-      d.byteOffset,
-      e.byteOffset,
-      v.byteOffset,
-      p.byteOffset,
-      v.byteOffset + 8 * n,
-      p.byteOffset + 8 * n,
-    );
-    return true;
-  }
-  symEigen(S: Float64Array, n: number, d: Float64Array, Et: Float64Array): boolean {
-    const buf = this.k.memory.buffer;
-    if (S.buffer !== buf || d.buffer !== buf || Et.buffer !== buf) return false;
-    const sc = [this.f64(n), this.f64(2 * n), this.f64(2 * n), this.f64(n), this.f64(n), this.f64(n)];
-    const [e, v, p, v2, p2, betas] = sc;
-    const rc = this.k.exports.symEigenF64(
-      S.byteOffset,
-      n,
-      d.byteOffset,
-      e.byteOffset,
-      Et.byteOffset,
-      v.byteOffset,
-      p.byteOffset,
-      v2.byteOffset,
-      p2.byteOffset,
-      betas.byteOffset,
-      MAX_QL_ITERS_WASM,
-    );
-    if (rc !== 0) throw new Error('symmetricEigen: QL iteration did not converge');
-    return true;
-  }
-  choleskyLower(G: Float64Array, l: number, shift: number, floor: number, L: Float64Array): number {
-    const buf = this.k.memory.buffer;
-    if (G.buffer !== buf || L.buffer !== buf) return -1;
-    return this.k.exports.cholLowerF64(G.byteOffset, l, shift, floor, L.byteOffset);
-  }
-  invertUpper(R: Float64Array, l: number, out: Float64Array): boolean {
-    const buf = this.k.memory.buffer;
-    if (R.buffer !== buf || out.buffer !== buf) return false;
-    this.k.exports.invUpperF64(R.byteOffset, l, out.byteOffset);
-    return true;
-  }
-  release() {
-    wasmBusy = false;
-  }
+  return {
+    label: 'wasm',
+    f32: (n) => new Float32Array(kernels.memory.buffer, take(4 * n), n),
+    f64,
+    gemm,
+    ...kernelOps(kernels.exports, (x) => x.buffer === kernels.memory.buffer, f64),
+    release: () => {
+      wasmBusy = false;
+    },
+  };
 }
 
 /** The WebAssembly backend over the engine's own kernels; null before `initEngine` or when disabled. */
@@ -271,7 +267,7 @@ export function wasmBackend(): Backend | null {
       if (wasmBusy) return new TsWorkspace();
       wasmBusy = true;
       try {
-        return new WasmWorkspace(k, bytes);
+        return wasmWorkspace(k, bytes);
       } catch (err) {
         wasmBusy = false;
         throw err;

@@ -171,59 +171,25 @@ function coreFrom(projected: Float64Array[], U3: Float64Array, r3: number, slice
 }
 
 /**
- * Truncated HOSVD (De Lathauwer, De Moor & Vandewalle 2000) of frames h×w (row-major), N of them.
- * @param ranks - [r₁, r₂, r₃], clamped to [1, h], [1, w], [1, N].
- * @example const t = truncatedHosvd(frames, 64, 64, [20, 20, 4]);
+ * Both HOSVD variants, modes in the order rows, columns, frames. Every frame is projected on U₁ then
+ * U₂ and the core taken from those projections; `sequential` (ST-HOSVD) takes U₂ and U₃ from the
+ * tensor already projected on the earlier modes, otherwise (truncated HOSVD) from the original tensor.
  */
-export function truncatedHosvd(
+function hosvd(
   frames: ArrayLike<number>[],
   height: number,
   width: number,
   ranks: [number, number, number],
-): TuckerResult {
-  const N = frames.length;
-  const T = toF64(frames, height * width);
-  const [r1, r2, r3] = clampRanks(ranks, height, width, N);
-  const e1 = leadingEigen(gramRows(T, height, width), height, r1);
-  const e2 = leadingEigen(gramCols(T, height, width), width, r2);
-  const e3 = leadingEigen(gramFrames(T), N, r3);
-  const projected = T.map((F) =>
-    rightProject(leftProject(e1.vectors, height, r1, F, width), r1, width, e2.vectors, r2),
-  );
-  return {
-    height,
-    width,
-    frames: N,
-    ranks: [r1, r2, r3],
-    U1: e1.vectors,
-    U2: e2.vectors,
-    U3: e3.vectors,
-    core: coreFrom(projected, e3.vectors, r3, r1 * r2),
-    spectra: [e1.values, e2.values, e3.values].map((v) =>
-      v.map((x) => Math.sqrt(Math.max(0, x))),
-    ) as TuckerResult['spectra'],
-    discarded: [tailSum(e1.values, r1), tailSum(e2.values, r2), tailSum(e3.values, r3)],
-  };
-}
-
-/**
- * Sequentially truncated HOSVD (Vannieuwenhoven, Vandebril & Meerbergen 2012), modes in the order
- * rows, columns, frames. `discarded` then sums exactly to the squared Frobenius error.
- */
-export function sequentialHosvd(
-  frames: ArrayLike<number>[],
-  height: number,
-  width: number,
-  ranks: [number, number, number],
+  sequential: boolean,
 ): TuckerResult {
   const N = frames.length;
   const T = toF64(frames, height * width);
   const [r1, r2, r3] = clampRanks(ranks, height, width, N);
   const e1 = leadingEigen(gramRows(T, height, width), height, r1);
   const T1 = T.map((F) => leftProject(e1.vectors, height, r1, F, width)); // r1×w
-  const e2 = leadingEigen(gramCols(T1, r1, width), width, r2);
+  const e2 = leadingEigen(sequential ? gramCols(T1, r1, width) : gramCols(T, height, width), width, r2);
   const T2 = T1.map((A) => rightProject(A, r1, width, e2.vectors, r2)); // r1×r2
-  const e3 = leadingEigen(gramFrames(T2), N, r3);
+  const e3 = leadingEigen(gramFrames(sequential ? T2 : T), N, r3);
   return {
     height,
     width,
@@ -238,6 +204,33 @@ export function sequentialHosvd(
     ) as TuckerResult['spectra'],
     discarded: [tailSum(e1.values, r1), tailSum(e2.values, r2), tailSum(e3.values, r3)],
   };
+}
+
+/**
+ * Truncated HOSVD (De Lathauwer, De Moor & Vandewalle 2000) of frames h×w (row-major), N of them.
+ * @param ranks - [r₁, r₂, r₃], clamped to [1, h], [1, w], [1, N].
+ * @example const t = truncatedHosvd(frames, 64, 64, [20, 20, 4]);
+ */
+export function truncatedHosvd(
+  frames: ArrayLike<number>[],
+  height: number,
+  width: number,
+  ranks: [number, number, number],
+): TuckerResult {
+  return hosvd(frames, height, width, ranks, false);
+}
+
+/**
+ * Sequentially truncated HOSVD (Vannieuwenhoven, Vandebril & Meerbergen 2012), modes in the order
+ * rows, columns, frames. `discarded` then sums exactly to the squared Frobenius error.
+ */
+export function sequentialHosvd(
+  frames: ArrayLike<number>[],
+  height: number,
+  width: number,
+  ranks: [number, number, number],
+): TuckerResult {
+  return hosvd(frames, height, width, ranks, true);
 }
 
 /** Rebuild frame j (h·w, row-major) from a Tucker result. Needs only U₃'s row j. */

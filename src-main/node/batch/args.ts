@@ -4,9 +4,7 @@
  */
 import { availableParallelism } from 'node:os';
 import {
-  type Budget,
   type CompressOptions,
-  parseBudgetText,
   parseIntegerOption,
   parseNumberOption,
   parseShardText,
@@ -14,17 +12,14 @@ import {
   type TileChoice,
   UsageError,
 } from '../../contract';
+import { BUDGET_OPTION_NAMES, BUDGET_OPTIONS, parseBudgetOptions } from '../cli/budget-options';
 import { type OptionSpec, parseCommandArgs } from '../cli/command';
 import { DEFAULT_PIXEL_LIMIT } from '../image/decode';
 import { DEFAULT_TIMEOUT_MS } from './run';
 
 export const BATCH_OPTIONS: OptionSpec = {
   output: { type: 'string', short: 'o' },
-  rank: { type: 'string' },
-  budget: { type: 'string' },
-  bpp: { type: 'string' },
-  'min-psnr': { type: 'string' },
-  'min-ssim': { type: 'string' },
+  ...BUDGET_OPTIONS,
   tile: { type: 'string' },
   'pixel-limit': { type: 'string' },
   jobs: { type: 'string', short: 'j' },
@@ -75,31 +70,6 @@ export interface ParsedMerge {
 
 const str = (v: unknown) => (typeof v === 'string' ? v : undefined);
 
-/** Read the one budget option. Exactly one of --rank, --budget, --bpp, --min-psnr, --min-ssim. */
-export function parseBudgetOptions(values: Record<string, unknown>): Budget {
-  const given = ['rank', 'budget', 'bpp', 'min-psnr', 'min-ssim'].filter((k) => values[k] !== undefined);
-  if (given.length === 0)
-    throw new UsageError(
-      'give one budget: --rank K, --budget SIZE (e.g. 250kB or 5%), --bpp X, --min-psnr DB or --min-ssim S',
-    );
-  if (given.length > 1)
-    throw new UsageError(`give only one budget, not ${given.map((g) => `--${g}`).join(' and ')}`);
-  const k = given[0];
-  const v = str(values[k]);
-  switch (k) {
-    case 'rank':
-      return { kind: 'rank', rank: parseIntegerOption('rank', v, 1, 65535) };
-    case 'budget':
-      return parseBudgetText(v ?? '');
-    case 'bpp':
-      return { kind: 'bpp', bpp: parseNumberOption('bpp', v, 0.001, 64) };
-    case 'min-psnr':
-      return { kind: 'psnr', db: parseNumberOption('min-psnr', v, 1, 200) };
-    default:
-      return { kind: 'ssim', value: parseNumberOption('min-ssim', v, 0.0001, 1) };
-  }
-}
-
 export function parseTileOption(text: string | undefined): TileChoice {
   if (text === undefined) return DEFAULT_TILE;
   if (text.trim() === 'auto') return 'auto';
@@ -113,19 +83,9 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
   if (values.merge) {
     if (!positionals.length)
       throw new UsageError('--merge: give one or more shard manifests (rankfold-manifest-*.jsonl)');
-    const bad = [
-      'rank',
-      'budget',
-      'bpp',
-      'min-psnr',
-      'min-ssim',
-      'tile',
-      'resume',
-      'shard',
-      'dry-run',
-      'expand-check',
-      'jobs',
-    ].filter((k) => values[k] !== undefined);
+    const bad = [...BUDGET_OPTION_NAMES, 'tile', 'resume', 'shard', 'dry-run', 'expand-check', 'jobs'].filter(
+      (k) => values[k] !== undefined,
+    );
     if (bad.length)
       throw new UsageError(
         `--merge only joins manifests; it does not take ${bad.map((b) => `--${b}`).join(', ')}`,
@@ -149,7 +109,11 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
   if (!outDir) throw new UsageError('give an output folder with -o OUT_DIR (outside the input folder)');
   if (values.resume && values.force)
     throw new UsageError('--resume keeps matching outputs and --force rewrites them all; give one of them');
-  const budget = parseBudgetOptions(values);
+  const [budget] = parseBudgetOptions(values, {
+    missing:
+      'give one budget: --rank K, --budget SIZE (e.g. 250kB or 5%), --bpp X, --min-psnr DB or --min-ssim S',
+    minSsim: 0.0001,
+  });
   const compress: CompressOptions = {
     budget,
     tile: parseTileOption(str(values.tile)),

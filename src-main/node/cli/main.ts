@@ -98,9 +98,9 @@ if (isEntry) {
     isTTY: Boolean(process.stderr.isTTY),
   };
   const argv = process.argv.slice(2);
-  const started = needsBatchRelaunch(argv, process.execArgv, process.env)
-    ? relaunch(process.argv[1], argv, BATCH_V8_FLAGS)
-    : (followLauncher(), main(argv, io));
+  const relaunched = needsBatchRelaunch(argv, process.execArgv, process.env);
+  if (!relaunched) followLauncher();
+  const started = relaunched ? relaunch(process.argv[1], argv, BATCH_V8_FLAGS) : main(argv, io);
   started.then(
     (code) => {
       process.exitCode = code;

@@ -23,6 +23,7 @@ import type { Backend, FloatArray, Gemm, Workspace } from '../../engine/linalg';
 import { gemmTs } from '../../engine/linalg/gemm-ts';
 import { wasmBase64 } from '../../engine/linalg/wasm/generated/kernels-shared';
 import { decodeBase64, type KernelExports, RESERVED_BYTES } from '../../engine/linalg/wasm/runtime';
+import { kernelOps } from '../../engine/linalg/workspace';
 import {
   CLAIM,
   CTRL_WORDS,
@@ -178,73 +179,15 @@ export class LinalgPool implements Backend {
     };
     const buffer = this.memory.buffer as unknown as SharedArrayBuffer;
     handedOut.add(buffer);
+    const f64 = (n: number) => new Float64Array(buffer, take(8 * n), n);
     return {
       label: this.label,
       f32: (n) => new Float32Array(buffer, take(4 * n), n),
-      f64: (n) => new Float64Array(buffer, take(8 * n), n),
+      f64,
       gemm: this.gemm,
-      jacobi: (W, rows, n, Vt, tol, maxSweeps, floor2, norms) => {
-        if (
-          !sameMemory(W, this.memory) ||
-          (Vt && !sameMemory(Vt, this.memory)) ||
-          !sameMemory(norms, this.memory)
-        )
-          return -1;
-        return this.local.jacobiF64(
-          W.byteOffset,
-          rows,
-          n,
-          Vt ? Vt.byteOffset : 0,
-          tol,
-          maxSweeps,
-          floor2,
-          norms.byteOffset,
-        );
-      },
-      tridiag: (S, n, d, e, v, p) => {
-        if (![S, d, e, v, p].every((x) => sameMemory(x, this.memory)) || v.length < 2 * n || p.length < 2 * n)
-          return false;
-        this.local.tridiagF64(
-          S.byteOffset,
-          n,
-          d.byteOffset,
-          e.byteOffset,
-          v.byteOffset,
-          p.byteOffset,
-          v.byteOffset + 8 * n,
-          p.byteOffset + 8 * n,
-        );
-        return true;
-      },
-      // The engine's optional kernels (workspace.ts), forwarded as above so results equal one thread's.
-      symEigen: (S, n, d, Et) => {
-        if (![S, d, Et].every((x) => sameMemory(x, this.memory))) return false;
-        const sc = [n, 2 * n, 2 * n, n, n, n].map((len) => take(8 * len));
-        const rc = this.local.symEigenF64(
-          S.byteOffset,
-          n,
-          d.byteOffset,
-          sc[0],
-          Et.byteOffset,
-          sc[1],
-          sc[2],
-          sc[3],
-          sc[4],
-          sc[5],
-          60,
-        );
-        if (rc !== 0) throw new Error('symmetricEigen: QL iteration did not converge');
-        return true;
-      },
-      choleskyLower: (G, l, shift, floor, L) =>
-        sameMemory(G, this.memory) && sameMemory(L, this.memory)
-          ? this.local.cholLowerF64(G.byteOffset, l, shift, floor, L.byteOffset)
-          : -1,
-      invertUpper: (R, l, out) => {
-        if (!sameMemory(R, this.memory) || !sameMemory(out, this.memory)) return false;
-        this.local.invUpperF64(R.byteOffset, l, out.byteOffset);
-        return true;
-      },
+      // The engine's optional kernels, wrapped by the same factory as the wasm backend's
+      // (workspace.ts), so results equal one thread's.
+      ...kernelOps(this.local, (x) => sameMemory(x, this.memory), f64),
       release: () => {
         this.busy = false;
       },

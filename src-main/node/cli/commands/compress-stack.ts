@@ -4,24 +4,19 @@
  */
 import {
   type Budget,
-  parseBudgetText,
   parseIntegerOption,
-  parseNumberOption,
   type StackCompressOptions,
   type StackReport,
   UsageError,
 } from '../../../contract';
 import { compressStackFile } from '../../services/stack';
+import { BUDGET_OPTIONS, parseBudgetOptions } from '../budget-options';
 import { type CliIO, LOSSY_CAUTION, parseCommandArgs } from '../command';
 
 const options = {
   stack: { type: 'boolean' },
   output: { type: 'string', short: 'o' },
-  rank: { type: 'string' },
-  budget: { type: 'string' },
-  bpp: { type: 'string' },
-  'min-psnr': { type: 'string' },
-  'min-ssim': { type: 'string' },
+  ...BUDGET_OPTIONS,
   frames: { type: 'string' },
   'no-residuals': { type: 'boolean' },
   'pixel-limit': { type: 'string' },
@@ -61,28 +56,21 @@ A frame of a different size, bit depth or colour model stops the run with its na
 ${LOSSY_CAUTION}
 `;
 
+/** The budget and floors: --min-psnr and --min-ssim may join --budget or --bpp, and --rank is 0–64. */
 function targetFrom(v: Record<string, unknown>): StackCompressOptions {
-  const main = ['rank', 'budget', 'bpp'].filter((k) => v[k] !== undefined);
-  if (main.length > 1)
-    throw new UsageError(`compress --stack: give only one of ${main.map((g) => `--${g}`).join(' and ')}`);
   const o: StackCompressOptions = {};
-  if (v['min-psnr'] !== undefined) o.minPsnr = parseNumberOption('min-psnr', v['min-psnr'] as string, 1, 200);
-  if (v['min-ssim'] !== undefined)
-    o.minSsim = parseNumberOption('min-ssim', v['min-ssim'] as string, 0.01, 1);
   let budget: Budget | undefined;
-  if (v.rank !== undefined)
-    budget = { kind: 'rank', rank: parseIntegerOption('rank', v.rank as string, 0, 64) };
-  else if (v.budget !== undefined) budget = parseBudgetText(v.budget as string);
-  else if (v.bpp !== undefined)
-    budget = { kind: 'bpp', bpp: parseNumberOption('bpp', v.bpp as string, 0.001, 64) };
-  if (budget?.kind === 'rank' && (o.minPsnr !== undefined || o.minSsim !== undefined))
-    throw new UsageError(
-      'compress --stack: --rank fixes the model; combine --min-psnr or --min-ssim with --budget or --bpp instead',
-    );
-  if (!budget && o.minPsnr === undefined && o.minSsim === undefined)
-    throw new UsageError(
+  for (const b of parseBudgetOptions(v, {
+    prefix: 'compress --stack: ',
+    missing:
       'compress --stack: give a budget: --budget SIZE, --bpp X, --rank K, --min-psnr DB or --min-ssim S. See `rankfold compress --help`.',
-    );
+    rank: [0, 64],
+    floorsCombine: true,
+  })) {
+    if (b.kind === 'psnr') o.minPsnr = b.db;
+    else if (b.kind === 'ssim') o.minSsim = b.value;
+    else budget = b;
+  }
   o.budget = budget;
   return o;
 }

@@ -1,23 +1,12 @@
 /** `rankfold compress IN -o OUT.rkf`: write a .rkf file that meets a storage budget or a quality floor. */
-import {
-  type Budget,
-  type CompressReport,
-  parseBudgetText,
-  parseIntegerOption,
-  parseNumberOption,
-  type TileChoice,
-  UsageError,
-} from '../../../contract';
+import { type CompressReport, parseIntegerOption, type TileChoice, UsageError } from '../../../contract';
 import { compressFile } from '../../services/compress';
+import { BUDGET_OPTIONS, parseBudgetOptions } from '../budget-options';
 import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
 
 const options = {
   output: { type: 'string', short: 'o' },
-  rank: { type: 'string' },
-  budget: { type: 'string' },
-  bpp: { type: 'string' },
-  'min-psnr': { type: 'string' },
-  'min-ssim': { type: 'string' },
+  ...BUDGET_OPTIONS,
   tile: { type: 'string' },
   page: { type: 'string' },
   'pixel-limit': { type: 'string' },
@@ -54,29 +43,6 @@ The input is never modified; the output is written atomically and never overwrit
 
 ${LOSSY_CAUTION}
 `;
-
-function budgetFrom(v: Record<string, unknown>): Budget {
-  const given = ['rank', 'budget', 'bpp', 'min-psnr', 'min-ssim'].filter((k) => v[k] !== undefined);
-  if (given.length !== 1)
-    throw new UsageError(
-      given.length === 0
-        ? 'compress: give one budget: --rank K, --budget SIZE, --bpp X, --min-psnr DB or --min-ssim S. See `rankfold compress --help`.'
-        : `compress: give only one budget, not ${given.map((g) => `--${g}`).join(' and ')}`,
-    );
-  const text = v[given[0]] as string;
-  switch (given[0]) {
-    case 'rank':
-      return { kind: 'rank', rank: parseIntegerOption('rank', text, 1, 65535) };
-    case 'budget':
-      return parseBudgetText(text);
-    case 'bpp':
-      return { kind: 'bpp', bpp: parseNumberOption('bpp', text, 0.001, 64) };
-    case 'min-psnr':
-      return { kind: 'psnr', db: parseNumberOption('min-psnr', text, 1, 200) };
-    default:
-      return { kind: 'ssim', value: parseNumberOption('min-ssim', text, 0.01, 1) };
-  }
-}
 
 export function parseTile(text: string | undefined): TileChoice {
   if (text === undefined || text === 'auto') return 'auto';
@@ -132,7 +98,11 @@ export const command: Command = {
     if (!input) throw new UsageError('compress: missing input file. See `rankfold compress --help`.');
     const output = v.output as string | undefined;
     if (!output) throw new UsageError('compress: missing -o OUT.rkf. See `rankfold compress --help`.');
-    const budget = budgetFrom(v);
+    const [budget] = parseBudgetOptions(v, {
+      prefix: 'compress: ',
+      missing:
+        'compress: give one budget: --rank K, --budget SIZE, --bpp X, --min-psnr DB or --min-ssim S. See `rankfold compress --help`.',
+    });
     const report = await compressFile(
       input,
       output,

@@ -1,0 +1,96 @@
+/**
+ * The budget options of `rankfold compress`, `rankfold compress --stack` and `rankfold batch` (--rank,
+ * --budget, --bpp, --min-psnr, --min-ssim), declared and parsed in one place. Where the commands differ,
+ * they say so through {@link BudgetOptionRules}.
+ */
+import {
+  type Budget,
+  parseBudgetText,
+  parseIntegerOption,
+  parseNumberOption,
+  UsageError,
+} from '../../contract';
+import type { OptionSpec } from './command';
+
+/** The budget options, in the order messages name them. */
+export const BUDGET_OPTION_NAMES = ['rank', 'budget', 'bpp', 'min-psnr', 'min-ssim'] as const;
+type BudgetOptionName = (typeof BUDGET_OPTION_NAMES)[number];
+
+/** Their parseArgs declarations, to spread into a command's options. */
+export const BUDGET_OPTIONS = {
+  rank: { type: 'string' },
+  budget: { type: 'string' },
+  bpp: { type: 'string' },
+  'min-psnr': { type: 'string' },
+  'min-ssim': { type: 'string' },
+} as const satisfies OptionSpec;
+
+/** How one command reads its budget options. */
+export interface BudgetOptionRules {
+  /** Put before the parser's own messages, e.g. 'compress: ' (default none). Not before `missing`. */
+  prefix?: string;
+  /** The whole message when no budget option is given. */
+  missing: string;
+  /** Accepted --rank, inclusive (default 1 to 65535). */
+  rank?: readonly [lo: number, hi: number];
+  /** Lowest accepted --min-ssim; the highest is 1 (default 0.01). */
+  minSsim?: number;
+  /**
+   * false (default): exactly one of the five options. true (stack mode): at most one of --rank, --budget
+   * and --bpp; --min-psnr and --min-ssim are floors that may be given together and with --budget or --bpp,
+   * but not with --rank.
+   */
+  floorsCombine?: boolean;
+}
+
+const isFloor = (k: BudgetOptionName) => k === 'min-psnr' || k === 'min-ssim';
+
+/** The floors are read first, so that their errors come before those of --rank, --budget or --bpp. */
+const READ_ORDER: readonly BudgetOptionName[] = ['min-psnr', 'min-ssim', 'rank', 'budget', 'bpp'];
+
+function parseOne(k: BudgetOptionName, text: string | undefined, rules: BudgetOptionRules): Budget {
+  switch (k) {
+    case 'rank': {
+      const [lo, hi] = rules.rank ?? [1, 65535];
+      return { kind: 'rank', rank: parseIntegerOption('rank', text, lo, hi) };
+    }
+    case 'budget':
+      return parseBudgetText(text ?? '');
+    case 'bpp':
+      return { kind: 'bpp', bpp: parseNumberOption('bpp', text, 0.001, 64) };
+    case 'min-psnr':
+      return { kind: 'psnr', db: parseNumberOption('min-psnr', text, 1, 200) };
+    default:
+      return { kind: 'ssim', value: parseNumberOption('min-ssim', text, rules.minSsim ?? 0.01, 1) };
+  }
+}
+
+/**
+ * Read the budget options from parsed argv `values`. Returns the budgets given: exactly one, or with
+ * `floorsCombine` the floors (--min-psnr as kind 'psnr', then --min-ssim as kind 'ssim') followed by the
+ * one --rank, --budget or --bpp, if any.
+ * @throws UsageError
+ */
+export function parseBudgetOptions(values: Record<string, unknown>, rules: BudgetOptionRules): Budget[] {
+  const prefix = rules.prefix ?? '';
+  const given = BUDGET_OPTION_NAMES.filter((k) => values[k] !== undefined);
+  const exclusive = rules.floorsCombine ? given.filter((k) => !isFloor(k)) : given;
+  if (exclusive.length > 1) {
+    const names = exclusive.map((g) => `--${g}`).join(' and ');
+    throw new UsageError(
+      rules.floorsCombine
+        ? `${prefix}give only one of ${names}`
+        : `${prefix}give only one budget, not ${names}`,
+    );
+  }
+  if (given.length === 0) throw new UsageError(rules.missing);
+  const budgets = READ_ORDER.filter((k) => values[k] !== undefined).map((k) => {
+    const v = values[k];
+    return parseOne(k, typeof v === 'string' ? v : undefined, rules);
+  });
+  if (budgets.length > 1 && budgets.some((b) => b.kind === 'rank'))
+    throw new UsageError(
+      `${prefix}--rank fixes the model; combine --min-psnr or --min-ssim with --budget or --bpp instead`,
+    );
+  return budgets;
+}
