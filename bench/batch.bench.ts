@@ -186,9 +186,11 @@ async function main() {
 // Measure what `rankfold batch` runs: a process started with the batch V8 flags (src-main/node/cli/relaunch.ts).
 const ready = BATCH_V8_FLAGS.every((f) => process.execArgv.includes(f))
   ? main()
-  : relaunch(process.argv[1], process.argv.slice(2), BATCH_V8_FLAGS).then((code) => {
-      process.exitCode = code;
-    });
+  : relaunch(process.argv[1], process.argv.slice(2), BATCH_V8_FLAGS, () => main().then(() => 0)).then(
+      (code) => {
+        process.exitCode = code;
+      },
+    );
 ready.catch((err) => {
   console.error(err);
   process.exitCode = 1;

@@ -20,6 +20,7 @@ import {
   driftingSpecimen,
   formPages,
   phantomSlices,
+  type SeriesOptions,
   type SyntheticSeries,
   truncatedHosvd,
   tuckerFrame,
@@ -352,12 +353,17 @@ function truncateTucker(
 const f2 = (x: number) => (Number.isFinite(x) ? x.toFixed(2) : 'n/a');
 const d2 = (x: number) => (Number.isFinite(x) ? `${x >= 0 ? '+' : ''}${x.toFixed(2)}` : 'n/a');
 
+/** A series and its noise-free twin (same seed and scene), for the noise-floor column. */
+function withClean(make: (o: SeriesOptions) => SyntheticSeries, o: SeriesOptions) {
+  return { s: make(o), clean: make({ ...o, clean: true }) };
+}
+
 async function main() {
   const series: Array<{ name: string; label: string; s: SyntheticSeries; clean?: SyntheticSeries }> = [
     {
       name: 'Fenwick Lab time-lapse (textured specimen, 0.5 px drift, fade, noise σ=1.5), 24 × 192×160',
       label: 'time-lapse, 24 frames, 0.5 px drift',
-      s: driftingSpecimen({
+      ...withClean(driftingSpecimen, {
         width: 192,
         height: 160,
         frames: 24,
@@ -365,23 +371,12 @@ async function main() {
         noise: 1.5,
         texture: 40,
         drift: 0.5,
-      }),
-      clean: driftingSpecimen({
-        width: 192,
-        height: 160,
-        frames: 24,
-        seed: 1,
-        noise: 1.5,
-        texture: 40,
-        drift: 0.5,
-        clean: true,
       }),
     },
     {
       name: 'Fenwick Lab time-lapse (textured, 2 px drift, noise σ=1), 64 × 128×128',
       label: 'time-lapse, 64 frames, 2 px drift',
-      s: driftingSpecimen({ width: 128, height: 128, frames: 64, seed: 7, noise: 1, texture: 30, drift: 2 }),
-      clean: driftingSpecimen({
+      ...withClean(driftingSpecimen, {
         width: 128,
         height: 128,
         frames: 64,
@@ -389,14 +384,12 @@ async function main() {
         noise: 1,
         texture: 30,
         drift: 2,
-        clean: true,
       }),
     },
     {
       name: 'Smooth 3-D phantom, 32 slices of 160×160',
       label: '3-D phantom, 32 slices',
-      s: phantomSlices({ width: 160, height: 160, frames: 32 }),
-      clean: phantomSlices({ width: 160, height: 160, frames: 32, clean: true }),
+      ...withClean(phantomSlices, { width: 160, height: 160, frames: 32 }),
     },
     {
       name: 'Harrowgate return forms, 16 pages of 160×200 (different handwriting)',

@@ -6,7 +6,12 @@ import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { BATCH_V8_FLAGS, needsBatchRelaunch, RELAUNCHED_ENV } from '../../src-main/node/cli/relaunch';
+import {
+  BATCH_V8_FLAGS,
+  needsBatchRelaunch,
+  RELAUNCHED_ENV,
+  relaunch,
+} from '../../src-main/node/cli/relaunch';
 import { writePage } from '../batch/images';
 import { repoRoot } from '../helpers/fixtures';
 
@@ -35,6 +40,22 @@ describe('batch relaunch', () => {
       expect(needsBatchRelaunch(['batch', extra, 'x'], [], {})).toBe(false);
     expect(needsBatchRelaunch(['compress', 'a.png', '-o', 'a.rkf'], [], {})).toBe(false);
     expect(needsBatchRelaunch([], [], {})).toBe(false);
+  });
+
+  it('runs the batch in this process when no second process can be started', async () => {
+    let ran = 0;
+    const code = await relaunch(
+      'script.js',
+      ['batch'],
+      BATCH_V8_FLAGS,
+      async () => {
+        ran++;
+        return 2;
+      },
+      join(tmpdir(), 'no-such-node-binary'),
+    );
+    expect(ran).toBe(1);
+    expect(code).toBe(2);
   });
 
   it.skipIf(!existsSync(cli) || !existsSync('/proc'))(

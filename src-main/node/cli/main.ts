@@ -100,7 +100,9 @@ if (isEntry) {
   const argv = process.argv.slice(2);
   const relaunched = needsBatchRelaunch(argv, process.execArgv, process.env);
   if (!relaunched) followLauncher();
-  const started = relaunched ? relaunch(process.argv[1], argv, BATCH_V8_FLAGS) : main(argv, io);
+  const started = relaunched
+    ? relaunch(process.argv[1], argv, BATCH_V8_FLAGS, () => main(argv, io))
+    : main(argv, io);
   started.then(
     (code) => {
       process.exitCode = code;

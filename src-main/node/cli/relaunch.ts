@@ -37,9 +37,16 @@ export function needsBatchRelaunch(
 /**
  * Run this same script again in a child process with `flags` added to Node's own options, relay signals,
  * and resolve with the exit code to use (128 + signal number when the child was killed by a signal).
+ * If the child cannot be started at all, say so and run `fallback` in this process instead.
  */
-export function relaunch(script: string, args: readonly string[], flags: readonly string[]): Promise<number> {
-  const child = spawn(process.execPath, [...flags, ...process.execArgv, script, ...args], {
+export function relaunch(
+  script: string,
+  args: readonly string[],
+  flags: readonly string[],
+  fallback: () => Promise<number>,
+  node = process.execPath,
+): Promise<number> {
+  const child = spawn(node, [...flags, ...process.execArgv, script, ...args], {
     stdio: ['inherit', 'inherit', 'inherit', 'ipc'],
     env: { ...process.env, [RELAUNCHED_ENV]: '1' },
     detached: process.platform !== 'win32',
@@ -54,9 +61,18 @@ export function relaunch(script: string, args: readonly string[], flags: readonl
       for (const s of signals) process.removeListener(s, relay);
       resolve(code);
     };
+    let spawned = false;
+    child.on('spawn', () => {
+      spawned = true;
+    });
     child.on('error', (err) => {
-      process.stderr.write(`rankfold: cannot start the batch process (${err.message})\n`);
-      done(1);
+      if (spawned) return;
+      // No second process to be had (process limit, memory): run the batch here, with V8's defaults.
+      process.stderr.write(
+        `rankfold: cannot start the batch process (${err.message}); running in this one instead\n`,
+      );
+      for (const s of signals) process.removeListener(s, relay);
+      fallback().then(resolve, () => resolve(1));
     });
     child.on('exit', (code, signal) => {
       done(code ?? 128 + (signal ? (constants.signals[signal] ?? 0) : 0));
