@@ -595,13 +595,15 @@ function showFrame(buf: ArrayBuffer) {
   frameInput.value = String(info.frame + 1);
   const put = (metric: string, value: number, text: string) => {
     const el = document.querySelector<HTMLElement>(`#stack-card [data-metric="${metric}"]`)!;
-    el.dataset.value = String(value);
+    el.dataset.value = Number.isNaN(value) ? '' : String(value);
     el.querySelector('dd')!.textContent = text;
   };
   put('frame', info.frame + 1, `${info.frame + 1} · ${label}`);
   put('frame-count', info.frameCount, String(info.frameCount));
   put('eigen-frames', Math.max(...info.ranks), info.ranks.join(' / '));
   put('residual', info.residual ? 1 : 0, info.residual ? 'yes' : 'no');
+  const w = info.worst;
+  put('worst-psnr', w ? w.psnr : Number.NaN, w ? `${w.psnr.toFixed(2)} dB · frame ${w.frame + 1}` : '–');
   // Sizes are the whole stack's: the eigen-frames are shared by every frame.
   setReadouts(
     {

@@ -196,6 +196,8 @@ export interface StackFrameInfo {
   /** This frame's PSNR (dB) and SSIM as recorded in the file (SQAL chunk); absent when the file does not record them. */
   psnr?: number;
   ssim?: number;
+  /** The lowest recorded PSNR over all frames (dB) and its frame (0-based), when the file records PSNR. */
+  worst?: { frame: number; psnr: number };
 }
 
 /** Progress of a long job; `done` of `total` in the job's own units (planes, files, passes). */

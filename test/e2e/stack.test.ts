@@ -114,6 +114,12 @@ describe('stack files in the page', () => {
     expect(r.psnr).toBeCloseTo(first.psnr, 4);
     expect(r.ssim).toBeCloseTo(first.ssim, 6);
     expect(await page.textContent('#stack-note')).toMatch(/as recorded in the file/);
+    // The series' lowest frame PSNR and its frame, as the CLI report gives them.
+    const worst = report.psnr as { worst: number; worstFrame: number };
+    expect(r['worst-psnr']).toBeCloseTo(worst.worst, 4);
+    expect(await page.textContent('[data-metric="worst-psnr"] dd')).toContain(
+      `frame ${worst.worstFrame + 1}`,
+    );
     // The frame-mode spectrum chart replaced the rank spectrum.
     expect(await page.textContent('#chart-sigma')).toContain('Frame-mode singular values');
   });

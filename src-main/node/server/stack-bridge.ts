@@ -20,6 +20,16 @@ export interface StackSession {
 
 const finite = (v: number | undefined) => (v !== undefined && Number.isFinite(v) ? v : undefined);
 
+/** The frame with the lowest recorded PSNR (first of equals), or undefined when none is recorded. */
+function worstFrame(table: { psnr?: number }[]): StackFrameInfo['worst'] {
+  let worst: StackFrameInfo['worst'];
+  table.forEach((f, frame) => {
+    const p = finite(f.psnr);
+    if (p !== undefined && (!worst || p < worst.psnr)) worst = { frame, psnr: p };
+  });
+  return worst;
+}
+
 const CHANNEL_NAMES: Record<string, string[]> = { gray: ['gray'], ycbcr: ['Y', 'Cb', 'Cr'] };
 
 async function load(file: string): Promise<StackSession> {
@@ -72,6 +82,7 @@ export async function openStackFrame(
     // JSON has no ∞ (a frame decoded exactly): such a PSNR is left out and shows as a dash.
     psnr: finite(h.frameTable[frame].psnr),
     ssim: finite(h.frameTable[frame].ssim),
+    worst: worstFrame(h.frameTable),
   };
   const arrays: Record<string, Uint8Array | Uint16Array> = {};
   planes.forEach((p, c) => {
