@@ -56,6 +56,7 @@ async function jpeg(
 ): Promise<{ bytes: number; dec: Uint8Array }> {
   const data = Uint8Array.from(plane, clamp8);
   const buf = await sharp(data, { raw: { width: w, height: h, channels: 1 } })
+    .toColourspace('b-w') // a one-channel JPEG: three channels would spend bytes on constant chroma
     .jpeg({ quality, mozjpeg: true })
     .toBuffer();
   const dec = await sharp(buf).extractChannel(0).raw().toBuffer();

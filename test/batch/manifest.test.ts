@@ -7,7 +7,7 @@ import { type BatchRow, MANIFEST_VERSION } from '../../src-main/contract';
 import { readManifest, rowsToCsv, rowToJson, writeManifest } from '../../src-main/node/batch/manifest';
 import { joinRows, mergeManifests } from '../../src-main/node/batch/merge';
 import { shardOf } from '../../src-main/node/batch/plan';
-import { histogramSvg, renderReport, worstRows } from '../../src-main/node/batch/report';
+import { histogramSvg, renderReport, WorstSoFar, worstRows } from '../../src-main/node/batch/report';
 
 let dir: string;
 beforeAll(async () => {
@@ -148,6 +148,43 @@ describe('report', () => {
 
   it('picks the lowest PSNR files for thumbnails, exact files last', () => {
     expect(worstRows(rows, 2).map((r) => r.path)).toEqual(['worse.png', 'good.png']);
+  });
+
+  it('WorstSoFar: every file that ends among the worst was at or below the bound when it was dispatched', () => {
+    // Simulated batches: 2 to 4 workers, random PSNRs with ties and exact files, random finishing order.
+    let seed = 7;
+    const rnd = () => {
+      seed = (seed * 1103515245 + 12345) % 2147483648;
+      return seed / 2147483648;
+    };
+    for (let trial = 0; trial < 200; trial++) {
+      const n = 1 + Math.floor(rnd() * 40);
+      const jobs = 2 + Math.floor(rnd() * 3);
+      const files = Array.from({ length: n }, (_, i) => ({
+        path: `f${String(i).padStart(2, '0')}.png`,
+        psnr: rnd() < 0.1 ? Number.POSITIVE_INFINITY : 30 + Math.floor(rnd() * 8),
+      }));
+      const worst = new WorstSoFar(6);
+      const finished: BatchRow[] = [];
+      const admitted = new Set<string>();
+      const running: typeof files = [];
+      let next = 0;
+      while (finished.length < n) {
+        while (running.length < jobs && next < n) {
+          const f = files[next++];
+          if (f.psnr <= worst.bound()) admitted.add(f.path);
+          running.push(f);
+        }
+        const f = running.splice(Math.floor(rnd() * running.length), 1)[0];
+        const row = { v: MANIFEST_VERSION, path: f.path, status: 'ok', psnr: f.psnr } as BatchRow;
+        finished.push(row);
+        worst.add(row);
+        // The tracker holds exactly the worst rows finished so far.
+        for (const r of worstRows(finished, 6)) expect(worst.has(r.path)).toBe(true);
+      }
+      for (const r of worstRows(finished, 6))
+        expect(admitted.has(r.path), `trial ${trial}: ${r.path}`).toBe(true);
+    }
   });
 
   it('histogram bins every finite value once', () => {

@@ -143,4 +143,22 @@ describe('rankfold compress', () => {
       expect(c.psnr).toBeGreaterThan(10);
     }
   });
+
+  it('codes a grey scan as a one-channel JPEG for --compare (no bytes spent on constant chroma)', async () => {
+    // Fact of the format (ITU-T T.81 / JFIF 1.02: one component means greyscale): a three-component JPEG of
+    // a grey image still codes two chroma planes, which costs bytes our grey file never spends.
+    const sharp = (await import('sharp')).default;
+    const { encodeStandard } = await import('../../src-main/node/services/compress');
+    const { data, info } = await sharp(image('camera.png'))
+      .greyscale()
+      .raw()
+      .toBuffer({ resolveWithObject: true });
+    const gray = await encodeStandard(data, info.width, info.height, 1, 'jpeg', 50);
+    expect((await sharp(gray).metadata()).channels).toBe(1);
+    const threeChannel = await sharp(data, { raw: { width: info.width, height: info.height, channels: 1 } })
+      .jpeg({ quality: 50, mozjpeg: true })
+      .toBuffer();
+    expect((await sharp(threeChannel).metadata()).channels).toBe(3);
+    expect(gray.length).toBeLessThan(threeChannel.length);
+  });
 });

@@ -9,12 +9,17 @@ import { mkdir } from 'node:fs/promises';
 import { dirname } from 'node:path';
 import { type CompressOptions, type CompressReport, InputError, RankfoldError } from '../../contract';
 import { describeWriteError } from '../io/atomic';
+import type { CompressInternals } from '../services/compress';
 
 export type CompressFile = (
   input: string,
   output: string,
   options: CompressOptions,
-  hooks?: { onProgress?: (p: unknown) => void; signal?: AbortSignal },
+  hooks?: {
+    onProgress?: (p: unknown) => void;
+    signal?: AbortSignal;
+    onWritten?: CompressInternals['onWritten'];
+  },
 ) => Promise<CompressReport>;
 
 export type ExpandFile = (input: string, output: string, options?: { force?: boolean }) => Promise<unknown>;

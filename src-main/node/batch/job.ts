@@ -14,6 +14,11 @@ export interface BatchJob {
    * equals the decoded input's, otherwise compress again (overwriting).
    */
   verifyExisting?: boolean;
+  /**
+   * Draw the report's thumbnail pair from memory when this file's PSNR is at most this bound (the PSNR of
+   * the N-th worst file finished so far, or +∞ while fewer than N are done); absent: draw none.
+   */
+  thumbsAtOrBelowPsnr?: number;
 }
 
 export interface ExpandCheck {
@@ -42,9 +47,11 @@ export interface BatchJobResult {
   fileSha256: string;
   check?: ExpandCheck;
   timeMs: number;
+  /** Thumbnail pair drawn from memory (see BatchJob.thumbsAtOrBelowPsnr). */
+  thumbs?: ThumbPair;
 }
 
-/** Report thumbnails of one finished file, made by a worker once the files are done (so in parallel). */
+/** Report thumbnails of one finished file that had none from its compress job (a kept output, say). */
 export interface ThumbJob {
   kind: 'thumbs';
   path: string;

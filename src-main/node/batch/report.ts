@@ -195,10 +195,44 @@ ${tableRows}
 
 /** The lowest-PSNR rows that have an output (exact files last, since they have nothing to show). */
 export function worstRows(rows: BatchRow[], count = WORST_COUNT): BatchRow[] {
-  return rows
-    .filter((r) => (r.status === 'ok' || r.status === 'kept') && typeof r.psnr === 'number')
-    .sort((a, b) => a.psnr! - b.psnr! || (a.path < b.path ? -1 : 1))
-    .slice(0, count);
+  return rows.filter(rankedForWorst).sort(worseFirst).slice(0, count);
+}
+
+/** Rows the report can rank by PSNR. */
+const rankedForWorst = (r: BatchRow) =>
+  (r.status === 'ok' || r.status === 'kept') && typeof r.psnr === 'number';
+
+/** Lower PSNR first, then path: the order of `worstRows`. */
+const worseFirst = (a: Pick<BatchRow, 'psnr' | 'path'>, b: Pick<BatchRow, 'psnr' | 'path'>) =>
+  a.psnr! - b.psnr! || (a.path < b.path ? -1 : a.path > b.path ? 1 : 0);
+
+/**
+ * The `worstRows` of the rows finished so far, kept as they arrive (at most `count` entries). `bound()` is the
+ * PSNR a file must not exceed to enter them. The bound only falls as rows arrive, so a file that ends among
+ * the final worst was at or below the bound in force when it was dispatched.
+ */
+export class WorstSoFar {
+  private readonly list: Array<{ psnr: number; path: string }> = [];
+  constructor(private readonly count = WORST_COUNT) {}
+
+  add(r: BatchRow): void {
+    if (!rankedForWorst(r)) return;
+    const e = { psnr: r.psnr!, path: r.path };
+    let i = this.list.length;
+    while (i > 0 && worseFirst(e, this.list[i - 1]) < 0) i--;
+    if (i >= this.count) return;
+    this.list.splice(i, 0, e);
+    if (this.list.length > this.count) this.list.pop();
+  }
+
+  /** +∞ while fewer than `count` rows are ranked. */
+  bound(): number {
+    return this.list.length < this.count ? Number.POSITIVE_INFINITY : this.list[this.count - 1].psnr;
+  }
+
+  has(path: string): boolean {
+    return this.list.some((e) => e.path === path);
+  }
 }
 
 /**

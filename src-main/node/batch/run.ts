@@ -24,7 +24,7 @@ import type { BatchJobResult, BatchWork, BatchWorkResult } from './job';
 import { ManifestJournal, manifestBase, readManifest, rowsToCsv, writeManifest } from './manifest';
 import { checkFolders, isInside, type PlannedFile, planBatch } from './plan';
 import { WorkerPool } from './pool';
-import { worstRows, writeReport } from './report';
+import { WorstSoFar, worstRows, writeReport } from './report';
 import { makeThumbnails, type ThumbPair } from './thumbs';
 
 /** Default per-file limit: 30 minutes, far above a 300-megapixel scan on one core. */
@@ -306,10 +306,14 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
     o.onEvent?.({ event: 'file', done, total, ...row });
     o.onProgress?.({ done, total, bytesDone, bytesTotal, failed });
   };
+  // Thumbnails drawn by the compress jobs, for files that may end among the report's worst.
+  const worst = new WorstSoFar();
+  const drawn = new Map<string, ThumbPair>();
   for (const f of plan.files) {
     const k = kept.get(f.path);
     if (k) {
       rows.push(k);
+      worst.add(k);
       emit(k);
     }
   }
@@ -342,7 +346,6 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
       `manifest ${manifestPath} cannot be written (${(err as NodeJS.ErrnoException).code ?? (err as Error).message}); rows are only in the --json output`,
     );
   }
-
   let interrupted = false;
   let thumbs: Map<string, ThumbPair> | undefined;
   const pool = new WorkerPool<BatchWork, BatchWorkResult>(
@@ -369,6 +372,7 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
           overwrite: Boolean(o.force) || overwrite.has(f.path),
           verifyExisting: !o.force && verify.has(f.path),
           expandCheck: Boolean(o.expandCheck),
+          thumbsAtOrBelowPsnr: worst.bound(),
         },
         { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: f.path },
       );
@@ -379,26 +383,38 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
       }
       bytesDone += f.size;
       let row: BatchRow;
-      if (outcome.ok) row = rowFromResult(f, shardLabel, outcome.value as BatchJobResult, settings);
-      else {
+      if (outcome.ok) {
+        const value = outcome.value as BatchJobResult;
+        row = rowFromResult(f, shardLabel, value, settings);
+        if (value.thumbs) drawn.set(f.path, value.thumbs);
+      } else {
         // A stopped worker may have left its temp file behind.
         await sweepTemps([f.outputAbs]);
         row = failedRow(f, shardLabel, outcome.error);
       }
       rows.push(row);
+      worst.add(row);
+      for (const p of drawn.keys()) if (!worst.has(p)) drawn.delete(p);
       if (journalOk) await journal.append(row);
       emit(row);
     });
-    // The report's thumbnails, drawn on the workers while they are still up: in parallel, not at the end on
-    // this thread. (After an interrupt the pool is closed, and the report draws them itself.)
-    if (!interrupted)
-      thumbs = await makeThumbnails(worstRows(rows), async (r) => {
-        const t = await pool.run(
-          { kind: 'thumbs', path: r.path, inputAbs: r.inputAbs, outputAbs: r.outputAbs },
-          { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: r.path },
-        );
-        return t.ok ? (t.value as ThumbPair) : { note: `thumbnails unavailable (${t.error.message})` };
-      });
+    // The report's thumbnails: most were drawn by the compress jobs; the rest (outputs kept by --resume,
+    // a job whose drawing failed) on the workers while they are still up. After an interrupt the pool is
+    // closed, and the report draws them itself.
+    if (!interrupted) {
+      const final = worstRows(rows);
+      const late = await makeThumbnails(
+        final.filter((r) => !drawn.has(r.path)),
+        async (r) => {
+          const t = await pool.run(
+            { kind: 'thumbs', path: r.path, inputAbs: r.inputAbs, outputAbs: r.outputAbs },
+            { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: r.path },
+          );
+          return t.ok ? (t.value as ThumbPair) : { note: `thumbnails unavailable (${t.error.message})` };
+        },
+      );
+      thumbs = new Map(final.map((r) => [r.path, drawn.get(r.path) ?? late.get(r.path)!]));
+    }
   } finally {
     o.signal?.removeEventListener('abort', onAbort);
     await pool.close();

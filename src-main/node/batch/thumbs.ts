@@ -29,16 +29,29 @@ async function dataUrl(img: Sharp): Promise<string> {
   return `data:image/png;base64,${buf.toString('base64')}`;
 }
 
+/** Thumbnail of decoded samples (one plane per channel, 8- or 16-bit values), drawn from memory. */
+export async function samplesThumb(img: {
+  width: number;
+  height: number;
+  channels: number;
+  bitDepth: number;
+  samples: ArrayLike<number>[];
+}): Promise<string> {
+  const { width, height, channels, samples } = img;
+  const scale = img.bitDepth === 16 ? 1 / 257 : 1;
+  const raw = Buffer.alloc(width * height * channels);
+  for (let c = 0; c < channels; c++) {
+    const plane = samples[c];
+    for (let i = 0, p = c; i < width * height; i++, p += channels)
+      raw[p] = Math.max(0, Math.min(255, Math.round(plane[i] * scale)));
+  }
+  return dataUrl(sharp(raw, { raw: { width, height, channels: channels as 1 | 2 | 3 | 4 } }));
+}
+
 /** Thumbnail of a .rkf decoded in memory (no temporary file anywhere). */
 async function rkfThumb(readRkf: ReadRkf, file: string): Promise<string> {
   const { decoded } = await readRkf(file, { pixelLimit: Number.MAX_SAFE_INTEGER });
-  const { width, height, channels, samples } = decoded;
-  const scale = decoded.bitDepth === 16 ? 1 / 257 : 1;
-  const raw = Buffer.alloc(width * height * channels);
-  for (let i = 0, p = 0; i < width * height; i++)
-    for (let c = 0; c < channels; c++, p++)
-      raw[p] = Math.max(0, Math.min(255, Math.round(samples[c][i] * scale)));
-  return dataUrl(sharp(raw, { raw: { width, height, channels: channels as 1 | 2 | 3 | 4 } }));
+  return samplesThumb(decoded);
 }
 
 /** The thumbnail pair of one finished file (best effort: a missing file gives a note, never an error). */

@@ -39,6 +39,11 @@ export interface CompressHooks {
 /** Extra knobs for benchmarks and tests; not part of the public options. */
 export interface CompressInternals {
   entropy?: EntropyId;
+  /**
+   * Called once the output is on disk, with the decoded source and the encoder's result (its `decoded`
+   * holds the reconstruction): the batch worker draws report thumbnails from these, with no second decode.
+   */
+  onWritten?: (source: DecodedImage, result: EncodeResult) => void | Promise<void>;
 }
 
 export const ENCODER_NAME = 'rankfold 0.1.0';
@@ -186,7 +191,7 @@ export async function compressFile(
   const t0 = performance.now();
   const decoded = await decodeImage(input, { page: options.page, pixelLimit: options.pixelLimit });
   const decodeMs = performance.now() - t0;
-  const { bytes, report } = await compressDecoded(decoded, options, hooks);
+  const { bytes, report, result } = await compressDecoded(decoded, options, hooks);
   if (hooks.signal?.aborted) throw new CancelledError(`compressing ${input}`);
   const byteBudget = budgetBytes(options.budget, decoded);
   if (byteBudget !== undefined && bytes.length > byteBudget)
@@ -196,6 +201,7 @@ export async function compressFile(
     );
   await writeFileAtomic(output, bytes, { force: options.force });
   const onDisk = (await stat(output)).size;
+  await hooks.onWritten?.(decoded, result);
   return {
     ...report,
     output,
@@ -248,9 +254,12 @@ export async function encodeStandard(
   codec: StdCodec,
   quality: number,
 ): Promise<Buffer> {
-  const img = sharp(Buffer.from(raw.buffer, raw.byteOffset, raw.byteLength), {
+  const src = sharp(Buffer.from(raw.buffer, raw.byteOffset, raw.byteLength), {
     raw: { width, height, channels },
   });
+  // A grey scan stays one channel: without this, libvips writes a three-channel JPEG whose constant chroma
+  // still costs about 500 bytes at 512×512, and the comparison would understate JPEG.
+  const img = channels === 1 ? src.toColourspace('b-w') : src;
   if (codec === 'jpeg') return img.jpeg({ quality, mozjpeg: true }).toBuffer();
   if (codec === 'webp') return img.webp({ quality, effort: 6 }).toBuffer();
   return img.avif({ quality, effort: 4 }).toBuffer();

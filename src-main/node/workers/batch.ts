@@ -8,7 +8,7 @@ import { toErrorPayload } from '../../contract';
 import { expandCheck } from '../batch/check';
 import { hashFile, loadCompressor, makeOutputFolder } from '../batch/codec';
 import { type BatchJobResult, type BatchWork, isThumbJob } from '../batch/job';
-import { thumbnailPair } from '../batch/thumbs';
+import { samplesThumb, type ThumbPair, thumbnailPair } from '../batch/thumbs';
 import { verifyByHeader } from '../batch/verify';
 import { decodeImage, probeImage } from '../image/decode';
 
@@ -38,16 +38,49 @@ port.on('message', async (msg: { type: string; id: number; payload: BatchWork })
     }
     await makeOutputFolder(payload.output);
     const compressFile = await loadCompressor();
+    let thumbs: ThumbPair | undefined;
+    const bound = payload.thumbsAtOrBelowPsnr;
     const report = await compressFile(
       payload.input,
       payload.output,
       { ...payload.options, force: payload.overwrite || payload.verifyExisting },
-      { onProgress: (p: unknown) => port.postMessage({ type: 'progress', id, data: p }) },
+      {
+        onProgress: (p: unknown) => port.postMessage({ type: 'progress', id, data: p }),
+        // Thumbnails while source and reconstruction are still in memory, only for a file that may end
+        // among the report's worst (best effort: a failure leaves the runner to draw them from disk).
+        onWritten:
+          bound === undefined
+            ? undefined
+            : async (source, result) => {
+                if (!(result.psnr <= bound)) return;
+                try {
+                  const { width, height, channels, bitDepth } = source;
+                  thumbs = {
+                    original: await samplesThumb({
+                      width,
+                      height,
+                      channels,
+                      bitDepth,
+                      samples: source.planes,
+                    }),
+                    reconstruction: await samplesThumb({
+                      width,
+                      height,
+                      channels,
+                      bitDepth,
+                      samples: result.decoded.samples,
+                    }),
+                  };
+                } catch {
+                  thumbs = undefined;
+                }
+              },
+      },
     );
     const check = payload.expandCheck
       ? await expandCheck(payload.input, payload.output, report, payload.options)
       : undefined;
-    const result: BatchJobResult = { report, fileSha256, check, timeMs: performance.now() - started };
+    const result: BatchJobResult = { report, fileSha256, check, thumbs, timeMs: performance.now() - started };
     port.postMessage({ type: 'done', id, result });
   } catch (err) {
     port.postMessage({ type: 'error', id, error: toErrorPayload(err) });
