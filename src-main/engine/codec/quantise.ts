@@ -9,7 +9,7 @@
  * Cover & Thomas, Elements of Information Theory, 2nd ed., §10.3.3, from memory). At low rate the dead
  * zone zeroes the entries of weak components, which then cost only their zero flags.
  */
-import type { QuantPlane, TileRect } from './quantised';
+import type { QuantPlane, QuantTile, TileRect } from './quantised';
 import { tileGrid } from './quantised';
 
 /** Dead zone: values below (0.5 + DEAD_ZONE)·Δ round to 0. 0.2 is a common choice for Laplacian-like data. */
@@ -87,23 +87,39 @@ export function reconstructPlane(plane: QuantPlane): Float64Array {
   if (rects.length !== plane.tiles.length)
     throw new RangeError('tile count does not match the plane geometry');
   const row = new Float64Array(Math.max(1, plane.tile > 0 ? plane.tile : width));
-  for (let t = 0; t < rects.length; t++) {
-    const { x, y, w, h } = rects[t];
-    const tile = plane.tiles[t];
-    const mean = tile.meanQ * plane.meanStep;
-    const scales = tile.u.map((qu, k) => componentScale(qu, tile.v[k], plane.step));
-    for (let i = 0; i < h; i++) {
-      row.fill(mean, 0, w);
-      for (let k = 0; k < tile.u.length; k++) {
-        const c = scales[k];
-        if (c === 0) continue;
-        const a = tile.u[k][i] * c;
-        if (a === 0) continue;
-        const qv = tile.v[k];
-        for (let j = 0; j < w; j++) row[j] += a * qv[j];
-      }
-      out.set(row.subarray(0, w), (y + i) * width + x);
-    }
-  }
+  for (let t = 0; t < rects.length; t++)
+    addTile(out, width, rects[t], plane.tiles[t], plane.step, plane.meanStep, row);
   return out;
+}
+
+/**
+ * Write one tile's mean plus Σ cₖ·quₖ·qvₖᵀ into `out` (row stride `width`), a row at a time through `row`.
+ * Its own function so V8 optimises the loops once, not by on-stack replacement inside the tile loop.
+ */
+function addTile(
+  out: Float64Array,
+  width: number,
+  rect: TileRect,
+  tile: QuantTile,
+  step: number,
+  meanStep: number,
+  row: Float64Array,
+): void {
+  const { x, y, w, h } = rect;
+  const mean = tile.meanQ * meanStep;
+  const n = tile.u.length;
+  const scales = new Float64Array(n);
+  for (let k = 0; k < n; k++) scales[k] = componentScale(tile.u[k], tile.v[k], step);
+  for (let i = 0; i < h; i++) {
+    row.fill(mean, 0, w);
+    for (let k = 0; k < n; k++) {
+      const c = scales[k];
+      if (c === 0) continue;
+      const a = tile.u[k][i] * c;
+      if (a === 0) continue;
+      const qv = tile.v[k];
+      for (let j = 0; j < w; j++) row[j] += a * qv[j];
+    }
+    out.set(row.subarray(0, w), (y + i) * width + x);
+  }
 }

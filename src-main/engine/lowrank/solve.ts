@@ -92,6 +92,81 @@ export interface CandidateOptions {
   refit?: boolean;
 }
 
+/**
+ * One tile's candidate components at step `step`, with the exact error each leaves after refit. A function of
+ * its own so its loops are optimised as a whole after a few calls, instead of on-stack replaced inside a
+ * larger loop nest (which recompiled the caller several times per worker before it settled).
+ */
+function tileComponents(
+  tf: PlaneFactors['tiles'][number],
+  step: number,
+  opts: CandidateOptions,
+): { list: Comp[]; e: Float64Array } {
+  const r = Math.min(tf.s.length, tf.U.cols, tf.V.cols, opts.maxRank ?? Number.POSITIVE_INFINITY);
+  const list: Comp[] = [];
+  const e: number[] = [];
+  const { h, w } = tf.rect;
+  // Refit bookkeeping. The residual R_i = D − Σ_{l<i} c_l·qu_l·qv_lᵀ (D = the tile) is never formed:
+  // R_iᵀ·qu = Dᵀ·qu − Σ_l c_l·(qu_l·qu)·qv_l, and the error it leaves follows from that product alone,
+  // so each component costs O(nnz(qu)·w + i·(h + w)) instead of two passes over the tile.
+  const D = tf.data;
+  const kept: Array<{ qu: Int32Array; qv: Int32Array; c: number }> = [];
+  const rtq = new Float64Array(w);
+  for (let i = 0; i < r; i++) {
+    const sigma = tf.s[i];
+    // Entries of σ·u are at most σ; below the dead zone they all round to 0 (rank caps still apply).
+    if (opts.maxRank === undefined && sigma < (0.5 + DEAD_ZONE) * step) break;
+    const qu = quantiseVector(column(tf.U.data, tf.U.cols, i, h), sigma, step, new Int32Array(h));
+    const qv = new Int32Array(w);
+    let nu2 = 0;
+    for (let k = 0; k < h; k++) nu2 += qu[k] * qu[k];
+    let gain = 0;
+    if (opts.refit === false) {
+      quantiseVector(column(tf.V.data, tf.V.cols, i, w), sigma, step, qv);
+      gain =
+        sigma * sigma - componentError(qu, qv, tf.U.data, tf.U.cols, i, tf.V.data, tf.V.cols, i, sigma, step);
+    } else if (nu2 > 0) {
+      // Quantise-and-refit: given û = Δ·q_u, the best right factor is w = Rᵀû/‖û‖² (least squares);
+      // store b = w·‖w‖·‖û‖ so the decoder's ŝ = sqrt(‖û‖‖b̂‖) rebuilds û·wᵀ. Later components
+      // see the residual, so they also absorb earlier quantisation errors.
+      rtq.fill(0);
+      for (let y = 0; y < h; y++) {
+        const a = qu[y];
+        if (a === 0) continue;
+        const row = y * w;
+        for (let x = 0; x < w; x++) rtq[x] += D[row + x] * a;
+      }
+      for (const k of kept) {
+        let d = 0;
+        for (let y = 0; y < h; y++) d += k.qu[y] * qu[y];
+        if (d === 0) continue;
+        const f = k.c * d;
+        for (let x = 0; x < w; x++) rtq[x] -= f * k.qv[x];
+      }
+      // rtq = Rᵀ·qu; the least-squares right factor is rtq/(Δ·‖qu‖²).
+      let nw2 = 0;
+      for (let x = 0; x < w; x++) nw2 += rtq[x] * rtq[x];
+      const inv = 1 / (step * nu2);
+      quantiseVector(rtq, inv * Math.sqrt(nw2 * inv * inv) * step * Math.sqrt(nu2), step, qv);
+      const c = componentScale(qu, qv, step);
+      if (c !== 0) {
+        // ‖R − c·qu·qvᵀ‖² = ‖R‖² − 2c·(Rᵀqu)·qv + c²·‖qu‖²·‖qv‖².
+        let tq = 0;
+        let nv2 = 0;
+        for (let x = 0; x < w; x++) {
+          tq += rtq[x] * qv[x];
+          nv2 += qv[x] * qv[x];
+        }
+        gain = 2 * c * tq - c * c * nu2 * nv2;
+        kept.push({ qu, qv, c });
+      }
+    }
+    list.push({ qu, qv });
+    e.push(sigma * sigma - gain);
+  }
+  return { list, e: Float64Array.from(e) };
+}
+
 /** Quantise every useful component at step Δ and order them greedily. */
 export function buildCandidate(inputs: PlaneInput[], delta: number, opts: CandidateOptions = {}): Candidate {
   const comps: Comp[][][] = [];
@@ -106,71 +181,9 @@ export function buildCandidate(inputs: PlaneInput[], delta: number, opts: Candid
     for (let t = 0; t < factors.tiles.length; t++) {
       const tf = factors.tiles[t];
       baseD += weight * tf.energy;
-      const r = Math.min(tf.s.length, tf.U.cols, tf.V.cols, opts.maxRank ?? Number.POSITIVE_INFINITY);
-      const list: Comp[] = [];
-      const e: number[] = [];
-      const { h, w } = tf.rect;
-      // Refit bookkeeping. The residual R_i = D − Σ_{l<i} c_l·qu_l·qv_lᵀ (D = the tile) is never formed:
-      // R_iᵀ·qu = Dᵀ·qu − Σ_l c_l·(qu_l·qu)·qv_l, and the error it leaves follows from that product alone,
-      // so each component costs O(nnz(qu)·w + i·(h + w)) instead of two passes over the tile.
-      const D = tf.data;
-      const kept: Array<{ qu: Int32Array; qv: Int32Array; c: number }> = [];
-      const rtq = new Float64Array(w);
-      for (let i = 0; i < r; i++) {
-        const sigma = tf.s[i];
-        // Entries of σ·u are at most σ; below the dead zone they all round to 0 (rank caps still apply).
-        if (opts.maxRank === undefined && sigma < (0.5 + DEAD_ZONE) * step) break;
-        const qu = quantiseVector(column(tf.U.data, tf.U.cols, i, h), sigma, step, new Int32Array(h));
-        const qv = new Int32Array(w);
-        let nu2 = 0;
-        for (let k = 0; k < h; k++) nu2 += qu[k] * qu[k];
-        let gain = 0;
-        if (opts.refit === false) {
-          quantiseVector(column(tf.V.data, tf.V.cols, i, w), sigma, step, qv);
-          gain =
-            sigma * sigma -
-            componentError(qu, qv, tf.U.data, tf.U.cols, i, tf.V.data, tf.V.cols, i, sigma, step);
-        } else if (nu2 > 0) {
-          // Quantise-and-refit: given û = Δ·q_u, the best right factor is w = Rᵀû/‖û‖² (least squares);
-          // store b = w·‖w‖·‖û‖ so the decoder's ŝ = sqrt(‖û‖‖b̂‖) rebuilds û·wᵀ. Later components
-          // see the residual, so they also absorb earlier quantisation errors.
-          rtq.fill(0);
-          for (let y = 0; y < h; y++) {
-            const a = qu[y];
-            if (a === 0) continue;
-            const row = y * w;
-            for (let x = 0; x < w; x++) rtq[x] += D[row + x] * a;
-          }
-          for (const k of kept) {
-            let d = 0;
-            for (let y = 0; y < h; y++) d += k.qu[y] * qu[y];
-            if (d === 0) continue;
-            const f = k.c * d;
-            for (let x = 0; x < w; x++) rtq[x] -= f * k.qv[x];
-          }
-          // rtq = Rᵀ·qu; the least-squares right factor is rtq/(Δ·‖qu‖²).
-          let nw2 = 0;
-          for (let x = 0; x < w; x++) nw2 += rtq[x] * rtq[x];
-          const inv = 1 / (step * nu2);
-          quantiseVector(rtq, inv * Math.sqrt(nw2 * inv * inv) * step * Math.sqrt(nu2), step, qv);
-          const c = componentScale(qu, qv, step);
-          if (c !== 0) {
-            // ‖R − c·qu·qvᵀ‖² = ‖R‖² − 2c·(Rᵀqu)·qv + c²·‖qu‖²·‖qv‖².
-            let tq = 0;
-            let nv2 = 0;
-            for (let x = 0; x < w; x++) {
-              tq += rtq[x] * qv[x];
-              nv2 += qv[x] * qv[x];
-            }
-            gain = 2 * c * tq - c * c * nu2 * nv2;
-            kept.push({ qu, qv, c });
-          }
-        }
-        list.push({ qu, qv });
-        e.push(sigma * sigma - gain);
-      }
+      const { list, e } = tileComponents(tf, step, opts);
       pc.push(list);
-      pe.push(Float64Array.from(e));
+      pe.push(e);
       index.push([p, t]);
     }
     comps.push(pc);
