@@ -17,7 +17,16 @@ const TABLE = (() => {
 
 /** CRC-32 of `bytes` (optionally continuing from a previous `crc`). Returns an unsigned 32-bit integer. */
 export function crc32(bytes: Uint8Array, crc = 0): number {
-  let c = ~crc;
+  const x = ~update(~(crc < 2147483648 ? crc : crc - 4294967296), bytes);
+  return x < 0 ? x + 4294967296 : x;
+}
+
+/**
+ * The table loop on an int32 state. Kept apart from the unsigned conversion: V8 optimises this loop while it
+ * runs (on-stack replacement), before the code after it has type feedback, and an unsigned `>>> 0` there
+ * deoptimised on every CRC ≥ 2^31.
+ */
+function update(c: number, bytes: Uint8Array): number {
   for (let i = 0; i < bytes.length; i++) c = TABLE[(c ^ bytes[i]) & 0xff] ^ (c >>> 8);
-  return ~c >>> 0;
+  return c;
 }
