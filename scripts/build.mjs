@@ -74,6 +74,25 @@ const nodeExternal = [
   'cli-progress',
   'picomatch',
 ];
+// CommonJS packages are loaded with require() in the ESM bundles: an ESM `import` of a CommonJS package makes
+// Node scan its source for export names first (cjs-module-lexer), which cost 80–150 ms per worker thread
+// for sharp alone. The banner below defines `require`.
+const CJS_PACKAGES = ['sharp', 'pngjs', 'cli-progress', 'picomatch'];
+const requireCjs = {
+  name: 'require-cjs-packages',
+  setup(b) {
+    const filter = new RegExp(`^(${CJS_PACKAGES.join('|')})$`);
+    b.onResolve({ filter }, (args) =>
+      args.kind === 'require-call'
+        ? { path: args.path, external: true }
+        : { path: args.path, namespace: 'rf-cjs' },
+    );
+    b.onLoad({ filter: /.*/, namespace: 'rf-cjs' }, (args) => ({
+      contents: `module.exports = require(${JSON.stringify(args.path)});`,
+      loader: 'js',
+    }));
+  },
+};
 const builds = [];
 const nodeEntries = {};
 if (existsSync(r('src-main/node/cli/main.ts'))) nodeEntries.cli = 'src-main/node/cli/main.ts';
@@ -87,6 +106,7 @@ builds.push(
     platform: 'node',
     format: 'esm',
     external: nodeExternal,
+    plugins: [requireCjs],
     banner: {
       js: "import { createRequire as __rfRequire } from 'node:module'; const require = __rfRequire(import.meta.url);",
     },
@@ -104,6 +124,7 @@ if (Object.keys(benchEntries).length)
       platform: 'node',
       format: 'esm',
       external: nodeExternal,
+      plugins: [requireCjs],
       banner: {
         js: "import { createRequire as __rfRequire } from 'node:module'; const require = __rfRequire(import.meta.url);",
       },
