@@ -99,8 +99,19 @@ async function once(inDir: string, outDir: string, jobs: number, include: string
       `bench batch: ${r.summary.failed} files failed: ${r.rows.find((x) => x.error)?.error?.message}`,
     );
   const grey = r.rows.filter((x) => x.channels === 1).length;
-  return { seconds, megapixels: r.summary.megapixels, mps: r.summary.megapixels / seconds, cores, grey };
+  // Time inside the compress jobs, summed over files (each job runs on its own core).
+  const fileSeconds = r.rows.reduce((a, x) => a + (x.timeMs ?? 0), 0) / 1000;
+  return {
+    seconds,
+    megapixels: r.summary.megapixels,
+    mps: r.summary.megapixels / seconds,
+    cores,
+    grey,
+    fileSeconds,
+  };
 }
+
+const med = (xs: number[]) => xs.slice().sort((a, b) => a - b)[xs.length >> 1];
 
 async function main() {
   const root = await mkdtemp(join(tmpdir(), 'rankfold-bench-batch-'));
@@ -109,7 +120,14 @@ async function main() {
     await makeFolder(inDir);
     const results: Record<
       1 | 2,
-      { seconds: number; megapixels: number; mps: number; cores: number; grey: number }[]
+      {
+        seconds: number;
+        megapixels: number;
+        mps: number;
+        cores: number;
+        grey: number;
+        fileSeconds: number;
+      }[]
     > = {
       1: [],
       2: [],
@@ -158,6 +176,12 @@ async function main() {
       `| 2 | ${b2.seconds.toFixed(2)} s | ${b2.mps.toFixed(3)} MP/s | ${bestRatio.toFixed(2)}× | ${b2.cores.toFixed(2)} |`,
       '',
       `Paired ratios, 2 jobs ÷ 1 job within each round: ${paired.map((x) => `${x.toFixed(2)}×`).join(', ')} (median ${pairedMedian.toFixed(2)}×).`,
+      '',
+      `Where the rest goes (medians over the rounds): the files' own compress time summed over files is ${med(results[1].map((x) => x.fileSeconds)).toFixed(2)} s with 1 job and ` +
+        `${med(results[2].map((x) => x.fileSeconds)).toFixed(2)} s with 2 (${((100 * med(results[2].map((x) => x.fileSeconds))) / med(results[1].map((x) => x.fileSeconds)) - 100).toFixed(0)}% more: files run slower side by side, and a second worker warms up too); ` +
+        `time outside the compress jobs (starting the workers, handing out files, the report) ${med(results[1].map((x) => x.seconds - x.fileSeconds)).toFixed(2)} s with 1 job and ` +
+        `${med(results[2].map((x) => x.seconds - x.fileSeconds / 2)).toFixed(2)} s with 2 (wall time less each job's share of the file time). ` +
+        "Each worker's first files also run before V8 has optimised the codec; that warm-up is inside the file times.",
       '',
       `Work per CPU-second (all rounds): 1 job ${perCpu(1).toFixed(3)} MP, 2 jobs ${perCpu(2).toFixed(3)} MP, so two workers keep ` +
         `${(100 * efficiency).toFixed(0)}% of one worker's efficiency; on an idle 2-core machine that predicts about ` +
