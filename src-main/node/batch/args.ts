@@ -12,7 +12,12 @@ import {
   type TileChoice,
   UsageError,
 } from '../../contract';
-import { BUDGET_OPTION_NAMES, BUDGET_OPTIONS, parseBudgetOptions } from '../cli/budget-options';
+import {
+  BUDGET_OPTION_NAMES,
+  BUDGET_OPTIONS,
+  parseBudgetOptions,
+  parseTileOption,
+} from '../cli/budget-options';
 import { type OptionSpec, parseCommandArgs } from '../cli/command';
 import { DEFAULT_PIXEL_LIMIT } from '../image/decode';
 import { DEFAULT_TIMEOUT_MS } from './run';
@@ -70,13 +75,6 @@ export interface ParsedMerge {
 
 const str = (v: unknown) => (typeof v === 'string' ? v : undefined);
 
-export function parseTileOption(text: string | undefined): TileChoice {
-  if (text === undefined) return DEFAULT_TILE;
-  if (text.trim() === 'auto') return 'auto';
-  if (text.trim() === '0') return 0;
-  return parseIntegerOption('tile', text, 16, 512);
-}
-
 /** Parse `rankfold batch …` argv. @throws UsageError */
 export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
   const { values, positionals } = parseCommandArgs('batch', argv, BATCH_OPTIONS, Number.POSITIVE_INFINITY);
@@ -116,7 +114,7 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
   });
   const compress: CompressOptions = {
     budget,
-    tile: parseTileOption(str(values.tile)),
+    tile: values.tile === undefined ? DEFAULT_TILE : parseTileOption(str(values.tile)),
     pixelLimit:
       values['pixel-limit'] !== undefined
         ? parseIntegerOption('pixel-limit', str(values['pixel-limit']), 1, Number.MAX_SAFE_INTEGER)

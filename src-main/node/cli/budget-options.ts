@@ -8,6 +8,7 @@ import {
   parseBudgetText,
   parseIntegerOption,
   parseNumberOption,
+  type TileChoice,
   UsageError,
 } from '../../contract';
 import type { OptionSpec } from './command';
@@ -93,4 +94,11 @@ export function parseBudgetOptions(values: Record<string, unknown>, rules: Budge
       `${prefix}--rank fixes the model; combine --min-psnr or --min-ssim with --budget or --bpp instead`,
     );
   return budgets;
+}
+
+/** `--tile`: `auto`, `0` (whole planes) or a side of 16–512 pixels; spaces around it are ignored. */
+export function parseTileOption(text: string | undefined): TileChoice {
+  if (text === undefined || text.trim() === 'auto') return 'auto';
+  if (text.trim() === '0') return 0;
+  return parseIntegerOption('tile', text, 16, 512);
 }

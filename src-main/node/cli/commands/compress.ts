@@ -1,7 +1,7 @@
 /** `rankfold compress IN -o OUT.rkf`: write a .rkf file that meets a storage budget or a quality floor. */
 import { type CompressReport, parseIntegerOption, type TileChoice, UsageError } from '../../../contract';
 import { compressFile } from '../../services/compress';
-import { BUDGET_OPTIONS, parseBudgetOptions } from '../budget-options';
+import { BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from '../budget-options';
 import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
 
 const options = {
@@ -43,12 +43,6 @@ The input is never modified; the output is written atomically and never overwrit
 
 ${LOSSY_CAUTION}
 `;
-
-export function parseTile(text: string | undefined): TileChoice {
-  if (text === undefined || text === 'auto') return 'auto';
-  if (text.trim() === '0') return 0;
-  return parseIntegerOption('tile', text, 16, 512);
-}
 
 const fmt = (x: number, d = 2) =>
   Number.isFinite(x) ? x.toFixed(d) : x === Number.POSITIVE_INFINITY ? '∞' : 'n/a';
@@ -108,7 +102,7 @@ export const command: Command = {
       output,
       {
         budget,
-        tile: parseTile(v.tile as string | undefined),
+        tile: parseTileOption(v.tile as string | undefined),
         page: v.page !== undefined ? parseIntegerOption('page', v.page as string, 0, 100000) : undefined,
         pixelLimit:
           v['pixel-limit'] !== undefined
