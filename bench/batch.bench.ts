@@ -9,6 +9,7 @@
 import { mkdir, mkdtemp, rm, writeFile } from 'node:fs/promises';
 import { availableParallelism, cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { Worker } from 'node:worker_threads';
 import sharp from 'sharp';
 import { runBatch } from '../src-main/node/batch/run';
 import { batchWorkerFile } from '../src-main/node/batch/worker-path';
@@ -113,6 +114,47 @@ async function once(inDir: string, outDir: string, jobs: number, include: string
 
 const med = (xs: number[]) => xs.slice().sort((a, b) => a - b)[xs.length >> 1];
 
+/**
+ * This machine's ceiling for two jobs: a loop run on one worker thread, then on two at once (alternating,
+ * median of 5 paired ratios 2·t₁/t₂). 'fp' keeps eight independent multiply–add chains on data in the L1
+ * cache (floating-point throughput, as in the codec's kernels); 'int' does the same with integer operations.
+ * On two cores that share nothing the ratio is 2.00.
+ */
+async function ceiling(kind: 'fp' | 'int'): Promise<number> {
+  const loop =
+    kind === 'fp'
+      ? `const a = new Float64Array(2048).map((_, i) => 1 + i * 1e-6);
+         const run = () => { let s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0, s5 = 0, s6 = 0, s7 = 0;
+           for (let r = 0; r < 30000; r++) for (let i = 0; i < 2048; i += 8) {
+             s0 += a[i] * a[i + 1]; s1 += a[i + 1] * a[i + 2]; s2 += a[i + 2] * a[i + 3]; s3 += a[i + 3] * a[i + 4];
+             s4 += a[i + 4] * a[i + 5]; s5 += a[i + 5] * a[i + 6]; s6 += a[i + 6] * a[i + 7]; s7 += a[i + 7] * a[i]; }
+           return s0 + s1 + s2 + s3 + s4 + s5 + s6 + s7; };`
+      : `const a = new Int32Array(4096).map((_, i) => Math.imul(i, 2654435761));
+         const run = () => { let x = 1, y = 2, z = 3, w = 4;
+           for (let r = 0; r < 20000; r++) for (let i = 0; i < 4096; i += 4) {
+             x = (x + a[i]) ^ (x << 1); y = (y + a[i + 1]) ^ (y >>> 1); z = (z ^ a[i + 2]) + (z << 2); w = (w ^ a[i + 3]) + (w >>> 2); }
+           return x ^ y ^ z ^ w; };`;
+  const src = `const { parentPort } = require('node:worker_threads'); ${loop}
+    run(); parentPort.on('message', () => { const t = performance.now(); run(); parentPort.postMessage(performance.now() - t); });`;
+  const workers = [new Worker(src, { eval: true }), new Worker(src, { eval: true })];
+  const time = (w: Worker) =>
+    new Promise<number>((resolve) => {
+      w.once('message', resolve);
+      w.postMessage(0);
+    });
+  try {
+    const ratios: number[] = [];
+    for (let i = 0; i < 5; i++) {
+      const alone = await time(workers[0]);
+      const both = Math.max(...(await Promise.all(workers.map(time))));
+      ratios.push((2 * alone) / both);
+    }
+    return med(ratios);
+  } finally {
+    await Promise.all(workers.map((w) => w.terminate()));
+  }
+}
+
 async function main() {
   const root = await mkdtemp(join(tmpdir(), 'rankfold-bench-batch-'));
   try {
@@ -133,6 +175,8 @@ async function main() {
       2: [],
     };
     const load0 = loadavg()[0];
+    const fpBefore = await ceiling('fp');
+    const intCeiling = await ceiling('int');
     // Warm-up on two pages (file cache, JIT of the main thread), not counted.
     await once(inDir, join(root, 'warm'), 2, ['folio-001.png', 'folio-002.png']);
     // Alternate 1 and 2 jobs so a change in machine load hits both alike.
@@ -147,6 +191,8 @@ async function main() {
       }
     }
     const load1 = loadavg()[0];
+    // The lower of before and after: what this run's machine allowed.
+    const fpCeiling = Math.min(fpBefore, await ceiling('fp'));
     const best = (j: 1 | 2) => results[j].reduce((a, b) => (b.mps > a.mps ? b : a));
     const b1 = best(1);
     const b2 = best(2);
@@ -182,6 +228,10 @@ async function main() {
         `time outside the compress jobs (starting the workers, handing out files, the report) ${med(results[1].map((x) => x.seconds - x.fileSeconds)).toFixed(2)} s with 1 job and ` +
         `${med(results[2].map((x) => x.seconds - x.fileSeconds / 2)).toFixed(2)} s with 2 (wall time less each job's share of the file time). ` +
         "Each worker's first files also run before V8 has optimised the codec; that warm-up is inside the file times.",
+      '',
+      `Headroom of this machine (the same loop on two worker threads at once ÷ on one, median of 5 pairs): ${fpCeiling.toFixed(2)}× for a loop bound by ` +
+        `floating-point throughput, ${intCeiling.toFixed(2)}× for an integer loop (2.00× on two cores that share nothing). The two virtual cores ` +
+        `${fpCeiling < 1.9 ? 'share floating-point resources, so floating-point-heavy work such as the codec slows down when both run' : 'behave as independent cores'}; the codec mixes both kinds of work.`,
       '',
       `Work per CPU-second (all rounds): 1 job ${perCpu(1).toFixed(3)} MP, 2 jobs ${perCpu(2).toFixed(3)} MP, so two workers keep ` +
         `${(100 * efficiency).toFixed(0)}% of one worker's efficiency; on an idle 2-core machine that predicts about ` +

@@ -64,16 +64,21 @@ function walk(plane: QuantPlane, w: Writer): void {
         const q = side === 0 ? t.u[i] : t.v[i];
         const delta = useDelta(q);
         w.mode(side, delta);
-        let prev = 0;
-        let prevSign = 0;
-        const base = (side * 4 + compBucket(i)) * 4;
-        for (let j = 0; j < q.length; j++) {
-          const v = delta ? q[j] - (j ? q[j - 1] : 0) : q[j];
-          w.entry(v, base + magClass(Math.abs(prev)), prevSign);
-          prev = v;
-          prevSign = sgn(v);
-        }
+        writeVector(q, delta, (side * 4 + compBucket(i)) * 4, w);
       }
+  }
+}
+
+// The per-vector loops are functions of their own (here and in unwalk) so V8 optimises them after a few
+// calls instead of on-stack replacing the whole tile walk, which it recompiled several times per worker.
+function writeVector(q: Int32Array, delta: boolean, base: number, w: Writer): void {
+  let prev = 0;
+  let prevSign = 0;
+  for (let j = 0; j < q.length; j++) {
+    const v = delta ? q[j] - (j ? q[j - 1] : 0) : q[j];
+    w.entry(v, base + magClass(Math.abs(prev)), prevSign);
+    prev = v;
+    prevSign = sgn(v);
   }
 }
 
@@ -158,22 +163,24 @@ function unwalk(
     for (let i = 0; i < rank; i++)
       for (let side = 0; side < 2; side++) {
         const q = new Int32Array(side === 0 ? rect.h : rect.w);
-        const delta = r.mode(side);
-        let prev = 0;
-        let prevSign = 0;
-        const base = (side * 4 + compBucket(i)) * 4;
-        for (let j = 0; j < q.length; j++) {
-          const val = r.entry(base + magClass(Math.abs(prev)), prevSign);
-          q[j] = delta ? val + (j ? q[j - 1] : 0) : val;
-          prev = val;
-          prevSign = sgn(val);
-        }
+        readVector(q, r.mode(side), (side * 4 + compBucket(i)) * 4, r);
         (side === 0 ? u : v).push(q);
       }
     tiles.push({ meanQ, u, v });
   }
   r.end();
   return { ...geom, tiles };
+}
+
+function readVector(q: Int32Array, delta: boolean, base: number, r: Reader): void {
+  let prev = 0;
+  let prevSign = 0;
+  for (let j = 0; j < q.length; j++) {
+    const val = r.entry(base + magClass(Math.abs(prev)), prevSign);
+    q[j] = delta ? val + (j ? q[j - 1] : 0) : val;
+    prev = val;
+    prevSign = sgn(val);
+  }
 }
 
 export function decodePlaneRc(
