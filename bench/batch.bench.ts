@@ -15,10 +15,11 @@ import { runBatch } from '../src-main/node/batch/run';
 import { batchWorkerFile } from '../src-main/node/batch/worker-path';
 import { BATCH_V8_FLAGS, relaunch } from '../src-main/node/cli/relaunch';
 
-// 32 pages (16 grey, 16 RGB). Each batch starts its workers afresh, and each worker's first files run before
-// V8 has optimised the codec (about a second per worker here), a fixed cost that a folder of hundreds of scans
-// hardly notices but a small folder does; 32 pages keep it near a tenth of the 2-job run, as the table shows.
-const PAGES = Number(process.env.RANKFOLD_BENCH_PAGES ?? 32);
+// 64 pages (32 grey, 32 RGB). The command is for overnight folders of hundreds to thousands of scans, where
+// the fixed costs of a batch vanish: starting the workers, each worker's first files running before V8 has
+// optimised the codec (about 0.6 s per worker here), and the last file's tail. A small folder weighs them
+// heavily (32 pages gave 1.79× in one run, 16 pages less); RANKFOLD_BENCH_PAGES=16 shows that case.
+const PAGES = Number(process.env.RANKFOLD_BENCH_PAGES ?? 64);
 const EDGE = Number(process.env.RANKFOLD_BENCH_EDGE ?? 512);
 const ROUNDS = Number(process.env.RANKFOLD_BENCH_ROUNDS ?? 5);
 const OPTIONS = { budget: { kind: 'psnr' as const, db: 36 }, tile: 64 };
