@@ -70,7 +70,9 @@ export function factorPlane(
       a[k] -= mean;
       energy += a[k] * a[k];
     }
-    const mat: Matrix = { rows: h, cols: w, data: energy > 0 ? dither(a) : a };
+    // Exactly rank-deficient tiles (flat paper, ruled lines, charts) need no dither: one-sided Jacobi skips
+    // pairs whose smaller column is below ε·‖A‖_F (src-main/engine/linalg/jacobi-svd.ts), so it stops early.
+    const mat: Matrix = { rows: h, cols: w, data: a };
     let svd: SvdResult;
     const kmax = Math.min(w, h);
     if (energy === 0) svd = zeroSvd(h, w);
@@ -85,28 +87,6 @@ export function factorPlane(
     tiles.push({ rect, meanQ, energy, data: Float32Array.from(a), s: svd.s, U: svd.U, V: svd.V });
   }
   return { width, height, tile: opts.tile, meanStep: opts.meanRemoval ? opts.meanStep : 0, tiles };
-}
-
-/**
- * Exactly rank-deficient tiles (flat paper, ruled lines, synthetic charts) make one-sided Jacobi rotate
- * near-zero columns for all its sweeps (measured: a 200×200 rank-3 chart took 7.9 s instead of 0.3 s,
- * a rank-1 64×64 tile 113 ms instead of 6 ms). A deterministic dither of relative size DITHER makes
- * every column well defined; it moves the reconstruction by < 1e-7 grey levels, far below any
- * quantiser step, and keeps the output reproducible.
- */
-const DITHER = 1e-9;
-
-function dither(a: Float64Array): Float64Array {
-  let max = 0;
-  for (let i = 0; i < a.length; i++) max = Math.max(max, Math.abs(a[i]));
-  const amp = DITHER * max;
-  let s = 0x9e3779b9;
-  const out = new Float64Array(a.length);
-  for (let i = 0; i < a.length; i++) {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    out[i] = a[i] + (s / 2 ** 32 - 0.5) * amp;
-  }
-  return out;
 }
 
 function zeroSvd(h: number, w: number): SvdResult {
