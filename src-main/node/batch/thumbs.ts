@@ -4,6 +4,7 @@
  */
 import sharp, { type Sharp } from 'sharp';
 import type { BatchRow } from '../../contract';
+import { decodeImage } from '../image/decode';
 import { loadReader, type ReadRkf } from './codec';
 
 /** Longest edge of a thumbnail in pixels: enough to see banding and blur, small enough for a page of six pairs. */
@@ -12,12 +13,8 @@ export const THUMB_EDGE = 320;
 export interface ThumbPair {
   original?: string;
   reconstruction?: string;
-  /** Why one of the two is missing. */
+  /** Why one of the two is missing, or how the display was scaled. */
   note?: string;
-}
-
-async function thumb(file: string): Promise<string> {
-  return dataUrl(sharp(file, { limitInputPixels: false }).rotate());
 }
 
 async function dataUrl(img: Sharp): Promise<string> {
@@ -29,53 +26,100 @@ async function dataUrl(img: Sharp): Promise<string> {
   return `data:image/png;base64,${buf.toString('base64')}`;
 }
 
-/** Thumbnail of decoded samples (one plane per channel, 8- or 16-bit values), drawn from memory. */
-export async function samplesThumb(img: {
+/** Decoded samples: one plane per channel (alpha last when present), 8- or 16-bit values. */
+export interface ThumbSource {
   width: number;
   height: number;
   channels: number;
   bitDepth: number;
   samples: ArrayLike<number>[];
-}): Promise<string> {
+}
+
+/**
+ * How a pair's samples map to 8-bit display. 8-bit samples are shown as stored; 16-bit ones by ÷257, unless
+ * the original's brightest colour sample is under half the range (common for film, plate and gel scans
+ * that use a few bits of a 16-bit file), when both thumbnails are stretched by the same factor so that
+ * sample shows white: the pair is then comparable instead of black. Never applied to the files.
+ */
+export function displayScale(original: ThumbSource): { scale: number; note?: string } {
+  if (original.bitDepth !== 16) return { scale: 1 };
+  const colour =
+    original.channels === 2 || original.channels === 4 ? original.channels - 1 : original.channels;
+  let max = 0;
+  for (let c = 0; c < colour; c++) {
+    const plane = original.samples[c];
+    for (let i = 0; i < plane.length; i++) if (plane[i] > max) max = plane[i];
+  }
+  if (max === 0 || max >= 32768) return { scale: 1 / 257 };
+  return {
+    scale: 255 / max,
+    note: `16-bit samples 0–${max} shown as 0–255 in both thumbnails (display only)`,
+  };
+}
+
+/** Thumbnail of decoded samples at a display scale (see displayScale). */
+export async function samplesThumb(img: ThumbSource, scale: number): Promise<string> {
   const { width, height, channels, samples } = img;
-  const scale = img.bitDepth === 16 ? 1 / 257 : 1;
   const raw = Buffer.alloc(width * height * channels);
   for (let c = 0; c < channels; c++) {
     const plane = samples[c];
+    // Alpha keeps its own scale: it is coverage, not brightness.
+    const k =
+      c === channels - 1 && (channels === 2 || channels === 4) ? (img.bitDepth === 16 ? 1 / 257 : 1) : scale;
     for (let i = 0, p = c; i < width * height; i++, p += channels)
-      raw[p] = Math.max(0, Math.min(255, Math.round(plane[i] * scale)));
+      raw[p] = Math.max(0, Math.min(255, Math.round(plane[i] * k)));
   }
   return dataUrl(sharp(raw, { raw: { width, height, channels: channels as 1 | 2 | 3 | 4 } }));
 }
 
-/** Thumbnail of a .rkf decoded in memory (no temporary file anywhere). */
-async function rkfThumb(readRkf: ReadRkf, file: string): Promise<string> {
-  const { decoded } = await readRkf(file, { pixelLimit: Number.MAX_SAFE_INTEGER });
-  return samplesThumb(decoded);
+/** The pair from an original and its reconstruction in memory, both at the original's display scale. */
+export async function pairFromSamples(
+  original: ThumbSource,
+  reconstruction: ThumbSource,
+): Promise<ThumbPair> {
+  const { scale, note } = displayScale(original);
+  return {
+    original: await samplesThumb(original, scale),
+    reconstruction: await samplesThumb(reconstruction, scale),
+    note,
+  };
 }
 
-/** The thumbnail pair of one finished file (best effort: a missing file gives a note, never an error). */
+/** The thumbnail pair of one finished file, from disk (best effort: a missing file gives a note, never an error). */
 export async function thumbnailPair(
   r: Pick<BatchRow, 'inputAbs' | 'outputAbs'>,
   reader?: () => Promise<ReadRkf>,
 ): Promise<ThumbPair> {
-  const pair: ThumbPair = {};
   const notes: string[] = [];
+  let original: ThumbSource | undefined;
+  let reconstruction: ThumbSource | undefined;
   try {
-    pair.original = await thumb(r.inputAbs);
+    const d = await decodeImage(r.inputAbs, { pixelLimit: Number.MAX_SAFE_INTEGER });
+    original = { ...d, samples: d.planes };
   } catch (err) {
     notes.push(`original unavailable (${(err as Error).message.split('\n')[0]})`);
   }
   try {
     const readRkf = await (reader ?? loadReader)();
     try {
-      pair.reconstruction = await rkfThumb(readRkf, r.outputAbs);
+      reconstruction = (await readRkf(r.outputAbs, { pixelLimit: Number.MAX_SAFE_INTEGER })).decoded;
     } catch (err) {
       notes.push(`reconstruction unavailable (${(err as Error).message.split('\n')[0]})`);
     }
   } catch (err) {
     notes.push(`reconstruction unavailable (${(err as Error).message})`);
   }
+  const { scale, note } = original
+    ? displayScale(original)
+    : { scale: reconstruction?.bitDepth === 16 ? 1 / 257 : 1 };
+  const pair: ThumbPair = {};
+  try {
+    if (original) pair.original = await samplesThumb(original, scale);
+    if (reconstruction) pair.reconstruction = await samplesThumb(reconstruction, scale);
+  } catch (err) {
+    notes.push(`thumbnails unavailable (${(err as Error).message.split('\n')[0]})`);
+  }
+  if (note) notes.push(note);
   if (notes.length) pair.note = notes.join('; ');
   return pair;
 }

@@ -8,7 +8,7 @@ import { toErrorPayload } from '../../contract';
 import { expandCheck } from '../batch/check';
 import { hashFile, loadCompressor, makeOutputFolder } from '../batch/codec';
 import { type BatchJobResult, type BatchWork, isThumbJob } from '../batch/job';
-import { samplesThumb, type ThumbPair, thumbnailPair } from '../batch/thumbs';
+import { pairFromSamples, type ThumbPair, thumbnailPair } from '../batch/thumbs';
 import { verifyByHeader } from '../batch/verify';
 import { decodeImage, probeImage } from '../image/decode';
 
@@ -54,23 +54,7 @@ port.on('message', async (msg: { type: string; id: number; payload: BatchWork })
             : async (source, result) => {
                 if (!(result.psnr <= bound)) return;
                 try {
-                  const { width, height, channels, bitDepth } = source;
-                  thumbs = {
-                    original: await samplesThumb({
-                      width,
-                      height,
-                      channels,
-                      bitDepth,
-                      samples: source.planes,
-                    }),
-                    reconstruction: await samplesThumb({
-                      width,
-                      height,
-                      channels,
-                      bitDepth,
-                      samples: result.decoded.samples,
-                    }),
-                  };
+                  thumbs = await pairFromSamples({ ...source, samples: source.planes }, result.decoded);
                 } catch {
                   thumbs = undefined;
                 }
