@@ -4,7 +4,13 @@ import { join } from 'node:path';
 import { PNG } from 'pngjs';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { DEFAULT_PIXEL_LIMIT, decodeImage, hashSamples, probeImage } from '../../src-main/node/image/decode';
+import {
+  DEFAULT_PIXEL_LIMIT,
+  decodeImage,
+  hashSamples,
+  probeImage,
+  sniffFormat,
+} from '../../src-main/node/image/decode';
 import { encodeImageBuffer } from '../../src-main/node/image/encode';
 import { toUpright } from '../../src-main/node/image/orientation';
 import { image } from '../helpers/fixtures';
@@ -225,8 +231,30 @@ describe('decodeImage errors name the file and the problem', () => {
       .toBuffer();
     await writeFile(f, full.subarray(0, Math.floor(full.length / 2)));
     await expect(decodeImage(f)).rejects.toThrow(
-      new RegExp(`^${f.replace(/[.]/g, '\\.')}: cannot be decoded: the file is truncated or corrupt`),
+      `${f}: cannot be decoded: it starts as a PNG file but the rest is truncated or corrupt`,
     );
+  });
+
+  it('truncated TIFF: named by its signature, not as an unknown format', async () => {
+    const f = join(dir, 'trunc.tif');
+    const full = await sharp(ramp(64, 64), { raw: { width: 64, height: 64, channels: 1 } })
+      .tiff()
+      .toBuffer();
+    // Cut inside the image directory, so libvips no longer recognises the file at all.
+    await writeFile(f, full.subarray(0, 12));
+    await expect(decodeImage(f)).rejects.toThrow(
+      `${f}: cannot be read: it starts as a TIFF file but the rest is truncated or corrupt`,
+    );
+  });
+
+  it('sniffFormat knows the signatures of the formats Rankfold reads (PNG, TIFF 6.0 §2 / BigTIFF, JPEG SOI, RIFF WebP; common practice)', () => {
+    const b = (...x: number[]) => Uint8Array.from([...x, ...new Array(16).fill(0)]);
+    expect(sniffFormat(b(0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a))).toBe('PNG');
+    expect(sniffFormat(b(0x49, 0x49, 0x2a, 0x00))).toBe('TIFF');
+    expect(sniffFormat(b(0x4d, 0x4d, 0x00, 0x2a))).toBe('TIFF');
+    expect(sniffFormat(b(0xff, 0xd8, 0xff, 0xe0))).toBe('JPEG');
+    expect(sniffFormat(b(0x52, 0x49, 0x46, 0x46, 1, 2, 3, 4, 0x57, 0x45, 0x42, 0x50))).toBe('WebP');
+    expect(sniffFormat(b(0x68, 0x65, 0x6c, 0x6c, 0x6f))).toBeUndefined();
   });
 
   it('over the pixel limit: states the limit', async () => {

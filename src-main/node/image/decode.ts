@@ -12,6 +12,7 @@
  * - Every failure is an InputError whose message names the file and the problem.
  */
 import { createHash } from 'node:crypto';
+import { closeSync, openSync, readSync } from 'node:fs';
 import { stat } from 'node:fs/promises';
 import sharp, { type Metadata, type OutputInfo } from 'sharp';
 import { checkInteger, type DecodedImage, InputError } from '../../contract';
@@ -239,23 +240,55 @@ function depthBits(file: string, depth: string | undefined): 8 | 16 {
   );
 }
 
-/** Turn a libvips/sharp message into a sentence naming the file and the problem. */
+/** The format a file's first bytes announce (PNG, TIFF, JPEG, WebP signatures), or undefined. */
+export function sniffFormat(head: Uint8Array): string | undefined {
+  const at = (i: number, ...b: number[]) => b.every((x, k) => head[i + k] === x);
+  if (at(0, 0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a)) return 'PNG';
+  if (at(0, 0x49, 0x49, 0x2a, 0x00) || at(0, 0x4d, 0x4d, 0x00, 0x2a)) return 'TIFF';
+  if (at(0, 0x49, 0x49, 0x2b, 0x00) || at(0, 0x4d, 0x4d, 0x00, 0x2b)) return 'TIFF';
+  if (at(0, 0xff, 0xd8, 0xff)) return 'JPEG';
+  if (at(0, 0x52, 0x49, 0x46, 0x46) && at(8, 0x57, 0x45, 0x42, 0x50)) return 'WebP';
+  return undefined;
+}
+
+function formatOfFile(file: string): string | undefined {
+  try {
+    const fd = openSync(file, 'r');
+    try {
+      const head = new Uint8Array(16);
+      readSync(fd, head, 0, 16, 0);
+      return sniffFormat(head);
+    } finally {
+      closeSync(fd);
+    }
+  } catch {
+    return undefined;
+  }
+}
+
+/**
+ * Turn a libvips/sharp failure into a sentence naming the file and the problem. libvips keeps one error
+ * buffer per process, so while another batch job fails at the same moment its text can be empty
+ * ("Unknown error") or another file's; a file whose signature names a format we read therefore gets a
+ * message built from that signature alone, the same with 1 job or many.
+ */
 function describeSharpError(file: string, err: unknown, stage: 'read' | 'decode'): InputError {
   const raw = err instanceof Error ? err.message : String(err);
   const first = raw
     .split('\n')[0]
     .replace(/^Input (file|buffer) /, '')
     .trim();
+  if (/pixel limit/i.test(raw)) return new InputError(file, `is over the pixel limit (${first})`);
+  const format = formatOfFile(file);
+  if (format)
+    return new InputError(
+      file,
+      `cannot be ${stage === 'read' ? 'read' : 'decoded'}: it starts as a ${format} file but the rest is truncated or corrupt`,
+    );
   if (/unsupported image format/i.test(raw))
     return new InputError(
       file,
       `is not an image Rankfold can read (unrecognised contents); Rankfold reads ${FORMAT_NAMES}`,
-    );
-  if (/pixel limit/i.test(raw)) return new InputError(file, `is over the pixel limit (${first})`);
-  if (/read error|premature end|truncat|unexpected end|not enough data|corrupt|bad|invalid|crc/i.test(raw))
-    return new InputError(
-      file,
-      `cannot be ${stage === 'read' ? 'read' : 'decoded'}: the file is truncated or corrupt (${first})`,
     );
   return new InputError(file, `cannot be ${stage === 'read' ? 'read as an image' : 'decoded'} (${first})`);
 }
