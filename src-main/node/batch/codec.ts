@@ -7,20 +7,12 @@ import { createHash } from 'node:crypto';
 import { createReadStream } from 'node:fs';
 import { mkdir } from 'node:fs/promises';
 import { dirname } from 'node:path';
-import { type CompressOptions, type CompressReport, InputError, RankfoldError } from '../../contract';
+import { InputError, RankfoldError } from '../../contract';
 import { describeWriteError } from '../io/atomic';
-import type { CompressInternals } from '../services/compress';
+import type { compressFile } from '../services/compress';
 
-export type CompressFile = (
-  input: string,
-  output: string,
-  options: CompressOptions,
-  hooks?: {
-    onProgress?: (p: unknown) => void;
-    signal?: AbortSignal;
-    onWritten?: CompressInternals['onWritten'];
-  },
-) => Promise<CompressReport>;
+/** The compressor the batch worker calls (its options and hooks are those of the service). */
+export type CompressFile = typeof compressFile;
 
 export type ExpandFile = (input: string, output: string, options?: { force?: boolean }) => Promise<unknown>;
 

@@ -56,7 +56,7 @@ port.on('message', async (msg: { type: string; id: number; payload: BatchWork })
                 try {
                   thumbs = await pairFromSamples({ ...source, samples: source.planes }, result.decoded);
                 } catch {
-                  thumbs = undefined;
+                  // No pair: the runner draws this file from disk if it ends among the worst.
                 }
               },
       },
