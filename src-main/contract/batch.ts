@@ -15,9 +15,11 @@ export const MANIFEST_VERSION = 1;
  * - `ok`: written (or re-written) in this run;
  * - `kept`: `--resume` found an output whose recorded source hash matches, and left it alone;
  * - `failed`: the file could not be compressed; `error` says why;
- * - `planned`: `--dry-run` only.
+ * - `planned`: `--dry-run` only;
+ * - `skipped`: not a regular file (a FIFO, a device, a socket, a symbolic link to one of those or to a
+ *   folder, a broken or looping link); never opened, `note` says what it is. Not a failure.
  */
-export type BatchStatus = 'ok' | 'kept' | 'failed' | 'planned';
+export type BatchStatus = 'ok' | 'kept' | 'failed' | 'planned' | 'skipped';
 
 /** One line of the manifest (JSON lines) and one row of the CSV. */
 export interface BatchRow {
@@ -82,6 +84,8 @@ export interface BatchSummary {
   kept: number;
   failed: number;
   planned: number;
+  /** Entries that are not regular files (see `BatchStatus`), listed but never opened. */
+  skipped: number;
   inputBytes: number;
   outputBytes: number;
   megapixels: number;

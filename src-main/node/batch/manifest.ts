@@ -64,28 +64,81 @@ export function sortRows(rows: BatchRow[]): BatchRow[] {
   return rows.slice().sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
 }
 
-/** Appends rows as they finish. Each line is written with one write() call, so a kill tears at most the last line. */
+/** The few file-handle calls the journal makes; a test passes a layer that fails on purpose. */
+export interface JournalHandle {
+  write(data: Uint8Array): Promise<{ bytesWritten: number }>;
+  sync(): Promise<void>;
+  truncate(len: number): Promise<void>;
+  readFile(): Promise<Buffer>;
+  close(): Promise<void>;
+}
+export type JournalOpen = (file: string, flags: 'w' | 'a+') => Promise<JournalHandle>;
+
+const openJournalFile: JournalOpen = (file, flags) => open(file, flags);
+
+/**
+ * Appends rows as they finish. Each row is whole or absent: it is written with one write() call and fsynced;
+ * when the write fails or is short (a full disk: ENOSPC, or a quota: EDQUOT) or the fsync fails, the file is
+ * truncated back to the end of the last whole row. The batch goes on; later rows are tried again, and the
+ * final manifest is rewritten atomically anyway. A run reopened with --resume first cuts a torn last line
+ * (left by a kill mid-write or by an older version) back to the last whole row.
+ */
 export class ManifestJournal {
-  private fh?: Awaited<ReturnType<typeof open>>;
+  private fh?: JournalHandle;
   private chain: Promise<void> = Promise.resolve();
+  /** Bytes of whole rows in the file: where the next row starts, and where a failed append is cut back to. */
+  private size = 0;
   /** The first append error, if any (reported at the end; the batch itself goes on). */
   error?: Error;
+  /** Rows that could not be appended. */
+  lost = 0;
 
-  constructor(readonly file: string) {}
+  constructor(
+    readonly file: string,
+    private readonly openFile: JournalOpen = openJournalFile,
+  ) {}
 
   async open(truncate: boolean): Promise<void> {
-    this.fh = await open(this.file, truncate ? 'w' : 'a');
-    // A torn line from a killed run must not glue onto the next row.
-    if (!truncate) await this.fh.write('\n');
+    // 'a+': every write lands at the end (O_APPEND), and the old contents can be read to find the last row.
+    const fh = await this.openFile(this.file, truncate ? 'w' : 'a+');
+    try {
+      if (!truncate) {
+        const old = await fh.readFile();
+        const end = old.lastIndexOf(0x0a) + 1;
+        if (end < old.length) {
+          await fh.truncate(end);
+          await fh.sync();
+        }
+        this.size = end;
+      }
+    } catch (err) {
+      await fh.close().catch(() => {});
+      throw err;
+    }
+    this.fh = fh;
   }
 
   append(row: BatchRow): Promise<void> {
     this.chain = this.chain.then(async () => {
-      if (!this.fh || this.error) return;
+      const fh = this.fh;
+      if (!fh) return;
+      const line = Buffer.from(`${rowToJson(row)}\n`, 'utf8');
       try {
-        await this.fh.write(`${rowToJson(row)}\n`);
+        const { bytesWritten } = await fh.write(line);
+        if (bytesWritten !== line.length)
+          throw Object.assign(
+            new Error(`short write: ${bytesWritten} of ${line.length} bytes (is the disk full?)`),
+            { code: 'ENOSPC' },
+          );
+        await fh.sync();
+        this.size += line.length;
       } catch (err) {
-        this.error = err as Error;
+        this.lost++;
+        this.error ??= err as Error;
+        // Cut the partial row, so the file holds whole rows only. If even that fails, a reader still skips
+        // the torn line, and --resume cuts it when it reopens the journal.
+        await fh.truncate(this.size).catch(() => {});
+        await fh.sync().catch(() => {});
       }
     });
     return this.chain;

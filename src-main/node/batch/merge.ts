@@ -110,10 +110,13 @@ export async function mergeManifests(
     kept: rows.filter((r) => r.status === 'kept').length,
     failed: rows.filter((r) => r.status === 'failed').length,
     planned: rows.filter((r) => r.status === 'planned').length,
+    skipped: rows.filter((r) => r.status === 'skipped').length,
     inputBytes: rows.reduce((s, r) => s + (r.inputBytes ?? 0), 0),
     outputBytes: rows.reduce((s, r) => s + (r.status === 'failed' ? 0 : (r.bytes ?? 0)), 0),
     megapixels: rows.reduce(
-      (s, r) => s + (r.status !== 'failed' && r.width && r.height ? (r.width * r.height) / 1e6 : 0),
+      (s, r) =>
+        s +
+        ((r.status === 'ok' || r.status === 'kept') && r.width && r.height ? (r.width * r.height) / 1e6 : 0),
       0,
     ),
     elapsedMs: performance.now() - started,

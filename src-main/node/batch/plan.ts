@@ -12,7 +12,7 @@
  * the whole tree before sharding, so every shard agrees on every name.
  */
 import { createHash } from 'node:crypto';
-import { lstat, readdir, realpath, stat } from 'node:fs/promises';
+import { lstat, readdir, readlink, realpath, stat } from 'node:fs/promises';
 import { basename, dirname, extname, isAbsolute, join, relative, resolve, sep } from 'node:path';
 import picomatch from 'picomatch';
 import { type Shard, UsageError } from '../../contract';
@@ -48,6 +48,8 @@ export interface Plan {
   files: PlannedFile[];
   /** Files in the whole tree before sharding. */
   totalInTree: number;
+  /** Entries of this shard that are not regular files: listed, never opened. Sorted by path. */
+  skipped: SkippedEntry[];
   /** Folders that could not be listed (permission errors); reported, not fatal. */
   problems: WalkProblem[];
 }
@@ -135,11 +137,79 @@ export async function checkFolders(
   return { inDir: realIn, outDir: realOut };
 }
 
-/** Walk a folder recursively. Hidden entries (name starts with '.') are skipped; symbolic links to folders are not followed. */
-export async function walk(
-  root: string,
-): Promise<{ files: { rel: string; abs: string; size: number }[]; problems: WalkProblem[] }> {
+/**
+ * An entry the walk saw but batch does not open: not a regular file. Opening a FIFO blocks until a writer
+ * appears (POSIX open(): O_RDONLY without O_NONBLOCK), and a device such as /dev/zero never ends, so these
+ * are listed with the reason instead of being handed to the compressor.
+ */
+export interface SkippedEntry {
+  /** Relative path, '/'-separated, NFC. */
+  path: string;
+  inputAbs: string;
+  /** What the entry is, as the end of a sentence: "is a FIFO (named pipe), not a regular file". */
+  reason: string;
+}
+
+type StatLike = Pick<
+  import('node:fs').Stats,
+  'isFIFO' | 'isCharacterDevice' | 'isBlockDevice' | 'isSocket' | 'isDirectory' | 'isFile'
+>;
+
+/** The kind of a non-regular file system object, with its article ("a FIFO (named pipe)"). */
+export function specialKind(s: StatLike): string | undefined {
+  if (s.isFile()) return undefined;
+  if (s.isFIFO()) return 'a FIFO (named pipe)';
+  if (s.isCharacterDevice()) return 'a character device';
+  if (s.isBlockDevice()) return 'a block device';
+  if (s.isSocket()) return 'a socket';
+  if (s.isDirectory()) return 'a folder';
+  return 'not a regular file';
+}
+
+/** Why a symbolic link is skipped, or undefined when it leads to a regular file. `abs` is the link. */
+async function linkReason(abs: string): Promise<{ reason?: string; size: number }> {
+  let target = '';
+  try {
+    target = await readlink(abs);
+  } catch {}
+  try {
+    const s = await stat(abs);
+    if (s.isFile()) return { size: s.size };
+    if (s.isDirectory())
+      return {
+        reason: `is a symbolic link to the folder ${target}; batch does not follow links to folders`,
+        size: 0,
+      };
+    return {
+      reason: `is a symbolic link to ${target}, ${specialKind(s)}, not a regular file; it was not opened`,
+      size: 0,
+    };
+  } catch (err) {
+    const code = (err as NodeJS.ErrnoException).code;
+    if (code === 'ENOENT' || code === 'ENOTDIR')
+      return { reason: `is a broken symbolic link: its target ${target} does not exist`, size: 0 };
+    if (code === 'ELOOP')
+      return {
+        reason: `is a symbolic link that loops (it points to ${target}) and never reaches a file`,
+        size: 0,
+      };
+    // Permission and other problems: the compressor opens it and reports them for this file.
+    return { size: 0 };
+  }
+}
+
+/**
+ * Walk a folder recursively. Hidden entries (name starts with '.') are left out; every other entry is either
+ * a file to compress or a {@link SkippedEntry} (special files, links to them or to folders, broken or looping
+ * links). Symbolic links to folders are not followed.
+ */
+export async function walk(root: string): Promise<{
+  files: { rel: string; abs: string; size: number }[];
+  skipped: SkippedEntry[];
+  problems: WalkProblem[];
+}> {
   const files: { rel: string; abs: string; size: number }[] = [];
+  const skipped: SkippedEntry[] = [];
   const problems: WalkProblem[] = [];
   async function visit(dir: string) {
     let entries: import('node:fs').Dirent[];
@@ -156,25 +226,29 @@ export async function walk(
     for (const e of entries) {
       if (e.name.startsWith('.')) continue;
       const abs = join(dir, e.name);
+      const rel = toRel(relative(root, abs));
       if (e.isDirectory()) await visit(abs);
       else if (e.isFile()) {
         let size = 0;
         try {
           size = (await lstat(abs)).size;
         } catch {}
-        files.push({ rel: toRel(relative(root, abs)), abs, size });
+        files.push({ rel, abs, size });
       } else if (e.isSymbolicLink()) {
-        try {
-          const s = await stat(abs);
-          if (s.isFile()) files.push({ rel: toRel(relative(root, abs)), abs, size: s.size });
-        } catch {
-          files.push({ rel: toRel(relative(root, abs)), abs, size: 0 });
-        }
+        const l = await linkReason(abs);
+        if (l.reason) skipped.push({ path: rel, inputAbs: abs, reason: l.reason });
+        else files.push({ rel, abs, size: l.size });
+      } else {
+        skipped.push({
+          path: rel,
+          inputAbs: abs,
+          reason: `is ${specialKind(e)}, not a regular file; it was not opened`,
+        });
       }
     }
   }
   await visit(root);
-  return { files, problems };
+  return { files, skipped, problems };
 }
 
 /** Output names for a set of relative input paths, by the rule in this file's header. */
@@ -238,7 +312,7 @@ export function fileFilter(include: string[] = [], exclude: string[] = []): (rel
 
 /** Walk, filter, name and shard. Folders must already be checked with {@link checkFolders}. */
 export async function planBatch(inDir: string, outDir: string, options: PlanOptions = {}): Promise<Plan> {
-  const { files, problems } = await walk(inDir);
+  const { files, skipped, problems } = await walk(inDir);
   const keep = fileFilter(options.include, options.exclude);
   const selected = files.filter((f) => keep(f.rel));
   const names = outputNames(selected.map((f) => f.rel));
@@ -255,5 +329,9 @@ export async function planBatch(inDir: string, outDir: string, options: PlanOpti
     planned.push({ path: f.rel, output, inputAbs: f.abs, outputAbs, size: f.size });
   }
   planned.sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
-  return { inDir, outDir, files: planned, totalInTree: selected.length, problems };
+  const mine = skipped
+    .filter((f) => keep(f.path))
+    .filter((f) => shard.count <= 1 || shardOf(f.path, shard.count) === shard.index)
+    .sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
+  return { inDir, outDir, files: planned, totalInTree: selected.length, skipped: mine, problems };
 }

@@ -94,7 +94,7 @@ h1{font-size:22px;margin:0 0 4px}h2{font-size:17px;margin:28px 0 8px;border-bott
 .bars rect{fill:#3f6f8f}.axis line{stroke:#556}.axis text{font-size:11px;fill:#334}
 table{border-collapse:collapse;width:100%;background:#fff}th,td{border-bottom:1px solid #e6e6e0;padding:4px 6px;text-align:left;vertical-align:top}
 th button{font:inherit;font-weight:600;background:none;border:0;padding:0;cursor:pointer;color:#1d4f73}th button::after{content:" ↕";color:#99a}
-td.n{text-align:right;font-variant-numeric:tabular-nums}tr.failed td{background:#fff1f0}.err{color:#a02020}
+td.n{text-align:right;font-variant-numeric:tabular-nums}tr.failed td{background:#fff1f0}tr.skipped td{background:#f4f4ee}.err{color:#a02020}
 .pairs{display:grid;grid-template-columns:repeat(auto-fill,minmax(340px,1fr));gap:14px}.pair{background:#fff;border:1px solid #e2e2da;padding:8px;margin:0}.duo{display:flex;gap:6px;align-items:flex-start}.duo span{font-size:11px;color:#667;display:block}
 .pair img{max-width:160px;max-height:200px;border:1px solid #ccc}.pair figcaption{font-size:12px}
 code{font-size:12px}`;
@@ -115,6 +115,7 @@ export function renderReport(
   const rows = sortRows(rowsIn);
   const good = rows.filter((r) => r.status === 'ok' || r.status === 'kept');
   const failed = rows.filter((r) => r.status === 'failed');
+  const skipped = rows.filter((r) => r.status === 'skipped');
   const psnrs = good.map((r) => r.psnr).filter((v): v is number => typeof v === 'number');
   const ratios = good
     .map((r) => r.ratio)
@@ -129,6 +130,7 @@ export function renderReport(
     ['compressed in this run', String(rows.filter((r) => r.status === 'ok').length)],
     ['kept from an earlier run', String(rows.filter((r) => r.status === 'kept').length)],
     ['failed', String(failed.length)],
+    ['skipped (not regular files)', String(skipped.length)],
     ['input files', fmtBytes(inSum)],
     ['raw samples', fmtBytes(rawSum)],
     ['written (.rkf)', fmtBytes(outSum)],
@@ -150,11 +152,11 @@ export function renderReport(
         ['psnr', r.psnr === undefined ? '' : Number.isFinite(r.psnr) ? r.psnr : 1e9],
         ['ssim', r.ssim ?? ''],
         ['time', r.timeMs ?? ''],
-        ['error', r.error?.message ?? ''],
+        ['error', r.error?.message ?? (r.status === 'skipped' ? (r.note ?? '') : '')],
       ]
         .map(([k, v]) => `data-${k}="${escapeHtml(v)}"`)
         .join(' ');
-      return `<tr class="${r.status}" ${attrs}><td>${escapeHtml(r.path)}</td><td>${r.status}</td><td class="n">${r.bytes === undefined ? '' : fmtBytes(r.bytes)}</td><td class="n">${r.ratio === undefined ? '' : r.ratio.toFixed(2)}</td><td class="n">${fmtDb(r.psnr)}</td><td class="n">${r.ssim === undefined ? '' : r.ssim.toFixed(4)}</td><td>${escapeHtml(ranksText(r.ranks))}</td><td class="n">${r.timeMs === undefined ? '' : (r.timeMs / 1000).toFixed(2)}</td><td class="err">${escapeHtml(r.error?.message ?? '')}</td></tr>`;
+      return `<tr class="${r.status}" ${attrs}><td>${escapeHtml(r.path)}</td><td>${r.status}</td><td class="n">${r.bytes === undefined ? '' : fmtBytes(r.bytes)}</td><td class="n">${r.ratio === undefined ? '' : r.ratio.toFixed(2)}</td><td class="n">${fmtDb(r.psnr)}</td><td class="n">${r.ssim === undefined ? '' : r.ssim.toFixed(4)}</td><td>${escapeHtml(ranksText(r.ranks))}</td><td class="n">${r.timeMs === undefined ? '' : (r.timeMs / 1000).toFixed(2)}</td><td class="err">${escapeHtml(r.error?.message ?? (r.status === 'skipped' ? (r.note ?? '') : ''))}</td></tr>`;
     })
     .join('\n');
   const pairs = worst
@@ -168,6 +170,9 @@ export function renderReport(
   const failures = failed.length
     ? `<ol>${failed.map((r) => `<li><code>${escapeHtml(r.path)}</code> — <span class="err">${escapeHtml(r.error?.message ?? 'failed')}</span></li>`).join('')}</ol>`
     : '<p>No failures.</p>';
+  const skippedList = skipped.length
+    ? `<h2>Skipped (${skipped.length})</h2><p class="muted">Not regular files: listed, never opened, not counted as failures.</p><ul>${skipped.map((r) => `<li><code>${escapeHtml(r.path)}</code> — ${escapeHtml(r.note ?? 'not a regular file')}</li>`).join('')}</ul>`
+    : '';
   const warnings = info.warnings?.length
     ? `<h2>Warnings</h2><ul>${info.warnings.map((w) => `<li>${escapeHtml(w)}</li>`).join('')}</ul>`
     : '';
@@ -181,6 +186,7 @@ export function renderReport(
 <h2>Totals</h2><div class="totals">${totals.map(([k, v]) => `<div><span class="muted">${escapeHtml(k)}</span><b>${escapeHtml(v)}</b></div>`).join('')}</div>
 <h2>Distributions</h2><div class="plots">${histogramSvg(ratios, 'compression ratio', 'raw ÷ written')}${histogramSvg(finitePsnr, 'PSNR', 'dB')}</div>
 <h2>Failures (${failed.length})</h2>${failures}
+${skippedList}
 <h2>Lowest PSNR (${worst.length})</h2>${pairs ? `<div class="pairs">${pairs}</div>` : '<p>No compressed files.</p>'}
 ${warnings}
 <h2>All files</h2><p class="muted">Click a column heading to sort.</p>

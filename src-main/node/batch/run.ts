@@ -21,8 +21,9 @@ import {
 import { TEMP_PREFIX, writeFileAtomic } from '../io/atomic';
 import { hashFile } from './codec';
 import type { BatchJobResult, BatchWork, BatchWorkResult } from './job';
+import { acquireBatchLock, type BatchLock } from './lock';
 import { ManifestJournal, manifestBase, readManifest, rowsToCsv, writeManifest } from './manifest';
-import { checkFolders, isInside, type PlannedFile, planBatch } from './plan';
+import { checkFolders, isInside, type PlannedFile, planBatch, type SkippedEntry, specialKind } from './plan';
 import { WorkerPool } from './pool';
 import { WorstSoFar, worstRows, writeReport } from './report';
 import { makeThumbnails, type ThumbPair } from './thumbs';
@@ -71,6 +72,8 @@ export interface BatchResult {
   rows: BatchRow[];
   /** Non-fatal problems: folders that could not be listed, manifest/report write errors. */
   warnings: string[];
+  /** Remarks that lose nothing, e.g. a stale lock of a dead run that was taken over. */
+  notices: string[];
   interrupted: boolean;
 }
 
@@ -190,6 +193,37 @@ function rowFromResult(f: PlannedFile, shard: string, r: BatchJobResult, setting
   return row;
 }
 
+/** A row for an entry that is not a regular file: listed, never opened, no output. */
+export function skippedRow(e: SkippedEntry, shard: string): BatchRow {
+  return {
+    v: MANIFEST_VERSION,
+    path: e.path,
+    output: '',
+    inputAbs: e.inputAbs,
+    outputAbs: '',
+    status: 'skipped',
+    note: `${e.path} ${e.reason}`,
+    shard,
+    at: new Date().toISOString(),
+  };
+}
+
+/** Right before a file is handed to a worker: is it (still) a regular file? Narrows the window in which a
+ *  file swapped for a FIFO after the walk could be opened. Undefined: go ahead. */
+async function notRegularNow(f: PlannedFile): Promise<SkippedEntry | undefined> {
+  try {
+    const s = await stat(f.inputAbs);
+    if (s.isFile()) return undefined;
+    return {
+      path: f.path,
+      inputAbs: f.inputAbs,
+      reason: `is ${specialKind(s)}, not a regular file (it changed during the batch); it was not opened`,
+    };
+  } catch {
+    return undefined; // the compressor reports the problem for this file
+  }
+}
+
 function failedRow(f: PlannedFile, shard: string, error: ErrorPayload, timeMs?: number): BatchRow {
   return { ...baseRow(f, shard), status: 'failed', error, inputBytes: f.size, timeMs };
 }
@@ -225,6 +259,7 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
   const shardLabel = shardText(shard);
   const plan = await planBatch(inDir, outDir, { include: o.include, exclude: o.exclude, shard });
   const warnings = plan.problems.map((p) => `${p.path}: ${p.message}`);
+  const notices: string[] = [];
   const jobs = Math.max(1, Math.min(o.jobs ?? availableParallelism(), 256));
   // One job = one core: libvips' own thread pool is process-wide and shared by every worker, so batch
   // parallelism comes from --jobs alone and throughput scales with the job count (docs/cli.md, batch).
@@ -242,241 +277,286 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
         `the ${what} ${p} would be written inside the input folder ${inDir}; batch never writes there — choose another path`,
       );
 
-  // Resume: which outputs are already right?
-  const previous = new Map<string, BatchRow>();
-  if (o.resume) {
+  // One run per manifest (shards have their own manifests and may share OUT_DIR). Taken before --resume reads
+  // the manifest and before stale temp files are swept, so a second run never touches the first run's files.
+  let lock: BatchLock | undefined;
+  if (!o.dryRun) {
     try {
-      for (const r of (await readManifest(manifestPath)).rows) previous.set(r.path, r);
+      await mkdir(dirname(resolve(manifestPath)), { recursive: true });
+    } catch {}
+    try {
+      lock = await acquireBatchLock(manifestPath, o.outDir);
+      if (lock.notice) notices.push(lock.notice);
+    } catch (err) {
+      if (err instanceof UsageError) throw err;
+      // A folder we cannot write to is reported once, by the manifest's own warning.
+      const code = (err as NodeJS.ErrnoException).code ?? '';
+      if (!['ENOENT', 'ENOTDIR', 'EACCES', 'EPERM', 'EROFS'].includes(code))
+        warnings.push(
+          `manifest ${manifestPath} cannot be locked (${(err as NodeJS.ErrnoException).code ?? (err as Error).message}); another run into the same folder would not be detected`,
+        );
+    }
+  }
+  try {
+    return await runLocked();
+  } finally {
+    await lock?.release();
+  }
+
+  async function runLocked(): Promise<BatchResult> {
+    // Resume: which outputs are already right?
+    const previous = new Map<string, BatchRow>();
+    if (o.resume) {
+      try {
+        for (const r of (await readManifest(manifestPath)).rows) previous.set(r.path, r);
+      } catch (err) {
+        warnings.push(
+          `previous manifest ${manifestPath} cannot be read (${(err as Error).message}); every output is checked again`,
+        );
+      }
+    }
+    const kept = new Map<string, BatchRow>();
+    const overwrite = new Set<string>();
+    const verify = new Set<string>();
+    const settings = settingsText(o.compress);
+    if (o.resume) {
+      await eachLimit(plan.files, jobs, async (f) => {
+        const size = await existingSize(f.outputAbs);
+        if (size === undefined) return;
+        const prev = previous.get(f.path);
+        if (
+          prev &&
+          (prev.status === 'ok' || prev.status === 'kept') &&
+          prev.output === f.output &&
+          prev.bytes === size &&
+          prev.settings === settings &&
+          prev.fileSha256
+        ) {
+          try {
+            if ((await hashFile(f.inputAbs)) === prev.fileSha256) {
+              kept.set(f.path, {
+                ...prev,
+                inputAbs: f.inputAbs,
+                outputAbs: f.outputAbs,
+                status: 'kept',
+                shard: shardLabel,
+              });
+              return;
+            }
+          } catch {
+            // Unreadable now: compress again, which reports the problem for this file.
+          }
+        }
+        // No row (a kill between rename and journal, or a lost manifest): the worker checks the .rkf header.
+        // A row that does not match (other settings, changed source): compress again.
+        if (!prev || prev.status === 'failed') verify.add(f.path);
+        else overwrite.add(f.path);
+      });
+    }
+    const todo = plan.files.filter((f) => !kept.has(f.path));
+    const total = plan.files.length + plan.skipped.length;
+    const bytesTotal = todo.reduce((s, f) => s + f.size, 0);
+    o.onEvent?.({ event: 'start', total, kept: kept.size, jobs, shard: shardLabel, inDir, outDir });
+
+    const rows: BatchRow[] = [];
+    let done = 0;
+    let failed = 0;
+    let bytesDone = 0;
+    const emit = (row: BatchRow) => {
+      done++;
+      if (row.status === 'failed') failed++;
+      o.onEvent?.({ event: 'file', done, total, ...row });
+      o.onProgress?.({ done, total, bytesDone, bytesTotal, failed });
+    };
+    // Thumbnails drawn by the compress jobs, for files that may end among the report's worst.
+    const worst = new WorstSoFar();
+    const drawn = new Map<string, ThumbPair>();
+    // Special files first: listed with the reason, never opened, not failures.
+    for (const e of plan.skipped) {
+      const row = skippedRow(e, shardLabel);
+      rows.push(row);
+      emit(row);
+    }
+    for (const f of plan.files) {
+      const k = kept.get(f.path);
+      if (k) {
+        rows.push(k);
+        worst.add(k);
+        emit(k);
+      }
+    }
+
+    if (o.dryRun) {
+      for (const f of todo) {
+        const row = baseRow(f, shardLabel);
+        rows.push(row);
+        emit(row);
+      }
+      return finish(false);
+    }
+
+    // Folders and the journal. A folder we cannot create is reported per file by the compressor.
+    try {
+      await mkdir(outDir, { recursive: true });
     } catch (err) {
       warnings.push(
-        `previous manifest ${manifestPath} cannot be read (${(err as Error).message}); every output is checked again`,
+        `output folder ${outDir} cannot be created (${(err as NodeJS.ErrnoException).code ?? (err as Error).message})`,
       );
     }
-  }
-  const kept = new Map<string, BatchRow>();
-  const overwrite = new Set<string>();
-  const verify = new Set<string>();
-  const settings = settingsText(o.compress);
-  if (o.resume) {
-    await eachLimit(plan.files, jobs, async (f) => {
-      const size = await existingSize(f.outputAbs);
-      if (size === undefined) return;
-      const prev = previous.get(f.path);
-      if (
-        prev &&
-        (prev.status === 'ok' || prev.status === 'kept') &&
-        prev.output === f.output &&
-        prev.bytes === size &&
-        prev.settings === settings &&
-        prev.fileSha256
-      ) {
+    await sweepTemps(plan.files.map((f) => f.outputAbs));
+    const journal = new ManifestJournal(manifestPath);
+    let journalOk = true;
+    try {
+      await journal.open(!o.resume);
+    } catch (err) {
+      journalOk = false;
+      warnings.push(
+        `manifest ${manifestPath} cannot be written (${(err as NodeJS.ErrnoException).code ?? (err as Error).message}); rows are only in the --json output`,
+      );
+    }
+    let interrupted = false;
+    let thumbs: Map<string, ThumbPair> | undefined;
+    const pool = new WorkerPool<BatchWork, BatchWorkResult>(
+      o.workerFile,
+      Math.min(jobs, Math.max(1, todo.length)),
+    );
+    const onAbort = () => {
+      interrupted = true;
+      void pool.close();
+    };
+    if (o.signal?.aborted) onAbort();
+    o.signal?.addEventListener('abort', onAbort, { once: true });
+    try {
+      // Largest files first (longest-processing-time order), so no worker idles at the end on one big scan.
+      // Outputs do not depend on the order; the manifest is sorted by path at the end. Only `pool.size` files
+      // are in flight at once, so the pool queue stays short however many files a shard holds.
+      await eachLimit(dispatchOrder(todo), pool.size, async (f) => {
+        if (interrupted) return;
+        const changed = await notRegularNow(f);
+        if (changed) {
+          const row = skippedRow(changed, shardLabel);
+          rows.push(row);
+          if (journalOk) await journal.append(row);
+          emit(row);
+          return;
+        }
+        const outcome = await pool.run(
+          {
+            input: f.inputAbs,
+            output: f.outputAbs,
+            options: o.compress,
+            overwrite: Boolean(o.force) || overwrite.has(f.path),
+            verifyExisting: !o.force && verify.has(f.path),
+            expandCheck: Boolean(o.expandCheck),
+            thumbsAtOrBelowPsnr: worst.bound(),
+          },
+          { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: f.path },
+        );
+        if (!outcome.ok && outcome.error.name === 'CancelledError') {
+          // Stopped by an interrupt: no row (it was not finished), and no temp file left behind.
+          await sweepTemps([f.outputAbs]);
+          return;
+        }
+        bytesDone += f.size;
+        let row: BatchRow;
+        if (outcome.ok) {
+          const value = outcome.value as BatchJobResult;
+          row = rowFromResult(f, shardLabel, value, settings);
+          if (value.thumbs) drawn.set(f.path, value.thumbs);
+        } else {
+          // A stopped worker may have left its temp file behind.
+          await sweepTemps([f.outputAbs]);
+          row = failedRow(f, shardLabel, outcome.error);
+        }
+        rows.push(row);
+        worst.add(row);
+        for (const p of drawn.keys()) if (!worst.has(p)) drawn.delete(p);
+        if (journalOk) await journal.append(row);
+        emit(row);
+      });
+      // The report's thumbnails: most were drawn by the compress jobs; the rest (outputs kept by --resume,
+      // a job whose drawing failed) on the workers while they are still up. After an interrupt the pool is
+      // closed, and the report draws them itself.
+      if (!interrupted) {
+        const final = worstRows(rows);
+        const late = await makeThumbnails(
+          final.filter((r) => !drawn.has(r.path)),
+          async (r) => {
+            const t = await pool.run(
+              { kind: 'thumbs', path: r.path, inputAbs: r.inputAbs, outputAbs: r.outputAbs },
+              { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: r.path },
+            );
+            return t.ok ? (t.value as ThumbPair) : { note: `thumbnails unavailable (${t.error.message})` };
+          },
+        );
+        thumbs = new Map(final.map((r) => [r.path, drawn.get(r.path) ?? late.get(r.path)!]));
+      }
+    } finally {
+      o.signal?.removeEventListener('abort', onAbort);
+      await pool.close();
+      await journal.close();
+    }
+    if (journal.error)
+      warnings.push(
+        `manifest ${manifestPath}: ${journal.lost} row${journal.lost === 1 ? '' : 's'} could not be appended while the batch ran (${journal.error.message}); the journal was cut back to its last whole row`,
+      );
+    return finish(interrupted);
+
+    async function finish(wasInterrupted: boolean): Promise<BatchResult> {
+      const summary: BatchSummary = {
+        total,
+        ok: rows.filter((r) => r.status === 'ok').length,
+        kept: rows.filter((r) => r.status === 'kept').length,
+        failed: rows.filter((r) => r.status === 'failed').length,
+        planned: rows.filter((r) => r.status === 'planned').length,
+        skipped: rows.filter((r) => r.status === 'skipped').length,
+        inputBytes: rows.reduce((s, r) => s + (r.inputBytes ?? 0), 0),
+        outputBytes: rows.reduce((s, r) => s + (r.status === 'failed' ? 0 : (r.bytes ?? 0)), 0),
+        megapixels: rows.reduce(
+          (s, r) => s + (r.status === 'ok' && r.width && r.height ? (r.width * r.height) / 1e6 : 0),
+          0,
+        ),
+        elapsedMs: performance.now() - started,
+        failures: rows
+          .filter((r) => r.status === 'failed')
+          .map((r) => r.path)
+          .sort(),
+      };
+      if (!o.dryRun) {
+        // Kept rows from an interrupted run are still true; unstarted files simply have no row yet.
         try {
-          if ((await hashFile(f.inputAbs)) === prev.fileSha256) {
-            kept.set(f.path, {
-              ...prev,
-              inputAbs: f.inputAbs,
-              outputAbs: f.outputAbs,
-              status: 'kept',
-              shard: shardLabel,
-            });
-            return;
-          }
-        } catch {
-          // Unreadable now: compress again, which reports the problem for this file.
+          await writeManifest(manifestPath, rows);
+          summary.manifest = manifestPath;
+        } catch (err) {
+          warnings.push(`manifest ${manifestPath} cannot be written (${(err as Error).message})`);
+        }
+        try {
+          await writeFileAtomic(csvPath, rowsToCsv(rows), { force: true });
+          summary.csv = csvPath;
+        } catch (err) {
+          warnings.push(`CSV ${csvPath} cannot be written (${(err as Error).message})`);
+        }
+        try {
+          await writeReport(
+            reportPath,
+            rows,
+            {
+              title: `Rankfold batch of ${inDir}`,
+              inDir,
+              outDir,
+              shards: [shardLabel],
+              elapsedMs: summary.elapsedMs,
+              warnings,
+            },
+            thumbs,
+          );
+          summary.report = reportPath;
+        } catch (err) {
+          warnings.push(`report ${reportPath} cannot be written (${toErrorPayload(err).message})`);
         }
       }
-      // No row (a kill between rename and journal, or a lost manifest): the worker checks the .rkf header.
-      // A row that does not match (other settings, changed source): compress again.
-      if (!prev || prev.status === 'failed') verify.add(f.path);
-      else overwrite.add(f.path);
-    });
-  }
-  const todo = plan.files.filter((f) => !kept.has(f.path));
-  const total = plan.files.length;
-  const bytesTotal = todo.reduce((s, f) => s + f.size, 0);
-  o.onEvent?.({ event: 'start', total, kept: kept.size, jobs, shard: shardLabel, inDir, outDir });
-
-  const rows: BatchRow[] = [];
-  let done = 0;
-  let failed = 0;
-  let bytesDone = 0;
-  const emit = (row: BatchRow) => {
-    done++;
-    if (row.status === 'failed') failed++;
-    o.onEvent?.({ event: 'file', done, total, ...row });
-    o.onProgress?.({ done, total, bytesDone, bytesTotal, failed });
-  };
-  // Thumbnails drawn by the compress jobs, for files that may end among the report's worst.
-  const worst = new WorstSoFar();
-  const drawn = new Map<string, ThumbPair>();
-  for (const f of plan.files) {
-    const k = kept.get(f.path);
-    if (k) {
-      rows.push(k);
-      worst.add(k);
-      emit(k);
+      o.onEvent?.({ event: 'end', summary });
+      return { summary, rows, warnings, notices, interrupted: wasInterrupted };
     }
-  }
-
-  if (o.dryRun) {
-    for (const f of todo) {
-      const row = baseRow(f, shardLabel);
-      rows.push(row);
-      emit(row);
-    }
-    return finish(false);
-  }
-
-  // Folders and the journal. A folder we cannot create is reported per file by the compressor.
-  try {
-    await mkdir(outDir, { recursive: true });
-  } catch (err) {
-    warnings.push(
-      `output folder ${outDir} cannot be created (${(err as NodeJS.ErrnoException).code ?? (err as Error).message})`,
-    );
-  }
-  await sweepTemps(plan.files.map((f) => f.outputAbs));
-  const journal = new ManifestJournal(manifestPath);
-  let journalOk = true;
-  try {
-    await journal.open(!o.resume);
-  } catch (err) {
-    journalOk = false;
-    warnings.push(
-      `manifest ${manifestPath} cannot be written (${(err as NodeJS.ErrnoException).code ?? (err as Error).message}); rows are only in the --json output`,
-    );
-  }
-  let interrupted = false;
-  let thumbs: Map<string, ThumbPair> | undefined;
-  const pool = new WorkerPool<BatchWork, BatchWorkResult>(
-    o.workerFile,
-    Math.min(jobs, Math.max(1, todo.length)),
-  );
-  const onAbort = () => {
-    interrupted = true;
-    void pool.close();
-  };
-  if (o.signal?.aborted) onAbort();
-  o.signal?.addEventListener('abort', onAbort, { once: true });
-  try {
-    // Largest files first (longest-processing-time order), so no worker idles at the end on one big scan.
-    // Outputs do not depend on the order; the manifest is sorted by path at the end. Only `pool.size` files
-    // are in flight at once, so the pool queue stays short however many files a shard holds.
-    await eachLimit(dispatchOrder(todo), pool.size, async (f) => {
-      if (interrupted) return;
-      const outcome = await pool.run(
-        {
-          input: f.inputAbs,
-          output: f.outputAbs,
-          options: o.compress,
-          overwrite: Boolean(o.force) || overwrite.has(f.path),
-          verifyExisting: !o.force && verify.has(f.path),
-          expandCheck: Boolean(o.expandCheck),
-          thumbsAtOrBelowPsnr: worst.bound(),
-        },
-        { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: f.path },
-      );
-      if (!outcome.ok && outcome.error.name === 'CancelledError') {
-        // Stopped by an interrupt: no row (it was not finished), and no temp file left behind.
-        await sweepTemps([f.outputAbs]);
-        return;
-      }
-      bytesDone += f.size;
-      let row: BatchRow;
-      if (outcome.ok) {
-        const value = outcome.value as BatchJobResult;
-        row = rowFromResult(f, shardLabel, value, settings);
-        if (value.thumbs) drawn.set(f.path, value.thumbs);
-      } else {
-        // A stopped worker may have left its temp file behind.
-        await sweepTemps([f.outputAbs]);
-        row = failedRow(f, shardLabel, outcome.error);
-      }
-      rows.push(row);
-      worst.add(row);
-      for (const p of drawn.keys()) if (!worst.has(p)) drawn.delete(p);
-      if (journalOk) await journal.append(row);
-      emit(row);
-    });
-    // The report's thumbnails: most were drawn by the compress jobs; the rest (outputs kept by --resume,
-    // a job whose drawing failed) on the workers while they are still up. After an interrupt the pool is
-    // closed, and the report draws them itself.
-    if (!interrupted) {
-      const final = worstRows(rows);
-      const late = await makeThumbnails(
-        final.filter((r) => !drawn.has(r.path)),
-        async (r) => {
-          const t = await pool.run(
-            { kind: 'thumbs', path: r.path, inputAbs: r.inputAbs, outputAbs: r.outputAbs },
-            { timeoutMs: o.timeoutMs ?? DEFAULT_TIMEOUT_MS, label: r.path },
-          );
-          return t.ok ? (t.value as ThumbPair) : { note: `thumbnails unavailable (${t.error.message})` };
-        },
-      );
-      thumbs = new Map(final.map((r) => [r.path, drawn.get(r.path) ?? late.get(r.path)!]));
-    }
-  } finally {
-    o.signal?.removeEventListener('abort', onAbort);
-    await pool.close();
-    await journal.close();
-  }
-  if (journal.error)
-    warnings.push(`manifest ${manifestPath}: a row could not be appended (${journal.error.message})`);
-  return finish(interrupted);
-
-  async function finish(wasInterrupted: boolean): Promise<BatchResult> {
-    const summary: BatchSummary = {
-      total,
-      ok: rows.filter((r) => r.status === 'ok').length,
-      kept: rows.filter((r) => r.status === 'kept').length,
-      failed: rows.filter((r) => r.status === 'failed').length,
-      planned: rows.filter((r) => r.status === 'planned').length,
-      inputBytes: rows.reduce((s, r) => s + (r.inputBytes ?? 0), 0),
-      outputBytes: rows.reduce((s, r) => s + (r.status === 'failed' ? 0 : (r.bytes ?? 0)), 0),
-      megapixels: rows.reduce(
-        (s, r) => s + (r.status === 'ok' && r.width && r.height ? (r.width * r.height) / 1e6 : 0),
-        0,
-      ),
-      elapsedMs: performance.now() - started,
-      failures: rows
-        .filter((r) => r.status === 'failed')
-        .map((r) => r.path)
-        .sort(),
-    };
-    if (!o.dryRun) {
-      // Kept rows from an interrupted run are still true; unstarted files simply have no row yet.
-      try {
-        await writeManifest(manifestPath, rows);
-        summary.manifest = manifestPath;
-      } catch (err) {
-        warnings.push(`manifest ${manifestPath} cannot be written (${(err as Error).message})`);
-      }
-      try {
-        await writeFileAtomic(csvPath, rowsToCsv(rows), { force: true });
-        summary.csv = csvPath;
-      } catch (err) {
-        warnings.push(`CSV ${csvPath} cannot be written (${(err as Error).message})`);
-      }
-      try {
-        await writeReport(
-          reportPath,
-          rows,
-          {
-            title: `Rankfold batch of ${inDir}`,
-            inDir,
-            outDir,
-            shards: [shardLabel],
-            elapsedMs: summary.elapsedMs,
-            warnings,
-          },
-          thumbs,
-        );
-        summary.report = reportPath;
-      } catch (err) {
-        warnings.push(`report ${reportPath} cannot be written (${toErrorPayload(err).message})`);
-      }
-    }
-    o.onEvent?.({ event: 'end', summary });
-    return { summary, rows, warnings, interrupted: wasInterrupted };
   }
 }

@@ -21,6 +21,7 @@ const STATE: Record<string, BatchFileStatus['state']> = {
   kept: 'skipped',
   failed: 'failed',
   planned: 'queued',
+  skipped: 'skipped',
 };
 
 export async function runBatchJob(
@@ -47,6 +48,7 @@ export async function runBatchJob(
           file: e.path,
           message:
             e.error?.message ??
+            (e.status === 'skipped' ? e.note : undefined) ??
             (e.psnr !== undefined ? `${e.bytes} bytes, PSNR ${e.psnr.toFixed(2)} dB` : undefined),
         });
     },
@@ -54,7 +56,7 @@ export async function runBatchJob(
   const files: BatchFileStatus[] = r.rows.map((row) => ({
     file: row.path,
     state: STATE[row.status] ?? 'failed',
-    message: row.error?.message,
+    message: row.error?.message ?? (row.status === 'skipped' ? row.note : undefined),
     outputBytes: row.bytes,
     psnr: row.psnr,
   }));

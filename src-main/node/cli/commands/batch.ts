@@ -1,9 +1,10 @@
 /**
  * `rankfold batch IN_DIR -o OUT_DIR [budget] [options]` and `rankfold batch --merge MANIFEST…`.
- * Exit codes: 0 every file succeeded (or was kept by --resume), 2 some files failed or the run was
- * interrupted (the failures are listed), 1 usage error. See docs/cli.md.
+ * Exit codes: 0 every file succeeded (or was kept by --resume; entries that are not regular files are listed
+ * as skipped, which is not a failure), 2 some files failed or the run was interrupted (the failures are
+ * listed), 1 usage error, or another run holds the output folder's lock. See docs/cli.md.
  */
-import type { BatchEvent, BatchSummary } from '../../../contract';
+import type { BatchEvent, BatchRow, BatchSummary } from '../../../contract';
 import { parseBatchArgs } from '../../batch/args';
 import { rowToJson } from '../../batch/manifest';
 import { mergeManifests } from '../../batch/merge';
@@ -20,6 +21,10 @@ Usage:
 
 Walks IN_DIR recursively (hidden files and folders skipped) and writes one .rkf per input under OUT_DIR,
 mirroring the folders. Nothing is ever written inside IN_DIR; OUT_DIR may not be IN_DIR or inside it.
+Entries that are not regular files (FIFOs, devices, sockets, links to them or to folders, broken or
+looping links) are never opened: they are listed as skipped, with the reason, in the summary, manifest and
+report. One run at a time per manifest: a second run into the same OUT_DIR (same shard) is refused while the
+first holds OUT_DIR/rankfold-manifest[-IofN].jsonl.lock; a lock left by a dead run on this host is taken over.
 
 Budget (exactly one, as for \`rankfold compress\`):
   --rank K             keep K singular values per plane (1–65535)
@@ -47,7 +52,8 @@ Batch:
 Output names: a/b.png → a/b.rkf. When two inputs in one folder would share a name (a.png, a.tif; case and
 Unicode form ignored), each keeps its whole name: a.png.rkf, a.tif.rkf.
 
-Exit codes: 0 all files done or kept; 2 some files failed or the run was interrupted (listed); 1 usage error.
+Exit codes: 0 all files done or kept (skipped special files are not failures); 2 some files failed or
+the run was interrupted (listed); 1 usage error, or another run is writing into OUT_DIR.
 
 ${LOSSY_CAUTION}
 `;
@@ -56,20 +62,27 @@ function humanLine(e: Extract<BatchEvent, { event: 'file' }>): string {
   const n = `[${e.done}/${e.total}]`;
   if (e.status === 'failed') return `${n} FAILED ${e.path}: ${e.error?.message ?? 'unknown error'}\n`;
   if (e.status === 'planned') return `${n} would write ${e.output}  ←  ${e.path}\n`;
+  if (e.status === 'skipped') return `${n} skipped ${e.note ?? e.path}\n`;
   const psnr =
     e.psnr === undefined ? '' : Number.isFinite(e.psnr) ? ` PSNR ${e.psnr.toFixed(2)} dB` : ' exact';
   return `${n} ${e.status === 'kept' ? 'kept' : 'ok'} ${e.path} → ${e.output}${e.ratio !== undefined ? ` ratio ${e.ratio.toFixed(2)}` : ''}${psnr}\n`;
 }
 
-function summaryText(s: BatchSummary, warnings: string[], interrupted: boolean): string {
+function summaryText(
+  s: BatchSummary,
+  warnings: string[],
+  interrupted: boolean,
+  rows: BatchRow[] = [],
+  notices: string[] = [],
+): string {
   const lines = [
-    `batch: ${s.total} file${s.total === 1 ? '' : 's'}: ${s.ok} compressed, ${s.kept} kept, ${s.failed} failed${s.planned ? `, ${s.planned} planned (dry run)` : ''} in ${(s.elapsedMs / 1000).toFixed(1)} s` +
+    `batch: ${s.total} file${s.total === 1 ? '' : 's'}: ${s.ok} compressed, ${s.kept} kept, ${s.failed} failed${s.skipped ? `, ${s.skipped} skipped (not regular files)` : ''}${s.planned ? `, ${s.planned} planned (dry run)` : ''} in ${(s.elapsedMs / 1000).toFixed(1)} s` +
       (s.outputBytes
         ? `; ${s.outputBytes >= 1e6 ? `${(s.outputBytes / 1e6).toFixed(2)} MB` : `${(s.outputBytes / 1e3).toFixed(1)} kB`} written`
         : ''),
   ];
   if (interrupted) {
-    const left = s.total - s.ok - s.kept - s.failed;
+    const left = s.total - s.ok - s.kept - s.failed - (s.skipped ?? 0);
     lines.push(
       `batch: interrupted with ${left} file${left === 1 ? '' : 's'} not finished; run the same command with --resume to finish`,
     );
@@ -78,7 +91,13 @@ function summaryText(s: BatchSummary, warnings: string[], interrupted: boolean):
     lines.push('Failed files:');
     for (const f of s.failures) lines.push(`  ${f}`);
   }
+  const skipped = rows.filter((r) => r.status === 'skipped');
+  if (skipped.length) {
+    lines.push('Skipped (not regular files, never opened):');
+    for (const r of skipped) lines.push(`  ${r.note ?? r.path}`);
+  }
   for (const w of warnings) lines.push(`warning: ${w}`);
+  for (const n of notices) lines.push(`note: ${n}`);
   if (s.manifest) lines.push(`manifest: ${s.manifest}`);
   if (s.csv) lines.push(`csv:      ${s.csv}`);
   if (s.report) lines.push(`report:   ${s.report}`);
@@ -91,7 +110,7 @@ async function run(argv: string[], io: CliIO): Promise<number> {
     const r = await mergeManifests(args.manifests, args);
     if (args.json)
       io.stdout(`${JSON.stringify({ event: 'end', summary: r.summary, warnings: r.warnings })}\n`);
-    else io.stderr(summaryText(r.summary, r.warnings, false));
+    else io.stderr(summaryText(r.summary, r.warnings, false, r.rows));
     return r.summary.failed > 0 || r.warnings.length > 0 ? 2 : 0;
   }
   const workerFile = args.dryRun ? '' : batchWorkerFile();
@@ -119,7 +138,7 @@ async function run(argv: string[], io: CliIO): Promise<number> {
       onProgress: (p) => bar?.update(p),
     });
     bar?.stop();
-    io.stderr(summaryText(result.summary, result.warnings, result.interrupted));
+    io.stderr(summaryText(result.summary, result.warnings, result.interrupted, result.rows, result.notices));
     if (result.summary.total === 0 && !args.json)
       io.stderr(
         'batch: no input files found (hidden files and folders are skipped; check IN_DIR and --include/--exclude)\n',
