@@ -66,7 +66,13 @@ export function sortRows(rows: BatchRow[]): BatchRow[] {
 
 /** The few file-handle calls the journal makes; a test passes a layer that fails on purpose. */
 export interface JournalHandle {
-  write(data: Uint8Array): Promise<{ bytesWritten: number }>;
+  /** pwrite: `length` bytes of `data` from `offset`, at file `position`. */
+  write(
+    data: Uint8Array,
+    offset: number,
+    length: number,
+    position: number,
+  ): Promise<{ bytesWritten: number }>;
   sync(): Promise<void>;
   truncate(len: number): Promise<void>;
   readFile(): Promise<Buffer>;
@@ -124,7 +130,9 @@ export class ManifestJournal {
       if (!fh) return;
       const line = Buffer.from(`${rowToJson(row)}\n`, 'utf8');
       try {
-        const { bytesWritten } = await fh.write(line);
+        // At the end of the last whole row, given explicitly: after a cut-back the file offset of a
+        // non-append handle would still point past the end and leave a hole of NUL bytes.
+        const { bytesWritten } = await fh.write(line, 0, line.length, this.size);
         if (bytesWritten !== line.length)
           throw Object.assign(
             new Error(`short write: ${bytesWritten} of ${line.length} bytes (is the disk full?)`),
