@@ -2,6 +2,12 @@
  * Browser mode: the page and its API on 127.0.0.1 only.
  *
  * Guards, applied to every request before anything else:
+ * - exactly one Host header line, or 400: RFC 9112 §3.2, "A server MUST respond with a 400 (Bad Request)
+ *   status code to any HTTP/1.1 request message that lacks a Host header field and to any request message
+ *   that contains more than one Host header field line or a Host header field with an invalid field value".
+ *   Node keeps only the first of repeated Host lines in `req.headers`, so the lines are counted in
+ *   `req.rawHeaders`. The request target must be a path (origin-form) or an absolute http URL naming us
+ *   (absolute-form, RFC 9112 §3.2.2), or 400;
  * - Host must name this loopback listener (127.0.0.1 or localhost with our port), against DNS
  *   rebinding (a hostile name that resolves to 127.0.0.1 carries its own name in Host);
  * - Origin, when sent, must be our own origin, and `Sec-Fetch-Site: cross-site` is refused, against
@@ -15,7 +21,7 @@ import { readFile } from 'node:fs/promises';
 import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { extname, join, normalize, sep } from 'node:path';
-import { type ProgressEvent, toErrorPayload, UsageError, validateRequest } from '../../contract';
+import { InputError, type ProgressEvent, toErrorPayload, UsageError, validateRequest } from '../../contract';
 import { type Backend, MAX_UPLOAD_BYTES } from './backend';
 
 /** Largest JSON request body: requests are small descriptions, never pixel data. */
@@ -94,6 +100,81 @@ export function checkHostAndOrigin(headers: IncomingMessage['headers'], port: nu
   return undefined;
 }
 
+/** True when `s` holds a C0 control character, DEL or (with `c1`) a C1 control character. */
+function hasControl(s: string, c1 = false): boolean {
+  for (let i = 0; i < s.length; i++) {
+    const c = s.charCodeAt(i);
+    if (c < 0x20 || c === 0x7f || (c1 && c >= 0x80 && c <= 0x9f)) return true;
+  }
+  return false;
+}
+
+/** RFC 9110 §7.2 / RFC 3986 §3.2.2–3.2.3: host [":" port], with no spaces, commas, userinfo or paths. */
+const HOST_VALUE = /^(?:\[[0-9A-Fa-f:.]+\]|[A-Za-z0-9._~%!$&'()*+;=-]+)(?::[0-9]*)?$/;
+
+/**
+ * Why a request is malformed at the HTTP level (400), or undefined. Counts Host lines in `rawHeaders`
+ * (name/value pairs as received) and checks the request target.
+ */
+export function checkRequestShape(rawHeaders: string[], target: string | undefined): string | undefined {
+  const hosts: string[] = [];
+  for (let i = 0; i + 1 < rawHeaders.length; i += 2)
+    if (rawHeaders[i].toLowerCase() === 'host') hosts.push(rawHeaders[i + 1]);
+  if (hosts.length === 0) return 'the request has no Host header';
+  if (hosts.length > 1) return `the request has ${hosts.length} Host headers; send exactly one`;
+  if (!HOST_VALUE.test(hosts[0])) return `Host ${JSON.stringify(hosts[0].slice(0, 200))} is not a valid host`;
+  const t = target ?? '';
+  if (t.startsWith('/')) {
+    if (hasControl(t) || t.includes(' ')) return 'the request target contains control characters or spaces';
+    return undefined;
+  }
+  if (/^http:\/\//i.test(t)) {
+    try {
+      new URL(t);
+      return undefined;
+    } catch {
+      return 'the request target is not a valid URL';
+    }
+  }
+  return 'the request target must be a path starting with /';
+}
+
+/** Longest upload name in UTF-8 bytes: NAME_MAX of common Linux, macOS and Windows file systems (from memory). */
+export const MAX_UPLOAD_NAME_BYTES = 255;
+
+/**
+ * The upload's file name from the raw query string, decoded strictly: the `name` parameter exactly once,
+ * percent-encoding that decodes to valid UTF-8 (RFC 3986 §2.5; WHATWG URLSearchParams would silently turn bad
+ * bytes into U+FFFD), and a plain file name: not empty, not `.` or `..`, no `/` or `\`, no NUL or other
+ * control characters, at most 255 UTF-8 bytes.
+ * @throws UsageError with one sentence naming the problem.
+ */
+export function uploadName(search: string): string {
+  const raw = search.replace(/^\?/, '');
+  const values = raw
+    .split('&')
+    .filter((p) => p === 'name' || p.startsWith('name='))
+    .map((p) => p.slice(5));
+  if (values.length === 0) throw new UsageError('Upload needs ?name= with the file name');
+  if (values.length > 1) throw new UsageError('Upload takes one ?name=, not several');
+  let name: string;
+  try {
+    name = decodeURIComponent(values[0].replace(/\+/g, ' '));
+  } catch {
+    throw new UsageError('Upload name is not valid percent-encoded UTF-8');
+  }
+  const shown = JSON.stringify(name.length > 80 ? `${name.slice(0, 80)}…` : name);
+  if (name === '') throw new UsageError('Upload name is empty; send the file name in ?name=');
+  if (name === '.' || name === '..') throw new UsageError(`Upload name ${shown} is not a file name`);
+  if (/[/\\]/.test(name))
+    throw new UsageError(`Upload name ${shown} contains a folder separator; send the file name alone`);
+  if (hasControl(name, true))
+    throw new UsageError(`Upload name ${shown} contains a NUL or other control character`);
+  if (Buffer.byteLength(name, 'utf8') > MAX_UPLOAD_NAME_BYTES)
+    throw new UsageError(`Upload name ${shown} is longer than ${MAX_UPLOAD_NAME_BYTES} bytes`);
+  return name;
+}
+
 /** Constant-time token comparison. */
 export function tokenMatches(given: string | null | undefined, token: string): boolean {
   if (typeof given !== 'string') return false;
@@ -145,6 +226,13 @@ export async function startServer(options: ServeOptions): Promise<RunningServer>
 
   const server = createServer(async (req, res) => {
     try {
+      const malformed = checkRequestShape(req.rawHeaders, req.url);
+      if (malformed)
+        return send(
+          res,
+          400,
+          JSON.stringify({ ok: false, error: { name: 'BadRequest', message: `Refused: ${malformed}` } }),
+        );
       const refusal = checkHostAndOrigin(req.headers, port);
       if (refusal)
         return send(
@@ -152,7 +240,22 @@ export async function startServer(options: ServeOptions): Promise<RunningServer>
           403,
           JSON.stringify({ ok: false, error: { name: 'Forbidden', message: `Refused: ${refusal}` } }),
         );
-      const url = new URL(req.url ?? '/', `http://127.0.0.1:${port}`);
+      // Origin-form targets are appended to our origin, so `//name/...` stays a path; an absolute-form target
+      // (RFC 9112 §3.2.2) must name this listener, as Host must.
+      const target = req.url ?? '/';
+      const url = new URL(target.startsWith('/') ? `http://127.0.0.1:${port}${target}` : target);
+      if (!target.startsWith('/') && checkHostAndOrigin({ host: url.host }, port))
+        return send(
+          res,
+          403,
+          JSON.stringify({
+            ok: false,
+            error: {
+              name: 'Forbidden',
+              message: `Refused: request target ${url.host} is not this loopback server`,
+            },
+          }),
+        );
       if (url.pathname.startsWith('/api/')) {
         const given = req.headers['x-rankfold-token'] ?? url.searchParams.get('token');
         if (!tokenMatches(Array.isArray(given) ? given[0] : given, token))
@@ -176,7 +279,14 @@ export async function startServer(options: ServeOptions): Promise<RunningServer>
   });
 
   async function serveStatic(res: ServerResponse, pathname: string) {
-    const rel = pathname === '/' ? 'index.html' : decodeURIComponent(pathname.slice(1));
+    let rel: string;
+    try {
+      rel = pathname === '/' ? 'index.html' : decodeURIComponent(pathname.slice(1));
+    } catch {
+      return send(res, 400, 'bad request: the path is not valid percent-encoded UTF-8', 'text/plain');
+    }
+    if (hasControl(rel))
+      return send(res, 400, 'bad request: the path contains control characters', 'text/plain');
     const file = normalize(join(options.staticDir, rel));
     if (!file.startsWith(normalize(options.staticDir) + sep))
       return send(res, 404, 'not found', 'text/plain');
@@ -224,10 +334,16 @@ export async function startServer(options: ServeOptions): Promise<RunningServer>
         JSON.stringify({ ok: false, error: { name: 'UsageError', message: 'Use POST' } }),
       );
     if (what === 'upload') {
-      const name = url.searchParams.get('name') ?? '';
-      if (!name) throw new UsageError('Upload needs ?name= with the file name');
+      const name = uploadName(url.search);
       const body = await readBody(req, MAX_UPLOAD_BYTES);
-      const id = await backend.upload(name, body);
+      let id: string;
+      try {
+        id = await backend.upload(name, body);
+      } catch (err) {
+        // The name's extension is not a scan type: the client's mistake, not ours.
+        if (err instanceof InputError) throw new UsageError(err.message);
+        throw err;
+      }
       return send(res, 200, JSON.stringify({ ok: true, value: id }));
     }
     if (what === 'call' && parts[2]) {
@@ -257,6 +373,15 @@ export async function startServer(options: ServeOptions): Promise<RunningServer>
       JSON.stringify({ ok: false, error: { name: 'UsageError', message: `No API ${url.pathname}` } }),
     );
   }
+
+  // CONNECT (a proxy tunnel) is not served here. Without a listener Node drops the connection with no answer;
+  // say 405 instead, as for any other method we do not serve.
+  server.on('connect', (_req, socket) => {
+    const body = 'method not allowed';
+    socket.end(
+      `HTTP/1.1 405 Method Not Allowed\r\nContent-Type: text/plain\r\nContent-Length: ${body.length}\r\nConnection: close\r\n\r\n${body}`,
+    );
+  });
 
   await new Promise<void>((resolveListen, reject) => {
     server.once('error', reject);
