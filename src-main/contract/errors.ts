@@ -29,10 +29,40 @@ export class UsageError extends RankfoldError {
   }
 }
 
+/** Names longer than this many characters are shortened in messages (the full name stays in `details.file`). */
+export const MAX_SHOWN_NAME = 200;
+
+/**
+ * A file name as messages show it: as the user gave it, except that control characters (a newline in a
+ * name would split the one-sentence message) are written as `\n`, `\t` or `\u0007`, and a name longer than
+ * {@link MAX_SHOWN_NAME} characters keeps its first 90 and last 90 characters around an ellipsis with the
+ * count left out, so the folder and the file name stay recognisable.
+ */
+export function displayName(file: string): string {
+  // biome-ignore lint/suspicious/noControlCharactersInRegex: control characters are what is escaped here
+  const shown = String(file).replace(/[\u0000-\u001f\u007f]/g, (c) =>
+    c === '\n'
+      ? '\\n'
+      : c === '\t'
+        ? '\\t'
+        : c === '\r'
+          ? '\\r'
+          : `\\u${c.charCodeAt(0).toString(16).padStart(4, '0')}`,
+  );
+  const chars = Array.from(shown);
+  if (chars.length <= MAX_SHOWN_NAME) return shown;
+  return `${chars.slice(0, 90).join('')}…(${chars.length - 180} characters left out)…${chars.slice(-90).join('')}`;
+}
+
+/** Reports of single-file services may carry warnings: metadata that was dropped or changed, one sentence each. */
+export interface WithWarnings {
+  warnings?: string[];
+}
+
 /** A file that cannot be read, decoded or trusted. The message names the file. */
 export class InputError extends RankfoldError {
   constructor(file: string, problem: string, details: Record<string, unknown> = {}) {
-    super(`${file}: ${problem}`, { file, ...details });
+    super(`${displayName(file)}: ${problem}`, { file, ...details });
     this.name = 'InputError';
   }
 }
@@ -40,7 +70,7 @@ export class InputError extends RankfoldError {
 /** A container (.rkf) that fails validation: truncated, bad CRC, unknown version, bad dimensions. */
 export class FormatError extends RankfoldError {
   constructor(file: string, problem: string, details: Record<string, unknown> = {}) {
-    super(`${file}: ${problem}`, { file, ...details });
+    super(`${displayName(file)}: ${problem}`, { file, ...details });
     this.name = 'FormatError';
   }
 }
@@ -48,7 +78,7 @@ export class FormatError extends RankfoldError {
 /** An output that cannot be written (exists without --force, permission, disk full). */
 export class OutputError extends RankfoldError {
   constructor(file: string, problem: string, details: Record<string, unknown> = {}) {
-    super(`${file}: ${problem}`, { file, ...details });
+    super(`${displayName(file)}: ${problem}`, { file, ...details });
     this.name = 'OutputError';
   }
 }

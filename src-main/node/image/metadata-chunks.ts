@@ -12,7 +12,9 @@
  * - TIFF 6.0 (Adobe 1992): §2 header and IFD structure (entries sorted by tag, word-aligned offsets),
  *   tag 274 Orientation (SHORT). ICC.1:2022 Annex B.4: TIFF tag 34675 InterColorProfile (UNDEFINED).
  */
-import { crc32, deflateSync } from 'node:zlib';
+import { open } from 'node:fs/promises';
+import { crc32, deflateSync, inflateSync } from 'node:zlib';
+import { displayName } from '../../contract';
 
 const PNG_SIGNATURE = Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]);
 
@@ -149,4 +151,117 @@ export function addTiffMetadata(tiff: Buffer, extra: ExtraMetadata): Buffer {
   if (le) out.writeUInt32LE(ifdAt, 4);
   else out.writeUInt32BE(ifdAt, 4);
   return out;
+}
+
+/** The largest resolution Rankfold keeps, in pixels per inch. Its PNG and TIFF writers accept (0, 10^6]. */
+export const MAX_DENSITY = 1_000_000;
+/** The largest ICC profile Rankfold keeps (16 MiB; real profiles are a few kB to a few MB). */
+export const MAX_ICC_BYTES = 16 * 1024 * 1024;
+
+/**
+ * Why an ICC profile cannot be kept, or undefined when it looks sound. Checks the header only (ICC.1:2022
+ * §7.2: profile size at byte 0 equal to the byte count, 'acsp' at byte 36; a header is 128 bytes and a tag
+ * count follows), not the tags.
+ */
+export function iccProblem(icc: Uint8Array): string | undefined {
+  if (icc.length < 132) return `is only ${icc.length} bytes, shorter than an ICC header`;
+  if (icc.length > MAX_ICC_BYTES)
+    return `is ${icc.length} bytes, larger than the ${MAX_ICC_BYTES} Rankfold keeps`;
+  const b = Buffer.from(icc.buffer, icc.byteOffset, icc.byteLength);
+  if (b.toString('latin1', 36, 40) !== 'acsp') return 'lacks the ICC signature "acsp"';
+  const declared = b.readUInt32BE(0);
+  if (declared !== icc.length) return `says it is ${declared} bytes but holds ${icc.length}`;
+  return undefined;
+}
+
+export interface MetadataToKeep {
+  icc?: Uint8Array;
+  density?: number;
+  orientation?: number;
+}
+
+/**
+ * Keep only metadata the .rkf container and the PNG/TIFF writers can hold; everything else is dropped
+ * with a warning naming the file (one sentence each). Used on decode (nothing unwritable enters a
+ * container) and on expand (containers written before this check still expand, without the bad value).
+ */
+export function keepableMetadata(
+  file: string,
+  meta: { icc?: Uint8Array; density?: unknown; orientation?: unknown },
+  stage: 'source' | 'container',
+): { meta: MetadataToKeep; warnings: string[] } {
+  const name = displayName(file);
+  const warnings: string[] = [];
+  const out: MetadataToKeep = {};
+  const whose = stage === 'source' ? 'its' : 'its stored';
+  const dropped =
+    stage === 'source'
+      ? 'it is left out and the pixels are kept'
+      : 'it was left out and the pixels were written';
+  const d = meta.density;
+  if (d !== undefined && d !== null) {
+    if (typeof d === 'number' && Number.isFinite(d) && d > 0 && d <= MAX_DENSITY) out.density = d;
+    else
+      warnings.push(
+        `${name}: ${whose} resolution of ${typeof d === 'number' ? `${formatNumber(d)} pixels per inch` : JSON.stringify(d)} is outside the 0–${MAX_DENSITY} pixels per inch that PNG and TIFF output can hold, so ${dropped}`,
+      );
+  }
+  const o = meta.orientation;
+  if (o !== undefined && o !== null) {
+    if (typeof o === 'number' && Number.isInteger(o) && o >= 1 && o <= 8) out.orientation = o;
+    else
+      warnings.push(
+        `${name}: ${whose} EXIF orientation ${JSON.stringify(o)} is not one of 1–8 (Exif 2.32 tag 0x0112), so it is ignored and ${stage === 'source' ? 'the pixels are used as stored' : 'the pixels were written as stored'}`,
+      );
+  }
+  if (meta.icc) {
+    const problem = iccProblem(meta.icc);
+    if (problem === undefined) out.icc = meta.icc;
+    else warnings.push(`${name}: ${whose} embedded ICC profile ${problem}, so ${dropped}`);
+  }
+  return { meta: out, warnings };
+}
+
+function formatNumber(x: number): string {
+  return Number.isFinite(x) ? String(Math.round(x * 1000) / 1000) : String(x);
+}
+
+/**
+ * The ICC profile of a PNG, read from its iCCP chunk by hand (PNG Third Edition §11.3.2.4: keyword of
+ * 1–79 bytes, a null, compression method 0, zlib data; it must precede IDAT, §5.6). libpng 1.6 (under
+ * sharp) drops a profile whose colour space does not match the image (an RGB profile on a grey PNG);
+ * Rankfold keeps such a profile byte for byte, as it does for TIFF. Returns `undefined` when the PNG
+ * has no iCCP chunk, and `{ problem }` when the chunk cannot be unpacked.
+ */
+export async function readPngIcc(file: string): Promise<{ icc?: Uint8Array; problem?: string } | undefined> {
+  const fh = await open(file, 'r');
+  try {
+    const { size } = await fh.stat();
+    const head = Buffer.alloc(8);
+    let p = 8;
+    for (let guard = 0; guard < 10_000 && p + 8 <= size; guard++) {
+      const { bytesRead } = await fh.read(head, 0, 8, p);
+      if (bytesRead < 8) return undefined;
+      const len = head.readUInt32BE(0);
+      const type = head.toString('latin1', 4, 8);
+      if (type === 'IDAT' || type === 'IEND') return undefined;
+      if (type === 'iCCP') {
+        if (len > MAX_ICC_BYTES || p + 8 + len > size) return { problem: 'is cut short or too large' };
+        const data = Buffer.alloc(len);
+        await fh.read(data, 0, len, p + 8);
+        const nul = data.indexOf(0);
+        if (nul < 1 || nul > 79 || data[nul + 1] !== 0) return { problem: 'has a malformed iCCP chunk' };
+        try {
+          const icc = inflateSync(data.subarray(nul + 2), { maxOutputLength: MAX_ICC_BYTES });
+          return { icc: new Uint8Array(icc) };
+        } catch {
+          return { problem: 'cannot be unpacked (its compressed data is damaged)' };
+        }
+      }
+      p += 12 + len;
+    }
+    return undefined;
+  } finally {
+    await fh.close();
+  }
 }

@@ -22,6 +22,7 @@ import {
   fromErrorPayload,
   RankfoldError,
   UsageError,
+  type WithWarnings,
 } from '../../contract';
 import {
   type CleanInput,
@@ -307,7 +308,7 @@ export async function cleanFile(
   output: string,
   options: Partial<CleanOptions>,
   hooks: CleanHooks = {},
-): Promise<CleanReport> {
+): Promise<CleanReport & WithWarnings> {
   const opts = normaliseCleanOptions(options);
   const outs = [output, opts.removed, opts.profile].filter((f): f is string => Boolean(f));
   for (const f of outs)
@@ -364,7 +365,7 @@ export async function cleanFile(
   report.timings.encodeMs = performance.now() - t1;
   report.timings.totalMs = performance.now() - t0;
   hooks.onProgress?.('encode', 1);
-  return report;
+  return decoded.warnings ? { ...report, warnings: decoded.warnings } : report;
 }
 
 /**

@@ -2,13 +2,24 @@
  * `expand` as a service: read and validate an .rkf container, decode it, check the stored source
  * SHA-256 when the compression was lossless, and write PNG or TIFF (8 or 16 bits) atomically with
  * the ICC profile, DPI and orientation restored. Nothing is written when any check fails.
+ *
+ * Stored metadata that PNG/TIFF output cannot hold (a resolution outside 0–10^6 dpi, an orientation
+ * outside 1–8, a damaged ICC profile; earlier versions could store such values) is left out with a
+ * warning in the report, and the pixels are written: the container's samples are never lost over it.
  */
 import { readFile, stat } from 'node:fs/promises';
 import { performance } from 'node:perf_hooks';
-import { type ExpandOptions, type ExpandReport, FormatError, InputError } from '../../contract';
+import {
+  type ExpandOptions,
+  type ExpandReport,
+  FormatError,
+  InputError,
+  type WithWarnings,
+} from '../../contract';
 import { type DecodedRkf, decodeImageFile, MAX_PIXELS } from '../../engine/codec/image-file';
-import { hashSamples } from '../image/decode';
+import { describeFileError, hashSamples } from '../image/decode';
 import { encodeImage, formatFromPath } from '../image/encode';
+import { keepableMetadata } from '../image/metadata-chunks';
 import { assertWritable } from '../io/atomic';
 import { COMPRESSORS } from './compress';
 
@@ -27,15 +38,16 @@ export async function readRkf(
     size = st.size;
   } catch (err) {
     if (err instanceof InputError) throw err;
-    const code = (err as NodeJS.ErrnoException).code;
-    throw new InputError(
-      input,
-      code === 'ENOENT' ? 'no such file' : `cannot be read (${code ?? String(err)})`,
-    );
+    throw describeFileError(input, err);
   }
   if (size > MAX_FILE)
     throw new FormatError(input, `is ${size} bytes, larger than any valid .rkf file this Rankfold reads`);
-  const bytes = new Uint8Array(await readFile(input));
+  let bytes: Uint8Array;
+  try {
+    bytes = new Uint8Array(await readFile(input));
+  } catch (err) {
+    throw describeFileError(input, err);
+  }
   const decoded = decodeImageFile(bytes, input, {
     compressors: COMPRESSORS,
     maxPixels: opts.pixelLimit ?? MAX_PIXELS,
@@ -52,7 +64,7 @@ export async function expandFile(
   input: string,
   output: string,
   opts: ExpandOptions = {},
-): Promise<ExpandReport> {
+): Promise<ExpandReport & WithWarnings> {
   const format = formatFromPath(output);
   await assertWritable(output, opts.force);
   const t1 = performance.now();
@@ -77,7 +89,12 @@ export async function expandFile(
       );
     hashChecked = true;
   }
-  const meta = { icc: decoded.icc, density: h.metadata.density, orientation: h.metadata.orientation };
+  const kept = keepableMetadata(
+    input,
+    { icc: decoded.icc, density: h.metadata.density, orientation: h.metadata.orientation },
+    'container',
+  );
+  const meta = kept.meta;
   const written = await encodeImage(
     output,
     {
@@ -105,7 +122,8 @@ export async function expandFile(
     alphaChecked: h.alphaSha256 !== undefined,
     sourceSha256: h.sourceSha256,
     lossless: h.lossless,
-    metadata: { icc: Boolean(decoded.icc), density: h.metadata.density, orientation: h.metadata.orientation },
+    metadata: { icc: Boolean(meta.icc), density: meta.density, orientation: meta.orientation },
     timings: { decodeMs: Math.round((t2 - t1) * 10) / 10, writeMs: Math.round((t3 - t2) * 10) / 10 },
+    ...(kept.warnings.length > 0 ? { warnings: kept.warnings } : {}),
   };
 }

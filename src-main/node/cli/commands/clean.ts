@@ -175,6 +175,7 @@ export const command: Command = {
       },
     );
     if (io.isTTY && !v.json) io.stderr('\r                \r');
+    for (const w of report.warnings ?? []) io.stderr(`warning: ${w}\n`);
     if (v.json) {
       io.stdout(`${JSON.stringify({ ...report, caution: CLEANING_CAUTION })}\n`);
       io.stderr(`${CLEANING_CAUTION}\n`);
