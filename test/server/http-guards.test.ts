@@ -6,72 +6,37 @@
  */
 
 import { copyFileSync, mkdtempSync } from 'node:fs';
-import { request } from 'node:http';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { Backend } from '../../src-main/node/server/backend';
 import {
   checkHostAndOrigin,
+  checkRequestShape,
   type RunningServer,
-  startServer,
   tokenMatches,
+  uploadName,
 } from '../../src-main/node/server/http';
-import { image, repoRoot } from '../helpers/fixtures';
+import { image } from '../helpers/fixtures';
+import { call as callOn, hit as hitOn, rawHttp, startTestServer, type TestServer } from './harness';
 
 let srv: RunningServer;
-let backend: Backend;
+let server: TestServer;
 const samples = mkdtempSync(join(tmpdir(), 'rankfold-srv-samples-'));
 copyFileSync(image('text.png'), join(samples, 'text.png'));
 const outside = mkdtempSync(join(tmpdir(), 'rankfold-srv-outside-'));
 copyFileSync(image('page.png'), join(outside, 'page.png'));
 
 beforeAll(async () => {
-  backend = new Backend({ workersDir: join(repoRoot, 'dist', 'workers'), samplesDir: samples });
-  srv = await startServer({ staticDir: join(repoRoot, 'dist', 'renderer'), backend });
+  server = await startTestServer({ samplesDir: samples });
+  srv = server.srv;
 });
 afterAll(async () => {
-  await srv?.close();
-  await backend?.close();
+  await server?.close();
 });
 
-function hit(path: string, opts: { method?: string; headers?: Record<string, string>; body?: string } = {}) {
-  return new Promise<{
-    status: number;
-    headers: Record<string, string | string[] | undefined>;
-    body: string;
-  }>((resolve, reject) => {
-    const req = request(
-      {
-        host: '127.0.0.1',
-        port: srv.port,
-        path,
-        method: opts.method ?? 'GET',
-        headers: { Host: `127.0.0.1:${srv.port}`, ...opts.headers },
-      },
-      (res) => {
-        let body = '';
-        res.on('data', (d) => {
-          body += d;
-        });
-        res.on('end', () => resolve({ status: res.statusCode ?? 0, headers: res.headers, body }));
-      },
-    );
-    req.on('error', reject);
-    req.end(opts.body);
-  });
-}
+const hit = (path: string, opts: Parameters<typeof hitOn>[2] = {}) => hitOn(srv, path, opts);
 const call = (method: string, payload: unknown, headers: Record<string, string> = {}) =>
-  hit(`/api/call/${method}`, {
-    method: 'POST',
-    headers: {
-      'Content-Type': 'application/json',
-      'X-Rankfold-Token': srv.token,
-      Origin: `http://127.0.0.1:${srv.port}`,
-      ...headers,
-    },
-    body: JSON.stringify(payload),
-  });
+  callOn(srv, method, payload, headers);
 
 describe('token', () => {
   it('the URL carries a long random token and listens on 127.0.0.1 only', () => {
@@ -134,6 +99,56 @@ describe('Host and Origin', () => {
       /not this page/,
     );
     expect(checkHostAndOrigin({}, 8080)).toMatch(/Host ""/);
+  });
+});
+
+describe('malformed requests get 400 (RFC 9112 §3.2)', () => {
+  // RFC 9112 §3.2: "A server MUST respond with a 400 (Bad Request) status code to any HTTP/1.1 request
+  // message that lacks a Host header field and to any request message that contains more than one Host
+  // header field line or a Host header field with an invalid field value."
+  it('two Host lines, even both ours, get 400 (Node keeps only the first in req.headers)', async () => {
+    const host = `Host: 127.0.0.1:${srv.port}`;
+    const r = await rawHttp(srv.port, `GET / HTTP/1.1\r\n${host}\r\n${host}`);
+    expect(r.status).toBe(400);
+    expect(JSON.parse(r.body).error.message).toBe(
+      'Refused: the request has 2 Host headers; send exactly one',
+    );
+  });
+  it('no Host gets 400, in HTTP/1.0 too', async () => {
+    expect((await rawHttp(srv.port, 'GET / HTTP/1.1')).status).toBe(400);
+    const r = await rawHttp(srv.port, 'GET / HTTP/1.0');
+    expect(r.status).toBe(400);
+    expect(JSON.parse(r.body).error.message).toBe('Refused: the request has no Host header');
+  });
+  it('pure check of the Host lines and the request target', () => {
+    const h = ['Host', '127.0.0.1:8080'];
+    expect(checkRequestShape(h, '/')).toBeUndefined();
+    expect(checkRequestShape(h, 'http://127.0.0.1:8080/x')).toBeUndefined();
+    expect(checkRequestShape([...h, 'HOST', 'localhost:8080'], '/')).toMatch(/2 Host headers/);
+    expect(checkRequestShape([], '/')).toMatch(/no Host/);
+    expect(checkRequestShape(['Host', 'a b'], '/')).toMatch(/not a valid host/);
+    expect(checkRequestShape(h, '*')).toMatch(/must be a path/);
+  });
+});
+
+describe('upload names', () => {
+  it('an upload named .. gets 400 with a clear message, not 500', async () => {
+    const r = await hit('/api/upload?name=..', {
+      method: 'POST',
+      headers: { 'X-Rankfold-Token': srv.token },
+      body: 'x',
+    });
+    expect(r.status).toBe(400);
+    expect(JSON.parse(r.body).error.message).toBe('Upload name ".." is not a file name');
+  });
+  it('pure check: strict decoding and a plain file name', () => {
+    expect(uploadName('?name=scan%20one.png')).toBe('scan one.png');
+    expect(uploadName('?name=scan+one.png')).toBe('scan one.png');
+    expect(uploadName('?name=%E6%9D%B1.tif')).toBe('東.tif');
+    expect(() => uploadName('?name=%2e%2e')).toThrow('Upload name ".." is not a file name');
+    expect(() => uploadName('?name=%FF.png')).toThrow('Upload name is not valid percent-encoded UTF-8');
+    expect(() => uploadName('?name=a.png&name=b.png')).toThrow('Upload takes one ?name=, not several');
+    expect(() => uploadName('')).toThrow('Upload needs ?name= with the file name');
   });
 });
 
