@@ -32,8 +32,8 @@ describe('container', () => {
 
   it('round-trips chunks and gives random access through the index', () => {
     const v = readContainer(file(), 'x.rkf');
-    expect(v.version).toEqual({ major: 1, minor: 0 });
-    expect(v.entries.map((e) => `${e.type}#${e.id}`)).toEqual(['HEAD#0', 'PLNE#0', 'PLNE#1']);
+    expect(v.version).toEqual({ major: 1, minor: 1 });
+    expect(v.entries.map((e) => `${e.type}#${e.id}`)).toEqual(['HEAD#0', 'PLNE#0', 'PLNE#1', 'fchk#0']);
     expect(Array.from(v.payload(v.find('PLNE', 0)))).toEqual([1, 2, 3, 4, 5]);
     expect(v.payload(v.find('PLNE', 1)).length).toBe(0);
   });
@@ -52,28 +52,44 @@ describe('container', () => {
     }
   });
 
-  it('detects any single flipped bit in a chunk (CRC-32) or the preamble', () => {
+  it('detects any single flipped bit anywhere, the version field included', () => {
     const b = file();
     let caught = 0;
-    for (let i = 0; i < b.length; i++) {
-      if (i === 10 || i === 11) continue; // the minor version may change without breaking readers (docs/format.md)
-      const c = b.slice();
-      c[i] ^= 0x10;
-      try {
-        readContainer(c, 'bad.rkf');
-      } catch (e) {
-        expect(e).toBeInstanceOf(FormatError);
-        caught++;
+    for (let i = 0; i < b.length; i++)
+      for (let bit = 0; bit < 8; bit++) {
+        const c = b.slice();
+        c[i] ^= 1 << bit;
+        try {
+          readContainer(c, 'bad.rkf');
+        } catch (e) {
+          expect(e).toBeInstanceOf(FormatError);
+          caught++;
+        }
       }
-    }
-    // Every other byte is covered by the magic, the major version, a chunk CRC or the trailer CRC.
-    expect(caught).toBe(b.length - 2);
+    // The magic, the version (copied into the file check chunk fchk), the chunk and index CRCs and the trailer CRC.
+    expect(caught).toBe(b.length * 8);
   });
 
-  it('names the unknown version', () => {
+  it('names the unknown version, and a damaged one', () => {
     const b = file();
     b[9] = 7;
-    expect(() => readContainer(b, 'v.rkf')).toThrow(/container version 7\.0/);
+    expect(() => readContainer(b, 'v.rkf')).toThrow(
+      /v\.rkf: is damaged: it declares container version 7\.1, but it was written as version 1\.1$/,
+    );
+    // A file of another major version without a file check recording version 1 (a newer format).
+    const newer = file().slice(0, 12);
+    newer[9] = 2;
+    expect(() => readContainer(newer, 'n.rkf')).toThrow(
+      /container version 2\.1, which this Rankfold does not read/,
+    );
+  });
+
+  it('rewrites the file check when a file is written again from its chunks', () => {
+    const v = readContainer(file(), 'x.rkf');
+    const again = writeContainer(
+      v.entries.map((e, k) => ({ type: e.type, id: e.id, payload: v.payload(k) })),
+    );
+    expect(Buffer.from(again).equals(Buffer.from(file()))).toBe(true);
   });
 
   it('says when a file is not a container', () => {

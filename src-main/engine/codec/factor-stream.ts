@@ -194,9 +194,7 @@ export function decodePlaneRc(
     mean: () => decodeInt(dec, m.mean, 0, 0),
     mode: (side) => dec.decodeBit(m.mode[side]) === 1,
     entry: (cls, ps) => decodeInt(dec, m.entry, cls, ps),
-    end: () => {
-      if (dec.overrun > 5) throw new RangeError('the factor stream ends early (truncated or corrupt)');
-    },
+    end: () => dec.checkEnd('the factor stream'),
   });
 }
 

@@ -6,7 +6,13 @@
 import { FormatError } from '../../contract/errors';
 import { chromaOffset, toSamples, ycbcrToRgb } from '../lowrank/colour';
 import { decodeLosslessPlane } from './alpha';
-import { type Chunk, type ContainerView, readContainer, writeContainer } from './container';
+import {
+  type Chunk,
+  type ContainerView,
+  readContainer,
+  refuseUnknownCritical,
+  writeContainer,
+} from './container';
 import { type ByteCompressor, decodePlane, type EntropyId, encodePlane } from './entropy';
 import { DEAD_ZONE, reconstructPlane } from './quantise';
 import type { QuantPlane } from './quantised';
@@ -108,7 +114,8 @@ export function writeImageFile(parts: ImageFileParts): Uint8Array {
   return writeContainer(chunks);
 }
 
-const KNOWN = new Set(['HEAD', 'PLNE', 'ALPH', 'ICCP', 'INDX']);
+/** Chunk types of the image layout (the container's own INDX and fchk aside). */
+const KNOWN = new Set(['HEAD', 'PLNE', 'ALPH', 'ICCP']);
 
 export interface ReadOptions {
   compressors?: ByteCompressor[];
@@ -133,15 +140,11 @@ export function readImageHeader(
   }
   if (typeof header !== 'object' || header === null || header.format !== 'rankfold')
     fail('has a header that is not a Rankfold header');
-  for (const e of view.entries)
-    if (!KNOWN.has(e.type) && e.type[0] >= 'A' && e.type[0] <= 'Z')
-      fail(
-        `contains a critical chunk type "${e.type}" that this Rankfold does not know; use a newer Rankfold`,
-      );
   if (header.layout !== 'image')
     fail(
       `has layout "${String(header.layout)}", which \`expand\` reads only with --frame or the stack reader (this reader handles "image")`,
     );
+  refuseUnknownCritical(view, KNOWN, file, 'image');
   const { width, height } = header;
   const int = (v: unknown, lo: number, hi: number) =>
     Number.isInteger(v) && (v as number) >= lo && (v as number) <= hi;
@@ -179,9 +182,18 @@ export function readImageHeader(
     if (view.find('PLNE', k) < 0)
       fail(`is truncated or damaged: the data of plane ${k} (PLNE #${k}) is missing`);
   });
-  if (view.entries.filter((e) => e.type === 'PLNE').length !== wantPlanes)
-    fail('is inconsistent: unexpected extra plane chunks');
-  if (hasAlpha && view.find('ALPH') < 0) fail('is truncated or damaged: the alpha plane (ALPH) is missing');
+  // Exactly the chunks the header calls for: one PLNE per plane, ALPH iff alpha, at most one ICCP.
+  const count = (type: string) => view.entries.filter((e) => e.type === type).length;
+  if (count('PLNE') !== wantPlanes) fail('is inconsistent: unexpected extra plane chunks');
+  if (hasAlpha && view.find('ALPH', 0) < 0)
+    fail('is truncated or damaged: the alpha plane (ALPH) is missing');
+  if (count('ALPH') !== (hasAlpha ? 1 : 0)) fail('is inconsistent: unexpected alpha plane chunks (ALPH)');
+  if (count('HEAD') !== 1 || count('ICCP') > 1 || (count('ICCP') === 1 && view.find('ICCP', 0) < 0))
+    fail('is inconsistent: a header or ICC profile chunk is repeated or misnumbered');
+  if (typeof header.metadata !== 'object' || header.metadata === null)
+    fail('is damaged: its header has no metadata record');
+  if (header.metadata.icc === true && count('ICCP') === 0)
+    fail('is truncated or damaged: its header records an ICC profile, but the ICCP chunk is missing');
   if (typeof header.sourceSha256 !== 'string' || !/^[0-9a-f]{64}$/.test(header.sourceSha256))
     fail('has no valid source SHA-256');
   if (

@@ -134,6 +134,20 @@ export class RangeDecoder {
     this.overrun++;
     return 0;
   }
+  /**
+   * Check that the stream was read exactly to its end. The decoder reads 5 bytes, then one per
+   * renormalisation; the encoder writes one byte per renormalisation plus 5 at `finish` (the first being the
+   * initial cache byte), so a decoder that took the encoder's path reads every byte and none past the end
+   * (derived from the coder above). Anything else means a damaged stream or a header that does not match it.
+   * @throws RangeError naming `what`
+   */
+  checkEnd(what: string): void {
+    if (this.overrun > 0) throw new RangeError(`${what} ends early (truncated or corrupt)`);
+    if (this.pos !== this.data.length)
+      throw new RangeError(
+        `${what} has ${this.data.length - this.pos} unused bytes at its end (damaged, or the header does not match it)`,
+      );
+  }
   decodeBit(m: BitModel): number {
     const bound = (this.range >>> PROB_BITS) * m.p();
     let bit: number;

@@ -29,7 +29,7 @@ import { FormatError } from '../../contract/errors';
 import { chromaOffset, rgbToYcbcr, toSamples, ycbcrToRgb } from '../lowrank/colour';
 import { ssim } from '../metrics';
 import { eigenFrameOf, type FrameModeSvd, frameModeSvd, rebuildFrame } from '../stack/frame-svd';
-import { type Chunk, readContainer, writeContainer } from './container';
+import { type Chunk, isCritical, readContainer, refuseUnknownCritical, writeContainer } from './container';
 import { decodePlane, encodePlane } from './stack-plane';
 
 export const STACK_LAYOUT = 'stack';
@@ -458,11 +458,16 @@ export function isStackContainer(bytes: Uint8Array, file = 'input'): boolean {
   }
 }
 
+/** Chunk types of the stack layout (the container's own INDX and fchk aside). */
+const STACK_CHUNKS = new Set(['HEAD', 'SHSH', 'SQAL', 'SMEA', 'SBAS', 'SCOF', 'SRES']);
+
 /** Random-access reader of a stack container. Verifies the CRC of each chunk it uses, on first use. */
 export interface StackReader {
   header: StackHeader;
   /** Decode frame j (0-based): one plane per source channel, rounded and clamped. */
   frame(j: number): Float32Array[];
+  /** Check every chunk's CRC-32 now (a whole-file expand does this before writing anything). */
+  verify(): void;
   /** Chunks the reader has verified and decoded so far (for tests of random access). */
   readonly touched: ReadonlySet<string>;
 }
@@ -549,6 +554,26 @@ export function openStack(bytes: Uint8Array, file: string): StackReader {
   });
   if (!(header.step > 0 && Number.isFinite(header.step)))
     fail('is damaged: the quantiser step is not a positive number');
+  refuseUnknownCritical(view, STACK_CHUNKS, file, 'stack');
+  // Exactly the chunks the header calls for, each once: no stray eigen-frame or residual is ignored.
+  const wanted = new Set(['HEAD#0', 'SHSH#0', 'SQAL#0']);
+  for (let c = 0; c < coded; c++) {
+    wanted.add(`SMEA#${c}`).add(`SCOF#${c}`);
+    for (let i = 0; i < header.ranks[c]; i++) wanted.add(`SBAS#${chunkId(c, i)}`);
+    for (let j = 0; j < frameCount; j++)
+      if (header.residualMask[c][j] === '1') wanted.add(`SRES#${chunkId(c, j)}`);
+  }
+  const seen = new Set<string>();
+  for (const e of view.entries) {
+    if (!isCritical(e.type)) continue;
+    const key = `${e.type}#${e.id}`;
+    if (!wanted.has(key) || seen.has(key))
+      fail(`is damaged: chunk ${e.type} #${e.id} is not one its header calls for, or is repeated`);
+    seen.add(key);
+  }
+  for (const key of wanted)
+    if (key !== 'SQAL#0' && !seen.has(key))
+      fail(`is truncated or damaged: chunk ${key.replace('#', ' #')} is missing`);
   const n = width * height;
   const touched = new Set<string>();
   const chunk = (type: string, id: number): Uint8Array => {
@@ -585,6 +610,9 @@ export function openStack(bytes: Uint8Array, file: string): StackReader {
   return {
     header: full,
     touched,
+    verify() {
+      for (let k = 0; k < view.entries.length; k++) view.payload(k);
+    },
     frame(j: number) {
       if (!Number.isInteger(j) || j < 0 || j >= frameCount)
         throw new FormatError(

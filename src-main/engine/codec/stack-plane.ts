@@ -424,7 +424,8 @@ export function encodePlane(
 
 /**
  * Rebuild a plane coded by {@link encodePlane}.
- * @throws RangeError if the bytes run out (the caller turns this into a FormatError naming the file).
+ * @throws RangeError if the bytes run out or are not all used (the caller turns this into a FormatError
+ * naming the file).
  */
 export function decodePlane(bytes: Uint8Array, width: number, height: number, step: number): Float64Array {
   const n = width * height;
@@ -437,15 +438,18 @@ export function decodePlane(bytes: Uint8Array, width: number, height: number, st
   const zm = models(ZERO_CTX);
   const mm = new IntModel(MAG_CTX);
   const sm = models(SIGN_CTX);
-  if (dec.decodeDirect() === 0) return new Float64Array(n);
+  if (dec.decodeDirect() === 0) {
+    dec.checkEnd('plane data');
+    return new Float64Array(n);
+  }
   walk(q, width, bands, (idx, zctx, mctx, sctx) => {
     if (dec.decodeBit(zm[zctx]) === 0) return;
     const neg = dec.decodeBit(sm[sctx]);
     const a = decodeMagnitude(dec, mm, mctx) + 1;
     q[idx] = neg ? -a : a;
   });
-  // The coder's 5-byte flush: reading further means the plane's bytes ran out.
-  if (dec.overrun > 5) throw new RangeError('plane data is truncated');
+  // Exactly to the end of the coder's flush: fewer or more bytes mean damage or a header that does not fit.
+  dec.checkEnd('plane data');
   return dequantise(q, width, height, levels, steps, map);
 }
 

@@ -11,6 +11,7 @@ import sharp, { type SharpOptions } from 'sharp';
 import {
   type Budget,
   type DecodedImage,
+  FormatError,
   InputError,
   OutputError,
   type StackCompressOptions,
@@ -19,6 +20,7 @@ import {
   type StackSpectrum,
   UsageError,
 } from '../../contract';
+import { readImageHeader } from '../../engine/codec/image-file';
 import { fitStack, type StackFit, type StackTarget, StackTargetError } from '../../engine/codec/stack-budget';
 import {
   decodeStackFrame as decodeFrameBytes,
@@ -383,7 +385,8 @@ async function readStackFile(file: string) {
 /**
  * `expand` of a stack file: one frame (`frame`), or every frame into a folder of numbered PNG files
  * (or TIFF when the folder name is given with --format tiff), or into one multi-page TIFF when
- * `output` ends in .tif/.tiff. Nothing is written if the file fails validation.
+ * `output` ends in .tif/.tiff. The input is validated before the output is looked at (a damaged file is
+ * reported as such, whatever the output name), and nothing is written if it fails.
  */
 export async function expandStackFile(
   file: string,
@@ -407,6 +410,7 @@ export async function expandStackFile(
     sourceSha256: h.frameTable[j].sourceSha256,
   });
   if (options.frame !== undefined) {
+    // Random access: only the chunks of this frame are read and checked.
     const planes = reader.frame(options.frame);
     const format = formatFromPath(output);
     await encodeImage(
@@ -420,8 +424,14 @@ export async function expandStackFile(
     return { ...base, frames: [options.frame], outputs: [output], format, sources: [source(options.frame)] };
   }
   const all = Array.from({ length: h.frameCount }, (_, j) => j);
+  // Every chunk's CRC is checked before any output name is looked at, and every frame decodes before
+  // anything is written.
+  reader.verify();
+  if (ext === '.png' || ext === '.jpg' || ext === '.jpeg' || ext === '.webp')
+    throw new UsageError(
+      `expand: ${output} is a single image file, but ${file} holds ${h.frameCount} frames; give --frame I, a folder, or a .tif for one multi-page TIFF`,
+    );
   if (isTiff) {
-    await assertWritable(output, options.force);
     const n = h.width * h.height;
     const ch = h.channels;
     const samples =
@@ -431,6 +441,7 @@ export async function expandStackFile(
       const o = j * n * ch;
       for (let p = 0; p < n; p++) for (let c = 0; c < ch; c++) samples[o + p * ch + c] = planes[c][p];
     }
+    await assertWritable(output, options.force);
     const space = ch === 1 ? (h.bitDepth === 16 ? 'grey16' : 'b-w') : h.bitDepth === 16 ? 'rgb16' : 'srgb';
     let tiff: Buffer;
     try {
@@ -447,15 +458,11 @@ export async function expandStackFile(
     await writeFileAtomic(output, tiff, { force: options.force });
     return { ...base, frames: all, outputs: [output], format: 'tiff', sources: all.map(source) };
   }
-  if (ext === '.png' || ext === '.jpg' || ext === '.jpeg' || ext === '.webp')
-    throw new UsageError(
-      `expand: ${output} is a single image file, but ${file} holds ${h.frameCount} frames; give --frame I, a folder, or a .tif for one multi-page TIFF`,
-    );
-  // A folder of numbered PNG files. Decode everything first so a damaged chunk writes nothing.
+  // A folder of numbered PNG files, written only once every frame has decoded.
+  const decoded = all.map((j) => reader.frame(j));
   const digits = Math.max(3, String(h.frameCount).length);
   const outputs = all.map((j) => join(output, `frame-${String(j + 1).padStart(digits, '0')}.png`));
   for (const o of outputs) await assertWritable(o, options.force);
-  const decoded = all.map((j) => reader.frame(j));
   for (const j of all)
     await encodeImage(
       outputs[j],
@@ -466,6 +473,27 @@ export async function expandStackFile(
       },
     );
   return { ...base, frames: all, outputs, format: 'png', sources: all.map(source) };
+}
+
+/**
+ * The damage of a .rkf file of either layout, if it has any that reading its structure finds (every chunk's
+ * CRC-32, the version, the header, the chunk set), else undefined. `expand` asks when it is about to refuse
+ * the output, so that a damaged input is reported as such rather than as an output problem.
+ */
+export async function containerDamage(file: string): Promise<FormatError | undefined> {
+  let bytes: Uint8Array;
+  try {
+    bytes = new Uint8Array(await readFile(file));
+  } catch {
+    return undefined;
+  }
+  try {
+    if (isStackContainer(bytes, file)) openStack(bytes, file).verify();
+    else readImageHeader(bytes, file);
+  } catch (err) {
+    if (err instanceof FormatError) return err;
+  }
+  return undefined;
 }
 
 /**

@@ -1,6 +1,7 @@
 /** `rankfold expand IN.rkf -o OUT.png|OUT.tif`: decode a container back to PNG or TIFF. */
-import { type ExpandReport, UsageError } from '../../../contract';
+import { type ExpandReport, OutputError, UsageError } from '../../../contract';
 import { expandFile } from '../../services/expand';
+import { containerDamage } from '../../services/stack';
 import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
 
 const options = {
@@ -65,11 +66,19 @@ export const command: Command = {
       throw new UsageError(
         `expand: expected a positive integer for --pixel-limit but received ${JSON.stringify(v['pixel-limit'])}`,
       );
-    const report = await expandFile(input, output, {
-      force: Boolean(v.force),
-      pixelLimit,
-      orientation: v.upright ? 'upright' : 'restore',
-    });
+    let report: ExpandReport;
+    try {
+      report = await expandFile(input, output, {
+        force: Boolean(v.force),
+        pixelLimit,
+        orientation: v.upright ? 'upright' : 'restore',
+      });
+    } catch (err) {
+      // The output is checked before the input is read; a damaged input is the more useful report.
+      if (err instanceof UsageError || err instanceof OutputError)
+        throw (await containerDamage(input)) ?? err;
+      throw err;
+    }
     if (v.json)
       io.stdout(`${JSON.stringify({ ...report, caution: report.lossless ? undefined : LOSSY_CAUTION })}\n`);
     else io.stdout(formatReport(report) + (report.lossless ? '' : `${LOSSY_CAUTION}\n`));
