@@ -3,79 +3,33 @@
 // per-file errors, atomic outputs (no temp files left), resume after SIGKILL gives the same outputs,
 // 1 job and 2 jobs give byte-identical files, shards + merge cover every file once.
 import { type ChildProcess, spawn, spawnSync } from 'node:child_process';
-import { createHash } from 'node:crypto';
 import { existsSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
 import { mkdir, mkdtemp, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
-import { join, relative } from 'node:path';
+import { join } from 'node:path';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { BatchRow } from '../../src-main/contract';
-import { repoRoot } from '../helpers/fixtures';
+import {
+  BUDGET,
+  built,
+  cli,
+  filesUnder,
+  goodSet,
+  hashTree,
+  isRoot,
+  jsonLines,
+  manifestRows,
+  rkfOnly,
+  runBatchCli,
+} from './cli-harness';
 import { floatTiff, put, writePage, writePage16 } from './images';
 
-const cli = join(repoRoot, 'bin', 'rankfold.mjs');
-const built =
-  existsSync(join(repoRoot, 'dist', 'cli.js')) && existsSync(join(repoRoot, 'dist', 'workers', 'batch.js'));
-const isRoot = process.getuid?.() === 0;
-// Small, fast settings: 32-pixel tiles at a fixed rank.
-const BUDGET = ['--rank', '6', '--tile', '32'];
-
 let root: string;
-
-function run(args: string[]) {
-  const r = spawnSync(process.execPath, [cli, 'batch', ...args], {
-    encoding: 'utf8',
-    env: { ...process.env, FORCE_COLOR: '0' },
-  });
-  return { code: r.status, stdout: r.stdout, stderr: r.stderr, signal: r.signal };
-}
-
-function jsonLines(stdout: string): Record<string, unknown>[] {
-  return stdout
-    .split('\n')
-    .filter((l) => l.trim())
-    .map((l) => JSON.parse(l));
-}
-
-function filesUnder(dir: string): string[] {
-  const out: string[] = [];
-  const visit = (d: string) => {
-    for (const e of readdirSync(d, { withFileTypes: true })) {
-      const p = join(d, e.name);
-      if (e.isDirectory()) visit(p);
-      else out.push(relative(dir, p).split('\\').join('/'));
-    }
-  };
-  if (existsSync(dir)) visit(dir);
-  return out.sort();
-}
-
-function hashTree(dir: string, filter: (rel: string) => boolean = () => true): Record<string, string> {
-  const out: Record<string, string> = {};
-  for (const f of filesUnder(dir).filter(filter))
-    out[f] = createHash('sha256')
-      .update(readFileSync(join(dir, f)))
-      .digest('hex');
-  return out;
-}
+const run = (args: string[]) => runBatchCli(args);
 
 const near = (x: unknown, y: unknown, tol: number) =>
   x !== undefined && (String(x) === String(y) || Math.abs(Number(x) - Number(y)) <= tol);
-
-const rkfOnly = (f: string) => f.endsWith('.rkf') && !f.split('/').pop()!.startsWith('.');
-
-function manifestRows(file: string): BatchRow[] {
-  return readFileSync(file, 'utf8')
-    .split('\n')
-    .filter((l) => l.trim())
-    .map((l) => JSON.parse(l));
-}
-
-async function goodSet(dir: string, count: number, w = 96, h = 64) {
-  for (let i = 0; i < count; i++)
-    await writePage(join(dir, `box-${i % 3}`, `page-${String(i).padStart(2, '0')}.png`), w, h, i + 1);
-}
 
 beforeAll(async () => {
   root = await mkdtemp(join(tmpdir(), 'rankfold-batch-e2e-'));
@@ -380,6 +334,82 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     expect(existsSync(join(root, 'merged', 'rankfold-manifest.html'))).toBe(true);
     // Sharded outputs equal the unsharded run's.
     expect(hashTree(out, rkfOnly)).toEqual(hashTree(join(root, 'jobs1'), rkfOnly));
+  });
+
+  it('a second run into the same output folder is refused while the first runs (exit 1, names the folder and the other run); shards run side by side', async () => {
+    const inDir = join(root, 'lock-in');
+    await goodSet(inDir, 6, 128, 96);
+    const out = join(root, 'lock-out');
+    const first = spawn(
+      process.execPath,
+      [cli, 'batch', inDir, '-o', out, ...BUDGET, '--jobs', '1', '--json'],
+      {
+        stdio: ['ignore', 'pipe', 'pipe'],
+      },
+    );
+    const firstEnd = new Promise<number | null>((resolve) => first.on('exit', (code) => resolve(code)));
+    // The lock is taken before the start event; wait for that event, not for a time.
+    await new Promise<void>((resolve) => {
+      let text = '';
+      first.stdout!.on('data', (d: Buffer) => {
+        text += d;
+        if (text.includes('"event":"start"')) resolve();
+      });
+    });
+    // Hold the first run still (SIGSTOP to the process named in the lock), so the second surely meets it.
+    const holder = JSON.parse(readFileSync(join(out, 'rankfold-manifest.jsonl.lock'), 'utf8')).pid as number;
+    process.kill(holder, 'SIGSTOP');
+    let second: ReturnType<typeof run>;
+    try {
+      second = run([inDir, '-o', out, ...BUDGET, '--jobs', '1', '--resume']);
+    } finally {
+      process.kill(holder, 'SIGCONT');
+    }
+    expect(await firstEnd).toBe(0);
+    expect(second.code).toBe(1);
+    expect(second.stderr).toMatch(
+      new RegExp(
+        `output folder ${out.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')} is in use by another rankfold batch \\(pid \\d+ on host .+, started \\d{4}-\\d\\d-\\d\\dT.+\\), which holds .*rankfold-manifest\\.jsonl\\.lock; wait for it to end, or choose another -o`,
+      ),
+    );
+    // Shards have their own manifests (docs/scale.md), so two at once may share a folder.
+    const shared = join(root, 'lock-shards');
+    const shardRun = (i: number) =>
+      new Promise<number | null>((resolve) =>
+        spawn(
+          process.execPath,
+          [cli, 'batch', inDir, '-o', shared, ...BUDGET, '--jobs', '1', '--shard', `${i}/2`],
+          {
+            stdio: 'ignore',
+          },
+        ).on('exit', (code) => resolve(code)),
+      );
+    expect(await Promise.all([shardRun(0), shardRun(1)])).toEqual([0, 0]);
+    expect(filesUnder(shared).filter(rkfOnly)).toHaveLength(6);
+    // The first run's manifest agrees with the folder: one row per input, each output there.
+    const rows = manifestRows(join(out, 'rankfold-manifest.jsonl'));
+    expect(rows.map((r) => r.status)).toEqual(Array(6).fill('ok'));
+    for (const r of rows) expect(existsSync(r.outputAbs)).toBe(true);
+    expect(filesUnder(out).filter((f) => f.endsWith('.lock'))).toEqual([]);
+  });
+
+  it('a lock left by a dead run on this host is taken over, with a note, and the run succeeds', async () => {
+    const inDir = join(root, 'stale-in');
+    await goodSet(inDir, 2);
+    const out = join(root, 'stale-out');
+    await mkdir(out, { recursive: true });
+    const dead = spawnSync(process.execPath, ['-e', '0']).pid; // has exited, so its pid names no process
+    const { hostname } = await import('node:os');
+    await writeFile(
+      join(out, 'rankfold-manifest.jsonl.lock'),
+      JSON.stringify({ pid: dead, host: hostname(), started: '2026-01-02T03:04:05.000Z', nonce: 'old' }),
+    );
+    const r = run([inDir, '-o', out, ...BUDGET]);
+    expect(r.code, r.stderr).toBe(0);
+    expect(r.stderr).toContain(
+      `note: took over the lock ${join(out, 'rankfold-manifest.jsonl.lock')} of a batch that is no longer running (pid ${dead} on host ${hostname()}, started 2026-01-02T03:04:05.000Z)`,
+    );
+    expect(existsSync(join(out, 'rankfold-manifest.jsonl.lock'))).toBe(false);
   });
 
   it('an output folder that cannot be written fails every file with a clear error (path under a file)', async () => {
