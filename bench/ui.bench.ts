@@ -6,15 +6,17 @@
  * - one rank step of the slider at 2000×1500 (target ≤ 16 ms), against a repaint with no rank change.
  * Writes `${RANKFOLD_BENCH_OUT ?? 'docs/bench'}/50-ui.md`.
  *
- * Usage: `npm run bench ui` (needs /usr/bin/chromium or CHROMIUM_PATH; RANKFOLD_BENCH_STEPS sets the steps).
+ * Usage: `npm run bench ui` (the e2e tests' Chromium: CHROMIUM_PATH, else /usr/bin/chromium, else the packaged
+ * build; RANKFOLD_BENCH_STEPS sets the steps).
  */
 import { spawn } from 'node:child_process';
 import { mkdirSync, mkdtempSync, writeFileSync } from 'node:fs';
 import { cpus, loadavg, tmpdir } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { chromium, type Page } from 'playwright-core';
+import type { Page } from 'playwright-core';
 import sharp from 'sharp';
+import { launchChromium } from '../test/e2e/harness';
 
 // Functions passed to page.evaluate run in the page; the Node type-check has no DOM lib.
 declare const document: {
@@ -30,7 +32,6 @@ declare const Event: new (type: string, init?: { bubbles?: boolean }) => unknown
 
 const root = resolve(dirname(fileURLToPath(import.meta.url)), '..', '..');
 const STEPS = Number(process.env.RANKFOLD_BENCH_STEPS ?? 40);
-const CHROMIUM = process.env.CHROMIUM_PATH ?? '/usr/bin/chromium';
 
 /** A gel plate: smooth background, Gaussian lanes of bands, grain and a faint column pattern. */
 function plate(w: number, h: number, seed: number): Buffer {
@@ -152,19 +153,7 @@ async function main() {
 
   console.error(`ui bench: decode baseline ${decodeMs.toFixed(0)} ms`);
   const { url, child } = await serve(dir);
-  const ctx = await chromium.launchPersistentContext(mkdtempSync(join(tmpdir(), 'rankfold-ui-chromium-')), {
-    executablePath: CHROMIUM,
-    headless: true,
-    args: [
-      '--headless',
-      '--no-sandbox',
-      '--disable-gpu',
-      '--disable-background-networking',
-      '--disable-component-update',
-      '--no-first-run',
-    ],
-    viewport: { width: 1440, height: 900 },
-  });
+  const ctx = await launchChromium({ prefix: 'rankfold-ui-chromium-' });
   const lines: string[] = [];
   try {
     const page = await ctx.newPage();

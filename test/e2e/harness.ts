@@ -1,18 +1,31 @@
 /**
  * End-to-end harness: `rankfold serve` from the built CLI as a child process, and headless Chromium
  * through playwright-core with the flags from DEVELOPERS.md. Screenshots go to test-artifacts/.
+ *
+ * Which Chromium (`chooseChromium`, used by every e2e suite and by bench/ui.bench.ts):
+ * - `CHROMIUM_PATH`, if set (it must exist);
+ * - else the system Chromium (`/usr/bin/chromium`, Debian's package; `RANKFOLD_SYSTEM_CHROMIUM` moves the
+ *   path that is checked, so a machine without it can be simulated), if it exists;
+ * - else the Chromium build shipped inside the `@sparticuz/chromium` dev dependency, so a fresh clone needs
+ *   no system browser. `RANKFOLD_BROWSER=packaged` forces it, `RANKFOLD_BROWSER=system` forbids it.
+ * The packaged build is brotli-compressed in node_modules/@sparticuz/chromium/bin/. We unpack it ourselves
+ * into node_modules/.cache/rankfold-chromium-<version>/ (not the package's own loader, which unpacks to a
+ * fixed /tmp/chromium that parallel workers race on and other users of /tmp could plant), with the
+ * package's copies of NSS (libnss3 & co., which it needs and a minimal Debian lacks) on LD_LIBRARY_PATH
+ * and its fonts added to the system's fontconfig.
  */
-import { type ChildProcess, execFile, spawn } from 'node:child_process';
-import { existsSync, mkdirSync, mkdtempSync } from 'node:fs';
+import { type ChildProcess, execFile, spawn, spawnSync } from 'node:child_process';
+import { existsSync, mkdirSync, mkdtempSync, readFileSync, renameSync, rmSync, writeFileSync } from 'node:fs';
+import { createRequire } from 'node:module';
 import { tmpdir } from 'node:os';
-import { join } from 'node:path';
+import { dirname, join } from 'node:path';
 import { promisify } from 'node:util';
+import { brotliDecompressSync } from 'node:zlib';
 import { type BrowserContext, chromium, type Page } from 'playwright-core';
 import { repoRoot } from '../helpers/fixtures';
 
 export const cli = join(repoRoot, 'bin', 'rankfold.mjs');
 export const artifacts = join(repoRoot, 'test-artifacts');
-export const CHROMIUM = process.env.CHROMIUM_PATH ?? '/usr/bin/chromium';
 export const CHROMIUM_ARGS = [
   '--headless',
   '--no-sandbox',
@@ -76,16 +89,121 @@ export async function serve(env: Record<string, string> = {}): Promise<Served> {
   };
 }
 
-/** Headless Chromium with a fresh user-data-dir. */
-export async function launch(viewport = { width: 1440, height: 900 }): Promise<BrowserContext> {
-  const userDataDir = mkdtempSync(join(tmpdir(), 'rankfold-chromium-'));
+export interface ChromiumChoice {
+  kind: 'env' | 'system' | 'packaged';
+  executablePath: string;
+  /** Extra environment for the browser process (the packaged build's libraries and fonts). */
+  env: Record<string, string>;
+}
+
+/** The browser the e2e tests and the UI bench launch; see the comment at the top of this file. */
+export function chooseChromium(env: NodeJS.ProcessEnv = process.env): ChromiumChoice {
+  const mode = env.RANKFOLD_BROWSER ?? 'auto';
+  if (!['auto', 'system', 'packaged'].includes(mode))
+    throw new Error(`RANKFOLD_BROWSER=${mode}: use auto, system or packaged`);
+  if (mode !== 'packaged') {
+    if (env.CHROMIUM_PATH) {
+      if (!existsSync(env.CHROMIUM_PATH))
+        throw new Error(`CHROMIUM_PATH=${env.CHROMIUM_PATH} does not exist`);
+      return { kind: 'env', executablePath: env.CHROMIUM_PATH, env: {} };
+    }
+    const system = env.RANKFOLD_SYSTEM_CHROMIUM || '/usr/bin/chromium';
+    if (existsSync(system)) return { kind: 'system', executablePath: system, env: {} };
+    if (mode === 'system') throw new Error(`RANKFOLD_BROWSER=system but ${system} does not exist`);
+  }
+  return packagedChromium(env);
+}
+
+/** Unpack (once per package version) and describe the Chromium build inside @sparticuz/chromium. */
+export function packagedChromium(env: NodeJS.ProcessEnv = process.env): ChromiumChoice {
+  let entry: string;
+  try {
+    // Resolved relative to this module (also from the bundled bench in dist/bench/), never imported: the
+    // package's own loader is written for AWS Lambda.
+    entry = createRequire(import.meta.url).resolve('@sparticuz/chromium');
+  } catch {
+    throw new Error(
+      'no system Chromium and the dev dependency @sparticuz/chromium is not installed: run `npm install`',
+    );
+  }
+  const pkgDir = join(dirname(entry), '..');
+  const { version } = JSON.parse(readFileSync(join(pkgDir, 'package.json'), 'utf8')) as { version: string };
+  const dir = join(pkgDir, '..', '..', '.cache', `rankfold-chromium-${version}`);
+  const exe = join(dir, 'chromium');
+  if (!existsSync(exe)) {
+    // Unpack into a private folder and rename it into place: parallel workers never see a half-written
+    // binary, and an interrupted unpack leaves no folder that looks complete.
+    mkdirSync(dirname(dir), { recursive: true });
+    const tmp = mkdtempSync(`${dir}.partial-`);
+    try {
+      const bin = join(pkgDir, 'bin');
+      writeFileSync(join(tmp, 'chromium'), brotliDecompressSync(readFileSync(join(bin, 'chromium.br'))), {
+        mode: 0o755,
+      });
+      for (const [archive, into] of [
+        ['al2023.tar.br', tmp], // lib/libnss3.so, libnspr4.so, … built for Amazon Linux 2023 (glibc 2.34)
+        ['fonts.tar.br', tmp], // fonts/Open_Sans/*.ttf (and a fonts.conf for Lambda's paths, unused)
+      ]) {
+        const untar = spawnSync('tar', ['-x', '-C', into], {
+          input: brotliDecompressSync(readFileSync(join(bin, archive))),
+        });
+        if (untar.status !== 0) throw new Error(`unpacking ${archive}: ${String(untar.stderr)}`);
+      }
+      writeFileSync(
+        join(tmp, 'rankfold-fonts.conf'),
+        `<?xml version="1.0"?>\n<!DOCTYPE fontconfig SYSTEM "fonts.dtd">\n<fontconfig>\n` +
+          `  <include ignore_missing="yes">/etc/fonts/fonts.conf</include>\n` +
+          `  <dir>${join(dir, 'fonts')}</dir>\n  <cachedir>${join(dir, 'fontconfig-cache')}</cachedir>\n</fontconfig>\n`,
+      );
+      try {
+        renameSync(tmp, dir);
+      } catch (e) {
+        // Another worker finished first: use its copy.
+        if (!existsSync(exe)) throw e;
+        rmSync(tmp, { recursive: true, force: true });
+      }
+    } catch (e) {
+      rmSync(tmp, { recursive: true, force: true });
+      throw e;
+    }
+  }
+  const ld = [join(dir, 'lib'), env.LD_LIBRARY_PATH].filter(Boolean).join(':');
+  return {
+    kind: 'packaged',
+    executablePath: exe,
+    env: { LD_LIBRARY_PATH: ld, FONTCONFIG_FILE: join(dir, 'rankfold-fonts.conf') },
+  };
+}
+
+let announced = false;
+/** Headless Chromium (the one `chooseChromium` picks) with a fresh user-data-dir. */
+export async function launchChromium(
+  options: { viewport?: { width: number; height: number }; prefix?: string } = {},
+): Promise<BrowserContext> {
+  const choice = chooseChromium();
+  if (!announced && choice.kind === 'packaged') {
+    announced = true;
+    process.stderr.write(
+      `e2e: packaged Chromium (${process.env.RANKFOLD_BROWSER === 'packaged' ? 'RANKFOLD_BROWSER=packaged' : 'no system Chromium'}): ${choice.executablePath}\n`,
+    );
+  }
+  const userDataDir = mkdtempSync(join(tmpdir(), options.prefix ?? 'rankfold-chromium-'));
   return chromium.launchPersistentContext(userDataDir, {
-    executablePath: CHROMIUM,
+    executablePath: choice.executablePath,
     args: CHROMIUM_ARGS,
+    env: { ...process.env, ...choice.env } as Record<string, string>,
     headless: true,
-    viewport,
+    // The same page locale on every host: under LANG=C.UTF-8 the packaged build reports navigator.language
+    // 'en-US@posix', which Intl rejects (uPlot's number format throws while the page loads).
+    locale: 'en-US',
+    viewport: options.viewport ?? { width: 1440, height: 900 },
     acceptDownloads: true,
   });
+}
+
+/** Headless Chromium with a fresh user-data-dir. */
+export async function launch(viewport = { width: 1440, height: 900 }): Promise<BrowserContext> {
+  return launchChromium({ viewport });
 }
 
 export async function shot(page: Page, name: string): Promise<string> {
