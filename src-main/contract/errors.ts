@@ -30,12 +30,12 @@ export class UsageError extends RankfoldError {
 }
 
 /** Names longer than this many characters are shortened in messages (the full name stays in `details.file`). */
-export const MAX_SHOWN_NAME = 200;
+export const MAX_SHOWN_NAME = 160;
 
 /**
  * A file name as messages show it: as the user gave it, except that control characters (a newline in a
  * name would split the one-sentence message) are written as `\n`, `\t` or `\u0007`, and a name longer than
- * {@link MAX_SHOWN_NAME} characters keeps its first 90 and last 90 characters around an ellipsis with the
+ * {@link MAX_SHOWN_NAME} characters keeps its first 60 and last 60 characters around an ellipsis with the
  * count left out, so the folder and the file name stay recognisable.
  */
 export function displayName(file: string): string {
@@ -51,7 +51,7 @@ export function displayName(file: string): string {
   );
   const chars = Array.from(shown);
   if (chars.length <= MAX_SHOWN_NAME) return shown;
-  return `${chars.slice(0, 90).join('')}…(${chars.length - 180} characters left out)…${chars.slice(-90).join('')}`;
+  return `${chars.slice(0, 60).join('')}…(${chars.length - 120} characters left out)…${chars.slice(-60).join('')}`;
 }
 
 /** Reports of single-file services may carry warnings: metadata that was dropped or changed, one sentence each. */

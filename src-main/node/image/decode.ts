@@ -379,10 +379,12 @@ export interface TiffFacts {
   bitsPerSample: number[];
   /** Tag 339 SampleFormat (default [1] = unsigned integer). */
   sampleFormat: number[];
+  /** Tag 274 Orientation (undefined when absent). */
+  orientation?: number;
 }
 
 /**
- * Read tags 258, 262, 277 and 339 of IFD `page` of a classic TIFF (TIFF 6.0 §2: header, IFD entries of
+ * Read tags 258, 262, 274, 277 and 339 of IFD `page` of a classic TIFF (TIFF 6.0 §2: header, IFD entries of
  * 12 bytes, values in the entry when they fit in 4 bytes). BigTIFF and anything odd give undefined, and
  * the file is left to libvips.
  */
@@ -419,7 +421,7 @@ export async function readTiffFacts(file: string, page = 0): Promise<TiffFacts |
     for (let i = 0; i < count; i++) {
       const e = 12 * i;
       const tag = u16(entries, e);
-      if (tag !== 258 && tag !== 262 && tag !== 277 && tag !== 339) continue;
+      if (tag !== 258 && tag !== 262 && tag !== 274 && tag !== 277 && tag !== 339) continue;
       const type = u16(entries, e + 2);
       const n = Math.min(u32(entries, e + 4), 64);
       const width = type === 3 ? 2 : type === 4 ? 4 : type === 1 ? 1 : 0;
@@ -431,6 +433,7 @@ export async function readTiffFacts(file: string, page = 0): Promise<TiffFacts |
       );
       if (tag === 258) facts.bitsPerSample = values;
       else if (tag === 262) facts.photometric = values[0];
+      else if (tag === 274) facts.orientation = values[0];
       else if (tag === 277) facts.samplesPerPixel = values[0];
       else facts.sampleFormat = values;
     }
@@ -487,6 +490,14 @@ function refuseTiffModel(file: string, f: TiffFacts): void {
     throw new InputError(file, `has ${bits}-bit samples; Rankfold reads 1-, 2-, 4-, 8- and 16-bit samples`, {
       bits,
     });
+  // libtiff 4.7 treats an Orientation outside 1–8 as an error while reading pixels, so it cannot be
+  // dropped with a warning as for PNG and JPEG: it is named instead of being called damage.
+  if (f.orientation !== undefined && !(f.orientation >= 1 && f.orientation <= 8))
+    throw new InputError(
+      file,
+      `has an invalid orientation tag (${f.orientation}; TIFF 6.0 allows 1–8) that the TIFF reader refuses, so remove or correct the tag and try again`,
+      { orientation: f.orientation },
+    );
   const spp = f.samplesPerPixel;
   const most = pi === 5 ? 5 : pi === 2 || pi === 6 ? 4 : 2;
   if (spp > most)
