@@ -51,6 +51,20 @@ export interface PlaneSpectrum {
   complete: boolean;
   /** How they were computed: 'jacobi' (one-sided Jacobi), 'gram' (eigenvalues of the Gram matrix), 'randomized' (top values, HMT 2011). */
   method: 'jacobi' | 'gram' | 'randomized';
+  /**
+   * Present when the values are estimated from a randomized sketch read in strips (scans above the
+   * tiled threshold, 2^25 pixels by default): the values are the sketch's, the energy is exact.
+   */
+  sketch?: {
+    reference: string;
+    /** Sketch width l = k + oversampling. */
+    columns: number;
+    powerIterations: number;
+    /** Passes over the samples (2q + 2). */
+    passes: number;
+    /** Rows found constant and multiplied in O(l) (blank paper). */
+    constantRows: number;
+  };
   /** ‖A‖_F² = Σ aᵢⱼ² = Σ σᵢ² (exact sum of squared samples). */
   energy: number;
   energyRanks: EnergyRank[];

@@ -4,7 +4,7 @@
  * profile. Reading validates the header against the chunks before anything is decoded.
  */
 import { FormatError } from '../../contract/errors';
-import { chromaOffset, toSamples, ycbcrToRgb } from '../lowrank/colour';
+import { chromaOffset, roundInto, ycbcrToRgbSamples } from '../lowrank/colour';
 import { decodeLosslessPlane } from './alpha';
 import {
   type Chunk,
@@ -14,8 +14,8 @@ import {
   writeContainer,
 } from './container';
 import { type ByteCompressor, decodePlane, type EntropyId, encodePlane } from './entropy';
-import { DEAD_ZONE, reconstructPlane } from './quantise';
-import type { QuantPlane } from './quantised';
+import { DEAD_ZONE, reconstructRows } from './quantise';
+import { type QuantPlane, tileGrid } from './quantised';
 
 export type ColourTransform = 'none' | 'ycbcr-jfif';
 
@@ -217,13 +217,48 @@ export interface DecodedRkf {
 
 /**
  * Decode a whole image file. Each step names the file and the problem on failure.
+ * The samples are rebuilt band by band as integers ({@link decodeImageFileSamples}), then widened to
+ * Float32: no full-size float64 plane is formed.
  * @throws FormatError
  */
 export function decodeImageFile(bytes: Uint8Array, file: string, opts: ReadOptions = {}): DecodedRkf {
+  const d = decodeImageFileSamples(bytes, file, opts);
+  return { ...d, samples: d.samples.map((p) => new Float32Array(p)) };
+}
+
+/** Integer samples of one channel: 8-bit scans in Uint8Array, 16-bit in Uint16Array. */
+export type SampleArray = Uint8Array | Uint16Array;
+
+/** A decoded file whose samples stay integers (1 or 2 bytes per sample). */
+export interface DecodedRkfSamples extends Omit<DecodedRkf, 'samples'> {
+  samples: SampleArray[];
+}
+
+/** Rows rebuilt at a time when a plane is not tiled (the tile height otherwise). */
+const BAND_ROWS = 64;
+
+/**
+ * Decode a whole image file into integer samples, band by band: per band of tile rows, each coded plane's
+ * rows are rebuilt in float64, converted (YCbCr → RGB), rounded and clamped into the output arrays. Memory
+ * is the output samples plus O(band·width), and the values equal the whole-plane reconstruction's.
+ * @throws FormatError
+ */
+export function decodeImageFileSamples(
+  bytes: Uint8Array,
+  file: string,
+  opts: ReadOptions = {},
+): DecodedRkfSamples {
   const { view, header } = readImageHeader(bytes, file, opts);
   const { width, height, bitDepth } = header;
   const max = bitDepth === 16 ? 65535 : 255;
-  const planes: Float64Array[] = header.planes.map((ph, k) => {
+  const planeFail = (k: number, err: unknown): never => {
+    if (err instanceof FormatError) throw err;
+    throw new FormatError(
+      file,
+      `plane ${k} (${header.planes[k].name}) cannot be decoded: ${(err as Error).message}`,
+    );
+  };
+  const quant = header.planes.map((ph, k) => {
     try {
       const q = decodePlane(
         view.payload(view.find('PLNE', k)),
@@ -231,22 +266,47 @@ export function decodeImageFile(bytes: Uint8Array, file: string, opts: ReadOptio
         ph.entropy,
         opts.compressors,
       );
-      return reconstructPlane(q);
+      const rects = tileGrid(width, height, q.tile);
+      if (rects.length !== q.tiles.length)
+        throw new RangeError('tile count does not match the plane geometry');
+      return { q, rects };
     } catch (err) {
-      if (err instanceof FormatError) throw err;
-      throw new FormatError(file, `plane ${k} (${ph.name}) cannot be decoded: ${(err as Error).message}`);
+      return planeFail(k, err);
     }
   });
-  let samples: Float32Array[];
-  if (header.colourTransform === 'ycbcr-jfif')
-    samples = ycbcrToRgb(planes[0], planes[1], planes[2], bitDepth).map((p) => toSamples(p, max));
-  else samples = [toSamples(planes[0], max)];
+  const n = width * height;
+  const colour = header.colourTransform === 'ycbcr-jfif';
+  const samples: SampleArray[] = Array.from({ length: colour ? 3 : 1 }, () =>
+    bitDepth === 16 ? new Uint16Array(n) : new Uint8Array(n),
+  );
+  const tile = quant[0].q.tile;
+  const band = Math.min(height, tile > 0 ? tile : BAND_ROWS);
+  const bufs = quant.map(() => new Float64Array(band * width));
+  for (let y0 = 0; y0 < height; y0 += band) {
+    const y1 = Math.min(height, y0 + band);
+    const len = (y1 - y0) * width;
+    quant.forEach(({ q, rects }, k) => {
+      try {
+        reconstructRows(q, rects, y0, y1, bufs[k]);
+      } catch (err) {
+        planeFail(k, err);
+      }
+    });
+    const at = y0 * width;
+    if (colour)
+      ycbcrToRgbSamples(bufs[0], bufs[1], bufs[2], len, bitDepth, samples[0], samples[1], samples[2], at);
+    else roundInto(bufs[0], len, max, samples[0], at);
+  }
   if (header.alpha === 'lossless') {
+    let alpha: Float32Array;
     try {
-      samples.push(decodeLosslessPlane(view.payload(view.find('ALPH')), width, height, max));
+      alpha = decodeLosslessPlane(view.payload(view.find('ALPH')), width, height, max);
     } catch (err) {
       throw new FormatError(file, `the alpha plane cannot be decoded: ${(err as Error).message}`);
     }
+    const a = bitDepth === 16 ? new Uint16Array(n) : new Uint8Array(n);
+    a.set(alpha);
+    samples.push(a);
   }
   const iccIndex = view.find('ICCP');
   return {

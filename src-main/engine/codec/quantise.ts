@@ -93,6 +93,70 @@ export function reconstructPlane(plane: QuantPlane): Float64Array {
 }
 
 /**
+ * Rows [y0, y1) of a plane (grey levels, before clamping) from its quantised factors, into `out`
+ * ((y1 − y0)·width values, row-major). The same arithmetic as {@link reconstructPlane}, so a plane rebuilt
+ * band by band equals the whole-plane result value for value; only the tiles that meet the band are read.
+ */
+export function reconstructRows(
+  plane: QuantPlane,
+  rects: TileRect[],
+  y0: number,
+  y1: number,
+  out: Float64Array,
+): void {
+  const { width } = plane;
+  if (rects.length !== plane.tiles.length)
+    throw new RangeError('tile count does not match the plane geometry');
+  const row = new Float64Array(Math.max(1, plane.tile > 0 ? plane.tile : width));
+  // Rects are in raster order (tileGrid): find the first one that reaches row y0, stop at row y1.
+  let lo = 0;
+  let hi = rects.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if (rects[mid].y + rects[mid].h <= y0) lo = mid + 1;
+    else hi = mid;
+  }
+  for (let t = lo; t < rects.length; t++) {
+    const r = rects[t];
+    if (r.y >= y1) break;
+    const from = Math.max(y0, r.y) - r.y;
+    const to = Math.min(y1, r.y + r.h) - r.y;
+    addTileRows(out, width, r, plane.tiles[t], plane.step, plane.meanStep, row, from, to, r.y - y0);
+  }
+}
+
+function addTileRows(
+  out: Float64Array,
+  width: number,
+  rect: TileRect,
+  tile: QuantTile,
+  step: number,
+  meanStep: number,
+  row: Float64Array,
+  from: number,
+  to: number,
+  dy: number,
+): void {
+  const { x, w } = rect;
+  const mean = tile.meanQ * meanStep;
+  const n = tile.u.length;
+  const scales = new Float64Array(n);
+  for (let k = 0; k < n; k++) scales[k] = componentScale(tile.u[k], tile.v[k], step);
+  for (let i = from; i < to; i++) {
+    row.fill(mean, 0, w);
+    for (let k = 0; k < n; k++) {
+      const c = scales[k];
+      if (c === 0) continue;
+      const a = tile.u[k][i] * c;
+      if (a === 0) continue;
+      const qv = tile.v[k];
+      for (let j = 0; j < w; j++) row[j] += a * qv[j];
+    }
+    out.set(row.subarray(0, w), (dy + i) * width + x);
+  }
+}
+
+/**
  * Write one tile's mean plus Σ cₖ·quₖ·qvₖᵀ into `out` (row stride `width`), a row at a time through `row`.
  * Its own function so V8 optimises the loops once, not by on-stack replacement inside the tile loop.
  */

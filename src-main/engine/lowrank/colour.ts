@@ -88,3 +88,49 @@ export function toSamples(plane: ArrayLike<number>, max: number): Float32Array {
   }
   return out;
 }
+
+/** {@link toSamples} of `len` values of `plane` into `out` from `at`: the same rounding and clamping. */
+export function roundInto(
+  plane: ArrayLike<number>,
+  len: number,
+  max: number,
+  out: Uint8Array | Uint16Array,
+  at: number,
+): void {
+  for (let i = 0; i < len; i++) {
+    const v = Math.round(plane[i]);
+    out[at + i] = v < 0 ? 0 : v > max ? max : v;
+  }
+}
+
+/**
+ * {@link ycbcrToRgb} then {@link toSamples} for `len` values, written into R, G, B sample arrays from `at`.
+ * The same expressions in the same order, so the samples equal the whole-plane path's.
+ */
+export function ycbcrToRgbSamples(
+  y: ArrayLike<number>,
+  cb: ArrayLike<number>,
+  cr: ArrayLike<number>,
+  len: number,
+  bitDepth: 8 | 16,
+  outR: Uint8Array | Uint16Array,
+  outG: Uint8Array | Uint16Array,
+  outB: Uint8Array | Uint16Array,
+  at: number,
+): void {
+  const off = chromaOffset(bitDepth);
+  const max = bitDepth === 16 ? 65535 : 255;
+  const [, m1, m2] = YCBCR_TO_RGB;
+  const clamp = (x: number) => {
+    const v = Math.round(x);
+    return v < 0 ? 0 : v > max ? max : v;
+  };
+  for (let i = 0; i < len; i++) {
+    const Y = y[i];
+    const Cb = cb[i] - off;
+    const Cr = cr[i] - off;
+    outR[at + i] = clamp(Y + 1.402 * Cr);
+    outG[at + i] = clamp(Y + m1[1] * Cb + m1[2] * Cr);
+    outB[at + i] = clamp(Y + m2[1] * Cb);
+  }
+}

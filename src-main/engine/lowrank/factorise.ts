@@ -84,7 +84,7 @@ export function factorPlane(
         powerIters: 4,
       });
     else svd = opts.tile === 0 ? fullSvd(mat) : jacobiSvd(mat);
-    tiles.push({ rect, meanQ, energy, data: Float32Array.from(a), s: svd.s, U: svd.U, V: svd.V });
+    tiles.push({ rect, meanQ, energy, data: new Float32Array(a), s: svd.s, U: svd.U, V: svd.V });
   }
   return { width, height, tile: opts.tile, meanStep: opts.meanRemoval ? opts.meanStep : 0, tiles };
 }

@@ -19,7 +19,7 @@ export interface PlaneInput {
   stepScale: number;
 }
 
-interface Comp {
+export interface Comp {
   qu: Int32Array;
   qv: Int32Array;
 }
@@ -169,6 +169,16 @@ function tileComponents(
 
 /** Quantise every useful component at step Δ and order them greedily. */
 export function buildCandidate(inputs: PlaneInput[], delta: number, opts: CandidateOptions = {}): Candidate {
+  const { comps, errs, index, baseD } = collectComponents(inputs, delta, opts);
+  return orderCandidate(inputs, delta, comps, errs, index, baseD);
+}
+
+/** The quantised components of every tile at step Δ (the first half of {@link buildCandidate}). */
+export function collectComponents(
+  inputs: PlaneInput[],
+  delta: number,
+  opts: CandidateOptions = {},
+): Pick<Candidate, 'comps' | 'errs' | 'index' | 'baseD'> {
   const comps: Comp[][][] = [];
   const errs: Float64Array[][] = [];
   const index: Array<[number, number]> = [];
@@ -189,6 +199,22 @@ export function buildCandidate(inputs: PlaneInput[], delta: number, opts: Candid
     comps.push(pc);
     errs.push(pe);
   }
+  return { comps, errs, index, baseD };
+}
+
+/**
+ * Cost table, per-component gains and costs, and the greedy order of components already quantised
+ * (the second half of {@link buildCandidate}). Only each tile's σ (its first comps.length values) is read
+ * from `inputs`, so tiles whose data and vectors were dropped after quantising still work.
+ */
+export function orderCandidate(
+  inputs: PlaneInput[],
+  delta: number,
+  comps: Comp[][][],
+  errs: Float64Array[][],
+  index: Array<[number, number]>,
+  baseD: number,
+): Candidate {
   const table = costTable(comps);
   const seqs = index.map(([p, t]) => {
     const tf = inputs[p].factors.tiles[t];
@@ -412,7 +438,7 @@ function hillClimb(n: number, f: (k: number) => number): Array<{ k: number; err:
 const CLOSE_ENOUGH = 0.996;
 
 /** Largest greedy prefix whose real size fits, by secant steps on the size model and bisection. */
-function refine(
+export function refine(
   inputs: PlaneInput[],
   c: Candidate,
   budget: number,

@@ -23,12 +23,15 @@ import {
   invalidParameterError,
   OutputError,
   UsageError,
+  type WithWarnings,
 } from '../../contract';
 import type { ByteCompressor, EntropyId } from '../../engine/codec/entropy';
 import { initEngine } from '../../engine/linalg';
 import { budgetBytes, type EncodeResult, encodeScan } from '../../engine/lowrank/encode';
+import { encodeScanTiled, TILED_PIXELS, tiledEncoderFits } from '../../engine/lowrank/tiled';
 import { psnrPlanes, ssimPlanes } from '../../engine/metrics';
-import { decodeImage, hashSamples } from '../image/decode';
+import { decodeImage, hashSamples, probeImage } from '../image/decode';
+import { decodeSamples } from '../image/raw-decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 
 export interface CompressHooks {
@@ -44,6 +47,12 @@ export interface CompressInternals {
    * holds the reconstruction): the batch worker draws report thumbnails from these, with no second decode.
    */
   onWritten?: (source: DecodedImage, result: EncodeResult) => void | Promise<void>;
+  /**
+   * Scans above this many pixels, under a byte budget with tiles, take the bounded-memory tiled encoder
+   * (integer samples, band by band; engine/lowrank/tiled.ts). Default {@link TILED_PIXELS}. `onWritten` is
+   * not called on that path (it would need full float planes).
+   */
+  tiledAbove?: number;
 }
 
 export const ENCODER_NAME = 'rankfold 0.1.0';
@@ -88,7 +97,7 @@ export function checkCompressOptions(o: CompressOptions): void {
     throw invalidParameterError('tile', 'auto, 0 (whole plane) or an integer between 16 and 512', o.tile);
 }
 
-function summariseRanks(r: EncodeResult): CompressReport['ranks'] {
+function summariseRanks(r: Pick<EncodeResult, 'ranks'>): CompressReport['ranks'] {
   return r.ranks.map((p) => {
     if (p.tile === 0) return { channel: p.channel, rank: p.ranks[0] ?? 0 };
     let min = Number.POSITIVE_INFINITY;
@@ -181,7 +190,7 @@ export async function compressFile(
   output: string,
   options: CompressOptions,
   hooks: CompressHooks & CompressInternals = {},
-): Promise<CompressReport> {
+): Promise<CompressReport & WithWarnings> {
   checkCompressOptions(options);
   if (!/\.rkf$/i.test(output)) throw new UsageError(`${output}: the output of compress must end in .rkf`);
   await assertWritable(output, options.force);
@@ -189,6 +198,12 @@ export async function compressFile(
     throw new OutputError(output, 'is the input file; Rankfold never overwrites its input');
   hooks.onProgress?.({ stage: 'decode', fraction: 0 });
   const t0 = performance.now();
+  const probe = await probeImage(input, { page: options.page, pixelLimit: options.pixelLimit });
+  if (
+    probe.width * probe.height > (hooks.tiledAbove ?? TILED_PIXELS) &&
+    tiledEncoderFits(options.budget, options.tile)
+  )
+    return compressTiled(input, output, options, hooks, t0);
   const decoded = await decodeImage(input, { page: options.page, pixelLimit: options.pixelLimit });
   const decodeMs = performance.now() - t0;
   const { bytes, report, result } = await compressDecoded(decoded, options, hooks);
@@ -207,6 +222,75 @@ export async function compressFile(
     output,
     outputBytes: onDisk,
     timings: { ...report.timings, decodeMs: round1(decodeMs) },
+    ...(decoded.warnings ? { warnings: decoded.warnings } : {}),
+  };
+}
+
+/** compressFile for a large scan: integer samples and the tiled encoder (see CompressInternals.tiledAbove). */
+async function compressTiled(
+  input: string,
+  output: string,
+  options: CompressOptions,
+  hooks: CompressHooks & CompressInternals,
+  t0: number,
+): Promise<CompressReport> {
+  if (options.compare)
+    throw new UsageError(
+      `${input}: --compare is not available for scans above ${hooks.tiledAbove ?? TILED_PIXELS} pixels (the standard codecs would need the whole scan as floats); leave it out`,
+    );
+  const img = await decodeSamples(input, { page: options.page, pixelLimit: options.pixelLimit });
+  const decodeMs = performance.now() - t0;
+  const check = () => {
+    if (hooks.signal?.aborted) throw new CancelledError(`compressing ${input}`);
+  };
+  check();
+  await initEngine();
+  const result = encodeScanTiled(img, {
+    budget: options.budget,
+    tile: options.tile,
+    entropy: hooks.entropy ?? 'rc',
+    compressors: COMPRESSORS,
+    encoder: ENCODER_NAME,
+    alphaSha256: img.hasAlpha ? hashSamples([img.planes[img.channels - 1]], img.bitDepth) : undefined,
+    onProgress: hooks.onProgress ? (stage, fraction) => hooks.onProgress?.({ stage, fraction }) : undefined,
+    checkCancelled: check,
+    now: () => performance.now(),
+  });
+  check();
+  const byteBudget = budgetBytes(options.budget, img);
+  if (byteBudget !== undefined && result.bytes.length > byteBudget)
+    throw new OutputError(
+      output,
+      `would be ${result.bytes.length} bytes, over the budget of ${byteBudget}; nothing was written`,
+    );
+  await writeFileAtomic(output, result.bytes, { force: options.force });
+  const onDisk = (await stat(output)).size;
+  const { width, height } = img;
+  return {
+    input,
+    output,
+    width,
+    height,
+    channels: img.channels,
+    bitDepth: img.bitDepth,
+    sourceSha256: img.sourceSha256,
+    rawBytes: img.rawBytes,
+    inputBytes: img.inputBytes,
+    outputBytes: onDisk,
+    ratio: img.rawBytes / onDisk,
+    bpp: (8 * onDisk) / (width * height),
+    ranks: summariseRanks(result),
+    psnr: result.psnr,
+    ssim: result.ssim,
+    errors: result.errors,
+    timings: {
+      decodeMs: round1(decodeMs),
+      factorMs: round1(result.factorMs),
+      encodeMs: round1(result.encodeMs),
+    },
+    tile: result.ranks[0]?.tile ?? 0,
+    entropy: hooks.entropy ?? 'rc',
+    lossless: result.lossless,
   };
 }
 

@@ -28,8 +28,11 @@ import {
   Rng,
   singularValues,
 } from '../../engine/linalg';
+import { type RowSource, sketchSpectrum } from '../../engine/lowrank/sketch';
+import { TILED_PIXELS } from '../../engine/lowrank/tiled';
 import { energyRank, frobeniusOptimal, psnrFromFrobenius, spectralBound } from '../../engine/metrics';
-import { decodeImage } from '../image/decode';
+import { decodeImage, probeImage } from '../image/decode';
+import { decodeSamples } from '../image/raw-decode';
 
 /** BT.601 / JFIF 1.02 luma weights. */
 export const LUMA_WEIGHTS = [0.299, 0.587, 0.114] as const;
@@ -68,7 +71,17 @@ export interface InspectOptions {
   onProgress?: (stage: string, done: number, total: number) => void;
   /** Abort between planes; rejects with CancelledError. */
   signal?: AbortSignal;
+  /**
+   * Scans above this many pixels are read as integer samples and their spectra estimated from a
+   * randomized sketch read in strips ({@link sketchSpectrum}). Default {@link TILED_PIXELS}.
+   */
+  sketchAbove?: number;
 }
+
+/** Top values a sketched (large) gray or luma plane reports, and its sketch settings. */
+export const SKETCH_POLICY = { k: 64, oversample: 16, powerIters: 1 } as const;
+/** The same for the colour channels of a large scan. */
+export const SKETCH_CHANNEL_POLICY = { k: 16, oversample: 8, powerIters: 1 } as const;
 
 /** BT.601 luma of three planes, unrounded, as Float32Array. */
 export function lumaPlane(r: ArrayLike<number>, g: ArrayLike<number>, b: ArrayLike<number>): Float32Array {
@@ -190,6 +203,9 @@ export async function inspectScan(
 ): Promise<InspectReport> {
   const req = checkInspectRequest(request);
   const t0 = performance.now();
+  const probe = await probeImage(req.file, { page: req.page, pixelLimit: req.pixelLimit });
+  if (probe.width * probe.height > (options.sketchAbove ?? TILED_PIXELS))
+    return inspectSketched(req, options, t0);
   const img: DecodedImage = await decodeImage(req.file, { page: req.page, pixelLimit: req.pixelLimit });
   const t1 = performance.now();
   await initEngine();
@@ -221,6 +237,138 @@ export async function inspectScan(
     format: img.meta.format,
     width: img.width,
     height: img.height,
+    channels: img.channels,
+    bitDepth: img.bitDepth,
+    colour: img.colour,
+    hasAlpha: img.hasAlpha,
+    maxValue,
+    pages: img.meta.pages ?? 1,
+    page: img.meta.page ?? 0,
+    inputBytes: img.inputBytes,
+    rawBytes: img.rawBytes,
+    density: img.meta.density,
+    orientation: img.meta.orientation,
+    hasIccProfile: Boolean(img.meta.icc),
+    sourceSha256: img.sourceSha256,
+    plane: spectra[0].plane === 'luma' ? 'luma' : 'gray',
+    singularValues: spectra[0].singularValues,
+    spectra,
+    timings: { decodeMs: Math.round(t1 - t0), spectrumMs: Math.round(t2 - t1) },
+  };
+}
+
+/** The spectrum figures of one plane from its top values and its exact energy (shared by both paths). */
+function spectrumFigures(
+  s: Float64Array,
+  energy: number,
+  complete: boolean,
+  n: number,
+  maxValue: number,
+): Pick<PlaneSpectrum, 'energyRanks' | 'errors'> {
+  const total = complete ? undefined : energy;
+  const energyRanks = INSPECT_ENERGY_FRACTIONS.map((fraction) => {
+    const k = energyRank(s, fraction, total);
+    return { fraction, rank: k < 0 ? null : k };
+  });
+  const errors = INSPECT_RANKS.filter((k) => k < s.length).map((k) => {
+    const frobenius = frobeniusOptimal(s, k, total);
+    const db = psnrFromFrobenius(frobenius, n, maxValue);
+    return {
+      k,
+      spectral: spectralBound(s, k),
+      frobenius,
+      rms: frobenius / Math.sqrt(n),
+      psnrDb: Number.isFinite(db) ? db : null,
+    };
+  });
+  return { energyRanks, errors };
+}
+
+/**
+ * inspect for a scan above `sketchAbove` pixels: integer samples (1–2 bytes each), and each plane's top
+ * values from a randomized sketch read in strips of rows (HMT 2011 Alg. 4.4 with q = 1, then Alg. 5.1);
+ * the energy Σa² is exact. Luma rows are formed per strip.
+ */
+async function inspectSketched(
+  req: InspectRequest,
+  options: InspectOptions,
+  t0: number,
+): Promise<InspectReport> {
+  options.onProgress?.('decode', 0, 1);
+  const img = await decodeSamples(req.file, { page: req.page, pixelLimit: req.pixelLimit });
+  const t1 = performance.now();
+  options.onProgress?.('decode', 1, 1);
+  await initEngine();
+  const { width, height } = img;
+  const maxValue = img.bitDepth === 16 ? 65535 : 255;
+  const plane = (p: ArrayLike<number>) => (y0: number, y1: number, out: Float64Array) => {
+    const from = y0 * width;
+    const len = (y1 - y0) * width;
+    for (let i = 0; i < len; i++) out[i] = p[from + i];
+  };
+  const [wr, wg, wb] = LUMA_WEIGHTS;
+  const luma = (y0: number, y1: number, out: Float64Array) => {
+    const [r, g, b] = img.planes;
+    const from = y0 * width;
+    const len = (y1 - y0) * width;
+    // As lumaPlane: Float32 luma, so the values match the whole-plane path's.
+    for (let i = 0; i < len; i++)
+      out[i] = Math.fround(wr * r[from + i] + wg * g[from + i] + wb * b[from + i]);
+  };
+  type Job = {
+    name: PlaneSpectrum['plane'];
+    rows: RowSource;
+    policy: typeof SKETCH_POLICY | typeof SKETCH_CHANNEL_POLICY;
+  };
+  const jobs: Job[] =
+    img.colour === 'rgb'
+      ? [
+          { name: 'luma', rows: luma, policy: SKETCH_POLICY },
+          { name: 'red', rows: plane(img.planes[0]), policy: SKETCH_CHANNEL_POLICY },
+          { name: 'green', rows: plane(img.planes[1]), policy: SKETCH_CHANNEL_POLICY },
+          { name: 'blue', rows: plane(img.planes[2]), policy: SKETCH_CHANNEL_POLICY },
+        ]
+      : [{ name: 'gray', rows: plane(img.planes[0]), policy: SKETCH_POLICY }];
+  const spectra: PlaneSpectrum[] = [];
+  const strips = Math.ceil(height / 64);
+  const perJob = strips * (2 * SKETCH_POLICY.powerIters + 2);
+  const total = perJob * jobs.length;
+  for (const [j, job] of jobs.entries()) {
+    if (options.signal?.aborted) throw new CancelledError(`inspecting ${req.file}`);
+    let last = 0;
+    const r = sketchSpectrum(height, width, job.rows, {
+      ...job.policy,
+      onStrip: (done) => {
+        // Throttled: the callback draws on a terminal.
+        if (done - last >= 8 || done === perJob) {
+          last = done;
+          options.onProgress?.('spectrum', j * perJob + done, total);
+        }
+      },
+    });
+    spectra.push({
+      plane: job.name,
+      singularValues: Array.from(r.s),
+      complete: false,
+      method: 'randomized',
+      sketch: {
+        reference: 'Halko, Martinsson & Tropp 2011, Alg. 4.4 (range finder, power iterations) and 5.1',
+        columns: r.columns,
+        powerIterations: job.policy.powerIters,
+        passes: r.passes,
+        constantRows: r.constantRows,
+      },
+      energy: r.energy,
+      ...spectrumFigures(r.s, r.energy, false, width * height, maxValue),
+    });
+    await new Promise((resolve) => setImmediate(resolve));
+  }
+  const t2 = performance.now();
+  return {
+    file: req.file,
+    format: img.meta.format,
+    width,
+    height,
     channels: img.channels,
     bitDepth: img.bitDepth,
     colour: img.colour,

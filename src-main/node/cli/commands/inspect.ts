@@ -1,4 +1,5 @@
 /** `rankfold inspect FILE`: size, depth, channels and the singular-value spectrum of a scan. */
+import cliProgress from 'cli-progress';
 import { type InspectReport, type PlaneSpectrum, parseIntegerOption, UsageError } from '../../../contract';
 import { DEFAULT_PIXEL_LIMIT } from '../../image/decode';
 import { inspectScan } from '../../services/inspect';
@@ -21,7 +22,9 @@ Colour scans also get a line per channel (red, green, blue). Alpha is not analys
 
 Reads PNG, TIFF, JPEG and WebP, 8 or 16 bits, gray or colour. Values are in grey levels of the
 input (0–255 for 8-bit, 0–65535 for 16-bit). Scans up to 2048 pixels on the short side get every
-singular value; larger ones get the top 512 (randomized SVD).
+singular value; larger ones get the top 512 (randomized SVD). Scans above 2^25 pixels (33.5 MP) are
+read in strips and their top 64 values estimated from a randomized sketch (Halko, Martinsson & Tropp
+2011, Alg. 4.4 + 5.1; the output says so); the energy and the 90/99/99.9 % ranks use the exact energy.
 
 Options:
   --page N          TIFF page to read, counting from 0 (default 0)
@@ -101,8 +104,9 @@ export function formatInspectReport(r: InspectReport, full = false): string {
   if (r.hasIccProfile) out.push('ICC profile  embedded (kept; samples are analysed as stored)');
   out.push('');
   const planeName = r.plane === 'luma' ? 'luma (BT.601: 0.299 R + 0.587 G + 0.114 B)' : 'gray plane';
-  const how =
-    main.method === 'randomized'
+  const how = main.sketch
+    ? `top ${main.singularValues.length} of ${Math.min(r.width, r.height)} values estimated from a randomized sketch (Halko, Martinsson & Tropp 2011, Alg. 4.4 + 5.1: ${main.sketch.columns} columns, ${main.sketch.powerIterations} power iteration, ${main.sketch.passes} passes over the samples); energy exact`
+    : main.method === 'randomized'
       ? `top ${main.singularValues.length} of ${Math.min(r.width, r.height)} values, randomized SVD`
       : `all ${main.singularValues.length} values, ${main.method === 'jacobi' ? 'one-sided Jacobi' : 'Gram-matrix eigenvalues'}`;
   out.push(`Singular values of the ${planeName}, in grey levels (0–${r.maxValue}); ${how}:`);
@@ -155,6 +159,35 @@ export function formatInspectReport(r: InspectReport, full = false): string {
   return `${out.join('\n')}\n`;
 }
 
+/** A progress bar on stderr (cli-progress, as batch draws its own): stage, bar, percent. */
+function progressBar(): { update: (stage: string, done: number, total: number) => void; stop: () => void } {
+  const bar = new cliProgress.SingleBar(
+    {
+      stream: process.stderr,
+      format: 'inspect {stage} {bar} {percentage}%',
+      barsize: 28,
+      hideCursor: true,
+      clearOnComplete: true,
+      fps: 5,
+    },
+    cliProgress.Presets.shades_classic,
+  );
+  let started = false;
+  return {
+    update(stage, done, total) {
+      if (!started) {
+        bar.start(total, done, { stage: stage.padEnd(8) });
+        started = true;
+      }
+      bar.setTotal(total);
+      bar.update(done, { stage: stage.padEnd(8) });
+    },
+    stop() {
+      if (started) bar.stop();
+    },
+  };
+}
+
 export const command: Command = {
   name: 'inspect',
   summary: 'show size, depth and the singular-value spectrum of a scan',
@@ -169,11 +202,13 @@ export const command: Command = {
       values['pixel-limit'] === undefined
         ? undefined
         : parseIntegerOption('--pixel-limit', values['pixel-limit'] as string, 1, 2 ** 42);
-    const onProgress = io.isTTY
-      ? (_stage: string, done: number, total: number) =>
-          io.stderr(`\rinspect: spectrum ${done}/${total} planes${done === total ? '\n' : ''}`)
-      : undefined;
-    const report = await inspectScan({ file, page, pixelLimit }, { onProgress });
+    const bar = io.isTTY && !values.json ? progressBar() : undefined;
+    let report: InspectReport;
+    try {
+      report = await inspectScan({ file, page, pixelLimit }, { onProgress: bar?.update });
+    } finally {
+      bar?.stop();
+    }
     io.stdout(
       values.json ? `${JSON.stringify(report)}\n` : formatInspectReport(report, Boolean(values.full)),
     );
