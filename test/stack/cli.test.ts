@@ -147,6 +147,47 @@ describe('compress --stack (folder)', () => {
     }
   });
 
+  it('expand names the damage, not the output, when the damage hides the stack layout or the output exists', async () => {
+    const good = readFileSync(join(dir, 'forms.rkf'));
+    const cases: Array<[string, (b: Buffer) => void, RegExp]> = [
+      ['trailer', (b) => (b[b.length - 3] ^= 1), /is damaged: the trailer CRC-32 does not match/],
+      ['header', (b) => (b[30] ^= 4), /is damaged: chunk HEAD #0 at byte 12 fails its CRC-32 check/],
+      [
+        'version',
+        (b) => (b[11] ^= 2),
+        /is damaged: it declares container version 1\.3, but it was written as version 1\.1/,
+      ],
+      [
+        'appended copy',
+        (b) => b.set(good, good.length),
+        /has \d+ unexpected bytes after the end of its container/,
+      ],
+    ];
+    for (const [what, damage, message] of cases) {
+      const bad = Buffer.alloc(what === 'appended copy' ? 2 * good.length : good.length);
+      good.copy(bad);
+      damage(bad);
+      const file = join(dir, `hidden-${what.replace(' ', '-')}.rkf`);
+      writeFileSync(file, bad);
+      const target = join(dir, `hidden-out-${what.replace(' ', '-')}`);
+      const r = await run('expand', file, '-o', target);
+      expect(r.code, what).toBe(1);
+      expect(r.err, what).toContain(`${file}: `);
+      expect(r.err, what).toMatch(message);
+      expect(existsSync(target), what).toBe(false);
+    }
+    // A chunk damaged while the output already exists: the damage is reported, the output left alone.
+    const bad = Buffer.from(good);
+    bad[Math.floor(bad.length * 0.6)] ^= 0x5a;
+    const file = join(dir, 'damaged-existing.rkf');
+    writeFileSync(file, bad);
+    const existing = join(dir, 'existing.tif');
+    writeFileSync(existing, 'keep');
+    const r = await run('expand', file, '-o', existing);
+    expect(r.err).toMatch(/damaged-existing\.rkf: is damaged: chunk .* fails its CRC-32 check/);
+    expect(readFileSync(existing, 'utf8')).toBe('keep');
+  });
+
   it('refuses a frame of another size, naming the file, and writes nothing', async () => {
     const bad = join(dir, 'bad-size');
     await import('node:fs/promises').then((fs) => fs.mkdir(bad));

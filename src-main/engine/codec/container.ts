@@ -177,7 +177,7 @@ export function readContainer(bytes: Uint8Array, file: string, verifyAll = true)
   const minor = (bytes[10] << 8) | bytes[11];
   const newer = `uses container version ${major}.${minor}, which this Rankfold does not read (it reads version ${VERSION_MAJOR}.x); use a newer Rankfold`;
   if (major !== VERSION_MAJOR) {
-    // A version-1 file whose major version was damaged still has a file check recording what it was.
+    // A version-1 file whose major version was damaged: its structure, and its file check, say so.
     const written = writtenVersion(bytes);
     if (written?.major === VERSION_MAJOR)
       fail(
@@ -200,7 +200,8 @@ function writtenVersion(bytes: Uint8Array): { major: number; minor: number } | u
       false,
     );
     const k = view.find(FILE_CHECK);
-    if (k < 0) return undefined;
+    // A complete version-1 structure without a file check is what a 1.0 writer produced.
+    if (k < 0) return { major: VERSION_MAJOR, minor: 0 };
     const p = view.payload(k);
     return { major: (p[0] << 8) | p[1], minor: (p[2] << 8) | p[3] };
   } catch {

@@ -586,8 +586,8 @@ export function openStack(bytes: Uint8Array, file: string): StackReader {
     const b = chunk(type, id);
     try {
       return decodePlane(b, width, height, step);
-    } catch {
-      return fail(`is damaged: chunk ${type} #${id} does not decode`);
+    } catch (err) {
+      return fail(`is damaged: chunk ${type} #${id} does not decode: ${(err as Error).message}`);
     }
   };
   const means: Float64Array[] = [];
