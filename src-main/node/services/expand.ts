@@ -16,7 +16,13 @@ import {
   InputError,
   type WithWarnings,
 } from '../../contract';
-import { type DecodedRkf, decodeImageFile, MAX_PIXELS } from '../../engine/codec/image-file';
+import {
+  type DecodedRkf,
+  type DecodedRkfSamples,
+  decodeImageFile,
+  decodeImageFileSamples,
+  MAX_PIXELS,
+} from '../../engine/codec/image-file';
 import { describeFileError, hashSamples } from '../image/decode';
 import { encodeImage, formatFromPath } from '../image/encode';
 import { keepableMetadata } from '../image/metadata-chunks';
@@ -31,6 +37,29 @@ export async function readRkf(
   input: string,
   opts: { pixelLimit?: number } = {},
 ): Promise<{ decoded: DecodedRkf; inputBytes: number }> {
+  const { bytes, size } = await readRkfBytes(input);
+  const decoded = decodeImageFile(bytes, input, {
+    compressors: COMPRESSORS,
+    maxPixels: opts.pixelLimit ?? MAX_PIXELS,
+  });
+  return { decoded, inputBytes: size };
+}
+
+/** As {@link readRkf}, with integer samples (1–2 bytes each instead of 4): what `expand` writes from. */
+export async function readRkfSamples(
+  input: string,
+  opts: { pixelLimit?: number } = {},
+): Promise<{ decoded: DecodedRkfSamples; inputBytes: number }> {
+  const { bytes, size } = await readRkfBytes(input);
+  const decoded = decodeImageFileSamples(bytes, input, {
+    compressors: COMPRESSORS,
+    maxPixels: opts.pixelLimit ?? MAX_PIXELS,
+  });
+  return { decoded, inputBytes: size };
+}
+
+/** The bytes of a container file, with its size checked first. */
+async function readRkfBytes(input: string): Promise<{ bytes: Uint8Array; size: number }> {
   let size: number;
   try {
     const st = await stat(input);
@@ -48,11 +77,7 @@ export async function readRkf(
   } catch (err) {
     throw describeFileError(input, err);
   }
-  const decoded = decodeImageFile(bytes, input, {
-    compressors: COMPRESSORS,
-    maxPixels: opts.pixelLimit ?? MAX_PIXELS,
-  });
-  return { decoded, inputBytes: size };
+  return { bytes, size };
 }
 
 /**
@@ -68,7 +93,7 @@ export async function expandFile(
   const format = formatFromPath(output);
   await assertWritable(output, opts.force);
   const t1 = performance.now();
-  const { decoded, inputBytes } = await readRkf(input, { pixelLimit: opts.pixelLimit });
+  const { decoded, inputBytes } = await readRkfSamples(input, { pixelLimit: opts.pixelLimit });
   const t2 = performance.now();
   const h = decoded.header;
   let hashChecked = false;
