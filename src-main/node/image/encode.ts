@@ -166,7 +166,7 @@ export async function encodeImageBuffer(img: EncodeInput, options: EncodeOptions
       ? pipeline.png({ compressionLevel: level, adaptiveFiltering: true, palette: false })
       : pipeline.tiff({ compression: 'deflate', predictor: 'horizontal', quality: 100 });
   const bytes = await pipeline.toBuffer();
-  const extra = { icc: img.meta?.icc, orientation };
+  const extra = { icc: img.meta?.icc, orientation, noResolution: !img.meta?.density };
   return format === 'png' ? addPngMetadata(bytes, extra) : addTiffMetadata(bytes, extra);
 }
 

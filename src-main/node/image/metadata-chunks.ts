@@ -22,6 +22,13 @@ export interface ExtraMetadata {
   icc?: Uint8Array;
   /** EXIF orientation 2–8; 1 or undefined writes nothing. */
   orientation?: number;
+  /**
+   * The image states no resolution. libvips writes its default of 1 pixel per mm (pHYs 1000 px/m, TIFF
+   * 25.4 dpi) into every file, which other readers take as a real 25.4 dpi; with this set the PNG loses its
+   * pHYs chunk (absent = unknown, PNG 3rd ed. §11.3.5.3) and the TIFF gets ResolutionUnit 1, "no absolute
+   * unit of measurement" (TIFF 6.0 tag 296).
+   */
+  noResolution?: boolean;
 }
 
 function pngChunk(type: string, data: Uint8Array): Buffer {
@@ -50,7 +57,7 @@ function exifOrientation(o: number): Buffer {
 
 /** Insert iCCP and eXIf after IHDR, dropping any sRGB/iCCP/eXIf chunk the encoder wrote. */
 export function addPngMetadata(png: Buffer, extra: ExtraMetadata): Buffer {
-  if (!extra.icc && !(extra.orientation && extra.orientation !== 1)) return png;
+  if (!extra.icc && !(extra.orientation && extra.orientation !== 1) && !extra.noResolution) return png;
   if (
     png.length < 33 ||
     !png.subarray(0, 8).equals(PNG_SIGNATURE) ||
@@ -71,7 +78,9 @@ export function addPngMetadata(png: Buffer, extra: ExtraMetadata): Buffer {
     const end = p + 12 + len;
     if (end > png.length) throw new Error('internal: encoder output PNG is truncated');
     const drop =
-      (extra.icc && (type === 'iCCP' || type === 'sRGB')) || (extra.orientation && type === 'eXIf');
+      (extra.icc && (type === 'iCCP' || type === 'sRGB')) ||
+      (extra.orientation && type === 'eXIf') ||
+      (extra.noResolution && type === 'pHYs');
     if (!drop) parts.push(png.subarray(p, end));
     p = end;
   }
@@ -83,9 +92,9 @@ interface IfdEntry {
   raw: Buffer; // the 12 bytes
 }
 
-/** Rewrite IFD0 of a classic TIFF with Orientation and InterColorProfile set; the old IFD becomes unused bytes. */
+/** Rewrite IFD0 of a classic TIFF with Orientation, InterColorProfile and ResolutionUnit set; the old IFD becomes unused bytes. */
 export function addTiffMetadata(tiff: Buffer, extra: ExtraMetadata): Buffer {
-  if (!extra.icc && !(extra.orientation && extra.orientation !== 1)) return tiff;
+  if (!extra.icc && !(extra.orientation && extra.orientation !== 1) && !extra.noResolution) return tiff;
   const order = tiff.toString('latin1', 0, 2);
   if (order !== 'II' && order !== 'MM') throw new Error('internal: encoder output is not a TIFF');
   const le = order === 'II';
@@ -127,6 +136,7 @@ export function addTiffMetadata(tiff: Buffer, extra: ExtraMetadata): Buffer {
     const o = extra.orientation;
     set(entry(274, 3, 1, (b) => (le ? b.writeUInt16LE(o, 8) : b.writeUInt16BE(o, 8))));
   }
+  if (extra.noResolution) set(entry(296, 3, 1, (b) => (le ? b.writeUInt16LE(1, 8) : b.writeUInt16BE(1, 8))));
   if (extra.icc) {
     const icc = Buffer.from(extra.icc.buffer, extra.icc.byteOffset, extra.icc.byteLength);
     const at = end;
