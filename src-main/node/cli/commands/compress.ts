@@ -119,6 +119,7 @@ export const command: Command = {
       },
     );
     if (io.isTTY && !v.json) io.stderr('\r                \r');
+    for (const w of report.warnings ?? []) io.stderr(`warning: ${w}\n`);
     if (v.json) {
       io.stdout(`${JSON.stringify({ ...report, caution: report.lossless ? undefined : LOSSY_CAUTION })}\n`);
       if (!report.lossless) io.stderr(`${LOSSY_CAUTION}\n`);

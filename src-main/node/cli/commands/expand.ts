@@ -79,6 +79,8 @@ export const command: Command = {
         throw (await containerDamage(input)) ?? err;
       throw err;
     }
+    // expandFile's report may carry warnings (stored metadata left out); see services/expand.ts.
+    for (const w of (report as { warnings?: string[] }).warnings ?? []) io.stderr(`warning: ${w}\n`);
     if (v.json)
       io.stdout(`${JSON.stringify({ ...report, caution: report.lossless ? undefined : LOSSY_CAUTION })}\n`);
     else io.stdout(formatReport(report) + (report.lossless ? '' : `${LOSSY_CAUTION}\n`));
