@@ -297,6 +297,26 @@ describe('ICC profile, resolution and orientation survive compress → expand (P
   });
 });
 
+describe('a resolution the source does not state is not invented', () => {
+  it('a PNG without pHYs decodes with no density (libvips 8.18.7 reports 72) and expands with no pHYs and TIFF ResolutionUnit 1', async () => {
+    const png = await encodeImageBuffer(
+      { width: W, height: H, channels: 1, bitDepth: 8, planes: planesFor(1, 8) },
+      { format: 'png' },
+    );
+    expect(pngChunks(png).some((c) => c.type === 'pHYs')).toBe(false);
+    const file = join(dir, 'no-phys.png');
+    await writeFile(file, png);
+    expect((await sharp(file).metadata()).density).toBe(72); // why the check exists
+    expect((await decodeImage(file)).meta.density).toBeUndefined();
+    await compressFile(file, `${file}.rkf`, { budget: { kind: 'rank', rank: 16 }, tile: 0 });
+    await expandFile(`${file}.rkf`, `${file}.png`);
+    await expandFile(`${file}.rkf`, `${file}.tif`);
+    expect(pngMeta(await readFile(`${file}.png`)).ppm).toBeUndefined();
+    const tags = tiffTags(await readFile(`${file}.tif`));
+    expect(tags.get(296)?.value).toBe(1); // TIFF 6.0 ResolutionUnit 1 = no absolute unit
+  });
+});
+
 describe('out-of-range resolution: dropped with a warning on compress, and on expand of old containers', () => {
   it('a PNG whose pHYs says 2^32−1 px/m compresses with a warning and expands (PNG 3rd ed. §11.3.5.3)', async () => {
     const png = await encodeImageBuffer(

@@ -22,7 +22,7 @@ import { constants } from 'node:fs';
 import { type FileHandle, open, stat } from 'node:fs/promises';
 import sharp, { type Metadata, type OutputInfo } from 'sharp';
 import { checkInteger, type DecodedImage, displayName, InputError, type WithWarnings } from '../../contract';
-import { keepableMetadata, type MetadataToKeep, readPngIcc } from './metadata-chunks';
+import { keepableMetadata, type MetadataToKeep, readPngMetadata } from './metadata-chunks';
 
 /** Default pixel limit: 2^28 ≈ 268 megapixels, sharp's own default for `limitInputPixels`. */
 export const DEFAULT_PIXEL_LIMIT = 268_402_689;
@@ -113,21 +113,20 @@ export async function probeImage(file: string, options: DecodeOptions = {}): Pro
   const bitDepth = depthBits(file, meta);
   const warnings: string[] = [];
   let icc: Uint8Array | undefined = meta.icc ? new Uint8Array(meta.icc) : undefined;
+  let density = meta.density;
   if (meta.format === 'png') {
-    const own = await readPngIcc(file).catch(() => undefined);
+    const own = await readPngMetadata(file).catch(() => undefined);
     if (own?.icc) icc = own.icc;
-    else if (own?.problem)
+    else if (own?.iccProblem)
       warnings.push(
-        `${displayName(file)}: its embedded ICC profile ${own.problem}, so it is left out and the pixels are kept`,
+        `${displayName(file)}: its embedded ICC profile ${own.iccProblem}, so it is left out and the pixels are kept`,
       );
+    // libvips reports 72 dpi when a PNG states no resolution; a resolution the file does not state is not kept.
+    if (own && !own.hasPhys) density = undefined;
   }
   // CMYK sources are converted to sRGB; their CMYK profile no longer describes the samples.
   if (meta.space === 'cmyk') icc = undefined;
-  const kept = keepableMetadata(
-    file,
-    { icc, density: meta.density, orientation: meta.orientation },
-    'source',
-  );
+  const kept = keepableMetadata(file, { icc, density, orientation: meta.orientation }, 'source');
   warnings.push(...kept.warnings);
   const swap = (kept.meta.orientation ?? 1) >= 5;
   return {

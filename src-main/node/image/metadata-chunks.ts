@@ -237,40 +237,50 @@ function formatNumber(x: number): string {
 }
 
 /**
- * The ICC profile of a PNG, read from its iCCP chunk by hand (PNG Third Edition §11.3.2.4: keyword of
- * 1–79 bytes, a null, compression method 0, zlib data; it must precede IDAT, §5.6). libpng 1.6 (under
- * sharp) drops a profile whose colour space does not match the image (an RGB profile on a grey PNG);
- * Rankfold keeps such a profile byte for byte, as it does for TIFF. Returns `undefined` when the PNG
- * has no iCCP chunk, and `{ problem }` when the chunk cannot be unpacked.
+ * The ICC profile and resolution chunks of a PNG, read by hand up to the first IDAT (PNG Third Edition
+ * §11.3.2.4 iCCP: keyword of 1–79 bytes, a null, compression method 0, zlib data; §11.3.5.3 pHYs; both
+ * must precede IDAT, §5.6). libpng 1.6 (under sharp) drops a profile whose colour space does not match
+ * the image (an RGB profile on a grey PNG); Rankfold keeps such a profile byte for byte, as it does for
+ * TIFF. libvips reports 72 dpi for a PNG without pHYs; `hasPhys` tells the two apart.
  */
-export async function readPngIcc(file: string): Promise<{ icc?: Uint8Array; problem?: string } | undefined> {
+export async function readPngMetadata(
+  file: string,
+): Promise<{ icc?: Uint8Array; iccProblem?: string; hasPhys: boolean }> {
   const fh = await open(file, 'r');
+  const out: { icc?: Uint8Array; iccProblem?: string; hasPhys: boolean } = { hasPhys: false };
   try {
     const { size } = await fh.stat();
-    const head = Buffer.alloc(8);
+    const head = Buffer.alloc(9);
     let p = 8;
     for (let guard = 0; guard < 10_000 && p + 8 <= size; guard++) {
       const { bytesRead } = await fh.read(head, 0, 8, p);
-      if (bytesRead < 8) return undefined;
+      if (bytesRead < 8) break;
       const len = head.readUInt32BE(0);
       const type = head.toString('latin1', 4, 8);
-      if (type === 'IDAT' || type === 'IEND') return undefined;
-      if (type === 'iCCP') {
-        if (len > MAX_ICC_BYTES || p + 8 + len > size) return { problem: 'is cut short or too large' };
-        const data = Buffer.alloc(len);
-        await fh.read(data, 0, len, p + 8);
-        const nul = data.indexOf(0);
-        if (nul < 1 || nul > 79 || data[nul + 1] !== 0) return { problem: 'has a malformed iCCP chunk' };
-        try {
-          const icc = inflateSync(data.subarray(nul + 2), { maxOutputLength: MAX_ICC_BYTES });
-          return { icc: new Uint8Array(icc) };
-        } catch {
-          return { problem: 'cannot be unpacked (its compressed data is damaged)' };
+      if (type === 'IDAT' || type === 'IEND') break;
+      if (type === 'pHYs' && len === 9 && p + 17 <= size) {
+        await fh.read(head, 0, 9, p + 8);
+        out.hasPhys = head[8] === 1; // unit 1 = metre; 0 = aspect ratio only
+      }
+      if (type === 'iCCP' && out.icc === undefined && out.iccProblem === undefined) {
+        if (len > MAX_ICC_BYTES || p + 8 + len > size) out.iccProblem = 'is cut short or too large';
+        else {
+          const data = Buffer.alloc(len);
+          await fh.read(data, 0, len, p + 8);
+          const nul = data.indexOf(0);
+          if (nul < 1 || nul > 79 || data[nul + 1] !== 0) out.iccProblem = 'has a malformed iCCP chunk';
+          else
+            try {
+              const icc = inflateSync(data.subarray(nul + 2), { maxOutputLength: MAX_ICC_BYTES });
+              out.icc = new Uint8Array(icc);
+            } catch {
+              out.iccProblem = 'cannot be unpacked (its compressed data is damaged)';
+            }
         }
       }
       p += 12 + len;
     }
-    return undefined;
+    return out;
   } finally {
     await fh.close();
   }
