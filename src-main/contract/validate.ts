@@ -3,7 +3,7 @@
  * `Expected integer between 1 and 4096 for rank but received 0 of type number`.
  * Tests assert the exact text.
  */
-import { UsageError } from './errors';
+import { displayName, MAX_SHOWN_NAME, UsageError } from './errors';
 
 export const is = {
   defined: (v: unknown): boolean => v !== undefined && v !== null,
@@ -18,7 +18,9 @@ export const is = {
 };
 
 function describe(v: unknown): string {
-  if (typeof v === 'string') return `${JSON.stringify(v)} of type string`;
+  // A long string (a 4,000-character path) is shortened, not echoed whole: see displayName.
+  if (typeof v === 'string')
+    return `${JSON.stringify(v.length > MAX_SHOWN_NAME ? displayName(v) : v)} of type string`;
   if (v === null) return 'null';
   if (v === undefined) return 'undefined';
   if (Array.isArray(v)) return 'an array';

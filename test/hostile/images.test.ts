@@ -15,7 +15,7 @@ import { join } from 'node:path';
 import { deflateSync as zlibDeflate } from 'node:zlib';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { displayName, InputError } from '../../src-main/contract';
+import { checkString, displayName, InputError } from '../../src-main/contract';
 import {
   DEFAULT_PIXEL_LIMIT,
   decodeImage,
@@ -852,6 +852,18 @@ describe('file-system problems are named as such (POSIX.1-2017 <errno.h> codes a
     expect(r.stderr.trim()).toBe(
       `rankfold inspect: ${f}: permission denied when reading; check that you may read the file and open every folder above it`,
     );
+  });
+
+  it('a 4,300-character path given where at most 4096 are accepted is not echoed whole (the campaign saw 4,355 bytes)', () => {
+    const long = `/scans/${'x'.repeat(4300)}.png`;
+    expect(() => checkString('file', long)).toThrow(/characters left out\)…x+\.png" of type string$/);
+    let msg = '';
+    try {
+      checkString('file', long);
+    } catch (err) {
+      msg = (err as Error).message;
+    }
+    expect(msg.length).toBeLessThan(320);
   });
 
   it('the default pixel limit is sharp’s 2^28 − 1 default for limitInputPixels (16383 × 16383)', () => {
