@@ -271,7 +271,7 @@ for (const [w, h] of [
     says: /over the pixel limit/,
   });
 cases.push({
-  name: 'png declaring 2147483647×2 (libpng 1.6 refuses widths over 10^6 by default, so this is a damaged file)',
+  name: 'png declaring 2147483647×2 (libpng 1.6 refuses widths over its default user limit of 10^6, from memory; named as damage)',
   make: () =>
     put(
       buildPng({ width: 2 ** 31 - 1, height: 2, bitDepth: 8, colourType: 0, raw: new Uint8Array(1024) }),

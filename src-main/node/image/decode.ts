@@ -489,7 +489,7 @@ function refuseTiffModel(file: string, f: TiffFacts): void {
     throw new InputError(file, `has ${bits}-bit samples; Rankfold reads 1-, 2-, 4-, 8- and 16-bit samples`, {
       bits,
     });
-  // libtiff 4.7 treats an Orientation outside 1–8 as an error while reading pixels, so it cannot be
+  // libtiff 4.7.2 (observed here) treats an Orientation outside 1–8 as an error while reading pixels, so it cannot be
   // dropped with a warning as for PNG and JPEG: it is named instead of being called damage.
   if (f.orientation !== undefined && !(f.orientation >= 1 && f.orientation <= 8))
     throw new InputError(
