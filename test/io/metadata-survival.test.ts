@@ -336,6 +336,34 @@ describe('out-of-range resolution: dropped with a warning on compress, and on ex
     }
   });
 
+  it('the large-scan (tiled, integer-sample) path keeps the same metadata: no out-of-range density, the grey PNG’s RGB profile', async () => {
+    const big = await encodeImageBuffer(
+      {
+        width: 64,
+        height: 48,
+        channels: 1,
+        bitDepth: 8,
+        planes: [Float32Array.from({ length: 64 * 48 }, (_, i) => i % 251)],
+        meta: { icc: rgbIcc },
+      },
+      { format: 'png' },
+    );
+    const file = join(dir, 'tiled-phys.png');
+    await writeFile(file, replacePngChunk(big, 'pHYs', physChunk(0xffffffff, 0xffffffff, 1)));
+    // tiledAbove: 0 sends even this small scan down the path large scans take (services/compress.ts).
+    await compressFile(
+      file,
+      `${file}.rkf`,
+      { budget: { kind: 'percent', percent: 50 }, tile: 32 },
+      { tiledAbove: 0 },
+    );
+    const ex = await expandFile(`${file}.rkf`, `${file}.png`);
+    expect(ex.warnings).toBeUndefined();
+    const m = pngMeta(await readFile(`${file}.png`));
+    expect(m.ppm).toBeUndefined();
+    expect(Buffer.compare(m.icc as Buffer, rgbIcc)).toBe(0);
+  });
+
   it('a container that already stores 109092169 dpi (written before the check) expands with a warning, pixels intact', async () => {
     const src = await decodeImage(
       await (async () => {

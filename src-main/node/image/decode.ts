@@ -39,6 +39,10 @@ const FORMAT_NAMES = 'PNG, TIFF, JPEG and WebP';
 
 /** Header facts about a scan, without decoding its pixels. */
 export interface ProbeResult {
+  /**
+   * sharp's header metadata, except that `icc`, `density` and `orientation` are replaced by the values
+   * Rankfold keeps (`keep`), so a reader built on the probe never carries an unwritable value on.
+   */
   meta: Metadata;
   /** Upright size (after EXIF orientation). */
   width: number;
@@ -130,7 +134,12 @@ export async function probeImage(file: string, options: DecodeOptions = {}): Pro
   warnings.push(...kept.warnings);
   const swap = (kept.meta.orientation ?? 1) >= 5;
   return {
-    meta,
+    meta: {
+      ...meta,
+      icc: kept.meta.icc ? Buffer.from(kept.meta.icc) : undefined,
+      density: kept.meta.density,
+      orientation: kept.meta.orientation,
+    },
     width: swap ? storedH : storedW,
     height: swap ? storedW : storedH,
     bitDepth,
