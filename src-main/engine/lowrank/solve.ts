@@ -48,7 +48,7 @@ function magClass(a: number): number {
 }
 
 /** Estimated code lengths (bits) of entry magnitudes, conditioned on the previous entry's magnitude class. */
-function costTable(comps: Comp[][][]): Float64Array[] {
+export function costTable(comps: Comp[][][]): Float64Array[] {
   const counts = Array.from({ length: 4 }, () => new Float64Array(ESC + 1).fill(0.5));
   const count = (q: Int32Array) => {
     let prev = 0;
@@ -70,7 +70,7 @@ function costTable(comps: Comp[][][]): Float64Array[] {
   });
 }
 
-function vectorBits(q: Int32Array, table: Float64Array[]): number {
+export function vectorBits(q: Int32Array, table: Float64Array[]): number {
   let bits = 0;
   let prev = 0;
   for (let j = 0; j < q.length; j++) {

@@ -40,13 +40,17 @@ import {
 } from './encode';
 import { factorPlane, type PlaneFactors, type TileFactors } from './factorise';
 import {
+  buildCandidate,
   type Comp,
   collectComponents,
+  costTable,
   orderCandidate,
   type PlaneInput,
+  prefixForBytes,
   prefixRanks,
   quantPlanes,
   refine,
+  vectorBits,
 } from './solve';
 
 /** A decoded scan whose planes are integer samples (Uint8Array for 8-bit, Uint16Array for 16-bit). */
@@ -69,6 +73,8 @@ export interface TiledEncodeResult {
   lossless: boolean;
   /** Tiles that were constant after their mean and skipped the SVD. */
   constantTiles: number;
+  /** Components dropped while streaming because their tile could not reach the pruning slope. */
+  prunedComponents: number;
 }
 
 /** Whether the tiled encoder handles this budget and tile choice (byte budgets with tiles). */
@@ -130,14 +136,34 @@ export function encodeScanTiled(img: SampleImage, opts: EncodeOptions): TiledEnc
 
   // 1. Tile side and step from the centred crop, at the scan's bits per pixel.
   progress('probe', 0);
-  const probe = encodeScan(centredCrop(img), {
+  const crop = centredCrop(img);
+  const probe = encodeScan(crop, {
     ...opts,
     budget: { kind: 'bpp', bpp: (8 * byteBudget) / (width * height) },
     onProgress: undefined,
   });
   const tile = opts.tile === 'auto' ? probe.ranks[0]?.tile || 64 : opts.tile;
   const delta = probe.header.planes[0].step;
+  const stepScales = weights.map((w) => Math.sqrt(weights[0] / w));
   cancel();
+  // The crop's rate–distortion slope at its budget (gain per estimated bit of its last component), and
+  // its cost table: a component whose tile cannot reach PRUNE_SLOPE of that slope is dropped at once.
+  const cropPlanes: ArrayLike<number>[] = colour
+    ? rgbToYcbcr(crop.planes[0], crop.planes[1], crop.planes[2], img.bitDepth)
+    : [crop.planes[0]];
+  const cropCand = buildCandidate(
+    cropPlanes.map((p, k) => ({
+      factors: factorPlane(p, crop.width, crop.height, { tile, meanRemoval: true, meanStep }),
+      weight: weights[k],
+      stepScale: stepScales[k],
+    })),
+    delta,
+  );
+  // At twice the crop's bytes: the estimated bits can overstate the coded size, which would set λ too high.
+  const cropP = prefixForBytes(cropCand, 2 * probe.bytes.length, 1);
+  const last = cropP > 0 ? cropCand.order[cropP - 1] : undefined;
+  const minSlope = last && last.cost > 0 ? (PRUNE_SLOPE * last.gain) / last.cost : 0;
+  const table = costTable(cropCand.comps);
 
   // 2. Factor and quantise band by band; keep only the quantised components.
   const tiles: TileFactors[][] = names.map(() => []);
@@ -145,7 +171,7 @@ export function encodeScanTiled(img: SampleImage, opts: EncodeOptions): TiledEnc
   const errs: Float64Array[][] = names.map(() => []);
   let baseD = 0;
   let constantTiles = 0;
-  const stepScales = weights.map((w) => Math.sqrt(weights[0] / w));
+  let prunedComponents = 0;
   const gray = new Float64Array(colour ? 0 : tile * width);
   for (let y0 = 0; y0 < height; y0 += tile) {
     cancel();
@@ -166,11 +192,19 @@ export function encodeScanTiled(img: SampleImage, opts: EncodeOptions): TiledEnc
       stepScale: stepScales[k],
     }));
     const got = collectComponents(inputs, delta);
+    const bandStart = comps.map((c) => c.length);
     baseD += got.baseD;
     inputs.forEach((inp, k) => {
       inp.factors.tiles.forEach((tf, t) => {
         if (tf.energy === 0) constantTiles++;
-        const list = got.comps[k][t];
+        let list = got.comps[k][t];
+        let e = got.errs[k][t];
+        const keep = minSlope > 0 ? usefulPrefix(list, e, tf.s, weights[k], table, minSlope) : list.length;
+        if (keep < list.length) {
+          list = list.slice(0, keep);
+          e = e.slice(0, keep);
+          prunedComponents += got.comps[k][t].length - keep;
+        }
         tiles[k].push({
           rect: { ...tf.rect, y: tf.rect.y + y0 },
           meanQ: tf.meanQ,
@@ -182,9 +216,10 @@ export function encodeScanTiled(img: SampleImage, opts: EncodeOptions): TiledEnc
           V: NO_VECTORS,
         });
         comps[k].push(list);
-        errs[k].push(got.errs[k][t]);
+        errs[k].push(e);
       });
     });
+    packBand(comps, bandStart);
     progress('factor', (0.8 * (y0 + bh)) / height);
   }
   const planesF: PlaneFactors[] = names.map((_, k) => ({ width, height, tile, meanStep, tiles: tiles[k] }));
@@ -306,6 +341,7 @@ export function encodeScanTiled(img: SampleImage, opts: EncodeOptions): TiledEnc
     encodeMs: t2 - t1,
     lossless,
     constantTiles,
+    prunedComponents,
   };
 }
 
@@ -353,6 +389,57 @@ function factorBand(
     out.push({ ...f.tiles[0], rect });
   }
   return { width, height: bh, tile, meanStep, tiles: out };
+}
+
+/**
+ * Fraction of the crop's final slope below which components are dropped while streaming (the crop stands
+ * for the scan; the margin covers a scan richer than its centre). Measured on an 8000×8000 RGB page at
+ * --budget 5 %: 1/4 dropped so many that the file stayed 15 % under the budget at 41.3 dB; 1/16 kept the
+ * unpruned result (42.84 dB) and dropped 644 k components, and peak memory fell from 2.1 to 1.25 GB.
+ */
+export const PRUNE_SLOPE = 1 / 16;
+
+/**
+ * Components of a tile worth keeping: up to the last one whose own gain per estimated bit is ≥ minSlope.
+ * (A greedy block taken at slope λ has an average slope ≥ λ, so one of its components has; the components
+ * after the last such one are not kept. Heuristic: blocks whose best member comes before a weak tail lose
+ * that tail, which the measured sizes showed to be rare.)
+ */
+function usefulPrefix(
+  list: Comp[],
+  errs: Float64Array,
+  s: Float64Array,
+  weight: number,
+  table: Float64Array[],
+  minSlope: number,
+): number {
+  let keep = 0;
+  for (let i = 0; i < list.length; i++) {
+    const gain = weight * (s[i] * s[i] - errs[i]);
+    const bits = vectorBits(list[i].qu, table) + vectorBits(list[i].qv, table) + 2;
+    if (gain >= minSlope * bits) keep = i + 1;
+  }
+  return keep;
+}
+
+/**
+ * Copy a band's component vectors into one Int32Array per plane and point the components at views of it:
+ * one allocation per band instead of two small ones per component (each with its own off-heap store).
+ */
+function packBand(comps: Comp[][][], from: number[]): void {
+  comps.forEach((pc, k) => {
+    let total = 0;
+    for (let t = from[k]; t < pc.length; t++) for (const c of pc[t]) total += c.qu.length + c.qv.length;
+    if (total === 0) return;
+    const store = new Int32Array(total);
+    let at = 0;
+    const view = (q: Int32Array) => {
+      store.set(q, at);
+      at += q.length;
+      return store.subarray(at - q.length, at);
+    };
+    for (let t = from[k]; t < pc.length; t++) pc[t] = pc[t].map((c) => ({ qu: view(c.qu), qv: view(c.qv) }));
+  });
 }
 
 function equalArrays(a: ArrayLike<number>, b: ArrayLike<number>): boolean {

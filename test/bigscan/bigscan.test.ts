@@ -1,0 +1,193 @@
+// Large scans: the integer-sample, band-by-band paths (src-main/engine/lowrank/tiled.ts and sketch.ts,
+// decodeImageFileSamples) against the whole-plane paths they stand in for, and a blank scan above the
+// tiled threshold through compress → expand with its memory watched. No timing assertions.
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import sharp from 'sharp';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { decodeImageFile, decodeImageFileSamples } from '../../src-main/engine/codec/image-file';
+import { reconstructPlane, reconstructRows } from '../../src-main/engine/codec/quantise';
+import { tileGrid } from '../../src-main/engine/codec/quantised';
+import { initEngine, singularValues } from '../../src-main/engine/linalg';
+import { sketchSpectrum } from '../../src-main/engine/lowrank/sketch';
+import { TILED_PIXELS } from '../../src-main/engine/lowrank/tiled';
+import { psnrPlanes } from '../../src-main/engine/metrics';
+import { decodeImage } from '../../src-main/node/image/decode';
+import { decodeSamples } from '../../src-main/node/image/raw-decode';
+import { COMPRESSORS, compressFile } from '../../src-main/node/services/compress';
+import { expandFile } from '../../src-main/node/services/expand';
+import { inspectScan } from '../../src-main/node/services/inspect';
+
+const IMAGES = join(__dirname, '../fixtures/images');
+let dir: string;
+
+beforeAll(async () => {
+  dir = mkdtempSync(join(tmpdir(), 'rankfold-bigscan-'));
+  await initEngine();
+});
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+describe('integer-sample decoding', () => {
+  it('decodeSamples gives decodeImage’s samples and SHA-256 (gray 8-bit, RGB 8-bit, gray 16-bit)', async () => {
+    for (const name of ['camera.png', 'phantom.png', 'chessboard_GRAY_U16.tif']) {
+      const file = join(IMAGES, name);
+      const a = await decodeImage(file);
+      const b = await decodeSamples(file);
+      expect(b.sourceSha256).toBe(a.sourceSha256);
+      expect(b.channels).toBe(a.channels);
+      for (let c = 0; c < a.channels; c++) expect(Array.from(b.planes[c])).toEqual(Array.from(a.planes[c]));
+    }
+  });
+
+  it('reconstructRows band by band equals reconstructPlane, and decodeImageFileSamples equals decodeImageFile', async () => {
+    for (const [name, tile] of [
+      ['camera.png', 'auto'],
+      ['phantom.png', 48],
+    ] as const) {
+      const out = join(dir, `${name}.rkf`);
+      await compressFile(join(IMAGES, name), out, { budget: { kind: 'bpp', bpp: 1 }, tile, force: true });
+      const bytes = new Uint8Array(readFileSync(out));
+      const f32 = decodeImageFile(bytes, out, { compressors: COMPRESSORS });
+      const ints = decodeImageFileSamples(bytes, out, { compressors: COMPRESSORS });
+      expect(ints.samples.length).toBe(f32.samples.length);
+      for (let c = 0; c < f32.samples.length; c++)
+        expect(Array.from(ints.samples[c])).toEqual(Array.from(f32.samples[c]));
+    }
+    // A hand-made plane: whole rows of odd band heights against the whole-plane rebuild.
+    const plane = {
+      width: 37,
+      height: 29,
+      tile: 16,
+      step: 0.5,
+      meanStep: 0.25,
+      tiles: tileGrid(37, 29, 16).map((r, t) => ({
+        meanQ: 100 + t,
+        u: [Int32Array.from({ length: r.h }, (_, i) => ((i * 7 + t) % 5) - 2)],
+        v: [Int32Array.from({ length: r.w }, (_, j) => ((j * 3 + t) % 7) - 3)],
+      })),
+    };
+    const whole = reconstructPlane(plane);
+    const rects = tileGrid(37, 29, 16);
+    const rebuilt = new Float64Array(37 * 29);
+    for (let y0 = 0; y0 < 29; y0 += 11) {
+      const y1 = Math.min(29, y0 + 11);
+      const band = new Float64Array((y1 - y0) * 37);
+      reconstructRows(plane, rects, y0, y1, band);
+      rebuilt.set(band, y0 * 37);
+    }
+    expect(Array.from(rebuilt)).toEqual(Array.from(whole));
+  });
+});
+
+describe('randomized sketch read in strips (HMT 2011 Alg. 4.4 + 5.1)', () => {
+  it('matches the exact top values of a plane with constant rows; the energy is exact', () => {
+    const m = 300;
+    const n = 220;
+    const a = new Float64Array(m * n);
+    // Rank 6 plus constant rows (a blank margin at the top and bottom).
+    for (let i = 0; i < m; i++)
+      for (let j = 0; j < n; j++) {
+        let v = 200;
+        if (i >= 40 && i < 260)
+          for (let r = 1; r <= 6; r++)
+            v += (30 / r) * Math.sin((r * (i + 1)) / 17) * Math.cos((r * (j + 2)) / 13);
+        a[i * n + j] = v;
+      }
+    const exact = singularValues({ rows: m, cols: n, data: a });
+    let energy = 0;
+    for (const x of a) energy += x * x;
+    const r = sketchSpectrum(m, n, (y0, y1, out) => out.set(a.subarray(y0 * n, y1 * n)), {
+      k: 10,
+      oversample: 10,
+      powerIters: 1,
+      stripRows: 32,
+    });
+    expect(r.constantRows).toBe(80);
+    expect(r.energy).toBeCloseTo(energy, 3);
+    expect(r.passes).toBe(4);
+    for (let i = 0; i < Math.min(7, r.s.length); i++)
+      expect(Math.abs(r.s[i] - exact[i])).toBeLessThan(1e-8 * exact[0]);
+  });
+
+  it('inspect above its sketch threshold says the values are estimated from a sketch (JSON field and method)', async () => {
+    const file = join(IMAGES, 'camera.png');
+    const full = await inspectScan({ file });
+    const sketched = await inspectScan({ file }, { sketchAbove: 0 });
+    const main = sketched.spectra[0];
+    expect(main.method).toBe('randomized');
+    expect(main.complete).toBe(false);
+    expect(main.sketch?.reference).toMatch(/Halko, Martinsson & Tropp 2011/);
+    expect(main.energy).toBeCloseTo(full.spectra[0].energy, 0);
+    // The first values of a sketch with one power iteration (an 8-bit photograph): within 1 % of the exact ones.
+    for (let i = 0; i < 5; i++)
+      expect(Math.abs(main.singularValues[i] - full.singularValues[i])).toBeLessThan(
+        0.01 * full.singularValues[i],
+      );
+  });
+});
+
+describe('tiled compress (byte budgets) on a normal image, forced', () => {
+  it('meets the budget, expands to what it reports, and stays near the whole search’s PSNR', async () => {
+    for (const name of ['camera.png', 'phantom.png']) {
+      const file = join(IMAGES, name);
+      const budget = { kind: 'percent' as const, percent: 8 };
+      const normal = await compressFile(file, join(dir, `${name}.n.rkf`), {
+        budget,
+        tile: 'auto',
+        force: true,
+      });
+      const out = join(dir, `${name}.t.rkf`);
+      const tiled = await compressFile(file, out, { budget, tile: 'auto', force: true }, { tiledAbove: 0 });
+      expect(tiled.outputBytes).toBeLessThanOrEqual(Math.floor(tiled.rawBytes * 0.08));
+      // The crop is the whole image here, so tile and step are the full search's; pruning must not cost.
+      expect(tiled.psnr).toBeGreaterThan(normal.psnr - 0.5);
+      const png = join(dir, `${name}.t.png`);
+      await expandFile(out, png, { force: true });
+      const src = await decodeImage(file);
+      const back = await decodeImage(png);
+      const n = src.hasAlpha ? src.channels - 1 : src.channels;
+      const psnr = psnrPlanes(src.planes.slice(0, n), back.planes.slice(0, n), 255);
+      expect(psnr).toBeCloseTo(tiled.psnr, 6);
+    }
+  });
+});
+
+describe('a blank scan above the tiled threshold', () => {
+  it('compresses losslessly to a tiny file and expands, in memory well under 4 bytes per pixel', async () => {
+    const side = Math.ceil(Math.sqrt(TILED_PIXELS)) + 64; // 5857² ≈ 34.3 MP
+    const file = join(dir, 'blank.png');
+    await sharp({ create: { width: side, height: side, channels: 3, background: '#fafafa' } })
+      .toColourspace('b-w')
+      .png()
+      .toFile(file);
+    const base = process.memoryUsage().rss;
+    let peak = base;
+    const watch = () => {
+      peak = Math.max(peak, process.memoryUsage().rss);
+    };
+    const out = join(dir, 'blank.rkf');
+    const report = await compressFile(
+      out.replace('.rkf', '.png'),
+      out,
+      {
+        budget: { kind: 'percent', percent: 5 },
+        tile: 'auto',
+        force: true,
+      },
+      { onProgress: watch },
+    );
+    watch();
+    expect(report.lossless).toBe(true);
+    expect(report.psnr).toBe(Number.POSITIVE_INFINITY);
+    expect(report.outputBytes).toBeLessThan(200_000);
+    const pixels = side * side;
+    // The whole-plane path holds 4-byte floats of the scan and more (about 20 bytes per pixel measured at
+    // 256 MP); the tiled one holds 1-byte samples, the 1-byte reconstruction and per-tile records.
+    expect(peak - base).toBeLessThan(4 * pixels);
+    const png = join(dir, 'blank-out.png');
+    await expandFile(out, png, { force: true });
+    const back = await decodeSamples(png);
+    expect(back.sourceSha256).toBe(report.sourceSha256);
+  }, 120_000);
+});
