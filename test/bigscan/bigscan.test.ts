@@ -168,7 +168,7 @@ describe('a blank scan above the tiled threshold', () => {
     };
     const out = join(dir, 'blank.rkf');
     const report = await compressFile(
-      out.replace('.rkf', '.png'),
+      file,
       out,
       {
         budget: { kind: 'percent', percent: 5 },
