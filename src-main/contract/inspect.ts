@@ -94,6 +94,8 @@ export interface InspectReport {
   hasIccProfile: boolean;
   /** SHA-256 of the decoded samples (see docs/format.md). */
   sourceSha256: string;
+  /** Metadata left out on reading (out-of-range resolution, damaged ICC profile…), one sentence each. */
+  warnings?: string[];
   /** Which plane `singularValues` describes: the gray plane, or luma for colour. */
   plane: 'gray' | 'luma';
   /** Singular values of the gray or luma plane, in grey levels of the input. Same as spectra[0].singularValues. */

@@ -25,6 +25,7 @@ import { decodeImage } from '../../src-main/node/image/decode';
 import { encodeImageBuffer } from '../../src-main/node/image/encode';
 import { compressDecoded, compressFile } from '../../src-main/node/services/compress';
 import { expandFile } from '../../src-main/node/services/expand';
+import { inspectScan } from '../../src-main/node/services/inspect';
 import { greyIccProfile, physChunk, pngChunks, replacePngChunk } from './hostile-fixtures';
 
 let dir: string;
@@ -333,6 +334,15 @@ describe('out-of-range resolution: dropped with a warning on compress, and on ex
       const ex = await expandFile(`${file}.rkf`, `${file}.${ext}`);
       expect(ex.metadata.density).toBeUndefined();
       expect(ex.warnings).toBeUndefined();
+    }
+    // inspect says the same, on the whole-image path and on the sketched large-scan path.
+    const want = [
+      `${file}: its resolution of 109092169 pixels per inch is outside the 0–1000000 pixels per inch that PNG and TIFF output can hold, so it is left out and the pixels are kept`,
+    ];
+    for (const sketchAbove of [undefined, 0]) {
+      const seen = await inspectScan({ file }, { sketchAbove });
+      expect(seen.density).toBeUndefined();
+      expect(seen.warnings).toEqual(want);
     }
   });
 

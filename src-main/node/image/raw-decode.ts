@@ -6,6 +6,7 @@
  */
 import { createHash } from 'node:crypto';
 import sharp, { type OutputInfo } from 'sharp';
+import type { WithWarnings } from '../../contract';
 import { InputError } from '../../contract';
 import type { SampleImage } from '../../engine/lowrank/tiled';
 import { DEFAULT_PIXEL_LIMIT, type DecodeOptions, decodeImage, probeImage } from './decode';
@@ -14,7 +15,10 @@ import { DEFAULT_PIXEL_LIMIT, type DecodeOptions, decodeImage, probeImage } from
 const HASH_CHUNK = 1 << 20;
 
 /** Decode `file` into integer planes (see the module comment). Every failure is an InputError naming the file. */
-export async function decodeSamples(file: string, options: DecodeOptions = {}): Promise<SampleImage> {
+export async function decodeSamples(
+  file: string,
+  options: DecodeOptions = {},
+): Promise<SampleImage & WithWarnings> {
   const page = options.page ?? 0;
   const pixelLimit = options.pixelLimit ?? DEFAULT_PIXEL_LIMIT;
   const probe = await probeImage(file, { page, pixelLimit });
@@ -111,5 +115,6 @@ export async function decodeSamples(file: string, options: DecodeOptions = {}): 
     inputBytes: probe.inputBytes,
     rawBytes: n * channels * (bitDepth / 8),
     sourceSha256: hash.digest('hex'),
+    ...(probe.warnings.length > 0 ? { warnings: probe.warnings } : {}),
   };
 }

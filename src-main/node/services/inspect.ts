@@ -206,7 +206,7 @@ export async function inspectScan(
   const probe = await probeImage(req.file, { page: req.page, pixelLimit: req.pixelLimit });
   if (probe.width * probe.height > (options.sketchAbove ?? TILED_PIXELS))
     return inspectSketched(req, options, t0);
-  const img: DecodedImage = await decodeImage(req.file, { page: req.page, pixelLimit: req.pixelLimit });
+  const img = await decodeImage(req.file, { page: req.page, pixelLimit: req.pixelLimit });
   const t1 = performance.now();
   await initEngine();
   const maxValue = img.bitDepth === 16 ? 65535 : 255;
@@ -254,6 +254,7 @@ export async function inspectScan(
     singularValues: spectra[0].singularValues,
     spectra,
     timings: { decodeMs: Math.round(t1 - t0), spectrumMs: Math.round(t2 - t1) },
+    ...(img.warnings ? { warnings: img.warnings } : {}),
   };
 }
 
@@ -386,5 +387,6 @@ async function inspectSketched(
     singularValues: spectra[0].singularValues,
     spectra,
     timings: { decodeMs: Math.round(t1 - t0), spectrumMs: Math.round(t2 - t1) },
+    ...(img.warnings ? { warnings: img.warnings } : {}),
   };
 }

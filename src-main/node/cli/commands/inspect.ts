@@ -209,6 +209,7 @@ export const command: Command = {
     } finally {
       bar?.stop();
     }
+    for (const w of report.warnings ?? []) io.stderr(`warning: ${w}\n`);
     io.stdout(
       values.json ? `${JSON.stringify(report)}\n` : formatInspectReport(report, Boolean(values.full)),
     );
