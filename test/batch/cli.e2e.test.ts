@@ -10,6 +10,7 @@ import { join } from 'node:path';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { BatchRow } from '../../src-main/contract';
+import { spawnWithModeBits } from '../helpers/permissions';
 import {
   BUDGET,
   built,
@@ -17,7 +18,6 @@ import {
   filesUnder,
   goodSet,
   hashTree,
-  isRoot,
   jsonLines,
   manifestRows,
   rkfOnly,
@@ -426,19 +426,22 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     expect(r.stderr).toContain('cannot be written');
   });
 
-  it.skipIf(isRoot)(
-    'a folder without write permission fails every file (only when not root: root ignores mode bits)',
-    async () => {
-      const out = join(root, 'readonly-out');
-      await mkdir(out);
-      spawnSync('chmod', ['0555', out]);
-      const r = run([join(mixedIn, 'box-0'), '-o', out, ...BUDGET, '--json']);
-      spawnSync('chmod', ['0755', out]);
-      expect(r.code).toBe(2);
-      for (const f of jsonLines(r.stdout).filter((e) => e.event === 'file') as unknown as BatchRow[])
-        expect(f.error!.message).toContain('permission denied when writing');
-    },
-  );
+  it('a folder without write permission fails every file (as root too: run without CAP_DAC_OVERRIDE)', async () => {
+    const out = join(root, 'readonly-out');
+    await mkdir(out);
+    spawnSync('chmod', ['0555', out]);
+    const r = spawnWithModeBits(
+      process.execPath,
+      [cli, 'batch', join(mixedIn, 'box-0'), '-o', out, ...BUDGET, '--json'],
+      {
+        env: { ...process.env, FORCE_COLOR: '0' },
+      },
+    );
+    spawnSync('chmod', ['0755', out]);
+    expect(r.status).toBe(2);
+    for (const f of jsonLines(r.stdout).filter((e) => e.event === 'file') as unknown as BatchRow[])
+      expect(f.error!.message).toContain('permission denied when writing');
+  });
 
   describe('on small file systems (tmpfs; skipped where mounting is not allowed)', () => {
     const mountRoot = mkdtempSync(join(tmpdir(), 'rankfold-batch-mnt-'));

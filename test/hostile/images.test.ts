@@ -23,6 +23,7 @@ import {
   probeImage,
 } from '../../src-main/node/image/decode';
 import { image, repoRoot } from '../helpers/fixtures';
+import { spawnWithModeBits } from '../helpers/permissions';
 import {
   buildPng,
   buildTiff,
@@ -837,17 +838,11 @@ describe('file-system problems are named as such (POSIX.1-2017 <errno.h> codes a
 
   it('a real unreadable file (mode 000) is named as a permission problem, not as "not an image"', () => {
     const sub = mkdtempSync(join(dir, 'perm-'));
-    chmodSync(sub, 0o755);
     const f = join(sub, 'locked.png');
     writeFileSync(f, bases.png);
     chmodSync(f, 0o000);
-    const isRoot = process.getuid?.() === 0;
-    // As root, permission bits do not bind; the CLI is run as user 65534 ("nobody"), which they do bind.
-    // Needs the built CLI (dist/cli.js; `npm test` builds first).
-    const r = spawnSync(process.execPath, [join(repoRoot, 'dist', 'cli.js'), 'inspect', f], {
-      encoding: 'utf8',
-      ...(isRoot ? { uid: 65534, gid: 65534 } : {}),
-    });
+    // Needs the built CLI (dist/cli.js; `npm test` builds first). Run so that mode bits bind even as root.
+    const r = spawnWithModeBits(process.execPath, [join(repoRoot, 'dist', 'cli.js'), 'inspect', f]);
     expect(r.status).toBe(1);
     expect(r.stderr.trim()).toBe(
       `rankfold inspect: ${f}: permission denied when reading; check that you may read the file and open every folder above it`,
