@@ -8,6 +8,7 @@ import { createReadStream } from 'node:fs';
 import { mkdir } from 'node:fs/promises';
 import { dirname } from 'node:path';
 import { InputError, RankfoldError } from '../../contract';
+import { describeFileError } from '../image/decode';
 import { describeWriteError } from '../io/atomic';
 import type { compressFile } from '../services/compress';
 
@@ -88,12 +89,8 @@ export function hashFile(file: string): Promise<string> {
     s.on('end', () => resolve(h.digest('hex')));
     s.on('error', (err) => {
       const code = (err as NodeJS.ErrnoException).code;
-      if (code === 'EACCES' || code === 'EPERM')
-        reject(new InputError(file, 'permission denied when reading'));
-      else if (code === 'ENOENT')
-        reject(new InputError(file, 'no such file (it disappeared during the batch)'));
-      else if (code === 'EISDIR') reject(new InputError(file, 'is a folder, not an image file'));
-      else reject(new InputError(file, `cannot be read (${code ?? err.message})`));
+      if (code === 'ENOENT') reject(new InputError(file, 'no such file (it disappeared during the batch)'));
+      else reject(describeFileError(file, err));
     });
   });
 }

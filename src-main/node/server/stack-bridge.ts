@@ -10,6 +10,7 @@ import { readFile, stat } from 'node:fs/promises';
 import { basename } from 'node:path';
 import { encodeFactorSet, InputError, type StackFrameInfo, UsageError } from '../../contract';
 import { isStackContainer, openStack, type StackReader } from '../../engine/codec/stack-codec';
+import { describeFileError } from '../image/decode';
 
 export interface StackSession {
   file: string;
@@ -39,7 +40,7 @@ async function load(file: string): Promise<StackSession> {
     st = await stat(file);
     bytes = new Uint8Array(await readFile(file));
   } catch (err) {
-    throw new InputError(file, `cannot be read (${(err as NodeJS.ErrnoException).code ?? String(err)})`);
+    throw describeFileError(file, err);
   }
   if (!isStackContainer(bytes, file))
     throw new InputError(

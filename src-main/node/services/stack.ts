@@ -30,7 +30,7 @@ import {
   prepareStack,
   type StackInput,
 } from '../../engine/codec/stack-codec';
-import { decodeImage, probeImage } from '../image/decode';
+import { decodeImage, describeFileError, probeImage } from '../image/decode';
 import { encodeImage, formatFromPath } from '../image/encode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 
@@ -373,11 +373,7 @@ async function readStackFile(file: string) {
   try {
     bytes = new Uint8Array(await readFile(file));
   } catch (err) {
-    const code = (err as NodeJS.ErrnoException).code;
-    throw new InputError(
-      file,
-      code === 'ENOENT' ? 'no such file' : `cannot be read (${code ?? String(err)})`,
-    );
+    throw describeFileError(file, err);
   }
   return openStack(bytes, file);
 }
