@@ -3,6 +3,8 @@
  * run folders. Plain TypeScript modules; charts by uPlot. Talks to the back end only through the
  * contract (./transport.ts picks IPC or HTTP).
  */
+// First: makes navigator.language usable before the chart library reads it.
+import './locale-guard';
 import 'uplot/dist/uPlot.min.css';
 import './styles.css';
 import {
