@@ -24,6 +24,41 @@ export interface CompressOptions {
   compare?: boolean;
   /** Refuse inputs with more pixels than this. */
   pixelLimit?: number;
+  /**
+   * 'auto' (default): under a byte budget (bytes, percent, bpp), also try a wavelet-coded residual layer on
+   * top of the low-rank base and keep the split with the least error. 'base': the low-rank factors only.
+   * Rank budgets and quality floors are always base-only; so are scans above 2^25 pixels.
+   */
+  layers?: 'auto' | 'base';
+}
+
+/** One split of the byte budget between the layers that the two-layer search tried. */
+export interface LayerCandidateReport {
+  kind: 'base-only' | 'residual-only' | 'mixed';
+  /** Slope multiplier of a mixed candidate (the base keeps components at least κ·λ steep). */
+  kappa?: number;
+  /** Kept components over every tile and plane of the base. */
+  baseComponents: number;
+  baseBytes: number;
+  residualBytes: number;
+  residualStep?: number;
+  fileBytes: number;
+  /** Weighted squared error before rounding (the residual's estimated in the wavelet domain). */
+  sse: number;
+}
+
+/** Bytes per layer of the written file, and how the split was chosen. */
+export interface LayerReport {
+  /** Bytes of the low-rank base (the factor streams) and of the wavelet-coded residual. */
+  baseBytes: number;
+  residualBytes: number;
+  /** Residual quantiser step per coded plane (null: no residual). */
+  residualSteps: Array<number | null>;
+  chosen: LayerCandidateReport['kind'];
+  /** Every candidate the search tried (empty when it did not run: rank or quality budgets, large scans). */
+  candidates: LayerCandidateReport[];
+  /** Real encodes of the residual layer during the search (each codes every plane once). */
+  residualEncodes: number;
 }
 
 export interface ErrorFigures {
@@ -60,7 +95,7 @@ export interface CompressReport {
   ratio: number;
   /** 8 · outputBytes / (width · height). */
   bpp: number;
-  /** Per channel: the rank (whole plane) or a per-tile summary. */
+  /** Per channel: the rank (whole plane) or a per-tile summary, of the low-rank base layer. */
   ranks: Array<{
     channel: string;
     rank?: number;
@@ -68,7 +103,10 @@ export interface CompressReport {
   }>;
   psnr: number;
   ssim: number;
+  /** About the low-rank base layer (with a residual layer, the base's own error, not the file's). */
   errors: ErrorFigures;
+  /** Bytes per layer (absent for the large-scan encoder, which writes base-only files). */
+  layers?: LayerReport;
   timings: { decodeMs: number; factorMs: number; encodeMs: number };
   compare?: CodecComparison[];
   /** Tile side used (0 = whole plane). */

@@ -132,10 +132,13 @@ describe('tiled compress (byte budgets) on a normal image, forced', () => {
     for (const name of ['camera.png', 'phantom.png']) {
       const file = join(IMAGES, name);
       const budget = { kind: 'percent' as const, percent: 8 };
+      // The tiled encoder writes base-only files (no residual layer in the large-scan path), so it is compared
+      // with the base-only search; the default two-layer file is 2.3 dB better on camera.png here.
       const normal = await compressFile(file, join(dir, `${name}.n.rkf`), {
         budget,
         tile: 'auto',
         force: true,
+        layers: 'base',
       });
       const out = join(dir, `${name}.t.rkf`);
       const tiled = await compressFile(file, out, { budget, tile: 'auto', force: true }, { tiledAbove: 0 });

@@ -36,6 +36,10 @@ describe('rankfold compress', () => {
       '3.5kB',
       '--tile',
       '32',
+      // Base only: this test reads the per-tile rank summary, and the default two-layer split keeps rank 0
+      // (residual only) on this page at this budget. The default is checked in the next test.
+      '--layers',
+      'base',
       '--json',
     );
     expect(r.code).toBe(0);
@@ -63,6 +67,32 @@ describe('rankfold compress', () => {
     // Frobenius error achieved is never below the Eckart–Young optimum by more than rounding allows.
     expect(j.errors.frobenius).toBeGreaterThan(0.9 * j.errors.frobeniusOptimal);
     expect(j.caution).toBe(LOSSY_CAUTION);
+  });
+
+  it('by default splits a byte budget between the base and a residual layer, and reports bytes per layer', async () => {
+    const out = join(dir, 'two.rkf');
+    const r = await run('compress', image('page.png'), '-o', out, '--budget', '3.5kB', '--json');
+    expect(r.code).toBe(0);
+    const j = JSON.parse(r.stdout);
+    expect(statSync(out).size).toBeLessThanOrEqual(3500);
+    expect(j.layers.baseBytes + j.layers.residualBytes).toBeLessThan(j.outputBytes);
+    expect(j.layers.candidates.map((c: { kind: string }) => c.kind)).toEqual(
+      expect.arrayContaining(['base-only', 'residual-only']),
+    );
+    const text = await run('compress', image('page.png'), '-o', join(dir, 'two-b.rkf'), '--budget', '3.5kB');
+    expect(text.stdout).toMatch(/layers: base \d+ B, residual \d+ B/);
+    const bad = await run(
+      'compress',
+      image('page.png'),
+      '-o',
+      join(dir, 'x.rkf'),
+      '--budget',
+      '3.5kB',
+      '--layers',
+      'two',
+    );
+    expect(bad.code).not.toBe(0);
+    expect(bad.stderr).toContain('Expected auto or base for layers but received "two"');
   });
 
   it('prints a readable report with the caution', async () => {

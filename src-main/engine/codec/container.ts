@@ -27,6 +27,11 @@ import { crc32 } from './crc32';
 export const MAGIC = Uint8Array.from([0x89, 0x52, 0x4b, 0x46, 0x0d, 0x0a, 0x1a, 0x0a]);
 export const VERSION_MAJOR = 1;
 export const VERSION_MINOR = 1;
+/**
+ * Highest minor version this writer produces: 1.2 marks a file whose image layout carries a residual layer
+ * (RSDL chunks). Only such files are written as 1.2; every other file stays 1.1, byte for byte.
+ */
+export const VERSION_MINOR_RESIDUAL = 2;
 /** Ancillary chunk of version ≥ 1.1 files: version copy and HEAD's CRC-32 (see the module comment). */
 export const FILE_CHECK = 'fchk';
 const FILE_CHECK_LENGTH = 8;
@@ -65,8 +70,15 @@ function getU32(b: Uint8Array, o: number): number {
   return ((b[o] << 24) | (b[o + 1] << 16) | (b[o + 2] << 8) | b[o + 3]) >>> 0;
 }
 
-/** Assemble a file from chunks (HEAD first). Pure; the node layer writes it atomically. */
-export function writeContainer(layoutChunks: Chunk[]): Uint8Array {
+/**
+ * Assemble a file from chunks (HEAD first). Pure; the node layer writes it atomically. `minor` is the minor
+ * version to record (default {@link VERSION_MINOR}; {@link VERSION_MINOR_RESIDUAL} for two-layer images).
+ */
+export function writeContainer(layoutChunks: Chunk[], minor: number = VERSION_MINOR): Uint8Array {
+  if (!(minor === VERSION_MINOR || minor === VERSION_MINOR_RESIDUAL))
+    throw new RangeError(
+      `this writer writes container version 1.${VERSION_MINOR} or 1.${VERSION_MINOR_RESIDUAL}`,
+    );
   if (!layoutChunks.length || layoutChunks[0].type !== 'HEAD')
     throw new RangeError('the first chunk must be HEAD');
   // The file check is filled in below, once HEAD's CRC is known; it has a fixed size.
@@ -97,8 +109,8 @@ export function writeContainer(layoutChunks: Chunk[]): Uint8Array {
   out.set(MAGIC, 0);
   out[8] = VERSION_MAJOR >> 8;
   out[9] = VERSION_MAJOR & 0xff;
-  out[10] = VERSION_MINOR >> 8;
-  out[11] = VERSION_MINOR & 0xff;
+  out[10] = minor >> 8;
+  out[11] = minor & 0xff;
   check.payload.set(out.subarray(8, 12), 0);
   let o = PREAMBLE;
   for (const c of [...chunks, { type: 'INDX', id: 0, payload: index }]) {

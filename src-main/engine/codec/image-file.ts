@@ -1,7 +1,9 @@
 /**
  * A single scan in the .rkf container (layout "image"): the HEAD JSON header, one PLNE chunk per coded
- * plane (Y or gray, Cb, Cr), an ALPH chunk for a lossless alpha plane and an ICCP chunk for the ICC
- * profile. Reading validates the header against the chunks before anything is decoded.
+ * plane (Y or gray, Cb, Cr) holding the low-rank base layer, an optional RSDL chunk per coded plane holding
+ * the residual layer (the source minus the decoded base, wavelet-coded; container version 1.2), an ALPH
+ * chunk for a lossless alpha plane and an ICCP chunk for the ICC profile. Reading validates the header
+ * against the chunks before anything is decoded.
  */
 import { FormatError } from '../../contract/errors';
 import { chromaOffset, roundInto, ycbcrToRgbSamples } from '../lowrank/colour';
@@ -11,11 +13,14 @@ import {
   type ContainerView,
   readContainer,
   refuseUnknownCritical,
+  VERSION_MINOR,
+  VERSION_MINOR_RESIDUAL,
   writeContainer,
 } from './container';
 import { type ByteCompressor, decodePlane, type EntropyId, encodePlane } from './entropy';
 import { DEAD_ZONE, reconstructRows } from './quantise';
 import { type QuantPlane, tileGrid } from './quantised';
+import { decodePlane as decodeWaveletPlane } from './wavelet-plane';
 
 export type ColourTransform = 'none' | 'ycbcr-jfif';
 
@@ -26,6 +31,11 @@ export interface PlaneHeader {
   step: number;
   meanStep: number;
   entropy: EntropyId;
+  /**
+   * Pixel-domain quantiser step of this plane's residual layer (the wavelet plane coder); absent when the
+   * plane has no residual (then there is no RSDL chunk for it).
+   */
+  residualStep?: number;
 }
 
 export interface RkfHeader {
@@ -65,6 +75,8 @@ const MAX_SIDE = 1 << 20;
 export interface ImageFileParts {
   header: RkfHeader;
   planes: Uint8Array[];
+  /** Residual layer per coded plane (wavelet plane coder bytes), or undefined for a plane without one. */
+  residuals?: Array<Uint8Array | undefined>;
   alpha?: Uint8Array;
   icc?: Uint8Array;
 }
@@ -110,12 +122,29 @@ export function writeImageFile(parts: ImageFileParts): Uint8Array {
   parts.planes.forEach((payload, id) => {
     chunks.push({ type: 'PLNE', id, payload });
   });
+  let residual = false;
+  parts.residuals?.forEach((payload, id) => {
+    if (!payload) return;
+    if (parts.header.planes[id]?.residualStep === undefined)
+      throw new RangeError(`plane ${id} has residual data but no residual step in its header`);
+    chunks.push({ type: RESIDUAL, id, payload });
+    residual = true;
+  });
   if (parts.alpha) chunks.push({ type: 'ALPH', id: 0, payload: parts.alpha });
-  return writeContainer(chunks);
+  // Only a two-layer file is version 1.2; every other image file stays 1.1, byte for byte.
+  return writeContainer(chunks, residual ? VERSION_MINOR_RESIDUAL : VERSION_MINOR);
 }
 
+/** Chunk type of a coded plane's residual layer (critical: a reader that does not know it must refuse). */
+export const RESIDUAL = 'RSDL';
+/**
+ * Largest scan (pixels) that may carry a residual layer: the decoder holds each coded plane's residual as
+ * one float64 plane, so above this (the large-scan encoder's threshold, 2^25) files are base-only.
+ */
+export const RESIDUAL_MAX_PIXELS = 1 << 25;
+
 /** Chunk types of the image layout (the container's own INDX and fchk aside). */
-const KNOWN = new Set(['HEAD', 'PLNE', 'ALPH', 'ICCP']);
+const KNOWN = new Set(['HEAD', 'PLNE', 'ALPH', 'ICCP', RESIDUAL]);
 
 export interface ReadOptions {
   compressors?: ByteCompressor[];
@@ -181,7 +210,25 @@ export function readImageHeader(
     if (typeof p.entropy !== 'string') fail(`plane ${k} names no entropy coder`);
     if (view.find('PLNE', k) < 0)
       fail(`is truncated or damaged: the data of plane ${k} (PLNE #${k}) is missing`);
+    if (p.residualStep !== undefined) {
+      if (!(typeof p.residualStep === 'number' && Number.isFinite(p.residualStep) && p.residualStep > 0))
+        fail(`plane ${k} has an invalid residual step ${String(p.residualStep)}`);
+      if (view.find(RESIDUAL, k) < 0)
+        fail(`is truncated or damaged: the residual of plane ${k} (${RESIDUAL} #${k}) is missing`);
+    }
   });
+  const residuals = header.planes.filter((p) => p.residualStep !== undefined).length;
+  if (residuals > 0 && width * height > RESIDUAL_MAX_PIXELS)
+    fail(
+      `declares a residual layer on ${width}×${height} = ${width * height} pixels, over the ${RESIDUAL_MAX_PIXELS} pixels a residual layer may cover`,
+    );
+  if (
+    view.entries.some(
+      (e) => e.type === RESIDUAL && (e.id >= wantPlanes || header.planes[e.id]?.residualStep === undefined),
+    ) ||
+    view.entries.filter((e) => e.type === RESIDUAL).length !== residuals
+  )
+    fail(`is inconsistent: unexpected residual chunks (${RESIDUAL})`);
   // Exactly the chunks the header calls for: one PLNE per plane, ALPH iff alpha, at most one ICCP.
   const count = (type: string) => view.entries.filter((e) => e.type === type).length;
   if (count('PLNE') !== wantPlanes) fail('is inconsistent: unexpected extra plane chunks');
@@ -274,6 +321,7 @@ export function decodeImageFileSamples(
       return planeFail(k, err);
     }
   });
+  const residual = decodeResiduals(view, header, file);
   const n = width * height;
   const colour = header.colourTransform === 'ycbcr-jfif';
   const samples: SampleArray[] = Array.from({ length: colour ? 3 : 1 }, () =>
@@ -285,14 +333,20 @@ export function decodeImageFileSamples(
   for (let y0 = 0; y0 < height; y0 += band) {
     const y1 = Math.min(height, y0 + band);
     const len = (y1 - y0) * width;
+    const at = y0 * width;
     quant.forEach(({ q, rects }, k) => {
       try {
         reconstructRows(q, rects, y0, y1, bufs[k]);
       } catch (err) {
         planeFail(k, err);
       }
+      // Two layers: base + residual in float64, before any rounding (the same sum decodeImageLayers gives).
+      const r = residual[k];
+      if (r) {
+        const b = bufs[k];
+        for (let i = 0; i < len; i++) b[i] += r[at + i];
+      }
     });
-    const at = y0 * width;
     if (colour)
       ycbcrToRgbSamples(bufs[0], bufs[1], bufs[2], len, bitDepth, samples[0], samples[1], samples[2], at);
     else roundInto(bufs[0], len, max, samples[0], at);
@@ -318,6 +372,59 @@ export function decodeImageFileSamples(
     samples,
     icc: iccIndex >= 0 ? view.payload(iccIndex).slice() : undefined,
   };
+}
+
+/** Each coded plane's residual layer, decoded whole (float64), or undefined for a plane without one. */
+function decodeResiduals(
+  view: ContainerView,
+  header: RkfHeader,
+  file: string,
+): Array<Float64Array | undefined> {
+  const { width, height } = header;
+  return header.planes.map((ph, k) => {
+    if (ph.residualStep === undefined) return undefined;
+    try {
+      return decodeWaveletPlane(view.payload(view.find(RESIDUAL, k)), width, height, ph.residualStep);
+    } catch (err) {
+      if (err instanceof FormatError) throw err;
+      throw new FormatError(
+        file,
+        `the residual of plane ${k} (${ph.name}) cannot be decoded: ${(err as Error).message}`,
+      );
+    }
+  });
+}
+
+/**
+ * The two layers of each coded plane in float64, before the colour transform and rounding: `base` (the
+ * low-rank image) and `residual` (undefined for a plane without one). The decoder's samples are
+ * round/clamp(colour(base + residual)), with the sum formed exactly as here.
+ * @throws FormatError
+ */
+export function decodeImageLayers(
+  bytes: Uint8Array,
+  file: string,
+  opts: ReadOptions = {},
+): { header: RkfHeader; base: Float64Array[]; residual: Array<Float64Array | undefined> } {
+  const { view, header } = readImageHeader(bytes, file, opts);
+  const { width, height } = header;
+  const base = header.planes.map((ph, k) => {
+    try {
+      const q = decodePlane(
+        view.payload(view.find('PLNE', k)),
+        { width, height, tile: ph.tile, step: ph.step, meanStep: ph.meanStep },
+        ph.entropy,
+        opts.compressors,
+      );
+      const out = new Float64Array(width * height);
+      reconstructRows(q, tileGrid(width, height, q.tile), 0, height, out);
+      return out;
+    } catch (err) {
+      if (err instanceof FormatError) throw err;
+      throw new FormatError(file, `plane ${k} (${ph.name}) cannot be decoded: ${(err as Error).message}`);
+    }
+  });
+  return { header, base, residual: decodeResiduals(view, header, file) };
 }
 
 export { chromaOffset };

@@ -1,7 +1,7 @@
 /**
- * Plane coder of the stack layout: codes one real-valued plane (an eigen-frame, the mean frame or a
- * per-frame residual) at a given quantiser step, so that the decoder can rebuild any single frame
- * without touching the others. Used where the tiled SVD codec is not available for signed basis planes.
+ * The wavelet plane coder: codes one real-valued plane at a given quantiser step. Used by the stack layout
+ * (eigen-frames, the mean frame, per-frame residuals; ./stack-plane re-exports it) and by the residual
+ * layer of the image layout (the original minus the decoded low-rank base; ./image-file).
  *
  * Pipeline: separable biorthogonal CDF 9/7 wavelet (lifting form), uniform dead-zone quantiser with
  * one step per sub-band scaled so that every sub-band costs the same distortion per unit of step in
@@ -256,7 +256,7 @@ function gain1d(kind: 'low' | 'high', l: number): number {
   return e;
 }
 
-interface Band {
+export interface Band {
   x0: number;
   y0: number;
   w: number;
@@ -373,34 +373,51 @@ export interface PlaneCode {
   nonZero: number;
 }
 
-/**
- * Code a plane at pixel-domain quantiser step `step` (> 0). The decoder needs width, height and step.
- * @example const { bytes, decoded } = encodePlane(plane, 256, 256, 2.5);
- */
-export function encodePlane(
-  plane: ArrayLike<number>,
-  width: number,
-  height: number,
-  step: number,
-): PlaneCode {
-  if (!(step > 0) || !Number.isFinite(step))
-    throw new RangeError(`plane quantiser step must be > 0, got ${step}`);
+/** A plane after the forward transform: everything that does not depend on the quantiser step. */
+export interface AnalysedPlane {
+  width: number;
+  height: number;
+  levels: number;
+  bands: Band[];
+  map: Uint8Array;
+  /** Transform coefficients (Mallat layout). */
+  coeffs: Float64Array;
+}
+
+/** Forward-transform a plane once, so it can be coded at several steps ({@link codeAnalysed}). */
+export function analysePlane(plane: ArrayLike<number>, width: number, height: number): AnalysedPlane {
   const n = width * height;
   const x = Float64Array.from(plane as ArrayLike<number>);
   if (x.length !== n) throw new RangeError(`plane has ${x.length} samples; expected ${width}×${height}`);
   const levels = levelsFor(width, height);
   forwardWavelet(x, width, height, levels);
   const bands = bandsFor(width, height, levels);
+  return { width, height, levels, bands, map: bandIndexMap(width, height, bands), coeffs: x };
+}
+
+/** The quantised coefficients and their range-coded bytes at one step (no reconstruction). */
+export interface CodedCoefficients {
+  bytes: Uint8Array;
+  q: Int32Array;
+  steps: Float64Array;
+  nonZero: number;
+}
+
+/** Quantise and range-code an analysed plane at pixel-domain step `step` (> 0). */
+export function codeAnalysed(a: AnalysedPlane, step: number): CodedCoefficients {
+  if (!(step > 0) || !Number.isFinite(step))
+    throw new RangeError(`plane quantiser step must be > 0, got ${step}`);
+  const { width, bands, map, coeffs: x } = a;
+  const n = x.length;
   const steps = bandSteps(bands, step);
-  const map = bandIndexMap(width, height, bands);
   const q = new Int32Array(n);
   let nonZero = 0;
   for (let i = 0; i < n; i++) {
     const bi = map[i];
     const rho = bands[bi].orient === 0 ? 0.5 : DEAD_ZONE_RHO;
-    const a = Math.floor(Math.abs(x[i]) / steps[bi] + rho);
-    q[i] = x[i] < 0 ? -a : a;
-    if (a) nonZero++;
+    const m = Math.floor(Math.abs(x[i]) / steps[bi] + rho);
+    q[i] = x[i] < 0 ? -m : m;
+    if (m) nonZero++;
   }
   const enc = new RangeEncoder();
   const zm = models(ZERO_CTX);
@@ -417,9 +434,30 @@ export function encodePlane(
         encodeMagnitude(enc, mm, Math.abs(v) - 1, mctx);
       }
     });
-  const bytes = enc.finish();
+  return { bytes: enc.finish(), q, steps, nonZero };
+}
+
+/** The plane exactly as the decoder rebuilds it from {@link codeAnalysed}'s coefficients. */
+export function reconstructCoded(a: AnalysedPlane, c: CodedCoefficients): Float64Array {
+  return dequantise(c.q, a.width, a.height, a.levels, c.steps, a.map);
+}
+
+/**
+ * Code a plane at pixel-domain quantiser step `step` (> 0). The decoder needs width, height and step.
+ * @example const { bytes, decoded } = encodePlane(plane, 256, 256, 2.5);
+ */
+export function encodePlane(
+  plane: ArrayLike<number>,
+  width: number,
+  height: number,
+  step: number,
+): PlaneCode {
+  if (!(step > 0) || !Number.isFinite(step))
+    throw new RangeError(`plane quantiser step must be > 0, got ${step}`);
+  const a = analysePlane(plane, width, height);
+  const c = codeAnalysed(a, step);
   // The range coder is lossless, so the decoder recovers q exactly; rebuild from q by the same routine.
-  return { bytes, decoded: dequantise(q, width, height, levels, steps, map), nonZero };
+  return { bytes: c.bytes, decoded: reconstructCoded(a, c), nonZero: c.nonZero };
 }
 
 /**
@@ -466,4 +504,62 @@ function dequantise(
   for (let i = 0; i < x.length; i++) x[i] = q[i] * steps[map[i]];
   inverseWavelet(x, width, height, levels);
   return x;
+}
+
+/** Coefficients the rate model looks at: every RATE_STRIDE-th (a prime, so no band or row pattern aliases). */
+const RATE_STRIDE = 7;
+const RATE_CAP = 16;
+
+/**
+ * A quick estimate of {@link codeAnalysed}'s size in bits at step `step`, for rate control: the zeroth-order
+ * entropy of each band's quantised magnitudes (0…15, then an Exp-Golomb escape) plus one bit per sign, on a
+ * deterministic 1-in-7 sample of the coefficients. The range coder's contexts do better than this, so
+ * callers calibrate it with the ratio of a real encode to the estimate (common practice; see
+ * {@link codeAnalysed} for the real coder).
+ */
+export function estimateBits(a: AnalysedPlane, step: number): number {
+  const { bands, map, coeffs: x } = a;
+  const steps = bandSteps(bands, step);
+  const counts = new Float64Array(bands.length * (RATE_CAP + 1));
+  let escapeBits = 0;
+  let signs = 0;
+  for (let i = 0; i < x.length; i += RATE_STRIDE) {
+    const bi = map[i];
+    const rho = bands[bi].orient === 0 ? 0.5 : DEAD_ZONE_RHO;
+    const m = Math.floor(Math.abs(x[i]) / steps[bi] + rho);
+    if (m) signs++;
+    if (m >= RATE_CAP) {
+      counts[bi * (RATE_CAP + 1) + RATE_CAP]++;
+      escapeBits += 2 * Math.log2(m - RATE_CAP + 2) + 1;
+    } else counts[bi * (RATE_CAP + 1) + m]++;
+  }
+  let bits = escapeBits + signs;
+  for (let b = 0; b < bands.length; b++) {
+    let total = 0;
+    for (let m = 0; m <= RATE_CAP; m++) total += counts[b * (RATE_CAP + 1) + m];
+    for (let m = 0; m <= RATE_CAP; m++) {
+      const c = counts[b * (RATE_CAP + 1) + m];
+      if (c > 0) bits -= c * Math.log2(c / total);
+    }
+  }
+  return bits * RATE_STRIDE + 8;
+}
+
+/**
+ * Pixel-domain squared error of coded coefficients, estimated in the transform domain: Σ_b g_b·Σ(c − q·Δ_b)²
+ * with g_b the band's synthesis energy. The 9/7 pair is nearly orthogonal, so this is close to (not exactly)
+ * the squared error of {@link reconstructCoded}'s output (Usevitch, IEEE Signal Process. Mag. 18(5), 2001,
+ * on weighting biorthogonal subband errors by synthesis gains; from memory).
+ */
+export function codedSquaredError(a: AnalysedPlane, c: CodedCoefficients): number {
+  const { bands, map, coeffs: x } = a;
+  const perBand = new Float64Array(bands.length);
+  for (let i = 0; i < x.length; i++) {
+    const bi = map[i];
+    const d = x[i] - c.q[i] * c.steps[bi];
+    perBand[bi] += d * d;
+  }
+  let e = 0;
+  for (let b = 0; b < bands.length; b++) e += bands[b].gain * perBand[b];
+  return e;
 }

@@ -1,7 +1,9 @@
 /**
  * Encode one decoded scan into an .rkf file under a budget: colour transform, factorisation (whole
- * plane or tiles), rate–distortion search, entropy coding and the container. The result is decoded
- * again with the real reader so every figure in the report is measured on the file as written.
+ * plane or tiles), rate–distortion search, entropy coding and the container. Under a byte budget with
+ * `layers: 'auto'`, ./two-layer then splits the bytes between the low-rank base and a wavelet-coded residual.
+ * The result is decoded again with the real reader so every figure in the report is measured on the file
+ * as written.
  */
 import type { Budget, DecodedImage } from '../../contract';
 import { UsageError } from '../../contract/errors';
@@ -13,6 +15,7 @@ import {
   encodePlanes,
   type PlaneHeader,
   quantiserInfo,
+  RESIDUAL_MAX_PIXELS,
   type RkfHeader,
   writeImageFile,
 } from '../codec/image-file';
@@ -21,6 +24,7 @@ import { psnrPlanes, ssimPlanes } from '../metrics';
 import { rgbToYcbcr, YCBCR_ERROR_WEIGHTS } from './colour';
 import { factorPlane, type PlaneFactors } from './factorise';
 import { type Plan, type PlaneInput, solveBytes, solveError, solveRank } from './solve';
+import { chooseLayers, emptyBase, type LayerCandidate, type LayerPlan } from './two-layer';
 
 /** Tile sides `--tile auto` tries. */
 export const AUTO_TILES = [32, 64, 128] as const;
@@ -42,6 +46,26 @@ export interface EncodeOptions {
   alphaSha256?: string;
   /** Clock in milliseconds (for timings); defaults to Date.now. */
   now?: () => number;
+  /**
+   * 'base' (default): the low-rank factors only. 'auto': under a byte budget (bytes, percent, bpp) on a scan of
+   * at most RESIDUAL_MAX_PIXELS, also try a wavelet-coded residual layer and keep the split with the least
+   * error (./two-layer). Rank and quality-floor budgets stay base-only.
+   */
+  layers?: 'base' | 'auto';
+}
+
+/** What the layers of the written file cost and how the split was chosen. */
+export interface LayerSummary {
+  /** Bytes of the base layer's factor streams (PLNE payloads) and of the residual layer (RSDL payloads). */
+  baseBytes: number;
+  residualBytes: number;
+  /** Residual step per coded plane, null for a plane without a residual. */
+  residualSteps: Array<number | null>;
+  /** The candidate kept and every candidate tried (empty when the two-layer search did not run). */
+  chosen: LayerCandidate['kind'];
+  candidates: LayerCandidate[];
+  /** Real encodes of the residual layer in the search (each codes every plane once). */
+  residualEncodes: number;
 }
 
 export interface PlaneRankSummary {
@@ -61,6 +85,7 @@ export interface EncodeResult {
   factorMs: number;
   encodeMs: number;
   lossless: boolean;
+  layers: LayerSummary;
 }
 
 function maxOf(bitDepth: 8 | 16): number {
@@ -122,7 +147,8 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
         `${img.file}: image is ${width}×${height} pixels; tiles need at least 8×8 — pass --tile 0 for a whole-image SVD`,
       );
 
-  const header = (planes: QuantPlane[], lossless: boolean): RkfHeader => ({
+  type Residual = { steps: number[]; bytes: Uint8Array[] };
+  const header = (planes: QuantPlane[], lossless: boolean, residual?: Residual): RkfHeader => ({
     format: 'rankfold',
     layout: 'image',
     width,
@@ -139,6 +165,7 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
         step: p.step,
         meanStep: p.meanStep,
         entropy,
+        ...(residual ? { residualStep: residual.steps[k] } : {}),
       }),
     ),
     sourceSha256: img.sourceSha256,
@@ -154,10 +181,11 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
     },
     encoder: opts.encoder ?? 'rankfold',
   });
-  const build = (planes: QuantPlane[], lossless = false) =>
+  const build = (planes: QuantPlane[], lossless = false, residual?: Residual) =>
     writeImageFile({
-      header: header(planes, lossless),
+      header: header(planes, lossless, residual),
       planes: encodePlanes(planes, entropy, opts.compressors),
+      residuals: residual?.bytes,
       alpha,
       icc: img.meta.icc,
     });
@@ -166,6 +194,12 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
     return build(planes).length;
   };
 
+  const twoLayer =
+    opts.layers === 'auto' &&
+    byteBudget !== undefined &&
+    (opts.budget.kind === 'bytes' || opts.budget.kind === 'bpp' || opts.budget.kind === 'percent') &&
+    width * height <= RESIDUAL_MAX_PIXELS;
+  let tooSmall: UsageError | undefined;
   let factorMs = 0;
   let encodeMs = 0;
   let best: { plan: Plan; inputs: PlaneInput[]; factors: PlaneFactors[]; size: number } | undefined;
@@ -191,7 +225,20 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
     const t1 = now();
     factorMs += t1 - t0;
     progress('allocate', (ti + 0.5) / total);
-    const plan = solveFor(inputs, opts.budget, byteBudget, max, measure, img, prep, build);
+    let plan: Plan;
+    try {
+      plan = solveFor(inputs, opts.budget, byteBudget, max, measure, img, prep, build);
+    } catch (err) {
+      // Below the smallest base-only file (tile means, rank codes): a residual-only file may still fit.
+      if (!(twoLayer && err instanceof UsageError && /smallest possible file/.test(err.message))) throw err;
+      tooSmall = err;
+      plan = {
+        planes: inputs.map((i) => emptyBase(i.factors.width, i.factors.height)),
+        delta: 1,
+        bytes: 0,
+        estimatedError: Number.POSITIVE_INFINITY,
+      };
+    }
     const size = plan.bytes || measure(plan.planes);
     encodeMs += now() - t1;
     const better =
@@ -203,13 +250,34 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
   }
   if (!best) throw new RangeError('no tile size to try');
   const t2 = now();
+  let layered: LayerPlan | undefined;
+  if (twoLayer && byteBudget !== undefined) {
+    progress('layers', 0.8);
+    const chosen = best;
+    layered = chooseLayers({
+      planes: prep.planes,
+      width,
+      height,
+      weights: prep.weights,
+      inputs: chosen.inputs,
+      basePlan: chosen.plan,
+      budget: byteBudget,
+      build: (planes, residual) => build(planes, false, residual),
+      baseBytes: (planes) =>
+        encodePlanes(planes, entropy, opts.compressors).reduce((s, b) => s + b.length, 0),
+      cancel,
+    });
+    if (layered.chosen.fileBytes > byteBudget && tooSmall) throw tooSmall;
+  }
+  const basePlanes = layered ? layered.basePlanes : best.plan.planes;
+  const residual = layered?.residual;
   progress('write', 0.95);
-  let bytes = build(best.plan.planes);
+  let bytes = build(basePlanes, false, residual);
   let decoded = decodeImageFile(bytes, img.file);
   const colourSamples = img.planes.slice(0, prep.colour ? 3 : 1);
   const lossless = sameSamples(decoded.samples, img.planes);
   if (lossless) {
-    bytes = build(best.plan.planes, true);
+    bytes = build(basePlanes, true, residual);
     decoded = decodeImageFile(bytes, img.file);
   }
   encodeMs += now() - t2;
@@ -223,22 +291,48 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
       const d = colourSamples[c][i] - outPlanes[c][i];
       sse += d * d;
     }
-  const ranks = best.plan.planes.map((p, k) => ({
+  const ranks = basePlanes.map((p, k) => ({
     channel: prep.names[k],
     tile: p.tile,
     ranks: Int32Array.from(p.tiles, (t) => t.u.length),
   }));
   let trunc = 0;
   let spectral = 0;
-  best.factors.forEach((f, k) => {
-    f.tiles.forEach((tf, t) => {
-      const r = ranks[k].ranks[t];
-      let kept = 0;
-      for (let i = 0; i < r; i++) kept += tf.s[i] * tf.s[i];
-      trunc += prep.weights[k] * Math.max(0, tf.energy - kept);
-      if (r < tf.s.length) spectral = Math.max(spectral, tf.s[r]);
+  let frobenius = Math.sqrt(sse);
+  const rankZero = basePlanes[0].tile === 0 && best.factors[0].tile !== 0;
+  if (rankZero && layered) {
+    // Rank 0 (residual only, a whole-plane base while the factors are tiled): the Eckart–Young optimum at
+    // rank 0 is the whole energy, which is the base error itself; σ₁ of the whole plane was not computed.
+    trunc = frobenius = 0;
+    for (let k = 0; k < layered.base.length; k++) {
+      let e = 0;
+      for (let i = 0; i < layered.base[k].length; i++) e += Number(prep.planes[k][i]) ** 2;
+      trunc += prep.weights[k] * e;
+    }
+    frobenius = Math.sqrt(trunc);
+    spectral = Number.NaN;
+  } else {
+    best.factors.forEach((f, k) => {
+      f.tiles.forEach((tf, t) => {
+        const r = ranks[k].ranks[t];
+        let kept = 0;
+        for (let i = 0; i < r; i++) kept += tf.s[i] * tf.s[i];
+        trunc += prep.weights[k] * Math.max(0, tf.energy - kept);
+        if (r < tf.s.length) spectral = Math.max(spectral, tf.s[r]);
+      });
     });
-  });
+    // Two layers: the Eckart–Young figures are about the base layer, so the error is the base's (in float).
+    if (layered?.residual) frobenius = Math.sqrt(baseSse(prep, layered.base));
+  }
+  const baseBytes = encodePlanes(basePlanes, entropy, opts.compressors).reduce((s, b) => s + b.length, 0);
+  const layers: LayerSummary = {
+    baseBytes,
+    residualBytes: residual ? residual.bytes.reduce((s, b) => s + b.length, 0) : 0,
+    residualSteps: basePlanes.map((_, k) => residual?.steps[k] ?? null),
+    chosen: layered?.chosen.kind ?? 'base-only',
+    candidates: layered?.candidates ?? [],
+    residualEncodes: layered?.residualEncodes ?? 0,
+  };
   progress('done', 1);
   return {
     bytes,
@@ -247,11 +341,27 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
     ranks,
     psnr,
     ssim,
-    errors: { frobenius: Math.sqrt(sse), frobeniusOptimal: Math.sqrt(trunc), spectralBound: spectral },
+    errors: { frobenius, frobeniusOptimal: Math.sqrt(trunc), spectralBound: spectral },
     factorMs,
     encodeMs,
     lossless,
+    layers,
   };
+}
+
+/** Weighted squared error of a decoded base (float, before rounding) against the coded planes. */
+function baseSse(prep: Prepared, base: Float64Array[]): number {
+  let s = 0;
+  for (let k = 0; k < base.length; k++) {
+    const o = prep.planes[k];
+    let e = 0;
+    for (let i = 0; i < base[k].length; i++) {
+      const d = o[i] - base[k][i];
+      e += d * d;
+    }
+    s += prep.weights[k] * e;
+  }
+  return s;
 }
 
 /** Above this many pixels, `--tile auto` chooses the tile size on a centred crop of about this size. */
@@ -286,7 +396,7 @@ function probeTile(
   };
   const budget: Budget =
     byteBudget !== undefined ? { kind: 'bpp', bpp: (8 * byteBudget) / (width * height) } : opts.budget;
-  const r = encodeScan(crop, { ...opts, budget, onProgress: undefined });
+  const r = encodeScan(crop, { ...opts, budget, onProgress: undefined, layers: 'base' });
   return r.ranks[0]?.tile;
 }
 

@@ -33,6 +33,7 @@ import { psnrPlanes, ssimPlanes } from '../../engine/metrics';
 import { decodeImage, hashSamples, probeImage } from '../image/decode';
 import { decodeSamples } from '../image/raw-decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
+import { prepareFactorPath } from '../parallel/factor-path';
 
 export interface CompressHooks {
   onProgress?(p: { stage: string; fraction: number }): void;
@@ -56,6 +57,12 @@ export interface CompressInternals {
 }
 
 export const ENCODER_NAME = 'rankfold 0.1.0';
+
+/**
+ * Layers when the options do not say: 'auto' (low-rank base plus a wavelet residual under byte budgets). It
+ * won at equal bytes on every test image and rate (docs/format.md, "Residual layer").
+ */
+export const DEFAULT_LAYERS: 'auto' | 'base' = 'auto';
 
 /** Validate the options object (it may come from IPC or HTTP). */
 export function checkCompressOptions(o: CompressOptions): void {
@@ -93,6 +100,8 @@ export function checkCompressOptions(o: CompressOptions): void {
         (b as { kind: unknown }).kind,
       );
   }
+  if (o.layers !== undefined && o.layers !== 'auto' && o.layers !== 'base')
+    throw invalidParameterError('layers', 'auto or base', o.layers);
   if (!(o.tile === 'auto' || o.tile === 0 || (Number.isInteger(o.tile) && o.tile >= 16 && o.tile <= 512)))
     throw invalidParameterError('tile', 'auto, 0 (whole plane) or an integer between 16 and 512', o.tile);
 }
@@ -131,6 +140,9 @@ export async function compressDecoded(
   };
   check();
   await initEngine();
+  // Whole planes: kernels warmed and the thread pool registered, outside timings.factorMs (issue #12 item 3).
+  if (options.tile === 0 || (options.tile === 'auto' && options.budget.kind === 'rank'))
+    await prepareFactorPath();
   const result = encodeScan(decoded, {
     budget: options.budget,
     tile: options.tile,
@@ -143,6 +155,7 @@ export async function compressDecoded(
     onProgress: hooks.onProgress ? (stage, fraction) => hooks.onProgress?.({ stage, fraction }) : undefined,
     checkCancelled: check,
     now: () => performance.now(),
+    layers: options.layers ?? DEFAULT_LAYERS,
   });
   const { width, height } = decoded;
   const outputBytes = result.bytes.length;
@@ -167,6 +180,7 @@ export async function compressDecoded(
     tile: result.ranks[0]?.tile ?? 0,
     entropy: hooks.entropy ?? 'rc',
     lossless: result.lossless,
+    layers: result.layers,
   };
   if (options.compare) {
     hooks.onProgress?.({ stage: 'compare', fraction: 0.97 });

@@ -8,6 +8,7 @@ const options = {
   output: { type: 'string', short: 'o' },
   ...BUDGET_OPTIONS,
   tile: { type: 'string' },
+  layers: { type: 'string' },
   page: { type: 'string' },
   'pixel-limit': { type: 'string' },
   json: { type: 'boolean' },
@@ -32,6 +33,10 @@ Options:
   -o, --output FILE   output .rkf file (required)
   --tile N|auto|0     tile side 16–512, auto (best of 32, 64, 128 for the budget) or 0 for whole planes.
                       Default: auto (whole planes with --rank)
+  --layers auto|base  auto (default): under --budget or --bpp, the low-rank base plus a wavelet-coded
+                      residual layer, split by the least error at the budget (rank 0 and no residual are
+                      among the splits tried); base: the low-rank factors only. --rank, --min-psnr and
+                      --min-ssim always write the base only, as do scans over 2^25 pixels
   --page N            TIFF page to read, from 0 (default 0)
   --pixel-limit N     refuse inputs with more pixels than N (default 268402689)
   --compare           also encode JPEG (mozjpeg), WebP and AVIF at the nearest size ≤ ours, and report them
@@ -61,7 +66,8 @@ export function formatReport(r: CompressReport): string {
     `  raw ${r.rawBytes} B, input file ${r.inputBytes} B, output ${r.outputBytes} B: ratio ${fmt(r.ratio, 1)}:1, ${fmt(r.bpp, 3)} bpp`,
     `  ranks: ${ranks}`,
     `  measured on the decoded file: PSNR ${fmt(r.psnr)} dB, SSIM ${fmt(r.ssim, 4)}${r.lossless ? ' (lossless: decodes to the source samples exactly)' : ''}`,
-    `  Frobenius error ${fmt(r.errors.frobenius, 1)} grey levels (Eckart–Young optimum at these ranks ${fmt(r.errors.frobeniusOptimal, 1)}; spectral bound σ_k+1 ${fmt(r.errors.spectralBound, 1)})`,
+    ...layerLines(r),
+    `  ${r.layers?.residualBytes ? 'base layer: ' : ''}Frobenius error ${fmt(r.errors.frobenius, 1)} grey levels (Eckart–Young optimum at these ranks ${fmt(r.errors.frobeniusOptimal, 1)}; spectral bound σ_k+1 ${fmt(r.errors.spectralBound, 1)})`,
     `  time: decode ${fmt(r.timings.decodeMs, 0)} ms, factor ${fmt(r.timings.factorMs, 0)} ms, encode ${fmt(r.timings.encodeMs, 0)} ms`,
   ];
   if (r.compare) {
@@ -74,6 +80,18 @@ export function formatReport(r: CompressReport): string {
     }
   }
   return `${lines.join('\n')}\n`;
+}
+
+function layerLines(r: CompressReport): string[] {
+  const l = r.layers;
+  if (!l || (!l.residualBytes && !l.candidates.length)) return [];
+  const steps = l.residualSteps.map((s) => (s === null ? '–' : fmt(s, 3))).join(', ');
+  const tried = l.candidates.length
+    ? `; chose ${l.chosen} of ${l.candidates.length} splits tried (${l.residualEncodes} residual encodes)`
+    : '';
+  return [
+    `  layers: base ${l.baseBytes} B, residual ${l.residualBytes} B${l.residualBytes ? ` (step ${steps})` : ''}${tried}`,
+  ];
 }
 
 export const command: Command = {
@@ -110,6 +128,7 @@ export const command: Command = {
             : undefined,
         force: Boolean(v.force),
         compare: Boolean(v.compare),
+        layers: parseLayersOption(v.layers as string | undefined),
       },
       {
         onProgress:
@@ -127,3 +146,9 @@ export const command: Command = {
     return 0;
   },
 };
+
+function parseLayersOption(text: string | undefined): 'auto' | 'base' | undefined {
+  if (text === undefined) return undefined;
+  if (text === 'auto' || text === 'base') return text;
+  throw new UsageError(`Expected auto or base for layers but received ${JSON.stringify(text)}`);
+}

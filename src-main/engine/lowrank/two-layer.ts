@@ -1,0 +1,335 @@
+/**
+ * The two-layer split of a byte budget: a low-rank base (the tile-SVD factors of ./solve) plus a residual
+ * layer (the source minus the decoded base, coded by the wavelet plane coder of ../codec/wavelet-plane).
+ *
+ * The rule is equal slope: bytes go where they remove the most squared error per byte, the condition for an
+ * optimal split of bits between independent coders (Everett, Oper. Res. 11(3):399–417, 1963, Theorem 1;
+ * Shoham & Gersho, IEEE Trans. ASSP 36(9):1445–1453, 1988, eq. 7). This first version applies it to a small
+ * candidate set, not by a continuous solve:
+ *
+ * 1. base only (the plan {@link solveBytes} found for the whole budget, no residual);
+ * 2. residual only (rank 0: an empty whole-plane base; the wavelet coder gets every byte);
+ * 3. mixed: the base keeps the greedy components whose estimated slope (squared error removed per bit) is at
+ *    least κ·λ, for κ ∈ {1, 3}, where λ is the residual coder's own measured slope at the budget
+ *    (from candidate 2's last two real encodes). κ > 1 because a component also removes error the wavelet
+ *    would have removed anyway, so its gain on top of the residual is less than its gain alone.
+ *
+ * For each candidate with a residual, the residual's step Δ (one step for all planes, scaled per plane so every
+ * plane adds the same weighted error per coefficient, as the base does) is chosen to fill the bytes the base
+ * leaves: a histogram rate model (estimateBits) calibrated by real encodes, at most {@link MAX_RESIDUAL_CODES}
+ * real encodes per candidate (the search between them uses the transform-domain error estimate
+ * codedSquaredError). Candidates are compared by their exact weighted squared error in float before rounding
+ * (base plus the residual as the decoder rebuilds it); the least wins. Base only is always a candidate, so
+ * the file is never worse than base only except by the rounding to integer samples.
+ */
+
+import { reconstructRows } from '../codec/quantise';
+import { type QuantPlane, tileGrid } from '../codec/quantised';
+import {
+  type AnalysedPlane,
+  analysePlane,
+  type CodedCoefficients,
+  codeAnalysed,
+  codedSquaredError,
+  estimateBits,
+  reconstructCoded,
+} from '../codec/wavelet-plane';
+import { buildCandidate, type Plan, type PlaneInput, prefixRanks, quantPlanes } from './solve';
+
+/** Most real encodes of the residual (all planes) per candidate. */
+export const MAX_RESIDUAL_CODES = 3;
+/** Slope multipliers κ of the mixed candidates. */
+export const MIXED_KAPPAS = [1, 3] as const;
+
+export type LayerChoice = 'base-only' | 'residual-only' | 'mixed';
+
+export interface LayerCandidate {
+  kind: LayerChoice;
+  /** Slope multiplier of a mixed candidate. */
+  kappa?: number;
+  /** Total kept components over every tile and plane of the base. */
+  baseComponents: number;
+  /** Bytes of the base layer (PLNE payloads) and of the residual layer (RSDL payloads). */
+  baseBytes: number;
+  residualBytes: number;
+  /** Residual step Δ of the first coded plane (others scale it), or undefined without a residual. */
+  residualStep?: number;
+  /** Size of the complete file. */
+  fileBytes: number;
+  /** Weighted squared error in float before rounding (residual part estimated in the transform domain). */
+  sse: number;
+}
+
+export interface LayerPlan {
+  basePlanes: QuantPlane[];
+  /** Per coded plane: step and coded bytes of the residual, or undefined for none. */
+  residual?: { steps: number[]; bytes: Uint8Array[] };
+  /** The decoded base per coded plane (float64), for the report's base-layer error. */
+  base: Float64Array[];
+  chosen: LayerCandidate;
+  candidates: LayerCandidate[];
+  /** Real encodes of the residual layer (each codes every plane once). */
+  residualEncodes: number;
+  /** λ, the residual coder's measured slope at the budget (weighted squared error per bit), if measured. */
+  lambda?: number;
+}
+
+export interface LayerContext {
+  /** The coded planes (gray, or Y, Cb, Cr) as the base was factored from. */
+  planes: ArrayLike<number>[];
+  width: number;
+  height: number;
+  weights: number[];
+  inputs: PlaneInput[];
+  /** The base-only plan for the whole budget. */
+  basePlan: Plan;
+  budget: number;
+  /** The complete file for a base and an optional residual. */
+  build: (base: QuantPlane[], residual?: { steps: number[]; bytes: Uint8Array[] }) => Uint8Array;
+  /** Bytes of the PLNE payloads of a file built from `base`. */
+  baseBytes: (base: QuantPlane[]) => number;
+  cancel: () => void;
+}
+
+/** An empty whole-plane base (rank 0, no tile means): it decodes to 0 everywhere. */
+export function emptyBase(width: number, height: number): QuantPlane {
+  return { width, height, tile: 0, step: 1, meanStep: 0, tiles: [{ meanQ: 0, u: [], v: [] }] };
+}
+
+function reconstruct(p: QuantPlane): Float64Array {
+  const out = new Float64Array(p.width * p.height);
+  reconstructRows(p, tileGrid(p.width, p.height, p.tile), 0, p.height, out);
+  return out;
+}
+
+function components(planes: QuantPlane[]): number {
+  let n = 0;
+  for (const p of planes) for (const t of p.tiles) n += t.u.length;
+  return n;
+}
+
+/** Round a step to 6 significant digits, so the header holds exactly the value the coder used. */
+const tidy = (x: number) => Number(x.toPrecision(6));
+
+/** Bytes the header may grow by per plane once a residual step is written into it. */
+const STEP_SLACK = 24;
+
+interface Fitted {
+  steps: number[];
+  bytes: Uint8Array[];
+  coded: CodedCoefficients[];
+  sse: number;
+  codes: number;
+  /** (bits, weighted squared error) of the real encodes, for the slope. */
+  points: Array<{ bits: number; sse: number }>;
+}
+
+/**
+ * The residual at the smallest step whose coded size is ≤ `target` bytes (summed over planes), using the
+ * calibrated rate model and at most MAX_RESIDUAL_CODES real encodes (a coarser fallback may add one more).
+ */
+function fitResidual(
+  analysed: AnalysedPlane[],
+  weights: number[],
+  scales: number[],
+  target: number,
+  ratio0: number,
+  cancel: () => void,
+): { fit?: Fitted; ratio: number } {
+  const estimate = (d: number) => analysed.reduce((s, a, k) => s + estimateBits(a, d * scales[k]), 0) / 8;
+  const code = (d: number) => {
+    cancel();
+    const coded = analysed.map((a, k) => codeAnalysed(a, tidy(d * scales[k])));
+    const bytes = coded.map((c) => c.bytes);
+    const size = bytes.reduce((s, b) => s + b.length, 0);
+    const sse = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
+    return { steps: analysed.map((_, k) => tidy(d * scales[k])), bytes, coded, size, sse };
+  };
+  /** Step whose calibrated estimate is `bytes` (bisection on log Δ; the estimate falls as Δ grows). */
+  const stepFor = (bytes: number, ratio: number) => {
+    let lo = Math.log2(1e-3);
+    let hi = Math.log2(1e6);
+    for (let i = 0; i < 24; i++) {
+      const mid = (lo + hi) / 2;
+      if (estimate(2 ** mid) * ratio > bytes) lo = mid;
+      else hi = mid;
+    }
+    return 2 ** hi;
+  };
+  let ratio = ratio0;
+  let best: Fitted | undefined;
+  const points: Fitted['points'] = [];
+  let codes = 0;
+  let aim = target;
+  let lastStep = 0;
+  for (let i = 0; i < MAX_RESIDUAL_CODES; i++) {
+    const d = stepFor(aim, ratio);
+    if (d === lastStep) break;
+    lastStep = d;
+    const r = code(d);
+    codes++;
+    points.push({ bits: 8 * r.size, sse: r.sse });
+    const est = estimate(d);
+    if (est > 0) ratio = r.size / est;
+    if (r.size <= target && (!best || r.sse < best.sse))
+      best = { steps: r.steps, bytes: r.bytes, coded: r.coded, sse: r.sse, codes, points };
+    if (r.size <= target && r.size >= target * 0.99) break;
+    // Aim a little under the budget so the next encode is likely to fit.
+    aim = target * 0.995;
+  }
+  if (!best) {
+    // The model kept overshooting: walk the step up by quarter octaves until it fits (rare).
+    let d = stepFor(target * 0.9, ratio);
+    for (let i = 0; i < 24 && !best; i++, d *= 2 ** 0.25) {
+      const r = code(d);
+      codes++;
+      points.push({ bits: 8 * r.size, sse: r.sse });
+      if (r.size <= target)
+        best = { steps: r.steps, bytes: r.bytes, coded: r.coded, sse: r.sse, codes, points };
+    }
+  }
+  if (best) best.codes = codes;
+  return { fit: best, ratio };
+}
+
+/** λ from the two real encodes nearest the budget: squared error removed per extra bit. */
+function slopeOf(points: Fitted['points']): number | undefined {
+  if (points.length < 2) return undefined;
+  const s = [...points].sort((a, b) => a.bits - b.bits);
+  let best: number | undefined;
+  for (let i = 1; i < s.length; i++) {
+    const db = s[i].bits - s[i - 1].bits;
+    if (db > 0 && s[i - 1].sse > s[i].sse) best = (s[i - 1].sse - s[i].sse) / db;
+  }
+  return best;
+}
+
+/**
+ * Choose among base only, residual only and mixed bases by squared error at the byte budget (see the module
+ * comment). Returns undefined when no candidate with a residual fits (then the caller keeps base only).
+ */
+export function chooseLayers(ctx: LayerContext): LayerPlan {
+  const { planes, width, height, weights, inputs, basePlan, budget } = ctx;
+  const nc = planes.length;
+  const scales = inputs.map((inp) => inp.stepScale);
+  const sseOf = (base: Float64Array[]) => {
+    let s = 0;
+    for (let k = 0; k < nc; k++) {
+      const o = planes[k];
+      const b = base[k];
+      let e = 0;
+      for (let i = 0; i < b.length; i++) {
+        const d = o[i] - b[i];
+        e += d * d;
+      }
+      s += weights[k] * e;
+    }
+    return s;
+  };
+  const candidates: Array<LayerCandidate & { planes: QuantPlane[]; base: Float64Array[]; fit?: Fitted }> = [];
+  // 1. Base only.
+  {
+    const base = basePlan.planes.map(reconstruct);
+    const fileBytes = ctx.build(basePlan.planes).length;
+    candidates.push({
+      kind: 'base-only',
+      baseComponents: components(basePlan.planes),
+      baseBytes: ctx.baseBytes(basePlan.planes),
+      residualBytes: 0,
+      fileBytes,
+      sse: sseOf(base),
+      planes: basePlan.planes,
+      base,
+    });
+  }
+  let ratio = 0.8;
+  let encodes = 0;
+  const withResidual = (
+    kind: LayerChoice,
+    basePlanes: QuantPlane[],
+    kappa?: number,
+  ): Fitted['points'] | undefined => {
+    ctx.cancel();
+    const base = basePlanes.map(reconstruct);
+    const residual = planes.map((o, k) => {
+      const r = new Float64Array(width * height);
+      const b = base[k];
+      for (let i = 0; i < r.length; i++) r[i] = o[i] - b[i];
+      return r;
+    });
+    // The file with empty residual chunks and a placeholder step: what the base and framing cost.
+    const frame = ctx.build(basePlanes, {
+      steps: planes.map(() => 1),
+      bytes: planes.map(() => new Uint8Array(0)),
+    }).length;
+    const target = budget - frame - STEP_SLACK * nc;
+    if (target < 8 * nc) return undefined;
+    const analysed = residual.map((r) => analysePlane(r, width, height));
+    const { fit, ratio: r } = fitResidual(analysed, weights, scales, target, ratio, ctx.cancel);
+    ratio = r;
+    if (!fit) return undefined;
+    encodes += fit.codes;
+    const file = ctx.build(basePlanes, { steps: fit.steps, bytes: fit.bytes }).length;
+    if (file > budget) return undefined;
+    // The candidate's error exactly (float, before rounding): the residual as the decoder rebuilds it.
+    let sse = 0;
+    for (let k = 0; k < nc; k++) {
+      const rec = reconstructCoded(analysed[k], fit.coded[k]);
+      const res = residual[k];
+      let e = 0;
+      for (let i = 0; i < rec.length; i++) {
+        const d = res[i] - rec[i];
+        e += d * d;
+      }
+      sse += weights[k] * e;
+    }
+    candidates.push({
+      kind,
+      kappa,
+      baseComponents: components(basePlanes),
+      baseBytes: ctx.baseBytes(basePlanes),
+      residualBytes: fit.bytes.reduce((s, b) => s + b.length, 0),
+      residualStep: fit.steps[0],
+      fileBytes: file,
+      sse,
+      planes: basePlanes,
+      base,
+      fit,
+    });
+    return fit.points;
+  };
+  // 2. Residual only (rank 0).
+  const points = withResidual(
+    'residual-only',
+    planes.map(() => emptyBase(width, height)),
+  );
+  // 3. Mixed: the components at least κ·λ steep, from the base plan's step.
+  const lambda = points ? slopeOf(points) : undefined;
+  if (lambda !== undefined && lambda > 0 && Number.isFinite(basePlan.estimatedError)) {
+    const c = buildCandidate(inputs, basePlan.delta);
+    let lastP = -1;
+    for (const kappa of MIXED_KAPPAS) {
+      let P = 0;
+      while (P < c.order.length && c.order[P].gain >= kappa * lambda * c.order[P].cost) P++;
+      if (P === 0 || P === lastP) continue;
+      lastP = P;
+      withResidual('mixed', quantPlanes(inputs, c, prefixRanks(c, P)), kappa);
+    }
+  }
+  // Base only can be over the budget only when the budget is below the smallest base-only file (the caller
+  // then offers an empty base); it is then never chosen over a candidate that fits.
+  let chosen = candidates[0];
+  for (const cand of candidates)
+    if (cand.fileBytes <= budget && (chosen.fileBytes > budget || cand.sse < chosen.sse)) chosen = cand;
+  const strip = ({ planes: _p, base: _b, fit: _f, ...rest }: (typeof candidates)[number]): LayerCandidate =>
+    rest;
+  return {
+    basePlanes: chosen.planes,
+    residual: chosen.fit ? { steps: chosen.fit.steps, bytes: chosen.fit.bytes } : undefined,
+    base: chosen.base,
+    chosen: strip(chosen),
+    candidates: candidates.map(strip),
+    residualEncodes: encodes,
+    lambda,
+  };
+}
