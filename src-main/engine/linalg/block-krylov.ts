@@ -23,6 +23,8 @@ export interface RangeOps {
   m: number;
   n: number;
   l: number;
+  /** A itself (m×n, row-major, in the workspace). */
+  A: FloatArray;
 }
 
 /** Gram–Schmidt passes projecting each new block off the earlier ones (twice is enough). */

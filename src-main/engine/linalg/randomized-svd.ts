@@ -17,7 +17,7 @@ import { jacobiBytes, jacobiSvdIn } from './jacobi-svd';
 import type { FloatArray, Matrix, Precision, SvdResult } from './matrix';
 import { Orthonormalizer } from './qr';
 import { DEFAULT_SEED, Rng } from './random';
-import { symmetricEigen } from './symmetric-eigen';
+import { symmetricEigen, symmetricEigenvalues } from './symmetric-eigen';
 import { type Backend, bytesFor, defaultBackend, type Workspace } from './workspace';
 
 /** HMT §4.2: "p = 5 or p = 10 is often enough"; 10 keeps the error within ~1% of optimal at q ≥ 2. */
@@ -50,7 +50,37 @@ export interface RandomizedSvdOptions {
   method?: 'power' | 'krylov';
   /** Where products run: default WebAssembly once `initEngine` resolved, else TypeScript. */
   backend?: Backend;
+  /**
+   * A-posteriori accuracy check (off by default): the target ratio of the rank-k Frobenius error to the
+   * Eckart–Young optimum, e.g. 1.01. After the q power steps the ratio is estimated from the last two
+   * half-steps (see `estimateRatio`); while the estimate exceeds the target, one more power step runs,
+   * up to `maxPowerIters`. Range: a number > 1.
+   */
+  accuracy?: number;
+  /** Most power steps the accuracy check may run. Default 8, range q…50. */
+  maxPowerIters?: number;
+  /** ‖A‖²_F when the caller already has it (the accuracy check needs it; otherwise one pass over A). */
+  frobeniusSquared?: number;
 }
+
+/** What randomizedSvd did, beside the factors. */
+export interface RandomizedSvdResult extends SvdResult {
+  /** Power steps run (q, plus any the accuracy check added). */
+  powerIters: number;
+  /**
+   * The accuracy check's estimate of ‖A − A_k‖_F ÷ the Eckart–Young optimum before the final projection
+   * (an estimate, not a bound; NaN when no check ran).
+   */
+  ratioEstimate: number;
+}
+
+/** Default cap on power steps when the accuracy check asks for more. */
+export const DEFAULT_MAX_POWER_ITERS = 8;
+/**
+ * Largest per-half-step contraction r̂ = (σ̂_l/σ̂_k)² the estimate uses: the remaining deficit is taken
+ * as δ·r̂/(1 − r̂) ≤ 49·δ (a nearly flat spectrum converges slowly, but its optimum is large too).
+ */
+const MAX_CONTRACTION = 0.98;
 
 /**
  * From this many columns l·blocks up, the small SVD uses the eigen-decomposition of the L×L Gram
@@ -105,7 +135,7 @@ export function checkRank(a: Matrix, k: number, fn: string): void {
  * @throws RangeError when k is not an integer in 1…min(m,n) or A has NaN/infinite entries.
  * @example const { s, U, V } = randomizedSvd(image, 50, { seed: 1 });
  */
-export function randomizedSvd(a: Matrix, k: number, opts: RandomizedSvdOptions = {}): SvdResult {
+export function randomizedSvd(a: Matrix, k: number, opts: RandomizedSvdOptions = {}): RandomizedSvdResult {
   checkRank(a, k, 'randomizedSvd');
   const m = a.rows;
   const n = a.cols;
@@ -120,9 +150,23 @@ export function randomizedSvd(a: Matrix, k: number, opts: RandomizedSvdOptions =
   const l = k + p;
   const blocks = method === 'krylov' ? Math.max(1, Math.min(q + 1, Math.floor(r / l))) : 1;
   const f32 = precision === 'f32';
+  let check: Check | null = null;
+  if (opts.accuracy !== undefined) {
+    const target = opts.accuracy;
+    if (!(target > 1) || !Number.isFinite(target))
+      throw new RangeError(
+        `randomizedSvd: expected a finite number above 1 for accuracy but received ${target}`,
+      );
+    const maxQ = opts.maxPowerIters ?? Math.max(q, DEFAULT_MAX_POWER_ITERS);
+    if (!Number.isInteger(maxQ) || maxQ < q || maxQ > 50)
+      throw new RangeError(
+        `randomizedSvd: expected integer between ${q} and 50 for maxPowerIters but received ${maxQ}`,
+      );
+    if (method === 'power' && q > 0) check = { target, maxQ, k, normA2: opts.frobeniusSquared };
+  }
   const ws = backend.workspace(randomizedSvdBytes(m, n, k, l, blocks, f32));
   try {
-    return core(ws, a, k, l, q, blocks, f32, opts.seed ?? DEFAULT_SEED);
+    return core(ws, a, k, l, q, blocks, f32, opts.seed ?? DEFAULT_SEED, check);
   } catch (err) {
     // Non-finite input shows up as NaN in the first Gram matrix; scan only then (saves a pass over A).
     assertFinite(a);
@@ -164,25 +208,93 @@ export function randomizedSvdBytes(
     n * L +
     L * L +
     L * k +
-    n * k;
+    n * k +
+    2 * l * l;
   return (f32 ? bytesFor(pe, de) : bytesFor(0, pe + de)) + jacobiBytes(L, L);
+}
+
+/** The accuracy check's settings (see RandomizedSvdOptions.accuracy). */
+interface Check {
+  target: number;
+  maxQ: number;
+  k: number;
+  normA2?: number;
+}
+
+/** The accuracy check's settings (see RandomizedSvdOptions.accuracy). */
+interface Check {
+  target: number;
+  maxQ: number;
+  k: number;
+  normA2?: number;
 }
 
 /**
  * Randomized subspace iteration, HMT 2011 Algorithm 4.4: starting from Y = AΩ, q rounds of
  * Z = orth(AᵀY), Y = orth(AZ). Intermediate bases need only be well conditioned (one Cholesky pass);
- * the last is made orthonormal. Returns the m×l basis (in Y).
+ * the last is made orthonormal. Leaves the m×l basis in Y. With `Ry`, the last Z is made orthonormal
+ * too and Ry receives the R factor of AZ = Y·R (so σᵢ(AZ) = σᵢ(R), see `estimateRatio`).
  */
-function powerBasis(o: RangeOps, Y: FloatArray, Z: FloatArray, q: number): FloatArray {
+function powerBasis(o: RangeOps, Y: FloatArray, Z: FloatArray, q: number, Ry?: Float64Array): void {
   const { orth, mulA, mulAt, m, n, l } = o;
   orth.run(Y, m, l, undefined, q === 0);
   for (let it = 0; it < q; it++) {
+    const last = it === q - 1;
     mulAt(Y, Z, l);
-    orth.run(Z, n, l, undefined, false);
+    orth.run(Z, n, l, undefined, last && Ry !== undefined);
     mulA(Z, Y, l);
-    orth.run(Y, m, l, undefined, it === q - 1);
+    orth.run(Y, m, l, last ? Ry : undefined, last);
   }
-  return Y;
+}
+
+/** ‖A‖²_F in f64. */
+function frobeniusSquared(A: FloatArray, len: number): number {
+  let s = 0;
+  for (let i = 0; i < len; i++) s += A[i] * A[i];
+  return s;
+}
+
+/** Squared singular values of the upper-triangular l×l R, descending (eigenvalues of RᵀR). */
+function squaredSingularValues(R: Float64Array, l: number): Float64Array {
+  const G = new Float64Array(l * l);
+  for (let i = 0; i < l; i++)
+    for (let j = 0; j <= i; j++) {
+      let s = 0;
+      for (let p = 0; p <= j; p++) s += R[p * l + i] * R[p * l + j];
+      G[i * l + j] = s;
+      G[j * l + i] = s;
+    }
+  return symmetricEigenvalues(G, l).sort((x, y) => y - x);
+}
+
+/**
+ * A-posteriori estimate of ‖A − U·diag(s)·Vᵀ‖_F ÷ the Eckart–Young optimum (Σ_{i>k} σᵢ²)^{1/2}.
+ *
+ * `ey` are the squared singular values of AZ (Z orthonormal, the last power step's right basis) and `s`
+ * the final σ̂ of B = QᵀA, Q = orth(AZ). Both are lower bounds on σᵢ(A) (interlacing), and σᵢ(B) ≥
+ * σᵢ(QᵀAZ) = σᵢ(AZ), so the captured energy Σ_{i≤k} σᵢ² rises with every half-step toward its optimum
+ * Σ_{i≤k} σᵢ(A)². Under the linear model of subspace iteration (each half-step shrinks the deficit by
+ * about r = (σ_{l+1}/σ_k)²; HMT 2011 §4.5 and the power-scheme bound of Cor. 10.10 — the model is common
+ * practice, not a theorem), the deficit left after the last half-step, whose gain was δ, is about
+ * δ·r/(1 − r); r is estimated by (σ_l(AZ)/σ_k(AZ))², capped at MAX_CONTRACTION. The error is exactly
+ * √(‖A‖² − Σ_{i≤k} ŝᵢ²) up to rounding. Differences are taken term by term, so f32 rounding (about
+ * ε·σ₁ per σᵢ) does not swamp them.
+ */
+function estimateRatio(ey: Float64Array, s: Float64Array, l: number, k: number, normA2: number): number {
+  let delta = 0;
+  let captured = 0;
+  for (let i = 0; i < k; i++) {
+    const si2 = s[i] * s[i];
+    delta += si2 - ey[i];
+    captured += si2;
+  }
+  delta = Math.max(0, delta);
+  const r = ey[k - 1] > 0 ? Math.min(MAX_CONTRACTION, Math.max(0, ey[l - 1] / ey[k - 1])) : MAX_CONTRACTION;
+  const deficit = (delta * r) / (1 - r);
+  const err2 = Math.max(0, normA2 - captured);
+  if (err2 === 0) return 1;
+  const opt2 = err2 - deficit;
+  return opt2 > 0 ? Math.sqrt(err2 / opt2) : Number.POSITIVE_INFINITY;
 }
 
 function core(
@@ -194,7 +306,8 @@ function core(
   blocks: number,
   f32: boolean,
   seed: number,
-): SvdResult {
+  check: Check | null,
+): RandomizedSvdResult {
   const m = a.rows;
   const n = a.cols;
   const L = l * blocks;
@@ -211,12 +324,54 @@ function core(
     ws.gemm(m, w, n, A, 0, n, 1, X, 0, w, out, 0, w, false);
   const mulAt = (X: FloatArray, out: FloatArray, w: number) =>
     ws.gemm(n, w, m, A, 0, 1, n, X, 0, w, out, 0, w, false);
-  const ops: RangeOps = { ws, orth, mulA, mulAt, alloc, m, n, l };
+  const ops: RangeOps = { ws, orth, mulA, mulAt, alloc, m, n, l, A };
   mulA(Om, Y, l);
-  const Qm = blocks === 1 ? powerBasis(ops, Y, Z, q) : blockKrylovBasis(ops, Y, Z, blocks);
+  const Ry = check ? ws.f64(l * l) : undefined;
+  if (blocks === 1) powerBasis(ops, Y, Z, q, Ry);
+  const Qm = blocks === 1 ? Y : blockKrylovBasis(ops, Y, Z, blocks);
+  if (!check || !Ry)
+    return { ...project(ws, orth, A, Qm, m, n, k, L, f32, alloc), powerIters: q, ratioEstimate: Number.NaN };
+  // Accuracy check (see estimateRatio): project, estimate; while the estimate is above the target,
+  // run one more power step from the projection's own AᵀQ and project again in the same space.
+  const normA2 = check.normA2 ?? frobeniusSquared(A, m * n);
+  for (let it = q; ; it++) {
+    const ey = squaredSingularValues(Ry, l);
+    const mark = ws.mark?.();
+    const res = project(ws, orth, A, Qm, m, n, k, L, f32, alloc, Z);
+    const ratio = estimateRatio(ey, res.s, l, k, normA2);
+    if (ratio <= check.target || it >= check.maxQ || mark === undefined || !ws.reset)
+      return { ...res, powerIters: it, ratioEstimate: ratio };
+    ws.reset(mark);
+    // Z holds AᵀQ: the next step's first half, already computed.
+    orth.run(Z, n, l, undefined, true);
+    mulA(Z, Y, l);
+    orth.run(Y, m, l, Ry, true);
+  }
+}
+
+/**
+ * The final projection: B = QᵀA for the orthonormal m×L basis Q, and the truncated SVD of A from the
+ * SVD of the small B. When `keepAtQ` (n×L) is given it receives AᵀQ (for a further power step).
+ */
+function project(
+  ws: Workspace,
+  orth: Orthonormalizer,
+  A: FloatArray,
+  Qm: FloatArray,
+  m: number,
+  n: number,
+  k: number,
+  L: number,
+  f32: boolean,
+  alloc: (len: number) => FloatArray,
+  keepAtQ?: FloatArray,
+): SvdResult {
+  const mulAt = (X: FloatArray, out: FloatArray, w: number) =>
+    ws.gemm(n, w, m, A, 0, 1, n, X, 0, w, out, 0, w, false);
   // B = QᵀA (L×n), handled as Bᵀ = AᵀQ (n×L) = Q₂R; R = U_R Σ V_Rᵀ; A ≈ (Q V_R) Σ (Q₂ U_R)ᵀ.
   const Bt = alloc(n * L);
   mulAt(Qm, Bt, L);
+  keepAtQ?.set(Bt.subarray(0, n * L));
   const Btd = ws.f64(n * L);
   for (let i = 0; i < n * L; i++) Btd[i] = Bt[i];
   if (L >= GRAM_CORE_MIN) {

@@ -87,6 +87,12 @@ export interface Workspace {
    */
   choleskyLower?(G: Float64Array, l: number, shift: number, floor: number, L: Float64Array): number;
   invertUpper?(R: Float64Array, l: number, out: Float64Array): boolean;
+  /**
+   * Optional: a mark of the allocation pointer; `reset(mark)` frees everything allocated after it
+   * (views taken since must not be used again). Lets an algorithm repeat a stage in the same space.
+   */
+  mark?(): number;
+  reset?(mark: number): void;
   /** Return the space to the backend. Views must not be used afterwards. */
   release(): void;
   /** Short label for diagnostics and the bench ("wasm", "ts", "2 workers"). */
@@ -96,7 +102,27 @@ export interface Workspace {
 export interface Backend {
   /** A workspace able to hold `bytes` bytes of arrays (allocate with some slack for alignment). */
   workspace(bytes: number): Workspace;
+  /**
+   * Optional: grow the backend's memory to hold a workspace of `bytes` and write to every page of it,
+   * so that a later computation of that size pays no memory growth or first-touch page faults.
+   */
+  reserve?(bytes: number): void;
   readonly label: string;
+}
+
+/** Bytes between writes when touching fresh memory (the smallest common page size). */
+const TOUCH_STRIDE = 4096;
+
+/** Grow `memory` to `start + bytes` (within its limit) and write a zero into every page from `start`. */
+export function touchMemory(
+  memory: WebAssembly.Memory,
+  start: number,
+  bytes: number,
+  grow: (end: number) => void,
+): void {
+  grow(start + bytes);
+  const view = new Uint8Array(memory.buffer, start, bytes);
+  for (let i = 0; i < bytes; i += TOUCH_STRIDE) view[i] = 0;
 }
 
 /** Bytes needed for arrays of these element counts, with alignment slack. */
@@ -249,6 +275,10 @@ function wasmWorkspace(kernels: WasmKernels, bytes: number): Workspace {
     f32: (n) => new Float32Array(kernels.memory.buffer, take(4 * n), n),
     f64,
     gemm,
+    mark: () => top,
+    reset: (at) => {
+      top = Math.min(top, at);
+    },
     ...kernelOps(kernels.exports, (x) => x.buffer === kernels.memory.buffer, f64),
     release: () => {
       wasmBusy = false;
@@ -262,6 +292,9 @@ export function wasmBackend(): Backend | null {
   if (!k) return null;
   return {
     label: 'wasm',
+    reserve: (bytes) => {
+      if (!wasmBusy) touchMemory(k.memory, RESERVED_BYTES, bytes, (end) => ensureMemory(k, end));
+    },
     workspace: (bytes) => {
       // One computation at a time owns the linear memory (JS is single-threaded; nesting is a bug).
       if (wasmBusy) return new TsWorkspace();

@@ -4,7 +4,7 @@
  */
 
 import { type TileRect, tileGrid } from '../codec/quantised';
-import { fullSvd, jacobiSvd, type Matrix, randomizedSvd, type SvdResult } from '../linalg';
+import { type Backend, fullSvd, jacobiSvd, type Matrix, randomizedSvd, type SvdResult } from '../linalg';
 
 export interface TileFactors {
   rect: TileRect;
@@ -40,6 +40,43 @@ export interface FactorOptions {
   maxRank?: number;
   /** Seed for the randomized SVD. */
   seed?: number;
+  /** Where a whole plane's randomized SVD runs; default the one set by `setPlaneBackend`, else the engine's. */
+  backend?: Backend;
+}
+
+/**
+ * Whole-plane randomized SVD settings (the CLI/app fast path): f32 storage and SIMD products, q = 2 power
+ * steps with every step re-orthonormalised (HMT 2011 Alg. 4.4; in f32 this keeps the error at the f64
+ * level, see ../shared/design/PERFORMANCE-NOTES.md), and an a-posteriori check that adds power steps
+ * (up to 8) while the estimated Frobenius error exceeds 1.01× the Eckart–Young optimum.
+ */
+export const PLANE_POWER_ITERS = 2;
+export const PLANE_ACCURACY = 1.01;
+export const PLANE_MAX_POWER_ITERS = 8;
+/**
+ * Oversampling p of the whole-plane path: at least 20, with l = k + p rounded up to a multiple of 8 (the
+ * f32 kernel's register block is 4×8, so a 61-column block pays a scalar tail column). Measured on the
+ * 1500×2000 bench plane (camera.png resized, k = 51, q = 2, f32): p = 10 gives 1.0054× the optimum and
+ * σ₅₁ 2.6 % low; p = 20 gives 1.0013× and 0.7 %; p = 30 gives 1.0004× and 0.3 % — for 16 % / 33 % more
+ * product flops, where q = 4 with p = 10 (67 % more) gives 1.0004× and 0.4 %. The report's Eckart–Young
+ * figures (σ_{k+1}, the Frobenius optimum) come from these σ̂, so they need the accuracy too.
+ */
+export const PLANE_MIN_OVERSAMPLE = 20;
+
+/** Oversampling for a k-column whole-plane factorisation of a plane whose short side is r. */
+export function planeOversample(k: number, r: number): number {
+  const l = Math.ceil((k + PLANE_MIN_OVERSAMPLE) / 8) * 8;
+  return Math.max(0, Math.min(l, r) - k);
+}
+
+let planeBackend: Backend | undefined;
+
+/**
+ * Set (or clear, with undefined) the backend whole-plane factorisations use by default — e.g. the
+ * thread pool of src-main/node/parallel, which gives bit-identical results to one thread.
+ */
+export function setPlaneBackend(backend: Backend | undefined): void {
+  planeBackend = backend;
 }
 
 /** Planes above this many pixels on the short side use the randomized SVD when the engine has it. */
@@ -55,36 +92,49 @@ export function factorPlane(
   const tiles: TileFactors[] = [];
   for (const rect of rects) {
     const { x, y, w, h } = rect;
-    const a = new Float64Array(w * h);
+    const kmax = Math.min(w, h);
+    const randomized = kmax >= RANDOMIZED_MIN_SIDE && opts.maxRank !== undefined && opts.maxRank < kmax / 2;
+    // The randomized path stores the plane in f32 (what its kernels read, and what `data` keeps anyway).
+    const a = randomized ? new Float32Array(w * h) : new Float64Array(w * h);
     let sum = 0;
+    let energy = 0;
     for (let i = 0; i < h; i++)
       for (let j = 0; j < w; j++) {
         const v = plane[(y + i) * width + x + j];
         a[i * w + j] = v;
         sum += v;
+        energy += a[i * w + j] * a[i * w + j];
       }
     const meanQ = opts.meanRemoval ? Math.round(sum / (w * h) / opts.meanStep) : 0;
-    const mean = meanQ * opts.meanStep;
-    let energy = 0;
-    for (let k = 0; k < a.length; k++) {
-      a[k] -= mean;
-      energy += a[k] * a[k];
+    if (meanQ !== 0) {
+      const mean = meanQ * opts.meanStep;
+      energy = 0;
+      for (let k = 0; k < a.length; k++) {
+        a[k] -= mean;
+        energy += a[k] * a[k];
+      }
     }
     // Exactly rank-deficient tiles (flat paper, ruled lines, charts) need no dither: one-sided Jacobi skips
     // pairs whose smaller column is below ε·‖A‖_F (src-main/engine/linalg/jacobi-svd.ts), so it stops early.
     const mat: Matrix = { rows: h, cols: w, data: a };
     let svd: SvdResult;
-    const kmax = Math.min(w, h);
     if (energy === 0) svd = zeroSvd(h, w);
-    else if (kmax >= RANDOMIZED_MIN_SIDE && opts.maxRank !== undefined && opts.maxRank < kmax / 2)
-      // Halko, Martinsson & Tropp 2011, Alg. 4.4 with q = 4 power steps: ≈1.0005× the optimal Frobenius error.
+    else if (randomized) {
       // One component beyond the cap, so the Eckart–Young spectral bound σ_{k+1} is known at rank k.
-      svd = randomizedSvd(mat, Math.min(kmax, Math.max(1, opts.maxRank) + 1), {
+      const k = Math.min(kmax, Math.max(1, opts.maxRank ?? 1) + 1);
+      svd = randomizedSvd(mat, k, {
         seed: opts.seed ?? 1,
-        powerIters: 4,
+        precision: 'f32',
+        oversample: planeOversample(k, kmax),
+        powerIters: PLANE_POWER_ITERS,
+        accuracy: PLANE_ACCURACY,
+        maxPowerIters: PLANE_MAX_POWER_ITERS,
+        frobeniusSquared: energy,
+        backend: opts.backend ?? planeBackend,
       });
-    else svd = opts.tile === 0 ? fullSvd(mat) : jacobiSvd(mat);
-    tiles.push({ rect, meanQ, energy, data: new Float32Array(a), s: svd.s, U: svd.U, V: svd.V });
+    } else svd = opts.tile === 0 ? fullSvd(mat) : jacobiSvd(mat);
+    const data = a instanceof Float32Array ? a : new Float32Array(a);
+    tiles.push({ rect, meanQ, energy, data, s: svd.s, U: svd.U, V: svd.V });
   }
   return { width, height, tile: opts.tile, meanStep: opts.meanRemoval ? opts.meanStep : 0, tiles };
 }

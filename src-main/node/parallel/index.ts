@@ -1,4 +1,6 @@
 /** Worker-thread linear algebra for large planes (Node only). */
+
+export { planeThreads, prepareFactorPath } from './factor-path';
 export {
   closeSharedLinalgPool,
   LinalgPool,

@@ -23,7 +23,7 @@ import type { Backend, FloatArray, Gemm, Workspace } from '../../engine/linalg';
 import { gemmTs } from '../../engine/linalg/gemm-ts';
 import { wasmBase64 } from '../../engine/linalg/wasm/generated/kernels-shared';
 import { decodeBase64, type KernelExports, RESERVED_BYTES } from '../../engine/linalg/wasm/runtime';
-import { kernelOps } from '../../engine/linalg/workspace';
+import { kernelOps, touchMemory } from '../../engine/linalg/workspace';
 import {
   CLAIM,
   CTRL_WORDS,
@@ -152,6 +152,15 @@ export class LinalgPool implements Backend {
     return this.splits;
   }
 
+  /** See Backend.reserve: grow the shared memory for a workspace of `bytes` and touch every page. */
+  reserve(bytes: number): void {
+    if (this.closed || this.busy) return;
+    touchMemory(this.memory, RESERVED_BYTES, bytes, (end) => {
+      const have = this.memory.buffer.byteLength;
+      if (end > have && end <= MAX_PAGES * PAGE) this.memory.grow(Math.ceil((end - have) / PAGE));
+    });
+  }
+
   workspace(bytes: number): Workspace {
     if (this.closed) throw new Error('LinalgPool is closed');
     if (this.busy) throw new Error('LinalgPool: one computation at a time (its workspace is in use)');
@@ -185,6 +194,10 @@ export class LinalgPool implements Backend {
       f32: (n) => new Float32Array(buffer, take(4 * n), n),
       f64,
       gemm: this.gemm,
+      mark: () => this.top,
+      reset: (at) => {
+        this.top = Math.min(this.top, at);
+      },
       // The engine's optional kernels, wrapped by the same factory as the wasm backend's
       // (workspace.ts), so results equal one thread's.
       ...kernelOps(this.local, (x) => sameMemory(x, this.memory), f64),

@@ -142,7 +142,11 @@ export async function compressDecoded(
   await initEngine();
   // Whole planes: kernels warmed and the thread pool registered, outside timings.factorMs (issue #12 item 3).
   if (options.tile === 0 || (options.tile === 'auto' && options.budget.kind === 'rank'))
-    await prepareFactorPath();
+    await prepareFactorPath({
+      rows: decoded.height,
+      cols: decoded.width,
+      rank: options.budget.kind === 'rank' ? options.budget.rank : undefined,
+    });
   const result = encodeScan(decoded, {
     budget: options.budget,
     tile: options.tile,

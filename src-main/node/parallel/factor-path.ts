@@ -1,0 +1,104 @@
+/**
+ * Process set-up for the whole-plane factorisation fast path (`compress --tile 0`, `--rank` with
+ * `--tile auto`, the app): the WebAssembly kernels compiled once per process and warmed up before any
+ * timed factorisation, and — on the main thread of a machine with at least 2 cores — the shared
+ * thread pool registered as the whole-plane backend (engine/lowrank/factorise.ts `setPlaneBackend`).
+ *
+ * Warm-up: V8 first runs WebAssembly and JS in baseline tiers and optimises functions once they are
+ * hot (common practice knowledge of V8's tiering, not measured per tier here); a first rank-50
+ * factorisation of a 1500×2000 plane measured ≈ 2× slower than the second in the same process. A few
+ * small factorisations at start-up take that cost outside `timings.factorMs`.
+ *
+ * Not in batch worker threads (isMainThread false): those already run one job per core, and a pool each
+ * would oversubscribe the cores. RANKFOLD_LINALG_WORKERS=1 keeps the factorisation on one thread
+ * (results are bit-identical either way: the pool splits products by rows in multiples of the
+ * kernels' register block).
+ */
+import { availableParallelism } from 'node:os';
+import { isMainThread } from 'node:worker_threads';
+import {
+  type Backend,
+  DEFAULT_OVERSAMPLE,
+  defaultBackend,
+  initEngine,
+  randomizedSvd,
+} from '../../engine/linalg';
+import { randomizedSvdBytes } from '../../engine/linalg/randomized-svd';
+import {
+  PLANE_ACCURACY,
+  PLANE_POWER_ITERS,
+  planeOversample,
+  setPlaneBackend,
+} from '../../engine/lowrank/factorise';
+import { sharedLinalgPool } from './pool';
+
+/** Warm-up factorisations: enough calls on a plane big enough that every product is split over the threads. */
+const WARM_ROUNDS = 3;
+const WARM_ROWS = 320;
+const WARM_COLS = 256;
+const WARM_RANK = 51;
+
+let ready: Promise<Backend> | null = null;
+
+/** Threads for whole-plane factorisations: RANKFOLD_LINALG_WORKERS (1…16), else 2 when there are ≥ 2 cores. */
+export function planeThreads(): number {
+  const env = Number(process.env.RANKFOLD_LINALG_WORKERS);
+  if (Number.isInteger(env) && env >= 1 && env <= 16) return env;
+  return availableParallelism() >= 2 ? 2 : 1;
+}
+
+/** The plane about to be factorised, so its workspace can be reserved before the timer starts. */
+export interface PlaneHint {
+  rows: number;
+  cols: number;
+  /** Largest rank wanted (the factorisation asks one more). Default 64. */
+  rank?: number;
+}
+
+/**
+ * Compile the kernels, start the pool where it helps, register it for whole planes and warm both up
+ * (once per process), then reserve memory for `hint`'s plane. Resolves to the backend whole planes use.
+ */
+export async function prepareFactorPath(hint?: PlaneHint): Promise<Backend> {
+  ready ??= (async () => {
+    await initEngine();
+    let backend: Backend = defaultBackend();
+    let pooled = false;
+    const threads = planeThreads();
+    if (isMainThread && threads > 1)
+      try {
+        backend = await sharedLinalgPool({ workers: threads });
+        pooled = true;
+      } catch {
+        // No worker file (unbuilt tree) or no SharedArrayBuffer: one thread gives the same results.
+      }
+    setPlaneBackend(pooled ? backend : undefined);
+    warmUp(backend);
+    return backend;
+  })();
+  const backend = await ready;
+  if (hint && Math.min(hint.rows, hint.cols) >= 2) {
+    const r = Math.min(hint.rows, hint.cols);
+    const k = Math.min(r, (hint.rank ?? 64) + 1);
+    const l = k + planeOversample(k, r);
+    backend.reserve?.(randomizedSvdBytes(hint.rows, hint.cols, k, l, 1, true));
+  }
+  return backend;
+}
+
+/** A few rank-51 factorisations of a small smooth plane: the same kernels and code paths as a scan's. */
+function warmUp(backend: Backend): void {
+  const data = new Float32Array(WARM_ROWS * WARM_COLS);
+  for (let i = 0; i < WARM_ROWS; i++)
+    for (let j = 0; j < WARM_COLS; j++)
+      data[i * WARM_COLS + j] = 128 + 60 * Math.sin(0.05 * i * (1 + (j % 7))) + ((i * 31 + j * 17) % 23);
+  for (let r = 0; r < WARM_ROUNDS; r++)
+    randomizedSvd({ rows: WARM_ROWS, cols: WARM_COLS, data }, WARM_RANK, {
+      seed: r + 1,
+      precision: 'f32',
+      oversample: planeOversample(WARM_RANK, Math.min(WARM_ROWS, WARM_COLS)),
+      powerIters: PLANE_POWER_ITERS,
+      accuracy: PLANE_ACCURACY,
+      backend,
+    });
+}
