@@ -10,7 +10,9 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { initEngine, type Matrix, randomizedSvd } from '../../src-main/engine/linalg';
 import { factorPlane, PLANE_ACCURACY, setPlaneBackend } from '../../src-main/engine/lowrank/factorise';
 import { decodeImage } from '../../src-main/node/image/decode';
-import { LinalgPool } from '../../src-main/node/parallel/pool';
+import { prepareFactorPath } from '../../src-main/node/parallel/factor-path';
+import { closeSharedLinalgPool, LinalgPool } from '../../src-main/node/parallel/pool';
+import { compressDecoded } from '../../src-main/node/services/compress';
 import { image, reference } from '../helpers/fixtures';
 import { frob, residual, withSpectrum } from './helpers';
 
@@ -29,6 +31,7 @@ afterAll(async () => {
   setPlaneBackend(undefined);
   await one?.close();
   await two?.close();
+  await closeSharedLinalgPool();
 });
 
 /** ‖A − A_k‖_F of a factorisation's first k components, in f64 against the f64 samples. */
@@ -185,5 +188,19 @@ describe('determinism: 1 vs 2 threads', () => {
       maxRank: 50,
     });
     expect(Array.from(viaDefault.tiles[0].U.data)).toEqual(Array.from(single.tiles[0].U.data));
+  });
+
+  it('compress --rank 40 --tile 0 writes byte-identical .rkf files with 1 and 2 threads', async () => {
+    const d = await decodeImage(image('camera.png'));
+    await prepareFactorPath(); // once per process; the backend is then swapped below
+    const bytes: Uint8Array[] = [];
+    for (const pool of [one, two]) {
+      setPlaneBackend(pool);
+      const { bytes: b, report } = await compressDecoded(d, { budget: { kind: 'rank', rank: 40 }, tile: 0 });
+      expect(report.ranks[0].rank).toBe(40);
+      bytes.push(b);
+    }
+    setPlaneBackend(undefined);
+    expect(Buffer.compare(Buffer.from(bytes[0]), Buffer.from(bytes[1]))).toBe(0);
   });
 });

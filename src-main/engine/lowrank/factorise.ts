@@ -95,17 +95,13 @@ export function factorPlane(
     const kmax = Math.min(w, h);
     const randomized = kmax >= RANDOMIZED_MIN_SIDE && opts.maxRank !== undefined && opts.maxRank < kmax / 2;
     // The randomized path stores the plane in f32 (what its kernels read, and what `data` keeps anyway).
-    const a = randomized ? new Float32Array(w * h) : new Float64Array(w * h);
-    let sum = 0;
-    let energy = 0;
-    for (let i = 0; i < h; i++)
-      for (let j = 0; j < w; j++) {
-        const v = plane[(y + i) * width + x + j];
-        a[i * w + j] = v;
-        sum += v;
-        energy += a[i * w + j] * a[i * w + j];
-      }
+    const {
+      a,
+      sum,
+      energy: raw,
+    } = randomized ? copyF32(plane, width, x, y, w, h) : copyF64(plane, width, x, y, w, h);
     const meanQ = opts.meanRemoval ? Math.round(sum / (w * h) / opts.meanStep) : 0;
+    let energy = raw;
     if (meanQ !== 0) {
       const mean = meanQ * opts.meanStep;
       energy = 0;
@@ -137,6 +133,37 @@ export function factorPlane(
     tiles.push({ rect, meanQ, energy, data, s: svd.s, U: svd.U, V: svd.V });
   }
   return { width, height, tile: opts.tile, meanStep: opts.meanRemoval ? opts.meanStep : 0, tiles };
+}
+
+/** The w×h window at (x, y) of the plane as f32, with its sum and ‖·‖²_F (f64 sums, row-major order). */
+function copyF32(plane: ArrayLike<number>, width: number, x: number, y: number, w: number, h: number) {
+  const a = new Float32Array(w * h);
+  if (plane instanceof Float32Array && x === 0 && w === width)
+    a.set(plane.subarray(y * width, (y + h) * width));
+  else for (let i = 0; i < h; i++) for (let j = 0; j < w; j++) a[i * w + j] = plane[(y + i) * width + x + j];
+  let sum = 0;
+  let energy = 0;
+  for (let k = 0; k < a.length; k++) {
+    const v = a[k];
+    sum += v;
+    energy += v * v;
+  }
+  return { a, sum, energy };
+}
+
+/** As copyF32, in f64 (the tile path's Jacobi SVD works in f64). */
+function copyF64(plane: ArrayLike<number>, width: number, x: number, y: number, w: number, h: number) {
+  const a = new Float64Array(w * h);
+  let sum = 0;
+  let energy = 0;
+  for (let i = 0; i < h; i++)
+    for (let j = 0; j < w; j++) {
+      const v = plane[(y + i) * width + x + j];
+      a[i * w + j] = v;
+      sum += v;
+      energy += v * v;
+    }
+  return { a, sum, energy };
 }
 
 function zeroSvd(h: number, w: number): SvdResult {

@@ -24,19 +24,14 @@ import {
   randomizedSvd,
 } from '../../engine/linalg';
 import { randomizedSvdBytes } from '../../engine/linalg/randomized-svd';
-import {
-  PLANE_ACCURACY,
-  PLANE_POWER_ITERS,
-  planeOversample,
-  setPlaneBackend,
-} from '../../engine/lowrank/factorise';
+import { factorPlane, planeOversample, setPlaneBackend } from '../../engine/lowrank/factorise';
 import { sharedLinalgPool } from './pool';
 
 /** Warm-up factorisations: enough calls on a plane big enough that every product is split over the threads. */
 const WARM_ROUNDS = 3;
 const WARM_ROWS = 320;
 const WARM_COLS = 256;
-const WARM_RANK = 51;
+const WARM_RANK = 50;
 
 let ready: Promise<Backend> | null = null;
 
@@ -86,19 +81,22 @@ export async function prepareFactorPath(hint?: PlaneHint): Promise<Backend> {
   return backend;
 }
 
-/** A few rank-51 factorisations of a small smooth plane: the same kernels and code paths as a scan's. */
+/**
+ * A few whole-plane factorisations of a small smooth plane through factorPlane itself (rank 50, so the
+ * randomized f32 path with its check, on `backend`): the same kernels and JS as a scan's.
+ */
 function warmUp(backend: Backend): void {
-  const data = new Float32Array(WARM_ROWS * WARM_COLS);
+  const plane = new Float32Array(WARM_ROWS * WARM_COLS);
   for (let i = 0; i < WARM_ROWS; i++)
     for (let j = 0; j < WARM_COLS; j++)
-      data[i * WARM_COLS + j] = 128 + 60 * Math.sin(0.05 * i * (1 + (j % 7))) + ((i * 31 + j * 17) % 23);
+      plane[i * WARM_COLS + j] = 128 + 60 * Math.sin(0.05 * i * (1 + (j % 7))) + ((i * 31 + j * 17) % 23);
   for (let r = 0; r < WARM_ROUNDS; r++)
-    randomizedSvd({ rows: WARM_ROWS, cols: WARM_COLS, data }, WARM_RANK, {
+    factorPlane(plane, WARM_COLS, WARM_ROWS, {
+      tile: 0,
+      meanRemoval: false,
+      meanStep: 1,
+      maxRank: WARM_RANK,
       seed: r + 1,
-      precision: 'f32',
-      oversample: planeOversample(WARM_RANK, Math.min(WARM_ROWS, WARM_COLS)),
-      powerIters: PLANE_POWER_ITERS,
-      accuracy: PLANE_ACCURACY,
       backend,
     });
 }
