@@ -510,36 +510,59 @@ function dequantise(
 const RATE_STRIDE = 7;
 const RATE_CAP = 16;
 
+/** Per band, the sorted magnitudes of a deterministic 1-in-RATE_STRIDE sample (built once per plane). */
+const sampleCache = new WeakMap<AnalysedPlane, Float64Array[]>();
+function sortedSample(a: AnalysedPlane): Float64Array[] {
+  const hit = sampleCache.get(a);
+  if (hit) return hit;
+  const lists: number[][] = a.bands.map(() => []);
+  for (let i = 0; i < a.coeffs.length; i += RATE_STRIDE) lists[a.map[i]].push(Math.abs(a.coeffs[i]));
+  const out = lists.map((l) => Float64Array.from(l).sort());
+  sampleCache.set(a, out);
+  return out;
+}
+
+/** Index of the first value ≥ t in a sorted array. */
+function lowerBound(v: Float64Array, t: number): number {
+  let lo = 0;
+  let hi = v.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if (v[mid] < t) lo = mid + 1;
+    else hi = mid;
+  }
+  return lo;
+}
+
 /**
  * A quick estimate of {@link codeAnalysed}'s size in bits at step `step`, for rate control: the zeroth-order
  * entropy of each band's quantised magnitudes (0…15, then an Exp-Golomb escape) plus one bit per sign, on a
- * deterministic 1-in-7 sample of the coefficients. The range coder's contexts do better than this, so
- * callers calibrate it with the ratio of a real encode to the estimate (common practice; see
- * {@link codeAnalysed} for the real coder).
+ * deterministic 1-in-7 sample of the coefficients (sorted once per plane, so a step costs a few binary
+ * searches per band). The range coder's contexts do better than this, so callers calibrate it with the ratio
+ * of a real encode to the estimate (common practice; see {@link codeAnalysed} for the real coder).
  */
 export function estimateBits(a: AnalysedPlane, step: number): number {
-  const { bands, map, coeffs: x } = a;
+  const { bands } = a;
   const steps = bandSteps(bands, step);
-  const counts = new Float64Array(bands.length * (RATE_CAP + 1));
-  let escapeBits = 0;
-  let signs = 0;
-  for (let i = 0; i < x.length; i += RATE_STRIDE) {
-    const bi = map[i];
-    const rho = bands[bi].orient === 0 ? 0.5 : DEAD_ZONE_RHO;
-    const m = Math.floor(Math.abs(x[i]) / steps[bi] + rho);
-    if (m) signs++;
-    if (m >= RATE_CAP) {
-      counts[bi * (RATE_CAP + 1) + RATE_CAP]++;
-      escapeBits += 2 * Math.log2(m - RATE_CAP + 2) + 1;
-    } else counts[bi * (RATE_CAP + 1) + m]++;
-  }
-  let bits = escapeBits + signs;
+  const sample = sortedSample(a);
+  let bits = 0;
+  const atLeast = new Float64Array(RATE_CAP + 2);
   for (let b = 0; b < bands.length; b++) {
-    let total = 0;
-    for (let m = 0; m <= RATE_CAP; m++) total += counts[b * (RATE_CAP + 1) + m];
+    const v = sample[b];
+    const n = v.length;
+    if (!n) continue;
+    const rho = bands[b].orient === 0 ? 0.5 : DEAD_ZONE_RHO;
+    // atLeast[m] = how many sampled magnitudes quantise to ≥ m: |x|/Δ_b + ρ ≥ m ⇔ |x| ≥ (m − ρ)·Δ_b.
+    atLeast[0] = n;
+    for (let m = 1; m <= RATE_CAP; m++) atLeast[m] = n - lowerBound(v, (m - rho) * steps[b]);
+    bits += atLeast[1]; // signs
     for (let m = 0; m <= RATE_CAP; m++) {
-      const c = counts[b * (RATE_CAP + 1) + m];
-      if (c > 0) bits -= c * Math.log2(c / total);
+      const c = m < RATE_CAP ? atLeast[m] - atLeast[m + 1] : atLeast[RATE_CAP];
+      if (c > 0) bits -= c * Math.log2(c / n);
+    }
+    for (let i = n - atLeast[RATE_CAP]; i < n; i++) {
+      const m = Math.floor(v[i] / steps[b] + rho);
+      bits += 2 * Math.log2(Math.max(1, m - RATE_CAP + 2)) + 1;
     }
   }
   return bits * RATE_STRIDE + 8;

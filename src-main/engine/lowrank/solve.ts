@@ -320,6 +320,8 @@ export interface Plan {
   /** Real size reported by the measure callback (bytes), when measured. */
   bytes: number;
   estimatedError: number;
+  /** The quantised candidate the plan is a greedy prefix of (set by solveBytes; reused by ./two-layer). */
+  candidate?: Candidate;
 }
 
 /**
@@ -370,6 +372,7 @@ export function solveBytes(
           delta: c.delta,
           bytes: r.bytes,
           estimatedError: err,
+          candidate: c,
         };
     }
   };

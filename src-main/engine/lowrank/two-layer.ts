@@ -226,12 +226,29 @@ export function chooseLayers(ctx: LayerContext): LayerPlan {
     }
     return s;
   };
-  const candidates: Array<LayerCandidate & { planes: QuantPlane[]; base: Float64Array[]; fit?: Fitted }> = [];
+  type Heavy = LayerCandidate & { planes: QuantPlane[]; base?: Float64Array[]; fit?: Fitted };
+  const candidates: Heavy[] = [];
+  // Only the best candidate so far keeps its decoded base and coded residual (memory: a few float planes).
+  let chosen: Heavy | undefined;
+  const offer = (c: Heavy) => {
+    candidates.push(c);
+    if (c.fileBytes <= budget && (!chosen || chosen.fileBytes > budget || c.sse < chosen.sse)) {
+      if (chosen) {
+        chosen.base = undefined;
+        if (chosen.fit) chosen.fit = { ...chosen.fit, coded: [] };
+      }
+      chosen = c;
+    } else {
+      c.base = undefined;
+      if (c.fit) c.fit = { ...c.fit, coded: [] };
+    }
+    if (!chosen) chosen = c;
+  };
   // 1. Base only.
   {
     const base = basePlan.planes.map(reconstruct);
     const fileBytes = ctx.build(basePlan.planes).length;
-    candidates.push({
+    offer({
       kind: 'base-only',
       baseComponents: components(basePlan.planes),
       baseBytes: ctx.baseBytes(basePlan.planes),
@@ -283,7 +300,7 @@ export function chooseLayers(ctx: LayerContext): LayerPlan {
       }
       sse += weights[k] * e;
     }
-    candidates.push({
+    offer({
       kind,
       kappa,
       baseComponents: components(basePlanes),
@@ -306,7 +323,8 @@ export function chooseLayers(ctx: LayerContext): LayerPlan {
   // 3. Mixed: the components at least κ·λ steep, from the base plan's step.
   const lambda = points ? slopeOf(points) : undefined;
   if (lambda !== undefined && lambda > 0 && Number.isFinite(basePlan.estimatedError)) {
-    const c = buildCandidate(inputs, basePlan.delta);
+    // The base plan's own candidate (its greedy order at its step), or the same rebuilt.
+    const c = basePlan.candidate ?? buildCandidate(inputs, basePlan.delta);
     let lastP = -1;
     for (const kappa of MIXED_KAPPAS) {
       let P = 0;
@@ -317,17 +335,14 @@ export function chooseLayers(ctx: LayerContext): LayerPlan {
     }
   }
   // Base only can be over the budget only when the budget is below the smallest base-only file (the caller
-  // then offers an empty base); it is then never chosen over a candidate that fits.
-  let chosen = candidates[0];
-  for (const cand of candidates)
-    if (cand.fileBytes <= budget && (chosen.fileBytes > budget || cand.sse < chosen.sse)) chosen = cand;
-  const strip = ({ planes: _p, base: _b, fit: _f, ...rest }: (typeof candidates)[number]): LayerCandidate =>
-    rest;
+  // then offers an empty base); it is then never chosen over a candidate that fits (see offer).
+  const best = chosen as Heavy;
+  const strip = ({ planes: _p, base: _b, fit: _f, ...rest }: Heavy): LayerCandidate => rest;
   return {
-    basePlanes: chosen.planes,
-    residual: chosen.fit ? { steps: chosen.fit.steps, bytes: chosen.fit.bytes } : undefined,
-    base: chosen.base,
-    chosen: strip(chosen),
+    basePlanes: best.planes,
+    residual: best.fit ? { steps: best.fit.steps, bytes: best.fit.bytes } : undefined,
+    base: best.base ?? best.planes.map(reconstruct),
+    chosen: strip(best),
     candidates: candidates.map(strip),
     residualEncodes: encodes,
     lambda,
