@@ -21,8 +21,9 @@ export function usableLanguage(lang: string | undefined): string {
   return head && ok(head) ? head : 'en-US';
 }
 
-if (typeof navigator !== 'undefined') {
-  const lang = usableLanguage(navigator.language);
-  if (lang !== navigator.language)
-    Object.defineProperty(navigator, 'language', { value: lang, configurable: true });
+// Reached through globalThis so the module also type-checks (and its function is tested) without the DOM.
+const nav = (globalThis as { navigator?: { language?: string } }).navigator;
+if (nav) {
+  const lang = usableLanguage(nav.language);
+  if (lang !== nav.language) Object.defineProperty(nav, 'language', { value: lang, configurable: true });
 }
