@@ -19,7 +19,7 @@ import { cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import sharp from 'sharp';
 import { initEngine, type Matrix, randomizedSvd, wasmBackend } from '../src-main/engine/linalg';
-import { factorPlane, setPlaneBackend } from '../src-main/engine/lowrank/factorise';
+import { factorPlane, planeOversample, setPlaneBackend } from '../src-main/engine/lowrank/factorise';
 import { prepareFactorPath } from '../src-main/node/parallel/factor-path';
 import { LinalgPool } from '../src-main/node/parallel/pool';
 
@@ -226,9 +226,11 @@ async function main(): Promise<void> {
     const plane = Float32Array.from(px);
     const fp = factorPlane(plane, W, H, { tile: 0, meanRemoval: false, meanStep: 0.25, maxRank: K }).tiles[0];
     const ourErr = errorAt(px, fp, K);
+    const P = planeOversample(K + 1, H);
     const check = randomizedSvd({ rows: H, cols: W, data: plane }, K + 1, {
       seed: 1,
       precision: 'f32',
+      oversample: P,
       powerIters: 2,
       accuracy: 1.01,
       backend,
@@ -264,7 +266,7 @@ async function main(): Promise<void> {
       `Target (factorMs ≤ scikit-learn's, error ≤ 1.01× optimum): **${met ? 'met' : 'not met'}** in this run. ` +
         `Optimum √Σ_{i>${K}}σᵢ² = ${opt.toFixed(1)} (σ_${K + 1} = ${sk1?.sigma_k1.toFixed(1)}; full SVD ${sk1?.full_svd_ms.toFixed(0)} ms). ` +
         `Rankfold's error is of its rank-${K} truncation before quantisation, in f64. The accuracy check ran ${check.powerIters} power steps ` +
-        `(estimate ${check.ratioEstimate.toFixed(4)}). The .rkf files from 2 threads and 1 thread are ` +
+        `(oversampling p = ${P}, estimate ${check.ratioEstimate.toFixed(4)}). The .rkf files from 2 threads and 1 thread are ` +
         `${Buffer.compare(rkf1, rkf2) === 0 ? 'byte-identical' : '**different**'}. Whole CLI process, median wall: ${median(cli.map((c) => c.wallMs)).toFixed(0)} ms.`,
     );
     log('');
@@ -294,20 +296,28 @@ async function main(): Promise<void> {
         () => randomizedSvd(a32, K + 1, { seed: 1, powerIters: 2, precision: 'f32', backend: wasm }),
       ],
       [
-        'f32, q = 2 + accuracy check, pool of 1 thread',
+        `f32, q = 2 + accuracy check, p = ${P}, pool of 1 thread`,
         () =>
           randomizedSvd(a32, K + 1, {
             seed: 1,
             powerIters: 2,
+            oversample: P,
             precision: 'f32',
             accuracy: 1.01,
             backend: one,
           }),
       ],
       [
-        `f32, q = 2 + accuracy check, ${backend.label} (the CLI path)`,
+        `f32, q = 2 + accuracy check, p = ${P}, ${backend.label} (the CLI path)`,
         () =>
-          randomizedSvd(a32, K + 1, { seed: 1, powerIters: 2, precision: 'f32', accuracy: 1.01, backend }),
+          randomizedSvd(a32, K + 1, {
+            seed: 1,
+            powerIters: 2,
+            oversample: P,
+            precision: 'f32',
+            accuracy: 1.01,
+            backend,
+          }),
       ],
       [
         `factorPlane (plane copy + the above), ${backend.label}`,
@@ -315,7 +325,7 @@ async function main(): Promise<void> {
       ],
     ];
     log(
-      `Breakdown, same pixels, rank ${K + 1} (the CLI asks one beyond the cap for σ_{k+1}), in one process (median of 5 after a first call):`,
+      `Breakdown, same pixels, rank ${K + 1} (the CLI asks one beyond the cap for σ_{k+1}), oversampling p = 10 unless stated, in one process (median of 5 after a first call):`,
     );
     log('');
     log('| configuration | ms |');
