@@ -10,9 +10,17 @@ import { decodeImageFile, decodeImageFileSamples } from '../../src-main/engine/c
 import { reconstructPlane, reconstructRows } from '../../src-main/engine/codec/quantise';
 import { tileGrid } from '../../src-main/engine/codec/quantised';
 import { initEngine, singularValues } from '../../src-main/engine/linalg';
+import { factorPlane } from '../../src-main/engine/lowrank/factorise';
 import { sketchSpectrum } from '../../src-main/engine/lowrank/sketch';
-import { TILED_PIXELS } from '../../src-main/engine/lowrank/tiled';
-import { psnrPlanes } from '../../src-main/engine/metrics';
+import { collectComponents } from '../../src-main/engine/lowrank/solve';
+import {
+  encodeScanTiled,
+  meanAndEnergy,
+  quietEnergy,
+  type SampleImage,
+  TILED_PIXELS,
+} from '../../src-main/engine/lowrank/tiled';
+import { psnrPlanes, SseStream, SsimStream, sse, ssim, ssimPlanes } from '../../src-main/engine/metrics';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { decodeSamples } from '../../src-main/node/image/raw-decode';
 import { COMPRESSORS, compressFile } from '../../src-main/node/services/compress';
@@ -186,11 +194,128 @@ describe('a blank scan above the tiled threshold', () => {
     expect(report.outputBytes).toBeLessThan(200_000);
     const pixels = side * side;
     // The whole-plane path holds 4-byte floats of the scan and more (about 20 bytes per pixel measured at
-    // 256 MP); the tiled one holds 1-byte samples, the 1-byte reconstruction and per-tile records.
+    // 256 MP); the tiled one holds the 1-byte samples and packed per-tile records (no reconstruction).
     expect(peak - base).toBeLessThan(4 * pixels);
     const png = join(dir, 'blank-out.png');
     await expandFile(out, png, { force: true });
     const back = await decodeSamples(png);
     expect(back.sourceSha256).toBe(report.sourceSha256);
+  }, 120_000);
+});
+
+/** Deterministic pseudo-random numbers in [0, 1) (a 32-bit LCG; enough for test data). */
+function lcg(seed: number): () => number {
+  let x = seed >>> 0;
+  return () => {
+    x = (Math.imul(x, 1664525) + 1013904223) >>> 0;
+    return x / 2 ** 32;
+  };
+}
+
+describe('streamed metrics (bands of rows) equal the whole-plane ones', () => {
+  it('SseStream and SsimStream give sse and ssim bit for bit, whatever the band heights', () => {
+    const rnd = lcg(7);
+    for (const [w, h, max] of [
+      [37, 29, 255],
+      [130, 71, 255],
+      [64, 203, 65535],
+      [11, 11, 255],
+    ]) {
+      const a = Float64Array.from({ length: w * h }, () => Math.round(rnd() * max));
+      // b: a blurred, noisy copy (so the SSIM map is far from 1 and varies).
+      const b = a.map((v, i) =>
+        Math.min(
+          max,
+          Math.max(0, Math.round(0.7 * v + 0.3 * a[(i + 1) % a.length] + (rnd() - 0.5) * max * 0.1)),
+        ),
+      );
+      for (const bands of [[h], [1, 2, 3, 5, 8, 13], [7], [h - 1, 1]]) {
+        const s = new SseStream(true);
+        const m = new SsimStream(w, h, max);
+        let y = 0;
+        for (let i = 0; y < h; i++) {
+          const bh = Math.min(bands[i % bands.length], h - y);
+          s.add(a, b.subarray(y * w, (y + bh) * w), y * w, 0, bh * w);
+          m.addRows(a, b, bh, y * w, y * w);
+          y += bh;
+        }
+        expect(s.total()).toBe(sse(a, b));
+        expect(s.blocks().reduce((t, x) => t + x, 0)).toBe(sse(a, b));
+        expect(m.value()).toBe(ssim(a, b, w, h, max));
+      }
+    }
+  });
+});
+
+describe('quiet tiles (below the dead zone) skip the SVD', () => {
+  it('a tile with energy under quietEnergy(step) has no component at that step (random tiles, incl. rank 1)', () => {
+    const rnd = lcg(11);
+    const meanStep = 255 / 1020;
+    let quiet = 0;
+    for (let n = 0; n < 600; n++) {
+      const w = [8, 16, 32, 17][n % 4];
+      const h = [8, 32, 16, 23][(n >> 2) % 4];
+      const step = 0.25 * 2 ** (rnd() * 8);
+      const t = (0.5 + 0.2) * step;
+      const a = new Float64Array(w * h);
+      if (n % 3 === 0) {
+        // Rank 1 (σ₁ = ‖A‖_F, the tight case of the bound).
+        const u = Array.from({ length: h }, () => rnd() - 0.5);
+        const v = Array.from({ length: w }, () => rnd() - 0.5);
+        for (let i = 0; i < h; i++) for (let j = 0; j < w; j++) a[i * w + j] = u[i] * v[j];
+      } else for (let k = 0; k < a.length; k++) a[k] = rnd() - 0.5;
+      // Scale to ‖A‖_F between 0.8 and 1.2 of the dead-zone threshold, then add a mean.
+      let e = 0;
+      for (const x of a) e += x * x;
+      const scale = (t * (0.8 + 0.4 * rnd())) / Math.sqrt(e);
+      const mean = 100 + 50 * rnd();
+      for (let k = 0; k < a.length; k++) a[k] = a[k] * scale + mean;
+      const f = factorPlane(a, w, h, { tile: Math.max(w, h), meanRemoval: true, meanStep });
+      const me = meanAndEnergy(a, meanStep);
+      expect(me.meanQ).toBe(f.tiles[0].meanQ);
+      expect(me.energy).toBe(f.tiles[0].energy);
+      const got = collectComponents([{ factors: f, weight: 1, stepScale: 1 }], step);
+      if (me.energy < quietEnergy(step)) {
+        quiet++;
+        expect(got.comps[0][0]).toHaveLength(0);
+      }
+    }
+    expect(quiet).toBeGreaterThan(100);
+  });
+
+  it('the tiled encoder writes the same file with and without the skip, and its streamed PSNR/SSIM are the decoded file’s', async () => {
+    const rnd = lcg(3);
+    const cam = await decodeSamples(join(IMAGES, 'camera.png'));
+    const rgb = await decodeSamples(join(IMAGES, 'phantom.png'));
+    // Near-blank paper with sparse ±1 specks (quiet tiles), a camera band (textured), and an RGB scan.
+    const W = 520;
+    const H = 400;
+    const paper = new Uint8Array(W * H).map((_, i) => {
+      const y = Math.floor(i / W);
+      if (y >= 300) return cam.planes[0][(y - 300) * 512 + ((i % W) % 512)];
+      const r = rnd();
+      return r < 0.0005 ? 249 : r > 0.9995 ? 251 : 250;
+    });
+    const scans: SampleImage[] = [
+      { ...cam, file: 'paper', width: W, height: H, planes: [paper], rawBytes: W * H },
+      { ...rgb, file: 'rgb' },
+    ];
+    for (const img of scans) {
+      const opts = { budget: { kind: 'percent' as const, percent: 3 }, tile: 32 };
+      const a = encodeScanTiled(img, opts);
+      const b = encodeScanTiled(img, opts, { skipQuiet: false });
+      if (img.file === 'paper') expect(a.quietTiles).toBeGreaterThan(20);
+      expect(b.quietTiles).toBe(0);
+      expect(Buffer.from(a.bytes).equals(Buffer.from(b.bytes))).toBe(true);
+      expect(a.errors).toEqual(b.errors);
+      expect(a.psnr).toBe(b.psnr);
+      expect(a.ssim).toBe(b.ssim);
+      const back = decodeImageFileSamples(a.bytes, img.file, { compressors: COMPRESSORS });
+      const nc = img.channels >= 3 ? 3 : 1;
+      const src = img.planes.slice(0, nc);
+      const out = back.samples.slice(0, nc);
+      expect(a.psnr).toBe(psnrPlanes(src, out, 255));
+      expect(a.ssim).toBe(ssimPlanes(src, out, img.width, img.height, 255));
+    }
   }, 120_000);
 });

@@ -9,5 +9,5 @@ export {
   rankForPsnr,
   spectralBound,
 } from './eckart-young';
-export { frobeniusError, mse, psnr, psnrFromMse, psnrPlanes, sse } from './psnr';
-export { gaussianTaps, SSIM_DEFAULTS, type SsimOptions, ssim, ssimPlanes } from './ssim';
+export { frobeniusError, mse, psnr, psnrFromMse, psnrPlanes, SseStream, sse } from './psnr';
+export { gaussianTaps, SSIM_DEFAULTS, type SsimOptions, SsimStream, ssim, ssimPlanes } from './ssim';

@@ -97,3 +97,60 @@ export function checkMaxValue(maxValue: number): void {
   if (!(typeof maxValue === 'number' && Number.isFinite(maxValue) && maxValue > 0))
     throw invalidParameterError('maxValue', 'finite number > 0', maxValue);
 }
+
+/**
+ * {@link sse} of a plane fed in consecutive pieces (bands of rows): the same blocks of 4096 samples, counted
+ * from the start of the plane whatever the piece boundaries, so `total()` equals `sse(a, b)` of the whole
+ * plane bit for bit.
+ * @example const s = new SseStream(); s.add(a1, b1); s.add(a2, b2); s.total() // sse(a1‖a2, b1‖b2)
+ */
+export class SseStream {
+  private sum = 0;
+  private block = 0;
+  private inBlock = 0;
+  private n = 0;
+  private readonly done: number[] | undefined;
+
+  /** @param keepBlocks - also keep each block's sum, for {@link SseStream.blocks}. */
+  constructor(keepBlocks = false) {
+    this.done = keepBlocks ? [] : undefined;
+  }
+
+  /** Add the next `len` samples of both planes (a[aOff…], b[bOff…]); default the whole of `a`. */
+  add(a: ArrayLike<number>, b: ArrayLike<number>, aOff = 0, bOff = 0, len = a.length - aOff): void {
+    let i = 0;
+    while (i < len) {
+      const take = Math.min(len - i, 4096 - this.inBlock);
+      let block = this.block;
+      for (let k = 0; k < take; k++) {
+        const d = a[aOff + i + k] - b[bOff + i + k];
+        block += d * d;
+      }
+      i += take;
+      this.inBlock += take;
+      if (this.inBlock === 4096) {
+        this.sum += block;
+        this.done?.push(block);
+        this.block = 0;
+        this.inBlock = 0;
+      } else this.block = block;
+    }
+    this.n += len;
+  }
+
+  /** Samples added so far. */
+  get count(): number {
+    return this.n;
+  }
+
+  /** The sums of the 4096-sample blocks so far, the partial last one included (needs keepBlocks). */
+  blocks(): number[] {
+    if (!this.done) throw new RangeError('SseStream: blocks() needs new SseStream(true)');
+    return this.inBlock > 0 ? [...this.done, this.block] : [...this.done];
+  }
+
+  /** Σ(aᵢ−bᵢ)² over everything added (the pending partial block included). */
+  total(): number {
+    return this.inBlock > 0 ? this.sum + this.block : this.sum;
+  }
+}

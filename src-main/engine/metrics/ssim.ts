@@ -191,3 +191,154 @@ export function ssimPlanes(
   for (let c = 0; c < a.length; c++) s += ssim(a[c], b[c], width, height, dataRange, options);
   return s / a.length;
 }
+
+/**
+ * {@link ssim} of two planes fed a band of rows at a time, for planes that are never held whole. The ring of
+ * 2r + 1 horizontally filtered rows carries the window's overlap from one band to the next (a window centred
+ * on row y reads rows y − r … y + r, which may span two bands), and every sum is formed in the same order
+ * as in {@link ssim}, so `value()` equals `ssim(a, b, width, height, L, options)` of the whole planes bit for
+ * bit (Wang et al. 2004, the settings of {@link ssim}). Memory: O((2r + 1)·width).
+ * @throws UsageError as {@link ssim} for sizes and options; RangeError when more rows than `height` are added.
+ */
+export class SsimStream {
+  private readonly g: Float64Array;
+  private readonly C1: number;
+  private readonly C2: number;
+  private readonly R: number;
+  private readonly side: number;
+  private readonly wv: number;
+  private readonly hv: number;
+  private readonly stride: number;
+  private readonly ring: Float64Array;
+  private readonly rx: Float64Array;
+  private readonly ry: Float64Array;
+  private readonly rxx: Float64Array;
+  private readonly ryy: Float64Array;
+  private readonly rxy: Float64Array;
+  private y = 0;
+  private total = 0;
+
+  constructor(
+    private readonly width: number,
+    private readonly height: number,
+    dataRange: number,
+    options: SsimOptions = {},
+  ) {
+    const { k1, k2, sigma, radius } = { ...SSIM_DEFAULTS, ...options };
+    const side = 2 * radius + 1;
+    if (!Number.isInteger(width) || !Number.isInteger(height) || width < 1 || height < 1)
+      throw invalidParameterError('width and height', 'positive integers', `${width}×${height}`);
+    if (width < side || height < side)
+      throw invalidParameterError(
+        'image size',
+        `at least ${side}×${side} pixels for the SSIM window`,
+        `${width}×${height}`,
+      );
+    if (!(Number.isFinite(dataRange) && dataRange > 0))
+      throw invalidParameterError('dataRange', 'finite number > 0', dataRange);
+    if (!(Number.isInteger(radius) && radius >= 1))
+      throw invalidParameterError('radius', 'integer ≥ 1', radius);
+    if (!(sigma > 0)) throw invalidParameterError('sigma', 'number > 0', sigma);
+    this.g = gaussianTaps(sigma, radius);
+    this.C1 = k1 * dataRange * (k1 * dataRange);
+    this.C2 = k2 * dataRange * (k2 * dataRange);
+    this.R = radius;
+    this.side = side;
+    this.wv = width - 2 * radius;
+    this.hv = height - 2 * radius;
+    this.stride = 5 * this.wv;
+    this.ring = new Float64Array(side * this.stride);
+    this.rx = new Float64Array(width);
+    this.ry = new Float64Array(width);
+    this.rxx = new Float64Array(width);
+    this.ryy = new Float64Array(width);
+    this.rxy = new Float64Array(width);
+  }
+
+  /** Add the next `rows` rows of both planes, starting at a[aOff] and b[bOff] (row stride = width). */
+  addRows(a: ArrayLike<number>, b: ArrayLike<number>, rows: number, aOff = 0, bOff = 0): void {
+    if (this.y + rows > this.height)
+      throw new RangeError(`SsimStream: ${this.y + rows} rows added to a plane of ${this.height}`);
+    for (let i = 0; i < rows; i++) {
+      this.filterRow(a, b, aOff + i * this.width, bOff + i * this.width, this.y);
+      if (this.y >= this.side - 1) this.total += this.windowRow(this.y);
+      this.y++;
+    }
+  }
+
+  /** Mean SSIM once every row has been added. @throws RangeError before that. */
+  value(): number {
+    if (this.y !== this.height)
+      throw new RangeError(`SsimStream: ${this.y} of ${this.height} rows were added`);
+    return this.total / (this.wv * this.hv);
+  }
+
+  private filterRow(a: ArrayLike<number>, b: ArrayLike<number>, ra: number, rb: number, y: number): void {
+    const { width, rx, ry, rxx, ryy, rxy, ring, stride, wv, R, g } = this;
+    const gc = g[R];
+    for (let i = 0; i < width; i++) {
+      const p = a[ra + i];
+      const q = b[rb + i];
+      rx[i] = p;
+      ry[i] = q;
+      rxx[i] = p * p;
+      ryy[i] = q * q;
+      rxy[i] = p * q;
+    }
+    const off = (y % this.side) * stride;
+    for (let j = 0; j < wv; j++) {
+      const c = j + R;
+      let sx = gc * rx[c];
+      let sy = gc * ry[c];
+      let sxx = gc * rxx[c];
+      let syy = gc * ryy[c];
+      let sxy = gc * rxy[c];
+      for (let t = 0; t < R; t++) {
+        const w = g[t];
+        const lo = j + t;
+        const hi = j + 2 * R - t;
+        sx += w * (rx[lo] + rx[hi]);
+        sy += w * (ry[lo] + ry[hi]);
+        sxx += w * (rxx[lo] + rxx[hi]);
+        syy += w * (ryy[lo] + ryy[hi]);
+        sxy += w * (rxy[lo] + rxy[hi]);
+      }
+      ring[off + j] = sx;
+      ring[off + wv + j] = sy;
+      ring[off + 2 * wv + j] = sxx;
+      ring[off + 3 * wv + j] = syy;
+      ring[off + 4 * wv + j] = sxy;
+    }
+  }
+
+  /** Σ over the window centres of row y − r of the SSIM map (the window's last row is y). */
+  private windowRow(y: number): number {
+    const { ring, stride, wv, R, g, side, C1, C2 } = this;
+    const gc = g[R];
+    const base = y - side + 1;
+    const oc = ((base + R) % side) * stride;
+    let rowSum = 0;
+    for (let j = 0; j < wv; j++) {
+      let ux = gc * ring[oc + j];
+      let uy = gc * ring[oc + wv + j];
+      let uxx = gc * ring[oc + 2 * wv + j];
+      let uyy = gc * ring[oc + 3 * wv + j];
+      let uxy = gc * ring[oc + 4 * wv + j];
+      for (let t = 0; t < R; t++) {
+        const w = g[t];
+        const lo = ((base + t) % side) * stride + j;
+        const hi = ((base + 2 * R - t) % side) * stride + j;
+        ux += w * (ring[lo] + ring[hi]);
+        uy += w * (ring[lo + wv] + ring[hi + wv]);
+        uxx += w * (ring[lo + 2 * wv] + ring[hi + 2 * wv]);
+        uyy += w * (ring[lo + 3 * wv] + ring[hi + 3 * wv]);
+        uxy += w * (ring[lo + 4 * wv] + ring[hi + 4 * wv]);
+      }
+      const vx = uxx - ux * ux;
+      const vy = uyy - uy * uy;
+      const vxy = uxy - ux * uy;
+      rowSum += ((2 * ux * uy + C1) * (2 * vxy + C2)) / ((ux * ux + uy * uy + C1) * (vx + vy + C2));
+    }
+    return rowSum;
+  }
+}

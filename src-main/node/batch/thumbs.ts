@@ -4,8 +4,8 @@
  */
 import sharp, { type Sharp } from 'sharp';
 import type { BatchRow } from '../../contract';
-import { decodeImage } from '../image/decode';
-import { loadReader, type ReadRkf } from './codec';
+import { RankfoldError } from '../../contract';
+import { decodeSamples } from '../image/raw-decode';
 
 /** Longest edge of a thumbnail in pixels: enough to see banding and blur, small enough for a page of six pairs. */
 export const THUMB_EDGE = 320;
@@ -85,22 +85,56 @@ export async function pairFromSamples(
   };
 }
 
-/** The thumbnail pair of one finished file, from disk (best effort: a missing file gives a note, never an error). */
+/** Reads a container into integer samples (1–2 bytes each), as services/expand `readRkfSamples` does. */
+export type ReadRkfSamples = (
+  input: string,
+  opts?: { pixelLimit?: number },
+) => Promise<{ decoded: ThumbSource }>;
+
+/** Load `readRkfSamples` from src-main/node/services/expand (lazily, as ./codec loads the codec). */
+export async function loadSampleReader(): Promise<ReadRkfSamples> {
+  let mod: { readRkfSamples?: ReadRkfSamples };
+  try {
+    mod = await import('../services/expand');
+  } catch (err) {
+    throw new RankfoldError(
+      `this build has no container reader (src-main/node/services/expand): ${(err as Error).message}`,
+    );
+  }
+  if (typeof mod.readRkfSamples !== 'function')
+    throw new RankfoldError('this build has no readRkfSamples in services/expand');
+  return mod.readRkfSamples;
+}
+
+/**
+ * The thumbnail pair of one finished file, from disk (best effort: a missing file gives a note, never an
+ * error). Both sides are read as integer samples (1–2 bytes per sample, the container rebuilt band by band),
+ * not as Float32 planes, so a large scan's pair needs a quarter of the memory; one side at a time.
+ */
 export async function thumbnailPair(
   r: Pick<BatchRow, 'inputAbs' | 'outputAbs'>,
-  reader?: () => Promise<ReadRkf>,
+  reader?: () => Promise<ReadRkfSamples>,
 ): Promise<ThumbPair> {
   const notes: string[] = [];
-  let original: ThumbSource | undefined;
-  let reconstruction: ThumbSource | undefined;
+  const pair: ThumbPair = {};
+  const failed = (err: unknown) =>
+    notes.push(`thumbnails unavailable (${(err as Error).message.split('\n')[0]})`);
+  // The original first, drawn and let go before the reconstruction is read.
+  let display: { scale: number; note?: string } | undefined;
   try {
-    const d = await decodeImage(r.inputAbs, { pixelLimit: Number.MAX_SAFE_INTEGER });
-    original = { ...d, samples: d.planes };
+    const d = await decodeSamples(r.inputAbs, { pixelLimit: Number.MAX_SAFE_INTEGER });
+    display = displayScale({ ...d, samples: d.planes });
+    try {
+      pair.original = await samplesThumb({ ...d, samples: d.planes }, display.scale);
+    } catch (err) {
+      failed(err);
+    }
   } catch (err) {
     notes.push(`original unavailable (${(err as Error).message.split('\n')[0]})`);
   }
+  let reconstruction: ThumbSource | undefined;
   try {
-    const readRkf = await (reader ?? loadReader)();
+    const readRkf = await (reader ?? loadSampleReader)();
     try {
       reconstruction = (await readRkf(r.outputAbs, { pixelLimit: Number.MAX_SAFE_INTEGER })).decoded;
     } catch (err) {
@@ -109,15 +143,11 @@ export async function thumbnailPair(
   } catch (err) {
     notes.push(`reconstruction unavailable (${(err as Error).message})`);
   }
-  const { scale, note } = original
-    ? displayScale(original)
-    : { scale: reconstruction?.bitDepth === 16 ? 1 / 257 : 1 };
-  const pair: ThumbPair = {};
+  const { scale, note } = display ?? { scale: reconstruction?.bitDepth === 16 ? 1 / 257 : 1 };
   try {
-    if (original) pair.original = await samplesThumb(original, scale);
     if (reconstruction) pair.reconstruction = await samplesThumb(reconstruction, scale);
   } catch (err) {
-    notes.push(`thumbnails unavailable (${(err as Error).message.split('\n')[0]})`);
+    failed(err);
   }
   if (note) notes.push(note);
   if (notes.length) pair.note = notes.join('; ');
