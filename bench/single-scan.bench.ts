@@ -715,7 +715,7 @@ async function main() {
   const cell = (c?: Coded) =>
     c ? `${f2(c.psnr)} (${c.note}, ${c.bytes} B${c.fits ? '' : ', over'})` : 'n/a';
   const delta = (rf: Coded, c?: Coded) =>
-    c && Number.isFinite(rf.psnr) ? capped(rf.psnr) - capped(c.psnr) : Number.NaN;
+    c && !Number.isNaN(rf.psnr) ? capped(rf.psnr) - capped(c.psnr) : Number.NaN;
   for (const r of rows)
     L.push(
       `| ${r.scan.name} | ${r.bpp} | ${Number.isFinite(r.rf.bytes) ? r.rf.bytes : 'n/a'} | ${f2(r.rf.psnr)} (${r.rf.note}) | ${cell(r.opj)} | ${cell(r.moz)} | ${cell(r.webp)} | ${cell(r.avif)} | ${d2(delta(r.rf, r.opj))} | ${d2(delta(r.rf, r.moz))} | ${d2(delta(r.rf, r.avif))} |`,
