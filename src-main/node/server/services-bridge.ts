@@ -1,6 +1,6 @@
 /**
  * Adapter from the app's session jobs to the shared services, so the page's figures are the CLI's
- * figures: evaluate = `compressDecoded` (what `rankfold compress --json` reports for the same budget
+ * figures: evaluate = `compressDecoded` (what `rankfold compress --layers base --json` reports for the same budget
  * and tile), save = the same bytes written atomically, or handed back for a download.
  * Runs inside the session's worker thread.
  */
@@ -81,6 +81,13 @@ function planesSet(
   return bytes.buffer as ArrayBuffer;
 }
 
+/**
+ * The page draws the low-rank model (σ, U, V) and rebuilds any rank itself; it cannot show a wavelet
+ * residual yet. So that the image, the figures and the saved file are one and the same, the page evaluates
+ * and saves base-only files; the CLI's default adds the residual layer under byte budgets.
+ */
+const PAGE_LAYERS = 'base' as const;
+
 /** Encode at a budget; tiled results also return the decoded planes for the page to show. */
 export async function evaluate(
   image: DecodedImage,
@@ -89,7 +96,7 @@ export async function evaluate(
 ): Promise<EvaluateResult & { preview?: ArrayBuffer }> {
   const { report, result } = await compressDecoded(
     image,
-    { budget: args.budget, tile: args.tile },
+    { budget: args.budget, tile: args.tile, layers: PAGE_LAYERS },
     hooks(progress),
   );
   const tileRanks = tileMaps(image, result.ranks);
@@ -200,7 +207,7 @@ export async function save(
   } else {
     const { bytes, result } = await compressDecoded(
       image,
-      { budget: args.budget, tile: args.tile },
+      { budget: args.budget, tile: args.tile, layers: PAGE_LAYERS },
       hooks(progress),
     );
     if (args.kind === 'rkf') {
