@@ -243,6 +243,16 @@ describe('streamed metrics (bands of rows) equal the whole-plane ones', () => {
         expect(s.blocks().reduce((t, x) => t + x, 0)).toBe(sse(a, b));
         expect(m.value()).toBe(ssim(a, b, w, h, max));
       }
+      // Identical leading rows skipped (as the tiled encoder does up to its first differing band).
+      for (const n of [0, 3, 10, 11, 12, 25]) {
+        if (n >= h) continue;
+        const b2 = Float64Array.from(b);
+        b2.set(a.subarray(0, n * w));
+        const m = new SsimStream(w, h, max);
+        m.skipIdentical(n, a);
+        m.addRows(a, b2, h - n, n * w, n * w);
+        expect(m.value()).toBe(ssim(a, b2, w, h, max));
+      }
     }
   });
 });
@@ -287,11 +297,12 @@ describe('quiet tiles (below the dead zone) skip the SVD', () => {
     const rnd = lcg(3);
     const cam = await decodeSamples(join(IMAGES, 'camera.png'));
     const rgb = await decodeSamples(join(IMAGES, 'phantom.png'));
-    // Near-blank paper with sparse ±1 specks (quiet tiles), a camera band (textured), and an RGB scan.
+    // Blank rows, near-blank paper with sparse ±1 specks (quiet tiles), a camera band, and an RGB scan.
     const W = 520;
     const H = 400;
     const paper = new Uint8Array(W * H).map((_, i) => {
       const y = Math.floor(i / W);
+      if (y < 96) return 250; // blank rows: the streamed SSIM starts below them
       if (y >= 300) return cam.planes[0][(y - 300) * 512 + ((i % W) % 512)];
       const r = rnd();
       return r < 0.0005 ? 249 : r > 0.9995 ? 251 : 250;

@@ -340,17 +340,24 @@ export function encodeScanTiled(
         0,
       );
     else roundInto(floats[0], len, max, rebuilt[0], 0);
+    let same: boolean = lossless;
+    for (let c = 0; c < nc && same; c++) {
+      const a = img.planes[c];
+      const b = rebuilt[c];
+      for (let i = 0; i < len; i++)
+        if (a[from + i] !== b[i]) {
+          same = false;
+          break;
+        }
+    }
+    // SSIM starts at the first band that differs (identical rows before it add exactly 1 per window).
+    if (lossless && !same) for (let c = 0; c < nc; c++) ssimStreams[c]?.skipIdentical(y0, img.planes[c]);
+    lossless = same;
     for (let c = 0; c < nc; c++) {
       const a = img.planes[c];
       const b = rebuilt[c];
-      if (lossless)
-        for (let i = 0; i < len; i++)
-          if (a[from + i] !== b[i]) {
-            lossless = false;
-            break;
-          }
       sseStreams[c].add(a, b, from, 0, len);
-      ssimStreams[c]?.addRows(a, b, bh, from, 0);
+      if (!lossless) ssimStreams[c]?.addRows(a, b, bh, from, 0);
     }
   }
   // The lossless flag changes the header only, not the samples.

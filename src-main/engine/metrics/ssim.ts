@@ -266,6 +266,26 @@ export class SsimStream {
     }
   }
 
+  /**
+   * Start the stream at row n (before any row was added) when rows 0…n−1 of the two planes are identical
+   * and equal to `a`'s rows (from aOff), without filtering them all. A window on identical rows has SSIM
+   * exactly 1 in floating point (ux = uy, vx = vy = vxy, and 2·x·x = x·x + x·x exactly), so each window row
+   * ending before row n adds exactly wv, as in {@link ssim}; the last 2r rows are filtered so that the
+   * windows ending at row n and later read the same ring. The result stays equal to the whole-plane ssim.
+   * @throws RangeError when rows were added already or n is out of range.
+   */
+  skipIdentical(n: number, a: ArrayLike<number>, aOff = 0): void {
+    if (this.y !== 0 || n < 0 || n > this.height)
+      throw new RangeError(`SsimStream: skipIdentical(${n}) after ${this.y} rows of ${this.height}`);
+    const windows = Math.max(0, n - this.side + 1);
+    for (let i = 0; i < windows; i++) this.total += this.wv;
+    for (let y = Math.max(0, n - 2 * this.R); y < n; y++) {
+      const off = aOff + y * this.width;
+      this.filterRow(a, a, off, off, y);
+    }
+    this.y = n;
+  }
+
   /** Mean SSIM once every row has been added. @throws RangeError before that. */
   value(): number {
     if (this.y !== this.height)
