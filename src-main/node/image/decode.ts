@@ -150,11 +150,24 @@ export async function probeImage(file: string, options: DecodeOptions = {}): Pro
   };
 }
 
-/** Decode a scan into planes. */
-export async function decodeImage(
-  file: string,
-  options: DecodeOptions = {},
-): Promise<DecodedImage & WithWarnings> {
+/** A decoded scan as sharp hands it over: interleaved samples, `channels` per pixel, plus what to keep. */
+export interface InterleavedScan {
+  probe: ProbeResult;
+  /** Interleaved samples: bytes for 8-bit, native-endian 16-bit words for 16-bit. */
+  data: Buffer;
+  width: number;
+  height: number;
+  channels: 1 | 2 | 3 | 4;
+  bitDepth: 8 | 16;
+  meta: DecodedImage['meta'];
+}
+
+/**
+ * The one decoding pipeline behind `decodeImage` (float planes) and `decodeSamples` (integer planes, for
+ * large scans): probe, one sharp pipeline, the band and length checks, the metadata to keep. Every failure
+ * is an InputError naming the file.
+ */
+export async function decodeInterleaved(file: string, options: DecodeOptions = {}): Promise<InterleavedScan> {
   const { page, pixelLimit } = checkOptions(options);
   const probe = await probeImage(file, { page, pixelLimit });
   const { meta, bitDepth } = probe;
@@ -213,6 +226,50 @@ export async function decodeImage(
       file,
       `decoded to ${data.length} bytes, expected ${n * channels * (bitDepth / 8)}; the file may be corrupt`,
     );
+  return {
+    probe,
+    data,
+    width,
+    height,
+    channels,
+    bitDepth,
+    meta: {
+      format: meta.format ?? 'unknown',
+      icc: probe.keep.icc,
+      density: probe.keep.density,
+      orientation: probe.keep.orientation,
+      pages: probe.pages,
+      page,
+    },
+  };
+}
+
+/** The fields every decoded scan carries besides its planes and hash. */
+export function scanFields(scan: InterleavedScan, file: string) {
+  const { width, height, channels, bitDepth, probe } = scan;
+  return {
+    file,
+    width,
+    height,
+    channels,
+    bitDepth,
+    colour: (channels >= 3 ? 'rgb' : 'gray') as 'rgb' | 'gray',
+    hasAlpha: channels === 2 || channels === 4,
+    meta: scan.meta,
+    inputBytes: probe.inputBytes,
+    rawBytes: width * height * channels * (bitDepth / 8),
+    ...(probe.warnings.length > 0 ? { warnings: probe.warnings } : {}),
+  };
+}
+
+/** Decode a scan into planes. */
+export async function decodeImage(
+  file: string,
+  options: DecodeOptions = {},
+): Promise<DecodedImage & WithWarnings> {
+  const scan = await decodeInterleaved(file, options);
+  const { data, channels, bitDepth } = scan;
+  const n = scan.width * scan.height;
   const planes: Float32Array[] = [];
   for (let c = 0; c < channels; c++) planes.push(new Float32Array(n));
   const hash = createHash('sha256');
@@ -224,28 +281,7 @@ export async function decodeImage(
     for (let i = 0, p = 0; i < n; i++) for (let c = 0; c < channels; c++, p++) planes[c][i] = data[p];
     hash.update(data);
   }
-  return {
-    file,
-    width,
-    height,
-    channels,
-    bitDepth,
-    colour: channels >= 3 ? 'rgb' : 'gray',
-    hasAlpha: channels === 2 || channels === 4,
-    planes,
-    meta: {
-      format: meta.format ?? 'unknown',
-      icc: probe.keep.icc,
-      density: probe.keep.density,
-      orientation: probe.keep.orientation,
-      pages: probe.pages,
-      page,
-    },
-    inputBytes: probe.inputBytes,
-    rawBytes: n * channels * (bitDepth / 8),
-    sourceSha256: hash.digest('hex'),
-    ...(probe.warnings.length > 0 ? { warnings: probe.warnings } : {}),
-  };
+  return { ...scanFields(scan, file), planes, sourceSha256: hash.digest('hex') };
 }
 
 /** SHA-256 of interleaved samples as the container records it (16-bit big-endian). */
