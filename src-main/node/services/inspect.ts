@@ -17,6 +17,7 @@ import {
   type InspectReport,
   type InspectRequest,
   type PlaneSpectrum,
+  type WithWarnings,
 } from '../../contract';
 import {
   bytesFor,
@@ -232,30 +233,7 @@ export async function inspectScan(
     await new Promise((resolve) => setImmediate(resolve));
   }
   const t2 = performance.now();
-  return {
-    file: req.file,
-    format: img.meta.format,
-    width: img.width,
-    height: img.height,
-    channels: img.channels,
-    bitDepth: img.bitDepth,
-    colour: img.colour,
-    hasAlpha: img.hasAlpha,
-    maxValue,
-    pages: img.meta.pages ?? 1,
-    page: img.meta.page ?? 0,
-    inputBytes: img.inputBytes,
-    rawBytes: img.rawBytes,
-    density: img.meta.density,
-    orientation: img.meta.orientation,
-    hasIccProfile: Boolean(img.meta.icc),
-    sourceSha256: img.sourceSha256,
-    plane: spectra[0].plane === 'luma' ? 'luma' : 'gray',
-    singularValues: spectra[0].singularValues,
-    spectra,
-    timings: { decodeMs: Math.round(t1 - t0), spectrumMs: Math.round(t2 - t1) },
-    ...(img.warnings ? { warnings: img.warnings } : {}),
-  };
+  return inspectReport(req, img, maxValue, spectra, [t0, t1, t2]);
 }
 
 /** The spectrum figures of one plane from its top values and its exact energy (shared by both paths). */
@@ -365,11 +343,22 @@ async function inspectSketched(
     await new Promise((resolve) => setImmediate(resolve));
   }
   const t2 = performance.now();
+  return inspectReport(req, img, maxValue, spectra, [t0, t1, t2]);
+}
+
+/** The report of either path (float planes or integer samples) from the decoded scan and its spectra. */
+function inspectReport(
+  req: InspectRequest,
+  img: Omit<DecodedImage, 'planes'> & WithWarnings,
+  maxValue: number,
+  spectra: PlaneSpectrum[],
+  [t0, t1, t2]: [number, number, number],
+): InspectReport {
   return {
     file: req.file,
     format: img.meta.format,
-    width,
-    height,
+    width: img.width,
+    height: img.height,
     channels: img.channels,
     bitDepth: img.bitDepth,
     colour: img.colour,
