@@ -177,24 +177,14 @@ export function planeSpectrum(
     for (let i = start; i < end; i++) block += plane[i] * plane[i];
     energy += block;
   }
-  const total = complete ? undefined : energy;
-  const energyRanks = INSPECT_ENERGY_FRACTIONS.map((fraction) => {
-    const k = energyRank(s, fraction, total);
-    return { fraction, rank: k < 0 ? null : k };
-  });
-  const n = width * height;
-  const errors = INSPECT_RANKS.filter((k) => k < s.length).map((k) => {
-    const frobenius = frobeniusOptimal(s, k, total);
-    const db = psnrFromFrobenius(frobenius, n, maxValue);
-    return {
-      k,
-      spectral: spectralBound(s, k),
-      frobenius,
-      rms: frobenius / Math.sqrt(n),
-      psnrDb: Number.isFinite(db) ? db : null,
-    };
-  });
-  return { plane: name, singularValues: Array.from(s), complete, method, energy, energyRanks, errors };
+  return {
+    plane: name,
+    singularValues: Array.from(s),
+    complete,
+    method,
+    energy,
+    ...spectrumFigures(s, energy, complete, width * height, maxValue),
+  };
 }
 
 /** Decode `req.file` and report what it is made of. */
