@@ -5,7 +5,7 @@
 import { dirname, join, resolve } from 'node:path';
 import { type BatchRow, type BatchSummary, parseShardText, UsageError } from '../../contract';
 import { writeFileAtomic } from '../io/atomic';
-import { MANIFEST_NAME, readManifest, rowsToCsv, sortRows, writeManifest } from './manifest';
+import { MANIFEST_NAME, readManifest, rowsToCsv, rowTotals, sortRows, writeManifest } from './manifest';
 import { shardOf } from './plan';
 import { writeReport } from './report';
 
@@ -106,13 +106,7 @@ export async function mergeManifests(
   });
   const summary: BatchSummary = {
     total: rows.length,
-    ok: rows.filter((r) => r.status === 'ok').length,
-    kept: rows.filter((r) => r.status === 'kept').length,
-    failed: rows.filter((r) => r.status === 'failed').length,
-    planned: rows.filter((r) => r.status === 'planned').length,
-    skipped: rows.filter((r) => r.status === 'skipped').length,
-    inputBytes: rows.reduce((s, r) => s + (r.inputBytes ?? 0), 0),
-    outputBytes: rows.reduce((s, r) => s + (r.status === 'failed' ? 0 : (r.bytes ?? 0)), 0),
+    ...rowTotals(rows),
     megapixels: rows.reduce(
       (s, r) =>
         s +

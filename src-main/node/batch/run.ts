@@ -22,7 +22,7 @@ import { TEMP_PREFIX, writeFileAtomic } from '../io/atomic';
 import { hashFile } from './codec';
 import type { BatchJobResult, BatchWork, BatchWorkResult } from './job';
 import { acquireBatchLock, type BatchLock } from './lock';
-import { ManifestJournal, manifestBase, readManifest, rowsToCsv, writeManifest } from './manifest';
+import { ManifestJournal, manifestBase, readManifest, rowsToCsv, rowTotals, writeManifest } from './manifest';
 import { checkFolders, isInside, type PlannedFile, planBatch, type SkippedEntry, specialKind } from './plan';
 import { WorkerPool } from './pool';
 import { WorstSoFar, worstRows, writeReport } from './report';
@@ -505,13 +505,7 @@ export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
     async function finish(wasInterrupted: boolean): Promise<BatchResult> {
       const summary: BatchSummary = {
         total,
-        ok: rows.filter((r) => r.status === 'ok').length,
-        kept: rows.filter((r) => r.status === 'kept').length,
-        failed: rows.filter((r) => r.status === 'failed').length,
-        planned: rows.filter((r) => r.status === 'planned').length,
-        skipped: rows.filter((r) => r.status === 'skipped').length,
-        inputBytes: rows.reduce((s, r) => s + (r.inputBytes ?? 0), 0),
-        outputBytes: rows.reduce((s, r) => s + (r.status === 'failed' ? 0 : (r.bytes ?? 0)), 0),
+        ...rowTotals(rows),
         megapixels: rows.reduce(
           (s, r) => s + (r.status === 'ok' && r.width && r.height ? (r.width * r.height) / 1e6 : 0),
           0,
