@@ -34,3 +34,18 @@ export function bind<const S extends Record<string, string>>(
 export function find<const S extends string>(root: ParentNode, selector: S, where?: string): ElementOf<S> {
   return bind(root, { element: selector }, where).element;
 }
+
+// Compile-time checks of ElementOf: the renderer's type-check fails if one of these stops holding.
+type Same<A, B> = [A] extends [B] ? ([B] extends [A] ? true : false) : false;
+type Holds<T extends true[]> = T;
+type _ElementOfChecks = Holds<
+  [
+    Same<ElementOf<'input#rank'>, HTMLInputElement>,
+    Same<ElementOf<'#stage'>, HTMLElement>,
+    Same<ElementOf<'canvas.left'>, HTMLCanvasElement>,
+    Same<ElementOf<'input[name="tiling"]:checked'>, HTMLInputElement>,
+    Same<ElementOf<'#status progress#status-progress'>, HTMLProgressElement>,
+    Same<ElementOf<'#readouts [data-metric="psnr"]'>, HTMLElement>,
+    Same<ElementOf<'SELECT#tile-size'>, HTMLSelectElement>,
+  ]
+>;

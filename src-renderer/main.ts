@@ -49,8 +49,7 @@ el.transport.textContent = transportLabel(api.transport());
 
 const bar = createStatusBar(api, state);
 const readouts = createReadouts(state);
-const rankInput = bind(document, { rank: 'input#rank' }).rank;
-const panes = createPanes(state, view, rankInput);
+const panes = createPanes(state, view);
 const rank = createRankSlider(state, view, charts, readouts, panes, () => evaluator.schedule());
 const evaluator = createEvaluator(api, state, bar, readouts, rank, panes);
 setupBudgetCard(state, charts, rank, evaluator, panes, bar);

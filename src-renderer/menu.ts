@@ -6,7 +6,7 @@ import type { Opener } from './open';
 import type { SavePanel } from './save-panel';
 import type { StatusBar } from './status';
 import type { Tab } from './tabs';
-import { ZOOM } from './toolbar';
+import { isZoom, ZOOM } from './toolbar';
 import type { PageApi } from './transport';
 import type { CompareView } from './viewer';
 
@@ -33,6 +33,6 @@ export function setupMenu(
       save.run();
     } else if (c.startsWith('view-'))
       document.querySelector<HTMLButtonElement>(`[data-mode="${c.slice(5)}"]`)?.click();
-    else if (Object.hasOwn(ZOOM, c)) ZOOM[c as keyof typeof ZOOM](view);
+    else if (isZoom(c)) ZOOM[c](view);
   });
 }

@@ -19,8 +19,8 @@ export interface Panes {
   forgetRemoved(): void;
 }
 
-export function createPanes(state: PageState, view: CompareView, rankInput: HTMLInputElement): Panes {
-  const el = bind(document, { left: '#label-left', right: '#label-right' });
+export function createPanes(state: PageState, view: CompareView): Panes {
+  const el = bind(document, { left: '#label-left', right: '#label-right', rank: 'input#rank' });
 
   /** The removed part as shown, rebuilt when the gain changes. */
   let removedView: { gain: number; planes: Float32Array[] } | undefined;
@@ -78,7 +78,7 @@ export function createPanes(state: PageState, view: CompareView, rankInput: HTML
           layerIndex: view.layerIndex,
           tiled: state.tiled,
           tile: state.tile,
-          rank: Number(rankInput.value),
+          rank: Number(el.rank.value),
         }),
       );
     },

@@ -13,6 +13,8 @@ export const ZOOM: Record<'zoom-fit' | 'zoom-1' | 'zoom-in' | 'zoom-out', (view:
   'zoom-out': (view) => view.zoom(1 / 1.5),
 };
 
+export const isZoom = (command: string): command is keyof typeof ZOOM => Object.hasOwn(ZOOM, command);
+
 export interface Toolbar {
   /** A new model's layer count, the largest layer the one-layer view can show. */
   setLayerCount(n: number): void;
