@@ -4,21 +4,9 @@
  * per-tile rank map. Only the visible pixels are painted, so a repaint costs the viewport, not the scan.
  */
 
-export type ViewMode = 'side' | 'swipe' | 'diff' | 'layer' | 'tiles';
+import type { ViewMode, ViewSource } from './view-types';
 
-export interface ViewSource {
-  width: number;
-  height: number;
-  /** 255 or 65535. */
-  peak: number;
-  original: (Uint8Array | Uint16Array)[];
-  /** Reconstruction planes on the source scale. */
-  recon: () => Float32Array[];
-  /** One rank-one layer: σ, u (height), v (width) per plane. */
-  layer?: (i: number) => { s: number; u: Float32Array; v: Float32Array }[];
-  /** Per-tile ranks (tiled mode). */
-  tiles?: { tile: number; cols: number; rows: number; ranks: number[] };
-}
+export type { ViewMode, ViewSource };
 
 const BG = [38, 41, 46];
 

@@ -1,0 +1,184 @@
+/**
+ * The page's sentences and labels built from data: scan and stack summaries, status lines, pane labels,
+ * the stack card, the clean report and batch rows. No DOM; the panels put these strings in place.
+ */
+import type {
+  BatchFileStatus,
+  BatchResult,
+  CompressReport,
+  ProgressEvent,
+  ScanSummary,
+  StackFrameInfo,
+} from '../src-main/contract';
+import { formatBytes, formatPsnr } from './format';
+import type { ViewMode } from './view-types';
+
+export const LOSSY_CAUTION =
+  'Caution: this output is lossy and changes pixel data. Keep preservation masters lossless; medical, forensic and legal ' +
+  "images need your institution's approval. Follow your local digitisation guidelines.";
+export const CLEANING_CAUTION =
+  'Caution: cleaning alters pixel data. Keep the original and the removed part where your institution requires it; never ' +
+  'clean preservation masters, medical, forensic or legal images without approval. Follow your local digitisation guidelines.';
+
+/** The masthead's transport label. */
+export function transportLabel(transport: 'ipc' | 'http'): string {
+  return transport === 'ipc' ? 'desktop' : 'browser · 127.0.0.1';
+}
+
+const channelsText = (n: number) => `${n} channel${n > 1 ? 's' : ''}`;
+
+/** The masthead line of an open scan. */
+export function scanInfoText(scan: ScanSummary): string {
+  return `${scan.name} · ${scan.width}×${scan.height} px · ${scan.bitDepth}-bit · ${channelsText(scan.channels)} (${scan.colour}) · ${formatBytes(scan.inputBytes)}`;
+}
+
+/** The masthead line of an open stack file. */
+export function stackInfoText(
+  info: StackFrameInfo,
+  size: { width: number; height: number; channels: number },
+) {
+  return `${info.name} · stack of ${info.frameCount} frames · ${size.width}×${size.height} px · ${info.bitDepth}-bit · ${channelsText(size.channels)} · ${formatBytes(info.fileBytes)}`;
+}
+
+/** The status line after an encode. */
+export function encodedStatus(r: Pick<CompressReport, 'outputBytes' | 'psnr' | 'ssim'>): string {
+  return `Encoded: ${formatBytes(r.outputBytes)}, PSNR ${formatPsnr(r.psnr)}, SSIM ${r.ssim.toFixed(4)}.`;
+}
+
+type Progress = Pick<ProgressEvent, 'done' | 'total' | 'stage' | 'file' | 'message'>;
+const fileSuffix = (e: Progress) => (e.file ? ` — ${e.file}` : '');
+
+/** The status line of a running job. */
+export function progressText(e: Progress): string {
+  return `${e.stage}${fileSuffix(e)} (${e.done}/${e.total})`;
+}
+
+/** The status line of a running batch. */
+export function batchProgressText(e: Progress): string {
+  return `Batch: ${e.done}/${e.total} ${e.stage}${fileSuffix(e)}`;
+}
+
+/** One file's row in the batch list. */
+export function batchRowText(e: Progress & { file: string }): string {
+  return `${e.file} — ${e.stage}${e.message ? `: ${e.message}` : ''}`;
+}
+
+/** The message of a finished file: its error, else its size and PSNR, else nothing. */
+export function batchFileMessage(f: BatchFileStatus): string | undefined {
+  return (
+    f.message ??
+    (f.outputBytes !== undefined ? `${formatBytes(f.outputBytes)}, PSNR ${f.psnr?.toFixed(2)} dB` : undefined)
+  );
+}
+
+/** The status line of a finished batch and whether it reads as an error. */
+export function batchDoneStatus(r: Pick<BatchResult, 'files' | 'cancelled'>): {
+  text: string;
+  isError: boolean;
+} {
+  const failed = r.files.filter((f) => f.state === 'failed').length;
+  return {
+    text: r.cancelled ? 'Batch cancelled.' : `Batch done: ${r.files.length} files, ${failed} failed.`,
+    isError: failed > 0,
+  };
+}
+
+/** The clean report fields the Clean panel shows (in the report's own order). */
+const CLEAN_REPORT_FIELDS = [
+  'noiseSigma',
+  'noiseSource',
+  'threshold',
+  'method',
+  'psnrChange',
+  'changedSamples',
+  'removedRms',
+  'noiseSkipped',
+];
+
+/** The Clean panel's report: one `key: value` line per shown scalar, numbers to six significant digits. */
+export function cleanReportText(report: Record<string, unknown>): string {
+  return Object.entries(report)
+    .filter(
+      ([k, v]) =>
+        CLEAN_REPORT_FIELDS.includes(k) &&
+        (typeof v === 'number' || typeof v === 'string' || typeof v === 'boolean'),
+    )
+    .map(([k, v]) => `${k}: ${typeof v === 'number' ? Number(v.toPrecision(6)) : v}`)
+    .join('\n');
+}
+
+/** What the two panes show, for their labels. */
+export interface PaneView {
+  showing: 'model' | 'cleaned' | 'removed';
+  mode: ViewMode;
+  gain: number;
+  layerIndex: number;
+  tiled: boolean;
+  tile: number;
+  rank: number;
+}
+
+/** The labels above the left and right panes. */
+export function paneLabels(p: PaneView): { left: string; right: string } {
+  const right =
+    p.showing === 'cleaned'
+      ? 'cleaned'
+      : p.showing === 'removed'
+        ? `removed part × ${p.gain} (mid-grey = nothing removed)`
+        : p.mode === 'diff'
+          ? `difference at rank ${p.rank} × ${p.gain}`
+          : p.mode === 'layer'
+            ? `layer ${p.layerIndex + 1}: σᵢuᵢvᵢᵀ`
+            : p.tiled
+              ? `tiles of ${p.tile}, rank ≤ ${p.rank}`
+              : `rank ${p.rank}`;
+  const left = p.mode === 'side' ? 'original' : p.mode === 'swipe' ? 'original | reconstruction' : '';
+  return { left, right };
+}
+
+/** The pane labels and slider readout of a stack frame. */
+export function frameLabels(info: StackFrameInfo): { left: string; right: string; position: string } {
+  return {
+    left: `frame ${info.frame + 1} of ${info.frameCount} · decoded`,
+    right: `${frameName(info)} · decoded (the originals are not in the file)`,
+    position: `${info.frame + 1} / ${info.frameCount}`,
+  };
+}
+
+const frameName = (info: StackFrameInfo) => info.frameNames[info.frame] ?? `frame ${info.frame + 1}`;
+
+/** The Stack card's readouts by data-metric: `value` for data-value ('' for none), `text` for the <dd>. */
+export function stackCardCells(info: StackFrameInfo): Record<StackMetric, { value: string; text: string }> {
+  const cell = (value: number, text: string) => ({ value: Number.isNaN(value) ? '' : String(value), text });
+  const w = info.worst;
+  return {
+    frame: cell(info.frame + 1, `${info.frame + 1} · ${frameName(info)}`),
+    'frame-count': cell(info.frameCount, String(info.frameCount)),
+    'eigen-frames': cell(Math.max(...info.ranks), info.ranks.join(' / ')),
+    residual: cell(info.residual ? 1 : 0, info.residual ? 'yes' : 'no'),
+    'worst-psnr': cell(w ? w.psnr : Number.NaN, w ? `${w.psnr.toFixed(2)} dB · frame ${w.frame + 1}` : '–'),
+  };
+}
+/** The Stack card's readouts, by their `data-metric` in index.html. */
+export const STACK_METRICS = ['frame', 'frame-count', 'eigen-frames', 'residual', 'worst-psnr'] as const;
+export type StackMetric = (typeof STACK_METRICS)[number];
+
+/** Whether a stack frame records its own PSNR or SSIM. */
+export const hasFrameQuality = (info: StackFrameInfo) => info.psnr !== undefined || info.ssim !== undefined;
+
+/** The note under the Stack card. */
+export function stackNote(info: StackFrameInfo): string {
+  return hasFrameQuality(info)
+    ? 'PSNR and SSIM of this frame as recorded in the file; sizes are for the whole stack.'
+    : 'This stack file records no per-frame PSNR or SSIM and holds no originals to compare against, so only sizes are shown (bytes, ratio and bits per pixel of the whole stack; the eigen-frames are shared by every frame). Per-frame figures are in the report of `rankfold compress --stack --json`.';
+}
+
+/** The status line once a stack file is open. */
+export function stackOpenedStatus(info: StackFrameInfo): string {
+  return `Opened the stack ${info.name}: ${info.frameCount} frames, ${info.ranks.join('/')} eigen-frames.`;
+}
+
+/** A recent file's button label: its name without folders. */
+export function recentLabel(path: string): string {
+  return path.split(/[\\/]/).pop() ?? path;
+}

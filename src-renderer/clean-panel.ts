@@ -1,0 +1,98 @@
+/**
+ * The Clean panel: sensor noise and banding settings, a run that shows the removed part first, buttons to
+ * look at the cleaned scan, the removed part or the model again, the service's report and stripe profile.
+ */
+import { type CleanSettings, decodeFactorSet } from '../src-main/contract';
+import { bind } from './bind';
+import { CLEANING_CAUTION, cleanReportText } from './captions';
+import type { Panes } from './panes';
+import { profilePlot } from './spectrum';
+import type { PageState, Showing } from './state';
+import { newJob, type StatusBar } from './status';
+import type { PageApi } from './transport';
+import type { CompareView } from './viewer';
+
+export interface CleanPanel {
+  /** The settings as chosen in the panel. */
+  settings(): CleanSettings;
+  /** A scan is open: cleaning can run. */
+  enableRun(): void;
+}
+
+export function setupCleanPanel(
+  api: PageApi,
+  state: PageState,
+  bar: StatusBar,
+  view: CompareView,
+  panes: Panes,
+): CleanPanel {
+  const el = bind(document, {
+    noise: 'select#clean-noise',
+    sigma: 'input#clean-noise-sigma',
+    banding: 'select#clean-banding',
+    run: 'button#clean-run',
+    report: '#clean-report',
+    profile: '#clean-profile',
+    caution: '#clean-caution',
+    showCleaned: 'button#clean-show-cleaned',
+    showRemoved: 'button#clean-show-removed',
+    showModel: 'button#clean-show-model',
+  });
+  const views: [HTMLButtonElement, Showing][] = [
+    [el.showCleaned, 'cleaned'],
+    [el.showRemoved, 'removed'],
+    [el.showModel, 'model'],
+  ];
+  el.caution.textContent = CLEANING_CAUTION;
+
+  el.noise.addEventListener('change', () => {
+    el.sigma.hidden = el.noise.value !== 'fixed';
+  });
+
+  const settings = (): CleanSettings => ({
+    noise: el.noise.value === 'fixed' ? Number(el.sigma.value) : (el.noise.value as 'auto' | 'off'),
+    banding: el.banding.value as CleanSettings['banding'],
+  });
+
+  el.run.addEventListener('click', async () => {
+    const s = state.scan;
+    if (!s) return bar.show('Open a scan first.', true);
+    const job = newJob();
+    bar.busy(job, 'Cleaning…');
+    try {
+      const r = await api.clean({ scanId: s.scanId, settings: settings(), job });
+      const { header, arrays } = decodeFactorSet(await api.fetchImages(r.imagesId));
+      const n = header.channels.length;
+      const planes = (name: string) =>
+        Array.from({ length: n }, (_, p) => arrays[`${name}.${p}`] as Float32Array);
+      state.cleaned = { cleaned: planes('cleaned'), removed: planes('removed') };
+      panes.forgetRemoved();
+      state.showing = 'removed';
+      el.report.textContent = cleanReportText(r.report);
+      el.report.dataset.done = 'true';
+      profilePlot(el.profile, r.profile.columns, r.profile.rows);
+      for (const [b] of views) b.disabled = false;
+      panes.showModel();
+      panes.label();
+      bar.show('Cleaned. Showing the removed part; compare it with the original before you save.');
+    } catch (err) {
+      bar.fail(err);
+    } finally {
+      bar.busy(undefined);
+    }
+  });
+
+  for (const [b, what] of views)
+    b.addEventListener('click', () => {
+      state.showing = what;
+      panes.label();
+      view.paint();
+    });
+
+  return {
+    settings,
+    enableRun() {
+      el.run.disabled = false;
+    },
+  };
+}

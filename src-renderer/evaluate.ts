@@ -1,0 +1,93 @@
+/**
+ * Exact figures from the encoder: an evaluation at the current budget, scheduled 120 ms after the last
+ * change, one at a time (a change during a run queues one more). Answers to an older budget are dropped.
+ */
+import { decodeFactorSet } from '../src-main/contract';
+import { bind } from './bind';
+import { encodedStatus } from './captions';
+import type { Panes } from './panes';
+import type { RankSlider } from './rank';
+import type { Readouts } from './readouts';
+import type { PageState } from './state';
+import { newJob, type StatusBar } from './status';
+import type { PageApi } from './transport';
+
+/** Quiet time after a change before the encoder runs, so a burst of changes costs one encode. */
+const SETTLE_MS = 120;
+
+export interface Evaluator {
+  /** Evaluate once the changes settle. */
+  schedule(): void;
+  /** Evaluate now (or right after the evaluation running). */
+  now(): Promise<void>;
+}
+
+export function createEvaluator(
+  api: PageApi,
+  state: PageState,
+  bar: StatusBar,
+  readouts: Readouts,
+  rank: RankSlider,
+  panes: Panes,
+): Evaluator {
+  const stage = bind(document, { stage: '#stage' }).stage;
+  let timer: ReturnType<typeof setTimeout> | undefined;
+  let running = false;
+  let again = false;
+
+  const schedule = () => {
+    if (timer) clearTimeout(timer);
+    timer = setTimeout(() => void now(), SETTLE_MS);
+  };
+
+  const now = async () => {
+    const s = state.scan;
+    if (!s) return;
+    if (running) {
+      again = true;
+      return;
+    }
+    running = true;
+    const seq = ++state.evalSeq;
+    const budget = state.budget;
+    const job = newJob();
+    bar.busy(job, 'Encoding at this budget…');
+    try {
+      const r = await api.evaluate({ scanId: s.scanId, budget, tile: state.tiled ? state.tile : 0, job });
+      if (seq !== state.evalSeq || JSON.stringify(budget) !== JSON.stringify(state.budget)) return;
+      const ranks = r.report.ranks;
+      const k = ranks[0]?.rank ?? ranks[0]?.tiles?.max;
+      // Tiled mode: the page shows the encoder's own decoded result, fetched before the figures turn exact.
+      if (r.previewId) {
+        const { arrays, header } = decodeFactorSet(await api.fetchImages(r.previewId));
+        if (seq !== state.evalSeq) return;
+        state.preview = {
+          planes: header.channels.map((_, p) => arrays[`rec.${p}`] as Float32Array),
+          tiles: r.tileRanks,
+        };
+      } else state.preview = undefined;
+      stage.dataset.tiles = String(r.tileRanks?.[0]?.ranks.length ?? '');
+      if (budget.kind === 'rank') {
+        if (!state.tiled) state.calib = { rank: budget.rank, bytes: r.report.outputBytes };
+        readouts.showReport(r.report, budget.rank);
+      } else {
+        state.budgetRank = k;
+        if (k !== undefined) rank.set(k, false);
+        readouts.showReport(r.report, k);
+      }
+      panes.showModel();
+      bar.show(encodedStatus(r.report));
+    } catch (err) {
+      if (seq === state.evalSeq && s === state.scan) bar.fail(err);
+    } finally {
+      bar.busy(undefined);
+      running = false;
+      if (again) {
+        again = false;
+        schedule();
+      }
+    }
+  };
+
+  return { schedule, now };
+}

@@ -1,0 +1,160 @@
+/**
+ * Opening a scan: by upload (browser), by path, from the demo list or the desktop shell. A first
+ * factorisation at a small rank is shown at once; a deeper one follows in the background. A chosen
+ * `.rkf` file opens as a stack (./stack.ts) instead.
+ */
+import { bind } from './bind';
+import { scanInfoText } from './captions';
+import type { Evaluator } from './evaluate';
+import { FIRST_PASS_RANK, secondPassRank } from './figures';
+import { LowRankModel } from './model';
+import type { Panes } from './panes';
+import type { RankSlider } from './rank';
+import type { SpectrumCharts } from './spectrum';
+import type { PageState } from './state';
+import { newJob, type StatusBar } from './status';
+import type { PageApi } from './transport';
+
+type ScanSource = Parameters<PageApi['openScan']>[0]['source'];
+
+/** The rank shown when a scan opens (capped by its smaller side). */
+const OPENING_RANK = 20;
+
+export interface Opener {
+  open(source: ScanSource): Promise<void>;
+  /** A typed or remembered path, through the back end's file check. */
+  openPath(path: string): Promise<void>;
+  /** A chosen path: a stack file (.rkf) opens in stack mode, anything else as a scan. */
+  openChosen(path: string): Promise<void>;
+  uploadAndOpen(f: File): Promise<void>;
+}
+
+export interface OpenerParts {
+  api: PageApi;
+  state: PageState;
+  bar: StatusBar;
+  charts: SpectrumCharts;
+  rank: RankSlider;
+  panes: Panes;
+  evaluator: Evaluator;
+  /** A new model's layer count, for the one-layer view. */
+  setLayerCount(n: number): void;
+  enableClean(): void;
+  leaveStack(): void;
+  openStack(path: string): Promise<void>;
+  refreshRecent(): Promise<void>;
+}
+
+export function createOpener(p: OpenerParts): Opener {
+  const { api, state, bar } = p;
+  const el = bind(document, {
+    scanInfo: '#scan-info',
+    dropHint: '#drop-hint',
+    file: 'input#file-input',
+    pathForm: 'form#path-form',
+    path: 'input#path-input',
+  });
+  const body = document.body;
+
+  const installModel = (buf: ArrayBuffer, rank: number) => {
+    const model = new LowRankModel(buf);
+    state.model = model;
+    p.rank.enable(model.maxRank);
+    p.charts.show(model);
+    p.panes.showModel();
+    p.setLayerCount(model.maxRank);
+    p.rank.set(Math.min(rank, model.maxRank), state.budget.kind === 'rank');
+    p.rank.syncBudgetField();
+    p.enableClean();
+  };
+
+  const open = async (source: ScanSource) => {
+    const seq = ++state.openSeq;
+    const current = () => seq === state.openSeq;
+    p.leaveStack();
+    state.openedAt = performance.now();
+    state.model = undefined;
+    state.firstPaintMs = undefined;
+    delete body.dataset.firstPaintMs;
+    delete body.dataset.initialRankMs;
+    delete body.dataset.refined;
+    const job = newJob();
+    bar.busy(job, 'Reading the scan…');
+    try {
+      const scan = await api.openScan({ source });
+      if (!current()) return;
+      body.dataset.openMs = (performance.now() - state.openedAt).toFixed(1);
+      state.scan = scan;
+      state.cleaned = undefined;
+      state.preview = undefined;
+      state.calib = undefined;
+      state.showing = 'model';
+      el.scanInfo.textContent = scanInfoText(scan);
+      el.dropHint.hidden = true;
+      const minDim = Math.min(scan.width, scan.height);
+      bar.busy(job, 'Factoring…');
+      const first = await api.factors({
+        scanId: scan.scanId,
+        maxRank: Math.min(minDim, FIRST_PASS_RANK),
+        job,
+      });
+      if (!current()) return;
+      body.dataset.factorsMs = (performance.now() - state.openedAt).toFixed(1);
+      installModel(first, Math.min(OPENING_RANK, minDim));
+      bar.busy(undefined);
+      bar.show(`Opened ${scan.name}. Refining the spectrum in the background…`);
+      p.evaluator.schedule();
+      const k2 = Math.min(minDim, secondPassRank(scan.width * scan.height));
+      if (k2 > FIRST_PASS_RANK) {
+        const job2 = newJob();
+        const more = await api.factors({ scanId: scan.scanId, maxRank: k2, job: job2, background: true });
+        if (current()) {
+          installModel(more, Number(p.rank.input.value));
+          body.dataset.refined = scan.scanId;
+          bar.show(`Spectrum to rank ${k2} ready.`);
+        }
+      } else bar.show(`Opened ${scan.name}.`);
+      void p.refreshRecent();
+    } catch (err) {
+      if (!current()) return;
+      bar.busy(undefined);
+      bar.fail(err);
+    }
+  };
+
+  const openChosen = (path: string) =>
+    /\.rkf$/i.test(path) ? p.openStack(path) : open({ kind: 'path', path });
+
+  const openPath = async (path: string) => {
+    try {
+      const r = await api.pick({ kind: 'file', suggested: path });
+      if (r.path) await openChosen(r.path);
+    } catch (err) {
+      bar.fail(err);
+    }
+  };
+
+  const uploadAndOpen = async (f: File) => {
+    try {
+      bar.busy(newJob(), `Uploading ${f.name}…`);
+      const id = await api.upload(f.name, await f.arrayBuffer());
+      await open({ kind: 'upload', uploadId: id });
+    } catch (err) {
+      bar.busy(undefined);
+      bar.fail(err);
+    }
+  };
+
+  el.file.addEventListener('change', async () => {
+    const f = el.file.files?.[0];
+    if (f) await uploadAndOpen(f);
+  });
+  el.pathForm.addEventListener('submit', (e) => {
+    e.preventDefault();
+    const path = el.path.value.trim();
+    if (path) void openPath(path);
+  });
+  api.onOpenPath((path) => void openChosen(path));
+
+  return { open, openPath, openChosen, uploadAndOpen };
+}

@@ -1,0 +1,90 @@
+/**
+ * What the compare view paints for an open scan (the original and, on the right, the model at the
+ * slider's rank, the tiled preview, the cleaned scan or the removed part) and the labels above the panes.
+ */
+import { bind } from './bind';
+import { paneLabels } from './captions';
+import { removedForDisplay } from './figures';
+import type { PageState } from './state';
+import type { CompareView, ViewSource } from './viewer';
+
+export interface Panes {
+  /** Paint the open scan's model (after a new model, preview or cleaning result). */
+  showModel(): void;
+  /** Rewrite the pane labels from the state, the view and the slider. */
+  label(): void;
+  /** Write pane labels given elsewhere (a stack frame's). */
+  write(labels: { left: string; right: string }): void;
+  /** Drop the cached removed-part planes (after a new cleaning result). */
+  forgetRemoved(): void;
+}
+
+export function createPanes(state: PageState, view: CompareView): Panes {
+  const el = bind(document, { left: '#label-left', right: '#label-right', rank: 'input#rank' });
+
+  /** The removed part as shown, rebuilt when the gain changes. */
+  let removedView: { gain: number; planes: Float32Array[] } | undefined;
+  const removedPlanes = (removed: Float32Array[], peak: number) => {
+    if (!removedView || removedView.gain !== view.gain)
+      removedView = { gain: view.gain, planes: removedForDisplay(removed, peak, view.gain) };
+    return removedView.planes;
+  };
+
+  const modelSource = (): ViewSource | undefined => {
+    const m = state.model;
+    if (!m) return undefined;
+    const tiles = state.preview?.tiles?.[0];
+    return {
+      width: m.width,
+      height: m.height,
+      peak: m.displayPeak,
+      original: m.planes.map((p) => p.src),
+      recon: () => {
+        if (state.showing === 'cleaned' && state.cleaned) return state.cleaned.cleaned;
+        if (state.showing === 'removed' && state.cleaned)
+          return removedPlanes(state.cleaned.removed, m.displayPeak);
+        if (state.tiled && state.preview) return state.preview.planes;
+        return m.planes.map((p) => p.acc);
+      },
+      layer: (i) => {
+        const k = Math.min(m.maxRank - 1, Math.max(0, i));
+        return m.planes.map((p) => ({
+          s: p.sigma[k],
+          u: p.u.subarray(k * m.height, (k + 1) * m.height),
+          v: p.v.subarray(k * m.width, (k + 1) * m.width),
+        }));
+      },
+      tiles: tiles ? { tile: tiles.tile, cols: tiles.cols, rows: tiles.rows, ranks: tiles.ranks } : undefined,
+    };
+  };
+
+  const write = (labels: { left: string; right: string }) => {
+    el.left.textContent = labels.left;
+    el.right.textContent = labels.right;
+  };
+
+  return {
+    showModel() {
+      const source = modelSource();
+      if (!source) throw new Error('No scan is open to show.');
+      view.setSource(source);
+    },
+    label() {
+      write(
+        paneLabels({
+          showing: state.showing,
+          mode: view.mode,
+          gain: view.gain,
+          layerIndex: view.layerIndex,
+          tiled: state.tiled,
+          tile: state.tile,
+          rank: Number(el.rank.value),
+        }),
+      );
+    },
+    write,
+    forgetRemoved() {
+      removedView = undefined;
+    },
+  };
+}

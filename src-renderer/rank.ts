@@ -1,0 +1,108 @@
+/**
+ * The rank slider. A move rebuilds the reconstruction in the page, a few layers per animation frame
+ * (./model.ts), shows instant figures and marks the charts; letting go asks the encoder for exact ones.
+ * Timings land on <body> as data-first-paint-ms, data-last-step-ms and data-initial-rank-ms.
+ */
+import { bind } from './bind';
+import type { Panes } from './panes';
+import type { Readouts } from './readouts';
+import type { SpectrumCharts } from './spectrum';
+import type { PageState } from './state';
+import type { CompareView } from './viewer';
+
+/** Milliseconds of layer updates per animation frame, leaving the rest of a 60 Hz frame to paint. */
+const STEP_MS_PER_FRAME = 10;
+
+export interface RankSlider {
+  readonly input: HTMLInputElement;
+  /** Move to rank k; a move by the user also makes the budget that rank. */
+  set(k: number, fromUser: boolean): void;
+  /** Show the slider's rank in the budget field, unless the user is typing there. */
+  syncBudgetField(): void;
+  /** Enable the slider for a model of `maxRank` (or the tile size in tiled mode). */
+  enable(maxRank: number): void;
+}
+
+export function createRankSlider(
+  state: PageState,
+  view: CompareView,
+  charts: SpectrumCharts,
+  readouts: Readouts,
+  panes: Panes,
+  onRelease: () => void,
+): RankSlider {
+  const el = bind(document, { rank: 'input#rank', out: '#rank-out', budget: 'input#budget' });
+  const body = document.body;
+
+  let animating = false;
+  let stepStart = 0;
+  const pump = () => {
+    const m = state.model;
+    if (!m) return;
+    if (animating) return;
+    animating = true;
+    const frame = () => {
+      if (m !== state.model) {
+        animating = false;
+        return pump();
+      }
+      const done = m.step(STEP_MS_PER_FRAME);
+      view.paint();
+      if (m.applied > 0 && state.firstPaintMs === undefined && state.openedAt) {
+        // The first reconstruction is on screen (the spectrum was drawn before it).
+        state.firstPaintMs = performance.now() - state.openedAt;
+        body.dataset.firstPaintMs = state.firstPaintMs.toFixed(1);
+      }
+      if (done) {
+        animating = false;
+        const ms = performance.now() - stepStart;
+        body.dataset.lastStepMs = ms.toFixed(2);
+        body.dataset.appliedRank = String(m.applied);
+        if (state.openedAt && body.dataset.initialRankMs === undefined)
+          body.dataset.initialRankMs = (performance.now() - state.openedAt).toFixed(1);
+        return;
+      }
+      requestAnimationFrame(frame);
+    };
+    // First chunk synchronously, so a one-layer step is painted within the input event's frame.
+    frame();
+  };
+
+  const set = (k: number, fromUser: boolean) => {
+    const m = state.model;
+    if (!m) return;
+    stepStart = performance.now();
+    el.rank.value = String(k);
+    el.out.textContent = String(k);
+    charts.mark(k, state.budgetRank);
+    if (!state.tiled) {
+      m.setTarget(k);
+      pump();
+    }
+    if (fromUser) state.budget = { kind: 'rank', rank: k };
+    readouts.estimate(k);
+    panes.label();
+  };
+
+  const syncBudgetField = () => {
+    if (document.activeElement !== el.budget) el.budget.value = `rank ${el.rank.value}`;
+  };
+
+  el.rank.addEventListener('input', () => {
+    state.showing = 'model';
+    set(Number(el.rank.value), true);
+    syncBudgetField();
+  });
+  el.rank.addEventListener('change', () => onRelease());
+
+  return {
+    input: el.rank,
+    set,
+    syncBudgetField,
+    enable(maxRank) {
+      el.rank.disabled = false;
+      el.rank.min = '1';
+      el.rank.max = String(state.tiled ? state.tile : maxRank);
+    },
+  };
+}

@@ -1,0 +1,80 @@
+/**
+ * The "Figures" card: instant estimates from the spectrum while the slider moves, then the encoder's
+ * exact figures; the card's data-state, data-rank and data-budget say which (tests and people read them).
+ */
+import type { CompressReport, StackFrameInfo } from '../src-main/contract';
+import { bind, find } from './bind';
+import { hasFrameQuality } from './captions';
+import { estimateFigures, reportFigures, stackFigures } from './figures';
+import { type Figures, METRICS, readoutCell } from './format';
+import type { PageState } from './state';
+
+export interface Readouts {
+  /** Show `values`, as exact figures or as estimates, for `rank` (undefined: no single rank). */
+  set(values: Figures, exact: boolean, rank: number | undefined): void;
+  /** Instant figures for rank k from the spectrum; sizes from the last real encode (or a first guess). */
+  estimate(k: number): void;
+  /** The encoder's figures. */
+  showReport(r: CompressReport, rank: number | undefined): void;
+  /** A stack frame's figures: what the file records, sizes of the whole stack. */
+  showStack(info: StackFrameInfo, size: { width: number; height: number }): void;
+}
+
+export function createReadouts(state: PageState): Readouts {
+  const el = bind(document, { box: 'dl#readouts', pill: '#readout-state' });
+  const cells = bindReadouts(el.box, METRICS, 'The Figures card');
+
+  const set = (values: Figures, exact: boolean, rank: number | undefined) => {
+    for (const metric of METRICS) {
+      const shown = readoutCell(metric, values[metric], exact);
+      if (shown) writeReadout(cells[metric], shown);
+    }
+    el.box.dataset.state = exact ? 'exact' : 'estimate';
+    el.box.dataset.rank = rank === undefined ? '' : String(rank);
+    el.box.dataset.budget = JSON.stringify(state.budget);
+    el.pill.textContent = exact ? 'encoded' : 'estimate';
+    el.pill.classList.toggle('exact', exact);
+  };
+
+  return {
+    set,
+    estimate(k) {
+      const m = state.model;
+      const s = state.scan;
+      if (!m || !s) return;
+      set(estimateFigures(m, s, state.calib, k), false, k);
+    },
+    showReport: (r, rank) => set(reportFigures(r), true, rank),
+    showStack(info, size) {
+      set(stackFigures(info, size), true, undefined);
+      if (!hasFrameQuality(info))
+        for (const m of ['psnr', 'ssim'] as const) cells[m].dd.textContent = 'not in file';
+      el.pill.textContent = 'stack file';
+    },
+  };
+}
+
+/** One readout: the element carrying data-metric and data-value, and its <dd>. */
+export interface ReadoutCell {
+  cell: HTMLElement;
+  dd: HTMLElement;
+}
+
+/** The readouts of `metrics` under `root`, each found by its data-metric. */
+export function bindReadouts<M extends string>(
+  root: ParentNode,
+  metrics: readonly M[],
+  where: string,
+): Record<M, ReadoutCell> {
+  const cells = {} as Record<M, ReadoutCell>;
+  for (const m of metrics) {
+    const cell = find(root, `[data-metric="${m}"]`, where);
+    cells[m] = { cell, dd: find(cell, 'dd', `The ${m} readout`) };
+  }
+  return cells;
+}
+
+export function writeReadout(c: ReadoutCell, shown: { value: string; text: string }): void {
+  c.cell.dataset.value = shown.value;
+  c.dd.textContent = shown.text;
+}

@@ -1,0 +1,79 @@
+/**
+ * The Save panel: the compressed file or the expanded image at the current budget, or the cleaned scan;
+ * written to a typed or chosen path, or downloaded (browser mode, no path).
+ */
+import type { CleanSettings } from '../src-main/contract';
+import { bind } from './bind';
+import { LOSSY_CAUTION } from './captions';
+import { formatBytes } from './format';
+import type { PageState } from './state';
+import { newJob, type StatusBar } from './status';
+import type { PageApi } from './transport';
+
+type SaveKind = 'rkf' | 'expanded' | 'cleaned';
+
+export interface SavePanel {
+  /** Run a save as the Save button does (the desktop menu's Save). */
+  run(): void;
+}
+
+export function setupSavePanel(
+  api: PageApi,
+  state: PageState,
+  bar: StatusBar,
+  cleanSettings: () => CleanSettings,
+): SavePanel {
+  const el = bind(document, {
+    path: 'input#save-path',
+    force: 'input#save-force',
+    run: 'button#save-run',
+    result: '#save-result',
+    caution: '#save-caution',
+  });
+  el.caution.textContent = LOSSY_CAUTION;
+
+  el.run.addEventListener('click', async () => {
+    const s = state.scan;
+    if (!s) return bar.show('Open a scan first.', true);
+    const kind = (document.querySelector<HTMLInputElement>('input[name="save-kind"]:checked')?.value ??
+      'rkf') as SaveKind;
+    const typed = el.path.value.trim();
+    const job = newJob();
+    bar.busy(job, 'Saving…');
+    try {
+      let path: string | undefined;
+      if (typed || api.transport() === 'ipc') {
+        const chosen = await api.pick({ kind: 'save', suggested: typed || undefined });
+        if (!chosen.path && api.transport() === 'ipc') return bar.busy(undefined);
+        path = chosen.path;
+      }
+      const r = await api.save({
+        scanId: s.scanId,
+        kind,
+        budget: state.budget,
+        tile: state.tiled ? state.tile : 0,
+        settings: kind === 'cleaned' ? cleanSettings() : undefined,
+        path,
+        force: el.force.checked,
+        job,
+      });
+      el.result.replaceChildren(`${r.path ?? r.fileName}: ${formatBytes(r.bytes)}\n`);
+      if (r.downloadId && api.downloadUrl) {
+        const a = document.createElement('a');
+        a.href = api.downloadUrl(r.downloadId);
+        a.download = r.fileName;
+        a.textContent = `Download ${r.fileName}`;
+        el.result.append(a);
+        a.click();
+      }
+      el.caution.textContent = r.caution;
+      bar.show(`Saved ${r.fileName}.`);
+    } catch (err) {
+      bar.fail(err);
+    } finally {
+      bar.busy(undefined);
+    }
+  });
+
+  return { run: () => el.run.click() };
+}

@@ -1,0 +1,152 @@
+/**
+ * Stack files: a frame slider over one .rkf with the stack layout. The back end decodes the frame the
+ * slider asks for; slider moves during a fetch coalesce into one more fetch. The Stack card shows what the
+ * file records about the frame and the stack.
+ */
+import { decodeFactorSet } from '../src-main/contract';
+import { bind } from './bind';
+import {
+  frameLabels,
+  STACK_METRICS,
+  stackCardCells,
+  stackInfoText,
+  stackNote,
+  stackOpenedStatus,
+} from './captions';
+import type { Panes } from './panes';
+import type { RankSlider } from './rank';
+import { bindReadouts, type Readouts, writeReadout } from './readouts';
+import type { SpectrumCharts } from './spectrum';
+import type { PageState } from './state';
+import { newJob, type StatusBar } from './status';
+import type { PageApi } from './transport';
+import type { CompareView } from './viewer';
+
+export interface StackCard {
+  /** Close the stack view (a scan is opening). */
+  leave(): void;
+  open(path: string): Promise<void>;
+}
+
+export interface StackParts {
+  api: PageApi;
+  state: PageState;
+  bar: StatusBar;
+  view: CompareView;
+  charts: SpectrumCharts;
+  readouts: Readouts;
+  panes: Panes;
+  rank: RankSlider;
+  refreshRecent(): Promise<void>;
+}
+
+export function createStackCard(p: StackParts): StackCard {
+  const { api, state, bar } = p;
+  const stack = state.stack;
+  const el = bind(document, {
+    card: '#stack-card',
+    frame: 'input#frame',
+    frameOut: '#frame-out',
+    note: '#stack-note',
+    dropHint: '#drop-hint',
+    scanInfo: '#scan-info',
+  });
+  const cells = bindReadouts(el.card, STACK_METRICS, 'The Stack card');
+  const body = document.body;
+
+  const leave = () => {
+    stack.path = undefined;
+    stack.info = undefined;
+    stack.seq++;
+    el.card.hidden = true;
+    el.frame.disabled = true;
+    delete body.dataset.stackFrame;
+  };
+
+  const showFrame = (buf: ArrayBuffer) => {
+    const { header, arrays } = decodeFactorSet(buf);
+    const info = header.stack;
+    if (!info) throw new Error('the back end sent no stack summary');
+    const first = !stack.info;
+    stack.info = info;
+    const original = header.channels.map((_, c) => arrays[`src.${c}`] as Uint8Array | Uint16Array);
+    const recon = original.map((a) => Float32Array.from(a));
+    p.view.setSource({
+      width: header.width,
+      height: header.height,
+      peak: header.peak,
+      original,
+      recon: () => recon,
+    });
+    const labels = frameLabels(info);
+    p.panes.write(labels);
+    el.frameOut.textContent = labels.position;
+    el.frame.value = String(info.frame + 1);
+    const shown = stackCardCells(info);
+    for (const m of STACK_METRICS) writeReadout(cells[m], shown[m]);
+    // Sizes are the whole stack's: the eigen-frames are shared by every frame.
+    p.readouts.showStack(info, header);
+    el.note.textContent = stackNote(info);
+    body.dataset.stackFrame = String(info.frame);
+    if (first) {
+      el.card.hidden = false;
+      el.dropHint.hidden = true;
+      el.frame.min = '1';
+      el.frame.max = String(info.frameCount);
+      el.frame.disabled = false;
+      p.charts.showFrameMode(info.spectrum, Math.max(...info.ranks));
+      el.scanInfo.textContent = stackInfoText(info, {
+        width: header.width,
+        height: header.height,
+        channels: header.channels.length,
+      });
+      bar.show(stackOpenedStatus(info));
+      void p.refreshRecent();
+    }
+  };
+
+  /** Fetch the frame the slider asks for until it stops moving. */
+  const loadFrame = async (seq: number) => {
+    if (stack.loading === seq || !stack.path) return;
+    stack.loading = seq;
+    try {
+      while (seq === stack.seq) {
+        const want = stack.want;
+        const buf = await api.stackFrame({ path: stack.path, frame: want });
+        if (seq !== stack.seq) return;
+        showFrame(buf);
+        if (stack.want === want) break;
+      }
+      bar.busy(undefined);
+    } catch (err) {
+      bar.busy(undefined);
+      if (seq === stack.seq) bar.fail(err);
+    } finally {
+      if (stack.loading === seq) stack.loading = undefined;
+    }
+  };
+
+  el.frame.addEventListener('input', () => {
+    stack.want = Number(el.frame.value) - 1;
+    el.frameOut.textContent = `${el.frame.value} / ${el.frame.max}`;
+    void loadFrame(stack.seq);
+  });
+
+  return {
+    leave,
+    async open(path) {
+      ++state.openSeq; // a scan still opening must not take over the view
+      leave();
+      state.model = undefined;
+      state.scan = undefined;
+      state.cleaned = undefined;
+      state.preview = undefined;
+      state.showing = 'model';
+      p.rank.input.disabled = true;
+      stack.path = path;
+      stack.want = 0;
+      bar.busy(newJob(), 'Reading the stack…');
+      await loadFrame(stack.seq);
+    },
+  };
+}

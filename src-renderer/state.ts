@@ -1,0 +1,63 @@
+/**
+ * What the page shows, in one place: the open scan or stack, its model, the budget, tiling, the preview
+ * and cleaning results, and the jobs in flight. Panels read and write this object; the DOM holds only
+ * what the user typed or moved (the rank slider's position, the text fields).
+ */
+import type { Budget, EvaluateResult, ScanSummary, StackFrameInfo } from '../src-main/contract';
+import type { Calibration } from './figures';
+import type { LowRankModel } from './model';
+
+/** What the right pane shows: the model at the slider's rank, or a cleaning result. */
+export type Showing = 'model' | 'cleaned' | 'removed';
+
+/** An open stack file: the frame on screen, the one the slider asks for, and the fetch in flight. */
+export interface StackState {
+  path?: string;
+  info?: StackFrameInfo;
+  want: number;
+  /** The `seq` of the fetch loop running, if any. */
+  loading?: number;
+  /** Bumped when the stack is left: fetches of an older seq are dropped. */
+  seq: number;
+}
+
+export interface PageState {
+  scan?: ScanSummary;
+  model?: LowRankModel;
+  budget: Budget;
+  /** The rank the last budget maps to, marked on the charts. */
+  budgetRank?: number;
+  tiled: boolean;
+  tile: number;
+  /** Tiled mode: the encoder's own decoded planes and tile ranks. */
+  preview?: { planes: Float32Array[]; tiles?: EvaluateResult['tileRanks'] };
+  cleaned?: { cleaned: Float32Array[]; removed: Float32Array[] };
+  /** Bytes at a rank from the last real encode, for the instant size estimate. */
+  calib?: Calibration;
+  /** Bumped per evaluation; an answer of an older one is dropped. */
+  evalSeq: number;
+  /** Bumped per open (scan or stack); a scan still opening under an older one gives way. */
+  openSeq: number;
+  /** performance.now() when the open scan was asked for (0 before any). */
+  openedAt: number;
+  firstPaintMs?: number;
+  /** The job the status bar follows (and its Cancel button cancels). */
+  job?: string;
+  batchJob?: string;
+  reportId?: string;
+  showing: Showing;
+  stack: StackState;
+}
+
+export function createState(): PageState {
+  return {
+    budget: { kind: 'rank', rank: 1 },
+    tiled: false,
+    tile: 64,
+    evalSeq: 0,
+    openSeq: 0,
+    openedAt: 0,
+    showing: 'model',
+    stack: { want: 0, seq: 0 },
+  };
+}

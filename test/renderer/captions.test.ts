@@ -1,0 +1,215 @@
+// The page's sentences and labels. Expected strings are the ones the page showed for camera.png (512×512,
+// 8-bit grey, 139 536 bytes) and a 6-frame 64×48 stack in the screenshots taken before these functions were
+// moved out of src-renderer/main.ts.
+import { describe, expect, it } from 'vitest';
+import type { ScanSummary, StackFrameInfo } from '../../src-main/contract';
+import {
+  batchDoneStatus,
+  batchFileMessage,
+  batchProgressText,
+  batchRowText,
+  cleanReportText,
+  encodedStatus,
+  frameLabels,
+  type PaneView,
+  paneLabels,
+  progressText,
+  recentLabel,
+  STACK_METRICS,
+  scanInfoText,
+  stackCardCells,
+  stackInfoText,
+  stackNote,
+  stackOpenedStatus,
+  transportLabel,
+} from '../../src-renderer/captions';
+
+const camera: ScanSummary = {
+  scanId: 's1',
+  name: 'camera.png',
+  width: 512,
+  height: 512,
+  channels: 1,
+  bitDepth: 8,
+  colour: 'gray',
+  inputBytes: 139_536,
+  rawBytes: 262_144,
+  format: 'png',
+};
+
+const frame = (over: Partial<StackFrameInfo> = {}): StackFrameInfo => ({
+  name: 'plate.rkf',
+  frame: 3,
+  frameCount: 6,
+  frameNames: ['f-0.png', 'f-1.png', 'f-2.png', 'f-3.png', null, null],
+  ranks: [3],
+  spectrum: [{ channel: 'gray', sigma: [9, 3, 1] }],
+  fileBytes: 3100,
+  rawBytes: 64 * 48 * 6,
+  bitDepth: 8,
+  residual: false,
+  psnr: 39.5,
+  ssim: 0.9737,
+  worst: { frame: 1, psnr: 36.6049 },
+  ...over,
+});
+
+describe('scan and stack summaries', () => {
+  it('the masthead line of a scan, with the channel count in the singular or plural', () => {
+    expect(scanInfoText(camera)).toBe('camera.png · 512×512 px · 8-bit · 1 channel (gray) · 139.5 kB');
+    expect(scanInfoText({ ...camera, channels: 3, colour: 'rgb', bitDepth: 16, inputBytes: 2_500_000 })).toBe(
+      'camera.png · 512×512 px · 16-bit · 3 channels (rgb) · 2.50 MB',
+    );
+  });
+
+  it('the masthead line and status of a stack', () => {
+    expect(stackInfoText(frame(), { width: 64, height: 48, channels: 1 })).toBe(
+      'plate.rkf · stack of 6 frames · 64×48 px · 8-bit · 1 channel · 3.1 kB',
+    );
+    expect(stackOpenedStatus(frame({ ranks: [3, 2, 2] }))).toBe(
+      'Opened the stack plate.rkf: 6 frames, 3/2/2 eigen-frames.',
+    );
+  });
+
+  it('the transport label', () => {
+    expect(transportLabel('ipc')).toBe('desktop');
+    expect(transportLabel('http')).toBe('browser · 127.0.0.1');
+  });
+
+  it('a recent file shows its name without folders, POSIX or Windows', () => {
+    expect(recentLabel('/scans/2024/map-sheet.tif')).toBe('map-sheet.tif');
+    expect(recentLabel('C:\\scans\\ledger.png')).toBe('ledger.png');
+    expect(recentLabel('plain.png')).toBe('plain.png');
+  });
+});
+
+describe('status lines', () => {
+  it('after an encode', () => {
+    expect(encodedStatus({ outputBytes: 6500, psnr: 24.5412, ssim: 0.658_61 })).toBe(
+      'Encoded: 6.5 kB, PSNR 24.54 dB, SSIM 0.6586.',
+    );
+    expect(encodedStatus({ outputBytes: 900, psnr: Number.POSITIVE_INFINITY, ssim: 1 })).toBe(
+      'Encoded: 900 B, PSNR ∞ dB, SSIM 1.0000.',
+    );
+  });
+
+  it('of a job and of a batch, with and without a file', () => {
+    expect(progressText({ stage: 'factor', done: 1, total: 3 })).toBe('factor (1/3)');
+    expect(progressText({ stage: 'decode', done: 0, total: 1, file: 'a.tif' })).toBe('decode — a.tif (0/1)');
+    expect(batchProgressText({ stage: 'running', done: 2, total: 5, file: 'b.png' })).toBe(
+      'Batch: 2/5 running — b.png',
+    );
+    expect(batchProgressText({ stage: 'scan', done: 0, total: 5 })).toBe('Batch: 0/5 scan');
+  });
+
+  it('of a finished batch, red when a file failed', () => {
+    const f = (state: 'done' | 'failed') => ({ file: 'x', state });
+    expect(batchDoneStatus({ files: [f('done'), f('failed'), f('done')], cancelled: false })).toEqual({
+      text: 'Batch done: 3 files, 1 failed.',
+      isError: true,
+    });
+    expect(batchDoneStatus({ files: [f('done')], cancelled: false })).toEqual({
+      text: 'Batch done: 1 files, 0 failed.',
+      isError: false,
+    });
+    expect(batchDoneStatus({ files: [f('done')], cancelled: true }).text).toBe('Batch cancelled.');
+  });
+});
+
+describe('batch rows', () => {
+  it('a file row, with its message after a colon', () => {
+    expect(batchRowText({ file: 'a.png', stage: 'done', done: 1, total: 2 })).toBe('a.png — done');
+    expect(batchRowText({ file: 'a.png', stage: 'failed', done: 1, total: 2, message: 'truncated' })).toBe(
+      'a.png — failed: truncated',
+    );
+  });
+
+  it("a finished file's message: its error, else its size and PSNR", () => {
+    expect(batchFileMessage({ file: 'a', state: 'failed', message: 'unreadable' })).toBe('unreadable');
+    expect(batchFileMessage({ file: 'a', state: 'done', outputBytes: 12_345, psnr: 38.456 })).toBe(
+      '12.3 kB, PSNR 38.46 dB',
+    );
+    expect(batchFileMessage({ file: 'a', state: 'skipped' })).toBeUndefined();
+  });
+});
+
+describe('cleanReportText', () => {
+  it('shows the listed scalar fields in the report order, numbers to six significant digits', () => {
+    const text = cleanReportText({
+      input: 'camera.png',
+      method: 'groups',
+      noiseSigma: 0.670_163_28,
+      noiseSource: 'estimated',
+      threshold: null,
+      rank: { mean: 3 },
+      changedSamples: 54_646,
+      psnrChange: 54.578_712,
+    });
+    expect(text).toBe(
+      'method: groups\nnoiseSigma: 0.670163\nnoiseSource: estimated\nchangedSamples: 54646\npsnrChange: 54.5787',
+    );
+  });
+});
+
+describe('paneLabels', () => {
+  const base: PaneView = {
+    showing: 'model',
+    mode: 'side',
+    gain: 8,
+    layerIndex: 0,
+    tiled: false,
+    tile: 64,
+    rank: 20,
+  };
+  it('names what each pane shows in each view', () => {
+    expect(paneLabels(base)).toEqual({ left: 'original', right: 'rank 20' });
+    expect(paneLabels({ ...base, mode: 'swipe' })).toEqual({
+      left: 'original | reconstruction',
+      right: 'rank 20',
+    });
+    expect(paneLabels({ ...base, mode: 'diff' })).toEqual({ left: '', right: 'difference at rank 20 × 8' });
+    expect(paneLabels({ ...base, mode: 'layer', layerIndex: 4 }).right).toBe('layer 5: σᵢuᵢvᵢᵀ');
+    expect(paneLabels({ ...base, tiled: true, tile: 32, rank: 8 }).right).toBe('tiles of 32, rank ≤ 8');
+  });
+
+  it('a cleaning result wins over the view mode', () => {
+    expect(paneLabels({ ...base, mode: 'diff', showing: 'cleaned' }).right).toBe('cleaned');
+    expect(paneLabels({ ...base, showing: 'removed', gain: 16 }).right).toBe(
+      'removed part × 16 (mid-grey = nothing removed)',
+    );
+  });
+});
+
+describe('stack frame', () => {
+  it('labels use the frame name, or "frame N" when the file has none', () => {
+    expect(frameLabels(frame())).toEqual({
+      left: 'frame 4 of 6 · decoded',
+      right: 'f-3.png · decoded (the originals are not in the file)',
+      position: '4 / 6',
+    });
+    expect(frameLabels(frame({ frame: 4 })).right).toBe(
+      'frame 5 · decoded (the originals are not in the file)',
+    );
+  });
+
+  it('the Stack card readouts: values for data-value, texts for the page', () => {
+    const cells = stackCardCells(frame({ ranks: [3, 2, 2] }));
+    expect(Object.keys(cells)).toEqual([...STACK_METRICS]);
+    expect(cells.frame).toEqual({ value: '4', text: '4 · f-3.png' });
+    expect(cells['frame-count']).toEqual({ value: '6', text: '6' });
+    expect(cells['eigen-frames']).toEqual({ value: '3', text: '3 / 2 / 2' });
+    expect(cells.residual).toEqual({ value: '0', text: 'no' });
+    expect(cells['worst-psnr']).toEqual({ value: '36.6049', text: '36.60 dB · frame 2' });
+    const bare = stackCardCells(frame({ worst: undefined, residual: true }));
+    expect(bare['worst-psnr']).toEqual({ value: '', text: '–' });
+    expect(bare.residual).toEqual({ value: '1', text: 'yes' });
+  });
+
+  it('the note says whether the file records per-frame quality', () => {
+    expect(stackNote(frame())).toMatch(/^PSNR and SSIM of this frame as recorded/);
+    expect(stackNote(frame({ ssim: undefined }))).toMatch(/^PSNR and SSIM of this frame as recorded/);
+    expect(stackNote(frame({ psnr: undefined, ssim: undefined }))).toMatch(
+      /^This stack file records no per-frame/,
+    );
+  });
+});
