@@ -16,16 +16,15 @@ import { encodeInt, IntModel, RangeEncoder } from '../src-main/engine/codec/rang
 import { fitStack } from '../src-main/engine/codec/stack-budget';
 import { type PreparedStack, prepareStack, type StackInput } from '../src-main/engine/codec/stack-codec';
 import { encodePlane } from '../src-main/engine/codec/stack-plane';
+import { compressDecoded } from '../src-main/node/services/compress';
 import {
   driftingSpecimen,
   formPages,
   phantomSlices,
   type SeriesOptions,
   type SyntheticSeries,
-  truncatedHosvd,
-  tuckerFrame,
-} from '../src-main/engine/stack';
-import { compressDecoded } from '../src-main/node/services/compress';
+} from './models/synthetic';
+import { truncatedHosvd, tuckerFrame } from './models/tucker';
 
 const RATES = (process.env.RANKFOLD_STACK_RATES ?? '0.1,0.25,0.5').split(',').map(Number);
 const QUICK = process.env.RANKFOLD_BENCH_QUICK === '1';

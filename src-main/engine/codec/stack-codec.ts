@@ -26,7 +26,7 @@
  * the decoded frame against its source, NaN = not recorded). Planes are coded by stack-plane.ts.
  */
 import { FormatError } from '../../contract/errors';
-import { chromaOffset, rgbToYcbcr, toSamples, ycbcrToRgb } from '../lowrank/colour';
+import { rgbToYcbcr, toSamples, ycbcrToRgb } from '../lowrank/colour';
 import { ssim } from '../metrics';
 import { eigenFrameOf, type FrameModeSvd, frameModeSvd, rebuildFrame } from '../stack/frame-svd';
 import { type Chunk, isCritical, readContainer, refuseUnknownCritical, writeContainer } from './container';
@@ -663,6 +663,3 @@ export function frameSsim(input: StackInput, decoded: Float32Array[][]): number[
     return s / f.planes.length;
   });
 }
-
-/** Chroma offset used for colour stacks (exposed for docs and tests). */
-export const stackChromaOffset = chromaOffset;

@@ -24,11 +24,6 @@ const ACCEPT_DEVIATION = 0.5;
 /** Cholesky passes before giving up and calling Householder (CholeskyQR2 needs 2, shifted CholeskyQR3 needs 3). */
 const MAX_PASSES = 4;
 
-/** Scratch sizes (elements) an `Orthonormalizer` needs for blocks up to m×l: [precision of Y, f64]. */
-export function qrScratch(m: number, l: number, f32: boolean): [number, number] {
-  return f32 ? [m * l + l * l, m * l + 4 * l * l] : [m * l + l * l, 4 * l * l];
-}
-
 /** Scratch buffers for repeated QR of blocks up to maxM×maxL, allocated once from a workspace. */
 export class Orthonormalizer {
   private readonly Yd: Float64Array | null;
