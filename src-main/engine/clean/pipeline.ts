@@ -4,9 +4,9 @@
  * (back to RGB, rounding, removed part, report figures). Pure: no Node, no I/O.
  */
 import type { BandingMode, BandingReport, DenoiseMethod, NoiseMode, NoisePlaneReport } from '../../contract';
+import { NOISE_GAIN_YCBCR, rgbToYcbcrBt601, ycbcrBt601ToRgb } from '../colour';
 import { psnrPlanes } from '../metrics';
 import { analyseBanding, type BandingAnalysis, subtractProfiles } from './banding';
-import { NOISE_GAIN_YCBCR, rgbToYcbcr, ycbcrToRgb } from './colour';
 import { lambdaStar } from './gavish-donoho';
 import { estimateNoiseSigma } from './noise-estimate';
 import {
@@ -128,7 +128,7 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
       tile: null,
     };
   const work = colour
-    ? rgbToYcbcr(corrected[0], corrected[1], corrected[2], (maxValue + 1) / 2)
+    ? rgbToYcbcrBt601(corrected[0], corrected[1], corrected[2], (maxValue + 1) / 2)
     : [corrected[0]];
   const workNames = colour ? ['Y', 'Cb', 'Cr'] : ['gray'];
   let sigmas: number[];
@@ -338,7 +338,7 @@ export function finishClean(
   let colourPlanes = prep.corrected;
   if (denoised?.length)
     colourPlanes = prep.colour
-      ? ycbcrToRgb(denoised[0], denoised[1], denoised[2], (maxValue + 1) / 2)
+      ? ycbcrBt601ToRgb(denoised[0], denoised[1], denoised[2], (maxValue + 1) / 2)
       : [denoised[0]];
   const planes: Float32Array[] = [];
   const removed: Float32Array[] = [];

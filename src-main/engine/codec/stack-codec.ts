@@ -26,6 +26,7 @@
  * the decoded frame against its source, NaN = not recorded). Planes are coded by stack-plane.ts.
  */
 import { FormatError } from '../../contract/errors';
+import { solveSpdRidge } from '../linalg';
 import { rgbToYcbcr, toSamples, ycbcrToRgb } from '../lowrank/colour';
 import { ssim } from '../metrics';
 import { eigenFrameOf, type FrameModeSvd, frameModeSvd, rebuildFrame } from '../stack/frame-svd';
@@ -214,38 +215,6 @@ export function prepareStack(input: StackInput, maxRank = MAX_STACK_RANK): Prepa
   return { input, coded, svd, eigen };
 }
 
-/** Solve the SPD system A x = b (m×m) by Cholesky with a tiny ridge for rank-deficient bases. */
-function solveSpd(A: Float64Array, b: Float64Array, m: number): Float64Array {
-  const L = Float64Array.from(A);
-  let tr = 0;
-  for (let i = 0; i < m; i++) tr += A[i * m + i];
-  const ridge = 1e-13 * (tr / Math.max(1, m)) + 1e-300;
-  for (let j = 0; j < m; j++) {
-    let d = L[j * m + j] + ridge;
-    for (let k = 0; k < j; k++) d -= L[j * m + k] ** 2;
-    d = Math.sqrt(Math.max(d, ridge));
-    L[j * m + j] = d;
-    for (let i = j + 1; i < m; i++) {
-      let s = L[i * m + j];
-      for (let k = 0; k < j; k++) s -= L[i * m + k] * L[j * m + k];
-      L[i * m + j] = s / d;
-    }
-  }
-  const y = new Float64Array(m);
-  for (let i = 0; i < m; i++) {
-    let s = b[i];
-    for (let k = 0; k < i; k++) s -= L[i * m + k] * y[k];
-    y[i] = s / L[i * m + i];
-  }
-  const x = new Float64Array(m);
-  for (let i = m - 1; i >= 0; i--) {
-    let s = y[i];
-    for (let k = i + 1; k < m; k++) s -= L[k * m + i] * x[k];
-    x[i] = s / L[i * m + i];
-  }
-  return x;
-}
-
 function sse(a: ArrayLike<number>, b: ArrayLike<number>): number {
   let s = 0;
   for (let i = 0; i < a.length; i++) {
@@ -339,7 +308,7 @@ export function encodeStack(prep: PreparedStack, params: StackParams): EncodedSt
         for (let p = 0; p < n; p++) s += P[p] * (F[p] - mean.decoded[p]);
         rhs[i + 1] = s;
       }
-      coef.set(solveSpd(G, rhs, m), j * m);
+      coef.set(solveSpdRidge(G, rhs, m), j * m);
     }
     const cof = f32be(coef);
     body.push({ type: 'SCOF', id: c, payload: cof });
