@@ -3,6 +3,7 @@
 export * from './banding';
 export * from './gavish-donoho';
 export { GroupLowRank } from './group-low-rank';
+export { medianInPlace, runningMedian } from './medians';
 export { estimateNoiseSigma, MAD_TO_SIGMA, NOISE_KEEP_FRACTION } from './noise-estimate';
 export {
   autoGroupParams,

@@ -7,6 +7,7 @@ import type { BandingMode, BandingReport, DenoiseMethod, NoiseMode, NoisePlaneRe
 import { NOISE_GAIN_YCBCR, rgbToYcbcrBt601, ycbcrBt601ToRgb } from '../colour';
 import { psnrPlanes } from '../metrics';
 import { analyseBanding, type BandingAnalysis, subtractProfiles } from './banding';
+import { bandingReport } from './banding-report';
 import { lambdaStar } from './gavish-donoho';
 import { estimateNoiseSigma } from './noise-estimate';
 import {
@@ -189,52 +190,8 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
   return { ...base, work, workNames, sigmas, active, noiseSigma, noiseSource, method, params, tile: null };
 }
 
-function bandingReport(
-  mode: BandingMode,
-  analyses: BandingAnalysis[],
-  rowProfiles: Float64Array[] | null,
-  columnProfiles: Float64Array[] | null,
-): BandingReport {
-  if (mode === 'off' || analyses.length === 0)
-    return { mode, direction: 'none', strength: 0, period: null, rows: null, columns: null };
-  const axis = (key: 'rows' | 'columns', removed: boolean) => {
-    const best = analyses.reduce((a, b) => (b[key].strength > a[key].strength ? b : a))[key];
-    return {
-      detected: analyses.some((a) => a[key].detected),
-      removed,
-      strength: best.strength,
-      period: best.period,
-      noiseFloor: best.noiseFloor,
-      consistency: best.consistency,
-    };
-  };
-  const rows = axis('rows', rowProfiles !== null);
-  const columns = axis('columns', columnProfiles !== null);
-  const direction =
-    rows.removed && columns.removed ? 'both' : rows.removed ? 'rows' : columns.removed ? 'columns' : 'none';
-  const strength = Math.sqrt(
-    (rows.removed ? rows.strength ** 2 : 0) + (columns.removed ? columns.strength ** 2 : 0),
-  );
-  const period =
-    rows.removed && columns.removed
-      ? rows.strength >= columns.strength
-        ? rows.period
-        : columns.period
-      : rows.removed
-        ? rows.period
-        : columns.removed
-          ? columns.period
-          : null;
-  return { mode, direction, strength, period, rows, columns };
-}
-
-export interface DenoiseStats {
-  groups: number;
-  rankSum: number;
-  rankMin: number;
-  rankMax: number;
-  exact: number;
-}
+/** Statistics of a whole denoise: the band statistics (patch-groups.ts `GroupStats`) summed over bands. */
+export type DenoiseStats = GroupStats;
 
 /** Merge band statistics. Groups near a band edge are counted by both bands; the summary is indicative. */
 export function mergeStats(parts: GroupStats[]): DenoiseStats {

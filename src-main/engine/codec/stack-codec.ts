@@ -28,8 +28,9 @@
 import { FormatError } from '../../contract/errors';
 import { solveSpdRidge } from '../linalg';
 import { rgbToYcbcr, toSamples, ycbcrToRgb } from '../lowrank/colour';
-import { ssim } from '../metrics';
+import { psnrFromMse, ssim } from '../metrics';
 import { eigenFrameOf, type FrameModeSvd, frameModeSvd, rebuildFrame } from '../stack/frame-svd';
+import { asciiJson } from './ascii-json';
 import { type Chunk, isCritical, readContainer, refuseUnknownCritical, writeContainer } from './container';
 import { decodePlane, encodePlane } from './stack-plane';
 
@@ -151,16 +152,12 @@ const qualityBytes = (N: number) => 8 * N;
 
 const chunkId = (c: number, i: number) => c * 65536 + i;
 
-/** JSON as ASCII bytes: non-ASCII characters are written as \uXXXX escapes, which is valid UTF-8 JSON (RFC 8259 §7). */
-function jsonBytes(value: unknown): Uint8Array {
-  const text = JSON.stringify(value).replace(
-    /[\u007f-\uffff]/g,
-    (ch) => `\\u${ch.charCodeAt(0).toString(16).padStart(4, '0')}`,
-  );
-  return Uint8Array.from(text, (ch) => ch.charCodeAt(0));
-}
-
-/** Decode UTF-8 (RFC 3629); malformed sequences become U+FFFD. */
+/**
+ * Decode UTF-8 (RFC 3629); malformed sequences become U+FFFD. Not contract/utf8.ts `utf8Decode`: that one
+ * reads malformed input differently (a lone 0x80 decodes as U+0000, F7 BF BF BF throws a RangeError), so a
+ * damaged stack header would fail differently; the two can merge once the contract's decoder maps
+ * malformed bytes to U+FFFD the same way.
+ */
 function utf8Text(b: Uint8Array): string {
   let out = '';
   for (let i = 0; i < b.length; ) {
@@ -364,7 +361,7 @@ export function encodeStack(prep: PreparedStack, params: StackParams): EncodedSt
     frameNames: frameTable.map((f) => f.name ?? null),
     residualMask: ranks.map((_, c) => frameTable.map((f) => (f.residual[c] ? '1' : '0')).join('')),
   };
-  const head = jsonBytes(serial);
+  const head = asciiJson(serial);
   const hashes = new Uint8Array(32 * N);
   frameTable.forEach((f, j) => {
     if (f.sourceSha256 && /^[0-9a-f]{64}$/i.test(f.sourceSha256))
@@ -616,8 +613,7 @@ export function framePsnr(input: StackInput, decoded: Float32Array[][]): number[
   return input.frames.map((f, j) => {
     let s = 0;
     for (let c = 0; c < f.planes.length; c++) s += sse(f.planes[c], decoded[j][c]);
-    const mse = s / (f.planes.length * input.width * input.height);
-    return mse === 0 ? Number.POSITIVE_INFINITY : 10 * Math.log10((max * max) / mse);
+    return psnrFromMse(s / (f.planes.length * input.width * input.height), max);
   });
 }
 
