@@ -65,13 +65,20 @@ export const MAX_SAMPLE_LINES = 512;
 export const DEFAULT_HALF_WINDOW = 32;
 /** Minimum RMS of a detected profile, in 8-bit grey levels: below this, removal is within rounding. */
 export const MIN_STRENGTH_8BIT = 0.3;
-/** The robust strength must exceed this many times the noise floor (3 keeps all clean test images and samples untouched). */
+/**
+ * The robust strength must exceed this many times the noise floor. Fitted on: the clean images of
+ * test/fixtures/images and samples/ (3 leaves every one untouched) and the striped cases of
+ * test/clean/banding.test.ts (moon, camera and text with synthetic stripes; page for text lines).
+ */
 export const SIGNIFICANCE = 3;
-/** Minimum correlation between the two halves' profiles. */
+/** Minimum correlation between the two halves' profiles. Fitted on: as SIGNIFICANCE. */
 export const MIN_CONSISTENCY = 0.5;
-/** Largest spread ratio of a detected profile: above it, the "stripes" follow content (text lines, edges). */
+/**
+ * Largest spread ratio of a detected profile: above it, the "stripes" follow content (text lines, edges).
+ * Fitted on: as SIGNIFICANCE (the text-heavy page.png and text.png set the ceiling).
+ */
 export const MAX_SPREAD_RATIO = 1.8;
-/** In automatic mode, profile values beyond this many robust strengths are content, not banding. */
+/** In automatic mode, profile values beyond this many robust strengths are content, not banding. Fitted on: as SIGNIFICANCE. */
 export const SPIKE_FACTOR = 5;
 /** A period is reported when the spectral peak (±1 bin) holds at least this share of the energy. */
 export const MIN_PERIOD_SHARE = 0.3;
