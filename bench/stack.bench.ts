@@ -406,7 +406,7 @@ async function main() {
     'worst over the frames. Baselines measured in the same run: per-frame mozjpeg via sharp (one common',
     'quality, the highest that fits), per-frame Rankfold (the single-image codec, budget split evenly),',
     'and the eigen-frame baseline (mean frame + two leading eigen-frames as mozjpeg images + float32',
-    'coefficients refitted on the decoded images). Series are synthetic and seeded (src-main/engine/stack/synthetic.ts).',
+    'coefficients refitted on the decoded images). Series are synthetic and seeded (bench/models/synthetic.ts).',
     '',
   ];
   const intro = lines.length;
