@@ -12,14 +12,8 @@ import { cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import sharp from 'sharp';
 import type { DecodedImage } from '../src-main/contract';
-import {
-  analyseBanding,
-  eigenWorkspace,
-  medianOf,
-  omega,
-  subtractProfiles,
-  symmetricEigen,
-} from '../src-main/engine/clean';
+import { analyseBanding, medianOf, omega, subtractProfiles } from '../src-main/engine/clean';
+import { eigenWorkspace, lcg32, smallGram, smallSymmetricEigen } from '../src-main/engine/linalg';
 import { decodeImage } from '../src-main/node/image/decode';
 import { cleanDecoded } from '../src-main/node/services/clean';
 
@@ -32,11 +26,8 @@ const log = (s = '') => {
 };
 
 function rng(seed: number) {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return (s + 0.5) / 4294967296;
-  };
+  const next = lcg32(seed);
+  return () => (next() + 0.5) / 4294967296;
 }
 function gaussian(seed: number) {
   const r = rng(seed);
@@ -94,14 +85,8 @@ function globalThreshold(g: Gray, noisy: Float32Array): Float32Array {
   for (let y = 0; y < g.height; y++)
     for (let x = 0; x < g.width; x++) X[tall ? y * n + x : x * n + y] = noisy[y * g.width + x];
   const ws = eigenWorkspace(n);
-  for (let a = 0; a < n; a++)
-    for (let b = 0; b <= a; b++) {
-      let s = 0;
-      for (let i = 0; i < m; i++) s += X[i * n + a] * X[i * n + b];
-      ws.V[a * n + b] = s;
-      ws.V[b * n + a] = s;
-    }
-  symmetricEigen(ws);
+  smallGram(X, m, n, ws.V); // n ≤ m: XᵀX
+  smallSymmetricEigen(ws);
   const sv = Float64Array.from({ length: n }, (_, i) => Math.sqrt(Math.max(0, ws.d[n - 1 - i])));
   const tau = omega(n / m) * medianOf(sv);
   const keep: number[] = [];

@@ -16,16 +16,15 @@ import { encodeInt, IntModel, RangeEncoder } from '../src-main/engine/codec/rang
 import { fitStack } from '../src-main/engine/codec/stack-budget';
 import { type PreparedStack, prepareStack, type StackInput } from '../src-main/engine/codec/stack-codec';
 import { encodePlane } from '../src-main/engine/codec/stack-plane';
+import { compressDecoded } from '../src-main/node/services/compress';
 import {
   driftingSpecimen,
   formPages,
   phantomSlices,
   type SeriesOptions,
   type SyntheticSeries,
-  truncatedHosvd,
-  tuckerFrame,
-} from '../src-main/engine/stack';
-import { compressDecoded } from '../src-main/node/services/compress';
+} from './models/synthetic';
+import { truncatedHosvd, tuckerFrame } from './models/tucker';
 
 const RATES = (process.env.RANKFOLD_STACK_RATES ?? '0.1,0.25,0.5').split(',').map(Number);
 const QUICK = process.env.RANKFOLD_BENCH_QUICK === '1';
@@ -407,7 +406,7 @@ async function main() {
     'worst over the frames. Baselines measured in the same run: per-frame mozjpeg via sharp (one common',
     'quality, the highest that fits), per-frame Rankfold (the single-image codec, budget split evenly),',
     'and the eigen-frame baseline (mean frame + two leading eigen-frames as mozjpeg images + float32',
-    'coefficients refitted on the decoded images). Series are synthetic and seeded (src-main/engine/stack/synthetic.ts).',
+    'coefficients refitted on the decoded images). Series are synthetic and seeded (bench/models/synthetic.ts).',
     '',
   ];
   const intro = lines.length;

@@ -1,6 +1,7 @@
 // Local low-rank denoising (block-matched patch groups, Gavish–Donoho threshold per group) on crops of the
-// fixture images with synthetic Gaussian noise. Margins are stated per image; the references for the
-// method are in src-main/engine/clean/patch-groups.ts (Dong, Shi & Li 2013; Gu et al. 2014).
+// fixture images with synthetic Gaussian noise. Quantitative margins use only images the constants were
+// not fitted on (stated beside each); the references for the method are in
+// src-main/engine/clean/patch-groups.ts (Dong, Shi & Li 2013; Gu et al. 2014).
 import { describe, expect, it } from 'vitest';
 import {
   autoGroupParams,
@@ -10,32 +11,65 @@ import {
   estimateNoiseSigma,
   prepareClean,
 } from '../../src-main/engine/clean';
-import { damage, fixtureGray, psnr, rounded } from './helpers';
+import { decodeImage } from '../../src-main/node/image/decode';
+import { image } from '../helpers/fixtures';
+import { damage, fixtureGray, type Gray, psnr, rounded } from './helpers';
+
+/** A held-out fixture as an 8-bit gray plane: phantom.png's first channel, or the 16-bit chessboard ÷257. */
+async function heldOutGray(name: string): Promise<Gray> {
+  if (name === 'phantom.png') return fixtureGray(name);
+  const d = await decodeImage(image(name));
+  return {
+    width: d.width,
+    height: d.height,
+    data: Float32Array.from(d.planes[0], (v) => Math.round(v / 257)),
+  };
+}
 
 const crop = { x: 128, y: 128, w: 192, h: 192 };
 
 describe('patch-group denoiser', () => {
-  // Measured gains with the automatic settings (σ estimated from the image) are in bench/clean.bench.ts;
-  // the margins here are set below them so that a regression of about 1 dB fails.
-  const cases: Array<[string, typeof crop | undefined, number, number]> = [
-    ['camera.png', crop, 10, 3.0],
-    ['moon.png', crop, 10, 6.0],
-    ['text.png', undefined, 10, 4.5],
-    ['page.png', undefined, 10, 2.5],
-    ['camera.png', crop, 5, 1.5],
-    ['moon.png', crop, 20, 8.0],
+  // The automatic settings (autoGroupParams, the Lanczos stop rule, the noise estimate) were fitted on the
+  // images bench/clean.bench.ts runs: camera, moon, page and text from test/fixtures/images and every
+  // sample in samples/. A margin measured on those images would be optimistic, so they are held to the
+  // property alone: psnr(cleaned, truth) > psnr(noisy, truth).
+  const tuned: Array<[string, typeof crop | undefined, number]> = [
+    ['camera.png', crop, 10],
+    ['moon.png', crop, 10],
+    ['text.png', undefined, 10],
+    ['page.png', undefined, 10],
+    ['camera.png', crop, 5],
+    ['moon.png', crop, 20],
   ];
-  for (const [name, c, sigma, margin] of cases)
-    it(`${name}${c ? ' crop' : ''}, σ = ${sigma}: psnr(cleaned, truth) > psnr(noisy, truth) + ${margin} dB`, async () => {
-      const truth = await fixtureGray(name, c);
-      const noisy = damage(truth, { sigma, seed: 7 });
-      const prep = prepareClean(
-        { width: truth.width, height: truth.height, channels: 1, bitDepth: 8, planes: [noisy] },
-        { noise: 'auto', banding: 'off' },
-      );
-      const { planes } = denoiseInProcess(prep);
-      const gain = psnr(rounded(planes[0]), truth.data) - psnr(noisy, truth.data);
-      expect(gain).toBeGreaterThan(margin);
+  // Margins from images the constants were NOT fitted on (phantom.png, channel 0; chessboard_GRAY_U16.tif
+  // scaled to 8 bits by ÷257): gains measured with seeds 7, 8 and 9 before this test was written were
+  // phantom 7.45–7.51 (σ = 5), 7.65–7.74 (σ = 10), 7.62–7.65 (σ = 20) dB and chessboard 6.22–6.31 (σ = 5),
+  // 5.80–6.21 (σ = 10), 5.77–6.01 (σ = 20) dB. Each margin is about 1 dB below the smallest of the three,
+  // so a regression of about 1 dB on unseen images fails.
+  const heldOut: Array<[string, number, number]> = [
+    ['phantom.png', 5, 6.5],
+    ['phantom.png', 10, 6.5],
+    ['phantom.png', 20, 6.5],
+    ['chessboard_GRAY_U16.tif', 5, 5.2],
+    ['chessboard_GRAY_U16.tif', 10, 4.8],
+    ['chessboard_GRAY_U16.tif', 20, 4.8],
+  ];
+  const gainOf = (truth: Gray, sigma: number) => {
+    const noisy = damage(truth, { sigma, seed: 7 });
+    const prep = prepareClean(
+      { width: truth.width, height: truth.height, channels: 1, bitDepth: 8, planes: [noisy] },
+      { noise: 'auto', banding: 'off' },
+    );
+    const { planes } = denoiseInProcess(prep);
+    return psnr(rounded(planes[0]), truth.data) - psnr(noisy, truth.data);
+  };
+  for (const [name, c, sigma] of tuned)
+    it(`${name}${c ? ' crop' : ''}, σ = ${sigma} (a tuning image): psnr(cleaned, truth) > psnr(noisy, truth)`, async () => {
+      expect(gainOf(await fixtureGray(name, c), sigma)).toBeGreaterThan(0);
+    });
+  for (const [name, sigma, margin] of heldOut)
+    it(`${name}, σ = ${sigma} (held out): psnr(cleaned, truth) > psnr(noisy, truth) + ${margin} dB`, async () => {
+      expect(gainOf(await heldOutGray(name), sigma)).toBeGreaterThan(margin);
     });
 
   it('the band split does not change a single bit (1, 2 and 3 bands; split independence)', async () => {
@@ -100,7 +134,8 @@ describe('patch-group denoiser', () => {
       truth.height,
     ).planes[0];
     const base = psnr(noisy, truth.data);
-    expect(psnr(rounded(tiles), truth.data)).toBeGreaterThan(base + 1);
+    // moon.png is a tuning image: the property only (no measured margin).
+    expect(psnr(rounded(tiles), truth.data)).toBeGreaterThan(base);
     expect(psnr(rounded(groups), truth.data)).toBeGreaterThan(psnr(rounded(tiles), truth.data));
   });
 
@@ -162,6 +197,8 @@ describe('patch-group denoiser', () => {
       Float32Array.from(fin.planes.flatMap((p) => Array.from(p))),
       Float32Array.from(d.planes.slice(0, 3).flatMap((p) => Array.from(p))),
     );
+    // phantom.png is not among the images the constants were fitted on (see the top of this file); the
+    // gray channel alone (whole image) gains 7.65–7.74 dB at σ = 10, so 3 dB leaves room for the chroma planes.
     expect(after - before).toBeGreaterThan(3);
   });
 });
@@ -178,6 +215,16 @@ describe('gray scans stored as RGB', () => {
     expect(prep.active).toEqual([0]);
     const out = denoiseInProcess(prep).planes;
     expect(out[1]).toBe(prep.work[1]);
-    expect(psnr(rounded(out[0]), truth.data)).toBeGreaterThan(psnr(noisy, truth.data) + 6);
+    // Luma of R = G = B is the gray plane itself, so it gains what the gray path gains (no margin measured
+    // on this tuning image: the gray run is the reference).
+    const gray = denoiseInProcess(
+      prepareClean(
+        { width: truth.width, height: truth.height, channels: 1, bitDepth: 8, planes: [noisy] },
+        { noise: 'auto', banding: 'off' },
+      ),
+    ).planes[0];
+    const before = psnr(noisy, truth.data);
+    expect(psnr(rounded(out[0]), truth.data)).toBeGreaterThan(before);
+    expect(Math.abs(psnr(rounded(out[0]), truth.data) - psnr(rounded(gray), truth.data))).toBeLessThan(0.01);
   });
 });

@@ -1,14 +1,12 @@
 /** Synthetic damage for the cleaning tests: seeded Gaussian noise and stripe patterns on fixture images. */
+import { lcg32 } from '../../src-main/engine/linalg';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { image } from '../helpers/fixtures';
 
-/** Park–Miller-style LCG (Numerical Recipes "quick and dirty" constants 1664525, 1013904223), seeded. */
+/** Uniform on (0, 1) from the engine's Numerical Recipes LCG (linalg/random.ts `lcg32`), seeded. */
 export function rng(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return (s + 0.5) / 4294967296;
-  };
+  const next = lcg32(seed);
+  return () => (next() + 0.5) / 4294967296;
 }
 
 /** Box–Muller transform (Box & Muller, Ann. Math. Statist. 29(2), 1958): one N(0,1) sample per call. */

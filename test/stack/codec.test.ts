@@ -1,5 +1,6 @@
 // Stack layout: plane coder, joint encode/decode, random access, damaged files, rate control.
 import { describe, expect, it } from 'vitest';
+import { driftingSpecimen, formPages, phantomSlices, seededRandom } from '../../bench/models/synthetic';
 import { FormatError } from '../../src-main/contract';
 import { readContainer } from '../../src-main/engine/codec/container';
 import { fitStack } from '../../src-main/engine/codec/stack-budget';
@@ -19,7 +20,6 @@ import {
   forwardWaveletReference,
   inverseWavelet,
 } from '../../src-main/engine/codec/stack-plane';
-import { driftingSpecimen, formPages, phantomSlices, seededRandom } from '../../src-main/engine/stack';
 
 const asInput = (s: {
   width: number;

@@ -1,19 +1,9 @@
 // Stack-mode models: frame-mode SVD (Gram route) and truncated Tucker (HOSVD, ST-HOSVD).
 import { Matrix as MlMatrix, SVD as MlSVD } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import {
-  centredFrames,
-  driftingSpecimen,
-  eigenFrames,
-  formPages,
-  frameModeSvd,
-  lowRankSeries,
-  phantomSlices,
-  rebuildFrame,
-  sequentialHosvd,
-  truncatedHosvd,
-  tuckerFrame,
-} from '../../src-main/engine/stack';
+import { driftingSpecimen, formPages, lowRankSeries, phantomSlices } from '../../bench/models/synthetic';
+import { sequentialHosvd, truncatedHosvd, tuckerFrame } from '../../bench/models/tucker';
+import { centredFrames, eigenFrames, frameModeSvd, rebuildFrame } from '../../src-main/engine/stack';
 
 function sse(a: ArrayLike<number>, b: ArrayLike<number>): number {
   let s = 0;

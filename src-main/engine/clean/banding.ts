@@ -22,6 +22,8 @@
  * - Spectrum of the profile by a direct DFT; the peak is refined on a 1/64-bin grid of the DTFT and a final
  *   parabola (zero-padding interpolation; common practice in spectral peak estimation).
  */
+import { medianInPlace, runningMedian } from './medians';
+import { MAD_TO_SIGMA } from './noise-estimate';
 
 export type BandingAxis = 'rows' | 'columns';
 export type BandingDirection = 'none' | 'rows' | 'columns' | 'both';
@@ -63,20 +65,25 @@ export const MAX_SAMPLE_LINES = 512;
 export const DEFAULT_HALF_WINDOW = 32;
 /** Minimum RMS of a detected profile, in 8-bit grey levels: below this, removal is within rounding. */
 export const MIN_STRENGTH_8BIT = 0.3;
-/** The robust strength must exceed this many times the noise floor (3 keeps all clean test images and samples untouched). */
+/**
+ * The robust strength must exceed this many times the noise floor. Fitted on: the clean images of
+ * test/fixtures/images and samples/ (3 leaves every one untouched) and the striped cases of
+ * test/clean/banding.test.ts (moon, camera and text with synthetic stripes; page for text lines).
+ */
 export const SIGNIFICANCE = 3;
-/** Minimum correlation between the two halves' profiles. */
+/** Minimum correlation between the two halves' profiles. Fitted on: as SIGNIFICANCE. */
 export const MIN_CONSISTENCY = 0.5;
-/** Largest spread ratio of a detected profile: above it, the "stripes" follow content (text lines, edges). */
+/**
+ * Largest spread ratio of a detected profile: above it, the "stripes" follow content (text lines, edges).
+ * Fitted on: as SIGNIFICANCE (the text-heavy page.png and text.png set the ceiling).
+ */
 export const MAX_SPREAD_RATIO = 1.8;
-/** In automatic mode, profile values beyond this many robust strengths are content, not banding. */
+/** In automatic mode, profile values beyond this many robust strengths are content, not banding. Fitted on: as SIGNIFICANCE. */
 export const SPIKE_FACTOR = 5;
 /** A period is reported when the spectral peak (±1 bin) holds at least this share of the energy. */
 export const MIN_PERIOD_SHARE = 0.3;
 /** √(π/2): standard error of a median relative to the mean's, for Gaussian data. */
 const MEDIAN_SE_FACTOR = 1.2533141373155003;
-/** Φ⁻¹(3/4), for MAD → σ. */
-const MAD_TO_SIGMA = 0.6744897501960817;
 
 /** Estimate the stripe profile of one axis and run the detection test. */
 export function estimateStripeProfile(
@@ -304,81 +311,6 @@ export function dominantPeriod(profile: ArrayLike<number>): { period: number | n
   const denom = pl - 2 * pBest + ph;
   const delta = denom !== 0 ? Math.max(-1, Math.min(1, (0.5 * (pl - ph)) / denom)) : 0;
   return { period: L / (fBest + delta * step), share };
-}
-
-/** Running median with a window [x−w, x+w] clipped to the line, via a sorted sliding window. */
-export function runningMedian(line: Float64Array, w: number, out: Float64Array): void {
-  const L = line.length;
-  const win = new Float64Array(2 * w + 1);
-  let n = 0;
-  const insert = (v: number) => {
-    let lo = 0;
-    let hi = n;
-    while (lo < hi) {
-      const mid = (lo + hi) >> 1;
-      if (win[mid] < v) lo = mid + 1;
-      else hi = mid;
-    }
-    win.copyWithin(lo + 1, lo, n);
-    win[lo] = v;
-    n++;
-  };
-  const remove = (v: number) => {
-    let lo = 0;
-    let hi = n;
-    while (lo < hi) {
-      const mid = (lo + hi) >> 1;
-      if (win[mid] < v) lo = mid + 1;
-      else hi = mid;
-    }
-    win.copyWithin(lo, lo + 1, n);
-    n--;
-  };
-  for (let x = 0; x <= Math.min(w, L - 1); x++) insert(line[x]);
-  for (let x = 0; x < L; x++) {
-    out[x] = n % 2 ? win[(n - 1) >> 1] : (win[n / 2 - 1] + win[n / 2]) / 2;
-    const add = x + w + 1;
-    const drop = x - w;
-    if (drop >= 0) remove(line[drop]);
-    if (add < L) insert(line[add]);
-  }
-}
-
-/** Median of a[0..n) by quickselect (Hoare's FIND, CACM 4(7), 1961); reorders a. */
-export function medianInPlace(a: Float64Array, n: number): number {
-  if (n === 0) return 0;
-  const k = n >> 1;
-  const hi = select(a, 0, n - 1, k);
-  if (n % 2) return hi;
-  // Lower middle: the largest value left of k after selection.
-  let lo = a[0];
-  for (let i = 1; i < k; i++) if (a[i] > lo) lo = a[i];
-  return (lo + hi) / 2;
-}
-
-function select(a: Float64Array, left0: number, right0: number, k: number): number {
-  let left = left0;
-  let right = right0;
-  while (right > left) {
-    const pivot = a[(left + right) >> 1];
-    let i = left;
-    let j = right;
-    while (i <= j) {
-      while (a[i] < pivot) i++;
-      while (a[j] > pivot) j--;
-      if (i <= j) {
-        const t = a[i];
-        a[i] = a[j];
-        a[j] = t;
-        i++;
-        j--;
-      }
-    }
-    if (k <= j) right = j;
-    else if (k >= i) left = i;
-    else return a[k];
-  }
-  return a[k];
 }
 
 function removeMean(a: Float64Array) {

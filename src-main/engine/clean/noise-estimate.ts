@@ -78,7 +78,11 @@ export function estimateNoiseSigma(
   return (integral ? groupedMedian(v) : exactMedian(v)) / 2 / MAD_TO_SIGMA;
 }
 
-/** Fraction of least-textured blocks whose diagonal detail is used (chosen on the test images; see tests). */
+/**
+ * Fraction of least-textured blocks whose diagonal detail is used. Fitted on: camera, moon, text and page
+ * from test/fixtures/images with Gaussian noise σ = 5, 10, 20 (the cases of test/clean/noise-estimate.test.ts,
+ * first clean commit 87d461e).
+ */
 export const NOISE_KEEP_FRACTION = 0.5;
 
 function exactMedian(v: Float64Array): number {

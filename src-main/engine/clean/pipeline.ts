@@ -4,9 +4,10 @@
  * (back to RGB, rounding, removed part, report figures). Pure: no Node, no I/O.
  */
 import type { BandingMode, BandingReport, DenoiseMethod, NoiseMode, NoisePlaneReport } from '../../contract';
+import { NOISE_GAIN_YCBCR, rgbToYcbcrBt601, ycbcrBt601ToRgb } from '../colour';
 import { psnrPlanes } from '../metrics';
 import { analyseBanding, type BandingAnalysis, subtractProfiles } from './banding';
-import { NOISE_GAIN_YCBCR, rgbToYcbcr, ycbcrToRgb } from './colour';
+import { bandingReport } from './banding-report';
 import { lambdaStar } from './gavish-donoho';
 import { estimateNoiseSigma } from './noise-estimate';
 import {
@@ -128,7 +129,7 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
       tile: null,
     };
   const work = colour
-    ? rgbToYcbcr(corrected[0], corrected[1], corrected[2], (maxValue + 1) / 2)
+    ? rgbToYcbcrBt601(corrected[0], corrected[1], corrected[2], (maxValue + 1) / 2)
     : [corrected[0]];
   const workNames = colour ? ['Y', 'Cb', 'Cr'] : ['gray'];
   let sigmas: number[];
@@ -189,52 +190,8 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
   return { ...base, work, workNames, sigmas, active, noiseSigma, noiseSource, method, params, tile: null };
 }
 
-function bandingReport(
-  mode: BandingMode,
-  analyses: BandingAnalysis[],
-  rowProfiles: Float64Array[] | null,
-  columnProfiles: Float64Array[] | null,
-): BandingReport {
-  if (mode === 'off' || analyses.length === 0)
-    return { mode, direction: 'none', strength: 0, period: null, rows: null, columns: null };
-  const axis = (key: 'rows' | 'columns', removed: boolean) => {
-    const best = analyses.reduce((a, b) => (b[key].strength > a[key].strength ? b : a))[key];
-    return {
-      detected: analyses.some((a) => a[key].detected),
-      removed,
-      strength: best.strength,
-      period: best.period,
-      noiseFloor: best.noiseFloor,
-      consistency: best.consistency,
-    };
-  };
-  const rows = axis('rows', rowProfiles !== null);
-  const columns = axis('columns', columnProfiles !== null);
-  const direction =
-    rows.removed && columns.removed ? 'both' : rows.removed ? 'rows' : columns.removed ? 'columns' : 'none';
-  const strength = Math.sqrt(
-    (rows.removed ? rows.strength ** 2 : 0) + (columns.removed ? columns.strength ** 2 : 0),
-  );
-  const period =
-    rows.removed && columns.removed
-      ? rows.strength >= columns.strength
-        ? rows.period
-        : columns.period
-      : rows.removed
-        ? rows.period
-        : columns.removed
-          ? columns.period
-          : null;
-  return { mode, direction, strength, period, rows, columns };
-}
-
-export interface DenoiseStats {
-  groups: number;
-  rankSum: number;
-  rankMin: number;
-  rankMax: number;
-  exact: number;
-}
+/** Statistics of a whole denoise: the band statistics (patch-groups.ts `GroupStats`) summed over bands. */
+export type DenoiseStats = GroupStats;
 
 /** Merge band statistics. Groups near a band edge are counted by both bands; the summary is indicative. */
 export function mergeStats(parts: GroupStats[]): DenoiseStats {
@@ -338,7 +295,7 @@ export function finishClean(
   let colourPlanes = prep.corrected;
   if (denoised?.length)
     colourPlanes = prep.colour
-      ? ycbcrToRgb(denoised[0], denoised[1], denoised[2], (maxValue + 1) / 2)
+      ? ycbcrBt601ToRgb(denoised[0], denoised[1], denoised[2], (maxValue + 1) / 2)
       : [denoised[0]];
   const planes: Float32Array[] = [];
   const removed: Float32Array[] = [];

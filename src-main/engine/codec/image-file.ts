@@ -8,6 +8,7 @@
 import { FormatError } from '../../contract/errors';
 import { chromaOffset, roundInto, ycbcrToRgbSamples } from '../lowrank/colour';
 import { decodeLosslessPlane } from './alpha';
+import { asciiJson, parseAsciiJson } from './ascii-json';
 import {
   type Chunk,
   type ContainerView,
@@ -79,28 +80,6 @@ export interface ImageFileParts {
   residuals?: Array<Uint8Array | undefined>;
   alpha?: Uint8Array;
   icc?: Uint8Array;
-}
-
-/** The header is ASCII JSON: any non-ASCII character is written as a \uXXXX escape (ECMA-404 §9). */
-function asciiJson(value: unknown): Uint8Array {
-  const text = JSON.stringify(value).replace(
-    /[\u007f-\uffff]/g,
-    (ch) => `\\u${ch.charCodeAt(0).toString(16).padStart(4, '0')}`,
-  );
-  const out = new Uint8Array(text.length);
-  for (let i = 0; i < text.length; i++) out[i] = text.charCodeAt(i);
-  return out;
-}
-
-function parseAsciiJson(bytes: Uint8Array): unknown {
-  let text = '';
-  for (let i = 0; i < bytes.length; i += 8192) {
-    const part = bytes.subarray(i, i + 8192);
-    for (let k = 0; k < part.length; k++)
-      if (part[k] > 0x7e || (part[k] < 0x20 && part[k] !== 0x0a)) throw new SyntaxError('non-ASCII header');
-    text += String.fromCharCode(...part);
-  }
-  return JSON.parse(text);
 }
 
 export function quantiserInfo(): RkfHeader['quantiser'] {

@@ -26,9 +26,11 @@
  * the decoded frame against its source, NaN = not recorded). Planes are coded by stack-plane.ts.
  */
 import { FormatError } from '../../contract/errors';
-import { chromaOffset, rgbToYcbcr, toSamples, ycbcrToRgb } from '../lowrank/colour';
-import { ssim } from '../metrics';
+import { solveSpdRidge } from '../linalg';
+import { rgbToYcbcr, toSamples, ycbcrToRgb } from '../lowrank/colour';
+import { psnrFromMse, ssim } from '../metrics';
 import { eigenFrameOf, type FrameModeSvd, frameModeSvd, rebuildFrame } from '../stack/frame-svd';
+import { asciiJson } from './ascii-json';
 import { type Chunk, isCritical, readContainer, refuseUnknownCritical, writeContainer } from './container';
 import { decodePlane, encodePlane } from './stack-plane';
 
@@ -150,16 +152,12 @@ const qualityBytes = (N: number) => 8 * N;
 
 const chunkId = (c: number, i: number) => c * 65536 + i;
 
-/** JSON as ASCII bytes: non-ASCII characters are written as \uXXXX escapes, which is valid UTF-8 JSON (RFC 8259 §7). */
-function jsonBytes(value: unknown): Uint8Array {
-  const text = JSON.stringify(value).replace(
-    /[\u007f-\uffff]/g,
-    (ch) => `\\u${ch.charCodeAt(0).toString(16).padStart(4, '0')}`,
-  );
-  return Uint8Array.from(text, (ch) => ch.charCodeAt(0));
-}
-
-/** Decode UTF-8 (RFC 3629); malformed sequences become U+FFFD. */
+/**
+ * Decode UTF-8 (RFC 3629); malformed sequences become U+FFFD. Not contract/utf8.ts `utf8Decode`: that one
+ * reads malformed input differently (a lone 0x80 decodes as U+0000, F7 BF BF BF throws a RangeError), so a
+ * damaged stack header would fail differently; the two can merge once the contract's decoder maps
+ * malformed bytes to U+FFFD the same way.
+ */
 function utf8Text(b: Uint8Array): string {
   let out = '';
   for (let i = 0; i < b.length; ) {
@@ -212,38 +210,6 @@ export function prepareStack(input: StackInput, maxRank = MAX_STACK_RANK): Prepa
     };
   });
   return { input, coded, svd, eigen };
-}
-
-/** Solve the SPD system A x = b (m×m) by Cholesky with a tiny ridge for rank-deficient bases. */
-function solveSpd(A: Float64Array, b: Float64Array, m: number): Float64Array {
-  const L = Float64Array.from(A);
-  let tr = 0;
-  for (let i = 0; i < m; i++) tr += A[i * m + i];
-  const ridge = 1e-13 * (tr / Math.max(1, m)) + 1e-300;
-  for (let j = 0; j < m; j++) {
-    let d = L[j * m + j] + ridge;
-    for (let k = 0; k < j; k++) d -= L[j * m + k] ** 2;
-    d = Math.sqrt(Math.max(d, ridge));
-    L[j * m + j] = d;
-    for (let i = j + 1; i < m; i++) {
-      let s = L[i * m + j];
-      for (let k = 0; k < j; k++) s -= L[i * m + k] * L[j * m + k];
-      L[i * m + j] = s / d;
-    }
-  }
-  const y = new Float64Array(m);
-  for (let i = 0; i < m; i++) {
-    let s = b[i];
-    for (let k = 0; k < i; k++) s -= L[i * m + k] * y[k];
-    y[i] = s / L[i * m + i];
-  }
-  const x = new Float64Array(m);
-  for (let i = m - 1; i >= 0; i--) {
-    let s = y[i];
-    for (let k = i + 1; k < m; k++) s -= L[k * m + i] * x[k];
-    x[i] = s / L[i * m + i];
-  }
-  return x;
 }
 
 function sse(a: ArrayLike<number>, b: ArrayLike<number>): number {
@@ -339,7 +305,7 @@ export function encodeStack(prep: PreparedStack, params: StackParams): EncodedSt
         for (let p = 0; p < n; p++) s += P[p] * (F[p] - mean.decoded[p]);
         rhs[i + 1] = s;
       }
-      coef.set(solveSpd(G, rhs, m), j * m);
+      coef.set(solveSpdRidge(G, rhs, m), j * m);
     }
     const cof = f32be(coef);
     body.push({ type: 'SCOF', id: c, payload: cof });
@@ -395,7 +361,7 @@ export function encodeStack(prep: PreparedStack, params: StackParams): EncodedSt
     frameNames: frameTable.map((f) => f.name ?? null),
     residualMask: ranks.map((_, c) => frameTable.map((f) => (f.residual[c] ? '1' : '0')).join('')),
   };
-  const head = jsonBytes(serial);
+  const head = asciiJson(serial);
   const hashes = new Uint8Array(32 * N);
   frameTable.forEach((f, j) => {
     if (f.sourceSha256 && /^[0-9a-f]{64}$/i.test(f.sourceSha256))
@@ -647,8 +613,7 @@ export function framePsnr(input: StackInput, decoded: Float32Array[][]): number[
   return input.frames.map((f, j) => {
     let s = 0;
     for (let c = 0; c < f.planes.length; c++) s += sse(f.planes[c], decoded[j][c]);
-    const mse = s / (f.planes.length * input.width * input.height);
-    return mse === 0 ? Number.POSITIVE_INFINITY : 10 * Math.log10((max * max) / mse);
+    return psnrFromMse(s / (f.planes.length * input.width * input.height), max);
   });
 }
 
@@ -663,6 +628,3 @@ export function frameSsim(input: StackInput, decoded: Float32Array[][]): number[
     return s / f.planes.length;
   });
 }
-
-/** Chroma offset used for colour stacks (exposed for docs and tests). */
-export const stackChromaOffset = chromaOffset;

@@ -5,12 +5,12 @@
  * - K. Goto, R. A. van de Geijn, "Anatomy of high-performance matrix multiplication", ACM Trans. Math.
  *   Softw. 34(3), article 12, 2008. doi:10.1145/1356052.1356053. §4: block K so a panel stays in cache.
  */
-import type { Gemm } from './workspace';
+import type { Gemm } from './backend';
 
 /** Depth of one K block (rows of B kept hot while a row of C is accumulated). */
 const KC = 256;
 
-/** C[m×n] (+)= A(m×k)·B[k×n]; see `Gemm` in workspace.ts for the addressing. */
+/** C[m×n] (+)= A(m×k)·B[k×n]; see `Gemm` in backend.ts for the addressing. */
 export const gemmTs: Gemm = (m, n, k, a, aOff, rsA, csA, b, bOff, ldb, c, cOff, ldc, accumulate) => {
   if (!accumulate) for (let i = 0; i < m; i++) c.fill(0, cOff + i * ldc, cOff + i * ldc + n);
   for (let p0 = 0; p0 < k; p0 += KC) {

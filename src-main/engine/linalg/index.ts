@@ -7,11 +7,20 @@ export {
   DEFAULT_PROBES,
   HMT_ESTIMATE_FACTOR,
 } from './adaptive-svd';
+export { choleskyUpper, solveSpdRidge } from './cholesky';
+export { householderQr } from './householder-qr';
 export { jacobiSingularValues, jacobiSvd } from './jacobi-svd';
+export {
+  type LanczosArrays,
+  lanczosBidiagonalize,
+  lanczosGram,
+  lanczosStartVector,
+  ritzAbove,
+} from './lanczos';
 export * from './matrix';
 export { matmul, matmulTransA, matmulTransB } from './products';
-export { householderQr, Orthonormalizer, orthonormalize } from './qr';
-export { DEFAULT_SEED, Rng } from './random';
+export { Orthonormalizer, orthonormalize } from './qr';
+export { DEFAULT_SEED, lcg32, Rng } from './random';
 export {
   DEFAULT_OVERSAMPLE,
   DEFAULT_POWER_ITERS,
@@ -20,6 +29,13 @@ export {
   randomizedSvd,
 } from './randomized-svd';
 export { fullSvd, JACOBI_LIMIT, singularValues } from './singular-values';
+export {
+  type EigenWorkspace,
+  eigenWorkspace,
+  smallGram,
+  smallSymmetricEigen,
+  smallTridiagonalEigen,
+} from './small-symmetric-eigen';
 export { symmetricEigenvalues, tridiagonalEigenvalues } from './symmetric-eigen';
 export { initEngine, setWasmDisabled, wasmActive } from './wasm/runtime';
 export {

@@ -13,8 +13,8 @@
  *   inputs, m > 2n) shortens the columns Jacobi rotates.
  */
 
+import { householderQr } from './householder-qr';
 import { type Matrix, type SvdResult, transpose } from './matrix';
-import { householderQr } from './qr';
 import { Rng } from './random';
 import { bytesFor, defaultBackend, type Workspace } from './workspace';
 

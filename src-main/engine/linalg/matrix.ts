@@ -37,12 +37,6 @@ export function fromRows(rows: ArrayLike<ArrayLike<number>>, precision: Precisio
   return out;
 }
 
-export function toRows(a: Matrix): number[][] {
-  const out: number[][] = [];
-  for (let i = 0; i < a.rows; i++) out.push(Array.from(a.data.subarray(i * a.cols, (i + 1) * a.cols)));
-  return out;
-}
-
 export function transpose(a: Matrix): Matrix {
   const out = {
     rows: a.cols,
@@ -58,13 +52,6 @@ export function transpose(a: Matrix): Matrix {
       for (let i = i0; i < i1; i++) for (let j = j0; j < j1; j++) out.data[j * m + i] = data[i * n + j];
     }
   return out;
-}
-
-export function frobeniusNorm(a: Matrix): number {
-  let s = 0;
-  const d = a.data;
-  for (let i = 0; i < a.rows * a.cols; i++) s += d[i] * d[i];
-  return Math.sqrt(s);
 }
 
 /** Truncated SVD A ≈ U·diag(s)·Vᵀ. U is m×k, V is n×k (columns are singular vectors), s is non-increasing. */

@@ -1,7 +1,7 @@
 /**
  * Thin QR factorisations of tall m×l blocks: CholeskyQR2 (with a shifted first pass and extra passes
- * when needed) on the fast product kernel, and Householder QR as the fallback for rank-deficient or
- * very ill-conditioned blocks.
+ * when needed) on the fast product kernel, with Householder QR (householder-qr.ts) as the fallback for
+ * rank-deficient or very ill-conditioned blocks.
  *
  * References
  * - T. Fukaya, Y. Nakatsukasa, Y. Yanagisawa, Y. Yamamoto, "CholeskyQR2: a simple and
@@ -10,9 +10,10 @@
  * - T. Fukaya, R. Kannan, Y. Nakatsukasa, Y. Yamamoto, Y. Yanagisawa, "Shifted Cholesky QR for
  *   computing the QR factorization of ill-conditioned matrices", SIAM J. Sci. Comput. 42(1):A477–A503,
  *   2020. doi:10.1137/18M1218212. §3, shift s = 11(ml + l(l+1))·u·‖X‖₂² (we use ‖X‖_F² ≥ ‖X‖₂²).
- * - G. H. Golub, C. F. Van Loan, "Matrix Computations", 4th ed., Johns Hopkins 2013, §5.2.2
- *   (Householder QR, Algorithm 5.2.1) — section number from memory.
+ * The Cholesky factor is cholesky.ts `choleskyUpper`; the Householder fallback is householder-qr.ts.
  */
+import { choleskyUpper } from './cholesky';
+import { householderInPlace } from './householder-qr';
 import type { FloatArray } from './matrix';
 import type { Workspace } from './workspace';
 
@@ -23,11 +24,6 @@ const U32 = 2 ** -24;
 const ACCEPT_DEVIATION = 0.5;
 /** Cholesky passes before giving up and calling Householder (CholeskyQR2 needs 2, shifted CholeskyQR3 needs 3). */
 const MAX_PASSES = 4;
-
-/** Scratch sizes (elements) an `Orthonormalizer` needs for blocks up to m×l: [precision of Y, f64]. */
-export function qrScratch(m: number, l: number, f32: boolean): [number, number] {
-  return f32 ? [m * l + l * l, m * l + 4 * l * l] : [m * l + l * l, 4 * l * l];
-}
 
 /** Scratch buffers for repeated QR of blocks up to maxM×maxL, allocated once from a workspace. */
 export class Orthonormalizer {
@@ -156,7 +152,7 @@ function orthonormalizeWith(
     if (!Number.isFinite(frob)) throw new RangeError('orthonormalize: block contains NaN or infinity');
     let shift = 0;
     if (pass === 0 && shifted) shift = 11 * (m * l + l * (l + 1)) * uG * frob;
-    if (!cholesky(G, l, shift, Rc, uG, ws)) {
+    if (!choleskyUpper(G, l, shift, Rc, uG, ws)) {
       if (pass === 0 && !shifted) {
         shifted = true;
         pass = -1;
@@ -191,49 +187,6 @@ function orthonormalizeWith(
   return 'householder';
 }
 
-/**
- * Upper Cholesky factor of (G + shift·I) into Rc; false on breakdown. A pivot below
- * `BREAKDOWN·u·max diag` counts as breakdown: it means κ(Y)² exceeds what precision u can represent.
- */
-function cholesky(
-  G: Float64Array,
-  l: number,
-  shift: number,
-  Rc: Float64Array,
-  u: number,
-  ws?: Workspace,
-): boolean {
-  let maxDiag = 0;
-  for (let i = 0; i < l; i++) maxDiag = Math.max(maxDiag, G[i * l + i] + shift);
-  if (!(maxDiag > 0)) return false;
-  const floor = l * u * maxDiag;
-  // Lower factor L (G + shift·I = L·Lᵀ) computed row by row so every inner product runs over
-  // contiguous memory; Rc = Lᵀ at the end. Rc is used as L's storage first.
-  const L = Rc;
-  const fast = ws?.choleskyLower?.(G, l, shift, floor, L) ?? -1;
-  if (fast === 0) return false;
-  if (fast < 0) L.fill(0);
-  for (let i = 0; i < l && fast < 0; i++) {
-    const ri = i * l;
-    for (let j = 0; j <= i; j++) {
-      const rj = j * l;
-      let sum = 0.5 * (G[ri + j] + G[rj + i]) + (i === j ? shift : 0);
-      for (let p = 0; p < j; p++) sum -= L[ri + p] * L[rj + p];
-      if (i === j) {
-        if (!(sum > floor)) return false;
-        L[ri + i] = Math.sqrt(sum);
-      } else L[ri + j] = sum / L[rj + j];
-    }
-  }
-  // In-place transpose: Rc = Lᵀ (upper).
-  for (let i = 0; i < l; i++)
-    for (let j = 0; j < i; j++) {
-      Rc[j * l + i] = L[i * l + j];
-      Rc[i * l + j] = 0;
-    }
-  return true;
-}
-
 /** Inverse of an upper-triangular l×l matrix, bottom row first: X[i,:] = (e_i − Σ_{p>i} R[i,p]·X[p,:]) / R[i,i]. */
 function invertUpper(Rc: Float64Array, l: number, out: Float64Array): void {
   out.fill(0);
@@ -249,89 +202,4 @@ function invertUpper(Rc: Float64Array, l: number, out: Float64Array): void {
     const inv = 1 / Rc[ri + i];
     for (let j = i; j < l; j++) out[ri + j] *= inv;
   }
-}
-
-/**
- * Householder QR in f64: Y (m×l, m ≥ l) ← Q (thin, orthonormal columns); if R is given, R ← R_h·R.
- * Zero columns give unit vectors of the completion, so Q is orthonormal even for Y = 0.
- */
-export function householderInPlace(Y: FloatArray, m: number, l: number, R?: Float64Array): void {
-  const W = new Float64Array(m * l);
-  for (let i = 0; i < m * l; i++) W[i] = Y[i];
-  const Rh = householderQr(W, m, l);
-  for (let i = 0; i < m * l; i++) Y[i] = W[i];
-  if (R) {
-    const out = new Float64Array(l * l);
-    for (let i = 0; i < l; i++)
-      for (let j = i; j < l; j++) {
-        let s = 0;
-        for (let p = i; p <= j; p++) s += Rh[i * l + p] * R[p * l + j];
-        out[i * l + j] = s;
-      }
-    R.set(out);
-  }
-}
-
-/**
- * Householder QR of the m×l row-major f64 matrix W (m ≥ l), overwritten by the thin Q; returns R (l×l).
- * Sign convention: diag(R) ≥ 0.
- */
-export function householderQr(W: Float64Array, m: number, l: number): Float64Array {
-  if (m < l) throw new RangeError(`householderQr needs rows ≥ columns, got ${m}×${l}`);
-  // Work on columns (transposed copy) so each reflector touches contiguous memory.
-  const C = new Float64Array(l * m);
-  for (let i = 0; i < m; i++) for (let j = 0; j < l; j++) C[j * m + i] = W[i * l + j];
-  const V = new Float64Array(l * m);
-  const beta = new Float64Array(l);
-  const R = new Float64Array(l * l);
-  for (let j = 0; j < l; j++) {
-    const cj = j * m;
-    let norm = 0;
-    for (let i = j; i < m; i++) norm += C[cj + i] * C[cj + i];
-    norm = Math.sqrt(norm);
-    const vj = j * m;
-    if (norm === 0) {
-      beta[j] = 0;
-    } else {
-      const x0 = C[cj + j];
-      const alpha = x0 >= 0 ? -norm : norm;
-      for (let i = j; i < m; i++) V[vj + i] = C[cj + i];
-      V[vj + j] = x0 - alpha;
-      let vv = 0;
-      for (let i = j; i < m; i++) vv += V[vj + i] * V[vj + i];
-      beta[j] = vv > 0 ? 2 / vv : 0;
-      // Apply to the remaining columns.
-      for (let c = j; c < l; c++) {
-        const cc = c * m;
-        let d = 0;
-        for (let i = j; i < m; i++) d += V[vj + i] * C[cc + i];
-        d *= beta[j];
-        if (d !== 0) for (let i = j; i < m; i++) C[cc + i] -= d * V[vj + i];
-      }
-    }
-    for (let i = 0; i <= j; i++) R[i * l + j] = C[cj + i];
-  }
-  // Form thin Q = H_0 … H_{l-1} [I; 0] column by column (stored in C).
-  C.fill(0);
-  for (let c = 0; c < l; c++) {
-    const cc = c * m;
-    C[cc + c] = 1;
-    for (let j = Math.min(c, l - 1); j >= 0; j--) {
-      if (beta[j] === 0) continue;
-      const vj = j * m;
-      let d = 0;
-      for (let i = j; i < m; i++) d += V[vj + i] * C[cc + i];
-      d *= beta[j];
-      if (d !== 0) for (let i = j; i < m; i++) C[cc + i] -= d * V[vj + i];
-    }
-  }
-  // Make diag(R) ≥ 0.
-  for (let j = 0; j < l; j++) {
-    if (R[j * l + j] < 0) {
-      for (let c = j; c < l; c++) R[j * l + c] = -R[j * l + c];
-      for (let i = 0; i < m; i++) C[j * m + i] = -C[j * m + i];
-    }
-  }
-  for (let i = 0; i < m; i++) for (let j = 0; j < l; j++) W[i * l + j] = C[j * m + i];
-  return R;
 }

@@ -1,5 +1,10 @@
 /**
- * Seeded Gaussian test matrices, identical on every platform for a given seed.
+ * The engine's seeded pseudo-random numbers, identical on every platform for a given seed:
+ * - `Rng`, xoshiro128** seeded by SplitMix32 with Box–Muller normals: the Gaussian test matrices of the
+ *   randomized and block-Krylov SVDs (and the test helpers);
+ * - `lcg32`, the Numerical Recipes 32-bit linear congruential generator: the fixed Lanczos start vector of
+ *   the patch-group denoiser (lanczos.ts) and the cleaning tests' noise. Kept beside `Rng` rather than
+ *   replaced by it because `rankfold clean`'s output bytes are fixed by its sequence.
  *
  * References
  * - D. Blackman, S. Vigna, "Scrambled linear pseudorandom number generators", ACM Trans. Math. Softw.
@@ -8,6 +13,8 @@
  *   doi:10.1145/2660193.2660195 (from memory). SplitMix, used here (32-bit variant) only to spread the seed.
  * - G. E. P. Box, M. E. Muller, "A note on the generation of random normal deviates", Ann. Math. Statist.
  *   29(2):610–611, 1958. doi:10.1214/aoms/1177706645.
+ * - W. H. Press, S. A. Teukolsky, W. T. Vetterling, B. P. Flannery, "Numerical Recipes in C", 2nd ed.,
+ *   Cambridge 1992, §7.1 "An even quicker generator": I_{j+1} = 1664525·I_j + 1013904223 mod 2³² (from memory).
  */
 import type { FloatArray } from './matrix';
 
@@ -72,4 +79,17 @@ export class Rng {
 
 function rotl(x: number, k: number): number {
   return (x << k) | (x >>> (32 - k));
+}
+
+/**
+ * The Numerical Recipes LCG I ← (1664525·I + 1013904223) mod 2³², from I = seed mod 2³². Each call
+ * returns the next state, a 32-bit unsigned integer; callers scale it (÷2³²) as they need.
+ * @example const next = lcg32(1); next() // 1015568748
+ */
+export function lcg32(seed: number): () => number {
+  let s = seed >>> 0;
+  return () => {
+    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
+    return s;
+  };
 }

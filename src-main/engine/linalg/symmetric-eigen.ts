@@ -30,138 +30,19 @@ export function symmetricEigenvalues(S: Float64Array, n: number): Float64Array {
   return tridiagonalEigenvalues(d, e);
 }
 
-/** Householder reduction of the lower-stored symmetric S to tridiagonal (d diagonal, e sub-diagonal). */
-export function tridiagonalize(S: Float64Array, n: number, d: Float64Array, e: Float64Array): void {
-  const v = new Float64Array(n);
-  const p = new Float64Array(n);
-  for (let k = 0; k < n - 2; k++) {
-    d[k] = S[k * n + k];
-    const k1 = k + 1;
-    let scale = 0;
-    for (let j = k1; j < n; j++) scale = Math.max(scale, Math.abs(S[j * n + k]));
-    if (scale === 0) {
-      e[k] = 0;
-      continue;
-    }
-    let norm2 = 0;
-    for (let j = k1; j < n; j++) {
-      const x = S[j * n + k] / scale;
-      v[j] = x;
-      norm2 += x * x;
-    }
-    const norm = Math.sqrt(norm2);
-    const alpha = v[k1] >= 0 ? -norm : norm;
-    e[k] = alpha * scale;
-    v[k1] -= alpha;
-    let vv = 0;
-    for (let j = k1; j < n; j++) vv += v[j] * v[j];
-    if (vv === 0) continue;
-    const beta = 2 / vv;
-    // p = β·S₂₂·v, S₂₂ lower-stored: row j contributes to p[j] (dot) and p[k1..j-1] (axpy).
-    p.fill(0, k1, n);
-    for (let j = k1; j < n; j++) {
-      const row = j * n;
-      const vj = v[j];
-      let dot = 0;
-      for (let i = k1; i < j; i++) {
-        const a = S[row + i];
-        dot += a * v[i];
-        p[i] += a * vj;
-      }
-      p[j] += dot + S[row + j] * vj;
-    }
-    let pv = 0;
-    for (let j = k1; j < n; j++) {
-      p[j] *= beta;
-      pv += p[j] * v[j];
-    }
-    const h = 0.5 * beta * pv;
-    for (let j = k1; j < n; j++) p[j] -= h * v[j]; // p is now w
-    for (let j = k1; j < n; j++) {
-      const row = j * n;
-      const vj = v[j];
-      const wj = p[j];
-      for (let i = k1; i <= j; i++) S[row + i] -= vj * p[i] + wj * v[i];
-    }
-  }
-  if (n >= 2) {
-    d[n - 2] = S[(n - 2) * n + n - 2];
-    e[n - 2] = S[(n - 1) * n + n - 2];
-  }
-  if (n >= 1) d[n - 1] = S[(n - 1) * n + n - 1];
-}
-
-/** Eigenvalues of the symmetric tridiagonal matrix (d, e) by implicit QL (tql1). d and e are copied. */
-export function tridiagonalEigenvalues(dIn: Float64Array, eIn: Float64Array): Float64Array {
-  const n = dIn.length;
-  const d = Float64Array.from(dIn);
-  const E = new Float64Array(n);
-  E.set(eIn.subarray(0, Math.max(0, n - 1)));
-  // Deflate when |e| ≤ ε·(|d_m|+|d_{m+1}|) (relative, tql1) or |e| ≤ ε·‖T‖ (absolute): the latter changes
-  // eigenvalues by ≤ ε‖T‖ (Weyl) and is needed when d ≈ 0 (rank-deficient Gram matrices).
-  let normT = 0;
-  for (let i = 0; i < n; i++)
-    normT = Math.max(normT, Math.abs(d[i]) + Math.abs(E[i]) + (i > 0 ? Math.abs(E[i - 1]) : 0));
-  const absTol = EPS * normT;
-  for (let l = 0; l < n; l++) {
-    let iter = 0;
-    let m: number;
-    do {
-      for (m = l; m < n - 1; m++) {
-        const dd = Math.abs(d[m]) + Math.abs(d[m + 1]);
-        if (Math.abs(E[m]) <= EPS * dd || Math.abs(E[m]) <= absTol) break;
-      }
-      if (m !== l) {
-        if (iter++ === MAX_QL_ITERS) throw new Error('tridiagonalEigenvalues: QL iteration did not converge');
-        let g = (d[l + 1] - d[l]) / (2 * E[l]);
-        let r = Math.hypot(g, 1);
-        g = d[m] - d[l] + E[l] / (g + (g >= 0 ? Math.abs(r) : -Math.abs(r)));
-        let s = 1;
-        let c = 1;
-        let p = 0;
-        let i: number;
-        let early = false;
-        for (i = m - 1; i >= l; i--) {
-          const f = s * E[i];
-          const b = c * E[i];
-          r = Math.hypot(f, g);
-          E[i + 1] = r;
-          if (r === 0) {
-            d[i + 1] -= p;
-            E[m] = 0;
-            early = true;
-            break;
-          }
-          s = f / r;
-          c = g / r;
-          g = d[i + 1] - p;
-          r = (d[i] - g) * s + 2 * c * b;
-          p = s * r;
-          d[i + 1] = g + p;
-          g = c * r - b;
-        }
-        if (early) continue;
-        d[l] -= p;
-        E[l] = g;
-        E[m] = 0;
-      }
-    } while (m !== l);
-  }
-  return d;
-}
-
 /**
- * Householder tridiagonalisation that also forms Q explicitly: S = Q·T·Qᵀ with T = (d, e).
- * S (lower triangle used, overwritten) is n×n row-major; Q (n×n row-major) receives Q. The
- * reflectors are those of `tridiagonalize` (Golub & Van Loan §8.3.1), accumulated backwards
- * (Q = H₀(H₁(…H_{n−3})), GVL §5.1.6 backward accumulation — from memory), 4n³/3 flops.
+ * Householder reduction of the lower-stored symmetric S (n×n row-major, overwritten) to tridiagonal
+ * T = (d diagonal, e sub-diagonal), S = Q·T·Qᵀ (Golub & Van Loan §8.3.1). With `Q` (n×n row-major) it
+ * also forms Q explicitly, the reflectors (kept in S's spent columns) accumulated backwards
+ * (Q = H₀(H₁(…H_{n−3})), GVL §5.1.6 backward accumulation — from memory), 4n³/3 more flops.
+ * The reduction's operations are the same with or without Q.
  */
-export function tridiagonalizeQ(
+export function tridiagonalize(
   S: Float64Array,
   n: number,
   d: Float64Array,
   e: Float64Array,
-  Q: Float64Array,
+  Q?: Float64Array,
 ): void {
   const beta = new Float64Array(Math.max(n, 1));
   const v = new Float64Array(n);
@@ -223,6 +104,7 @@ export function tridiagonalizeQ(
     e[n - 2] = S[(n - 1) * n + n - 2];
   }
   if (n >= 1) d[n - 1] = S[(n - 1) * n + n - 1];
+  if (!Q) return;
   // Q = H₀·H₁·…·H_{n−3}, built from the right end: M ← H_k·M touches rows/columns k+1… only.
   Q.fill(0, 0, n * n);
   for (let i = 0; i < n; i++) Q[i * n + i] = 1;
@@ -247,10 +129,15 @@ export function tridiagonalizeQ(
   }
 }
 
+/** Eigenvalues of the symmetric tridiagonal matrix (d, e) by implicit QL (tql1). d and e are copied. */
+export function tridiagonalEigenvalues(dIn: Float64Array, eIn: Float64Array): Float64Array {
+  return tridiagonalQl(dIn, eIn, null, 'tridiagonalEigenvalues');
+}
+
 /**
  * Eigenvalues and eigenvectors of the symmetric tridiagonal (d, e) by implicit QL with the rotations
  * accumulated (Bowdler et al. 1968, procedure tql2). `Et` (n×n row-major) holds on entry the
- * TRANSPOSE of the matrix the rotations multiply (Qᵀ from `tridiagonalizeQ`, or I); on exit row i of
+ * TRANSPOSE of the matrix the rotations multiply (Qᵀ from `tridiagonalize`, or I); on exit row i of
  * Et is the eigenvector of eigenvalue i. Rows are contiguous, so each rotation updates two rows.
  * Returns the eigenvalues (in no particular order; row i of Et belongs to value i).
  */
@@ -259,6 +146,19 @@ export function tridiagonalEigenvectors(
   eIn: Float64Array,
   Et: Float64Array,
 ): Float64Array {
+  return tridiagonalQl(dIn, eIn, Et, 'tridiagonalEigenvectors');
+}
+
+/**
+ * Implicit QL on the tridiagonal (d, e), copied: tql1 when `Et` is null, tql2 (rotations applied to the
+ * rows of Et) otherwise. The eigenvalue arithmetic is the same either way.
+ */
+function tridiagonalQl(
+  dIn: Float64Array,
+  eIn: Float64Array,
+  Et: Float64Array | null,
+  caller: string,
+): Float64Array {
   const n = dIn.length;
   const d = Float64Array.from(dIn);
   const E = new Float64Array(n);
@@ -266,6 +166,8 @@ export function tridiagonalEigenvectors(
   let normT = 0;
   for (let i = 0; i < n; i++)
     normT = Math.max(normT, Math.abs(d[i]) + Math.abs(E[i]) + (i > 0 ? Math.abs(E[i - 1]) : 0));
+  // Deflate when |e| ≤ ε·(|d_m|+|d_{m+1}|) (relative, tql1) or |e| ≤ ε·‖T‖ (absolute): the latter changes
+  // eigenvalues by ≤ ε‖T‖ (Weyl) and is needed when d ≈ 0 (rank-deficient Gram matrices).
   const absTol = EPS * normT;
   for (let l = 0; l < n; l++) {
     let iter = 0;
@@ -276,8 +178,7 @@ export function tridiagonalEigenvectors(
         if (Math.abs(E[m]) <= EPS * dd || Math.abs(E[m]) <= absTol) break;
       }
       if (m !== l) {
-        if (iter++ === MAX_QL_ITERS)
-          throw new Error('tridiagonalEigenvectors: QL iteration did not converge');
+        if (iter++ === MAX_QL_ITERS) throw new Error(`${caller}: QL iteration did not converge`);
         let g = (d[l + 1] - d[l]) / (2 * E[l]);
         let r = Math.hypot(g, 1);
         g = d[m] - d[l] + E[l] / (g + (g >= 0 ? Math.abs(r) : -Math.abs(r)));
@@ -304,6 +205,7 @@ export function tridiagonalEigenvectors(
           p = s * r;
           d[i + 1] = g + p;
           g = c * r - b;
+          if (!Et) continue;
           const ri = i * n;
           const rj = ri + n;
           for (let k = 0; k < n; k++) {
@@ -346,7 +248,7 @@ export function symmetricEigen(
     const d = new Float64Array(n);
     const e = new Float64Array(Math.max(n - 1, 1));
     const Q = new Float64Array(n * n);
-    tridiagonalizeQ(S, n, d, e, Q);
+    tridiagonalize(S, n, d, e, Q);
     Et = new Float64Array(n * n);
     for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) Et[j * n + i] = Q[i * n + j];
     lam = tridiagonalEigenvectors(d, e.subarray(0, Math.max(n - 1, 0)), Et);

@@ -5,8 +5,9 @@
  * Float32Array / Float64Array buffers from it, and calls `gemm` on them. The WebAssembly backend
  * hands out views of the kernels' linear memory so `gemm` runs the SIMD kernel on them in place; the
  * TypeScript backend hands out ordinary arrays and runs the blocked TS loop. src-main/node/parallel
- * implements the same interface over a shared memory and two worker threads.
+ * implements the same interface (backend.ts) over a shared memory and two worker threads.
  */
+import type { Backend, Gemm, Workspace } from './backend';
 import { gemmTs } from './gemm-ts';
 import type { FloatArray } from './matrix';
 import {
@@ -17,98 +18,12 @@ import {
   type WasmKernels,
 } from './wasm/runtime';
 
+export type { Backend, Gemm, Workspace };
+
 /** QL iterations allowed per eigenvalue in the WebAssembly eigensolver (as symmetric-eigen.ts). */
 const MAX_QL_ITERS_WASM = 60;
 /** Every allocation starts on a 16-byte boundary (one v128). */
 const ALIGN = 16;
-
-/**
- * C[m×n] (+)= A(m×k)·B[k×n] on arrays of one precision. A(i,p) = a[aOff + i·rsA + p·csA]; B and C are
- * row-major from bOff / cOff with leading dimensions ldb / ldc. `accumulate` adds to C instead of overwriting.
- */
-export type Gemm = <T extends FloatArray>(
-  m: number,
-  n: number,
-  k: number,
-  a: T,
-  aOff: number,
-  rsA: number,
-  csA: number,
-  b: T,
-  bOff: number,
-  ldb: number,
-  c: T,
-  cOff: number,
-  ldc: number,
-  accumulate: boolean,
-) => void;
-
-export interface Workspace {
-  f32(n: number): Float32Array;
-  f64(n: number): Float64Array;
-  gemm: Gemm;
-  /**
-   * Optional fast one-sided Jacobi sweeps (see jacobi-svd.ts) on arrays from this workspace:
-   * W holds n contiguous columns of length `rows`, Vt (n×n) receives the rotations (or null).
-   * Returns the sweeps used, or -1 when the arrays are not kernel-visible (caller falls back to TS).
-   */
-  jacobi?(
-    W: Float64Array,
-    rows: number,
-    n: number,
-    Vt: Float64Array | null,
-    tol: number,
-    maxSweeps: number,
-    floor2: number,
-    norms: Float64Array,
-  ): number;
-  /**
-   * Optional fast Householder tridiagonalisation (symmetric-eigen.ts `tridiagonalize`) on arrays from
-   * this workspace; v and p are 2n-element scratch. Returns false when it cannot run (caller uses TS).
-   */
-  tridiag?(
-    S: Float64Array,
-    n: number,
-    d: Float64Array,
-    e: Float64Array,
-    v: Float64Array,
-    p: Float64Array,
-  ): boolean;
-  /**
-   * Optional fast symmetric eigen-decomposition (symmetric-eigen.ts `symmetricEigen` steps) of the
-   * lower-stored n×n S (overwritten) from this workspace: d (n) receives the eigenvalues unsorted, row
-   * i of Et (n×n) the eigenvector of d[i]. Takes 6n f64 scratch from the workspace. Returns false when
-   * it cannot run (caller uses TS); throws when the QL iteration does not converge.
-   */
-  symEigen?(S: Float64Array, n: number, d: Float64Array, Et: Float64Array): boolean;
-  /**
-   * Optional kernel versions of qr.ts `cholesky` (lower factor into L; 1 ok, 0 breakdown, -1 cannot
-   * run) and `invertUpper` (false: cannot run). Same operations in the same order: bit-identical.
-   */
-  choleskyLower?(G: Float64Array, l: number, shift: number, floor: number, L: Float64Array): number;
-  invertUpper?(R: Float64Array, l: number, out: Float64Array): boolean;
-  /**
-   * Optional: a mark of the allocation pointer; `reset(mark)` frees everything allocated after it
-   * (views taken since must not be used again). Lets an algorithm repeat a stage in the same space.
-   */
-  mark?(): number;
-  reset?(mark: number): void;
-  /** Return the space to the backend. Views must not be used afterwards. */
-  release(): void;
-  /** Short label for diagnostics and the bench ("wasm", "ts", "2 workers"). */
-  readonly label: string;
-}
-
-export interface Backend {
-  /** A workspace able to hold `bytes` bytes of arrays (allocate with some slack for alignment). */
-  workspace(bytes: number): Workspace;
-  /**
-   * Optional: grow the backend's memory to hold a workspace of `bytes` and write to every page of it,
-   * so that a later computation of that size pays no memory growth or first-touch page faults.
-   */
-  reserve?(bytes: number): void;
-  readonly label: string;
-}
 
 /** Bytes between writes when touching fresh memory (the smallest common page size). */
 const TOUCH_STRIDE = 4096;

@@ -20,7 +20,7 @@ import {
   writeImageFile,
 } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
-import { psnrPlanes, ssimPlanes } from '../metrics';
+import { psnrFromSse, psnrPlanes, ssimPlanes } from '../metrics';
 import { rgbToYcbcr, YCBCR_ERROR_WEIGHTS } from './colour';
 import { factorPlane, type PlaneFactors } from './factorise';
 import { type Plan, type PlaneInput, solveBytes, solveError, solveRank } from './solve';
@@ -476,7 +476,7 @@ function solveFor(
       around = plan.stepIndex;
       const bytes = build(plan.planes);
       const measured = measuredSse(bytes, img, prep);
-      const ok = psnrOf(measured, count, max) >= budget.db;
+      const ok = psnrFromSse(measured, count, max) >= budget.db;
       if (ok) {
         plan.bytes = bytes.length;
         if (!found || plan.bytes < found.bytes) found = plan;
@@ -521,10 +521,6 @@ function solveFor(
     return found;
   }
   throw new UsageError(`unknown budget kind ${(budget as { kind: string }).kind}`);
-}
-
-function psnrOf(sse: number, count: number, max: number): number {
-  return sse === 0 ? Number.POSITIVE_INFINITY : 10 * Math.log10((max * max * count) / sse);
 }
 
 function emptyPlane(inp: PlaneInput): QuantPlane {

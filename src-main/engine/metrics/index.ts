@@ -9,5 +9,5 @@ export {
   rankForPsnr,
   spectralBound,
 } from './eckart-young';
-export { frobeniusError, mse, psnr, psnrFromMse, psnrPlanes, SseStream, sse } from './psnr';
+export { frobeniusError, mse, psnr, psnrFromMse, psnrFromSse, psnrPlanes, SseStream, sse } from './psnr';
 export { gaussianTaps, SSIM_DEFAULTS, type SsimOptions, SsimStream, ssim, ssimPlanes } from './ssim';

@@ -1,5 +1,8 @@
 /**
- * Mean squared error and peak signal-to-noise ratio between two planes.
+ * Mean squared error and peak signal-to-noise ratio between two planes: the engine's one PSNR module.
+ * Every PSNR goes through {@link psnrFromMse} (10·log10(MAX²/MSE)) except the compressor's budget search,
+ * which uses {@link psnrFromSse} (the same quantity evaluated as 10·log10(MAX²·N/SSE)); the Eckart–Young
+ * optimum (eckart-young.ts `psnrFromFrobenius`) is psnrFromMse(‖E‖_F²/N).
  *
  * References
  * - PSNR = 10·log10(MAX² / MSE): the usual definition, e.g. R. C. Gonzalez, R. E. Woods, *Digital Image
@@ -62,6 +65,19 @@ export function psnrFromMse(meanSquaredError: number, maxValue: number): number 
     throw invalidParameterError('meanSquaredError', 'number ≥ 0', meanSquaredError);
   if (meanSquaredError === 0) return Number.POSITIVE_INFINITY;
   return 10 * Math.log10((maxValue * maxValue) / meanSquaredError);
+}
+
+/**
+ * PSNR in dB from a sum of squared errors over `count` samples, evaluated as 10·log10(MAX²·count/SSE)
+ * (Infinity when SSE is 0). Mathematically {@link psnrFromMse}(SSE/count), but it rounds differently:
+ * the compressor's PSNR-budget search compares this form with the target, and its file choices (output
+ * bytes) are fixed by it. No argument checks (an inner-loop helper; pass count > 0 and MAX > 0).
+ * @example psnrFromSse(256, 256, 255) // 48.1308036086791
+ */
+export function psnrFromSse(sumSquaredError: number, count: number, maxValue: number): number {
+  return sumSquaredError === 0
+    ? Number.POSITIVE_INFINITY
+    : 10 * Math.log10((maxValue * maxValue * count) / sumSquaredError);
 }
 
 /**

@@ -243,16 +243,3 @@ export function eigenFrameOf(frames: ArrayLike<number>[], svd: FrameModeSvd, i: 
   }
   return P;
 }
-
-/** Number of eigen-frames that carry `fraction` of the energy left after mean removal (0 if there is none). */
-export function eigenFramesForEnergy(sigma: ArrayLike<number>, fraction: number): number {
-  let total = 0;
-  for (let i = 0; i < sigma.length; i++) total += sigma[i] * sigma[i];
-  if (total === 0) return 0;
-  let acc = 0;
-  for (let i = 0; i < sigma.length; i++) {
-    acc += sigma[i] * sigma[i];
-    if (acc >= fraction * total) return i + 1;
-  }
-  return sigma.length;
-}

@@ -62,7 +62,7 @@ export interface KernelExports {
     betas: number,
     maxIter: number,
   ): number;
-  /** Lower Cholesky factor (qr.ts `cholesky`, same operation order); 1, or 0 on breakdown. */
+  /** Lower Cholesky factor (cholesky.ts `choleskyUpper`, same operation order); 1, or 0 on breakdown. */
   cholLowerF64(g: number, n: number, shift: number, floor: number, l: number): number;
   /** Inverse of an upper-triangular matrix (qr.ts `invertUpper`, same operation order). */
   invUpperF64(r: number, n: number, out: number): void;

@@ -672,7 +672,7 @@ export function symEigenF64(s: usize, n: i32, d: usize, e: usize, et: usize, v: 
 
 /**
  * Lower Cholesky factor of (sym(G) + shift·I) into l (row-major), the same operations in the same
- * order as qr.ts `cholesky` (bit-identical results). Returns 1, or 0 on a pivot ≤ floor (breakdown).
+ * order as cholesky.ts `choleskyUpper` (bit-identical results). Returns 1, or 0 on a pivot ≤ floor (breakdown).
  */
 export function cholLowerF64(g: usize, n: i32, shift: f64, floor: f64, l: usize): i32 {
   const rowBytes = <usize>n << 3;

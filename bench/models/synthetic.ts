@@ -1,5 +1,6 @@
 /**
- * Deterministic, seeded synthetic series with known structure, for tests, benchmarks and samples.
+ * Deterministic, seeded synthetic series with known structure, for tests and benchmarks (research data,
+ * not part of the engine: it lived in src-main/engine/stack until issue 17).
  * Every generator returns integer samples on the chosen scale (0–255 or 0–65535), one Float32Array per frame.
  * Scenario names are our own (the fictional "Fenwick Lab" and "Harrowgate County Survey Office").
  */

@@ -5,6 +5,12 @@
  * d ≤ 81 sizes of patch groups this is several times cheaper than a one-sided Jacobi SVD of Y, which
  * matters because a scan has ~10⁵ groups.
  *
+ * Why a second symmetric eigen-solver beside symmetric-eigen.ts: this one is the EISPACK tred2/tql2 pair
+ * in JAMA's loop order (Givens updates on columns of V, sorted ascending, in place on a reusable
+ * workspace), whereas symmetric-eigen.ts is Householder + tql1/tql2 with a Wilkinson shift written for
+ * contiguous rows and a WebAssembly twin. The two round differently, and `rankfold clean`'s output bytes
+ * are fixed by this one (test/fixtures/golden-outputs.json), so it stays a separate, named variant.
+ *
  * References
  * - H. Bowdler, R. S. Martin, C. Reinsch, J. H. Wilkinson, "The QR and QL algorithms for symmetric
  *   matrices", Numer. Math. 11:293–306, 1968 (tql2); R. S. Martin, C. Reinsch, J. H. Wilkinson,
@@ -32,7 +38,7 @@ export function eigenWorkspace(n: number): EigenWorkspace {
  * In place: ws.V holds a symmetric matrix; afterwards ws.d holds its eigenvalues in ascending order
  * and column k of ws.V the eigenvector of ws.d[k].
  */
-export function symmetricEigen(ws: EigenWorkspace): void {
+export function smallSymmetricEigen(ws: EigenWorkspace): void {
   tred2(ws);
   tql2(ws);
 }
@@ -42,7 +48,7 @@ export function symmetricEigen(ws: EigenWorkspace): void {
  * (i−1, i) in ws.e[i] for i = 1..k−1. Afterwards ws.d holds the eigenvalues ascending and ws.V (k×k,
  * row stride k) the eigenvectors as columns.
  */
-export function tridiagonalEigen(ws: EigenWorkspace, k: number): void {
+export function smallTridiagonalEigen(ws: EigenWorkspace, k: number): void {
   const { V, e } = ws;
   V.fill(0, 0, k * k);
   for (let i = 0; i < k; i++) V[i * k + i] = 1;
@@ -209,4 +215,22 @@ function tql2(ws: EigenWorkspace) {
       }
     }
   }
+}
+
+/**
+ * The smaller Gram matrix of Y (m×n row-major, stride n) into G (min(m, n)² row-major, both triangles):
+ * YᵀY when n ≤ m, else YYᵀ. Returns true for YᵀY. Each entry is one dot product in index order.
+ */
+export function smallGram(Y: Float64Array, m: number, n: number, G: Float64Array): boolean {
+  const byCols = n <= m;
+  const small = byCols ? n : m;
+  for (let a = 0; a < small; a++)
+    for (let b = 0; b <= a; b++) {
+      let s = 0;
+      if (byCols) for (let i = 0; i < m; i++) s += Y[i * n + a] * Y[i * n + b];
+      else for (let k = 0; k < n; k++) s += Y[a * n + k] * Y[b * n + k];
+      G[a * small + b] = s;
+      G[b * small + a] = s;
+    }
+  return byCols;
 }

@@ -21,7 +21,7 @@
  *   singular value decomposition", SIAM J. Sci. Comput. 34(2):A1027–A1052, 2012. doi:10.1137/110836067.
  * - L. R. Tucker, "Some mathematical notes on three-mode factor analysis", Psychometrika 31(3), 1966.
  */
-import { jacobiSvd } from '../linalg';
+import { jacobiSvd } from '../../src-main/engine/linalg';
 
 export interface TuckerResult {
   height: number;
