@@ -8,7 +8,7 @@ import { createReadStream } from 'node:fs';
 import { mkdir } from 'node:fs/promises';
 import { dirname } from 'node:path';
 import { InputError, RankfoldError } from '../../contract';
-import { describeFileError } from '../image/decode';
+import { describeFileError } from '../image/open-file';
 import { describeWriteError } from '../io/atomic';
 import type { compressFile } from '../services/compress';
 
