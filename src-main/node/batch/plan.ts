@@ -335,3 +335,24 @@ export async function planBatch(inDir: string, outDir: string, options: PlanOpti
     .sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
   return { inDir, outDir, files: planned, totalInTree: selected.length, skipped: mine, problems };
 }
+
+/** Right before a file is handed to a worker: is it (still) a regular file? Narrows the window in which a
+ *  file swapped for a FIFO after the walk could be opened. Undefined: go ahead. */
+export async function notRegularNow(f: PlannedFile): Promise<SkippedEntry | undefined> {
+  try {
+    const s = await stat(f.inputAbs);
+    if (s.isFile()) return undefined;
+    return {
+      path: f.path,
+      inputAbs: f.inputAbs,
+      reason: `is ${specialKind(s)}, not a regular file (it changed during the batch); it was not opened`,
+    };
+  } catch {
+    return undefined; // the compressor reports the problem for this file
+  }
+}
+
+/** Files in the order they are handed to workers: largest first, ties by path. */
+export function dispatchOrder(files: PlannedFile[]): PlannedFile[] {
+  return files.slice().sort((a, b) => b.size - a.size || (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
+}

@@ -242,6 +242,23 @@ export class WorstSoFar {
 }
 
 /**
+ * The thumbnails of the worst rows (`worstRows`): those in `drawn` (drawn by the compress jobs while source and
+ * reconstruction were in memory), the others drawn by `draw`.
+ */
+export async function worstThumbnails(
+  rows: BatchRow[],
+  drawn: Map<string, ThumbPair>,
+  draw: (r: BatchRow) => Promise<ThumbPair>,
+): Promise<Map<string, ThumbPair>> {
+  const final = worstRows(rows);
+  const late = await makeThumbnails(
+    final.filter((r) => !drawn.has(r.path)),
+    draw,
+  );
+  return new Map(final.map((r) => [r.path, drawn.get(r.path) ?? late.get(r.path)!]));
+}
+
+/**
  * Render with thumbnails of the worst files (`worstRows`) and write atomically. `thumbs`, when given, holds
  * those pairs already drawn (the batch runner draws them on its workers); otherwise they are drawn here.
  */
