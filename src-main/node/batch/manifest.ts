@@ -181,7 +181,7 @@ export function ranksText(ranks: BatchRow['ranks']): string {
     .join(' ');
 }
 
-export const CSV_COLUMNS = [
+const CSV_COLUMNS = [
   'path',
   'output',
   'status',

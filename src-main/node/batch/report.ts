@@ -9,7 +9,7 @@ import { ranksText, sortRows } from './manifest';
 import { makeThumbnails, type ThumbPair } from './thumbs';
 
 /** How many of the lowest-PSNR files get thumbnails. */
-export const WORST_COUNT = 6;
+const WORST_COUNT = 6;
 
 export interface ReportInfo {
   title: string;
@@ -20,7 +20,7 @@ export interface ReportInfo {
   warnings?: string[];
 }
 
-export function escapeHtml(s: unknown): string {
+function escapeHtml(s: unknown): string {
   return String(s ?? '').replace(
     /[&<>"']/g,
     (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[c]!,

@@ -29,7 +29,7 @@ export async function encodeStandard(
 }
 
 /** Decode a standard-codec file back to planes of `channels` channels on the 8-bit scale. */
-export async function decodeStandard(bytes: Buffer, channels: 1 | 3): Promise<Float32Array[]> {
+async function decodeStandard(bytes: Buffer, channels: 1 | 3): Promise<Float32Array[]> {
   const { data, info } = await sharp(bytes)
     .toColourspace(channels === 1 ? 'b-w' : 'srgb')
     .removeAlpha()

@@ -16,7 +16,7 @@ export const naturalCompare = (a: string, b: string) =>
   collator.compare(a, b) || (a < b ? -1 : a > b ? 1 : 0);
 
 /** Where each frame comes from. */
-export interface FrameSource {
+interface FrameSource {
   file: string;
   page?: number;
   /** Label kept in the frame table. */
@@ -28,7 +28,7 @@ export interface FrameSource {
  * the file name), or every page of a multi-page TIFF.
  * @throws InputError naming the folder or file when there is nothing to stack.
  */
-export async function listStackFrames(source: string, glob?: string): Promise<FrameSource[]> {
+async function listStackFrames(source: string, glob?: string): Promise<FrameSource[]> {
   let st: Awaited<ReturnType<typeof stat>>;
   try {
     st = await stat(source);
