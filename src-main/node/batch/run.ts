@@ -3,108 +3,28 @@
  * manifest, CSV and HTML report at the end. Used by `rankfold batch` and by the app's Batch panel.
  *
  * The steps, in order: `startRun` (folders, plan, output paths), `lockManifest`, `resumeState` (resume.ts),
- * the rows that need no work, `compressFiles` (journal, pool, dispatch, report thumbnails), `finishRun`
- * (summary, manifest, CSV, report).
+ * the rows that need no work, `compressFiles` (dispatch.ts: journal, pool, report thumbnails), `finishRun`
+ * (summary, manifest, CSV, report). Its options and result are in run-options.ts.
  */
 import { mkdir } from 'node:fs/promises';
 import { availableParallelism } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
-import {
-  type BatchEvent,
-  type BatchRow,
-  type BatchSummary,
-  type CompressOptions,
-  type Shard,
-  shardText,
-  toErrorPayload,
-  UsageError,
-} from '../../contract';
+import { type BatchRow, shardText, toErrorPayload, UsageError } from '../../contract';
 import { withLibvipsThreads } from '../image/libvips-threads';
-import { sweepTemps, writeFileAtomic } from '../io/atomic';
-import type { BatchJobResult, BatchWork, BatchWorkResult } from './job';
+import { writeFileAtomic } from '../io/atomic';
+import { compressFiles } from './dispatch';
 import { acquireBatchLock, type BatchLock } from './lock';
-import { ManifestJournal, manifestBase, rowsToCsv, writeManifest } from './manifest';
-import {
-  checkFolders,
-  dispatchOrder,
-  isInside,
-  notRegularNow,
-  type Plan,
-  type PlannedFile,
-  planBatch,
-} from './plan';
-import { eachLimit, WorkerPool } from './pool';
-import { worstThumbnails, writeReport } from './report';
+import { manifestBase, rowsToCsv, writeManifest } from './manifest';
+import { checkFolders, isInside, planBatch } from './plan';
+import { writeReport } from './report';
 import { type ResumeState, resumeState } from './resume';
-import { baseRow, failedRow, rowFromResult, settingsText, skippedRow } from './rows';
-import { type BatchFiles, batchFiles, batchSummary } from './summary';
-import { type BatchCounts, Tally } from './tally';
+import { baseRow, settingsText, skippedRow } from './rows';
+import { type BatchResult, type BatchRunOptions, DEFAULT_TIMEOUT_MS, type Run } from './run-options';
+import { batchFiles, batchSummary } from './summary';
+import { Tally } from './tally';
 import type { ThumbPair } from './thumbs';
 
-/** Default per-file limit: 30 minutes, far above a 300-megapixel scan on one core. */
-export const DEFAULT_TIMEOUT_MS = 30 * 60 * 1000;
-
-export interface BatchRunOptions {
-  inDir: string;
-  outDir: string;
-  compress: CompressOptions;
-  /** Worker threads. Default: the number of cores. */
-  jobs?: number;
-  /**
-   * libvips threads while the run lasts. libvips' pool is process-wide and shared by every worker, so with 1
-   * batch parallelism comes from `jobs` alone and throughput scales with the job count (docs/cli.md, batch).
-   * The setting the process had comes back when the run returns. Default: leave it as it is.
-   */
-  libvipsThreads?: number;
-  include?: string[];
-  exclude?: string[];
-  shard?: Shard;
-  resume?: boolean;
-  dryRun?: boolean;
-  /** Overwrite existing outputs. */
-  force?: boolean;
-  expandCheck?: boolean;
-  /** Per-file limit in ms; 0 = none. */
-  timeoutMs?: number;
-  /** Manifest path; default OUT_DIR/rankfold-manifest[-IofN].jsonl. The CSV sits beside it. */
-  manifest?: string;
-  /** HTML report path; default beside the manifest. */
-  report?: string;
-  /** Built worker file (dist/workers/batch.js). */
-  workerFile: string | URL;
-  /** Called for every event (start, each file, end). */
-  onEvent?: (e: BatchEvent) => void;
-  /** Called when a job reports progress, with bytes of input finished so far. */
-  onProgress?: (p: BatchCounts) => void;
-  /** Abort: queued files are not started, running ones are stopped; finished rows are kept. */
-  signal?: AbortSignal;
-}
-
-export interface BatchResult {
-  summary: BatchSummary;
-  rows: BatchRow[];
-  /** Non-fatal problems: folders that could not be listed, manifest/report write errors. */
-  warnings: string[];
-  /** Remarks that lose nothing, e.g. a stale lock of a dead run that was taken over. */
-  notices: string[];
-  interrupted: boolean;
-}
-
-/** What every step of one run reads; `warnings` and `notices` collect as it goes. */
-interface Run {
-  o: BatchRunOptions;
-  inDir: string;
-  outDir: string;
-  shardLabel: string;
-  plan: Plan;
-  jobs: number;
-  files: BatchFiles;
-  settings: string;
-  timeoutMs: number;
-  warnings: string[];
-  notices: string[];
-  started: number;
-}
+export { DEFAULT_TIMEOUT_MS };
 
 export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
   const run = await startRun(o);
@@ -206,134 +126,6 @@ async function runLocked(run: Run): Promise<BatchResult> {
   }
   const { interrupted, thumbs } = await compressFiles(run, todo, resume, tally);
   return finishRun(run, tally.rows, interrupted, thumbs);
-}
-
-/**
- * Compress `todo` on the worker pool, journalling each row as it arrives, then draw the report's thumbnails
- * that the jobs did not. An abort closes the pool: queued files get no row.
- */
-async function compressFiles(
-  run: Run,
-  todo: PlannedFile[],
-  resume: ResumeState,
-  tally: Tally,
-): Promise<{ interrupted: boolean; thumbs?: Map<string, ThumbPair> }> {
-  const { o, outDir } = run;
-  // Folders and the journal. A folder we cannot create is reported per file by the compressor.
-  try {
-    await mkdir(outDir, { recursive: true });
-  } catch (err) {
-    run.warnings.push(
-      `output folder ${outDir} cannot be created (${(err as NodeJS.ErrnoException).code ?? (err as Error).message})`,
-    );
-  }
-  await sweepTemps(run.plan.files.map((f) => f.outputAbs));
-  const journal = await openJournal(run);
-  const record = async (row: BatchRow) => {
-    await journal?.append(row);
-    tally.emit(row);
-  };
-  let interrupted = false;
-  let thumbs: Map<string, ThumbPair> | undefined;
-  const pool: BatchPool = new WorkerPool(o.workerFile, Math.min(run.jobs, Math.max(1, todo.length)));
-  const onAbort = () => {
-    interrupted = true;
-    void pool.close();
-  };
-  if (o.signal?.aborted) onAbort();
-  o.signal?.addEventListener('abort', onAbort, { once: true });
-  // Thumbnails drawn by the compress jobs, for files that may end among the report's worst.
-  const drawn = new Map<string, ThumbPair>();
-  try {
-    // Largest files first (longest-processing-time order), so no worker idles at the end on one big scan.
-    // Outputs do not depend on the order; the manifest is sorted by path at the end. Only `pool.size` files
-    // are in flight at once, so the pool queue stays short however many files a shard holds.
-    await eachLimit(dispatchOrder(todo), pool.size, async (f) => {
-      if (interrupted) return;
-      const row = await compressOne(run, f, { pool, resume, tally, drawn });
-      if (row) await record(row);
-    });
-    // After an interrupt the pool is closed, and the report draws the thumbnails itself.
-    if (!interrupted)
-      // The rest (outputs kept by --resume, a job whose drawing failed) on the workers while they are still up.
-      thumbs = await worstThumbnails(tally.rows, drawn, async (r) => {
-        const t = await pool.run(
-          { kind: 'thumbs', path: r.path, inputAbs: r.inputAbs, outputAbs: r.outputAbs },
-          { timeoutMs: run.timeoutMs, label: r.path },
-        );
-        return t.ok ? (t.value as ThumbPair) : { note: `thumbnails unavailable (${t.error.message})` };
-      });
-  } finally {
-    o.signal?.removeEventListener('abort', onAbort);
-    await pool.close();
-    await journal?.close();
-  }
-  if (journal?.error)
-    run.warnings.push(
-      `manifest ${run.files.manifest}: ${journal.lost} row${journal.lost === 1 ? '' : 's'} could not be appended while the batch ran (${journal.error.message}); the journal was cut back to its last whole row`,
-    );
-  return { interrupted, thumbs };
-}
-
-type BatchPool = WorkerPool<BatchWork, BatchWorkResult>;
-
-/** The journal rows are appended to as files finish; undefined (and a warning) when it cannot be opened. */
-async function openJournal(run: Run): Promise<ManifestJournal | undefined> {
-  const journal = new ManifestJournal(run.files.manifest);
-  try {
-    await journal.open(!run.o.resume);
-    return journal;
-  } catch (err) {
-    run.warnings.push(
-      `manifest ${run.files.manifest} cannot be written (${(err as NodeJS.ErrnoException).code ?? (err as Error).message}); rows are only in the --json output`,
-    );
-    return undefined;
-  }
-}
-
-/**
- * One file on the pool: its row (added to the tally), or undefined when an interrupt stopped it (no row, as it
- * did not finish). A file that is no longer a regular file is skipped without being opened.
- */
-async function compressOne(
-  run: Run,
-  f: PlannedFile,
-  on: { pool: BatchPool; resume: ResumeState; tally: Tally; drawn: Map<string, ThumbPair> },
-): Promise<BatchRow | undefined> {
-  const { o, shardLabel } = run;
-  const changed = await notRegularNow(f);
-  if (changed) return on.tally.add(skippedRow(changed, shardLabel));
-  const outcome = await on.pool.run(
-    {
-      input: f.inputAbs,
-      output: f.outputAbs,
-      options: o.compress,
-      overwrite: Boolean(o.force) || on.resume.overwrite.has(f.path),
-      verifyExisting: !o.force && on.resume.verify.has(f.path),
-      expandCheck: Boolean(o.expandCheck),
-      thumbsAtOrBelowPsnr: on.tally.worst.bound(),
-    },
-    { timeoutMs: run.timeoutMs, label: f.path },
-  );
-  if (!outcome.ok && outcome.error.name === 'CancelledError') {
-    // Stopped by an interrupt: no row (it was not finished), and no temp file left behind.
-    await sweepTemps([f.outputAbs]);
-    return undefined;
-  }
-  on.tally.bytesDone += f.size;
-  let row: BatchRow;
-  if (outcome.ok) {
-    const value = outcome.value as BatchJobResult;
-    row = rowFromResult(f, shardLabel, value, run.settings);
-    if (value.thumbs) on.drawn.set(f.path, value.thumbs);
-  } else {
-    // A stopped worker may have left its temp file behind.
-    await sweepTemps([f.outputAbs]);
-    row = failedRow(f, shardLabel, outcome.error);
-  }
-  on.tally.add(row);
-  for (const p of on.drawn.keys()) if (!on.tally.worst.has(p)) on.drawn.delete(p);
-  return row;
 }
 
 /** The summary, then the manifest, CSV and report (each failure is a warning), then the end event. */
