@@ -19,7 +19,8 @@ import { performance } from 'node:perf_hooks';
 import { decodePlane, encodePlane } from '../src-main/engine/codec/entropy';
 import { readImageHeader } from '../src-main/engine/codec/image-file';
 import { decodeImage } from '../src-main/node/image/decode';
-import { COMPRESSORS, compareCodecs, compressDecoded } from '../src-main/node/services/compress';
+import { compareCodecs } from '../src-main/node/services/codec-comparison';
+import { COMPRESSORS, compressDecoded } from '../src-main/node/services/compress';
 
 const root = process.cwd();
 const outDir = process.env.RANKFOLD_BENCH_OUT ?? join(root, 'docs', 'bench');

@@ -2,7 +2,7 @@
 // from memory). Textbook value: 8-bit, MSE = 1 → 20·log10(255) = 48.1308 dB.
 import { describe, expect, it } from 'vitest';
 import { psnrOfPlanes } from '../../src-main/node/batch/check';
-import { settingsText } from '../../src-main/node/batch/run';
+import { settingsText } from '../../src-main/node/batch/rows';
 
 describe('psnrOfPlanes', () => {
   it('gives 48.1308 dB for an 8-bit MSE of 1, and 96.3295 dB for 16-bit (MAX 65535)', () => {

@@ -4,7 +4,7 @@ import { dirname } from 'node:path';
 import sharp from 'sharp';
 
 /** A gray 8-bit "ledger page": smooth background, ruled lines and a seeded pattern, so SVD has work to do. */
-export function pagePixels(width: number, height: number, seed: number, channels = 1): Buffer {
+function pagePixels(width: number, height: number, seed: number, channels = 1): Buffer {
   const buf = Buffer.alloc(width * height * channels);
   let s = seed >>> 0 || 1;
   const rnd = () => {

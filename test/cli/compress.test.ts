@@ -178,7 +178,7 @@ describe('rankfold compress', () => {
     // Fact of the format (ITU-T T.81 / JFIF 1.02: one component means greyscale): a three-component JPEG of
     // a grey image still codes two chroma planes, which costs bytes our grey file never spends.
     const sharp = (await import('sharp')).default;
-    const { encodeStandard } = await import('../../src-main/node/services/compress');
+    const { encodeStandard } = await import('../../src-main/node/services/codec-comparison');
     const { data, info } = await sharp(image('camera.png'))
       .greyscale()
       .raw()

@@ -16,12 +16,8 @@ import { deflateSync as zlibDeflate } from 'node:zlib';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { checkString, displayName, InputError } from '../../src-main/contract';
-import {
-  DEFAULT_PIXEL_LIMIT,
-  decodeImage,
-  describeFileError,
-  probeImage,
-} from '../../src-main/node/image/decode';
+import { DEFAULT_PIXEL_LIMIT, decodeImage, probeImage } from '../../src-main/node/image/decode';
+import { describeFileError } from '../../src-main/node/image/open-file';
 import { image, repoRoot } from '../helpers/fixtures';
 import { spawnWithModeBits } from '../helpers/permissions';
 import {

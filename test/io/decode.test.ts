@@ -4,14 +4,9 @@ import { join } from 'node:path';
 import { PNG } from 'pngjs';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import {
-  DEFAULT_PIXEL_LIMIT,
-  decodeImage,
-  hashSamples,
-  probeImage,
-  sniffFormat,
-} from '../../src-main/node/image/decode';
+import { DEFAULT_PIXEL_LIMIT, decodeImage, hashSamples, probeImage } from '../../src-main/node/image/decode';
 import { encodeImageBuffer } from '../../src-main/node/image/encode';
+import { sniffFormat } from '../../src-main/node/image/open-file';
 import { toUpright } from '../../src-main/node/image/orientation';
 import { image } from '../helpers/fixtures';
 

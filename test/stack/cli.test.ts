@@ -10,7 +10,8 @@ import { driftingSpecimen, formPages } from '../../bench/models/synthetic';
 import type { StackReport } from '../../src-main/contract';
 import type { CliIO } from '../../src-main/node/cli/command';
 import { main } from '../../src-main/node/cli/main';
-import { compressStack, decodeStackFrame, naturalCompare } from '../../src-main/node/services/stack';
+import { compressStack, decodeStackFrame } from '../../src-main/node/services/stack';
+import { naturalCompare } from '../../src-main/node/services/stack-series';
 
 let dir: string;
 const run = async (...argv: string[]) => {

@@ -15,10 +15,10 @@ import type { ExpandCheck } from './job';
  * samples, so they differ only by summation order in float64; 0.01 dB is far above that, and far below what a
  * real defect does (a wrong plane, tile or chunk moves PSNR by whole decibels).
  */
-export const CHECK_TOLERANCE_DB = 0.01;
+const CHECK_TOLERANCE_DB = 0.01;
 
 /** SSIM agreement: the same samples and the same window (Wang et al. 2004), so only float rounding differs. */
-export const CHECK_TOLERANCE_SSIM = 1e-4;
+const CHECK_TOLERANCE_SSIM = 1e-4;
 
 /** PSNR over all planes (Gonzalez & Woods, Digital Image Processing, 10·log10(MAX²/MSE)). Infinity when equal. */
 export function psnrOfPlanes(a: Float32Array[], b: Float32Array[], maxValue: number): number {

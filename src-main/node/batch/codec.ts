@@ -1,5 +1,5 @@
 /**
- * The batch runner's view of the codec: `compressFile` and `expandFile` from src-main/node/services.
+ * The batch runner's view of the codec: `compressFile` and `readRkf` from src-main/node/services.
  * They are imported lazily inside the worker so the main thread stays light, and so a build without the
  * codec still gives a clear per-file error instead of failing to start.
  */
@@ -8,14 +8,12 @@ import { createReadStream } from 'node:fs';
 import { mkdir } from 'node:fs/promises';
 import { dirname } from 'node:path';
 import { InputError, RankfoldError } from '../../contract';
-import { describeFileError } from '../image/decode';
+import { describeFileError } from '../image/open-file';
 import { describeWriteError } from '../io/atomic';
 import type { compressFile } from '../services/compress';
 
 /** The compressor the batch worker calls (its options and hooks are those of the service). */
 export type CompressFile = typeof compressFile;
-
-export type ExpandFile = (input: string, output: string, options?: { force?: boolean }) => Promise<unknown>;
 
 let compressor: CompressFile | undefined;
 
@@ -34,21 +32,6 @@ export async function loadCompressor(): Promise<CompressFile> {
     throw new RankfoldError('this build has no compressFile in services/compress');
   compressor = mod.compressFile;
   return compressor;
-}
-
-/** Load `expandFile` from src-main/node/services/expand, used by --expand-check and report thumbnails. */
-export async function loadExpander(): Promise<ExpandFile> {
-  let mod: { expandFile?: ExpandFile };
-  try {
-    mod = await import('../services/expand');
-  } catch (err) {
-    throw new RankfoldError(
-      `this build has no container reader (src-main/node/services/expand): ${(err as Error).message}`,
-    );
-  }
-  if (typeof mod.expandFile !== 'function')
-    throw new RankfoldError('this build has no expandFile in services/expand');
-  return mod.expandFile;
 }
 
 export type ReadRkf = (

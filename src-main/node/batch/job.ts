@@ -2,7 +2,7 @@
 import type { CompressOptions, CompressReport } from '../../contract';
 import type { ThumbPair } from './thumbs';
 
-export interface BatchJob {
+interface BatchJob {
   input: string;
   output: string;
   options: CompressOptions;

@@ -92,7 +92,7 @@ export function processAlive(info: Pick<LockInfo, 'pid' | 'procStart'>): boolean
   return true;
 }
 
-export const defaultLockEnv = (): LockEnv => ({
+const defaultLockEnv = (): LockEnv => ({
   pid: process.pid,
   host: hostname(),
   alive: processAlive,

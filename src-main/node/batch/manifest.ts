@@ -5,7 +5,7 @@
  * row for each path. The CSV holds the same rows (RFC 4180 quoting).
  */
 import { open, readFile } from 'node:fs/promises';
-import { type BatchRow, type BatchSummary, MANIFEST_VERSION } from '../../contract';
+import type { BatchRow } from '../../contract';
 import { writeFileAtomic } from '../io/atomic';
 
 export const MANIFEST_NAME = 'rankfold-manifest';
@@ -181,7 +181,7 @@ export function ranksText(ranks: BatchRow['ranks']): string {
     .join(' ');
 }
 
-export const CSV_COLUMNS = [
+const CSV_COLUMNS = [
   'path',
   'output',
   'status',
@@ -228,22 +228,4 @@ export function rowsToCsv(rows: BatchRow[]): string {
     lines.push(cells.map(csvCell).join(','));
   }
   return `${lines.join('\r\n')}\r\n`;
-}
-
-export { MANIFEST_VERSION };
-
-/** The per-status counts and byte totals of a summary, from its rows (shared by a run and a merge). */
-export function rowTotals(
-  rows: BatchRow[],
-): Pick<BatchSummary, 'ok' | 'kept' | 'failed' | 'planned' | 'skipped' | 'inputBytes' | 'outputBytes'> {
-  const count = (status: BatchRow['status']) => rows.filter((r) => r.status === status).length;
-  return {
-    ok: count('ok'),
-    kept: count('kept'),
-    failed: count('failed'),
-    planned: count('planned'),
-    skipped: count('skipped'),
-    inputBytes: rows.reduce((s, r) => s + (r.inputBytes ?? 0), 0),
-    outputBytes: rows.reduce((s, r) => s + (r.status === 'failed' ? 0 : (r.bytes ?? 0)), 0),
-  };
 }

@@ -5,9 +5,10 @@
 import { dirname, join, resolve } from 'node:path';
 import { type BatchRow, type BatchSummary, parseShardText, UsageError } from '../../contract';
 import { writeFileAtomic } from '../io/atomic';
-import { MANIFEST_NAME, readManifest, rowsToCsv, rowTotals, sortRows, writeManifest } from './manifest';
+import { MANIFEST_NAME, readManifest, rowsToCsv, sortRows, writeManifest } from './manifest';
 import { shardOf } from './plan';
 import { writeReport } from './report';
+import { batchFiles, batchSummary } from './summary';
 
 export interface MergeResult {
   rows: BatchRow[];
@@ -89,35 +90,19 @@ export async function mergeManifests(
   const joined = joinRows(sets);
   warnings.push(...joined.warnings);
   const outDir = resolve(options.outDir ?? dirname(manifests[0]));
-  const manifestPath = options.manifest ?? join(outDir, `${MANIFEST_NAME}.jsonl`);
-  if (manifests.some((m) => resolve(m) === resolve(manifestPath)))
+  const files = batchFiles(options.manifest ?? join(outDir, `${MANIFEST_NAME}.jsonl`), options.report);
+  if (manifests.some((m) => resolve(m) === resolve(files.manifest)))
     throw new UsageError(
-      `--merge: the merged manifest ${manifestPath} would replace one of its inputs; pass --manifest or -o`,
+      `--merge: the merged manifest ${files.manifest} would replace one of its inputs; pass --manifest or -o`,
     );
-  const csvPath = manifestPath.replace(/\.jsonl?$/i, '') + '.csv';
-  const reportPath = options.report ?? manifestPath.replace(/\.jsonl?$/i, '') + '.html';
   const rows = joined.rows;
-  await writeManifest(manifestPath, rows);
-  await writeFileAtomic(csvPath, rowsToCsv(rows), { force: true });
-  await writeReport(reportPath, rows, {
+  await writeManifest(files.manifest, rows);
+  await writeFileAtomic(files.csv, rowsToCsv(rows), { force: true });
+  await writeReport(files.report, rows, {
     title: `Rankfold batch: ${manifests.length} manifest${manifests.length === 1 ? '' : 's'} merged`,
     shards: joined.shards,
     warnings,
   });
-  const summary: BatchSummary = {
-    total: rows.length,
-    ...rowTotals(rows),
-    megapixels: rows.reduce(
-      (s, r) =>
-        s +
-        ((r.status === 'ok' || r.status === 'kept') && r.width && r.height ? (r.width * r.height) / 1e6 : 0),
-      0,
-    ),
-    elapsedMs: performance.now() - started,
-    manifest: manifestPath,
-    csv: csvPath,
-    report: reportPath,
-    failures: rows.filter((r) => r.status === 'failed').map((r) => r.path),
-  };
+  const summary: BatchSummary = { ...batchSummary(rows, rows.length, performance.now() - started), ...files };
   return { rows, summary, warnings };
 }

@@ -17,7 +17,7 @@ import { basename, dirname, extname, isAbsolute, join, relative, resolve, sep } 
 import picomatch from 'picomatch';
 import { type Shard, UsageError } from '../../contract';
 
-export const OUTPUT_EXT = '.rkf';
+const OUTPUT_EXT = '.rkf';
 
 export interface PlannedFile {
   /** Relative input path, '/'-separated, NFC. */
@@ -30,7 +30,7 @@ export interface PlannedFile {
   size: number;
 }
 
-export interface WalkProblem {
+interface WalkProblem {
   path: string;
   message: string;
 }
@@ -55,7 +55,7 @@ export interface Plan {
 }
 
 /** Stable hash of a relative path: SHA-256 of its NFC UTF-8 bytes, first 48 bits as an integer. */
-export function pathHash(rel: string): number {
+function pathHash(rel: string): number {
   const h = createHash('sha256').update(rel.normalize('NFC'), 'utf8').digest();
   return h.readUIntBE(0, 6);
 }
@@ -66,7 +66,7 @@ export function shardOf(rel: string, count: number): number {
 }
 
 /** Normalise a relative path to the manifest form: '/'-separated, NFC. */
-export function toRel(p: string): string {
+function toRel(p: string): string {
   return p.split(sep).join('/').normalize('NFC');
 }
 
@@ -156,7 +156,7 @@ type StatLike = Pick<
 >;
 
 /** The kind of a non-regular file system object, with its article ("a FIFO (named pipe)"). */
-export function specialKind(s: StatLike): string | undefined {
+function specialKind(s: StatLike): string | undefined {
   if (s.isFile()) return undefined;
   if (s.isFIFO()) return 'a FIFO (named pipe)';
   if (s.isCharacterDevice()) return 'a character device';
@@ -203,7 +203,7 @@ async function linkReason(abs: string): Promise<{ reason?: string; size: number 
  * a file to compress or a {@link SkippedEntry} (special files, links to them or to folders, broken or looping
  * links). Symbolic links to folders are not followed.
  */
-export async function walk(root: string): Promise<{
+async function walk(root: string): Promise<{
   files: { rel: string; abs: string; size: number }[];
   skipped: SkippedEntry[];
   problems: WalkProblem[];
@@ -334,4 +334,25 @@ export async function planBatch(inDir: string, outDir: string, options: PlanOpti
     .filter((f) => shard.count <= 1 || shardOf(f.path, shard.count) === shard.index)
     .sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
   return { inDir, outDir, files: planned, totalInTree: selected.length, skipped: mine, problems };
+}
+
+/** Right before a file is handed to a worker: is it (still) a regular file? Narrows the window in which a
+ *  file swapped for a FIFO after the walk could be opened. Undefined: go ahead. */
+export async function notRegularNow(f: PlannedFile): Promise<SkippedEntry | undefined> {
+  try {
+    const s = await stat(f.inputAbs);
+    if (s.isFile()) return undefined;
+    return {
+      path: f.path,
+      inputAbs: f.inputAbs,
+      reason: `is ${specialKind(s)}, not a regular file (it changed during the batch); it was not opened`,
+    };
+  } catch {
+    return undefined; // the compressor reports the problem for this file
+  }
+}
+
+/** Files in the order they are handed to workers: largest first, ties by path. */
+export function dispatchOrder(files: PlannedFile[]): PlannedFile[] {
+  return files.slice().sort((a, b) => b.size - a.size || (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
 }

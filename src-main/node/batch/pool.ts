@@ -191,3 +191,13 @@ export class WorkerPool<I, O> {
     for (const s of this.slots) if (s.job) s.worker.ref();
   }
 }
+
+/** Run `n` async tasks over items with at most `limit` at once, in order of items. */
+export async function eachLimit<T>(items: T[], limit: number, fn: (t: T) => Promise<void>) {
+  let i = 0;
+  await Promise.all(
+    Array.from({ length: Math.min(limit, items.length) }, async () => {
+      while (i < items.length) await fn(items[i++]);
+    }),
+  );
+}

@@ -9,7 +9,7 @@ import { ranksText, sortRows } from './manifest';
 import { makeThumbnails, type ThumbPair } from './thumbs';
 
 /** How many of the lowest-PSNR files get thumbnails. */
-export const WORST_COUNT = 6;
+const WORST_COUNT = 6;
 
 export interface ReportInfo {
   title: string;
@@ -20,7 +20,7 @@ export interface ReportInfo {
   warnings?: string[];
 }
 
-export function escapeHtml(s: unknown): string {
+function escapeHtml(s: unknown): string {
   return String(s ?? '').replace(
     /[&<>"']/g,
     (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[c]!,
@@ -239,6 +239,23 @@ export class WorstSoFar {
   has(path: string): boolean {
     return this.list.some((e) => e.path === path);
   }
+}
+
+/**
+ * The thumbnails of the worst rows (`worstRows`): those in `drawn` (drawn by the compress jobs while source and
+ * reconstruction were in memory), the others drawn by `draw`.
+ */
+export async function worstThumbnails(
+  rows: BatchRow[],
+  drawn: Map<string, ThumbPair>,
+  draw: (r: BatchRow) => Promise<ThumbPair>,
+): Promise<Map<string, ThumbPair>> {
+  const final = worstRows(rows);
+  const late = await makeThumbnails(
+    final.filter((r) => !drawn.has(r.path)),
+    draw,
+  );
+  return new Map(final.map((r) => [r.path, drawn.get(r.path) ?? late.get(r.path)!]));
 }
 
 /**

@@ -8,7 +8,7 @@ import { RankfoldError } from '../../contract';
 import { decodeSamples } from '../image/raw-decode';
 
 /** Longest edge of a thumbnail in pixels: enough to see banding and blur, small enough for a page of six pairs. */
-export const THUMB_EDGE = 320;
+const THUMB_EDGE = 320;
 
 export interface ThumbPair {
   original?: string;
@@ -58,7 +58,7 @@ export function displayScale(original: ThumbSource): { scale: number; note?: str
 }
 
 /** Thumbnail of decoded samples at a display scale (see displayScale). */
-export async function samplesThumb(img: ThumbSource, scale: number): Promise<string> {
+async function samplesThumb(img: ThumbSource, scale: number): Promise<string> {
   const { width, height, channels, samples } = img;
   const raw = Buffer.alloc(width * height * channels);
   for (let c = 0; c < channels; c++) {
@@ -92,7 +92,7 @@ export type ReadRkfSamples = (
 ) => Promise<{ decoded: ThumbSource }>;
 
 /** Load `readRkfSamples` from src-main/node/services/expand (lazily, as ./codec loads the codec). */
-export async function loadSampleReader(): Promise<ReadRkfSamples> {
+async function loadSampleReader(): Promise<ReadRkfSamples> {
   let mod: { readRkfSamples?: ReadRkfSamples };
   try {
     mod = await import('../services/expand');

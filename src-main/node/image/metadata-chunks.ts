@@ -164,16 +164,16 @@ export function addTiffMetadata(tiff: Buffer, extra: ExtraMetadata): Buffer {
 }
 
 /** The largest resolution Rankfold keeps, in pixels per inch. Its PNG and TIFF writers accept (0, 10^6]. */
-export const MAX_DENSITY = 1_000_000;
+const MAX_DENSITY = 1_000_000;
 /** The largest ICC profile Rankfold keeps (16 MiB; real profiles are a few kB to a few MB). */
-export const MAX_ICC_BYTES = 16 * 1024 * 1024;
+const MAX_ICC_BYTES = 16 * 1024 * 1024;
 
 /**
  * Why an ICC profile cannot be kept, or undefined when it looks sound. Checks the header only (ICC.1:2022
  * §7.2: profile size at byte 0 equal to the byte count, 'acsp' at byte 36; a header is 128 bytes and a tag
  * count follows), not the tags.
  */
-export function iccProblem(icc: Uint8Array): string | undefined {
+function iccProblem(icc: Uint8Array): string | undefined {
   if (icc.length < 132) return `is only ${icc.length} bytes, shorter than an ICC header`;
   if (icc.length > MAX_ICC_BYTES)
     return `is ${icc.length} bytes, larger than the ${MAX_ICC_BYTES} Rankfold keeps`;

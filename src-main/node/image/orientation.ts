@@ -19,7 +19,7 @@ export function swapsAxes(o: number): boolean {
 }
 
 /** The orientation whose display transform undoes `o`'s: 6 ↔ 8, the others are their own inverse. */
-export function inverseOrientation(o: Orientation): Orientation {
+function inverseOrientation(o: Orientation): Orientation {
   return o === 6 ? 8 : o === 8 ? 6 : o;
 }
 

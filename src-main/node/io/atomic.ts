@@ -5,7 +5,7 @@
  */
 import { randomBytes } from 'node:crypto';
 import { constants } from 'node:fs';
-import { access, mkdir, open, rename, unlink } from 'node:fs/promises';
+import { access, mkdir, open, readdir, rename, unlink } from 'node:fs/promises';
 import { basename, dirname, join } from 'node:path';
 import { OutputError } from '../../contract';
 
@@ -19,7 +19,7 @@ export interface WriteOptions {
 }
 
 /** True if a file exists at `path`. */
-export async function exists(path: string): Promise<boolean> {
+async function exists(path: string): Promise<boolean> {
   try {
     await access(path, constants.F_OK);
     return true;
@@ -66,6 +66,37 @@ export async function writeFileAtomic(
     throw err instanceof OutputError ? err : describeWriteError(path, err);
   }
   await syncDir(dir);
+}
+
+/** Remove our own stale temp files for the given outputs (never another shard's). */
+export async function sweepTemps(outputs: string[]): Promise<number> {
+  const byDir = new Map<string, Set<string>>();
+  for (const o of outputs) {
+    const d = dirname(o);
+    const set = byDir.get(d) ?? new Set<string>();
+    set.add(basename(o));
+    byDir.set(d, set);
+  }
+  let removed = 0;
+  for (const [dir, names] of byDir) {
+    let entries: string[];
+    try {
+      entries = await readdir(dir);
+    } catch {
+      continue;
+    }
+    for (const e of entries) {
+      if (!e.startsWith(TEMP_PREFIX)) continue;
+      // Temp names are `${TEMP_PREFIX}<12 hex>-<final name>`.
+      const m = /^[0-9a-f]{12}-(.*)$/s.exec(e.slice(TEMP_PREFIX.length));
+      if (!m || !names.has(m[1])) continue;
+      try {
+        await unlink(join(dir, e));
+        removed++;
+      } catch {}
+    }
+  }
+  return removed;
 }
 
 async function syncDir(dir: string) {

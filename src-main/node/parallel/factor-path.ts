@@ -16,13 +16,7 @@
  */
 import { availableParallelism } from 'node:os';
 import { isMainThread } from 'node:worker_threads';
-import {
-  type Backend,
-  DEFAULT_OVERSAMPLE,
-  defaultBackend,
-  initEngine,
-  randomizedSvd,
-} from '../../engine/linalg';
+import { type Backend, defaultBackend, initEngine } from '../../engine/linalg';
 import { randomizedSvdBytes } from '../../engine/linalg/randomized-svd';
 import { factorPlane, planeOversample, setPlaneBackend } from '../../engine/lowrank/factorise';
 import { sharedLinalgPool } from './pool';
@@ -36,7 +30,7 @@ const WARM_RANK = 50;
 let ready: Promise<Backend> | null = null;
 
 /** Threads for whole-plane factorisations: RANKFOLD_LINALG_WORKERS (1…16), else 2 when there are ≥ 2 cores. */
-export function planeThreads(): number {
+function planeThreads(): number {
   const env = Number(process.env.RANKFOLD_LINALG_WORKERS);
   if (Number.isInteger(env) && env >= 1 && env <= 16) return env;
   return availableParallelism() >= 2 ? 2 : 1;

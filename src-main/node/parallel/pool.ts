@@ -43,7 +43,7 @@ import {
  * Products below this many flops run on the calling thread alone: 4 Mflop is ~0.15 ms at the
  * kernel's ~25 GFLOP/s, so a ~10–50 µs wake-up round trip would eat most of the gain below it.
  */
-export const PARALLEL_MIN_FLOPS = 4e6;
+const PARALLEL_MIN_FLOPS = 4e6;
 /** Bytes in a WebAssembly page; shared memory must declare its maximum (wasm32: 65536 pages = 4 GiB). */
 const PAGE = 65536;
 const MAX_PAGES = 65536;

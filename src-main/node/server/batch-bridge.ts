@@ -36,6 +36,7 @@ export async function runBatchJob(
     compress: { budget: req.budget, tile: req.tile },
     force: req.force,
     jobs: Math.max(1, Math.min(2, availableParallelism() - 1)),
+    libvipsThreads: 1,
     workerFile: join(workersDir, 'batch.js'),
     signal,
     onEvent: (e) => {

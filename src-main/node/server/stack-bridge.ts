@@ -10,7 +10,7 @@ import { readFile, stat } from 'node:fs/promises';
 import { basename } from 'node:path';
 import { encodeFactorSet, InputError, type StackFrameInfo, UsageError } from '../../contract';
 import { isStackContainer, openStack, type StackReader } from '../../engine/codec/stack-codec';
-import { describeFileError } from '../image/decode';
+import { describeFileError } from '../image/open-file';
 
 export interface StackSession {
   file: string;

@@ -4,11 +4,7 @@
  * written atomically and never replace an existing file without `force`.
  */
 
-import { existsSync } from 'node:fs';
-import { dirname, join, resolve } from 'node:path';
-import { fileURLToPath } from 'node:url';
-import { Worker } from 'node:worker_threads';
-import sharp from 'sharp';
+import { resolve } from 'node:path';
 import {
   BANDING_MODES,
   CancelledError,
@@ -19,28 +15,22 @@ import {
   checkOneOf,
   DENOISE_METHODS,
   type DecodedImage,
-  fromErrorPayload,
-  RankfoldError,
   UsageError,
   type WithWarnings,
 } from '../../contract';
 import {
   type CleanInput,
   type DenoiseStats,
-  denoiseInProcess,
   type FinishedClean,
   finishClean,
-  mergeStats,
   type PreparedClean,
   prepareClean,
-  rowBands,
-  withPassThrough,
 } from '../../engine/clean';
-import { crc32 } from '../../engine/codec/crc32';
 import { decodeImage } from '../image/decode';
 import { encodeImage, formatFromPath } from '../image/encode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
-import type { CleanWorkerData, CleanWorkerMessage } from '../workers/clean';
+import { denoiseInBands } from './clean-bands';
+import { profileCsv, removedPng, type StripeProfiles } from './clean-outputs';
 
 /** The caution carried in every report (same text as the CLI's CLEANING_CAUTION). */
 export const CLEAN_REPORT_CAUTION =
@@ -59,7 +49,7 @@ export interface CleanedImage {
   removed: Float32Array[];
   report: CleanReport;
   /** Stripe profiles that were subtracted, per colour channel (null when that axis was not removed). */
-  profile: { rows: Float64Array[] | null; columns: Float64Array[] | null };
+  profile: StripeProfiles;
 }
 
 /** Check and complete options; the messages name the option. */
@@ -79,117 +69,6 @@ export function normaliseCleanOptions(options: Partial<CleanOptions>): CleanOpti
   if (noise === 'off' && banding === 'off')
     throw new UsageError('Nothing to do: both --noise and --banding are off.');
   return out;
-}
-
-/** Where the built worker lives: beside the running bundle (dist/cli.js) or, from sources, in dist/. */
-export function cleanWorkerFile(): string {
-  const here = dirname(fileURLToPath(import.meta.url));
-  const candidates = [
-    join(here, 'workers', 'clean.js'),
-    join(here, '..', 'workers', 'clean.js'),
-    resolve(here, '..', '..', '..', 'dist', 'workers', 'clean.js'),
-  ];
-  const found = candidates.find((c) => existsSync(c));
-  if (!found)
-    throw new RankfoldError(
-      'the clean worker (dist/workers/clean.js) is missing; run `npm run build` in the Rankfold folder, or pass workers: 0',
-    );
-  return found;
-}
-
-/** Denoise the prepared planes with `workers` threads over row bands (0 = this thread). */
-async function denoise(
-  prep: PreparedClean,
-  workers: number,
-  hooks: CleanHooks,
-): Promise<{ planes: Float32Array[]; stats: DenoiseStats }> {
-  const report = (f: number) => hooks.onProgress?.('denoise', f);
-  if (workers === 0 || prep.method === 'tiles') {
-    if (hooks.signal?.aborted) throw new CancelledError('cleaning');
-    return denoiseInProcess(prep, 1, report);
-  }
-  const { width, height } = prep;
-  const n = width * height;
-  const planes = prep.active.map((c) => prep.work[c]);
-  const input = planes.map((p) => {
-    const b = new SharedArrayBuffer(n * 4);
-    new Float32Array(b).set(p);
-    return b;
-  });
-  const output = planes.map(() => new SharedArrayBuffer(n * 4));
-  const file = cleanWorkerFile();
-  const bands = rowBands(height, workers);
-  const fractions = bands.map(() => 0);
-  const running: Worker[] = [];
-  const stop = () => {
-    for (const w of running) void w.terminate();
-  };
-  try {
-    const stats = await Promise.all(
-      bands.map(
-        ([rowStart, rowEnd], i) =>
-          new Promise<DenoiseStats>((resolveBand, rejectBand) => {
-            if (hooks.signal?.aborted) return rejectBand(new CancelledError('cleaning'));
-            const workerData: CleanWorkerData = {
-              width,
-              height,
-              input,
-              output,
-              sigmas: prep.active.map((c) => prep.sigmas[c]),
-              params: prep.params!,
-              rowStart,
-              rowEnd,
-            };
-            const w = new Worker(file, { workerData });
-            running.push(w);
-            let settled = false;
-            const onAbort = () => {
-              settled = true;
-              void w.terminate();
-              rejectBand(new CancelledError('cleaning'));
-            };
-            hooks.signal?.addEventListener('abort', onAbort, { once: true });
-            w.on('message', (m: CleanWorkerMessage) => {
-              if (m.type === 'progress') {
-                fractions[i] = m.fraction;
-                report(fractions.reduce((a, b) => a + b, 0) / bands.length);
-              } else if (m.type === 'done') {
-                settled = true;
-                hooks.signal?.removeEventListener('abort', onAbort);
-                void w.terminate();
-                resolveBand(m.stats);
-              } else {
-                settled = true;
-                hooks.signal?.removeEventListener('abort', onAbort);
-                void w.terminate();
-                rejectBand(fromErrorPayload(m.error));
-              }
-            });
-            w.on('error', (err) => {
-              if (settled) return;
-              settled = true;
-              rejectBand(new RankfoldError(`the clean worker failed: ${err.message}`));
-            });
-            w.on('exit', (code) => {
-              if (!settled) {
-                settled = true;
-                rejectBand(new RankfoldError(`the clean worker stopped unexpectedly (exit code ${code})`));
-              }
-            });
-          }),
-      ),
-    );
-    return {
-      planes: withPassThrough(
-        prep,
-        output.map((b) => new Float32Array(b)),
-      ),
-      stats: mergeStats(stats),
-    };
-  } catch (err) {
-    stop();
-    throw err;
-  }
 }
 
 function asInput(d: DecodedImage): CleanInput {
@@ -276,7 +155,7 @@ async function runClean(
   let stats: DenoiseStats | null = null;
   let denoised: Float32Array[] | null = null;
   if (prep.method !== 'off') {
-    const r = await denoise(prep, workers, hooks);
+    const r = await denoiseInBands(prep, workers, hooks);
     denoised = r.planes;
     stats = r.stats;
   }
@@ -366,52 +245,4 @@ export async function cleanFile(
   report.timings.totalMs = performance.now() - t0;
   hooks.onProgress?.('encode', 1);
   return decoded.warnings ? { ...report, warnings: decoded.warnings } : report;
-}
-
-/**
- * The removed part as an 8-bit PNG: grey = 128 + scale·removed, clipped to 0–255. The scale maps 4× the
- * RMS of the removed part (at least one grey level of the input) to ±127, so noise and stripes are
- * visible; it is stated in the report and in a PNG tEXt chunk (keyword "Comment").
- */
-export async function removedPng(removed: Float32Array[], width: number, height: number, bitDepth: 8 | 16) {
-  let sq = 0;
-  for (const p of removed) for (let i = 0; i < p.length; i++) sq += p[i] * p[i];
-  const rms = Math.sqrt(sq / (removed.length * width * height));
-  const scale = 127 / Math.max(4 * rms, 1);
-  const ch = removed.length;
-  const buf = Buffer.alloc(width * height * ch);
-  for (let i = 0, o = 0; i < width * height; i++)
-    for (let c = 0; c < ch; c++, o++)
-      buf[o] = Math.max(0, Math.min(255, Math.round(128 + scale * removed[c][i])));
-  const png = await sharp(buf, { raw: { width, height, channels: ch as 1 | 3 } })
-    .png()
-    .toBuffer();
-  const text = `Rankfold removed part: grey = 128 + ${scale.toPrecision(6)} x (input - output), input in ${bitDepth}-bit grey levels; RMS removed ${rms.toPrecision(6)}`;
-  return { bytes: insertPngText(png, 'Comment', text), scale };
-}
-
-/** Insert a tEXt chunk after IHDR (PNG spec, ISO/IEC 15948:2004 §11.3.4.3). */
-export function insertPngText(png: Buffer, keyword: string, text: string): Buffer {
-  const data = Buffer.from(`${keyword}\0${text}`, 'latin1');
-  const chunk = Buffer.alloc(12 + data.length);
-  chunk.writeUInt32BE(data.length, 0);
-  chunk.write('tEXt', 4, 'latin1');
-  data.copy(chunk, 8);
-  chunk.writeUInt32BE(crc32(chunk.subarray(4, 8 + data.length)), 8 + data.length);
-  const ihdrEnd = 8 + 8 + 13 + 4;
-  return Buffer.concat([png.subarray(0, ihdrEnd), chunk, png.subarray(ihdrEnd)]);
-}
-
-/** CSV of the subtracted stripe profiles: `axis,index,<channel…>`, offsets in grey levels of the input. */
-export function profileCsv(profile: CleanedImage['profile'], width: number, height: number): string {
-  const ch = (profile.rows ?? profile.columns)?.length ?? 1;
-  const names = ch === 3 ? ['R', 'G', 'B'] : ['gray'];
-  const lines = [`axis,index,${names.join(',')}`];
-  if (profile.rows)
-    for (let y = 0; y < height; y++)
-      lines.push(`row,${y},${profile.rows.map((p) => p[y].toFixed(4)).join(',')}`);
-  if (profile.columns)
-    for (let x = 0; x < width; x++)
-      lines.push(`column,${x},${profile.columns.map((p) => p[x].toFixed(4)).join(',')}`);
-  return `${lines.join('\n')}\n`;
 }

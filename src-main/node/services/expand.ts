@@ -23,9 +23,10 @@ import {
   decodeImageFileSamples,
   MAX_PIXELS,
 } from '../../engine/codec/image-file';
-import { describeFileError, hashSamples } from '../image/decode';
+import { hashSamples } from '../image/decode';
 import { encodeImage, formatFromPath } from '../image/encode';
 import { keepableMetadata } from '../image/metadata-chunks';
+import { describeFileError } from '../image/open-file';
 import { assertWritable } from '../io/atomic';
 import { COMPRESSORS } from './compress';
 

@@ -36,7 +36,7 @@ import { decodeImage, probeImage } from '../image/decode';
 import { decodeSamples } from '../image/raw-decode';
 
 /** BT.601 / JFIF 1.02 luma weights. */
-export const LUMA_WEIGHTS = [0.299, 0.587, 0.114] as const;
+const LUMA_WEIGHTS = [0.299, 0.587, 0.114] as const;
 /** Extra columns for the randomized top-value path, so the last reported values are accurate too (HMT 2011 §4.2). */
 const TOP_OVERSAMPLE = 32;
 /**
@@ -46,9 +46,9 @@ const TOP_OVERSAMPLE = 32;
  */
 const TOP_POWER_ITERS = 2;
 /** Colour channels (R, G, B) get the full spectrum up to this short side, else their top values only. */
-export const CHANNEL_FULL_SPECTRUM_LIMIT = 1024;
+const CHANNEL_FULL_SPECTRUM_LIMIT = 1024;
 /** Number of top values for colour channels above {@link CHANNEL_FULL_SPECTRUM_LIMIT}. */
-export const CHANNEL_TOP_VALUES = 128;
+const CHANNEL_TOP_VALUES = 128;
 
 export interface SpectrumPolicy {
   /** Short sides up to this get every singular value. */
@@ -58,11 +58,11 @@ export interface SpectrumPolicy {
 }
 
 /** The policy for the gray/luma plane (issue text: full spectrum up to 2048 on the short side, else top 512). */
-export const MAIN_PLANE_POLICY: SpectrumPolicy = {
+const MAIN_PLANE_POLICY: SpectrumPolicy = {
   fullLimit: INSPECT_FULL_SPECTRUM_LIMIT,
   topValues: INSPECT_TOP_VALUES,
 };
-export const CHANNEL_POLICY: SpectrumPolicy = {
+const CHANNEL_POLICY: SpectrumPolicy = {
   fullLimit: CHANNEL_FULL_SPECTRUM_LIMIT,
   topValues: CHANNEL_TOP_VALUES,
 };
@@ -80,9 +80,9 @@ export interface InspectOptions {
 }
 
 /** Top values a sketched (large) gray or luma plane reports, and its sketch settings. */
-export const SKETCH_POLICY = { k: 64, oversample: 16, powerIters: 1 } as const;
+const SKETCH_POLICY = { k: 64, oversample: 16, powerIters: 1 } as const;
 /** The same for the colour channels of a large scan. */
-export const SKETCH_CHANNEL_POLICY = { k: 16, oversample: 8, powerIters: 1 } as const;
+const SKETCH_CHANNEL_POLICY = { k: 16, oversample: 8, powerIters: 1 } as const;
 
 /** BT.601 luma of three planes, unrounded, as Float32Array. */
 export function lumaPlane(r: ArrayLike<number>, g: ArrayLike<number>, b: ArrayLike<number>): Float32Array {

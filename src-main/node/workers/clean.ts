@@ -1,33 +1,13 @@
 /**
  * Denoising worker: runs the patch-group denoiser on one band of rows and writes the band into the shared
- * output planes. Started by src-main/node/services/clean.ts (one worker per band). Every band reads the
+ * output planes. Started by src-main/node/services/clean-bands.ts (one worker per band). Every band reads the
  * whole input and processes, in global order, every group that can reach it, so the output does not
  * depend on how many workers share the image.
  */
 import { parentPort, workerData } from 'node:worker_threads';
 import { toErrorPayload } from '../../contract';
-import { denoiseGroupsBand, type GroupParams } from '../../engine/clean';
-
-export interface CleanWorkerData {
-  width: number;
-  height: number;
-  /** SharedArrayBuffers holding the Float32 input planes (gray, or Y Cb Cr). */
-  input: SharedArrayBuffer[];
-  /** SharedArrayBuffers for the Float32 output planes; this worker writes rows [rowStart, rowEnd). */
-  output: SharedArrayBuffer[];
-  sigmas: number[];
-  params: GroupParams;
-  rowStart: number;
-  rowEnd: number;
-}
-
-export type CleanWorkerMessage =
-  | { type: 'progress'; fraction: number }
-  | {
-      type: 'done';
-      stats: { groups: number; rankSum: number; rankMin: number; rankMax: number; exact: number };
-    }
-  | { type: 'error'; error: ReturnType<typeof toErrorPayload> };
+import { denoiseGroupsBand } from '../../engine/clean';
+import type { CleanWorkerData, CleanWorkerMessage } from '../services/clean-bands';
 
 const data = workerData as CleanWorkerData;
 try {

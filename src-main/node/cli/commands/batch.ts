@@ -123,6 +123,7 @@ async function run(argv: string[], io: CliIO): Promise<number> {
   try {
     const result = await runBatch({
       ...args,
+      libvipsThreads: 1,
       workerFile,
       signal: controller.signal,
       onEvent: (e) => {

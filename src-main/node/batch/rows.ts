@@ -1,0 +1,114 @@
+/**
+ * The manifest row each entry of a batch gets: planned (dry run), kept or compressed (from a finished job),
+ * failed, or skipped (not a regular file). Every row names the shard that wrote it.
+ */
+import { type BatchRow, type CompressOptions, type ErrorPayload, MANIFEST_VERSION } from '../../contract';
+import type { BatchJobResult } from './job';
+import type { PlannedFile, SkippedEntry } from './plan';
+
+/** The row of a planned file before it is compressed (the dry run's row). */
+export function baseRow(f: PlannedFile, shard: string): BatchRow {
+  return {
+    v: MANIFEST_VERSION,
+    path: f.path,
+    output: f.output,
+    inputAbs: f.inputAbs,
+    outputAbs: f.outputAbs,
+    status: 'planned',
+    shard,
+    at: new Date().toISOString(),
+  };
+}
+
+/** The settings that shape an output, as text; --resume redoes a file whose row has other settings. */
+export function settingsText(c: CompressOptions): string {
+  const b = c.budget;
+  const budget =
+    b.kind === 'rank'
+      ? `rank=${b.rank}`
+      : b.kind === 'bytes'
+        ? `bytes=${b.bytes}`
+        : b.kind === 'percent'
+          ? `percent=${b.percent}`
+          : b.kind === 'bpp'
+            ? `bpp=${b.bpp}`
+            : b.kind === 'psnr'
+              ? `min-psnr=${b.db}`
+              : `min-ssim=${b.value}`;
+  return `${budget} tile=${c.tile}${c.page ? ` page=${c.page}` : ''}`;
+}
+
+/** The row of a finished job: kept by its .rkf header, or compressed (and failed when --expand-check failed). */
+export function rowFromResult(f: PlannedFile, shard: string, r: BatchJobResult, settings: string): BatchRow {
+  if (r.kept || !r.report) {
+    const k = r.kept!;
+    return {
+      ...baseRow(f, shard),
+      fileSha256: r.fileSha256,
+      sourceSha256: k.sourceSha256,
+      inputBytes: k.inputBytes,
+      rawBytes: k.rawBytes,
+      bytes: k.bytes,
+      ratio: k.rawBytes / k.bytes,
+      bpp: (8 * k.bytes) / (k.width * k.height),
+      width: k.width,
+      height: k.height,
+      channels: k.channels,
+      bitDepth: k.bitDepth,
+      timeMs: r.timeMs,
+      status: 'kept',
+      // Accepted for this run's settings (the header does not record the budget).
+      settings,
+      note: 'kept: the .rkf header records the same source SHA-256 (no manifest row; PSNR/SSIM not re-measured)',
+    };
+  }
+  const rep = r.report;
+  const row: BatchRow = {
+    settings,
+    ...baseRow(f, shard),
+    fileSha256: r.fileSha256,
+    sourceSha256: rep.sourceSha256,
+    inputBytes: rep.inputBytes,
+    rawBytes: rep.rawBytes,
+    bytes: rep.outputBytes,
+    ratio: rep.ratio,
+    bpp: rep.bpp,
+    psnr: rep.psnr,
+    ssim: rep.ssim,
+    width: rep.width,
+    height: rep.height,
+    channels: rep.channels,
+    bitDepth: rep.bitDepth,
+    ranks: rep.ranks,
+    timeMs: r.timeMs,
+    status: 'ok',
+  };
+  if (r.check) {
+    row.check = r.check;
+    if (!r.check.ok) {
+      row.status = 'failed';
+      row.error = { name: 'CheckError', message: `${f.path}: --expand-check failed: ${r.check.message}` };
+    }
+  }
+  return row;
+}
+
+/** A row for an entry that is not a regular file: listed, never opened, no output. */
+export function skippedRow(e: SkippedEntry, shard: string): BatchRow {
+  return {
+    v: MANIFEST_VERSION,
+    path: e.path,
+    output: '',
+    inputAbs: e.inputAbs,
+    outputAbs: '',
+    status: 'skipped',
+    note: `${e.path} ${e.reason}`,
+    shard,
+    at: new Date().toISOString(),
+  };
+}
+
+/** The row of a file whose job failed. */
+export function failedRow(f: PlannedFile, shard: string, error: ErrorPayload, timeMs?: number): BatchRow {
+  return { ...baseRow(f, shard), status: 'failed', error, inputBytes: f.size, timeMs };
+}

@@ -1,0 +1,72 @@
+/**
+ * What a batch run takes and gives (`runBatch` in run.ts), and the context every step of one run reads.
+ */
+import type { BatchEvent, BatchRow, BatchSummary, CompressOptions, Shard } from '../../contract';
+import type { Plan } from './plan';
+import type { BatchFiles } from './summary';
+import type { BatchCounts } from './tally';
+
+/** Default per-file limit: 30 minutes, far above a 300-megapixel scan on one core. */
+export const DEFAULT_TIMEOUT_MS = 30 * 60 * 1000;
+
+export interface BatchRunOptions {
+  inDir: string;
+  outDir: string;
+  compress: CompressOptions;
+  /** Worker threads. Default: the number of cores. */
+  jobs?: number;
+  /**
+   * libvips threads while the run lasts. libvips' pool is process-wide and shared by every worker, so with 1
+   * batch parallelism comes from `jobs` alone and throughput scales with the job count (docs/cli.md, batch).
+   * The setting the process had comes back when the run returns. Default: leave it as it is.
+   */
+  libvipsThreads?: number;
+  include?: string[];
+  exclude?: string[];
+  shard?: Shard;
+  resume?: boolean;
+  dryRun?: boolean;
+  /** Overwrite existing outputs. */
+  force?: boolean;
+  expandCheck?: boolean;
+  /** Per-file limit in ms; 0 = none. */
+  timeoutMs?: number;
+  /** Manifest path; default OUT_DIR/rankfold-manifest[-IofN].jsonl. The CSV sits beside it. */
+  manifest?: string;
+  /** HTML report path; default beside the manifest. */
+  report?: string;
+  /** Built worker file (dist/workers/batch.js). */
+  workerFile: string | URL;
+  /** Called for every event (start, each file, end). */
+  onEvent?: (e: BatchEvent) => void;
+  /** Called when a job reports progress, with bytes of input finished so far. */
+  onProgress?: (p: BatchCounts) => void;
+  /** Abort: queued files are not started, running ones are stopped; finished rows are kept. */
+  signal?: AbortSignal;
+}
+
+export interface BatchResult {
+  summary: BatchSummary;
+  rows: BatchRow[];
+  /** Non-fatal problems: folders that could not be listed, manifest/report write errors. */
+  warnings: string[];
+  /** Remarks that lose nothing, e.g. a stale lock of a dead run that was taken over. */
+  notices: string[];
+  interrupted: boolean;
+}
+
+/** What every step of one run reads; `warnings` and `notices` collect as it goes. */
+export interface Run {
+  o: BatchRunOptions;
+  inDir: string;
+  outDir: string;
+  shardLabel: string;
+  plan: Plan;
+  jobs: number;
+  files: BatchFiles;
+  settings: string;
+  timeoutMs: number;
+  warnings: string[];
+  notices: string[];
+  started: number;
+}
