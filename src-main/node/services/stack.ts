@@ -10,6 +10,7 @@ import picomatch from 'picomatch';
 import sharp, { type SharpOptions } from 'sharp';
 import {
   type Budget,
+  checkStackOptions,
   type DecodedImage,
   FormatError,
   InputError,
@@ -275,6 +276,7 @@ export function compressStack(
   names: { input?: string; output?: string; inputBytes?: number; decodeMs?: number } = {},
   hooks: StackHooks = {},
 ): { bytes: Uint8Array; report: StackReport } {
+  checkStackOptions(options);
   const input = checkSeries(frames);
   const target = targetFrom(input, options);
   const t0 = performance.now();

@@ -4,7 +4,8 @@
  */
 import {
   type Budget,
-  parseIntegerOption,
+  OPTIONS,
+  parseOptionText,
   type StackCompressOptions,
   type StackReport,
   UsageError,
@@ -64,7 +65,7 @@ function targetFrom(v: Record<string, unknown>): StackCompressOptions {
     prefix: 'compress --stack: ',
     missing:
       'compress --stack: give a budget: --budget SIZE, --bpp X, --rank K, --min-psnr DB or --min-ssim S. See `rankfold compress --help`.',
-    rank: [0, 64],
+    rank: OPTIONS.stackRank,
     floorsCombine: true,
   })) {
     if (b.kind === 'psnr') o.minPsnr = b.db;
@@ -116,7 +117,7 @@ export async function runStack(argv: string[], io: CliIO): Promise<number> {
   o.force = Boolean(v.force);
   o.residuals = v['no-residuals'] ? false : undefined;
   if (v['pixel-limit'] !== undefined)
-    o.pixelLimit = parseIntegerOption('pixel-limit', v['pixel-limit'] as string, 1, 2 ** 40);
+    o.pixelLimit = parseOptionText(OPTIONS.pixelLimit, v['pixel-limit'] as string);
   let last = -1;
   const report = await compressStackFile(input, output, o, {
     onProgress: ({ fraction }) => {
