@@ -201,13 +201,14 @@ export function checkOptional<T>(d: OptionDecl, v: unknown): T | undefined {
 }
 
 /**
- * Turn CLI text into the value a request would carry: integers and numbers written in decimal become
- * numbers; anything else stays text, so {@link checkOption} names it as received.
+ * Turn CLI text into the value a request would carry, so that `--rank 2.5` and `{ rank: 2.5 }` get the same
+ * message: decimal text becomes a number (for integer options, plain decimals only, so `0x10` and `1e3`
+ * stay text); anything else stays text, and {@link checkOption} names it as received.
  */
 export function optionValue(d: OptionDecl, text: string | undefined): unknown {
   if (text === undefined || d.type === 'enum') return text;
   const t = text.trim();
-  if (d.type === 'integer') return /^[+-]?\d+$/.test(t) ? Number(t) : text;
+  if (d.type === 'integer') return /^[+-]?\d+(?:\.\d+)?$/.test(t) ? Number(t) : text;
   return t !== '' && Number.isFinite(Number(t)) ? Number(t) : text;
 }
 

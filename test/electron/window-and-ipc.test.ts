@@ -114,7 +114,9 @@ describe('IPC admission: sender, then the contract validator', () => {
       ok: false,
       reason: 'Expected integer between 16 and 512 for tile but received 8 of type number',
     });
-    expect(admitCall('openScan', page, { source: { kind: 'sample', name: '../../etc/passwd' } })).toMatchObject({
+    expect(
+      admitCall('openScan', page, { source: { kind: 'sample', name: '../../etc/passwd' } }),
+    ).toMatchObject({
       ok: false,
       reason: 'Expected a sample file name for source.name but received "../../etc/passwd" of type string',
     });
