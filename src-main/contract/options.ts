@@ -219,12 +219,9 @@ export function parseOptionText(d: OptionDecl, text: string | undefined): number
   return checkOption(d as NumberOption, optionValue(d, text));
 }
 
-/** The `--help` line of an option: flag and placeholder, padded, then the doc, range and default. */
-export function helpLine(d: OptionDecl, width = 20): string {
-  const arg = d.type === 'enum' ? d.values.join('|') : (d.arg ?? 'N');
-  const range = d.type === 'enum' ? '' : ` (${d.min}–${d.max}${d.unit ? ` ${d.unit}` : ''})`;
-  const def = d.default !== undefined ? `; default ${d.default}` : '';
-  return `  ${`--${d.name} ${arg}`.padEnd(width)}${d.doc}${range}${def}`;
+/** An option's range as `--help` writes it: `1–65535`, or `1–200 dB` with `unit`. */
+export function rangeText(d: NumberOption, unit = false): string {
+  return `${d.min}–${d.max}${unit && d.unit ? ` ${d.unit}` : ''}`;
 }
 
 /** `noise`: 'auto', 'off' or σ above 0 and at most {@link MAX_NOISE} grey levels. */

@@ -8,6 +8,7 @@ import {
   OPTIONS,
   optionValue,
   parseNoiseText,
+  rangeText,
   UsageError,
 } from '../../../contract';
 import { cleanFile } from '../../services/clean';
@@ -44,12 +45,12 @@ cut at the Gavish–Donoho optimal hard threshold (2014), and the groups are ble
   --noise auto        estimate σ from the image (default); nothing is done below rounding level
   --noise SIGMA       the noise σ in grey levels of the input (per colour channel)
   --noise off         do not denoise
-  --rank K            keep exactly K components per patch group instead of the threshold (0–144)
+  --rank K            keep exactly K components per patch group instead of the threshold (${rangeText(OPTIONS.cleanRank)})
   --threshold T       keep singular values above T (grey levels) per group instead of the rule
   --method M          groups (default) or tiles (overlapping tiles with Hann blending; simpler, weaker)
-  --patch N           patch side 4–12 (default from σ: 6, 7 or 8);  --group-size N  patches per group 8–96
-  --tile N            tile side 8–128 for --method tiles (default from σ)
-  --workers N         worker threads, 0–64 (default 2); the output is identical for any number
+  --patch N           patch side ${rangeText(OPTIONS.patch)} (default from σ: 6, 7 or 8);  --group-size N  patches per group ${rangeText(OPTIONS.groupSize)}
+  --tile N            tile side ${rangeText(OPTIONS.cleanTile)} for --method tiles (default from σ)
+  --workers N         worker threads, ${rangeText(OPTIONS.workers)} (default ${OPTIONS.workers.default}); the output is identical for any number
 
 Banding (stripes along rows or columns, removed as a rank-one pattern):
   --banding auto      detect and remove what is found (default); a clean image is left untouched

@@ -6,6 +6,7 @@ import {
   type Budget,
   OPTIONS,
   parseOptionText,
+  rangeText,
   type StackCompressOptions,
   type StackReport,
   UsageError,
@@ -37,7 +38,7 @@ All frames must have the same size, bit depth (8 or 16) and colour model (gray o
 Budgets, for the whole series:
   --budget SIZE     at most SIZE on disk: 250kB, 1.5MB, 2MiB, 120000 (bytes) or 5% of the raw samples
   --bpp X           at most X bits per pixel on disk, counted over all frames
-  --rank K          keep K eigen-frames per channel (0–64), finely quantised, no residuals
+  --rank K          keep K eigen-frames per channel (${rangeText(OPTIONS.stackRank)}), finely quantised, no residuals
   --min-psnr DB     every frame's PSNR at least DB (the worst frame must meet it); the smallest file found.
                     May be combined with --budget or --bpp: then both must hold.
   --min-ssim S      every frame's SSIM (Wang et al. 2004) at least S

@@ -1,5 +1,5 @@
 /** `rankfold compress IN -o OUT.rkf`: write a .rkf file that meets a storage budget or a quality floor. */
-import { type CompressReport, OPTIONS, parseOptionText, UsageError } from '../../../contract';
+import { type CompressReport, OPTIONS, parseOptionText, rangeText, UsageError } from '../../../contract';
 import { compressFile } from '../../services/compress';
 import { BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from '../budget-options';
 import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
@@ -31,7 +31,7 @@ Budgets (give exactly one):
 
 Options:
   -o, --output FILE   output .rkf file (required)
-  --tile N|auto|0     tile side 16–512, auto (best of 32, 64, 128 for the budget) or 0 for whole planes.
+  --tile N|auto|0     tile side ${rangeText(OPTIONS.tile)}, auto (best of 32, 64, 128 for the budget) or 0 for whole planes.
                       Default: auto (whole planes with --rank)
   --layers auto|base  auto (default): under --budget or --bpp, the low-rank base plus a wavelet-coded
                       residual layer, split by the least error at the budget (rank 0 and no residual are
