@@ -8,6 +8,7 @@
  */
 
 import type { Budget, CompressReport, TileChoice } from './compress';
+import type { ApiCalls } from './methods';
 
 /** Where a scan comes from. */
 export type ScanSource =
@@ -199,27 +200,17 @@ export interface ProgressEvent {
   message?: string;
 }
 
-/** The API the page calls. Both transports implement it; every method rejects with a RankfoldError payload. */
-export interface RankfoldApi {
+/**
+ * The API the page calls. Both transports implement it; every method rejects with a RankfoldError payload.
+ * The request/result methods (and their docs) come from the method table in ./methods; only the calls
+ * whose page-side form differs from the wire form are written here.
+ */
+export interface RankfoldApi extends Omit<ApiCalls, 'upload' | 'openReport' | 'dropped'> {
   transport(): 'ipc' | 'http';
-  listSamples(): Promise<SampleInfo[]>;
-  listRecent(): Promise<string[]>;
   /** Upload bytes of a file the user picked in the page (browser mode); returns an upload id. */
   upload(name: string, bytes: ArrayBuffer): Promise<string>;
-  pick(req: PickRequest): Promise<PickResult>;
-  openScan(req: OpenScanRequest): Promise<ScanSummary>;
-  /** σ, U, V of every plane plus the source planes, once, in the {@link encodeFactorSet} layout. */
-  factors(req: FactorRequest): Promise<ArrayBuffer>;
-  evaluate(req: EvaluateRequest): Promise<EvaluateResult>;
-  clean(req: CleanRequest): Promise<CleanResult>;
-  /** Planes kept on the back end (cleaned/removed, or a tiled preview), in the factor-set layout. */
-  fetchImages(imagesId: string): Promise<ArrayBuffer>;
-  /** One decoded frame of a stack file (`src.p` blocks) with the stack's summary in `header.stack`. */
-  stackFrame(req: StackFrameRequest): Promise<ArrayBuffer>;
-  save(req: SaveRequest): Promise<SaveResult>;
-  batch(req: BatchRequest): Promise<BatchResult>;
+  /** Show a batch report: the system viewer (desktop) or a new tab (browser mode). */
   openReport(reportId: string): Promise<void>;
-  cancel(job: string): Promise<void>;
   /** Subscribe to progress; returns an unsubscribe function. The callback never sees a transport event object. */
   onProgress(cb: (e: ProgressEvent) => void): () => void;
   /** Files dropped on or opened from the shell (menu, recent files, drag-drop in Electron). */

@@ -105,10 +105,13 @@ function none(name: string) {
 
 /** The methods, in the order the page's API lists them. */
 export const METHODS = {
+  /** The bundled demo scans. */
   listSamples: method<SampleInfo[]>()({ validate: none('listSamples') }),
+  /** Recently opened files, newest first. */
   listRecent: method<string[]>()({ validate: none('listRecent') }),
   /** Bytes of a file the user picked in the page; returns an upload id. HTTP sends them as the body of /api/upload. */
   upload: method<string>()({ validate: checkUpload }),
+  /** Ask the user for a file, folder or save target (a dialog, or the path typed in browser mode). */
   pick: method<PickResult>()({
     validate: (v): PickRequest => {
       const o = checkFields('pick', v, ['kind', 'suggested']);
@@ -118,12 +121,14 @@ export const METHODS = {
       };
     },
   }),
+  /** Open a scan (a path, a sample or an upload); one scan is open at a time. */
   openScan: method<ScanSummary>()({
     validate: (v): OpenScanRequest => {
       const o = checkFields('openScan', v, ['source', 'page']);
       return { source: checkSource(o.source), page: checkOptional(OPTIONS.page, o.page) };
     },
   }),
+  /** σ, U, V of every plane plus the source planes, once, in the {@link encodeFactorSet} layout. */
   factors: method<ArrayBuffer>()({
     binary: true,
     validate: (v): FactorRequest => {
@@ -136,6 +141,7 @@ export const METHODS = {
       };
     },
   }),
+  /** The encoder's real figures at a budget: what `rankfold compress --json` prints for it. */
   evaluate: method<EvaluateResult>()({
     validate: (v): EvaluateRequest => {
       const o = checkFields('evaluate', v, ['scanId', 'budget', 'tile', 'job']);
@@ -147,6 +153,7 @@ export const METHODS = {
       };
     },
   }),
+  /** Clean the open scan; the planes come with {@link CleanResult.imagesId}. */
   clean: method<CleanResult>()({
     validate: (v): CleanRequest => {
       const o = checkFields('clean', v, ['scanId', 'settings', 'job']);
@@ -157,7 +164,9 @@ export const METHODS = {
       };
     },
   }),
+  /** Planes kept on the back end (cleaned/removed, or a tiled preview), in the factor-set layout. */
   fetchImages: method<ArrayBuffer>()({ binary: true, validate: (v) => checkId('imagesId', v) }),
+  /** One decoded frame of a stack file (`src.p` blocks) with the stack's summary in `header.stack`. */
   stackFrame: method<ArrayBuffer>()({
     binary: true,
     validate: (v): StackFrameRequest => {
@@ -165,6 +174,7 @@ export const METHODS = {
       return { path: checkPath('path', o.path), frame: checkOption(OPTIONS.frame, o.frame) };
     },
   }),
+  /** Write the .rkf, the expanded or the cleaned image, or hand it back for a download. */
   save: method<SaveResult>()({
     validate: (v): SaveRequest => {
       const o = checkFields('save', v, [
@@ -189,6 +199,7 @@ export const METHODS = {
       };
     },
   }),
+  /** Compress a chosen folder into a chosen folder, with progress events. */
   batch: method<BatchResult>()({
     validate: (v): BatchRequest => {
       const o = checkFields('batch', v, ['input', 'output', 'budget', 'tile', 'force', 'job']);
@@ -204,6 +215,7 @@ export const METHODS = {
   }),
   /** Desktop: the main process opens the report in the system viewer. Browser mode opens /api/report/ID. */
   openReport: method<string | undefined>()({ validate: (v) => checkId('reportId', v), transports: ['ipc'] }),
+  /** Cancel a job by its id (no error when it has already finished). */
   cancel: method<void>()({ validate: (v) => checkId('job', v) }),
   /** Desktop only: a file or folder dropped on the window; the shell records it as chosen. */
   dropped: method<DroppedResult>()({ validate: (v) => checkPath('path', v), transports: ['ipc'] }),
@@ -249,7 +261,7 @@ export function dispatch(handlers: Handlers, method: ApiMethod, payload: unknown
 
 /** A call stub per method: no argument when the method takes none. */
 export type ApiCalls = {
-  [M in ApiMethod]: RequestOf<M> extends undefined
+  [M in keyof typeof METHODS]: RequestOf<M> extends undefined
     ? () => Promise<ResultOf<M>>
     : (req: RequestOf<M>) => Promise<ResultOf<M>>;
 };
