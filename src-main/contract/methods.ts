@@ -50,10 +50,7 @@ const method =
     spec;
 
 const ID_RE = /^[A-Za-z0-9_-]{1,64}$/;
-/** Largest rank a factors request may ask for. */
-export const MAX_RANK = OPTIONS.maxRank.max;
-
-export function checkId(name: string, v: unknown): string {
+function checkId(name: string, v: unknown): string {
   if (!is.string(v) || !ID_RE.test(v))
     throw invalidParameterError(name, 'an id of 1–64 letters, digits, - or _', v);
   return v;

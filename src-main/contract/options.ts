@@ -178,7 +178,7 @@ export const OPTIONS = {
 } as const;
 
 /** Highest noise σ accepted, in grey levels (the 16-bit sample scale). */
-export const MAX_NOISE = 65535;
+const MAX_NOISE = 65535;
 const NOISE_EXPECTED = 'auto, off or a noise σ above 0 in grey levels (e.g. 8)';
 
 function expectedOf(d: NumberOption): string {

@@ -28,7 +28,7 @@ export function hasControl(s: string, c1 = false): boolean {
 }
 
 /** Lower-case extension with its dot, or ''. */
-export function extensionOf(name: string): string {
+function extensionOf(name: string): string {
   const dot = name.lastIndexOf('.');
   return dot > 0 ? name.slice(dot).toLowerCase() : '';
 }

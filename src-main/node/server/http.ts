@@ -204,8 +204,9 @@ export async function startServer(options: ServeOptions): Promise<RunningServer>
         throw new UsageError('Request body is not valid JSON');
       }
       // The upload's bytes travel as a body of their own (above), never inside JSON.
-      const method = parts[2] === 'upload' ? undefined : parts[2];
-      const call = validateRequest(method, payload, 'http');
+      if (parts[2] === 'upload')
+        throw new UsageError('Upload sends the file bytes as the body of /api/upload?name=, not as JSON');
+      const call = validateRequest(parts[2], payload, 'http');
       return sendReply(res, await replyTo(() => backend.call(call.method, call.payload)));
     }
     return sendError(res, 404, new UsageError(`No API ${url.pathname}`));

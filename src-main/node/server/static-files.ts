@@ -6,7 +6,7 @@ import { extname, join, normalize, sep } from 'node:path';
 import { hasControl } from '../../contract';
 
 /** Content types of the files the page is built from; anything else is not served. */
-export const PAGE_TYPES: Record<string, string> = {
+const PAGE_TYPES: Record<string, string> = {
   '.html': 'text/html; charset=utf-8',
   '.js': 'text/javascript; charset=utf-8',
   '.css': 'text/css; charset=utf-8',
