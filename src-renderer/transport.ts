@@ -3,7 +3,7 @@
  * the page talks HTTP + Server-Sent Events to `rankfold serve` with the token from its own URL.
  * Both implement the same contract, so the rest of the page cannot tell which one it has.
  */
-import { fromErrorPayload, type ProgressEvent, type RankfoldApi } from '../src-main/contract';
+import { apiCalls, type ProgressEvent, type RankfoldApi, unwrapReply } from '../src-main/contract';
 
 declare global {
   interface Window {
@@ -21,6 +21,7 @@ class HttpApi implements RankfoldApi {
     return 'http';
   }
 
+  /** One POST per call; a binary result comes back as bytes, anything else as the contract's reply. */
   private async post(method: string, payload?: unknown): Promise<unknown> {
     const res = await fetch(`/api/call/${method}`, {
       method: 'POST',
@@ -29,51 +30,31 @@ class HttpApi implements RankfoldApi {
     });
     if ((res.headers.get('content-type') ?? '').startsWith('application/octet-stream'))
       return res.arrayBuffer();
-    const body = (await res.json()) as {
-      ok: boolean;
-      value?: unknown;
-      error?: { name: string; message: string };
-    };
-    if (!body.ok) throw fromErrorPayload(body.error ?? { name: 'Error', message: `HTTP ${res.status}` });
-    return body.value;
+    return unwrapReply(await res.json(), `HTTP ${res.status}`);
   }
 
-  listSamples = () => this.post('listSamples') as ReturnType<RankfoldApi['listSamples']>;
-  listRecent = () => this.post('listRecent') as ReturnType<RankfoldApi['listRecent']>;
-  pick = (req: Parameters<RankfoldApi['pick']>[0]) =>
-    this.post('pick', req) as ReturnType<RankfoldApi['pick']>;
-  openScan = (req: Parameters<RankfoldApi['openScan']>[0]) =>
-    this.post('openScan', req) as ReturnType<RankfoldApi['openScan']>;
-  factors = (req: Parameters<RankfoldApi['factors']>[0]) => this.post('factors', req) as Promise<ArrayBuffer>;
-  evaluate = (req: Parameters<RankfoldApi['evaluate']>[0]) =>
-    this.post('evaluate', req) as ReturnType<RankfoldApi['evaluate']>;
-  clean = (req: Parameters<RankfoldApi['clean']>[0]) =>
-    this.post('clean', req) as ReturnType<RankfoldApi['clean']>;
-  fetchImages = (id: string) => this.post('fetchImages', id) as Promise<ArrayBuffer>;
-  stackFrame = (req: Parameters<RankfoldApi['stackFrame']>[0]) =>
-    this.post('stackFrame', req) as Promise<ArrayBuffer>;
-  save = (req: Parameters<RankfoldApi['save']>[0]) =>
-    this.post('save', req) as ReturnType<RankfoldApi['save']>;
-  batch = (req: Parameters<RankfoldApi['batch']>[0]) =>
-    this.post('batch', req) as ReturnType<RankfoldApi['batch']>;
-  cancel = async (job: string) => {
-    await this.post('cancel', job);
-  };
+  private readonly calls = apiCalls((method, payload) => this.post(method, payload));
+  listSamples = this.calls.listSamples;
+  listRecent = this.calls.listRecent;
+  pick = this.calls.pick;
+  openScan = this.calls.openScan;
+  factors = this.calls.factors;
+  evaluate = this.calls.evaluate;
+  clean = this.calls.clean;
+  fetchImages = this.calls.fetchImages;
+  stackFrame = this.calls.stackFrame;
+  save = this.calls.save;
+  batch = this.calls.batch;
+  cancel = this.calls.cancel;
 
+  /** The one binary request: the name in `?name=`, the bytes as the body (see METHODS.upload). */
   async upload(name: string, bytes: ArrayBuffer): Promise<string> {
     const res = await fetch(`/api/upload?name=${encodeURIComponent(name)}`, {
       method: 'POST',
       headers: { 'Content-Type': 'application/octet-stream', 'X-Rankfold-Token': this.token },
       body: bytes,
     });
-    const body = (await res.json()) as {
-      ok: boolean;
-      value?: string;
-      error?: { name: string; message: string };
-    };
-    if (!body.ok || !body.value)
-      throw fromErrorPayload(body.error ?? { name: 'Error', message: `upload failed (HTTP ${res.status})` });
-    return body.value;
+    return unwrapReply(await res.json(), `upload failed (HTTP ${res.status})`) as string;
   }
 
   async openReport(reportId: string): Promise<void> {

@@ -1,5 +1,7 @@
 /** Requests and results of `clean`, shared by the CLI, the worker pool, IPC and HTTP. */
 import { UsageError } from './errors';
+import { checkNoise, checkOptional, OPTIONS } from './options';
+import { is } from './validate';
 
 /** 'auto' estimates σ from the image; a number is σ in grey levels of the input; 'off' skips denoising. */
 export type NoiseMode = 'auto' | 'off' | number;
@@ -8,8 +10,8 @@ export type BandingDirectionResult = 'none' | 'rows' | 'columns' | 'both';
 /** 'groups' = block-matched patch groups (default); 'tiles' = overlapping tiles with Hann blending. */
 export type DenoiseMethod = 'groups' | 'tiles';
 
-export const BANDING_MODES: readonly BandingMode[] = ['auto', 'rows', 'columns', 'both', 'off'];
-export const DENOISE_METHODS: readonly DenoiseMethod[] = ['groups', 'tiles'];
+export const BANDING_MODES: readonly BandingMode[] = OPTIONS.banding.values;
+export const DENOISE_METHODS: readonly DenoiseMethod[] = OPTIONS.method.values;
 
 export interface CleanOptions {
   noise: NoiseMode;
@@ -114,14 +116,24 @@ export interface CleanReport {
   caution: string;
 }
 
-/** Parse `--noise auto|off|SIGMA`. */
-export function parseNoiseText(text: string, maxValue = 65535): NoiseMode {
-  const t = text.trim().toLowerCase();
-  if (t === 'auto' || t === 'off') return t;
-  const v = Number(t);
-  if (t === '' || !Number.isFinite(v) || !(v > 0) || v > maxValue)
-    throw new UsageError(
-      `Expected auto, off or a noise σ above 0 in grey levels (e.g. 8) for noise but received ${JSON.stringify(text)}`,
-    );
-  return v;
+/**
+ * Check and complete `clean` options (noise and banding default to 'auto'); the one validator the CLI,
+ * the app's requests and the service share. @throws UsageError naming the option.
+ */
+export function checkCleanOptions(options: Partial<CleanOptions>): CleanOptions {
+  if (!is.plainObject(options)) throw new UsageError('Expected an object for clean options');
+  const noise = checkNoise(options.noise ?? 'auto');
+  const banding = checkOptional<BandingMode>(OPTIONS.banding, options.banding ?? 'auto') as BandingMode;
+  checkOptional(OPTIONS.cleanRank, options.rank);
+  checkOptional(OPTIONS.threshold, options.threshold);
+  checkOptional(OPTIONS.method, options.method);
+  checkOptional(OPTIONS.patch, options.patch);
+  checkOptional(OPTIONS.groupSize, options.groupSize);
+  checkOptional(OPTIONS.cleanTile, options.tile);
+  checkOptional(OPTIONS.workers, options.workers);
+  checkOptional(OPTIONS.page, options.page);
+  checkOptional(OPTIONS.pixelLimit, options.pixelLimit);
+  if (noise === 'off' && banding === 'off')
+    throw new UsageError('Nothing to do: both --noise and --banding are off.');
+  return { ...options, noise, banding };
 }

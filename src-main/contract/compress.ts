@@ -1,5 +1,4 @@
 /** Requests and results of `compress` and `expand`, shared by the CLI, the worker pool, IPC and HTTP. */
-import { UsageError } from './errors';
 
 /** What the user asks for. Exactly one kind. */
 export type Budget =
@@ -146,42 +145,4 @@ export interface ExpandReport {
   metadata: { icc: boolean; density?: number; orientation?: number };
   /** decodeMs covers reading, validating and decoding the container. */
   timings: { decodeMs: number; writeMs: number };
-}
-
-const SIZE_UNITS: Record<string, number> = {
-  b: 1,
-  kb: 1e3,
-  mb: 1e6,
-  gb: 1e9,
-  kib: 1024,
-  mib: 1024 ** 2,
-  gib: 1024 ** 3,
-};
-
-/**
- * Parse `--budget` text: `250kB`, `1.5MB`, `2MiB`, `120000` (bytes) or `5%` (of the raw sample bytes).
- * kB/MB/GB are decimal (SI); KiB/MiB/GiB are binary (IEC 80000-13).
- * @throws UsageError with the exact text it could not read.
- */
-export function parseBudgetText(text: string): Budget {
-  const t = text.trim();
-  const pct = /^(\d+(?:\.\d+)?)\s*%$/.exec(t);
-  if (pct) {
-    const percent = Number(pct[1]);
-    if (!(percent > 0 && percent <= 100))
-      throw new UsageError(
-        `Expected a percentage above 0 and at most 100 for budget but received ${JSON.stringify(text)}`,
-      );
-    return { kind: 'percent', percent };
-  }
-  const m = /^(\d+(?:\.\d+)?)\s*([a-zA-Z]*)$/.exec(t);
-  const unit = m ? (m[2] || 'b').toLowerCase() : '';
-  if (!m || !(unit in SIZE_UNITS))
-    throw new UsageError(
-      `Expected a size such as 250kB, 1.5MB, 2MiB or 5% for budget but received ${JSON.stringify(text)}`,
-    );
-  const bytes = Math.floor(Number(m[1]) * SIZE_UNITS[unit]);
-  if (!(bytes >= 64))
-    throw new UsageError(`Expected a budget of at least 64 bytes but received ${JSON.stringify(text)}`);
-  return { kind: 'bytes', bytes };
 }

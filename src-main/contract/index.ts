@@ -5,10 +5,17 @@
 
 export * from './api';
 export * from './batch';
+export * from './budget';
+export * from './cautions';
 export * from './clean';
 export * from './compress';
 export * from './errors';
+export * from './factor-set';
 export * from './image';
 export * from './inspect';
+export * from './methods';
+export * from './options';
+export * from './replies';
 export * from './stack';
+export * from './upload';
 export * from './validate';

@@ -2,7 +2,8 @@
  * `inspect`: what a scan is made of — size, depth, channels and its singular-value spectrum.
  * Spoken by the CLI (`rankfold inspect --json`), the services and any transport.
  */
-import { checkInteger, checkString, invalidParameterError, is } from './validate';
+import { checkOption, OPTIONS } from './options';
+import { checkString, invalidParameterError, is } from './validate';
 
 export interface InspectRequest {
   /** Path of the scan (PNG, TIFF, JPEG or WebP). */
@@ -112,7 +113,7 @@ export interface InspectReport {
 export function checkInspectRequest(v: unknown): InspectRequest {
   if (!is.plainObject(v)) throw invalidParameterError('inspect request', 'an object', v);
   const out: InspectRequest = { file: checkString('file', v.file) };
-  if (v.page !== undefined) out.page = checkInteger('page', v.page, 0, 100_000);
-  if (v.pixelLimit !== undefined) out.pixelLimit = checkInteger('pixelLimit', v.pixelLimit, 1, 2 ** 42);
+  if (v.page !== undefined) out.page = checkOption(OPTIONS.page, v.page);
+  if (v.pixelLimit !== undefined) out.pixelLimit = checkOption(OPTIONS.pixelLimit, v.pixelLimit);
   return out;
 }

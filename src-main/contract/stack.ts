@@ -1,6 +1,9 @@
 /** Requests and results of stack mode (`compress --stack`, `expand --frame`), shared by CLI, IPC and HTTP. */
+
+import { checkBudget } from './budget';
 import type { Budget } from './compress';
-import { checkInteger, checkNumber, invalidParameterError, is } from './validate';
+import { checkOptional, OPTIONS } from './options';
+import { invalidParameterError, is } from './validate';
 
 export interface StackCompressOptions {
   /**
@@ -91,13 +94,17 @@ export interface StackExpandReport {
   sources: Array<{ index: number; name?: string; sourceSha256?: string }>;
 }
 
-/** Validate stack options coming over IPC/HTTP. @throws UsageError in the common format. */
+/**
+ * Validate stack options (from the CLI, IPC or HTTP): a budget (rank = eigen-frames, 0–64) or a per-frame
+ * floor or both, with the ranges of ./options. @throws UsageError in the common format.
+ */
 export function checkStackOptions(o: unknown): StackCompressOptions {
   if (!is.plainObject(o)) throw invalidParameterError('stack options', 'an object', o);
   const v = o as StackCompressOptions;
-  if (v.minPsnr !== undefined) checkNumber('minPsnr', v.minPsnr, 1, 200);
-  if (v.minSsim !== undefined) checkNumber('minSsim', v.minSsim, 0.01, 1);
-  if (v.pixelLimit !== undefined) checkInteger('pixelLimit', v.pixelLimit, 1, 2 ** 40);
+  if (v.budget !== undefined) checkBudget(v.budget, OPTIONS.stackRank);
+  checkOptional(OPTIONS.minPsnr, v.minPsnr);
+  checkOptional(OPTIONS.minSsim, v.minSsim);
+  checkOptional(OPTIONS.pixelLimit, v.pixelLimit);
   if (v.frames !== undefined && !(is.string(v.frames) && v.frames.length > 0 && v.frames.length < 1024))
     throw invalidParameterError('frames', 'a non-empty glob of at most 1023 characters', v.frames);
   if (v.budget === undefined && v.minPsnr === undefined && v.minSsim === undefined)

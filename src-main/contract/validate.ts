@@ -47,7 +47,12 @@ export function checkNumber(name: string, v: unknown, lo: number, hi: number): n
 }
 
 export function checkOneOf<T extends string>(name: string, v: unknown, values: readonly T[]): T {
-  if (!is.oneOf(v, values)) throw invalidParameterError(name, `one of ${values.join(', ')}`, v);
+  if (!is.oneOf(v, values))
+    throw invalidParameterError(
+      name,
+      values.length === 2 ? `${values[0]} or ${values[1]}` : `one of ${values.join(', ')}`,
+      v,
+    );
   return v as T;
 }
 
@@ -60,16 +65,4 @@ export function checkString(name: string, v: unknown, maxLength = 4096): string 
 export function checkBool(name: string, v: unknown): boolean {
   if (!is.bool(v)) throw invalidParameterError(name, 'boolean', v);
   return v;
-}
-
-/** Parse a CLI integer such as `--rank 50`; the error names the option. */
-export function parseIntegerOption(name: string, text: string | undefined, lo: number, hi: number): number {
-  const v = text !== undefined && /^[+-]?\d+$/.test(text.trim()) ? Number(text) : text;
-  return checkInteger(name, v, lo, hi);
-}
-
-/** Parse a CLI number such as `--bpp 0.5`. */
-export function parseNumberOption(name: string, text: string | undefined, lo: number, hi: number): number {
-  const v = text !== undefined && text.trim() !== '' && Number.isFinite(Number(text)) ? Number(text) : text;
-  return checkNumber(name, v, lo, hi);
 }

@@ -1,4 +1,4 @@
-/** IPC channel names shared by the main process and the preload. */
+/** IPC channel names shared by the main process and the preload: one per contract method, `rankfold:<method>`. */
 export const CHANNEL_PREFIX = 'rankfold:';
 /** Channels the main process sends on (the preload wraps them). */
 export const EVENT_CHANNELS = {
@@ -6,5 +6,3 @@ export const EVENT_CHANNELS = {
   openPath: 'rankfold:event:open-path',
   menu: 'rankfold:event:menu',
 } as const;
-/** Desktop-only request: bytes of a file picked in the page. */
-export const UPLOAD_CHANNEL = 'rankfold:upload';

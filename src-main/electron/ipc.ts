@@ -1,87 +1,71 @@
 /**
  * One wrapper for every IPC handler: it checks that the sender is our page's main frame and that the
- * payload passes the contract's validator, logs each refusal with its reason, and returns results as
- * `{ ok, value }` / `{ ok: false, error }` so errors reach the page as plain `{ name, message }`.
+ * payload passes the contract's validator, logs each refusal with its reason, and returns results as the
+ * contract's replies (`{ ok, value }` / `{ ok: false, error }`, src-main/contract/replies.ts), built the same
+ * way as browser mode's, so a refusal reads the same on either transport.
  */
 import type { IpcMain, IpcMainInvokeEvent } from 'electron';
-import { API_METHODS, type ApiMethod, toErrorPayload, UsageError, validateRequest } from '../contract';
-import { CHANNEL_PREFIX, UPLOAD_CHANNEL } from './channels';
+import {
+  API_METHODS,
+  type ApiMethod,
+  carries,
+  type ErrorPayload,
+  type Reply,
+  replyTo,
+  toErrorPayload,
+  UsageError,
+  validateRequest,
+} from '../contract';
+import { CHANNEL_PREFIX } from './channels';
 import { checkSenderFrame } from './sender';
 
-export { CHANNEL_PREFIX, EVENT_CHANNELS, UPLOAD_CHANNEL } from './channels';
+export { CHANNEL_PREFIX, EVENT_CHANNELS } from './channels';
 
-export type IpcReply = { ok: true; value: unknown } | { ok: false; error: { name: string; message: string } };
+export type IpcReply = Reply;
 
 /**
- * Check one call; returns the validated payload or the refusal reason. Pure, so tests need no Electron.
+ * Check one call; returns the validated payload, or the refusal's reason and the error the page receives
+ * (a foreign sender gets `Refused: …`; a bad payload gets the validator's own message, as over HTTP).
+ * Pure, so tests need no Electron.
  */
 export function admitCall(
   method: string,
   frame: { url: string; parent: unknown } | null | undefined,
   payload: unknown,
-): { ok: true; method: ApiMethod; payload: unknown } | { ok: false; reason: string } {
+): { ok: true; method: ApiMethod; payload: unknown } | { ok: false; reason: string; error: ErrorPayload } {
   const bad = checkSenderFrame(frame);
-  if (bad) return { ok: false, reason: bad };
+  if (bad) return { ok: false, reason: bad, error: toErrorPayload(new UsageError(`Refused: ${bad}`)) };
   try {
-    const r = validateRequest(method, payload);
+    const r = validateRequest(method, payload, 'ipc');
     return { ok: true, method: r.method, payload: r.payload };
   } catch (err) {
-    return { ok: false, reason: err instanceof Error ? err.message : String(err) };
+    return {
+      ok: false,
+      reason: err instanceof Error ? err.message : String(err),
+      error: toErrorPayload(err),
+    };
   }
-}
-
-/** Validate an upload: a file name and its bytes. */
-export function admitUpload(
-  frame: { url: string; parent: unknown } | null | undefined,
-  name: unknown,
-  bytes: unknown,
-) {
-  const bad = checkSenderFrame(frame);
-  if (bad) return { ok: false as const, reason: bad };
-  if (typeof name !== 'string' || name.length === 0 || name.length > 255 || /[\\/\0]/.test(name))
-    return { ok: false as const, reason: 'upload needs a plain file name' };
-  if (!(bytes instanceof Uint8Array) && !(bytes instanceof ArrayBuffer))
-    return { ok: false as const, reason: 'upload needs the file bytes' };
-  return { ok: true as const, name, bytes: bytes instanceof ArrayBuffer ? new Uint8Array(bytes) : bytes };
 }
 
 export interface IpcTarget {
   call(method: ApiMethod, payload: unknown): Promise<unknown>;
-  upload(name: string, data: Uint8Array): Promise<string>;
 }
 
-/** Register every handler through the one wrapper. */
+/** Register every method the contract lets IPC carry, through the one wrapper. */
 export function registerIpc(
-  ipc: IpcMain,
+  ipc: Pick<IpcMain, 'handle'>,
   target: IpcTarget,
   log: (msg: string) => void = console.warn,
 ): void {
-  const refuse = (channel: string, reason: string): IpcReply => {
-    log(`rankfold: refused IPC ${channel}: ${reason}`);
-    return { ok: false, error: toErrorPayload(new UsageError(`Refused: ${reason}`)) };
-  };
-  for (const method of API_METHODS) {
+  for (const method of API_METHODS.filter((m) => carries(m, 'ipc'))) {
     const channel = CHANNEL_PREFIX + method;
     ipc.handle(channel, async (event: IpcMainInvokeEvent, payload: unknown): Promise<IpcReply> => {
       const admitted = admitCall(method, event.senderFrame, payload);
-      if (!admitted.ok) return refuse(channel, admitted.reason);
-      try {
-        return { ok: true, value: (await target.call(admitted.method, admitted.payload)) ?? null };
-      } catch (err) {
-        return { ok: false, error: toErrorPayload(err) };
+      if (!admitted.ok) {
+        log(`rankfold: refused IPC ${channel}: ${admitted.reason}`);
+        return { ok: false, error: admitted.error };
       }
+      return replyTo(() => target.call(admitted.method, admitted.payload));
     });
   }
-  ipc.handle(
-    UPLOAD_CHANNEL,
-    async (event: IpcMainInvokeEvent, name: unknown, bytes: unknown): Promise<IpcReply> => {
-      const admitted = admitUpload(event.senderFrame, name, bytes);
-      if (!admitted.ok) return refuse(UPLOAD_CHANNEL, admitted.reason);
-      try {
-        return { ok: true, value: await target.upload(admitted.name, admitted.bytes) };
-      } catch (err) {
-        return { ok: false, error: toErrorPayload(err) };
-      }
-    },
-  );
 }

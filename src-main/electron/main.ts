@@ -152,7 +152,6 @@ app.whenReady().then(async () => {
       }
       return value;
     },
-    upload: (name, data) => backend.upload(name, data),
   });
   buildMenu();
   createWindow();

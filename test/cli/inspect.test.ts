@@ -247,7 +247,7 @@ describe('rankfold inspect errors: stderr, non-zero exit, nothing on stdout', ()
     await expectFailure([], 'inspect: no input file given');
     await expectFailure(
       [image('camera.png'), '--page', 'two'],
-      'Expected integer between 0 and 100000 for --page but received "two" of type string',
+      'Expected integer between 0 and 100000 for page but received "two" of type string',
     );
     await expectFailure([image('camera.png'), '--page', '1'], 'has 1 page; page 1 does not exist');
   });

@@ -8,7 +8,7 @@
  */
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { admitCall, admitUpload } from '../../src-main/electron/ipc';
+import { admitCall } from '../../src-main/electron/ipc';
 import { buildMenuTemplate } from '../../src-main/electron/menu';
 import { resolvePageFile } from '../../src-main/electron/protocol-files';
 import { checkSenderFrame, isTrustedSenderUrl } from '../../src-main/electron/sender';
@@ -95,52 +95,59 @@ describe('IPC admission: sender, then the contract validator', () => {
   });
   it('refuses a foreign sender before looking at the payload', () => {
     const r = admitCall('listSamples', top('https://evil.example/'), undefined);
-    expect(r).toEqual({ ok: false, reason: 'sender "https://evil.example/" is not the Rankfold page' });
+    expect(r).toMatchObject({ ok: false, reason: 'sender "https://evil.example/" is not the Rankfold page' });
   });
   it('refuses an unknown method and a bad payload with the one error format', () => {
-    expect(admitCall('readFile', page, '/etc/passwd')).toEqual({
+    expect(admitCall('readFile', page, '/etc/passwd')).toMatchObject({
       ok: false,
       reason: 'Unknown API method "readFile"',
     });
     expect(
       admitCall('evaluate', page, { scanId: 'abc', budget: { kind: 'rank', rank: 0 }, tile: 0, job: 'j1' }),
-    ).toEqual({
+    ).toMatchObject({
       ok: false,
-      reason: 'Expected integer between 1 and 4096 for budget.rank but received 0 of type number',
+      reason: 'Expected integer between 1 and 65535 for rank but received 0 of type number',
     });
     expect(
       admitCall('evaluate', page, { scanId: 'abc', budget: { kind: 'rank', rank: 5 }, tile: 8, job: 'j1' }),
-    ).toEqual({
+    ).toMatchObject({
       ok: false,
       reason: 'Expected integer between 16 and 512 for tile but received 8 of type number',
     });
-    expect(admitCall('openScan', page, { source: { kind: 'sample', name: '../../etc/passwd' } })).toEqual({
+    expect(
+      admitCall('openScan', page, { source: { kind: 'sample', name: '../../etc/passwd' } }),
+    ).toMatchObject({
       ok: false,
       reason: 'Expected a sample file name for source.name but received "../../etc/passwd" of type string',
     });
-    expect(admitCall('cancel', page, { job: 'x', extra: 1 })).toEqual({
+    expect(admitCall('cancel', page, { job: 'x', extra: 1 })).toMatchObject({
       ok: false,
       reason:
         'Expected an id of 1–64 letters, digits, - or _ for job but received [object Object] of type object',
     });
   });
   it('refuses unexpected fields', () => {
-    expect(admitCall('factors', page, { scanId: 'a', maxRank: 10, job: 'j', path: '/etc' })).toEqual({
+    expect(admitCall('factors', page, { scanId: 'a', maxRank: 10, job: 'j', path: '/etc' })).toMatchObject({
       ok: false,
       reason: 'Unexpected field "path" in factors; allowed: scanId, maxRank, job, background',
     });
   });
-  it('uploads need a plain name and bytes', () => {
-    expect(admitUpload(page, 'scan.png', new Uint8Array(3)).ok).toBe(true);
-    expect(admitUpload(page, '../scan.png', new Uint8Array(3))).toEqual({
+  it('uploads are a declared method: a plain scan file name and bytes', () => {
+    const up = (name: unknown, bytes: unknown, frame = page) => admitCall('upload', frame, { name, bytes });
+    expect(up('scan.png', new Uint8Array(3))).toMatchObject({ ok: true, method: 'upload' });
+    expect(up('../scan.png', new Uint8Array(3))).toMatchObject({
       ok: false,
-      reason: 'upload needs a plain file name',
+      reason: 'Upload name "../scan.png" contains a folder separator; send the file name alone',
     });
-    expect(admitUpload(page, 'scan.png', 'bytes')).toEqual({
+    expect(up('notes.txt', new Uint8Array(3))).toMatchObject({
       ok: false,
-      reason: 'upload needs the file bytes',
+      reason: 'notes.txt: is not a scan Rankfold reads (.png, .tif, .tiff, .jpg, .jpeg, .webp)',
     });
-    expect(admitUpload(top('file:///x'), 'scan.png', new Uint8Array(1)).ok).toBe(false);
+    expect(up('scan.png', 'bytes')).toMatchObject({ ok: false, reason: 'Upload needs the file bytes' });
+    expect(up('scan.png', new Uint8Array(1), top('file:///x')).ok).toBe(false);
+  });
+  it('the desktop-only dropped method is carried by IPC only', () => {
+    expect(admitCall('dropped', page, '/tmp/scan.png')).toMatchObject({ ok: true, method: 'dropped' });
   });
 });
 

@@ -22,10 +22,10 @@ describe('request validators', () => {
     expect(checkBudget({ kind: 'bytes', bytes: 250000 })).toEqual({ kind: 'bytes', bytes: 250000 });
     expect(checkBudget({ kind: 'psnr', db: 38 })).toEqual({ kind: 'psnr', db: 38 });
     expect(() => checkBudget({ kind: 'bytes', bytes: 10 })).toThrow(
-      'Expected integer between 64 and 9007199254740991 for budget.bytes but received 10 of type number',
+      'Expected a budget of at least 64 bytes for budget but received 10 of type number',
     );
     expect(() => checkBudget({ kind: 'percent', percent: 150 })).toThrow(
-      'Expected number between 0.001 and 100 for budget.percent but received 150 of type number',
+      'Expected a percentage between 0.001 and 100 for budget but received 150 of type number',
     );
     expect(() => checkBudget({ kind: 'jpeg', q: 1 })).toThrow(
       'Expected one of rank, bytes, percent, bpp, psnr, ssim for budget.kind but received "jpeg" of type string',
@@ -46,10 +46,10 @@ describe('request validators', () => {
       banding: 'both',
     });
     expect(() => checkCleanSettings({ noise: -1, banding: 'both' })).toThrow(
-      'Expected number between 0.000001 and 65535 for settings.noise but received -1 of type number',
+      'Expected auto, off or a noise σ above 0 in grey levels (e.g. 8) for noise but received -1 of type number',
     );
     expect(() => checkCleanSettings({ noise: 'auto', banding: 'sideways' })).toThrow(
-      'Expected one of auto, off, rows, columns, both for settings.banding but received "sideways" of type string',
+      'Expected one of auto, rows, columns, both, off for banding but received "sideways" of type string',
     );
   });
   it('methods are an allow-list; ids and paths are checked', () => {
@@ -62,6 +62,11 @@ describe('request validators', () => {
     );
     expect(validateRequest('listSamples', undefined)).toEqual({ method: 'listSamples', payload: undefined });
     expect(() => validateRequest('listSamples', { x: 1 })).toThrow('listSamples takes no arguments');
+  });
+  it('desktop-only methods are not carried over HTTP', () => {
+    expect(validateRequest('dropped', '/tmp/a.png', 'ipc').method).toBe('dropped');
+    expect(() => validateRequest('dropped', '/tmp/a.png', 'http')).toThrow('Unknown API method "dropped"');
+    expect(() => validateRequest('openReport', 'abc', 'http')).toThrow('Unknown API method "openReport"');
   });
 });
 

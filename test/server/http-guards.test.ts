@@ -195,4 +195,14 @@ describe('file access is limited to what the user chose', () => {
     );
     expect((await call('nosuch', {})).status).toBe(400);
   });
+  it('desktop-only methods and JSON uploads are not served over HTTP', async () => {
+    const dropped = await call('dropped', '/etc');
+    expect(dropped.status).toBe(400);
+    expect(JSON.parse(dropped.body).error.message).toBe('Unknown API method "dropped"');
+    const upload = await call('upload', { name: 'a.png', bytes: [1, 2, 3] });
+    expect(upload.status).toBe(400);
+    expect(JSON.parse(upload.body).error.message).toBe(
+      'Upload sends the file bytes as the body of /api/upload?name=, not as JSON',
+    );
+  });
 });

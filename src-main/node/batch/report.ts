@@ -3,7 +3,7 @@
  * as data URIs). It loads nothing from the network and opens offline in any browser.
  */
 import type { BatchRow } from '../../contract';
-import { LOSSY_CAUTION } from '../cli/command';
+import { LOSSY_CAUTION } from '../../contract';
 import { writeFileAtomic } from '../io/atomic';
 import { ranksText, sortRows } from './manifest';
 import { makeThumbnails, type ThumbPair } from './thumbs';

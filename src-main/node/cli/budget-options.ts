@@ -5,9 +5,12 @@
  */
 import {
   type Budget,
+  checkTile,
+  type NumberOption,
+  OPTIONS,
+  optionValue,
   parseBudgetText,
-  parseIntegerOption,
-  parseNumberOption,
+  parseOptionText,
   type TileChoice,
   UsageError,
 } from '../../contract';
@@ -32,10 +35,8 @@ export interface BudgetOptionRules {
   prefix?: string;
   /** The whole message when no budget option is given. */
   missing: string;
-  /** Accepted --rank, inclusive (default 1 to 65535). */
-  rank?: readonly [lo: number, hi: number];
-  /** Lowest accepted --min-ssim; the highest is 1 (default 0.01). */
-  minSsim?: number;
+  /** The declaration of --rank (default {@link OPTIONS.rank}; stack mode counts eigen-frames). */
+  rank?: NumberOption;
   /**
    * false (default): exactly one of the five options. true (stack mode): at most one of --rank, --budget
    * and --bpp; --min-psnr and --min-ssim are floors that may be given together and with --budget or --bpp,
@@ -51,18 +52,16 @@ const READ_ORDER: readonly BudgetOptionName[] = ['min-psnr', 'min-ssim', 'rank',
 
 function parseOne(k: BudgetOptionName, text: string | undefined, rules: BudgetOptionRules): Budget {
   switch (k) {
-    case 'rank': {
-      const [lo, hi] = rules.rank ?? [1, 65535];
-      return { kind: 'rank', rank: parseIntegerOption('rank', text, lo, hi) };
-    }
+    case 'rank':
+      return { kind: 'rank', rank: parseOptionText(rules.rank ?? OPTIONS.rank, text) };
     case 'budget':
       return parseBudgetText(text ?? '');
     case 'bpp':
-      return { kind: 'bpp', bpp: parseNumberOption('bpp', text, 0.001, 64) };
+      return { kind: 'bpp', bpp: parseOptionText(OPTIONS.bpp, text) };
     case 'min-psnr':
-      return { kind: 'psnr', db: parseNumberOption('min-psnr', text, 1, 200) };
+      return { kind: 'psnr', db: parseOptionText(OPTIONS.minPsnr, text) };
     default:
-      return { kind: 'ssim', value: parseNumberOption('min-ssim', text, rules.minSsim ?? 0.01, 1) };
+      return { kind: 'ssim', value: parseOptionText(OPTIONS.minSsim, text) };
   }
 }
 
@@ -99,6 +98,5 @@ export function parseBudgetOptions(values: Record<string, unknown>, rules: Budge
 /** `--tile`: `auto`, `0` (whole planes) or a side of 16–512 pixels; spaces around it are ignored. */
 export function parseTileOption(text: string | undefined): TileChoice {
   if (text === undefined || text.trim() === 'auto') return 'auto';
-  if (text.trim() === '0') return 0;
-  return parseIntegerOption('tile', text, 16, 512);
+  return checkTile(optionValue(OPTIONS.tile, text));
 }

@@ -50,12 +50,5 @@ export function parseCommandArgs(command: string, argv: string[], options: Optio
   };
 }
 
-/** The caution shown wherever output is lossy. */
-export const LOSSY_CAUTION =
-  'Caution: this output is lossy and changes pixel data. Keep preservation masters lossless; medical, forensic and legal ' +
-  "images need your institution's approval. Follow your local digitisation guidelines.";
-
-/** The caution shown wherever pixels are cleaned. */
-export const CLEANING_CAUTION =
-  'Caution: cleaning alters pixel data. Keep the original and the removed part (--removed) where your institution ' +
-  'requires it; never clean preservation masters, medical, forensic or legal images without approval. Follow your local digitisation guidelines.';
+/** The cautions live in the contract (src-main/contract/cautions.ts); re-exported for the commands. */
+export { CLEANING_CAUTION, LOSSY_CAUTION } from '../../contract';

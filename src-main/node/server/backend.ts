@@ -1,17 +1,13 @@
 /**
  * The app's back end, shared by browser mode (./http.ts) and Electron (src-main/electron/ipc.ts): it owns
  * the open scans (one worker thread each), the jobs and their progress events, and the file-access
- * policy. Every call arrives already validated against src-main/contract/api.ts.
- *
- * File access is limited to what the user opened or chose in this session: files and folders picked in
- * a dialog (Electron) or typed into the page (browser mode), files uploaded through the page's picker,
- * and the bundled samples.
+ * policy (./access.ts). Every call arrives already validated against src-main/contract/methods.ts.
  */
 import { randomBytes } from 'node:crypto';
 import { EventEmitter } from 'node:events';
 import { mkdtemp, readdir, realpath, rm, stat, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
-import { basename, dirname, extname, join, resolve, sep } from 'node:path';
+import { basename, extname, join, resolve } from 'node:path';
 import { Worker } from 'node:worker_threads';
 import {
   type ApiMethod,
@@ -19,9 +15,12 @@ import {
   type BatchResult,
   type CleanRequest,
   type CleanResult,
+  checkUploadName,
+  dispatch,
   type EvaluateRequest,
   type EvaluateResult,
   type FactorRequest,
+  type Handlers,
   InputError,
   type OpenScanRequest,
   type PickRequest,
@@ -31,17 +30,17 @@ import {
   type SampleInfo,
   type SaveRequest,
   type SaveResult,
+  SCAN_EXTENSIONS,
   type ScanSummary,
   type StackFrameRequest,
   UsageError,
 } from '../../contract';
+import { AccessPolicy } from './access';
 import { runBatchJob } from './batch-bridge';
 import { SessionWorker } from './session-worker';
 import { openStackFrame, type StackSession } from './stack-bridge';
 
-const SCAN_EXT = new Set(['.png', '.tif', '.tiff', '.jpg', '.jpeg', '.webp']);
-/** Largest upload accepted from the page: 2 GiB, above any single scan the decoder's pixel limit allows at 8 bits. */
-export const MAX_UPLOAD_BYTES = 2 * 1024 ** 3;
+const SCAN_EXT = new Set(SCAN_EXTENSIONS);
 
 export interface BackendOptions {
   /** Folder holding the built worker entries (dist/workers). */
@@ -63,9 +62,7 @@ export class Backend extends EventEmitter {
     string,
     { file: string; summary: ScanSummary; session: SessionWorker; factorLane: SessionWorker }
   >();
-  private readonly chosenFiles = new Set<string>();
-  private readonly chosenFolders = new Set<string>();
-  private readonly saveTargets = new Set<string>();
+  private readonly access: AccessPolicy;
   private readonly uploads = new Map<string, string>();
   private readonly blobs = new Map<string, { data: ArrayBuffer; fileName: string; type: string }>();
   private readonly reports = new Map<string, string>();
@@ -77,43 +74,34 @@ export class Backend extends EventEmitter {
 
   constructor(readonly options: BackendOptions) {
     super();
+    this.access = new AccessPolicy(options.samplesDir);
     setImmediate(() => {
       if (!this.closed && !this.spare) this.spare = this.newThread();
     }).unref();
   }
 
-  /** Dispatch one validated request. */
-  async call(method: ApiMethod, payload: unknown): Promise<unknown> {
-    switch (method) {
-      case 'listSamples':
-        return this.listSamples();
-      case 'listRecent':
-        return this.options.recent?.list() ?? [...this.recentList];
-      case 'pick':
-        return this.pick(payload as PickRequest);
-      case 'openScan':
-        return this.openScan(payload as OpenScanRequest);
-      case 'factors':
-        return this.factors(payload as FactorRequest);
-      case 'evaluate':
-        return this.evaluate(payload as EvaluateRequest);
-      case 'clean':
-        return this.clean(payload as CleanRequest);
-      case 'fetchImages':
-        return this.blob(payload as string).data;
-      case 'stackFrame':
-        return this.stackFrame(payload as StackFrameRequest);
-      case 'save':
-        return this.save(payload as SaveRequest);
-      case 'batch':
-        return this.batch(payload as BatchRequest);
-      case 'openReport':
-        return this.reportPath(payload as string);
-      case 'cancel':
-        return this.cancel(payload as string);
-      case 'dropped':
-        return this.dropped(payload as string);
-    }
+  /** One handler per method of the contract's table (src-main/contract/methods.ts). */
+  private readonly handlers: Handlers = {
+    listSamples: () => this.listSamples(),
+    listRecent: () => this.options.recent?.list() ?? [...this.recentList],
+    upload: (req) => this.upload(req.name, req.bytes),
+    pick: (req) => this.pick(req),
+    openScan: (req) => this.openScan(req),
+    factors: (req) => this.factors(req),
+    evaluate: (req) => this.evaluate(req),
+    clean: (req) => this.clean(req),
+    fetchImages: (id) => this.blob(id).data,
+    stackFrame: (req) => this.stackFrame(req),
+    save: (req) => this.save(req),
+    batch: (req) => this.batch(req),
+    openReport: (id) => this.reportPath(id),
+    cancel: (job) => this.cancel(job),
+    dropped: (path) => this.dropped(path),
+  };
+
+  /** Dispatch one request already validated by {@link validateRequest}. */
+  call(method: ApiMethod, payload: unknown): Promise<unknown> {
+    return dispatch(this.handlers, method, payload);
   }
 
   private progress(e: ProgressEvent) {
@@ -123,51 +111,8 @@ export class Backend extends EventEmitter {
   // ---- access policy -------------------------------------------------------------------------
 
   /** Record a path the user chose; returns its real path. */
-  async allow(path: string, kind: PickRequest['kind']): Promise<string> {
-    const abs = resolve(path);
-    if (kind === 'save') {
-      const dir = await realpath(dirname(abs)).catch(() => {
-        throw new InputError(dirname(abs), 'folder does not exist; choose a folder that exists');
-      });
-      const target = join(dir, basename(abs));
-      this.saveTargets.add(target);
-      return target;
-    }
-    const real = await realpath(abs).catch(() => {
-      throw new InputError(abs, 'does not exist');
-    });
-    const st = await stat(real);
-    if (kind === 'folder') {
-      if (!st.isDirectory()) throw new InputError(real, 'is not a folder');
-      this.chosenFolders.add(real);
-    } else {
-      if (!st.isFile()) throw new InputError(real, 'is not a file');
-      this.chosenFiles.add(real);
-    }
-    return real;
-  }
-
-  private isInside(file: string, folder: string) {
-    return file === folder || file.startsWith(folder.endsWith(sep) ? folder : folder + sep);
-  }
-
-  /** Real path of a file the user may read, or a refusal naming it. */
-  private async readable(path: string): Promise<string> {
-    const real = await realpath(resolve(path)).catch(() => {
-      throw new InputError(path, 'does not exist');
-    });
-    const samples = this.options.samplesDir
-      ? await realpath(this.options.samplesDir).catch(() => undefined)
-      : undefined;
-    const ok =
-      this.chosenFiles.has(real) ||
-      [...this.chosenFolders].some((f) => this.isInside(real, f)) ||
-      (samples !== undefined && this.isInside(real, samples));
-    if (!ok)
-      throw new UsageError(
-        `${path}: not opened or chosen in this session; open it through the page or a dialog first`,
-      );
-    return real;
+  allow(path: string, kind: PickRequest['kind']): Promise<string> {
+    return this.access.allow(path, kind);
   }
 
   /** A file or folder dropped on the desktop window: the user chose it. */
@@ -187,9 +132,7 @@ export class Backend extends EventEmitter {
 
   /** Keep bytes the page uploaded from its own file picker; returns an upload id. */
   async upload(name: string, data: Uint8Array): Promise<string> {
-    const ext = extname(name).toLowerCase();
-    if (!SCAN_EXT.has(ext))
-      throw new InputError(name, `is not a scan Rankfold reads (${[...SCAN_EXT].join(', ')})`);
+    const ext = extname(checkUploadName(name)).toLowerCase();
     this.uploadDir ??= await mkdtemp(join(tmpdir(), 'rankfold-upload-'));
     const id = newId();
     const dir = join(this.uploadDir, id);
@@ -199,7 +142,7 @@ export class Backend extends EventEmitter {
     const file = join(dir, safe);
     await writeFile(file, data);
     this.uploads.set(id, file);
-    this.chosenFiles.add(await realpath(file));
+    this.access.chosenFiles.add(await realpath(file));
     return id;
   }
 
@@ -222,12 +165,12 @@ export class Backend extends EventEmitter {
     let file: string;
     if (req.source.kind === 'sample') {
       if (!this.options.samplesDir) throw new UsageError('No samples folder in this installation');
-      file = await this.readable(join(this.options.samplesDir, req.source.name));
+      file = await this.access.readable(join(this.options.samplesDir, req.source.name));
     } else if (req.source.kind === 'upload') {
       const f = this.uploads.get(req.source.uploadId);
       if (!f) throw new UsageError(`Unknown upload ${req.source.uploadId}; pick the file again`);
       file = f;
-    } else file = await this.readable(req.source.path);
+    } else file = await this.access.readable(req.source.path);
     // A new scan takes the cores: stop the previous scan's background refinement first.
     for (const s of this.scans.values()) void s.factorLane.close();
     const session = new SessionWorker(this.options.workersDir, file, req.page).adopt(this.takeSpare());
@@ -332,7 +275,7 @@ export class Backend extends EventEmitter {
 
   /** One frame of a stack file the user opened or chose (same access rule as scans). */
   private async stackFrame(req: StackFrameRequest): Promise<ArrayBuffer> {
-    const file = await this.readable(req.path);
+    const file = await this.access.readable(req.path);
     const r = await openStackFrame(this.stack, file, req.frame);
     if (this.stack?.file !== file) this.addRecent(file);
     this.stack = r.session;
@@ -356,7 +299,7 @@ export class Backend extends EventEmitter {
     let target: string | undefined;
     if (req.path) {
       target = resolve(req.path);
-      if (!this.saveTargets.has(target))
+      if (!this.access.saveTargets.has(target))
         throw new UsageError(`${req.path}: choose where to save in the save dialog or type the path first`);
     }
     const r = await s.session.run<{
@@ -398,10 +341,11 @@ export class Backend extends EventEmitter {
     const input = await realpath(resolve(req.input)).catch(() => {
       throw new InputError(req.input, 'folder does not exist');
     });
-    if (!this.chosenFolders.has(input)) throw new UsageError(`${req.input}: choose the input folder first`);
+    if (!this.access.chosenFolders.has(input))
+      throw new UsageError(`${req.input}: choose the input folder first`);
     const output = resolve(req.output);
     const outReal = await realpath(output).catch(() => output);
-    if (!this.chosenFolders.has(outReal) && !this.saveTargets.has(output))
+    if (!this.access.chosenFolders.has(outReal) && !this.access.saveTargets.has(output))
       throw new UsageError(`${req.output}: choose the output folder first`);
     if (this.batches.has(req.job)) throw new UsageError(`Batch job ${req.job} is already running`);
     const ctl = new AbortController();

@@ -7,11 +7,13 @@
 import { basename, extname } from 'node:path';
 import {
   type Budget,
+  CLEANING_CAUTION,
   type CleanSettings,
   type DecodedImage,
   type EvaluateResult,
   encodeFactorSet,
   type FactorArrays,
+  LOSSY_CAUTION,
   RankfoldError,
   type SaveKind,
   type TileChoice,
@@ -22,14 +24,6 @@ import { encodeImage, encodeImageBuffer, formatFromPath } from '../image/encode'
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import { compressDecoded } from '../services/compress';
 import type { ProgressFn } from './factor';
-
-/** Same wording as the CLI (src-main/node/cli/command.ts), kept here so the worker bundle stays small. */
-export const LOSSY_CAUTION =
-  'Caution: this output is lossy and changes pixel data. Keep preservation masters lossless; medical, forensic and legal ' +
-  "images need your institution's approval. Follow your local digitisation guidelines.";
-export const CLEANING_CAUTION =
-  'Caution: cleaning alters pixel data. Keep the original and the removed part (--removed) where your institution ' +
-  'requires it; never clean preservation masters, medical, forensic or legal images without approval. Follow your local digitisation guidelines.';
 
 type Progress = ProgressFn;
 

@@ -6,14 +6,10 @@
 
 import { resolve } from 'node:path';
 import {
-  BANDING_MODES,
   CancelledError,
   type CleanOptions,
   type CleanReport,
-  checkInteger,
-  checkNumber,
-  checkOneOf,
-  DENOISE_METHODS,
+  checkCleanOptions,
   type DecodedImage,
   UsageError,
   type WithWarnings,
@@ -54,21 +50,7 @@ export interface CleanedImage {
 
 /** Check and complete options; the messages name the option. */
 export function normaliseCleanOptions(options: Partial<CleanOptions>): CleanOptions {
-  const noise = options.noise ?? 'auto';
-  if (typeof noise === 'number') checkNumber('noise', noise, 1e-6, 65535);
-  else checkOneOf('noise', noise, ['auto', 'off'] as const);
-  const banding = checkOneOf('banding', options.banding ?? 'auto', BANDING_MODES);
-  const out: CleanOptions = { ...options, noise, banding };
-  if (options.rank !== undefined) checkInteger('rank', options.rank, 0, 144);
-  if (options.threshold !== undefined) checkNumber('threshold', options.threshold, 0, 1e9);
-  if (options.method !== undefined) checkOneOf('method', options.method, DENOISE_METHODS);
-  if (options.patch !== undefined) checkInteger('patch', options.patch, 4, 12);
-  if (options.groupSize !== undefined) checkInteger('groupSize', options.groupSize, 8, 96);
-  if (options.tile !== undefined) checkInteger('tile', options.tile, 8, 128);
-  if (options.workers !== undefined) checkInteger('workers', options.workers, 0, 64);
-  if (noise === 'off' && banding === 'off')
-    throw new UsageError('Nothing to do: both --noise and --banding are off.');
-  return out;
+  return checkCleanOptions(options);
 }
 
 function asInput(d: DecodedImage): CleanInput {

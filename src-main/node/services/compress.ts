@@ -13,12 +13,11 @@ import {
   inflateRawSync,
 } from 'node:zlib';
 import {
-  type Budget,
   CancelledError,
   type CompressOptions,
   type CompressReport,
+  checkCompressOptions,
   type DecodedImage,
-  invalidParameterError,
   OutputError,
   UsageError,
   type WithWarnings,
@@ -61,48 +60,6 @@ export const ENCODER_NAME = 'rankfold 0.1.0';
  * won at equal bytes on every test image and rate (docs/format.md, "Residual layer").
  */
 export const DEFAULT_LAYERS: 'auto' | 'base' = 'auto';
-
-/** Validate the options object (it may come from IPC or HTTP). */
-export function checkCompressOptions(o: CompressOptions): void {
-  const b = o.budget as Budget | undefined;
-  if (!b || typeof b !== 'object') throw invalidParameterError('budget', 'a budget object', b);
-  const pos = (v: unknown, name: string, hi = Number.MAX_SAFE_INTEGER) => {
-    if (!(typeof v === 'number' && Number.isFinite(v) && v > 0 && v <= hi))
-      throw invalidParameterError(name, `number above 0 and at most ${hi}`, v);
-  };
-  switch (b.kind) {
-    case 'rank':
-      if (!(Number.isInteger(b.rank) && b.rank >= 1 && b.rank <= 65535))
-        throw invalidParameterError('rank', 'integer between 1 and 65535', b.rank);
-      break;
-    case 'bytes':
-      if (!(Number.isInteger(b.bytes) && b.bytes >= 64))
-        throw invalidParameterError('budget', 'integer number of bytes ≥ 64', b.bytes);
-      break;
-    case 'percent':
-      pos(b.percent, 'budget percent', 100);
-      break;
-    case 'bpp':
-      pos(b.bpp, 'bpp', 64);
-      break;
-    case 'psnr':
-      pos(b.db, 'min-psnr', 200);
-      break;
-    case 'ssim':
-      pos(b.value, 'min-ssim', 1);
-      break;
-    default:
-      throw invalidParameterError(
-        'budget.kind',
-        'one of rank, bytes, percent, bpp, psnr, ssim',
-        (b as { kind: unknown }).kind,
-      );
-  }
-  if (o.layers !== undefined && o.layers !== 'auto' && o.layers !== 'base')
-    throw invalidParameterError('layers', 'auto or base', o.layers);
-  if (!(o.tile === 'auto' || o.tile === 0 || (Number.isInteger(o.tile) && o.tile >= 16 && o.tile <= 512)))
-    throw invalidParameterError('tile', 'auto, 0 (whole plane) or an integer between 16 and 512', o.tile);
-}
 
 function summariseRanks(r: Pick<EncodeResult, 'ranks'>): CompressReport['ranks'] {
   return r.ranks.map((p) => {

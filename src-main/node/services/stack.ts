@@ -9,6 +9,7 @@ import { performance } from 'node:perf_hooks';
 import sharp, { type SharpOptions } from 'sharp';
 import {
   type Budget,
+  checkStackOptions,
   FormatError,
   OutputError,
   type StackCompressOptions,
@@ -122,6 +123,7 @@ export function compressStack(
   names: { input?: string; output?: string; inputBytes?: number; decodeMs?: number } = {},
   hooks: StackHooks = {},
 ): { bytes: Uint8Array; report: StackReport } {
+  checkStackOptions(options);
   const input = checkSeries(frames);
   const target = targetFrom(input, options);
   const t0 = performance.now();

@@ -5,12 +5,13 @@
  * listed), 1 usage error, or another run holds the output folder's lock. See docs/cli.md.
  */
 import type { BatchEvent, BatchRow, BatchSummary } from '../../../contract';
-import { parseBatchArgs } from '../../batch/args';
+import { OPTIONS, rangeText } from '../../../contract';
 import { rowToJson } from '../../batch/manifest';
 import { mergeManifests } from '../../batch/merge';
 import { type ProgressView, terminalProgress } from '../../batch/progress';
 import { runBatch } from '../../batch/run';
 import { batchWorkerFile } from '../../batch/worker-path';
+import { parseBatchArgs } from '../batch-args';
 import { type CliIO, type Command, LOSSY_CAUTION } from '../command';
 
 const HELP = `rankfold batch: compress a whole folder unattended, with a manifest, a CSV and an HTML report.
@@ -27,12 +28,12 @@ report. One run at a time per manifest: a second run into the same OUT_DIR (same
 first holds OUT_DIR/rankfold-manifest[-IofN].jsonl.lock; a lock left by a dead run on this host is taken over.
 
 Budget (exactly one, as for \`rankfold compress\`):
-  --rank K             keep K singular values per plane (1–65535)
+  --rank K             keep K singular values per plane (${rangeText(OPTIONS.rank)})
   --budget SIZE        file size limit: 250kB, 1.5MB, 2MiB, 120000 (bytes) or 5% of the raw samples
-  --bpp X              bits per pixel (0.001–64)
-  --min-psnr DB        smallest file with at least this PSNR (1–200 dB)
-  --min-ssim S         smallest file with at least this SSIM (0–1)
-  --tile N|auto|0      tile size 16–512, auto, or 0 for whole planes (default auto)
+  --bpp X              bits per pixel (${rangeText(OPTIONS.bpp)})
+  --min-psnr DB        smallest file with at least this PSNR (${rangeText(OPTIONS.minPsnr, true)})
+  --min-ssim S         smallest file with at least this SSIM (${rangeText(OPTIONS.minSsim)})
+  --tile N|auto|0      tile size ${rangeText(OPTIONS.tile)}, auto, or 0 for whole planes (default auto)
   --pixel-limit N      refuse inputs with more pixels (default 268402689)
 
 Batch:

@@ -1,14 +1,14 @@
 /** `rankfold clean IN -o OUT`: remove sensor noise and row/column banding, and show what was removed. */
 import {
-  BANDING_MODES,
   type BandingMode,
   type CleanReport,
-  checkOneOf,
-  DENOISE_METHODS,
+  checkCleanOptions,
   type DenoiseMethod,
-  parseIntegerOption,
+  type NumberOption,
+  OPTIONS,
+  optionValue,
   parseNoiseText,
-  parseNumberOption,
+  rangeText,
   UsageError,
 } from '../../../contract';
 import { cleanFile } from '../../services/clean';
@@ -45,12 +45,12 @@ cut at the Gavish–Donoho optimal hard threshold (2014), and the groups are ble
   --noise auto        estimate σ from the image (default); nothing is done below rounding level
   --noise SIGMA       the noise σ in grey levels of the input (per colour channel)
   --noise off         do not denoise
-  --rank K            keep exactly K components per patch group instead of the threshold (0–144)
+  --rank K            keep exactly K components per patch group instead of the threshold (${rangeText(OPTIONS.cleanRank)})
   --threshold T       keep singular values above T (grey levels) per group instead of the rule
   --method M          groups (default) or tiles (overlapping tiles with Hann blending; simpler, weaker)
-  --patch N           patch side 4–12 (default from σ: 6, 7 or 8);  --group-size N  patches per group 8–96
-  --tile N            tile side 8–128 for --method tiles (default from σ)
-  --workers N         worker threads, 0–64 (default 2); the output is identical for any number
+  --patch N           patch side ${rangeText(OPTIONS.patch)} (default from σ: 6, 7 or 8);  --group-size N  patches per group ${rangeText(OPTIONS.groupSize)}
+  --tile N            tile side ${rangeText(OPTIONS.cleanTile)} for --method tiles (default from σ)
+  --workers N         worker threads, ${rangeText(OPTIONS.workers)} (default ${OPTIONS.workers.default}); the output is identical for any number
 
 Banding (stripes along rows or columns, removed as a rank-one pattern):
   --banding auto      detect and remove what is found (default); a clean image is left untouched
@@ -135,45 +135,30 @@ export const command: Command = {
     const output = v.output as string | undefined;
     if (!output) throw new UsageError('clean: missing -o OUT. See `rankfold clean --help`.');
     const str = (k: string) => v[k] as string | undefined;
-    const report = await cleanFile(
-      input,
-      output,
-      {
-        noise: str('noise') !== undefined ? parseNoiseText(str('noise') as string) : 'auto',
-        banding: checkOneOf<BandingMode>('banding', str('banding') ?? 'auto', BANDING_MODES),
-        rank: str('rank') !== undefined ? parseIntegerOption('rank', str('rank'), 0, 144) : undefined,
-        threshold:
-          str('threshold') !== undefined
-            ? parseNumberOption('threshold', str('threshold'), 0, 1e9)
-            : undefined,
-        method:
-          str('method') !== undefined
-            ? checkOneOf<DenoiseMethod>('method', str('method'), DENOISE_METHODS)
-            : undefined,
-        patch: str('patch') !== undefined ? parseIntegerOption('patch', str('patch'), 4, 12) : undefined,
-        groupSize:
-          str('group-size') !== undefined
-            ? parseIntegerOption('group-size', str('group-size'), 8, 96)
-            : undefined,
-        tile: str('tile') !== undefined ? parseIntegerOption('tile', str('tile'), 8, 128) : undefined,
-        workers:
-          str('workers') !== undefined ? parseIntegerOption('workers', str('workers'), 0, 64) : undefined,
-        removed: str('removed'),
-        profile: str('profile'),
-        page: str('page') !== undefined ? parseIntegerOption('page', str('page'), 0, 100000) : undefined,
-        pixelLimit:
-          str('pixel-limit') !== undefined
-            ? parseIntegerOption('pixel-limit', str('pixel-limit'), 1, 2 ** 40)
-            : undefined,
-        force: Boolean(v.force),
-      },
-      {
-        onProgress:
-          io.isTTY && !v.json
-            ? (stage, f) => io.stderr(`\r${stage.padEnd(8)} ${Math.round(f * 100)}%`)
-            : undefined,
-      },
-    );
+    const num = (d: NumberOption) => optionValue(d, str(d.name)) as number | undefined;
+    // Text becomes the values a request would carry; the contract's one validator then checks them all.
+    const cleanOptions = checkCleanOptions({
+      noise: str('noise') !== undefined ? parseNoiseText(str('noise') as string) : 'auto',
+      banding: (str('banding') ?? 'auto') as BandingMode,
+      rank: num(OPTIONS.cleanRank),
+      threshold: num(OPTIONS.threshold),
+      method: str('method') as DenoiseMethod | undefined,
+      patch: num(OPTIONS.patch),
+      groupSize: num(OPTIONS.groupSize),
+      tile: num(OPTIONS.cleanTile),
+      workers: num(OPTIONS.workers),
+      removed: str('removed'),
+      profile: str('profile'),
+      page: num(OPTIONS.page),
+      pixelLimit: num(OPTIONS.pixelLimit),
+      force: Boolean(v.force),
+    });
+    const report = await cleanFile(input, output, cleanOptions, {
+      onProgress:
+        io.isTTY && !v.json
+          ? (stage, f) => io.stderr(`\r${stage.padEnd(8)} ${Math.round(f * 100)}%`)
+          : undefined,
+    });
     if (io.isTTY && !v.json) io.stderr('\r                \r');
     for (const w of report.warnings ?? []) io.stderr(`warning: ${w}\n`);
     if (v.json) {

@@ -4,7 +4,9 @@
  */
 import {
   type Budget,
-  parseIntegerOption,
+  OPTIONS,
+  parseOptionText,
+  rangeText,
   type StackCompressOptions,
   type StackReport,
   UsageError,
@@ -36,7 +38,7 @@ All frames must have the same size, bit depth (8 or 16) and colour model (gray o
 Budgets, for the whole series:
   --budget SIZE     at most SIZE on disk: 250kB, 1.5MB, 2MiB, 120000 (bytes) or 5% of the raw samples
   --bpp X           at most X bits per pixel on disk, counted over all frames
-  --rank K          keep K eigen-frames per channel (0–64), finely quantised, no residuals
+  --rank K          keep K eigen-frames per channel (${rangeText(OPTIONS.stackRank)}), finely quantised, no residuals
   --min-psnr DB     every frame's PSNR at least DB (the worst frame must meet it); the smallest file found.
                     May be combined with --budget or --bpp: then both must hold.
   --min-ssim S      every frame's SSIM (Wang et al. 2004) at least S
@@ -64,7 +66,7 @@ function targetFrom(v: Record<string, unknown>): StackCompressOptions {
     prefix: 'compress --stack: ',
     missing:
       'compress --stack: give a budget: --budget SIZE, --bpp X, --rank K, --min-psnr DB or --min-ssim S. See `rankfold compress --help`.',
-    rank: [0, 64],
+    rank: OPTIONS.stackRank,
     floorsCombine: true,
   })) {
     if (b.kind === 'psnr') o.minPsnr = b.db;
@@ -116,7 +118,7 @@ export async function runStack(argv: string[], io: CliIO): Promise<number> {
   o.force = Boolean(v.force);
   o.residuals = v['no-residuals'] ? false : undefined;
   if (v['pixel-limit'] !== undefined)
-    o.pixelLimit = parseIntegerOption('pixel-limit', v['pixel-limit'] as string, 1, 2 ** 40);
+    o.pixelLimit = parseOptionText(OPTIONS.pixelLimit, v['pixel-limit'] as string);
   let last = -1;
   const report = await compressStackFile(input, output, o, {
     onProgress: ({ fraction }) => {

@@ -1,5 +1,5 @@
 /** `rankfold compress IN -o OUT.rkf`: write a .rkf file that meets a storage budget or a quality floor. */
-import { type CompressReport, parseIntegerOption, type TileChoice, UsageError } from '../../../contract';
+import { type CompressReport, OPTIONS, parseOptionText, rangeText, UsageError } from '../../../contract';
 import { compressFile } from '../../services/compress';
 import { BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from '../budget-options';
 import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
@@ -31,7 +31,7 @@ Budgets (give exactly one):
 
 Options:
   -o, --output FILE   output .rkf file (required)
-  --tile N|auto|0     tile side 16–512, auto (best of 32, 64, 128 for the budget) or 0 for whole planes.
+  --tile N|auto|0     tile side ${rangeText(OPTIONS.tile)}, auto (best of 32, 64, 128 for the budget) or 0 for whole planes.
                       Default: auto (whole planes with --rank)
   --layers auto|base  auto (default): under --budget or --bpp, the low-rank base plus a wavelet-coded
                       residual layer, split by the least error at the budget (rank 0 and no residual are
@@ -121,10 +121,10 @@ export const command: Command = {
       {
         budget,
         tile: parseTileOption(v.tile as string | undefined),
-        page: v.page !== undefined ? parseIntegerOption('page', v.page as string, 0, 100000) : undefined,
+        page: v.page !== undefined ? parseOptionText(OPTIONS.page, v.page as string) : undefined,
         pixelLimit:
           v['pixel-limit'] !== undefined
-            ? parseIntegerOption('pixel-limit', v['pixel-limit'] as string, 1, 2 ** 40)
+            ? parseOptionText(OPTIONS.pixelLimit, v['pixel-limit'] as string)
             : undefined,
         force: Boolean(v.force),
         compare: Boolean(v.compare),
@@ -148,7 +148,5 @@ export const command: Command = {
 };
 
 function parseLayersOption(text: string | undefined): 'auto' | 'base' | undefined {
-  if (text === undefined) return undefined;
-  if (text === 'auto' || text === 'base') return text;
-  throw new UsageError(`Expected auto or base for layers but received ${JSON.stringify(text)}`);
+  return text === undefined ? undefined : parseOptionText(OPTIONS.layers, text);
 }

@@ -3,7 +3,7 @@
  * stack container without decoding the others, or all frames into a folder of numbered PNG files or
  * one multi-page TIFF. Called by expand.ts for `--frame` and for files with the stack layout.
  */
-import { parseIntegerOption, type StackExpandReport, UsageError } from '../../../contract';
+import { OPTIONS, parseOptionText, type StackExpandReport, UsageError } from '../../../contract';
 import { expandStackFile, isStackFile } from '../../services/stack';
 import { type CliIO, LOSSY_CAUTION, parseCommandArgs } from '../command';
 
@@ -48,7 +48,7 @@ export async function runStack(argv: string[], io: CliIO): Promise<number> {
   const output = v.output as string | undefined;
   if (!output)
     throw new UsageError('expand: missing -o OUT.png, OUT.tif or OUT_DIR. See `rankfold expand --help`.');
-  const frame = v.frame !== undefined ? parseIntegerOption('frame', v.frame as string, 0, 65535) : undefined;
+  const frame = v.frame !== undefined ? parseOptionText(OPTIONS.frame, v.frame as string) : undefined;
   const report = await expandStackFile(input, output, { frame, force: Boolean(v.force) });
   io.stdout(v.json ? `${JSON.stringify(report)}\n` : format(report));
   if (!v.json) io.stderr(`${LOSSY_CAUTION}\n`);

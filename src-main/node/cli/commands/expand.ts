@@ -1,5 +1,5 @@
 /** `rankfold expand IN.rkf -o OUT.png|OUT.tif`: decode a container back to PNG or TIFF. */
-import { type ExpandReport, OutputError, UsageError } from '../../../contract';
+import { type ExpandReport, OPTIONS, OutputError, parseOptionText, UsageError } from '../../../contract';
 import { expandFile } from '../../services/expand';
 import { containerDamage } from '../../services/stack';
 import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
@@ -61,11 +61,10 @@ export const command: Command = {
     if (!input) throw new UsageError('expand: missing input .rkf file. See `rankfold expand --help`.');
     const output = v.output as string | undefined;
     if (!output) throw new UsageError('expand: missing -o OUT.png or OUT.tif. See `rankfold expand --help`.');
-    const pixelLimit = v['pixel-limit'] !== undefined ? Number(v['pixel-limit']) : undefined;
-    if (pixelLimit !== undefined && !(Number.isInteger(pixelLimit) && pixelLimit >= 1))
-      throw new UsageError(
-        `expand: expected a positive integer for --pixel-limit but received ${JSON.stringify(v['pixel-limit'])}`,
-      );
+    const pixelLimit =
+      v['pixel-limit'] !== undefined
+        ? parseOptionText(OPTIONS.pixelLimit, v['pixel-limit'] as string)
+        : undefined;
     let report: ExpandReport;
     try {
       report = await expandFile(input, output, {

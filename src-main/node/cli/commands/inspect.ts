@@ -1,6 +1,12 @@
 /** `rankfold inspect FILE`: size, depth, channels and the singular-value spectrum of a scan. */
 import cliProgress from 'cli-progress';
-import { type InspectReport, type PlaneSpectrum, parseIntegerOption, UsageError } from '../../../contract';
+import {
+  type InspectReport,
+  OPTIONS,
+  type PlaneSpectrum,
+  parseOptionText,
+  UsageError,
+} from '../../../contract';
 import { DEFAULT_PIXEL_LIMIT } from '../../image/decode';
 import { inspectScan } from '../../services/inspect';
 import { type CliIO, type Command, parseCommandArgs } from '../command';
@@ -196,12 +202,11 @@ export const command: Command = {
     const { values, positionals } = parseCommandArgs('inspect', argv, options, 1);
     const file = positionals[0];
     if (!file) throw new UsageError('inspect: no input file given. Usage: rankfold inspect FILE [--json]');
-    const page =
-      values.page === undefined ? undefined : parseIntegerOption('--page', values.page as string, 0, 100_000);
+    const page = values.page === undefined ? undefined : parseOptionText(OPTIONS.page, values.page as string);
     const pixelLimit =
       values['pixel-limit'] === undefined
         ? undefined
-        : parseIntegerOption('--pixel-limit', values['pixel-limit'] as string, 1, 2 ** 42);
+        : parseOptionText(OPTIONS.pixelLimit, values['pixel-limit'] as string);
     const bar = io.isTTY && !values.json ? progressBar() : undefined;
     let report: InspectReport;
     try {

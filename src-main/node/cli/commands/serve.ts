@@ -2,7 +2,7 @@ import { spawn } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { parseIntegerOption, RankfoldError } from '../../../contract';
+import { OPTIONS, parseOptionText, RankfoldError } from '../../../contract';
 import { Backend } from '../../server/backend';
 import { startServer } from '../../server/http';
 import { type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
@@ -55,8 +55,7 @@ export const command: Command = {
       { port: { type: 'string' }, 'no-open': { type: 'boolean' } },
       0,
     );
-    const port =
-      values.port === undefined ? 0 : parseIntegerOption('--port', values.port as string, 1024, 65535);
+    const port = values.port === undefined ? 0 : parseOptionText(OPTIONS.port, values.port as string);
     const dist = distDir();
     const staticDir = join(dist, 'renderer');
     if (!existsSync(join(staticDir, 'index.html')))

@@ -5,22 +5,17 @@
 import { availableParallelism } from 'node:os';
 import {
   type CompressOptions,
-  parseIntegerOption,
-  parseNumberOption,
+  OPTIONS,
+  parseOptionText,
   parseShardText,
   type Shard,
   type TileChoice,
   UsageError,
 } from '../../contract';
-import {
-  BUDGET_OPTION_NAMES,
-  BUDGET_OPTIONS,
-  parseBudgetOptions,
-  parseTileOption,
-} from '../cli/budget-options';
-import { type OptionSpec, parseCommandArgs } from '../cli/command';
+import { DEFAULT_TIMEOUT_MS } from '../batch/run';
 import { DEFAULT_PIXEL_LIMIT } from '../image/decode';
-import { DEFAULT_TIMEOUT_MS } from './run';
+import { BUDGET_OPTION_NAMES, BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from './budget-options';
+import { type OptionSpec, parseCommandArgs } from './command';
 
 export const BATCH_OPTIONS: OptionSpec = {
   output: { type: 'string', short: 'o' },
@@ -110,21 +105,20 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
   const [budget] = parseBudgetOptions(values, {
     missing:
       'give one budget: --rank K, --budget SIZE (e.g. 250kB or 5%), --bpp X, --min-psnr DB or --min-ssim S',
-    minSsim: 0.0001,
   });
   const compress: CompressOptions = {
     budget,
     tile: values.tile === undefined ? DEFAULT_TILE : parseTileOption(str(values.tile)),
     pixelLimit:
       values['pixel-limit'] !== undefined
-        ? parseIntegerOption('pixel-limit', str(values['pixel-limit']), 1, Number.MAX_SAFE_INTEGER)
+        ? parseOptionText(OPTIONS.pixelLimit, str(values['pixel-limit']))
         : DEFAULT_PIXEL_LIMIT,
   };
   const jobs =
-    values.jobs !== undefined ? parseIntegerOption('jobs', str(values.jobs), 1, 256) : availableParallelism();
+    values.jobs !== undefined ? parseOptionText(OPTIONS.jobs, str(values.jobs)) : availableParallelism();
   const timeoutMs =
     values.timeout !== undefined
-      ? Math.round(parseNumberOption('timeout', str(values.timeout), 0, 7 * 24 * 3600) * 1000)
+      ? Math.round(parseOptionText(OPTIONS.timeout, str(values.timeout)) * 1000)
       : DEFAULT_TIMEOUT_MS;
   const report = str(values.report);
   if (report !== undefined && !/\.html?$/i.test(report))
