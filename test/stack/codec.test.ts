@@ -3,15 +3,8 @@ import { describe, expect, it } from 'vitest';
 import { FormatError } from '../../src-main/contract';
 import { readContainer } from '../../src-main/engine/codec/container';
 import { fitStack } from '../../src-main/engine/codec/stack-budget';
-import {
-  decodeStackFrame,
-  encodeStack,
-  framePsnr,
-  isStackContainer,
-  openStack,
-  prepareStack,
-  type StackInput,
-} from '../../src-main/engine/codec/stack-codec';
+import { encodeStack, framePsnr, isStackContainer } from '../../src-main/engine/codec/stack-codec';
+import type { StackInput } from '../../src-main/engine/codec/stack-header';
 import {
   decodePlane,
   encodePlane,
@@ -19,6 +12,7 @@ import {
   forwardWaveletReference,
   inverseWavelet,
 } from '../../src-main/engine/codec/stack-plane';
+import { decodeStackFrame, openStack, prepareStack } from '../../src-main/engine/lowrank/stack-frames';
 import { driftingSpecimen, formPages, phantomSlices, seededRandom } from '../../src-main/engine/stack';
 
 const asInput = (s: {
