@@ -14,8 +14,9 @@ import sharp from 'sharp';
 import type { DecodedImage } from '../src-main/contract';
 import { encodeInt, IntModel, RangeEncoder } from '../src-main/engine/codec/range-coder';
 import { fitStack } from '../src-main/engine/codec/stack-budget';
-import { type PreparedStack, prepareStack, type StackInput } from '../src-main/engine/codec/stack-codec';
+import type { PreparedStack, StackInput } from '../src-main/engine/codec/stack-header';
 import { encodePlane } from '../src-main/engine/codec/stack-plane';
+import { prepareStack } from '../src-main/engine/lowrank/stack-frames';
 import { compressDecoded } from '../src-main/node/services/compress';
 import {
   driftingSpecimen,

@@ -6,20 +6,15 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { decodeImageFile, decodeImageFileSamples } from '../../src-main/engine/codec/image-file';
 import { reconstructPlane, reconstructRows } from '../../src-main/engine/codec/quantise';
 import { tileGrid } from '../../src-main/engine/codec/quantised';
 import { initEngine, singularValues } from '../../src-main/engine/linalg';
+import { meanAndEnergy, quietEnergy } from '../../src-main/engine/lowrank/band-factor';
+import { collectComponents } from '../../src-main/engine/lowrank/candidate';
+import { decodeImageFile, decodeImageFileSamples } from '../../src-main/engine/lowrank/decode-image';
 import { factorPlane } from '../../src-main/engine/lowrank/factorise';
 import { sketchSpectrum } from '../../src-main/engine/lowrank/sketch';
-import { collectComponents } from '../../src-main/engine/lowrank/solve';
-import {
-  encodeScanTiled,
-  meanAndEnergy,
-  quietEnergy,
-  type SampleImage,
-  TILED_PIXELS,
-} from '../../src-main/engine/lowrank/tiled';
+import { encodeScanTiled, type SampleImage, TILED_PIXELS } from '../../src-main/engine/lowrank/tiled';
 import { psnrPlanes, SseStream, SsimStream, sse, ssim, ssimPlanes } from '../../src-main/engine/metrics';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { decodeSamples } from '../../src-main/node/image/raw-decode';

@@ -4,8 +4,8 @@ import { createHash } from 'node:crypto';
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { readContainer, writeContainer } from '../../src-main/engine/codec/container';
-import { decodeImageFile } from '../../src-main/engine/codec/image-file';
-import { openStack } from '../../src-main/engine/codec/stack-codec';
+import { decodeImageFile } from '../../src-main/engine/lowrank/decode-image';
+import { openStack } from '../../src-main/engine/lowrank/stack-frames';
 import { COMPRESSORS } from '../../src-main/node/services/compress';
 import { fixture } from '../helpers/fixtures';
 

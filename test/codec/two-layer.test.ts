@@ -6,14 +6,11 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { type DecodedImage, FormatError } from '../../src-main/contract';
 import { readContainer, writeContainer } from '../../src-main/engine/codec/container';
-import {
-  decodeImageFile,
-  decodeImageFileSamples,
-  decodeImageLayers,
-} from '../../src-main/engine/codec/image-file';
+import { decodeImageLayers } from '../../src-main/engine/codec/image-file';
 import { encodePlane } from '../../src-main/engine/codec/wavelet-plane';
 import { initEngine } from '../../src-main/engine/linalg';
 import { roundInto, ycbcrToRgbSamples } from '../../src-main/engine/lowrank/colour';
+import { decodeImageFile, decodeImageFileSamples } from '../../src-main/engine/lowrank/decode-image';
 import { type EncodeResult, encodeScan } from '../../src-main/engine/lowrank/encode';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { COMPRESSORS, compressFile } from '../../src-main/node/services/compress';

@@ -8,9 +8,11 @@ import { describe, expect, it } from 'vitest';
 import { FormatError } from '../../src-main/contract';
 import { type Chunk, readContainer, writeContainer } from '../../src-main/engine/codec/container';
 import { crc32 } from '../../src-main/engine/codec/crc32';
-import { decodeImageFile, readImageHeader } from '../../src-main/engine/codec/image-file';
-import { encodeStack, openStack, prepareStack } from '../../src-main/engine/codec/stack-codec';
+import { readImageHeader } from '../../src-main/engine/codec/image-file';
+import { encodeStack } from '../../src-main/engine/codec/stack-codec';
+import { decodeImageFile } from '../../src-main/engine/lowrank/decode-image';
 import { encodeScan } from '../../src-main/engine/lowrank/encode';
+import { openStack, prepareStack } from '../../src-main/engine/lowrank/stack-frames';
 import { COMPRESSORS } from '../../src-main/node/services/compress';
 import { fixture } from '../helpers/fixtures';
 

@@ -4,15 +4,8 @@ import { driftingSpecimen, formPages, phantomSlices, seededRandom } from '../../
 import { FormatError } from '../../src-main/contract';
 import { readContainer } from '../../src-main/engine/codec/container';
 import { fitStack } from '../../src-main/engine/codec/stack-budget';
-import {
-  decodeStackFrame,
-  encodeStack,
-  framePsnr,
-  isStackContainer,
-  openStack,
-  prepareStack,
-  type StackInput,
-} from '../../src-main/engine/codec/stack-codec';
+import { encodeStack, framePsnr, isStackContainer } from '../../src-main/engine/codec/stack-codec';
+import type { StackInput } from '../../src-main/engine/codec/stack-header';
 import {
   decodePlane,
   encodePlane,
@@ -20,6 +13,7 @@ import {
   forwardWaveletReference,
   inverseWavelet,
 } from '../../src-main/engine/codec/stack-plane';
+import { decodeStackFrame, openStack, prepareStack } from '../../src-main/engine/lowrank/stack-frames';
 
 const asInput = (s: {
   width: number;

@@ -87,8 +87,10 @@ export function reconstructPlane(plane: QuantPlane): Float64Array {
   if (rects.length !== plane.tiles.length)
     throw new RangeError('tile count does not match the plane geometry');
   const row = new Float64Array(Math.max(1, plane.tile > 0 ? plane.tile : width));
-  for (let t = 0; t < rects.length; t++)
-    addTile(out, width, rects[t], plane.tiles[t], plane.step, plane.meanStep, row);
+  for (let t = 0; t < rects.length; t++) {
+    const r = rects[t];
+    addTileRows(out, width, r, plane.tiles[t], plane.step, plane.meanStep, row, 0, r.h, r.y);
+  }
   return out;
 }
 
@@ -125,6 +127,11 @@ export function reconstructRows(
   }
 }
 
+/**
+ * Write rows [from, to) of one tile's mean plus Σ cₖ·quₖ·qvₖᵀ into `out` (row stride `width`, the tile's row
+ * i at output row dy + i), a row at a time through `row`. Its own function so V8 optimises the loops once,
+ * not by on-stack replacement inside the tile loop.
+ */
 function addTileRows(
   out: Float64Array,
   width: number,
@@ -153,37 +160,5 @@ function addTileRows(
       for (let j = 0; j < w; j++) row[j] += a * qv[j];
     }
     out.set(row.subarray(0, w), (dy + i) * width + x);
-  }
-}
-
-/**
- * Write one tile's mean plus Σ cₖ·quₖ·qvₖᵀ into `out` (row stride `width`), a row at a time through `row`.
- * Its own function so V8 optimises the loops once, not by on-stack replacement inside the tile loop.
- */
-function addTile(
-  out: Float64Array,
-  width: number,
-  rect: TileRect,
-  tile: QuantTile,
-  step: number,
-  meanStep: number,
-  row: Float64Array,
-): void {
-  const { x, y, w, h } = rect;
-  const mean = tile.meanQ * meanStep;
-  const n = tile.u.length;
-  const scales = new Float64Array(n);
-  for (let k = 0; k < n; k++) scales[k] = componentScale(tile.u[k], tile.v[k], step);
-  for (let i = 0; i < h; i++) {
-    row.fill(mean, 0, w);
-    for (let k = 0; k < n; k++) {
-      const c = scales[k];
-      if (c === 0) continue;
-      const a = tile.u[k][i] * c;
-      if (a === 0) continue;
-      const qv = tile.v[k];
-      for (let j = 0; j < w; j++) row[j] += a * qv[j];
-    }
-    out.set(row.subarray(0, w), (y + i) * width + x);
   }
 }

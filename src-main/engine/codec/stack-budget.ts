@@ -9,14 +9,8 @@
  * File size falls and distortion rises with Δ (monotone in practice, not guaranteed); the search keeps
  * the best feasible point it has seen, so the answer always meets the target when one was found.
  */
-import {
-  type EncodedStack,
-  encodeStack,
-  framePsnr,
-  frameSsim,
-  type PreparedStack,
-  recordFrameQuality,
-} from './stack-codec';
+import { encodeStack, framePsnr, frameSsim } from './stack-codec';
+import { type EncodedStack, type PreparedStack, recordFrameQuality } from './stack-header';
 
 export interface StackTarget {
   /** Largest file in bytes (container included). */

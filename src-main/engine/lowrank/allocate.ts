@@ -40,23 +40,44 @@ export interface Block {
   cost: number;
 }
 
+/**
+ * Pool adjacent violators over one tile's steps (gains[i], costs[i], i < n; costs floored at 1e-9) into
+ * scratch arrays: hull block j has gain sg[j], cost sc[j] and end rank se[j]. Returns the number of blocks,
+ * trailing blocks with gain ≤ 0 dropped. {@link hullBlocks} and the large-scan encoder's packed order use it.
+ */
+export function poolHull(
+  gains: ArrayLike<number>,
+  costs: ArrayLike<number>,
+  n: number,
+  sg: number[],
+  sc: number[],
+  se: number[],
+): number {
+  let m = 0;
+  for (let i = 0; i < n; i++) {
+    let gain = gains[i];
+    let cost = Math.max(costs[i], 1e-9);
+    while (m > 0 && gain * sc[m - 1] >= sg[m - 1] * cost) {
+      m--;
+      gain = sg[m] + gain;
+      cost = sc[m] + cost;
+    }
+    sg[m] = gain;
+    sc[m] = cost;
+    se[m] = i + 1;
+    m++;
+  }
+  while (m > 0 && !(sg[m - 1] > 0)) m--;
+  return m;
+}
+
 /** Upper concave hull of one tile's gain–cost steps (pool adjacent violators); blocks with gain ≤ 0 are dropped. */
 export function hullBlocks(tile: number, seq: GainCost): Block[] {
-  const out: Block[] = [];
-  const n = seq.gains.length;
-  for (let i = 0; i < n; i++) {
-    let b: Block = { tile, endRank: i + 1, gain: seq.gains[i], cost: Math.max(seq.costs[i], 1e-9) };
-    while (out.length) {
-      const last = out[out.length - 1];
-      if (b.gain * last.cost >= last.gain * b.cost) {
-        out.pop();
-        b = { tile, endRank: b.endRank, gain: last.gain + b.gain, cost: last.cost + b.cost };
-      } else break;
-    }
-    out.push(b);
-  }
-  while (out.length && !(out[out.length - 1].gain > 0)) out.pop();
-  return out;
+  const sg: number[] = [];
+  const sc: number[] = [];
+  const se: number[] = [];
+  const m = poolHull(seq.gains, seq.costs, seq.gains.length, sg, sc, se);
+  return Array.from({ length: m }, (_, j) => ({ tile, endRank: se[j], gain: sg[j], cost: sc[j] }));
 }
 
 /** All tiles' hull blocks in greedy order: decreasing gain per cost; ties by tile then rank. */

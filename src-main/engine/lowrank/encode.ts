@@ -7,24 +7,26 @@
  */
 import type { Budget, DecodedImage } from '../../contract';
 import { UsageError } from '../../contract/errors';
-import { encodeLosslessPlane } from '../codec/alpha';
-import type { ByteCompressor, EntropyId } from '../codec/entropy';
-import {
-  type DecodedRkf,
-  decodeImageFile,
-  encodePlanes,
-  type PlaneHeader,
-  quantiserInfo,
-  RESIDUAL_MAX_PIXELS,
-  type RkfHeader,
-  writeImageFile,
-} from '../codec/image-file';
+import { encodePlanes, RESIDUAL_MAX_PIXELS } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
 import { psnrFromSse, psnrPlanes, ssimPlanes } from '../metrics';
+import { AUTO_PROBE_PIXELS, centredCrop } from './centred-crop';
 import { rgbToYcbcr, YCBCR_ERROR_WEIGHTS } from './colour';
+import { decodeImageFile } from './decode-image';
+import { budgetBytes, type EncodeOptions, type EncodeResult, type LayerSummary } from './encode-options';
+import { type EncodedPlanes, errorFigures } from './error-figures';
 import { factorPlane, type PlaneFactors } from './factorise';
+import { imageWriter } from './image-writer';
 import { type Plan, type PlaneInput, solveBytes, solveError, solveRank } from './solve';
-import { chooseLayers, emptyBase, type LayerCandidate, type LayerPlan } from './two-layer';
+import { chooseLayers, emptyBase, type LayerPlan } from './two-layer';
+
+export {
+  budgetBytes,
+  type EncodeOptions,
+  type EncodeResult,
+  type LayerSummary,
+  type PlaneRankSummary,
+} from './encode-options';
 
 /** Tile sides `--tile auto` tries. */
 export const AUTO_TILES = [32, 64, 128] as const;
@@ -33,80 +35,12 @@ export const RANK_QUANT_LOSS = 0.023;
 /** Per-sample quantisation MSE floor at a fixed rank (grey levels² on the 8-bit scale). */
 export const RANK_QUANT_FLOOR_MSE = 0.01;
 
-export interface EncodeOptions {
-  budget: Budget;
-  tile: number | 'auto';
-  entropy?: EntropyId;
-  compressors?: ByteCompressor[];
-  encoder?: string;
-  onProgress?: (stage: string, fraction: number) => void;
-  /** Throws (e.g. CancelledError) when the job should stop. */
-  checkCancelled?: () => void;
-  /** SHA-256 of the alpha plane's samples (16-bit big-endian), hashed by the caller; stored so expand can check it. */
-  alphaSha256?: string;
-  /** Clock in milliseconds (for timings); defaults to Date.now. */
-  now?: () => number;
-  /**
-   * 'base' (default): the low-rank factors only. 'auto': under a byte budget (bytes, percent, bpp) on a scan of
-   * at most RESIDUAL_MAX_PIXELS, also try a wavelet-coded residual layer and keep the split with the least
-   * error (./two-layer). Rank and quality-floor budgets stay base-only.
-   */
-  layers?: 'base' | 'auto';
-}
-
-/** What the layers of the written file cost and how the split was chosen. */
-export interface LayerSummary {
-  /** Bytes of the base layer's factor streams (PLNE payloads) and of the residual layer (RSDL payloads). */
-  baseBytes: number;
-  residualBytes: number;
-  /** Residual step per coded plane, null for a plane without a residual. */
-  residualSteps: Array<number | null>;
-  /** The candidate kept and every candidate tried (empty when the two-layer search did not run). */
-  chosen: LayerCandidate['kind'];
-  candidates: LayerCandidate[];
-  /** Real encodes of the residual layer in the search (each codes every plane once). */
-  residualEncodes: number;
-}
-
-export interface PlaneRankSummary {
-  channel: string;
-  tile: number;
-  ranks: Int32Array;
-}
-
-export interface EncodeResult {
-  bytes: Uint8Array;
-  header: RkfHeader;
-  decoded: DecodedRkf;
-  ranks: PlaneRankSummary[];
-  psnr: number;
-  ssim: number;
-  errors: { frobenius: number; frobeniusOptimal: number; spectralBound: number };
-  factorMs: number;
-  encodeMs: number;
-  lossless: boolean;
-  layers: LayerSummary;
-}
-
 function maxOf(bitDepth: 8 | 16): number {
   return bitDepth === 16 ? 65535 : 255;
 }
 
-/** Resolve a budget to bytes when it is one; undefined for rank and quality floors. */
-export function budgetBytes(
-  b: Budget,
-  img: { width: number; height: number; rawBytes: number },
-): number | undefined {
-  if (b.kind === 'bytes') return b.bytes;
-  if (b.kind === 'percent') return Math.floor((img.rawBytes * b.percent) / 100);
-  if (b.kind === 'bpp') return Math.floor((b.bpp * img.width * img.height) / 8);
-  return undefined;
-}
-
-interface Prepared {
+interface Prepared extends EncodedPlanes {
   names: string[];
-  planes: ArrayLike<number>[];
-  weights: number[];
   colour: boolean;
 }
 
@@ -127,8 +61,7 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
   const max = maxOf(img.bitDepth);
   const { width, height } = img;
   const prep = prepare(img);
-  const hasAlpha = img.channels === 2 || img.channels === 4;
-  const alpha = hasAlpha ? encodeLosslessPlane(img.planes[img.channels - 1], width, height) : undefined;
+  const build = imageWriter(img, opts, prep.names);
   const meanStep = max / 1020;
   const byteBudget = budgetBytes(opts.budget, img);
   const probed =
@@ -147,48 +80,6 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
         `${img.file}: image is ${width}×${height} pixels; tiles need at least 8×8 — pass --tile 0 for a whole-image SVD`,
       );
 
-  type Residual = { steps: number[]; bytes: Uint8Array[] };
-  const header = (planes: QuantPlane[], lossless: boolean, residual?: Residual): RkfHeader => ({
-    format: 'rankfold',
-    layout: 'image',
-    width,
-    height,
-    bitDepth: img.bitDepth,
-    channels: img.channels,
-    colourTransform: prep.colour ? 'ycbcr-jfif' : 'none',
-    alpha: hasAlpha ? 'lossless' : 'none',
-    quantiser: quantiserInfo(),
-    planes: planes.map(
-      (p, k): PlaneHeader => ({
-        name: prep.names[k],
-        tile: p.tile,
-        step: p.step,
-        meanStep: p.meanStep,
-        entropy,
-        ...(residual ? { residualStep: residual.steps[k] } : {}),
-      }),
-    ),
-    sourceSha256: img.sourceSha256,
-    alphaSha256: hasAlpha ? opts.alphaSha256 : undefined,
-    lossless,
-    metadata: {
-      format: img.meta.format,
-      density: img.meta.density,
-      orientation: img.meta.orientation,
-      page: img.meta.page,
-      pages: img.meta.pages,
-      icc: img.meta.icc ? true : undefined,
-    },
-    encoder: opts.encoder ?? 'rankfold',
-  });
-  const build = (planes: QuantPlane[], lossless = false, residual?: Residual) =>
-    writeImageFile({
-      header: header(planes, lossless, residual),
-      planes: encodePlanes(planes, entropy, opts.compressors),
-      residuals: residual?.bytes,
-      alpha,
-      icc: img.meta.icc,
-    });
   const measure = (planes: QuantPlane[]) => {
     cancel();
     return build(planes).length;
@@ -296,34 +187,7 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
     tile: p.tile,
     ranks: Int32Array.from(p.tiles, (t) => t.u.length),
   }));
-  let trunc = 0;
-  let spectral = 0;
-  let frobenius = Math.sqrt(sse);
-  const rankZero = basePlanes[0].tile === 0 && best.factors[0].tile !== 0;
-  if (rankZero && layered) {
-    // Rank 0 (residual only, a whole-plane base while the factors are tiled): the Eckart–Young optimum at
-    // rank 0 is the whole energy, which is the base error itself; σ₁ of the whole plane was not computed.
-    trunc = frobenius = 0;
-    for (let k = 0; k < layered.base.length; k++) {
-      let e = 0;
-      for (let i = 0; i < layered.base[k].length; i++) e += Number(prep.planes[k][i]) ** 2;
-      trunc += prep.weights[k] * e;
-    }
-    frobenius = Math.sqrt(trunc);
-    spectral = Number.NaN;
-  } else {
-    best.factors.forEach((f, k) => {
-      f.tiles.forEach((tf, t) => {
-        const r = ranks[k].ranks[t];
-        let kept = 0;
-        for (let i = 0; i < r; i++) kept += tf.s[i] * tf.s[i];
-        trunc += prep.weights[k] * Math.max(0, tf.energy - kept);
-        if (r < tf.s.length) spectral = Math.max(spectral, tf.s[r]);
-      });
-    });
-    // Two layers: the Eckart–Young figures are about the base layer, so the error is the base's (in float).
-    if (layered?.residual) frobenius = Math.sqrt(baseSse(prep, layered.base));
-  }
+  const errors = errorFigures(best.factors, ranks, prep, Math.sqrt(sse), basePlanes[0].tile, layered);
   const baseBytes = encodePlanes(basePlanes, entropy, opts.compressors).reduce((s, b) => s + b.length, 0);
   const layers: LayerSummary = {
     baseBytes,
@@ -341,31 +205,13 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
     ranks,
     psnr,
     ssim,
-    errors: { frobenius, frobeniusOptimal: Math.sqrt(trunc), spectralBound: spectral },
+    errors,
     factorMs,
     encodeMs,
     lossless,
     layers,
   };
 }
-
-/** Weighted squared error of a decoded base (float, before rounding) against the coded planes. */
-function baseSse(prep: Prepared, base: Float64Array[]): number {
-  let s = 0;
-  for (let k = 0; k < base.length; k++) {
-    const o = prep.planes[k];
-    let e = 0;
-    for (let i = 0; i < base[k].length; i++) {
-      const d = o[i] - base[k][i];
-      e += d * d;
-    }
-    s += prep.weights[k] * e;
-  }
-  return s;
-}
-
-/** Above this many pixels, `--tile auto` chooses the tile size on a centred crop of about this size. */
-export const AUTO_PROBE_PIXELS = 1 << 20;
 
 /** For large scans: pick the auto tile size on a centred crop at the same bits per pixel or floor. */
 function probeTile(
@@ -375,25 +221,7 @@ function probeTile(
 ): number | undefined {
   const { width, height } = img;
   if (width * height <= AUTO_PROBE_PIXELS * 1.5) return undefined;
-  const side = Math.sqrt(AUTO_PROBE_PIXELS);
-  const cw = Math.min(width, Math.round(side * Math.sqrt(width / height)));
-  const ch = Math.min(height, Math.round(AUTO_PROBE_PIXELS / cw));
-  const x0 = Math.floor((width - cw) / 2);
-  const y0 = Math.floor((height - ch) / 2);
-  const planes = img.planes.map((p) => {
-    const out = new Float32Array(cw * ch);
-    for (let y = 0; y < ch; y++)
-      out.set(p.subarray((y0 + y) * width + x0, (y0 + y) * width + x0 + cw), y * cw);
-    return out;
-  });
-  const crop: DecodedImage = {
-    ...img,
-    width: cw,
-    height: ch,
-    planes,
-    rawBytes: (img.rawBytes * cw * ch) / (width * height),
-    meta: { ...img.meta, icc: undefined },
-  };
+  const crop = centredCrop(img);
   const budget: Budget =
     byteBudget !== undefined ? { kind: 'bpp', bpp: (8 * byteBudget) / (width * height) } : opts.budget;
   const r = encodeScan(crop, { ...opts, budget, onProgress: undefined, layers: 'base' });

@@ -9,7 +9,8 @@
 import { readFile, stat } from 'node:fs/promises';
 import { basename } from 'node:path';
 import { encodeFactorSet, InputError, type StackFrameInfo, UsageError } from '../../contract';
-import { isStackContainer, openStack, type StackReader } from '../../engine/codec/stack-codec';
+import { isStackContainer } from '../../engine/codec/stack-codec';
+import { openStack, type StackReader } from '../../engine/lowrank/stack-frames';
 import { describeFileError } from '../image/open-file';
 
 export interface StackSession {

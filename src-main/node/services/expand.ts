@@ -16,13 +16,13 @@ import {
   InputError,
   type WithWarnings,
 } from '../../contract';
+import { MAX_PIXELS } from '../../engine/codec/image-file';
 import {
   type DecodedRkf,
   type DecodedRkfSamples,
   decodeImageFile,
   decodeImageFileSamples,
-  MAX_PIXELS,
-} from '../../engine/codec/image-file';
+} from '../../engine/lowrank/decode-image';
 import { hashSamples } from '../image/decode';
 import { encodeImage, formatFromPath } from '../image/encode';
 import { keepableMetadata } from '../image/metadata-chunks';

@@ -6,7 +6,7 @@ import { readdir, stat } from 'node:fs/promises';
 import { basename, extname, join } from 'node:path';
 import picomatch from 'picomatch';
 import { type DecodedImage, InputError, UsageError } from '../../contract';
-import type { StackInput } from '../../engine/codec/stack-codec';
+import type { StackInput } from '../../engine/codec/stack-header';
 import { decodeImage, probeImage } from '../image/decode';
 
 const IMAGE_EXT = new Set(['.png', '.tif', '.tiff', '.jpg', '.jpeg', '.webp']);

@@ -20,14 +20,13 @@ import {
 } from '../../contract';
 import { readImageHeader } from '../../engine/codec/image-file';
 import { fitStack, type StackFit, type StackTarget, StackTargetError } from '../../engine/codec/stack-budget';
+import { isStackContainer } from '../../engine/codec/stack-codec';
+import { MAX_STACK_RANK, type StackInput } from '../../engine/codec/stack-header';
 import {
   decodeStackFrame as decodeFrameBytes,
-  isStackContainer,
-  MAX_STACK_RANK,
   openStack,
   prepareStack,
-  type StackInput,
-} from '../../engine/codec/stack-codec';
+} from '../../engine/lowrank/stack-frames';
 import { encodeImage, formatFromPath } from '../image/encode';
 import { describeFileError } from '../image/open-file';
 import { assertWritable, writeFileAtomic } from '../io/atomic';

@@ -1,0 +1,149 @@
+/**
+ * Decode an .rkf image file (layout "image", ../codec/image-file) into samples: each coded plane's
+ * low-rank base rebuilt band by band (plus its residual layer, when there is one), then the colour
+ * transform undone, rounded and clamped into integer samples.
+ */
+import { FormatError } from '../../contract/errors';
+import { decodeLosslessPlane } from '../codec/alpha';
+import {
+  decodeResiduals,
+  type ReadOptions,
+  type RkfHeader,
+  readBasePlane,
+  readImageHeader,
+} from '../codec/image-file';
+import { reconstructRows } from '../codec/quantise';
+import { tileGrid } from '../codec/quantised';
+import { roundInto, ycbcrToRgbSamples } from './colour';
+
+export interface DecodedRkf {
+  header: RkfHeader;
+  width: number;
+  height: number;
+  bitDepth: 8 | 16;
+  channels: 1 | 2 | 3 | 4;
+  /** Samples per output channel (gray[,A] or R,G,B[,A]), rounded and clamped. */
+  samples: Float32Array[];
+  icc?: Uint8Array;
+}
+
+/**
+ * Decode a whole image file. Each step names the file and the problem on failure.
+ * The samples are rebuilt band by band as integers ({@link decodeImageFileSamples}), then widened to
+ * Float32: no full-size float64 plane is formed.
+ * @throws FormatError
+ */
+export function decodeImageFile(bytes: Uint8Array, file: string, opts: ReadOptions = {}): DecodedRkf {
+  const d = decodeImageFileSamples(bytes, file, opts);
+  return { ...d, samples: d.samples.map((p) => new Float32Array(p)) };
+}
+
+/** Integer samples of one channel: 8-bit scans in Uint8Array, 16-bit in Uint16Array. */
+export type SampleArray = Uint8Array | Uint16Array;
+
+/** A decoded file whose samples stay integers (1 or 2 bytes per sample). */
+export interface DecodedRkfSamples extends Omit<DecodedRkf, 'samples'> {
+  samples: SampleArray[];
+}
+
+/** Rows rebuilt at a time when a plane is not tiled (the tile height otherwise). */
+const BAND_ROWS = 64;
+
+/**
+ * Decode a whole image file into integer samples, band by band: per band of tile rows, each coded plane's
+ * rows are rebuilt in float64, converted (YCbCr → RGB), rounded and clamped into the output arrays. Memory
+ * is the output samples plus O(band·width), and the values equal the whole-plane reconstruction's.
+ * @throws FormatError
+ */
+export function decodeImageFileSamples(
+  bytes: Uint8Array,
+  file: string,
+  opts: ReadOptions = {},
+): DecodedRkfSamples {
+  const { view, header } = readImageHeader(bytes, file, opts);
+  const { width, height, bitDepth } = header;
+  const max = bitDepth === 16 ? 65535 : 255;
+  const planeFail = (k: number, err: unknown): never => {
+    if (err instanceof FormatError) throw err;
+    throw new FormatError(
+      file,
+      `plane ${k} (${header.planes[k].name}) cannot be decoded: ${(err as Error).message}`,
+    );
+  };
+  const quant = header.planes.map((_, k) => {
+    try {
+      const q = readBasePlane(view, header, k, opts.compressors);
+      const rects = tileGrid(width, height, q.tile);
+      if (rects.length !== q.tiles.length)
+        throw new RangeError('tile count does not match the plane geometry');
+      return { q, rects };
+    } catch (err) {
+      return planeFail(k, err);
+    }
+  });
+  const residual = decodeResiduals(view, header, file);
+  const n = width * height;
+  const colour = header.colourTransform === 'ycbcr-jfif';
+  const samples: SampleArray[] = Array.from({ length: colour ? 3 : 1 }, () =>
+    bitDepth === 16 ? new Uint16Array(n) : new Uint8Array(n),
+  );
+  const tile = quant[0].q.tile;
+  const band = Math.min(height, tile > 0 ? tile : BAND_ROWS);
+  const bufs = quant.map(() => new Float64Array(band * width));
+  for (let y0 = 0; y0 < height; y0 += band) {
+    const y1 = Math.min(height, y0 + band);
+    const len = (y1 - y0) * width;
+    const at = y0 * width;
+    quant.forEach(({ q, rects }, k) => {
+      try {
+        reconstructRows(q, rects, y0, y1, bufs[k]);
+      } catch (err) {
+        planeFail(k, err);
+      }
+      // Two layers: base + residual in float64, before any rounding (the same sum decodeImageLayers gives).
+      const r = residual[k];
+      if (r) {
+        const b = bufs[k];
+        for (let i = 0; i < len; i++) b[i] += r[at + i];
+      }
+    });
+    planesToSamples(bufs, colour, len, bitDepth, samples, at);
+  }
+  if (header.alpha === 'lossless') {
+    let alpha: Float32Array;
+    try {
+      alpha = decodeLosslessPlane(view.payload(view.find('ALPH')), width, height, max);
+    } catch (err) {
+      throw new FormatError(file, `the alpha plane cannot be decoded: ${(err as Error).message}`);
+    }
+    const a = bitDepth === 16 ? new Uint16Array(n) : new Uint8Array(n);
+    a.set(alpha);
+    samples.push(a);
+  }
+  const iccIndex = view.find('ICCP');
+  return {
+    header,
+    width,
+    height,
+    bitDepth,
+    channels: header.channels,
+    samples,
+    icc: iccIndex >= 0 ? view.payload(iccIndex).slice() : undefined,
+  };
+}
+
+/**
+ * `len` values of each coded plane (gray, or Y, Cb, Cr when `colour`) into integer samples from `at`:
+ * YCbCr → RGB for colour, then rounded and clamped to the bit depth.
+ */
+export function planesToSamples(
+  planes: Float64Array[],
+  colour: boolean,
+  len: number,
+  bitDepth: 8 | 16,
+  out: SampleArray[],
+  at: number,
+): void {
+  if (colour) ycbcrToRgbSamples(planes[0], planes[1], planes[2], len, bitDepth, out[0], out[1], out[2], at);
+  else roundInto(planes[0], len, bitDepth === 16 ? 65535 : 255, out[0], at);
+}

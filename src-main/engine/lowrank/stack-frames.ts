@@ -1,0 +1,81 @@
+/**
+ * A series of frames as source samples, in and out of the stack layout (../codec/stack-codec, which works
+ * on coded planes): the colour transform (JFIF YCbCr for colour, ./colour) and the frame-mode SVD
+ * (../stack/frame-svd) before an encode, and frames rebuilt as rounded, clamped samples when a file is read.
+ */
+
+import { openStackPlanes, type StackReaderOf } from '../codec/stack-codec';
+import {
+  type LazyEigenFrames,
+  MAX_STACK_RANK,
+  type PreparedStack,
+  type StackInput,
+} from '../codec/stack-header';
+import { eigenFrameOf, frameModeSvd } from '../stack/frame-svd';
+import { rgbToYcbcr, toSamples, ycbcrToRgb } from './colour';
+
+/** Planes back to source samples: YCbCr → RGB for colour, then round and clamp. */
+function toSourceSamples(planes: Float64Array[], channels: 1 | 3, bitDepth: 8 | 16): Float32Array[] {
+  const max = bitDepth === 16 ? 65535 : 255;
+  if (channels === 1) return [toSamples(planes[0], max)];
+  return ycbcrToRgb(planes[0], planes[1], planes[2], bitDepth).map((p) => toSamples(p, max));
+}
+
+/** Validate sizes and prepare the series. @throws RangeError on inconsistent frames (callers name files first). */
+export function prepareStack(input: StackInput, maxRank = MAX_STACK_RANK): PreparedStack {
+  const { width, height, channels, frames } = input;
+  const n = width * height;
+  if (frames.length < 2) throw new RangeError(`a stack needs at least 2 frames, got ${frames.length}`);
+  frames.forEach((f, j) => {
+    if (f.planes.length !== channels)
+      throw new RangeError(`frame ${j} has ${f.planes.length} channels; expected ${channels}`);
+    for (const p of f.planes)
+      if (p.length !== n)
+        throw new RangeError(`frame ${j} has a plane of ${p.length} samples; expected ${n}`);
+  });
+  const coded: Float64Array[][] = channels === 3 ? [[], [], []] : [[]];
+  for (const f of frames) {
+    if (channels === 3) {
+      const ycc = rgbToYcbcr(f.planes[0], f.planes[1], f.planes[2], input.bitDepth);
+      for (let c = 0; c < 3; c++) coded[c].push(ycc[c]);
+    } else coded[0].push(Float64Array.from(f.planes[0]));
+  }
+  const svd = coded.map((planes) => frameModeSvd(planes, width, height));
+  const eigen = coded.map((planes, c): LazyEigenFrames => {
+    const cache: Float64Array[] = [];
+    const length = Math.min(maxRank, frames.length);
+    return {
+      length,
+      get(i: number) {
+        if (i < 0 || i >= length) throw new RangeError(`eigen-frame ${i} of ${length}`);
+        cache[i] ??= eigenFrameOf(planes, svd[c], i);
+        return cache[i];
+      },
+    };
+  });
+  const toSource = (planes: Float64Array[]) => toSourceSamples(planes, channels, input.bitDepth);
+  return { input, coded, svd, eigen, toSource };
+}
+
+/** A reader whose frames are source samples: one plane per source channel, rounded and clamped. */
+export type StackReader = StackReaderOf<Float32Array[]>;
+
+/**
+ * Open a stack file held in memory; its frames come back as source samples.
+ * @throws FormatError naming `file` for a damaged, truncated or inconsistent file.
+ */
+export function openStack(bytes: Uint8Array, file: string): StackReader {
+  const planes = openStackPlanes(bytes, file);
+  const { channels, bitDepth } = planes.header;
+  return {
+    header: planes.header,
+    touched: planes.touched,
+    verify: () => planes.verify(),
+    frame: (j) => toSourceSamples(planes.frame(j), channels, bitDepth),
+  };
+}
+
+/** Decode one frame of an in-memory stack file (the app's frame slider). @throws FormatError. */
+export function decodeStackFrame(bytes: Uint8Array, j: number, file = 'stack'): Float32Array[] {
+  return openStack(bytes, file).frame(j);
+}
