@@ -236,10 +236,12 @@ describe('damaged containers', () => {
     }, /version 9/));
   it('oversized and inconsistent dimensions (header rewritten with valid CRCs)', async () => {
     const { readContainer, writeContainer } = await import('../../src-main/engine/codec/container');
+    const { readImageHeader } = await import('../../src-main/engine/codec/image-file');
     const rewrite = (edit: (h: Record<string, unknown>) => void) => (b: Uint8Array) => {
       const v = readContainer(b, 'x');
       const chunks = v.entries.map((e, k) => ({ type: e.type, id: e.id, payload: v.payload(k).slice() }));
-      const h = JSON.parse(String.fromCharCode(...chunks[0].payload));
+      // The header as read (a two-layer file of container 1.3 stores it compactly), rewritten as JSON (1.1).
+      const h = { ...readImageHeader(b, 'x').header } as unknown as Record<string, unknown>;
       edit(h);
       chunks[0].payload = Uint8Array.from(JSON.stringify(h), (c) => c.charCodeAt(0));
       return writeContainer(chunks);

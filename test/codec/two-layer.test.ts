@@ -1,5 +1,5 @@
-// The two-layer image file (container 1.2): a low-rank base plus a wavelet-coded residual (RSDL chunks),
-// split by the candidate search of src-main/engine/lowrank/two-layer.ts (docs/format.md, "Residual layer").
+// The two-layer image file (container 1.3; 1.2 before coefficient coder 2): a low-rank base plus a
+// wavelet-coded residual (RSDL chunks), split by the candidate search of src-main/engine/lowrank/two-layer.ts (docs/format.md, "Residual layer").
 import { existsSync, mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -68,7 +68,7 @@ describe('two layers add up', () => {
     const img = crop(await decodeImage(image('camera.png')), 160, 128);
     const r = encode(img, 1);
     expect(r.layers.residualBytes).toBeGreaterThan(0);
-    expect(readContainer(r.bytes, 'x.rkf').version).toEqual({ major: 1, minor: 2 });
+    expect(readContainer(r.bytes, 'x.rkf').version).toEqual({ major: 1, minor: 3 });
     const { base, residual } = decodeImageLayers(r.bytes, 'x.rkf');
     const sum = new Float64Array(base[0].length);
     for (let i = 0; i < sum.length; i++) sum[i] = base[0][i] + (residual[0] as Float64Array)[i];
@@ -225,7 +225,7 @@ describe('damage and determinism', () => {
       payload: e.type === 'RSDL' ? view.payload(k).slice(0, -1) : view.payload(k),
     }));
     const bad = join(dir, 'bad.rkf');
-    writeFileSync(bad, writeContainer(chunks, 2));
+    writeFileSync(bad, writeContainer(chunks, 3));
     const out = join(dir, 'bad.png');
     const err = await expandFile(bad, out).catch((e) => e);
     expect(err).toBeInstanceOf(FormatError);
@@ -238,7 +238,7 @@ describe('damage and determinism', () => {
       { type: 'RSDL', id: 1, payload: new Uint8Array(8) },
       chunks.at(-1),
     ];
-    expect(() => decodeImageFile(writeContainer(extra as typeof chunks, 2), 'extra.rkf')).toThrow(
+    expect(() => decodeImageFile(writeContainer(extra as typeof chunks, 3), 'extra.rkf')).toThrow(
       /^extra\.rkf: is inconsistent: unexpected residual chunks \(RSDL\)$/,
     );
   });

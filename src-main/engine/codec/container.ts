@@ -32,6 +32,12 @@ export const VERSION_MINOR = 1;
  * (RSDL chunks). Only such files are written as 1.2; every other file stays 1.1, byte for byte.
  */
 export const VERSION_MINOR_RESIDUAL = 2;
+/**
+ * 1.3: an image-layout file with a residual layer written by this version: its HEAD is the compact binary
+ * header (./compact-header) and its RSDL chunks use coefficient coder 2 (./coeff-coder). The writer
+ * produces 1.3 for every two-layer image; 1.2 files are still read.
+ */
+export const VERSION_MINOR_CODER2 = 3;
 /** Ancillary chunk of version ≥ 1.1 files: version copy and HEAD's CRC-32 (see the module comment). */
 export const FILE_CHECK = 'fchk';
 const FILE_CHECK_LENGTH = 8;
@@ -72,12 +78,12 @@ function getU32(b: Uint8Array, o: number): number {
 
 /**
  * Assemble a file from chunks (HEAD first). Pure; the node layer writes it atomically. `minor` is the minor
- * version to record (default {@link VERSION_MINOR}; {@link VERSION_MINOR_RESIDUAL} for two-layer images).
+ * version to record (default {@link VERSION_MINOR}; {@link VERSION_MINOR_CODER2} for two-layer images).
  */
 export function writeContainer(layoutChunks: Chunk[], minor: number = VERSION_MINOR): Uint8Array {
-  if (!(minor === VERSION_MINOR || minor === VERSION_MINOR_RESIDUAL))
+  if (!(minor === VERSION_MINOR || minor === VERSION_MINOR_RESIDUAL || minor === VERSION_MINOR_CODER2))
     throw new RangeError(
-      `this writer writes container version 1.${VERSION_MINOR} or 1.${VERSION_MINOR_RESIDUAL}`,
+      `this writer writes container version 1.${VERSION_MINOR}, 1.${VERSION_MINOR_RESIDUAL} or 1.${VERSION_MINOR_CODER2}`,
     );
   if (!layoutChunks.length || layoutChunks[0].type !== 'HEAD')
     throw new RangeError('the first chunk must be HEAD');

@@ -8,16 +8,18 @@
  */
 import { FormatError } from '../../contract/errors';
 import { asciiJson, parseAsciiJson } from './ascii-json';
+import { decodeCompactHeader, encodeCompactHeader } from './compact-header';
 import {
   type Chunk,
   type ContainerView,
   readContainer,
   refuseUnknownCritical,
   VERSION_MINOR,
-  VERSION_MINOR_RESIDUAL,
+  VERSION_MINOR_CODER2,
   writeContainer,
 } from './container';
 import { type ByteCompressor, decodePlane, type EntropyId, encodePlane } from './entropy';
+import { packIcc } from './icc-pack';
 import { DEAD_ZONE, reconstructRows } from './quantise';
 import { type QuantPlane, tileGrid } from './quantised';
 import { decodePlane as decodeWaveletPlane } from './wavelet-plane';
@@ -110,7 +112,12 @@ export function writeImageFile(parts: ImageFileParts): Uint8Array {
   });
   if (parts.alpha) chunks.push({ type: 'ALPH', id: 0, payload: parts.alpha });
   // Only a two-layer file is version 1.2; every other image file stays 1.1, byte for byte.
-  return writeContainer(chunks, residual ? VERSION_MINOR_RESIDUAL : VERSION_MINOR);
+  // A two-layer file is version 1.3 (compact HEAD, packed ICC, coefficient coder 2); others stay 1.1.
+  if (residual) {
+    chunks[0] = { type: 'HEAD', id: 0, payload: encodeCompactHeader(parts.header) };
+    if (parts.icc) chunks[1] = { type: 'ICCP', id: 0, payload: packIcc(parts.icc) };
+  }
+  return writeContainer(chunks, residual ? VERSION_MINOR_CODER2 : VERSION_MINOR);
 }
 
 /** Chunk type of a coded plane's residual layer (critical: a reader that does not know it must refuse). */
@@ -140,10 +147,11 @@ export function readImageHeader(
     throw new FormatError(file, problem);
   };
   let header: RkfHeader;
+  const compact = view.version.minor >= VERSION_MINOR_CODER2;
   try {
-    header = parseAsciiJson(view.payload(0)) as RkfHeader;
+    header = (compact ? decodeCompactHeader : parseAsciiJson)(view.payload(0)) as RkfHeader;
   } catch {
-    return fail('is damaged: the header (HEAD) is not valid ASCII JSON');
+    return fail(`is damaged: the header (HEAD) is not valid ${compact ? 'compact header' : 'ASCII JSON'}`);
   }
   if (typeof header !== 'object' || header === null || header.format !== 'rankfold')
     fail('has a header that is not a Rankfold header');
@@ -256,7 +264,8 @@ export function decodeResiduals(
   return header.planes.map((ph, k) => {
     if (ph.residualStep === undefined) return undefined;
     try {
-      return decodeWaveletPlane(view.payload(view.find(RESIDUAL, k)), width, height, ph.residualStep);
+      const coder = view.version.minor >= VERSION_MINOR_CODER2 ? 2 : 1;
+      return decodeWaveletPlane(view.payload(view.find(RESIDUAL, k)), width, height, ph.residualStep, coder);
     } catch (err) {
       if (err instanceof FormatError) throw err;
       throw new FormatError(

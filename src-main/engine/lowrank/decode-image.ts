@@ -5,6 +5,7 @@
  */
 import { FormatError } from '../../contract/errors';
 import { decodeLosslessPlane } from '../codec/alpha';
+import { storedIcc } from '../codec/icc-pack';
 import {
   decodeResiduals,
   type ReadOptions,
@@ -120,7 +121,6 @@ export function decodeImageFileSamples(
     a.set(alpha);
     samples.push(a);
   }
-  const iccIndex = view.find('ICCP');
   return {
     header,
     width,
@@ -128,7 +128,7 @@ export function decodeImageFileSamples(
     bitDepth,
     channels: header.channels,
     samples,
-    icc: iccIndex >= 0 ? view.payload(iccIndex).slice() : undefined,
+    icc: storedIcc(view, file),
   };
 }
 

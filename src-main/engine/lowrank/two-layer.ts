@@ -12,7 +12,9 @@
  * 3. mixed: the base keeps the greedy components whose estimated slope (squared error removed per bit) is at
  *    least κ·λ, for κ ∈ {1, 3}, where λ is the residual coder's own measured slope at the budget
  *    (from candidate 2's last two real encodes). κ > 1 because a component also removes error the wavelet
- *    would have removed anyway, so its gain on top of the residual is less than its gain alone.
+ *    would have removed anyway, so its gain on top of the residual is less than its gain alone;
+ * 4. the whole base plan (κ = 0) plus a residual in the bytes left by the two-layer file's smaller framing
+ *    (container 1.3: compact header, packed ICC profile), typically 300–1000 bytes.
  *
  * For each candidate with a residual, the residual's step Δ (one step for all planes, scaled per plane so every
  * plane adds the same weighted error per coefficient, as the base does) is chosen to fill the bytes the base
@@ -139,7 +141,7 @@ function fitResidual(
   const estimate = (d: number) => analysed.reduce((s, a, k) => s + estimateBits(a, d * scales[k]), 0) / 8;
   const code = (d: number) => {
     cancel();
-    const coded = analysed.map((a, k) => codeAnalysed(a, tidy(d * scales[k])));
+    const coded = analysed.map((a, k) => codeAnalysed(a, tidy(d * scales[k]), 2));
     const bytes = coded.map((c) => c.bytes);
     const size = bytes.reduce((s, b) => s + b.length, 0);
     const sse = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
@@ -334,6 +336,9 @@ export function chooseLayers(ctx: LayerContext): LayerPlan {
       withResidual('mixed', quantPlanes(inputs, c, prefixRanks(c, P)), kappa);
     }
   }
+  // 4. The whole base plan with a residual in the bytes a two-layer file's smaller framing leaves (its compact
+  // header and packed ICC profile, container 1.3; κ = 0): no worse than base only when those bytes fit one.
+  if (components(basePlan.planes) > 0) withResidual('mixed', basePlan.planes, 0);
   // Base only can be over the budget only when the budget is below the smallest base-only file (the caller
   // then offers an empty base); it is then never chosen over a candidate that fits (see offer).
   const best = chosen as Heavy;

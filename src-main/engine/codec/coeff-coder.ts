@@ -1,0 +1,263 @@
+/**
+ * Coefficient coder 2 of the wavelet plane coder (./wavelet-plane): the residual layer of container 1.3.
+ * One routine ({@link codeCoefficients}) walks the coefficients for both directions, so the encoder and the
+ * decoder form every context from the same already-coded values.
+ *
+ * - Order: the LL band, then HL, LH, HH from the coarsest level to the finest, each in raster order.
+ * - LL: predicted from its coded neighbours by the median edge detector of LOCO-I (Weinberger, Seroussi,
+ *   Sapiro, IEEE Trans. Image Process. 9(8):1309–1324, 2000, eq. 2), the difference coded as a signed
+ *   integer on contexts from the neighbouring differences.
+ * - Detail bands, significance: contexts from a weighted sum of already-coded neighbour magnitudes in the
+ *   band (left, above ×2; diagonals, two to the left, two above ×1), separately from the parent (same
+ *   orientation, next coarser level) and the co-located coefficients of the sibling bands already coded at
+ *   this level (HL before LH before HH), per class of level and orientation. This is the neighbourhood of
+ *   EBCOT's context formation (Taubman, IEEE Trans. Image Process. 9(7):1158–1170, 2000, §III; ISO/IEC
+ *   15444-1 Annex D) with magnitude sums in place of significance counts (common practice, from memory).
+ * - Signs: contexts from the signs of the left and upper neighbours, per orientation (Annex D's sign
+ *   contexts use the same two neighbours and their signs; from memory).
+ * - Magnitudes: the range coder's unary-then-Exp-Golomb bins, on contexts from the neighbour magnitudes.
+ * - Reconstruction offsets: after the coefficients, per band, the mean position δ of the coded values
+ *   inside their quantiser bins (in 1/32 of the band's step), one for |q| = 1 and one for |q| ≥ 2, for each
+ *   that has at least {@link MIN_OFFSET_COUNT} values. The decoder rebuilds sign(q)·(|q| + δ)·Δ, the
+ *   centroid of the bin's coefficients (Sullivan, IEEE Trans. Inf. Theory 42(5):1365–1374, 1996: for a
+ *   Laplacian source the MSE-optimal reconstruction lies inside the bin, not at its edge).
+ */
+import {
+  type BitModel,
+  decodeInt,
+  decodeMagnitude,
+  encodeInt,
+  encodeMagnitude,
+  IntModel,
+  models,
+  RangeDecoder,
+  RangeEncoder,
+} from './range-coder';
+import type { Band } from './wavelet-transform';
+
+/** Significance contexts per class: 10 neighbourhood bins × 3 parent/sibling bins. */
+const NB_BINS = 10;
+const PS_BINS = 3;
+/** Level group (1, 2, ≥3) × orientation class (HL/LH, HH). */
+const CLASSES = 6;
+const MAG_BINS = 6;
+/** Least count of coded values in a band for it to carry a reconstruction offset. */
+export const MIN_OFFSET_COUNT = 8;
+/** Reconstruction offsets are multiples of 1/OFFSET_UNIT of the step, within [OFFSET_MIN, OFFSET_MAX]. */
+const OFFSET_UNIT = 32;
+const OFFSET_MIN = -16;
+const OFFSET_MAX = 20;
+
+/** Neighbourhood sum → bin: 0, 1, 2, 3, 4–5, 6–7, 8–11, 12–17, 18–29, ≥ 30. */
+const NB_LUT = Uint8Array.from({ length: 30 }, (_, s) =>
+  s < 4 ? s : s < 6 ? 4 : s < 8 ? 5 : s < 12 ? 6 : s < 18 ? 7 : 8,
+);
+const nbBin = (s: number) => (s < 30 ? NB_LUT[s] : 9);
+
+/** Either direction of the range coder behind one interface: the encoder writes `v` and returns it. */
+interface BitIo {
+  bit(m: BitModel, v: number): number;
+  magnitude(m: IntModel, v: number, cls: number): number;
+  int(m: IntModel, v: number, cls: number, prevSign: number): number;
+}
+
+function encoderIo(enc: RangeEncoder): BitIo {
+  return {
+    bit(m, v) {
+      enc.encodeBit(m, v);
+      return v;
+    },
+    magnitude(m, v, cls) {
+      encodeMagnitude(enc, m, v, cls);
+      return v;
+    },
+    int(m, v, cls, prevSign) {
+      encodeInt(enc, m, v, cls, prevSign);
+      return v;
+    },
+  };
+}
+
+function decoderIo(dec: RangeDecoder): BitIo {
+  return {
+    bit: (m) => dec.decodeBit(m),
+    magnitude: (m, _v, cls) => decodeMagnitude(dec, m, cls),
+    int: (m, _v, cls, prevSign) => decodeInt(dec, m, cls, prevSign),
+  };
+}
+
+const sgn = (v: number) => (v > 0 ? 1 : v < 0 ? -1 : 0);
+
+/** LL by MED prediction; `q` is read (encoder) or filled (decoder) in place. */
+function codeLL(io: BitIo, q: Int32Array, width: number, b: Band): void {
+  const m = new IntModel(5);
+  const d = new Int32Array(b.w * b.h);
+  for (let y = 0; y < b.h; y++)
+    for (let x = 0; x < b.w; x++) {
+      const idx = (b.y0 + y) * width + b.x0 + x;
+      const a = x > 0 ? q[idx - 1] : y > 0 ? q[idx - width] : 0;
+      const u = y > 0 ? q[idx - width] : a;
+      const c = x > 0 && y > 0 ? q[idx - width - 1] : u;
+      const pred = c >= Math.max(a, u) ? Math.min(a, u) : c <= Math.min(a, u) ? Math.max(a, u) : a + u - c;
+      const k = y * b.w + x;
+      const act = (x > 0 ? Math.abs(d[k - 1]) : 0) + (y > 0 ? Math.abs(d[k - b.w]) : 0);
+      const cls = act === 0 ? 0 : act <= 2 ? 1 : act <= 6 ? 2 : act <= 20 ? 3 : 4;
+      const prevSign = x > 0 ? sgn(d[k - 1]) : 0;
+      d[k] = io.int(m, q[idx] - pred, cls, prevSign);
+      q[idx] = pred + d[k];
+    }
+}
+
+function classOf(b: Band): number {
+  return 2 * (b.level === 1 ? 0 : b.level === 2 ? 1 : 2) + (b.orient === 3 ? 1 : 0);
+}
+
+/**
+ * Code every coefficient of `q` (Mallat layout, row stride `width`) in one direction: the encoder's io
+ * writes the values of `q`; the decoder's io fills `q` (zeroed on entry).
+ */
+function codeCoefficients(io: BitIo, q: Int32Array, width: number, bands: Band[]): void {
+  const zm = models(CLASSES * NB_BINS * PS_BINS);
+  const sm = models(3 * 9);
+  const mm = new IntModel(3 * MAG_BINS);
+  const byKey = new Map<string, Band>();
+  for (const b of bands) byKey.set(`${b.orient}:${b.level}`, b);
+  const cap = (v: number) => (v < 0 ? (v < -15 ? 15 : -v) : v > 15 ? 15 : v);
+  for (const b of bands) {
+    if (b.orient === 0) {
+      codeLL(io, q, width, b);
+      continue;
+    }
+    const cls = classOf(b);
+    const group = cls >> 1;
+    const parent = byKey.get(`${b.orient}:${b.level + 1}`);
+    const sibs = [1, 2]
+      .filter((o) => o < b.orient)
+      .map((o) => byKey.get(`${o}:${b.level}`))
+      .filter((s): s is Band => s !== undefined);
+    for (let y = 0; y < b.h; y++) {
+      const row = (b.y0 + y) * width + b.x0;
+      for (let x = 0; x < b.w; x++) {
+        const idx = row + x;
+        const l = x > 0 ? cap(q[idx - 1]) : 0;
+        const u = y > 0 ? cap(q[idx - width]) : 0;
+        let s = 2 * (l + u);
+        if (y > 0) {
+          if (x > 0) s += cap(q[idx - width - 1]);
+          if (x + 1 < b.w) s += cap(q[idx - width + 1]);
+        }
+        if (x > 1) s += cap(q[idx - 2]);
+        if (y > 1) s += cap(q[idx - 2 * width]);
+        let ps = 0;
+        if (parent)
+          ps +=
+            2 *
+            cap(
+              q[
+                (parent.y0 + Math.min(parent.h - 1, y >> 1)) * width +
+                  parent.x0 +
+                  Math.min(parent.w - 1, x >> 1)
+              ],
+            );
+        for (const sb of sibs) if (x < sb.w && y < sb.h) ps += cap(q[(sb.y0 + y) * width + sb.x0 + x]);
+        const pc = ps === 0 ? 0 : ps <= 2 ? 1 : 2;
+        const v = q[idx];
+        const z = io.bit(zm[(cls * NB_BINS + nbBin(s)) * PS_BINS + pc], v !== 0 ? 1 : 0);
+        if (!z) continue;
+        const sc = (sgn(x > 0 ? q[idx - 1] : 0) + 1) * 3 + sgn(y > 0 ? q[idx - width] : 0) + 1;
+        const neg = io.bit(sm[(b.orient - 1) * 9 + sc], v < 0 ? 1 : 0);
+        const act = l + u + (ps >> 1);
+        const mc = act === 0 ? 0 : act <= 1 ? 1 : act <= 3 ? 2 : act <= 6 ? 3 : act <= 12 ? 4 : 5;
+        const a = io.magnitude(mm, Math.abs(v) - 1, group * MAG_BINS + mc) + 1;
+        q[idx] = neg ? -a : a;
+      }
+    }
+  }
+}
+
+/** Per band, [count of |q| = 1, count of |q| ≥ 2]. */
+function binCounts(q: Int32Array, map: Uint8Array, nb: number): Int32Array {
+  const n = new Int32Array(2 * nb);
+  for (let i = 0; i < q.length; i++) if (q[i]) n[2 * map[i] + (q[i] === 1 || q[i] === -1 ? 0 : 1)]++;
+  return n;
+}
+
+/** Code the reconstruction offsets (units of 1/OFFSET_UNIT) of the bins with enough values. */
+function codeOffsets(io: BitIo, k: Int32Array, counts: Int32Array): Float64Array {
+  const m = new IntModel(2);
+  const out = new Float64Array(k.length);
+  let prev = [0, 0];
+  for (let j = 0; j < k.length; j++) {
+    if (counts[j] < MIN_OFFSET_COUNT) continue;
+    const c = j & 1;
+    const v = prev[c] + io.int(m, k[j] - prev[c], c, 0);
+    if (v < OFFSET_MIN || v > OFFSET_MAX) throw new RangeError('corrupt plane data (reconstruction offset)');
+    prev = c ? [prev[0], v] : [v, prev[1]];
+    out[j] = v / OFFSET_UNIT;
+  }
+  return out;
+}
+
+export interface CodedV2 {
+  bytes: Uint8Array;
+  /** Per band b: offsets[2b] for |q| = 1 and offsets[2b + 1] for |q| ≥ 2, in units of the band's step. */
+  offsets: Float64Array;
+}
+
+/**
+ * Range-code quantised coefficients `q` with coder 2. `coeffs` and `steps` (the unquantised coefficients
+ * and each band's step) give the reconstruction offsets; `map` is each coefficient's band.
+ */
+export function encodeCoefficientsV2(
+  q: Int32Array,
+  coeffs: Float64Array,
+  steps: Float64Array,
+  width: number,
+  bands: Band[],
+  map: Uint8Array,
+): CodedV2 {
+  const nb = bands.length;
+  const counts = binCounts(q, map, nb);
+  const sum = new Float64Array(2 * nb);
+  for (let i = 0; i < q.length; i++) {
+    const v = q[i];
+    if (!v) continue;
+    const a = v < 0 ? -v : v;
+    sum[2 * map[i] + (a === 1 ? 0 : 1)] += Math.abs(coeffs[i]) / steps[map[i]] - a;
+  }
+  const k = Int32Array.from(sum, (s, j) =>
+    counts[j] ? Math.max(OFFSET_MIN, Math.min(OFFSET_MAX, Math.round((OFFSET_UNIT * s) / counts[j]))) : 0,
+  );
+  const enc = new RangeEncoder();
+  const io = encoderIo(enc);
+  const nonZero = counts.some((c) => c > 0);
+  enc.encodeDirect(nonZero ? 1 : 0);
+  let offsets: Float64Array = new Float64Array(2 * nb);
+  if (nonZero) {
+    codeCoefficients(io, q.slice(), width, bands);
+    offsets = codeOffsets(io, k, counts);
+  }
+  return { bytes: enc.finish(), offsets };
+}
+
+/**
+ * Decode coder 2's coefficients into `q` (zeroed); returns the reconstruction offsets.
+ * @throws RangeError if the bytes run out, are not all used or hold impossible values
+ */
+export function decodeCoefficientsV2(
+  bytes: Uint8Array,
+  q: Int32Array,
+  width: number,
+  bands: Band[],
+  map: Uint8Array,
+): Float64Array {
+  const dec = new RangeDecoder(bytes);
+  const io = decoderIo(dec);
+  let offsets: Float64Array = new Float64Array(2 * bands.length);
+  if (dec.decodeDirect() !== 0) {
+    codeCoefficients(io, q, width, bands);
+    offsets = codeOffsets(io, new Int32Array(2 * bands.length), binCounts(q, map, bands.length));
+  }
+  dec.checkEnd('plane data');
+  return offsets;
+}

@@ -1,0 +1,283 @@
+/**
+ * The CDF 9/7 wavelet transform of the plane coder (./wavelet-plane): lifting form, in place, Mallat layout,
+ * and the sub-band geometry with each band's synthesis energy gain.
+ *
+ * References
+ * - A. Cohen, I. Daubechies, J.-C. Feauveau, "Biorthogonal bases of compactly supported wavelets",
+ *   Comm. Pure Appl. Math. 45(5):485–560, 1992 (the 9/7 filter pair).
+ * - I. Daubechies, W. Sweldens, "Factoring wavelet transforms into lifting steps", J. Fourier Anal.
+ *   Appl. 4(3):247–269, 1998, §7 (lifting coefficients α, β, γ, δ and scale ζ of the 9/7 pair; the
+ *   numerical values below are the commonly published ones, from memory).
+ * - S. Mallat, "A theory for multiresolution signal decomposition: the wavelet representation",
+ *   IEEE TPAMI 11(7):674–693, 1989 (the dyadic 2-D decomposition).
+ */
+
+const ALPHA = -1.586134342059924;
+const BETA = -0.052980118572961;
+const GAMMA = 0.882911075530934;
+const DELTA = 0.443506852043971;
+const ZETA = 1.149604398860241;
+
+/** Smallest side a level may split (below it the filters see mostly boundary extension). */
+const MIN_SIDE = 12;
+/** Most decomposition levels. */
+const MAX_LEVELS = 6;
+
+/** Number of levels used for a w×h plane. */
+export function levelsFor(width: number, height: number): number {
+  let l = 0;
+  let w = width;
+  let h = height;
+  while (l < MAX_LEVELS && Math.min(w, h) >= MIN_SIDE) {
+    w = (w + 1) >> 1;
+    h = (h + 1) >> 1;
+    l++;
+  }
+  return l;
+}
+
+/** Forward 1-D 9/7 lifting on x[o], x[o+s], … (n samples); writes lows then highs into tmp, then back. */
+function fwd1d(x: Float64Array, o: number, s: number, n: number, tmp: Float64Array): void {
+  if (n < 2) return;
+  const nL = (n + 1) >> 1;
+  const nH = n >> 1;
+  const L = tmp;
+  const H = tmp.subarray(nL);
+  for (let i = 0; i < nL; i++) L[i] = x[o + 2 * i * s];
+  for (let i = 0; i < nH; i++) H[i] = x[o + (2 * i + 1) * s];
+  const lift = (a: Float64Array, na: number, b: Float64Array, nb: number, c: number, bFromA: boolean) => {
+    // bFromA: update b (highs) from neighbours in a (lows): b[i] += c·(a[i] + a[i+1]).
+    // otherwise: update a (lows) from b (highs): a[i] += c·(b[i−1] + b[i]). Symmetric extension = clamping.
+    if (bFromA) for (let i = 0; i < nb; i++) b[i] += c * (a[i] + a[Math.min(i + 1, na - 1)]);
+    else for (let i = 0; i < na; i++) a[i] += c * (b[Math.max(i - 1, 0)] + b[Math.min(i, nb - 1)]);
+  };
+  lift(L, nL, H, nH, ALPHA, true);
+  lift(L, nL, H, nH, BETA, false);
+  lift(L, nL, H, nH, GAMMA, true);
+  lift(L, nL, H, nH, DELTA, false);
+  for (let i = 0; i < nL; i++) x[o + i * s] = L[i] / ZETA;
+  for (let i = 0; i < nH; i++) x[o + (nL + i) * s] = H[i] * ZETA;
+}
+
+function inv1d(x: Float64Array, o: number, s: number, n: number, tmp: Float64Array): void {
+  if (n < 2) return;
+  const nL = (n + 1) >> 1;
+  const nH = n >> 1;
+  const L = tmp;
+  const H = tmp.subarray(nL);
+  for (let i = 0; i < nL; i++) L[i] = x[o + i * s] * ZETA;
+  for (let i = 0; i < nH; i++) H[i] = x[o + (nL + i) * s] / ZETA;
+  for (let i = 0; i < nL; i++) L[i] -= DELTA * (H[Math.max(i - 1, 0)] + H[Math.min(i, nH - 1)]);
+  for (let i = 0; i < nH; i++) H[i] -= GAMMA * (L[i] + L[Math.min(i + 1, nL - 1)]);
+  for (let i = 0; i < nL; i++) L[i] -= BETA * (H[Math.max(i - 1, 0)] + H[Math.min(i, nH - 1)]);
+  for (let i = 0; i < nH; i++) H[i] -= ALPHA * (L[i] + L[Math.min(i + 1, nL - 1)]);
+  for (let i = 0; i < nL; i++) x[o + 2 * i * s] = L[i];
+  for (let i = 0; i < nH; i++) x[o + (2 * i + 1) * s] = H[i];
+}
+
+/**
+ * Column pass of one level on the top-left w×h region (row stride `width`), done as operations on
+ * whole rows so memory is read contiguously. Per sample, the arithmetic and its order are exactly those
+ * of {@link fwd1d} on the column, so results are bit-identical to a column-by-column transform.
+ */
+function fwdCols(x: Float64Array, width: number, w: number, h: number, buf: Float64Array): void {
+  if (h < 2) return;
+  const nL = (h + 1) >> 1;
+  const nH = h >> 1;
+  for (let i = 0; i < h; i++) {
+    const src = (i & 1 ? nL + (i >> 1) : i >> 1) * w;
+    buf.set(x.subarray(i * width, i * width + w), src);
+  }
+  const L = (i: number) => i * w;
+  const H = (i: number) => (nL + i) * w;
+  const predict = (c: number) => {
+    for (let i = 0; i < nH; i++) {
+      const hi = H(i);
+      const a = L(i);
+      const b = L(Math.min(i + 1, nL - 1));
+      for (let k = 0; k < w; k++) buf[hi + k] += c * (buf[a + k] + buf[b + k]);
+    }
+  };
+  const update = (c: number) => {
+    for (let i = 0; i < nL; i++) {
+      const lo = L(i);
+      const a = H(Math.max(i - 1, 0));
+      const b = H(Math.min(i, nH - 1));
+      for (let k = 0; k < w; k++) buf[lo + k] += c * (buf[a + k] + buf[b + k]);
+    }
+  };
+  predict(ALPHA);
+  update(BETA);
+  predict(GAMMA);
+  update(DELTA);
+  for (let i = 0; i < nL; i++) {
+    const o = i * width;
+    const b = L(i);
+    for (let k = 0; k < w; k++) x[o + k] = buf[b + k] / ZETA;
+  }
+  for (let i = 0; i < nH; i++) {
+    const o = (nL + i) * width;
+    const b = H(i);
+    for (let k = 0; k < w; k++) x[o + k] = buf[b + k] * ZETA;
+  }
+}
+
+/** Inverse of {@link fwdCols}, bit-identical to {@link inv1d} on every column. */
+function invCols(x: Float64Array, width: number, w: number, h: number, buf: Float64Array): void {
+  if (h < 2) return;
+  const nL = (h + 1) >> 1;
+  const nH = h >> 1;
+  const L = (i: number) => i * w;
+  const H = (i: number) => (nL + i) * w;
+  for (let i = 0; i < nL; i++) {
+    const o = i * width;
+    const b = L(i);
+    for (let k = 0; k < w; k++) buf[b + k] = x[o + k] * ZETA;
+  }
+  for (let i = 0; i < nH; i++) {
+    const o = (nL + i) * width;
+    const b = H(i);
+    for (let k = 0; k < w; k++) buf[b + k] = x[o + k] / ZETA;
+  }
+  const unupdate = (c: number) => {
+    for (let i = 0; i < nL; i++) {
+      const lo = L(i);
+      const a = H(Math.max(i - 1, 0));
+      const b = H(Math.min(i, nH - 1));
+      for (let k = 0; k < w; k++) buf[lo + k] -= c * (buf[a + k] + buf[b + k]);
+    }
+  };
+  const unpredict = (c: number) => {
+    for (let i = 0; i < nH; i++) {
+      const hi = H(i);
+      const a = L(i);
+      const b = L(Math.min(i + 1, nL - 1));
+      for (let k = 0; k < w; k++) buf[hi + k] -= c * (buf[a + k] + buf[b + k]);
+    }
+  };
+  unupdate(DELTA);
+  unpredict(GAMMA);
+  unupdate(BETA);
+  unpredict(ALPHA);
+  for (let i = 0; i < h; i++) {
+    const src = (i & 1 ? nL + (i >> 1) : i >> 1) * w;
+    x.set(buf.subarray(src, src + w), i * width);
+  }
+}
+
+/** In-place 2-D forward transform (Mallat layout). */
+export function forwardWavelet(x: Float64Array, width: number, height: number, levels: number): void {
+  const tmp = new Float64Array(Math.max(width, height));
+  const buf = new Float64Array(width * height);
+  let w = width;
+  let h = height;
+  for (let l = 0; l < levels; l++) {
+    for (let y = 0; y < h; y++) fwd1d(x, y * width, 1, w, tmp);
+    fwdCols(x, width, w, h, buf);
+    w = (w + 1) >> 1;
+    h = (h + 1) >> 1;
+  }
+}
+
+/** In-place 2-D inverse transform. */
+export function inverseWavelet(x: Float64Array, width: number, height: number, levels: number): void {
+  const tmp = new Float64Array(Math.max(width, height));
+  const buf = new Float64Array(width * height);
+  const ws = [width];
+  const hs = [height];
+  for (let l = 1; l < levels; l++) {
+    ws.push((ws[l - 1] + 1) >> 1);
+    hs.push((hs[l - 1] + 1) >> 1);
+  }
+  for (let l = levels - 1; l >= 0; l--) {
+    const w = ws[l];
+    const h = hs[l];
+    invCols(x, width, w, h, buf);
+    for (let y = 0; y < h; y++) inv1d(x, y * width, 1, w, tmp);
+  }
+}
+
+/** Column-by-column reference transforms (used by tests to check the row-wise column pass). */
+export function forwardWaveletReference(
+  x: Float64Array,
+  width: number,
+  height: number,
+  levels: number,
+): void {
+  const tmp = new Float64Array(Math.max(width, height));
+  let w = width;
+  let h = height;
+  for (let l = 0; l < levels; l++) {
+    for (let y = 0; y < h; y++) fwd1d(x, y * width, 1, w, tmp);
+    for (let c = 0; c < w; c++) fwd1d(x, c, width, h, tmp);
+    w = (w + 1) >> 1;
+    h = (h + 1) >> 1;
+  }
+}
+
+/** Synthesis energy of one unit coefficient in the 1-D low band after `l` levels, or high band of level l. */
+const gainCache = new Map<string, number>();
+function gain1d(kind: 'low' | 'high', l: number): number {
+  const key = `${kind}${l}`;
+  const hit = gainCache.get(key);
+  if (hit !== undefined) return hit;
+  const n = 1024;
+  const x = new Float64Array(n);
+  // Band extents in the Mallat layout of a length-1024 signal.
+  let lowLen = n;
+  for (let i = 0; i < (kind === 'low' ? l : l - 1); i++) lowLen = (lowLen + 1) >> 1;
+  const pos = kind === 'low' ? lowLen >> 1 : ((lowLen + 1) >> 1) + (lowLen >> 2);
+  x[pos] = 1;
+  const tmp = new Float64Array(n);
+  const lens = [n];
+  for (let i = 1; i < l; i++) lens.push((lens[i - 1] + 1) >> 1);
+  for (let i = l - 1; i >= 0; i--) inv1d(x, 0, 1, lens[i], tmp);
+  let e = 0;
+  for (let i = 0; i < n; i++) e += x[i] * x[i];
+  gainCache.set(key, e);
+  return e;
+}
+
+export interface Band {
+  x0: number;
+  y0: number;
+  w: number;
+  h: number;
+  /** 0 = LL, 1 = HL (horizontal high), 2 = LH, 3 = HH. */
+  orient: number;
+  level: number;
+  /** Synthesis energy gain (pixel-domain squared error per unit squared coefficient error). */
+  gain: number;
+}
+
+/** Sub-bands in coding order: LL of the coarsest level, then HL, LH, HH from coarse to fine. */
+export function bandsFor(width: number, height: number, levels: number): Band[] {
+  const ws = [width];
+  const hs = [height];
+  for (let l = 1; l <= levels; l++) {
+    ws.push((ws[l - 1] + 1) >> 1);
+    hs.push((hs[l - 1] + 1) >> 1);
+  }
+  const bands: Band[] = [];
+  const gl = (l: number) => (l === 0 ? 1 : gain1d('low', l));
+  bands.push({
+    x0: 0,
+    y0: 0,
+    w: ws[levels],
+    h: hs[levels],
+    orient: 0,
+    level: levels,
+    gain: gl(levels) * gl(levels),
+  });
+  for (let l = levels; l >= 1; l--) {
+    const lw = ws[l];
+    const lh = hs[l];
+    const hw = ws[l - 1] - lw;
+    const hh = hs[l - 1] - lh;
+    const gh = gain1d('high', l);
+    bands.push({ x0: lw, y0: 0, w: hw, h: lh, orient: 1, level: l, gain: gh * gl(l) });
+    bands.push({ x0: 0, y0: lh, w: lw, h: hh, orient: 2, level: l, gain: gl(l) * gh });
+    bands.push({ x0: lw, y0: lh, w: hw, h: hh, orient: 3, level: l, gain: gh * gh });
+  }
+  return bands.filter((b) => b.w > 0 && b.h > 0);
+}
