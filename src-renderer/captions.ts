@@ -116,6 +116,8 @@ export interface PaneView {
   tiled: boolean;
   tile: number;
   rank: number;
+  /** Layers the page holds; a larger whole-plane rank is shown at this one until more arrive. */
+  held: number;
 }
 
 /** The labels above the left and right panes. */
@@ -129,9 +131,13 @@ export function paneLabels(p: PaneView): { left: string; right: string } {
           ? `difference at rank ${p.rank} × ${p.gain}`
           : p.mode === 'layer'
             ? `layer ${p.layerIndex + 1}: σᵢuᵢvᵢᵀ`
-            : p.tiled
-              ? `tiles of ${p.tile}, rank ≤ ${p.rank}`
-              : `rank ${p.rank}`;
+            : p.mode === 'tiles' && !p.tiled
+              ? 'no tiles: choose “tiles of” under Planes to see each tile’s rank'
+              : p.tiled
+                ? `tiles of ${p.tile}, rank ≤ ${p.rank}`
+                : p.held < p.rank
+                  ? `rank ${p.rank} (showing ${p.held} until the deeper layers arrive)`
+                  : `rank ${p.rank}`;
   const left = p.mode === 'side' ? 'original' : p.mode === 'swipe' ? 'original | reconstruction' : '';
   return { left, right };
 }
@@ -148,8 +154,14 @@ export function frameLabels(info: StackFrameInfo): { left: string; right: string
 const frameName = (info: StackFrameInfo) => info.frameNames[info.frame] ?? `frame ${info.frame + 1}`;
 
 /** The Stack card's readouts by data-metric: `value` for data-value ('' for none), `text` for the <dd>. */
-export function stackCardCells(info: StackFrameInfo): Record<StackMetric, { value: string; text: string }> {
-  const cell = (value: number, text: string) => ({ value: Number.isNaN(value) ? '' : String(value), text });
+export function stackCardCells(
+  info: StackFrameInfo,
+): Record<StackMetric, { value: string; text: string; exact: boolean }> {
+  const cell = (value: number, text: string) => ({
+    value: Number.isNaN(value) ? '' : String(value),
+    text,
+    exact: true,
+  });
   const w = info.worst;
   return {
     frame: cell(info.frame + 1, `${info.frame + 1} · ${frameName(info)}`),
@@ -181,4 +193,51 @@ export function stackOpenedStatus(info: StackFrameInfo): string {
 /** A recent file's button label: its name without folders. */
 export function recentLabel(path: string): string {
   return path.split(/[\\/]/).pop() ?? path;
+}
+
+/** A colour map's legend: a CSS gradient and what its two ends and middle mean. */
+export interface MapLegend {
+  gradient: string;
+  low: string;
+  mid: string;
+  high: string;
+}
+
+/** Rank-map stops (deep ink blue → verdigris → straw), shared with the view's painter. */
+export const RANK_RAMP: readonly (readonly [number, number, number])[] = [
+  [28, 42, 74],
+  [47, 125, 109],
+  [232, 200, 110],
+];
+const rgb = (c: readonly number[]) => `rgb(${c.join(',')})`;
+
+/** The legend of the colour map on screen, if the view shows one. */
+export function mapLegend(p: {
+  mode: ViewMode;
+  showing: PaneView['showing'];
+  gain: number;
+  tileRanks?: { min: number; max: number };
+}): MapLegend | undefined {
+  if (p.showing === 'model' && p.mode === 'diff')
+    return {
+      gradient: 'linear-gradient(to right, rgb(0,128,255), rgb(128,128,128), rgb(255,128,0))',
+      low: `too dark by ≥ ${Math.round(255 / p.gain)} grey levels`,
+      mid: 'no difference',
+      high: `too bright by ≥ ${Math.round(255 / p.gain)}`,
+    };
+  if (p.showing === 'model' && p.mode === 'layer')
+    return {
+      gradient: 'linear-gradient(to right, rgb(51,115,255), rgb(128,128,128), rgb(255,198,77))',
+      low: 'layer darkens',
+      mid: 'no effect',
+      high: 'layer brightens',
+    };
+  if (p.mode === 'tiles' && p.tileRanks)
+    return {
+      gradient: `linear-gradient(to right, ${RANK_RAMP.map(rgb).join(', ')})`,
+      low: `rank ${p.tileRanks.min}`,
+      mid: 'tile rank',
+      high: `rank ${p.tileRanks.max}`,
+    };
+  return undefined;
 }

@@ -59,11 +59,11 @@ export function createOpener(p: OpenerParts): Opener {
   const installModel = (buf: ArrayBuffer, rank: number) => {
     const model = new LowRankModel(buf);
     state.model = model;
-    p.rank.enable(model.maxRank);
+    p.rank.enable();
     p.charts.show(model);
     p.panes.showModel();
     p.setLayerCount(model.maxRank);
-    p.rank.set(Math.min(rank, model.maxRank), state.budget.kind === 'rank');
+    p.rank.set(rank, state.budget.kind === 'rank');
     p.rank.syncBudgetField();
     p.enableClean();
   };
@@ -87,7 +87,7 @@ export function createOpener(p: OpenerParts): Opener {
       state.scan = scan;
       state.cleaned = undefined;
       state.preview = undefined;
-      state.calib = undefined;
+      state.measured = [];
       state.showing = 'model';
       el.scanInfo.textContent = scanInfoText(scan);
       el.dropHint.hidden = true;
@@ -119,6 +119,24 @@ export function createOpener(p: OpenerParts): Opener {
       if (!current()) return;
       bar.busy(undefined);
       bar.fail(err);
+    }
+  };
+
+  /** A rank beyond the layers the page holds: fetch a deeper factorisation (one at a time). */
+  let deepening = 0;
+  p.rank.onBeyond = async (k) => {
+    const scan = state.scan;
+    if (!scan || deepening >= k) return;
+    const seq = state.openSeq;
+    const want = Math.min(Math.min(scan.width, scan.height), Math.ceil(k * 1.25));
+    deepening = want;
+    try {
+      const more = await api.factors({ scanId: scan.scanId, maxRank: want, job: newJob(), background: true });
+      if (seq === state.openSeq) installModel(more, Number(p.rank.input.value));
+    } catch (err) {
+      if (seq === state.openSeq) bar.fail(err);
+    } finally {
+      deepening = 0;
     }
   };
 

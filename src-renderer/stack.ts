@@ -142,7 +142,7 @@ export function createStackCard(p: StackParts): StackCard {
       state.cleaned = undefined;
       state.preview = undefined;
       state.showing = 'model';
-      p.rank.input.disabled = true;
+      p.rank.disable();
       stack.path = path;
       stack.want = 0;
       bar.busy(newJob(), 'Reading the stack…');

@@ -160,9 +160,13 @@ describe('paneLabels', () => {
     tiled: false,
     tile: 64,
     rank: 20,
+    held: 300,
   };
   it('names what each pane shows in each view', () => {
     expect(paneLabels(base)).toEqual({ left: 'original', right: 'rank 20' });
+    expect(paneLabels({ ...base, rank: 472 }).right).toBe(
+      'rank 472 (showing 300 until the deeper layers arrive)',
+    );
     expect(paneLabels({ ...base, mode: 'swipe' })).toEqual({
       left: 'original | reconstruction',
       right: 'rank 20',
@@ -195,14 +199,16 @@ describe('stack frame', () => {
   it('the Stack card readouts: values for data-value, texts for the page', () => {
     const cells = stackCardCells(frame({ ranks: [3, 2, 2] }));
     expect(Object.keys(cells)).toEqual([...STACK_METRICS]);
-    expect(cells.frame).toEqual({ value: '4', text: '4 · f-3.png' });
-    expect(cells['frame-count']).toEqual({ value: '6', text: '6' });
-    expect(cells['eigen-frames']).toEqual({ value: '3', text: '3 / 2 / 2' });
-    expect(cells.residual).toEqual({ value: '0', text: 'no' });
-    expect(cells['worst-psnr']).toEqual({ value: '36.6049', text: '36.60 dB · frame 2' });
+    // What the file records is exact.
+    for (const m of STACK_METRICS) expect(cells[m].exact).toBe(true);
+    expect(cells.frame).toMatchObject({ value: '4', text: '4 · f-3.png' });
+    expect(cells['frame-count']).toMatchObject({ value: '6', text: '6' });
+    expect(cells['eigen-frames']).toMatchObject({ value: '3', text: '3 / 2 / 2' });
+    expect(cells.residual).toMatchObject({ value: '0', text: 'no' });
+    expect(cells['worst-psnr']).toMatchObject({ value: '36.6049', text: '36.60 dB · frame 2' });
     const bare = stackCardCells(frame({ worst: undefined, residual: true }));
-    expect(bare['worst-psnr']).toEqual({ value: '', text: '–' });
-    expect(bare.residual).toEqual({ value: '1', text: 'yes' });
+    expect(bare['worst-psnr']).toMatchObject({ value: '', text: '–' });
+    expect(bare.residual).toMatchObject({ value: '1', text: 'yes' });
   });
 
   it('the note says whether the file records per-frame quality', () => {
