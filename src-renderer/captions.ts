@@ -83,30 +83,6 @@ export function batchDoneStatus(r: Pick<BatchResult, 'files' | 'cancelled'>): {
   };
 }
 
-/** The clean report fields the Clean panel shows (in the report's own order). */
-const CLEAN_REPORT_FIELDS = [
-  'noiseSigma',
-  'noiseSource',
-  'threshold',
-  'method',
-  'psnrChange',
-  'changedSamples',
-  'removedRms',
-  'noiseSkipped',
-];
-
-/** The Clean panel's report: one `key: value` line per shown scalar, numbers to six significant digits. */
-export function cleanReportText(report: Record<string, unknown>): string {
-  return Object.entries(report)
-    .filter(
-      ([k, v]) =>
-        CLEAN_REPORT_FIELDS.includes(k) &&
-        (typeof v === 'number' || typeof v === 'string' || typeof v === 'boolean'),
-    )
-    .map(([k, v]) => `${k}: ${typeof v === 'number' ? Number(v.toPrecision(6)) : v}`)
-    .join('\n');
-}
-
 /** What the two panes show, for their labels. */
 export interface PaneView {
   showing: 'model' | 'cleaned' | 'removed';
@@ -240,4 +216,41 @@ export function mapLegend(p: {
       high: `rank ${p.tileRanks.max}`,
     };
   return undefined;
+}
+
+/** CLI advice in back-end messages, as the page says it (the app has no flags). */
+const GUI_ADVICE: [RegExp, string][] = [
+  [/;?\s*pass --force to overwrite it/g, '; tick “replace an existing file” in Save to overwrite it'],
+  [/\s*—?\s*pass --tile 0 for a whole-image SVD/g, '; choose “whole plane” under Planes'],
+  [/;?\s*raise it with --pixel-limit( if the file is trusted)?/g, ' (the limit this app was started with)'],
+  [/;?\s*raise it with --timeout/g, ''],
+  [/;?\s*use --min-psnr instead/g, '; use a dB budget instead'],
+];
+
+/** An absolute path (POSIX or Windows) in a message. */
+const ABSOLUTE_PATH = /(?:[A-Za-z]:\\|\/)[^\s:;,'"“”()]+/g;
+
+/**
+ * A back-end message as the page shows it: CLI flags turned into what to do in the app, and paths shown
+ * as the file the user gave (`given`) or, for any other path (a server's temporary copy), its name only.
+ */
+export function guiMessage(message: string, given?: string): string {
+  let m = message;
+  for (const [re, to] of GUI_ADVICE) m = m.replace(re, to);
+  const base = (p: string) => p.split(/[\\/]/).pop() ?? p;
+  const paths = (part: string) =>
+    part
+      .replace(ABSOLUTE_PATH, (p) => (given && base(p) === base(given) ? given : base(p)))
+      .replace(/--[a-z][a-z-]*/g, (flag) => `the ${flag.slice(2).replace(/-/g, ' ')} setting`);
+  // The path the user gave stays as it is (it may hold spaces); other paths are cut to their names.
+  return given ? m.split(given).map(paths).join(given) : paths(m);
+}
+
+/** The message of a failed open: the file as the user gave it, then why. */
+export function openFailedText(given: string, message: string): string {
+  const why = guiMessage(message, given);
+  // A message that starts with the file's name already says which file: name it once.
+  const lead = [given, recentLabel(given)].find((n) => why.startsWith(n));
+  const rest = lead ? why.slice(lead.length).replace(/^[\s:—-]+/, '') : why;
+  return `Could not open ${given}: ${rest}`;
 }

@@ -64,6 +64,22 @@ function markSeries(rankLabel: string, budget: boolean): uPlot.Series[] {
 
 const nulls = (n: number) => Array.from({ length: n }, () => null);
 
+/**
+ * After each draw, where each axis puts its tick labels and its title (CSS px from the plot edge), on the
+ * host's data-axis-boxes for tests: the labels must end before the title begins.
+ */
+function recordAxisBoxes(u: uPlot) {
+  type Drawn = uPlot.Axis & { _size?: number; _values?: (string | null)[]; _show?: boolean };
+  const boxes = (u.axes as Drawn[]).map((a, i) => {
+    const labels = (a._values ?? []).filter((v): v is string => !!v);
+    const across = a.side === 1 || a.side === 3 ? Math.max(0, ...labels.map(textWidth)) : 12;
+    const ticks = (a.ticks?.size ?? 4) + (a.gap ?? 4);
+    return { axis: i, labelsEnd: ticks + across, titleStart: (a._size ?? 0) - (a.labelSize ?? 16), labels };
+  });
+  const host = u.root.parentElement;
+  if (host) host.dataset.axisBoxes = JSON.stringify(boxes);
+}
+
 /** Size a plot so that it, its title and its legend fill the host (no clipped axis or legend row). */
 export function fitPlot(plot: uPlot | undefined, host: HTMLElement): void {
   if (!plot) return;
@@ -103,6 +119,7 @@ export class SpectrumCharts {
   private marks() {
     return {
       draw: [
+        recordAxisBoxes,
         (u: uPlot) => {
           const ctx = u.ctx;
           const draw = (k: number | undefined, colour: string, dash: number[], width: number) => {
@@ -289,24 +306,23 @@ export function profilePlot(host: HTMLElement, columns: number[], rows: number[]
   const n = Math.max(columns.length, rows.length);
   const xs = Array.from({ length: n }, (_, i) => i);
   const pad = (a: number[]) => Array.from({ length: n }, (_, i) => (i < a.length ? a[i] : null));
-  return new uPlot(
+  const plot = new uPlot(
     {
       width: Math.max(220, Math.floor(r.width)),
       height: 170,
       title: 'Stripe profile of the removed part',
       legend: { live: false },
       scales: { x: { time: false } },
-      axes: [
-        axis({ label: 'column or row index, px' }),
-        axis({ side: 3, label: 'mean removed, grey levels' }),
-      ],
+      axes: [axis({ label: 'column or row, px' }), axis({ side: 3, label: 'grey levels' })],
       series: [
         {},
-        { label: 'per column', stroke: '#c4531d', width: 1 },
+        { label: 'mean removed per column', stroke: '#c4531d', width: 1 },
         { label: 'per row', stroke: '#2f7d6d', width: 1 },
       ],
     },
     [xs, pad(columns), pad(rows)],
     host,
   );
+  fitPlot(plot, host);
+  return plot;
 }

@@ -8,9 +8,10 @@ import {
   batchFileMessage,
   batchProgressText,
   batchRowText,
-  cleanReportText,
   encodedStatus,
   frameLabels,
+  guiMessage,
+  openFailedText,
   type PaneView,
   paneLabels,
   progressText,
@@ -133,24 +134,6 @@ describe('batch rows', () => {
   });
 });
 
-describe('cleanReportText', () => {
-  it('shows the listed scalar fields in the report order, numbers to six significant digits', () => {
-    const text = cleanReportText({
-      input: 'camera.png',
-      method: 'groups',
-      noiseSigma: 0.670_163_28,
-      noiseSource: 'estimated',
-      threshold: null,
-      rank: { mean: 3 },
-      changedSamples: 54_646,
-      psnrChange: 54.578_712,
-    });
-    expect(text).toBe(
-      'method: groups\nnoiseSigma: 0.670163\nnoiseSource: estimated\nchangedSamples: 54646\npsnrChange: 54.5787',
-    );
-  });
-});
-
 describe('paneLabels', () => {
   const base: PaneView = {
     showing: 'model',
@@ -216,6 +199,34 @@ describe('stack frame', () => {
     expect(stackNote(frame({ ssim: undefined }))).toMatch(/^PSNR and SSIM of this frame as recorded/);
     expect(stackNote(frame({ psnr: undefined, ssim: undefined }))).toMatch(
       /^This stack file records no per-frame/,
+    );
+  });
+});
+
+describe('guiMessage and openFailedText', () => {
+  it('turns CLI flags into what to do in the app', () => {
+    expect(guiMessage('/tmp/x/out.rkf already exists; pass --force to overwrite it')).toBe(
+      'out.rkf already exists; tick “replace an existing file” in Save to overwrite it',
+    );
+    expect(guiMessage('too big; use --frobnicate-level 3')).not.toMatch(/--/);
+  });
+
+  it('names the file as the user gave it, never a server temporary path', () => {
+    const msg = '/tmp/rankfold-upload-Ab12/scan 1.png: not an image';
+    expect(openFailedText('scan 1.png', '/tmp/rankfold-upload-Ab12/scan1.png: not an image')).toBe(
+      'Could not open scan 1.png: scan1.png: not an image',
+    );
+    expect(openFailedText('/home/me/a.png', '/tmp/up/a.png: unsupported format')).toBe(
+      'Could not open /home/me/a.png: unsupported format',
+    );
+    expect(guiMessage(msg)).not.toMatch(/\/tmp/);
+  });
+});
+
+describe('openFailedText with spaces', () => {
+  it('keeps the path the user typed whole', () => {
+    expect(openFailedText('/data/lost scan.png', '/data/lost scan.png does not exist')).toBe(
+      'Could not open /data/lost scan.png: does not exist',
     );
   });
 });
