@@ -226,7 +226,7 @@ export class SpectrumCharts {
     this.sigmaPlot = new uPlot(
       {
         ...this.size(this.sigmaHost),
-        title: 'Eigen-frame singular values σᵢ and cumulative energy',
+        title: 'Frame-mode singular values σᵢ (eigen-frames) and cumulative energy',
         scales: { x: { time: false }, s: { distr: 3 }, e: { range: [0, 100] } },
         axes: [
           axis({ label: 'eigen-frame i' }),
