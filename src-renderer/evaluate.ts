@@ -68,8 +68,9 @@ export function createEvaluator(
         };
       } else state.preview = undefined;
       stage.dataset.tiles = String(r.tileRanks?.[0]?.ranks.length ?? '');
-      // Whole planes with one rank for every channel: a measured size for the instant estimates.
-      if (!state.tiled && k !== undefined && ranks.every((c) => c.rank === k))
+      // A rank budget on whole planes: a measured size for the instant estimates (other budgets may
+      // quantise differently, so their sizes say nothing about the slider's).
+      if (budget.kind === 'rank' && !state.tiled && k !== undefined && ranks.every((c) => c.rank === k))
         state.measured = addCalibration(state.measured, { rank: k, bytes: r.report.outputBytes });
       if (budget.kind === 'rank') readouts.showReport(r.report, budget.rank);
       else {

@@ -66,12 +66,15 @@ describe('sizeEstimate', () => {
   it('a measured rank gives its own size', () => {
     expect(sizeEstimate([{ rank: 20, bytes: 6500 }], 20)).toBe(6500);
   });
-  it('between two measured ranks: linear', () => {
+  it('between two measured ranks at most 3× apart: bytes per rank interpolated', () => {
+    // camera.png, whole plane (`rankfold compress --rank k --tile 0 --json`): 6506 B at 20, 59393 at 107
+    // (5.35× apart: no estimate) and 27510 at 60; with 20 and 60 measured, rank 40 lies between.
     const m = [
-      { rank: 20, bytes: 6000 },
-      { rank: 60, bytes: 14_000 },
+      { rank: 20, bytes: 6506 },
+      { rank: 60, bytes: 27_510 },
     ];
-    expect(sizeEstimate(m, 40)).toBe(10_000);
+    expect(sizeEstimate(m, 40)).toBeCloseTo(40 * (6506 / 20 + (27_510 / 60 - 6506 / 20) / 2), 6);
+    expect(sizeEstimate([m[0], { rank: 107, bytes: 59_393 }], 60)).toBeUndefined();
   });
   it('near one measured rank (±10 %): in proportion; further away: none', () => {
     expect(sizeEstimate([{ rank: 20, bytes: 6000 }], 22)).toBe(6600);
