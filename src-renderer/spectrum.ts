@@ -112,8 +112,11 @@ export class SpectrumCharts {
   }
 
   private resize() {
-    fitPlot(this.sigmaPlot, this.sigmaHost);
-    fitPlot(this.errorPlot, this.errorHost);
+    // Twice: a new width rewraps the legend, which changes the height left for the plot.
+    for (let pass = 0; pass < 2; pass++) {
+      fitPlot(this.sigmaPlot, this.sigmaHost);
+      fitPlot(this.errorPlot, this.errorHost);
+    }
   }
 
   private marks() {
