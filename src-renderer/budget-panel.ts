@@ -48,7 +48,7 @@ export function setupBudgetCard(
     r.addEventListener('change', () => {
       state.tiled = r.value === 'tiled' && r.checked;
       state.preview = undefined;
-      slider.max = String(state.tiled ? state.tile : (state.model?.maxRank ?? 1));
+      rank.enable();
       if (!state.tiled && state.model) rank.set(Number(slider.value), true);
       panes.label();
       evaluator.schedule();
@@ -57,7 +57,7 @@ export function setupBudgetCard(
   el.tileSize.addEventListener('change', () => {
     state.tile = Number(el.tileSize.value);
     if (state.tiled) {
-      slider.max = String(state.tile);
+      rank.enable();
       evaluator.schedule();
     }
   });

@@ -83,30 +83,6 @@ export function batchDoneStatus(r: Pick<BatchResult, 'files' | 'cancelled'>): {
   };
 }
 
-/** The clean report fields the Clean panel shows (in the report's own order). */
-const CLEAN_REPORT_FIELDS = [
-  'noiseSigma',
-  'noiseSource',
-  'threshold',
-  'method',
-  'psnrChange',
-  'changedSamples',
-  'removedRms',
-  'noiseSkipped',
-];
-
-/** The Clean panel's report: one `key: value` line per shown scalar, numbers to six significant digits. */
-export function cleanReportText(report: Record<string, unknown>): string {
-  return Object.entries(report)
-    .filter(
-      ([k, v]) =>
-        CLEAN_REPORT_FIELDS.includes(k) &&
-        (typeof v === 'number' || typeof v === 'string' || typeof v === 'boolean'),
-    )
-    .map(([k, v]) => `${k}: ${typeof v === 'number' ? Number(v.toPrecision(6)) : v}`)
-    .join('\n');
-}
-
 /** What the two panes show, for their labels. */
 export interface PaneView {
   showing: 'model' | 'cleaned' | 'removed';
@@ -116,6 +92,8 @@ export interface PaneView {
   tiled: boolean;
   tile: number;
   rank: number;
+  /** Layers the page holds; a larger whole-plane rank is shown at this one until more arrive. */
+  held: number;
 }
 
 /** The labels above the left and right panes. */
@@ -129,9 +107,13 @@ export function paneLabels(p: PaneView): { left: string; right: string } {
           ? `difference at rank ${p.rank} × ${p.gain}`
           : p.mode === 'layer'
             ? `layer ${p.layerIndex + 1}: σᵢuᵢvᵢᵀ`
-            : p.tiled
-              ? `tiles of ${p.tile}, rank ≤ ${p.rank}`
-              : `rank ${p.rank}`;
+            : p.mode === 'tiles' && !p.tiled
+              ? 'no tiles: choose “tiles of” under Planes to see each tile’s rank'
+              : p.tiled
+                ? `tiles of ${p.tile}, rank ≤ ${p.rank}`
+                : p.held < p.rank
+                  ? `rank ${p.rank} (showing ${p.held} until the deeper layers arrive)`
+                  : `rank ${p.rank}`;
   const left = p.mode === 'side' ? 'original' : p.mode === 'swipe' ? 'original | reconstruction' : '';
   return { left, right };
 }
@@ -148,8 +130,14 @@ export function frameLabels(info: StackFrameInfo): { left: string; right: string
 const frameName = (info: StackFrameInfo) => info.frameNames[info.frame] ?? `frame ${info.frame + 1}`;
 
 /** The Stack card's readouts by data-metric: `value` for data-value ('' for none), `text` for the <dd>. */
-export function stackCardCells(info: StackFrameInfo): Record<StackMetric, { value: string; text: string }> {
-  const cell = (value: number, text: string) => ({ value: Number.isNaN(value) ? '' : String(value), text });
+export function stackCardCells(
+  info: StackFrameInfo,
+): Record<StackMetric, { value: string; text: string; exact: boolean }> {
+  const cell = (value: number, text: string) => ({
+    value: Number.isNaN(value) ? '' : String(value),
+    text,
+    exact: true,
+  });
   const w = info.worst;
   return {
     frame: cell(info.frame + 1, `${info.frame + 1} · ${frameName(info)}`),
@@ -181,4 +169,88 @@ export function stackOpenedStatus(info: StackFrameInfo): string {
 /** A recent file's button label: its name without folders. */
 export function recentLabel(path: string): string {
   return path.split(/[\\/]/).pop() ?? path;
+}
+
+/** A colour map's legend: a CSS gradient and what its two ends and middle mean. */
+export interface MapLegend {
+  gradient: string;
+  low: string;
+  mid: string;
+  high: string;
+}
+
+/** Rank-map stops (deep ink blue → verdigris → straw), shared with the view's painter. */
+export const RANK_RAMP: readonly (readonly [number, number, number])[] = [
+  [28, 42, 74],
+  [47, 125, 109],
+  [232, 200, 110],
+];
+const rgb = (c: readonly number[]) => `rgb(${c.join(',')})`;
+
+/** The legend of the colour map on screen, if the view shows one. */
+export function mapLegend(p: {
+  mode: ViewMode;
+  showing: PaneView['showing'];
+  gain: number;
+  tileRanks?: { min: number; max: number };
+}): MapLegend | undefined {
+  if (p.showing === 'model' && p.mode === 'diff')
+    return {
+      gradient: 'linear-gradient(to right, rgb(0,128,255), rgb(128,128,128), rgb(255,128,0))',
+      low: `too dark by ≥ ${Math.round(255 / p.gain)} grey levels`,
+      mid: 'no difference',
+      high: `too bright by ≥ ${Math.round(255 / p.gain)}`,
+    };
+  if (p.showing === 'model' && p.mode === 'layer')
+    return {
+      gradient: 'linear-gradient(to right, rgb(51,115,255), rgb(128,128,128), rgb(255,198,77))',
+      low: 'layer darkens',
+      mid: 'no effect',
+      high: 'layer brightens',
+    };
+  if (p.mode === 'tiles' && p.tileRanks)
+    return {
+      gradient: `linear-gradient(to right, ${RANK_RAMP.map(rgb).join(', ')})`,
+      low: `rank ${p.tileRanks.min}`,
+      mid: 'tile rank',
+      high: `rank ${p.tileRanks.max}`,
+    };
+  return undefined;
+}
+
+/** CLI advice in back-end messages, as the page says it (the app has no flags). */
+const GUI_ADVICE: [RegExp, string][] = [
+  [/;?\s*pass --force to overwrite it/g, '; tick “replace an existing file” in Save to overwrite it'],
+  [/\s*—?\s*pass --tile 0 for a whole-image SVD/g, '; choose “whole plane” under Planes'],
+  [/;?\s*raise it with --pixel-limit( if the file is trusted)?/g, ' (the limit this app was started with)'],
+  [/;?\s*raise it with --timeout/g, ''],
+  [/;?\s*use --min-psnr instead/g, '; use a dB budget instead'],
+];
+
+/** An absolute path (POSIX or Windows) in a message. */
+const ABSOLUTE_PATH = /(?:[A-Za-z]:\\|\/)[^\s:;,'"“”()]+/g;
+
+/**
+ * A back-end message as the page shows it: CLI flags turned into what to do in the app, and paths shown
+ * as the file the user gave (`given`) or, for any other path (a server's temporary copy), its name only.
+ */
+export function guiMessage(message: string, given?: string): string {
+  let m = message;
+  for (const [re, to] of GUI_ADVICE) m = m.replace(re, to);
+  const base = (p: string) => p.split(/[\\/]/).pop() ?? p;
+  const paths = (part: string) =>
+    part
+      .replace(ABSOLUTE_PATH, (p) => (given && base(p) === base(given) ? given : base(p)))
+      .replace(/--[a-z][a-z-]*/g, (flag) => `the ${flag.slice(2).replace(/-/g, ' ')} setting`);
+  // The path the user gave stays as it is (it may hold spaces); other paths are cut to their names.
+  return given ? m.split(given).map(paths).join(given) : paths(m);
+}
+
+/** The message of a failed open: the file as the user gave it, then why. */
+export function openFailedText(given: string, message: string): string {
+  const why = guiMessage(message, given);
+  // A message that starts with the file's name already says which file: name it once.
+  const lead = [given, recentLabel(given)].find((n) => why.startsWith(n));
+  const rest = lead ? why.slice(lead.length).replace(/^[\s:—-]+/, '') : why;
+  return `Could not open ${given}: ${rest}`;
 }

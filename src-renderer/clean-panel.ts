@@ -4,7 +4,8 @@
  */
 import { type CleanSettings, decodeFactorSet } from '../src-main/contract';
 import { bind } from './bind';
-import { CLEANING_CAUTION, cleanReportText } from './captions';
+import { CLEANING_CAUTION } from './captions';
+import { type CleanRow, cleanReportRows } from './clean-report';
 import type { Panes } from './panes';
 import { profilePlot } from './spectrum';
 import type { PageState, Showing } from './state';
@@ -68,7 +69,7 @@ export function setupCleanPanel(
       state.cleaned = { cleaned: planes('cleaned'), removed: planes('removed') };
       panes.forgetRemoved();
       state.showing = 'removed';
-      el.report.textContent = cleanReportText(r.report);
+      el.report.replaceChildren(reportTable(cleanReportRows(r.report)));
       el.report.dataset.done = 'true';
       profilePlot(el.profile, r.profile.columns, r.profile.rows);
       for (const [b] of views) b.disabled = false;
@@ -95,4 +96,21 @@ export function setupCleanPanel(
       el.run.disabled = false;
     },
   };
+}
+
+/** The clean result as a two-column table: quantity (with its meaning as a tooltip) and value with unit. */
+function reportTable(rows: CleanRow[]): HTMLTableElement {
+  const table = document.createElement('table');
+  table.className = 'quantities';
+  table.createCaption().textContent = 'Cleaning result';
+  for (const r of rows) {
+    const tr = table.insertRow();
+    const th = document.createElement('th');
+    th.scope = 'row';
+    th.textContent = r.name;
+    th.title = r.help;
+    tr.append(th);
+    tr.insertCell().textContent = r.value;
+  }
+  return table;
 }

@@ -5,6 +5,7 @@
 import { decodeFactorSet } from '../src-main/contract';
 import { bind } from './bind';
 import { encodedStatus } from './captions';
+import { addCalibration } from './figures';
 import type { Panes } from './panes';
 import type { RankSlider } from './rank';
 import type { Readouts } from './readouts';
@@ -67,11 +68,14 @@ export function createEvaluator(
         };
       } else state.preview = undefined;
       stage.dataset.tiles = String(r.tileRanks?.[0]?.ranks.length ?? '');
-      if (budget.kind === 'rank') {
-        if (!state.tiled) state.calib = { rank: budget.rank, bytes: r.report.outputBytes };
-        readouts.showReport(r.report, budget.rank);
-      } else {
+      // A rank budget on whole planes: a measured size for the instant estimates (other budgets may
+      // quantise differently, so their sizes say nothing about the slider's).
+      if (budget.kind === 'rank' && !state.tiled && k !== undefined && ranks.every((c) => c.rank === k))
+        state.measured = addCalibration(state.measured, { rank: k, bytes: r.report.outputBytes });
+      if (budget.kind === 'rank') readouts.showReport(r.report, budget.rank);
+      else {
         state.budgetRank = k;
+        // The slider follows the budget to the rank the encoder chose, then the figures turn exact.
         if (k !== undefined) rank.set(k, false);
         readouts.showReport(r.report, k);
       }

@@ -13,6 +13,7 @@ export function formatBytes(b: number): string {
 
 /** The readouts of the Figures card, by their `data-metric` in index.html. */
 export const METRICS = [
+  'rank',
   'psnr',
   'ssim',
   'ratio',
@@ -28,6 +29,7 @@ export type Metric = (typeof METRICS)[number];
 export type Figures = Partial<Record<Metric, number>>;
 
 const READOUT_FORMAT: Record<Metric, (v: number) => string> = {
+  rank: (v) => (Number.isInteger(v) ? String(v) : `${v.toFixed(1)} (mean)`),
   psnr: formatPsnr,
   ssim: (v) => v.toFixed(4),
   ratio: (v) => `${v.toFixed(1)} : 1`,
@@ -38,20 +40,45 @@ const READOUT_FORMAT: Record<Metric, (v: number) => string> = {
   frobenius: (v) => v.toFixed(1),
 };
 
+/** What each readout means for a scan, and its unit: the tooltip (title) of its cell. */
+export const METRIC_HELP: Record<Metric, string> = {
+  rank: 'Rank: how many layers (singular triplets σᵢuᵢvᵢᵀ) of each plane the figures are for; in tiles, the mean over tiles.',
+  psnr: 'PSNR, in dB: peak signal-to-noise ratio of the shown result against the original scan. Higher is closer; above about 40 dB differences are hard to see.',
+  ssim: 'SSIM, no unit (0 to 1): structural similarity of the shown result to the original; 1 means identical.',
+  ratio:
+    'Storage ratio: the raw pixel data divided by the compressed file size (higher means a smaller file).',
+  bytes: 'Size of the compressed .rkf file, in bytes (1 kB = 1000 B).',
+  bpp: 'Bits per pixel: 8 × file size ÷ (width × height).',
+  'spectral-bound':
+    'Largest error in any direction, σₖ₊₁ (the first singular value left out), in grey levels: the Eckart–Young spectral-norm bound of the truncation.',
+  'frobenius-optimal':
+    'Best possible total error at this rank, √(sum of σᵢ² left out), in grey levels summed over all pixels (Frobenius norm). Divide by √(pixels) for the RMS per pixel.',
+  frobenius:
+    'Total error of the file as encoded (truncation and quantisation), in grey levels summed over all pixels (Frobenius norm); at least the best possible.',
+};
+
 /** PSNR in dB with two decimals; a lossless result (infinite PSNR) reads "∞ dB". */
 export function formatPsnr(db: number): string {
   return Number.isFinite(db) ? `${db.toFixed(2)} dB` : '∞ dB';
 }
 
+/** One readout as shown: data-value, the <dd> text, and data-exact. */
+export interface ShownReadout {
+  value: string;
+  text: string;
+  exact: boolean;
+}
+
 /**
- * What one readout cell shows: `value` for its data-value attribute, `text` for its <dd>. A missing value
- * clears an exact readout ('–') and leaves an estimate untouched (undefined); estimates read "≈ …".
+ * What one readout cell shows: `value` for its data-value attribute, `text` for its <dd>, `exact` for
+ * data-exact. A missing value reads '–' (an estimate never leaves an older exact figure in place);
+ * estimates read "≈ …".
  */
-export function readoutCell(
-  metric: Metric,
-  v: number | undefined,
-  exact: boolean,
-): { value: string; text: string } | undefined {
-  if (v === undefined || Number.isNaN(v)) return exact ? { value: '', text: '–' } : undefined;
-  return { value: String(v), text: (exact ? '' : '≈ ') + READOUT_FORMAT[metric](v) };
+export function readoutCell(metric: Metric, v: number | undefined, exact: boolean): ShownReadout {
+  if (v === undefined || Number.isNaN(v)) return { value: '', text: '–', exact };
+  return {
+    value: String(v),
+    text: (exact || metric === 'rank' ? '' : '≈ ') + READOUT_FORMAT[metric](v),
+    exact,
+  };
 }

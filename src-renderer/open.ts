@@ -59,47 +59,62 @@ export function createOpener(p: OpenerParts): Opener {
   const installModel = (buf: ArrayBuffer, rank: number) => {
     const model = new LowRankModel(buf);
     state.model = model;
-    p.rank.enable(model.maxRank);
+    p.rank.enable();
     p.charts.show(model);
     p.panes.showModel();
     p.setLayerCount(model.maxRank);
-    p.rank.set(Math.min(rank, model.maxRank), state.budget.kind === 'rank');
+    p.rank.set(rank, state.budget.kind === 'rank');
     p.rank.syncBudgetField();
     p.enableClean();
   };
 
-  const open = async (source: ScanSource) => {
+  /** A deeper factorisation, unless one at least as deep is already in (answers may cross). */
+  const installDeeper = (buf: ArrayBuffer, rank: number) => {
+    if ((state.model?.maxRank ?? 0) < rank) installModel(buf, Number(p.rank.input.value));
+  };
+
+  /** The file as the user gave it, for messages (an upload's own name, never a server path). */
+  const given = (source: ScanSource, name?: string) =>
+    name ?? (source.kind === 'path' ? source.path : source.kind === 'sample' ? source.name : 'the file');
+
+  /**
+   * Open a scan. Nothing on screen changes until the scan is read and its first factors are in: a file
+   * that fails to open leaves the current scan (or stack) as it was, and says so in a message.
+   */
+  const open = async (source: ScanSource, name?: string) => {
     const seq = ++state.openSeq;
     const current = () => seq === state.openSeq;
-    p.leaveStack();
-    state.openedAt = performance.now();
-    state.model = undefined;
-    state.firstPaintMs = undefined;
-    delete body.dataset.firstPaintMs;
-    delete body.dataset.initialRankMs;
-    delete body.dataset.refined;
+    const openedAt = performance.now();
     const job = newJob();
-    bar.busy(job, 'Reading the scan…');
+    bar.busy(job, `Reading ${given(source, name)}…`);
     try {
       const scan = await api.openScan({ source });
       if (!current()) return;
-      body.dataset.openMs = (performance.now() - state.openedAt).toFixed(1);
-      state.scan = scan;
-      state.cleaned = undefined;
-      state.preview = undefined;
-      state.calib = undefined;
-      state.showing = 'model';
-      el.scanInfo.textContent = scanInfoText(scan);
-      el.dropHint.hidden = true;
+      const openMs = performance.now() - openedAt;
       const minDim = Math.min(scan.width, scan.height);
-      bar.busy(job, 'Factoring…');
+      bar.busy(job, `Finding the main layers of ${scan.name}…`);
       const first = await api.factors({
         scanId: scan.scanId,
         maxRank: Math.min(minDim, FIRST_PASS_RANK),
         job,
       });
       if (!current()) return;
-      body.dataset.factorsMs = (performance.now() - state.openedAt).toFixed(1);
+      // The new scan is in: from here on the page shows it.
+      p.leaveStack();
+      state.openedAt = openedAt;
+      state.firstPaintMs = undefined;
+      delete body.dataset.firstPaintMs;
+      delete body.dataset.initialRankMs;
+      delete body.dataset.refined;
+      body.dataset.openMs = openMs.toFixed(1);
+      state.scan = scan;
+      state.cleaned = undefined;
+      state.preview = undefined;
+      state.measured = [];
+      state.showing = 'model';
+      el.scanInfo.textContent = scanInfoText(scan);
+      el.dropHint.hidden = true;
+      body.dataset.factorsMs = (performance.now() - openedAt).toFixed(1);
       installModel(first, Math.min(OPENING_RANK, minDim));
       bar.busy(undefined);
       bar.show(`Opened ${scan.name}. Refining the spectrum in the background…`);
@@ -109,7 +124,7 @@ export function createOpener(p: OpenerParts): Opener {
         const job2 = newJob();
         const more = await api.factors({ scanId: scan.scanId, maxRank: k2, job: job2, background: true });
         if (current()) {
-          installModel(more, Number(p.rank.input.value));
+          installDeeper(more, k2);
           body.dataset.refined = scan.scanId;
           bar.show(`Spectrum to rank ${k2} ready.`);
         }
@@ -118,7 +133,7 @@ export function createOpener(p: OpenerParts): Opener {
     } catch (err) {
       if (!current()) return;
       bar.busy(undefined);
-      bar.fail(err);
+      bar.failOpen(given(source, name), err);
     }
   };
 
@@ -130,7 +145,7 @@ export function createOpener(p: OpenerParts): Opener {
       const r = await api.pick({ kind: 'file', suggested: path });
       if (r.path) await openChosen(r.path);
     } catch (err) {
-      bar.fail(err);
+      bar.failOpen(path, err);
     }
   };
 
@@ -138,10 +153,10 @@ export function createOpener(p: OpenerParts): Opener {
     try {
       bar.busy(newJob(), `Uploading ${f.name}…`);
       const id = await api.upload(f.name, await f.arrayBuffer());
-      await open({ kind: 'upload', uploadId: id });
+      await open({ kind: 'upload', uploadId: id }, f.name);
     } catch (err) {
       bar.busy(undefined);
-      bar.fail(err);
+      bar.failOpen(f.name, err);
     }
   };
 

@@ -3,7 +3,7 @@
  * slider's rank, the tiled preview, the cleaned scan or the removed part) and the labels above the panes.
  */
 import { bind } from './bind';
-import { paneLabels } from './captions';
+import { mapLegend, paneLabels } from './captions';
 import { removedForDisplay } from './figures';
 import type { PageState } from './state';
 import type { CompareView, ViewSource } from './viewer';
@@ -20,7 +20,15 @@ export interface Panes {
 }
 
 export function createPanes(state: PageState, view: CompareView): Panes {
-  const el = bind(document, { left: '#label-left', right: '#label-right', rank: 'input#rank' });
+  const el = bind(document, {
+    left: '#label-left',
+    right: '#label-right',
+    rank: 'input#rank',
+    gain: '#gain-control',
+    layer: '#layer-control',
+    legend: '#map-legend',
+  });
+  const part = (sel: string) => el.legend.querySelector<HTMLElement>(sel);
 
   /** The removed part as shown, rebuilt when the gain changes. */
   let removedView: { gain: number; planes: Float32Array[] } | undefined;
@@ -70,6 +78,24 @@ export function createPanes(state: PageState, view: CompareView): Panes {
       view.setSource(source);
     },
     label() {
+      // Controls only in the views they change.
+      el.gain.hidden = !(view.mode === 'diff' || state.showing === 'removed');
+      el.layer.hidden = view.mode !== 'layer';
+      const ranks = state.tiled ? state.preview?.tiles?.[0]?.ranks : undefined;
+      const legend = mapLegend({
+        mode: view.mode,
+        showing: state.showing,
+        gain: view.gain,
+        tileRanks: ranks?.length ? { min: 0, max: Math.max(1, ...ranks) } : undefined,
+      });
+      el.legend.hidden = !legend;
+      if (legend) {
+        part('.map-bar')?.style.setProperty('background', legend.gradient);
+        for (const k of ['low', 'mid', 'high'] as const) {
+          const e = part(`.map-${k}`);
+          if (e) e.textContent = legend[k];
+        }
+      }
       write(
         paneLabels({
           showing: state.showing,
@@ -79,6 +105,7 @@ export function createPanes(state: PageState, view: CompareView): Panes {
           tiled: state.tiled,
           tile: state.tile,
           rank: Number(el.rank.value),
+          held: state.model?.maxRank ?? Number.POSITIVE_INFINITY,
         }),
       );
     },

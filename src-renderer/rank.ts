@@ -19,8 +19,11 @@ export interface RankSlider {
   set(k: number, fromUser: boolean): void;
   /** Show the slider's rank in the budget field, unless the user is typing there. */
   syncBudgetField(): void;
-  /** Enable the slider for a model of `maxRank` (or the tile size in tiled mode). */
-  enable(maxRank: number): void;
+  /** Enable the slider over every rank the open scan can take (up to the tile size in tiled mode). */
+  enable(): void;
+  disable(): void;
+  /** Called when a whole-plane rank beyond the layers the page holds is asked for. */
+  onBeyond?: (k: number) => void;
 }
 
 export function createRankSlider(
@@ -31,7 +34,7 @@ export function createRankSlider(
   panes: Panes,
   onRelease: () => void,
 ): RankSlider {
-  const el = bind(document, { rank: 'input#rank', out: '#rank-out', budget: 'input#budget' });
+  const el = bind(document, { rank: 'input#rank', typed: 'input#rank-value', budget: 'input#budget' });
   const body = document.body;
 
   let animating = false;
@@ -72,12 +75,14 @@ export function createRankSlider(
     const m = state.model;
     if (!m) return;
     stepStart = performance.now();
+    k = Math.max(1, Math.min(Math.round(k), Number(el.rank.max)));
     el.rank.value = String(k);
-    el.out.textContent = String(k);
+    el.typed.value = String(k);
     charts.mark(k, state.budgetRank);
     if (!state.tiled) {
       m.setTarget(k);
       pump();
+      if (k > m.maxRank) api.onBeyond?.(k);
     }
     if (fromUser) state.budget = { kind: 'rank', rank: k };
     readouts.estimate(k);
@@ -94,15 +99,31 @@ export function createRankSlider(
     syncBudgetField();
   });
   el.rank.addEventListener('change', () => onRelease());
+  el.typed.addEventListener('change', () => {
+    if (!state.model || !Number.isFinite(el.typed.valueAsNumber)) return;
+    state.showing = 'model';
+    set(el.typed.valueAsNumber, true);
+    syncBudgetField();
+    onRelease();
+  });
 
-  return {
+  const api: RankSlider = {
+    disable() {
+      el.rank.disabled = true;
+      el.typed.disabled = true;
+    },
     input: el.rank,
     set,
     syncBudgetField,
-    enable(maxRank) {
-      el.rank.disabled = false;
-      el.rank.min = '1';
-      el.rank.max = String(state.tiled ? state.tile : maxRank);
+    enable() {
+      const s = state.scan;
+      const max = String(state.tiled ? state.tile : s ? Math.min(s.width, s.height) : 1);
+      for (const input of [el.rank, el.typed]) {
+        input.disabled = false;
+        input.min = '1';
+        input.max = max;
+      }
     },
   };
+  return api;
 }

@@ -6,7 +6,7 @@ import type { CompressReport, StackFrameInfo } from '../src-main/contract';
 import { bind, find } from './bind';
 import { hasFrameQuality } from './captions';
 import { estimateFigures, reportFigures, stackFigures } from './figures';
-import { type Figures, METRICS, readoutCell } from './format';
+import { type Figures, METRIC_HELP, METRICS, readoutCell, type ShownReadout } from './format';
 import type { PageState } from './state';
 
 export interface Readouts {
@@ -23,11 +23,11 @@ export interface Readouts {
 export function createReadouts(state: PageState): Readouts {
   const el = bind(document, { box: 'dl#readouts', pill: '#readout-state' });
   const cells = bindReadouts(el.box, METRICS, 'The Figures card');
+  for (const m of METRICS) cells[m].cell.title = METRIC_HELP[m];
 
   const set = (values: Figures, exact: boolean, rank: number | undefined) => {
     for (const metric of METRICS) {
-      const shown = readoutCell(metric, values[metric], exact);
-      if (shown) writeReadout(cells[metric], shown);
+      writeReadout(cells[metric], readoutCell(metric, values[metric], exact));
     }
     el.box.dataset.state = exact ? 'exact' : 'estimate';
     el.box.dataset.rank = rank === undefined ? '' : String(rank);
@@ -42,13 +42,15 @@ export function createReadouts(state: PageState): Readouts {
       const m = state.model;
       const s = state.scan;
       if (!m || !s) return;
-      set(estimateFigures(m, s, state.calib, k), false, k);
+      // Tiles: the whole-plane spectrum says nothing about tiled figures; wait for the encoder's.
+      set(state.tiled ? { rank: k } : estimateFigures(m, s, state.measured, k), false, k);
     },
     showReport: (r, rank) => set(reportFigures(r), true, rank),
     showStack(info, size) {
       set(stackFigures(info, size), true, undefined);
       if (!hasFrameQuality(info))
-        for (const m of ['psnr', 'ssim'] as const) cells[m].dd.textContent = 'not in file';
+        for (const m of ['psnr', 'ssim'] as const)
+          writeReadout(cells[m], { value: '', text: 'not in file', exact: true });
       el.pill.textContent = 'stack file';
     },
   };
@@ -74,7 +76,8 @@ export function bindReadouts<M extends string>(
   return cells;
 }
 
-export function writeReadout(c: ReadoutCell, shown: { value: string; text: string }): void {
+export function writeReadout(c: ReadoutCell, shown: ShownReadout): void {
   c.cell.dataset.value = shown.value;
+  c.cell.dataset.exact = String(shown.exact);
   c.dd.textContent = shown.text;
 }

@@ -135,18 +135,34 @@ export function createStackCard(p: StackParts): StackCard {
   return {
     leave,
     async open(path) {
-      ++state.openSeq; // a scan still opening must not take over the view
+      const seq = ++state.openSeq; // a scan still opening must not take over the view
+      const job = newJob();
+      bar.busy(job, 'Reading the stack…');
+      // The first frame before anything changes: a file that fails to open leaves the current view as it was.
+      let buf: ArrayBuffer;
+      try {
+        buf = await api.stackFrame({ path, frame: 0 });
+      } catch (err) {
+        if (seq !== state.openSeq) return;
+        bar.busy(undefined);
+        return bar.failOpen(path, err);
+      }
+      if (seq !== state.openSeq) return;
       leave();
       state.model = undefined;
       state.scan = undefined;
       state.cleaned = undefined;
       state.preview = undefined;
       state.showing = 'model';
-      p.rank.input.disabled = true;
+      p.rank.disable();
       stack.path = path;
       stack.want = 0;
-      bar.busy(newJob(), 'Reading the stack…');
-      await loadFrame(stack.seq);
+      try {
+        showFrame(buf);
+      } catch (err) {
+        bar.fail(err);
+      }
+      bar.busy(undefined);
     },
   };
 }

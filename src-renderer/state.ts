@@ -32,8 +32,8 @@ export interface PageState {
   /** Tiled mode: the encoder's own decoded planes and tile ranks. */
   preview?: { planes: Float32Array[]; tiles?: EvaluateResult['tileRanks'] };
   cleaned?: { cleaned: Float32Array[]; removed: Float32Array[] };
-  /** Bytes at a rank from the last real encode, for the instant size estimate. */
-  calib?: Calibration;
+  /** Sizes of real whole-plane encodes of the open scan, for the instant size estimate. */
+  measured: Calibration[];
   /** Bumped per evaluation; an answer of an older one is dropped. */
   evalSeq: number;
   /** Bumped per open (scan or stack); a scan still opening under an older one gives way. */
@@ -54,6 +54,7 @@ export function createState(): PageState {
     budget: { kind: 'rank', rank: 1 },
     tiled: false,
     tile: 64,
+    measured: [],
     evalSeq: 0,
     openSeq: 0,
     openedAt: 0,

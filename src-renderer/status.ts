@@ -1,10 +1,11 @@
 /**
  * The status bar: one line of text (red for errors, mirrored in data-error for tests), a progress bar and
- * a Cancel button for the job the page is waiting on.
+ * a Cancel button for the job the page is waiting on. Errors also show in a dismissible message at the
+ * top of the page, in the app's words (no CLI flags, no server paths).
  */
 import type { ProgressEvent } from '../src-main/contract';
 import { bind } from './bind';
-import { progressText } from './captions';
+import { guiMessage, openFailedText, progressText } from './captions';
 import type { PageState } from './state';
 import type { PageApi } from './transport';
 
@@ -14,6 +15,8 @@ export interface StatusBar {
   busy(job: string | undefined, label?: string): void;
   /** Show an error's message. */
   fail(err: unknown): void;
+  /** A file that could not be opened, named as the user gave it. */
+  failOpen(given: string, err: unknown): void;
   /** Show a progress event of the followed job. */
   progress(e: ProgressEvent): void;
 }
@@ -26,6 +29,17 @@ export function createStatusBar(api: PageApi, state: PageState): StatusBar {
     text: '#status-text',
     progress: 'progress#status-progress',
     cancel: 'button#status-cancel',
+    alert: '#alert',
+    alertText: '#alert-text',
+    dismiss: 'button#alert-dismiss',
+  });
+  const messageOf = (err: unknown) => (err instanceof Error ? err.message : String(err));
+  const alert = (text: string) => {
+    el.alertText.textContent = text;
+    el.alert.hidden = false;
+  };
+  el.dismiss.addEventListener('click', () => {
+    el.alert.hidden = true;
   });
   const show = (text: string, isError = false) => {
     el.text.textContent = text;
@@ -45,7 +59,16 @@ export function createStatusBar(api: PageApi, state: PageState): StatusBar {
       if (job && label) show(label);
       el.progress.removeAttribute('value');
     },
-    fail: (err) => show(err instanceof Error ? err.message : String(err), true),
+    fail(err) {
+      const text = guiMessage(messageOf(err));
+      show(text, true);
+      alert(text);
+    },
+    failOpen(given, err) {
+      const text = openFailedText(given, messageOf(err));
+      show(text, true);
+      alert(text);
+    },
     progress(e) {
       if (e.total > 0) {
         el.progress.max = e.total;

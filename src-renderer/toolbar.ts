@@ -25,10 +25,9 @@ export function setupToolbar(view: CompareView, panes: Panes): Toolbar {
   const modes = [...document.querySelectorAll<HTMLButtonElement>('[data-mode]')];
   for (const b of modes)
     b.addEventListener('click', () => {
-      view.mode = b.dataset.mode as ViewMode;
       for (const o of modes) o.setAttribute('aria-pressed', String(o === b));
+      view.setMode(b.dataset.mode as ViewMode);
       panes.label();
-      view.paint();
     });
   for (const [id, zoom] of Object.entries(ZOOM))
     find(document, `button#${id}`).addEventListener('click', () => zoom(view));

@@ -4,19 +4,41 @@
  * per-tile rank map. Only the visible pixels are painted, so a repaint costs the viewport, not the scan.
  */
 
+import { RANK_RAMP } from './captions';
+import { clampView, DIVIDER_GRAB_PX, fitView, panView, type ViewState, viewKey, zoomView } from './view-math';
 import type { ViewMode, ViewSource } from './view-types';
 
 export type { ViewMode, ViewSource };
 
 const BG = [38, 41, 46];
 
-/** Rank-map colour ramp (our own: deep ink blue → verdigris → straw), t in 0..1. */
-function ramp(t: number): [number, number, number] {
-  const stops = [
-    [28, 42, 74],
-    [47, 125, 109],
-    [232, 200, 110],
-  ];
+/** The swipe divider: a 4 px line and a 28 px knob with arrows, visible on light and dark scans. */
+function drawDivider(ctx: CanvasRenderingContext2D, x: number, h: number, dpr: number) {
+  ctx.save();
+  ctx.fillStyle = '#fffaf0';
+  ctx.fillRect(x - 3 * dpr, 0, 6 * dpr, h);
+  ctx.fillStyle = '#e07a3f';
+  ctx.fillRect(x - 2 * dpr, 0, 4 * dpr, h);
+  ctx.beginPath();
+  ctx.arc(x, h / 2, 14 * dpr, 0, Math.PI * 2);
+  ctx.fill();
+  ctx.strokeStyle = '#fffaf0';
+  ctx.lineWidth = 2 * dpr;
+  ctx.stroke();
+  ctx.fillStyle = '#fffaf0';
+  for (const d of [-1, 1]) {
+    ctx.beginPath();
+    ctx.moveTo(x + d * 9 * dpr, h / 2);
+    ctx.lineTo(x + d * 3 * dpr, h / 2 - 5 * dpr);
+    ctx.lineTo(x + d * 3 * dpr, h / 2 + 5 * dpr);
+    ctx.fill();
+  }
+  ctx.restore();
+}
+
+/** Rank-map colour ramp (../captions.ts RANK_RAMP), t in 0..1. */
+export function ramp(t: number): [number, number, number] {
+  const stops = RANK_RAMP;
   const x = Math.max(0, Math.min(1, t)) * (stops.length - 1);
   const i = Math.min(stops.length - 2, Math.floor(x));
   const f = x - i;
@@ -32,11 +54,8 @@ export class CompareView {
   gain = 8;
   layerIndex = 0;
   swipe = 0.5;
-  /** Device pixels per image pixel. */
-  scale = 1;
-  cx = 0;
-  cy = 0;
-  private fitted = false;
+  /** One transform for every mode: zoom, pan and whether it follows the canvas (./view-math.ts). */
+  v: ViewState = { scale: 1, cx: 0, cy: 0, fitted: true };
   source?: ViewSource;
   onChange?: () => void;
   lastPaintMs = 0;
@@ -48,13 +67,47 @@ export class CompareView {
   ) {
     for (const c of [left, right]) this.bindPointer(c);
     new ResizeObserver(() => this.paint()).observe(host);
+    // Keys anywhere on the page except where they type or choose (fields, lists, sliders).
+    document.addEventListener('keydown', (e) => {
+      if (!(e.target instanceof Element) || !e.target.closest('input, select, textarea, [contenteditable]'))
+        this.key(e);
+    });
+  }
+
+  get scale() {
+    return this.v.scale;
   }
 
   setSource(src: ViewSource) {
     const sameSize = this.source && this.source.width === src.width && this.source.height === src.height;
     this.source = src;
-    if (!sameSize) this.fitted = false;
+    if (!sameSize) this.v = { ...this.v, fitted: true };
     this.paint();
+  }
+
+  /** Change the view mode, keeping zoom, pan and divider (refitted if the view follows the canvas). */
+  setMode(mode: ViewMode) {
+    this.mode = mode;
+    this.paint();
+  }
+
+  /** The transform through a view-math step, for the right canvas's size and the open image. */
+  private apply(step: (w: number, h: number, iw: number, ih: number) => ViewState) {
+    const s = this.source;
+    if (!s) return;
+    const { w, h } = this.sizeCanvases();
+    this.v = step(w, h, s.width, s.height);
+    this.paint();
+  }
+
+  /** Keyboard: + and − zoom, 0 fits, arrows pan by a tenth of the pane. */
+  private key(e: KeyboardEvent) {
+    const k = viewKey(e.key);
+    if (!k || !this.source || e.ctrlKey || e.metaKey || e.altKey) return;
+    e.preventDefault();
+    if ('fit' in k) return this.fit();
+    if ('zoom' in k) return this.zoom(k.zoom);
+    this.apply((w, h, iw, ih) => panView(this.v, w, h, iw, ih, (k.pan[0] * w) / 10, (k.pan[1] * h) / 10));
   }
 
   private sizeCanvases() {
@@ -76,48 +129,40 @@ export class CompareView {
   }
 
   fit() {
-    const s = this.source;
-    if (!s) return;
-    const { w, h } = this.sizeCanvases();
-    this.scale = Math.min(w / s.width, h / s.height);
-    this.cx = s.width / 2;
-    this.cy = s.height / 2;
-    this.fitted = true;
-    this.paint();
+    this.apply((w, h, iw, ih) => fitView(w, h, iw, ih));
   }
 
-  /** Zoom by a factor around a canvas point (device px); 1:1 when `to` is given. */
+  /** Zoom by a factor around a canvas point (device px); to `to` device px per image px when given. */
   zoom(factor: number, at?: { x: number; y: number }, to?: number) {
-    const c = this.right;
-    const p = at ?? { x: c.width / 2, y: c.height / 2 };
-    const ix = this.cx + (p.x - c.width / 2) / this.scale;
-    const iy = this.cy + (p.y - c.height / 2) / this.scale;
-    const next = Math.max(0.01, Math.min(32, to ?? this.scale * factor));
-    this.cx = ix - (p.x - c.width / 2) / next;
-    this.cy = iy - (p.y - c.height / 2) / next;
-    this.scale = next;
-    this.paint();
+    this.apply((w, h, iw, ih) => zoomView(this.v, w, h, iw, ih, factor, at, to));
   }
 
   private bindPointer(c: HTMLCanvasElement) {
-    let drag: { x: number; y: number; cx: number; cy: number; divider: boolean } | undefined;
+    let drag: { x: number; y: number; from: ViewState; divider: boolean } | undefined;
     c.addEventListener('pointerdown', (e) => {
       const dpr = window.devicePixelRatio || 1;
       const x = e.offsetX * dpr;
-      const divider = this.mode === 'swipe' && Math.abs(x - this.swipe * c.width) < 14 * dpr;
-      drag = { x: e.clientX, y: e.clientY, cx: this.cx, cy: this.cy, divider };
+      const divider = this.mode === 'swipe' && Math.abs(x - this.swipe * c.width) <= DIVIDER_GRAB_PX * dpr;
+      drag = { x: e.clientX, y: e.clientY, from: this.v, divider };
       c.setPointerCapture(e.pointerId);
     });
     c.addEventListener('pointermove', (e) => {
-      if (!drag) return;
       const dpr = window.devicePixelRatio || 1;
+      if (!drag) {
+        const near =
+          this.mode === 'swipe' && Math.abs(e.offsetX * dpr - this.swipe * c.width) <= DIVIDER_GRAB_PX * dpr;
+        c.style.cursor = near ? 'ew-resize' : '';
+        return;
+      }
       if (drag.divider) {
         this.swipe = Math.max(0, Math.min(1, (e.offsetX * dpr) / c.width));
+        this.paint();
       } else {
-        this.cx = drag.cx - ((e.clientX - drag.x) * dpr) / this.scale;
-        this.cy = drag.cy - ((e.clientY - drag.y) * dpr) / this.scale;
+        const from = drag.from;
+        const dx = (e.clientX - drag.x) * dpr;
+        const dy = (e.clientY - drag.y) * dpr;
+        this.apply((w, h, iw, ih) => panView(from, w, h, iw, ih, dx, dy));
       }
-      this.paint();
     });
     c.addEventListener('pointerup', () => {
       drag = undefined;
@@ -142,23 +187,20 @@ export class CompareView {
       for (const c of [this.left, this.right]) c.getContext('2d')?.clearRect(0, 0, c.width, c.height);
       return;
     }
-    if (!this.fitted) {
-      this.scale = Math.min(w / s.width, h / s.height);
-      this.cx = s.width / 2;
-      this.cy = s.height / 2;
-      this.fitted = true;
-    }
+    // Follow the canvas (resize, mode change) until the user zooms or pans; keep the image over it after.
+    this.v = this.v.fitted ? fitView(w, h, s.width, s.height) : clampView(this.v, w, h, s.width, s.height);
+    const { scale, cx, cy } = this.v;
     // Column and row lookup tables for this transform (−1 = outside the scan).
     const ix = new Int32Array(w);
     const iy = new Int32Array(h);
-    const x0 = this.cx - w / 2 / this.scale;
-    const y0 = this.cy - h / 2 / this.scale;
+    const x0 = cx - w / 2 / scale;
+    const y0 = cy - h / 2 / scale;
     for (let x = 0; x < w; x++) {
-      const v = Math.floor(x0 + (x + 0.5) / this.scale);
+      const v = Math.floor(x0 + (x + 0.5) / scale);
       ix[x] = v >= 0 && v < s.width ? v : -1;
     }
     for (let y = 0; y < h; y++) {
-      const v = Math.floor(y0 + (y + 0.5) / this.scale);
+      const v = Math.floor(y0 + (y + 0.5) / scale);
       iy[y] = v >= 0 && v < s.height ? v : -1;
     }
     const k = 255 / s.peak;
@@ -169,12 +211,7 @@ export class CompareView {
     } else if (this.mode === 'swipe') {
       const split = Math.round(this.swipe * w);
       this.blit(this.right, ix, iy, s.original, k, 0, rec, split);
-      const ctx = this.right.getContext('2d')!;
-      ctx.fillStyle = '#e07a3f';
-      ctx.fillRect(split - 1, 0, 3, h);
-      ctx.beginPath();
-      ctx.arc(split, h / 2, 9 * (window.devicePixelRatio || 1), 0, Math.PI * 2);
-      ctx.fill();
+      drawDivider(this.right.getContext('2d')!, split, h, window.devicePixelRatio || 1);
     } else if (this.mode === 'diff') {
       this.blitDiff(this.right, ix, iy, rec, s.original, k * this.gain);
     } else if (this.mode === 'layer' && s.layer) {
@@ -324,18 +361,19 @@ export class CompareView {
     const maxRank = Math.max(1, ...t.ranks);
     ctx.save();
     ctx.globalAlpha = 0.55;
-    const x0 = this.cx - c.width / 2 / this.scale;
-    const y0 = this.cy - c.height / 2 / this.scale;
-    const size = t.tile * this.scale;
+    const { scale, cx, cy } = this.v;
+    const x0 = cx - c.width / 2 / scale;
+    const y0 = cy - c.height / 2 / scale;
+    const size = t.tile * scale;
     for (let ty = 0; ty < t.rows; ty++)
       for (let tx = 0; tx < t.cols; tx++) {
         const rank = t.ranks[ty * t.cols + tx];
         const [r, g, b] = ramp(rank / maxRank);
         ctx.fillStyle = `rgb(${r},${g},${b})`;
-        const sx = (tx * t.tile - x0) * this.scale;
-        const sy = (ty * t.tile - y0) * this.scale;
-        const tw = Math.min(t.tile, s.width - tx * t.tile) * this.scale;
-        const th = Math.min(t.tile, s.height - ty * t.tile) * this.scale;
+        const sx = (tx * t.tile - x0) * scale;
+        const sy = (ty * t.tile - y0) * scale;
+        const tw = Math.min(t.tile, s.width - tx * t.tile) * scale;
+        const th = Math.min(t.tile, s.height - ty * t.tile) * scale;
         ctx.fillRect(sx, sy, tw, th);
         if (size > 26) {
           ctx.globalAlpha = 1;

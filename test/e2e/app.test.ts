@@ -13,10 +13,10 @@
 import { copyFileSync, existsSync, mkdirSync, mkdtempSync, readdirSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import type { BrowserContext, Page } from 'playwright-core';
+import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { image, reference } from '../helpers/fixtures';
-import { cliJson, launch, readouts, type Served, serve, shot } from './harness';
+import { type AppSession, cliJson, openApp, readouts, shot } from './harness';
 
 // Functions passed to page.waitForFunction run in the page; the Node type-check has no DOM lib.
 declare const document: {
@@ -27,23 +27,16 @@ const samples = mkdtempSync(join(tmpdir(), 'rankfold-e2e-samples-'));
 copyFileSync(image('camera.png'), join(samples, 'camera.png'));
 copyFileSync(image('moon.png'), join(samples, 'moon.png'));
 
-let served: Served;
-let ctx: BrowserContext;
+let app: AppSession;
 let page: Page;
-const pageErrors: string[] = [];
 
 beforeAll(async () => {
-  served = await serve({ RANKFOLD_SAMPLES_DIR: samples });
-  ctx = await launch();
-  page = await ctx.newPage();
-  page.on('pageerror', (e) => pageErrors.push(e.message));
-  await page.goto(served.url);
-  await page.waitForSelector('body[data-ready="true"]');
+  app = await openApp(samples);
+  page = app.page;
 });
 
 afterAll(async () => {
-  await ctx?.close();
-  await served?.stop();
+  await app?.close();
 });
 
 async function waitExact(rank: number) {
@@ -175,6 +168,9 @@ describe('browser mode, end to end', () => {
     expect(r.bytes).toBeLessThanOrEqual(8000);
     const rank = Number(await page.getByRole('slider', { name: 'Rank' }).inputValue());
     expect(rank).toBeGreaterThan(1);
+    // Issue 14: the rank readout gives the rank the exact figures are for, and the slider shows it.
+    expect(r.rank).toBe(rank);
+    expect(await page.getAttribute('[data-metric="bytes"]', 'data-exact')).toBe('true');
   });
 
   it('tiled mode shows the per-tile rank map', async () => {
@@ -202,8 +198,10 @@ describe('browser mode, end to end', () => {
     expect(await page.getAttribute('#status-text', 'data-error')).toBeNull();
     expect(await page.getByRole('button', { name: 'Show cleaned' }).isEnabled()).toBe(true);
     expect(await page.textContent('#clean-caution')).toContain('cleaning alters pixel data');
-    // The report is the cleaning service's own (σ̂ of the noise, method) and the profile plot is drawn.
-    expect(await page.textContent('#clean-report')).toMatch(/noiseSigma: \d/);
+    // The report is the cleaning service's own (σ̂ of the noise, method), as named quantities with units
+    // (issue 14: no raw keys), and the profile plot is drawn.
+    expect(await page.textContent('#clean-report')).toMatch(/Noise level\s*\d[\d.]* grey levels/);
+    expect(await page.textContent('#clean-report')).not.toMatch(/noiseSigma/);
     expect(await page.locator('#clean-profile canvas').count()).toBeGreaterThan(0);
     await shot(page, 'e2e-08-clean-removed');
     await page.getByRole('button', { name: 'Show cleaned' }).click();
@@ -248,7 +246,7 @@ describe('browser mode, end to end', () => {
   });
 
   it('raised no errors in the page', () => {
-    expect(pageErrors).toEqual([]);
+    expect(app.pageErrors).toEqual([]);
     expect(existsSync(samples)).toBe(true);
   });
 });

@@ -201,6 +201,39 @@ export async function launchChromium(
   });
 }
 
+/** The app in a browser: the server, the browser context, the ready page and the errors the page raised. */
+export interface AppSession {
+  served: Served;
+  ctx: BrowserContext;
+  page: Page;
+  pageErrors: string[];
+  close(): Promise<void>;
+}
+
+/** `rankfold serve` with `samplesDir` as the demo scans, and the page loaded and ready in Chromium. */
+export async function openApp(
+  samplesDir: string,
+  viewport = { width: 1440, height: 900 },
+): Promise<AppSession> {
+  const served = await serve({ RANKFOLD_SAMPLES_DIR: samplesDir });
+  const ctx = await launch(viewport);
+  const page = await ctx.newPage();
+  const pageErrors: string[] = [];
+  page.on('pageerror', (e) => pageErrors.push(e.message));
+  await page.goto(served.url);
+  await page.waitForSelector('body[data-ready="true"]');
+  return {
+    served,
+    ctx,
+    page,
+    pageErrors,
+    async close() {
+      await ctx.close();
+      await served.stop();
+    },
+  };
+}
+
 /** Headless Chromium with a fresh user-data-dir. */
 export async function launch(viewport = { width: 1440, height: 900 }): Promise<BrowserContext> {
   return launchChromium({ viewport });

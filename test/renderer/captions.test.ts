@@ -8,9 +8,10 @@ import {
   batchFileMessage,
   batchProgressText,
   batchRowText,
-  cleanReportText,
   encodedStatus,
   frameLabels,
+  guiMessage,
+  openFailedText,
   type PaneView,
   paneLabels,
   progressText,
@@ -133,24 +134,6 @@ describe('batch rows', () => {
   });
 });
 
-describe('cleanReportText', () => {
-  it('shows the listed scalar fields in the report order, numbers to six significant digits', () => {
-    const text = cleanReportText({
-      input: 'camera.png',
-      method: 'groups',
-      noiseSigma: 0.670_163_28,
-      noiseSource: 'estimated',
-      threshold: null,
-      rank: { mean: 3 },
-      changedSamples: 54_646,
-      psnrChange: 54.578_712,
-    });
-    expect(text).toBe(
-      'method: groups\nnoiseSigma: 0.670163\nnoiseSource: estimated\nchangedSamples: 54646\npsnrChange: 54.5787',
-    );
-  });
-});
-
 describe('paneLabels', () => {
   const base: PaneView = {
     showing: 'model',
@@ -160,9 +143,13 @@ describe('paneLabels', () => {
     tiled: false,
     tile: 64,
     rank: 20,
+    held: 300,
   };
   it('names what each pane shows in each view', () => {
     expect(paneLabels(base)).toEqual({ left: 'original', right: 'rank 20' });
+    expect(paneLabels({ ...base, rank: 472 }).right).toBe(
+      'rank 472 (showing 300 until the deeper layers arrive)',
+    );
     expect(paneLabels({ ...base, mode: 'swipe' })).toEqual({
       left: 'original | reconstruction',
       right: 'rank 20',
@@ -195,14 +182,16 @@ describe('stack frame', () => {
   it('the Stack card readouts: values for data-value, texts for the page', () => {
     const cells = stackCardCells(frame({ ranks: [3, 2, 2] }));
     expect(Object.keys(cells)).toEqual([...STACK_METRICS]);
-    expect(cells.frame).toEqual({ value: '4', text: '4 · f-3.png' });
-    expect(cells['frame-count']).toEqual({ value: '6', text: '6' });
-    expect(cells['eigen-frames']).toEqual({ value: '3', text: '3 / 2 / 2' });
-    expect(cells.residual).toEqual({ value: '0', text: 'no' });
-    expect(cells['worst-psnr']).toEqual({ value: '36.6049', text: '36.60 dB · frame 2' });
+    // What the file records is exact.
+    for (const m of STACK_METRICS) expect(cells[m].exact).toBe(true);
+    expect(cells.frame).toMatchObject({ value: '4', text: '4 · f-3.png' });
+    expect(cells['frame-count']).toMatchObject({ value: '6', text: '6' });
+    expect(cells['eigen-frames']).toMatchObject({ value: '3', text: '3 / 2 / 2' });
+    expect(cells.residual).toMatchObject({ value: '0', text: 'no' });
+    expect(cells['worst-psnr']).toMatchObject({ value: '36.6049', text: '36.60 dB · frame 2' });
     const bare = stackCardCells(frame({ worst: undefined, residual: true }));
-    expect(bare['worst-psnr']).toEqual({ value: '', text: '–' });
-    expect(bare.residual).toEqual({ value: '1', text: 'yes' });
+    expect(bare['worst-psnr']).toMatchObject({ value: '', text: '–' });
+    expect(bare.residual).toMatchObject({ value: '1', text: 'yes' });
   });
 
   it('the note says whether the file records per-frame quality', () => {
@@ -210,6 +199,34 @@ describe('stack frame', () => {
     expect(stackNote(frame({ ssim: undefined }))).toMatch(/^PSNR and SSIM of this frame as recorded/);
     expect(stackNote(frame({ psnr: undefined, ssim: undefined }))).toMatch(
       /^This stack file records no per-frame/,
+    );
+  });
+});
+
+describe('guiMessage and openFailedText', () => {
+  it('turns CLI flags into what to do in the app', () => {
+    expect(guiMessage('/tmp/x/out.rkf already exists; pass --force to overwrite it')).toBe(
+      'out.rkf already exists; tick “replace an existing file” in Save to overwrite it',
+    );
+    expect(guiMessage('too big; use --frobnicate-level 3')).not.toMatch(/--/);
+  });
+
+  it('names the file as the user gave it, never a server temporary path', () => {
+    const msg = '/tmp/rankfold-upload-Ab12/scan 1.png: not an image';
+    expect(openFailedText('scan 1.png', '/tmp/rankfold-upload-Ab12/scan1.png: not an image')).toBe(
+      'Could not open scan 1.png: scan1.png: not an image',
+    );
+    expect(openFailedText('/home/me/a.png', '/tmp/up/a.png: unsupported format')).toBe(
+      'Could not open /home/me/a.png: unsupported format',
+    );
+    expect(guiMessage(msg)).not.toMatch(/\/tmp/);
+  });
+});
+
+describe('openFailedText with spaces', () => {
+  it('keeps the path the user typed whole', () => {
+    expect(openFailedText('/data/lost scan.png', '/data/lost scan.png does not exist')).toBe(
+      'Could not open /data/lost scan.png: does not exist',
     );
   });
 });

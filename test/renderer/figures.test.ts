@@ -4,11 +4,14 @@
 import { describe, expect, it } from 'vitest';
 import { type CompressReport, encodeFactorSet, type StackFrameInfo } from '../../src-main/contract';
 import {
+  addCalibration,
   estimateFigures,
   FIRST_PASS_RANK,
   removedForDisplay,
   reportFigures,
+  reportRank,
   secondPassRank,
+  sizeEstimate,
   stackFigures,
 } from '../../src-renderer/figures';
 import { LowRankModel } from '../../src-renderer/model';
@@ -32,30 +35,83 @@ describe('estimateFigures', () => {
   const scan = { rawBytes: 12, width: 4, height: 3 };
 
   it('errors and PSNR from the spectrum alone', () => {
-    const f = estimateFigures(model(), scan, undefined, 1);
+    const f = estimateFigures(model(), scan, [], 1);
+    expect(f.rank).toBe(1);
     expect(f['frobenius-optimal']).toBeCloseTo(Math.sqrt(2 * 2 + 1 * 1), 12);
     expect(f.frobenius).toBe(f['frobenius-optimal']);
     expect(f['spectral-bound']).toBe(2);
     expect(f.psnr).toBeCloseTo(10 * Math.log10((255 * 255) / (5 / 12)), 10);
-    expect(estimateFigures(model(), scan, undefined, 3)['spectral-bound']).toBe(0);
+    expect(estimateFigures(model(), scan, [], 3)['spectral-bound']).toBe(0);
   });
 
-  it('before any encode, sizes from k·planes·(width + height + 1) bytes plus 128', () => {
-    const f = estimateFigures(model(), scan, undefined, 2);
-    expect(f.bytes).toBe(2 * 1 * (4 + 3 + 1) + 128);
-    expect(f.ratio).toBe(12 / 144);
-    expect(f.bpp).toBe((8 * 144) / 12);
+  it('no SSIM, and no size before an encode makes one trustworthy', () => {
+    const f = estimateFigures(model(), scan, [], 2);
+    expect(f.ssim).toBeUndefined();
+    expect(f.bytes).toBeUndefined();
+    expect(f.ratio).toBeUndefined();
+    expect(f.bpp).toBeUndefined();
   });
 
-  it("after an encode, sizes from that encode's bytes per rank", () => {
-    const f = estimateFigures(model(), scan, { rank: 20, bytes: 6500 }, 50);
-    expect(f.bytes).toBe(325 * 50 + 128);
+  it('beyond the layers the page holds: only the rank, no errors from a partial spectrum', () => {
+    expect(estimateFigures(model(), scan, [], 4)).toEqual({ rank: 4 });
+  });
+
+  it('sizes, ratio and bits per pixel from a nearby encode', () => {
+    const f = estimateFigures(model(), scan, [{ rank: 2, bytes: 6 }], 2);
+    expect(f).toMatchObject({ bytes: 6, ratio: 2, bpp: 4 });
+  });
+});
+
+describe('sizeEstimate', () => {
+  it('a measured rank gives its own size', () => {
+    expect(sizeEstimate([{ rank: 20, bytes: 6500 }], 20)).toBe(6500);
+  });
+  it('between two measured ranks at most 3× apart: bytes per rank interpolated', () => {
+    // camera.png, whole plane (`rankfold compress --rank k --tile 0 --json`): 6506 B at 20, 59393 at 107
+    // (5.35× apart: no estimate) and 27510 at 60; with 20 and 60 measured, rank 40 lies between.
+    const m = [
+      { rank: 20, bytes: 6506 },
+      { rank: 60, bytes: 27_510 },
+    ];
+    expect(sizeEstimate(m, 40)).toBeCloseTo(40 * (6506 / 20 + (27_510 / 60 - 6506 / 20) / 2), 6);
+    expect(sizeEstimate([m[0], { rank: 107, bytes: 59_393 }], 60)).toBeUndefined();
+  });
+  it('near one measured rank (±10 %): in proportion; further away: none', () => {
+    expect(sizeEstimate([{ rank: 20, bytes: 6000 }], 22)).toBe(6600);
+    expect(sizeEstimate([{ rank: 20, bytes: 6000 }], 18)).toBe(5400);
+    expect(sizeEstimate([{ rank: 20, bytes: 6000 }], 23)).toBeUndefined();
+    expect(sizeEstimate([{ rank: 20, bytes: 6000 }], 50)).toBeUndefined();
+    expect(sizeEstimate([], 50)).toBeUndefined();
+  });
+  it('remembers the latest size per rank, most recent ranks kept', () => {
+    let m = addCalibration([], { rank: 20, bytes: 1 });
+    m = addCalibration(m, { rank: 20, bytes: 2 });
+    expect(m).toEqual([{ rank: 20, bytes: 2 }]);
+    for (let k = 1; k <= 20; k++) m = addCalibration(m, { rank: k, bytes: k }, 3);
+    expect(m.map((c) => c.rank)).toEqual([18, 19, 20]);
+  });
+});
+
+describe('reportRank', () => {
+  it('the base rank of a whole plane, the mean tile rank when tiled', () => {
+    expect(reportRank({ ranks: [{ channel: 'gray', rank: 472 }] })).toBe(472);
+    const tiles = (mean: number) => ({ count: 4, min: 1, max: 9, mean, total: 4 * mean });
+    expect(
+      reportRank({
+        ranks: [
+          { channel: 'r', tiles: tiles(5) },
+          { channel: 'g', tiles: tiles(6.25) },
+        ],
+      }),
+    ).toBe(5.6);
+    expect(reportRank({ ranks: [] })).toBeUndefined();
   });
 });
 
 describe('reportFigures and stackFigures', () => {
   it("take the encoder's figures as they are", () => {
     const r = {
+      ranks: [{ channel: 'gray', rank: 7 }],
       psnr: 30.1,
       ssim: 0.9,
       ratio: 12.5,
@@ -64,6 +120,7 @@ describe('reportFigures and stackFigures', () => {
       errors: { spectralBound: 11, frobeniusOptimal: 900, frobenius: 950 },
     } as CompressReport;
     expect(reportFigures(r)).toEqual({
+      rank: 7,
       psnr: 30.1,
       ssim: 0.9,
       ratio: 12.5,

@@ -1,7 +1,7 @@
 // How the page writes numbers. Decimal byte units (1 kB = 1000 B) as in IEC 80000-13; the expected strings
 // are those Number.prototype.toFixed gives (ECMA-262 §21.1.3.3), written out by hand.
 import { describe, expect, it } from 'vitest';
-import { formatBytes, formatPsnr, METRICS, readoutCell } from '../../src-renderer/format';
+import { formatBytes, formatPsnr, METRIC_HELP, METRICS, readoutCell } from '../../src-renderer/format';
 
 describe('formatBytes', () => {
   it('whole bytes below 1 kB, one decimal in kB, two in MB and GB', () => {
@@ -18,8 +18,10 @@ describe('formatBytes', () => {
 });
 
 describe('readoutCell', () => {
-  it('formats each metric: dB, SSIM, ratio, size, bpp and the three errors', () => {
-    const text = (m: (typeof METRICS)[number], v: number) => readoutCell(m, v, true)?.text;
+  it('formats each metric: rank, dB, SSIM, ratio, size, bpp and the three errors ', () => {
+    const text = (m: (typeof METRICS)[number], v: number) => readoutCell(m, v, true).text;
+    expect(text('rank', 472)).toBe('472');
+    expect(text('rank', 5.6)).toBe('5.6 (mean)');
     expect(text('psnr', 24.5437)).toBe('24.54 dB');
     expect(text('ssim', 0.658_61)).toBe('0.6586');
     expect(text('ratio', 40.27)).toBe('40.3 : 1');
@@ -32,24 +34,46 @@ describe('readoutCell', () => {
 
   it('a lossless result reads ∞ dB', () => {
     expect(formatPsnr(Number.POSITIVE_INFINITY)).toBe('∞ dB');
-    expect(readoutCell('psnr', Number.POSITIVE_INFINITY, true)).toEqual({ value: 'Infinity', text: '∞ dB' });
+    expect(readoutCell('psnr', Number.POSITIVE_INFINITY, true)).toEqual({
+      value: 'Infinity',
+      text: '∞ dB',
+      exact: true,
+    });
   });
 
-  it('keeps the exact value for data-value and marks estimates with ≈', () => {
-    expect(readoutCell('ratio', 40.2745, true)).toEqual({ value: '40.2745', text: '40.3 : 1' });
-    expect(readoutCell('ratio', 40.2745, false)).toEqual({ value: '40.2745', text: '≈ 40.3 : 1' });
+  it('keeps the exact value for data-value, says which is exact, and marks estimates with ≈', () => {
+    expect(readoutCell('ratio', 40.2745, true)).toEqual({ value: '40.2745', text: '40.3 : 1', exact: true });
+    expect(readoutCell('ratio', 40.2745, false)).toEqual({
+      value: '40.2745',
+      text: '≈ 40.3 : 1',
+      exact: false,
+    });
+    // The rank an estimate is for is known, not estimated: no ≈.
+    expect(readoutCell('rank', 50, false).text).toBe('50');
   });
 
-  it('a missing value clears an exact readout and leaves an estimate alone', () => {
-    expect(readoutCell('ssim', undefined, true)).toEqual({ value: '', text: '–' });
-    expect(readoutCell('ssim', Number.NaN, true)).toEqual({ value: '', text: '–' });
-    expect(readoutCell('ssim', undefined, false)).toBeUndefined();
-    expect(readoutCell('psnr', Number.NaN, false)).toBeUndefined();
+  it('a missing value clears the readout, exact or estimated (no old exact figure stays unmarked)', () => {
+    expect(readoutCell('ssim', undefined, true)).toEqual({ value: '', text: '–', exact: true });
+    expect(readoutCell('ssim', Number.NaN, true)).toEqual({ value: '', text: '–', exact: true });
+    expect(readoutCell('ssim', undefined, false)).toEqual({ value: '', text: '–', exact: false });
   });
 
-  it('lists the eight readouts of the Figures card', () => {
+  it('lists the nine readouts of the Figures card, each with a tooltip naming its unit', () => {
     expect([...METRICS].sort()).toEqual(
-      ['bpp', 'bytes', 'frobenius', 'frobenius-optimal', 'psnr', 'ratio', 'spectral-bound', 'ssim'].sort(),
+      [
+        'bpp',
+        'bytes',
+        'frobenius',
+        'frobenius-optimal',
+        'psnr',
+        'rank',
+        'ratio',
+        'spectral-bound',
+        'ssim',
+      ].sort(),
     );
+    for (const m of METRICS) expect(METRIC_HELP[m].length).toBeGreaterThan(20);
+    expect(METRIC_HELP.frobenius).toMatch(/grey levels/);
+    expect(METRIC_HELP.psnr).toMatch(/dB/);
   });
 });

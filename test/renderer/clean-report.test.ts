@@ -1,0 +1,37 @@
+// The Clean panel's table: the service's report fields (src-main/contract/clean.ts) as named quantities
+// with units; the figures below are made up, the texts written out by hand.
+import { describe, expect, it } from 'vitest';
+import { cleanReportRows } from '../../src-renderer/clean-report';
+
+describe('cleanReportRows', () => {
+  it('names each quantity and gives its unit, no raw keys', () => {
+    const rows = cleanReportRows({
+      input: 'camera.png',
+      width: 10,
+      height: 10,
+      channels: 1,
+      method: 'groups',
+      noiseSigma: 0.670_163_28,
+      noiseSource: 'estimated',
+      threshold: 12.34,
+      removedRms: 0.5,
+      changedSamples: 25,
+      psnrChange: 54.578_712,
+    });
+    expect(rows.map((r) => [r.name, r.value])).toEqual([
+      ['Noise level', '0.67 grey levels (estimated)'],
+      ['Noise threshold', '12.3 grey levels'],
+      ['Method', 'groups of similar patches'],
+      ['Removed, RMS', '0.50 grey levels'],
+      ['Cleaned vs original', '54.58 dB PSNR'],
+      ['Samples changed', '25 of 100 (25.0 %)'],
+    ]);
+    for (const r of rows) expect(r.help.length).toBeGreaterThan(10);
+    expect(JSON.stringify(rows)).not.toMatch(/noiseSigma|psnrChange|changedSamples/);
+  });
+
+  it('an unchanged scan and skipped noise removal say so', () => {
+    const rows = cleanReportRows({ noiseSkipped: 'scan too small', noiseSigma: null, psnrChange: null });
+    expect(rows.map((r) => r.value)).toEqual(['skipped: scan too small', 'identical']);
+  });
+});
