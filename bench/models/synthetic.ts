@@ -18,7 +18,7 @@ export function seededRandom(seed: number): () => number {
 }
 
 /** Standard normal deviates by the Box–Muller transform (Box & Muller, Ann. Math. Stat. 29(2), 1958). */
-export function seededNormal(seed: number): () => number {
+function seededNormal(seed: number): () => number {
   const u = seededRandom(seed);
   let spare: number | undefined;
   return () => {

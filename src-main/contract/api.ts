@@ -11,7 +11,7 @@ import type { Budget, CompressReport, TileChoice } from './compress';
 import type { ApiCalls } from './methods';
 
 /** Where a scan comes from. */
-export type ScanSource =
+type ScanSource =
   | { kind: 'path'; path: string }
   | { kind: 'sample'; name: string }
   | { kind: 'upload'; uploadId: string };
@@ -227,7 +227,7 @@ export interface DroppedResult {
 }
 
 /** Commands the desktop menu sends to the page. */
-export const MENU_COMMANDS = [
+const MENU_COMMANDS = [
   'open',
   'open-folder',
   'save',

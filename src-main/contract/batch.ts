@@ -19,7 +19,7 @@ export const MANIFEST_VERSION = 1;
  * - `skipped`: not a regular file (a FIFO, a device, a socket, a symbolic link to one of those or to a
  *   folder, a broken or looping link); never opened, `note` says what it is. Not a failure.
  */
-export type BatchStatus = 'ok' | 'kept' | 'failed' | 'planned' | 'skipped';
+type BatchStatus = 'ok' | 'kept' | 'failed' | 'planned' | 'skipped';
 
 /** One line of the manifest (JSON lines) and one row of the CSV. */
 export interface BatchRow {
@@ -104,7 +104,7 @@ export interface Shard {
 }
 
 /** Largest shard count accepted (a sanity bound, not a technical one). */
-export const MAX_SHARDS = 100_000;
+const MAX_SHARDS = 100_000;
 
 /**
  * Parse `--shard I/N`: I counts from 0 (as a Kubernetes completion index does) and is below N.

@@ -6,12 +6,9 @@ import { is } from './validate';
 /** 'auto' estimates σ from the image; a number is σ in grey levels of the input; 'off' skips denoising. */
 export type NoiseMode = 'auto' | 'off' | number;
 export type BandingMode = 'auto' | 'rows' | 'columns' | 'both' | 'off';
-export type BandingDirectionResult = 'none' | 'rows' | 'columns' | 'both';
+type BandingDirectionResult = 'none' | 'rows' | 'columns' | 'both';
 /** 'groups' = block-matched patch groups (default); 'tiles' = overlapping tiles with Hann blending. */
 export type DenoiseMethod = 'groups' | 'tiles';
-
-export const BANDING_MODES: readonly BandingMode[] = OPTIONS.banding.values;
-export const DENOISE_METHODS: readonly DenoiseMethod[] = OPTIONS.method.values;
 
 export interface CleanOptions {
   noise: NoiseMode;
@@ -40,7 +37,7 @@ export interface CleanOptions {
   profile?: string;
 }
 
-export interface AxisBandingReport {
+interface AxisBandingReport {
   detected: boolean;
   removed: boolean;
   /** RMS of the stripe profile, grey levels of the input (strongest channel). */

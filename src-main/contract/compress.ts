@@ -32,7 +32,7 @@ export interface CompressOptions {
 }
 
 /** One split of the byte budget between the layers that the two-layer search tried. */
-export interface LayerCandidateReport {
+interface LayerCandidateReport {
   kind: 'base-only' | 'residual-only' | 'mixed';
   /** Slope multiplier of a mixed candidate (the base keeps components at least κ·λ steep). */
   kappa?: number;
@@ -47,7 +47,7 @@ export interface LayerCandidateReport {
 }
 
 /** Bytes per layer of the written file, and how the split was chosen. */
-export interface LayerReport {
+interface LayerReport {
   /** Bytes of the low-rank base (the factor streams) and of the wavelet-coded residual. */
   baseBytes: number;
   residualBytes: number;
@@ -60,7 +60,7 @@ export interface LayerReport {
   residualEncodes: number;
 }
 
-export interface ErrorFigures {
+interface ErrorFigures {
   /** Achieved ‖A − Â‖_F over all coded planes, in grey levels of the input. */
   frobenius: number;
   /** Eckart–Young optimum at the same ranks: sqrt(Σ_{i>k} σ_i²), in grey levels. */

@@ -7,7 +7,7 @@ import { UsageError } from './errors';
 import { utf8Decode, utf8Encode } from './utf8';
 
 /** One typed-array block in a factor set. */
-export interface BlockInfo {
+interface BlockInfo {
   name: string;
   type: 'f32' | 'u8' | 'u16';
   length: number;

@@ -1,9 +1,9 @@
 /** What a decoded scan looks like once it leaves `src-main/node/image`. */
 
-export type BitDepth = 8 | 16;
+type BitDepth = 8 | 16;
 
 /** Colour model of the stored planes. */
-export type ColourModel = 'gray' | 'rgb';
+type ColourModel = 'gray' | 'rgb';
 
 /** Metadata kept so `expand` can write it back. */
 export interface ImageMeta {

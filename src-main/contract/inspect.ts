@@ -22,7 +22,7 @@ export const INSPECT_RANKS = [1, 5, 10, 20, 50, 100, 200, 500] as const;
 export const INSPECT_FULL_SPECTRUM_LIMIT = 2048;
 export const INSPECT_TOP_VALUES = 512;
 
-export interface EnergyRank {
+interface EnergyRank {
   /** Fraction of Σσᵢ² (the Frobenius energy ‖A‖_F²), e.g. 0.99. */
   fraction: number;
   /** Smallest rank capturing it; null when only the top values are known and they do not reach it. */
@@ -30,7 +30,7 @@ export interface EnergyRank {
 }
 
 /** Best rank-k errors (Eckart–Young–Mirsky), in grey levels of the input. */
-export interface RankError {
+interface RankError {
   k: number;
   /** ‖A−A_k‖₂ = σ_{k+1}. */
   spectral: number;

@@ -101,7 +101,7 @@ function none(name: string) {
 }
 
 /** The methods, in the order the page's API lists them. */
-export const METHODS = {
+const METHODS = {
   /** The bundled demo scans. */
   listSamples: method<SampleInfo[]>()({ validate: none('listSamples') }),
   /** Recently opened files, newest first. */
@@ -220,9 +220,8 @@ export const METHODS = {
 
 export type ApiMethod = keyof typeof METHODS;
 export const API_METHODS = Object.keys(METHODS) as ApiMethod[];
-export type RequestOf<M extends ApiMethod> = ReturnType<(typeof METHODS)[M]['validate']>;
-export type ResultOf<M extends ApiMethod> =
-  (typeof METHODS)[M] extends MethodSpec<unknown, infer R> ? R : never;
+type RequestOf<M extends ApiMethod> = ReturnType<(typeof METHODS)[M]['validate']>;
+type ResultOf<M extends ApiMethod> = (typeof METHODS)[M] extends MethodSpec<unknown, infer R> ? R : never;
 
 /** True when `transport` carries `method`. */
 export function carries(method: ApiMethod, transport: Transport): boolean {
@@ -230,7 +229,7 @@ export function carries(method: ApiMethod, transport: Transport): boolean {
   return !t || t.includes(transport);
 }
 
-export function isApiMethod(v: unknown): v is ApiMethod {
+function isApiMethod(v: unknown): v is ApiMethod {
   return is.string(v) && Object.hasOwn(METHODS, v);
 }
 

@@ -23,7 +23,7 @@ export interface StackCompressOptions {
   pixelLimit?: number;
 }
 
-export interface StackFrameReport {
+interface StackFrameReport {
   index: number;
   /** File name, or `name.tif#page` for a page of a multi-page TIFF. */
   name: string;

@@ -11,7 +11,7 @@ export const SCAN_EXTENSIONS: readonly string[] = ['.png', '.tif', '.tiff', '.jp
 /** Largest upload accepted from the page: 2 GiB, above any single scan the decoder's pixel limit allows at 8 bits. */
 export const MAX_UPLOAD_BYTES = 2 * 1024 ** 3;
 /** Longest upload name in UTF-8 bytes: NAME_MAX of common Linux, macOS and Windows file systems (from memory). */
-export const MAX_UPLOAD_NAME_BYTES = 255;
+const MAX_UPLOAD_NAME_BYTES = 255;
 
 export interface UploadRequest {
   name: string;

@@ -40,12 +40,6 @@ export function checkInteger(name: string, v: unknown, lo: number, hi: number): 
   return v;
 }
 
-export function checkNumber(name: string, v: unknown, lo: number, hi: number): number {
-  if (!is.number(v) || !is.inRange(v, lo, hi))
-    throw invalidParameterError(name, `number between ${lo} and ${hi}`, v);
-  return v;
-}
-
 export function checkOneOf<T extends string>(name: string, v: unknown, values: readonly T[]): T {
   if (!is.oneOf(v, values))
     throw invalidParameterError(

@@ -19,9 +19,7 @@ import {
 import { CHANNEL_PREFIX } from './channels';
 import { checkSenderFrame } from './sender';
 
-export { CHANNEL_PREFIX, EVENT_CHANNELS } from './channels';
-
-export type IpcReply = Reply;
+type IpcReply = Reply;
 
 /**
  * Check one call; returns the validated payload, or the refusal's reason and the error the page receives

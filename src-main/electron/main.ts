@@ -12,7 +12,6 @@ import { EVENT_CHANNELS } from './channels';
 import { registerIpc } from './ipc';
 import { buildMenuTemplate } from './menu';
 import { resolvePageFile } from './protocol-files';
-import { isTrustedSenderUrl } from './sender';
 import { APP_SCHEME, APP_URL, buildWindowOptions, DESKTOP_HEADERS } from './window-options';
 
 // dist/electron/main.cjs → dist/
@@ -174,5 +173,3 @@ app.on('window-all-closed', () => {
     if (process.platform !== 'darwin') app.quit();
   });
 });
-
-export { isTrustedSenderUrl };

@@ -7,7 +7,7 @@ import type { BrowserWindowConstructorOptions } from 'electron';
 /** The page is served from this privileged custom scheme through protocol.handle, never file://. */
 export const APP_SCHEME = 'rankfold';
 export const APP_HOST = 'app';
-export const APP_ORIGIN = `${APP_SCHEME}://${APP_HOST}`;
+const APP_ORIGIN = `${APP_SCHEME}://${APP_HOST}`;
 export const APP_URL = `${APP_ORIGIN}/index.html`;
 
 /** Strict CSP for the desktop page: only our own scheme, no inline script, no eval, no remote content. */

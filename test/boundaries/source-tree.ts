@@ -22,7 +22,7 @@ const importRe =
   /(?:^|\n)\s*(?:import|export)\s[^'";]*?from\s*['"](\.[^'"]+)['"]|import\s*\(\s*['"](\.[^'"]+)['"]\s*\)/g;
 
 /** The repository-relative folders a file imports from (relative imports only, own folder left out). */
-export function importedFolders(file: string): string[] {
+function importedFolders(file: string): string[] {
   const text = readFileSync(join(repoRoot, file), 'utf8');
   const out = new Set<string>();
   for (const m of text.matchAll(importRe)) {

@@ -24,9 +24,9 @@ import { brotliDecompressSync } from 'node:zlib';
 import { type BrowserContext, chromium, type Page } from 'playwright-core';
 import { repoRoot } from '../helpers/fixtures';
 
-export const cli = join(repoRoot, 'bin', 'rankfold.mjs');
-export const artifacts = join(repoRoot, 'test-artifacts');
-export const CHROMIUM_ARGS = [
+const cli = join(repoRoot, 'bin', 'rankfold.mjs');
+const artifacts = join(repoRoot, 'test-artifacts');
+const CHROMIUM_ARGS = [
   '--headless',
   '--no-sandbox',
   '--disable-gpu',
@@ -89,7 +89,7 @@ export async function serve(env: Record<string, string> = {}): Promise<Served> {
   };
 }
 
-export interface ChromiumChoice {
+interface ChromiumChoice {
   kind: 'env' | 'system' | 'packaged';
   executablePath: string;
   /** Extra environment for the browser process (the packaged build's libraries and fonts). */
@@ -97,7 +97,7 @@ export interface ChromiumChoice {
 }
 
 /** The browser the e2e tests and the UI bench launch; see the comment at the top of this file. */
-export function chooseChromium(env: NodeJS.ProcessEnv = process.env): ChromiumChoice {
+function chooseChromium(env: NodeJS.ProcessEnv = process.env): ChromiumChoice {
   const mode = env.RANKFOLD_BROWSER ?? 'auto';
   if (!['auto', 'system', 'packaged'].includes(mode))
     throw new Error(`RANKFOLD_BROWSER=${mode}: use auto, system or packaged`);
@@ -115,7 +115,7 @@ export function chooseChromium(env: NodeJS.ProcessEnv = process.env): ChromiumCh
 }
 
 /** Unpack (once per package version) and describe the Chromium build inside @sparticuz/chromium. */
-export function packagedChromium(env: NodeJS.ProcessEnv = process.env): ChromiumChoice {
+function packagedChromium(env: NodeJS.ProcessEnv = process.env): ChromiumChoice {
   let entry: string;
   try {
     // Resolved relative to this module (also from the bundled bench in dist/bench/), never imported: the

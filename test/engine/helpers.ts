@@ -10,7 +10,7 @@ export function randomMatrix(m: number, n: number, seed = 1, f32 = false): Matri
 }
 
 /** Random m×k matrix with orthonormal columns (modified Gram–Schmidt twice on Gaussian columns). */
-export function randomOrthonormal(m: number, k: number, seed: number): Float64Array {
+function randomOrthonormal(m: number, k: number, seed: number): Float64Array {
   const rng = new Rng(seed);
   const Q = new Float64Array(m * k);
   for (let c = 0; c < k; c++) {

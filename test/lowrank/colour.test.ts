@@ -1,6 +1,6 @@
 // RGB ⇄ YCbCr against the JFIF 1.02 values quoted in test/fixtures/reference/notes.md.
 import { describe, expect, it } from 'vitest';
-import { RGB_TO_YCBCR, rgbToYcbcr, YCBCR_TO_RGB, ycbcrToRgb } from '../../src-main/engine/lowrank/colour';
+import { RGB_TO_YCBCR, rgbToYcbcr, YCBCR_TO_RGB, ycbcrToRgb } from '../../src-main/engine/colour';
 
 describe('YCbCr (JFIF 1.02, BT.601 full range)', () => {
   it('uses the JFIF 1.02 coefficients', () => {

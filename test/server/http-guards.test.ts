@@ -9,13 +9,13 @@ import { copyFileSync, mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { RunningServer } from '../../src-main/node/server/http';
 import {
   checkHostAndOrigin,
   checkRequestShape,
-  type RunningServer,
   tokenMatches,
   uploadName,
-} from '../../src-main/node/server/http';
+} from '../../src-main/node/server/http-guards';
 import { image } from '../helpers/fixtures';
 import { call as callOn, hit as hitOn, rawHttp, startTestServer, type TestServer } from './harness';
 

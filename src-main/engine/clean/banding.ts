@@ -25,10 +25,10 @@
 import { medianInPlace, runningMedian } from './medians';
 import { MAD_TO_SIGMA } from './noise-estimate';
 
-export type BandingAxis = 'rows' | 'columns';
-export type BandingDirection = 'none' | 'rows' | 'columns' | 'both';
+type BandingAxis = 'rows' | 'columns';
+type BandingDirection = 'none' | 'rows' | 'columns' | 'both';
 
-export interface StripeProfile {
+interface StripeProfile {
   axis: BandingAxis;
   /** Offset per row (axis rows, length height) or per column (axis columns, length width), zero mean. */
   profile: Float64Array;
@@ -60,33 +60,33 @@ export interface BandingOptions {
 }
 
 /** Lines sampled for the profile (enough for a median error of ~0.06σ; more costs time for nothing). */
-export const MAX_SAMPLE_LINES = 512;
+const MAX_SAMPLE_LINES = 512;
 /** Default half-width of the running median along each line. */
-export const DEFAULT_HALF_WINDOW = 32;
+const DEFAULT_HALF_WINDOW = 32;
 /** Minimum RMS of a detected profile, in 8-bit grey levels: below this, removal is within rounding. */
-export const MIN_STRENGTH_8BIT = 0.3;
+const MIN_STRENGTH_8BIT = 0.3;
 /**
  * The robust strength must exceed this many times the noise floor. Fitted on: the clean images of
  * test/fixtures/images and samples/ (3 leaves every one untouched) and the striped cases of
  * test/clean/banding.test.ts (moon, camera and text with synthetic stripes; page for text lines).
  */
-export const SIGNIFICANCE = 3;
+const SIGNIFICANCE = 3;
 /** Minimum correlation between the two halves' profiles. Fitted on: as SIGNIFICANCE. */
-export const MIN_CONSISTENCY = 0.5;
+const MIN_CONSISTENCY = 0.5;
 /**
  * Largest spread ratio of a detected profile: above it, the "stripes" follow content (text lines, edges).
  * Fitted on: as SIGNIFICANCE (the text-heavy page.png and text.png set the ceiling).
  */
-export const MAX_SPREAD_RATIO = 1.8;
+const MAX_SPREAD_RATIO = 1.8;
 /** In automatic mode, profile values beyond this many robust strengths are content, not banding. Fitted on: as SIGNIFICANCE. */
-export const SPIKE_FACTOR = 5;
+const SPIKE_FACTOR = 5;
 /** A period is reported when the spectral peak (±1 bin) holds at least this share of the energy. */
-export const MIN_PERIOD_SHARE = 0.3;
+const MIN_PERIOD_SHARE = 0.3;
 /** √(π/2): standard error of a median relative to the mean's, for Gaussian data. */
 const MEDIAN_SE_FACTOR = 1.2533141373155003;
 
 /** Estimate the stripe profile of one axis and run the detection test. */
-export function estimateStripeProfile(
+function estimateStripeProfile(
   plane: ArrayLike<number>,
   width: number,
   height: number,

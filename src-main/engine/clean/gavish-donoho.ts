@@ -119,7 +119,7 @@ export function omegaCubic(beta: number): number {
 }
 
 /** Order an m×n shape as β = min/max and n = max. */
-export function shapeRatio(rows: number, cols: number): { beta: number; n: number } {
+function shapeRatio(rows: number, cols: number): { beta: number; n: number } {
   const m = Math.min(rows, cols);
   const n = Math.max(rows, cols);
   if (!(m >= 1)) throw new RangeError(`matrix shape ${rows}×${cols} has no entries`);

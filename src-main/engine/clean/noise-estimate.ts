@@ -83,7 +83,7 @@ export function estimateNoiseSigma(
  * from test/fixtures/images with Gaussian noise σ = 5, 10, 20 (the cases of test/clean/noise-estimate.test.ts,
  * first clean commit 87d461e).
  */
-export const NOISE_KEEP_FRACTION = 0.5;
+const NOISE_KEEP_FRACTION = 0.5;
 
 function exactMedian(v: Float64Array): number {
   v.sort();

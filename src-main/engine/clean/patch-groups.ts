@@ -49,7 +49,7 @@ export function autoGroupParams(sigma8: number): GroupParams {
 }
 
 /** Reference positions along one axis: 0, stride, 2·stride, … and always the last valid one. */
-export function referenceGrid(length: number, patch: number, stride: number): Int32Array {
+function referenceGrid(length: number, patch: number, stride: number): Int32Array {
   const last = length - patch;
   if (last < 0) return new Int32Array(0);
   const out: number[] = [];
@@ -59,7 +59,7 @@ export function referenceGrid(length: number, patch: number, stride: number): In
 }
 
 /** Candidate offsets, nearest first (ties in a fixed order): every offset within ±3, every even one beyond. */
-export function searchOffsets(radius: number): Int32Array {
+function searchOffsets(radius: number): Int32Array {
   const list: Array<[number, number]> = [];
   for (let dy = -radius; dy <= radius; dy++)
     for (let dx = -radius; dx <= radius; dx++) {
@@ -199,7 +199,7 @@ export function denoiseGroupsBand(
  * order), with exact early termination of each SSD once it cannot enter the current K best. Writes their
  * positions to posY/posX and returns how many were found (fewer than K only in tiny images).
  */
-export function matchGroup(
+function matchGroup(
   guide: Float32Array,
   width: number,
   height: number,

@@ -39,7 +39,7 @@ export interface CleanSettings {
 }
 
 /** Below this σ (8-bit scale) an estimated noise level is taken as "no noise": 8-bit rounding alone gives 0.29. */
-export const MIN_AUTO_SIGMA_8BIT = 0.6;
+const MIN_AUTO_SIGMA_8BIT = 0.6;
 
 export interface PreparedClean {
   width: number;

@@ -24,8 +24,8 @@
 import { FormatError } from '../../contract/errors';
 import { crc32 } from './crc32';
 
-export const MAGIC = Uint8Array.from([0x89, 0x52, 0x4b, 0x46, 0x0d, 0x0a, 0x1a, 0x0a]);
-export const VERSION_MAJOR = 1;
+const MAGIC = Uint8Array.from([0x89, 0x52, 0x4b, 0x46, 0x0d, 0x0a, 0x1a, 0x0a]);
+const VERSION_MAJOR = 1;
 export const VERSION_MINOR = 1;
 /**
  * Highest minor version this writer produces: 1.2 marks a file whose image layout carries a residual layer
@@ -39,13 +39,13 @@ export const VERSION_MINOR_RESIDUAL = 2;
  */
 export const VERSION_MINOR_CODER2 = 3;
 /** Ancillary chunk of version ≥ 1.1 files: version copy and HEAD's CRC-32 (see the module comment). */
-export const FILE_CHECK = 'fchk';
+const FILE_CHECK = 'fchk';
 const FILE_CHECK_LENGTH = 8;
 const PREAMBLE = 12;
 const CHUNK_OVERHEAD = 16;
 const TRAILER = 16;
 /** Largest chunk payload a reader accepts (1 GiB). */
-export const MAX_CHUNK = 2 ** 30;
+const MAX_CHUNK = 2 ** 30;
 
 export interface Chunk {
   type: string;
@@ -53,7 +53,7 @@ export interface Chunk {
   payload: Uint8Array;
 }
 
-export interface ChunkEntry {
+interface ChunkEntry {
   type: string;
   id: number;
   /** Offset of the chunk's first byte (its type field). */

@@ -24,7 +24,7 @@ import { DEAD_ZONE, reconstructRows } from './quantise';
 import { type QuantPlane, tileGrid } from './quantised';
 import { decodePlane as decodeWaveletPlane } from './wavelet-plane';
 
-export type ColourTransform = 'none' | 'ycbcr-jfif';
+type ColourTransform = 'none' | 'ycbcr-jfif';
 
 export interface PlaneHeader {
   /** 'gray', 'Y', 'Cb' or 'Cr'. */
@@ -121,7 +121,7 @@ export function writeImageFile(parts: ImageFileParts): Uint8Array {
 }
 
 /** Chunk type of a coded plane's residual layer (critical: a reader that does not know it must refuse). */
-export const RESIDUAL = 'RSDL';
+const RESIDUAL = 'RSDL';
 /**
  * Largest scan (pixels) that may carry a residual layer: the decoder holds each coded plane's residual as
  * one float64 plane, so above this (the large-scan encoder's threshold, 2^25) files are base-only.

@@ -20,7 +20,7 @@ export const STACK_VERSION = 2;
 export const MAX_STACK_RANK = 64;
 
 /** One frame of a series: one plane per channel (gray: [Y]; colour: [R, G, B]), on the source scale. */
-export interface StackFrameInput {
+interface StackFrameInput {
   planes: ArrayLike<number>[];
   /** File name or page label, kept in the frame table. */
   name?: string;

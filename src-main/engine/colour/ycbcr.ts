@@ -39,7 +39,7 @@ export const YCBCR_ERROR_WEIGHTS: readonly number[] = [0, 1, 2].map((c) =>
   YCBCR_TO_RGB.reduce((s, row) => s + row[c] * row[c], 0),
 );
 
-export function chromaOffset(bitDepth: 8 | 16): number {
+function chromaOffset(bitDepth: 8 | 16): number {
   return bitDepth === 16 ? 32768 : 128;
 }
 

@@ -14,11 +14,11 @@ import { DEFAULT_SEED, Rng } from './random';
 import { checkRank, type RandomizedSvdOptions, randomizedSvd } from './randomized-svd';
 
 /** HMT eq. (4.3): the factor 10·√(2/π) between the largest probe norm and the bound. */
-export const HMT_ESTIMATE_FACTOR = 10 * Math.sqrt(2 / Math.PI);
+const HMT_ESTIMATE_FACTOR = 10 * Math.sqrt(2 / Math.PI);
 /** Probe vectors r: the estimate holds with probability ≥ 1 − 10⁻ʳ (HMT §4.3). */
-export const DEFAULT_PROBES = 10;
+const DEFAULT_PROBES = 10;
 /** First rank tried; the rank then doubles until the estimate meets the tolerance. */
-export const DEFAULT_INITIAL_RANK = 16;
+const DEFAULT_INITIAL_RANK = 16;
 
 export interface AdaptiveSvdOptions extends RandomizedSvdOptions {
   /** Probe vectors r (failure probability 10⁻ʳ). Default 10, range 1…50. */

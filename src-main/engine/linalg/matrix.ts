@@ -20,7 +20,7 @@ export function matrix<T extends FloatArray = Float64Array>(rows: number, cols: 
   return { rows, cols, data: d };
 }
 
-export function zeros(rows: number, cols: number, precision: Precision = 'f64'): Matrix {
+function zeros(rows: number, cols: number, precision: Precision = 'f64'): Matrix {
   return {
     rows,
     cols,

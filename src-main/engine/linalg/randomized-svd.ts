@@ -23,19 +23,19 @@ import { symmetricEigenvalues } from './symmetric-eigen';
 import { type Backend, bytesFor, defaultBackend, type Workspace } from './workspace';
 
 /** HMT §4.2: "p = 5 or p = 10 is often enough"; 10 keeps the error within ~1% of optimal at q ≥ 2. */
-export const DEFAULT_OVERSAMPLE = 10;
+const DEFAULT_OVERSAMPLE = 10;
 /**
  * Default power iterations q, picked by measured accuracy (bench/engine.bench.ts, σᵢ = 1000/(1+i) + 1):
  * with l = k + p ≤ min(m,n)/8, q = 2 gives Frobenius error ≈ 1.004× the Eckart–Young optimum
  * (1500×2000, k = 50); when l is a larger share of the spectrum its tail is flatter and q = 2 drifts
  * past 1.01× (512², k = 200), so q = 3 is used there (≈ 1.009×).
  */
-export const DEFAULT_POWER_ITERS = 2;
+const DEFAULT_POWER_ITERS = 2;
 /** l beyond min(m,n)/LARGE_BLOCK_FRACTION counts as a large share of the spectrum (one more power step). */
 const LARGE_BLOCK_FRACTION = 8;
 
 /** The q used when `powerIters` is not given, for l = k + p columns and r = min(m, n). */
-export function defaultPowerIters(l: number, r: number): number {
+function defaultPowerIters(l: number, r: number): number {
   return l > r / LARGE_BLOCK_FRACTION ? DEFAULT_POWER_ITERS + 1 : DEFAULT_POWER_ITERS;
 }
 
@@ -77,7 +77,7 @@ export interface RandomizedSvdResult extends SvdResult {
 }
 
 /** Default cap on power steps when the accuracy check asks for more. */
-export const DEFAULT_MAX_POWER_ITERS = 8;
+const DEFAULT_MAX_POWER_ITERS = 8;
 /**
  * Largest per-half-step contraction r̂ = (σ̂_l/σ̂_k)² the estimate uses: the remaining deficit is taken
  * as δ·r̂/(1 − r̂) ≤ 49·δ (a nearly flat spectrum converges slowly, but its optimum is large too).

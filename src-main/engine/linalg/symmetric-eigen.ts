@@ -141,11 +141,7 @@ export function tridiagonalEigenvalues(dIn: Float64Array, eIn: Float64Array): Fl
  * Et is the eigenvector of eigenvalue i. Rows are contiguous, so each rotation updates two rows.
  * Returns the eigenvalues (in no particular order; row i of Et belongs to value i).
  */
-export function tridiagonalEigenvectors(
-  dIn: Float64Array,
-  eIn: Float64Array,
-  Et: Float64Array,
-): Float64Array {
+function tridiagonalEigenvectors(dIn: Float64Array, eIn: Float64Array, Et: Float64Array): Float64Array {
   return tridiagonalQl(dIn, eIn, Et, 'tridiagonalEigenvectors');
 }
 

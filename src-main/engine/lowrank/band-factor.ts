@@ -28,7 +28,7 @@ export function toFloat(p: SampleArray, from: number, to: number, out: Float64Ar
  * rounding of the computed σ₁ (a one-sided Jacobi SVD applies orthogonal rotations, which keep ‖A‖_F to
  * within a few units of roundoff per sweep; common practice, from memory), many orders of magnitude over.
  */
-export const QUIET_MARGIN = 1 - 1e-6;
+const QUIET_MARGIN = 1 - 1e-6;
 
 /**
  * The energy below which a mean-removed tile cannot keep any component at a plane step `step`.

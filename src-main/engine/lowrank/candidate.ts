@@ -177,7 +177,7 @@ export function collectComponents(
  * (the second half of {@link buildCandidate}). Only each tile's σ (its first comps.length values) is read
  * from `inputs`, so tiles whose data and vectors were dropped after quantising still work.
  */
-export function orderCandidate(
+function orderCandidate(
   inputs: PlaneInput[],
   delta: number,
   comps: Comp[][][],

@@ -6,10 +6,10 @@
  */
 
 /** Magnitudes at and above this share one escape code (plus an Elias-gamma-like length for the excess). */
-export const ESC = 16;
+const ESC = 16;
 
 /** Context of an entry: the previous entry's magnitude class, 0, 1, 2 or 3+. */
-export function magClass(a: number): number {
+function magClass(a: number): number {
   return a < 3 ? a : 3;
 }
 

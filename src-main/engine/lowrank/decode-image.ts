@@ -15,7 +15,7 @@ import {
 } from '../codec/image-file';
 import { reconstructRows } from '../codec/quantise';
 import { tileGrid } from '../codec/quantised';
-import { roundInto, ycbcrToRgbSamples } from './colour';
+import { roundInto, ycbcrToRgbSamples } from '../colour';
 
 export interface DecodedRkf {
   header: RkfHeader;

@@ -9,9 +9,9 @@ import type { Budget, DecodedImage } from '../../contract';
 import { UsageError } from '../../contract/errors';
 import { encodePlanes, RESIDUAL_MAX_PIXELS } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
+import { rgbToYcbcr, YCBCR_ERROR_WEIGHTS } from '../colour';
 import { psnrFromSse, psnrPlanes, ssimPlanes } from '../metrics';
 import { AUTO_PROBE_PIXELS, centredCrop } from './centred-crop';
-import { rgbToYcbcr, YCBCR_ERROR_WEIGHTS } from './colour';
 import { decodeImageFile } from './decode-image';
 import { budgetBytes, type EncodeOptions, type EncodeResult, type LayerSummary } from './encode-options';
 import { type EncodedPlanes, errorFigures } from './error-figures';
@@ -20,20 +20,12 @@ import { imageWriter } from './image-writer';
 import { type Plan, type PlaneInput, solveBytes, solveError, solveRank } from './solve';
 import { chooseLayers, emptyBase, type LayerPlan } from './two-layer';
 
-export {
-  budgetBytes,
-  type EncodeOptions,
-  type EncodeResult,
-  type LayerSummary,
-  type PlaneRankSummary,
-} from './encode-options';
-
 /** Tile sides `--tile auto` tries. */
-export const AUTO_TILES = [32, 64, 128] as const;
+const AUTO_TILES = [32, 64, 128] as const;
 /** Relative quantisation loss allowed at a fixed rank: 2.3% of the truncation error ≈ 0.1 dB. */
-export const RANK_QUANT_LOSS = 0.023;
+const RANK_QUANT_LOSS = 0.023;
 /** Per-sample quantisation MSE floor at a fixed rank (grey levels² on the 8-bit scale). */
-export const RANK_QUANT_FLOOR_MSE = 0.01;
+const RANK_QUANT_FLOOR_MSE = 0.01;
 
 function maxOf(bitDepth: 8 | 16): number {
   return bitDepth === 16 ? 65535 : 255;

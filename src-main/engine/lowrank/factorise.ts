@@ -50,9 +50,9 @@ export interface FactorOptions {
  * level, see ../shared/design/PERFORMANCE-NOTES.md), and an a-posteriori check that adds power steps
  * (up to 8) while the estimated Frobenius error exceeds 1.01× the Eckart–Young optimum.
  */
-export const PLANE_POWER_ITERS = 2;
+const PLANE_POWER_ITERS = 2;
 export const PLANE_ACCURACY = 1.01;
-export const PLANE_MAX_POWER_ITERS = 8;
+const PLANE_MAX_POWER_ITERS = 8;
 /**
  * Oversampling p of the whole-plane path: at least 20, with l = k + p rounded up to a multiple of 8 (the
  * f32 kernel's register block is 4×8, so a 61-column block pays a scalar tail column). Measured on the
@@ -61,7 +61,7 @@ export const PLANE_MAX_POWER_ITERS = 8;
  * product flops, where q = 4 with p = 10 (67 % more) gives 1.0004× and 0.4 %. The report's Eckart–Young
  * figures (σ_{k+1}, the Frobenius optimum) come from these σ̂, so they need the accuracy too.
  */
-export const PLANE_MIN_OVERSAMPLE = 20;
+const PLANE_MIN_OVERSAMPLE = 20;
 
 /** Oversampling for a k-column whole-plane factorisation of a plane whose short side is r. */
 export function planeOversample(k: number, r: number): number {

@@ -16,7 +16,7 @@ import type { QuantPlane } from '../codec/quantised';
 import type { EncodeOptions } from './encode-options';
 
 /** A residual layer: the pixel-domain step and the wavelet plane coder's bytes of each coded plane. */
-export interface ResidualLayer {
+interface ResidualLayer {
   steps: number[];
   bytes: Uint8Array[];
 }

@@ -23,7 +23,7 @@ import {
 export { buildCandidate, type PlaneInput, prefixRanks, quantPlanes };
 
 /** Steps tried: base·2^(k/2), base = one grey level of the plane scale. */
-export function stepGrid(maxValue: number): number[] {
+function stepGrid(maxValue: number): number[] {
   const base = maxValue / 255;
   const out: number[] = [];
   for (let k = -6; k <= 16; k++) out.push(base * 2 ** (k / 2));

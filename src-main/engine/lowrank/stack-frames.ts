@@ -11,8 +11,8 @@ import {
   type PreparedStack,
   type StackInput,
 } from '../codec/stack-header';
+import { rgbToYcbcr, toSamples, ycbcrToRgb } from '../colour';
 import { eigenFrameOf, frameModeSvd } from '../stack/frame-svd';
-import { rgbToYcbcr, toSamples, ycbcrToRgb } from './colour';
 
 /** Planes back to source samples: YCbCr → RGB for colour, then round and clamp. */
 function toSourceSamples(planes: Float64Array[], channels: 1 | 3, bitDepth: 8 | 16): Float32Array[] {

@@ -23,6 +23,7 @@ import type { Budget, DecodedImage } from '../../contract';
 import { UsageError } from '../../contract/errors';
 import { readImageHeader } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
+import { rgbToYcbcr, YCBCR_ERROR_WEIGHTS } from '../colour';
 import { factorBand, PRUNE_SLOPE, quietEnergy, quietSpectral, toFloat, usefulPrefix } from './band-factor';
 import {
   buildCandidate,
@@ -34,7 +35,6 @@ import {
   prefixForBytes,
 } from './candidate';
 import { centredCrop } from './centred-crop';
-import { rgbToYcbcr, YCBCR_ERROR_WEIGHTS } from './colour';
 import type { SampleArray } from './decode-image';
 import { encodeScan } from './encode';
 import {

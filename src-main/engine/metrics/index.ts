@@ -10,4 +10,4 @@ export {
   spectralBound,
 } from './eckart-young';
 export { frobeniusError, mse, psnr, psnrFromMse, psnrFromSse, psnrPlanes, SseStream, sse } from './psnr';
-export { gaussianTaps, SSIM_DEFAULTS, type SsimOptions, SsimStream, ssim, ssimPlanes } from './ssim';
+export { SsimStream, ssim, ssimPlanes } from './ssim';

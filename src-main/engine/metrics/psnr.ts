@@ -12,7 +12,7 @@
 import { invalidParameterError } from '../../contract';
 
 /** Check two planes have the same, non-zero length. Returns that length. */
-export function checkSameLength(a: ArrayLike<number>, b: ArrayLike<number>, what = 'planes'): number {
+function checkSameLength(a: ArrayLike<number>, b: ArrayLike<number>, what = 'planes'): number {
   if (a.length !== b.length)
     throw invalidParameterError(
       what,
@@ -109,7 +109,7 @@ export function psnrPlanes(a: ArrayLike<number>[], b: ArrayLike<number>[], maxVa
   return psnrFromMse(total / count, maxValue);
 }
 
-export function checkMaxValue(maxValue: number): void {
+function checkMaxValue(maxValue: number): void {
   if (!(typeof maxValue === 'number' && Number.isFinite(maxValue) && maxValue > 0))
     throw invalidParameterError('maxValue', 'finite number > 0', maxValue);
 }

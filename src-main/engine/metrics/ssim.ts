@@ -30,10 +30,10 @@ export interface SsimOptions {
   radius?: number;
 }
 
-export const SSIM_DEFAULTS: Required<SsimOptions> = { k1: 0.01, k2: 0.03, sigma: 1.5, radius: 5 };
+const SSIM_DEFAULTS: Required<SsimOptions> = { k1: 0.01, k2: 0.03, sigma: 1.5, radius: 5 };
 
 /** Normalised 1-D Gaussian taps g(i) = exp(−i²/2σ²)/Σ, i = −r…r. */
-export function gaussianTaps(sigma: number, radius: number): Float64Array {
+function gaussianTaps(sigma: number, radius: number): Float64Array {
   const g = new Float64Array(2 * radius + 1);
   let sum = 0;
   for (let i = -radius; i <= radius; i++) {

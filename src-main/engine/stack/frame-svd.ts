@@ -70,7 +70,7 @@ function checkFrames(frames: ArrayLike<number>[], width: number, height: number)
 }
 
 /** Mean frame and per-frame offsets, as used by {@link frameModeSvd}. */
-export function seriesMeans(
+function seriesMeans(
   frames: ArrayLike<number>[],
   width: number,
   height: number,

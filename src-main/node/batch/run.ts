@@ -24,8 +24,6 @@ import { batchFiles, batchSummary } from './summary';
 import { Tally } from './tally';
 import type { ThumbPair } from './thumbs';
 
-export { DEFAULT_TIMEOUT_MS };
-
 export async function runBatch(o: BatchRunOptions): Promise<BatchResult> {
   const run = await startRun(o);
   // One run per manifest (shards have their own manifests and may share OUT_DIR). Taken before --resume reads

@@ -12,12 +12,12 @@ import {
   type TileChoice,
   UsageError,
 } from '../../contract';
-import { DEFAULT_TIMEOUT_MS } from '../batch/run';
+import { DEFAULT_TIMEOUT_MS } from '../batch/run-options';
 import { DEFAULT_PIXEL_LIMIT } from '../image/decode';
 import { BUDGET_OPTION_NAMES, BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from './budget-options';
 import { type OptionSpec, parseCommandArgs } from './command';
 
-export const BATCH_OPTIONS: OptionSpec = {
+const BATCH_OPTIONS: OptionSpec = {
   output: { type: 'string', short: 'o' },
   ...BUDGET_OPTIONS,
   tile: { type: 'string' },
@@ -38,7 +38,7 @@ export const BATCH_OPTIONS: OptionSpec = {
 };
 
 /** Default tile choice when --tile is not given. */
-export const DEFAULT_TILE: TileChoice = 'auto';
+const DEFAULT_TILE: TileChoice = 'auto';
 
 export interface ParsedBatch {
   mode: 'run';

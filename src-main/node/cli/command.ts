@@ -49,6 +49,3 @@ export function parseCommandArgs(command: string, argv: string[], options: Optio
     positionals: parsed.positionals,
   };
 }
-
-/** The cautions live in the contract (src-main/contract/cautions.ts); re-exported for the commands. */
-export { CLEANING_CAUTION, LOSSY_CAUTION } from '../../contract';

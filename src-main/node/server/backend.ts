@@ -26,7 +26,6 @@ import {
   type PickRequest,
   type PickResult,
   type ProgressEvent,
-  RankfoldError,
   type SampleInfo,
   type SaveRequest,
   type SaveResult,
@@ -395,5 +394,3 @@ export class Backend extends EventEmitter {
     if (this.uploadDir) await rm(this.uploadDir, { recursive: true, force: true });
   }
 }
-
-export { RankfoldError };

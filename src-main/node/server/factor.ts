@@ -29,7 +29,7 @@ export function readyEngine(): Promise<unknown> {
 }
 
 /** Truncated SVD of one m×n plane (row-major f32) to rank k, with the engine's randomized SVD. */
-export function planeSvd(
+function planeSvd(
   plane: Float32Array,
   m: number,
   n: number,

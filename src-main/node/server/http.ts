@@ -39,14 +39,6 @@ import {
 } from './http-guards';
 import { resolvePagePath } from './static-files';
 
-export {
-  CONTENT_SECURITY_POLICY,
-  checkHostAndOrigin,
-  checkRequestShape,
-  tokenMatches,
-  uploadName,
-} from './http-guards';
-
 /** Largest JSON request body: requests are small descriptions, never pixel data. */
 const MAX_JSON_BYTES = 1 << 20;
 

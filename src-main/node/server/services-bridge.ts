@@ -14,7 +14,6 @@ import {
   encodeFactorSet,
   type FactorArrays,
   LOSSY_CAUTION,
-  RankfoldError,
   type SaveKind,
   type TileChoice,
   type TileRankMap,
@@ -83,7 +82,7 @@ function planesSet(
 const PAGE_LAYERS = 'base' as const;
 
 /** Encode at a budget; tiled results also return the decoded planes for the page to show. */
-export async function evaluate(
+async function evaluate(
   image: DecodedImage,
   args: { budget: Budget; tile: TileChoice; input: string },
   progress: Progress,
@@ -98,14 +97,14 @@ export async function evaluate(
   return { report: { ...report, input: args.input }, tileRanks, preview };
 }
 
-export interface CleanOutput {
+interface CleanOutput {
   images: ArrayBuffer;
   report: Record<string, unknown>;
   profile: { columns: number[]; rows: number[] };
 }
 
 /** Column and row means of a plane (the stripe profile of what cleaning removed). */
-export function stripeProfile(
+function stripeProfile(
   plane: Float32Array,
   width: number,
   height: number,
@@ -134,7 +133,7 @@ async function cleaner(): Promise<CleanFn> {
   return cleanWithService;
 }
 
-export async function clean(
+async function clean(
   image: DecodedImage,
   args: { settings: CleanSettings },
   progress: Progress,
@@ -158,7 +157,7 @@ export async function clean(
   };
 }
 
-export interface SaveOutput {
+interface SaveOutput {
   data?: ArrayBuffer;
   fileName: string;
   bytes: number;
@@ -174,7 +173,7 @@ function outName(input: string, kind: SaveKind, bitDepth: 8 | 16): string {
 }
 
 /** Write (path given) or return (download) the .rkf, the expanded image or the cleaned image. */
-export async function save(
+async function save(
   image: DecodedImage,
   args: {
     kind: SaveKind;
@@ -251,5 +250,3 @@ export async function sessionServices() {
     ) => Promise<SaveOutput>,
   };
 }
-
-export { RankfoldError };

@@ -29,7 +29,7 @@ import { denoiseInBands } from './clean-bands';
 import { profileCsv, removedPng, type StripeProfiles } from './clean-outputs';
 
 /** The caution carried in every report (same text as the CLI's CLEANING_CAUTION). */
-export const CLEAN_REPORT_CAUTION =
+const CLEAN_REPORT_CAUTION =
   'Cleaning alters pixel data. Keep the original and the removed part where your institution requires it; never clean preservation masters, medical, forensic or legal images without approval.';
 
 export interface CleanHooks {
@@ -49,7 +49,7 @@ export interface CleanedImage {
 }
 
 /** Check and complete options; the messages name the option. */
-export function normaliseCleanOptions(options: Partial<CleanOptions>): CleanOptions {
+function normaliseCleanOptions(options: Partial<CleanOptions>): CleanOptions {
   return checkCleanOptions(options);
 }
 

@@ -24,7 +24,8 @@ import {
 } from '../../contract';
 import type { ByteCompressor, EntropyId } from '../../engine/codec/entropy';
 import { initEngine } from '../../engine/linalg';
-import { budgetBytes, type EncodeResult, encodeScan } from '../../engine/lowrank/encode';
+import { encodeScan } from '../../engine/lowrank/encode';
+import { budgetBytes, type EncodeResult } from '../../engine/lowrank/encode-options';
 import { encodeScanTiled, TILED_PIXELS, tiledEncoderFits } from '../../engine/lowrank/tiled';
 import { decodeImage, hashSamples, probeImage } from '../image/decode';
 import { decodeSamples } from '../image/raw-decode';

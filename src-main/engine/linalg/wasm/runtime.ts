@@ -105,7 +105,7 @@ export function decodeBase64(s: string): Uint8Array<ArrayBuffer> {
 }
 
 /** The kernel module bytes (also used by src-main/node/parallel for its shared-memory twin). */
-export function kernelBytes(): Uint8Array<ArrayBuffer> {
+function kernelBytes(): Uint8Array<ArrayBuffer> {
   return decodeBase64(wasmBase64);
 }
 
@@ -149,11 +149,6 @@ export function activeKernels(): WasmKernels | null {
  */
 export function setWasmDisabled(value: boolean): void {
   disabled = value;
-}
-
-/** Whether numeric functions currently run on WebAssembly. */
-export function wasmActive(): boolean {
-  return !disabled && kernels !== null;
 }
 
 /** Make sure the kernels' memory has at least `bytes` bytes; may detach earlier views of its buffer. */

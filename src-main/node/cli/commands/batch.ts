@@ -5,14 +5,14 @@
  * listed), 1 usage error, or another run holds the output folder's lock. See docs/cli.md.
  */
 import type { BatchEvent, BatchRow, BatchSummary } from '../../../contract';
-import { OPTIONS, rangeText } from '../../../contract';
+import { LOSSY_CAUTION, OPTIONS, rangeText } from '../../../contract';
 import { rowToJson } from '../../batch/manifest';
 import { mergeManifests } from '../../batch/merge';
 import { type ProgressView, terminalProgress } from '../../batch/progress';
 import { runBatch } from '../../batch/run';
 import { batchWorkerFile } from '../../batch/worker-path';
 import { parseBatchArgs } from '../batch-args';
-import { type CliIO, type Command, LOSSY_CAUTION } from '../command';
+import type { CliIO, Command } from '../command';
 
 const HELP = `rankfold batch: compress a whole folder unattended, with a manifest, a CSV and an HTML report.
 

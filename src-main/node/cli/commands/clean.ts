@@ -1,6 +1,7 @@
 /** `rankfold clean IN -o OUT`: remove sensor noise and row/column banding, and show what was removed. */
 import {
   type BandingMode,
+  CLEANING_CAUTION,
   type CleanReport,
   checkCleanOptions,
   type DenoiseMethod,
@@ -12,7 +13,7 @@ import {
   UsageError,
 } from '../../../contract';
 import { cleanFile } from '../../services/clean';
-import { CLEANING_CAUTION, type Command, parseCommandArgs } from '../command';
+import { type Command, parseCommandArgs } from '../command';
 
 const options = {
   output: { type: 'string', short: 'o' },

@@ -4,6 +4,7 @@
  */
 import {
   type Budget,
+  LOSSY_CAUTION,
   OPTIONS,
   parseOptionText,
   rangeText,
@@ -13,7 +14,7 @@ import {
 } from '../../../contract';
 import { compressStackFile } from '../../services/stack';
 import { BUDGET_OPTIONS, parseBudgetOptions } from '../budget-options';
-import { type CliIO, LOSSY_CAUTION, parseCommandArgs } from '../command';
+import { type CliIO, parseCommandArgs } from '../command';
 
 const options = {
   stack: { type: 'boolean' },

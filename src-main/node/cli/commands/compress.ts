@@ -1,8 +1,15 @@
 /** `rankfold compress IN -o OUT.rkf`: write a .rkf file that meets a storage budget or a quality floor. */
-import { type CompressReport, OPTIONS, parseOptionText, rangeText, UsageError } from '../../../contract';
+import {
+  type CompressReport,
+  LOSSY_CAUTION,
+  OPTIONS,
+  parseOptionText,
+  rangeText,
+  UsageError,
+} from '../../../contract';
 import { compressFile } from '../../services/compress';
 import { BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from '../budget-options';
-import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
+import { type CliIO, type Command, parseCommandArgs } from '../command';
 
 const options = {
   output: { type: 'string', short: 'o' },

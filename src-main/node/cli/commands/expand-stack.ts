@@ -3,9 +3,15 @@
  * stack container without decoding the others, or all frames into a folder of numbered PNG files or
  * one multi-page TIFF. Called by expand.ts for `--frame` and for files with the stack layout.
  */
-import { OPTIONS, parseOptionText, type StackExpandReport, UsageError } from '../../../contract';
+import {
+  LOSSY_CAUTION,
+  OPTIONS,
+  parseOptionText,
+  type StackExpandReport,
+  UsageError,
+} from '../../../contract';
 import { expandStackFile, isStackFile } from '../../services/stack';
-import { type CliIO, LOSSY_CAUTION, parseCommandArgs } from '../command';
+import { type CliIO, parseCommandArgs } from '../command';
 
 const options = {
   output: { type: 'string', short: 'o' },

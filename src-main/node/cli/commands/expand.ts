@@ -1,8 +1,15 @@
 /** `rankfold expand IN.rkf -o OUT.png|OUT.tif`: decode a container back to PNG or TIFF. */
-import { type ExpandReport, OPTIONS, OutputError, parseOptionText, UsageError } from '../../../contract';
+import {
+  type ExpandReport,
+  LOSSY_CAUTION,
+  OPTIONS,
+  OutputError,
+  parseOptionText,
+  UsageError,
+} from '../../../contract';
 import { expandFile } from '../../services/expand';
 import { containerDamage } from '../../services/stack';
-import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
+import { type CliIO, type Command, parseCommandArgs } from '../command';
 
 const options = {
   output: { type: 'string', short: 'o' },

@@ -2,10 +2,10 @@ import { spawn } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { OPTIONS, parseOptionText, RankfoldError } from '../../../contract';
+import { LOSSY_CAUTION, OPTIONS, parseOptionText, RankfoldError } from '../../../contract';
 import { Backend } from '../../server/backend';
 import { startServer } from '../../server/http';
-import { type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
+import { type Command, parseCommandArgs } from '../command';
 
 const help = `Usage: rankfold serve [--port P] [--no-open]
 
