@@ -8,8 +8,8 @@ import uPlot from 'uplot';
 import { axisRoom, compactTick, tickSpace } from './chart-axes';
 import type { LowRankModel } from './model';
 
-export const MARK_RANK = '#c4531d';
-export const MARK_BUDGET = '#2f7d6d';
+const MARK_RANK = '#c4531d';
+const MARK_BUDGET = '#2f7d6d';
 const AXIS_FONT = '11px system-ui, sans-serif';
 const INK = '#3b4656';
 
@@ -28,7 +28,7 @@ const decades = (log?: boolean) =>
   log ? { filter: (_u: uPlot, splits: number[]) => splits.map((v) => (isDecade(v) ? v : null)) } : {};
 
 /** An axis with a titled unit, compact tick labels (decades only on a log scale) and room for both. */
-export function axis(o: {
+function axis(o: {
   scale?: string;
   label: string;
   side?: 1 | 3;
@@ -81,7 +81,7 @@ function recordAxisBoxes(u: uPlot) {
 }
 
 /** Size a plot so that it, its title and its legend fill the host (no clipped axis or legend row). */
-export function fitPlot(plot: uPlot | undefined, host: HTMLElement): void {
+function fitPlot(plot: uPlot | undefined, host: HTMLElement): void {
   if (!plot) return;
   const around = [...plot.root.children].reduce(
     (h, c) => h + (c.classList.contains('u-wrap') ? 0 : (c as HTMLElement).offsetHeight),

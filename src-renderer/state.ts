@@ -11,7 +11,7 @@ import type { LowRankModel } from './model';
 export type Showing = 'model' | 'cleaned' | 'removed';
 
 /** An open stack file: the frame on screen, the one the slider asks for, and the fetch in flight. */
-export interface StackState {
+interface StackState {
   path?: string;
   info?: StackFrameInfo;
   want: number;

@@ -14,8 +14,8 @@ export interface ViewState {
   fitted: boolean;
 }
 
-export const MIN_SCALE = 0.01;
-export const MAX_SCALE = 32;
+const MIN_SCALE = 0.01;
+const MAX_SCALE = 32;
 
 /** The whole image in a canvas of w×h device pixels, centred. */
 export function fitView(w: number, h: number, imgW: number, imgH: number): ViewState {

@@ -37,7 +37,7 @@ function drawDivider(ctx: CanvasRenderingContext2D, x: number, h: number, dpr: n
 }
 
 /** Rank-map colour ramp (../captions.ts RANK_RAMP), t in 0..1. */
-export function ramp(t: number): [number, number, number] {
+function ramp(t: number): [number, number, number] {
   const stops = RANK_RAMP;
   const x = Math.max(0, Math.min(1, t)) * (stops.length - 1);
   const i = Math.min(stops.length - 2, Math.floor(x));
