@@ -7,7 +7,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { CLEANING_CAUTION } from '../../src-main/node/cli/command';
+import { CLEANING_CAUTION } from '../../src-main/node/cli/args/command';
 import { main } from '../../src-main/node/cli/main';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { cleanDecoded, cleanFile } from '../../src-main/node/services/clean';

@@ -3,7 +3,7 @@ import { mkdtempSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
-import { LOSSY_CAUTION } from '../../src-main/node/cli/command';
+import { LOSSY_CAUTION } from '../../src-main/node/cli/args/command';
 import { main } from '../../src-main/node/cli/main';
 import { image } from '../helpers/fixtures';
 

@@ -3,7 +3,7 @@
  * Exit codes: 0 success, 1 usage or input error, 2 partial failure (batch). See docs/cli.md.
  */
 import { RankfoldError, UsageError } from '../../contract';
-import type { CliIO, Command } from './command';
+import type { CliIO, Command } from './args/command';
 import { BATCH_V8_FLAGS, followLauncher, needsBatchRelaunch, relaunch } from './relaunch';
 
 const commands: Record<string, { summary: string; load: () => Promise<{ command: Command }> }> = {
@@ -69,7 +69,8 @@ export async function main(argv: string[], io: CliIO): Promise<number> {
   try {
     const { command } = await entry.load();
     if (rest.includes('--help') || rest.includes('-h')) {
-      io.stdout(command.help.endsWith('\n') ? command.help : `${command.help}\n`);
+      const help = command.helpFor ? await command.helpFor(rest) : command.help;
+      io.stdout(help.endsWith('\n') ? help : `${help}\n`);
       return 0;
     }
     return await command.run(rest, io);

@@ -12,7 +12,7 @@ import {
   UsageError,
 } from '../../../contract';
 import { cleanFile } from '../../services/clean';
-import { CLEANING_CAUTION, type Command, parseCommandArgs } from '../command';
+import { CLEANING_CAUTION, type Command, parseCommandArgs } from '../args/command';
 
 const options = {
   output: { type: 'string', short: 'o' },

@@ -12,8 +12,8 @@ import {
   UsageError,
 } from '../../../contract';
 import { compressStackFile } from '../../services/stack';
-import { BUDGET_OPTIONS, parseBudgetOptions } from '../budget-options';
-import { type CliIO, LOSSY_CAUTION, parseCommandArgs } from '../command';
+import { BUDGET_OPTIONS, parseBudgetOptions } from '../args/budget-options';
+import { type CliIO, LOSSY_CAUTION, parseCommandArgs } from '../args/command';
 
 const options = {
   stack: { type: 'boolean' },

@@ -1,8 +1,8 @@
 /** `rankfold compress IN -o OUT.rkf`: write a .rkf file that meets a storage budget or a quality floor. */
 import { type CompressReport, OPTIONS, parseOptionText, rangeText, UsageError } from '../../../contract';
 import { compressFile } from '../../services/compress';
-import { BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from '../budget-options';
-import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
+import { BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from '../args/budget-options';
+import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../args/command';
 
 const options = {
   output: { type: 'string', short: 'o' },
@@ -98,6 +98,9 @@ export const command: Command = {
   name: 'compress',
   summary: 'write a .rkf file that meets a storage budget or quality floor',
   help,
+  async helpFor(argv) {
+    return argv.includes('--stack') ? (await import('./compress-stack')).stackHelp : help;
+  },
   async run(argv, io) {
     if (argv.includes('--stack')) {
       const mod = (await import('./compress-stack')) as {

@@ -5,7 +5,7 @@
  */
 import { OPTIONS, parseOptionText, type StackExpandReport, UsageError } from '../../../contract';
 import { expandStackFile, isStackFile } from '../../services/stack';
-import { type CliIO, LOSSY_CAUTION, parseCommandArgs } from '../command';
+import { type CliIO, LOSSY_CAUTION, parseCommandArgs } from '../args/command';
 
 const options = {
   output: { type: 'string', short: 'o' },

@@ -2,7 +2,7 @@
 import { type ExpandReport, OPTIONS, OutputError, parseOptionText, UsageError } from '../../../contract';
 import { expandFile } from '../../services/expand';
 import { containerDamage } from '../../services/stack';
-import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
+import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../args/command';
 
 const options = {
   output: { type: 'string', short: 'o' },

@@ -9,7 +9,7 @@ import {
 } from '../../../contract';
 import { DEFAULT_PIXEL_LIMIT } from '../../image/decode';
 import { inspectScan } from '../../services/inspect';
-import { type CliIO, type Command, parseCommandArgs } from '../command';
+import { type CliIO, type Command, parseCommandArgs } from '../args/command';
 
 const options = {
   page: { type: 'string' },

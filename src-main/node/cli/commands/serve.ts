@@ -5,7 +5,7 @@ import { fileURLToPath } from 'node:url';
 import { OPTIONS, parseOptionText, RankfoldError } from '../../../contract';
 import { Backend } from '../../server/backend';
 import { startServer } from '../../server/http';
-import { type Command, LOSSY_CAUTION, parseCommandArgs } from '../command';
+import { type Command, LOSSY_CAUTION, parseCommandArgs } from '../args/command';
 
 const help = `Usage: rankfold serve [--port P] [--no-open]
 

@@ -11,9 +11,9 @@ import {
   type Shard,
   type TileChoice,
   UsageError,
-} from '../../contract';
-import { DEFAULT_TIMEOUT_MS } from '../batch/run';
-import { DEFAULT_PIXEL_LIMIT } from '../image/decode';
+} from '../../../contract';
+import { DEFAULT_TIMEOUT_MS } from '../../batch/run';
+import { DEFAULT_PIXEL_LIMIT } from '../../image/decode';
 import { BUDGET_OPTION_NAMES, BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from './budget-options';
 import { type OptionSpec, parseCommandArgs } from './command';
 

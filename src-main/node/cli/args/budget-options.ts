@@ -13,7 +13,7 @@ import {
   parseOptionText,
   type TileChoice,
   UsageError,
-} from '../../contract';
+} from '../../../contract';
 import type { OptionSpec } from './command';
 
 /** The budget options, in the order messages name them. */

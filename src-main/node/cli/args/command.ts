@@ -1,5 +1,5 @@
 import { type ParseArgsConfig, parseArgs } from 'node:util';
-import { UsageError } from '../../contract';
+import { UsageError } from '../../../contract';
 
 /** Where a command writes. Tests pass their own; the CLI passes process streams. */
 export interface CliIO {
@@ -15,6 +15,8 @@ export interface Command {
   summary: string;
   /** Full help text, printed by `rankfold <name> --help`. */
   help: string;
+  /** The help for these arguments when it depends on them (`compress --stack --help`); else `help`. */
+  helpFor?(argv: string[]): Promise<string>;
   run(argv: string[], io: CliIO): Promise<number>;
 }
 
@@ -51,4 +53,4 @@ export function parseCommandArgs(command: string, argv: string[], options: Optio
 }
 
 /** The cautions live in the contract (src-main/contract/cautions.ts); re-exported for the commands. */
-export { CLEANING_CAUTION, LOSSY_CAUTION } from '../../contract';
+export { CLEANING_CAUTION, LOSSY_CAUTION } from '../../../contract';
