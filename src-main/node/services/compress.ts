@@ -25,6 +25,7 @@ import {
 import type { ByteCompressor, EntropyId } from '../../engine/codec/entropy';
 import { initEngine } from '../../engine/linalg';
 import { budgetBytes, type EncodeResult, encodeScan } from '../../engine/lowrank/encode';
+import type { EncodeOptions } from '../../engine/lowrank/encode-options';
 import { encodeScanTiled, TILED_PIXELS, tiledEncoderFits } from '../../engine/lowrank/tiled';
 import { decodeImage, hashSamples, probeImage } from '../image/decode';
 import { decodeSamples } from '../image/raw-decode';
@@ -90,9 +91,7 @@ export async function compressDecoded(
   hooks: CompressHooks & CompressInternals = {},
 ): Promise<{ bytes: Uint8Array; report: CompressReport; result: EncodeResult }> {
   checkCompressOptions(options);
-  const check = () => {
-    if (hooks.signal?.aborted) throw new CancelledError(`compressing ${decoded.file}`);
-  };
+  const check = cancelCheck(hooks, decoded.file);
   check();
   await initEngine();
   // Whole planes: kernels warmed and the thread pool registered, outside timings.factorMs (issue #12 item 3).
@@ -103,17 +102,7 @@ export async function compressDecoded(
       rank: options.budget.kind === 'rank' ? options.budget.rank : undefined,
     });
   const result = encodeScan(decoded, {
-    budget: options.budget,
-    tile: options.tile,
-    entropy: hooks.entropy ?? 'rc',
-    compressors: COMPRESSORS,
-    encoder: ENCODER_NAME,
-    alphaSha256: decoded.hasAlpha
-      ? hashSamples([decoded.planes[decoded.channels - 1]], decoded.bitDepth)
-      : undefined,
-    onProgress: hooks.onProgress ? (stage, fraction) => hooks.onProgress?.({ stage, fraction }) : undefined,
-    checkCancelled: check,
-    now: () => performance.now(),
+    ...encoderSettings(options, hooks, decoded, check),
     layers: options.layers ?? DEFAULT_LAYERS,
   });
   const { width, height } = decoded;
@@ -199,6 +188,33 @@ export async function compressFile(
   };
 }
 
+/** A check that throws CancelledError once the hooks' signal has fired. */
+function cancelCheck(hooks: CompressHooks, file: string): () => void {
+  return () => {
+    if (hooks.signal?.aborted) throw new CancelledError(`compressing ${file}`);
+  };
+}
+
+/** The encoder options both encoders (whole-scan and tiled) take from the request and the hooks. */
+function encoderSettings(
+  options: CompressOptions,
+  hooks: CompressHooks & CompressInternals,
+  img: { hasAlpha: boolean; planes: ArrayLike<number>[]; channels: number; bitDepth: 8 | 16 },
+  check: () => void,
+): EncodeOptions {
+  return {
+    budget: options.budget,
+    tile: options.tile,
+    entropy: hooks.entropy ?? 'rc',
+    compressors: COMPRESSORS,
+    encoder: ENCODER_NAME,
+    alphaSha256: img.hasAlpha ? hashSamples([img.planes[img.channels - 1]], img.bitDepth) : undefined,
+    onProgress: hooks.onProgress ? (stage, fraction) => hooks.onProgress?.({ stage, fraction }) : undefined,
+    checkCancelled: check,
+    now: () => performance.now(),
+  };
+}
+
 /** compressFile for a large scan: integer samples and the tiled encoder (see CompressInternals.tiledAbove). */
 async function compressTiled(
   input: string,
@@ -213,22 +229,10 @@ async function compressTiled(
     );
   const img = await decodeSamples(input, { page: options.page, pixelLimit: options.pixelLimit });
   const decodeMs = performance.now() - t0;
-  const check = () => {
-    if (hooks.signal?.aborted) throw new CancelledError(`compressing ${input}`);
-  };
+  const check = cancelCheck(hooks, input);
   check();
   await initEngine();
-  const result = encodeScanTiled(img, {
-    budget: options.budget,
-    tile: options.tile,
-    entropy: hooks.entropy ?? 'rc',
-    compressors: COMPRESSORS,
-    encoder: ENCODER_NAME,
-    alphaSha256: img.hasAlpha ? hashSamples([img.planes[img.channels - 1]], img.bitDepth) : undefined,
-    onProgress: hooks.onProgress ? (stage, fraction) => hooks.onProgress?.({ stage, fraction }) : undefined,
-    checkCancelled: check,
-    now: () => performance.now(),
-  });
+  const result = encodeScanTiled(img, encoderSettings(options, hooks, img, check));
   check();
   const byteBudget = budgetBytes(options.budget, img);
   if (byteBudget !== undefined && result.bytes.length > byteBudget)
