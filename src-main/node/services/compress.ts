@@ -105,29 +105,9 @@ export async function compressDecoded(
     ...encoderSettings(options, hooks, decoded, check),
     layers: options.layers ?? DEFAULT_LAYERS,
   });
-  const { width, height } = decoded;
   const outputBytes = result.bytes.length;
   const report: CompressReport = {
-    input: decoded.file,
-    output: '',
-    width,
-    height,
-    channels: decoded.channels,
-    bitDepth: decoded.bitDepth,
-    sourceSha256: decoded.sourceSha256,
-    rawBytes: decoded.rawBytes,
-    inputBytes: decoded.inputBytes,
-    outputBytes,
-    ratio: decoded.rawBytes / outputBytes,
-    bpp: (8 * outputBytes) / (width * height),
-    ranks: summariseRanks(result),
-    psnr: result.psnr,
-    ssim: result.ssim,
-    errors: result.errors,
-    timings: { decodeMs: 0, factorMs: round1(result.factorMs), encodeMs: round1(result.encodeMs) },
-    tile: result.ranks[0]?.tile ?? 0,
-    entropy: hooks.entropy ?? 'rc',
-    lossless: result.lossless,
+    ...reportFigures(decoded.file, '', decoded, outputBytes, 0, result, hooks),
     layers: result.layers,
   };
   if (options.compare) {
@@ -242,6 +222,22 @@ async function compressTiled(
     );
   await writeFileAtomic(output, result.bytes, { force: options.force });
   const onDisk = (await stat(output)).size;
+  return reportFigures(input, output, img, onDisk, round1(decodeMs), result, hooks);
+}
+
+/** The report's figures, in the order `--json` prints them, for either encoder's result. */
+function reportFigures(
+  input: string,
+  output: string,
+  img: Pick<
+    DecodedImage,
+    'width' | 'height' | 'channels' | 'bitDepth' | 'sourceSha256' | 'rawBytes' | 'inputBytes'
+  >,
+  outputBytes: number,
+  decodeMs: number,
+  result: Pick<EncodeResult, 'ranks' | 'psnr' | 'ssim' | 'errors' | 'factorMs' | 'encodeMs' | 'lossless'>,
+  hooks: CompressInternals,
+): CompressReport {
   const { width, height } = img;
   return {
     input,
@@ -253,18 +249,14 @@ async function compressTiled(
     sourceSha256: img.sourceSha256,
     rawBytes: img.rawBytes,
     inputBytes: img.inputBytes,
-    outputBytes: onDisk,
-    ratio: img.rawBytes / onDisk,
-    bpp: (8 * onDisk) / (width * height),
+    outputBytes,
+    ratio: img.rawBytes / outputBytes,
+    bpp: (8 * outputBytes) / (width * height),
     ranks: summariseRanks(result),
     psnr: result.psnr,
     ssim: result.ssim,
     errors: result.errors,
-    timings: {
-      decodeMs: round1(decodeMs),
-      factorMs: round1(result.factorMs),
-      encodeMs: round1(result.encodeMs),
-    },
+    timings: { decodeMs, factorMs: round1(result.factorMs), encodeMs: round1(result.encodeMs) },
     tile: result.ranks[0]?.tile ?? 0,
     entropy: hooks.entropy ?? 'rc',
     lossless: result.lossless,

@@ -23,6 +23,19 @@ export interface Command {
 export type OptionSpec = NonNullable<ParseArgsConfig['options']>;
 
 /**
+ * A command's parseArgs declarations from its flags, without dashes: `values` take a value (`--page N`;
+ * the contract's declarations in OPTIONS give the same names), `switches` take none. `output` also
+ * answers to -o.
+ */
+export function flags(values: string, switches = ''): OptionSpec {
+  const spec: OptionSpec = {};
+  for (const name of values.split(' ').filter(Boolean))
+    spec[name] = name === 'output' ? { type: 'string', short: 'o' } : { type: 'string' };
+  for (const name of switches.split(' ').filter(Boolean)) spec[name] = { type: 'boolean' };
+  return spec;
+}
+
+/**
  * Parse a command's arguments with node:util parseArgs, turning its errors into a UsageError that
  * names the command and points at its help.
  */

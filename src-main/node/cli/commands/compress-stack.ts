@@ -13,18 +13,9 @@ import {
 } from '../../../contract';
 import { compressStackFile } from '../../services/stack';
 import { BUDGET_OPTIONS, parseBudgetOptions } from '../args/budget-options';
-import { type CliIO, LOSSY_CAUTION, parseCommandArgs } from '../args/command';
+import { type CliIO, flags, LOSSY_CAUTION, parseCommandArgs } from '../args/command';
 
-const options = {
-  stack: { type: 'boolean' },
-  output: { type: 'string', short: 'o' },
-  ...BUDGET_OPTIONS,
-  frames: { type: 'string' },
-  'no-residuals': { type: 'boolean' },
-  'pixel-limit': { type: 'string' },
-  json: { type: 'boolean' },
-  force: { type: 'boolean' },
-} as const;
+const options = { ...BUDGET_OPTIONS, ...flags('output frames pixel-limit', 'stack no-residuals json force') };
 
 export const stackHelp = `Usage: rankfold compress --stack IN_DIR|IN.tif -o OUT.rkf (--budget SIZE | --bpp X | --rank K | --min-psnr DB | --min-ssim S) [options]
 

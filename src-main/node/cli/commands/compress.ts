@@ -2,20 +2,12 @@
 import { type CompressReport, OPTIONS, parseOptionText, rangeText, UsageError } from '../../../contract';
 import { compressFile } from '../../services/compress';
 import { BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from '../args/budget-options';
-import { type CliIO, type Command, LOSSY_CAUTION, parseCommandArgs } from '../args/command';
+import { type CliIO, type Command, flags, LOSSY_CAUTION, parseCommandArgs } from '../args/command';
 
 const options = {
-  output: { type: 'string', short: 'o' },
   ...BUDGET_OPTIONS,
-  tile: { type: 'string' },
-  layers: { type: 'string' },
-  page: { type: 'string' },
-  'pixel-limit': { type: 'string' },
-  json: { type: 'boolean' },
-  force: { type: 'boolean' },
-  compare: { type: 'boolean' },
-  stack: { type: 'boolean' },
-} as const;
+  ...flags('output tile layers page pixel-limit', 'json force compare stack'),
+};
 
 const help = `Usage: rankfold compress IN -o OUT.rkf (--rank K | --budget SIZE | --bpp X | --min-psnr DB | --min-ssim S) [options]
 
