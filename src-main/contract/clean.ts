@@ -10,7 +10,8 @@ type BandingDirectionResult = 'none' | 'rows' | 'columns' | 'both';
 /** 'groups' = block-matched patch groups (default); 'tiles' = overlapping tiles with Hann blending. */
 export type DenoiseMethod = 'groups' | 'tiles';
 
-export interface CleanOptions {
+/** What the cleaning pipeline itself needs (engine/clean/pipeline.ts takes exactly these). */
+export interface CleanMethodOptions {
   noise: NoiseMode;
   banding: BandingMode;
   /** Keep exactly this many singular components per group/tile instead of the Gavish–Donoho threshold. */
@@ -24,6 +25,9 @@ export interface CleanOptions {
   groupSize?: number;
   /** Tile side (tiles method), 8–128; automatic when omitted. */
   tile?: number;
+}
+
+export interface CleanOptions extends CleanMethodOptions {
   /** Worker threads for denoising: 0 = in this thread; default 2. Output is identical for any count. */
   workers?: number;
   /** TIFF page, 0-based. */

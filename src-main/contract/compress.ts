@@ -34,16 +34,17 @@ export interface CompressOptions {
 /** One split of the byte budget between the layers that the two-layer search tried. */
 interface LayerCandidateReport {
   kind: 'base-only' | 'residual-only' | 'mixed';
+  /** What it cost: the whole file, and its base and residual layers. */
+  fileBytes: number;
+  baseBytes: number;
+  residualBytes: number;
+  /** Weighted squared error before rounding (the residual's estimated in the wavelet domain). */
+  sse: number;
   /** Slope multiplier of a mixed candidate (the base keeps components at least κ·λ steep). */
   kappa?: number;
   /** Kept components over every tile and plane of the base. */
   baseComponents: number;
-  baseBytes: number;
-  residualBytes: number;
   residualStep?: number;
-  fileBytes: number;
-  /** Weighted squared error before rounding (the residual's estimated in the wavelet domain). */
-  sse: number;
 }
 
 /** Bytes per layer of the written file, and how the split was chosen. */

@@ -6,7 +6,7 @@
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { type ParsedBatch, parseBatchArgs } from '../../src-main/node/cli/batch-args';
+import { type ParsedBatch, parseBatchArgs } from '../../src-main/node/cli/args/batch-args';
 import { repoRoot } from '../helpers/fixtures';
 
 const doc = readFileSync(join(repoRoot, 'docs', 'scale.md'), 'utf8');

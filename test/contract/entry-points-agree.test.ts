@@ -16,7 +16,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { type Budget, type RankfoldError, UsageError } from '../../src-main/contract';
 import { registerIpc } from '../../src-main/electron/ipc';
 import { Rng } from '../../src-main/engine/linalg/random';
-import type { CliIO } from '../../src-main/node/cli/command';
+import type { CliIO } from '../../src-main/node/cli/args/command';
 import { command as cleanCommand } from '../../src-main/node/cli/commands/clean';
 import { command as compressCommand } from '../../src-main/node/cli/commands/compress';
 import { call, startTestServer, type TestServer } from '../server/harness';

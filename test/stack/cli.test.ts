@@ -8,7 +8,7 @@ import sharp, { type SharpOptions } from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { driftingSpecimen, formPages } from '../../bench/models/synthetic';
 import type { StackReport } from '../../src-main/contract';
-import type { CliIO } from '../../src-main/node/cli/command';
+import type { CliIO } from '../../src-main/node/cli/args/command';
 import { main } from '../../src-main/node/cli/main';
 import { compressStack, decodeStackFrame } from '../../src-main/node/services/stack';
 import { naturalCompare } from '../../src-main/node/services/stack-series';
@@ -58,6 +58,18 @@ beforeAll(async () => {
   writeFileSync(join(frames, 'notes.txt'), 'not an image');
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+describe('compress --stack --help', () => {
+  it('prints the stack help, not the single-image help', async () => {
+    const { code, out } = await run('compress', '--stack', '--help');
+    expect(code).toBe(0);
+    expect(out.split('\n')[0]).toBe(
+      'Usage: rankfold compress --stack IN_DIR|IN.tif -o OUT.rkf (--budget SIZE | --bpp X | --rank K | --min-psnr DB | --min-ssim S) [options]',
+    );
+    const single = await run('compress', '--help');
+    expect(single.out.split('\n')[0]).toMatch(/^Usage: rankfold compress IN -o OUT\.rkf/);
+  });
+});
 
 describe('compress --stack (folder)', () => {
   it('natural sort puts page-2 before page-10 (ECMA-402 numeric collation)', () => {

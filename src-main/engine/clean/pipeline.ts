@@ -3,7 +3,7 @@
  * threads over row bands: prepareClean (banding, noise level, sizes) → denoise bands → finishClean
  * (back to RGB, rounding, removed part, report figures). Pure: no Node, no I/O.
  */
-import type { BandingMode, BandingReport, DenoiseMethod, NoiseMode, NoisePlaneReport } from '../../contract';
+import type { BandingReport, CleanMethodOptions, DenoiseMethod, NoisePlaneReport } from '../../contract';
 import { NOISE_GAIN_YCBCR, rgbToYcbcrBt601, ycbcrBt601ToRgb } from '../colour';
 import { psnrPlanes } from '../metrics';
 import { analyseBanding, type BandingAnalysis, subtractProfiles } from './banding';
@@ -27,16 +27,8 @@ export interface CleanInput {
   planes: Float32Array[];
 }
 
-export interface CleanSettings {
-  noise: NoiseMode;
-  banding: BandingMode;
-  rank?: number;
-  threshold?: number;
-  method?: DenoiseMethod;
-  patch?: number;
-  groupSize?: number;
-  tile?: number;
-}
+/** The options the pipeline takes: declared once in the contract. */
+export type CleanSettings = CleanMethodOptions;
 
 /** Below this σ (8-bit scale) an estimated noise level is taken as "no noise": 8-bit rounding alone gives 0.29. */
 const MIN_AUTO_SIGMA_8BIT = 0.6;
@@ -115,19 +107,25 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     bandingMs,
     fixed,
   };
-  if (settings.noise === 'off')
-    return {
-      ...base,
-      work: [],
-      workNames: [],
-      sigmas: [],
-      active: [],
-      noiseSigma: null,
-      noiseSource: 'off',
-      method: 'off',
-      params: null,
-      tile: null,
-    };
+  /** The plan when nothing is denoised (noiseSkipped says why, where there is a reason to give). */
+  const noDenoise = (
+    noiseSigma: number | null,
+    noiseSource: PreparedClean['noiseSource'],
+    noiseSkipped?: string,
+  ): PreparedClean => ({
+    ...base,
+    work: [],
+    workNames: [],
+    sigmas: [],
+    active: [],
+    noiseSigma,
+    noiseSource,
+    ...(noiseSkipped === undefined ? {} : { noiseSkipped }),
+    method: 'off',
+    params: null,
+    tile: null,
+  });
+  if (settings.noise === 'off') return noDenoise(null, 'off');
   const work = colour
     ? rgbToYcbcrBt601(corrected[0], corrected[1], corrected[2], (maxValue + 1) / 2)
     : [corrected[0]];
@@ -159,19 +157,11 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
   const method = settings.method ?? 'groups';
   const fixedOverride = settings.rank !== undefined || settings.threshold !== undefined;
   if (noiseSource === 'estimated' && sigma8 < MIN_AUTO_SIGMA_8BIT && !fixedOverride)
-    return {
-      ...base,
-      work: [],
-      workNames: [],
-      sigmas: [],
-      active: [],
+    return noDenoise(
       noiseSigma,
       noiseSource,
-      noiseSkipped: `estimated noise σ ${noiseSigma.toFixed(2)} is below ${((MIN_AUTO_SIGMA_8BIT * maxValue) / 255).toFixed(2)} grey levels (rounding level); nothing to remove`,
-      method: 'off',
-      params: null,
-      tile: null,
-    };
+      `estimated noise σ ${noiseSigma.toFixed(2)} is below ${((MIN_AUTO_SIGMA_8BIT * maxValue) / 255).toFixed(2)} grey levels (rounding level); nothing to remove`,
+    );
   if (method === 'tiles') {
     const tile = settings.tile ?? autoTileSize(sigma8);
     return { ...base, work, workNames, sigmas, active, noiseSigma, noiseSource, method, params: null, tile };

@@ -139,22 +139,8 @@ function jacobi(a: Matrix, vectors: boolean, ws?: Workspace): { s: Float64Array;
         const t = Math.sign(zeta || 1) / (Math.abs(zeta) + Math.sqrt(1 + zeta * zeta));
         const c = 1 / Math.sqrt(1 + t * t);
         const s = c * t;
-        for (let i = 0; i < rows; i++) {
-          const x = W[po + i];
-          const y = W[qo + i];
-          W[po + i] = c * x - s * y;
-          W[qo + i] = s * x + c * y;
-        }
-        if (Vt) {
-          const vp = p * n;
-          const vq = q * n;
-          for (let i = 0; i < n; i++) {
-            const x = Vt[vp + i];
-            const y = Vt[vq + i];
-            Vt[vp + i] = c * x - s * y;
-            Vt[vq + i] = s * x + c * y;
-          }
-        }
+        rotate(W, po, qo, rows, c, s);
+        if (Vt) rotate(Vt, p * n, q * n, n, c, s);
       }
     }
     if (!rotated) break;
@@ -209,4 +195,14 @@ function completeOrthonormal(U: Float64Array, m: number, n: number, s: Float64Ar
   for (let i = 0; i < m; i++) for (let j = 0; j < n; j++) M[i * n + j] = j < g ? U[i * n + j] : rng.normal();
   householderQr(M, m, n);
   for (let i = 0; i < m; i++) for (let j = g; j < n; j++) U[i * n + j] = M[i * n + j];
+}
+
+/** Plane rotation of two stored columns: (x, y) ← (c·x − s·y, s·x + c·y) for the `len` entries at p and q. */
+function rotate(X: Float64Array, p: number, q: number, len: number, c: number, s: number): void {
+  for (let i = 0; i < len; i++) {
+    const x = X[p + i];
+    const y = X[q + i];
+    X[p + i] = c * x - s * y;
+    X[q + i] = s * x + c * y;
+  }
 }

@@ -72,14 +72,7 @@ export function lanczosBidiagonalize(
       for (let k = 0; k < n; k++) s += Y[row + k] * V[vj + k];
       tmp[i] = s;
     }
-    for (let q = 0; q < j; q++) {
-      let d = 0;
-      for (let i = 0; i < m; i++) d += U[q * m + i] * tmp[i];
-      for (let i = 0; i < m; i++) tmp[i] -= d * U[q * m + i];
-    }
-    let a = 0;
-    for (let i = 0; i < m; i++) a += tmp[i] * tmp[i];
-    a = Math.sqrt(a);
+    const a = orthogonalNorm(U, j, tmp, m);
     if (a <= tiny) break;
     alpha[j] = a;
     for (let i = 0; i < m; i++) U[uj + i] = tmp[i] / a;
@@ -92,14 +85,7 @@ export function lanczosBidiagonalize(
       const row = i * n;
       for (let k = 0; k < n; k++) tmp[k] += Y[row + k] * ui;
     }
-    for (let q = 0; q <= j; q++) {
-      let d = 0;
-      for (let k = 0; k < n; k++) d += V[q * n + k] * tmp[k];
-      for (let k = 0; k < n; k++) tmp[k] -= d * V[q * n + k];
-    }
-    let b = 0;
-    for (let k = 0; k < n; k++) b += tmp[k] * tmp[k];
-    b = Math.sqrt(b);
+    const b = orthogonalNorm(V, j + 1, tmp, n);
     beta[j] = b;
     if (b <= tiny) {
       for (let k = 0; k < n; k++) V[vn + k] = 0;
@@ -140,4 +126,19 @@ export function ritzAbove(alpha: Float64Array, beta: Float64Array, k: number, x:
     if (q < 0) below++;
   }
   return k - below;
+}
+
+/**
+ * Take out of tmp[0…len) its part along each of the first `count` vectors of B (length `len`, stored one
+ * after another; classical Gram–Schmidt, one pass) and return the norm of what is left.
+ */
+function orthogonalNorm(B: Float64Array, count: number, tmp: Float64Array, len: number): number {
+  for (let q = 0; q < count; q++) {
+    let d = 0;
+    for (let i = 0; i < len; i++) d += B[q * len + i] * tmp[i];
+    for (let i = 0; i < len; i++) tmp[i] -= d * B[q * len + i];
+  }
+  let norm2 = 0;
+  for (let i = 0; i < len; i++) norm2 += tmp[i] * tmp[i];
+  return Math.sqrt(norm2);
 }

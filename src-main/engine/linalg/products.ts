@@ -17,6 +17,12 @@ function alloc(p: Precision, n: number): FloatArray {
   return p === 'f32' ? new Float32Array(n) : new Float64Array(n);
 }
 
+/** The public product of one kind: precision as {@link outPrecision}, the default backend unless given. */
+const product =
+  (kind: 'ab' | 'atb' | 'abt') =>
+  (a: Matrix, b: Matrix, precision?: Precision, backend: Backend = defaultBackend()): Matrix =>
+    run(kind, a, b, precision, backend);
+
 function run(
   kind: 'ab' | 'atb' | 'abt',
   a: Matrix,
@@ -58,31 +64,10 @@ function run(
  * @throws RangeError when the inner dimensions differ.
  * @example const C = matmul(A, B);
  */
-export function matmul(
-  a: Matrix,
-  b: Matrix,
-  precision?: Precision,
-  backend: Backend = defaultBackend(),
-): Matrix {
-  return run('ab', a, b, precision, backend);
-}
+export const matmul = product('ab');
 
 /** C = Aᵀ·B without forming Aᵀ. @throws RangeError when a.rows ≠ b.rows. */
-export function matmulTransA(
-  a: Matrix,
-  b: Matrix,
-  precision?: Precision,
-  backend: Backend = defaultBackend(),
-): Matrix {
-  return run('atb', a, b, precision, backend);
-}
+export const matmulTransA = product('atb');
 
 /** C = A·Bᵀ. @throws RangeError when a.cols ≠ b.cols. */
-export function matmulTransB(
-  a: Matrix,
-  b: Matrix,
-  precision?: Precision,
-  backend: Backend = defaultBackend(),
-): Matrix {
-  return run('abt', a, b, precision, backend);
-}
+export const matmulTransB = product('abt');

@@ -155,35 +155,21 @@ function wasmWorkspace(kernels: WasmKernels, bytes: number): Workspace {
       gemmTs(m, n, k, a, aOff, rsA, csA, b, bOff, ldb, c, cOff, ldc, accumulate);
       return;
     }
-    const e = kernels.exports;
-    if (a instanceof Float32Array)
-      e.gemmF32(
-        m,
-        n,
-        k,
-        a.byteOffset + 4 * aOff,
-        rsA,
-        csA,
-        b.byteOffset + 4 * bOff,
-        ldb,
-        c.byteOffset + 4 * cOff,
-        ldc,
-        accumulate ? 1 : 0,
-      );
-    else
-      e.gemmF64(
-        m,
-        n,
-        k,
-        a.byteOffset + 8 * aOff,
-        rsA,
-        csA,
-        b.byteOffset + 8 * bOff,
-        ldb,
-        c.byteOffset + 8 * cOff,
-        ldc,
-        accumulate ? 1 : 0,
-      );
+    const bpe = a instanceof Float32Array ? 4 : 8;
+    const kernel = bpe === 4 ? kernels.exports.gemmF32 : kernels.exports.gemmF64;
+    kernel(
+      m,
+      n,
+      k,
+      a.byteOffset + bpe * aOff,
+      rsA,
+      csA,
+      b.byteOffset + bpe * bOff,
+      ldb,
+      c.byteOffset + bpe * cOff,
+      ldc,
+      accumulate ? 1 : 0,
+    );
   };
   return {
     label: 'wasm',

@@ -94,12 +94,7 @@ export function psnr(a: ArrayLike<number>, b: ArrayLike<number>, maxValue: numbe
 
 /** PSNR over several channels: the MSE is pooled over all samples of all channels (as skimage does for colour). */
 export function psnrPlanes(a: ArrayLike<number>[], b: ArrayLike<number>[], maxValue: number): number {
-  if (a.length !== b.length || a.length === 0)
-    throw invalidParameterError(
-      'planes',
-      `two non-empty lists of equal length (got ${a.length} and ${b.length})`,
-      b.length,
-    );
+  checkPlaneLists(a, b);
   let total = 0;
   let count = 0;
   for (let c = 0; c < a.length; c++) {
@@ -107,6 +102,16 @@ export function psnrPlanes(a: ArrayLike<number>[], b: ArrayLike<number>[], maxVa
     count += a[c].length;
   }
   return psnrFromMse(total / count, maxValue);
+}
+
+/** @throws UsageError unless a and b are two non-empty lists of planes of equal length. */
+export function checkPlaneLists(a: ArrayLike<number>[], b: ArrayLike<number>[]): void {
+  if (a.length !== b.length || a.length === 0)
+    throw invalidParameterError(
+      'planes',
+      `two non-empty lists of equal length (got ${a.length} and ${b.length})`,
+      b.length,
+    );
 }
 
 function checkMaxValue(maxValue: number): void {

@@ -18,6 +18,7 @@
  * accumulation is in float64.
  */
 import { invalidParameterError } from '../../contract';
+import { checkPlaneLists } from './psnr';
 
 export interface SsimOptions {
   /** K1 stabiliser. Default 0.01 (Wang et al. 2004). */
@@ -61,8 +62,6 @@ export function ssim(
   dataRange: number,
   options: SsimOptions = {},
 ): number {
-  const { k1, k2, sigma, radius } = { ...SSIM_DEFAULTS, ...options };
-  const side = 2 * radius + 1;
   if (!Number.isInteger(width) || !Number.isInteger(height) || width < 1 || height < 1)
     throw invalidParameterError('width and height', 'positive integers', `${width}×${height}`);
   if (a.length !== width * height || b.length !== width * height)
@@ -71,105 +70,10 @@ export function ssim(
       `arrays of width·height = ${width * height} samples (got ${a.length} and ${b.length})`,
       b.length,
     );
-  if (width < side || height < side)
-    throw invalidParameterError(
-      'image size',
-      `at least ${side}×${side} pixels for the SSIM window`,
-      `${width}×${height}`,
-    );
-  if (!(Number.isFinite(dataRange) && dataRange > 0))
-    throw invalidParameterError('dataRange', 'finite number > 0', dataRange);
-  if (!(Number.isInteger(radius) && radius >= 1))
-    throw invalidParameterError('radius', 'integer ≥ 1', radius);
-  if (!(sigma > 0)) throw invalidParameterError('sigma', 'number > 0', sigma);
-
-  const g = gaussianTaps(sigma, radius);
-  const C1 = k1 * dataRange * (k1 * dataRange);
-  const C2 = k2 * dataRange * (k2 * dataRange);
-  const R = radius;
-  const wv = width - 2 * R;
-  const hv = height - 2 * R;
-  // Ring of `side` horizontally filtered rows, five quantities each (x, y, x², y², xy).
-  const stride = 5 * wv;
-  const ring = new Float64Array(side * stride);
-  // One input row and its products, in float64.
-  const rx = new Float64Array(width);
-  const ry = new Float64Array(width);
-  const rxx = new Float64Array(width);
-  const ryy = new Float64Array(width);
-  const rxy = new Float64Array(width);
-  const gc = g[R];
-
-  // The window is symmetric (g[t] = g[2R−t]), so each pass adds mirrored samples before multiplying.
-  const filterRow = (y: number) => {
-    const row = y * width;
-    for (let i = 0; i < width; i++) {
-      const p = a[row + i];
-      const q = b[row + i];
-      rx[i] = p;
-      ry[i] = q;
-      rxx[i] = p * p;
-      ryy[i] = q * q;
-      rxy[i] = p * q;
-    }
-    const off = (y % side) * stride;
-    for (let j = 0; j < wv; j++) {
-      const c = j + R;
-      let sx = gc * rx[c];
-      let sy = gc * ry[c];
-      let sxx = gc * rxx[c];
-      let syy = gc * ryy[c];
-      let sxy = gc * rxy[c];
-      for (let t = 0; t < R; t++) {
-        const w = g[t];
-        const lo = j + t;
-        const hi = j + 2 * R - t;
-        sx += w * (rx[lo] + rx[hi]);
-        sy += w * (ry[lo] + ry[hi]);
-        sxx += w * (rxx[lo] + rxx[hi]);
-        syy += w * (ryy[lo] + ryy[hi]);
-        sxy += w * (rxy[lo] + rxy[hi]);
-      }
-      ring[off + j] = sx;
-      ring[off + wv + j] = sy;
-      ring[off + 2 * wv + j] = sxx;
-      ring[off + 3 * wv + j] = syy;
-      ring[off + 4 * wv + j] = sxy;
-    }
-  };
-
-  let total = 0;
-  for (let y = 0; y < height; y++) {
-    filterRow(y);
-    if (y < side - 1) continue;
-    // Window rows y−2R … y (centre row y−R): ring slots of row y−2R+t.
-    const base = y - side + 1;
-    const oc = ((base + R) % side) * stride;
-    let rowSum = 0;
-    for (let j = 0; j < wv; j++) {
-      let ux = gc * ring[oc + j];
-      let uy = gc * ring[oc + wv + j];
-      let uxx = gc * ring[oc + 2 * wv + j];
-      let uyy = gc * ring[oc + 3 * wv + j];
-      let uxy = gc * ring[oc + 4 * wv + j];
-      for (let t = 0; t < R; t++) {
-        const w = g[t];
-        const lo = ((base + t) % side) * stride + j;
-        const hi = ((base + 2 * R - t) % side) * stride + j;
-        ux += w * (ring[lo] + ring[hi]);
-        uy += w * (ring[lo + wv] + ring[hi + wv]);
-        uxx += w * (ring[lo + 2 * wv] + ring[hi + 2 * wv]);
-        uyy += w * (ring[lo + 3 * wv] + ring[hi + 3 * wv]);
-        uxy += w * (ring[lo + 4 * wv] + ring[hi + 4 * wv]);
-      }
-      const vx = uxx - ux * ux;
-      const vy = uyy - uy * uy;
-      const vxy = uxy - ux * uy;
-      rowSum += ((2 * ux * uy + C1) * (2 * vxy + C2)) / ((ux * ux + uy * uy + C1) * (vx + vy + C2));
-    }
-    total += rowSum;
-  }
-  return total / (wv * hv);
+  // The whole planes as one band: the stream forms every sum in this same order.
+  const stream = new SsimStream(width, height, dataRange, options);
+  stream.addRows(a, b, height);
+  return stream.value();
 }
 
 /** Mean of the per-channel SSIM (as skimage does with `channel_axis`). */
@@ -181,12 +85,7 @@ export function ssimPlanes(
   dataRange: number,
   options: SsimOptions = {},
 ): number {
-  if (a.length !== b.length || a.length === 0)
-    throw invalidParameterError(
-      'planes',
-      `two non-empty lists of equal length (got ${a.length} and ${b.length})`,
-      b.length,
-    );
+  checkPlaneLists(a, b);
   let s = 0;
   for (let c = 0; c < a.length; c++) s += ssim(a[c], b[c], width, height, dataRange, options);
   return s / a.length;

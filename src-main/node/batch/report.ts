@@ -47,12 +47,8 @@ function median(xs: number[]): number | undefined {
 /** Histogram as an inline SVG: `bins` equal-width bins over [min, max] of the finite values. */
 export function histogramSvg(values: number[], label: string, unit: string, bins = 20): string {
   const xs = values.filter(Number.isFinite);
-  const W = 460;
-  const H = 200;
-  const L = 44;
-  const B = 36;
-  const T = 12;
-  const R = 12;
+  // Width and height of the drawing, then its left, bottom, top and right margins (px).
+  const [W, H, L, B, T, R] = [460, 200, 44, 36, 12, 12];
   if (!xs.length) return `<p class="muted">No ${escapeHtml(label)} values to plot.</p>`;
   let lo = Math.min(...xs);
   let hi = Math.max(...xs);

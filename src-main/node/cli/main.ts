@@ -3,38 +3,34 @@
  * Exit codes: 0 success, 1 usage or input error, 2 partial failure (batch). See docs/cli.md.
  */
 import { RankfoldError, UsageError } from '../../contract';
-import type { CliIO, Command } from './command';
+import type { CliIO, Command } from './args/command';
 import { BATCH_V8_FLAGS, followLauncher, needsBatchRelaunch, relaunch } from './relaunch';
 
-const commands: Record<string, { summary: string; load: () => Promise<{ command: Command }> }> = {
-  inspect: {
-    summary: 'show size, depth and the singular-value spectrum of a scan',
-    load: () => import('./commands/inspect'),
-  },
-  compress: {
-    summary: 'write a .rkf file that meets a storage budget or quality floor',
-    load: () => import('./commands/compress'),
-  },
-  expand: { summary: 'decode a .rkf file back to PNG or TIFF', load: () => import('./commands/expand') },
-  clean: {
-    summary: 'remove sensor noise and row/column banding, and show what was removed',
-    load: () => import('./commands/clean'),
-  },
-  batch: {
-    summary: 'compress a whole folder unattended, with a report',
-    load: () => import('./commands/batch'),
-  },
-  serve: {
-    summary: 'open the app in a browser on this machine (127.0.0.1 only)',
-    load: () => import('./commands/serve'),
-  },
+/** Each sub-command's one-line summary, in the order the general help lists them. */
+const summaries: Record<string, string> = {
+  inspect: 'show size, depth and the singular-value spectrum of a scan',
+  compress: 'write a .rkf file that meets a storage budget or quality floor',
+  expand: 'decode a .rkf file back to PNG or TIFF',
+  clean: 'remove sensor noise and row/column banding, and show what was removed',
+  batch: 'compress a whole folder unattended, with a report',
+  serve: 'open the app in a browser on this machine (127.0.0.1 only)',
+};
+
+/** Each sub-command's module, loaded on demand. */
+const loaders: Record<string, () => Promise<{ command: Command }>> = {
+  inspect: () => import('./commands/inspect'),
+  compress: () => import('./commands/compress'),
+  expand: () => import('./commands/expand'),
+  clean: () => import('./commands/clean'),
+  batch: () => import('./commands/batch'),
+  serve: () => import('./commands/serve'),
 };
 
 const VERSION = '0.1.0';
 
 function generalHelp(): string {
-  const width = Math.max(...Object.keys(commands).map((c) => c.length));
-  const lines = Object.entries(commands).map(([name, c]) => `  ${name.padEnd(width)}  ${c.summary}`);
+  const width = Math.max(...Object.keys(summaries).map((c) => c.length));
+  const lines = Object.entries(summaries).map(([name, summary]) => `  ${name.padEnd(width)}  ${summary}`);
   return [
     'Rankfold: compress and clean scans with truncated singular value decomposition.',
     '',
@@ -61,15 +57,16 @@ export async function main(argv: string[], io: CliIO): Promise<number> {
     io.stdout(`${VERSION}\n`);
     return 0;
   }
-  const entry = commands[name];
-  if (!entry) {
-    io.stderr(`rankfold: unknown command "${name}". Commands: ${Object.keys(commands).join(', ')}.\n`);
+  const load = Object.hasOwn(loaders, name) ? loaders[name] : undefined;
+  if (!load) {
+    io.stderr(`rankfold: unknown command "${name}". Commands: ${Object.keys(loaders).join(', ')}.\n`);
     return 1;
   }
   try {
-    const { command } = await entry.load();
+    const { command } = await load();
     if (rest.includes('--help') || rest.includes('-h')) {
-      io.stdout(command.help.endsWith('\n') ? command.help : `${command.help}\n`);
+      const help = command.helpFor ? await command.helpFor(rest) : command.help;
+      io.stdout(help.endsWith('\n') ? help : `${help}\n`);
       return 0;
     }
     return await command.run(rest, io);

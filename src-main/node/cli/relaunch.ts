@@ -5,8 +5,8 @@
  * and two jobs gained only about 1.35× over one (with them: docs/benchmarks.md, "Batch throughput").
  * V8 reads these flags once, when the process starts (changing the garbage collector's threading
  * afterwards, with v8.setFlagsFromString, aborts the process), so `rankfold batch` starts itself again
- * with them, in the same way libvips is held to one thread per job (`sharp.concurrency(1)` in
- * src-main/node/batch/run.ts).
+ * with them, in the same way libvips is held to one thread per job (the batch's `libvipsThreads: 1`,
+ * applied around the run by src-main/node/image/libvips-threads.ts).
  *
  * The launcher only relays: the child inherits stdin/stdout/stderr (the progress bar still sees the
  * terminal), every SIGINT/SIGTERM/SIGHUP the launcher gets is passed on, and the launcher exits with the

@@ -37,39 +37,16 @@ export function toUpright<T extends Float32Array | Float64Array | Uint8Array | U
   const out = new (plane.constructor as new (n: number) => T)(plane.length);
   const ow = swapsAxes(o) ? height : width;
   const oh = swapsAxes(o) ? width : height;
+  // Each orientation is a choice of mirrors of the stored axes, then a transpose for 5–8.
+  const flipX = o === 2 || o === 3 || o === 7 || o === 8;
+  const flipY = o === 3 || o === 4 || o === 6 || o === 7;
+  const transpose = swapsAxes(o);
   for (let y = 0; y < height; y++)
     for (let x = 0; x < width; x++) {
-      let ux: number;
-      let uy: number;
-      switch (o) {
-        case 2:
-          ux = width - 1 - x;
-          uy = y;
-          break;
-        case 3:
-          ux = width - 1 - x;
-          uy = height - 1 - y;
-          break;
-        case 4:
-          ux = x;
-          uy = height - 1 - y;
-          break;
-        case 5:
-          ux = y;
-          uy = x;
-          break;
-        case 6:
-          ux = height - 1 - y;
-          uy = x;
-          break;
-        case 7:
-          ux = height - 1 - y;
-          uy = width - 1 - x;
-          break;
-        default: // 8
-          ux = y;
-          uy = width - 1 - x;
-      }
+      const sx = flipX ? width - 1 - x : x;
+      const sy = flipY ? height - 1 - y : y;
+      const ux = transpose ? sy : sx;
+      const uy = transpose ? sx : sy;
       out[uy * ow + ux] = plane[y * width + x];
     }
   return { plane: out, width: ow, height: oh };

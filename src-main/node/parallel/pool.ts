@@ -31,12 +31,12 @@ import {
   KIND_F32,
   KIND_F64,
   nextRowWord,
-  P,
   PARAM_WORDS,
   SEQ,
   SHUTDOWN,
   STATUS,
   STATUS_OK,
+  writeJob,
 } from './protocol';
 
 /**
@@ -239,22 +239,9 @@ export class LinalgPool implements Backend {
     const chunk = Math.max(4, Math.ceil(m / threads / 8 / 4) * 4);
     const next = nextRowWord(this.workers.length);
     Atomics.store(this.ctrl, next, 0);
-    const prm = this.params;
+    const job = { kind, m, n, k, a: pa, rsA, csA, b: pb, ldb, c: pc, ldc, acc, chunk };
     for (let w = 0; w < this.workers.length; w++) {
-      const q = w * PARAM_WORDS;
-      prm[q + P.kind] = kind;
-      prm[q + P.m] = m;
-      prm[q + P.n] = n;
-      prm[q + P.k] = k;
-      prm[q + P.a] = pa;
-      prm[q + P.rsA] = rsA;
-      prm[q + P.csA] = csA;
-      prm[q + P.b] = pb;
-      prm[q + P.ldb] = ldb;
-      prm[q + P.c] = pc;
-      prm[q + P.ldc] = ldc;
-      prm[q + P.acc] = acc;
-      prm[q + P.chunk] = chunk;
+      writeJob(this.params, w, job);
       Atomics.store(this.ctrl, w * CTRL_WORDS + CLAIM, seq);
       Atomics.store(this.ctrl, w * CTRL_WORDS + SEQ, seq);
       Atomics.notify(this.ctrl, w * CTRL_WORDS + SEQ);

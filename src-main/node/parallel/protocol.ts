@@ -8,8 +8,6 @@
  */
 /** Int32 words per slot in the control array: [seq, done, status, claim]. */
 export const CTRL_WORDS = 4;
-/** Float64 words per slot in the parameter array. */
-export const PARAM_WORDS = 16;
 export const SEQ = 0;
 export const DONE = 1;
 export const STATUS = 2;
@@ -19,8 +17,18 @@ export const STATUS = 2;
  * block withdraws an untaken offer with compareExchange(seq → 0) and need not wait for that worker.
  */
 export const CLAIM = 3;
+/** Index in the control Int32Array of the shared next-row counter, for `workers` worker slots. */
+export const nextRowWord = (workers: number) => workers * CTRL_WORDS;
+/** `seq` value that tells a worker to leave its loop. */
+export const SHUTDOWN = -1;
+/** Worker status after a job: 0 ok, 1 the kernel threw. */
+export const STATUS_OK = 0;
+export const STATUS_ERROR = 1;
+
+/** Float64 words per slot in the parameter array. */
+export const PARAM_WORDS = 16;
 /** Parameter layout (Float64Array, per slot). */
-export const P = {
+const P = {
   kind: 0,
   m: 1,
   n: 2,
@@ -36,16 +44,27 @@ export const P = {
   /** Rows per claimed block (a multiple of 4, the kernels' register block). */
   chunk: 12,
 } as const;
-/** Index in the control Int32Array of the shared next-row counter, for `workers` worker slots. */
-export const nextRowWord = (workers: number) => workers * CTRL_WORDS;
 /** `kind` values. */
 export const KIND_F32 = 0;
 export const KIND_F64 = 1;
-/** `seq` value that tells a worker to leave its loop. */
-export const SHUTDOWN = -1;
-/** Worker status after a job: 0 ok, 1 the kernel threw. */
-export const STATUS_OK = 0;
-export const STATUS_ERROR = 1;
+
+/** One product's parameters (pointers are byte offsets into the shared memory), in the layout {@link P}. */
+export type GemmJob = { -readonly [K in keyof typeof P]: number };
+const FIELDS = Object.keys(P) as (keyof typeof P)[];
+
+/** The caller posts a product to one worker slot. */
+export function writeJob(params: Float64Array, slot: number, job: GemmJob): void {
+  const q = slot * PARAM_WORDS;
+  for (const f of FIELDS) params[q + P[f]] = job[f];
+}
+
+/** A worker reads the product posted to its slot. */
+export function readJob(params: Float64Array, slot: number): GemmJob {
+  const q = slot * PARAM_WORDS;
+  const job = {} as GemmJob;
+  for (const f of FIELDS) job[f] = params[q + P[f]];
+  return job;
+}
 
 export interface LinalgWorkerData {
   memory: WebAssembly.Memory;

@@ -15,6 +15,7 @@ import {
   type FactorArrays,
   LOSSY_CAUTION,
   type SaveKind,
+  type SaveRequest,
   type TileChoice,
   type TileRankMap,
   UsageError,
@@ -175,15 +176,7 @@ function outName(input: string, kind: SaveKind, bitDepth: 8 | 16): string {
 /** Write (path given) or return (download) the .rkf, the expanded image or the cleaned image. */
 async function save(
   image: DecodedImage,
-  args: {
-    kind: SaveKind;
-    budget: Budget;
-    tile: TileChoice;
-    settings?: CleanSettings;
-    path?: string;
-    force?: boolean;
-    input: string;
-  },
+  args: Omit<SaveRequest, 'scanId' | 'job'> & { input: string },
   progress: Progress,
 ): Promise<SaveOutput> {
   const fileName = args.path ? basename(args.path) : outName(args.input, args.kind, image.bitDepth);

@@ -7,6 +7,7 @@
 import { resolve } from 'node:path';
 import {
   CancelledError,
+  CLEANING_CAUTION,
   type CleanOptions,
   type CleanReport,
   checkCleanOptions,
@@ -27,10 +28,6 @@ import { encodeImage, formatFromPath } from '../image/encode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import { denoiseInBands } from './clean-bands';
 import { profileCsv, removedPng, type StripeProfiles } from './clean-outputs';
-
-/** The caution carried in every report (same text as the CLI's CLEANING_CAUTION). */
-const CLEAN_REPORT_CAUTION =
-  'Cleaning alters pixel data. Keep the original and the removed part where your institution requires it; never clean preservation masters, medical, forensic or legal images without approval.';
 
 export interface CleanHooks {
   /** Called with a stage name and the fraction done (0–1) of the whole job. */
@@ -103,7 +100,7 @@ function buildReport(
     removedRms: fin.removedRms,
     workers: prep.method === 'groups' ? workers : 0,
     timings,
-    caution: CLEAN_REPORT_CAUTION,
+    caution: CLEANING_CAUTION,
   };
 }
 

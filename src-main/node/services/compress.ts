@@ -25,7 +25,7 @@ import {
 import type { ByteCompressor, EntropyId } from '../../engine/codec/entropy';
 import { initEngine } from '../../engine/linalg';
 import { encodeScan } from '../../engine/lowrank/encode';
-import { budgetBytes, type EncodeResult } from '../../engine/lowrank/encode-options';
+import { budgetBytes, type EncodeOptions, type EncodeResult } from '../../engine/lowrank/encode-options';
 import { encodeScanTiled, TILED_PIXELS, tiledEncoderFits } from '../../engine/lowrank/tiled';
 import { decodeImage, hashSamples, probeImage } from '../image/decode';
 import { decodeSamples } from '../image/raw-decode';
@@ -91,9 +91,7 @@ export async function compressDecoded(
   hooks: CompressHooks & CompressInternals = {},
 ): Promise<{ bytes: Uint8Array; report: CompressReport; result: EncodeResult }> {
   checkCompressOptions(options);
-  const check = () => {
-    if (hooks.signal?.aborted) throw new CancelledError(`compressing ${decoded.file}`);
-  };
+  const check = cancelCheck(hooks, decoded.file);
   check();
   await initEngine();
   // Whole planes: kernels warmed and the thread pool registered, outside timings.factorMs (issue #12 item 3).
@@ -104,42 +102,12 @@ export async function compressDecoded(
       rank: options.budget.kind === 'rank' ? options.budget.rank : undefined,
     });
   const result = encodeScan(decoded, {
-    budget: options.budget,
-    tile: options.tile,
-    entropy: hooks.entropy ?? 'rc',
-    compressors: COMPRESSORS,
-    encoder: ENCODER_NAME,
-    alphaSha256: decoded.hasAlpha
-      ? hashSamples([decoded.planes[decoded.channels - 1]], decoded.bitDepth)
-      : undefined,
-    onProgress: hooks.onProgress ? (stage, fraction) => hooks.onProgress?.({ stage, fraction }) : undefined,
-    checkCancelled: check,
-    now: () => performance.now(),
+    ...encoderSettings(options, hooks, decoded, check),
     layers: options.layers ?? DEFAULT_LAYERS,
   });
-  const { width, height } = decoded;
   const outputBytes = result.bytes.length;
   const report: CompressReport = {
-    input: decoded.file,
-    output: '',
-    width,
-    height,
-    channels: decoded.channels,
-    bitDepth: decoded.bitDepth,
-    sourceSha256: decoded.sourceSha256,
-    rawBytes: decoded.rawBytes,
-    inputBytes: decoded.inputBytes,
-    outputBytes,
-    ratio: decoded.rawBytes / outputBytes,
-    bpp: (8 * outputBytes) / (width * height),
-    ranks: summariseRanks(result),
-    psnr: result.psnr,
-    ssim: result.ssim,
-    errors: result.errors,
-    timings: { decodeMs: 0, factorMs: round1(result.factorMs), encodeMs: round1(result.encodeMs) },
-    tile: result.ranks[0]?.tile ?? 0,
-    entropy: hooks.entropy ?? 'rc',
-    lossless: result.lossless,
+    ...reportFigures(decoded.file, '', decoded, outputBytes, 0, result, hooks),
     layers: result.layers,
   };
   if (options.compare) {
@@ -200,6 +168,33 @@ export async function compressFile(
   };
 }
 
+/** A check that throws CancelledError once the hooks' signal has fired. */
+function cancelCheck(hooks: CompressHooks, file: string): () => void {
+  return () => {
+    if (hooks.signal?.aborted) throw new CancelledError(`compressing ${file}`);
+  };
+}
+
+/** The encoder options both encoders (whole-scan and tiled) take from the request and the hooks. */
+function encoderSettings(
+  options: CompressOptions,
+  hooks: CompressHooks & CompressInternals,
+  img: { hasAlpha: boolean; planes: ArrayLike<number>[]; channels: number; bitDepth: 8 | 16 },
+  check: () => void,
+): EncodeOptions {
+  return {
+    budget: options.budget,
+    tile: options.tile,
+    entropy: hooks.entropy ?? 'rc',
+    compressors: COMPRESSORS,
+    encoder: ENCODER_NAME,
+    alphaSha256: img.hasAlpha ? hashSamples([img.planes[img.channels - 1]], img.bitDepth) : undefined,
+    onProgress: hooks.onProgress ? (stage, fraction) => hooks.onProgress?.({ stage, fraction }) : undefined,
+    checkCancelled: check,
+    now: () => performance.now(),
+  };
+}
+
 /** compressFile for a large scan: integer samples and the tiled encoder (see CompressInternals.tiledAbove). */
 async function compressTiled(
   input: string,
@@ -214,22 +209,10 @@ async function compressTiled(
     );
   const img = await decodeSamples(input, { page: options.page, pixelLimit: options.pixelLimit });
   const decodeMs = performance.now() - t0;
-  const check = () => {
-    if (hooks.signal?.aborted) throw new CancelledError(`compressing ${input}`);
-  };
+  const check = cancelCheck(hooks, input);
   check();
   await initEngine();
-  const result = encodeScanTiled(img, {
-    budget: options.budget,
-    tile: options.tile,
-    entropy: hooks.entropy ?? 'rc',
-    compressors: COMPRESSORS,
-    encoder: ENCODER_NAME,
-    alphaSha256: img.hasAlpha ? hashSamples([img.planes[img.channels - 1]], img.bitDepth) : undefined,
-    onProgress: hooks.onProgress ? (stage, fraction) => hooks.onProgress?.({ stage, fraction }) : undefined,
-    checkCancelled: check,
-    now: () => performance.now(),
-  });
+  const result = encodeScanTiled(img, encoderSettings(options, hooks, img, check));
   check();
   const byteBudget = budgetBytes(options.budget, img);
   if (byteBudget !== undefined && result.bytes.length > byteBudget)
@@ -239,6 +222,22 @@ async function compressTiled(
     );
   await writeFileAtomic(output, result.bytes, { force: options.force });
   const onDisk = (await stat(output)).size;
+  return reportFigures(input, output, img, onDisk, round1(decodeMs), result, hooks);
+}
+
+/** The report's figures, in the order `--json` prints them, for either encoder's result. */
+function reportFigures(
+  input: string,
+  output: string,
+  img: Pick<
+    DecodedImage,
+    'width' | 'height' | 'channels' | 'bitDepth' | 'sourceSha256' | 'rawBytes' | 'inputBytes'
+  >,
+  outputBytes: number,
+  decodeMs: number,
+  result: Pick<EncodeResult, 'ranks' | 'psnr' | 'ssim' | 'errors' | 'factorMs' | 'encodeMs' | 'lossless'>,
+  hooks: CompressInternals,
+): CompressReport {
   const { width, height } = img;
   return {
     input,
@@ -250,18 +249,14 @@ async function compressTiled(
     sourceSha256: img.sourceSha256,
     rawBytes: img.rawBytes,
     inputBytes: img.inputBytes,
-    outputBytes: onDisk,
-    ratio: img.rawBytes / onDisk,
-    bpp: (8 * onDisk) / (width * height),
+    outputBytes,
+    ratio: img.rawBytes / outputBytes,
+    bpp: (8 * outputBytes) / (width * height),
     ranks: summariseRanks(result),
     psnr: result.psnr,
     ssim: result.ssim,
     errors: result.errors,
-    timings: {
-      decodeMs: round1(decodeMs),
-      factorMs: round1(result.factorMs),
-      encodeMs: round1(result.encodeMs),
-    },
+    timings: { decodeMs, factorMs: round1(result.factorMs), encodeMs: round1(result.encodeMs) },
     tile: result.ranks[0]?.tile ?? 0,
     entropy: hooks.entropy ?? 'rc',
     lossless: result.lossless,

@@ -33,26 +33,30 @@ import { COMPRESSORS } from './compress';
 /** Files larger than this are refused before reading (4 GiB). */
 const MAX_FILE = 2 ** 32;
 
+/** A decoded container and the size of its file. */
+type RkfRead<T> = Promise<{ decoded: T; inputBytes: number }>;
+
 /** Read and decode a container into samples (validating everything). */
-export async function readRkf(
-  input: string,
-  opts: { pixelLimit?: number } = {},
-): Promise<{ decoded: DecodedRkf; inputBytes: number }> {
-  const { bytes, size } = await readRkfBytes(input);
-  const decoded = decodeImageFile(bytes, input, {
-    compressors: COMPRESSORS,
-    maxPixels: opts.pixelLimit ?? MAX_PIXELS,
-  });
-  return { decoded, inputBytes: size };
+export function readRkf(input: string, opts: { pixelLimit?: number } = {}): RkfRead<DecodedRkf> {
+  return readRkfWith(input, opts, decodeImageFile);
 }
 
 /** As {@link readRkf}, with integer samples (1–2 bytes each instead of 4): what `expand` writes from. */
-export async function readRkfSamples(
+export function readRkfSamples(
   input: string,
   opts: { pixelLimit?: number } = {},
-): Promise<{ decoded: DecodedRkfSamples; inputBytes: number }> {
+): RkfRead<DecodedRkfSamples> {
+  return readRkfWith(input, opts, decodeImageFileSamples);
+}
+
+/** Read a container and decode it with `decode` under the pixel limit (default MAX_PIXELS). */
+async function readRkfWith<T>(
+  input: string,
+  opts: { pixelLimit?: number },
+  decode: (bytes: Uint8Array, name: string, o: Parameters<typeof decodeImageFile>[2]) => T,
+): RkfRead<T> {
   const { bytes, size } = await readRkfBytes(input);
-  const decoded = decodeImageFileSamples(bytes, input, {
+  const decoded = decode(bytes, input, {
     compressors: COMPRESSORS,
     maxPixels: opts.pixelLimit ?? MAX_PIXELS,
   });

@@ -13,8 +13,7 @@ import {
   KIND_F32,
   type LinalgWorkerData,
   nextRowWord,
-  P,
-  PARAM_WORDS,
+  readJob,
   SEQ,
   SHUTDOWN,
   STATUS,
@@ -36,7 +35,6 @@ const k = instance.exports as unknown as KernelExports;
 const ctrl = new Int32Array(data.ctrl);
 const params = new Float64Array(data.params);
 const c0 = data.slot * CTRL_WORDS;
-const p0 = data.slot * PARAM_WORDS;
 const next = nextRowWord(ctrl.length / CTRL_WORDS - 1);
 parentPort?.postMessage('ready');
 let seq = Atomics.load(ctrl, c0 + SEQ);
@@ -51,21 +49,10 @@ for (;;) {
   if (Atomics.compareExchange(ctrl, c0 + CLAIM, seq, -seq) !== seq) continue;
   let status = STATUS_OK;
   try {
-    const f32 = params[p0 + P.kind] === KIND_F32;
+    const { kind, m, n, k: kk, a, rsA, csA, b, ldb, c, ldc, acc, chunk } = readJob(params, data.slot);
+    const f32 = kind === KIND_F32;
     const f = f32 ? k.gemmF32 : k.gemmF64;
     const bpe = f32 ? 4 : 8;
-    const m = params[p0 + P.m];
-    const n = params[p0 + P.n];
-    const kk = params[p0 + P.k];
-    const a = params[p0 + P.a];
-    const rsA = params[p0 + P.rsA];
-    const csA = params[p0 + P.csA];
-    const b = params[p0 + P.b];
-    const ldb = params[p0 + P.ldb];
-    const c = params[p0 + P.c];
-    const ldc = params[p0 + P.ldc];
-    const acc = params[p0 + P.acc];
-    const chunk = params[p0 + P.chunk];
     for (let i0 = Atomics.add(ctrl, next, chunk); i0 < m; i0 = Atomics.add(ctrl, next, chunk))
       f(Math.min(chunk, m - i0), n, kk, a + bpe * i0 * rsA, rsA, csA, b, ldb, c + bpe * i0 * ldc, ldc, acc);
   } catch {

@@ -7,34 +7,25 @@
  */
 import { wasmBase64 } from './generated/kernels';
 
+/** C = A·B (+ C when acc is 1) in the kernels' memory; f32 and f64 take the same arguments. */
+type GemmKernel = (
+  m: number,
+  n: number,
+  k: number,
+  a: number,
+  rsA: number,
+  csA: number,
+  b: number,
+  ldb: number,
+  c: number,
+  ldc: number,
+  acc: number,
+) => void;
+
 /** The raw kernel exports. Pointers are byte offsets into `memory`. */
 export interface KernelExports {
-  gemmF32(
-    m: number,
-    n: number,
-    k: number,
-    a: number,
-    rsA: number,
-    csA: number,
-    b: number,
-    ldb: number,
-    c: number,
-    ldc: number,
-    acc: number,
-  ): void;
-  gemmF64(
-    m: number,
-    n: number,
-    k: number,
-    a: number,
-    rsA: number,
-    csA: number,
-    b: number,
-    ldb: number,
-    c: number,
-    ldc: number,
-    acc: number,
-  ): void;
+  gemmF32: GemmKernel;
+  gemmF64: GemmKernel;
   /** One-sided Jacobi sweeps on contiguous columns; returns sweeps used (maxSweeps + 1: not converged). */
   jacobiF64(
     w: number,

@@ -11,8 +11,8 @@ import { mergeManifests } from '../../batch/merge';
 import { type ProgressView, terminalProgress } from '../../batch/progress';
 import { runBatch } from '../../batch/run';
 import { batchWorkerFile } from '../../batch/worker-path';
-import { parseBatchArgs } from '../batch-args';
-import type { CliIO, Command } from '../command';
+import { parseBatchArgs } from '../args/batch-args';
+import type { CliIO, Command } from '../args/command';
 
 const HELP = `rankfold batch: compress a whole folder unattended, with a manifest, a CSV and an HTML report.
 

@@ -13,26 +13,12 @@ import {
   UsageError,
 } from '../../../contract';
 import { cleanFile } from '../../services/clean';
-import { type Command, parseCommandArgs } from '../command';
+import { type Command, flags, parseCommandArgs } from '../args/command';
 
-const options = {
-  output: { type: 'string', short: 'o' },
-  noise: { type: 'string' },
-  banding: { type: 'string' },
-  rank: { type: 'string' },
-  threshold: { type: 'string' },
-  method: { type: 'string' },
-  patch: { type: 'string' },
-  'group-size': { type: 'string' },
-  tile: { type: 'string' },
-  workers: { type: 'string' },
-  removed: { type: 'string' },
-  profile: { type: 'string' },
-  page: { type: 'string' },
-  'pixel-limit': { type: 'string' },
-  json: { type: 'boolean' },
-  force: { type: 'boolean' },
-} as const;
+const options = flags(
+  'output noise banding rank threshold method patch group-size tile workers removed profile page pixel-limit',
+  'json force',
+);
 
 const help = `Usage: rankfold clean IN -o OUT [--noise auto|off|SIGMA] [--banding auto|rows|columns|both|off]
                       [--rank K] [--removed REMOVED.png] [--profile PROFILE.csv] [--json] [--force]

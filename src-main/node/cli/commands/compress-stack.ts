@@ -13,19 +13,10 @@ import {
   UsageError,
 } from '../../../contract';
 import { compressStackFile } from '../../services/stack';
-import { BUDGET_OPTIONS, parseBudgetOptions } from '../budget-options';
-import { type CliIO, parseCommandArgs } from '../command';
+import { BUDGET_OPTIONS, parseBudgetOptions } from '../args/budget-options';
+import { type CliIO, flags, parseCommandArgs } from '../args/command';
 
-const options = {
-  stack: { type: 'boolean' },
-  output: { type: 'string', short: 'o' },
-  ...BUDGET_OPTIONS,
-  frames: { type: 'string' },
-  'no-residuals': { type: 'boolean' },
-  'pixel-limit': { type: 'string' },
-  json: { type: 'boolean' },
-  force: { type: 'boolean' },
-} as const;
+const options = { ...BUDGET_OPTIONS, ...flags('output frames pixel-limit', 'stack no-residuals json force') };
 
 export const stackHelp = `Usage: rankfold compress --stack IN_DIR|IN.tif -o OUT.rkf (--budget SIZE | --bpp X | --rank K | --min-psnr DB | --min-ssim S) [options]
 

@@ -8,21 +8,13 @@ import {
   UsageError,
 } from '../../../contract';
 import { compressFile } from '../../services/compress';
-import { BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from '../budget-options';
-import { type CliIO, type Command, parseCommandArgs } from '../command';
+import { BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from '../args/budget-options';
+import { type CliIO, type Command, flags, parseCommandArgs } from '../args/command';
 
 const options = {
-  output: { type: 'string', short: 'o' },
   ...BUDGET_OPTIONS,
-  tile: { type: 'string' },
-  layers: { type: 'string' },
-  page: { type: 'string' },
-  'pixel-limit': { type: 'string' },
-  json: { type: 'boolean' },
-  force: { type: 'boolean' },
-  compare: { type: 'boolean' },
-  stack: { type: 'boolean' },
-} as const;
+  ...flags('output tile layers page pixel-limit', 'json force compare stack'),
+};
 
 const help = `Usage: rankfold compress IN -o OUT.rkf (--rank K | --budget SIZE | --bpp X | --min-psnr DB | --min-ssim S) [options]
 
@@ -105,6 +97,9 @@ export const command: Command = {
   name: 'compress',
   summary: 'write a .rkf file that meets a storage budget or quality floor',
   help,
+  async helpFor(argv) {
+    return argv.includes('--stack') ? (await import('./compress-stack')).stackHelp : help;
+  },
   async run(argv, io) {
     if (argv.includes('--stack')) {
       const mod = (await import('./compress-stack')) as {

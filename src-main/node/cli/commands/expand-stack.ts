@@ -11,16 +11,9 @@ import {
   UsageError,
 } from '../../../contract';
 import { expandStackFile, isStackFile } from '../../services/stack';
-import { type CliIO, parseCommandArgs } from '../command';
+import { type CliIO, flags, parseCommandArgs } from '../args/command';
 
-const options = {
-  output: { type: 'string', short: 'o' },
-  frame: { type: 'string' },
-  json: { type: 'boolean' },
-  force: { type: 'boolean' },
-  'pixel-limit': { type: 'string' },
-  upright: { type: 'boolean' },
-} as const;
+const options = flags('output frame pixel-limit', 'json force upright');
 
 export const expandStackHelp = `Stack files (made by compress --stack):
   rankfold expand SERIES.rkf --frame I -o OUT.png|OUT.tif   one frame (from 0), decoded on its own

@@ -9,16 +9,9 @@ import {
 } from '../../../contract';
 import { expandFile } from '../../services/expand';
 import { containerDamage } from '../../services/stack';
-import { type CliIO, type Command, parseCommandArgs } from '../command';
+import { type CliIO, type Command, flags, parseCommandArgs } from '../args/command';
 
-const options = {
-  output: { type: 'string', short: 'o' },
-  json: { type: 'boolean' },
-  force: { type: 'boolean' },
-  upright: { type: 'boolean' },
-  'pixel-limit': { type: 'string' },
-  frame: { type: 'string' },
-} as const;
+const options = flags('output pixel-limit frame', 'json force upright');
 
 const help = `Usage: rankfold expand IN.rkf -o OUT.png|OUT.tif [--json] [--force]
 

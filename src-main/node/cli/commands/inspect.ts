@@ -9,14 +9,9 @@ import {
 } from '../../../contract';
 import { DEFAULT_PIXEL_LIMIT } from '../../image/decode';
 import { inspectScan } from '../../services/inspect';
-import { type CliIO, type Command, parseCommandArgs } from '../command';
+import { type CliIO, type Command, flags, parseCommandArgs } from '../args/command';
 
-const options = {
-  page: { type: 'string' },
-  'pixel-limit': { type: 'string' },
-  json: { type: 'boolean' },
-  full: { type: 'boolean' },
-} as const;
+const options = flags('page pixel-limit', 'json full');
 
 const help = `Usage: rankfold inspect FILE [--page N] [--json] [--full] [--pixel-limit N]
 

@@ -5,7 +5,7 @@ import { fileURLToPath } from 'node:url';
 import { LOSSY_CAUTION, OPTIONS, parseOptionText, RankfoldError } from '../../../contract';
 import { Backend } from '../../server/backend';
 import { startServer } from '../../server/http';
-import { type Command, parseCommandArgs } from '../command';
+import { type Command, parseCommandArgs } from '../args/command';
 
 const help = `Usage: rankfold serve [--port P] [--no-open]
 

@@ -11,30 +11,21 @@ import {
   type Shard,
   type TileChoice,
   UsageError,
-} from '../../contract';
-import { DEFAULT_TIMEOUT_MS } from '../batch/run-options';
-import { DEFAULT_PIXEL_LIMIT } from '../image/decode';
+} from '../../../contract';
+import { DEFAULT_TIMEOUT_MS } from '../../batch/run-options';
+import { DEFAULT_PIXEL_LIMIT } from '../../image/decode';
 import { BUDGET_OPTION_NAMES, BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from './budget-options';
-import { type OptionSpec, parseCommandArgs } from './command';
+import { flags, type OptionSpec, parseCommandArgs } from './command';
 
 const BATCH_OPTIONS: OptionSpec = {
-  output: { type: 'string', short: 'o' },
   ...BUDGET_OPTIONS,
-  tile: { type: 'string' },
-  'pixel-limit': { type: 'string' },
+  ...flags(
+    'output tile pixel-limit report manifest timeout shard',
+    'resume force dry-run json expand-check merge',
+  ),
   jobs: { type: 'string', short: 'j' },
   include: { type: 'string', multiple: true },
   exclude: { type: 'string', multiple: true },
-  report: { type: 'string' },
-  manifest: { type: 'string' },
-  resume: { type: 'boolean' },
-  force: { type: 'boolean' },
-  'dry-run': { type: 'boolean' },
-  json: { type: 'boolean' },
-  'expand-check': { type: 'boolean' },
-  timeout: { type: 'string' },
-  shard: { type: 'string' },
-  merge: { type: 'boolean' },
 };
 
 /** Default tile choice when --tile is not given. */

@@ -13,21 +13,15 @@ import {
   parseOptionText,
   type TileChoice,
   UsageError,
-} from '../../contract';
-import type { OptionSpec } from './command';
+} from '../../../contract';
+import { flags, type OptionSpec } from './command';
 
 /** The budget options, in the order messages name them. */
 export const BUDGET_OPTION_NAMES = ['rank', 'budget', 'bpp', 'min-psnr', 'min-ssim'] as const;
 type BudgetOptionName = (typeof BUDGET_OPTION_NAMES)[number];
 
 /** Their parseArgs declarations, to spread into a command's options. */
-export const BUDGET_OPTIONS = {
-  rank: { type: 'string' },
-  budget: { type: 'string' },
-  bpp: { type: 'string' },
-  'min-psnr': { type: 'string' },
-  'min-ssim': { type: 'string' },
-} as const satisfies OptionSpec;
+export const BUDGET_OPTIONS: OptionSpec = flags(BUDGET_OPTION_NAMES.join(' '));
 
 /** How one command reads its budget options. */
 export interface BudgetOptionRules {

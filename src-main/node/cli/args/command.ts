@@ -1,5 +1,5 @@
 import { type ParseArgsConfig, parseArgs } from 'node:util';
-import { UsageError } from '../../contract';
+import { UsageError } from '../../../contract';
 
 /** Where a command writes. Tests pass their own; the CLI passes process streams. */
 export interface CliIO {
@@ -15,10 +15,25 @@ export interface Command {
   summary: string;
   /** Full help text, printed by `rankfold <name> --help`. */
   help: string;
+  /** The help for these arguments when it depends on them (`compress --stack --help`); else `help`. */
+  helpFor?(argv: string[]): Promise<string>;
   run(argv: string[], io: CliIO): Promise<number>;
 }
 
 export type OptionSpec = NonNullable<ParseArgsConfig['options']>;
+
+/**
+ * A command's parseArgs declarations from its flags, without dashes: `values` take a value (`--page N`;
+ * the contract's declarations in OPTIONS give the same names), `switches` take none. `output` also
+ * answers to -o.
+ */
+export function flags(values: string, switches = ''): OptionSpec {
+  const spec: OptionSpec = {};
+  for (const name of values.split(' ').filter(Boolean))
+    spec[name] = name === 'output' ? { type: 'string', short: 'o' } : { type: 'string' };
+  for (const name of switches.split(' ').filter(Boolean)) spec[name] = { type: 'boolean' };
+  return spec;
+}
 
 /**
  * Parse a command's arguments with node:util parseArgs, turning its errors into a UsageError that
