@@ -34,8 +34,12 @@ describe('parseBudgetField', () => {
     expect(() => parseBudgetField('')).toThrow(/budget/);
     expect(() => parseBudgetField('3 apples')).toThrow(/3 apples/);
     // The contract's one message for a percentage out of range (contract/budget.ts).
-    expect(() => parseBudgetField('0%')).toThrow(/percentage between 0.001 and 100 for budget but received 0 /);
-    expect(() => parseBudgetField('101%')).toThrow(/percentage between 0.001 and 100 for budget but received 101 /);
+    expect(() => parseBudgetField('0%')).toThrow(
+      /percentage between 0.001 and 100 for budget but received 0 /,
+    );
+    expect(() => parseBudgetField('101%')).toThrow(
+      /percentage between 0.001 and 100 for budget but received 101 /,
+    );
     // Under the 64-byte floor of a file.
     expect(() => parseBudgetField('63')).toThrow(/64 bytes/);
   });

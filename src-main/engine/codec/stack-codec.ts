@@ -32,7 +32,7 @@ import { solveSpdRidge } from '../linalg';
 import { psnrFromMse, ssim } from '../metrics';
 import { rebuildFrame } from '../stack/frame-svd';
 import { asciiJson } from './ascii-json';
-import { type Chunk, readContainer, writeContainer } from './container';
+import { type Chunk, readContainer, VERSION_MINOR_CODER2, writeContainer } from './container';
 import {
   checkStackHeader,
   chunkId,
@@ -256,6 +256,9 @@ export function openStackPlanes(bytes: Uint8Array, file: string): StackPlaneRead
   const fail = (problem: string): never => {
     throw new FormatError(file, problem);
   };
+  // Version 1.3 is written for two-layer images only, with a binary header (./compact-header).
+  if (view.version.minor >= VERSION_MINOR_CODER2)
+    fail('is not a stack file (it is a two-layer image file); use `rankfold expand` without --frame');
   let header: StackHeaderJson & { frameTable?: StackHeader['frameTable'] };
   try {
     header = JSON.parse(utf8Text(view.payload(0)));
