@@ -15,6 +15,7 @@ export * from './image';
 export * from './inspect';
 export * from './methods';
 export * from './options';
+export * from './rankfold-api';
 export * from './replies';
 export * from './stack';
 export * from './upload';
