@@ -20,8 +20,11 @@
  * Nothing may follow the trailer: the index must end where the trailer begins. Chunk types follow PNG's
  * critical/ancillary convention (W3C PNG 3rd ed. §5.4): a reader refuses an upper-case (critical) type it
  * does not know and skips a lower-case (ancillary) one ({@link refuseUnknownCritical}).
+ * Version ≥ 1.3 files use the compact framing of ./container-compact instead (varint chunk headers, one
+ * CRC-32 of the whole file, no index or trailer); the same ContainerView reads both.
  */
 import { FormatError } from '../../contract/errors';
+import { readCompact, writeCompact } from './container-compact';
 import { crc32 } from './crc32';
 
 const MAGIC = Uint8Array.from([0x89, 0x52, 0x4b, 0x46, 0x0d, 0x0a, 0x1a, 0x0a]);
@@ -34,7 +37,8 @@ export const VERSION_MINOR = 1;
 export const VERSION_MINOR_RESIDUAL = 2;
 /**
  * 1.3: an image-layout file with a residual layer written by this version: its HEAD is the compact binary
- * header (./compact-header) and its RSDL chunks use coefficient coder 2 (./coeff-coder). The writer
+ * header (./compact-header), its RSDL chunks use coefficient coder 2 (./coeff-coder) and its framing is
+ * the compact one (./container-compact). The writer
  * produces 1.3 for every two-layer image; 1.2 files are still read.
  */
 export const VERSION_MINOR_CODER2 = 3;
@@ -76,6 +80,17 @@ function getU32(b: Uint8Array, o: number): number {
   return ((b[o] << 24) | (b[o + 1] << 16) | (b[o + 2] << 8) | b[o + 3]) >>> 0;
 }
 
+/** Magic and version: the first 12 bytes of every file. */
+function preamble(minor: number): Uint8Array {
+  const out = new Uint8Array(PREAMBLE);
+  out.set(MAGIC, 0);
+  out[8] = VERSION_MAJOR >> 8;
+  out[9] = VERSION_MAJOR & 0xff;
+  out[10] = minor >> 8;
+  out[11] = minor & 0xff;
+  return out;
+}
+
 /**
  * Assemble a file from chunks (HEAD first). Pure; the node layer writes it atomically. `minor` is the minor
  * version to record (default {@link VERSION_MINOR}; {@link VERSION_MINOR_CODER2} for two-layer images).
@@ -87,6 +102,11 @@ export function writeContainer(layoutChunks: Chunk[], minor: number = VERSION_MI
     );
   if (!layoutChunks.length || layoutChunks[0].type !== 'HEAD')
     throw new RangeError('the first chunk must be HEAD');
+  if (minor >= VERSION_MINOR_CODER2)
+    return writeCompact(
+      layoutChunks.filter((c) => c.type !== FILE_CHECK),
+      preamble(minor),
+    );
   // The file check is filled in below, once HEAD's CRC is known; it has a fixed size.
   const check: Chunk = { type: FILE_CHECK, id: 0, payload: new Uint8Array(FILE_CHECK_LENGTH) };
   // A file check among the chunks (a file being rewritten from its view) is replaced by a fresh one.
@@ -112,11 +132,7 @@ export function writeContainer(layoutChunks: Chunk[], minor: number = VERSION_MI
   const indexOffset = size;
   size += CHUNK_OVERHEAD + index.length + TRAILER;
   const out = new Uint8Array(size);
-  out.set(MAGIC, 0);
-  out[8] = VERSION_MAJOR >> 8;
-  out[9] = VERSION_MAJOR & 0xff;
-  out[10] = minor >> 8;
-  out[11] = minor & 0xff;
+  out.set(preamble(minor), 0);
   check.payload.set(out.subarray(8, 12), 0);
   let o = PREAMBLE;
   for (const c of [...chunks, { type: 'INDX', id: 0, payload: index }]) {
@@ -203,6 +219,18 @@ export function readContainer(bytes: Uint8Array, file: string, verifyAll = true)
       );
     fail(newer);
   }
+  if (minor >= VERSION_MINOR_CODER2)
+    try {
+      return readCompact(bytes, fail);
+    } catch (err) {
+      // An indexed (1.0–1.2) file whose minor version was damaged: its file check says what it was.
+      const written = writtenVersion(bytes);
+      if (written && written.minor < VERSION_MINOR_CODER2)
+        fail(
+          `is damaged: it declares container version ${major}.${minor}, but it was written as version ${written.major}.${written.minor}`,
+        );
+      throw err;
+    }
   return readVersion1(bytes, fail, verifyAll, true);
 }
 

@@ -164,13 +164,15 @@ function fitResidual(
   let codes = 0;
   let aim = target;
   let lastStep = 0;
+  const tried: Array<{ l: number; size: number }> = [];
   for (let i = 0; i < MAX_RESIDUAL_CODES; i++) {
-    const d = stepFor(aim, ratio);
+    const d = tried.length >= 2 ? (secant(tried, aim) ?? stepFor(aim, ratio)) : stepFor(aim, ratio);
     if (d === lastStep) break;
     lastStep = d;
     const r = code(d);
     codes++;
     points.push({ bits: 8 * r.size, sse: r.sse });
+    tried.push({ l: Math.log2(d), size: r.size });
     const est = estimate(d);
     if (est > 0) ratio = r.size / est;
     if (r.size <= target && (!best || r.sse < best.sse))
@@ -192,6 +194,20 @@ function fitResidual(
   }
   if (best) best.codes = codes;
   return { fit: best, ratio };
+}
+
+/**
+ * Step by secant interpolation of log size over log Δ through the two real encodes nearest `aim` (the rate
+ * model's error is smooth in Δ, so after two encodes the line between them lands closer than the
+ * recalibrated model; common practice in rate control). Undefined when the two sizes are equal.
+ */
+function secant(tried: Array<{ l: number; size: number }>, aim: number): number | undefined {
+  const [p, q] = [...tried]
+    .filter((t) => t.size > 0)
+    .sort((a, b) => Math.abs(Math.log(a.size / aim)) - Math.abs(Math.log(b.size / aim)));
+  if (!q || p.size === q.size || p.l === q.l) return undefined;
+  const l = p.l + ((Math.log(aim) - Math.log(p.size)) * (q.l - p.l)) / (Math.log(q.size) - Math.log(p.size));
+  return Number.isFinite(l) ? 2 ** l : undefined;
 }
 
 /** λ from the two real encodes nearest the budget: squared error removed per extra bit. */
