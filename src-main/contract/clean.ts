@@ -4,7 +4,7 @@ import { checkNoise, checkOptional, OPTIONS } from './options';
 import { is } from './validate';
 
 /** 'auto' estimates σ from the image; a number is σ in grey levels of the input; 'off' skips denoising. */
-export type NoiseMode = 'auto' | 'off' | number;
+type NoiseMode = 'auto' | 'off' | number;
 export type BandingMode = 'auto' | 'rows' | 'columns' | 'both' | 'off';
 type BandingDirectionResult = 'none' | 'rows' | 'columns' | 'both';
 /** 'groups' = block-matched patch groups (default); 'tiles' = overlapping tiles with Hann blending. */

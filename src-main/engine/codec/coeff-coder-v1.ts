@@ -5,14 +5,7 @@
  * signs on one context per band class; magnitudes by the range coder's unary-then-Exp-Golomb binarisation.
  * Frozen: files of container 1.2 and stack files must decode bit-identically.
  */
-import {
-  decodeMagnitude,
-  encodeMagnitude,
-  IntModel,
-  models,
-  RangeDecoder,
-  RangeEncoder,
-} from './range-coder';
+import * as rc from './range-coder';
 import type { Band } from './wavelet-transform';
 
 const ZERO_CTX = 5 * 7 * 3;
@@ -70,10 +63,10 @@ function walk(
 export function encodeCoefficientsV1(q: Int32Array, width: number, bands: Band[]): Uint8Array {
   let nonZero = 0;
   for (let i = 0; i < q.length; i++) if (q[i]) nonZero++;
-  const enc = new RangeEncoder();
-  const zm = models(ZERO_CTX);
-  const mm = new IntModel(MAG_CTX);
-  const sm = models(SIGN_CTX);
+  const enc = new rc.RangeEncoder();
+  const zm = rc.models(ZERO_CTX);
+  const mm = new rc.IntModel(MAG_CTX);
+  const sm = rc.models(SIGN_CTX);
   // One leading flag: an all-zero plane costs a few bytes.
   enc.encodeDirect(nonZero ? 1 : 0);
   if (nonZero)
@@ -82,7 +75,7 @@ export function encodeCoefficientsV1(q: Int32Array, width: number, bands: Band[]
       enc.encodeBit(zm[zctx], v === 0 ? 0 : 1);
       if (v !== 0) {
         enc.encodeBit(sm[sctx], v < 0 ? 1 : 0);
-        encodeMagnitude(enc, mm, Math.abs(v) - 1, mctx);
+        rc.encodeMagnitude(enc, mm, Math.abs(v) - 1, mctx);
       }
     });
   return enc.finish();
@@ -93,15 +86,15 @@ export function encodeCoefficientsV1(q: Int32Array, width: number, bands: Band[]
  * @throws RangeError if the bytes run out or are not all used
  */
 export function decodeCoefficientsV1(bytes: Uint8Array, q: Int32Array, width: number, bands: Band[]): void {
-  const dec = new RangeDecoder(bytes);
-  const zm = models(ZERO_CTX);
-  const mm = new IntModel(MAG_CTX);
-  const sm = models(SIGN_CTX);
+  const dec = new rc.RangeDecoder(bytes);
+  const zm = rc.models(ZERO_CTX);
+  const mm = new rc.IntModel(MAG_CTX);
+  const sm = rc.models(SIGN_CTX);
   if (dec.decodeDirect() !== 0)
     walk(q, width, bands, (idx, zctx, mctx, sctx) => {
       if (dec.decodeBit(zm[zctx]) === 0) return;
       const neg = dec.decodeBit(sm[sctx]);
-      const a = decodeMagnitude(dec, mm, mctx) + 1;
+      const a = rc.decodeMagnitude(dec, mm, mctx) + 1;
       q[idx] = neg ? -a : a;
     });
   // Exactly to the end of the coder's flush: fewer or more bytes mean damage or a header that does not fit.

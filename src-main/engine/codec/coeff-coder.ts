@@ -22,17 +22,8 @@
  *   centroid of the bin's coefficients (Sullivan, IEEE Trans. Inf. Theory 42(5):1365–1374, 1996: for a
  *   Laplacian source the MSE-optimal reconstruction lies inside the bin, not at its edge).
  */
-import {
-  type BitModel,
-  decodeInt,
-  decodeMagnitude,
-  encodeInt,
-  encodeMagnitude,
-  IntModel,
-  models,
-  RangeDecoder,
-  RangeEncoder,
-} from './range-coder';
+import type { BitModel } from './range-coder';
+import * as rc from './range-coder';
 import type { Band } from './wavelet-transform';
 
 /** Significance contexts per class: 10 neighbourhood bins × 3 parent/sibling bins. */
@@ -42,7 +33,7 @@ const PS_BINS = 3;
 const CLASSES = 6;
 const MAG_BINS = 6;
 /** Least count of coded values in a band for it to carry a reconstruction offset. */
-export const MIN_OFFSET_COUNT = 8;
+const MIN_OFFSET_COUNT = 8;
 /** Reconstruction offsets are multiples of 1/OFFSET_UNIT of the step, within [OFFSET_MIN, OFFSET_MAX]. */
 const OFFSET_UNIT = 32;
 const OFFSET_MIN = -16;
@@ -57,32 +48,32 @@ const nbBin = (s: number) => (s < 30 ? NB_LUT[s] : 9);
 /** Either direction of the range coder behind one interface: the encoder writes `v` and returns it. */
 interface BitIo {
   bit(m: BitModel, v: number): number;
-  magnitude(m: IntModel, v: number, cls: number): number;
-  int(m: IntModel, v: number, cls: number, prevSign: number): number;
+  magnitude(m: rc.IntModel, v: number, cls: number): number;
+  int(m: rc.IntModel, v: number, cls: number, prevSign: number): number;
 }
 
-function encoderIo(enc: RangeEncoder): BitIo {
+function encoderIo(enc: rc.RangeEncoder): BitIo {
   return {
     bit(m, v) {
       enc.encodeBit(m, v);
       return v;
     },
     magnitude(m, v, cls) {
-      encodeMagnitude(enc, m, v, cls);
+      rc.encodeMagnitude(enc, m, v, cls);
       return v;
     },
     int(m, v, cls, prevSign) {
-      encodeInt(enc, m, v, cls, prevSign);
+      rc.encodeInt(enc, m, v, cls, prevSign);
       return v;
     },
   };
 }
 
-function decoderIo(dec: RangeDecoder): BitIo {
+function decoderIo(dec: rc.RangeDecoder): BitIo {
   return {
     bit: (m) => dec.decodeBit(m),
-    magnitude: (m, _v, cls) => decodeMagnitude(dec, m, cls),
-    int: (m, _v, cls, prevSign) => decodeInt(dec, m, cls, prevSign),
+    magnitude: (m, _v, cls) => rc.decodeMagnitude(dec, m, cls),
+    int: (m, _v, cls, prevSign) => rc.decodeInt(dec, m, cls, prevSign),
   };
 }
 
@@ -90,7 +81,7 @@ const sgn = (v: number) => (v > 0 ? 1 : v < 0 ? -1 : 0);
 
 /** LL by MED prediction; `q` is read (encoder) or filled (decoder) in place. */
 function codeLL(io: BitIo, q: Int32Array, width: number, b: Band): void {
-  const m = new IntModel(5);
+  const m = new rc.IntModel(5);
   const d = new Int32Array(b.w * b.h);
   for (let y = 0; y < b.h; y++)
     for (let x = 0; x < b.w; x++) {
@@ -117,9 +108,9 @@ function classOf(b: Band): number {
  * writes the values of `q`; the decoder's io fills `q` (zeroed on entry).
  */
 function codeCoefficients(io: BitIo, q: Int32Array, width: number, bands: Band[]): void {
-  const zm = models(CLASSES * NB_BINS * PS_BINS);
-  const sm = models(3 * 9);
-  const mm = new IntModel(3 * MAG_BINS);
+  const zm = rc.models(CLASSES * NB_BINS * PS_BINS);
+  const sm = rc.models(3 * 9);
+  const mm = new rc.IntModel(3 * MAG_BINS);
   const byKey = new Map<string, Band>();
   for (const b of bands) byKey.set(`${b.orient}:${b.level}`, b);
   const cap = (v: number) => (v < 0 ? (v < -15 ? 15 : -v) : v > 15 ? 15 : v);
@@ -184,7 +175,7 @@ function binCounts(q: Int32Array, map: Uint8Array, nb: number): Int32Array {
 
 /** Code the reconstruction offsets (units of 1/OFFSET_UNIT) of the bins with enough values. */
 function codeOffsets(io: BitIo, k: Int32Array, counts: Int32Array): Float64Array {
-  const m = new IntModel(2);
+  const m = new rc.IntModel(2);
   const out = new Float64Array(k.length);
   let prev = [0, 0];
   for (let j = 0; j < k.length; j++) {
@@ -228,7 +219,7 @@ export function encodeCoefficientsV2(
   const k = Int32Array.from(sum, (s, j) =>
     counts[j] ? Math.max(OFFSET_MIN, Math.min(OFFSET_MAX, Math.round((OFFSET_UNIT * s) / counts[j]))) : 0,
   );
-  const enc = new RangeEncoder();
+  const enc = new rc.RangeEncoder();
   const io = encoderIo(enc);
   const nonZero = counts.some((c) => c > 0);
   enc.encodeDirect(nonZero ? 1 : 0);
@@ -251,7 +242,7 @@ export function decodeCoefficientsV2(
   bands: Band[],
   map: Uint8Array,
 ): Float64Array {
-  const dec = new RangeDecoder(bytes);
+  const dec = new rc.RangeDecoder(bytes);
   const io = decoderIo(dec);
   let offsets: Float64Array = new Float64Array(2 * bands.length);
   if (dec.decodeDirect() !== 0) {

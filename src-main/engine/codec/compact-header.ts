@@ -13,7 +13,7 @@
  */
 
 /** The dictionary is part of the format: never reorder it; only append. */
-export const HEAD_DICTIONARY = [
+const HEAD_DICTIONARY = [
   'format',
   'rankfold',
   'layout',

@@ -34,7 +34,7 @@ export const VERSION_MINOR = 1;
  * Highest minor version this writer produces: 1.2 marks a file whose image layout carries a residual layer
  * (RSDL chunks). Only such files are written as 1.2; every other file stays 1.1, byte for byte.
  */
-export const VERSION_MINOR_RESIDUAL = 2;
+const VERSION_MINOR_RESIDUAL = 2;
 /**
  * 1.3: an image-layout file with a residual layer written by this version: its HEAD is the compact binary
  * header (./compact-header), its RSDL chunks use coefficient coder 2 (./coeff-coder) and its framing is
@@ -57,7 +57,7 @@ export interface Chunk {
   payload: Uint8Array;
 }
 
-interface ChunkEntry {
+export interface ChunkEntry {
   type: string;
   id: number;
   /** Offset of the chunk's first byte (its type field). */

@@ -15,15 +15,15 @@ const PROB_ONE = 1 << PROB_BITS;
 const PROB_INIT = PROB_ONE >>> 1;
 const TOP = 2 ** 24;
 /** Largest magnitude the integer coder accepts; bigger values mean a corrupt stream. */
-export const MAX_MAGNITUDE = 2 ** 30;
+const MAX_MAGNITUDE = 2 ** 30;
 
 /**
  * Adaptation: two estimators of P(bit = 0), a fast one (window ≈ 16 observations) and a slow one
  * (≈ 128), averaged. Both start as a running frequency count (rate 1/(n + 1.5)) so fresh contexts
  * learn quickly.
  */
-export const FAST_WINDOW = 16;
-export const SLOW_WINDOW = 128;
+const FAST_WINDOW = 16;
+const SLOW_WINDOW = 128;
 const RECIP = Uint32Array.from({ length: SLOW_WINDOW }, (_, n) => Math.round(65536 / (n + 1.5)));
 
 /** One adaptive binary context. */

@@ -4,13 +4,9 @@
  * keeps the stack code's and the benchmarks' imports working.
  */
 export {
-  bandsFor,
-  DEAD_ZONE_RHO,
   decodePlane,
   encodePlane,
   forwardWavelet,
   forwardWaveletReference,
   inverseWavelet,
-  levelsFor,
-  type PlaneCode,
 } from './wavelet-plane';

@@ -19,16 +19,13 @@ import { decodeCoefficientsV1, encodeCoefficientsV1 } from './coeff-coder-v1';
 import { type Band, bandsFor, forwardWavelet, inverseWavelet, levelsFor } from './wavelet-transform';
 
 export {
-  type Band,
-  bandsFor,
   forwardWavelet,
   forwardWaveletReference,
   inverseWavelet,
-  levelsFor,
 } from './wavelet-transform';
 
 /** Dead-zone rounding offset: q = sign(c)·⌊|c|/Δ + ρ⌋. 0.5 is plain rounding; less widens the zero bin. */
-export const DEAD_ZONE_RHO = 0.38;
+const DEAD_ZONE_RHO = 0.38;
 
 /** Coefficient coder: 1 (stack layout, container 1.2 residuals) or 2 (container 1.3 residuals). */
 export type PlaneCoder = 1 | 2;

@@ -39,11 +39,11 @@ import {
 import { buildCandidate, type Plan, type PlaneInput, prefixRanks, quantPlanes } from './solve';
 
 /** Most real encodes of the residual (all planes) per candidate. */
-export const MAX_RESIDUAL_CODES = 3;
+const MAX_RESIDUAL_CODES = 3;
 /** Slope multipliers κ of the mixed candidates. */
-export const MIXED_KAPPAS = [1, 3] as const;
+const MIXED_KAPPAS = [1, 3] as const;
 
-export type LayerChoice = 'base-only' | 'residual-only' | 'mixed';
+type LayerChoice = 'base-only' | 'residual-only' | 'mixed';
 
 export interface LayerCandidate {
   kind: LayerChoice;
