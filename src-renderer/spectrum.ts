@@ -28,13 +28,7 @@ const decades = (log?: boolean) =>
   log ? { filter: (_u: uPlot, splits: number[]) => splits.map((v) => (isDecade(v) ? v : null)) } : {};
 
 /** An axis with a titled unit, compact tick labels (decades only on a log scale) and room for both. */
-function axis(o: {
-  scale?: string;
-  label: string;
-  side?: 1 | 3;
-  log?: boolean;
-  grid?: boolean;
-}): uPlot.Axis {
+function axis(o: { scale?: string; label: string; side?: 1 | 3; log?: boolean; grid?: boolean }): uPlot.Axis {
   const vertical = o.side !== undefined;
   return {
     // uPlot fills in only missing keys: an explicit undefined side or scale would replace its defaults.
