@@ -34,10 +34,8 @@ const CLASSES = 6;
 const MAG_BINS = 6;
 /** Least count of coded values in a band for it to carry a reconstruction offset. */
 const MIN_OFFSET_COUNT = 8;
-/** Reconstruction offsets are multiples of 1/OFFSET_UNIT of the step, within [OFFSET_MIN, OFFSET_MAX]. */
-const OFFSET_UNIT = 32;
-const OFFSET_MIN = -16;
-const OFFSET_MAX = 20;
+/** Reconstruction offsets are multiples of 1/unit of the step, within [min, max]. */
+const OFFSET = { unit: 32, min: -16, max: 20 } as const;
 
 /** Neighbourhood sum → bin: 0, 1, 2, 3, 4–5, 6–7, 8–11, 12–17, 18–29, ≥ 30. */
 const NB_LUT = Uint8Array.from({ length: 30 }, (_, s) =>
@@ -173,7 +171,7 @@ function binCounts(q: Int32Array, map: Uint8Array, nb: number): Int32Array {
   return n;
 }
 
-/** Code the reconstruction offsets (units of 1/OFFSET_UNIT) of the bins with enough values. */
+/** Code the reconstruction offsets (units of 1/OFFSET.unit) of the bins with enough values. */
 function codeOffsets(io: BitIo, k: Int32Array, counts: Int32Array): Float64Array {
   const m = new rc.IntModel(2);
   const out = new Float64Array(k.length);
@@ -182,9 +180,9 @@ function codeOffsets(io: BitIo, k: Int32Array, counts: Int32Array): Float64Array
     if (counts[j] < MIN_OFFSET_COUNT) continue;
     const c = j & 1;
     const v = prev[c] + io.int(m, k[j] - prev[c], c, 0);
-    if (v < OFFSET_MIN || v > OFFSET_MAX) throw new RangeError('corrupt plane data (reconstruction offset)');
+    if (v < OFFSET.min || v > OFFSET.max) throw new RangeError('corrupt plane data (reconstruction offset)');
     prev = c ? [prev[0], v] : [v, prev[1]];
-    out[j] = v / OFFSET_UNIT;
+    out[j] = v / OFFSET.unit;
   }
   return out;
 }
@@ -217,7 +215,7 @@ export function encodeCoefficientsV2(
     sum[2 * map[i] + (a === 1 ? 0 : 1)] += Math.abs(coeffs[i]) / steps[map[i]] - a;
   }
   const k = Int32Array.from(sum, (s, j) =>
-    counts[j] ? Math.max(OFFSET_MIN, Math.min(OFFSET_MAX, Math.round((OFFSET_UNIT * s) / counts[j]))) : 0,
+    counts[j] ? Math.max(OFFSET.min, Math.min(OFFSET.max, Math.round((OFFSET.unit * s) / counts[j]))) : 0,
   );
   const enc = new rc.RangeEncoder();
   const io = encoderIo(enc);
