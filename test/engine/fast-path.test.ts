@@ -6,33 +6,28 @@
 // from numpy 1.24.2 linalg.svd (LAPACK dgesdd), Debian 12 (see that folder's notes.md); synthetic
 // matrices have a known spectrum (withSpectrum), so their optimum is exact.
 // Uses the built worker dist/workers/linalg.js for the pool (run `npm run build` first, as `npm test` does).
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { initEngine, type Matrix, randomizedSvd } from '../../src-main/engine/linalg';
+import { describe, expect, it } from 'vitest';
+import { type Matrix, randomizedSvd } from '../../src-main/engine/linalg';
 import { factorPlane, PLANE_ACCURACY, setPlaneBackend } from '../../src-main/engine/lowrank/factorise';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { prepareFactorPath } from '../../src-main/node/parallel/factor-path';
-import { closeSharedLinalgPool, LinalgPool } from '../../src-main/node/parallel/pool';
+import { closeSharedLinalgPool, type LinalgPool } from '../../src-main/node/parallel/pool';
 import { compressDecoded } from '../../src-main/node/services/compress';
 import { image, reference } from '../helpers/fixtures';
 import { frob, residual, withSpectrum } from './helpers';
+import { useTwoPools } from './pools';
 
 const ref = reference('rank_approx_images.json');
 
 let one: LinalgPool;
 let two: LinalgPool;
-
-beforeAll(async () => {
-  await initEngine();
-  one = await LinalgPool.create({ workers: 1 });
-  two = await LinalgPool.create({ workers: 2 });
-});
-
-afterAll(async () => {
-  setPlaneBackend(undefined);
-  await one?.close();
-  await two?.close();
-  await closeSharedLinalgPool();
-});
+useTwoPools(
+  (p) => ({ one, two } = p),
+  async () => {
+    setPlaneBackend(undefined);
+    await closeSharedLinalgPool();
+  },
+);
 
 /** ‖A − A_k‖_F of a factorisation's first k components, in f64 against the f64 samples. */
 function errorAt(a: Matrix, f: { s: Float64Array; U: Matrix; V: Matrix }, k: number): number {

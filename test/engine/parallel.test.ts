@@ -3,10 +3,9 @@
 // Reference: the single-thread WebAssembly path of the same engine, itself checked against LAPACK and
 // ml-matrix in reference-svd.test.ts / properties.test.ts. Style rule (STYLE.md): one worker and two
 // workers give bit-identical results.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import {
   defaultBackend,
-  initEngine,
   matmul,
   matmulTransA,
   randomizedSvd,
@@ -14,20 +13,11 @@ import {
 } from '../../src-main/engine/linalg';
 import { closeSharedLinalgPool, LinalgPool, sharedLinalgPool } from '../../src-main/node/parallel/pool';
 import { randomMatrix, withSpectrum } from './helpers';
+import { useTwoPools } from './pools';
 
 let one: LinalgPool;
 let two: LinalgPool;
-
-beforeAll(async () => {
-  await initEngine();
-  one = await LinalgPool.create({ workers: 1 });
-  two = await LinalgPool.create({ workers: 2 });
-});
-
-afterAll(async () => {
-  await one?.close();
-  await two?.close();
-});
+useTwoPools((p) => ({ one, two } = p));
 
 describe('LinalgPool (calling thread + worker_threads over a shared WebAssembly.Memory)', () => {
   it('products A·B and Aᵀ·B are bit-identical to the single-thread kernel, f32 and f64, odd sizes', () => {
