@@ -18,6 +18,7 @@ import {
   tsBackend,
 } from '../src-main/engine/linalg';
 import { LinalgPool } from '../src-main/node/parallel/pool';
+import { median, medianMs } from './timing';
 
 const QUICK = process.env.RANKFOLD_BENCH_QUICK === '1';
 const out: string[] = [];
@@ -64,21 +65,7 @@ function makeInput(m: number, n: number): { A: Matrix; sigma: Float64Array } {
   return { A, sigma };
 }
 
-function median(xs: number[]): number {
-  const s = [...xs].sort((a, b) => a - b);
-  return s[Math.floor(s.length / 2)];
-}
-
-function time(fn: () => void, reps: number, warm = true): number {
-  if (warm) fn(); // warm-up (JIT, memory growth)
-  const ts: number[] = [];
-  for (let i = 0; i < reps; i++) {
-    const t = performance.now();
-    fn();
-    ts.push(performance.now() - t);
-  }
-  return median(ts);
-}
+const time = medianMs;
 
 /**
  * Speed-up of a 2-thread LinalgPool (caller + 1 worker) over a 1-thread one, measured by ALTERNATING

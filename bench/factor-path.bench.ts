@@ -19,9 +19,11 @@ import { cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import sharp from 'sharp';
 import { initEngine, type Matrix, randomizedSvd, wasmBackend } from '../src-main/engine/linalg';
+import type { RandomizedSvdOptions } from '../src-main/engine/linalg/randomized-svd';
 import { factorPlane, planeOversample, setPlaneBackend } from '../src-main/engine/lowrank/factorise';
 import { prepareFactorPath } from '../src-main/node/parallel/factor-path';
 import { LinalgPool } from '../src-main/node/parallel/pool';
+import { median, medianMs } from './timing';
 
 const W = 2000;
 const H = 1500;
@@ -31,10 +33,6 @@ const out: string[] = [];
 const log = (s = '') => {
   out.push(s);
   console.log(s);
-};
-const median = (xs: number[]) => {
-  const s = [...xs].sort((a, b) => a - b);
-  return s.length % 2 ? s[(s.length - 1) / 2] : (s[s.length / 2 - 1] + s[s.length / 2]) / 2;
 };
 const load = () =>
   loadavg()
@@ -146,15 +144,7 @@ function errorAt(px: Uint8Array, f: { s: Float64Array; U: Matrix; V: Matrix }, k
   return Math.sqrt(e);
 }
 
-const time = (fn: () => void, reps: number) => {
-  const ts: number[] = [];
-  for (let i = 0; i < reps; i++) {
-    const t = performance.now();
-    fn();
-    ts.push(performance.now() - t);
-  }
-  return median(ts);
-};
+const time = (fn: () => void, reps: number) => medianMs(fn, reps, false);
 
 /** Child mode: the first call of the pre-change settings (f64, q = 4, one thread) in a fresh process. */
 async function coldChild(raw: string): Promise<void> {
@@ -282,6 +272,16 @@ async function main(): Promise<void> {
     ) as { coldMs: number };
     const wasm = wasmBackend() ?? undefined;
     const one = await LinalgPool.create({ workers: 1 });
+    /** The fast path's settings: f32, q = 2, oversampling P, the 1.01× accuracy check. */
+    const checked = (b: NonNullable<RandomizedSvdOptions['backend']>) =>
+      randomizedSvd(a32, K + 1, {
+        seed: 1,
+        powerIters: 2,
+        oversample: P,
+        precision: 'f32',
+        accuracy: 1.01,
+        backend: b,
+      });
     const rows: [string, () => void][] = [
       [
         'f64, q = 4, one thread (the previous CLI settings), warm',
@@ -295,30 +295,8 @@ async function main(): Promise<void> {
         'f32, q = 2, one thread',
         () => randomizedSvd(a32, K + 1, { seed: 1, powerIters: 2, precision: 'f32', backend: wasm }),
       ],
-      [
-        `f32, q = 2 + accuracy check, p = ${P}, pool of 1 thread`,
-        () =>
-          randomizedSvd(a32, K + 1, {
-            seed: 1,
-            powerIters: 2,
-            oversample: P,
-            precision: 'f32',
-            accuracy: 1.01,
-            backend: one,
-          }),
-      ],
-      [
-        `f32, q = 2 + accuracy check, p = ${P}, ${backend.label} (the CLI path)`,
-        () =>
-          randomizedSvd(a32, K + 1, {
-            seed: 1,
-            powerIters: 2,
-            oversample: P,
-            precision: 'f32',
-            accuracy: 1.01,
-            backend,
-          }),
-      ],
+      [`f32, q = 2 + accuracy check, p = ${P}, pool of 1 thread`, () => checked(one)],
+      [`f32, q = 2 + accuracy check, p = ${P}, ${backend.label} (the CLI path)`, () => checked(backend)],
       [
         `factorPlane (plane copy + the above), ${backend.label}`,
         () => factorPlane(plane, W, H, { tile: 0, meanRemoval: false, meanStep: 0.25, maxRank: K }),

@@ -29,6 +29,7 @@ import { performance } from 'node:perf_hooks';
 import sharp from 'sharp';
 import { psnr } from '../src-main/engine/metrics';
 import { decodeImage } from '../src-main/node/image/decode';
+import { median } from './timing';
 
 const root = process.cwd();
 const outDir = process.env.RANKFOLD_BENCH_OUT ?? join(root, 'docs', 'bench');
@@ -65,10 +66,6 @@ interface Coded {
 const f2 = (x: number) => (Number.isFinite(x) ? x.toFixed(2) : x === Number.POSITIVE_INFINITY ? '∞' : 'n/a');
 const d2 = (x: number) => (Number.isFinite(x) ? `${x >= 0 ? '+' : ''}${x.toFixed(2)}` : 'n/a');
 const mean = (a: number[]) => (a.length ? a.reduce((s, x) => s + x, 0) / a.length : Number.NaN);
-const median = (a: number[]) => {
-  const s = [...a].sort((x, y) => x - y);
-  return s.length % 2 ? s[(s.length - 1) >> 1] : (s[s.length / 2 - 1] + s[s.length / 2]) / 2;
-};
 const capped = (p: number) => Math.min(p, PSNR_CAP);
 /**
  * sharp options for one-channel 16-bit raw input: sharp reads `depth` (its typings omit it) and needs the
