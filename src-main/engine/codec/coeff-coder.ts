@@ -205,7 +205,27 @@ export function encodeCoefficientsV2(
   bands: Band[],
   map: Uint8Array,
 ): CodedV2 {
-  const nb = bands.length;
+  const { counts, k } = offsetCodes(q, coeffs, steps, map, bands.length);
+  const enc = new rc.RangeEncoder();
+  const io = encoderIo(enc);
+  const nonZero = counts.some((c) => c > 0);
+  enc.encodeDirect(nonZero ? 1 : 0);
+  let offsets: Float64Array = new Float64Array(2 * bands.length);
+  if (nonZero) {
+    codeCoefficients(io, q.slice(), width, bands);
+    offsets = codeOffsets(io, k, counts);
+  }
+  return { bytes: enc.finish(), offsets };
+}
+
+/** Per band and bin class, the count of coded values and the offset code (units of 1/OFFSET.unit) coder 2 writes. */
+function offsetCodes(
+  q: Int32Array,
+  coeffs: Float64Array,
+  steps: Float64Array,
+  map: Uint8Array,
+  nb: number,
+): { counts: Int32Array; k: Int32Array } {
   const counts = binCounts(q, map, nb);
   const sum = new Float64Array(2 * nb);
   for (let i = 0; i < q.length; i++) {
@@ -217,16 +237,24 @@ export function encodeCoefficientsV2(
   const k = Int32Array.from(sum, (s, j) =>
     counts[j] ? Math.max(OFFSET.min, Math.min(OFFSET.max, Math.round((OFFSET.unit * s) / counts[j]))) : 0,
   );
-  const enc = new rc.RangeEncoder();
-  const io = encoderIo(enc);
-  const nonZero = counts.some((c) => c > 0);
-  enc.encodeDirect(nonZero ? 1 : 0);
-  let offsets: Float64Array = new Float64Array(2 * nb);
-  if (nonZero) {
-    codeCoefficients(io, q.slice(), width, bands);
-    offsets = codeOffsets(io, k, counts);
-  }
-  return { bytes: enc.finish(), offsets };
+  return { counts, k };
+}
+
+/**
+ * The reconstruction offsets coder 2 would write for `q` (what {@link encodeCoefficientsV2} returns), without
+ * range coding: for rate control, which needs the decoder's reconstruction but not the bytes.
+ */
+export function reconstructionOffsetsV2(
+  q: Int32Array,
+  coeffs: Float64Array,
+  steps: Float64Array,
+  map: Uint8Array,
+  nb: number,
+): Float64Array {
+  const { counts, k } = offsetCodes(q, coeffs, steps, map, nb);
+  const out = new Float64Array(2 * nb);
+  for (let j = 0; j < out.length; j++) if (counts[j] >= MIN_OFFSET_COUNT) out[j] = k[j] / OFFSET.unit;
+  return out;
 }
 
 /**

@@ -14,7 +14,7 @@
  * Reference: G. J. Sullivan, "Efficient scalar quantization of exponential and Laplacian random variables",
  * IEEE Trans. Inf. Theory 42(5):1365–1374, 1996 (dead-zone quantisers for Laplacian sources).
  */
-import { decodeCoefficientsV2, encodeCoefficientsV2 } from './coeff-coder';
+import { decodeCoefficientsV2, encodeCoefficientsV2, reconstructionOffsetsV2 } from './coeff-coder';
 import { decodeCoefficientsV1, encodeCoefficientsV1 } from './coeff-coder-v1';
 import { type Band, bandsFor, forwardWavelet, inverseWavelet, levelsFor } from './wavelet-transform';
 
@@ -89,36 +89,55 @@ function checkStep(step: number): void {
     throw new RangeError(`plane quantiser step must be > 0, got ${step}`);
 }
 
+/**
+ * Dead-zone quantisation of an analysed plane at pixel-domain step `step`, band by band (each band's
+ * rectangle in raster order, so no per-coefficient band lookup): q = sign(c)·⌊|c|/Δ_b + ρ⌋.
+ */
+function quantise(a: AnalysedPlane, steps: Float64Array, q: Int32Array): number {
+  const { width, bands, coeffs: x } = a;
+  let nonZero = 0;
+  for (let bi = 0; bi < bands.length; bi++) {
+    const b = bands[bi];
+    const rho = b.orient === 0 ? 0.5 : DEAD_ZONE_RHO;
+    const d = steps[bi];
+    for (let y = 0; y < b.h; y++) {
+      const row = (b.y0 + y) * width + b.x0;
+      for (let i = row; i < row + b.w; i++) {
+        const c = x[i];
+        const m = Math.floor((c < 0 ? -c : c) / d + rho);
+        if (m) {
+          q[i] = c < 0 ? -m : m;
+          nonZero++;
+        }
+      }
+    }
+  }
+  return nonZero;
+}
+
+/**
+ * The quantised coefficients at pixel-domain step `step` and coder 2's reconstruction offsets, without
+ * range coding (for rate control: {@link codedSquaredError} of the result is that of the coded plane).
+ */
+export function quantiseAnalysed(a: AnalysedPlane, step: number): Omit<CodedCoefficients, 'bytes'> {
+  checkStep(step);
+  const steps = bandSteps(a.bands, step);
+  const q = new Int32Array(a.coeffs.length);
+  const nonZero = quantise(a, steps, q);
+  const offsets = reconstructionOffsetsV2(q, a.coeffs, steps, a.map, a.bands.length);
+  return { q, steps, nonZero, offsets };
+}
+
 /** Quantise and range-code an analysed plane at pixel-domain step `step` (> 0) with coder `coder`. */
 export function codeAnalysed(a: AnalysedPlane, step: number, coder: PlaneCoder = 1): CodedCoefficients {
   checkStep(step);
   const { width, bands, map, coeffs: x } = a;
-  const n = x.length;
   const steps = bandSteps(bands, step);
-  const q = new Int32Array(n);
-  let nonZero = 0;
-  for (let i = 0; i < n; i++) {
-    const bi = map[i];
-    const rho = bands[bi].orient === 0 ? 0.5 : DEAD_ZONE_RHO;
-    const m = Math.floor(Math.abs(x[i]) / steps[bi] + rho);
-    q[i] = x[i] < 0 ? -m : m;
-    if (m) nonZero++;
-  }
+  const q = new Int32Array(x.length);
+  const nonZero = quantise(a, steps, q);
   if (coder === 1) return { bytes: encodeCoefficientsV1(q, width, bands), q, steps, nonZero };
   const { bytes, offsets } = encodeCoefficientsV2(q, x, steps, width, bands, map);
   return { bytes, q, steps, nonZero, offsets };
-}
-
-/** Reconstructed value of coefficient i (band bi): sign(q)·(|q| + δ)·Δ_b, δ = 0 for coder 1. */
-function dequantised(
-  c: { q: Int32Array; steps: Float64Array; offsets?: Float64Array },
-  i: number,
-  bi: number,
-) {
-  const v = c.q[i];
-  if (v === 0 || !c.offsets) return v * c.steps[bi];
-  const d = c.offsets[2 * bi + (v === 1 || v === -1 ? 0 : 1)];
-  return (v < 0 ? v - d : v + d) * c.steps[bi];
 }
 
 /** The plane exactly as the decoder rebuilds it from {@link codeAnalysed}'s coefficients. */
@@ -169,7 +188,7 @@ export function decodePlane(
   return dequantise({ q, steps, offsets }, width, height, levels, map);
 }
 
-/** Reconstruction (see {@link dequantised}), then the inverse transform (shared by encoder and decoder). */
+/** Reconstruction ({@link dequantiseInto}), then the inverse transform (shared by encoder and decoder). */
 function dequantise(
   c: { q: Int32Array; steps: Float64Array; offsets?: Float64Array },
   width: number,
@@ -178,9 +197,32 @@ function dequantise(
   map: Uint8Array,
 ): Float64Array {
   const x = new Float64Array(width * height);
-  for (let i = 0; i < x.length; i++) x[i] = dequantised(c, i, map[i]);
+  dequantiseInto(c, map, x);
   inverseWavelet(x, width, height, levels);
   return x;
+}
+
+/**
+ * x[i] = sign(q)·(|q| + δ)·Δ_b for every coefficient i of band b (δ = 0 for coder 1, zeros stay 0), computed
+ * as (q ± δ)·Δ_b, or q·Δ_b without offsets.
+ */
+function dequantiseInto(
+  c: { q: Int32Array; steps: Float64Array; offsets?: Float64Array },
+  map: Uint8Array,
+  x: Float64Array,
+): void {
+  const { q, steps, offsets } = c;
+  for (let i = 0; i < q.length; i++) {
+    const v = q[i];
+    if (v === 0) continue;
+    const bi = map[i];
+    if (!offsets) {
+      x[i] = v * steps[bi];
+      continue;
+    }
+    const d = offsets[2 * bi + (v === 1 || v === -1 ? 0 : 1)];
+    x[i] = (v < 0 ? v - d : v + d) * steps[bi];
+  }
 }
 
 /** Coefficients the rate model looks at: every RATE_STRIDE-th (a prime, so no band or row pattern aliases). */
@@ -251,15 +293,58 @@ export function estimateBits(a: AnalysedPlane, step: number): number {
  * the squared error of {@link reconstructCoded}'s output (Usevitch, IEEE Signal Process. Mag. 18(5), 2001,
  * on weighting biorthogonal subband errors by synthesis gains; from memory).
  */
-export function codedSquaredError(a: AnalysedPlane, c: CodedCoefficients): number {
+export function codedSquaredError(
+  a: AnalysedPlane,
+  c: { q: Int32Array; steps: Float64Array; offsets?: Float64Array },
+): number {
   const { bands, map, coeffs: x } = a;
+  const rec = new Float64Array(x.length);
+  dequantiseInto(c, map, rec);
   const perBand = new Float64Array(bands.length);
   for (let i = 0; i < x.length; i++) {
-    const bi = map[i];
-    const d = x[i] - dequantised(c, i, bi);
-    perBand[bi] += d * d;
+    const d = x[i] - rec[i];
+    perBand[map[i]] += d * d;
   }
   let e = 0;
   for (let b = 0; b < bands.length; b++) e += bands[b].gain * perBand[b];
   return e;
+}
+
+/**
+ * A quick estimate of {@link codedSquaredError} at step `step` for rate control, on the same 1-in-7 sample
+ * as {@link estimateBits}: each sampled coefficient quantised by the dead-zone rule and rebuilt at the
+ * centroid of its bin class (|q| = 1, |q| ≥ 2) in its band, as coder 2's reconstruction offsets do
+ * (unrounded); the band errors weighted by the synthesis gains and scaled by the sampling stride.
+ */
+export function estimateSquaredError(a: AnalysedPlane, step: number): number {
+  const { bands } = a;
+  const steps = bandSteps(bands, step);
+  const sample = sortedSample(a);
+  let e = 0;
+  for (let b = 0; b < bands.length; b++) {
+    const v = sample[b];
+    const d = steps[b];
+    const rho = bands[b].orient === 0 ? 0.5 : DEAD_ZONE_RHO;
+    // Σ over a bin class of (|c| − (m + δ)Δ)² with δ the class mean of |c|/Δ − m: Σr² − (Σr)²/n, r = |c| − mΔ.
+    let zero = 0;
+    const s = [0, 0];
+    const s2 = [0, 0];
+    const n = [0, 0];
+    for (let i = 0; i < v.length; i++) {
+      const m = Math.floor(v[i] / d + rho);
+      if (m === 0) {
+        zero += v[i] * v[i];
+        continue;
+      }
+      const r = v[i] - m * d;
+      const k = m === 1 ? 0 : 1;
+      s[k] += r;
+      s2[k] += r * r;
+      n[k]++;
+    }
+    let band = zero;
+    for (let k = 0; k < 2; k++) if (n[k]) band += s2[k] - (s[k] * s[k]) / n[k];
+    e += bands[b].gain * band;
+  }
+  return e * RATE_STRIDE;
 }

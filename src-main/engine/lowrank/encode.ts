@@ -14,9 +14,10 @@ import { psnrFromSse, psnrPlanes, ssimPlanes } from '../metrics';
 import { AUTO_PROBE_PIXELS, centredCrop } from './centred-crop';
 import { decodeImageFile } from './decode-image';
 import { budgetBytes, type EncodeOptions, type EncodeResult, type LayerSummary } from './encode-options';
-import { type EncodedPlanes, errorFigures } from './error-figures';
+import { errorFigures } from './error-figures';
 import { factorPlane, type PlaneFactors } from './factorise';
 import { imageWriter } from './image-writer';
+import { finishScan, maxOf, measuredSse, type Prepared, residualFirstFor, sumSquares } from './scan-finish';
 import { type Plan, type PlaneInput, solveBytes, solveError, solveRank } from './solve';
 import { chooseLayers, emptyBase, type LayerPlan } from './two-layer';
 
@@ -26,15 +27,6 @@ const AUTO_TILES = [32, 64, 128] as const;
 const RANK_QUANT_LOSS = 0.023;
 /** Per-sample quantisation MSE floor at a fixed rank (grey levels² on the 8-bit scale). */
 const RANK_QUANT_FLOOR_MSE = 0.01;
-
-function maxOf(bitDepth: 8 | 16): number {
-  return bitDepth === 16 ? 65535 : 255;
-}
-
-interface Prepared extends EncodedPlanes {
-  names: string[];
-  colour: boolean;
-}
 
 function prepare(img: DecodedImage): Prepared {
   const colour = img.channels >= 3;
@@ -56,6 +48,24 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
   const build = imageWriter(img, opts, prep.names);
   const meanStep = max / 1020;
   const byteBudget = budgetBytes(opts.budget, img);
+  const t0 = now();
+  const first = residualFirstFor(img, opts, prep, max, byteBudget, build, cancel);
+  if (first) {
+    // Rank 0: the Eckart–Young optimum is the whole energy, which is the base error; σ₁ was not computed.
+    const energy = prep.planes.reduce((s, p, k) => s + prep.weights[k] * sumSquares(p), 0);
+    const errors = {
+      frobenius: Math.sqrt(energy),
+      frobeniusOptimal: Math.sqrt(energy),
+      spectralBound: Number.NaN,
+    };
+    const {
+      frobenius: _f,
+      baseBytes: _b,
+      ...r
+    } = finishScan(img, prep, entropy, opts, build, first.basePlanes, first.residual, first.file);
+    progress('done', 1);
+    return { ...r, errors, factorMs: 0, encodeMs: now() - t0, layers: first.layers };
+  }
   const probed =
     opts.tile === 'auto' && opts.budget.kind !== 'rank' ? probeTile(img, opts, byteBudget) : undefined;
   const tiles: number[] =
@@ -155,32 +165,9 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
   const basePlanes = layered ? layered.basePlanes : best.plan.planes;
   const residual = layered?.residual;
   progress('write', 0.95);
-  let bytes = build(basePlanes, false, residual);
-  let decoded = decodeImageFile(bytes, img.file);
-  const colourSamples = img.planes.slice(0, prep.colour ? 3 : 1);
-  const lossless = sameSamples(decoded.samples, img.planes);
-  if (lossless) {
-    bytes = build(basePlanes, true, residual);
-    decoded = decodeImageFile(bytes, img.file);
-  }
+  const { frobenius, baseBytes, ...r } = finishScan(img, prep, entropy, opts, build, basePlanes, residual);
   encodeMs += now() - t2;
-  const outPlanes = decoded.samples.slice(0, colourSamples.length);
-  const psnr = psnrPlanes(colourSamples, outPlanes, max);
-  const ssim =
-    width >= 11 && height >= 11 ? ssimPlanes(colourSamples, outPlanes, width, height, max) : Number.NaN;
-  let sse = 0;
-  for (let c = 0; c < colourSamples.length; c++)
-    for (let i = 0; i < colourSamples[c].length; i++) {
-      const d = colourSamples[c][i] - outPlanes[c][i];
-      sse += d * d;
-    }
-  const ranks = basePlanes.map((p, k) => ({
-    channel: prep.names[k],
-    tile: p.tile,
-    ranks: Int32Array.from(p.tiles, (t) => t.u.length),
-  }));
-  const errors = errorFigures(best.factors, ranks, prep, Math.sqrt(sse), basePlanes[0].tile, layered);
-  const baseBytes = encodePlanes(basePlanes, entropy, opts.compressors).reduce((s, b) => s + b.length, 0);
+  const errors = errorFigures(best.factors, r.ranks, prep, frobenius, basePlanes[0].tile, layered);
   const layers: LayerSummary = {
     baseBytes,
     residualBytes: residual ? residual.bytes.reduce((s, b) => s + b.length, 0) : 0,
@@ -190,19 +177,7 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
     residualEncodes: layered?.residualEncodes ?? 0,
   };
   progress('done', 1);
-  return {
-    bytes,
-    header: decoded.header,
-    decoded,
-    ranks,
-    psnr,
-    ssim,
-    errors,
-    factorMs,
-    encodeMs,
-    lossless,
-    layers,
-  };
+  return { ...r, errors, factorMs, encodeMs, layers };
 }
 
 /** For large scans: pick the auto tile size on a centred crop at the same bits per pixel or floor. */
@@ -226,13 +201,6 @@ function wholePlaneRank(b: Budget, bytes: number | undefined, width: number, hei
   if (b.kind === 'rank') return Math.min(side, b.rank);
   if (bytes !== undefined) return Math.min(side, Math.ceil((8 * bytes) / (width + height)) + 16);
   return Math.min(side, Math.max(64, Math.ceil(side / 3)));
-}
-
-function sameSamples(a: Float32Array[], b: Float32Array[]): boolean {
-  if (a.length !== b.length) return false;
-  for (let c = 0; c < a.length; c++)
-    for (let i = 0; i < a[c].length; i++) if (a[c][i] !== b[c][i]) return false;
-  return true;
 }
 
 function solveFor(
@@ -353,17 +321,4 @@ function emptyPlane(inp: PlaneInput): QuantPlane {
     meanStep: f.meanStep,
     tiles: f.tiles.map((t) => ({ meanQ: t.meanQ, u: [], v: [] })),
   };
-}
-
-/** Weighted squared error of a built file against the source in the factor domain's weighting (RGB SSE). */
-function measuredSse(bytes: Uint8Array, img: DecodedImage, prep: Prepared): number {
-  const d = decodeImageFile(bytes, img.file);
-  const nc = prep.colour ? 3 : 1;
-  let s = 0;
-  for (let c = 0; c < nc; c++)
-    for (let i = 0; i < img.planes[c].length; i++) {
-      const e = img.planes[c][i] - d.samples[c][i];
-      s += e * e;
-    }
-  return s;
 }

@@ -1,0 +1,245 @@
+/**
+ * The residual-only shortcut of the two-layer file for large scans: decide from statistics whether a low-rank
+ * base is worth factoring at all, and when it is not, code the scan as a residual layer alone (rank 0) without
+ * factoring the whole plane, with at most {@link MAX_CODES} real encodes of the whole file.
+ *
+ * Decision (a prediction, not a trial of the whole file): on a centred crop of {@link CROP_SIDE}² pixels at the
+ * same bits per pixel (or, under a PSNR floor, at the bytes the wavelet needs there for the floor),
+ * - the wavelet coder's squared error at those bytes: its rate model (estimateBits, calibrated by ≤ 3 real
+ *   encodes of the small crop) and the exact transform-domain error of the coded crop;
+ * - the base layer's estimated squared error at the same bytes: tiles of {@link CROP_TILES} factored on the
+ *   crop, and the coarse step scan of the rate–distortion search (prefix energies of the quantised components
+ *   against their cost-model bits; estimate only, ratio 1, tile means and headers not charged, so the
+ *   estimate favours the base).
+ * The base is skipped when the wavelet's error is below {@link MARGIN} times the base's. Equal-slope
+ * reasoning (Shoham & Gersho, IEEE Trans. ASSP 36(9):1445–1453, 1988): a base component is only worth its
+ * bits on top of the residual if it removes more error per bit than the wavelet does at the budget; when the
+ * base alone is clearly worse at every byte count near the budget, a mixed split was not chosen by the full
+ * search on any of our test images (mixed won only where the two were within 6%; measured on the fixtures
+ * camera, moon, page, text and phantom at 0.1–1 bpp with the full search of ./two-layer).
+ */
+import type { Budget } from '../../contract';
+import type { QuantPlane } from '../codec/quantised';
+import {
+  type AnalysedPlane,
+  analysePlane,
+  codeAnalysed,
+  codedSquaredError,
+  estimateSquaredError,
+  quantiseAnalysed,
+} from '../codec/wavelet-plane';
+import { psnrFromSse } from '../metrics';
+import type { LayerSummary } from './encode-options';
+import { factorPlane } from './factorise';
+import { fitResidual, tidy } from './residual-fit';
+import { estimateErrorAtBytes, type PlaneInput } from './solve';
+import { emptyBase } from './two-layer';
+
+/** Side of the centred crop the decision is taken on. */
+const CROP_SIDE = 512;
+/** Tile sides of the base estimate on the crop. */
+const CROP_TILES = [32, 64] as const;
+/** Skip the base when the wavelet's predicted error is below this share of the base's. */
+const MARGIN = 0.8;
+/** Most real encodes of the whole residual layer under a PSNR floor. */
+const MAX_CODES = 3;
+/** Bytes the header may grow by per plane once a residual step is written into it (as ./two-layer). */
+const STEP_SLACK = 24;
+
+export interface ResidualFirstInput {
+  /** The coded planes (gray, or Y, Cb, Cr) and each one's share of the reported squared error. */
+  planes: ArrayLike<number>[];
+  weights: number[];
+  width: number;
+  height: number;
+  maxValue: number;
+  budget: Budget;
+  /** The byte budget, for byte, percent and bpp budgets. */
+  byteBudget?: number;
+  build: (base: QuantPlane[], residual?: { steps: number[]; bytes: Uint8Array[] }) => Uint8Array;
+  /** Squared error (RGB or gray samples, rounded as written) of a built file against the source. */
+  measuredSse: (bytes: Uint8Array) => number;
+  cancel: () => void;
+}
+
+export interface ResidualOnly {
+  basePlanes: QuantPlane[];
+  residual: { steps: number[]; bytes: Uint8Array[] };
+  /** The complete file, when it was built and checked here. */
+  file?: Uint8Array;
+  layers: LayerSummary;
+  /** The decision's figures on the crop (weighted squared errors at equal bytes). */
+  decision: { waveletSse: number; baseSse: number; cropBytes: number };
+}
+
+/** A centred w×h crop of each plane. */
+function cropPlanes(planes: ArrayLike<number>[], width: number, height: number, w: number, h: number) {
+  const x0 = (width - w) >> 1;
+  const y0 = (height - h) >> 1;
+  return planes.map((p) => {
+    const out = new Float64Array(w * h);
+    for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) out[y * w + x] = p[(y0 + y) * width + x0 + x];
+    return out;
+  });
+}
+
+const stepScales = (weights: number[]) => weights.map((w) => Math.sqrt(weights[0] / w));
+
+/** Squared error the samples' rounding to integers adds to a float reconstruction, per sample (uniform, 1/12). */
+const ROUNDING_MSE = 1 / 12;
+
+/** Target weighted squared error of a PSNR floor over `count` samples. */
+function floorSse(db: number, count: number, maxValue: number): number {
+  return count * maxValue * maxValue * 10 ** (-db / 10);
+}
+
+/**
+ * Step d (scaled per plane) whose exact transform-domain weighted error is about `target`: bisection on log d
+ * over the sampled error estimate, calibrated by one exact quantisation (no range coding).
+ */
+function stepForError(analysed: AnalysedPlane[], weights: number[], target: number): number {
+  const scales = stepScales(weights);
+  const est = (d: number) =>
+    analysed.reduce((s, a, k) => s + weights[k] * estimateSquaredError(a, d * scales[k]), 0);
+  const exact = (d: number) =>
+    analysed.reduce(
+      (s, a, k) => s + weights[k] * codedSquaredError(a, quantiseAnalysed(a, tidy(d * scales[k]))),
+      0,
+    );
+  const solve = (t: number) => {
+    let lo = Math.log2(1e-3);
+    let hi = Math.log2(1e6);
+    for (let i = 0; i < 30; i++) {
+      const mid = (lo + hi) / 2;
+      if (est(2 ** mid) > t) hi = mid;
+      else lo = mid;
+    }
+    return 2 ** lo;
+  };
+  const d0 = solve(target);
+  const e0 = est(d0);
+  const ratio = e0 > 0 ? exact(d0) / e0 : 1;
+  return solve(target / (ratio > 0 ? ratio : 1));
+}
+
+/** Code every plane at step d (scaled per plane): steps, bytes and the exact weighted transform-domain error. */
+function codeAll(analysed: AnalysedPlane[], weights: number[], d: number) {
+  const scales = stepScales(weights);
+  const steps = analysed.map((_, k) => tidy(d * scales[k]));
+  const coded = analysed.map((a, k) => codeAnalysed(a, steps[k], 2));
+  const sse = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
+  return {
+    steps,
+    bytes: coded.map((c) => c.bytes),
+    sse,
+    size: coded.reduce((s, c) => s + c.bytes.length, 0),
+  };
+}
+
+/**
+ * The residual-only file when the crop predicts that a base is not worth its bytes; undefined when a base
+ * may pay (the caller then runs the full two-layer search) or when the budget kind is not handled here.
+ */
+export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined {
+  const { planes, weights, width, height, maxValue, budget, byteBudget, cancel } = inp;
+  if (byteBudget === undefined && budget.kind !== 'psnr') return undefined;
+  const nc = planes.length;
+  const cw = Math.min(width, CROP_SIDE);
+  const ch = Math.min(height, CROP_SIDE);
+  const crop = cropPlanes(planes, width, height, cw, ch);
+  const cropAnalysed = crop.map((p) => analysePlane(p, cw, ch));
+  const scales = stepScales(weights);
+  let cropBytes: number;
+  let waveletSse: number;
+  let ratio = 0.8;
+  if (byteBudget !== undefined) {
+    cropBytes = (byteBudget * cw * ch) / (width * height);
+    const { fit, ratio: r } = fitResidual(cropAnalysed, weights, scales, cropBytes, ratio, cancel);
+    if (!fit) return undefined;
+    ratio = r;
+    waveletSse = fit.sse;
+  } else {
+    const db = (budget as { db: number }).db;
+    const target = floorSse(db, cw * ch * nc, maxValue) - cw * ch * nc * ROUNDING_MSE;
+    if (!(target > 0)) return undefined;
+    const c = codeAll(cropAnalysed, weights, stepForError(cropAnalysed, weights, target));
+    cropBytes = c.size;
+    waveletSse = c.sse;
+  }
+  cancel();
+  let baseSse = Number.POSITIVE_INFINITY;
+  for (const tile of CROP_TILES) {
+    const inputs: PlaneInput[] = crop.map((p, k) => ({
+      factors: factorPlane(p, cw, ch, { tile, meanRemoval: true, meanStep: maxValue / 1020 }),
+      weight: weights[k],
+      stepScale: scales[k],
+    }));
+    baseSse = Math.min(baseSse, estimateErrorAtBytes(inputs, cropBytes, maxValue));
+  }
+  const decision = { waveletSse, baseSse, cropBytes };
+  if (!(waveletSse < MARGIN * baseSse)) return undefined;
+  cancel();
+  const basePlanes = planes.map(() => emptyBase(width, height));
+  const analysed = planes.map((p) => analysePlane(p, width, height));
+  const summary = (
+    residual: { steps: number[]; bytes: Uint8Array[] },
+    fileBytes: number,
+    sse: number,
+    encodes: number,
+  ) => {
+    const residualBytes = residual.bytes.reduce((s, b) => s + b.length, 0);
+    const chosen = {
+      kind: 'residual-only' as const,
+      baseComponents: 0,
+      baseBytes: fileBytes - residualBytes,
+      residualBytes,
+      residualStep: residual.steps[0],
+      fileBytes,
+      sse,
+    };
+    return {
+      basePlanes,
+      residual,
+      layers: {
+        baseBytes: 0,
+        residualBytes,
+        residualSteps: residual.steps,
+        chosen: chosen.kind,
+        candidates: [chosen],
+        residualEncodes: encodes,
+      },
+      decision,
+    };
+  };
+  if (byteBudget !== undefined) {
+    const frame = inp.build(basePlanes, {
+      steps: planes.map(() => 1),
+      bytes: planes.map(() => new Uint8Array(0)),
+    }).length;
+    const target = byteBudget - frame - STEP_SLACK * nc;
+    if (target < 8 * nc) return undefined;
+    const { fit } = fitResidual(analysed, weights, scales, target, ratio, cancel);
+    if (!fit) return undefined;
+    const residual = { steps: fit.steps, bytes: fit.bytes };
+    const file = inp.build(basePlanes, residual);
+    if (file.length > byteBudget) return undefined;
+    return { ...summary(residual, file.length, fit.sse, fit.codes), file };
+  }
+  // PSNR floor: aim the float error under the floor less the rounding's share, check on the decoded file.
+  const db = (budget as { db: number }).db;
+  const count = width * height * nc;
+  const floor = floorSse(db, count, maxValue);
+  let aim = floor - count * ROUNDING_MSE;
+  if (!(aim > 0)) return undefined;
+  for (let i = 0; i < MAX_CODES; i++) {
+    cancel();
+    const c = codeAll(analysed, weights, stepForError(analysed, weights, aim));
+    const residual = { steps: c.steps, bytes: c.bytes };
+    const file = inp.build(basePlanes, residual);
+    const measured = inp.measuredSse(file);
+    if (psnrFromSse(measured, count, maxValue) >= db)
+      return { ...summary(residual, file.length, c.sse, i + 1), file };
+    aim *= (floor / measured) * 0.995;
+  }
+  return undefined;
+}

@@ -1,0 +1,125 @@
+/**
+ * Fitting a wavelet-coded residual layer (../codec/wavelet-plane) to a byte target: a histogram rate model
+ * (estimateBits) calibrated by real encodes, with at most {@link MAX_RESIDUAL_CODES} real encodes of every
+ * plane, and the slope λ (squared error removed per bit) measured from those encodes. Used by ./two-layer for
+ * each candidate base and by ./residual-first for the residual-only file.
+ */
+import {
+  type AnalysedPlane,
+  type CodedCoefficients,
+  codeAnalysed,
+  codedSquaredError,
+  estimateBits,
+} from '../codec/wavelet-plane';
+
+/** Most real encodes of the residual (all planes) per candidate. */
+const MAX_RESIDUAL_CODES = 3;
+
+/** Round a step to 6 significant digits, so the header holds exactly the value the coder used. */
+export const tidy = (x: number) => Number(x.toPrecision(6));
+
+export interface Fitted {
+  steps: number[];
+  bytes: Uint8Array[];
+  coded: CodedCoefficients[];
+  sse: number;
+  codes: number;
+  /** (bits, weighted squared error) of the real encodes, for the slope. */
+  points: Array<{ bits: number; sse: number }>;
+}
+
+/**
+ * The residual at the smallest step whose coded size is ≤ `target` bytes (summed over planes), using the
+ * calibrated rate model and at most MAX_RESIDUAL_CODES real encodes (a coarser fallback may add one more).
+ */
+export function fitResidual(
+  analysed: AnalysedPlane[],
+  weights: number[],
+  scales: number[],
+  target: number,
+  ratio0: number,
+  cancel: () => void,
+): { fit?: Fitted; ratio: number } {
+  const estimate = (d: number) => analysed.reduce((s, a, k) => s + estimateBits(a, d * scales[k]), 0) / 8;
+  const code = (d: number) => {
+    cancel();
+    const coded = analysed.map((a, k) => codeAnalysed(a, tidy(d * scales[k]), 2));
+    const bytes = coded.map((c) => c.bytes);
+    const size = bytes.reduce((s, b) => s + b.length, 0);
+    const sse = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
+    return { steps: analysed.map((_, k) => tidy(d * scales[k])), bytes, coded, size, sse };
+  };
+  /** Step whose calibrated estimate is `bytes` (bisection on log Δ; the estimate falls as Δ grows). */
+  const stepFor = (bytes: number, ratio: number) => {
+    let lo = Math.log2(1e-3);
+    let hi = Math.log2(1e6);
+    for (let i = 0; i < 24; i++) {
+      const mid = (lo + hi) / 2;
+      if (estimate(2 ** mid) * ratio > bytes) lo = mid;
+      else hi = mid;
+    }
+    return 2 ** hi;
+  };
+  let ratio = ratio0;
+  let best: Fitted | undefined;
+  const points: Fitted['points'] = [];
+  let codes = 0;
+  let aim = target;
+  let lastStep = 0;
+  const tried: Array<{ l: number; size: number }> = [];
+  for (let i = 0; i < MAX_RESIDUAL_CODES; i++) {
+    const d = tried.length >= 2 ? (secant(tried, aim) ?? stepFor(aim, ratio)) : stepFor(aim, ratio);
+    if (d === lastStep) break;
+    lastStep = d;
+    const r = code(d);
+    codes++;
+    points.push({ bits: 8 * r.size, sse: r.sse });
+    tried.push({ l: Math.log2(d), size: r.size });
+    const est = estimate(d);
+    if (est > 0) ratio = r.size / est;
+    if (r.size <= target && (!best || r.sse < best.sse))
+      best = { steps: r.steps, bytes: r.bytes, coded: r.coded, sse: r.sse, codes, points };
+    if (r.size <= target && r.size >= target * 0.99) break;
+    // Aim a little under the budget so the next encode is likely to fit.
+    aim = target * 0.995;
+  }
+  if (!best) {
+    // The model kept overshooting: walk the step up by quarter octaves until it fits (rare).
+    let d = stepFor(target * 0.9, ratio);
+    for (let i = 0; i < 24 && !best; i++, d *= 2 ** 0.25) {
+      const r = code(d);
+      codes++;
+      points.push({ bits: 8 * r.size, sse: r.sse });
+      if (r.size <= target)
+        best = { steps: r.steps, bytes: r.bytes, coded: r.coded, sse: r.sse, codes, points };
+    }
+  }
+  if (best) best.codes = codes;
+  return { fit: best, ratio };
+}
+
+/**
+ * Step by secant interpolation of log size over log Δ through the two real encodes nearest `aim` (the rate
+ * model's error is smooth in Δ, so after two encodes the line between them lands closer than the
+ * recalibrated model; common practice in rate control). Undefined when the two sizes are equal.
+ */
+function secant(tried: Array<{ l: number; size: number }>, aim: number): number | undefined {
+  const [p, q] = [...tried]
+    .filter((t) => t.size > 0)
+    .sort((a, b) => Math.abs(Math.log(a.size / aim)) - Math.abs(Math.log(b.size / aim)));
+  if (!q || p.size === q.size || p.l === q.l) return undefined;
+  const l = p.l + ((Math.log(aim) - Math.log(p.size)) * (q.l - p.l)) / (Math.log(q.size) - Math.log(p.size));
+  return Number.isFinite(l) ? 2 ** l : undefined;
+}
+
+/** λ from the two real encodes nearest the budget: squared error removed per extra bit. */
+export function slopeOf(points: Fitted['points']): number | undefined {
+  if (points.length < 2) return undefined;
+  const s = [...points].sort((a, b) => a.bits - b.bits);
+  let best: number | undefined;
+  for (let i = 1; i < s.length; i++) {
+    const db = s[i].bits - s[i - 1].bits;
+    if (db > 0 && s[i - 1].sse > s[i].sse) best = (s[i - 1].sse - s[i].sse) / db;
+  }
+  return best;
+}

@@ -1,0 +1,138 @@
+/**
+ * The end of a whole-scan encode (./encode): the residual-only shortcut where it applies (./residual-first),
+ * then writing the file, decoding it with the real reader and measuring it, so every figure in the report is
+ * measured on the file as written.
+ */
+import type { DecodedImage } from '../../contract';
+import { encodePlanes, RESIDUAL_MAX_PIXELS } from '../codec/image-file';
+import type { QuantPlane } from '../codec/quantised';
+import { psnrPlanes, ssimPlanes } from '../metrics';
+import { AUTO_PROBE_PIXELS } from './centred-crop';
+import { decodeImageFile } from './decode-image';
+import type { EncodeOptions } from './encode-options';
+import type { EncodedPlanes } from './error-figures';
+import type { ImageBuild } from './image-writer';
+import { residualFirst } from './residual-first';
+
+/** The coded planes of a scan with their names and weights. */
+export interface Prepared extends EncodedPlanes {
+  names: string[];
+  colour: boolean;
+}
+
+export function maxOf(bitDepth: 8 | 16): number {
+  return bitDepth === 16 ? 65535 : 255;
+}
+
+/**
+ * Write the file, decode it with the real reader (once more with the lossless flag when it decodes to the
+ * source exactly) and measure it: PSNR, SSIM (once, at full resolution), the achieved Frobenius error, ranks
+ * and the base layer's bytes. `file` is the already built file, when the caller has it.
+ */
+export function finishScan(
+  img: DecodedImage,
+  prep: Prepared,
+  entropy: NonNullable<EncodeOptions['entropy']>,
+  opts: EncodeOptions,
+  build: ImageBuild,
+  basePlanes: QuantPlane[],
+  residual: { steps: number[]; bytes: Uint8Array[] } | undefined,
+  file?: Uint8Array,
+) {
+  const { width, height } = img;
+  const max = maxOf(img.bitDepth);
+  let bytes = file ?? build(basePlanes, false, residual);
+  let decoded = decodeImageFile(bytes, img.file);
+  const colourSamples = img.planes.slice(0, prep.colour ? 3 : 1);
+  const lossless = sameSamples(decoded.samples, img.planes);
+  if (lossless) {
+    bytes = build(basePlanes, true, residual);
+    decoded = decodeImageFile(bytes, img.file);
+  }
+  const outPlanes = decoded.samples.slice(0, colourSamples.length);
+  const psnr = psnrPlanes(colourSamples, outPlanes, max);
+  const ssim =
+    width >= 11 && height >= 11 ? ssimPlanes(colourSamples, outPlanes, width, height, max) : Number.NaN;
+  let sse = 0;
+  for (let c = 0; c < colourSamples.length; c++)
+    for (let i = 0; i < colourSamples[c].length; i++) {
+      const d = colourSamples[c][i] - outPlanes[c][i];
+      sse += d * d;
+    }
+  const ranks = basePlanes.map((p, k) => ({
+    channel: prep.names[k],
+    tile: p.tile,
+    ranks: Int32Array.from(p.tiles, (t) => t.u.length),
+  }));
+  const baseBytes = encodePlanes(basePlanes, entropy, opts.compressors).reduce((s, b) => s + b.length, 0);
+  return {
+    bytes,
+    header: decoded.header,
+    decoded,
+    ranks,
+    psnr,
+    ssim,
+    lossless,
+    frobenius: Math.sqrt(sse),
+    baseBytes,
+  };
+}
+
+/** The residual-only shortcut of ./residual-first, where it applies: large scans, two layers allowed. */
+export function residualFirstFor(
+  img: DecodedImage,
+  opts: EncodeOptions,
+  prep: Prepared,
+  max: number,
+  byteBudget: number | undefined,
+  build: ImageBuild,
+  cancel: () => void,
+) {
+  const { width, height } = img;
+  const kind = opts.budget.kind;
+  if (
+    opts.layers !== 'auto' ||
+    width * height <= AUTO_PROBE_PIXELS * 1.5 ||
+    width * height > RESIDUAL_MAX_PIXELS
+  )
+    return undefined;
+  if (!(kind === 'bytes' || kind === 'bpp' || kind === 'percent' || kind === 'psnr')) return undefined;
+  return residualFirst({
+    planes: prep.planes,
+    weights: prep.weights,
+    width,
+    height,
+    maxValue: max,
+    budget: opts.budget,
+    byteBudget,
+    build: (planes, residual) => build(planes, false, residual),
+    measuredSse: (bytes) => measuredSse(bytes, img, prep),
+    cancel,
+  });
+}
+
+export function sumSquares(p: ArrayLike<number>): number {
+  let s = 0;
+  for (let i = 0; i < p.length; i++) s += p[i] * p[i];
+  return s;
+}
+
+function sameSamples(a: Float32Array[], b: Float32Array[]): boolean {
+  if (a.length !== b.length) return false;
+  for (let c = 0; c < a.length; c++)
+    for (let i = 0; i < a[c].length; i++) if (a[c][i] !== b[c][i]) return false;
+  return true;
+}
+
+/** Weighted squared error of a built file against the source in the factor domain's weighting (RGB SSE). */
+export function measuredSse(bytes: Uint8Array, img: DecodedImage, prep: Prepared): number {
+  const d = decodeImageFile(bytes, img.file);
+  const nc = prep.colour ? 3 : 1;
+  let s = 0;
+  for (let c = 0; c < nc; c++)
+    for (let i = 0; i < img.planes[c].length; i++) {
+      const e = img.planes[c][i] - d.samples[c][i];
+      s += e * e;
+    }
+  return s;
+}
