@@ -37,11 +37,10 @@ const MIN_OFFSET_COUNT = 8;
 /** Reconstruction offsets are multiples of 1/unit of the step, within [min, max]. */
 const OFFSET = { unit: 32, min: -16, max: 20 } as const;
 
-/** Neighbourhood sum → bin: 0, 1, 2, 3, 4–5, 6–7, 8–11, 12–17, 18–29, ≥ 30. */
+/** Neighbourhood sum → bin: 0, 1, 2, 3, 4–5, 6–7, 8–11, 12–17, 18–29 (≥ 30: bin 9). */
 const NB_LUT = Uint8Array.from({ length: 30 }, (_, s) =>
   s < 4 ? s : s < 6 ? 4 : s < 8 ? 5 : s < 12 ? 6 : s < 18 ? 7 : 8,
 );
-const nbBin = (s: number) => (s < 30 ? NB_LUT[s] : 9);
 
 /** Either direction of the range coder behind one interface: the encoder writes `v` and returns it. */
 interface BitIo {
@@ -111,7 +110,9 @@ function codeCoefficients(io: BitIo, q: Int32Array, width: number, bands: Band[]
   const mm = new rc.IntModel(3 * MAG_BINS);
   const byKey = new Map<string, Band>();
   for (const b of bands) byKey.set(`${b.orient}:${b.level}`, b);
-  const cap = (v: number) => (v < 0 ? (v < -15 ? 15 : -v) : v > 15 ? 15 : v);
+  // min(|q|, 15) of every detail coefficient coded so far (the contexts only read coded positions: earlier
+  // in the band's raster order, the parent band and the siblings coded before this band), 0 elsewhere.
+  const mag = new Uint8Array(q.length);
   for (const b of bands) {
     if (b.orient === 0) {
       codeLL(io, q, width, b);
@@ -124,41 +125,42 @@ function codeCoefficients(io: BitIo, q: Int32Array, width: number, bands: Band[]
       .filter((o) => o < b.orient)
       .map((o) => byKey.get(`${o}:${b.level}`))
       .filter((s): s is Band => s !== undefined);
+    const [s1, s2] = sibs;
+    const zBase = cls * NB_BINS;
+    const sBase = (b.orient - 1) * 9;
     for (let y = 0; y < b.h; y++) {
       const row = (b.y0 + y) * width + b.x0;
+      const pRow = parent ? (parent.y0 + Math.min(parent.h - 1, y >> 1)) * width + parent.x0 : -1;
+      const pLast = parent ? parent.w - 1 : 0;
+      const s1Row = s1 && y < s1.h ? (s1.y0 + y) * width + s1.x0 : -1;
+      const s2Row = s2 && y < s2.h ? (s2.y0 + y) * width + s2.x0 : -1;
       for (let x = 0; x < b.w; x++) {
         const idx = row + x;
-        const l = x > 0 ? cap(q[idx - 1]) : 0;
-        const u = y > 0 ? cap(q[idx - width]) : 0;
+        const l = x > 0 ? mag[idx - 1] : 0;
+        const u = y > 0 ? mag[idx - width] : 0;
         let s = 2 * (l + u);
         if (y > 0) {
-          if (x > 0) s += cap(q[idx - width - 1]);
-          if (x + 1 < b.w) s += cap(q[idx - width + 1]);
+          if (x > 0) s += mag[idx - width - 1];
+          if (x + 1 < b.w) s += mag[idx - width + 1];
         }
-        if (x > 1) s += cap(q[idx - 2]);
-        if (y > 1) s += cap(q[idx - 2 * width]);
-        let ps = 0;
-        if (parent)
-          ps +=
-            2 *
-            cap(
-              q[
-                (parent.y0 + Math.min(parent.h - 1, y >> 1)) * width +
-                  parent.x0 +
-                  Math.min(parent.w - 1, x >> 1)
-              ],
-            );
-        for (const sb of sibs) if (x < sb.w && y < sb.h) ps += cap(q[(sb.y0 + y) * width + sb.x0 + x]);
+        if (x > 1) s += mag[idx - 2];
+        if (y > 1) s += mag[idx - 2 * width];
+        let ps = pRow >= 0 ? 2 * mag[pRow + (x >> 1 < pLast ? x >> 1 : pLast)] : 0;
+        if (s1Row >= 0 && x < s1.w) ps += mag[s1Row + x];
+        if (s2Row >= 0 && x < s2.w) ps += mag[s2Row + x];
         const pc = ps === 0 ? 0 : ps <= 2 ? 1 : 2;
         const v = q[idx];
-        const z = io.bit(zm[(cls * NB_BINS + nbBin(s)) * PS_BINS + pc], v !== 0 ? 1 : 0);
+        const z = io.bit(zm[(zBase + (s < 30 ? NB_LUT[s] : 9)) * PS_BINS + pc], v !== 0 ? 1 : 0);
         if (!z) continue;
-        const sc = (sgn(x > 0 ? q[idx - 1] : 0) + 1) * 3 + sgn(y > 0 ? q[idx - width] : 0) + 1;
-        const neg = io.bit(sm[(b.orient - 1) * 9 + sc], v < 0 ? 1 : 0);
+        const left = x > 0 ? q[idx - 1] : 0;
+        const up = y > 0 ? q[idx - width] : 0;
+        const sc = (left > 0 ? 2 : left < 0 ? 0 : 1) * 3 + (up > 0 ? 2 : up < 0 ? 0 : 1);
+        const neg = io.bit(sm[sBase + sc], v < 0 ? 1 : 0);
         const act = l + u + (ps >> 1);
         const mc = act === 0 ? 0 : act <= 1 ? 1 : act <= 3 ? 2 : act <= 6 ? 3 : act <= 12 ? 4 : 5;
         const a = io.magnitude(mm, Math.abs(v) - 1, group * MAG_BINS + mc) + 1;
         q[idx] = neg ? -a : a;
+        mag[idx] = a > 15 ? 15 : a;
       }
     }
   }

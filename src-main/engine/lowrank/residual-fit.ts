@@ -28,6 +28,19 @@ export interface Fitted {
   points: Array<{ bits: number; sse: number }>;
 }
 
+/** How closely {@link fitResidual} lands under the target: stop at ≥ `close`·target, aim retries at `aim`·target. */
+export interface FitTolerance {
+  close: number;
+  aim: number;
+  /**
+   * false: measure the squared error of every real encode (for the slope λ and the choice among encodes);
+   * true: only of the encode kept, which is the largest that fits (a smaller step never removes less error).
+   */
+  lazy: boolean;
+}
+
+const EXACT: FitTolerance = { close: 0.99, aim: 0.995, lazy: false };
+
 /**
  * The residual at the smallest step whose coded size is ≤ `target` bytes (summed over planes), using the
  * calibrated rate model and at most MAX_RESIDUAL_CODES real encodes (a coarser fallback may add one more).
@@ -39,14 +52,17 @@ export function fitResidual(
   target: number,
   ratio0: number,
   cancel: () => void,
+  tol: FitTolerance = EXACT,
 ): { fit?: Fitted; ratio: number } {
+  const sseOf = (coded: CodedCoefficients[]) =>
+    coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
   const estimate = (d: number) => analysed.reduce((s, a, k) => s + estimateBits(a, d * scales[k]), 0) / 8;
   const code = (d: number) => {
     cancel();
     const coded = analysed.map((a, k) => codeAnalysed(a, tidy(d * scales[k]), 2));
     const bytes = coded.map((c) => c.bytes);
     const size = bytes.reduce((s, b) => s + b.length, 0);
-    const sse = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
+    const sse = tol.lazy ? Number.NaN : sseOf(coded);
     return { steps: analysed.map((_, k) => tidy(d * scales[k])), bytes, coded, size, sse };
   };
   /** Step whose calibrated estimate is `bytes` (bisection on log Δ; the estimate falls as Δ grows). */
@@ -77,11 +93,12 @@ export function fitResidual(
     tried.push({ l: Math.log2(d), size: r.size });
     const est = estimate(d);
     if (est > 0) ratio = r.size / est;
-    if (r.size <= target && (!best || r.sse < best.sse))
+    const better = tol.lazy ? r.size > sizeOf(best) : r.sse < (best?.sse ?? Number.POSITIVE_INFINITY);
+    if (r.size <= target && (!best || better))
       best = { steps: r.steps, bytes: r.bytes, coded: r.coded, sse: r.sse, codes, points };
-    if (r.size <= target && r.size >= target * 0.99) break;
+    if (r.size <= target && r.size >= target * tol.close) break;
     // Aim a little under the budget so the next encode is likely to fit.
-    aim = target * 0.995;
+    aim = target * tol.aim;
   }
   if (!best) {
     // The model kept overshooting: walk the step up by quarter octaves until it fits (rare).
@@ -94,8 +111,15 @@ export function fitResidual(
         best = { steps: r.steps, bytes: r.bytes, coded: r.coded, sse: r.sse, codes, points };
     }
   }
-  if (best) best.codes = codes;
+  if (best) {
+    best.codes = codes;
+    if (tol.lazy) best.sse = sseOf(best.coded);
+  }
   return { fit: best, ratio };
+}
+
+function sizeOf(f: Fitted | undefined): number {
+  return f ? f.bytes.reduce((s, b) => s + b.length, 0) : -1;
 }
 
 /**

@@ -8,7 +8,7 @@ import { encodePlanes, RESIDUAL_MAX_PIXELS } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
 import { psnrPlanes, ssimPlanes } from '../metrics';
 import { AUTO_PROBE_PIXELS } from './centred-crop';
-import { decodeImageFile } from './decode-image';
+import { type DecodedRkf, decodeImageFile } from './decode-image';
 import type { EncodeOptions } from './encode-options';
 import type { EncodedPlanes } from './error-figures';
 import type { ImageBuild } from './image-writer';
@@ -27,7 +27,8 @@ export function maxOf(bitDepth: 8 | 16): number {
 /**
  * Write the file, decode it with the real reader (once more with the lossless flag when it decodes to the
  * source exactly) and measure it: PSNR, SSIM (once, at full resolution), the achieved Frobenius error, ranks
- * and the base layer's bytes. `file` is the already built file, when the caller has it.
+ * and the base layer's bytes. `file` is the already built file and `decodedFile` its decoding, when the
+ * caller has them.
  */
 export function finishScan(
   img: DecodedImage,
@@ -38,11 +39,12 @@ export function finishScan(
   basePlanes: QuantPlane[],
   residual: { steps: number[]; bytes: Uint8Array[] } | undefined,
   file?: Uint8Array,
+  decodedFile?: DecodedRkf,
 ) {
   const { width, height } = img;
   const max = maxOf(img.bitDepth);
   let bytes = file ?? build(basePlanes, false, residual);
-  let decoded = decodeImageFile(bytes, img.file);
+  let decoded = decodedFile ?? decodeImageFile(bytes, img.file);
   const colourSamples = img.planes.slice(0, prep.colour ? 3 : 1);
   const lossless = sameSamples(decoded.samples, img.planes);
   if (lossless) {
@@ -97,7 +99,9 @@ export function residualFirstFor(
   )
     return undefined;
   if (!(kind === 'bytes' || kind === 'bpp' || kind === 'percent' || kind === 'psnr')) return undefined;
-  return residualFirst({
+  // The last file checked under a quality floor and its decoding, so the report does not decode it again.
+  let last: { bytes: Uint8Array; decoded: DecodedRkf } | undefined;
+  const r = residualFirst({
     planes: prep.planes,
     weights: prep.weights,
     width,
@@ -106,9 +110,13 @@ export function residualFirstFor(
     budget: opts.budget,
     byteBudget,
     build: (planes, residual) => build(planes, false, residual),
-    measuredSse: (bytes) => measuredSse(bytes, img, prep),
+    measuredSse: (bytes) => {
+      last = { bytes, decoded: decodeImageFile(bytes, img.file) };
+      return decodedSse(last.decoded, img, prep);
+    },
     cancel,
   });
+  return r && { ...r, decoded: last && last.bytes === r.file ? last.decoded : undefined };
 }
 
 export function sumSquares(p: ArrayLike<number>): number {
@@ -126,7 +134,10 @@ function sameSamples(a: Float32Array[], b: Float32Array[]): boolean {
 
 /** Weighted squared error of a built file against the source in the factor domain's weighting (RGB SSE). */
 export function measuredSse(bytes: Uint8Array, img: DecodedImage, prep: Prepared): number {
-  const d = decodeImageFile(bytes, img.file);
+  return decodedSse(decodeImageFile(bytes, img.file), img, prep);
+}
+
+function decodedSse(d: DecodedRkf, img: DecodedImage, prep: Prepared): number {
   const nc = prep.colour ? 3 : 1;
   let s = 0;
   for (let c = 0; c < nc; c++)
