@@ -1,6 +1,6 @@
 // Container 1.3 (docs/format.md): the compact binary HEAD, the packed ICC profile, coefficient coder 2 for the
-// residual; container 1.2 files written before it (test/fixtures/rkf/expected-v1.2.json) still decode to the
-// same samples; damaged 1.3 files are refused.
+// residual; container 1.2 and 1.3 files written before (test/fixtures/rkf/expected-v1.2.json, expected-v1.3.json)
+// still decode to the same samples; damaged 1.3 files are refused.
 import { createHash } from 'node:crypto';
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
@@ -170,11 +170,15 @@ describe('container 1.3 image files', () => {
   });
 });
 
-describe('container 1.2 files (coefficient coder 1) decode as they did', () => {
-  const expected = JSON.parse(readFileSync(fixture('rkf', 'expected-v1.2.json'), 'utf8'));
-  it.each(['v1.2-gray8-96x80.rkf', 'v1.2-rgb8-96x80.rkf'])('%s', (name) => {
+describe.each([
+  { minor: 2, what: 'container 1.2 files (coefficient coder 1)' },
+  { minor: 3, what: 'container 1.3 files (coefficient coder 2, written at d9c26f4)' },
+])('$what decode as they did', ({ minor }) => {
+  const expected = JSON.parse(readFileSync(fixture('rkf', `expected-v1.${minor}.json`), 'utf8'));
+  it.each([`v1.${minor}-gray8-96x80.rkf`, `v1.${minor}-rgb8-96x80.rkf`])('%s', (name) => {
     const bytes = new Uint8Array(readFileSync(fixture('rkf', name)));
-    expect(readContainer(bytes, name).version).toEqual({ major: 1, minor: 2 });
+    expect(readContainer(bytes, name).version).toEqual({ major: 1, minor });
+    expect(readImageHeader(bytes, name).header.planes.some((p) => (p.residualStep ?? 0) > 0)).toBe(true);
     const d = decodeImageFileSamples(bytes, name);
     const h = createHash('sha256');
     for (const s of d.samples) h.update(Buffer.from(s.buffer, s.byteOffset, s.byteLength));
