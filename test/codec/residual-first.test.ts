@@ -1,0 +1,116 @@
+// The residual-only shortcut of large scans (src-main/engine/lowrank/residual-first.ts): byte budgets met on disk
+// with at most 3 real encodes and no factorisation, the layers add up to the decoded file, PSNR floors met on the
+// decoded file without overshooting, and a low-rank plate is left to the full two-layer search.
+import sharp from 'sharp';
+import { beforeAll, describe, expect, it } from 'vitest';
+import type { DecodedImage } from '../../src-main/contract';
+import { readContainer } from '../../src-main/engine/codec/container';
+import { readImageHeader } from '../../src-main/engine/codec/image-file';
+import { decodePlane } from '../../src-main/engine/codec/wavelet-plane';
+import { initEngine } from '../../src-main/engine/linalg';
+import { Rng } from '../../src-main/engine/linalg/random';
+import { encodeScan } from '../../src-main/engine/lowrank/encode';
+import { residualFirst } from '../../src-main/engine/lowrank/residual-first';
+import { psnr } from '../../src-main/engine/metrics';
+import { COMPRESSORS } from '../../src-main/node/services/compress';
+import { image } from '../helpers/fixtures';
+
+beforeAll(async () => {
+  await initEngine();
+});
+
+const [W, H] = [1320, 1260];
+
+/** A 1.66-MP grey scan: camera.png (Lanczos-3 to W×H) plus seeded noise σ 1.5, as the single-scan bench's scan. */
+async function scan(): Promise<DecodedImage> {
+  const { data } = await sharp(image('camera.png'))
+    .toColourspace('b-w')
+    .extractChannel(0)
+    .resize(W, H, { fit: 'fill', kernel: 'lanczos3' })
+    .raw()
+    .toBuffer({ resolveWithObject: true });
+  const rng = new Rng(8);
+  const s = Float32Array.from(data, (v) => Math.max(0, Math.min(255, Math.round(v + 1.5 * rng.normal()))));
+  return {
+    file: 'scan.png',
+    width: W,
+    height: H,
+    channels: 1,
+    bitDepth: 8,
+    colour: 'gray',
+    hasAlpha: false,
+    planes: [s],
+    meta: { format: 'png' },
+    inputBytes: W * H,
+    rawBytes: W * H,
+    sourceSha256: '0'.repeat(64),
+  } as DecodedImage;
+}
+
+const opts = { tile: 'auto' as const, compressors: COMPRESSORS, layers: 'auto' as const };
+
+describe('residual-only shortcut on a large scan', () => {
+  let img: DecodedImage;
+  beforeAll(async () => {
+    img = await scan();
+  });
+
+  it('meets byte budgets on disk with ≤ 3 real encodes and no factorisation; the layers add up', () => {
+    for (const bpp of [0.1, 0.25, 1]) {
+      const budget = Math.floor((bpp * W * H) / 8);
+      const r = encodeScan(img, { ...opts, budget: { kind: 'bpp', bpp } });
+      expect(r.layers.chosen, `${bpp}`).toBe('residual-only');
+      expect(r.bytes.length, `${bpp}`).toBeLessThanOrEqual(budget);
+      // Landing: within 2% of the budget (the fit stops at ≥ 98.5% of the residual's share).
+      expect(r.bytes.length, `${bpp}`).toBeGreaterThan(0.98 * budget);
+      expect(r.layers.residualEncodes).toBeLessThanOrEqual(3);
+      expect(r.factorMs).toBe(0);
+      // Base (rank 0, empty) + residual = the decoded file: round/clamp of the residual plane as coded.
+      const view = readContainer(r.bytes, 'x.rkf');
+      const k = view.entries.findIndex((e) => e.type === 'RSDL');
+      const step = readImageHeader(r.bytes, 'x.rkf').header.planes[0].residualStep as number;
+      const plane = decodePlane(view.payload(k), W, H, step, 2);
+      const rebuilt = Float32Array.from(plane, (v) => Math.max(0, Math.min(255, Math.round(v))));
+      expect(Buffer.from(rebuilt.buffer).equals(Buffer.from(r.decoded.samples[0].buffer))).toBe(true);
+      expect(r.psnr).toBeCloseTo(psnr(img.planes[0], r.decoded.samples[0], 255), 9);
+    }
+  }, 300_000);
+
+  it('meets a PSNR floor on the decoded file within 0.1 dB above it, with ≤ 3 real encodes', () => {
+    for (const db of [34, 40]) {
+      const r = encodeScan(img, { ...opts, budget: { kind: 'psnr', db } });
+      expect(r.layers.chosen).toBe('residual-only');
+      expect(r.psnr).toBeGreaterThanOrEqual(db);
+      expect(r.psnr).toBeLessThan(db + 0.1);
+      expect(r.layers.residualEncodes).toBeLessThanOrEqual(3);
+    }
+  }, 300_000);
+});
+
+describe('the decision', () => {
+  it('leaves a low-rank ruled plate with smooth shading to the full two-layer search', () => {
+    // Ruled lines every 24 rows and columns on a separable shading: rank ≤ 3 plus the lines' rank, which the
+    // low-rank base codes for a few bytes and the wavelet codes only at length.
+    const [w, h] = [1100, 1000];
+    const plane = new Float64Array(w * h);
+    for (let y = 0; y < h; y++)
+      for (let x = 0; x < w; x++)
+        plane[y * w + x] =
+          y % 24 === 0 || x % 24 === 0 ? 40 : 120 + 80 * Math.sin(x / 180) * Math.cos(y / 150);
+    const r = residualFirst({
+      planes: [plane],
+      weights: [1],
+      width: w,
+      height: h,
+      maxValue: 255,
+      budget: { kind: 'bpp', bpp: 0.1 },
+      byteBudget: Math.floor((0.1 * w * h) / 8),
+      build: () => {
+        throw new Error('the shortcut should not write a file for this plate');
+      },
+      measuredSse: () => Number.NaN,
+      cancel: () => {},
+    });
+    expect(r).toBeUndefined();
+  }, 120_000);
+});
