@@ -66,8 +66,12 @@ export interface AnalysedPlane {
 /** Forward-transform a plane once, so it can be coded at several steps ({@link codeAnalysed}). */
 export function analysePlane(plane: ArrayLike<number>, width: number, height: number): AnalysedPlane {
   const n = width * height;
-  const x = Float64Array.from(plane as ArrayLike<number>);
-  if (x.length !== n) throw new RangeError(`plane has ${x.length} samples; expected ${width}×${height}`);
+  if (plane.length !== n)
+    throw new RangeError(`plane has ${plane.length} samples; expected ${width}×${height}`);
+  // A typed array's set copies without the iterator protocol Float64Array.from would walk.
+  const x = new Float64Array(n);
+  if (ArrayBuffer.isView(plane)) x.set(plane as unknown as ArrayLike<number>);
+  else for (let i = 0; i < n; i++) x[i] = plane[i];
   const levels = levelsFor(width, height);
   forwardWavelet(x, width, height, levels);
   const bands = bandsFor(width, height, levels);
@@ -142,7 +146,7 @@ export function codeAnalysed(a: AnalysedPlane, step: number, coder: PlaneCoder =
 
 /** The plane exactly as the decoder rebuilds it from {@link codeAnalysed}'s coefficients. */
 export function reconstructCoded(a: AnalysedPlane, c: CodedCoefficients): Float64Array {
-  return dequantise(c, a.width, a.height, a.levels, a.map);
+  return dequantise(c, a.width, a.height, a.levels, a.bands);
 }
 
 /**
@@ -178,14 +182,13 @@ export function decodePlane(
   const levels = levelsFor(width, height);
   const bands = bandsFor(width, height, levels);
   const steps = bandSteps(bands, step);
-  const map = bandIndexMap(width, height, bands);
   const q = new Int32Array(width * height);
   if (coder === 1) {
     decodeCoefficientsV1(bytes, q, width, bands);
-    return dequantise({ q, steps }, width, height, levels, map);
+    return dequantise({ q, steps }, width, height, levels, bands);
   }
-  const offsets = decodeCoefficientsV2(bytes, q, width, bands, map);
-  return dequantise({ q, steps, offsets }, width, height, levels, map);
+  const offsets = decodeCoefficientsV2(bytes, q, width, bands, bandIndexMap(width, height, bands));
+  return dequantise({ q, steps, offsets }, width, height, levels, bands);
 }
 
 /** Reconstruction ({@link dequantiseInto}), then the inverse transform (shared by encoder and decoder). */
@@ -194,10 +197,10 @@ function dequantise(
   width: number,
   height: number,
   levels: number,
-  map: Uint8Array,
+  bands: Band[],
 ): Float64Array {
   const x = new Float64Array(width * height);
-  dequantiseInto(c, map, x);
+  dequantiseInto(c, bands, width, x);
   inverseWavelet(x, width, height, levels);
   return x;
 }
@@ -208,20 +211,28 @@ function dequantise(
  */
 function dequantiseInto(
   c: { q: Int32Array; steps: Float64Array; offsets?: Float64Array },
-  map: Uint8Array,
+  bands: Band[],
+  width: number,
   x: Float64Array,
 ): void {
   const { q, steps, offsets } = c;
-  for (let i = 0; i < q.length; i++) {
-    const v = q[i];
-    if (v === 0) continue;
-    const bi = map[i];
-    if (!offsets) {
-      x[i] = v * steps[bi];
-      continue;
+  for (let bi = 0; bi < bands.length; bi++) {
+    const b = bands[bi];
+    const step = steps[bi];
+    const d1 = offsets ? offsets[2 * bi] : 0;
+    const d2 = offsets ? offsets[2 * bi + 1] : 0;
+    for (let y = 0; y < b.h; y++) {
+      const row = (b.y0 + y) * width + b.x0;
+      for (let i = row; i < row + b.w; i++) {
+        const v = q[i];
+        if (v === 0) continue;
+        if (!offsets) x[i] = v * step;
+        else {
+          const d = v === 1 || v === -1 ? d1 : d2;
+          x[i] = (v < 0 ? v - d : v + d) * step;
+        }
+      }
     }
-    const d = offsets[2 * bi + (v === 1 || v === -1 ? 0 : 1)];
-    x[i] = (v < 0 ? v - d : v + d) * steps[bi];
   }
 }
 
@@ -307,7 +318,7 @@ export function codedSquaredError(
 ): number {
   const { bands, map, coeffs: x } = a;
   const rec = new Float64Array(x.length);
-  dequantiseInto(c, map, rec);
+  dequantiseInto(c, bands, a.width, rec);
   const perBand = new Float64Array(bands.length);
   for (let i = 0; i < x.length; i++) {
     const d = x[i] - rec[i];

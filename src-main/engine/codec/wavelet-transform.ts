@@ -36,6 +36,25 @@ export function levelsFor(width: number, height: number): number {
   return l;
 }
 
+/**
+ * One lifting step on the split signal: highs from lows, b[i] += c·(a[i] + a[i+1]), or lows from highs,
+ * a[i] += c·(b[i−1] + b[i]); symmetric extension = clamping the neighbour index. The clamped ends are
+ * written out, so the loop bodies carry no Math.min/Math.max (same arithmetic, same order, as clamping).
+ */
+function liftHigh(a: Float64Array, na: number, b: Float64Array, nb: number, c: number): void {
+  const last = na - 1;
+  for (let i = 0; i < nb; i++) {
+    const j = i + 1 < last ? i + 1 : last;
+    b[i] += c * (a[i] + a[j]);
+  }
+}
+
+function liftLow(a: Float64Array, na: number, b: Float64Array, nb: number, c: number): void {
+  const last = nb - 1;
+  if (na > 0) a[0] += c * (b[0] + b[0 < last ? 0 : last]);
+  for (let i = 1; i < na; i++) a[i] += c * (b[i - 1] + b[i < last ? i : last]);
+}
+
 /** Forward 1-D 9/7 lifting on x[o], x[o+s], … (n samples); writes lows then highs into tmp, then back. */
 function fwd1d(x: Float64Array, o: number, s: number, n: number, tmp: Float64Array): void {
   if (n < 2) return;
@@ -45,16 +64,10 @@ function fwd1d(x: Float64Array, o: number, s: number, n: number, tmp: Float64Arr
   const H = tmp.subarray(nL);
   for (let i = 0; i < nL; i++) L[i] = x[o + 2 * i * s];
   for (let i = 0; i < nH; i++) H[i] = x[o + (2 * i + 1) * s];
-  const lift = (a: Float64Array, na: number, b: Float64Array, nb: number, c: number, bFromA: boolean) => {
-    // bFromA: update b (highs) from neighbours in a (lows): b[i] += c·(a[i] + a[i+1]).
-    // otherwise: update a (lows) from b (highs): a[i] += c·(b[i−1] + b[i]). Symmetric extension = clamping.
-    if (bFromA) for (let i = 0; i < nb; i++) b[i] += c * (a[i] + a[Math.min(i + 1, na - 1)]);
-    else for (let i = 0; i < na; i++) a[i] += c * (b[Math.max(i - 1, 0)] + b[Math.min(i, nb - 1)]);
-  };
-  lift(L, nL, H, nH, ALPHA, true);
-  lift(L, nL, H, nH, BETA, false);
-  lift(L, nL, H, nH, GAMMA, true);
-  lift(L, nL, H, nH, DELTA, false);
+  liftHigh(L, nL, H, nH, ALPHA);
+  liftLow(L, nL, H, nH, BETA);
+  liftHigh(L, nL, H, nH, GAMMA);
+  liftLow(L, nL, H, nH, DELTA);
   for (let i = 0; i < nL; i++) x[o + i * s] = L[i] / ZETA;
   for (let i = 0; i < nH; i++) x[o + (nL + i) * s] = H[i] * ZETA;
 }
@@ -67,10 +80,10 @@ function inv1d(x: Float64Array, o: number, s: number, n: number, tmp: Float64Arr
   const H = tmp.subarray(nL);
   for (let i = 0; i < nL; i++) L[i] = x[o + i * s] * ZETA;
   for (let i = 0; i < nH; i++) H[i] = x[o + (nL + i) * s] / ZETA;
-  for (let i = 0; i < nL; i++) L[i] -= DELTA * (H[Math.max(i - 1, 0)] + H[Math.min(i, nH - 1)]);
-  for (let i = 0; i < nH; i++) H[i] -= GAMMA * (L[i] + L[Math.min(i + 1, nL - 1)]);
-  for (let i = 0; i < nL; i++) L[i] -= BETA * (H[Math.max(i - 1, 0)] + H[Math.min(i, nH - 1)]);
-  for (let i = 0; i < nH; i++) H[i] -= ALPHA * (L[i] + L[Math.min(i + 1, nL - 1)]);
+  liftLow(L, nL, H, nH, -DELTA);
+  liftHigh(L, nL, H, nH, -GAMMA);
+  liftLow(L, nL, H, nH, -BETA);
+  liftHigh(L, nL, H, nH, -ALPHA);
   for (let i = 0; i < nL; i++) x[o + 2 * i * s] = L[i];
   for (let i = 0; i < nH; i++) x[o + (2 * i + 1) * s] = H[i];
 }

@@ -44,10 +44,11 @@ const MARGIN = 0.8;
 /** Most real encodes of the whole residual layer under a PSNR floor. */
 const MAX_CODES = 3;
 /**
- * Landing of the whole file's residual: stop at ≥ 98.5% of the byte target (1.5% of the bytes is about 0.04 dB
- * at 0.1–1 bpp on our test images), retries aimed at 99%, error measured on the kept encode only.
+ * Landing of the whole file's residual: stop at ≥ 98% of the byte target, retries aimed at 98.5% (the crop's
+ * calibration is typically a few per cent off, and a recalibrated second encode within about 1%; 2% of the
+ * bytes is under 0.06 dB at 0.1–1 bpp on our test images), error measured on the kept encode only.
  */
-const LANDING = { close: 0.985, aim: 0.99, lazy: true } as const;
+const LANDING = { close: 0.98, aim: 0.985, lazy: true } as const;
 /** Bytes the header may grow by per plane once a residual step is written into it (as ./two-layer). */
 const STEP_SLACK = 24;
 
