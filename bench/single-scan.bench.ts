@@ -310,6 +310,12 @@ interface RankfoldRun extends Coded {
   decoded?: Float32Array;
 }
 
+/** The layer split and the real residual encodes the CLI's --json reports, for the speed table. */
+function layersNote(json: unknown): string {
+  const l = (json as { layers?: { chosen?: string; residualEncodes?: number } } | undefined)?.layers;
+  return l?.chosen ? `; layers: ${l.chosen}, ${l.residualEncodes ?? 0} real residual encode(s)` : '';
+}
+
 function rankfoldCompress(input: string, out: string, budget: string[]) {
   const t = performance.now();
   const r = run(process.execPath, [CLI, 'compress', input, '-o', out, ...budget, '--json', '--force']);
@@ -795,9 +801,9 @@ async function main() {
             .map(([k, v]) => `${k} ${Math.round(v)}`)
             .join(', ')} ms)`
         : ''
-    } |`,
+    }${layersNote(rfLast?.json)} |`,
     `| \`opj_compress -I -r ${opjRatio.toFixed(2)} -threads 1\` (OpenJPEG ${ver.opj.match(/v\d+(\.\d+)*/)?.[0] ?? ''}) | ${(mOpj / 1000).toFixed(2)} s | ${opjMs.map((m) => (m / 1000).toFixed(2)).join(', ')} s | ${opjBytes} B (budget ${rfBytes} B) |`,
-    `| \`rankfold compress --min-psnr ${target.toFixed(2)}\` | ${(mMin / 1000).toFixed(2)} s | ${minMs.map((m) => (m / 1000).toFixed(2)).join(', ')} s | ${minJson ? `${minJson.outputBytes} B, ${f2(minJson.psnr)} dB` : 'n/a'} |`,
+    `| \`rankfold compress --min-psnr ${target.toFixed(2)}\` | ${(mMin / 1000).toFixed(2)} s | ${minMs.map((m) => (m / 1000).toFixed(2)).join(', ')} s | ${minJson ? `${minJson.outputBytes} B, ${f2(minJson.psnr)} dB${layersNote(minJson)}` : 'n/a'} |`,
     '',
     `Ratios: \`--bpp 0.25\` ${(mRf / mOpj).toFixed(2)}× OpenJPEG (goal ≤ 1×); \`--min-psnr\` ${(mMin / mOpj).toFixed(2)}× (goal ≤ 2×). Nominal budget at 0.25 bpp: ${spBudget} B.`,
     ...(minJson
