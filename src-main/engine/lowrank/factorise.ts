@@ -5,6 +5,7 @@
 
 import { type TileRect, tileGrid } from '../codec/quantised';
 import { type Backend, fullSvd, jacobiSvd, type Matrix, randomizedSvd, type SvdResult } from '../linalg';
+import type { RandomizedSvdOptions } from '../linalg/randomized-svd';
 
 export interface TileFactors {
   rect: TileRect;
@@ -79,6 +80,30 @@ export function setPlaneBackend(backend: Backend | undefined): void {
   planeBackend = backend;
 }
 
+/**
+ * The randomized SVD settings of a whole plane (f32 SIMD products, q = 2 power steps plus the 1.01×
+ * accuracy check, oversampling `planeOversample`, on the registered backend unless `backend` is given):
+ * factorPlane's, and the app's factor sets (src-main/node/server/factor.ts), so both take one path.
+ * `energy` is ‖plane‖²_F; `powerIters` (default 2) is where the check starts.
+ */
+export function planeSvdOptions(
+  k: number,
+  kmax: number,
+  o: { seed: number; energy: number; backend?: Backend; powerIters?: number },
+): RandomizedSvdOptions {
+  const q = o.powerIters ?? PLANE_POWER_ITERS;
+  return {
+    seed: o.seed,
+    precision: 'f32',
+    oversample: planeOversample(k, kmax),
+    powerIters: q,
+    accuracy: PLANE_ACCURACY,
+    maxPowerIters: Math.max(q, PLANE_MAX_POWER_ITERS),
+    frobeniusSquared: o.energy,
+    backend: o.backend ?? planeBackend,
+  };
+}
+
 /** Planes above this many pixels on the short side use the randomized SVD when the engine has it. */
 const RANDOMIZED_MIN_SIDE = 256;
 
@@ -116,16 +141,11 @@ export function factorPlane(
     else if (randomized) {
       // One component beyond the cap, so the Eckart–Young spectral bound σ_{k+1} is known at rank k.
       const k = Math.min(kmax, Math.max(1, opts.maxRank ?? 1) + 1);
-      svd = randomizedSvd(mat, k, {
-        seed: opts.seed ?? 1,
-        precision: 'f32',
-        oversample: planeOversample(k, kmax),
-        powerIters: PLANE_POWER_ITERS,
-        accuracy: PLANE_ACCURACY,
-        maxPowerIters: PLANE_MAX_POWER_ITERS,
-        frobeniusSquared: energy,
-        backend: opts.backend ?? planeBackend,
-      });
+      svd = randomizedSvd(
+        mat,
+        k,
+        planeSvdOptions(k, kmax, { seed: opts.seed ?? 1, energy, backend: opts.backend }),
+      );
     } else svd = opts.tile === 0 ? fullSvd(mat) : jacobiSvd(mat);
     const data = a instanceof Float32Array ? a : new Float32Array(a);
     tiles.push({ rect, meanQ, energy, data, s: svd.s, U: svd.U, V: svd.V });
