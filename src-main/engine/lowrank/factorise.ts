@@ -55,14 +55,16 @@ const PLANE_POWER_ITERS = 2;
 export const PLANE_ACCURACY = 1.01;
 const PLANE_MAX_POWER_ITERS = 8;
 /**
- * Oversampling p of the whole-plane path: at least 20, with l = k + p rounded up to a multiple of 8 (the
+ * Oversampling p of the whole-plane path: at least 28, with l = k + p rounded up to a multiple of 8 (the
  * f32 kernel's register block is 4×8, so a 61-column block pays a scalar tail column). Measured on the
- * 1500×2000 bench plane (camera.png resized, k = 51, q = 2, f32): p = 10 gives 1.0054× the optimum and
- * σ₅₁ 2.6 % low; p = 20 gives 1.0013× and 0.7 %; p = 30 gives 1.0004× and 0.3 % — for 16 % / 33 % more
- * product flops, where q = 4 with p = 10 (67 % more) gives 1.0004× and 0.4 %. The report's Eckart–Young
- * figures (σ_{k+1}, the Frobenius optimum) come from these σ̂, so they need the accuracy too.
+ * 1500×2000 bench plane (camera.png resized, k = 51, q = 2, f32). With the projection finish (6 products):
+ * p = 10 gives 1.0054× the optimum and σ₅₁ 2.6 % low; p = 21 (l = 72) 1.0010× and 0.7 %. With the reuse
+ * finish the whole path takes (5 products, reuse-finish.ts): p = 21 gives 1.0029× and 1.4 %, p = 29
+ * (l = 80) 1.0012× and 0.2 %, p = 37 1.0006× — so l = 80 costs 5·80 = 400 product columns against the
+ * projection's 6·72 = 432 at the same error. The report's Eckart–Young figures (σ_{k+1}, the Frobenius
+ * optimum) come from these σ̂, so they need the accuracy too.
  */
-const PLANE_MIN_OVERSAMPLE = 20;
+const PLANE_MIN_OVERSAMPLE = 28;
 
 /** Oversampling for a k-column whole-plane factorisation of a plane whose short side is r. */
 export function planeOversample(k: number, r: number): number {
@@ -100,6 +102,7 @@ export function planeSvdOptions(
     accuracy: PLANE_ACCURACY,
     maxPowerIters: Math.max(q, PLANE_MAX_POWER_ITERS),
     frobeniusSquared: o.energy,
+    finish: 'reuse',
     backend: o.backend ?? planeBackend,
   };
 }
