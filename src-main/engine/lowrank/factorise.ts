@@ -123,11 +123,11 @@ export function factorPlane(
     const kmax = Math.min(w, h);
     const randomized = kmax >= RANDOMIZED_MIN_SIDE && opts.maxRank !== undefined && opts.maxRank < kmax / 2;
     // The randomized path stores the plane in f32 (what its kernels read, and what `data` keeps anyway).
-    const window = randomized ? copyF32(plane, width, x, y, w, h) : copyF64(plane, width, x, y, w, h);
-    const meanQ = opts.meanRemoval ? Math.round(window.sum / (w * h) / opts.meanStep) : 0;
+    const cut = randomized ? copyF32(plane, width, x, y, w, h) : copyF64(plane, width, x, y, w, h);
+    const meanQ = opts.meanRemoval ? Math.round(cut.sum / (w * h) / opts.meanStep) : 0;
     // A view of the caller's plane (copyF32) is copied before it is changed.
-    const a = meanQ !== 0 && window.view ? window.a.slice() : window.a;
-    let energy = window.energy;
+    const a = meanQ !== 0 && cut.view ? cut.a.slice() : cut.a;
+    let energy = cut.energy;
     if (meanQ !== 0) {
       const mean = meanQ * opts.meanStep;
       energy = 0;
@@ -158,7 +158,7 @@ export function factorPlane(
 
 /**
  * The w×h window at (x, y) of the plane as f32, with its sum and ‖·‖²_F (f64 sums, row-major order).
- * A window of whole rows of an f32 plane is returned as a view, not a copy: a whole-plane factorisation
+ * A cut of whole rows of an f32 plane is returned as a view, not a copy: a whole-plane factorisation
  * then touches no fresh memory (first-touch page faults measured ≈ 25 µs per 4 KiB page on the bench
  * VM: a 12 MB copy cost 45–110 ms there). `view` says so; the caller copies before changing it.
  */
