@@ -359,7 +359,7 @@ async function main(): Promise<void> {
         () => checked(backend),
       ],
       [
-        `factorPlane (plane copy + the above), ${backend.label}`,
+        `factorPlane (its energy pass + the above), ${backend.label}`,
         () => factorPlane(plane, W, H, { tile: 0, meanRemoval: false, meanStep: 0.25, maxRank: K }),
       ],
     ];
