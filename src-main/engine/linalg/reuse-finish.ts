@@ -20,7 +20,7 @@ import { jacobiSvdIn } from './jacobi-svd';
 import type { FloatArray, SvdResult } from './matrix';
 
 /** The accuracy check's settings (randomizedSvd option `accuracy`), with ‖A‖²_F known. */
-export interface ReuseCheck {
+interface ReuseCheck {
   target: number;
   maxQ: number;
   normA2: number;

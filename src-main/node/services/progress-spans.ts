@@ -4,7 +4,7 @@
  * say "done" — an earlier part's "done" is reported under the part's own name (issue #14: the CLI said
  * "done 100%", then "compare 97%").
  */
-export type ProgressSink = (p: { stage: string; fraction: number }) => void;
+type ProgressSink = (p: { stage: string; fraction: number }) => void;
 
 export class ProgressSpans {
   private last = 0;
