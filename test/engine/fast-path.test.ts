@@ -132,6 +132,24 @@ describe('a-posteriori accuracy check (randomizedSvd `accuracy`)', () => {
   });
 });
 
+describe('whole plane read in place', () => {
+  it("factorPlane keeps the caller's f32 plane as the tile data (no copy) and never changes it", async () => {
+    const d = await decodeImage(image('camera.png'));
+    const plane = d.planes[0];
+    const before = Float32Array.from(plane);
+    const t = factorPlane(plane, 512, 512, { tile: 0, meanRemoval: false, meanStep: 1, maxRank: 50 })
+      .tiles[0];
+    expect(t.data.buffer).toBe(plane.buffer);
+    expect(t.U.data).toBeInstanceOf(Float32Array); // the randomized path ran
+    // With mean removal the view is copied first: the caller's samples stay as they were.
+    const m = factorPlane(plane, 512, 512, { tile: 0, meanRemoval: true, meanStep: 1, maxRank: 50 }).tiles[0];
+    expect(m.meanQ).not.toBe(0);
+    expect(m.data.buffer).not.toBe(plane.buffer);
+    expect(m.data[0]).toBe(plane[0] - m.meanQ);
+    expect(Buffer.compare(Buffer.from(plane.buffer), Buffer.from(before.buffer))).toBe(0);
+  });
+});
+
 describe('determinism: 1 vs 2 threads', () => {
   it('factorPlane gives bit-identical σ, U, V on the wasm backend and on pools of 1 and 2 threads (extra steps included)', async () => {
     const d = await decodeImage(image('camera.png'));

@@ -13,13 +13,14 @@
  *   (AAᵀ)^q AΠ], Q = orth(K), SVD of QᵀA restricted to the top k.
  */
 
+import { estimateRatio, squaredSingularValues } from './accuracy-estimate';
 import { blockKrylovBasis, type RangeOps } from './block-krylov';
 import { jacobiBytes } from './jacobi-svd';
 import type { FloatArray, Matrix, Precision, SvdResult } from './matrix';
 import { Orthonormalizer } from './qr';
 import { DEFAULT_SEED, Rng } from './random';
 import { project } from './range-projection';
-import { symmetricEigenvalues } from './symmetric-eigen';
+import { reuseSvd } from './reuse-finish';
 import { type Backend, bytesFor, defaultBackend, type Workspace } from './workspace';
 
 /** HMT §4.2: "p = 5 or p = 10 is often enough"; 10 keeps the error within ~1% of optimal at q ≥ 2. */
@@ -63,6 +64,12 @@ export interface RandomizedSvdOptions {
   maxPowerIters?: number;
   /** ‖A‖²_F when the caller already has it (the accuracy check needs it; otherwise one pass over A). */
   frobeniusSquared?: number;
+  /**
+   * How the power method ends: 'project' (default; B = QᵀA, one more product with A, HMT Alg. 5.1) or
+   * 'reuse' (the factors from the last power step's A·Z = Q·R, no further product; reuse-finish.ts). 'reuse'
+   * needs q ≥ 1 and the power method; otherwise 'project' runs.
+   */
+  finish?: 'project' | 'reuse';
 }
 
 /** What randomizedSvd did, beside the factors. */
@@ -78,11 +85,6 @@ export interface RandomizedSvdResult extends SvdResult {
 
 /** Default cap on power steps when the accuracy check asks for more. */
 const DEFAULT_MAX_POWER_ITERS = 8;
-/**
- * Largest per-half-step contraction r̂ = (σ̂_l/σ̂_k)² the estimate uses: the remaining deficit is taken
- * as δ·r̂/(1 − r̂) ≤ 49·δ (a nearly flat spectrum converges slowly, but its optimum is large too).
- */
-const MAX_CONTRACTION = 0.98;
 
 /** Throws a RangeError naming the problem when A has non-finite entries. */
 export function assertFinite(a: Matrix, what = 'matrix'): void {
@@ -152,7 +154,8 @@ export function randomizedSvd(a: Matrix, k: number, opts: RandomizedSvdOptions =
   }
   const ws = backend.workspace(randomizedSvdBytes(m, n, k, l, blocks, f32));
   try {
-    return core(ws, a, k, l, q, blocks, f32, opts.seed ?? DEFAULT_SEED, check);
+    const reuse = opts.finish === 'reuse' && method === 'power' && q > 0;
+    return core(ws, a, k, l, q, blocks, f32, opts.seed ?? DEFAULT_SEED, check, reuse);
   } catch (err) {
     // Non-finite input shows up as NaN in the first Gram matrix; scan only then (saves a pass over A).
     assertFinite(a);
@@ -240,49 +243,6 @@ function frobeniusSquared(A: FloatArray, len: number): number {
   return s;
 }
 
-/** Squared singular values of the upper-triangular l×l R, descending (eigenvalues of RᵀR). */
-function squaredSingularValues(R: Float64Array, l: number): Float64Array {
-  const G = new Float64Array(l * l);
-  for (let i = 0; i < l; i++)
-    for (let j = 0; j <= i; j++) {
-      let s = 0;
-      for (let p = 0; p <= j; p++) s += R[p * l + i] * R[p * l + j];
-      G[i * l + j] = s;
-      G[j * l + i] = s;
-    }
-  return symmetricEigenvalues(G, l).sort((x, y) => y - x);
-}
-
-/**
- * A-posteriori estimate of ‖A − U·diag(s)·Vᵀ‖_F ÷ the Eckart–Young optimum (Σ_{i>k} σᵢ²)^{1/2}.
- *
- * `ey` are the squared singular values of AZ (Z orthonormal, the last power step's right basis) and `s`
- * the final σ̂ of B = QᵀA, Q = orth(AZ). Both are lower bounds on σᵢ(A) (interlacing), and σᵢ(B) ≥
- * σᵢ(QᵀAZ) = σᵢ(AZ), so the captured energy Σ_{i≤k} σᵢ² rises with every half-step toward its optimum
- * Σ_{i≤k} σᵢ(A)². Under the linear model of subspace iteration (each half-step shrinks the deficit by
- * about r = (σ_{l+1}/σ_k)²; HMT 2011 §4.5 and the power-scheme bound of Cor. 10.10 — the model is common
- * practice, not a theorem), the deficit left after the last half-step, whose gain was δ, is about
- * δ·r/(1 − r); r is estimated by (σ_l(AZ)/σ_k(AZ))², capped at MAX_CONTRACTION. The error is exactly
- * √(‖A‖² − Σ_{i≤k} ŝᵢ²) up to rounding. Differences are taken term by term, so f32 rounding (about
- * ε·σ₁ per σᵢ) does not swamp them.
- */
-function estimateRatio(ey: Float64Array, s: Float64Array, l: number, k: number, normA2: number): number {
-  let delta = 0;
-  let captured = 0;
-  for (let i = 0; i < k; i++) {
-    const si2 = s[i] * s[i];
-    delta += si2 - ey[i];
-    captured += si2;
-  }
-  delta = Math.max(0, delta);
-  const r = ey[k - 1] > 0 ? Math.min(MAX_CONTRACTION, Math.max(0, ey[l - 1] / ey[k - 1])) : MAX_CONTRACTION;
-  const deficit = (delta * r) / (1 - r);
-  const err2 = Math.max(0, normA2 - captured);
-  if (err2 === 0) return 1;
-  const opt2 = err2 - deficit;
-  return opt2 > 0 ? Math.sqrt(err2 / opt2) : Number.POSITIVE_INFINITY;
-}
-
 function core(
   ws: Workspace,
   a: Matrix,
@@ -293,6 +253,7 @@ function core(
   f32: boolean,
   seed: number,
   check: Check | null,
+  reuse: boolean,
 ): RandomizedSvdResult {
   const m = a.rows;
   const n = a.cols;
@@ -312,6 +273,10 @@ function core(
     ws.gemm(n, w, m, A, 0, 1, n, X, 0, w, out, 0, w, false);
   const ops: RangeOps = { ws, orth, mulA, mulAt, alloc, m, n, l, A };
   mulA(Om, Y, l);
+  if (reuse) {
+    const c = check && { ...check, normA2: check.normA2 ?? frobeniusSquared(A, m * n) };
+    return reuseSvd(ops, Y, Z, q, k, f32, c);
+  }
   const Ry = check ? ws.f64(l * l) : undefined;
   if (blocks === 1) powerBasis(ops, Y, Z, q, Ry);
   const Qm = blocks === 1 ? Y : blockKrylovBasis(ops, Y, Z, blocks);

@@ -5,6 +5,7 @@
 
 import { type TileRect, tileGrid } from '../codec/quantised';
 import { type Backend, fullSvd, jacobiSvd, type Matrix, randomizedSvd, type SvdResult } from '../linalg';
+import type { RandomizedSvdOptions } from '../linalg/randomized-svd';
 
 export interface TileFactors {
   rect: TileRect;
@@ -54,14 +55,16 @@ const PLANE_POWER_ITERS = 2;
 export const PLANE_ACCURACY = 1.01;
 const PLANE_MAX_POWER_ITERS = 8;
 /**
- * Oversampling p of the whole-plane path: at least 20, with l = k + p rounded up to a multiple of 8 (the
+ * Oversampling p of the whole-plane path: at least 28, with l = k + p rounded up to a multiple of 8 (the
  * f32 kernel's register block is 4×8, so a 61-column block pays a scalar tail column). Measured on the
- * 1500×2000 bench plane (camera.png resized, k = 51, q = 2, f32): p = 10 gives 1.0054× the optimum and
- * σ₅₁ 2.6 % low; p = 20 gives 1.0013× and 0.7 %; p = 30 gives 1.0004× and 0.3 % — for 16 % / 33 % more
- * product flops, where q = 4 with p = 10 (67 % more) gives 1.0004× and 0.4 %. The report's Eckart–Young
- * figures (σ_{k+1}, the Frobenius optimum) come from these σ̂, so they need the accuracy too.
+ * 1500×2000 bench plane (camera.png resized, k = 51, q = 2, f32). With the projection finish (6 products):
+ * p = 10 gives 1.0054× the optimum and σ₅₁ 2.6 % low; p = 21 (l = 72) 1.0010× and 0.7 %. With the reuse
+ * finish the whole path takes (5 products, reuse-finish.ts): p = 21 gives 1.0029× and 1.4 %, p = 29
+ * (l = 80) 1.0012× and 0.2 %, p = 37 1.0006× — so l = 80 costs 5·80 = 400 product columns against the
+ * projection's 6·72 = 432 at the same error. The report's Eckart–Young figures (σ_{k+1}, the Frobenius
+ * optimum) come from these σ̂, so they need the accuracy too.
  */
-const PLANE_MIN_OVERSAMPLE = 20;
+const PLANE_MIN_OVERSAMPLE = 28;
 
 /** Oversampling for a k-column whole-plane factorisation of a plane whose short side is r. */
 export function planeOversample(k: number, r: number): number {
@@ -77,6 +80,31 @@ let planeBackend: Backend | undefined;
  */
 export function setPlaneBackend(backend: Backend | undefined): void {
   planeBackend = backend;
+}
+
+/**
+ * The randomized SVD settings of a whole plane (f32 SIMD products, q = 2 power steps plus the 1.01×
+ * accuracy check, oversampling `planeOversample`, on the registered backend unless `backend` is given):
+ * factorPlane's, and the app's factor sets (src-main/node/server/factor.ts), so both take one path.
+ * `energy` is ‖plane‖²_F; `powerIters` (default 2) is where the check starts.
+ */
+export function planeSvdOptions(
+  k: number,
+  kmax: number,
+  o: { seed: number; energy: number; backend?: Backend; powerIters?: number },
+): RandomizedSvdOptions {
+  const q = o.powerIters ?? PLANE_POWER_ITERS;
+  return {
+    seed: o.seed,
+    precision: 'f32',
+    oversample: planeOversample(k, kmax),
+    powerIters: q,
+    accuracy: PLANE_ACCURACY,
+    maxPowerIters: Math.max(q, PLANE_MAX_POWER_ITERS),
+    frobeniusSquared: o.energy,
+    finish: 'reuse',
+    backend: o.backend ?? planeBackend,
+  };
 }
 
 /** Planes above this many pixels on the short side use the randomized SVD when the engine has it. */
@@ -95,13 +123,11 @@ export function factorPlane(
     const kmax = Math.min(w, h);
     const randomized = kmax >= RANDOMIZED_MIN_SIDE && opts.maxRank !== undefined && opts.maxRank < kmax / 2;
     // The randomized path stores the plane in f32 (what its kernels read, and what `data` keeps anyway).
-    const {
-      a,
-      sum,
-      energy: raw,
-    } = randomized ? copyF32(plane, width, x, y, w, h) : copyF64(plane, width, x, y, w, h);
-    const meanQ = opts.meanRemoval ? Math.round(sum / (w * h) / opts.meanStep) : 0;
-    let energy = raw;
+    const cut = randomized ? copyF32(plane, width, x, y, w, h) : copyF64(plane, width, x, y, w, h);
+    const meanQ = opts.meanRemoval ? Math.round(cut.sum / (w * h) / opts.meanStep) : 0;
+    // A view of the caller's plane (copyF32) is copied before it is changed.
+    const a = meanQ !== 0 && cut.view ? cut.a.slice() : cut.a;
+    let energy = cut.energy;
     if (meanQ !== 0) {
       const mean = meanQ * opts.meanStep;
       energy = 0;
@@ -118,16 +144,11 @@ export function factorPlane(
     else if (randomized) {
       // One component beyond the cap, so the Eckart–Young spectral bound σ_{k+1} is known at rank k.
       const k = Math.min(kmax, Math.max(1, opts.maxRank ?? 1) + 1);
-      svd = randomizedSvd(mat, k, {
-        seed: opts.seed ?? 1,
-        precision: 'f32',
-        oversample: planeOversample(k, kmax),
-        powerIters: PLANE_POWER_ITERS,
-        accuracy: PLANE_ACCURACY,
-        maxPowerIters: PLANE_MAX_POWER_ITERS,
-        frobeniusSquared: energy,
-        backend: opts.backend ?? planeBackend,
-      });
+      svd = randomizedSvd(
+        mat,
+        k,
+        planeSvdOptions(k, kmax, { seed: opts.seed ?? 1, energy, backend: opts.backend }),
+      );
     } else svd = opts.tile === 0 ? fullSvd(mat) : jacobiSvd(mat);
     const data = a instanceof Float32Array ? a : new Float32Array(a);
     tiles.push({ rect, meanQ, energy, data, s: svd.s, U: svd.U, V: svd.V });
@@ -135,12 +156,19 @@ export function factorPlane(
   return { width, height, tile: opts.tile, meanStep: opts.meanRemoval ? opts.meanStep : 0, tiles };
 }
 
-/** The w×h window at (x, y) of the plane as f32, with its sum and ‖·‖²_F (f64 sums, row-major order). */
+/**
+ * The w×h window at (x, y) of the plane as f32, with its sum and ‖·‖²_F (f64 sums, row-major order).
+ * A cut of whole rows of an f32 plane is returned as a view, not a copy: a whole-plane factorisation
+ * then touches no fresh memory (first-touch page faults measured ≈ 25 µs per 4 KiB page on the bench
+ * VM: a 12 MB copy cost 45–110 ms there). `view` says so; the caller copies before changing it.
+ */
 function copyF32(plane: ArrayLike<number>, width: number, x: number, y: number, w: number, h: number) {
-  const a = new Float32Array(w * h);
-  if (plane instanceof Float32Array && x === 0 && w === width)
-    a.set(plane.subarray(y * width, (y + h) * width));
-  else for (let i = 0; i < h; i++) for (let j = 0; j < w; j++) a[i * w + j] = plane[(y + i) * width + x + j];
+  let a: Float32Array;
+  if (plane instanceof Float32Array && x === 0 && w === width) a = plane.subarray(y * width, (y + h) * width);
+  else {
+    a = new Float32Array(w * h);
+    for (let i = 0; i < h; i++) for (let j = 0; j < w; j++) a[i * w + j] = plane[(y + i) * width + x + j];
+  }
   let sum = 0;
   let energy = 0;
   for (let k = 0; k < a.length; k++) {
@@ -148,7 +176,7 @@ function copyF32(plane: ArrayLike<number>, width: number, x: number, y: number, 
     sum += v;
     energy += v * v;
   }
-  return { a, sum, energy };
+  return { a, sum, energy, view: a.buffer === (plane as Float32Array).buffer };
 }
 
 /** As copyF32, in f64 (the tile path's Jacobi SVD works in f64). */
@@ -163,7 +191,7 @@ function copyF64(plane: ArrayLike<number>, width: number, x: number, y: number, 
       sum += v;
       energy += v * v;
     }
-  return { a, sum, energy };
+  return { a, sum, energy, view: false };
 }
 
 function zeroSvd(h: number, w: number): SvdResult {

@@ -10,13 +10,15 @@
  * small factorisations at start-up take that cost outside `timings.factorMs`.
  *
  * Not in batch worker threads (isMainThread false): those already run one job per core, and a pool each
- * would oversubscribe the cores. RANKFOLD_LINALG_WORKERS=1 keeps the factorisation on one thread
+ * would oversubscribe the cores. A worker thread that is the only heavy job of its moment (the app's scan
+ * session, src-main/node/workers/scan-session.ts) opts in with `allowFactorPool` at its start.
+ * RANKFOLD_LINALG_WORKERS=1 keeps the factorisation on one thread
  * (results are bit-identical either way: the pool splits products by rows in multiples of the
  * kernels' register block).
  */
 import { availableParallelism } from 'node:os';
 import { isMainThread } from 'node:worker_threads';
-import { type Backend, defaultBackend, initEngine } from '../../engine/linalg';
+import { type Backend, defaultBackend, initEngine, Rng } from '../../engine/linalg';
 import { randomizedSvdBytes } from '../../engine/linalg/randomized-svd';
 import { factorPlane, planeOversample, setPlaneBackend } from '../../engine/lowrank/factorise';
 import { sharedLinalgPool } from './pool';
@@ -26,8 +28,15 @@ const WARM_ROUNDS = 3;
 const WARM_ROWS = 320;
 const WARM_COLS = 256;
 const WARM_RANK = 50;
+const WARM_SEED = 12;
 
 let ready: Promise<Backend> | null = null;
+let poolInWorker = false;
+
+/** Let this worker thread start the pool too (call at the thread's start, before `prepareFactorPath`). */
+export function allowFactorPool(): void {
+  poolInWorker = true;
+}
 
 /** Threads for whole-plane factorisations: RANKFOLD_LINALG_WORKERS (1…16), else 2 when there are ≥ 2 cores. */
 function planeThreads(): number {
@@ -54,7 +63,7 @@ export async function prepareFactorPath(hint?: PlaneHint): Promise<Backend> {
     let backend: Backend = defaultBackend();
     let pooled = false;
     const threads = planeThreads();
-    if (isMainThread && threads > 1)
+    if ((isMainThread || poolInWorker) && threads > 1)
       try {
         backend = await sharedLinalgPool({ workers: threads });
         pooled = true;
@@ -62,7 +71,7 @@ export async function prepareFactorPath(hint?: PlaneHint): Promise<Backend> {
         // No worker file (unbuilt tree) or no SharedArrayBuffer: one thread gives the same results.
       }
     setPlaneBackend(pooled ? backend : undefined);
-    warmUp(backend);
+    await warmUp(backend);
     return backend;
   })();
   const backend = await ready;
@@ -76,15 +85,20 @@ export async function prepareFactorPath(hint?: PlaneHint): Promise<Backend> {
 }
 
 /**
- * A few whole-plane factorisations of a small smooth plane through factorPlane itself (rank 50, so the
- * randomized f32 path with its check, on `backend`): the same kernels and JS as a scan's.
+ * A few whole-plane factorisations through factorPlane itself (rank 50, so the randomized f32 path with
+ * its check, on `backend`): the same kernels and JS as a scan's. The plane has an image-like spectrum —
+ * smooth shading plus seeded noise, so σ₅₁/σ₁ ≈ 4e-3 (numpy) — because a nearly low-rank plane sends the small
+ * SVD down its refinement branch (range-projection.ts) and leaves the branch scans take cold.
  */
-function warmUp(backend: Backend): void {
+async function warmUp(backend: Backend): Promise<void> {
   const plane = new Float32Array(WARM_ROWS * WARM_COLS);
+  const rng = new Rng(WARM_SEED);
   for (let i = 0; i < WARM_ROWS; i++)
     for (let j = 0; j < WARM_COLS; j++)
-      plane[i * WARM_COLS + j] = 128 + 60 * Math.sin(0.05 * i * (1 + (j % 7))) + ((i * 31 + j * 17) % 23);
-  for (let r = 0; r < WARM_ROUNDS; r++)
+      plane[i * WARM_COLS + j] = 128 + 60 * Math.sin(0.05 * i * (1 + (j % 7))) + 24 * rng.uniform();
+  for (let r = 0; r < WARM_ROUNDS; r++) {
+    // Between rounds the thread answers its messages (a scan session's first job posts its progress).
+    await new Promise((resolve) => setImmediate(resolve));
     factorPlane(plane, WARM_COLS, WARM_ROWS, {
       tile: 0,
       meanRemoval: false,
@@ -93,4 +107,5 @@ function warmUp(backend: Backend): void {
       seed: r + 1,
       backend,
     });
+  }
 }

@@ -3,13 +3,16 @@
  * in the contract's factor-set layout (src-main/contract/api.ts). Runs inside a worker thread.
  *
  * Factors come from the engine's randomizedSvd (Halko, Martinsson, Tropp, "Finding structure with
- * randomness", SIAM Review 53(2):217–288, 2011, doi:10.1137/090771806, Algorithm 4.4).
+ * randomness", SIAM Review 53(2):217–288, 2011, doi:10.1137/090771806, Algorithm 4.4) with the CLI's
+ * whole-plane settings (engine/lowrank/factorise.ts `planeSvdOptions`: f32 SIMD products, q = 2 power
+ * steps plus the 1.01× accuracy check) on the thread pool that `readyEngine` registers — so the page's
+ * factors are the ones `rankfold compress --tile 0` computes.
  */
 import { type DecodedImage, encodeFactorSet, type FactorArrays } from '../../contract';
-import * as linalg from '../../engine/linalg';
-
-/** Power iterations q (HMT 2011 Alg. 4.4); 2 gives ≈1.004× the optimal Frobenius error on image spectra (docs PERFORMANCE-NOTES). */
-const POWER_ITERATIONS = 2;
+import type * as linalg from '../../engine/linalg';
+import { randomizedSvd } from '../../engine/linalg';
+import { planeSvdOptions } from '../../engine/lowrank/factorise';
+import { prepareFactorPath } from '../parallel/factor-path';
 
 export type ProgressFn = (done: number, total: number, stage: string) => void;
 
@@ -22,9 +25,12 @@ interface PlaneSvd {
 }
 
 let engineReady: Promise<unknown> | undefined;
-/** Start the engine's WebAssembly kernels once per thread (falls back to TypeScript products if it cannot). */
+/**
+ * Compile the kernels, start the thread pool and warm both up, once per thread (factor-path.ts); without
+ * WebAssembly the factorisation runs on the TypeScript products.
+ */
 export function readyEngine(): Promise<unknown> {
-  engineReady ??= Promise.resolve(linalg.initEngine()).catch(() => undefined);
+  engineReady ??= prepareFactorPath().catch(() => undefined);
   return engineReady;
 }
 
@@ -34,14 +40,16 @@ function planeSvd(
   m: number,
   n: number,
   k: number,
+  energy: number,
   seed = 1,
-  powerIters = POWER_ITERATIONS,
+  powerIters?: number,
 ): PlaneSvd {
   const r = Math.min(k, m, n);
-  const res = linalg.randomizedSvd({ rows: m, cols: n, data: plane }, r, {
-    seed,
-    powerIters,
-  });
+  const res = randomizedSvd(
+    { rows: m, cols: n, data: plane },
+    r,
+    planeSvdOptions(r, Math.min(m, n), { seed, energy, powerIters }),
+  );
   return {
     s: Float64Array.from(res.s.subarray(0, r)),
     ut: columnsToRows(res.U, r),
@@ -64,7 +72,7 @@ export function factorScan(
   img: DecodedImage,
   maxRank: number,
   onProgress?: ProgressFn,
-  powerIters = POWER_ITERATIONS,
+  powerIters?: number,
 ): Uint8Array {
   const m = img.height;
   const n = img.width;
@@ -79,7 +87,7 @@ export function factorScan(
     let e = 0;
     for (let i = 0; i < plane.length; i++) e += plane[i] * plane[i];
     energy.push(e);
-    const svd = planeSvd(plane, m, n, k, 1 + c, powerIters);
+    const svd = planeSvd(plane, m, n, k, e, 1 + c, powerIters);
     ranks.push(svd.s.length);
     arrays[`sigma.${c}`] = Float32Array.from(svd.s);
     arrays[`u.${c}`] = svd.ut;

@@ -40,6 +40,8 @@ export async function runSessionOp(
   const image = state.image;
   if (!image) throw new RankfoldError('No scan is open in this session; open it again.');
   if (op === 'factors') {
+    // First word before the kernels and thread pool are ready (a fresh thread warms them up: ~0.1–1 s).
+    progress(0, image.planes.length, 'preparing the factorisation');
     await readyEngine();
     const bytes = factorScan(image, args.maxRank as number, progress, args.powerIters as number | undefined);
     const buf = bytes.buffer as ArrayBuffer;

@@ -32,6 +32,10 @@ import { decodeSamples } from '../image/raw-decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import { prepareFactorPath } from '../parallel/factor-path';
 import { compareCodecs } from './codec-comparison';
+import { ProgressSpans } from './progress-spans';
+
+/** Share of the progress bar `--compare` takes (its bisections usually cost about as much as the encode). */
+const COMPARE_SHARE = 0.4;
 
 export interface CompressHooks {
   onProgress?(p: { stage: string; fraction: number }): void;
@@ -101,8 +105,16 @@ export async function compressDecoded(
       cols: decoded.width,
       rank: options.budget.kind === 'rank' ? options.budget.rank : undefined,
     });
+  // One monotone progress over encode and --compare (progress-spans.ts).
+  const spans = new ProgressSpans(hooks.onProgress);
+  const encoded = spans.part(0, options.compare ? 1 - COMPARE_SHARE : 1, 'encoded');
   const result = encodeScan(decoded, {
-    ...encoderSettings(options, hooks, decoded, check),
+    ...encoderSettings(
+      options,
+      { ...hooks, onProgress: (p) => encoded(p.stage, p.fraction) },
+      decoded,
+      check,
+    ),
     layers: options.layers ?? DEFAULT_LAYERS,
   });
   const outputBytes = result.bytes.length;
@@ -111,8 +123,12 @@ export async function compressDecoded(
     layers: result.layers,
   };
   if (options.compare) {
-    hooks.onProgress?.({ stage: 'compare', fraction: 0.97 });
-    report.compare = await compareCodecs(decoded, outputBytes);
+    const compared = spans.part(1 - COMPARE_SHARE, 1, 'compared');
+    compared('compare', 0);
+    report.compare = await compareCodecs(decoded, outputBytes, undefined, {
+      onProgress: (f) => compared('compare', f),
+    });
+    compared('done', 1);
   }
   return { bytes: result.bytes, report, result };
 }

@@ -7,9 +7,15 @@
  */
 import { parentPort } from 'node:worker_threads';
 import { type DecodedImage, toErrorPayload } from '../../contract';
+import { allowFactorPool } from '../parallel/factor-path';
+import { readyEngine } from '../server/factor';
 import { runSessionOp, type SessionOp } from '../server/session-ops';
 
 if (!parentPort) throw new Error('scan-session must run as a worker thread');
+// The page's whole-plane factorisations take the CLI's fast path: kernels compiled, the thread pool
+// started and both warmed up now, while the thread waits for its scan (one scan computes at a time).
+allowFactorPool();
+void readyEngine();
 const port = parentPort;
 const state: { image?: DecodedImage } = {};
 
