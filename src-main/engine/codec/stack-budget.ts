@@ -15,7 +15,7 @@
  * chosen by the planner at its step), as PSNR and SSIM are measured on the decoded frames.
  */
 import { encodeStack, framePsnr, frameSsim } from './stack-codec';
-import { encodePlanned, fixedBytesFor } from './stack-encode';
+import { assemble, encodePlanned, fixedBytesFor, paying } from './stack-encode';
 import { type EncodedStack, type PreparedStack, recordFrameQuality } from './stack-header';
 import { DEFAULT_CALIBRATION, type PlanOptions, planAt, type StackPlan, solveStep } from './stack-plan';
 
@@ -52,6 +52,10 @@ export const MAX_ENCODES = 3;
 const LANDING = 0.015;
 /** The model aims this fraction under the budget. */
 const AIM = 0.005;
+/** A real encode within this log ratio of the budget lands it by choosing its residuals again. */
+const RESELECT_RANGE = 0.1;
+/** Compact framing of one chunk (type, id and length varints), about. */
+const CHUNK_FRAMING = 8;
 
 export class StackTargetError extends Error {
   constructor(
@@ -183,15 +187,19 @@ function encodePlan(prep: PreparedStack, plan: StackPlan, residuals: boolean): E
 function calibrate(o: PlanOptions, plan: StackPlan, e: EncodedStack, predictFixed: (chunks: number) => number) {
   let baseRaw = 0;
   let resRaw = 0;
+  let resReal = 0;
   plan.channels.forEach((p, c) => {
     baseRaw += p.baseRaw;
-    e.header.frameTable.forEach((f, j) => {
-      if (f.residual[c]) resRaw += p.residualRaw[j];
+    e.coded?.channels[c].residuals.forEach((r, j) => {
+      if (r) {
+        resRaw += p.residualRaw[j];
+        resReal += r.code.bytes.length;
+      }
     });
   });
   const s = e.split;
   if (baseRaw > 0) o.calibration.base = (s.mean + s.basis) / baseRaw;
-  if (resRaw > 0 && s.residuals > 0) o.calibration.residual = s.residuals / resRaw;
+  if (resRaw > 0) o.calibration.residual = resReal / resRaw;
   const chunks = e.chunks.length;
   const offset = s.header + s.container - predictFixed(chunks);
   o.fixedBytes = (n) => predictFixed(n) + offset;
@@ -216,7 +224,9 @@ function fitBytes(
   const fits = (f: StackFit) => f.encoded.bytes.length <= maxBytes;
   const landed = (f: StackFit) => fits(f) && f.encoded.bytes.length >= maxBytes * (1 - LANDING);
   for (let i = 0; ; i++) {
-    const f = done(encodePlan(prep, plan, o.residuals));
+    const e = encodePlan(prep, plan, o.residuals);
+    const near = Math.abs(Math.log(e.bytes.length / maxBytes)) < RESELECT_RANGE;
+    const f = done(near ? reselect(prep, e, maxBytes) : e);
     tries.push({ f, plan });
     if (landed(f)) break;
     calibrate(o, plan, f.encoded, predictFixed);
@@ -250,10 +260,42 @@ function fitBytes(
   );
 }
 
+/**
+ * Land a file near the budget without coding again: drop the kept residuals that remove the least error
+ * per byte while it is over, or add the coded but unkept ones that remove the most while they fit.
+ */
+function reselect(prep: PreparedStack, e: EncodedStack, maxBytes: number): EncodedStack {
+  const coded = e.coded;
+  if (!coded) return e;
+  const keep = paying(coded);
+  const items: Array<{ c: number; j: number; bytes: number; ratio: number }> = [];
+  coded.channels.forEach((ch, c) =>
+    ch.residuals.forEach((r, j) => {
+      if (r) {
+        const bytes = r.code.bytes.length + CHUNK_FRAMING;
+        items.push({ c, j, bytes, ratio: r.gain / bytes });
+      }
+    }),
+  );
+  items.sort((a, b) => b.ratio - a.ratio || a.c - b.c || a.j - b.j);
+  let size = e.bytes.length;
+  for (const it of items)
+    if (!keep[it.c][it.j] && it.ratio > 0 && size + it.bytes <= maxBytes) {
+      keep[it.c][it.j] = true;
+      size += it.bytes;
+    }
+  for (let k = items.length - 1; ; k--) {
+    const out = assemble(prep, coded, keep);
+    if (out.bytes.length <= maxBytes || k < 0) return out;
+    while (k >= 0 && !keep[items[k].c][items[k].j]) k--;
+    if (k >= 0) keep[items[k].c][items[k].j] = false;
+  }
+}
+
 /** d log(bytes) / d log(step) between two encodes. */
 function slopeOf(fa: StackFit, pa: StackPlan, fb: StackFit, pb: StackPlan): number {
   const du = Math.log(pb.step) - Math.log(pa.step);
-  if (Math.abs(du) < 1e-9) return -1;
+  if (Math.abs(du) < 0.005) return -1;
   return (Math.log(fb.encoded.bytes.length) - Math.log(fa.encoded.bytes.length)) / du;
 }
 

@@ -55,11 +55,24 @@ function dequantised(c: CodedCoefficients, map: Uint8Array): Float64Array {
   return out;
 }
 
+/** A residual the encoder coded: its coefficients and the pixel-domain squared error it removes (estimated). */
+export interface ResidualTrial {
+  code: CodedCoefficients;
+  gain: number;
+}
+
 interface ChannelCode {
   mean: CodedCoefficients;
   basis: CodedCoefficients[];
   coef: Float32Array;
-  residuals: Array<CodedCoefficients | undefined>;
+  /** Every frame's residual as coded, or undefined where it was not tried (or codes to nothing). */
+  residuals: Array<ResidualTrial | undefined>;
+}
+
+/** Every plane of one real encode, before the residuals to keep are chosen. */
+export interface CodedStack {
+  step: number;
+  channels: ChannelCode[];
 }
 
 /** Weighted least squares of every frame on [W(1), Ŵ(P_0) … Ŵ(P_{k−1})] against W(F_j) − Ŵ(μ). */
@@ -103,7 +116,6 @@ function encodeChannel(an: StackAnalysis, c: number, plan: EncodePlan): ChannelC
   const ch = an.channels[c];
   const N = ch.frames.length;
   const { step } = plan;
-  const lambda = LAMBDA_PER_BYTE * step * step;
   const mean = codeAnalysed(asAnalysed(g, ch.mean), step / Math.sqrt(N), 2);
   const deqMean = dequantised(mean, g.map);
   const basis: CodedCoefficients[] = [];
@@ -115,7 +127,7 @@ function encodeChannel(an: StackAnalysis, c: number, plan: EncodePlan): ChannelC
   }
   const coef = refit(ch, g.gain, deqMean, deqBasis);
   const m = deqBasis.length + 1;
-  const residuals: Array<CodedCoefficients | undefined> = [];
+  const residuals: Array<ResidualTrial | undefined> = [];
   const n = g.gain.length;
   for (let j = 0; j < N; j++) {
     if (!plan.residuals || plan.tryResidual?.[c][j] === false) {
@@ -133,17 +145,17 @@ function encodeChannel(an: StackAnalysis, c: number, plan: EncodePlan): ChannelC
       for (let p = 0; p < n; p++) R[p] -= w * P[p];
     }
     const code = codeAnalysed(asAnalysed(g, R), step, 2);
-    let keep = false;
-    if (code.nonZero > 0) {
-      const deq = dequantised(code, g.map);
-      let gain = 0;
-      for (let p = 0; p < n; p++) {
-        const e = R[p] - deq[p];
-        gain += g.gain[p] * (R[p] * R[p] - e * e);
-      }
-      keep = gain >= lambda * code.bytes.length;
+    if (code.nonZero === 0) {
+      residuals.push(undefined);
+      continue;
     }
-    residuals.push(keep ? code : undefined);
+    const deq = dequantised(code, g.map);
+    let gain = 0;
+    for (let p = 0; p < n; p++) {
+      const e = R[p] - deq[p];
+      gain += g.gain[p] * (R[p] * R[p] - e * e);
+    }
+    residuals.push({ code, gain });
   }
   return { mean, basis, coef, residuals };
 }
@@ -192,20 +204,47 @@ export function fixedBytesFor(prep: PreparedStack): (chunks: number) => number {
 }
 
 /**
+ * Code every plane of a plan (the residuals of the frames it tries included, kept or not).
+ * @example const coded = codePlanned(prep, { step: 4, ranks: [2], residuals: true });
+ */
+export function codePlanned(prep: PreparedStack, plan: EncodePlan): CodedStack {
+  const { step } = plan;
+  if (!(step > 0 && Number.isFinite(step)))
+    throw new RangeError(`stack quantiser step must be > 0, got ${step}`);
+  const an = prep.analysis();
+  return { step, channels: an.channels.map((_, c) => encodeChannel(an, c, plan)) };
+}
+
+/** The residuals a file keeps by default: those removing at least λ squared error per byte. */
+export function paying(coded: CodedStack): boolean[][] {
+  const lambda = LAMBDA_PER_BYTE * coded.step * coded.step;
+  return coded.channels.map((ch) => ch.residuals.map((r) => r !== undefined && r.gain >= lambda * r.code.bytes.length));
+}
+
+/**
  * Encode a prepared series with a given plan.
  * @example const e = encodePlanned(prep, { step: 4, ranks: [2], residuals: true }); e.bytes // the .rkf file
  */
 export function encodePlanned(prep: PreparedStack, plan: EncodePlan): EncodedStack {
+  const coded = codePlanned(prep, plan);
+  return assemble(prep, coded, paying(coded));
+}
+
+/**
+ * The file of a coded series keeping the residuals `keep[c][j]` (each must have been coded). Choosing
+ * another set of residuals needs no coding: the other chunks do not depend on it.
+ */
+export function assemble(prep: PreparedStack, coded: CodedStack, keep: boolean[][]): EncodedStack {
   const { input } = prep;
-  const an = prep.analysis();
-  const g = an.geometry;
+  const g = prep.analysis().geometry;
   const N = input.frames.length;
-  const { step } = plan;
-  if (!(step > 0 && Number.isFinite(step)))
-    throw new RangeError(`stack quantiser step must be > 0, got ${step}`);
+  const { step } = coded;
   const split: StackByteSplit = { header: 0, mean: 0, basis: 0, coefficients: 0, residuals: 0, container: 0 };
   const body: Chunk[] = [];
-  const codes = an.channels.map((_, c) => encodeChannel(an, c, plan));
+  const codes = coded.channels.map((ch, c) => ({
+    ...ch,
+    residuals: ch.residuals.map((r, j) => (keep[c][j] ? r?.code : undefined)),
+  }));
   codes.forEach((code, c) => {
     body.push({ type: 'SMEA', id: c, payload: code.mean.bytes });
     split.mean += code.mean.bytes.length;
@@ -272,6 +311,7 @@ export function encodePlanned(prep: PreparedStack, plan: EncodePlan): EncodedSta
     header,
     split,
     chunks,
+    coded,
     get decoded() {
       decoded ??= rebuild();
       return decoded;

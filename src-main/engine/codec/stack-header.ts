@@ -6,6 +6,7 @@
 import { FormatError } from '../../contract/errors';
 import type { FrameModeSvd } from '../stack/frame-svd';
 import type { StackAnalysis } from './stack-analysis';
+import type { CodedStack } from './stack-encode';
 import {
   type Chunk,
   type ContainerView,
@@ -133,6 +134,8 @@ export interface EncodedStack {
   split: StackByteSplit;
   /** The chunks of `bytes`, so the frame-quality chunk can be filled in without coding again. */
   chunks: Chunk[];
+  /** Every plane the encoder coded, the residuals it did not keep included (./stack-encode `assemble`). */
+  coded?: CodedStack;
 }
 
 /** Bytes of the SQAL chunk for N frames: a PSNR and an SSIM per frame, float32. Fixed, so budgets count it from the first trial. */

@@ -31,7 +31,7 @@ export interface RateCalibration {
  * Starting ratios of coder 2's bytes to the order-0 estimate, before a real encode measures them
  * (measured on the seeded series of test/stack/rate-model.test.ts; refined after every real encode).
  */
-export const DEFAULT_CALIBRATION: RateCalibration = { base: 0.8, residual: 0.8 };
+export const DEFAULT_CALIBRATION: RateCalibration = { base: 0.9, residual: 1.05 };
 
 export interface ChannelPlan {
   rank: number;
