@@ -18,7 +18,7 @@ import { type AnalysedPlane, analysePlane } from './wavelet-plane';
 import type { Band } from './wavelet-transform';
 
 /** Most sampled positions per band for the rate model. */
-const SAMPLE_PER_BAND = 1024;
+const SAMPLE_PER_BAND = 512;
 const PRIMES = [1, 2, 3, 5, 7, 11, 13, 17, 19, 23, 29, 31, 37, 41, 43, 47, 53, 59, 61, 67, 71, 73, 79, 83];
 
 export interface StackGeometry {
@@ -69,7 +69,8 @@ function sampleOf(x: Float64Array, idx: Int32Array): Float64Array {
 
 function geometryOf(a: AnalysedPlane): StackGeometry {
   const { width, bands, map } = a;
-  const gain = Float64Array.from(map, (b) => bands[b].gain);
+  const gain = new Float64Array(map.length);
+  for (let i = 0; i < map.length; i++) gain[i] = bands[map[i]].gain;
   const idx: number[] = [];
   const band: number[] = [];
   const sampleWeight = new Float64Array(bands.length);

@@ -79,27 +79,27 @@ function planChannel(
   const g = an.geometry;
   const N = ch.frames.length;
   const lambda = LAMBDA_PER_BYTE * step * step;
-  // An eigen-frame removes at most σ_i² and costs at least its 4N bytes of coefficients: beyond the last
-  // one with σ_i² ≥ λ·4N, no count can lower the Lagrangian.
-  let useful = 0;
-  while (useful < ch.maxRank && ch.svd.sigma[useful] ** 2 >= lambda * 4 * N) useful++;
-  const ranks =
-    fixed !== undefined
-      ? [Math.min(fixed, ch.maxRank)]
-      : RANK_CANDIDATES.filter((k) => k <= useful).concat(
-          RANK_CANDIDATES.includes(useful) ? [] : [useful],
-        );
-  const top = Math.max(...ranks);
   const S = g.sample.length;
   const deqMean = new Float64Array(S);
   const meanBits = estimatePlane(ch.meanSample, g, step / Math.sqrt(N), deqMean).bits;
+  // The λ rule on its own: eigen-frames whose coding removes at least λ per byte (their energy is σ_i²).
+  // Counts beyond twice its answer (and beyond 4) are not compared: they never won on the benchmark series.
   const deqBasis: Float64Array[] = [];
   const basisBits: number[] = [];
-  for (let i = 0; i < top; i++) {
+  const limit = fixed !== undefined ? Math.min(fixed, ch.maxRank) : ch.maxRank;
+  let kRule = 0;
+  for (let i = 0; i < limit; i++) {
+    if (fixed === undefined && i >= Math.max(4, 2 * kRule)) break;
     const d = new Float64Array(S);
-    basisBits.push(estimatePlane(ch.basisSample(i), g, step, d).bits);
+    const e = estimatePlane(ch.basisSample(i), g, step, d);
+    const bytes = (e.bits / 8) * o.calibration.base + 4 * N;
+    if (kRule === i && ch.svd.sigma[i] ** 2 - e.error >= lambda * bytes) kRule++;
+    basisBits.push(e.bits);
     deqBasis.push(d);
   }
+  const top = deqBasis.length;
+  const ranks =
+    fixed !== undefined ? [top] : RANK_CANDIDATES.filter((k) => k < top).concat([top]);
   // est[r][j]: frame j's residual after ranks[r] eigen-frames.
   const est: PlaneEstimate[][] = ranks.map(() => []);
   const R = new Float64Array(S);
@@ -172,7 +172,9 @@ export function planAt(an: StackAnalysis, step: number, o: PlanOptions): StackPl
 /** Search bounds on log Δ, in grey levels of 8-bit data (times `scale` for 16-bit). */
 const STEP_MIN = 0.02;
 const STEP_MAX = 2048;
-const MAX_PLANS = 24;
+const MAX_PLANS = 16;
+/** The model's size is solved to 1% (log ratio): the real encodes that follow correct the rest. */
+const SOLVE_TOLERANCE = 0.01;
 
 /**
  * The plan whose predicted size is at most `target` bytes and closest to it: bracket log Δ by doubling
@@ -198,9 +200,9 @@ export function solveStep(
     if (f > 0) {
       if (!lo || u > lo.u) lo = { u, f, p };
     } else if (!hi || u < hi.u) hi = { u, f, p };
-    if (hi && hi.f > -0.002) break;
+    if (hi && hi.f > -SOLVE_TOLERANCE) break;
     if (lo && hi) {
-      if (hi.u - lo.u < 0.002) break;
+      if (hi.u - lo.u < SOLVE_TOLERANCE) break;
       const frac = Math.min(0.85, Math.max(0.15, lo.f / (lo.f - hi.f)));
       u = lo.u + frac * (hi.u - lo.u);
     } else {

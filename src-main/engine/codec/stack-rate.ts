@@ -43,6 +43,9 @@ export function bandSteps(g: StackGeometry, step: number): Float64Array {
   return Float64Array.from(g.bands, (b) => step / Math.sqrt(b.gain));
 }
 
+/** Magnitude bins of the plane being estimated (reused: one estimate runs at a time on a thread). */
+let scratch = new Int32Array(0);
+
 /** Per-sample magnitude bins at step Δ: m, and the band's per-sample accumulators. */
 function quantiseSample(x: Float64Array, g: StackGeometry, steps: Float64Array, m: Int32Array) {
   const nb = g.bands.length;
@@ -92,7 +95,8 @@ export function estimatePlane(
 ): PlaneEstimate {
   const nb = g.bands.length;
   const steps = bandSteps(g, step);
-  const m = new Int32Array(x.length);
+  if (scratch.length < x.length) scratch = new Int32Array(x.length);
+  const m = scratch;
   const { counts, esc, zero, all, acc } = quantiseSample(x, g, steps, m);
   const delta = new Float64Array(2 * nb);
   let bits = PLANE_FIXED_BITS;
