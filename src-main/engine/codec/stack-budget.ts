@@ -248,9 +248,15 @@ function fitBytes(
       plan = planAt(an, Math.exp(u), { ...o, ranks });
     } else plan = solveStep(an, aim, o, scale, Math.log(plan.step));
   }
-  let best: StackFit | undefined;
-  for (const { f } of tries)
-    if (fits(f) && (!best || f.encoded.bytes.length > best.encoded.bytes.length)) best = f;
+  const largest = (fs: StackFit[]) => {
+    let best: StackFit | undefined;
+    for (const f of fs) if (fits(f) && (!best || f.encoded.bytes.length > best.encoded.bytes.length)) best = f;
+    return best;
+  };
+  let best = largest(tries.map((t) => t.f));
+  // Not landed: every try's coded residuals chosen again for the budget (no coding), the fullest file kept.
+  if (!best || !landed(best))
+    best = largest(tries.map((t) => ({ ...t.f, encoded: reselect(prep, t.f.encoded, maxBytes) }))) ?? best;
   if (best) return best;
   const edge = done(encodePlanned(prep, { step: 2048 * scale, ranks: an.channels.map(() => 0), residuals: false }));
   if (fits(edge)) return edge;

@@ -41,17 +41,19 @@ export interface EncodePlan {
   tryResidual?: boolean[][];
 }
 
-/** sign(q)·(|q| + δ)·Δ_b, the coder-2 reconstruction of ./wavelet-plane, in the transform domain. */
+/** sign(q)·(|q| + δ)·Δ_b of coefficient i, the coder-2 reconstruction of ./wavelet-plane (0 for q = 0). */
+function recon(c: CodedCoefficients, i: number, map: Uint8Array): number {
+  const v = c.q[i];
+  if (v === 0) return 0;
+  const b = map[i];
+  const d = (c.offsets as Float64Array)[2 * b + (v === 1 || v === -1 ? 0 : 1)];
+  return (v < 0 ? v - d : v + d) * c.steps[b];
+}
+
+/** The dequantised coefficients of a coded plane, in the transform domain. */
 function dequantised(c: CodedCoefficients, map: Uint8Array): Float64Array {
   const out = new Float64Array(c.q.length);
-  const off = c.offsets as Float64Array;
-  for (let i = 0; i < out.length; i++) {
-    const v = c.q[i];
-    if (v === 0) continue;
-    const b = map[i];
-    const d = off[2 * b + (v === 1 || v === -1 ? 0 : 1)];
-    out[i] = (v < 0 ? v - d : v + d) * c.steps[b];
-  }
+  for (let i = 0; i < out.length; i++) out[i] = recon(c, i, map);
   return out;
 }
 
@@ -59,6 +61,17 @@ function dequantised(c: CodedCoefficients, map: Uint8Array): Float64Array {
 export interface ResidualTrial {
   code: CodedCoefficients;
   gain: number;
+}
+
+/** Σ g·(r² − (r − r̂)²) over the coded coefficients (a zero coefficient removes nothing). */
+function removedError(R: Float64Array, c: CodedCoefficients, map: Uint8Array, gain: Float64Array): number {
+  let s = 0;
+  for (let i = 0; i < R.length; i++) {
+    if (c.q[i] === 0) continue;
+    const e = R[i] - recon(c, i, map);
+    s += gain[i] * (R[i] * R[i] - e * e);
+  }
+  return s;
 }
 
 interface ChannelCode {
@@ -129,6 +142,7 @@ function encodeChannel(an: StackAnalysis, c: number, plan: EncodePlan): ChannelC
   const m = deqBasis.length + 1;
   const residuals: Array<ResidualTrial | undefined> = [];
   const n = g.gain.length;
+  const R = new Float64Array(n);
   for (let j = 0; j < N; j++) {
     if (!plan.residuals || plan.tryResidual?.[c][j] === false) {
       residuals.push(undefined);
@@ -136,7 +150,6 @@ function encodeChannel(an: StackAnalysis, c: number, plan: EncodePlan): ChannelC
     }
     const F = ch.frames[j];
     const row = coef.subarray(j * m, (j + 1) * m);
-    const R = new Float64Array(n);
     const d0 = row[0];
     for (let p = 0; p < n; p++) R[p] = F[p] - deqMean[p] - d0 * ch.ones[p];
     for (let i = 0; i < deqBasis.length; i++) {
@@ -144,18 +157,13 @@ function encodeChannel(an: StackAnalysis, c: number, plan: EncodePlan): ChannelC
       const P = deqBasis[i];
       for (let p = 0; p < n; p++) R[p] -= w * P[p];
     }
+    // codeAnalysed reads R and keeps only its quantised copy, so R is reused for the next frame.
     const code = codeAnalysed(asAnalysed(g, R), step, 2);
     if (code.nonZero === 0) {
       residuals.push(undefined);
       continue;
     }
-    const deq = dequantised(code, g.map);
-    let gain = 0;
-    for (let p = 0; p < n; p++) {
-      const e = R[p] - deq[p];
-      gain += g.gain[p] * (R[p] * R[p] - e * e);
-    }
-    residuals.push({ code, gain });
+    residuals.push({ code, gain: removedError(R, code, g.map, g.gain) });
   }
   return { mean, basis, coef, residuals };
 }
