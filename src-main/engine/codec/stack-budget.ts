@@ -184,7 +184,12 @@ function encodePlan(prep: PreparedStack, plan: StackPlan, residuals: boolean): E
 }
 
 /** Measure the model against a real encode of its plan: calibration ratios and the exact fixed bytes. */
-function calibrate(o: PlanOptions, plan: StackPlan, e: EncodedStack, predictFixed: (chunks: number) => number) {
+function calibrate(
+  o: PlanOptions,
+  plan: StackPlan,
+  e: EncodedStack,
+  predictFixed: (chunks: number) => number,
+) {
   let baseRaw = 0;
   let resRaw = 0;
   let resReal = 0;
@@ -250,7 +255,8 @@ function fitBytes(
   }
   const largest = (fs: StackFit[]) => {
     let best: StackFit | undefined;
-    for (const f of fs) if (fits(f) && (!best || f.encoded.bytes.length > best.encoded.bytes.length)) best = f;
+    for (const f of fs)
+      if (fits(f) && (!best || f.encoded.bytes.length > best.encoded.bytes.length)) best = f;
     return best;
   };
   let best = largest(tries.map((t) => t.f));
@@ -258,7 +264,9 @@ function fitBytes(
   if (!best || !landed(best))
     best = largest(tries.map((t) => ({ ...t.f, encoded: reselect(prep, t.f.encoded, maxBytes) }))) ?? best;
   if (best) return best;
-  const edge = done(encodePlanned(prep, { step: 2048 * scale, ranks: an.channels.map(() => 0), residuals: false }));
+  const edge = done(
+    encodePlanned(prep, { step: 2048 * scale, ranks: an.channels.map(() => 0), residuals: false }),
+  );
   if (fits(edge)) return edge;
   throw new StackTargetError(
     `the budget of ${maxBytes} bytes is too small for this series: the smallest stack file is ${edge.encoded.bytes.length} bytes; raise the budget`,
@@ -275,14 +283,14 @@ function reselect(prep: PreparedStack, e: EncodedStack, maxBytes: number): Encod
   if (!coded) return e;
   const keep = paying(coded);
   const items: Array<{ c: number; j: number; bytes: number; ratio: number }> = [];
-  coded.channels.forEach((ch, c) =>
+  coded.channels.forEach((ch, c) => {
     ch.residuals.forEach((r, j) => {
       if (r) {
         const bytes = r.code.bytes.length + CHUNK_FRAMING;
         items.push({ c, j, bytes, ratio: r.gain / bytes });
       }
-    }),
-  );
+    });
+  });
   items.sort((a, b) => b.ratio - a.ratio || a.c - b.c || a.j - b.j);
   let size = e.bytes.length;
   for (const it of items)

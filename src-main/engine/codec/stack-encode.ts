@@ -12,9 +12,9 @@
  */
 import { solveSpdRidge } from '../linalg';
 import { rebuildFrame } from '../stack/frame-svd';
-import { type Chunk, writeContainer } from './container';
 import { encodeCompactHeader } from './compact-header';
-import { type ChannelAnalysis, type StackAnalysis, asAnalysed } from './stack-analysis';
+import { type Chunk, writeContainer } from './container';
+import { asAnalysed, type ChannelAnalysis, type StackAnalysis } from './stack-analysis';
 import {
   chunkId,
   type EncodedStack,
@@ -186,7 +186,11 @@ function stackHeader(prep: PreparedStack, step: number, ranks: number[], residua
     step,
     ranks,
     spectrum: svd.map((s) => Array.from(s.sigma, (v) => Number(v.toPrecision(4)))),
-    frameTable: input.frames.map((f, j) => ({ name: f.name, sourceSha256: f.sourceSha256, residual: residual[j] })),
+    frameTable: input.frames.map((f, j) => ({
+      name: f.name,
+      sourceSha256: f.sourceSha256,
+      residual: residual[j],
+    })),
     meta: input.meta,
   };
 }
@@ -226,7 +230,9 @@ export function codePlanned(prep: PreparedStack, plan: EncodePlan): CodedStack {
 /** The residuals a file keeps by default: those removing at least λ squared error per byte. */
 export function paying(coded: CodedStack): boolean[][] {
   const lambda = LAMBDA_PER_BYTE * coded.step * coded.step;
-  return coded.channels.map((ch) => ch.residuals.map((r) => r !== undefined && r.gain >= lambda * r.code.bytes.length));
+  return coded.channels.map((ch) =>
+    ch.residuals.map((r) => r !== undefined && r.gain >= lambda * r.code.bytes.length),
+  );
 }
 
 /**

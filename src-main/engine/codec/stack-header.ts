@@ -5,8 +5,6 @@
  */
 import { FormatError } from '../../contract/errors';
 import type { FrameModeSvd } from '../stack/frame-svd';
-import type { StackAnalysis } from './stack-analysis';
-import type { CodedStack } from './stack-encode';
 import {
   type Chunk,
   type ContainerView,
@@ -14,6 +12,8 @@ import {
   refuseUnknownCritical,
   writeContainer,
 } from './container';
+import type { StackAnalysis } from './stack-analysis';
+import type { CodedStack } from './stack-encode';
 
 export const STACK_LAYOUT = 'stack';
 /**

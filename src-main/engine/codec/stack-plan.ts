@@ -98,8 +98,7 @@ function planChannel(
     deqBasis.push(d);
   }
   const top = deqBasis.length;
-  const ranks =
-    fixed !== undefined ? [top] : RANK_CANDIDATES.filter((k) => k < top).concat([top]);
+  const ranks = fixed !== undefined ? [top] : RANK_CANDIDATES.filter((k) => k < top).concat([top]);
   // est[r][j]: frame j's residual after ranks[r] eigen-frames.
   const est: PlaneEstimate[][] = ranks.map(() => []);
   const R = new Float64Array(S);
