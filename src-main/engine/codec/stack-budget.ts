@@ -190,11 +190,13 @@ function calibrate(
   e: EncodedStack,
   predictFixed: (chunks: number) => number,
 ) {
-  let baseRaw = 0;
+  let meanRaw = 0;
+  let basisRaw = 0;
   let resRaw = 0;
   let resReal = 0;
   plan.channels.forEach((p, c) => {
-    baseRaw += p.baseRaw;
+    meanRaw += p.meanRaw;
+    basisRaw += p.basisRaw;
     e.coded?.channels[c].residuals.forEach((r, j) => {
       if (r) {
         resRaw += p.residualRaw[j];
@@ -203,7 +205,8 @@ function calibrate(
     });
   });
   const s = e.split;
-  if (baseRaw > 0) o.calibration.base = (s.mean + s.basis) / baseRaw;
+  if (meanRaw > 0) o.calibration.mean = s.mean / meanRaw;
+  if (basisRaw > 0 && s.basis > 0) o.calibration.basis = s.basis / basisRaw;
   if (resRaw > 0) o.calibration.residual = resReal / resRaw;
   const chunks = e.chunks.length;
   const offset = s.header + s.container - predictFixed(chunks);

@@ -23,7 +23,10 @@ const TRY_SLACK = 0.5;
 
 /** Real bytes over predicted bytes, per kind of plane (1 = the raw estimate). */
 export interface RateCalibration {
-  base: number;
+  /** The mean frame (measured apart: a smooth mean codes unlike the eigen-frames). */
+  mean: number;
+  /** The eigen-frames. */
+  basis: number;
   residual: number;
 }
 
@@ -31,7 +34,7 @@ export interface RateCalibration {
  * Starting ratios of coder 2's bytes to the order-0 estimate, before a real encode measures them
  * (measured on the seeded series of test/stack/rate-model.test.ts; refined after every real encode).
  */
-export const DEFAULT_CALIBRATION: RateCalibration = { base: 0.9, residual: 1.05 };
+export const DEFAULT_CALIBRATION: RateCalibration = { mean: 0.9, basis: 0.9, residual: 1.05 };
 
 export interface ChannelPlan {
   rank: number;
@@ -45,7 +48,9 @@ export interface ChannelPlan {
   frameError: Float64Array;
   /** Raw (uncalibrated) predicted bytes of each frame's residual at this rank. */
   residualRaw: Float64Array;
-  baseRaw: number;
+  /** Raw (uncalibrated) predicted bytes of the mean frame and of the eigen-frames. */
+  meanRaw: number;
+  basisRaw: number;
 }
 
 export interface StackPlan {
@@ -92,7 +97,7 @@ function planChannel(
     if (fixed === undefined && i >= Math.max(4, 2 * kRule)) break;
     const d = new Float64Array(S);
     const e = estimatePlane(ch.basisSample(i), g, step, d);
-    const bytes = (e.bits / 8) * o.calibration.base + 4 * N;
+    const bytes = (e.bits / 8) * o.calibration.basis + 4 * N;
     if (kRule === i && ch.svd.sigma[i] ** 2 - e.error >= lambda * bytes) kRule++;
     basisBits.push(e.bits);
     deqBasis.push(d);
@@ -123,8 +128,9 @@ function planChannel(
   let best: ChannelPlan | undefined;
   let bestJ = Number.POSITIVE_INFINITY;
   ranks.forEach((k, r) => {
-    let baseRaw = meanBits / 8;
-    for (let i = 0; i < k; i++) baseRaw += basisBits[i] / 8;
+    const meanRaw = meanBits / 8;
+    let basisRaw = 0;
+    for (let i = 0; i < k; i++) basisRaw += basisBits[i] / 8;
     const residual: boolean[] = [];
     const tryResidual: boolean[] = [];
     const frameError = new Float64Array(N);
@@ -142,11 +148,21 @@ function planChannel(
       frameError[j] = keep ? e.error : e.energy;
       D += frameError[j];
     }
-    const baseBytes = baseRaw * o.calibration.base;
+    const baseBytes = meanRaw * o.calibration.mean + basisRaw * o.calibration.basis;
     const J = D + lambda * (baseBytes + residualBytes + 4 * N * (k + 1));
     if (J < bestJ) {
       bestJ = J;
-      best = { rank: k, residual, tryResidual, baseBytes, residualBytes, frameError, residualRaw, baseRaw };
+      best = {
+        rank: k,
+        residual,
+        tryResidual,
+        baseBytes,
+        residualBytes,
+        frameError,
+        residualRaw,
+        meanRaw,
+        basisRaw,
+      };
     }
   });
   return best as ChannelPlan;
