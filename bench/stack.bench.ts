@@ -26,6 +26,7 @@ import {
   type SyntheticSeries,
 } from './models/synthetic';
 import { truncatedHosvd, tuckerFrame } from './models/tucker';
+import { av1Section } from './stack-av1';
 
 const RATES = (process.env.RANKFOLD_STACK_RATES ?? '0.1,0.25,0.5').split(',').map(Number);
 const QUICK = process.env.RANKFOLD_BENCH_QUICK === '1';
@@ -483,8 +484,10 @@ async function main() {
     }
     lines.push('');
   }
+  const av1 = process.env.RANKFOLD_STACK_AV1 === '0' ? [] : await av1Section();
   const text = [
     ...lines.slice(0, intro),
+    ...av1,
     '### Summary (mean-frame PSNR differences, dB; positive = stack mode better)',
     '',
     '"Noise floor" is the mean PSNR of the noise-free scene against the stored (noisy, rounded) frames: a coder',

@@ -67,3 +67,23 @@ describe.each(Object.keys(expected).filter((n) => n.includes('stack')))('stack f
     }
   });
 });
+
+// Stack layout version 2 (container 1.1, coefficient coder 1), written at main d9c26f4 (test/fixtures/rkf/stack-v2,
+// see SOURCES.md): still read, every frame to the same samples, after version 3 (coder 2) became the writer's.
+const v2: Record<string, Expected & { ranks: number[] }> = JSON.parse(
+  readFileSync(fixture('rkf', 'stack-v2', 'expected.json'), 'utf8'),
+);
+describe.each(Object.keys(v2))('stack version 2 fixture %s', (name) => {
+  it('decodes every frame, in any order, to the samples recorded when it was written', () => {
+    const bytes = new Uint8Array(readFileSync(fixture('rkf', 'stack-v2', name)));
+    expect(createHash('sha256').update(bytes).digest('hex')).toBe(v2[name].fileSha256);
+    expect(readContainer(bytes, name).version).toEqual({ major: 1, minor: 1 });
+    const r = openStack(bytes, name);
+    expect(r.header.stackVersion).toBe(2);
+    expect(r.header.ranks).toEqual(v2[name].ranks);
+    const order = Array.from({ length: r.header.frameCount }, (_, j) => r.header.frameCount - 1 - j);
+    const got: string[] = [];
+    for (const j of order) got[j] = samplesSha(r.frame(j), r.header.bitDepth);
+    expect(got).toEqual(v2[name].framesSha256);
+  });
+});

@@ -155,7 +155,10 @@ describe('compress --stack (folder)', () => {
     for (const target of [join(dir, 'damaged-out'), join(dir, 'damaged-out.tif')]) {
       const r = await run('expand', file, '-o', target);
       expect(r.code).toBe(1);
-      expect(r.err).toMatch(/damaged-copy\.rkf: is damaged: chunk .* fails its CRC-32 check/);
+      // Container 1.4 (compact framing): one CRC-32 over the whole file (docs/format.md).
+      expect(r.err).toMatch(
+        /damaged-copy\.rkf: is truncated or damaged: the CRC-32 at the end of the file does not match/,
+      );
       expect(existsSync(target)).toBe(false);
     }
   });
@@ -163,13 +166,9 @@ describe('compress --stack (folder)', () => {
   it('expand names the damage, not the output, when the damage hides the stack layout or the output exists', async () => {
     const good = readFileSync(join(dir, 'forms.rkf'));
     const cases: Array<[string, (b: Buffer) => void, RegExp]> = [
-      ['trailer', (b) => (b[b.length - 3] ^= 1), /is damaged: the trailer CRC-32 does not match/],
-      ['header', (b) => (b[30] ^= 4), /is damaged: chunk HEAD #0 at byte 12 fails its CRC-32 check/],
-      [
-        'version',
-        (b) => (b[11] ^= 2),
-        /is damaged: it declares container version 1\.3, but it was written as version 1\.1/,
-      ],
+      ['file CRC', (b) => (b[b.length - 3] ^= 1), /the CRC-32 at the end of the file does not match/],
+      ['header', (b) => (b[20] ^= 4), /the CRC-32 at the end of the file does not match/],
+      ['version', (b) => (b[11] ^= 2), /the CRC-32 at the end of the file does not match/],
       [
         'appended copy',
         (b) => b.set(good, good.length),
@@ -197,7 +196,9 @@ describe('compress --stack (folder)', () => {
     const existing = join(dir, 'existing.tif');
     writeFileSync(existing, 'keep');
     const r = await run('expand', file, '-o', existing);
-    expect(r.err).toMatch(/damaged-existing\.rkf: is damaged: chunk .* fails its CRC-32 check/);
+    expect(r.err).toMatch(
+      /damaged-existing\.rkf: is truncated or damaged: the CRC-32 at the end of the file does not match/,
+    );
     expect(readFileSync(existing, 'utf8')).toBe('keep');
   });
 

@@ -12,47 +12,43 @@
  * weight (eigen-frames: Σ_j c_ji² ≈ 1; residuals), and Δ/√N for the mean frame (its error reaches all N
  * frames). Equal step = equal distortion slope, the high-rate condition for an optimal allocation
  * (reverse water-filling; Cover & Thomas, Elements of Information Theory, 2nd ed., §10.3.3, from memory).
- * An eigen-frame or a residual is kept when the squared error it removes is at least λ per byte spent,
- * λ = 16·ln2·Δ²/12 (the slope dD/dR of a uniform quantiser at high rate, D = Δ²/12 per sample, 6.02 dB
- * per bit — common practice).
+ * The number of eigen-frames minimises D + λ·bytes and a residual is kept when the squared error it
+ * removes is at least λ per byte spent, λ = 16·ln2·Δ²/12 (the slope dD/dR of a uniform quantiser at high
+ * rate, D = Δ²/12 per sample, 6.02 dB per bit — common practice); see ./stack-plan and ./stack-encode.
  *
  * Random access: one frame needs the header, the mean, the k eigen-frames, its coefficient row and its
  * own residual — never another frame's data. Full decodes call the same per-frame routine, so a frame
  * is bit-identical either way.
  *
- * Chunks (ids are u32): HEAD (JSON, `layout: "stack"`), SMEA c (mean of channel c), SBAS c·65536+i
+ * Chunks (ids are u32): HEAD (`layout: "stack"`; JSON in stack version 2, compact in version 3), SMEA c (mean of channel c), SBAS c·65536+i
  * (eigen-frame i of channel c), SCOF c (float32 big-endian: per frame, d_j then c_j0…c_j(k−1)),
  * SRES c·65536+j (residual of frame j, channel c), SQAL 0 (float32 big-endian: per frame, PSNR then SSIM of
- * the decoded frame against its source, NaN = not recorded). Planes are coded by stack-plane.ts; the header
- * and its checks are in stack-header.ts. This module works on coded planes (Y, or Y/Cb/Cr); the colour
+ * the decoded frame against its source, NaN = not recorded). Planes are coded by ./wavelet-plane with
+ * coefficient coder 1 (stack version 2, container 1.0–1.1) or 2 (version 3, container 1.4); the header and
+ * its checks are in ./stack-header, the writer in ./stack-encode. This module works on coded planes (Y, or Y/Cb/Cr); the colour
  * transform to and from source samples is in lowrank/stack-frames.ts (PreparedStack.toSource).
  */
 import { FormatError } from '../../contract/errors';
-import { solveSpdRidge } from '../linalg';
 import { psnrFromMse, ssim } from '../metrics';
 import { rebuildFrame } from '../stack/frame-svd';
-import { asciiJson } from './ascii-json';
-import { type Chunk, readContainer, VERSION_MINOR_CODER2, writeContainer } from './container';
+import { decodeCompactHeader } from './compact-header';
+import { type ContainerView, readContainer, VERSION_MINOR_CODER2 } from './container';
+import { encodePlanned } from './stack-encode';
 import {
   checkStackHeader,
   chunkId,
   type EncodedStack,
-  f32be,
-  frameHashes,
   type PreparedStack,
+  STACK_CONTAINER_MINOR,
   STACK_LAYOUT,
   STACK_VERSION,
-  type StackByteSplit,
   type StackHeader,
   type StackHeaderJson,
   type StackInput,
   type StackParams,
-  serialHeader,
 } from './stack-header';
-import { decodePlane, encodePlane } from './stack-plane';
-
-/** λ per byte in units of Δ²: 8 bits · 2·ln2 · (1/12). */
-const LAMBDA_PER_BYTE = (16 * Math.LN2) / 12;
+import { DEFAULT_CALIBRATION, planAt } from './stack-plan';
+import { decodePlane } from './wavelet-plane';
 
 /** Decode UTF-8 (RFC 3629); malformed sequences become U+FFFD. */
 function utf8Text(b: Uint8Array): string {
@@ -83,150 +79,38 @@ function sse(a: ArrayLike<number>, b: ArrayLike<number>): number {
   return s;
 }
 
-function energy(a: ArrayLike<number>): number {
-  let s = 0;
-  for (let i = 0; i < a.length; i++) s += a[i] * a[i];
-  return s;
-}
-
 /**
- * Encode a prepared series at one quantiser step.
+ * Encode a prepared series at one quantiser step: `rank` eigen-frames per channel, or the number the
+ * equal-slope planner (./stack-plan) chooses at this step.
  * @example const e = encodeStack(prepareStack(input), { step: 4 }); e.bytes // the .rkf file
  */
 export function encodeStack(prep: PreparedStack, params: StackParams): EncodedStack {
-  const { input, coded, svd, eigen } = prep;
-  const { width, height, channels, bitDepth } = input;
-  const N = input.frames.length;
-  const n = width * height;
-  const step = params.step;
-  if (!(step > 0 && Number.isFinite(step)))
-    throw new RangeError(`stack quantiser step must be > 0, got ${step}`);
-  const lambda = LAMBDA_PER_BYTE * step * step;
-  const chunks: Chunk[] = [];
-  const split: StackByteSplit = { header: 0, mean: 0, basis: 0, coefficients: 0, residuals: 0, container: 0 };
-  const ranks: number[] = [];
-  const residualFlags: boolean[][] = Array.from({ length: N }, () => []);
-  const rebuilt: Float64Array[][] = Array.from({ length: N }, () => []);
-  const body: Chunk[] = [];
-  for (let c = 0; c < coded.length; c++) {
-    const frames = coded[c];
-    const mean = encodePlane(svd[c].mean, width, height, step / Math.sqrt(N));
-    body.push({ type: 'SMEA', id: c, payload: mean.bytes });
-    split.mean += mean.bytes.length;
-    // Eigen-frames: fixed rank, or keep while the captured energy pays λ per byte.
-    const basis: Float64Array[] = [];
-    const kmax = params.rank !== undefined ? Math.min(params.rank, eigen[c].length) : eigen[c].length;
-    for (let i = 0; i < kmax; i++) {
-      const P = eigen[c].get(i);
-      const code = encodePlane(P, width, height, step);
-      const gain = svd[c].sigma[i] ** 2 - sse(P, code.decoded);
-      if (params.rank === undefined && !(gain >= lambda * (code.bytes.length + 4 * N))) break;
-      basis.push(code.decoded);
-      body.push({ type: 'SBAS', id: chunkId(c, i), payload: code.bytes });
-      split.basis += code.bytes.length;
-    }
-    const k = basis.length;
-    ranks.push(k);
-    // Least-squares coefficients [d_j, c_j] against the decoded planes [1, P̂_0 … P̂_{k−1}].
-    const m = k + 1;
-    const G = new Float64Array(m * m);
-    const ones = (i: number) => (i === 0 ? null : basis[i - 1]);
-    for (let a = 0; a < m; a++)
-      for (let b = a; b < m; b++) {
-        const pa = ones(a);
-        const pb = ones(b);
-        let s = 0;
-        if (!pa && !pb) s = n;
-        else if (!pa) for (let p = 0; p < n; p++) s += (pb as Float64Array)[p];
-        else if (!pb) for (let p = 0; p < n; p++) s += pa[p];
-        else for (let p = 0; p < n; p++) s += pa[p] * pb[p];
-        G[a * m + b] = G[b * m + a] = s;
-      }
-    const coef = new Float32Array(N * m);
-    for (let j = 0; j < N; j++) {
-      const F = frames[j];
-      const rhs = new Float64Array(m);
-      for (let p = 0; p < n; p++) rhs[0] += F[p] - mean.decoded[p];
-      for (let i = 0; i < k; i++) {
-        const P = basis[i];
-        let s = 0;
-        for (let p = 0; p < n; p++) s += P[p] * (F[p] - mean.decoded[p]);
-        rhs[i + 1] = s;
-      }
-      coef.set(solveSpdRidge(G, rhs, m), j * m);
-    }
-    const cof = f32be(coef);
-    body.push({ type: 'SCOF', id: c, payload: cof });
-    split.coefficients += cof.length;
-    for (let j = 0; j < N; j++) {
-      const row = coef.subarray(j * m, (j + 1) * m);
-      const rec = rebuildFrame(mean.decoded, row[0], basis, row.subarray(1));
-      let keep = false;
-      if (params.residuals !== false) {
-        const R = new Float64Array(n);
-        const F = frames[j];
-        for (let p = 0; p < n; p++) R[p] = F[p] - rec[p];
-        const code = encodePlane(R, width, height, step);
-        if (code.nonZero > 0) {
-          const gain = energy(R) - sse(R, code.decoded);
-          if (gain >= lambda * code.bytes.length) {
-            keep = true;
-            for (let p = 0; p < n; p++) rec[p] += code.decoded[p];
-            body.push({ type: 'SRES', id: chunkId(c, j), payload: code.bytes });
-            split.residuals += code.bytes.length;
-          }
-        }
-      }
-      residualFlags[j].push(keep);
-      rebuilt[j].push(rec);
-    }
-  }
-  const header: StackHeader = {
-    format: 'rankfold',
-    layout: 'stack',
-    stackVersion: STACK_VERSION,
-    width,
-    height,
-    bitDepth,
-    channels,
-    colour: channels === 3 ? 'ycbcr' : 'gray',
-    frameCount: N,
-    model: 'frame-svd',
-    planeCoder: 'cdf97-rc',
-    step,
-    ranks,
-    spectrum: svd.map((s) => Array.from(s.sigma, (v) => Number(v.toPrecision(4)))),
-    frameTable: input.frames.map((f, j) => ({
-      name: f.name,
-      sourceSha256: f.sourceSha256,
-      residual: residualFlags[j],
-    })),
-    meta: input.meta,
-  };
-  const head = asciiJson(serialHeader(header));
-  const hashes = frameHashes(header.frameTable);
-  // Frame quality is measured on the decoded frames after the rate control has chosen this encode
-  // (recordFrameQuality); until then the chunk holds NaN, "not recorded", at its final size.
-  const quality = f32be(new Float32Array(2 * N).fill(Number.NaN));
-  chunks.push(
-    { type: 'HEAD', id: 0, payload: head },
-    { type: 'SHSH', id: 0, payload: hashes },
-    { type: 'SQAL', id: 0, payload: quality },
-    ...body,
-  );
-  split.header = head.length + hashes.length + quality.length;
-  const bytes = writeContainer(chunks);
-  split.container =
-    bytes.length - split.header - split.mean - split.basis - split.coefficients - split.residuals;
-  const decoded = rebuilt.map((planes) => prep.toSource(planes));
-  return { bytes, header, decoded, split, chunks };
+  const residuals = params.residuals !== false;
+  const an = prep.analysis();
+  const ranks =
+    params.rank !== undefined
+      ? an.channels.map((ch) => Math.min(params.rank as number, ch.maxRank))
+      : planAt(an, params.step, {
+          residuals,
+          calibration: DEFAULT_CALIBRATION,
+          fixedBytes: () => 0,
+        }).channels.map((p) => p.rank);
+  return encodePlanned(prep, { step: params.step, ranks, residuals });
+}
+
+/** The header value of a stack file: JSON in stack version 2 (container 1.0–1.1), compact from 1.4. */
+function headerValue(view: ContainerView): unknown {
+  const raw = view.payload(0);
+  if (view.version.minor >= STACK_CONTAINER_MINOR) return decodeCompactHeader(raw);
+  return JSON.parse(utf8Text(raw));
 }
 
 /** True when the container's HEAD says `layout: "stack"`. Cheap: reads only the header chunk. */
 export function isStackContainer(bytes: Uint8Array, file = 'input'): boolean {
   const view = readContainer(bytes, file, false);
+  if (view.version.minor === VERSION_MINOR_CODER2) return false;
   try {
-    const h = JSON.parse(utf8Text(view.payload(0)));
+    const h = headerValue(view) as { layout?: unknown } | null;
     return h?.layout === STACK_LAYOUT;
   } catch {
     return false;
@@ -256,21 +140,23 @@ export function openStackPlanes(bytes: Uint8Array, file: string): StackPlaneRead
   const fail = (problem: string): never => {
     throw new FormatError(file, problem);
   };
-  // Version 1.3 is written for two-layer images only, with a binary header (./compact-header).
-  if (view.version.minor >= VERSION_MINOR_CODER2)
+  // Version 1.3 is written for two-layer images only.
+  if (view.version.minor === VERSION_MINOR_CODER2)
     fail('is not a stack file (it is a two-layer image file); use `rankfold expand` without --frame');
   let header: StackHeaderJson & { frameTable?: StackHeader['frameTable'] };
   try {
-    header = JSON.parse(utf8Text(view.payload(0)));
+    header = headerValue(view) as typeof header;
   } catch (err) {
     if (err instanceof FormatError) throw err;
-    return fail('is damaged: its header is not valid JSON');
+    return fail('is damaged: its header cannot be read');
   }
   checkStackHeader(view, header, file);
   const { width, height, frameCount, channels } = header;
   const coded = channels === 3 ? 3 : 1;
   const n = width * height;
   const touched = new Set<string>();
+  // Stack version 2 planes use coefficient coder 1 (frozen), version 3 coder 2.
+  const coder = header.stackVersion === STACK_VERSION ? 2 : 1;
   const chunk = (type: string, id: number): Uint8Array => {
     const k = view.find(type, id);
     if (k < 0) fail(`is truncated or damaged: chunk ${type} #${id} is missing`);
@@ -280,7 +166,7 @@ export function openStackPlanes(bytes: Uint8Array, file: string): StackPlaneRead
   const plane = (type: string, id: number, step: number): Float64Array => {
     const b = chunk(type, id);
     try {
-      return decodePlane(b, width, height, step);
+      return decodePlane(b, width, height, step, coder);
     } catch (err) {
       return fail(`is damaged: chunk ${type} #${id} does not decode: ${(err as Error).message}`);
     }

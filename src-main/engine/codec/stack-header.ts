@@ -12,10 +12,18 @@ import {
   refuseUnknownCritical,
   writeContainer,
 } from './container';
+import type { StackAnalysis } from './stack-analysis';
+import type { CodedStack } from './stack-encode';
 
 export const STACK_LAYOUT = 'stack';
-/** 2: planes coded with the codec's range coder (two-speed adaptive contexts) and the SQAL chunk. */
-export const STACK_VERSION = 2;
+/**
+ * Stack layout versions: 2 (container 1.0/1.1, JSON header, coefficient coder 1; still read) and 3, written
+ * now (container 1.4: compact framing and header, coefficient coder 2).
+ */
+export const STACK_VERSION = 3;
+export const STACK_VERSION_CODER1 = 2;
+/** Container minor version of stack-layout-3 files (1.3 is the two-layer image file). */
+export const STACK_CONTAINER_MINOR = 4;
 /** Largest number of eigen-frames considered per channel. */
 export const MAX_STACK_RANK = 64;
 
@@ -95,6 +103,8 @@ export interface PreparedStack {
   eigen: LazyEigenFrames[];
   /** One frame's coded planes back to source samples: YCbCr → RGB for colour, then rounded and clamped. */
   toSource(planes: Float64Array[]): Float32Array[];
+  /** The series in the wavelet domain (./stack-analysis), computed on first use and kept. */
+  analysis(): StackAnalysis;
 }
 
 export interface StackParams {
@@ -119,11 +129,13 @@ export interface StackByteSplit {
 export interface EncodedStack {
   bytes: Uint8Array;
   header: StackHeader;
-  /** Decoded frames on the source scale (rounded, clamped): [frame][channel]. */
-  decoded: Float32Array[][];
+  /** Decoded frames on the source scale (rounded, clamped): [frame][channel]; formed on first use. */
+  readonly decoded: Float32Array[][];
   split: StackByteSplit;
   /** The chunks of `bytes`, so the frame-quality chunk can be filled in without coding again. */
   chunks: Chunk[];
+  /** Every plane the encoder coded, the residuals it did not keep included (./stack-encode `assemble`). */
+  coded?: CodedStack;
 }
 
 /** Bytes of the SQAL chunk for N frames: a PSNR and an SSIM per frame, float32. Fixed, so budgets count it from the first trial. */
@@ -179,9 +191,13 @@ export function checkStackHeader(
   };
   if (header?.layout !== STACK_LAYOUT)
     fail('is not a stack file (its header has no stack layout); use `rankfold expand` without --frame');
-  if (header.stackVersion !== STACK_VERSION)
+  // Version 3 lives in container 1.4 only, version 2 in 1.0–1.1 only: the file check covers the pairing.
+  const expected = view.version.minor >= STACK_CONTAINER_MINOR ? STACK_VERSION : STACK_VERSION_CODER1;
+  if (header.stackVersion !== expected)
     fail(
-      `uses stack layout version ${header.stackVersion}, which this Rankfold does not read (it reads ${STACK_VERSION})`,
+      header.stackVersion === STACK_VERSION || header.stackVersion === STACK_VERSION_CODER1
+        ? `is damaged: stack layout version ${header.stackVersion} does not belong in container version 1.${view.version.minor}`
+        : `uses stack layout version ${header.stackVersion}, which this Rankfold does not read (it reads ${STACK_VERSION_CODER1} and ${STACK_VERSION})`,
     );
   const { width, height, frameCount, channels, bitDepth } = header;
   const okInt = (v: unknown, lo: number, hi: number) =>
@@ -282,7 +298,7 @@ export function recordFrameQuality(e: EncodedStack, psnr: number[], ssim: number
   }
   const payload = f32be(values);
   const chunks = e.chunks.map((c) => (c.type === 'SQAL' ? { ...c, payload } : c));
-  const bytes = writeContainer(chunks);
+  const bytes = writeContainer(chunks, STACK_CONTAINER_MINOR);
   if (bytes.length !== e.bytes.length || payload.length !== qualityBytes(N))
     throw new Error('internal: recording frame quality changed the stack file size');
   const frameTable = e.header.frameTable.map((f, j) => ({

@@ -4,6 +4,7 @@
  * (../stack/frame-svd) before an encode, and frames rebuilt as rounded, clamped samples when a file is read.
  */
 
+import { analyseStack, type StackAnalysis } from '../codec/stack-analysis';
 import { openStackPlanes, type StackReaderOf } from '../codec/stack-codec';
 import {
   type LazyEigenFrames,
@@ -54,7 +55,12 @@ export function prepareStack(input: StackInput, maxRank = MAX_STACK_RANK): Prepa
     };
   });
   const toSource = (planes: Float64Array[]) => toSourceSamples(planes, channels, input.bitDepth);
-  return { input, coded, svd, eigen, toSource };
+  let analysis: StackAnalysis | undefined;
+  const analyse = () => {
+    analysis ??= analyseStack(coded, svd, width, height, Math.min(maxRank, frames.length));
+    return analysis;
+  };
+  return { input, coded, svd, eigen, toSource, analysis: analyse };
 }
 
 /** A reader whose frames are source samples: one plane per source channel, rounded and clamped. */
