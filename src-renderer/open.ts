@@ -93,13 +93,13 @@ export function createOpener(p: OpenerParts): Opener {
     const current = () => seq === state.openSeq;
     const openedAt = performance.now();
     const job = newJob();
-    bar.busy(job, `Reading ${given(source, name)}…`);
+    bar.busy(job, `Reading ${given(source, name)}…`, 'open');
     try {
       const scan = await api.openScan({ source });
       if (!current()) return;
       const openMs = performance.now() - openedAt;
       const minDim = Math.min(scan.width, scan.height);
-      bar.busy(job, `Finding the main layers of ${scan.name}…`);
+      bar.busy(job, `Factorising ${scan.name}…`, 'factors');
       const first = await api.factors({
         scanId: scan.scanId,
         maxRank: Math.min(minDim, FIRST_PASS_RANK),
@@ -159,7 +159,7 @@ export function createOpener(p: OpenerParts): Opener {
 
   const uploadAndOpen = async (f: File) => {
     try {
-      bar.busy(newJob(), `Uploading ${f.name}…`);
+      bar.busy(newJob(), `Uploading ${f.name}…`, 'open');
       const id = await api.upload(f.name, await f.arrayBuffer());
       await open({ kind: 'upload', uploadId: id }, f.name);
     } catch (err) {

@@ -8,7 +8,7 @@ import { bind } from './bind';
 import { LOSSY_CAUTION } from './captions';
 import { formatBytes } from './format';
 import type { Readouts } from './readouts';
-import { type SaveKind, savePlanText } from './save-plan';
+import { type SaveKind, savePlanText, suggestedName } from './save-plan';
 import type { PageState } from './state';
 import { newJob, type StatusBar } from './status';
 import type { PageApi } from './transport';
@@ -65,7 +65,7 @@ export function setupSavePanel(
     const kind = chosenKind();
     const typed = el.path.value.trim();
     const job = newJob();
-    bar.busy(job, 'Saving…');
+    bar.busy(job, `Saving ${suggestedName(kind, s.name, s.bitDepth as 8 | 16)}…`, 'save');
     try {
       let path: string | undefined;
       if (typed || api.transport() === 'ipc') {

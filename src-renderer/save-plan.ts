@@ -66,7 +66,8 @@ export function savePlanText(p: SavePlanInput): string {
     return `Will write ${name}: ${what}, ${when}.`;
   }
   const planes = p.tiled ? `tiles of ${p.tile}` : 'whole planes';
-  const f = p.shown && sameBudget(p.shown.budget, p.budget) && p.shown.tiled === p.tiled ? p.shown : undefined;
+  const f =
+    p.shown && sameBudget(p.shown.budget, p.budget) && p.shown.tiled === p.tiled ? p.shown : undefined;
   const rank = f?.values.rank;
   const at = `${budgetText(p.budget)}${p.budget.kind !== 'rank' && rank !== undefined ? ` (rank ${rank})` : ''}, ${planes}`;
   if (p.kind === 'expanded')

@@ -137,7 +137,7 @@ export function createStackCard(p: StackParts): StackCard {
     async open(path) {
       const seq = ++state.openSeq; // a scan still opening must not take over the view
       const job = newJob();
-      bar.busy(job, 'Reading the stack…');
+      bar.busy(job, 'Reading the stack…', 'stack');
       // The first frame before anything changes: a file that fails to open leaves the current view as it was.
       let buf: ArrayBuffer;
       try {
