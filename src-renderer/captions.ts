@@ -109,6 +109,10 @@ export interface PaneView {
   held: number;
 }
 
+/** What the Tile ranks view says in whole-plane mode, in place of the map. */
+export const NO_TILES =
+  'No tile ranks: the scan is coded as whole planes. Choose “tiles of” under Planes to see each tile’s rank.';
+
 /** The labels above the left and right panes. */
 export function paneLabels(p: PaneView): { left: string; right: string } {
   const right =
@@ -121,7 +125,7 @@ export function paneLabels(p: PaneView): { left: string; right: string } {
           : p.mode === 'layer'
             ? `layer ${p.layerIndex + 1}: σᵢuᵢvᵢᵀ`
             : p.mode === 'tiles' && !p.tiled
-              ? 'no tiles: choose “tiles of” under Planes to see each tile’s rank'
+              ? 'Tile ranks: none, the scan is coded as whole planes'
               : p.tiled
                 ? `tiles of ${p.tile}, rank ≤ ${p.rank}`
                 : p.held < p.rank
@@ -131,12 +135,19 @@ export function paneLabels(p: PaneView): { left: string; right: string } {
   return { left, right };
 }
 
-/** The pane labels and slider readout of a stack frame. */
+/** What the left pane says of a stack frame: a stack file keeps no originals. */
+export const NO_ORIGINAL_FRAME = 'The original frame is not in the stack file';
+
+/**
+ * The pane labels and slider readout of a stack frame. Frames are counted from 1 here, in the CLI's
+ * reports and in its `--frame` option alike.
+ */
 export function frameLabels(info: StackFrameInfo): { left: string; right: string; position: string } {
+  const n = info.frame + 1;
   return {
-    left: `frame ${info.frame + 1} of ${info.frameCount} · decoded`,
-    right: `${frameName(info)} · decoded (the originals are not in the file)`,
-    position: `${info.frame + 1} / ${info.frameCount}`,
+    left: `original of frame ${n}: not available (a stack file keeps only the compressed series)`,
+    right: `frame ${n} of ${info.frameCount} · ${frameName(info)} · decoded from the stack file`,
+    position: `${n} / ${info.frameCount}`,
   };
 }
 

@@ -7,6 +7,7 @@ import { decodeFactorSet } from '../src-main/contract';
 import { bind } from './bind';
 import {
   frameLabels,
+  NO_ORIGINAL_FRAME,
   STACK_METRICS,
   stackCardCells,
   stackInfoText,
@@ -76,6 +77,7 @@ export function createStackCard(p: StackParts): StackCard {
       height: header.height,
       peak: header.peak,
       original,
+      noOriginal: NO_ORIGINAL_FRAME,
       recon: () => recon,
     });
     const labels = frameLabels(info);

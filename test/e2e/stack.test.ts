@@ -137,9 +137,9 @@ describe('stack files in the page', () => {
     await shot(page, 'stack-frame-7');
   });
 
-  it('the frame sent to the page equals `rankfold expand --frame 6`, read back with sharp', async () => {
-    const out = join(dir, 'f6.png');
-    await cliJson(['expand', stackFile, '-o', out, '--frame', '6']);
+  it('the frame sent to the page equals `rankfold expand --frame 7` (frames count from 1), read back with sharp', async () => {
+    const out = join(dir, 'f7.png');
+    await cliJson(['expand', stackFile, '-o', out, '--frame', '7']);
     expect((await sharp(out).metadata()).channels).toBe(1);
     const { data, info } = await sharp(out).toColourspace('b-w').raw().toBuffer({ resolveWithObject: true });
     expect(info.channels).toBe(1);
@@ -149,7 +149,7 @@ describe('stack files in the page', () => {
     expect([header.width, header.height]).toEqual([W, H]);
     expect(Array.from(arrays['src.0'])).toEqual(Array.from(data));
     const bad = await apiStackFrame(stackFile, N);
-    expect(bad.error).toMatch(/frame 8 does not exist/);
+    expect(bad.error).toMatch(/frame 9 does not exist; the stack holds frames 1–8/);
   });
 
   it('raised no errors in the page', () => {
