@@ -84,7 +84,11 @@ export function createRankSlider(
       pump();
       if (k > m.maxRank) api.onBeyond?.(k);
     }
-    if (fromUser) state.budget = { kind: 'rank', rank: k };
+    if (fromUser) {
+      state.budget = { kind: 'rank', rank: k };
+      // The slider's rank is the budget now: no other budget's rank to mark.
+      state.budgetRank = undefined;
+    }
     readouts.estimate(k);
     panes.label();
   };

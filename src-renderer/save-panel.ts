@@ -5,7 +5,7 @@
  */
 import type { CleanSettings } from '../src-main/contract';
 import { bind } from './bind';
-import { LOSSY_CAUTION } from './captions';
+import { CLEANING_CAUTION, LOSSY_CAUTION } from './captions';
 import { formatBytes } from './format';
 import type { Readouts } from './readouts';
 import { type SaveKind, savePlanText, suggestedName } from './save-plan';
@@ -92,7 +92,8 @@ export function setupSavePanel(
         el.result.append(a);
         a.click();
       }
-      el.caution.textContent = r.caution;
+      // The page's own wording of the caution the back end returned (the contract's names CLI flags).
+      el.caution.textContent = kind === 'cleaned' || kind === 'removed' ? CLEANING_CAUTION : LOSSY_CAUTION;
       bar.show(`Saved ${r.fileName}.`);
     } catch (err) {
       bar.fail(err);

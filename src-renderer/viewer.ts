@@ -229,7 +229,7 @@ export class CompareView {
   private say(c: HTMLCanvasElement, text: string) {
     const ctx = c.getContext('2d')!;
     ctx.clearRect(0, 0, c.width, c.height);
-    Object.assign(ctx, { fillStyle: '#4a4237', textAlign: 'center' });
+    Object.assign(ctx, { fillStyle: '#e8e0d0', textAlign: 'center' });
     ctx.font = `${Math.round(13 * (window.devicePixelRatio || 1))}px system-ui, sans-serif`;
     ctx.fillText(text, c.width / 2, c.height / 2, c.width - 16);
   }
