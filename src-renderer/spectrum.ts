@@ -113,6 +113,12 @@ export class SpectrumCharts {
     }
   }
 
+  /** Fit now and again after the first paint, once the legend and title have their final size. */
+  private fitSoon() {
+    this.resize();
+    requestAnimationFrame(() => this.resize());
+  }
+
   private marks() {
     return {
       draw: [
@@ -195,7 +201,7 @@ export class SpectrumCharts {
       [Array.from(ks), Array.from(psnr), Array.from(frob), spec, nulls(K), nulls(K)],
       this.errorHost,
     );
-    this.resize();
+    this.fitSoon();
   }
 
   /**
@@ -285,7 +291,7 @@ export class SpectrumCharts {
       [ks, ...cum.map((cs) => cs.map((f) => (f < 1 - 1e-12 ? 100 * (1 - f) : null))), nulls(K)],
       this.errorHost,
     );
-    this.resize();
+    this.fitSoon();
   }
 
   mark(rank: number, budgetRank?: number) {

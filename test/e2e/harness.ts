@@ -256,6 +256,12 @@ export async function readouts(page: Page): Promise<Record<string, number>> {
 }
 
 const run = promisify(execFile);
+/** `rankfold <args>` from the built CLI: its text report on stdout. */
+export async function cliText(args: string[]): Promise<string> {
+  const { stdout } = await run(process.execPath, [cli, ...args], { cwd: repoRoot, maxBuffer: 1 << 24 });
+  return stdout;
+}
+
 /** `rankfold <args> --json` from the built CLI, parsed. */
 export async function cliJson(args: string[]): Promise<Record<string, unknown>> {
   const { stdout } = await run(process.execPath, [cli, ...args, '--json'], {

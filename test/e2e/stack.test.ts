@@ -16,7 +16,7 @@ import type { BrowserContext, Page } from 'playwright-core';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { decodeFactorSet } from '../../src-main/contract';
-import { cliJson, launch, readouts, type Served, serve, shot } from './harness';
+import { cliJson, cliText, launch, readouts, type Served, serve, shot } from './harness';
 
 const W = 64;
 const H = 48;
@@ -122,6 +122,33 @@ describe('stack files in the page', () => {
     );
     // The frame-mode spectrum chart replaced the rank spectrum.
     expect(await page.textContent('#chart-sigma')).toContain('Frame-mode singular values');
+    // A stack file keeps no originals: the left pane says so rather than repeating the decoded frame.
+    expect(await page.textContent('#label-left')).toContain('not available');
+    // The frame-mode plots fill their cards once the title and legend have their size (not squashed).
+    const share = await page.$$eval('#chart-sigma, #chart-error', (els) =>
+      els.map(
+        (e) => (e.querySelector('.u-wrap') as unknown as { offsetHeight: number }).offsetHeight / e.clientHeight,
+      ),
+    );
+    for (const f of share) expect(f).toBeGreaterThan(0.5);
+  });
+
+  it('the CLI text report and the app name the same worst frame, both counting from 1', async () => {
+    const text = await cliText([
+      'compress',
+      '--stack',
+      framesDir,
+      '-o',
+      join(dir, 'again.rkf'),
+      '--rank',
+      '3',
+    ]);
+    const m = /PSNR worst [\d.]+ dB \(frame (\d+) of 8\)/.exec(text);
+    expect(m, text).not.toBeNull();
+    const n = Number(m?.[1]);
+    // The JSON report gives the array position (from 0) of the same frame.
+    expect(n).toBe((report.psnr as { worstFrame: number }).worstFrame + 1);
+    expect(await page.textContent('[data-metric="worst-psnr"] dd')).toContain(`frame ${n}`);
   });
 
   it('moving the Frame slider shows another frame and updates the readouts', async () => {
