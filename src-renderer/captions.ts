@@ -144,9 +144,10 @@ export const NO_ORIGINAL_FRAME = 'The original frame is not in the stack file';
  */
 export function frameLabels(info: StackFrameInfo): { left: string; right: string; position: string } {
   const n = info.frame + 1;
+  const name = info.frameNames[info.frame];
   return {
     left: `original of frame ${n}: not available, not kept in a stack file`,
-    right: `frame ${n} of ${info.frameCount} · ${frameName(info)} · decoded from the stack file`,
+    right: `frame ${n} of ${info.frameCount}${name ? ` · ${name}` : ''} · decoded from the stack file`,
     position: `${n} / ${info.frameCount}`,
   };
 }

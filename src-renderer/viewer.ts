@@ -4,6 +4,7 @@
  * per-tile rank map. Only the visible pixels are painted, so a repaint costs the viewport, not the scan.
  */
 
+import { paneNote } from './canvas-note';
 import { NO_TILES, RANK_RAMP } from './captions';
 import { clampView, DIVIDER_GRAB_PX, fitView, panView, type ViewState, viewKey, zoomView } from './view-math';
 import type { ViewMode, ViewSource } from './view-types';
@@ -206,7 +207,7 @@ export class CompareView {
     const k = 255 / s.peak;
     const rec = s.recon();
     if (this.mode === 'side') {
-      if (s.noOriginal) this.say(this.left, s.noOriginal);
+      if (s.noOriginal) paneNote(this.left, s.noOriginal);
       else this.blit(this.left, ix, iy, s.original, k, 0);
       this.blit(this.right, ix, iy, rec, k, 0);
     } else if (s.noOriginal && (this.mode === 'swipe' || this.mode === 'diff')) {
@@ -223,15 +224,6 @@ export class CompareView {
       this.blitTiles(this.right, ix, iy, rec, k);
     } else this.blit(this.right, ix, iy, rec, k, 0);
     this.lastPaintMs = performance.now() - t0;
-  }
-
-  /** A pane with nothing to show: cleared, with the reason in the middle. */
-  private say(c: HTMLCanvasElement, text: string) {
-    const ctx = c.getContext('2d')!;
-    ctx.clearRect(0, 0, c.width, c.height);
-    Object.assign(ctx, { fillStyle: '#e8e0d0', textAlign: 'center' });
-    ctx.font = `${Math.round(13 * (window.devicePixelRatio || 1))}px system-ui, sans-serif`;
-    ctx.fillText(text, c.width / 2, c.height / 2, c.width - 16);
   }
 
   private image(c: HTMLCanvasElement): { ctx: CanvasRenderingContext2D; img: ImageData; px: Uint32Array } {
@@ -367,7 +359,7 @@ export class CompareView {
   private blitTiles(c: HTMLCanvasElement, ix: Int32Array, iy: Int32Array, rec: Float32Array[], k: number) {
     const s = this.source!;
     const t = s.tiles;
-    if (!t) return this.say(c, NO_TILES);
+    if (!t) return paneNote(c, NO_TILES);
     this.blit(c, ix, iy, rec, k, 0);
     const ctx = c.getContext('2d')!;
     const maxRank = Math.max(1, ...t.ranks);

@@ -127,7 +127,8 @@ describe('stack files in the page', () => {
     // The frame-mode plots fill their cards once the title and legend have their size (not squashed).
     const share = await page.$$eval('#chart-sigma, #chart-error', (els) =>
       els.map(
-        (e) => (e.querySelector('.u-wrap') as unknown as { offsetHeight: number }).offsetHeight / e.clientHeight,
+        (e) =>
+          (e.querySelector('.u-wrap') as unknown as { offsetHeight: number }).offsetHeight / e.clientHeight,
       ),
     );
     for (const f of share) expect(f).toBeGreaterThan(0.5);

@@ -169,13 +169,14 @@ describe('paneLabels', () => {
 
 describe('stack frame', () => {
   it('labels use the frame name, or "frame N" when the file has none', () => {
+    // Frames count from 1 on the page, as in the CLI's reports and `expand --frame`.
     expect(frameLabels(frame())).toEqual({
-      left: 'frame 4 of 6 · decoded',
-      right: 'f-3.png · decoded (the originals are not in the file)',
+      left: 'original of frame 4: not available, not kept in a stack file',
+      right: 'frame 4 of 6 · f-3.png · decoded from the stack file',
       position: '4 / 6',
     });
     expect(frameLabels(frame({ frame: 4 })).right).toBe(
-      'frame 5 · decoded (the originals are not in the file)',
+      'frame 5 of 6 · frame 5 · decoded from the stack file',
     );
   });
 
