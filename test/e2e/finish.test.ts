@@ -9,13 +9,14 @@
  *   smallest rank reaching 35 dB lies in 11–20 (Eckart–Young–Mirsky);
  * - PNG signature, ISO/IEC 15948:2004 §5.2 (bytes 89 50 4E 47 0D 0A 1A 0A).
  */
-import { copyFileSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import { image } from '../helpers/fixtures';
-import { type AppSession, openApp, readouts, serve, shot } from './harness';
+import { readouts, serve, shot } from './harness';
+import { appForSuite } from './suite';
 
 declare const document: {
   getElementById(
@@ -24,19 +25,10 @@ declare const document: {
   body: { dataset: Record<string, string | undefined> };
 };
 
-const samples = mkdtempSync(join(tmpdir(), 'rankfold-e2e-finish-'));
-copyFileSync(image('moon.png'), join(samples, 'moon.png'));
-
-let app: AppSession;
+const suite = appForSuite([image('moon.png')]);
 let page: Page;
-
-beforeAll(async () => {
-  app = await openApp(samples);
-  page = app.page;
-});
-
-afterAll(async () => {
-  await app?.close();
+beforeAll(() => {
+  page = suite.page;
 });
 
 async function waitExactRank(rank: number, timeout = 30_000) {
@@ -167,7 +159,7 @@ describe('opening, saving, progress and messages (1440×900)', () => {
   });
 
   it('raised no errors in the page', () => {
-    expect(app.pageErrors).toEqual([]);
+    expect(suite.app.pageErrors).toEqual([]);
   });
 });
 
