@@ -152,7 +152,7 @@ export function removedForDisplay(removed: Float32Array[], peak: number, gain: n
  * The PSNR a scan opens at. Common practice (from memory, no single standard): at about 35 dB and above,
  * an 8-bit scan's truncation errors are hard to see at 100 % on a screen, while 20–25 dB shows streaks.
  */
-export const OPENING_PSNR_DB = 35;
+const OPENING_PSNR_DB = 35;
 
 /** Why the scan opened at its rank: `reached` (the floor is met), `pending` (more layers are coming), `capped`. */
 export interface OpeningChoice {

@@ -10,7 +10,7 @@ import type { ShownFigures } from './readouts';
 export type SaveKind = 'rkf' | 'expanded' | 'cleaned' | 'removed';
 
 /** A budget as the page says it. */
-export function budgetText(b: Budget): string {
+function budgetText(b: Budget): string {
   switch (b.kind) {
     case 'rank':
       return `rank ${b.rank}`;

@@ -48,7 +48,8 @@ export async function runStack(argv: string[], io: CliIO): Promise<number> {
   if (!output)
     throw new UsageError('expand: missing -o OUT.png, OUT.tif or OUT_DIR. See `rankfold expand --help`.');
   // Frames are counted from 1 on the command line, in the reports and in the app; the service takes an index.
-  const frame = v.frame !== undefined ? parseOptionText(OPTIONS.frameNumber, v.frame as string) - 1 : undefined;
+  const frame =
+    v.frame !== undefined ? parseOptionText(OPTIONS.frameNumber, v.frame as string) - 1 : undefined;
   const report = await expandStackFile(input, output, { frame, force: Boolean(v.force) });
   io.stdout(v.json ? `${JSON.stringify(report)}\n` : format(report));
   if (!v.json) io.stderr(`${LOSSY_CAUTION}\n`);
