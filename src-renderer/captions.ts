@@ -2,13 +2,16 @@
  * The page's sentences and labels built from data: scan and stack summaries, status lines, pane labels,
  * the stack card, the clean report and batch rows. No DOM; the panels put these strings in place.
  */
-import type {
-  BatchFileStatus,
-  BatchResult,
-  CompressReport,
-  ProgressEvent,
-  ScanSummary,
-  StackFrameInfo,
+import {
+  adviceOf,
+  type BatchFileStatus,
+  type BatchResult,
+  type Budget,
+  type CompressReport,
+  type Hint,
+  type ProgressEvent,
+  type ScanSummary,
+  type StackFrameInfo,
 } from '../src-main/contract';
 import { formatBytes, formatPsnr } from './format';
 import type { ViewMode } from './view-types';
@@ -45,17 +48,27 @@ export function encodedStatus(r: Pick<CompressReport, 'outputBytes' | 'psnr' | '
   return `Encoded: ${formatBytes(r.outputBytes)}, PSNR ${formatPsnr(r.psnr)}, SSIM ${r.ssim.toFixed(4)}.`;
 }
 
-type Progress = Pick<ProgressEvent, 'done' | 'total' | 'stage' | 'file' | 'message'>;
-const fileSuffix = (e: Progress) => (e.file ? ` — ${e.file}` : '');
-
-/** The status line of a running job. */
-export function progressText(e: Progress): string {
-  return `${e.stage}${fileSuffix(e)} (${e.done}/${e.total})`;
+/** What the status bar says while the encoder works at `budget` (tile 0: whole planes). */
+export function evaluateLabel(budget: Budget, tile: number): string {
+  const tiles = tile > 0 ? ` in tiles of ${tile}` : '';
+  switch (budget.kind) {
+    case 'rank':
+      return `Encoding at rank ${budget.rank}${tiles}…`;
+    case 'psnr':
+      return `Finding the smallest file ≥ ${budget.db} dB${tiles}…`;
+    case 'ssim':
+      return `Finding the smallest file with SSIM ≥ ${budget.value}${tiles}…`;
+    default:
+      return `Finding the best quality that fits the budget${tiles}…`;
+  }
 }
 
-/** The status line of a running batch. */
+type Progress = Pick<ProgressEvent, 'done' | 'total' | 'stage' | 'file' | 'message'>;
+
+/** The status line of a running batch: files finished of all, and the last one's outcome. */
 export function batchProgressText(e: Progress): string {
-  return `Batch: ${e.done}/${e.total} ${e.stage}${fileSuffix(e)}`;
+  const last = e.file ? ` · last: ${recentLabel(e.file)} ${e.stage}` : '';
+  return `Batch: ${e.done} of ${e.total} file${e.total === 1 ? '' : 's'} finished${last}`;
 }
 
 /** One file's row in the batch list. */
@@ -96,6 +109,10 @@ export interface PaneView {
   held: number;
 }
 
+/** What the Tile ranks view says in whole-plane mode, in place of the map. */
+export const NO_TILES =
+  'No tile ranks: the scan is coded as whole planes. Choose “tiles of” under Planes to see each tile’s rank.';
+
 /** The labels above the left and right panes. */
 export function paneLabels(p: PaneView): { left: string; right: string } {
   const right =
@@ -108,7 +125,7 @@ export function paneLabels(p: PaneView): { left: string; right: string } {
           : p.mode === 'layer'
             ? `layer ${p.layerIndex + 1}: σᵢuᵢvᵢᵀ`
             : p.mode === 'tiles' && !p.tiled
-              ? 'no tiles: choose “tiles of” under Planes to see each tile’s rank'
+              ? 'Tile ranks: none, the scan is coded as whole planes'
               : p.tiled
                 ? `tiles of ${p.tile}, rank ≤ ${p.rank}`
                 : p.held < p.rank
@@ -118,12 +135,20 @@ export function paneLabels(p: PaneView): { left: string; right: string } {
   return { left, right };
 }
 
-/** The pane labels and slider readout of a stack frame. */
+/** What the left pane says of a stack frame: a stack file keeps no originals. */
+export const NO_ORIGINAL_FRAME = 'The original frame is not in the stack file';
+
+/**
+ * The pane labels and slider readout of a stack frame. Frames are counted from 1 here, in the CLI's
+ * reports and in its `--frame` option alike.
+ */
 export function frameLabels(info: StackFrameInfo): { left: string; right: string; position: string } {
+  const n = info.frame + 1;
+  const name = info.frameNames[info.frame];
   return {
-    left: `frame ${info.frame + 1} of ${info.frameCount} · decoded`,
-    right: `${frameName(info)} · decoded (the originals are not in the file)`,
-    position: `${info.frame + 1} / ${info.frameCount}`,
+    left: `original of frame ${n}: not available, not kept in a stack file`,
+    right: `frame ${n} of ${info.frameCount}${name ? ` · ${name}` : ''} · decoded from the stack file`,
+    position: `${n} / ${info.frameCount}`,
   };
 }
 
@@ -218,25 +243,29 @@ export function mapLegend(p: {
   return undefined;
 }
 
-/** CLI advice in back-end messages, as the page says it (the app has no flags). */
-const GUI_ADVICE: [RegExp, string][] = [
-  [/;?\s*pass --force to overwrite it/g, '; tick “replace an existing file” in Save to overwrite it'],
-  [/\s*—?\s*pass --tile 0 for a whole-image SVD/g, '; choose “whole plane” under Planes'],
-  [/;?\s*raise it with --pixel-limit( if the file is trusted)?/g, ' (the limit this app was started with)'],
-  [/;?\s*raise it with --timeout/g, ''],
-  [/;?\s*use --min-psnr instead/g, '; use a dB budget instead'],
-];
+/** What to do, in the app's words, for each hint an error can carry (see `Hint` in the contract). */
+const GUI_ADVICE: Record<Hint, string> = {
+  overwrite: '; tick “replace an existing file” in Save to overwrite it',
+  'whole-plane': '; choose “whole plane” under Planes',
+  'pixel-limit': ' (the limit this app was started with)',
+  timeout: '',
+  'psnr-budget': '; use a dB budget instead',
+};
+
+/** An error as the page receives it: a message, and details that may carry a hint code. */
+export type PageError = string | { message: string; details?: Record<string, unknown> };
 
 /** An absolute path (POSIX or Windows) in a message. */
 const ABSOLUTE_PATH = /(?:[A-Za-z]:\\|\/)[^\s:;,'"“”()]+/g;
 
 /**
- * A back-end message as the page shows it: CLI flags turned into what to do in the app, and paths shown
- * as the file the user gave (`given`) or, for any other path (a server's temporary copy), its name only.
+ * A back-end error as the page shows it: the CLI's advice replaced by the app's (by the error's hint
+ * code), and paths shown as the file the user gave (`given`) or, for any other path (a server's
+ * temporary copy), its name only. A flag left in a message without a hint still never reaches the page.
  */
-export function guiMessage(message: string, given?: string): string {
-  let m = message;
-  for (const [re, to] of GUI_ADVICE) m = m.replace(re, to);
+export function guiMessage(err: PageError, given?: string): string {
+  const { core, hint } = adviceOf(typeof err === 'string' ? { message: err } : err);
+  const m = hint ? core + GUI_ADVICE[hint] : core;
   const base = (p: string) => p.split(/[\\/]/).pop() ?? p;
   const paths = (part: string) =>
     part
@@ -247,8 +276,8 @@ export function guiMessage(message: string, given?: string): string {
 }
 
 /** The message of a failed open: the file as the user gave it, then why. */
-export function openFailedText(given: string, message: string): string {
-  const why = guiMessage(message, given);
+export function openFailedText(given: string, err: PageError): string {
+  const why = guiMessage(err, given);
   // A message that starts with the file's name already says which file: name it once.
   const lead = [given, recentLabel(given)].find((n) => why.startsWith(n));
   const rest = lead ? why.slice(lead.length).replace(/^[\s:—-]+/, '') : why;

@@ -4,7 +4,7 @@
  */
 import { decodeFactorSet } from '../src-main/contract';
 import { bind } from './bind';
-import { encodedStatus } from './captions';
+import { encodedStatus, evaluateLabel } from './captions';
 import { addCalibration } from './figures';
 import type { Panes } from './panes';
 import type { RankSlider } from './rank';
@@ -52,7 +52,8 @@ export function createEvaluator(
     const seq = ++state.evalSeq;
     const budget = state.budget;
     const job = newJob();
-    bar.busy(job, 'Encoding at this budget…');
+    const search = budget.kind !== 'rank';
+    bar.busy(job, evaluateLabel(budget, state.tiled ? state.tile : 0), search ? 'search' : 'evaluate');
     try {
       const r = await api.evaluate({ scanId: s.scanId, budget, tile: state.tiled ? state.tile : 0, job });
       if (seq !== state.evalSeq || JSON.stringify(budget) !== JSON.stringify(state.budget)) return;

@@ -147,3 +147,43 @@ export function removedForDisplay(removed: Float32Array[], peak: number, gain: n
     return out;
   });
 }
+
+/**
+ * The PSNR a scan opens at. Common practice (from memory, no single standard): at about 35 dB and above,
+ * an 8-bit scan's truncation errors are hard to see at 100 % on a screen, while 20–25 dB shows streaks.
+ */
+const OPENING_PSNR_DB = 35;
+
+/** Why the scan opened at its rank: `reached` (the floor is met), `pending` (more layers are coming), `capped`. */
+export interface OpeningChoice {
+  rank: number;
+  why: 'reached' | 'pending' | 'capped';
+  floorDb: number;
+}
+
+/**
+ * The opening rank: the smallest k whose rank-k truncation reaches `floorDb`, from the singular values alone.
+ * By Eckart–Young–Mirsky (Eckart & Young, Psychometrika 1(3):211–218, 1936) the truncation's squared error
+ * is the tail energy Σ_{i>k} σᵢ² = ‖A‖_F² − Σ_{i≤k} σᵢ², so MSE = tail / (m·n·planes) and PSNR follows
+ * (`psnrOptimal`). `cap` is the deepest rank the page will hold for this scan; when the layers held so far
+ * end before `cap` without reaching the floor the choice is `pending` (open at the deepest held, then move).
+ */
+export function openingRank(
+  m: Pick<Spectrum, 'maxRank' | 'psnrOptimal'>,
+  cap: number,
+  floorDb = OPENING_PSNR_DB,
+): OpeningChoice {
+  const top = Math.max(1, Math.min(cap, m.maxRank));
+  for (let k = 1; k <= top; k++) if (m.psnrOptimal(k) >= floorDb) return { rank: k, why: 'reached', floorDb };
+  return { rank: top, why: m.maxRank < cap ? 'pending' : 'capped', floorDb };
+}
+
+/** The sentence under the Rank slider that says why the scan opened at its rank. */
+export function openingText(c: OpeningChoice): string {
+  const dB = `${c.floorDb} dB`;
+  if (c.why === 'reached')
+    return `Opened at rank ${c.rank}: the smallest rank whose approximation reaches ${dB} PSNR, worked out from the singular values (the saved file's rounding can take a little off).`;
+  if (c.why === 'pending')
+    return `Showing rank ${c.rank} while more layers load; the view will move to the smallest rank that reaches ${dB} PSNR.`;
+  return `Opened at rank ${c.rank}, the deepest rank the page holds for a scan this size; ${dB} PSNR needs more (the scan is noisy or very detailed). Type a budget such as “${dB}” to let the encoder find it.`;
+}

@@ -56,7 +56,7 @@ setupBudgetCard(state, charts, rank, evaluator, panes, bar);
 const toolbar = setupToolbar(view, panes);
 const selectTab = setupTabs();
 const clean = setupCleanPanel(api, state, bar, view, panes);
-const save = setupSavePanel(api, state, bar, clean.settings);
+const save = setupSavePanel(api, state, bar, clean.settings, readouts);
 const batch = setupBatchPanel(api, state, bar, selectTab);
 watchProgress(api, state, bar, batch.progress);
 

@@ -8,6 +8,7 @@ import { scanInfoText } from './captions';
 import type { Evaluator } from './evaluate';
 import { FIRST_PASS_RANK, secondPassRank } from './figures';
 import { LowRankModel } from './model';
+import { createOpeningNote } from './opening';
 import type { Panes } from './panes';
 import type { RankSlider } from './rank';
 import type { SpectrumCharts } from './spectrum';
@@ -16,9 +17,6 @@ import { newJob, type StatusBar } from './status';
 import type { PageApi } from './transport';
 
 type ScanSource = Parameters<PageApi['openScan']>[0]['source'];
-
-/** The rank shown when a scan opens (capped by its smaller side). */
-const OPENING_RANK = 20;
 
 export interface Opener {
   open(source: ScanSource): Promise<void>;
@@ -55,22 +53,31 @@ export function createOpener(p: OpenerParts): Opener {
     path: 'input#path-input',
   });
   const body = document.body;
+  const opening = createOpeningNote();
 
-  const installModel = (buf: ArrayBuffer, rank: number) => {
+  /** Show a model at `rank`, or at the opening rank (which also makes the budget that rank). */
+  const installModel = (buf: ArrayBuffer, rank: number | { openingCap: number }) => {
     const model = new LowRankModel(buf);
     state.model = model;
     p.rank.enable();
     p.charts.show(model);
     p.panes.showModel();
     p.setLayerCount(model.maxRank);
-    p.rank.set(rank, state.budget.kind === 'rank');
+    if (typeof rank === 'number') p.rank.set(rank, state.budget.kind === 'rank');
+    else p.rank.set(opening.choose(model, rank.openingCap), true);
     p.rank.syncBudgetField();
     p.enableClean();
   };
 
-  /** A deeper factorisation, unless one at least as deep is already in (answers may cross). */
-  const installDeeper = (buf: ArrayBuffer, rank: number) => {
-    if ((state.model?.maxRank ?? 0) < rank) installModel(buf, Number(p.rank.input.value));
+  /**
+   * A deeper factorisation, unless one at least as deep is already in (answers may cross). While the
+   * opening choice is in force the view moves to the opening rank the deeper spectrum gives.
+   */
+  const installDeeper = (buf: ArrayBuffer, rank: number, openingCap: number) => {
+    if ((state.model?.maxRank ?? 0) >= rank) return;
+    const reopen = opening.inForce();
+    installModel(buf, reopen ? { openingCap } : Number(p.rank.input.value));
+    if (reopen) p.evaluator.schedule();
   };
 
   /** The file as the user gave it, for messages (an upload's own name, never a server path). */
@@ -86,13 +93,13 @@ export function createOpener(p: OpenerParts): Opener {
     const current = () => seq === state.openSeq;
     const openedAt = performance.now();
     const job = newJob();
-    bar.busy(job, `Reading ${given(source, name)}…`);
+    bar.busy(job, `Reading ${given(source, name)}…`, 'open');
     try {
       const scan = await api.openScan({ source });
       if (!current()) return;
       const openMs = performance.now() - openedAt;
       const minDim = Math.min(scan.width, scan.height);
-      bar.busy(job, `Finding the main layers of ${scan.name}…`);
+      bar.busy(job, `Factorising ${scan.name}…`, 'factors');
       const first = await api.factors({
         scanId: scan.scanId,
         maxRank: Math.min(minDim, FIRST_PASS_RANK),
@@ -115,16 +122,17 @@ export function createOpener(p: OpenerParts): Opener {
       el.scanInfo.textContent = scanInfoText(scan);
       el.dropHint.hidden = true;
       body.dataset.factorsMs = (performance.now() - openedAt).toFixed(1);
-      installModel(first, Math.min(OPENING_RANK, minDim));
+      const k2 = Math.min(minDim, secondPassRank(scan.width * scan.height));
+      const openingCap = Math.max(k2, Math.min(minDim, FIRST_PASS_RANK));
+      installModel(first, { openingCap });
       bar.busy(undefined);
       bar.show(`Opened ${scan.name}. Refining the spectrum in the background…`);
       p.evaluator.schedule();
-      const k2 = Math.min(minDim, secondPassRank(scan.width * scan.height));
       if (k2 > FIRST_PASS_RANK) {
         const job2 = newJob();
         const more = await api.factors({ scanId: scan.scanId, maxRank: k2, job: job2, background: true });
         if (current()) {
-          installDeeper(more, k2);
+          installDeeper(more, k2, openingCap);
           body.dataset.refined = scan.scanId;
           bar.show(`Spectrum to rank ${k2} ready.`);
         }
@@ -151,7 +159,7 @@ export function createOpener(p: OpenerParts): Opener {
 
   const uploadAndOpen = async (f: File) => {
     try {
-      bar.busy(newJob(), `Uploading ${f.name}…`);
+      bar.busy(newJob(), `Uploading ${f.name}…`, 'open');
       const id = await api.upload(f.name, await f.arrayBuffer());
       await open({ kind: 'upload', uploadId: id }, f.name);
     } catch (err) {

@@ -3,7 +3,7 @@
  * slider's rank, the tiled preview, the cleaned scan or the removed part) and the labels above the panes.
  */
 import { bind } from './bind';
-import { mapLegend, paneLabels } from './captions';
+import { frameLabels, mapLegend, paneLabels } from './captions';
 import { removedForDisplay } from './figures';
 import type { PageState } from './state';
 import type { CompareView, ViewSource } from './viewer';
@@ -78,6 +78,8 @@ export function createPanes(state: PageState, view: CompareView): Panes {
       view.setSource(source);
     },
     label() {
+      // A stack frame keeps its own labels (./stack.ts); the controls below are for scans only.
+      if (state.stack.info && !state.model) return write(frameLabels(state.stack.info));
       // Controls only in the views they change.
       el.gain.hidden = !(view.mode === 'diff' || state.showing === 'removed');
       el.layer.hidden = view.mode !== 'layer';

@@ -78,13 +78,17 @@ export function createRankSlider(
     k = Math.max(1, Math.min(Math.round(k), Number(el.rank.max)));
     el.rank.value = String(k);
     el.typed.value = String(k);
+    if (fromUser) {
+      state.budget = { kind: 'rank', rank: k };
+      // The slider's rank is the budget now: no other budget's rank to mark.
+      state.budgetRank = undefined;
+    }
     charts.mark(k, state.budgetRank);
     if (!state.tiled) {
       m.setTarget(k);
       pump();
       if (k > m.maxRank) api.onBeyond?.(k);
     }
-    if (fromUser) state.budget = { kind: 'rank', rank: k };
     readouts.estimate(k);
     panes.label();
   };

@@ -18,14 +18,28 @@ export interface Readouts {
   showReport(r: CompressReport, rank: number | undefined): void;
   /** A stack frame's figures: what the file records, sizes of the whole stack. */
   showStack(info: StackFrameInfo, size: { width: number; height: number }): void;
+  /** The figures on show, whether they are exact, and the budget they are for. */
+  current(): ShownFigures | undefined;
+  /** Call `cb` whenever the figures change. */
+  onChange(cb: () => void): void;
+}
+
+export interface ShownFigures {
+  values: Figures;
+  exact: boolean;
+  budget: PageState['budget'];
+  tiled: boolean;
 }
 
 export function createReadouts(state: PageState): Readouts {
   const el = bind(document, { box: 'dl#readouts', pill: '#readout-state' });
   const cells = bindReadouts(el.box, METRICS, 'The Figures card');
   for (const m of METRICS) cells[m].cell.title = METRIC_HELP[m];
+  let shown: ShownFigures | undefined;
+  const listeners: (() => void)[] = [];
 
   const set = (values: Figures, exact: boolean, rank: number | undefined) => {
+    shown = { values, exact, budget: state.budget, tiled: state.tiled };
     for (const metric of METRICS) {
       writeReadout(cells[metric], readoutCell(metric, values[metric], exact));
     }
@@ -34,6 +48,7 @@ export function createReadouts(state: PageState): Readouts {
     el.box.dataset.budget = JSON.stringify(state.budget);
     el.pill.textContent = exact ? 'encoded' : 'estimate';
     el.pill.classList.toggle('exact', exact);
+    for (const cb of listeners) cb();
   };
 
   return {
@@ -52,7 +67,10 @@ export function createReadouts(state: PageState): Readouts {
         for (const m of ['psnr', 'ssim'] as const)
           writeReadout(cells[m], { value: '', text: 'not in file', exact: true });
       el.pill.textContent = 'stack file';
+      shown = undefined;
     },
+    current: () => shown,
+    onChange: (cb) => void listeners.push(cb),
   };
 }
 

@@ -1,20 +1,23 @@
 /**
- * The Save panel: the compressed file or the expanded image at the current budget, or the cleaned scan;
- * written to a typed or chosen path, or downloaded (browser mode, no path).
+ * The Save panel: the compressed file or the expanded image at the current budget, the cleaned scan or
+ * the part cleaning removed; written to a typed or chosen path, or downloaded (browser mode, no path).
+ * Above the button, one sentence says what will be written (./save-plan.ts).
  */
 import type { CleanSettings } from '../src-main/contract';
 import { bind } from './bind';
-import { LOSSY_CAUTION } from './captions';
+import { CLEANING_CAUTION, LOSSY_CAUTION } from './captions';
 import { formatBytes } from './format';
+import type { Readouts } from './readouts';
+import { type SaveKind, savePlanText, suggestedName } from './save-plan';
 import type { PageState } from './state';
 import { newJob, type StatusBar } from './status';
 import type { PageApi } from './transport';
 
-type SaveKind = 'rkf' | 'expanded' | 'cleaned';
-
 export interface SavePanel {
   /** Run a save as the Save button does (the desktop menu's Save). */
   run(): void;
+  /** Rewrite the sentence that says what Save will write. */
+  refresh(): void;
 }
 
 export function setupSavePanel(
@@ -22,6 +25,7 @@ export function setupSavePanel(
   state: PageState,
   bar: StatusBar,
   cleanSettings: () => CleanSettings,
+  readouts: Readouts,
 ): SavePanel {
   const el = bind(document, {
     path: 'input#save-path',
@@ -29,17 +33,39 @@ export function setupSavePanel(
     run: 'button#save-run',
     result: '#save-result',
     caution: '#save-caution',
+    plan: '#save-plan',
   });
   el.caution.textContent = LOSSY_CAUTION;
+  const chosenKind = () =>
+    (document.querySelector<HTMLInputElement>('input[name="save-kind"]:checked')?.value ?? 'rkf') as SaveKind;
+
+  const refresh = () => {
+    const s = state.scan;
+    el.plan.textContent = s
+      ? savePlanText({
+          kind: chosenKind(),
+          scanName: s.name,
+          bitDepth: s.bitDepth as 8 | 16,
+          budget: state.budget,
+          tiled: state.tiled,
+          tile: state.tile,
+          shown: readouts.current(),
+          cleanedReady: state.cleaned !== undefined,
+        })
+      : 'Open a scan to save it.';
+  };
+  readouts.onChange(refresh);
+  for (const r of document.querySelectorAll<HTMLInputElement>('input[name="save-kind"]'))
+    r.addEventListener('change', refresh);
+  document.getElementById('tab-save')?.addEventListener('click', refresh);
 
   el.run.addEventListener('click', async () => {
     const s = state.scan;
     if (!s) return bar.show('Open a scan first.', true);
-    const kind = (document.querySelector<HTMLInputElement>('input[name="save-kind"]:checked')?.value ??
-      'rkf') as SaveKind;
+    const kind = chosenKind();
     const typed = el.path.value.trim();
     const job = newJob();
-    bar.busy(job, 'Saving…');
+    bar.busy(job, `Saving ${suggestedName(kind, s.name, s.bitDepth as 8 | 16)}…`, 'save');
     try {
       let path: string | undefined;
       if (typed || api.transport() === 'ipc') {
@@ -52,7 +78,7 @@ export function setupSavePanel(
         kind,
         budget: state.budget,
         tile: state.tiled ? state.tile : 0,
-        settings: kind === 'cleaned' ? cleanSettings() : undefined,
+        settings: kind === 'cleaned' || kind === 'removed' ? cleanSettings() : undefined,
         path,
         force: el.force.checked,
         job,
@@ -66,7 +92,8 @@ export function setupSavePanel(
         el.result.append(a);
         a.click();
       }
-      el.caution.textContent = r.caution;
+      // The page's own wording of the caution the back end returned (the contract's names CLI flags).
+      el.caution.textContent = kind === 'cleaned' || kind === 'removed' ? CLEANING_CAUTION : LOSSY_CAUTION;
       bar.show(`Saved ${r.fileName}.`);
     } catch (err) {
       bar.fail(err);
@@ -75,5 +102,6 @@ export function setupSavePanel(
     }
   });
 
-  return { run: () => el.run.click() };
+  refresh();
+  return { run: () => el.run.click(), refresh };
 }

@@ -27,6 +27,18 @@ const isDecade = (v: number) => Math.abs(Math.log10(Math.abs(v)) % 1) < 1e-9;
 const decades = (log?: boolean) =>
   log ? { filter: (_u: uPlot, splits: number[]) => splits.map((v) => (isDecade(v) ? v : null)) } : {};
 
+/**
+ * Tick labels: compact numbers; on a log scale (`logPx` > 0, the axis length in CSS px) decades only, and
+ * every n-th decade when all of them would crowd (at least 14 px per label).
+ */
+function logLabels(splits: number[], logPx: number): string[] {
+  if (logPx <= 0) return splits.map(compactTick);
+  const count = splits.filter(isDecade).length;
+  const step = Math.max(1, Math.ceil((count * 14) / Math.max(1, logPx)));
+  const shown = (v: number) => isDecade(v) && ((Math.round(Math.log10(v)) % step) + step) % step === 0;
+  return splits.map((v) => (shown(v) ? compactTick(v) : ''));
+}
+
 /** An axis with a titled unit, compact tick labels (decades only on a log scale) and room for both. */
 function axis(o: { scale?: string; label: string; side?: 1 | 3; log?: boolean; grid?: boolean }): uPlot.Axis {
   const vertical = o.side !== undefined;
@@ -44,7 +56,8 @@ function axis(o: { scale?: string; label: string; side?: 1 | 3; log?: boolean; g
     // A log scale: grid lines and ticks at decades only (uPlot's minor splits crowd a small plot).
     grid: { show: o.grid ?? o.side !== 1, stroke: 'rgba(29,42,58,0.08)', ...decades(o.log) },
     ticks: { stroke: 'rgba(29,42,58,0.2)', size: 4, ...decades(o.log) },
-    values: (_u, splits) => splits.map((v) => (o.log && !isDecade(v) ? '' : compactTick(v))),
+    values: (u, splits) =>
+      logLabels(splits, o.log ? (vertical ? u.bbox.height : u.bbox.width) / devicePixelRatio : 0),
     size: (_u, values) => axisRoom(values ?? [], textWidth, vertical),
     space: (_u, _i, _min, _max, dim) => tickSpace(dim, vertical),
   };
@@ -111,6 +124,12 @@ export class SpectrumCharts {
       fitPlot(this.sigmaPlot, this.sigmaHost);
       fitPlot(this.errorPlot, this.errorHost);
     }
+  }
+
+  /** Fit now and again after the first paint, once the legend and title have their final size. */
+  private fitSoon() {
+    this.resize();
+    requestAnimationFrame(() => this.resize());
   }
 
   private marks() {
@@ -195,7 +214,7 @@ export class SpectrumCharts {
       [Array.from(ks), Array.from(psnr), Array.from(frob), spec, nulls(K), nulls(K)],
       this.errorHost,
     );
-    this.resize();
+    this.fitSoon();
   }
 
   /**
@@ -285,7 +304,7 @@ export class SpectrumCharts {
       [ks, ...cum.map((cs) => cs.map((f) => (f < 1 - 1e-12 ? 100 * (1 - f) : null))), nulls(K)],
       this.errorHost,
     );
-    this.resize();
+    this.fitSoon();
   }
 
   mark(rank: number, budgetRank?: number) {

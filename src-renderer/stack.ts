@@ -7,6 +7,7 @@ import { decodeFactorSet } from '../src-main/contract';
 import { bind } from './bind';
 import {
   frameLabels,
+  NO_ORIGINAL_FRAME,
   STACK_METRICS,
   stackCardCells,
   stackInfoText,
@@ -76,6 +77,7 @@ export function createStackCard(p: StackParts): StackCard {
       height: header.height,
       peak: header.peak,
       original,
+      noOriginal: NO_ORIGINAL_FRAME,
       recon: () => recon,
     });
     const labels = frameLabels(info);
@@ -137,7 +139,7 @@ export function createStackCard(p: StackParts): StackCard {
     async open(path) {
       const seq = ++state.openSeq; // a scan still opening must not take over the view
       const job = newJob();
-      bar.busy(job, 'Reading the stack…');
+      bar.busy(job, 'Reading the stack…', 'stack');
       // The first frame before anything changes: a file that fails to open leaves the current view as it was.
       let buf: ArrayBuffer;
       try {

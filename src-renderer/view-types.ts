@@ -8,6 +8,8 @@ export interface ViewSource {
   /** 255 or 65535. */
   peak: number;
   original: (Uint8Array | Uint16Array)[];
+  /** Set when there is no original to show (a stack file keeps none): why, shown in its place. */
+  noOriginal?: string;
   /** Reconstruction planes on the source scale. */
   recon: () => Float32Array[];
   /** One rank-one layer: σ, u (height), v (width) per plane. */

@@ -4,7 +4,8 @@
  * per-tile rank map. Only the visible pixels are painted, so a repaint costs the viewport, not the scan.
  */
 
-import { RANK_RAMP } from './captions';
+import { paneNote } from './canvas-note';
+import { NO_TILES, RANK_RAMP } from './captions';
 import { clampView, DIVIDER_GRAB_PX, fitView, panView, type ViewState, viewKey, zoomView } from './view-math';
 import type { ViewMode, ViewSource } from './view-types';
 
@@ -206,7 +207,10 @@ export class CompareView {
     const k = 255 / s.peak;
     const rec = s.recon();
     if (this.mode === 'side') {
-      this.blit(this.left, ix, iy, s.original, k, 0);
+      if (s.noOriginal) paneNote(this.left, s.noOriginal);
+      else this.blit(this.left, ix, iy, s.original, k, 0);
+      this.blit(this.right, ix, iy, rec, k, 0);
+    } else if (s.noOriginal && (this.mode === 'swipe' || this.mode === 'diff')) {
       this.blit(this.right, ix, iy, rec, k, 0);
     } else if (this.mode === 'swipe') {
       const split = Math.round(this.swipe * w);
@@ -355,8 +359,8 @@ export class CompareView {
   private blitTiles(c: HTMLCanvasElement, ix: Int32Array, iy: Int32Array, rec: Float32Array[], k: number) {
     const s = this.source!;
     const t = s.tiles;
+    if (!t) return paneNote(c, NO_TILES);
     this.blit(c, ix, iy, rec, k, 0);
-    if (!t) return;
     const ctx = c.getContext('2d')!;
     const maxRank = Math.max(1, ...t.ranks);
     ctx.save();

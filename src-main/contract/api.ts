@@ -92,7 +92,7 @@ export interface CleanResult {
   profile: { columns: number[]; rows: number[] };
 }
 
-export type SaveKind = 'rkf' | 'expanded' | 'cleaned';
+export type SaveKind = 'rkf' | 'expanded' | 'cleaned' | 'removed';
 
 export interface SaveRequest {
   scanId: string;

@@ -186,7 +186,7 @@ const METHODS = {
       ]);
       return {
         scanId: checkId('scanId', o.scanId),
-        kind: checkOneOf('kind', o.kind, ['rkf', 'expanded', 'cleaned'] as const),
+        kind: checkOneOf('kind', o.kind, ['rkf', 'expanded', 'cleaned', 'removed'] as const),
         budget: checkBudget(o.budget),
         tile: checkTile(o.tile),
         settings: optional(o.settings, checkCleanSettings),

@@ -122,7 +122,21 @@ export const OPTIONS = {
     max: 2 ** 42,
     doc: 'refuse inputs with more pixels than N',
   }),
-  frame: int({ name: 'frame', arg: 'N', min: 0, max: 65535, doc: 'frame of a stack file, from 0' }),
+  frame: int({
+    name: 'frame',
+    arg: 'N',
+    min: 0,
+    max: 65535,
+    doc: 'position of a frame in a stack file, from 0 (the API)',
+  }),
+  /** `expand --frame I`: frames as people count them, from 1 (docs/stack.md "Frame numbers"). */
+  frameNumber: int({
+    name: 'frame',
+    arg: 'I',
+    min: 1,
+    max: 65536,
+    doc: 'frame of a stack file, counted from 1',
+  }),
   // The app's factorisation.
   maxRank: int({ name: 'maxRank', min: 1, max: 4096, doc: 'largest rank to compute per plane' }),
   // Cleaning.

@@ -22,3 +22,28 @@ export function unwrapReply(r: unknown, fallback = 'request failed'): unknown {
   if (reply?.ok) return reply.value;
   throw fromErrorPayload(reply?.error ?? { name: 'Error', message: fallback });
 }
+
+/**
+ * What a user can do about an error, named by a code so each front end words it its own way: the CLI
+ * prints the message as raised (it ends with the command-line advice), the app drops that advice and
+ * says what to do in the app. Set where the error is raised, with {@link hinted}.
+ */
+export type Hint = 'overwrite' | 'whole-plane' | 'pixel-limit' | 'timeout' | 'psnr-budget';
+
+/** The `details` of an error whose message ends with `advice` (the CLI's wording of `hint`). */
+export function hinted(hint: Hint, advice: string): { hint: Hint; advice: string } {
+  return { hint, advice };
+}
+
+/** An error's message without its CLI advice, and the hint code, if the error carries one. */
+export function adviceOf(err: { message: string; details?: Record<string, unknown> }): {
+  core: string;
+  hint?: Hint;
+} {
+  const d = err.details ?? {};
+  const hint = typeof d.hint === 'string' ? (d.hint as Hint) : undefined;
+  const advice = typeof d.advice === 'string' ? d.advice : '';
+  const at = advice ? err.message.lastIndexOf(advice) : -1;
+  const core = at >= 0 ? err.message.slice(0, at) + err.message.slice(at + advice.length) : err.message;
+  return { core, hint };
+}

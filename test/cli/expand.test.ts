@@ -66,7 +66,7 @@ describe('rankfold expand', () => {
   });
 
   it('delegates --frame to the stack reader', async () => {
-    const r = await run('expand', rkf, '--frame', '0', '-o', join(dir, 'f.png'));
+    const r = await run('expand', rkf, '--frame', '1', '-o', join(dir, 'f.png'));
     expect(r.code).toBe(1);
     expect(r.stderr).toMatch(/stack|frame/);
   });

@@ -65,7 +65,9 @@ describe.skipIf(!source)('accessibility (axe-core)', () => {
 
   it('with a scan open, on every drawer tab', async () => {
     await page.getByRole('button', { name: 'camera', exact: true }).click();
-    await page.waitForSelector('#readouts[data-state="exact"]', { timeout: 30_000 });
+    // After the deeper factorisation the view moves to the opening rank; check the page once it settles.
+    await page.waitForSelector('body[data-refined]', { timeout: 60_000 });
+    await page.waitForSelector('#readouts[data-state="exact"]', { timeout: 60_000 });
     for (const tab of ['Clean', 'Save', 'Batch']) {
       await page.getByRole('tab', { name: tab }).click();
       expect(await serious(), tab).toEqual([]);

@@ -44,11 +44,11 @@ export interface Served {
   stop(): Promise<void>;
 }
 
-/** Start `rankfold serve --no-open` and read the URL from the first line of stdout. */
-export async function serve(env: Record<string, string> = {}): Promise<Served> {
+/** Start `rankfold serve --no-open` (and `args`) and read the URL from the first line of stdout. */
+export async function serve(env: Record<string, string> = {}, args: string[] = []): Promise<Served> {
   if (!existsSync(join(repoRoot, 'dist', 'cli.js')))
     throw new Error('dist/cli.js is missing: run `npm run build` first');
-  const child = spawn(process.execPath, [cli, 'serve', '--no-open'], {
+  const child = spawn(process.execPath, [cli, 'serve', '--no-open', ...args], {
     cwd: repoRoot,
     env: { ...process.env, ...env },
     stdio: ['ignore', 'pipe', 'pipe'],
@@ -256,6 +256,12 @@ export async function readouts(page: Page): Promise<Record<string, number>> {
 }
 
 const run = promisify(execFile);
+/** `rankfold <args>` from the built CLI: its text report on stdout. */
+export async function cliText(args: string[]): Promise<string> {
+  const { stdout } = await run(process.execPath, [cli, ...args], { cwd: repoRoot, maxBuffer: 1 << 24 });
+  return stdout;
+}
+
 /** `rankfold <args> --json` from the built CLI, parsed. */
 export async function cliJson(args: string[]): Promise<Record<string, unknown>> {
   const { stdout } = await run(process.execPath, [cli, ...args, '--json'], {

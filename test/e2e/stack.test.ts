@@ -16,7 +16,7 @@ import type { BrowserContext, Page } from 'playwright-core';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { decodeFactorSet } from '../../src-main/contract';
-import { cliJson, launch, readouts, type Served, serve, shot } from './harness';
+import { cliJson, cliText, launch, readouts, type Served, serve, shot } from './harness';
 
 const W = 64;
 const H = 48;
@@ -122,6 +122,34 @@ describe('stack files in the page', () => {
     );
     // The frame-mode spectrum chart replaced the rank spectrum.
     expect(await page.textContent('#chart-sigma')).toContain('Frame-mode singular values');
+    // A stack file keeps no originals: the left pane says so rather than repeating the decoded frame.
+    expect(await page.textContent('#label-left')).toContain('not available');
+    // The frame-mode plots fill their cards once the title and legend have their size (not squashed).
+    const share = await page.$$eval('#chart-sigma, #chart-error', (els) =>
+      els.map(
+        (e) =>
+          (e.querySelector('.u-wrap') as unknown as { offsetHeight: number }).offsetHeight / e.clientHeight,
+      ),
+    );
+    for (const f of share) expect(f).toBeGreaterThan(0.5);
+  });
+
+  it('the CLI text report and the app name the same worst frame, both counting from 1', async () => {
+    const text = await cliText([
+      'compress',
+      '--stack',
+      framesDir,
+      '-o',
+      join(dir, 'again.rkf'),
+      '--rank',
+      '3',
+    ]);
+    const m = /PSNR worst [\d.]+ dB \(frame (\d+) of 8\)/.exec(text);
+    expect(m, text).not.toBeNull();
+    const n = Number(m?.[1]);
+    // The JSON report gives the array position (from 0) of the same frame.
+    expect(n).toBe((report.psnr as { worstFrame: number }).worstFrame + 1);
+    expect(await page.textContent('[data-metric="worst-psnr"] dd')).toContain(`frame ${n}`);
   });
 
   it('moving the Frame slider shows another frame and updates the readouts', async () => {
@@ -137,9 +165,9 @@ describe('stack files in the page', () => {
     await shot(page, 'stack-frame-7');
   });
 
-  it('the frame sent to the page equals `rankfold expand --frame 6`, read back with sharp', async () => {
-    const out = join(dir, 'f6.png');
-    await cliJson(['expand', stackFile, '-o', out, '--frame', '6']);
+  it('the frame sent to the page equals `rankfold expand --frame 7` (frames count from 1), read back with sharp', async () => {
+    const out = join(dir, 'f7.png');
+    await cliJson(['expand', stackFile, '-o', out, '--frame', '7']);
     expect((await sharp(out).metadata()).channels).toBe(1);
     const { data, info } = await sharp(out).toColourspace('b-w').raw().toBuffer({ resolveWithObject: true });
     expect(info.channels).toBe(1);
@@ -149,7 +177,7 @@ describe('stack files in the page', () => {
     expect([header.width, header.height]).toEqual([W, H]);
     expect(Array.from(arrays['src.0'])).toEqual(Array.from(data));
     const bad = await apiStackFrame(stackFile, N);
-    expect(bad.error).toMatch(/frame 8 does not exist/);
+    expect(bad.error).toMatch(/frame 9 does not exist; the stack holds frames 1–8/);
   });
 
   it('raised no errors in the page', () => {

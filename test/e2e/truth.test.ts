@@ -14,6 +14,7 @@ import { type AppSession, openApp, shot } from './harness';
 
 declare const document: {
   getElementById(id: string): { dataset: Record<string, string | undefined> } | null;
+  body: { dataset: Record<string, string | undefined> };
 };
 
 const samples = mkdtempSync(join(tmpdir(), 'rankfold-e2e-truth-'));
@@ -46,8 +47,12 @@ const cell = async (m: string) => (await figures()).find((c) => c.metric === m) 
 describe('the page tells the truth (1024×700)', () => {
   it('every readout carries data-exact, and the rank readout gives the rank of the figures', async () => {
     await page.getByRole('button', { name: 'camera', exact: true }).click();
+    // The opening rank moves once the deeper layers are in (camera.png needs more than the first 24 for 35 dB).
+    await page.waitForSelector('body[data-refined]', { timeout: 60_000 });
     await page.waitForFunction(
-      () => document.getElementById('readouts')?.dataset.state === 'exact',
+      () =>
+        document.getElementById('readouts')?.dataset.state === 'exact' &&
+        document.getElementById('readouts')?.dataset.rank === document.body.dataset.openingRank,
       undefined,
       {
         timeout: 30_000,
@@ -59,6 +64,13 @@ describe('the page tells the truth (1024×700)', () => {
     expect((await cell('rank')).value).toBe(await page.getByRole('slider', { name: 'Rank' }).inputValue());
     for (const c of cells)
       expect(await page.getAttribute(`[data-metric="${c.metric}"]`, 'title')).toBeTruthy();
+    expect(await page.textContent('#rank-why')).toContain('35 dB');
+    await shot(page, 'e2e-truth-1024-opened');
+    await page.getByRole('tab', { name: 'Save' }).click();
+    expect(await page.textContent('#save-plan')).toMatch(
+      /^Will write camera\.rkf: compressed at rank \d+, whole planes; [\d.]+ kB exactly/,
+    );
+    await shot(page, 'e2e-truth-1024-save');
   });
 
   it('a dB budget moves the slider to the rank the encoder chose; the figures are exact and meet it', async () => {
@@ -107,6 +119,15 @@ describe('the page tells the truth (1024×700)', () => {
       for (const b of boxes as { labelsEnd: number; titleStart: number }[])
         expect(b.labelsEnd).toBeLessThanOrEqual(b.titleStart);
     }
+    // Chart titles are whole at 1024 px: they wrap, never clip.
+    const titles = await page.$$eval('#chart-sigma .u-title, #chart-error .u-title', (els) =>
+      els.map((e) => ({
+        text: e.textContent,
+        clipped: e.scrollWidth > e.clientWidth + 1 || e.scrollHeight > e.clientHeight + 1,
+      })),
+    );
+    expect(titles).toHaveLength(2);
+    for (const t of titles) expect(t, t.text ?? '').toMatchObject({ clipped: false });
     await shot(page, 'e2e-truth-1024-charts');
   });
 

@@ -2,19 +2,19 @@
 // 8-bit grey, 139 536 bytes) and a 6-frame 64×48 stack in the screenshots taken before these functions were
 // moved out of src-renderer/main.ts.
 import { describe, expect, it } from 'vitest';
-import type { ScanSummary, StackFrameInfo } from '../../src-main/contract';
+import { hinted, type ScanSummary, type StackFrameInfo } from '../../src-main/contract';
 import {
   batchDoneStatus,
   batchFileMessage,
   batchProgressText,
   batchRowText,
   encodedStatus,
+  evaluateLabel,
   frameLabels,
   guiMessage,
   openFailedText,
   type PaneView,
   paneLabels,
-  progressText,
   recentLabel,
   STACK_METRICS,
   scanInfoText,
@@ -94,13 +94,13 @@ describe('status lines', () => {
     );
   });
 
-  it('of a job and of a batch, with and without a file', () => {
-    expect(progressText({ stage: 'factor', done: 1, total: 3 })).toBe('factor (1/3)');
-    expect(progressText({ stage: 'decode', done: 0, total: 1, file: 'a.tif' })).toBe('decode — a.tif (0/1)');
-    expect(batchProgressText({ stage: 'running', done: 2, total: 5, file: 'b.png' })).toBe(
-      'Batch: 2/5 running — b.png',
+  it('of an encode and of a batch, in plain words', () => {
+    expect(evaluateLabel({ kind: 'psnr', db: 38 }, 0)).toBe('Finding the smallest file ≥ 38 dB…');
+    expect(evaluateLabel({ kind: 'rank', rank: 40 }, 64)).toBe('Encoding at rank 40 in tiles of 64…');
+    expect(batchProgressText({ stage: 'done', done: 2, total: 5, file: '/in/b.png' })).toBe(
+      'Batch: 2 of 5 files finished · last: b.png done',
     );
-    expect(batchProgressText({ stage: 'scan', done: 0, total: 5 })).toBe('Batch: 0/5 scan');
+    expect(batchProgressText({ stage: 'started', done: 0, total: 1 })).toBe('Batch: 0 of 1 file finished');
   });
 
   it('of a finished batch, red when a file failed', () => {
@@ -168,15 +168,14 @@ describe('paneLabels', () => {
 });
 
 describe('stack frame', () => {
-  it('labels use the frame name, or "frame N" when the file has none', () => {
+  it('labels count frames from 1 and give the frame’s file name when the stack has one', () => {
+    // Frames count from 1 on the page, as in the CLI's reports and `expand --frame`.
     expect(frameLabels(frame())).toEqual({
-      left: 'frame 4 of 6 · decoded',
-      right: 'f-3.png · decoded (the originals are not in the file)',
+      left: 'original of frame 4: not available, not kept in a stack file',
+      right: 'frame 4 of 6 · f-3.png · decoded from the stack file',
       position: '4 / 6',
     });
-    expect(frameLabels(frame({ frame: 4 })).right).toBe(
-      'frame 5 · decoded (the originals are not in the file)',
-    );
+    expect(frameLabels(frame({ frame: 4 })).right).toBe('frame 5 of 6 · decoded from the stack file');
   });
 
   it('the Stack card readouts: values for data-value, texts for the page', () => {
@@ -204,10 +203,19 @@ describe('stack frame', () => {
 });
 
 describe('guiMessage and openFailedText', () => {
-  it('turns CLI flags into what to do in the app', () => {
-    expect(guiMessage('/tmp/x/out.rkf already exists; pass --force to overwrite it')).toBe(
-      'out.rkf already exists; tick “replace an existing file” in Save to overwrite it',
-    );
+  it('replaces the CLI advice by the app’s, by the hint code the error carries', () => {
+    // The refusal as src-main/node/io/atomic.ts raises it.
+    const advice = '; pass --force to overwrite it';
+    expect(
+      guiMessage({ message: `/tmp/x/out.rkf already exists${advice}`, details: hinted('overwrite', advice) }),
+    ).toBe('out.rkf already exists; tick “replace an existing file” in Save to overwrite it');
+    const tiles = ' — pass --tile 0 for a whole-image SVD';
+    expect(
+      guiMessage({
+        message: `a.png: image is 4×4 pixels; tiles need at least 8×8${tiles}`,
+        details: hinted('whole-plane', tiles),
+      }),
+    ).toBe('a.png: image is 4×4 pixels; tiles need at least 8×8; choose “whole plane” under Planes');
     expect(guiMessage('too big; use --frobnicate-level 3')).not.toMatch(/--/);
   });
 

@@ -7,6 +7,10 @@
  */
 import type { Budget, DecodedImage } from '../../contract';
 import { UsageError } from '../../contract/errors';
+import { hinted } from '../../contract/replies';
+
+const WHOLE_PLANE_ADVICE = ' — pass --tile 0 for a whole-image SVD';
+
 import { encodePlanes, RESIDUAL_MAX_PIXELS } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
 import { rgbToYcbcr, YCBCR_ERROR_WEIGHTS } from '../colour';
@@ -79,7 +83,8 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
   for (const t of tiles)
     if (t !== 0 && Math.min(width, height) < 8)
       throw new UsageError(
-        `${img.file}: image is ${width}×${height} pixels; tiles need at least 8×8 — pass --tile 0 for a whole-image SVD`,
+        `${img.file}: image is ${width}×${height} pixels; tiles need at least 8×8${WHOLE_PLANE_ADVICE}`,
+        hinted('whole-plane', WHOLE_PLANE_ADVICE),
       );
 
   const measure = (planes: QuantPlane[]) => {

@@ -19,7 +19,14 @@
  */
 import { createHash } from 'node:crypto';
 import sharp, { type Metadata, type OutputInfo } from 'sharp';
-import { checkInteger, type DecodedImage, displayName, InputError, type WithWarnings } from '../../contract';
+import {
+  checkInteger,
+  type DecodedImage,
+  displayName,
+  hinted,
+  InputError,
+  type WithWarnings,
+} from '../../contract';
 import { keepableMetadata, type MetadataToKeep, readPngMetadata } from './metadata-chunks';
 import { openInput, sniffFormat, sniffFormatOf } from './open-file';
 import { depthBits, describeSharpError, FORMAT_NAMES, refuseColourModel, refuseTiffModel } from './refusals';
@@ -111,7 +118,7 @@ export async function probeImage(file: string, options: DecodeOptions = {}): Pro
     throw new InputError(
       file,
       `is ${storedW}×${storedH} = ${pixels} pixels, over the pixel limit of ${pixelLimit} (sharp limitInputPixels); raise it with --pixel-limit`,
-      { pixels, pixelLimit },
+      { pixels, pixelLimit, ...hinted('pixel-limit', '; raise it with --pixel-limit') },
     );
   refuseColourModel(file, meta);
   const bitDepth = depthBits(file, meta);

@@ -3,7 +3,7 @@
  * and depths), and libvips failures turned into one sentence naming the file. No decoder text reaches a message.
  */
 import type { Metadata } from 'sharp';
-import { InputError } from '../../contract';
+import { hinted, InputError } from '../../contract';
 import type { TiffFacts } from './tiff-tags';
 
 /** The formats Rankfold reads, for messages. */
@@ -147,7 +147,11 @@ export function describeSharpError(
   const raw = err instanceof Error ? err.message : String(err);
   // sharp's own checks (its C++ pipeline, not the shared libvips buffer), so the text is reliable.
   if (/exceeds pixel limit/i.test(raw))
-    return new InputError(file, 'is over the pixel limit; raise it with --pixel-limit');
+    return new InputError(
+      file,
+      'is over the pixel limit; raise it with --pixel-limit',
+      hinted('pixel-limit', '; raise it with --pixel-limit'),
+    );
   if (/exceeds channel limit/i.test(raw))
     return new InputError(
       file,

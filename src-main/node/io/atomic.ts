@@ -7,7 +7,12 @@ import { randomBytes } from 'node:crypto';
 import { constants } from 'node:fs';
 import { access, mkdir, open, readdir, rename, unlink } from 'node:fs/promises';
 import { basename, dirname, join } from 'node:path';
-import { OutputError } from '../../contract';
+import { hinted, OutputError } from '../../contract';
+
+const OVERWRITE_ADVICE = '; pass --force to overwrite it';
+/** The refusal of an existing output (the app words the advice its own way, by the hint). */
+const alreadyExists = (path: string) =>
+  new OutputError(path, `already exists${OVERWRITE_ADVICE}`, hinted('overwrite', OVERWRITE_ADVICE));
 
 export const TEMP_PREFIX = '.rankfold-tmp-';
 
@@ -30,8 +35,7 @@ async function exists(path: string): Promise<boolean> {
 
 /** Throw OutputError if `path` exists and force is not set. */
 export async function assertWritable(path: string, force = false): Promise<void> {
-  if (!force && (await exists(path)))
-    throw new OutputError(path, 'already exists; pass --force to overwrite it');
+  if (!force && (await exists(path))) throw alreadyExists(path);
 }
 
 /** Write `data` to `path` atomically. */
@@ -57,8 +61,7 @@ export async function writeFileAtomic(
     await fh.sync();
     await fh.close();
     fh = undefined;
-    if (!options.force && (await exists(path)))
-      throw new OutputError(path, 'already exists; pass --force to overwrite it');
+    if (!options.force && (await exists(path))) throw alreadyExists(path);
     await rename(tmp, path);
   } catch (err) {
     if (fh) await fh.close().catch(() => {});

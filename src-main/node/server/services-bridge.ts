@@ -22,6 +22,7 @@ import {
 } from '../../contract';
 import { encodeImage, encodeImageBuffer, formatFromPath } from '../image/encode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
+import { removedPng } from '../services/clean-outputs';
 import { compressDecoded } from '../services/compress';
 import type { ProgressFn } from './factor';
 
@@ -169,6 +170,7 @@ interface SaveOutput {
 function outName(input: string, kind: SaveKind, bitDepth: 8 | 16): string {
   const stem = basename(input, extname(input));
   if (kind === 'rkf') return `${stem}.rkf`;
+  if (kind === 'removed') return `${stem}-removed.png`;
   const ext = bitDepth === 16 ? '.tif' : '.png';
   return kind === 'cleaned' ? `${stem}-cleaned${ext}` : `${stem}-expanded${ext}`;
 }
@@ -182,7 +184,10 @@ async function save(
   const fileName = args.path ? basename(args.path) : outName(args.input, args.kind, image.bitDepth);
   if (args.kind === 'rkf' && !/\.rkf$/i.test(fileName))
     throw new UsageError(`${fileName}: a compressed file must end in .rkf`);
+  if (args.kind === 'removed' && !/\.png$/i.test(fileName))
+    throw new UsageError(`${fileName}: the removed part is written as PNG; give a file name ending in .png`);
   if (args.path) await assertWritable(args.path, args.force);
+  if (args.kind === 'removed') return saveRemoved(image, args, fileName, progress);
   const meta = { icc: image.meta.icc, density: image.meta.density, orientation: image.meta.orientation };
   let planes: Float32Array[];
   let caution = LOSSY_CAUTION;
@@ -222,6 +227,24 @@ async function save(
   const buf = await encodeImageBuffer(img, { format: formatFromPath(fileName) });
   const copy = new Uint8Array(buf);
   return { data: copy.buffer as ArrayBuffer, fileName, bytes: copy.length, caution };
+}
+
+/** The part cleaning removed, as `rankfold clean --removed` writes it (mid-grey PNG with its scale). */
+async function saveRemoved(
+  image: DecodedImage,
+  args: Omit<SaveRequest, 'scanId' | 'job'>,
+  fileName: string,
+  progress: Progress,
+): Promise<SaveOutput> {
+  if (!args.settings) throw new UsageError('Saving the removed part needs the clean settings');
+  const { removed } = await (await cleaner())(image, args.settings, progress);
+  const { bytes } = await removedPng(removed, image.width, image.height, image.bitDepth);
+  if (args.path) {
+    await writeFileAtomic(args.path, bytes, { force: args.force });
+    return { path: args.path, fileName, bytes: bytes.length, caution: CLEANING_CAUTION };
+  }
+  const copy = new Uint8Array(bytes);
+  return { data: copy.buffer as ArrayBuffer, fileName, bytes: copy.length, caution: CLEANING_CAUTION };
 }
 
 export async function sessionServices() {

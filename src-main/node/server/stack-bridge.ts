@@ -66,7 +66,7 @@ export async function openStackFrame(
   const h = session.reader.header;
   if (frame >= h.frameCount)
     throw new UsageError(
-      `${file}: frame ${frame} does not exist; the stack holds frames 0–${h.frameCount - 1}`,
+      `${file}: frame ${frame + 1} does not exist; the stack holds frames 1–${h.frameCount}`,
     );
   const planes = session.reader.frame(frame);
   const names = CHANNEL_NAMES[h.colour] ?? h.spectrum.map((_, c) => `c${c}`);

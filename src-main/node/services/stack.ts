@@ -254,6 +254,10 @@ export async function expandStackFile(
     sourceSha256: h.frameTable[j].sourceSha256,
   });
   if (options.frame !== undefined) {
+    if (options.frame >= h.frameCount)
+      throw new UsageError(
+        `${file}: frame ${options.frame + 1} does not exist; the stack holds frames 1–${h.frameCount}`,
+      );
     // Random access: only the chunks of this frame are read and checked.
     const planes = reader.frame(options.frame);
     const format = formatFromPath(output);

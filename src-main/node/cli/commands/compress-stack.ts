@@ -72,6 +72,10 @@ function targetFrom(v: Record<string, unknown>): StackCompressOptions {
 const fmt = (x: number, d = 2) =>
   Number.isFinite(x) ? x.toFixed(d) : x === Number.POSITIVE_INFINITY ? '∞' : 'n/a';
 
+/** A frame as the text report names it: counted from 1, as the app and `expand --frame` count. */
+const frameNumber = (index: number, frames: number) =>
+  index >= 0 ? `frame ${index + 1} of ${frames}` : 'no frame';
+
 export function formatStackReport(r: StackReport): string {
   const lines = [
     `${r.input} → ${r.output} (stack of ${r.frames} frames)`,
@@ -88,7 +92,7 @@ export function formatStackReport(r: StackReport): string {
           .join(', ')}${s.sigma.length > 6 ? ', …' : ''})`,
     );
   lines.push(
-    `  measured on the decoded file: PSNR worst ${fmt(r.psnr.worst)} dB (frame ${r.psnr.worstFrame}), mean ${fmt(r.psnr.mean)} dB; SSIM worst ${fmt(r.ssim.worst, 4)}, mean ${fmt(r.ssim.mean, 4)}`,
+    `  measured on the decoded file: PSNR worst ${fmt(r.psnr.worst)} dB (${frameNumber(r.psnr.worstFrame, r.frames)}), mean ${fmt(r.psnr.mean)} dB; SSIM worst ${fmt(r.ssim.worst, 4)}, mean ${fmt(r.ssim.mean, 4)}`,
     `  frames with their own residual: ${r.perFrame.filter((f) => f.residual).length} of ${r.frames}`,
     `  time: decode ${fmt(r.timings.decodeMs, 0)} ms, factor ${fmt(r.timings.factorMs, 0)} ms, encode ${fmt(r.timings.encodeMs, 0)} ms`,
   );

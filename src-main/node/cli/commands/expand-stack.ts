@@ -16,7 +16,7 @@ import { type CliIO, flags, parseCommandArgs } from '../args/command';
 const options = flags('output frame pixel-limit', 'json force upright');
 
 export const expandStackHelp = `Stack files (made by compress --stack):
-  rankfold expand SERIES.rkf --frame I -o OUT.png|OUT.tif   one frame (from 0), decoded on its own
+  rankfold expand SERIES.rkf --frame I -o OUT.png|OUT.tif   frame I (counted from 1), decoded on its own
   rankfold expand SERIES.rkf -o OUT_DIR                     every frame as OUT_DIR/frame-001.png, …
   rankfold expand SERIES.rkf -o OUT.tif                     every frame as one multi-page TIFF
 `;
@@ -47,7 +47,9 @@ export async function runStack(argv: string[], io: CliIO): Promise<number> {
   const output = v.output as string | undefined;
   if (!output)
     throw new UsageError('expand: missing -o OUT.png, OUT.tif or OUT_DIR. See `rankfold expand --help`.');
-  const frame = v.frame !== undefined ? parseOptionText(OPTIONS.frame, v.frame as string) : undefined;
+  // Frames are counted from 1 on the command line, in the reports and in the app; the service takes an index.
+  const frame =
+    v.frame !== undefined ? parseOptionText(OPTIONS.frameNumber, v.frame as string) - 1 : undefined;
   const report = await expandStackFile(input, output, { frame, force: Boolean(v.force) });
   io.stdout(v.json ? `${JSON.stringify(report)}\n` : format(report));
   if (!v.json) io.stderr(`${LOSSY_CAUTION}\n`);

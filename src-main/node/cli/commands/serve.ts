@@ -14,7 +14,8 @@ prints the page's address, with a token that changes every run, as the first lin
 page holding the token can use the server; files are read only when you open or choose them in the page.
 
 Options:
-  --port P     port to listen on, 1024–65535 (default: any free port)
+  --port P     port to listen on, 1024–65535, or 0 for any free port (the default);
+               the address printed on the first line carries the port actually used
   --no-open    do not open the default browser
   -h, --help   show this help
 
@@ -55,7 +56,9 @@ export const command: Command = {
       { port: { type: 'string' }, 'no-open': { type: 'boolean' } },
       0,
     );
-    const port = values.port === undefined ? 0 : parseOptionText(OPTIONS.port, values.port as string);
+    // 0, as is usual for servers, asks the system for any free port (the printed address gives it).
+    const text = values.port as string | undefined;
+    const port = text === undefined || text.trim() === '0' ? 0 : parseOptionText(OPTIONS.port, text);
     const dist = distDir();
     const staticDir = join(dist, 'renderer');
     if (!existsSync(join(staticDir, 'index.html')))
