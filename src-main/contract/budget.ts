@@ -88,7 +88,9 @@ function readSizeText(text: string, what: string, examples: string): { percent: 
   const m = /^(\d+(?:\.\d+)?)\s*([a-zA-Z]*)$/.exec(t);
   const unit = m ? (m[2] || 'b').toLowerCase() : '';
   if (!m || !(unit in SIZE_UNITS))
-    throw new UsageError(`Expected a size such as ${examples} for ${what} but received ${JSON.stringify(text)}`);
+    throw new UsageError(
+      `Expected a size such as ${examples} for ${what} but received ${JSON.stringify(text)}`,
+    );
   return { bytes: Math.floor(Number(m[1]) * SIZE_UNITS[unit]) };
 }
 

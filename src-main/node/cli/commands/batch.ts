@@ -6,8 +6,10 @@
  */
 import type { BatchEvent, BatchRow, BatchSummary } from '../../../contract';
 import { LOSSY_CAUTION, OPTIONS, rangeText } from '../../../contract';
+import { collectionLines, mergedTotalLines, planLines } from '../../batch/collection-text';
 import { rowToJson } from '../../batch/manifest';
 import { mergeManifests } from '../../batch/merge';
+import { makeSharedPlan } from '../../batch/plan-file';
 import { type ProgressView, terminalProgress } from '../../batch/progress';
 import { runBatch } from '../../batch/run';
 import { batchWorkerFile } from '../../batch/worker-path';
@@ -62,11 +64,22 @@ ${LOSSY_CAUTION}
 function humanLine(e: Extract<BatchEvent, { event: 'file' }>): string {
   const n = `[${e.done}/${e.total}]`;
   if (e.status === 'failed') return `${n} FAILED ${e.path}: ${e.error?.message ?? 'unknown error'}\n`;
-  if (e.status === 'planned') return `${n} would write ${e.output}  ←  ${e.path}\n`;
+  if (e.status === 'planned' && e.plan)
+    return `${n} would write ${e.output}  ←  ${e.path}: ${e.plan.bytes} bytes, predicted PSNR ${e.plan.psnr.toFixed(2)} dB\n`;
+  if (e.status === 'planned')
+    return `${n} would ${e.note === 'surveyed' ? 'plan' : 'write'} ${e.output}  ←  ${e.path}\n`;
   if (e.status === 'skipped') return `${n} skipped ${e.note ?? e.path}\n`;
   const psnr =
     e.psnr === undefined ? '' : Number.isFinite(e.psnr) ? ` PSNR ${e.psnr.toFixed(2)} dB` : ' exact';
   return `${n} ${e.status === 'kept' ? 'kept' : 'ok'} ${e.path} → ${e.output}${e.ratio !== undefined ? ` ratio ${e.ratio.toFixed(2)}` : ''}${psnr}\n`;
+}
+
+/** `, 2 skipped (not regular files), 1 skipped (not scans)`: special entries are never opened; non-scans were. */
+function skippedText(rows: BatchRow[]): string {
+  const skipped = rows.filter((r) => r.status === 'skipped');
+  const special = skipped.filter((r) => r.output === '').length;
+  const other = skipped.length - special;
+  return `${special ? `, ${special} skipped (not regular files)` : ''}${other ? `, ${other} skipped (not scans)` : ''}`;
 }
 
 function summaryText(
@@ -77,7 +90,7 @@ function summaryText(
   notices: string[] = [],
 ): string {
   const lines = [
-    `batch: ${s.total} file${s.total === 1 ? '' : 's'}: ${s.ok} compressed, ${s.kept} kept, ${s.failed} failed${s.skipped ? `, ${s.skipped} skipped (not regular files)` : ''}${s.planned ? `, ${s.planned} planned (dry run)` : ''} in ${(s.elapsedMs / 1000).toFixed(1)} s` +
+    `batch: ${s.total} file${s.total === 1 ? '' : 's'}: ${s.ok} compressed, ${s.kept} kept, ${s.failed} failed${skippedText(rows)}${s.planned ? `, ${s.planned} planned (dry run)` : ''} in ${(s.elapsedMs / 1000).toFixed(1)} s` +
       (s.outputBytes
         ? `; ${s.outputBytes >= 1e6 ? `${(s.outputBytes / 1e6).toFixed(2)} MB` : `${(s.outputBytes / 1e3).toFixed(1)} kB`} written`
         : ''),
@@ -94,7 +107,7 @@ function summaryText(
   }
   const skipped = rows.filter((r) => r.status === 'skipped');
   if (skipped.length) {
-    lines.push('Skipped (not regular files, never opened):');
+    lines.push('Skipped (not scans, or not regular files and never opened):');
     for (const r of skipped) lines.push(`  ${r.note ?? r.path}`);
   }
   for (const w of warnings) lines.push(`warning: ${w}`);
@@ -109,12 +122,24 @@ async function run(argv: string[], io: CliIO): Promise<number> {
   const args = parseBatchArgs(argv);
   if (args.mode === 'merge') {
     const r = await mergeManifests(args.manifests, args);
+    const total = mergedTotalLines(r.rows);
     if (args.json)
       io.stdout(`${JSON.stringify({ event: 'end', summary: r.summary, warnings: r.warnings })}\n`);
-    else io.stderr(summaryText(r.summary, r.warnings, false, r.rows));
-    return r.summary.failed > 0 || r.warnings.length > 0 ? 2 : 0;
+    else
+      io.stderr(
+        `${summaryText(r.summary, r.warnings, false, r.rows)}${total.lines.map((l) => `${l}\n`).join('')}`,
+      );
+    return r.summary.failed > 0 || r.warnings.length > 0 || total.over ? 2 : 0;
   }
-  const workerFile = args.dryRun ? '' : batchWorkerFile();
+  if (args.mode === 'plan') {
+    const plan = await makeSharedPlan(args);
+    if (args.json) io.stdout(`${JSON.stringify({ event: 'plan', ...plan, files: plan.files.length })}\n`);
+    else io.stderr(`${planLines(plan).join('\n')}\n`);
+    return 0;
+  }
+  // A collection's dry run still surveys (trial encodes on the workers); it writes nothing.
+  const surveys = Boolean(args.total || args.surveyOnly);
+  const workerFile = args.dryRun && !surveys ? '' : batchWorkerFile();
   if (!args.json && !args.dryRun) io.stderr(`${LOSSY_CAUTION}\n`);
   let bar: ProgressView | undefined;
   const controller = new AbortController();
@@ -138,9 +163,14 @@ async function run(argv: string[], io: CliIO): Promise<number> {
         }
       },
       onProgress: (p) => bar?.update(p),
+      onNote: (text) => {
+        if (!args.json) io.stderr(`${text}\n`);
+      },
     });
     bar?.stop();
     io.stderr(summaryText(result.summary, result.warnings, result.interrupted, result.rows, result.notices));
+    if (result.collection && !args.json)
+      io.stderr(`${collectionLines(result.collection, result.rows).join('\n')}\n`);
     if (result.summary.total === 0 && !args.json)
       io.stderr(
         'batch: no input files found (hidden files and folders are skipped; check IN_DIR and --include/--exclude)\n',
