@@ -119,6 +119,7 @@ async function compressOne(
   } catch (err) {
     return on.tally.add(failedRow(f, shardLabel, toErrorPayload(err)));
   }
+  o.onFileStart?.(f.path);
   const options: CompressOptions = cap
     ? { ...o.compress, budget: { kind: 'bytes', bytes: cap.bytes } }
     : o.compress;

@@ -51,6 +51,8 @@ export interface BatchRunOptions {
   surveyOnly?: boolean;
   /** `--plan plan.json`: encode each file at the bytes this shared plan allots (made by `batch --plan`). */
   planFile?: string;
+  /** Called when a file is handed to a worker (the app shows its row as it starts). */
+  onFileStart?: (path: string) => void;
   /** Called with one line of news about the survey and the plan. */
   onNote?: (text: string) => void;
   /** Called for every event (start, each file, end). */

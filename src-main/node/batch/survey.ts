@@ -7,7 +7,8 @@
  * (stratified sampling, so margins and dense areas both count) is compressed by the same service as the
  * real encode at three byte budgets, 0.75 %, 3 % and 12 % of its raw samples; each achieved size is scaled
  * by pixels to the whole scan (the caps asked for, above the file's fixed part, are scaled). Crops are whole tiles (64 pixels, or the run's tile side), so the mosaic's
- * seams fall on tile borders. The mosaic holds at most 1/16 of the scan's pixels and at most 256×256.
+ * seams fall on tile borders. The mosaic holds at most 1/16 of the scan's pixels (but at least 2×2 crops) and at
+ * most 256×256.
  */
 import type { CompressOptions, DecodedImage, TileChoice } from '../../contract';
 import type { RatePoint } from './rate-curve';
@@ -33,9 +34,10 @@ const MOSAIC_SHARE = 1 / 16;
 /** A mosaic of `grid`×`grid` crops of `side` pixels, spread evenly over the scan; the scan itself if small. */
 export function surveyMosaic(img: DecodedImage, side: number): DecodedImage {
   const fit = Math.floor(Math.sqrt(img.width * img.height * MOSAIC_SHARE) / side);
+  // At least 2×2 crops whenever the scan holds them, so a small scan is never surveyed whole (three encodes
+  // of a whole scan would cost more than the encode itself).
   const grid = Math.min(
-    Math.floor(MOSAIC_MAX / side),
-    fit,
+    Math.max(2, Math.min(Math.floor(MOSAIC_MAX / side), fit)),
     Math.floor(img.width / side),
     Math.floor(img.height / side),
   );
