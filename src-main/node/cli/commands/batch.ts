@@ -107,7 +107,11 @@ function summaryText(
   }
   const skipped = rows.filter((r) => r.status === 'skipped');
   if (skipped.length) {
-    lines.push('Skipped (not scans, or not regular files and never opened):');
+    lines.push(
+      skipped.every((r) => r.output === '')
+        ? 'Skipped (not regular files, never opened):'
+        : 'Skipped (not scans, or not regular files and never opened):',
+    );
     for (const r of skipped) lines.push(`  ${r.note ?? r.path}`);
   }
   for (const w of warnings) lines.push(`warning: ${w}`);
