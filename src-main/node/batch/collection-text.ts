@@ -10,7 +10,7 @@ import { type SharedPlan, sizeText } from './plan-file';
 const db = (x: number) => (Number.isFinite(x) ? `${x.toFixed(2)} dB` : 'exact');
 
 /** Lowest, median and highest of a list, as text. */
-export function spreadText(values: number[]): string {
+function spreadText(values: number[]): string {
   if (!values.length) return 'none';
   const v = values.slice().sort((a, b) => a - b);
   return `lowest ${db(v[0])}, median ${db(v[v.length >> 1])}, highest ${db(v[v.length - 1])}`;

@@ -101,7 +101,7 @@ export async function readSharedPlan(file: string): Promise<SharedPlan> {
   );
 }
 
-export async function writeSharedPlan(file: string, p: SharedPlan): Promise<void> {
+async function writeSharedPlan(file: string, p: SharedPlan): Promise<void> {
   if (!/\.json$/i.test(file)) throw new UsageError(`--plan writes a .json file, not ${JSON.stringify(file)}`);
   await writeFileAtomic(file, `${JSON.stringify(p, null, 1)}\n`, { force: true });
 }

@@ -15,7 +15,7 @@ export interface RatePoint {
 }
 
 /** PSNR cap: a blank or exact file reports +∞; the curve holds it at this. */
-export const PSNR_CAP = 99;
+const PSNR_CAP = 99;
 
 /** How far above the highest measured point a plan may reach (a factor on bytes). */
 const MAX_SPAN = 4;
