@@ -32,7 +32,7 @@ const MOSAIC_MAX = 256;
 const MOSAIC_SHARE = 1 / 16;
 
 /** A mosaic of `grid`×`grid` crops of `side` pixels, spread evenly over the scan; the scan itself if small. */
-function surveyMosaic(img: DecodedImage, side: number): DecodedImage {
+export function surveyMosaic(img: DecodedImage, side: number): DecodedImage {
   const fit = Math.floor(Math.sqrt(img.width * img.height * MOSAIC_SHARE) / side);
   // At least 2×2 crops whenever the scan holds them, so a small scan is never surveyed whole (three encodes
   // of a whole scan would cost more than the encode itself).
