@@ -20,13 +20,17 @@ const HELP = `rankfold batch: compress a whole folder unattended, with a manifes
 
 Usage:
   rankfold batch IN_DIR -o OUT_DIR (--rank K | --budget SIZE | --bpp X | --min-psnr DB | --min-ssim S) [options]
+  rankfold batch IN_DIR -o OUT_DIR --total SIZE [--favour floor|mean] [--min-psnr DB] [options]
+  rankfold batch IN_DIR -o OUT_DIR --survey [--shard I/N]
+  rankfold batch --plan SURVEY.json… --total SIZE [--favour floor|mean] [--min-psnr DB] [--reserve P] -o plan.json
+  rankfold batch IN_DIR -o OUT_DIR --plan plan.json [--shard I/N]
   rankfold batch --merge MANIFEST.jsonl… [-o DIR] [--report FILE.html] [--manifest FILE.jsonl]
 
 Walks IN_DIR recursively (hidden files and folders skipped) and writes one .rkf per input under OUT_DIR,
 mirroring the folders. Nothing is ever written inside IN_DIR; OUT_DIR may not be IN_DIR or inside it.
 Entries that are not regular files (FIFOs, devices, sockets, links to them or to folders, broken or
-looping links) are never opened: they are listed as skipped, with the reason, in the summary, manifest and
-report. One run at a time per manifest: a second run into the same OUT_DIR (same shard) is refused while the
+looping links) are never opened, and files that are not scans (a text file) are not compressed: both are
+listed as skipped, with the reason, in the summary, manifest and report. One run at a time per manifest: a second run into the same OUT_DIR (same shard) is refused while the
 first holds OUT_DIR/rankfold-manifest[-IofN].jsonl.lock; a lock left by a dead run on this host is taken over.
 
 Budget (exactly one, as for \`rankfold compress\`):
@@ -37,6 +41,15 @@ Budget (exactly one, as for \`rankfold compress\`):
   --min-ssim S         smallest file with at least this SSIM (${rangeText(OPTIONS.minSsim)})
   --tile N|auto|0      tile size ${rangeText(OPTIONS.tile)}, auto, or 0 for whole planes (default auto)
   --pixel-limit N      refuse inputs with more pixels (default 268402689)
+
+A total for the whole folder (instead of a budget per file):
+  --total SIZE         the .rkf files together take at most SIZE: 2TB, 40GB, 250MB, 120000 (bytes) or 5% of
+                       the raw samples of all inputs (kB, MB, GB, TB are decimal: 1 GB = 10^9 bytes)
+  --favour floor|mean  floor (default): the highest PSNR every file reaches; mean: the highest mean PSNR
+  --min-psnr DB        with --total, a guard: stop before writing anything if the floor would be below DB
+  --survey             measure each file's rate–quality curve only (OUT_DIR/rankfold-survey[-IofN].json)
+  --plan FILE…         with --total and -o plan.json: plan from survey files; alone: encode from that plan
+  --reserve P          per cent of the total a shared plan holds back (${rangeText(OPTIONS.reserve, true)}, default ${OPTIONS.reserve.default})
 
 Batch:
   -j, --jobs N         worker threads (default: the number of cores)
