@@ -73,7 +73,7 @@ export async function prepareCollection(
   const survey = await surveyFiles(
     todo,
     await readSurvey(surveyFile),
-    { ...o, ...run, compress: o.compress },
+    { ...o, ...run, compress: o.compress, onFile: o.onSurvey },
     run.shardLabel,
   );
   const asked = new Set(todo.map((f) => f.path));

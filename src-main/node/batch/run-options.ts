@@ -53,6 +53,8 @@ export interface BatchRunOptions {
   planFile?: string;
   /** Called when a file is handed to a worker (the app shows its row as it starts). */
   onFileStart?: (path: string) => void;
+  /** `--total`: called as each file's survey ends (`done` of `total`). */
+  onSurvey?: (done: number, total: number) => void;
   /** Called with one line of news about the survey and the plan. */
   onNote?: (text: string) => void;
   /** Called for every event (start, each file, end). */

@@ -44,6 +44,13 @@ export async function runBatchJob(
     signal,
     // Rows appear as files start (issue #14), and the survey and plan say what they do.
     onFileStart: (file) => progress({ stage: 'running', done: count.done, total: count.total, file }),
+    onSurvey: (done, total) =>
+      progress({
+        stage: 'planning',
+        done,
+        total,
+        message: `measuring scan ${done} of ${total} to plan the total`,
+      }),
     onNote: (message) => progress({ stage: 'planning', done: count.done, total: count.total, message }),
     onEvent: (e) => {
       if (e.event === 'start') count.total = e.total;
