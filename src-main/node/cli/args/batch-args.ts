@@ -77,9 +77,11 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge | Pars
   if (values.merge) {
     if (!positionals.length)
       throw new UsageError('--merge: give one or more shard manifests (rankfold-manifest-*.jsonl)');
-    const bad = [...BUDGET_OPTION_NAMES, 'tile', 'resume', 'shard', 'dry-run', 'expand-check', 'jobs'].filter(
-      (k) => values[k] !== undefined,
-    );
+    const bad = [
+      ...BUDGET_OPTION_NAMES,
+      ...['tile', 'resume', 'shard', 'dry-run', 'expand-check', 'jobs'],
+      ...['total', 'favour', 'plan', 'survey', 'reserve'],
+    ].filter((k) => values[k] !== undefined);
     if (bad.length)
       throw new UsageError(
         `--merge only joins manifests; it does not take ${bad.map((b) => `--${b}`).join(', ')}`,
