@@ -14,6 +14,7 @@ import sharp from 'sharp';
 import { runBatch } from '../src-main/node/batch/run';
 import { batchWorkerFile } from '../src-main/node/batch/worker-path';
 import { BATCH_V8_FLAGS, relaunch } from '../src-main/node/cli/relaunch';
+import { totalSection } from './batch-total';
 
 // 64 pages (32 grey, 32 RGB). The command is for overnight folders of hundreds to thousands of scans, where
 // the fixed costs of a batch vanish: starting the workers, each worker's first files running before V8 has
@@ -156,7 +157,28 @@ async function ceiling(kind: 'fp' | 'int'): Promise<number> {
   }
 }
 
+/** `RANKFOLD_BENCH_PART=total` runs only the --total section (41-batch-total.md); `throughput` only 40-batch.md. */
+const PART = process.env.RANKFOLD_BENCH_PART ?? 'all';
+
 async function main() {
+  if (PART !== 'throughput') await totalMain();
+  if (PART !== 'total') await throughputMain();
+}
+
+async function totalMain() {
+  const root = await mkdtemp(join(tmpdir(), 'rankfold-bench-total-'));
+  try {
+    const lines = await totalSection(root);
+    const outDir = process.env.RANKFOLD_BENCH_OUT ?? 'docs/bench';
+    await mkdir(outDir, { recursive: true });
+    await writeFile(join(outDir, '41-batch-total.md'), lines.join('\n'));
+    console.log(lines.join('\n'));
+  } finally {
+    await rm(root, { recursive: true, force: true });
+  }
+}
+
+async function throughputMain() {
   const root = await mkdtemp(join(tmpdir(), 'rankfold-bench-batch-'));
   try {
     const inDir = join(root, 'in');

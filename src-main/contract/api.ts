@@ -123,6 +123,10 @@ export interface BatchRequest {
   tile: TileChoice;
   force?: boolean;
   job: string;
+  /** A total for the whole folder (issue #13): `budget` is then ignored, each file gets its share. */
+  total?: import('./budget').TotalSize;
+  /** With `total`: survey and plan only, write nothing; each file's `psnr` is the predicted one. */
+  dryRun?: boolean;
 }
 
 export interface BatchFileStatus {

@@ -58,6 +58,11 @@ export interface BatchRow {
   error?: ErrorPayload;
   /** `--expand-check`: metrics measured again on the decoded output. */
   check?: { psnr: number; ssim?: number; ok: boolean; message?: string };
+  /**
+   * `--total` (issue #13): the bytes the plan allotted this file (a hard cap), the PSNR the survey predicted
+   * at that size, the plan's floor when the file started, and the total (bytes) the run is held to.
+   */
+  plan?: { bytes: number; psnr: number; floor: number; total: number };
   /** Shard that produced the row, `I/N` (0-based), or `0/1` for an unsharded run. */
   shard: string;
   /** ISO-8601 time the row was written. */

@@ -62,9 +62,11 @@ const SIZE_UNITS: Record<string, number> = {
   kb: 1e3,
   mb: 1e6,
   gb: 1e9,
+  tb: 1e12,
   kib: 1024,
   mib: 1024 ** 2,
   gib: 1024 ** 3,
+  tib: 1024 ** 4,
 };
 
 /**
@@ -74,14 +76,43 @@ const SIZE_UNITS: Record<string, number> = {
  * @throws UsageError with the exact text it could not read.
  */
 export function parseBudgetText(text: string): Budget {
+  const v = readSizeText(text, 'budget', '250kB, 1.5MB, 2MiB or 5%');
+  return checkBudget('percent' in v ? { kind: 'percent', ...v } : { kind: 'bytes', ...v });
+}
+
+/** `5%` → { percent: 5 }; `1.5MB` → { bytes: 1500000 }. @throws UsageError naming `what` and the text. */
+function readSizeText(text: string, what: string, examples: string): { percent: number } | { bytes: number } {
   const t = text.trim();
   const pct = /^(\d+(?:\.\d+)?)\s*%$/.exec(t);
-  if (pct) return checkBudget({ kind: 'percent', percent: Number(pct[1]) });
+  if (pct) return { percent: Number(pct[1]) };
   const m = /^(\d+(?:\.\d+)?)\s*([a-zA-Z]*)$/.exec(t);
   const unit = m ? (m[2] || 'b').toLowerCase() : '';
   if (!m || !(unit in SIZE_UNITS))
     throw new UsageError(
-      `Expected a size such as 250kB, 1.5MB, 2MiB or 5% for budget but received ${JSON.stringify(text)}`,
+      `Expected a size such as ${examples} for ${what} but received ${JSON.stringify(text)}`,
     );
-  return checkBudget({ kind: 'bytes', bytes: Math.floor(Number(m[1]) * SIZE_UNITS[unit]) });
+  return { bytes: Math.floor(Number(m[1]) * SIZE_UNITS[unit]) };
+}
+
+/** A batch's total for the whole collection (issue #13): bytes, or a share of the raw samples of all inputs. */
+export type TotalSize = { kind: 'bytes'; bytes: number } | { kind: 'percent'; percent: number };
+
+/** Check a total object, as a request carries it. @throws UsageError in the one format. */
+export function checkTotal(v: unknown): TotalSize {
+  if (!is.plainObject(v)) throw invalidParameterError('total', 'an object', v);
+  const kind = checkOneOf('total.kind', v.kind, ['bytes', 'percent'] as const);
+  checkFields('total', v, ['kind', kind]);
+  return kind === 'bytes'
+    ? { kind, bytes: checkOption(OPTIONS.totalBytes, v.bytes) }
+    : { kind, percent: checkOption(OPTIONS.totalPercent, v.percent) };
+}
+
+/**
+ * Parse `--total` text: `2TB`, `40GB`, `250MB`, `120000` (bytes) or `5%` (of the raw samples of all inputs).
+ * kB/MB/GB/TB are decimal (SI: 1 GB = 10⁹ bytes); KiB…TiB are binary (IEC 80000-13).
+ * @throws UsageError with the exact text it could not read.
+ */
+export function parseTotalText(text: string): TotalSize {
+  const v = readSizeText(text, 'total', '2TB, 40GB, 250MB, 120000 or 5%');
+  return checkTotal('percent' in v ? { kind: 'percent', ...v } : { kind: 'bytes', ...v });
 }

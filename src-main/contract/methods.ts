@@ -24,7 +24,7 @@ import type {
   ScanSummary,
   StackFrameRequest,
 } from './api';
-import { checkBudget, checkFields, checkTile } from './budget';
+import { checkBudget, checkFields, checkTile, checkTotal } from './budget';
 import { checkCleanOptions } from './clean';
 import { UsageError } from './errors';
 import { checkOption, checkOptional, OPTIONS } from './options';
@@ -199,7 +199,16 @@ const METHODS = {
   /** Compress a chosen folder into a chosen folder, with progress events. */
   batch: method<BatchResult>()({
     validate: (v): BatchRequest => {
-      const o = checkFields('batch', v, ['input', 'output', 'budget', 'tile', 'force', 'job']);
+      const o = checkFields('batch', v, [
+        'input',
+        'output',
+        'budget',
+        'tile',
+        'force',
+        'job',
+        'total',
+        'dryRun',
+      ]);
       return {
         input: checkPath('input', o.input),
         output: checkPath('output', o.output),
@@ -207,6 +216,9 @@ const METHODS = {
         tile: checkTile(o.tile),
         force: optional(o.force, (f) => checkBool('force', f)),
         job: checkId('job', o.job),
+        // Issue #13: a total for the folder, and its plan-only run.
+        total: optional(o.total, checkTotal),
+        dryRun: optional(o.dryRun, (f) => checkBool('dryRun', f)),
       };
     },
   }),

@@ -189,6 +189,38 @@ export const OPTIONS = {
     doc: 'per-file time limit',
   }),
   port: int({ name: 'port', arg: 'N', min: 1024, max: 65535, doc: 'port on 127.0.0.1' }),
+  // Batch: a total for the whole collection (issue #13; contract/budget.ts parses the SIZE text).
+  totalBytes: int({
+    name: 'total',
+    min: 64,
+    max: Number.MAX_SAFE_INTEGER,
+    unit: 'bytes',
+    expected: 'a total of at least 64 bytes',
+    doc: 'the .rkf files of the whole folder together take at most this many bytes',
+  }),
+  totalPercent: num({
+    name: 'total',
+    min: 0.001,
+    max: 100,
+    unit: '%',
+    expected: 'a percentage between 0.001 and 100',
+    doc: 'the whole folder takes at most this share of the raw sample bytes of all inputs',
+  }),
+  favour: oneOf({
+    name: 'favour',
+    values: ['floor', 'mean'] as const,
+    default: 'floor',
+    doc: 'floor: the highest PSNR every file reaches; mean: the highest mean PSNR (equal slopes)',
+  }),
+  reserve: num({
+    name: 'reserve',
+    arg: 'P',
+    min: 0,
+    max: 50,
+    default: 1,
+    unit: '%',
+    doc: 'share of the total a shared plan (--plan) holds back for files that need more than planned',
+  }),
 } as const;
 
 /** Highest noise σ accepted, in grey levels (the 16-bit sample scale). */

@@ -93,11 +93,14 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     // Worded from the file's signature, so the same with 1 job or 2 (libvips' error text is process-wide).
     expect(msg('bad/truncated.png')).toContain('starts as a PNG file but the rest is truncated or corrupt');
     expect(msg('bad/corrupt.tif')).toContain('starts as a TIFF file but the rest is truncated or corrupt');
-    expect(msg('bad/notes.txt')).toMatch(/not an image|not a readable image/);
+    // Not a scan at all: listed as skipped with the reason, not failed (issue #14).
+    expect(byPath.get('bad/notes.txt')!.status).toBe('skipped');
+    expect(byPath.get('bad/notes.txt')!.note).toMatch(/not an image Rankfold can read/);
     expect(msg('bad/float32.tif')).toContain('unsupported sample format "float"');
     expect(msg('bad/oversize.png')).toContain('over the pixel limit of 20000');
     for (const p of Object.keys(before)) {
       const row = byPath.get(p)!;
+      if (p === 'bad/notes.txt') continue;
       if (p.startsWith('bad/')) {
         expect(row.status, p).toBe('failed');
         expect(row.error!.message, p).toContain(p.split('/').pop()!); // the message names the file
@@ -125,11 +128,11 @@ describe.skipIf(!built)('rankfold batch (built CLI)', () => {
     const csv = readFileSync(join(out, 'rankfold-manifest.csv'), 'utf8').trim().split('\r\n');
     expect(csv).toHaveLength(rows.length + 1);
     const html = readFileSync(join(out, 'rankfold-manifest.html'), 'utf8');
-    expect(html).toContain('Failures (6)');
+    expect(html).toContain('Failures (5)');
     expect(html).toContain('over the pixel limit of 20000');
     expect(html).toMatch(/<img src="data:image\/png;base64,[A-Za-z0-9+/=]{100,}"/);
-    // Six worst files × (original + reconstruction), all inline.
-    expect((html.match(/<img src="data:image\/png;base64,[A-Za-z0-9+/=]{100,}"/g) ?? []).length).toBe(12);
+    // The ten worst files × (original + reconstruction), all inline.
+    expect((html.match(/<img src="data:image\/png;base64,[A-Za-z0-9+/=]{100,}"/g) ?? []).length).toBe(20);
     expect(html).not.toMatch(/(?:src|href)="https?:/);
     expect(r.stderr).toContain('Failed files:');
     expect(r.stderr).toContain('bad/notes.txt');

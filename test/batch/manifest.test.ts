@@ -137,7 +137,8 @@ describe('report', () => {
     expect(html).not.toMatch(/(?:src|href)\s*=\s*["']?(?:https?:)?\/\//i);
     expect(html).not.toMatch(/@import|url\(\s*['"]?https?:/i);
     expect(html).toContain("default-src 'none'");
-    expect((html.match(/<svg /g) ?? []).length).toBe(2);
+    // Ratio, PSNR and file size (issue #13 asks for the size histogram too).
+    expect((html.match(/<svg /g) ?? []).length).toBe(3);
     expect(html).toContain('data-k="psnr" data-num');
     expect(html).toContain('data-k="ratio" data-num');
     expect(html).toContain('data-k="error"');

@@ -132,6 +132,29 @@ describe('docs/scale.md invocations', () => {
     expect(invocations(merge, {}).map((x) => parseBatchArgs(x).mode)).toEqual(['merge']);
   });
 
+  it('A total across machines: survey and encode shards are 0…N−1, the plan reads every survey, the merge parses', () => {
+    const [block] = codeBlocks(section('A total across machines'));
+    const list = /:::\s*([\d ]+)/.exec(block)![1].trim().split(/\s+/);
+    const parsed = list.flatMap((v) => invocations(block, { '{}': v }).map((a) => parseBatchArgs(a)));
+    const runs = parsed.filter((p): p is ParsedBatch => p.mode === 'run');
+    expectPartition(
+      runs.filter((p) => p.surveyOnly).map((p) => p.shard),
+      4,
+    );
+    expectPartition(
+      runs.filter((p) => p.planFile).map((p) => p.shard),
+      4,
+    );
+    const once = invocations(block, {})
+      .filter((a) => !a.some((w) => w.includes('{}')))
+      .map((a) => parseBatchArgs(a));
+    const plan = once.find((p) => p.mode === 'plan');
+    expect(plan && plan.mode === 'plan' ? plan.surveys.map((f) => f.split('/').pop()) : []).toEqual(
+      list.map((i) => `rankfold-survey-${i}of4.json`),
+    );
+    expect(once.map((p) => p.mode)).toEqual(['plan', 'merge']);
+  });
+
   it('the parser rejects a shard the documents would get wrong (1-based index N/N)', () => {
     expect(() => parseBatchArgs(['/a', '-o', '/b', '--rank', '5', '--shard', '4/4'])).toThrow(
       'shards count from 0',

@@ -3,15 +3,16 @@
  * is journalled as it arrives, and the report's thumbnails that the jobs did not draw are drawn at the end.
  */
 import { mkdir } from 'node:fs/promises';
-import type { BatchRow } from '../../contract';
+import { type BatchRow, type CompressOptions, toErrorPayload } from '../../contract';
 import { sweepTemps } from '../io/atomic';
+import type { Allotment } from './allot';
 import type { BatchJobResult, BatchWork, BatchWorkResult } from './job';
 import { ManifestJournal } from './manifest';
 import { dispatchOrder, notRegularNow, type PlannedFile } from './plan';
 import { eachLimit, WorkerPool } from './pool';
 import { worstThumbnails } from './report';
 import type { ResumeState } from './resume';
-import { failedRow, rowFromResult, skippedRow } from './rows';
+import { failedRow, outcomeRow, rowFromResult, skippedRow } from './rows';
 import type { Run } from './run-options';
 import type { Tally } from './tally';
 import type { ThumbPair } from './thumbs';
@@ -111,11 +112,22 @@ async function compressOne(
   const { o, shardLabel } = run;
   const changed = await notRegularNow(f);
   if (changed) return on.tally.add(skippedRow(changed, shardLabel));
+  // A collection run: this file's byte cap, planned as it starts (allot.ts).
+  let cap: Allotment | undefined;
+  try {
+    cap = run.allotter?.take(f.path);
+  } catch (err) {
+    return on.tally.add(failedRow(f, shardLabel, toErrorPayload(err)));
+  }
+  o.onFileStart?.(f.path);
+  const options: CompressOptions = cap
+    ? { ...o.compress, budget: { kind: 'bytes', bytes: cap.bytes } }
+    : o.compress;
   const outcome = await on.pool.run(
     {
       input: f.inputAbs,
       output: f.outputAbs,
-      options: o.compress,
+      options,
       overwrite: Boolean(o.force) || on.resume.overwrite.has(f.path),
       verifyExisting: !o.force && on.resume.verify.has(f.path),
       expandCheck: Boolean(o.expandCheck),
@@ -132,12 +144,16 @@ async function compressOne(
   let row: BatchRow;
   if (outcome.ok) {
     const value = outcome.value as BatchJobResult;
-    row = rowFromResult(f, shardLabel, value, run.settings);
+    row = rowFromResult(f, shardLabel, value, cap ? `${run.settings} bytes=${cap.bytes}` : run.settings);
     if (value.thumbs) on.drawn.set(f.path, value.thumbs);
   } else {
     // A stopped worker may have left its temp file behind.
     await sweepTemps([f.outputAbs]);
-    row = failedRow(f, shardLabel, outcome.error);
+    row = outcomeRow(f, shardLabel, outcome.error);
+  }
+  if (cap && run.collection) {
+    row.plan = { ...cap, total: run.collection.total };
+    run.allotter?.settle(f.path, cap.bytes, row.status === 'ok' ? (row.bytes ?? 0) : 0);
   }
   on.tally.add(row);
   for (const p of on.drawn.keys()) if (!on.tally.worst.has(p)) on.drawn.delete(p);

@@ -59,8 +59,28 @@ export interface ThumbJob {
   outputAbs: string;
 }
 
-/** Everything a batch worker takes: a file to compress, or a finished file to draw for the report. */
-export type BatchWork = BatchJob | ThumbJob;
-export type BatchWorkResult = BatchJobResult | ThumbPair;
+/** `batch --total`: measure one file's rate–quality curve (survey.ts). */
+export interface SurveyJob {
+  kind: 'survey';
+  input: string;
+  options: CompressOptions;
+}
+
+/** What a survey job measured. `points` are whole-file bytes against PSNR. */
+export interface SurveyJobResult {
+  method: string;
+  width: number;
+  height: number;
+  channels: number;
+  bitDepth: number;
+  rawBytes: number;
+  points: { bytes: number; psnr: number }[];
+  timeMs: number;
+}
+
+/** Everything a batch worker takes: a file to compress or survey, or a finished file to draw for the report. */
+export type BatchWork = BatchJob | ThumbJob | SurveyJob;
+export type BatchWorkResult = BatchJobResult | ThumbPair | SurveyJobResult;
 
 export const isThumbJob = (w: BatchWork): w is ThumbJob => (w as ThumbJob).kind === 'thumbs';
+export const isSurveyJob = (w: BatchWork): w is SurveyJob => (w as SurveyJob).kind === 'survey';

@@ -6,10 +6,12 @@ import type { BatchRow } from '../../contract';
 import { LOSSY_CAUTION } from '../../contract';
 import { writeFileAtomic } from '../io/atomic';
 import { ranksText, sortRows } from './manifest';
+import { collectionSection } from './report-total';
 import { makeThumbnails, type ThumbPair } from './thumbs';
+import { niceTicks } from './ticks';
 
-/** How many of the lowest-PSNR files get thumbnails. */
-const WORST_COUNT = 6;
+/** How many of the lowest-PSNR files get thumbnails (issue #13: the ten worst). */
+const WORST_COUNT = 10;
 
 export interface ReportInfo {
   title: string;
@@ -18,9 +20,11 @@ export interface ReportInfo {
   shards: string[];
   elapsedMs?: number;
   warnings?: string[];
+  /** `--total` or `--plan`: the plan's figures (report-total.ts adds its section). */
+  collection?: import('./collection').CollectionInfo;
 }
 
-function escapeHtml(s: unknown): string {
+export function escapeHtml(s: unknown): string {
   return String(s ?? '').replace(
     /[&<>"']/g,
     (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[c]!,
@@ -68,10 +72,13 @@ export function histogramSvg(values: number[], label: string, unit: string, bins
       return `<rect x="${(L + i * bw + 1).toFixed(1)}" y="${(H - B - h).toFixed(1)}" width="${(bw - 2).toFixed(1)}" height="${h.toFixed(1)}"><title>${x0.toFixed(2)}–${x1.toFixed(2)} ${escapeHtml(unit)}: ${c} file${c === 1 ? '' : 's'}</title></rect>`;
     })
     .join('');
-  const ticks = [0, 0.25, 0.5, 0.75, 1]
-    .map((t) => {
-      const x = L + t * (W - L - R);
-      return `<line x1="${x}" y1="${H - B}" x2="${x}" y2="${H - B + 4}"/><text x="${x}" y="${H - B + 16}" text-anchor="middle">${(lo + t * (hi - lo)).toFixed(hi - lo < 10 ? 2 : 1)}</text>`;
+  // 1-2-5 ticks (ticks.ts): no repeated labels; the end labels are anchored inward so none is clipped.
+  const span = W - L - R;
+  const ticks = niceTicks(lo, hi)
+    .map(({ value, label }) => {
+      const x = L + ((value - lo) / (hi - lo)) * span;
+      const anchor = x - L < 14 ? 'start' : W - R - x < 14 ? 'end' : 'middle';
+      return `<line x1="${x.toFixed(1)}" y1="${H - B}" x2="${x.toFixed(1)}" y2="${H - B + 4}"/><text x="${x.toFixed(1)}" y="${H - B + 16}" text-anchor="${anchor}">${label}</text>`;
     })
     .join('');
   return `<svg class="plot" viewBox="0 0 ${W} ${H}" role="img" aria-label="${escapeHtml(label)} distribution">
@@ -126,7 +133,7 @@ export function renderReport(
     ['compressed in this run', String(rows.filter((r) => r.status === 'ok').length)],
     ['kept from an earlier run', String(rows.filter((r) => r.status === 'kept').length)],
     ['failed', String(failed.length)],
-    ['skipped (not regular files)', String(skipped.length)],
+    ['skipped (not scans, or not regular files)', String(skipped.length)],
     ['input files', fmtBytes(inSum)],
     ['raw samples', fmtBytes(rawSum)],
     ['written (.rkf)', fmtBytes(outSum)],
@@ -167,7 +174,7 @@ export function renderReport(
     ? `<ol>${failed.map((r) => `<li><code>${escapeHtml(r.path)}</code> — <span class="err">${escapeHtml(r.error?.message ?? 'failed')}</span></li>`).join('')}</ol>`
     : '<p>No failures.</p>';
   const skippedList = skipped.length
-    ? `<h2>Skipped (${skipped.length})</h2><p class="muted">Not regular files: listed, never opened, not counted as failures.</p><ul>${skipped.map((r) => `<li><code>${escapeHtml(r.path)}</code> — ${escapeHtml(r.note ?? 'not a regular file')}</li>`).join('')}</ul>`
+    ? `<h2>Skipped (${skipped.length})</h2><p class="muted">Not scans (read, not an image) or not regular files (never opened): listed, not counted as failures.</p><ul>${skipped.map((r) => `<li><code>${escapeHtml(r.path)}</code> — ${escapeHtml(r.note ?? 'not a regular file')}</li>`).join('')}</ul>`
     : '';
   const warnings = info.warnings?.length
     ? `<h2>Warnings</h2><ul>${info.warnings.map((w) => `<li>${escapeHtml(w)}</li>`).join('')}</ul>`
@@ -180,7 +187,12 @@ export function renderReport(
 <p class="muted">${info.inDir ? `Input <code>${escapeHtml(info.inDir)}</code> · ` : ''}${info.outDir ? `output <code>${escapeHtml(info.outDir)}</code> · ` : ''}written ${escapeHtml(new Date().toISOString())}</p>
 <p class="caution">${escapeHtml(LOSSY_CAUTION)}</p>
 <h2>Totals</h2><div class="totals">${totals.map(([k, v]) => `<div><span class="muted">${escapeHtml(k)}</span><b>${escapeHtml(v)}</b></div>`).join('')}</div>
-<h2>Distributions</h2><div class="plots">${histogramSvg(ratios, 'compression ratio', 'raw ÷ written')}${histogramSvg(finitePsnr, 'PSNR', 'dB')}</div>
+${info.collection ? collectionSection(rows, info.collection) : ''}
+<h2>Distributions</h2><div class="plots">${histogramSvg(ratios, 'compression ratio', 'raw ÷ written')}${histogramSvg(finitePsnr, 'PSNR', 'dB')}${histogramSvg(
+    good.map((r) => (r.bytes ?? 0) / 1e3),
+    'file size',
+    'kB',
+  )}</div>
 <h2>Failures (${failed.length})</h2>${failures}
 ${skippedList}
 <h2>Lowest PSNR (${worst.length})</h2>${pairs ? `<div class="pairs">${pairs}</div>` : '<p>No compressed files.</p>'}

@@ -54,7 +54,8 @@ export async function resumeState(
       (prev.status === 'ok' || prev.status === 'kept') &&
       prev.output === f.output &&
       prev.bytes === size &&
-      prev.settings === run.settings &&
+      // A collection's rows add their own cap: `total=… favour=… tile=… bytes=N`.
+      (prev.settings === run.settings || prev.settings?.startsWith(`${run.settings} bytes=`)) &&
       prev.fileSha256
     ) {
       try {

@@ -1,7 +1,8 @@
 /**
  * What a batch run takes and gives (`runBatch` in run.ts), and the context every step of one run reads.
  */
-import type { BatchEvent, BatchRow, BatchSummary, CompressOptions, Shard } from '../../contract';
+import type { BatchEvent, BatchRow, BatchSummary, CompressOptions, Shard, TotalSize } from '../../contract';
+import type { Favour } from './allocate';
 import type { Plan } from './plan';
 import type { BatchFiles } from './summary';
 import type { BatchCounts } from './tally';
@@ -37,6 +38,25 @@ export interface BatchRunOptions {
   report?: string;
   /** Built worker file (dist/workers/batch.js). */
   workerFile: string | URL;
+  /**
+   * `--total`: the .rkf files together take at most this (docs/cli.md, batch). `compress.budget` is then
+   * ignored: each file gets a byte budget from the plan.
+   */
+  total?: TotalSize;
+  /** How the total is shared: `floor` (equal quality, default) or `mean` (equal slopes). */
+  favour?: Favour;
+  /** `--min-psnr` with `--total`: refuse, before writing anything, a total that cannot give every file this. */
+  minPsnr?: number;
+  /** `--survey`: measure the files' rate–quality curves and write the survey manifest only. */
+  surveyOnly?: boolean;
+  /** `--plan plan.json`: encode each file at the bytes this shared plan allots (made by `batch --plan`). */
+  planFile?: string;
+  /** Called when a file is handed to a worker (the app shows its row as it starts). */
+  onFileStart?: (path: string) => void;
+  /** `--total`: called as each file's survey ends (`done` of `total`). */
+  onSurvey?: (done: number, total: number) => void;
+  /** Called with one line of news about the survey and the plan. */
+  onNote?: (text: string) => void;
   /** Called for every event (start, each file, end). */
   onEvent?: (e: BatchEvent) => void;
   /** Called when a job reports progress, with bytes of input finished so far. */
@@ -53,6 +73,8 @@ export interface BatchResult {
   /** Remarks that lose nothing, e.g. a stale lock of a dead run that was taken over. */
   notices: string[];
   interrupted: boolean;
+  /** `--total` or `--plan`: the plan's figures. */
+  collection?: import('./collection').CollectionInfo;
 }
 
 /** What every step of one run reads; `warnings` and `notices` collect as it goes. */
@@ -69,4 +91,10 @@ export interface Run {
   warnings: string[];
   notices: string[];
   started: number;
+  /** `--total` or `--plan`: the plan's figures, for the summary and the report. */
+  collection?: import('./collection').CollectionInfo;
+  /** `--plan plan.json`: the shared plan, read when the run starts. */
+  sharedPlan?: import('./plan-file').SharedPlan;
+  /** `--total` or `--plan`: each file's byte cap. */
+  allotter?: import('./allot').Allotter;
 }

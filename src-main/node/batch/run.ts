@@ -12,6 +12,7 @@ import { dirname, join, resolve } from 'node:path';
 import { type BatchRow, shardText, toErrorPayload, UsageError } from '../../contract';
 import { withLibvipsThreads } from '../image/libvips-threads';
 import { writeFileAtomic } from '../io/atomic';
+import { collectionSettings, prepareCollection } from './collection';
 import { compressFiles } from './dispatch';
 import { acquireBatchLock, type BatchLock } from './lock';
 import { manifestBase, rowsToCsv, writeManifest } from './manifest';
@@ -54,7 +55,7 @@ async function startRun(o: BatchRunOptions): Promise<Run> {
       throw new UsageError(
         `the ${what} ${p} would be written inside the input folder ${inDir}; batch never writes there — choose another path`,
       );
-  return {
+  const run: Run = {
     o,
     inDir,
     outDir,
@@ -68,7 +69,12 @@ async function startRun(o: BatchRunOptions): Promise<Run> {
     notices: [],
     started,
   };
+  if (isCollection(o)) run.settings = await collectionSettings(run);
+  return run;
 }
+
+/** `--total`, `--survey` or `--plan`: the two-pass collection run (collection.ts). */
+const isCollection = (o: BatchRunOptions) => Boolean(o.total || o.surveyOnly || o.planFile);
 
 /** Take the manifest's lock. A folder that cannot be written is left to the manifest's own warning. */
 async function lockManifest(run: Run): Promise<BatchLock | undefined> {
@@ -96,7 +102,10 @@ async function runLocked(run: Run): Promise<BatchResult> {
   const resume: ResumeState = o.resume
     ? await resumeState(plan.files, { ...run, manifest: run.files.manifest })
     : { kept: new Map(), overwrite: new Set(), verify: new Set() };
-  const todo = plan.files.filter((f) => !resume.kept.has(f.path));
+  // A collection's caps are planned for files without a standing row; an output with no row is made again.
+  if (isCollection(o)) for (const p of resume.verify) resume.overwrite.add(p);
+  if (isCollection(o)) resume.verify.clear();
+  let todo = plan.files.filter((f) => !resume.kept.has(f.path));
   const tally = new Tally(
     o,
     plan.files.length + plan.skipped.length,
@@ -117,6 +126,12 @@ async function runLocked(run: Run): Promise<BatchResult> {
   for (const f of plan.files) {
     const k = resume.kept.get(f.path);
     if (k) tally.emit(tally.add(k));
+  }
+  if (isCollection(o)) {
+    const next = await prepareCollection(run, todo, tally);
+    if (!next) return finishRun(run, tally.rows, false);
+    todo = next.todo;
+    run.allotter = next.allotter;
   }
   if (o.dryRun) {
     for (const f of todo) tally.emit(tally.add(baseRow(f, shardLabel)));
@@ -139,7 +154,7 @@ async function finishRun(
     run.plan.files.length + run.plan.skipped.length,
     performance.now() - run.started,
   );
-  if (!o.dryRun) {
+  if (!o.dryRun && !o.surveyOnly) {
     // Kept rows from an interrupted run are still true; unstarted files simply have no row yet.
     try {
       await writeManifest(files.manifest, rows);
@@ -161,6 +176,7 @@ async function finishRun(
         shards: [run.shardLabel],
         elapsedMs: summary.elapsedMs,
         warnings,
+        collection: run.collection,
       };
       await writeReport(files.report, rows, info, thumbs);
       summary.report = files.report;
@@ -169,5 +185,5 @@ async function finishRun(
     }
   }
   o.onEvent?.({ event: 'end', summary });
-  return { summary, rows, warnings, notices: run.notices, interrupted };
+  return { summary, rows, warnings, notices: run.notices, interrupted, collection: run.collection };
 }

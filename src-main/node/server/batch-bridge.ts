@@ -30,16 +30,31 @@ export async function runBatchJob(
   progress: (e: BatchProgress) => void,
   workersDir: string,
 ): Promise<{ files: BatchFileStatus[]; reportPath?: string; cancelled: boolean }> {
+  const count = { done: 0, total: 0 };
   const r = await runBatch({
     inDir: req.input,
     outDir: req.output,
     compress: { budget: req.budget, tile: req.tile },
     force: req.force,
+    total: req.total,
+    dryRun: req.total ? req.dryRun : undefined,
     jobs: Math.max(1, Math.min(2, availableParallelism() - 1)),
     libvipsThreads: 1,
     workerFile: join(workersDir, 'batch.js'),
     signal,
+    // Rows appear as files start (issue #14), and the survey and plan say what they do.
+    onFileStart: (file) => progress({ stage: 'running', done: count.done, total: count.total, file }),
+    onSurvey: (done, total) =>
+      progress({
+        stage: 'planning',
+        done,
+        total,
+        message: `measuring scan ${done} of ${total} to plan the total`,
+      }),
+    onNote: (message) => progress({ stage: 'planning', done: count.done, total: count.total, message }),
     onEvent: (e) => {
+      if (e.event === 'start') count.total = e.total;
+      if (e.event === 'file') count.done = e.done;
       if (e.event === 'start') progress({ stage: 'started', done: 0, total: e.total });
       else if (e.event === 'file')
         progress({
@@ -58,8 +73,9 @@ export async function runBatchJob(
     file: row.path,
     state: STATE[row.status] ?? 'failed',
     message: row.error?.message ?? (row.status === 'skipped' ? row.note : undefined),
-    outputBytes: row.bytes,
-    psnr: row.psnr,
+    // A planned row (a total's dry run) carries its planned bytes and predicted PSNR.
+    outputBytes: row.bytes ?? row.plan?.bytes,
+    psnr: row.psnr ?? row.plan?.psnr,
   }));
   return { files, reportPath: r.summary.report, cancelled: r.interrupted };
 }

@@ -7,7 +7,8 @@ import { parentPort } from 'node:worker_threads';
 import { toErrorPayload } from '../../contract';
 import { expandCheck } from '../batch/check';
 import { hashFile, loadCompressor, makeOutputFolder } from '../batch/codec';
-import { type BatchJobResult, type BatchWork, isThumbJob } from '../batch/job';
+import { type BatchJobResult, type BatchWork, isSurveyJob, isThumbJob } from '../batch/job';
+import { runSurveyJob } from '../batch/survey-job';
 import { pairFromSamples, type ThumbPair, thumbnailPair } from '../batch/thumbs';
 import { verifyByHeader } from '../batch/verify';
 import { decodeImage, probeImage } from '../image/decode';
@@ -25,6 +26,10 @@ port.on('message', async (msg: { type: string; id: number; payload: BatchWork })
   }
   const started = performance.now();
   try {
+    if (isSurveyJob(payload)) {
+      port.postMessage({ type: 'done', id, result: await runSurveyJob(payload) });
+      return;
+    }
     const fileSha256 = await hashFile(payload.input);
     // Header check first: empty, non-image, unsupported depth and over-limit files fail here, fast and with one wording.
     await probeImage(payload.input, { page: payload.options.page, pixelLimit: payload.options.pixelLimit });

@@ -15,10 +15,19 @@ import {
 import { DEFAULT_TIMEOUT_MS } from '../../batch/run-options';
 import { DEFAULT_PIXEL_LIMIT } from '../../image/decode';
 import { BUDGET_OPTION_NAMES, BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from './budget-options';
+import {
+  COLLECTION_OPTIONS,
+  type CollectionArgs,
+  isPlanMaking,
+  type ParsedPlan,
+  parseCollectionArgs,
+  parsePlanArgs,
+} from './collection-args';
 import { flags, type OptionSpec, parseCommandArgs } from './command';
 
 const BATCH_OPTIONS: OptionSpec = {
   ...BUDGET_OPTIONS,
+  ...COLLECTION_OPTIONS,
   ...flags(
     'output tile pixel-limit report manifest timeout shard',
     'resume force dry-run json expand-check merge',
@@ -31,7 +40,7 @@ const BATCH_OPTIONS: OptionSpec = {
 /** Default tile choice when --tile is not given. */
 const DEFAULT_TILE: TileChoice = 'auto';
 
-export interface ParsedBatch {
+export interface ParsedBatch extends CollectionArgs {
   mode: 'run';
   inDir: string;
   outDir: string;
@@ -62,14 +71,17 @@ export interface ParsedMerge {
 const str = (v: unknown) => (typeof v === 'string' ? v : undefined);
 
 /** Parse `rankfold batch …` argv. @throws UsageError */
-export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
+export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge | ParsedPlan {
   const { values, positionals } = parseCommandArgs('batch', argv, BATCH_OPTIONS, Number.POSITIVE_INFINITY);
+  if (!values.merge && isPlanMaking(values)) return parsePlanArgs(values, positionals);
   if (values.merge) {
     if (!positionals.length)
       throw new UsageError('--merge: give one or more shard manifests (rankfold-manifest-*.jsonl)');
-    const bad = [...BUDGET_OPTION_NAMES, 'tile', 'resume', 'shard', 'dry-run', 'expand-check', 'jobs'].filter(
-      (k) => values[k] !== undefined,
-    );
+    const bad = [
+      ...BUDGET_OPTION_NAMES,
+      ...['tile', 'resume', 'shard', 'dry-run', 'expand-check', 'jobs'],
+      ...['total', 'favour', 'plan', 'survey', 'reserve'],
+    ].filter((k) => values[k] !== undefined);
     if (bad.length)
       throw new UsageError(
         `--merge only joins manifests; it does not take ${bad.map((b) => `--${b}`).join(', ')}`,
@@ -93,10 +105,14 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
   if (!outDir) throw new UsageError('give an output folder with -o OUT_DIR (outside the input folder)');
   if (values.resume && values.force)
     throw new UsageError('--resume keeps matching outputs and --force rewrites them all; give one of them');
-  const [budget] = parseBudgetOptions(values, {
-    missing:
-      'give one budget: --rank K, --budget SIZE (e.g. 250kB or 5%), --bpp X, --min-psnr DB or --min-ssim S',
-  });
+  const collection = parseCollectionArgs(values);
+  // A collection plans each file's byte budget itself; this one only stands in until it does.
+  const [budget] = collection
+    ? [{ kind: 'percent' as const, percent: 100 }]
+    : parseBudgetOptions(values, {
+        missing:
+          'give one budget: --rank K, --budget SIZE (e.g. 250kB or 5%), --bpp X, --min-psnr DB or --min-ssim S, or a --total SIZE for the whole folder',
+      });
   const compress: CompressOptions = {
     budget,
     tile: values.tile === undefined ? DEFAULT_TILE : parseTileOption(str(values.tile)),
@@ -118,6 +134,7 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge {
   if (manifest !== undefined && !/\.jsonl$/i.test(manifest))
     throw new UsageError(`--manifest takes a .jsonl file name, not ${JSON.stringify(manifest)}`);
   return {
+    ...collection,
     mode: 'run',
     inDir: positionals[0],
     outDir,

@@ -6,8 +6,10 @@
  */
 import type { BatchEvent, BatchRow, BatchSummary } from '../../../contract';
 import { LOSSY_CAUTION, OPTIONS, rangeText } from '../../../contract';
+import { collectionLines, mergedTotalLines, planLines } from '../../batch/collection-text';
 import { rowToJson } from '../../batch/manifest';
 import { mergeManifests } from '../../batch/merge';
+import { makeSharedPlan } from '../../batch/plan-file';
 import { type ProgressView, terminalProgress } from '../../batch/progress';
 import { runBatch } from '../../batch/run';
 import { batchWorkerFile } from '../../batch/worker-path';
@@ -18,13 +20,17 @@ const HELP = `rankfold batch: compress a whole folder unattended, with a manifes
 
 Usage:
   rankfold batch IN_DIR -o OUT_DIR (--rank K | --budget SIZE | --bpp X | --min-psnr DB | --min-ssim S) [options]
+  rankfold batch IN_DIR -o OUT_DIR --total SIZE [--favour floor|mean] [--min-psnr DB] [options]
+  rankfold batch IN_DIR -o OUT_DIR --survey [--shard I/N]
+  rankfold batch --plan SURVEY.json… --total SIZE [--favour floor|mean] [--min-psnr DB] [--reserve P] -o plan.json
+  rankfold batch IN_DIR -o OUT_DIR --plan plan.json [--shard I/N]
   rankfold batch --merge MANIFEST.jsonl… [-o DIR] [--report FILE.html] [--manifest FILE.jsonl]
 
 Walks IN_DIR recursively (hidden files and folders skipped) and writes one .rkf per input under OUT_DIR,
 mirroring the folders. Nothing is ever written inside IN_DIR; OUT_DIR may not be IN_DIR or inside it.
 Entries that are not regular files (FIFOs, devices, sockets, links to them or to folders, broken or
-looping links) are never opened: they are listed as skipped, with the reason, in the summary, manifest and
-report. One run at a time per manifest: a second run into the same OUT_DIR (same shard) is refused while the
+looping links) are never opened, and files that are not scans (a text file) are not compressed: both are
+listed as skipped, with the reason, in the summary, manifest and report. One run at a time per manifest: a second run into the same OUT_DIR (same shard) is refused while the
 first holds OUT_DIR/rankfold-manifest[-IofN].jsonl.lock; a lock left by a dead run on this host is taken over.
 
 Budget (exactly one, as for \`rankfold compress\`):
@@ -35,6 +41,15 @@ Budget (exactly one, as for \`rankfold compress\`):
   --min-ssim S         smallest file with at least this SSIM (${rangeText(OPTIONS.minSsim)})
   --tile N|auto|0      tile size ${rangeText(OPTIONS.tile)}, auto, or 0 for whole planes (default auto)
   --pixel-limit N      refuse inputs with more pixels (default 268402689)
+
+A total for the whole folder (instead of a budget per file):
+  --total SIZE         the .rkf files together take at most SIZE: 2TB, 40GB, 250MB, 120000 (bytes) or 5% of
+                       the raw samples of all inputs (kB, MB, GB, TB are decimal: 1 GB = 10^9 bytes)
+  --favour floor|mean  floor (default): the highest PSNR every file reaches; mean: the highest mean PSNR
+  --min-psnr DB        with --total, a guard: stop before writing anything if the floor would be below DB
+  --survey             measure each file's rate–quality curve only (OUT_DIR/rankfold-survey[-IofN].json)
+  --plan FILE…         with --total and -o plan.json: plan from survey files; alone: encode from that plan
+  --reserve P          per cent of the total a shared plan holds back (${rangeText(OPTIONS.reserve, true)}, default ${OPTIONS.reserve.default})
 
 Batch:
   -j, --jobs N         worker threads (default: the number of cores)
@@ -62,11 +77,22 @@ ${LOSSY_CAUTION}
 function humanLine(e: Extract<BatchEvent, { event: 'file' }>): string {
   const n = `[${e.done}/${e.total}]`;
   if (e.status === 'failed') return `${n} FAILED ${e.path}: ${e.error?.message ?? 'unknown error'}\n`;
-  if (e.status === 'planned') return `${n} would write ${e.output}  ←  ${e.path}\n`;
+  if (e.status === 'planned' && e.plan)
+    return `${n} would write ${e.output}  ←  ${e.path}: ${e.plan.bytes} bytes, predicted PSNR ${e.plan.psnr.toFixed(2)} dB\n`;
+  if (e.status === 'planned')
+    return `${n} would ${e.note === 'surveyed' ? 'plan' : 'write'} ${e.output}  ←  ${e.path}\n`;
   if (e.status === 'skipped') return `${n} skipped ${e.note ?? e.path}\n`;
   const psnr =
     e.psnr === undefined ? '' : Number.isFinite(e.psnr) ? ` PSNR ${e.psnr.toFixed(2)} dB` : ' exact';
   return `${n} ${e.status === 'kept' ? 'kept' : 'ok'} ${e.path} → ${e.output}${e.ratio !== undefined ? ` ratio ${e.ratio.toFixed(2)}` : ''}${psnr}\n`;
+}
+
+/** `, 2 skipped (not regular files), 1 skipped (not scans)`: special entries are never opened; non-scans were. */
+function skippedText(rows: BatchRow[]): string {
+  const skipped = rows.filter((r) => r.status === 'skipped');
+  const special = skipped.filter((r) => r.output === '').length;
+  const other = skipped.length - special;
+  return `${special ? `, ${special} skipped (not regular files)` : ''}${other ? `, ${other} skipped (not scans)` : ''}`;
 }
 
 function summaryText(
@@ -77,7 +103,7 @@ function summaryText(
   notices: string[] = [],
 ): string {
   const lines = [
-    `batch: ${s.total} file${s.total === 1 ? '' : 's'}: ${s.ok} compressed, ${s.kept} kept, ${s.failed} failed${s.skipped ? `, ${s.skipped} skipped (not regular files)` : ''}${s.planned ? `, ${s.planned} planned (dry run)` : ''} in ${(s.elapsedMs / 1000).toFixed(1)} s` +
+    `batch: ${s.total} file${s.total === 1 ? '' : 's'}: ${s.ok} compressed, ${s.kept} kept, ${s.failed} failed${skippedText(rows)}${s.planned ? `, ${s.planned} planned (dry run)` : ''} in ${(s.elapsedMs / 1000).toFixed(1)} s` +
       (s.outputBytes
         ? `; ${s.outputBytes >= 1e6 ? `${(s.outputBytes / 1e6).toFixed(2)} MB` : `${(s.outputBytes / 1e3).toFixed(1)} kB`} written`
         : ''),
@@ -94,7 +120,11 @@ function summaryText(
   }
   const skipped = rows.filter((r) => r.status === 'skipped');
   if (skipped.length) {
-    lines.push('Skipped (not regular files, never opened):');
+    lines.push(
+      skipped.every((r) => r.output === '')
+        ? 'Skipped (not regular files, never opened):'
+        : 'Skipped (not scans, or not regular files and never opened):',
+    );
     for (const r of skipped) lines.push(`  ${r.note ?? r.path}`);
   }
   for (const w of warnings) lines.push(`warning: ${w}`);
@@ -109,12 +139,24 @@ async function run(argv: string[], io: CliIO): Promise<number> {
   const args = parseBatchArgs(argv);
   if (args.mode === 'merge') {
     const r = await mergeManifests(args.manifests, args);
+    const total = mergedTotalLines(r.rows);
     if (args.json)
       io.stdout(`${JSON.stringify({ event: 'end', summary: r.summary, warnings: r.warnings })}\n`);
-    else io.stderr(summaryText(r.summary, r.warnings, false, r.rows));
-    return r.summary.failed > 0 || r.warnings.length > 0 ? 2 : 0;
+    else
+      io.stderr(
+        `${summaryText(r.summary, r.warnings, false, r.rows)}${total.lines.map((l) => `${l}\n`).join('')}`,
+      );
+    return r.summary.failed > 0 || r.warnings.length > 0 || total.over ? 2 : 0;
   }
-  const workerFile = args.dryRun ? '' : batchWorkerFile();
+  if (args.mode === 'plan') {
+    const plan = await makeSharedPlan(args);
+    if (args.json) io.stdout(`${JSON.stringify({ event: 'plan', ...plan, files: plan.files.length })}\n`);
+    else io.stderr(`${planLines(plan).join('\n')}\n`);
+    return 0;
+  }
+  // A collection's dry run still surveys (trial encodes on the workers); it writes nothing.
+  const surveys = Boolean(args.total || args.surveyOnly);
+  const workerFile = args.dryRun && !surveys ? '' : batchWorkerFile();
   if (!args.json && !args.dryRun) io.stderr(`${LOSSY_CAUTION}\n`);
   let bar: ProgressView | undefined;
   const controller = new AbortController();
@@ -138,9 +180,14 @@ async function run(argv: string[], io: CliIO): Promise<number> {
         }
       },
       onProgress: (p) => bar?.update(p),
+      onNote: (text) => {
+        if (!args.json) io.stderr(`${text}\n`);
+      },
     });
     bar?.stop();
     io.stderr(summaryText(result.summary, result.warnings, result.interrupted, result.rows, result.notices));
+    if (result.collection && !args.json)
+      io.stderr(`${collectionLines(result.collection, result.rows).join('\n')}\n`);
     if (result.summary.total === 0 && !args.json)
       io.stderr(
         'batch: no input files found (hidden files and folders are skipped; check IN_DIR and --include/--exclude)\n',

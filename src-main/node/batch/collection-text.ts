@@ -1,0 +1,87 @@
+/**
+ * The words a collection run (`--total`, `--plan`) prints when it ends, and those `batch --plan` prints:
+ * the total against what was written, the floor, the spread of quality, the reserve, and the comparison with
+ * one ratio for all files. Shared by the CLI summary and the report.
+ */
+import type { BatchRow } from '../../contract';
+import type { CollectionInfo } from './collection';
+import { type SharedPlan, sizeText } from './plan-file';
+
+const db = (x: number) => (Number.isFinite(x) ? `${x.toFixed(2)} dB` : 'exact');
+
+/** Lowest, median and highest of a list, as text. */
+function spreadText(values: number[]): string {
+  if (!values.length) return 'none';
+  const v = values.slice().sort((a, b) => a - b);
+  return `lowest ${db(v[0])}, median ${db(v[v.length >> 1])}, highest ${db(v[v.length - 1])}`;
+}
+
+/** Lines for the end of a collection run. */
+export function collectionLines(c: CollectionInfo, rows: BatchRow[]): string[] {
+  const written = rows.filter((r) => r.status === 'ok' || r.status === 'kept');
+  const planned = rows.filter((r) => r.status === 'planned' && r.plan);
+  const lines: string[] = [];
+  if (!c.total) {
+    lines.push(
+      `survey: ${rows.filter((r) => r.note === 'surveyed').length} files measured in ${(c.surveyMs / 1000).toFixed(1)} s${c.surveyFile ? `, written to ${c.surveyFile}` : ''}`,
+    );
+    return lines;
+  }
+  if (planned.length) {
+    const sum = planned.reduce((s, r) => s + r.plan!.bytes, 0);
+    lines.push(
+      `plan (dry run, nothing written): predicted floor ${db(c.floor)}; ${sum} bytes (${sizeText(sum)}) of the total ${c.total} (${c.totalText})`,
+    );
+    lines.push(`predicted PSNR: ${spreadText(planned.map((r) => r.plan!.psnr))}`);
+  } else {
+    const sum = written.reduce((s, r) => s + (r.bytes ?? 0), 0);
+    const ok = sum <= c.total;
+    lines.push(
+      `total: ${sum} bytes (${sizeText(sum)}) written of ${c.total} (${c.totalText})${ok ? ', within the total' : ', OVER THE TOTAL'}`,
+    );
+    lines.push(
+      `floor: predicted ${db(c.floor)}; achieved PSNR ${spreadText(written.filter((r) => r.psnr !== undefined).map((r) => r.psnr!))}`,
+    );
+  }
+  if (c.reserve)
+    lines.push(`reserve: ${c.reserve} bytes (${sizeText(c.reserve)}) held back from the plan for drift`);
+  if (c.oneRatioWorst !== undefined)
+    lines.push(
+      `one ratio for all at the same total: worst file predicted at ${db(c.oneRatioWorst)} (this plan: ${db(c.floor)})`,
+    );
+  if (c.oneRatioBytes !== undefined && c.oneRatioBytes > c.planned)
+    lines.push(
+      `one ratio for all would need about ${sizeText(c.oneRatioBytes)} to give every file the floor: ${sizeText(c.oneRatioBytes - c.planned)} more than this plan`,
+    );
+  for (const x of c.excluded) lines.push(`left out of the plan: ${x.message}`);
+  return lines;
+}
+
+/** Lines `batch --plan … -o plan.json` prints. */
+export function planLines(p: SharedPlan): string[] {
+  return [
+    `plan: ${p.files.length} files into ${p.totalText} (${p.total} bytes): predicted floor ${db(p.floor)}, ${p.planned} bytes planned`,
+    `reserve: ${p.reserve} bytes (${sizeText(p.reserve)}) held back for drift`,
+    `predicted PSNR: ${spreadText(p.files.map((f) => f.psnr))}`,
+    ...p.excluded.map((x) => `left out of the plan: ${x.message}`),
+  ];
+}
+
+/**
+ * `batch --merge` of shards that encoded one shared plan: the sum written against the plan's total.
+ * Empty when the rows carry no plan. `over` is true when the sum is above the total.
+ */
+export function mergedTotalLines(rows: BatchRow[]): { lines: string[]; over: boolean } {
+  const planned = rows.filter((r) => r.plan);
+  if (!planned.length) return { lines: [], over: false };
+  const total = planned[0].plan!.total;
+  const written = rows.filter((r) => r.status === 'ok' || r.status === 'kept');
+  const sum = written.reduce((s, r) => s + (r.bytes ?? 0), 0);
+  return {
+    lines: [
+      `total: ${sum} bytes (${sizeText(sum)}) written of ${total} (${sizeText(total)})${sum <= total ? ', within the total' : ', OVER THE TOTAL'}`,
+      `achieved PSNR: ${spreadText(written.filter((r) => r.psnr !== undefined).map((r) => r.psnr!))}`,
+    ],
+    over: sum > total,
+  };
+}
