@@ -112,3 +112,24 @@ export function poissonGaussian(truth: Gray, a: number, b: number, seed: number,
   const sb = Math.sqrt(Math.max(0, b));
   return truth.data.map((x) => Math.min(max, Math.max(0, Math.round(a * draw(x / a) + sb * g()))));
 }
+
+/** Piecewise-constant bands of random widths in [minWidth, maxWidth] px, zero mean, the given RMS exactly. */
+export function bandProfile(length: number, rms: number, minWidth: number, maxWidth: number, seed: number) {
+  const r = rng(seed);
+  const g = gaussian(rng(seed + 1));
+  const p = new Float64Array(length);
+  for (let x = 0; x < length; ) {
+    const w = Math.round(minWidth + (maxWidth - minWidth) * r());
+    const v = g();
+    for (let k = 0; k < w && x < length; k++, x++) p[x] = v;
+  }
+  const mean = p.reduce((a, b) => a + b, 0) / length;
+  let s = 0;
+  for (let i = 0; i < length; i++) {
+    p[i] -= mean;
+    s += p[i] * p[i];
+  }
+  const k = rms / Math.sqrt(s / length);
+  for (let i = 0; i < length; i++) p[i] *= k;
+  return p;
+}
