@@ -40,6 +40,8 @@ const MIN_STRENGTH_8BIT = 0.3;
 const MIN_STEPS = 2;
 /** Bands narrower than this are the narrow pass's (its window is 65 px; chosen here). */
 const MIN_BAND_WIDTH = 24;
+/** Same-sign steps this close are one edge spread over neighbouring pixels (a soft band edge; chosen here). */
+const EDGE_SPREAD = 2;
 /**
  * The profile must remove at least this share of its own total variation from the direct per-position
  * levels (chosen here): a missed edge would leave a whole stretch offset, which adds variation instead.
@@ -109,13 +111,15 @@ export function wideBandProfile(
       Math.abs(step[x]) > STEP_SE * se[x] && agree[x] === 1 && spread[x] <= MAX_STEP_SPREAD * typicalSpread
         ? 1
         : 0;
-  // An opposite step within MIN_BAND_WIDTH px makes a thin feature (a ruled line, a grid line, a narrow
-  // stripe): content, or the narrow pass's job. Both are dropped.
+  // A band edge stands alone: another step within MIN_BAND_WIDTH px (other than the same edge spread over
+  // EDGE_SPREAD px) makes a thin feature (a ruled line, a grid line, a narrow stripe) or a periodic pattern
+  // (the narrow pass's job, or content). Such steps are dropped.
   const thin = new Uint8Array(step.length);
   for (let x = 0; x < step.length; x++)
     if (kept[x])
       for (let d = 1; d < MIN_BAND_WIDTH && x + d < step.length; d++)
-        if (kept[x + d] && Math.sign(step[x + d]) !== Math.sign(step[x])) thin[x] = thin[x + d] = 1;
+        if (kept[x + d] && (d > EDGE_SPREAD || Math.sign(step[x + d]) !== Math.sign(step[x])))
+          thin[x] = thin[x + d] = 1;
   const profile = new Float64Array(lineLen);
   let steps = 0;
   let err2 = 0;
@@ -176,5 +180,34 @@ function explainsLevels(
     tvRest += Math.abs(c[x + 1] - s[x + 1] - c[x] + s[x]);
     tvS += Math.abs(s[x + 1] - s[x]);
   }
-  return tvC - tvRest >= MIN_TV_EXPLAINED * tvS;
+  // And its levels must be in c: after removing a straight-line trend from both, subtracting s must take
+  // away at least half of its own energy from c (an edge summed without its partner leaves a whole stretch
+  // offset that c does not have, and fails here).
+  const cd = detrend(c);
+  const sd = detrend(s);
+  let cc = 0;
+  let rr = 0;
+  let ss = 0;
+  for (let x = 0; x < lineLen; x++) {
+    cc += cd[x] * cd[x];
+    rr += (cd[x] - sd[x]) ** 2;
+    ss += sd[x] * sd[x];
+  }
+  return tvC - tvRest >= MIN_TV_EXPLAINED * tvS && rr <= cc - 0.5 * ss;
+}
+
+/** a minus its least-squares straight line (common practice). */
+function detrend(a: Float64Array): Float64Array {
+  const n = a.length;
+  const xm = (n - 1) / 2;
+  let sy = 0;
+  let sxy = 0;
+  let sxx = 0;
+  for (let x = 0; x < n; x++) {
+    sy += a[x];
+    sxy += (x - xm) * a[x];
+    sxx += (x - xm) ** 2;
+  }
+  const slope = sxx > 0 ? sxy / sxx : 0;
+  return a.map((v, x) => v - sy / n - slope * (x - xm));
 }
