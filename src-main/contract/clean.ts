@@ -81,7 +81,7 @@ export interface NoisePlaneReport {
 }
 
 /** One level set of the noise fit: mean intensity, measured σ, blocks used, and whether the fit kept it. */
-export interface NoiseFitPoint {
+interface NoiseFitPoint {
   level: number;
   sigma: number;
   count: number;

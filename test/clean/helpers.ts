@@ -89,7 +89,7 @@ export function rounded(p: Float32Array, max = 255): Float32Array {
  * One Poisson(λ) sample: Knuth's multiplication method below λ = 30 (D. E. Knuth, TAOCP vol. 2, §3.4.1),
  * the normal approximation N(λ, λ) rounded above (common practice; its variance is λ + 1/12).
  */
-export function poisson(r: () => number, g: () => number): (lambda: number) => number {
+function poisson(r: () => number, g: () => number): (lambda: number) => number {
   return (lambda) => {
     if (lambda <= 0) return 0;
     if (lambda >= 30) return Math.max(0, Math.round(lambda + Math.sqrt(lambda) * g()));

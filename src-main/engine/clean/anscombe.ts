@@ -71,7 +71,7 @@ export function closedFormInverse(D: number, s2: number): number {
 }
 
 /** The estimate of the expectation x from a denoised transformed value. */
-export function gatInverse(value: number, s: Stabiliser): number {
+function gatInverse(value: number, s: Stabiliser): number {
   return s.a * closedFormInverse(value / s.scale, s.s2) + s.offset;
 }
 

@@ -22,7 +22,7 @@
 import { exactMedian, groupedMedian, haarBlocks, MAD_TO_SIGMA } from './noise-estimate';
 
 /** One level set: its mean intensity, the noise σ measured there, and how many blocks gave it. */
-export interface NoiseLevelPoint {
+interface NoiseLevelPoint {
   level: number;
   sigma: number;
   count: number;
