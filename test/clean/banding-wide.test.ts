@@ -81,3 +81,12 @@ describe('wide bands, 50–200 px, RMS 4, noise σ 3', () => {
       expect(a.columns.wideSteps ?? 0).toBe(0);
     });
 });
+
+describe('edges next to the border are content', () => {
+  it('samples/film-plate-16bit.tif: its unexposed rebate (steps 18 px from each end) is not a wide band', async () => {
+    const d = await decodeImage('samples/film-plate-16bit.tif');
+    const a = analyseBanding(d.planes[0], d.width, d.height, 'auto', { maxValue: 65535 });
+    expect(a.rows.wideSteps ?? 0).toBe(0);
+    expect(a.columns.wideSteps ?? 0).toBe(0);
+  });
+});

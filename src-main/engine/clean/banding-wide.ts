@@ -40,6 +40,8 @@ const MIN_STRENGTH_8BIT = 0.3;
 const MIN_STEPS = 2;
 /** Bands narrower than this are the narrow pass's (its window is 65 px; chosen here). */
 const MIN_BAND_WIDTH = 24;
+/** Steps closer to either end of the line than this share of it (or MIN_BAND_WIDTH) are ignored (chosen here). */
+const BORDER_SHARE = 0.03;
 /** Same-sign steps this close are one edge spread over neighbouring pixels (a soft band edge; chosen here). */
 const EDGE_SPREAD = 2;
 /**
@@ -106,7 +108,9 @@ export function wideBandProfile(
   }
   const typicalSpread = medianInPlace(Float64Array.from(spread), spread.length);
   const kept = new Uint8Array(step.length);
-  for (let x = 0; x < step.length; x++)
+  // Steps next to the ends of the line are a plate rebate, a scan-bed edge or a page margin: content.
+  const border = Math.max(MIN_BAND_WIDTH, Math.round(BORDER_SHARE * lineLen));
+  for (let x = border; x < step.length - border; x++)
     kept[x] =
       Math.abs(step[x]) > STEP_SE * se[x] && agree[x] === 1 && spread[x] <= MAX_STEP_SPREAD * typicalSpread
         ? 1
