@@ -228,6 +228,9 @@ export function analyseBanding(
   return { direction, columns, rows, removeColumns, removeRows };
 }
 
+/** The wide pass (banding-wide.ts) is not part of cleaning yet; see addWideBands. */
+const WIDE_PASS_ENABLED: boolean = false;
+
 /**
  * Add the wide bands (banding-wide.ts) found in `rest` to the axis's profile `p`, in place: when detected, or
  * always when `forced`. Returns true when something was added. The report's strength and period then
@@ -242,6 +245,10 @@ function addWideBands(
   forced: boolean,
   maxValue: number,
 ): boolean {
+  // Not switched on yet: on clean samples (samples/colour-slide.png) the detector still takes content edges
+  // for band edges, and with a forced axis the sum with the narrow profile removes too little. Until both
+  // are fixed the wide pass stays out of cleaning (banding-wide.ts is tested on its own).
+  if (WIDE_PASS_ENABLED !== true || !forced) return false;
   const wide = wideBandProfile(rest, width, height, p.axis, maxValue);
   if (!(wide.detected || (forced && wide.steps > 0))) return false;
   for (let i = 0; i < p.profile.length; i++)
