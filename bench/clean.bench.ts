@@ -16,6 +16,7 @@ import { analyseBanding, medianOf, omega, subtractProfiles } from '../src-main/e
 import { eigenWorkspace, lcg32, smallGram, smallSymmetricEigen } from '../src-main/engine/linalg';
 import { decodeImage } from '../src-main/node/image/decode';
 import { cleanDecoded } from '../src-main/node/services/clean';
+import { poissonGaussianSection } from './clean-noise-model';
 
 const QUICK = process.env.RANKFOLD_BENCH_QUICK === '1';
 const outDir = process.env.RANKFOLD_BENCH_OUT ?? 'docs/bench';
@@ -128,7 +129,18 @@ for job in json.load(open(sys.argv[1])):
 print(json.dumps(res))
 `;
 
+/** scikit-image 0.19 from Debian, installed by apt-get when missing (never by npm test). */
 function skimageAvailable(): boolean {
+  if (skimageImports()) return true;
+  try {
+    execFileSync('apt-get', ['install', '-y', '-q', 'python3-skimage'], { stdio: 'ignore' });
+  } catch {
+    return false;
+  }
+  return skimageImports();
+}
+
+function skimageImports(): boolean {
   try {
     execFileSync(
       '/usr/bin/python3',
@@ -171,6 +183,12 @@ async function main() {
   log('');
   log(
     `Machine: ${cpus().length} × ${cpus()[0]?.model ?? 'unknown CPU'}, Node ${process.version}. Loaded machines give slower times; ratios are from the same run.`,
+  );
+  log('');
+  log(
+    `Load average at the start of this run: ${loadavg()
+      .map((v) => v.toFixed(1))
+      .join(', ')} on ${cpus().length} cores (the machine is shared; times are indicative).`,
   );
   log('');
   log('### Noise: PSNR gain against the truth (dB) and time');
@@ -258,6 +276,15 @@ async function main() {
     );
   }
   log('');
+  log(
+    'Published BM3D figures (Dabov et al., IEEE TIP 16(8), 2007, Table III) are not listed beside these: its test images (the 256×256',
+  );
+  log(
+    "Cameraman and House, and the 512×512 set) are not in test/fixtures. camera.png here is scikit-image's 512×512 camera, a",
+  );
+  log('different file, so a published figure for it would compare different images.');
+  log('');
+  await poissonGaussianSection(images, tmp, sk, log);
 
   // Banding
   log('### Banding: detection and removal');
@@ -279,6 +306,8 @@ async function main() {
     { label: 'column stripes RMS 3', cols: (n) => profile(n, 3, 11), rms: 3 },
     { label: 'column stripes RMS 8', cols: (n) => profile(n, 8, 12), rms: 8 },
     { label: 'row banding, period 12.5, RMS 4', rows: (n) => sine(n, 4, 12.5), rms: 4, period: 12.5 },
+    { label: 'wide column bands 50–200 px, RMS 4', cols: (n) => bands(n, 4, 21), rms: 4 },
+    { label: 'wide row bands 50–200 px, RMS 4', rows: (n) => bands(n, 4, 22), rms: 4 },
     { label: 'clean (no damage)', rms: 0 },
   ];
   for (const g of images.slice(0, QUICK ? 1 : 4))
@@ -428,7 +457,25 @@ async function main() {
 
 function profile(n: number, rms: number, seed: number): Float64Array {
   const g = gaussian(seed);
-  const p = Float64Array.from({ length: n }, () => g());
+  return profileFrom(
+    Float64Array.from({ length: n }, () => g()),
+    rms,
+  );
+}
+/** Piecewise-constant bands of random widths 50–200 px, zero mean, the given RMS (as test/clean/helpers.ts). */
+function bands(n: number, rms: number, seed: number): Float64Array {
+  const u = rng(seed);
+  const g = gaussian(seed + 1);
+  const p = new Float64Array(n);
+  for (let x = 0; x < n; ) {
+    const w = Math.round(50 + 150 * u());
+    const v = g();
+    for (let k = 0; k < w && x < n; k++, x++) p[x] = v;
+  }
+  return profileFrom(p, rms);
+}
+function profileFrom(p: Float64Array, rms: number): Float64Array {
+  const n = p.length;
   const mean = p.reduce((a, b) => a + b, 0) / n;
   let s = 0;
   for (let i = 0; i < n; i++) {

@@ -2,10 +2,12 @@
  * The Clean panel: sensor noise and banding settings, a run that shows the removed part first, buttons to
  * look at the cleaned scan, the removed part or the model again, the service's report and stripe profile.
  */
+
+import uPlot from 'uplot';
 import { type CleanSettings, decodeFactorSet } from '../src-main/contract';
 import { bind } from './bind';
 import { CLEANING_CAUTION } from './captions';
-import { type CleanRow, cleanReportRows } from './clean-report';
+import { type CleanRow, cleanReportRows, noiseFitSeries } from './clean-report';
 import type { Panes } from './panes';
 import { profilePlot } from './spectrum';
 import type { PageState, Showing } from './state';
@@ -72,6 +74,7 @@ export function setupCleanPanel(
       el.report.replaceChildren(reportTable(cleanReportRows(r.report)));
       el.report.dataset.done = 'true';
       profilePlot(el.profile, r.profile.columns, r.profile.rows);
+      noiseFitPlot(el.profile, r.report);
       for (const [b] of views) b.disabled = false;
       panes.showModel();
       panes.label();
@@ -113,4 +116,43 @@ function reportTable(rows: CleanRow[]): HTMLTableElement {
     tr.insertCell().textContent = r.value;
   }
   return table;
+}
+
+/**
+ * A small plot of the noise-model fit below the stripe profile: σ measured on each level set of the scan
+ * (dots; hollow where the fit dropped it) and the fitted σ(x) = √(a·x + b) (line). Its host is made here,
+ * once, after the profile's chart.
+ */
+function noiseFitPlot(after: HTMLElement, report: Record<string, unknown>): void {
+  let host = document.getElementById('clean-noise-fit');
+  if (!host) {
+    host = document.createElement('div');
+    host.id = 'clean-noise-fit';
+    host.className = 'chart small';
+    after.after(host);
+  }
+  host.replaceChildren();
+  const s = noiseFitSeries(report);
+  host.hidden = s === null;
+  if (!s) return;
+  const width = Math.max(220, Math.floor(host.getBoundingClientRect().width));
+  const dots = (stroke: string, fill: string) => ({ show: true, size: 5, stroke, fill });
+  new uPlot(
+    {
+      width,
+      height: 170,
+      title: s.title,
+      legend: { live: false },
+      scales: { x: { time: false } },
+      axes: [{ label: 'brightness, grey levels' }, { label: 'noise σ, grey levels' }],
+      series: [
+        {},
+        { label: 'measured', stroke: '#2f7d6d', width: 0, points: dots('#2f7d6d', '#2f7d6d') },
+        { label: 'dropped by the fit', stroke: '#c4531d', width: 0, points: dots('#c4531d', 'transparent') },
+        { label: 'model', stroke: '#222', width: 1.5, points: { show: false } },
+      ],
+    },
+    [s.levels, s.measured, s.dropped, s.fitted],
+    host,
+  );
 }

@@ -34,6 +34,16 @@ export function cleanReportRows(r: Record<string, unknown>): CleanRow[] {
     });
   else if (source === 'off')
     rows.push({ name: 'Noise removal', value: 'off', help: 'Noise was left as it is.' });
+  const model = r.noiseModel as
+    | { model?: string; a?: number; b?: number; source?: string }
+    | null
+    | undefined;
+  if (model && num(model.a) !== undefined && num(model.b) !== undefined)
+    rows.push({
+      name: 'Noise model',
+      value: `σ² = ${fixed(model.a as number, 3)}·x + ${fixed(model.b as number, 2)}${model.source === 'given' ? ' (as set)' : ' (fitted)'}; ${model.model === 'poisson-gaussian' ? 'grows with brightness' : 'the same at every brightness'}`,
+      help: 'How the noise variance depends on the brightness x (grey levels). When it grows with brightness, the scan is cleaned in a scale where the noise is even (generalized Anscombe transform).',
+    });
   const threshold = num(r.threshold);
   if (threshold !== undefined)
     rows.push({
@@ -71,4 +81,44 @@ export function cleanReportRows(r: Record<string, unknown>): CleanRow[] {
     });
   }
   return rows;
+}
+
+/** The noise-model fit as plot data: level sets sorted by level, σ measured there and σ of the model. */
+export interface NoiseFitSeries {
+  /** What the plot's title says: the model and its a, b. */
+  title: string;
+  levels: number[];
+  measured: number[];
+  /** Measured σ of level sets the fit dropped (null where kept): drawn apart so a reader sees them. */
+  dropped: (number | null)[];
+  fitted: number[];
+}
+
+/** Plot data for the first plane of the report's noise model; null when there is no fitted model. */
+export function noiseFitSeries(r: Record<string, unknown>): NoiseFitSeries | null {
+  const m = r.noiseModel as
+    | {
+        model: string;
+        a: number;
+        b: number;
+        planes: {
+          plane: string;
+          a: number;
+          b: number;
+          points: { level: number; sigma: number; used: boolean }[];
+        }[];
+      }
+    | null
+    | undefined;
+  const plane = m?.planes[0];
+  if (!m || !plane || plane.points.length === 0) return null;
+  const pts = [...plane.points].sort((p, q) => p.level - q.level);
+  const name = m.model === 'poisson-gaussian' ? 'grows with brightness' : 'the same at every brightness';
+  return {
+    title: `Noise model (${plane.plane}): σ² = ${fixed(plane.a, 3)}·x + ${fixed(plane.b, 2)}, used as ${name}`,
+    levels: pts.map((p) => p.level),
+    measured: pts.map((p) => p.sigma),
+    dropped: pts.map((p) => (p.used ? null : p.sigma)),
+    fitted: pts.map((p) => Math.sqrt(Math.max(0, plane.a * p.level + plane.b))),
+  };
 }

@@ -1,6 +1,6 @@
 /** Requests and results of `clean`, shared by the CLI, the worker pool, IPC and HTTP. */
 import { UsageError } from './errors';
-import { checkNoise, checkOptional, OPTIONS } from './options';
+import { CLEAN_NOISE_OPTIONS, checkNoise, checkNoiseLevel, checkOptional, OPTIONS } from './options';
 import { is } from './validate';
 
 /** 'auto' estimates σ from the image; a number is σ in grey levels of the input; 'off' skips denoising. */
@@ -9,11 +9,17 @@ export type BandingMode = 'auto' | 'rows' | 'columns' | 'both' | 'off';
 type BandingDirectionResult = 'none' | 'rows' | 'columns' | 'both';
 /** 'groups' = block-matched patch groups (default); 'tiles' = overlapping tiles with Hann blending. */
 export type DenoiseMethod = 'groups' | 'tiles';
+/** How the noise depends on brightness: 'auto' decides from the fitted model (see NoiseModelReport). */
+export type NoiseModelChoice = 'auto' | 'gaussian' | 'poisson-gaussian';
 
 /** What the cleaning pipeline itself needs (engine/clean/pipeline.ts takes exactly these). */
 export interface CleanMethodOptions {
   noise: NoiseMode;
   banding: BandingMode;
+  /** Noise model; 'auto' (default) fits σ²(x) = a·x + b and stabilises the variance when a matters. */
+  noiseModel?: NoiseModelChoice;
+  /** A given model σ²(x) = a·x + b in grey levels of the input (`--noise A,B`); needs noise 'auto'. */
+  noiseLevel?: { a: number; b: number };
   /** Keep exactly this many singular components per group/tile instead of the Gavish–Donoho threshold. */
   rank?: number;
   /** Fixed singular-value threshold per group/tile, in grey levels, instead of the Gavish–Donoho threshold. */
@@ -74,6 +80,39 @@ export interface NoisePlaneReport {
   threshold: number;
 }
 
+/** One level set of the noise fit: mean intensity, measured σ, blocks used, and whether the fit kept it. */
+interface NoiseFitPoint {
+  level: number;
+  sigma: number;
+  count: number;
+  used: boolean;
+}
+
+/** The noise model σ²(x) = a·x + b of one plane (gray, or R, G, B). */
+export interface NoiseModelPlane {
+  plane: string;
+  a: number;
+  b: number;
+  /** Standard errors of the fitted a and b (null when given). */
+  seA: number | null;
+  seB: number | null;
+  /** The level-set estimates the fit used (empty when given). */
+  points: NoiseFitPoint[];
+}
+
+export interface NoiseModelReport {
+  /** The model the cleaning used. */
+  model: 'gaussian' | 'poisson-gaussian';
+  /** 'fitted' from the scan, or 'given' with --noise A,B. */
+  source: 'fitted' | 'given';
+  /** Why this model: chosen from the fit, or forced by --noise-model / --noise A,B. */
+  reason: string;
+  /** a and b of the gray plane, or the mean over R, G, B. */
+  a: number;
+  b: number;
+  planes: NoiseModelPlane[];
+}
+
 export interface CleanReport {
   input: string;
   output: string;
@@ -86,6 +125,11 @@ export interface CleanReport {
   bitDepth: 8 | 16;
   /** σ̂ of the noise in grey levels of the input (per colour channel), or null when denoising is off. */
   noiseSigma: number | null;
+  /**
+   * The noise level function σ²(x) = a·x + b fitted from the scan (or given), and the model used; null when
+   * denoising is off or σ was given. With poisson-gaussian, noiseSigma is σ at the scan's mean brightness.
+   */
+  noiseModel: NoiseModelReport | null;
   /** How noiseSigma was obtained. */
   noiseSource: 'estimated' | 'given' | 'off';
   /** Gavish–Donoho σ̂ = y_med/√(n·μ_β), median over sampled patch groups (a cross-check), grey levels. */
@@ -136,5 +180,23 @@ export function checkCleanOptions(options: Partial<CleanOptions>): CleanOptions 
   checkOptional(OPTIONS.pixelLimit, options.pixelLimit);
   if (noise === 'off' && banding === 'off')
     throw new UsageError('Nothing to do: both --noise and --banding are off.');
-  return { ...options, noise, banding };
+  const noiseModel = checkOptional<NoiseModelChoice>(CLEAN_NOISE_OPTIONS.noiseModel, options.noiseModel);
+  const noiseLevel = options.noiseLevel === undefined ? undefined : checkNoiseLevel(options.noiseLevel);
+  if (noiseLevel && noise !== 'auto')
+    throw new UsageError(
+      '--noise A,B is the noise model itself; it cannot be combined with another --noise.',
+    );
+  if (noiseLevel && noiseModel === 'gaussian')
+    throw new UsageError('--noise-model gaussian takes --noise auto or --noise SIGMA, not --noise A,B.');
+  if (typeof noise === 'number' && noiseModel === 'poisson-gaussian')
+    throw new UsageError(
+      '--noise-model poisson-gaussian takes --noise auto or --noise A,B, not --noise SIGMA.',
+    );
+  return {
+    ...options,
+    noise,
+    banding,
+    ...(noiseModel === undefined ? {} : { noiseModel }),
+    ...(noiseLevel === undefined ? {} : { noiseLevel }),
+  };
 }

@@ -283,3 +283,48 @@ export function parseNoiseText(text: string): 'auto' | 'off' | number {
   if (t === 'auto' || t === 'off') return t;
   return checkNoise(t !== '' && Number.isFinite(Number(t)) ? Number(t) : text);
 }
+
+// ── Noise model of `clean` (issue 16) ─────────────────────────────────────────────────────────────────
+/** The options of `clean`'s noise model, declared once like {@link OPTIONS}. */
+export const CLEAN_NOISE_OPTIONS = {
+  noiseModel: oneOf({
+    name: 'noise-model',
+    values: ['auto', 'gaussian', 'poisson-gaussian'] as const,
+    default: 'auto',
+    doc: 'noise that is the same at every brightness (gaussian), grows with it (poisson-gaussian), or chosen from the scan',
+  }),
+  /** The Poisson gain a of σ²(x) = a·x + b (`--noise A,B`). */
+  noiseGain: num({
+    name: 'noise',
+    min: 0,
+    max: 65535,
+    expected: 'A,B with A ≥ 0 (grey levels), B a number, and a·x + b > 0 somewhere (e.g. 0.45,4)',
+    doc: 'Poisson gain a of the noise model σ²(x) = a·x + b',
+  }),
+  /** The variance b at x = 0 of σ²(x) = a·x + b (`--noise A,B`); may be negative (an offset black level). */
+  noiseFloor: num({
+    name: 'noise',
+    min: -(65535 ** 2),
+    max: 65535 ** 2,
+    expected: 'A,B with A ≥ 0 (grey levels), B a number, and a·x + b > 0 somewhere (e.g. 0.45,4)',
+    doc: 'variance b at zero of the noise model σ²(x) = a·x + b',
+  }),
+} as const;
+
+/** A given noise model σ²(x) = a·x + b: a ≥ 0, b finite, and a positive variance somewhere on 0…65535. */
+export function checkNoiseLevel(v: unknown): { a: number; b: number } {
+  const d = CLEAN_NOISE_OPTIONS.noiseGain;
+  if (!is.plainObject(v)) throw invalidParameterError('noise', d.expected as string, v);
+  const a = checkOption(d, v.a);
+  const b = checkOption(CLEAN_NOISE_OPTIONS.noiseFloor, v.b);
+  if (!(a * 65535 + b > 0)) throw invalidParameterError('noise', d.expected as string, `${a},${b}`);
+  return { a, b };
+}
+
+/** `--noise A,B` as the request's `noiseLevel`, or null when the text is not a pair (then see parseNoiseText). */
+export function parseNoiseLevelText(text: string): { a: number; b: number } | null {
+  const parts = text.split(',');
+  if (parts.length !== 2) return null;
+  const value = (t: string) => (t.trim() !== '' && Number.isFinite(Number(t)) ? Number(t) : t);
+  return checkNoiseLevel({ a: value(parts[0]), b: value(parts[1]) });
+}

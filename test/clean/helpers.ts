@@ -84,3 +84,52 @@ export function psnr(a: ArrayLike<number>, b: ArrayLike<number>, max = 255): num
 export function rounded(p: Float32Array, max = 255): Float32Array {
   return p.map((v) => Math.min(max, Math.max(0, Math.round(v))));
 }
+
+/**
+ * One Poisson(λ) sample: Knuth's multiplication method below λ = 30 (D. E. Knuth, TAOCP vol. 2, §3.4.1),
+ * the normal approximation N(λ, λ) rounded above (common practice; its variance is λ + 1/12).
+ */
+function poisson(r: () => number, g: () => number): (lambda: number) => number {
+  return (lambda) => {
+    if (lambda <= 0) return 0;
+    if (lambda >= 30) return Math.max(0, Math.round(lambda + Math.sqrt(lambda) * g()));
+    const limit = Math.exp(-lambda);
+    let k = 0;
+    let p = r();
+    while (p > limit) {
+      k++;
+      p *= r();
+    }
+    return k;
+  };
+}
+
+/** truth → a·Poisson(truth/a) + N(0, b), rounded and clipped to [0, max]: variance a·x + b (Foi et al. 2008). */
+export function poissonGaussian(truth: Gray, a: number, b: number, seed: number, max = 255): Float32Array {
+  const r = rng(seed);
+  const g = gaussian(rng(seed + 7919));
+  const draw = poisson(r, g);
+  const sb = Math.sqrt(Math.max(0, b));
+  return truth.data.map((x) => Math.min(max, Math.max(0, Math.round(a * draw(x / a) + sb * g()))));
+}
+
+/** Piecewise-constant bands of random widths in [minWidth, maxWidth] px, zero mean, the given RMS exactly. */
+export function bandProfile(length: number, rms: number, minWidth: number, maxWidth: number, seed: number) {
+  const r = rng(seed);
+  const g = gaussian(rng(seed + 1));
+  const p = new Float64Array(length);
+  for (let x = 0; x < length; ) {
+    const w = Math.round(minWidth + (maxWidth - minWidth) * r());
+    const v = g();
+    for (let k = 0; k < w && x < length; k++, x++) p[x] = v;
+  }
+  const mean = p.reduce((a, b) => a + b, 0) / length;
+  let s = 0;
+  for (let i = 0; i < length; i++) {
+    p[i] -= mean;
+    s += p[i] * p[i];
+  }
+  const k = rms / Math.sqrt(s / length);
+  for (let i = 0; i < length; i++) p[i] *= k;
+  return p;
+}

@@ -1,7 +1,7 @@
 // The Clean panel's table: the service's report fields (src-main/contract/clean.ts) as named quantities
 // with units; the figures below are made up, the texts written out by hand.
 import { describe, expect, it } from 'vitest';
-import { cleanReportRows } from '../../src-renderer/clean-report';
+import { cleanReportRows, noiseFitSeries } from '../../src-renderer/clean-report';
 
 describe('cleanReportRows', () => {
   it('names each quantity and gives its unit, no raw keys', () => {
@@ -33,5 +33,43 @@ describe('cleanReportRows', () => {
   it('an unchanged scan and skipped noise removal say so', () => {
     const rows = cleanReportRows({ noiseSkipped: 'scan too small', noiseSigma: null, psnrChange: null });
     expect(rows.map((r) => r.value)).toEqual(['skipped: scan too small', 'identical']);
+  });
+});
+
+describe('the noise model in the Clean panel', () => {
+  const report = {
+    noiseModel: {
+      model: 'poisson-gaussian',
+      source: 'fitted',
+      a: 0.45,
+      b: 4,
+      planes: [
+        {
+          plane: 'gray',
+          a: 0.45,
+          b: 4,
+          points: [
+            { level: 100, sigma: 7.2, count: 500, used: true },
+            { level: 20, sigma: 3.6, count: 500, used: false },
+          ],
+        },
+      ],
+    },
+  };
+  it('a row gives the model in words with a and b', () => {
+    expect(cleanReportRows(report).find((r) => r.name === 'Noise model')?.value).toBe(
+      'σ² = 0.450·x + 4.00 (fitted); grows with brightness',
+    );
+  });
+  it('the plot series are sorted by level; the model is √(a·x + b) (by hand: √49 = 7, √13 = 3.6056)', () => {
+    const s = noiseFitSeries(report);
+    expect(s?.levels).toEqual([20, 100]);
+    expect(s?.measured).toEqual([3.6, 7.2]);
+    expect(s?.dropped).toEqual([3.6, null]);
+    expect(s?.fitted[1]).toBe(7);
+    expect(s?.fitted[0]).toBeCloseTo(3.605551, 6);
+  });
+  it('no fitted model, no plot', () => {
+    expect(noiseFitSeries({ noiseModel: null })).toBeNull();
   });
 });

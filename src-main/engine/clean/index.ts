@@ -10,4 +10,5 @@ export {
   type GroupParams,
 } from './patch-groups';
 export * from './pipeline';
+export * from './row-bands';
 export { denoiseTiles } from './tiles';

@@ -34,9 +34,41 @@ export function estimateNoiseSigma(
   clipHigh = Number.POSITIVE_INFINITY,
   keep = NOISE_KEEP_FRACTION,
 ): number {
+  const blocks = haarBlocks(plane, width, height, clipLow, clipHigh);
+  if (!blocks) return 0;
+  const { idx, score, hh, integral } = blocks;
+  idx.sort((p, q) => score[p] - score[q] || p - q);
+  const n = Math.max(1, Math.floor(idx.length * keep));
+  const v = new Float64Array(n);
+  for (let k = 0; k < n; k++) v[k] = hh[idx[k]];
+  return (integral ? groupedMedian(v) : exactMedian(v)) / 2 / MAD_TO_SIGMA;
+}
+
+/** The 2×2 Haar blocks of a plane: block mean, texture score, |HH|·2, and the unclipped blocks. */
+export interface HaarBlocks {
+  /** Mean of the four pixels of each block. */
+  mean: Float64Array;
+  /** Texture score from |LH| + |HL| and the neighbouring LL differences (independent of HH for white noise). */
+  score: Float64Array;
+  /** |a − b − c + d| = 2·|HH| of each block. */
+  hh: Float64Array;
+  /** Indices of the blocks that touch neither clip level, in raster order. */
+  idx: number[];
+  /** True when every |HH|·2 is an integer (integer input): medians then use the grouped-data rule. */
+  integral: boolean;
+}
+
+/** Haar blocks of `plane` (null when the plane is smaller than 4×4 or every block touches a clip level). */
+export function haarBlocks(
+  plane: ArrayLike<number>,
+  width: number,
+  height: number,
+  clipLow = Number.NEGATIVE_INFINITY,
+  clipHigh = Number.POSITIVE_INFINITY,
+): HaarBlocks | null {
   const bw = width >> 1;
   const bh = height >> 1;
-  if (bw < 2 || bh < 2) return 0;
+  if (bw < 2 || bh < 2) return null;
   const ll = new Float64Array(bw * bh);
   const tex = new Float64Array(bw * bh);
   const hh = new Float64Array(bw * bh);
@@ -70,12 +102,9 @@ export function estimateNoiseSigma(
       score[i] = tex[i] + (gx + gy) / 2;
       idx.push(i);
     }
-  if (idx.length === 0) return 0;
-  idx.sort((p, q) => score[p] - score[q] || p - q);
-  const n = Math.max(1, Math.floor(idx.length * keep));
-  const v = new Float64Array(n);
-  for (let k = 0; k < n; k++) v[k] = hh[idx[k]];
-  return (integral ? groupedMedian(v) : exactMedian(v)) / 2 / MAD_TO_SIGMA;
+  if (idx.length === 0) return null;
+  const mean = ll.map((v) => v / 2);
+  return { mean, score, hh, idx, integral };
 }
 
 /**
@@ -85,7 +114,7 @@ export function estimateNoiseSigma(
  */
 const NOISE_KEEP_FRACTION = 0.5;
 
-function exactMedian(v: Float64Array): number {
+export function exactMedian(v: Float64Array): number {
   v.sort();
   const n = v.length;
   return n % 2 ? v[(n - 1) >> 1] : (v[n / 2 - 1] + v[n / 2]) / 2;
@@ -96,7 +125,7 @@ function exactMedian(v: Float64Array): number {
  * for [k − ½, k + ½); the median is interpolated inside its bin (the grouped-data median of descriptive
  * statistics, common practice). Without this, 8-bit data would quantise σ̂ in steps of about 0.74.
  */
-function groupedMedian(v: Float64Array): number {
+export function groupedMedian(v: Float64Array): number {
   let max = 0;
   for (let i = 0; i < v.length; i++) if (v[i] > max) max = v[i];
   const hist = new Float64Array(max + 1);

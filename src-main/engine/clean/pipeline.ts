@@ -3,13 +3,21 @@
  * threads over row bands: prepareClean (banding, noise level, sizes) → denoise bands → finishClean
  * (back to RGB, rounding, removed part, report figures). Pure: no Node, no I/O.
  */
-import type { BandingReport, CleanMethodOptions, DenoiseMethod, NoisePlaneReport } from '../../contract';
+import type {
+  BandingReport,
+  CleanMethodOptions,
+  DenoiseMethod,
+  NoiseModelReport,
+  NoisePlaneReport,
+} from '../../contract';
 import { NOISE_GAIN_YCBCR, rgbToYcbcrBt601, ycbcrBt601ToRgb } from '../colour';
 import { psnrPlanes } from '../metrics';
+import { type Stabiliser, stabilisePlane, unstabilisePlane } from './anscombe';
 import { analyseBanding, type BandingAnalysis, subtractProfiles } from './banding';
 import { bandingReport } from './banding-report';
 import { lambdaStar } from './gavish-donoho';
 import { estimateNoiseSigma } from './noise-estimate';
+import { planNoiseModel } from './noise-model';
 import {
   autoGroupParams,
   denoiseGroupsBand,
@@ -17,6 +25,7 @@ import {
   type GroupStats,
   groupMedianRuleSigma,
 } from './patch-groups';
+import { type DenoiseStats, mergeStats, rowBands } from './row-bands';
 import { autoTileSize, denoiseTiles } from './tiles';
 
 export interface CleanInput {
@@ -52,6 +61,10 @@ export interface PreparedClean {
   noiseSigma: number | null;
   noiseSource: 'estimated' | 'given' | 'off';
   noiseSkipped?: string;
+  /** The fitted or given noise model (null when off or σ was given). */
+  noiseModel: NoiseModelReport | null;
+  /** Per colour channel variance-stabilising transforms (Poisson–Gaussian path), or null. */
+  stabilisers: Stabiliser[] | null;
   method: DenoiseMethod | 'off';
   params: GroupParams | null;
   tile: number | null;
@@ -112,8 +125,11 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     noiseSigma: number | null,
     noiseSource: PreparedClean['noiseSource'],
     noiseSkipped?: string,
+    noiseModel: NoiseModelReport | null = null,
   ): PreparedClean => ({
     ...base,
+    noiseModel,
+    stabilisers: null,
     work: [],
     workNames: [],
     sigmas: [],
@@ -126,15 +142,24 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     tile: null,
   });
   if (settings.noise === 'off') return noDenoise(null, 'off');
-  const work = colour
-    ? rgbToYcbcrBt601(corrected[0], corrected[1], corrected[2], (maxValue + 1) / 2)
-    : [corrected[0]];
   const workNames = colour ? ['Y', 'Cb', 'Cr'] : ['gray'];
+  const plan = planNoiseModel(
+    corrected,
+    colour ? ['R', 'G', 'B'] : ['gray'],
+    width,
+    height,
+    maxValue,
+    settings,
+  );
+  const { stabilisers } = plan;
+  const source = stabilisers ? corrected.map((p, c) => stabilisePlane(p, stabilisers[c])) : corrected;
+  const work = colour ? rgbToYcbcrBt601(source[0], source[1], source[2], (maxValue + 1) / 2) : [source[0]];
   let sigmas: number[];
   let noiseSigma: number;
-  if (typeof settings.noise === 'number') {
-    noiseSigma = settings.noise;
-    sigmas = colour ? NOISE_GAIN_YCBCR.map((g) => g * noiseSigma) : [noiseSigma];
+  const fixedSigma = typeof settings.noise === 'number' ? settings.noise : plan.sigma;
+  if (fixedSigma !== null) {
+    noiseSigma = fixedSigma;
+    sigmas = colour ? NOISE_GAIN_YCBCR.map((g) => g * fixedSigma) : [fixedSigma];
   } else {
     sigmas = work.map((p, c) =>
       c === 0 ? estimateNoiseSigma(p, width, height, 0, maxValue) : estimateNoiseSigma(p, width, height),
@@ -146,7 +171,9 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
         corrected.length
       : sigmas[0];
   }
-  const noiseSource = typeof settings.noise === 'number' ? 'given' : 'estimated';
+  const noiseSource =
+    typeof settings.noise === 'number' || plan.report?.source === 'given' ? 'given' : 'estimated';
+  const model = { noiseModel: plan.report, stabilisers };
   const active = sigmas
     .map((sg, c) =>
       c === 0 || noiseSource === 'given' || (sg * 255) / maxValue >= MIN_AUTO_SIGMA_8BIT ? c : -1,
@@ -161,10 +188,23 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
       noiseSigma,
       noiseSource,
       `estimated noise σ ${noiseSigma.toFixed(2)} is below ${((MIN_AUTO_SIGMA_8BIT * maxValue) / 255).toFixed(2)} grey levels (rounding level); nothing to remove`,
+      plan.report,
     );
   if (method === 'tiles') {
     const tile = settings.tile ?? autoTileSize(sigma8);
-    return { ...base, work, workNames, sigmas, active, noiseSigma, noiseSource, method, params: null, tile };
+    return {
+      ...base,
+      ...model,
+      work,
+      workNames,
+      sigmas,
+      active,
+      noiseSigma,
+      noiseSource,
+      method,
+      params: null,
+      tile,
+    };
   }
   const auto = autoGroupParams(sigma8);
   const patch = settings.patch ?? auto.patch;
@@ -177,38 +217,19 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     rank: settings.rank,
     threshold: settings.threshold,
   };
-  return { ...base, work, workNames, sigmas, active, noiseSigma, noiseSource, method, params, tile: null };
-}
-
-/** Statistics of a whole denoise: the band statistics (patch-groups.ts `GroupStats`) summed over bands. */
-export type DenoiseStats = GroupStats;
-
-/** Merge band statistics. Groups near a band edge are counted by both bands; the summary is indicative. */
-export function mergeStats(parts: GroupStats[]): DenoiseStats {
-  const out: DenoiseStats = {
-    groups: 0,
-    rankSum: 0,
-    rankMin: Number.POSITIVE_INFINITY,
-    rankMax: 0,
-    exact: 0,
+  return {
+    ...base,
+    ...model,
+    work,
+    workNames,
+    sigmas,
+    active,
+    noiseSigma,
+    noiseSource,
+    method,
+    params,
+    tile: null,
   };
-  for (const s of parts) {
-    out.groups += s.groups;
-    out.rankSum += s.rankSum;
-    out.rankMin = Math.min(out.rankMin, s.rankMin);
-    out.rankMax = Math.max(out.rankMax, s.rankMax);
-    out.exact += s.exact;
-  }
-  if (!Number.isFinite(out.rankMin)) out.rankMin = 0;
-  return out;
-}
-
-/** Split rows into `count` bands of near-equal height. */
-export function rowBands(height: number, count: number): Array<[number, number]> {
-  const n = Math.max(1, Math.min(count, height));
-  const out: Array<[number, number]> = [];
-  for (let i = 0; i < n; i++) out.push([Math.floor((i * height) / n), Math.floor(((i + 1) * height) / n)]);
-  return out;
 }
 
 /** Denoise in this thread (same band code as the workers, so the result is identical). */
@@ -287,6 +308,8 @@ export function finishClean(
     colourPlanes = prep.colour
       ? ycbcrBt601ToRgb(denoised[0], denoised[1], denoised[2], (maxValue + 1) / 2)
       : [denoised[0]];
+  const stab = prep.stabilisers;
+  if (denoised?.length && stab) colourPlanes = colourPlanes.map((p, c) => unstabilisePlane(p, stab[c]));
   const planes: Float32Array[] = [];
   const removed: Float32Array[] = [];
   let changed = 0;

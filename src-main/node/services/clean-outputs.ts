@@ -3,6 +3,7 @@
  * profiles as CSV.
  */
 import sharp from 'sharp';
+import type { NoiseModelPlane, NoiseModelReport } from '../../contract';
 import { crc32 } from '../../engine/codec/crc32';
 
 /** Stripe profiles that were subtracted, per colour channel (null when that axis was not removed). */
@@ -45,9 +46,20 @@ function insertPngText(png: Buffer, keyword: string, text: string): Buffer {
   return Buffer.concat([png.subarray(0, ihdrEnd), chunk, png.subarray(ihdrEnd)]);
 }
 
-/** CSV of the subtracted stripe profiles: `axis,index,<channel…>`, offsets in grey levels of the input. */
-export function profileCsv(profile: StripeProfiles, width: number, height: number): string {
-  const ch = (profile.rows ?? profile.columns)?.length ?? 1;
+/**
+ * CSV of the subtracted stripe profiles: `axis,index,<channel…>`, offsets in grey levels of the input. When
+ * the noise model was fitted or given, rows follow in the same shape: `noise-a,0,…` and `noise-b,0,…` (the
+ * model σ²(x) = a·x + b per channel), then per level set k `noise-level,k,…` (mean intensity),
+ * `noise-sigma,k,…` (σ measured there), `noise-fit,k,…` (σ of the model there), `noise-count,k,…` (blocks)
+ * and `noise-used,k,…` (1 when the fit kept the level set).
+ */
+export function profileCsv(
+  profile: StripeProfiles,
+  width: number,
+  height: number,
+  noise: NoiseModelReport | null = null,
+): string {
+  const ch = (profile.rows ?? profile.columns)?.length ?? noise?.planes.length ?? 1;
   const names = ch === 3 ? ['R', 'G', 'B'] : ['gray'];
   const lines = [`axis,index,${names.join(',')}`];
   if (profile.rows)
@@ -56,5 +68,27 @@ export function profileCsv(profile: StripeProfiles, width: number, height: numbe
   if (profile.columns)
     for (let x = 0; x < width; x++)
       lines.push(`column,${x},${profile.columns.map((p) => p[x].toFixed(4)).join(',')}`);
+  if (noise) lines.push(...noiseModelRows(noise));
   return `${lines.join('\n')}\n`;
+}
+
+/** The noise-model rows of {@link profileCsv}; a channel with fewer level sets leaves its cell empty. */
+function noiseModelRows(noise: NoiseModelReport): string[] {
+  const ps = noise.planes;
+  const out = [`noise-a,0,${ps.map((p) => p.a.toPrecision(6)).join(',')}`];
+  out.push(`noise-b,0,${ps.map((p) => p.b.toPrecision(6)).join(',')}`);
+  const n = Math.max(0, ...ps.map((p) => p.points.length));
+  const row = (
+    name: string,
+    k: number,
+    f: (p: NoiseModelPlane['points'][number], m: NoiseModelPlane) => string,
+  ) => `${name},${k},${ps.map((m) => (k < m.points.length ? f(m.points[k], m) : '')).join(',')}`;
+  for (let k = 0; k < n; k++) {
+    out.push(row('noise-level', k, (p) => p.level.toFixed(4)));
+    out.push(row('noise-sigma', k, (p) => p.sigma.toFixed(4)));
+    out.push(row('noise-fit', k, (p, m) => Math.sqrt(Math.max(0, m.a * p.level + m.b)).toFixed(4)));
+    out.push(row('noise-count', k, (p) => String(p.count)));
+    out.push(row('noise-used', k, (p) => (p.used ? '1' : '0')));
+  }
+  return out;
 }

@@ -73,6 +73,7 @@ function buildReport(
     channels: decoded.channels,
     bitDepth: decoded.bitDepth,
     noiseSigma: prep.noiseSigma,
+    noiseModel: prep.noiseModel,
     noiseSource: prep.noiseSource,
     noiseSigmaMedianRule: fin.noiseSigmaMedianRule,
     threshold: fin.threshold,
@@ -215,9 +216,13 @@ export async function cleanFile(
     report.removedScale = scale;
   }
   if (opts.profile) {
-    await writeFileAtomic(opts.profile, profileCsv(result.profile, decoded.width, decoded.height), {
-      force: opts.force,
-    });
+    await writeFileAtomic(
+      opts.profile,
+      profileCsv(result.profile, decoded.width, decoded.height, report.noiseModel),
+      {
+        force: opts.force,
+      },
+    );
     report.profile = opts.profile;
   }
   report.timings.encodeMs = performance.now() - t1;
