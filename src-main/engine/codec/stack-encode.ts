@@ -58,7 +58,7 @@ function dequantised(c: CodedCoefficients, map: Uint8Array): Float64Array {
 }
 
 /** A residual the encoder coded: its coefficients and the pixel-domain squared error it removes (estimated). */
-export interface ResidualTrial {
+interface ResidualTrial {
   code: CodedCoefficients;
   gain: number;
 }
@@ -219,7 +219,7 @@ export function fixedBytesFor(prep: PreparedStack): (chunks: number) => number {
  * Code every plane of a plan (the residuals of the frames it tries included, kept or not).
  * @example const coded = codePlanned(prep, { step: 4, ranks: [2], residuals: true });
  */
-export function codePlanned(prep: PreparedStack, plan: EncodePlan): CodedStack {
+function codePlanned(prep: PreparedStack, plan: EncodePlan): CodedStack {
   const { step } = plan;
   if (!(step > 0 && Number.isFinite(step)))
     throw new RangeError(`stack quantiser step must be > 0, got ${step}`);

@@ -21,7 +21,7 @@ export const STACK_LAYOUT = 'stack';
  * now (container 1.4: compact framing and header, coefficient coder 2).
  */
 export const STACK_VERSION = 3;
-export const STACK_VERSION_CODER1 = 2;
+const STACK_VERSION_CODER1 = 2;
 /** Container minor version of stack-layout-3 files (1.3 is the two-layer image file). */
 export const STACK_CONTAINER_MINOR = 4;
 /** Largest number of eigen-frames considered per channel. */

@@ -36,7 +36,7 @@ export interface RateCalibration {
  */
 export const DEFAULT_CALIBRATION: RateCalibration = { mean: 0.9, basis: 0.9, residual: 1.05 };
 
-export interface ChannelPlan {
+interface ChannelPlan {
   rank: number;
   residual: boolean[];
   /** Frames whose residual a real encode should try (predicted to pay, or nearly). */

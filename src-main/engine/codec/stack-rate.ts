@@ -18,8 +18,8 @@
 import type { StackGeometry } from './stack-analysis';
 
 /** Dead-zone rounding of the plane coder (./wavelet-plane): 0.5 in LL, 0.38 in the detail bands. */
-export const RHO_LL = 0.5;
-export const RHO_DETAIL = 0.38;
+const RHO_LL = 0.5;
+const RHO_DETAIL = 0.38;
 /** Magnitudes from here on go to the range coder's Exp-Golomb escape. */
 const CAP = 16;
 /** Coder 2 sends a bin's reconstruction offset only when the band has at least this many of its values. */
@@ -39,7 +39,7 @@ export interface PlaneEstimate {
   energy: number;
 }
 
-export function bandSteps(g: StackGeometry, step: number): Float64Array {
+function bandSteps(g: StackGeometry, step: number): Float64Array {
   return Float64Array.from(g.bands, (b) => step / Math.sqrt(b.gain));
 }
 
