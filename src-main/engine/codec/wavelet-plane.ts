@@ -132,6 +132,21 @@ export function quantiseAnalysed(a: AnalysedPlane, step: number): Omit<CodedCoef
   return { q, steps, nonZero, offsets };
 }
 
+/**
+ * The smallest pixel-domain step at which every quantised coefficient of `a` stays well inside the range
+ * coder's magnitude range (2^30; 2^28 here leaves room for rounding). A flat plane under a generous budget
+ * would otherwise drive a rate search to steps whose LL magnitudes overflow the coder.
+ */
+export function smallestSafeStep(a: AnalysedPlane): number {
+  const unit = bandSteps(a.bands, 1);
+  let worst = 0;
+  for (let i = 0; i < a.coeffs.length; i++) {
+    const m = Math.abs(a.coeffs[i]) / unit[a.map[i]];
+    if (m > worst) worst = m;
+  }
+  return worst / 2 ** 28;
+}
+
 /** Quantise and range-code an analysed plane at pixel-domain step `step` (> 0) with coder `coder`. */
 export function codeAnalysed(a: AnalysedPlane, step: number, coder: PlaneCoder = 1): CodedCoefficients {
   checkStep(step);

@@ -27,6 +27,7 @@ import {
   codedSquaredError,
   estimateSquaredError,
   quantiseAnalysed,
+  smallestSafeStep,
 } from '../codec/wavelet-plane';
 import { psnrFromSse } from '../metrics';
 import type { LayerSummary } from './encode-options';
@@ -129,8 +130,9 @@ function stepForError(analysed: AnalysedPlane[], weights: number[], target: numb
 }
 
 /** Code every plane at step d (scaled per plane): steps, bytes and the exact weighted transform-domain error. */
-function codeAll(analysed: AnalysedPlane[], weights: number[], d: number) {
+function codeAll(analysed: AnalysedPlane[], weights: number[], step: number) {
   const scales = stepScales(weights);
+  const d = analysed.reduce((m, a, k) => Math.max(m, smallestSafeStep(a) / scales[k]), step);
   const steps = analysed.map((_, k) => tidy(d * scales[k]));
   const coded = analysed.map((a, k) => codeAnalysed(a, steps[k], 2));
   const sse = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);

@@ -10,6 +10,7 @@ import {
   codeAnalysed,
   codedSquaredError,
   estimateBits,
+  smallestSafeStep,
 } from '../codec/wavelet-plane';
 
 /** Most real encodes of the residual (all planes) per candidate. */
@@ -57,8 +58,12 @@ export function fitResidual(
   const sseOf = (coded: CodedCoefficients[]) =>
     coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
   const estimate = (d: number) => analysed.reduce((s, a, k) => s + estimateBits(a, d * scales[k]), 0) / 8;
-  const code = (d: number) => {
+  // Never finer than 1/16 of a sample step (far finer than rounding to integers needs) nor than the coder's
+  // range allows: a flat plane's rate model would otherwise pull the search to Δ → 0 (test/hostile/flat-scans).
+  const safe = analysed.reduce((m, a, k) => Math.max(m, smallestSafeStep(a) / scales[k]), 1 / 16);
+  const code = (step: number) => {
     cancel();
+    const d = Math.max(step, safe);
     const coded = analysed.map((a, k) => codeAnalysed(a, tidy(d * scales[k]), 2));
     const bytes = coded.map((c) => c.bytes);
     const size = bytes.reduce((s, b) => s + b.length, 0);
