@@ -186,11 +186,12 @@ export function decodeCompactHeader(bytes: Uint8Array): unknown {
         if (n > MAX_COUNT) fail('too many array values');
         return Array.from({ length: n }, () => val(depth + 1));
       }
-      case 5:
+      case 5: {
         // Read in place through a DataView over the caller's bytes: `slice()` on a Node Buffer is a view
         // of its (possibly pooled) memory, not a copy, so `.slice().buffer` read the wrong 8 bytes.
         const f = take(8);
         return new DataView(f.buffer, f.byteOffset, 8).getFloat64(0);
+      }
       case 6:
         return varint();
       case 7:
