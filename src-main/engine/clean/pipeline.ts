@@ -190,22 +190,18 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
       `estimated noise σ ${noiseSigma.toFixed(2)} is below ${((MIN_AUTO_SIGMA_8BIT * maxValue) / 255).toFixed(2)} grey levels (rounding level); nothing to remove`,
       plan.report,
     );
-  if (method === 'tiles') {
-    const tile = settings.tile ?? autoTileSize(sigma8);
-    return {
-      ...base,
-      ...model,
-      work,
-      workNames,
-      sigmas,
-      active,
-      noiseSigma,
-      noiseSource,
-      method,
-      params: null,
-      tile,
-    };
-  }
+  const common: Omit<PreparedClean, 'params' | 'tile'> = {
+    ...base,
+    ...model,
+    work,
+    workNames,
+    sigmas,
+    active,
+    noiseSigma,
+    noiseSource,
+    method,
+  };
+  if (method === 'tiles') return { ...common, params: null, tile: settings.tile ?? autoTileSize(sigma8) };
   const auto = autoGroupParams(sigma8);
   const patch = settings.patch ?? auto.patch;
   const params: GroupParams = {
@@ -217,19 +213,7 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     rank: settings.rank,
     threshold: settings.threshold,
   };
-  return {
-    ...base,
-    ...model,
-    work,
-    workNames,
-    sigmas,
-    active,
-    noiseSigma,
-    noiseSource,
-    method,
-    params,
-    tile: null,
-  };
+  return { ...common, params, tile: null };
 }
 
 /** Denoise in this thread (same band code as the workers, so the result is identical). */
