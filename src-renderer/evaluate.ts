@@ -1,6 +1,7 @@
 /**
  * Exact figures from the encoder: an evaluation at the current budget, scheduled 120 ms after the last
- * change, one at a time (a change during a run queues one more). Answers to an older budget are dropped.
+ * change. A change during a run starts the new evaluation at once: the back end cancels the one it
+ * supersedes (src-main/node/server/scan-jobs.ts), and answers to an older budget are dropped.
  */
 import { decodeFactorSet } from '../src-main/contract';
 import { bind } from './bind';
@@ -19,7 +20,7 @@ const SETTLE_MS = 120;
 export interface Evaluator {
   /** Evaluate once the changes settle. */
   schedule(): void;
-  /** Evaluate now (or right after the evaluation running). */
+  /** Evaluate now (superseding the evaluation running, if any). */
   now(): Promise<void>;
 }
 
@@ -33,8 +34,6 @@ export function createEvaluator(
 ): Evaluator {
   const stage = bind(document, { stage: '#stage' }).stage;
   let timer: ReturnType<typeof setTimeout> | undefined;
-  let running = false;
-  let again = false;
 
   const schedule = () => {
     if (timer) clearTimeout(timer);
@@ -44,11 +43,6 @@ export function createEvaluator(
   const now = async () => {
     const s = state.scan;
     if (!s) return;
-    if (running) {
-      again = true;
-      return;
-    }
-    running = true;
     const seq = ++state.evalSeq;
     const budget = state.budget;
     const job = newJob();
@@ -85,12 +79,8 @@ export function createEvaluator(
     } catch (err) {
       if (seq === state.evalSeq && s === state.scan) bar.fail(err);
     } finally {
-      bar.busy(undefined);
-      running = false;
-      if (again) {
-        again = false;
-        schedule();
-      }
+      // A superseded run leaves the bar to the run that replaced it.
+      if (seq === state.evalSeq) bar.busy(undefined);
     }
   };
 

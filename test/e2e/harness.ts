@@ -255,6 +255,21 @@ export async function readouts(page: Page): Promise<Record<string, number>> {
   );
 }
 
+/** One readout of the Figures card: its metric, value, exactness and shown text. */
+export type FigureCell = { metric: string; value: string; exact: string | null; text: string };
+
+/** Every readout of the Figures card, in page order. */
+export function figureCells(page: Page): Promise<FigureCell[]> {
+  return page.$$eval('#readouts [data-metric]', (els) =>
+    els.map((e) => ({
+      metric: e.getAttribute('data-metric') ?? '',
+      value: e.getAttribute('data-value') ?? '',
+      exact: e.getAttribute('data-exact'),
+      text: e.querySelector('dd')?.textContent ?? '',
+    })),
+  );
+}
+
 const run = promisify(execFile);
 /** `rankfold <args>` from the built CLI: its text report on stdout. */
 export async function cliText(args: string[]): Promise<string> {

@@ -10,7 +10,7 @@ import { join } from 'node:path';
 import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { image } from '../helpers/fixtures';
-import { type AppSession, openApp, shot } from './harness';
+import { type AppSession, type FigureCell, figureCells, openApp, shot } from './harness';
 
 declare const document: {
   getElementById(id: string): { dataset: Record<string, string | undefined> } | null;
@@ -32,16 +32,8 @@ afterAll(async () => {
   await app?.close();
 });
 
-type Cell = { metric: string; value: string; exact: string | null; text: string };
-const figures = (): Promise<Cell[]> =>
-  page.$$eval('#readouts [data-metric]', (els) =>
-    els.map((e) => ({
-      metric: e.getAttribute('data-metric') ?? '',
-      value: e.getAttribute('data-value') ?? '',
-      exact: e.getAttribute('data-exact'),
-      text: e.querySelector('dd')?.textContent ?? '',
-    })),
-  );
+type Cell = FigureCell;
+const figures = () => figureCells(page);
 const cell = async (m: string) => (await figures()).find((c) => c.metric === m) as Cell;
 
 describe('the page tells the truth (1024×700)', () => {

@@ -6,11 +6,11 @@
 import { mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import sharp from 'sharp';
 import { afterAll, describe, expect, it } from 'vitest';
 import type { ProgressEvent, ScanSummary } from '../../src-main/contract';
 import { Backend } from '../../src-main/node/server/backend';
 import { repoRoot } from '../helpers/fixtures';
+import { noisePng } from './harness';
 
 const dir = mkdtempSync(join(tmpdir(), 'rankfold-cancel-'));
 const backend = new Backend({ workersDir: join(repoRoot, 'dist', 'workers'), samplesDir: dir });
@@ -20,15 +20,7 @@ describe('cancel', () => {
   it('stops a running factorisation, then the scan still answers', async () => {
     const w = 1600;
     const h = 1200;
-    const px = Buffer.alloc(w * h);
-    let s = 12345;
-    for (let i = 0; i < px.length; i++) {
-      s = (s * 1103515245 + 12345) >>> 0;
-      px[i] = s >>> 24;
-    }
-    await sharp(px, { raw: { width: w, height: h, channels: 1 } })
-      .png()
-      .toFile(join(dir, 'noise.png'));
+    await noisePng(join(dir, 'noise.png'), w, h, 12345);
     const events: ProgressEvent[] = [];
     backend.on('progress', (e: ProgressEvent) => events.push(e));
     const scan = (await backend.call('openScan', {

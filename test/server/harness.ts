@@ -7,6 +7,7 @@
 import { request } from 'node:http';
 import { connect } from 'node:net';
 import { join } from 'node:path';
+import sharp from 'sharp';
 import { Backend, type BackendOptions } from '../../src-main/node/server/backend';
 import { type RunningServer, startServer } from '../../src-main/node/server/http';
 import { repoRoot } from '../helpers/fixtures';
@@ -116,4 +117,17 @@ export function rawHttp(port: number, head: string, body = ''): Promise<{ status
       resolve({ status: m ? Number(m[1]) : 0, body: Buffer.from(rest, 'latin1').toString('utf8') });
     });
   });
+}
+
+/** An 8-bit grey PNG of uniform noise (an LCG with Numerical Recipes' constants): nearly full rank. */
+export async function noisePng(file: string, w: number, h: number, seed = 2024): Promise<void> {
+  const px = Buffer.alloc(w * h);
+  let s = seed;
+  for (let i = 0; i < px.length; i++) {
+    s = (s * 1664525 + 1013904223) >>> 0;
+    px[i] = s >>> 24;
+  }
+  await sharp(px, { raw: { width: w, height: h, channels: 1 } })
+    .png()
+    .toFile(file);
 }

@@ -13,12 +13,8 @@ import {
   type ApiMethod,
   type BatchRequest,
   type BatchResult,
-  type CleanRequest,
-  type CleanResult,
   checkUploadName,
   dispatch,
-  type EvaluateRequest,
-  type EvaluateResult,
   type FactorRequest,
   type Handlers,
   InputError,
@@ -36,6 +32,7 @@ import {
 } from '../../contract';
 import { AccessPolicy } from './access';
 import { runBatchJob } from './batch-bridge';
+import { cleanJob, evaluateJob, type ScanJobHost, saveJob } from './scan-jobs';
 import { SessionWorker } from './session-worker';
 import { openStackFrame, type StackSession } from './stack-bridge';
 
@@ -87,8 +84,8 @@ export class Backend extends EventEmitter {
     pick: (req) => this.pick(req),
     openScan: (req) => this.openScan(req),
     factors: (req) => this.factors(req),
-    evaluate: (req) => this.evaluate(req),
-    clean: (req) => this.clean(req),
+    evaluate: (req) => evaluateJob(this.host(req.scanId), req),
+    clean: (req) => cleanJob(this.host(req.scanId), req),
     fetchImages: (id) => this.blob(id).data,
     stackFrame: (req) => this.stackFrame(req),
     save: (req) => this.save(req),
@@ -172,7 +169,9 @@ export class Backend extends EventEmitter {
     } else file = await this.access.readable(req.source.path);
     // A new scan takes the cores: stop the previous scan's background refinement first.
     for (const s of this.scans.values()) void s.factorLane.close();
-    const session = new SessionWorker(this.options.workersDir, file, req.page).adopt(this.takeSpare());
+    const session = new SessionWorker(this.options.workersDir, file, req.page)
+      .adopt(this.takeSpare())
+      .spares(() => this.takeSpare());
     const scanId = newId();
     try {
       const fig = await session.open((p) => this.progress({ job: `open-${scanId}`, ...p }));
@@ -246,30 +245,19 @@ export class Backend extends EventEmitter {
     );
   }
 
-  private async evaluate(req: EvaluateRequest): Promise<EvaluateResult> {
-    const s = this.scan(req.scanId);
-    const { preview, ...r } = await s.session.run<EvaluateResult & { preview?: ArrayBuffer }>(
-      'evaluate',
-      { budget: req.budget, tile: req.tile, input: s.file },
-      req.job,
-      this.onJob(req.job),
-    );
-    if (!preview) return r;
-    const previewId = newId();
-    this.putBlob(previewId, { data: preview, fileName: 'preview.bin', type: 'application/octet-stream' });
-    return { ...r, previewId };
-  }
-
-  private async clean(req: CleanRequest): Promise<CleanResult> {
-    const s = this.scan(req.scanId);
-    const r = await s.session.run<{
-      images: ArrayBuffer;
-      report: Record<string, unknown>;
-      profile: CleanResult['profile'];
-    }>('clean', { settings: req.settings }, req.job, this.onJob(req.job));
-    const imagesId = newId();
-    this.putBlob(imagesId, { data: r.images, fileName: 'cleaned.bin', type: 'application/octet-stream' });
-    return { imagesId, report: r.report, profile: r.profile };
+  /** The scan's session, file, progress and blob store, for the jobs in ./scan-jobs.ts. */
+  private host(scanId: string): ScanJobHost {
+    const s = this.scan(scanId);
+    return {
+      session: s.session,
+      file: s.file,
+      progress: (job) => this.onJob(job),
+      keep: (b) => {
+        const id = newId();
+        this.putBlob(id, b);
+        return id;
+      },
+    };
   }
 
   /** One frame of a stack file the user opened or chose (same access rule as scans). */
@@ -294,46 +282,14 @@ export class Backend extends EventEmitter {
   }
 
   private async save(req: SaveRequest): Promise<SaveResult> {
-    const s = this.scan(req.scanId);
+    const host = this.host(req.scanId);
     let target: string | undefined;
     if (req.path) {
       target = resolve(req.path);
       if (!this.access.saveTargets.has(target))
         throw new UsageError(`${req.path}: choose where to save in the save dialog or type the path first`);
     }
-    const r = await s.session.run<{
-      data?: ArrayBuffer;
-      fileName: string;
-      bytes: number;
-      caution: string;
-      path?: string;
-    }>(
-      'save',
-      {
-        kind: req.kind,
-        budget: req.budget,
-        tile: req.tile,
-        settings: req.settings,
-        path: target,
-        force: req.force,
-        input: s.file,
-      },
-      req.job,
-      this.onJob(req.job),
-    );
-    if (r.data) {
-      const downloadId = newId();
-      this.putBlob(downloadId, {
-        data: r.data,
-        fileName: r.fileName,
-        type:
-          req.kind === 'rkf'
-            ? 'application/octet-stream'
-            : `image/${extname(r.fileName).slice(1) === 'png' ? 'png' : 'tiff'}`,
-      });
-      return { downloadId, fileName: r.fileName, bytes: r.bytes, caution: r.caution };
-    }
-    return { path: r.path, fileName: r.fileName, bytes: r.bytes, caution: r.caution };
+    return saveJob(host, req, target);
   }
 
   private async batch(req: BatchRequest): Promise<BatchResult> {

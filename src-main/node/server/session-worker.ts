@@ -1,7 +1,8 @@
 /**
  * Main-thread handle on one scan session's worker thread. Requests are queued one at a time; cancel
  * terminates the thread (the only way to stop synchronous number crunching promptly) and the next
- * request starts a fresh thread that decodes the scan again.
+ * request starts a fresh thread (a spare one when the owner supplies it) that decodes the scan again.
+ * A job cancelled while still queued never starts.
  */
 import { join } from 'node:path';
 import { Worker } from 'node:worker_threads';
@@ -26,6 +27,9 @@ export class SessionWorker {
   private pending = new Map<number, Pending>();
   private opened?: Promise<Omit<ScanSummary, 'scanId' | 'name'>>;
   private chain: Promise<unknown> = Promise.resolve();
+  /** Jobs waiting in the chain, and those of them cancelled before they started. */
+  private readonly queued = new Set<string>();
+  private readonly dropped = new Set<string>();
 
   constructor(
     private readonly workersDir: string,
@@ -40,8 +44,15 @@ export class SessionWorker {
   }
   private spare?: Worker;
 
+  /** Where a replacement thread comes from after a cancel (a thread started ahead of time). */
+  spares(source: () => Worker): this {
+    this.spareSource = source;
+    return this;
+  }
+  private spareSource?: () => Worker;
+
   private spawn(): Worker {
-    const w = this.spare ?? new Worker(join(this.workersDir, 'scan-session.js'));
+    const w = this.spare ?? this.spareSource?.() ?? new Worker(join(this.workersDir, 'scan-session.js'));
     this.spare = undefined;
     w.on(
       'message',
@@ -114,16 +125,30 @@ export class SessionWorker {
     job: string,
     onProgress?: (p: SessionProgress) => void,
   ): Promise<T> {
+    this.queued.add(job);
     const next = this.chain.then(async () => {
-      await this.open();
+      try {
+        // Cancelled while queued, or while its scan was being decoded again: never sent.
+        if (!this.dropped.has(job)) await this.open();
+      } finally {
+        this.queued.delete(job);
+      }
+      if (this.dropped.delete(job)) throw new CancelledError('the job');
       return this.send<T>(op, args, onProgress, job);
     });
     this.chain = next.catch(() => undefined);
     return next;
   }
 
-  /** Stop the job with this id if it is running in this session. Returns true if something was stopped. */
+  /**
+   * Stop the job with this id if it is running or queued in this session. Returns true if something was
+   * stopped.
+   */
   cancel(job: string): boolean {
+    if (this.queued.has(job)) {
+      this.dropped.add(job);
+      return true;
+    }
     const hit = [...this.pending.values()].some((p) => p.job === job);
     if (hit && this.worker) {
       const w = this.worker;
