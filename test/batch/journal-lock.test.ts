@@ -8,7 +8,7 @@ import { mkdtemp, open, readdir, readFile, rm, writeFile } from 'node:fs/promise
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { type BatchRow, MANIFEST_VERSION, UsageError } from '../../src-main/contract';
+import { type BatchRow, UsageError } from '../../src-main/contract';
 import { acquireBatchLock, type LockEnv, lockPathFor, processAlive } from '../../src-main/node/batch/lock';
 import {
   type JournalHandle,
@@ -17,6 +17,7 @@ import {
   manifestBase,
   readManifest,
 } from '../../src-main/node/batch/manifest';
+import { okRow } from './rows';
 
 let dir: string;
 beforeAll(async () => {
@@ -27,17 +28,7 @@ afterAll(async () => {
 });
 
 function row(path: string, pad = 0): BatchRow {
-  return {
-    v: MANIFEST_VERSION,
-    path,
-    output: `${path}.rkf`,
-    inputAbs: `/in/${path}`,
-    outputAbs: `/out/${path}.rkf`,
-    status: 'ok',
-    note: pad ? 'x'.repeat(pad) : undefined,
-    shard: '0/1',
-    at: '2026-12-01T00:00:00.000Z',
-  };
+  return okRow(path, { note: pad ? 'x'.repeat(pad) : undefined });
 }
 
 /** Every line of the file is a whole row, and the file ends at a row's end. */

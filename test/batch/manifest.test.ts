@@ -147,6 +147,17 @@ describe('report', () => {
     expect(html).toContain('Failures (1)');
   });
 
+  it('names ranks in words in the report (the CSV keeps the short form)', () => {
+    const ranks: BatchRow['ranks'] = [
+      { channel: 'gray', tiles: { count: 1786, min: 0, max: 27, mean: 4.25, total: 7590 } },
+      { channel: 'alpha', rank: 1 },
+    ];
+    const html = renderReport([row('tiled.png', { ranks })], { title: 't', shards: ['0/1'] });
+    expect(html).toContain('gray: 1786 tiles, rank 0 to 27 (mean 4.3); alpha: rank 1');
+    expect(html).not.toContain('t1786[');
+    expect(rowsToCsv([row('tiled.png', { ranks })])).toContain('gray:t1786[0-27] alpha:1');
+  });
+
   it('picks the lowest PSNR files for thumbnails, exact files last', () => {
     expect(worstRows(rows, 2).map((r) => r.path)).toEqual(['worse.png', 'good.png']);
   });

@@ -3,6 +3,7 @@
 // Worker semantics per Node.js 20 worker_threads docs ('error' and 'exit' events, worker.terminate()).
 import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
+import { adviceOf, type ErrorPayload } from '../../src-main/contract';
 import { WorkerPool } from '../../src-main/node/batch/pool';
 
 const workerFile = fileURLToPath(new URL('./fixtures/pool-worker.mjs', import.meta.url));
@@ -38,6 +39,12 @@ describe('WorkerPool', () => {
     expect(msg(5)).toBe(
       'file5.png: took longer than the per-file limit of 0.4 s and was stopped; raise it with --timeout',
     );
+    // The app's wording drops the CLI flag (the hint names what to do instead).
+    const timedOut = out[5] as { ok: false; error: ErrorPayload };
+    expect(adviceOf(timedOut.error)).toEqual({
+      core: 'file5.png: took longer than the per-file limit of 0.4 s and was stopped',
+      hint: 'timeout',
+    });
   });
 
   it('close() cancels queued work', async () => {

@@ -154,6 +154,12 @@ describe.skipIf(!built)('rankfold batch --total (built CLI)', () => {
       join(out, 'rankfold-manifest-1of2.jsonl'),
     ]);
     expect(m.stderr).toMatch(/total: \d+ bytes .* written of 12000 .*within the total/);
+    expect(m.stderr).toMatch(/remaining: \d+ bytes/);
+    // The plan held back 1 % (120 bytes); rounding of the caps can only add to what no file was given.
+    const reserve = Number(/reserve: (\d+) bytes/.exec(m.stderr)?.[1]);
+    expect(reserve).toBeGreaterThanOrEqual(120);
+    expect(m.stderr).toMatch(/drift of shard 0\/2: \d+ bytes written against \d+ planned/);
+    expect(m.stderr).toMatch(/drift of shard 1\/2: /);
     expect(jsonLines('')).toEqual([]);
   });
 });

@@ -68,18 +68,42 @@ export function planLines(p: SharedPlan): string[] {
 }
 
 /**
- * `batch --merge` of shards that encoded one shared plan: the sum written against the plan's total.
- * Empty when the rows carry no plan. `over` is true when the sum is above the total.
+ * `batch --merge` of shards that encoded one shared plan: the sum written against the plan's total, the bytes
+ * that remain, the bytes no file was given (the plan's reserve, as seen from the rows), and each shard's drift:
+ * what it wrote against the caps it was planned. Empty when the rows carry no plan. `over` is true when the
+ * sum is above the total.
  */
 export function mergedTotalLines(rows: BatchRow[]): { lines: string[]; over: boolean } {
   const planned = rows.filter((r) => r.plan);
   if (!planned.length) return { lines: [], over: false };
   const total = planned[0].plan!.total;
+  const wrote = (r: BatchRow) => (r.status === 'ok' || r.status === 'kept' ? (r.bytes ?? 0) : 0);
   const written = rows.filter((r) => r.status === 'ok' || r.status === 'kept');
-  const sum = written.reduce((s, r) => s + (r.bytes ?? 0), 0);
+  const sum = rows.reduce((s, r) => s + wrote(r), 0);
+  const caps = planned.reduce((s, r) => s + r.plan!.bytes, 0);
+  const shards = new Map<string, { written: number; caps: number; files: number }>();
+  for (const r of planned) {
+    const s = shards.get(r.shard) ?? { written: 0, caps: 0, files: 0 };
+    s.written += wrote(r);
+    s.caps += r.plan!.bytes;
+    s.files++;
+    shards.set(r.shard, s);
+  }
+  const signed = (n: number) => (n > 0 ? `+${n}` : `${n}`);
+  const drift = [...shards]
+    .sort(([a], [b]) => (a < b ? -1 : a > b ? 1 : 0))
+    .map(
+      ([shard, s]) =>
+        `drift of shard ${shard}: ${s.written} bytes written against ${s.caps} planned for its ${s.files} file${s.files === 1 ? '' : 's'} (${signed(s.written - s.caps)} bytes, ${signed(Math.round((1000 * (s.written - s.caps)) / Math.max(1, s.caps)) / 10)} %)`,
+    );
   return {
     lines: [
       `total: ${sum} bytes (${sizeText(sum)}) written of ${total} (${sizeText(total)})${sum <= total ? ', within the total' : ', OVER THE TOTAL'}`,
+      sum <= total
+        ? `remaining: ${total - sum} bytes (${sizeText(total - sum)}) of the total not written`
+        : `remaining: none; the files are ${sum - total} bytes over the total`,
+      `reserve: ${total - caps} bytes (${sizeText(Math.max(0, total - caps))}) of the total were given to no file (the plan's reserve, plus files with no row)`,
+      ...drift,
       `achieved PSNR: ${spreadText(written.filter((r) => r.psnr !== undefined).map((r) => r.psnr!))}`,
     ],
     over: sum > total,

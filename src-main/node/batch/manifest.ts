@@ -181,6 +181,24 @@ export function ranksText(ranks: BatchRow['ranks']): string {
     .join(' ');
 }
 
+/**
+ * Ranks in words for the report: `gray: rank 40`, or for tiles `gray: 1786 tiles, rank 0 to 27 (mean 4.2)`.
+ * The CSV keeps the short form of {@link ranksText}.
+ */
+export function ranksWords(ranks: BatchRow['ranks']): string {
+  if (!ranks) return '';
+  return ranks
+    .map((r) => {
+      if (r.rank !== undefined) return `${r.channel}: rank ${r.rank}`;
+      const t = r.tiles;
+      if (!t) return r.channel;
+      const span =
+        t.min === t.max ? `rank ${t.min}` : `rank ${t.min} to ${t.max} (mean ${t.mean.toFixed(1)})`;
+      return `${r.channel}: ${t.count} tile${t.count === 1 ? '' : 's'}, ${span}`;
+    })
+    .join('; ');
+}
+
 const CSV_COLUMNS = [
   'path',
   'output',

@@ -9,7 +9,9 @@
  * where `error` is an ErrorPayload (`{ name, message, details }`).
  */
 import { Worker } from 'node:worker_threads';
-import { CancelledError, type ErrorPayload, toErrorPayload } from '../../contract';
+import { CancelledError, type ErrorPayload, hinted, toErrorPayload } from '../../contract';
+
+const TIMEOUT_ADVICE = '; raise it with --timeout';
 
 export type JobOutcome<O> = { ok: true; value: O } | { ok: false; error: ErrorPayload };
 
@@ -159,8 +161,9 @@ export class WorkerPool<I, O> {
           ok: false,
           error: {
             name: 'TimeoutError',
-            message: `${job.options.label ? `${job.options.label}: ` : ''}took longer than the per-file limit of ${seconds} s and was stopped; raise it with --timeout`,
-            details: { timeoutMs: job.options.timeoutMs },
+            message: `${job.options.label ? `${job.options.label}: ` : ''}took longer than the per-file limit of ${seconds} s and was stopped${TIMEOUT_ADVICE}`,
+            // The hint lets the app drop the CLI flag and say what to do in the app (contract/replies.ts).
+            details: { timeoutMs: job.options.timeoutMs, ...hinted('timeout', TIMEOUT_ADVICE) },
           },
         });
         this.pump();

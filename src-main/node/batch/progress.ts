@@ -1,4 +1,7 @@
-/** Live progress on a terminal (stderr): files done/total, MB/s of input and an ETA by bytes. */
+/**
+ * Live progress on a terminal (stderr): files done/total, MB/s of input and an ETA by bytes; and, before a
+ * `--total` run encodes, the survey's own bar (files measured, ETA by files).
+ */
 import cliProgress from 'cli-progress';
 
 export interface ProgressView {
@@ -13,19 +16,17 @@ function fmtEta(s: number): string {
   return `${(s / 3600).toFixed(1)} h`;
 }
 
+/** One bar of the batch's look on `stream` (the ETA is computed here, not by cli-progress). */
+function makeBar(stream: NodeJS.WriteStream, format: string) {
+  const options = { stream, format, barsize: 28, hideCursor: true, clearOnComplete: false, fps: 5 };
+  return new cliProgress.SingleBar(options, cliProgress.Presets.shades_classic);
+}
+
 export function terminalProgress(total: number, stream: NodeJS.WriteStream = process.stderr): ProgressView {
   const started = performance.now();
-  const bar = new cliProgress.SingleBar(
-    {
-      stream,
-      format: 'batch {bar} {value}/{total} files | {mbps} MB/s | ETA {etaText} | {failed} failed',
-      barsize: 28,
-      hideCursor: true,
-      clearOnComplete: false,
-      etaBuffer: 1,
-      fps: 5,
-    },
-    cliProgress.Presets.shades_classic,
+  const bar = makeBar(
+    stream,
+    'batch {bar} {value}/{total} files | {mbps} MB/s | ETA {etaText} | {failed} failed',
   );
   bar.start(total, 0, { mbps: '0.0', etaText: '–', failed: 0 });
   return {
@@ -37,6 +38,25 @@ export function terminalProgress(total: number, stream: NodeJS.WriteStream = pro
         etaText: rate > 0 ? fmtEta((p.bytesTotal - p.bytesDone) / rate) : '–',
         failed: p.failed,
       });
+    },
+    stop() {
+      bar.stop();
+    },
+  };
+}
+
+/** The survey's bar (`batch --total`, `--survey`): files measured of the files to measure, and an ETA. */
+export function surveyProgress(
+  total: number,
+  stream: NodeJS.WriteStream = process.stderr,
+): { update(done: number): void; stop(): void } {
+  const started = performance.now();
+  const bar = makeBar(stream, 'survey {bar} {value}/{total} files measured | ETA {etaText}');
+  bar.start(total, 0, { etaText: '–' });
+  return {
+    update(done) {
+      const secs = (performance.now() - started) / 1000;
+      bar.update(done, { etaText: done > 0 ? fmtEta((secs * (total - done)) / done) : '–' });
     },
     stop() {
       bar.stop();

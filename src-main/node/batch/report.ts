@@ -5,7 +5,7 @@
 import type { BatchRow } from '../../contract';
 import { LOSSY_CAUTION } from '../../contract';
 import { writeFileAtomic } from '../io/atomic';
-import { ranksText, sortRows } from './manifest';
+import { ranksWords, sortRows } from './manifest';
 import { collectionSection } from './report-total';
 import { makeThumbnails, type ThumbPair } from './thumbs';
 import { niceTicks } from './ticks';
@@ -159,7 +159,7 @@ export function renderReport(
       ]
         .map(([k, v]) => `data-${k}="${escapeHtml(v)}"`)
         .join(' ');
-      return `<tr class="${r.status}" ${attrs}><td>${escapeHtml(r.path)}</td><td>${r.status}</td><td class="n">${r.bytes === undefined ? '' : fmtBytes(r.bytes)}</td><td class="n">${r.ratio === undefined ? '' : r.ratio.toFixed(2)}</td><td class="n">${fmtDb(r.psnr)}</td><td class="n">${r.ssim === undefined ? '' : r.ssim.toFixed(4)}</td><td>${escapeHtml(ranksText(r.ranks))}</td><td class="n">${r.timeMs === undefined ? '' : (r.timeMs / 1000).toFixed(2)}</td><td class="err">${escapeHtml(r.error?.message ?? (r.status === 'skipped' ? (r.note ?? '') : ''))}</td></tr>`;
+      return `<tr class="${r.status}" ${attrs}><td>${escapeHtml(r.path)}</td><td>${r.status}</td><td class="n">${r.bytes === undefined ? '' : fmtBytes(r.bytes)}</td><td class="n">${r.ratio === undefined ? '' : r.ratio.toFixed(2)}</td><td class="n">${fmtDb(r.psnr)}</td><td class="n">${r.ssim === undefined ? '' : r.ssim.toFixed(4)}</td><td>${escapeHtml(ranksWords(r.ranks))}</td><td class="n">${r.timeMs === undefined ? '' : (r.timeMs / 1000).toFixed(2)}</td><td class="err">${escapeHtml(r.error?.message ?? (r.status === 'skipped' ? (r.note ?? '') : ''))}</td></tr>`;
     })
     .join('\n');
   const pairs = worst

@@ -5,7 +5,7 @@
  */
 import { availableParallelism } from 'node:os';
 import { join } from 'node:path';
-import type { BatchFileStatus, BatchRequest } from '../../contract';
+import { adviceOf, type BatchFileStatus, type BatchRequest, type ErrorPayload } from '../../contract';
 import { runBatch } from '../batch/run';
 
 export interface BatchProgress {
@@ -63,7 +63,7 @@ export async function runBatchJob(
           total: e.total,
           file: e.path,
           message:
-            e.error?.message ??
+            appMessage(e.error) ??
             (e.status === 'skipped' ? e.note : undefined) ??
             (e.psnr !== undefined ? `${e.bytes} bytes, PSNR ${e.psnr.toFixed(2)} dB` : undefined),
         });
@@ -72,10 +72,15 @@ export async function runBatchJob(
   const files: BatchFileStatus[] = r.rows.map((row) => ({
     file: row.path,
     state: STATE[row.status] ?? 'failed',
-    message: row.error?.message ?? (row.status === 'skipped' ? row.note : undefined),
+    message: appMessage(row.error) ?? (row.status === 'skipped' ? row.note : undefined),
     // A planned row (a total's dry run) carries its planned bytes and predicted PSNR.
     outputBytes: row.bytes ?? row.plan?.bytes,
     psnr: row.psnr ?? row.plan?.psnr,
   }));
   return { files, reportPath: r.summary.report, cancelled: r.interrupted };
+}
+
+/** An error as the app shows it: without the CLI's advice (a flag such as --timeout), which the app words itself. */
+function appMessage(error: ErrorPayload | undefined): string | undefined {
+  return error ? adviceOf(error).core : undefined;
 }

@@ -10,7 +10,7 @@ import { collectionLines, mergedTotalLines, planLines } from '../../batch/collec
 import { rowToJson } from '../../batch/manifest';
 import { mergeManifests } from '../../batch/merge';
 import { makeSharedPlan } from '../../batch/plan-file';
-import { type ProgressView, terminalProgress } from '../../batch/progress';
+import { type ProgressView, surveyProgress, terminalProgress } from '../../batch/progress';
 import { runBatch } from '../../batch/run';
 import { batchWorkerFile } from '../../batch/worker-path';
 import { parseBatchArgs } from '../args/batch-args';
@@ -159,6 +159,16 @@ async function run(argv: string[], io: CliIO): Promise<number> {
   const workerFile = args.dryRun && !surveys ? '' : batchWorkerFile();
   if (!args.json && !args.dryRun) io.stderr(`${LOSSY_CAUTION}\n`);
   let bar: ProgressView | undefined;
+  // A collection run surveys before it encodes: the survey's bar first, the batch's bar once the plan is made.
+  let survey: ReturnType<typeof surveyProgress> | undefined;
+  let barTotal: number | undefined;
+  let surveyEnded = !surveys;
+  const startBar = () => {
+    survey?.stop();
+    survey = undefined;
+    surveyEnded = true;
+    if (barTotal !== undefined && !bar) bar = terminalProgress(barTotal);
+  };
   const controller = new AbortController();
   const onSignal = () => controller.abort();
   process.once('SIGINT', onSignal);
@@ -172,7 +182,10 @@ async function run(argv: string[], io: CliIO): Promise<number> {
       onEvent: (e) => {
         if (args.json)
           io.stdout(e.event === 'file' ? `${rowToJson(e as never)}\n` : `${JSON.stringify(e)}\n`);
-        if (e.event === 'start' && io.isTTY && !args.dryRun) bar = terminalProgress(e.total);
+        if (e.event === 'start' && io.isTTY && !args.dryRun) {
+          barTotal = e.total;
+          if (surveyEnded) startBar();
+        }
         if (e.event === 'file' && !bar && !args.json) io.stderr(humanLine(e));
         else if (e.event === 'file' && bar && e.status === 'failed') {
           // Failures are worth seeing live, above the bar.
@@ -180,10 +193,18 @@ async function run(argv: string[], io: CliIO): Promise<number> {
         }
       },
       onProgress: (p) => bar?.update(p),
+      onSurvey: (done, total) => {
+        if (!io.isTTY || args.json) return;
+        survey ??= surveyProgress(total);
+        survey.update(done);
+      },
+      // The survey and plan notes come once the survey has ended.
       onNote: (text) => {
+        if (!surveyEnded) startBar();
         if (!args.json) io.stderr(`${text}\n`);
       },
     });
+    survey?.stop();
     bar?.stop();
     io.stderr(summaryText(result.summary, result.warnings, result.interrupted, result.rows, result.notices));
     if (result.collection && !args.json)
@@ -196,6 +217,7 @@ async function run(argv: string[], io: CliIO): Promise<number> {
     // CSV or report that could not be written.
     return result.summary.failed > 0 || result.interrupted || result.warnings.length > 0 ? 2 : 0;
   } finally {
+    survey?.stop();
     bar?.stop();
     process.removeListener('SIGINT', onSignal);
     process.removeListener('SIGTERM', onSignal);
