@@ -21,13 +21,13 @@ const NC_F32: i32 = 256;
   for (let p = 0; p < kc; p++) {
     const b0 = v128.load(pb);
     const b1 = v128.load(pb, 16);
-    let a = f32x4.splat(load<f32>(pa));
+    let a = v128.load32_splat(pa);
     c00 = f32x4.add(c00, f32x4.mul(a, b0)); c01 = f32x4.add(c01, f32x4.mul(a, b1));
-    a = f32x4.splat(load<f32>(pa + rA));
+    a = v128.load32_splat(pa + rA);
     c10 = f32x4.add(c10, f32x4.mul(a, b0)); c11 = f32x4.add(c11, f32x4.mul(a, b1));
-    a = f32x4.splat(load<f32>(pa + 2 * rA));
+    a = v128.load32_splat(pa + 2 * rA);
     c20 = f32x4.add(c20, f32x4.mul(a, b0)); c21 = f32x4.add(c21, f32x4.mul(a, b1));
-    a = f32x4.splat(load<f32>(pa + 3 * rA));
+    a = v128.load32_splat(pa + 3 * rA);
     c30 = f32x4.add(c30, f32x4.mul(a, b0)); c31 = f32x4.add(c31, f32x4.mul(a, b1));
     pa += sA;
     pb += sB;
@@ -47,7 +47,7 @@ const NC_F32: i32 = 256;
 @inline function kern1x8f32(kc: i32, pa: usize, sA: usize, pb: usize, sB: usize, pc: usize, acc: bool): void {
   let c0 = f32x4.splat(0), c1 = f32x4.splat(0);
   for (let p = 0; p < kc; p++) {
-    const a = f32x4.splat(load<f32>(pa));
+    const a = v128.load32_splat(pa);
     c0 = f32x4.add(c0, f32x4.mul(a, v128.load(pb)));
     c1 = f32x4.add(c1, f32x4.mul(a, v128.load(pb, 16)));
     pa += sA;
@@ -83,10 +83,10 @@ const NC_F32: i32 = 256;
   let c0 = f32x4.splat(0), c1 = f32x4.splat(0), c2 = f32x4.splat(0), c3 = f32x4.splat(0);
   for (let p = 0; p < kc; p++) {
     const b0 = v128.load(pb);
-    c0 = f32x4.add(c0, f32x4.mul(f32x4.splat(load<f32>(pa)), b0));
-    c1 = f32x4.add(c1, f32x4.mul(f32x4.splat(load<f32>(pa + rA)), b0));
-    c2 = f32x4.add(c2, f32x4.mul(f32x4.splat(load<f32>(pa + 2 * rA)), b0));
-    c3 = f32x4.add(c3, f32x4.mul(f32x4.splat(load<f32>(pa + 3 * rA)), b0));
+    c0 = f32x4.add(c0, f32x4.mul(v128.load32_splat(pa), b0));
+    c1 = f32x4.add(c1, f32x4.mul(v128.load32_splat(pa + rA), b0));
+    c2 = f32x4.add(c2, f32x4.mul(v128.load32_splat(pa + 2 * rA), b0));
+    c3 = f32x4.add(c3, f32x4.mul(v128.load32_splat(pa + 3 * rA), b0));
     pa += sA;
     pb += sB;
   }
@@ -100,7 +100,7 @@ const NC_F32: i32 = 256;
 @inline function kern1x4f32(kc: i32, pa: usize, sA: usize, pb: usize, sB: usize, pc: usize, acc: bool): void {
   let c0 = f32x4.splat(0);
   for (let p = 0; p < kc; p++) {
-    c0 = f32x4.add(c0, f32x4.mul(f32x4.splat(load<f32>(pa)), v128.load(pb)));
+    c0 = f32x4.add(c0, f32x4.mul(v128.load32_splat(pa), v128.load(pb)));
     pa += sA;
     pb += sB;
   }
@@ -112,10 +112,10 @@ const NC_F32: i32 = 256;
   let c0 = f64x2.splat(0), c1 = f64x2.splat(0), c2 = f64x2.splat(0), c3 = f64x2.splat(0);
   for (let p = 0; p < kc; p++) {
     const b0 = v128.load(pb);
-    c0 = f64x2.add(c0, f64x2.mul(f64x2.splat(load<f64>(pa)), b0));
-    c1 = f64x2.add(c1, f64x2.mul(f64x2.splat(load<f64>(pa + rA)), b0));
-    c2 = f64x2.add(c2, f64x2.mul(f64x2.splat(load<f64>(pa + 2 * rA)), b0));
-    c3 = f64x2.add(c3, f64x2.mul(f64x2.splat(load<f64>(pa + 3 * rA)), b0));
+    c0 = f64x2.add(c0, f64x2.mul(v128.load64_splat(pa), b0));
+    c1 = f64x2.add(c1, f64x2.mul(v128.load64_splat(pa + rA), b0));
+    c2 = f64x2.add(c2, f64x2.mul(v128.load64_splat(pa + 2 * rA), b0));
+    c3 = f64x2.add(c3, f64x2.mul(v128.load64_splat(pa + 3 * rA), b0));
     pa += sA;
     pb += sB;
   }
@@ -129,7 +129,7 @@ const NC_F32: i32 = 256;
 @inline function kern1x2f64(kc: i32, pa: usize, sA: usize, pb: usize, sB: usize, pc: usize, acc: bool): void {
   let c0 = f64x2.splat(0);
   for (let p = 0; p < kc; p++) {
-    c0 = f64x2.add(c0, f64x2.mul(f64x2.splat(load<f64>(pa)), v128.load(pb)));
+    c0 = f64x2.add(c0, f64x2.mul(v128.load64_splat(pa), v128.load(pb)));
     pa += sA;
     pb += sB;
   }
@@ -184,13 +184,13 @@ export function gemmF32(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b:
   for (let p = 0; p < kc; p++) {
     const b0 = v128.load(pb);
     const b1 = v128.load(pb, 16);
-    let a = f64x2.splat(load<f64>(pa));
+    let a = v128.load64_splat(pa);
     c00 = f64x2.add(c00, f64x2.mul(a, b0)); c01 = f64x2.add(c01, f64x2.mul(a, b1));
-    a = f64x2.splat(load<f64>(pa + rA));
+    a = v128.load64_splat(pa + rA);
     c10 = f64x2.add(c10, f64x2.mul(a, b0)); c11 = f64x2.add(c11, f64x2.mul(a, b1));
-    a = f64x2.splat(load<f64>(pa + 2 * rA));
+    a = v128.load64_splat(pa + 2 * rA);
     c20 = f64x2.add(c20, f64x2.mul(a, b0)); c21 = f64x2.add(c21, f64x2.mul(a, b1));
-    a = f64x2.splat(load<f64>(pa + 3 * rA));
+    a = v128.load64_splat(pa + 3 * rA);
     c30 = f64x2.add(c30, f64x2.mul(a, b0)); c31 = f64x2.add(c31, f64x2.mul(a, b1));
     pa += sA;
     pb += sB;
@@ -210,7 +210,7 @@ export function gemmF32(m: i32, n: i32, k: i32, a: usize, rsA: i32, csA: i32, b:
 @inline function kern1x4f64(kc: i32, pa: usize, sA: usize, pb: usize, sB: usize, pc: usize, acc: bool): void {
   let c0 = f64x2.splat(0), c1 = f64x2.splat(0);
   for (let p = 0; p < kc; p++) {
-    const a = f64x2.splat(load<f64>(pa));
+    const a = v128.load64_splat(pa);
     c0 = f64x2.add(c0, f64x2.mul(a, v128.load(pb)));
     c1 = f64x2.add(c1, f64x2.mul(a, v128.load(pb, 16)));
     pa += sA;
