@@ -89,99 +89,90 @@ function inv1d(x: Float64Array, o: number, s: number, n: number, tmp: Float64Arr
 }
 
 /**
- * Column pass of one level on the top-left w×h region (row stride `width`), done as operations on
- * whole rows so memory is read contiguously. Per sample, the arithmetic and its order are exactly those
- * of {@link fwd1d} on the column, so results are bit-identical to a column-by-column transform.
+ * Columns per strip of the column pass: a strip of h rows × STRIP columns is lifted in a buffer of
+ * h·STRIP samples (640 kB for h = 2500), which stays in cache across the four lifting steps, where a
+ * whole-plane buffer would be streamed from memory four times.
+ */
+const STRIP = 32;
+
+/**
+ * One lifting step on a strip buffer of `sw` columns holding nL low rows then nH high rows: predict
+ * (high rows from low rows, `high` true) or update (low rows from high rows), row[k] += c·(a[k] + b[k]),
+ * the neighbour row index clamped (symmetric extension). Per sample, the arithmetic and its order are those
+ * of liftHigh/liftLow on the column.
+ */
+function liftRows(buf: Float64Array, nL: number, nH: number, sw: number, c: number, high: boolean): void {
+  const n = high ? nH : nL;
+  for (let i = 0; i < n; i++) {
+    const row = (high ? nL + i : i) * sw;
+    const a = (high ? i : nL + (i > 0 ? i - 1 : 0)) * sw;
+    const b = (high ? (i + 1 < nL ? i + 1 : nL - 1) : nL + (i < nH ? i : nH - 1)) * sw;
+    for (let k = 0; k < sw; k++) buf[row + k] += c * (buf[a + k] + buf[b + k]);
+  }
+}
+
+/**
+ * Column pass of one level on the top-left w×h region (row stride `width`), in strips of {@link STRIP}
+ * columns lifted as whole strip rows, so memory is read contiguously and the strip stays in cache. Per
+ * sample, the arithmetic and its order are exactly those of {@link fwd1d} on the column, so results are
+ * bit-identical to a column-by-column transform.
  */
 function fwdCols(x: Float64Array, width: number, w: number, h: number, buf: Float64Array): void {
   if (h < 2) return;
   const nL = (h + 1) >> 1;
   const nH = h >> 1;
-  for (let i = 0; i < h; i++) {
-    const src = (i & 1 ? nL + (i >> 1) : i >> 1) * w;
-    buf.set(x.subarray(i * width, i * width + w), src);
-  }
-  const L = (i: number) => i * w;
-  const H = (i: number) => (nL + i) * w;
-  const predict = (c: number) => {
-    for (let i = 0; i < nH; i++) {
-      const hi = H(i);
-      const a = L(i);
-      const b = L(Math.min(i + 1, nL - 1));
-      for (let k = 0; k < w; k++) buf[hi + k] += c * (buf[a + k] + buf[b + k]);
+  for (let k0 = 0; k0 < w; k0 += STRIP) {
+    const sw = Math.min(STRIP, w - k0);
+    for (let i = 0; i < h; i++) {
+      const d = (i & 1 ? nL + (i >> 1) : i >> 1) * sw;
+      const o = i * width + k0;
+      for (let k = 0; k < sw; k++) buf[d + k] = x[o + k];
     }
-  };
-  const update = (c: number) => {
-    for (let i = 0; i < nL; i++) {
-      const lo = L(i);
-      const a = H(Math.max(i - 1, 0));
-      const b = H(Math.min(i, nH - 1));
-      for (let k = 0; k < w; k++) buf[lo + k] += c * (buf[a + k] + buf[b + k]);
+    liftRows(buf, nL, nH, sw, ALPHA, true);
+    liftRows(buf, nL, nH, sw, BETA, false);
+    liftRows(buf, nL, nH, sw, GAMMA, true);
+    liftRows(buf, nL, nH, sw, DELTA, false);
+    for (let i = 0; i < h; i++) {
+      const o = i * width + k0;
+      const b = i * sw;
+      if (i < nL) for (let k = 0; k < sw; k++) x[o + k] = buf[b + k] / ZETA;
+      else for (let k = 0; k < sw; k++) x[o + k] = buf[b + k] * ZETA;
     }
-  };
-  predict(ALPHA);
-  update(BETA);
-  predict(GAMMA);
-  update(DELTA);
-  for (let i = 0; i < nL; i++) {
-    const o = i * width;
-    const b = L(i);
-    for (let k = 0; k < w; k++) x[o + k] = buf[b + k] / ZETA;
-  }
-  for (let i = 0; i < nH; i++) {
-    const o = (nL + i) * width;
-    const b = H(i);
-    for (let k = 0; k < w; k++) x[o + k] = buf[b + k] * ZETA;
   }
 }
 
-/** Inverse of {@link fwdCols}, bit-identical to {@link inv1d} on every column. */
+/**
+ * Inverse of {@link fwdCols}, bit-identical to {@link inv1d} on every column (x − c·s equals x + (−c)·s in
+ * IEEE arithmetic, so the undo steps add the negated coefficients as inv1d does).
+ */
 function invCols(x: Float64Array, width: number, w: number, h: number, buf: Float64Array): void {
   if (h < 2) return;
   const nL = (h + 1) >> 1;
   const nH = h >> 1;
-  const L = (i: number) => i * w;
-  const H = (i: number) => (nL + i) * w;
-  for (let i = 0; i < nL; i++) {
-    const o = i * width;
-    const b = L(i);
-    for (let k = 0; k < w; k++) buf[b + k] = x[o + k] * ZETA;
-  }
-  for (let i = 0; i < nH; i++) {
-    const o = (nL + i) * width;
-    const b = H(i);
-    for (let k = 0; k < w; k++) buf[b + k] = x[o + k] / ZETA;
-  }
-  const unupdate = (c: number) => {
-    for (let i = 0; i < nL; i++) {
-      const lo = L(i);
-      const a = H(Math.max(i - 1, 0));
-      const b = H(Math.min(i, nH - 1));
-      for (let k = 0; k < w; k++) buf[lo + k] -= c * (buf[a + k] + buf[b + k]);
+  for (let k0 = 0; k0 < w; k0 += STRIP) {
+    const sw = Math.min(STRIP, w - k0);
+    for (let i = 0; i < h; i++) {
+      const o = i * width + k0;
+      const b = i * sw;
+      if (i < nL) for (let k = 0; k < sw; k++) buf[b + k] = x[o + k] * ZETA;
+      else for (let k = 0; k < sw; k++) buf[b + k] = x[o + k] / ZETA;
     }
-  };
-  const unpredict = (c: number) => {
-    for (let i = 0; i < nH; i++) {
-      const hi = H(i);
-      const a = L(i);
-      const b = L(Math.min(i + 1, nL - 1));
-      for (let k = 0; k < w; k++) buf[hi + k] -= c * (buf[a + k] + buf[b + k]);
+    liftRows(buf, nL, nH, sw, -DELTA, false);
+    liftRows(buf, nL, nH, sw, -GAMMA, true);
+    liftRows(buf, nL, nH, sw, -BETA, false);
+    liftRows(buf, nL, nH, sw, -ALPHA, true);
+    for (let i = 0; i < h; i++) {
+      const s = (i & 1 ? nL + (i >> 1) : i >> 1) * sw;
+      const o = i * width + k0;
+      for (let k = 0; k < sw; k++) x[o + k] = buf[s + k];
     }
-  };
-  unupdate(DELTA);
-  unpredict(GAMMA);
-  unupdate(BETA);
-  unpredict(ALPHA);
-  for (let i = 0; i < h; i++) {
-    const src = (i & 1 ? nL + (i >> 1) : i >> 1) * w;
-    x.set(buf.subarray(src, src + w), i * width);
   }
 }
 
 /** In-place 2-D forward transform (Mallat layout). */
 export function forwardWavelet(x: Float64Array, width: number, height: number, levels: number): void {
   const tmp = new Float64Array(Math.max(width, height));
-  const buf = new Float64Array(width * height);
+  const buf = new Float64Array(height * STRIP);
   let w = width;
   let h = height;
   for (let l = 0; l < levels; l++) {
@@ -195,7 +186,7 @@ export function forwardWavelet(x: Float64Array, width: number, height: number, l
 /** In-place 2-D inverse transform. */
 export function inverseWavelet(x: Float64Array, width: number, height: number, levels: number): void {
   const tmp = new Float64Array(Math.max(width, height));
-  const buf = new Float64Array(width * height);
+  const buf = new Float64Array(height * STRIP);
   const ws = [width];
   const hs = [height];
   for (let l = 1; l < levels; l++) {
