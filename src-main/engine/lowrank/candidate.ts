@@ -60,6 +60,13 @@ export interface CandidateOptions {
    * component; used to scan steps). true (default): quantise-and-refit against the residual (O(h·w)).
    */
   refit?: boolean;
+  /**
+   * Most components each tile may keep, [plane][tile] (the dead zone still ends a tile's list earlier). The
+   * quality-floor search caps the refit at the ranks its model asks for (./floor-solve).
+   */
+  caps?: ArrayLike<number>[];
+  /** Called after each component with the share of the components (capped tiles) quantised so far. */
+  onProgress?: (fraction: number) => void;
 }
 
 /**
@@ -71,8 +78,10 @@ function tileComponents(
   tf: PlaneFactors['tiles'][number],
   step: number,
   opts: CandidateOptions,
+  cap: number,
+  tick: () => void,
 ): { list: Comp[]; e: Float64Array } {
-  const r = Math.min(tf.s.length, tf.U.cols, tf.V.cols, opts.maxRank ?? Number.POSITIVE_INFINITY);
+  const r = Math.min(tf.s.length, tf.U.cols, tf.V.cols, opts.maxRank ?? Number.POSITIVE_INFINITY, cap);
   const list: Comp[] = [];
   const e: number[] = [];
   const { h, w } = tf.rect;
@@ -133,6 +142,7 @@ function tileComponents(
     }
     list.push({ qu, qv });
     e.push(sigma * sigma - gain);
+    tick();
   }
   return { list, e: Float64Array.from(e) };
 }
@@ -153,6 +163,7 @@ export function collectComponents(
   const errs: Float64Array[][] = [];
   const index: Array<[number, number]> = [];
   let baseD = 0;
+  const tick = progressTicker(inputs, opts);
   for (let p = 0; p < inputs.length; p++) {
     const { factors, weight, stepScale } = inputs[p];
     const step = delta * stepScale;
@@ -161,7 +172,7 @@ export function collectComponents(
     for (let t = 0; t < factors.tiles.length; t++) {
       const tf = factors.tiles[t];
       baseD += weight * tf.energy;
-      const { list, e } = tileComponents(tf, step, opts);
+      const { list, e } = tileComponents(tf, step, opts, opts.caps?.[p][t] ?? Number.POSITIVE_INFINITY, tick);
       pc.push(list);
       pe.push(e);
       index.push([p, t]);
@@ -170,6 +181,24 @@ export function collectComponents(
     errs.push(pe);
   }
   return { comps, errs, index, baseD };
+}
+
+/**
+ * The per-component progress callback of {@link collectComponents}: the share of all (capped) components
+ * quantised so far, or a no-op without `opts.onProgress`.
+ */
+function progressTicker(inputs: PlaneInput[], opts: CandidateOptions): () => void {
+  const report = opts.onProgress;
+  if (!report) return () => {};
+  let total = 0;
+  for (let p = 0; p < inputs.length; p++)
+    for (let t = 0; t < inputs[p].factors.tiles.length; t++)
+      total += Math.min(inputs[p].factors.tiles[t].s.length, opts.caps?.[p][t] ?? Number.POSITIVE_INFINITY);
+  let done = 0;
+  return () => {
+    done++;
+    report(Math.min(1, done / Math.max(1, total)));
+  };
 }
 
 /**

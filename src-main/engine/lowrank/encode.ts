@@ -20,9 +20,18 @@ import { decodeImageFile } from './decode-image';
 import { budgetBytes, type EncodeOptions, type EncodeResult, type LayerSummary } from './encode-options';
 import { errorFigures } from './error-figures';
 import { factorPlane, type PlaneFactors } from './factorise';
+import { solveFloor } from './floor-solve';
 import { imageWriter } from './image-writer';
-import { finishScan, maxOf, measuredSse, type Prepared, residualFirstFor, sumSquares } from './scan-finish';
-import { type Plan, type PlaneInput, solveBytes, solveError, solveRank } from './solve';
+import {
+  decodedSse,
+  finishScan,
+  maxOf,
+  measuredSse,
+  type Prepared,
+  residualFirstFor,
+  sumSquares,
+} from './scan-finish';
+import { type Plan, type PlaneInput, solveBytes, solveRank } from './solve';
 import { chooseLayers, emptyBase, type LayerPlan } from './two-layer';
 
 /** Tile sides `--tile auto` tries. */
@@ -125,7 +134,9 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
     progress('allocate', (ti + 0.5) / total);
     let plan: Plan;
     try {
-      plan = solveFor(inputs, opts.budget, byteBudget, max, measure, img, prep, build);
+      plan = solveFor(inputs, opts.budget, byteBudget, max, measure, img, prep, build, (stage, f) =>
+        progress(stage, (ti + 0.5 + 0.45 * f) / total),
+      );
     } catch (err) {
       // Below the smallest base-only file (tile means, rank codes): a residual-only file may still fit.
       if (!(twoLayer && err instanceof UsageError && /smallest possible file/.test(err.message))) throw err;
@@ -170,7 +181,19 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
   const basePlanes = layered ? layered.basePlanes : best.plan.planes;
   const residual = layered?.residual;
   progress('write', 0.95);
-  const { frobenius, baseBytes, ...r } = finishScan(img, prep, entropy, opts, build, basePlanes, residual);
+  // A quality floor's plan carries the file it confirmed (and its decode): not written or decoded again.
+  const confirmed = layered ? undefined : best.plan;
+  const { frobenius, baseBytes, ...r } = finishScan(
+    img,
+    prep,
+    entropy,
+    opts,
+    build,
+    basePlanes,
+    residual,
+    confirmed?.file,
+    confirmed?.decoded,
+  );
   encodeMs += now() - t2;
   const errors = errorFigures(best.factors, r.ranks, prep, frobenius, basePlanes[0].tile, layered);
   const layers: LayerSummary = {
@@ -217,6 +240,7 @@ function solveFor(
   img: DecodedImage,
   prep: Prepared,
   build: (p: QuantPlane[]) => Uint8Array,
+  progress: (stage: string, fraction: number) => void,
 ): Plan {
   if (budget.kind === 'rank') {
     let loss = RANK_QUANT_LOSS;
@@ -259,34 +283,30 @@ function solveFor(
   };
   if (budget.kind === 'psnr') {
     const target = count * max * max * 10 ** (-budget.db / 10);
-    let dmax = target;
-    let found: Plan | undefined;
-    let around: number | undefined;
-    // Secant steps on the allowed error: clamping and rounding make the measured error differ from the
-    // factor-domain figure, so aim the next trial by the measured ratio (just under the floor).
-    for (let i = 0; i < 6; i++) {
-      const plan = solveError(inputs, dmax, max, around);
-      around = plan.stepIndex;
-      const bytes = build(plan.planes);
-      const measured = measuredSse(bytes, img, prep);
-      const ok = psnrFromSse(measured, count, max) >= budget.db;
-      if (ok) {
-        plan.bytes = bytes.length;
-        if (!found || plan.bytes < found.bytes) found = plan;
-      }
-      const ratio = measured > 0 ? target / measured : 2;
-      if (ok && ratio < 1.02) break;
-      dmax *= Math.min(4, Math.max(0.25, ratio)) * (ok ? 0.998 : 0.99);
-    }
-    if (!found) {
-      const plan = solveRank(inputs, Math.max(img.width, img.height), max, 0, 0.0005);
-      if (!meets(build(plan.planes)))
-        throw new UsageError(
-          `${img.file}: PSNR ${budget.db} dB cannot be reached by this codec for this image`,
-        );
-      found = plan;
-    }
-    return found;
+    const words = `floor ${budget.db} dB`;
+    const found = solveFloor(
+      inputs,
+      target,
+      max,
+      count,
+      (planes) => {
+        const file = build(planes);
+        const decoded = decodeImageFile(file, img.file);
+        const sse = decodedSse(decoded, img, prep);
+        return { file, decoded, sse, ok: psnrFromSse(sse, count, max) >= budget.db };
+      },
+      (stage, f) =>
+        stage === 'check'
+          ? progress('measure', 0.6 + 0.4 * f)
+          : progress(words, (stage === 'model' ? 0 : 0.1) + 0.5 * f),
+    );
+    if (found) return found;
+    const plan = solveRank(inputs, Math.max(img.width, img.height), max, 0, 0.0005);
+    if (!meets(build(plan.planes)))
+      throw new UsageError(
+        `${img.file}: PSNR ${budget.db} dB cannot be reached by this codec for this image`,
+      );
+    return plan;
   }
   if (budget.kind === 'ssim') {
     if (img.width < 11 || img.height < 11)

@@ -137,7 +137,7 @@ export function measuredSse(bytes: Uint8Array, img: DecodedImage, prep: Prepared
   return decodedSse(decodeImageFile(bytes, img.file), img, prep);
 }
 
-function decodedSse(d: DecodedRkf, img: DecodedImage, prep: Prepared): number {
+export function decodedSse(d: DecodedRkf, img: DecodedImage, prep: Prepared): number {
   const nc = prep.colour ? 3 : 1;
   let s = 0;
   for (let c = 0; c < nc; c++)

@@ -14,16 +14,16 @@ import {
   fitPrefix,
   type PlaneInput,
   prefixForBytes,
-  prefixForError,
   prefixRanks,
   quantPlanes,
 } from './candidate';
+import type { DecodedRkf } from './decode-image';
 
 // The candidate API ./two-layer takes from here.
 export { buildCandidate, type PlaneInput, prefixRanks, quantPlanes };
 
 /** Steps tried: base·2^(k/2), base = one grey level of the plane scale. */
-function stepGrid(maxValue: number): number[] {
+export function stepGrid(maxValue: number): number[] {
   const base = maxValue / 255;
   const out: number[] = [];
   for (let k = -6; k <= 16; k++) out.push(base * 2 ** (k / 2));
@@ -40,6 +40,9 @@ export interface Plan {
   estimatedError: number;
   /** The quantised candidate the plan is a greedy prefix of (set by solveBytes; reused by ./two-layer). */
   candidate?: Candidate;
+  /** The file of exactly these planes and its decode, when the search already wrote and decoded it. */
+  file?: Uint8Array;
+  decoded?: DecodedRkf;
 }
 
 /**
@@ -148,10 +151,9 @@ function sampleTiles(inputs: PlaneInput[]): { inputs: PlaneInput[]; fraction: nu
   return { inputs: sampled, fraction: kept / all };
 }
 
-/** Minimise f over even indices of [0, n) by walking downhill from the middle; returns [{ k }] best first. */
-function hillClimb(n: number, f: (k: number) => number): Array<{ k: number; err: number }> {
-  const memo = new Map<number, number>();
-  const at = (k: number) => {
+/** f with each value computed once; `memo` holds every argument tried and its value. */
+export function memoised(f: (k: number) => number, memo = new Map<number, number>()): (k: number) => number {
+  return (k) => {
     let v = memo.get(k);
     if (v === undefined) {
       v = f(k);
@@ -159,6 +161,12 @@ function hillClimb(n: number, f: (k: number) => number): Array<{ k: number; err:
     }
     return v;
   };
+}
+
+/** Minimise f over even indices of [0, n) by walking downhill from the middle; returns [{ k }] best first. */
+export function hillClimb(n: number, f: (k: number) => number): Array<{ k: number; err: number }> {
+  const memo = new Map<number, number>();
+  const at = memoised(f, memo);
   let k = Math.floor(n / 4) * 2;
   for (;;) {
     const here = at(k);
@@ -220,44 +228,5 @@ export function solveRank(
     delta: c.delta,
     bytes: 0,
     estimatedError: trunc + quantErr(c),
-  };
-}
-
-/** Smallest estimated size whose estimated error is ≤ dmax, over the step grid. */
-export function solveError(inputs: PlaneInput[], dmax: number, maxValue: number, around?: number): Plan {
-  const grid = stepGrid(maxValue);
-  let best: { c: Candidate; P: number; cost: number; k: number } | undefined;
-  /** Estimated bits to reach dmax at step k (Infinity when even every component does not reach it). */
-  const tryK = (k: number): number => {
-    if (k < 0 || k >= grid.length) return Number.POSITIVE_INFINITY;
-    const c = buildCandidate(inputs, grid[k]);
-    const P = prefixForError(c, dmax);
-    if (estimatedError(c, P) > dmax) return Number.POSITIVE_INFINITY;
-    if (!best || c.cumCost[P] < best.cost) best = { c, P, cost: c.cumCost[P], k };
-    return c.cumCost[P];
-  };
-  if (around === undefined) {
-    // Climb by octaves on the estimated cost; scan every octave when the climb finds nothing feasible.
-    const climb = hillClimb(grid.length, tryK);
-    if (!Number.isFinite(climb[0]?.err ?? Number.POSITIVE_INFINITY))
-      for (let k = 0; k < grid.length; k += 2) tryK(k);
-  } else for (const k of [around - 2, around, around + 2]) tryK(k);
-  const found = best as { k: number } | undefined;
-  if (found) {
-    const k0 = found.k;
-    tryK(k0 - 1);
-    tryK(k0 + 1);
-  }
-  if (!best) {
-    const c = buildCandidate(inputs, grid[0]);
-    best = { c, P: c.order.length, cost: c.cumCost[c.order.length], k: 0 };
-  }
-  const b = best as { c: Candidate; P: number; k: number };
-  return {
-    planes: quantPlanes(inputs, b.c, prefixRanks(b.c, b.P)),
-    delta: b.c.delta,
-    bytes: 0,
-    estimatedError: estimatedError(b.c, b.P),
-    stepIndex: b.k,
   };
 }
