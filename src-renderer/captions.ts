@@ -135,8 +135,15 @@ export function paneLabels(p: PaneView): { left: string; right: string } {
   return { left, right };
 }
 
-/** What the left pane says of a stack frame: a stack file keeps no originals. */
-export const NO_ORIGINAL_FRAME = 'The original frame is not in the stack file';
+/** What the left pane says of a stack frame when no folder of originals is given: a stack keeps none. */
+export const NO_ORIGINAL_FRAME =
+  'The original frame is not in the stack file. To see it here, give the folder of the original frames in the Stack card.';
+
+/** What the left pane says of a stack frame: no originals asked for, or why this one is not shown. */
+export function noOriginalText(info: StackFrameInfo): string | undefined {
+  if (!info.original) return NO_ORIGINAL_FRAME;
+  return info.original.shown ? undefined : `The original frame is not shown: ${info.original.note}.`;
+}
 
 /**
  * The pane labels and slider readout of a stack frame. Frames are counted from 1 here, in the CLI's
@@ -145,8 +152,11 @@ export const NO_ORIGINAL_FRAME = 'The original frame is not in the stack file';
 export function frameLabels(info: StackFrameInfo): { left: string; right: string; position: string } {
   const n = info.frame + 1;
   const name = info.frameNames[info.frame];
+  const o = info.original;
   return {
-    left: `original of frame ${n}: not available, not kept in a stack file`,
+    left: o?.shown
+      ? `original of frame ${n} · ${o.note.replace(/^original: /, '')}`
+      : `original of frame ${n}: ${o ? 'not shown' : 'not available, not kept in a stack file'}`,
     right: `frame ${n} of ${info.frameCount}${name ? ` · ${name}` : ''} · decoded from the stack file`,
     position: `${n} / ${info.frameCount}`,
   };

@@ -7,7 +7,7 @@ import { decodeFactorSet } from '../src-main/contract';
 import { bind } from './bind';
 import {
   frameLabels,
-  NO_ORIGINAL_FRAME,
+  noOriginalText,
   STACK_METRICS,
   stackCardCells,
   stackInfoText,
@@ -51,6 +51,9 @@ export function createStackCard(p: StackParts): StackCard {
     note: '#stack-note',
     dropHint: '#drop-hint',
     scanInfo: '#scan-info',
+    originalsForm: 'form#originals-form',
+    originalsPath: 'input#originals-path',
+    originalsNote: '#originals-note',
   });
   const cells = bindReadouts(el.card, STACK_METRICS, 'The Stack card');
   const body = document.body;
@@ -58,6 +61,8 @@ export function createStackCard(p: StackParts): StackCard {
   const leave = () => {
     stack.path = undefined;
     stack.info = undefined;
+    stack.originals = undefined;
+    el.originalsNote.textContent = '';
     stack.seq++;
     el.card.hidden = true;
     el.frame.disabled = true;
@@ -70,16 +75,23 @@ export function createStackCard(p: StackParts): StackCard {
     if (!info) throw new Error('the back end sent no stack summary');
     const first = !stack.info;
     stack.info = info;
-    const original = header.channels.map((_, c) => arrays[`src.${c}`] as Uint8Array | Uint16Array);
-    const recon = original.map((a) => Float32Array.from(a));
+    const decoded = header.channels.map((_, c) => arrays[`src.${c}`] as Uint8Array | Uint16Array);
+    const recon = decoded.map((a) => Float32Array.from(a));
+    // The original frame, when the back end found it in the folder the user gave; else the pane says why.
+    const noOriginal = noOriginalText(info);
+    const original = noOriginal
+      ? decoded
+      : header.channels.map((_, c) => arrays[`orig.${c}`] as Uint8Array | Uint16Array);
     p.view.setSource({
       width: header.width,
       height: header.height,
       peak: header.peak,
       original,
-      noOriginal: NO_ORIGINAL_FRAME,
+      noOriginal,
       recon: () => recon,
     });
+    el.originalsNote.textContent = info.original ? `Frame ${info.frame + 1}: ${info.original.note}` : '';
+    body.dataset.stackOriginal = info.original ? String(info.original.shown) : 'none';
     const labels = frameLabels(info);
     p.panes.write(labels);
     el.frameOut.textContent = labels.position;
@@ -114,7 +126,7 @@ export function createStackCard(p: StackParts): StackCard {
     try {
       while (seq === stack.seq) {
         const want = stack.want;
-        const buf = await api.stackFrame({ path: stack.path, frame: want });
+        const buf = await api.stackFrame({ path: stack.path, frame: want, originals: stack.originals });
         if (seq !== stack.seq) return;
         showFrame(buf);
         if (stack.want === want) break;
@@ -127,6 +139,29 @@ export function createStackCard(p: StackParts): StackCard {
       if (stack.loading === seq) stack.loading = undefined;
     }
   };
+
+  // The folder of the original frames: chosen once (the back end then reads the frame files in it), then
+  // every frame fetched comes with its original.
+  el.originalsForm.addEventListener('submit', (ev) => {
+    ev.preventDefault();
+    const typed = el.originalsPath.value.trim();
+    if (!typed || !stack.path) return;
+    void (async () => {
+      try {
+        // A folder, or the multi-page TIFF the stack was made from.
+        const chosen = await api
+          .pick({ kind: 'folder', suggested: typed })
+          .catch(() => api.pick({ kind: 'file', suggested: typed }));
+        if (!chosen.path) return;
+        stack.originals = typed;
+        stack.want = stack.info?.frame ?? 0;
+        stack.loading = undefined;
+        await loadFrame(stack.seq);
+      } catch (err) {
+        bar.failOpen(typed, err);
+      }
+    })();
+  });
 
   el.frame.addEventListener('input', () => {
     stack.want = Number(el.frame.value) - 1;

@@ -14,6 +14,8 @@ export type Showing = 'model' | 'cleaned' | 'removed';
 interface StackState {
   path?: string;
   info?: StackFrameInfo;
+  /** Where the original frames are, as the user typed it (once chosen). */
+  originals?: string;
   want: number;
   /** The `seq` of the fetch loop running, if any. */
   loading?: number;

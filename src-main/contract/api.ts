@@ -168,6 +168,11 @@ export interface StackFrameRequest {
   path: string;
   /** 0-based frame index. */
   frame: number;
+  /**
+   * Where the frames the stack was made from are (a folder the user chose, or the multi-page TIFF):
+   * the frame's original then comes back beside it (`orig.p` blocks), when it is the one that was stored.
+   */
+  originals?: string;
 }
 
 /** What the page shows about a stack and one of its frames; carried in the factor-set header as `stack`. */
@@ -191,6 +196,11 @@ export interface StackFrameInfo {
   ssim?: number;
   /** The lowest recorded PSNR over all frames (dB) and its frame (0-based), when the file records PSNR. */
   worst?: { frame: number; psnr: number };
+  /**
+   * With `originals` asked for: whether this frame's original is in the set (`orig.p` blocks), and which
+   * file it is or why it is not shown.
+   */
+  original?: { shown: boolean; note: string };
 }
 
 /** Progress of a long job; `done` of `total` in the job's own units (planes, files, passes). */

@@ -167,8 +167,13 @@ const METHODS = {
   stackFrame: method<ArrayBuffer>()({
     binary: true,
     validate: (v): StackFrameRequest => {
-      const o = checkFields('stackFrame', v, ['path', 'frame']);
-      return { path: checkPath('path', o.path), frame: checkOption(OPTIONS.frame, o.frame) };
+      const o = checkFields('stackFrame', v, ['path', 'frame', 'originals']);
+      const req: StackFrameRequest = {
+        path: checkPath('path', o.path),
+        frame: checkOption(OPTIONS.frame, o.frame),
+      };
+      if (o.originals !== undefined) req.originals = checkPath('originals', o.originals);
+      return req;
     },
   }),
   /** Write the .rkf, the expanded or the cleaned image, or hand it back for a download. */

@@ -70,11 +70,11 @@ afterAll(async () => {
   rmSync(dir, { recursive: true, force: true });
 });
 
-async function apiStackFrame(path: string, frame: number) {
+async function apiStackFrame(path: string, frame: number, originals?: string) {
   const res = await fetch(`${served.origin}/api/call/stackFrame`, {
     method: 'POST',
     headers: { 'Content-Type': 'application/json', 'X-Rankfold-Token': served.token },
-    body: JSON.stringify({ path, frame }),
+    body: JSON.stringify({ path, frame, originals }),
   });
   if ((res.headers.get('content-type') ?? '').startsWith('application/octet-stream'))
     return { buf: await res.arrayBuffer() };
@@ -178,6 +178,49 @@ describe('stack files in the page', () => {
     expect(Array.from(arrays['src.0'])).toEqual(Array.from(data));
     const bad = await apiStackFrame(stackFile, N);
     expect(bad.error).toMatch(/frame 9 does not exist; the stack holds frames 1–8/);
+  });
+
+  it('shows the original frame from the folder the user gives, and says why when it cannot', async () => {
+    await page.getByRole('textbox', { name: 'Folder of the original frames' }).fill(framesDir);
+    await page.getByRole('button', { name: 'Show originals' }).click();
+    await page.waitForSelector('body[data-stack-original="true"]', { timeout: 30_000 });
+    expect(await page.textContent('#label-left')).toBe('original of frame 7 · frame-7.png');
+    // Difference is no longer flat: the decoded frame against its original.
+    await page.getByRole('button', { name: 'Difference' }).click();
+    await shot(page, 'stack-original-difference');
+    await page.getByRole('button', { name: 'Side by side' }).click();
+    await shot(page, 'stack-original-side');
+    // The original the back end sends is the frame file itself, sample for sample (sharp 0.33 raw()).
+    const { data } = await sharp(join(framesDir, 'frame-3.png')).toColourspace('b-w').raw().toBuffer({
+      resolveWithObject: true,
+    });
+    const r = decodeFactorSet((await apiStackFrame(stackFile, 2, framesDir)).buf as ArrayBuffer);
+    expect(r.header.stack?.original).toEqual({ shown: true, note: 'original: frame-3.png' });
+    expect(Array.from(r.arrays['orig.0'])).toEqual(Array.from(data));
+    expect(Array.from(r.arrays['src.0'])).not.toEqual(Array.from(data));
+    // A frame file changed since the stack was written is not passed off as its original.
+    const px = Buffer.from(data);
+    px[0] ^= 0xff;
+    await sharp(px, { raw: { width: W, height: H, channels: 1 } })
+      .toColourspace('b-w')
+      .png()
+      .toFile(join(framesDir, 'frame-3.png'));
+    const changed = decodeFactorSet((await apiStackFrame(stackFile, 2, framesDir)).buf as ArrayBuffer);
+    expect(changed.header.stack?.original?.shown).toBe(false);
+    expect(changed.header.stack?.original?.note).toContain('is not the frame that was stored');
+    expect(changed.arrays['orig.0']).toBeUndefined();
+    rmSync(join(framesDir, 'frame-3.png'));
+    const gone = decodeFactorSet((await apiStackFrame(stackFile, 2, framesDir)).buf as ArrayBuffer);
+    expect(gone.header.stack?.original?.note).toBe(
+      `frame-3.png (frame 3) is missing from ${framesDir} or cannot be read`,
+    );
+    // In the page: frame 3 now says why its original is not shown.
+    await page.getByRole('slider', { name: 'Frame' }).fill('3');
+    await page.waitForSelector('body[data-stack-frame="2"][data-stack-original="false"]', {
+      timeout: 30_000,
+    });
+    expect(await page.textContent('#label-left')).toBe('original of frame 3: not shown');
+    expect(await page.textContent('#originals-note')).toContain('frame-3.png (frame 3) is missing');
   });
 
   it('raised no errors in the page', () => {

@@ -12,6 +12,8 @@ import {
   evaluateLabel,
   frameLabels,
   guiMessage,
+  NO_ORIGINAL_FRAME,
+  noOriginalText,
   openFailedText,
   type PaneView,
   paneLabels,
@@ -176,6 +178,20 @@ describe('stack frame', () => {
       position: '4 / 6',
     });
     expect(frameLabels(frame({ frame: 4 })).right).toBe('frame 5 of 6 · decoded from the stack file');
+  });
+
+  it('the original frame: not asked for, shown, or not shown and why', () => {
+    expect(noOriginalText(frame())).toBe(NO_ORIGINAL_FRAME);
+    const shown = frame({ original: { shown: true, note: 'original: f-3.png' } });
+    expect(noOriginalText(shown)).toBeUndefined();
+    expect(frameLabels(shown).left).toBe('original of frame 4 · f-3.png');
+    const missing = frame({
+      original: { shown: false, note: '/scans/plate does not hold f-3.png (frame 4)' },
+    });
+    expect(noOriginalText(missing)).toBe(
+      'The original frame is not shown: /scans/plate does not hold f-3.png (frame 4).',
+    );
+    expect(frameLabels(missing).left).toBe('original of frame 4: not shown');
   });
 
   it('the Stack card readouts: values for data-value, texts for the page', () => {

@@ -35,6 +35,7 @@ import { runBatchJob } from './batch-bridge';
 import { cleanJob, evaluateJob, type ScanJobHost, saveJob } from './scan-jobs';
 import { SessionWorker } from './session-worker';
 import { openStackFrame, type StackSession } from './stack-bridge';
+import { originalFrame } from './stack-originals';
 
 const SCAN_EXT = new Set(SCAN_EXTENSIONS);
 
@@ -263,7 +264,15 @@ export class Backend extends EventEmitter {
   /** One frame of a stack file the user opened or chose (same access rule as scans). */
   private async stackFrame(req: StackFrameRequest): Promise<ArrayBuffer> {
     const file = await this.access.readable(req.path);
-    const r = await openStackFrame(this.stack, file, req.frame);
+    const { originals } = req;
+    const r = await openStackFrame(
+      this.stack,
+      file,
+      req.frame,
+      originals === undefined
+        ? undefined
+        : (h, frame) => originalFrame(originals, h, frame, (p) => this.access.readable(p)),
+    );
     if (this.stack?.file !== file) this.addRecent(file);
     this.stack = r.session;
     return r.data;

@@ -12,6 +12,7 @@ import { encodeFactorSet, InputError, type StackFrameInfo, UsageError } from '..
 import { isStackContainer } from '../../engine/codec/stack-codec';
 import { openStack, type StackReader } from '../../engine/lowrank/stack-frames';
 import { describeFileError } from '../image/open-file';
+import type { OriginalFrame } from './stack-originals';
 
 export interface StackSession {
   file: string;
@@ -59,6 +60,7 @@ export async function openStackFrame(
   current: StackSession | undefined,
   file: string,
   frame: number,
+  original?: (h: StackReader['header'], frame: number) => Promise<OriginalFrame>,
 ): Promise<{ session: StackSession; data: ArrayBuffer }> {
   let session = current;
   if (!session || session.file !== file || (await stat(file)).mtimeMs !== session.mtimeMs)
@@ -86,12 +88,18 @@ export async function openStackFrame(
     ssim: finite(h.frameTable[frame].ssim),
     worst: worstFrame(h.frameTable),
   };
+  const samples = (p: ArrayLike<number>) => (h.bitDepth === 16 ? Uint16Array.from(p) : Uint8Array.from(p));
   const arrays: Record<string, Uint8Array | Uint16Array> = {};
   planes.forEach((p, c) => {
-    const out = h.bitDepth === 16 ? new Uint16Array(p.length) : new Uint8Array(p.length);
-    for (let i = 0; i < p.length; i++) out[i] = p[i];
-    arrays[`src.${c}`] = out;
+    arrays[`src.${c}`] = samples(p);
   });
+  if (original) {
+    const o = await original(h, frame);
+    info.original = { shown: !!o.planes, note: o.note };
+    o.planes?.forEach((p, c) => {
+      arrays[`orig.${c}`] = samples(p);
+    });
+  }
   const packed = encodeFactorSet(
     {
       width: h.width,
