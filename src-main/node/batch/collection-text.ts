@@ -6,6 +6,7 @@
 import type { BatchRow } from '../../contract';
 import type { CollectionInfo } from './collection';
 import { type SharedPlan, sizeText } from './plan-file';
+import type { SpareInfo } from './spare';
 
 const db = (x: number) => (Number.isFinite(x) ? `${x.toFixed(2)} dB` : 'exact');
 
@@ -43,6 +44,7 @@ export function collectionLines(c: CollectionInfo, rows: BatchRow[]): string[] {
       `floor: predicted ${db(c.floor)}; achieved PSNR ${spreadText(written.filter((r) => r.psnr !== undefined).map((r) => r.psnr!))}`,
     );
   }
+  if (c.spare) lines.push(spareLine(c.spare));
   if (c.reserve)
     lines.push(`reserve: ${c.reserve} bytes (${sizeText(c.reserve)}) held back from the plan for drift`);
   if (c.oneRatioWorst !== undefined)
@@ -55,6 +57,14 @@ export function collectionLines(c: CollectionInfo, rows: BatchRow[]): string[] {
     );
   for (const x of c.excluded) lines.push(`left out of the plan: ${x.message}`);
   return lines;
+}
+
+/** What the spare step did (spare.ts), in one line. */
+function spareLine(s: SpareInfo): string {
+  const left = `${s.before} bytes were left under the total after the encode`;
+  if (!s.tried) return `spare: ${left}, too few for another encode`;
+  const files = s.replaced.map((r) => `${r.path} ${db(r.from)} → ${db(r.to)}`).join(', ');
+  return `spare: ${left}; ${s.replaced.length} of the ${s.tried} worst file${s.tried === 1 ? '' : 's'} tried ${s.replaced.length === 1 ? 'was' : 'were'} re-encoded with them${files ? ` (${files})` : ''}; ${s.after} bytes left`;
 }
 
 /** Lines `batch --plan … -o plan.json` prints. */

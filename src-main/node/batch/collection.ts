@@ -12,6 +12,7 @@ import { planCollection, readSharedPlan, type SharedPlan, sizeText, totalBytes }
 import { rateCurve } from './rate-curve';
 import { baseRow, outcomeRow } from './rows';
 import type { Run } from './run-options';
+import type { SpareInfo } from './spare';
 import {
   readSurvey,
   type SurveyFailure,
@@ -44,6 +45,8 @@ export interface CollectionInfo {
   oneRatioWorst?: number;
   /** Bytes one ratio for all would need to give every file the floor (predicted). */
   oneRatioBytes?: number;
+  /** The bytes left under the total after the encode, and the worst files re-encoded with them (spare.ts). */
+  spare?: SpareInfo;
 }
 
 /** Settings text of a collection run's rows (a file's own cap is appended as ` bytes=N`). */
@@ -131,14 +134,7 @@ function excludeFailed(run: Run, todo: PlannedFile[], survey: SurveyManifest, ta
   for (const x of survey.failed) {
     const f = byPath.get(x.path);
     if (f)
-      tally.emit(
-        tally.add(
-          outcomeRow(f, run.shardLabel, {
-            name: 'InputError',
-            message: `${x.message}; left out of the plan`,
-          }),
-        ),
-      );
+      tally.emit(tally.add(outcomeRow(f, run.shardLabel, leftOut(`${x.message}; left out of the plan`, x))));
   }
   return survey.failed;
 }
@@ -183,17 +179,16 @@ function oneRatio(entries: SurveyManifest['files'], total: number, floor: number
 /** `--plan plan.json`: this shard's files and their caps from the shared plan. */
 function fromSharedPlan(run: Run, plan: SharedPlan, todo: PlannedFile[], tally: Tally) {
   const caps = new Map(plan.files.map((f) => [f.path, { bytes: f.bytes, psnr: f.psnr, floor: plan.floor }]));
-  const excluded = new Set(plan.excluded.map((x) => x.path));
-  for (const f of todo)
-    if (excluded.has(f.path))
+  const excluded = new Map(plan.excluded.map((x) => [x.path, x]));
+  for (const f of todo) {
+    const x = excluded.get(f.path);
+    if (x)
       tally.emit(
         tally.add(
-          outcomeRow(f, run.shardLabel, {
-            name: 'InputError',
-            message: `${f.path}: left out of the plan (${plan.excluded.find((x) => x.path === f.path)?.message})`,
-          }),
+          outcomeRow(f, run.shardLabel, leftOut(`${f.path}: left out of the plan (${x.message})`, x)),
         ),
       );
+  }
   run.collection = {
     total: plan.total,
     totalText: plan.totalText,
@@ -218,4 +213,9 @@ function fromSharedPlan(run: Run, plan: SharedPlan, todo: PlannedFile[], tally: 
     return undefined;
   }
   return { todo: next, allotter: new FixedAllotter(caps, run.o.planFile!) };
+}
+
+/** The error of a file the survey could not read: a file that is not an image keeps its refusal kind (skipped). */
+function leftOut(message: string, x: SurveyFailure) {
+  return { name: 'InputError', message, ...(x.refusal ? { details: { refusal: x.refusal } } : {}) };
 }

@@ -5,7 +5,7 @@
 import { mkdir } from 'node:fs/promises';
 import { type BatchRow, type CompressOptions, toErrorPayload } from '../../contract';
 import { sweepTemps } from '../io/atomic';
-import type { Allotment } from './allot';
+import { type Allotment, LiveAllotter } from './allot';
 import type { BatchJobResult, BatchWork, BatchWorkResult } from './job';
 import { ManifestJournal } from './manifest';
 import { dispatchOrder, notRegularNow, type PlannedFile } from './plan';
@@ -14,6 +14,7 @@ import { worstThumbnails } from './report';
 import type { ResumeState } from './resume';
 import { failedRow, outcomeRow, rowFromResult, skippedRow } from './rows';
 import type { Run } from './run-options';
+import { spendSpare } from './spare';
 import type { Tally } from './tally';
 import type { ThumbPair } from './thumbs';
 
@@ -62,6 +63,15 @@ export async function compressFiles(
       const row = await compressOne(run, f, { pool, resume, tally, drawn });
       if (row) await record(row);
     });
+    // One machine's --total: the bytes left under the total go to the worst files (spare.ts).
+    if (!interrupted && run.allotter instanceof LiveAllotter && run.collection)
+      run.collection.spare = await spendSpare(run, {
+        pool,
+        tally,
+        append: async (row) => journal?.append(row),
+        replaced: (path) => drawn.delete(path),
+        stopped: () => interrupted,
+      });
     // After an interrupt the pool is closed, and the report draws the thumbnails itself.
     if (!interrupted)
       // The rest (outputs kept by --resume, a job whose drawing failed) on the workers while they are still up.

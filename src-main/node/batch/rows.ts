@@ -3,6 +3,7 @@
  * failed, or skipped (not a regular file). Every row names the shard that wrote it.
  */
 import { type BatchRow, type CompressOptions, type ErrorPayload, MANIFEST_VERSION } from '../../contract';
+import { isNotAnImage } from '../image/refusals';
 import type { BatchJobResult } from './job';
 import type { PlannedFile, SkippedEntry } from './plan';
 
@@ -113,14 +114,12 @@ export function failedRow(f: PlannedFile, shard: string, error: ErrorPayload, ti
   return { ...baseRow(f, shard), status: 'failed', error, inputBytes: f.size, timeMs };
 }
 
-/** The image reader's words for a file that is not a scan at all (docs/cli.md, "What bad input gets"). */
-const NOT_A_SCAN = /is not an image Rankfold can read \(unrecognised contents\)|is in an unsupported format/;
-
 /**
- * The row of a file whose job ended in an error: a file that is not a scan at all (a text file, a GIF) is
- * listed as skipped with the reason, which does not change the exit code (issue #14); any other error fails it.
+ * The row of a file whose job ended in an error: a file the image reader refused as not an image at all (a text
+ * file, a GIF: refusal kind 'not-an-image', image/refusals.ts) is listed as skipped with the reason, which does
+ * not change the exit code (issue #14); any other error fails it.
  */
 export function outcomeRow(f: PlannedFile, shard: string, error: ErrorPayload): BatchRow {
-  if (!NOT_A_SCAN.test(error.message)) return failedRow(f, shard, error);
+  if (!isNotAnImage(error)) return failedRow(f, shard, error);
   return { ...baseRow(f, shard), status: 'skipped', note: error.message, inputBytes: f.size };
 }

@@ -22,6 +22,8 @@ export interface SurveyEntry extends SurveyJobResult {
 export interface SurveyFailure {
   path: string;
   message: string;
+  /** The image reader's refusal kind, when it has one (`not-an-image`: listed as skipped, not failed). */
+  refusal?: string;
 }
 
 export interface SurveyManifest {
@@ -127,7 +129,14 @@ export async function surveyFiles(
         );
         if (r.ok)
           entries.push({ ...(r.value as SurveyJobResult), path: f.path, size: f.bytes, mtimeMs: f.mtimeMs });
-        else if (r.error.name !== 'CancelledError') failed.push({ path: f.path, message: r.error.message });
+        else if (r.error.name !== 'CancelledError') {
+          const refusal = r.error.details?.refusal;
+          failed.push({
+            path: f.path,
+            message: r.error.message,
+            ...(typeof refusal === 'string' ? { refusal } : {}),
+          });
+        }
         run.onFile?.(++done, order.length);
       });
     } catch (err) {

@@ -29,7 +29,14 @@ import {
 } from '../../contract';
 import { keepableMetadata, type MetadataToKeep, readPngMetadata } from './metadata-chunks';
 import { openInput, sniffFormat, sniffFormatOf } from './open-file';
-import { depthBits, describeSharpError, FORMAT_NAMES, refuseColourModel, refuseTiffModel } from './refusals';
+import {
+  depthBits,
+  describeSharpError,
+  FORMAT_NAMES,
+  NOT_AN_IMAGE,
+  refuseColourModel,
+  refuseTiffModel,
+} from './refusals';
 import { readTiffFacts } from './tiff-tags';
 
 /** Default pixel limit: 2^28 ≈ 268 megapixels, sharp's own default for `limitInputPixels`. */
@@ -40,6 +47,19 @@ export interface DecodeOptions {
   page?: number;
   /** Refuse images with more pixels than this (sharp's `limitInputPixels`). Default {@link DEFAULT_PIXEL_LIMIT}. */
   pixelLimit?: number;
+  /**
+   * Decode only this rectangle of the upright scan (after EXIF orientation), with sharp's `extract`: the same
+   * samples as cropping the whole decoded scan, without holding the whole scan. The hash covers the rectangle.
+   */
+  region?: Region;
+}
+
+/** A rectangle of a scan, in upright pixels. */
+export interface Region {
+  left: number;
+  top: number;
+  width: number;
+  height: number;
 }
 
 const SUPPORTED = new Set(['png', 'tiff', 'jpeg', 'webp']);
@@ -93,7 +113,7 @@ export async function probeImage(file: string, options: DecodeOptions = {}): Pro
     throw new InputError(
       file,
       `is in an unsupported format ("${meta.format ?? 'unknown'}"); Rankfold reads ${FORMAT_NAMES}`,
-      { format: meta.format },
+      { format: meta.format, ...NOT_AN_IMAGE },
     );
   const pages = meta.pages ?? 1;
   if (page >= pages)
@@ -177,6 +197,7 @@ export interface InterleavedScan {
 export async function decodeInterleaved(file: string, options: DecodeOptions = {}): Promise<InterleavedScan> {
   const { page, pixelLimit } = checkOptions(options);
   const probe = await probeImage(file, { page, pixelLimit });
+  const region = options.region && checkRegion(options.region, probe);
   const { meta, bitDepth } = probe;
   const hasAlpha = Boolean(meta.hasAlpha);
   const isCmyk = meta.space === 'cmyk';
@@ -196,6 +217,7 @@ export async function decodeInterleaved(file: string, options: DecodeOptions = {
     let pipeline = sharp(file, { limitInputPixels: pixelLimit, failOn: 'error', page });
     // Only a kept orientation (1–8) is applied; one the probe left out (with a warning) is not.
     if ((probe.keep.orientation ?? 1) !== 1) pipeline = pipeline.rotate();
+    if (region) pipeline = pipeline.extract(region);
     ({ data, info } = await pipeline
       // Keep the embedded ICC profile attached instead of colour-converting to sRGB: samples stay as stored.
       .keepIccProfile()
@@ -249,6 +271,15 @@ export async function decodeInterleaved(file: string, options: DecodeOptions = {
       page,
     },
   };
+}
+
+/** A region inside the upright scan, in whole pixels. @throws the contract's parameter error naming the field. */
+function checkRegion(r: Region, probe: ProbeResult): Region {
+  const left = checkInteger('region.left', r.left, 0, probe.width - 1);
+  const top = checkInteger('region.top', r.top, 0, probe.height - 1);
+  const width = checkInteger('region.width', r.width, 1, probe.width - left);
+  const height = checkInteger('region.height', r.height, 1, probe.height - top);
+  return { left, top, width, height };
 }
 
 /** The fields every decoded scan carries besides its planes and hash. */

@@ -22,6 +22,18 @@ const PHOTOMETRIC_NAMES: Record<number, string> = {
   51177: 'a depth-map TIFF',
 };
 
+/**
+ * The refusal kind of a file that is not an image Rankfold reads at all (a text file, a GIF), as opposed to a
+ * scan it cannot read (damaged, an unsupported colour model): `details.refusal`. A batch lists such files as
+ * skipped, not failed.
+ */
+export const NOT_AN_IMAGE = { refusal: 'not-an-image' } as const;
+
+/** True for an error (or its payload) refused as {@link NOT_AN_IMAGE}. */
+export function isNotAnImage(err: { details?: Record<string, unknown> } | undefined): boolean {
+  return err?.details?.refusal === NOT_AN_IMAGE.refusal;
+}
+
 const READS = 'Rankfold reads grey, grey+alpha, RGB, RGBA, palette, YCbCr and CMYK scans';
 
 /** Refuse, by name, what the TIFF tags say Rankfold cannot read. */
@@ -166,6 +178,7 @@ export function describeSharpError(
     return new InputError(
       file,
       `is not an image Rankfold can read (unrecognised contents); Rankfold reads ${FORMAT_NAMES}`,
+      NOT_AN_IMAGE,
     );
   return new InputError(
     file,
