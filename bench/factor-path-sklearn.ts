@@ -44,7 +44,7 @@ for line in sys.stdin:
 `;
 }
 
-export interface SkInfo {
+interface SkInfo {
   numpy: string;
   scipy: string;
   sklearn: string;
