@@ -12,6 +12,7 @@
  */
 import { jacobiSvdIn } from './jacobi-svd';
 import type { FloatArray, SvdResult } from './matrix';
+import { takeOutput } from './output-arrays';
 import { Orthonormalizer } from './qr';
 import { symmetricEigen } from './symmetric-eigen';
 import type { Workspace } from './workspace';
@@ -76,9 +77,9 @@ export function project(
   ws.gemm(n, k, L, Btd, 0, L, 1, Uk, 0, k, V64, 0, k, false);
   const s = new Float64Array(k);
   for (let j = 0; j < k; j++) s[j] = small.s[j];
-  const Uout = f32 ? new Float32Array(m * k) : new Float64Array(m * k);
+  const Uout = takeOutput(m * k, f32);
   Uout.set(U);
-  const Vout = f32 ? new Float32Array(n * k) : new Float64Array(n * k);
+  const Vout = takeOutput(n * k, f32);
   for (let i = 0; i < n * k; i++) Vout[i] = V64[i];
   return { s, U: { rows: m, cols: k, data: Uout }, V: { rows: n, cols: k, data: Vout } };
 
@@ -109,8 +110,8 @@ export function project(
     const V64 = ws.f64(n * k);
     ws.gemm(n, k, L, Btd, 0, L, 1, Wk64, 0, k, V64, 0, k, false);
     const U = alloc(m * k);
-    const Uout = f32 ? new Float32Array(m * k) : new Float64Array(m * k);
-    const Vout = f32 ? new Float32Array(n * k) : new Float64Array(n * k);
+    const Uout = takeOutput(m * k, f32);
+    const Vout = takeOutput(n * k, f32);
     if (sk >= (f32 ? GRAM_CORE_RATIO_F32 : GRAM_CORE_RATIO_F64) * s1) {
       ws.gemm(m, k, L, Qm, 0, L, 1, Wk, 0, k, U, 0, k, false);
       const nrm = new Float64Array(k);

@@ -18,6 +18,7 @@ import { estimateRatio, squaredSingularValues } from './accuracy-estimate';
 import type { RangeOps } from './block-krylov';
 import { jacobiSvdIn } from './jacobi-svd';
 import type { FloatArray, SvdResult } from './matrix';
+import { takeOutput } from './output-arrays';
 
 /** The accuracy check's settings (randomizedSvd option `accuracy`), with ‖A‖²_F known. */
 interface ReuseCheck {
@@ -89,8 +90,8 @@ function finish(
   ws.gemm(m, k, l, Q, 0, l, 1, Uk, 0, k, U, 0, k, false);
   const V = alloc(n * k);
   ws.gemm(n, k, l, Z, 0, l, 1, Vk, 0, k, V, 0, k, false);
-  const Uout = f32 ? new Float32Array(m * k) : new Float64Array(m * k);
-  const Vout = f32 ? new Float32Array(n * k) : new Float64Array(n * k);
+  const Uout = takeOutput(m * k, f32);
+  const Vout = takeOutput(n * k, f32);
   Uout.set(U);
   Vout.set(V);
   return {

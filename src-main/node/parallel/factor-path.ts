@@ -19,6 +19,7 @@
 import { availableParallelism } from 'node:os';
 import { isMainThread } from 'node:worker_threads';
 import { type Backend, defaultBackend, initEngine, Rng } from '../../engine/linalg';
+import { reserveOutputs } from '../../engine/linalg/output-arrays';
 import { randomizedSvdBytes } from '../../engine/linalg/randomized-svd';
 import { factorPlane, planeOversample, setPlaneBackend } from '../../engine/lowrank/factorise';
 import { sharedLinalgPool } from './pool';
@@ -55,7 +56,8 @@ export interface PlaneHint {
 
 /**
  * Compile the kernels, start the pool where it helps, register it for whole planes and warm both up
- * (once per process), then reserve memory for `hint`'s plane. Resolves to the backend whole planes use.
+ * (once per process), then reserve memory for `hint`'s plane: its workspace, and touched arrays for its
+ * U and V (engine/linalg/output-arrays.ts). Resolves to the backend whole planes use.
  */
 export async function prepareFactorPath(hint?: PlaneHint): Promise<Backend> {
   ready ??= (async () => {
@@ -80,6 +82,8 @@ export async function prepareFactorPath(hint?: PlaneHint): Promise<Backend> {
     const k = Math.min(r, (hint.rank ?? 64) + 1);
     const l = k + planeOversample(k, r);
     backend.reserve?.(randomizedSvdBytes(hint.rows, hint.cols, k, l, 1, true));
+    // U (rows×k) and V (cols×k), touched now rather than page by page inside the factorisation.
+    reserveOutputs([hint.rows * k, hint.cols * k]);
   }
   return backend;
 }
