@@ -4,20 +4,9 @@
 // careful way: under the generalized Anscombe transform with the TRUE a and b, then Mäkitalo & Foi's
 // closed-form exact unbiased inverse (IEEE TIP 20(9), 2011; 22(1), 2013), the same formulas as
 // src-main/engine/clean/anscombe.ts, written again in numpy below.
-import { execFileSync } from 'node:child_process';
-import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import sharp from 'sharp';
-import type { DecodedImage } from '../src-main/contract';
-import { lcg32 } from '../src-main/engine/linalg';
 import { cleanDecoded } from '../src-main/node/services/clean';
-
-export interface BenchGray {
-  name: string;
-  width: number;
-  height: number;
-  data: Float32Array;
-}
+import { asDecoded, type Gray, psnr, rng, runSkimage, writeGrayPng } from './clean-shared';
 
 /** The three noise levels: mild, the issue's 0.45·x + 4, strong (grey levels of 8-bit scans). */
 export const PG_LEVELS: Array<[number, number]> = [
@@ -59,16 +48,9 @@ for job in json.load(open(sys.argv[1])):
 print(json.dumps(res))
 `;
 
-function psnr(a: ArrayLike<number>, b: ArrayLike<number>) {
-  let s = 0;
-  for (let i = 0; i < a.length; i++) s += (a[i] - b[i]) ** 2;
-  return 10 * Math.log10((255 * 255) / (s / a.length));
-}
-
 /** a·Poisson(x/a) + N(0, b), rounded and clipped to 8 bits; seeded (Knuth below λ = 30, normal above). */
-function poissonGaussian(g: BenchGray, a: number, b: number, seed: number): Float32Array {
-  const next = lcg32(seed);
-  const u = () => (next() + 0.5) / 4294967296;
+function poissonGaussian(g: Gray, a: number, b: number, seed: number): Float32Array {
+  const u = rng(seed);
   const n = () => Math.sqrt(-2 * Math.log(u())) * Math.cos(2 * Math.PI * u());
   const draw = (lambda: number) => {
     if (lambda >= 30) return Math.max(0, Math.round(lambda + Math.sqrt(lambda) * n()));
@@ -84,35 +66,11 @@ function poissonGaussian(g: BenchGray, a: number, b: number, seed: number): Floa
   return g.data.map((x) => Math.min(255, Math.max(0, Math.round(a * draw(x / a) + Math.sqrt(b) * n()))));
 }
 
-function decoded(g: BenchGray, data: Float32Array): DecodedImage {
-  return {
-    file: g.name,
-    width: g.width,
-    height: g.height,
-    channels: 1,
-    bitDepth: 8,
-    colour: 'gray',
-    hasAlpha: false,
-    planes: [data],
-    meta: { format: 'png' },
-    inputBytes: 0,
-    rawBytes: g.width * g.height,
-    sourceSha256: '',
-  };
-}
-
-async function png(file: string, g: BenchGray, data: Float32Array) {
-  await sharp(Buffer.from(Uint8Array.from(data)), { raw: { width: g.width, height: g.height, channels: 1 } })
-    .toColourspace('b-w')
-    .png()
-    .toFile(file);
-}
-
 const pct = (v: number, t: number) => `${(100 * (v / t - 1)).toFixed(0)} %`;
 
 /** Runs the section and logs its table. */
 export async function poissonGaussianSection(
-  images: BenchGray[],
+  images: Gray[],
   tmp: string,
   sk: boolean,
   log: (s?: string) => void,
@@ -145,7 +103,7 @@ export async function poissonGaussianSection(
     for (const [a, b] of PG_LEVELS) {
       const noisy = poissonGaussian(g, a, b, 4000 + Math.round(100 * a));
       const id = `${g.name}@${a},${b}`;
-      const res = await cleanDecoded(decoded(g, noisy), { noise: 'auto', banding: 'off', workers: 2 });
+      const res = await cleanDecoded(asDecoded(g, noisy), { noise: 'auto', banding: 'off', workers: 2 });
       const m = res.report.noiseModel;
       rows.push({
         id,
@@ -160,26 +118,12 @@ export async function poissonGaussianSection(
       if (sk) {
         const t = join(tmp, `pg-${jobs.length}-truth.png`);
         const n = join(tmp, `pg-${jobs.length}-noisy.png`);
-        await png(t, g, g.data);
-        await png(n, g, noisy);
+        await writeGrayPng(t, g, g.data);
+        await writeGrayPng(n, g, noisy);
         jobs.push({ id, truth: t, noisy: n, a, b });
       }
     }
-  let skRes: Record<string, Record<string, number>> = {};
-  if (sk && jobs.length) {
-    writeFileSync(join(tmp, 'pg-jobs.json'), JSON.stringify(jobs));
-    writeFileSync(join(tmp, 'gat.py'), GAT_SCRIPT);
-    try {
-      skRes = JSON.parse(
-        execFileSync('/usr/bin/python3', [join(tmp, 'gat.py'), join(tmp, 'pg-jobs.json')], {
-          encoding: 'utf8',
-          stdio: ['ignore', 'pipe', 'ignore'],
-        }),
-      );
-    } catch (err) {
-      log(`(scikit-image run failed: ${(err as Error).message.split('\n')[0]})`);
-    }
-  }
+  const skRes = sk ? runSkimage(tmp, 'gat', GAT_SCRIPT, jobs, log) : {};
   log(
     '| image | a, b (true) | fitted a (error) | fitted b (error) | model used | Rankfold gain | careful: wavelet | NL-means | TV | best | Rankfold − best |',
   );

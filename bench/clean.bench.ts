@@ -6,75 +6,35 @@
 // same run are (a) one whole-image Gavish–Donoho hard threshold (σ unknown, ω(β)·y_med), (b) scikit-image
 // 0.19's wavelet (BayesShrink), non-local means and TV denoisers run by Debian's python3-skimage when it
 // is installed (the benchmark says so and skips them when it is not), and (c) one worker for the speed-up.
-import { execFileSync } from 'node:child_process';
 import { existsSync, mkdirSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import sharp from 'sharp';
-import type { DecodedImage } from '../src-main/contract';
-import { analyseBanding, medianOf, omega, subtractProfiles } from '../src-main/engine/clean';
-import { eigenWorkspace, lcg32, smallGram, smallSymmetricEigen } from '../src-main/engine/linalg';
+import { medianOf, omega } from '../src-main/engine/clean';
+import { eigenWorkspace, smallGram, smallSymmetricEigen } from '../src-main/engine/linalg';
 import { decodeImage } from '../src-main/node/image/decode';
 import { cleanDecoded } from '../src-main/node/services/clean';
+import { bandingSection } from './clean-banding';
 import { poissonGaussianSection } from './clean-noise-model';
+import {
+  asDecoded,
+  clip,
+  type Gray,
+  gaussian,
+  loadGray,
+  psnr,
+  QUICK,
+  runSkimage,
+  skimageAvailable,
+  writeGrayPng,
+} from './clean-shared';
 
-const QUICK = process.env.RANKFOLD_BENCH_QUICK === '1';
 const outDir = process.env.RANKFOLD_BENCH_OUT ?? 'docs/bench';
 const lines: string[] = [];
 const log = (s = '') => {
   lines.push(s);
   console.log(s);
 };
-
-function rng(seed: number) {
-  const next = lcg32(seed);
-  return () => (next() + 0.5) / 4294967296;
-}
-function gaussian(seed: number) {
-  const r = rng(seed);
-  return () => Math.sqrt(-2 * Math.log(r())) * Math.cos(2 * Math.PI * r());
-}
-function psnr(a: ArrayLike<number>, b: ArrayLike<number>, max = 255) {
-  let s = 0;
-  for (let i = 0; i < a.length; i++) s += (a[i] - b[i]) ** 2;
-  return 10 * Math.log10((max * max) / (s / a.length));
-}
-const clip = (v: number) => Math.min(255, Math.max(0, Math.round(v)));
-
-interface Gray {
-  name: string;
-  width: number;
-  height: number;
-  data: Float32Array;
-}
-
-function asDecoded(g: Gray, data: Float32Array): DecodedImage {
-  return {
-    file: g.name,
-    width: g.width,
-    height: g.height,
-    channels: 1,
-    bitDepth: 8,
-    colour: 'gray',
-    hasAlpha: false,
-    planes: [data],
-    meta: { format: 'png' },
-    inputBytes: 0,
-    rawBytes: g.width * g.height,
-    sourceSha256: '',
-  };
-}
-
-async function loadGray(file: string, name: string): Promise<Gray> {
-  const d = await decodeImage(file);
-  const n = d.width * d.height;
-  const data = new Float32Array(n);
-  if (d.channels >= 3)
-    for (let i = 0; i < n; i++)
-      data[i] = Math.round(0.299 * d.planes[0][i] + 0.587 * d.planes[1][i] + 0.114 * d.planes[2][i]);
-  else data.set(d.planes[0]);
-  return { name, width: d.width, height: d.height, data };
-}
 
 /** Whole-image Gavish–Donoho hard threshold, σ unknown (τ = ω(β)·y_med), via the eigen-decomposition of XᵀX. */
 function globalThreshold(g: Gray, noisy: Float32Array): Float32Array {
@@ -128,37 +88,6 @@ for job in json.load(open(sys.argv[1])):
     res[job['id']] = {k: metrics.peak_signal_noise_ratio(t, np.clip(v, 0, 1), data_range=1) - p0 for k, v in out.items()}
 print(json.dumps(res))
 `;
-
-/** scikit-image 0.19 from Debian, installed by apt-get when missing (never by npm test). */
-function skimageAvailable(): boolean {
-  if (skimageImports()) return true;
-  try {
-    execFileSync('apt-get', ['install', '-y', '-q', 'python3-skimage'], { stdio: 'ignore' });
-  } catch {
-    return false;
-  }
-  return skimageImports();
-}
-
-function skimageImports(): boolean {
-  try {
-    execFileSync(
-      '/usr/bin/python3',
-      ['-c', 'import skimage; assert skimage.__version__.startswith("0.19")'],
-      { stdio: 'ignore' },
-    );
-    return true;
-  } catch {
-    return false;
-  }
-}
-
-async function writeGrayPng(file: string, g: Gray, data: Float32Array) {
-  await sharp(Buffer.from(Uint8Array.from(data)), { raw: { width: g.width, height: g.height, channels: 1 } })
-    .toColourspace('b-w')
-    .png()
-    .toFile(file);
-}
 
 async function main() {
   const fixtures = join('test', 'fixtures', 'images');
@@ -244,21 +173,7 @@ async function main() {
         jobs.push({ id, truth: t, noisy: n });
       }
     }
-  let skRes: Record<string, Record<string, number>> = {};
-  if (sk && jobs.length) {
-    writeFileSync(join(tmp, 'jobs.json'), JSON.stringify(jobs));
-    writeFileSync(join(tmp, 'sk.py'), SK_SCRIPT);
-    try {
-      skRes = JSON.parse(
-        execFileSync('/usr/bin/python3', [join(tmp, 'sk.py'), join(tmp, 'jobs.json')], {
-          encoding: 'utf8',
-          stdio: ['ignore', 'pipe', 'ignore'],
-        }),
-      );
-    } catch (err) {
-      log(`(scikit-image run failed: ${(err as Error).message.split('\n')[0]})`);
-    }
-  }
+  const skRes = sk ? runSkimage(tmp, 'gaussian', SK_SCRIPT, jobs, log) : {};
   log(
     `| image | σ | σ̂ | Rankfold gain | time | global GD |${sk ? ' wavelet | NL-means | TV | best skimage | Rankfold − best |' : ''}`,
   );
@@ -286,86 +201,7 @@ async function main() {
   log('');
   await poissonGaussianSection(images, tmp, sk, log);
 
-  // Banding
-  log('### Banding: detection and removal');
-  log('');
-  log(
-    'Stripes of known profile plus Gaussian noise σ = 3, rounded to 8 bits; `clean --noise off --banding auto`.',
-  );
-  log('"Removed" is the share of the stripe energy taken out: 1 − ‖ŝ − s‖²/‖s‖².');
-  log('');
-  log('| image | damage | found | strength (true) | period (true) | removed | PSNR before → after | time |');
-  log('|---|---|---|---|---|---|---|---|');
-  const cases: Array<{
-    label: string;
-    rows?: (n: number) => Float64Array;
-    cols?: (n: number) => Float64Array;
-    rms: number;
-    period?: number;
-  }> = [
-    { label: 'column stripes RMS 3', cols: (n) => profile(n, 3, 11), rms: 3 },
-    { label: 'column stripes RMS 8', cols: (n) => profile(n, 8, 12), rms: 8 },
-    { label: 'row banding, period 12.5, RMS 4', rows: (n) => sine(n, 4, 12.5), rms: 4, period: 12.5 },
-    { label: 'wide column bands 50–200 px, RMS 4', cols: (n) => bands(n, 4, 21), rms: 4 },
-    { label: 'wide row bands 50–200 px, RMS 4', rows: (n) => bands(n, 4, 22), rms: 4 },
-    { label: 'clean (no damage)', rms: 0 },
-  ];
-  for (const g of images.slice(0, QUICK ? 1 : 4))
-    for (const c of cases) {
-      const gauss = gaussian(77);
-      const rp = c.rows ? c.rows(g.height) : null;
-      const cp = c.cols ? c.cols(g.width) : null;
-      const dam = new Float32Array(g.data.length);
-      for (let y = 0; y < g.height; y++)
-        for (let x = 0; x < g.width; x++)
-          dam[y * g.width + x] =
-            c.rms === 0
-              ? g.data[y * g.width + x]
-              : clip(g.data[y * g.width + x] + (rp ? rp[y] : 0) + (cp ? cp[x] : 0) + 3 * gauss());
-      const t0 = performance.now();
-      const a = analyseBanding(dam, g.width, g.height, 'auto', { maxValue: 255 });
-      const out = subtractProfiles(
-        dam,
-        g.width,
-        g.height,
-        a.removeRows ? a.rows.profile : null,
-        a.removeColumns ? a.columns.profile : null,
-      ).map(clip);
-      const ms = performance.now() - t0;
-      const truthP = rp ?? cp;
-      const est = rp ? (a.removeRows ? a.rows.profile : null) : a.removeColumns ? a.columns.profile : null;
-      let removed = '—';
-      if (truthP) {
-        let e0 = 0;
-        let e1 = 0;
-        for (let i = 0; i < truthP.length; i++) {
-          e0 += truthP[i] ** 2;
-          e1 += (truthP[i] - (est ? est[i] : 0)) ** 2;
-        }
-        removed = `${(100 * (1 - e1 / e0)).toFixed(1)} %`;
-      }
-      const axis = rp ? a.rows : a.columns;
-      const before = psnr(dam, g.data);
-      const after = psnr(out, g.data);
-      log(
-        `| ${g.name} | ${c.label} | ${a.direction} | ${c.rms ? `${axis.strength.toFixed(2)} (${c.rms})` : `— (input unchanged: ${Number.isFinite(psnr(out, dam)) ? `${psnr(out, dam).toFixed(1)} dB` : 'bit-identical'})`} | ${c.period ? `${axis.period?.toFixed(2) ?? 'none'} (${c.period})` : '—'} | ${removed} | ${Number.isFinite(before) ? `${before.toFixed(2)} → ${after.toFixed(2)}` : '∞ → ∞'} | ${ms.toFixed(0)} ms |`,
-      );
-    }
-  const ls = join('samples', 'line-sensor-banding.png');
-  const lsTruth = join('samples', 'line-sensor-banding-truth.png');
-  if (existsSync(ls) && existsSync(lsTruth)) {
-    const d = await loadGray(ls, 'samples/line-sensor-banding.png');
-    const t = await loadGray(lsTruth, 'truth');
-    const t0 = performance.now();
-    const res = await cleanDecoded(asDecoded(d, d.data), { noise: 'off', banding: 'auto', workers: 2 });
-    const ms = performance.now() - t0;
-    const both = await cleanDecoded(asDecoded(d, d.data), { noise: 'auto', banding: 'auto', workers: 2 });
-    const b = res.report.banding;
-    log(
-      `| ${d.name} (sensor model, truth file) | column fixed pattern + row banding | ${b.direction} | rows ${b.rows?.strength.toFixed(2)}, columns ${b.columns?.strength.toFixed(2)} | rows ${b.rows?.period?.toFixed(1) ?? 'none'} | — | ${psnr(d.data, t.data).toFixed(2)} → ${psnr(res.planes[0], t.data).toFixed(2)} (with noise removal too: ${psnr(both.planes[0], t.data).toFixed(2)}) | ${ms.toFixed(0)} ms |`,
-    );
-  }
-  log('');
+  await bandingSection(images, log);
 
   // Large scan timing
   log('### A 2000×1500 scan, σ = 10');
@@ -453,40 +289,6 @@ async function main() {
   mkdirSync(outDir, { recursive: true });
   writeFileSync(join(outDir, '30-clean.md'), `${lines.join('\n')}\n`);
   rmSync(tmp, { recursive: true, force: true });
-}
-
-function profile(n: number, rms: number, seed: number): Float64Array {
-  const g = gaussian(seed);
-  return profileFrom(
-    Float64Array.from({ length: n }, () => g()),
-    rms,
-  );
-}
-/** Piecewise-constant bands of random widths 50–200 px, zero mean, the given RMS (as test/clean/helpers.ts). */
-function bands(n: number, rms: number, seed: number): Float64Array {
-  const u = rng(seed);
-  const g = gaussian(seed + 1);
-  const p = new Float64Array(n);
-  for (let x = 0; x < n; ) {
-    const w = Math.round(50 + 150 * u());
-    const v = g();
-    for (let k = 0; k < w && x < n; k++, x++) p[x] = v;
-  }
-  return profileFrom(p, rms);
-}
-function profileFrom(p: Float64Array, rms: number): Float64Array {
-  const n = p.length;
-  const mean = p.reduce((a, b) => a + b, 0) / n;
-  let s = 0;
-  for (let i = 0; i < n; i++) {
-    p[i] -= mean;
-    s += p[i] * p[i];
-  }
-  const k = rms / Math.sqrt(s / n);
-  return p.map((v) => v * k);
-}
-function sine(n: number, rms: number, period: number): Float64Array {
-  return Float64Array.from({ length: n }, (_, i) => rms * Math.SQRT2 * Math.sin((2 * Math.PI * i) / period));
 }
 
 await main();

@@ -211,7 +211,7 @@ export function analyseBanding(
   if (mode === 'auto') clipSpikes(columns);
   let base = removeColumns ? subtractProfiles(plane, width, height, null, columns.profile) : plane;
   if (mode === 'auto' || mode === 'columns' || mode === 'both')
-    if (addWideBands(base, width, height, columns, removeColumns, mode !== 'auto', options.maxValue)) {
+    if (addWideBands(base, width, height, columns, removeColumns, options.maxValue)) {
       base = subtractProfiles(plane, width, height, null, columns.profile);
       removeColumns = true;
     }
@@ -220,21 +220,18 @@ export function analyseBanding(
   let removeRows = mode === 'auto' ? rows.detected : mode === 'rows' || mode === 'both';
   if (mode === 'auto' || mode === 'rows' || mode === 'both') {
     const rest = removeRows ? subtractProfiles(base, width, height, rows.profile, null) : base;
-    if (addWideBands(rest, width, height, rows, removeRows, mode !== 'auto', options.maxValue))
-      removeRows = true;
+    if (addWideBands(rest, width, height, rows, removeRows, options.maxValue)) removeRows = true;
   }
   const direction: BandingDirection =
     removeRows && removeColumns ? 'both' : removeRows ? 'rows' : removeColumns ? 'columns' : 'none';
   return { direction, columns, rows, removeColumns, removeRows };
 }
 
-/** The wide pass (banding-wide.ts) is not part of cleaning yet; see addWideBands. */
-const WIDE_PASS_ENABLED: boolean = false;
-
 /**
- * Add the wide bands (banding-wide.ts) found in `rest` to the axis's profile `p`, in place: when detected, or
- * always when `forced`. Returns true when something was added. The report's strength and period then
- * describe the combined profile.
+ * Add the wide bands (banding-wide.ts) found in `rest` to the axis's profile `p`, in place, when the wide
+ * pass detects them (its guards leave an image alone when the bands are uncertain; a forced axis does not
+ * override them). Returns true when something was added. The report's strength and period then describe
+ * the combined profile.
  */
 function addWideBands(
   rest: Float32Array,
@@ -242,15 +239,10 @@ function addWideBands(
   height: number,
   p: StripeProfile,
   narrowRemoved: boolean,
-  forced: boolean,
   maxValue: number,
 ): boolean {
-  // Not switched on yet: on clean samples (samples/colour-slide.png) the detector still takes content edges
-  // for band edges, and with a forced axis the sum with the narrow profile removes too little. Until both
-  // are fixed the wide pass stays out of cleaning (banding-wide.ts is tested on its own).
-  if (WIDE_PASS_ENABLED !== true || !forced) return false;
   const wide = wideBandProfile(rest, width, height, p.axis, maxValue);
-  if (!(wide.detected || (forced && wide.steps > 0))) return false;
+  if (!wide.detected) return false;
   for (let i = 0; i < p.profile.length; i++)
     p.profile[i] = (narrowRemoved ? p.profile[i] : 0) + wide.profile[i];
   p.detected ||= wide.detected;
