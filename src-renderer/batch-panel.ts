@@ -11,13 +11,19 @@ import {
 } from '../src-main/contract';
 import { bind } from './bind';
 import { parseBudgetField } from './budget-field';
-import { batchDoneStatus, batchFileMessage, batchProgressText, batchRowText } from './captions';
+import {
+  batchDoneStatus,
+  batchFileMessage,
+  batchProgressText,
+  batchRowText,
+  batchRunLabel,
+} from './captions';
 import type { PageState } from './state';
 import { newJob, type StatusBar } from './status';
 import type { Tab } from './tabs';
 import type { PageApi } from './transport';
 
-type FileProgress = Pick<ProgressEvent, 'done' | 'total' | 'stage' | 'file' | 'message'>;
+type FileProgress = Pick<ProgressEvent, 'done' | 'total' | 'stage' | 'file' | 'message'> & { job?: string };
 
 export interface BatchPanel {
   /** A progress event of the running batch. */
@@ -48,15 +54,22 @@ export function setupBatchPanel(
   });
   const rows = new Map<string, HTMLLIElement>();
 
+  let lastStarted: string | undefined;
   const progress = (e: FileProgress) => {
-    bar.show(batchProgressText(e));
-    if (!e.file) return;
-    let li = rows.get(e.file);
-    if (!li) {
+    let li = e.file ? rows.get(e.file) : undefined;
+    if (e.file && !li) {
+      // A row per file as it starts.
       li = document.createElement('li');
       rows.set(e.file, li);
       el.files.append(li);
+      lastStarted = e.file;
     }
+    // While it runs: the determinate bar, time left and Cancel of the status bar, in words.
+    if (e.job && e.job === state.job && e.stage !== 'planning') {
+      bar.relabel(e.job, batchRunLabel(rows.size, e.done, e.total, lastStarted));
+      bar.progress({ job: e.job, done: e.done, total: e.total, stage: '' });
+    } else bar.show(e.stage === 'planning' && e.message ? `Batch: ${e.message}` : batchProgressText(e));
+    if (!e.file || !li) return;
     li.dataset.state = e.stage;
     li.textContent = batchRowText({ ...e, file: e.file });
   };
@@ -89,7 +102,9 @@ export function setupBatchPanel(
       const total: TotalSize | undefined = totalText ? parseTotalText(totalText) : undefined;
       const chosen = await folders(input, output);
       if (!chosen) return;
-      bar.show(total ? 'Measuring every scan to plan the total…' : 'Batch running…');
+      lastStarted = undefined;
+      if (total) bar.show('Measuring every scan to plan the total…');
+      else bar.busy(job, batchRunLabel(0, 0, 0), 'batch');
       const req: BatchRequest = {
         ...chosen,
         budget,
@@ -116,6 +131,7 @@ export function setupBatchPanel(
     } catch (err) {
       bar.fail(err);
     } finally {
+      if (state.job === job) bar.busy(undefined);
       state.batchJob = undefined;
       el.cancel.disabled = true;
       el.run.disabled = false;

@@ -71,6 +71,16 @@ export function batchProgressText(e: Progress): string {
   return `Batch: ${e.done} of ${e.total} file${e.total === 1 ? '' : 's'} finished${last}`;
 }
 
+/**
+ * The batch's words on the status line while it runs: which file of how many started last, and how many
+ * are finished (two files may run at once).
+ */
+export function batchRunLabel(started: number, finished: number, total: number, file?: string): string {
+  if (!total) return 'Batch: listing the scans…';
+  const which = file ? ` (${recentLabel(file)})` : '';
+  return `Batch: compressing file ${Math.max(1, started)} of ${total}${which}, ${finished} finished`;
+}
+
 /** One file's row in the batch list. */
 export function batchRowText(e: Progress & { file: string }): string {
   return `${e.file} — ${e.stage}${e.message ? `: ${e.message}` : ''}`;

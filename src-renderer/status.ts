@@ -24,6 +24,8 @@ export interface StatusBar {
   failOpen(given: string, err: unknown): void;
   /** Show a progress event of the followed job. */
   progress(e: ProgressEvent): void;
+  /** New words for the followed job `job` (e.g. "file 2 of 3"), keeping its bar and time left. */
+  relabel(job: string, label: string): void;
 }
 
 /** A fresh job id for progress events and cancelling. */
@@ -141,6 +143,11 @@ export function createStatusBar(api: PageApi, state: PageState): StatusBar {
       const text = openFailedText(given, pageError(err));
       show(text, true);
       alert(text);
+    },
+    relabel(job, label) {
+      if (followed?.job !== job) return;
+      followed.label = label;
+      draw();
     },
     progress(e) {
       const f = followed;

@@ -58,7 +58,9 @@ describe('progress in plain words', () => {
   it('never shows an internal stage name', () => {
     expect(stageWords('factor')).toBe('factorising');
     expect(stageWords('factoring plane Y')).toBe('factorising the Y plane');
-    expect(stageWords('allocate')).toBe('sharing the budget between tiles');
+    expect(stageWords('allocate')).toBe('choosing ranks and precision');
+    expect(stageWords('layers')).toBe('choosing ranks and precision');
+    expect(stageWords('spectrum')).toBe('measuring the singular values');
     expect(stageWords('some-new-stage')).toBe('working');
   });
 
