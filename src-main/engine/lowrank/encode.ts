@@ -21,6 +21,7 @@ import { budgetBytes, type EncodeOptions, type EncodeResult, type LayerSummary }
 import { errorFigures } from './error-figures';
 import { factorPlane, type PlaneFactors } from './factorise';
 import { solveFloor } from './floor-solve';
+import { fittingFactors } from './given-factors';
 import { imageWriter } from './image-writer';
 import {
   decodedSse,
@@ -115,15 +116,18 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
     const tile = tiles[ti];
     const t0 = now();
     progress('factor', ti / total);
-    const factors = prep.planes.map((p) => {
-      cancel();
-      return factorPlane(p, width, height, {
-        tile,
-        meanRemoval: tile !== 0,
-        meanStep,
-        maxRank: tile === 0 ? wholePlaneRank(opts.budget, byteBudget, width, height) : undefined,
+    const given = tile === 0 ? fittingFactors(opts.factors, prep.planes.length, width, height) : undefined;
+    const factors =
+      given ??
+      prep.planes.map((p) => {
+        cancel();
+        return factorPlane(p, width, height, {
+          tile,
+          meanRemoval: tile !== 0,
+          meanStep,
+          maxRank: tile === 0 ? wholePlaneRank(opts.budget, byteBudget, width, height) : undefined,
+        });
       });
-    });
     const inputs: PlaneInput[] = factors.map((f, k) => ({
       factors: f,
       weight: prep.weights[k],
