@@ -15,6 +15,7 @@ const STAGE_WORDS: [RegExp, string | ((m: RegExpExecArray) => string)][] = [
   [/^factor(ed)?$/, 'factorising'],
   [/^probe$/, 'trying tile sizes'],
   [/^allocate$/, 'sharing the budget between tiles'],
+  [/^floor ([\d.]+) dB$/, (m) => `finding the smallest file ≥ ${m[1]} dB`],
   [/^(write|encode)$/, 'writing the file'],
   [/^measure$/, 'measuring the result'],
   [/^compare$/, 'comparing with other formats'],

@@ -56,6 +56,23 @@ describe('given whole-plane factors', () => {
     expect(r.ranks[0].ranks[0]).toBe(12);
   });
 
+  it('stop at once, with advice, when the floor is beyond their truncation error', async () => {
+    const img = await decodeImage(image('camera.png'));
+    const own = factorPlane(img.planes[0], img.width, img.height, {
+      tile: 0,
+      meanRemoval: false,
+      meanStep: 0,
+      maxRank: 40,
+    });
+    const given = givenPlaneFactors(img.planes[0], img.width, img.height, sessionLayout(own, 5));
+    // 5 components of camera.png leave far more than the 50 dB error (MSE 0.65 grey levels²).
+    expect(() =>
+      encodeScan(img, { budget: { kind: 'psnr', db: 50 }, tile: 0, layers: 'base', factors: [given] }),
+    ).toThrow(
+      /camera\.png: PSNR 50 dB cannot be reached with the 5 components a whole-plane factorisation keeps; use tiles/,
+    );
+  });
+
   it('refuse factors of another size or plane count', () => {
     const f = givenPlaneFactors(new Float32Array(12), 4, 3, {
       s: [1],

@@ -158,3 +158,18 @@ function modelCaps(inputs: PlaneInput[], step: number, dmax: number): Int32Array
   const ranks = prefixRanks(c, prefixForError(c, dmax));
   return ranks.map((pr) => pr.map((r) => r + 1));
 }
+
+/**
+ * Weighted squared error of keeping every component the factors hold, unquantised: the energy they leave
+ * out (Eckart–Young). No file from these factors decodes much below it.
+ */
+export function truncationError(inputs: PlaneInput[]): number {
+  let e = 0;
+  for (const inp of inputs)
+    for (const tf of inp.factors.tiles) {
+      let kept = 0;
+      for (let i = 0; i < tf.s.length; i++) kept += tf.s[i] * tf.s[i];
+      e += inp.weight * Math.max(0, tf.energy - kept);
+    }
+  return e;
+}
