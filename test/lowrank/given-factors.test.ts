@@ -19,6 +19,18 @@ function sessionLayout(f: PlaneFactors, k: number) {
   return { s: t.s.subarray(0, k), ut, vt };
 }
 
+/** camera.png and the first k components of its whole-plane factorisation, in the session layout. */
+async function cameraFactors(k: number) {
+  const img = await decodeImage(image('camera.png'));
+  const own = factorPlane(img.planes[0], img.width, img.height, {
+    tile: 0,
+    meanRemoval: false,
+    meanStep: 0,
+    maxRank: 40,
+  });
+  return { img, given: givenPlaneFactors(img.planes[0], img.width, img.height, sessionLayout(own, k)) };
+}
+
 describe('given whole-plane factors', () => {
   it('give the same --min-psnr file as factoring inside the encode (camera.png, tile 0)', async () => {
     const img = await decodeImage(image('camera.png'));
@@ -39,14 +51,7 @@ describe('given whole-plane factors', () => {
   });
 
   it('are used: a rank budget above their components keeps only those', async () => {
-    const img = await decodeImage(image('camera.png'));
-    const own = factorPlane(img.planes[0], img.width, img.height, {
-      tile: 0,
-      meanRemoval: false,
-      meanStep: 0,
-      maxRank: 40,
-    });
-    const given = givenPlaneFactors(img.planes[0], img.width, img.height, sessionLayout(own, 12));
+    const { img, given } = await cameraFactors(12);
     const r = encodeScan(img, {
       budget: { kind: 'rank', rank: 30 },
       tile: 0,
@@ -57,14 +62,7 @@ describe('given whole-plane factors', () => {
   });
 
   it('stop at once, with advice, when the floor is beyond their truncation error', async () => {
-    const img = await decodeImage(image('camera.png'));
-    const own = factorPlane(img.planes[0], img.width, img.height, {
-      tile: 0,
-      meanRemoval: false,
-      meanStep: 0,
-      maxRank: 40,
-    });
-    const given = givenPlaneFactors(img.planes[0], img.width, img.height, sessionLayout(own, 5));
+    const { img, given } = await cameraFactors(5);
     // 5 components of camera.png leave far more than the 50 dB error (MSE 0.65 grey levels²).
     expect(() =>
       encodeScan(img, { budget: { kind: 'psnr', db: 50 }, tile: 0, layers: 'base', factors: [given] }),
