@@ -17,6 +17,7 @@ const STAGE_WORDS: [RegExp, string | ((m: RegExpExecArray) => string)][] = [
   [/^allocate$/, 'choosing ranks and precision'],
   [/^layers$/, 'choosing ranks and precision'],
   [/^spectrum$/, 'measuring the singular values'],
+  [/^floor ([\d.]+) dB$/, (m) => `finding the smallest file ≥ ${m[1]} dB`],
   [/^(write|encode)$/, 'writing the file'],
   [/^measure$/, 'measuring the result'],
   [/^compare$/, 'comparing with other formats'],

@@ -8,6 +8,7 @@ import { factorPlane } from '../../src-main/engine/lowrank/factorise';
 import { type FloorCheck, solveFloor } from '../../src-main/engine/lowrank/floor-solve';
 import { psnrFromSse, psnrPlanes } from '../../src-main/engine/metrics';
 import { decodeImage } from '../../src-main/node/image/decode';
+import { stageWords } from '../../src-renderer/progress-words';
 import { image } from '../helpers/fixtures';
 
 async function grey(name: string, tile: number): Promise<{ inputs: PlaneInput[]; count: number }> {
@@ -109,5 +110,8 @@ describe('--min-psnr through encodeScan', () => {
       expect(r.psnr).toBeCloseTo(measured, 9);
       expect(stages.filter((s) => s === 'measure').length).toBeLessThanOrEqual(2);
       expect(stages).toContain('floor 34 dB');
+      // The page shows these stages in words (src-renderer/progress-words.ts).
+      expect(stageWords('floor 34 dB')).toBe('finding the smallest file ≥ 34 dB');
+      expect(stageWords('measure')).toBe('measuring the result');
     });
 });

@@ -6,6 +6,7 @@ import type { Budget } from '../../contract';
 import type { ByteCompressor, EntropyId } from '../codec/entropy';
 import type { RkfHeader } from '../codec/image-file';
 import type { DecodedRkf } from './decode-image';
+import type { PlaneFactors } from './factorise';
 import type { LayerCandidate } from './two-layer';
 
 export interface EncodeOptions {
@@ -27,6 +28,11 @@ export interface EncodeOptions {
    * error (./two-layer). Rank and quality-floor budgets stay base-only.
    */
   layers?: 'base' | 'auto';
+  /**
+   * Whole-plane factors of the encoded planes (grey, or Y, Cb, Cr), e.g. from ./given-factors: with tile 0
+   * the encode uses them instead of factoring again. Ranks beyond their components cannot be chosen.
+   */
+  factors?: PlaneFactors[];
 }
 
 /** What the layers of the written file cost and how the split was chosen. */

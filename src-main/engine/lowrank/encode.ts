@@ -20,7 +20,8 @@ import { decodeImageFile } from './decode-image';
 import { budgetBytes, type EncodeOptions, type EncodeResult, type LayerSummary } from './encode-options';
 import { errorFigures } from './error-figures';
 import { factorPlane, type PlaneFactors } from './factorise';
-import { solveFloor } from './floor-solve';
+import { solveFloor, truncationError } from './floor-solve';
+import { fittingFactors } from './given-factors';
 import { imageWriter } from './image-writer';
 import {
   decodedSse,
@@ -115,15 +116,18 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
     const tile = tiles[ti];
     const t0 = now();
     progress('factor', ti / total);
-    const factors = prep.planes.map((p) => {
-      cancel();
-      return factorPlane(p, width, height, {
-        tile,
-        meanRemoval: tile !== 0,
-        meanStep,
-        maxRank: tile === 0 ? wholePlaneRank(opts.budget, byteBudget, width, height) : undefined,
+    const given = tile === 0 ? fittingFactors(opts.factors, prep.planes.length, width, height) : undefined;
+    const factors =
+      given ??
+      prep.planes.map((p) => {
+        cancel();
+        return factorPlane(p, width, height, {
+          tile,
+          meanRemoval: tile !== 0,
+          meanStep,
+          maxRank: tile === 0 ? wholePlaneRank(opts.budget, byteBudget, width, height) : undefined,
+        });
       });
-    });
     const inputs: PlaneInput[] = factors.map((f, k) => ({
       factors: f,
       weight: prep.weights[k],
@@ -301,6 +305,8 @@ function solveFor(
           : progress(words, (stage === 'model' ? 0 : 0.1) + 0.5 * f),
     );
     if (found) return found;
+    // Past the factors' own reach, the full-rank fallback below cannot help: say so at once.
+    if (truncationError(inputs) > target * TRUNCATION_MARGIN) throw floorOutOfReach(img, budget.db, inputs);
     const plan = solveRank(inputs, Math.max(img.width, img.height), max, 0, 0.0005);
     if (!meets(build(plan.planes)))
       throw new UsageError(
@@ -334,6 +340,20 @@ function solveFor(
     return found;
   }
   throw new UsageError(`unknown budget kind ${(budget as { kind: string }).kind}`);
+}
+
+/** Rounding and clamping can take the decoded error a little below the factors' truncation error. */
+const TRUNCATION_MARGIN = 1.05;
+
+/** The quality floor is beyond what the factors at hand can reach (a whole plane keeps a capped rank). */
+function floorOutOfReach(img: DecodedImage, db: number, inputs: PlaneInput[]): UsageError {
+  const whole = inputs[0].factors.tile === 0;
+  const kept = inputs[0].factors.tiles[0]?.s.length ?? 0;
+  return new UsageError(
+    whole
+      ? `${img.file}: PSNR ${db} dB cannot be reached with the ${kept} components a whole-plane factorisation keeps; use tiles (--tile auto)`
+      : `${img.file}: PSNR ${db} dB cannot be reached by this codec for this image`,
+  );
 }
 
 function emptyPlane(inp: PlaneInput): QuantPlane {

@@ -27,7 +27,7 @@ import {
   quantPlanes,
 } from './candidate';
 import type { DecodedRkf } from './decode-image';
-import { hillClimb, memoised, type Plan, stepGrid } from './solve';
+import { hillClimb, memoised, type Plan, sampleTiles, stepGrid } from './solve';
 
 /** Most real encodes + decodes of the search (the first usually meets the floor within 2 %). */
 const MAX_CHECKS = 4;
@@ -131,11 +131,14 @@ export function solveFloor(
 
 /** The grid step with the fewest estimated bits at error ≤ dmax on the no-refit model, or undefined. */
 function modelStep(inputs: PlaneInput[], grid: number[], dmax: number): number | undefined {
+  // Steps are compared on solveBytes' deterministic sample of at most 256 tiles, with the allowed error
+  // scaled by the sampled share of pixels: the comparison, not the absolute figure, matters here.
+  const sample = sampleTiles(inputs);
   const bits = (k: number): number => {
     if (k < 0 || k >= grid.length) return Number.POSITIVE_INFINITY;
-    const c = buildCandidate(inputs, grid[k], { refit: false });
-    const P = prefixForError(c, dmax);
-    return estimatedError(c, P) > dmax ? Number.POSITIVE_INFINITY : c.cumCost[P];
+    const c = buildCandidate(sample.inputs, grid[k], { refit: false });
+    const P = prefixForError(c, dmax * sample.fraction);
+    return estimatedError(c, P) > dmax * sample.fraction ? Number.POSITIVE_INFINITY : c.cumCost[P];
   };
   const memo = new Map<number, number>();
   const at = memoised(bits, memo);
@@ -157,4 +160,19 @@ function modelCaps(inputs: PlaneInput[], step: number, dmax: number): Int32Array
   const c: Candidate = buildCandidate(inputs, step, { refit: false });
   const ranks = prefixRanks(c, prefixForError(c, dmax));
   return ranks.map((pr) => pr.map((r) => r + 1));
+}
+
+/**
+ * Weighted squared error of keeping every component the factors hold, unquantised: the energy they leave
+ * out (Eckart–Young). No file from these factors decodes much below it.
+ */
+export function truncationError(inputs: PlaneInput[]): number {
+  let e = 0;
+  for (const inp of inputs)
+    for (const tf of inp.factors.tiles) {
+      let kept = 0;
+      for (let i = 0; i < tf.s.length; i++) kept += tf.s[i] * tf.s[i];
+      e += inp.weight * Math.max(0, tf.energy - kept);
+    }
+  return e;
 }

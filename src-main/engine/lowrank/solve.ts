@@ -136,7 +136,7 @@ export function estimateErrorAtBytes(inputs: PlaneInput[], payload: number, maxV
 /** Most tiles the step scan looks at. */
 const SCAN_TILES = 256;
 
-function sampleTiles(inputs: PlaneInput[]): { inputs: PlaneInput[]; fraction: number } {
+export function sampleTiles(inputs: PlaneInput[]): { inputs: PlaneInput[]; fraction: number } {
   const total = inputs.reduce((s, i) => s + i.factors.tiles.length, 0);
   const stride = Math.max(1, Math.floor(total / SCAN_TILES));
   if (stride === 1) return { inputs, fraction: 1 };

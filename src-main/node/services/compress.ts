@@ -26,6 +26,7 @@ import type { ByteCompressor, EntropyId } from '../../engine/codec/entropy';
 import { initEngine } from '../../engine/linalg';
 import { encodeScan } from '../../engine/lowrank/encode';
 import { budgetBytes, type EncodeOptions, type EncodeResult } from '../../engine/lowrank/encode-options';
+import type { PlaneFactors } from '../../engine/lowrank/factorise';
 import { encodeScanTiled, TILED_PIXELS, tiledEncoderFits } from '../../engine/lowrank/tiled';
 import { decodeImage, hashSamples, probeImage } from '../image/decode';
 import { decodeSamples } from '../image/raw-decode';
@@ -56,6 +57,11 @@ export interface CompressInternals {
    * not called on that path (it would need full float planes).
    */
   tiledAbove?: number;
+  /**
+   * Whole-plane factors of the encoded planes (engine/lowrank/given-factors.ts), e.g. the app session's:
+   * with tile 0 the encode uses them instead of factoring the scan again.
+   */
+  factors?: PlaneFactors[];
 }
 
 export const ENCODER_NAME = 'rankfold 0.1.0';
@@ -99,7 +105,7 @@ export async function compressDecoded(
   check();
   await initEngine();
   // Whole planes: kernels warmed and the thread pool registered, outside timings.factorMs (issue #12 item 3).
-  if (options.tile === 0 || (options.tile === 'auto' && options.budget.kind === 'rank'))
+  if (!hooks.factors && (options.tile === 0 || (options.tile === 'auto' && options.budget.kind === 'rank')))
     await prepareFactorPath({
       rows: decoded.height,
       cols: decoded.width,
@@ -116,6 +122,7 @@ export async function compressDecoded(
       check,
     ),
     layers: options.layers ?? DEFAULT_LAYERS,
+    factors: hooks.factors,
   });
   const outputBytes = result.bytes.length;
   const report: CompressReport = {
