@@ -168,7 +168,7 @@ export async function writeManifest(file: string, rows: BatchRow[]): Promise<voi
 }
 
 /** Ranks as short text: `Y:40 Cb:12` for whole planes, `Y:t64[3–40]` for tiles (count, min–max). */
-export function ranksText(ranks: BatchRow['ranks']): string {
+function ranksText(ranks: BatchRow['ranks']): string {
   if (!ranks) return '';
   return ranks
     .map((r) =>
