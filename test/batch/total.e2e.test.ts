@@ -69,7 +69,7 @@ describe.skipIf(!built)('rankfold batch --total (built CLI)', () => {
     // The bytes left at the end went to the worst files (spare.ts): said, recorded, no temp file left.
     expect(r.stderr).toMatch(/spare: \d+ bytes were left under the total after the encode/);
     expect(ok.reduce((s, x) => s + x.bytes!, 0)).toBe(sumRkf(out));
-    expect(filesUnder(out).filter((f) => f.includes('.spare-'))).toEqual([]);
+    expect(filesUnder(out).filter((f) => f.includes('.rankfold-tmp-'))).toEqual([]);
     expect(rows.find((x) => x.path === 'notes.txt')!.status).toBe('skipped');
     expect(existsSync(join(out, 'rankfold-survey.json'))).toBe(true);
     // The dry run predicts the same first plan and writes nothing.

@@ -7,9 +7,11 @@
  * stays as it was. At most {@link MAX_TRIES} files are tried, worst first, while the spare bytes are worth it.
  * Shards (`--plan`) never do this: a shard does not know what the others wrote.
  */
+import { randomBytes } from 'node:crypto';
 import { rename, rm } from 'node:fs/promises';
 import { basename, dirname, join } from 'node:path';
 import type { BatchRow } from '../../contract';
+import { TEMP_PREFIX } from '../io/atomic';
 import type { BatchJobResult, BatchWork, BatchWorkResult } from './job';
 import type { WorkerPool } from './pool';
 import { rowFromResult } from './rows';
@@ -38,9 +40,12 @@ function candidates(rows: BatchRow[]): BatchRow[] {
     .sort((a, b) => a.psnr! - b.psnr! || (a.path < b.path ? -1 : 1));
 }
 
-/** The temp file a spare encode writes beside `output` (hidden, named for this process). */
+/**
+ * The temp file a spare encode writes beside `output`: named as the atomic writer names its temp files, so a
+ * run killed mid-step leaves nothing that the next run's sweep (io/atomic.ts `sweepTemps`) does not remove.
+ */
 function spareTemp(output: string): string {
-  return join(dirname(output), `.${basename(output)}.spare-${process.pid}.rkf`);
+  return join(dirname(output), `${TEMP_PREFIX}${randomBytes(6).toString('hex')}-${basename(output)}`);
 }
 
 /**

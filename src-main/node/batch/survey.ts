@@ -33,7 +33,7 @@ const MOSAIC_MAX = 256;
 const MOSAIC_SHARE = 1 / 16;
 
 /** Where the mosaic's crops lie in a `width`×`height` scan: `grid`×`grid` crops of `side` pixels; grid < 2: none. */
-export interface MosaicLayout {
+interface MosaicLayout {
   grid: number;
   side: number;
   /** Left edge of column gx's crops, and top edge of row gy's crops. */
@@ -41,7 +41,7 @@ export interface MosaicLayout {
   ys: number[];
 }
 
-export function mosaicLayout(width: number, height: number, side: number): MosaicLayout {
+function mosaicLayout(width: number, height: number, side: number): MosaicLayout {
   const fit = Math.floor(Math.sqrt(width * height * MOSAIC_SHARE) / side);
   // At least 2×2 crops whenever the scan holds them, so a small scan is never surveyed whole (three encodes
   // of a whole scan would cost more than the encode itself).

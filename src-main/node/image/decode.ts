@@ -55,7 +55,7 @@ export interface DecodeOptions {
 }
 
 /** A rectangle of a scan, in upright pixels. */
-export interface Region {
+interface Region {
   left: number;
   top: number;
   width: number;
