@@ -214,7 +214,8 @@ export function encodeCoefficientsV2(
   enc.encodeDirect(nonZero ? 1 : 0);
   let offsets: Float64Array = new Float64Array(2 * bands.length);
   if (nonZero) {
-    codeCoefficients(io, q.slice(), width, bands);
+    // The encoder's io returns the value it wrote, so the walk writes back into q exactly what it read.
+    codeCoefficients(io, q, width, bands);
     offsets = codeOffsets(io, k, counts);
   }
   return { bytes: enc.finish(), offsets };

@@ -41,8 +41,9 @@ export class BitModel {
     const rf = n < FAST_WINDOW ? rs : RECIP[FAST_WINDOW - 1];
     if (n < SLOW_WINDOW - 1) this.n = n + 1;
     const target = bit ? 0 : PROB_ONE;
-    this.fast += Math.trunc(((target - this.fast) * rf) / 65536);
-    this.slow += Math.trunc(((target - this.slow) * rs) / 65536);
+    // |(target − p)·r| < 2^15·2^16, so x / 65536 | 0 truncates toward zero exactly as Math.trunc does.
+    this.fast += (((target - this.fast) * rf) / 65536) | 0;
+    this.slow += (((target - this.slow) * rs) / 65536) | 0;
   }
 }
 

@@ -14,9 +14,14 @@
  * Reference: G. J. Sullivan, "Efficient scalar quantization of exponential and Laplacian random variables",
  * IEEE Trans. Inf. Theory 42(5):1365–1374, 1996 (dead-zone quantisers for Laplacian sources).
  */
+
+import { bandSteps, DEAD_ZONE_RHO } from './band-steps';
+import { recallCode, rememberCode } from './coded-planes';
 import { decodeCoefficientsV2, encodeCoefficientsV2, reconstructionOffsetsV2 } from './coeff-coder';
 import { decodeCoefficientsV1, encodeCoefficientsV1 } from './coeff-coder-v1';
 import { type Band, bandsFor, forwardWavelet, inverseWavelet, levelsFor } from './wavelet-transform';
+
+export { estimateBits, estimateSquaredError } from './wavelet-estimate';
 
 export {
   forwardWavelet,
@@ -24,16 +29,8 @@ export {
   inverseWavelet,
 } from './wavelet-transform';
 
-/** Dead-zone rounding offset: q = sign(c)·⌊|c|/Δ + ρ⌋. 0.5 is plain rounding; less widens the zero bin. */
-const DEAD_ZONE_RHO = 0.38;
-
 /** Coefficient coder: 1 (stack layout, container 1.2 residuals) or 2 (container 1.3 residuals). */
 export type PlaneCoder = 1 | 2;
-
-/** Per-band quantiser steps for pixel-domain step `step`: Δ_b = step / √gain_b. */
-function bandSteps(bands: Band[], step: number): Float64Array {
-  return Float64Array.from(bands, (b) => step / Math.sqrt(b.gain));
-}
 
 function bandIndexMap(width: number, height: number, bands: Band[]): Uint8Array {
   const map = new Uint8Array(width * height);
@@ -154,9 +151,12 @@ export function codeAnalysed(a: AnalysedPlane, step: number, coder: PlaneCoder =
   const steps = bandSteps(bands, step);
   const q = new Int32Array(x.length);
   const nonZero = quantise(a, steps, q);
-  if (coder === 1) return { bytes: encodeCoefficientsV1(q, width, bands), q, steps, nonZero };
-  const { bytes, offsets } = encodeCoefficientsV2(q, x, steps, width, bands, map);
-  return { bytes, q, steps, nonZero, offsets };
+  const coded: CodedCoefficients =
+    coder === 1
+      ? { bytes: encodeCoefficientsV1(q, width, bands), q, steps, nonZero }
+      : { ...encodeCoefficientsV2(q, x, steps, width, bands, map), q, steps, nonZero };
+  rememberCode({ bytes: coded.bytes, width, height: a.height, step, coder, coded });
+  return coded;
 }
 
 /** The plane exactly as the decoder rebuilds it from {@link codeAnalysed}'s coefficients. */
@@ -196,6 +196,9 @@ export function decodePlane(
 ): Float64Array {
   const levels = levelsFor(width, height);
   const bands = bandsFor(width, height, levels);
+  // Bytes this process just encoded (./coded-planes): their coefficients are known, skip the range decoder.
+  const known = recallCode(bytes, width, height, step, coder);
+  if (known) return dequantise(known, width, height, levels, bands);
   const steps = bandSteps(bands, step);
   const q = new Int32Array(width * height);
   if (coder === 1) {
@@ -238,87 +241,21 @@ function dequantiseInto(
     const d2 = offsets ? offsets[2 * bi + 1] : 0;
     for (let y = 0; y < b.h; y++) {
       const row = (b.y0 + y) * width + b.x0;
-      for (let i = row; i < row + b.w; i++) {
+      const end = row + b.w;
+      for (let i = row; i < end; i++) {
         const v = q[i];
-        if (v === 0) continue;
-        if (!offsets) x[i] = v * step;
-        else {
-          const d = v === 1 || v === -1 ? d1 : d2;
-          x[i] = (v < 0 ? v - d : v + d) * step;
-        }
+        if (v !== 0) x[i] = rebuilt(v, step, d1, d2);
       }
     }
   }
 }
 
 /**
- * Coefficients the rate model looks at: every RATE_STRIDE-th (a prime, so no band or row pattern aliases);
- * every LARGE_STRIDE-th (also prime) in planes of more than LARGE_PLANE coefficients, which still leaves
- * over 130 000 samples and saves sorting a million values per plane.
+ * (v ± δ)·Δ with δ = d1 for |v| = 1 and d2 for |v| ≥ 2, for v ≠ 0. Without offsets (δ = 0) this is exactly
+ * v·Δ, since v ± 0 = v in floating point.
  */
-const RATE_STRIDE = 7;
-const LARGE_STRIDE = 31;
-const LARGE_PLANE = 1 << 22;
-const strideOf = (a: AnalysedPlane) => (a.coeffs.length > LARGE_PLANE ? LARGE_STRIDE : RATE_STRIDE);
-const RATE_CAP = 16;
-
-/** Per band, the sorted magnitudes of a deterministic 1-in-RATE_STRIDE sample (built once per plane). */
-const sampleCache = new WeakMap<AnalysedPlane, Float64Array[]>();
-function sortedSample(a: AnalysedPlane): Float64Array[] {
-  const hit = sampleCache.get(a);
-  if (hit) return hit;
-  const lists: number[][] = a.bands.map(() => []);
-  const stride = strideOf(a);
-  for (let i = 0; i < a.coeffs.length; i += stride) lists[a.map[i]].push(Math.abs(a.coeffs[i]));
-  const out = lists.map((l) => Float64Array.from(l).sort());
-  sampleCache.set(a, out);
-  return out;
-}
-
-/** Index of the first value ≥ t in a sorted array. */
-function lowerBound(v: Float64Array, t: number): number {
-  let lo = 0;
-  let hi = v.length;
-  while (lo < hi) {
-    const mid = (lo + hi) >> 1;
-    if (v[mid] < t) lo = mid + 1;
-    else hi = mid;
-  }
-  return lo;
-}
-
-/**
- * A quick estimate of {@link codeAnalysed}'s size in bits at step `step`, for rate control: the zeroth-order
- * entropy of each band's quantised magnitudes (0…15, then an Exp-Golomb escape) plus one bit per sign, on a
- * deterministic 1-in-7 (1-in-31 in large planes) sample of the coefficients (sorted once per plane, so a step costs a few binary
- * searches per band). The range coder's contexts do better than this, so callers calibrate it with the ratio
- * of a real encode to the estimate (common practice; see {@link codeAnalysed} for the real coder).
- */
-export function estimateBits(a: AnalysedPlane, step: number): number {
-  const { bands } = a;
-  const steps = bandSteps(bands, step);
-  const sample = sortedSample(a);
-  let bits = 0;
-  const atLeast = new Float64Array(RATE_CAP + 2);
-  for (let b = 0; b < bands.length; b++) {
-    const v = sample[b];
-    const n = v.length;
-    if (!n) continue;
-    const rho = bands[b].orient === 0 ? 0.5 : DEAD_ZONE_RHO;
-    // atLeast[m] = how many sampled magnitudes quantise to ≥ m: |x|/Δ_b + ρ ≥ m ⇔ |x| ≥ (m − ρ)·Δ_b.
-    atLeast[0] = n;
-    for (let m = 1; m <= RATE_CAP; m++) atLeast[m] = n - lowerBound(v, (m - rho) * steps[b]);
-    bits += atLeast[1]; // signs
-    for (let m = 0; m <= RATE_CAP; m++) {
-      const c = m < RATE_CAP ? atLeast[m] - atLeast[m + 1] : atLeast[RATE_CAP];
-      if (c > 0) bits -= c * Math.log2(c / n);
-    }
-    for (let i = n - atLeast[RATE_CAP]; i < n; i++) {
-      const m = Math.floor(v[i] / steps[b] + rho);
-      bits += 2 * Math.log2(Math.max(1, m - RATE_CAP + 2)) + 1;
-    }
-  }
-  return bits * strideOf(a) + 8;
+function rebuilt(v: number, step: number, d1: number, d2: number): number {
+  return (v < 0 ? v - (v === -1 ? d1 : d2) : v + (v === 1 ? d1 : d2)) * step;
 }
 
 /**
@@ -331,54 +268,27 @@ export function codedSquaredError(
   a: AnalysedPlane,
   c: { q: Int32Array; steps: Float64Array; offsets?: Float64Array },
 ): number {
-  const { bands, map, coeffs: x } = a;
-  const rec = new Float64Array(x.length);
-  dequantiseInto(c, bands, a.width, rec);
-  const perBand = new Float64Array(bands.length);
-  for (let i = 0; i < x.length; i++) {
-    const d = x[i] - rec[i];
-    perBand[map[i]] += d * d;
-  }
+  // Band by band in raster order, each coefficient rebuilt as dequantiseInto does: every band's sum is formed
+  // in the same order as over a whole rebuilt plane, without allocating one.
+  const { bands, width, coeffs: x } = a;
+  const { q, steps, offsets } = c;
   let e = 0;
-  for (let b = 0; b < bands.length; b++) e += bands[b].gain * perBand[b];
-  return e;
-}
-
-/**
- * A quick estimate of {@link codedSquaredError} at step `step` for rate control, on the same sample
- * as {@link estimateBits}: each sampled coefficient quantised by the dead-zone rule and rebuilt at the
- * centroid of its bin class (|q| = 1, |q| ≥ 2) in its band, as coder 2's reconstruction offsets do
- * (unrounded); the band errors weighted by the synthesis gains and scaled by the sampling stride.
- */
-export function estimateSquaredError(a: AnalysedPlane, step: number): number {
-  const { bands } = a;
-  const steps = bandSteps(bands, step);
-  const sample = sortedSample(a);
-  let e = 0;
-  for (let b = 0; b < bands.length; b++) {
-    const v = sample[b];
-    const d = steps[b];
-    const rho = bands[b].orient === 0 ? 0.5 : DEAD_ZONE_RHO;
-    // Σ over a bin class of (|c| − (m + δ)Δ)² with δ the class mean of |c|/Δ − m: Σr² − (Σr)²/n, r = |c| − mΔ.
-    let zero = 0;
-    const s = [0, 0];
-    const s2 = [0, 0];
-    const n = [0, 0];
-    for (let i = 0; i < v.length; i++) {
-      const m = Math.floor(v[i] / d + rho);
-      if (m === 0) {
-        zero += v[i] * v[i];
-        continue;
+  for (let bi = 0; bi < bands.length; bi++) {
+    const b = bands[bi];
+    const step = steps[bi];
+    const d1 = offsets ? offsets[2 * bi] : 0;
+    const d2 = offsets ? offsets[2 * bi + 1] : 0;
+    let s = 0;
+    for (let y = 0; y < b.h; y++) {
+      const row = (b.y0 + y) * width + b.x0;
+      const end = row + b.w;
+      for (let i = row; i < end; i++) {
+        const v = q[i];
+        const d = v === 0 ? x[i] : x[i] - rebuilt(v, step, d1, d2);
+        s += d * d;
       }
-      const r = v[i] - m * d;
-      const k = m === 1 ? 0 : 1;
-      s[k] += r;
-      s2[k] += r * r;
-      n[k]++;
     }
-    let band = zero;
-    for (let k = 0; k < 2; k++) if (n[k]) band += s2[k] - (s[k] * s[k]) / n[k];
-    e += bands[b].gain * band;
+    e += b.gain * s;
   }
-  return e * strideOf(a);
+  return e;
 }

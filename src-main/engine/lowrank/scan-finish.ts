@@ -4,6 +4,7 @@
  * measured on the file as written.
  */
 import type { DecodedImage } from '../../contract';
+import { forgetCodes, recordingCodes } from '../codec/coded-planes';
 import { encodePlanes, RESIDUAL_MAX_PIXELS } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
 import { psnrPlanes, ssimPlanes } from '../metrics';
@@ -51,6 +52,8 @@ export function finishScan(
     bytes = build(basePlanes, true, residual);
     decoded = decodeImageFile(bytes, img.file);
   }
+  // The residual-only path recorded its plane encodes (residualFirstFor); the decodes above used them.
+  forgetCodes();
   const outPlanes = decoded.samples.slice(0, colourSamples.length);
   const psnr = psnrPlanes(colourSamples, outPlanes, max);
   const ssim =
@@ -101,21 +104,26 @@ export function residualFirstFor(
   if (!(kind === 'bytes' || kind === 'bpp' || kind === 'percent' || kind === 'psnr')) return undefined;
   // The last file checked under a quality floor and its decoding, so the report does not decode it again.
   let last: { bytes: Uint8Array; decoded: DecodedRkf } | undefined;
-  const r = residualFirst({
-    planes: prep.planes,
-    weights: prep.weights,
-    width,
-    height,
-    maxValue: max,
-    budget: opts.budget,
-    byteBudget,
-    build: (planes, residual) => build(planes, false, residual),
-    measuredSse: (bytes) => {
-      last = { bytes, decoded: decodeImageFile(bytes, img.file) };
-      return decodedSse(last.decoded, img, prep);
-    },
-    cancel,
-  });
+  // Its plane encodes are recorded (../codec/coded-planes), so decoding the files they went into (the PSNR
+  // floor's check here, the report's in finishScan) rebuilds them without the range decoder, bit-identically.
+  const r = recordingCodes(() =>
+    residualFirst({
+      planes: prep.planes,
+      weights: prep.weights,
+      width,
+      height,
+      maxValue: max,
+      budget: opts.budget,
+      byteBudget,
+      build: (planes, residual) => build(planes, false, residual),
+      measuredSse: (bytes) => {
+        last = { bytes, decoded: decodeImageFile(bytes, img.file) };
+        return decodedSse(last.decoded, img, prep);
+      },
+      cancel,
+    }),
+  );
+  if (!r) forgetCodes();
   return r && { ...r, decoded: last && last.bytes === r.file ? last.decoded : undefined };
 }
 

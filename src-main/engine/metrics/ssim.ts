@@ -114,6 +114,7 @@ export class SsimStream {
   private readonly rxx: Float64Array;
   private readonly ryy: Float64Array;
   private readonly rxy: Float64Array;
+  private readonly offs: Int32Array;
   private y = 0;
   private total = 0;
 
@@ -152,6 +153,7 @@ export class SsimStream {
     this.rxx = new Float64Array(width);
     this.ryy = new Float64Array(width);
     this.rxy = new Float64Array(width);
+    this.offs = new Int32Array(2 * radius);
   }
 
   /** Add the next `rows` rows of both planes, starting at a[aOff] and b[bOff] (row stride = width). */
@@ -236,6 +238,12 @@ export class SsimStream {
     const gc = g[R];
     const base = y - side + 1;
     const oc = ((base + R) % side) * stride;
+    // Ring offsets of the window's rows above (lo) and below (hi) the centre, once per row, not per sample.
+    const offs = this.offs;
+    for (let t = 0; t < R; t++) {
+      offs[2 * t] = ((base + t) % side) * stride;
+      offs[2 * t + 1] = ((base + 2 * R - t) % side) * stride;
+    }
     let rowSum = 0;
     for (let j = 0; j < wv; j++) {
       let ux = gc * ring[oc + j];
@@ -245,8 +253,8 @@ export class SsimStream {
       let uxy = gc * ring[oc + 4 * wv + j];
       for (let t = 0; t < R; t++) {
         const w = g[t];
-        const lo = ((base + t) % side) * stride + j;
-        const hi = ((base + 2 * R - t) % side) * stride + j;
+        const lo = offs[2 * t] + j;
+        const hi = offs[2 * t + 1] + j;
         ux += w * (ring[lo] + ring[hi]);
         uy += w * (ring[lo + wv] + ring[hi + wv]);
         uxx += w * (ring[lo + 2 * wv] + ring[hi + 2 * wv]);
