@@ -27,6 +27,7 @@ import { cpus, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import sharp from 'sharp';
+import { packIcc } from '../src-main/engine/codec/icc-pack';
 import { psnr } from '../src-main/engine/metrics';
 import { decodeImage } from '../src-main/node/image/decode';
 import { median } from './timing';
@@ -52,6 +53,8 @@ interface Scan {
   /** File handed to Rankfold (PNG or TIFF), and the same samples as PGM for OpenJPEG. */
   file: string;
   pgm: string;
+  /** The fixture as given, when it carries an ICC profile: its path and the profile's raw and packed bytes. */
+  profiled?: { file: string; icc: number; packed: number };
 }
 
 interface Coded {
@@ -210,22 +213,21 @@ async function makeScan(
   return { name, what, width, height, bitDepth, samples: s, file, pgm };
 }
 
+/**
+ * A fixture as every codec sees it: its samples in a PNG without metadata (the colour fixture as its libvips
+ * b-w rendering). Rankfold keeps a source's ICC profile while mozjpeg, WebP and AVIF through sharp drop it
+ * (sharp writes no metadata unless asked) and a PGM has none, so the fixture file itself would charge its
+ * profile to Rankfold alone; a fixture with a profile is also run as given, in a table of its own.
+ */
 async function fixtureScan(file: string, what: string): Promise<Scan> {
   const d = await decodeImage(join(fixtures, file));
   const name = file.replace(/\.(png|tif)$/, '');
   if (d.channels === 1) {
-    const pgm = join(work, `${name}.pgm`);
-    writePgm(pgm, d.planes[0], d.width, d.height, d.bitDepth as 8 | 16);
-    return {
-      name,
-      what,
-      width: d.width,
-      height: d.height,
-      bitDepth: d.bitDepth as 8 | 16,
-      samples: d.planes[0],
-      file: join(fixtures, file),
-      pgm,
-    };
+    const scan = await makeScan(name, what, d.planes[0], d.width, d.height, d.bitDepth as 8 | 16);
+    const icc = d.meta.icc;
+    return icc
+      ? { ...scan, profiled: { file: join(fixtures, file), icc: icc.length, packed: packIcc(icc).length } }
+      : scan;
   }
   // Colour fixture: its grey rendering (libvips b-w) is the source for every codec.
   const g = await greyRaw(join(fixtures, file));
@@ -623,6 +625,13 @@ async function main() {
           `; the CLI's own --json report ${f2(rf.report?.psnr ?? Number.NaN)} dB.`;
       }
     }
+  // The fixtures that carry an ICC profile, compressed as given (Rankfold keeps the profile).
+  const profiled: Array<{ scan: Scan; bpp: number; rf: RankfoldRun; plain: Row }> = [];
+  for (const r of rows)
+    if (r.scan.profiled) {
+      const given = { ...r.scan, name: `${r.scan.name}-as-given`, file: r.scan.profiled.file };
+      profiled.push({ scan: r.scan, bpp: r.bpp, rf: await rankfold(given, r.bpp), plain: r });
+    }
   const rdMs = performance.now() - t0;
 
   // Speed.
@@ -703,6 +712,7 @@ async function main() {
     `- ${ver.sharp} (sharp.versions; AVIF is libheif with libaom, sharp does not use libavif). mozjpeg \`jpeg({ mozjpeg: true, quality })\`, WebP \`webp({ quality, effort: 6 })\`, AVIF \`avif({ quality, effort: 6 })\`, one-channel grey input (\`b-w\`); quality bisected over 1–100 for the largest file ≤ Rankfold's bytes. 16-bit sources: mozjpeg and WebP code the 8-bit rendering (v/257 rounded, scaled back by 257); AVIF codes 12 bits (\`bitdepth: 12\`).`,
     `- PSNR: \`psnr\` from src-main/engine/metrics against the source samples, MAX 255 (8-bit) or 65535 (16-bit, PSNR on the 0–65535 scale). Means cap a PSNR at ${PSNR_CAP} dB (identical planes are infinite). ${crossCheck}`,
     `- Bytes are whole files on disk: the .rkf container, the JP2 file, the JPEG/WebP/AVIF file. "over" marks a baseline whose smallest setting is still above the budget (figures then at that larger size; it counts as a Rankfold win).`,
+    "- Input: every codec codes the same samples, from a PNG without metadata (Rankfold) or the same samples raw (sharp) or as PGM (OpenJPEG). Rankfold keeps a source's ICC profile in its file, while sharp writes none unless asked and a PGM has none, so the fixture file itself would charge its profile to Rankfold alone. Fixtures with a profile are also run as given, below the main table.",
     '',
     '### Images',
     '',
@@ -723,6 +733,21 @@ async function main() {
     L.push(
       `| ${r.scan.name} | ${r.bpp} | ${Number.isFinite(r.rf.bytes) ? r.rf.bytes : 'n/a'} | ${f2(r.rf.psnr)} (${r.rf.note}) | ${cell(r.opj)} | ${cell(r.moz)} | ${cell(r.webp)} | ${cell(r.avif)} | ${d2(delta(r.rf, r.opj))} | ${d2(delta(r.rf, r.moz))} | ${d2(delta(r.rf, r.avif))} |`,
     );
+  if (profiled.length) {
+    L.push(
+      '',
+      '### Fixtures with an ICC profile, compressed as given (the profile kept in the file)',
+      '',
+      'Not in the means or the verdicts: the baselines above carry no profile. Δ mozjpeg against the same row of the main table.',
+      '',
+      '| image | ICC profile (raw → packed in the file) | bpp | Rankfold bytes | Rankfold | without the profile | Δ mozjpeg |',
+      '|---|---|---|---|---|---|---|',
+    );
+    for (const p of profiled)
+      L.push(
+        `| ${p.scan.name} | ${p.scan.profiled?.icc} → ${p.scan.profiled?.packed} B | ${p.bpp} | ${Number.isFinite(p.rf.bytes) ? p.rf.bytes : 'n/a'} | ${f2(p.rf.psnr)} (${p.rf.note}) | ${f2(p.plain.rf.psnr)} | ${d2(delta(p.rf, p.plain.moz))} |`,
+      );
+  }
   L.push('', '### Per rate (mean over images; worst image in brackets)', '');
   L.push(
     '| bpp | images with a Rankfold file | Rankfold mean PSNR | OpenJPEG mean | Δ OpenJPEG mean (worst) | Δ mozjpeg mean (worst) | Δ WebP mean | Δ AVIF mean (worst) |',

@@ -32,7 +32,7 @@ import {
 import { psnrFromSse } from '../metrics';
 import type { LayerSummary } from './encode-options';
 import { factorPlane } from './factorise';
-import { fitResidual, tidy } from './residual-fit';
+import { fitResidual, type ResidualBytes, residualTarget, tidy } from './residual-fit';
 import { estimateErrorAtBytes, type PlaneInput } from './solve';
 import { emptyBase } from './two-layer';
 
@@ -50,8 +50,6 @@ const MAX_CODES = 3;
  * bytes is under 0.06 dB at 0.1–1 bpp on our test images), error measured on the kept encode only.
  */
 const LANDING = { close: 0.98, aim: 0.985, lazy: true } as const;
-/** Bytes the header may grow by per plane once a residual step is written into it (as ./two-layer). */
-const STEP_SLACK = 24;
 
 export interface ResidualFirstInput {
   /** The coded planes (gray, or Y, Cb, Cr) and each one's share of the reported squared error. */
@@ -63,7 +61,7 @@ export interface ResidualFirstInput {
   budget: Budget;
   /** The byte budget, for byte, percent and bpp budgets. */
   byteBudget?: number;
-  build: (base: QuantPlane[], residual?: { steps: number[]; bytes: Uint8Array[] }) => Uint8Array;
+  build: (base: QuantPlane[], residual?: ResidualBytes) => Uint8Array;
   /** Squared error (RGB or gray samples, rounded as written) of a built file against the source. */
   measuredSse: (bytes: Uint8Array) => number;
   cancel: () => void;
@@ -220,11 +218,7 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
     };
   };
   if (byteBudget !== undefined) {
-    const frame = inp.build(basePlanes, {
-      steps: planes.map(() => 1),
-      bytes: planes.map(() => new Uint8Array(0)),
-    }).length;
-    const target = byteBudget - frame - STEP_SLACK * nc;
+    const target = residualTarget(inp.build, basePlanes, byteBudget);
     if (target < 8 * nc) return undefined;
     const { fit } = fitResidual(analysed, weights, scales, target, ratio, cancel, LANDING);
     if (!fit) return undefined;

@@ -4,6 +4,7 @@
  * plane, and the slope λ (squared error removed per bit) measured from those encodes. Used by ./two-layer for
  * each candidate base and by ./residual-first for the residual-only file.
  */
+import type { QuantPlane } from '../codec/quantised';
 import {
   type AnalysedPlane,
   type CodedCoefficients,
@@ -12,6 +13,46 @@ import {
   estimateBits,
   smallestSafeStep,
 } from '../codec/wavelet-plane';
+
+/** A residual layer as the file writer takes it: the step and the coded bytes of each plane. */
+export interface ResidualBytes {
+  steps: number[];
+  bytes: Uint8Array[];
+}
+
+/** Length in bytes of n as an unsigned LEB128 varint (the compact framing's chunk lengths). */
+function varintLength(n: number): number {
+  let k = 1;
+  for (let v = n; v >= 128; v = Math.floor(v / 128)) k++;
+  return k;
+}
+
+/**
+ * A step that is not an integer: the compact header (../codec/compact-header) writes it as a float64, tag and
+ * 8 bytes, the longest form a number takes there (an integer step below 2^48 is a shorter varint).
+ */
+const FLOAT_STEP = 0.5;
+
+/**
+ * The most bytes the residual payloads (summed over planes) may take so that the file built from `base` with
+ * them stays within `budget`: the budget less the file with empty residual chunks and float steps, less the
+ * growth of each chunk's length varint (container 1.3 compact framing, ../codec/container-compact) up to the
+ * length of the whole target. Exact for one plane when the payload's varint is as long as the target's;
+ * otherwise at most 1–2 bytes per plane under what would fit.
+ */
+export function residualTarget(
+  build: (base: QuantPlane[], residual: ResidualBytes) => Uint8Array,
+  base: QuantPlane[],
+  budget: number,
+): number {
+  const nc = base.length;
+  const frame = build(base, {
+    steps: base.map(() => FLOAT_STEP),
+    bytes: base.map(() => new Uint8Array(0)),
+  }).length;
+  const room = budget - frame;
+  return room - nc * (varintLength(Math.max(0, room)) - 1);
+}
 
 /** Most real encodes of the residual (all planes) per candidate. */
 const MAX_RESIDUAL_CODES = 3;

@@ -28,7 +28,7 @@
 import { reconstructRows } from '../codec/quantise';
 import { type QuantPlane, tileGrid } from '../codec/quantised';
 import { analysePlane, reconstructCoded } from '../codec/wavelet-plane';
-import { type Fitted, fitResidual, slopeOf } from './residual-fit';
+import { type Fitted, fitResidual, type ResidualBytes, residualTarget, slopeOf } from './residual-fit';
 import { buildCandidate, type Plan, type PlaneInput, prefixRanks, quantPlanes } from './solve';
 
 /** Slope multipliers κ of the mixed candidates. */
@@ -78,7 +78,7 @@ export interface LayerContext {
   basePlan: Plan;
   budget: number;
   /** The complete file for a base and an optional residual. */
-  build: (base: QuantPlane[], residual?: { steps: number[]; bytes: Uint8Array[] }) => Uint8Array;
+  build: (base: QuantPlane[], residual?: ResidualBytes) => Uint8Array;
   /** Bytes of the PLNE payloads of a file built from `base`. */
   baseBytes: (base: QuantPlane[]) => number;
   cancel: () => void;
@@ -100,9 +100,6 @@ function components(planes: QuantPlane[]): number {
   for (const p of planes) for (const t of p.tiles) n += t.u.length;
   return n;
 }
-
-/** Bytes the header may grow by per plane once a residual step is written into it. */
-const STEP_SLACK = 24;
 
 /**
  * Choose among base only, residual only and mixed bases by squared error at the byte budget (see the module
@@ -174,12 +171,8 @@ export function chooseLayers(ctx: LayerContext): LayerPlan {
       for (let i = 0; i < r.length; i++) r[i] = o[i] - b[i];
       return r;
     });
-    // The file with empty residual chunks and a placeholder step: what the base and framing cost.
-    const frame = ctx.build(basePlanes, {
-      steps: planes.map(() => 1),
-      bytes: planes.map(() => new Uint8Array(0)),
-    }).length;
-    const target = budget - frame - STEP_SLACK * nc;
+    // What the base, header and framing leave for the residual payloads.
+    const target = residualTarget(ctx.build, basePlanes, budget);
     if (target < 8 * nc) return undefined;
     const analysed = residual.map((r) => analysePlane(r, width, height));
     const { fit, ratio: r } = fitResidual(analysed, weights, scales, target, ratio, ctx.cancel);
