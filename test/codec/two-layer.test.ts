@@ -136,7 +136,7 @@ describe('the split', () => {
   // than 0.1 dB at the same bytes. The grid: base-only files at fractions of the budget (the base-only
   // solver's own plans), each with the residual (wavelet plane coder) at every eighth-octave step whose total
   // fits. The total counts the residual chunk framing and the header growth as the writer does (36 bytes of
-  // chunk and index entry per plane, 24 bytes of header; the solver reserves the same).
+  // chunk and index entry per plane, 24 bytes of header; the solver's residualTarget sizes the same framing).
   it('a brute-force search over (base fraction, residual step) finds nothing better by more than 0.1 dB', async () => {
     const img = crop(await decodeImage(image('camera.png')), 128, 128);
     const bpp = 1;
