@@ -19,7 +19,9 @@ import { image } from '../helpers/fixtures';
 import { type AppSession, figureCells, openApp, shot } from './harness';
 
 declare const document: {
-  getElementById(id: string): { dataset: Record<string, string | undefined> } | null;
+  getElementById(
+    id: string,
+  ): { dataset: Record<string, string | undefined>; textContent: string | null } | null;
 };
 
 /** The page: 2000×1500 px = 3.0 MP, 8-bit grey. */
@@ -114,6 +116,33 @@ describe('acceptance: "38 dB" on a scan the app has not seen', () => {
     },
     (CI_LIMIT_S + 180) * 1000,
   );
+
+  // Cancel, on a job long enough to cancel without a race (on moon.png every floor now ends within about a
+  // second, and an unreachable one is refused at once): a 39-dB floor on this page runs for seconds.
+  it('Cancel stops the encoder: the worker is free for the next job at once', async () => {
+    const budget = page.getByRole('textbox', { name: 'Budget' });
+    await budget.fill('39 dB');
+    await budget.press('Enter');
+    await page.waitForSelector('#status-cancel:not([hidden])');
+    await page.waitForTimeout(300);
+    await page.click('#status-cancel');
+    await page.waitForFunction(
+      () => document.getElementById('status-text')?.textContent === 'Cancelled.',
+      undefined,
+      { timeout: 10_000 },
+    );
+    expect(await page.getByRole('alert').isVisible()).toBe(false);
+    // Had the 39-dB search kept the session's worker, this rank encode would queue behind it.
+    await page.getByRole('slider', { name: 'Rank' }).fill('12');
+    await page.waitForFunction(
+      () => {
+        const box = document.getElementById('readouts');
+        return box?.dataset.state === 'exact' && box.dataset.rank === '12';
+      },
+      undefined,
+      { timeout: 20_000 },
+    );
+  });
 
   it('raised no errors in the page', () => {
     expect(app.pageErrors).toEqual([]);

@@ -132,25 +132,6 @@ describe('opening, saving, progress and messages (1440×900)', () => {
     expect((await readouts(page)).psnr).toBeGreaterThanOrEqual(42);
   });
 
-  it('Cancel stops the encoder: the worker is free for the next job at once', async () => {
-    await page.getByRole('textbox', { name: 'Budget' }).fill('60 dB');
-    await page.getByRole('textbox', { name: 'Budget' }).press('Enter');
-    await page.waitForSelector('#status-cancel:not([hidden])');
-    await page.waitForTimeout(300);
-    await page.click('#status-cancel');
-    await page.waitForFunction(
-      () => document.getElementById('status-text')?.textContent === 'Cancelled.',
-      undefined,
-      {
-        timeout: 10_000,
-      },
-    );
-    expect(await page.getByRole('alert').isVisible()).toBe(false);
-    // Had the 60 dB search kept the session's worker, this rank encode would queue behind it.
-    await page.getByRole('slider', { name: 'Rank' }).fill('12');
-    await waitExactRank(12, 10_000);
-  });
-
   it('Tile ranks in whole-plane mode says why it is empty', async () => {
     await page.getByRole('button', { name: 'Tile ranks' }).click();
     expect(await page.textContent('#label-right')).toContain('whole planes');
