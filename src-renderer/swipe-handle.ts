@@ -3,7 +3,7 @@
  * slider element laid over it, so it can be dragged anywhere along its height and moved from the keyboard
  * (arrows by 5 %, Page Up and Page Down by 25 %, Home and End to the edges).
  */
-import { DIVIDER_GRAB_PX } from './view-math';
+import { DIVIDER_GRAB_PX, dividerKey } from './view-math';
 
 /** Draw the divider at device x: a 4 px line and a 28 px knob with arrows, visible on light and dark scans. */
 export function drawDivider(ctx: CanvasRenderingContext2D, x: number, h: number, dpr: number) {
@@ -27,15 +27,6 @@ export function drawDivider(ctx: CanvasRenderingContext2D, x: number, h: number,
     ctx.fill();
   }
   ctx.restore();
-}
-
-/** Where a key moves the divider (a share of the pane, 0..1), or undefined for other keys. */
-export function dividerKey(key: string, at: number): number | undefined {
-  const step: Record<string, number> = { ArrowLeft: -0.05, ArrowRight: 0.05, PageDown: -0.25, PageUp: 0.25 };
-  if (key === 'Home') return 0;
-  if (key === 'End') return 1;
-  if (!(key in step)) return undefined;
-  return Math.max(0, Math.min(1, Math.round((at + step[key]) * 100) / 100));
 }
 
 export class SwipeHandle {

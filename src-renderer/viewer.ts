@@ -169,7 +169,7 @@ export class CompareView {
     this.handle.place(s && this.mode === 'swipe' && !s.noOriginal ? this.swipe : undefined);
     if (!s) {
       for (const c of [this.left, this.right]) c.getContext('2d')?.clearRect(0, 0, c.width, c.height);
-      return;
+      return this.describe(w, h);
     }
     // Follow the canvas (resize, mode change) until the user zooms or pans; keep the image over it after.
     this.v = this.v.fitted ? fitView(w, h, s.width, s.height) : clampView(this.v, w, h, s.width, s.height);

@@ -4,7 +4,7 @@
  * a larger step, Home/End to the minimum and maximum); the step sizes (5 %, 25 %) are this app's choice.
  */
 import { describe, expect, it } from 'vitest';
-import { dividerKey } from '../../src-renderer/swipe-handle';
+import { dividerKey } from '../../src-renderer/view-math';
 
 describe('dividerKey', () => {
   it('moves by 5 % with the arrows and 25 % with Page Up/Down, within 0..1', () => {
