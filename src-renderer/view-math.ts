@@ -104,3 +104,12 @@ export function viewKey(key: string): ViewKey | undefined {
 
 /** Half the width, in CSS px, of the swipe divider's grab area (a 32 px band). */
 export const DIVIDER_GRAB_PX = 16;
+
+/** Where a key moves the divider (a share of the pane, 0..1), or undefined for other keys. */
+export function dividerKey(key: string, at: number): number | undefined {
+  const step: Record<string, number> = { ArrowLeft: -0.05, ArrowRight: 0.05, PageDown: -0.25, PageUp: 0.25 };
+  if (key === 'Home') return 0;
+  if (key === 'End') return 1;
+  if (!(key in step)) return undefined;
+  return Math.max(0, Math.min(1, Math.round((at + step[key]) * 100) / 100));
+}

@@ -6,36 +6,13 @@
 
 import { paneNote } from './canvas-note';
 import { NO_TILES, RANK_RAMP } from './captions';
+import { drawDivider, SwipeHandle } from './swipe-handle';
 import { clampView, DIVIDER_GRAB_PX, fitView, panView, type ViewState, viewKey, zoomView } from './view-math';
 import type { ViewMode, ViewSource } from './view-types';
 
 export type { ViewMode, ViewSource };
 
 const BG = [38, 41, 46];
-
-/** The swipe divider: a 4 px line and a 28 px knob with arrows, visible on light and dark scans. */
-function drawDivider(ctx: CanvasRenderingContext2D, x: number, h: number, dpr: number) {
-  ctx.save();
-  ctx.fillStyle = '#fffaf0';
-  ctx.fillRect(x - 3 * dpr, 0, 6 * dpr, h);
-  ctx.fillStyle = '#e07a3f';
-  ctx.fillRect(x - 2 * dpr, 0, 4 * dpr, h);
-  ctx.beginPath();
-  ctx.arc(x, h / 2, 14 * dpr, 0, Math.PI * 2);
-  ctx.fill();
-  ctx.strokeStyle = '#fffaf0';
-  ctx.lineWidth = 2 * dpr;
-  ctx.stroke();
-  ctx.fillStyle = '#fffaf0';
-  for (const d of [-1, 1]) {
-    ctx.beginPath();
-    ctx.moveTo(x + d * 9 * dpr, h / 2);
-    ctx.lineTo(x + d * 3 * dpr, h / 2 - 5 * dpr);
-    ctx.lineTo(x + d * 3 * dpr, h / 2 + 5 * dpr);
-    ctx.fill();
-  }
-  ctx.restore();
-}
 
 /** Rank-map colour ramp (../captions.ts RANK_RAMP), t in 0..1. */
 function ramp(t: number): [number, number, number] {
@@ -60,6 +37,7 @@ export class CompareView {
   source?: ViewSource;
   onChange?: () => void;
   lastPaintMs = 0;
+  private readonly handle: SwipeHandle;
 
   constructor(
     readonly left: HTMLCanvasElement,
@@ -67,6 +45,10 @@ export class CompareView {
     readonly host: HTMLElement,
   ) {
     for (const c of [left, right]) this.bindPointer(c);
+    this.handle = new SwipeHandle(host, right, (share) => {
+      this.swipe = share;
+      this.paint();
+    });
     new ResizeObserver(() => this.paint()).observe(host);
     // Keys anywhere on the page except where they type or choose (fields, lists, sliders).
     document.addEventListener('keydown', (e) => {
@@ -184,9 +166,10 @@ export class CompareView {
     const s = this.source;
     const t0 = performance.now();
     const { w, h } = this.sizeCanvases();
+    this.handle.place(s && this.mode === 'swipe' && !s.noOriginal ? this.swipe : undefined);
     if (!s) {
       for (const c of [this.left, this.right]) c.getContext('2d')?.clearRect(0, 0, c.width, c.height);
-      return;
+      return this.describe(w, h);
     }
     // Follow the canvas (resize, mode change) until the user zooms or pans; keep the image over it after.
     this.v = this.v.fitted ? fitView(w, h, s.width, s.height) : clampView(this.v, w, h, s.width, s.height);
@@ -224,6 +207,19 @@ export class CompareView {
       this.blitTiles(this.right, ix, iy, rec, k);
     } else this.blit(this.right, ix, iy, rec, k, 0);
     this.lastPaintMs = performance.now() - t0;
+    this.describe(w, h);
+  }
+
+  /** The view state on the stage as data attributes, for tests and tools (device px per image px). */
+  private describe(w: number, h: number) {
+    const d = this.host.dataset;
+    d.mode = this.mode;
+    d.scale = String(this.v.scale);
+    d.cx = String(this.v.cx);
+    d.cy = String(this.v.cy);
+    d.fitted = String(this.v.fitted);
+    d.swipe = String(this.swipe);
+    d.canvas = `${w}x${h}`;
   }
 
   private image(c: HTMLCanvasElement): { ctx: CanvasRenderingContext2D; img: ImageData; px: Uint32Array } {

@@ -1,8 +1,8 @@
 /**
  * The Batch panel with three scans (issue 14, "Progress"): a row appears for each file as it starts, before
  * the batch ends; the status line says which file of how many is running, with a determinate bar, the
- * time left and a Cancel button; the output folder, which does not exist yet, is created; at the end every
- * row reads done and the outputs are there.
+ * time left and a Cancel button; the output folder, three levels of folders that do not exist yet, is
+ * created (as `rankfold batch` does); at the end every row reads done and the outputs are there.
  */
 import { existsSync, mkdirSync, mkdtempSync, readdirSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -59,7 +59,8 @@ describe('batch panel, three files', () => {
   it('rows appear as files start; the bar says "file N of 3" with the time left and Cancel', async () => {
     const root = mkdtempSync(join(tmpdir(), 'rankfold-e2e-batch3-'));
     const input = join(root, 'in');
-    const output = join(root, 'out');
+    // Three levels that do not exist yet: the batch creates them, as `rankfold batch -o` does.
+    const output = join(root, 'out', 'a', 'b', 'c');
     mkdirSync(input);
     // Three grey scans, 512×512 px each (fixtures upscaled with sharp's Lanczos kernel where smaller).
     for (const name of ['camera.png', 'moon.png', 'text.png'])

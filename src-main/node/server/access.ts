@@ -18,10 +18,9 @@ export class AccessPolicy {
   async allow(path: string, kind: PickRequest['kind']): Promise<string> {
     const abs = resolve(path);
     if (kind === 'save') {
-      const dir = await realpath(dirname(abs)).catch(() => {
-        throw new InputError(dirname(abs), 'folder does not exist; choose a folder that exists');
-      });
-      const target = join(dir, basename(abs));
+      // Missing folders on the way are created when the file (or the batch's output folder) is written,
+      // as the CLI does; the target is named through the real path of its nearest existing folder.
+      const target = await throughExisting(abs);
       this.saveTargets.add(target);
       return target;
     }
@@ -58,5 +57,16 @@ export class AccessPolicy {
         `${path}: not opened or chosen in this session; open it through the page or a dialog first`,
       );
     return real;
+  }
+}
+
+/** `abs` with its nearest existing ancestor replaced by that folder's real path. */
+async function throughExisting(abs: string): Promise<string> {
+  const rest: string[] = [];
+  for (let dir = dirname(abs), name = basename(abs); ; name = basename(dir), dir = dirname(dir)) {
+    rest.unshift(name);
+    const real = await realpath(dir).catch(() => undefined);
+    if (real !== undefined) return join(real, ...rest);
+    if (dirname(dir) === dir) throw new InputError(abs, 'no folder on this path exists');
   }
 }
