@@ -93,6 +93,8 @@ export function setupBatchPanel(
     state.batchJob = job;
     rows.clear();
     el.files.replaceChildren();
+    // "Finished" belongs to one run: a plan followed by a run must not read as finished while the run goes.
+    delete el.files.dataset.finished;
     el.cancel.disabled = false;
     el.run.disabled = true;
     el.plan.disabled = true;
@@ -177,6 +179,8 @@ export function setupBatchPanel(
     };
     el.plotSvg.replaceChildren(...shapes, label(10, `${lo} dB`, 'start'), label(310, `${hi} dB`, 'end'));
     el.plotCaption.textContent = `${planned ? 'Planned' : 'Achieved'} PSNR of ${xs.length} file${xs.length === 1 ? '' : 's'}: lowest ${Math.min(...xs).toFixed(2)} dB, highest ${Math.max(...xs).toFixed(2)} dB`;
+    // The plot's accessible name says which it is, planned or achieved.
+    el.plotSvg.setAttribute('aria-label', `${planned ? 'Planned' : 'Achieved'} PSNR per file`);
   };
 
   el.run.addEventListener('click', () => void start(false));

@@ -72,6 +72,16 @@ describe.skipIf(!built)('rankfold batch --total (built CLI)', () => {
     expect(filesUnder(out).filter((f) => f.includes('.rankfold-tmp-'))).toEqual([]);
     expect(rows.find((x) => x.path === 'notes.txt')!.status).toBe('skipped');
     expect(existsSync(join(out, 'rankfold-survey.json'))).toBe(true);
+    // Each file's survey has a line as it ends (stderr is not a terminal here): 7 files, the text file unmeasured.
+    expect(r.stderr).toMatch(/^\[\d\/7\] surveyed page-0\.png \d+\.\d\d–\d+\.\d\d dB$/m);
+    expect(r.stderr).toMatch(/^\[\d\/7\] surveyed notes\.txt not measured$/m);
+    expect(r.stderr.match(/^\[\d\/7\] surveyed /gm)).toHaveLength(7);
+    // The text file is skipped with the reader's sentence, word for word as a run without --total lists it.
+    const plain = join(root, 'plain');
+    expect(runBatchCli([inDir, '-o', plain, '--budget', '10%', ...TILE]).code).toBe(0);
+    const note = (m: string) => manifestRows(m).find((x) => x.path === 'notes.txt')!.note;
+    expect(note(join(out, 'rankfold-manifest.jsonl'))).toBe(note(join(plain, 'rankfold-manifest.jsonl')));
+    expect(note(join(out, 'rankfold-manifest.jsonl'))).not.toMatch(/left out of the plan/);
     // The dry run predicts the same first plan and writes nothing.
     const dry = join(root, 'dry');
     const d = runBatchCli([inDir, '-o', dry, '--total', '12kB', '--dry-run', ...TILE]);
@@ -150,6 +160,10 @@ describe.skipIf(!built)('rankfold batch --total (built CLI)', () => {
     }
     const one = join(root, 'one');
     expect(runBatchCli([inDir, '-o', one, '--plan', plan, ...TILE]).code).toBe(0);
+    // The text file, left out of the plan, is skipped by its shard with the reader's own sentence.
+    const skipped = manifestRows(join(one, 'rankfold-manifest.jsonl')).find((x) => x.path === 'notes.txt')!;
+    expect(skipped.status).toBe('skipped');
+    expect(skipped.note).toBe(planned.excluded[0].message);
     expect(hashTree(out, rkfOnly)).toEqual(hashTree(one, rkfOnly));
     expect(sumRkf(one)).toBeLessThanOrEqual(12_000 - 120);
     const m = runBatchCli([

@@ -2,9 +2,11 @@
  * The Batch panel with three scans (issue 14, "Progress"): a row appears for each file as it starts, before
  * the batch ends; the status line says which file of how many is running, with a determinate bar, the
  * time left and a Cancel button; the output folder, three levels of folders that do not exist yet, is
- * created (as `rankfold batch` does); at the end every row reads done and the outputs are there.
+ * created (as `rankfold batch` does); at the end every row reads done and the outputs are there. With a total
+ * for the folder (issue #13, "In the app"): Plan total shows the planned PSNR of every file as a histogram and
+ * writes nothing; Run batch then writes within the total.
  */
-import { existsSync, mkdirSync, mkdtempSync, readdirSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readdirSync, statSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
@@ -109,6 +111,60 @@ describe('batch panel, three files', () => {
     ).toEqual(['camera.rkf', 'moon.rkf', 'text.rkf']);
     await shot(page, 'e2e-batch3-done');
   }, 300_000);
+
+  it('a total for the folder: Plan total draws the planned PSNR histogram and writes nothing; Run meets it', async () => {
+    const root = mkdtempSync(join(tmpdir(), 'rankfold-e2e-batch-total-'));
+    const input = join(root, 'in');
+    const output = join(root, 'out');
+    mkdirSync(input);
+    // Four grey scans of 256×256 (fixtures resized with sharp's Lanczos kernel): raw samples 4 × 65,536 bytes.
+    const names = ['camera.png', 'moon.png', 'text.png', 'page.png'];
+    for (const name of names)
+      await sharp(image(name))
+        .resize(256, 256, { fit: 'fill', kernel: 'lanczos3' })
+        .toColourspace('b-w')
+        .png()
+        .toFile(join(input, name));
+    const total = Math.floor((4 * 256 * 256 * 4) / 100);
+    await page.getByRole('tab', { name: 'Batch' }).click();
+    await page.getByRole('textbox', { name: 'Input folder' }).fill(input);
+    await page.getByRole('textbox', { name: 'Output folder' }).fill(output);
+    await page.getByRole('textbox', { name: 'Total for the folder' }).fill('4%');
+    const finished = () =>
+      page.waitForFunction(
+        () => document.getElementById('batch-files').dataset.finished === 'true',
+        undefined,
+        { timeout: 180_000, polling: 100 },
+      );
+    await page.getByRole('button', { name: 'Plan total' }).click();
+    await finished();
+    const plot = page.getByRole('img', { name: 'Planned PSNR per file' });
+    expect(await plot.isVisible()).toBe(true);
+    const caption = (await page.locator('#batch-plan-caption').textContent()) ?? '';
+    const m = /^Planned PSNR of 4 files: lowest (\d+\.\d\d) dB, highest (\d+\.\d\d) dB$/.exec(caption);
+    expect(m, caption).not.toBeNull();
+    expect(Number(m![1])).toBeLessThanOrEqual(Number(m![2]));
+    // Every file is in one bar: the bars' counts (their tooltips) add up to the four files.
+    const counts = await page
+      .locator('#batch-plan-svg rect title')
+      .allTextContents()
+      .then((ts) => ts.map((t) => Number(/: (\d+) files?$/.exec(t)?.[1])));
+    expect(counts.reduce((a, b) => a + b, 0)).toBe(4);
+    expect(await page.locator('#status-text').textContent()).toBe('Plan ready: nothing was written.');
+    const rkf = () => (existsSync(output) ? readdirSync(output).filter((f) => f.endsWith('.rkf')) : []);
+    expect(rkf()).toEqual([]);
+    await shot(page, 'e2e-batch-total-plan');
+    // Run with the same total: every file written, and their sum within 4 % of the raw samples.
+    await page.getByRole('button', { name: 'Run batch' }).click();
+    await finished();
+    expect(await page.locator('#status-text').getAttribute('data-error')).toBeNull();
+    expect(rkf().sort()).toEqual(['camera.rkf', 'moon.rkf', 'page.rkf', 'text.rkf']);
+    const sum = rkf().reduce((s, f) => s + statSync(join(output, f)).size, 0);
+    expect(sum).toBeLessThanOrEqual(total);
+    expect(sum).toBeGreaterThan(0.9 * total);
+    expect(await page.getByRole('img', { name: 'Achieved PSNR per file' }).isVisible()).toBe(true);
+    expect(await page.locator('#batch-plan-caption').textContent()).toMatch(/^Achieved PSNR of 4 files: /);
+  }, 400_000);
 
   it('raised no errors in the page', () => {
     expect(suite.app.pageErrors).toEqual([]);

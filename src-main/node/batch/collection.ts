@@ -5,6 +5,7 @@
  * the survey, refuses an impossible total before anything is written, and hands the runner the files to
  * encode with their allotter.
  */
+import { isNotAnImage } from '../image/refusals';
 import type { Favour } from './allocate';
 import { type Allotter, FixedAllotter, LiveAllotter } from './allot';
 import type { PlannedFile } from './plan';
@@ -133,8 +134,7 @@ function excludeFailed(run: Run, todo: PlannedFile[], survey: SurveyManifest, ta
   const byPath = new Map(todo.map((f) => [f.path, f]));
   for (const x of survey.failed) {
     const f = byPath.get(x.path);
-    if (f)
-      tally.emit(tally.add(outcomeRow(f, run.shardLabel, leftOut(`${x.message}; left out of the plan`, x))));
+    if (f) tally.emit(tally.add(outcomeRow(f, run.shardLabel, leftOut(x))));
   }
   return survey.failed;
 }
@@ -182,12 +182,7 @@ function fromSharedPlan(run: Run, plan: SharedPlan, todo: PlannedFile[], tally: 
   const excluded = new Map(plan.excluded.map((x) => [x.path, x]));
   for (const f of todo) {
     const x = excluded.get(f.path);
-    if (x)
-      tally.emit(
-        tally.add(
-          outcomeRow(f, run.shardLabel, leftOut(`${f.path}: left out of the plan (${x.message})`, x)),
-        ),
-      );
+    if (x) tally.emit(tally.add(outcomeRow(f, run.shardLabel, leftOut(x))));
   }
   run.collection = {
     total: plan.total,
@@ -215,7 +210,17 @@ function fromSharedPlan(run: Run, plan: SharedPlan, todo: PlannedFile[], tally: 
   return { todo: next, allotter: new FixedAllotter(caps, run.o.planFile!) };
 }
 
-/** The error of a file the survey could not read: a file that is not an image keeps its refusal kind (skipped). */
-function leftOut(message: string, x: SurveyFailure) {
-  return { name: 'InputError', message, ...(x.refusal ? { details: { refusal: x.refusal } } : {}) };
+/**
+ * The error of a file the survey could not read. A file that is not an image keeps its refusal kind, so its row
+ * is skipped with the reader's own sentence, word for word as a run without --total lists it; any other failure
+ * adds that the file is left out of the plan.
+ */
+function leftOut(x: SurveyFailure) {
+  if (isNotAnImage({ details: { refusal: x.refusal } }))
+    return { name: 'InputError', message: x.message, details: { refusal: x.refusal } };
+  return {
+    name: 'InputError',
+    message: `${x.message}; left out of the plan`,
+    ...(x.refusal ? { details: { refusal: x.refusal } } : {}),
+  };
 }

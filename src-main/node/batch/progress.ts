@@ -3,6 +3,7 @@
  * `--total` run encodes, the survey's own bar (files measured, ETA by files).
  */
 import cliProgress from 'cli-progress';
+import type { SurveyedFile } from './run-options';
 
 export interface ProgressView {
   update(p: { done: number; total: number; bytesDone: number; bytesTotal: number; failed: number }): void;
@@ -45,21 +46,33 @@ export function terminalProgress(total: number, stream: NodeJS.WriteStream = pro
   };
 }
 
-/** The survey's bar (`batch --total`, `--survey`): files measured of the files to measure, and an ETA. */
+/**
+ * The survey's bar (`batch --total`, `--survey`): files measured of the files to measure, an ETA, and the file
+ * measured last with its predicted PSNR range.
+ */
 export function surveyProgress(
   total: number,
   stream: NodeJS.WriteStream = process.stderr,
-): { update(done: number): void; stop(): void } {
+): { update(done: number, file?: SurveyedFile): void; stop(): void } {
   const started = performance.now();
-  const bar = makeBar(stream, 'survey {bar} {value}/{total} files measured | ETA {etaText}');
-  bar.start(total, 0, { etaText: '–' });
+  const bar = makeBar(stream, 'survey {bar} {value}/{total} files measured | ETA {etaText} | {last}');
+  bar.start(total, 0, { etaText: '–', last: '' });
   return {
-    update(done) {
+    update(done, file) {
       const secs = (performance.now() - started) / 1000;
-      bar.update(done, { etaText: done > 0 ? fmtEta((secs * (total - done)) / done) : '–' });
+      bar.update(done, {
+        etaText: done > 0 ? fmtEta((secs * (total - done)) / done) : '–',
+        last: file ? surveyedText(file) : '',
+      });
     },
     stop() {
       bar.stop();
     },
   };
+}
+
+/** One surveyed file in words: `camera.png 31.20–44.02 dB`, or `notes.txt not measured`. */
+export function surveyedText(f: SurveyedFile): string {
+  if (f.psnr) return `${f.path} ${f.psnr[0].toFixed(2)}–${f.psnr[1].toFixed(2)} dB`;
+  return `${f.path} not measured`;
 }

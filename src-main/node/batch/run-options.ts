@@ -53,8 +53,8 @@ export interface BatchRunOptions {
   planFile?: string;
   /** Called when a file is handed to a worker (the app shows its row as it starts). */
   onFileStart?: (path: string) => void;
-  /** `--total`: called as each file's survey ends (`done` of `total`). */
-  onSurvey?: (done: number, total: number) => void;
+  /** `--total`, `--survey`: called as each file's survey ends (`done` of `total`), with what it measured. */
+  onSurvey?: (done: number, total: number, file?: SurveyedFile) => void;
   /** Called with one line of news about the survey and the plan. */
   onNote?: (text: string) => void;
   /** Called for every event (start, each file, end). */
@@ -97,4 +97,13 @@ export interface Run {
   sharedPlan?: import('./plan-file').SharedPlan;
   /** `--total` or `--plan`: each file's byte cap. */
   allotter?: import('./allot').Allotter;
+}
+
+/** One file's survey as it ends: its path, and its predicted PSNR range, or why it was not measured. */
+export interface SurveyedFile {
+  path: string;
+  /** Lowest and highest PSNR of its measured points (dB). */
+  psnr?: [number, number];
+  /** The survey's error message, when it could not be measured. */
+  error?: string;
 }

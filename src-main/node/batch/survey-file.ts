@@ -12,6 +12,7 @@ import { writeFileAtomic } from '../io/atomic';
 import type { BatchWork, BatchWorkResult, SurveyJobResult } from './job';
 import type { PlannedFile } from './plan';
 import { eachLimit, WorkerPool } from './pool';
+import type { SurveyedFile } from './run-options';
 
 export interface SurveyEntry extends SurveyJobResult {
   path: string;
@@ -77,7 +78,7 @@ interface SurveyRun {
   compress: CompressOptions;
   timeoutMs: number;
   signal?: AbortSignal;
-  onFile?: (done: number, total: number) => void;
+  onFile?: (done: number, total: number, file?: SurveyedFile) => void;
 }
 
 /**
@@ -127,17 +128,22 @@ export async function surveyFiles(
           { kind: 'survey', input: f.inputAbs, options: run.compress },
           { timeoutMs: run.timeoutMs, label: f.path },
         );
-        if (r.ok)
-          entries.push({ ...(r.value as SurveyJobResult), path: f.path, size: f.bytes, mtimeMs: f.mtimeMs });
-        else if (r.error.name !== 'CancelledError') {
+        let seen: SurveyedFile = { path: f.path };
+        if (r.ok) {
+          const v = r.value as SurveyJobResult;
+          entries.push({ ...v, path: f.path, size: f.bytes, mtimeMs: f.mtimeMs });
+          const dbs = v.points.map((p) => p.psnr);
+          seen = { path: f.path, psnr: [Math.min(...dbs), Math.max(...dbs)] };
+        } else if (r.error.name !== 'CancelledError') {
           const refusal = r.error.details?.refusal;
           failed.push({
             path: f.path,
             message: r.error.message,
             ...(typeof refusal === 'string' ? { refusal } : {}),
           });
+          seen = { path: f.path, error: r.error.message };
         }
-        run.onFile?.(++done, order.length);
+        run.onFile?.(++done, order.length, seen);
       });
     } catch (err) {
       failed.push({ path: '', message: toErrorPayload(err).message });

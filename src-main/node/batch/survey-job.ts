@@ -3,7 +3,13 @@
  * measure its rate–quality points with the current {@link RateSurveyor} (trial encodes through the compress
  * service for now). The crops are read band by band (image/decode.ts `region`), so a large scan is never held
  * whole; a scan too small for a mosaic is decoded and surveyed whole.
+ *
+ * A scan above 2^25 pixels is written without a residual layer (the tiled encoder, engine/lowrank/tiled.ts, and
+ * RESIDUAL_MAX_PIXELS in engine/codec/image-file.ts), so its mosaic is measured base-only too: a two-layer trial
+ * would predict several dB more than its file can reach.
  */
+import type { CompressOptions } from '../../contract';
+import { RESIDUAL_MAX_PIXELS } from '../../engine/codec/image-file';
 import { decodeImage, probeImage } from '../image/decode';
 import type { SurveyJob, SurveyJobResult } from './job';
 import { mosaicSide, readMosaic, trialEncodes } from './survey';
@@ -18,15 +24,13 @@ export async function runSurveyJob(job: SurveyJob): Promise<SurveyJobResult> {
       decodeImage(job.input, { ...opts, region }),
     )) ?? (await decodeImage(job.input, opts));
   const surveyor = trialEncodes(compressDecoded);
-  const points = await surveyor.points(mosaic, width * height, {
-    tile: job.options.tile,
-    layers: job.options.layers,
-  });
+  const layers = surveyLayers(width * height, job.options.layers);
+  const points = await surveyor.points(mosaic, width * height, { tile: job.options.tile, layers });
   if (!points.length)
     throw new Error(`${job.input}: no trial encode succeeded, so its rate–quality curve is unknown`);
   const bytesPerPixel = mosaic.rawBytes / (mosaic.width * mosaic.height);
   return {
-    method: surveyor.method,
+    method: layers === job.options.layers ? surveyor.method : `${surveyor.method} base-only`,
     width,
     height,
     channels: mosaic.channels,
@@ -35,4 +39,9 @@ export async function runSurveyJob(job: SurveyJob): Promise<SurveyJobResult> {
     points,
     timeMs: performance.now() - started,
   };
+}
+
+/** The layers a scan of `pixels` pixels is written with, for its survey: base only above RESIDUAL_MAX_PIXELS. */
+export function surveyLayers(pixels: number, layers: CompressOptions['layers']): CompressOptions['layers'] {
+  return pixels > RESIDUAL_MAX_PIXELS ? 'base' : layers;
 }

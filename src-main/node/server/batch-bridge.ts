@@ -44,12 +44,12 @@ export async function runBatchJob(
     signal,
     // Rows appear as files start (issue #14), and the survey and plan say what they do.
     onFileStart: (file) => progress({ stage: 'running', done: count.done, total: count.total, file }),
-    onSurvey: (done, total) =>
+    onSurvey: (done, total, file) =>
       progress({
         stage: 'planning',
         done,
         total,
-        message: `measuring scan ${done} of ${total} to plan the total`,
+        message: `measured scan ${done} of ${total}${file ? ` (${file.path})` : ''} to plan the total`,
       }),
     onNote: (message) => progress({ stage: 'planning', done: count.done, total: count.total, message }),
     onEvent: (e) => {

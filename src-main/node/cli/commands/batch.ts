@@ -10,7 +10,7 @@ import { collectionLines, mergedTotalLines, planLines } from '../../batch/collec
 import { rowToJson } from '../../batch/manifest';
 import { mergeManifests } from '../../batch/merge';
 import { makeSharedPlan } from '../../batch/plan-file';
-import { type ProgressView, surveyProgress, terminalProgress } from '../../batch/progress';
+import { type ProgressView, surveyedText, surveyProgress, terminalProgress } from '../../batch/progress';
 import { runBatch } from '../../batch/run';
 import { batchWorkerFile } from '../../batch/worker-path';
 import { parseBatchArgs } from '../args/batch-args';
@@ -193,10 +193,15 @@ async function run(argv: string[], io: CliIO): Promise<number> {
         }
       },
       onProgress: (p) => bar?.update(p),
-      onSurvey: (done, total) => {
-        if (!io.isTTY || args.json) return;
+      // Each file's survey as it ends: on the survey's bar, or a line of its own when stderr is not a terminal.
+      onSurvey: (done, total, file) => {
+        if (args.json) return;
+        if (!io.isTTY) {
+          if (file) io.stderr(`[${done}/${total}] surveyed ${surveyedText(file)}\n`);
+          return;
+        }
         survey ??= surveyProgress(total);
-        survey.update(done);
+        survey.update(done, file);
       },
       // The survey and plan notes come once the survey has ended.
       onNote: (text) => {
