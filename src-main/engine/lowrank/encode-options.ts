@@ -7,6 +7,7 @@ import type { ByteCompressor, EntropyId } from '../codec/entropy';
 import type { RkfHeader } from '../codec/image-file';
 import type { DecodedRkf } from './decode-image';
 import type { PlaneFactors } from './factorise';
+import type { SideRunner } from './side-jobs';
 import type { LayerCandidate } from './two-layer';
 
 export interface EncodeOptions {
@@ -33,6 +34,11 @@ export interface EncodeOptions {
    * the encode uses them instead of factoring again. Ranks beyond their components cannot be chosen.
    */
   factors?: PlaneFactors[];
+  /**
+   * A second thread for the parts of the encode that split without changing any result (./side-jobs): the
+   * output is the same bit for bit with or without it. Default: everything on the calling thread.
+   */
+  side?: SideRunner;
 }
 
 /** What the layers of the written file cost and how the split was chosen. */

@@ -7,13 +7,14 @@ import type { DecodedImage } from '../../contract';
 import { forgetCodes, recordingCodes } from '../codec/coded-planes';
 import { encodePlanes, RESIDUAL_MAX_PIXELS } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
-import { psnrPlanes, ssimPlanes } from '../metrics';
+import { psnrPlanes } from '../metrics';
 import { AUTO_PROBE_PIXELS } from './centred-crop';
 import { type DecodedRkf, decodeImageFile } from './decode-image';
 import type { EncodeOptions } from './encode-options';
 import type { EncodedPlanes } from './error-figures';
 import type { ImageBuild } from './image-writer';
 import { residualFirst } from './residual-first';
+import { runHere, ssimPlanesSplit } from './side-jobs';
 
 /** The coded planes of a scan with their names and weights. */
 export interface Prepared extends EncodedPlanes {
@@ -57,7 +58,9 @@ export function finishScan(
   const outPlanes = decoded.samples.slice(0, colourSamples.length);
   const psnr = psnrPlanes(colourSamples, outPlanes, max);
   const ssim =
-    width >= 11 && height >= 11 ? ssimPlanes(colourSamples, outPlanes, width, height, max) : Number.NaN;
+    width >= 11 && height >= 11
+      ? ssimPlanesSplit(opts.side ?? runHere, colourSamples, outPlanes, width, height, max)
+      : Number.NaN;
   let sse = 0;
   for (let c = 0; c < colourSamples.length; c++)
     for (let i = 0; i < colourSamples[c].length; i++) {
@@ -116,6 +119,7 @@ export function residualFirstFor(
       budget: opts.budget,
       byteBudget,
       build: (planes, residual) => build(planes, false, residual),
+      side: opts.side,
       measuredSse: (bytes) => {
         last = { bytes, decoded: decodeImageFile(bytes, img.file) };
         return decodedSse(last.decoded, img, prep);

@@ -10,4 +10,4 @@ export {
   spectralBound,
 } from './eckart-young';
 export { frobeniusError, mse, psnr, psnrFromMse, psnrFromSse, psnrPlanes, SseStream, sse } from './psnr';
-export { SsimStream, ssim, ssimPlanes } from './ssim';
+export { SsimStream, ssim, ssimFromRowSums, ssimPlanes, ssimRowSums } from './ssim';

@@ -76,6 +76,35 @@ export function ssim(
   return stream.value();
 }
 
+/**
+ * The SSIM map's row sums for window rows `from` … `to` − 1 (window row r is centred on image row r + radius;
+ * there are height − 2·radius of them), from the rows `from` … `to` + 2·radius − 1 of the two planes, given
+ * starting at a[0] and b[0]. Each sum is formed exactly as in {@link ssim}, whose total is these sums added in
+ * row order from 0, so a plane split into row ranges (on several threads) gives {@link ssim} bit for bit:
+ * `ssimFromRowSums`. Wang et al. 2004, the settings of {@link ssim}.
+ * @throws UsageError as {@link ssim}; RangeError when the range is empty or outside the window rows.
+ */
+export function ssimRowSums(
+  a: ArrayLike<number>,
+  b: ArrayLike<number>,
+  width: number,
+  height: number,
+  dataRange: number,
+  from: number,
+  to: number,
+  options: SsimOptions = {},
+): Float64Array {
+  const stream = new SsimStream(width, height, dataRange, options);
+  return stream.rowSums(a, b, from, to);
+}
+
+/** The mean SSIM from every window row's sum (in row order), as {@link ssim} pools them. */
+export function ssimFromRowSums(sums: ArrayLike<number>, width: number, height: number, radius = 5): number {
+  let total = 0;
+  for (let i = 0; i < sums.length; i++) total += sums[i];
+  return total / ((width - 2 * radius) * (height - 2 * radius));
+}
+
 /** Mean of the per-channel SSIM (as skimage does with `channel_axis`). */
 export function ssimPlanes(
   a: ArrayLike<number>[],
@@ -185,6 +214,28 @@ export class SsimStream {
       this.filterRow(a, a, off, off, y);
     }
     this.y = n;
+  }
+
+  /**
+   * On a fresh stream: the row sums of window rows from … to − 1, reading the image rows from … to + 2r − 1
+   * (given from a[0] and b[0]). The ring holds the same values at the same places as when every earlier row
+   * was added, so each sum equals the one {@link addRows} would add.
+   */
+  rowSums(a: ArrayLike<number>, b: ArrayLike<number>, from: number, to: number): Float64Array {
+    if (
+      this.y !== 0 ||
+      !(Number.isInteger(from) && Number.isInteger(to) && 0 <= from && from < to && to <= this.hv)
+    )
+      throw new RangeError(`SsimStream: window rows ${from}…${to} of ${this.hv} on a fresh stream only`);
+    const out = new Float64Array(to - from);
+    const last = to + this.side - 1;
+    for (let y = from; y < last; y++) {
+      const off = (y - from) * this.width;
+      this.filterRow(a, b, off, off, y);
+      if (y >= from + this.side - 1) out[y - from - this.side + 1] = this.windowRow(y);
+    }
+    this.y = this.height;
+    return out;
   }
 
   /** Mean SSIM once every row has been added. @throws RangeError before that. */

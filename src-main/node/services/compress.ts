@@ -32,6 +32,7 @@ import { decodeImage, hashSamples, probeImage } from '../image/decode';
 import { decodeSamples } from '../image/raw-decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import { prepareFactorPath } from '../parallel/factor-path';
+import { SideThread } from '../parallel/side-thread';
 import { compareCodecs } from './codec-comparison';
 import { ProgressSpans } from './progress-spans';
 
@@ -62,6 +63,14 @@ export interface CompressInternals {
    * with tile 0 the encode uses them instead of factoring the scan again.
    */
   factors?: PlaneFactors[];
+  /**
+   * Threads for one encode, the calling one included: 2 or more start one side thread for the parts that
+   * split without changing the output (engine/lowrank/side-jobs.ts); 0 or 1 (default) compute everything on
+   * the calling thread. The file is the same bit for bit either way.
+   */
+  workers?: number;
+  /** A side thread already started (compressFile starts it before decoding, so it loads meanwhile). */
+  side?: SideThread;
 }
 
 export const ENCODER_NAME = 'rankfold 0.1.0';
@@ -113,8 +122,26 @@ export async function compressDecoded(
     });
   // One monotone progress over encode and --compare (progress-spans.ts).
   const spans = new ProgressSpans(hooks.onProgress);
+  const own = hooks.side ? undefined : (hooks.workers ?? 1) >= 2 ? SideThread.start() : undefined;
+  const side = hooks.side ?? own;
+  try {
+    return await encodeAndReport(decoded, options, hooks, check, spans, side);
+  } finally {
+    await own?.close();
+  }
+}
+
+async function encodeAndReport(
+  decoded: DecodedImage,
+  options: CompressOptions,
+  hooks: CompressHooks & CompressInternals,
+  check: () => void,
+  spans: ProgressSpans,
+  side: SideThread | undefined,
+): Promise<{ bytes: Uint8Array; report: CompressReport; result: EncodeResult }> {
   const encoded = spans.part(0, options.compare ? 1 - COMPARE_SHARE : 1, 'encoded');
   const result = encodeScan(decoded, {
+    side: side?.run,
     ...encoderSettings(
       options,
       { ...hooks, onProgress: (p) => encoded(p.stage, p.fraction) },
@@ -169,6 +196,22 @@ export async function compressFile(
     tiledEncoderFits(options.budget, options.tile)
   )
     return compressTiled(input, output, options, hooks, t0);
+  // The side thread loads while the scan decodes.
+  const side = (hooks.workers ?? 1) >= 2 && !hooks.side ? SideThread.start() : undefined;
+  try {
+    return await compressWhole(input, output, options, side ? { ...hooks, side } : hooks, t0);
+  } finally {
+    await side?.close();
+  }
+}
+
+async function compressWhole(
+  input: string,
+  output: string,
+  options: CompressOptions,
+  hooks: CompressHooks & CompressInternals,
+  t0: number,
+): Promise<CompressReport & WithWarnings> {
   const decoded = await decodeImage(input, { page: options.page, pixelLimit: options.pixelLimit });
   const decodeMs = performance.now() - t0;
   const { bytes, report, result } = await compressDecoded(decoded, options, hooks);

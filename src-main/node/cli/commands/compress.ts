@@ -13,7 +13,7 @@ import { type CliIO, type Command, flags, parseCommandArgs } from '../args/comma
 
 const options = {
   ...BUDGET_OPTIONS,
-  ...flags('output tile layers page pixel-limit', 'json force compare stack'),
+  ...flags('output tile layers page pixel-limit workers', 'json force compare stack'),
 };
 
 const help = `Usage: rankfold compress IN -o OUT.rkf (--rank K | --budget SIZE | --bpp X | --min-psnr DB | --min-ssim S) [options]
@@ -38,6 +38,8 @@ Options:
                       --min-ssim always write the base only, as do scans over 2^25 pixels
   --page N            TIFF page to read, from 0 (default 0)
   --pixel-limit N     refuse inputs with more pixels than N (default 268402689)
+  --workers N         threads for one encode, ${rangeText(OPTIONS.workers)} (default ${OPTIONS.workers.default}): 2 or more add one
+                      thread for the parts that split in two; the output is identical for any number
   --compare           also encode JPEG (mozjpeg), WebP and AVIF at the nearest size ≤ ours, and report them
   --json              print the report as one JSON object
   --force             overwrite an existing output
@@ -133,6 +135,10 @@ export const command: Command = {
         layers: parseLayersOption(v.layers as string | undefined),
       },
       {
+        workers:
+          v.workers !== undefined
+            ? parseOptionText(OPTIONS.workers, v.workers as string)
+            : OPTIONS.workers.default,
         onProgress:
           io.isTTY && !v.json
             ? (p) => io.stderr(`\r${p.stage.padEnd(10)} ${Math.round(p.fraction * 100)}%`)

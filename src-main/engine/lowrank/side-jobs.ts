@@ -1,0 +1,120 @@
+/**
+ * Work the scan encoder can hand to a second thread, as plain functions of plain data (typed arrays and
+ * numbers), so a worker runs exactly the code the calling thread would: the result is the same bit for bit
+ * whichever thread computes it. The engine only sees a {@link SideRunner}; src-main/node/parallel/side-thread.ts
+ * provides one backed by a worker thread, and {@link runHere} computes on the calling thread.
+ */
+import { ssim, ssimRowSums } from '../metrics';
+import { factorPlane } from './factorise';
+import { estimateErrorAtBytes, type PlaneInput } from './solve';
+
+export interface SideJobs {
+  /** SSIM map row sums of window rows from … to − 1, from image rows from … to + 10 of both planes (../metrics). */
+  'ssim-rows': {
+    args: {
+      a: Float32Array | Float64Array;
+      b: Float32Array | Float64Array;
+      width: number;
+      height: number;
+      range: number;
+      from: number;
+      to: number;
+    };
+    result: Float64Array;
+  };
+  /** The low-rank base's estimated weighted squared error at `bytes` on crops (./residual-first). */
+  'crop-base-sse': {
+    args: {
+      crop: Float64Array[];
+      width: number;
+      height: number;
+      weights: number[];
+      scales: number[];
+      bytes: number;
+      maxValue: number;
+      tiles: number[];
+    };
+    result: number;
+  };
+}
+export type SideJobName = keyof SideJobs;
+
+/** Lowest estimated base error at `bytes` over the tile sides, each tiling factored on the crop. */
+function cropBaseSse(a: SideJobs['crop-base-sse']['args']): number {
+  let best = Number.POSITIVE_INFINITY;
+  for (const tile of a.tiles) {
+    const inputs: PlaneInput[] = a.crop.map((p, k) => ({
+      factors: factorPlane(p, a.width, a.height, { tile, meanRemoval: true, meanStep: a.maxValue / 1020 }),
+      weight: a.weights[k],
+      stepScale: a.scales[k],
+    }));
+    best = Math.min(best, estimateErrorAtBytes(inputs, a.bytes, a.maxValue));
+  }
+  return best;
+}
+
+export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => SideJobs[K]['result'] } = {
+  'ssim-rows': (a) => ssimRowSums(a.a, a.b, a.width, a.height, a.range, a.from, a.to),
+  'crop-base-sse': cropBaseSse,
+};
+
+/**
+ * Start a job; the returned function gives its result, waiting for it, or computing it on the calling thread
+ * when no other thread has taken it yet. Call it exactly once.
+ */
+export type SideRunner = <K extends SideJobName>(
+  name: K,
+  args: SideJobs[K]['args'],
+) => () => SideJobs[K]['result'];
+
+/** Every job on the calling thread, at once (one thread: the work is done in the order it is asked for). */
+export const runHere: SideRunner = (name, args) => {
+  const r = SIDE_JOBS[name](args);
+  return () => r;
+};
+
+/** SSIM window radius of ../metrics's defaults (11×11 window). */
+const SSIM_RADIUS = 5;
+
+/**
+ * ssimPlanes of ../metrics, each plane's window rows split in two: the lower half started on `run`, the upper
+ * half computed here, and the row sums added in row order, so the value equals ssimPlanes bit for bit
+ * whichever thread computed which half (Wang et al. 2004, the defaults of ../metrics/ssim).
+ */
+export function ssimPlanesSplit(
+  run: SideRunner,
+  a: Float32Array[],
+  b: Float32Array[],
+  width: number,
+  height: number,
+  range: number,
+): number {
+  const wv = width - 2 * SSIM_RADIUS;
+  const hv = height - 2 * SSIM_RADIUS;
+  let s = 0;
+  for (let c = 0; c < a.length; c++) {
+    const mid = hv >> 1;
+    if (mid < 1) {
+      s += ssim(a[c], b[c], width, height, range);
+      continue;
+    }
+    const rows = (r0: number, r1: number) => [r0 * width, r1 * width] as const;
+    const [lo, hi] = rows(mid, height);
+    const join = run('ssim-rows', {
+      a: a[c].subarray(lo, hi),
+      b: b[c].subarray(lo, hi),
+      width,
+      height,
+      range,
+      from: mid,
+      to: hv,
+    });
+    const own = ssimRowSums(a[c], b[c], width, height, range, 0, mid);
+    const other = join();
+    let total = 0;
+    for (let i = 0; i < own.length; i++) total += own[i];
+    for (let i = 0; i < other.length; i++) total += other[i];
+    s += total / (wv * hv);
+  }
+  return s / a.length;
+}
