@@ -118,4 +118,18 @@ describe('the report of a --total run', () => {
     });
     expect(collectionJson({ ...info, total: written - 1 }, rows).withinTotal).toBe(false);
   });
+
+  it('a merge of shards of one plan reports the total, the reserve and the drift of each shard from the rows alone', () => {
+    const shards = rows.map((r, i) => ({ ...r, shard: `${i % 2}/2` }));
+    const merged = renderReport(shards, { title: 'merged', shards: ['0/2', '1/2'] });
+    expect(merged).toContain('<h2>Total for the folder</h2>');
+    expect(merged).toContain(`total: ${written} bytes (`);
+    expect(merged).toContain(`reserve: ${TOTAL - planned} bytes`);
+    expect(merged).toMatch(/drift of shard 0\/2: \d+ bytes written against \d+ planned for its 6 files/);
+    expect(merged).toContain('bytes a file did not use stay unwritten');
+    expect(merged).toContain('<tr><td>file-00.png</td><td class="n">4100</td><td class="n">4000</td>');
+    expect(renderReport([okRow('plain.png', { bytes: 9 })], { title: 'p', shards: ['0/1'] })).not.toContain(
+      'Total for the folder',
+    );
+  });
 });
