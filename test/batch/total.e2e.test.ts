@@ -178,6 +178,11 @@ describe.skipIf(!built)('rankfold batch --total (built CLI)', () => {
     expect(reserve).toBeGreaterThanOrEqual(120);
     expect(m.stderr).toMatch(/drift of shard 0\/2: \d+ bytes written against \d+ planned/);
     expect(m.stderr).toMatch(/drift of shard 1\/2: /);
+    // The merged report proves the total too: its section, and predicted against achieved for the 6 files.
+    const html = readFileSync(join(out, 'rankfold-manifest.html'), 'utf8');
+    expect(html).toContain('<h2>Total for the folder</h2>');
+    expect(html).toMatch(/total: \d+ bytes .* written of 12000 .*within the total/);
+    expect(html.match(/<tr><td>page-\d\.png<\/td><td class="n">\d+<\/td>/g)).toHaveLength(4);
     expect(jsonLines('')).toEqual([]);
   });
 });

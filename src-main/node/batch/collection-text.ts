@@ -47,16 +47,60 @@ export function collectionLines(c: CollectionInfo, rows: BatchRow[]): string[] {
   if (c.spare) lines.push(spareLine(c.spare));
   if (c.reserve)
     lines.push(`reserve: ${c.reserve} bytes (${sizeText(c.reserve)}) held back from the plan for drift`);
+  lines.push(...oneRatioLines(c));
+  for (const x of c.excluded) lines.push(`left out of the plan: ${x.message}`);
+  return lines;
+}
+
+/** One ratio for all files at the same total, against this plan: its worst file, and the bytes this plan saves. */
+function oneRatioLines(c: Pick<CollectionInfo, 'oneRatioWorst' | 'oneRatioBytes' | 'floor' | 'planned'>) {
+  const lines: string[] = [];
   if (c.oneRatioWorst !== undefined)
     lines.push(
       `one ratio for all at the same total: worst file predicted at ${db(c.oneRatioWorst)} (this plan: ${db(c.floor)})`,
     );
-  if (c.oneRatioBytes !== undefined && c.oneRatioBytes > c.planned)
+  const saved = savedBytes(c);
+  if (saved !== undefined)
     lines.push(
-      `one ratio for all would need about ${sizeText(c.oneRatioBytes)} to give every file the floor: ${sizeText(c.oneRatioBytes - c.planned)} more than this plan`,
+      saved > 0
+        ? `bytes saved against one ratio for all: one ratio would need about ${c.oneRatioBytes} bytes (${sizeText(c.oneRatioBytes!)}) to give every file the floor, this plan ${c.planned}: ${saved} bytes (${sizeText(saved)}, ${((100 * saved) / c.oneRatioBytes!).toFixed(1)} %) saved`
+        : `bytes saved against one ratio for all: none (one ratio would need about ${c.oneRatioBytes} bytes to give every file the floor, this plan ${c.planned})`,
     );
-  for (const x of c.excluded) lines.push(`left out of the plan: ${x.message}`);
   return lines;
+}
+
+/** Bytes one ratio for all would need for the floor, less the plan's: undefined when not predicted. */
+const savedBytes = (c: Pick<CollectionInfo, 'oneRatioBytes' | 'planned'>) =>
+  c.oneRatioBytes === undefined ? undefined : c.oneRatioBytes - c.planned;
+
+/**
+ * A collection run's figures for `--json` (one `{"event":"total", …}` line after the end event): the total and
+ * what was written, the predicted floor and the lowest PSNR achieved, the reserve, one ratio for all and the
+ * bytes saved against it, the spare step, and the files left out.
+ */
+export function collectionJson(c: CollectionInfo, rows: BatchRow[]): Record<string, unknown> {
+  const written = rows.filter((r) => r.status === 'ok' || r.status === 'kept');
+  const sum = written.reduce((s, r) => s + (r.bytes ?? 0), 0);
+  const psnrs = written.map((r) => r.psnr).filter((v): v is number => v !== undefined);
+  return {
+    event: 'total',
+    total: c.total,
+    totalText: c.totalText,
+    favour: c.favour,
+    written: sum,
+    withinTotal: sum <= c.total,
+    floorPredicted: c.floor,
+    lowestPsnr: psnrs.length ? Math.min(...psnrs) : null,
+    planned: c.planned,
+    minimum: c.minimum,
+    reserve: c.reserve,
+    oneRatioWorst: c.oneRatioWorst ?? null,
+    oneRatioBytes: c.oneRatioBytes ?? null,
+    bytesSaved: savedBytes(c) ?? null,
+    surveyMs: c.surveyMs,
+    spare: c.spare ?? null,
+    excluded: c.excluded,
+  };
 }
 
 /** What the spare step did (spare.ts), in one line. */
@@ -73,6 +117,7 @@ export function planLines(p: SharedPlan): string[] {
     `plan: ${p.files.length} files into ${p.totalText} (${p.total} bytes): predicted floor ${db(p.floor)}, ${p.planned} bytes planned`,
     `reserve: ${p.reserve} bytes (${sizeText(p.reserve)}) held back for drift`,
     `predicted PSNR: ${spreadText(p.files.map((f) => f.psnr))}`,
+    ...oneRatioLines(p),
     ...p.excluded.map((x) => `left out of the plan: ${x.message}`),
   ];
 }

@@ -9,8 +9,7 @@ import { isNotAnImage } from '../image/refusals';
 import type { Favour } from './allocate';
 import { type Allotter, FixedAllotter, LiveAllotter } from './allot';
 import type { PlannedFile } from './plan';
-import { planCollection, readSharedPlan, type SharedPlan, sizeText, totalBytes } from './plan-file';
-import { rateCurve } from './rate-curve';
+import { oneRatio, planCollection, readSharedPlan, type SharedPlan, sizeText, totalBytes } from './plan-file';
 import { baseRow, outcomeRow } from './rows';
 import type { Run } from './run-options';
 import type { SpareInfo } from './spare';
@@ -165,17 +164,6 @@ function info(
   };
 }
 
-/** One ratio for all at the same total, by the survey's curves: the worst PSNR, and the bytes the floor needs. */
-function oneRatio(entries: SurveyManifest['files'], total: number, floor: number) {
-  if (!entries.length) return {};
-  const raw = entries.reduce((s, e) => s + e.rawBytes, 0);
-  const curves = entries.map((e) => rateCurve(e.points));
-  const share = total / raw;
-  const oneRatioWorst = Math.min(...curves.map((c, i) => c.psnrAt(share * entries[i].rawBytes)));
-  const need = Math.max(...curves.map((c, i) => c.bytesFor(floor) / entries[i].rawBytes));
-  return { oneRatioWorst, oneRatioBytes: Math.ceil(need * raw) };
-}
-
 /** `--plan plan.json`: this shard's files and their caps from the shared plan. */
 function fromSharedPlan(run: Run, plan: SharedPlan, todo: PlannedFile[], tally: Tally) {
   const caps = new Map(plan.files.map((f) => [f.path, { bytes: f.bytes, psnr: f.psnr, floor: plan.floor }]));
@@ -193,6 +181,8 @@ function fromSharedPlan(run: Run, plan: SharedPlan, todo: PlannedFile[], tally: 
     planned: plan.planned,
     minimum: plan.minimum,
     reserve: plan.reserve,
+    oneRatioWorst: plan.oneRatioWorst,
+    oneRatioBytes: plan.oneRatioBytes,
     surveyMs: 0,
     surveyReused: 0,
     excluded: plan.excluded,

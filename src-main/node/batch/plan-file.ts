@@ -28,6 +28,9 @@ export interface SharedPlan {
   planned: number;
   minimum: number;
   files: { path: string; bytes: number; psnr: number }[];
+  /** One ratio for all at the same total (the survey's prediction): its worst PSNR, and the bytes it needs for the floor. */
+  oneRatioWorst?: number;
+  oneRatioBytes?: number;
   /** Files left out of the plan (unreadable at the survey), with the reason. */
   excluded: SurveyFailure[];
 }
@@ -138,6 +141,7 @@ export async function makeSharedPlan(o: {
   const reserve = Math.floor((total * o.reservePercent) / 100);
   const totalText = o.total.kind === 'bytes' ? sizeText(total) : `${o.total.percent}% of ${sizeText(raw)}`;
   const { allocation: a, minimum } = planCollection(files, total - reserve, { ...o, totalText, total });
+  const one = oneRatio(files, total - reserve, a.floor);
   const plan: SharedPlan = {
     kind: 'rankfold-plan',
     v: 1,
@@ -151,8 +155,27 @@ export async function makeSharedPlan(o: {
     planned: a.bytes.reduce((s, b) => s + b, 0),
     minimum,
     files: files.map((e, i) => ({ path: e.path, bytes: a.bytes[i], psnr: a.psnr[i] })),
+    ...one,
     excluded,
   };
   await writeSharedPlan(o.output, plan);
   return plan;
+}
+
+/**
+ * One ratio for all files at the same `total`, by the survey's curves: the worst file's predicted PSNR, and the
+ * bytes one ratio would need to give every file `floor` (what the plan saves is that less the plan's bytes).
+ */
+export function oneRatio(
+  entries: readonly SurveyEntry[],
+  total: number,
+  floor: number,
+): { oneRatioWorst?: number; oneRatioBytes?: number } {
+  if (!entries.length) return {};
+  const raw = entries.reduce((s, e) => s + e.rawBytes, 0);
+  const curves = entries.map((e) => rateCurve(e.points));
+  const share = total / raw;
+  const oneRatioWorst = Math.min(...curves.map((c, i) => c.psnrAt(share * entries[i].rawBytes)));
+  const need = Math.max(...curves.map((c, i) => c.bytesFor(floor) / entries[i].rawBytes));
+  return { oneRatioWorst, oneRatioBytes: Math.ceil(need * raw) };
 }

@@ -6,7 +6,7 @@ import type { BatchRow } from '../../contract';
 import { LOSSY_CAUTION } from '../../contract';
 import { writeFileAtomic } from '../io/atomic';
 import { ranksWords, sortRows } from './manifest';
-import { collectionSection } from './report-total';
+import { collectionSection, mergedCollectionSection } from './report-total';
 import { makeThumbnails, type ThumbPair } from './thumbs';
 import { niceTicks } from './ticks';
 
@@ -187,7 +187,7 @@ export function renderReport(
 <p class="muted">${info.inDir ? `Input <code>${escapeHtml(info.inDir)}</code> · ` : ''}${info.outDir ? `output <code>${escapeHtml(info.outDir)}</code> · ` : ''}written ${escapeHtml(new Date().toISOString())}</p>
 <p class="caution">${escapeHtml(LOSSY_CAUTION)}</p>
 <h2>Totals</h2><div class="totals">${totals.map(([k, v]) => `<div><span class="muted">${escapeHtml(k)}</span><b>${escapeHtml(v)}</b></div>`).join('')}</div>
-${info.collection ? collectionSection(rows, info.collection) : ''}
+${info.collection ? collectionSection(rows, info.collection) : mergedCollectionSection(rows)}
 <h2>Distributions</h2><div class="plots">${histogramSvg(ratios, 'compression ratio', 'raw ÷ written')}${histogramSvg(finitePsnr, 'PSNR', 'dB')}${histogramSvg(
     good.map((r) => (r.bytes ?? 0) / 1e3),
     'file size',

@@ -6,7 +6,7 @@
  */
 import type { BatchEvent, BatchRow, BatchSummary } from '../../../contract';
 import { LOSSY_CAUTION, OPTIONS, rangeText } from '../../../contract';
-import { collectionLines, mergedTotalLines, planLines } from '../../batch/collection-text';
+import { collectionJson, collectionLines, mergedTotalLines, planLines } from '../../batch/collection-text';
 import { rowToJson } from '../../batch/manifest';
 import { mergeManifests } from '../../batch/merge';
 import { makeSharedPlan } from '../../batch/plan-file';
@@ -214,6 +214,8 @@ async function run(argv: string[], io: CliIO): Promise<number> {
     io.stderr(summaryText(result.summary, result.warnings, result.interrupted, result.rows, result.notices));
     if (result.collection && !args.json)
       io.stderr(`${collectionLines(result.collection, result.rows).join('\n')}\n`);
+    if (result.collection?.total && args.json)
+      io.stdout(`${JSON.stringify(collectionJson(result.collection, result.rows))}\n`);
     if (result.summary.total === 0 && !args.json)
       io.stderr(
         'batch: no input files found (hidden files and folders are skipped; check IN_DIR and --include/--exclude)\n',
