@@ -40,6 +40,9 @@ function logLabels(splits: number[], logPx: number): string[] {
 }
 
 /** An axis with a titled unit, compact tick labels (decades only on a log scale) and room for both. */
+/** Tick steps of a counting axis: 1, 2, 5 times powers of ten. */
+const INTEGER_STEPS = [1, 2, 5, 10, 20, 50, 100, 200, 500, 1000, 2000, 5000, 10_000, 20_000, 50_000];
+
 function axis(o: { scale?: string; label: string; side?: 1 | 3; log?: boolean; grid?: boolean }): uPlot.Axis {
   const vertical = o.side !== undefined;
   return {
@@ -60,6 +63,8 @@ function axis(o: { scale?: string; label: string; side?: 1 | 3; log?: boolean; g
       logLabels(splits, o.log ? (vertical ? u.bbox.height : u.bbox.width) / devicePixelRatio : 0),
     size: (_u, values) => axisRoom(values ?? [], textWidth, vertical),
     space: (_u, _i, _min, _max, dim) => tickSpace(dim, vertical),
+    // The x axes count layers or eigen-frames: whole numbers only (never a tick at 1.5).
+    ...(vertical ? {} : { incrs: INTEGER_STEPS }),
   };
 }
 
