@@ -92,7 +92,8 @@ function recordAxisBoxes(u: uPlot) {
     const labels = (a._values ?? []).filter((v): v is string => !!v);
     const across = a.side === 1 || a.side === 3 ? Math.max(0, ...labels.map(textWidth)) : 12;
     const ticks = (a.ticks?.size ?? 4) + (a.gap ?? 4);
-    return { axis: i, labelsEnd: ticks + across, titleStart: (a._size ?? 0) - (a.labelSize ?? 16), labels };
+    const titleStart = (a._size ?? 0) - (a.labelSize ?? 16);
+    return { axis: i, title: a.label, labelsEnd: ticks + across, titleStart, labels };
   });
   const host = u.root.parentElement;
   if (host) host.dataset.axisBoxes = JSON.stringify(boxes);
