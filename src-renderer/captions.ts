@@ -81,9 +81,16 @@ export function batchRunLabel(started: number, finished: number, total: number, 
   return `Batch: compressing file ${Math.max(1, started)} of ${total}${which}, ${finished} finished`;
 }
 
-/** One file's row in the batch list. */
+/**
+ * One file's row in the batch list. A message that starts with the file's own path (the runner names
+ * the file it refuses) starts after it: the row already names the file.
+ */
 export function batchRowText(e: Progress & { file: string }): string {
-  return `${e.file} — ${e.stage}${e.message ? `: ${e.message}` : ''}`;
+  let message = e.message;
+  const at = message?.indexOf(`${e.file}: `) ?? -1;
+  if (message && at >= 0 && (at === 0 || /[/\\]$/.test(message.slice(0, at))))
+    message = message.slice(at + e.file.length + 2);
+  return `${e.file} — ${e.stage}${message ? `: ${message}` : ''}`;
 }
 
 /** The message of a finished file: its error, else its size and PSNR, else nothing. */
@@ -99,11 +106,14 @@ export function batchDoneStatus(r: Pick<BatchResult, 'files' | 'cancelled'>): {
   text: string;
   isError: boolean;
 } {
-  const failed = r.files.filter((f) => f.state === 'failed').length;
-  return {
-    text: r.cancelled ? 'Batch cancelled.' : `Batch done: ${r.files.length} files, ${failed} failed.`,
-    isError: failed > 0,
-  };
+  const count = (state: BatchFileStatus['state']) => r.files.filter((f) => f.state === state).length;
+  const failed = count('failed');
+  const skipped = count('skipped');
+  const n = r.files.length;
+  const text =
+    `Batch done: ${count('done')} of ${n} file${n === 1 ? '' : 's'} compressed` +
+    `${skipped ? `, ${skipped} skipped` : ''}${failed ? `, ${failed} failed` : ''}.`;
+  return { text: r.cancelled ? 'Batch cancelled.' : text, isError: failed > 0 };
 }
 
 /** What the two panes show, for their labels. */
@@ -129,7 +139,7 @@ export function paneLabels(p: PaneView): { left: string; right: string } {
     p.showing === 'cleaned'
       ? 'cleaned'
       : p.showing === 'removed'
-        ? `removed part × ${p.gain} (mid-grey = nothing removed)`
+        ? `removed part × ${p.gain}`
         : p.mode === 'diff'
           ? `difference at rank ${p.rank} × ${p.gain}`
           : p.mode === 'layer'
@@ -239,6 +249,15 @@ export function mapLegend(p: {
   gain: number;
   tileRanks?: { min: number; max: number };
 }): MapLegend | undefined {
+  // The removed part (original − cleaned) around mid-grey (../figures.ts removedForDisplay): light where
+  // cleaning took brightness away, dark where it added some; saturates at half the range over the gain.
+  if (p.showing === 'removed')
+    return {
+      gradient: 'linear-gradient(to right, rgb(0,0,0), rgb(128,128,128), rgb(255,255,255))',
+      low: `cleaning brightened by ≥ ${Math.round(128 / p.gain)} grey levels`,
+      mid: 'nothing removed',
+      high: `darkened by ≥ ${Math.round(128 / p.gain)}`,
+    };
   if (p.showing === 'model' && p.mode === 'diff')
     return {
       gradient: 'linear-gradient(to right, rgb(0,128,255), rgb(128,128,128), rgb(255,128,0))',

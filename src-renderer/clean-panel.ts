@@ -9,7 +9,7 @@ import { bind } from './bind';
 import { CLEANING_CAUTION } from './captions';
 import { type CleanRow, cleanReportRows, noiseFitSeries } from './clean-report';
 import type { Panes } from './panes';
-import { profilePlot } from './spectrum';
+import { axis, fitOnResize, profilePlot } from './spectrum';
 import type { PageState, Showing } from './state';
 import { newJob, type StatusBar } from './status';
 import type { PageApi } from './transport';
@@ -137,14 +137,14 @@ function noiseFitPlot(after: HTMLElement, report: Record<string, unknown>): void
   if (!s) return;
   const width = Math.max(220, Math.floor(host.getBoundingClientRect().width));
   const dots = (stroke: string, fill: string) => ({ show: true, size: 5, stroke, fill });
-  new uPlot(
+  const plot = new uPlot(
     {
       width,
       height: 170,
       title: s.title,
       legend: { live: false },
       scales: { x: { time: false } },
-      axes: [{ label: 'brightness, grey levels' }, { label: 'noise σ, grey levels' }],
+      axes: [axis({ label: 'brightness, grey levels' }), axis({ side: 3, label: 'noise σ, grey levels' })],
       series: [
         {},
         { label: 'measured', stroke: '#2f7d6d', width: 0, points: dots('#2f7d6d', '#2f7d6d') },
@@ -155,4 +155,5 @@ function noiseFitPlot(after: HTMLElement, report: Record<string, unknown>): void
     [s.levels, s.measured, s.dropped, s.fitted],
     host,
   );
+  fitOnResize(plot, host);
 }

@@ -13,8 +13,6 @@ export interface Panes {
   showModel(): void;
   /** Rewrite the pane labels from the state, the view and the slider. */
   label(): void;
-  /** Write pane labels given elsewhere (a stack frame's). */
-  write(labels: { left: string; right: string }): void;
   /** Drop the cached removed-part planes (after a new cleaning result). */
   forgetRemoved(): void;
 }
@@ -78,14 +76,15 @@ export function createPanes(state: PageState, view: CompareView): Panes {
       view.setSource(source);
     },
     label() {
-      // A stack frame keeps its own labels (./stack.ts); the controls below are for scans only.
-      if (state.stack.info && !state.model) return write(frameLabels(state.stack.info));
+      // A stack frame has no layers or tiles here, and a difference only against an original shown.
+      const frame = state.stack.info && !state.model;
+      const diff = view.mode === 'diff' && !(frame && view.source?.noOriginal);
       // Controls only in the views they change.
-      el.gain.hidden = !(view.mode === 'diff' || state.showing === 'removed');
-      el.layer.hidden = view.mode !== 'layer';
+      el.gain.hidden = !(diff || state.showing === 'removed');
+      el.layer.hidden = frame || view.mode !== 'layer';
       const ranks = state.tiled ? state.preview?.tiles?.[0]?.ranks : undefined;
       const legend = mapLegend({
-        mode: view.mode,
+        mode: frame && !diff ? 'side' : view.mode,
         showing: state.showing,
         gain: view.gain,
         tileRanks: ranks?.length ? { min: 0, max: Math.max(1, ...ranks) } : undefined,
@@ -98,6 +97,8 @@ export function createPanes(state: PageState, view: CompareView): Panes {
           if (e) e.textContent = legend[k];
         }
       }
+      // A stack frame keeps its own labels (./stack.ts).
+      if (frame && state.stack.info) return write(frameLabels(state.stack.info));
       write(
         paneLabels({
           showing: state.showing,
@@ -111,7 +112,6 @@ export function createPanes(state: PageState, view: CompareView): Panes {
         }),
       );
     },
-    write,
     forgetRemoved() {
       removedView = undefined;
     },

@@ -40,7 +40,16 @@ function logLabels(splits: number[], logPx: number): string[] {
 }
 
 /** An axis with a titled unit, compact tick labels (decades only on a log scale) and room for both. */
-function axis(o: { scale?: string; label: string; side?: 1 | 3; log?: boolean; grid?: boolean }): uPlot.Axis {
+/** Tick steps of a counting axis: 1, 2, 5 times powers of ten. */
+const INTEGER_STEPS = [1, 2, 5, 10, 20, 50, 100, 200, 500, 1000, 2000, 5000, 10_000, 20_000, 50_000];
+
+export function axis(o: {
+  scale?: string;
+  label: string;
+  side?: 1 | 3;
+  log?: boolean;
+  grid?: boolean;
+}): uPlot.Axis {
   const vertical = o.side !== undefined;
   return {
     // uPlot fills in only missing keys: an explicit undefined side or scale would replace its defaults.
@@ -60,6 +69,8 @@ function axis(o: { scale?: string; label: string; side?: 1 | 3; log?: boolean; g
       logLabels(splits, o.log ? (vertical ? u.bbox.height : u.bbox.width) / devicePixelRatio : 0),
     size: (_u, values) => axisRoom(values ?? [], textWidth, vertical),
     space: (_u, _i, _min, _max, dim) => tickSpace(dim, vertical),
+    // The x axes count layers or eigen-frames: whole numbers only (never a tick at 1.5).
+    ...(vertical ? {} : { incrs: INTEGER_STEPS }),
   };
 }
 
@@ -81,7 +92,8 @@ function recordAxisBoxes(u: uPlot) {
     const labels = (a._values ?? []).filter((v): v is string => !!v);
     const across = a.side === 1 || a.side === 3 ? Math.max(0, ...labels.map(textWidth)) : 12;
     const ticks = (a.ticks?.size ?? 4) + (a.gap ?? 4);
-    return { axis: i, labelsEnd: ticks + across, titleStart: (a._size ?? 0) - (a.labelSize ?? 16), labels };
+    const titleStart = (a._size ?? 0) - (a.labelSize ?? 16);
+    return { axis: i, title: a.label, labelsEnd: ticks + across, titleStart, labels };
   });
   const host = u.root.parentElement;
   if (host) host.dataset.axisBoxes = JSON.stringify(boxes);
@@ -109,7 +121,8 @@ export class SpectrumCharts {
     private readonly sigmaHost: HTMLElement,
     private readonly errorHost: HTMLElement,
   ) {
-    new ResizeObserver(() => this.resize()).observe(sigmaHost);
+    // Fit now and a frame later: uPlot applies a new width on its next commit, and the legend re-wraps then.
+    new ResizeObserver(() => this.fitSoon()).observe(sigmaHost);
   }
 
   /** A first size; {@link resize} then fits the plot, title and legend inside the host. */
@@ -119,11 +132,8 @@ export class SpectrumCharts {
   }
 
   private resize() {
-    // Twice: a new width rewraps the legend, which changes the height left for the plot.
-    for (let pass = 0; pass < 2; pass++) {
-      fitPlot(this.sigmaPlot, this.sigmaHost);
-      fitPlot(this.errorPlot, this.errorHost);
-    }
+    fitPlot(this.sigmaPlot, this.sigmaHost);
+    fitPlot(this.errorPlot, this.errorHost);
   }
 
   /** Fit now and again after the first paint, once the legend and title have their final size. */
@@ -339,6 +349,21 @@ export function profilePlot(host: HTMLElement, columns: number[], rows: number[]
     [xs, pad(columns), pad(rows)],
     host,
   );
-  fitPlot(plot, host);
+  fitOnResize(plot, host);
   return plot;
+}
+
+const fitters = new WeakMap<HTMLElement, ResizeObserver>();
+
+/** Fit `plot` (title, legend and all) inside `host` now and whenever the host changes size. */
+export function fitOnResize(plot: uPlot, host: HTMLElement): void {
+  fitters.get(host)?.disconnect();
+  // Again a frame later: uPlot applies a new width on its next commit, and the title and legend may re-wrap.
+  const observer = new ResizeObserver(() => {
+    fitPlot(plot, host);
+    requestAnimationFrame(() => fitPlot(plot, host));
+  });
+  observer.observe(host);
+  fitters.set(host, observer);
+  fitPlot(plot, host);
 }

@@ -54,6 +54,7 @@ export function createStackCard(p: StackParts): StackCard {
     originalsForm: 'form#originals-form',
     originalsPath: 'input#originals-path',
     originalsNote: '#originals-note',
+    budgetCard: '#budget-card',
   });
   const cells = bindReadouts(el.card, STACK_METRICS, 'The Stack card');
   const body = document.body;
@@ -65,6 +66,8 @@ export function createStackCard(p: StackParts): StackCard {
     el.originalsNote.textContent = '';
     stack.seq++;
     el.card.hidden = true;
+    // The rank and budget are a scan's; a stack's eigen-frames were chosen when it was written.
+    el.budgetCard.hidden = false;
     el.frame.disabled = true;
     delete body.dataset.stackFrame;
   };
@@ -93,7 +96,7 @@ export function createStackCard(p: StackParts): StackCard {
     el.originalsNote.textContent = info.original ? `Frame ${info.frame + 1}: ${info.original.note}` : '';
     body.dataset.stackOriginal = info.original ? String(info.original.shown) : 'none';
     const labels = frameLabels(info);
-    p.panes.write(labels);
+    p.panes.label();
     el.frameOut.textContent = labels.position;
     el.frame.value = String(info.frame + 1);
     const shown = stackCardCells(info);
@@ -186,6 +189,7 @@ export function createStackCard(p: StackParts): StackCard {
       }
       if (seq !== state.openSeq) return;
       leave();
+      el.budgetCard.hidden = true;
       state.model = undefined;
       state.scan = undefined;
       state.cleaned = undefined;

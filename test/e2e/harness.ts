@@ -246,6 +246,32 @@ export async function shot(page: Page, name: string): Promise<string> {
   return file;
 }
 
+// Run in the page by shotBoth; the Node type-check has no DOM lib.
+declare const document: {
+  getElementById(id: string): { dataset: Record<string, string | undefined> } | null;
+};
+declare function requestAnimationFrame(callback: () => void): number;
+
+/**
+ * Screenshots of the page as it is at both of issue 14's window sizes: `<name>-1440` at 1440×900 and
+ * `<name>-1024` at 1024×700 (the view re-fits: waits for the stage's new canvas size and two frames for
+ * the charts), then back to 1440×900.
+ */
+export async function shotBoth(page: Page, name: string): Promise<void> {
+  const resize = async (width: number, height: number) => {
+    const was = await page.getAttribute('#stage', 'data-canvas');
+    await page.setViewportSize({ width, height });
+    await page.waitForFunction((w) => document.getElementById('stage')?.dataset.canvas !== w, was);
+    await page.evaluate(
+      () => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(() => r(undefined)))),
+    );
+  };
+  await shot(page, `${name}-1440`);
+  await resize(1024, 700);
+  await shot(page, `${name}-1024`);
+  await resize(1440, 900);
+}
+
 /** All readouts as numbers, keyed by data-metric. */
 export async function readouts(page: Page): Promise<Record<string, number>> {
   return page.$$eval('[data-metric]', (els) =>

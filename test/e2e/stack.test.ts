@@ -9,7 +9,7 @@
  *   end sends to the page must equal sample for sample;
  * - raw size = width · height · channels · bytes per sample · frames (common practice).
  */
-import { mkdirSync, mkdtempSync, rmSync, statSync } from 'node:fs';
+import { mkdtempSync, rmSync, statSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { BrowserContext, Page } from 'playwright-core';
@@ -17,6 +17,7 @@ import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { decodeFactorSet } from '../../src-main/contract';
 import { cliJson, cliText, launch, readouts, type Served, serve, shot } from './harness';
+import { writePlateSeries } from './series';
 
 const W = 64;
 const H = 48;
@@ -25,26 +26,6 @@ const dir = mkdtempSync(join(tmpdir(), 'rankfold-e2e-stack-'));
 const framesDir = join(dir, 'plate');
 const stackFile = join(dir, 'plate.rkf');
 
-/** A fictional Fenwick Lab plate: a slow gradient that fades, and a bright spot drifting right. */
-async function writeSeries() {
-  mkdirSync(framesDir);
-  for (let j = 0; j < N; j++) {
-    const px = new Uint8Array(W * H);
-    for (let y = 0; y < H; y++)
-      for (let x = 0; x < W; x++) {
-        const base = 40 + (120 * x) / W + (40 * y) / H - 4 * j;
-        const dx = x - (10 + 6 * j);
-        const dy = y - 24;
-        const spot = 90 * Math.exp(-(dx * dx + dy * dy) / 18);
-        px[y * W + x] = Math.max(0, Math.min(255, Math.round(base + spot)));
-      }
-    await sharp(px, { raw: { width: W, height: H, channels: 1 } })
-      .toColourspace('b-w')
-      .png()
-      .toFile(join(framesDir, `frame-${j + 1}.png`));
-  }
-}
-
 let served: Served;
 let ctx: BrowserContext;
 let page: Page;
@@ -52,7 +33,7 @@ let report: Record<string, unknown>;
 const pageErrors: string[] = [];
 
 beforeAll(async () => {
-  await writeSeries();
+  await writePlateSeries(framesDir, W, H, N);
   // --rank 3: exactly three eigen-frames, whatever the rate control would pick for a budget (its choices
   // are tested in test/stack); this suite checks what the page shows of the file.
   report = await cliJson(['compress', '--stack', framesDir, '-o', stackFile, '--rank', '3']);

@@ -12,6 +12,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { image } from '../helpers/fixtures';
 import { type AppSession, type FigureCell, figureCells, openApp, shot } from './harness';
 
+declare function getComputedStyle(e: unknown): { textTransform: string };
 declare const document: {
   getElementById(id: string): { dataset: Record<string, string | undefined> } | null;
   body: { dataset: Record<string, string | undefined> };
@@ -98,7 +99,33 @@ describe('the page tells the truth (1024×700)', () => {
     }
     expect((await cell('ssim')).value).toBe('');
     expect((await cell('rank')).value).toBe('37');
+    const estimate = (await cell('bytes')).value;
     await page.waitForFunction(() => document.getElementById('readouts')?.dataset.state === 'exact');
+    // An estimated size, when shown, is within 10 % of the size the encoder then measures (issue 14).
+    const exact = Number((await cell('bytes')).value);
+    if (estimate !== '') expect(Math.abs(Number(estimate) - exact) / exact).toBeLessThanOrEqual(0.1);
+  });
+
+  it('labels say σ (never Σ) and carry units; log scales and the marks are named', async () => {
+    const dt = page.locator('[data-metric="spectral-bound"] dt');
+    expect(await dt.evaluate((e) => getComputedStyle(e).textTransform)).toBe('none');
+    expect(await dt.textContent()).toContain('σₖ₊₁');
+    expect(await dt.textContent()).toContain('grey levels');
+    for (const id of ['#chart-sigma', '#chart-error']) {
+      const text = (await page.textContent(id)) ?? '';
+      // Axis titles are drawn on the canvas; the chart publishes them in data-axis-boxes.
+      const titles = JSON.parse((await page.getAttribute(id, 'data-axis-boxes')) ?? '[]').map(
+        (b: { title?: string }) => b.title ?? '',
+      ) as string[];
+      expect(
+        titles.some((t) => t.endsWith('(log)')),
+        `${id}: ${titles.join(' | ')}`,
+      ).toBe(true);
+      // Every axis has a title with its unit or what it counts.
+      for (const t of titles) expect(t, id).toMatch(/grey levels|%|dB|rank|layers/);
+      expect(text, id).toContain('rank shown');
+      expect(text, id).toContain('budget’s rank');
+    }
   });
 
   it('axis tick labels end before the axis titles begin, in every chart', async () => {

@@ -12,6 +12,7 @@ import {
   evaluateLabel,
   frameLabels,
   guiMessage,
+  mapLegend,
   NO_ORIGINAL_FRAME,
   noOriginalText,
   openFailedText,
@@ -108,13 +109,17 @@ describe('status lines', () => {
   it('of a finished batch, red when a file failed', () => {
     const f = (state: 'done' | 'failed') => ({ file: 'x', state });
     expect(batchDoneStatus({ files: [f('done'), f('failed'), f('done')], cancelled: false })).toEqual({
-      text: 'Batch done: 3 files, 1 failed.',
+      text: 'Batch done: 2 of 3 files compressed, 1 failed.',
       isError: true,
     });
     expect(batchDoneStatus({ files: [f('done')], cancelled: false })).toEqual({
-      text: 'Batch done: 1 files, 0 failed.',
+      text: 'Batch done: 1 of 1 file compressed.',
       isError: false,
     });
+    // A text file in the folder is skipped, not failed (issue 14), and says so.
+    expect(
+      batchDoneStatus({ files: [f('done'), { file: 'notes.txt', state: 'skipped' }], cancelled: false }),
+    ).toEqual({ text: 'Batch done: 1 of 2 files compressed, 1 skipped.', isError: false });
     expect(batchDoneStatus({ files: [f('done')], cancelled: true }).text).toBe('Batch cancelled.');
   });
 });
@@ -125,6 +130,17 @@ describe('batch rows', () => {
     expect(batchRowText({ file: 'a.png', stage: 'failed', done: 1, total: 2, message: 'truncated' })).toBe(
       'a.png — failed: truncated',
     );
+  });
+
+  it('a message that names the file by its path starts after the path', () => {
+    const message = '/tmp/my scans/in/notes.txt: is not an image Rankfold can read';
+    expect(batchRowText({ file: 'notes.txt', stage: 'skipped', done: 1, total: 2, message })).toBe(
+      'notes.txt — skipped: is not an image Rankfold can read',
+    );
+    // Only a whole path component: "old-notes.txt: …" is another file's name, kept as it is.
+    expect(
+      batchRowText({ file: 'notes.txt', stage: 'skipped', done: 1, total: 2, message: 'x/old-notes.txt: y' }),
+    ).toBe('notes.txt — skipped: x/old-notes.txt: y');
   });
 
   it("a finished file's message: its error, else its size and PSNR", () => {
@@ -163,9 +179,34 @@ describe('paneLabels', () => {
 
   it('a cleaning result wins over the view mode', () => {
     expect(paneLabels({ ...base, mode: 'diff', showing: 'cleaned' }).right).toBe('cleaned');
-    expect(paneLabels({ ...base, showing: 'removed', gain: 16 }).right).toBe(
-      'removed part × 16 (mid-grey = nothing removed)',
+    // Short enough for a 1024 px window's pane; the legend says what mid-grey means.
+    expect(paneLabels({ ...base, showing: 'removed', gain: 16 }).right).toBe('removed part × 16');
+  });
+});
+
+describe('mapLegend', () => {
+  it('gives every colour map a legend with the saturation level in grey levels', () => {
+    // Difference: |rec − orig| · gain reaches the ends at 255 levels (8-bit): 255 / 8 ≈ 32.
+    expect(mapLegend({ mode: 'diff', showing: 'model', gain: 8 })).toMatchObject({
+      low: 'too dark by ≥ 32 grey levels',
+      mid: 'no difference',
+    });
+    // Removed part: mid-grey ± 128 levels, so 128 / 8 = 16 levels saturate; light = cleaning darkened.
+    expect(mapLegend({ mode: 'side', showing: 'removed', gain: 8 })).toMatchObject({
+      low: 'cleaning brightened by ≥ 16 grey levels',
+      mid: 'nothing removed',
+      high: 'darkened by ≥ 16',
+    });
+    expect(mapLegend({ mode: 'layer', showing: 'model', gain: 8 })?.mid).toBe('no effect');
+    expect(mapLegend({ mode: 'tiles', showing: 'model', gain: 8, tileRanks: { min: 0, max: 9 } })?.high).toBe(
+      'rank 9',
     );
+  });
+
+  it('shows none where grey levels are shown as they are', () => {
+    expect(mapLegend({ mode: 'side', showing: 'model', gain: 8 })).toBeUndefined();
+    expect(mapLegend({ mode: 'swipe', showing: 'cleaned', gain: 8 })).toBeUndefined();
+    expect(mapLegend({ mode: 'tiles', showing: 'model', gain: 8 })).toBeUndefined();
   });
 });
 
