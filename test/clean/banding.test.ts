@@ -89,10 +89,28 @@ describe('banding detection and removal', () => {
       expect(a.removeRows || a.removeColumns).toBe(false);
     });
 
+  it('page.png (dense text, lines every ~18 px): row banding of period 12.5, RMS 4, is found from the paper alone, seeds 1–3', async () => {
+    // Before the background-only retry it was not found at all (the text lines' spread ratio vetoed it).
+    // Measured when written: 78 % of the banding energy removed, +2.94…+3.02 dB, on seeds 1–3.
+    const truth = await fixtureGray('page.png');
+    const rows = sineProfile(truth.height, 4, 12.5);
+    for (const seed of [1, 2, 3]) {
+      const dam = damage(truth, { sigma: 3, seed: 9 + seed, rows });
+      const a = analyseBanding(dam, truth.width, truth.height, 'auto', opts);
+      expect(a.direction, `seed ${seed}`).toBe('rows');
+      expect(Math.abs((a.rows.period as number) / 12.5 - 1)).toBeLessThan(0.02);
+      expect(removedShare(rows, a.rows.profile)).toBeGreaterThan(0.7);
+      const out = rounded(subtractProfiles(dam, truth.width, truth.height, a.rows.profile, null));
+      expect(psnr(out, truth.data)).toBeGreaterThan(psnr(dam, truth.data) + 2);
+    }
+  });
+
   it('text lines (page.png) are not taken for row banding even with noise', async () => {
     const truth = await fixtureGray('page.png');
-    const a = analyseBanding(damage(truth, { sigma: 5, seed: 8 }), truth.width, truth.height, 'auto', opts);
-    expect(a.rows.detected).toBe(false);
+    for (const sigma of [0, 1, 5, 10]) {
+      const a = analyseBanding(damage(truth, { sigma, seed: 8 }), truth.width, truth.height, 'auto', opts);
+      expect(a.rows.detected, `σ ${sigma}`).toBe(false);
+    }
   });
 
   it('noise alone is not banding (moon.png, σ = 10)', async () => {
