@@ -54,19 +54,30 @@ export function damage(
   return out;
 }
 
-/** Zero-mean random profile with the given RMS (exactly, after normalisation). */
-export function randomProfile(length: number, rms: number, seed: number): Float64Array {
-  const g = gaussian(rng(seed));
-  const p = Float64Array.from({ length }, () => g());
-  const mean = p.reduce((a, b) => a + b, 0) / length;
+/**
+ * p minus its mean, scaled to the given RMS exactly, in place (returns p). The one normalisation of the
+ * synthetic stripe profiles of the cleaning tests and of bench/clean-banding.ts.
+ */
+function toRms(p: Float64Array, rms: number): Float64Array {
+  const n = p.length;
+  const mean = p.reduce((a, b) => a + b, 0) / n;
   let s = 0;
-  for (let i = 0; i < length; i++) {
+  for (let i = 0; i < n; i++) {
     p[i] -= mean;
     s += p[i] * p[i];
   }
-  const k = rms / Math.sqrt(s / length);
-  for (let i = 0; i < length; i++) p[i] *= k;
+  const k = rms / Math.sqrt(s / n);
+  for (let i = 0; i < n; i++) p[i] *= k;
   return p;
+}
+
+/** Zero-mean random profile with the given RMS (exactly, after normalisation). */
+export function randomProfile(length: number, rms: number, seed: number): Float64Array {
+  const g = gaussian(rng(seed));
+  return toRms(
+    Float64Array.from({ length }, () => g()),
+    rms,
+  );
 }
 
 /** RMS·√2·sin(2πi/period): a periodic profile with the given RMS. */
@@ -123,13 +134,5 @@ export function bandProfile(length: number, rms: number, minWidth: number, maxWi
     const v = g();
     for (let k = 0; k < w && x < length; k++, x++) p[x] = v;
   }
-  const mean = p.reduce((a, b) => a + b, 0) / length;
-  let s = 0;
-  for (let i = 0; i < length; i++) {
-    p[i] -= mean;
-    s += p[i] * p[i];
-  }
-  const k = rms / Math.sqrt(s / length);
-  for (let i = 0; i < length; i++) p[i] *= k;
-  return p;
+  return toRms(p, rms);
 }

@@ -28,7 +28,7 @@
  *   summaries.
  * The grouped step-sum construction and its guards are this project's (no source).
  */
-import { removeMean, rms } from './banding';
+import { removeMean, rms } from './band-stats';
 import {
   explainsLevels,
   robustStep,

@@ -1,189 +1,38 @@
 /**
  * Row and column banding: detection (direction, strength, period) and removal as a rank-one component.
- *
- * A pure column-stripe pattern is the rank-one matrix 1·sᵀ (a row pattern is b·1ᵀ). The profile s is
- * estimated robustly so that real edges and text are not taken for stripes:
- * 1. along each sampled line, subtract a running median (a robust high-pass: it follows edges and
- *    illumination but not narrow stripes);
- * 2. take, at each position, the median of these residuals across lines. Content varies from line to
- *    line and is rejected; a stripe is the same on every line and survives.
- * Detection asks for three things: the profile is well above its own estimation noise, the profiles of
- * the two halves of the image agree (content differs between halves, stripes do not), and its RMS is at
- * least a fraction of a grey level. An image that fails is left exactly as it was.
- *
- * References
- * - J. W. Tukey, "Exploratory Data Analysis", Addison-Wesley 1977: running medians as robust smoothers.
- * - Median-based destriping of line-scanner images, e.g. Ch. Rakwatin, W. Takeuchi, Y. Yasuoka,
- *   "Stripe noise reduction in MODIS data by combining histogram matching with facet filter",
- *   IEEE Trans. Geosci. Remote Sens. 45(6):1844–1856, 2007 (column statistics matched across detectors;
- *   cited for the idea of per-column statistics, from memory).
- * - The standard error of a sample median of N Gaussian values, √(π/2)·σ/√N (asymptotic; common
- *   statistical fact, from memory), used for the significance test.
- * - Spectrum of the profile by a direct DFT; the peak is refined on a 1/64-bin grid of the DTFT and a final
- *   parabola (zero-padding interpolation; common practice in spectral peak estimation).
+ * The profile of each axis and its detection test are in band-profile.ts; the wide bands (50–200 px) in
+ * banding-wide.ts. Here: the order of the axes, the spikes of the automatic mode, and the subtraction.
+ * An image in which nothing is detected is left exactly as it was.
  */
+import {
+  type BandingOptions,
+  estimateStripeProfile,
+  MAX_SPREAD_RATIO,
+  MIN_PERIOD_SHARE,
+  type StripeProfile,
+} from './band-profile';
+import { dominantPeriod, removeMean, rms } from './band-stats';
 import { wideBandProfile } from './banding-wide';
-import { medianInPlace, runningMedian } from './medians';
-import { MAD_TO_SIGMA } from './noise-estimate';
+import { medianInPlace } from './medians';
 
-type BandingAxis = 'rows' | 'columns';
+export type { BandingOptions } from './band-profile';
+export { dominantPeriod } from './band-stats';
+
 type BandingDirection = 'none' | 'rows' | 'columns' | 'both';
 
-interface StripeProfile {
-  axis: BandingAxis;
-  /** Offset per row (axis rows, length height) or per column (axis columns, length width), zero mean. */
-  profile: Float64Array;
-  /** RMS of the profile in grey levels of the input. */
-  strength: number;
-  /** 1.4826·median|profile|: the strength of the bulk of the profile, insensitive to a few spikes. */
-  robustStrength: number;
-  /** RMS standard error of the median profile (from the spread across lines at each position). */
-  noiseFloor: number;
-  /** ⟨top-half profile, bottom-half profile⟩ / ‖profile‖², clamped to [−1, 1] (1 = the same stripes in both halves). */
-  consistency: number;
-  /** Spread across lines where the profile is strongest over where it is weakest (≈ 1 for additive stripes). */
-  spreadRatio: number;
-  /** Dominant period in pixels, or null when no single frequency dominates. */
-  period: number | null;
-  /** Fraction of the profile's energy within ±1 bin of the spectral peak. */
-  periodShare: number;
-  /** Positions whose offset was left as content by the spike limit (automatic mode). */
-  clipped?: number;
-  /** True when the detection test passed. */
-  detected: boolean;
-  /** Band edges added by the wide pass (banding-wide.ts), when it added any. */
-  wideSteps?: number;
-}
-
-export interface BandingOptions {
-  /** Largest sample value (255 or 65535); scales the minimum strength. */
-  maxValue: number;
-  /** Half-width of the running median, in pixels. Default 32: stripes narrower than ~32 px are caught. */
-  halfWindow?: number;
-}
-
-/** Lines sampled for the profile (enough for a median error of ~0.06σ; more costs time for nothing). */
-const MAX_SAMPLE_LINES = 512;
-/** Default half-width of the running median along each line. */
-const DEFAULT_HALF_WINDOW = 32;
-/** Minimum RMS of a detected profile, in 8-bit grey levels: below this, removal is within rounding. */
-const MIN_STRENGTH_8BIT = 0.3;
-/**
- * The robust strength must exceed this many times the noise floor. Fitted on: the clean images of
- * test/fixtures/images and samples/ (3 leaves every one untouched) and the striped cases of
- * test/clean/banding.test.ts (moon, camera and text with synthetic stripes; page for text lines).
- */
-const SIGNIFICANCE = 3;
-/** Minimum correlation between the two halves' profiles. Fitted on: as SIGNIFICANCE. */
-const MIN_CONSISTENCY = 0.5;
-/**
- * Largest spread ratio of a detected profile: above it, the "stripes" follow content (text lines, edges).
- * Fitted on: as SIGNIFICANCE (the text-heavy page.png and text.png set the ceiling).
- */
-const MAX_SPREAD_RATIO = 1.8;
-/** In automatic mode, profile values beyond this many robust strengths are content, not banding. Fitted on: as SIGNIFICANCE. */
+/** In automatic mode, profile values beyond this many robust strengths are content, not banding. Fitted on: as SIGNIFICANCE (band-profile.ts). */
 const SPIKE_FACTOR = 5;
-/** A period is reported when the spectral peak (±1 bin) holds at least this share of the energy. */
-const MIN_PERIOD_SHARE = 0.3;
-/** √(π/2): standard error of a median relative to the mean's, for Gaussian data. */
-const MEDIAN_SE_FACTOR = 1.2533141373155003;
-
-/** Estimate the stripe profile of one axis and run the detection test. */
-function estimateStripeProfile(
-  plane: ArrayLike<number>,
-  width: number,
-  height: number,
-  axis: BandingAxis,
-  options: BandingOptions,
-): StripeProfile {
-  // For column stripes the "lines" are rows (we look along x); for row stripes they are columns.
-  const lineLen = axis === 'columns' ? width : height;
-  const lineCount = axis === 'columns' ? height : width;
-  const nLines = Math.min(lineCount, MAX_SAMPLE_LINES);
-  const w = Math.max(2, Math.min(options.halfWindow ?? DEFAULT_HALF_WINDOW, Math.floor(lineLen / 4)));
-  // Residuals stored position-major (resid[x·nLines + k]) so each position's values are contiguous.
-  const resid = new Float64Array(nLines * lineLen);
-  const line = new Float64Array(lineLen);
-  const med = new Float64Array(lineLen);
-  for (let k = 0; k < nLines; k++) {
-    const li = nLines === lineCount ? k : Math.floor(((k + 0.5) * lineCount) / nLines);
-    if (axis === 'columns') for (let x = 0; x < lineLen; x++) line[x] = plane[li * width + x];
-    else for (let x = 0; x < lineLen; x++) line[x] = plane[x * width + li];
-    runningMedian(line, w, med);
-    for (let x = 0; x < lineLen; x++) resid[x * nLines + k] = line[x] - med[x];
-  }
-  const half = nLines >> 1;
-  const profile = new Float64Array(lineLen);
-  const top = new Float64Array(lineLen);
-  const bottom = new Float64Array(lineLen);
-  const col = new Float64Array(nLines);
-  for (let x = 0; x < lineLen; x++) {
-    const o = x * nLines;
-    col.set(resid.subarray(o, o + half));
-    top[x] = medianInPlace(col, half);
-    col.set(resid.subarray(o + half, o + nLines));
-    bottom[x] = medianInPlace(col, nLines - half);
-    col.set(resid.subarray(o, o + nLines));
-    profile[x] = medianInPlace(col, nLines);
-  }
-  removeMean(profile);
-  removeMean(top);
-  removeMean(bottom);
-  // Spread of the residuals around the profile at each position → standard error of each median. Content
-  // such as lines of text is bimodal (ink or paper) exactly where it leaks into the profile, so its
-  // positions get a large standard error; an additive stripe leaves the spread unchanged.
-  let se2 = 0;
-  const spread = new Float64Array(lineLen);
-  for (let x = 0; x < lineLen; x++) {
-    const o = x * nLines;
-    for (let k = 0; k < nLines; k++) col[k] = Math.abs(resid[o + k] - profile[x]);
-    spread[x] = medianInPlace(col, nLines) / MAD_TO_SIGMA;
-    se2 += spread[x] * spread[x];
-  }
-  const noiseFloor = (MEDIAN_SE_FACTOR * Math.sqrt(se2 / lineLen)) / Math.sqrt(nLines);
-  // Uniformity: spread where the profile is strongest (top quarter of |profile|) over spread where it is
-  // weakest (bottom half). ≈ 1 for an additive stripe; ≫ 1 when the "profile" is content such as text lines.
-  const order = Array.from({ length: lineLen }, (_, i) => i).sort(
-    (a, b) => Math.abs(profile[b]) - Math.abs(profile[a]) || a - b,
-  );
-  const q = Math.max(1, Math.floor(lineLen / 4));
-  const h2 = Math.max(1, Math.floor(lineLen / 2));
-  let topS = 0;
-  let lowS = 0;
-  for (let i = 0; i < q; i++) topS += spread[order[i]] ** 2;
-  for (let i = lineLen - h2; i < lineLen; i++) lowS += spread[order[i]] ** 2;
-  const spreadRatio = lowS > 0 ? Math.sqrt(topS / q / (lowS / h2)) : topS > 0 ? Number.POSITIVE_INFINITY : 1;
-  const strength = rms(profile);
-  // Energy shared by the two halves relative to the profile's energy: stripes are common to both halves,
-  // content leaking into either half's median is not (and one busy half does not veto a real stripe).
-  const consistency = sharedEnergy(top, bottom, profile);
-  const { period, share } = dominantPeriod(profile);
-  // Robust strength 1.4826·median|profile| (MAD scale): a few full-length straight lines of the scene (a map
-  // grid, a neatline, a table rule) make isolated spikes in the profile that pass every other test; they
-  // barely move the median, whereas real banding affects most lines.
-  // Measured around the profile's median, not its mean: spikes shift the mean of everything else.
-  const centre = medianInPlace(Float64Array.from(profile), profile.length);
-  const absP = Float64Array.from(profile, (v) => Math.abs(v - centre));
-  const robustStrength = medianInPlace(absP, absP.length) / MAD_TO_SIGMA;
-  const minStrength = (MIN_STRENGTH_8BIT * options.maxValue) / 255;
-  const detected =
-    robustStrength >= minStrength &&
-    robustStrength >= SIGNIFICANCE * noiseFloor &&
-    consistency >= MIN_CONSISTENCY &&
-    spreadRatio <= MAX_SPREAD_RATIO;
-  return {
-    axis,
-    profile,
-    strength,
-    robustStrength,
-    noiseFloor,
-    consistency,
-    spreadRatio,
-    period: share >= MIN_PERIOD_SHARE ? period : null,
-    periodShare: share,
-    detected,
-  };
-}
+/**
+ * A spike carried by at least this share of the lines is a sensor defect and is removed whole; one carried
+ * by fewer is content (chosen here: a ruled line or a map's grid stops at the margins, which are more than
+ * 3 % of a page; a hot column with an offset of several noise levels is carried by nearly every line).
+ */
+const FULL_SPAN = 0.97;
+/**
+ * Next to a content spike, offsets above this many robust strengths are its shoulders (chosen here: a sine
+ * reaches 1.35 robust strengths and Gaussian stripes pass 2 in 5 % of positions).
+ */
+const SHOULDER_FACTOR = 2;
 
 export interface BandingAnalysis {
   direction: BandingDirection;
@@ -206,7 +55,7 @@ export function analyseBanding(
   mode: 'auto' | 'rows' | 'columns' | 'both',
   options: BandingOptions,
 ): BandingAnalysis {
-  const columns = estimateStripeProfile(plane, width, height, 'columns', options);
+  const columns = profileOf(plane, width, height, 'columns', options);
   let removeColumns = mode === 'auto' ? columns.detected : mode === 'columns' || mode === 'both';
   if (mode === 'auto') clipSpikes(columns);
   let base = removeColumns ? subtractProfiles(plane, width, height, null, columns.profile) : plane;
@@ -215,7 +64,7 @@ export function analyseBanding(
       base = subtractProfiles(plane, width, height, null, columns.profile);
       removeColumns = true;
     }
-  const rows = estimateStripeProfile(base, width, height, 'rows', options);
+  const rows = profileOf(base, width, height, 'rows', options);
   if (mode === 'auto') clipSpikes(rows);
   let removeRows = mode === 'auto' ? rows.detected : mode === 'rows' || mode === 'both';
   if (mode === 'auto' || mode === 'rows' || mode === 'both') {
@@ -225,6 +74,24 @@ export function analyseBanding(
   const direction: BandingDirection =
     removeRows && removeColumns ? 'both' : removeRows ? 'rows' : removeColumns ? 'columns' : 'none';
   return { direction, columns, rows, removeColumns, removeRows };
+}
+
+/**
+ * The profile of one axis; when it fails only because its spread across lines follows content (lines of
+ * text), the profile of the background alone (band-profile.ts keepBackground) is tried, and kept if it
+ * passes the whole detection test.
+ */
+function profileOf(
+  plane: Float32Array,
+  width: number,
+  height: number,
+  axis: 'rows' | 'columns',
+  options: BandingOptions,
+): StripeProfile {
+  const p = estimateStripeProfile(plane, width, height, axis, options);
+  if (p.detected || p.spreadRatio <= MAX_SPREAD_RATIO) return p;
+  const bg = estimateStripeProfile(plane, width, height, axis, options, true);
+  return bg.detected ? bg : p;
 }
 
 /**
@@ -255,27 +122,62 @@ function addWideBands(
 
 /**
  * In automatic mode, positions where the profile exceeds SPIKE_FACTOR × its robust strength (plus the
- * noise floor) are treated as content (a ruled line, a grid line) and keep their offset: the subtracted
- * profile is clipped there. `clipped` counts them. Forced modes (--banding rows|columns|both) subtract all.
+ * noise floor) are checked: an offset carried by nearly every line (FULL_SPAN) is a sensor defect (a hot or
+ * dead column) and is removed whole; otherwise it is content that crosses most but not all lines (a ruled
+ * line, a grid line, the wells of a gel) and keeps its offset: the subtracted profile there is interpolated
+ * linearly from the nearest positions that are not spikes, i.e. only the banding around it is removed.
+ * `clipped` counts these. Forced modes (--banding rows|columns|both) subtract all.
  */
 function clipSpikes(p: StripeProfile) {
   const limit = SPIKE_FACTOR * p.robustStrength + p.noiseFloor;
   const centre = medianInPlace(Float64Array.from(p.profile), p.profile.length);
+  const L = p.profile.length;
+  const content = new Uint8Array(L);
   let n = 0;
-  for (let i = 0; i < p.profile.length; i++) {
-    const d = p.profile[i] - centre;
-    if (Math.abs(d) > limit) {
-      p.profile[i] = centre + Math.sign(d) * limit;
+  for (let i = 0; i < L; i++)
+    if (Math.abs(p.profile[i] - centre) > limit && p.span[i] < FULL_SPAN) {
+      content[i] = 1;
       n++;
     }
-  }
+  // A content feature fades in over a few positions (a gel well, a blurred rule): its shoulders below the
+  // spike limit belong to it, so the run grows while the offset stays above SHOULDER_FACTOR robust strengths.
+  const shoulder = SHOULDER_FACTOR * p.robustStrength + p.noiseFloor;
+  for (let pass = 0; pass < 2; pass++)
+    for (let k = 0; k < L; k++) {
+      const i = pass ? L - 1 - k : k;
+      const prev = pass ? i + 1 : i - 1;
+      if (
+        !content[i] &&
+        prev >= 0 &&
+        prev < L &&
+        content[prev] &&
+        Math.abs(p.profile[i] - centre) > shoulder
+      ) {
+        content[i] = 1;
+        n++;
+      }
+    }
   p.clipped = n;
-  if (n > 0) {
-    removeMean(p.profile);
-    if (p.detected) p.strength = rms(p.profile);
+  if (n === 0) return;
+  if (n === L) {
+    p.profile.fill(0);
+    return;
   }
+  for (let i = 0; i < L; ) {
+    if (!content[i]) {
+      i++;
+      continue;
+    }
+    let j = i;
+    while (j < L && content[j]) j++;
+    const a = i > 0 ? p.profile[i - 1] : p.profile[j];
+    const b = j < L ? p.profile[j] : a;
+    for (let k = i; k < j; k++) p.profile[k] = a + ((b - a) * (k - i + 1)) / (j - i + 1);
+    i = j;
+  }
+  removeMean(p.profile);
+  if (p.detected) p.strength = rms(p.profile);
 }
-
 /** plane − b·1ᵀ − 1·sᵀ, as a new plane. Either profile may be null. */
 export function subtractProfiles(
   plane: Float32Array,
@@ -291,85 +193,4 @@ export function subtractProfiles(
     for (let x = 0; x < width; x++) out[o + x] = plane[o + x] - b - (columnProfile ? columnProfile[x] : 0);
   }
   return out;
-}
-
-/** Dominant period of a profile from its DFT power spectrum (bins 2 … L/2, i.e. periods L/2 … 2 px). */
-export function dominantPeriod(profile: ArrayLike<number>): { period: number | null; share: number } {
-  const L = profile.length;
-  const K = Math.floor(L / 2);
-  if (K < 3) return { period: null, share: 0 };
-  const power = new Float64Array(K + 1);
-  const cosT = new Float64Array(L);
-  const sinT = new Float64Array(L);
-  for (let x = 0; x < L; x++) {
-    cosT[x] = Math.cos((2 * Math.PI * x) / L);
-    sinT[x] = Math.sin((2 * Math.PI * x) / L);
-  }
-  let total = 0;
-  for (let k = 1; k <= K; k++) {
-    let re = 0;
-    let im = 0;
-    for (let x = 0, idx = 0; x < L; x++, idx = (idx + k) % L) {
-      re += profile[x] * cosT[idx];
-      im -= profile[x] * sinT[idx];
-    }
-    power[k] = re * re + im * im;
-    total += power[k];
-  }
-  if (!(total > 0)) return { period: null, share: 0 };
-  let best = 2;
-  for (let k = 2; k <= K; k++) if (power[k] > power[best]) best = k;
-  const lo = power[best - 1];
-  const hi = best + 1 <= K ? power[best + 1] : 0;
-  const share = (lo + power[best] + hi) / total;
-  // Refine between bins: evaluate the DTFT on a fine grid within ±1 bin of the peak (equivalent to heavy
-  // zero padding), then a parabola through the finest maximum and its neighbours.
-  const dtft = (f: number) => {
-    let re = 0;
-    let im = 0;
-    const w = (2 * Math.PI * f) / L;
-    for (let x = 0; x < L; x++) {
-      re += profile[x] * Math.cos(w * x);
-      im -= profile[x] * Math.sin(w * x);
-    }
-    return re * re + im * im;
-  };
-  const step = 1 / 64;
-  let fBest = best;
-  let pBest = power[best];
-  for (let f = best - 1 + step; f < best + 1; f += step) {
-    const pw = dtft(f);
-    if (pw > pBest) {
-      pBest = pw;
-      fBest = f;
-    }
-  }
-  const pl = dtft(fBest - step);
-  const ph = dtft(fBest + step);
-  const denom = pl - 2 * pBest + ph;
-  const delta = denom !== 0 ? Math.max(-1, Math.min(1, (0.5 * (pl - ph)) / denom)) : 0;
-  return { period: L / (fBest + delta * step), share };
-}
-
-export function removeMean(a: Float64Array) {
-  let s = 0;
-  for (let i = 0; i < a.length; i++) s += a[i];
-  s /= a.length || 1;
-  for (let i = 0; i < a.length; i++) a[i] -= s;
-}
-
-export function rms(a: Float64Array): number {
-  let s = 0;
-  for (let i = 0; i < a.length; i++) s += a[i] * a[i];
-  return Math.sqrt(s / (a.length || 1));
-}
-
-function sharedEnergy(a: Float64Array, b: Float64Array, whole: Float64Array): number {
-  let ab = 0;
-  let ww = 0;
-  for (let i = 0; i < a.length; i++) {
-    ab += a[i] * b[i];
-    ww += whole[i] * whole[i];
-  }
-  return ww > 0 ? Math.max(-1, Math.min(1, ab / ww)) : 0;
 }
