@@ -22,7 +22,6 @@
  *   centroid of the bin's coefficients (Sullivan, IEEE Trans. Inf. Theory 42(5):1365–1374, 1996: for a
  *   Laplacian source the MSE-optimal reconstruction lies inside the bin, not at its edge).
  */
-import type { BitModel } from './range-coder';
 import * as rc from './range-coder';
 import type { Band } from './wavelet-transform';
 
@@ -42,42 +41,10 @@ const NB_LUT = Uint8Array.from({ length: 30 }, (_, s) =>
   s < 4 ? s : s < 6 ? 4 : s < 8 ? 5 : s < 12 ? 6 : s < 18 ? 7 : 8,
 );
 
-/** Either direction of the range coder behind one interface: the encoder writes `v` and returns it. */
-interface BitIo {
-  bit(m: BitModel, v: number): number;
-  magnitude(m: rc.IntModel, v: number, cls: number): number;
-  int(m: rc.IntModel, v: number, cls: number, prevSign: number): number;
-}
-
-function encoderIo(enc: rc.RangeEncoder): BitIo {
-  return {
-    bit(m, v) {
-      enc.encodeBit(m, v);
-      return v;
-    },
-    magnitude(m, v, cls) {
-      rc.encodeMagnitude(enc, m, v, cls);
-      return v;
-    },
-    int(m, v, cls, prevSign) {
-      rc.encodeInt(enc, m, v, cls, prevSign);
-      return v;
-    },
-  };
-}
-
-function decoderIo(dec: rc.RangeDecoder): BitIo {
-  return {
-    bit: (m) => dec.decodeBit(m),
-    magnitude: (m, _v, cls) => rc.decodeMagnitude(dec, m, cls),
-    int: (m, _v, cls, prevSign) => rc.decodeInt(dec, m, cls, prevSign),
-  };
-}
-
 const sgn = (v: number) => (v > 0 ? 1 : v < 0 ? -1 : 0);
 
 /** LL by MED prediction; `q` is read (encoder) or filled (decoder) in place. */
-function codeLL(io: BitIo, q: Int32Array, width: number, b: Band): void {
+function codeLL(io: rc.BinaryCoder, q: Int32Array, width: number, b: Band): void {
   const m = new rc.IntModel(5);
   const d = new Int32Array(b.w * b.h);
   for (let y = 0; y < b.h; y++)
@@ -104,9 +71,9 @@ function classOf(b: Band): number {
  * Code every coefficient of `q` (Mallat layout, row stride `width`) in one direction: the encoder's io
  * writes the values of `q`; the decoder's io fills `q` (zeroed on entry).
  */
-function codeCoefficients(io: BitIo, q: Int32Array, width: number, bands: Band[]): void {
-  const zm = rc.models(CLASSES * NB_BINS * PS_BINS);
-  const sm = rc.models(3 * 9);
+function codeCoefficients(io: rc.BinaryCoder, q: Int32Array, width: number, bands: Band[]): void {
+  const zm = rc.contexts(CLASSES * NB_BINS * PS_BINS);
+  const sm = rc.contexts(3 * 9);
   const mm = new rc.IntModel(3 * MAG_BINS);
   const byKey = new Map<string, Band>();
   for (const b of bands) byKey.set(`${b.orient}:${b.level}`, b);
@@ -150,12 +117,12 @@ function codeCoefficients(io: BitIo, q: Int32Array, width: number, bands: Band[]
         if (s2Row >= 0 && x < s2.w) ps += mag[s2Row + x];
         const pc = ps === 0 ? 0 : ps <= 2 ? 1 : 2;
         const v = q[idx];
-        const z = io.bit(zm[(zBase + (s < 30 ? NB_LUT[s] : 9)) * PS_BINS + pc], v !== 0 ? 1 : 0);
+        const z = io.bit(zm, (zBase + (s < 30 ? NB_LUT[s] : 9)) * PS_BINS + pc, v !== 0 ? 1 : 0);
         if (!z) continue;
         const left = x > 0 ? q[idx - 1] : 0;
         const up = y > 0 ? q[idx - width] : 0;
         const sc = (left > 0 ? 2 : left < 0 ? 0 : 1) * 3 + (up > 0 ? 2 : up < 0 ? 0 : 1);
-        const neg = io.bit(sm[sBase + sc], v < 0 ? 1 : 0);
+        const neg = io.bit(sm, sBase + sc, v < 0 ? 1 : 0);
         const act = l + u + (ps >> 1);
         const mc = act === 0 ? 0 : act <= 1 ? 1 : act <= 3 ? 2 : act <= 6 ? 3 : act <= 12 ? 4 : 5;
         const a = io.magnitude(mm, Math.abs(v) - 1, group * MAG_BINS + mc) + 1;
@@ -166,15 +133,53 @@ function codeCoefficients(io: BitIo, q: Int32Array, width: number, bands: Band[]
   }
 }
 
-/** Per band, [count of |q| = 1, count of |q| ≥ 2]. */
-function binCounts(q: Int32Array, map: Uint8Array, nb: number): Int32Array {
-  const n = new Int32Array(2 * nb);
-  for (let i = 0; i < q.length; i++) if (q[i]) n[2 * map[i] + (q[i] === 1 || q[i] === -1 ? 0 : 1)]++;
-  return n;
+/**
+ * Per band b and bin class (|q| = 1, |q| ≥ 2): n[2b + class], the count of coded values, and, with `coeffs` and
+ * `steps`, sum[2b + class] = Σ(|c|/Δ_b − |q|). Band by band in raster order, so each sum adds its terms in the
+ * order of a raster walk over the whole plane, and zeros cost one test.
+ */
+function binStats(
+  q: Int32Array,
+  width: number,
+  bands: Band[],
+  coeffs?: Float64Array,
+  steps?: Float64Array,
+): { n: Int32Array; sum: Float64Array } {
+  const n = new Int32Array(2 * bands.length);
+  const sum = new Float64Array(2 * bands.length);
+  for (let bi = 0; bi < bands.length; bi++) {
+    const b = bands[bi];
+    const d = steps ? steps[bi] : 1;
+    let n1 = 0;
+    let n2 = 0;
+    let s1 = 0;
+    let s2 = 0;
+    for (let y = 0; y < b.h; y++) {
+      const row = (b.y0 + y) * width + b.x0;
+      const end = row + b.w;
+      for (let i = row; i < end; i++) {
+        const v = q[i];
+        if (v === 0) continue;
+        const a = v < 0 ? -v : v;
+        if (a === 1) {
+          n1++;
+          if (coeffs) s1 += Math.abs(coeffs[i]) / d - a;
+        } else {
+          n2++;
+          if (coeffs) s2 += Math.abs(coeffs[i]) / d - a;
+        }
+      }
+    }
+    n[2 * bi] = n1;
+    n[2 * bi + 1] = n2;
+    sum[2 * bi] = s1;
+    sum[2 * bi + 1] = s2;
+  }
+  return { n, sum };
 }
 
 /** Code the reconstruction offsets (units of 1/OFFSET.unit) of the bins with enough values. */
-function codeOffsets(io: BitIo, k: Int32Array, counts: Int32Array): Float64Array {
+function codeOffsets(io: rc.BinaryCoder, k: Int32Array, counts: Int32Array): Float64Array {
   const m = new rc.IntModel(2);
   const out = new Float64Array(k.length);
   let prev = [0, 0];
@@ -197,7 +202,7 @@ export interface CodedV2 {
 
 /**
  * Range-code quantised coefficients `q` with coder 2. `coeffs` and `steps` (the unquantised coefficients
- * and each band's step) give the reconstruction offsets; `map` is each coefficient's band.
+ * and each band's step) give the reconstruction offsets.
  */
 export function encodeCoefficientsV2(
   q: Int32Array,
@@ -205,18 +210,16 @@ export function encodeCoefficientsV2(
   steps: Float64Array,
   width: number,
   bands: Band[],
-  map: Uint8Array,
 ): CodedV2 {
-  const { counts, k } = offsetCodes(q, coeffs, steps, map, bands.length);
+  const { counts, k } = offsetCodes(q, coeffs, steps, width, bands);
   const enc = new rc.RangeEncoder();
-  const io = encoderIo(enc);
   const nonZero = counts.some((c) => c > 0);
   enc.encodeDirect(nonZero ? 1 : 0);
   let offsets: Float64Array = new Float64Array(2 * bands.length);
   if (nonZero) {
     // The encoder's io returns the value it wrote, so the walk writes back into q exactly what it read.
-    codeCoefficients(io, q, width, bands);
-    offsets = codeOffsets(io, k, counts);
+    codeCoefficients(enc, q, width, bands);
+    offsets = codeOffsets(enc, k, counts);
   }
   return { bytes: enc.finish(), offsets };
 }
@@ -226,17 +229,10 @@ function offsetCodes(
   q: Int32Array,
   coeffs: Float64Array,
   steps: Float64Array,
-  map: Uint8Array,
-  nb: number,
+  width: number,
+  bands: Band[],
 ): { counts: Int32Array; k: Int32Array } {
-  const counts = binCounts(q, map, nb);
-  const sum = new Float64Array(2 * nb);
-  for (let i = 0; i < q.length; i++) {
-    const v = q[i];
-    if (!v) continue;
-    const a = v < 0 ? -v : v;
-    sum[2 * map[i] + (a === 1 ? 0 : 1)] += Math.abs(coeffs[i]) / steps[map[i]] - a;
-  }
+  const { n: counts, sum } = binStats(q, width, bands, coeffs, steps);
   const k = Int32Array.from(sum, (s, j) =>
     counts[j] ? Math.max(OFFSET.min, Math.min(OFFSET.max, Math.round((OFFSET.unit * s) / counts[j]))) : 0,
   );
@@ -251,11 +247,11 @@ export function reconstructionOffsetsV2(
   q: Int32Array,
   coeffs: Float64Array,
   steps: Float64Array,
-  map: Uint8Array,
-  nb: number,
+  width: number,
+  bands: Band[],
 ): Float64Array {
-  const { counts, k } = offsetCodes(q, coeffs, steps, map, nb);
-  const out = new Float64Array(2 * nb);
+  const { counts, k } = offsetCodes(q, coeffs, steps, width, bands);
+  const out = new Float64Array(2 * bands.length);
   for (let j = 0; j < out.length; j++) if (counts[j] >= MIN_OFFSET_COUNT) out[j] = k[j] / OFFSET.unit;
   return out;
 }
@@ -269,14 +265,12 @@ export function decodeCoefficientsV2(
   q: Int32Array,
   width: number,
   bands: Band[],
-  map: Uint8Array,
 ): Float64Array {
   const dec = new rc.RangeDecoder(bytes);
-  const io = decoderIo(dec);
   let offsets: Float64Array = new Float64Array(2 * bands.length);
   if (dec.decodeDirect() !== 0) {
-    codeCoefficients(io, q, width, bands);
-    offsets = codeOffsets(io, new Int32Array(2 * bands.length), binCounts(q, map, bands.length));
+    codeCoefficients(dec, q, width, bands);
+    offsets = codeOffsets(dec, new Int32Array(2 * bands.length), binStats(q, width, bands).n);
   }
   dec.checkEnd('plane data');
   return offsets;

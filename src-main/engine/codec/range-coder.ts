@@ -13,7 +13,6 @@
 const PROB_BITS = 15;
 const PROB_ONE = 1 << PROB_BITS;
 const PROB_INIT = PROB_ONE >>> 1;
-const TOP = 2 ** 24;
 /** Largest magnitude the integer coder accepts; bigger values mean a corrupt stream. */
 const MAX_MAGNITUDE = 2 ** 30;
 
@@ -24,31 +23,72 @@ const MAX_MAGNITUDE = 2 ** 30;
  */
 const FAST_WINDOW = 16;
 const SLOW_WINDOW = 128;
-const RECIP = Uint32Array.from({ length: SLOW_WINDOW }, (_, n) => Math.round(65536 / (n + 1.5)));
+const RECIP_SLOW = Int32Array.from({ length: SLOW_WINDOW }, (_, n) => Math.round(65536 / (n + 1.5)));
+const RECIP_FAST = Int32Array.from(RECIP_SLOW, (r, n) => (n < FAST_WINDOW ? r : RECIP_SLOW[FAST_WINDOW - 1]));
 
-/** One adaptive binary context. */
-export class BitModel {
-  fast = PROB_INIT;
-  slow = PROB_INIT;
-  n = 0;
-  p(): number {
-    const v = (this.fast + this.slow) >>> 1;
-    return v < 32 ? 32 : v > PROB_ONE - 32 ? PROB_ONE - 32 : v;
+/**
+ * A set of adaptive binary contexts in one typed array, {@link CTX} integers per context: the fast estimate,
+ * the slow estimate and the observation count (capped at SLOW_WINDOW − 1). Context j starts at j·CTX.
+ * Hot loops index it directly, with no object per context.
+ */
+export type Contexts = Int32Array;
+const CTX = 3;
+
+/** `n` fresh contexts (P(0) = ½, no observations). */
+export function contexts(n: number): Contexts {
+  const s = new Int32Array(CTX * n);
+  for (let k = 0; k < s.length; k += CTX) {
+    s[k] = PROB_INIT;
+    s[k + 1] = PROB_INIT;
   }
-  update(bit: number): void {
-    const n = this.n;
-    const rs = RECIP[n];
-    const rf = n < FAST_WINDOW ? rs : RECIP[FAST_WINDOW - 1];
-    if (n < SLOW_WINDOW - 1) this.n = n + 1;
-    const target = bit ? 0 : PROB_ONE;
-    // |(target − p)·r| < 2^15·2^16, so x / 65536 | 0 truncates toward zero exactly as Math.trunc does.
-    this.fast += (((target - this.fast) * rf) / 65536) | 0;
-    this.slow += (((target - this.slow) * rs) / 65536) | 0;
-  }
+  return s;
 }
 
+/** P(bit = 0) of the context at offset k, 15-bit, kept 32 away from 0 and 1. */
+function prob(s: Contexts, k: number): number {
+  const v = (s[k] + s[k + 1]) >>> 1;
+  return v < 32 ? 32 : v > PROB_ONE - 32 ? PROB_ONE - 32 : v;
+}
+
+/** Move the context at offset k towards the observed bit. */
+function adapt(s: Contexts, k: number, bit: number): void {
+  const n = s[k + 2];
+  const rf = RECIP_FAST[n];
+  const rs = RECIP_SLOW[n];
+  if (n < SLOW_WINDOW - 1) s[k + 2] = n + 1;
+  const target = bit ? 0 : PROB_ONE;
+  const f = s[k];
+  const sl = s[k + 1];
+  // |(target − p)·r| < 2^15·2^16, so x / 65536 | 0 truncates toward zero exactly as Math.trunc does.
+  s[k] = f + ((((target - f) * rf) / 65536) | 0);
+  s[k + 1] = sl + ((((target - sl) * rs) / 65536) | 0);
+}
+
+/** One adaptive binary context: a handle on context `at` of a {@link Contexts} set. */
+export class BitModel {
+  constructor(
+    readonly set: Contexts,
+    readonly at: number,
+  ) {}
+}
+
+/** `n` fresh contexts as handles (for callers that pass contexts one by one). */
 export function models(n: number): BitModel[] {
-  return Array.from({ length: n }, () => new BitModel());
+  const s = contexts(n);
+  return Array.from({ length: n }, (_, i) => new BitModel(s, i));
+}
+
+/**
+ * Either direction of the range coder behind one interface, so one routine can walk the symbols for both:
+ * the encoder writes `v` and returns it; the decoder ignores `v` and returns what it decodes.
+ */
+export interface BinaryCoder {
+  /** A bit on context j of `set`. */
+  bit(set: Contexts, j: number, v: number): number;
+  /** A non-negative integer ({@link encodeMagnitude}). */
+  magnitude(m: IntModel, v: number, cls: number): number;
+  /** A signed integer ({@link encodeInt}). */
+  int(m: IntModel, v: number, cls: number, prevSign: number): number;
 }
 
 /** Growable byte sink. */
@@ -68,34 +108,57 @@ class ByteSink {
   }
 }
 
-export class RangeEncoder {
+/**
+ * Both directions keep `range` as the 32-bit pattern of the unsigned range in a signed int32 (so V8 stores a
+ * small integer, never a boxed double): r >>> n and r >>> 24 === 0 (range < 2^24) read it as unsigned, and
+ * (r − bound) | 0, bound | 0 and r << 8 give the patterns of the unsigned results, which all lie in [0, 2^32).
+ */
+export class RangeEncoder implements BinaryCoder {
   private low = 0;
-  private range = 0xffffffff;
+  private range = -1;
   private cache = 0;
   private cacheSize = 1;
   private out = new ByteSink();
 
   encodeBit(m: BitModel, bit: number): void {
-    const bound = (this.range >>> PROB_BITS) * m.p();
+    this.bit(m.set, m.at, bit);
+  }
+
+  bit(set: Contexts, j: number, bit: number): number {
+    const k = j * CTX;
+    const r = this.range;
+    // (r >>> 15)·p < 2^32 is exact in a double; `| 0` keeps its low 32 bits (see `range`).
+    const bound = (r >>> PROB_BITS) * prob(set, k);
+    let next: number;
     if (bit) {
       this.low += bound;
-      this.range = (this.range - bound) >>> 0;
-    } else {
-      this.range = bound >>> 0;
-    }
-    m.update(bit);
-    while (this.range < TOP) {
-      this.range = (this.range * 256) >>> 0;
+      next = (r - bound) | 0;
+    } else next = bound | 0;
+    adapt(set, k, bit);
+    while (next >>> 24 === 0) {
+      next <<= 8;
       this.shiftLow();
     }
+    this.range = next;
+    return bit;
+  }
+
+  magnitude(m: IntModel, v: number, cls: number): number {
+    encodeMagnitude(this, m, v, cls);
+    return v;
+  }
+
+  int(m: IntModel, v: number, cls: number, prevSign: number): number {
+    encodeInt(this, m, v, cls, prevSign);
+    return v;
   }
 
   /** A bit with probability ½ (no model). */
   encodeDirect(bit: number): void {
     this.range = this.range >>> 1;
     if (bit) this.low += this.range;
-    while (this.range < TOP) {
-      this.range = (this.range * 256) >>> 0;
+    while (this.range >>> 24 === 0) {
+      this.range <<= 8;
       this.shiftLow();
     }
   }
@@ -120,8 +183,8 @@ export class RangeEncoder {
   }
 }
 
-export class RangeDecoder {
-  private range = 0xffffffff;
+export class RangeDecoder implements BinaryCoder {
+  private range = -1;
   private code = 0;
   private pos = 0;
   /** Bytes read past the end (a sign of a corrupt or truncated stream). */
@@ -150,23 +213,36 @@ export class RangeDecoder {
       );
   }
   decodeBit(m: BitModel): number {
-    const bound = (this.range >>> PROB_BITS) * m.p();
+    return this.bit(m.set, m.at);
+  }
+  bit(set: Contexts, j: number, _v?: number): number {
+    const k = j * CTX;
+    const r = this.range;
+    const bound = (r >>> PROB_BITS) * prob(set, k);
     let bit: number;
+    let next: number;
     if (this.code < bound) {
-      this.range = bound >>> 0;
+      next = bound | 0;
       bit = 0;
     } else {
       this.code = (this.code - bound) >>> 0;
-      this.range = (this.range - bound) >>> 0;
+      next = (r - bound) | 0;
       bit = 1;
     }
-    m.update(bit);
-    while (this.range < TOP) {
-      this.range = (this.range * 256) >>> 0;
+    adapt(set, k, bit);
+    while (next >>> 24 === 0) {
+      next <<= 8;
       this.code = ((this.code * 256) >>> 0) + this.next();
       this.code >>>= 0;
     }
+    this.range = next;
     return bit;
+  }
+  magnitude(m: IntModel, _v: number, cls: number): number {
+    return decodeMagnitude(this, m, cls);
+  }
+  int(m: IntModel, _v: number, cls: number, prevSign: number): number {
+    return decodeInt(this, m, cls, prevSign);
   }
   decodeDirect(): number {
     this.range = this.range >>> 1;
@@ -175,8 +251,8 @@ export class RangeDecoder {
       this.code = (this.code - this.range) >>> 0;
       bit = 1;
     }
-    while (this.range < TOP) {
-      this.range = (this.range * 256) >>> 0;
+    while (this.range >>> 24 === 0) {
+      this.range <<= 8;
       this.code = ((this.code * 256) >>> 0) + this.next();
       this.code >>>= 0;
     }
@@ -193,34 +269,34 @@ const EG_BITS = 32;
  * size of the previous value), and signs are modelled on the previous sign.
  */
 export class IntModel {
-  readonly zero: BitModel[];
-  readonly sign: BitModel[];
-  readonly unary: BitModel[];
-  readonly egPrefix: BitModel[];
-  readonly egBits: BitModel[];
+  readonly zero: Contexts;
+  readonly sign: Contexts;
+  readonly unary: Contexts;
+  readonly egPrefix: Contexts;
+  readonly egBits: Contexts;
   constructor(readonly classes: number) {
-    this.zero = models(classes);
-    this.sign = models(3 * classes);
-    this.unary = models(classes * UNARY);
-    this.egPrefix = models(EG_BITS);
-    this.egBits = models(EG_BITS);
+    this.zero = contexts(classes);
+    this.sign = contexts(3 * classes);
+    this.unary = contexts(classes * UNARY);
+    this.egPrefix = contexts(EG_BITS);
+    this.egBits = contexts(EG_BITS);
   }
 }
 
 /** Encode a signed integer with context class `cls` and previous sign `prevSign` (−1, 0, 1). */
 export function encodeInt(enc: RangeEncoder, m: IntModel, v: number, cls: number, prevSign: number): void {
   if (v === 0) {
-    enc.encodeBit(m.zero[cls], 0);
+    enc.bit(m.zero, cls, 0);
     return;
   }
-  enc.encodeBit(m.zero[cls], 1);
-  enc.encodeBit(m.sign[cls * 3 + prevSign + 1], v < 0 ? 1 : 0);
+  enc.bit(m.zero, cls, 1);
+  enc.bit(m.sign, cls * 3 + prevSign + 1, v < 0 ? 1 : 0);
   encodeMagnitude(enc, m, Math.abs(v) - 1, cls);
 }
 
 export function decodeInt(dec: RangeDecoder, m: IntModel, cls: number, prevSign: number): number {
-  if (!dec.decodeBit(m.zero[cls])) return 0;
-  const neg = dec.decodeBit(m.sign[cls * 3 + prevSign + 1]);
+  if (!dec.bit(m.zero, cls)) return 0;
+  const neg = dec.bit(m.sign, cls * 3 + prevSign + 1);
   const mag = decodeMagnitude(dec, m, cls) + 1;
   return neg ? -mag : mag;
 }
@@ -229,35 +305,35 @@ export function decodeInt(dec: RangeDecoder, m: IntModel, cls: number, prevSign:
 export function encodeMagnitude(enc: RangeEncoder, m: IntModel, a: number, cls: number): void {
   if (!(a >= 0 && a < MAX_MAGNITUDE)) throw new RangeError(`integer ${a} outside the coder's range`);
   const base = cls * UNARY;
-  for (let i = 0; i < UNARY; i++) {
-    if (a === i) {
-      enc.encodeBit(m.unary[base + i], 0);
-      return;
-    }
-    enc.encodeBit(m.unary[base + i], 1);
+  const u = m.unary;
+  const stop = a < UNARY ? a : UNARY;
+  for (let i = 0; i < stop; i++) enc.bit(u, base + i, 1);
+  if (a < UNARY) {
+    enc.bit(u, base + a, 0);
+    return;
   }
   const r = a - UNARY + 1; // ≥ 1
   const nbits = 31 - Math.clz32(r);
-  for (let i = 0; i < nbits; i++) enc.encodeBit(m.egPrefix[i], 1);
-  enc.encodeBit(m.egPrefix[nbits], 0);
+  for (let i = 0; i < nbits; i++) enc.bit(m.egPrefix, i, 1);
+  enc.bit(m.egPrefix, nbits, 0);
   for (let i = nbits - 1; i >= 0; i--) {
     const bit = (r >>> i) & 1;
-    if (i === nbits - 1) enc.encodeBit(m.egBits[nbits], bit);
+    if (i === nbits - 1) enc.bit(m.egBits, nbits, bit);
     else enc.encodeDirect(bit);
   }
 }
 
 export function decodeMagnitude(dec: RangeDecoder, m: IntModel, cls: number): number {
   const base = cls * UNARY;
-  for (let i = 0; i < UNARY; i++) if (!dec.decodeBit(m.unary[base + i])) return i;
+  for (let i = 0; i < UNARY; i++) if (!dec.bit(m.unary, base + i)) return i;
   let nbits = 0;
-  while (dec.decodeBit(m.egPrefix[nbits])) {
+  while (dec.bit(m.egPrefix, nbits)) {
     nbits++;
     if (nbits >= 30) throw new RangeError('corrupt integer code (Exp-Golomb prefix too long)');
   }
   let r = 1;
   for (let i = nbits - 1; i >= 0; i--) {
-    const bit = i === nbits - 1 ? dec.decodeBit(m.egBits[nbits]) : dec.decodeDirect();
+    const bit = i === nbits - 1 ? dec.bit(m.egBits, nbits) : dec.decodeDirect();
     r = r * 2 + bit;
   }
   return r + UNARY - 1;

@@ -91,6 +91,17 @@ function checkStep(step: number): void {
 }
 
 /**
+ * The largest magnitude t such that every |c| ≤ t quantises to 0 at step d with rounding offset ρ: the
+ * quantiser's ⌊|c|/d + ρ⌋ is built from correctly rounded operations, so it never decreases as |c| grows, and
+ * one check at t covers every smaller magnitude. Lets the quantiser skip the division for the (many) zeros.
+ */
+function zeroThreshold(d: number, rho: number): number {
+  let t = (1 - rho) * d;
+  while (t > 0 && Math.floor(t / d + rho) !== 0) t *= 1 - 2 ** -40;
+  return t;
+}
+
+/**
  * Dead-zone quantisation of an analysed plane at pixel-domain step `step`, band by band (each band's
  * rectangle in raster order, so no per-coefficient band lookup): q = sign(c)·⌊|c|/Δ_b + ρ⌋.
  */
@@ -101,11 +112,15 @@ function quantise(a: AnalysedPlane, steps: Float64Array, q: Int32Array): number 
     const b = bands[bi];
     const rho = b.orient === 0 ? 0.5 : DEAD_ZONE_RHO;
     const d = steps[bi];
+    const zero = zeroThreshold(d, rho);
     for (let y = 0; y < b.h; y++) {
       const row = (b.y0 + y) * width + b.x0;
-      for (let i = row; i < row + b.w; i++) {
+      const end = row + b.w;
+      for (let i = row; i < end; i++) {
         const c = x[i];
-        const m = Math.floor((c < 0 ? -c : c) / d + rho);
+        const ac = c < 0 ? -c : c;
+        if (ac <= zero) continue;
+        const m = Math.floor(ac / d + rho);
         if (m) {
           q[i] = c < 0 ? -m : m;
           nonZero++;
@@ -125,7 +140,7 @@ export function quantiseAnalysed(a: AnalysedPlane, step: number): Omit<CodedCoef
   const steps = bandSteps(a.bands, step);
   const q = new Int32Array(a.coeffs.length);
   const nonZero = quantise(a, steps, q);
-  const offsets = reconstructionOffsetsV2(q, a.coeffs, steps, a.map, a.bands.length);
+  const offsets = reconstructionOffsetsV2(q, a.coeffs, steps, a.width, a.bands);
   return { q, steps, nonZero, offsets };
 }
 
@@ -136,9 +151,20 @@ export function quantiseAnalysed(a: AnalysedPlane, step: number): Omit<CodedCoef
  */
 export function smallestSafeStep(a: AnalysedPlane): number {
   const unit = bandSteps(a.bands, 1);
+  const { bands, width, coeffs } = a;
+  // Division by a positive step is monotone, so each band's largest |c|/Δ is its largest |c| over Δ.
   let worst = 0;
-  for (let i = 0; i < a.coeffs.length; i++) {
-    const m = Math.abs(a.coeffs[i]) / unit[a.map[i]];
+  for (let bi = 0; bi < bands.length; bi++) {
+    const b = bands[bi];
+    let top = 0;
+    for (let y = 0; y < b.h; y++) {
+      const row = (b.y0 + y) * width + b.x0;
+      for (let i = row; i < row + b.w; i++) {
+        const c = Math.abs(coeffs[i]);
+        if (c > top) top = c;
+      }
+    }
+    const m = top / unit[bi];
     if (m > worst) worst = m;
   }
   return worst / 2 ** 28;
@@ -147,14 +173,14 @@ export function smallestSafeStep(a: AnalysedPlane): number {
 /** Quantise and range-code an analysed plane at pixel-domain step `step` (> 0) with coder `coder`. */
 export function codeAnalysed(a: AnalysedPlane, step: number, coder: PlaneCoder = 1): CodedCoefficients {
   checkStep(step);
-  const { width, bands, map, coeffs: x } = a;
+  const { width, bands, coeffs: x } = a;
   const steps = bandSteps(bands, step);
   const q = new Int32Array(x.length);
   const nonZero = quantise(a, steps, q);
   const coded: CodedCoefficients =
     coder === 1
       ? { bytes: encodeCoefficientsV1(q, width, bands), q, steps, nonZero }
-      : { ...encodeCoefficientsV2(q, x, steps, width, bands, map), q, steps, nonZero };
+      : { ...encodeCoefficientsV2(q, x, steps, width, bands), q, steps, nonZero };
   rememberCode({ bytes: coded.bytes, width, height: a.height, step, coder, coded });
   return coded;
 }
@@ -205,7 +231,7 @@ export function decodePlane(
     decodeCoefficientsV1(bytes, q, width, bands);
     return dequantise({ q, steps }, width, height, levels, bands);
   }
-  const offsets = decodeCoefficientsV2(bytes, q, width, bands, bandIndexMap(width, height, bands));
+  const offsets = decodeCoefficientsV2(bytes, q, width, bands);
   return dequantise({ q, steps, offsets }, width, height, levels, bands);
 }
 
