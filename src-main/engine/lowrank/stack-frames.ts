@@ -12,8 +12,8 @@ import {
   type PreparedStack,
   type StackInput,
 } from '../codec/stack-header';
-import { framePsnrOf, frameSsimOf } from '../codec/stack-quality';
-import { analysePlane } from '../codec/wavelet-plane';
+import { measureFrames } from '../codec/stack-quality';
+import { forwardWavelet, levelsFor } from '../codec/wavelet-transform';
 import { rgbToYcbcr, toSamples, ycbcrToRgb } from '../colour';
 import { eigenFrameOf, frameModeSvd } from '../stack/frame-svd';
 
@@ -36,34 +36,36 @@ function codedPlanesOf(input: StackInput, j: number): Float64Array[] {
 /**
  * The wavelet coefficients of the coded planes of each frame `frames` yields, into `out[c][j]` (n values
  * each): the per-frame part of the stack analysis (../codec/stack-analysis), which threads can share.
+ * Each plane is copied into its output and transformed there: the arithmetic of `analysePlane`
+ * (../codec/wavelet-plane), without its per-call band map.
  */
 export function transformFrames(input: StackInput, frames: Iterable<number>, out: Float64Array[][]): void {
   const { width, height } = input;
-  for (const j of frames)
-    codedPlanesOf(input, j).forEach((p, c) => {
-      out[c][j].set(analysePlane(p, width, height).coeffs);
+  const levels = levelsFor(width, height);
+  for (const j of frames) {
+    const gray = input.channels === 1 ? input.frames[j].planes[0] : undefined;
+    const planes = gray instanceof Float32Array ? [gray] : codedPlanesOf(input, j);
+    planes.forEach((p, c) => {
+      const x = out[c][j];
+      x.set(p);
+      forwardWavelet(x, width, height, levels);
     });
+  }
 }
 
 /**
- * PSNR (dB) and, when `withSsim`, SSIM of each frame `frames` yields, decoded from the stack file `bytes`
- * by the reader (so exactly as `expand` rebuilds it) and measured against the source frame; written to
- * `psnr[j]` and `ssim[j]`. Threads can share a series by sharing the frame counter behind `frames`.
+ * PSNR (dB) and, when `withSsim`, SSIM of each frame `frames` yields (the others NaN), decoded from the stack
+ * file `bytes` by the reader (so exactly as `expand` rebuilds it) and measured against the source frame.
+ * Threads can share a series by sharing the frame counter behind `frames`.
  */
 export function measureStackFile(
   bytes: Uint8Array,
   input: StackInput,
   frames: Iterable<number>,
   withSsim: boolean,
-  psnr: Float64Array,
-  ssim: Float64Array,
-): void {
+): { psnr: number[]; ssim: number[] } {
   const reader = openStack(bytes, 'stack');
-  for (const j of frames) {
-    const d = reader.frame(j);
-    psnr[j] = framePsnrOf(input, j, d);
-    if (withSsim) ssim[j] = frameSsimOf(input, j, d);
-  }
+  return measureFrames(input, (j) => reader.frame(j), withSsim, frames);
 }
 
 /**

@@ -14,6 +14,7 @@ import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import { type ErrorPayload, fromErrorPayload, RankfoldError } from '../../contract';
 import type { StackInput } from '../../engine/codec/stack-header';
+import { measureFrames } from '../../engine/codec/stack-quality';
 import { measureStackFile, transformFrames } from '../../engine/lowrank/stack-frames';
 
 /** What the stack worker is sent: the series (Float32 planes in shared memory) and one job. */
@@ -39,23 +40,30 @@ export function* claimFrames(counter: Int32Array, count: number): Generator<numb
   for (let j = Atomics.add(counter, 0, 1); j < count; j = Atomics.add(counter, 0, 1)) yield j;
 }
 
-/** Run one job's share on this thread (the worker's entry calls this too). */
-export function runShare(t: StackThreadJob): void {
+/**
+ * Run one job's share on this thread (the worker's entry calls this too). `frameOf`: decoded frames already
+ * at hand (the encoder's, bit-identical to the reader's), used instead of decoding the file again.
+ */
+export function runShare(t: StackThreadJob, frameOf?: (j: number) => Float32Array[]): void {
   const frames = claimFrames(new Int32Array(t.counter), t.input.frames.length);
-  if (t.job.kind === 'transform')
+  if (t.job.kind === 'measure') {
+    const { bytes, withSsim } = t.job;
+    const m = frameOf
+      ? measureFrames(t.input, frameOf, withSsim, frames)
+      : measureStackFile(bytes, t.input, frames, withSsim);
+    // Only this thread's frames are filled in (the others are NaN here).
+    const psnr = new Float64Array(t.job.psnr);
+    const ssim = new Float64Array(t.job.ssim);
+    m.psnr.forEach((v, j) => {
+      if (Number.isNaN(v)) return;
+      psnr[j] = v;
+      if (withSsim) ssim[j] = m.ssim[j];
+    });
+  } else if (t.job.kind === 'transform')
     transformFrames(
       t.input,
       frames,
       t.job.out.map((ch) => ch.map((b) => new Float64Array(b))),
-    );
-  else
-    measureStackFile(
-      t.job.bytes,
-      t.input,
-      frames,
-      t.job.withSsim,
-      new Float64Array(t.job.psnr),
-      new Float64Array(t.job.ssim),
     );
 }
 
@@ -120,7 +128,7 @@ export class StackThreads {
     return this.worker ? 2 : 1;
   }
 
-  private async run(job: StackThreadJob['job']): Promise<void> {
+  private async run(job: StackThreadJob['job'], frameOf?: (j: number) => Float32Array[]): Promise<void> {
     const t: StackThreadJob = { input: this.input, counter: new SharedArrayBuffer(4), job };
     const w = this.worker;
     // The worker keeps the process alive only while it has a job.
@@ -144,7 +152,7 @@ export class StackThreads {
     // A throw here still waits for the worker, which writes into the same shared planes.
     let failure: unknown;
     try {
-      runShare(t);
+      runShare(t, frameOf);
     } catch (err) {
       failure = err;
     }
@@ -163,12 +171,19 @@ export class StackThreads {
     return out.map((ch) => ch.map((b) => new Float64Array(b)));
   }
 
-  /** PSNR (and SSIM when `withSsim`) of every frame of the stack file `bytes`, as decoded by the reader. */
-  async measure(bytes: Uint8Array, withSsim: boolean): Promise<{ psnr: number[]; ssim: number[] }> {
+  /**
+   * PSNR (and SSIM when `withSsim`) of every frame of the stack file `bytes`: this thread measures the
+   * frames `frameOf` rebuilds (the encoder's, no second decode), the worker those the reader decodes.
+   */
+  async measure(
+    bytes: Uint8Array,
+    withSsim: boolean,
+    frameOf: (j: number) => Float32Array[],
+  ): Promise<{ psnr: number[]; ssim: number[] }> {
     const N = this.input.frames.length;
     const psnr = new SharedArrayBuffer(8 * N);
     const ssim = new SharedArrayBuffer(8 * N);
-    await this.run({ kind: 'measure', bytes, withSsim, psnr, ssim });
+    await this.run({ kind: 'measure', bytes, withSsim, psnr, ssim }, frameOf);
     return {
       psnr: Array.from(new Float64Array(psnr)),
       ssim: withSsim ? Array.from(new Float64Array(ssim)) : [],

@@ -243,7 +243,7 @@ export async function compressStackFile(
     const t2 = performance.now();
     let fit = fitted(prep, target, hooks, true);
     if (!fit.psnr.length) {
-      const q = await threads.measure(fit.encoded.bytes, true);
+      const q = await threads.measure(fit.encoded.bytes, true, fit.encoded.frameOf());
       fit = withFrameQuality(fit, q.psnr, q.ssim);
     }
     const names = { input: source, output, inputBytes: loaded.inputBytes, decodeMs };
