@@ -47,7 +47,7 @@ import {
   type StackParams,
 } from './stack-header';
 import { DEFAULT_CALIBRATION, planAt } from './stack-plan';
-import { framePsnrOf, frameSsimOf } from './stack-quality';
+import { framePsnrOf } from './stack-quality';
 import { decodePlane } from './wavelet-plane';
 
 /** Decode UTF-8 (RFC 3629); malformed sequences become U+FFFD. */
@@ -211,9 +211,4 @@ export function openStackPlanes(bytes: Uint8Array, file: string): StackPlaneRead
 /** Per-frame PSNR (dB, pooled over channels) of decoded frames against the input. */
 export function framePsnr(input: StackInput, decoded: Float32Array[][]): number[] {
   return input.frames.map((_, j) => framePsnrOf(input, j, decoded[j]));
-}
-
-/** Per-frame SSIM (Wang et al. 2004 via the metrics module; mean over channels) of decoded frames. */
-export function frameSsim(input: StackInput, decoded: Float32Array[][]): number[] {
-  return input.frames.map((_, j) => frameSsimOf(input, j, decoded[j]));
 }

@@ -90,7 +90,7 @@ export function framePsnrOf(input: StackInput, j: number, decoded: Float32Array[
 }
 
 /** SSIM (Wang et al. 2004 via the metrics module; mean over channels) of one decoded frame, NaN below 11×11. */
-export function frameSsimOf(input: StackInput, j: number, decoded: Float32Array[]): number {
+function frameSsimOf(input: StackInput, j: number, decoded: Float32Array[]): number {
   const max = input.bitDepth === 16 ? 65535 : 255;
   if (input.width < 11 || input.height < 11) return Number.NaN;
   const f = input.frames[j];

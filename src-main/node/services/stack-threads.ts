@@ -36,7 +36,7 @@ export interface StackThreadJob {
 export type StackThreadReply = { ok: true } | { ok: false; error: ErrorPayload };
 
 /** Frames taken one at a time from a shared counter. */
-export function* claimFrames(counter: Int32Array, count: number): Generator<number> {
+function* claimFrames(counter: Int32Array, count: number): Generator<number> {
   for (let j = Atomics.add(counter, 0, 1); j < count; j = Atomics.add(counter, 0, 1)) yield j;
 }
 
