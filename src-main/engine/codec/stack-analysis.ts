@@ -106,7 +106,8 @@ export function asAnalysed(g: StackGeometry, coeffs: Float64Array): AnalysedPlan
 /**
  * Transform every frame of every coded channel once.
  * @param coded - [channel][frame] planes; `svd` the frame-mode SVD of each channel; `maxRank` the most
- * eigen-frames any encode may use.
+ * eigen-frames any encode may use; `transformed` the frames' coefficients when already computed
+ * ([channel][frame], each `analysePlane(coded[c][j]).coeffs`, e.g. by other threads).
  */
 export function analyseStack(
   coded: Float64Array[][],
@@ -114,12 +115,13 @@ export function analyseStack(
   width: number,
   height: number,
   maxRank: number,
+  transformed?: Float64Array[][],
 ): StackAnalysis {
   const ones = analysePlane(new Float64Array(width * height).fill(1), width, height);
   const geometry = geometryOf(ones);
   const channels = coded.map((planes, c): ChannelAnalysis => {
     const N = planes.length;
-    const frames = planes.map((p) => analysePlane(p, width, height).coeffs);
+    const frames = transformed?.[c] ?? planes.map((p) => analysePlane(p, width, height).coeffs);
     const n = width * height;
     const mean = new Float64Array(n);
     for (const f of frames) for (let p = 0; p < n; p++) mean[p] += f[p];

@@ -14,10 +14,11 @@
  * Floors: a bracketing + false-position search on log Δ over real encodes (each encode's eigen-frame counts
  * chosen by the planner at its step), as PSNR and SSIM are measured on the decoded frames.
  */
-import { encodeStack, framePsnr, frameSsim } from './stack-codec';
+import { encodeStack } from './stack-codec';
 import { assemble, encodePlanned, fixedBytesFor, paying } from './stack-encode';
 import { type EncodedStack, type PreparedStack, recordFrameQuality } from './stack-header';
 import { DEFAULT_CALIBRATION, type PlanOptions, planAt, type StackPlan, solveStep } from './stack-plan';
+import { measureFrames } from './stack-quality';
 
 export interface StackTarget {
   /** Largest file in bytes (container included). */
@@ -70,12 +71,16 @@ export class StackTargetError extends Error {
 /**
  * Fit a prepared series to a target.
  * @param onProgress - called with a fraction in [0, 1] after each encode.
+ * @param fitOptions.deferQuality - when no floor needs them, leave the final file's PSNR and SSIM unmeasured
+ * (`psnr` and `ssim` empty, SQAL not recorded) for the caller to measure, e.g. on several threads, and
+ * record with {@link withFrameQuality}.
  * @throws StackTargetError when the target cannot be met (message says by how much).
  */
 export function fitStack(
   prep: PreparedStack,
   target: StackTarget,
   onProgress?: (f: number) => void,
+  fitOptions: { deferQuality?: boolean } = {},
 ): StackFit {
   const scale = prep.input.bitDepth === 16 ? 257 : 1;
   let evaluations = 0;
@@ -86,15 +91,15 @@ export function fitStack(
     onProgress?.(Math.min(1, evaluations / total));
     return { encoded, psnr: [], ssim: [], evaluations };
   };
-  const measured = (f: StackFit): StackFit => {
-    const psnr = framePsnr(prep.input, f.encoded.decoded);
-    const ssim = target.minSsim !== undefined ? frameSsim(prep.input, f.encoded.decoded) : [];
-    return { ...f, psnr, ssim };
-  };
+  /** PSNR of every frame, SSIM too when a floor needs it or `final` (the report's figures). */
+  const measured = (f: StackFit, final = false): StackFit =>
+    final && fitOptions.deferQuality
+      ? f
+      : { ...f, ...measureFrames(prep.input, f.encoded.frameOf(), final || target.minSsim !== undefined) };
   if (!floors && target.maxBytes === undefined) {
     const rank = target.rank ?? Math.min(prep.eigen[0].length, 8);
     const residuals = target.residuals ?? target.rank === undefined;
-    return finish(measured(done(encodeStack(prep, { step: RANK_ONLY_STEP * scale, rank, residuals }))));
+    return finish(measured(done(encodeStack(prep, { step: RANK_ONLY_STEP * scale, rank, residuals })), true));
   }
   const residuals = target.residuals ?? true;
   const options: PlanOptions = {
@@ -105,7 +110,7 @@ export function fitStack(
   };
   if (!floors) {
     const fit = fitBytes(prep, target.maxBytes as number, options, scale, done);
-    return finish(measured(fit));
+    return finish(measured(fit, true));
   }
   /** Real encode at step Δ, the eigen-frame counts and residual trials planned there. */
   const evaluate = (step: number): StackFit => {
@@ -168,9 +173,15 @@ export function fitStack(
   return finish(best);
 
   function finish(f: StackFit): StackFit {
-    const ssim = f.ssim.length ? f.ssim : frameSsim(prep.input, f.encoded.decoded);
-    return { ...f, encoded: recordFrameQuality(f.encoded, f.psnr, ssim), ssim, evaluations };
+    if (!f.psnr.length) return { ...f, evaluations }; // deferred: see withFrameQuality
+    const ssim = f.ssim.length ? f.ssim : measureFrames(prep.input, f.encoded.frameOf(), true).ssim;
+    return withFrameQuality({ ...f, evaluations }, f.psnr, ssim);
   }
+}
+
+/** A fit with its frames' PSNR and SSIM, recorded in the file (SQAL) without changing its size. */
+export function withFrameQuality(f: StackFit, psnr: number[], ssim: number[]): StackFit {
+  return { ...f, encoded: recordFrameQuality(f.encoded, psnr, ssim), psnr, ssim };
 }
 
 /** One real encode of a plan: its eigen-frame counts, and residuals tried where the model expects them to pay. */

@@ -29,7 +29,6 @@
  * transform to and from source samples is in lowrank/stack-frames.ts (PreparedStack.toSource).
  */
 import { FormatError } from '../../contract/errors';
-import { psnrFromMse, ssim } from '../metrics';
 import { rebuildFrame } from '../stack/frame-svd';
 import { decodeCompactHeader } from './compact-header';
 import { type ContainerView, readContainer, VERSION_MINOR_CODER2 } from './container';
@@ -48,6 +47,7 @@ import {
   type StackParams,
 } from './stack-header';
 import { DEFAULT_CALIBRATION, planAt } from './stack-plan';
+import { framePsnrOf } from './stack-quality';
 import { decodePlane } from './wavelet-plane';
 
 /** Decode UTF-8 (RFC 3629); malformed sequences become U+FFFD. */
@@ -68,15 +68,6 @@ function utf8Text(b: Uint8Array): string {
     out += String.fromCodePoint(cp);
   }
   return out;
-}
-
-function sse(a: ArrayLike<number>, b: ArrayLike<number>): number {
-  let s = 0;
-  for (let i = 0; i < a.length; i++) {
-    const d = a[i] - b[i];
-    s += d * d;
-  }
-  return s;
 }
 
 /**
@@ -219,22 +210,5 @@ export function openStackPlanes(bytes: Uint8Array, file: string): StackPlaneRead
 
 /** Per-frame PSNR (dB, pooled over channels) of decoded frames against the input. */
 export function framePsnr(input: StackInput, decoded: Float32Array[][]): number[] {
-  const max = input.bitDepth === 16 ? 65535 : 255;
-  return input.frames.map((f, j) => {
-    let s = 0;
-    for (let c = 0; c < f.planes.length; c++) s += sse(f.planes[c], decoded[j][c]);
-    return psnrFromMse(s / (f.planes.length * input.width * input.height), max);
-  });
-}
-
-/** Per-frame SSIM (Wang et al. 2004 via the metrics module; mean over channels) of decoded frames. */
-export function frameSsim(input: StackInput, decoded: Float32Array[][]): number[] {
-  const max = input.bitDepth === 16 ? 65535 : 255;
-  if (input.width < 11 || input.height < 11) return input.frames.map(() => Number.NaN);
-  return input.frames.map((f, j) => {
-    let s = 0;
-    for (let c = 0; c < f.planes.length; c++)
-      s += ssim(f.planes[c], decoded[j][c], input.width, input.height, max);
-    return s / f.planes.length;
-  });
+  return input.frames.map((_, j) => framePsnrOf(input, j, decoded[j]));
 }

@@ -11,7 +11,6 @@
  * rebuilds them) are formed only when asked for, so a trial that only needs bytes costs no inverse transform.
  */
 import { solveSpdRidge } from '../linalg';
-import { rebuildFrame } from '../stack/frame-svd';
 import { encodeCompactHeader } from './compact-header';
 import { type Chunk, writeContainer } from './container';
 import { asAnalysed, type ChannelAnalysis, type StackAnalysis } from './stack-analysis';
@@ -28,6 +27,7 @@ import {
   serialHeader,
 } from './stack-header';
 import { LAMBDA_PER_BYTE } from './stack-plan';
+import { frameRebuilder } from './stack-quality';
 import { type CodedCoefficients, codeAnalysed, reconstructCoded } from './wavelet-plane';
 
 /** What a real encode is asked for. */
@@ -296,38 +296,36 @@ export function assemble(prep: PreparedStack, coded: CodedStack, keep: boolean[]
   const bytes = writeContainer(chunks, STACK_CONTAINER_MINOR);
   split.container =
     bytes.length - split.header - split.mean - split.basis - split.coefficients - split.residuals;
-  let decoded: Float32Array[][] | undefined;
-  const rebuild = () => {
-    const planes = codes.map((code) => {
+  let frameOf: ((j: number) => Float32Array[]) | undefined;
+  const rebuilder = () => {
+    if (!frameOf) {
       const a = asAnalysed(g, new Float64Array(0));
-      const mean = reconstructCoded(a, code.mean);
-      const basis = code.basis.map((b) => reconstructCoded(a, b));
-      const m = basis.length + 1;
-      return { mean, basis, m, code, a };
-    });
-    return Array.from({ length: N }, (_, j) =>
-      prep.toSource(
-        planes.map(({ mean, basis, m, code, a }) => {
-          const row = code.coef.subarray(j * m, (j + 1) * m);
-          const rec = rebuildFrame(mean, row[0], basis, row.subarray(1));
-          const r = code.residuals[j];
-          if (r) {
-            const R = reconstructCoded(a, r);
-            for (let p = 0; p < rec.length; p++) rec[p] += R[p];
-          }
-          return rec;
-        }),
-      ),
-    );
+      frameOf = frameRebuilder(
+        prep,
+        codes.map((code) => ({
+          mean: reconstructCoded(a, code.mean),
+          basis: code.basis.map((b) => reconstructCoded(a, b)),
+          coef: code.coef,
+          residual: (j: number) => {
+            const r = code.residuals[j];
+            return r && reconstructCoded(a, r);
+          },
+        })),
+      );
+    }
+    return frameOf;
   };
+  let decoded: Float32Array[][] | undefined;
   return {
     bytes,
     header,
     split,
     chunks,
     coded,
+    frameOf: rebuilder,
     get decoded() {
-      decoded ??= rebuild();
+      const at = rebuilder();
+      decoded ??= Array.from({ length: N }, (_, j) => at(j).map((p) => p.slice()));
       return decoded;
     },
   };

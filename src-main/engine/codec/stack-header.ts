@@ -131,6 +131,11 @@ export interface EncodedStack {
   header: StackHeader;
   /** Decoded frames on the source scale (rounded, clamped): [frame][channel]; formed on first use. */
   readonly decoded: Float32Array[][];
+  /**
+   * Decoded frame j on demand, bit-identical to a reader's (./stack-quality); the planes' inverse
+   * transforms are taken on the first call. Gray frames come back in a reused buffer.
+   */
+  frameOf(): (j: number) => Float32Array[];
   split: StackByteSplit;
   /** The chunks of `bytes`, so the frame-quality chunk can be filled in without coding again. */
   chunks: Chunk[];
@@ -306,5 +311,16 @@ export function recordFrameQuality(e: EncodedStack, psnr: number[], ssim: number
     psnr: Number.isNaN(values[2 * j]) ? undefined : values[2 * j],
     ssim: Number.isNaN(values[2 * j + 1]) ? undefined : values[2 * j + 1],
   }));
-  return { ...e, bytes, chunks, header: { ...e.header, frameTable } };
+  // Not `...e`: spreading would evaluate `decoded` (every frame rebuilt) for nothing.
+  return {
+    bytes,
+    chunks,
+    header: { ...e.header, frameTable },
+    split: e.split,
+    coded: e.coded,
+    frameOf: e.frameOf,
+    get decoded() {
+      return e.decoded;
+    },
+  };
 }

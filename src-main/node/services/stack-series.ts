@@ -9,6 +9,8 @@ import { type DecodedImage, InputError, UsageError } from '../../contract';
 import type { StackInput } from '../../engine/codec/stack-header';
 import { decodeImage, probeImage } from '../image/decode';
 
+/** Frames decoded ahead of the one being checked. */
+const DECODE_AHEAD = 4;
 const IMAGE_EXT = new Set(['.png', '.tif', '.tiff', '.jpg', '.jpeg', '.webp']);
 /** Natural sort: "frame-2" before "frame-10" (Unicode collation with numeric ordering, ECMA-402). */
 const collator = new Intl.Collator('en', { numeric: true, sensitivity: 'base' });
@@ -138,8 +140,22 @@ export async function loadStack(
   const frames: StackFrame[] = [];
   let inputBytes = 0;
   const seenFiles = new Set<string>();
-  for (const s of sources) {
-    const img: DecodedImage = await decodeImage(s.file, { page: s.page, pixelLimit: options.pixelLimit });
+  // Up to DECODE_AHEAD frames decode at once (libvips runs them on its own threads while this thread
+  // converts the previous ones); results are taken, checked and reported strictly in frame order, so
+  // the first frame that fails or differs is the one named, as with one decode at a time.
+  const pending: Array<Promise<DecodedImage>> = [];
+  const start = (k: number) => {
+    if (k >= sources.length) return;
+    const s = sources[k];
+    const p = decodeImage(s.file, { page: s.page, pixelLimit: options.pixelLimit });
+    p.catch(() => {}); // handled when its turn comes
+    pending[k] = p;
+  };
+  for (let k = 0; k < DECODE_AHEAD; k++) start(k);
+  for (const [k, s] of sources.entries()) {
+    const img: DecodedImage = await pending[k];
+    delete pending[k];
+    start(k + DECODE_AHEAD);
     if (!seenFiles.has(s.file)) {
       inputBytes += img.inputBytes;
       seenFiles.add(s.file);

@@ -19,9 +19,15 @@ import {
   UsageError,
 } from '../../contract';
 import { readImageHeader } from '../../engine/codec/image-file';
-import { fitStack, type StackFit, type StackTarget, StackTargetError } from '../../engine/codec/stack-budget';
+import {
+  fitStack,
+  type StackFit,
+  type StackTarget,
+  StackTargetError,
+  withFrameQuality,
+} from '../../engine/codec/stack-budget';
 import { isStackContainer } from '../../engine/codec/stack-codec';
-import { MAX_STACK_RANK, type StackInput } from '../../engine/codec/stack-header';
+import { MAX_STACK_RANK, type PreparedStack, type StackInput } from '../../engine/codec/stack-header';
 import {
   decodeStackFrame as decodeFrameBytes,
   openStack,
@@ -31,6 +37,7 @@ import { encodeImage, formatFromPath } from '../image/encode';
 import { describeFileError } from '../image/open-file';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import { checkSeries, loadStack, type StackFrame } from './stack-series';
+import { StackThreads, stackThreads } from './stack-threads';
 
 function targetFrom(input: StackInput, o: StackCompressOptions): StackTarget {
   const raw = input.width * input.height * input.channels * input.frames.length * (input.bitDepth / 8);
@@ -111,36 +118,57 @@ export interface StackHooks {
   onProgress?(p: { stage: string; fraction: number }): void;
 }
 
+/** Prepare a series, or refuse it with a UsageError. */
+function prepared(input: StackInput, transformed?: Float64Array[][]) {
+  try {
+    return prepareStack(input, MAX_STACK_RANK, transformed);
+  } catch (err) {
+    throw new UsageError(`compress --stack: ${(err as Error).message}`);
+  }
+}
+
+/** Fit a prepared series to its target; a target that cannot be met is a UsageError. */
+function fitted(prep: PreparedStack, target: StackTarget, hooks: StackHooks, deferQuality = false): StackFit {
+  const onProgress = (f: number) => hooks.onProgress?.({ stage: 'encode', fraction: f });
+  try {
+    return fitStack(prep, target, onProgress, { deferQuality });
+  } catch (err) {
+    if (err instanceof StackTargetError) throw new UsageError(`compress --stack: ${err.message}`);
+    throw err;
+  }
+}
+
+type StackNames = { input?: string; output?: string; inputBytes?: number; decodeMs?: number };
+
 /**
- * Compress an in-memory series (the app's API). Returns the .rkf bytes and the report (input/output
- * names empty unless given).
+ * Compress an in-memory series (the app's API), on this thread. Returns the .rkf bytes and the report
+ * (input/output names empty unless given).
  * @throws InputError for mismatched frames, UsageError for a target that cannot be met.
  */
 export function compressStack(
   frames: StackFrame[],
   options: StackCompressOptions,
-  names: { input?: string; output?: string; inputBytes?: number; decodeMs?: number } = {},
+  names: StackNames = {},
   hooks: StackHooks = {},
 ): { bytes: Uint8Array; report: StackReport } {
   checkStackOptions(options);
   const input = checkSeries(frames);
   const target = targetFrom(input, options);
   const t0 = performance.now();
-  let prep: ReturnType<typeof prepareStack>;
-  try {
-    prep = prepareStack(input);
-  } catch (err) {
-    throw new UsageError(`compress --stack: ${(err as Error).message}`);
-  }
+  const prep = prepared(input);
   const t1 = performance.now();
-  let fit: StackFit;
-  try {
-    fit = fitStack(prep, target, (f) => hooks.onProgress?.({ stage: 'encode', fraction: f }));
-  } catch (err) {
-    if (err instanceof StackTargetError) throw new UsageError(`compress --stack: ${err.message}`);
-    throw err;
-  }
-  const t2 = performance.now();
+  const fit = fitted(prep, target, hooks);
+  return { bytes: fit.encoded.bytes, report: reportOf(input, fit, names, t1 - t0, performance.now() - t1) };
+}
+
+/** The report of a fitted series. */
+function reportOf(
+  input: StackInput,
+  fit: StackFit,
+  names: StackNames,
+  factorMs: number,
+  encodeMs: number,
+): StackReport {
   const e = fit.encoded;
   const N = input.frames.length;
   const raw = input.width * input.height * input.channels * N * (input.bitDepth / 8);
@@ -179,9 +207,9 @@ export function compressStack(
       ssim: fit.ssim[j],
       residual: e.header.frameTable[j].residual.some(Boolean),
     })),
-    timings: { decodeMs: names.decodeMs ?? 0, factorMs: t1 - t0, encodeMs: t2 - t1 },
+    timings: { decodeMs: names.decodeMs ?? 0, factorMs, encodeMs },
   };
-  return { bytes: e.bytes, report };
+  return report;
 }
 
 /** Decode frame `i` of an in-memory stack file (the app's frame slider). @throws FormatError. */
@@ -200,20 +228,31 @@ export async function compressStackFile(
   hooks: StackHooks = {},
 ): Promise<StackReport> {
   await assertWritable(output, options.force);
-  const t0 = performance.now();
-  const { frames, inputBytes } = await loadStack(source, {
-    frames: options.frames,
-    pixelLimit: options.pixelLimit,
-  });
-  const decodeMs = performance.now() - t0;
-  const { bytes, report } = compressStack(
-    frames,
-    options,
-    { input: source, output, inputBytes, decodeMs },
-    hooks,
-  );
-  await writeFileAtomic(output, bytes, { force: options.force });
-  return report;
+  // The worker starts loading while the frames decode.
+  const threads = StackThreads.start(stackThreads());
+  try {
+    const t0 = performance.now();
+    const loaded = await loadStack(source, { frames: options.frames, pixelLimit: options.pixelLimit });
+    const decodeMs = performance.now() - t0;
+    checkStackOptions(options);
+    const input = threads.share(checkSeries(loaded.frames));
+    const target = targetFrom(input, options);
+    const t1 = performance.now();
+    // The frames' wavelet transforms on both threads, then the frame-mode SVD and the rate control here.
+    const prep = prepared(input, await threads.transform());
+    const t2 = performance.now();
+    let fit = fitted(prep, target, hooks, true);
+    if (!fit.psnr.length) {
+      const q = await threads.measure(fit.encoded.bytes, true, fit.encoded.frameOf());
+      fit = withFrameQuality(fit, q.psnr, q.ssim);
+    }
+    const names = { input: source, output, inputBytes: loaded.inputBytes, decodeMs };
+    const report = reportOf(input, fit, names, t2 - t1, performance.now() - t2);
+    await writeFileAtomic(output, fit.encoded.bytes, { force: options.force });
+    return report;
+  } finally {
+    await threads.close();
+  }
 }
 
 async function readStackFile(file: string) {
