@@ -158,13 +158,30 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   const crop = cropPlanes(planes, width, height, cw, ch);
   const cropAnalysed = crop.map((p) => analysePlane(p, cw, ch));
   const scales = stepScales(weights);
+  const startBase = (bytes: number) =>
+    (inp.side ?? runHere)('crop-base-sse', {
+      crop,
+      width: cw,
+      height: ch,
+      weights,
+      scales,
+      bytes,
+      maxValue,
+      tiles: [...CROP_TILES],
+    });
   let cropBytes: number;
   let waveletSse: number;
+  let baseJob: () => number;
   let ratio = 0.8;
   if (byteBudget !== undefined) {
     cropBytes = (byteBudget * cw * ch) / (width * height);
+    // The bytes are known at once: the base estimate starts first (on the side thread, when there is one).
+    baseJob = startBase(cropBytes);
     const { fit, ratio: r } = fitResidual(cropAnalysed, weights, scales, cropBytes, ratio, cancel);
-    if (!fit) return undefined;
+    if (!fit) {
+      baseJob();
+      return undefined;
+    }
     ratio = r;
     waveletSse = fit.sse;
   } else {
@@ -174,18 +191,9 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
     const c = codeAll(cropAnalysed, weights, stepForError(cropAnalysed, weights, target));
     cropBytes = c.size;
     waveletSse = c.sse;
+    baseJob = startBase(cropBytes);
   }
   cancel();
-  const baseJob = (inp.side ?? runHere)('crop-base-sse', {
-    crop,
-    width: cw,
-    height: ch,
-    weights,
-    scales,
-    bytes: cropBytes,
-    maxValue,
-    tiles: [...CROP_TILES],
-  });
   // With a second thread the whole planes are transformed meanwhile (wasted only when the base may pay).
   const early = inp.side ? planes.map((p) => analysePlane(p, width, height)) : undefined;
   const baseSse = baseJob();

@@ -4,10 +4,14 @@
  * posts the answer and then marks the claim word, so the caller waiting on it finds the answer on its port.
  */
 import { type MessagePort, parentPort, workerData } from 'node:worker_threads';
+import { initEngine } from '../../engine/linalg';
 import { SIDE_JOBS, type SideJobName } from '../../engine/lowrank/side-jobs';
 import { CLAIM, type SideAnswer, type SideMessage } from '../parallel/side-thread';
 
 const port = (workerData as { port: MessagePort }).port;
+// The calling thread's engine runs its WebAssembly kernels (services/compress awaits initEngine): so must this
+// one, for the same results. Jobs offered before then wait in the port (or are taken back by the caller).
+await initEngine();
 port.on('message', (m: SideMessage) => {
   if (Atomics.compareExchange(m.claim, 0, CLAIM.offered, CLAIM.taken) !== CLAIM.offered) return;
   let answer: SideAnswer;
