@@ -4,7 +4,7 @@
  * tie order (so the groups do not depend on how the image is split into bands).
  */
 /** Reference positions along one axis: 0, stride, 2·stride, … and always the last valid one. */
-export function referenceGrid(length: number, patch: number, stride: number): Int32Array {
+function referenceGrid(length: number, patch: number, stride: number): Int32Array {
   const last = length - patch;
   if (last < 0) return new Int32Array(0);
   const out: number[] = [];
