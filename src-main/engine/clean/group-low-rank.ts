@@ -37,6 +37,11 @@ export interface GroupParams {
   rank?: number;
   /** Fixed singular-value threshold per group (grey levels) instead of the Gavish–Donoho threshold. */
   threshold?: number;
+  /**
+   * Second pass (wiener-groups.ts): group size, reference stride and search radius of the Wiener pass on
+   * the first-pass estimate; absent: one pass only.
+   */
+  wiener?: { groupSize: number; stride: number; searchRadius: number };
 }
 
 /**

@@ -6,6 +6,7 @@ export { runningMedian } from './medians';
 export { estimateNoiseSigma, MAD_TO_SIGMA } from './noise-estimate';
 export {
   autoGroupParams,
+  denoiseBand,
   denoiseGroupsBand,
   type GroupParams,
 } from './patch-groups';

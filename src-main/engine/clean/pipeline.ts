@@ -20,7 +20,7 @@ import { estimateNoiseSigma } from './noise-estimate';
 import { planNoiseModel } from './noise-model';
 import {
   autoGroupParams,
-  denoiseGroupsBand,
+  denoiseBand,
   type GroupParams,
   type GroupStats,
   groupMedianRuleSigma,
@@ -212,6 +212,8 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     groupSize: settings.groupSize ?? auto.groupSize,
     rank: settings.rank,
     threshold: settings.threshold,
+    // A fixed rank or threshold is a request about the low-rank pass alone: the Wiener pass is left out.
+    wiener: fixedOverride ? undefined : auto.wiener && { ...auto.wiener, stride: patch },
   };
   return { ...common, params, tile: null };
 }
@@ -250,7 +252,7 @@ export function denoiseInProcess(
   const stats: GroupStats[] = [];
   const list = rowBands(height, bands);
   list.forEach(([r0, r1], b) => {
-    const res = denoiseGroupsBand(planes, width, height, sigmas, params, r0, r1, planes[0], (f) =>
+    const res = denoiseBand({ planes, width, height, sigmas, params, rowStart: r0, rowEnd: r1 }, (f) =>
       onProgress?.((b + f) / list.length),
     );
     for (let c = 0; c < res.planes.length; c++) out[c].set(res.planes[c], r0 * width);

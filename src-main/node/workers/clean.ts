@@ -6,29 +6,20 @@
  */
 import { parentPort, workerData } from 'node:worker_threads';
 import { toErrorPayload } from '../../contract';
-import { denoiseGroupsBand } from '../../engine/clean';
+import { denoiseBand } from '../../engine/clean';
 import type { CleanWorkerData, CleanWorkerMessage } from '../services/clean-bands';
 
 const data = workerData as CleanWorkerData;
 try {
   const planes = data.input.map((b) => new Float32Array(b));
   let last = 0;
-  const res = denoiseGroupsBand(
-    planes,
-    data.width,
-    data.height,
-    data.sigmas,
-    data.params,
-    data.rowStart,
-    data.rowEnd,
-    planes[0],
-    (f) => {
-      if (f - last >= 0.02 || f >= 1) {
-        last = f;
-        parentPort?.postMessage({ type: 'progress', fraction: f } satisfies CleanWorkerMessage);
-      }
-    },
-  );
+  const { width, height, sigmas, params, rowStart, rowEnd } = data;
+  const res = denoiseBand({ planes, width, height, sigmas, params, rowStart, rowEnd }, (f) => {
+    if (f - last >= 0.02 || f >= 1) {
+      last = f;
+      parentPort?.postMessage({ type: 'progress', fraction: f } satisfies CleanWorkerMessage);
+    }
+  });
   for (let c = 0; c < res.planes.length; c++)
     new Float32Array(data.output[c]).set(res.planes[c], data.rowStart * data.width);
   parentPort?.postMessage({ type: 'done', stats: res.stats } satisfies CleanWorkerMessage);
