@@ -252,7 +252,7 @@ export class SpectrumCharts {
     this.sigmaPlot = new uPlot(
       {
         ...this.size(this.sigmaHost),
-        title: 'Frame-mode singular values σᵢ (eigen-frames) and cumulative energy',
+        title: 'Frame-mode singular values',
         scales: { x: { time: false }, s: { distr: 3 }, e: { range: [0, 100] } },
         axes: [
           axis({ label: 'eigen-frame i' }),
@@ -268,7 +268,7 @@ export class SpectrumCharts {
             width: 1.5,
           })),
           {
-            label: `cumulative energy % (${spectrum[0]?.channel ?? ''})`,
+            label: `energy kept, % (${spectrum[0]?.channel ?? ''})`,
             scale: 'e',
             stroke: '#8a6d1f',
             width: 1.5,
