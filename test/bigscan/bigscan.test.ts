@@ -21,6 +21,7 @@ import { decodeSamples } from '../../src-main/node/image/raw-decode';
 import { COMPRESSORS, compressFile } from '../../src-main/node/services/compress';
 import { expandFile } from '../../src-main/node/services/expand';
 import { inspectScan } from '../../src-main/node/services/inspect';
+import { lcg } from '../helpers/lcg';
 
 const IMAGES = join(__dirname, '../fixtures/images');
 let dir: string;
@@ -197,15 +198,6 @@ describe('a blank scan above the tiled threshold', () => {
     expect(back.sourceSha256).toBe(report.sourceSha256);
   }, 120_000);
 });
-
-/** Deterministic pseudo-random numbers in [0, 1) (a 32-bit LCG; enough for test data). */
-function lcg(seed: number): () => number {
-  let x = seed >>> 0;
-  return () => {
-    x = (Math.imul(x, 1664525) + 1013904223) >>> 0;
-    return x / 2 ** 32;
-  };
-}
 
 describe('streamed metrics (bands of rows) equal the whole-plane ones', () => {
   it('SseStream and SsimStream give sse and ssim bit for bit, whatever the band heights', () => {

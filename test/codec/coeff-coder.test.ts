@@ -12,14 +12,7 @@ import {
   encodePlane,
   reconstructCoded,
 } from '../../src-main/engine/codec/wavelet-plane';
-
-function lcg(seed: number) {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return s / 2 ** 32;
-  };
-}
+import { lcg } from '../helpers/lcg';
 
 /** A scan-like plane: smooth shading, a few sharp edges (text-like strokes) and noise. */
 function plane(w: number, h: number, seed: number): Float64Array {

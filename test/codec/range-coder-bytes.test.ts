@@ -15,15 +15,7 @@ import {
   RangeDecoder,
   RangeEncoder,
 } from '../../src-main/engine/codec/range-coder';
-
-/** Numerical Recipes LCG (common practice), as in range-coder.test.ts. */
-function lcg(seed: number) {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return s / 2 ** 32;
-  };
-}
+import { lcg } from '../helpers/lcg';
 
 type Sym = { kind: 0 | 1 | 2 | 3; v: number; ctx: number };
 

@@ -9,14 +9,7 @@ import {
   RangeDecoder,
   RangeEncoder,
 } from '../../src-main/engine/codec/range-coder';
-
-function lcg(seed: number) {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return s / 2 ** 32;
-  };
-}
+import { lcg } from '../helpers/lcg';
 
 describe('range coder', () => {
   it('round-trips biased bits and comes within 4% of the Shannon bound', () => {

@@ -12,6 +12,7 @@ import {
   quantiseInterleave,
 } from '../../src-main/node/image/encode';
 import { type Orientation, toStored, toUpright } from '../../src-main/node/image/orientation';
+import { lcg } from '../helpers/lcg';
 
 // Independent readers used below: pngjs 7.0.0 (pure-JS PNG decoder, checks every chunk CRC) and
 // sharp 0.35 / libvips metadata() and rotate() (EXIF orientation per CIPA DC-008 tag 0x0112).
@@ -22,14 +23,6 @@ beforeAll(async () => {
 afterAll(async () => {
   await rm(dir, { recursive: true, force: true });
 });
-
-function lcg(seed: number) {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return s / 4294967296;
-  };
-}
 
 /** Planes with random samples including 0 and the maximum at fixed places. */
 function randomPlanes(w: number, h: number, ch: number, depth: 8 | 16, seed = 1): Float32Array[] {

@@ -7,14 +7,7 @@ import {
   hullBlocks,
   ranksOfPrefix,
 } from '../../src-main/engine/lowrank/allocate';
-
-function lcg(seed: number) {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return s / 2 ** 32;
-  };
-}
+import { lcg } from '../helpers/lcg';
 
 /** Best total gain over all rank vectors whose total cost ≤ budget (exhaustive). */
 function bruteForce(gains: number[][], costs: number[][], budget: number): number {

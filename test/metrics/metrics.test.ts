@@ -18,6 +18,7 @@ import {
 } from '../../src-main/engine/metrics';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { image, reference } from '../helpers/fixtures';
+import { lcg } from '../helpers/lcg';
 
 // ssim.js 3.5.0 (npm, obartra/ssim) — an independent JavaScript port of Wang et al.'s MATLAB ssim.m.
 const require = createRequire(import.meta.url);
@@ -129,15 +130,6 @@ function ssimDirect(x: ArrayLike<number>, y: ArrayLike<number>, W: number, H: nu
       count++;
     }
   return total / count;
-}
-
-/** Deterministic LCG (Numerical Recipes constants) for test inputs. */
-function lcg(seed: number) {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return s / 4294967296;
-  };
 }
 
 describe('PSNR', () => {
