@@ -4,8 +4,8 @@ import { readdirSync, readFileSync, statSync } from 'node:fs';
 import { dirname, join, relative, resolve } from 'node:path';
 import { repoRoot } from '../helpers/fixtures';
 
-/** AssemblyScript kernels compile to WebAssembly and are exempt from the size and copy rules. */
-export const KERNELS = 'src-main/engine/linalg/wasm/assembly/';
+/** AssemblyScript kernel sources (src-main/engine/<area>/wasm/assembly/): exempt from the line and copy limits. */
+export const isKernel = (f: string) => /^src-main\/engine\/[^/]+\/wasm\/assembly\//.test(f);
 
 export function sourceFiles(dir: string): string[] {
   const out: string[] = [];
