@@ -1,8 +1,11 @@
 /**
  * Block matching shared by the two passes of the patch-group denoiser (patch-groups.ts, wiener-groups.ts):
  * the grid of reference patches, the search offsets, and the K nearest candidates by SSD with a fixed
- * tie order (so the groups do not depend on how the image is split into bands).
+ * tie order (so the groups do not depend on how the image is split into bands). Where WebAssembly SIMD is
+ * available the distances run in a kernel (wasm/assembly/groups.ts) with the same groups, bit for bit.
  */
+import { ensureGroupMemory, groupKernels, MATCH_BASE } from './wasm/runtime';
+
 /** Reference positions along one axis: 0, stride, 2·stride, … and always the last valid one. */
 function referenceGrid(length: number, patch: number, stride: number): Int32Array {
   const last = length - patch;
@@ -139,17 +142,19 @@ export function forEachGroup(
   const gy = referenceGrid(height, p, stride);
   const gx = referenceGrid(width, p, stride);
   const offsets = searchOffsets(R);
-  const heapD = new Float64Array(K);
-  const heapI = new Int32Array(K);
   const posY = new Int32Array(K);
   const posX = new Int32Array(K);
   let first = 0;
   while (first < gy.length && gy[first] + R + p - 1 < rowStart) first++;
   let last = gy.length - 1;
   while (last >= 0 && gy[last] - R > rowEnd - 1) last--;
+  if (first > last) return;
+  // Rows the references and their candidates can read.
+  const rows: [number, number] = [Math.max(0, gy[first] - R), Math.min(height, gy[last] + R + p)];
+  const match = groupMatcher(guide, { width, height, p, K }, offsets, rows);
   for (let a = first; a <= last; a++) {
     for (let b = 0; b < gx.length; b++) {
-      const count = matchGroup(guide, width, height, p, K, offsets, gy[a], gx[b], heapD, heapI, posY, posX);
+      const count = match(gy[a], gx[b], posY, posX);
       // Skip groups with no patch in the band.
       let touches = false;
       for (let k = 0; k < count && !touches; k++)
@@ -158,6 +163,54 @@ export function forEachGroup(
     }
     if (onProgress) onProgress((a - first + 1) / (last - first + 1));
   }
+}
+
+/** Bytes rounded up to a multiple of 16 (v128 alignment). */
+const align16 = (bytes: number) => Math.ceil(bytes / 16) * 16;
+
+/**
+ * `matchGroup` for every reference of one pass, as a function of (y, x, posY, posX) → count: the
+ * WebAssembly kernel on an f64 copy of the guide's rows [rows[0], rows[1]) when the kernels load and
+ * those pixels are finite (the kernel's exactness argument needs sums that only grow), else TypeScript.
+ */
+function groupMatcher(
+  guide: Float32Array,
+  shape: { width: number; height: number; p: number; K: number },
+  offsets: Int32Array,
+  rows: [number, number],
+): (y: number, x: number, posY: Int32Array, posX: Int32Array) => number {
+  const { width, height, p, K } = shape;
+  const heapD = new Float64Array(K);
+  const heapI = new Int32Array(K);
+  const typescript = (y: number, x: number, posY: Int32Array, posX: Int32Array) =>
+    matchGroup(guide, width, height, p, K, offsets, y, x, heapD, heapI, posY, posX);
+  const k = groupKernels();
+  if (!k) return typescript;
+  const n = (rows[1] - rows[0]) * width;
+  const offAt = MATCH_BASE + align16(n * 8);
+  const refAt = offAt + align16(offsets.length * 4);
+  const heapDAt = refAt + align16(p * p * 8);
+  const heapIAt = heapDAt + align16(K * 8);
+  ensureGroupMemory(k, heapIAt + align16(K * 4));
+  const g = new Float64Array(k.memory.buffer, MATCH_BASE, n);
+  g.set(guide.subarray(rows[0] * width, rows[1] * width));
+  for (let i = 0; i < n; i++) if (!Number.isFinite(g[i])) return typescript;
+  new Int32Array(k.memory.buffer, offAt, offsets.length).set(offsets);
+  const nOff = offsets.length / 2;
+  // The kernel addresses rows by their global index: the base moves back by rows[0] rows (mod 2³²).
+  const guideAt = (MATCH_BASE - rows[0] * width * 8) | 0;
+  const kernel = k.exports.matchGroupF64;
+  let idx = new Int32Array(k.memory.buffer, heapIAt, K);
+  return (y, x, posY, posX) => {
+    const count = kernel(guideAt, width, height, p, K, offAt, nOff, y, x, heapDAt, heapIAt, refAt);
+    if (idx.buffer !== k.memory.buffer) idx = new Int32Array(k.memory.buffer, heapIAt, K);
+    for (let i = 0; i < count; i++) {
+      const o = idx[i];
+      posY[i] = y + offsets[2 * o];
+      posX[i] = x + offsets[2 * o + 1];
+    }
+    return count;
+  };
 }
 
 /** Weighting floor so that pixels no group touches keep their fallback value (cannot happen with a full grid). */

@@ -20,6 +20,7 @@
 import { BandAggregate, forEachGroup } from './block-matching';
 import type { GroupParams } from './group-low-rank';
 import type { BandJob, BandResult, GroupStats } from './patch-groups';
+import { type GroupKernels, groupKernels, WIENER_BASE, WIENER_SCRATCH_BYTES } from './wasm/runtime';
 
 /** Orthonormal DCT-II matrix of order n, row-major: C[f·n + t] (common definition). */
 function dctMatrix(n: number): Float64Array {
@@ -88,26 +89,53 @@ function alongPatch(
     }
 }
 
-/** Wiener estimate of one group in a fixed separable 3-D DCT (patch rows, patch columns, group). */
+/**
+ * Wiener estimate of one group in a fixed separable 3-D transform (patch rows, patch columns, group).
+ * Yn, Yb and the estimate live in the WebAssembly kernels' memory when they load (call `views()` after
+ * anything that may grow it), and groups of 2, 4, 8, … patches run the kernel (wasm/assembly/groups.ts,
+ * the same operations in the same order); other group sizes, or no kernels, run the TypeScript below.
+ */
 class GroupWiener {
-  readonly Yn: Float64Array;
-  readonly Yb: Float64Array;
+  Yn: Float64Array;
+  Yb: Float64Array;
+  out: Float64Array;
   private readonly p: number;
   private readonly Cp: Float64Array;
   private readonly Cn = new Map<number, Float64Array>();
   private readonly t: Float64Array;
   private readonly h: Float64Array;
+  private readonly kernels: GroupKernels | null;
+  private readonly block: number;
 
   constructor(p: number, nMax: number) {
     this.p = p;
     this.Cp = dctMatrix(p);
-    this.Yn = new Float64Array(p * p * nMax);
-    this.Yb = new Float64Array(p * p * nMax);
-    this.t = new Float64Array(p * p * nMax);
+    this.block = p * p * nMax;
+    this.t = new Float64Array(this.block);
     this.h = new Float64Array(nMax);
+    const k = groupKernels();
+    // Four blocks (Yn, Yb, out, scratch), a row of nMax and the p×p DCT in the fixed scratch region.
+    const fits = 8 * (4 * this.block + nMax + p * p) <= WIENER_SCRATCH_BYTES;
+    this.kernels = k && fits ? k : null;
+    this.Yn = new Float64Array(this.block);
+    this.Yb = new Float64Array(this.block);
+    this.out = new Float64Array(this.block);
+    this.views();
   }
 
-  /** In place: forward (sign 1) or inverse (−1) 3-D transform of X (m × n, stride n). */
+  /** (Re)make the views into the kernels' memory if it was grown since (no-op without kernels). */
+  views(): void {
+    const k = this.kernels;
+    if (!k || this.Yn.buffer === k.memory.buffer) return;
+    const buf = k.memory.buffer;
+    const b = this.block;
+    this.Yn = new Float64Array(buf, WIENER_BASE, b);
+    this.Yb = new Float64Array(buf, WIENER_BASE + 8 * b, b);
+    this.out = new Float64Array(buf, WIENER_BASE + 16 * b, b);
+    new Float64Array(buf, WIENER_BASE + 32 * b + 8 * this.h.length, this.Cp.length).set(this.Cp);
+  }
+
+  /** In place: forward or inverse 3-D transform of X (m × n, stride n). */
   private transform(X: Float64Array, n: number, inverse: boolean) {
     const { p, Cp, t } = this;
     let Cn = this.Cn.get(n);
@@ -136,13 +164,29 @@ class GroupWiener {
     X.set(t.subarray(0, m * n));
   }
 
-  /** Writes the estimate to `out` (layout of Yn) and returns Σw² over all coefficients. */
-  estimate(n: number, sigma: number, out: Float64Array): number {
+  /** Writes the estimate of the group in Yn, Yb (n patches) to `out` and returns Σw² over all coefficients. */
+  estimate(n: number, sigma: number): number {
     const m = this.p * this.p;
-    const { Yn, Yb } = this;
+    const { Yn, Yb, out } = this;
+    const s2 = sigma * sigma;
+    const k = this.kernels;
+    if (k && n >= 2 && (n & (n - 1)) === 0) {
+      const b = WIENER_BASE;
+      const e = 8 * this.block;
+      return k.exports.wienerGroupF64(
+        b,
+        b + e,
+        b + 2 * e,
+        this.p,
+        n,
+        s2,
+        b + 4 * e + 8 * this.h.length,
+        b + 3 * e,
+        b + 4 * e,
+      );
+    }
     this.transform(Yn, n, false);
     this.transform(Yb, n, false);
-    const s2 = sigma * sigma;
     let w2 = 0;
     for (let q = 0; q < m * n; q++) {
       const b2 = Yb[q] * Yb[q];
@@ -171,9 +215,10 @@ export function wienerGroupsBand(
   const agg = new BandAggregate(noisy.length, width, rowStart, rowEnd);
   const stats: GroupStats = { groups: 0, rankSum: 0, rankMin: 0, rankMax: 0, exact: 0 };
   const gw = new GroupWiener(p, K);
-  const est = new Float64Array(m * K);
   const visit = (count: number, posY: Int32Array, posX: Int32Array) => {
     stats.groups++;
+    gw.views();
+    const { Yn, Yb } = gw;
     for (let c = 0; c < noisy.length; c++) {
       const src = noisy[c];
       const bas = basic[c];
@@ -181,20 +226,13 @@ export function wienerGroupsBand(
         const base = posY[k] * width + posX[k];
         for (let i = 0; i < p; i++)
           for (let j = 0; j < p; j++) {
-            gw.Yn[(i * p + j) * count + k] = src[base + i * width + j];
-            gw.Yb[(i * p + j) * count + k] = bas[base + i * width + j];
+            Yn[(i * p + j) * count + k] = src[base + i * width + j];
+            Yb[(i * p + j) * count + k] = bas[base + i * width + j];
           }
       }
       // Weight ∝ 1/(σ²·Σw²) (Dabov et al. 2007), scaled by m·n to sit beside the first pass's weights.
-      agg.add(
-        c,
-        est,
-        count,
-        posY,
-        posX,
-        p,
-        (m * count) / Math.max(1e-12, gw.estimate(count, sigmas[c], est)),
-      );
+      const w = (m * count) / Math.max(1e-12, gw.estimate(count, sigmas[c]));
+      agg.add(c, gw.out, count, posY, posX, p, w);
     }
   };
   forEachGroup(basic[0], width, height, { ...params, patch: p }, rowStart, rowEnd, visit, onProgress);
