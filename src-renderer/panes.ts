@@ -19,6 +19,7 @@ export interface Panes {
 
 export function createPanes(state: PageState, view: CompareView): Panes {
   const el = bind(document, {
+    labels: '.pane-labels',
     left: '#label-left',
     right: '#label-right',
     rank: 'input#rank',
@@ -76,6 +77,11 @@ export function createPanes(state: PageState, view: CompareView): Panes {
       view.setSource(source);
     },
     label() {
+      // Nothing open yet: no pane labels at all (the drop hint says what to do), never "original" over
+      // an empty pane or a rank of a scan that is not there.
+      const nothing = !state.model && !state.stack.info;
+      el.labels.hidden = nothing;
+      if (nothing) return write({ left: '', right: '' });
       // A stack frame has no layers or tiles here, and a difference only against an original shown.
       const frame = state.stack.info && !state.model;
       const diff = view.mode === 'diff' && !(frame && view.source?.noOriginal);

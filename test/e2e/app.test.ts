@@ -63,8 +63,18 @@ const cameraRef = () => {
 
 describe('browser mode, end to end', () => {
   it('opens a demo scan and shows its size, depth and channels', async () => {
+    // Nothing open yet: the empty panes carry no labels (no "original", no rank of a scan that is not
+    // there), and the stage says that nothing is open.
+    expect(await page.isVisible('.pane-labels')).toBe(false);
+    expect(await page.textContent('#label-left')).toBe('');
+    expect(await page.textContent('#label-right')).toBe('');
+    expect(await page.textContent('#drop-hint')).toContain('No scan is open yet.');
+    await shot(page, 'e2e-00-nothing-open');
     await page.getByRole('button', { name: 'camera', exact: true }).click();
     await page.waitForSelector('body[data-first-paint-ms]', { timeout: 30_000 });
+    expect(await page.isVisible('.pane-labels')).toBe(true);
+    expect(await page.textContent('#label-left')).toBe('original');
+    expect(await page.isVisible('#drop-hint')).toBe(false);
     await expect.poll(() => page.textContent('#scan-info')).toContain('512×512 px');
     expect(await page.textContent('#scan-info')).toContain('8-bit');
     expect(await page.textContent('#scan-info')).toContain('1 channel');
