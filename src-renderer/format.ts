@@ -74,8 +74,9 @@ export interface ShownReadout {
  * data-exact. A missing value reads '–' (an estimate never leaves an older exact figure in place);
  * estimates read "≈ …".
  */
-export function readoutCell(metric: Metric, v: number | undefined, exact: boolean): ShownReadout {
-  if (v === undefined || Number.isNaN(v)) return { value: '', text: '–', exact };
+export function readoutCell(metric: Metric, v: number | undefined | null, exact: boolean): ShownReadout {
+  // null: a figure the report has none of (σₖ₊₁ of a file without a base layer arrives as JSON null).
+  if (v === undefined || v === null || Number.isNaN(v)) return { value: '', text: '–', exact };
   return {
     value: String(v),
     text: (exact || metric === 'rank' ? '' : '≈ ') + READOUT_FORMAT[metric](v),

@@ -50,7 +50,7 @@ export function createPanes(state: PageState, view: CompareView): Panes {
         if (state.showing === 'cleaned' && state.cleaned) return state.cleaned.cleaned;
         if (state.showing === 'removed' && state.cleaned)
           return removedPlanes(state.cleaned.removed, m.displayPeak);
-        if (state.tiled && state.preview) return state.preview.planes;
+        if (state.preview && (state.tiled || state.preview.residual)) return state.preview.planes;
         return m.planes.map((p) => p.acc);
       },
       layer: (i) => {
@@ -113,6 +113,7 @@ export function createPanes(state: PageState, view: CompareView): Panes {
           layerIndex: view.layerIndex,
           tiled: state.tiled,
           tile: state.tile,
+          residual: !state.tiled && state.preview?.residual === true,
           rank: Number(el.rank.value),
           held: state.model?.maxRank ?? Number.POSITIVE_INFINITY,
         }),
