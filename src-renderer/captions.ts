@@ -124,6 +124,8 @@ export interface PaneView {
   layerIndex: number;
   tiled: boolean;
   tile: number;
+  /** The pane shows a decoded file with a wavelet residual layer on top of its rank-`rank` base. */
+  residual?: boolean;
   rank: number;
   /** Layers the page holds; a larger whole-plane rank is shown at this one until more arrive. */
   held: number;
@@ -132,6 +134,13 @@ export interface PaneView {
 /** What the Tile ranks view says in whole-plane mode, in place of the map. */
 export const NO_TILES =
   'No tile ranks: the scan is coded as whole planes. Choose “tiles of” under Planes to see each tile’s rank.';
+
+/** The right pane's label for a decoded file with a wavelet residual layer (rank 0: that layer alone). */
+function residualLabel(rank: number): string {
+  return rank === 0
+    ? 'the file: wavelet residual layer only (rank 0)'
+    : `the file: rank ${rank} + wavelet residual layer`;
+}
 
 /** The labels above the left and right panes. */
 export function paneLabels(p: PaneView): { left: string; right: string } {
@@ -148,9 +157,11 @@ export function paneLabels(p: PaneView): { left: string; right: string } {
               ? 'Tile ranks: none, the scan is coded as whole planes'
               : p.tiled
                 ? `tiles of ${p.tile}, rank ≤ ${p.rank}`
-                : p.held < p.rank
-                  ? `rank ${p.rank} (showing ${p.held} until the deeper layers arrive)`
-                  : `rank ${p.rank}`;
+                : p.residual
+                  ? residualLabel(p.rank)
+                  : p.held < p.rank
+                    ? `rank ${p.rank} (showing ${p.held} until the deeper layers arrive)`
+                    : `rank ${p.rank}`;
   const left = p.mode === 'side' ? 'original' : p.mode === 'swipe' ? 'original | reconstruction' : '';
   return { left, right };
 }

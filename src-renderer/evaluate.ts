@@ -53,13 +53,15 @@ export function createEvaluator(
       if (seq !== state.evalSeq || JSON.stringify(budget) !== JSON.stringify(state.budget)) return;
       const ranks = r.report.ranks;
       const k = ranks[0]?.rank ?? ranks[0]?.tiles?.max;
-      // Tiled mode: the page shows the encoder's own decoded result, fetched before the figures turn exact.
+      // Tiles, or a wavelet residual layer: the page cannot rebuild that file from σ, U, V, so it shows the
+      // encoder's own decoded file (integer samples), fetched before the figures turn exact.
       if (r.previewId) {
         const { arrays, header } = decodeFactorSet(await api.fetchImages(r.previewId));
         if (seq !== state.evalSeq) return;
         state.preview = {
-          planes: header.channels.map((_, p) => arrays[`rec.${p}`] as Float32Array),
+          planes: header.channels.map((_, p) => Float32Array.from(arrays[`rec.${p}`])),
           tiles: r.tileRanks,
+          residual: (r.report.layers?.residualBytes ?? 0) > 0,
         };
       } else state.preview = undefined;
       stage.dataset.tiles = String(r.tileRanks?.[0]?.ranks.length ?? '');

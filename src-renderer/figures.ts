@@ -114,6 +114,7 @@ export function reportRank(r: Pick<CompressReport, 'ranks'>): number | undefined
 
 /** The encoder's own figures. */
 export function reportFigures(r: CompressReport): Figures {
+  const layered = (r.layers?.residualBytes ?? 0) > 0;
   return {
     rank: reportRank(r),
     psnr: r.psnr,
@@ -123,8 +124,19 @@ export function reportFigures(r: CompressReport): Figures {
     bpp: r.bpp,
     'spectral-bound': r.errors.spectralBound,
     'frobenius-optimal': r.errors.frobeniusOptimal,
-    frobenius: r.errors.frobenius,
+    // The report's errors are the base layer's; with a residual layer on top, Total error is the file's.
+    frobenius: layered ? fileError(r) : r.errors.frobenius,
   };
+}
+
+/**
+ * The decoded file's total error ‖A − Â‖_F (grey levels) from its PSNR over the colour samples,
+ * PSNR = 10·log10(N·peak² / SSE) (the definition of src-main/engine/metrics, N = samples of the colour planes).
+ */
+function fileError(r: Pick<CompressReport, 'width' | 'height' | 'channels' | 'bitDepth' | 'psnr'>): number {
+  const n = r.width * r.height * (r.channels >= 3 ? 3 : 1);
+  const peak = r.bitDepth === 16 ? 65535 : 255;
+  return peak * Math.sqrt(n) * 10 ** (-r.psnr / 20);
 }
 
 /** A stack frame's figures: quality as recorded for the frame, sizes of the whole stack. */

@@ -2,6 +2,7 @@
  * How the page writes numbers: byte counts and the readouts in the "Figures" card. No DOM: the page's
  * readout cells take the `{ value, text }` computed here.
  */
+import type { Budget } from '../src-main/contract';
 
 /** Byte counts in decimal units (1 kB = 1000 B): two decimals from MB up, one for kB, whole bytes below. */
 export function formatBytes(b: number): string {
@@ -27,6 +28,16 @@ export type Metric = (typeof METRICS)[number];
 
 /** Values for some readouts; the others are left as they are (estimates) or cleared (exact figures). */
 export type Figures = Partial<Record<Metric, number>>;
+
+/** The figures on show, whether they are exact, and the budget they are for (./readouts.ts). */
+export interface ShownFigures {
+  values: Figures;
+  exact: boolean;
+  budget: Budget;
+  tiled: boolean;
+  /** The encoder's file holds a wavelet residual layer on top of its base (exact figures only). */
+  residual?: boolean;
+}
 
 const READOUT_FORMAT: Record<Metric, (v: number) => string> = {
   rank: (v) => (Number.isInteger(v) ? String(v) : `${v.toFixed(1)} (mean)`),
@@ -74,8 +85,9 @@ export interface ShownReadout {
  * data-exact. A missing value reads '–' (an estimate never leaves an older exact figure in place);
  * estimates read "≈ …".
  */
-export function readoutCell(metric: Metric, v: number | undefined, exact: boolean): ShownReadout {
-  if (v === undefined || Number.isNaN(v)) return { value: '', text: '–', exact };
+export function readoutCell(metric: Metric, v: number | undefined | null, exact: boolean): ShownReadout {
+  // null: a figure the report has none of (σₖ₊₁ of a file without a base layer arrives as JSON null).
+  if (v === undefined || v === null || Number.isNaN(v)) return { value: '', text: '–', exact };
   return {
     value: String(v),
     text: (exact || metric === 'rank' ? '' : '≈ ') + READOUT_FORMAT[metric](v),

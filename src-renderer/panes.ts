@@ -19,6 +19,7 @@ export interface Panes {
 
 export function createPanes(state: PageState, view: CompareView): Panes {
   const el = bind(document, {
+    labels: '.pane-labels',
     left: '#label-left',
     right: '#label-right',
     rank: 'input#rank',
@@ -49,7 +50,7 @@ export function createPanes(state: PageState, view: CompareView): Panes {
         if (state.showing === 'cleaned' && state.cleaned) return state.cleaned.cleaned;
         if (state.showing === 'removed' && state.cleaned)
           return removedPlanes(state.cleaned.removed, m.displayPeak);
-        if (state.tiled && state.preview) return state.preview.planes;
+        if (state.preview && (state.tiled || state.preview.residual)) return state.preview.planes;
         return m.planes.map((p) => p.acc);
       },
       layer: (i) => {
@@ -76,6 +77,11 @@ export function createPanes(state: PageState, view: CompareView): Panes {
       view.setSource(source);
     },
     label() {
+      // Nothing open yet: no pane labels at all (the drop hint says what to do), never "original" over
+      // an empty pane or a rank of a scan that is not there.
+      const nothing = !state.model && !state.stack.info;
+      el.labels.hidden = nothing;
+      if (nothing) return write({ left: '', right: '' });
       // A stack frame has no layers or tiles here, and a difference only against an original shown.
       const frame = state.stack.info && !state.model;
       const diff = view.mode === 'diff' && !(frame && view.source?.noOriginal);
@@ -107,6 +113,7 @@ export function createPanes(state: PageState, view: CompareView): Panes {
           layerIndex: view.layerIndex,
           tiled: state.tiled,
           tile: state.tile,
+          residual: !state.tiled && state.preview?.residual === true,
           rank: Number(el.rank.value),
           held: state.model?.maxRank ?? Number.POSITIVE_INFINITY,
         }),

@@ -75,13 +75,19 @@ export function createRankSlider(
     const m = state.model;
     if (!m) return;
     stepStart = performance.now();
-    k = Math.max(1, Math.min(Math.round(k), Number(el.rank.max)));
+    // Rank 0 (a file of the wavelet residual layer alone) is shown when the encoder chose it, never asked
+    // for: the slider reaches 0 only then, and a move by the user starts again from rank 1.
+    k = Math.max(fromUser ? 1 : 0, Math.min(Math.round(k), Number(el.rank.max)));
+    el.rank.min = k === 0 ? '0' : '1';
+    el.typed.min = el.rank.min;
     el.rank.value = String(k);
     el.typed.value = String(k);
     if (fromUser) {
       state.budget = { kind: 'rank', rank: k };
-      // The slider's rank is the budget now: no other budget's rank to mark.
+      // The slider's rank is the budget now: no other budget's rank to mark, and no decoded file of
+      // another budget to show (a whole-plane rank is rebuilt here from σ, U, V).
       state.budgetRank = undefined;
+      if (!state.tiled) state.preview = undefined;
     }
     charts.mark(k, state.budgetRank);
     if (!state.tiled) {

@@ -6,7 +6,14 @@ import type { CompressReport, StackFrameInfo } from '../src-main/contract';
 import { bind, find } from './bind';
 import { hasFrameQuality } from './captions';
 import { estimateFigures, reportFigures, stackFigures } from './figures';
-import { type Figures, METRIC_HELP, METRICS, readoutCell, type ShownReadout } from './format';
+import {
+  type Figures,
+  METRIC_HELP,
+  METRICS,
+  readoutCell,
+  type ShownFigures,
+  type ShownReadout,
+} from './format';
 import type { PageState } from './state';
 
 export interface Readouts {
@@ -22,13 +29,6 @@ export interface Readouts {
   current(): ShownFigures | undefined;
   /** Call `cb` whenever the figures change. */
   onChange(cb: () => void): void;
-}
-
-export interface ShownFigures {
-  values: Figures;
-  exact: boolean;
-  budget: PageState['budget'];
-  tiled: boolean;
 }
 
 export function createReadouts(state: PageState): Readouts {
@@ -60,7 +60,10 @@ export function createReadouts(state: PageState): Readouts {
       // Tiles: the whole-plane spectrum says nothing about tiled figures; wait for the encoder's.
       set(state.tiled ? { rank: k } : estimateFigures(m, s, state.measured, k), false, k);
     },
-    showReport: (r, rank) => set(reportFigures(r), true, rank),
+    showReport(r, rank) {
+      set(reportFigures(r), true, rank);
+      if (shown) shown.residual = (r.layers?.residualBytes ?? 0) > 0;
+    },
     showStack(info, size) {
       set(stackFigures(info, size), true, undefined);
       if (!hasFrameQuality(info))

@@ -4,8 +4,8 @@
  * No DOM; ./save-panel.ts puts the sentence in place.
  */
 import type { Budget } from '../src-main/contract';
+import type { ShownFigures } from './format';
 import { formatBytes, formatPsnr } from './format';
-import type { ShownFigures } from './readouts';
 
 export type SaveKind = 'rkf' | 'expanded' | 'cleaned' | 'removed';
 
@@ -69,7 +69,12 @@ export function savePlanText(p: SavePlanInput): string {
   const f =
     p.shown && sameBudget(p.shown.budget, p.budget) && p.shown.tiled === p.tiled ? p.shown : undefined;
   const rank = f?.values.rank;
-  const at = `${budgetText(p.budget)}${p.budget.kind !== 'rank' && rank !== undefined ? ` (rank ${rank})` : ''}, ${planes}`;
+  const layers = f?.residual
+    ? rank === 0
+      ? 'a wavelet residual layer alone'
+      : `rank ${rank} + a wavelet residual layer`
+    : `rank ${rank}`;
+  const at = `${budgetText(p.budget)}${p.budget.kind !== 'rank' && rank !== undefined ? ` (${layers})` : ''}, ${planes}`;
   if (p.kind === 'expanded')
     return `Will write ${name}: the image shown, decoded from the file at ${at}, as a lossless ${p.bitDepth === 16 ? 'TIFF' : 'PNG'}.`;
   const bytes = f?.values.bytes;

@@ -31,8 +31,11 @@ export interface PageState {
   budgetRank?: number;
   tiled: boolean;
   tile: number;
-  /** Tiled mode: the encoder's own decoded planes and tile ranks. */
-  preview?: { planes: Float32Array[]; tiles?: EvaluateResult['tileRanks'] };
+  /**
+   * The encoder's own decoded planes, for a file the page cannot rebuild from σ, U, V: tiled mode (with the
+   * tile ranks), or a file with a wavelet residual layer (`residual`), shown while the slider is at its rank.
+   */
+  preview?: { planes: Float32Array[]; tiles?: EvaluateResult['tileRanks']; residual?: boolean };
   cleaned?: { cleaned: Float32Array[]; removed: Float32Array[] };
   /** Sizes of real whole-plane encodes of the open scan, for the instant size estimate. */
   measured: Calibration[];

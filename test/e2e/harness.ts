@@ -311,3 +311,26 @@ export async function cliJson(args: string[]): Promise<Record<string, unknown>> 
   });
   return JSON.parse(stdout);
 }
+
+/** The figures the page shows for a whole-plane budget, as readouts: bytes, PSNR, SSIM and the base rank. */
+export type PageFigures = { bytes: number; psnr: number; ssim: number; rank: number };
+
+/** The page's figures of `readouts(page)` in {@link PageFigures} form, to compare with {@link cliFigures}. */
+export const shownFigures = (r: Record<string, number>): PageFigures => ({
+  bytes: r.bytes,
+  psnr: r.psnr,
+  ssim: r.ssim,
+  rank: r.rank,
+});
+
+/** `rankfold compress input -o <fresh dir>/out.rkf --tile 0 <budget> --json` (default layers), as page figures. */
+export async function cliFigures(input: string, budget: string[]): Promise<PageFigures> {
+  const out = join(mkdtempSync(join(tmpdir(), 'rankfold-e2e-cli-')), 'out.rkf');
+  const r = (await cliJson(['compress', input, '-o', out, '--tile', '0', ...budget])) as {
+    outputBytes: number;
+    psnr: number;
+    ssim: number;
+    ranks: { rank: number }[];
+  };
+  return { bytes: r.outputBytes, psnr: r.psnr, ssim: r.ssim, rank: r.ranks[0].rank };
+}

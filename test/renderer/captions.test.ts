@@ -177,6 +177,15 @@ describe('paneLabels', () => {
     expect(paneLabels({ ...base, tiled: true, tile: 32, rank: 8 }).right).toBe('tiles of 32, rank ≤ 8');
   });
 
+  it('a decoded file with a wavelet residual layer says so, and rank 0 says that layer is all there is', () => {
+    expect(paneLabels({ ...base, residual: true, rank: 12 }).right).toBe(
+      'the file: rank 12 + wavelet residual layer',
+    );
+    expect(paneLabels({ ...base, residual: true, rank: 0 }).right).toBe(
+      'the file: wavelet residual layer only (rank 0)',
+    );
+  });
+
   it('a cleaning result wins over the view mode', () => {
     expect(paneLabels({ ...base, mode: 'diff', showing: 'cleaned' }).right).toBe('cleaned');
     // Short enough for a 1024 px window's pane; the legend says what mid-grey means.

@@ -109,6 +109,26 @@ describe('reportRank', () => {
 });
 
 describe('reportFigures and stackFigures', () => {
+  it('with a residual layer, Total error is the decoded file’s (from its PSNR), not the base layer’s', () => {
+    // `rankfold compress unseen-page.png --min-psnr 38 --tile 0 --json` (the acceptance page, 4 Dec): the
+    // residual layer alone; errors.frobenius is the rank-0 base's, √(Σ a²).
+    const r = {
+      width: 2000,
+      height: 1500,
+      channels: 1,
+      bitDepth: 8,
+      ranks: [{ channel: 'gray', rank: 0 }],
+      psnr: 38.0103358233005,
+      errors: { spectralBound: Number.NaN, frobeniusOptimal: 278232.5, frobenius: 278232.5 },
+      layers: { residualBytes: 32674 },
+    } as CompressReport;
+    const e = reportFigures(r).frobenius as number;
+    // PSNR = 10·log10(N·255²/e²) holds again for the figure shown.
+    expect(10 * Math.log10((3e6 * 255 * 255) / (e * e))).toBeCloseTo(38.0103358233005, 10);
+    expect(e).toBeLessThan(278232.5 / 40);
+    expect(reportFigures(r)['frobenius-optimal']).toBe(278232.5);
+  });
+
   it("take the encoder's figures as they are", () => {
     const r = {
       ranks: [{ channel: 'gray', rank: 7 }],

@@ -32,6 +32,12 @@ describe('readoutCell', () => {
     expect(text('frobenius', 7741.46)).toBe('7741.5');
   });
 
+  it('a figure the report has none of (JSON null, NaN) reads –', () => {
+    // σₖ₊₁ of a file without a base layer: NaN in the engine, null once the report went through JSON.
+    expect(readoutCell('spectral-bound', null, true)).toEqual({ value: '', text: '–', exact: true });
+    expect(readoutCell('spectral-bound', Number.NaN, true)).toEqual({ value: '', text: '–', exact: true });
+  });
+
   it('a lossless result reads ∞ dB', () => {
     expect(formatPsnr(Number.POSITIVE_INFINITY)).toBe('∞ dB');
     expect(readoutCell('psnr', Number.POSITIVE_INFINITY, true)).toEqual({

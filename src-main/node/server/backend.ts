@@ -184,7 +184,7 @@ export class Backend extends EventEmitter {
         void s.factorLane.close();
         this.scans.delete(id);
       }
-      const factorLane = new SessionWorker(this.options.workersDir, file, req.page);
+      const factorLane = new SessionWorker(this.options.workersDir, file, req.page, true);
       this.scans.set(scanId, { file, summary, session, factorLane });
       if (req.source.kind === 'path') this.addRecent(file);
       return summary;

@@ -1,7 +1,7 @@
 /**
  * Adapter from the app's session jobs to the shared services, so the page's figures are the CLI's
- * figures: evaluate = `compressDecoded` (what `rankfold compress --layers base --json` reports for the same budget
- * and tile), save = the same bytes written atomically, or handed back for a download.
+ * figures: evaluate = `compressDecoded` (what `rankfold compress --json` reports for the same budget and
+ * tile, with the CLI's default layers), save = the same bytes written atomically, or handed back for a download.
  * Runs inside the session's worker thread.
  */
 import { basename, extname } from 'node:path';
@@ -22,16 +22,30 @@ import {
 } from '../../contract';
 import { encodeImage, encodeImageBuffer, formatFromPath } from '../image/encode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
+import { SideThread } from '../parallel/side-thread';
 import { removedPng } from '../services/clean-outputs';
-import { compressDecoded } from '../services/compress';
+import { compressDecoded, DEFAULT_LAYERS } from '../services/compress';
 import type { ProgressFn } from './factor';
 
 type Progress = ProgressFn;
 
+/** The session's side thread, started on the first encode and kept for the thread's life (it ends with it). */
+let side: SideThread | undefined;
+let sideTried = false;
+
+/**
+ * Progress, and the second thread `rankfold compress` uses by default (`--workers 2`: the crop's base estimate
+ * and half the report's SSIM run beside the main work; the file is the same bit for bit without it).
+ */
 function hooks(progress: Progress) {
+  if (!sideTried) {
+    sideTried = true;
+    side = SideThread.start();
+  }
   return {
     onProgress: (p: { stage: string; fraction: number }) =>
       progress(Math.round(p.fraction * 100), 100, p.stage),
+    side,
   };
 }
 
@@ -55,19 +69,21 @@ function planesSet(
   prefix: string,
   planes: Float32Array[],
   extra: FactorArrays = {},
+  count = planes.length,
 ): ArrayBuffer {
   const arrays: FactorArrays = { ...extra };
   planes.forEach((p, i) => {
     arrays[`${prefix}.${i}`] = p;
   });
   const names = image.colour === 'rgb' ? ['R', 'G', 'B', 'A'] : ['Y', 'A'];
+  const channels = names.slice(0, count);
   const bytes = encodeFactorSet(
     {
       width: image.width,
       height: image.height,
-      channels: planes.map((_, i) => names[i]),
-      ranks: planes.map(() => 0),
-      energy: planes.map(() => 0),
+      channels,
+      ranks: channels.map(() => 0),
+      energy: channels.map(() => 0),
       peak: image.bitDepth === 16 ? 65535 : 255,
       complete: false,
     },
@@ -77,13 +93,15 @@ function planesSet(
 }
 
 /**
- * The page draws the low-rank model (σ, U, V) and rebuilds any rank itself; it cannot show a wavelet
- * residual yet. So that the image, the figures and the saved file are one and the same, the page evaluates
- * and saves base-only files; the CLI's default adds the residual layer under byte budgets.
+ * The page evaluates and saves what `rankfold compress` writes by default: under byte budgets and PSNR floors
+ * that may be a wavelet-coded residual layer on top of the low-rank base, or that layer alone (rank 0), which
+ * at 38 dB on a 3-megapixel page is a quarter of the base-only file's bytes. The page rebuilds a base-only
+ * whole-plane file itself from σ, U, V; for any other file it shows the decoded file the figures were
+ * measured on (the `preview`), so the image, the figures and the saved file stay one and the same.
  */
-const PAGE_LAYERS = 'base' as const;
+const PAGE_LAYERS = DEFAULT_LAYERS;
 
-/** Encode at a budget; tiled results also return the decoded planes for the page to show. */
+/** Encode at a budget; tiled and two-layer results also return the decoded file for the page to show. */
 async function evaluate(
   image: DecodedImage,
   args: { budget: Budget; tile: TileChoice; input: string },
@@ -95,8 +113,21 @@ async function evaluate(
     hooks(progress),
   );
   const tileRanks = tileMaps(image, result.ranks);
-  const preview = tileRanks ? planesSet(image, 'rec', result.decoded.samples) : undefined;
+  const layered = result.layers.residualBytes > 0;
+  const preview = tileRanks || layered ? decodedSet(image, result.decoded.samples) : undefined;
   return { report: { ...report, input: args.input }, tileRanks, preview };
+}
+
+/**
+ * The decoded file's samples (integers, rounded and clamped by the reader) as `rec.p` blocks of 8- or 16-bit
+ * integers: a quarter or half of the float planes' bytes on their way to the page, with nothing lost.
+ */
+function decodedSet(image: DecodedImage, samples: Float32Array[]): ArrayBuffer {
+  const extra: FactorArrays = {};
+  samples.forEach((p, i) => {
+    extra[`rec.${i}`] = image.bitDepth === 16 ? Uint16Array.from(p) : Uint8Array.from(p);
+  });
+  return planesSet(image, 'rec', [], extra, samples.length);
 }
 
 interface CleanOutput {

@@ -35,6 +35,8 @@ export class SessionWorker {
     private readonly workersDir: string,
     private readonly file: string,
     private readonly page?: number,
+    /** Background work (the deeper factorisation): its thread runs at a low CPU priority (scan-session.ts). */
+    private readonly background = false,
   ) {}
 
   /** Use a thread started ahead of time (it has loaded its code already), for the first job only. */
@@ -52,7 +54,10 @@ export class SessionWorker {
   private spareSource?: () => Worker;
 
   private spawn(): Worker {
-    const w = this.spare ?? this.spareSource?.() ?? new Worker(join(this.workersDir, 'scan-session.js'));
+    const w =
+      this.spare ??
+      this.spareSource?.() ??
+      new Worker(join(this.workersDir, 'scan-session.js'), { workerData: { background: this.background } });
     this.spare = undefined;
     w.on(
       'message',

@@ -5,13 +5,29 @@
  *
  * Messages in:  { id, op, args }. Messages out: { id, ok, value } | { id, ok: false, error } | { id, progress }.
  */
-import { parentPort } from 'node:worker_threads';
+import { readlinkSync } from 'node:fs';
+import { setPriority } from 'node:os';
+import { parentPort, workerData } from 'node:worker_threads';
 import { type DecodedImage, toErrorPayload } from '../../contract';
 import { allowFactorPool } from '../parallel/factor-path';
 import { readyEngine } from '../server/factor';
 import { runSessionOp, type SessionOp } from '../server/session-ops';
 
 if (!parentPort) throw new Error('scan-session must run as a worker thread');
+/**
+ * Nice value of a background session (the deeper factorisation after opening): it uses the cores the
+ * foreground jobs leave idle, so exact figures the user waits for are not slowed by it. Linux keeps a nice
+ * value per thread (setpriority(2), NOTES), and threads started afterwards (the factorisation's pool) take
+ * it on; lowering needs no privilege. Elsewhere the thread keeps the normal priority.
+ */
+const BACKGROUND_NICE = 5;
+if ((workerData as { background?: boolean } | null)?.background)
+  try {
+    // /proc/thread-self → "<pid>/task/<tid>": this thread's id, which setpriority takes on Linux.
+    setPriority(Number(readlinkSync('/proc/thread-self').split('/').pop()), BACKGROUND_NICE);
+  } catch {
+    // Not Linux (no /proc/thread-self): normal priority.
+  }
 // The page's whole-plane factorisations take the CLI's fast path: kernels compiled, the thread pool
 // started and both warmed up now, while the thread waits for its scan (one scan computes at a time).
 allowFactorPool();
