@@ -22,7 +22,7 @@ import type { GroupParams } from './group-low-rank';
 import type { BandJob, BandResult, GroupStats } from './patch-groups';
 
 /** Orthonormal DCT-II matrix of order n, row-major: C[f·n + t] (common definition). */
-function dctMatrix(n: number): Float64Array {
+export function dctMatrix(n: number): Float64Array {
   const C = new Float64Array(n * n);
   for (let f = 0; f < n; f++) {
     const s = f === 0 ? Math.sqrt(1 / n) : Math.sqrt(2 / n);
@@ -136,20 +136,32 @@ class GroupWiener {
     X.set(t.subarray(0, m * n));
   }
 
-  /** Writes the estimate to `out` (layout of Yn) and returns Σw² over all coefficients. */
-  estimate(n: number, sigma: number, out: Float64Array): number {
+  /**
+   * Writes the estimate to `out` (layout of Yn) and returns Σw² over all coefficients, or Σw²·d with a noise
+   * spectrum d (relative variance per 2-D DCT coefficient, correlated noise; Mäkinen, Azzari & Foi 2020).
+   */
+  estimate(n: number, sigma: number, out: Float64Array, spectrum?: number[]): number {
     const m = this.p * this.p;
     const { Yn, Yb } = this;
     this.transform(Yn, n, false);
     this.transform(Yb, n, false);
     const s2 = sigma * sigma;
     let w2 = 0;
-    for (let q = 0; q < m * n; q++) {
-      const b2 = Yb[q] * Yb[q];
-      const w = b2 / (b2 + s2);
-      w2 += w * w;
-      out[q] = w * Yn[q];
-    }
+    if (spectrum?.length === m)
+      for (let q = 0; q < m * n; q++) {
+        const d = spectrum[Math.floor(q / n)];
+        const b2 = Yb[q] * Yb[q];
+        const w = b2 / (b2 + s2 * d);
+        w2 += w * w * d;
+        out[q] = w * Yn[q];
+      }
+    else
+      for (let q = 0; q < m * n; q++) {
+        const b2 = Yb[q] * Yb[q];
+        const w = b2 / (b2 + s2);
+        w2 += w * w;
+        out[q] = w * Yn[q];
+      }
     this.transform(out, n, true);
     return w2;
   }
@@ -193,7 +205,7 @@ export function wienerGroupsBand(
         posY,
         posX,
         p,
-        (m * count) / Math.max(1e-12, gw.estimate(count, sigmas[c], est)),
+        (m * count) / Math.max(1e-12, gw.estimate(count, sigmas[c], est, params.noiseSpectrum)),
       );
     }
   };
