@@ -12,7 +12,7 @@ import type { CleanMethodOptions, NoiseColourChoice, NoiseColourReport } from '.
 import { estimateNoisePsd, type NoisePsd, PSD_LAG } from './noise-psd';
 import { dctNoiseVariances } from './noise-psd-spectrum';
 
-export interface NoiseColourPlan {
+interface NoiseColourPlan {
   /** For the report (null: auto and white, nothing to say beyond today's report). */
   report: NoiseColourReport | null;
   /** The measurement when the noise is modelled as correlated; null: white. */
@@ -23,7 +23,7 @@ export interface NoiseColourPlan {
  * Decide the noise colour of `plane` (gray or luma), avoiding samples at or beyond the clip levels. `sigma8` is
  * the white-noise estimate on the 8-bit scale, `floor8` the level below which auto sees no noise.
  */
-export function planNoiseColour(
+function planNoiseColour(
   plane: Float32Array,
   { width, height }: { width: number; height: number },
   [clipLow, clipHigh]: [number, number],

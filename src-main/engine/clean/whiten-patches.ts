@@ -13,7 +13,7 @@
 import { dctMatrix } from './wiener-groups';
 
 /** Smallest relative noise variance used for whitening (chosen here; see the file comment). */
-export const SPECTRUM_FLOOR = 0.05;
+const SPECTRUM_FLOOR = 0.05;
 
 /** Forward (to the whitened DCT) and inverse maps of groups laid out as m = p² rows × n patches (row-major). */
 export class PatchWhitener {
