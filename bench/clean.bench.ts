@@ -15,6 +15,7 @@ import { eigenWorkspace, smallGram, smallSymmetricEigen } from '../src-main/engi
 import { decodeImage } from '../src-main/node/image/decode';
 import { cleanDecoded } from '../src-main/node/services/clean';
 import { bandingSection } from './clean-banding';
+import { correlatedSection } from './clean-correlated';
 import { poissonGaussianSection } from './clean-noise-model';
 import {
   asDecoded,
@@ -200,6 +201,7 @@ async function main() {
   log('different file, so a published figure for it would compare different images.');
   log('');
   await poissonGaussianSection(images, tmp, sk, log);
+  await correlatedSection(images, tmp, sk, log);
 
   await bandingSection(images, log);
 

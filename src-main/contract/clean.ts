@@ -1,6 +1,13 @@
 /** Requests and results of `clean`, shared by the CLI, the worker pool, IPC and HTTP. */
 import { UsageError } from './errors';
-import { CLEAN_NOISE_OPTIONS, checkNoise, checkNoiseLevel, checkOptional, OPTIONS } from './options';
+import {
+  CLEAN_NOISE_OPTIONS,
+  checkNoise,
+  checkNoiseLevel,
+  checkOptional,
+  NOISE_COLOUR_OPTION,
+  OPTIONS,
+} from './options';
 import { is } from './validate';
 
 /** 'auto' estimates σ from the image; a number is σ in grey levels of the input; 'off' skips denoising. */
@@ -11,6 +18,8 @@ type BandingDirectionResult = 'none' | 'rows' | 'columns' | 'both';
 export type DenoiseMethod = 'groups' | 'tiles';
 /** How the noise depends on brightness: 'auto' decides from the fitted model (see NoiseModelReport). */
 export type NoiseModelChoice = 'auto' | 'gaussian' | 'poisson-gaussian';
+/** Spatial colour of the noise: 'auto' measures the spectrum and decides (see NoiseColourReport). */
+export type NoiseColourChoice = 'auto' | 'white' | 'measured';
 
 /** What the cleaning pipeline itself needs (engine/clean/pipeline.ts takes exactly these). */
 export interface CleanMethodOptions {
@@ -20,6 +29,8 @@ export interface CleanMethodOptions {
   noiseModel?: NoiseModelChoice;
   /** A given model σ²(x) = a·x + b in grey levels of the input (`--noise A,B`); needs noise 'auto'. */
   noiseLevel?: { a: number; b: number };
+  /** Noise colour; 'auto' (default) measures the noise spectrum and models it when it is clearly not white. */
+  noiseColour?: NoiseColourChoice;
   /** Keep exactly this many singular components per group/tile instead of the Gavish–Donoho threshold. */
   rank?: number;
   /** Fixed singular-value threshold per group/tile, in grey levels, instead of the Gavish–Donoho threshold. */
@@ -113,6 +124,25 @@ export interface NoiseModelReport {
   planes: NoiseModelPlane[];
 }
 
+/** The measured spatial spectrum of the noise (engine/clean/noise-psd.ts) and whether the denoiser used it. */
+export interface NoiseColourReport {
+  /** 'correlated': the denoiser used the measured spectrum; 'white': one σ at every frequency. */
+  colour: 'white' | 'correlated';
+  /** 'measured' and decided from the scan, or forced with --noise-colour. */
+  source: 'measured' | 'forced';
+  reason: string;
+  /** Measured σ per pixel (gray or luma), grey levels; null when nothing was measured. */
+  sigma: number | null;
+  /** Spectral flatness 1/Σρ(Δ)² (1 = white). */
+  flatness: number | null;
+  /** Mean normalised spectrum over the highest frequencies (1 = white). */
+  highShare: number | null;
+  /** Mean of the horizontal and vertical neighbour correlations. */
+  lagOne: number | null;
+  /** Flat blocks measured. */
+  blocks: number;
+}
+
 export interface CleanReport {
   input: string;
   output: string;
@@ -130,6 +160,11 @@ export interface CleanReport {
    * denoising is off or σ was given. With poisson-gaussian, noiseSigma is σ at the scan's mean brightness.
    */
   noiseModel: NoiseModelReport | null;
+  /**
+   * The noise's spatial colour, present when it was found correlated or --noise-colour was given (absent: the
+   * noise was treated as white, as it always was before the measurement existed).
+   */
+  noiseColour?: NoiseColourReport;
   /** How noiseSigma was obtained. */
   noiseSource: 'estimated' | 'given' | 'off';
   /** Gavish–Donoho σ̂ = y_med/√(n·μ_β), median over sampled patch groups (a cross-check), grey levels. */
@@ -178,6 +213,7 @@ export function checkCleanOptions(options: Partial<CleanOptions>): CleanOptions 
   checkOptional(OPTIONS.workers, options.workers);
   checkOptional(OPTIONS.page, options.page);
   checkOptional(OPTIONS.pixelLimit, options.pixelLimit);
+  checkOptional(NOISE_COLOUR_OPTION, options.noiseColour);
   if (noise === 'off' && banding === 'off')
     throw new UsageError('Nothing to do: both --noise and --banding are off.');
   const noiseModel = checkOptional<NoiseModelChoice>(CLEAN_NOISE_OPTIONS.noiseModel, options.noiseModel);

@@ -311,6 +311,14 @@ export const CLEAN_NOISE_OPTIONS = {
   }),
 } as const;
 
+/** `--noise-colour`: white noise, the spectrum measured from the scan, or decided from the measurement (issue 16). */
+export const NOISE_COLOUR_OPTION = oneOf({
+  name: 'noise-colour',
+  values: ['auto', 'white', 'measured'] as const,
+  default: 'auto',
+  doc: 'noise that is independent from pixel to pixel (white), spatially correlated with the spectrum measured from the scan (measured), or decided from that measurement',
+});
+
 /** A given noise model σ²(x) = a·x + b: a ≥ 0, b finite, and a positive variance somewhere on 0…65535. */
 export function checkNoiseLevel(v: unknown): { a: number; b: number } {
   const d = CLEAN_NOISE_OPTIONS.noiseGain;

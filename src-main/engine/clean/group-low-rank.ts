@@ -21,6 +21,7 @@ import {
   smallTridiagonalEigen,
 } from '../linalg';
 import { lambdaStar } from './gavish-donoho';
+import { PatchWhitener } from './whiten-patches';
 
 export interface GroupParams {
   /** Patch side in pixels (4–12). */
@@ -42,6 +43,12 @@ export interface GroupParams {
    * the first-pass estimate; absent: one pass only.
    */
   wiener?: { groupSize: number; stride: number; searchRadius: number };
+  /**
+   * Correlated noise: relative noise variance of each coefficient of the patch's 2-D DCT (patch² values, mean 1;
+   * noise-psd-spectrum.ts). The low-rank pass then works on whitened patches (whiten-patches.ts) and the
+   * Wiener pass uses one variance per coefficient. Absent: white noise.
+   */
+  noiseSpectrum?: number[];
 }
 
 /**
@@ -73,6 +80,7 @@ export class GroupLowRank {
   private readonly tmp: Float64Array;
   private readonly coef: Float64Array;
   private readonly lanczos: LanczosArrays;
+  private whitener: { spectrum: number[]; map: PatchWhitener } | null = null;
 
   constructor(m: number, nMax: number, steps: number) {
     this.m = m;
@@ -94,6 +102,8 @@ export class GroupLowRank {
   estimate(n: number, sigma: number, params: GroupParams, out: Float64Array): number {
     const { m, Y, mean } = this;
     this.lastExact = false;
+    const whiten = params.noiseSpectrum?.length === m ? this.whitenerFor(params.noiseSpectrum) : null;
+    whiten?.forward(Y, n);
     for (let i = 0; i < m; i++) {
       let s = 0;
       for (let k = 0; k < n; k++) s += Y[i * n + k];
@@ -108,7 +118,15 @@ export class GroupLowRank {
     const tau = params.threshold ?? lambdaStar(beta) * Math.sqrt(big) * sigma;
     const r = this.project(n, tau, params.rank, out);
     for (let i = 0; i < m; i++) for (let k = 0; k < n; k++) out[i * n + k] += mean[i];
+    whiten?.inverse(out, n);
     return r;
+  }
+
+  /** The whitening map of a spectrum, built once per spectrum. */
+  private whitenerFor(spectrum: number[]): PatchWhitener {
+    if (this.whitener?.spectrum !== spectrum)
+      this.whitener = { spectrum, map: new PatchWhitener(spectrum, this.Y.length / this.m) };
+    return this.whitener.map;
   }
 
   /** Rank-r projection of the centred Y into out. */

@@ -7,6 +7,7 @@ import type {
   BandingReport,
   CleanMethodOptions,
   DenoiseMethod,
+  NoiseColourReport,
   NoiseModelReport,
   NoisePlaneReport,
 } from '../../contract';
@@ -18,6 +19,7 @@ import { bandingReport } from './banding-report';
 import { lambdaStar } from './gavish-donoho';
 import { estimateNoiseSigma } from './noise-estimate';
 import { planNoiseModel } from './noise-model';
+import { noiseColour, patchSpectrum } from './noise-psd-plan';
 import {
   autoGroupParams,
   denoiseBand,
@@ -63,6 +65,8 @@ export interface PreparedClean {
   noiseSkipped?: string;
   /** The fitted or given noise model (null when off or σ was given). */
   noiseModel: NoiseModelReport | null;
+  /** The noise's measured spatial colour, when it was found correlated or forced (noise-psd-plan.ts). */
+  noiseColour?: NoiseColourReport;
   /** Per colour channel variance-stabilising transforms (Poisson–Gaussian path), or null. */
   stabilisers: Stabiliser[] | null;
   method: DenoiseMethod | 'off';
@@ -171,9 +175,19 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
         corrected.length
       : sigmas[0];
   }
+  // Correlated noise (noise-psd-plan.ts), measured on the guide plane: its σ per pixel replaces the fine-scale one.
+  const given = typeof settings.noise === 'number' || plan.report?.source === 'given';
+  const stabilised = stabilisers !== null;
+  const dims = { width, height, maxValue, colour };
+  const tone = noiseColour(work[0], sigmas, noiseSigma, { ...dims, given, stabilised, settings });
+  ({ sigmas, noiseSigma } = tone);
   const noiseSource =
     typeof settings.noise === 'number' || plan.report?.source === 'given' ? 'given' : 'estimated';
-  const model = { noiseModel: plan.report, stabilisers };
+  const model = {
+    noiseModel: plan.report,
+    stabilisers,
+    ...(tone.report ? { noiseColour: tone.report } : {}),
+  };
   const active = sigmas
     .map((sg, c) =>
       c === 0 || noiseSource === 'given' || (sg * 255) / maxValue >= MIN_AUTO_SIGMA_8BIT ? c : -1,
@@ -215,6 +229,8 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     // A fixed rank or threshold is a request about the low-rank pass alone: the Wiener pass is left out.
     wiener: fixedOverride ? undefined : auto.wiener && { ...auto.wiener, stride: patch },
   };
+  const spectrum = patchSpectrum(tone.psd, patch);
+  if (spectrum) params.noiseSpectrum = spectrum;
   return { ...common, params, tile: null };
 }
 

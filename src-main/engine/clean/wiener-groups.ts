@@ -23,7 +23,7 @@ import type { BandJob, BandResult, GroupStats } from './patch-groups';
 import { type GroupKernels, groupKernels, WIENER_BASE, WIENER_SCRATCH_BYTES } from './wasm/runtime';
 
 /** Orthonormal DCT-II matrix of order n, row-major: C[f·n + t] (common definition). */
-function dctMatrix(n: number): Float64Array {
+export function dctMatrix(n: number): Float64Array {
   const C = new Float64Array(n * n);
   for (let f = 0; f < n; f++) {
     const s = f === 0 ? Math.sqrt(1 / n) : Math.sqrt(2 / n);
@@ -164,13 +164,17 @@ class GroupWiener {
     X.set(t.subarray(0, m * n));
   }
 
-  /** Writes the estimate of the group in Yn, Yb (n patches) to `out` and returns Σw² over all coefficients. */
-  estimate(n: number, sigma: number): number {
+  /**
+   * Writes the estimate of the group in Yn, Yb (n patches) to `out` and returns Σw² over all coefficients, or
+   * Σw²·d with a noise spectrum d (relative variance per 2-D DCT coefficient, correlated noise; Mäkinen, Azzari &
+   * Foi 2020; TypeScript path only).
+   */
+  estimate(n: number, sigma: number, spectrum?: number[]): number {
     const m = this.p * this.p;
     const { Yn, Yb, out } = this;
     const s2 = sigma * sigma;
     const k = this.kernels;
-    if (k && n >= 2 && (n & (n - 1)) === 0) {
+    if (k && !spectrum && n >= 2 && (n & (n - 1)) === 0) {
       const b = WIENER_BASE;
       const e = 8 * this.block;
       return k.exports.wienerGroupF64(
@@ -188,12 +192,21 @@ class GroupWiener {
     this.transform(Yn, n, false);
     this.transform(Yb, n, false);
     let w2 = 0;
-    for (let q = 0; q < m * n; q++) {
-      const b2 = Yb[q] * Yb[q];
-      const w = b2 / (b2 + s2);
-      w2 += w * w;
-      out[q] = w * Yn[q];
-    }
+    if (spectrum?.length === m)
+      for (let q = 0; q < m * n; q++) {
+        const d = spectrum[Math.floor(q / n)];
+        const b2 = Yb[q] * Yb[q];
+        const w = b2 / (b2 + s2 * d);
+        w2 += w * w * d;
+        out[q] = w * Yn[q];
+      }
+    else
+      for (let q = 0; q < m * n; q++) {
+        const b2 = Yb[q] * Yb[q];
+        const w = b2 / (b2 + s2);
+        w2 += w * w;
+        out[q] = w * Yn[q];
+      }
     this.transform(out, n, true);
     return w2;
   }
@@ -231,7 +244,7 @@ export function wienerGroupsBand(
           }
       }
       // Weight ∝ 1/(σ²·Σw²) (Dabov et al. 2007), scaled by m·n to sit beside the first pass's weights.
-      const w = (m * count) / Math.max(1e-12, gw.estimate(count, sigmas[c]));
+      const w = (m * count) / Math.max(1e-12, gw.estimate(count, sigmas[c], params.noiseSpectrum));
       agg.add(c, gw.out, count, posY, posX, p, w);
     }
   };

@@ -74,6 +74,7 @@ function buildReport(
     bitDepth: decoded.bitDepth,
     noiseSigma: prep.noiseSigma,
     noiseModel: prep.noiseModel,
+    ...(prep.noiseColour ? { noiseColour: prep.noiseColour } : {}),
     noiseSource: prep.noiseSource,
     noiseSigmaMedianRule: fin.noiseSigmaMedianRule,
     threshold: fin.threshold,

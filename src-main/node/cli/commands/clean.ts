@@ -6,6 +6,8 @@ import {
   type CleanReport,
   checkCleanOptions,
   type DenoiseMethod,
+  NOISE_COLOUR_OPTION,
+  type NoiseColourChoice,
   type NoiseModelChoice,
   type NumberOption,
   OPTIONS,
@@ -19,7 +21,7 @@ import { cleanFile } from '../../services/clean';
 import { type Command, flags, parseCommandArgs } from '../args/command';
 
 const options = flags(
-  'output noise noise-model banding rank threshold method patch group-size tile workers removed profile page pixel-limit',
+  'output noise noise-model noise-colour banding rank threshold method patch group-size tile workers removed profile page pixel-limit',
   'json force',
 );
 
@@ -41,6 +43,10 @@ cut at the Gavish–Donoho optimal hard threshold (2014), and the groups are ble
                       fitted from the scan, and when the noise clearly grows with brightness the scan is
                       cleaned under a variance-stabilising transform (generalized Anscombe); gaussian keeps
                       one σ for every brightness
+  --noise-colour C    ${NOISE_COLOUR_OPTION.values.join('|')} (default auto): with auto, the noise spectrum is
+                      measured on flat areas and, when the noise is clearly correlated from pixel to pixel
+                      (JPEG, demosaicking, resampling), each frequency is cleaned at its own noise level;
+                      white treats every frequency alike; measured always uses the measured spectrum
   --rank K            keep exactly K components per patch group instead of the threshold (${rangeText(OPTIONS.cleanRank)})
   --threshold T       keep singular values above T (grey levels) per group instead of the rule
   --method M          groups (default) or tiles (overlapping tiles with Hann blending; simpler, weaker)
@@ -98,6 +104,11 @@ export function formatCleanReport(r: CleanReport): string {
       lines.push(
         `  noise model: σ²(x) = ${fmt(m.a, 4)}·x + ${fmt(m.b, 3)} (${m.source}); ${m.model === 'poisson-gaussian' ? 'cleaned under the generalized Anscombe transform' : 'one σ for all levels'}: ${m.reason}`,
       );
+    const nc = r.noiseColour;
+    if (nc)
+      lines.push(
+        `  noise colour: ${nc.colour} (${nc.source}; flatness ${fmt(nc.flatness)}, neighbour correlation ${fmt(nc.lagOne)}, ${nc.blocks} flat blocks): ${nc.reason}`,
+      );
     const rank = r.rank;
     const how =
       rank?.fixed !== null && rank?.fixed !== undefined
@@ -145,6 +156,7 @@ export const command: Command = {
       noise: noiseText !== undefined && !noiseLevel ? parseNoiseText(noiseText) : 'auto',
       ...(noiseLevel ? { noiseLevel } : {}),
       noiseModel: str('noise-model') as NoiseModelChoice | undefined,
+      noiseColour: str('noise-colour') as NoiseColourChoice | undefined,
       banding: (str('banding') ?? 'auto') as BandingMode,
       rank: num(OPTIONS.cleanRank),
       threshold: num(OPTIONS.threshold),

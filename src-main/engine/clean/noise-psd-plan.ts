@@ -1,0 +1,149 @@
+/**
+ * Whether a clean models the noise as spatially correlated, and what that changes: the σ per pixel (the finest
+ * wavelet detail the white-noise estimate reads sees only the high frequencies, which correlated noise mostly
+ * lacks) and the per-coefficient noise spectrum that the patch-group passes use (group-low-rank.ts,
+ * wiener-groups.ts).
+ *
+ * With --noise-colour auto the measurement decides (noise-psd.ts: flatness and high-frequency share), and only
+ * where the white-noise estimate itself sees noise above rounding level: a noise-free smooth scan's flat
+ * blocks hold smooth signal, which looks like low-pass noise, and must not be "denoised" at that level.
+ */
+import type { CleanMethodOptions, NoiseColourChoice, NoiseColourReport } from '../../contract';
+import { estimateNoisePsd, type NoisePsd, PSD_LAG } from './noise-psd';
+import { dctNoiseVariances } from './noise-psd-spectrum';
+
+interface NoiseColourPlan {
+  /** For the report (null: auto and white, nothing to say beyond today's report). */
+  report: NoiseColourReport | null;
+  /** The measurement when the noise is modelled as correlated; null: white. */
+  psd: NoisePsd | null;
+}
+
+/**
+ * Decide the noise colour of `plane` (gray or luma), avoiding samples at or beyond the clip levels. `sigma8` is
+ * the white-noise estimate on the 8-bit scale, `floor8` the level below which auto sees no noise.
+ */
+function planNoiseColour(
+  plane: Float32Array,
+  { width, height }: { width: number; height: number },
+  [clipLow, clipHigh]: [number, number],
+  choice: NoiseColourChoice,
+  sigma8: number,
+  floor8: number,
+): NoiseColourPlan {
+  if (choice === 'white')
+    return {
+      psd: null,
+      report: colourReport('white', 'forced', 'forced with --noise-colour white', null),
+    };
+  const psd = estimateNoisePsd(plane, width, height, clipLow, clipHigh);
+  if (!psd)
+    return {
+      psd: null,
+      report:
+        choice === 'measured'
+          ? colourReport('white', 'forced', 'too few flat blocks to measure the noise spectrum', null)
+          : null,
+    };
+  if (choice === 'measured')
+    return { psd, report: colourReport('correlated', 'forced', 'forced with --noise-colour measured', psd) };
+  if (!psd.correlated) return { psd: null, report: null };
+  if (sigma8 < floor8)
+    return {
+      psd: null,
+      report: colourReport(
+        'white',
+        'measured',
+        'the spectrum looks correlated, but the fine-scale noise is below rounding level (smooth content, not noise)',
+        psd,
+      ),
+    };
+  return {
+    psd,
+    report: colourReport(
+      'correlated',
+      'measured',
+      `the noise spectrum is not flat (flatness ${psd.flatness.toFixed(2)}, high-frequency share ${psd.highShare.toFixed(2)}; white noise: 1)`,
+      psd,
+    ),
+  };
+}
+
+/** Below this σ on the 8-bit scale a white-noise estimate sees no noise (pipeline.ts MIN_AUTO_SIGMA_8BIT). */
+const ROUNDING_SIGMA_8BIT = 0.6;
+
+/**
+ * The pipeline's hook: decide the colour (not for tiles, and with a noise level given by the user only when
+ * forced), and with correlated noise replace the white-noise σ of every work plane by the measured σ per pixel
+ * (plane 0; the others scaled by the same ratio) unless it was given. On the Poisson–Gaussian path the guide is
+ * the variance-stabilised plane: the transform is smooth, so it keeps the noise's correlation, and the
+ * stabilised σ it was scaled to came from the fine-scale estimate, which correlated noise fools.
+ */
+export function noiseColour(
+  guide: Float32Array,
+  sigmas: number[],
+  noiseSigma: number,
+  o: {
+    width: number;
+    height: number;
+    maxValue: number;
+    colour: boolean;
+    given: boolean;
+    stabilised: boolean;
+    settings: Pick<CleanMethodOptions, 'noiseColour' | 'method'>;
+  },
+): NoiseColourPlan & { sigmas: number[]; noiseSigma: number } {
+  const choice = o.settings.noiseColour ?? 'auto';
+  const skip = (o.settings.method ?? 'groups') !== 'groups' || (o.given && choice !== 'measured');
+  if (skip) {
+    const why = o.given
+      ? 'a given noise level is taken as white noise'
+      : 'the tiles method takes the noise as white';
+    const report = choice === 'auto' ? null : colourReport('white', 'forced', `not measured: ${why}`, null);
+    return { psd: null, report, sigmas, noiseSigma };
+  }
+  const sigma8 = (sigmas[0] * 255) / o.maxValue;
+  // Clipped samples carry no noise: 0 and the maximum, or the extremes of a variance-stabilised plane.
+  let lo = 0;
+  let hi = o.maxValue;
+  if (o.stabilised) {
+    lo = Number.POSITIVE_INFINITY;
+    hi = Number.NEGATIVE_INFINITY;
+    for (const v of guide) {
+      if (v < lo) lo = v;
+      if (v > hi) hi = v;
+    }
+  }
+  const plan = planNoiseColour(guide, o, [lo, hi], choice, sigma8, ROUNDING_SIGMA_8BIT);
+  const psd = plan.psd;
+  if (!psd || o.given) return { ...plan, sigmas, noiseSigma };
+  const k = sigmas[0] > 0 ? psd.sigma / sigmas[0] : 1;
+  return {
+    ...plan,
+    sigmas: sigmas.map((s, c) => (c === 0 ? psd.sigma : s * k)),
+    noiseSigma: o.colour ? noiseSigma * k : psd.sigma,
+  };
+}
+
+/** The DCT noise spectrum for patches of side p, or undefined when p is beyond the measured lags. */
+export function patchSpectrum(psd: NoisePsd | null, p: number): number[] | undefined {
+  return psd && p <= PSD_LAG + 1 ? Array.from(dctNoiseVariances(psd, p)) : undefined;
+}
+
+function colourReport(
+  colour: NoiseColourReport['colour'],
+  source: NoiseColourReport['source'],
+  reason: string,
+  psd: NoisePsd | null,
+): NoiseColourReport {
+  return {
+    colour,
+    source,
+    reason,
+    sigma: psd?.sigma ?? null,
+    flatness: psd?.flatness ?? null,
+    highShare: psd?.highShare ?? null,
+    lagOne: psd?.lagOne ?? null,
+    blocks: psd?.blocks ?? 0,
+  };
+}
