@@ -8,7 +8,8 @@
  * - P. J. Huber, "Robust Statistics", Wiley 1981: the asymptotic variance of the trimmed mean at the
  *   normal (from memory).
  */
-import { medianInPlace } from './medians';
+import { keepBackground } from './band-profile';
+import { medianInPlace, runningMedian } from './medians';
 import { MAD_TO_SIGMA } from './noise-estimate';
 
 /**
@@ -28,7 +29,14 @@ export const TRIMMED_SE_FACTOR = 1.1789;
  */
 const MIN_TV_EXPLAINED = 0.75;
 
-/** nLines sampled lines of the axis, line-major (out[k·lineLen + x]); clipped pixels (0 or max) are NaN. */
+/** Half-width of the running median that tells ink from paper for the background-only lines (as the narrow pass's). */
+const BACKGROUND_HALF_WINDOW = 32;
+
+/**
+ * nLines sampled lines of the axis, line-major (out[k·lineLen + x]); clipped pixels (0 or max) are NaN.
+ * With `background`, pixels far from their line's running median (ink on paper, band-profile.ts
+ * keepBackground) are NaN too, so steps are measured on the paper alone.
+ */
 export function sampleLines(
   plane: ArrayLike<number>,
   width: number,
@@ -36,16 +44,33 @@ export function sampleLines(
   axis: 'rows' | 'columns',
   nLines: number,
   maxValue: number,
+  background = false,
 ): Float64Array {
   const lineLen = axis === 'columns' ? width : height;
   const lineCount = axis === 'columns' ? height : width;
   const out = new Float64Array(lineLen * nLines);
+  const k0 = (k: number) => (nLines === lineCount ? k : Math.floor(((k + 0.5) * lineCount) / nLines));
   for (let k = 0; k < nLines; k++) {
-    const li = nLines === lineCount ? k : Math.floor(((k + 0.5) * lineCount) / nLines);
+    const li = k0(k);
     for (let x = 0; x < lineLen; x++) {
       const v = axis === 'columns' ? plane[li * width + x] : plane[x * width + li];
       out[k * lineLen + x] = v <= 0 || v >= maxValue ? Number.NaN : v;
     }
+  }
+  if (background) {
+    const resid = new Float64Array(out.length);
+    const line = new Float64Array(lineLen);
+    const med = new Float64Array(lineLen);
+    const w = Math.max(2, Math.min(BACKGROUND_HALF_WINDOW, Math.floor(lineLen / 4)));
+    for (let k = 0; k < nLines; k++) {
+      const o = k * lineLen;
+      for (let x = 0; x < lineLen; x++)
+        line[x] = axis === 'columns' ? plane[k0(k) * width + x] : plane[x * width + k0(k)];
+      runningMedian(line, w, med);
+      for (let x = 0; x < lineLen; x++) resid[o + x] = line[x] - med[x];
+    }
+    keepBackground(resid, new Float64Array(Math.min(resid.length, 1 << 16)));
+    for (let i = 0; i < out.length; i++) if (Number.isNaN(resid[i])) out[i] = Number.NaN;
   }
   return out;
 }

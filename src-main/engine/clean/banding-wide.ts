@@ -22,6 +22,8 @@
  *    analysed on its own: an edge that one half finds and the whole missed (content on the other half hid
  *    it) is added only when the other half shows a step of the same sign and similar size there, and
  *    otherwise nothing is removed at all.
+ * 5. On text pages (banding.ts calls it again when the narrow profile follows the lines of text and this
+ *    pass found nothing) ink hides the band edges: the steps are then measured on the paper alone.
  *
  * References
  * - J. W. Tukey, "Exploratory Data Analysis", Addison-Wesley 1977: medians and trimmed means as robust
@@ -54,7 +56,8 @@ const MAX_STEP_SPREAD = 2;
 const MIN_STRENGTH_8BIT = 0.3;
 /**
  * A band has two edges; a single step across the whole image is as likely a horizon, a page edge or an
- * illumination boundary (content), so at least two are needed (chosen here).
+ * illumination boundary (content), so at least two are needed (chosen here), except on the paper of a
+ * text page (wideBandProfile's `background`).
  */
 const MIN_STEPS = 2;
 /** Bands narrower than this are the narrow pass's (its window is 65 px; chosen here). */
@@ -107,18 +110,23 @@ interface Lines {
   maxValue: number;
 }
 
-/** The wide-band profile of one axis of `plane` ('columns': offsets per column; 'rows': per row). */
+/**
+ * The wide-band profile of one axis of `plane` ('columns': offsets per column; 'rows': per row). With
+ * `background` (text pages) the steps are measured on the paper alone (banding-wide-checks.ts sampleLines),
+ * and one edge is enough: a full-length step in the paper is the lamp or the sensor, not a horizon.
+ */
 export function wideBandProfile(
   plane: ArrayLike<number>,
   width: number,
   height: number,
   axis: 'rows' | 'columns',
   maxValue: number,
+  background = false,
 ): WideBands {
   const lineLen = axis === 'columns' ? width : height;
   const lineCount = axis === 'columns' ? height : width;
   const nLines = Math.min(lineCount, MAX_SAMPLE_LINES);
-  const levels = sampleLines(plane, width, height, axis, nLines, maxValue);
+  const levels = sampleLines(plane, width, height, axis, nLines, maxValue, background);
   const diffs = new Float64Array(Math.max(0, lineLen - 1) * nLines);
   for (let k = 0; k < nLines; k++)
     for (let x = 0; x + 1 < lineLen; x++)
@@ -127,7 +135,7 @@ export function wideBandProfile(
   const whole = edgeProfile(lines, 0, nLines);
   const { profile } = whole;
   let detected =
-    whole.steps >= MIN_STEPS &&
+    whole.steps >= (background ? 1 : MIN_STEPS) &&
     rms(profile) >= (MIN_STRENGTH_8BIT * maxValue) / 255 &&
     rms(profile) >= 3 * whole.noiseFloor &&
     explainsLevels(plane, width, height, axis, profile, nLines);

@@ -108,7 +108,10 @@ function addWideBands(
   narrowRemoved: boolean,
   maxValue: number,
 ): boolean {
-  const wide = wideBandProfile(rest, width, height, p.axis, maxValue);
+  let wide = wideBandProfile(rest, width, height, p.axis, maxValue);
+  // Lines of text (the narrow profile's spread follows content) hide band edges behind ink: the paper alone.
+  if (!wide.detected && p.spreadRatio > MAX_SPREAD_RATIO)
+    wide = wideBandProfile(rest, width, height, p.axis, maxValue, true);
   if (!wide.detected) return false;
   for (let i = 0; i < p.profile.length; i++)
     p.profile[i] = (narrowRemoved ? p.profile[i] : 0) + wide.profile[i];

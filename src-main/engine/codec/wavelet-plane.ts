@@ -19,7 +19,15 @@ import { bandSteps, DEAD_ZONE_RHO } from './band-steps';
 import { recallCode, rememberCode } from './coded-planes';
 import { decodeCoefficientsV2, encodeCoefficientsV2, reconstructionOffsetsV2 } from './coeff-coder';
 import { decodeCoefficientsV1, encodeCoefficientsV1 } from './coeff-coder-v1';
-import { type Band, bandsFor, forwardWavelet, inverseWavelet, levelsFor } from './wavelet-transform';
+import { quantiseWasm, reconstructWasm } from './wasm/runtime';
+import {
+  type Band,
+  bandsFor,
+  inverseWavelet,
+  LIFTING,
+  levelsFor,
+  transformedCopy,
+} from './wavelet-transform';
 
 export { estimateBits, estimateSquaredError } from './wavelet-estimate';
 
@@ -65,12 +73,8 @@ export function analysePlane(plane: ArrayLike<number>, width: number, height: nu
   const n = width * height;
   if (plane.length !== n)
     throw new RangeError(`plane has ${plane.length} samples; expected ${width}×${height}`);
-  // A typed array's set copies without the iterator protocol Float64Array.from would walk.
-  const x = new Float64Array(n);
-  if (ArrayBuffer.isView(plane)) x.set(plane as unknown as ArrayLike<number>);
-  else for (let i = 0; i < n; i++) x[i] = plane[i];
   const levels = levelsFor(width, height);
-  forwardWavelet(x, width, height, levels);
+  const x = transformedCopy(plane, width, height, levels);
   const bands = bandsFor(width, height, levels);
   return { width, height, levels, bands, map: bandIndexMap(width, height, bands), coeffs: x };
 }
@@ -107,10 +111,16 @@ function zeroThreshold(d: number, rho: number): number {
  */
 function quantise(a: AnalysedPlane, steps: Float64Array, q: Int32Array): number {
   const { width, bands, coeffs: x } = a;
+  const rhoOf = (b: Band) => (b.orient === 0 ? 0.5 : DEAD_ZONE_RHO);
+  const fast = quantiseWasm(x, q, width, bands, (bi) => {
+    const rho = rhoOf(bands[bi]);
+    return [steps[bi], rho, zeroThreshold(steps[bi], rho)];
+  });
+  if (fast !== null) return fast;
   let nonZero = 0;
   for (let bi = 0; bi < bands.length; bi++) {
     const b = bands[bi];
-    const rho = b.orient === 0 ? 0.5 : DEAD_ZONE_RHO;
+    const rho = rhoOf(b);
     const d = steps[bi];
     const zero = zeroThreshold(d, rho);
     for (let y = 0; y < b.h; y++) {
@@ -243,6 +253,11 @@ function dequantise(
   levels: number,
   bands: Band[],
 ): Float64Array {
+  const { steps, offsets } = c;
+  const par = (bi: number): [number, number, number] =>
+    offsets ? [steps[bi], offsets[2 * bi], offsets[2 * bi + 1]] : [steps[bi], 0, 0];
+  const fast = reconstructWasm(c.q, width, height, levels, bands, par, LIFTING);
+  if (fast) return fast;
   const x = new Float64Array(width * height);
   dequantiseInto(c, bands, width, x);
   inverseWavelet(x, width, height, levels);

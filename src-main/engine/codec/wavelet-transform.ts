@@ -12,11 +12,15 @@
  *   IEEE TPAMI 11(7):674–693, 1989 (the dyadic 2-D decomposition).
  */
 
+import { waveletWasm } from './wasm/runtime';
+
 const ALPHA = -1.586134342059924;
 const BETA = -0.052980118572961;
 const GAMMA = 0.882911075530934;
 const DELTA = 0.443506852043971;
 const ZETA = 1.149604398860241;
+/** The coefficients as the WebAssembly kernels take them (./wasm/runtime.ts). */
+export const LIFTING: readonly number[] = [ALPHA, BETA, GAMMA, DELTA, ZETA];
 
 /** Smallest side a level may split (below it the filters see mostly boundary extension). */
 const MIN_SIDE = 12;
@@ -169,8 +173,33 @@ function invCols(x: Float64Array, width: number, w: number, h: number, buf: Floa
   }
 }
 
-/** In-place 2-D forward transform (Mallat layout). */
+/**
+ * A copy of `plane` (width×height samples) forward-transformed: in the WebAssembly kernels where available,
+ * else in TypeScript; the same bits either way.
+ */
+export function transformedCopy(
+  plane: ArrayLike<number>,
+  width: number,
+  height: number,
+  levels: number,
+): Float64Array {
+  const n = width * height;
+  const x = new Float64Array(n);
+  if (levels > 0 && waveletWasm(plane, x, width, height, levels, LIFTING, false)) return x;
+  // A typed array's set copies without the iterator protocol Float64Array.from would walk.
+  if (ArrayBuffer.isView(plane)) x.set(plane as unknown as ArrayLike<number>);
+  else for (let i = 0; i < n; i++) x[i] = plane[i];
+  forwardWaveletTs(x, width, height, levels);
+  return x;
+}
+
+/** In-place 2-D forward transform (Mallat layout); in the WebAssembly kernels where available. */
 export function forwardWavelet(x: Float64Array, width: number, height: number, levels: number): void {
+  if (levels > 0 && waveletWasm(x, x, width, height, levels, LIFTING, false)) return;
+  forwardWaveletTs(x, width, height, levels);
+}
+
+function forwardWaveletTs(x: Float64Array, width: number, height: number, levels: number): void {
   const tmp = new Float64Array(Math.max(width, height));
   const buf = new Float64Array(height * STRIP);
   let w = width;
@@ -183,8 +212,9 @@ export function forwardWavelet(x: Float64Array, width: number, height: number, l
   }
 }
 
-/** In-place 2-D inverse transform. */
+/** In-place 2-D inverse transform; in the WebAssembly kernels where available. */
 export function inverseWavelet(x: Float64Array, width: number, height: number, levels: number): void {
+  if (levels > 0 && waveletWasm(x, x, width, height, levels, LIFTING, true)) return;
   const tmp = new Float64Array(Math.max(width, height));
   const buf = new Float64Array(height * STRIP);
   const ws = [width];

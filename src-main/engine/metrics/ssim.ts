@@ -15,10 +15,11 @@
  * Speed: the 2-D window is separable (w = g⊗g) and symmetric, so each of the five local sums
  * (x, y, x², y², xy) is a horizontal 11-tap pass followed by a vertical 11-tap pass over a ring of 11
  * filtered rows, adding mirrored samples before multiplying: O(N) time, O(11·W) memory. All
- * accumulation is in float64.
+ * accumulation is in float64. Where WebAssembly SIMD is available the rows run in ./wasm (bit-identical).
  */
 import { invalidParameterError } from '../../contract';
 import { checkPlaneLists } from './psnr';
+import { releaseRing, type SsimRing, ssimRowsWasm } from './wasm/runtime';
 
 export interface SsimOptions {
   /** K1 stabiliser. Default 0.01 (Wang et al. 2004). */
@@ -144,6 +145,8 @@ export class SsimStream {
   private readonly ryy: Float64Array;
   private readonly rxy: Float64Array;
   private readonly offs: Int32Array;
+  /** The state the WebAssembly kernel works on (./wasm/runtime). */
+  private readonly kernelState: SsimRing;
   private y = 0;
   private total = 0;
 
@@ -183,12 +186,21 @@ export class SsimStream {
     this.ryy = new Float64Array(width);
     this.rxy = new Float64Array(width);
     this.offs = new Int32Array(2 * radius);
+    this.kernelState = { width, R: radius, g: this.g, ring: this.ring, C1: this.C1, C2: this.C2 };
   }
 
   /** Add the next `rows` rows of both planes, starting at a[aOff] and b[bOff] (row stride = width). */
   addRows(a: ArrayLike<number>, b: ArrayLike<number>, rows: number, aOff = 0, bOff = 0): void {
     if (this.y + rows > this.height)
       throw new RangeError(`SsimStream: ${this.y + rows} rows added to a plane of ${this.height}`);
+    const k = this.kernelState;
+    const fast = ssimRowsWasm(k, a, b, aOff, bOff, this.y, rows, this.side - 1, this.total, null);
+    if (fast !== null) {
+      this.total = fast;
+      this.y += rows;
+      return;
+    }
+    releaseRing(k);
     for (let i = 0; i < rows; i++) {
       this.filterRow(a, b, aOff + i * this.width, bOff + i * this.width, this.y);
       if (this.y >= this.side - 1) this.total += this.windowRow(this.y);
@@ -207,6 +219,7 @@ export class SsimStream {
   skipIdentical(n: number, a: ArrayLike<number>, aOff = 0): void {
     if (this.y !== 0 || n < 0 || n > this.height)
       throw new RangeError(`SsimStream: skipIdentical(${n}) after ${this.y} rows of ${this.height}`);
+    releaseRing(this.kernelState);
     const windows = Math.max(0, n - this.side + 1);
     for (let i = 0; i < windows; i++) this.total += this.wv;
     for (let y = Math.max(0, n - 2 * this.R); y < n; y++) {
@@ -229,6 +242,12 @@ export class SsimStream {
       throw new RangeError(`SsimStream: window rows ${from}…${to} of ${this.hv} on a fresh stream only`);
     const out = new Float64Array(to - from);
     const last = to + this.side - 1;
+    const first = from + this.side - 1;
+    if (ssimRowsWasm(this.kernelState, a, b, 0, 0, from, last - from, first, 0, out) !== null) {
+      this.y = this.height;
+      return out;
+    }
+    releaseRing(this.kernelState);
     for (let y = from; y < last; y++) {
       const off = (y - from) * this.width;
       this.filterRow(a, b, off, off, y);

@@ -1,0 +1,348 @@
+// AssemblyScript source of the codec's numeric kernels (compiled by scripts/build.mjs): the CDF 9/7 lifting,
+// forward and inverse, over a whole plane in Mallat layout, and the plane coder's dead-zone quantiser and
+// reconstruction. All pointers are byte offsets into the imported memory; the host (../runtime.ts) owns
+// allocation.
+//
+// Every sample goes through the same IEEE f64 operations in the same order as the TypeScript reference
+// (../../wavelet-transform.ts, ../../wavelet-plane.ts), so results are bit-identical: f64x2 lanes carry two
+// rows (row pass) or two columns (column pass) through the scalar arithmetic, and WebAssembly has no fused
+// multiply-add outside relaxed SIMD, which is not enabled. The lifting coefficients come from the host
+// (`coef`: α, β, γ, δ, ζ as f64), so they are the very doubles the TypeScript uses.
+//
+// References: Daubechies & Sweldens, "Factoring wavelet transforms into lifting steps", J. Fourier Anal.
+// Appl. 4(3), 1998, §7 (the 9/7 lifting steps); Mallat, IEEE TPAMI 11(7), 1989 (the 2-D layout).
+
+/** Columns per strip of the column pass (the TypeScript's STRIP; any width gives the same bits). */
+const STRIP: i32 = 32;
+
+// ------------------------------------------------------------------ one lifting step on f64x2 pairs
+// b[i] += c·(a[i] + a[min(i+1, na−1)]) (predict) and a[i] += c·(b[max(i−1, 0)] + b[min(i, nb−1)]) (update),
+// on arrays of v128 (two independent signals, one per lane).
+
+@inline function liftHighV(a: usize, na: i32, b: usize, nb: i32, c: v128): void {
+  const last = na - 1;
+  for (let i = 0; i < nb; i++) {
+    const j = i + 1 < last ? i + 1 : last;
+    const pb = b + (<usize>i << 4);
+    const s = f64x2.add(v128.load(a + (<usize>i << 4)), v128.load(a + (<usize>j << 4)));
+    v128.store(pb, f64x2.add(v128.load(pb), f64x2.mul(c, s)));
+  }
+}
+
+@inline function liftLowV(a: usize, na: i32, b: usize, nb: i32, c: v128): void {
+  const last = nb - 1;
+  if (na > 0) {
+    const s = f64x2.add(v128.load(b), v128.load(b + (<usize>(0 < last ? 0 : last) << 4)));
+    v128.store(a, f64x2.add(v128.load(a), f64x2.mul(c, s)));
+  }
+  for (let i = 1; i < na; i++) {
+    const j = i < last ? i : last;
+    const pa = a + (<usize>i << 4);
+    const s = f64x2.add(v128.load(b + (<usize>(i - 1) << 4)), v128.load(b + (<usize>j << 4)));
+    v128.store(pa, f64x2.add(v128.load(pa), f64x2.mul(c, s)));
+  }
+}
+
+@inline function pair(a: f64, b: f64): v128 {
+  return f64x2.replace_lane(f64x2.splat(a), 1, b);
+}
+
+// ------------------------------------------------------------------ row pass, two rows at a time
+// r0 and r1 are the two rows (r1 = r0 for a lone last row: both lanes then compute the same values, and
+// every read happens before the first write). tmp holds n v128: nL lows then nH highs.
+
+function fwdRows(r0: usize, r1: usize, n: i32, tmp: usize, k: usize): void {
+  if (n < 2) return;
+  const nL = (n + 1) >> 1;
+  const nH = n >> 1;
+  const L = tmp;
+  const H = tmp + (<usize>nL << 4);
+  for (let i = 0; i < nH; i++) {
+    const a = v128.load(r0 + (<usize>i << 4));
+    const b = v128.load(r1 + (<usize>i << 4));
+    v128.store(L + (<usize>i << 4), v128.shuffle<f64>(a, b, 0, 2));
+    v128.store(H + (<usize>i << 4), v128.shuffle<f64>(a, b, 1, 3));
+  }
+  if (n & 1) v128.store(L + (<usize>(nL - 1) << 4), pair(load<f64>(r0 + (<usize>(n - 1) << 3)), load<f64>(r1 + (<usize>(n - 1) << 3))));
+  liftHighV(L, nL, H, nH, v128.load64_splat(k));
+  liftLowV(L, nL, H, nH, v128.load64_splat(k + 8));
+  liftHighV(L, nL, H, nH, v128.load64_splat(k + 16));
+  liftLowV(L, nL, H, nH, v128.load64_splat(k + 24));
+  const z = v128.load64_splat(k + 32);
+  storeRows(r0, r1, 0, L, nL, z, true);
+  storeRows(r0, r1, nL, H, nH, z, false);
+}
+
+/** x0[at+i], x1[at+i] = lanes of src[i] / z (div) or src[i] · z, i < m. */
+@inline function storeRows(r0: usize, r1: usize, at: i32, src: usize, m: i32, z: v128, div: bool): void {
+  let i = 0;
+  const o0 = r0 + (<usize>at << 3);
+  const o1 = r1 + (<usize>at << 3);
+  for (; i + 1 < m; i += 2) {
+    const p = src + (<usize>i << 4);
+    const u = div ? f64x2.div(v128.load(p), z) : f64x2.mul(v128.load(p), z);
+    const v = div ? f64x2.div(v128.load(p, 16), z) : f64x2.mul(v128.load(p, 16), z);
+    v128.store(o0 + (<usize>i << 3), v128.shuffle<f64>(u, v, 0, 2));
+    v128.store(o1 + (<usize>i << 3), v128.shuffle<f64>(u, v, 1, 3));
+  }
+  if (i < m) {
+    const p = src + (<usize>i << 4);
+    const u = div ? f64x2.div(v128.load(p), z) : f64x2.mul(v128.load(p), z);
+    store<f64>(o0 + (<usize>i << 3), f64x2.extract_lane(u, 0));
+    store<f64>(o1 + (<usize>i << 3), f64x2.extract_lane(u, 1));
+  }
+}
+
+/** dst[i] = lanes (x0[at+i], x1[at+i]) · z (mul) or / z, i < m. */
+@inline function loadRows(r0: usize, r1: usize, at: i32, dst: usize, m: i32, z: v128, mul: bool): void {
+  let i = 0;
+  const o0 = r0 + (<usize>at << 3);
+  const o1 = r1 + (<usize>at << 3);
+  for (; i + 1 < m; i += 2) {
+    const a = v128.load(o0 + (<usize>i << 3));
+    const b = v128.load(o1 + (<usize>i << 3));
+    const u = v128.shuffle<f64>(a, b, 0, 2);
+    const v = v128.shuffle<f64>(a, b, 1, 3);
+    const p = dst + (<usize>i << 4);
+    v128.store(p, mul ? f64x2.mul(u, z) : f64x2.div(u, z));
+    v128.store(p, mul ? f64x2.mul(v, z) : f64x2.div(v, z), 16);
+  }
+  if (i < m) {
+    const u = pair(load<f64>(o0 + (<usize>i << 3)), load<f64>(o1 + (<usize>i << 3)));
+    v128.store(dst + (<usize>i << 4), mul ? f64x2.mul(u, z) : f64x2.div(u, z));
+  }
+}
+
+function invRows(r0: usize, r1: usize, n: i32, tmp: usize, k: usize): void {
+  if (n < 2) return;
+  const nL = (n + 1) >> 1;
+  const nH = n >> 1;
+  const L = tmp;
+  const H = tmp + (<usize>nL << 4);
+  const z = v128.load64_splat(k + 32);
+  loadRows(r0, r1, 0, L, nL, z, true);
+  loadRows(r0, r1, nL, H, nH, z, false);
+  liftLowV(L, nL, H, nH, f64x2.neg(v128.load64_splat(k + 24)));
+  liftHighV(L, nL, H, nH, f64x2.neg(v128.load64_splat(k + 16)));
+  liftLowV(L, nL, H, nH, f64x2.neg(v128.load64_splat(k + 8)));
+  liftHighV(L, nL, H, nH, f64x2.neg(v128.load64_splat(k)));
+  for (let i = 0; i < nH; i++) {
+    const l = v128.load(L + (<usize>i << 4));
+    const h = v128.load(H + (<usize>i << 4));
+    v128.store(r0 + (<usize>i << 4), v128.shuffle<f64>(l, h, 0, 2));
+    v128.store(r1 + (<usize>i << 4), v128.shuffle<f64>(l, h, 1, 3));
+  }
+  if (n & 1) {
+    const l = v128.load(L + (<usize>(nL - 1) << 4));
+    store<f64>(r0 + (<usize>(n - 1) << 3), f64x2.extract_lane(l, 0));
+    store<f64>(r1 + (<usize>(n - 1) << 3), f64x2.extract_lane(l, 1));
+  }
+}
+
+// ------------------------------------------------------------------ column pass, in strips
+// A strip of h rows × sw columns is lifted in buf (row i of the strip buffer holds sw samples), lows then
+// highs, with the neighbour row index clamped: per sample the arithmetic of the 1-D lifting on the column.
+
+function liftStrip(buf: usize, nL: i32, nH: i32, sw: i32, c: f64, high: bool): void {
+  const n = high ? nH : nL;
+  const cv = f64x2.splat(c);
+  const rs = <usize>sw << 3;
+  for (let i = 0; i < n; i++) {
+    const row = buf + <usize>(high ? nL + i : i) * rs;
+    const a = buf + <usize>(high ? i : nL + (i > 0 ? i - 1 : 0)) * rs;
+    const b = buf + <usize>(high ? (i + 1 < nL ? i + 1 : nL - 1) : nL + (i < nH ? i : nH - 1)) * rs;
+    let k = 0;
+    for (; k + 1 < sw; k += 2) {
+      const o = <usize>k << 3;
+      const s = f64x2.add(v128.load(a + o), v128.load(b + o));
+      v128.store(row + o, f64x2.add(v128.load(row + o), f64x2.mul(cv, s)));
+    }
+    if (k < sw) {
+      const o = <usize>k << 3;
+      store<f64>(row + o, load<f64>(row + o) + c * (load<f64>(a + o) + load<f64>(b + o)));
+    }
+  }
+}
+
+/** dst[k] = src[k] / z (div) or src[k] · z for k < sw. */
+@inline function scaleRow(dst: usize, src: usize, sw: i32, z: f64, div: bool): void {
+  const zv = f64x2.splat(z);
+  let k = 0;
+  for (; k + 1 < sw; k += 2) {
+    const o = <usize>k << 3;
+    const v = v128.load(src + o);
+    v128.store(dst + o, div ? f64x2.div(v, zv) : f64x2.mul(v, zv));
+  }
+  if (k < sw) {
+    const o = <usize>k << 3;
+    store<f64>(dst + o, div ? load<f64>(src + o) / z : load<f64>(src + o) * z);
+  }
+}
+
+function fwdCols(x: usize, width: i32, w: i32, h: i32, buf: usize, k: usize): void {
+  if (h < 2) return;
+  const nL = (h + 1) >> 1;
+  const nH = h >> 1;
+  const z = load<f64>(k + 32);
+  for (let k0 = 0; k0 < w; k0 += STRIP) {
+    const sw = min(STRIP, w - k0);
+    const rs = <usize>sw << 3;
+    for (let i = 0; i < h; i++) {
+      const d = <usize>(i & 1 ? nL + (i >> 1) : i >> 1) * rs;
+      memory.copy(buf + d, x + ((<usize>i * <usize>width + <usize>k0) << 3), rs);
+    }
+    liftStrip(buf, nL, nH, sw, load<f64>(k), true);
+    liftStrip(buf, nL, nH, sw, load<f64>(k + 8), false);
+    liftStrip(buf, nL, nH, sw, load<f64>(k + 16), true);
+    liftStrip(buf, nL, nH, sw, load<f64>(k + 24), false);
+    for (let i = 0; i < h; i++) {
+      const o = x + ((<usize>i * <usize>width + <usize>k0) << 3);
+      scaleRow(o, buf + <usize>i * rs, sw, z, i < nL);
+    }
+  }
+}
+
+function invCols(x: usize, width: i32, w: i32, h: i32, buf: usize, k: usize): void {
+  if (h < 2) return;
+  const nL = (h + 1) >> 1;
+  const nH = h >> 1;
+  const z = load<f64>(k + 32);
+  for (let k0 = 0; k0 < w; k0 += STRIP) {
+    const sw = min(STRIP, w - k0);
+    const rs = <usize>sw << 3;
+    for (let i = 0; i < h; i++) {
+      const o = x + ((<usize>i * <usize>width + <usize>k0) << 3);
+      scaleRow(buf + <usize>i * rs, o, sw, z, i >= nL);
+    }
+    liftStrip(buf, nL, nH, sw, -load<f64>(k + 24), false);
+    liftStrip(buf, nL, nH, sw, -load<f64>(k + 16), true);
+    liftStrip(buf, nL, nH, sw, -load<f64>(k + 8), false);
+    liftStrip(buf, nL, nH, sw, -load<f64>(k), true);
+    for (let i = 0; i < h; i++) {
+      const s = <usize>(i & 1 ? nL + (i >> 1) : i >> 1) * rs;
+      memory.copy(x + ((<usize>i * <usize>width + <usize>k0) << 3), buf + s, rs);
+    }
+  }
+}
+
+// ------------------------------------------------------------------ the 2-D transforms
+
+/**
+ * In-place forward 9/7 transform of the width×height plane at x, `levels` levels. tmp: 16·max(width, height)
+ * bytes; buf: 8·STRIP·height bytes; k: α, β, γ, δ, ζ (f64).
+ */
+export function forward97(x: usize, width: i32, height: i32, levels: i32, tmp: usize, buf: usize, k: usize): void {
+  let w = width;
+  let h = height;
+  const rs = <usize>width << 3;
+  for (let l = 0; l < levels; l++) {
+    let y = 0;
+    for (; y + 1 < h; y += 2) fwdRows(x + <usize>y * rs, x + <usize>(y + 1) * rs, w, tmp, k);
+    if (y < h) fwdRows(x + <usize>y * rs, x + <usize>y * rs, w, tmp, k);
+    fwdCols(x, width, w, h, buf, k);
+    w = (w + 1) >> 1;
+    h = (h + 1) >> 1;
+  }
+}
+
+/** In-place inverse of {@link forward97}; same scratch sizes. */
+export function inverse97(x: usize, width: i32, height: i32, levels: i32, tmp: usize, buf: usize, k: usize): void {
+  const rs = <usize>width << 3;
+  for (let l = levels - 1; l >= 0; l--) {
+    let w = width;
+    let h = height;
+    for (let i = 0; i < l; i++) {
+      w = (w + 1) >> 1;
+      h = (h + 1) >> 1;
+    }
+    invCols(x, width, w, h, buf, k);
+    let y = 0;
+    for (; y + 1 < h; y += 2) invRows(x + <usize>y * rs, x + <usize>(y + 1) * rs, w, tmp, k);
+    if (y < h) invRows(x + <usize>y * rs, x + <usize>y * rs, w, tmp, k);
+  }
+}
+
+// ------------------------------------------------------------------ quantiser, reconstruction, error
+// Bands: `geo` holds per band x0, y0, w, h (i32); `par` holds per band step Δ, rounding offset ρ (or the
+// reconstruction offsets d1, d2), zero threshold (f64, 4 per band).
+
+/**
+ * ECMAScript ToInt32 of an integral f64 (what storing it into an Int32Array does): the value modulo 2^32 in
+ * [−2^31, 2^31), 0 for ±∞ and NaN. Only steps far below the coder's safe range reach the slow branch.
+ */
+@inline function toInt32(v: f64): i32 {
+  if (abs<f64>(v) < 2147483648.0) return <i32>v;
+  if (!isFinite<f64>(v)) return 0;
+  const r = v - floor<f64>(v / 4294967296.0) * 4294967296.0;
+  return <i32><i64>r;
+}
+
+/** q entries per chunk of the non-zero map (4 KiB of i32: the host copies out only chunks holding non-zeros). */
+const CHUNK_BITS = 10;
+const CHUNK: i32 = 1 << CHUNK_BITS;
+
+/**
+ * Dead-zone quantisation q = sign(c)·⌊|c|/Δ + ρ⌋ of every coefficient (zeros written too); |c| ≤ the band's
+ * zero threshold is 0 without dividing, as in the TypeScript. flags[j] (u8) is set to 1 when q entries
+ * j·CHUNK … (j+1)·CHUNK − 1 hold a non-zero, else 0 (n entries in all). Returns the number of non-zero q.
+ */
+export function quantise(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, flags: usize, n: i32): i32 {
+  memory.fill(flags, 0, <usize>((n + CHUNK - 1) >> CHUNK_BITS));
+  let nonZero = 0;
+  for (let bi = 0; bi < nb; bi++) {
+    const g = geo + (<usize>bi << 4);
+    const p = par + (<usize>bi << 5);
+    const x0 = load<i32>(g);
+    const y0 = load<i32>(g, 4);
+    const bw = load<i32>(g, 8);
+    const bh = load<i32>(g, 12);
+    const d = load<f64>(p);
+    const rho = load<f64>(p, 8);
+    const zero = load<f64>(p, 16);
+    for (let y = 0; y < bh; y++) {
+      const row = <usize>(y0 + y) * <usize>width + <usize>x0;
+      for (let i: usize = 0; i < <usize>bw; i++) {
+        const c = load<f64>(x + ((row + i) << 3));
+        const ac = abs<f64>(c);
+        let v: i32 = 0;
+        if (ac > zero) {
+          const m = floor<f64>(ac / d + rho);
+          if (m != 0) {
+            v = toInt32(c < 0 ? -m : m);
+            nonZero++;
+            store<u8>(flags + ((row + i) >> CHUNK_BITS), 1);
+          }
+        }
+        store<i32>(q + ((row + i) << 2), v);
+      }
+    }
+  }
+  return nonZero;
+}
+
+/** (v ± δ)·Δ with δ = d1 for |v| = 1 and d2 for |v| ≥ 2 (v ≠ 0), the TypeScript's `rebuilt`. */
+@inline function rebuilt(v: f64, step: f64, d1: f64, d2: f64): f64 {
+  return (v < 0 ? v - (v == -1 ? d1 : d2) : v + (v == 1 ? d1 : d2)) * step;
+}
+
+/** x = rebuilt(q) for q ≠ 0, else 0, over every band (par: Δ, d1, d2 per band). */
+export function dequantise(q: usize, x: usize, width: i32, nb: i32, geo: usize, par: usize): void {
+  for (let bi = 0; bi < nb; bi++) {
+    const g = geo + (<usize>bi << 4);
+    const p = par + (<usize>bi << 5);
+    const x0 = load<i32>(g);
+    const y0 = load<i32>(g, 4);
+    const bw = load<i32>(g, 8);
+    const bh = load<i32>(g, 12);
+    const step = load<f64>(p);
+    const d1 = load<f64>(p, 8);
+    const d2 = load<f64>(p, 16);
+    for (let y = 0; y < bh; y++) {
+      const row = <usize>(y0 + y) * <usize>width + <usize>x0;
+      for (let i: usize = 0; i < <usize>bw; i++) {
+        const v = load<i32>(q + ((row + i) << 2));
+        store<f64>(x + ((row + i) << 3), v != 0 ? rebuilt(<f64>v, step, d1, d2) : 0);
+      }
+    }
+  }
+}

@@ -1,0 +1,163 @@
+/**
+ * The codec's WebAssembly SIMD kernels (./assembly/lifting.ts): the 9/7 lifting and the plane coder's
+ * quantiser and reconstruction, each bit-identical to its TypeScript reference in
+ * ../wavelet-transform.ts and ../wavelet-plane.ts. Every function here returns null (or false) when the
+ * kernels are unavailable (no SIMD, not yet compiled on a page, disabled by a test, or memory exhausted); the
+ * caller then runs the TypeScript reference, with the same results.
+ *
+ * Memory layout of one call (byte offsets): the lifting coefficients and the band tables in the first page,
+ * then the plane's samples from {@link DATA}, then the call's other arrays.
+ */
+import { LazyKernel, type LoadedKernel, reserveBytes } from '../../metrics/wasm/loader';
+import { wasmBase64 } from './generated/lifting';
+
+interface LiftingExports {
+  forward97(x: number, w: number, h: number, levels: number, tmp: number, buf: number, k: number): void;
+  inverse97(x: number, w: number, h: number, levels: number, tmp: number, buf: number, k: number): void;
+  quantise(
+    x: number,
+    q: number,
+    width: number,
+    nb: number,
+    geo: number,
+    par: number,
+    flags: number,
+    n: number,
+  ): number;
+  dequantise(q: number, x: number, width: number, nb: number, geo: number, par: number): void;
+}
+
+const lifting = new LazyKernel<LiftingExports>(wasmBase64);
+
+/** Where the tables live (past any static data of the module, which has none today). */
+const COEF = 16384;
+const GEO = COEF + 256;
+const PAR = GEO + 1024;
+/** Start of the bulk arrays (one page in, 16-byte aligned). */
+const DATA = 65536;
+/** The kernel's column strip width (assembly/lifting.ts STRIP). */
+const STRIP = 32;
+/** Most bands a plane has: LL plus three per level, at most 6 levels (wavelet-transform.ts MAX_LEVELS). */
+const MAX_BANDS = 1 + 3 * 6;
+
+/** A band's rectangle, as ../wavelet-transform.ts Band. */
+interface BandRect {
+  x0: number;
+  y0: number;
+  w: number;
+  h: number;
+}
+
+const align16 = (n: number) => (n + 15) & ~15;
+
+/** The kernel with room for `bytes` bytes, and the lifting coefficients written, or null. */
+function kernelWith(bytes: number, coefficients?: readonly number[]): LoadedKernel<LiftingExports> | null {
+  const k = lifting.get();
+  if (!k || !reserveBytes(k, bytes)) return null;
+  if (coefficients) new Float64Array(k.memory.buffer, COEF, coefficients.length).set(coefficients);
+  return k;
+}
+
+/** Bytes of scratch the transforms need past the plane: tmp (2 rows of f64 pairs) and the column strip. */
+function scratchBytes(width: number, height: number): number {
+  return align16(16 * Math.max(width, height)) + align16(8 * STRIP * height);
+}
+
+/**
+ * The forward (`inverse` false) or inverse 9/7 transform of `src` (width×height samples, any numeric array) into
+ * `out` (may be `src`), in the kernels; false when unavailable. `coefficients`: α, β, γ, δ, ζ.
+ */
+export function waveletWasm(
+  src: ArrayLike<number>,
+  out: Float64Array,
+  width: number,
+  height: number,
+  levels: number,
+  coefficients: readonly number[],
+  inverse: boolean,
+): boolean {
+  const n = width * height;
+  const tmp = DATA + align16(8 * n);
+  const buf = tmp + align16(16 * Math.max(width, height));
+  const k = kernelWith(DATA + align16(8 * n) + scratchBytes(width, height), coefficients);
+  if (!k) return false;
+  const x = new Float64Array(k.memory.buffer, DATA, n);
+  if (ArrayBuffer.isView(src)) x.set(src as unknown as ArrayLike<number>);
+  else for (let i = 0; i < n; i++) x[i] = src[i];
+  (inverse ? k.exports.inverse97 : k.exports.forward97)(DATA, width, height, levels, tmp, buf, COEF);
+  out.set(x);
+  return true;
+}
+
+/** Write the band rectangles and 3 f64 parameters per band into the tables. */
+function writeBands(k: LoadedKernel<LiftingExports>, bands: BandRect[], par: (bi: number) => number[]): void {
+  if (bands.length > MAX_BANDS) throw new RangeError(`${bands.length} bands; the kernels take ${MAX_BANDS}`);
+  const geo = new Int32Array(k.memory.buffer, GEO, 4 * bands.length);
+  const p = new Float64Array(k.memory.buffer, PAR, 4 * bands.length);
+  bands.forEach((b, i) => {
+    geo.set([b.x0, b.y0, b.w, b.h], 4 * i);
+    p.set(par(i), 4 * i);
+  });
+}
+
+/** q entries per chunk of the kernel's non-zero map (assembly/lifting.ts CHUNK). */
+const CHUNK = 1024;
+
+/**
+ * Dead-zone quantisation of `coeffs` into `q` (all zeros on entry; only the chunks that hold non-zeros are
+ * written, so the untouched pages of a fresh array are never faulted in) with per band step, rounding offset
+ * and zero threshold; the number of non-zero q, or null when the kernels are unavailable.
+ */
+export function quantiseWasm(
+  coeffs: Float64Array,
+  q: Int32Array,
+  width: number,
+  bands: BandRect[],
+  par: (bi: number) => [step: number, rho: number, zero: number],
+): number | null {
+  const n = coeffs.length;
+  const chunks = Math.ceil(n / CHUNK);
+  const qAt = DATA + align16(8 * n);
+  const flagsAt = qAt + align16(4 * n);
+  const k = kernelWith(flagsAt + chunks);
+  if (!k) return null;
+  new Float64Array(k.memory.buffer, DATA, n).set(coeffs);
+  writeBands(k, bands, par);
+  const nonZero = k.exports.quantise(DATA, qAt, width, bands.length, GEO, PAR, flagsAt, n);
+  const all = new Int32Array(k.memory.buffer, qAt, n);
+  const flags = new Uint8Array(k.memory.buffer, flagsAt, chunks);
+  for (let j = 0; j < chunks; j++)
+    if (flags[j]) q.set(all.subarray(j * CHUNK, Math.min(n, (j + 1) * CHUNK)), j * CHUNK);
+  return nonZero;
+}
+
+/**
+ * Rebuild coefficients from `q` (per band step Δ and offsets d1, d2) and, when `levels` ≥ 0, inverse-transform
+ * them: the plane as a new array, or null when the kernels are unavailable. `coefficients`: α, β, γ, δ, ζ.
+ */
+export function reconstructWasm(
+  q: Int32Array,
+  width: number,
+  height: number,
+  levels: number,
+  bands: BandRect[],
+  par: (bi: number) => [step: number, d1: number, d2: number],
+  coefficients: readonly number[],
+): Float64Array | null {
+  const n = width * height;
+  const qAt = DATA + align16(8 * n);
+  const tmp = qAt + align16(4 * n);
+  const buf = tmp + align16(16 * Math.max(width, height));
+  const k = kernelWith(tmp + scratchBytes(width, height), coefficients);
+  if (!k) return null;
+  new Int32Array(k.memory.buffer, qAt, n).set(q);
+  writeBands(k, bands, (bi) => [...par(bi), 0]);
+  k.exports.dequantise(qAt, DATA, width, bands.length, GEO, PAR);
+  if (levels > 0) k.exports.inverse97(DATA, width, height, levels, tmp, buf, COEF);
+  return new Float64Array(k.memory.buffer, DATA, n).slice();
+}
+
+/** Whether the codec's kernels run (for tests that must exercise them, not the fallback). */
+export function codecKernelsActive(): boolean {
+  return lifting.get() !== null;
+}

@@ -1,0 +1,139 @@
+/**
+ * The SSIM kernel (./assembly/ssim.ts) behind ../ssim.ts: bit-identical to SsimStream's TypeScript
+ * filterRow/windowRow. The kernel's memory holds one stream's ring of filtered rows at a time; a stream that
+ * calls while another owns it first saves the other's ring to that stream's own array, so streams may be
+ * interleaved (one per channel) and every stream's ring stays exact.
+ *
+ * Layout (byte offsets): taps and ring offsets in the first page, then the ring, the row products, and the
+ * input rows of one call.
+ */
+import { wasmBase64 } from './generated/ssim';
+import { LazyKernel, reserveBytes } from './loader';
+
+interface SsimExports {
+  ssimRows(
+    a: number,
+    b: number,
+    width: number,
+    rows: number,
+    y0: number,
+    firstWin: number,
+    R: number,
+    g: number,
+    ring: number,
+    tmp: number,
+    offs: number,
+    C1: number,
+    C2: number,
+    total: number,
+    sums: number,
+  ): number;
+}
+
+const kernel = new LazyKernel<SsimExports>(wasmBase64);
+
+const TAPS = 16384;
+const OFFS = TAPS + 4096;
+const DATA = 65536;
+/** Bytes of input (both planes) copied per kernel call. */
+const CALL_BYTES = 1 << 22;
+
+/** The stream state the kernel reads and writes (SsimStream's fields). */
+export interface SsimRing {
+  readonly width: number;
+  readonly R: number;
+  readonly g: Float64Array;
+  readonly ring: Float64Array;
+  readonly C1: number;
+  readonly C2: number;
+}
+
+let owner: SsimRing | null = null;
+
+const align16 = (n: number) => (n + 15) & ~15;
+
+/** Save the owner's ring back to its own array (before the TypeScript path touches it). */
+export function releaseRing(s: SsimRing): void {
+  if (owner !== s) return;
+  const k = kernel.get(true);
+  if (k) s.ring.set(new Float64Array(k.memory.buffer, DATA, s.ring.length));
+  owner = null;
+}
+
+/**
+ * Filter `rows` rows of a (from aOff) and b (from bOff), row stride width, as ring rows y0 … y0 + rows − 1, and
+ * sum each window row ending at y ≥ firstWin: into sums[y − firstWin] when `sums` is given, else added to
+ * `total` in row order. Returns the new total, or null when the kernel is unavailable (nothing was done).
+ */
+export function ssimRowsWasm(
+  s: SsimRing,
+  a: ArrayLike<number>,
+  b: ArrayLike<number>,
+  aOff: number,
+  bOff: number,
+  y0: number,
+  rows: number,
+  firstWin: number,
+  total: number,
+  sums: Float64Array | null,
+): number | null {
+  const k = kernel.get();
+  if (!k) return null;
+  const { width, R } = s;
+  const chunk = Math.max(1, Math.floor(CALL_BYTES / (16 * width)));
+  const ringAt = DATA;
+  const tmpAt = ringAt + align16(8 * (s.ring.length + 2));
+  const aAt = tmpAt + align16(40 * width);
+  const bAt = aAt + align16(8 * chunk * width);
+  const sumsAt = bAt + align16(8 * chunk * width);
+  if (!reserveBytes(k, sumsAt + 8 * chunk)) return null;
+  const buf = () => k.memory.buffer;
+  if (owner !== s) {
+    if (owner) releaseRing(owner);
+    new Float64Array(buf(), ringAt, s.ring.length).set(s.ring);
+    owner = s;
+  }
+  // The taps of this stream (another stream may have left its own there).
+  new Float64Array(buf(), TAPS, s.g.length).set(s.g);
+  for (let r0 = 0; r0 < rows; r0 += chunk) {
+    const n = Math.min(chunk, rows - r0);
+    copyRows(new Float64Array(buf(), aAt, n * width), a, aOff + r0 * width);
+    copyRows(new Float64Array(buf(), bAt, n * width), b, bOff + r0 * width);
+    const y = y0 + r0;
+    total = k.exports.ssimRows(
+      aAt,
+      bAt,
+      width,
+      n,
+      y,
+      firstWin,
+      R,
+      TAPS,
+      ringAt,
+      tmpAt,
+      OFFS,
+      s.C1,
+      s.C2,
+      total,
+      sums ? sumsAt : 0,
+    );
+    if (sums) {
+      const lo = Math.max(y, firstWin);
+      const hi = y + n;
+      if (hi > lo) sums.set(new Float64Array(buf(), sumsAt + 8 * (lo - y), hi - lo), lo - firstWin);
+    }
+  }
+  return total;
+}
+
+function copyRows(dst: Float64Array, src: ArrayLike<number>, from: number): void {
+  if (ArrayBuffer.isView(src)) {
+    const t = src as unknown as Float64Array;
+    dst.set(t.subarray(from, from + dst.length));
+  } else for (let i = 0; i < dst.length; i++) dst[i] = src[from + i];
+}
+
+/** Whether the SSIM kernel runs (for tests that must exercise it, not the fallback). */
+export function ssimKernelActive(): boolean {
+  return kernel.get() !== null;
+}
