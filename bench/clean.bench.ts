@@ -90,8 +90,107 @@ for job in json.load(open(sys.argv[1])):
 print(json.dumps(res))
 `;
 
+/**
+ * The 2000×1500 scan's timing, 1 and 2 workers, and the colour map sheet. With RANKFOLD_BENCH_CLEAN=scan the
+ * benchmark runs this section alone and only prints it (no section file is written, so the full run's
+ * docs/bench/30-clean.md is kept).
+ */
+async function scanSection(fixtures: string) {
+  log('### A 2000×1500 scan, σ = 10');
+  log('');
+  const big = await loadGray(join(fixtures, 'camera.png'), 'camera.png');
+  const W = QUICK ? 1000 : 2000;
+  const H = QUICK ? 750 : 1500;
+  const { data } = await sharp(Buffer.from(Uint8Array.from(big.data)), {
+    raw: { width: big.width, height: big.height, channels: 1 },
+  })
+    .resize(W, H, { kernel: 'lanczos3' })
+    .raw()
+    .toBuffer({ resolveWithObject: true });
+  const truth: Gray = {
+    name: `camera upscaled ${W}×${H}`,
+    width: W,
+    height: H,
+    data: Float32Array.from(data.subarray(0, W * H)),
+  };
+  const gauss = gaussian(5);
+  const noisy = truth.data.map((v) => clip(v + 10 * gauss()));
+  const timing: Record<
+    number,
+    { ms: number; cpuMs: number; gain: number; denoiseMs: number; bandingMs: number }
+  > = {};
+  const outputs: Record<number, Float32Array> = {};
+  for (const workers of [1, 2]) {
+    const t0 = performance.now();
+    const c0 = process.cpuUsage();
+    const res = await cleanDecoded(asDecoded(truth, noisy), { noise: 'auto', banding: 'auto', workers });
+    const cpu = process.cpuUsage(c0);
+    timing[workers] = {
+      ms: performance.now() - t0,
+      cpuMs: (cpu.user + cpu.system) / 1000,
+      gain: psnr(res.planes[0], truth.data) - psnr(noisy, truth.data),
+      denoiseMs: res.report.timings.denoiseMs,
+      bandingMs: res.report.timings.bandingMs,
+    };
+    outputs[workers] = res.planes[0];
+  }
+  const same = Buffer.from(outputs[1].buffer).equals(Buffer.from(outputs[2].buffer));
+  log(
+    '| workers | wall, total (banding + noise, in memory) | CPU time (all threads) | banding | denoise | gain | output |',
+  );
+  log('|---|---|---|---|---|---|---|');
+  for (const w of [1, 2])
+    log(
+      `| ${w} | ${(timing[w].ms / 1000).toFixed(2)} s | ${(timing[w].cpuMs / 1000).toFixed(2)} s | ${(timing[w].bandingMs / 1000).toFixed(2)} s | ${(timing[w].denoiseMs / 1000).toFixed(2)} s | ${timing[w].gain.toFixed(2)} dB | ${w === 2 ? (same ? 'identical to 1 worker' : '**differs from 1 worker**') : 'baseline'} |`,
+    );
+  log('');
+  log(
+    `Load average at the end of this run: ${loadavg()
+      .map((v) => v.toFixed(1))
+      .join(', ')} on ${cpus().length} cores. When it is above the core count, wall`,
+  );
+  log('times measure the queue for the CPU, not this code; the CPU time is the figure to compare.');
+  log('');
+  log(
+    `Speed-up of 2 workers over 1: ${(timing[1].ms / timing[2].ms).toFixed(2)}× (target: the whole scan under 10 s with both cores).`,
+  );
+  const map = join('samples', 'map-sheet.png');
+  if (existsSync(map) && !QUICK) {
+    const d = await decodeImage(map);
+    const noisyPlanes = d.planes.slice(0, 3).map((p, c) => {
+      const g = gaussian(900 + c);
+      return p.map((v) => clip(v + 10 * g()));
+    });
+    const t0 = performance.now();
+    const c0 = process.cpuUsage();
+    const res = await cleanDecoded(
+      { ...d, planes: noisyPlanes, channels: 3 },
+      { noise: 'auto', banding: 'auto', workers: 2 },
+    );
+    const cpu = process.cpuUsage(c0);
+    const flat = (ps: Float32Array[]) => Float32Array.from(ps.flatMap((p) => Array.from(p)));
+    const gain =
+      psnr(flat(res.planes), flat(d.planes.slice(0, 3))) -
+      psnr(flat(noisyPlanes), flat(d.planes.slice(0, 3)));
+    log('');
+    log(
+      `Colour: samples/map-sheet.png (${d.width}×${d.height} RGB) with σ = 10 per channel, 2 workers: ${((performance.now() - t0) / 1000).toFixed(2)} s wall, ${((cpu.user + cpu.system) / 1000000).toFixed(2)} s CPU, gain ${gain.toFixed(2)} dB (luma + chroma).`,
+    );
+  }
+}
+
 async function main() {
   const fixtures = join('test', 'fixtures', 'images');
+  if (process.env.RANKFOLD_BENCH_CLEAN === 'scan') {
+    log(
+      `Load average at the start of this run: ${loadavg()
+        .map((v) => v.toFixed(1))
+        .join(', ')}.`,
+    );
+    log('');
+    await scanSection(fixtures);
+    return;
+  }
   const images: Gray[] = [];
   for (const f of ['camera.png', 'moon.png', 'page.png', 'text.png'])
     images.push(await loadGray(join(fixtures, f), f));
@@ -205,88 +304,7 @@ async function main() {
 
   await bandingSection(images, log);
 
-  // Large scan timing
-  log('### A 2000×1500 scan, σ = 10');
-  log('');
-  const big = await loadGray(join(fixtures, 'camera.png'), 'camera.png');
-  const W = QUICK ? 1000 : 2000;
-  const H = QUICK ? 750 : 1500;
-  const { data } = await sharp(Buffer.from(Uint8Array.from(big.data)), {
-    raw: { width: big.width, height: big.height, channels: 1 },
-  })
-    .resize(W, H, { kernel: 'lanczos3' })
-    .raw()
-    .toBuffer({ resolveWithObject: true });
-  const truth: Gray = {
-    name: `camera upscaled ${W}×${H}`,
-    width: W,
-    height: H,
-    data: Float32Array.from(data.subarray(0, W * H)),
-  };
-  const gauss = gaussian(5);
-  const noisy = truth.data.map((v) => clip(v + 10 * gauss()));
-  const timing: Record<
-    number,
-    { ms: number; cpuMs: number; gain: number; denoiseMs: number; bandingMs: number }
-  > = {};
-  const outputs: Record<number, Float32Array> = {};
-  for (const workers of [1, 2]) {
-    const t0 = performance.now();
-    const c0 = process.cpuUsage();
-    const res = await cleanDecoded(asDecoded(truth, noisy), { noise: 'auto', banding: 'auto', workers });
-    const cpu = process.cpuUsage(c0);
-    timing[workers] = {
-      ms: performance.now() - t0,
-      cpuMs: (cpu.user + cpu.system) / 1000,
-      gain: psnr(res.planes[0], truth.data) - psnr(noisy, truth.data),
-      denoiseMs: res.report.timings.denoiseMs,
-      bandingMs: res.report.timings.bandingMs,
-    };
-    outputs[workers] = res.planes[0];
-  }
-  const same = Buffer.from(outputs[1].buffer).equals(Buffer.from(outputs[2].buffer));
-  log(
-    '| workers | wall, total (banding + noise, in memory) | CPU time (all threads) | banding | denoise | gain | output |',
-  );
-  log('|---|---|---|---|---|---|---|');
-  for (const w of [1, 2])
-    log(
-      `| ${w} | ${(timing[w].ms / 1000).toFixed(2)} s | ${(timing[w].cpuMs / 1000).toFixed(2)} s | ${(timing[w].bandingMs / 1000).toFixed(2)} s | ${(timing[w].denoiseMs / 1000).toFixed(2)} s | ${timing[w].gain.toFixed(2)} dB | ${w === 2 ? (same ? 'identical to 1 worker' : '**differs from 1 worker**') : 'baseline'} |`,
-    );
-  log('');
-  log(
-    `Load average at the end of this run: ${loadavg()
-      .map((v) => v.toFixed(1))
-      .join(', ')} on ${cpus().length} cores. When it is above the core count, wall`,
-  );
-  log('times measure the queue for the CPU, not this code; the CPU time is the figure to compare.');
-  log('');
-  log(
-    `Speed-up of 2 workers over 1: ${(timing[1].ms / timing[2].ms).toFixed(2)}× (target: the whole scan under 10 s with both cores).`,
-  );
-  const map = join('samples', 'map-sheet.png');
-  if (existsSync(map) && !QUICK) {
-    const d = await decodeImage(map);
-    const noisyPlanes = d.planes.slice(0, 3).map((p, c) => {
-      const g = gaussian(900 + c);
-      return p.map((v) => clip(v + 10 * g()));
-    });
-    const t0 = performance.now();
-    const c0 = process.cpuUsage();
-    const res = await cleanDecoded(
-      { ...d, planes: noisyPlanes, channels: 3 },
-      { noise: 'auto', banding: 'auto', workers: 2 },
-    );
-    const cpu = process.cpuUsage(c0);
-    const flat = (ps: Float32Array[]) => Float32Array.from(ps.flatMap((p) => Array.from(p)));
-    const gain =
-      psnr(flat(res.planes), flat(d.planes.slice(0, 3))) -
-      psnr(flat(noisyPlanes), flat(d.planes.slice(0, 3)));
-    log('');
-    log(
-      `Colour: samples/map-sheet.png (${d.width}×${d.height} RGB) with σ = 10 per channel, 2 workers: ${((performance.now() - t0) / 1000).toFixed(2)} s wall, ${((cpu.user + cpu.system) / 1000000).toFixed(2)} s CPU, gain ${gain.toFixed(2)} dB (luma + chroma).`,
-    );
-  }
+  await scanSection(fixtures);
   log('');
   mkdirSync(outDir, { recursive: true });
   writeFileSync(join(outDir, '30-clean.md'), `${lines.join('\n')}\n`);

@@ -168,10 +168,25 @@ export function forEachGroup(
 /** Bytes rounded up to a multiple of 16 (v128 alignment). */
 const align16 = (bytes: number) => Math.ceil(bytes / 16) * 16;
 
+/** Largest |value| of a guide the i16 kernel takes (squared differences of 8×8 patches stay below 2³¹). */
+const SMALL_INTEGER = 1023;
+
+/** 'i16' when every value is an integer of at most SMALL_INTEGER in size, else 'f64' when all are finite, else null. */
+function guideKind(values: Float32Array): 'i16' | 'f64' | null {
+  let small = true;
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i];
+    if (small && (v !== Math.round(v) || v > SMALL_INTEGER || v < -SMALL_INTEGER)) small = false;
+    if (!small && !Number.isFinite(v)) return null;
+  }
+  return small ? 'i16' : 'f64';
+}
+
 /**
- * `matchGroup` for every reference of one pass, as a function of (y, x, posY, posX) → count: the
- * WebAssembly kernel on an f64 copy of the guide's rows [rows[0], rows[1]) when the kernels load and
- * those pixels are finite (the kernel's exactness argument needs sums that only grow), else TypeScript.
+ * `matchGroup` for every reference of one pass, as a function of (y, x, posY, posX) → count: a WebAssembly
+ * kernel on a copy of the guide's rows [rows[0], rows[1]) when the kernels load — i16 for small-integer
+ * guides (8-bit scans) and patches up to 8, else f64 when the pixels are finite (the kernels' exactness
+ * arguments need sums that only grow) — else TypeScript.
  */
 function groupMatcher(
   guide: Float32Array,
@@ -185,21 +200,27 @@ function groupMatcher(
   const typescript = (y: number, x: number, posY: Int32Array, posX: Int32Array) =>
     matchGroup(guide, width, height, p, K, offsets, y, x, heapD, heapI, posY, posX);
   const k = groupKernels();
-  if (!k) return typescript;
-  const n = (rows[1] - rows[0]) * width;
-  const offAt = MATCH_BASE + align16(n * 8);
+  const rowsOf = guide.subarray(rows[0] * width, rows[1] * width);
+  const kind = k ? guideKind(rowsOf) : null;
+  if (!k || !kind) return typescript;
+  const i16 = kind === 'i16' && p <= 8;
+  const size = i16 ? 2 : 8;
+  const n = rowsOf.length;
+  // i16 rows are read eight lanes at a time: 16 bytes of slack after the last row.
+  const offAt = MATCH_BASE + align16(n * size + 16);
   const refAt = offAt + align16(offsets.length * 4);
-  const heapDAt = refAt + align16(p * p * 8);
+  const heapDAt = refAt + align16(i16 ? 16 * p : p * p * 8);
   const heapIAt = heapDAt + align16(K * 8);
   ensureGroupMemory(k, heapIAt + align16(K * 4));
-  const g = new Float64Array(k.memory.buffer, MATCH_BASE, n);
-  g.set(guide.subarray(rows[0] * width, rows[1] * width));
-  for (let i = 0; i < n; i++) if (!Number.isFinite(g[i])) return typescript;
+  (i16
+    ? new Int16Array(k.memory.buffer, MATCH_BASE, n)
+    : new Float64Array(k.memory.buffer, MATCH_BASE, n)
+  ).set(rowsOf);
   new Int32Array(k.memory.buffer, offAt, offsets.length).set(offsets);
   const nOff = offsets.length / 2;
-  // The kernel addresses rows by their global index: the base moves back by rows[0] rows (mod 2³²).
-  const guideAt = (MATCH_BASE - rows[0] * width * 8) | 0;
-  const kernel = k.exports.matchGroupF64;
+  // The kernels address rows by their global index: the base moves back by rows[0] rows (mod 2³²).
+  const guideAt = (MATCH_BASE - rows[0] * width * size) | 0;
+  const kernel = i16 ? k.exports.matchGroupI16 : k.exports.matchGroupF64;
   let idx = new Int32Array(k.memory.buffer, heapIAt, K);
   return (y, x, posY, posX) => {
     const count = kernel(guideAt, width, height, p, K, offAt, nOff, y, x, heapDAt, heapIAt, refAt);

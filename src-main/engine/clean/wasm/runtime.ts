@@ -9,7 +9,7 @@ import { decodeBase64 } from '../../linalg/wasm/runtime';
 import { wasmBase64 } from './generated/groups';
 
 /** The raw kernel exports. Pointers are byte offsets into `memory`. */
-export interface GroupKernelExports {
+interface GroupKernelExports {
   /** block-matching.ts `matchGroup` on an f64 copy of the guide; returns the count, the heap holds the result. */
   matchGroupF64(
     guide: number,
@@ -25,6 +25,8 @@ export interface GroupKernelExports {
     heapI: number,
     ref: number,
   ): number;
+  /** The same for a guide of small integers stored as i16 (patches up to 8×8). */
+  matchGroupI16: GroupKernelExports['matchGroupF64'];
   /** wiener-groups.ts `GroupWiener.estimate` for a group of n = 2, 4, 8, … patches; returns Σw². */
   wienerGroupF64(
     yn: number,

@@ -137,6 +137,44 @@ export function matchGroupF64(
   return count;
 }
 
+/**
+ * `matchGroupF64` for a guide of small integers (|value| ≤ 1023, patches up to 8×8), stored as i16 rows:
+ * each patch row is one i16x8 (lanes beyond p masked to 0), squared differences summed in i32 by
+ * i32x4.dot_i16x8_s. The TypeScript's f64 sum of such squares is exact at every step (integers far below
+ * 2⁵³) and so is this one (at most 64·2047² < 2³¹), so both are the same integer in any order; whole sums
+ * are offered to the heap in the fixed order, which decides exactly as the TypeScript's early stop does.
+ * `ref`: scratch of 16·p bytes.
+ */
+export function matchGroupI16(
+  guide: usize, width: i32, height: i32, p: i32, K: i32, offsets: usize, nOff: i32,
+  y: i32, x: i32, heapD: usize, heapI: usize, ref: usize,
+): i32 {
+  const row2 = <usize>width << 1;
+  const mask = i16x8.lt_s(i16x8(0, 1, 2, 3, 4, 5, 6, 7), i16x8.splat(<i16>p));
+  let rb = guide + (<usize>(y * width + x) << 1);
+  for (let i = 0; i < p; i++) {
+    v128.store(ref + (<usize>i << 4), v128.and(v128.load(rb), mask));
+    rb += row2;
+  }
+  const lastY = height - p, lastX = width - p;
+  let count = 0;
+  for (let o = 0; o < nOff; o++) {
+    const cy = y + load<i32>(offsets + (<usize>o << 3));
+    const cx = x + load<i32>(offsets + (<usize>o << 3), 4);
+    if (cy < 0 || cx < 0 || cy > lastY || cx > lastX) continue;
+    let cb = guide + (<usize>(cy * width + cx) << 1);
+    let acc = i32x4.splat(0);
+    for (let i = 0; i < p; i++) {
+      const d = i16x8.sub(v128.load(ref + (<usize>i << 4)), v128.and(v128.load(cb), mask));
+      acc = i32x4.add(acc, i32x4.dot_i16x8_s(d, d));
+      cb += row2;
+    }
+    const s = i32x4.extract_lane(acc, 0) + i32x4.extract_lane(acc, 1) + i32x4.extract_lane(acc, 2) + i32x4.extract_lane(acc, 3);
+    count = offer(heapD, heapI, count, K, <f64>s, o);
+  }
+  return count;
+}
+
 // ---------------------------------------------------------------- Wiener pass: separable 3-D transform
 
 /** In place, orthonormal multi-level Haar of the n values at x (wiener-groups.ts `haar`, same operations). */
@@ -173,7 +211,7 @@ function haar(x: usize, n: i32, inverse: bool, h: usize): void {
  */
 function alongPatch(src: usize, dst: usize, C: usize, p: i32, n: i32, inverse: bool, byRows: bool): void {
   const cs = <usize>(byRows ? p * n : n) << 3;
-  const cStep = <usize>(inverse ? p : 1) << 3;
+  const cStep: usize = (inverse ? <usize>p : 1) << 3;
   const n8 = n & ~7;
   for (let a = 0; a < p; a++)
     for (let b = 0; b < p; b++) {
