@@ -23,29 +23,52 @@
  *   Laplacian source the MSE-optimal reconstruction lies inside the bin, not at its edge).
  */
 import * as rc from './range-coder';
+import {
+  BAND_FIELDS,
+  CLASSES,
+  ERR_EG_PREFIX,
+  ERR_MAGNITUDE_RANGE,
+  ERR_OFFSET,
+  LL_CLASSES,
+  MAG_BINS,
+  MAX_BANDS,
+  MIN_OFFSET_COUNT,
+  NB_BINS,
+  NB_SUMS,
+  OFFSET_MAX,
+  OFFSET_MIN,
+  OFFSET_UNIT,
+  PS_BINS,
+  SIGN_CONTEXTS,
+} from './wasm/coder-constants';
+import { type CoderSetup, coderWasm, decodeWasm, encodeWasm } from './wasm/coder-runtime';
 import type { Band } from './wavelet-transform';
 
-/** Significance contexts per class: 10 neighbourhood bins × 3 parent/sibling bins. */
-const NB_BINS = 10;
-const PS_BINS = 3;
-/** Level group (1, 2, ≥3) × orientation class (HL/LH, HH). */
-const CLASSES = 6;
-const MAG_BINS = 6;
-/** Least count of coded values in a band for it to carry a reconstruction offset. */
-const MIN_OFFSET_COUNT = 8;
-/** Reconstruction offsets are multiples of 1/unit of the step, within [min, max]. */
-const OFFSET = { unit: 32, min: -16, max: 20 } as const;
-
-/** Neighbourhood sum → bin: 0, 1, 2, 3, 4–5, 6–7, 8–11, 12–17, 18–29 (≥ 30: bin 9). */
-const NB_LUT = Uint8Array.from({ length: 30 }, (_, s) =>
+/** Neighbourhood sum → bin: 0, 1, 2, 3, 4–5, 6–7, 8–11, 12–17, 18–29 (≥ NB_SUMS = 30: bin 9). */
+const NB_LUT = Uint8Array.from({ length: NB_SUMS }, (_, s) =>
   s < 4 ? s : s < 6 ? 4 : s < 8 ? 5 : s < 12 ? 6 : s < 18 ? 7 : 8,
 );
+
+const OFFSET_MESSAGE = 'corrupt plane data (reconstruction offset)';
+
+/** What the WebAssembly port of this coder (./wasm/assembly/coder.ts) needs from here. */
+const SETUP: CoderSetup = {
+  recipFast: rc.RECIP_FAST,
+  recipSlow: rc.RECIP_SLOW,
+  nbLut: NB_LUT,
+  fail(code: number, value: number): never {
+    if (code === ERR_MAGNITUDE_RANGE) throw new RangeError(rc.magnitudeRangeMessage(value));
+    if (code === ERR_EG_PREFIX) throw new RangeError(rc.EG_PREFIX_MESSAGE);
+    if (code === ERR_OFFSET) throw new RangeError(OFFSET_MESSAGE);
+    throw new RangeError('the plane is too large for the WebAssembly memory of the coefficient coder');
+  },
+};
 
 const sgn = (v: number) => (v > 0 ? 1 : v < 0 ? -1 : 0);
 
 /** LL by MED prediction; `q` is read (encoder) or filled (decoder) in place. */
 function codeLL(io: rc.BinaryCoder, q: Int32Array, width: number, b: Band): void {
-  const m = new rc.IntModel(5);
+  const m = new rc.IntModel(LL_CLASSES);
   const d = new Int32Array(b.w * b.h);
   for (let y = 0; y < b.h; y++)
     for (let x = 0; x < b.w; x++) {
@@ -68,33 +91,59 @@ function classOf(b: Band): number {
 }
 
 /**
+ * The band table both forms of the coder walk: per band, BAND_FIELDS integers — x0, y0, w, h, orientation,
+ * context class, and the indices of its parent (same orientation, next coarser level) and of the sibling
+ * bands of its level coded before it (HL before LH before HH), −1 where there is none.
+ */
+function bandTable(bands: Band[]): Int32Array {
+  const t = new Int32Array(BAND_FIELDS * bands.length);
+  const at = (orient: number, level: number) =>
+    bands.findIndex((b) => b.orient === orient && b.level === level);
+  bands.forEach((b, bi) => {
+    const sibs = [1, 2]
+      .filter((o) => o < b.orient)
+      .map((o) => at(o, b.level))
+      .filter((i) => i >= 0);
+    const parent = b.orient === 0 ? -1 : at(b.orient, b.level + 1);
+    t.set(
+      [b.x0, b.y0, b.w, b.h, b.orient, classOf(b), parent, sibs[0] ?? -1, sibs[1] ?? -1],
+      BAND_FIELDS * bi,
+    );
+  });
+  return t;
+}
+
+/**
  * Code every coefficient of `q` (Mallat layout, row stride `width`) in one direction: the encoder's io
  * writes the values of `q`; the decoder's io fills `q` (zeroed on entry).
  */
 function codeCoefficients(io: rc.BinaryCoder, q: Int32Array, width: number, bands: Band[]): void {
   const zm = rc.contexts(CLASSES * NB_BINS * PS_BINS);
-  const sm = rc.contexts(3 * 9);
+  const sm = rc.contexts(3 * SIGN_CONTEXTS);
   const mm = new rc.IntModel(3 * MAG_BINS);
-  const byKey = new Map<string, Band>();
-  for (const b of bands) byKey.set(`${b.orient}:${b.level}`, b);
+  const table = bandTable(bands);
+  const linked = (bi: number, field: number) => {
+    const i = table[BAND_FIELDS * bi + field];
+    return i >= 0 ? bands[i] : undefined;
+  };
   // min(|q|, 15) of every detail coefficient coded so far (the contexts only read coded positions: earlier
   // in the band's raster order, the parent band and the siblings coded before this band), 0 elsewhere.
   const mag = new Uint8Array(q.length);
-  for (const b of bands) {
+  for (let bi = 0; bi < bands.length; bi++) {
+    const b = bands[bi];
     if (b.orient === 0) {
       codeLL(io, q, width, b);
       continue;
     }
     const cls = classOf(b);
     const group = cls >> 1;
-    const parent = byKey.get(`${b.orient}:${b.level + 1}`);
-    const sibs = [1, 2]
-      .filter((o) => o < b.orient)
-      .map((o) => byKey.get(`${o}:${b.level}`))
-      .filter((s): s is Band => s !== undefined);
-    const [s1, s2] = sibs;
+    const parent = linked(bi, 6);
+    const s1 = linked(bi, 7);
+    const s2 = linked(bi, 8);
+    const s1w = s1 ? s1.w : 0;
+    const s2w = s2 ? s2.w : 0;
     const zBase = cls * NB_BINS;
-    const sBase = (b.orient - 1) * 9;
+    const sBase = (b.orient - 1) * SIGN_CONTEXTS;
     for (let y = 0; y < b.h; y++) {
       const row = (b.y0 + y) * width + b.x0;
       const pRow = parent ? (parent.y0 + Math.min(parent.h - 1, y >> 1)) * width + parent.x0 : -1;
@@ -113,11 +162,15 @@ function codeCoefficients(io: rc.BinaryCoder, q: Int32Array, width: number, band
         if (x > 1) s += mag[idx - 2];
         if (y > 1) s += mag[idx - 2 * width];
         let ps = pRow >= 0 ? 2 * mag[pRow + (x >> 1 < pLast ? x >> 1 : pLast)] : 0;
-        if (s1Row >= 0 && x < s1.w) ps += mag[s1Row + x];
-        if (s2Row >= 0 && x < s2.w) ps += mag[s2Row + x];
+        if (s1Row >= 0 && x < s1w) ps += mag[s1Row + x];
+        if (s2Row >= 0 && x < s2w) ps += mag[s2Row + x];
         const pc = ps === 0 ? 0 : ps <= 2 ? 1 : 2;
         const v = q[idx];
-        const z = io.bit(zm, (zBase + (s < 30 ? NB_LUT[s] : 9)) * PS_BINS + pc, v !== 0 ? 1 : 0);
+        const z = io.bit(
+          zm,
+          (zBase + (s < NB_SUMS ? NB_LUT[s] : NB_BINS - 1)) * PS_BINS + pc,
+          v !== 0 ? 1 : 0,
+        );
         if (!z) continue;
         const left = x > 0 ? q[idx - 1] : 0;
         const up = y > 0 ? q[idx - width] : 0;
@@ -178,7 +231,7 @@ function binStats(
   return { n, sum };
 }
 
-/** Code the reconstruction offsets (units of 1/OFFSET.unit) of the bins with enough values. */
+/** Code the reconstruction offsets (units of 1/OFFSET_UNIT) of the bins with enough values. */
 function codeOffsets(io: rc.BinaryCoder, k: Int32Array, counts: Int32Array): Float64Array {
   const m = new rc.IntModel(2);
   const out = new Float64Array(k.length);
@@ -187,9 +240,9 @@ function codeOffsets(io: rc.BinaryCoder, k: Int32Array, counts: Int32Array): Flo
     if (counts[j] < MIN_OFFSET_COUNT) continue;
     const c = j & 1;
     const v = prev[c] + io.int(m, k[j] - prev[c], c, 0);
-    if (v < OFFSET.min || v > OFFSET.max) throw new RangeError('corrupt plane data (reconstruction offset)');
+    if (v < OFFSET_MIN || v > OFFSET_MAX) throw new RangeError(OFFSET_MESSAGE);
     prev = c ? [prev[0], v] : [v, prev[1]];
-    out[j] = v / OFFSET.unit;
+    out[j] = v / OFFSET_UNIT;
   }
   return out;
 }
@@ -199,6 +252,9 @@ export interface CodedV2 {
   /** Per band b: offsets[2b] for |q| = 1 and offsets[2b + 1] for |q| ≥ 2, in units of the band's step. */
   offsets: Float64Array;
 }
+
+/** The port (./wasm/assembly/coder.ts) where it can take these bands, else null (run the TypeScript). */
+const port = (bands: Band[]) => (bands.length <= MAX_BANDS ? coderWasm(SETUP) : null);
 
 /**
  * Range-code quantised coefficients `q` with coder 2. `coeffs` and `steps` (the unquantised coefficients
@@ -211,7 +267,11 @@ export function encodeCoefficientsV2(
   width: number,
   bands: Band[],
 ): CodedV2 {
-  const { counts, k } = offsetCodes(q, coeffs, steps, width, bands);
+  const { n: counts, sum } = binStats(q, width, bands, coeffs, steps);
+  const k = offsetCodes(counts, sum);
+  const w = port(bands);
+  const bytes = w && encodeWasm(w, q, width, bandTable(bands), counts, k);
+  if (bytes) return { bytes, offsets: offsetsOf(counts, k) };
   const enc = new rc.RangeEncoder();
   const nonZero = counts.some((c) => c > 0);
   enc.encodeDirect(nonZero ? 1 : 0);
@@ -224,19 +284,18 @@ export function encodeCoefficientsV2(
   return { bytes: enc.finish(), offsets };
 }
 
-/** Per band and bin class, the count of coded values and the offset code (units of 1/OFFSET.unit) coder 2 writes. */
-function offsetCodes(
-  q: Int32Array,
-  coeffs: Float64Array,
-  steps: Float64Array,
-  width: number,
-  bands: Band[],
-): { counts: Int32Array; k: Int32Array } {
-  const { n: counts, sum } = binStats(q, width, bands, coeffs, steps);
-  const k = Int32Array.from(sum, (s, j) =>
-    counts[j] ? Math.max(OFFSET.min, Math.min(OFFSET.max, Math.round((OFFSET.unit * s) / counts[j]))) : 0,
+/** Per band and bin class, the offset code (units of 1/OFFSET_UNIT) coder 2 writes, from binStats' counts and sums. */
+function offsetCodes(counts: Int32Array, sum: Float64Array): Int32Array {
+  return Int32Array.from(sum, (s, j) =>
+    counts[j] ? Math.max(OFFSET_MIN, Math.min(OFFSET_MAX, Math.round((OFFSET_UNIT * s) / counts[j]))) : 0,
   );
-  return { counts, k };
+}
+
+/** The offsets the decoder rebuilds: k / OFFSET_UNIT for the bins with enough values, 0 for the others. */
+function offsetsOf(counts: Int32Array, k: Int32Array): Float64Array {
+  const out = new Float64Array(k.length);
+  for (let j = 0; j < out.length; j++) if (counts[j] >= MIN_OFFSET_COUNT) out[j] = k[j] / OFFSET_UNIT;
+  return out;
 }
 
 /**
@@ -250,10 +309,8 @@ export function reconstructionOffsetsV2(
   width: number,
   bands: Band[],
 ): Float64Array {
-  const { counts, k } = offsetCodes(q, coeffs, steps, width, bands);
-  const out = new Float64Array(2 * bands.length);
-  for (let j = 0; j < out.length; j++) if (counts[j] >= MIN_OFFSET_COUNT) out[j] = k[j] / OFFSET.unit;
-  return out;
+  const { n: counts, sum } = binStats(q, width, bands, coeffs, steps);
+  return offsetsOf(counts, offsetCodes(counts, sum));
 }
 
 /**
@@ -266,6 +323,12 @@ export function decodeCoefficientsV2(
   width: number,
   bands: Band[],
 ): Float64Array {
+  const w = port(bands);
+  const fast = w && decodeWasm(w, bytes, q, width, bandTable(bands));
+  if (fast) {
+    rc.checkStreamEnd('plane data', fast.pos, bytes.length);
+    return offsetsOf(fast.counts, fast.k);
+  }
   const dec = new rc.RangeDecoder(bytes);
   let offsets: Float64Array = new Float64Array(2 * bands.length);
   if (dec.decodeDirect() !== 0) {

@@ -10,21 +10,33 @@
  * (Marpe, Schwarz, Wiegand, IEEE TCSVT 13(7), 2003).
  */
 
-const PROB_BITS = 15;
-const PROB_ONE = 1 << PROB_BITS;
-const PROB_INIT = PROB_ONE >>> 1;
-/** Largest magnitude the integer coder accepts; bigger values mean a corrupt stream. */
-const MAX_MAGNITUDE = 2 ** 30;
+import {
+  CTX,
+  EG_BITS,
+  EG_PREFIX_LIMIT,
+  FAST_WINDOW,
+  MAX_MAGNITUDE,
+  PROB_BITS,
+  PROB_INIT,
+  PROB_MARGIN,
+  PROB_ONE,
+  SLOW_WINDOW,
+  UNARY,
+} from './wasm/coder-constants';
 
 /**
- * Adaptation: two estimators of P(bit = 0), a fast one (window ≈ 16 observations) and a slow one
- * (≈ 128), averaged. Both start as a running frequency count (rate 1/(n + 1.5)) so fresh contexts
- * learn quickly.
+ * Adaptation: two estimators of P(bit = 0), a fast one (window ≈ FAST_WINDOW observations) and a slow one
+ * (≈ SLOW_WINDOW), averaged. Both start as a running frequency count (rate 1/(n + 1.5)) so fresh contexts
+ * learn quickly. Rates are 16-bit fixed point, indexed by the observation count.
  */
-const FAST_WINDOW = 16;
-const SLOW_WINDOW = 128;
-const RECIP_SLOW = Int32Array.from({ length: SLOW_WINDOW }, (_, n) => Math.round(65536 / (n + 1.5)));
-const RECIP_FAST = Int32Array.from(RECIP_SLOW, (r, n) => (n < FAST_WINDOW ? r : RECIP_SLOW[FAST_WINDOW - 1]));
+export const RECIP_SLOW = Int32Array.from({ length: SLOW_WINDOW }, (_, n) => Math.round(65536 / (n + 1.5)));
+export const RECIP_FAST = Int32Array.from(RECIP_SLOW, (r, n) =>
+  n < FAST_WINDOW ? r : RECIP_SLOW[FAST_WINDOW - 1],
+);
+
+/** The message of a magnitude the integer coder cannot code. */
+export const magnitudeRangeMessage = (a: number) => `integer ${a} outside the coder's range`;
+export const EG_PREFIX_MESSAGE = 'corrupt integer code (Exp-Golomb prefix too long)';
 
 /**
  * A set of adaptive binary contexts in one typed array, {@link CTX} integers per context: the fast estimate,
@@ -32,7 +44,6 @@ const RECIP_FAST = Int32Array.from(RECIP_SLOW, (r, n) => (n < FAST_WINDOW ? r : 
  * Hot loops index it directly, with no object per context.
  */
 export type Contexts = Int32Array;
-const CTX = 3;
 
 /** `n` fresh contexts (P(0) = ½, no observations). */
 export function contexts(n: number): Contexts {
@@ -44,10 +55,10 @@ export function contexts(n: number): Contexts {
   return s;
 }
 
-/** P(bit = 0) of the context at offset k, 15-bit, kept 32 away from 0 and 1. */
+/** P(bit = 0) of the context at offset k, 15-bit, kept PROB_MARGIN away from 0 and 1. */
 function prob(s: Contexts, k: number): number {
   const v = (s[k] + s[k + 1]) >>> 1;
-  return v < 32 ? 32 : v > PROB_ONE - 32 ? PROB_ONE - 32 : v;
+  return v < PROB_MARGIN ? PROB_MARGIN : v > PROB_ONE - PROB_MARGIN ? PROB_ONE - PROB_MARGIN : v;
 }
 
 /** Move the context at offset k towards the observed bit. */
@@ -206,11 +217,7 @@ export class RangeDecoder implements BinaryCoder {
    * @throws RangeError naming `what`
    */
   checkEnd(what: string): void {
-    if (this.overrun > 0) throw new RangeError(`${what} ends early (truncated or corrupt)`);
-    if (this.pos !== this.data.length)
-      throw new RangeError(
-        `${what} has ${this.data.length - this.pos} unused bytes at its end (damaged, or the header does not match it)`,
-      );
+    checkStreamEnd(what, this.overrun > 0 ? -1 : this.pos, this.data.length);
   }
   decodeBit(m: BitModel): number {
     return this.bit(m.set, m.at);
@@ -260,9 +267,18 @@ export class RangeDecoder implements BinaryCoder {
   }
 }
 
-/** Number of unary magnitude bins before the Exp-Golomb escape. */
-const UNARY = 14;
-const EG_BITS = 32;
+/**
+ * The end check of {@link RangeDecoder.checkEnd} for a decoder that read `pos` bytes of `length` (−1: it read
+ * past the end).
+ * @throws RangeError naming `what`
+ */
+export function checkStreamEnd(what: string, pos: number, length: number): void {
+  if (pos < 0) throw new RangeError(`${what} ends early (truncated or corrupt)`);
+  if (pos !== length)
+    throw new RangeError(
+      `${what} has ${length - pos} unused bytes at its end (damaged, or the header does not match it)`,
+    );
+}
 
 /**
  * Contexts for one family of signed integers: `classes` selects a zero/magnitude context set (e.g. the
@@ -303,7 +319,7 @@ export function decodeInt(dec: RangeDecoder, m: IntModel, cls: number, prevSign:
 
 /** Encode a non-negative integer: unary bins up to UNARY, then an Exp-Golomb (order 0) escape. */
 export function encodeMagnitude(enc: RangeEncoder, m: IntModel, a: number, cls: number): void {
-  if (!(a >= 0 && a < MAX_MAGNITUDE)) throw new RangeError(`integer ${a} outside the coder's range`);
+  if (!(a >= 0 && a < MAX_MAGNITUDE)) throw new RangeError(magnitudeRangeMessage(a));
   const base = cls * UNARY;
   const u = m.unary;
   const stop = a < UNARY ? a : UNARY;
@@ -329,7 +345,7 @@ export function decodeMagnitude(dec: RangeDecoder, m: IntModel, cls: number): nu
   let nbits = 0;
   while (dec.bit(m.egPrefix, nbits)) {
     nbits++;
-    if (nbits >= 30) throw new RangeError('corrupt integer code (Exp-Golomb prefix too long)');
+    if (nbits >= EG_PREFIX_LIMIT) throw new RangeError(EG_PREFIX_MESSAGE);
   }
   let r = 1;
   for (let i = nbits - 1; i >= 0; i--) {

@@ -1,0 +1,221 @@
+/**
+ * Loads the WebAssembly port of coefficient coder 2 and its range coder (./assembly/coder.ts) and owns its
+ * linear memory. The module is small (about 9 KB), so it is compiled synchronously on first use; wherever
+ * WebAssembly is missing or refuses a synchronous compile (a browser page's main thread may), {@link coderWasm}
+ * returns null and the caller runs the TypeScript coder, which gives the same bytes and the same planes.
+ */
+import { decodeBase64 } from '../../linalg/wasm/runtime';
+import {
+  AT_BANDS,
+  AT_COUNTS,
+  AT_NB_LUT,
+  AT_OFFSET_CODES,
+  AT_RECIP_FAST,
+  AT_RECIP_SLOW,
+  BAND_FIELDS,
+  SCRATCH,
+  SCRATCH_BYTES,
+} from './coder-constants';
+import { wasmBase64 } from './generated/coder';
+
+/**
+ * One direction of the port over a plane of n coefficients: q (i32), the magnitude map (u8) and the LL band's
+ * differences (i32) at byte offsets into the module's memory, the row stride and the band count, then two
+ * arguments of that direction.
+ */
+type PlaneKernel = (
+  q: number,
+  mag: number,
+  d: number,
+  n: number,
+  width: number,
+  nBands: number,
+  a: number,
+  b: number,
+) => number;
+
+/** The port's exports. */
+interface CoderExports {
+  /** Range-code q (a: 1 if any value is non-zero, b: where the bytes go); returns the byte count. */
+  encode: PlaneKernel;
+  /** Decode into q (a: where the bytes are, b: how many); returns the bytes read, or −1 if it read past their end. */
+  decode: PlaneKernel;
+}
+
+export interface CoderWasm {
+  readonly exports: CoderExports;
+  readonly memory: WebAssembly.Memory;
+}
+
+/** What the host gives the module once: the coder's tables, and the function that throws its errors. */
+export interface CoderSetup {
+  recipFast: Int32Array;
+  recipSlow: Int32Array;
+  nbLut: Uint8Array;
+  /** Throws the RangeError for error `code` (see coder-constants.ts) with `value`; never returns. */
+  fail(code: number, value: number): never;
+}
+
+/** Bytes in a WebAssembly page. */
+const PAGE = 65536;
+/** A memory grown past this is dropped after use, so one very large plane does not pin it for the process. */
+const KEEP_BYTES = 256 * 2 ** 20;
+/** The most memory a 32-bit WebAssembly module can address, less a page. */
+const MAX_MEMORY = 4 * 2 ** 30 - PAGE;
+
+/** undefined: not tried yet; null: WebAssembly unavailable here. */
+let module: WebAssembly.Module | null | undefined;
+let coder: CoderWasm | null = null;
+let disabled = false;
+
+/** Byte offset where the planes may start (after the fixed scratch area). */
+const PLANES_AT = SCRATCH + SCRATCH_BYTES;
+
+/** The port, instantiated on first use; null where WebAssembly is unavailable or disabled. */
+export function coderWasm(setup: CoderSetup): CoderWasm | null {
+  if (disabled) return null;
+  if (coder) return coder;
+  if (module === undefined) {
+    try {
+      module = new WebAssembly.Module(decodeBase64(wasmBase64));
+    } catch {
+      module = null;
+    }
+  }
+  if (!module) return null;
+  const memory = new WebAssembly.Memory({ initial: Math.ceil(PLANES_AT / PAGE) });
+  const instance = new WebAssembly.Instance(module, {
+    env: {
+      memory,
+      coderError: setup.fail,
+      abort: () => {
+        throw new Error('rankfold engine: the WebAssembly coefficient coder aborted');
+      },
+    },
+  });
+  const buf = memory.buffer;
+  new Int32Array(buf, SCRATCH + AT_RECIP_FAST, setup.recipFast.length).set(setup.recipFast);
+  new Int32Array(buf, SCRATCH + AT_RECIP_SLOW, setup.recipSlow.length).set(setup.recipSlow);
+  new Uint8Array(buf, SCRATCH + AT_NB_LUT, setup.nbLut.length).set(setup.nbLut);
+  coder = { exports: instance.exports as unknown as CoderExports, memory };
+  return coder;
+}
+
+/**
+ * Make sure the port's memory has at least `bytes` bytes (this detaches earlier views of its buffer); false
+ * if it cannot (past 4 GiB, or the allocation fails), and the caller runs the TypeScript coder instead.
+ */
+function ensureMemory(c: CoderWasm, bytes: number): boolean {
+  const have = c.memory.buffer.byteLength;
+  if (bytes <= have) return true;
+  if (bytes > MAX_MEMORY) return false;
+  try {
+    c.memory.grow(Math.ceil((bytes - have) / PAGE));
+    return true;
+  } catch {
+    return false;
+  }
+}
+
+/** After a call: drop a memory that grew past {@link KEEP_BYTES} (the next call makes a fresh one). */
+function releaseMemory(): void {
+  if (coder && coder.memory.buffer.byteLength > KEEP_BYTES) coder = null;
+}
+
+const align8 = (x: number) => Math.ceil(x / 8) * 8;
+
+/**
+ * Where the planes go, for a plane of n coefficients: q (i32), the magnitude map (u8), the LL band's
+ * differences (i32), then `tail`, the last region: the encoder's output or the decoder's input.
+ */
+function planesLayout(n: number, table: Int32Array) {
+  const q = PLANES_AT;
+  const mag = q + 4 * n;
+  const d = align8(mag + n);
+  // The LL band's differences need w·h integers (orientation 0; bandsFor in ../wavelet-transform.ts has one).
+  let ll = 0;
+  for (let f = 0; f < table.length; f += BAND_FIELDS)
+    if (table[f + 4] === 0) ll = Math.max(ll, table[f + 2] * table[f + 3]);
+  const tail = align8(d + 4 * ll);
+  return { q, mag, d, tail };
+}
+
+/** Write the band table into the scratch area; returns the band count. */
+function putBands(buf: ArrayBuffer | SharedArrayBuffer, table: Int32Array): number {
+  new Int32Array(buf, SCRATCH + AT_BANDS, table.length).set(table);
+  return table.length / BAND_FIELDS;
+}
+
+/**
+ * Encode q with the port, given the bin counts of q (binStats in ../coeff-coder.ts) and the offset codes `k`
+ * made from them. `table`: the band table of ../coeff-coder.ts. Returns the bytes, or null if the plane does
+ * not fit in the port's memory.
+ */
+export function encodeWasm(
+  c: CoderWasm,
+  q: Int32Array,
+  width: number,
+  table: Int32Array,
+  counts: Int32Array,
+  k: Int32Array,
+): Uint8Array | null {
+  const n = q.length;
+  const at = planesLayout(n, table);
+  // Room for about 1 bit per coefficient at first; the module grows its memory if the bytes need more.
+  if (!ensureMemory(c, at.tail + (n >> 3) + PAGE)) return null;
+  try {
+    const buf = c.memory.buffer;
+    new Int32Array(buf, at.q, n).set(q);
+    const nb = putBands(buf, table);
+    new Int32Array(buf, SCRATCH + AT_COUNTS, 2 * nb).set(counts);
+    new Int32Array(buf, SCRATCH + AT_OFFSET_CODES, 2 * nb).set(k);
+    const nonZero = counts.some((x) => x > 0) ? 1 : 0;
+    const len = c.exports.encode(at.q, at.mag, at.d, n, width, nb, nonZero, at.tail);
+    return new Uint8Array(c.memory.buffer, at.tail, len).slice();
+  } finally {
+    releaseMemory();
+  }
+}
+
+/**
+ * Decode with the port into q: returns the bytes read (−1: it read past their end), the bin counts of the
+ * decoded q and the decoded offset codes. Null if the plane does not fit in the port's memory.
+ */
+export function decodeWasm(
+  c: CoderWasm,
+  bytes: Uint8Array,
+  q: Int32Array,
+  width: number,
+  table: Int32Array,
+): { pos: number; counts: Int32Array; k: Int32Array } | null {
+  const n = q.length;
+  const at = planesLayout(n, table);
+  if (!ensureMemory(c, at.tail + bytes.length)) return null;
+  try {
+    const buf = c.memory.buffer;
+    new Uint8Array(buf, at.tail, bytes.length).set(bytes);
+    const nb = putBands(buf, table);
+    const pos = c.exports.decode(at.q, at.mag, at.d, n, width, nb, at.tail, bytes.length);
+    q.set(new Int32Array(buf, at.q, n));
+    return {
+      pos,
+      counts: new Int32Array(buf, SCRATCH + AT_COUNTS, 2 * nb).slice(),
+      k: new Int32Array(buf, SCRATCH + AT_OFFSET_CODES, 2 * nb).slice(),
+    };
+  } finally {
+    releaseMemory();
+  }
+}
+
+/** Whether the port is in use: compiled here, and not disabled. */
+export function coderWasmLoaded(): boolean {
+  return !disabled && !!module;
+}
+
+/**
+ * Force the TypeScript coder (true) or allow the WebAssembly port again (false): for the tests that compare
+ * the two, and for diagnosing a suspected fault in the port.
+ */
+export function setCoderWasmDisabled(value: boolean): void {
+  disabled = value;
+}
