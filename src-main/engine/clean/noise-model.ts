@@ -3,10 +3,12 @@
  *
  * With `noiseModel` 'auto' the noise level function σ²(x) = a·x + b is fitted to every colour plane
  * (noise-level.ts, after Foi et al., IEEE TIP 17(10), 2008). The Poisson–Gaussian path is taken when the
- * slope matters on this scan: a is significant (above 3 standard errors) and the variance at the bright end
- * of the scan (95th percentile of the block means) is at least VARIANCE_RATIO times the variance at the dark
- * end (5th percentile). Otherwise the plain Gaussian path runs as before (σ from noise-estimate.ts), so
- * scans with brightness-independent noise are cleaned exactly as without the model.
+ * slope matters on this scan: a is significant (above 3 standard errors) and the ratio R of the variance at
+ * the bright end of the scan (95th percentile of the block means) to the variance at the dark end (5th
+ * percentile) is at least VARIANCE_RATIO even after subtracting RATIO_SE standard errors of R (from the fit's
+ * covariance of a and b, delta method). So the choice is made on what the fit can tell apart, not on its
+ * noise. Otherwise the plain Gaussian path runs as before (σ from noise-estimate.ts), so scans with
+ * brightness-independent noise are cleaned exactly as without the model.
  *
  * On the Poisson–Gaussian path each plane goes through the generalized Anscombe transform (anscombe.ts),
  * scaled so that the stabilised noise has σ_s = the model's σ at the scan's mean brightness (averaged over
@@ -15,12 +17,14 @@
  */
 import type { CleanMethodOptions, NoiseModelPlane, NoiseModelReport } from '../../contract';
 import { type Stabiliser, stabiliser } from './anscombe';
-import { fitNoiseLevel, modelSigma } from './noise-level';
+import { fitNoiseLevel, modelSigma, type NoiseLevelFit } from './noise-level';
 
 /** Variance ratio bright/dark end above which the slope matters (chosen here, not from a source). */
 const VARIANCE_RATIO = 1.5;
 /** The slope must exceed this many standard errors (common practice for a significance test). */
 const SLOPE_SE = 3;
+/** R must stay at or above VARIANCE_RATIO after subtracting this many of its standard errors (chosen here). */
+const RATIO_SE = 2;
 
 export interface NoisePlan {
   report: NoiseModelReport | null;
@@ -35,6 +39,19 @@ const mean = (p: ArrayLike<number>) => {
   for (let i = 0; i < p.length; i++) s += p[i];
   return s / Math.max(1, p.length);
 };
+
+/**
+ * Standard error of R = (a·high + b)/(a·low + b) from the covariance of a and b (delta method):
+ * ∂R/∂a = b·(high − low)/d², ∂R/∂b = −a·(high − low)/d², d = a·low + b. Infinite when d ≤ 0.
+ */
+function ratioError(f: NoiseLevelFit, low: number, high: number): number {
+  const d = f.a * low + f.b;
+  if (!(d > 0)) return Number.POSITIVE_INFINITY;
+  const ga = (f.b * (high - low)) / (d * d);
+  const gb = (-f.a * (high - low)) / (d * d);
+  const v = ga * ga * f.seA * f.seA + gb * gb * f.seB * f.seB + 2 * ga * gb * f.covAB;
+  return Math.sqrt(Math.max(0, v));
+}
 
 /** Decide the model for the colour planes (after banding removal) and build the transforms. */
 export function planNoiseModel(
@@ -52,6 +69,7 @@ export function planNoiseModel(
   let low = 0;
   let high = maxValue;
   let significant = true;
+  let ratioSe = 0;
   if (given) {
     models = names.map((plane) => ({ plane, a: given.a, b: given.b, seA: null, seB: null, points: [] }));
   } else {
@@ -68,6 +86,7 @@ export function planNoiseModel(
     low = mean(fits.map((f) => f!.low));
     high = mean(fits.map((f) => f!.high));
     significant = fits.every((f) => f!.a > SLOPE_SE * f!.seA);
+    ratioSe = mean(fits.map((f) => ratioError(f!, f!.low, f!.high)));
   }
   const a = mean(models.map((m) => m.a));
   const b = mean(models.map((m) => m.b));
@@ -89,12 +108,12 @@ export function planNoiseModel(
     reason = positive
       ? 'forced with --noise-model poisson-gaussian'
       : 'forced with --noise-model poisson-gaussian, but the fitted a is 0 in a plane: the same noise at every level';
-  } else if (positive && significant && ratio >= VARIANCE_RATIO) {
+  } else if (positive && significant && ratio - RATIO_SE * ratioSe >= VARIANCE_RATIO) {
     model = 'poisson-gaussian';
-    reason = `the noise variance grows ${ratio.toFixed(2)}× from the dark to the bright end of the scan`;
+    reason = `the noise variance grows ${ratio.toFixed(2)}× ± ${ratioSe.toFixed(2)} from the dark to the bright end of the scan`;
   } else {
     model = 'gaussian';
-    reason = `the noise variance changes ${Number.isFinite(ratio) ? `${ratio.toFixed(2)}×` : 'little'} across the scan's brightness (below ${VARIANCE_RATIO}× or not significant)`;
+    reason = `the noise variance changes ${Number.isFinite(ratio) ? `${ratio.toFixed(2)}× ± ${ratioSe.toFixed(2)}` : 'little'} across the scan's brightness (not clearly above ${VARIANCE_RATIO}×: ${RATIO_SE} standard errors below it reach under ${VARIANCE_RATIO}×, or a is not significant)`;
   }
   const report: NoiseModelReport = {
     model,
