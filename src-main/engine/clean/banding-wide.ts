@@ -75,6 +75,12 @@ const TYPICAL_SAMPLES = 128;
 /** At least this share of the lines must give unclipped pixels at a position for a step there (chosen here). */
 const MIN_VALID_SHARE = 0.5;
 /**
+ * The same on the paper of a text page, where a band edge inside a line of text keeps only the paper
+ * between the letters (chosen here: with page.png's lines every ~18 px, an edge at a line of text had
+ * 20–50 % of the lines left; 0.2 of 512 lines is still ~100 values).
+ */
+const MIN_VALID_SHARE_PAPER = 0.2;
+/**
  * A step larger than this (8-bit grey levels) is content (a print edge, a plate border): the bands this
  * pass is for are a few grey levels (issue 16 asks for RMS 4, whose largest steps are about 15; chosen here).
  */
@@ -108,6 +114,8 @@ interface Lines {
   lineLen: number;
   nLines: number;
   maxValue: number;
+  /** Share of the lines that must give unclipped pixels at a position (MIN_VALID_SHARE or _PAPER). */
+  minValid: number;
 }
 
 /**
@@ -131,7 +139,14 @@ export function wideBandProfile(
   for (let k = 0; k < nLines; k++)
     for (let x = 0; x + 1 < lineLen; x++)
       diffs[x * nLines + k] = levels[k * lineLen + x + 1] - levels[k * lineLen + x];
-  const lines: Lines = { levels, diffs, lineLen, nLines, maxValue };
+  const lines: Lines = {
+    levels,
+    diffs,
+    lineLen,
+    nLines,
+    maxValue,
+    minValid: background ? MIN_VALID_SHARE_PAPER : MIN_VALID_SHARE,
+  };
   const whole = edgeProfile(lines, 0, nLines);
   const { profile } = whole;
   let detected =
@@ -195,7 +210,7 @@ function edgeProfile(lines: Lines, from: number, to: number) {
     const all = robustStep(diffs, x * nLines + from, x * nLines + to, col);
     step[x] = all.step;
     const se = (TRIMMED_SE_FACTOR * all.spread) / Math.sqrt(Math.max(1, all.count));
-    significant[x] = all.count >= MIN_VALID_SHARE * count && Math.abs(all.step) > STEP_SE * se ? 1 : 0;
+    significant[x] = all.count >= lines.minValid * count && Math.abs(all.step) > STEP_SE * se ? 1 : 0;
   }
   const windowStep = (a: number, b: number, k0: number, k1: number) => groupStep(lines, a, b, k0, k1, col);
   const typical = new Float64Array(TYPICAL_SAMPLES);
@@ -226,7 +241,7 @@ function edgeProfile(lines: Lines, from: number, to: number) {
     const all = windowStep(first, b, from, to);
     const se = (TRIMMED_SE_FACTOR * all.spread) / Math.sqrt(Math.max(1, all.count));
     let ok =
-      all.count >= MIN_VALID_SHARE * count &&
+      all.count >= lines.minValid * count &&
       Math.abs(all.step) > STEP_SE * se &&
       Math.abs(all.step) <= maxStep &&
       all.spread <= MAX_STEP_SPREAD * Math.max(typicalSpread, localSpread(first, b));
