@@ -35,6 +35,37 @@ async function greyScan(): Promise<string> {
   return file;
 }
 
+/**
+ * 1320×1260 colour (above the residual-only shortcut's 1.57 MP): camera.png as red, moon.png as green and
+ * their mean as blue, upscaled, plus the same seeded noise, so the chroma planes carry detail to code.
+ */
+async function colourScan(): Promise<string> {
+  const file = join(dir, 'colour.png');
+  const grey = async (name: string) =>
+    (
+      await sharp(image(name))
+        .toColourspace('b-w')
+        .extractChannel(0)
+        .resize(1320, 1260, { fit: 'fill', kernel: 'lanczos3' })
+        .raw()
+        .toBuffer({ resolveWithObject: true })
+    ).data;
+  const [r, g] = [await grey('camera.png'), await grey('moon.png')];
+  const rgb = Buffer.alloc(3 * r.length);
+  let s = 9;
+  for (let i = 0; i < r.length; i++) {
+    const px = [r[i], g[i], (r[i] + g[i]) >> 1];
+    for (let c = 0; c < 3; c++) {
+      s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
+      rgb[3 * i + c] = Math.max(0, Math.min(255, px[c] + ((s >>> 24) % 5) - 2));
+    }
+  }
+  await sharp(rgb, { raw: { width: 1320, height: 1260, channels: 3 } })
+    .png()
+    .toFile(file);
+  return file;
+}
+
 const sample = (name: string) => join(repoRoot, 'samples', name);
 
 async function both(input: string, options: CompressOptions, tag: string) {
@@ -54,6 +85,8 @@ describe('compress with one thread and with two', () => {
   const cases: Array<[string, () => Promise<string>, CompressOptions]> = [
     ['grey 8-bit, residual-only shortcut', greyScan, { budget: { kind: 'bpp', bpp: 0.25 }, tile: 'auto' }],
     ['grey 8-bit, PSNR floor', greyScan, { budget: { kind: 'psnr', db: 36 }, tile: 'auto' }],
+    // Residual only: the chroma planes are coded on the side thread while the calling thread codes Y.
+    ['colour, residual-only shortcut', colourScan, { budget: { kind: 'bpp', bpp: 0.5 }, tile: 'auto' }],
     [
       'colour (samples/colour-slide.png)',
       async () => sample('colour-slide.png'),

@@ -76,7 +76,17 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
       frobenius: _f,
       baseBytes: _b,
       ...r
-    } = finishScan(img, prep, entropy, opts, build, first.basePlanes, first.residual, first.file);
+    } = finishScan(
+      img,
+      prep,
+      entropy,
+      opts,
+      build,
+      first.basePlanes,
+      first.residual,
+      first.file,
+      first.decoded,
+    );
     progress('done', 1);
     return { ...r, errors, factorMs: 0, encodeMs: now() - t0, layers: first.layers };
   }

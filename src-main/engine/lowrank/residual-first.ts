@@ -23,7 +23,6 @@ import type { QuantPlane } from '../codec/quantised';
 import {
   type AnalysedPlane,
   analysePlane,
-  codeAnalysed,
   codedSquaredError,
   estimateSquaredError,
   quantiseAnalysed,
@@ -31,7 +30,15 @@ import {
 } from '../codec/wavelet-plane';
 import { psnrFromSse } from '../metrics';
 import type { LayerSummary } from './encode-options';
-import { fitResidual, type ResidualBytes, residualTarget, tidy } from './residual-fit';
+import {
+  codeHere,
+  fitResidual,
+  type PlanesCoder,
+  type ResidualBytes,
+  residualTarget,
+  tidy,
+} from './residual-fit';
+import { planesCoder } from './side-coder';
 import { runHere, type SideRunner } from './side-jobs';
 import { emptyBase } from './two-layer';
 
@@ -131,11 +138,11 @@ function stepForError(analysed: AnalysedPlane[], weights: number[], target: numb
 }
 
 /** Code every plane at step d (scaled per plane): steps, bytes and the exact weighted transform-domain error. */
-function codeAll(analysed: AnalysedPlane[], weights: number[], step: number) {
+function codeAll(analysed: AnalysedPlane[], weights: number[], step: number, coder: PlanesCoder = codeHere) {
   const scales = stepScales(weights);
   const d = analysed.reduce((m, a, k) => Math.max(m, smallestSafeStep(a) / scales[k]), step);
   const steps = analysed.map((_, k) => tidy(d * scales[k]));
-  const coded = analysed.map((a, k) => codeAnalysed(a, steps[k], 2));
+  const coded = coder(analysed, steps);
   const sse = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
   return {
     steps,
@@ -201,7 +208,11 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   if (!(waveletSse < MARGIN * baseSse)) return undefined;
   cancel();
   const basePlanes = planes.map(() => emptyBase(width, height));
-  const analysed = early ?? planes.map((p) => analysePlane(p, width, height));
+  // A colour scan's chroma planes are coded on the second thread while this one codes Y (./side-coder).
+  const { analysed, code } = planesCoder(
+    early ?? planes.map((p) => analysePlane(p, width, height)),
+    inp.side,
+  );
   const summary = (
     residual: { steps: number[]; bytes: Uint8Array[] },
     fileBytes: number,
@@ -235,7 +246,7 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   if (byteBudget !== undefined) {
     const target = residualTarget(inp.build, basePlanes, byteBudget);
     if (target < 8 * nc) return undefined;
-    const { fit } = fitResidual(analysed, weights, scales, target, ratio, cancel, LANDING);
+    const { fit } = fitResidual(analysed, weights, scales, target, ratio, cancel, LANDING, code);
     if (!fit) return undefined;
     const residual = { steps: fit.steps, bytes: fit.bytes };
     const file = inp.build(basePlanes, residual);
@@ -251,7 +262,7 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   let aim = floor * FLOOR_AIM;
   for (let i = 0; i < MAX_CODES; i++) {
     cancel();
-    const c = codeAll(analysed, weights, stepForError(analysed, weights, aim));
+    const c = codeAll(analysed, weights, stepForError(analysed, weights, aim), code);
     const residual = { steps: c.steps, bytes: c.bytes };
     const file = inp.build(basePlanes, residual);
     const measured = inp.measuredSse(file);

@@ -88,6 +88,13 @@ export interface FitTolerance {
 
 const EXACT: FitTolerance = { close: 0.99, aim: 0.995, lazy: false };
 
+/** Codes every plane at its step (coder 2); ./residual-first may hand planes to a second thread. */
+export type PlanesCoder = (analysed: AnalysedPlane[], steps: number[]) => CodedCoefficients[];
+
+/** Every plane on the calling thread, in order. */
+export const codeHere: PlanesCoder = (analysed, steps) =>
+  analysed.map((a, k) => codeAnalysed(a, steps[k], 2));
+
 /**
  * The residual at the smallest step whose coded size is ≤ `target` bytes (summed over planes), using the
  * calibrated rate model and at most MAX_RESIDUAL_CODES real encodes (a coarser fallback may add one more).
@@ -100,6 +107,7 @@ export function fitResidual(
   ratio0: number,
   cancel: () => void,
   tol: FitTolerance = EXACT,
+  codePlanes: PlanesCoder = codeHere,
 ): { fit?: Fitted; ratio: number } {
   const sseOf = (coded: CodedCoefficients[]) =>
     coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
@@ -110,11 +118,12 @@ export function fitResidual(
   const code = (step: number) => {
     cancel();
     const d = Math.max(step, safe);
-    const coded = analysed.map((a, k) => codeAnalysed(a, tidy(d * scales[k]), 2));
+    const steps = analysed.map((_, k) => tidy(d * scales[k]));
+    const coded = codePlanes(analysed, steps);
     const bytes = coded.map((c) => c.bytes);
     const size = bytes.reduce((s, b) => s + b.length, 0);
     const sse = tol.lazy ? Number.NaN : sseOf(coded);
-    return { steps: analysed.map((_, k) => tidy(d * scales[k])), bytes, coded, size, sse };
+    return { steps, bytes, coded, size, sse };
   };
   /** Step whose calibrated estimate is `bytes` (bisection on log Δ; the estimate falls as Δ grows). */
   const stepFor = (bytes: number, ratio: number) => {

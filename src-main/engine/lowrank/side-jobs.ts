@@ -4,6 +4,7 @@
  * whichever thread computes it. The engine only sees a {@link SideRunner}; src-main/node/parallel/side-thread.ts
  * provides one backed by a worker thread, and {@link runHere} computes on the calling thread.
  */
+import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../codec/wavelet-plane';
 import { ssim, ssimRowSums } from '../metrics';
 import { factorPlane } from './factorise';
 import { estimateErrorAtBytes, type PlaneInput } from './solve';
@@ -36,6 +37,14 @@ export interface SideJobs {
     };
     result: number;
   };
+  /**
+   * One analysed plane (../codec/wavelet-plane analysePlane's fields) quantised and range-coded by coder 2 at
+   * pixel-domain step `step` (./residual-first: a colour scan's chroma planes while the calling thread codes Y).
+   */
+  'code-plane': {
+    args: AnalysedPlane & { step: number };
+    result: CodedCoefficients;
+  };
 }
 export type SideJobName = keyof SideJobs;
 
@@ -56,6 +65,7 @@ function cropBaseSse(a: SideJobs['crop-base-sse']['args']): number {
 export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => SideJobs[K]['result'] } = {
   'ssim-rows': (a) => ssimRowSums(a.a, a.b, a.width, a.height, a.range, a.from, a.to),
   'crop-base-sse': cropBaseSse,
+  'code-plane': ({ step, ...a }) => codeAnalysed(a, step, 2),
 };
 
 /**

@@ -1,6 +1,6 @@
 /**
  * One worker thread for the scan encoder's side jobs (src-main/engine/lowrank/side-jobs.ts), used
- * synchronously: `run` posts a job (its typed arrays copied) and returns a function that, once the calling
+ * synchronously: `run` posts a job (its typed arrays copied, unless shared) and returns a function that, once the calling
  * thread has done its own share, either takes the job back and computes it here (the worker had not started
  * it: still loading, or its core busy with other processes) or waits for the worker's answer with
  * Atomics.wait and reads it with receiveMessageOnPort. Both paths run the same function on the same data, so
@@ -44,14 +44,22 @@ function findSideWorker(): string | undefined {
     .find((c) => existsSync(c));
 }
 
-const isTyped = (v: unknown): v is Float32Array | Float64Array =>
-  v instanceof Float32Array || v instanceof Float64Array;
+const isTyped = (v: unknown): v is Float32Array | Float64Array | Int32Array | Uint8Array =>
+  v instanceof Float32Array ||
+  v instanceof Float64Array ||
+  v instanceof Int32Array ||
+  v instanceof Uint8Array;
 
-/** The job's arguments with every typed array (also inside arrays) copied, and the copies' buffers. */
+/**
+ * The job's arguments with every typed array (also inside arrays) copied, and the copies' buffers. Arrays on
+ * a SharedArrayBuffer (a colour scan's analysed chroma planes, ../../engine/lowrank/residual-first) are sent
+ * as they are: both threads then read the same memory, which neither writes while a job runs.
+ */
 function copied(args: Record<string, unknown>): { args: Record<string, unknown>; transfer: ArrayBuffer[] } {
   const transfer: ArrayBuffer[] = [];
   const copy = (v: unknown): unknown => {
     if (isTyped(v)) {
+      if (v.buffer instanceof SharedArrayBuffer) return v;
       const c = v.slice();
       transfer.push(c.buffer as ArrayBuffer);
       return c;

@@ -18,6 +18,8 @@ port.on('message', (m: SideMessage) => {
   const transfer: ArrayBuffer[] = [];
   try {
     const value = (SIDE_JOBS[m.name as SideJobName] as (a: unknown) => unknown)(m.args);
+    // A fresh top-level array moves; arrays inside an object (a coded plane's q, bytes) are copied, since
+    // the coder may keep reusing their buffers.
     if (value instanceof Float64Array) transfer.push(value.buffer as ArrayBuffer);
     answer = { id: m.id, ok: true, value };
   } catch (err) {
