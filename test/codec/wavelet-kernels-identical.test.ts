@@ -3,7 +3,7 @@
 // squared error must give the same bits, on sizes with odd widths and heights, partial column strips, and
 // single rows or columns (where the lifting does nothing along that side).
 import { createHash } from 'node:crypto';
-import { afterEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { codecKernelsActive } from '../../src-main/engine/codec/wasm/runtime';
 import {
   analysePlane,
@@ -17,7 +17,7 @@ import {
   inverseWavelet,
   levelsFor,
 } from '../../src-main/engine/codec/wavelet-transform';
-import { setKernelsDisabled } from '../../src-main/engine/metrics/wasm/loader';
+import { bothPaths, restoreKernelsAfterEach } from '../helpers/kernel-paths';
 import { lcg } from '../helpers/lcg';
 
 const digest = (x: ArrayBufferView) =>
@@ -34,15 +34,7 @@ function plane(w: number, h: number, seed: number): Float32Array {
   return x;
 }
 
-/** Run f with the kernels off (TypeScript reference), then on; both results. */
-function bothPaths<T>(f: () => T): [T, T] {
-  setKernelsDisabled(true);
-  const ref = f();
-  setKernelsDisabled(false);
-  return [ref, f()];
-}
-
-afterEach(() => setKernelsDisabled(false));
+restoreKernelsAfterEach();
 
 const SIZES: Array<[number, number]> = [
   [1, 1],

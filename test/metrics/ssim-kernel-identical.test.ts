@@ -2,10 +2,10 @@
 // (src-main/engine/metrics/ssim.ts): whole-plane SSIM, row sums of a split, and streams fed in bands and
 // interleaved (one per channel, as tiled-measure feeds them) must give the same bits, on odd and even widths,
 // the smallest plane the window allows, and a custom window radius.
-import { afterEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { SsimStream, ssim, ssimRowSums } from '../../src-main/engine/metrics';
-import { setKernelsDisabled } from '../../src-main/engine/metrics/wasm/loader';
 import { ssimKernelActive } from '../../src-main/engine/metrics/wasm/runtime';
+import { bothPaths, restoreKernelsAfterEach } from '../helpers/kernel-paths';
 import { lcg } from '../helpers/lcg';
 
 /** A plane (ramp plus LCG noise, grey levels) and a copy with extra noise. */
@@ -20,14 +20,7 @@ function planes(w: number, h: number, seed: number): [Float32Array, Float64Array
   return [a, b];
 }
 
-function bothPaths<T>(f: () => T): [T, T] {
-  setKernelsDisabled(true);
-  const ref = f();
-  setKernelsDisabled(false);
-  return [ref, f()];
-}
-
-afterEach(() => setKernelsDisabled(false));
+restoreKernelsAfterEach();
 
 const SIZES: Array<[number, number]> = [
   [11, 11],
