@@ -4,6 +4,9 @@
 // and paths taken out) with test/fixtures/golden-outputs.json.
 //   node scripts/golden-outputs.mjs          compare; exit 1 and list what differs
 //   node scripts/golden-outputs.mjs --write  record the current outputs as the reference
+//   --only REGEX                            run (and compare or record) only the jobs whose name matches,
+//                                           e.g. --only 'compress|expand' or --only clean; the rest of the
+//                                           reference is kept as it is
 // A change that is meant to alter an output records it again with --write, in its own commit.
 import { execFileSync } from 'node:child_process';
 import { createHash } from 'node:crypto';
@@ -62,9 +65,12 @@ for (const s of samples) {
   jobs.push([`${stem}.clean.removed`, null, removed]);
 }
 
+const onlyAt = process.argv.indexOf('--only');
+const only = onlyAt > 0 ? new RegExp(process.argv[onlyAt + 1] ?? '') : undefined;
 const got = {};
 try {
   for (const [name, args, file] of jobs) {
+    if (only && !only.test(name)) continue;
     process.stderr.write(`${name}\n`);
     if (args) got[`${name}.json`] = sha(JSON.stringify(scrub(JSON.parse(run(args)))));
     if (file) got[`${name}.bytes`] = sha(readFileSync(file));
@@ -73,12 +79,22 @@ try {
   rmSync(out, { recursive: true, force: true });
 }
 
+const ref = JSON.parse(readFileSync(refPath, 'utf8'));
 if (process.argv.includes('--write')) {
-  writeFileSync(refPath, `${JSON.stringify(got, null, 2)}\n`);
+  const kept = only ? Object.fromEntries(Object.entries(ref).filter(([k]) => !only.test(k))) : {};
+  const all = { ...kept, ...got };
+  const sorted = Object.fromEntries(
+    Object.keys(ref)
+      .concat(Object.keys(got))
+      .filter((k, i, a) => a.indexOf(k) === i)
+      .filter((k) => k in all)
+      .map((k) => [k, all[k]]),
+  );
+  writeFileSync(refPath, `${JSON.stringify(sorted, null, 2)}\n`);
   process.stdout.write(`recorded ${Object.keys(got).length} outputs in ${refPath}\n`);
 } else {
-  const ref = JSON.parse(readFileSync(refPath, 'utf8'));
-  const differ = Object.keys({ ...ref, ...got }).filter((k) => ref[k] !== got[k]);
+  const keys = only ? Object.keys(got) : Object.keys({ ...ref, ...got });
+  const differ = keys.filter((k) => ref[k] !== got[k]);
   for (const k of differ) process.stdout.write(`differs: ${k}\n`);
   process.stdout.write(`${Object.keys(got).length - differ.length} identical, ${differ.length} differ\n`);
   process.exit(differ.length ? 1 : 0);
