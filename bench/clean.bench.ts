@@ -93,7 +93,8 @@ print(json.dumps(res))
 /**
  * The 2000×1500 scan's timing, 1 and 2 workers, and the colour map sheet. With RANKFOLD_BENCH_CLEAN=scan the
  * benchmark runs this section alone and only prints it (no section file is written, so the full run's
- * docs/bench/30-clean.md is kept).
+ * docs/bench/30-clean.md is kept). RANKFOLD_BENCH_CLEAN=noise-model, correlated or banding does the same for
+ * those sections.
  */
 async function scanSection(fixtures: string) {
   log('### A 2000×1500 scan, σ = 10');
@@ -208,6 +209,18 @@ async function main() {
     }
   const sk = skimageAvailable();
   const tmp = mkdtempSync(join(tmpdir(), 'rankfold-bench-clean-'));
+  // One section alone, printed but not written to docs/bench (for work on that section).
+  const alone: Record<string, () => Promise<void>> = {
+    'noise-model': () => poissonGaussianSection(images, tmp, sk, log),
+    correlated: () => correlatedSection(images, tmp, sk, log),
+    banding: () => bandingSection(images, log),
+  };
+  const section = alone[process.env.RANKFOLD_BENCH_CLEAN ?? ''];
+  if (section) {
+    await section();
+    rmSync(tmp, { recursive: true, force: true });
+    return;
+  }
   log('## Cleaning (`npm run bench clean`)');
   log('');
   log(
