@@ -7,28 +7,17 @@
 import { join } from 'node:path';
 import { cleanDecoded } from '../src-main/node/services/clean';
 import { BINOMIAL_3, filteredNoise, GAUSSIAN_5 } from '../test/clean/correlated-noise';
-import { asDecoded, clip, type Gray, psnr, runSkimage, writeGrayPng } from './clean-shared';
+import {
+  asDecoded,
+  clip,
+  type Gray,
+  psnr,
+  runSkimage,
+  skimageWhiteScript,
+  writeGrayPng,
+} from './clean-shared';
 
-const SK_TRUE_SIGMA = `
-import json, sys
-import numpy as np
-from skimage import io, restoration, metrics
-res = {}
-for job in json.load(open(sys.argv[1])):
-    t = io.imread(job['truth']).astype(float) / 255
-    n = io.imread(job['noisy']).astype(float) / 255
-    if t.ndim == 3: t = t[..., 0]
-    if n.ndim == 3: n = n[..., 0]
-    s = job['sigma'] / 255
-    out = {
-      'wavelet': restoration.denoise_wavelet(n, sigma=s, method='BayesShrink', mode='soft', rescale_sigma=True),
-      'nl-means': restoration.denoise_nl_means(n, h=0.8 * s, sigma=s, fast_mode=True, patch_size=5, patch_distance=6),
-      'tv': restoration.denoise_tv_chambolle(n, weight=0.1),
-    }
-    p0 = metrics.peak_signal_noise_ratio(t, n, data_range=1)
-    res[job['id']] = {k: metrics.peak_signal_noise_ratio(t, np.clip(v, 0, 1), data_range=1) - p0 for k, v in out.items()}
-print(json.dumps(res))
-`;
+const SK_TRUE_SIGMA = skimageWhiteScript('told');
 
 const KERNELS: Array<[string, number[]]> = [
   ['binomial 3×3', BINOMIAL_3],

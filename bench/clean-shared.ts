@@ -92,6 +92,36 @@ export async function writeGrayPng(file: string, g: Gray, data: Float32Array) {
 }
 
 /**
+ * The scikit-image 0.19 script of the white-noise comparisons: wavelet (BayesShrink), NL-means (fast, h = 0.8σ,
+ * 5×5 patches, distance 6) and TV (Chambolle, weight 0.1) on each job's noisy 8-bit file, gains in dB against
+ * its truth. `sigma: 'estimated'` gives each the σ that `restoration.estimate_sigma` finds (the wavelet its own
+ * estimate); `sigma: 'told'` tells all of them the job's true σ (job.sigma, grey levels).
+ */
+export function skimageWhiteScript(sigma: 'estimated' | 'told'): string {
+  const told = sigma === 'told';
+  return `
+import json, sys
+import numpy as np
+from skimage import io, restoration, metrics
+res = {}
+for job in json.load(open(sys.argv[1])):
+    t = io.imread(job['truth']).astype(float) / 255
+    n = io.imread(job['noisy']).astype(float) / 255
+    if t.ndim == 3: t = t[..., 0]
+    if n.ndim == 3: n = n[..., 0]
+    s = ${told ? "job['sigma'] / 255" : 'restoration.estimate_sigma(n)'}
+    out = {
+      'wavelet': restoration.denoise_wavelet(n, ${told ? 'sigma=s, ' : ''}method='BayesShrink', mode='soft', rescale_sigma=True),
+      'nl-means': restoration.denoise_nl_means(n, h=0.8 * s, sigma=s, fast_mode=True, patch_size=5, patch_distance=6),
+      'tv': restoration.denoise_tv_chambolle(n, weight=0.1),
+    }
+    p0 = metrics.peak_signal_noise_ratio(t, n, data_range=1)
+    res[job['id']] = {k: metrics.peak_signal_noise_ratio(t, np.clip(v, 0, 1), data_range=1) - p0 for k, v in out.items()}
+print(json.dumps(res))
+`;
+}
+
+/**
  * Run a Python script on a job list with Debian's python3 (scikit-image); its stdout is one JSON object of
  * gains per job id. A failure is logged and gives no results.
  */

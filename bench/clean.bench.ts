@@ -27,6 +27,7 @@ import {
   QUICK,
   runSkimage,
   skimageAvailable,
+  skimageWhiteScript,
   writeGrayPng,
 } from './clean-shared';
 
@@ -69,26 +70,7 @@ function globalThreshold(g: Gray, noisy: Float32Array): Float32Array {
   return out;
 }
 
-const SK_SCRIPT = `
-import json, sys
-import numpy as np
-from skimage import io, restoration, metrics
-res = {}
-for job in json.load(open(sys.argv[1])):
-    t = io.imread(job['truth']).astype(float) / 255
-    n = io.imread(job['noisy']).astype(float) / 255
-    if t.ndim == 3: t = t[..., 0]
-    if n.ndim == 3: n = n[..., 0]
-    s = restoration.estimate_sigma(n)
-    out = {
-      'wavelet': restoration.denoise_wavelet(n, method='BayesShrink', mode='soft', rescale_sigma=True),
-      'nl-means': restoration.denoise_nl_means(n, h=0.8 * s, sigma=s, fast_mode=True, patch_size=5, patch_distance=6),
-      'tv': restoration.denoise_tv_chambolle(n, weight=0.1),
-    }
-    p0 = metrics.peak_signal_noise_ratio(t, n, data_range=1)
-    res[job['id']] = {k: metrics.peak_signal_noise_ratio(t, np.clip(v, 0, 1), data_range=1) - p0 for k, v in out.items()}
-print(json.dumps(res))
-`;
+const SK_SCRIPT = skimageWhiteScript('estimated');
 
 /**
  * The 2000×1500 scan's timing, 1 and 2 workers, and the colour map sheet. With RANKFOLD_BENCH_CLEAN=scan the
