@@ -55,7 +55,10 @@ export function createOpener(p: OpenerParts): Opener {
   const body = document.body;
   const opening = createOpeningNote();
 
-  /** Show a model at `rank`, or at the opening rank (which also makes the budget that rank). */
+  /**
+   * Show a model at `rank`, or at the opening rank (which also makes the budget that rank). A model at a
+   * given rank replaces one of the same scan: exact figures on show for that rank stay exact.
+   */
   const installModel = (buf: ArrayBuffer, rank: number | { openingCap: number }) => {
     const model = new LowRankModel(buf);
     state.model = model;
@@ -63,7 +66,7 @@ export function createOpener(p: OpenerParts): Opener {
     p.charts.show(model);
     p.panes.showModel();
     p.setLayerCount(model.maxRank);
-    if (typeof rank === 'number') p.rank.set(rank, state.budget.kind === 'rank');
+    if (typeof rank === 'number') p.rank.set(rank, state.budget.kind === 'rank', true);
     else p.rank.set(opening.choose(model, rank.openingCap), true);
     p.rank.syncBudgetField();
     p.enableClean();

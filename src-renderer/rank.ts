@@ -15,8 +15,12 @@ const STEP_MS_PER_FRAME = 10;
 
 export interface RankSlider {
   readonly input: HTMLInputElement;
-  /** Move to rank k; a move by the user also makes the budget that rank. */
-  set(k: number, fromUser: boolean): void;
+  /**
+   * Move to rank k; a move by the user also makes the budget that rank. `keepExact`: the encoder's exact
+   * figures on show stay (a deeper spectrum arrived, the file they describe did not change); otherwise the
+   * figures become the instant estimates for k.
+   */
+  set(k: number, fromUser: boolean, keepExact?: boolean): void;
   /** Show the slider's rank in the budget field, unless the user is typing there. */
   syncBudgetField(): void;
   /** Enable the slider over every rank the open scan can take (up to the tile size in tiled mode). */
@@ -71,7 +75,7 @@ export function createRankSlider(
     frame();
   };
 
-  const set = (k: number, fromUser: boolean) => {
+  const set = (k: number, fromUser: boolean, keepExact = false) => {
     const m = state.model;
     if (!m) return;
     stepStart = performance.now();
@@ -95,7 +99,8 @@ export function createRankSlider(
       pump();
       if (k > m.maxRank) api.onBeyond?.(k);
     }
-    readouts.estimate(k);
+    const shown = readouts.current();
+    if (!(keepExact && shown?.exact && shown.values.rank === k)) readouts.estimate(k);
     panes.label();
   };
 
