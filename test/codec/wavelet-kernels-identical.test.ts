@@ -2,7 +2,6 @@
 // the 9/7 transform forward and inverse, the dead-zone quantiser, the reconstruction and the transform-domain
 // squared error must give the same bits, on sizes with odd widths and heights, partial column strips, and
 // single rows or columns (where the lifting does nothing along that side).
-import { createHash } from 'node:crypto';
 import { describe, expect, it } from 'vitest';
 import { codecKernelsActive } from '../../src-main/engine/codec/wasm/runtime';
 import {
@@ -18,21 +17,9 @@ import {
   levelsFor,
 } from '../../src-main/engine/codec/wavelet-transform';
 import { bothPaths, restoreKernelsAfterEach } from '../helpers/kernel-paths';
-import { lcg } from '../helpers/lcg';
+import { digest, rampPlane } from './plane-samples';
 
-const digest = (x: ArrayBufferView) =>
-  createHash('sha256')
-    .update(new Uint8Array(x.buffer, x.byteOffset, x.byteLength))
-    .digest('hex');
-
-/** A test plane: LCG noise on a ramp with a sharp edge (grey levels 0…255). */
-function plane(w: number, h: number, seed: number): Float32Array {
-  const next = lcg(seed);
-  const x = new Float32Array(w * h);
-  for (let y = 0; y < h; y++)
-    for (let i = 0; i < w; i++) x[y * w + i] = (i > w / 3 ? 160 : 40) + y * 0.3 + next() * 30;
-  return x;
-}
+const plane = rampPlane;
 
 restoreKernelsAfterEach();
 

@@ -23,6 +23,7 @@
  *   Laplacian source the MSE-optimal reconstruction lies inside the bin, not at its edge).
  */
 import * as rc from './range-coder';
+import type { PlaneArena } from './wasm/arena';
 import {
   BAND_FIELDS,
   CLASSES,
@@ -41,7 +42,14 @@ import {
   PS_BINS,
   SIGN_CONTEXTS,
 } from './wasm/coder-constants';
-import { type CoderSetup, coderWasm, decodeWasm, encodeWasm } from './wasm/coder-runtime';
+import {
+  type CoderSetup,
+  coderWasm,
+  decodeWasm,
+  encodeAt,
+  encodeWasm,
+  planesLayout,
+} from './wasm/coder-runtime';
 import type { Band } from './wavelet-transform';
 
 /** Neighbourhood sum → bin: 0, 1, 2, 3, 4–5, 6–7, 8–11, 12–17, 18–29 (≥ NB_SUMS = 30: bin 9). */
@@ -284,6 +292,24 @@ export function encodeCoefficientsV2(
   return { bytes: enc.finish(), offsets };
 }
 
+/**
+ * Coder 2 on the q resident in a plane's arena (../resident-plane.ts) with its bin statistics `stats` (what
+ * binStats gives): the bytes and offsets {@link encodeCoefficientsV2} returns for the same q, without copying
+ * q; null where the port is unavailable (the caller then runs encodeCoefficientsV2).
+ */
+export function encodeResidentV2(
+  arena: PlaneArena,
+  bands: Band[],
+  stats: { n: Int32Array; sum: Float64Array },
+): CodedV2 | null {
+  const c = bands.length <= MAX_BANDS ? arena.coder(SETUP) : null;
+  if (!c) return null;
+  const k = offsetCodes(stats.n, stats.sum);
+  const table = bandTable(bands);
+  const at = planesLayout(arena.n, table, arena.qAt, arena.workAt);
+  return { bytes: encodeAt(c, at, arena.n, arena.width, table, stats.n, k), offsets: offsetsOf(stats.n, k) };
+}
+
 /** Per band and bin class, the offset code (units of 1/OFFSET_UNIT) coder 2 writes, from binStats' counts and sums. */
 function offsetCodes(counts: Int32Array, sum: Float64Array): Int32Array {
   return Int32Array.from(sum, (s, j) =>
@@ -309,8 +335,12 @@ export function reconstructionOffsetsV2(
   width: number,
   bands: Band[],
 ): Float64Array {
-  const { n: counts, sum } = binStats(q, width, bands, coeffs, steps);
-  return offsetsOf(counts, offsetCodes(counts, sum));
+  return offsetsFromStats(binStats(q, width, bands, coeffs, steps));
+}
+
+/** The reconstruction offsets coder 2 writes, from binStats' counts and sums (or the same from a kernel). */
+export function offsetsFromStats(stats: { n: Int32Array; sum: Float64Array }): Float64Array {
+  return offsetsOf(stats.n, offsetCodes(stats.n, stats.sum));
 }
 
 /**

@@ -17,19 +17,29 @@
 
 import { bandSteps, DEAD_ZONE_RHO } from './band-steps';
 import { recallCode, rememberCode } from './coded-planes';
-import { decodeCoefficientsV2, encodeCoefficientsV2, reconstructionOffsetsV2 } from './coeff-coder';
-import { decodeCoefficientsV1, encodeCoefficientsV1 } from './coeff-coder-v1';
-import { quantiseWasm, reconstructWasm } from './wasm/runtime';
 import {
-  type Band,
-  bandsFor,
-  inverseWavelet,
-  LIFTING,
-  levelsFor,
-  transformedCopy,
-} from './wavelet-transform';
+  decodeCoefficientsV2,
+  encodeCoefficientsV2,
+  encodeResidentV2,
+  offsetsFromStats,
+  reconstructionOffsetsV2,
+} from './coeff-coder';
+import { decodeCoefficientsV1, encodeCoefficientsV1 } from './coeff-coder-v1';
+import {
+  adoptArena,
+  analyseResident,
+  bandMaxResident,
+  binStatsResident,
+  ownQ,
+  quantiseResident,
+  residentArena,
+} from './resident-plane';
+import { quantiseWasm } from './wasm/runtime';
+import { dequantise } from './wavelet-rebuild';
+import { type Band, bandsFor, levelsFor, transformedCopy } from './wavelet-transform';
 
 export { estimateBits, estimateSquaredError } from './wavelet-estimate';
+export { codedSquaredError } from './wavelet-rebuild';
 
 export {
   forwardWavelet,
@@ -74,9 +84,29 @@ export function analysePlane(plane: ArrayLike<number>, width: number, height: nu
   if (plane.length !== n)
     throw new RangeError(`plane has ${plane.length} samples; expected ${width}×${height}`);
   const levels = levelsFor(width, height);
-  const x = transformedCopy(plane, width, height, levels);
   const bands = bandsFor(width, height, levels);
-  return { width, height, levels, bands, map: bandIndexMap(width, height, bands), coeffs: x };
+  const arena = analyseResident(plane, width, height, levels);
+  if (!arena) {
+    const x = transformedCopy(plane, width, height, levels);
+    return { width, height, levels, bands, map: bandIndexMap(width, height, bands), coeffs: x };
+  }
+  // The coefficients stay in the plane's arena (./resident-plane); the band map is built only if asked for.
+  let map: Uint8Array | undefined;
+  const a: AnalysedPlane = {
+    width,
+    height,
+    levels,
+    bands,
+    get map() {
+      map ??= bandIndexMap(width, height, bands);
+      return map;
+    },
+    get coeffs() {
+      return arena.coeffs();
+    },
+  };
+  adoptArena(a, arena);
+  return a;
 }
 
 /** The quantised coefficients and their range-coded bytes at one step (no reconstruction). */
@@ -112,10 +142,13 @@ function zeroThreshold(d: number, rho: number): number {
 function quantise(a: AnalysedPlane, steps: Float64Array, q: Int32Array): number {
   const { width, bands, coeffs: x } = a;
   const rhoOf = (b: Band) => (b.orient === 0 ? 0.5 : DEAD_ZONE_RHO);
-  const fast = quantiseWasm(x, q, width, bands, (bi) => {
+  const par = (bi: number): [number, number, number] => {
     const rho = rhoOf(bands[bi]);
     return [steps[bi], rho, zeroThreshold(steps[bi], rho)];
-  });
+  };
+  const arena = residentArena(a);
+  if (arena) return quantiseResident(arena, bands, par, q);
+  const fast = quantiseWasm(x, q, width, bands, par);
   if (fast !== null) return fast;
   let nonZero = 0;
   for (let bi = 0; bi < bands.length; bi++) {
@@ -148,10 +181,15 @@ function quantise(a: AnalysedPlane, steps: Float64Array, q: Int32Array): number 
 export function quantiseAnalysed(a: AnalysedPlane, step: number): Omit<CodedCoefficients, 'bytes'> {
   checkStep(step);
   const steps = bandSteps(a.bands, step);
-  const q = new Int32Array(a.coeffs.length);
+  const q = new Int32Array(a.width * a.height);
   const nonZero = quantise(a, steps, q);
-  const offsets = reconstructionOffsetsV2(q, a.coeffs, steps, a.width, a.bands);
-  return { q, steps, nonZero, offsets };
+  const arena = residentArena(a);
+  const offsets = arena
+    ? offsetsFromStats(binStatsResident(arena, a.bands, steps))
+    : reconstructionOffsetsV2(q, a.coeffs, steps, a.width, a.bands);
+  const out = { q, steps, nonZero, offsets };
+  if (arena) ownQ(arena, out);
+  return out;
 }
 
 /**
@@ -161,13 +199,15 @@ export function quantiseAnalysed(a: AnalysedPlane, step: number): Omit<CodedCoef
  */
 export function smallestSafeStep(a: AnalysedPlane): number {
   const unit = bandSteps(a.bands, 1);
+  const arena = residentArena(a);
+  const tops = arena && bandMaxResident(arena, a.bands);
   const { bands, width, coeffs } = a;
   // Division by a positive step is monotone, so each band's largest |c|/Δ is its largest |c| over Δ.
   let worst = 0;
   for (let bi = 0; bi < bands.length; bi++) {
     const b = bands[bi];
-    let top = 0;
-    for (let y = 0; y < b.h; y++) {
+    let top = tops ? tops[bi] : 0;
+    for (let y = 0; y < (tops ? 0 : b.h); y++) {
       const row = (b.y0 + y) * width + b.x0;
       for (let i = row; i < row + b.w; i++) {
         const c = Math.abs(coeffs[i]);
@@ -183,14 +223,20 @@ export function smallestSafeStep(a: AnalysedPlane): number {
 /** Quantise and range-code an analysed plane at pixel-domain step `step` (> 0) with coder `coder`. */
 export function codeAnalysed(a: AnalysedPlane, step: number, coder: PlaneCoder = 1): CodedCoefficients {
   checkStep(step);
-  const { width, bands, coeffs: x } = a;
+  const { width, bands } = a;
   const steps = bandSteps(bands, step);
-  const q = new Int32Array(x.length);
+  const q = new Int32Array(width * a.height);
   const nonZero = quantise(a, steps, q);
+  const arena = residentArena(a);
+  // On a resident plane coder 2 reads q and the bin statistics where they are (./resident-plane).
+  const v2 = () =>
+    (arena && encodeResidentV2(arena, bands, binStatsResident(arena, bands, steps))) ||
+    encodeCoefficientsV2(q, a.coeffs, steps, width, bands);
   const coded: CodedCoefficients =
     coder === 1
       ? { bytes: encodeCoefficientsV1(q, width, bands), q, steps, nonZero }
-      : { ...encodeCoefficientsV2(q, x, steps, width, bands), q, steps, nonZero };
+      : { ...v2(), q, steps, nonZero };
+  if (arena) ownQ(arena, coded);
   rememberCode({ bytes: coded.bytes, width, height: a.height, step, coder, coded });
   return coded;
 }
@@ -243,93 +289,4 @@ export function decodePlane(
   }
   const offsets = decodeCoefficientsV2(bytes, q, width, bands);
   return dequantise({ q, steps, offsets }, width, height, levels, bands);
-}
-
-/** Reconstruction ({@link dequantiseInto}), then the inverse transform (shared by encoder and decoder). */
-function dequantise(
-  c: { q: Int32Array; steps: Float64Array; offsets?: Float64Array },
-  width: number,
-  height: number,
-  levels: number,
-  bands: Band[],
-): Float64Array {
-  const { steps, offsets } = c;
-  const par = (bi: number): [number, number, number] =>
-    offsets ? [steps[bi], offsets[2 * bi], offsets[2 * bi + 1]] : [steps[bi], 0, 0];
-  const fast = reconstructWasm(c.q, width, height, levels, bands, par, LIFTING);
-  if (fast) return fast;
-  const x = new Float64Array(width * height);
-  dequantiseInto(c, bands, width, x);
-  inverseWavelet(x, width, height, levels);
-  return x;
-}
-
-/**
- * x[i] = sign(q)·(|q| + δ)·Δ_b for every coefficient i of band b (δ = 0 for coder 1, zeros stay 0), computed
- * as (q ± δ)·Δ_b, or q·Δ_b without offsets.
- */
-function dequantiseInto(
-  c: { q: Int32Array; steps: Float64Array; offsets?: Float64Array },
-  bands: Band[],
-  width: number,
-  x: Float64Array,
-): void {
-  const { q, steps, offsets } = c;
-  for (let bi = 0; bi < bands.length; bi++) {
-    const b = bands[bi];
-    const step = steps[bi];
-    const d1 = offsets ? offsets[2 * bi] : 0;
-    const d2 = offsets ? offsets[2 * bi + 1] : 0;
-    for (let y = 0; y < b.h; y++) {
-      const row = (b.y0 + y) * width + b.x0;
-      const end = row + b.w;
-      for (let i = row; i < end; i++) {
-        const v = q[i];
-        if (v !== 0) x[i] = rebuilt(v, step, d1, d2);
-      }
-    }
-  }
-}
-
-/**
- * (v ± δ)·Δ with δ = d1 for |v| = 1 and d2 for |v| ≥ 2, for v ≠ 0. Without offsets (δ = 0) this is exactly
- * v·Δ, since v ± 0 = v in floating point.
- */
-function rebuilt(v: number, step: number, d1: number, d2: number): number {
-  return (v < 0 ? v - (v === -1 ? d1 : d2) : v + (v === 1 ? d1 : d2)) * step;
-}
-
-/**
- * Pixel-domain squared error of coded coefficients, estimated in the transform domain: Σ_b g_b·Σ(c − q·Δ_b)²
- * with g_b the band's synthesis energy. The 9/7 pair is nearly orthogonal, so this is close to (not exactly)
- * the squared error of {@link reconstructCoded}'s output (Usevitch, IEEE Signal Process. Mag. 18(5), 2001,
- * on weighting biorthogonal subband errors by synthesis gains; from memory).
- */
-export function codedSquaredError(
-  a: AnalysedPlane,
-  c: { q: Int32Array; steps: Float64Array; offsets?: Float64Array },
-): number {
-  // Band by band in raster order, each coefficient rebuilt as dequantiseInto does: every band's sum is formed
-  // in the same order as over a whole rebuilt plane, without allocating one.
-  const { bands, width, coeffs: x } = a;
-  const { q, steps, offsets } = c;
-  let e = 0;
-  for (let bi = 0; bi < bands.length; bi++) {
-    const b = bands[bi];
-    const step = steps[bi];
-    const d1 = offsets ? offsets[2 * bi] : 0;
-    const d2 = offsets ? offsets[2 * bi + 1] : 0;
-    let s = 0;
-    for (let y = 0; y < b.h; y++) {
-      const row = (b.y0 + y) * width + b.x0;
-      const end = row + b.w;
-      for (let i = row; i < end; i++) {
-        const v = q[i];
-        const d = v === 0 ? x[i] : x[i] - rebuilt(v, step, d1, d2);
-        s += d * d;
-      }
-    }
-    e += b.gain * s;
-  }
-  return e;
 }

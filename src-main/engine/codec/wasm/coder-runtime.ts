@@ -71,10 +71,8 @@ let disabled = false;
 /** Byte offset where the planes may start (after the fixed scratch area). */
 const PLANES_AT = SCRATCH + SCRATCH_BYTES;
 
-/** The port, instantiated on first use; null where WebAssembly is unavailable or disabled. */
-export function coderWasm(setup: CoderSetup): CoderWasm | null {
-  if (disabled) return null;
-  if (coder) return coder;
+/** The compiled module, or null where WebAssembly is unavailable or refuses a synchronous compile. */
+function compiledModule(): WebAssembly.Module | null {
   if (module === undefined) {
     try {
       module = new WebAssembly.Module(decodeBase64(wasmBase64));
@@ -82,9 +80,12 @@ export function coderWasm(setup: CoderSetup): CoderWasm | null {
       module = null;
     }
   }
-  if (!module) return null;
-  const memory = new WebAssembly.Memory({ initial: Math.ceil(PLANES_AT / PAGE) });
-  const instance = new WebAssembly.Instance(module, {
+  return module;
+}
+
+/** The port instantiated on `memory` (at least PLANES_AT bytes), with the coder's tables written. */
+function instantiate(m: WebAssembly.Module, memory: WebAssembly.Memory, setup: CoderSetup): CoderWasm {
+  const instance = new WebAssembly.Instance(m, {
     env: {
       memory,
       coderError: setup.fail,
@@ -97,8 +98,27 @@ export function coderWasm(setup: CoderSetup): CoderWasm | null {
   new Int32Array(buf, SCRATCH + AT_RECIP_FAST, setup.recipFast.length).set(setup.recipFast);
   new Int32Array(buf, SCRATCH + AT_RECIP_SLOW, setup.recipSlow.length).set(setup.recipSlow);
   new Uint8Array(buf, SCRATCH + AT_NB_LUT, setup.nbLut.length).set(setup.nbLut);
-  coder = { exports: instance.exports as unknown as CoderExports, memory };
+  return { exports: instance.exports as unknown as CoderExports, memory };
+}
+
+/** The port, instantiated on first use; null where WebAssembly is unavailable or disabled. */
+export function coderWasm(setup: CoderSetup): CoderWasm | null {
+  if (disabled) return null;
+  if (coder) return coder;
+  const m = compiledModule();
+  if (!m) return null;
+  coder = instantiate(m, new WebAssembly.Memory({ initial: Math.ceil(PLANES_AT / PAGE) }), setup);
   return coder;
+}
+
+/**
+ * The port on another module's memory (a plane's own, ./arena.ts: its planes at offsets the caller gives,
+ * its scratch area at SCRATCH as here); null where the port is unavailable or disabled.
+ */
+export function coderOn(memory: WebAssembly.Memory, setup: CoderSetup): CoderWasm | null {
+  if (disabled) return null;
+  const m = compiledModule();
+  return m ? instantiate(m, memory, setup) : null;
 }
 
 /**
@@ -126,11 +146,10 @@ const align8 = (x: number) => Math.ceil(x / 8) * 8;
 
 /**
  * Where the planes go, for a plane of n coefficients: q (i32), the magnitude map (u8), the LL band's
- * differences (i32), then `tail`, the last region: the encoder's output or the decoder's input.
+ * differences (i32), then `tail`, the last region: the encoder's output or the decoder's input. q and the map
+ * follow each other unless given (./arena.ts places them apart).
  */
-function planesLayout(n: number, table: Int32Array) {
-  const q = PLANES_AT;
-  const mag = q + 4 * n;
+export function planesLayout(n: number, table: Int32Array, q = PLANES_AT, mag = q + 4 * n): PlanesAt {
   const d = align8(mag + n);
   // The LL band's differences need w·h integers (orientation 0; bandsFor in ../wavelet-transform.ts has one).
   let ll = 0;
@@ -144,6 +163,37 @@ function planesLayout(n: number, table: Int32Array) {
 function putBands(buf: ArrayBuffer | SharedArrayBuffer, table: Int32Array): number {
   new Int32Array(buf, SCRATCH + AT_BANDS, table.length).set(table);
   return table.length / BAND_FIELDS;
+}
+
+/** Where a plane's arrays are in the port's memory: q (i32), the magnitude map (u8), the LL differences, the output. */
+export interface PlanesAt {
+  q: number;
+  mag: number;
+  d: number;
+  tail: number;
+}
+
+/**
+ * Encode the n values of q already at `at.q` in `c`'s memory, given their bin counts and the offset codes `k`
+ * made from them (binStats and offsetCodes in ../coeff-coder.ts). `table`: the band table of ../coeff-coder.ts.
+ * Returns the bytes (a copy).
+ */
+export function encodeAt(
+  c: CoderWasm,
+  at: PlanesAt,
+  n: number,
+  width: number,
+  table: Int32Array,
+  counts: Int32Array,
+  k: Int32Array,
+): Uint8Array {
+  const buf = c.memory.buffer;
+  const nb = putBands(buf, table);
+  new Int32Array(buf, SCRATCH + AT_COUNTS, 2 * nb).set(counts);
+  new Int32Array(buf, SCRATCH + AT_OFFSET_CODES, 2 * nb).set(k);
+  const nonZero = counts.some((x) => x > 0) ? 1 : 0;
+  const len = c.exports.encode(at.q, at.mag, at.d, n, width, nb, nonZero, at.tail);
+  return new Uint8Array(c.memory.buffer, at.tail, len).slice();
 }
 
 /**
@@ -164,14 +214,8 @@ export function encodeWasm(
   // Room for about 1 bit per coefficient at first; the module grows its memory if the bytes need more.
   if (!ensureMemory(c, at.tail + (n >> 3) + PAGE)) return null;
   try {
-    const buf = c.memory.buffer;
-    new Int32Array(buf, at.q, n).set(q);
-    const nb = putBands(buf, table);
-    new Int32Array(buf, SCRATCH + AT_COUNTS, 2 * nb).set(counts);
-    new Int32Array(buf, SCRATCH + AT_OFFSET_CODES, 2 * nb).set(k);
-    const nonZero = counts.some((x) => x > 0) ? 1 : 0;
-    const len = c.exports.encode(at.q, at.mag, at.d, n, width, nb, nonZero, at.tail);
-    return new Uint8Array(c.memory.buffer, at.tail, len).slice();
+    new Int32Array(c.memory.buffer, at.q, n).set(q);
+    return encodeAt(c, at, n, width, table, counts, k);
   } finally {
     releaseMemory();
   }

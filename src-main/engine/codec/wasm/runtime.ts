@@ -8,10 +8,12 @@
  * Memory layout of one call (byte offsets): the lifting coefficients and the band tables in the first page,
  * then the plane's samples from {@link DATA}, then the call's other arrays.
  */
+import { decodeBase64 } from '../../linalg/wasm/runtime';
 import { LazyKernel, type LoadedKernel, reserveBytes } from '../../metrics/wasm/loader';
 import { wasmBase64 } from './generated/lifting';
 
-interface LiftingExports {
+/** The lifting module's exports (./assembly/lifting.ts); pointers are byte offsets into its memory. */
+export interface LiftingExports {
   forward97(x: number, w: number, h: number, levels: number, tmp: number, buf: number, k: number): void;
   inverse97(x: number, w: number, h: number, levels: number, tmp: number, buf: number, k: number): void;
   quantise(
@@ -25,14 +27,20 @@ interface LiftingExports {
     n: number,
   ): number;
   dequantise(q: number, x: number, width: number, nb: number, geo: number, par: number): void;
+  widen(dst: number, src: number, n: number): void;
+  binStats(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
+  squaredError(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
+  bandMax(x: number, width: number, nb: number, geo: number, out: number): void;
 }
 
 const lifting = new LazyKernel<LiftingExports>(wasmBase64);
 
 /** Where the tables live (past any static data of the module, which has none today). */
-const COEF = 16384;
-const GEO = COEF + 256;
-const PAR = GEO + 1024;
+export const COEF = 16384;
+export const GEO = COEF + 256;
+export const PAR = GEO + 1024;
+/** Per-band results of the statistics kernels (4 f64 per band). */
+export const RESULTS = PAR + 1024;
 /** Start of the bulk arrays (one page in, 16-byte aligned). */
 const DATA = 65536;
 /** The kernel's column strip width (assembly/lifting.ts STRIP). */
@@ -41,7 +49,7 @@ const STRIP = 32;
 const MAX_BANDS = 1 + 3 * 6;
 
 /** A band's rectangle, as ../wavelet-transform.ts Band. */
-interface BandRect {
+export interface BandRect {
   x0: number;
   y0: number;
   w: number;
@@ -89,11 +97,11 @@ export function waveletWasm(
   return true;
 }
 
-/** Write the band rectangles and 3 f64 parameters per band into the tables. */
-function writeBands(k: LoadedKernel<LiftingExports>, bands: BandRect[], par: (bi: number) => number[]): void {
+/** Write the band rectangles and 3 f64 parameters per band into the tables of a kernels' memory. */
+export function writeBands(buf: ArrayBufferLike, bands: BandRect[], par: (bi: number) => number[]): void {
   if (bands.length > MAX_BANDS) throw new RangeError(`${bands.length} bands; the kernels take ${MAX_BANDS}`);
-  const geo = new Int32Array(k.memory.buffer, GEO, 4 * bands.length);
-  const p = new Float64Array(k.memory.buffer, PAR, 4 * bands.length);
+  const geo = new Int32Array(buf, GEO, 4 * bands.length);
+  const p = new Float64Array(buf, PAR, 4 * bands.length);
   bands.forEach((b, i) => {
     geo.set([b.x0, b.y0, b.w, b.h], 4 * i);
     p.set(par(i), 4 * i);
@@ -101,7 +109,24 @@ function writeBands(k: LoadedKernel<LiftingExports>, bands: BandRect[], par: (bi
 }
 
 /** q entries per chunk of the kernel's non-zero map (assembly/lifting.ts CHUNK). */
-const CHUNK = 1024;
+export const CHUNK = 1024;
+
+/**
+ * Copy the chunks of the n values of q at `qAt` in `buf` whose flag (u8 at `flagsAt`, one per chunk) is set
+ * into `out` (zeros on entry: its pages for chunks of zeros are never touched).
+ */
+export function copyFlaggedChunks(
+  buf: ArrayBufferLike,
+  qAt: number,
+  flagsAt: number,
+  n: number,
+  out: Int32Array,
+): void {
+  const all = new Int32Array(buf, qAt, n);
+  const flags = new Uint8Array(buf, flagsAt, Math.ceil(n / CHUNK));
+  for (let j = 0; j < flags.length; j++)
+    if (flags[j]) out.set(all.subarray(j * CHUNK, Math.min(n, (j + 1) * CHUNK)), j * CHUNK);
+}
 
 /**
  * Dead-zone quantisation of `coeffs` into `q` (all zeros on entry; only the chunks that hold non-zeros are
@@ -122,12 +147,9 @@ export function quantiseWasm(
   const k = kernelWith(flagsAt + chunks);
   if (!k) return null;
   new Float64Array(k.memory.buffer, DATA, n).set(coeffs);
-  writeBands(k, bands, par);
+  writeBands(k.memory.buffer, bands, par);
   const nonZero = k.exports.quantise(DATA, qAt, width, bands.length, GEO, PAR, flagsAt, n);
-  const all = new Int32Array(k.memory.buffer, qAt, n);
-  const flags = new Uint8Array(k.memory.buffer, flagsAt, chunks);
-  for (let j = 0; j < chunks; j++)
-    if (flags[j]) q.set(all.subarray(j * CHUNK, Math.min(n, (j + 1) * CHUNK)), j * CHUNK);
+  copyFlaggedChunks(k.memory.buffer, qAt, flagsAt, n, q);
   return nonZero;
 }
 
@@ -151,10 +173,35 @@ export function reconstructWasm(
   const k = kernelWith(tmp + scratchBytes(width, height), coefficients);
   if (!k) return null;
   new Int32Array(k.memory.buffer, qAt, n).set(q);
-  writeBands(k, bands, (bi) => [...par(bi), 0]);
+  writeBands(k.memory.buffer, bands, (bi) => [...par(bi), 0]);
   k.exports.dequantise(qAt, DATA, width, bands.length, GEO, PAR);
   if (levels > 0) k.exports.inverse97(DATA, width, height, levels, tmp, buf, COEF);
   return new Float64Array(k.memory.buffer, DATA, n).slice();
+}
+
+/** The lifting module compiled for instantiation on other memories (./arena.ts); null: not possible here. */
+let compiled: WebAssembly.Module | null | undefined;
+
+/**
+ * The lifting kernels instantiated on `memory` (a plane's own, ./arena.ts), or null where the kernels are
+ * unavailable or disabled, or a synchronous compile is refused (a browser page: the shared kernels serve it).
+ */
+export function liftingOn(memory: WebAssembly.Memory): LiftingExports | null {
+  if (!lifting.get()) return null;
+  if (compiled === undefined) {
+    try {
+      compiled = new WebAssembly.Module(decodeBase64(wasmBase64));
+    } catch {
+      compiled = null;
+    }
+  }
+  if (!compiled) return null;
+  const instance = new WebAssembly.Instance(compiled, { env: { memory, abort: abortHandler } });
+  return instance.exports as unknown as LiftingExports;
+}
+
+function abortHandler(): never {
+  throw new Error('rankfold engine: WebAssembly kernel aborted');
 }
 
 /** Whether the codec's kernels run (for tests that must exercise them, not the fallback). */

@@ -346,3 +346,112 @@ export function dequantise(q: usize, x: usize, width: i32, nb: i32, geo: usize, 
     }
   }
 }
+
+// ------------------------------------------------------------------ resident planes (../arena.ts)
+
+/**
+ * dst[i] = f64(src[i]) for the n f32 at src, exact. src may be dst + 4n (the f32 staged in the upper half of
+ * the f64 region): each step reads its four f32 before writing, and writes end at or below the first unread
+ * f32, so the widening runs forward in place.
+ */
+export function widen(dst: usize, src: usize, n: i32): void {
+  let i = 0;
+  for (; i + 4 <= n; i += 4) {
+    const v = v128.load(src + (<usize>i << 2));
+    const lo = f64x2.promote_low_f32x4(v);
+    const hi = f64x2.promote_low_f32x4(v128.shuffle<f32>(v, v, 2, 3, 0, 1));
+    v128.store(dst + (<usize>i << 3), lo);
+    v128.store(dst + (<usize>i << 3), hi, 16);
+  }
+  for (; i < n; i++) store<f64>(dst + (<usize>i << 3), <f64>load<f32>(src + (<usize>i << 2)));
+}
+
+/**
+ * Per band: the counts and sums of coefficient coder 2's bin statistics (binStats in ../../coeff-coder.ts),
+ * from the coefficients x and their quantised values q: at out + 32·b, n1 and n2 (f64 counts of |q| = 1 and
+ * |q| ≥ 2), then s1 and s2 = Σ(|c|/Δ_b − |q|) over each class, in raster order band by band (par: Δ_b first).
+ */
+export function binStats(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, out: usize): void {
+  for (let bi = 0; bi < nb; bi++) {
+    const g = geo + (<usize>bi << 4);
+    const x0 = load<i32>(g);
+    const y0 = load<i32>(g, 4);
+    const bw = load<i32>(g, 8);
+    const bh = load<i32>(g, 12);
+    const d = load<f64>(par + (<usize>bi << 5));
+    let n1: f64 = 0;
+    let n2: f64 = 0;
+    let s1: f64 = 0;
+    let s2: f64 = 0;
+    for (let y = 0; y < bh; y++) {
+      const row = <usize>(y0 + y) * <usize>width + <usize>x0;
+      for (let i: usize = 0; i < <usize>bw; i++) {
+        const v = load<i32>(q + ((row + i) << 2));
+        if (v == 0) continue;
+        const a: f64 = v < 0 ? -<f64>v : <f64>v;
+        const r = abs<f64>(load<f64>(x + ((row + i) << 3))) / d - a;
+        if (a == 1) {
+          n1++;
+          s1 += r;
+        } else {
+          n2++;
+          s2 += r;
+        }
+      }
+    }
+    const o = out + (<usize>bi << 5);
+    store<f64>(o, n1);
+    store<f64>(o, n2, 8);
+    store<f64>(o, s1, 16);
+    store<f64>(o, s2, 24);
+  }
+}
+
+/**
+ * Per band b, Σ(c − rebuilt(q))² in raster order (c where q = 0), into out + 8·b (f64): the band sums of
+ * codedSquaredError in ../../wavelet-plane.ts (par: Δ, d1, d2 per band).
+ */
+export function squaredError(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, out: usize): void {
+  for (let bi = 0; bi < nb; bi++) {
+    const g = geo + (<usize>bi << 4);
+    const p = par + (<usize>bi << 5);
+    const x0 = load<i32>(g);
+    const y0 = load<i32>(g, 4);
+    const bw = load<i32>(g, 8);
+    const bh = load<i32>(g, 12);
+    const step = load<f64>(p);
+    const d1 = load<f64>(p, 8);
+    const d2 = load<f64>(p, 16);
+    let s: f64 = 0;
+    for (let y = 0; y < bh; y++) {
+      const row = <usize>(y0 + y) * <usize>width + <usize>x0;
+      for (let i: usize = 0; i < <usize>bw; i++) {
+        const v = load<i32>(q + ((row + i) << 2));
+        const c = load<f64>(x + ((row + i) << 3));
+        const d = v == 0 ? c : c - rebuilt(<f64>v, step, d1, d2);
+        s += d * d;
+      }
+    }
+    store<f64>(out + (<usize>bi << 3), s);
+  }
+}
+
+/** Per band b, the largest |c| (0 for an empty band), into out + 8·b (f64). */
+export function bandMax(x: usize, width: i32, nb: i32, geo: usize, out: usize): void {
+  for (let bi = 0; bi < nb; bi++) {
+    const g = geo + (<usize>bi << 4);
+    const x0 = load<i32>(g);
+    const y0 = load<i32>(g, 4);
+    const bw = load<i32>(g, 8);
+    const bh = load<i32>(g, 12);
+    let top: f64 = 0;
+    for (let y = 0; y < bh; y++) {
+      const row = <usize>(y0 + y) * <usize>width + <usize>x0;
+      for (let i: usize = 0; i < <usize>bw; i++) {
+        const c = abs<f64>(load<f64>(x + ((row + i) << 3)));
+        if (c > top) top = c;
+      }
+    }
+    store<f64>(out + (<usize>bi << 3), top);
+  }
+}

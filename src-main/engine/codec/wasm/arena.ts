@@ -1,0 +1,145 @@
+/**
+ * A plane's own WebAssembly memory for its whole life in the plane coder (../wavelet-plane.ts): the transform
+ * coefficients stay resident in it from the forward transform to the last encode, and the quantiser, the bin
+ * statistics, the squared error, the coefficient coder (./assembly/coder.ts, instantiated on the same memory)
+ * and the reconstruction all work on them in place. Nothing is copied in or out per call but the samples once,
+ * the coded bytes and the results handed to the caller.
+ *
+ * Why: on the machines this runs on, the first touch of a fresh page costs far more than the arithmetic done
+ * on it (a fresh 66 MB array ≈ 250 ms of page faults against ≈ 5 ms to copy into warm memory), so the memory
+ * is sized once, touched once and reused by every call on the plane.
+ *
+ * Layout (byte offsets): the lifting module's tables in the first page (./runtime.ts), the coder's scratch
+ * from SCRATCH (./coder-constants.ts), then from {@link BASE}: the coefficients (f64), q (i32), the transforms'
+ * scratch, the quantiser's chunk flags, and last a work region shared by the coder (magnitude map, the LL
+ * band's differences, its output, which may grow the memory) and the reconstruction (f64), never both at once.
+ *
+ * Every result equals the TypeScript reference's bit for bit: the kernels perform its operations in its order.
+ */
+import { type CoderSetup, type CoderWasm, coderOn, coderWasmLoaded } from './coder-runtime';
+import { type BandRect, CHUNK, COEF, type LiftingExports, liftingOn, writeBands } from './runtime';
+
+/** Bytes in a WebAssembly page. */
+const PAGE = 65536;
+/** Most memory a 32-bit module addresses, less a page. */
+const MAX_BYTES = 4 * 2 ** 30 - PAGE;
+/** Start of the plane's arrays: past the lifting tables (page 0) and the coder's scratch (page 1). */
+const BASE = 2 * PAGE;
+/** The kernels' column strip width (assembly/lifting.ts STRIP). */
+const STRIP = 32;
+
+const align16 = (n: number) => (n + 15) & ~15;
+
+/**
+ * Planes smaller than this use the shared kernels of ./runtime.ts (copying), not an arena of their own: each
+ * arena is a WebAssembly memory, and a process holds only so many (the stack coder analyses many small frames).
+ */
+export const ARENA_MIN_PIXELS = 1 << 18;
+let minPixels = ARENA_MIN_PIXELS;
+
+/** Set the smallest plane given an arena (tests use 1 to run every plane through one). */
+export function setArenaMinPixels(n: number): void {
+  minPixels = n;
+}
+
+export class PlaneArena {
+  readonly n: number;
+  readonly coeffsAt: number;
+  readonly qAt: number;
+  readonly tmpAt: number;
+  readonly bufAt: number;
+  readonly flagsAt: number;
+  /** Work region: the coder's magnitude map, then the LL differences and its output; or the reconstruction. */
+  readonly workAt: number;
+  readonly lift: LiftingExports;
+  private coderCache: CoderWasm | null = null;
+  private buffer: ArrayBufferLike;
+  private coeffView: Float64Array;
+
+  private constructor(
+    readonly memory: WebAssembly.Memory,
+    lift: LiftingExports,
+    readonly width: number,
+    readonly height: number,
+  ) {
+    this.lift = lift;
+    const n = width * height;
+    this.n = n;
+    this.coeffsAt = BASE;
+    this.qAt = BASE + align16(8 * n);
+    this.tmpAt = this.qAt + align16(4 * n);
+    this.bufAt = this.tmpAt + align16(16 * Math.max(width, height));
+    this.flagsAt = this.bufAt + align16(8 * STRIP * height);
+    this.workAt = this.flagsAt + align16(Math.ceil(n / CHUNK));
+    this.buffer = memory.buffer;
+    this.coeffView = new Float64Array(this.buffer, this.coeffsAt, n);
+  }
+
+  /** An arena for a width×height plane, or null (too small, no kernels, or no memory). */
+  static create(width: number, height: number): PlaneArena | null {
+    const n = width * height;
+    if (n < minPixels) return null;
+    const probe = align16(8 * n) + align16(4 * n) + align16(16 * Math.max(width, height));
+    const bytes = BASE + probe + align16(8 * STRIP * height) + align16(Math.ceil(n / CHUNK)) + 8 * n + PAGE;
+    if (bytes > MAX_BYTES) return null;
+    let memory: WebAssembly.Memory;
+    try {
+      memory = new WebAssembly.Memory({ initial: Math.ceil(bytes / PAGE) });
+    } catch {
+      return null;
+    }
+    const lift = liftingOn(memory);
+    return lift ? new PlaneArena(memory, lift, width, height) : null;
+  }
+
+  /** Refresh the views if the memory grew (the coder grows it when its output outgrows the work region). */
+  private fresh(): ArrayBufferLike {
+    if (this.buffer !== this.memory.buffer) {
+      this.buffer = this.memory.buffer;
+      this.coeffView = new Float64Array(this.buffer, this.coeffsAt, this.n);
+    }
+    return this.buffer;
+  }
+
+  /** The resident coefficients (a view: valid until the next call on this arena that may grow it). */
+  coeffs(): Float64Array {
+    this.fresh();
+    return this.coeffView;
+  }
+
+  /** The resident q (a view, as {@link coeffs}). */
+  q(): Int32Array {
+    return new Int32Array(this.fresh(), this.qAt, this.n);
+  }
+
+  /** Copy the samples in as f64 (a Float32Array through the widening kernel, staged in q's region). */
+  load(plane: ArrayLike<number>): void {
+    const buf = this.fresh();
+    if (plane instanceof Float32Array) {
+      new Float32Array(buf, this.qAt, this.n).set(plane);
+      this.lift.widen(this.coeffsAt, this.qAt, this.n);
+    } else if (ArrayBuffer.isView(plane)) this.coeffView.set(plane as unknown as ArrayLike<number>);
+    else for (let i = 0; i < this.n; i++) this.coeffView[i] = plane[i];
+  }
+
+  /**
+   * Transform the plane at `at` (the coefficients by default) in place, forward or inverse; `coefficients`:
+   * the lifting steps α, β, γ, δ and the scale ζ.
+   */
+  transform(levels: number, coefficients: readonly number[], inverse: boolean, at = this.coeffsAt): void {
+    new Float64Array(this.fresh(), COEF, coefficients.length).set(coefficients);
+    const run = inverse ? this.lift.inverse97 : this.lift.forward97;
+    run(at, this.width, this.height, levels, this.tmpAt, this.bufAt, COEF);
+  }
+
+  /** Write the band table and per-band parameters for the next kernel call. */
+  bands(bands: BandRect[], par: (bi: number) => number[]): void {
+    writeBands(this.fresh(), bands, par);
+  }
+
+  /** The coefficient coder on this memory, or null where its port is unavailable or disabled. */
+  coder(setup: CoderSetup): CoderWasm | null {
+    if (!this.coderCache) this.coderCache = coderOn(this.memory, setup);
+    return coderWasmLoaded() ? this.coderCache : null;
+  }
+}
