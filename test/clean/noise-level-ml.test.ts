@@ -11,8 +11,9 @@ function levels(a: number, b: number, count: number, noise?: () => number): Nois
   const out: NoiseLevelPoint[] = [];
   for (let x = 20; x <= 220; x += 10) {
     const v = a * x + b;
-    // The spread of a median-based σ̂²: √(2·1.36/n) relative (Huber 1981, from memory; as in the source).
-    const e = noise ? noise() * Math.sqrt((2 * 1.36) / count) : 0;
+    // The spread of a median-based σ̂²: √(4·1.36/n) relative (derivation in the source's header; a seeded
+    // numpy 1.24.2 simulation of 20 000 medians of n = 1024 |N(0,1)| gives n·Var σ̂² = 5.44).
+    const e = noise ? noise() * Math.sqrt((4 * 1.36) / count) : 0;
     out.push({ level: x, sigma: Math.sqrt(v * (1 + e)), count, used: true });
   }
   return out;
@@ -20,22 +21,22 @@ function levels(a: number, b: number, count: number, noise?: () => number): Nois
 
 describe('maximum-likelihood fit of the level sets', () => {
   // The likelihood's log v term makes the maximum sit slightly below noise-free points (by about c/n
-  // relative, c = 2·1.36): on noisy points it is cancelled on average by the residuals, see the trials below.
-  it('points exactly on the model give it back within c/n = 0.7 % (a = 0.45, b = 4, n = 400)', () => {
+  // relative, c = 4·1.36): on noisy points it is cancelled on average by the residuals, see the trials below.
+  it('points exactly on the model give it back within c/n = 1.4 % (a = 0.45, b = 4, n = 400)', () => {
     const f = fitLevelsTrimmed(levels(0.45, 4, 400));
-    expect(Math.abs((f?.a ?? 0) / 0.45 - 1)).toBeLessThan(0.007);
-    expect(Math.abs((f?.b ?? 0) / 4 - 1)).toBeLessThan(0.007);
+    expect(Math.abs((f?.a ?? 0) / 0.45 - 1)).toBeLessThan(0.014);
+    expect(Math.abs((f?.b ?? 0) / 4 - 1)).toBeLessThan(0.014);
   });
 
   it('constant variance y = 10: a = 0, b solves y·(y − b) = k·b² (k = c/n), seB = 1/√(Σ n/(c·b²) + 2/b²)', () => {
     // ∂/∂v of Σ n(y − v)²/(2c·v²) + log v = 0 with every y = 10 gives y(y − v) = k v², by hand:
-    // v = y(√(1 + 4k) − 1)/(2k) = 9.93302 for k = 2.72/400.
-    const k = 2.72 / 400;
+    // v = y(√(1 + 4k) − 1)/(2k) = 9.86758 for k = 5.44/400.
+    const k = 5.44 / 400;
     const v = (10 * (Math.sqrt(1 + 4 * k) - 1)) / (2 * k);
     const f = fitLevelsTrimmed(levels(0, 10, 400));
     expect(f?.a).toBe(0);
     expect(f?.b).toBeCloseTo(v, 6);
-    expect(f?.seB).toBeCloseTo(1 / Math.sqrt(21 * (400 / (2.72 * v * v) + 2 / (v * v))), 6);
+    expect(f?.seB).toBeCloseTo(1 / Math.sqrt(21 * (400 / (5.44 * v * v) + 2 / (v * v))), 6);
   });
 
   it('a level set far above the fit (texture) is dropped, and the others give the model back', () => {
@@ -44,7 +45,7 @@ describe('maximum-likelihood fit of the level sets', () => {
     const f = fitLevelsTrimmed(pts);
     expect(pts[7].used).toBe(false);
     expect(pts.filter((p) => p.used).length).toBe(pts.length - 1);
-    expect(Math.abs((f?.a ?? 0) / 0.2 - 1)).toBeLessThan(0.007);
+    expect(Math.abs((f?.a ?? 0) / 0.2 - 1)).toBeLessThan(0.014);
   });
 
   it('the standard errors are honest: a and b fall within 2 SE of the truth in 90–99 % of 400 seeded trials', () => {

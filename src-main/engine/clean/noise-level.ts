@@ -24,6 +24,8 @@
  * noise of every pixel and so to every |HH|: the fitted b is the variance of the stored data at x = 0,
  * rounding included.
  */
+
+import { declipPoints } from './noise-clip';
 import { exactMedian, groupedMedian, type HaarBlocks, haarBlocks, MAD_TO_SIGMA } from './noise-estimate';
 import { fitLevelsTrimmed, type LevelFit, type NoiseLevelPoint } from './noise-level-ml';
 
@@ -48,12 +50,16 @@ const MIN_BLOCKS_PER_LEVEL = 400;
 const KEEP = 0.5;
 /** Variance of rounding to integers, uniform on ±½ (common practice). */
 const ROUNDING_VARIANCE = 1 / 12;
-/** Level sets closer than this many σ to 0 or maxValue are not fitted (clipping; common practice). */
+/** First fit: level sets closer than this many σ to 0 or maxValue are left out (clipping; common practice). */
 const CLIP_GUARD = 3;
+/** Refits through the clipped model (noise-clip.ts); a and b settle to 1e-6 in 3–4 on clipped test ramps. */
+const DECLIP_STEPS = 6;
 
 /**
- * Fit σ²(x) = a·x + b to `plane` (values 0…maxValue). Blocks touching 0 or maxValue are skipped (clipping
- * removes noise there). Returns null when the plane has too few unclipped blocks for three level sets.
+ * Fit σ²(x) = a·x + b to `plane` (values 0…maxValue, stored clipped to that range). Every block is used,
+ * those touching 0 or maxValue too: level sets near the limits are fitted through the clipped model
+ * (noise-clip.ts), so they neither drop out nor bend the line. Returns null when the plane has too few
+ * blocks for three level sets.
  */
 export function fitNoiseLevel(
   plane: ArrayLike<number>,
@@ -61,7 +67,7 @@ export function fitNoiseLevel(
   height: number,
   maxValue: number,
 ): NoiseLevelFit | null {
-  const blocks = haarBlocks(plane, width, height, 0, maxValue);
+  const blocks = haarBlocks(plane, width, height);
   if (!blocks) return null;
   const { idx, mean } = blocks;
   const sorted = idx.slice().sort((p, q) => mean[p] - mean[q] || p - q);
@@ -86,7 +92,11 @@ function levelSets(sorted: number[], score: Float64Array): number[][] {
   return sets;
 }
 
-/** σ̂ and mean level of each set, the clipping guard, and the trimmed maximum-likelihood fit. */
+/**
+ * σ̂ and mean level of each set, then the trimmed maximum-likelihood fit: first without the sets near the
+ * limits (CLIP_GUARD), then repeatedly through the clipped model of the last fit (all sets, moved to their
+ * unclipped level and variance), until a and b settle.
+ */
 function fitSelection(
   blocks: HaarBlocks,
   sets: number[][],
@@ -94,7 +104,7 @@ function fitSelection(
 ): { fit: LevelFit; points: NoiseLevelPoint[] } | null {
   if (sets.length < 3) return null;
   const { mean, hh, integral } = blocks;
-  const points: NoiseLevelPoint[] = sets.map((set) => {
+  const raw: NoiseLevelPoint[] = sets.map((set) => {
     const v = new Float64Array(set.length);
     let level = 0;
     for (let k = 0; k < set.length; k++) {
@@ -102,16 +112,26 @@ function fitSelection(
       level += mean[set[k]];
     }
     const sigma = (integral ? groupedMedian(v) : exactMedian(v)) / 2 / MAD_TO_SIGMA;
-    const lv = level / set.length;
-    // Near 0 or maxValue, clipping removes part of the noise and the skipped blocks bias the rest. On
-    // integer data a σ̂² below the rounding variance means the noise is not resolved there (flat, noiseless).
-    const used =
-      lv - CLIP_GUARD * sigma > 0 &&
-      lv + CLIP_GUARD * sigma < maxValue &&
-      (!integral || sigma * sigma >= ROUNDING_VARIANCE);
-    return { level: lv, sigma, count: set.length, used };
+    return { level: level / set.length, sigma, count: set.length, used: true };
   });
-  const fit = fitLevelsTrimmed(points);
+  // On integer data a σ̂² below the rounding variance means the noise is not resolved there (flat, noiseless).
+  const keep = raw.map((p) => !integral || p.sigma * p.sigma >= ROUNDING_VARIANCE);
+  let points = raw.map((p, i) => ({
+    ...p,
+    used: keep[i] && p.level - CLIP_GUARD * p.sigma > 0 && p.level + CLIP_GUARD * p.sigma < maxValue,
+  }));
+  let fit = fitLevelsTrimmed(points);
+  for (let step = 0; fit && step < DECLIP_STEPS; step++) {
+    const next = declipPoints(raw, keep, fit, maxValue);
+    const refit = fitLevelsTrimmed(next);
+    if (!refit) break;
+    const settled =
+      Math.abs(refit.a - fit.a) <= 1e-6 * (1 + fit.a) &&
+      Math.abs(refit.b - fit.b) <= 1e-6 * (1 + Math.abs(fit.b));
+    fit = refit;
+    points = next;
+    if (settled) break;
+  }
   return fit ? { fit, points } : null;
 }
 
