@@ -13,6 +13,7 @@ import { type DecodedRkf, decodeImageFile } from './decode-image';
 import type { EncodeOptions } from './encode-options';
 import type { EncodedPlanes } from './error-figures';
 import type { ImageBuild } from './image-writer';
+import { startResidualCheck } from './residual-check';
 import { residualFirst } from './residual-first';
 import { runHere, ssimPlanesSplit } from './side-jobs';
 
@@ -45,7 +46,10 @@ export function finishScan(
 ) {
   const { width, height } = img;
   const max = maxOf(img.bitDepth);
+  const run = opts.side ?? runHere;
   let bytes = file ?? build(basePlanes, false, residual);
+  // The range decoder's check of the recorded residual planes runs on the second thread meanwhile.
+  const checked = startResidualCheck(run, residual, width, height, img.file);
   let decoded = decodedFile ?? decodeImageFile(bytes, img.file);
   const colourSamples = img.planes.slice(0, prep.colour ? 3 : 1);
   const lossless = sameSamples(decoded.samples, img.planes);
@@ -59,8 +63,9 @@ export function finishScan(
   const psnr = psnrPlanes(colourSamples, outPlanes, max);
   const ssim =
     width >= 11 && height >= 11
-      ? ssimPlanesSplit(opts.side ?? runHere, colourSamples, outPlanes, width, height, max)
+      ? ssimPlanesSplit(run, colourSamples, outPlanes, width, height, max)
       : Number.NaN;
+  checked();
   let sse = 0;
   for (let c = 0; c < colourSamples.length; c++)
     for (let i = 0; i < colourSamples[c].length; i++) {

@@ -4,7 +4,9 @@
  * whichever thread computes it. The engine only sees a {@link SideRunner}; src-main/node/parallel/side-thread.ts
  * provides one backed by a worker thread, and {@link runHere} computes on the calling thread.
  */
+import { decodeCoefficientsV2 } from '../codec/coeff-coder';
 import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../codec/wavelet-plane';
+import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import { ssim, ssimRowSums } from '../metrics';
 import { factorPlane } from './factorise';
 import { estimateErrorAtBytes, type PlaneInput } from './solve';
@@ -45,6 +47,14 @@ export interface SideJobs {
     args: AnalysedPlane & { step: number };
     result: CodedCoefficients;
   };
+  /**
+   * A residual plane's bytes (coder 2, ../codec/coeff-coder) range-decoded into quantised coefficients (in
+   * shared memory, so the answer carries no copy) and reconstruction offsets (./residual-check).
+   */
+  'residual-decode': {
+    args: { bytes: Uint8Array; width: number; height: number };
+    result: { q: Int32Array; offsets: Float64Array };
+  };
 }
 export type SideJobName = keyof SideJobs;
 
@@ -66,6 +76,15 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
   'ssim-rows': (a) => ssimRowSums(a.a, a.b, a.width, a.height, a.range, a.from, a.to),
   'crop-base-sse': cropBaseSse,
   'code-plane': ({ step, ...a }) => codeAnalysed(a, step, 2),
+  'residual-decode': ({ bytes, width, height }) => {
+    const n = width * height;
+    const q =
+      typeof SharedArrayBuffer === 'function'
+        ? new Int32Array(new SharedArrayBuffer(n * Int32Array.BYTES_PER_ELEMENT))
+        : new Int32Array(n);
+    const offsets = decodeCoefficientsV2(bytes, q, width, bandsFor(width, height, levelsFor(width, height)));
+    return { q, offsets };
+  },
 };
 
 /**
