@@ -28,7 +28,7 @@ export function startResidualCheck(
 ): () => void {
   const jobs = (residual?.bytes ?? []).flatMap((bytes, k) => {
     const coded = recallCode(bytes, width, height, residual?.steps[k] ?? 0, WRITTEN_CODER);
-    return coded ? [{ k, coded, join: run('residual-decode', { bytes: coded.bytes, width, height }) }] : [];
+    return coded ? [{ k, coded, join: started(run, coded.bytes, width, height) }] : [];
   });
   return () => {
     for (const { k, coded, join } of jobs) {
@@ -42,6 +42,17 @@ export function startResidualCheck(
       if (at !== undefined) throw mismatch(file, k, `decodes to other ${at} than it was coded from`);
     }
   };
+}
+
+/** The decode job, started; a runner that computes at once (../side-jobs runHere) throws when joined instead. */
+function started(run: SideRunner, bytes: Uint8Array, width: number, height: number) {
+  try {
+    return run('residual-decode', { bytes, width, height });
+  } catch (err) {
+    return (): never => {
+      throw err;
+    };
+  }
 }
 
 function mismatch(file: string, k: number, what: string): Error {
