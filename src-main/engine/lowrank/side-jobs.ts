@@ -106,9 +106,10 @@ export const runHere: SideRunner = (name, args) => {
 const SSIM_RADIUS = 5;
 
 /**
- * ssimPlanes of ../metrics, each plane's window rows split in two: the lower half started on `run`, the upper
- * half computed here, and the row sums added in row order, so the value equals ssimPlanes bit for bit
- * whichever thread computed which half (Wang et al. 2004, the defaults of ../metrics/ssim).
+ * ssimPlanes of ../metrics, each plane's window rows split in two: the lower halves started on `run` (all
+ * planes first), the upper halves computed here, then `alongside` (other work for this thread while the
+ * other one finishes), and each plane's row sums added in row order, so the value equals ssimPlanes bit
+ * for bit whichever thread computed which half (Wang et al. 2004, the defaults of ../metrics/ssim).
  */
 export function ssimPlanesSplit(
   run: SideRunner,
@@ -117,31 +118,34 @@ export function ssimPlanesSplit(
   width: number,
   height: number,
   range: number,
+  alongside: () => void = () => {},
 ): number {
   const wv = width - 2 * SSIM_RADIUS;
   const hv = height - 2 * SSIM_RADIUS;
-  let s = 0;
-  for (let c = 0; c < a.length; c++) {
-    const mid = hv >> 1;
-    if (mid < 1) {
-      s += ssim(a[c], b[c], width, height, range);
-      continue;
-    }
-    const rows = (r0: number, r1: number) => [r0 * width, r1 * width] as const;
-    const [lo, hi] = rows(mid, height);
-    const join = run('ssim-rows', {
-      a: a[c].subarray(lo, hi),
+  const mid = hv >> 1;
+  if (mid < 1) {
+    alongside();
+    return a.reduce((s, p, c) => s + ssim(p, b[c], width, height, range), 0) / a.length;
+  }
+  const [lo, hi] = [mid * width, height * width];
+  const joins = a.map((p, c) =>
+    run('ssim-rows', {
+      a: p.subarray(lo, hi),
       b: b[c].subarray(lo, hi),
       width,
       height,
       range,
       from: mid,
       to: hv,
-    });
-    const own = ssimRowSums(a[c], b[c], width, height, range, 0, mid);
-    const other = join();
+    }),
+  );
+  const own = a.map((p, c) => ssimRowSums(p, b[c], width, height, range, 0, mid));
+  alongside();
+  let s = 0;
+  for (let c = 0; c < a.length; c++) {
+    const other = joins[c]();
     let total = 0;
-    for (let i = 0; i < own.length; i++) total += own[i];
+    for (let i = 0; i < own[c].length; i++) total += own[c][i];
     for (let i = 0; i < other.length; i++) total += other[i];
     s += total / (wv * hv);
   }
