@@ -101,18 +101,30 @@ export function toSamples(plane: ArrayLike<number>, max: number): Float32Array {
   return out;
 }
 
+/**
+ * Where decoded samples go: integer arrays (8-bit in Uint8Array, 16-bit in Uint16Array), or Float32Array
+ * holding the same integers (the encoder's report compares them with the source's float planes).
+ */
+export type SampleOut = Uint8Array | Uint16Array | Float32Array;
+
+/**
+ * Math.round(x) clamped to [0, max] as an integer array stores it: NaN and −0 become +0 (which Uint8Array and
+ * Uint16Array do by themselves), so a Float32Array output holds exactly the values an integer one would.
+ */
+function clampRound(x: number, max: number): number {
+  const v = Math.round(x);
+  return v > 0 ? (v > max ? max : v) : 0;
+}
+
 /** {@link toSamples} of `len` values of `plane` into `out` from `at`: the same rounding and clamping. */
 export function roundInto(
   plane: ArrayLike<number>,
   len: number,
   max: number,
-  out: Uint8Array | Uint16Array,
+  out: SampleOut,
   at: number,
 ): void {
-  for (let i = 0; i < len; i++) {
-    const v = Math.round(plane[i]);
-    out[at + i] = v < 0 ? 0 : v > max ? max : v;
-  }
+  for (let i = 0; i < len; i++) out[at + i] = clampRound(plane[i], max);
 }
 
 /**
@@ -125,18 +137,15 @@ export function ycbcrToRgbSamples(
   cr: ArrayLike<number>,
   len: number,
   bitDepth: 8 | 16,
-  outR: Uint8Array | Uint16Array,
-  outG: Uint8Array | Uint16Array,
-  outB: Uint8Array | Uint16Array,
+  outR: SampleOut,
+  outG: SampleOut,
+  outB: SampleOut,
   at: number,
 ): void {
   const off = chromaOffset(bitDepth);
   const max = bitDepth === 16 ? 65535 : 255;
   const [, m1, m2] = YCBCR_TO_RGB;
-  const clamp = (x: number) => {
-    const v = Math.round(x);
-    return v < 0 ? 0 : v > max ? max : v;
-  };
+  const clamp = (x: number) => clampRound(x, max);
   for (let i = 0; i < len; i++) {
     const Y = y[i];
     const Cb = cb[i] - off;

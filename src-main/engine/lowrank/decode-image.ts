@@ -15,7 +15,7 @@ import {
 } from '../codec/image-file';
 import { reconstructRows } from '../codec/quantise';
 import { tileGrid } from '../codec/quantised';
-import { roundInto, ycbcrToRgbSamples } from '../colour';
+import { roundInto, type SampleOut, ycbcrToRgbSamples } from '../colour';
 
 export interface DecodedRkf {
   header: RkfHeader;
@@ -30,13 +30,21 @@ export interface DecodedRkf {
 
 /**
  * Decode a whole image file. Each step names the file and the problem on failure.
- * The samples are rebuilt band by band as integers ({@link decodeImageFileSamples}), then widened to
- * Float32: no full-size float64 plane is formed.
+ * The samples are rebuilt band by band and rounded straight into Float32 arrays holding the integers
+ * {@link decodeImageFileSamples} gives: no full-size float64 plane and no integer copy is formed. The arrays
+ * live in shared memory where the runtime has it, so a second thread reads them without a copy (the
+ * report's SSIM, ./side-jobs).
  * @throws FormatError
  */
 export function decodeImageFile(bytes: Uint8Array, file: string, opts: ReadOptions = {}): DecodedRkf {
-  const d = decodeImageFileSamples(bytes, file, opts);
-  return { ...d, samples: d.samples.map((p) => new Float32Array(p)) };
+  return decodeWith(bytes, file, opts, sharedFloat32);
+}
+
+/** A zeroed Float32Array of `n` values, on a SharedArrayBuffer when the runtime has one. */
+export function sharedFloat32(n: number): Float32Array {
+  return typeof SharedArrayBuffer === 'function'
+    ? new Float32Array(new SharedArrayBuffer(n * Float32Array.BYTES_PER_ELEMENT))
+    : new Float32Array(n);
 }
 
 /** Integer samples of one channel: 8-bit scans in Uint8Array, 16-bit in Uint16Array. */
@@ -61,6 +69,18 @@ export function decodeImageFileSamples(
   file: string,
   opts: ReadOptions = {},
 ): DecodedRkfSamples {
+  return decodeWith(bytes, file, opts, (n, bitDepth) =>
+    bitDepth === 16 ? new Uint16Array(n) : new Uint8Array(n),
+  );
+}
+
+/** {@link decodeImageFileSamples} into output arrays made by `alloc` (integer, or float32 holding integers). */
+function decodeWith<S extends SampleOut>(
+  bytes: Uint8Array,
+  file: string,
+  opts: ReadOptions,
+  alloc: (n: number, bitDepth: 8 | 16) => S,
+): Omit<DecodedRkf, 'samples'> & { samples: S[] } {
   const { view, header } = readImageHeader(bytes, file, opts);
   const { width, height, bitDepth } = header;
   const max = bitDepth === 16 ? 65535 : 255;
@@ -85,9 +105,7 @@ export function decodeImageFileSamples(
   const residual = decodeResiduals(view, header, file);
   const n = width * height;
   const colour = header.colourTransform === 'ycbcr-jfif';
-  const samples: SampleArray[] = Array.from({ length: colour ? 3 : 1 }, () =>
-    bitDepth === 16 ? new Uint16Array(n) : new Uint8Array(n),
-  );
+  const samples: S[] = Array.from({ length: colour ? 3 : 1 }, () => alloc(n, bitDepth));
   const tile = quant[0].q.tile;
   const band = Math.min(height, tile > 0 ? tile : BAND_ROWS);
   const bufs = quant.map(() => new Float64Array(band * width));
@@ -119,7 +137,10 @@ export function decodeImageFileSamples(
     }
     const a = bitDepth === 16 ? new Uint16Array(n) : new Uint8Array(n);
     a.set(alpha);
-    samples.push(a);
+    const out = alloc(n, bitDepth);
+    // A loop, not out.set(a): set between element types is several times slower in V8.
+    for (let i = 0; i < n; i++) out[i] = a[i];
+    samples.push(out);
   }
   return {
     header,
@@ -141,7 +162,7 @@ export function planesToSamples(
   colour: boolean,
   len: number,
   bitDepth: 8 | 16,
-  out: SampleArray[],
+  out: SampleOut[],
   at: number,
 ): void {
   if (colour) ycbcrToRgbSamples(planes[0], planes[1], planes[2], len, bitDepth, out[0], out[1], out[2], at);

@@ -13,6 +13,7 @@ import { type DecodedRkf, decodeImageFile } from './decode-image';
 import type { EncodeOptions } from './encode-options';
 import type { EncodedPlanes } from './error-figures';
 import type { ImageBuild } from './image-writer';
+import { startResidualCheck } from './residual-check';
 import { residualFirst } from './residual-first';
 import { runHere, ssimPlanesSplit } from './side-jobs';
 
@@ -45,7 +46,11 @@ export function finishScan(
 ) {
   const { width, height } = img;
   const max = maxOf(img.bitDepth);
+  const run = opts.side ?? runHere;
   let bytes = file ?? build(basePlanes, false, residual);
+  // The range decoder's check of the recorded residual planes runs on the second thread meanwhile (started
+  // when the file was built, on the residual-only path).
+  const checked = takeStartedCheck(bytes) ?? startResidualCheck(run, residual, width, height, img.file);
   let decoded = decodedFile ?? decodeImageFile(bytes, img.file);
   const colourSamples = img.planes.slice(0, prep.colour ? 3 : 1);
   const lossless = sameSamples(decoded.samples, img.planes);
@@ -56,17 +61,21 @@ export function finishScan(
   // The residual-only path recorded its plane encodes (residualFirstFor); the decodes above used them.
   forgetCodes();
   const outPlanes = decoded.samples.slice(0, colourSamples.length);
-  const psnr = psnrPlanes(colourSamples, outPlanes, max);
+  // PSNR and the squared error are computed here while the other thread finishes its half of the SSIM.
+  let figures: { psnr: number; sse: number } | undefined;
+  const measure = () => {
+    figures = {
+      psnr: psnrPlanes(colourSamples, outPlanes, max),
+      sse: squaredError(colourSamples, outPlanes),
+    };
+  };
   const ssim =
     width >= 11 && height >= 11
-      ? ssimPlanesSplit(opts.side ?? runHere, colourSamples, outPlanes, width, height, max)
+      ? ssimPlanesSplit(run, colourSamples, outPlanes, width, height, max, measure)
       : Number.NaN;
-  let sse = 0;
-  for (let c = 0; c < colourSamples.length; c++)
-    for (let i = 0; i < colourSamples[c].length; i++) {
-      const d = colourSamples[c][i] - outPlanes[c][i];
-      sse += d * d;
-    }
+  if (!figures) measure();
+  const { psnr, sse } = figures as { psnr: number; sse: number };
+  checked();
   const ranks = basePlanes.map((p, k) => ({
     channel: prep.names[k],
     tile: p.tile,
@@ -107,10 +116,25 @@ export function residualFirstFor(
   if (!(kind === 'bytes' || kind === 'bpp' || kind === 'percent' || kind === 'psnr')) return undefined;
   // The last file checked under a quality floor and its decoding, so the report does not decode it again.
   let last: { bytes: Uint8Array; decoded: DecodedRkf } | undefined;
+  // With a second thread, each built file's residual check starts at once, beside the PSNR floor's decode.
+  let pending: { file: Uint8Array; join: () => void } | undefined;
+  const settle = () => {
+    const p = pending;
+    pending = undefined;
+    p?.join();
+  };
+  const side = opts.side;
   // Its plane encodes are recorded (../codec/coded-planes), so decoding the files they went into (the PSNR
   // floor's check here, the report's in finishScan) rebuilds them without the range decoder, bit-identically.
+  const quietly = () => {
+    try {
+      settle();
+    } catch {
+      // The encode failed already (e.g. cancelled): that error is the one to report.
+    }
+  };
   const r = recordingCodes(() =>
-    residualFirst({
+    residualFirstOrSettle(quietly, {
       planes: prep.planes,
       weights: prep.weights,
       width,
@@ -118,8 +142,15 @@ export function residualFirstFor(
       maxValue: max,
       budget: opts.budget,
       byteBudget,
-      build: (planes, residual) => build(planes, false, residual),
-      side: opts.side,
+      build: (planes, residual) => {
+        const file = build(planes, false, residual);
+        if (side) {
+          settle();
+          pending = { file, join: startResidualCheck(side, residual, width, height, img.file) };
+        }
+        return file;
+      },
+      side,
       measuredSse: (bytes) => {
         last = { bytes, decoded: decodeImageFile(bytes, img.file) };
         return decodedSse(last.decoded, img, prep);
@@ -128,7 +159,40 @@ export function residualFirstFor(
     }),
   );
   if (!r) forgetCodes();
+  // The kept file's check is joined by finishScan; any other is joined now (its answer must not linger).
+  if (pending && r?.file === pending.file) startedChecks.set(pending.file, pending.join);
+  else settle();
   return r && { ...r, decoded: last && last.bytes === r.file ? last.decoded : undefined };
+}
+
+/** residualFirst, joining the pending residual check (`settle`) when it throws. */
+function residualFirstOrSettle(settle: () => void, inp: Parameters<typeof residualFirst>[0]) {
+  try {
+    return residualFirst(inp);
+  } catch (err) {
+    settle();
+    throw err;
+  }
+}
+
+/** Residual checks started when a file was built (residualFirstFor), by the file, until finishScan joins them. */
+const startedChecks = new WeakMap<Uint8Array, () => void>();
+
+function takeStartedCheck(file: Uint8Array): (() => void) | undefined {
+  const join = startedChecks.get(file);
+  startedChecks.delete(file);
+  return join;
+}
+
+/** Σ (a − b)² over every sample of every plane, in one running sum (plane by plane, in order). */
+function squaredError(a: Float32Array[], b: Float32Array[]): number {
+  let sse = 0;
+  for (let c = 0; c < a.length; c++)
+    for (let i = 0; i < a[c].length; i++) {
+      const d = a[c][i] - b[c][i];
+      sse += d * d;
+    }
+  return sse;
 }
 
 export function sumSquares(p: ArrayLike<number>): number {

@@ -4,7 +4,9 @@
  * whichever thread computes it. The engine only sees a {@link SideRunner}; src-main/node/parallel/side-thread.ts
  * provides one backed by a worker thread, and {@link runHere} computes on the calling thread.
  */
+import { decodeCoefficientsV2 } from '../codec/coeff-coder';
 import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../codec/wavelet-plane';
+import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import { ssim, ssimRowSums } from '../metrics';
 import { factorPlane } from './factorise';
 import { estimateErrorAtBytes, type PlaneInput } from './solve';
@@ -45,6 +47,14 @@ export interface SideJobs {
     args: AnalysedPlane & { step: number };
     result: CodedCoefficients;
   };
+  /**
+   * A residual plane's bytes (coder 2, ../codec/coeff-coder) range-decoded into quantised coefficients (in
+   * shared memory, so the answer carries no copy) and reconstruction offsets (./residual-check).
+   */
+  'residual-decode': {
+    args: { bytes: Uint8Array; width: number; height: number };
+    result: { q: Int32Array; offsets: Float64Array };
+  };
 }
 export type SideJobName = keyof SideJobs;
 
@@ -66,6 +76,15 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
   'ssim-rows': (a) => ssimRowSums(a.a, a.b, a.width, a.height, a.range, a.from, a.to),
   'crop-base-sse': cropBaseSse,
   'code-plane': ({ step, ...a }) => codeAnalysed(a, step, 2),
+  'residual-decode': ({ bytes, width, height }) => {
+    const n = width * height;
+    const q =
+      typeof SharedArrayBuffer === 'function'
+        ? new Int32Array(new SharedArrayBuffer(n * Int32Array.BYTES_PER_ELEMENT))
+        : new Int32Array(n);
+    const offsets = decodeCoefficientsV2(bytes, q, width, bandsFor(width, height, levelsFor(width, height)));
+    return { q, offsets };
+  },
 };
 
 /**
@@ -87,9 +106,10 @@ export const runHere: SideRunner = (name, args) => {
 const SSIM_RADIUS = 5;
 
 /**
- * ssimPlanes of ../metrics, each plane's window rows split in two: the lower half started on `run`, the upper
- * half computed here, and the row sums added in row order, so the value equals ssimPlanes bit for bit
- * whichever thread computed which half (Wang et al. 2004, the defaults of ../metrics/ssim).
+ * ssimPlanes of ../metrics, each plane's window rows split in two: the lower halves started on `run` (all
+ * planes first), the upper halves computed here, then `alongside` (other work for this thread while the
+ * other one finishes), and each plane's row sums added in row order, so the value equals ssimPlanes bit
+ * for bit whichever thread computed which half (Wang et al. 2004, the defaults of ../metrics/ssim).
  */
 export function ssimPlanesSplit(
   run: SideRunner,
@@ -98,31 +118,34 @@ export function ssimPlanesSplit(
   width: number,
   height: number,
   range: number,
+  alongside: () => void = () => {},
 ): number {
   const wv = width - 2 * SSIM_RADIUS;
   const hv = height - 2 * SSIM_RADIUS;
-  let s = 0;
-  for (let c = 0; c < a.length; c++) {
-    const mid = hv >> 1;
-    if (mid < 1) {
-      s += ssim(a[c], b[c], width, height, range);
-      continue;
-    }
-    const rows = (r0: number, r1: number) => [r0 * width, r1 * width] as const;
-    const [lo, hi] = rows(mid, height);
-    const join = run('ssim-rows', {
-      a: a[c].subarray(lo, hi),
+  const mid = hv >> 1;
+  if (mid < 1) {
+    alongside();
+    return a.reduce((s, p, c) => s + ssim(p, b[c], width, height, range), 0) / a.length;
+  }
+  const [lo, hi] = [mid * width, height * width];
+  const joins = a.map((p, c) =>
+    run('ssim-rows', {
+      a: p.subarray(lo, hi),
       b: b[c].subarray(lo, hi),
       width,
       height,
       range,
       from: mid,
       to: hv,
-    });
-    const own = ssimRowSums(a[c], b[c], width, height, range, 0, mid);
-    const other = join();
+    }),
+  );
+  const own = a.map((p, c) => ssimRowSums(p, b[c], width, height, range, 0, mid));
+  alongside();
+  let s = 0;
+  for (let c = 0; c < a.length; c++) {
+    const other = joins[c]();
     let total = 0;
-    for (let i = 0; i < own.length; i++) total += own[i];
+    for (let i = 0; i < own[c].length; i++) total += own[c][i];
     for (let i = 0; i < other.length; i++) total += other[i];
     s += total / (wv * hv);
   }

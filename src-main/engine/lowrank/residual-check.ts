@@ -1,0 +1,75 @@
+/**
+ * The report's proof that the residual layer as written decodes to what the report measures, run beside the
+ * report's own decode. Decoding a file this process just wrote rebuilds each residual plane from the
+ * quantised coefficients its encode recorded (../codec/coded-planes: the file's bytes are compared with the
+ * recorded bytes), which skips the range decoder. This check runs the range decoder on those bytes, on the
+ * second thread when there is one (a 'residual-decode' job of ./side-jobs), and compares the coefficients
+ * and reconstruction offsets it recovers with the recorded ones, value for value. Together: the bytes in the
+ * file decode to the coefficients the reported samples were rebuilt from.
+ */
+import { recallCode } from '../codec/coded-planes';
+import type { SideRunner } from './side-jobs';
+
+/** Coefficient coder of the residual layer this encoder writes (container 1.3, ../codec/wavelet-plane). */
+const WRITTEN_CODER = 2;
+
+/**
+ * Start the check of every residual plane whose encode was recorded (a plane that was not is range-decoded
+ * by the report's decode itself). Call before that decode (it forgets nothing, but the caller clears the
+ * records afterwards); the returned function waits for the checks and throws an Error naming `file` when a
+ * plane's bytes do not decode to its recorded coefficients.
+ */
+export function startResidualCheck(
+  run: SideRunner,
+  residual: { steps: number[]; bytes: Uint8Array[] } | undefined,
+  width: number,
+  height: number,
+  file: string,
+): () => void {
+  const jobs = (residual?.bytes ?? []).flatMap((bytes, k) => {
+    const coded = recallCode(bytes, width, height, residual?.steps[k] ?? 0, WRITTEN_CODER);
+    return coded ? [{ k, coded, join: started(run, coded.bytes, width, height) }] : [];
+  });
+  return () => {
+    for (const { k, coded, join } of jobs) {
+      let got: { q: Int32Array; offsets: Float64Array };
+      try {
+        got = join();
+      } catch (err) {
+        throw mismatch(file, k, `cannot be range-decoded (${(err as Error).message})`);
+      }
+      const at = firstDifference(got, coded);
+      if (at !== undefined) throw mismatch(file, k, `decodes to other ${at} than it was coded from`);
+    }
+  };
+}
+
+/** The decode job, started; a runner that computes at once (../side-jobs runHere) throws when joined instead. */
+function started(run: SideRunner, bytes: Uint8Array, width: number, height: number) {
+  try {
+    return run('residual-decode', { bytes, width, height });
+  } catch (err) {
+    return (): never => {
+      throw err;
+    };
+  }
+}
+
+function mismatch(file: string, k: number, what: string): Error {
+  return new Error(
+    `${file}: the residual layer just coded for plane ${k} ${what}, so no file is written; please report this`,
+  );
+}
+
+/** Where two coefficient sets differ ('coefficients' or 'reconstruction offsets'), or undefined when equal. */
+function firstDifference(
+  a: { q: Int32Array; offsets: Float64Array },
+  b: { q: Int32Array; offsets?: Float64Array },
+): string | undefined {
+  if (a.q.length !== b.q.length) return 'coefficients';
+  for (let i = 0; i < a.q.length; i++) if (a.q[i] !== b.q[i]) return 'coefficients';
+  const o = b.offsets;
+  if (!o || o.length !== a.offsets.length) return 'reconstruction offsets';
+  for (let i = 0; i < o.length; i++) if (!Object.is(o[i], a.offsets[i])) return 'reconstruction offsets';
+  return undefined;
+}
