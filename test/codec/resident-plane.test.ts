@@ -78,6 +78,22 @@ describe('planes resident in their own WebAssembly memory', () => {
     }
   });
 
+  it('a reconstruction handed out stays intact through later codes and reconstructions of its plane', () => {
+    const w = 96;
+    const h = 80;
+    const p = plane(w, h, 21);
+    const ref = reference(() => {
+      const a = analysePlane(p, w, h);
+      return [5, 9, 2].map((s) => digest(reconstructCoded(a, codeAnalysed(a, s, 2))));
+    });
+    const a = analysePlane(p, w, h);
+    const first = reconstructCoded(a, codeAnalysed(a, 5, 2));
+    const kept = digest(first);
+    const later = [9, 2].map((s) => digest(reconstructCoded(a, codeAnalysed(a, s, 2))));
+    expect([kept, ...later]).toEqual(ref);
+    expect(digest(first)).toBe(kept);
+  });
+
   it('keeps its coefficients readable after its memory grows (as the coder grows it for a long output)', () => {
     const w = 64;
     const h = 48;
