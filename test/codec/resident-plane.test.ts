@@ -94,6 +94,20 @@ describe('planes resident in their own WebAssembly memory', () => {
     expect(digest(first)).toBe(kept);
   });
 
+  it('keeps the q of earlier results, also where a step far below the safe range wraps magnitudes to 0', () => {
+    const w = 40;
+    const h = 30;
+    const p = plane(w, h, 5);
+    const steps = [1e-12, 3e-300, 4, 1e-8];
+    const all = () => {
+      const a = analysePlane(p, w, h);
+      const got = steps.map((s) => quantiseAnalysed(a, s));
+      codeAnalysed(a, 2, 2); // reuses the q region once more
+      return got.map((g) => [g.nonZero, digest(g.q), codedSquaredError(a, g)]);
+    };
+    expect(all()).toEqual(reference(all));
+  });
+
   it('keeps its coefficients readable after its memory grows (as the coder grows it for a long output)', () => {
     const w = 64;
     const h = 48;

@@ -83,24 +83,22 @@ function releaseQ(arena: PlaneArena): void {
   const buf = arena.memory.buffer;
   const q = new Int32Array(buf, arena.qAt, n);
   const flags = new Uint8Array(buf, arena.flagsAt, Math.ceil(n / CHUNK));
-  // Two passes over the chunks holding non-zeros: count, then collect.
-  const walk = (visit: (i: number) => void) => {
-    for (let j = 0; j < flags.length; j++) {
-      if (!flags[j]) continue;
-      const end = Math.min(n, (j + 1) * CHUNK);
-      for (let i = j * CHUNK; i < end; i++) if (q[i] !== 0) visit(i);
-    }
-  };
-  let count = 0;
-  walk(() => count++);
+  // The quantiser counted the non-zeros (the result's nonZero): one pass over the chunks holding them.
+  const count = (owner as { nonZero?: number }).nonZero ?? 0;
   const at = new Int32Array(count);
   const v = new Int32Array(count);
   let k = 0;
-  walk((i) => {
-    at[k] = i;
-    v[k++] = q[i];
-  });
-  sparseQ.set(owner, { at, v });
+  for (let j = 0; j < flags.length && k < count; j++) {
+    if (!flags[j]) continue;
+    const end = Math.min(n, (j + 1) * CHUNK);
+    for (let i = j * CHUNK; i < end; i++)
+      if (q[i] !== 0) {
+        at[k] = i;
+        v[k++] = q[i];
+      }
+  }
+  // (Fewer when a step far below the safe range wrapped a magnitude to 0, as an Int32Array store does.)
+  sparseQ.set(owner, { at: at.subarray(0, k), v: v.subarray(0, k) });
 }
 
 /** The arena still holding `result`'s quantised values (and its plane's coefficients), if any. */
