@@ -43,7 +43,7 @@ export function adoptArena(plane: object, arena: PlaneArena): void {
 }
 
 /** Record that `result`'s quantised values are the ones now in `arena`'s q region. */
-export function ownQ(arena: PlaneArena, result: object): void {
+function ownQ(arena: PlaneArena, result: object): void {
   qOwner.set(arena, result);
   resultArena.set(result, arena);
 }
