@@ -78,6 +78,36 @@ describe('planes resident in their own WebAssembly memory', () => {
     }
   });
 
+  it('a reconstruction handed out stays intact through later codes and reconstructions of its plane', () => {
+    const w = 96;
+    const h = 80;
+    const p = plane(w, h, 21);
+    const ref = reference(() => {
+      const a = analysePlane(p, w, h);
+      return [5, 9, 2].map((s) => digest(reconstructCoded(a, codeAnalysed(a, s, 2))));
+    });
+    const a = analysePlane(p, w, h);
+    const first = reconstructCoded(a, codeAnalysed(a, 5, 2));
+    const kept = digest(first);
+    const later = [9, 2].map((s) => digest(reconstructCoded(a, codeAnalysed(a, s, 2))));
+    expect([kept, ...later]).toEqual(ref);
+    expect(digest(first)).toBe(kept);
+  });
+
+  it('keeps the q of earlier results, also where a step far below the safe range wraps magnitudes to 0', () => {
+    const w = 40;
+    const h = 30;
+    const p = plane(w, h, 5);
+    const steps = [1e-12, 3e-300, 4, 1e-8];
+    const all = () => {
+      const a = analysePlane(p, w, h);
+      const got = steps.map((s) => quantiseAnalysed(a, s));
+      codeAnalysed(a, 2, 2); // reuses the q region once more
+      return got.map((g) => [g.nonZero, digest(g.q), codedSquaredError(a, g)]);
+    };
+    expect(all()).toEqual(reference(all));
+  });
+
   it('keeps its coefficients readable after its memory grows (as the coder grows it for a long output)', () => {
     const w = 64;
     const h = 48;

@@ -23,6 +23,7 @@
  *   Laplacian source the MSE-optimal reconstruction lies inside the bin, not at its edge).
  */
 import * as rc from './range-coder';
+import { workFree } from './resident-plane';
 import type { PlaneArena } from './wasm/arena';
 import {
   BAND_FIELDS,
@@ -302,7 +303,7 @@ export function encodeResidentV2(
   bands: Band[],
   stats: { n: Int32Array; sum: Float64Array },
 ): CodedV2 | null {
-  const c = bands.length <= MAX_BANDS ? arena.coder(SETUP) : null;
+  const c = bands.length <= MAX_BANDS && workFree(arena) ? arena.coder(SETUP) : null;
   if (!c) return null;
   const k = offsetCodes(stats.n, stats.sum);
   const table = bandTable(bands);

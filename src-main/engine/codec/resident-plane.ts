@@ -10,13 +10,27 @@
  * elsewhere (a copy in shared memory, the stack coder's own arrays), takes the TypeScript or copying path.
  */
 import { PlaneArena } from './wasm/arena';
-import { type BandRect, codecKernelsActive, copyFlaggedChunks, GEO, PAR, RESULTS } from './wasm/runtime';
+import {
+  type BandRect,
+  CHUNK,
+  CHUNK_BITS,
+  codecKernelsActive,
+  copyFlaggedChunks,
+  GEO,
+  PAR,
+  RESULTS,
+} from './wasm/runtime';
 import { LIFTING } from './wavelet-transform';
 
 const arenaOf = new WeakMap<object, PlaneArena>();
 /** The result whose quantised values are in each arena's q region, and each result's arena. */
 const qOwner = new WeakMap<PlaneArena, object>();
 const resultArena = new WeakMap<object, PlaneArena>();
+/** A result's q as an array (made on first use), or its non-zeros (positions, values) once its region was reused. */
+const denseQ = new WeakMap<object, Int32Array>();
+const sparseQ = new WeakMap<object, { at: Int32Array; v: Int32Array }>();
+/** Arenas whose work region holds a reconstruction handed to a caller: nothing may write it again. */
+const workTaken = new WeakSet<PlaneArena>();
 
 /** The arena holding `plane`'s coefficients, if it has one and the kernels are on. */
 export function residentArena(plane: object): PlaneArena | undefined {
@@ -29,15 +43,89 @@ export function adoptArena(plane: object, arena: PlaneArena): void {
 }
 
 /** Record that `result`'s quantised values are the ones now in `arena`'s q region. */
-export function ownQ(arena: PlaneArena, result: object): void {
+function ownQ(arena: PlaneArena, result: object): void {
   qOwner.set(arena, result);
   resultArena.set(result, arena);
+}
+
+/**
+ * `fields` as the result of the quantisation just made in `arena`: its q is read from the arena's q region
+ * while it is there (made into an array only when a caller reads it), and kept as its non-zeros when the
+ * region is reused (fresh pages cost more than the arithmetic here; most callers never read q).
+ */
+export function residentResult<T extends object>(arena: PlaneArena, fields: T): T & { q: Int32Array } {
+  const out = fields as T & { q: Int32Array };
+  Object.defineProperty(out, 'q', { enumerable: true, get: () => qValues(out, arena.n) });
+  ownQ(arena, out);
+  return out;
+}
+
+function qValues(result: object, n: number): Int32Array {
+  const known = denseQ.get(result);
+  if (known) return known;
+  const q = new Int32Array(n);
+  const arena = resultArena.get(result);
+  const sparse = sparseQ.get(result);
+  if (arena && qOwner.get(arena) === result)
+    copyFlaggedChunks(arena.memory.buffer, arena.qAt, arena.flagsAt, n, q);
+  else if (sparse) for (let k = 0; k < sparse.at.length; k++) q[sparse.at[k]] = sparse.v[k];
+  denseQ.set(result, q);
+  sparseQ.delete(result);
+  return q;
+}
+
+/** Before the arena's q region is overwritten: keep the non-zeros of the result it holds (unless it has its array). */
+function releaseQ(arena: PlaneArena): void {
+  const owner = qOwner.get(arena);
+  qOwner.delete(arena);
+  if (!owner || denseQ.has(owner) || !resultArena.has(owner)) return;
+  const { n } = arena;
+  const buf = arena.memory.buffer;
+  const q = new Int32Array(buf, arena.qAt, n);
+  const flags = new Uint8Array(buf, arena.flagsAt, Math.ceil(n / CHUNK));
+  // The quantiser counted the non-zeros (the result's nonZero): one pass over the chunks holding them.
+  const count = (owner as { nonZero?: number }).nonZero ?? 0;
+  const at = new Int32Array(count);
+  const v = new Int32Array(count);
+  let k = 0;
+  for (let j = 0; j < flags.length && k < count; j++) {
+    if (!flags[j]) continue;
+    const end = Math.min(n, (j + 1) * CHUNK);
+    for (let i = j * CHUNK; i < end; i++)
+      if (q[i] !== 0) {
+        at[k] = i;
+        v[k++] = q[i];
+      }
+  }
+  // (Fewer when a step far below the safe range wrapped a magnitude to 0, as an Int32Array store does.)
+  sparseQ.set(owner, { at: at.subarray(0, k), v: v.subarray(0, k) });
 }
 
 /** The arena still holding `result`'s quantised values (and its plane's coefficients), if any. */
 export function residentQ(result: object): PlaneArena | undefined {
   const arena = codecKernelsActive() ? resultArena.get(result) : undefined;
-  return arena && qOwner.get(arena) === result ? arena : undefined;
+  if (!arena || qOwner.get(arena) === result) return arena;
+  // Load it back (warm memory: cheaper than any copying path): its array, or zeros and its non-zeros.
+  const dense = denseQ.get(result);
+  const sparse = sparseQ.get(result);
+  if (!dense && !sparse) return undefined;
+  releaseQ(arena);
+  const buf = arena.memory.buffer;
+  const q = new Int32Array(buf, arena.qAt, arena.n);
+  const flags = new Uint8Array(buf, arena.flagsAt, Math.ceil(arena.n / CHUNK));
+  if (dense) {
+    q.set(dense);
+    flags.fill(1);
+  } else if (sparse) {
+    q.fill(0);
+    flags.fill(0);
+    for (let k = 0; k < sparse.at.length; k++) {
+      q[sparse.at[k]] = sparse.v[k];
+      flags[sparse.at[k] >> CHUNK_BITS] = 1;
+    }
+  }
+  qOwner.set(arena, result);
+  return arena;
 }
 
 /** A new arena holding the forward transform (`levels` levels) of `plane`; null when none can be made. */
@@ -56,15 +144,14 @@ export function analyseResident(
 
 /**
  * Dead-zone quantisation of the resident coefficients into the arena's q (per band step, rounding offset,
- * zero threshold), the non-zero values also copied into `out` (zeros on entry; only the chunks holding
- * non-zeros are written). Returns the number of non-zero values.
+ * zero threshold); the number of non-zero values. Make its result with {@link residentResult}.
  */
 export function quantiseResident(
   arena: PlaneArena,
   bands: BandRect[],
   par: (bi: number) => number[],
-  out: Int32Array,
 ): number {
+  releaseQ(arena);
   arena.bands(bands, par);
   const { width, n } = arena;
   const nonZero = arena.lift.quantise(
@@ -77,7 +164,6 @@ export function quantiseResident(
     arena.flagsAt,
     n,
   );
-  copyFlaggedChunks(arena.memory.buffer, arena.qAt, arena.flagsAt, n, out);
   return nonZero;
 }
 
@@ -126,18 +212,30 @@ export function bandMaxResident(arena: PlaneArena, bands: BandRect[]): Float64Ar
 }
 
 /**
- * The plane rebuilt from the resident q (par: Δ, d1, d2 per band) and inverse-transformed, in the arena's work
- * region: a new array.
+ * The plane rebuilt from the resident q (par: Δ, d1, d2 per band) and inverse-transformed in the arena's work
+ * region: a copy, or with `handOut` the region itself (no copy into fresh pages; for the decoded file, usually
+ * the last use of the plane). After a hand-out the arena's coder and reconstruction are not used again
+ * (undefined: take the copying paths), so nothing writes over it, and the memory, which only the coder
+ * grows, keeps its size.
  */
 export function reconstructResident(
   arena: PlaneArena,
   bands: BandRect[],
   par: (bi: number) => number[],
   levels: number,
-): Float64Array {
+  handOut: boolean,
+): Float64Array | undefined {
+  if (workTaken.has(arena)) return undefined;
+  if (handOut) workTaken.add(arena);
   arena.bands(bands, par);
   const { width, n, workAt } = arena;
   arena.lift.dequantise(arena.qAt, workAt, width, bands.length, GEO, PAR);
   if (levels > 0) arena.transform(levels, LIFTING, true, workAt);
-  return new Float64Array(arena.memory.buffer, workAt, n).slice();
+  const x = new Float64Array(arena.memory.buffer, workAt, n);
+  return handOut ? x : x.slice();
+}
+
+/** Whether the arena's coder may run (its work region is not handed out). */
+export function workFree(arena: PlaneArena): boolean {
+  return !workTaken.has(arena);
 }

@@ -14,18 +14,34 @@ import type { AnalysedPlane } from './wavelet-plane';
 const RATE_STRIDE = 7;
 const LARGE_STRIDE = 31;
 const LARGE_PLANE = 1 << 22;
-const strideOf = (a: AnalysedPlane) => (a.coeffs.length > LARGE_PLANE ? LARGE_STRIDE : RATE_STRIDE);
+const strideOf = (a: AnalysedPlane) => (a.width * a.height > LARGE_PLANE ? LARGE_STRIDE : RATE_STRIDE);
 const RATE_CAP = 16;
 
-/** Per band, the sorted magnitudes of a deterministic 1-in-RATE_STRIDE sample (built once per plane). */
+/** Per band, the sorted magnitudes of a deterministic 1-in-stride sample (built once per plane). */
 const sampleCache = new WeakMap<AnalysedPlane, Float64Array[]>();
 function sortedSample(a: AnalysedPlane): Float64Array[] {
   const hit = sampleCache.get(a);
   if (hit) return hit;
-  const lists: number[][] = a.bands.map(() => []);
+  // The coefficients at i = 0, stride, 2·stride, … taken band by band (the bands tile the plane), each band's
+  // list sorted: the same lists as one pass in index order, without a band map or growing arrays.
   const stride = strideOf(a);
-  for (let i = 0; i < a.coeffs.length; i += stride) lists[a.map[i]].push(Math.abs(a.coeffs[i]));
-  const out = lists.map((l) => Float64Array.from(l).sort());
+  const { width, coeffs: x } = a;
+  const firstIn = (row: number) => row + ((stride - (row % stride)) % stride);
+  const out = a.bands.map((b) => {
+    let count = 0;
+    for (let y = 0; y < b.h; y++) {
+      const row = (b.y0 + y) * width + b.x0;
+      const first = firstIn(row);
+      if (first < row + b.w) count += Math.floor((row + b.w - 1 - first) / stride) + 1;
+    }
+    const v = new Float64Array(count);
+    let k = 0;
+    for (let y = 0; y < b.h; y++) {
+      const row = (b.y0 + y) * width + b.x0;
+      for (let i = firstIn(row); i < row + b.w; i += stride) v[k++] = Math.abs(x[i]);
+    }
+    return v.sort();
+  });
   sampleCache.set(a, out);
   return out;
 }

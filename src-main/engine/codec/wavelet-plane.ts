@@ -30,9 +30,9 @@ import {
   analyseResident,
   bandMaxResident,
   binStatsResident,
-  ownQ,
   quantiseResident,
   residentArena,
+  residentResult,
 } from './resident-plane';
 import { quantiseWasm } from './wasm/runtime';
 import { dequantise } from './wavelet-rebuild';
@@ -139,17 +139,19 @@ function zeroThreshold(d: number, rho: number): number {
  * Dead-zone quantisation of an analysed plane at pixel-domain step `step`, band by band (each band's
  * rectangle in raster order, so no per-coefficient band lookup): q = sign(c)·⌊|c|/Δ_b + ρ⌋.
  */
-function quantise(a: AnalysedPlane, steps: Float64Array, q: Int32Array): number {
-  const { width, bands, coeffs: x } = a;
+function quantise(a: AnalysedPlane, steps: Float64Array): Omit<CodedCoefficients, 'bytes'> {
+  const { width, bands } = a;
   const rhoOf = (b: Band) => (b.orient === 0 ? 0.5 : DEAD_ZONE_RHO);
   const par = (bi: number): [number, number, number] => {
     const rho = rhoOf(bands[bi]);
     return [steps[bi], rho, zeroThreshold(steps[bi], rho)];
   };
   const arena = residentArena(a);
-  if (arena) return quantiseResident(arena, bands, par, q);
+  if (arena) return residentResult(arena, { steps, nonZero: quantiseResident(arena, bands, par) });
+  const x = a.coeffs;
+  const q = new Int32Array(x.length);
   const fast = quantiseWasm(x, q, width, bands, par);
-  if (fast !== null) return fast;
+  if (fast !== null) return { q, steps, nonZero: fast };
   let nonZero = 0;
   for (let bi = 0; bi < bands.length; bi++) {
     const b = bands[bi];
@@ -171,7 +173,7 @@ function quantise(a: AnalysedPlane, steps: Float64Array, q: Int32Array): number 
       }
     }
   }
-  return nonZero;
+  return { q, steps, nonZero };
 }
 
 /**
@@ -181,14 +183,11 @@ function quantise(a: AnalysedPlane, steps: Float64Array, q: Int32Array): number 
 export function quantiseAnalysed(a: AnalysedPlane, step: number): Omit<CodedCoefficients, 'bytes'> {
   checkStep(step);
   const steps = bandSteps(a.bands, step);
-  const q = new Int32Array(a.width * a.height);
-  const nonZero = quantise(a, steps, q);
+  const out: Omit<CodedCoefficients, 'bytes'> = quantise(a, steps);
   const arena = residentArena(a);
-  const offsets = arena
+  out.offsets = arena
     ? offsetsFromStats(binStatsResident(arena, a.bands, steps))
-    : reconstructionOffsetsV2(q, a.coeffs, steps, a.width, a.bands);
-  const out = { q, steps, nonZero, offsets };
-  if (arena) ownQ(arena, out);
+    : reconstructionOffsetsV2(out.q, a.coeffs, steps, a.width, a.bands);
   return out;
 }
 
@@ -225,18 +224,17 @@ export function codeAnalysed(a: AnalysedPlane, step: number, coder: PlaneCoder =
   checkStep(step);
   const { width, bands } = a;
   const steps = bandSteps(bands, step);
-  const q = new Int32Array(width * a.height);
-  const nonZero = quantise(a, steps, q);
+  const coded = quantise(a, steps) as CodedCoefficients;
   const arena = residentArena(a);
-  // On a resident plane coder 2 reads q and the bin statistics where they are (./resident-plane).
-  const v2 = () =>
-    (arena && encodeResidentV2(arena, bands, binStatsResident(arena, bands, steps))) ||
-    encodeCoefficientsV2(q, a.coeffs, steps, width, bands);
-  const coded: CodedCoefficients =
-    coder === 1
-      ? { bytes: encodeCoefficientsV1(q, width, bands), q, steps, nonZero }
-      : { ...v2(), q, steps, nonZero };
-  if (arena) ownQ(arena, coded);
+  if (coder === 1) coded.bytes = encodeCoefficientsV1(coded.q, width, bands);
+  else {
+    // On a resident plane coder 2 reads q and the bin statistics where they are (./resident-plane).
+    const v2 =
+      (arena && encodeResidentV2(arena, bands, binStatsResident(arena, bands, steps))) ||
+      encodeCoefficientsV2(coded.q, a.coeffs, steps, width, bands);
+    coded.bytes = v2.bytes;
+    coded.offsets = v2.offsets;
+  }
   rememberCode({ bytes: coded.bytes, width, height: a.height, step, coder, coded });
   return coded;
 }
@@ -280,7 +278,8 @@ export function decodePlane(
   const bands = bandsFor(width, height, levels);
   // Bytes this process just encoded (./coded-planes): their coefficients are known, skip the range decoder.
   const known = recallCode(bytes, width, height, step, coder);
-  if (known) return dequantise(known, width, height, levels, bands);
+  // The decoded file is usually the plane's last use: its memory may carry the result (no copy).
+  if (known) return dequantise(known, width, height, levels, bands, true);
   const steps = bandSteps(bands, step);
   const q = new Int32Array(width * height);
   if (coder === 1) {

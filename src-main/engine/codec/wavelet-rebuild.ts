@@ -21,18 +21,25 @@ function parOf(c: Quantised): (bi: number) => [number, number, number] {
   return (bi) => (offsets ? [steps[bi], offsets[2 * bi], offsets[2 * bi + 1]] : [steps[bi], 0, 0]);
 }
 
-/** Reconstruction ({@link dequantiseInto}), then the inverse transform (shared by encoder and decoder). */
+/**
+ * Reconstruction ({@link dequantiseInto}), then the inverse transform (shared by encoder and decoder). With
+ * `handOut`, a resident plane's last rebuild may be returned in its own memory (./resident-plane).
+ */
 export function dequantise(
   c: Quantised,
   width: number,
   height: number,
   levels: number,
   bands: Band[],
+  handOut = false,
 ): Float64Array {
   const par = parOf(c);
   const arena = residentQ(c);
-  if (arena && arena.width === width && arena.height === height)
-    return reconstructResident(arena, bands, (bi) => [...par(bi), 0], levels);
+  const resident =
+    arena && arena.width === width && arena.height === height
+      ? reconstructResident(arena, bands, (bi) => [...par(bi), 0], levels, handOut)
+      : undefined;
+  if (resident) return resident;
   const fast = reconstructWasm(c.q, width, height, levels, bands, par, LIFTING);
   if (fast) return fast;
   const x = new Float64Array(width * height);

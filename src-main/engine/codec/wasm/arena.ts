@@ -107,11 +107,6 @@ export class PlaneArena {
     return this.coeffView;
   }
 
-  /** The resident q (a view, as {@link coeffs}). */
-  q(): Int32Array {
-    return new Int32Array(this.fresh(), this.qAt, this.n);
-  }
-
   /** Copy the samples in as f64 (a Float32Array through the widening kernel, staged in q's region). */
   load(plane: ArrayLike<number>): void {
     const buf = this.fresh();

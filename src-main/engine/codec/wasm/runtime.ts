@@ -108,8 +108,9 @@ export function writeBands(buf: ArrayBufferLike, bands: BandRect[], par: (bi: nu
   });
 }
 
-/** q entries per chunk of the kernel's non-zero map (assembly/lifting.ts CHUNK). */
-export const CHUNK = 1024;
+/** q entries per chunk of the kernel's non-zero map (assembly/lifting.ts CHUNK_BITS, CHUNK). */
+export const CHUNK_BITS = 10;
+export const CHUNK = 1 << CHUNK_BITS;
 
 /**
  * Copy the chunks of the n values of q at `qAt` in `buf` whose flag (u8 at `flagsAt`, one per chunk) is set
