@@ -139,7 +139,9 @@ interface Lines {
 /**
  * The wide-band profile of one axis of `plane` ('columns': offsets per column; 'rows': per row). With
  * `background` (text pages) the steps are measured on the paper alone (banding-wide-checks.ts sampleLines),
- * and one edge is enough: a full-length step in the paper is the lamp or the sensor, not a horizon.
+ * and one edge is enough: a full-length step in the paper is the lamp or the sensor, not a horizon. With
+ * `chain` the chained profile of step 5 is built instead (banding.ts asks for it only after the plain step
+ * sum, on the whole lines and on the paper, was rejected).
  */
 export function wideBandProfile(
   plane: ArrayLike<number>,
@@ -148,6 +150,7 @@ export function wideBandProfile(
   axis: 'rows' | 'columns',
   maxValue: number,
   background = false,
+  chain = false,
 ): WideBands {
   const lineLen = axis === 'columns' ? width : height;
   const lineCount = axis === 'columns' ? height : width;
@@ -165,6 +168,7 @@ export function wideBandProfile(
     maxValue,
     minValid: background ? MIN_VALID_SHARE_PAPER : MIN_VALID_SHARE,
   };
+  if (chain) return chained(lines, background);
   const whole = edgeProfile(lines, 0, nLines, false);
   const { profile } = whole;
   let detected =
@@ -199,7 +203,6 @@ export function wideBandProfile(
     removeMean(profile);
     detected &&= explainsLevels(plane, width, height, axis, profile, nLines);
   }
-  if (!detected) return chained(lines, background);
   const strength = rms(profile);
   const steps = whole.steps + added.length;
   const noiseFloor = Math.sqrt(whole.noiseFloor ** 2 + added.reduce((t, e) => t + e.se * e.se, 0));
