@@ -2,10 +2,10 @@
 // the wide pass's guards reject the plain step sum. Checked as properties against known synthetic truth (no
 // published reference values exist for banding removal; test/fixtures/reference/notes.md, "Not covered").
 import { describe, expect, it } from 'vitest';
-import { analyseBanding, subtractProfiles } from '../../src-main/engine/clean';
 import { bridgeStep, chainProfile } from '../../src-main/engine/clean/band-bridge';
 import { wideBandProfile } from '../../src-main/engine/clean/banding-wide';
-import { bandProfile, damage, fixtureGray, type Gray, gaussian, psnr, rng, rounded } from './helpers';
+import { wideRemoval } from './banding-removal';
+import { bandProfile, damage, fixtureGray, type Gray, gaussian, rng } from './helpers';
 
 /** n per-line window steps: `share` of them at `step`, the rest at `other`, plus N(0, sd²) noise. */
 function perLine(
@@ -24,49 +24,31 @@ describe('bridgeStep: the step most lines agree on across content', () => {
   const sd = 2;
   const maxStep = 24;
   const zeroFloor = 1;
+  const bridge = (d: Float64Array) => bridgeStep(d, sd, maxStep, zeroFloor);
   it('every line shows a band edge of 9 (noise sd 2): the bridge is that step, within 0.3', () => {
-    const b = bridgeStep(
-      perLine(512, 1, 9, () => 0, sd, 1),
-      sd,
-      maxStep,
-      zeroFloor,
-    );
+    const b = bridge(perLine(512, 1, 9, () => 0, sd, 1));
     expect(b).not.toBeNull();
     expect(Math.abs((b as number) - 9)).toBeLessThan(0.3);
   });
 
   it('a content edge on 40 % of the lines (steps scattered over ±40) and no band edge: bridged by 0', () => {
     const scatter = perLine(512, 0.6, 0, (i) => ((i * 37) % 81) - 40, sd, 2);
-    expect(bridgeStep(scatter, sd, maxStep, zeroFloor)).toBe(0);
+    expect(bridge(scatter)).toBe(0);
   });
 
   it('the same content with a band edge of 9 behind it: the band edge is read from the other lines', () => {
     const d = perLine(512, 0.6, 9, (i) => 9 + ((i * 37) % 81) - 40, sd, 3);
-    expect(Math.abs((bridgeStep(d, sd, maxStep, zeroFloor) as number) - 9)).toBeLessThan(0.4);
+    expect(Math.abs((bridge(d) as number) - 9)).toBeLessThan(0.4);
   });
 
   it('a uniform content edge of 9 on 85 % of the lines and none on 15 % (a gel lane below its well): cut', () => {
-    expect(
-      bridgeStep(
-        perLine(512, 0.85, 9, () => 0, sd, 4),
-        sd,
-        maxStep,
-        zeroFloor,
-      ),
-    ).toBeNull();
+    expect(bridge(perLine(512, 0.85, 9, () => 0, sd, 4))).toBeNull();
   });
 
   it('agreement on a step above maxStep (a print edge), or on nothing: cut', () => {
-    expect(
-      bridgeStep(
-        perLine(512, 1, 40, () => 0, sd, 5),
-        sd,
-        maxStep,
-        zeroFloor,
-      ),
-    ).toBeNull();
+    expect(bridge(perLine(512, 1, 40, () => 0, sd, 5))).toBeNull();
     const spread = Float64Array.from({ length: 512 }, (_, i) => ((i * 97) % 512) - 256);
-    expect(bridgeStep(spread, sd, maxStep, zeroFloor)).toBeNull();
+    expect(bridge(spread)).toBeNull();
   });
 });
 
@@ -101,29 +83,10 @@ describe('chainProfile: cuts cost only the offsets between stretches', () => {
   });
 });
 
+/** --banding auto on the bands of seed `seed`: removed share and PSNR gain (banding-removal.ts). */
 function autoRemoval(img: Gray, axis: 'rows' | 'columns', seed: number) {
-  const len = axis === 'columns' ? img.width : img.height;
-  const truth = bandProfile(len, 4, 50, 200, seed);
-  const noisy = damage(img, { sigma: 3, seed: 9, [axis]: truth });
-  const a = analyseBanding(noisy, img.width, img.height, 'auto', { maxValue: 255 });
-  const est =
-    axis === 'rows' ? (a.removeRows ? a.rows.profile : null) : a.removeColumns ? a.columns.profile : null;
-  let e0 = 0;
-  let e1 = 0;
-  for (let i = 0; i < len; i++) {
-    e0 += truth[i] ** 2;
-    e1 += (truth[i] - (est ? est[i] : 0)) ** 2;
-  }
-  const out = rounded(
-    subtractProfiles(
-      noisy,
-      img.width,
-      img.height,
-      axis === 'rows' ? est : null,
-      axis === 'columns' ? est : null,
-    ),
-  );
-  return { removed: 1 - e1 / e0, gain: psnr(out, img.data) - psnr(noisy, img.data) };
+  const r = wideRemoval(img, axis, seed, true);
+  return { removed: r.removed, gain: r.after - r.before };
 }
 
 // Measured before the chained profile (these cases were left in place: 0 % removed) and with it: camera rows
