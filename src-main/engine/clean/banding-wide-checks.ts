@@ -1,6 +1,7 @@
 /**
- * Helpers of the wide-band pass (banding-wide.ts): line sampling, robust step statistics, and the check
- * that a step-sum profile explains the direct per-position levels.
+ * Helpers of the wide-band pass (banding-wide.ts): line sampling, robust step statistics, the test that a
+ * slice of the lines agrees with a step, and the check that a step-sum profile explains the direct
+ * per-position levels.
  *
  * References
  * - J. W. Tukey, "Exploratory Data Analysis", Addison-Wesley 1977: medians and trimmed means as robust
@@ -23,6 +24,15 @@ const TRIM = 0.4;
  * evaluated with scipy 1.17.1 integrate.quad and stats.norm.ppf).
  */
 export const TRIMMED_SE_FACTOR = 1.1789;
+/** A slice's step agrees when it has the whole's sign and at least this share of its size (chosen here)… */
+const PART_AGREEMENT = 0.5;
+/**
+ * …or, in the lenient test, lies within this many of its standard errors of it (chosen here: with 1/8 of
+ * 512 lines a slice's step has a standard error of ~0.5 grey levels at noise σ 3, so the share alone
+ * rejected real band edges of 2–7 grey levels on camera.png and text.png by chance).
+ */
+const PART_SE = 3;
+
 /**
  * The profile must remove at least this share of its own total variation from the direct per-position
  * levels (chosen here): a missed edge would leave a whole stretch offset, which adds variation instead.
@@ -120,6 +130,22 @@ export function robustStep(v: Float64Array, from: number, to: number, scratch: F
   const med = count % 2 ? s[(count - 1) >> 1] : (s[count / 2 - 1] + s[count / 2]) / 2;
   for (let i = 0; i < count; i++) s[i] = Math.abs(s[i] - med);
   return { step: sum / (hi - lo), spread: medianInPlace(s, count) / MAD_TO_SIGMA, count };
+}
+
+/**
+ * A slice of the lines agrees with the whole's step `whole`: a band edge is the same on every line, so
+ * only noise moves a slice's step, while a content edge differs from slice to slice. `lenient` also
+ * accepts a slice within PART_SE standard errors of the whole.
+ */
+export function partAgrees(
+  part: { step: number; spread: number; count: number },
+  whole: number,
+  lenient: boolean,
+): boolean {
+  if (Math.sign(part.step) !== Math.sign(whole)) return false;
+  if (Math.abs(part.step) >= PART_AGREEMENT * Math.abs(whole)) return true;
+  const se = (TRIMMED_SE_FACTOR * part.spread) / Math.sqrt(Math.max(1, part.count));
+  return lenient && Math.abs(part.step - whole) <= PART_SE * se;
 }
 
 /**

@@ -20,19 +20,26 @@
  * 4. Guards (a missed or invented edge offsets a whole stretch and makes an image worse): the profile must
  *    explain the direct per-position levels (banding-wide-checks.ts); and each half of the lines is
  *    analysed on its own: an edge that one half finds and the whole missed (content on the other half hid
- *    it) is added only when the other half shows a step of the same sign and similar size there, and
- *    otherwise nothing is removed at all.
- * 5. On text pages (banding.ts calls it again when the narrow profile follows the lines of text and this
+ *    it) is added only when the other half shows a step of the same sign and similar size there.
+ * 5. When these guards reject the profile, it is rebuilt as a chain (`chained`): edges must agree in each
+ *    of CHAIN_PARTS slices of the lines, within their noise (partAgrees, lenient); a significant group that
+ *    fails (content, which may hide a band edge) is bridged by the step most lines agree on, or cuts the
+ *    chain (band-bridge.ts); an edge one half finds and the other does not confirm cuts it too. Between
+ *    cuts the profile is made zero-mean on its own, so a doubtful stretch loses only its offset against
+ *    the rest instead of vetoing the whole profile or offsetting everything after it.
+ * 6. On text pages (banding.ts calls it again when the narrow profile follows the lines of text and this
  *    pass found nothing) ink hides the band edges: the steps are then measured on the paper alone.
  *
  * References
  * - J. W. Tukey, "Exploratory Data Analysis", Addison-Wesley 1977: medians and trimmed means as robust
  *   summaries.
- * The grouped step-sum construction and its guards are this project's (no source).
+ * The grouped step-sum construction, its guards, bridges and cuts are this project's (no source).
  */
+import { bridgeStep, chainProfile } from './band-bridge';
 import { removeMean, rms } from './band-stats';
 import {
   explainsLevels,
+  partAgrees,
   robustStep,
   sampleLines,
   TRIMMED_SE_FACTOR,
@@ -45,8 +52,19 @@ const MAX_SAMPLE_LINES = 512;
 const STEP_SE = 5;
 /** The lines are split into this many parts (chosen here)… */
 const PARTS = 4;
-/** …and each part's step must have the same sign and at least this share of the whole step (chosen here). */
-const PART_AGREEMENT = 0.5;
+/**
+ * …and this many in the chained profile, whose slices must agree within their noise (chosen here: with 4,
+ * the lanes of samples/gel-scan.tif, which stop at the wells in the top ~11 % of the rows, passed as bands).
+ */
+const CHAIN_PARTS = 8;
+/** Minimum RMS of a chained profile in 8-bit grey levels (chosen here: as the narrow pass's floor). */
+const MIN_CHAIN_STRENGTH_8BIT = 1;
+/**
+ * Across content, lines that agree on a step within this many typical spreads of zero show no band edge
+ * (chosen here: half the noise of one line's window step, so the texture beside a content edge is not
+ * bridged as a small band edge).
+ */
+const ZERO_FLOOR_SD = 0.5;
 /**
  * Spread across lines of a group's net step over the larger of the image's typical spread and the spread
  * just beside the group: above this the edge is content (chosen here on the fixtures and samples).
@@ -121,7 +139,9 @@ interface Lines {
 /**
  * The wide-band profile of one axis of `plane` ('columns': offsets per column; 'rows': per row). With
  * `background` (text pages) the steps are measured on the paper alone (banding-wide-checks.ts sampleLines),
- * and one edge is enough: a full-length step in the paper is the lamp or the sensor, not a horizon.
+ * and one edge is enough: a full-length step in the paper is the lamp or the sensor, not a horizon. With
+ * `chain` the chained profile of step 5 is built instead (banding.ts asks for it only after the plain step
+ * sum, on the whole lines and on the paper, was rejected).
  */
 export function wideBandProfile(
   plane: ArrayLike<number>,
@@ -130,6 +150,7 @@ export function wideBandProfile(
   axis: 'rows' | 'columns',
   maxValue: number,
   background = false,
+  chain = false,
 ): WideBands {
   const lineLen = axis === 'columns' ? width : height;
   const lineCount = axis === 'columns' ? height : width;
@@ -147,7 +168,8 @@ export function wideBandProfile(
     maxValue,
     minValid: background ? MIN_VALID_SHARE_PAPER : MIN_VALID_SHARE,
   };
-  const whole = edgeProfile(lines, 0, nLines);
+  if (chain) return chained(lines, background);
+  const whole = edgeProfile(lines, 0, nLines, false);
   const { profile } = whole;
   let detected =
     whole.steps >= (background ? 1 : MIN_STEPS) &&
@@ -166,19 +188,14 @@ export function wideBandProfile(
     [half, nLines, 0, half],
   ]) {
     if (!detected) break;
-    for (const e of edgeProfile(lines, from, to).edges) {
+    for (const e of edgeProfile(lines, from, to, false).edges) {
       if ([...whole.edges, ...added].some((w) => Math.abs(w.at - e.at) <= GROUP_GAP)) continue;
-      const other = groupStep(lines, e.a, e.b, o0, o1, col).step;
-      if (Math.sign(other) !== Math.sign(e.step) || Math.abs(other) < PART_AGREEMENT * Math.abs(e.step)) {
+      if (!partAgrees(groupStep(lines, e.a, e.b, o0, o1, col), e.step, false)) {
         detected = false;
         break;
       }
       const all = groupStep(lines, e.a, e.b, 0, nLines, col);
-      added.push({
-        ...e,
-        step: all.step,
-        se: (TRIMMED_SE_FACTOR * all.spread) / Math.sqrt(Math.max(1, all.count)),
-      });
+      added.push({ ...e, step: all.step, se: standardError(all) });
     }
   }
   for (const e of added) for (let x = e.at + 1; x < lineLen; x++) profile[x] += e.step;
@@ -192,14 +209,56 @@ export function wideBandProfile(
   return { profile, steps, strength, noiseFloor, detected };
 }
 
+/** Step 5 of the header: the chained profile, with bridges across content and cuts where links are doubtful. */
+function chained(lines: Lines, background: boolean): WideBands {
+  const { lineLen, nLines, maxValue } = lines;
+  const whole = edgeProfile(lines, 0, nLines, true);
+  const edges = [...whole.edges];
+  const links = [...edges, ...whole.bridges];
+  const cuts = [...whole.cuts];
+  const half = nLines >> 1;
+  const col = new Float64Array(nLines);
+  for (const [from, to, o0, o1] of [
+    [0, half, half, nLines],
+    [half, nLines, 0, half],
+  ])
+    for (const e of edgeProfile(lines, from, to, true).edges) {
+      if (links.some((w) => e.b >= w.a - GROUP_GAP && e.a <= w.b + GROUP_GAP)) continue;
+      if (!partAgrees(groupStep(lines, e.a, e.b, o0, o1, col), e.step, true)) {
+        cuts.push(e.at);
+        continue;
+      }
+      const added = { ...e, step: groupStep(lines, e.a, e.b, 0, nLines, col).step };
+      edges.push(added);
+      links.push(added);
+    }
+  const kept = cuts.filter((c) => !edges.some((e) => Math.abs(e.at - c) <= GROUP_GAP));
+  const profile = chainProfile(lineLen, links, kept);
+  const noiseFloor = Math.sqrt(links.reduce((t, e) => t + e.se * e.se, 0));
+  const strength = rms(profile);
+  const detected =
+    edges.length >= (background ? 1 : MIN_STEPS) &&
+    strength >= (MIN_CHAIN_STRENGTH_8BIT * maxValue) / 255 &&
+    strength >= 3 * noiseFloor;
+  return { profile, steps: edges.length, strength, noiseFloor, detected };
+}
+
+/** Standard error of a robustStep estimate (TRIMMED_SE_FACTOR·spread/√count, banding-wide-checks.ts). */
+function standardError(r: { spread: number; count: number }): number {
+  return (TRIMMED_SE_FACTOR * r.spread) / Math.sqrt(Math.max(1, r.count));
+}
+
 /** The net step across the differences a … b on the lines [from, to) (robustStep of the window differences). */
 function groupStep(lines: Lines, a: number, b: number, from: number, to: number, scratch: Float64Array) {
   const d = windowDifferences(lines.levels, lines.lineLen, WINDOW, a, b, from, to);
   return robustStep(d, 0, to - from, scratch);
 }
 
-/** Steps 1–3 of the header on the lines [from, to): the zero-mean step-sum profile of the kept edges. */
-function edgeProfile(lines: Lines, from: number, to: number) {
+/**
+ * Steps 1–3 of the header on the lines [from, to): the zero-mean step-sum profile of the kept edges; when
+ * `chain`, with the lenient slice test and the bridges and cuts of step 5.
+ */
+function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
   const { diffs, lineLen, nLines } = lines;
   const count = to - from;
   const col = new Float64Array(count);
@@ -209,7 +268,7 @@ function edgeProfile(lines: Lines, from: number, to: number) {
   for (let x = 0; x < n; x++) {
     const all = robustStep(diffs, x * nLines + from, x * nLines + to, col);
     step[x] = all.step;
-    const se = (TRIMMED_SE_FACTOR * all.spread) / Math.sqrt(Math.max(1, all.count));
+    const se = standardError(all);
     significant[x] = all.count >= lines.minValid * count && Math.abs(all.step) > STEP_SE * se ? 1 : 0;
   }
   const windowStep = (a: number, b: number, k0: number, k1: number) => groupStep(lines, a, b, k0, k1, col);
@@ -230,7 +289,25 @@ function edgeProfile(lines: Lines, from: number, to: number) {
   const maxStep = (MAX_STEP_8BIT * lines.maxValue) / 255;
   // Steps next to the ends of the line are a plate rebate, a scan-bed edge or a page margin: content.
   const border = Math.max(MIN_BAND_WIDTH, Math.round(BORDER_SHARE * lineLen));
+  const parts = chain ? CHAIN_PARTS : PARTS;
+  const slicesAgree = (a: number, b: number, s: number) => {
+    for (let q = 0; q < parts; q++) {
+      const k0 = from + Math.floor((q * count) / parts);
+      const part = windowStep(a, b, k0, from + Math.floor(((q + 1) * count) / parts));
+      if (!partAgrees(part, s, chain)) return false;
+    }
+    return true;
+  };
+  // The group's largest difference (of the sign of s, when s is not 0): where its step goes.
+  const largest = (a: number, b: number, s: number) => {
+    let at = a;
+    for (let x = a; x <= b; x++)
+      if ((s === 0 || Math.sign(step[x]) === Math.sign(s)) && Math.abs(step[x]) > Math.abs(step[at])) at = x;
+    return at;
+  };
   const edges: Edge[] = [];
+  const bridges: Edge[] = [];
+  const cuts: number[] = [];
   for (let a = 0; a < n; a++) {
     if (!significant[a]) continue;
     let b = a;
@@ -239,31 +316,26 @@ function edgeProfile(lines: Lines, from: number, to: number) {
     a = b;
     if (first < border || b >= n - border) continue;
     const all = windowStep(first, b, from, to);
-    const se = (TRIMMED_SE_FACTOR * all.spread) / Math.sqrt(Math.max(1, all.count));
-    let ok =
+    const se = standardError(all);
+    if (
       all.count >= lines.minValid * count &&
       Math.abs(all.step) > STEP_SE * se &&
       Math.abs(all.step) <= maxStep &&
-      all.spread <= MAX_STEP_SPREAD * Math.max(typicalSpread, localSpread(first, b));
-    for (let q = 0; q < PARTS && ok; q++) {
-      const part = windowStep(
-        first,
-        b,
-        from + Math.floor((q * count) / PARTS),
-        from + Math.floor(((q + 1) * count) / PARTS),
-      );
-      if (
-        Math.sign(part.step) !== Math.sign(all.step) ||
-        Math.abs(part.step) < PART_AGREEMENT * Math.abs(all.step)
-      )
-        ok = false;
+      all.spread <= MAX_STEP_SPREAD * Math.max(typicalSpread, localSpread(first, b)) &&
+      slicesAgree(first, b, all.step)
+    ) {
+      edges.push({ at: largest(first, b, all.step), a: first, b, step: all.step, se });
+      continue;
     }
-    if (!ok) continue;
-    // The step goes where the group's largest difference of the same sign is.
-    let at = first;
-    for (let x = first; x <= b; x++)
-      if (Math.sign(step[x]) === Math.sign(all.step) && Math.abs(step[x]) > Math.abs(step[at])) at = x;
-    edges.push({ at, a: first, b, step: all.step, se });
+    if (!chain) continue;
+    // Step 5 of the header: bridge the content, or cut the chain.
+    const perLine = windowDifferences(lines.levels, lineLen, WINDOW, first, b, from, to);
+    let bridged = bridgeStep(perLine, typicalSpread, maxStep, ZERO_FLOOR_SD * typicalSpread);
+    if (bridged !== null && bridged !== 0 && !slicesAgree(first, b, bridged)) bridged = null;
+    const at = largest(first, b, bridged ?? 0);
+    if (bridged === null) cuts.push(at);
+    else if (bridged !== 0)
+      bridges.push({ at, a: first, b, step: bridged, se: typicalSpread / Math.sqrt(count) });
   }
   // A band has a width: kept edges of opposite sign closer than MIN_BAND_WIDTH px are a thin feature (a
   // narrow stripe is the narrow pass's job; a ruled line or grid line is content) and are dropped.
@@ -284,5 +356,5 @@ function edgeProfile(lines: Lines, from: number, to: number) {
     for (let x = e.at + 1; x < lineLen; x++) profile[x] += e.step;
   });
   removeMean(profile);
-  return { profile, steps, noiseFloor: Math.sqrt(err2), edges: kept };
+  return { profile, steps, noiseFloor: Math.sqrt(err2), edges: kept, bridges, cuts };
 }

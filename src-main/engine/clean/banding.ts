@@ -108,10 +108,17 @@ function addWideBands(
   narrowRemoved: boolean,
   maxValue: number,
 ): boolean {
+  // Lines of text (the narrow profile's spread follows content) hide band edges behind ink: the paper alone
+  // is tried next. Only when both step sums are rejected is the chained profile tried, in the same order.
+  const paper = p.spreadRatio > MAX_SPREAD_RATIO;
   let wide = wideBandProfile(rest, width, height, p.axis, maxValue);
-  // Lines of text (the narrow profile's spread follows content) hide band edges behind ink: the paper alone.
-  if (!wide.detected && p.spreadRatio > MAX_SPREAD_RATIO)
-    wide = wideBandProfile(rest, width, height, p.axis, maxValue, true);
+  for (const [background, chain] of [
+    [true, false],
+    [false, true],
+    [true, true],
+  ])
+    if (!wide.detected && (paper || !background))
+      wide = wideBandProfile(rest, width, height, p.axis, maxValue, background, chain);
   if (!wide.detected) return false;
   for (let i = 0; i < p.profile.length; i++)
     p.profile[i] = (narrowRemoved ? p.profile[i] : 0) + wide.profile[i];
