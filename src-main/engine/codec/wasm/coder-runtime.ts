@@ -5,6 +5,7 @@
  * returns null and the caller runs the TypeScript coder, which gives the same bytes and the same planes.
  */
 import { decodeBase64 } from '../../linalg/wasm/runtime';
+import { reserveBytes } from '../../metrics/wasm/loader';
 import {
   AT_BANDS,
   AT_COUNTS,
@@ -60,8 +61,6 @@ export interface CoderSetup {
 const PAGE = 65536;
 /** A memory grown past this is dropped after use, so one very large plane does not pin it for the process. */
 const KEEP_BYTES = 256 * 2 ** 20;
-/** The most memory a 32-bit WebAssembly module can address, less a page. */
-const MAX_MEMORY = 4 * 2 ** 30 - PAGE;
 
 /** undefined: not tried yet; null: WebAssembly unavailable here. */
 let module: WebAssembly.Module | null | undefined;
@@ -119,22 +118,6 @@ export function coderOn(memory: WebAssembly.Memory, setup: CoderSetup): CoderWas
   if (disabled) return null;
   const m = compiledModule();
   return m ? instantiate(m, memory, setup) : null;
-}
-
-/**
- * Make sure the port's memory has at least `bytes` bytes (this detaches earlier views of its buffer); false
- * if it cannot (past 4 GiB, or the allocation fails), and the caller runs the TypeScript coder instead.
- */
-function ensureMemory(c: CoderWasm, bytes: number): boolean {
-  const have = c.memory.buffer.byteLength;
-  if (bytes <= have) return true;
-  if (bytes > MAX_MEMORY) return false;
-  try {
-    c.memory.grow(Math.ceil((bytes - have) / PAGE));
-    return true;
-  } catch {
-    return false;
-  }
 }
 
 /** After a call: drop a memory that grew past {@link KEEP_BYTES} (the next call makes a fresh one). */
@@ -212,7 +195,7 @@ export function encodeWasm(
   const n = q.length;
   const at = planesLayout(n, table);
   // Room for about 1 bit per coefficient at first; the module grows its memory if the bytes need more.
-  if (!ensureMemory(c, at.tail + (n >> 3) + PAGE)) return null;
+  if (!reserveBytes(c, at.tail + (n >> 3) + PAGE)) return null;
   try {
     new Int32Array(c.memory.buffer, at.q, n).set(q);
     return encodeAt(c, at, n, width, table, counts, k);
@@ -234,7 +217,7 @@ export function decodeWasm(
 ): { pos: number; counts: Int32Array; k: Int32Array } | null {
   const n = q.length;
   const at = planesLayout(n, table);
-  if (!ensureMemory(c, at.tail + bytes.length)) return null;
+  if (!reserveBytes(c, at.tail + bytes.length)) return null;
   try {
     const buf = c.memory.buffer;
     new Uint8Array(buf, at.tail, bytes.length).set(bytes);
