@@ -227,13 +227,18 @@ function orderCandidate(
     return { gains, costs };
   });
   const order = greedyOrder(seqs);
+  return { delta, comps, order, ...prefixTotals(order), baseD, index, errs };
+}
+
+/** cumCost[P] and cumGain[P]: the totals of the first P blocks of a greedy order. */
+export function prefixTotals(order: Block[]): { cumCost: Float64Array; cumGain: Float64Array } {
   const cumCost = new Float64Array(order.length + 1);
   const cumGain = new Float64Array(order.length + 1);
   for (let k = 0; k < order.length; k++) {
     cumCost[k + 1] = cumCost[k] + order[k].cost;
     cumGain[k + 1] = cumGain[k] + order[k].gain;
   }
-  return { delta, comps, order, cumCost, cumGain, baseD, index, errs };
+  return { cumCost, cumGain };
 }
 
 function column(data: ArrayLike<number>, cols: number, i: number, rows: number): Float64Array {

@@ -36,11 +36,11 @@ export function codeLengths(counts: Float64Array[]): Float64Array[] {
   });
 }
 
-/** Estimated bits of one vector's entries under a table from {@link codeLengths}. */
-export function vectorBits(q: Int32Array, table: Float64Array[]): number {
+/** Estimated bits of one vector's entries (q[from] … q[from + len − 1]) under a table from {@link codeLengths}. */
+export function vectorBits(q: Int32Array, table: Float64Array[], from = 0, len = q.length): number {
   let bits = 0;
   let prev = 0;
-  for (let j = 0; j < q.length; j++) {
+  for (let j = from; j < from + len; j++) {
     const a = Math.abs(q[j]);
     bits += table[magClass(prev)][a < ESC ? a : ESC];
     if (a >= ESC) bits += 2 * Math.log2(a - ESC + 2) + 1;

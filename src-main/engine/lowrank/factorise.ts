@@ -119,23 +119,11 @@ export function factorPlane(
   const rects = tileGrid(width, height, opts.tile);
   const tiles: TileFactors[] = [];
   for (const rect of rects) {
-    const { x, y, w, h } = rect;
+    const { w, h } = rect;
     const kmax = Math.min(w, h);
     const randomized = kmax >= RANDOMIZED_MIN_SIDE && opts.maxRank !== undefined && opts.maxRank < kmax / 2;
     // The randomized path stores the plane in f32 (what its kernels read, and what `data` keeps anyway).
-    const cut = randomized ? copyF32(plane, width, x, y, w, h) : copyF64(plane, width, x, y, w, h);
-    const meanQ = opts.meanRemoval ? Math.round(cut.sum / (w * h) / opts.meanStep) : 0;
-    // A view of the caller's plane (copyF32) is copied before it is changed.
-    const a = meanQ !== 0 && cut.view ? cut.a.slice() : cut.a;
-    let energy = cut.energy;
-    if (meanQ !== 0) {
-      const mean = meanQ * opts.meanStep;
-      energy = 0;
-      for (let k = 0; k < a.length; k++) {
-        a[k] -= mean;
-        energy += a[k] * a[k];
-      }
-    }
+    const { a, meanQ, energy } = meanRemovedTile(plane, width, rect, opts, randomized);
     // Exactly rank-deficient tiles (flat paper, ruled lines, charts) need no dither: one-sided Jacobi skips
     // pairs whose smaller column is below ε·‖A‖_F (src-main/engine/linalg/jacobi-svd.ts), so it stops early.
     const mat: Matrix = { rows: h, cols: w, data: a };
@@ -154,6 +142,34 @@ export function factorPlane(
     tiles.push({ rect, meanQ, energy, data, s: svd.s, U: svd.U, V: svd.V });
   }
   return { width, height, tile: opts.tile, meanStep: opts.meanRemoval ? opts.meanStep : 0, tiles };
+}
+
+/**
+ * The tile at `rect` of the plane, less its quantised mean when `opts.meanRemoval` (meanQ mean steps, 0
+ * otherwise), in f32 or f64, with ‖·‖²_F after the removal. A view of the caller's plane is only returned
+ * unchanged (copyF32); it is copied before the mean is subtracted.
+ */
+export function meanRemovedTile(
+  plane: ArrayLike<number>,
+  width: number,
+  rect: TileRect,
+  opts: Pick<FactorOptions, 'meanRemoval' | 'meanStep'>,
+  f32: boolean,
+): { a: Float32Array | Float64Array; meanQ: number; energy: number } {
+  const { x, y, w, h } = rect;
+  const cut = f32 ? copyF32(plane, width, x, y, w, h) : copyF64(plane, width, x, y, w, h);
+  const meanQ = opts.meanRemoval ? Math.round(cut.sum / (w * h) / opts.meanStep) : 0;
+  const a = meanQ !== 0 && cut.view ? cut.a.slice() : cut.a;
+  let energy = cut.energy;
+  if (meanQ !== 0) {
+    const mean = meanQ * opts.meanStep;
+    energy = 0;
+    for (let k = 0; k < a.length; k++) {
+      a[k] -= mean;
+      energy += a[k] * a[k];
+    }
+  }
+  return { a, meanQ, energy };
 }
 
 /**

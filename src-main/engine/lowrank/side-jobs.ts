@@ -8,8 +8,7 @@ import { decodeCoefficientsV2 } from '../codec/coeff-coder';
 import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../codec/wavelet-plane';
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import { ssim, ssimRowSums } from '../metrics';
-import { factorPlane } from './factorise';
-import { estimateErrorAtBytes, type PlaneInput } from './solve';
+import { baseErrorAtBytes, type ColumnsPlane, tileColumns } from './base-estimate';
 
 export interface SideJobs {
   /** SSIM map row sums of window rows from … to − 1, from image rows from … to + 10 of both planes (../metrics). */
@@ -58,16 +57,16 @@ export interface SideJobs {
 }
 export type SideJobName = keyof SideJobs;
 
-/** Lowest estimated base error at `bytes` over the tile sides, each tiling factored on the crop. */
+/** Lowest estimated base error at `bytes` over the tile sides, each tiling factored on the crop (./base-estimate). */
 function cropBaseSse(a: SideJobs['crop-base-sse']['args']): number {
   let best = Number.POSITIVE_INFINITY;
   for (const tile of a.tiles) {
-    const inputs: PlaneInput[] = a.crop.map((p, k) => ({
-      factors: factorPlane(p, a.width, a.height, { tile, meanRemoval: true, meanStep: a.maxValue / 1020 }),
+    const planes: ColumnsPlane[] = a.crop.map((p, k) => ({
+      tiles: tileColumns(p, a.width, a.height, tile, a.maxValue / 1020),
       weight: a.weights[k],
       stepScale: a.scales[k],
     }));
-    best = Math.min(best, estimateErrorAtBytes(inputs, a.bytes, a.maxValue));
+    best = Math.min(best, baseErrorAtBytes(planes, a.bytes, a.maxValue));
   }
   return best;
 }
