@@ -1,13 +1,18 @@
-// The crop's base-layer estimate on flat arrays (engine/lowrank/base-estimate.ts) against the candidate
-// search's own estimate (engine/lowrank/solve.ts estimateErrorAtBytes): the same number, bit for bit.
+// The crop's base-layer estimate (engine/lowrank/base-estimate.ts: Gram-matrix tile SVDs, flat arrays) against
+// the candidate search's own estimate on Jacobi tile SVDs (engine/lowrank/solve.ts estimateErrorAtBytes).
 import { describe, expect, it } from 'vitest';
-import { jacobiSvd } from '../../src-main/engine/linalg';
-import { jacobiSvdColumns } from '../../src-main/engine/linalg/jacobi-svd';
 import { baseErrorAtBytes, tileColumns } from '../../src-main/engine/lowrank/base-estimate';
 import { factorPlane } from '../../src-main/engine/lowrank/factorise';
 import { estimateErrorAtBytes } from '../../src-main/engine/lowrank/solve';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { image } from '../helpers/fixtures';
+
+/**
+ * Relative agreement asked of the two estimates: they differ only by the tile SVDs' rounding (≈ 1e-12 in
+ * the components the search keeps), measured 4e-15–4e-13 on scans and test images; 1e-9 leaves room while
+ * still failing on any real change of the search (one entry quantised differently moves it by more).
+ */
+const AGREE = 1e-9;
 
 /** A centred w×h crop of a plane, as f64. */
 function crop(p: ArrayLike<number>, width: number, height: number, w: number, h: number) {
@@ -23,10 +28,10 @@ describe('baseErrorAtBytes', () => {
     ['moon.png', 64, 0.1],
     ['text.png', 32, 1],
   ])(
-    'equals estimateErrorAtBytes on %s (tiles of %i, %f bpp)',
+    'agrees with estimateErrorAtBytes on %s (tiles of %i, %f bpp)',
     async (name, tile, bpp) => {
       const img = await decodeImage(image(name));
-      // 200×150: edge tiles are partial, and some tall enough (m > 2n) for the QR-first path of the Jacobi SVD.
+      // 200×150: edge tiles are partial, some of them wide and some tall (m > 2n: QR first in the Jacobi SVD).
       const [w, h] = [200, 150];
       const plane = crop(img.planes[0], img.width, img.height, w, h);
       const bytes = (bpp * w * h) / 8;
@@ -35,7 +40,7 @@ describe('baseErrorAtBytes', () => {
       const tiles = tileColumns(plane, w, h, tile, 255 / 1020);
       const got = baseErrorAtBytes([{ tiles, weight: 1, stepScale: 1 }], bytes, 255);
       expect(want).toBeGreaterThan(0);
-      expect(got).toBe(want);
+      expect(Math.abs(got - want)).toBeLessThanOrEqual(AGREE * want);
     },
     60_000,
   );
@@ -68,48 +73,7 @@ describe('baseErrorAtBytes', () => {
       300,
       255,
     );
-    expect(got).toBe(want);
-  });
-});
-
-describe('jacobiSvdColumns', () => {
-  it("gives jacobiSvd's σ and non-negligible columns bit for bit, and zero columns for negligible σ", () => {
-    // 9×4 (tall: QR first) of rank 2, and its 4×9 transpose: column 2 repeats column 0 and column 3 is zero.
-    const rows = 9;
-    const cols = 4;
-    const a = new Float64Array(rows * cols);
-    for (let i = 0; i < rows; i++) {
-      a[i * cols] = i + 1;
-      a[i * cols + 1] = Math.cos(i);
-      a[i * cols + 2] = i + 1;
-    }
-    const at = new Float64Array(rows * cols);
-    for (let i = 0; i < rows; i++) for (let j = 0; j < cols; j++) at[j * rows + i] = a[i * cols + j];
-    for (const [m, n, data] of [
-      [rows, cols, a],
-      [cols, rows, at],
-    ] as const) {
-      const full = jacobiSvd({ rows: m, cols: n, data });
-      const c = jacobiSvdColumns({ rows: m, cols: n, data });
-      expect(c.s).toEqual(full.s);
-      const r = full.s.length;
-      const col = (x: Float64Array, len: number, k: number) => Array.from(x.subarray(k * len, k * len + len));
-      const fullCol = (M: Float64Array, len: number, k: number) =>
-        Array.from({ length: len }, (_, i) => M[i * r + k]);
-      let zeroed = 0;
-      for (let k = 0; k < r; k++)
-        for (const [x, X, len] of [
-          [c.u, full.U.data, m],
-          [c.v, full.V.data, n],
-        ] as const) {
-          if (col(x, len, k).every((e) => e === 0)) {
-            // Left out only where jacobiSvd completes: σ ≤ σ₁·ε·(rows rotated ≤ max(m, n)).
-            expect(full.s[k]).toBeLessThanOrEqual(full.s[0] * 2.220446049250313e-16 * Math.max(m, n));
-            zeroed++;
-          } else expect(col(x, len, k)).toEqual(fullCol(X as Float64Array, len, k));
-        }
-      expect(zeroed).toBeGreaterThan(0);
-      expect(full.s[1]).toBeGreaterThan(1);
-    }
+    expect(want).toBeGreaterThan(0);
+    expect(Math.abs(got - want)).toBeLessThanOrEqual(AGREE * want);
   });
 });

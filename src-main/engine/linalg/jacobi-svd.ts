@@ -45,26 +45,6 @@ export function jacobiSingularValues(a: Matrix): Float64Array {
   return withWorkspace(a, false).s;
 }
 
-/**
- * The singular triplets whose σ is not negligible, as contiguous columns: column k of U is u[k·m … k·m + m),
- * of V v[k·n … k·n + n) (A is m×n, r = min(m, n) columns each). Every σ, and every column of U and V whose
- * σ exceeds σ₁·ε·rows (rows rotated: the short side after the QR of a tall input, else the long side),
- * equals `jacobiSvd`'s bit for bit (same sweeps, same scaling); the columns of negligible σ that jacobiSvd
- * completes to an orthonormal basis are left zero, which saves a QR for rank-deficient inputs. For callers that read U and V column by column (the base-layer estimate of
- * src-main/engine/lowrank/base-estimate.ts).
- */
-export function jacobiSvdColumns(a: Matrix): SvdColumns {
-  return withWorkspace(a, true, true) as SvdColumns;
-}
-
-export interface SvdColumns {
-  s: Float64Array;
-  /** r columns of m entries each. */
-  u: Float64Array;
-  /** r columns of n entries each. */
-  v: Float64Array;
-}
-
 /** Workspace bytes `jacobiSvdIn` needs for an m×n input. */
 export function jacobiBytes(m: number, n: number): number {
   const r = Math.min(m, n);
@@ -72,10 +52,10 @@ export function jacobiBytes(m: number, n: number): number {
   return bytesFor(0, r * rows + r * r + 2 * r);
 }
 
-function withWorkspace(a: Matrix, vectors: boolean, columns = false) {
+function withWorkspace(a: Matrix, vectors: boolean) {
   const ws = defaultBackend().workspace(jacobiBytes(a.rows, a.cols));
   try {
-    return jacobi(a, vectors, ws, columns);
+    return jacobi(a, vectors, ws);
   } finally {
     ws.release();
   }
@@ -86,12 +66,10 @@ export function jacobiSvdIn(a: Matrix, ws: Workspace): SvdResult {
   return jacobi(a, true, ws) as SvdResult;
 }
 
-type JacobiOut = { s: Float64Array; U?: Matrix; V?: Matrix; u?: Float64Array; v?: Float64Array };
-
-function jacobi(a: Matrix, vectors: boolean, ws?: Workspace, columns = false): JacobiOut {
+function jacobi(a: Matrix, vectors: boolean, ws?: Workspace): { s: Float64Array; U?: Matrix; V?: Matrix } {
   if (a.rows < a.cols) {
-    const t = jacobi(transpose(a), vectors, ws, columns);
-    return { s: t.s, U: t.V, V: t.U, u: t.v, v: t.u };
+    const t = jacobi(transpose(a), vectors, ws);
+    return { s: t.s, U: t.V, V: t.U };
   }
   const m = a.rows;
   const n = a.cols;
@@ -100,8 +78,6 @@ function jacobi(a: Matrix, vectors: boolean, ws?: Workspace, columns = false): J
       s: new Float64Array(0),
       U: { rows: m, cols: 0, data: new Float64Array(0) },
       V: { rows: 0, cols: 0, data: new Float64Array(0) },
-      u: new Float64Array(0),
-      v: new Float64Array(0),
     };
   let Q: Float64Array | null = null;
   let src: ArrayLike<number> = a.data;
@@ -182,30 +158,26 @@ function jacobi(a: Matrix, vectors: boolean, ws?: Workspace, columns = false): J
   const sigmaMax = s[0] ?? 0;
   /** Columns with σ below this are treated as zero and replaced by an orthonormal completion. */
   const tiny = sigmaMax * EPS * rows;
-  // Row-major U and V (element (i, k) at i·n + k), or contiguous columns (at k·rows + i, k·n + i).
-  const [ui, uk, vi, vk] = columns ? [1, rows, 1, n] : [n, 1, n, 1];
   let Ur = new Float64Array(rows * n);
   const Vout = new Float64Array(n * n);
   for (let k = 0; k < n; k++) {
     const j = order[k];
     const inv = norms[j] > tiny && norms[j] > 0 ? 1 / norms[j] : 0;
-    for (let i = 0; i < rows; i++) Ur[i * ui + k * uk] = W[j * rows + i] * inv;
-    for (let i = 0; i < n; i++) Vout[i * vi + k * vk] = Vt[j * n + i];
+    for (let i = 0; i < rows; i++) Ur[i * n + k] = W[j * rows + i] * inv;
+    for (let i = 0; i < n; i++) Vout[i * n + k] = Vt[j * n + i];
   }
-  if (!columns) completeOrthonormal(Ur, rows, n, s, tiny);
+  completeOrthonormal(Ur, rows, n, s, tiny);
   if (Q) {
-    // U = Q·U_R (m×n · n×n), each entry summed over p in the same order in either layout.
+    // U = Q·U_R (m×n · n×n).
     const U = new Float64Array(m * n);
-    const [oi, oj] = columns ? [1, m] : [n, 1];
     for (let i = 0; i < m; i++)
       for (let p = 0; p < n; p++) {
         const qv = Q[i * n + p];
         if (qv === 0) continue;
-        for (let j = 0; j < n; j++) U[i * oi + j * oj] += qv * Ur[p * ui + j * uk];
+        for (let j = 0; j < n; j++) U[i * n + j] += qv * Ur[p * n + j];
       }
     Ur = U;
   }
-  if (columns) return { s, u: Ur, v: Vout };
   return { s, U: { rows: m, cols: n, data: Ur }, V: { rows: n, cols: n, data: Vout } };
 }
 

@@ -2,19 +2,21 @@
  * The low-rank base's estimated weighted squared error at a byte count, for ./residual-first's decision on a
  * centred crop: is a base worth factoring at all?
  *
- * The figure is ./solve estimateErrorAtBytes's, bit for bit: the same step grid and hill climb, and at each
- * step every component quantised without refit (../codec/quantise quantiseVector and componentError), its
- * bits from the cost model (./cost-model) at ratio 1, and the greedy order of ./allocate. Only the data
- * layout differs: each tile's U and V columns are contiguous (../linalg jacobiSvdColumns, no orthonormal
- * completion of negligible columns, which this search never reads), and every quantised vector of a step
- * goes into one reused buffer instead of an object per component. test/lowrank/base-estimate.test.ts checks
- * the equality. User CPU of the whole crop job on the 512² crop of an 8.25-MP grey scan at 0.25 bpp (tiles
- * 32 and 64, each run a fresh process, load 16): 867–1023 ms through factorPlane and estimateErrorAtBytes,
- * 451–546 ms here.
+ * The estimate is ./solve estimateErrorAtBytes's: the same step grid and hill climb, and at each step every
+ * component quantised without refit (../codec/quantise quantiseVector and componentError, the same
+ * operations), its bits from the cost model (./cost-model) at ratio 1, and the greedy order of ./allocate.
+ * Two things differ, for speed (issue 12: the decision runs on a second thread while the whole plane is
+ * transformed, and should finish first):
+ * - each tile's SVD comes from its Gram matrix (../linalg/gram-svd), not one-sided Jacobi, with U and V
+ *   columns contiguous: σ and the vectors of every component the search can keep (σ ≥ 0.7 of the finest
+ *   step, far above ε·σ₁) agree with Jacobi's to about 1e-12, and the estimate with estimateErrorAtBytes's
+ *   to 1e-13–4e-13 relative on 17 scans and test images at 0.1–1 bpp and two PSNR floors (none changed the
+ *   decision; test/lowrank/base-estimate.test.ts checks ≤ 1e-9);
+ * - every quantised vector of a step goes into one reused buffer instead of an object per component.
  */
 import { DEAD_ZONE } from '../codec/quantise';
 import { tileGrid } from '../codec/quantised';
-import { jacobiSvdColumns } from '../linalg/jacobi-svd';
+import { gramSvdColumns } from '../linalg/gram-svd';
 import { type GainCost, greedyOrder } from './allocate';
 import { prefixForBytes, prefixTotals } from './candidate';
 import { codeLengths, countVector, newCounts, vectorBits } from './cost-model';
@@ -53,7 +55,7 @@ export function tileColumns(
     const { a, energy } = meanRemovedTile(plane, width, rect, { meanRemoval: true, meanStep }, false);
     if (energy === 0)
       return { h, w, energy, s: new Float64Array(0), u: new Float64Array(0), v: new Float64Array(0) };
-    return { h, w, energy, ...jacobiSvdColumns({ rows: h, cols: w, data: a }) };
+    return { h, w, energy, ...gramSvdColumns({ rows: h, cols: w, data: a }) };
   });
 }
 
