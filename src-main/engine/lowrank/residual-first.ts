@@ -163,7 +163,7 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   const cw = Math.min(width, CROP_SIDE);
   const ch = Math.min(height, CROP_SIDE);
   const crop = cropPlanes(planes, width, height, cw, ch);
-  const cropAnalysed = crop.map((p) => analysePlane(p, cw, ch));
+  const analyseCrop = () => crop.map((p) => analysePlane(p, cw, ch));
   const scales = stepScales(weights);
   const startBase = (bytes: number) =>
     (inp.side ?? runHere)('crop-base-sse', {
@@ -182,9 +182,10 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   let ratio = 0.8;
   if (byteBudget !== undefined) {
     cropBytes = (byteBudget * cw * ch) / (width * height);
-    // The bytes are known at once: the base estimate starts first (on the side thread, when there is one).
+    // The bytes are known at once: the base estimate starts first (on the side thread, when there is one),
+    // before even the crop's transform.
     baseJob = startBase(cropBytes);
-    const { fit, ratio: r } = fitResidual(cropAnalysed, weights, scales, cropBytes, ratio, cancel);
+    const { fit, ratio: r } = fitResidual(analyseCrop(), weights, scales, cropBytes, ratio, cancel);
     if (!fit) {
       baseJob();
       return undefined;
@@ -195,6 +196,7 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
     const db = (budget as { db: number }).db;
     const target = floorSse(db, cw * ch * nc, maxValue) * FLOOR_AIM;
     if (!(target > 0)) return undefined;
+    const cropAnalysed = analyseCrop();
     const c = codeAll(cropAnalysed, weights, stepForError(cropAnalysed, weights, target));
     cropBytes = c.size;
     waveletSse = c.sse;
