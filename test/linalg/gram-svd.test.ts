@@ -1,6 +1,6 @@
 // The Gram-matrix SVD (engine/linalg/gram-svd.ts) against the one-sided Jacobi SVD, and its own properties.
 import { describe, expect, it } from 'vitest';
-import { jacobiSvd, Rng } from '../../src-main/engine/linalg';
+import { initEngine, jacobiSvd, Rng, setWasmDisabled } from '../../src-main/engine/linalg';
 import { gramSvdColumns } from '../../src-main/engine/linalg/gram-svd';
 
 const EPS = 2.220446049250313e-16;
@@ -82,6 +82,29 @@ describe('gramSvdColumns', () => {
       expect(s[i]).toBeLessThan(1e-12 * s[0]);
       const col = u.subarray(i * 6, i * 6 + 6);
       if (s[i] === 0) expect(Array.from(col).every((x) => x === 0)).toBe(true);
+    }
+  });
+
+  it('gives the same triplets to rounding without WebAssembly (TypeScript eigen-solver and products)', async () => {
+    await initEngine();
+    const data = graded(48, 40, 0.05, 7);
+    const fast = gramSvdColumns({ rows: 48, cols: 40, data });
+    setWasmDisabled(true);
+    try {
+      const slow = gramSvdColumns({ rows: 48, cols: 40, data });
+      for (let i = 0; i < 40; i++) {
+        expect(Math.abs(slow.s[i] - fast.s[i])).toBeLessThanOrEqual(
+          (4 * 40 * EPS * fast.s[0] ** 2) / fast.s[i],
+        );
+        // Same vector up to sign, where σ is well separated from rounding (the first ten here).
+        if (i < 10) {
+          let d = 0;
+          for (let c = 0; c < 40; c++) d += slow.v[i * 40 + c] * fast.v[i * 40 + c];
+          expect(Math.abs(Math.abs(d) - 1)).toBeLessThan(1e-9);
+        }
+      }
+    } finally {
+      setWasmDisabled(false);
     }
   });
 });
