@@ -44,6 +44,8 @@ const MAD_EFFICIENCY = 1.36;
 export const MAD_SPREAD = 4 * MAD_EFFICIENCY;
 /** Points more than this many standard errors above the fit are dropped, one at a time (chosen here). */
 const OUTLIER_SE = 3;
+/** A negative b within this many standard errors of 0 is taken as 0 (two-sided 95 %, common practice). */
+const NEGATIVE_B_SE = 2;
 /** Fisher-scoring iterations (the likelihood is smooth; 8 steps change a by < 1e-9 on the bench images). */
 const SCORING_STEPS = 8;
 
@@ -75,13 +77,29 @@ export function fitLevelsTrimmed(points: NoiseLevelPoint[], spread = MAD_SPREAD)
   }
 }
 
-/** The maximum-likelihood (a, b) over the used points; a ≥ 0 (a negative slope is noise of the fit). */
+/**
+ * The maximum-likelihood (a, b) over the used points; a ≥ 0 (a negative slope is noise of the fit), and b ≥ 0
+ * unless the points put b below 0 by more than NEGATIVE_B_SE standard errors (a black-level offset can do that).
+ */
 function fitLevels(points: NoiseLevelPoint[], c: number): LevelFit {
   const used = points.filter((p) => p.used);
   let f = irls(used, c);
-  if (f.a > 0) f = scoring(used, f, true, c);
-  if (!(f.a > 0)) f = scoring(used, { a: 0, b: f.b }, false, c);
-  return withCovariance(used, f, f.a > 0, c);
+  if (f.a > 0) f = scoring(used, f, 'both', c);
+  if (!(f.a > 0)) f = scoring(used, { a: 0, b: f.b }, 'b', c);
+  const fit = withCovariance(used, f, f.a > 0, c);
+  if (!(fit.a > 0 && fit.b < 0 && fit.b > -NEGATIVE_B_SE * fit.seB)) return fit;
+  // b below 0 but within NEGATIVE_B_SE standard errors of it: the data cannot tell b from 0, and a negative
+  // variance at the dark end is not what a scan has; fit a with b = 0 (the line through the origin, the
+  // boundary of b ≥ 0). The standard errors stay those of the free fit: they say how little b is pinned.
+  if (used.some((p) => !(p.level > 0))) return fit;
+  let n = 0;
+  let d = 0;
+  for (const p of used) {
+    n += p.count * p.sigma * p.sigma;
+    d += p.count * p.level;
+  }
+  const g = scoring(used, { a: n / d, b: 0 }, 'a', c);
+  return g.a > 0 ? { a: g.a, b: 0, seA: fit.seA, seB: fit.seB, covAB: 0 } : fit;
 }
 
 /** Iteratively reweighted least squares, weights n/(c·v²) from the current model (first pass: n). */
@@ -114,16 +132,21 @@ function irls(used: NoiseLevelPoint[], c: number): { a: number; b: number } {
 }
 
 /**
- * Fisher scoring of the full likelihood −log L = Σ n(y − v)²/(2c·v²) + log v (both a and b when `slope`,
- * else b alone with a fixed). A step that makes some v ≤ 0 or does not lower −log L is halved.
+ * Fisher scoring of the full likelihood −log L = Σ n(y − v)²/(2c·v²) + log v over the `free` parameters
+ * (both, or one with the other held). A step that makes some v ≤ 0 or does not lower −log L is halved.
  */
-function scoring(used: NoiseLevelPoint[], start: { a: number; b: number }, slope: boolean, c: number) {
+function scoring(
+  used: NoiseLevelPoint[],
+  start: { a: number; b: number },
+  free: 'both' | 'a' | 'b',
+  c: number,
+) {
   let f = { ...start };
   for (let it = 0; it < SCORING_STEPS; it++) {
     const { ga, gb, iaa, iab, ibb } = sums(used, f, c);
-    let da = 0;
-    let db = gb / ibb;
-    if (slope) {
+    let da = free === 'a' ? ga / iaa : 0;
+    let db = free === 'b' ? gb / ibb : 0;
+    if (free === 'both') {
       const det = iaa * ibb - iab * iab;
       if (!(det > 0)) break;
       da = (ibb * ga - iab * gb) / det;
@@ -135,7 +158,12 @@ function scoring(used: NoiseLevelPoint[], start: { a: number; b: number }, slope
     while (step > 1e-3 && !(negLogLikelihood(used, at(step), c) <= before)) step /= 2;
     if (step <= 1e-3) break;
     f = at(step);
-    if (Math.abs(step * db) < 1e-10 * (1 + Math.abs(f.b))) break;
+    if (
+      free === 'a'
+        ? Math.abs(step * da) < 1e-12 * (1 + f.a)
+        : Math.abs(step * db) < 1e-10 * (1 + Math.abs(f.b))
+    )
+      break;
   }
   return f;
 }
