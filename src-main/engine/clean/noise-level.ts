@@ -74,7 +74,11 @@ const ROUNDING_VARIANCE = 1 / 12;
 const CLIP_GUARD = 3;
 /** χ²₈ 90 % quantile (scipy 1.10.1 stats.chi2.ppf(0.9, 8) = 13.3616): the flatness test keeps 90 % of pure-noise blocks. */
 const FLAT_QUANTILE = 13.3616;
-/** Rounds of the flatness test and refit (chosen here; the fits on the benchmark's images move < 2 % after the 3rd). */
+/**
+ * Rounds of the flatness test and refit (chosen here). The selection is a threshold, so the fit need not settle
+ * exactly: from the 3rd to the 4th round a moved by at most 0.6 and b by at most 1.2 of their standard errors
+ * on the 15 benchmark and 30 unseen cases of the h9 measurement.
+ */
 const FLAT_STEPS = 4;
 /** Flat blocks per level set, at least (a trimmed σ̂² of 200 values has a relative error of about 11 %). */
 const MIN_FLAT_PER_LEVEL = 200;
