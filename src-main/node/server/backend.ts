@@ -36,6 +36,7 @@ import { cleanJob, evaluateJob, type ScanJobHost, saveJob } from './scan-jobs';
 import { SessionWorker } from './session-worker';
 import { openStackFrame, type StackSession } from './stack-bridge';
 import { originalFrame } from './stack-originals';
+import { trace, tracing } from './trace';
 
 const SCAN_EXT = new Set(SCAN_EXTENSIONS);
 
@@ -98,7 +99,15 @@ export class Backend extends EventEmitter {
 
   /** Dispatch one request already validated by {@link validateRequest}. */
   call(method: ApiMethod, payload: unknown): Promise<unknown> {
-    return dispatch(this.handlers, method, payload);
+    if (!tracing) return dispatch(this.handlers, method, payload);
+    const t0 = performance.now();
+    const job = (payload as { job?: string } | undefined)?.job ?? '';
+    trace(`call ${method} ${job} start`);
+    const done = (how: string) => () =>
+      trace(`call ${method} ${job} ${how} ${(performance.now() - t0).toFixed(0)} ms`);
+    const p = dispatch(this.handlers, method, payload);
+    p.then(done('done'), done('failed'));
+    return p;
   }
 
   private progress(e: ProgressEvent) {

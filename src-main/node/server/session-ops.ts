@@ -6,6 +6,7 @@ import { type DecodedImage, RankfoldError, type ScanSummary } from '../../contra
 import { decodeImage } from '../image/decode';
 import { factorScan, type ProgressFn, readyEngine } from './factor';
 import { sessionServices } from './services-bridge';
+import { trace, tracing } from './trace';
 
 export type SessionOp = 'open' | 'factors' | 'evaluate' | 'clean' | 'save';
 
@@ -15,6 +16,27 @@ export interface OpResult {
 }
 
 export async function runSessionOp(
+  state: { image?: DecodedImage },
+  op: SessionOp,
+  args: Record<string, unknown>,
+  progress: ProgressFn,
+): Promise<OpResult> {
+  if (!tracing) return runOp(state, op, args, progress);
+  const t0 = performance.now();
+  const ms = () => `${(performance.now() - t0).toFixed(0)} ms`;
+  let stage = '';
+  trace(`op ${op} start`);
+  const traced: ProgressFn = (done, total, s) => {
+    if (s !== stage) trace(`op ${op} stage ${s} at ${ms()}`);
+    stage = s;
+    progress(done, total, s);
+  };
+  const r = await runOp(state, op, args, traced);
+  trace(`op ${op} done ${ms()}`);
+  return r;
+}
+
+async function runOp(
   state: { image?: DecodedImage },
   op: SessionOp,
   args: Record<string, unknown>,

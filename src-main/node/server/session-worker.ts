@@ -7,6 +7,7 @@
 import { join } from 'node:path';
 import { Worker } from 'node:worker_threads';
 import { CancelledError, type ErrorPayload, fromErrorPayload, type ScanSummary } from '../../contract';
+import { trace } from './trace';
 
 export interface SessionProgress {
   done: number;
@@ -58,6 +59,7 @@ export class SessionWorker {
       this.spare ??
       this.spareSource?.() ??
       new Worker(join(this.workersDir, 'scan-session.js'), { workerData: { background: this.background } });
+    trace(`session thread t${w.threadId} for ${this.background ? 'background' : 'foreground'} jobs`);
     this.spare = undefined;
     w.on(
       'message',
@@ -157,6 +159,7 @@ export class SessionWorker {
     const hit = [...this.pending.values()].some((p) => p.job === job);
     if (hit && this.worker) {
       const w = this.worker;
+      trace(`cancel ${job}: thread t${w.threadId} stopped`);
       this.worker = undefined;
       this.opened = undefined;
       this.failAll(new CancelledError('the job'));
