@@ -214,7 +214,6 @@ export class Backend extends EventEmitter {
         this.scans.delete(id);
       }
       const factorLane = new SessionWorker(this.options.workersDir, file, req.page, true)
-        .adopt(this.spares.takeBackground())
         .share(session.image)
         .settled(() => this.spares.later());
       this.scans.set(scanId, { file, summary, session, factorLane });

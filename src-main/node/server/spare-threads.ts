@@ -5,10 +5,11 @@
  * `process.cpuUsage` on this project's 2-core machine, 4 Dec), which is why spares are started only while
  * the back end has nothing else to do: never beside the job a user is waiting for.
  *
- * Kept: {@link FOREGROUND_SPARES} foreground threads (one for the next scan, one to take over from a
- * cancelled job at once) and one background thread (the deeper factorisation after opening, at a low CPU
- * priority, see src-main/node/workers/scan-session.ts). Each spare is sent a `warm` job (session-ops.ts),
- * which also starts a foreground thread's side thread, so its first encode has both threads ready.
+ * Kept: {@link FOREGROUND_SPARES} threads (one for the next scan, one to take over from a cancelled job at
+ * once). Each spare is sent a `warm` job (session-ops.ts), which also starts its side thread, so its first
+ * encode has both threads ready. The background factorisation starts its own thread: it waits for a quiet
+ * moment anyway (backend.ts), and a third spare loading beside the first scan slowed the page's answer to
+ * a typed budget by 0.3 s (playwright, load 19, 4 Dec).
  */
 import { join } from 'node:path';
 import { Worker } from 'node:worker_threads';
@@ -27,7 +28,6 @@ const WARM_ID = 0;
 
 export class SpareThreads {
   private readonly foreground: Worker[] = [];
-  private background?: Worker;
   /** A spare is loading: spares start one at a time. */
   private starting = false;
   private timer?: ReturnType<typeof setTimeout>;
@@ -43,15 +43,7 @@ export class SpareThreads {
 
   /** A foreground thread, ready if one is; else one started now. Starts a replacement once all is quiet. */
   take(): Worker {
-    const w = this.foreground.shift() ?? this.start(false, false);
-    this.later();
-    return w;
-  }
-
-  /** A background thread (low CPU priority), ready if one is; else one started now. */
-  takeBackground(): Worker {
-    const w = this.background ?? this.start(true, false);
-    this.background = undefined;
+    const w = this.foreground.shift() ?? this.start(false);
     this.later();
     return w;
   }
@@ -67,16 +59,15 @@ export class SpareThreads {
   /** Start the next missing spare now, unless one is loading or the back end is busy. */
   topUp(): void {
     if (this.closed || this.failed || this.starting || this.busy()) return;
-    if (this.foreground.length < FOREGROUND_SPARES) this.foreground.push(this.start(false, true));
-    else if (!this.background) this.background = this.start(true, true);
+    if (this.foreground.length < FOREGROUND_SPARES) this.foreground.push(this.start(true));
   }
 
-  private start(background: boolean, spare: boolean): Worker {
-    const w = new Worker(join(this.workersDir, 'scan-session.js'), { workerData: { background } });
+  private start(spare: boolean): Worker {
+    const w = new Worker(join(this.workersDir, 'scan-session.js'));
     // A missing build shows up on the first real request, with the session's own error handling.
     w.on('error', () => undefined);
     if (!spare) return w;
-    trace(`spare thread t${w.threadId} (${background ? 'background' : 'foreground'}) starting`);
+    trace(`spare thread t${w.threadId} starting`);
     this.starting = true;
     const done = () => {
       w.off('message', onMessage);
@@ -100,16 +91,14 @@ export class SpareThreads {
     // Taken and stopped (a cancel) before it was ready: the next quiet moment starts another.
     w.on('exit', done);
     w.on('error', onError);
-    w.postMessage({ id: WARM_ID, op: 'warm', args: { side: !background } });
+    w.postMessage({ id: WARM_ID, op: 'warm', args: { side: true } });
     return w;
   }
 
   async close(): Promise<void> {
     this.closed = true;
     if (this.timer) clearTimeout(this.timer);
-    const all = [...this.foreground, ...(this.background ? [this.background] : [])];
-    this.foreground.length = 0;
-    this.background = undefined;
+    const all = this.foreground.splice(0);
     await Promise.all(all.map((w) => w.terminate()));
   }
 }
