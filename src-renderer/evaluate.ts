@@ -22,6 +22,8 @@ export interface Evaluator {
   schedule(): void;
   /** Evaluate now (superseding the evaluation running, if any). */
   now(): Promise<void>;
+  /** Resolves once no evaluation is scheduled or running (at once if none is). */
+  idle(): Promise<void>;
 }
 
 export function createEvaluator(
@@ -34,10 +36,21 @@ export function createEvaluator(
 ): Evaluator {
   const stage = bind(document, { stage: '#stage' }).stage;
   let timer: ReturnType<typeof setTimeout> | undefined;
+  let running = 0;
+  let waiting: (() => void)[] = [];
+  const wake = () => {
+    if (timer || running) return;
+    const w = waiting;
+    waiting = [];
+    for (const f of w) f();
+  };
 
   const schedule = () => {
     if (timer) clearTimeout(timer);
-    timer = setTimeout(() => void now(), SETTLE_MS);
+    timer = setTimeout(() => {
+      timer = undefined;
+      void now();
+    }, SETTLE_MS);
   };
 
   const now = async () => {
@@ -48,6 +61,7 @@ export function createEvaluator(
     const job = newJob();
     const search = budget.kind !== 'rank';
     bar.busy(job, evaluateLabel(budget, state.tiled ? state.tile : 0), search ? 'search' : 'evaluate');
+    running++;
     try {
       const r = await api.evaluate({ scanId: s.scanId, budget, tile: state.tiled ? state.tile : 0, job });
       if (seq !== state.evalSeq || JSON.stringify(budget) !== JSON.stringify(state.budget)) return;
@@ -83,8 +97,16 @@ export function createEvaluator(
     } finally {
       // A superseded run leaves the bar to the run that replaced it.
       if (seq === state.evalSeq) bar.busy(undefined);
+      running--;
+      wake();
     }
   };
 
-  return { schedule, now };
+  const idle = () =>
+    new Promise<void>((resolve) => {
+      waiting.push(resolve);
+      wake();
+    });
+
+  return { schedule, now, idle };
 }

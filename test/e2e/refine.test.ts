@@ -2,8 +2,8 @@
  * The background factorisation may land after the encoder's exact figures (a loaded machine, a large
  * scan). A deeper spectrum changes nothing about the file those figures describe, so they must stay exact:
  * CI at load 19 once showed the "38 dB" figures turned back into estimates when the refinement arrived
- * after the encode (4 Dec). The refinement is held here until the exact figures are on show, so the order
- * is the same on every machine.
+ * after the encode (4 Dec). The page asks for the refinement only once the encoder's figures are in; the
+ * request is also held here until the exact figures are on show, so the order is the same on every machine.
  */
 import type { Page } from 'playwright-core';
 import { beforeAll, describe, expect, it } from 'vitest';
@@ -48,7 +48,9 @@ describe('a refinement that lands after the exact figures', () => {
       undefined,
       { timeout: 60_000 },
     );
-    expect(heldCalls).toBe(1);
+    // The page asks for the refinement once the encoder's figures are in (src-renderer/open.ts), so the
+    // request may reach the route a moment after the figures turned exact.
+    await expect.poll(() => heldCalls, { timeout: 10_000 }).toBe(1);
     const before = await figureCells(page);
     expect(before.find((c) => c.metric === 'psnr')?.exact).toBe('true');
     release();

@@ -8,7 +8,6 @@ import { EventEmitter } from 'node:events';
 import { mkdtemp, readdir, realpath, rm, stat, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { basename, extname, join, resolve } from 'node:path';
-import { Worker } from 'node:worker_threads';
 import {
   type ApiMethod,
   type BatchRequest,
@@ -34,8 +33,10 @@ import { AccessPolicy } from './access';
 import { runBatchJob } from './batch-bridge';
 import { cleanJob, evaluateJob, type ScanJobHost, saveJob } from './scan-jobs';
 import { SessionWorker } from './session-worker';
+import { SpareThreads } from './spare-threads';
 import { openStackFrame, type StackSession } from './stack-bridge';
 import { originalFrame } from './stack-originals';
+import { trace, tracing } from './trace';
 
 const SCAN_EXT = new Set(SCAN_EXTENSIONS);
 
@@ -51,6 +52,14 @@ export interface BackendOptions {
 }
 
 const newId = () => randomBytes(9).toString('base64url');
+
+/**
+ * Quiet time the scan's foreground jobs must leave before the deeper factorisation starts: the page asks
+ * for its opening evaluation 120 ms after the first factors (src-renderer/evaluate.ts), and a typed budget
+ * soon after; on 2 cores the refinement beside them made the 38-dB figures of a 3-MP page 1.5–2× slower
+ * (RANKFOLD_TRACE=1, 4 Dec).
+ */
+const REFINE_QUIET_MS = 300;
 
 export class Backend extends EventEmitter {
   /** Per scan: one worker for encode/clean/save and one for factorisations, so a long background
@@ -72,9 +81,19 @@ export class Backend extends EventEmitter {
   constructor(readonly options: BackendOptions) {
     super();
     this.access = new AccessPolicy(options.samplesDir);
-    setImmediate(() => {
-      if (!this.closed && !this.spare) this.spare = this.newThread();
-    }).unref();
+    this.spares = new SpareThreads(options.workersDir, () => this.busy());
+    setImmediate(() => this.spares.topUp()).unref();
+  }
+
+  private readonly spares: SpareThreads;
+  /** Scans being decoded by openScan. */
+  private opening = 0;
+
+  /** A job is running or waiting in some scan's threads, or a batch is running. */
+  private busy(): boolean {
+    if (this.batches.size > 0 || this.opening > 0) return true;
+    for (const s of this.scans.values()) if (s.session.busy || s.factorLane.busy) return true;
+    return false;
   }
 
   /** One handler per method of the contract's table (src-main/contract/methods.ts). */
@@ -98,7 +117,15 @@ export class Backend extends EventEmitter {
 
   /** Dispatch one request already validated by {@link validateRequest}. */
   call(method: ApiMethod, payload: unknown): Promise<unknown> {
-    return dispatch(this.handlers, method, payload);
+    if (!tracing) return dispatch(this.handlers, method, payload);
+    const t0 = performance.now();
+    const job = (payload as { job?: string } | undefined)?.job ?? '';
+    trace(`call ${method} ${job} start`);
+    const done = (how: string) => () =>
+      trace(`call ${method} ${job} ${how} ${(performance.now() - t0).toFixed(0)} ms`);
+    const p = dispatch(this.handlers, method, payload);
+    p.then(done('done'), done('failed'));
+    return p;
   }
 
   private progress(e: ProgressEvent) {
@@ -171,9 +198,11 @@ export class Backend extends EventEmitter {
     // A new scan takes the cores: stop the previous scan's background refinement first.
     for (const s of this.scans.values()) void s.factorLane.close();
     const session = new SessionWorker(this.options.workersDir, file, req.page)
-      .adopt(this.takeSpare())
-      .spares(() => this.takeSpare());
+      .adopt(this.spares.take())
+      .spares(() => this.spares.take())
+      .settled(() => this.spares.later());
     const scanId = newId();
+    this.opening++;
     try {
       const fig = await session.open((p) => this.progress({ job: `open-${scanId}`, ...p }));
       const name = req.source.kind === 'sample' ? req.source.name : basename(file);
@@ -184,32 +213,19 @@ export class Backend extends EventEmitter {
         void s.factorLane.close();
         this.scans.delete(id);
       }
-      const factorLane = new SessionWorker(this.options.workersDir, file, req.page, true);
+      const factorLane = new SessionWorker(this.options.workersDir, file, req.page, true)
+        .share(session.image)
+        .settled(() => this.spares.later());
       this.scans.set(scanId, { file, summary, session, factorLane });
       if (req.source.kind === 'path') this.addRecent(file);
       return summary;
     } catch (err) {
       void session.close();
       throw err;
+    } finally {
+      this.opening--;
+      this.spares.later();
     }
-  }
-
-  private spare?: Worker;
-  /** A scan-session thread started ahead of time, so opening a scan does not wait for a thread to load. */
-  private takeSpare(): Worker {
-    const w = this.spare ?? this.newThread();
-    this.spare = undefined;
-    setTimeout(() => {
-      if (!this.closed && !this.spare) this.spare = this.newThread();
-    }, 2000).unref();
-    return w;
-  }
-
-  private newThread(): Worker {
-    const w = new Worker(join(this.options.workersDir, 'scan-session.js'));
-    // A missing build shows up on the first real request, with the session's own error handling.
-    w.on('error', () => undefined);
-    return w;
   }
 
   private addRecent(file: string) {
@@ -243,6 +259,7 @@ export class Backend extends EventEmitter {
       { maxRank: req.maxRank, powerIters },
       req.job,
       this.onJob(req.job),
+      req.background ? () => quiet(s.session) : undefined,
     );
   }
 
@@ -347,15 +364,19 @@ export class Backend extends EventEmitter {
     }
   }
 
-  private closed = false;
-
   async close(): Promise<void> {
-    this.closed = true;
-    if (this.spare) await this.spare.terminate();
-    this.spare = undefined;
+    await this.spares.close();
     for (const b of this.batches.values()) b.abort();
     await Promise.all([...this.scans.values()].flatMap((s) => [s.session.close(), s.factorLane.close()]));
     this.scans.clear();
     if (this.uploadDir) await rm(this.uploadDir, { recursive: true, force: true });
   }
+}
+
+/** Resolves once `session` has had no job for {@link REFINE_QUIET_MS}. */
+async function quiet(session: SessionWorker): Promise<void> {
+  do {
+    await session.whenIdle();
+    await new Promise((r) => setTimeout(r, REFINE_QUIET_MS));
+  } while (session.busy);
 }

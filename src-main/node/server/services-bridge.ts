@@ -33,15 +33,19 @@ type Progress = ProgressFn;
 let side: SideThread | undefined;
 let sideTried = false;
 
+/** Start the session's side thread, if it is not started yet (a spare thread does this while it waits). */
+export function startSideThread(): void {
+  if (sideTried) return;
+  sideTried = true;
+  side = SideThread.start();
+}
+
 /**
  * Progress, and the second thread `rankfold compress` uses by default (`--workers 2`: the crop's base estimate
  * and half the report's SSIM run beside the main work; the file is the same bit for bit without it).
  */
 function hooks(progress: Progress) {
-  if (!sideTried) {
-    sideTried = true;
-    side = SideThread.start();
-  }
+  startSideThread();
   return {
     onProgress: (p: { stage: string; fraction: number }) =>
       progress(Math.round(p.fraction * 100), 100, p.stage),

@@ -5,9 +5,10 @@
 import { type DecodedImage, RankfoldError, type ScanSummary } from '../../contract';
 import { decodeImage } from '../image/decode';
 import { factorScan, type ProgressFn, readyEngine } from './factor';
-import { sessionServices } from './services-bridge';
+import { sessionServices, startSideThread } from './services-bridge';
+import { trace, tracing } from './trace';
 
-export type SessionOp = 'open' | 'factors' | 'evaluate' | 'clean' | 'save';
+export type SessionOp = 'warm' | 'open' | 'adopt' | 'factors' | 'evaluate' | 'clean' | 'save';
 
 export interface OpResult {
   value: unknown;
@@ -20,22 +21,46 @@ export async function runSessionOp(
   args: Record<string, unknown>,
   progress: ProgressFn,
 ): Promise<OpResult> {
+  if (!tracing) return runOp(state, op, args, progress);
+  const t0 = performance.now();
+  const ms = () => `${(performance.now() - t0).toFixed(0)} ms`;
+  let stage = '';
+  trace(`op ${op} start`);
+  const traced: ProgressFn = (done, total, s) => {
+    if (s !== stage) trace(`op ${op} stage ${s} at ${ms()}`);
+    stage = s;
+    progress(done, total, s);
+  };
+  const r = await runOp(state, op, args, traced);
+  trace(`op ${op} done ${ms()}`);
+  return r;
+}
+
+async function runOp(
+  state: { image?: DecodedImage },
+  op: SessionOp,
+  args: Record<string, unknown>,
+  progress: ProgressFn,
+): Promise<OpResult> {
+  if (op === 'warm') {
+    // A spare thread (./spare-threads.ts): the engine ready and, for foreground work, the side thread started.
+    await readyEngine();
+    if (args.side) startSideThread();
+    return { value: undefined };
+  }
   if (op === 'open') {
     progress(0, 1, 'decoding');
-    const image = await decodeImage(args.file as string, { page: args.page as number | undefined });
+    const image = sharedImage(
+      await decodeImage(args.file as string, { page: args.page as number | undefined }),
+    );
     state.image = image;
-    const summary: Omit<ScanSummary, 'scanId' | 'name'> = {
-      width: image.width,
-      height: image.height,
-      channels: image.channels,
-      bitDepth: image.bitDepth,
-      colour: image.colour,
-      inputBytes: image.inputBytes,
-      rawBytes: image.rawBytes,
-      format: image.meta.format,
-    };
     progress(1, 1, 'decoded');
-    return { value: summary };
+    // The planes live in shared memory: the session's other threads adopt them without decoding again.
+    return { value: { summary: summaryOf(image), image } };
+  }
+  if (op === 'adopt') {
+    state.image = args.image as DecodedImage;
+    return { value: summaryOf(state.image) };
   }
   const image = state.image;
   if (!image) throw new RankfoldError('No scan is open in this session; open it again.');
@@ -61,4 +86,31 @@ export async function runSessionOp(
     return { value: r, transfer: r.data ? [r.data] : [] };
   }
   throw new RankfoldError(`Unknown session job ${String(op)}`);
+}
+
+function summaryOf(image: DecodedImage): Omit<ScanSummary, 'scanId' | 'name'> {
+  return {
+    width: image.width,
+    height: image.height,
+    channels: image.channels,
+    bitDepth: image.bitDepth,
+    colour: image.colour,
+    inputBytes: image.inputBytes,
+    rawBytes: image.rawBytes,
+    format: image.meta.format,
+  };
+}
+
+/**
+ * The decoded scan with its planes moved to SharedArrayBuffers, so a replacement thread (after a cancel)
+ * and the background factorisation read the same samples without decoding the file again. No session job
+ * writes into a scan's planes (test/server/shared-planes.test.ts checks every job).
+ */
+export function sharedImage(image: DecodedImage): DecodedImage {
+  const planes = image.planes.map((p) => {
+    const s = new Float32Array(new SharedArrayBuffer(p.byteLength));
+    s.set(p);
+    return s;
+  });
+  return { ...image, planes };
 }

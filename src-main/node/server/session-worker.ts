@@ -2,11 +2,20 @@
  * Main-thread handle on one scan session's worker thread. Requests are queued one at a time; cancel
  * terminates the thread (the only way to stop synchronous number crunching promptly) and the next
  * request starts a fresh thread (a spare one when the owner supplies it) that decodes the scan again.
- * A job cancelled while still queued never starts.
+ * A job cancelled while still queued never starts. Once the scan is decoded its planes are shared
+ * (session-ops.ts `sharedImage`): a replacement thread, or another session on the same scan, adopts them
+ * instead of decoding the file again.
  */
 import { join } from 'node:path';
 import { Worker } from 'node:worker_threads';
-import { CancelledError, type ErrorPayload, fromErrorPayload, type ScanSummary } from '../../contract';
+import {
+  CancelledError,
+  type DecodedImage,
+  type ErrorPayload,
+  fromErrorPayload,
+  type ScanSummary,
+} from '../../contract';
+import { trace } from './trace';
 
 export interface SessionProgress {
   done: number;
@@ -30,6 +39,9 @@ export class SessionWorker {
   /** Jobs waiting in the chain, and those of them cancelled before they started. */
   private readonly queued = new Set<string>();
   private readonly dropped = new Set<string>();
+  /** The decoded scan, planes in shared memory, once a thread of this session (or another) decoded it. */
+  private shared?: DecodedImage;
+  private onSettled?: () => void;
 
   constructor(
     private readonly workersDir: string,
@@ -53,11 +65,34 @@ export class SessionWorker {
   }
   private spareSource?: () => Worker;
 
+  /** Adopt a scan another session decoded (its planes in shared memory), instead of decoding the file. */
+  share(image: DecodedImage | undefined): this {
+    this.shared = image;
+    return this;
+  }
+
+  /** The decoded scan once a thread decoded it (for {@link share}). */
+  get image(): DecodedImage | undefined {
+    return this.shared;
+  }
+
+  /** Called whenever a job ends (done, failed or cancelled). */
+  settled(cb: () => void): this {
+    this.onSettled = cb;
+    return this;
+  }
+
+  /** A job is waiting or running (a scan being decoded for `open` alone does not count). */
+  get busy(): boolean {
+    return this.queued.size > 0 || [...this.pending.values()].some((p) => p.job !== undefined);
+  }
+
   private spawn(): Worker {
     const w =
       this.spare ??
       this.spareSource?.() ??
       new Worker(join(this.workersDir, 'scan-session.js'), { workerData: { background: this.background } });
+    trace(`session thread t${w.threadId} for ${this.background ? 'background' : 'foreground'} jobs`);
     this.spare = undefined;
     w.on(
       'message',
@@ -112,10 +147,20 @@ export class SessionWorker {
     });
   }
 
-  /** Decode (again, after a cancel) and return the scan's figures. */
+  /** Decode, or adopt the shared planes (after a cancel), and return the scan's figures. */
   open(onProgress?: (p: SessionProgress) => void): Promise<Omit<ScanSummary, 'scanId' | 'name'>> {
     if (!this.opened || !this.worker) {
-      this.opened = this.send('open', { file: this.file, page: this.page }, onProgress);
+      const shared = this.shared;
+      this.opened = shared
+        ? this.send('adopt', { image: shared })
+        : this.send<{ summary: Omit<ScanSummary, 'scanId' | 'name'>; image: DecodedImage }>(
+            'open',
+            { file: this.file, page: this.page },
+            onProgress,
+          ).then((r) => {
+            this.shared = r.image;
+            return r.summary;
+          });
       this.opened.catch(() => {
         this.opened = undefined;
       });
@@ -129,20 +174,29 @@ export class SessionWorker {
     args: Record<string, unknown>,
     job: string,
     onProgress?: (p: SessionProgress) => void,
+    /** Awaited before the job starts (it still counts as queued: a cancel meanwhile drops it). */
+    gate?: () => Promise<void>,
   ): Promise<T> {
     this.queued.add(job);
     const next = this.chain.then(async () => {
       try {
+        if (gate && !this.dropped.has(job)) await gate();
         // Cancelled while queued, or while its scan was being decoded again: never sent.
-        if (!this.dropped.has(job)) await this.open();
+        if (!this.dropped.has(job) && !this.closed) await this.open();
       } finally {
         this.queued.delete(job);
       }
-      if (this.dropped.delete(job)) throw new CancelledError('the job');
+      if (this.dropped.delete(job) || this.closed) throw new CancelledError('the job');
       return this.send<T>(op, args, onProgress, job);
     });
     this.chain = next.catch(() => undefined);
+    void this.chain.then(() => this.onSettled?.());
     return next;
+  }
+
+  /** Resolves once no job is running or waiting (checked again after each job: new ones may queue). */
+  async whenIdle(): Promise<void> {
+    while (this.busy) await this.chain;
   }
 
   /**
@@ -157,6 +211,7 @@ export class SessionWorker {
     const hit = [...this.pending.values()].some((p) => p.job === job);
     if (hit && this.worker) {
       const w = this.worker;
+      trace(`cancel ${job}: thread t${w.threadId} stopped`);
       this.worker = undefined;
       this.opened = undefined;
       this.failAll(new CancelledError('the job'));
@@ -165,7 +220,10 @@ export class SessionWorker {
     return hit;
   }
 
+  private closed = false;
+
   async close(): Promise<void> {
+    this.closed = true;
     const w = this.worker;
     this.worker = undefined;
     this.opened = undefined;
