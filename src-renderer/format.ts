@@ -63,9 +63,9 @@ export const METRIC_HELP: Record<Metric, string> = {
   'spectral-bound':
     'Largest error in any direction, σₖ₊₁ (the first singular value left out), in grey levels: the Eckart–Young spectral-norm bound of the truncation.',
   'frobenius-optimal':
-    'Best possible total error at this rank, √(sum of σᵢ² left out), in grey levels summed over all pixels (Frobenius norm). Divide by √(pixels) for the RMS per pixel.',
+    'Best rank-k error: the least total error any rank-k approximation can have, √(sum of σᵢ² left out) (Eckart–Young), in grey levels summed over all pixels (Frobenius norm). Divide by √(pixels) for the RMS per pixel. It bounds the low-rank base alone: a residual layer on top codes what the base leaves out, so the file can come closer than this.',
   frobenius:
-    'Total error of the file as encoded (truncation and quantisation), in grey levels summed over all pixels (Frobenius norm); at least the best possible.',
+    'Total error of the decoded file against the original (truncation, quantisation and, when the file has one, what the residual layer leaves), in grey levels summed over all pixels (Frobenius norm). Without a residual layer it is at least the best rank-k error.',
 };
 
 /** PSNR in dB with two decimals; a lossless result (infinite PSNR) reads "∞ dB". */
