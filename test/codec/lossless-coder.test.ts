@@ -6,9 +6,8 @@ import {
   decodeExactPlane,
   type ExactPlaneShape,
   encodeExactPlane,
-  estimateExactBytes,
 } from '../../src-main/engine/codec/lossless-coder';
-import { exactPlanes, sourceFromExact } from '../../src-main/engine/codec/lossless-image';
+import { estimateExactTotal, exactPlanes, sourceFromExact } from '../../src-main/engine/codec/lossless-image';
 import { lcg } from '../helpers/lcg';
 
 const shape = (width: number, height: number, bits = 8): ExactPlaneShape => ({
@@ -76,10 +75,10 @@ describe('exact plane coder', () => {
 
   it('estimates exactly when the sample covers the plane, and within 25 % from a 10 % sample', () => {
     const p = scene(120, 200, 8);
-    const s = shape(120, 200);
-    const real = encodeExactPlane(p, s).length;
-    expect(estimateExactBytes(p, s, 120 * 200)).toBe(real);
-    const est = estimateExactBytes(p, s, 120 * 20);
+    const real = encodeExactPlane(p, shape(120, 200)).length;
+    const src = [Float32Array.from(p)];
+    expect(estimateExactTotal(src, 120, 200, 8, 120 * 200)).toBe(real);
+    const est = estimateExactTotal(src, 120, 200, 8, 120 * 20);
     expect(est / real).toBeGreaterThan(0.75);
     expect(est / real).toBeLessThan(1.25);
   });

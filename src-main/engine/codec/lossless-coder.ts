@@ -168,24 +168,27 @@ export function decodeExactPlane(bytes: Uint8Array, shape: ExactPlaneShape): Int
   return out;
 }
 
-/** Rows per sampled strip of {@link estimateExactBytes}. */
-const STRIP_ROWS = 4;
-
 /**
- * The plane's coded size estimated from the coder itself run over evenly spread strips of rows holding about
- * `samplePixels` pixels (each strip reads the real row above it), scaled to the whole plane. The models adapt
- * across strips as they would over the plane. Exact (the real encode's size) when the sample covers the plane.
+ * The coder run over sampled strips of a plane, for a size estimate (../lowrank/lossless-choice): the models
+ * adapt across strips as they would over the whole plane, and the output is scaled by the rows coded.
  */
-export function estimateExactBytes(plane: Int32Array, shape: ExactPlaneShape, samplePixels: number): number {
-  const { width, height } = shape;
-  const strips = Math.ceil(samplePixels / (width * STRIP_ROWS));
-  if (strips * STRIP_ROWS >= height) return encodeExactPlane(plane, shape).length;
-  const enc = new RangeEncoder();
-  const m = new ExactModel();
-  const gap = height / strips;
-  for (let s = 0; s < strips; s++) {
-    const y0 = Math.floor(s * gap);
-    walk(enc, m, plane, shape, y0, Math.min(height, y0 + STRIP_ROWS));
+export class ExactSampler {
+  private readonly enc = new RangeEncoder();
+  private readonly model = new ExactModel();
+  private rows = 0;
+  constructor(private readonly shape: ExactPlaneShape) {}
+
+  /**
+   * Code rows [from, rows) of `strip`, a piece of the plane `rows` rows high whose rows before `from` are
+   * read as the rows above (from is 0 for a strip at the top of the plane, 1 otherwise).
+   */
+  add(strip: Int32Array, rows: number, from: number): void {
+    walk(this.enc, this.model, strip, { ...this.shape, height: rows }, from, rows);
+    this.rows += rows - from;
   }
-  return Math.ceil((enc.finish().length * height) / (strips * STRIP_ROWS));
+
+  /** The plane's coded size scaled from the strips coded so far (finishes the stream: call once). */
+  estimate(): number {
+    return Math.ceil((this.enc.finish().length * this.shape.height) / Math.max(1, this.rows));
+  }
 }

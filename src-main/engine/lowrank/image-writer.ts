@@ -110,23 +110,21 @@ function scanHeader(
 
 /**
  * The lossless file of a scan (container 1.5, ../codec/lossless-file): its grey or reversibly transformed
- * colour planes coded exactly, alpha as in every file. `planes` are the coded planes when the caller has them
- * (../codec/lossless-image exactPlanes), else they are formed here.
+ * colour planes coded exactly, alpha as in every file. Returns the file and the bytes of its coded planes.
  */
-export function exactImageFile(img: ScanFacts, opts: EncodeOptions, planes?: Int32Array[]): Uint8Array {
+export function exactImageFile(
+  img: ScanFacts,
+  opts: EncodeOptions,
+): { file: Uint8Array; planeBytes: number } {
   const colour = img.channels >= 3;
-  const coded = planes ?? exactPlanes(img.planes, img.bitDepth, colour);
+  const coded = exactPlanes(img.planes, img.bitDepth, colour);
   const names = colour ? EXACT_COLOUR_NAMES : EXACT_GREY_NAMES;
   const header: RkfHeader = {
     ...scanHeader(img, opts, colour ? REVERSIBLE_TRANSFORM : 'none', true),
     planes: names.map((name) => ({ name }) as PlaneHeader),
     coding: EXACT_CODING,
   };
-  return writeImageFile({
-    header,
-    planes: [],
-    exact: encodeExactPlanes(coded, exactShapes(img.width, img.height, img.bitDepth, colour)),
-    alpha: alphaBytes(img),
-    icc: img.meta.icc,
-  });
+  const exact = encodeExactPlanes(coded, exactShapes(img.width, img.height, img.bitDepth, colour));
+  const file = writeImageFile({ header, planes: [], exact, alpha: alphaBytes(img), icc: img.meta.icc });
+  return { file, planeBytes: exact.reduce((s, b) => s + b.length, 0) };
 }
