@@ -2,7 +2,7 @@
 // for every channel layout, the lossless choice under byte budgets and quality floors, and the reader's
 // refusal of damaged or inconsistent lossless files.
 import { describe, expect, it } from 'vitest';
-import { type DecodedImage, FormatError } from '../../src-main/contract';
+import { checkCompressOptions, type DecodedImage, FormatError } from '../../src-main/contract';
 import { encodeCompactHeader } from '../../src-main/engine/codec/compact-header';
 import { writeContainer } from '../../src-main/engine/codec/container';
 import { readImageHeader } from '../../src-main/engine/codec/image-file';
@@ -141,5 +141,16 @@ describe('the reader refuses damaged lossless files', () => {
     // An exact plane cut short: the range decoder's end check names it.
     const cut = [{ type: 'EXCT', id: 0, payload: exact.subarray(0, exact.length - 8) }];
     expect(() => decodeImageFile(file(header, 5, cut), 'cut.rkf')).toThrow(/cannot be decoded/);
+  });
+});
+
+describe('the contract option', () => {
+  it('takes true, false or nothing for lossless, and says what it expected otherwise', () => {
+    const base = { budget: { kind: 'bpp', bpp: 1 }, tile: 'auto' } as const;
+    for (const lossless of [true, false, undefined])
+      expect(() => checkCompressOptions({ ...base, lossless })).not.toThrow();
+    expect(() => checkCompressOptions({ ...base, lossless: 'yes' as unknown as boolean })).toThrow(
+      'Expected true or false for lossless but received "yes" of type string',
+    );
   });
 });
