@@ -52,6 +52,8 @@ export function checkCompressOptions<T extends CompressOptions>(o: T): T {
   checkBudget(o.budget);
   checkTile(o.tile);
   checkOptional(OPTIONS.layers, o.layers);
+  if (o.lossless !== undefined && !is.bool(o.lossless))
+    throw invalidParameterError('lossless', 'true or false', o.lossless);
   checkOptional(OPTIONS.page, o.page);
   checkOptional(OPTIONS.pixelLimit, o.pixelLimit);
   return o;

@@ -29,6 +29,12 @@ export interface CompressOptions {
    * Rank budgets and quality floors are always base-only; so are scans above 2^25 pixels.
    */
   layers?: 'auto' | 'base';
+  /**
+   * true: write the lossless file (every sample exact), with no lossy search; a byte budget must still hold
+   * it. Absent (default): the lossless file is written where it fits the byte budget, or is no larger than
+   * the lossy file that meets a quality floor. false: never the lossless file.
+   */
+  lossless?: boolean;
 }
 
 /** One split of the byte budget between the layers that the two-layer search tried. */
@@ -54,11 +60,13 @@ interface LayerReport {
   residualBytes: number;
   /** Residual quantiser step per coded plane (null: no residual). */
   residualSteps: Array<number | null>;
-  chosen: LayerCandidateReport['kind'];
+  chosen: LayerCandidateReport['kind'] | 'lossless';
   /** Every candidate the search tried (empty when it did not run: rank or quality budgets, large scans). */
   candidates: LayerCandidateReport[];
   /** Real encodes of the residual layer during the search (each codes every plane once). */
   residualEncodes: number;
+  /** Bytes of the exact planes of a lossless file (its layers are then 0 and `chosen` is 'lossless'). */
+  losslessBytes?: number;
 }
 
 interface ErrorFigures {

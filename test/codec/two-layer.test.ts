@@ -194,7 +194,9 @@ describe('byte budgets on disk, every fixture image and rate', () => {
         const out = join(dir, `${name}-${bpp}.rkf`);
         let report: Awaited<ReturnType<typeof compressFile>>;
         try {
-          report = await compressFile(image(name), out, { budget: { kind: 'bpp', bpp }, tile: 'auto' });
+          // lossless: false, so the two layers are measured even where the lossless file would fit.
+          const options = { budget: { kind: 'bpp', bpp } as const, tile: 'auto' as const, lossless: false };
+          report = await compressFile(image(name), out, options);
         } catch (err) {
           // Below the file's fixed overhead (header, ICC profile): refused, and nothing is written.
           expect((err as Error).message).toMatch(/below the smallest possible file/);

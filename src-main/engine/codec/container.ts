@@ -44,6 +44,8 @@ const VERSION_MINOR_RESIDUAL = 2;
 export const VERSION_MINOR_CODER2 = 3;
 /** 1.4: a stack-layout file of stack version 3 (compact framing and header, coefficient coder 2; ./stack-header). */
 const VERSION_MINOR_STACK3 = 4;
+/** 1.5: a lossless image-layout file (compact framing and header, EXCT chunks of ./lossless-coder). */
+export const VERSION_MINOR_LOSSLESS = 5;
 /** Ancillary chunk of version ≥ 1.1 files: version copy and HEAD's CRC-32 (see the module comment). */
 const FILE_CHECK = 'fchk';
 const FILE_CHECK_LENGTH = 8;
@@ -98,9 +100,10 @@ function preamble(minor: number): Uint8Array {
  * version to record (default {@link VERSION_MINOR}; {@link VERSION_MINOR_CODER2} for two-layer images).
  */
 export function writeContainer(layoutChunks: Chunk[], minor: number = VERSION_MINOR): Uint8Array {
-  if (![VERSION_MINOR, VERSION_MINOR_RESIDUAL, VERSION_MINOR_CODER2, VERSION_MINOR_STACK3].includes(minor))
+  const minors = [VERSION_MINOR, VERSION_MINOR_RESIDUAL, VERSION_MINOR_CODER2, VERSION_MINOR_STACK3];
+  if (![...minors, VERSION_MINOR_LOSSLESS].includes(minor))
     throw new RangeError(
-      `this writer writes container version 1.${VERSION_MINOR}, 1.${VERSION_MINOR_RESIDUAL}, 1.${VERSION_MINOR_CODER2} or 1.${VERSION_MINOR_STACK3}`,
+      `this writer writes container version 1.${minors.join(', 1.')} or 1.${VERSION_MINOR_LOSSLESS}`,
     );
   if (!layoutChunks.length || layoutChunks[0].type !== 'HEAD')
     throw new RangeError('the first chunk must be HEAD');

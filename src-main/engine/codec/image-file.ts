@@ -2,7 +2,8 @@
  * A single scan in the .rkf container (layout "image"): the HEAD JSON header, one PLNE chunk per coded
  * plane (Y or gray, Cb, Cr) holding the low-rank base layer, an optional RSDL chunk per coded plane holding
  * the residual layer (the source minus the decoded base, wavelet-coded; container version 1.2), an ALPH
- * chunk for a lossless alpha plane and an ICCP chunk for the ICC profile. Reading validates the header
+ * chunk for a lossless alpha plane and an ICCP chunk for the ICC profile. A lossless file (container 1.5,
+ * ./lossless-file) holds one EXCT chunk per coded plane instead of PLNE and RSDL. Reading validates the header
  * against the chunks before anything is decoded. This module writes and reads the chunks and decodes each
  * plane's layers; lowrank/decode-image.ts turns them into samples (colour transform, rounding).
  */
@@ -16,15 +17,17 @@ import {
   refuseUnknownCritical,
   VERSION_MINOR,
   VERSION_MINOR_CODER2,
+  VERSION_MINOR_LOSSLESS,
   writeContainer,
 } from './container';
 import { type ByteCompressor, decodePlane, type EntropyId, encodePlane } from './entropy';
 import { packIcc } from './icc-pack';
+import { checkExactHeader, EXACT_CHUNK, EXACT_CODING, isExactFile } from './lossless-file';
 import { DEAD_ZONE, reconstructRows } from './quantise';
 import { type QuantPlane, tileGrid } from './quantised';
 import { decodePlane as decodeWaveletPlane } from './wavelet-plane';
 
-type ColourTransform = 'none' | 'ycbcr-jfif';
+type ColourTransform = 'none' | 'ycbcr-jfif' | 'rct';
 
 export interface PlaneHeader {
   /** 'gray', 'Y', 'Cb' or 'Cr'. */
@@ -68,6 +71,11 @@ export interface RkfHeader {
     icc?: boolean;
   };
   encoder: string;
+  /**
+   * "exact" in a lossless file (./lossless-file): its planes are EXCT chunks, and each entry of `planes`
+   * carries only its name. Absent in every other file.
+   */
+  coding?: typeof EXACT_CODING;
 }
 
 /** Default largest image a reader accepts: 2^28 pixels, like the decoder's pixel limit. */
@@ -81,6 +89,8 @@ export interface ImageFileParts {
   residuals?: Array<Uint8Array | undefined>;
   alpha?: Uint8Array;
   icc?: Uint8Array;
+  /** The coded planes of a lossless file (./lossless-image); `planes` is then empty. */
+  exact?: Uint8Array[];
 }
 
 export function quantiserInfo(): RkfHeader['quantiser'] {
@@ -97,6 +107,7 @@ export function encodePlanes(
 }
 
 export function writeImageFile(parts: ImageFileParts): Uint8Array {
+  if (parts.exact) return writeExactFile(parts, parts.exact);
   const chunks: Chunk[] = [{ type: 'HEAD', id: 0, payload: asciiJson(parts.header) }];
   if (parts.icc) chunks.push({ type: 'ICCP', id: 0, payload: parts.icc });
   parts.planes.forEach((payload, id) => {
@@ -120,6 +131,19 @@ export function writeImageFile(parts: ImageFileParts): Uint8Array {
   return writeContainer(chunks, residual ? VERSION_MINOR_CODER2 : VERSION_MINOR);
 }
 
+/** A lossless file: compact HEAD, packed ICC, one EXCT chunk per coded plane, ALPH; version 1.5. */
+function writeExactFile(parts: ImageFileParts, exact: Uint8Array[]): Uint8Array {
+  if (parts.header.coding !== EXACT_CODING || parts.planes.length || parts.residuals?.some(Boolean))
+    throw new RangeError('a lossless file has exact planes only, and a header that says so');
+  const chunks: Chunk[] = [{ type: 'HEAD', id: 0, payload: encodeCompactHeader(parts.header) }];
+  if (parts.icc) chunks.push({ type: 'ICCP', id: 0, payload: packIcc(parts.icc) });
+  exact.forEach((payload, id) => {
+    chunks.push({ type: EXACT_CHUNK, id, payload });
+  });
+  if (parts.alpha) chunks.push({ type: 'ALPH', id: 0, payload: parts.alpha });
+  return writeContainer(chunks, VERSION_MINOR_LOSSLESS);
+}
+
 /** Chunk type of a coded plane's residual layer (critical: a reader that does not know it must refuse). */
 const RESIDUAL = 'RSDL';
 /**
@@ -129,12 +153,16 @@ const RESIDUAL = 'RSDL';
 export const RESIDUAL_MAX_PIXELS = 1 << 25;
 
 /** Chunk types of the image layout (the container's own INDX and fchk aside). */
-const KNOWN = new Set(['HEAD', 'PLNE', 'ALPH', 'ICCP', RESIDUAL]);
+const KNOWN = new Set(['HEAD', 'PLNE', 'ALPH', 'ICCP', RESIDUAL, EXACT_CHUNK]);
 
 export interface ReadOptions {
   compressors?: ByteCompressor[];
   maxPixels?: number;
 }
+
+/** Whether v is an integer in [lo, hi]. */
+const int = (v: unknown, lo: number, hi: number) =>
+  Number.isInteger(v) && (v as number) >= lo && (v as number) <= hi;
 
 /** Parse and validate the header of a container (all CRCs are checked). */
 export function readImageHeader(
@@ -161,8 +189,6 @@ export function readImageHeader(
     );
   refuseUnknownCritical(view, KNOWN, file, 'image');
   const { width, height } = header;
-  const int = (v: unknown, lo: number, hi: number) =>
-    Number.isInteger(v) && (v as number) >= lo && (v as number) <= hi;
   if (!int(width, 1, MAX_SIDE) || !int(height, 1, MAX_SIDE))
     fail(`has impossible dimensions ${String(width)}×${String(height)} (each side must be 1–${MAX_SIDE})`);
   const maxPixels = opts.maxPixels ?? MAX_PIXELS;
@@ -173,15 +199,43 @@ export function readImageHeader(
   if (header.bitDepth !== 8 && header.bitDepth !== 16)
     fail(`declares bit depth ${String(header.bitDepth)}; only 8 and 16 are valid`);
   if (!int(header.channels, 1, 4)) fail(`declares ${String(header.channels)} channels; 1–4 are valid`);
+  const hasAlpha = header.channels === 2 || header.channels === 4;
+  if ((header.alpha === 'lossless') !== hasAlpha)
+    fail('is inconsistent: its alpha setting does not match its channel count');
+  if (header.coding !== undefined && header.coding !== EXACT_CODING)
+    fail(`declares plane coding "${String(header.coding)}", which this Rankfold does not know`);
+  if (isExactFile(header)) checkExactHeader(view, header, fail);
+  else checkLayeredPlanes(view, header, fail);
+  // Exactly the chunks the header calls for: ALPH iff alpha, at most one ICCP.
+  const count = (type: string) => view.entries.filter((e) => e.type === type).length;
+  if (hasAlpha && view.find('ALPH', 0) < 0)
+    fail('is truncated or damaged: the alpha plane (ALPH) is missing');
+  if (count('ALPH') !== (hasAlpha ? 1 : 0)) fail('is inconsistent: unexpected alpha plane chunks (ALPH)');
+  if (count('HEAD') !== 1 || count('ICCP') > 1 || (count('ICCP') === 1 && view.find('ICCP', 0) < 0))
+    fail('is inconsistent: a header or ICC profile chunk is repeated or misnumbered');
+  if (typeof header.metadata !== 'object' || header.metadata === null)
+    fail('is damaged: its header has no metadata record');
+  if (header.metadata.icc === true && count('ICCP') === 0)
+    fail('is truncated or damaged: its header records an ICC profile, but the ICCP chunk is missing');
+  if (typeof header.sourceSha256 !== 'string' || !/^[0-9a-f]{64}$/.test(header.sourceSha256))
+    fail('has no valid source SHA-256');
+  if (
+    header.alphaSha256 !== undefined &&
+    !(typeof header.alphaSha256 === 'string' && /^[0-9a-f]{64}$/.test(header.alphaSha256))
+  )
+    fail('has an invalid alpha SHA-256');
+  return { view, header };
+}
+
+/** The planes of a lossy (base and residual layer) file against its chunks: one PLNE per plane, RSDL as declared. */
+function checkLayeredPlanes(view: ContainerView, header: RkfHeader, fail: (problem: string) => never): void {
+  const { width, height } = header;
   const colour = header.channels >= 3;
   const wantPlanes = colour ? 3 : 1;
   if (colour && header.colourTransform !== 'ycbcr-jfif')
     fail(`declares colour transform "${String(header.colourTransform)}" for a colour image`);
   if (!colour && header.colourTransform !== 'none')
     fail(`declares colour transform "${String(header.colourTransform)}" for a gray image`);
-  const hasAlpha = header.channels === 2 || header.channels === 4;
-  if ((header.alpha === 'lossless') !== hasAlpha)
-    fail('is inconsistent: its alpha setting does not match its channel count');
   if (!Array.isArray(header.planes) || header.planes.length !== wantPlanes)
     fail(
       `is inconsistent: ${header.channels} channels need ${wantPlanes} coded plane(s), the header lists ${Array.isArray(header.planes) ? header.planes.length : 'none'}`,
@@ -215,26 +269,9 @@ export function readImageHeader(
     view.entries.filter((e) => e.type === RESIDUAL).length !== residuals
   )
     fail(`is inconsistent: unexpected residual chunks (${RESIDUAL})`);
-  // Exactly the chunks the header calls for: one PLNE per plane, ALPH iff alpha, at most one ICCP.
   const count = (type: string) => view.entries.filter((e) => e.type === type).length;
-  if (count('PLNE') !== wantPlanes) fail('is inconsistent: unexpected extra plane chunks');
-  if (hasAlpha && view.find('ALPH', 0) < 0)
-    fail('is truncated or damaged: the alpha plane (ALPH) is missing');
-  if (count('ALPH') !== (hasAlpha ? 1 : 0)) fail('is inconsistent: unexpected alpha plane chunks (ALPH)');
-  if (count('HEAD') !== 1 || count('ICCP') > 1 || (count('ICCP') === 1 && view.find('ICCP', 0) < 0))
-    fail('is inconsistent: a header or ICC profile chunk is repeated or misnumbered');
-  if (typeof header.metadata !== 'object' || header.metadata === null)
-    fail('is damaged: its header has no metadata record');
-  if (header.metadata.icc === true && count('ICCP') === 0)
-    fail('is truncated or damaged: its header records an ICC profile, but the ICCP chunk is missing');
-  if (typeof header.sourceSha256 !== 'string' || !/^[0-9a-f]{64}$/.test(header.sourceSha256))
-    fail('has no valid source SHA-256');
-  if (
-    header.alphaSha256 !== undefined &&
-    !(typeof header.alphaSha256 === 'string' && /^[0-9a-f]{64}$/.test(header.alphaSha256))
-  )
-    fail('has an invalid alpha SHA-256');
-  return { view, header };
+  if (count('PLNE') !== wantPlanes || count(EXACT_CHUNK) > 0)
+    fail('is inconsistent: unexpected extra plane chunks');
 }
 
 /** The quantised factors of coded plane k (its PLNE chunk), as the header describes them. */

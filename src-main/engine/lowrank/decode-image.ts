@@ -1,10 +1,12 @@
 /**
  * Decode an .rkf image file (layout "image", ../codec/image-file) into samples: each coded plane's
  * low-rank base rebuilt band by band (plus its residual layer, when there is one), then the colour
- * transform undone, rounded and clamped into integer samples.
+ * transform undone, rounded and clamped into integer samples. A lossless file's planes are decoded exactly
+ * instead (../codec/lossless-file).
  */
 import { FormatError } from '../../contract/errors';
 import { decodeLosslessPlane } from '../codec/alpha';
+import type { ContainerView } from '../codec/container';
 import { storedIcc } from '../codec/icc-pack';
 import {
   decodeResiduals,
@@ -13,6 +15,7 @@ import {
   readBasePlane,
   readImageHeader,
 } from '../codec/image-file';
+import { decodeExactSamples, isExactFile } from '../codec/lossless-file';
 import { reconstructRows } from '../codec/quantise';
 import { tileGrid } from '../codec/quantised';
 import { roundInto, type SampleOut, ycbcrToRgbSamples } from '../colour';
@@ -83,7 +86,12 @@ function decodeWith<S extends SampleOut>(
 ): Omit<DecodedRkf, 'samples'> & { samples: S[] } {
   const { view, header } = readImageHeader(bytes, file, opts);
   const { width, height, bitDepth } = header;
-  const max = bitDepth === 16 ? 65535 : 255;
+  const n = width * height;
+  if (isExactFile(header)) {
+    const exact = Array.from({ length: header.channels >= 3 ? 3 : 1 }, () => alloc(n, bitDepth));
+    decodeExactSamples(view, header, file, exact);
+    return withAlpha(view, header, file, alloc, exact);
+  }
   const planeFail = (k: number, err: unknown): never => {
     if (err instanceof FormatError) throw err;
     throw new FormatError(
@@ -103,7 +111,6 @@ function decodeWith<S extends SampleOut>(
     }
   });
   const residual = decodeResiduals(view, header, file);
-  const n = width * height;
   const colour = header.colourTransform === 'ycbcr-jfif';
   const samples: S[] = Array.from({ length: colour ? 3 : 1 }, () => alloc(n, bitDepth));
   const tile = quant[0].q.tile;
@@ -128,6 +135,20 @@ function decodeWith<S extends SampleOut>(
     });
     planesToSamples(bufs, colour, len, bitDepth, samples, at);
   }
+  return withAlpha(view, header, file, alloc, samples);
+}
+
+/** The decoded file: `samples` with the alpha plane, when there is one, decoded and appended. */
+function withAlpha<S extends SampleOut>(
+  view: ContainerView,
+  header: RkfHeader,
+  file: string,
+  alloc: (n: number, bitDepth: 8 | 16) => S,
+  samples: S[],
+): Omit<DecodedRkf, 'samples'> & { samples: S[] } {
+  const { width, height, bitDepth } = header;
+  const n = width * height;
+  const max = bitDepth === 16 ? 65535 : 255;
   if (header.alpha === 'lossless') {
     let alpha: Float32Array;
     try {

@@ -39,6 +39,11 @@ export interface EncodeOptions {
    * output is the same bit for bit with or without it. Default: everything on the calling thread.
    */
   side?: SideRunner;
+  /**
+   * The lossless file (./lossless-choice): 'always' writes it with no lossy search; 'auto' writes it where it
+   * fits a byte budget, or is no larger than the lossy file meeting a quality floor. Default: never.
+   */
+  exact?: 'auto' | 'always';
 }
 
 /** What the layers of the written file cost and how the split was chosen. */
@@ -48,11 +53,13 @@ export interface LayerSummary {
   residualBytes: number;
   /** Residual step per coded plane, null for a plane without a residual. */
   residualSteps: Array<number | null>;
-  /** The candidate kept and every candidate tried (empty when the two-layer search did not run). */
-  chosen: LayerCandidate['kind'];
+  /** The candidate kept ('lossless' for a lossless file) and every candidate tried (empty when the two-layer search did not run). */
+  chosen: LayerCandidate['kind'] | 'lossless';
   candidates: LayerCandidate[];
   /** Real encodes of the residual layer in the search (each codes every plane once). */
   residualEncodes: number;
+  /** Bytes of the exact planes (EXCT payloads) of a lossless file; absent otherwise. */
+  losslessBytes?: number;
 }
 
 export interface PlaneRankSummary {

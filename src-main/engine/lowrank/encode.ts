@@ -23,6 +23,7 @@ import { factorPlane, type PlaneFactors } from './factorise';
 import { solveFloor, truncationError } from './floor-solve';
 import { fittingFactors } from './given-factors';
 import { imageWriter } from './image-writer';
+import { chooseExact } from './lossless-choice';
 import {
   decodedSse,
   finishScan,
@@ -52,6 +53,11 @@ function prepare(img: DecodedImage): Prepared {
 }
 
 export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult {
+  return chooseExact(img, opts, encodeLossy);
+}
+
+/** {@link encodeScan}'s lossy file: low-rank base, with a residual layer where that wins. */
+function encodeLossy(img: DecodedImage, opts: EncodeOptions): EncodeResult {
   const now = opts.now ?? Date.now;
   const progress = opts.onProgress ?? (() => {});
   const cancel = opts.checkCancelled ?? (() => {});
@@ -233,7 +239,7 @@ function probeTile(
   const crop = centredCrop(img);
   const budget: Budget =
     byteBudget !== undefined ? { kind: 'bpp', bpp: (8 * byteBudget) / (width * height) } : opts.budget;
-  const r = encodeScan(crop, { ...opts, budget, onProgress: undefined, layers: 'base' });
+  const r = encodeLossy(crop, { ...opts, budget, onProgress: undefined, layers: 'base' });
   return r.ranks[0]?.tile;
 }
 

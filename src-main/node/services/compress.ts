@@ -150,6 +150,7 @@ async function encodeAndReport(
     ),
     layers: options.layers ?? DEFAULT_LAYERS,
     factors: hooks.factors,
+    exact: options.lossless ? 'always' : options.lossless === false ? undefined : 'auto',
   });
   const outputBytes = result.bytes.length;
   const report: CompressReport = {
@@ -192,6 +193,7 @@ export async function compressFile(
   const t0 = performance.now();
   const probe = await probeImage(input, { page: options.page, pixelLimit: options.pixelLimit });
   if (
+    !options.lossless &&
     probe.width * probe.height > (hooks.tiledAbove ?? TILED_PIXELS) &&
     tiledEncoderFits(options.budget, options.tile)
   )

@@ -14,7 +14,12 @@ import {
 } from '../../../contract';
 import { DEFAULT_TIMEOUT_MS } from '../../batch/run-options';
 import { DEFAULT_PIXEL_LIMIT } from '../../image/decode';
-import { BUDGET_OPTION_NAMES, BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from './budget-options';
+import {
+  BUDGET_OPTION_NAMES,
+  BUDGET_OPTIONS,
+  parseBudgetOrLossless,
+  parseTileOption,
+} from './budget-options';
 import {
   COLLECTION_OPTIONS,
   type CollectionArgs,
@@ -30,7 +35,7 @@ const BATCH_OPTIONS: OptionSpec = {
   ...COLLECTION_OPTIONS,
   ...flags(
     'output tile pixel-limit report manifest timeout shard',
-    'resume force dry-run json expand-check merge',
+    'resume force dry-run json expand-check merge lossless',
   ),
   jobs: { type: 'string', short: 'j' },
   include: { type: 'string', multiple: true },
@@ -109,12 +114,17 @@ export function parseBatchArgs(argv: string[]): ParsedBatch | ParsedMerge | Pars
   // A collection plans each file's byte budget itself; this one only stands in until it does.
   const [budget] = collection
     ? [{ kind: 'percent' as const, percent: 100 }]
-    : parseBudgetOptions(values, {
+    : parseBudgetOrLossless(values, {
         missing:
           'give one budget: --rank K, --budget SIZE (e.g. 250kB or 5%), --bpp X, --min-psnr DB or --min-ssim S, or a --total SIZE for the whole folder',
       });
+  if (collection && values.lossless)
+    throw new UsageError(
+      '--lossless writes every file exactly; a --total for the folder cannot be planned with it',
+    );
   const compress: CompressOptions = {
     budget,
+    ...(values.lossless ? { lossless: true } : {}),
     tile: values.tile === undefined ? DEFAULT_TILE : parseTileOption(str(values.tile)),
     pixelLimit:
       values['pixel-limit'] !== undefined

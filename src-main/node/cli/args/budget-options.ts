@@ -89,6 +89,18 @@ export function parseBudgetOptions(values: Record<string, unknown>, rules: Budge
   return budgets;
 }
 
+/**
+ * What `--lossless` stands for when no budget option is given: a PSNR floor at the top of its range, which
+ * the lossless file (PSNR ∞) meets. The encoder writes the lossless file with no lossy search either way.
+ */
+const LOSSLESS_BUDGET: Budget = { kind: 'psnr', db: OPTIONS.minPsnr.max };
+
+/** {@link parseBudgetOptions}, except that with `--lossless` the budget may be left out. @throws UsageError */
+export function parseBudgetOrLossless(values: Record<string, unknown>, rules: BudgetOptionRules): Budget[] {
+  if (values.lossless && !BUDGET_OPTION_NAMES.some((k) => values[k] !== undefined)) return [LOSSLESS_BUDGET];
+  return parseBudgetOptions(values, rules);
+}
+
 /** `--tile`: `auto`, `0` (whole planes) or a side of 16–512 pixels; spaces around it are ignored. */
 export function parseTileOption(text: string | undefined): TileChoice {
   if (text === undefined || text.trim() === 'auto') return 'auto';

@@ -8,15 +8,15 @@ import {
   UsageError,
 } from '../../../contract';
 import { compressFile } from '../../services/compress';
-import { BUDGET_OPTIONS, parseBudgetOptions, parseTileOption } from '../args/budget-options';
+import { BUDGET_OPTIONS, parseBudgetOrLossless, parseTileOption } from '../args/budget-options';
 import { type CliIO, type Command, flags, parseCommandArgs } from '../args/command';
 
 const options = {
   ...BUDGET_OPTIONS,
-  ...flags('output tile layers page pixel-limit workers', 'json force compare stack'),
+  ...flags('output tile layers page pixel-limit workers', 'json force compare stack lossless'),
 };
 
-const help = `Usage: rankfold compress IN -o OUT.rkf (--rank K | --budget SIZE | --bpp X | --min-psnr DB | --min-ssim S) [options]
+const help = `Usage: rankfold compress IN -o OUT.rkf (--rank K | --budget SIZE | --bpp X | --min-psnr DB | --min-ssim S | --lossless) [options]
 
 Write a Rankfold container (.rkf) holding a truncated SVD of the scan, whole or in tiles, that meets
 one budget. Figures are measured on the file as written, decoded again.
@@ -27,6 +27,10 @@ Budgets (give exactly one):
   --bpp X           at most X bits per pixel on disk
   --min-psnr DB     the smallest file found whose PSNR is at least DB (MAX = 255 or 65535)
   --min-ssim S      the smallest file found whose SSIM (Wang et al. 2004) is at least S
+  --lossless        a lossless file: it expands to exactly the samples of the scan (checked by its
+                    SHA-256). With --budget or --bpp as well, it must also fit that size. Without
+                    --lossless, a budget that the lossless file fits (or a floor whose lossy file would be
+                    no smaller) gets the lossless file too
 
 Options:
   -o, --output FILE   output .rkf file (required)
@@ -65,7 +69,7 @@ export function formatReport(r: CompressReport): string {
     `${r.input} → ${r.output}`,
     `  ${r.width}×${r.height}, ${r.channels} channel(s), ${r.bitDepth}-bit`,
     `  raw ${r.rawBytes} B, input file ${r.inputBytes} B, output ${r.outputBytes} B: ratio ${fmt(r.ratio, 1)}:1, ${fmt(r.bpp, 3)} bpp`,
-    `  ranks: ${ranks}`,
+    `  ranks: ${ranks || 'none (a lossless file has no low-rank base)'}`,
     `  measured on the decoded file: PSNR ${fmt(r.psnr)} dB, SSIM ${fmt(r.ssim, 4)}${r.lossless ? ' (lossless: decodes to the source samples exactly)' : ''}`,
     ...layerLines(r),
     `  ${r.layers?.residualBytes ? 'base layer: ' : ''}Frobenius error ${fmt(r.errors.frobenius, 1)} grey levels (Eckart–Young optimum at these ranks ${fmt(r.errors.frobeniusOptimal, 1)}; spectral bound σ_k+1 ${fmt(r.errors.spectralBound, 1)})`,
@@ -85,6 +89,8 @@ export function formatReport(r: CompressReport): string {
 
 function layerLines(r: CompressReport): string[] {
   const l = r.layers;
+  if (l?.chosen === 'lossless')
+    return [`  layers: one lossless layer of ${l.losslessBytes} B (no low-rank base, no residual)`];
   if (!l || (!l.residualBytes && !l.candidates.length)) return [];
   const steps = l.residualSteps.map((s) => (s === null ? '–' : fmt(s, 3))).join(', ');
   const tried = l.candidates.length
@@ -114,7 +120,7 @@ export const command: Command = {
     if (!input) throw new UsageError('compress: missing input file. See `rankfold compress --help`.');
     const output = v.output as string | undefined;
     if (!output) throw new UsageError('compress: missing -o OUT.rkf. See `rankfold compress --help`.');
-    const [budget] = parseBudgetOptions(v, {
+    const [budget] = parseBudgetOrLossless(v, {
       prefix: 'compress: ',
       missing:
         'compress: give one budget: --rank K, --budget SIZE, --bpp X, --min-psnr DB or --min-ssim S. See `rankfold compress --help`.',
@@ -133,6 +139,7 @@ export const command: Command = {
         force: Boolean(v.force),
         compare: Boolean(v.compare),
         layers: parseLayersOption(v.layers as string | undefined),
+        ...(v.lossless ? { lossless: true } : {}),
       },
       {
         workers:
