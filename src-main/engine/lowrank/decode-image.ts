@@ -15,6 +15,7 @@ import {
 } from '../codec/image-file';
 import { reconstructRows } from '../codec/quantise';
 import { tileGrid } from '../codec/quantised';
+import { giveBackWork } from '../codec/resident-plane';
 import { roundInto, type SampleOut, ycbcrToRgbSamples } from '../colour';
 
 export interface DecodedRkf {
@@ -128,6 +129,8 @@ function decodeWith<S extends SampleOut>(
     });
     planesToSamples(bufs, colour, len, bitDepth, samples, at);
   }
+  // The residual planes are not used past here: a plane rebuilt in its coder's memory gives that memory back.
+  for (const r of residual) if (r) giveBackWork(r);
   if (header.alpha === 'lossless') {
     let alpha: Float32Array;
     try {
