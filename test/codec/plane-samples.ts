@@ -1,5 +1,7 @@
 // Test planes and digests shared by the codec's kernel-identity tests.
 import { createHash } from 'node:crypto';
+import { setCoderWasmDisabled } from '../../src-main/engine/codec/wasm/coder-runtime';
+import { setKernelsDisabled } from '../../src-main/engine/metrics/wasm/loader';
 import { lcg } from '../helpers/lcg';
 
 /** SHA-256 of a typed array's bytes. */
@@ -15,4 +17,16 @@ export function rampPlane(w: number, h: number, seed: number): Float32Array {
   for (let y = 0; y < h; y++)
     for (let i = 0; i < w; i++) x[y * w + i] = (i > w / 3 ? 160 : 40) + y * 0.3 + next() * 30;
   return x;
+}
+
+/** `f` run on the TypeScript reference: the WebAssembly kernels and the coder port off. */
+export function reference<T>(f: () => T): T {
+  setKernelsDisabled(true);
+  setCoderWasmDisabled(true);
+  try {
+    return f();
+  } finally {
+    setKernelsDisabled(false);
+    setCoderWasmDisabled(false);
+  }
 }

@@ -5,7 +5,6 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { residentArena } from '../../src-main/engine/codec/resident-plane';
 import { ARENA_MIN_PIXELS, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
-import { setCoderWasmDisabled } from '../../src-main/engine/codec/wasm/coder-runtime';
 import {
   type AnalysedPlane,
   analysePlane,
@@ -16,8 +15,7 @@ import {
   reconstructCoded,
   smallestSafeStep,
 } from '../../src-main/engine/codec/wavelet-plane';
-import { setKernelsDisabled } from '../../src-main/engine/metrics/wasm/loader';
-import { digest, rampPlane } from './plane-samples';
+import { digest, rampPlane, reference } from './plane-samples';
 
 const plane = rampPlane;
 
@@ -37,17 +35,6 @@ function run(p: ArrayLike<number>, w: number, h: number, steps: number[]) {
   out.push(digest(reconstructCoded(a, { ...qa, bytes: new Uint8Array() })));
   out.push(codedSquaredError(a, coded[0]), digest(a.coeffs), digest(a.map));
   return out;
-}
-
-function reference<T>(f: () => T): T {
-  setKernelsDisabled(true);
-  setCoderWasmDisabled(true);
-  try {
-    return f();
-  } finally {
-    setKernelsDisabled(false);
-    setCoderWasmDisabled(false);
-  }
 }
 
 const SIZES: Array<[number, number]> = [

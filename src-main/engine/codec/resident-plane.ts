@@ -31,6 +31,8 @@ const denseQ = new WeakMap<object, Int32Array>();
 const sparseQ = new WeakMap<object, { at: Int32Array; v: Int32Array }>();
 /** Arenas whose work region holds a reconstruction handed to a caller: nothing may write it again. */
 const workTaken = new WeakSet<PlaneArena>();
+/** Each handed-out reconstruction's arena, until its caller gives it back ({@link giveBackWork}). */
+const handedOut = new WeakMap<Float64Array, PlaneArena>();
 
 /** The arena holding `plane`'s coefficients, if it has one and the kernels are on. */
 export function residentArena(plane: object): PlaneArena | undefined {
@@ -128,6 +130,38 @@ export function residentQ(result: object): PlaneArena | undefined {
   return arena;
 }
 
+/**
+ * `result`'s quantised values where they lie in its arena (loaded back when the region was reused), as a view
+ * valid until the next call on that arena; undefined when they are not resident or already made into an array
+ * (read `result.q` then). Reading them in place skips the array {@link residentResult}'s `q` would make: n
+ * fresh values, mostly zero pages.
+ */
+export function residentQView(result: object): Int32Array | undefined {
+  if (denseQ.has(result)) return undefined;
+  const arena = residentQ(result);
+  return arena && new Int32Array(arena.memory.buffer, arena.qAt, arena.n);
+}
+
+/** The plane size whose new arenas map their work region at once ({@link warmingWork}), and what else to do then. */
+let warm: { width: number; height: number; also: () => void } | undefined;
+
+/**
+ * Run `f`; each arena made meanwhile for a width×height plane maps its work region's pages at once, and
+ * `also` runs beside it (the caller's own memory to map). For callers whose planes will be rebuilt (the
+ * report decodes the file it writes): on this hardware a page's first touch costs far more than the
+ * arithmetic on it (./wasm/arena.ts), and the encoder makes its arenas just before it waits for its side
+ * thread, so the pages are mapped in that wait instead of in the decode at the end.
+ */
+export function warmingWork<T>(width: number, height: number, also: () => void, f: () => T): T {
+  const outer = warm;
+  warm = { width, height, also };
+  try {
+    return f();
+  } finally {
+    warm = outer;
+  }
+}
+
 /** A new arena holding the forward transform (`levels` levels) of `plane`; null when none can be made. */
 export function analyseResident(
   plane: ArrayLike<number>,
@@ -139,6 +173,10 @@ export function analyseResident(
   if (!arena) return null;
   arena.load(plane);
   if (levels > 0) arena.transform(levels, LIFTING, false);
+  if (warm && warm.width === width && warm.height === height) {
+    arena.touchWork();
+    warm.also();
+  }
   return arena;
 }
 
@@ -215,8 +253,8 @@ export function bandMaxResident(arena: PlaneArena, bands: BandRect[]): Float64Ar
  * The plane rebuilt from the resident q (par: Δ, d1, d2 per band) and inverse-transformed in the arena's work
  * region: a copy, or with `handOut` the region itself (no copy into fresh pages; for the decoded file, usually
  * the last use of the plane). After a hand-out the arena's coder and reconstruction are not used again
- * (undefined: take the copying paths), so nothing writes over it, and the memory, which only the coder
- * grows, keeps its size.
+ * (undefined: take the copying paths) until the caller gives the region back ({@link giveBackWork}), so
+ * nothing writes over it, and the memory, which only the coder grows, keeps its size.
  */
 export function reconstructResident(
   arena: PlaneArena,
@@ -232,7 +270,21 @@ export function reconstructResident(
   arena.lift.dequantise(arena.qAt, workAt, width, bands.length, GEO, PAR);
   if (levels > 0) arena.transform(levels, LIFTING, true, workAt);
   const x = new Float64Array(arena.memory.buffer, workAt, n);
-  return handOut ? x : x.slice();
+  if (!handOut) return x.slice();
+  handedOut.set(x, arena);
+  return x;
+}
+
+/**
+ * The caller of a {@link reconstructResident} hand-out is done with `x` and drops every reference to it: its
+ * arena's work region is free again, so the plane's next rebuild (a quality floor decodes several files) runs
+ * in that warm memory instead of the copying path's fresh pages. Any other array is ignored.
+ */
+export function giveBackWork(x: Float64Array): void {
+  const arena = handedOut.get(x);
+  if (!arena) return;
+  handedOut.delete(x);
+  workTaken.delete(arena);
 }
 
 /** Whether the arena's coder may run (its work region is not handed out). */

@@ -8,6 +8,7 @@
  * file decode to the coefficients the reported samples were rebuilt from.
  */
 import { recallCode } from '../codec/coded-planes';
+import { residentQView } from '../codec/resident-plane';
 import type { SideRunner } from './side-jobs';
 
 /** Coefficient coder of the residual layer this encoder writes (container 1.3, ../codec/wavelet-plane). */
@@ -66,10 +67,16 @@ function firstDifference(
   a: { q: Int32Array; offsets: Float64Array },
   b: { q: Int32Array; offsets?: Float64Array },
 ): string | undefined {
-  if (a.q.length !== b.q.length) return 'coefficients';
-  for (let i = 0; i < a.q.length; i++) if (a.q[i] !== b.q[i]) return 'coefficients';
+  // The encoder's q where it lies (its arena), not the copy its `q` getter would make.
+  const q = residentQView(b) ?? b.q;
+  if (a.q.length !== q.length || !sameInt32(a.q, q)) return 'coefficients';
   const o = b.offsets;
   if (!o || o.length !== a.offsets.length) return 'reconstruction offsets';
   for (let i = 0; i < o.length; i++) if (!Object.is(o[i], a.offsets[i])) return 'reconstruction offsets';
   return undefined;
+}
+
+function sameInt32(a: Int32Array, b: Int32Array): boolean {
+  for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
+  return true;
 }

@@ -1,0 +1,146 @@
+// Reading a resident plane's quantised values where they lie (src-main/engine/codec/resident-plane.ts
+// residentQView, used by the report's residual check, src-main/engine/lowrank/residual-check.ts) and giving a
+// handed-out reconstruction's memory back (giveBackWork, used by the report's decode): the values equal the
+// TypeScript reference's (kernels and coder port off), the check still refuses a wrong coefficient, and a
+// plane decoded again after a give-back is rebuilt in its own memory with the same bits; arenas whose work
+// region is mapped ahead (warmingWork) decode the same bits.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { forgetCodes, recordingCodes } from '../../src-main/engine/codec/coded-planes';
+import {
+  giveBackWork,
+  residentArena,
+  residentQView,
+  warmingWork,
+} from '../../src-main/engine/codec/resident-plane';
+import { ARENA_MIN_PIXELS, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
+import { analysePlane, codeAnalysed, decodePlane } from '../../src-main/engine/codec/wavelet-plane';
+import { startResidualCheck } from '../../src-main/engine/lowrank/residual-check';
+import { runHere } from '../../src-main/engine/lowrank/side-jobs';
+import { digest, rampPlane, reference } from './plane-samples';
+
+/** Odd sizes, a single pixel, a single row and a single column. */
+const SIZES: Array<[number, number]> = [
+  [1, 1],
+  [61, 1],
+  [1, 45],
+  [97, 83],
+];
+const STEPS = [0.7, 4, 19];
+
+/** Digests of the TypeScript reference's decodes of `p` coded at each of {@link STEPS}. */
+const decodedReference = (p: Float32Array, w: number, h: number) =>
+  reference(() => {
+    const a = analysePlane(p, w, h);
+    return STEPS.map((s) => digest(decodePlane(codeAnalysed(a, s, 2).bytes, w, h, s, 2)));
+  });
+
+describe('resident quantised values read in place', () => {
+  beforeAll(() => setArenaMinPixels(1));
+  afterAll(() => {
+    setArenaMinPixels(ARENA_MIN_PIXELS);
+    forgetCodes();
+  });
+
+  it.each(SIZES)(
+    '%i×%i: the view holds the reference q, also for a result whose region was reused',
+    (w, h) => {
+      const p = rampPlane(w, h, 5 * w + h);
+      const ref = reference(() => {
+        const a = analysePlane(p, w, h);
+        return STEPS.map((s) => digest(codeAnalysed(a, s, 2).q));
+      });
+      const a = analysePlane(p, w, h);
+      expect(residentArena(a)).toBeDefined();
+      const coded = STEPS.map((s) => codeAnalysed(a, s, 2));
+      // Last first: the last code owns the region; each earlier one is loaded back from its non-zeros.
+      for (let k = STEPS.length - 1; k >= 0; k--) {
+        const view = residentQView(coded[k]);
+        expect(view).toBeDefined();
+        expect(digest(view as Int32Array)).toBe(ref[k]);
+      }
+      // Once a result's q was made into an array, that array is the one to read.
+      expect(digest(coded[0].q)).toBe(ref[0]);
+      expect(residentQView(coded[0])).toBeUndefined();
+      expect(residentQView({ q: new Int32Array(w * h) })).toBeUndefined();
+    },
+  );
+
+  it('the residual check passes on the resident q and refuses when one resident value differs', () => {
+    const [w, h, step] = [97, 83, 3];
+    forgetCodes();
+    const a = analysePlane(rampPlane(w, h, 8), w, h);
+    const c = recordingCodes(() => codeAnalysed(a, step, 2));
+    const check = () => startResidualCheck(runHere, { steps: [step], bytes: [c.bytes] }, w, h, 'b.tif')();
+    expect(check).not.toThrow();
+    const view = residentQView(c) as Int32Array;
+    view[view.length >> 1] += 1;
+    expect(check).toThrow(
+      'b.tif: the residual layer just coded for plane 0 decodes to other coefficients than it was coded from',
+    );
+    view[view.length >> 1] -= 1;
+    expect(check).not.toThrow();
+  });
+
+  it.each(SIZES)('%i×%i: decodes after a give-back run in the plane’s memory, with the same bits', (w, h) => {
+    const p = rampPlane(w, h, 3 * w + 7 * h);
+    const ref = decodedReference(p, w, h);
+    forgetCodes();
+    const a = analysePlane(p, w, h);
+    const arena = residentArena(a);
+    const got = recordingCodes(() =>
+      STEPS.map((s) => {
+        const bytes = codeAnalysed(a, s, 2).bytes;
+        const x = decodePlane(bytes, w, h, s, 2);
+        const inPlace = x.buffer === arena?.memory.buffer;
+        const d = digest(x);
+        // A hand-out not given back keeps its memory: the next decode takes the copying path.
+        const again = decodePlane(bytes, w, h, s, 2);
+        const copied = again.buffer !== arena?.memory.buffer;
+        expect(digest(x)).toBe(d);
+        giveBackWork(x);
+        return { d, inPlace, copied };
+      }),
+    );
+    forgetCodes();
+    expect(got.map((g) => g.d)).toEqual(ref);
+    expect(got.every((g) => g.inPlace && g.copied)).toBe(true);
+  });
+});
+
+describe('memory mapped ahead for the report’s decode', () => {
+  beforeAll(() => setArenaMinPixels(1));
+  afterAll(() => setArenaMinPixels(ARENA_MIN_PIXELS));
+
+  it.each(SIZES)(
+    '%i×%i: arenas made in warmingWork decode the same bits; `also` runs once per match',
+    (w, h) => {
+      const p = rampPlane(w, h, 11 * w + h);
+      const ref = decodedReference(p, w, h);
+      let calls = 0;
+      forgetCodes();
+      const got = warmingWork(
+        w,
+        h,
+        () => calls++,
+        () => {
+          const a = analysePlane(p, w, h);
+          // Another size (as the encoder's crop) is left alone.
+          if (w > 1 && h > 1) analysePlane(rampPlane(w - 1, h, 2), w - 1, h);
+          return recordingCodes(() =>
+            STEPS.map((s) => {
+              const x = decodePlane(codeAnalysed(a, s, 2).bytes, w, h, s, 2);
+              const d = digest(x);
+              giveBackWork(x);
+              return d;
+            }),
+          );
+        },
+      );
+      forgetCodes();
+      expect(got).toEqual(ref);
+      expect(calls).toBe(1);
+      analysePlane(p, w, h);
+      expect(calls).toBe(1);
+    },
+  );
+});
