@@ -27,8 +27,8 @@
  *    chain (band-bridge.ts); an edge one half finds and the other does not confirm cuts it too. Between
  *    cuts the profile is made zero-mean on its own, so a doubtful stretch loses only its offset against
  *    the rest instead of vetoing the whole profile or offsetting everything after it.
- * 6. On text pages (banding.ts calls it again when the narrow profile follows the lines of text and this
- *    pass found nothing) ink hides the band edges: the steps are then measured on the paper alone.
+ * 6. Ink, lanes and texture hide band edges: when this pass finds nothing on the whole lines, banding.ts
+ *    calls it again with the steps measured on the background alone (on text pages, the paper).
  *
  * References
  * - J. W. Tukey, "Exploratory Data Analysis", Addison-Wesley 1977: medians and trimmed means as robust
