@@ -144,11 +144,7 @@ export function residualFirstFor(
   // The full planes' arenas map their work region, and an output array per plane is made, as they are
   // transformed (./residual-first does that while the side thread's base estimate runs): the decodes at the end
   // then write into mapped pages (../codec/resident-plane warmingWork).
-  // Grey scans only: a colour scan's chroma planes are coded on the side thread (./residual-first) and rebuilt
-  // by the copying path, so their arenas' work regions would be mapped for nothing (measured: +23k page faults
-  // on a 8.25-MP colour scan).
-  const warmed = <T>(f: () => T) =>
-    prep.planes.length === 1 ? warmingWork(width, height, () => prepareSamples(width * height), f) : f();
+  const warmed = <T>(f: () => T) => warmingWork(width, height, () => prepareSamples(width * height), f);
   const r = recordingCodes(() =>
     warmed(() =>
       residualFirstOrSettle(quietly, {
