@@ -2,16 +2,10 @@
 // residentQView, used by the report's residual check, src-main/engine/lowrank/residual-check.ts) and giving a
 // handed-out reconstruction's memory back (giveBackWork, used by the report's decode): the values equal the
 // TypeScript reference's (kernels and coder port off), the check still refuses a wrong coefficient, and a
-// plane decoded again after a give-back is rebuilt in its own memory with the same bits; arenas whose work
-// region is mapped ahead (warmingWork) decode the same bits.
+// plane decoded again after a give-back is rebuilt in its own memory with the same bits.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { forgetCodes, recordingCodes } from '../../src-main/engine/codec/coded-planes';
-import {
-  giveBackWork,
-  residentArena,
-  residentQView,
-  warmingWork,
-} from '../../src-main/engine/codec/resident-plane';
+import { giveBackWork, residentArena, residentQView } from '../../src-main/engine/codec/resident-plane';
 import { ARENA_MIN_PIXELS, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
 import { analysePlane, codeAnalysed, decodePlane } from '../../src-main/engine/codec/wavelet-plane';
 import { startResidualCheck } from '../../src-main/engine/lowrank/residual-check';
@@ -26,13 +20,6 @@ const SIZES: Array<[number, number]> = [
   [97, 83],
 ];
 const STEPS = [0.7, 4, 19];
-
-/** Digests of the TypeScript reference's decodes of `p` coded at each of {@link STEPS}. */
-const decodedReference = (p: Float32Array, w: number, h: number) =>
-  reference(() => {
-    const a = analysePlane(p, w, h);
-    return STEPS.map((s) => digest(decodePlane(codeAnalysed(a, s, 2).bytes, w, h, s, 2)));
-  });
 
 describe('resident quantised values read in place', () => {
   beforeAll(() => setArenaMinPixels(1));
@@ -83,7 +70,10 @@ describe('resident quantised values read in place', () => {
 
   it.each(SIZES)('%i×%i: decodes after a give-back run in the plane’s memory, with the same bits', (w, h) => {
     const p = rampPlane(w, h, 3 * w + 7 * h);
-    const ref = decodedReference(p, w, h);
+    const ref = reference(() => {
+      const a = analysePlane(p, w, h);
+      return STEPS.map((s) => digest(decodePlane(codeAnalysed(a, s, 2).bytes, w, h, s, 2)));
+    });
     forgetCodes();
     const a = analysePlane(p, w, h);
     const arena = residentArena(a);
@@ -105,42 +95,4 @@ describe('resident quantised values read in place', () => {
     expect(got.map((g) => g.d)).toEqual(ref);
     expect(got.every((g) => g.inPlace && g.copied)).toBe(true);
   });
-});
-
-describe('memory mapped ahead for the report’s decode', () => {
-  beforeAll(() => setArenaMinPixels(1));
-  afterAll(() => setArenaMinPixels(ARENA_MIN_PIXELS));
-
-  it.each(SIZES)(
-    '%i×%i: arenas made in warmingWork decode the same bits; `also` runs once per match',
-    (w, h) => {
-      const p = rampPlane(w, h, 11 * w + h);
-      const ref = decodedReference(p, w, h);
-      let calls = 0;
-      forgetCodes();
-      const got = warmingWork(
-        w,
-        h,
-        () => calls++,
-        () => {
-          const a = analysePlane(p, w, h);
-          // Another size (as the encoder's crop) is left alone.
-          if (w > 1 && h > 1) analysePlane(rampPlane(w - 1, h, 2), w - 1, h);
-          return recordingCodes(() =>
-            STEPS.map((s) => {
-              const x = decodePlane(codeAnalysed(a, s, 2).bytes, w, h, s, 2);
-              const d = digest(x);
-              giveBackWork(x);
-              return d;
-            }),
-          );
-        },
-      );
-      forgetCodes();
-      expect(got).toEqual(ref);
-      expect(calls).toBe(1);
-      analysePlane(p, w, h);
-      expect(calls).toBe(1);
-    },
-  );
 });

@@ -8,13 +8,7 @@ import { analysePlane, codeAnalysed } from '../../src-main/engine/codec/wavelet-
 import { roundInto, ycbcrToRgbSamples } from '../../src-main/engine/colour';
 import { initEngine } from '../../src-main/engine/linalg';
 import { Rng } from '../../src-main/engine/linalg/random';
-import {
-  decodeImageFile,
-  decodeImageFileSamples,
-  dropReadySamples,
-  giveBackSamples,
-  prepareSamples,
-} from '../../src-main/engine/lowrank/decode-image';
+import { decodeImageFile, decodeImageFileSamples } from '../../src-main/engine/lowrank/decode-image';
 import { encodeScan } from '../../src-main/engine/lowrank/encode';
 import { startResidualCheck } from '../../src-main/engine/lowrank/residual-check';
 import { runHere } from '../../src-main/engine/lowrank/side-jobs';
@@ -33,37 +27,6 @@ function field(w: number, h: number, seed: number, max: number): Float32Array {
     const v = max * ((x + y) / (w + h) + square) + (max / 40) * rng.normal();
     return Math.max(0, Math.min(max, Math.round(v)));
   });
-}
-
-/** A scan of seeded fields (one per channel, seeds from `seed`). */
-function scanOf(W: number, H: number, channels: 1 | 3 | 4, bitDepth: 8 | 16, seed: number): DecodedImage {
-  const max = bitDepth === 16 ? 65535 : 255;
-  return {
-    file: 'scan.png',
-    width: W,
-    height: H,
-    channels,
-    bitDepth,
-    colour: channels === 1 ? 'gray' : 'rgb',
-    hasAlpha: channels === 4,
-    planes: Array.from({ length: channels }, (_, c) => field(W, H, seed + c, max)),
-    meta: { format: 'png' },
-    inputBytes: W * H,
-    rawBytes: W * H * channels * (bitDepth / 8),
-    sourceSha256: '0'.repeat(64),
-  };
-}
-
-/** The scan encoded under a PSNR floor of `db`, its recorded plane codes forgotten (so decodes run in full). */
-function encodeAt(img: DecodedImage, db: number) {
-  const r = encodeScan(img, {
-    budget: { kind: 'psnr', db },
-    tile: 'auto',
-    compressors: COMPRESSORS,
-    layers: 'auto',
-  });
-  forgetCodes();
-  return r;
 }
 
 describe('the residual check', () => {
@@ -148,8 +111,28 @@ describe("the report's decode into Float32", () => {
     const [W, H] = [72, 56];
     for (const channels of [1, 4] as const) {
       const bitDepth = channels === 1 ? 16 : 8;
-      const img = scanOf(W, H, channels, bitDepth, 3);
-      const r = encodeAt(img, 40);
+      const max = bitDepth === 16 ? 65535 : 255;
+      const img = {
+        file: 'scan.png',
+        width: W,
+        height: H,
+        channels,
+        bitDepth,
+        colour: channels === 1 ? 'gray' : 'rgb',
+        hasAlpha: channels === 4,
+        planes: Array.from({ length: channels }, (_, c) => field(W, H, 3 + c, max)),
+        meta: { format: 'png' },
+        inputBytes: W * H,
+        rawBytes: W * H * channels * (bitDepth / 8),
+        sourceSha256: '0'.repeat(64),
+      } as DecodedImage;
+      const r = encodeScan(img, {
+        budget: { kind: 'psnr', db: 40 },
+        tile: 'auto',
+        compressors: COMPRESSORS,
+        layers: 'auto',
+      });
+      forgetCodes();
       const f = decodeImageFile(r.bytes, img.file).samples;
       const s = decodeImageFileSamples(r.bytes, img.file).samples;
       expect(f.length).toBe(channels);
@@ -158,28 +141,5 @@ describe("the report's decode into Float32", () => {
         expect(Array.from(f[c])).toEqual(Array.from(s[c]));
       }
     }
-  });
-});
-
-describe('sample arrays made ahead for the report’s decode', () => {
-  it('a prepared or given-back array receives the decode, with the same samples as a new one', () => {
-    const [W, H] = [61, 47];
-    const img = scanOf(W, H, 3, 16, 7);
-    const r = encodeAt(img, 45);
-    const fresh = decodeImageFile(r.bytes, img.file).samples;
-    prepareSamples(W * H);
-    const lent = decodeImageFile(r.bytes, img.file).samples;
-    // Scribble over them: every sample is written again by the next decode.
-    for (const a of lent) a.fill(12345);
-    giveBackSamples(lent);
-    const again = decodeImageFile(r.bytes, img.file).samples;
-    expect(new Set([...again, ...lent]).size).toBe(3);
-    for (let c = 0; c < 3; c++) {
-      expect(Array.from(again[c])).toEqual(Array.from(fresh[c]));
-      expect(again[c].buffer).toBeInstanceOf(SharedArrayBuffer);
-    }
-    dropReadySamples();
-    const after = decodeImageFile(r.bytes, img.file).samples;
-    expect(after.some((a) => lent.includes(a))).toBe(false);
   });
 });

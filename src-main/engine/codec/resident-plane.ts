@@ -142,26 +142,6 @@ export function residentQView(result: object): Int32Array | undefined {
   return arena && new Int32Array(arena.memory.buffer, arena.qAt, arena.n);
 }
 
-/** The plane size whose new arenas map their work region at once ({@link warmingWork}), and what else to do then. */
-let warm: { width: number; height: number; also: () => void } | undefined;
-
-/**
- * Run `f`; each arena made meanwhile for a width×height plane maps its work region's pages at once, and
- * `also` runs beside it (the caller's own memory to map). For callers whose planes will be rebuilt (the
- * report decodes the file it writes): on this hardware a page's first touch costs far more than the
- * arithmetic on it (./wasm/arena.ts), and the encoder makes its arenas just before it waits for its side
- * thread, so the pages are mapped in that wait instead of in the decode at the end.
- */
-export function warmingWork<T>(width: number, height: number, also: () => void, f: () => T): T {
-  const outer = warm;
-  warm = { width, height, also };
-  try {
-    return f();
-  } finally {
-    warm = outer;
-  }
-}
-
 /** A new arena holding the forward transform (`levels` levels) of `plane`; null when none can be made. */
 export function analyseResident(
   plane: ArrayLike<number>,
@@ -173,10 +153,6 @@ export function analyseResident(
   if (!arena) return null;
   arena.load(plane);
   if (levels > 0) arena.transform(levels, LIFTING, false);
-  if (warm && warm.width === width && warm.height === height) {
-    arena.touchWork();
-    warm.also();
-  }
   return arena;
 }
 

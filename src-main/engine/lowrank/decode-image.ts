@@ -41,39 +41,7 @@ export interface DecodedRkf {
  * @throws FormatError
  */
 export function decodeImageFile(bytes: Uint8Array, file: string, opts: ReadOptions = {}): DecodedRkf {
-  return decodeWith(bytes, file, opts, takeSamples);
-}
-
-/** Output arrays made ahead with their pages mapped ({@link prepareSamples}, {@link giveBackSamples}). */
-const ready: Float32Array[] = [];
-/** Most arrays kept ready: one decode of a colour scan with alpha. */
-const MAX_READY = 4;
-
-/**
- * Make a shared Float32Array of `n` samples for a later {@link decodeImageFile} and map its pages now (a page's
- * first touch costs more than the decode's arithmetic on it), e.g. while this thread would wait anyway.
- */
-export function prepareSamples(n: number): void {
-  if (ready.length >= MAX_READY) return;
-  const a = sharedFloat32(n);
-  for (let i = 0; i < n; i += 1024) a[i] = 0;
-  ready.push(a);
-}
-
-/** A decoded file's sample arrays, no longer referenced by the caller: the next decodes write into them. */
-export function giveBackSamples(samples: Float32Array[]): void {
-  for (const a of samples) if (ready.length < MAX_READY && !ready.includes(a)) ready.push(a);
-}
-
-/** Drop the arrays kept ready (the end of an encode: nothing is held between files). */
-export function dropReadySamples(): void {
-  ready.length = 0;
-}
-
-/** A ready array of `n` samples (its old values are all overwritten by the decode), or a new one. */
-function takeSamples(n: number): Float32Array {
-  const i = ready.findIndex((a) => a.length === n);
-  return i < 0 ? sharedFloat32(n) : ready.splice(i, 1)[0];
+  return decodeWith(bytes, file, opts, sharedFloat32);
 }
 
 /** A zeroed Float32Array of `n` values, on a SharedArrayBuffer when the runtime has one. */

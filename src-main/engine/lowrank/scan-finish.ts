@@ -7,16 +7,9 @@ import type { DecodedImage } from '../../contract';
 import { forgetCodes, recordingCodes } from '../codec/coded-planes';
 import { encodePlanes, RESIDUAL_MAX_PIXELS } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
-import { warmingWork } from '../codec/resident-plane';
 import { psnrPlanes } from '../metrics';
 import { AUTO_PROBE_PIXELS } from './centred-crop';
-import {
-  type DecodedRkf,
-  decodeImageFile,
-  dropReadySamples,
-  giveBackSamples,
-  prepareSamples,
-} from './decode-image';
+import { type DecodedRkf, decodeImageFile } from './decode-image';
 import type { EncodeOptions } from './encode-options';
 import type { EncodedPlanes } from './error-figures';
 import type { ImageBuild } from './image-writer';
@@ -89,7 +82,6 @@ export function finishScan(
     ranks: Int32Array.from(p.tiles, (t) => t.u.length),
   }));
   const baseBytes = encodePlanes(basePlanes, entropy, opts.compressors).reduce((s, b) => s + b.length, 0);
-  dropReadySamples();
   return {
     bytes,
     header: decoded.header,
@@ -141,38 +133,30 @@ export function residualFirstFor(
       // The encode failed already (e.g. cancelled): that error is the one to report.
     }
   };
-  // The full planes' arenas map their work region, and an output array per plane is made, as they are
-  // transformed (./residual-first does that while the side thread's base estimate runs): the decodes at the end
-  // then write into mapped pages (../codec/resident-plane warmingWork).
-  const warmed = <T>(f: () => T) => warmingWork(width, height, () => prepareSamples(width * height), f);
   const r = recordingCodes(() =>
-    warmed(() =>
-      residualFirstOrSettle(quietly, {
-        planes: prep.planes,
-        weights: prep.weights,
-        width,
-        height,
-        maxValue: max,
-        budget: opts.budget,
-        byteBudget,
-        build: (planes, residual) => {
-          const file = build(planes, false, residual);
-          if (side) {
-            settle();
-            pending = { file, join: startResidualCheck(side, residual, width, height, img.file) };
-          }
-          return file;
-        },
-        side,
-        measuredSse: (bytes) => {
-          // The previous file's samples are not kept (only the last file's decoding is): decode into them.
-          if (last) giveBackSamples(last.decoded.samples);
-          last = { bytes, decoded: decodeImageFile(bytes, img.file) };
-          return decodedSse(last.decoded, img, prep);
-        },
-        cancel,
-      }),
-    ),
+    residualFirstOrSettle(quietly, {
+      planes: prep.planes,
+      weights: prep.weights,
+      width,
+      height,
+      maxValue: max,
+      budget: opts.budget,
+      byteBudget,
+      build: (planes, residual) => {
+        const file = build(planes, false, residual);
+        if (side) {
+          settle();
+          pending = { file, join: startResidualCheck(side, residual, width, height, img.file) };
+        }
+        return file;
+      },
+      side,
+      measuredSse: (bytes) => {
+        last = { bytes, decoded: decodeImageFile(bytes, img.file) };
+        return decodedSse(last.decoded, img, prep);
+      },
+      cancel,
+    }),
   );
   if (!r) forgetCodes();
   // The kept file's check is joined by finishScan; any other is joined now (its answer must not linger).

@@ -21,8 +21,6 @@ import { type BandRect, CHUNK, COEF, type LiftingExports, liftingOn, writeBands 
 
 /** Bytes in a WebAssembly page. */
 const PAGE = 65536;
-/** Bytes in a page of the operating system's memory (x86-64 and most arm64 kernels; from memory). */
-const OS_PAGE = 4096;
 /** Most memory a 32-bit module addresses, less a page. */
 const MAX_BYTES = 4 * 2 ** 30 - PAGE;
 /** Start of the plane's arrays: past the lifting tables (page 0) and the coder's scratch (page 1). */
@@ -101,15 +99,6 @@ export class PlaneArena {
       this.coeffView = new Float64Array(this.buffer, this.coeffsAt, this.n);
     }
     return this.buffer;
-  }
-
-  /**
-   * Write one byte in each 4-KiB page of the work region, so its pages are mapped now rather than by the
-   * reconstruction that fills the region later (the values stay zero: the region is fresh).
-   */
-  touchWork(): void {
-    const work = new Uint8Array(this.fresh(), this.workAt, 8 * this.n);
-    for (let i = 0; i < work.length; i += OS_PAGE) work[i] = 0;
   }
 
   /** The resident coefficients (a view: valid until the next call on this arena that may grow it). */
