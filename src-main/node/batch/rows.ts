@@ -2,7 +2,13 @@
  * The manifest row each entry of a batch gets: planned (dry run), kept or compressed (from a finished job),
  * failed, or skipped (not a regular file). Every row names the shard that wrote it.
  */
-import { type BatchRow, type CompressOptions, type ErrorPayload, MANIFEST_VERSION } from '../../contract';
+import {
+  type BatchRow,
+  type CompressOptions,
+  type ErrorPayload,
+  MANIFEST_VERSION,
+  OPTIONS,
+} from '../../contract';
 import { isNotAnImage } from '../image/refusals';
 import type { BatchJobResult } from './job';
 import type { PlannedFile, SkippedEntry } from './plan';
@@ -36,7 +42,12 @@ export function settingsText(c: CompressOptions): string {
             : b.kind === 'psnr'
               ? `min-psnr=${b.db}`
               : `min-ssim=${b.value}`;
-  return `${budget} tile=${c.tile}${c.page ? ` page=${c.page}` : ''}`;
+  // `--lossless` without a budget stands in as the PSNR floor's top (cli/args/budget-options): say lossless,
+  // so --resume tells it from a real `--min-psnr` run; `lossless: false` (never exact) is a setting of its own.
+  const stand = b.kind === 'psnr' && b.db === OPTIONS.minPsnr.max;
+  const exact = c.lossless === true ? (stand ? 'lossless' : `lossless ${budget}`) : undefined;
+  const head = exact ?? (c.lossless === false ? `${budget} lossless=never` : budget);
+  return `${head} tile=${c.tile}${c.page ? ` page=${c.page}` : ''}`;
 }
 
 /** The row of a finished job: kept by its .rkf header, or compressed (and failed when --expand-check failed). */
