@@ -20,7 +20,7 @@ export async function bandingSection(images: Gray[], log: (s?: string) => void):
   );
   log('"Removed" is the share of the stripe energy taken out: 1 − ‖ŝ − s‖²/‖s‖².');
   log(
-    'The wide-band pass (bands 50–200 px) is part of `--banding auto`: where its guards find the band edges uncertain it rebuilds the profile as a chain, cut where a link is doubtful (each stretch between cuts keeps its own offset), and removes nothing when too few edges are certain (found: none).',
+    'The wide-band pass (bands 50–200 px) is part of `--banding auto`: where its guards find the band edges uncertain it rebuilds the profile as a chain (used whole when it passes the level check; otherwise cut where a link is doubtful, each stretch between cuts keeping its own offset; a link where a quarter of the lines agree on no step is bridged with 0), and removes nothing when too few edges are certain (found: none).',
   );
   log('');
   log('| image | damage | found | strength (true) | period (true) | removed | PSNR before → after | time |');

@@ -765,8 +765,17 @@ async function main() {
     }
     return w;
   };
-  const verdict: Record<string, boolean> = { opjMean: true, opj1: true, moz: true, avif: true };
+  const verdict: Record<string, boolean> = {
+    opjMean: true,
+    opj1: true,
+    moz: true,
+    avif: true,
+    avifLossy: true,
+  };
   const avifMeans: number[] = [];
+  // The capped means let a row where one file is exact (Δ up to ~70 dB at the 100-dB cap) outweigh all the
+  // others, so the moonshot is also judged over the rows where neither file is exact.
+  const avifLossyMeans: number[] = [];
   const noFile: string[] = [];
   for (const bpp of RATES) {
     const rs = rows.filter((r) => r.bpp === bpp);
@@ -779,6 +788,10 @@ async function main() {
     const mOpj = dm((r) => r.opj);
     const mAvif = dm((r) => r.avif);
     avifMeans.push(mAvif);
+    const lossy = ok.filter((r) => Number.isFinite(r.rf.psnr) && Number.isFinite(r.avif?.psnr ?? Number.NaN));
+    const mAvifLossy = mean(lossy.map((r) => delta(r.rf, r.avif)));
+    avifLossyMeans.push(mAvifLossy);
+    if (!(mAvifLossy >= -1)) verdict.avifLossy = false;
     const failed = ok.length < rs.length;
     if (!(mOpj >= 0) || failed) verdict.opjMean = false;
     if ((wOpj && !(wOpj.d >= -1)) || failed) verdict.opj1 = false;
@@ -804,7 +817,8 @@ async function main() {
     `| rate–distortion: mean PSNR ≥ OpenJPEG at every rate | ${opjProblem ? 'not measured (no OpenJPEG)' : mark(verdict.opjMean)} |`,
     `| rate–distortion: no image more than 1 dB below OpenJPEG | ${opjProblem ? 'not measured' : mark(verdict.opj1)} |`,
     `| rate–distortion: no image below mozjpeg | ${mark(verdict.moz)} |`,
-    `| moonshot: mean within 1 dB of AVIF (effort 6) at every rate | ${mark(verdict.avif)} (mean Δ per rate: ${avifMeans.map(d2).join(', ')} dB) |`,
+    `| moonshot: mean within 1 dB of AVIF (effort 6) at every rate, exact results capped at ${PSNR_CAP} dB | ${mark(verdict.avif)} (mean Δ per rate: ${avifMeans.map(d2).join(', ')} dB) |`,
+    `| moonshot, over the rows where neither file is exact (the capped rows above can outweigh all others; the moonshot counts as met only when both rows say so) | ${mark(verdict.avifLossy)} (mean Δ per rate: ${avifLossyMeans.map(d2).join(', ')} dB) |`,
   );
   const mRf = median(rfMs);
   const mOpj = opjMs.length ? median(opjMs) : Number.NaN;
