@@ -214,7 +214,7 @@ export class SpectrumCharts {
         series: [
           {},
           { label: 'PSNR', scale: 'db', stroke: '#2f5d8a', width: 1.5 },
-          { label: 'best total error', scale: 'g', stroke: '#7a3b69', width: 1.5 },
+          { label: 'best rank-k error', scale: 'g', stroke: '#7a3b69', width: 1.5 },
           { label: 'largest error σₖ₊₁', scale: 'g', stroke: '#8a6d1f', width: 1.5, dash: [4, 3] },
           ...markSeries('rank shown', true).map((m) => ({ ...m, scale: 'db' })),
         ],
