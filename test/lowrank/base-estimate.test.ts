@@ -1,9 +1,24 @@
 // The crop's base-layer estimate (engine/lowrank/base-estimate.ts: Gram-matrix tile SVDs, flat arrays) against
-// the candidate search's own estimate on Jacobi tile SVDs (engine/lowrank/solve.ts estimateErrorAtBytes).
+// the candidate search's own estimate on Jacobi tile SVDs (estimateErrorAtBytes below, formerly in engine/lowrank/solve.ts).
 import { describe, expect, it } from 'vitest';
 import { baseErrorAtBytes, tileColumns } from '../../src-main/engine/lowrank/base-estimate';
+import { buildCandidate, estimatedError, prefixForBytes } from '../../src-main/engine/lowrank/candidate';
 import { factorPlane } from '../../src-main/engine/lowrank/factorise';
-import { estimateErrorAtBytes } from '../../src-main/engine/lowrank/solve';
+import { hillClimb, type PlaneInput, stepGrid } from '../../src-main/engine/lowrank/solve';
+
+/**
+ * The reference: the candidate search's own estimate, as residual-first computed it before lowrank/base-estimate
+ * (the coarse step scan of solve.ts solveBytes: quantised components and the cost model at ratio 1, no refit).
+ */
+function estimateErrorAtBytes(inputs: PlaneInput[], payload: number, maxValue: number): number {
+  const grid = stepGrid(maxValue);
+  const climb = hillClimb(grid.length, (k) => {
+    const c = buildCandidate(inputs, grid[k], { refit: false });
+    return estimatedError(c, prefixForBytes(c.cumCost, payload, 1));
+  });
+  return climb[0].err;
+}
+
 import { decodeImage } from '../../src-main/node/image/decode';
 import { image } from '../helpers/fixtures';
 

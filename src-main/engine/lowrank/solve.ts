@@ -119,20 +119,6 @@ export function solveBytes(
   return best;
 }
 
-/**
- * Estimated weighted squared error of the best base-only plan whose factor streams take `payload` bytes: the
- * coarse step scan of {@link solveBytes} (quantised components and the cost model at ratio 1, no refit, no
- * encodes). For deciding whether a base layer is worth factoring at all (./residual-first).
- */
-export function estimateErrorAtBytes(inputs: PlaneInput[], payload: number, maxValue: number): number {
-  const grid = stepGrid(maxValue);
-  const climb = hillClimb(grid.length, (k) => {
-    const c = buildCandidate(inputs, grid[k], { refit: false });
-    return estimatedError(c, prefixForBytes(c.cumCost, payload, 1));
-  });
-  return climb[0].err;
-}
-
 /** Most tiles the step scan looks at. */
 const SCAN_TILES = 256;
 
