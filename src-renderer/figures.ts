@@ -112,8 +112,16 @@ export function reportRank(r: Pick<CompressReport, 'ranks'>): number | undefined
   return Math.round(10 * mean) / 10;
 }
 
-/** The encoder's own figures. */
-export function reportFigures(r: CompressReport): Figures {
+/**
+ * The encoder's own figures. `spectrum`: the page's whole-plane spectrum of the same grey scan, used for
+ * the one figure the encoder leaves out: at rank 0 (residual layer only) it does not factor the plane, so
+ * its σ₁ is NaN; the largest error of the empty base is then σ₁ itself, which the page's spectrum holds
+ * (Eckart–Young–Mirsky: ‖A − A₀‖₂ = σ₁).
+ */
+export function reportFigures(
+  r: CompressReport,
+  spectrum?: Pick<Spectrum, 'planes' | 'spectralBound'>,
+): Figures {
   const layered = (r.layers?.residualBytes ?? 0) > 0;
   return {
     rank: reportRank(r),
@@ -122,11 +130,19 @@ export function reportFigures(r: CompressReport): Figures {
     ratio: r.ratio,
     bytes: r.outputBytes,
     bpp: r.bpp,
-    'spectral-bound': r.errors.spectralBound,
+    'spectral-bound': spectralAtReport(r, spectrum),
     'frobenius-optimal': r.errors.frobeniusOptimal,
     // The report's errors are the base layer's; with a residual layer on top, Total error is the file's.
     frobenius: layered ? fileError(r) : r.errors.frobenius,
   };
+}
+
+/** The report's σₖ₊₁, or σ₁ from the page's spectrum for a grey rank-0 file (see {@link reportFigures}). */
+function spectralAtReport(r: CompressReport, spectrum?: Pick<Spectrum, 'planes' | 'spectralBound'>): number {
+  // NaN in the engine, null once it has crossed JSON: either way not a number.
+  const s = r.errors.spectralBound;
+  const greyRank0 = r.channels === 1 && r.ranks.length === 1 && r.ranks[0].rank === 0;
+  return !Number.isFinite(s) && greyRank0 && spectrum?.planes.length === 1 ? spectrum.spectralBound(0) : s;
 }
 
 /**

@@ -61,7 +61,8 @@ export function createReadouts(state: PageState): Readouts {
       set(state.tiled ? { rank: k } : estimateFigures(m, s, state.measured, k), false, k);
     },
     showReport(r, rank) {
-      set(reportFigures(r), true, rank);
+      // The page's spectrum is the whole plane's: it says nothing about a tiled base.
+      set(reportFigures(r, state.tiled ? undefined : state.model), true, rank);
       if (shown) shown.residual = (r.layers?.residualBytes ?? 0) > 0;
     },
     showStack(info, size) {

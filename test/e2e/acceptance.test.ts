@@ -120,8 +120,11 @@ describe('acceptance: "38 dB" on a scan the app has not seen', () => {
         await cliFigures(join(samples, 'unseen-page.png'), ['--min-psnr', '38']),
       );
       // A file with a residual layer is shown as decoded (the page cannot rebuild it from σ, U, V), and said so.
-      if (Number(slider) === 0)
+      // …and its largest error is σ₁ of the page's own spectrum (the encoder does not factor at rank 0).
+      if (Number(slider) === 0) {
         expect(await page.textContent('#label-right')).toContain('wavelet residual layer only');
+        expect(Number(cells.find((c) => c.metric === 'spectral-bound')?.value)).toBeGreaterThan(0);
+      }
       if (strict) expect(seconds).toBeLessThanOrEqual(LIMIT_S);
     },
     (CI_LIMIT_S + 180) * 1000,

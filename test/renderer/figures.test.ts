@@ -129,6 +129,30 @@ describe('reportFigures and stackFigures', () => {
     expect(reportFigures(r)['frobenius-optimal']).toBe(278232.5);
   });
 
+  it('a grey rank-0 file shows σ₁ of the page’s spectrum as its largest error, never for colour or ranks > 0', () => {
+    // Eckart–Young–Mirsky: the spectral error of the rank-0 truncation is σ₁ (‖A − A₀‖₂ = ‖A‖₂).
+    const spectrum = { planes: [{}], spectralBound: (k: number) => [5000, 300, 20][k] };
+    const grey0 = {
+      channels: 1,
+      ranks: [{ channel: 'gray', rank: 0 }],
+      errors: { spectralBound: Number.NaN, frobeniusOptimal: 9, frobenius: 9 },
+    } as CompressReport;
+    expect(reportFigures(grey0, spectrum)['spectral-bound']).toBe(5000);
+    expect(reportFigures(grey0)['spectral-bound']).toBeNaN();
+    // As the page receives it: JSON turns NaN into null.
+    const wire = JSON.parse(JSON.stringify(grey0)) as CompressReport;
+    expect(wire.errors.spectralBound).toBeNull();
+    expect(reportFigures(wire, spectrum)['spectral-bound']).toBe(5000);
+    const colour0 = { ...grey0, channels: 3, ranks: [0, 0, 0].map((rank) => ({ channel: 'y', rank })) };
+    expect(reportFigures(colour0 as CompressReport, spectrum)['spectral-bound']).toBeNaN();
+    const grey7 = {
+      ...grey0,
+      ranks: [{ channel: 'gray', rank: 7 }],
+      errors: { ...grey0.errors, spectralBound: 11 },
+    };
+    expect(reportFigures(grey7 as CompressReport, spectrum)['spectral-bound']).toBe(11);
+  });
+
   it("take the encoder's figures as they are", () => {
     const r = {
       ranks: [{ channel: 'gray', rank: 7 }],
