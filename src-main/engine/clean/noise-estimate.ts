@@ -35,9 +35,13 @@ export function estimateNoiseSigma(
   keep = NOISE_KEEP_FRACTION,
 ): number {
   const blocks = haarBlocks(plane, width, height, clipLow, clipHigh);
-  if (!blocks) return 0;
-  const { idx, score, hh, integral } = blocks;
-  idx.sort((p, q) => score[p] - score[q] || p - q);
+  return blocks ? sigmaOfBlocks(blocks, keep) : 0;
+}
+
+/** σ̂ from the `keep` fraction of least-textured blocks (estimateNoiseSigma's rule; `blocks` is left as it was). */
+export function sigmaOfBlocks(blocks: HaarBlocks, keep = NOISE_KEEP_FRACTION): number {
+  const { score, hh, integral } = blocks;
+  const idx = blocks.idx.slice().sort((p, q) => score[p] - score[q] || p - q);
   const n = Math.max(1, Math.floor(idx.length * keep));
   const v = new Float64Array(n);
   for (let k = 0; k < n; k++) v[k] = hh[idx[k]];
@@ -52,6 +56,11 @@ export interface HaarBlocks {
   score: Float64Array;
   /** |a − b − c + d| = 2·|HH| of each block. */
   hh: Float64Array;
+  /** The other two detail coefficients of each block, (a + b − c − d)/2 and (a − b + c − d)/2. */
+  lh: Float64Array;
+  hl: Float64Array;
+  /** Blocks per row, ⌊width/2⌋. */
+  bw: number;
   /** Indices of the blocks that touch neither clip level, in raster order. */
   idx: number[];
   /** True when every |HH|·2 is an integer (integer input): medians then use the grouped-data rule. */
@@ -72,6 +81,8 @@ export function haarBlocks(
   const ll = new Float64Array(bw * bh);
   const tex = new Float64Array(bw * bh);
   const hh = new Float64Array(bw * bh);
+  const lhs = new Float64Array(bw * bh);
+  const hls = new Float64Array(bw * bh);
   const ok = new Uint8Array(bw * bh);
   let integral = true;
   for (let by = 0; by < bh; by++) {
@@ -84,7 +95,11 @@ export function haarBlocks(
       const d = plane[r1 + 2 * bx + 1];
       const i = by * bw + bx;
       ll[i] = (a + b + c + d) / 2;
-      tex[i] = Math.abs(a + b - c - d) / 2 + Math.abs(a - b + c - d) / 2;
+      const lh = (a + b - c - d) / 2;
+      const hl = (a - b + c - d) / 2;
+      tex[i] = Math.abs(lh) + Math.abs(hl);
+      lhs[i] = lh;
+      hls[i] = hl;
       const t = Math.abs(a - b - c + d);
       hh[i] = t;
       if (integral && t !== Math.round(t)) integral = false;
@@ -104,7 +119,7 @@ export function haarBlocks(
     }
   if (idx.length === 0) return null;
   const mean = ll.map((v) => v / 2);
-  return { mean, score, hh, idx, integral };
+  return { mean, score, hh, lh: lhs, hl: hls, bw, idx, integral };
 }
 
 /**
