@@ -44,10 +44,12 @@ import {
   type HaarBlocks,
   haarBlocks,
   MAD_TO_SIGMA,
+  scoreOrder,
   sigmaOfBlocks,
 } from './noise-estimate';
 import { flatnessStatistic, TRIMMED_SPREAD, trimmedVariance } from './noise-flat';
 import { fitLevelsTrimmed, type LevelFit, MAD_SPREAD, type NoiseLevelPoint } from './noise-level-ml';
+import { rankValues, sortByKey } from './noise-sort';
 
 export interface NoiseLevelFit {
   a: number;
@@ -90,8 +92,8 @@ const DECLIP_STEPS = 6;
 /**
  * Fit σ²(x) = a·x + b to `plane` (values 0…maxValue, stored clipped to that range). Every block is used,
  * those touching 0 or maxValue too: level sets near the limits are fitted through the clipped model
- * (noise-clip.ts), so they neither drop out nor bend the line. Returns null when the plane has too few
- * blocks for three level sets.
+ * (noise-clip.ts), so they neither drop out nor bend the line. The first fit (level sets of the block means)
+ * is only computed when the flat-block fit finds no answer. Returns null when neither finds three level sets.
  */
 export function fitNoiseLevel(
   plane: ArrayLike<number>,
@@ -101,56 +103,85 @@ export function fitNoiseLevel(
 ): NoiseLevelFit | null {
   const blocks = haarBlocks(plane, width, height);
   if (!blocks) return null;
-  const { idx, mean } = blocks;
-  const sorted = idx.slice().sort((p, q) => mean[p] - mean[q] || p - q);
-  const first = fitSelection(blocks, levelSets(sorted, blocks.score), maxValue, mean, false);
-  if (!first) return null;
-  const best = fitFlat(blocks, maxValue) ?? first;
-  const pct = (q: number) => mean[sorted[Math.min(sorted.length - 1, Math.floor(q * sorted.length))]];
-  return { ...best.fit, points: best.points, low: pct(0.05), high: pct(0.95) };
+  const best = fitFlat(blocks, maxValue) ?? firstFit(blocks, maxValue);
+  if (!best) return null;
+  const [low, high] = rankValues(blocks.idx, blocks.mean, [0.05, 0.95]);
+  return { ...best.fit, points: best.points, low, high };
+}
+
+/**
+ * Level sets as one array: set l is `members[starts[l]] … members[starts[l + 1] − 1]` (no array per set).
+ */
+interface LevelSets {
+  members: Int32Array;
+  starts: Int32Array;
 }
 
 /**
  * The fit on flat blocks only (header): FLAT_STEPS rounds of flatness test → level sets → fit, each round
- * testing against the last round's model. Null when a round finds fewer than three level sets or no fit.
+ * testing against the last round's model. The blocks are ordered by their neighbourhood mean once; each round
+ * filters that order into one reused buffer. Null when a round finds fewer than three level sets or no fit.
  */
 function fitFlat(blocks: HaarBlocks, maxValue: number): { fit: LevelFit; points: NoiseLevelPoint[] } | null {
   const { stat, smooth } = flatnessStatistic(blocks);
-  const order = blocks.idx.filter((i) => Number.isFinite(stat[i]));
-  order.sort((p, q) => smooth[p] - smooth[q] || p - q);
+  const finite = new Int32Array(blocks.idx.length);
+  let m = 0;
+  for (const i of blocks.idx) if (Number.isFinite(stat[i])) finite[m++] = i;
+  const order = sortByKey(finite.subarray(0, m), smooth);
   const s0 = sigmaOfBlocks(blocks);
   let model: { a: number; b: number } = { a: 0, b: s0 * s0 };
   let best: { fit: LevelFit; points: NoiseLevelPoint[] } | null = null;
+  const flat = new Int32Array(order.length);
+  const starts = new Int32Array(MAX_LEVELS + 1);
   for (let step = 0; step < FLAT_STEPS; step++) {
-    const m = model;
-    const flat = order.filter((i) => stat[i] < FLAT_QUANTILE * Math.max(MIN_VARIANCE, m.a * smooth[i] + m.b));
-    const levels = Math.min(MAX_LEVELS, Math.floor(flat.length / MIN_FLAT_PER_LEVEL));
+    const { a, b } = model;
+    let n = 0;
+    for (let k = 0; k < order.length; k++) {
+      const i = order[k];
+      if (stat[i] < FLAT_QUANTILE * Math.max(MIN_VARIANCE, a * smooth[i] + b)) flat[n++] = i;
+    }
+    const levels = Math.min(MAX_LEVELS, Math.floor(n / MIN_FLAT_PER_LEVEL));
     if (levels < 3) return null;
-    const sets: number[][] = [];
-    for (let l = 0; l < levels; l++)
-      sets.push(
-        flat.slice(Math.floor((l * flat.length) / levels), Math.floor(((l + 1) * flat.length) / levels)),
-      );
-    best = fitSelection(blocks, sets, maxValue, smooth, true);
+    for (let l = 0; l <= levels; l++) starts[l] = Math.floor((l * n) / levels);
+    best = fitSelection(
+      blocks,
+      { members: flat, starts: starts.subarray(0, levels + 1) },
+      maxValue,
+      smooth,
+      true,
+    );
     if (!best) return null;
     model = best.fit;
   }
   return best;
 }
 
-/** Split blocks ordered by mean into level sets of equal count; each keeps its least-textured KEEP share. */
-function levelSets(sorted: number[], score: Float64Array): number[][] {
-  const levels = Math.min(MAX_LEVELS, Math.floor(sorted.length / MIN_BLOCKS_PER_LEVEL));
-  const sets: number[][] = [];
+/**
+ * The first fit: blocks ordered by mean, split into level sets of equal count, each keeping its
+ * least-textured KEEP share. The share is taken from the one texture order of all blocks (scoreOrder), so
+ * every set lists its blocks by texture, ties by index, as a sort of the set itself would.
+ */
+function firstFit(blocks: HaarBlocks, maxValue: number): { fit: LevelFit; points: NoiseLevelPoint[] } | null {
+  const byMean = sortByKey(blocks.idx, blocks.mean);
+  const n = byMean.length;
+  const levels = Math.min(MAX_LEVELS, Math.floor(n / MIN_BLOCKS_PER_LEVEL));
+  if (levels < 3) return null;
+  const setOf = new Int32Array(blocks.mean.length);
+  const starts = new Int32Array(levels + 1);
+  const fill = new Int32Array(levels);
   for (let l = 0; l < levels; l++) {
-    const set = sorted.slice(
-      Math.floor((l * sorted.length) / levels),
-      Math.floor(((l + 1) * sorted.length) / levels),
-    );
-    set.sort((p, q) => score[p] - score[q] || p - q);
-    sets.push(set.slice(0, Math.max(1, Math.floor(set.length * KEEP))));
+    const lo = Math.floor((l * n) / levels);
+    const hi = Math.floor(((l + 1) * n) / levels);
+    for (let k = lo; k < hi; k++) setOf[byMean[k]] = l;
+    fill[l] = starts[l];
+    starts[l + 1] = starts[l] + Math.max(1, Math.floor((hi - lo) * KEEP));
   }
-  return sets;
+  const members = new Int32Array(starts[levels]);
+  for (const i of scoreOrder(blocks)) {
+    const l = setOf[i];
+    if (fill[l] < starts[l + 1]) members[fill[l]++] = i;
+  }
+  return fitSelection(blocks, { members, starts }, maxValue, blocks.mean, false);
 }
 
 /**
@@ -160,25 +191,33 @@ function levelSets(sorted: number[], score: Float64Array): number[][] {
  */
 function fitSelection(
   blocks: HaarBlocks,
-  sets: number[][],
+  sets: LevelSets,
   maxValue: number,
   levelOf: Float64Array,
   trimmed: boolean,
 ): { fit: LevelFit; points: NoiseLevelPoint[] } | null {
-  if (sets.length < 3) return null;
+  const { members, starts } = sets;
+  const count = starts.length - 1;
+  if (count < 3) return null;
   const { hh, integral } = blocks;
   const spread = trimmed ? TRIMMED_SPREAD : MAD_SPREAD;
-  const raw: NoiseLevelPoint[] = sets.map((set) => {
-    const v = new Float64Array(set.length);
+  let largest = 0;
+  for (let l = 0; l < count; l++) largest = Math.max(largest, starts[l + 1] - starts[l]);
+  const scratch = new Float64Array(largest);
+  const raw: NoiseLevelPoint[] = [];
+  for (let l = 0; l < count; l++) {
+    const from = starts[l];
+    const size = starts[l + 1] - from;
+    const v = scratch.subarray(0, size);
     let level = 0;
-    for (let k = 0; k < set.length; k++) {
-      v[k] = hh[set[k]];
-      level += levelOf[set[k]];
+    for (let k = 0; k < size; k++) {
+      v[k] = hh[members[from + k]];
+      level += levelOf[members[from + k]];
     }
     const median = (integral ? groupedMedian(v) : exactMedian(v)) / 2 / MAD_TO_SIGMA;
     const sigma = trimmed ? Math.sqrt(trimmedVariance(v, median)) : median;
-    return { level: level / set.length, sigma, count: set.length, used: true };
-  });
+    raw.push({ level: level / size, sigma, count: size, used: true });
+  }
   // On integer data a σ̂² below the rounding variance means the noise is not resolved there (flat, noiseless).
   const keep = raw.map((p) => !integral || p.sigma * p.sigma >= ROUNDING_VARIANCE);
   let points = raw.map((p, i) => ({
