@@ -31,14 +31,21 @@ import type { HaarBlocks } from './noise-estimate';
  * alone) and the mean of the 6×6 pixels around it (`smooth`). The level sets are ordered by `smooth`, not by
  * the block's own 2×2 mean: sorted by a noisy level, one flat region would spread over several level sets
  * at one true variance (errors in the variables), which flattens the fitted slope; the 36-pixel mean has a
- * third of the 4-pixel mean's noise.
+ * third of the 4-pixel mean's noise. `total` = 18·`smooth` (the sum of the nine LL values) is the same order as
+ * a sort key: on integer data it is a multiple of ½, so its float64 pattern ends in zero bits and a radix sort
+ * skips half its passes (noise-sort.ts).
  */
-export function flatnessStatistic(blocks: HaarBlocks): { stat: Float64Array; smooth: Float64Array } {
+export function flatnessStatistic(blocks: HaarBlocks): {
+  stat: Float64Array;
+  smooth: Float64Array;
+  total: Float64Array;
+} {
   const { bw, lh: lhs, hl: hls } = blocks;
   const bh = blocks.mean.length / bw;
   const ll = blocks.mean;
   const out = new Float64Array(bw * bh).fill(Number.POSITIVE_INFINITY);
   const smooth = new Float64Array(bw * bh);
+  const total = new Float64Array(bw * bh);
   for (let by = 1; by + 1 < bh; by++)
     for (let bx = 1; bx + 1 < bw; bx++) {
       const i = by * bw + bx;
@@ -58,8 +65,9 @@ export function flatnessStatistic(blocks: HaarBlocks): { stat: Float64Array; smo
       const rss = sq - (sum * sum) / 9 - (gx * gx) / 6 - (gy * gy) / 6;
       out[i] = Math.max(0, rss) + lhs[i] * lhs[i] + hls[i] * hls[i];
       smooth[i] = sum / 18;
+      total[i] = sum;
     }
-  return { stat: out, smooth };
+  return { stat: out, smooth, total };
 }
 
 /** Cut-off of the trimmed variance, in units of the median-based σ̂ (chosen here; 0.27 % of pure noise is cut). */

@@ -123,11 +123,11 @@ interface LevelSets {
  * filters that order into one reused buffer. Null when a round finds fewer than three level sets or no fit.
  */
 function fitFlat(blocks: HaarBlocks, maxValue: number): { fit: LevelFit; points: NoiseLevelPoint[] } | null {
-  const { stat, smooth } = flatnessStatistic(blocks);
+  const { stat, smooth, total } = flatnessStatistic(blocks);
   const finite = new Int32Array(blocks.idx.length);
   let m = 0;
   for (const i of blocks.idx) if (Number.isFinite(stat[i])) finite[m++] = i;
-  const order = sortByKey(finite.subarray(0, m), smooth);
+  const order = sortByKey(finite.subarray(0, m), total);
   const s0 = sigmaOfBlocks(blocks);
   let model: { a: number; b: number } = { a: 0, b: s0 * s0 };
   let best: { fit: LevelFit; points: NoiseLevelPoint[] } | null = null;
