@@ -20,17 +20,19 @@
  * better (median error of a 10–20 % either way; on textured and narrow-range images it was worse), so it is
  * not used.
  *
- * That first fit is only the start (and the answer when what follows finds fewer than three level sets). The
- * paper's segmentation is then done as a test calibrated on the noise (noise-flat.ts): a block is kept when
- * its 6×6-pixel neighbourhood is a plane up to noise of the current model's variance (χ²₈ below its 90 %
- * quantile); the kept blocks are ordered by their neighbourhood mean into level sets of equal count, the
- * noise of each is a trimmed mean of HH² (efficient where the median wastes blocks), and the model is fitted
- * again; FLAT_STEPS times, starting from white noise of the whole-plane σ̂ (noise-estimate.ts). Measured on
- * the benchmark's 5 images × 3 Poisson–Gaussian levels and on 10 images it does not use (list in the commit
- * message): a within 15 % 8 → 13 of 15 and 17 → 20 of 30; b within 15 % 2 → 2 of 15 and 1 → 7 of 30. Most b
- * stay outside 15 % for reasons the fit reports: where the flat part of a scan covers a narrow range of levels
- * (moon, text, ledger) b is an extrapolation and its standard error is as large as b; where the source has
- * noise of its own (gel-scan, camera) b includes it.
+ * That first fit is only the fallback, computed when what follows finds fewer than three level sets (seen on
+ * a phantom on a black background: the least-textured blocks are clipped at 0, the starting σ̂ is shrunk by
+ * the clipping and the flat fit finds too few usable sets). The paper's segmentation is done as a test
+ * calibrated on the noise (noise-flat.ts): a block is kept when its 6×6-pixel neighbourhood is a plane up to
+ * noise of the current model's variance (χ²₈ below its 90 % quantile); the kept blocks are ordered by their
+ * neighbourhood mean into level sets of equal count, the noise of each is a trimmed mean of HH² (efficient
+ * where the median wastes blocks), and the model is fitted again; FLAT_STEPS times, starting from white noise
+ * of the whole-plane σ̂ (noise-estimate.ts). Measured on the benchmark's 5 images × 3 Poisson–Gaussian levels
+ * and on 10 images it does not use (list in the commit message of 6cd3eb3), against the first fit alone: a
+ * within 15 % 8 → 14 of 15 and 17 → 21 of 30; b within 15 % 2 → 1 of 15 and 1 → 8 of 30. Most b stay outside
+ * 15 % for reasons the fit reports: where the flat part of a scan covers a narrow range of levels (moon,
+ * text, ledger) b is an extrapolation and its standard error is as large as b; where the source has noise of
+ * its own (gel-scan, camera) b includes it.
  *
  * Rounding to integers adds the variance of uniform quantisation, 1/12 grey level² (common practice), to the
  * noise of every pixel and so to every |HH|: the fitted b is the variance of the stored data at x = 0,
