@@ -101,7 +101,10 @@ export async function poissonGaussianSection(
     'fit (inverse Fisher information, widened by the scatter of the level sets); b is an extrapolation to x = 0, so on scans whose',
   );
   log(
-    'brightness covers a narrow range (moon, text) its error is large and says so. A clean file with noise of its own (gel-scan)',
+    'brightness covers a narrow range (moon, text) its error is large and says so. Only flat patches are used (edges and ink strokes',
+  );
+  log(
+    'are left out), and a b below 0 by less than 2 standard errors is held at 0. A clean file with noise of its own (gel-scan)',
   );
   log(
     "adds that to the truth too: the last columns measure each clean source's own noise variance with an outside estimator",
@@ -160,7 +163,7 @@ export async function poissonGaussianSection(
     '| image | a, b (true) | fitted a ± SE (error) | fitted b ± SE (error against b + 1/12) | model used | Rankfold gain | careful: wavelet | NL-means | TV | best | Rankfold − best | source own variance | b error against b + 1/12 + own |',
   );
   log('|---|---|---|---|---|---|---|---|---|---|---|---|---|');
-  const tally = { a: 0, b: 0, own: 0, gain: 0, n: 0 };
+  const tally = { a: 0, b: 0, own: 0, gain: 0, n: 0, bSe: 0 };
   for (const r of rows) {
     const s = skRes[r.id];
     const best = s ? Math.max(s.wavelet, s['nl-means'], s.tv) : Number.NaN;
@@ -168,6 +171,7 @@ export async function poissonGaussianSection(
     tally.n++;
     if (within(r.fa, r.a)) tally.a++;
     if (within(r.fb, r.b + ROUNDING_VARIANCE)) tally.b++;
+    if (Math.abs(r.fb - r.b - ROUNDING_VARIANCE) <= 2 * r.sb) tally.bSe++;
     if (s && within(r.fb, r.b + ROUNDING_VARIANCE + s.own)) tally.own++;
     if (s && r.gain >= best - 0.25) tally.gain++;
     log(
@@ -179,7 +183,8 @@ export async function poissonGaussianSection(
   }
   log('');
   log(
-    `Within 15 %: a ${tally.a}/${tally.n}; b against b + 1/12 ${tally.b}/${tally.n} (the verdict); b against b + 1/12 + own ${tally.own}/${tally.n}. Gain ≥ careful − 0.25 dB: ${tally.gain}/${tally.n}.`,
+    `Within 15 %: a ${tally.a}/${tally.n}; b against b + 1/12 ${tally.b}/${tally.n} (the verdict); b against b + 1/12 + own ${tally.own}/${tally.n}. ` +
+      `b + 1/12 within 2 of the fit's standard errors of b: ${tally.bSe}/${tally.n} (does the fit know how well it knows b). Gain ≥ careful − 0.25 dB: ${tally.gain}/${tally.n}.`,
   );
   log('');
 }

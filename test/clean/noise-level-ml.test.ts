@@ -70,6 +70,23 @@ describe('maximum-likelihood fit of the level sets', () => {
     }
   });
 
+  it('b below 0 by less than 2 SE is held at 0: a through the origin (scipy), seB that of the free fit', () => {
+    // Points exactly on 1·x − 2, n = 100: the free fit puts b at −1.90 (scipy 1.10.1 Nelder–Mead on the same
+    // −log L: a = 0.9508, b = −1.9016), within 2 SE of 0; with b = 0 the maximum is at a = 0.9269058388965571
+    // (scipy 1.10.1 optimize.minimize_scalar, bounded, xatol 1e-12, c = 5.44).
+    const f = fitLevelsTrimmed(levels(1, -2, 100));
+    expect(f?.b).toBe(0);
+    expect(f?.a).toBeCloseTo(0.9269058388965571, 6);
+    expect(f?.seB ?? 0).toBeGreaterThan(1.9016 / 2);
+    expect(f?.covAB).toBe(0);
+  });
+
+  it('b below 0 by more than 2 SE (a black-level offset) is kept', () => {
+    const f = fitLevelsTrimmed(levels(1, -15, 400));
+    expect(Math.abs((f?.b ?? 0) / -15 - 1)).toBeLessThan(0.03);
+    expect(f?.b ?? 0).toBeLessThan(-2 * (f?.seB ?? 0));
+  });
+
   it('fewer than three usable level sets give no fit', () => {
     const pts = levels(0.2, 2, 400).slice(0, 2);
     expect(fitLevelsTrimmed(pts)).toBeNull();

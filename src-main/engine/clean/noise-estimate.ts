@@ -13,6 +13,8 @@
  * a = c, b = d, or a = b, c = d), so scanner banding does not inflate the estimate.
  */
 
+import { sortByKey } from './noise-sort';
+
 /** Φ⁻¹(3/4): the median of |N(0,1)| (standard normal quantile; 0.6744897501960817 to double precision). */
 export const MAD_TO_SIGMA = 0.6744897501960817;
 
@@ -35,13 +37,28 @@ export function estimateNoiseSigma(
   keep = NOISE_KEEP_FRACTION,
 ): number {
   const blocks = haarBlocks(plane, width, height, clipLow, clipHigh);
-  if (!blocks) return 0;
-  const { idx, score, hh, integral } = blocks;
-  idx.sort((p, q) => score[p] - score[q] || p - q);
+  return blocks ? sigmaOfBlocks(blocks, keep) : 0;
+}
+
+/** σ̂ from the `keep` fraction of least-textured blocks (estimateNoiseSigma's rule; `blocks` is left as it was). */
+export function sigmaOfBlocks(blocks: HaarBlocks, keep = NOISE_KEEP_FRACTION): number {
+  const { hh, integral } = blocks;
+  const idx = scoreOrder(blocks);
   const n = Math.max(1, Math.floor(idx.length * keep));
   const v = new Float64Array(n);
   for (let k = 0; k < n; k++) v[k] = hh[idx[k]];
   return (integral ? groupedMedian(v) : exactMedian(v)) / 2 / MAD_TO_SIGMA;
+}
+
+const byScore = new WeakMap<HaarBlocks, Int32Array>();
+/** The blocks' indices ordered by texture score, ties by index (computed once per `blocks`; do not modify it). */
+export function scoreOrder(blocks: HaarBlocks): Int32Array {
+  let order = byScore.get(blocks);
+  if (!order) {
+    order = sortByKey(blocks.idx, blocks.score);
+    byScore.set(blocks, order);
+  }
+  return order;
 }
 
 /** The 2×2 Haar blocks of a plane: block mean, texture score, |HH|·2, and the unclipped blocks. */
@@ -52,13 +69,23 @@ export interface HaarBlocks {
   score: Float64Array;
   /** |a − b − c + d| = 2·|HH| of each block. */
   hh: Float64Array;
+  /** The other two detail coefficients of each block, (a + b − c − d)/2 and (a − b + c − d)/2. */
+  lh: Float64Array;
+  hl: Float64Array;
+  /** Blocks per row, ⌊width/2⌋. */
+  bw: number;
   /** Indices of the blocks that touch neither clip level, in raster order. */
-  idx: number[];
+  idx: Int32Array;
   /** True when every |HH|·2 is an integer (integer input): medians then use the grouped-data rule. */
   integral: boolean;
 }
 
-/** Haar blocks of `plane` (null when the plane is smaller than 4×4 or every block touches a clip level). */
+/**
+ * Haar blocks of `plane` (null when the plane is smaller than 4×4 or every block touches a clip level). One
+ * pass over the pixels for the coefficients, one over the blocks for the score (which needs the next block
+ * to the right and below). The score's LL differences are taken on the means: LL = 2·mean and the factor 2
+ * is exact in binary floating point, so |ΔLL|/2 = |Δmean| to the bit.
+ */
 export function haarBlocks(
   plane: ArrayLike<number>,
   width: number,
@@ -69,9 +96,11 @@ export function haarBlocks(
   const bw = width >> 1;
   const bh = height >> 1;
   if (bw < 2 || bh < 2) return null;
-  const ll = new Float64Array(bw * bh);
-  const tex = new Float64Array(bw * bh);
+  const mean = new Float64Array(bw * bh);
+  const score = new Float64Array(bw * bh);
   const hh = new Float64Array(bw * bh);
+  const lhs = new Float64Array(bw * bh);
+  const hls = new Float64Array(bw * bh);
   const ok = new Uint8Array(bw * bh);
   let integral = true;
   for (let by = 0; by < bh; by++) {
@@ -83,28 +112,41 @@ export function haarBlocks(
       const c = plane[r1 + 2 * bx];
       const d = plane[r1 + 2 * bx + 1];
       const i = by * bw + bx;
-      ll[i] = (a + b + c + d) / 2;
-      tex[i] = Math.abs(a + b - c - d) / 2 + Math.abs(a - b + c - d) / 2;
+      mean[i] = (a + b + c + d) / 2 / 2;
+      const lh = (a + b - c - d) / 2;
+      const hl = (a - b + c - d) / 2;
+      score[i] = Math.abs(lh) + Math.abs(hl);
+      lhs[i] = lh;
+      hls[i] = hl;
       const t = Math.abs(a - b - c + d);
       hh[i] = t;
       if (integral && t !== Math.round(t)) integral = false;
-      ok[i] = Math.min(a, b, c, d) <= clipLow || Math.max(a, b, c, d) >= clipHigh ? 0 : 1;
+      ok[i] =
+        a <= clipLow ||
+        b <= clipLow ||
+        c <= clipLow ||
+        d <= clipLow ||
+        a >= clipHigh ||
+        b >= clipHigh ||
+        c >= clipHigh ||
+        d >= clipHigh
+          ? 0
+          : 1;
     }
   }
-  const score = new Float64Array(bw * bh);
-  const idx: number[] = [];
+  const ids = new Int32Array(bw * bh);
+  let count = 0;
   for (let by = 0; by < bh; by++)
     for (let bx = 0; bx < bw; bx++) {
       const i = by * bw + bx;
       if (!ok[i]) continue;
-      const gx = bx + 1 < bw ? Math.abs(ll[i + 1] - ll[i]) : Math.abs(ll[i] - ll[i - 1]);
-      const gy = by + 1 < bh ? Math.abs(ll[i + bw] - ll[i]) : Math.abs(ll[i] - ll[i - bw]);
-      score[i] = tex[i] + (gx + gy) / 2;
-      idx.push(i);
+      const gx = bx + 1 < bw ? Math.abs(mean[i + 1] - mean[i]) : Math.abs(mean[i] - mean[i - 1]);
+      const gy = by + 1 < bh ? Math.abs(mean[i + bw] - mean[i]) : Math.abs(mean[i] - mean[i - bw]);
+      score[i] += gx + gy;
+      ids[count++] = i;
     }
-  if (idx.length === 0) return null;
-  const mean = ll.map((v) => v / 2);
-  return { mean, score, hh, idx, integral };
+  if (count === 0) return null;
+  return { mean, score, hh, lh: lhs, hl: hls, bw, idx: ids.subarray(0, count), integral };
 }
 
 /**

@@ -41,9 +41,11 @@ export interface LevelFit {
 
 /** n·Var σ̂ / σ² of the median-based σ̂ (1.36 for the MAD; derivation in the header). */
 const MAD_EFFICIENCY = 1.36;
-const C = 4 * MAD_EFFICIENCY;
+export const MAD_SPREAD = 4 * MAD_EFFICIENCY;
 /** Points more than this many standard errors above the fit are dropped, one at a time (chosen here). */
 const OUTLIER_SE = 3;
+/** A negative b within this many standard errors of 0 is taken as 0 (two-sided 95 %, common practice). */
+const NEGATIVE_B_SE = 2;
 /** Fisher-scoring iterations (the likelihood is smooth; 8 steps change a by < 1e-9 on the bench images). */
 const SCORING_STEPS = 8;
 
@@ -54,16 +56,16 @@ const varOf = (f: { a: number; b: number }, x: number) => f.a * x + f.b;
  * standard errors above (texture only adds variance; below-fit points are kept), refitting each time. At
  * least three points stay. Returns null when fewer than three points are usable.
  */
-export function fitLevelsTrimmed(points: NoiseLevelPoint[]): LevelFit | null {
+export function fitLevelsTrimmed(points: NoiseLevelPoint[], spread = MAD_SPREAD): LevelFit | null {
   if (points.filter((p) => p.used).length < 3) return null;
-  let fit = fitLevels(points);
+  let fit = fitLevels(points, spread);
   for (;;) {
     let worst: NoiseLevelPoint | null = null;
     let worstZ = OUTLIER_SE;
     for (const p of points) {
       if (!p.used) continue;
       const model = Math.max(1e-12, varOf(fit, p.level));
-      const z = (p.sigma * p.sigma - model) / (model * Math.sqrt(C / p.count));
+      const z = (p.sigma * p.sigma - model) / (model * Math.sqrt(spread / p.count));
       if (z > worstZ) {
         worstZ = z;
         worst = p;
@@ -71,21 +73,37 @@ export function fitLevelsTrimmed(points: NoiseLevelPoint[]): LevelFit | null {
     }
     if (!worst || points.filter((p) => p.used).length <= 3) return fit;
     worst.used = false;
-    fit = fitLevels(points);
+    fit = fitLevels(points, spread);
   }
 }
 
-/** The maximum-likelihood (a, b) over the used points; a ≥ 0 (a negative slope is noise of the fit). */
-function fitLevels(points: NoiseLevelPoint[]): LevelFit {
+/**
+ * The maximum-likelihood (a, b) over the used points; a ≥ 0 (a negative slope is noise of the fit), and b ≥ 0
+ * unless the points put b below 0 by more than NEGATIVE_B_SE standard errors (a black-level offset can do that).
+ */
+function fitLevels(points: NoiseLevelPoint[], c: number): LevelFit {
   const used = points.filter((p) => p.used);
-  let f = irls(used);
-  if (f.a > 0) f = scoring(used, f, true);
-  if (!(f.a > 0)) f = scoring(used, { a: 0, b: f.b }, false);
-  return withCovariance(used, f, f.a > 0);
+  let f = irls(used, c);
+  if (f.a > 0) f = scoring(used, f, 'both', c);
+  if (!(f.a > 0)) f = scoring(used, { a: 0, b: f.b }, 'b', c);
+  const fit = withCovariance(used, f, f.a > 0, c);
+  if (!(fit.a > 0 && fit.b < 0 && fit.b > -NEGATIVE_B_SE * fit.seB)) return fit;
+  // b below 0 but within NEGATIVE_B_SE standard errors of it: the data cannot tell b from 0, and a negative
+  // variance at the dark end is not what a scan has; fit a with b = 0 (the line through the origin, the
+  // boundary of b ≥ 0). The standard errors stay those of the free fit: they say how little b is pinned.
+  if (used.some((p) => !(p.level > 0))) return fit;
+  let n = 0;
+  let d = 0;
+  for (const p of used) {
+    n += p.count * p.sigma * p.sigma;
+    d += p.count * p.level;
+  }
+  const g = scoring(used, { a: n / d, b: 0 }, 'a', c);
+  return g.a > 0 ? { a: g.a, b: 0, seA: fit.seA, seB: fit.seB, covAB: 0 } : fit;
 }
 
 /** Iteratively reweighted least squares, weights n/(c·v²) from the current model (first pass: n). */
-function irls(used: NoiseLevelPoint[]): { a: number; b: number } {
+function irls(used: NoiseLevelPoint[], c: number): { a: number; b: number } {
   let a = 0;
   let b = 0;
   for (let it = 0; it < 6; it++) {
@@ -96,7 +114,7 @@ function irls(used: NoiseLevelPoint[]): { a: number; b: number } {
     let sxy = 0;
     for (const p of used) {
       // First pass: weights by count only (a σ̂² near 0 would otherwise take all the weight).
-      const w = it === 0 ? p.count : p.count / (C * Math.max(a * p.level + b, 1e-6) ** 2);
+      const w = it === 0 ? p.count : p.count / (c * Math.max(a * p.level + b, 1e-6) ** 2);
       const y = p.sigma * p.sigma;
       sw += w;
       sx += w * p.level;
@@ -114,28 +132,38 @@ function irls(used: NoiseLevelPoint[]): { a: number; b: number } {
 }
 
 /**
- * Fisher scoring of the full likelihood −log L = Σ n(y − v)²/(2c·v²) + log v (both a and b when `slope`,
- * else b alone with a fixed). A step that makes some v ≤ 0 or does not lower −log L is halved.
+ * Fisher scoring of the full likelihood −log L = Σ n(y − v)²/(2c·v²) + log v over the `free` parameters
+ * (both, or one with the other held). A step that makes some v ≤ 0 or does not lower −log L is halved.
  */
-function scoring(used: NoiseLevelPoint[], start: { a: number; b: number }, slope: boolean) {
+function scoring(
+  used: NoiseLevelPoint[],
+  start: { a: number; b: number },
+  free: 'both' | 'a' | 'b',
+  c: number,
+) {
   let f = { ...start };
   for (let it = 0; it < SCORING_STEPS; it++) {
-    const { ga, gb, iaa, iab, ibb } = sums(used, f);
-    let da = 0;
-    let db = gb / ibb;
-    if (slope) {
+    const { ga, gb, iaa, iab, ibb } = sums(used, f, c);
+    let da = free === 'a' ? ga / iaa : 0;
+    let db = free === 'b' ? gb / ibb : 0;
+    if (free === 'both') {
       const det = iaa * ibb - iab * iab;
       if (!(det > 0)) break;
       da = (ibb * ga - iab * gb) / det;
       db = (iaa * gb - iab * ga) / det;
     }
-    const before = negLogLikelihood(used, f);
+    const before = negLogLikelihood(used, f, c);
     let step = 1;
     const at = (t: number) => ({ a: f.a + t * da, b: f.b + t * db });
-    while (step > 1e-3 && !(negLogLikelihood(used, at(step)) <= before)) step /= 2;
+    while (step > 1e-3 && !(negLogLikelihood(used, at(step), c) <= before)) step /= 2;
     if (step <= 1e-3) break;
     f = at(step);
-    if (Math.abs(step * db) < 1e-10 * (1 + Math.abs(f.b))) break;
+    if (
+      free === 'a'
+        ? Math.abs(step * da) < 1e-12 * (1 + f.a)
+        : Math.abs(step * db) < 1e-10 * (1 + Math.abs(f.b))
+    )
+      break;
   }
   return f;
 }
@@ -144,37 +172,42 @@ function scoring(used: NoiseLevelPoint[], start: { a: number; b: number }, slope
  * At model `f`: the score (−∂(−log L)/∂a, ∂b), the Fisher information of (a, b) — per point
  * n/(c·v²) + 2/v² for v — and the Pearson χ² of the points.
  */
-function sums(used: NoiseLevelPoint[], f: { a: number; b: number }) {
+function sums(used: NoiseLevelPoint[], f: { a: number; b: number }, c: number) {
   const t = { ga: 0, gb: 0, iaa: 0, iab: 0, ibb: 0, chi2: 0 };
   for (const p of used) {
     const v = Math.max(1e-9, varOf(f, p.level));
     const r = p.sigma * p.sigma - v;
-    const g = (p.count * r) / (C * v * v) + (p.count * r * r) / (C * v * v * v) - 1 / v;
-    const info = p.count / (C * v * v) + 2 / (v * v);
+    const g = (p.count * r) / (c * v * v) + (p.count * r * r) / (c * v * v * v) - 1 / v;
+    const info = p.count / (c * v * v) + 2 / (v * v);
     t.ga += g * p.level;
     t.gb += g;
     t.iaa += info * p.level * p.level;
     t.iab += info * p.level;
     t.ibb += info;
-    t.chi2 += (r * r * p.count) / (C * v * v);
+    t.chi2 += (r * r * p.count) / (c * v * v);
   }
   return t;
 }
 
 /** −log L up to a constant; +∞ where the model variance is not positive at some point. */
-function negLogLikelihood(used: NoiseLevelPoint[], f: { a: number; b: number }): number {
+function negLogLikelihood(used: NoiseLevelPoint[], f: { a: number; b: number }, c: number): number {
   let s = 0;
   for (const p of used) {
     const v = varOf(f, p.level);
     if (!(v > 0)) return Number.POSITIVE_INFINITY;
-    s += (p.count * (p.sigma * p.sigma - v) ** 2) / (2 * C * v * v) + Math.log(v);
+    s += (p.count * (p.sigma * p.sigma - v) ** 2) / (2 * c * v * v) + Math.log(v);
   }
   return s;
 }
 
 /** Inverse Fisher information at `f`, times the Pearson dispersion when it is above 1. */
-function withCovariance(used: NoiseLevelPoint[], f: { a: number; b: number }, slope: boolean): LevelFit {
-  const { iaa, iab, ibb, chi2 } = sums(used, f);
+function withCovariance(
+  used: NoiseLevelPoint[],
+  f: { a: number; b: number },
+  slope: boolean,
+  c: number,
+): LevelFit {
+  const { iaa, iab, ibb, chi2 } = sums(used, f, c);
   const dof = Math.max(1, used.length - (slope ? 2 : 1));
   const dispersion = Math.max(1, chi2 / dof);
   const det = iaa * ibb - iab * iab;
