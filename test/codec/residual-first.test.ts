@@ -21,9 +21,9 @@ beforeAll(async () => {
 
 const [W, H] = [1320, 1260];
 
-/** A 1.66-MP grey scan: camera.png (Lanczos-3 to W×H) plus seeded noise σ 1.5, as the single-scan bench's scan. */
-async function scan(): Promise<DecodedImage> {
-  const { data } = await sharp(image('camera.png'))
+/** A 1.66-MP grey scan: a fixture (Lanczos-3 to W×H) plus seeded noise σ 1.5, as the single-scan bench's scan. */
+async function scan(fixture = 'camera.png'): Promise<DecodedImage> {
+  const { data } = await sharp(image(fixture))
     .toColourspace('b-w')
     .extractChannel(0)
     .resize(W, H, { fit: 'fill', kernel: 'lanczos3' })
@@ -61,8 +61,8 @@ describe('residual-only shortcut on a large scan', () => {
       const r = encodeScan(img, { ...opts, budget: { kind: 'bpp', bpp } });
       expect(r.layers.chosen, `${bpp}`).toBe('residual-only');
       expect(r.bytes.length, `${bpp}`).toBeLessThanOrEqual(budget);
-      // Landing: within 2% of the budget (the fit stops at ≥ 98% of the residual's share, the header is the rest).
-      expect(r.bytes.length, `${bpp}`).toBeGreaterThan(0.98 * budget);
+      // Landing: within 3% of the budget (the fit stops at ≥ 97% of the residual's share, the header is the rest).
+      expect(r.bytes.length, `${bpp}`).toBeGreaterThan(0.97 * budget);
       expect(r.layers.residualEncodes).toBeLessThanOrEqual(3);
       expect(r.factorMs).toBe(0);
       // Base (rank 0, empty) + residual = the decoded file: round/clamp of the residual plane as coded.
@@ -85,6 +85,25 @@ describe('residual-only shortcut on a large scan', () => {
       expect(r.layers.residualEncodes).toBeLessThanOrEqual(3);
     }
   }, 300_000);
+});
+
+describe('landing a byte budget in one real encode', () => {
+  // The crop-calibrated rate model's first encode of the whole residual lands at 97.6–97.8% of these budgets
+  // (measured), inside the fit's stopping window [97%, 100%]: no second encode. A first encode outside the
+  // window (most of the 0.1–0.5 bpp cases) takes a second, aimed from the first (≤ 3 in all).
+  it.each(['camera.png', 'moon.png'])(
+    '%s at 1 bpp: one real encode, the budget met on disk',
+    async (fixture) => {
+      const img = await scan(fixture);
+      const budget = Math.floor((1 * W * H) / 8);
+      const r = encodeScan(img, { ...opts, budget: { kind: 'bpp', bpp: 1 } });
+      expect(r.layers.chosen).toBe('residual-only');
+      expect(r.layers.residualEncodes).toBe(1);
+      expect(r.bytes.length).toBeLessThanOrEqual(budget);
+      expect(r.bytes.length).toBeGreaterThan(0.97 * budget);
+    },
+    300_000,
+  );
 });
 
 describe('the decision', () => {
