@@ -1,9 +1,9 @@
 // The correlated-noise part of the cleaning benchmark (bench/clean.bench.ts): white noise filtered by a 3×3
 // binomial kernel [1 2 1]ᵀ[1 2 1]/16 and by a 5×5 Gaussian of σ_k = 1, scaled to σ 5 and 10 per pixel after
 // filtering, rounded and clipped to 8 bits. Rankfold runs `clean --noise auto --banding off` with the noise
-// spectrum measured from the scan (noise-psd.ts) and, for comparison, with `--noise-colour white` (the
-// white-noise path of before). scikit-image 0.19's wavelet / NL-means / TV run as in bench/clean.bench.ts but
-// told the true σ per pixel (they model white noise).
+// spectrum measured from the scan (noise-psd.ts; with correlated noise also the coarse-scale pass, pyramid.ts)
+// and, for comparison, with `--noise-colour white` (the white-noise path of before). scikit-image 0.19's
+// wavelet / NL-means / TV run as in bench/clean.bench.ts but told the true σ per pixel (they model white noise).
 import { join } from 'node:path';
 import { cleanDecoded } from '../src-main/node/services/clean';
 import { BINOMIAL_3, filteredNoise, GAUSSIAN_5 } from '../test/clean/correlated-noise';
@@ -38,7 +38,7 @@ export async function correlatedSection(
     'White noise filtered by a 3×3 binomial kernel or a 5×5 Gaussian (σ_k = 1), scaled to σ per pixel after filtering, rounded to 8 bits.',
   );
   log(
-    'Rankfold: `clean --noise auto --banding off` (spectrum measured; "colour" is what it found), and the same with `--noise-colour white`.',
+    'Rankfold: `clean --noise auto --banding off` (spectrum measured; "colour" is what it found; correlated noise also gets the coarse-scale pass of pyramid.ts), and the same with `--noise-colour white`.',
   );
   log(
     'scikit-image 0.19.3 wavelet (BayesShrink) / NL-means (h = 0.8σ) / TV (weight 0.1), told the true σ per pixel. Target: beat the best of them and the white path.',

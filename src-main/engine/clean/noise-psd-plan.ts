@@ -1,8 +1,8 @@
 /**
  * Whether a clean models the noise as spatially correlated, and what that changes: the σ per pixel (the finest
  * wavelet detail the white-noise estimate reads sees only the high frequencies, which correlated noise mostly
- * lacks) and the per-coefficient noise spectrum that the patch-group passes use (group-low-rank.ts,
- * wiener-groups.ts).
+ * lacks), the per-coefficient noise spectrum that the patch-group passes use (group-low-rank.ts,
+ * wiener-groups.ts), and the coarse-scale pass over a Gaussian pyramid (pyramid.ts, run from pipeline.ts).
  *
  * With --noise-colour auto the measurement decides (noise-psd.ts: flatness and high-frequency share), and only
  * where the white-noise estimate itself sees noise above rounding level: a noise-free smooth scan's flat

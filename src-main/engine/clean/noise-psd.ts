@@ -258,17 +258,24 @@ export function estimateNoisePsd(
     autocov[(dy + L) * side + dx + L] = r[a];
     autocov[(L - dy) * side + L - dx] = r[a];
   }
+  return psdFromAutocov(autocov, L, kept.length);
+}
+
+/** The NoisePsd of an autocovariance on the full (2·L + 1)² lag grid (r(0) > 0): σ, flatness, shares, the verdict. */
+export function psdFromAutocov(autocov: Float64Array, L: number, blocks: number): NoisePsd {
+  const side = 2 * L + 1;
+  const r0 = autocov[L * side + L];
   let sum2 = 0;
-  for (let i = 0; i < autocov.length; i++) sum2 += (autocov[i] / r[0]) ** 2;
+  for (let i = 0; i < autocov.length; i++) sum2 += (autocov[i] / r0) ** 2;
   const flatness = 1 / sum2;
   const highShare = highFrequencyShare(autocov, L);
   return {
     lag: L,
     autocov,
-    sigma: Math.sqrt(r[0]),
-    blocks: kept.length,
+    sigma: Math.sqrt(r0),
+    blocks,
     flatness,
-    lagOne: (autocov[L * side + L + 1] + autocov[(L + 1) * side + L]) / (2 * r[0]),
+    lagOne: (autocov[L * side + L + 1] + autocov[(L + 1) * side + L]) / (2 * r0),
     highShare,
     correlated: flatness < WHITE_FLATNESS && highShare < HIGH_SHARE,
   };

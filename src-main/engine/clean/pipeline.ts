@@ -27,6 +27,7 @@ import {
   type GroupStats,
   groupMedianRuleSigma,
 } from './patch-groups';
+import { coarseEstimate, recomposeActive } from './pyramid';
 import { type DenoiseStats, mergeStats, rowBands } from './row-bands';
 import { autoTileSize, denoiseTiles } from './tiles';
 
@@ -79,6 +80,8 @@ export interface PreparedClean {
   bandingMs: number;
   /** User overrides of the threshold rule. */
   fixed: { rank?: number; threshold?: number };
+  /** Correlated noise: the denoised half-size planes (`active` order) whose low band replaces the result's (pyramid.ts). */
+  coarse?: Float32Array[];
 }
 
 const clock = (globalThis as { performance?: { now(): number } }).performance;
@@ -231,7 +234,16 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
   };
   const spectrum = patchSpectrum(tone.psd, patch);
   if (spectrum) params.noiseSpectrum = spectrum;
-  return { ...common, params, tile: null };
+  const coarse =
+    spectrum && tone.psd && !fixedOverride
+      ? coarseEstimate({
+          ...dims,
+          planes: active.map((c) => work[c]),
+          sigmas: active.map((c) => sigmas[c]),
+          psd: tone.psd,
+        })
+      : null;
+  return { ...common, params, tile: null, ...(coarse ? { coarse } : {}) };
 }
 
 /** Denoise in this thread (same band code as the workers, so the result is identical). */
@@ -306,6 +318,8 @@ export function finishClean(
   const { width, height, maxValue } = prep;
   const colourCount = prep.corrected.length;
   let colourPlanes = prep.corrected;
+  if (denoised?.length && prep.coarse)
+    denoised = recomposeActive(denoised, prep.active, prep.coarse, width, height);
   if (denoised?.length)
     colourPlanes = prep.colour
       ? ycbcrBt601ToRgb(denoised[0], denoised[1], denoised[2], (maxValue + 1) / 2)
