@@ -26,9 +26,10 @@
  *    fails (content, which may hide a band edge) is bridged by the step most lines agree on, or cuts the
  *    chain (band-bridge.ts); an edge one half finds and the other does not confirm cuts it too. Between
  *    cuts the profile is made zero-mean on its own, so a doubtful stretch loses only its offset against
- *    the rest instead of vetoing the whole profile or offsetting everything after it.
- * 6. On text pages (banding.ts calls it again when the narrow profile follows the lines of text and this
- *    pass found nothing) ink hides the band edges: the steps are then measured on the paper alone.
+ *    the rest instead of vetoing the whole profile or offsetting everything after it. When the chain
+ *    without its cuts passes the level check of step 4, the cuts were content and it is used instead.
+ * 6. Ink, lanes and texture hide band edges: when this pass finds nothing on the whole lines, banding.ts
+ *    calls it again with the steps measured on the background alone (on text pages, the paper).
  *
  * References
  * - J. W. Tukey, "Exploratory Data Analysis", Addison-Wesley 1977: medians and trimmed means as robust
@@ -168,7 +169,7 @@ export function wideBandProfile(
     maxValue,
     minValid: background ? MIN_VALID_SHARE_PAPER : MIN_VALID_SHARE,
   };
-  if (chain) return chained(lines, background);
+  if (chain) return chained(lines, background, (s) => explainsLevels(plane, width, height, axis, s, nLines));
   const whole = edgeProfile(lines, 0, nLines, false);
   const { profile } = whole;
   let detected =
@@ -210,7 +211,7 @@ export function wideBandProfile(
 }
 
 /** Step 5 of the header: the chained profile, with bridges across content and cuts where links are doubtful. */
-function chained(lines: Lines, background: boolean): WideBands {
+function chained(lines: Lines, background: boolean, explains: (s: Float64Array) => boolean): WideBands {
   const { lineLen, nLines, maxValue } = lines;
   const whole = edgeProfile(lines, 0, nLines, true);
   const edges = [...whole.edges];
@@ -240,6 +241,13 @@ function chained(lines: Lines, background: boolean): WideBands {
     edges.length >= (background ? 1 : MIN_STEPS) &&
     strength >= (MIN_CHAIN_STRENGTH_8BIT * maxValue) / 255 &&
     strength >= 3 * noiseFloor;
+  // A cut leaves each stretch's offset against the others in place; where content, not a hidden band edge,
+  // caused it, the uncut chain is right. It is kept when it passes the plain step sum's level check.
+  if (detected && kept.length) {
+    const uncut = chainProfile(lineLen, links, []);
+    if (explains(uncut))
+      return { profile: uncut, steps: edges.length, strength: rms(uncut), noiseFloor, detected };
+  }
   return { profile, steps: edges.length, strength, noiseFloor, detected };
 }
 
