@@ -4,6 +4,8 @@
  * banding-wide.ts. Here: the order of the axes, the spikes of the automatic mode, and the subtraction.
  * An image in which nothing is detected is left exactly as it was.
  */
+
+import { bandAxis } from './band-lines';
 import {
   type BandingOptions,
   estimateStripeProfile,
@@ -122,14 +124,15 @@ function addWideBands(
   // One edge in the paper is enough on a text page (wideBandProfile's `background`); elsewhere a single
   // small step is as likely content (clean text.png's rows gave one of 3.5 grey levels), so it must be large.
   const paper = p.spreadRatio > MAX_SPREAD_RATIO;
-  let wide = wideBandProfile(rest, width, height, p.axis, maxValue);
+  const shared = bandAxis(rest, width, height, p.axis, maxValue);
+  let wide = wideBandProfile(rest, width, height, p.axis, maxValue, false, false, shared);
   for (const [background, chain] of [
     [true, false],
     [false, true],
     [true, true],
   ])
     if (!wide.detected) {
-      wide = wideBandProfile(rest, width, height, p.axis, maxValue, background, chain);
+      wide = wideBandProfile(rest, width, height, p.axis, maxValue, background, chain, shared);
       if (background && !paper && wide.steps < MIN_WIDE_STEPS && !largeStep(wide.profile, maxValue))
         wide.detected = false;
     }
