@@ -36,3 +36,15 @@ export function gatherLines(
 export function lineShape(width: number, height: number, axis: 'rows' | 'columns') {
   return axis === 'columns' ? { lineLen: width, lineCount: height } : { lineLen: height, lineCount: width };
 }
+
+/**
+ * The narrow pass's sampled lines and their residuals from their running medians, position-major
+ * (resid[x·nLines + k]), and the half-width used: the wide pass's background lines need the same ones when
+ * it looks at the same plane (banding.ts), so they are handed over instead of computed again.
+ */
+export interface LineResiduals {
+  /** The sampled lines themselves, line-major (gatherLines). */
+  lines: Float64Array;
+  resid: Float64Array;
+  halfWindow: number;
+}

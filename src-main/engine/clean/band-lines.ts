@@ -5,7 +5,7 @@
  * the differences, ran the background's running medians, the robust step at every position and the direct
  * levels of the level check again: on a 2000×1500 scan without bands that was most of the banding time.
  */
-import { lineShape } from './band-gather';
+import { gatherLines, type LineResiduals, lineShape } from './band-gather';
 import { directLevels, sampleLines } from './banding-wide-checks';
 
 /** Lines sampled per axis (as band-profile.ts: enough for a median error of ~0.06σ). */
@@ -50,18 +50,27 @@ export interface BandAxis {
   levels(): Float64Array;
 }
 
-/** The shared view of one axis of `plane` (nothing is read until a candidate asks). */
+/**
+ * The shared view of one axis of `plane` (nothing is read until a candidate asks); `known`: the narrow
+ * pass's running-median residuals of the same plane, if it had them.
+ */
 export function bandAxis(
   plane: ArrayLike<number>,
   width: number,
   height: number,
   axis: 'rows' | 'columns',
   maxValue: number,
+  known: LineResiduals | null = null,
 ): BandAxis {
   const { lineLen, lineCount } = lineShape(width, height, axis);
   const nLines = Math.min(lineCount, MAX_SAMPLE_LINES);
   const memo = new Map<boolean, Lines>();
   let direct: Float64Array | null = null;
+  let gathered = known?.lines.length === lineLen * nLines ? known.lines : null;
+  const raw = () => {
+    gathered ??= gatherLines(plane, width, height, axis, nLines);
+    return gathered;
+  };
   return {
     plane,
     width,
@@ -71,9 +80,9 @@ export function bandAxis(
     lineLen,
     nLines,
     lines(background, minValid) {
-      const known = memo.get(background);
-      if (known) return known;
-      const levels = sampleLines(plane, width, height, axis, nLines, maxValue, background);
+      const done = memo.get(background);
+      if (done) return done;
+      const levels = sampleLines(raw(), lineLen, nLines, maxValue, background, known);
       const diffs = new Float64Array(Math.max(0, lineLen - 1) * nLines);
       for (let k = 0; k < nLines; k++)
         for (let x = 0; x + 1 < lineLen; x++)
@@ -83,7 +92,7 @@ export function bandAxis(
       return made;
     },
     levels() {
-      direct ??= directLevels(plane, width, height, axis, lineLen, nLines);
+      direct ??= directLevels(raw(), lineLen, nLines);
       return direct;
     },
   };

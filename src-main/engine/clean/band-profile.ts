@@ -20,7 +20,7 @@
  * - The standard error of a sample median of N Gaussian values, √(π/2)·σ/√N (asymptotic; common
  *   statistical fact, from memory), used for the significance test.
  */
-import { gatherLines } from './band-gather';
+import { gatherLines, type LineResiduals } from './band-gather';
 import { interpolatedMedian } from './band-median';
 import { dominantPeriod, removeMean, rms, sharedEnergy } from './band-stats';
 import { medianInPlace, runningMedian } from './medians';
@@ -100,7 +100,10 @@ const MIN_CONSISTENCY = 0.5;
  */
 export const MAX_SPREAD_RATIO = 1.8;
 
-/** Estimate the stripe profile of one axis and run the detection test. */
+/**
+ * Estimate the stripe profile of one axis and run the detection test. `keep` receives the lines' running
+ * median residuals before the background test changes them (banding.ts hands them to the wide pass).
+ */
 export function estimateStripeProfile(
   plane: ArrayLike<number>,
   width: number,
@@ -108,6 +111,7 @@ export function estimateStripeProfile(
   axis: BandingAxis,
   options: BandingOptions,
   background = false,
+  keep?: (r: LineResiduals) => void,
 ): StripeProfile {
   // For column stripes the "lines" are rows (we look along x); for row stripes they are columns.
   const lineLen = axis === 'columns' ? width : height;
@@ -124,6 +128,7 @@ export function estimateStripeProfile(
     for (let x = 0; x < lineLen; x++) resid[x * nLines + k] = line[x] - med[x];
   }
   const col = new Float64Array(nLines);
+  keep?.({ lines, resid, halfWindow: w });
   if (background) keepBackground(resid, col);
   const half = nLines >> 1;
   const profile = new Float64Array(lineLen);

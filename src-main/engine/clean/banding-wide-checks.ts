@@ -9,7 +9,7 @@
  * - P. J. Huber, "Robust Statistics", Wiley 1981: the asymptotic variance of the trimmed mean at the
  *   normal (from memory).
  */
-import { gatherLines } from './band-gather';
+import type { LineResiduals } from './band-gather';
 import { keepBackground } from './band-profile';
 import { medianInPlace, runningMedian, select } from './medians';
 import { MAD_TO_SIGMA } from './noise-estimate';
@@ -44,33 +44,36 @@ const MIN_TV_EXPLAINED = 0.75;
 const BACKGROUND_HALF_WINDOW = 32;
 
 /**
- * nLines sampled lines of the axis, line-major (out[k·lineLen + x]); clipped pixels (0 or max) are NaN.
+ * The nLines sampled lines `raw` (band-gather.ts gatherLines, line-major: raw[k·lineLen + x]) for the step
+ * measurements: clipped pixels (0 or max) are NaN.
  * With `background`, pixels far from their line's running median (ink on paper, band-profile.ts
- * keepBackground) are NaN too, so steps are measured on the paper alone.
+ * keepBackground) are NaN too, so steps are measured on the paper alone; their running-median residuals
+ * are taken from `known` (the narrow pass's, of the same plane and lines) when the half-width matches.
  */
 export function sampleLines(
-  plane: ArrayLike<number>,
-  width: number,
-  height: number,
-  axis: 'rows' | 'columns',
+  raw: Float64Array,
+  lineLen: number,
   nLines: number,
   maxValue: number,
   background = false,
+  known: LineResiduals | null = null,
 ): Float64Array {
-  const lineLen = axis === 'columns' ? width : height;
-  const raw = gatherLines(plane, width, height, axis, nLines);
   const out = new Float64Array(raw.length);
   for (let i = 0; i < raw.length; i++) out[i] = raw[i] <= 0 || raw[i] >= maxValue ? Number.NaN : raw[i];
   if (background) {
     const resid = new Float64Array(out.length);
     const med = new Float64Array(lineLen);
     const w = Math.max(2, Math.min(BACKGROUND_HALF_WINDOW, Math.floor(lineLen / 4)));
-    for (let k = 0; k < nLines; k++) {
-      const o = k * lineLen;
-      const line = raw.subarray(o, o + lineLen);
-      runningMedian(line, w, med);
-      for (let x = 0; x < lineLen; x++) resid[o + x] = line[x] - med[x];
-    }
+    if (known && known.halfWindow === w && known.resid.length === resid.length)
+      for (let x = 0; x < lineLen; x++)
+        for (let k = 0; k < nLines; k++) resid[k * lineLen + x] = known.resid[x * nLines + k];
+    else
+      for (let k = 0; k < nLines; k++) {
+        const o = k * lineLen;
+        const line = raw.subarray(o, o + lineLen);
+        runningMedian(line, w, med);
+        for (let x = 0; x < lineLen; x++) resid[o + x] = line[x] - med[x];
+      }
     keepBackground(resid, new Float64Array(Math.min(resid.length, 1 << 16)));
     for (let i = 0; i < out.length; i++) if (Number.isNaN(resid[i])) out[i] = Number.NaN;
   }
@@ -147,18 +150,10 @@ export function partAgrees(
 }
 
 /**
- * The direct levels of the level check: c(x) = median over the nLines sampled lines of (pixel − the line's
+ * The direct levels of the level check: c(x) = median over the nLines sampled lines `raw` of (pixel − the line's
  * median), computed once per axis (band-lines.ts) and shared by every candidate profile.
  */
-export function directLevels(
-  plane: ArrayLike<number>,
-  width: number,
-  height: number,
-  axis: 'rows' | 'columns',
-  lineLen: number,
-  nLines: number,
-): Float64Array {
-  const raw = gatherLines(plane, width, height, axis, nLines);
+export function directLevels(raw: Float64Array, lineLen: number, nLines: number): Float64Array {
   const vals = new Float64Array(lineLen * nLines);
   for (let k = 0; k < nLines; k++) {
     const line = raw.subarray(k * lineLen, (k + 1) * lineLen);

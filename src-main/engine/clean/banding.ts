@@ -5,6 +5,7 @@
  * An image in which nothing is detected is left exactly as it was.
  */
 
+import type { LineResiduals } from './band-gather';
 import { bandAxis } from './band-lines';
 import {
   type BandingOptions,
@@ -64,21 +65,38 @@ export function analyseBanding(
   mode: 'auto' | 'rows' | 'columns' | 'both',
   options: BandingOptions,
 ): BandingAnalysis {
-  const columns = profileOf(plane, width, height, 'columns', options);
+  // The narrow pass's line residuals serve the wide pass's background lines when both look at one plane.
+  const kept: { r: LineResiduals | null } = { r: null };
+  const keep = (r: LineResiduals) => {
+    kept.r = r;
+  };
+  const columns = profileOf(plane, width, height, 'columns', options, keep);
   let removeColumns = mode === 'auto' ? columns.detected : mode === 'columns' || mode === 'both';
   if (mode === 'auto') clipSpikes(columns);
   let base = removeColumns ? subtractProfiles(plane, width, height, null, columns.profile) : plane;
   if (mode === 'auto' || mode === 'columns' || mode === 'both')
-    if (addWideBands(base, width, height, columns, removeColumns, options.maxValue)) {
+    if (
+      addWideBands(
+        base,
+        width,
+        height,
+        columns,
+        removeColumns,
+        options.maxValue,
+        base === plane ? kept.r : null,
+      )
+    ) {
       base = subtractProfiles(plane, width, height, null, columns.profile);
       removeColumns = true;
     }
-  const rows = profileOf(base, width, height, 'rows', options);
+  kept.r = null;
+  const rows = profileOf(base, width, height, 'rows', options, keep);
   if (mode === 'auto') clipSpikes(rows);
   let removeRows = mode === 'auto' ? rows.detected : mode === 'rows' || mode === 'both';
   if (mode === 'auto' || mode === 'rows' || mode === 'both') {
     const rest = removeRows ? subtractProfiles(base, width, height, rows.profile, null) : base;
-    if (addWideBands(rest, width, height, rows, removeRows, options.maxValue)) removeRows = true;
+    if (addWideBands(rest, width, height, rows, removeRows, options.maxValue, rest === base ? kept.r : null))
+      removeRows = true;
   }
   const direction: BandingDirection =
     removeRows && removeColumns ? 'both' : removeRows ? 'rows' : removeColumns ? 'columns' : 'none';
@@ -88,7 +106,7 @@ export function analyseBanding(
 /**
  * The profile of one axis; when it fails only because its spread across lines follows content (lines of
  * text), the profile of the background alone (band-profile.ts keepBackground) is tried, and kept if it
- * passes the whole detection test.
+ * passes the whole detection test. `keep` receives the first estimate's line residuals.
  */
 function profileOf(
   plane: Float32Array,
@@ -96,8 +114,9 @@ function profileOf(
   height: number,
   axis: 'rows' | 'columns',
   options: BandingOptions,
+  keep: (r: LineResiduals) => void,
 ): StripeProfile {
-  const p = estimateStripeProfile(plane, width, height, axis, options);
+  const p = estimateStripeProfile(plane, width, height, axis, options, false, keep);
   if (p.detected || p.spreadRatio <= MAX_SPREAD_RATIO) return p;
   const bg = estimateStripeProfile(plane, width, height, axis, options, true);
   return bg.detected ? bg : p;
@@ -116,6 +135,7 @@ function addWideBands(
   p: StripeProfile,
   narrowRemoved: boolean,
   maxValue: number,
+  known: LineResiduals | null,
 ): boolean {
   // Ink, lanes or texture can hide band edges from the whole lines: the paper (the background alone,
   // banding-wide-checks.ts sampleLines) is tried next, on every image (before, only where the narrow
@@ -124,7 +144,7 @@ function addWideBands(
   // One edge in the paper is enough on a text page (wideBandProfile's `background`); elsewhere a single
   // small step is as likely content (clean text.png's rows gave one of 3.5 grey levels), so it must be large.
   const paper = p.spreadRatio > MAX_SPREAD_RATIO;
-  const shared = bandAxis(rest, width, height, p.axis, maxValue);
+  const shared = bandAxis(rest, width, height, p.axis, maxValue, known);
   let wide = wideBandProfile(rest, width, height, p.axis, maxValue, false, false, shared);
   for (const [background, chain] of [
     [true, false],
