@@ -37,11 +37,6 @@ export interface PositionStats {
 
 /** One axis of one plane, as the wide-band pass sees it; `lines` and `levels` are computed on first use. */
 export interface BandAxis {
-  plane: ArrayLike<number>;
-  width: number;
-  height: number;
-  axis: 'rows' | 'columns';
-  maxValue: number;
   lineLen: number;
   nLines: number;
   /** The lines (`background`: the paper or ground alone, ink and content set to NaN). */
@@ -72,11 +67,6 @@ export function bandAxis(
     return gathered;
   };
   return {
-    plane,
-    width,
-    height,
-    axis,
-    maxValue,
     lineLen,
     nLines,
     lines(background, minValid) {
