@@ -41,6 +41,14 @@ describe('bridgeStep: the step most lines agree on across content', () => {
     expect(Math.abs((bridge(d) as number) - 9)).toBeLessThan(0.4);
   });
 
+  it('content scatters 65 % of the lines over ±200 and 35 % show no step: bridged by 0; with 15 % at zero: cut', () => {
+    // Below a majority the densest value is trusted only at zero, and only with 25 % of the lines (band-bridge.ts
+    // MIN_ZERO_MODE_SHARE): the edge of the coat in camera.png scatters about half the rows this way.
+    const far = (i: number) => (i % 2 ? 1 : -1) * (60 + ((i * 37) % 141));
+    expect(bridge(perLine(512, 0.35, 0, far, sd, 6))).toBe(0);
+    expect(bridge(perLine(512, 0.15, 0, far, sd, 7))).toBeNull();
+  });
+
   it('a uniform content edge of 9 on 85 % of the lines and none on 15 % (a gel lane below its well): cut', () => {
     expect(bridge(perLine(512, 0.85, 9, () => 0, sd, 4))).toBeNull();
   });

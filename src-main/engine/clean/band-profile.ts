@@ -20,6 +20,7 @@
  * - The standard error of a sample median of N Gaussian values, √(π/2)·σ/√N (asymptotic; common
  *   statistical fact, from memory), used for the significance test.
  */
+import { gatherLines, type LineResiduals } from './band-gather';
 import { interpolatedMedian } from './band-median';
 import { dominantPeriod, removeMean, rms, sharedEnergy } from './band-stats';
 import { medianInPlace, runningMedian } from './medians';
@@ -99,7 +100,10 @@ const MIN_CONSISTENCY = 0.5;
  */
 export const MAX_SPREAD_RATIO = 1.8;
 
-/** Estimate the stripe profile of one axis and run the detection test. */
+/**
+ * Estimate the stripe profile of one axis and run the detection test. `keep` receives the lines' running
+ * median residuals before the background test changes them (banding.ts hands them to the wide pass).
+ */
 export function estimateStripeProfile(
   plane: ArrayLike<number>,
   width: number,
@@ -107,6 +111,7 @@ export function estimateStripeProfile(
   axis: BandingAxis,
   options: BandingOptions,
   background = false,
+  keep?: (r: LineResiduals) => void,
 ): StripeProfile {
   // For column stripes the "lines" are rows (we look along x); for row stripes they are columns.
   const lineLen = axis === 'columns' ? width : height;
@@ -115,16 +120,15 @@ export function estimateStripeProfile(
   const w = Math.max(2, Math.min(options.halfWindow ?? DEFAULT_HALF_WINDOW, Math.floor(lineLen / 4)));
   // Residuals stored position-major (resid[x·nLines + k]) so each position's values are contiguous.
   const resid = new Float64Array(nLines * lineLen);
-  const line = new Float64Array(lineLen);
+  const lines = gatherLines(plane, width, height, axis, nLines);
   const med = new Float64Array(lineLen);
   for (let k = 0; k < nLines; k++) {
-    const li = nLines === lineCount ? k : Math.floor(((k + 0.5) * lineCount) / nLines);
-    if (axis === 'columns') for (let x = 0; x < lineLen; x++) line[x] = plane[li * width + x];
-    else for (let x = 0; x < lineLen; x++) line[x] = plane[x * width + li];
+    const line = lines.subarray(k * lineLen, (k + 1) * lineLen);
     runningMedian(line, w, med);
     for (let x = 0; x < lineLen; x++) resid[x * nLines + k] = line[x] - med[x];
   }
   const col = new Float64Array(nLines);
+  keep?.({ lines, resid, halfWindow: w });
   if (background) keepBackground(resid, col);
   const half = nLines >> 1;
   const profile = new Float64Array(lineLen);

@@ -26,9 +26,10 @@
  *    fails (content, which may hide a band edge) is bridged by the step most lines agree on, or cuts the
  *    chain (band-bridge.ts); an edge one half finds and the other does not confirm cuts it too. Between
  *    cuts the profile is made zero-mean on its own, so a doubtful stretch loses only its offset against
- *    the rest instead of vetoing the whole profile or offsetting everything after it.
- * 6. On text pages (banding.ts calls it again when the narrow profile follows the lines of text and this
- *    pass found nothing) ink hides the band edges: the steps are then measured on the paper alone.
+ *    the rest instead of vetoing the whole profile or offsetting everything after it. When the chain
+ *    without its cuts passes the level check of step 4, the cuts were content and it is used instead.
+ * 6. Ink, lanes and texture hide band edges: when this pass finds nothing on the whole lines, banding.ts
+ *    calls it again with the steps measured on the background alone (on text pages, the paper).
  *
  * References
  * - J. W. Tukey, "Exploratory Data Analysis", Addison-Wesley 1977: medians and trimmed means as robust
@@ -36,18 +37,17 @@
  * The grouped step-sum construction, its guards, bridges and cuts are this project's (no source).
  */
 import { bridgeStep, chainProfile } from './band-bridge';
+import { type BandAxis, bandAxis, type Lines, type PositionStats } from './band-lines';
 import { removeMean, rms } from './band-stats';
 import {
   explainsLevels,
   partAgrees,
   robustStep,
-  sampleLines,
   TRIMMED_SE_FACTOR,
   windowDifferences,
 } from './banding-wide-checks';
 import { medianInPlace } from './medians';
 
-const MAX_SAMPLE_LINES = 512;
 /** A step must exceed this many standard errors of its estimate (chosen here: 5 keeps white noise out). */
 const STEP_SE = 5;
 /** The lines are split into this many parts (chosen here)… */
@@ -124,24 +124,13 @@ interface Edge {
   se: number;
 }
 
-interface Lines {
-  /** Sampled lines, line-major (levels[k·lineLen + x]); clipped pixels are NaN. */
-  levels: Float64Array;
-  /** Neighbour differences, position-major (diffs[x·nLines + k]); NaN where a pixel is clipped. */
-  diffs: Float64Array;
-  lineLen: number;
-  nLines: number;
-  maxValue: number;
-  /** Share of the lines that must give unclipped pixels at a position (MIN_VALID_SHARE or _PAPER). */
-  minValid: number;
-}
-
 /**
  * The wide-band profile of one axis of `plane` ('columns': offsets per column; 'rows': per row). With
  * `background` (text pages) the steps are measured on the paper alone (banding-wide-checks.ts sampleLines),
  * and one edge is enough: a full-length step in the paper is the lamp or the sensor, not a horizon. With
  * `chain` the chained profile of step 5 is built instead (banding.ts asks for it only after the plain step
- * sum, on the whole lines and on the paper, was rejected).
+ * sum, on the whole lines and on the paper, was rejected). `shared` is the axis's view (band-lines.ts): pass
+ * the same one to every candidate tried on one plane, so the lines and statistics are measured only once.
  */
 export function wideBandProfile(
   plane: ArrayLike<number>,
@@ -151,31 +140,19 @@ export function wideBandProfile(
   maxValue: number,
   background = false,
   chain = false,
+  shared: BandAxis = bandAxis(plane, width, height, axis, maxValue),
 ): WideBands {
-  const lineLen = axis === 'columns' ? width : height;
-  const lineCount = axis === 'columns' ? height : width;
-  const nLines = Math.min(lineCount, MAX_SAMPLE_LINES);
-  const levels = sampleLines(plane, width, height, axis, nLines, maxValue, background);
-  const diffs = new Float64Array(Math.max(0, lineLen - 1) * nLines);
-  for (let k = 0; k < nLines; k++)
-    for (let x = 0; x + 1 < lineLen; x++)
-      diffs[x * nLines + k] = levels[k * lineLen + x + 1] - levels[k * lineLen + x];
-  const lines: Lines = {
-    levels,
-    diffs,
-    lineLen,
-    nLines,
-    maxValue,
-    minValid: background ? MIN_VALID_SHARE_PAPER : MIN_VALID_SHARE,
-  };
-  if (chain) return chained(lines, background);
+  const { lineLen, nLines } = shared;
+  const lines = shared.lines(background, background ? MIN_VALID_SHARE_PAPER : MIN_VALID_SHARE);
+  const explains = (s: Float64Array) => explainsLevels(shared.levels(), s);
+  if (chain) return chained(shared, lines, background, explains);
   const whole = edgeProfile(lines, 0, nLines, false);
   const { profile } = whole;
   let detected =
     whole.steps >= (background ? 1 : MIN_STEPS) &&
     rms(profile) >= (MIN_STRENGTH_8BIT * maxValue) / 255 &&
     rms(profile) >= 3 * whole.noiseFloor &&
-    explainsLevels(plane, width, height, axis, profile, nLines);
+    explains(profile);
   // Each half of the lines, analysed alone, may find a band edge that content on the other half hid from
   // the whole; without it the profile would leave a whole stretch offset. Such an edge is added when the
   // other half shows a step of the same sign and at least PART_AGREEMENT of its size there; otherwise
@@ -201,7 +178,7 @@ export function wideBandProfile(
   for (const e of added) for (let x = e.at + 1; x < lineLen; x++) profile[x] += e.step;
   if (added.length) {
     removeMean(profile);
-    detected &&= explainsLevels(plane, width, height, axis, profile, nLines);
+    detected &&= explains(profile);
   }
   const strength = rms(profile);
   const steps = whole.steps + added.length;
@@ -209,10 +186,33 @@ export function wideBandProfile(
   return { profile, steps, strength, noiseFloor, detected };
 }
 
+/** The chained profile's edges and bridges on the whole lines hold at least one link. */
+const edgeLike = (whole: { edges: Edge[]; bridges: Edge[] }) => whole.edges.length + whole.bridges.length > 0;
+
+/**
+ * Something on the whole lines of the axis resembles a band edge: the chained profile's lenient tests keep
+ * an edge or bridge one (cached statistics: this costs only the grouping).
+ */
+function resemblesBandEdges(shared: BandAxis): boolean {
+  return edgeLike(edgeProfile(shared.lines(false, MIN_VALID_SHARE), 0, shared.nLines, true));
+}
+
 /** Step 5 of the header: the chained profile, with bridges across content and cuts where links are doubtful. */
-function chained(lines: Lines, background: boolean): WideBands {
+function chained(
+  shared: BandAxis,
+  lines: Lines,
+  background: boolean,
+  explains: (s: Float64Array) => boolean,
+): WideBands {
   const { lineLen, nLines, maxValue } = lines;
   const whole = edgeProfile(lines, 0, nLines, true);
+  // Nothing on the whole lines resembles a band edge (on the paper: nor on the whole lines of the plain
+  // pass): the halves would have to find every edge alone. On the benchmark's 80 wide-band cases (seeds 1–8)
+  // that happened once, on the paper with the plain lines showing a band edge (page.png's column bands,
+  // seed 6); the halves' two passes cost a third of the banding time of a scan without bands, so the chain
+  // ends here.
+  if (!edgeLike(whole) && (!background || !resemblesBandEdges(shared)))
+    return { profile: whole.profile, steps: 0, strength: 0, noiseFloor: 0, detected: false };
   const edges = [...whole.edges];
   const links = [...edges, ...whole.bridges];
   const cuts = [...whole.cuts];
@@ -240,6 +240,13 @@ function chained(lines: Lines, background: boolean): WideBands {
     edges.length >= (background ? 1 : MIN_STEPS) &&
     strength >= (MIN_CHAIN_STRENGTH_8BIT * maxValue) / 255 &&
     strength >= 3 * noiseFloor;
+  // A cut leaves each stretch's offset against the others in place; where content, not a hidden band edge,
+  // caused it, the uncut chain is right. It is kept when it passes the plain step sum's level check.
+  if (detected && kept.length) {
+    const uncut = chainProfile(lineLen, links, []);
+    if (explains(uncut))
+      return { profile: uncut, steps: edges.length, strength: rms(uncut), noiseFloor, detected };
+  }
   return { profile, steps: edges.length, strength, noiseFloor, detected };
 }
 
@@ -255,10 +262,13 @@ function groupStep(lines: Lines, a: number, b: number, from: number, to: number,
 }
 
 /**
- * Steps 1–3 of the header on the lines [from, to): the zero-mean step-sum profile of the kept edges; when
- * `chain`, with the lenient slice test and the bridges and cuts of step 5.
+ * Step 1 of the header on the lines [from, to): the robust step at each position, whether it is significant,
+ * and the typical spread of a window step; the same for every candidate on these lines, so kept in `lines`.
  */
-function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
+function positionStats(lines: Lines, from: number, to: number): PositionStats {
+  const key = `${from}:${to}`;
+  const known = lines.stats.get(key);
+  if (known) return known;
   const { diffs, lineLen, nLines } = lines;
   const count = to - from;
   const col = new Float64Array(count);
@@ -271,13 +281,27 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
     const se = standardError(all);
     significant[x] = all.count >= lines.minValid * count && Math.abs(all.step) > STEP_SE * se ? 1 : 0;
   }
-  const windowStep = (a: number, b: number, k0: number, k1: number) => groupStep(lines, a, b, k0, k1, col);
   const typical = new Float64Array(TYPICAL_SAMPLES);
   for (let i = 0; i < TYPICAL_SAMPLES; i++) {
     const x = WINDOW + Math.floor((i * Math.max(0, n - 2 * WINDOW)) / TYPICAL_SAMPLES);
-    typical[i] = windowStep(x, x, from, to).spread;
+    typical[i] = groupStep(lines, x, x, from, to, col).spread;
   }
-  const typicalSpread = medianInPlace(typical, TYPICAL_SAMPLES);
+  const made = { step, significant, typicalSpread: medianInPlace(typical, TYPICAL_SAMPLES) };
+  lines.stats.set(key, made);
+  return made;
+}
+
+/**
+ * Steps 1–3 of the header on the lines [from, to): the zero-mean step-sum profile of the kept edges; when
+ * `chain`, with the lenient slice test and the bridges and cuts of step 5.
+ */
+function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
+  const { lineLen } = lines;
+  const count = to - from;
+  const col = new Float64Array(count);
+  const n = Math.max(0, lineLen - 1);
+  const windowStep = (a: number, b: number, k0: number, k1: number) => groupStep(lines, a, b, k0, k1, col);
+  const { step, significant, typicalSpread } = positionStats(lines, from, to);
   // The spread beside a group (windows LOCAL_OFFSET px before and after it): in texture, content edges and
   // band edges alike come with a larger spread than the image's typical one.
   const localSpread = (a: number, b: number) => {

@@ -4,6 +4,9 @@
  * banding-wide.ts. Here: the order of the axes, the spikes of the automatic mode, and the subtraction.
  * An image in which nothing is detected is left exactly as it was.
  */
+
+import type { LineResiduals } from './band-gather';
+import { bandAxis } from './band-lines';
 import {
   type BandingOptions,
   estimateStripeProfile,
@@ -33,6 +36,13 @@ const FULL_SPAN = 0.97;
  * reaches 1.35 robust strengths and Gaussian stripes pass 2 in 5 % of positions).
  */
 const SHOULDER_FACTOR = 2;
+/** Band edges a wide profile measured on the background needs away from text pages (as banding-wide.ts MIN_STEPS)… */
+const MIN_WIDE_STEPS = 2;
+/**
+ * …unless its one edge is at least this many 8-bit grey levels (chosen here: clean text.png's rows gave a
+ * single step of 3.5; the benchmark's wide bands with one edge found measured 9.0 and 11.5).
+ */
+const MIN_SINGLE_STEP_8BIT = 6;
 
 export interface BandingAnalysis {
   direction: BandingDirection;
@@ -55,21 +65,38 @@ export function analyseBanding(
   mode: 'auto' | 'rows' | 'columns' | 'both',
   options: BandingOptions,
 ): BandingAnalysis {
-  const columns = profileOf(plane, width, height, 'columns', options);
+  // The narrow pass's line residuals serve the wide pass's background lines when both look at one plane.
+  const kept: { r: LineResiduals | null } = { r: null };
+  const keep = (r: LineResiduals) => {
+    kept.r = r;
+  };
+  const columns = profileOf(plane, width, height, 'columns', options, keep);
   let removeColumns = mode === 'auto' ? columns.detected : mode === 'columns' || mode === 'both';
   if (mode === 'auto') clipSpikes(columns);
   let base = removeColumns ? subtractProfiles(plane, width, height, null, columns.profile) : plane;
   if (mode === 'auto' || mode === 'columns' || mode === 'both')
-    if (addWideBands(base, width, height, columns, removeColumns, options.maxValue)) {
+    if (
+      addWideBands(
+        base,
+        width,
+        height,
+        columns,
+        removeColumns,
+        options.maxValue,
+        base === plane ? kept.r : null,
+      )
+    ) {
       base = subtractProfiles(plane, width, height, null, columns.profile);
       removeColumns = true;
     }
-  const rows = profileOf(base, width, height, 'rows', options);
+  kept.r = null;
+  const rows = profileOf(base, width, height, 'rows', options, keep);
   if (mode === 'auto') clipSpikes(rows);
   let removeRows = mode === 'auto' ? rows.detected : mode === 'rows' || mode === 'both';
   if (mode === 'auto' || mode === 'rows' || mode === 'both') {
     const rest = removeRows ? subtractProfiles(base, width, height, rows.profile, null) : base;
-    if (addWideBands(rest, width, height, rows, removeRows, options.maxValue)) removeRows = true;
+    if (addWideBands(rest, width, height, rows, removeRows, options.maxValue, rest === base ? kept.r : null))
+      removeRows = true;
   }
   const direction: BandingDirection =
     removeRows && removeColumns ? 'both' : removeRows ? 'rows' : removeColumns ? 'columns' : 'none';
@@ -79,7 +106,7 @@ export function analyseBanding(
 /**
  * The profile of one axis; when it fails only because its spread across lines follows content (lines of
  * text), the profile of the background alone (band-profile.ts keepBackground) is tried, and kept if it
- * passes the whole detection test.
+ * passes the whole detection test. `keep` receives the first estimate's line residuals.
  */
 function profileOf(
   plane: Float32Array,
@@ -87,8 +114,9 @@ function profileOf(
   height: number,
   axis: 'rows' | 'columns',
   options: BandingOptions,
+  keep: (r: LineResiduals) => void,
 ): StripeProfile {
-  const p = estimateStripeProfile(plane, width, height, axis, options);
+  const p = estimateStripeProfile(plane, width, height, axis, options, false, keep);
   if (p.detected || p.spreadRatio <= MAX_SPREAD_RATIO) return p;
   const bg = estimateStripeProfile(plane, width, height, axis, options, true);
   return bg.detected ? bg : p;
@@ -107,18 +135,27 @@ function addWideBands(
   p: StripeProfile,
   narrowRemoved: boolean,
   maxValue: number,
+  known: LineResiduals | null,
 ): boolean {
-  // Lines of text (the narrow profile's spread follows content) hide band edges behind ink: the paper alone
-  // is tried next. Only when both step sums are rejected is the chained profile tried, in the same order.
+  // Ink, lanes or texture can hide band edges from the whole lines: the paper (the background alone,
+  // banding-wide-checks.ts sampleLines) is tried next, on every image (before, only where the narrow
+  // profile followed lines of text: on the benchmark's wide bands this found 28 of 40 cases against 22,
+  // none made worse). Only when both step sums are rejected is the chained profile tried, in the same order.
+  // One edge in the paper is enough on a text page (wideBandProfile's `background`); elsewhere a single
+  // small step is as likely content (clean text.png's rows gave one of 3.5 grey levels), so it must be large.
   const paper = p.spreadRatio > MAX_SPREAD_RATIO;
-  let wide = wideBandProfile(rest, width, height, p.axis, maxValue);
+  const shared = bandAxis(rest, width, height, p.axis, maxValue, known);
+  let wide = wideBandProfile(rest, width, height, p.axis, maxValue, false, false, shared);
   for (const [background, chain] of [
     [true, false],
     [false, true],
     [true, true],
   ])
-    if (!wide.detected && (paper || !background))
-      wide = wideBandProfile(rest, width, height, p.axis, maxValue, background, chain);
+    if (!wide.detected) {
+      wide = wideBandProfile(rest, width, height, p.axis, maxValue, background, chain, shared);
+      if (background && !paper && wide.steps < MIN_WIDE_STEPS && !largeStep(wide.profile, maxValue))
+        wide.detected = false;
+    }
   if (!wide.detected) return false;
   for (let i = 0; i < p.profile.length; i++)
     p.profile[i] = (narrowRemoved ? p.profile[i] : 0) + wide.profile[i];
@@ -128,6 +165,13 @@ function addWideBands(
   const { period, share } = dominantPeriod(p.profile);
   p.period = share >= MIN_PERIOD_SHARE ? period : null;
   return true;
+}
+
+/** The profile has a step of at least MIN_SINGLE_STEP_8BIT between neighbouring positions. */
+function largeStep(profile: Float64Array, maxValue: number): boolean {
+  for (let x = 0; x + 1 < profile.length; x++)
+    if (Math.abs(profile[x + 1] - profile[x]) >= (MIN_SINGLE_STEP_8BIT * maxValue) / 255) return true;
+  return false;
 }
 
 /**

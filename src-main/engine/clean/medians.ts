@@ -56,7 +56,8 @@ export function medianInPlace(a: Float64Array, n: number): number {
   return (lo + hi) / 2;
 }
 
-function select(a: Float64Array, left0: number, right0: number, k: number): number {
+/** Hoare's FIND on a[left0..right0]: a[k] holds the k-th smallest, smaller values before it, larger after. */
+export function select(a: Float64Array, left0: number, right0: number, k: number): number {
   let left = left0;
   let right = right0;
   while (right > left) {
