@@ -34,9 +34,13 @@ const workTaken = new WeakSet<PlaneArena>();
 /** Each handed-out reconstruction's arena, until its caller gives it back ({@link giveBackWork}). */
 const handedOut = new WeakMap<Float64Array, PlaneArena>();
 
-/** The arena holding `plane`'s coefficients, if it has one and the kernels are on. */
+/**
+ * The arena holding `plane`'s coefficients, if it has one, the kernels are on and its work region is not
+ * handed out (a handed-out reconstruction lies over q: nothing may quantise into it meanwhile).
+ */
 export function residentArena(plane: object): PlaneArena | undefined {
-  return codecKernelsActive() ? arenaOf.get(plane) : undefined;
+  const arena = codecKernelsActive() ? arenaOf.get(plane) : undefined;
+  return arena && !workTaken.has(arena) ? arena : undefined;
 }
 
 /** Record that `plane` (an analysed plane object) lives in `arena`. */
@@ -106,7 +110,8 @@ function releaseQ(arena: PlaneArena): void {
 /** The arena still holding `result`'s quantised values (and its plane's coefficients), if any. */
 export function residentQ(result: object): PlaneArena | undefined {
   const arena = codecKernelsActive() ? resultArena.get(result) : undefined;
-  if (!arena || qOwner.get(arena) === result) return arena;
+  if (!arena || workTaken.has(arena)) return undefined;
+  if (qOwner.get(arena) === result) return arena;
   // Load it back (warm memory: cheaper than any copying path): its array, or zeros and its non-zeros.
   const dense = denseQ.get(result);
   const sparse = sparseQ.get(result);
@@ -227,10 +232,11 @@ export function bandMaxResident(arena: PlaneArena, bands: BandRect[]): Float64Ar
 
 /**
  * The plane rebuilt from the resident q (par: Δ, d1, d2 per band) and inverse-transformed in the arena's work
- * region: a copy, or with `handOut` the region itself (no copy into fresh pages; for the decoded file, usually
- * the last use of the plane). After a hand-out the arena's coder and reconstruction are not used again
- * (undefined: take the copying paths) until the caller gives the region back ({@link giveBackWork}), so
- * nothing writes over it, and the memory, which only the coder grows, keeps its size.
+ * region, over q (whose non-zeros are kept first, as when a quantisation reuses the region): a copy, or with
+ * `handOut` the region itself (no copy into fresh pages; for the decoded file, usually the last use of the
+ * plane). After a hand-out the arena is not used again (undefined: take the copying paths) until the caller
+ * gives the region back ({@link giveBackWork}), so nothing writes over it, and the memory, which only the
+ * coder grows, keeps its size.
  */
 export function reconstructResident(
   arena: PlaneArena,
@@ -240,10 +246,12 @@ export function reconstructResident(
   handOut: boolean,
 ): Float64Array | undefined {
   if (workTaken.has(arena)) return undefined;
-  if (handOut) workTaken.add(arena);
   arena.bands(bands, par);
-  const { width, n, workAt } = arena;
-  arena.lift.dequantise(arena.qAt, workAt, width, bands.length, GEO, PAR);
+  const { width, height, n, workAt } = arena;
+  // The region's q is about to be overwritten: its owner keeps its non-zeros (loaded back when next needed).
+  releaseQ(arena);
+  if (handOut) workTaken.add(arena);
+  arena.lift.dequantiseInPlace(arena.qAt, workAt, width, height, bands.length, GEO, PAR);
   if (levels > 0) arena.transform(levels, LIFTING, true, workAt);
   const x = new Float64Array(arena.memory.buffer, workAt, n);
   if (!handOut) return x.slice();

@@ -27,6 +27,15 @@ export interface LiftingExports {
     n: number,
   ): number;
   dequantise(q: number, x: number, width: number, nb: number, geo: number, par: number): void;
+  dequantiseInPlace(
+    q: number,
+    x: number,
+    width: number,
+    height: number,
+    nb: number,
+    geo: number,
+    par: number,
+  ): void;
   widen(dst: number, src: number, n: number): void;
   binStats(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
   squaredError(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
