@@ -341,39 +341,34 @@ function deinterleave(samples: Uint8Array | Uint16Array, planes: Float32Array[],
   }
 }
 
-/** Samples swapped to big-endian at a time when 16-bit samples are hashed (2 MiB of scratch, not a full copy). */
+/** Pixels hashed at a time (a scratch buffer of this many pixels, not a full interleaved copy). */
 const HASH_CHUNK = 1 << 20;
 
 /**
- * SHA-256 (hex) of interleaved samples as the container records it: 8-bit as they are, 16-bit big-endian,
- * swapped a chunk at a time.
+ * SHA-256 (hex) of interleaved samples as the container records it: 8-bit as they are, 16-bit big-endian.
  */
 export function hashInterleaved(samples: Uint8Array | Uint16Array): string {
-  const hash = createHash('sha256');
-  if (samples instanceof Uint8Array) return hash.update(samples).digest('hex');
-  const buf = Buffer.alloc(2 * Math.min(HASH_CHUNK, samples.length));
-  for (let start = 0; start < samples.length; start += HASH_CHUNK) {
-    const end = Math.min(samples.length, start + HASH_CHUNK);
-    for (let s = start; s < end; s++) buf.writeUInt16BE(samples[s], (s - start) * 2);
-    hash.update(buf.subarray(0, (end - start) * 2));
-  }
-  return hash.digest('hex');
+  if (samples instanceof Uint8Array) return createHash('sha256').update(samples).digest('hex');
+  return hashSamples([samples], 16);
 }
 
-/** SHA-256 of interleaved samples as the container records it (16-bit big-endian). */
+/**
+ * SHA-256 (hex) of planes interleaved as the container records them (16-bit big-endian), interleaved a chunk
+ * of {@link HASH_CHUNK} pixels at a time.
+ */
 export function hashSamples(planes: ArrayLike<number>[], bitDepth: 8 | 16): string {
   const n = planes[0].length;
   const ch = planes.length;
   const hash = createHash('sha256');
-  if (bitDepth === 16) {
-    const buf = Buffer.alloc(n * ch * 2);
-    for (let i = 0, p = 0; i < n; i++)
-      for (let c = 0; c < ch; c++, p += 2) buf.writeUInt16BE(planes[c][i], p);
-    hash.update(buf);
-  } else {
-    const buf = Buffer.alloc(n * ch);
-    for (let i = 0, p = 0; i < n; i++) for (let c = 0; c < ch; c++, p++) buf[p] = planes[c][i];
-    hash.update(buf);
+  const buf = Buffer.alloc(Math.min(HASH_CHUNK, n) * ch * (bitDepth / 8));
+  for (let start = 0; start < n; start += HASH_CHUNK) {
+    const end = Math.min(n, start + HASH_CHUNK);
+    let p = 0;
+    if (bitDepth === 16)
+      for (let i = start; i < end; i++)
+        for (let c = 0; c < ch; c++, p += 2) buf.writeUInt16BE(planes[c][i], p);
+    else for (let i = start; i < end; i++) for (let c = 0; c < ch; c++, p++) buf[p] = planes[c][i];
+    hash.update(buf.subarray(0, p));
   }
   return hash.digest('hex');
 }
