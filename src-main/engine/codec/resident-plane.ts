@@ -85,23 +85,33 @@ function releaseQ(arena: PlaneArena): void {
   const owner = qOwner.get(arena);
   qOwner.delete(arena);
   if (!owner || denseQ.has(owner) || !resultArena.has(owner)) return;
-  const { n } = arena;
-  const buf = arena.memory.buffer;
-  const q = new Int32Array(buf, arena.qAt, n);
-  const flags = new Uint8Array(buf, arena.flagsAt, Math.ceil(n / CHUNK));
-  // The quantiser counted the non-zeros (the result's nonZero): one pass over the chunks holding them.
+  const { n, workAt } = arena;
+  // The quantiser counted the non-zeros (the result's nonZero). Below q lies free room (the coder's map, not in
+  // use now) for 4n bytes: the kernel writes positions and values there when they fit, else a pass here.
   const count = (owner as { nonZero?: number }).nonZero ?? 0;
-  const at = new Int32Array(count);
-  const v = new Int32Array(count);
+  let at: Int32Array;
+  let v: Int32Array;
   let k = 0;
-  for (let j = 0; j < flags.length && k < count; j++) {
-    if (!flags[j]) continue;
-    const end = Math.min(n, (j + 1) * CHUNK);
-    for (let i = j * CHUNK; i < end; i++)
-      if (q[i] !== 0) {
-        at[k] = i;
-        v[k++] = q[i];
-      }
+  if (8 * count <= 4 * n) {
+    k = arena.lift.compactNonZero(arena.qAt, arena.flagsAt, n, workAt, workAt + 4 * count);
+    const buf = arena.memory.buffer;
+    at = new Int32Array(buf, workAt, k).slice();
+    v = new Int32Array(buf, workAt + 4 * count, k).slice();
+  } else {
+    const buf = arena.memory.buffer;
+    const q = new Int32Array(buf, arena.qAt, n);
+    const flags = new Uint8Array(buf, arena.flagsAt, Math.ceil(n / CHUNK));
+    at = new Int32Array(count);
+    v = new Int32Array(count);
+    for (let j = 0; j < flags.length && k < count; j++) {
+      if (!flags[j]) continue;
+      const end = Math.min(n, (j + 1) * CHUNK);
+      for (let i = j * CHUNK; i < end; i++)
+        if (q[i] !== 0) {
+          at[k] = i;
+          v[k++] = q[i];
+        }
+    }
   }
   // (Fewer when a step far below the safe range wrapped a magnitude to 0, as an Int32Array store does.)
   sparseQ.set(owner, { at: at.subarray(0, k), v: v.subarray(0, k) });

@@ -385,6 +385,29 @@ export function dequantiseInPlace(q: usize, x: usize, width: i32, height: i32, n
   }
 }
 
+/**
+ * The non-zeros of the n q values in the chunks flagged at `flags` (as {@link quantise} sets them), in raster
+ * order: positions to `at`, values to `v` (i32 each); returns how many. The host keeps a result's q this way
+ * before the region is reused.
+ */
+export function compactNonZero(q: usize, flags: usize, n: i32, at: usize, v: usize): i32 {
+  let k = 0;
+  const chunks = (n + CHUNK - 1) >> CHUNK_BITS;
+  for (let j = 0; j < chunks; j++) {
+    if (load<u8>(flags + <usize>j) == 0) continue;
+    const end = min<i32>(n, (j + 1) << CHUNK_BITS);
+    for (let i = j << CHUNK_BITS; i < end; i++) {
+      const x = load<i32>(q + (<usize>i << 2));
+      if (x != 0) {
+        store<i32>(at + (<usize>k << 2), i);
+        store<i32>(v + (<usize>k << 2), x);
+        k++;
+      }
+    }
+  }
+  return k;
+}
+
 // ------------------------------------------------------------------ resident planes (../arena.ts)
 
 /**
