@@ -7,7 +7,12 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { forgetCodes, recordingCodes } from '../../src-main/engine/codec/coded-planes';
 import { giveBackWork, residentArena, residentQView } from '../../src-main/engine/codec/resident-plane';
 import { ARENA_MIN_PIXELS, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
-import { analysePlane, codeAnalysed, decodePlane } from '../../src-main/engine/codec/wavelet-plane';
+import {
+  analysePlane,
+  codeAnalysed,
+  decodePlane,
+  reconstructCoded,
+} from '../../src-main/engine/codec/wavelet-plane';
 import { startResidualCheck } from '../../src-main/engine/lowrank/residual-check';
 import { runHere } from '../../src-main/engine/lowrank/side-jobs';
 import { digest, rampPlane, reference } from './plane-samples';
@@ -94,5 +99,46 @@ describe('resident quantised values read in place', () => {
     forgetCodes();
     expect(got.map((g) => g.d)).toEqual(ref);
     expect(got.every((g) => g.inPlace && g.copied)).toBe(true);
+  });
+
+  // The rebuild fills the arena's work region, whose upper half is q (src-main/engine/codec/wasm/arena.ts):
+  // the rebuilt values and every coded result's q (kept as its non-zeros first) still equal the reference's.
+  it.each(SIZES)('%i×%i: a rebuild over q keeps every q and gives the reference bits', (w, h) => {
+    const p = rampPlane(w, h, 11 * w + 5 * h);
+    const ref = reference(() => {
+      const a = analysePlane(p, w, h);
+      const coded = STEPS.map((s) => codeAnalysed(a, s, 2));
+      return { x: coded.map((c) => digest(reconstructCoded(a, c))), q: coded.map((c) => digest(c.q)) };
+    });
+    const a = analysePlane(p, w, h);
+    const coded = STEPS.map((s) => codeAnalysed(a, s, 2));
+    // Rebuild each, last coded first and then the others: each rebuild overwrites the q region.
+    const order = [2, 0, 1];
+    const x = order.map((k) => digest(reconstructCoded(a, coded[k])));
+    expect(x).toEqual(order.map((k) => ref.x[k]));
+    expect(order.map((k) => digest(residentQView(coded[k]) as Int32Array))).toEqual(
+      order.map((k) => ref.q[k]),
+    );
+    // Coding again after the rebuilds quantises into the region afresh: the same bytes as the first time.
+    expect(digest(codeAnalysed(a, STEPS[1], 2).q)).toBe(ref.q[1]);
+  });
+
+  it('while a rebuild is handed out the plane takes the copying paths, and its q is not loaded over it', () => {
+    const [w, h, step] = [97, 83, 4];
+    const p = rampPlane(w, h, 21);
+    const ref = reference(() => digest(codeAnalysed(analysePlane(p, w, h), step, 2).q));
+    forgetCodes();
+    const a = analysePlane(p, w, h);
+    const c = recordingCodes(() => codeAnalysed(a, step, 2));
+    const x = decodePlane(c.bytes, w, h, step, 2);
+    const before = digest(x);
+    expect(residentArena(a)).toBeUndefined();
+    expect(residentQView(c)).toBeUndefined();
+    expect(digest(codeAnalysed(a, step, 2).q)).toBe(ref);
+    expect(digest(x)).toBe(before);
+    giveBackWork(x);
+    forgetCodes();
+    expect(residentArena(a)).toBeDefined();
+    expect(digest(residentQView(c) as Int32Array)).toBe(ref);
   });
 });

@@ -43,14 +43,7 @@ import {
   PS_BINS,
   SIGN_CONTEXTS,
 } from './wasm/coder-constants';
-import {
-  type CoderSetup,
-  coderWasm,
-  decodeWasm,
-  encodeAt,
-  encodeWasm,
-  planesLayout,
-} from './wasm/coder-runtime';
+import { type CoderSetup, coderWasm, decodeWasm, encodeAt, encodeWasm } from './wasm/coder-runtime';
 import type { Band } from './wavelet-transform';
 
 /** Neighbourhood sum → bin: 0, 1, 2, 3, 4–5, 6–7, 8–11, 12–17, 18–29 (≥ NB_SUMS = 30: bin 9). */
@@ -307,7 +300,7 @@ export function encodeResidentV2(
   if (!c) return null;
   const k = offsetCodes(stats.n, stats.sum);
   const table = bandTable(bands);
-  const at = planesLayout(arena.n, table, arena.qAt, arena.workAt);
+  const at = arena.coderLayout(table);
   return { bytes: encodeAt(c, at, arena.n, arena.width, table, stats.n, k), offsets: offsetsOf(stats.n, k) };
 }
 

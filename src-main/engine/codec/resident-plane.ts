@@ -34,9 +34,13 @@ const workTaken = new WeakSet<PlaneArena>();
 /** Each handed-out reconstruction's arena, until its caller gives it back ({@link giveBackWork}). */
 const handedOut = new WeakMap<Float64Array, PlaneArena>();
 
-/** The arena holding `plane`'s coefficients, if it has one and the kernels are on. */
+/**
+ * The arena holding `plane`'s coefficients, if it has one, the kernels are on and its work region is not
+ * handed out (a handed-out reconstruction lies over q: nothing may quantise into it meanwhile).
+ */
 export function residentArena(plane: object): PlaneArena | undefined {
-  return codecKernelsActive() ? arenaOf.get(plane) : undefined;
+  const arena = codecKernelsActive() ? arenaOf.get(plane) : undefined;
+  return arena && !workTaken.has(arena) ? arena : undefined;
 }
 
 /** Record that `plane` (an analysed plane object) lives in `arena`. */
@@ -81,23 +85,33 @@ function releaseQ(arena: PlaneArena): void {
   const owner = qOwner.get(arena);
   qOwner.delete(arena);
   if (!owner || denseQ.has(owner) || !resultArena.has(owner)) return;
-  const { n } = arena;
-  const buf = arena.memory.buffer;
-  const q = new Int32Array(buf, arena.qAt, n);
-  const flags = new Uint8Array(buf, arena.flagsAt, Math.ceil(n / CHUNK));
-  // The quantiser counted the non-zeros (the result's nonZero): one pass over the chunks holding them.
+  const { n, workAt } = arena;
+  // The quantiser counted the non-zeros (the result's nonZero). Below q lies free room (the coder's map, not in
+  // use now) for 4n bytes: the kernel writes positions and values there when they fit, else a pass here.
   const count = (owner as { nonZero?: number }).nonZero ?? 0;
-  const at = new Int32Array(count);
-  const v = new Int32Array(count);
+  let at: Int32Array;
+  let v: Int32Array;
   let k = 0;
-  for (let j = 0; j < flags.length && k < count; j++) {
-    if (!flags[j]) continue;
-    const end = Math.min(n, (j + 1) * CHUNK);
-    for (let i = j * CHUNK; i < end; i++)
-      if (q[i] !== 0) {
-        at[k] = i;
-        v[k++] = q[i];
-      }
+  if (8 * count <= 4 * n) {
+    k = arena.lift.compactNonZero(arena.qAt, arena.flagsAt, n, workAt, workAt + 4 * count);
+    const buf = arena.memory.buffer;
+    at = new Int32Array(buf, workAt, k).slice();
+    v = new Int32Array(buf, workAt + 4 * count, k).slice();
+  } else {
+    const buf = arena.memory.buffer;
+    const q = new Int32Array(buf, arena.qAt, n);
+    const flags = new Uint8Array(buf, arena.flagsAt, Math.ceil(n / CHUNK));
+    at = new Int32Array(count);
+    v = new Int32Array(count);
+    for (let j = 0; j < flags.length && k < count; j++) {
+      if (!flags[j]) continue;
+      const end = Math.min(n, (j + 1) * CHUNK);
+      for (let i = j * CHUNK; i < end; i++)
+        if (q[i] !== 0) {
+          at[k] = i;
+          v[k++] = q[i];
+        }
+    }
   }
   // (Fewer when a step far below the safe range wrapped a magnitude to 0, as an Int32Array store does.)
   sparseQ.set(owner, { at: at.subarray(0, k), v: v.subarray(0, k) });
@@ -106,7 +120,8 @@ function releaseQ(arena: PlaneArena): void {
 /** The arena still holding `result`'s quantised values (and its plane's coefficients), if any. */
 export function residentQ(result: object): PlaneArena | undefined {
   const arena = codecKernelsActive() ? resultArena.get(result) : undefined;
-  if (!arena || qOwner.get(arena) === result) return arena;
+  if (!arena || workTaken.has(arena)) return undefined;
+  if (qOwner.get(arena) === result) return arena;
   // Load it back (warm memory: cheaper than any copying path): its array, or zeros and its non-zeros.
   const dense = denseQ.get(result);
   const sparse = sparseQ.get(result);
@@ -227,10 +242,11 @@ export function bandMaxResident(arena: PlaneArena, bands: BandRect[]): Float64Ar
 
 /**
  * The plane rebuilt from the resident q (par: Δ, d1, d2 per band) and inverse-transformed in the arena's work
- * region: a copy, or with `handOut` the region itself (no copy into fresh pages; for the decoded file, usually
- * the last use of the plane). After a hand-out the arena's coder and reconstruction are not used again
- * (undefined: take the copying paths) until the caller gives the region back ({@link giveBackWork}), so
- * nothing writes over it, and the memory, which only the coder grows, keeps its size.
+ * region, over q (whose non-zeros are kept first, as when a quantisation reuses the region): a copy, or with
+ * `handOut` the region itself (no copy into fresh pages; for the decoded file, usually the last use of the
+ * plane). After a hand-out the arena is not used again (undefined: take the copying paths) until the caller
+ * gives the region back ({@link giveBackWork}), so nothing writes over it, and the memory, which only the
+ * coder grows, keeps its size.
  */
 export function reconstructResident(
   arena: PlaneArena,
@@ -240,10 +256,12 @@ export function reconstructResident(
   handOut: boolean,
 ): Float64Array | undefined {
   if (workTaken.has(arena)) return undefined;
-  if (handOut) workTaken.add(arena);
   arena.bands(bands, par);
-  const { width, n, workAt } = arena;
-  arena.lift.dequantise(arena.qAt, workAt, width, bands.length, GEO, PAR);
+  const { width, height, n, workAt } = arena;
+  // The region's q is about to be overwritten: its owner keeps its non-zeros (loaded back when next needed).
+  releaseQ(arena);
+  if (handOut) workTaken.add(arena);
+  arena.lift.dequantiseInPlace(arena.qAt, workAt, width, height, bands.length, GEO, PAR);
   if (levels > 0) arena.transform(levels, LIFTING, true, workAt);
   const x = new Float64Array(arena.memory.buffer, workAt, n);
   if (!handOut) return x.slice();

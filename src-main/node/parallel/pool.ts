@@ -22,7 +22,12 @@ import { Worker } from 'node:worker_threads';
 import type { Backend, FloatArray, Gemm, Workspace } from '../../engine/linalg';
 import { gemmTs } from '../../engine/linalg/gemm-ts';
 import { wasmBase64 } from '../../engine/linalg/wasm/generated/kernels-shared';
-import { decodeBase64, type KernelExports, RESERVED_BYTES } from '../../engine/linalg/wasm/runtime';
+import {
+  decodeBase64,
+  growMemoryTo,
+  type KernelExports,
+  RESERVED_BYTES,
+} from '../../engine/linalg/wasm/runtime';
 import { kernelOps, touchMemory } from '../../engine/linalg/workspace';
 import {
   CLAIM,
@@ -155,10 +160,9 @@ export class LinalgPool implements Backend {
   /** See Backend.reserve: grow the shared memory for a workspace of `bytes` and touch every page. */
   reserve(bytes: number): void {
     if (this.closed || this.busy) return;
-    touchMemory(this.memory, RESERVED_BYTES, bytes, (end) => {
-      const have = this.memory.buffer.byteLength;
-      if (end > have && end <= MAX_PAGES * PAGE) this.memory.grow(Math.ceil((end - have) / PAGE));
-    });
+    touchMemory(this.memory, RESERVED_BYTES, bytes, (end) =>
+      growMemoryTo(this.memory, end, MAX_PAGES * PAGE),
+    );
   }
 
   workspace(bytes: number): Workspace {
@@ -168,15 +172,11 @@ export class LinalgPool implements Backend {
     const start = RESERVED_BYTES;
     this.top = start;
     const need = start + bytes;
-    const have = this.memory.buffer.byteLength;
-    if (need > have) {
-      if (need > MAX_PAGES * PAGE) {
-        this.busy = false;
-        throw new RangeError(
-          `LinalgPool: needs ${Math.ceil(need / 2 ** 20)} MiB of shared memory; the limit is 4 GiB`,
-        );
-      }
-      this.memory.grow(Math.ceil((need - have) / PAGE));
+    if (!growMemoryTo(this.memory, need, MAX_PAGES * PAGE)) {
+      this.busy = false;
+      throw new RangeError(
+        `LinalgPool: needs ${Math.ceil(need / 2 ** 20)} MiB of shared memory, which this runtime cannot give (the limit is 4 GiB)`,
+      );
     }
     const end = need;
     const take = (b: number) => {

@@ -10,13 +10,24 @@
  * is sized once, touched once and reused by every call on the plane.
  *
  * Layout (byte offsets): the lifting module's tables in the first page (./runtime.ts), the coder's scratch
- * from SCRATCH (./coder-constants.ts), then from {@link BASE}: the coefficients (f64), q (i32), the transforms'
- * scratch, the quantiser's chunk flags, and last a work region shared by the coder (magnitude map, the LL
- * band's differences, its output, which may grow the memory) and the reconstruction (f64), never both at once.
+ * from SCRATCH (./coder-constants.ts), then from {@link BASE}: the coefficients (f64), the transforms' scratch,
+ * the quantiser's chunk flags, then the work region of 8n bytes whose upper half is q (i32), and last the
+ * coder's output (which may grow the memory). The reconstruction (f64) fills the whole work region, over q
+ * (the kernel reads each q before anything writes over it; the caller first keeps q's non-zeros), so a plane
+ * touches 16n bytes of fresh memory here and not 20n. The coder's magnitude map and the LL band's differences
+ * sit in the work region's lower half while q is there (they fit when the LL band is at most n/4 values,
+ * i.e. one level or more; otherwise after the work region).
  *
  * Every result equals the TypeScript reference's bit for bit: the kernels perform its operations in its order.
  */
-import { type CoderSetup, type CoderWasm, coderOn, coderWasmLoaded } from './coder-runtime';
+import {
+  type CoderSetup,
+  type CoderWasm,
+  coderOn,
+  coderWasmLoaded,
+  type PlanesAt,
+  planesLayout,
+} from './coder-runtime';
 import { type BandRect, CHUNK, COEF, type LiftingExports, liftingOn, writeBands } from './runtime';
 
 /** Bytes in a WebAssembly page. */
@@ -45,12 +56,14 @@ export function setArenaMinPixels(n: number): void {
 export class PlaneArena {
   readonly n: number;
   readonly coeffsAt: number;
-  readonly qAt: number;
   readonly tmpAt: number;
   readonly bufAt: number;
   readonly flagsAt: number;
-  /** Work region: the coder's magnitude map, then the LL differences and its output; or the reconstruction. */
+  /** Work region (8n bytes): q in its upper half, the coder's map below it; or the whole reconstruction. */
   readonly workAt: number;
+  readonly qAt: number;
+  /** Past the work region: the coder's output (and its map, when that does not fit below q). */
+  readonly endAt: number;
   readonly lift: LiftingExports;
   private coderCache: CoderWasm | null = null;
   private buffer: ArrayBufferLike;
@@ -66,11 +79,12 @@ export class PlaneArena {
     const n = width * height;
     this.n = n;
     this.coeffsAt = BASE;
-    this.qAt = BASE + align16(8 * n);
-    this.tmpAt = this.qAt + align16(4 * n);
+    this.tmpAt = BASE + align16(8 * n);
     this.bufAt = this.tmpAt + align16(16 * Math.max(width, height));
     this.flagsAt = this.bufAt + align16(8 * STRIP * height);
     this.workAt = this.flagsAt + align16(Math.ceil(n / CHUNK));
+    this.qAt = this.workAt + 4 * n;
+    this.endAt = this.workAt + align16(8 * n);
     this.buffer = memory.buffer;
     this.coeffView = new Float64Array(this.buffer, this.coeffsAt, n);
   }
@@ -79,8 +93,8 @@ export class PlaneArena {
   static create(width: number, height: number): PlaneArena | null {
     const n = width * height;
     if (n < minPixels) return null;
-    const probe = align16(8 * n) + align16(4 * n) + align16(16 * Math.max(width, height));
-    const bytes = BASE + probe + align16(8 * STRIP * height) + align16(Math.ceil(n / CHUNK)) + 8 * n + PAGE;
+    const scratch = align16(16 * Math.max(width, height)) + align16(8 * STRIP * height);
+    const bytes = BASE + align16(8 * n) + scratch + align16(Math.ceil(n / CHUNK)) + align16(8 * n) + PAGE;
     if (bytes > MAX_BYTES) return null;
     let memory: WebAssembly.Memory;
     try {
@@ -130,6 +144,16 @@ export class PlaneArena {
   /** Write the band table and per-band parameters for the next kernel call. */
   bands(bands: BandRect[], par: (bi: number) => number[]): void {
     writeBands(this.fresh(), bands, par);
+  }
+
+  /**
+   * Where the coder's arrays go for the band table `table`: q where it lies, the magnitude map and the LL
+   * band's differences below q when they fit there, and the output (which may grow the memory) last.
+   */
+  coderLayout(table: Int32Array): PlanesAt {
+    const below = planesLayout(this.n, table, this.qAt, this.workAt);
+    if (below.tail <= this.qAt) return { ...below, tail: this.endAt };
+    return planesLayout(this.n, table, this.qAt, this.endAt);
   }
 
   /** The coefficient coder on this memory, or null where its port is unavailable or disabled. */

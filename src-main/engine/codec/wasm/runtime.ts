@@ -27,7 +27,17 @@ export interface LiftingExports {
     n: number,
   ): number;
   dequantise(q: number, x: number, width: number, nb: number, geo: number, par: number): void;
+  dequantiseInPlace(
+    q: number,
+    x: number,
+    width: number,
+    height: number,
+    nb: number,
+    geo: number,
+    par: number,
+  ): void;
   widen(dst: number, src: number, n: number): void;
+  compactNonZero(q: number, flags: number, n: number, at: number, v: number): number;
   binStats(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
   squaredError(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
   bandMax(x: number, width: number, nb: number, geo: number, out: number): void;

@@ -142,13 +142,32 @@ export function setWasmDisabled(value: boolean): void {
   disabled = value;
 }
 
+/** Most bytes a 32-bit WebAssembly memory addresses, less a page. */
+const MAX_MEMORY_BYTES = 4 * 2 ** 30 - PAGE;
+
+/**
+ * Grow `memory` to at least `bytes` bytes, in whole pages (earlier views of its buffer detach; a shared memory's
+ * do not). The one grow step behind every kernel memory: this module's, the metrics and codec kernels'
+ * (../../metrics/wasm/loader.ts reserveBytes) and the worker pool's shared memory (node/parallel/pool.ts).
+ * False, with nothing grown, when `bytes` is over `limit` (4 GiB less a page by default) or the runtime refuses
+ * the pages.
+ */
+export function growMemoryTo(memory: WebAssembly.Memory, bytes: number, limit = MAX_MEMORY_BYTES): boolean {
+  const have = memory.buffer.byteLength;
+  if (bytes <= have) return true;
+  if (bytes > limit) return false;
+  try {
+    memory.grow(Math.ceil((bytes - have) / PAGE));
+    return true;
+  } catch {
+    return false;
+  }
+}
+
 /** Make sure the kernels' memory has at least `bytes` bytes; may detach earlier views of its buffer. */
 export function ensureMemory(k: WasmKernels, bytes: number): void {
-  const have = k.memory.buffer.byteLength;
-  if (bytes <= have) return;
-  if (bytes > 4 * 1024 * 1024 * 1024 - PAGE)
+  if (!growMemoryTo(k.memory, bytes))
     throw new RangeError(
-      `rankfold engine: needs ${Math.ceil(bytes / 2 ** 20)} MiB of WebAssembly memory; the limit is 4 GiB`,
+      `rankfold engine: needs ${Math.ceil(bytes / 2 ** 20)} MiB of WebAssembly memory, which this runtime cannot give (the limit is 4 GiB)`,
     );
-  k.memory.grow(Math.ceil((bytes - have) / PAGE));
 }

@@ -8,12 +8,7 @@
  * compiles) the first call starts an asynchronous compile and the TypeScript path runs until it is ready.
  * Where WebAssembly or its SIMD extension is missing, the TypeScript path runs always.
  */
-import { decodeBase64 } from '../../linalg/wasm/runtime';
-
-/** Bytes in a WebAssembly page. */
-const PAGE = 65536;
-/** Largest memory a 32-bit WebAssembly module can address. */
-const MAX_BYTES = 4 * 1024 * 1024 * 1024 - PAGE;
+import { decodeBase64, growMemoryTo } from '../../linalg/wasm/runtime';
 
 export interface LoadedKernel<T> {
   readonly exports: T;
@@ -97,13 +92,5 @@ function abortHandler(): never {
  * it cannot grow that far, and the caller takes the TypeScript path.
  */
 export function reserveBytes(k: LoadedKernel<unknown>, bytes: number): boolean {
-  const have = k.memory.buffer.byteLength;
-  if (bytes <= have) return true;
-  if (bytes > MAX_BYTES) return false;
-  try {
-    k.memory.grow(Math.ceil((bytes - have) / PAGE));
-    return true;
-  } catch {
-    return false;
-  }
+  return growMemoryTo(k.memory, bytes);
 }

@@ -347,6 +347,67 @@ export function dequantise(q: usize, x: usize, width: i32, nb: i32, geo: usize, 
   }
 }
 
+/**
+ * {@link dequantise} in raster order, so that q may lie in the upper half of x's region (q = x + 4n, the arena's
+ * layout): element i reads q[i] before writing x[i], and x[i]'s bytes end at or below q[i + 1]'s, so every q is
+ * read before anything writes over it. Each row is done band by band from left to right (the bands partition
+ * the plane; a pixel outside every band is left as it is, as dequantise leaves it). Same values, bit for bit.
+ */
+export function dequantiseInPlace(q: usize, x: usize, width: i32, height: i32, nb: i32, geo: usize, par: usize): void {
+  for (let y = 0; y < height; y++) {
+    let from = 0;
+    for (;;) {
+      // The band of this row that starts leftmost at or after `from`.
+      let best = -1;
+      let bx = width;
+      for (let bi = 0; bi < nb; bi++) {
+        const g = geo + (<usize>bi << 4);
+        const x0 = load<i32>(g);
+        const y0 = load<i32>(g, 4);
+        if (y < y0 || y >= y0 + load<i32>(g, 12) || x0 < from || x0 >= bx || load<i32>(g, 8) <= 0) continue;
+        best = bi;
+        bx = x0;
+      }
+      if (best < 0) break;
+      const g = geo + (<usize>best << 4);
+      const p = par + (<usize>best << 5);
+      const bw = load<i32>(g, 8);
+      const step = load<f64>(p);
+      const d1 = load<f64>(p, 8);
+      const d2 = load<f64>(p, 16);
+      const row = <usize>y * <usize>width + <usize>bx;
+      for (let i: usize = 0; i < <usize>bw; i++) {
+        const v = load<i32>(q + ((row + i) << 2));
+        store<f64>(x + ((row + i) << 3), v != 0 ? rebuilt(<f64>v, step, d1, d2) : 0);
+      }
+      from = bx + bw;
+    }
+  }
+}
+
+/**
+ * The non-zeros of the n q values in the chunks flagged at `flags` (as {@link quantise} sets them), in raster
+ * order: positions to `at`, values to `v` (i32 each); returns how many. The host keeps a result's q this way
+ * before the region is reused.
+ */
+export function compactNonZero(q: usize, flags: usize, n: i32, at: usize, v: usize): i32 {
+  let k = 0;
+  const chunks = (n + CHUNK - 1) >> CHUNK_BITS;
+  for (let j = 0; j < chunks; j++) {
+    if (load<u8>(flags + <usize>j) == 0) continue;
+    const end = min<i32>(n, (j + 1) << CHUNK_BITS);
+    for (let i = j << CHUNK_BITS; i < end; i++) {
+      const x = load<i32>(q + (<usize>i << 2));
+      if (x != 0) {
+        store<i32>(at + (<usize>k << 2), i);
+        store<i32>(v + (<usize>k << 2), x);
+        k++;
+      }
+    }
+  }
+  return k;
+}
+
 // ------------------------------------------------------------------ resident planes (../arena.ts)
 
 /**
