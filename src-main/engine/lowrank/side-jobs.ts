@@ -48,10 +48,12 @@ export interface SideJobs {
   };
   /**
    * A residual plane's bytes (coder 2, ../codec/coeff-coder) range-decoded into quantised coefficients (in
-   * shared memory, so the answer carries no copy) and reconstruction offsets (./residual-check).
+   * shared memory, so the answer carries no copy) and reconstruction offsets (./residual-check). With `into`
+   * (width·height values on a SharedArrayBuffer, given by the caller to reuse its pages), it is zeroed and
+   * the coefficients are decoded there.
    */
   'residual-decode': {
-    args: { bytes: Uint8Array; width: number; height: number };
+    args: { bytes: Uint8Array; width: number; height: number; into?: Int32Array };
     result: { q: Int32Array; offsets: Float64Array };
   };
 }
@@ -75,12 +77,14 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
   'ssim-rows': (a) => ssimRowSums(a.a, a.b, a.width, a.height, a.range, a.from, a.to),
   'crop-base-sse': cropBaseSse,
   'code-plane': ({ step, ...a }) => codeAnalysed(a, step, 2),
-  'residual-decode': ({ bytes, width, height }) => {
+  'residual-decode': ({ bytes, width, height, into }) => {
     const n = width * height;
     const q =
-      typeof SharedArrayBuffer === 'function'
-        ? new Int32Array(new SharedArrayBuffer(n * Int32Array.BYTES_PER_ELEMENT))
-        : new Int32Array(n);
+      into?.length === n
+        ? into.fill(0)
+        : typeof SharedArrayBuffer === 'function'
+          ? new Int32Array(new SharedArrayBuffer(n * Int32Array.BYTES_PER_ELEMENT))
+          : new Int32Array(n);
     const offsets = decodeCoefficientsV2(bytes, q, width, bandsFor(width, height, levelsFor(width, height)));
     return { q, offsets };
   },
