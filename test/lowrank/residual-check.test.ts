@@ -72,6 +72,27 @@ describe('the residual check', () => {
     expect(job).toThrow(/^a\.png: the residual layer just coded for plane 0 cannot be range-decoded \(/);
   });
 
+  it('a later check of the same size decodes into the buffer of a passed one, and still catches a mismatch', () => {
+    const given: Array<Int32Array | undefined> = [];
+    const seeing: typeof runHere = (name, args) => {
+      given.push((args as { into?: Int32Array }).into);
+      return runHere(name, args);
+    };
+    const check = (c: ReturnType<typeof code>) =>
+      startResidualCheck(seeing, { steps: [step], bytes: [c.bytes] }, w, h, 'a.png');
+    expect(check(code())).not.toThrow();
+    expect(check(code())).not.toThrow();
+    expect(given[0]?.buffer).toBeInstanceOf(SharedArrayBuffer);
+    expect(given[1]).toBe(given[0]);
+    const bad = code();
+    bad.q[bad.q.findIndex((v) => v !== 0)] -= 1;
+    expect(check(bad)).toThrow('decodes to other coefficients');
+    expect(given[2]).toBe(given[0]);
+    // Dropped after the failure: the next check gets a fresh buffer, and passes.
+    expect(check(code())).not.toThrow();
+    expect(given[3]).not.toBe(given[0]);
+  });
+
   it('checks nothing for bytes with no recorded encode (the report’s decode range-decodes those itself)', () => {
     const c = code();
     forgetCodes();

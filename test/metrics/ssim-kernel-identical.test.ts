@@ -76,4 +76,18 @@ describe('SSIM WebAssembly kernel gives the TypeScript bits', () => {
     expect(s1.value()).toBe(ref1);
     expect(s2.value()).toBe(ref2);
   });
+
+  // Both planes Float32Array: the kernel reads the f32 samples and widens them itself (8 bytes → 4 per
+  // sample copied), with the 11-tap pass unrolled for the default radius; odd and even widths.
+  it.each(SIZES)('%i×%i, both planes float32: the same bits as the TypeScript rows', (w, h) => {
+    const [a, b64] = planes(w, h, w + h);
+    const b = Float32Array.from(b64);
+    const [ref, got] = bothPaths(() => ssim(a, b, w, h, 255));
+    expect(got).toBe(ref);
+    expect(got).toBeLessThan(1);
+    const hv = h - 10;
+    const from = hv >> 2;
+    const [sRef, sGot] = bothPaths(() => ssimRowSums(a.subarray(from * w), b.subarray(from * w), w, h, 255, from, hv));
+    expect([...sGot]).toEqual([...sRef]);
+  });
 });

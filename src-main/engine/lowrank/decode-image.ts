@@ -117,6 +117,8 @@ function decodeWith<S extends SampleOut>(
   const tile = quant[0].q.tile;
   const band = Math.min(height, tile > 0 ? tile : BAND_ROWS);
   const bufs = quant.map(() => new Float64Array(band * width));
+  // A grey scan into float32 samples (the report's decode) adds its residual while rounding, in one loop.
+  const grey = !colour && samples[0] instanceof Float32Array ? (samples[0] as Float32Array) : undefined;
   for (let y0 = 0; y0 < height; y0 += band) {
     const y1 = Math.min(height, y0 + band);
     const len = (y1 - y0) * width;
@@ -129,16 +131,45 @@ function decodeWith<S extends SampleOut>(
       }
       // Two layers: base + residual in float64, before any rounding (the same sum decodeImageLayers gives).
       const r = residual[k];
+      if (grey) {
+        greyInto(bufs[k], r, len, bitDepth === 16 ? 65535 : 255, grey, at);
+        return;
+      }
       if (r) {
         const b = bufs[k];
         for (let i = 0; i < len; i++) b[i] += r[at + i];
       }
     });
-    planesToSamples(bufs, colour, len, bitDepth, samples, at);
+    if (!grey) planesToSamples(bufs, colour, len, bitDepth, samples, at);
   }
   // The residual planes are not used past here: a plane rebuilt in its coder's memory gives that memory back.
   for (const r of residual) if (r) giveBackWork(r);
   return withAlpha(view, header, file, alloc, samples);
+}
+
+/**
+ * out[at + i] = clamp(round(base[i] + residual[at + i])) for i < len (no residual: of base[i] alone): the sum,
+ * rounding and clamping of the two-pass path (base += residual, then ../colour roundInto), in one monomorphic
+ * loop over float64 in and float32 out, so the same values.
+ */
+function greyInto(
+  base: Float64Array,
+  residual: Float64Array | undefined,
+  len: number,
+  max: number,
+  out: Float32Array,
+  at: number,
+): void {
+  if (residual)
+    for (let i = 0; i < len; i++) {
+      const v = Math.round(base[i] + residual[at + i]);
+      out[at + i] = v > 0 ? (v > max ? max : v) : 0;
+    }
+  else
+    for (let i = 0; i < len; i++) {
+      const v = Math.round(base[i]);
+      out[at + i] = v > 0 ? (v > max ? max : v) : 0;
+    }
 }
 
 /** The decoded file: `samples` with the alpha plane, when there is one, decoded and appended. */

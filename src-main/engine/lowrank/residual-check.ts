@@ -29,7 +29,9 @@ export function startResidualCheck(
 ): () => void {
   const jobs = (residual?.bytes ?? []).flatMap((bytes, k) => {
     const coded = recallCode(bytes, width, height, residual?.steps[k] ?? 0, WRITTEN_CODER);
-    return coded ? [{ k, coded, join: started(run, coded.bytes, width, height) }] : [];
+    if (!coded) return [];
+    const into = spareBuffer(width * height);
+    return [{ k, coded, into, join: started(run, coded.bytes, width, height, into) }];
   });
   return () => {
     for (const { k, coded, join } of jobs) {
@@ -42,13 +44,34 @@ export function startResidualCheck(
       const at = firstDifference(got, coded);
       if (at !== undefined) throw mismatch(file, k, `decodes to other ${at} than it was coded from`);
     }
+    // Every job answered and was compared: nothing writes or reads these buffers any more, so the next check
+    // may decode into them (after a failure they are dropped: a job that gave no answer might still write).
+    for (const { into } of jobs) if (into) spare.push(into);
   };
 }
 
+/**
+ * Coefficient buffers of joined checks, on SharedArrayBuffers, reused by the next check of a plane of the same
+ * size (a budget search checks every file it builds): fresh 4-byte-per-pixel pages are not touched again.
+ */
+const spare: Int32Array[] = [];
+
+/** A spare buffer of n values taken from the pool, or undefined (the job then allocates its own). */
+function spareBuffer(n: number): Int32Array | undefined {
+  const i = spare.findIndex((b) => b.length === n);
+  if (i < 0) {
+    spare.length = 0;
+    return typeof SharedArrayBuffer === 'function'
+      ? new Int32Array(new SharedArrayBuffer(n * Int32Array.BYTES_PER_ELEMENT))
+      : undefined;
+  }
+  return spare.splice(i, 1)[0];
+}
+
 /** The decode job, started; a runner that computes at once (../side-jobs runHere) throws when joined instead. */
-function started(run: SideRunner, bytes: Uint8Array, width: number, height: number) {
+function started(run: SideRunner, bytes: Uint8Array, width: number, height: number, into?: Int32Array) {
   try {
-    return run('residual-decode', { bytes, width, height });
+    return run('residual-decode', { bytes, width, height, into });
   } catch (err) {
     return (): never => {
       throw err;

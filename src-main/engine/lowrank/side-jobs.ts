@@ -48,10 +48,12 @@ export interface SideJobs {
   };
   /**
    * A residual plane's bytes (coder 2, ../codec/coeff-coder) range-decoded into quantised coefficients (in
-   * shared memory, so the answer carries no copy) and reconstruction offsets (./residual-check).
+   * shared memory, so the answer carries no copy) and reconstruction offsets (./residual-check). With `into`
+   * (width·height values on a SharedArrayBuffer, given by the caller to reuse its pages), it is zeroed and
+   * the coefficients are decoded there.
    */
   'residual-decode': {
-    args: { bytes: Uint8Array; width: number; height: number };
+    args: { bytes: Uint8Array; width: number; height: number; into?: Int32Array };
     result: { q: Int32Array; offsets: Float64Array };
   };
 }
@@ -75,12 +77,14 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
   'ssim-rows': (a) => ssimRowSums(a.a, a.b, a.width, a.height, a.range, a.from, a.to),
   'crop-base-sse': cropBaseSse,
   'code-plane': ({ step, ...a }) => codeAnalysed(a, step, 2),
-  'residual-decode': ({ bytes, width, height }) => {
+  'residual-decode': ({ bytes, width, height, into }) => {
     const n = width * height;
     const q =
-      typeof SharedArrayBuffer === 'function'
-        ? new Int32Array(new SharedArrayBuffer(n * Int32Array.BYTES_PER_ELEMENT))
-        : new Int32Array(n);
+      into?.length === n
+        ? into.fill(0)
+        : typeof SharedArrayBuffer === 'function'
+          ? new Int32Array(new SharedArrayBuffer(n * Int32Array.BYTES_PER_ELEMENT))
+          : new Int32Array(n);
     const offsets = decodeCoefficientsV2(bytes, q, width, bandsFor(width, height, levelsFor(width, height)));
     return { q, offsets };
   },
@@ -104,11 +108,16 @@ export const runHere: SideRunner = (name, args) => {
 /** SSIM window radius of ../metrics's defaults (11×11 window). */
 const SSIM_RADIUS = 5;
 
+/** Pieces each plane's window rows are cut into for {@link ssimPlanesSplit}; each re-filters 2·radius rows. */
+const SSIM_PIECES = 8;
+
 /**
- * ssimPlanes of ../metrics, each plane's window rows split in two: the lower halves started on `run` (all
- * planes first), the upper halves computed here, then `alongside` (other work for this thread while the
- * other one finishes), and each plane's row sums added in row order, so the value equals ssimPlanes bit
- * for bit whichever thread computed which half (Wang et al. 2004, the defaults of ../metrics/ssim).
+ * ssimPlanes of ../metrics, each plane's window rows cut into up to SSIM_PIECES pieces, all offered to `run`
+ * in row order (plane by plane); this thread first does `alongside` (its own other work), then takes the
+ * pieces back from the last one down, computing each the other thread has not started, and waits for the
+ * rest. The two threads meet wherever the other one got to, so neither waits for a fixed half the other
+ * finishes late. Each plane's row sums are added in row order, so the value equals ssimPlanes bit for bit
+ * whichever thread computed which piece (Wang et al. 2004, the defaults of ../metrics/ssim).
  */
 export function ssimPlanesSplit(
   run: SideRunner,
@@ -121,31 +130,34 @@ export function ssimPlanesSplit(
 ): number {
   const wv = width - 2 * SSIM_RADIUS;
   const hv = height - 2 * SSIM_RADIUS;
-  const mid = hv >> 1;
-  if (mid < 1) {
+  if (hv < 2) {
     alongside();
     return a.reduce((s, p, c) => s + ssim(p, b[c], width, height, range), 0) / a.length;
   }
-  const [lo, hi] = [mid * width, height * width];
-  const joins = a.map((p, c) =>
-    run('ssim-rows', {
-      a: p.subarray(lo, hi),
-      b: b[c].subarray(lo, hi),
-      width,
-      height,
-      range,
-      from: mid,
-      to: hv,
+  const pieces = Math.min(SSIM_PIECES, hv);
+  const jobs = a.map((p, c) =>
+    Array.from({ length: pieces }, (_, k) => {
+      const from = Math.floor((k * hv) / pieces);
+      const to = Math.floor(((k + 1) * hv) / pieces);
+      return run('ssim-rows', {
+        a: p.subarray(from * width, (to + 2 * SSIM_RADIUS) * width),
+        b: b[c].subarray(from * width, (to + 2 * SSIM_RADIUS) * width),
+        width,
+        height,
+        range,
+        from,
+        to,
+      });
     }),
   );
-  const own = a.map((p, c) => ssimRowSums(p, b[c], width, height, range, 0, mid));
   alongside();
+  // Joined from the last piece down: a piece not yet started is computed here (../../node/parallel).
+  const sums: Float64Array[][] = a.map(() => []);
+  for (let c = a.length - 1; c >= 0; c--) for (let k = pieces - 1; k >= 0; k--) sums[c][k] = jobs[c][k]();
   let s = 0;
   for (let c = 0; c < a.length; c++) {
-    const other = joins[c]();
     let total = 0;
-    for (let i = 0; i < own[c].length; i++) total += own[c][i];
-    for (let i = 0; i < other.length; i++) total += other[i];
+    for (const piece of sums[c]) for (let i = 0; i < piece.length; i++) total += piece[i];
     s += total / (wv * hv);
   }
   return s / a.length;

@@ -27,6 +27,7 @@ interface SsimExports {
     C2: number,
     total: number,
     sums: number,
+    f32in: number,
   ): number;
 }
 
@@ -95,10 +96,14 @@ export function ssimRowsWasm(
   }
   // The taps of this stream (another stream may have left its own there).
   new Float64Array(buf(), TAPS, s.g.length).set(s.g);
+  // Float32 samples are copied as they are (no conversion in JavaScript) and widened exactly by the kernel.
+  const f32 = a instanceof Float32Array && b instanceof Float32Array;
+  const rowsAt = (at: number, n: number) =>
+    f32 ? new Float32Array(buf(), at, n) : new Float64Array(buf(), at, n);
   for (let r0 = 0; r0 < rows; r0 += chunk) {
     const n = Math.min(chunk, rows - r0);
-    copyRows(new Float64Array(buf(), aAt, n * width), a, aOff + r0 * width);
-    copyRows(new Float64Array(buf(), bAt, n * width), b, bOff + r0 * width);
+    copyRows(rowsAt(aAt, n * width), a, aOff + r0 * width);
+    copyRows(rowsAt(bAt, n * width), b, bOff + r0 * width);
     const y = y0 + r0;
     total = k.exports.ssimRows(
       aAt,
@@ -116,6 +121,7 @@ export function ssimRowsWasm(
       s.C2,
       total,
       sums ? sumsAt : 0,
+      f32 ? 1 : 0,
     );
     if (sums) {
       const lo = Math.max(y, firstWin);
@@ -126,7 +132,7 @@ export function ssimRowsWasm(
   return total;
 }
 
-function copyRows(dst: Float64Array, src: ArrayLike<number>, from: number): void {
+function copyRows(dst: Float32Array | Float64Array, src: ArrayLike<number>, from: number): void {
   if (ArrayBuffer.isView(src)) {
     const t = src as unknown as Float64Array;
     dst.set(t.subarray(from, from + dst.length));

@@ -14,32 +14,56 @@
   return p + (<usize>i << 3);
 }
 
-/** Products of one row pair into tmp (5 arrays of width: x, y, x², y², xy), then the 11-tap pass into the ring. */
-function filterRow(a: usize, b: usize, width: i32, wv: i32, R: i32, g: usize, ring: usize, tmp: usize): void {
+/**
+ * Products of one row pair into tmp (5 arrays of width: x, y, x², y², xy). With `f32in` the rows hold f32
+ * samples, each widened to f64 exactly (as a Float32Array element read in JavaScript is).
+ */
+function rowProducts(a: usize, b: usize, width: i32, tmp: usize, f32in: bool): void {
   const rx = tmp;
   const ry = at(tmp, width);
   const rxx = at(tmp, 2 * width);
   const ryy = at(tmp, 3 * width);
   const rxy = at(tmp, 4 * width);
   let i = 0;
-  for (; i + 1 < width; i += 2) {
-    const p = v128.load(at(a, i));
-    const q = v128.load(at(b, i));
-    v128.store(at(rx, i), p);
-    v128.store(at(ry, i), q);
-    v128.store(at(rxx, i), f64x2.mul(p, p));
-    v128.store(at(ryy, i), f64x2.mul(q, q));
-    v128.store(at(rxy, i), f64x2.mul(p, q));
+  if (f32in) {
+    for (; i + 1 < width; i += 2) {
+      const p = f64x2.promote_low_f32x4(v128.load64_zero(a + (<usize>i << 2)));
+      const q = f64x2.promote_low_f32x4(v128.load64_zero(b + (<usize>i << 2)));
+      v128.store(at(rx, i), p);
+      v128.store(at(ry, i), q);
+      v128.store(at(rxx, i), f64x2.mul(p, p));
+      v128.store(at(ryy, i), f64x2.mul(q, q));
+      v128.store(at(rxy, i), f64x2.mul(p, q));
+    }
+  } else {
+    for (; i + 1 < width; i += 2) {
+      const p = v128.load(at(a, i));
+      const q = v128.load(at(b, i));
+      v128.store(at(rx, i), p);
+      v128.store(at(ry, i), q);
+      v128.store(at(rxx, i), f64x2.mul(p, p));
+      v128.store(at(ryy, i), f64x2.mul(q, q));
+      v128.store(at(rxy, i), f64x2.mul(p, q));
+    }
   }
   if (i < width) {
-    const p = load<f64>(at(a, i));
-    const q = load<f64>(at(b, i));
+    const p: f64 = f32in ? <f64>load<f32>(a + (<usize>i << 2)) : load<f64>(at(a, i));
+    const q: f64 = f32in ? <f64>load<f32>(b + (<usize>i << 2)) : load<f64>(at(b, i));
     store<f64>(at(rx, i), p);
     store<f64>(at(ry, i), q);
     store<f64>(at(rxx, i), p * p);
     store<f64>(at(ryy, i), q * q);
     store<f64>(at(rxy, i), p * q);
   }
+}
+
+/** The 11-tap pass of the products in tmp (./rowProducts) into the ring row at `ring`, any radius R. */
+function filterRow(width: i32, wv: i32, R: i32, g: usize, ring: usize, tmp: usize): void {
+  const rx = tmp;
+  const ry = at(tmp, width);
+  const rxx = at(tmp, 2 * width);
+  const ryy = at(tmp, 3 * width);
+  const rxy = at(tmp, 4 * width);
   const gc = load<f64>(at(g, R));
   const gcv = f64x2.splat(gc);
   let j = 0;
@@ -66,7 +90,18 @@ function filterRow(a: usize, b: usize, width: i32, wv: i32, R: i32, g: usize, ri
     v128.store(at(ring, 3 * wv + j), syy);
     v128.store(at(ring, 4 * wv + j), sxy);
   }
-  if (j < wv) {
+  if (j < wv) filterTail(width, wv, R, g, ring, tmp, j);
+}
+
+/** filterRow's scalar pass for the one column j left after the lane pairs (an odd wv). */
+function filterTail(width: i32, wv: i32, R: i32, g: usize, ring: usize, tmp: usize, j: i32): void {
+  const rx = tmp;
+  const ry = at(tmp, width);
+  const rxx = at(tmp, 2 * width);
+  const ryy = at(tmp, 3 * width);
+  const rxy = at(tmp, 4 * width);
+  const gc = load<f64>(at(g, R));
+  {
     const c = j + R;
     let sx = gc * load<f64>(at(rx, c));
     let sy = gc * load<f64>(at(ry, c));
@@ -143,15 +178,53 @@ function windowRow(ring: usize, stride: i32, wv: i32, R: i32, side: i32, g: usiz
   return rowSum;
 }
 
+/** gc·x[c] + Σ_t w_t·(x[j + t] + x[j + 10 − t]), t = 0…4, in that order: one 11-tap output pair (R = 5). */
+@inline function tap5(x: usize, j: i32, gcv: v128, w0: v128, w1: v128, w2: v128, w3: v128, w4: v128): v128 {
+  const p = at(x, j);
+  let s = f64x2.mul(gcv, v128.load(p, 40));
+  s = f64x2.add(s, f64x2.mul(w0, f64x2.add(v128.load(p), v128.load(p, 80))));
+  s = f64x2.add(s, f64x2.mul(w1, f64x2.add(v128.load(p, 8), v128.load(p, 72))));
+  s = f64x2.add(s, f64x2.mul(w2, f64x2.add(v128.load(p, 16), v128.load(p, 64))));
+  s = f64x2.add(s, f64x2.mul(w3, f64x2.add(v128.load(p, 24), v128.load(p, 56))));
+  return f64x2.add(s, f64x2.mul(w4, f64x2.add(v128.load(p, 32), v128.load(p, 48))));
+}
+
 /**
- * Filter `rows` row pairs (a, b: f64, row stride width) as ring rows y0 … y0 + rows − 1; for every y ≥ firstWin,
+ * filterRow for R = 5 (the 11×11 default) with the taps unrolled and held in registers: the same operations
+ * in the same order, so the same bits. An odd last column goes through filterRow's scalar tail.
+ */
+function filterRow5(width: i32, wv: i32, g: usize, ring: usize, tmp: usize): void {
+  const rx = tmp;
+  const ry = at(tmp, width);
+  const rxx = at(tmp, 2 * width);
+  const ryy = at(tmp, 3 * width);
+  const rxy = at(tmp, 4 * width);
+  const gcv = v128.load64_splat(at(g, 5));
+  const w0 = v128.load64_splat(g);
+  const w1 = v128.load64_splat(at(g, 1));
+  const w2 = v128.load64_splat(at(g, 2));
+  const w3 = v128.load64_splat(at(g, 3));
+  const w4 = v128.load64_splat(at(g, 4));
+  let j = 0;
+  for (; j + 1 < wv; j += 2) {
+    v128.store(at(ring, j), tap5(rx, j, gcv, w0, w1, w2, w3, w4));
+    v128.store(at(ring, wv + j), tap5(ry, j, gcv, w0, w1, w2, w3, w4));
+    v128.store(at(ring, 2 * wv + j), tap5(rxx, j, gcv, w0, w1, w2, w3, w4));
+    v128.store(at(ring, 3 * wv + j), tap5(ryy, j, gcv, w0, w1, w2, w3, w4));
+    v128.store(at(ring, 4 * wv + j), tap5(rxy, j, gcv, w0, w1, w2, w3, w4));
+  }
+  if (j < wv) filterTail(width, wv, 5, g, ring, tmp, j);
+}
+
+/**
+ * Filter `rows` row pairs (a, b: f64, or f32 when f32in; row stride width) as ring rows y0 … y0 + rows − 1; for every y ≥ firstWin,
  * the window row ending at y is summed: into sums[y − y0] when sums ≠ 0, else added to `total` in row
  * order. Returns the new total. ring: side·5·wv f64 plus one spare f64; tmp: 5·width f64; g: 2R+1 taps;
  * offs: 2R i32.
  */
 export function ssimRows(
   a: usize, b: usize, width: i32, rows: i32, y0: i32, firstWin: i32,
-  R: i32, g: usize, ring: usize, tmp: usize, offs: usize, C1: f64, C2: f64, total: f64, sums: usize,
+  R: i32, g: usize, ring: usize, tmp: usize, offs: usize, C1: f64, C2: f64, total: f64, sums: usize, f32in: bool,
 ): f64 {
   const side = 2 * R + 1;
   const wv = width - 2 * R;
@@ -159,7 +232,11 @@ export function ssimRows(
   for (let i = 0; i < rows; i++) {
     const y = y0 + i;
     const o = <usize>i * <usize>width;
-    filterRow(at(a, <i32>o), at(b, <i32>o), width, wv, R, g, at(ring, (y % side) * stride), tmp);
+    const ro = at(ring, (y % side) * stride);
+    if (f32in) rowProducts(a + (o << 2), b + (o << 2), width, tmp, true);
+    else rowProducts(at(a, <i32>o), at(b, <i32>o), width, tmp, false);
+    if (R == 5) filterRow5(width, wv, g, ro, tmp);
+    else filterRow(width, wv, R, g, ro, tmp);
     if (y >= firstWin) {
       const r = windowRow(ring, stride, wv, R, side, g, offs, y, C1, C2);
       if (sums) store<f64>(at(sums, i), r);
