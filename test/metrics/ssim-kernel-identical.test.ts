@@ -87,7 +87,9 @@ describe('SSIM WebAssembly kernel gives the TypeScript bits', () => {
     expect(got).toBeLessThan(1);
     const hv = h - 10;
     const from = hv >> 2;
-    const [sRef, sGot] = bothPaths(() => ssimRowSums(a.subarray(from * w), b.subarray(from * w), w, h, 255, from, hv));
+    const [sRef, sGot] = bothPaths(() =>
+      ssimRowSums(a.subarray(from * w), b.subarray(from * w), w, h, 255, from, hv),
+    );
     expect([...sGot]).toEqual([...sRef]);
   });
 });
