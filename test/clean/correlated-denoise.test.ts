@@ -1,29 +1,11 @@
 // Denoising spatially correlated noise with the measured spectrum (noise-psd-plan.ts → group-low-rank.ts
 // whitening, wiener-groups.ts per-coefficient variances) against the white-noise path on the same input.
 import { describe, expect, it } from 'vitest';
-import type { DecodedImage } from '../../src-main/contract';
 import { cleanDecoded } from '../../src-main/node/services/clean';
 import { BINOMIAL_3, filteredNoise, GAUSSIAN_5 } from './correlated-noise';
-import { damage, fixtureGray, type Gray } from './helpers';
+import { damage, fixtureGray, greyDecoded } from './helpers';
 
 const crop = { x: 128, y: 128, w: 192, h: 192 };
-
-function decoded(t: Gray, planes: Float32Array[]): DecodedImage {
-  return {
-    file: 'correlated.png',
-    width: t.width,
-    height: t.height,
-    channels: 1,
-    bitDepth: 8,
-    colour: 'gray',
-    hasAlpha: false,
-    planes,
-    meta: { format: 'png' },
-    inputBytes: 0,
-    rawBytes: t.width * t.height,
-    sourceSha256: '',
-  };
-}
 
 const psnr = (a: ArrayLike<number>, b: ArrayLike<number>) => {
   let s = 0;
@@ -42,7 +24,7 @@ describe('clean --noise auto on correlated noise', () => {
       const n = filteredNoise(t.width, t.height, g, 10, 21);
       const noisy = t.data.map((v, i) => Math.min(255, Math.max(0, Math.round(v + n[i]))));
       const gain = async (noiseColour: 'auto' | 'white') => {
-        const r = await cleanDecoded(decoded(t, [noisy]), {
+        const r = await cleanDecoded(greyDecoded(t, [noisy]), {
           noise: 'auto',
           banding: 'off',
           workers: 0,
@@ -60,8 +42,8 @@ describe('clean --noise auto on correlated noise', () => {
   it('white noise: auto gives the same bytes as --noise-colour white, and reports nothing new', async () => {
     const t = await fixtureGray('camera.png', crop);
     const noisy = damage(t, { sigma: 10, seed: 4 });
-    const a = await cleanDecoded(decoded(t, [noisy]), { noise: 'auto', banding: 'off', workers: 0 });
-    const w = await cleanDecoded(decoded(t, [noisy]), {
+    const a = await cleanDecoded(greyDecoded(t, [noisy]), { noise: 'auto', banding: 'off', workers: 0 });
+    const w = await cleanDecoded(greyDecoded(t, [noisy]), {
       noise: 'auto',
       banding: 'off',
       workers: 0,
@@ -77,7 +59,7 @@ describe('clean --noise auto on correlated noise', () => {
     const noisy = t.data.map((v, i) => Math.min(255, Math.max(0, Math.round(v + n[i]))));
     const outs: Buffer[] = [];
     for (const workers of [0, 1, 2]) {
-      const r = await cleanDecoded(decoded(t, [noisy]), { noise: 'auto', banding: 'off', workers });
+      const r = await cleanDecoded(greyDecoded(t, [noisy]), { noise: 'auto', banding: 'off', workers });
       expect(r.report.noiseColour?.colour).toBe('correlated');
       outs.push(Buffer.from(r.planes[0].buffer));
     }

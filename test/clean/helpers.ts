@@ -1,4 +1,6 @@
 /** Synthetic damage for the cleaning tests: seeded Gaussian noise and stripe patterns on fixture images. */
+
+import type { DecodedImage } from '../../src-main/contract';
 import { lcg32 } from '../../src-main/engine/linalg';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { image } from '../helpers/fixtures';
@@ -135,4 +137,22 @@ export function bandProfile(length: number, rms: number, minWidth: number, maxWi
     for (let k = 0; k < w && x < length; k++, x++) p[x] = v;
   }
   return toRms(p, rms);
+}
+
+/** A grey 8-bit scan as the decoder would hand it over, with `planes` as its samples (`file` names it in reports). */
+export function greyDecoded(t: Gray, planes: Float32Array[], file = 'correlated.png'): DecodedImage {
+  return {
+    file,
+    width: t.width,
+    height: t.height,
+    channels: 1,
+    bitDepth: 8,
+    colour: 'gray',
+    hasAlpha: false,
+    planes,
+    meta: { format: 'png' },
+    inputBytes: 0,
+    rawBytes: t.width * t.height,
+    sourceSha256: '',
+  };
 }

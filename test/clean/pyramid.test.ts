@@ -7,11 +7,12 @@ import { describe, expect, it } from 'vitest';
 import type { DecodedImage } from '../../src-main/contract';
 import { estimateNoisePsd, type NoisePsd, psdFromAutocov } from '../../src-main/engine/clean/noise-psd';
 import { expand, reduce, reducedPsd } from '../../src-main/engine/clean/pyramid';
+import { psnrPlanes } from '../../src-main/engine/metrics/psnr';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { cleanDecoded } from '../../src-main/node/services/clean';
 import { image } from '../helpers/fixtures';
 import { BINOMIAL_3, filteredNoise, GAUSSIAN_5 } from './correlated-noise';
-import { fixtureGray, gaussian, rng } from './helpers';
+import { fixtureGray, gaussian, greyDecoded, rng } from './helpers';
 
 /** White noise of variance v as a NoisePsd on lags up to 7. */
 function whitePsd(v: number): NoisePsd {
@@ -83,21 +84,11 @@ describe('clean --noise auto: the coarse pass removes low-frequency noise', () =
     const t = await fixtureGray('moon.png', { x: 96, y: 96, w: 256, h: 256 });
     const n = filteredNoise(t.width, t.height, GAUSSIAN_5, 10, 23);
     const noisy = t.data.map((v, i) => Math.min(255, Math.max(0, Math.round(v + n[i]))));
-    const d: DecodedImage = {
-      file: 'moon-correlated.png',
-      width: t.width,
-      height: t.height,
-      channels: 1,
-      bitDepth: 8,
-      colour: 'gray',
-      hasAlpha: false,
-      planes: [noisy],
-      meta: { format: 'png' },
-      inputBytes: 0,
-      rawBytes: t.width * t.height,
-      sourceSha256: '',
-    };
-    const r = await cleanDecoded(d, { noise: 'auto', banding: 'off', workers: 0 });
+    const r = await cleanDecoded(greyDecoded(t, [noisy], 'moon-correlated.png'), {
+      noise: 'auto',
+      banding: 'off',
+      workers: 0,
+    });
     expect(r.report.noiseColour?.colour).toBe('correlated');
     // Power of (a − truth) two REDUCE levels down (frequencies below about π/4 of the full size).
     const lowPower = (a: Float32Array) => {
@@ -112,16 +103,6 @@ describe('clean --noise auto: the coarse pass removes low-frequency noise', () =
 });
 
 describe('the coarse pass on colour and 16-bit scans', () => {
-  const psnrOf = (a: Float32Array[], b: Float32Array[], max: number) => {
-    let s = 0;
-    let n = 0;
-    for (let c = 0; c < a.length; c++)
-      for (let i = 0; i < a[c].length; i++) {
-        s += (a[c][i] - b[c][i]) ** 2;
-        n++;
-      }
-    return 10 * Math.log10((max * max) / (s / n));
-  };
   const run = async (
     truth: Float32Array[],
     noisy: Float32Array[],
@@ -147,7 +128,7 @@ describe('the coarse pass on colour and 16-bit scans', () => {
     const gain = async (noiseColour: 'auto' | 'white') => {
       const r = await cleanDecoded(d, { noise: 'auto', banding: 'off', workers: 0, noiseColour });
       return {
-        gain: psnrOf(r.planes, truth, max) - psnrOf(noisy, truth, max),
+        gain: psnrPlanes(r.planes, truth, max) - psnrPlanes(noisy, truth, max),
         colour: r.report.noiseColour?.colour,
       };
     };
