@@ -20,6 +20,8 @@
  *
  * Every result equals the TypeScript reference's bit for bit: the kernels perform its operations in its order.
  */
+
+import { growMemoryTo } from '../../linalg/wasm/runtime';
 import {
   type CoderSetup,
   type CoderWasm,
@@ -72,14 +74,7 @@ function takeSpare(bytes: number) {
     if (best < 0 || spares[i].memory.buffer.byteLength > spares[best].memory.buffer.byteLength) best = i;
   if (best < 0) return undefined;
   const [spare] = spares.splice(best, 1);
-  const have = spare.memory.buffer.byteLength / PAGE;
-  const need = Math.ceil(bytes / PAGE);
-  try {
-    if (need > have) spare.memory.grow(need - have);
-  } catch {
-    return undefined;
-  }
-  return spare;
+  return growMemoryTo(spare.memory, bytes, MAX_BYTES) ? spare : undefined;
 }
 
 export class PlaneArena {
