@@ -8,27 +8,16 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import type { DecodedImage } from '../../src-main/contract';
 import { forgetCodes } from '../../src-main/engine/codec/coded-planes';
 import { initEngine } from '../../src-main/engine/linalg';
-import { Rng } from '../../src-main/engine/linalg/random';
 import { decodeImageFile } from '../../src-main/engine/lowrank/decode-image';
 import { measureGreyFile, measureGreySse } from '../../src-main/engine/lowrank/decoded-figures';
 import { encodeScan } from '../../src-main/engine/lowrank/encode';
 import { psnrPlanes, ssim } from '../../src-main/engine/metrics';
 import { COMPRESSORS } from '../../src-main/node/services/compress';
+import { field } from './noisy-field';
 
 beforeAll(async () => {
   await initEngine();
 });
-
-/** Seeded noise on a ramp with a bright square, clamped to 0–max. */
-function field(w: number, h: number, seed: number, max: number): Float32Array {
-  const rng = new Rng(seed);
-  return Float32Array.from({ length: w * h }, (_, i) => {
-    const [x, y] = [i % w, Math.floor(i / w)];
-    const square = Math.abs(x - w / 2) < w / 5 && Math.abs(y - h / 2) < h / 5 ? 0.6 : 0;
-    const v = max * ((x + y) / (w + h) + square) + (max / 30) * rng.normal();
-    return Math.max(0, Math.min(max, Math.round(v)));
-  });
-}
 
 function scan(w: number, h: number, bitDepth: 8 | 16, alpha: boolean): DecodedImage {
   const max = bitDepth === 16 ? 65535 : 255;
