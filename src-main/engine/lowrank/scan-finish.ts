@@ -33,6 +33,12 @@ export function maxOf(bitDepth: 8 | 16): number {
  * source exactly) and measure it: PSNR, SSIM (once, at full resolution), the achieved Frobenius error, ranks
  * and the base layer's bytes. `file` is the already built file and `decodedFile` its decoding, when the
  * caller has them.
+ *
+ * How the figures stay measured on the file as written, without fresh memory: the file's bytes are parsed and
+ * decoded by the reader (./decode-image), a grey scan's samples a band at a time into reused buffers
+ * (./decoded-figures); a residual plane this process just coded is rebuilt from its recorded coefficients,
+ * and ./residual-check proves, by running the range decoder on the file's bytes (in the plane's own memory
+ * where it is resident), that those bytes decode to exactly those coefficients.
  */
 export function finishScan(
   img: DecodedImage,
