@@ -61,6 +61,13 @@ export interface DecodedRkfSamples extends Omit<DecodedRkf, 'samples'> {
 
 /** Rows rebuilt at a time when a plane is not tiled (the tile height otherwise). */
 const BAND_ROWS = 64;
+/**
+ * Rows at a time when a plane that is not tiled is decoded into reused band buffers
+ * ({@link decodeImageFileBands}): fewer than BAND_ROWS, so the buffers (float64 rows and float32 samples) are
+ * 0.6 MB on a 3300-wide scan, not 2.5 MB of fresh pages. Each row is rebuilt on its own
+ * (../codec/quantise reconstructRows), so the band height does not change any value.
+ */
+const STREAM_BAND_ROWS = 16;
 
 /**
  * Decode a whole image file into integer samples, band by band: per band of tile rows, each coded plane's
@@ -91,7 +98,7 @@ function decodeWith<S extends SampleOut>(
   const count = isExactFile(header) ? (header.channels >= 3 ? 3 : 1) : codedChannels(header);
   const samples = Array.from({ length: count }, () => alloc(n, bitDepth));
   if (isExactFile(header)) decodeExactSamples(view, header, file, samples);
-  else decodeRows(view, header, file, opts, samples, true);
+  else decodeRows(view, header, file, opts, bandRows(header), samples, true);
   return withAlpha(view, header, file, alloc, samples);
 }
 
@@ -122,8 +129,9 @@ export function decodeImageFileBands(
     onBand(whole, 0, height);
     decoded = withAlpha(view, header, file, float32, whole);
   } else {
-    const out = Array.from({ length: codedChannels(header) }, () => float32(bandRows(header) * width));
-    decodeRows(view, header, file, opts, out, false, onBand);
+    const band = bandRows(header, STREAM_BAND_ROWS);
+    const out = Array.from({ length: codedChannels(header) }, () => float32(band * width));
+    decodeRows(view, header, file, opts, band, out, false, onBand);
     decoded = withAlpha(view, header, file, float32, out);
   }
   const count = isExactFile(header) && header.channels >= 3 ? 3 : codedChannels(header);
@@ -131,14 +139,14 @@ export function decodeImageFileBands(
   return { ...rest, alpha: samples.length > count ? samples[count] : undefined };
 }
 
-/** Rows rebuilt at a time: the tile height of a tiled plane, else BAND_ROWS (at most the height). */
-function bandRows(header: RkfHeader): number {
+/** Rows rebuilt at a time: the tile height of a tiled plane, else `untiled` (at most the height). */
+function bandRows(header: RkfHeader, untiled = BAND_ROWS): number {
   const tile = header.planes[0].tile;
-  return Math.min(header.height, tile > 0 ? tile : BAND_ROWS);
+  return Math.min(header.height, tile > 0 ? tile : untiled);
 }
 
 /**
- * The coded planes rebuilt band by band into `samples` (float64 rows of the base, plus the residual layer,
+ * The coded planes rebuilt `band` rows at a time into `samples` (float64 rows of the base, plus the residual layer,
  * then the colour transform undone, rounded and clamped): written at the band's place in whole planes
  * (`whole`) or from index 0 of band-sized arrays, and each band handed to `onBand`.
  */
@@ -147,6 +155,7 @@ function decodeRows<S extends SampleOut>(
   header: RkfHeader,
   file: string,
   opts: ReadOptions,
+  band: number,
   samples: S[],
   whole: boolean,
   onBand?: (samples: S[], y0: number, rows: number) => void,
@@ -172,7 +181,6 @@ function decodeRows<S extends SampleOut>(
   });
   const residual = decodeResiduals(view, header, file);
   const colour = header.colourTransform === 'ycbcr-jfif';
-  const band = bandRows(header);
   const bufs = quant.map(() => new Float64Array(band * width));
   // A grey scan into float32 samples (the report's decode) adds its residual while rounding, in one loop.
   const grey = !colour && samples[0] instanceof Float32Array ? (samples[0] as Float32Array) : undefined;
