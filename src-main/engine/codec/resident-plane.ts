@@ -159,6 +159,23 @@ export function residentQ(result: object): PlaneArena | undefined {
 }
 
 /**
+ * For a check that range-decodes `result`'s bytes again into its arena's q region (../lowrank/residual-check):
+ * the arena with that region released, and `result`'s values to compare the decoded ones with: its non-zeros
+ * (positions, values; kept here as when the region is reused) or its array when one was made. Undefined when
+ * `result` is not resident (or its arena's work region is handed out). A later rebuild loads `result` back.
+ */
+export function releaseForRedecode(
+  result: object,
+): { arena: PlaneArena; dense?: Int32Array; at?: Int32Array; v?: Int32Array } | undefined {
+  const arena = residentQ(result);
+  if (!arena) return undefined;
+  releaseQ(arena);
+  const dense = denseQ.get(result);
+  const sparse = sparseQ.get(result);
+  return dense ? { arena, dense } : sparse && { arena, at: sparse.at, v: sparse.v };
+}
+
+/**
  * `result`'s quantised values where they lie in its arena (loaded back when the region was reused), as a view
  * valid until the next call on that arena; undefined when they are not resident or already made into an array
  * (read `result.q` then). Reading them in place skips the array {@link residentResult}'s `q` would make: n
