@@ -76,15 +76,19 @@ const pct = (v: number, t: number) => `${(100 * (v / t - 1)).toFixed(0)} %`;
 const within = (v: number, t: number) => Math.abs(v / t - 1) <= 0.15;
 
 /**
- * Why a fitted b is outside 15 % of b + 1/12, from what was measured: 'range' when 15 % of b + 1/12 is under
- * 2 standard errors of b (the level sets do not reach near 0, so the data cannot pin b that closely); 'own
- * noise' when b is within 15 % (or 2 SE) of b + 1/12 + b₀, b₀ the same fit on the clean source alone; else '—'.
+ * Why a fitted b is outside 15 % of b + 1/12 (`truth`), from what was measured, in this order: 'own noise' when
+ * the clean source's own b₀ (this fit on it alone) is above 15 % of the truth and b is within 15 % or 2 SE of
+ * truth + b₀; 'range' when one standard error of b is above 15 % of the truth (the flat level sets start far
+ * from x = 0, `from` is the lowest, so the scan cannot pin b that closely); else the error is more than the fit's
+ * own uncertainty explains. Each gives the error in standard errors of b.
  */
 function reason(fb: number, sb: number, truth: number, own: number, from: number): string {
   if (within(fb, truth)) return 'within';
-  if (0.15 * truth < 2 * sb) return `range (sets from x = ${from.toFixed(0)})`;
-  if (within(fb, truth + own) || Math.abs(fb - truth - own) <= 2 * sb) return 'own noise';
-  return '—';
+  const z = `error ${((fb - truth) / sb).toFixed(1)} SE`;
+  if (own > 0.15 * truth && (within(fb, truth + own) || Math.abs(fb - truth - own) <= 2 * sb))
+    return `own noise (${z})`;
+  if (0.15 * truth < sb) return `range: sets from x = ${from.toFixed(0)} (${z})`;
+  return `more than the SE (${z})`;
 }
 
 /** Runs the section and logs its table. */
@@ -133,23 +137,24 @@ export async function poissonGaussianSection(
     "source's own noise and texture explain (estimate_sigma also reads fine texture as noise, so it is an upper bound).",
   );
   log(
-    "b₀ is Rankfold's own fit on the clean source alone. The last column says why a b is outside 15 %, from the numbers: 'range' when",
+    "b₀ is Rankfold's own fit on the clean source alone. The last column says why a b is outside 15 %, from the numbers: 'own noise'",
   );
   log(
-    '15 % of b + 1/12 is under 2 standard errors of b (the flat level sets start far from x = 0; the column gives the lowest one), so this',
+    "when b₀ is above 15 % of b + 1/12 and b is within 15 % or 2 SE of b + 1/12 + b₀; 'range' when one standard error of b is above",
   );
   log(
-    "scan cannot pin b that closely; 'own noise' when b is within 15 % or 2 SE of b + 1/12 + b₀. camera.png is neither: its dark level",
+    "15 % of b + 1/12 (the flat level sets start far from x = 0; the lowest is given), so this scan cannot pin b that closely; 'more than",
   );
   log(
-    'sets (the coat, x 4–34) read 5–14 % above the line because fine texture passes the flatness test once noise covers it (b₀ = 0.2:',
+    "the SE' otherwise. That is camera.png: its dark level sets (the coat, x 4–34) read 5–14 % above the line because fine texture passes",
   );
   log(
-    'alone it is filtered out). Measured: the same fit on camera.png blurred by a Gaussian of σ = 1 px (scikit-image 0.19.3',
+    'the flatness test once noise covers it (b₀ = 0.2: alone it is filtered out). Measured: the same fit on camera.png blurred by a',
   );
   log(
-    '`filters.gaussian`, rounded) before adding the noise gives b within 15 % at all three levels (1 %, 9 %, 1 %; a within 1 %).',
+    'Gaussian of σ = 1 px (scikit-image 0.19.3 `filters.gaussian`, rounded) before adding the noise gives b within 15 % at all three',
   );
+  log('levels (1 %, 8 %, 3 %; a within 1 %).');
   log('');
   const rows: Array<{
     id: string;

@@ -6,7 +6,7 @@ import { roundedClippedMoments } from '../../src-main/engine/clean/noise-clip';
 import { haarBlocks } from '../../src-main/engine/clean/noise-estimate';
 import { flatnessStatistic } from '../../src-main/engine/clean/noise-flat';
 import { fitNoiseLevel } from '../../src-main/engine/clean/noise-level';
-import { limitPoints } from '../../src-main/engine/clean/noise-level-limits';
+import { limitPoints, ringMeans } from '../../src-main/engine/clean/noise-level-limits';
 import { type Gray, gaussian, poissonGaussian, rng } from './helpers';
 
 /** Fractional error of the erfc behind Φ (Numerical Recipes' erfcc, below 1.2e-7), with room for the sums. */
@@ -72,7 +72,7 @@ describe('level sets at a limit', () => {
     const blocks = haarBlocks(plane, w, w)!;
     const { total, ring } = flatnessStatistic(blocks);
     const ids = Int32Array.from(blocks.idx).filter((i) => Number.isFinite(ring[i]));
-    const points = limitPoints(blocks, total, ids, 255);
+    const points = limitPoints(blocks, ringMeans(blocks, total, ids), ids, 255);
     expect(points.length).toBe(4);
     let n = 0;
     let v = 0;

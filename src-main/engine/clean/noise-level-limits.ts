@@ -39,37 +39,51 @@ const MIN_PER_LEVEL = 200;
 /** Level sets per limit, at most (chosen here: a limit is one level, split only to follow a gentle ramp). */
 const MAX_LEVELS = 4;
 
-/** Mean of the 32 pixels of the eight blocks around block i (`total` from noise-flat.ts, `mean` from the blocks). */
-export const ringMean = (total: Float64Array, mean: Float64Array, i: number) => (total[i] - 2 * mean[i]) / 16;
+/**
+ * The mean of the 32 pixels of the eight blocks around each block of `ids` (from `total` of noise-flat.ts and
+ * the blocks' own means), indexed by block; 0 elsewhere.
+ */
+export function ringMeans(blocks: HaarBlocks, total: Float64Array, ids: Int32Array): Float64Array {
+  const out = new Float64Array(blocks.mean.length);
+  for (let k = 0; k < ids.length; k++) {
+    const i = ids[k];
+    out[i] = (total[i] - 2 * blocks.mean[i]) / 16;
+  }
+  return out;
+}
 
 /**
  * Level sets of the blocks `ids` (already tested flat on their ring), split into those nearer 0 and those
- * nearer `top`, each ordered by its ring mean and cut into sets of at least MIN_PER_LEVEL blocks. Each point
- * carries its own spread (n·Var σ̂²/σ̂⁴ from the blocks' HH⁴). The points come unused: the fit takes them in
- * through the clipped model only.
+ * nearer `top`, each ordered by its ring mean (`rm`, from ringMeans) and cut into sets of at least
+ * MIN_PER_LEVEL blocks. Each point carries its own spread (n·Var σ̂²/σ̂⁴ from the blocks' HH⁴). The points come
+ * unused: the fit takes them in through the clipped model only.
  */
 export function limitPoints(
   blocks: HaarBlocks,
-  total: Float64Array,
+  rm: Float64Array,
   ids: Int32Array,
   top: number,
 ): NoiseLevelPoint[] {
-  const low: number[] = [];
-  const high: number[] = [];
-  for (const i of ids) (ringMean(total, blocks.mean, i) < top / 2 ? low : high).push(i);
-  return [...side(blocks, total, low), ...side(blocks, total, high)];
+  let nLow = 0;
+  for (let k = 0; k < ids.length; k++) if (rm[ids[k]] < top / 2) nLow++;
+  const low = new Int32Array(nLow);
+  const high = new Int32Array(ids.length - nLow);
+  let l = 0;
+  let h = 0;
+  for (let k = 0; k < ids.length; k++) {
+    const i = ids[k];
+    if (rm[i] < top / 2) low[l++] = i;
+    else high[h++] = i;
+  }
+  return [...side(blocks, rm, low), ...side(blocks, rm, high)];
 }
 
-function side(blocks: HaarBlocks, total: Float64Array, ids: number[]): NoiseLevelPoint[] {
+function side(blocks: HaarBlocks, rm: Float64Array, ids: Int32Array): NoiseLevelPoint[] {
   const m = ids.length;
   const levels = Math.min(MAX_LEVELS, Math.floor(m / MIN_PER_LEVEL));
   if (levels < 1) return [];
-  const key = new Float64Array(m);
-  for (let k = 0; k < m; k++) key[k] = ringMean(total, blocks.mean, ids[k]);
-  const order = sortByKey(
-    Int32Array.from({ length: m }, (_, k) => k),
-    key,
-  );
+  // ids come in increasing order of the full neighbourhood mean; sortByKey keeps ties in that order.
+  const order = sortByKey(ids, rm);
   const out: NoiseLevelPoint[] = [];
   for (let l = 0; l < levels; l++) {
     const from = Math.floor((l * m) / levels);
@@ -78,7 +92,7 @@ function side(blocks: HaarBlocks, total: Float64Array, ids: number[]): NoiseLeve
     let s2 = 0;
     let s4 = 0;
     for (let k = from; k < to; k++) {
-      const i = ids[order[k]];
+      const i = order[k];
       // hh = 2·|HH|, so HH² = hh²/4.
       const h2 = (blocks.hh[i] * blocks.hh[i]) / 4;
       level += blocks.mean[i];

@@ -60,7 +60,7 @@ import {
   sigmaOfBlocks,
 } from './noise-estimate';
 import { flatnessStatistic, TRIMMED_SPREAD, trimmedVariance } from './noise-flat';
-import { LIMIT_SIGMAS, limitPoints, RING_QUANTILE, ringMean } from './noise-level-limits';
+import { LIMIT_SIGMAS, limitPoints, RING_QUANTILE, ringMeans } from './noise-level-limits';
 import { fitLevelsTrimmed, type LevelFit, MAD_SPREAD, type NoiseLevelPoint } from './noise-level-ml';
 import { rankValues, sortByKey } from './noise-sort';
 
@@ -152,6 +152,8 @@ function fitFlat(
   let best: { fit: LevelFit; points: NoiseLevelPoint[] } | null = null;
   const flat = new Int32Array(order.length);
   const atLimit = new Int32Array(order.length);
+  const rm = ringMeans(blocks, total, order);
+  const reach2 = LIMIT_SIGMAS * LIMIT_SIGMAS;
   const starts = new Int32Array(MAX_LEVELS + 1);
   for (let step = 0; step < FLAT_STEPS; step++) {
     const { a, b } = model;
@@ -160,10 +162,11 @@ function fitFlat(
     for (let k = 0; k < order.length; k++) {
       const i = order[k];
       // Blocks whose neighbourhood is within LIMIT_SIGMAS of 0 or maxValue: tested on their ring only.
-      const r = ringMean(total, blocks.mean, i);
+      const r = rm[i];
       const vr = Math.max(MIN_VARIANCE, a * r + b);
-      const reach = LIMIT_SIGMAS * Math.sqrt(vr);
-      if (r < reach || r > maxValue - reach) {
+      const up = maxValue - r;
+      // r within LIMIT_SIGMAS·√vr of 0 or maxValue, compared in squares (no square root per block).
+      if (r < 0 || r * r < reach2 * vr || up < 0 || up * up < reach2 * vr) {
         if (ring[i] < RING_QUANTILE * vr) atLimit[nl++] = i;
       } else if (stat[i] < FLAT_QUANTILE * Math.max(MIN_VARIANCE, a * smooth[i] + b)) flat[n++] = i;
     }
@@ -176,7 +179,7 @@ function fitFlat(
       maxValue,
       smooth,
       true,
-      limitPoints(blocks, total, atLimit.subarray(0, nl), maxValue),
+      limitPoints(blocks, rm, atLimit.subarray(0, nl), maxValue),
     );
     if (!best) return null;
     model = best.fit;
