@@ -182,14 +182,7 @@ export function directLevels(raw: Float64Array, lineLen: number, nLines: number)
  */
 export function explainsLevels(c: Float64Array, s: Float64Array): boolean {
   const lineLen = s.length;
-  let tvC = 0;
-  let tvRest = 0;
-  let tvS = 0;
-  for (let x = 0; x + 1 < lineLen; x++) {
-    tvC += Math.abs(c[x + 1] - c[x]);
-    tvRest += Math.abs(c[x + 1] - s[x + 1] - c[x] + s[x]);
-    tvS += Math.abs(s[x + 1] - s[x]);
-  }
+  const { tvC, tvRest, tvS } = variations(c, s);
   // And its levels must be in c: after removing a straight-line trend from both, subtracting s must take
   // away at least half of its own energy from c (an edge summed without its partner leaves a whole stretch
   // offset that c does not have, and fails here). A profile of one edge has no partner to miss, and over
@@ -211,6 +204,28 @@ export function explainsLevels(c: Float64Array, s: Float64Array): boolean {
     ss += sd[x] * sd[x];
   }
   return tvC - tvRest >= MIN_TV_EXPLAINED * tvS && rr <= cc - (edge < 0 ? 0.5 * ss : 0);
+}
+
+/** Total variations of the levels c, of c − s and of s. */
+function variations(c: Float64Array, s: Float64Array) {
+  let tvC = 0;
+  let tvRest = 0;
+  let tvS = 0;
+  for (let x = 0; x + 1 < s.length; x++) {
+    tvC += Math.abs(c[x + 1] - c[x]);
+    tvRest += Math.abs(c[x + 1] - s[x + 1] - c[x] + s[x]);
+    tvS += Math.abs(s[x + 1] - s[x]);
+  }
+  return { tvC, tvRest, tvS };
+}
+
+/**
+ * Subtracting s from the levels c adds total variation: its steps are not in c (the weakest level check,
+ * for chained profiles that fail explainsLevels: their cuts leave stretch offsets that c need not show).
+ */
+export function addsVariation(c: Float64Array, s: Float64Array): boolean {
+  const { tvC, tvRest } = variations(c, s);
+  return tvRest > tvC;
 }
 
 /** The position x of the only step s(x+1) ≠ s(x) of the profile, or −1 when it has none or several. */
