@@ -187,8 +187,7 @@ export function wideBandProfile(
   const strength = rms(profile);
   const steps = whole.steps + added.length;
   const noiseFloor = Math.sqrt(whole.noiseFloor ** 2 + added.reduce((t, e) => t + e.se * e.se, 0));
-  // Step 7 of the header: a chain with more links than the step sum's edges, uncut and passing the level
-  // check, holds an edge the step sum's tests missed.
+  // Step 7 of the header: an uncut, level-checked chain with more links holds an edge the step sum missed.
   if (detected) {
     const richer = chained(shared, lines, background, explains);
     if (richer.detected && richer.whole && richer.links > steps) return richer;
