@@ -23,16 +23,14 @@ import type { QuantPlane } from '../codec/quantised';
 import {
   type AnalysedPlane,
   analysePlane,
-  type CodedCoefficients,
   codedSquaredError,
   estimateBits,
   estimateSquaredError,
-  quantiseAnalysed,
-  reconstructCoded,
   smallestSafeStep,
 } from '../codec/wavelet-plane';
 import { psnrFromSse } from '../metrics';
 import type { LayerSummary } from './encode-options';
+import { cropPlanes, decodedRatio, floorSse, spreadRatio, stepForError, stepScales } from './floor-aim';
 import {
   codeHere,
   fitResidual,
@@ -95,21 +93,14 @@ export interface ResidualOnly {
   decision: { waveletSse: number; baseSse: number; cropBytes: number };
 }
 
-/** A centred w×h crop of each plane. */
-function cropPlanes(planes: ArrayLike<number>[], width: number, height: number, w: number, h: number) {
-  const x0 = (width - w) >> 1;
-  const y0 = (height - h) >> 1;
-  return planes.map((p) => {
-    const out = new Float64Array(w * h);
-    for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) out[y * w + x] = p[(y0 + y) * width + x0 + x];
-    return out;
-  });
-}
-
-const stepScales = (weights: number[]) => weights.map((w) => Math.sqrt(weights[0] / w));
-
 /** Aim at this share of a PSNR floor's squared error (0.02 dB under it), so the decoded check passes first time. */
 const FLOOR_AIM = 0.995;
+/**
+ * The first encode's aim, as a share of the floor's squared error, over the five crops' ratio (./floor-aim
+ * spreadRatio): that ratio was 0.1–2.5% above the whole scan's on the 24 cases of {@link RECODE_WORTH}, so
+ * aiming at the floor itself lands 0–0.1 dB over it (simulated from 17 real encodes per case: 0.95–1.01 tried).
+ */
+const SPREAD_AIM = 1;
 /**
  * A decoded file that meets its PSNR floor is kept unless one more encode, aimed by its measured error, is
  * predicted to save at least this share of its bytes ({@link recodeSaving}). The trade: one more real encode
@@ -123,48 +114,6 @@ const FLOOR_AIM = 0.995;
 const RECODE_WORTH = 0.04;
 /** The rate model's log-size change scaled by this to predict the coder's (see ./residual-fit elasticStep). */
 const RECODE_ELASTICITY = 1.2;
-/**
- * Bounds on the crop's decoded-over-transform error ratio ({@link decodedRatio}). Measured on five 7–9-megapixel
- * grey scans (the single-scan speed scan; camera, moon, page and text Lanczos-3 upscaled with σ 1.5 noise) at
- * floors of 34–46 dB: 1.02–1.27 on the crop, 1.01–1.12 on the whole scan; outside these bounds the crop is
- * not trusted that far.
- */
-const DECODED_RATIO = { min: 0.9, max: 1.3 } as const;
-
-/** Target weighted squared error of a PSNR floor over `count` samples. */
-function floorSse(db: number, count: number, maxValue: number): number {
-  return count * maxValue * maxValue * 10 ** (-db / 10);
-}
-
-/**
- * Step d (scaled per plane) whose exact transform-domain weighted error is about `target`: bisection on log d
- * over the sampled error estimate, calibrated by one exact quantisation (no range coding).
- */
-function stepForError(analysed: AnalysedPlane[], weights: number[], target: number): number {
-  const scales = stepScales(weights);
-  const est = (d: number) =>
-    analysed.reduce((s, a, k) => s + weights[k] * estimateSquaredError(a, d * scales[k]), 0);
-  const exact = (d: number) =>
-    analysed.reduce(
-      (s, a, k) => s + weights[k] * codedSquaredError(a, quantiseAnalysed(a, tidy(d * scales[k]))),
-      0,
-    );
-  const solve = (t: number) => {
-    let lo = Math.log2(1e-3);
-    let hi = Math.log2(1e6);
-    for (let i = 0; i < 30; i++) {
-      const mid = (lo + hi) / 2;
-      if (est(2 ** mid) > t) hi = mid;
-      else lo = mid;
-    }
-    return 2 ** lo;
-  };
-  const d0 = solve(target);
-  const e0 = est(d0);
-  const ratio = e0 > 0 ? exact(d0) / e0 : 1;
-  return solve(target / (ratio > 0 ? ratio : 1));
-}
-
 /** Code every plane at step d (scaled per plane): steps, bytes and the exact weighted transform-domain error. */
 function codeAll(analysed: AnalysedPlane[], weights: number[], step: number, coder: PlanesCoder = codeHere) {
   const scales = stepScales(weights);
@@ -182,43 +131,6 @@ function codeAll(analysed: AnalysedPlane[], weights: number[], step: number, cod
 }
 
 /**
- * The crop's weighted squared error as decoded over its transform-domain figure `transformSse`: grey planes
- * rebuilt, rounded and clamped to integer samples as the reader writes them (../colour roundInto); colour
- * planes rebuilt before the colour transform (their rounding happens in RGB and is left to the decoded check).
- * The transform-domain figure weights each band's error by its synthesis gain as if the 9/7 pair were
- * orthogonal and ignores rounding, so near a PSNR floor the decoded error is 2–12% above it (measured, see
- * {@link DECODED_RATIO}); the crop's ratio aims the whole scan's first encode.
- */
-function decodedRatio(
-  crop: Float64Array[],
-  analysed: AnalysedPlane[],
-  coded: CodedCoefficients[],
-  weights: number[],
-  maxValue: number,
-  transformSse: number,
-): number {
-  const grey = crop.length === 1;
-  let sse = 0;
-  for (let k = 0; k < crop.length; k++) {
-    const rec = reconstructCoded(analysed[k], coded[k]);
-    const src = crop[k];
-    let e = 0;
-    for (let i = 0; i < src.length; i++) {
-      let v = rec[i];
-      if (grey) {
-        v = Math.round(v);
-        v = v > 0 ? (v > maxValue ? maxValue : v) : 0;
-      }
-      const d = src[i] - v;
-      e += d * d;
-    }
-    sse += weights[k] * e;
-  }
-  const r = sse / transformSse;
-  return Number.isFinite(r) ? Math.min(DECODED_RATIO.max, Math.max(DECODED_RATIO.min, r)) : 1;
-}
-
-/**
  * The residual-only file when the crop predicts that a base is not worth its bytes; undefined when a base
  * may pay (the caller then runs the full two-layer search) or when the budget kind is not handled here.
  */
@@ -228,7 +140,7 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   const nc = planes.length;
   const cw = Math.min(width, CROP_SIDE);
   const ch = Math.min(height, CROP_SIDE);
-  const crop = cropPlanes(planes, width, height, cw, ch);
+  const crop = cropPlanes(planes, width, (width - cw) >> 1, (height - ch) >> 1, cw, ch);
   const analyseCrop = () => crop.map((p) => analysePlane(p, cw, ch));
   const scales = stepScales(weights);
   const startBase = (bytes: number) =>
@@ -330,7 +242,9 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   const db = (budget as { db: number }).db;
   const count = width * height * nc;
   const floor = floorSse(db, count, maxValue);
-  let aim = (floor * FLOOR_AIM) / floorRatio;
+  // The first encode is aimed by five crops at the step the centre crop's ratio gives (see ./floor-aim).
+  const step0 = stepForError(analysed, weights, (floor * FLOOR_AIM) / floorRatio);
+  let aim = (floor * SPREAD_AIM) / spreadRatio(planes, width, height, weights, maxValue, step0, CROP_SIDE);
   let kept: ResidualOnly | undefined;
   let codes = 0;
   while (codes < MAX_CODES) {
