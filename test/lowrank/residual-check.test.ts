@@ -7,27 +7,16 @@ import { forgetCodes, recordingCodes } from '../../src-main/engine/codec/coded-p
 import { analysePlane, codeAnalysed } from '../../src-main/engine/codec/wavelet-plane';
 import { roundInto, ycbcrToRgbSamples } from '../../src-main/engine/colour';
 import { initEngine } from '../../src-main/engine/linalg';
-import { Rng } from '../../src-main/engine/linalg/random';
 import { decodeImageFile, decodeImageFileSamples } from '../../src-main/engine/lowrank/decode-image';
 import { encodeScan } from '../../src-main/engine/lowrank/encode';
 import { startResidualCheck } from '../../src-main/engine/lowrank/residual-check';
 import { runHere } from '../../src-main/engine/lowrank/side-jobs';
 import { COMPRESSORS } from '../../src-main/node/services/compress';
+import { field } from './noisy-field';
 
 beforeAll(async () => {
   await initEngine();
 });
-
-/** Seeded noise around a diagonal ramp crossed by a bright square, clamped to 0–max (clamping exercised). */
-function field(w: number, h: number, seed: number, max: number): Float32Array {
-  const rng = new Rng(seed);
-  return Float32Array.from({ length: w * h }, (_, i) => {
-    const [x, y] = [i % w, Math.floor(i / w)];
-    const square = Math.abs(x - w / 2) < w / 5 && Math.abs(y - h / 2) < h / 5 ? 0.5 : 0;
-    const v = max * ((x + y) / (w + h) + square) + (max / 40) * rng.normal();
-    return Math.max(0, Math.min(max, Math.round(v)));
-  });
-}
 
 describe('the residual check', () => {
   const [w, h, step] = [97, 83, 3];

@@ -15,7 +15,8 @@ import {
   type StripeProfile,
 } from './band-profile';
 import { dominantPeriod, removeMean, rms } from './band-stats';
-import { wideBandProfile } from './banding-wide';
+import { type WideBands, wideBandProfile } from './banding-wide';
+import { addsVariation } from './banding-wide-checks';
 import { medianInPlace } from './medians';
 
 export type { BandingOptions } from './band-profile';
@@ -70,11 +71,14 @@ export function analyseBanding(
   const keep = (r: LineResiduals) => {
     kept.r = r;
   };
-  const columns = profileOf(plane, width, height, 'columns', options, keep);
+  let columns = profileOf(plane, width, height, 'columns', options, keep);
   let removeColumns = mode === 'auto' ? columns.detected : mode === 'columns' || mode === 'both';
   if (mode === 'auto') clipSpikes(columns);
+  const firstColumns =
+    mode === 'auto' && removeColumns && wideFirst(plane, width, height, columns, options, kept.r);
+  if (firstColumns) columns = firstColumns;
   let base = removeColumns ? subtractProfiles(plane, width, height, null, columns.profile) : plane;
-  if (mode === 'auto' || mode === 'columns' || mode === 'both')
+  if (!firstColumns && (mode === 'auto' || mode === 'columns' || mode === 'both'))
     if (
       addWideBands(
         base,
@@ -90,10 +94,12 @@ export function analyseBanding(
       removeColumns = true;
     }
   kept.r = null;
-  const rows = profileOf(base, width, height, 'rows', options, keep);
+  let rows = profileOf(base, width, height, 'rows', options, keep);
   if (mode === 'auto') clipSpikes(rows);
   let removeRows = mode === 'auto' ? rows.detected : mode === 'rows' || mode === 'both';
-  if (mode === 'auto' || mode === 'rows' || mode === 'both') {
+  const firstRows = mode === 'auto' && removeRows && wideFirst(base, width, height, rows, options, kept.r);
+  if (firstRows) rows = firstRows;
+  else if (mode === 'auto' || mode === 'rows' || mode === 'both') {
     const rest = removeRows ? subtractProfiles(base, width, height, rows.profile, null) : base;
     if (addWideBands(rest, width, height, rows, removeRows, options.maxValue, rest === base ? kept.r : null))
       removeRows = true;
@@ -137,34 +143,92 @@ function addWideBands(
   maxValue: number,
   known: LineResiduals | null,
 ): boolean {
-  // Ink, lanes or texture can hide band edges from the whole lines: the paper (the background alone,
-  // banding-wide-checks.ts sampleLines) is tried next, on every image (before, only where the narrow
-  // profile followed lines of text: on the benchmark's wide bands this found 28 of 40 cases against 22,
-  // none made worse). Only when both step sums are rejected is the chained profile tried, in the same order.
-  // One edge in the paper is enough on a text page (wideBandProfile's `background`); elsewhere a single
-  // small step is as likely content (clean text.png's rows gave one of 3.5 grey levels), so it must be large.
   const paper = p.spreadRatio > MAX_SPREAD_RATIO;
-  const shared = bandAxis(rest, width, height, p.axis, maxValue, known);
-  let wide = wideBandProfile(rest, width, height, p.axis, maxValue, false, false, shared);
+  const wide = findWideBands(rest, width, height, p.axis, paper, maxValue, known, narrowRemoved);
+  if (!wide) return false;
+  mergeWide(p, wide, narrowRemoved);
+  return true;
+}
+
+/**
+ * The wide bands of one axis of `rest` (banding-wide.ts), or null when none pass its guards. Ink, lanes or
+ * texture can hide band edges from the whole lines: the paper (the background alone,
+ * banding-wide-checks.ts sampleLines) is tried next, on every image (before, only where the narrow profile
+ * followed lines of text: on the benchmark's wide bands this found 28 of 40 cases against 22, none made
+ * worse). Only when both step sums are rejected is the chained profile tried, in the same order. One edge
+ * in the paper is enough on a text page (`paper`: the narrow profile followed lines of text); elsewhere a
+ * single small step is as likely content (clean text.png's rows gave one of 3.5 grey levels), so it must
+ * be large.
+ */
+function findWideBands(
+  rest: Float32Array,
+  width: number,
+  height: number,
+  axis: 'rows' | 'columns',
+  paper: boolean,
+  maxValue: number,
+  known: LineResiduals | null,
+  afterNarrow = false,
+): WideBands | null {
+  const shared = bandAxis(rest, width, height, axis, maxValue, known);
+  let wide = wideBandProfile(rest, width, height, axis, maxValue, false, false, shared);
   for (const [background, chain] of [
     [true, false],
     [false, true],
     [true, true],
   ])
     if (!wide.detected) {
-      wide = wideBandProfile(rest, width, height, p.axis, maxValue, background, chain, shared);
+      wide = wideBandProfile(rest, width, height, axis, maxValue, background, chain, shared);
       if (background && !paper && wide.steps < MIN_WIDE_STEPS && !largeStep(wide.profile, maxValue))
         wide.detected = false;
     }
-  if (!wide.detected) return false;
+  // After narrow stripes were removed, `rest` holds their estimation error, whose steps a chain (which
+  // passes without the level check when it is cut) took for band edges: page.png's column stripes RMS 8
+  // gained two such edges, 93.3 % removed became 85.1 %. There the bands must at least not add variation.
+  if (afterNarrow && wide.detected && addsVariation(shared.levels(), wide.profile)) return null;
+  return wide.detected ? wide : null;
+}
+
+/** Add `wide` to the axis's profile `p` in place (to its narrow profile when `narrowRemoved`, else alone). */
+function mergeWide(p: StripeProfile, wide: WideBands, narrowRemoved: boolean) {
   for (let i = 0; i < p.profile.length; i++)
     p.profile[i] = (narrowRemoved ? p.profile[i] : 0) + wide.profile[i];
-  p.detected ||= wide.detected;
+  p.detected = true;
   p.wideSteps = wide.steps;
   p.strength = rms(p.profile);
   const { period, share } = dominantPeriod(p.profile);
   p.period = share >= MIN_PERIOD_SHARE ? period : null;
-  return true;
+}
+
+/**
+ * The edges of a wide band on a sloping background leave a running median's residual a ramp on either
+ * side (the median lags behind the step), which the narrow pass can take for narrow banding; its profile,
+ * subtracted first, then cancels most of each edge and hides the bands from the wide pass (camera.png's
+ * rows, benchmark seeds 4, 5 and 7: 2–17 % of the band energy removed). So when the narrow pass detects
+ * something in automatic mode, the wide pass also looks at `base` itself; when it finds bands there, the
+ * narrow pass is run again on what they leave, and the axis's profile is the sum (the narrow part only
+ * when it is still detected). Returns that profile, or null when the wide pass finds nothing on `base`.
+ */
+function wideFirst(
+  base: Float32Array,
+  width: number,
+  height: number,
+  narrow: StripeProfile,
+  options: BandingOptions,
+  known: LineResiduals | null,
+): StripeProfile | null {
+  const { axis } = narrow;
+  const paper = narrow.spreadRatio > MAX_SPREAD_RATIO;
+  const wide = findWideBands(base, width, height, axis, paper, options.maxValue, known);
+  if (!wide) return null;
+  const rest =
+    axis === 'rows'
+      ? subtractProfiles(base, width, height, wide.profile, null)
+      : subtractProfiles(base, width, height, null, wide.profile);
+  const p = profileOf(rest, width, height, axis, options, () => {});
+  if (p.detected) return null;
+  mergeWide(p, wide, false);
+  return p;
 }
 
 /** The profile has a step of at least MIN_SINGLE_STEP_8BIT between neighbouring positions. */

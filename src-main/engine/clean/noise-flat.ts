@@ -34,11 +34,18 @@ import type { HaarBlocks } from './noise-estimate';
  * third of the 4-pixel mean's noise. `total` = 18·`smooth` (the sum of the nine LL values) is the same order as
  * a sort key: on integer data it is a multiple of ½, so its float64 pattern ends in zero bits and a radix sort
  * skips half its passes (noise-sort.ts).
+ *
+ * `ring` is the residual sum of squares of the plane fitted to the eight neighbouring LL values without the
+ * centre block (5 degrees of freedom: σ²·χ²₅ under noise alone on a plane; +∞ on the outer ring). It does not
+ * depend on the centre block's pixels at all, which matters where the data is clipped at 0 or at the top: there
+ * the four coefficients of a block are no longer independent (a block of four zeros has LH = HL = HH = 0), so a
+ * test on the centre's LH, HL or LL would pick blocks by their HH (noise-level-limits.ts).
  */
 export function flatnessStatistic(blocks: HaarBlocks): {
   stat: Float64Array;
   smooth: Float64Array;
   total: Float64Array;
+  ring: Float64Array;
 } {
   const { bw, lh: lhs, hl: hls } = blocks;
   const bh = blocks.mean.length / bw;
@@ -46,6 +53,7 @@ export function flatnessStatistic(blocks: HaarBlocks): {
   const out = new Float64Array(bw * bh).fill(Number.POSITIVE_INFINITY);
   const smooth = new Float64Array(bw * bh);
   const total = new Float64Array(bw * bh);
+  const ring = new Float64Array(bw * bh).fill(Number.POSITIVE_INFINITY);
   for (let by = 1; by + 1 < bh; by++)
     for (let bx = 1; bx + 1 < bw; bx++) {
       const i = by * bw + bx;
@@ -66,8 +74,11 @@ export function flatnessStatistic(blocks: HaarBlocks): {
       out[i] = Math.max(0, rss) + lhs[i] * lhs[i] + hls[i] * hls[i];
       smooth[i] = sum / 18;
       total[i] = sum;
+      // The same plane fit on the eight neighbours alone (the centre has dx = dy = 0, so gx and gy stand).
+      const c = 2 * ll[i];
+      ring[i] = Math.max(0, sq - c * c - ((sum - c) * (sum - c)) / 8 - (gx * gx) / 6 - (gy * gy) / 6);
     }
-  return { stat: out, smooth, total };
+  return { stat: out, smooth, total, ring };
 }
 
 /** Cut-off of the trimmed variance, in units of the median-based σ̂ (chosen here; 0.27 % of pure noise is cut). */

@@ -27,6 +27,11 @@ export interface NoiseLevelPoint {
   count: number;
   /** False when the fit dropped this point (clipping guard, or too far above the fit). */
   used: boolean;
+  /**
+   * n·Var σ̂²/σ⁴ of this point's σ̂², when it differs from the fit's (measured from the blocks: the level sets
+   * at the clipping limits of noise-level-limits.ts); absent: the fit's `spread`.
+   */
+  spread?: number;
 }
 
 /** A fitted model with the standard errors of a and b and their correlation. */
@@ -50,6 +55,8 @@ const NEGATIVE_B_SE = 2;
 const SCORING_STEPS = 8;
 
 const varOf = (f: { a: number; b: number }, x: number) => f.a * x + f.b;
+/** The spread of point `p`: its own, else the fit's `c`. */
+const spreadOf = (p: NoiseLevelPoint, c: number) => p.spread ?? c;
 
 /**
  * Fit the used points, then drop the point furthest above the fit while it lies more than OUTLIER_SE
@@ -65,7 +72,7 @@ export function fitLevelsTrimmed(points: NoiseLevelPoint[], spread = MAD_SPREAD)
     for (const p of points) {
       if (!p.used) continue;
       const model = Math.max(1e-12, varOf(fit, p.level));
-      const z = (p.sigma * p.sigma - model) / (model * Math.sqrt(spread / p.count));
+      const z = (p.sigma * p.sigma - model) / (model * Math.sqrt(spreadOf(p, spread) / p.count));
       if (z > worstZ) {
         worstZ = z;
         worst = p;
@@ -114,7 +121,7 @@ function irls(used: NoiseLevelPoint[], c: number): { a: number; b: number } {
     let sxy = 0;
     for (const p of used) {
       // First pass: weights by count only (a σ̂² near 0 would otherwise take all the weight).
-      const w = it === 0 ? p.count : p.count / (c * Math.max(a * p.level + b, 1e-6) ** 2);
+      const w = it === 0 ? p.count : p.count / (spreadOf(p, c) * Math.max(a * p.level + b, 1e-6) ** 2);
       const y = p.sigma * p.sigma;
       sw += w;
       sx += w * p.level;
@@ -177,14 +184,15 @@ function sums(used: NoiseLevelPoint[], f: { a: number; b: number }, c: number) {
   for (const p of used) {
     const v = Math.max(1e-9, varOf(f, p.level));
     const r = p.sigma * p.sigma - v;
-    const g = (p.count * r) / (c * v * v) + (p.count * r * r) / (c * v * v * v) - 1 / v;
-    const info = p.count / (c * v * v) + 2 / (v * v);
+    const cp = spreadOf(p, c);
+    const g = (p.count * r) / (cp * v * v) + (p.count * r * r) / (cp * v * v * v) - 1 / v;
+    const info = p.count / (cp * v * v) + 2 / (v * v);
     t.ga += g * p.level;
     t.gb += g;
     t.iaa += info * p.level * p.level;
     t.iab += info * p.level;
     t.ibb += info;
-    t.chi2 += (r * r * p.count) / (c * v * v);
+    t.chi2 += (r * r * p.count) / (cp * v * v);
   }
   return t;
 }
@@ -195,7 +203,7 @@ function negLogLikelihood(used: NoiseLevelPoint[], f: { a: number; b: number }, 
   for (const p of used) {
     const v = varOf(f, p.level);
     if (!(v > 0)) return Number.POSITIVE_INFINITY;
-    s += (p.count * (p.sigma * p.sigma - v) ** 2) / (2 * c * v * v) + Math.log(v);
+    s += (p.count * (p.sigma * p.sigma - v) ** 2) / (2 * spreadOf(p, c) * v * v) + Math.log(v);
   }
   return s;
 }

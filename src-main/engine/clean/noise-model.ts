@@ -81,7 +81,8 @@ export function planNoiseModel(
       b: f!.b,
       seA: f!.seA,
       seB: f!.seB,
-      points: f!.points,
+      // The report's points carry what the contract lists (the fit's own `spread` stays inside the engine).
+      points: f!.points.map(({ level, sigma, count, used }) => ({ level, sigma, count, used })),
     }));
     low = mean(fits.map((f) => f!.low));
     high = mean(fits.map((f) => f!.high));

@@ -43,7 +43,7 @@ import {
   PS_BINS,
   SIGN_CONTEXTS,
 } from './wasm/coder-constants';
-import { type CoderSetup, coderWasm, decodeWasm, encodeAt, encodeWasm } from './wasm/coder-runtime';
+import { type CoderSetup, coderWasm, decodeAt, decodeWasm, encodeAt, encodeWasm } from './wasm/coder-runtime';
 import type { Band } from './wavelet-transform';
 
 /** Neighbourhood sum → bin: 0, 1, 2, 3, 4–5, 6–7, 8–11, 12–17, 18–29 (≥ NB_SUMS = 30: bin 9). */
@@ -302,6 +302,27 @@ export function encodeResidentV2(
   const table = bandTable(bands);
   const at = arena.coderLayout(table);
   return { bytes: encodeAt(c, at, arena.n, arena.width, table, stats.n, k), offsets: offsetsOf(stats.n, k) };
+}
+
+/**
+ * Range-decode coder 2's `bytes` into the q region of a plane's arena (free it first: ../resident-plane.ts
+ * releaseForRedecode), where {@link decodeCoefficientsV2} decodes into an array: no fresh pages, and the
+ * decoded q stays there to be read in place. Returns the reconstruction offsets and the decoded values' count
+ * per band and bin class (|q| = 1, |q| ≥ 2); null where the port is unavailable (take decodeCoefficientsV2).
+ * @throws RangeError as decodeCoefficientsV2
+ */
+export function decodeResidentV2(
+  arena: PlaneArena,
+  bytes: Uint8Array,
+  bands: Band[],
+): { offsets: Float64Array; counts: Int32Array } | null {
+  const c = bands.length <= MAX_BANDS && workFree(arena) ? arena.coder(SETUP) : null;
+  if (!c) return null;
+  const table = bandTable(bands);
+  const got = decodeAt(c, arena.coderLayout(table), arena.n, arena.width, table, bytes);
+  if (!got) return null;
+  rc.checkStreamEnd('plane data', got.pos, bytes.length);
+  return { offsets: offsetsOf(got.counts, got.k), counts: got.counts };
 }
 
 /** Per band and bin class, the offset code (units of 1/OFFSET_UNIT) coder 2 writes, from binStats' counts and sums. */

@@ -40,7 +40,20 @@ const handedOut = new WeakMap<Float64Array, PlaneArena>();
  */
 export function residentArena(plane: object): PlaneArena | undefined {
   const arena = codecKernelsActive() ? arenaOf.get(plane) : undefined;
-  return arena && !workTaken.has(arena) ? arena : undefined;
+  return arena && !workTaken.has(arena) && !arena.isReleased ? arena : undefined;
+}
+
+/**
+ * The caller is done with `plane` (an analysed plane object): its arena's memory, already touched, goes to the
+ * next plane analysed on this thread (./wasm/arena.ts). The result holding the arena's q keeps its non-zeros
+ * first, so every result made from `plane` still reads its q; reading `plane`'s coefficients afterwards throws.
+ * An arena whose work region is handed out (a reconstruction a caller still holds) is left as it is.
+ */
+export function releaseResident(plane: object): void {
+  const arena = arenaOf.get(plane);
+  if (!arena || workTaken.has(arena) || arena.isReleased) return;
+  releaseQ(arena);
+  arena.release();
 }
 
 /** Record that `plane` (an analysed plane object) lives in `arena`. */
@@ -120,7 +133,7 @@ function releaseQ(arena: PlaneArena): void {
 /** The arena still holding `result`'s quantised values (and its plane's coefficients), if any. */
 export function residentQ(result: object): PlaneArena | undefined {
   const arena = codecKernelsActive() ? resultArena.get(result) : undefined;
-  if (!arena || workTaken.has(arena)) return undefined;
+  if (!arena || workTaken.has(arena) || arena.isReleased) return undefined;
   if (qOwner.get(arena) === result) return arena;
   // Load it back (warm memory: cheaper than any copying path): its array, or zeros and its non-zeros.
   const dense = denseQ.get(result);
@@ -143,6 +156,23 @@ export function residentQ(result: object): PlaneArena | undefined {
   }
   qOwner.set(arena, result);
   return arena;
+}
+
+/**
+ * For a check that range-decodes `result`'s bytes again into its arena's q region (../lowrank/residual-check):
+ * the arena with that region released, and `result`'s values to compare the decoded ones with: its non-zeros
+ * (positions, values; kept here as when the region is reused) or its array when one was made. Undefined when
+ * `result` is not resident (or its arena's work region is handed out). A later rebuild loads `result` back.
+ */
+export function releaseForRedecode(
+  result: object,
+): { arena: PlaneArena; dense?: Int32Array; at?: Int32Array; v?: Int32Array } | undefined {
+  const arena = residentQ(result);
+  if (!arena) return undefined;
+  releaseQ(arena);
+  const dense = denseQ.get(result);
+  const sparse = sparseQ.get(result);
+  return dense ? { arena, dense } : sparse && { arena, at: sparse.at, v: sparse.v };
 }
 
 /**

@@ -31,6 +31,7 @@ import {
   bandMaxResident,
   binStatsResident,
   quantiseResident,
+  releaseResident,
   residentArena,
   residentResult,
 } from './resident-plane';
@@ -107,6 +108,15 @@ export function analysePlane(plane: ArrayLike<number>, width: number, height: nu
   };
   adoptArena(a, arena);
   return a;
+}
+
+/**
+ * The caller is done with `a`: the memory holding its coefficients (already touched) goes to the next plane
+ * analysed on this thread, which then faults in fewer fresh pages (./resident-plane). Results coded or
+ * quantised from `a` stay valid; `a` itself must not be used again (reading its coefficients throws).
+ */
+export function releaseAnalysed(a: AnalysedPlane): void {
+  releaseResident(a);
 }
 
 /** The quantised coefficients and their range-coded bytes at one step (no reconstruction). */

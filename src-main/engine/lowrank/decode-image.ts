@@ -61,6 +61,13 @@ export interface DecodedRkfSamples extends Omit<DecodedRkf, 'samples'> {
 
 /** Rows rebuilt at a time when a plane is not tiled (the tile height otherwise). */
 const BAND_ROWS = 64;
+/**
+ * Rows at a time when a plane that is not tiled is decoded into reused band buffers
+ * ({@link decodeImageFileBands}): fewer than BAND_ROWS, so the buffers (float64 rows and float32 samples) are
+ * 0.6 MB on a 3300-wide scan, not 2.5 MB of fresh pages. Each row is rebuilt on its own
+ * (../codec/quantise reconstructRows), so the band height does not change any value.
+ */
+const STREAM_BAND_ROWS = 16;
 
 /**
  * Decode a whole image file into integer samples, band by band: per band of tile rows, each coded plane's
@@ -88,11 +95,72 @@ function decodeWith<S extends SampleOut>(
   const { view, header } = readImageHeader(bytes, file, opts);
   const { width, height, bitDepth } = header;
   const n = width * height;
+  const count = isExactFile(header) ? (header.channels >= 3 ? 3 : 1) : codedChannels(header);
+  const samples = Array.from({ length: count }, () => alloc(n, bitDepth));
+  if (isExactFile(header)) decodeExactSamples(view, header, file, samples);
+  else decodeRows(view, header, file, opts, bandRows(header), samples, true);
+  return withAlpha(view, header, file, alloc, samples);
+}
+
+/** Output channels of the coded planes: R, G, B for a colour transform, else grey. */
+const codedChannels = (header: RkfHeader) => (header.colourTransform === 'ycbcr-jfif' ? 3 : 1);
+
+/**
+ * {@link decodeImageFile} a band of rows at a time, without keeping the planes: each band's samples (every
+ * output channel but alpha, rounded and clamped, as decodeImageFile gives them) are written from index 0 of
+ * band-sized float32 buffers, reused from band to band, and handed to `onBand` with the band's first row and
+ * row count. A lossless file is decoded whole and handed over as one band. The alpha plane, when there is
+ * one, is decoded whole and returned. Memory: O(band·width) besides the file's own decoding.
+ * @throws FormatError
+ */
+export function decodeImageFileBands(
+  bytes: Uint8Array,
+  file: string,
+  onBand: (samples: Float32Array[], y0: number, rows: number) => void,
+  opts: ReadOptions = {},
+): Omit<DecodedRkf, 'samples'> & { alpha?: Float32Array } {
+  const { view, header } = readImageHeader(bytes, file, opts);
+  const { width, height, bitDepth } = header;
+  const float32 = (m: number) => new Float32Array(m);
+  let decoded: ReturnType<typeof withAlpha<Float32Array>>;
   if (isExactFile(header)) {
-    const exact = Array.from({ length: header.channels >= 3 ? 3 : 1 }, () => alloc(n, bitDepth));
-    decodeExactSamples(view, header, file, exact);
-    return withAlpha(view, header, file, alloc, exact);
+    const whole = Array.from({ length: header.channels >= 3 ? 3 : 1 }, () => float32(width * height));
+    decodeExactSamples(view, header, file, whole);
+    onBand(whole, 0, height);
+    decoded = withAlpha(view, header, file, float32, whole);
+  } else {
+    const band = bandRows(header, STREAM_BAND_ROWS);
+    const out = Array.from({ length: codedChannels(header) }, () => float32(band * width));
+    decodeRows(view, header, file, opts, band, out, false, onBand);
+    decoded = withAlpha(view, header, file, float32, out);
   }
+  const count = isExactFile(header) && header.channels >= 3 ? 3 : codedChannels(header);
+  const { samples, ...rest } = decoded;
+  return { ...rest, alpha: samples.length > count ? samples[count] : undefined };
+}
+
+/** Rows rebuilt at a time: the tile height of a tiled plane, else `untiled` (at most the height). */
+function bandRows(header: RkfHeader, untiled = BAND_ROWS): number {
+  const tile = header.planes[0].tile;
+  return Math.min(header.height, tile > 0 ? tile : untiled);
+}
+
+/**
+ * The coded planes rebuilt `band` rows at a time into `samples` (float64 rows of the base, plus the residual layer,
+ * then the colour transform undone, rounded and clamped): written at the band's place in whole planes
+ * (`whole`) or from index 0 of band-sized arrays, and each band handed to `onBand`.
+ */
+function decodeRows<S extends SampleOut>(
+  view: ContainerView,
+  header: RkfHeader,
+  file: string,
+  opts: ReadOptions,
+  band: number,
+  samples: S[],
+  whole: boolean,
+  onBand?: (samples: S[], y0: number, rows: number) => void,
+): void {
+  const { width, height, bitDepth } = header;
   const planeFail = (k: number, err: unknown): never => {
     if (err instanceof FormatError) throw err;
     throw new FormatError(
@@ -113,9 +181,6 @@ function decodeWith<S extends SampleOut>(
   });
   const residual = decodeResiduals(view, header, file);
   const colour = header.colourTransform === 'ycbcr-jfif';
-  const samples: S[] = Array.from({ length: colour ? 3 : 1 }, () => alloc(n, bitDepth));
-  const tile = quant[0].q.tile;
-  const band = Math.min(height, tile > 0 ? tile : BAND_ROWS);
   const bufs = quant.map(() => new Float64Array(band * width));
   // A grey scan into float32 samples (the report's decode) adds its residual while rounding, in one loop.
   const grey = !colour && samples[0] instanceof Float32Array ? (samples[0] as Float32Array) : undefined;
@@ -123,6 +188,7 @@ function decodeWith<S extends SampleOut>(
     const y1 = Math.min(height, y0 + band);
     const len = (y1 - y0) * width;
     const at = y0 * width;
+    const outAt = whole ? at : 0;
     quant.forEach(({ q, rects }, k) => {
       try {
         reconstructRows(q, rects, y0, y1, bufs[k]);
@@ -132,7 +198,7 @@ function decodeWith<S extends SampleOut>(
       // Two layers: base + residual in float64, before any rounding (the same sum decodeImageLayers gives).
       const r = residual[k];
       if (grey) {
-        greyInto(bufs[k], r, len, bitDepth === 16 ? 65535 : 255, grey, at);
+        greyInto(bufs[k], r, at, len, bitDepth === 16 ? 65535 : 255, grey, outAt);
         return;
       }
       if (r) {
@@ -140,35 +206,36 @@ function decodeWith<S extends SampleOut>(
         for (let i = 0; i < len; i++) b[i] += r[at + i];
       }
     });
-    if (!grey) planesToSamples(bufs, colour, len, bitDepth, samples, at);
+    if (!grey) planesToSamples(bufs, colour, len, bitDepth, samples, outAt);
+    onBand?.(samples, y0, y1 - y0);
   }
   // The residual planes are not used past here: a plane rebuilt in its coder's memory gives that memory back.
   for (const r of residual) if (r) giveBackWork(r);
-  return withAlpha(view, header, file, alloc, samples);
 }
 
 /**
- * out[at + i] = clamp(round(base[i] + residual[at + i])) for i < len (no residual: of base[i] alone): the sum,
- * rounding and clamping of the two-pass path (base += residual, then ../colour roundInto), in one monomorphic
- * loop over float64 in and float32 out, so the same values.
+ * out[outAt + i] = clamp(round(base[i] + residual[at + i])) for i < len (no residual: of base[i] alone): the
+ * sum, rounding and clamping of the two-pass path (base += residual, then ../colour roundInto), in one
+ * monomorphic loop over float64 in and float32 out, so the same values.
  */
 function greyInto(
   base: Float64Array,
   residual: Float64Array | undefined,
+  at: number,
   len: number,
   max: number,
   out: Float32Array,
-  at: number,
+  outAt: number,
 ): void {
   if (residual)
     for (let i = 0; i < len; i++) {
       const v = Math.round(base[i] + residual[at + i]);
-      out[at + i] = v > 0 ? (v > max ? max : v) : 0;
+      out[outAt + i] = v > 0 ? (v > max ? max : v) : 0;
     }
   else
     for (let i = 0; i < len; i++) {
       const v = Math.round(base[i]);
-      out[at + i] = v > 0 ? (v > max ? max : v) : 0;
+      out[outAt + i] = v > 0 ? (v > max ? max : v) : 0;
     }
 }
 

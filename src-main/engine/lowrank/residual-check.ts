@@ -2,23 +2,43 @@
  * The report's proof that the residual layer as written decodes to what the report measures, run beside the
  * report's own decode. Decoding a file this process just wrote rebuilds each residual plane from the
  * quantised coefficients its encode recorded (../codec/coded-planes: the file's bytes are compared with the
- * recorded bytes), which skips the range decoder. This check runs the range decoder on those bytes, on the
- * second thread when there is one (a 'residual-decode' job of ./side-jobs), and compares the coefficients
- * and reconstruction offsets it recovers with the recorded ones, value for value. Together: the bytes in the
- * file decode to the coefficients the reported samples were rebuilt from.
+ * recorded bytes), which skips the range decoder. This check runs the range decoder on those bytes and
+ * compares the coefficients and reconstruction offsets it recovers with the recorded ones, value for value.
+ * Together: the bytes in the file decode to the coefficients the reported samples were rebuilt from.
+ *
+ * Where the recorded coefficients are resident in their plane's own memory (../codec/resident-plane), the
+ * bytes are range-decoded there, into the q region (the recorded values kept as their non-zeros first), on
+ * the calling thread: memory the encode already touched, so no fresh pages. Otherwise (a plane coded on the
+ * other thread, a small plane, no WebAssembly) a 'residual-decode' job of ./side-jobs decodes them on the
+ * second thread when there is one.
  */
+
 import { recallCode } from '../codec/coded-planes';
-import { residentQView } from '../codec/resident-plane';
+import { decodeResidentV2 } from '../codec/coeff-coder';
+import { releaseForRedecode, residentQ, residentQView } from '../codec/resident-plane';
+import type { CodedCoefficients } from '../codec/wavelet-plane';
+import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import type { SideRunner } from './side-jobs';
 
 /** Coefficient coder of the residual layer this encoder writes (container 1.3, ../codec/wavelet-plane). */
 const WRITTEN_CODER = 2;
 
 /**
+ * Which planes a call checks: 'all'; 'elsewhere' only those not resident (their side jobs start at once, so
+ * the other thread decodes while this one works), leaving the resident ones to a later call with 'resident',
+ * which checks only those (for the file that is kept).
+ */
+export type CheckedPlanes = 'all' | 'elsewhere' | 'resident';
+
+/** Recorded encodes a call with 'elsewhere' left to a call with 'resident'. */
+const deferred = new WeakSet<CodedCoefficients>();
+
+/**
  * Start the check of every residual plane whose encode was recorded (a plane that was not is range-decoded
- * by the report's decode itself). Call before that decode (it forgets nothing, but the caller clears the
- * records afterwards); the returned function waits for the checks and throws an Error naming `file` when a
- * plane's bytes do not decode to its recorded coefficients.
+ * by the report's decode itself). Call before that decode, which rebuilds a resident plane over its q region
+ * (it forgets nothing, but the caller clears the records afterwards): resident planes are checked at once,
+ * the others' jobs started. The returned function waits for the jobs and throws an Error naming `file` when
+ * a plane's bytes do not decode to its recorded coefficients.
  */
 export function startResidualCheck(
   run: SideRunner,
@@ -26,10 +46,24 @@ export function startResidualCheck(
   width: number,
   height: number,
   file: string,
+  planes: CheckedPlanes = 'all',
 ): () => void {
+  let failed: Error | undefined;
   const jobs = (residual?.bytes ?? []).flatMap((bytes, k) => {
     const coded = recallCode(bytes, width, height, residual?.steps[k] ?? 0, WRITTEN_CODER);
     if (!coded) return [];
+    if (planes === 'elsewhere' && residentQ(coded)) {
+      deferred.add(coded);
+      return [];
+    }
+    if (planes === 'resident' && !deferred.delete(coded)) return [];
+    if (planes !== 'elsewhere') {
+      const here = checkResident(coded, width, height);
+      if (here !== undefined) {
+        if (here !== 'same' && !failed) failed = mismatch(file, k, here);
+        return [];
+      }
+    }
     const into = spareBuffer(width * height);
     return [{ k, coded, into, join: started(run, coded.bytes, width, height, into) }];
   });
@@ -44,10 +78,65 @@ export function startResidualCheck(
       const at = firstDifference(got, coded);
       if (at !== undefined) throw mismatch(file, k, `decodes to other ${at} than it was coded from`);
     }
+    if (failed) throw failed;
     // Every job answered and was compared: nothing writes or reads these buffers any more, so the next check
     // may decode into them (after a failure they are dropped: a job that gave no answer might still write).
     for (const { into } of jobs) if (into) spare.push(into);
   };
+}
+
+/**
+ * The check of a plane whose recorded q is resident: its bytes range-decoded into the arena's q region (the
+ * recorded values kept first, ../codec/resident-plane releaseForRedecode) and compared with them: 'same', or
+ * what differs ('…cannot be range-decoded…', 'decodes to other …'); undefined when the plane is not resident
+ * (or the coder port cannot run there), for the side job to check.
+ */
+function checkResident(coded: CodedCoefficients, width: number, height: number): string | undefined {
+  const kept = releaseForRedecode(coded);
+  if (!kept) return undefined;
+  const { arena } = kept;
+  let got: { offsets: Float64Array; counts: Int32Array } | null;
+  try {
+    got = decodeResidentV2(arena, coded.bytes, bandsFor(width, height, levelsFor(width, height)));
+  } catch (err) {
+    return `cannot be range-decoded (${(err as Error).message})`;
+  }
+  // No port here: the recorded values are kept (loaded back when next needed), and the side job checks.
+  if (!got) return undefined;
+  const q = new Int32Array(arena.memory.buffer, arena.qAt, arena.n);
+  const differs = !sameAsKept(q, got.counts, kept)
+    ? 'coefficients'
+    : !sameOffsets(got.offsets, coded.offsets)
+      ? 'reconstruction offsets'
+      : undefined;
+  return differs ? `decodes to other ${differs} than it was coded from` : 'same';
+}
+
+/** Whether the decoded reconstruction offsets are the recorded ones, bit for bit. */
+function sameOffsets(got: Float64Array, o: Float64Array | undefined): boolean {
+  if (!o || o.length !== got.length) return false;
+  for (let i = 0; i < o.length; i++) if (!Object.is(o[i], got[i])) return false;
+  return true;
+}
+
+/**
+ * Whether the decoded q equals the recorded values: the recorded array value for value, or the recorded
+ * non-zeros all found in q with the same count of non-zeros in q (the decoder's per-band counts of |q| = 1 and
+ * |q| ≥ 2): then q has no other non-zero, so every other value is 0 as recorded.
+ */
+function sameAsKept(
+  q: Int32Array,
+  counts: Int32Array,
+  kept: { dense?: Int32Array; at?: Int32Array; v?: Int32Array },
+): boolean {
+  if (kept.dense) return kept.dense.length === q.length && sameInt32(kept.dense, q);
+  const at = kept.at as Int32Array;
+  const v = kept.v as Int32Array;
+  let decoded = 0;
+  for (let j = 0; j < counts.length; j++) decoded += counts[j];
+  if (decoded !== at.length) return false;
+  for (let j = 0; j < at.length; j++) if (q[at[j]] !== v[j]) return false;
+  return true;
 }
 
 /**
@@ -93,10 +182,7 @@ function firstDifference(
   // The encoder's q where it lies (its arena), not the copy its `q` getter would make.
   const q = residentQView(b) ?? b.q;
   if (a.q.length !== q.length || !sameInt32(a.q, q)) return 'coefficients';
-  const o = b.offsets;
-  if (!o || o.length !== a.offsets.length) return 'reconstruction offsets';
-  for (let i = 0; i < o.length; i++) if (!Object.is(o[i], a.offsets[i])) return 'reconstruction offsets';
-  return undefined;
+  return sameOffsets(a.offsets, b.offsets) ? undefined : 'reconstruction offsets';
 }
 
 function sameInt32(a: Int32Array, b: Int32Array): boolean {

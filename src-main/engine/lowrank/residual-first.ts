@@ -26,6 +26,7 @@ import {
   codedSquaredError,
   estimateBits,
   estimateSquaredError,
+  releaseAnalysed,
   smallestSafeStep,
 } from '../codec/wavelet-plane';
 import { psnrFromSse } from '../metrics';
@@ -176,7 +177,10 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
     // The bytes are known at once: the base estimate starts first (on the side thread, when there is one),
     // before even the crop's transform.
     baseJob = startBase(cropBytes);
-    const { fit, ratio: r } = fitResidual(analyseCrop(), weights, scales, cropBytes, ratio, cancel);
+    const cropAnalysed = analyseCrop();
+    const { fit, ratio: r } = fitResidual(cropAnalysed, weights, scales, cropBytes, ratio, cancel);
+    // The crop's memory, already touched, is where the whole planes are analysed next.
+    cropAnalysed.forEach(releaseAnalysed);
     if (!fit) {
       baseJob();
       return undefined;
@@ -192,6 +196,7 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
     cropBytes = c.size;
     waveletSse = c.sse;
     floorRatio = decodedRatio(crop, cropAnalysed, c.coded, weights, maxValue, c.sse);
+    cropAnalysed.forEach(releaseAnalysed);
     baseJob = startBase(cropBytes);
   }
   cancel();

@@ -10,12 +10,13 @@ import type { QuantPlane } from '../codec/quantised';
 import { psnrPlanes } from '../metrics';
 import { AUTO_PROBE_PIXELS } from './centred-crop';
 import { type DecodedRkf, decodeImageFile } from './decode-image';
+import { type FileFigures, measureGreyFile, measureGreySse } from './decoded-figures';
 import type { EncodeOptions } from './encode-options';
 import type { EncodedPlanes } from './error-figures';
 import type { ImageBuild } from './image-writer';
 import { startResidualCheck } from './residual-check';
 import { residualFirst } from './residual-first';
-import { runHere, ssimPlanesSplit } from './side-jobs';
+import { runHere, type SideRunner, ssimPlanesSplit } from './side-jobs';
 
 /** The coded planes of a scan with their names and weights. */
 export interface Prepared extends EncodedPlanes {
@@ -32,6 +33,12 @@ export function maxOf(bitDepth: 8 | 16): number {
  * source exactly) and measure it: PSNR, SSIM (once, at full resolution), the achieved Frobenius error, ranks
  * and the base layer's bytes. `file` is the already built file and `decodedFile` its decoding, when the
  * caller has them.
+ *
+ * How the figures stay measured on the file as written, without fresh memory: the file's bytes are parsed and
+ * decoded by the reader (./decode-image), a grey scan's samples a band at a time into reused buffers
+ * (./decoded-figures); a residual plane this process just coded is rebuilt from its recorded coefficients,
+ * and ./residual-check proves, by running the range decoder on the file's bytes (in the plane's own memory
+ * where it is resident), that those bytes decode to exactly those coefficients.
  */
 export function finishScan(
   img: DecodedImage,
@@ -48,33 +55,30 @@ export function finishScan(
   const max = maxOf(img.bitDepth);
   const run = opts.side ?? runHere;
   let bytes = file ?? build(basePlanes, false, residual);
-  // The range decoder's check of the recorded residual planes runs on the second thread meanwhile (started
-  // when the file was built, on the residual-only path).
-  const checked = takeStartedCheck(bytes) ?? startResidualCheck(run, residual, width, height, img.file);
-  let decoded = decodedFile ?? decodeImageFile(bytes, img.file);
-  const colourSamples = img.planes.slice(0, prep.colour ? 3 : 1);
-  const lossless = sameSamples(decoded.samples, img.planes);
-  if (lossless) {
+  // The range decoder's check of the recorded residual planes: those resident in their plane's memory now,
+  // before the decode rebuilds over it; the others on the second thread meanwhile (started when the file was
+  // built, on the residual-only path).
+  const started = takeStartedCheck(bytes);
+  const here = startResidualCheck(run, residual, width, height, img.file, started ? 'resident' : 'all');
+  const checked = () => {
+    started?.();
+    here();
+  };
+  // A grey scan is measured while its file is decoded band by band (./decoded-figures: no decoded plane);
+  // a colour scan, or a file the caller decoded already, on the whole decoded planes.
+  const streamed = !prep.colour && !decodedFile;
+  const measure = (b: Uint8Array, d?: DecodedRkf) =>
+    streamed
+      ? measureGreyFile(b, img, max)
+      : measureDecoded(d ?? decodeImageFile(b, img.file), img, prep, run);
+  let figures = measure(bytes, decodedFile);
+  if (figures.lossless) {
     bytes = build(basePlanes, true, residual);
-    decoded = decodeImageFile(bytes, img.file);
+    figures = measure(bytes);
   }
   // The residual-only path recorded its plane encodes (residualFirstFor); the decodes above used them.
   forgetCodes();
-  const outPlanes = decoded.samples.slice(0, colourSamples.length);
-  // PSNR and the squared error are computed here while the other thread finishes its half of the SSIM.
-  let figures: { psnr: number; sse: number } | undefined;
-  const measure = () => {
-    figures = {
-      psnr: psnrPlanes(colourSamples, outPlanes, max),
-      sse: squaredError(colourSamples, outPlanes),
-    };
-  };
-  const ssim =
-    width >= 11 && height >= 11
-      ? ssimPlanesSplit(run, colourSamples, outPlanes, width, height, max, measure)
-      : Number.NaN;
-  if (!figures) measure();
-  const { psnr, sse } = figures as { psnr: number; sse: number };
+  const { psnr, ssim, sse, lossless, decoded } = figures;
   checked();
   const ranks = basePlanes.map((p, k) => ({
     channel: prep.names[k],
@@ -93,6 +97,37 @@ export function finishScan(
     frobenius: Math.sqrt(sse),
     baseBytes,
   };
+}
+
+/**
+ * The figures of a decoded file on its whole planes: PSNR and the squared error on this thread while the other
+ * computes its share of the SSIM (./side-jobs ssimPlanesSplit).
+ */
+function measureDecoded(
+  decoded: DecodedRkf,
+  img: DecodedImage,
+  prep: Prepared,
+  run: SideRunner,
+): FileFigures {
+  const { width, height } = img;
+  const max = maxOf(img.bitDepth);
+  const colourSamples = img.planes.slice(0, prep.colour ? 3 : 1);
+  const lossless = sameSamples(decoded.samples, img.planes);
+  const outPlanes = decoded.samples.slice(0, colourSamples.length);
+  let figures: { psnr: number; sse: number } | undefined;
+  const measure = () => {
+    figures = {
+      psnr: psnrPlanes(colourSamples, outPlanes, max),
+      sse: squaredError(colourSamples, outPlanes),
+    };
+  };
+  const ssim =
+    width >= 11 && height >= 11
+      ? ssimPlanesSplit(run, colourSamples, outPlanes, width, height, max, measure)
+      : Number.NaN;
+  if (!figures) measure();
+  const { psnr, sse } = figures as { psnr: number; sse: number };
+  return { psnr, sse, ssim, lossless, decoded };
 }
 
 /** The residual-only shortcut of ./residual-first, where it applies: large scans, two layers allowed. */
@@ -146,12 +181,18 @@ export function residualFirstFor(
         const file = build(planes, false, residual);
         if (side) {
           settle();
-          pending = { file, join: startResidualCheck(side, residual, width, height, img.file) };
+          // Planes resident in their memory are checked by finishScan, for the kept file only.
+          pending = {
+            file,
+            join: startResidualCheck(side, residual, width, height, img.file, 'elsewhere'),
+          };
         }
         return file;
       },
       side,
       measuredSse: (bytes) => {
+        // A grey file is measured band by band (./decoded-figures): the report measures the kept one again.
+        if (!prep.colour) return measureGreySse(bytes, img);
         last = { bytes, decoded: decodeImageFile(bytes, img.file) };
         return decodedSse(last.decoded, img, prep);
       },
@@ -210,6 +251,7 @@ function sameSamples(a: Float32Array[], b: Float32Array[]): boolean {
 
 /** Weighted squared error of a built file against the source in the factor domain's weighting (RGB SSE). */
 export function measuredSse(bytes: Uint8Array, img: DecodedImage, prep: Prepared): number {
+  if (!prep.colour) return measureGreySse(bytes, img);
   return decodedSse(decodeImageFile(bytes, img.file), img, prep);
 }
 

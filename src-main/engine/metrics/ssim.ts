@@ -138,13 +138,12 @@ export class SsimStream {
   private readonly wv: number;
   private readonly hv: number;
   private readonly stride: number;
-  private readonly ring: Float64Array;
-  private readonly rx: Float64Array;
-  private readonly ry: Float64Array;
-  private readonly rxx: Float64Array;
-  private readonly ryy: Float64Array;
-  private readonly rxy: Float64Array;
-  private readonly offs: Int32Array;
+  /**
+   * The TypeScript path's arrays, made on its first use: where the kernel runs, a stream's ring lives in the
+   * kernel's memory (./wasm/runtime) and these would only be fresh pages (a report's SSIM makes 8 streams
+   * per plane, 1.4 MB of ring each on a 3300-wide scan).
+   */
+  private ts: { ring: Float64Array; rows: Float64Array[]; offs: Int32Array } | undefined;
   /** The state the WebAssembly kernel works on (./wasm/runtime). */
   private readonly kernelState: SsimRing;
   private y = 0;
@@ -179,14 +178,27 @@ export class SsimStream {
     this.wv = width - 2 * radius;
     this.hv = height - 2 * radius;
     this.stride = 5 * this.wv;
-    this.ring = new Float64Array(side * this.stride);
-    this.rx = new Float64Array(width);
-    this.ry = new Float64Array(width);
-    this.rxx = new Float64Array(width);
-    this.ryy = new Float64Array(width);
-    this.rxy = new Float64Array(width);
-    this.offs = new Int32Array(2 * radius);
-    this.kernelState = { width, R: radius, g: this.g, ring: this.ring, C1: this.C1, C2: this.C2 };
+    this.kernelState = {
+      width,
+      R: radius,
+      g: this.g,
+      ringLength: side * this.stride,
+      ring: () => this.arrays().ring,
+      ownRing: () => this.ts?.ring,
+      finished: () => this.y === this.height,
+      C1: this.C1,
+      C2: this.C2,
+    };
+  }
+
+  /** The TypeScript path's ring (zeros at first, as the kernel's copy of a new stream), rows and offsets. */
+  private arrays(): { ring: Float64Array; rows: Float64Array[]; offs: Int32Array } {
+    this.ts ??= {
+      ring: new Float64Array(this.side * this.stride),
+      rows: Array.from({ length: 5 }, () => new Float64Array(this.width)),
+      offs: new Int32Array(2 * this.R),
+    };
+    return this.ts;
   }
 
   /** Add the next `rows` rows of both planes, starting at a[aOff] and b[bOff] (row stride = width). */
@@ -265,7 +277,9 @@ export class SsimStream {
   }
 
   private filterRow(a: ArrayLike<number>, b: ArrayLike<number>, ra: number, rb: number, y: number): void {
-    const { width, rx, ry, rxx, ryy, rxy, ring, stride, wv, R, g } = this;
+    const { width, stride, wv, R, g } = this;
+    const { ring, rows } = this.arrays();
+    const [rx, ry, rxx, ryy, rxy] = rows;
     const gc = g[R];
     for (let i = 0; i < width; i++) {
       const p = a[ra + i];
@@ -304,12 +318,12 @@ export class SsimStream {
 
   /** Σ over the window centres of row y − r of the SSIM map (the window's last row is y). */
   private windowRow(y: number): number {
-    const { ring, stride, wv, R, g, side, C1, C2 } = this;
+    const { stride, wv, R, g, side, C1, C2 } = this;
+    const { ring, offs } = this.arrays();
     const gc = g[R];
     const base = y - side + 1;
     const oc = ((base + R) % side) * stride;
     // Ring offsets of the window's rows above (lo) and below (hi) the centre, once per row, not per sample.
-    const offs = this.offs;
     for (let t = 0; t < R; t++) {
       offs[2 * t] = ((base + t) % side) * stride;
       offs[2 * t + 1] = ((base + 2 * R - t) % side) * stride;

@@ -20,6 +20,8 @@
  *
  * Every result equals the TypeScript reference's bit for bit: the kernels perform its operations in its order.
  */
+
+import { growMemoryTo } from '../../linalg/wasm/runtime';
 import {
   type CoderSetup,
   type CoderWasm,
@@ -53,6 +55,28 @@ export function setArenaMinPixels(n: number): void {
   minPixels = n;
 }
 
+/**
+ * Memories of released arenas ({@link PlaneArena.release}) with their kernel instances, most recent last, kept
+ * for the next arenas made on this thread: their pages are already touched, and a larger plane grows one in
+ * place (a WebAssembly memory keeps its contents when it grows). The residual-first encoder releases its crop's
+ * arenas before it analyses the whole planes, so the whole plane's first pages are the crop's (about 4 MB per
+ * 512² crop plane that are not faulted in again).
+ */
+const spares: Array<{ memory: WebAssembly.Memory; lift: LiftingExports; coder: CoderWasm | null }> = [];
+/** Most released memories kept (a colour crop releases three). */
+const MAX_SPARES = 4;
+
+/** A spare memory grown to `bytes`, with its instances; undefined when there is none or it cannot grow. */
+function takeSpare(bytes: number) {
+  // The largest spare needs the fewest new pages.
+  let best = -1;
+  for (let i = 0; i < spares.length; i++)
+    if (best < 0 || spares[i].memory.buffer.byteLength > spares[best].memory.buffer.byteLength) best = i;
+  if (best < 0) return undefined;
+  const [spare] = spares.splice(best, 1);
+  return growMemoryTo(spare.memory, bytes, MAX_BYTES) ? spare : undefined;
+}
+
 export class PlaneArena {
   readonly n: number;
   readonly coeffsAt: number;
@@ -65,7 +89,8 @@ export class PlaneArena {
   /** Past the work region: the coder's output (and its map, when that does not fit below q). */
   readonly endAt: number;
   readonly lift: LiftingExports;
-  private coderCache: CoderWasm | null = null;
+  private coderCache: CoderWasm | null;
+  private released = false;
   private buffer: ArrayBufferLike;
   private coeffView: Float64Array;
 
@@ -74,8 +99,10 @@ export class PlaneArena {
     lift: LiftingExports,
     readonly width: number,
     readonly height: number,
+    coder: CoderWasm | null = null,
   ) {
     this.lift = lift;
+    this.coderCache = coder;
     const n = width * height;
     this.n = n;
     this.coeffsAt = BASE;
@@ -96,6 +123,8 @@ export class PlaneArena {
     const scratch = align16(16 * Math.max(width, height)) + align16(8 * STRIP * height);
     const bytes = BASE + align16(8 * n) + scratch + align16(Math.ceil(n / CHUNK)) + align16(8 * n) + PAGE;
     if (bytes > MAX_BYTES) return null;
+    const spare = takeSpare(bytes);
+    if (spare) return new PlaneArena(spare.memory, spare.lift, width, height, spare.coder);
     let memory: WebAssembly.Memory;
     try {
       memory = new WebAssembly.Memory({ initial: Math.ceil(bytes / PAGE) });
@@ -106,8 +135,25 @@ export class PlaneArena {
     return lift ? new PlaneArena(memory, lift, width, height) : null;
   }
 
+  /**
+   * The caller is done with this arena: its memory (and its kernel instances) goes to the next arena made on
+   * this thread, which overwrites it. Any later use of this arena throws.
+   */
+  release(): void {
+    if (this.released) return;
+    this.released = true;
+    spares.push({ memory: this.memory, lift: this.lift, coder: this.coderCache });
+    if (spares.length > MAX_SPARES) spares.shift();
+  }
+
+  /** Whether {@link release} was called. */
+  get isReleased(): boolean {
+    return this.released;
+  }
+
   /** Refresh the views if the memory grew (the coder grows it when its output outgrows the work region). */
   private fresh(): ArrayBufferLike {
+    if (this.released) throw new Error('rankfold engine: a released plane arena was used');
     if (this.buffer !== this.memory.buffer) {
       this.buffer = this.memory.buffer;
       this.coeffView = new Float64Array(this.buffer, this.coeffsAt, this.n);

@@ -216,22 +216,38 @@ export function decodeWasm(
   table: Int32Array,
 ): { pos: number; counts: Int32Array; k: Int32Array } | null {
   const n = q.length;
-  const at = planesLayout(n, table);
-  if (!reserveBytes(c, at.tail + bytes.length)) return null;
   try {
-    const buf = c.memory.buffer;
-    new Uint8Array(buf, at.tail, bytes.length).set(bytes);
-    const nb = putBands(buf, table);
-    const pos = c.exports.decode(at.q, at.mag, at.d, n, width, nb, at.tail, bytes.length);
-    q.set(new Int32Array(buf, at.q, n));
-    return {
-      pos,
-      counts: new Int32Array(buf, SCRATCH + AT_COUNTS, 2 * nb).slice(),
-      k: new Int32Array(buf, SCRATCH + AT_OFFSET_CODES, 2 * nb).slice(),
-    };
+    const got = decodeAt(c, planesLayout(n, table), n, width, table, bytes);
+    if (got) q.set(new Int32Array(c.memory.buffer, got.at.q, n));
+    return got;
   } finally {
     releaseMemory();
   }
+}
+
+/**
+ * Decode with the port into q where `at` places it in `c`'s memory (a plane's own memory, ./arena.ts: its
+ * coderLayout), leaving it there: what {@link decodeWasm} returns, or null if the memory cannot hold the bytes.
+ */
+export function decodeAt(
+  c: CoderWasm,
+  at: PlanesAt,
+  n: number,
+  width: number,
+  table: Int32Array,
+  bytes: Uint8Array,
+): { at: PlanesAt; pos: number; counts: Int32Array; k: Int32Array } | null {
+  if (!reserveBytes(c, at.tail + bytes.length)) return null;
+  const buf = c.memory.buffer;
+  new Uint8Array(buf, at.tail, bytes.length).set(bytes);
+  const nb = putBands(buf, table);
+  const pos = c.exports.decode(at.q, at.mag, at.d, n, width, nb, at.tail, bytes.length);
+  return {
+    at,
+    pos,
+    counts: new Int32Array(buf, SCRATCH + AT_COUNTS, 2 * nb).slice(),
+    k: new Int32Array(buf, SCRATCH + AT_OFFSET_CODES, 2 * nb).slice(),
+  };
 }
 
 /** Whether the port is in use: compiled here, and not disabled. */

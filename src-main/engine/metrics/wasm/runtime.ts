@@ -37,14 +37,21 @@ const TAPS = 16384;
 const OFFS = TAPS + 4096;
 const DATA = 65536;
 /** Bytes of input (both planes) copied per kernel call. */
-const CALL_BYTES = 1 << 22;
+const CALL_BYTES = 1 << 20;
 
 /** The stream state the kernel reads and writes (SsimStream's fields). */
 export interface SsimRing {
   readonly width: number;
   readonly R: number;
   readonly g: Float64Array;
-  readonly ring: Float64Array;
+  /** Values in the ring of filtered rows. */
+  readonly ringLength: number;
+  /** The stream's own copy of its ring (made on first use, zeros until a ring is saved into it). */
+  ring(): Float64Array;
+  /** That copy if it was made (by the TypeScript path or a save), else undefined: the ring is all zeros. */
+  ownRing(): Float64Array | undefined;
+  /** Whether every row was added: the ring is not read again, so it need not be saved. */
+  finished(): boolean;
   readonly C1: number;
   readonly C2: number;
 }
@@ -57,7 +64,7 @@ const align16 = (n: number) => (n + 15) & ~15;
 export function releaseRing(s: SsimRing): void {
   if (owner !== s) return;
   const k = kernel.get(true);
-  if (k) s.ring.set(new Float64Array(k.memory.buffer, DATA, s.ring.length));
+  if (k && !s.finished()) s.ring().set(new Float64Array(k.memory.buffer, DATA, s.ringLength));
   owner = null;
 }
 
@@ -83,7 +90,7 @@ export function ssimRowsWasm(
   const { width, R } = s;
   const chunk = Math.max(1, Math.floor(CALL_BYTES / (16 * width)));
   const ringAt = DATA;
-  const tmpAt = ringAt + align16(8 * (s.ring.length + 2));
+  const tmpAt = ringAt + align16(8 * (s.ringLength + 2));
   const aAt = tmpAt + align16(40 * width);
   const bAt = aAt + align16(8 * chunk * width);
   const sumsAt = bAt + align16(8 * chunk * width);
@@ -91,7 +98,11 @@ export function ssimRowsWasm(
   const buf = () => k.memory.buffer;
   if (owner !== s) {
     if (owner) releaseRing(owner);
-    new Float64Array(buf(), ringAt, s.ring.length).set(s.ring);
+    // A stream without its own array yet has an all-zero ring (as that array starts): no array is made for it.
+    const ring = new Float64Array(buf(), ringAt, s.ringLength);
+    const own = s.ownRing();
+    if (own) ring.set(own);
+    else ring.fill(0);
     owner = s;
   }
   // The taps of this stream (another stream may have left its own there).

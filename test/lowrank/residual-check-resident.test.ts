@@ -1,0 +1,100 @@
+// The residual check of a plane whose recorded coefficients are resident in the plane's own memory
+// (src-main/engine/lowrank/residual-check.ts checkResident): its bytes are range-decoded into that memory's q
+// region on the calling thread, no side job runs, and the check still refuses a changed coefficient, a
+// changed reconstruction offset and bytes that do not decode to the recorded values. Afterwards the plane
+// is rebuilt with the same bits as before the check.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { forgetCodes, recordingCodes } from '../../src-main/engine/codec/coded-planes';
+import { giveBackWork, residentQView } from '../../src-main/engine/codec/resident-plane';
+import { ARENA_MIN_PIXELS, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
+import { analysePlane, codeAnalysed, decodePlane } from '../../src-main/engine/codec/wavelet-plane';
+import { initEngine } from '../../src-main/engine/linalg';
+import { startResidualCheck } from '../../src-main/engine/lowrank/residual-check';
+import { runHere, type SideRunner } from '../../src-main/engine/lowrank/side-jobs';
+import { digest, rampPlane } from '../codec/plane-samples';
+
+const [w, h, step] = [97, 83, 3];
+
+/** A runner that counts the jobs it is given (none for a resident plane). */
+function counting(): { run: SideRunner; jobs: () => number } {
+  let n = 0;
+  return {
+    run: (name, args) => {
+      n++;
+      return runHere(name, args);
+    },
+    jobs: () => n,
+  };
+}
+
+describe('the residual check of a resident plane', () => {
+  beforeAll(async () => {
+    await initEngine();
+    setArenaMinPixels(1);
+  });
+  afterAll(() => {
+    setArenaMinPixels(ARENA_MIN_PIXELS);
+    forgetCodes();
+  });
+  const code = () => {
+    forgetCodes();
+    const a = analysePlane(rampPlane(w, h, 11), w, h);
+    return recordingCodes(() => codeAnalysed(a, step, 2));
+  };
+  const check = (run: SideRunner, bytes: Uint8Array) => () =>
+    startResidualCheck(run, { steps: [step], bytes: [bytes] }, w, h, 'c.tif')();
+
+  it('passes on the calling thread, with no side job, and the plane rebuilds with the same bits', () => {
+    const c = code();
+    expect(residentQView(c)).toBeDefined();
+    // A rebuild handed out in the plane's memory is given back, as the report's decode does.
+    const rebuilt = () => {
+      const x = decodePlane(c.bytes, w, h, step, 2);
+      const d = digest(x);
+      giveBackWork(x);
+      return d;
+    };
+    const before = rebuilt();
+    const r = counting();
+    expect(check(r.run, c.bytes)).not.toThrow();
+    expect(r.jobs()).toBe(0);
+    // What the check left in the region is the decoded q, equal to the recorded one; a rebuild loads it back.
+    expect(rebuilt()).toBe(before);
+    // 'elsewhere' leaves a resident plane to a later 'resident' call, which checks it here (and only once).
+    const e = counting();
+    const later = (planes: 'elsewhere' | 'resident') =>
+      startResidualCheck(e.run, { steps: [step], bytes: [c.bytes] }, w, h, 'c.tif', planes);
+    later('elsewhere')();
+    const view = residentQView(c) as Int32Array;
+    view[view.findIndex((v) => v !== 0)] += 1;
+    expect(later('resident')).toThrow('decodes to other coefficients');
+    expect(later('resident')).not.toThrow();
+    expect(e.jobs()).toBe(0);
+  });
+
+  it('refuses a changed coefficient, also one changed to or from 0', () => {
+    for (const pick of ['non-zero', 'zero'] as const) {
+      const c = code();
+      const view = residentQView(c) as Int32Array;
+      const i = view.findIndex((v) => (pick === 'zero' ? v === 0 : v !== 0));
+      expect(i).toBeGreaterThanOrEqual(0);
+      view[i] = pick === 'zero' ? 1 : 0;
+      expect(check(runHere, c.bytes)).toThrow(
+        'c.tif: the residual layer just coded for plane 0 decodes to other coefficients than it was coded from',
+      );
+    }
+  });
+
+  it('refuses a changed reconstruction offset, and bytes that decode to other values', () => {
+    const c = code();
+    (c.offsets as Float64Array)[1] += 0.125;
+    expect(check(runHere, c.bytes)).toThrow('decodes to other reconstruction offsets');
+    const d = code();
+    // The recorded bytes themselves changed (recallCode still finds them: the same array): the decode differs
+    // or runs out.
+    d.bytes[d.bytes.length >> 1] ^= 0x5a;
+    expect(check(runHere, d.bytes)).toThrow(
+      /^c\.tif: the residual layer just coded for plane 0 (decodes to other|cannot be range-decoded)/,
+    );
+  });
+});
