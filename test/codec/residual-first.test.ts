@@ -6,11 +6,19 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import type { DecodedImage } from '../../src-main/contract';
 import { readContainer } from '../../src-main/engine/codec/container';
 import { readImageHeader } from '../../src-main/engine/codec/image-file';
-import { decodePlane } from '../../src-main/engine/codec/wavelet-plane';
+import {
+  analysePlane,
+  codeAnalysed,
+  codedSquaredError,
+  decodePlane,
+  quantiseAnalysed,
+  reconstructCoded,
+} from '../../src-main/engine/codec/wavelet-plane';
 import { initEngine } from '../../src-main/engine/linalg';
 import { Rng } from '../../src-main/engine/linalg/random';
 import { encodeScan } from '../../src-main/engine/lowrank/encode';
-import { residualFirst } from '../../src-main/engine/lowrank/residual-first';
+import { spreadRatio } from '../../src-main/engine/lowrank/floor-aim';
+import { recodeSaving, residualFirst } from '../../src-main/engine/lowrank/residual-first';
 import { psnr } from '../../src-main/engine/metrics';
 import { COMPRESSORS } from '../../src-main/node/services/compress';
 import { image } from '../helpers/fixtures';
@@ -76,12 +84,14 @@ describe('residual-only shortcut on a large scan', () => {
     }
   }, 300_000);
 
-  it('meets a PSNR floor on the decoded file within 0.1 dB above it, with ≤ 3 real encodes', () => {
+  it('meets a PSNR floor on the decoded file with ≤ 3 real encodes, not far above it', () => {
     for (const db of [34, 40]) {
       const r = encodeScan(img, { ...opts, budget: { kind: 'psnr', db } });
       expect(r.layers.chosen).toBe('residual-only');
       expect(r.psnr).toBeGreaterThanOrEqual(db);
-      expect(r.psnr).toBeLessThan(db + 0.1);
+      // A file is kept when one more encode would save < 4% of it (0.03–0.04 dB over the floor here, one encode each,
+      // measured); 0.3 dB over would be ≥ 5% of the bytes at these rates.
+      expect(r.psnr).toBeLessThan(db + 0.3);
       expect(r.layers.residualEncodes).toBeLessThanOrEqual(3);
     }
   }, 300_000);
@@ -104,6 +114,52 @@ describe('landing a byte budget in one real encode', () => {
     },
     300_000,
   );
+});
+
+describe('the saving of one more encode under a PSNR floor', () => {
+  it("predicts the real coder's size change between two nearby steps", async () => {
+    const img = await scan();
+    const a = [analysePlane(img.planes[0], W, H)];
+    const d1 = 6;
+    const c1 = codeAnalysed(a[0], d1, 2);
+    const e1 = codedSquaredError(a[0], c1);
+    const n1 = c1.bytes.length;
+    expect(Math.abs(recodeSaving(a, [1], d1, 1))).toBeLessThan(0.002);
+    let last = Number.NEGATIVE_INFINITY;
+    for (const octave of [-0.2, -0.1, 0.1, 0.2]) {
+      const c2 = codeAnalysed(a[0], d1 * 2 ** octave, 2);
+      const scale = codedSquaredError(a[0], c2) / e1;
+      const predicted = recodeSaving(a, [1], d1, scale);
+      const real = 1 - c2.bytes.length / n1;
+      // More error allowed, more bytes saved; the prediction within 1.5 points of the real coder (measured: ≤ 0.7).
+      expect(Math.sign(predicted)).toBe(Math.sign(octave));
+      expect(predicted).toBeGreaterThan(last);
+      last = predicted;
+      expect(Math.abs(predicted - real)).toBeLessThan(0.015);
+    }
+  }, 120_000);
+});
+
+describe('aiming the first encode at a PSNR floor', () => {
+  it("five crops predict the whole scan's decoded-over-transform error ratio", async () => {
+    const img = await scan('moon.png');
+    const src = Float64Array.from(img.planes[0]);
+    for (const step of [3, 8, 20]) {
+      const a = analysePlane(src, W, H);
+      const q = quantiseAnalysed(a, step);
+      const transform = codedSquaredError(a, q);
+      const rec = reconstructCoded(a, q as Parameters<typeof reconstructCoded>[1]);
+      let decoded = 0;
+      for (let i = 0; i < src.length; i++) {
+        const d = src[i] - Math.max(0, Math.min(255, Math.round(rec[i])));
+        decoded += d * d;
+      }
+      const whole = decoded / transform;
+      const spread = spreadRatio(img.planes, W, H, [1], 255, step, 512);
+      // Measured: within 0.3% here (the five crops cover most of this 1.66-MP scan); 0.1–2.5% on 7–9 MP scans.
+      expect(Math.abs(spread / whole - 1)).toBeLessThan(0.01);
+    }
+  }, 120_000);
 });
 
 describe('the decision', () => {
