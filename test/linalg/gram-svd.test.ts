@@ -107,4 +107,28 @@ describe('gramSvdColumns', () => {
       setWasmDisabled(false);
     }
   });
+
+  it.each([
+    [24, 24],
+    [30, 11],
+    [11, 30],
+  ])('%i×%i written into given arrays (left dirty, with a zero column) gives the same values', (m, n) => {
+    const data = graded(m, n, 0.3, m + n);
+    // A rank-deficient copy: its last σ is 0 up to rounding, or 0 exactly, and U's column then is zeroed.
+    const low = data.map((x, i) => (i % n === 0 ? 0 : x));
+    for (const a of [data, low]) {
+      const want = gramSvdColumns({ rows: m, cols: n, data: a });
+      const k = Math.min(m, n);
+      const into = {
+        s: new Float64Array(k + 3).fill(7),
+        u: new Float64Array(k * m + 5).fill(7),
+        v: new Float64Array(k * n).fill(7),
+      };
+      const got = gramSvdColumns({ rows: m, cols: n, data: a }, into);
+      expect(Array.from(got.s)).toEqual(Array.from(want.s));
+      expect(Array.from(got.u)).toEqual(Array.from(want.u));
+      expect(Array.from(got.v)).toEqual(Array.from(want.v));
+      expect(got.u.buffer).toBe(into.u.buffer);
+    }
+  });
 });

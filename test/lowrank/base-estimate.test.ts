@@ -1,7 +1,7 @@
 // The crop's base-layer estimate (engine/lowrank/base-estimate.ts: Gram-matrix tile SVDs, flat arrays) against
 // the candidate search's own estimate on Jacobi tile SVDs (estimateErrorAtBytes below, formerly in engine/lowrank/solve.ts).
 import { describe, expect, it } from 'vitest';
-import { baseErrorAtBytes, tileColumns } from '../../src-main/engine/lowrank/base-estimate';
+import { baseErrorAtBytes, cropBaseError, tileColumns } from '../../src-main/engine/lowrank/base-estimate';
 import { buildCandidate, estimatedError, prefixForBytes } from '../../src-main/engine/lowrank/candidate';
 import { factorPlane } from '../../src-main/engine/lowrank/factorise';
 import { hillClimb, type PlaneInput, stepGrid } from '../../src-main/engine/lowrank/solve';
@@ -90,5 +90,45 @@ describe('baseErrorAtBytes', () => {
     );
     expect(want).toBeGreaterThan(0);
     expect(Math.abs(got - want)).toBeLessThanOrEqual(AGREE * want);
+  });
+
+  it('cropBaseError (one column store and entry buffer for every tiling) equals the lowest per-tiling estimate', () => {
+    // 100×90: partial edge tiles of both sides; three planes share the store one after another.
+    const [w, h] = [100, 90];
+    const planes = [0, 1, 2].map((c) =>
+      Float64Array.from(
+        { length: w * h },
+        (_, i) => 128 + 50 * Math.sin((i % w) / (5 + c)) + ((i * 7919) % 13),
+      ),
+    );
+    const [weights, scales] = [
+      [0.5, 0.3, 0.2],
+      [1, 1.3, 1.6],
+    ];
+    for (const bytes of [200, 900]) {
+      const each = [16, 32].map((tile) =>
+        baseErrorAtBytes(
+          planes.map((p, k) => ({
+            tiles: tileColumns(p, w, h, tile, 255 / 1020),
+            weight: weights[k],
+            stepScale: scales[k],
+          })),
+          bytes,
+          255,
+        ),
+      );
+      const got = cropBaseError({
+        crop: planes,
+        width: w,
+        height: h,
+        weights,
+        scales,
+        bytes,
+        maxValue: 255,
+        tiles: [16, 32],
+      });
+      expect(each[0]).not.toBe(each[1]);
+      expect(got).toBe(Math.min(...each));
+    }
   });
 });

@@ -31,17 +31,21 @@ export interface SvdColumns {
 /** Scratch f64 values symmetric-eigen.ts's kernel takes per order n besides G and the vectors (e, v, p, v2, p2, β). */
 const EIGEN_SCRATCH = 8;
 
-/** The thin SVD of `a` (m×n) through its Gram matrix, min(m, n) triplets; zero columns of U where σ is 0. */
-export function gramSvdColumns(a: Matrix): SvdColumns {
+/**
+ * The thin SVD of `a` (m×n) through its Gram matrix, k = min(m, n) triplets; zero columns of U where σ is 0.
+ * With `into`, the triplets are written to its arrays' first k, k·m and k·n entries (views of them are
+ * returned) instead of fresh arrays: the same values.
+ */
+export function gramSvdColumns(a: Matrix, into?: SvdColumns): SvdColumns {
   const { rows: m, cols: n } = a;
   if (m < n) {
-    const t = gramSvdColumns(transpose(a));
+    const t = gramSvdColumns(transpose(a), into && { s: into.s, u: into.v, v: into.u });
     return { s: t.s, u: t.v, v: t.u };
   }
   // n ≤ m: G = AᵀA (n×n) = W·Λ·Wᵀ, V = W and U = A·W·Σ⁻¹.
-  const s = new Float64Array(n);
-  const u = new Float64Array(n * m);
-  const v = new Float64Array(n * n);
+  const s = into ? into.s.subarray(0, n) : new Float64Array(n);
+  const u = into ? into.u.subarray(0, n * m) : new Float64Array(n * m);
+  const v = into ? into.v.subarray(0, n * n) : new Float64Array(n * n);
   if (n === 0) return { s, u, v };
   const ws = defaultBackend().workspace(bytesFor(0, 2 * m * n + 3 * n * n + (EIGEN_SCRATCH + 1) * n));
   try {
@@ -63,7 +67,10 @@ export function gramSvdColumns(a: Matrix): SvdColumns {
       const j = order[k];
       s[k] = norms[j];
       v.set(vectorsT.subarray(j * n, j * n + n), k * n);
-      if (!(norms[j] > 0)) continue;
+      if (!(norms[j] > 0)) {
+        u.fill(0, k * m, k * m + m);
+        continue;
+      }
       const inv = 1 / norms[j];
       for (let r = 0; r < m; r++) u[k * m + r] = AW[r * n + j] * inv;
     }

@@ -43,21 +43,75 @@ export interface ColumnsPlane {
   stepScale: number;
 }
 
-/** ./factorise factorPlane's tiles of side `tile` with mean removal at `meanStep`, as contiguous columns. */
+/** f64 values {@link tileColumns} stores for a plane's tiles of side `tile`: σ, U and V of every tile. */
+function columnsLength(width: number, height: number, tile: number): number {
+  let n = 0;
+  for (const { h, w } of tileGrid(width, height, tile)) n += Math.min(h, w) * (h + w + 1);
+  return n;
+}
+
+/**
+ * ./factorise factorPlane's tiles of side `tile` with mean removal at `meanStep`, as contiguous columns.
+ * With `store` (at least columnsLength values), every tile's σ, U and V are views of it, one after another.
+ */
 export function tileColumns(
   plane: ArrayLike<number>,
   width: number,
   height: number,
   tile: number,
   meanStep: number,
+  store?: Float64Array,
 ): TileColumns[] {
-  return tileGrid(width, height, tile).map((rect) => {
+  let at = 0;
+  const grid = tileGrid(width, height, tile);
+  const cut = store && new Float64Array(grid.reduce((m, r) => Math.max(m, r.w * r.h), 0));
+  return grid.map((rect) => {
     const { h, w } = rect;
-    const { a, energy } = meanRemovedTile(plane, width, rect, { meanRemoval: true, meanStep }, false);
+    const { a, energy } = meanRemovedTile(plane, width, rect, { meanRemoval: true, meanStep }, false, cut);
     if (energy === 0)
       return { h, w, energy, s: new Float64Array(0), u: new Float64Array(0), v: new Float64Array(0) };
-    return { h, w, energy, ...gramSvdColumns({ rows: h, cols: w, data: a }) };
+    const k = Math.min(h, w);
+    const into = store && {
+      s: store.subarray(at, at + k),
+      u: store.subarray(at + k, at + k + k * h),
+      v: store.subarray(at + k + k * h, at + k * (h + w + 1)),
+    };
+    at += k * (h + w + 1);
+    return { h, w, energy, ...gramSvdColumns({ rows: h, cols: w, data: a }, into) };
   });
+}
+
+/** The side thread's crop job (./side-jobs): the planes' crops, their weights and step scales, the tile sides. */
+export interface CropBaseArgs {
+  crop: ArrayLike<number>[];
+  width: number;
+  height: number;
+  weights: number[];
+  scales: number[];
+  bytes: number;
+  maxValue: number;
+  tiles: number[];
+}
+
+/**
+ * Lowest estimated base error at `bytes` over the tile sides, each tiling factored on the crop. One column
+ * store and one quantised-entry buffer, sized once for the largest tiling, serve every tiling and step
+ * (issue 12: fresh pages cost ≈ 11 µs each on the bench VM; per-tile arrays touched ≈ 6.5 k of them).
+ */
+export function cropBaseError(a: CropBaseArgs): number {
+  const per = a.tiles.map((t) => columnsLength(a.width, a.height, t));
+  const store = new Float64Array(a.crop.length * Math.max(0, ...per));
+  const scratch = { q: new Int32Array(store.length) };
+  let best = Number.POSITIVE_INFINITY;
+  a.tiles.forEach((tile, i) => {
+    const planes: ColumnsPlane[] = a.crop.map((p, k) => ({
+      tiles: tileColumns(p, a.width, a.height, tile, a.maxValue / 1020, store.subarray(k * per[i])),
+      weight: a.weights[k],
+      stepScale: a.scales[k],
+    }));
+    best = Math.min(best, climb(planes, a.bytes, a.maxValue, scratch));
+  });
+  return best;
 }
 
 /**
@@ -65,8 +119,16 @@ export function tileColumns(
  * (./solve estimateErrorAtBytes on the same tiles, the same value).
  */
 export function baseErrorAtBytes(planes: ColumnsPlane[], payload: number, maxValue: number): number {
+  return climb(planes, payload, maxValue, { q: new Int32Array(1 << 16) });
+}
+
+function climb(
+  planes: ColumnsPlane[],
+  payload: number,
+  maxValue: number,
+  scratch: { q: Int32Array },
+): number {
   const grid = stepGrid(maxValue);
-  const scratch = { q: new Int32Array(1 << 16) };
   return hillClimb(grid.length, (k) => errorAtStep(planes, grid[k], payload, scratch))[0].err;
 }
 

@@ -147,7 +147,8 @@ export function factorPlane(
 /**
  * The tile at `rect` of the plane, less its quantised mean when `opts.meanRemoval` (meanQ mean steps, 0
  * otherwise), in f32 or f64, with ‖·‖²_F after the removal. A view of the caller's plane is only returned
- * unchanged (copyF32); it is copied before the mean is subtracted.
+ * unchanged (copyF32); it is copied before the mean is subtracted. With `into` (f64 only, ≥ w·h values), the
+ * f64 tile is a view of it rather than a fresh array.
  */
 export function meanRemovedTile(
   plane: ArrayLike<number>,
@@ -155,9 +156,10 @@ export function meanRemovedTile(
   rect: TileRect,
   opts: Pick<FactorOptions, 'meanRemoval' | 'meanStep'>,
   f32: boolean,
+  into?: Float64Array,
 ): { a: Float32Array | Float64Array; meanQ: number; energy: number } {
   const { x, y, w, h } = rect;
-  const cut = f32 ? copyF32(plane, width, x, y, w, h) : copyF64(plane, width, x, y, w, h);
+  const cut = f32 ? copyF32(plane, width, x, y, w, h) : copyF64(plane, width, x, y, w, h, into);
   const meanQ = opts.meanRemoval ? Math.round(cut.sum / (w * h) / opts.meanStep) : 0;
   const a = meanQ !== 0 && cut.view ? cut.a.slice() : cut.a;
   let energy = cut.energy;
@@ -195,9 +197,17 @@ function copyF32(plane: ArrayLike<number>, width: number, x: number, y: number, 
   return { a, sum, energy, view: a.buffer === (plane as Float32Array).buffer };
 }
 
-/** As copyF32, in f64 (the tile path's Jacobi SVD works in f64). */
-function copyF64(plane: ArrayLike<number>, width: number, x: number, y: number, w: number, h: number) {
-  const a = new Float64Array(w * h);
+/** As copyF32, in f64 (the tile path's Jacobi SVD works in f64), into a view of `into` when given. */
+function copyF64(
+  plane: ArrayLike<number>,
+  width: number,
+  x: number,
+  y: number,
+  w: number,
+  h: number,
+  into?: Float64Array,
+) {
+  const a = into ? into.subarray(0, w * h) : new Float64Array(w * h);
   let sum = 0;
   let energy = 0;
   for (let i = 0; i < h; i++)

@@ -8,7 +8,7 @@ import { decodeCoefficientsV2 } from '../codec/coeff-coder';
 import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../codec/wavelet-plane';
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import { ssim, ssimRowSums } from '../metrics';
-import { baseErrorAtBytes, type ColumnsPlane, tileColumns } from './base-estimate';
+import { type CropBaseArgs, cropBaseError } from './base-estimate';
 
 export interface SideJobs {
   /** SSIM map row sums of window rows from … to − 1, from image rows from … to + 10 of both planes (../metrics). */
@@ -26,16 +26,7 @@ export interface SideJobs {
   };
   /** The low-rank base's estimated weighted squared error at `bytes` on crops (./residual-first). */
   'crop-base-sse': {
-    args: {
-      crop: Float64Array[];
-      width: number;
-      height: number;
-      weights: number[];
-      scales: number[];
-      bytes: number;
-      maxValue: number;
-      tiles: number[];
-    };
+    args: CropBaseArgs;
     result: number;
   };
   /**
@@ -59,23 +50,9 @@ export interface SideJobs {
 }
 export type SideJobName = keyof SideJobs;
 
-/** Lowest estimated base error at `bytes` over the tile sides, each tiling factored on the crop (./base-estimate). */
-function cropBaseSse(a: SideJobs['crop-base-sse']['args']): number {
-  let best = Number.POSITIVE_INFINITY;
-  for (const tile of a.tiles) {
-    const planes: ColumnsPlane[] = a.crop.map((p, k) => ({
-      tiles: tileColumns(p, a.width, a.height, tile, a.maxValue / 1020),
-      weight: a.weights[k],
-      stepScale: a.scales[k],
-    }));
-    best = Math.min(best, baseErrorAtBytes(planes, a.bytes, a.maxValue));
-  }
-  return best;
-}
-
 export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => SideJobs[K]['result'] } = {
   'ssim-rows': (a) => ssimRowSums(a.a, a.b, a.width, a.height, a.range, a.from, a.to),
-  'crop-base-sse': cropBaseSse,
+  'crop-base-sse': cropBaseError,
   'code-plane': ({ step, ...a }) => codeAnalysed(a, step, 2),
   'residual-decode': ({ bytes, width, height, into }) => {
     const n = width * height;
