@@ -2,7 +2,14 @@
 
 export * from './banding';
 export * from './gavish-donoho';
-export { type LevelJob, levelJobs, runLevelJobs } from './level-jobs';
+export {
+  denoiseLevels,
+  joinLevels,
+  type LevelJob,
+  levelJobs,
+  runLevelJobs,
+  withPassThrough,
+} from './level-jobs';
 export { runningMedian } from './medians';
 export { estimateNoiseSigma, MAD_TO_SIGMA } from './noise-estimate';
 export {

@@ -3,8 +3,10 @@
  * levels of pyramid.ts. Each job is one denoiseBand call (band-independent rows), so however the jobs are cut
  * and shared the level estimates, and the recomposed result, are bit-identical. Pure: no Node, no I/O.
  */
+import type { GroupParams } from './group-low-rank';
 import { type BandResult, denoiseBand } from './patch-groups';
-import type { DenoiseLevel } from './pyramid';
+import type { PreparedClean } from './pipeline';
+import { type DenoiseLevel, recomposeLevels } from './pyramid';
 
 /** Rows [rowStart, rowEnd) of level `level` (0 = the full size, l ≥ 1 = coarse level l). */
 export interface LevelJob {
@@ -70,4 +72,26 @@ export function runLevelJobs(
     done += size(j);
   }
   return stats;
+}
+
+/** The levels to denoise: 0 the full size (the active planes), then the coarse levels of correlated noise. */
+export function denoiseLevels(prep: PreparedClean): DenoiseLevel[] {
+  const planes = prep.active.map((c) => prep.work[c]);
+  const sigmas = prep.active.map((c) => prep.sigmas[c]);
+  const full = { planes, width: prep.width, height: prep.height, sigmas, params: prep.params as GroupParams };
+  return [full, ...(prep.coarse ?? [])];
+}
+
+/** All work planes from the level estimates (`out[level][plane]`): recomposed, with the passed-through others. */
+export function joinLevels(prep: PreparedClean, out: Float32Array[][]): Float32Array[] {
+  const levels = prep.coarse ?? [];
+  return withPassThrough(prep, recomposeLevels(out[0], prep.width, prep.height, levels, out.slice(1)));
+}
+
+/** All work planes: the denoised ones (in `prep.active` order) and the passed-through others. */
+export function withPassThrough(prep: PreparedClean, denoised: Float32Array[]): Float32Array[] {
+  return prep.work.map((p, c) => {
+    const k = prep.active.indexOf(c);
+    return k >= 0 ? denoised[k] : p;
+  });
 }

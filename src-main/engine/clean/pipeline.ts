@@ -17,17 +17,12 @@ import { type Stabiliser, stabilisePlane, unstabilisePlane } from './anscombe';
 import { analyseBanding, type BandingAnalysis, subtractProfiles } from './banding';
 import { bandingReport } from './banding-report';
 import { lambdaStar } from './gavish-donoho';
-import { runLevelJobs } from './level-jobs';
+import { denoiseLevels, joinLevels, runLevelJobs, withPassThrough } from './level-jobs';
 import { estimateNoiseSigma } from './noise-estimate';
 import { planNoiseModel } from './noise-model';
 import { noiseColour, patchSpectrum } from './noise-psd-plan';
-import {
-  autoGroupParams,
-  type GroupParams,
-  type GroupStats,
-  groupMedianRuleSigma,
-} from './patch-groups';
-import { coarseLevels, type DenoiseLevel, recomposeLevels } from './pyramid';
+import { autoGroupParams, type GroupParams, groupMedianRuleSigma } from './patch-groups';
+import { coarseLevels, type DenoiseLevel } from './pyramid';
 import { type DenoiseStats, mergeStats, rowBands } from './row-bands';
 import { autoTileSize, denoiseTiles } from './tiles';
 
@@ -284,28 +279,6 @@ export function denoiseInProcess(
   ];
   const stats = runLevelJobs(levels, jobs, out, onProgress);
   return { planes: joinLevels(prep, out), stats: mergeStats(stats) };
-}
-
-/** The levels to denoise: 0 the full size (the active planes), then the coarse levels of correlated noise. */
-export function denoiseLevels(prep: PreparedClean): DenoiseLevel[] {
-  const planes = prep.active.map((c) => prep.work[c]);
-  const sigmas = prep.active.map((c) => prep.sigmas[c]);
-  const full = { planes, width: prep.width, height: prep.height, sigmas, params: prep.params as GroupParams };
-  return [full, ...(prep.coarse ?? [])];
-}
-
-/** All work planes from the level estimates (`out[level][plane]`): recomposed, with the passed-through others. */
-export function joinLevels(prep: PreparedClean, out: Float32Array[][]): Float32Array[] {
-  const levels = prep.coarse ?? [];
-  return withPassThrough(prep, recomposeLevels(out[0], prep.width, prep.height, levels, out.slice(1)));
-}
-
-/** All work planes: the denoised ones (in `prep.active` order) and the passed-through others. */
-export function withPassThrough(prep: PreparedClean, denoised: Float32Array[]): Float32Array[] {
-  return prep.work.map((p, c) => {
-    const k = prep.active.indexOf(c);
-    return k >= 0 ? denoised[k] : p;
-  });
 }
 
 export interface FinishedClean {
