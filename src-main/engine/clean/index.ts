@@ -8,7 +8,6 @@ export {
   type LevelJob,
   levelJobs,
   runLevelJobs,
-  withPassThrough,
 } from './level-jobs';
 export { runningMedian } from './medians';
 export { estimateNoiseSigma, MAD_TO_SIGMA } from './noise-estimate';

@@ -23,7 +23,7 @@ import {
 } from '../../engine/clean';
 
 /** One level as the workers see it: its planes in shared memory. */
-export interface CleanWorkerLevel {
+interface CleanWorkerLevel {
   width: number;
   height: number;
   /** SharedArrayBuffers holding the Float32 input planes (gray, or Y Cb Cr; plane 0 guides). */
