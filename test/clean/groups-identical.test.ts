@@ -88,6 +88,33 @@ describe('patch-group kernels give the TypeScript output bit for bit', () => {
     }
   });
 
+  it('correlated noise: whitened first pass and the Wiener pass with a noise spectrum, even and odd group sizes', async () => {
+    const g = await fixtureGray('camera.png', { x: 160, y: 200, w: 84, h: 70 });
+    const plane = noisy(g.data, 10, 8);
+    // A spectrum shaped like a low-pass kernel's (more noise at low frequencies), one value per 6×6 DCT coefficient.
+    const spectrum = Array.from({ length: 36 }, (_, q) => 2.2 / (1 + Math.floor(q / 6) + (q % 6)));
+    for (const [groupSize, wienerSize] of [
+      [24, 32],
+      [23, 21],
+    ]) {
+      const base = autoGroupParams(10);
+      const params: GroupParams = {
+        ...base,
+        groupSize,
+        noiseSpectrum: spectrum,
+        wiener: base.wiener && { ...base.wiener, groupSize: wienerSize },
+      };
+      const ts = withKernels(false, () => denoise([plane], g.width, g.height, 10, params));
+      const wasm = withKernels(true, () => denoise([plane], g.width, g.height, 10, params));
+      expect(bytes(wasm.planes[0]).equals(bytes(ts.planes[0]))).toBe(true);
+      const white = withKernels(true, () =>
+        denoise([plane], g.width, g.height, 10, { ...params, noiseSpectrum: undefined }),
+      );
+      // The spectrum reaches both passes: the output differs from the white path's.
+      expect(bytes(white.planes[0]).equals(bytes(ts.planes[0]))).toBe(false);
+    }
+  });
+
   it('a 13×11 image: groups smaller than the group size (Wiener n not a power of two) match too', () => {
     const r = lcg(99);
     const plane = Float32Array.from({ length: 13 * 11 }, (_, i) => (i % 13 < 6 ? 40 : 200) + 20 * r());

@@ -2,6 +2,13 @@
 
 export * from './banding';
 export * from './gavish-donoho';
+export {
+  denoiseLevels,
+  joinLevels,
+  type LevelJob,
+  levelJobs,
+  runLevelJobs,
+} from './level-jobs';
 export { runningMedian } from './medians';
 export { estimateNoiseSigma, MAD_TO_SIGMA } from './noise-estimate';
 export {

@@ -17,17 +17,12 @@ import { type Stabiliser, stabilisePlane, unstabilisePlane } from './anscombe';
 import { analyseBanding, type BandingAnalysis, subtractProfiles } from './banding';
 import { bandingReport } from './banding-report';
 import { lambdaStar } from './gavish-donoho';
+import { denoiseLevels, joinLevels, runLevelJobs, withPassThrough } from './level-jobs';
 import { estimateNoiseSigma } from './noise-estimate';
 import { planNoiseModel } from './noise-model';
 import { noiseColour, patchSpectrum } from './noise-psd-plan';
-import {
-  autoGroupParams,
-  denoiseBand,
-  type GroupParams,
-  type GroupStats,
-  groupMedianRuleSigma,
-} from './patch-groups';
-import { coarseEstimate, recomposeActive } from './pyramid';
+import { autoGroupParams, type GroupParams, groupMedianRuleSigma } from './patch-groups';
+import { coarseLevels, type DenoiseLevel } from './pyramid';
 import { type DenoiseStats, mergeStats, rowBands } from './row-bands';
 import { autoTileSize, denoiseTiles } from './tiles';
 
@@ -80,8 +75,8 @@ export interface PreparedClean {
   bandingMs: number;
   /** User overrides of the threshold rule. */
   fixed: { rank?: number; threshold?: number };
-  /** Correlated noise: the denoised half-size planes (`active` order) whose low band replaces the result's (pyramid.ts). */
-  coarse?: Float32Array[];
+  /** Correlated noise: the coarse levels (pyramid.ts; planes in `active` order), denoised beside the full size. */
+  coarse?: DenoiseLevel[];
 }
 
 const clock = (globalThis as { performance?: { now(): number } }).performance;
@@ -236,14 +231,14 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
   if (spectrum) params.noiseSpectrum = spectrum;
   const coarse =
     spectrum && tone.psd && !fixedOverride
-      ? coarseEstimate({
+      ? coarseLevels({
           ...dims,
           planes: active.map((c) => work[c]),
           sigmas: active.map((c) => sigmas[c]),
           psd: tone.psd,
         })
-      : null;
-  return { ...common, params, tile: null, ...(coarse ? { coarse } : {}) };
+      : [];
+  return { ...common, params, tile: null, ...(coarse.length ? { coarse } : {}) };
 }
 
 /** Denoise in this thread (same band code as the workers, so the result is identical). */
@@ -275,26 +270,15 @@ export function denoiseInProcess(
       ),
     };
   }
-  const params = prep.params as GroupParams;
-  const out = planes.map(() => new Float32Array(width * height));
-  const stats: GroupStats[] = [];
+  const levels = denoiseLevels(prep);
+  const out = levels.map((L) => L.planes.map(() => new Float32Array(L.width * L.height)));
   const list = rowBands(height, bands);
-  list.forEach(([r0, r1], b) => {
-    const res = denoiseBand({ planes, width, height, sigmas, params, rowStart: r0, rowEnd: r1 }, (f) =>
-      onProgress?.((b + f) / list.length),
-    );
-    for (let c = 0; c < res.planes.length; c++) out[c].set(res.planes[c], r0 * width);
-    stats.push(res.stats);
-  });
-  return { planes: withPassThrough(prep, out), stats: mergeStats(stats) };
-}
-
-/** All work planes: the denoised ones (in `prep.active` order) and the passed-through others. */
-export function withPassThrough(prep: PreparedClean, denoised: Float32Array[]): Float32Array[] {
-  return prep.work.map((p, c) => {
-    const k = prep.active.indexOf(c);
-    return k >= 0 ? denoised[k] : p;
-  });
+  const jobs = [
+    ...list.map(([rowStart, rowEnd]) => ({ level: 0, rowStart, rowEnd })),
+    ...levels.slice(1).map((L, l) => ({ level: l + 1, rowStart: 0, rowEnd: L.height })),
+  ];
+  const stats = runLevelJobs(levels, jobs, out, onProgress);
+  return { planes: joinLevels(prep, out), stats: mergeStats(stats) };
 }
 
 export interface FinishedClean {
@@ -318,8 +302,6 @@ export function finishClean(
   const { width, height, maxValue } = prep;
   const colourCount = prep.corrected.length;
   let colourPlanes = prep.corrected;
-  if (denoised?.length && prep.coarse)
-    denoised = recomposeActive(denoised, prep.active, prep.coarse, width, height);
   if (denoised?.length)
     colourPlanes = prep.colour
       ? ycbcrBt601ToRgb(denoised[0], denoised[1], denoised[2], (maxValue + 1) / 2)

@@ -21,12 +21,13 @@
  * the autocorrelation of the kernel (r taken as 0 beyond the measured lags, as everywhere in noise-psd.ts). A
  * measurement on a small coarse image would read texture as noise (text.png lost 2.8 dB that way).
  *
- * Pure: no Node, no I/O. Bit-identical for any worker count: the coarse levels run in one thread.
+ * Pure: no Node, no I/O. Every level is denoised by the same band code as the full size (denoiseBand), so the
+ * levels can share the workers (level-jobs.ts) and the result is bit-identical for any worker count.
  */
 import type { NoisePsd } from './noise-psd';
 import { psdFromAutocov } from './noise-psd';
 import { patchSpectrum } from './noise-psd-plan';
-import { autoGroupParams, denoiseBand } from './patch-groups';
+import { autoGroupParams, type BandJob } from './patch-groups';
 
 /** The generating kernel of Burt & Adelson with a = 0.375. */
 const KERNEL = [1 / 16, 4 / 16, 6 / 16, 4 / 16, 1 / 16];
@@ -122,19 +123,35 @@ export interface CoarseJob {
   maxValue: number;
 }
 
-/** Denoise one level with the patch-group passes under the level's own noise model. */
-function denoiseLevel(
-  planes: Float32Array[],
-  width: number,
-  height: number,
-  sigmas: number[],
-  psd: NoisePsd,
-  maxValue: number,
-) {
-  const auto = autoGroupParams((sigmas[0] * 255) / maxValue);
-  const spectrum = patchSpectrum(psd, auto.patch);
-  const params = { ...auto, ...(spectrum ? { noiseSpectrum: spectrum } : {}) };
-  return denoiseBand({ planes, width, height, sigmas, params, rowStart: 0, rowEnd: height }).planes;
+/** One level to denoise: its planes (plane 0 guides), σ per plane and the patch-group parameters. */
+export type DenoiseLevel = Omit<BandJob, 'rowStart' | 'rowEnd'>;
+
+/**
+ * The coarse levels below the full size (level 1 at ⌈w/2⌉ × ⌈h/2⌉, level 2 below it, …), each the REDUCE of
+ * the one above with its own predicted noise model, made while the noise one level up is still correlated;
+ * none when the full-size noise is not correlated or the image is too small for a level. Every level is
+ * denoised on its own (any thread, any row bands: denoiseBand), then recomposeLevels joins them.
+ */
+export function coarseLevels(job: CoarseJob): DenoiseLevel[] {
+  const out: DenoiseLevel[] = [];
+  let { planes, width, height, sigmas, psd } = job;
+  if (!psd.correlated) return out;
+  while (out.length < MAX_LEVELS) {
+    const w2 = (width + 1) >> 1;
+    const h2 = (height + 1) >> 1;
+    if (w2 < MIN_SIDE || h2 < MIN_SIDE) break;
+    const next = reducedPsd(psd);
+    const k = next.sigma / psd.sigma;
+    sigmas = sigmas.map((v) => v * k);
+    planes = planes.map((p) => reduce(p, width, height).plane);
+    const auto = autoGroupParams((sigmas[0] * 255) / job.maxValue);
+    const spectrum = patchSpectrum(next, auto.patch);
+    const params = { ...auto, ...(spectrum ? { noiseSpectrum: spectrum } : {}) };
+    out.push({ planes, width: w2, height: h2, sigmas, params });
+    [width, height, psd] = [w2, h2, next];
+    if (!psd.correlated) break;
+  }
+  return out;
 }
 
 /** D + EXPAND(C − REDUCE(D)) for each plane: the low band of D replaced by the coarse estimate C. */
@@ -156,49 +173,18 @@ function recompose(
 }
 
 /**
- * The coarse estimate one level below the full size (⌈w/2⌉ × ⌈h/2⌉ per plane, in `job.planes` order), itself
- * recomposed from the levels below while their predicted noise is still correlated; null when the full-size
- * noise is not correlated or the image is too small for a level.
+ * The full-size estimate (width × height) with the low band of each level replaced by the level below, from
+ * the coarsest up: `denoised[l]` is the estimate of `levels[l]` (same plane order as `fine`).
  */
-export function coarseEstimate(job: CoarseJob): Float32Array[] | null {
-  if (!job.psd.correlated) return null;
-  return level(job.planes, job.width, job.height, job.sigmas, job.psd, job.maxValue, 1);
-}
-
-function level(
-  planes: Float32Array[],
+export function recomposeLevels(
+  fine: Float32Array[],
   width: number,
   height: number,
-  sigmas: number[],
-  fine: NoisePsd,
-  maxValue: number,
-  depth: number,
-): Float32Array[] | null {
-  const w2 = (width + 1) >> 1;
-  const h2 = (height + 1) >> 1;
-  if (depth > MAX_LEVELS || w2 < MIN_SIDE || h2 < MIN_SIDE) return null;
-  const psd = reducedPsd(fine);
-  const k = psd.sigma / fine.sigma;
-  const s = sigmas.map((v) => v * k);
-  const small = planes.map((p) => reduce(p, width, height).plane);
-  const estimate = denoiseLevel(small, w2, h2, s, psd, maxValue);
-  const below = psd.correlated ? level(small, w2, h2, s, psd, maxValue, depth + 1) : null;
-  return below ? recompose(estimate, below, w2, h2) : estimate;
-}
-
-/** `planes` with those at `active[k]` recomposed with `coarse[k]` (the others passed through). */
-export function recomposeActive(
-  planes: Float32Array[],
-  active: number[],
-  coarse: Float32Array[],
-  width: number,
-  height: number,
+  levels: DenoiseLevel[],
+  denoised: Float32Array[][],
 ): Float32Array[] {
-  const out = recompose(
-    active.map((c) => planes[c]),
-    coarse,
-    width,
-    height,
-  );
-  return planes.map((p, c) => (active.includes(c) ? out[active.indexOf(c)] : p));
+  let below: Float32Array[] | null = null;
+  for (let l = levels.length - 1; l >= 0; l--)
+    below = below ? recompose(denoised[l], below, levels[l].width, levels[l].height) : denoised[l];
+  return below ? recompose(fine, below, width, height) : fine;
 }

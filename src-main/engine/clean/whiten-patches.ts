@@ -10,64 +10,86 @@
  * no noise; dividing by their tiny σ would blow their signal up without purpose. Their relative variance is
  * floored at SPECTRUM_FLOOR (their noise is then over-stated, the safe side for a threshold).
  */
-import { dctMatrix } from './wiener-groups';
+
+import { type GroupKernels, groupKernels, WHITEN_BASE, WHITEN_SCRATCH_BYTES } from './wasm/runtime';
+import { alongPatch, dctMatrix } from './wiener-groups';
 
 /** Smallest relative noise variance used for whitening (chosen here; see the file comment). */
 const SPECTRUM_FLOOR = 0.05;
 
-/** Forward (to the whitened DCT) and inverse maps of groups laid out as m = p² rows × n patches (row-major). */
+/**
+ * Forward (to the whitened DCT) and inverse maps of groups laid out as m = p² rows × n patches (row-major).
+ * Forward: the separable 2-D DCT of each patch (patch rows, then patch columns), then coefficient q = u·p + v
+ * times 1/√max(d_q, floor); inverse: times √max(d_q, floor), then the transposed DCT. Groups of an even
+ * number of patches run the WebAssembly kernel (wasm/assembly/groups.ts `whitenF64`, the same operations in
+ * the same order), the others, or no kernels, the TypeScript below.
+ */
 export class PatchWhitener {
+  private readonly p: number;
   private readonly m: number;
-  /** Forward map W (m×m): W[q, t] = C[u, i]·C[v, j] / √max(d_q, floor), q = u·p + v, t = i·p + j. */
-  private readonly W: Float64Array;
-  /** Inverse map W⁻¹ (m×m). */
-  private readonly Wi: Float64Array;
+  private readonly C: Float64Array;
+  /** 1/√max(d_q, floor) and √max(d_q, floor) per coefficient. */
+  private readonly down: Float64Array;
+  private readonly up: Float64Array;
   private readonly tmp: Float64Array;
+  private readonly kernels: GroupKernels | null;
 
   constructor(spectrum: ArrayLike<number>, nMax: number) {
     const m = spectrum.length;
     const p = Math.round(Math.sqrt(m));
     if (p * p !== m) throw new RangeError(`spectrum of ${m} values is not a square patch`);
+    this.p = p;
     this.m = m;
-    const C = dctMatrix(p);
-    this.W = new Float64Array(m * m);
-    this.Wi = new Float64Array(m * m);
-    for (let u = 0; u < p; u++)
-      for (let v = 0; v < p; v++) {
-        const q = u * p + v;
-        const g = Math.sqrt(Math.max(spectrum[q], SPECTRUM_FLOOR));
-        for (let i = 0; i < p; i++)
-          for (let j = 0; j < p; j++) {
-            const c = C[u * p + i] * C[v * p + j];
-            this.W[q * m + i * p + j] = c / g;
-            this.Wi[(i * p + j) * m + q] = c * g;
-          }
-      }
+    this.C = dctMatrix(p);
+    this.up = Float64Array.from(spectrum, (d) => Math.sqrt(Math.max(d, SPECTRUM_FLOOR)));
+    this.down = this.up.map((g) => 1 / g);
     this.tmp = new Float64Array(m * nMax);
+    const k = groupKernels();
+    this.kernels = k && 8 * (2 * m * nMax + 2 * m) <= WHITEN_SCRATCH_BYTES ? k : null;
   }
 
   /** Y ← W·Y (n columns). */
   forward(Y: Float64Array, n: number): void {
-    this.apply(this.W, Y, n);
+    this.apply(Y, n, false);
   }
 
   /** X ← W⁻¹·X (n columns). */
   inverse(X: Float64Array, n: number): void {
-    this.apply(this.Wi, X, n);
+    this.apply(X, n, true);
   }
 
-  private apply(M: Float64Array, X: Float64Array, n: number): void {
-    const { m, tmp } = this;
-    tmp.fill(0, 0, m * n);
-    for (let q = 0; q < m; q++) {
-      const o = q * n;
-      for (let t = 0; t < m; t++) {
-        const w = M[q * m + t];
-        if (w === 0) continue;
-        const src = t * n;
-        for (let k = 0; k < n; k++) tmp[o + k] += w * X[src + k];
-      }
+  private apply(X: Float64Array, n: number, inverse: boolean): void {
+    const { p, m, tmp, C } = this;
+    const scale = inverse ? this.up : this.down;
+    const size = m * n;
+    const k = this.kernels;
+    if (k && (n & 1) === 0) {
+      // Layout: X block, scratch block, the p×p DCT, the m scale factors (written each call: other whiteners
+      // of this thread share the region).
+      const buf = k.memory.buffer;
+      const x = WHITEN_BASE;
+      const t = x + 8 * size;
+      const c = t + 8 * size;
+      const s = c + 8 * m;
+      const view = new Float64Array(buf, x, size);
+      view.set(X.subarray(0, size));
+      new Float64Array(buf, c, m).set(C);
+      new Float64Array(buf, s, m).set(scale);
+      k.exports.whitenF64(x, p, n, c, s, t, inverse);
+      X.set(view);
+      return;
     }
-    X.set(tmp.subarray(0, m * n));
+    if (inverse) scaleRows(X, scale, n);
+    alongPatch(X, tmp, C, p, n, inverse, true);
+    alongPatch(tmp, X, C, p, n, inverse, false);
+    if (!inverse) scaleRows(X, scale, n);
+  }
+}
+
+/** X[q·n + k] *= scale[q]. */
+function scaleRows(X: Float64Array, scale: Float64Array, n: number): void {
+  for (let q = 0; q < scale.length; q++) {
+    const s = scale[q];
+    for (let k = 0; k < n; k++) X[q * n + k] *= s;
   }
 }

@@ -66,7 +66,7 @@ function haar(X: Float64Array, o: number, n: number, inverse: boolean, h: Float6
  * dst = the 1-D transform C (order p, or its transpose when inverse) along patch rows (byRows) or patch
  * columns of every patch in src (layout (a·p + b)·n + k).
  */
-function alongPatch(
+export function alongPatch(
   src: Float64Array,
   dst: Float64Array,
   C: Float64Array,
@@ -114,8 +114,8 @@ class GroupWiener {
     this.t = new Float64Array(this.block);
     this.h = new Float64Array(nMax);
     const k = groupKernels();
-    // Four blocks (Yn, Yb, out, scratch), a row of nMax and the p×p DCT in the fixed scratch region.
-    const fits = 8 * (4 * this.block + nMax + p * p) <= WIENER_SCRATCH_BYTES;
+    // Four blocks (Yn, Yb, out, scratch), a row of nMax, the p×p DCT and p² spectrum values in the fixed region.
+    const fits = 8 * (4 * this.block + nMax + 2 * p * p) <= WIENER_SCRATCH_BYTES;
     this.kernels = k && fits ? k : null;
     this.Yn = new Float64Array(this.block);
     this.Yb = new Float64Array(this.block);
@@ -167,34 +167,41 @@ class GroupWiener {
   /**
    * Writes the estimate of the group in Yn, Yb (n patches) to `out` and returns Σw² over all coefficients, or
    * Σw²·d with a noise spectrum d (relative variance per 2-D DCT coefficient, correlated noise; Mäkinen, Azzari &
-   * Foi 2020; TypeScript path only).
+   * Foi 2020).
    */
   estimate(n: number, sigma: number, spectrum?: number[]): number {
     const m = this.p * this.p;
     const { Yn, Yb, out } = this;
     const s2 = sigma * sigma;
     const k = this.kernels;
-    if (k && !spectrum && n >= 2 && (n & (n - 1)) === 0) {
+    const spec = spectrum?.length === m ? spectrum : undefined;
+    if (k && n >= 2 && (n & (n - 1)) === 0) {
       const b = WIENER_BASE;
       const e = 8 * this.block;
-      return k.exports.wienerGroupF64(
+      const cp = b + 4 * e + 8 * this.h.length;
+      if (!spec)
+        return k.exports.wienerGroupF64(b, b + e, b + 2 * e, this.p, n, s2, cp, b + 3 * e, b + 4 * e);
+      const at = cp + 8 * m;
+      new Float64Array(k.memory.buffer, at, m).set(spec);
+      return k.exports.wienerGroupSpectrumF64(
         b,
         b + e,
         b + 2 * e,
         this.p,
         n,
         s2,
-        b + 4 * e + 8 * this.h.length,
+        cp,
         b + 3 * e,
         b + 4 * e,
+        at,
       );
     }
     this.transform(Yn, n, false);
     this.transform(Yb, n, false);
     let w2 = 0;
-    if (spectrum?.length === m)
+    if (spec)
       for (let q = 0; q < m * n; q++) {
-        const d = spectrum[Math.floor(q / n)];
+        const d = spec[Math.floor(q / n)];
         const b2 = Yb[q] * Yb[q];
         const w = b2 / (b2 + s2 * d);
         w2 += w * w * d;

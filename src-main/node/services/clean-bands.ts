@@ -1,7 +1,9 @@
 /**
- * The denoising step of `clean` over worker threads: the prepared planes go into shared memory, one worker
- * (src-main/node/workers/clean.ts) per band of rows writes its band of the output, and the bands' statistics
- * are merged. With 0 workers, or for the tile method, the work stays on this thread.
+ * The denoising step of `clean` over worker threads: the prepared planes of every level (the full size and,
+ * for correlated noise, the coarse levels) go into shared memory, each worker (src-main/node/workers/clean.ts)
+ * runs its share of the level jobs (engine/clean/level-jobs.ts) and writes those rows of the outputs, the
+ * levels are recomposed here and the full-size bands' statistics merged. With 0 workers, or for the tile
+ * method, the work stays on this thread.
  */
 import { existsSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
@@ -11,32 +13,39 @@ import { CancelledError, fromErrorPayload, RankfoldError, type toErrorPayload } 
 import {
   type DenoiseStats,
   denoiseInProcess,
+  denoiseLevels,
   type GroupParams,
+  joinLevels,
+  type LevelJob,
+  levelJobs,
   mergeStats,
   type PreparedClean,
-  rowBands,
-  withPassThrough,
 } from '../../engine/clean';
 
-/** What one clean worker is started with. */
-export interface CleanWorkerData {
+/** One level as the workers see it: its planes in shared memory. */
+interface CleanWorkerLevel {
   width: number;
   height: number;
-  /** SharedArrayBuffers holding the Float32 input planes (gray, or Y Cb Cr). */
+  /** SharedArrayBuffers holding the Float32 input planes (gray, or Y Cb Cr; plane 0 guides). */
   input: SharedArrayBuffer[];
-  /** SharedArrayBuffers for the Float32 output planes; this worker writes rows [rowStart, rowEnd). */
+  /** SharedArrayBuffers for the Float32 output planes; each job writes its rows. */
   output: SharedArrayBuffer[];
   sigmas: number[];
   params: GroupParams;
-  rowStart: number;
-  rowEnd: number;
+}
+
+/** What one clean worker is started with: every level, and this worker's jobs (rows of a level). */
+export interface CleanWorkerData {
+  levels: CleanWorkerLevel[];
+  jobs: LevelJob[];
 }
 
 export type CleanWorkerMessage =
   | { type: 'progress'; fraction: number }
   | {
       type: 'done';
-      stats: { groups: number; rankSum: number; rankMin: number; rankMax: number; exact: number };
+      /** Statistics of this worker's full-size rows (none when it had only coarse levels). */
+      stats: Array<{ groups: number; rankSum: number; rankMin: number; rankMax: number; exact: number }>;
     }
   | { type: 'error'; error: ReturnType<typeof toErrorPayload> };
 
@@ -67,17 +76,18 @@ export async function denoiseInBands(
     if (hooks.signal?.aborted) throw new CancelledError('cleaning');
     return denoiseInProcess(prep, 1, report);
   }
-  const { width, height } = prep;
-  const n = width * height;
-  const planes = prep.active.map((c) => prep.work[c]);
-  const input = planes.map((p) => {
-    const b = new SharedArrayBuffer(n * 4);
-    new Float32Array(b).set(p);
-    return b;
+  const levels = denoiseLevels(prep).map((L) => {
+    const n = L.width * L.height;
+    const input = L.planes.map((p) => {
+      const b = new SharedArrayBuffer(n * 4);
+      new Float32Array(b).set(p);
+      return b;
+    });
+    const output = L.planes.map(() => new SharedArrayBuffer(n * 4));
+    return { width: L.width, height: L.height, input, output, sigmas: L.sigmas, params: L.params };
   });
-  const output = planes.map(() => new SharedArrayBuffer(n * 4));
   const file = cleanWorkerFile();
-  const bands = rowBands(height, workers);
+  const bands = levelJobs(levels, workers).filter((jobs) => jobs.length > 0);
   const fractions = bands.map(() => 0);
   const running: Worker[] = [];
   const stop = () => {
@@ -86,19 +96,10 @@ export async function denoiseInBands(
   try {
     const stats = await Promise.all(
       bands.map(
-        ([rowStart, rowEnd], i) =>
-          new Promise<DenoiseStats>((resolveBand, rejectBand) => {
+        (jobs, i) =>
+          new Promise<DenoiseStats[]>((resolveBand, rejectBand) => {
             if (hooks.signal?.aborted) return rejectBand(new CancelledError('cleaning'));
-            const workerData: CleanWorkerData = {
-              width,
-              height,
-              input,
-              output,
-              sigmas: prep.active.map((c) => prep.sigmas[c]),
-              params: prep.params!,
-              rowStart,
-              rowEnd,
-            };
+            const workerData: CleanWorkerData = { levels, jobs };
             const w = new Worker(file, { workerData });
             running.push(w);
             let settled = false;
@@ -138,13 +139,8 @@ export async function denoiseInBands(
           }),
       ),
     );
-    return {
-      planes: withPassThrough(
-        prep,
-        output.map((b) => new Float32Array(b)),
-      ),
-      stats: mergeStats(stats),
-    };
+    const out = levels.map((L) => L.output.map((b) => new Float32Array(b)));
+    return { planes: joinLevels(prep, out), stats: mergeStats(stats.flat()) };
   } catch (err) {
     stop();
     throw err;

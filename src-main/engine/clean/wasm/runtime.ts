@@ -39,6 +39,12 @@ interface GroupKernelExports {
     t: number,
     h: number,
   ): number;
+  /** The same with a noise spectrum (m relative variances at `spec`); returns Σw²·d. */
+  wienerGroupSpectrumF64(
+    ...args: [...Parameters<GroupKernelExports['wienerGroupF64']>, spec: number]
+  ): number;
+  /** whiten-patches.ts `PatchWhitener` forward or inverse, in place on m × n f64 at X (n even). */
+  whitenF64(X: number, p: number, n: number, Cp: number, scale: number, t: number, inverse: boolean): void;
 }
 
 export interface GroupKernels {
@@ -54,14 +60,21 @@ const MAX_BYTES = 2 ** 32 - PAGE;
 const RESERVED = PAGE;
 /**
  * Bytes of the fixed scratch region of the Wiener pass, right after the reserved page: four m×n f64
- * blocks, one row of n and the p×p DCT for patches up to 12×12 and groups up to 96 (the options' limits)
- * need 4·144·96·8 + 96·8 + 144·8 bytes, under 0.5 MiB.
+ * blocks, one row of n, the p×p DCT and m spectrum values for patches up to 12×12 and groups up to 96 (the
+ * options' limits) need 4·144·96·8 + 96·8 + 2·144·8 bytes, under 0.5 MiB.
  */
 export const WIENER_SCRATCH_BYTES = 512 * 1024;
-/** Where the block-matching region (guide rows, offsets, heap) starts. */
-export const MATCH_BASE = RESERVED + WIENER_SCRATCH_BYTES;
 /** Start of the Wiener scratch region. */
 export const WIENER_BASE = RESERVED;
+/**
+ * Bytes of the whitening region (whiten-patches.ts), after the Wiener region: two m×n f64 blocks, the p×p DCT
+ * and m scale factors need 2·144·96·8 + 2·144·8 bytes for the options' limits, under 256 KiB.
+ */
+export const WHITEN_SCRATCH_BYTES = 256 * 1024;
+/** Start of the whitening region. */
+export const WHITEN_BASE = WIENER_BASE + WIENER_SCRATCH_BYTES;
+/** Where the block-matching region (guide rows, offsets, heap) starts. */
+export const MATCH_BASE = WHITEN_BASE + WHITEN_SCRATCH_BYTES;
 
 let loaded: GroupKernels | null | undefined;
 let disabled = false;

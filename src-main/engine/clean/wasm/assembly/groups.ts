@@ -284,3 +284,56 @@ export function wienerGroupF64(
   transform3(out, p, n, true, Cp, t, h);
   return w2;
 }
+
+/**
+ * wiener-groups.ts `GroupWiener.estimate` with a noise spectrum (correlated noise; n a power of two ≥ 2): the
+ * noise variance of coefficient (q, k) is s2·spec[q], and Σw²·spec[q] is returned. Same operations, same order.
+ */
+export function wienerGroupSpectrumF64(
+  yn: usize, yb: usize, out: usize, p: i32, n: i32, s2: f64, Cp: usize, t: usize, h: usize, spec: usize,
+): f64 {
+  transform3(yn, p, n, false, Cp, t, h);
+  transform3(yb, p, n, false, Cp, t, h);
+  const m = p * p;
+  let w2: f64 = 0;
+  for (let i = 0; i < m; i++) {
+    const d = load<f64>(spec + (<usize>i << 3));
+    for (let k = 0; k < n; k++) {
+      const o = <usize>(i * n + k) << 3;
+      const b = load<f64>(yb + o);
+      const b2 = b * b;
+      const w = b2 / (b2 + s2 * d);
+      w2 += w * w * d;
+      store<f64>(out + o, w * load<f64>(yn + o));
+    }
+  }
+  transform3(out, p, n, true, Cp, t, h);
+  return w2;
+}
+
+// ---------------------------------------------------------------- whitening of patch groups
+
+/**
+ * whiten-patches.ts `PatchWhitener` in place on X (m = p² rows × n patches, n even): forward, the 2-D DCT of
+ * every patch (patch rows, then patch columns) and row q times scale[q]; inverse, row q times scale[q] and then
+ * the transposed 2-D DCT. t: scratch of m·n f64. Same operations, same order as the TypeScript.
+ */
+export function whitenF64(X: usize, p: i32, n: i32, Cp: usize, scale: usize, t: usize, inverse: bool): void {
+  const m = p * p;
+  if (inverse) scaleRows(X, m, n, scale);
+  alongPatch(X, t, Cp, p, n, inverse, true);
+  alongPatch(t, X, Cp, p, n, inverse, false);
+  if (!inverse) scaleRows(X, m, n, scale);
+}
+
+/** X[q·n + k] *= scale[q], two patches per f64x2 (n even). */
+function scaleRows(X: usize, m: i32, n: i32, scale: usize): void {
+  for (let q = 0; q < m; q++) {
+    const s = v128.load64_splat(scale + (<usize>q << 3));
+    let x = X + (<usize>(q * n) << 3);
+    for (let k = 0; k < n; k += 2) {
+      v128.store(x, f64x2.mul(v128.load(x), s));
+      x += 16;
+    }
+  }
+}
