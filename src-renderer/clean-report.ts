@@ -35,7 +35,7 @@ export function cleanReportRows(r: Record<string, unknown>): CleanRow[] {
   else if (source === 'off')
     rows.push({ name: 'Noise removal', value: 'off', help: 'Noise was left as it is.' });
   const model = r.noiseModel as
-    | { model?: string; a?: number; b?: number; source?: string }
+    | { model?: string; a?: number; b?: number; source?: string; bNote?: string }
     | null
     | undefined;
   if (model && num(model.a) !== undefined && num(model.b) !== undefined)
@@ -43,6 +43,12 @@ export function cleanReportRows(r: Record<string, unknown>): CleanRow[] {
       name: 'Noise model',
       value: `σ² = ${fixed(model.a as number, 3)}·x + ${fixed(model.b as number, 2)}${model.source === 'given' ? ' (as set)' : ' (fitted)'}; ${model.model === 'poisson-gaussian' ? 'grows with brightness' : 'the same at every brightness'}`,
       help: 'How the noise variance depends on the brightness x (grey levels). When it grows with brightness, the scan is cleaned in a scale where the noise is even (generalized Anscombe transform).',
+    });
+  if (model && typeof model.bNote === 'string')
+    rows.push({
+      name: 'Noise in black (b)',
+      value: model.bNote,
+      help: 'b is the noise variance at brightness 0. When the scan has no flat dark areas it is read off the line far from where it was measured, and is uncertain.',
     });
   const threshold = num(r.threshold);
   if (threshold !== undefined)

@@ -122,6 +122,11 @@ export interface NoiseModelReport {
   a: number;
   b: number;
   planes: NoiseModelPlane[];
+  /**
+   * Present when b (the variance at x = 0) is extrapolated: the flat level sets the fit used start where the
+   * slope part a·x already exceeds b. A sentence giving that level and the standard error of b.
+   */
+  bNote?: string;
 }
 
 /** The measured spatial spectrum of the noise (engine/clean/noise-psd.ts) and whether the denoiser used it. */

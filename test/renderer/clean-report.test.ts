@@ -61,6 +61,13 @@ describe('the noise model in the Clean panel', () => {
       'σ² = 0.450·x + 4.00 (fitted); grows with brightness',
     );
   });
+  it('the note on an extrapolated b gets its own row, and no row without it', () => {
+    expect(cleanReportRows(report).some((r) => r.name === 'Noise in black (b)')).toBe(false);
+    const bNote =
+      'b is extrapolated from levels ≥ 100: no flat part of the scan is darker, so b is known only to ± 7.05';
+    const rows = cleanReportRows({ noiseModel: { ...report.noiseModel, bNote } });
+    expect(rows.find((r) => r.name === 'Noise in black (b)')?.value).toBe(bNote);
+  });
   it('the plot series are sorted by level; the model is √(a·x + b) (by hand: √49 = 7, √13 = 3.6056)', () => {
     const s = noiseFitSeries(report);
     expect(s?.levels).toEqual([20, 100]);

@@ -104,6 +104,7 @@ export function formatCleanReport(r: CleanReport): string {
       lines.push(
         `  noise model: σ²(x) = ${fmt(m.a, 4)}·x + ${fmt(m.b, 3)} (${m.source}); ${m.model === 'poisson-gaussian' ? 'cleaned under the generalized Anscombe transform' : 'one σ for all levels'}: ${m.reason}`,
       );
+    if (m?.bNote) lines.push(`  noise model: ${m.bNote}`);
     const nc = r.noiseColour;
     if (nc)
       lines.push(
