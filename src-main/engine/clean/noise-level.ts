@@ -48,18 +48,18 @@
  * cases a 14 → 14, b 1 → 4 within 15 %; the unseen 30 a 21 → 23, b 8 → 12 (Shepp–Logan phantom b −54, −100,
  * −100 % → 1, −3, 11 %; astronaut −13, −8, 21 % → 2, 4, 8 %).
  *
- * Tried for camera.png's b (+27, +18, +14 % at 0.2·x + 2, 0.45·x + 4, x + 9) and not kept (h12, same harness).
- * The cause, measured: in the fit's own dark level sets (the coat, x 21–34) the clean source alone has a mean
- * HH² of 0.85–1.14 grey² (0.22–0.32 in the sky), 12–15 % of the added variance there: pixel-scale grain of the
- * source, at its strongest away from HH (the clean file's flatness statistic there is 2.5–3.7 times its HH²), yet
- * not separable per block. A stricter flatness test (χ²₈ 75, 50, 25 % quantile instead of 90 %): camera b +27,
- * +28, +33 % at 0.2·x + 2; bench b 4 → 1, 3, 2 of 15 and unseen 12 → 11, 9, 8 of 30. The median per level set
- * instead of the trimmed mean: camera +25, +16, +13 %, but bench a 14 → 13, b 4 → 1 of 15. On the clean coat,
- * separable higher-order details ([1 −2 1]⊗[1 −2 1]/6, [1 −3 3 −1]⊗[1 −3 3 −1]/20) hold 76 % and 69 % of the
- * grain HH holds (90 % trimmed means of the squares over the coat, x 18–36), not enough to bring 0.2·x + 2 within 15 %. A delete-
- * a-quarter jackknife of b over level sets grouped by level covers the truth within 2 SE on 14/15 and 28/30
- * cases (10 and 22 now) but widens the SE of b up to 30 times where b is right (phantom 0.03 → 1.03, astronaut
- * 0.04 → 1.40), and used in the model choice it moves 3 bench cases to the Gaussian path; not adopted.
+ * Tried for camera.png's b (+27, +18, +14 % at 0.2·x + 2, 0.45·x + 4, x + 9) and not kept (h12, same harness). The
+ * cause, measured: in the fit's own dark level sets (the coat, x 21–34) the clean source alone has a mean HH² of
+ * 0.85–1.14 grey² (0.22–0.32 in the sky), 12–15 % of the added variance there: pixel-scale grain of the source, at
+ * its strongest away from HH (the clean file's flatness statistic there is 2.5–3.7 times its HH²), yet not
+ * separable per block. A stricter flatness test (χ²₈ 75, 50, 25 % quantile instead of 90 %): camera b +27, +28,
+ * +33 % at 0.2·x + 2; bench b 4 → 1, 3, 2 of 15 and unseen 12 → 11, 9, 8 of 30. The median per level set instead
+ * of the trimmed mean: camera +25, +16, +13 %, but bench a 14 → 13, b 4 → 1 of 15. On the clean coat, separable
+ * higher-order details ([1 −2 1]⊗[1 −2 1]/6, [1 −3 3 −1]⊗[1 −3 3 −1]/20) hold 76 % and 69 % of the grain HH holds
+ * (90 % trimmed means of the squares over the coat, x 18–36), not enough to bring 0.2·x + 2 within 15 %. A delete-
+ * a-quarter jackknife of b over level sets grouped by level covers the truth within 2 SE on 14/15 and 28/30 cases
+ * (10 and 22 now) but widens the SE of b up to 30 times where b is right (phantom 0.03 → 1.03, astronaut 0.04 →
+ * 1.40), and used in the model choice it moves 3 bench cases to the Gaussian path; not adopted.
  */
 
 import { declipPoints } from './noise-clip';
