@@ -261,7 +261,10 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   const floor = floorSse(db, count, maxValue);
   // The first encode is aimed by five crops at the step the centre crop's ratio gives (see ./floor-aim).
   const step0 = stepForError(analysed, weights, (floor * FLOOR_AIM) / floorRatio);
-  let aim = (floor * SPREAD_AIM) / spreadRatio(planes, width, height, weights, maxValue, step0, CROP_SIDE);
+  // The five crops are split between this thread and the second one (their arenas reused crop to crop).
+  const side = inp.side ?? runHere;
+  let aim =
+    (floor * SPREAD_AIM) / spreadRatio(planes, width, height, weights, maxValue, step0, CROP_SIDE, side);
   let kept: ResidualOnly | undefined;
   let codes = 0;
   while (codes < MAX_CODES) {
