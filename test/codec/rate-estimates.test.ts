@@ -2,6 +2,7 @@
 // floor (src-main/engine/lowrank/floor-aim.ts spreadRatio) are computed faster than their plain definitions but
 // must give the same numbers bit for bit, since the quantiser step, hence the file, follows from them.
 import { beforeAll, describe, expect, it } from 'vitest';
+import { DEAD_ZONE_RHO } from '../../src-main/engine/codec/band-steps';
 import {
   type AnalysedPlane,
   analysePlane,
@@ -28,8 +29,8 @@ function definedSquaredError(a: AnalysedPlane, step: number): number {
   let e = 0;
   a.bands.forEach((b, k) => {
     const v = Float64Array.from(lists[k]).sort();
-    const d = step / Math.sqrt(b.gain);
-    const rho = b.orient === 0 ? 0.5 : 0.38;
+    const d = step / Math.sqrt(b.gain); // Δ_b = step / √gain_b (../band-steps)
+    const rho = b.orient === 0 ? 0.5 : DEAD_ZONE_RHO;
     let band = 0;
     const sums = [0, 0];
     const squares = [0, 0];
