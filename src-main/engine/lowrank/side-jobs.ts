@@ -9,6 +9,7 @@ import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../cod
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import { ssim, ssimRowSums } from '../metrics';
 import { type CropBaseArgs, cropBaseError } from './base-estimate';
+import { type CropFit, type CropFitArgs, cropFit } from './crop-fit';
 import { type SpreadCropArgs, spreadCrop } from './floor-aim';
 
 export interface SideJobs {
@@ -50,6 +51,8 @@ export interface SideJobs {
   };
   /** One crop's decoded and transform-domain errors at the whole scan's step (./floor-aim spreadRatio). */
   'spread-crop': { args: SpreadCropArgs; result: Float64Array };
+  /** The centre crop's residual fitted to its share of a byte budget (./residual-first, ./crop-fit). */
+  'crop-fit': { args: CropFitArgs; result: CropFit };
 }
 export type SideJobName = keyof SideJobs;
 
@@ -58,6 +61,7 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
   'crop-base-sse': cropBaseError,
   'code-plane': ({ step, ...a }) => codeAnalysed(a, step, 2),
   'spread-crop': spreadCrop,
+  'crop-fit': cropFit,
   'residual-decode': ({ bytes, width, height, into }) => {
     const n = width * height;
     const q =
