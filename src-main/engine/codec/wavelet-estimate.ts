@@ -66,6 +66,10 @@ function lowerBound(v: Float64Array, t: number): number {
  * of a real encode to the estimate (common practice; see {@link codeAnalysed} for the real coder).
  */
 export function estimateBits(a: AnalysedPlane, step: number): number {
+  return remembered(bitsMemo, a, step, estimateBitsAt);
+}
+
+function estimateBitsAt(a: AnalysedPlane, step: number): number {
   const { bands } = a;
   const steps = bandSteps(bands, step);
   const sample = sortedSample(a);
@@ -98,35 +102,113 @@ export function estimateBits(a: AnalysedPlane, step: number): number {
  * centroid of its bin class (|q| = 1, |q| ≥ 2) in its band, as coder 2's reconstruction offsets do
  * (unrounded); the band errors weighted by the synthesis gains and scaled by the sampling stride.
  */
+/**
+ * A bin's upper edge (m + 1 − ρ)·Δ scaled by this stays below every |c| whose ⌊|c|/Δ + ρ⌋ is m + 1: the
+ * margin (10⁻¹² relative) is thousands of times the few units in the last place that rounding moves |c|/Δ + ρ.
+ */
+const BIN_EDGE_MARGIN = 1 - 1e-12;
+
 export function estimateSquaredError(a: AnalysedPlane, step: number): number {
+  return remembered(errorMemo, a, step, estimateSquaredErrorAt);
+}
+
+function estimateSquaredErrorAt(a: AnalysedPlane, step: number): number {
   const { bands } = a;
   const steps = bandSteps(bands, step);
   const sample = sortedSample(a);
+  const squares = sampleSquares(a);
   let e = 0;
   for (let b = 0; b < bands.length; b++) {
     const v = sample[b];
     const d = steps[b];
     const rho = bands[b].orient === 0 ? 0.5 : DEAD_ZONE_RHO;
     // Σ over a bin class of (|c| − (m + δ)Δ)² with δ the class mean of |c|/Δ − m: Σr² − (Σr)²/n, r = |c| − mΔ.
-    let zero = 0;
-    const s = [0, 0];
-    const s2 = [0, 0];
-    const n = [0, 0];
-    for (let i = 0; i < v.length; i++) {
-      const m = Math.floor(v[i] / d + rho);
-      if (m === 0) {
-        zero += v[i] * v[i];
-        continue;
-      }
-      const r = v[i] - m * d;
-      const k = m === 1 ? 0 : 1;
-      s[k] += r;
-      s2[k] += r * r;
-      n[k]++;
+    // The bin ⌊|c|/Δ + ρ⌋ never falls as |c| grows (correctly rounded steps), so the zeros are a prefix of the
+    // sorted sample, and their Σ|c|² is the prefix sum (added in the same order as a loop over them would).
+    let z = 0;
+    let hi = v.length;
+    while (z < hi) {
+      const mid = (z + hi) >> 1;
+      if (Math.floor(v[mid] / d + rho) === 0) z = mid + 1;
+      else hi = mid;
     }
-    let band = zero;
-    for (let k = 0; k < 2; k++) if (n[k]) band += s2[k] - (s[k] * s[k]) / n[k];
+    // Past the zeros, a sample below `next` is in the same bin as the one before it (next lies a margin under
+    // the bin's upper edge, far more than the rounding of |c|/Δ + ρ), so the bin is only worked out again
+    // at or past `next`: the same bins, hence the same sums, as working it out for every sample.
+    let m = 0;
+    let next = Number.NEGATIVE_INFINITY;
+    let s1 = 0;
+    let q1 = 0;
+    let n1 = 0;
+    let s2 = 0;
+    let q2 = 0;
+    let n2 = 0;
+    for (let i = z; i < v.length; i++) {
+      const x = v[i];
+      if (!(x < next)) {
+        m = Math.floor(x / d + rho);
+        next = (m + 1 - rho) * d * BIN_EDGE_MARGIN;
+      }
+      const r = x - m * d;
+      if (m === 1) {
+        s1 += r;
+        q1 += r * r;
+        n1++;
+      } else {
+        s2 += r;
+        q2 += r * r;
+        n2++;
+      }
+    }
+    let band = squares[b][z];
+    if (n1) band += q1 - (s1 * s1) / n1;
+    if (n2) band += q2 - (s2 * s2) / n2;
     e += bands[b].gain * band;
   }
   return e * strideOf(a);
+}
+
+/** Per band, the running sums of the sorted sample's squares: entry i is v₀² + … + v_{i−1}², added in order. */
+const squaresCache = new WeakMap<AnalysedPlane, Float64Array[]>();
+function sampleSquares(a: AnalysedPlane): Float64Array[] {
+  const hit = squaresCache.get(a);
+  if (hit) return hit;
+  const out = sortedSample(a).map((v) => {
+    const p = new Float64Array(v.length + 1);
+    let sum = 0;
+    for (let i = 0; i < v.length; i++) {
+      sum += v[i] * v[i];
+      p[i + 1] = sum;
+    }
+    return p;
+  });
+  squaresCache.set(a, out);
+  return out;
+}
+
+/**
+ * Estimates already computed, per plane and step: rate control's bisections ask again for the same steps
+ * (every bisection over the same interval starts at the same midpoints). Bounded per plane.
+ */
+const MEMO_SIZE = 4096;
+const bitsMemo = new WeakMap<AnalysedPlane, Map<number, number>>();
+const errorMemo = new WeakMap<AnalysedPlane, Map<number, number>>();
+function remembered(
+  memo: WeakMap<AnalysedPlane, Map<number, number>>,
+  a: AnalysedPlane,
+  step: number,
+  f: (a: AnalysedPlane, step: number) => number,
+): number {
+  let m = memo.get(a);
+  if (!m) {
+    m = new Map();
+    memo.set(a, m);
+  }
+  let v = m.get(step);
+  if (v === undefined) {
+    if (m.size >= MEMO_SIZE) m.clear();
+    v = f(a, step);
+    m.set(step, v);
+  }
+  return v;
 }

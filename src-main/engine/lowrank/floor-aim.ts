@@ -17,8 +17,10 @@ import {
   estimateSquaredError,
   quantiseAnalysed,
   reconstructCoded,
+  releaseAnalysed,
 } from '../codec/wavelet-plane';
 import { tidy } from './residual-fit';
+import type { SideRunner } from './side-jobs';
 
 /** A w×h crop of each plane with its top-left corner at (x0, y0). */
 export function cropPlanes(
@@ -127,11 +129,52 @@ export function decodedRatio(
   return bounded(decodedSse(crop, analysed, coded, weights, maxValue) / transformSse);
 }
 
+/** One crop of {@link spreadRatio}, as the side job 'spread-crop' (./side-jobs) takes it. */
+export interface SpreadCropArgs {
+  /** The whole planes (width×height), or the crop itself (then x0 = y0 = 0 and width×height = w×h). */
+  planes: Array<Float32Array | Float64Array>;
+  width: number;
+  height: number;
+  x0: number;
+  y0: number;
+  w: number;
+  h: number;
+  weights: number[];
+  maxValue: number;
+  /** The whole scan's step (scaled per plane by {@link stepScales}). */
+  step: number;
+}
+
+/**
+ * One crop's weighted squared errors at the step, as decoded and in the transform domain ([decoded, transform]);
+ * its analysed planes are released afterwards, so the next crop analysed on this thread reuses their memory.
+ */
+export function spreadCrop(a: SpreadCropArgs): Float64Array {
+  const { weights, w, h } = a;
+  const scales = stepScales(weights);
+  const crop = cropPlanes(a.planes, a.width, a.x0, a.y0, w, h);
+  const analysed = crop.map((p) => analysePlane(p, w, h));
+  const coded = analysed.map((an, k) => quantiseAnalysed(an, tidy(a.step * scales[k])));
+  const transform = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
+  const decoded = decodedSse(crop, analysed, coded, weights, a.maxValue);
+  analysed.forEach(releaseAnalysed);
+  return Float64Array.of(decoded, transform);
+}
+
+const isShared = (p: ArrayLike<number>): p is Float32Array | Float64Array =>
+  (p instanceof Float32Array || p instanceof Float64Array) &&
+  typeof SharedArrayBuffer === 'function' &&
+  p.buffer instanceof SharedArrayBuffer;
+
 /**
  * The decoded-over-transform error ratio of five side×side crops (the centre and the centres of the four
  * quadrants, moved inside the scan where it is small), quantised at the whole scan's step `step` (scaled per
  * plane): the sums of their decoded and transform-domain errors. On the 24 cases of ./residual-first
  * RECODE_WORTH it was 0.1–2.5% above the whole scan's ratio (the centre crop's alone: −2.3 to +3.9%).
+ * Each crop is a job offered to `run` in order; this thread takes them back from the last one down, computing
+ * each the other thread has not started, and the sums are added in crop order, so the ratio is the same
+ * whichever thread computed which crop. Planes in shared memory are cropped where the job runs; others are
+ * cropped here (a job's arrays are copied to the other thread).
  */
 export function spreadRatio(
   planes: ArrayLike<number>[],
@@ -141,21 +184,28 @@ export function spreadRatio(
   maxValue: number,
   step: number,
   side: number,
+  run: SideRunner,
 ): number {
   const w = Math.min(width, side);
   const h = Math.min(height, side);
-  const scales = stepScales(weights);
   const at = (c: number, n: number, s: number) => Math.max(0, Math.min(n - s, Math.round(c - s / 2)));
   const centres: Array<[number, number]> = [[0.5, 0.5]];
   for (const fy of [0.25, 0.75]) for (const fx of [0.25, 0.75]) centres.push([fx, fy]);
+  const shared = planes.every(isShared);
+  const jobs = centres.map(([fx, fy]) => {
+    const x0 = at(fx * width, width, w);
+    const y0 = at(fy * height, height, h);
+    const whole = { planes: planes as Array<Float32Array | Float64Array>, width, height, x0, y0 };
+    const own = { planes: cropPlanes(planes, width, x0, y0, w, h), width: w, height: h, x0: 0, y0: 0 };
+    return run('spread-crop', { ...(shared ? whole : own), w, h, weights, maxValue, step });
+  });
+  const errors: Float64Array[] = [];
+  for (let c = jobs.length - 1; c >= 0; c--) errors[c] = jobs[c]();
   let decoded = 0;
   let transform = 0;
-  for (const [fx, fy] of centres) {
-    const crop = cropPlanes(planes, width, at(fx * width, width, w), at(fy * height, height, h), w, h);
-    const analysed = crop.map((p) => analysePlane(p, w, h));
-    const coded = analysed.map((a, k) => quantiseAnalysed(a, tidy(step * scales[k])));
-    transform += coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
-    decoded += decodedSse(crop, analysed, coded, weights, maxValue);
+  for (const e of errors) {
+    transform += e[1];
+    decoded += e[0];
   }
   return bounded(decoded / transform);
 }

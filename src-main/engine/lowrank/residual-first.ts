@@ -30,6 +30,7 @@ import {
   smallestSafeStep,
 } from '../codec/wavelet-plane';
 import { psnrFromSse } from '../metrics';
+import type { CropFit } from './crop-fit';
 import type { LayerSummary } from './encode-options';
 import { cropPlanes, decodedRatio, floorSse, spreadRatio, stepForError, stepScales } from './floor-aim';
 import {
@@ -168,25 +169,26 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
       tiles: [...CROP_TILES],
     });
   let cropBytes: number;
-  let waveletSse: number;
+  let waveletSse = Number.NaN;
   let baseJob: () => number;
   let ratio = 0.8;
   let floorRatio = 1;
+  let fitJob: (() => CropFit) | undefined;
   if (byteBudget !== undefined) {
     cropBytes = (byteBudget * cw * ch) / (width * height);
     // The bytes are known at once: the base estimate starts first (on the side thread, when there is one),
-    // before even the crop's transform.
+    // then the crop's fit (there too, after the base, while this thread transforms the whole planes; without
+    // a second thread it runs here at once, and the whole planes are analysed in the crop's released memory).
     baseJob = startBase(cropBytes);
-    const cropAnalysed = analyseCrop();
-    const { fit, ratio: r } = fitResidual(cropAnalysed, weights, scales, cropBytes, ratio, cancel);
-    // The crop's memory, already touched, is where the whole planes are analysed next.
-    cropAnalysed.forEach(releaseAnalysed);
-    if (!fit) {
-      baseJob();
-      return undefined;
-    }
-    ratio = r;
-    waveletSse = fit.sse;
+    fitJob = (inp.side ?? runHere)('crop-fit', {
+      crop,
+      width: cw,
+      height: ch,
+      weights,
+      scales,
+      bytes: cropBytes,
+      ratio,
+    });
   } else {
     const db = (budget as { db: number }).db;
     const target = floorSse(db, cw * ch * nc, maxValue) * FLOOR_AIM;
@@ -202,6 +204,17 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   cancel();
   // With a second thread the whole planes are transformed meanwhile (wasted only when the base may pay).
   const early = inp.side ? planes.map((p) => analysePlane(p, width, height)) : undefined;
+  if (fitJob) {
+    const f = fitJob();
+    cancel();
+    if (!f.fits) {
+      baseJob();
+      early?.forEach(releaseAnalysed);
+      return undefined;
+    }
+    ratio = f.ratio;
+    waveletSse = f.sse;
+  }
   const baseSse = baseJob();
   const decision = { waveletSse, baseSse, cropBytes };
   if (!(waveletSse < (byteBudget !== undefined ? MARGIN.bytes : MARGIN.floor) * baseSse)) return undefined;
@@ -261,7 +274,10 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   const floor = floorSse(db, count, maxValue);
   // The first encode is aimed by five crops at the step the centre crop's ratio gives (see ./floor-aim).
   const step0 = stepForError(analysed, weights, (floor * FLOOR_AIM) / floorRatio);
-  let aim = (floor * SPREAD_AIM) / spreadRatio(planes, width, height, weights, maxValue, step0, CROP_SIDE);
+  // The five crops are split between this thread and the second one (their arenas reused crop to crop).
+  const side = inp.side ?? runHere;
+  let aim =
+    (floor * SPREAD_AIM) / spreadRatio(planes, width, height, weights, maxValue, step0, CROP_SIDE, side);
   let kept: ResidualOnly | undefined;
   let codes = 0;
   while (codes < MAX_CODES) {

@@ -9,6 +9,8 @@ import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../cod
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import { ssim, ssimRowSums } from '../metrics';
 import { type CropBaseArgs, cropBaseError } from './base-estimate';
+import { type CropFit, type CropFitArgs, cropFit } from './crop-fit';
+import { type SpreadCropArgs, spreadCrop } from './floor-aim';
 
 export interface SideJobs {
   /** SSIM map row sums of window rows from … to − 1, from image rows from … to + 10 of both planes (../metrics). */
@@ -47,6 +49,10 @@ export interface SideJobs {
     args: { bytes: Uint8Array; width: number; height: number; into?: Int32Array };
     result: { q: Int32Array; offsets: Float64Array };
   };
+  /** One crop's decoded and transform-domain errors at the whole scan's step (./floor-aim spreadRatio). */
+  'spread-crop': { args: SpreadCropArgs; result: Float64Array };
+  /** The centre crop's residual fitted to its share of a byte budget (./residual-first, ./crop-fit). */
+  'crop-fit': { args: CropFitArgs; result: CropFit };
 }
 export type SideJobName = keyof SideJobs;
 
@@ -54,6 +60,8 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
   'ssim-rows': (a) => ssimRowSums(a.a, a.b, a.width, a.height, a.range, a.from, a.to),
   'crop-base-sse': cropBaseError,
   'code-plane': ({ step, ...a }) => codeAnalysed(a, step, 2),
+  'spread-crop': spreadCrop,
+  'crop-fit': cropFit,
   'residual-decode': ({ bytes, width, height, into }) => {
     const n = width * height;
     const q =
