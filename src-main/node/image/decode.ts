@@ -30,7 +30,7 @@ import {
 import { sharedFloat32 } from '../../engine/lowrank/decode-image';
 import { keepableMetadata, type MetadataToKeep, readPngMetadata } from './metadata-chunks';
 import { openInput, sniffFormat, sniffFormatOf } from './open-file';
-import { type Prefault, prefault } from './prefault';
+import { type Prefault, planesWhileDecoding } from './prefault';
 import {
   depthBits,
   describeSharpError,
@@ -197,7 +197,7 @@ export interface InterleavedScan {
  * The one decoding pipeline behind `decodeImage` (float planes) and `decodeSamples` (integer planes, for
  * large scans): probe, one sharp pipeline, the band and length checks, the metadata to keep. Every failure
  * is an InputError naming the file. `meanwhile` starts once sharp decodes, given the size the header promises
- * (pixels, of the region if any; channels after decoding); it is stopped and awaited when the decode ends.
+ * (pixels, of the region if any; channels after decoding); it is finished (or, if the decode fails, stopped).
  */
 export async function decodeInterleaved(
   file: string,
@@ -240,10 +240,10 @@ export async function decodeInterleaved(
     });
     ({ data, info } = await decoding);
   } catch (err) {
-    throw describeSharpError(file, err, 'decode', sniffFormatOf(meta.format));
-  } finally {
     await alongside?.stop();
+    throw describeSharpError(file, err, 'decode', sniffFormatOf(meta.format));
   }
+  await alongside?.finish();
   const width = info.width;
   const height = info.height;
   const n = width * height;
@@ -319,19 +319,15 @@ export function scanFields(scan: InterleavedScan, file: string) {
 
 /**
  * Decode a scan into planes, in shared memory: the encoder's second thread reads them without a copy
- * (engine/lowrank/side-jobs). They are allocated from the header's size once sharp's decode has started, and their
- * pages touched on a pool thread meanwhile (./prefault), so the deinterleave writes to memory already present;
- * should the decoded size differ from the header's, fresh planes are taken.
+ * (engine/lowrank/side-jobs). They are allocated and their pages touched while sharp decodes (./prefault), so the
+ * deinterleave writes to memory already present; should the decoded size differ from the header's, fresh ones.
  */
 export async function decodeImage(
   file: string,
   options: DecodeOptions = {},
 ): Promise<DecodedImage & WithWarnings> {
   const held: { planes?: Float32Array[] } = {};
-  const scan = await decodeInterleaved(file, options, ({ pixels, channels }) => {
-    held.planes = Array.from({ length: channels }, () => sharedFloat32(pixels));
-    return prefault(held.planes);
-  });
+  const scan = await decodeInterleaved(file, options, (shape) => planesWhileDecoding(held, shape));
   const { data, channels, bitDepth } = scan;
   const n = scan.width * scan.height;
   const early = held.planes;
