@@ -4,6 +4,7 @@
  */
 import { RankfoldError, UsageError } from '../../contract';
 import type { CliIO, Command } from './args/command';
+import { startEarly } from './args/early-start';
 import { BATCH_V8_FLAGS, followLauncher, needsBatchRelaunch, relaunch } from './relaunch';
 
 /** Each sub-command's one-line summary, in the order the general help lists them. */
@@ -62,6 +63,8 @@ export async function main(argv: string[], io: CliIO): Promise<number> {
     io.stderr(`rankfold: unknown command "${name}". Commands: ${Object.keys(loaders).join(', ')}.\n`);
     return 1;
   }
+  // Before the command's modules load: the side thread then loads on the other core meanwhile.
+  const early = await startEarly(name, rest);
   try {
     const { command } = await load();
     if (rest.includes('--help') || rest.includes('-h')) {
@@ -69,7 +72,7 @@ export async function main(argv: string[], io: CliIO): Promise<number> {
       io.stdout(help.endsWith('\n') ? help : `${help}\n`);
       return 0;
     }
-    return await command.run(rest, io);
+    return await command.run(rest, io, early);
   } catch (err) {
     if (err instanceof UsageError) {
       io.stderr(`rankfold ${name}: ${err.message}\n`);
@@ -84,6 +87,8 @@ export async function main(argv: string[], io: CliIO): Promise<number> {
       `rankfold ${name}: unexpected internal error: ${e?.message ?? String(err)}\n${process.env.RANKFOLD_DEBUG ? `${e?.stack}\n` : ''}`,
     );
     return 1;
+  } finally {
+    await early.side?.close();
   }
 }
 

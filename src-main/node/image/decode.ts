@@ -30,6 +30,7 @@ import {
 import { sharedFloat32 } from '../../engine/lowrank/decode-image';
 import { keepableMetadata, type MetadataToKeep, readPngMetadata } from './metadata-chunks';
 import { openInput, sniffFormat, sniffFormatOf } from './open-file';
+import { type Prefault, planesWhileDecoding } from './prefault';
 import {
   depthBits,
   describeSharpError,
@@ -53,6 +54,8 @@ export interface DecodeOptions {
    * samples as cropping the whole decoded scan, without holding the whole scan. The hash covers the rectangle.
    */
   region?: Region;
+  /** This file's probe with the same `page` and `pixelLimit`, if the caller has made it: not read again. */
+  probe?: ProbeResult;
 }
 
 /** A rectangle of a scan, in upright pixels. */
@@ -193,11 +196,16 @@ export interface InterleavedScan {
 /**
  * The one decoding pipeline behind `decodeImage` (float planes) and `decodeSamples` (integer planes, for
  * large scans): probe, one sharp pipeline, the band and length checks, the metadata to keep. Every failure
- * is an InputError naming the file.
+ * is an InputError naming the file. `meanwhile` starts once sharp decodes, given the size the header promises
+ * (pixels, of the region if any; channels after decoding); it is finished (or, if the decode fails, stopped).
  */
-export async function decodeInterleaved(file: string, options: DecodeOptions = {}): Promise<InterleavedScan> {
+export async function decodeInterleaved(
+  file: string,
+  options: DecodeOptions = {},
+  meanwhile?: (expected: { pixels: number; channels: number }) => Prefault,
+): Promise<InterleavedScan> {
   const { page, pixelLimit } = checkOptions(options);
-  const probe = await probeImage(file, { page, pixelLimit });
+  const probe = options.probe ?? (await probeImage(file, { page, pixelLimit }));
   const region = options.region && checkRegion(options.region, probe);
   const { meta, bitDepth } = probe;
   const hasAlpha = Boolean(meta.hasAlpha);
@@ -214,20 +222,28 @@ export async function decodeInterleaved(file: string, options: DecodeOptions = {
     isColour || grayAlpha8 ? (bitDepth === 16 ? 'rgb16' : 'srgb') : bitDepth === 16 ? 'grey16' : 'b-w';
   let data: Buffer;
   let info: OutputInfo;
+  let alongside: Prefault | undefined;
   try {
     let pipeline = sharp(file, { limitInputPixels: pixelLimit, failOn: 'error', page });
     // Only a kept orientation (1–8) is applied; one the probe left out (with a warning) is not.
     if ((probe.keep.orientation ?? 1) !== 1) pipeline = pipeline.rotate();
     if (region) pipeline = pipeline.extract(region);
-    ({ data, info } = await pipeline
+    const decoding = pipeline
       // Keep the embedded ICC profile attached instead of colour-converting to sRGB: samples stay as stored.
       .keepIccProfile()
       .toColourspace(space)
       .raw({ depth: bitDepth === 16 ? 'ushort' : 'uchar' })
-      .toBuffer({ resolveWithObject: true }));
+      .toBuffer({ resolveWithObject: true });
+    alongside = meanwhile?.({
+      pixels: region ? region.width * region.height : probe.width * probe.height,
+      channels: (isColour ? 3 : 1) + (hasAlpha ? 1 : 0),
+    });
+    ({ data, info } = await decoding);
   } catch (err) {
+    await alongside?.stop();
     throw describeSharpError(file, err, 'decode', sniffFormatOf(meta.format));
   }
+  await alongside?.finish();
   const width = info.width;
   const height = info.height;
   const n = width * height;
@@ -301,17 +317,22 @@ export function scanFields(scan: InterleavedScan, file: string) {
   };
 }
 
-/** Decode a scan into planes. */
+/**
+ * Decode a scan into planes, in shared memory: the encoder's second thread reads them without a copy
+ * (engine/lowrank/side-jobs). They are allocated and their pages touched while sharp decodes (./prefault), so the
+ * deinterleave writes to memory already present; should the decoded size differ from the header's, fresh ones.
+ */
 export async function decodeImage(
   file: string,
   options: DecodeOptions = {},
 ): Promise<DecodedImage & WithWarnings> {
-  const scan = await decodeInterleaved(file, options);
+  const held: { planes?: Float32Array[] } = {};
+  const scan = await decodeInterleaved(file, options, (shape) => planesWhileDecoding(held, shape));
   const { data, channels, bitDepth } = scan;
   const n = scan.width * scan.height;
-  // Shared memory: the encoder's second thread reads the planes without a copy (engine/lowrank/side-jobs).
-  const planes: Float32Array[] = [];
-  for (let c = 0; c < channels; c++) planes.push(sharedFloat32(n));
+  const early = held.planes;
+  const planes = early?.length === channels && early[0].length === n ? early : [];
+  while (planes.length < channels) planes.push(sharedFloat32(n));
   const samples = sampleWords(data, bitDepth);
   deinterleave(samples, planes, n);
   return { ...scanFields(scan, file), planes, sourceSha256: hashInterleaved(samples) };

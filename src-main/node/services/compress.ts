@@ -28,7 +28,7 @@ import { encodeScan } from '../../engine/lowrank/encode';
 import { budgetBytes, type EncodeOptions, type EncodeResult } from '../../engine/lowrank/encode-options';
 import type { PlaneFactors } from '../../engine/lowrank/factorise';
 import { encodeScanTiled, TILED_PIXELS, tiledEncoderFits } from '../../engine/lowrank/tiled';
-import { decodeImage, hashSamples, probeImage } from '../image/decode';
+import { decodeImage, hashSamples, type ProbeResult, probeImage } from '../image/decode';
 import { decodeSamples } from '../image/raw-decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import { prepareFactorPath } from '../parallel/factor-path';
@@ -191,17 +191,19 @@ export async function compressFile(
     throw new OutputError(output, 'is the input file; Rankfold never overwrites its input');
   hooks.onProgress?.({ stage: 'decode', fraction: 0 });
   const t0 = performance.now();
-  const probe = await probeImage(input, { page: options.page, pixelLimit: options.pixelLimit });
-  if (
-    !options.lossless &&
-    probe.width * probe.height > (hooks.tiledAbove ?? TILED_PIXELS) &&
-    tiledEncoderFits(options.budget, options.tile)
-  )
-    return compressTiled(input, output, options, hooks, t0);
-  // The side thread loads while the scan decodes.
+  // The side thread loads while the scan is probed and decoded (its start-up takes about as long as both).
   const side = (hooks.workers ?? 1) >= 2 && !hooks.side ? SideThread.start() : undefined;
   try {
-    return await compressWhole(input, output, options, side ? { ...hooks, side } : hooks, t0);
+    const probe = await probeImage(input, { page: options.page, pixelLimit: options.pixelLimit });
+    if (
+      !options.lossless &&
+      probe.width * probe.height > (hooks.tiledAbove ?? TILED_PIXELS) &&
+      tiledEncoderFits(options.budget, options.tile)
+    ) {
+      await side?.close();
+      return await compressTiled(input, output, options, hooks, t0);
+    }
+    return await compressWhole(input, output, options, side ? { ...hooks, side } : hooks, t0, probe);
   } finally {
     await side?.close();
   }
@@ -213,8 +215,9 @@ async function compressWhole(
   options: CompressOptions,
   hooks: CompressHooks & CompressInternals,
   t0: number,
+  probe: ProbeResult,
 ): Promise<CompressReport & WithWarnings> {
-  const decoded = await decodeImage(input, { page: options.page, pixelLimit: options.pixelLimit });
+  const decoded = await decodeImage(input, { page: options.page, pixelLimit: options.pixelLimit, probe });
   const decodeMs = performance.now() - t0;
   const { bytes, report, result } = await compressDecoded(decoded, options, hooks);
   if (hooks.signal?.aborted) throw new CancelledError(`compressing ${input}`);

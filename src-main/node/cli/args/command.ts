@@ -1,5 +1,6 @@
 import { type ParseArgsConfig, parseArgs } from 'node:util';
 import { UsageError } from '../../../contract';
+import type { EarlyStart } from './early-start';
 
 /** Where a command writes. Tests pass their own; the CLI passes process streams. */
 export interface CliIO {
@@ -17,7 +18,8 @@ export interface Command {
   help: string;
   /** The help for these arguments when it depends on them (`compress --stack --help`); else `help`. */
   helpFor?(argv: string[]): Promise<string>;
-  run(argv: string[], io: CliIO): Promise<number>;
+  /** `early`: what the CLI entry started for this command before loading it (see ./early-start.ts). */
+  run(argv: string[], io: CliIO, early?: EarlyStart): Promise<number>;
 }
 
 export type OptionSpec = NonNullable<ParseArgsConfig['options']>;

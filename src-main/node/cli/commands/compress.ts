@@ -108,7 +108,7 @@ export const command: Command = {
   async helpFor(argv) {
     return argv.includes('--stack') ? (await import('./compress-stack')).stackHelp : help;
   },
-  async run(argv, io) {
+  async run(argv, io, early) {
     if (argv.includes('--stack')) {
       const mod = (await import('./compress-stack')) as {
         runStack(argv: string[], io: CliIO): Promise<number>;
@@ -125,6 +125,10 @@ export const command: Command = {
       missing:
         'compress: give one budget: --rank K, --budget SIZE, --bpp X, --min-psnr DB or --min-ssim S. See `rankfold compress --help`.',
     });
+    const workers =
+      v.workers !== undefined
+        ? parseOptionText(OPTIONS.workers, v.workers as string)
+        : OPTIONS.workers.default;
     const report = await compressFile(
       input,
       output,
@@ -142,10 +146,9 @@ export const command: Command = {
         ...(v.lossless ? { lossless: true } : {}),
       },
       {
-        workers:
-          v.workers !== undefined
-            ? parseOptionText(OPTIONS.workers, v.workers as string)
-            : OPTIONS.workers.default,
+        workers,
+        // The side thread the CLI entry started before loading this command (it closes it afterwards).
+        side: (workers ?? 1) >= 2 ? early?.side : undefined,
         onProgress:
           io.isTTY && !v.json
             ? (p) => io.stderr(`\r${p.stage.padEnd(10)} ${Math.round(p.fraction * 100)}%`)
