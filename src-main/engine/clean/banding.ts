@@ -191,7 +191,7 @@ function findWideBands(
     [true, true],
   ])
     if (!wide.detected) {
-      wide = wideBandProfile(rest, width, height, axis, maxValue, background, chain, shared);
+      wide = wideBandProfile(rest, width, height, axis, maxValue, background, chain, shared, paper);
       if (background && !paper && wide.steps < MIN_WIDE_STEPS && !largeStep(wide.profile, maxValue))
         wide.detected = false;
     }
