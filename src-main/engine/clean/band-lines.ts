@@ -41,8 +41,11 @@ export interface BandAxis {
   nLines: number;
   /** The lines (`background`: the paper or ground alone, ink and content set to NaN). */
   lines(background: boolean, minValid: number): Lines;
-  /** The direct per-position levels of the level check (banding-wide-checks.ts explainsLevels). */
-  levels(): Float64Array;
+  /**
+   * The direct per-position levels of the level check (banding-wide-checks.ts explainsLevels); with
+   * `background`, of the background lines alone (call lines(true, …) first).
+   */
+  levels(background?: boolean): Float64Array;
 }
 
 /**
@@ -61,6 +64,7 @@ export function bandAxis(
   const nLines = Math.min(lineCount, MAX_SAMPLE_LINES);
   const memo = new Map<boolean, Lines>();
   let direct: Float64Array | null = null;
+  let directPaper: Float64Array | null = null;
   let gathered = known?.lines.length === lineLen * nLines ? known.lines : null;
   const raw = () => {
     gathered ??= gatherLines(plane, width, height, axis, nLines);
@@ -81,7 +85,12 @@ export function bandAxis(
       memo.set(background, made);
       return made;
     },
-    levels() {
+    levels(background = false) {
+      const paper = background ? memo.get(true) : undefined;
+      if (paper) {
+        directPaper ??= directLevels(paper.levels, lineLen, nLines);
+        return directPaper;
+      }
       direct ??= directLevels(raw(), lineLen, nLines);
       return direct;
     },

@@ -42,6 +42,8 @@ export interface StripeProfile {
   consistency: number;
   /** Spread across lines where the profile is strongest over where it is weakest (≈ 1 for additive stripes). */
   spreadRatio: number;
+  /** Median over positions of the lines' robust spread around the profile (their noise and texture), grey levels. */
+  lineSpread: number;
   /** Dominant period in pixels, or null when no single frequency dominates. */
   period: number | null;
   /** Fraction of the profile's energy within ±1 bin of the spectral peak. */
@@ -174,6 +176,7 @@ export function estimateStripeProfile(
     se2 += (spread[x] * spread[x]) / Math.max(1, n);
   }
   const noiseFloor = MEDIAN_SE_FACTOR * Math.sqrt(se2 / lineLen);
+  const lineSpread = medianInPlace(Float64Array.from(spread), lineLen);
   // Uniformity: spread where the profile is strongest (top quarter of |profile|) over spread where it is
   // weakest (bottom half). ≈ 1 for an additive stripe; ≫ 1 when the "profile" is content such as text lines.
   const order = Array.from({ length: lineLen }, (_, i) => i).sort(
@@ -216,6 +219,7 @@ export function estimateStripeProfile(
     noiseFloor,
     consistency,
     spreadRatio,
+    lineSpread,
     period: share >= MIN_PERIOD_SHARE ? period : null,
     periodShare: share,
     span,

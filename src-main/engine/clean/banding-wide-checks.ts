@@ -24,7 +24,7 @@ const TRIM = 0.4;
  * variance [∫₋c^c x²φ(x)dx + 2αc²]/(1 − 2α)², c = Φ⁻¹(1 − α) (Huber 1981, §3.3, formula from memory;
  * evaluated with scipy 1.17.1 integrate.quad and stats.norm.ppf).
  */
-export const TRIMMED_SE_FACTOR = 1.1789;
+const TRIMMED_SE_FACTOR = 1.1789;
 /** A slice's step agrees when it has the whole's sign and at least this share of its size (chosen here)… */
 const PART_AGREEMENT = 0.5;
 /**
@@ -151,26 +151,37 @@ export function partAgrees(
 ): boolean {
   if (Math.sign(part.step) !== Math.sign(whole)) return false;
   if (Math.abs(part.step) >= PART_AGREEMENT * Math.abs(whole)) return true;
-  const se = (TRIMMED_SE_FACTOR * part.spread) / Math.sqrt(Math.max(1, part.count));
-  return lenient && Math.abs(part.step - whole) <= PART_SE * se;
+  return lenient && Math.abs(part.step - whole) <= PART_SE * standardError(part);
+}
+
+/** Standard error of a robustStep estimate (TRIMMED_SE_FACTOR·spread/√count). */
+export function standardError(r: { spread: number; count: number }): number {
+  return (TRIMMED_SE_FACTOR * r.spread) / Math.sqrt(Math.max(1, r.count));
 }
 
 /**
  * The direct levels of the level check: c(x) = median over the nLines sampled lines `raw` of (pixel − the line's
- * median), computed once per axis (band-lines.ts) and shared by every candidate profile.
+ * median), computed once per axis (band-lines.ts) and shared by every candidate profile. NaN pixels (the ink
+ * of background-only lines, sampleLines) are left out of both medians.
  */
 export function directLevels(raw: Float64Array, lineLen: number, nLines: number): Float64Array {
   const vals = new Float64Array(lineLen * nLines);
+  const finite = (from: Float64Array, to: Float64Array) => {
+    let n = 0;
+    for (let i = 0; i < from.length; i++) if (!Number.isNaN(from[i])) to[n++] = from[i];
+    return n;
+  };
+  const row = new Float64Array(lineLen);
   for (let k = 0; k < nLines; k++) {
     const line = raw.subarray(k * lineLen, (k + 1) * lineLen);
-    const m = medianInPlace(Float64Array.from(line), lineLen);
+    const m = medianInPlace(row, finite(line, row));
     for (let x = 0; x < lineLen; x++) vals[x * nLines + k] = line[x] - m;
   }
   const c = new Float64Array(lineLen);
   const col = new Float64Array(nLines);
   for (let x = 0; x < lineLen; x++) {
-    col.set(vals.subarray(x * nLines, (x + 1) * nLines));
-    c[x] = medianInPlace(col, nLines);
+    const n = finite(vals.subarray(x * nLines, (x + 1) * nLines), col);
+    c[x] = n ? medianInPlace(col, n) : 0;
   }
   return c;
 }

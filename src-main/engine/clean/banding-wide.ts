@@ -29,7 +29,8 @@
  *    the rest instead of vetoing the whole profile or offsetting everything after it. When the chain
  *    without its cuts passes the level check of step 4, the cuts were content and it is used instead.
  * 6. Ink, lanes and texture hide band edges: when this pass finds nothing on the whole lines, banding.ts
- *    calls it again with the steps measured on the background alone (on text pages, the paper).
+ *    calls it again with the steps measured on the background alone (on text pages, the paper, whose own
+ *    levels may then pass step 4's check: the whole lines' follow the text; page.png rows, seed 6).
  * 7. The level check cannot see every missed edge on a busy image (camera.png's rows, seed 4: an edge of 11
  *    grey levels inside the coat, the other three found, the profile passed and made the scan 2.2 dB
  *    worse). So when the step sum passes, the chain is built too; when it holds more links, has no cut and
@@ -47,7 +48,7 @@ import {
   explainsLevels,
   partAgrees,
   robustStep,
-  TRIMMED_SE_FACTOR,
+  standardError,
   windowDifferences,
 } from './banding-wide-checks';
 import { medianInPlace } from './medians';
@@ -135,6 +136,7 @@ interface Edge {
  * `chain` the chained profile of step 5 is built instead (banding.ts asks for it only after the plain step
  * sum, on the whole lines and on the paper, was rejected). `shared` is the axis's view (band-lines.ts): pass
  * the same one to every candidate tried on one plane, so the lines and statistics are measured only once.
+ * `paperLevels` (a text page, with `background`): the level check also accepts the paper's levels (step 6).
  */
 export function wideBandProfile(
   plane: ArrayLike<number>,
@@ -145,10 +147,13 @@ export function wideBandProfile(
   background = false,
   chain = false,
   shared: BandAxis = bandAxis(plane, width, height, axis, maxValue),
+  paperLevels = false,
 ): WideBands {
   const { lineLen, nLines } = shared;
   const lines = shared.lines(background, background ? MIN_VALID_SHARE_PAPER : MIN_VALID_SHARE);
-  const explains = (s: Float64Array) => explainsLevels(shared.levels(), s);
+  const explains = (s: Float64Array) =>
+    explainsLevels(shared.levels(), s) ||
+    (background && paperLevels && explainsLevels(shared.levels(true), s));
   if (chain) return chained(shared, lines, background, explains);
   const whole = edgeProfile(lines, 0, nLines, false);
   const { profile } = whole;
@@ -263,11 +268,6 @@ function chained(
     if (explains(uncut)) return { ...made, detected, profile: uncut, strength: rms(uncut), whole: true };
   }
   return { ...made, detected, profile, strength, whole: detected && !kept.length && explains(profile) };
-}
-
-/** Standard error of a robustStep estimate (TRIMMED_SE_FACTOR·spread/√count, banding-wide-checks.ts). */
-function standardError(r: { spread: number; count: number }): number {
-  return (TRIMMED_SE_FACTOR * r.spread) / Math.sqrt(Math.max(1, r.count));
 }
 
 /** The net step across the differences a … b on the lines [from, to) (robustStep of the window differences). */
