@@ -97,7 +97,7 @@ export function patchCrossCovariance(
 /**
  * out[q] = the noise variance of the group average of coefficient q relative to r(0): for the table's band,
  * min(cap·d[q], (1/n)·Σₖ Σₖ' c_q(pₖ − pₖ')) with c_q(0) taken as d[q] (the spectrum the Wiener pass uses);
- * elsewhere d[q]. `acc`: scratch of band² values.
+ * elsewhere d[q]. `pairs`: scratch of at least n·(n − 1)/2 table offsets.
  */
 export function groupAverageVariances(
   cov: PatchCrossCovariance,
@@ -106,25 +106,28 @@ export function groupAverageVariances(
   posY: Int32Array,
   posX: Int32Array,
   out: Float64Array,
-  acc = new Float64Array(cov.band * cov.band),
+  pairs = new Int32Array((count * (count - 1)) / 2),
 ): Float64Array {
   const { p, band, cap, reach, table } = cov;
   const w = 2 * reach + 1;
   const mb = band * band;
   for (let q = 0; q < p * p; q++) out[q] = spectrum[q];
-  acc.fill(0, 0, mb);
+  // The table rows of the pairs that share noise (offset within reach), then one sum per coefficient.
+  let np = 0;
   for (let k = 0; k < count; k++)
     for (let j = k + 1; j < count; j++) {
       const dy = posY[k] - posY[j];
       const dx = posX[k] - posX[j];
-      if (dy > reach || dy < -reach || dx > reach || dx < -reach) continue;
-      const o = ((dy + reach) * w + dx + reach) * mb;
-      for (let i = 0; i < mb; i++) acc[i] += table[o + i];
+      if (dy <= reach && dy >= -reach && dx <= reach && dx >= -reach)
+        pairs[np++] = ((dy + reach) * w + dx + reach) * mb;
     }
   for (let u = 0; u < band; u++)
     for (let v = 0; v < band; v++) {
+      const i = u * band + v;
+      let s = 0;
+      for (let t = 0; t < np; t++) s += table[pairs[t] + i];
       const d = spectrum[u * p + v];
-      out[u * p + v] = Math.min(cap * d, d + (2 * acc[u * band + v]) / count);
+      out[u * p + v] = Math.min(cap * d, d + (2 * s) / count);
     }
   return out;
 }

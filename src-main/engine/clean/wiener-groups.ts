@@ -243,11 +243,11 @@ export function wienerGroupsBand(
   const spectrum = params.noiseSpectrum;
   // The group average's own variance (noise-psd-cross.ts), when the table was made for this patch size.
   const average = spectrum && cross?.p === p ? new Float64Array(m) : undefined;
-  const acc = cross && new Float64Array(cross.band * cross.band);
+  const pairs = new Int32Array((K * (K - 1)) / 2);
   const visit = (count: number, posY: Int32Array, posX: Int32Array) => {
     stats.groups++;
     gw.views();
-    if (average && spectrum && cross) groupAverageVariances(cross, spectrum, count, posY, posX, average, acc);
+    if (average && spectrum && cross) groupAverageVariances(cross, spectrum, count, posY, posX, average, pairs);
     const { Yn, Yb } = gw;
     for (let c = 0; c < noisy.length; c++) {
       const src = noisy[c];
