@@ -247,7 +247,8 @@ export function wienerGroupsBand(
   const visit = (count: number, posY: Int32Array, posX: Int32Array) => {
     stats.groups++;
     gw.views();
-    if (average && spectrum && cross) groupAverageVariances(cross, spectrum, count, posY, posX, average, pairs);
+    if (average && spectrum && cross)
+      groupAverageVariances(cross, spectrum, count, posY, posX, average, pairs);
     const { Yn, Yb } = gw;
     for (let c = 0; c < noisy.length; c++) {
       const src = noisy[c];
