@@ -2,6 +2,7 @@
  * Spatially correlated test noise for the correlated-noise tests: white N(0, 1) through a known separable
  * kernel, scaled so the pixel standard deviation is σ, and the kernel's analytic power spectrum.
  */
+import type { NoisePsd } from '../../src-main/engine/clean/noise-psd';
 import { gaussian, rng } from './helpers';
 
 /** [1 2 1]/4: the 3×3 binomial kernel is its outer product (common practice). */
@@ -49,4 +50,15 @@ export function kernelPsd(g: number[], wy: number, wx: number): number {
   const G = (w: number) => g.reduce((a, v, k) => a + v * Math.cos(w * (k - c)), 0);
   const energy = g.reduce((a, v) => a + v * v, 0) ** 2;
   return (G(wy) * G(wx)) ** 2 / energy;
+}
+
+/** The analytic autocovariance of white noise (σ² = 1 after filtering) through g ⊗ g, as a NoisePsd. */
+export function analyticPsd(g: number[], lag: number): NoisePsd {
+  const side = 2 * lag + 1;
+  const energy = g.reduce((a, v) => a + v * v, 0);
+  const r1 = (d: number) => g.reduce((a, v, k) => a + v * (g[k + Math.abs(d)] ?? 0), 0) / energy;
+  const autocov = new Float64Array(side * side);
+  for (let dy = -lag; dy <= lag; dy++)
+    for (let dx = -lag; dx <= lag; dx++) autocov[(dy + lag) * side + dx + lag] = r1(dy) * r1(dx);
+  return { lag, autocov, sigma: 1, blocks: 0, flatness: 0, highShare: 0, lagOne: 0, correlated: true };
 }

@@ -5,7 +5,7 @@ import { describe, expect, it } from 'vitest';
 import { checkCleanOptions } from '../../src-main/contract';
 import { estimateNoisePsd, type NoisePsd } from '../../src-main/engine/clean/noise-psd';
 import { dctNoiseVariances, noisePsdAt } from '../../src-main/engine/clean/noise-psd-spectrum';
-import { BINOMIAL_3, filteredNoise, GAUSSIAN_5, kernelPsd } from './correlated-noise';
+import { analyticPsd, BINOMIAL_3, filteredNoise, GAUSSIAN_5, kernelPsd } from './correlated-noise';
 import { damage, fixtureGray } from './helpers';
 
 const SIDE = 512;
@@ -13,17 +13,6 @@ const SIDE = 512;
 function noisePlane(g: number[], seed: number): Float32Array {
   const n = filteredNoise(SIDE, SIDE, g, 10, seed);
   return Float32Array.from(n, (v) => Math.round(128 + v));
-}
-
-/** The analytic autocovariance of white noise (σ² = 1 after filtering) through g ⊗ g, as a NoisePsd. */
-function analyticPsd(g: number[], lag: number): NoisePsd {
-  const side = 2 * lag + 1;
-  const energy = g.reduce((a, v) => a + v * v, 0);
-  const r1 = (d: number) => g.reduce((a, v, k) => a + v * (g[k + Math.abs(d)] ?? 0), 0) / energy;
-  const autocov = new Float64Array(side * side);
-  for (let dy = -lag; dy <= lag; dy++)
-    for (let dx = -lag; dx <= lag; dx++) autocov[(dy + lag) * side + dx + lag] = r1(dy) * r1(dx);
-  return { lag, autocov, sigma: 1, blocks: 0, flatness: 0, highShare: 0, lagOne: 0, correlated: true };
 }
 
 const kernels: Array<[string, number[], number]> = [

@@ -6,9 +6,13 @@
  */
 import { afterEach, describe, expect, it } from 'vitest';
 import { forEachGroup } from '../../src-main/engine/clean/block-matching';
+import { PSD_LAG } from '../../src-main/engine/clean/noise-psd';
+import { patchCrossCovariance } from '../../src-main/engine/clean/noise-psd-cross';
+import { dctNoiseVariances } from '../../src-main/engine/clean/noise-psd-spectrum';
 import { autoGroupParams, denoiseBand, type GroupParams } from '../../src-main/engine/clean/patch-groups';
 import { groupKernels, setGroupKernelsDisabled } from '../../src-main/engine/clean/wasm/runtime';
 import { lcg } from '../helpers/lcg';
+import { analyticPsd, BINOMIAL_3 } from './correlated-noise';
 import { fixtureGray, gaussian } from './helpers';
 
 afterEach(() => setGroupKernelsDisabled(false));
@@ -91,8 +95,10 @@ describe('patch-group kernels give the TypeScript output bit for bit', () => {
   it('correlated noise: whitened first pass and the Wiener pass with a noise spectrum, even and odd group sizes', async () => {
     const g = await fixtureGray('camera.png', { x: 160, y: 200, w: 84, h: 70 });
     const plane = noisy(g.data, 10, 8);
-    // A spectrum shaped like a low-pass kernel's (more noise at low frequencies), one value per 6×6 DCT coefficient.
-    const spectrum = Array.from({ length: 36 }, (_, q) => 2.2 / (1 + Math.floor(q / 6) + (q % 6)));
+    // The 3×3 binomial kernel's noise: variance per 6×6 DCT coefficient and the patches' cross-covariance.
+    const psd = analyticPsd(BINOMIAL_3, PSD_LAG);
+    const spectrum = Array.from(dctNoiseVariances(psd, 6));
+    const noiseCrossCovariance = patchCrossCovariance(psd, 6);
     for (const [groupSize, wienerSize] of [
       [24, 32],
       [23, 21],
@@ -102,16 +108,26 @@ describe('patch-group kernels give the TypeScript output bit for bit', () => {
         ...base,
         groupSize,
         noiseSpectrum: spectrum,
+        noiseCrossCovariance,
         wiener: base.wiener && { ...base.wiener, groupSize: wienerSize },
       };
       const ts = withKernels(false, () => denoise([plane], g.width, g.height, 10, params));
       const wasm = withKernels(true, () => denoise([plane], g.width, g.height, 10, params));
       expect(bytes(wasm.planes[0]).equals(bytes(ts.planes[0]))).toBe(true);
       const white = withKernels(true, () =>
-        denoise([plane], g.width, g.height, 10, { ...params, noiseSpectrum: undefined }),
+        denoise([plane], g.width, g.height, 10, {
+          ...params,
+          noiseSpectrum: undefined,
+          noiseCrossCovariance: undefined,
+        }),
       );
-      // The spectrum reaches both passes: the output differs from the white path's.
+      // The spectrum reaches both passes: the output differs from the white path's, and the group averages' own
+      // variance reaches the Wiener pass.
       expect(bytes(white.planes[0]).equals(bytes(ts.planes[0]))).toBe(false);
+      const plain = withKernels(true, () =>
+        denoise([plane], g.width, g.height, 10, { ...params, noiseCrossCovariance: undefined }),
+      );
+      expect(bytes(plain.planes[0]).equals(bytes(ts.planes[0]))).toBe(false);
     }
   });
 

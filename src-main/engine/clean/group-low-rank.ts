@@ -21,6 +21,7 @@ import {
   smallTridiagonalEigen,
 } from '../linalg';
 import { lambdaStar } from './gavish-donoho';
+import type { PatchCrossCovariance } from './noise-psd-cross';
 import { PatchWhitener } from './whiten-patches';
 
 export interface GroupParams {
@@ -49,6 +50,11 @@ export interface GroupParams {
    * Wiener pass uses one variance per coefficient. Absent: white noise.
    */
   noiseSpectrum?: number[];
+  /**
+   * Correlated noise: the cross-covariance of patch DCT coefficients by offset (noise-psd-cross.ts), with which
+   * the Wiener pass gives the group average its own noise variance. Absent: the spectrum's variance is used.
+   */
+  noiseCrossCovariance?: PatchCrossCovariance;
 }
 
 /**

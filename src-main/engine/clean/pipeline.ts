@@ -20,6 +20,7 @@ import { lambdaStar } from './gavish-donoho';
 import { denoiseLevels, joinLevels, runLevelJobs, withPassThrough } from './level-jobs';
 import { estimateNoiseSigma } from './noise-estimate';
 import { planNoiseModel } from './noise-model';
+import { patchCrossCovariance, WIENER_AVERAGE } from './noise-psd-cross';
 import { noiseColour, patchSpectrum } from './noise-psd-plan';
 import { autoGroupParams, type GroupParams, groupMedianRuleSigma } from './patch-groups';
 import { coarseLevels, type DenoiseLevel } from './pyramid';
@@ -228,7 +229,10 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     wiener: fixedOverride ? undefined : auto.wiener && { ...auto.wiener, stride: patch },
   };
   const spectrum = patchSpectrum(tone.psd, patch);
-  if (spectrum) params.noiseSpectrum = spectrum;
+  if (spectrum && tone.psd) {
+    params.noiseSpectrum = spectrum;
+    params.noiseCrossCovariance = patchCrossCovariance(tone.psd, patch, WIENER_AVERAGE);
+  }
   const coarse =
     spectrum && tone.psd && !fixedOverride
       ? coarseLevels({

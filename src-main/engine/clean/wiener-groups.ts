@@ -19,6 +19,7 @@
  */
 import { BandAggregate, forEachGroup } from './block-matching';
 import type { GroupParams } from './group-low-rank';
+import { groupAverageVariances } from './noise-psd-cross';
 import type { BandJob, BandResult, GroupStats } from './patch-groups';
 import { type GroupKernels, groupKernels, WIENER_BASE, WIENER_SCRATCH_BYTES } from './wasm/runtime';
 
@@ -114,8 +115,8 @@ class GroupWiener {
     this.t = new Float64Array(this.block);
     this.h = new Float64Array(nMax);
     const k = groupKernels();
-    // Four blocks (Yn, Yb, out, scratch), a row of nMax, the p×p DCT and p² spectrum values in the fixed region.
-    const fits = 8 * (4 * this.block + nMax + 2 * p * p) <= WIENER_SCRATCH_BYTES;
+    // Four blocks (Yn, Yb, out, scratch), a row of nMax, the p×p DCT and 2·p² variances in the fixed region.
+    const fits = 8 * (4 * this.block + nMax + 3 * p * p) <= WIENER_SCRATCH_BYTES;
     this.kernels = k && fits ? k : null;
     this.Yn = new Float64Array(this.block);
     this.Yb = new Float64Array(this.block);
@@ -169,7 +170,7 @@ class GroupWiener {
    * Σw²·d with a noise spectrum d (relative variance per 2-D DCT coefficient, correlated noise; Mäkinen, Azzari &
    * Foi 2020).
    */
-  estimate(n: number, sigma: number, spectrum?: number[]): number {
+  estimate(n: number, sigma: number, spectrum?: number[], average?: Float64Array): number {
     const m = this.p * this.p;
     const { Yn, Yb, out } = this;
     const s2 = sigma * sigma;
@@ -183,6 +184,7 @@ class GroupWiener {
         return k.exports.wienerGroupF64(b, b + e, b + 2 * e, this.p, n, s2, cp, b + 3 * e, b + 4 * e);
       const at = cp + 8 * m;
       new Float64Array(k.memory.buffer, at, m).set(spec);
+      new Float64Array(k.memory.buffer, at + 8 * m, m).set(average ?? spec);
       return k.exports.wienerGroupSpectrumF64(
         b,
         b + e,
@@ -194,6 +196,7 @@ class GroupWiener {
         b + 3 * e,
         b + 4 * e,
         at,
+        at + 8 * m,
       );
     }
     this.transform(Yn, n, false);
@@ -201,10 +204,11 @@ class GroupWiener {
     let w2 = 0;
     if (spec)
       for (let q = 0; q < m * n; q++) {
-        const d = spec[Math.floor(q / n)];
+        const dq = spec[Math.floor(q / n)];
+        const d = q % n === 0 && average ? average[q / n] : dq;
         const b2 = Yb[q] * Yb[q];
         const w = b2 / (b2 + s2 * d);
-        w2 += w * w * d;
+        w2 += w * w * dq;
         out[q] = w * Yn[q];
       }
     else
@@ -235,9 +239,16 @@ export function wienerGroupsBand(
   const agg = new BandAggregate(noisy.length, width, rowStart, rowEnd);
   const stats: GroupStats = { groups: 0, rankSum: 0, rankMin: 0, rankMax: 0, exact: 0 };
   const gw = new GroupWiener(p, K);
+  const cross = params.noiseCrossCovariance;
+  const spectrum = params.noiseSpectrum;
+  // The group average's own variance (noise-psd-cross.ts), when the table was made for this patch size.
+  const average = spectrum && cross?.p === p ? new Float64Array(m) : undefined;
+  const pairs = new Int32Array((K * (K - 1)) / 2);
   const visit = (count: number, posY: Int32Array, posX: Int32Array) => {
     stats.groups++;
     gw.views();
+    if (average && spectrum && cross)
+      groupAverageVariances(cross, spectrum, count, posY, posX, average, pairs);
     const { Yn, Yb } = gw;
     for (let c = 0; c < noisy.length; c++) {
       const src = noisy[c];
@@ -251,7 +262,7 @@ export function wienerGroupsBand(
           }
       }
       // Weight ∝ 1/(σ²·Σw²) (Dabov et al. 2007), scaled by m·n to sit beside the first pass's weights.
-      const w = (m * count) / Math.max(1e-12, gw.estimate(count, sigmas[c], params.noiseSpectrum));
+      const w = (m * count) / Math.max(1e-12, gw.estimate(count, sigmas[c], spectrum, average));
       agg.add(c, gw.out, count, posY, posX, p, w);
     }
   };

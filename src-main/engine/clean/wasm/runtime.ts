@@ -39,9 +39,9 @@ interface GroupKernelExports {
     t: number,
     h: number,
   ): number;
-  /** The same with a noise spectrum (m relative variances at `spec`); returns Σw²·d. */
+  /** The same with a noise spectrum (m relative variances at `spec`, those of the group average at `average`); returns Σw²·d. */
   wienerGroupSpectrumF64(
-    ...args: [...Parameters<GroupKernelExports['wienerGroupF64']>, spec: number]
+    ...args: [...Parameters<GroupKernelExports['wienerGroupF64']>, spec: number, average: number]
   ): number;
   /** whiten-patches.ts `PatchWhitener` forward or inverse, in place on m × n f64 at X (n even). */
   whitenF64(X: number, p: number, n: number, Cp: number, scale: number, t: number, inverse: boolean): void;
@@ -60,8 +60,8 @@ const MAX_BYTES = 2 ** 32 - PAGE;
 const RESERVED = PAGE;
 /**
  * Bytes of the fixed scratch region of the Wiener pass, right after the reserved page: four m×n f64
- * blocks, one row of n, the p×p DCT and m spectrum values for patches up to 12×12 and groups up to 96 (the
- * options' limits) need 4·144·96·8 + 96·8 + 2·144·8 bytes, under 0.5 MiB.
+ * blocks, one row of n, the p×p DCT and 2·m noise variances for patches up to 12×12 and groups up to 96 (the
+ * options' limits) need 4·144·96·8 + 96·8 + 3·144·8 bytes, under 0.5 MiB.
  */
 export const WIENER_SCRATCH_BYTES = 512 * 1024;
 /** Start of the Wiener scratch region. */

@@ -287,23 +287,26 @@ export function wienerGroupF64(
 
 /**
  * wiener-groups.ts `GroupWiener.estimate` with a noise spectrum (correlated noise; n a power of two ≥ 2): the
- * noise variance of coefficient (q, k) is s2·spec[q], and Σw²·spec[q] is returned. Same operations, same order.
+ * noise variance of coefficient (q, k) is s2·spec[q] (s2·average[q] for the group average, k = 0), and Σw²·d is
+ * returned. Same operations, same order.
  */
 export function wienerGroupSpectrumF64(
   yn: usize, yb: usize, out: usize, p: i32, n: i32, s2: f64, Cp: usize, t: usize, h: usize, spec: usize,
+  average: usize,
 ): f64 {
   transform3(yn, p, n, false, Cp, t, h);
   transform3(yb, p, n, false, Cp, t, h);
   const m = p * p;
   let w2: f64 = 0;
   for (let i = 0; i < m; i++) {
-    const d = load<f64>(spec + (<usize>i << 3));
+    const dk = load<f64>(spec + (<usize>i << 3));
     for (let k = 0; k < n; k++) {
+      const d = k == 0 ? load<f64>(average + (<usize>i << 3)) : dk;
       const o = <usize>(i * n + k) << 3;
       const b = load<f64>(yb + o);
       const b2 = b * b;
       const w = b2 / (b2 + s2 * d);
-      w2 += w * w * d;
+      w2 += w * w * dk;
       store<f64>(out + o, w * load<f64>(yn + o));
     }
   }
