@@ -69,7 +69,7 @@ export function finishScan(
   const streamed = !prep.colour && !decodedFile;
   const measure = (b: Uint8Array, d?: DecodedRkf) =>
     streamed
-      ? measureGreyFile(b, img, max)
+      ? measureGreyFile(b, img, max, opts.side)
       : measureDecoded(d ?? decodeImageFile(b, img.file), img, prep, run);
   let figures = measure(bytes, decodedFile);
   if (figures.lossless) {
