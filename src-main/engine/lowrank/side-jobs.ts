@@ -9,6 +9,7 @@ import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../cod
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import { ssim, ssimRowSums } from '../metrics';
 import { type CropBaseArgs, cropBaseError } from './base-estimate';
+import { verifyResidual } from './residual-verify';
 
 export interface SideJobs {
   /** SSIM map row sums of window rows from … to − 1, from image rows from … to + 10 of both planes (../metrics). */
@@ -47,6 +48,15 @@ export interface SideJobs {
     args: { bytes: Uint8Array; width: number; height: number; into?: Int32Array };
     result: { q: Int32Array; offsets: Float64Array };
   };
+  /**
+   * A residual plane's bytes range-decoded (into `into` when given, as 'residual-decode') and compared with
+   * the coefficients and offsets its encode recorded (./residual-verify): '' when they agree, else what
+   * differs (./residual-check words the refusal).
+   */
+  'residual-verify': {
+    args: Parameters<typeof verifyResidual>[0];
+    result: string;
+  };
 }
 export type SideJobName = keyof SideJobs;
 
@@ -65,6 +75,7 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
     const offsets = decodeCoefficientsV2(bytes, q, width, bandsFor(width, height, levelsFor(width, height)));
     return { q, offsets };
   },
+  'residual-verify': verifyResidual,
 };
 
 /**
