@@ -78,7 +78,7 @@ export function finishScan(
   const streamed = !prep.colour && !decodedFile;
   const measure = (b: Uint8Array, d?: DecodedRkf) =>
     streamed
-      ? measureGreyFile(b, img, max, opts.side)
+      ? (takeMeasured(b) ?? measureGreyFile(b, img, max, opts.side))
       : measureDecoded(d ?? decodeImageFile(b, img.file), img, prep, run);
   let figures = measure(bytes, decodedFile);
   if (figures.lossless) {
@@ -200,8 +200,13 @@ export function residualFirstFor(
       },
       side,
       measuredSse: (bytes) => {
-        // A grey file is measured band by band (./decoded-figures): the report measures the kept one again.
-        if (!prep.colour) return measureGreySse(bytes, img);
+        // A grey file is measured band by band (./decoded-figures), all its figures in that one pass (its SSIM
+        // on the second thread): kept with the bytes, so the report does not decode the kept file again.
+        if (!prep.colour) {
+          const figures = measureGreyFile(bytes, img, max, side);
+          measuredFiles.set(bytes, figures);
+          return figures.sse;
+        }
         last = { bytes, decoded: decodeImageFile(bytes, img.file) };
         return decodedSse(last.decoded, img, prep);
       },
@@ -223,6 +228,15 @@ function residualFirstOrSettle(settle: () => void, inp: Parameters<typeof residu
     settle();
     throw err;
   }
+}
+
+/** Figures of grey files measured when they were built (residualFirstFor), by the file, until finishScan. */
+const measuredFiles = new WeakMap<Uint8Array, FileFigures>();
+
+function takeMeasured(file: Uint8Array): FileFigures | undefined {
+  const f = measuredFiles.get(file);
+  measuredFiles.delete(file);
+  return f;
 }
 
 /** Residual checks started when a file was built (residualFirstFor), by the file, until finishScan joins them. */
