@@ -11,6 +11,7 @@ import { initEngine } from '../../src-main/engine/linalg';
 import { decodeImageFile } from '../../src-main/engine/lowrank/decode-image';
 import { measureGreyFile, measureGreySse } from '../../src-main/engine/lowrank/decoded-figures';
 import { encodeScan } from '../../src-main/engine/lowrank/encode';
+import { runHere, type SideRunner } from '../../src-main/engine/lowrank/side-jobs';
 import { psnrPlanes, ssim } from '../../src-main/engine/metrics';
 import { COMPRESSORS } from '../../src-main/node/services/compress';
 import { field } from './noisy-field';
@@ -79,6 +80,14 @@ describe('grey figures measured band by band', () => {
     expect(Object.is(got.ssim, want.ssim)).toBe(true);
     expect(got.lossless).toBe(false);
     expect(Object.is(measureGreySse(r.bytes, img), want.sse)).toBe(true);
+    // With a second thread (../../src-main/engine/lowrank/ssim-bands): its SSIM jobs summed at once, or only
+    // when joined (taken back), give the same figures.
+    const later: SideRunner = (name, args) => () => runHere(name, args)();
+    for (const side of [runHere, later]) {
+      const two = measureGreyFile(r.bytes, img, max, side);
+      expect([two.psnr, two.sse, two.ssim, two.lossless]).toEqual([got.psnr, got.sse, got.ssim, false]);
+      expect(Object.is(two.ssim, want.ssim)).toBe(true);
+    }
     // The report's own figures (encodeScan measured band by band) are the same.
     expect(Object.is(r.psnr, want.psnr)).toBe(true);
     expect(Object.is(r.ssim, want.ssim)).toBe(true);

@@ -27,33 +27,37 @@ function counting(): { run: SideRunner; jobs: () => number } {
   };
 }
 
+beforeAll(async () => {
+  await initEngine();
+  setArenaMinPixels(1);
+});
+afterAll(() => {
+  setArenaMinPixels(ARENA_MIN_PIXELS);
+  forgetCodes();
+});
+
+const code = () => {
+  forgetCodes();
+  const a = analysePlane(rampPlane(w, h, 11), w, h);
+  return recordingCodes(() => codeAnalysed(a, step, 2));
+};
+
+/** The plane rebuilt in its own memory, handed out and given back, as the report's decode does: its digest. */
+function rebuiltDigest(bytes: Uint8Array): string {
+  const x = decodePlane(bytes, w, h, step, 2);
+  const d = digest(x);
+  giveBackWork(x);
+  return d;
+}
+
 describe('the residual check of a resident plane', () => {
-  beforeAll(async () => {
-    await initEngine();
-    setArenaMinPixels(1);
-  });
-  afterAll(() => {
-    setArenaMinPixels(ARENA_MIN_PIXELS);
-    forgetCodes();
-  });
-  const code = () => {
-    forgetCodes();
-    const a = analysePlane(rampPlane(w, h, 11), w, h);
-    return recordingCodes(() => codeAnalysed(a, step, 2));
-  };
   const check = (run: SideRunner, bytes: Uint8Array) => () =>
     startResidualCheck(run, { steps: [step], bytes: [bytes] }, w, h, 'c.tif')();
 
   it('passes on the calling thread, with no side job, and the plane rebuilds with the same bits', () => {
     const c = code();
     expect(residentQView(c)).toBeDefined();
-    // A rebuild handed out in the plane's memory is given back, as the report's decode does.
-    const rebuilt = () => {
-      const x = decodePlane(c.bytes, w, h, step, 2);
-      const d = digest(x);
-      giveBackWork(x);
-      return d;
-    };
+    const rebuilt = () => rebuiltDigest(c.bytes);
     const before = rebuilt();
     const r = counting();
     expect(check(r.run, c.bytes)).not.toThrow();
@@ -92,6 +96,49 @@ describe('the residual check of a resident plane', () => {
     const d = code();
     // The recorded bytes themselves changed (recallCode still finds them: the same array): the decode differs
     // or runs out.
+    d.bytes[d.bytes.length >> 1] ^= 0x5a;
+    expect(check(runHere, d.bytes)).toThrow(
+      /^c\.tif: the residual layer just coded for plane 0 (decodes to other|cannot be range-decoded)/,
+    );
+  });
+});
+
+describe('the residual check of a resident plane on a second thread (offThread)', () => {
+  /** A runner whose jobs run only when joined (after the caller's rebuild), recording their names. */
+  const later =
+    (names: string[]): SideRunner =>
+    (name, args) => {
+      names.push(name);
+      return () => runHere(name, args)();
+    };
+  const check = (run: SideRunner, bytes: Uint8Array) =>
+    startResidualCheck(run, { steps: [step], bytes: [bytes] }, w, h, 'c.tif', 'all', true);
+
+  it('one verify job, joined after a rebuild over the q region, passes; the rebuild has the same bits', () => {
+    const c = code();
+    const rebuilt = () => rebuiltDigest(c.bytes);
+    const before = rebuilt();
+    const names: string[] = [];
+    const join = check(later(names), c.bytes);
+    expect(rebuilt()).toBe(before);
+    expect(join).not.toThrow();
+    expect(names).toEqual(['residual-verify']);
+  });
+
+  it('refuses a changed coefficient (to or from 0) and a changed offset, with the same messages', () => {
+    for (const pick of ['non-zero', 'zero'] as const) {
+      const c = code();
+      const view = residentQView(c) as Int32Array;
+      const i = view.findIndex((v) => (pick === 'zero' ? v === 0 : v !== 0));
+      view[i] = pick === 'zero' ? 1 : 0;
+      expect(check(later([]), c.bytes)).toThrow(
+        'c.tif: the residual layer just coded for plane 0 decodes to other coefficients than it was coded from',
+      );
+    }
+    const c = code();
+    (c.offsets as Float64Array)[1] += 0.125;
+    expect(check(later([]), c.bytes)).toThrow('decodes to other reconstruction offsets');
+    const d = code();
     d.bytes[d.bytes.length >> 1] ^= 0x5a;
     expect(check(runHere, d.bytes)).toThrow(
       /^c\.tif: the residual layer just coded for plane 0 (decodes to other|cannot be range-decoded)/,

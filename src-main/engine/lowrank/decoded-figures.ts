@@ -11,8 +11,10 @@
  * it, and a decoded copy of an 8-megapixel plane is 33 MB of fresh pages per decode.
  */
 import type { DecodedImage } from '../../contract';
-import { psnrFromMse, SseStream, SsimStream } from '../metrics';
+import { psnrFromMse, SsimStream } from '../metrics';
 import { type DecodedRkf, decodeImageFile, decodeImageFileBands } from './decode-image';
+import type { SideRunner } from './side-jobs';
+import { SsimBands } from './ssim-bands';
 
 /** What the report takes from a decoded file. */
 export interface FileFigures {
@@ -28,59 +30,109 @@ export interface FileFigures {
 
 /** SSIM window side of ../metrics's defaults (Wang et al. 2004: 11×11). */
 const SSIM_SIDE = 11;
+/** ../metrics SseStream's block of samples: the PSNR's squared errors are summed per block, then over blocks. */
+const SSE_BLOCK = 4096;
 
 /**
  * The figures of the grey file `bytes` against the grey scan `img` (max: the largest sample value), measured
- * band by band. `decoded` decodes the file again, whole, only if a caller reads its samples.
+ * band by band. With `side` (a runner with a second thread, ./side-jobs), that thread sums the SSIM of each
+ * band while this one decodes the next (./ssim-bands); without, it is summed here (../metrics SsimStream):
+ * the same value bit for bit. `decoded` decodes the file again, whole, only if a caller reads its samples.
  * @throws FormatError when the file cannot be decoded (naming img.file)
  */
-export function measureGreyFile(bytes: Uint8Array, img: DecodedImage, max: number): FileFigures {
+export function measureGreyFile(
+  bytes: Uint8Array,
+  img: DecodedImage,
+  max: number,
+  side?: SideRunner,
+): FileFigures {
   const { width, height } = img;
   const source = img.planes[0];
-  const stream = new SseStream();
-  const ssim = width >= SSIM_SIDE && height >= SSIM_SIDE ? new SsimStream(width, height, max) : undefined;
-  let sse = 0;
-  let same = true;
-  const got = decodeImageFileBands(bytes, img.file, (samples, y0, rows) => {
-    const b = samples[0];
-    const at = y0 * width;
-    const len = rows * width;
-    stream.add(source, b, at, 0, len);
-    ssim?.addRows(source, b, rows, at, 0);
-    // The running sum of squaredError (./scan-finish), continued band after band in the same order.
-    for (let i = 0; i < len; i++) {
-      const d = source[at + i] - b[i];
-      sse += d * d;
-      if (d !== 0) same = false;
-    }
-  });
+  const sums = new SquaredErrors(source);
+  const windowed = width >= SSIM_SIDE && height >= SSIM_SIDE;
+  const banded = windowed && side ? new SsimBands(side, source, width, height, max) : undefined;
+  const ssim = windowed && !side ? new SsimStream(width, height, max) : undefined;
+  let got: ReturnType<typeof decodeImageFileBands>;
+  try {
+    got = decodeImageFileBands(bytes, img.file, (samples, y0, rows) => {
+      const b = samples[0];
+      banded?.add(b, rows);
+      sums.add(b, y0 * width, rows * width);
+      ssim?.addRows(source, b, rows, y0 * width, 0);
+    });
+  } catch (err) {
+    banded?.drop();
+    throw err;
+  }
   const { alpha, ...facts } = got;
   // As sameSamples over every channel: the same channel count, and the alpha plane equal too.
   const channels = 1 + (alpha ? 1 : 0);
-  const lossless = same && channels === img.planes.length && (!alpha || sameValues(alpha, img.planes[1]));
+  const lossless =
+    sums.same && channels === img.planes.length && (!alpha || sameValues(alpha, img.planes[1]));
   return {
-    psnr: psnrFromMse((0 + stream.total()) / source.length, max),
-    sse,
-    ssim: ssim ? ssim.value() : Number.NaN,
+    psnr: psnrFromMse((0 + sums.blocked()) / source.length, max),
+    sse: sums.running,
+    ssim: banded ? banded.value() : ssim ? ssim.value() : Number.NaN,
     lossless,
     decoded: lazilyDecoded(facts, bytes, img.file),
   };
 }
 
+/**
+ * Both sums of squared errors of a band, from one difference per sample: `running`, one running sum in sample
+ * order (the Frobenius error's square, as squaredError in ./scan-finish), and the PSNR's, summed per block of
+ * SSE_BLOCK samples counted from the plane's start and then over blocks, as ../metrics SseStream (and so sse)
+ * adds them; plus whether every decoded sample equals the source's.
+ */
+class SquaredErrors {
+  running = 0;
+  same = true;
+  private sum = 0;
+  private block = 0;
+  private inBlock = 0;
+
+  constructor(private readonly source: Float32Array) {}
+
+  /** Add the decoded samples b[0 … len − 1], which are the source's from `at`. */
+  add(b: Float32Array, at: number, len: number): void {
+    const source = this.source;
+    let running = this.running;
+    let differs = 0;
+    for (let i = 0; i < len; ) {
+      const take = Math.min(len - i, SSE_BLOCK - this.inBlock);
+      let block = this.block;
+      for (let k = i; k < i + take; k++) {
+        const d = source[at + k] - b[k];
+        const dd = d * d;
+        block += dd;
+        running += dd;
+        differs += dd;
+      }
+      i += take;
+      this.inBlock += take;
+      if (this.inBlock === SSE_BLOCK) {
+        this.sum += block;
+        this.block = 0;
+        this.inBlock = 0;
+      } else this.block = block;
+    }
+    this.running = running;
+    if (differs !== 0) this.same = false;
+  }
+
+  /** The PSNR's sum: the full blocks' sums, plus the partial last block's. */
+  blocked(): number {
+    return this.inBlock > 0 ? this.sum + this.block : this.sum;
+  }
+}
+
 /** Σ(source − decoded)² of the grey file `bytes` (the PSNR floor's check), band by band: no decoded plane. */
 export function measureGreySse(bytes: Uint8Array, img: DecodedImage): number {
-  const { width } = img;
-  const source = img.planes[0];
-  let sse = 0;
+  const sums = new SquaredErrors(img.planes[0]);
   decodeImageFileBands(bytes, img.file, (samples, y0, rows) => {
-    const b = samples[0];
-    const at = y0 * width;
-    for (let i = 0; i < rows * width; i++) {
-      const d = source[at + i] - b[i];
-      sse += d * d;
-    }
+    sums.add(samples[0], y0 * img.width, rows * img.width);
   });
-  return sse;
+  return sums.running;
 }
 
 /** A decoded file whose samples are decoded (with decodeImageFile, whole) when first read, then kept. */

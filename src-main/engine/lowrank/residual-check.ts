@@ -8,9 +8,12 @@
  *
  * Where the recorded coefficients are resident in their plane's own memory (../codec/resident-plane), the
  * bytes are range-decoded there, into the q region (the recorded values kept as their non-zeros first), on
- * the calling thread: memory the encode already touched, so no fresh pages. Otherwise (a plane coded on the
- * other thread, a small plane, no WebAssembly) a 'residual-decode' job of ./side-jobs decodes them on the
- * second thread when there is one.
+ * the calling thread: memory the encode already touched, so no fresh pages. With `offThread` (a caller with a
+ * second thread), a 'residual-verify' job decodes them there instead, into that thread's memory, and compares
+ * them with the recorded non-zeros, while this thread rebuilds the plane: the check leaves the critical path
+ * (at the cost of the other thread's fresh pages: its coder's memory and a decode buffer, about 9 bytes per
+ * pixel, kept for the next check). Otherwise (a plane coded on the other thread, a small plane, no WebAssembly)
+ * a 'residual-decode' job of ./side-jobs decodes them on the second thread when there is one.
  */
 
 import { recallCode } from '../codec/coded-planes';
@@ -18,7 +21,8 @@ import { decodeResidentV2 } from '../codec/coeff-coder';
 import { releaseForRedecode, residentQ, residentQView } from '../codec/resident-plane';
 import type { CodedCoefficients } from '../codec/wavelet-plane';
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
-import type { SideRunner } from './side-jobs';
+import { sameAsKept, sameInt32, sameOffsets } from './residual-verify';
+import type { SideJobs, SideRunner } from './side-jobs';
 
 /** Coefficient coder of the residual layer this encoder writes (container 1.3, ../codec/wavelet-plane). */
 const WRITTEN_CODER = 2;
@@ -37,8 +41,8 @@ const deferred = new WeakSet<CodedCoefficients>();
  * Start the check of every residual plane whose encode was recorded (a plane that was not is range-decoded
  * by the report's decode itself). Call before that decode, which rebuilds a resident plane over its q region
  * (it forgets nothing, but the caller clears the records afterwards): resident planes are checked at once,
- * the others' jobs started. The returned function waits for the jobs and throws an Error naming `file` when
- * a plane's bytes do not decode to its recorded coefficients.
+ * the others' jobs started (with `offThread`, the resident ones' too). The returned function waits for the
+ * jobs and throws an Error naming `file` when a plane's bytes do not decode to its recorded coefficients.
  */
 export function startResidualCheck(
   run: SideRunner,
@@ -47,6 +51,7 @@ export function startResidualCheck(
   height: number,
   file: string,
   planes: CheckedPlanes = 'all',
+  offThread = false,
 ): () => void {
   let failed: Error | undefined;
   const jobs = (residual?.bytes ?? []).flatMap((bytes, k) => {
@@ -58,6 +63,8 @@ export function startResidualCheck(
     }
     if (planes === 'resident' && !deferred.delete(coded)) return [];
     if (planes !== 'elsewhere') {
+      const job = offThread ? verifyElsewhere(run, coded, width, height) : undefined;
+      if (job) return [{ k, ...job }];
       const here = checkResident(coded, width, height);
       if (here !== undefined) {
         if (here !== 'same' && !failed) failed = mismatch(file, k, here);
@@ -65,24 +72,40 @@ export function startResidualCheck(
       }
     }
     const into = spareBuffer(width * height);
-    return [{ k, coded, into, join: started(run, coded.bytes, width, height, into) }];
+    const join = started(run, 'residual-decode', { bytes: coded.bytes, width, height, into });
+    return [{ k, into, differs: () => firstDifference(join(), coded) }];
   });
   return () => {
-    for (const { k, coded, join } of jobs) {
-      let got: { q: Int32Array; offsets: Float64Array };
+    for (const { k, differs } of jobs) {
+      let what: string | undefined;
       try {
-        got = join();
+        what = differs();
       } catch (err) {
         throw mismatch(file, k, `cannot be range-decoded (${(err as Error).message})`);
       }
-      const at = firstDifference(got, coded);
-      if (at !== undefined) throw mismatch(file, k, `decodes to other ${at} than it was coded from`);
+      if (what) throw mismatch(file, k, what);
     }
     if (failed) throw failed;
     // Every job answered and was compared: nothing writes or reads these buffers any more, so the next check
     // may decode into them (after a failure they are dropped: a job that gave no answer might still write).
     for (const { into } of jobs) if (into) spare.push(into);
   };
+}
+
+/**
+ * The check of a resident plane on the other thread ('residual-verify', ./residual-verify): its recorded
+ * values taken as their non-zeros (../codec/resident-plane releaseForRedecode; the rebuild loads them back),
+ * its bytes decoded into a buffer of the other thread's, so this thread may rebuild over the q region
+ * meanwhile. Undefined when the plane is not resident.
+ */
+function verifyElsewhere(run: SideRunner, coded: CodedCoefficients, width: number, height: number) {
+  const kept = releaseForRedecode(coded);
+  if (!kept) return undefined;
+  const { arena: _, ...values } = kept;
+  const into = spareBuffer(width * height);
+  const args = { bytes: coded.bytes, width, height, kept: values, offsets: coded.offsets, into };
+  const join = started(run, 'residual-verify', args);
+  return { into, differs: () => join() || undefined };
 }
 
 /**
@@ -104,39 +127,14 @@ function checkResident(coded: CodedCoefficients, width: number, height: number):
   // No port here: the recorded values are kept (loaded back when next needed), and the side job checks.
   if (!got) return undefined;
   const q = new Int32Array(arena.memory.buffer, arena.qAt, arena.n);
-  const differs = !sameAsKept(q, got.counts, kept)
+  let decoded = 0;
+  for (let j = 0; j < got.counts.length; j++) decoded += got.counts[j];
+  const differs = !sameAsKept(q, decoded, kept)
     ? 'coefficients'
     : !sameOffsets(got.offsets, coded.offsets)
       ? 'reconstruction offsets'
       : undefined;
   return differs ? `decodes to other ${differs} than it was coded from` : 'same';
-}
-
-/** Whether the decoded reconstruction offsets are the recorded ones, bit for bit. */
-function sameOffsets(got: Float64Array, o: Float64Array | undefined): boolean {
-  if (!o || o.length !== got.length) return false;
-  for (let i = 0; i < o.length; i++) if (!Object.is(o[i], got[i])) return false;
-  return true;
-}
-
-/**
- * Whether the decoded q equals the recorded values: the recorded array value for value, or the recorded
- * non-zeros all found in q with the same count of non-zeros in q (the decoder's per-band counts of |q| = 1 and
- * |q| ≥ 2): then q has no other non-zero, so every other value is 0 as recorded.
- */
-function sameAsKept(
-  q: Int32Array,
-  counts: Int32Array,
-  kept: { dense?: Int32Array; at?: Int32Array; v?: Int32Array },
-): boolean {
-  if (kept.dense) return kept.dense.length === q.length && sameInt32(kept.dense, q);
-  const at = kept.at as Int32Array;
-  const v = kept.v as Int32Array;
-  let decoded = 0;
-  for (let j = 0; j < counts.length; j++) decoded += counts[j];
-  if (decoded !== at.length) return false;
-  for (let j = 0; j < at.length; j++) if (q[at[j]] !== v[j]) return false;
-  return true;
 }
 
 /**
@@ -157,10 +155,14 @@ function spareBuffer(n: number): Int32Array | undefined {
   return spare.splice(i, 1)[0];
 }
 
-/** The decode job, started; a runner that computes at once (../side-jobs runHere) throws when joined instead. */
-function started(run: SideRunner, bytes: Uint8Array, width: number, height: number, into?: Int32Array) {
+/** A job started; a runner that computes at once (../side-jobs runHere) throws when joined instead. */
+function started<K extends 'residual-decode' | 'residual-verify'>(
+  run: SideRunner,
+  name: K,
+  args: SideJobs[K]['args'],
+): () => SideJobs[K]['result'] {
   try {
-    return run('residual-decode', { bytes, width, height, into });
+    return run(name, args);
   } catch (err) {
     return (): never => {
       throw err;
@@ -174,18 +176,18 @@ function mismatch(file: string, k: number, what: string): Error {
   );
 }
 
-/** Where two coefficient sets differ ('coefficients' or 'reconstruction offsets'), or undefined when equal. */
+/** How two coefficient sets differ ('decodes to other coefficients …'), or undefined when they are equal. */
 function firstDifference(
   a: { q: Int32Array; offsets: Float64Array },
   b: { q: Int32Array; offsets?: Float64Array },
 ): string | undefined {
   // The encoder's q where it lies (its arena), not the copy its `q` getter would make.
   const q = residentQView(b) ?? b.q;
-  if (a.q.length !== q.length || !sameInt32(a.q, q)) return 'coefficients';
-  return sameOffsets(a.offsets, b.offsets) ? undefined : 'reconstruction offsets';
-}
-
-function sameInt32(a: Int32Array, b: Int32Array): boolean {
-  for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
-  return true;
+  const what =
+    a.q.length !== q.length || !sameInt32(a.q, q)
+      ? 'coefficients'
+      : sameOffsets(a.offsets, b.offsets)
+        ? undefined
+        : 'reconstruction offsets';
+  return what && `decodes to other ${what} than it was coded from`;
 }

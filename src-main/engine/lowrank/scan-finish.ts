@@ -36,9 +36,10 @@ export function maxOf(bitDepth: 8 | 16): number {
  *
  * How the figures stay measured on the file as written, without fresh memory: the file's bytes are parsed and
  * decoded by the reader (./decode-image), a grey scan's samples a band at a time into reused buffers
- * (./decoded-figures); a residual plane this process just coded is rebuilt from its recorded coefficients,
- * and ./residual-check proves, by running the range decoder on the file's bytes (in the plane's own memory
- * where it is resident), that those bytes decode to exactly those coefficients.
+ * (./decoded-figures, the SSIM summed on the second thread meanwhile); a residual plane this process just
+ * coded is rebuilt from its recorded coefficients, and ./residual-check proves, by running the range decoder on
+ * the file's bytes (on the second thread, or in the plane's own memory where it is resident), that those
+ * bytes decode to exactly those coefficients.
  */
 export function finishScan(
   img: DecodedImage,
@@ -55,11 +56,19 @@ export function finishScan(
   const max = maxOf(img.bitDepth);
   const run = opts.side ?? runHere;
   let bytes = file ?? build(basePlanes, false, residual);
-  // The range decoder's check of the recorded residual planes: those resident in their plane's memory now,
-  // before the decode rebuilds over it; the others on the second thread meanwhile (started when the file was
-  // built, on the residual-only path).
+  // The range decoder's check of the recorded residual planes, on the second thread while this one rebuilds
+  // and measures (started when the file was built, on the residual-only path); without one, those resident in
+  // their plane's memory here and now, before the decode rebuilds over it.
   const started = takeStartedCheck(bytes);
-  const here = startResidualCheck(run, residual, width, height, img.file, started ? 'resident' : 'all');
+  const here = startResidualCheck(
+    run,
+    residual,
+    width,
+    height,
+    img.file,
+    started ? 'resident' : 'all',
+    opts.side !== undefined,
+  );
   const checked = () => {
     started?.();
     here();
@@ -69,7 +78,7 @@ export function finishScan(
   const streamed = !prep.colour && !decodedFile;
   const measure = (b: Uint8Array, d?: DecodedRkf) =>
     streamed
-      ? measureGreyFile(b, img, max)
+      ? (takeMeasured(b) ?? measureGreyFile(b, img, max, opts.side))
       : measureDecoded(d ?? decodeImageFile(b, img.file), img, prep, run);
   let figures = measure(bytes, decodedFile);
   if (figures.lossless) {
@@ -181,18 +190,23 @@ export function residualFirstFor(
         const file = build(planes, false, residual);
         if (side) {
           settle();
-          // Planes resident in their memory are checked by finishScan, for the kept file only.
+          // Every plane checked on the second thread, beside this one's measuring (./residual-check).
           pending = {
             file,
-            join: startResidualCheck(side, residual, width, height, img.file, 'elsewhere'),
+            join: startResidualCheck(side, residual, width, height, img.file, 'all', true),
           };
         }
         return file;
       },
       side,
       measuredSse: (bytes) => {
-        // A grey file is measured band by band (./decoded-figures): the report measures the kept one again.
-        if (!prep.colour) return measureGreySse(bytes, img);
+        // A grey file is measured band by band (./decoded-figures), all its figures in that one pass (its SSIM
+        // on the second thread): kept with the bytes, so the report does not decode the kept file again.
+        if (!prep.colour) {
+          const figures = measureGreyFile(bytes, img, max, side);
+          measuredFiles.set(bytes, figures);
+          return figures.sse;
+        }
         last = { bytes, decoded: decodeImageFile(bytes, img.file) };
         return decodedSse(last.decoded, img, prep);
       },
@@ -214,6 +228,15 @@ function residualFirstOrSettle(settle: () => void, inp: Parameters<typeof residu
     settle();
     throw err;
   }
+}
+
+/** Figures of grey files measured when they were built (residualFirstFor), by the file, until finishScan. */
+const measuredFiles = new WeakMap<Uint8Array, FileFigures>();
+
+function takeMeasured(file: Uint8Array): FileFigures | undefined {
+  const f = measuredFiles.get(file);
+  measuredFiles.delete(file);
+  return f;
 }
 
 /** Residual checks started when a file was built (residualFirstFor), by the file, until finishScan joins them. */

@@ -11,6 +11,7 @@ import { ssim, ssimRowSums } from '../metrics';
 import { type CropBaseArgs, cropBaseError } from './base-estimate';
 import { type CropFit, type CropFitArgs, cropFit } from './crop-fit';
 import { type SpreadCropArgs, spreadCrop } from './floor-aim';
+import { verifyResidual } from './residual-verify';
 
 export interface SideJobs {
   /** SSIM map row sums of window rows from … to − 1, from image rows from … to + 10 of both planes (../metrics). */
@@ -53,6 +54,15 @@ export interface SideJobs {
   'spread-crop': { args: SpreadCropArgs; result: Float64Array };
   /** The centre crop's residual fitted to its share of a byte budget (./residual-first, ./crop-fit). */
   'crop-fit': { args: CropFitArgs; result: CropFit };
+  /**
+   * A residual plane's bytes range-decoded (into `into` when given, as 'residual-decode') and compared with
+   * the coefficients and offsets its encode recorded (./residual-verify): '' when they agree, else what
+   * differs (./residual-check words the refusal).
+   */
+  'residual-verify': {
+    args: Parameters<typeof verifyResidual>[0];
+    result: string;
+  };
 }
 export type SideJobName = keyof SideJobs;
 
@@ -73,6 +83,7 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
     const offsets = decodeCoefficientsV2(bytes, q, width, bandsFor(width, height, levelsFor(width, height)));
     return { q, offsets };
   },
+  'residual-verify': verifyResidual,
 };
 
 /**

@@ -1,0 +1,135 @@
+/**
+ * The SSIM of a grey scan's decoded file, summed on the second thread while the calling thread decodes the
+ * next band (./decoded-figures). The decoded rows go, as they come, into a small ring of slots (SLOTS slots of
+ * 2·radius + SLOT_ROWS rows; on SharedArrayBuffers, reused from measurement to measurement); each full slot
+ * becomes one 'ssim-rows' job of ./side-jobs: the SSIM map's row sums of the window rows whose 11 image rows
+ * lie in the slot. A slot starts with the last 2·radius rows of the one before, so consecutive jobs cover
+ * consecutive window rows, each exactly once. Before a slot is written again its job is joined: computed here
+ * when the other thread has not started it (a runner without a second thread computes each at once), so a slow
+ * or absent worker never changes the value or waits for it.
+ *
+ * The value: the row sums added in row order from 0, divided by the window count, which is how
+ * ../metrics SsimStream adds them (its running total) and how ../metrics ssim pools them, so it equals
+ * `ssim(source, decoded, width, height, range)` bit for bit whichever thread summed which rows (Wang et al.
+ * 2004, the defaults of ../metrics/ssim: 11×11 Gaussian window, σ = 1.5, K1 = 0.01, K2 = 0.03).
+ */
+import type { SideRunner } from './side-jobs';
+
+/** SSIM window radius of ../metrics's defaults (11×11 window). */
+const RADIUS = 5;
+/** Rows a window spans beyond its first: carried from one slot to the next. */
+const OVERLAP = 2 * RADIUS;
+/**
+ * Window rows per job: 4 bands of the report's decode (16 rows), so 40 jobs on a 2500-row scan, each
+ * filtering OVERLAP rows again (16% more filtering than one stream, on the other thread).
+ */
+const SLOT_ROWS = 64;
+/** Slots in the ring: the other thread may lag this many jobs behind before the decode waits for it. */
+const SLOTS = 4;
+
+/** Slots of earlier measurements, kept for the next one of the same width (no fresh pages each time). */
+let spare: { width: number; slots: Float32Array[] } | undefined;
+
+function takeSlots(width: number): Float32Array[] {
+  const kept = spare?.width === width ? spare.slots : undefined;
+  spare = undefined;
+  if (kept) return kept;
+  const n = (OVERLAP + SLOT_ROWS) * width;
+  const shared = typeof SharedArrayBuffer === 'function';
+  return Array.from({ length: SLOTS }, () =>
+    shared ? new Float32Array(new SharedArrayBuffer(4 * n)) : new Float32Array(n),
+  );
+}
+
+/**
+ * The SSIM of `source` (the whole grey plane, width×height, height and width ≥ 11) against decoded rows
+ * added in order with {@link SsimBands.add}; {@link SsimBands.value} once all `height` rows are in.
+ */
+export class SsimBands {
+  private readonly slots: Float32Array[];
+  /** Joins of the jobs still holding a slot, and the row sums of every job joined, in job order. */
+  private readonly pending: Array<{ slot: number; join: () => Float64Array }> = [];
+  private readonly sums: Float64Array[] = [];
+  private slot = 0;
+  /** Image row of the current slot's first row, and the rows in it. */
+  private from = 0;
+  private filled = 0;
+  private readonly capacity = OVERLAP + SLOT_ROWS;
+
+  constructor(
+    private readonly run: SideRunner,
+    private readonly source: Float32Array,
+    private readonly width: number,
+    private readonly height: number,
+    private readonly range: number,
+  ) {
+    this.slots = takeSlots(width);
+  }
+
+  /** Add the next `rows` decoded rows, from b[0]. */
+  add(b: Float32Array, rows: number): void {
+    const { width } = this;
+    let done = 0;
+    while (done < rows) {
+      const take = Math.min(rows - done, this.capacity - this.filled);
+      this.slots[this.slot].set(b.subarray(done * width, (done + take) * width), this.filled * width);
+      this.filled += take;
+      done += take;
+      if (this.filled === this.capacity && this.from + this.filled < this.height) this.submit(true);
+    }
+  }
+
+  /** The mean SSIM, once every row was added (joins every job). */
+  value(): number {
+    if (this.from + this.filled !== this.height)
+      throw new RangeError(`SsimBands: ${this.from + this.filled} of ${this.height} rows were added`);
+    if (this.filled > OVERLAP) this.submit(false);
+    // From the last job down: a job the other thread has not started is computed here meanwhile.
+    const got: Float64Array[] = this.pending.map(() => new Float64Array(0));
+    for (let j = this.pending.length - 1; j >= 0; j--) got[j] = this.pending[j].join();
+    this.pending.length = 0;
+    this.sums.push(...got);
+    let total = 0;
+    for (const s of this.sums) for (let i = 0; i < s.length; i++) total += s[i];
+    spare = { width: this.width, slots: this.slots };
+    return total / ((this.width - OVERLAP) * (this.height - OVERLAP));
+  }
+
+  /** After a failed decode: every pending job joined (none may still read a slot), their sums dropped. */
+  drop(): void {
+    for (let j = this.pending.length - 1; j >= 0; j--)
+      try {
+        this.pending[j].join();
+      } catch {
+        // The decode's error is the one to report.
+      }
+    this.pending.length = 0;
+  }
+
+  /** Offer the current slot's window rows as a job; with `more`, start the next slot with its overlap. */
+  private submit(more: boolean): void {
+    const { width, from, filled } = this;
+    const rows = this.slots[this.slot];
+    const join = this.run('ssim-rows', {
+      a: this.source.subarray(from * width, (from + filled) * width),
+      b: rows.subarray(0, filled * width),
+      width,
+      height: this.height,
+      range: this.range,
+      from,
+      to: from + filled - OVERLAP,
+    });
+    this.pending.push({ slot: this.slot, join });
+    if (!more) return;
+    const next = (this.slot + 1) % SLOTS;
+    // The next slot's job, if any, is the oldest still pending: joined (or taken back) before it is overwritten.
+    if (this.pending.length === SLOTS) {
+      const oldest = this.pending.shift() as { slot: number; join: () => Float64Array };
+      this.sums.push(oldest.join());
+    }
+    this.slots[next].set(rows.subarray((filled - OVERLAP) * width, filled * width));
+    this.slot = next;
+    this.from = from + filled - OVERLAP;
+    this.filled = OVERLAP;
+  }
+}
