@@ -9,6 +9,7 @@
  * quantised result made from it ({@link ownQ}); a result whose q has since been overwritten, or any plane from
  * elsewhere (a copy in shared memory, the stack coder's own arrays), takes the TypeScript or copying path.
  */
+import { loadSplit, transformSplit } from './arena-split';
 import { PlaneArena } from './wasm/arena';
 import {
   type BandRect,
@@ -196,8 +197,8 @@ export function analyseResident(
 ): PlaneArena | null {
   const arena = PlaneArena.create(width, height);
   if (!arena) return null;
-  arena.load(plane);
-  if (levels > 0) arena.transform(levels, LIFTING, false);
+  loadSplit(arena, plane);
+  if (levels > 0) transformSplit(arena, levels, LIFTING, false);
   return arena;
 }
 
@@ -292,7 +293,7 @@ export function reconstructResident(
   releaseQ(arena);
   if (handOut) workTaken.add(arena);
   arena.lift.dequantiseInPlace(arena.qAt, workAt, width, height, bands.length, GEO, PAR);
-  if (levels > 0) arena.transform(levels, LIFTING, true, workAt);
+  if (levels > 0) transformSplit(arena, levels, LIFTING, true, workAt);
   const x = new Float64Array(arena.memory.buffer, workAt, n);
   if (!handOut) return x.slice();
   handedOut.set(x, arena);
