@@ -6,9 +6,11 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import {
   type ArenaRunner,
   loadSplit,
+  offerTouch,
   runArenaPass,
   SPLIT_MIN_SAMPLES,
   setSplitMinSamples,
+  settleTouch,
   transformSplit,
   withArenaHelper,
 } from '../../src-main/engine/codec/arena-split';
@@ -132,5 +134,26 @@ describe('plane arena passes on a real second thread', () => {
       expect(arenaRun(p, w, h, levels, offered)).toEqual(referenceRun(p, w, h, levels));
     }
     expect(thread.taken).toBeGreaterThan(0);
+  });
+
+  it('touches the work region ahead on the worker without changing a value', () => {
+    if (!side) throw new Error('the side worker is not built (npm run build)');
+    const thread = side;
+    const arena = withArenaHelper(undefined, () => PlaneArena.create(301, 263));
+    if (!arena) throw new Error('no arena');
+    const work = new Int32Array(arena.memory.buffer, arena.workAt, (arena.endAt - arena.workAt) >> 2);
+    for (let i = 0; i < work.length; i += 97) work[i] = i ^ 0x5a5a;
+    const before = digest(work);
+    const taken = thread.taken;
+    withArenaHelper(
+      (a) => thread.run('arena-pass', a),
+      () => offerTouch(arena),
+    );
+    // Give the worker time to start it; whether it finished or was stopped, the values stay.
+    Atomics.wait(new Int32Array(new SharedArrayBuffer(4)), 0, 0, 1000);
+    settleTouch(arena);
+    expect(digest(work)).toBe(before);
+    expect(thread.taken).toBe(taken + 1);
+    arena.release();
   });
 });

@@ -13,7 +13,7 @@
  * piece finds out where it runs from the memory object it is given (the arena's own on this thread; a copy of
  * it, made by the message, on the other).
  */
-import type { PlaneArena } from './wasm/arena';
+import { type PlaneArena, widenStaged } from './wasm/arena';
 import { COEF, type LiftingExports, liftingOn } from './wasm/runtime';
 import { isSharedMemory } from './wasm/shared-memory';
 
@@ -22,14 +22,18 @@ export interface ArenaPassArgs {
   /** The arena's memory (shared) and a number naming it across threads. */
   memory: WebAssembly.Memory;
   id: number;
-  op: 'load' | 'rows' | 'cols';
+  op: 'load' | 'rows' | 'cols' | 'touch';
   inverse: boolean;
-  /** The kernel's arguments before its scratch: load dst, src, count; rows x, width, w, y0, y1; cols x, width, w, h, c0, c1. */
+  /**
+   * load: dst (f64 bytes); rows: x, width, w, y0, y1; cols: x, width, w, h, c0, c1; touch: from, to (bytes).
+   */
   a: number[];
-  /** Scratch of the arena's own thread (tmp, buf), then of the other thread. */
+  /** Scratch: the arena's own thread's tmp and buf, the other thread's tmp and buf, then the end of both. */
   scratch: number[];
-  /** load: the samples to copy to `src` first (a shared Float32Array), or absent when already there. */
+  /** load: the samples to widen (a Float32Array on shared memory when sent to the other thread). */
   samples?: Float32Array;
+  /** touch: set to 1 (on a SharedArrayBuffer) when the pages are needed: the other thread stops there. */
+  stop?: Int32Array;
 }
 
 /** Offers a piece to the other thread; the returned function computes it here or waits for it. Call it once. */
@@ -76,9 +80,10 @@ export function adoptArenaMemory(memory: WebAssembly.Memory, lift: LiftingExport
 }
 
 /** The kernels and scratch for a piece on this thread: the arena's own, or instances made on the copy sent here. */
-function kernelsFor(args: ArenaPassArgs): { lift: LiftingExports; tmp: number; buf: number } {
+function kernelsFor(args: ArenaPassArgs): { lift: LiftingExports; tmp: number; buf: number; end: number } {
+  const [tmp0, buf0, tmp1, buf1, end] = args.scratch;
   const own = local.get(args.memory);
-  if (own) return { lift: own, tmp: args.scratch[0], buf: args.scratch[1] };
+  if (own) return { lift: own, tmp: tmp0, buf: buf0, end: tmp1 };
   const bytes = args.memory.buffer.byteLength;
   let r = remote.get(args.id);
   if (!r || r.bytes !== bytes) {
@@ -88,16 +93,42 @@ function kernelsFor(args: ArenaPassArgs): { lift: LiftingExports; tmp: number; b
     remote.delete(args.id);
     remote.set(args.id, r);
   }
-  return { lift: r.lift, tmp: args.scratch[2], buf: args.scratch[3] };
+  return { lift: r.lift, tmp: tmp1, buf: buf1, end };
+}
+
+/** Pages touched between two looks at the stop word. */
+const TOUCH_BATCH = 64;
+/** Int32 words per 4 KiB page (the smallest page size of the systems this runs on). */
+const PAGE_WORDS = 1024;
+
+/**
+ * One write per page of the bytes from `from` below `to` that changes no value (an atomic add of 0, which no
+ * write of the other thread can interleave with), so those pages are faulted in on this thread; until `stop`.
+ */
+function touchPages(
+  memory: WebAssembly.Memory,
+  from: number,
+  to: number,
+  stop: Int32Array | undefined,
+): void {
+  const v = new Int32Array(memory.buffer);
+  for (let i = from >> 2, k = 0; i < to >> 2; i += PAGE_WORDS, k++) {
+    if (k % TOUCH_BATCH === 0 && stop && Atomics.load(stop, 0) !== 0) return;
+    Atomics.add(v, i, 0);
+  }
 }
 
 /** Compute one piece (the side thread's job, and this thread's share). */
 export function runArenaPass(args: ArenaPassArgs): null {
-  const { lift, tmp, buf } = kernelsFor(args);
   const a = args.a;
+  // Pages are worth touching ahead only on another thread: taken back here, they are touched when used.
+  if (args.op === 'touch') {
+    if (!local.has(args.memory)) touchPages(args.memory, a[0], a[1], args.stop);
+    return null;
+  }
+  const { lift, tmp, buf, end } = kernelsFor(args);
   if (args.op === 'load') {
-    if (args.samples) new Float32Array(args.memory.buffer, a[1], a[2]).set(args.samples);
-    lift.widen(a[0], a[1], a[2]);
+    if (args.samples) widenStaged(args.memory, lift, a[0], args.samples, tmp, end - tmp);
   } else if (args.op === 'rows')
     (args.inverse ? lift.inverseRows : lift.forwardRows)(a[0], a[1], a[2], a[3], a[4], tmp, COEF);
   else (args.inverse ? lift.inverseCols : lift.forwardCols)(a[0], a[1], a[2], a[3], a[4], a[5], buf, COEF);
@@ -120,7 +151,7 @@ function pass(
     id: ids.get(arena.memory) ?? 0,
     op,
     inverse,
-    scratch: [arena.tmpAt, arena.bufAt, arena.sideTmpAt, arena.sideBufAt],
+    scratch: [arena.tmpAt, arena.bufAt, arena.sideTmpAt, arena.sideBufAt, arena.flagsAt],
   };
   const run = helper;
   if (!run || !split) {
@@ -208,4 +239,37 @@ export function transformSplit(
       cols();
     }
   }
+}
+
+/** Each arena's pending touch of its work region: the stop word and the join. */
+const touching = new WeakMap<PlaneArena, { stop: Int32Array; join: () => unknown }>();
+
+/**
+ * Offer the other thread the first touch of the arena's work region (q, then the reconstruction over it; fresh
+ * pages cost more than the arithmetic on them), while this thread quantises and codes. The values are not
+ * changed, so this thread may write the region meanwhile. {@link settleTouch} ends it.
+ */
+export function offerTouch(arena: PlaneArena): void {
+  const run = helper;
+  if (!run || !splits(arena, arena.n) || touching.has(arena)) return;
+  const stop = new Int32Array(new SharedArrayBuffer(4));
+  const args: ArenaPassArgs = {
+    memory: arena.memory,
+    id: ids.get(arena.memory) ?? 0,
+    op: 'touch',
+    inverse: false,
+    a: [arena.workAt, arena.endAt],
+    scratch: [],
+    stop,
+  };
+  touching.set(arena, { stop, join: run(args) });
+}
+
+/** The arena's work region is needed now (or never): stop the touch where it got to and collect its answer. */
+export function settleTouch(arena: PlaneArena): void {
+  const t = touching.get(arena);
+  if (!t) return;
+  touching.delete(arena);
+  Atomics.store(t.stop, 0, 1);
+  t.join();
 }

@@ -9,7 +9,7 @@
  * quantised result made from it ({@link ownQ}); a result whose q has since been overwritten, or any plane from
  * elsewhere (a copy in shared memory, the stack coder's own arrays), takes the TypeScript or copying path.
  */
-import { loadSplit, transformSplit } from './arena-split';
+import { loadSplit, offerTouch, settleTouch, transformSplit } from './arena-split';
 import { PlaneArena } from './wasm/arena';
 import {
   type BandRect,
@@ -54,6 +54,7 @@ export function releaseResident(plane: object): void {
   const arena = arenaOf.get(plane);
   if (!arena || workTaken.has(arena) || arena.isReleased) return;
   releaseQ(arena);
+  settleTouch(arena);
   arena.release();
 }
 
@@ -199,6 +200,7 @@ export function analyseResident(
   if (!arena) return null;
   loadSplit(arena, plane);
   if (levels > 0) transformSplit(arena, levels, LIFTING, false);
+  offerTouch(arena);
   return arena;
 }
 
@@ -291,6 +293,7 @@ export function reconstructResident(
   const { width, height, n, workAt } = arena;
   // The region's q is about to be overwritten: its owner keeps its non-zeros (loaded back when next needed).
   releaseQ(arena);
+  settleTouch(arena);
   if (handOut) workTaken.add(arena);
   arena.lift.dequantiseInPlace(arena.qAt, workAt, width, height, bands.length, GEO, PAR);
   if (levels > 0) transformSplit(arena, levels, LIFTING, true, workAt);

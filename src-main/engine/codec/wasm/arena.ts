@@ -79,6 +79,27 @@ function takeSpare(bytes: number) {
   return growMemoryTo(spare.memory, bytes, MAX_BYTES) ? spare : undefined;
 }
 
+/**
+ * f64 copies of `samples` at byte `dst` of `memory`, each piece of samples copied first to the `cap` bytes at
+ * `stage` (a thread's own scratch) and widened from there by the kernel (exact: every f32 is an f64).
+ */
+export function widenStaged(
+  memory: WebAssembly.Memory,
+  lift: LiftingExports,
+  dst: number,
+  samples: Float32Array,
+  stage: number,
+  cap: number,
+): void {
+  const per = Math.max(4, (cap >> 2) & ~3);
+  const buf = memory.buffer;
+  for (let i = 0; i < samples.length; i += per) {
+    const m = Math.min(per, samples.length - i);
+    new Float32Array(buf, stage, m).set(samples.subarray(i, i + m));
+    lift.widen(dst + 8 * i, stage, m);
+  }
+}
+
 export class PlaneArena {
   readonly n: number;
   readonly coeffsAt: number;
@@ -171,13 +192,16 @@ export class PlaneArena {
     return this.coeffView;
   }
 
-  /** Copy the samples in as f64 (a Float32Array through the widening kernel, staged in q's region). */
+  /**
+   * Copy the samples in as f64: a Float32Array through the widening kernel, staged piece by piece in the
+   * transforms' scratch (not in q's region, whose fresh pages the rebuild touches later: a second thread may
+   * touch them first, ../arena-split.ts).
+   */
   load(plane: ArrayLike<number>): void {
-    const buf = this.fresh();
-    if (plane instanceof Float32Array) {
-      new Float32Array(buf, this.qAt, this.n).set(plane);
-      this.lift.widen(this.coeffsAt, this.qAt, this.n);
-    } else if (ArrayBuffer.isView(plane)) this.coeffView.set(plane as unknown as ArrayLike<number>);
+    this.fresh();
+    if (plane instanceof Float32Array)
+      widenStaged(this.memory, this.lift, this.coeffsAt, plane, this.tmpAt, this.sideTmpAt - this.tmpAt);
+    else if (ArrayBuffer.isView(plane)) this.coeffView.set(plane as unknown as ArrayLike<number>);
     else for (let i = 0; i < this.n; i++) this.coeffView[i] = plane[i];
   }
 
