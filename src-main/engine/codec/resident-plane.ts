@@ -9,6 +9,7 @@
  * quantised result made from it ({@link ownQ}); a result whose q has since been overwritten, or any plane from
  * elsewhere (a copy in shared memory, the stack coder's own arrays), takes the TypeScript or copying path.
  */
+import { loadSplit, offerTouch, settleTouch, transformSplit } from './arena-split';
 import { PlaneArena } from './wasm/arena';
 import {
   type BandRect,
@@ -53,6 +54,7 @@ export function releaseResident(plane: object): void {
   const arena = arenaOf.get(plane);
   if (!arena || workTaken.has(arena) || arena.isReleased) return;
   releaseQ(arena);
+  settleTouch(arena);
   arena.release();
 }
 
@@ -196,8 +198,9 @@ export function analyseResident(
 ): PlaneArena | null {
   const arena = PlaneArena.create(width, height);
   if (!arena) return null;
-  arena.load(plane);
-  if (levels > 0) arena.transform(levels, LIFTING, false);
+  loadSplit(arena, plane);
+  if (levels > 0) transformSplit(arena, levels, LIFTING, false);
+  offerTouch(arena);
   return arena;
 }
 
@@ -290,9 +293,10 @@ export function reconstructResident(
   const { width, height, n, workAt } = arena;
   // The region's q is about to be overwritten: its owner keeps its non-zeros (loaded back when next needed).
   releaseQ(arena);
+  settleTouch(arena);
   if (handOut) workTaken.add(arena);
   arena.lift.dequantiseInPlace(arena.qAt, workAt, width, height, bands.length, GEO, PAR);
-  if (levels > 0) arena.transform(levels, LIFTING, true, workAt);
+  if (levels > 0) transformSplit(arena, levels, LIFTING, true, workAt);
   const x = new Float64Array(arena.memory.buffer, workAt, n);
   if (!handOut) return x.slice();
   handedOut.set(x, arena);

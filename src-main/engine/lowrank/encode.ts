@@ -11,6 +11,7 @@ import { hinted } from '../../contract/replies';
 
 const WHOLE_PLANE_ADVICE = ' — pass --tile 0 for a whole-image SVD';
 
+import { type ArenaPassArgs, withArenaHelper } from '../codec/arena-split';
 import { encodePlanes, RESIDUAL_MAX_PIXELS } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
 import { rgbToYcbcr, YCBCR_ERROR_WEIGHTS } from '../colour';
@@ -53,7 +54,10 @@ function prepare(img: DecodedImage): Prepared {
 }
 
 export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult {
-  return chooseExact(img, opts, encodeLossy);
+  const side = opts.side;
+  // The plane arenas' passes use the side thread too (../codec/arena-split).
+  const arenaSide = side && ((a: ArenaPassArgs) => side('arena-pass', a));
+  return withArenaHelper(arenaSide, () => chooseExact(img, opts, encodeLossy));
 }
 
 /** {@link encodeScan}'s lossy file: low-rank base, with a residual layer where that wins. */

@@ -4,6 +4,7 @@
  * whichever thread computes it. The engine only sees a {@link SideRunner}; src-main/node/parallel/side-thread.ts
  * provides one backed by a worker thread, and {@link runHere} computes on the calling thread.
  */
+import { type ArenaPassArgs, runArenaPass } from '../codec/arena-split';
 import { decodeCoefficientsV2 } from '../codec/coeff-coder';
 import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../codec/wavelet-plane';
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
@@ -63,6 +64,8 @@ export interface SideJobs {
     args: Parameters<typeof verifyResidual>[0];
     result: string;
   };
+  /** A piece of a plane arena's load or 9/7 pass, in the arena's shared memory (../codec/arena-split). */
+  'arena-pass': { args: ArenaPassArgs; result: null };
 }
 export type SideJobName = keyof SideJobs;
 
@@ -72,6 +75,7 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
   'code-plane': ({ step, ...a }) => codeAnalysed(a, step, 2),
   'spread-crop': spreadCrop,
   'crop-fit': cropFit,
+  'arena-pass': runArenaPass,
   'residual-decode': ({ bytes, width, height, into }) => {
     const n = width * height;
     const q =

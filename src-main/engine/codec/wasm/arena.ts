@@ -10,8 +10,8 @@
  * is sized once, touched once and reused by every call on the plane.
  *
  * Layout (byte offsets): the lifting module's tables in the first page (./runtime.ts), the coder's scratch
- * from SCRATCH (./coder-constants.ts), then from {@link BASE}: the coefficients (f64), the transforms' scratch,
- * the quantiser's chunk flags, then the work region of 8n bytes whose upper half is q (i32), and last the
+ * from SCRATCH (./coder-constants.ts), then from {@link BASE}: the coefficients (f64), the transforms' scratch
+ * (twice: the second for a second thread, ../arena-split.ts), the quantiser's chunk flags, then the work region of 8n bytes whose upper half is q (i32), and last the
  * coder's output (which may grow the memory). The reconstruction (f64) fills the whole work region, over q
  * (the kernel reads each q before anything writes over it; the caller first keeps q's non-zeros), so a plane
  * touches 16n bytes of fresh memory here and not 20n. The coder's magnitude map and the LL band's differences
@@ -22,6 +22,7 @@
  */
 
 import { growMemoryTo } from '../../linalg/wasm/runtime';
+import { adoptArenaMemory } from '../arena-split';
 import {
   type CoderSetup,
   type CoderWasm,
@@ -31,6 +32,7 @@ import {
   planesLayout,
 } from './coder-runtime';
 import { type BandRect, CHUNK, COEF, type LiftingExports, liftingOn, writeBands } from './runtime';
+import { newArenaMemory } from './shared-memory';
 
 /** Bytes in a WebAssembly page. */
 const PAGE = 65536;
@@ -77,11 +79,35 @@ function takeSpare(bytes: number) {
   return growMemoryTo(spare.memory, bytes, MAX_BYTES) ? spare : undefined;
 }
 
+/**
+ * f64 copies of `samples` at byte `dst` of `memory`, each piece of samples copied first to the `cap` bytes at
+ * `stage` (a thread's own scratch) and widened from there by the kernel (exact: every f32 is an f64).
+ */
+export function widenStaged(
+  memory: WebAssembly.Memory,
+  lift: LiftingExports,
+  dst: number,
+  samples: Float32Array,
+  stage: number,
+  cap: number,
+): void {
+  const per = Math.max(4, (cap >> 2) & ~3);
+  const buf = memory.buffer;
+  for (let i = 0; i < samples.length; i += per) {
+    const m = Math.min(per, samples.length - i);
+    new Float32Array(buf, stage, m).set(samples.subarray(i, i + m));
+    lift.widen(dst + 8 * i, stage, m);
+  }
+}
+
 export class PlaneArena {
   readonly n: number;
   readonly coeffsAt: number;
   readonly tmpAt: number;
   readonly bufAt: number;
+  /** The second thread's transform scratch (../arena-split.ts): tmp and the column strip, as tmpAt and bufAt. */
+  readonly sideTmpAt: number;
+  readonly sideBufAt: number;
   readonly flagsAt: number;
   /** Work region (8n bytes): q in its upper half, the coder's map below it; or the whole reconstruction. */
   readonly workAt: number;
@@ -108,29 +134,28 @@ export class PlaneArena {
     this.coeffsAt = BASE;
     this.tmpAt = BASE + align16(8 * n);
     this.bufAt = this.tmpAt + align16(16 * Math.max(width, height));
-    this.flagsAt = this.bufAt + align16(8 * STRIP * height);
+    this.sideTmpAt = this.bufAt + align16(8 * STRIP * height);
+    this.sideBufAt = this.sideTmpAt + align16(16 * Math.max(width, height));
+    this.flagsAt = this.sideBufAt + align16(8 * STRIP * height);
     this.workAt = this.flagsAt + align16(Math.ceil(n / CHUNK));
     this.qAt = this.workAt + 4 * n;
     this.endAt = this.workAt + align16(8 * n);
     this.buffer = memory.buffer;
     this.coeffView = new Float64Array(this.buffer, this.coeffsAt, n);
+    adoptArenaMemory(memory, lift);
   }
 
   /** An arena for a width×height plane, or null (too small, no kernels, or no memory). */
   static create(width: number, height: number): PlaneArena | null {
     const n = width * height;
     if (n < minPixels) return null;
-    const scratch = align16(16 * Math.max(width, height)) + align16(8 * STRIP * height);
+    const scratch = 2 * (align16(16 * Math.max(width, height)) + align16(8 * STRIP * height));
     const bytes = BASE + align16(8 * n) + scratch + align16(Math.ceil(n / CHUNK)) + align16(8 * n) + PAGE;
     if (bytes > MAX_BYTES) return null;
     const spare = takeSpare(bytes);
     if (spare) return new PlaneArena(spare.memory, spare.lift, width, height, spare.coder);
-    let memory: WebAssembly.Memory;
-    try {
-      memory = new WebAssembly.Memory({ initial: Math.ceil(bytes / PAGE) });
-    } catch {
-      return null;
-    }
+    const memory = newArenaMemory(Math.ceil(bytes / PAGE));
+    if (!memory) return null;
     const lift = liftingOn(memory);
     return lift ? new PlaneArena(memory, lift, width, height) : null;
   }
@@ -167,13 +192,16 @@ export class PlaneArena {
     return this.coeffView;
   }
 
-  /** Copy the samples in as f64 (a Float32Array through the widening kernel, staged in q's region). */
+  /**
+   * Copy the samples in as f64: a Float32Array through the widening kernel, staged piece by piece in the
+   * transforms' scratch (not in q's region, whose fresh pages the rebuild touches later: a second thread may
+   * touch them first, ../arena-split.ts).
+   */
   load(plane: ArrayLike<number>): void {
-    const buf = this.fresh();
-    if (plane instanceof Float32Array) {
-      new Float32Array(buf, this.qAt, this.n).set(plane);
-      this.lift.widen(this.coeffsAt, this.qAt, this.n);
-    } else if (ArrayBuffer.isView(plane)) this.coeffView.set(plane as unknown as ArrayLike<number>);
+    this.fresh();
+    if (plane instanceof Float32Array)
+      widenStaged(this.memory, this.lift, this.coeffsAt, plane, this.tmpAt, this.sideTmpAt - this.tmpAt);
+    else if (ArrayBuffer.isView(plane)) this.coeffView.set(plane as unknown as ArrayLike<number>);
     else for (let i = 0; i < this.n; i++) this.coeffView[i] = plane[i];
   }
 

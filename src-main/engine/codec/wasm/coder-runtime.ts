@@ -18,6 +18,8 @@ import {
   SCRATCH_BYTES,
 } from './coder-constants';
 import { wasmBase64 } from './generated/coder';
+import { wasmBase64 as sharedBase64 } from './generated/coder-shared';
+import { isSharedMemory } from './shared-memory';
 
 /**
  * One direction of the port over a plane of n coefficients: q (i32), the magnitude map (u8) and the LL band's
@@ -64,6 +66,8 @@ const KEEP_BYTES = 256 * 2 ** 20;
 
 /** undefined: not tried yet; null: WebAssembly unavailable here. */
 let module: WebAssembly.Module | null | undefined;
+/** The same coder built on a shared memory (./assembly/coder-shared.ts), for a plane arena shared by two threads. */
+let sharedModule: WebAssembly.Module | null | undefined;
 let coder: CoderWasm | null = null;
 let disabled = false;
 
@@ -116,7 +120,15 @@ export function coderWasm(setup: CoderSetup): CoderWasm | null {
  */
 export function coderOn(memory: WebAssembly.Memory, setup: CoderSetup): CoderWasm | null {
   if (disabled) return null;
-  const m = compiledModule();
+  if (!compiledModule()) return null;
+  if (isSharedMemory(memory) && sharedModule === undefined) {
+    try {
+      sharedModule = new WebAssembly.Module(decodeBase64(sharedBase64));
+    } catch {
+      sharedModule = null;
+    }
+  }
+  const m = isSharedMemory(memory) ? sharedModule : module;
   return m ? instantiate(m, memory, setup) : null;
 }
 

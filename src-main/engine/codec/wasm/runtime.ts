@@ -11,11 +11,31 @@
 import { decodeBase64 } from '../../linalg/wasm/runtime';
 import { LazyKernel, type LoadedKernel, reserveBytes } from '../../metrics/wasm/loader';
 import { wasmBase64 } from './generated/lifting';
+import { wasmBase64 as sharedBase64 } from './generated/lifting-shared';
+import { isSharedMemory } from './shared-memory';
+
+/** A column pass kernel: x, row stride, the level's w and h, the strips' columns c0 … c1 − 1, buf, k. */
+type ColumnPass = (
+  x: number,
+  width: number,
+  w: number,
+  h: number,
+  c0: number,
+  c1: number,
+  buf: number,
+  k: number,
+) => void;
 
 /** The lifting module's exports (./assembly/lifting.ts); pointers are byte offsets into its memory. */
 export interface LiftingExports {
   forward97(x: number, w: number, h: number, levels: number, tmp: number, buf: number, k: number): void;
   inverse97(x: number, w: number, h: number, levels: number, tmp: number, buf: number, k: number): void;
+  /** One level's row pass over rows y0 … y1 − 1 (y0 even), forward or inverse (../arena-split.ts). */
+  forwardRows(x: number, width: number, w: number, y0: number, y1: number, tmp: number, k: number): void;
+  inverseRows(x: number, width: number, w: number, y0: number, y1: number, tmp: number, k: number): void;
+  /** One level's column pass over the strips from column c0 (a multiple of STRIP) below c1. */
+  forwardCols: ColumnPass;
+  inverseCols: ColumnPass;
   quantise(
     x: number,
     q: number,
@@ -192,22 +212,34 @@ export function reconstructWasm(
 
 /** The lifting module compiled for instantiation on other memories (./arena.ts); null: not possible here. */
 let compiled: WebAssembly.Module | null | undefined;
+/** The same kernels built on a shared memory (./assembly/lifting-shared.ts). */
+let compiledShared: WebAssembly.Module | null | undefined;
+
+function compile(base64: string): WebAssembly.Module | null {
+  try {
+    return new WebAssembly.Module(decodeBase64(base64));
+  } catch {
+    return null;
+  }
+}
 
 /**
- * The lifting kernels instantiated on `memory` (a plane's own, ./arena.ts), or null where the kernels are
- * unavailable or disabled, or a synchronous compile is refused (a browser page: the shared kernels serve it).
+ * The lifting kernels instantiated on `memory` (a plane's own, ./arena.ts; plain or shared), or null where the
+ * kernels are unavailable or disabled, or a synchronous compile is refused (a browser page: the shared kernels
+ * serve it).
  */
 export function liftingOn(memory: WebAssembly.Memory): LiftingExports | null {
   if (!lifting.get()) return null;
-  if (compiled === undefined) {
-    try {
-      compiled = new WebAssembly.Module(decodeBase64(wasmBase64));
-    } catch {
-      compiled = null;
-    }
+  let m: WebAssembly.Module | null;
+  if (isSharedMemory(memory)) {
+    if (compiledShared === undefined) compiledShared = compile(sharedBase64);
+    m = compiledShared;
+  } else {
+    if (compiled === undefined) compiled = compile(wasmBase64);
+    m = compiled;
   }
-  if (!compiled) return null;
-  const instance = new WebAssembly.Instance(compiled, { env: { memory, abort: abortHandler } });
+  if (!m) return null;
+  const instance = new WebAssembly.Instance(m, { env: { memory, abort: abortHandler } });
   return instance.exports as unknown as LiftingExports;
 }
 

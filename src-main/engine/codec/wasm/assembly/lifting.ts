@@ -179,12 +179,13 @@ function liftStrip(buf: usize, nL: i32, nH: i32, sw: i32, c: f64, high: bool): v
   }
 }
 
-function fwdCols(x: usize, width: i32, w: i32, h: i32, buf: usize, k: usize): void {
+/** Column pass over the strips starting at columns c0, c0 + STRIP, … below c1 (c0 a multiple of STRIP). */
+function fwdCols(x: usize, width: i32, w: i32, h: i32, c0: i32, c1: i32, buf: usize, k: usize): void {
   if (h < 2) return;
   const nL = (h + 1) >> 1;
   const nH = h >> 1;
   const z = load<f64>(k + 32);
-  for (let k0 = 0; k0 < w; k0 += STRIP) {
+  for (let k0 = c0; k0 < min(w, c1); k0 += STRIP) {
     const sw = min(STRIP, w - k0);
     const rs = <usize>sw << 3;
     for (let i = 0; i < h; i++) {
@@ -202,12 +203,13 @@ function fwdCols(x: usize, width: i32, w: i32, h: i32, buf: usize, k: usize): vo
   }
 }
 
-function invCols(x: usize, width: i32, w: i32, h: i32, buf: usize, k: usize): void {
+/** Inverse column pass over the strips of {@link fwdCols}. */
+function invCols(x: usize, width: i32, w: i32, h: i32, c0: i32, c1: i32, buf: usize, k: usize): void {
   if (h < 2) return;
   const nL = (h + 1) >> 1;
   const nH = h >> 1;
   const z = load<f64>(k + 32);
-  for (let k0 = 0; k0 < w; k0 += STRIP) {
+  for (let k0 = c0; k0 < min(w, c1); k0 += STRIP) {
     const sw = min(STRIP, w - k0);
     const rs = <usize>sw << 3;
     for (let i = 0; i < h; i++) {
@@ -226,6 +228,36 @@ function invCols(x: usize, width: i32, w: i32, h: i32, buf: usize, k: usize): vo
 }
 
 // ------------------------------------------------------------------ the 2-D transforms
+// One level's passes over a part of the plane, for two threads sharing the memory (../arena-split.ts): rows
+// y0 … y1 − 1 (y0 even; the row pairs are those of the whole pass, since a lone row is only the last), or the
+// column strips from c0 (a multiple of STRIP) below c1. Each sample gets the operations of the whole pass.
+
+/** Forward row pass of rows y0 … y1 − 1 of the w-wide level at x (row stride `width`); tmp: 16·w bytes. */
+export function forwardRows(x: usize, width: i32, w: i32, y0: i32, y1: i32, tmp: usize, k: usize): void {
+  const rs = <usize>width << 3;
+  let y = y0;
+  for (; y + 1 < y1; y += 2) fwdRows(x + <usize>y * rs, x + <usize>(y + 1) * rs, w, tmp, k);
+  if (y < y1) fwdRows(x + <usize>y * rs, x + <usize>y * rs, w, tmp, k);
+}
+
+/** Inverse row pass of rows y0 … y1 − 1, as {@link forwardRows}. */
+export function inverseRows(x: usize, width: i32, w: i32, y0: i32, y1: i32, tmp: usize, k: usize): void {
+  const rs = <usize>width << 3;
+  let y = y0;
+  for (; y + 1 < y1; y += 2) invRows(x + <usize>y * rs, x + <usize>(y + 1) * rs, w, tmp, k);
+  if (y < y1) invRows(x + <usize>y * rs, x + <usize>y * rs, w, tmp, k);
+}
+
+/** Forward column pass of the w×h level's strips from column c0 below c1; buf: 8·STRIP·h bytes. */
+export function forwardCols(x: usize, width: i32, w: i32, h: i32, c0: i32, c1: i32, buf: usize, k: usize): void {
+  fwdCols(x, width, w, h, c0, c1, buf, k);
+}
+
+/** Inverse column pass of the strips from column c0 below c1, as {@link forwardCols}. */
+export function inverseCols(x: usize, width: i32, w: i32, h: i32, c0: i32, c1: i32, buf: usize, k: usize): void {
+  invCols(x, width, w, h, c0, c1, buf, k);
+}
+
 
 /**
  * In-place forward 9/7 transform of the width×height plane at x, `levels` levels. tmp: 16·max(width, height)
@@ -234,12 +266,9 @@ function invCols(x: usize, width: i32, w: i32, h: i32, buf: usize, k: usize): vo
 export function forward97(x: usize, width: i32, height: i32, levels: i32, tmp: usize, buf: usize, k: usize): void {
   let w = width;
   let h = height;
-  const rs = <usize>width << 3;
   for (let l = 0; l < levels; l++) {
-    let y = 0;
-    for (; y + 1 < h; y += 2) fwdRows(x + <usize>y * rs, x + <usize>(y + 1) * rs, w, tmp, k);
-    if (y < h) fwdRows(x + <usize>y * rs, x + <usize>y * rs, w, tmp, k);
-    fwdCols(x, width, w, h, buf, k);
+    forwardRows(x, width, w, 0, h, tmp, k);
+    fwdCols(x, width, w, h, 0, w, buf, k);
     w = (w + 1) >> 1;
     h = (h + 1) >> 1;
   }
@@ -247,7 +276,6 @@ export function forward97(x: usize, width: i32, height: i32, levels: i32, tmp: u
 
 /** In-place inverse of {@link forward97}; same scratch sizes. */
 export function inverse97(x: usize, width: i32, height: i32, levels: i32, tmp: usize, buf: usize, k: usize): void {
-  const rs = <usize>width << 3;
   for (let l = levels - 1; l >= 0; l--) {
     let w = width;
     let h = height;
@@ -255,10 +283,8 @@ export function inverse97(x: usize, width: i32, height: i32, levels: i32, tmp: u
       w = (w + 1) >> 1;
       h = (h + 1) >> 1;
     }
-    invCols(x, width, w, h, buf, k);
-    let y = 0;
-    for (; y + 1 < h; y += 2) invRows(x + <usize>y * rs, x + <usize>(y + 1) * rs, w, tmp, k);
-    if (y < h) invRows(x + <usize>y * rs, x + <usize>y * rs, w, tmp, k);
+    invCols(x, width, w, h, 0, w, buf, k);
+    inverseRows(x, width, w, 0, h, tmp, k);
   }
 }
 
