@@ -15,7 +15,7 @@
  */
 import { type PlaneArena, widenStaged } from './wasm/arena';
 import { COEF, type LiftingExports, liftingOn } from './wasm/runtime';
-import { isSharedMemory } from './wasm/shared-memory';
+import { arenaMemoryId, isSharedMemory, ownKernels } from './wasm/shared-memory';
 
 /** One piece of a pass, as sent to the other thread. */
 export interface ArenaPassArgs {
@@ -66,23 +66,13 @@ export function withArenaHelper<T>(run: ArenaRunner | undefined, fn: () => T): T
   }
 }
 
-/** The kernels on each arena memory of this thread, and each memory's number. */
-const local = new WeakMap<WebAssembly.Memory, LiftingExports>();
-const ids = new WeakMap<WebAssembly.Memory, number>();
-let nextId = 1;
 /** The other thread's instances on memories it was sent, by number, with the size they were made at. */
 const remote = new Map<number, { lift: LiftingExports; bytes: number }>();
-
-/** Record that `memory` is an arena's own on this thread, with its kernels. */
-export function adoptArenaMemory(memory: WebAssembly.Memory, lift: LiftingExports): void {
-  local.set(memory, lift);
-  if (!ids.has(memory)) ids.set(memory, nextId++);
-}
 
 /** The kernels and scratch for a piece on this thread: the arena's own, or instances made on the copy sent here. */
 function kernelsFor(args: ArenaPassArgs): { lift: LiftingExports; tmp: number; buf: number; end: number } {
   const [tmp0, buf0, tmp1, buf1, end] = args.scratch;
-  const own = local.get(args.memory);
+  const own = ownKernels(args.memory);
   if (own) return { lift: own, tmp: tmp0, buf: buf0, end: tmp1 };
   const bytes = args.memory.buffer.byteLength;
   let r = remote.get(args.id);
@@ -123,7 +113,7 @@ export function runArenaPass(args: ArenaPassArgs): null {
   const a = args.a;
   // Pages are worth touching ahead only on another thread: taken back here, they are touched when used.
   if (args.op === 'touch') {
-    if (!local.has(args.memory)) touchPages(args.memory, a[0], a[1], args.stop);
+    if (!ownKernels(args.memory)) touchPages(args.memory, a[0], a[1], args.stop);
     return null;
   }
   const { lift, tmp, buf, end } = kernelsFor(args);
@@ -148,7 +138,7 @@ function pass(
 ): void {
   const base = {
     memory: arena.memory,
-    id: ids.get(arena.memory) ?? 0,
+    id: arenaMemoryId(arena.memory),
     op,
     inverse,
     scratch: [arena.tmpAt, arena.bufAt, arena.sideTmpAt, arena.sideBufAt, arena.flagsAt],
@@ -172,7 +162,7 @@ interface ArenaPiece {
 
 /** Whether passes over `samples` values are split: a helper is set, the memory is shared and the pass large. */
 function splits(arena: PlaneArena, samples: number): boolean {
-  return !!helper && samples >= splitMin && isSharedMemory(arena.memory) && ids.has(arena.memory);
+  return !!helper && samples >= splitMin && isSharedMemory(arena.memory) && arenaMemoryId(arena.memory) > 0;
 }
 
 /** Piece k of [0, n) cut in PIECES, its bounds rounded down to multiples of `unit` (the last ends at n). */
@@ -255,7 +245,7 @@ export function offerTouch(arena: PlaneArena): void {
   const stop = new Int32Array(new SharedArrayBuffer(4));
   const args: ArenaPassArgs = {
     memory: arena.memory,
-    id: ids.get(arena.memory) ?? 0,
+    id: arenaMemoryId(arena.memory),
     op: 'touch',
     inverse: false,
     a: [arena.workAt, arena.endAt],

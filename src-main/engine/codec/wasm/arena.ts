@@ -22,7 +22,6 @@
  */
 
 import { growMemoryTo } from '../../linalg/wasm/runtime';
-import { adoptArenaMemory } from '../arena-split';
 import {
   type CoderSetup,
   type CoderWasm,
@@ -32,7 +31,7 @@ import {
   planesLayout,
 } from './coder-runtime';
 import { type BandRect, CHUNK, COEF, type LiftingExports, liftingOn, writeBands } from './runtime';
-import { newArenaMemory } from './shared-memory';
+import { adoptArenaMemory, newArenaMemory } from './shared-memory';
 
 /** Bytes in a WebAssembly page. */
 const PAGE = 65536;
