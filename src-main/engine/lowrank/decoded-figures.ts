@@ -70,7 +70,7 @@ export function measureGreyFile(
   const lossless =
     sums.same && channels === img.planes.length && (!alpha || sameValues(alpha, img.planes[1]));
   return {
-    psnr: psnrFromMse((0 + sums.blocked()) / source.length, max),
+    psnr: psnrFromMse(sums.blocked() / source.length, max),
     sse: sums.running,
     ssim: banded ? banded.value() : ssim ? ssim.value() : Number.NaN,
     lossless,
