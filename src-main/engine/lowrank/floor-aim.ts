@@ -9,6 +9,8 @@
  * borders, where the symmetric extension is, are a larger share of it) and follows its own content, so the
  * first encode is aimed by {@link spreadRatio}: five crops spread over the scan, at the whole scan's step.
  */
+
+import { giveBackWork } from '../codec/resident-plane';
 import {
   type AnalysedPlane,
   analysePlane,
@@ -97,7 +99,8 @@ function decodedSse(
   const grey = src.length === 1;
   let sse = 0;
   for (let k = 0; k < src.length; k++) {
-    const rec = reconstructCoded(analysed[k], coded[k] as CodedCoefficients);
+    // The rebuild is read once here: a resident plane lends its work region rather than a fresh copy.
+    const rec = reconstructCoded(analysed[k], coded[k] as CodedCoefficients, true);
     const s = src[k];
     let e = 0;
     for (let i = 0; i < s.length; i++) {
@@ -109,6 +112,7 @@ function decodedSse(
       const d = s[i] - v;
       e += d * d;
     }
+    giveBackWork(rec);
     sse += weights[k] * e;
   }
   return sse;
@@ -195,9 +199,11 @@ export function spreadRatio(
   const jobs = centres.map(([fx, fy]) => {
     const x0 = at(fx * width, width, w);
     const y0 = at(fy * height, height, h);
-    const whole = { planes: planes as Array<Float32Array | Float64Array>, width, height, x0, y0 };
-    const own = { planes: cropPlanes(planes, width, x0, y0, w, h), width: w, height: h, x0: 0, y0: 0 };
-    return run('spread-crop', { ...(shared ? whole : own), w, h, weights, maxValue, step });
+    // Only planes outside shared memory are cropped here (a crop made for shared planes would go unused).
+    const where = shared
+      ? { planes: planes as Array<Float32Array | Float64Array>, width, height, x0, y0 }
+      : { planes: cropPlanes(planes, width, x0, y0, w, h), width: w, height: h, x0: 0, y0: 0 };
+    return run('spread-crop', { ...where, w, h, weights, maxValue, step });
   });
   const errors: Float64Array[] = [];
   for (let c = jobs.length - 1; c >= 0; c--) errors[c] = jobs[c]();
