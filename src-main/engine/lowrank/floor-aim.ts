@@ -20,8 +20,9 @@ import {
   quantiseAnalysed,
   reconstructCoded,
   releaseAnalysed,
+  smallestSafeStep,
 } from '../codec/wavelet-plane';
-import { tidy } from './residual-fit';
+import { codeHere, type PlanesCoder, tidy } from './residual-fit';
 import type { SideRunner } from './side-jobs';
 
 /** A w×h crop of each plane with its top-left corner at (x0, y0). */
@@ -82,6 +83,27 @@ export function stepForError(analysed: AnalysedPlane[], weights: number[], targe
   const e0 = est(d0);
   const ratio = e0 > 0 ? exact(d0) / e0 : 1;
   return solve(target / (ratio > 0 ? ratio : 1));
+}
+
+/** Code every plane at step d (scaled per plane): steps, bytes and the exact weighted transform-domain error. */
+export function codeAll(
+  analysed: AnalysedPlane[],
+  weights: number[],
+  step: number,
+  coder: PlanesCoder = codeHere,
+) {
+  const scales = stepScales(weights);
+  const d = analysed.reduce((m, a, k) => Math.max(m, smallestSafeStep(a) / scales[k]), step);
+  const steps = analysed.map((_, k) => tidy(d * scales[k]));
+  const coded = coder(analysed, steps);
+  const sse = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
+  return {
+    steps,
+    bytes: coded.map((c) => c.bytes),
+    coded,
+    sse,
+    size: coded.reduce((s, c) => s + c.bytes.length, 0),
+  };
 }
 
 /**
