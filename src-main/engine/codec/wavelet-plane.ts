@@ -249,9 +249,13 @@ export function codeAnalysed(a: AnalysedPlane, step: number, coder: PlaneCoder =
   return coded;
 }
 
-/** The plane exactly as the decoder rebuilds it from {@link codeAnalysed}'s coefficients. */
-export function reconstructCoded(a: AnalysedPlane, c: CodedCoefficients): Float64Array {
-  return dequantise(c, a.width, a.height, a.levels, a.bands);
+/**
+ * The plane exactly as the decoder rebuilds it from {@link codeAnalysed}'s coefficients. With `handOut`, a
+ * resident plane's rebuild may be its arena's work region itself (no copy; ./resident-plane
+ * reconstructResident): the caller gives it back with giveBackWork before the plane is used or released.
+ */
+export function reconstructCoded(a: AnalysedPlane, c: CodedCoefficients, handOut = false): Float64Array {
+  return dequantise(c, a.width, a.height, a.levels, a.bands, handOut);
 }
 
 /**

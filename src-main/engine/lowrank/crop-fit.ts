@@ -1,9 +1,12 @@
 /**
- * The residual fit of ./residual-first's centre crop under a byte budget, as a plain function of plain data so
- * that the side job 'crop-fit' (./side-jobs) runs it on the second thread while the calling thread transforms
- * the whole planes; the result is the same bit for bit on either thread.
+ * The residual fit of ./residual-first's centre crop under a byte budget, and its coding for a PSNR floor, as
+ * plain functions of plain data so that the side jobs 'crop-fit' and 'crop-floor' (./side-jobs) run them on the
+ * second thread while the calling thread transforms the whole planes; the result is the same bit for bit on
+ * either thread.
  */
 import { analysePlane, releaseAnalysed } from '../codec/wavelet-plane';
+import { type CropBaseArgs, cropBaseError } from './base-estimate';
+import { codeAll, decodedRatio, stepForError } from './floor-aim';
 import { fitResidual } from './residual-fit';
 
 export interface CropFitArgs {
@@ -36,4 +39,27 @@ export function cropFit(a: CropFitArgs): CropFit {
   const { fit, ratio } = fitResidual(analysed, a.weights, a.scales, a.bytes, a.ratio, () => {});
   analysed.forEach(releaseAnalysed);
   return { fits: fit !== undefined, sse: fit ? fit.sse : Number.NaN, ratio };
+}
+
+/** The centre crop under a PSNR floor: the base estimate's arguments without its bytes, and the crop's target. */
+export interface CropFloorArgs extends Omit<CropBaseArgs, 'bytes' | 'crop'> {
+  crop: Float64Array[];
+  /** The weighted transform-domain squared error to code the crop at (the floor's, a little under). */
+  target: number;
+}
+
+/**
+ * The crop coded at the step whose transform-domain error is about `target` (../floor-aim stepForError), its
+ * decoded-over-transform error ratio, then the base layer's estimated error at the bytes that took
+ * (./base-estimate cropBaseError): [crop bytes, weighted transform-domain error, ratio, base error]. Its
+ * analysed planes are released before the base estimate, as ./residual-first released them.
+ */
+export function cropFloor(a: CropFloorArgs): Float64Array {
+  const { crop, width, height, weights, maxValue, target } = a;
+  const analysed = crop.map((p) => analysePlane(p, width, height));
+  const c = codeAll(analysed, weights, stepForError(analysed, weights, target));
+  const ratio = decodedRatio(crop, analysed, c.coded, weights, maxValue, c.sse);
+  analysed.forEach(releaseAnalysed);
+  const baseSse = cropBaseError({ ...a, bytes: c.size });
+  return Float64Array.of(c.size, c.sse, ratio, baseSse);
 }

@@ -9,6 +9,8 @@
  * borders, where the symmetric extension is, are a larger share of it) and follows its own content, so the
  * first encode is aimed by {@link spreadRatio}: five crops spread over the scan, at the whole scan's step.
  */
+
+import { giveBackWork } from '../codec/resident-plane';
 import {
   type AnalysedPlane,
   analysePlane,
@@ -18,8 +20,9 @@ import {
   quantiseAnalysed,
   reconstructCoded,
   releaseAnalysed,
+  smallestSafeStep,
 } from '../codec/wavelet-plane';
-import { tidy } from './residual-fit';
+import { codeHere, type PlanesCoder, tidy } from './residual-fit';
 import type { SideRunner } from './side-jobs';
 
 /** A w×h crop of each plane with its top-left corner at (x0, y0). */
@@ -82,6 +85,27 @@ export function stepForError(analysed: AnalysedPlane[], weights: number[], targe
   return solve(target / (ratio > 0 ? ratio : 1));
 }
 
+/** Code every plane at step d (scaled per plane): steps, bytes and the exact weighted transform-domain error. */
+export function codeAll(
+  analysed: AnalysedPlane[],
+  weights: number[],
+  step: number,
+  coder: PlanesCoder = codeHere,
+) {
+  const scales = stepScales(weights);
+  const d = analysed.reduce((m, a, k) => Math.max(m, smallestSafeStep(a) / scales[k]), step);
+  const steps = analysed.map((_, k) => tidy(d * scales[k]));
+  const coded = coder(analysed, steps);
+  const sse = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
+  return {
+    steps,
+    bytes: coded.map((c) => c.bytes),
+    coded,
+    sse,
+    size: coded.reduce((s, c) => s + c.bytes.length, 0),
+  };
+}
+
 /**
  * Weighted squared error of coded planes as decoded: grey planes rebuilt, rounded and clamped to integer
  * samples as the reader writes them (../colour roundInto); colour planes rebuilt before the colour transform
@@ -97,7 +121,8 @@ function decodedSse(
   const grey = src.length === 1;
   let sse = 0;
   for (let k = 0; k < src.length; k++) {
-    const rec = reconstructCoded(analysed[k], coded[k] as CodedCoefficients);
+    // The rebuild is read once here: a resident plane lends its work region rather than a fresh copy.
+    const rec = reconstructCoded(analysed[k], coded[k] as CodedCoefficients, true);
     const s = src[k];
     let e = 0;
     for (let i = 0; i < s.length; i++) {
@@ -109,6 +134,7 @@ function decodedSse(
       const d = s[i] - v;
       e += d * d;
     }
+    giveBackWork(rec);
     sse += weights[k] * e;
   }
   return sse;
@@ -195,9 +221,11 @@ export function spreadRatio(
   const jobs = centres.map(([fx, fy]) => {
     const x0 = at(fx * width, width, w);
     const y0 = at(fy * height, height, h);
-    const whole = { planes: planes as Array<Float32Array | Float64Array>, width, height, x0, y0 };
-    const own = { planes: cropPlanes(planes, width, x0, y0, w, h), width: w, height: h, x0: 0, y0: 0 };
-    return run('spread-crop', { ...(shared ? whole : own), w, h, weights, maxValue, step });
+    // Only planes outside shared memory are cropped here (a crop made for shared planes would go unused).
+    const where = shared
+      ? { planes: planes as Array<Float32Array | Float64Array>, width, height, x0, y0 }
+      : { planes: cropPlanes(planes, width, x0, y0, w, h), width: w, height: h, x0: 0, y0: 0 };
+    return run('spread-crop', { ...where, w, h, weights, maxValue, step });
   });
   const errors: Float64Array[] = [];
   for (let c = jobs.length - 1; c >= 0; c--) errors[c] = jobs[c]();

@@ -23,24 +23,15 @@ import type { QuantPlane } from '../codec/quantised';
 import {
   type AnalysedPlane,
   analysePlane,
-  codedSquaredError,
   estimateBits,
   estimateSquaredError,
   releaseAnalysed,
-  smallestSafeStep,
 } from '../codec/wavelet-plane';
 import { psnrFromSse } from '../metrics';
 import type { CropFit } from './crop-fit';
 import type { LayerSummary } from './encode-options';
-import { cropPlanes, decodedRatio, floorSse, spreadRatio, stepForError, stepScales } from './floor-aim';
-import {
-  codeHere,
-  fitResidual,
-  type PlanesCoder,
-  type ResidualBytes,
-  residualTarget,
-  tidy,
-} from './residual-fit';
+import { codeAll, cropPlanes, floorSse, spreadRatio, stepForError, stepScales } from './floor-aim';
+import { fitResidual, type ResidualBytes, residualTarget } from './residual-fit';
 import { planesCoder } from './side-coder';
 import { runHere, type SideRunner } from './side-jobs';
 import { emptyBase } from './two-layer';
@@ -128,22 +119,6 @@ const SPREAD_AIM = 1;
 const RECODE_WORTH = 0.04;
 /** The rate model's log-size change scaled by this to predict the coder's (see ./residual-fit elasticStep). */
 const RECODE_ELASTICITY = 1.2;
-/** Code every plane at step d (scaled per plane): steps, bytes and the exact weighted transform-domain error. */
-function codeAll(analysed: AnalysedPlane[], weights: number[], step: number, coder: PlanesCoder = codeHere) {
-  const scales = stepScales(weights);
-  const d = analysed.reduce((m, a, k) => Math.max(m, smallestSafeStep(a) / scales[k]), step);
-  const steps = analysed.map((_, k) => tidy(d * scales[k]));
-  const coded = coder(analysed, steps);
-  const sse = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
-  return {
-    steps,
-    bytes: coded.map((c) => c.bytes),
-    coded,
-    sse,
-    size: coded.reduce((s, c) => s + c.bytes.length, 0),
-  };
-}
-
 /**
  * The residual-only file when the crop predicts that a base is not worth its bytes; undefined when a base
  * may pay (the caller then runs the full two-layer search) or when the budget kind is not handled here.
@@ -155,7 +130,6 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   const cw = Math.min(width, CROP_SIDE);
   const ch = Math.min(height, CROP_SIDE);
   const crop = cropPlanes(planes, width, (width - cw) >> 1, (height - ch) >> 1, cw, ch);
-  const analyseCrop = () => crop.map((p) => analysePlane(p, cw, ch));
   const scales = stepScales(weights);
   const startBase = (bytes: number) =>
     (inp.side ?? runHere)('crop-base-sse', {
@@ -168,7 +142,7 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
       maxValue,
       tiles: [...CROP_TILES],
     });
-  let cropBytes: number;
+  let cropBytes = 0;
   let waveletSse = Number.NaN;
   let baseJob: () => number;
   let ratio = 0.8;
@@ -193,13 +167,25 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
     const db = (budget as { db: number }).db;
     const target = floorSse(db, cw * ch * nc, maxValue) * FLOOR_AIM;
     if (!(target > 0)) return undefined;
-    const cropAnalysed = analyseCrop();
-    const c = codeAll(cropAnalysed, weights, stepForError(cropAnalysed, weights, target));
-    cropBytes = c.size;
-    waveletSse = c.sse;
-    floorRatio = decodedRatio(crop, cropAnalysed, c.coded, weights, maxValue, c.sse);
-    cropAnalysed.forEach(releaseAnalysed);
-    baseJob = startBase(cropBytes);
+    // The crop coded for the floor, then the base estimate at its bytes: one job, on the side thread when
+    // there is one, while this thread transforms the whole planes (./crop-fit cropFloor).
+    const floorJob = (inp.side ?? runHere)('crop-floor', {
+      crop,
+      width: cw,
+      height: ch,
+      weights,
+      scales,
+      maxValue,
+      tiles: [...CROP_TILES],
+      target,
+    });
+    baseJob = () => {
+      const r = floorJob();
+      cropBytes = r[0];
+      waveletSse = r[1];
+      floorRatio = r[2];
+      return r[3];
+    };
   }
   cancel();
   // With a second thread the whole planes are transformed meanwhile (wasted only when the base may pay).

@@ -10,7 +10,7 @@ import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../cod
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import { ssim, ssimRowSums } from '../metrics';
 import { type CropBaseArgs, cropBaseError } from './base-estimate';
-import { type CropFit, type CropFitArgs, cropFit } from './crop-fit';
+import { type CropFit, type CropFitArgs, type CropFloorArgs, cropFit, cropFloor } from './crop-fit';
 import { type SpreadCropArgs, spreadCrop } from './floor-aim';
 import { verifyResidual } from './residual-verify';
 
@@ -55,6 +55,8 @@ export interface SideJobs {
   'spread-crop': { args: SpreadCropArgs; result: Float64Array };
   /** The centre crop's residual fitted to its share of a byte budget (./residual-first, ./crop-fit). */
   'crop-fit': { args: CropFitArgs; result: CropFit };
+  /** The centre crop coded for a PSNR floor, then the base estimate at its bytes (./crop-fit cropFloor). */
+  'crop-floor': { args: CropFloorArgs; result: Float64Array };
   /**
    * A residual plane's bytes range-decoded (into `into` when given, as 'residual-decode') and compared with
    * the coefficients and offsets its encode recorded (./residual-verify): '' when they agree, else what
@@ -75,6 +77,7 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
   'code-plane': ({ step, ...a }) => codeAnalysed(a, step, 2),
   'spread-crop': spreadCrop,
   'crop-fit': cropFit,
+  'crop-floor': cropFloor,
   'arena-pass': runArenaPass,
   'residual-decode': ({ bytes, width, height, into }) => {
     const n = width * height;
