@@ -159,6 +159,21 @@ export function standardError(r: { spread: number; count: number }): number {
   return (TRIMMED_SE_FACTOR * r.spread) / Math.sqrt(Math.max(1, r.count));
 }
 
+/** A step must exceed this many standard errors of its estimate (chosen here: 5 keeps white noise out). */
+export const STEP_SE = 5;
+
+/**
+ * The smallest step a typical position of the lines shows as significant: STEP_SE standard errors of a
+ * window step whose spread across nLines lines is `typicalSpread`. A profile whose RMS is below it may be
+ * missing band edges of its own size, which offsets whole stretches and makes the image worse than leaving
+ * it (scikit-image's grass.png: a 50–200 px band pattern of RMS 4 behind texture whose window steps spread
+ * 31 grey levels across lines gave thresholds of 8–9 against profiles of RMS 6.7–8 holding one of four
+ * edges, −2 to −3 dB), so banding-wide.ts does not remove it.
+ */
+export function detectionThreshold(typicalSpread: number, nLines: number): number {
+  return STEP_SE * standardError({ spread: typicalSpread, count: nLines });
+}
+
 /**
  * The direct levels of the level check: c(x) = median over the nLines sampled lines `raw` of (pixel − the line's
  * median), computed once per axis (band-lines.ts) and shared by every candidate profile. NaN pixels (the ink

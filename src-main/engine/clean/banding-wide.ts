@@ -18,9 +18,9 @@
  *    surroundings (a content edge is rarely the same on every line). Opposite edges closer than
  *    MIN_BAND_WIDTH are a thin feature, not a band. The running sum of the edges is the profile.
  * 4. Guards (a missed or invented edge offsets a whole stretch and makes an image worse): the profile must
- *    explain the direct per-position levels (banding-wide-checks.ts); and each half of the lines is
- *    analysed on its own: an edge that one half finds and the whole missed (content on the other half hid
- *    it) is added only when the other half shows a step of the same sign and similar size there.
+ *    explain the direct per-position levels and reach the lines' detection threshold (banding-wide-checks.ts;
+ *    chains too); each half of the lines is analysed alone: an edge one half finds and the whole missed
+ *    (content on the other half hid it) is added when the other half shows a step of that sign and size.
  * 5. When these guards reject the profile, it is rebuilt as a chain (`chained`): edges must agree in each
  *    of CHAIN_PARTS slices of the lines, within their noise (partAgrees, lenient); a significant group that
  *    fails (content, which may hide a band edge) is bridged by the step most lines agree on, or cuts the
@@ -45,16 +45,16 @@ import { bridgeStep, chainProfile } from './band-bridge';
 import { type BandAxis, bandAxis, type Lines, type PositionStats } from './band-lines';
 import { removeMean, rms } from './band-stats';
 import {
+  detectionThreshold,
   explainsLevels,
   partAgrees,
   robustStep,
+  STEP_SE,
   standardError,
   windowDifferences,
 } from './banding-wide-checks';
 import { medianInPlace } from './medians';
 
-/** A step must exceed this many standard errors of its estimate (chosen here: 5 keeps white noise out). */
-const STEP_SE = 5;
 /** The lines are split into this many parts (chosen here)… */
 const PARTS = 4;
 /**
@@ -159,8 +159,8 @@ export function wideBandProfile(
   const { profile } = whole;
   let detected =
     whole.steps >= (background ? 1 : MIN_STEPS) &&
-    rms(profile) >= (MIN_STRENGTH_8BIT * maxValue) / 255 &&
-    rms(profile) >= 3 * whole.noiseFloor &&
+    rms(profile) >= Math.max((MIN_STRENGTH_8BIT * maxValue) / 255, 3 * whole.noiseFloor) &&
+    rms(profile) >= detectionThreshold(whole.typicalSpread, nLines) &&
     explains(profile);
   // Each half of the lines, analysed alone, may find a band edge that content on the other half hid from
   // the whole; without it the profile would leave a whole stretch offset. Such an edge is added when the
@@ -259,8 +259,8 @@ function chained(
   const made = { steps: edges.length, noiseFloor, links: links.length };
   const detected =
     edges.length >= (background ? 1 : MIN_STEPS) &&
-    strength >= (MIN_CHAIN_STRENGTH_8BIT * maxValue) / 255 &&
-    strength >= 3 * noiseFloor;
+    strength >= Math.max((MIN_CHAIN_STRENGTH_8BIT * maxValue) / 255, 3 * noiseFloor) &&
+    strength >= detectionThreshold(whole.typicalSpread, nLines);
   // A cut leaves each stretch's offset against the others in place; where content, not a hidden band edge,
   // caused it, the uncut chain is right. It is kept when it passes the plain step sum's level check.
   if (detected && kept.length) {
@@ -395,5 +395,5 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
     for (let x = e.at + 1; x < lineLen; x++) profile[x] += e.step;
   });
   removeMean(profile);
-  return { profile, steps, noiseFloor: Math.sqrt(err2), edges: kept, bridges, cuts };
+  return { profile, steps, noiseFloor: Math.sqrt(err2), edges: kept, bridges, cuts, typicalSpread };
 }
