@@ -66,10 +66,8 @@ export function errorsSplit(arena: PlaneArena, bands: ArrayLike<{ w: number; h: 
   );
 }
 
-/** Positions per piece below which the rest of a dequantisation runs here at once. */
-const PHASE_MIN = 1 << 16;
-/** Positions a piece's bounds are rounded to (a chunk of q: 4 KiB). */
-const PHASE_UNIT = CHUNK;
+/** Positions a dequantisation piece's bounds are rounded to (16 f64 or q values: whole cache lines). */
+const PHASE_UNIT = 16;
 
 /**
  * The arena's q rebuilt (the band tables written: Δ, d1, d2 per band) into its work region as f64, over q,
@@ -78,17 +76,17 @@ const PHASE_UNIT = CHUNK;
 export function dequantiseSplit(arena: PlaneArena, nb: number): void {
   const { n, width, qAt, workAt } = arena;
   let from = 0;
-  if (splits(arena, n))
-    while (n - from >= PIECES * PHASE_MIN) {
-      // x[i] for i < to lies below q or over q[j] with j ≤ 2i − n + 1 < from (read by the phases before), and
-      // this phase's q (from … to − 1) lies over x[j] with j ≥ (n + from) / 2 ≥ to.
-      const to = Math.floor((n + from) / 2);
-      const start = from;
-      pass(arena, 'dequantise', false, true, (k) => {
-        const [i0, i1] = bounds(k, to - start, PHASE_UNIT);
-        return { a: [qAt, workAt, width, nb, start + i0, start + i1] };
-      });
-      from = to;
-    }
+  // A phase is split while its pieces are large enough (./arena-split.ts splits); the rest runs here.
+  while (n - from >= 2 && splits(arena, (n - from) / (2 * PIECES))) {
+    // x[i] for i < to lies below q or over q[j] with j ≤ 2i − n + 1 < from (read by the phases before), and
+    // this phase's q (from … to − 1) lies over x[j] with j ≥ (n + from) / 2 ≥ to.
+    const to = Math.floor((n + from) / 2);
+    const start = from;
+    pass(arena, 'dequantise', false, true, (k) => {
+      const [i0, i1] = bounds(k, to - start, PHASE_UNIT);
+      return { a: [qAt, workAt, width, nb, start + i0, start + i1] };
+    });
+    from = to;
+  }
   arena.lift.dequantiseInPlace(qAt, workAt, width, nb, GEO, PAR, from, n);
 }
