@@ -192,6 +192,27 @@ export function releaseForRedecode(
 }
 
 /**
+ * For a check that range-decodes `result`'s bytes elsewhere (another thread's memory, ../lowrank/residual-check):
+ * `result`'s values to compare the decoded ones with, its non-zeros (kept here as when the region is reused) or
+ * its array, while its arena's q region keeps holding them for the rebuild (which then neither loads them back
+ * nor keeps them again). Undefined when `result` is not resident.
+ */
+export function keptForCheck(
+  result: object,
+): { dense?: Int32Array; at?: Int32Array; v?: Int32Array } | undefined {
+  const arena = residentQ(result);
+  if (!arena) return undefined;
+  if (!denseQ.has(result) && !sparseQ.has(result)) {
+    releaseQ(arena);
+    qOwner.set(arena, result);
+    loadedBack.add(arena);
+  }
+  const dense = denseQ.get(result);
+  const sparse = sparseQ.get(result);
+  return dense ? { dense } : sparse && { at: sparse.at, v: sparse.v };
+}
+
+/**
  * `result`'s quantised values where they lie in its arena (loaded back when the region was reused), as a view
  * valid until the next call on that arena; undefined when they are not resident or already made into an array
  * (read `result.q` then). Reading them in place skips the array {@link residentResult}'s `q` would make: n
