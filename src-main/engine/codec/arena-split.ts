@@ -1,8 +1,9 @@
 /**
  * A plane arena's (./wasm/arena.ts) load and 9/7 transforms on two threads at once: the arena's memory is a
  * shared WebAssembly memory, which the scan encoder's side thread instantiates the same kernels on. Each pass
- * (the widening load, and per level the row pass and the column pass) is cut into {@link PIECES} disjoint
- * pieces: rows (in the row pairs of the whole pass) or column strips (the kernels' STRIP). Pieces 1 … PIECES − 1
+ * (the widening load, and per level the row pass and the column pass; the quantiser, squared error and
+ * dequantisation of ./arena-quant.ts) is cut into {@link PIECES} disjoint pieces: rows (in the row pairs of the
+ * whole pass), column strips (the kernels' STRIP) or groups of whole bands. Pieces 1 … PIECES − 1
  * are offered to the other thread in order; this thread computes piece 0, then takes the offered pieces back
  * from the last one down, computing each the other thread has not started, and waits for the rest before the
  * next pass (the claim protocol of src-main/node/parallel/side-thread.ts). Every sample gets the operations of
@@ -14,7 +15,7 @@
  * it, made by the message, on the other).
  */
 import { type PlaneArena, widenStaged } from './wasm/arena';
-import { COEF, type LiftingExports, liftingOn } from './wasm/runtime';
+import { COEF, GEO, type LiftingExports, liftingOn, PAR, RESULTS } from './wasm/runtime';
 import { arenaMemoryId, isSharedMemory, ownKernels } from './wasm/shared-memory';
 
 /** One piece of a pass, as sent to the other thread. */
@@ -22,10 +23,12 @@ export interface ArenaPassArgs {
   /** The arena's memory (shared) and a number naming it across threads. */
   memory: WebAssembly.Memory;
   id: number;
-  op: 'load' | 'rows' | 'cols' | 'touch';
+  op: 'load' | 'rows' | 'cols' | 'touch' | 'quantise' | 'errors' | 'dequantise';
   inverse: boolean;
   /**
-   * load: dst (f64 bytes); rows: x, width, w, y0, y1; cols: x, width, w, h, c0, c1; touch: from, to (bytes).
+   * load: dst (f64 bytes); rows: x, width, w, y0, y1; cols: x, width, w, h, c0, c1; touch: from, to (bytes);
+   * quantise and errors: x, q, width, b0, b1 (bands), flags (quantise); dequantise: q, x, width, nb, i0, i1.
+   * The band tables (and the statistics written per band) are the kernels' (./wasm/runtime.ts GEO, PAR, RESULTS).
    */
   a: number[];
   /** Scratch: the arena's own thread's tmp and buf, the other thread's tmp and buf, then the end of both. */
@@ -36,11 +39,12 @@ export interface ArenaPassArgs {
   stop?: Int32Array;
 }
 
-/** Offers a piece to the other thread; the returned function computes it here or waits for it. Call it once. */
+/** Offers a piece to the other thread; the returned function computes it here or waits for it (its
+ * {@link runArenaPass} value). Call it once. */
 export type ArenaRunner = (args: ArenaPassArgs) => () => unknown;
 
 /** Pieces per pass: enough for the two threads to meet wherever the other one got to. */
-const PIECES = 4;
+export const PIECES = 4;
 /** Passes over fewer samples run on this thread alone (a message costs more than the work). */
 export const SPLIT_MIN_SAMPLES = 1 << 16;
 let splitMin = SPLIT_MIN_SAMPLES;
@@ -51,7 +55,6 @@ export function setSplitMinSamples(n: number): void {
 }
 /** The kernels' column strip width (./wasm/assembly/lifting.ts STRIP). */
 const STRIP = 32;
-/** Kernel instances the other thread keeps, by memory (an encode uses a few arenas at a time). */
 
 let helper: ArenaRunner | undefined;
 
@@ -94,48 +97,64 @@ const PAGE_WORDS = 1024;
 /**
  * One write per page of the bytes from `from` below `to` that changes no value (an atomic add of 0, which no
  * write of the other thread can interleave with), so those pages are faulted in on this thread; until `stop`.
+ * Returns where it stopped (`to` when done).
  */
 function touchPages(
   memory: WebAssembly.Memory,
   from: number,
   to: number,
   stop: Int32Array | undefined,
-): void {
+): number {
   const v = new Int32Array(memory.buffer);
   for (let i = from >> 2, k = 0; i < to >> 2; i += PAGE_WORDS, k++) {
-    if (k % TOUCH_BATCH === 0 && stop && Atomics.load(stop, 0) !== 0) return;
+    if (k % TOUCH_BATCH === 0 && stop && Atomics.load(stop, 0) !== 0) return i << 2;
     Atomics.add(v, i, 0);
   }
+  return to;
 }
 
-/** Compute one piece (the side thread's job, and this thread's share). */
-export function runArenaPass(args: ArenaPassArgs): null {
+/**
+ * Compute one piece (the side thread's job, and this thread's share): a quantise piece's count of non-zeros, a
+ * touch's end (the byte it stopped at), else 0.
+ */
+export function runArenaPass(args: ArenaPassArgs): number {
   const a = args.a;
   // Pages are worth touching ahead only on another thread: taken back here, they are touched when used.
-  if (args.op === 'touch') {
-    if (!ownKernels(args.memory)) touchPages(args.memory, a[0], a[1], args.stop);
-    return null;
-  }
+  if (args.op === 'touch')
+    return ownKernels(args.memory) ? a[0] : touchPages(args.memory, a[0], a[1], args.stop);
   const { lift, tmp, buf, end } = kernelsFor(args);
-  if (args.op === 'load') {
-    if (args.samples) widenStaged(args.memory, lift, a[0], args.samples, tmp, end - tmp);
-  } else if (args.op === 'rows')
-    (args.inverse ? lift.inverseRows : lift.forwardRows)(a[0], a[1], a[2], a[3], a[4], tmp, COEF);
-  else (args.inverse ? lift.inverseCols : lift.forwardCols)(a[0], a[1], a[2], a[3], a[4], a[5], buf, COEF);
-  return null;
+  switch (args.op) {
+    case 'load':
+      if (args.samples) widenStaged(args.memory, lift, a[0], args.samples, tmp, end - tmp);
+      break;
+    case 'rows':
+      (args.inverse ? lift.inverseRows : lift.forwardRows)(a[0], a[1], a[2], a[3], a[4], tmp, COEF);
+      break;
+    case 'cols':
+      (args.inverse ? lift.inverseCols : lift.forwardCols)(a[0], a[1], a[2], a[3], a[4], a[5], buf, COEF);
+      break;
+    case 'quantise':
+      return lift.quantiseStats(a[0], a[1], a[2], a[3], a[4], GEO, PAR, a[5], RESULTS);
+    case 'errors':
+      lift.squaredError(a[0], a[1], a[2], a[4] - a[3], GEO + 16 * a[3], PAR + 32 * a[3], RESULTS + 8 * a[3]);
+      break;
+    case 'dequantise':
+      lift.dequantiseInPlace(a[0], a[1], a[2], a[3], GEO, PAR, a[4], a[5]);
+  }
+  return 0;
 }
 
 /**
  * One pass in PIECES pieces, `piece(k)` giving piece k's arguments (k = −1: the whole pass); all of it here
- * without a helper or when `split` is false.
+ * without a helper or when `split` is false. Returns the sum of the pieces' values (integers: any order).
  */
-function pass(
+export function pass(
   arena: PlaneArena,
   op: ArenaPassArgs['op'],
   inverse: boolean,
   split: boolean,
   piece: (k: number) => ArenaPiece,
-): void {
+): number {
   const base = {
     memory: arena.memory,
     id: arenaMemoryId(arena.memory),
@@ -144,14 +163,12 @@ function pass(
     scratch: [arena.tmpAt, arena.bufAt, arena.sideTmpAt, arena.sideBufAt, arena.flagsAt],
   };
   const run = helper;
-  if (!run || !split) {
-    runArenaPass({ ...base, ...piece(-1) });
-    return;
-  }
+  if (!run || !split) return runArenaPass({ ...base, ...piece(-1) });
   const joins: Array<() => unknown> = [];
   for (let k = 1; k < PIECES; k++) joins.push(run({ ...base, ...piece(k) }));
-  runArenaPass({ ...base, ...piece(0) });
-  for (let k = joins.length - 1; k >= 0; k--) joins[k]();
+  let sum = runArenaPass({ ...base, ...piece(0) });
+  for (let k = joins.length - 1; k >= 0; k--) sum += joins[k]() as number;
+  return sum;
 }
 
 /** A piece's kernel arguments (and samples for a load); k = −1: the whole pass. */
@@ -161,12 +178,12 @@ interface ArenaPiece {
 }
 
 /** Whether passes over `samples` values are split: a helper is set, the memory is shared and the pass large. */
-function splits(arena: PlaneArena, samples: number): boolean {
+export function splits(arena: PlaneArena, samples: number): boolean {
   return !!helper && samples >= splitMin && isSharedMemory(arena.memory) && arenaMemoryId(arena.memory) > 0;
 }
 
 /** Piece k of [0, n) cut in PIECES, its bounds rounded down to multiples of `unit` (the last ends at n). */
-function bounds(k: number, n: number, unit: number): [number, number] {
+export function bounds(k: number, n: number, unit: number): [number, number] {
   if (k < 0) return [0, n];
   const units = Math.ceil(n / unit);
   const at = (j: number) => (j >= PIECES ? n : Math.min(n, unit * Math.floor((j * units) / PIECES)));
@@ -233,6 +250,8 @@ export function transformSplit(
 
 /** Each arena's pending touch of its work region: the stop word and the join. */
 const touching = new WeakMap<PlaneArena, { stop: Int32Array; join: () => unknown }>();
+/** Where a paused touch of each arena's work region stopped ({@link whileTouchPaused}). */
+const touchedTo = new WeakMap<PlaneArena, number>();
 
 /**
  * Offer the other thread the first touch of the arena's work region (q, then the reconstruction over it; fresh
@@ -242,13 +261,15 @@ const touching = new WeakMap<PlaneArena, { stop: Int32Array; join: () => unknown
 export function offerTouch(arena: PlaneArena): void {
   const run = helper;
   if (!run || !splits(arena, arena.n) || touching.has(arena)) return;
+  const from = touchedTo.get(arena) ?? arena.workAt;
+  if (from >= arena.endAt) return;
   const stop = new Int32Array(new SharedArrayBuffer(4));
   const args: ArenaPassArgs = {
     memory: arena.memory,
     id: arenaMemoryId(arena.memory),
     op: 'touch',
     inverse: false,
-    a: [arena.workAt, arena.endAt],
+    a: [from, arena.endAt],
     scratch: [],
     stop,
   };
@@ -261,5 +282,20 @@ export function settleTouch(arena: PlaneArena): void {
   if (!t) return;
   touching.delete(arena);
   Atomics.store(t.stop, 0, 1);
-  t.join();
+  touchedTo.set(arena, t.join() as number);
+}
+
+/**
+ * `fn` (split passes on the arena) with its pending touch stopped, so that the other thread takes their pieces
+ * (faulting in the pages they write) instead of touching pages in order; the touch goes on afterwards from
+ * where it stopped.
+ */
+export function whileTouchPaused<T>(arena: PlaneArena, fn: () => T): T {
+  if (!touching.has(arena)) return fn();
+  settleTouch(arena);
+  try {
+    return fn();
+  } finally {
+    offerTouch(arena);
+  }
 }

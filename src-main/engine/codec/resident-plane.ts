@@ -9,6 +9,7 @@
  * quantised result made from it ({@link ownQ}); a result whose q has since been overwritten, or any plane from
  * elsewhere (a copy in shared memory, the stack coder's own arrays), takes the TypeScript or copying path.
  */
+import { dequantiseSplit, errorsSplit, quantiseSplit } from './arena-quant';
 import { loadSplit, offerTouch, settleTouch, transformSplit } from './arena-split';
 import { PlaneArena } from './wasm/arena';
 import {
@@ -30,6 +31,15 @@ const resultArena = new WeakMap<object, PlaneArena>();
 /** A result's q as an array (made on first use), or its non-zeros (positions, values) once its region was reused. */
 const denseQ = new WeakMap<object, Int32Array>();
 const sparseQ = new WeakMap<object, { at: Int32Array; v: Int32Array }>();
+/**
+ * Coder 2's bin statistics of the q now in each arena's q region, as the quantiser computed them with its
+ * steps (dropped whenever the region is written: {@link releaseQ}).
+ */
+const qStats = new WeakMap<PlaneArena, { steps: Float64Array; n: Int32Array; sum: Float64Array }>();
+/** Arenas whose q region holds its owner's kept non-zeros as loaded back, not handed out as a view since. */
+const loadedBack = new WeakSet<PlaneArena>();
+/** Each arena's band maxima (its coefficients do not change), with the bands they are of. */
+const maxima = new WeakMap<PlaneArena, { bands: BandRect[]; top: Float64Array }>();
 /** Arenas whose work region holds a reconstruction handed to a caller: nothing may write it again. */
 const workTaken = new WeakSet<PlaneArena>();
 /** Each handed-out reconstruction's arena, until its caller gives it back ({@link giveBackWork}). */
@@ -99,7 +109,10 @@ function qValues(result: object, n: number): Int32Array {
 function releaseQ(arena: PlaneArena): void {
   const owner = qOwner.get(arena);
   qOwner.delete(arena);
-  if (!owner || denseQ.has(owner) || !resultArena.has(owner)) return;
+  qStats.delete(arena);
+  // Values loaded back from their non-zeros and not handed out since: those non-zeros are still right.
+  const unchanged = loadedBack.delete(arena);
+  if (!owner || denseQ.has(owner) || unchanged || !resultArena.has(owner)) return;
   const { n, workAt } = arena;
   // The quantiser counted the non-zeros (the result's nonZero). Below q lies free room (the coder's map, not in
   // use now) for 4n bytes: the kernel writes positions and values there when they fit, else a pass here.
@@ -155,6 +168,7 @@ export function residentQ(result: object): PlaneArena | undefined {
       q[sparse.at[k]] = sparse.v[k];
       flags[sparse.at[k] >> CHUNK_BITS] = 1;
     }
+    loadedBack.add(arena);
   }
   qOwner.set(arena, result);
   return arena;
@@ -178,6 +192,27 @@ export function releaseForRedecode(
 }
 
 /**
+ * For a check that range-decodes `result`'s bytes elsewhere (another thread's memory, ../lowrank/residual-check):
+ * `result`'s values to compare the decoded ones with, its non-zeros (kept here as when the region is reused) or
+ * its array, while its arena's q region keeps holding them for the rebuild (which then neither loads them back
+ * nor keeps them again). Undefined when `result` is not resident.
+ */
+export function keptForCheck(
+  result: object,
+): { dense?: Int32Array; at?: Int32Array; v?: Int32Array } | undefined {
+  const arena = residentQ(result);
+  if (!arena) return undefined;
+  if (!denseQ.has(result) && !sparseQ.has(result)) {
+    releaseQ(arena);
+    qOwner.set(arena, result);
+    loadedBack.add(arena);
+  }
+  const dense = denseQ.get(result);
+  const sparse = sparseQ.get(result);
+  return dense ? { dense } : sparse && { at: sparse.at, v: sparse.v };
+}
+
+/**
  * `result`'s quantised values where they lie in its arena (loaded back when the region was reused), as a view
  * valid until the next call on that arena; undefined when they are not resident or already made into an array
  * (read `result.q` then). Reading them in place skips the array {@link residentResult}'s `q` would make: n
@@ -186,7 +221,9 @@ export function releaseForRedecode(
 export function residentQView(result: object): Int32Array | undefined {
   if (denseQ.has(result)) return undefined;
   const arena = residentQ(result);
-  return arena && new Int32Array(arena.memory.buffer, arena.qAt, arena.n);
+  if (!arena) return undefined;
+  loadedBack.delete(arena);
+  return new Int32Array(arena.memory.buffer, arena.qAt, arena.n);
 }
 
 /** A new arena holding the forward transform (`levels` levels) of `plane`; null when none can be made. */
@@ -206,7 +243,8 @@ export function analyseResident(
 
 /**
  * Dead-zone quantisation of the resident coefficients into the arena's q (per band step, rounding offset,
- * zero threshold); the number of non-zero values. Make its result with {@link residentResult}.
+ * zero threshold), split with the other thread (./arena-quant.ts); the number of non-zero values. Make its
+ * result with {@link residentResult}. Coder 2's bin statistics come with it ({@link binStatsResident}).
  */
 export function quantiseResident(
   arena: PlaneArena,
@@ -215,34 +253,16 @@ export function quantiseResident(
 ): number {
   releaseQ(arena);
   arena.bands(bands, par);
-  const { width, n } = arena;
-  const nonZero = arena.lift.quantise(
-    arena.coeffsAt,
-    arena.qAt,
-    width,
-    bands.length,
-    GEO,
-    PAR,
-    arena.flagsAt,
-    n,
-  );
+  const nonZero = quantiseSplit(arena, bands);
+  qStats.set(arena, {
+    steps: Float64Array.from(bands, (_, bi) => par(bi)[0]),
+    ...statsOf(arena, bands.length),
+  });
   return nonZero;
 }
 
-/** Per-band results of the last statistics kernel, `per` f64 per band. */
-function results(arena: PlaneArena, nb: number, per: number): Float64Array {
-  return new Float64Array(arena.memory.buffer, RESULTS, per * nb);
-}
-
-/** Coder 2's bin statistics of the resident coefficients and q (binStats in ./coeff-coder.ts). */
-export function binStatsResident(
-  arena: PlaneArena,
-  bands: BandRect[],
-  steps: Float64Array,
-): { n: Int32Array; sum: Float64Array } {
-  const nb = bands.length;
-  arena.bands(bands, (bi) => [steps[bi], 0, 0]);
-  arena.lift.binStats(arena.coeffsAt, arena.qAt, arena.width, nb, GEO, PAR, RESULTS);
+/** The bin statistics in the kernels' results (4 f64 per band: n1, n2, s1, s2) as counts and sums. */
+function statsOf(arena: PlaneArena, nb: number): { n: Int32Array; sum: Float64Array } {
   const r = results(arena, nb, 4);
   const n = new Int32Array(2 * nb);
   const sum = new Float64Array(2 * nb);
@@ -255,6 +275,29 @@ export function binStatsResident(
   return { n, sum };
 }
 
+/** Per-band results of the last statistics kernel, `per` f64 per band. */
+function results(arena: PlaneArena, nb: number, per: number): Float64Array {
+  return new Float64Array(arena.memory.buffer, RESULTS, per * nb);
+}
+
+/**
+ * Coder 2's bin statistics of the resident coefficients and q (binStats in ./coeff-coder.ts): those the
+ * quantiser made with the same steps when the q region still holds its values, else computed here.
+ */
+export function binStatsResident(
+  arena: PlaneArena,
+  bands: BandRect[],
+  steps: Float64Array,
+): { n: Int32Array; sum: Float64Array } {
+  const nb = bands.length;
+  const known = qStats.get(arena);
+  if (known && known.steps.length === nb && known.steps.every((d, bi) => d === steps[bi]))
+    return { n: known.n.slice(), sum: known.sum.slice() };
+  arena.bands(bands, (bi) => [steps[bi], 0, 0]);
+  arena.lift.binStats(arena.coeffsAt, arena.qAt, arena.width, nb, GEO, PAR, RESULTS);
+  return statsOf(arena, nb);
+}
+
 /** Per band, Σ(c − rebuilt(q))² of the resident coefficients and q (par: Δ, d1, d2 per band). */
 export function bandErrorsResident(
   arena: PlaneArena,
@@ -262,15 +305,19 @@ export function bandErrorsResident(
   par: (bi: number) => number[],
 ): Float64Array {
   arena.bands(bands, par);
-  arena.lift.squaredError(arena.coeffsAt, arena.qAt, arena.width, bands.length, GEO, PAR, RESULTS);
+  errorsSplit(arena, bands);
   return results(arena, bands.length, 1).slice();
 }
 
-/** Per band, the largest magnitude of the resident coefficients. */
+/** Per band, the largest magnitude of the resident coefficients (found once per arena and bands). */
 export function bandMaxResident(arena: PlaneArena, bands: BandRect[]): Float64Array {
+  const known = maxima.get(arena);
+  if (known?.bands === bands) return known.top.slice();
   arena.bands(bands, () => [0, 0, 0]);
   arena.lift.bandMax(arena.coeffsAt, arena.width, bands.length, GEO, RESULTS);
-  return results(arena, bands.length, 1).slice();
+  const top = results(arena, bands.length, 1).slice();
+  maxima.set(arena, { bands, top });
+  return top.slice();
 }
 
 /**
@@ -290,12 +337,12 @@ export function reconstructResident(
 ): Float64Array | undefined {
   if (workTaken.has(arena)) return undefined;
   arena.bands(bands, par);
-  const { width, height, n, workAt } = arena;
+  const { n, workAt } = arena;
   // The region's q is about to be overwritten: its owner keeps its non-zeros (loaded back when next needed).
   releaseQ(arena);
   settleTouch(arena);
   if (handOut) workTaken.add(arena);
-  arena.lift.dequantiseInPlace(arena.qAt, workAt, width, height, bands.length, GEO, PAR);
+  dequantiseSplit(arena, bands.length);
   if (levels > 0) transformSplit(arena, levels, LIFTING, true, workAt);
   const x = new Float64Array(arena.memory.buffer, workAt, n);
   if (!handOut) return x.slice();

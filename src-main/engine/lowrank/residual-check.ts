@@ -18,7 +18,7 @@
 
 import { recallCode } from '../codec/coded-planes';
 import { decodeResidentV2 } from '../codec/coeff-coder';
-import { releaseForRedecode, residentQ, residentQView } from '../codec/resident-plane';
+import { keptForCheck, releaseForRedecode, residentQ, residentQView } from '../codec/resident-plane';
 import type { CodedCoefficients } from '../codec/wavelet-plane';
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import { sameAsKept, sameInt32, sameOffsets } from './residual-verify';
@@ -94,16 +94,15 @@ export function startResidualCheck(
 
 /**
  * The check of a resident plane on the other thread ('residual-verify', ./residual-verify): its recorded
- * values taken as their non-zeros (../codec/resident-plane releaseForRedecode; the rebuild loads them back),
- * its bytes decoded into a buffer of the other thread's, so this thread may rebuild over the q region
- * meanwhile. Undefined when the plane is not resident.
+ * values taken as their non-zeros (../codec/resident-plane keptForCheck; the q region keeps them for the
+ * rebuild), its bytes decoded into a buffer of the other thread's, so this thread may rebuild over the q
+ * region meanwhile. Undefined when the plane is not resident.
  */
 function verifyElsewhere(run: SideRunner, coded: CodedCoefficients, width: number, height: number) {
-  const kept = releaseForRedecode(coded);
+  const kept = keptForCheck(coded);
   if (!kept) return undefined;
-  const { arena: _, ...values } = kept;
   const into = spareBuffer(width * height);
-  const args = { bytes: coded.bytes, width, height, kept: values, offsets: coded.offsets, into };
+  const args = { bytes: coded.bytes, width, height, kept, offsets: coded.offsets, into };
   const join = started(run, 'residual-verify', args);
   return { into, differs: () => join() || undefined };
 }

@@ -66,8 +66,11 @@ export interface SideJobs {
     args: Parameters<typeof verifyResidual>[0];
     result: string;
   };
-  /** A piece of a plane arena's load or 9/7 pass, in the arena's shared memory (../codec/arena-split). */
-  'arena-pass': { args: ArenaPassArgs; result: null };
+  /**
+   * A piece of a plane arena's load, 9/7 pass, quantiser, squared error or dequantisation, in the arena's shared
+   * memory (../codec/arena-split, ../codec/arena-quant).
+   */
+  'arena-pass': { args: ArenaPassArgs; result: number };
 }
 export type SideJobName = keyof SideJobs;
 

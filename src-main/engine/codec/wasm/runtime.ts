@@ -46,15 +46,29 @@ export interface LiftingExports {
     flags: number,
     n: number,
   ): number;
+  /** Bands b0 … b1 − 1 quantised (flags zeroed first by the caller), with their bin statistics at out + 32·b. */
+  quantiseStats(
+    x: number,
+    q: number,
+    width: number,
+    b0: number,
+    b1: number,
+    geo: number,
+    par: number,
+    flags: number,
+    out: number,
+  ): number;
   dequantise(q: number, x: number, width: number, nb: number, geo: number, par: number): void;
+  /** dequantise of the raster positions i0 … i1 − 1, in place over q (./assembly/lifting.ts). */
   dequantiseInPlace(
     q: number,
     x: number,
     width: number,
-    height: number,
     nb: number,
     geo: number,
     par: number,
+    i0: number,
+    i1: number,
   ): void;
   widen(dst: number, src: number, n: number): void;
   compactNonZero(q: number, flags: number, n: number, at: number, v: number): number;

@@ -308,14 +308,26 @@ const CHUNK_BITS = 10;
 const CHUNK: i32 = 1 << CHUNK_BITS;
 
 /**
- * Dead-zone quantisation q = sign(c)·⌊|c|/Δ + ρ⌋ of every coefficient (zeros written too); |c| ≤ the band's
- * zero threshold is 0 without dividing, as in the TypeScript. flags[j] (u8) is set to 1 when q entries
- * j·CHUNK … (j+1)·CHUNK − 1 hold a non-zero, else 0 (n entries in all). Returns the number of non-zero q.
+ * Dead-zone quantisation q = sign(c)·⌊|c|/Δ + ρ⌋ of every coefficient of bands b0 … b1 − 1 (zeros written too);
+ * |c| ≤ the band's zero threshold is 0 without dividing, as in the TypeScript. Sets flags[j] (u8) to 1 when q
+ * entries j·CHUNK … (j+1)·CHUNK − 1 receive a non-zero (never clears one: the caller zeroes the flags first, so
+ * two threads quantising other bands may set flags at once). With `out` ≠ 0, also coder 2's bin statistics of
+ * each band b at out + 32·b, as {@link binStats} computes them from the stored q (same terms, same order).
+ * Returns the number of non-zero q.
  */
-export function quantise(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, flags: usize, n: i32): i32 {
-  memory.fill(flags, 0, <usize>((n + CHUNK - 1) >> CHUNK_BITS));
+function quantiseBands(
+  x: usize,
+  q: usize,
+  width: i32,
+  b0: i32,
+  b1: i32,
+  geo: usize,
+  par: usize,
+  flags: usize,
+  out: usize,
+): i32 {
   let nonZero = 0;
-  for (let bi = 0; bi < nb; bi++) {
+  for (let bi = b0; bi < b1; bi++) {
     const g = geo + (<usize>bi << 4);
     const p = par + (<usize>bi << 5);
     const x0 = load<i32>(g);
@@ -325,6 +337,10 @@ export function quantise(x: usize, q: usize, width: i32, nb: i32, geo: usize, pa
     const d = load<f64>(p);
     const rho = load<f64>(p, 8);
     const zero = load<f64>(p, 16);
+    let n1: f64 = 0;
+    let n2: f64 = 0;
+    let s1: f64 = 0;
+    let s2: f64 = 0;
     for (let y = 0; y < bh; y++) {
       const row = <usize>(y0 + y) * <usize>width + <usize>x0;
       for (let i: usize = 0; i < <usize>bw; i++) {
@@ -332,18 +348,65 @@ export function quantise(x: usize, q: usize, width: i32, nb: i32, geo: usize, pa
         const ac = abs<f64>(c);
         let v: i32 = 0;
         if (ac > zero) {
-          const m = floor<f64>(ac / d + rho);
+          const u = ac / d;
+          const m = floor<f64>(u + rho);
           if (m != 0) {
             v = toInt32(c < 0 ? -m : m);
             nonZero++;
             store<u8>(flags + ((row + i) >> CHUNK_BITS), 1);
+            // binStats' terms: |q| as stored, and |c|/Δ − |q| into the class of |q| (none for a stored 0).
+            if (out != 0 && v != 0) {
+              const a: f64 = v < 0 ? -<f64>v : <f64>v;
+              const r = u - a;
+              if (a == 1) {
+                n1++;
+                s1 += r;
+              } else {
+                n2++;
+                s2 += r;
+              }
+            }
           }
         }
         store<i32>(q + ((row + i) << 2), v);
       }
     }
+    if (out != 0) {
+      const o = out + (<usize>bi << 5);
+      store<f64>(o, n1);
+      store<f64>(o, n2, 8);
+      store<f64>(o, s1, 16);
+      store<f64>(o, s2, 24);
+    }
   }
   return nonZero;
+}
+
+/**
+ * Dead-zone quantisation of every band (see quantiseBands) with the flags of the n q entries zeroed first.
+ * Returns the number of non-zero q.
+ */
+export function quantise(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, flags: usize, n: i32): i32 {
+  memory.fill(flags, 0, <usize>((n + CHUNK - 1) >> CHUNK_BITS));
+  return quantiseBands(x, q, width, 0, nb, geo, par, flags, 0);
+}
+
+/**
+ * Bands b0 … b1 − 1 quantised (flags zeroed beforehand by the caller) and their bin statistics written at
+ * out + 32·b: one piece of a quantisation split by whole bands (../../arena-split.ts). Returns the non-zeros.
+ */
+export function quantiseStats(
+  x: usize,
+  q: usize,
+  width: i32,
+  b0: i32,
+  b1: i32,
+  geo: usize,
+  par: usize,
+  flags: usize,
+  out: usize,
+): i32 {
+  return quantiseBands(x, q, width, b0, b1, geo, par, flags, out);
 }
 
 /** (v ± δ)·Δ with δ = d1 for |v| = 1 and d2 for |v| ≥ 2 (v ≠ 0), the TypeScript's `rebuilt`. */
@@ -374,13 +437,19 @@ export function dequantise(q: usize, x: usize, width: i32, nb: i32, geo: usize, 
 }
 
 /**
- * {@link dequantise} in raster order, so that q may lie in the upper half of x's region (q = x + 4n, the arena's
- * layout): element i reads q[i] before writing x[i], and x[i]'s bytes end at or below q[i + 1]'s, so every q is
- * read before anything writes over it. Each row is done band by band from left to right (the bands partition
- * the plane; a pixel outside every band is left as it is, as dequantise leaves it). Same values, bit for bit.
+ * {@link dequantise} of the raster positions i0 … i1 − 1 in raster order, so that q may lie in the upper half of
+ * x's region (q = x + 4n, the arena's layout): element i reads q[i] before writing x[i], and x[i]'s bytes end at
+ * or below q[i + 1]'s, so a call from i0 = 0 to n reads every q before anything writes over it (a split
+ * dequantisation orders its pieces so that none writes over q another has yet to read: ../../arena-split.ts).
+ * Each row is done band by band from left to right (the bands partition the plane; a pixel outside every band
+ * is left as it is, as dequantise leaves it). Same values, bit for bit.
  */
-export function dequantiseInPlace(q: usize, x: usize, width: i32, height: i32, nb: i32, geo: usize, par: usize): void {
-  for (let y = 0; y < height; y++) {
+export function dequantiseInPlace(q: usize, x: usize, width: i32, nb: i32, geo: usize, par: usize, i0: i32, i1: i32): void {
+  if (i1 <= i0) return;
+  for (let y = i0 / width; y <= (i1 - 1) / width; y++) {
+    // This row's columns within [i0, i1).
+    const lo = max<i32>(0, i0 - y * width);
+    const hi = min<i32>(width, i1 - y * width);
     let from = 0;
     for (;;) {
       // The band of this row that starts leftmost at or after `from`.
@@ -394,15 +463,16 @@ export function dequantiseInPlace(q: usize, x: usize, width: i32, height: i32, n
         best = bi;
         bx = x0;
       }
-      if (best < 0) break;
+      if (best < 0 || bx >= hi) break;
       const g = geo + (<usize>best << 4);
       const p = par + (<usize>best << 5);
       const bw = load<i32>(g, 8);
       const step = load<f64>(p);
       const d1 = load<f64>(p, 8);
       const d2 = load<f64>(p, 16);
-      const row = <usize>y * <usize>width + <usize>bx;
-      for (let i: usize = 0; i < <usize>bw; i++) {
+      const row = <usize>y * <usize>width;
+      const c1 = <usize>min<i32>(bx + bw, hi);
+      for (let i = <usize>max<i32>(bx, lo); i < c1; i++) {
         const v = load<i32>(q + ((row + i) << 2));
         store<f64>(x + ((row + i) << 3), v != 0 ? rebuilt(<f64>v, step, d1, d2) : 0);
       }

@@ -1,0 +1,92 @@
+/**
+ * A plane arena's quantiser (with coder 2's bin statistics), transform-domain squared error and dequantisation
+ * on two threads at once, as ./arena-split.ts does the load and the 9/7 passes: each is cut into PIECES pieces
+ * that the other thread may take, the rest computed here.
+ *
+ * - The quantiser and the squared error are cut into groups of whole bands (the finest level's three bands and
+ *   the rest: about a quarter of the plane each). Each band's floating-point sums (the bin statistics, the
+ *   squared error) are then formed by one thread in the band's raster order, the same operations as the
+ *   single-thread kernels, so the bits do not depend on which thread took which piece; the non-zero count is
+ *   an integer sum. The chunk flags of q (./wasm/runtime.ts CHUNK) are zeroed first and only set by a piece.
+ * - The dequantisation writes the rebuilt coefficients (f64) over the work region whose upper half holds q
+ *   (i32, ./wasm/arena.ts): x[i] lies over q[2i − n] and q[2i − n + 1]. It is done in phases: the first rebuilds
+ *   the positions below ⌊n/2⌋, which lie below q; each next one the positions whose x lies over the q the
+ *   phases before it have read, and whose own q lies where only later phases write (about half of what
+ *   remains). A phase's pieces are positions split anyhow, since none writes where another reads; a phase
+ *   starts once the one before it is joined. The last phases (small) run here in raster order, as the
+ *   single-thread kernel does. Every x is rebuilt from its own q, so the values are the same bit for bit.
+ */
+import { bounds, PIECES, pass, splits, whileTouchPaused } from './arena-split';
+import type { PlaneArena } from './wasm/arena';
+import { CHUNK, GEO, PAR } from './wasm/runtime';
+
+/** Band indices cutting `bands` into PIECES runs of about equal samples: PIECES + 1 bounds, 0 first, nb last. */
+export function bandCuts(bands: ArrayLike<{ w: number; h: number }>): number[] {
+  const nb = bands.length;
+  let total = 0;
+  for (let b = 0; b < nb; b++) total += bands[b].w * bands[b].h;
+  const cuts = [0];
+  let sum = 0;
+  for (let b = 0, k = 1; k < PIECES; k++) {
+    while (b < nb && sum < (k * total) / PIECES) sum += bands[b].w * bands[b++].h;
+    cuts.push(b);
+  }
+  cuts.push(nb);
+  return cuts;
+}
+
+/** Bands of piece k (k = −1: all). */
+function bandsOf(cuts: number[], k: number): [number, number] {
+  return k < 0 ? [cuts[0], cuts[PIECES]] : [cuts[k], cuts[k + 1]];
+}
+
+/**
+ * Dead-zone quantisation of the arena's coefficients into its q (the band tables written: step, rounding
+ * offset, zero threshold per band), with coder 2's bin statistics per band in the kernels' results (4 f64 per
+ * band: counts of |q| = 1 and ≥ 2, sums of |c|/Δ − |q|); the number of non-zero q.
+ */
+export function quantiseSplit(arena: PlaneArena, bands: ArrayLike<{ w: number; h: number }>): number {
+  const { n, width } = arena;
+  new Uint8Array(arena.memory.buffer, arena.flagsAt, Math.ceil(n / CHUNK)).fill(0);
+  const cuts = bandCuts(bands);
+  return whileTouchPaused(arena, () =>
+    pass(arena, 'quantise', false, splits(arena, n), (k) => ({
+      a: [arena.coeffsAt, arena.qAt, width, ...bandsOf(cuts, k), arena.flagsAt],
+    })),
+  );
+}
+
+/** Per band, Σ(c − rebuilt(q))² of the arena's coefficients and q into the kernels' results (1 f64 per band). */
+export function errorsSplit(arena: PlaneArena, bands: ArrayLike<{ w: number; h: number }>): void {
+  const cuts = bandCuts(bands);
+  whileTouchPaused(arena, () =>
+    pass(arena, 'errors', false, splits(arena, arena.n), (k) => ({
+      a: [arena.coeffsAt, arena.qAt, arena.width, ...bandsOf(cuts, k)],
+    })),
+  );
+}
+
+/** Positions a dequantisation piece's bounds are rounded to (16 f64 or q values: whole cache lines). */
+const PHASE_UNIT = 16;
+
+/**
+ * The arena's q rebuilt (the band tables written: Δ, d1, d2 per band) into its work region as f64, over q,
+ * in the phases of this module's header.
+ */
+export function dequantiseSplit(arena: PlaneArena, nb: number): void {
+  const { n, width, qAt, workAt } = arena;
+  let from = 0;
+  // A phase is split while its pieces are large enough (./arena-split.ts splits); the rest runs here.
+  while (n - from >= 2 && splits(arena, (n - from) / (2 * PIECES))) {
+    // x[i] for i < to lies below q or over q[j] with j ≤ 2i − n + 1 < from (read by the phases before), and
+    // this phase's q (from … to − 1) lies over x[j] with j ≥ (n + from) / 2 ≥ to.
+    const to = Math.floor((n + from) / 2);
+    const start = from;
+    pass(arena, 'dequantise', false, true, (k) => {
+      const [i0, i1] = bounds(k, to - start, PHASE_UNIT);
+      return { a: [qAt, workAt, width, nb, start + i0, start + i1] };
+    });
+    from = to;
+  }
+  arena.lift.dequantiseInPlace(qAt, workAt, width, nb, GEO, PAR, from, n);
+}

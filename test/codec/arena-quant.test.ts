@@ -1,0 +1,177 @@
+// A plane arena's quantiser (with coder 2's bin statistics), squared error and dequantisation split across two
+// threads (src-main/engine/codec/arena-quant.ts): q, the non-zero count, the reconstruction offsets, the coded
+// bytes, the squared error and the rebuilt plane equal the TypeScript reference's bit for bit, on odd sizes and
+// 0–6 levels, whichever thread computes which piece: on one thread, every piece computed as it is offered, every
+// piece taken back by the caller (a side thread that never started them), and a real worker thread.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { bandCuts } from '../../src-main/engine/codec/arena-quant';
+import {
+  type ArenaPassArgs,
+  type ArenaRunner,
+  runArenaPass,
+  SPLIT_MIN_SAMPLES,
+  setSplitMinSamples,
+  withArenaHelper,
+} from '../../src-main/engine/codec/arena-split';
+import { quantiseResident, residentArena } from '../../src-main/engine/codec/resident-plane';
+import { ARENA_MIN_PIXELS, PlaneArena, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
+import { GEO, PAR, RESULTS } from '../../src-main/engine/codec/wasm/runtime';
+import {
+  analysePlane,
+  codeAnalysed,
+  codedSquaredError,
+  quantiseAnalysed,
+  reconstructCoded,
+} from '../../src-main/engine/codec/wavelet-plane';
+import { bandsFor, LIFTING } from '../../src-main/engine/codec/wavelet-transform';
+import { SideThread } from '../../src-main/node/parallel/side-thread';
+import { digest, rampPlane, reference } from './plane-samples';
+
+/** Pieces computed by each runner, by operation. */
+const counts = new Map<string, number>();
+const count = (how: string, a: ArenaPassArgs) => {
+  const key = `${how} ${a.op}`;
+  counts.set(key, (counts.get(key) ?? 0) + 1);
+};
+/** Every piece computed at once, on this thread, as it is offered. */
+const atOnce: ArenaRunner = (a) => {
+  count('offered', a);
+  const r = runArenaPass(a);
+  return () => r;
+};
+/** Every piece left unstarted and taken back by the caller when it joins (an absent or busy worker). */
+const takenBack: ArenaRunner = (a) => () => {
+  count('taken back', a);
+  return runArenaPass(a);
+};
+
+/** Width, height (levels from levelsFor: 0, 2, 3, 3, 5 and 6). */
+const SIZES: Array<[number, number]> = [
+  [13, 11],
+  [37, 29],
+  [101, 77],
+  [67, 131],
+  [257, 193],
+  [401, 389],
+];
+const STEP = 2.5;
+
+/**
+ * Everything the split operations feed, as digests: q, counts, offsets, bytes, error, rebuilt plane; and
+ * whether the plane had an arena.
+ */
+function coded(p: Float32Array, w: number, h: number) {
+  const a = analysePlane(p, w, h);
+  const resident = residentArena(a) !== undefined;
+  const c = codeAnalysed(a, STEP, 2);
+  const out = {
+    q: digest(c.q),
+    nonZero: c.nonZero,
+    bytes: digest(c.bytes),
+    offsets: Array.from(c.offsets ?? []),
+    sse: codedSquaredError(a, c),
+    rebuilt: digest(reconstructCoded(a, c)),
+    // The statistics without range coding (rate control), at a second step.
+    offsets2: Array.from(quantiseAnalysed(a, 2 * STEP).offsets ?? []),
+  };
+  return { out, resident };
+}
+
+/** Phases of a dequantisation of n positions split down to single positions (arena-quant.ts). */
+function phases(n: number): number {
+  let k = 0;
+  for (let from = 0; n - from >= 8; k++) from = Math.floor((n + from) / 2);
+  return k;
+}
+
+describe('quantiser, squared error and dequantisation split across threads', () => {
+  beforeAll(() => {
+    setArenaMinPixels(1);
+    setSplitMinSamples(1);
+  });
+  afterAll(() => {
+    setArenaMinPixels(ARENA_MIN_PIXELS);
+    setSplitMinSamples(SPLIT_MIN_SAMPLES);
+  });
+
+  it.each(SIZES)('%i×%i: the same bits on one thread, split, and taken back', (w, h) => {
+    const p = rampPlane(w, h, 3 * w + h);
+    const ref = reference(() => coded(p, w, h));
+    expect(ref.out.nonZero).toBeGreaterThan(0);
+    expect(ref.resident).toBe(false);
+    for (const run of [undefined, atOnce, takenBack]) {
+      counts.clear();
+      const got = withArenaHelper(run, () => coded(p, w, h));
+      expect(got.resident).toBe(true);
+      expect(got.out).toEqual(ref.out);
+      if (!run) continue;
+      const how = run === atOnce ? 'offered' : 'taken back';
+      // Three pieces per split pass: two quantisations, one squared error, and each dequantisation phase.
+      expect(counts.get(`${how} quantise`)).toBe(6);
+      expect(counts.get(`${how} errors`)).toBe(3);
+      expect(counts.get(`${how} dequantise`)).toBe(3 * phases(w * h));
+    }
+  });
+
+  it('cuts the bands into runs of about a quarter of the plane: the finest level’s three and the rest', () => {
+    const bands = bandsFor(3300, 2500, 6);
+    expect(bandCuts(bands)).toEqual([0, 16, 17, 18, 19]);
+    expect(bandCuts(bandsFor(13, 11, 0))).toEqual([0, 1, 1, 1, 1]);
+  });
+
+  it('the bin statistics made with the quantiser equal the separate statistics kernel’s', () => {
+    const [w, h] = [257, 193];
+    const bands = bandsFor(w, h, 5);
+    const steps = bands.map((b) => STEP * (b.orient === 0 ? 0.25 : 1 / b.level));
+    for (const run of [undefined, atOnce, takenBack]) {
+      const stats = withArenaHelper(run, () => {
+        const arena = PlaneArena.create(w, h);
+        if (!arena) throw new Error('no arena');
+        arena.load(rampPlane(w, h, 5));
+        arena.transform(5, LIFTING, false);
+        quantiseResident(arena, bands, (bi) => [steps[bi], 0.375, 0]);
+        const fused = new Float64Array(arena.memory.buffer, RESULTS, 4 * bands.length).slice();
+        arena.lift.binStats(arena.coeffsAt, arena.qAt, w, bands.length, GEO, PAR, RESULTS);
+        const separate = new Float64Array(arena.memory.buffer, RESULTS, 4 * bands.length).slice();
+        arena.release();
+        return { fused, separate };
+      });
+      expect(stats.fused.some((v) => v !== 0)).toBe(true);
+      expect(Array.from(stats.fused)).toEqual(Array.from(stats.separate));
+    }
+  });
+});
+
+describe('quantiser, squared error and dequantisation on a real second thread', () => {
+  let side: SideThread | undefined;
+  beforeAll(async () => {
+    setArenaMinPixels(1);
+    setSplitMinSamples(1);
+    side = SideThread.start();
+    await side?.ready();
+  });
+  afterAll(async () => {
+    setArenaMinPixels(ARENA_MIN_PIXELS);
+    setSplitMinSamples(SPLIT_MIN_SAMPLES);
+    await side?.close();
+  });
+
+  it('computes pieces in the shared memory, with the same bits', () => {
+    if (!side) throw new Error('the side worker is not built (npm run build)');
+    const thread = side;
+    // Each offer gives the worker a moment, so it starts some pieces before the caller takes the rest back.
+    const pause = new Int32Array(new SharedArrayBuffer(4));
+    const offered: ArenaRunner = (a) => {
+      const join = thread.run('arena-pass', a);
+      if (a.op !== 'load' && a.op !== 'rows' && a.op !== 'cols') Atomics.wait(pause, 0, 0, 5);
+      return join;
+    };
+    const taken = thread.taken;
+    for (const [w, h] of [SIZES[3], SIZES[5]]) {
+      const p = rampPlane(w, h, 7 * w + h);
+      const ref = reference(() => coded(p, w, h).out);
+      expect(withArenaHelper(offered, () => coded(p, w, h).out)).toEqual(ref);
+    }
+    expect(thread.taken).toBeGreaterThan(taken);
+  });
+});
