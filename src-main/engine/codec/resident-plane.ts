@@ -41,7 +41,7 @@ const handedOut = new WeakMap<Float64Array, PlaneArena>();
  */
 export function residentArena(plane: object): PlaneArena | undefined {
   const arena = codecKernelsActive() ? arenaOf.get(plane) : undefined;
-  return arena && !workTaken.has(arena) && !arena.isReleased ? arena : undefined;
+  return arena && !workTaken.has(arena) && !arena.isReleased && !arena.coefficientsSpent ? arena : undefined;
 }
 
 /**
@@ -100,6 +100,16 @@ function releaseQ(arena: PlaneArena): void {
   const owner = qOwner.get(arena);
   qOwner.delete(arena);
   if (!owner || denseQ.has(owner) || !resultArena.has(owner)) return;
+  // Listed from the region while it still held them ({@link keepNonZeros}): the region has not changed since.
+  if (listedInPlace.delete(owner)) return;
+  sparseQ.set(owner, nonZerosIn(arena, owner));
+}
+
+/** Results whose non-zeros were listed from their arena's q region while they held it, and still hold it. */
+const listedInPlace = new WeakSet<object>();
+
+/** The non-zeros (positions, values) of the q region, which `owner` holds. */
+function nonZerosIn(arena: PlaneArena, owner: object): { at: Int32Array; v: Int32Array } {
   const { n, workAt } = arena;
   // The quantiser counted the non-zeros (the result's nonZero). Below q lies free room (the coder's map, not in
   // use now) for 4n bytes: the kernel writes positions and values there when they fit, else a pass here.
@@ -129,7 +139,7 @@ function releaseQ(arena: PlaneArena): void {
     }
   }
   // (Fewer when a step far below the safe range wrapped a magnitude to 0, as an Int32Array store does.)
-  sparseQ.set(owner, { at: at.subarray(0, k), v: v.subarray(0, k) });
+  return { at: at.subarray(0, k), v: v.subarray(0, k) };
 }
 
 /** The arena still holding `result`'s quantised values (and its plane's coefficients), if any. */
@@ -175,6 +185,26 @@ export function releaseForRedecode(
   const dense = denseQ.get(result);
   const sparse = sparseQ.get(result);
   return dense ? { arena, dense } : sparse && { arena, at: sparse.at, v: sparse.v };
+}
+
+/**
+ * For a check that range-decodes `result`'s bytes elsewhere (../lowrank/residual-check, on another thread):
+ * the arena holding `result`'s q (loaded back if the region was reused) and `result`'s values to compare the
+ * decoded ones with, listed from that region now: its non-zeros (positions, values), or its array when one was
+ * made. The region stays `result`'s, so the plane's next rebuild reads it where it is, and the region's next
+ * reuse keeps these non-zeros without listing them again. Undefined when `result` is not resident.
+ */
+export function keepNonZeros(
+  result: object,
+): { arena: PlaneArena; dense?: Int32Array; at?: Int32Array; v?: Int32Array } | undefined {
+  const arena = residentQ(result);
+  if (!arena) return undefined;
+  const dense = denseQ.get(result);
+  if (dense) return { arena, dense };
+  const listed = nonZerosIn(arena, result);
+  sparseQ.set(result, listed);
+  listedInPlace.add(result);
+  return { arena, ...listed };
 }
 
 /**

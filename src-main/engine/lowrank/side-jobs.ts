@@ -56,9 +56,9 @@ export interface SideJobs {
   /** The centre crop's residual fitted to its share of a byte budget (./residual-first, ./crop-fit). */
   'crop-fit': { args: CropFitArgs; result: CropFit };
   /**
-   * A residual plane's bytes range-decoded (into `into` when given, as 'residual-decode') and compared with
-   * the coefficients and offsets its encode recorded (./residual-verify): '' when they agree, else what
-   * differs (./residual-check words the refusal).
+   * A residual plane's bytes range-decoded (in a region of its plane's shared memory when one is lent, else in
+   * the coder's own memory) and compared with the coefficients and offsets its encode recorded
+   * (./residual-verify): '' when they agree, else what differs (./residual-check words the refusal).
    */
   'residual-verify': {
     args: Parameters<typeof verifyResidual>[0];
