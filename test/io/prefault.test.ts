@@ -1,8 +1,11 @@
 // First touch of the decoder's planes while sharp decodes (src-main/node/image/prefault.ts): once stop() has
 // resolved nothing writes to the planes any more and at most the request in flight was finished; once finish()
-// has resolved every page is present, so writing the planes in full takes (almost) no page faults.
+// has resolved every page is present, so writing the planes in full takes (almost) no page faults. decodeImage
+// touches its planes so only when asked (the single-scan compress), with the same result.
 import { describe, expect, it } from 'vitest';
+import { decodeImage } from '../../src-main/node/image/decode';
 import { planesWhileDecoding, prefault } from '../../src-main/node/image/prefault';
+import { image } from '../helpers/fixtures';
 
 /** Bytes one pool request writes (prefault.ts CHUNK_BYTES). */
 const CHUNK = 2 << 20;
@@ -61,5 +64,19 @@ describe('prefault', () => {
     const none: { planes?: Float32Array[] } = {};
     await planesWhileDecoding(none, { pixels: 2 ** 40, channels: 1 }).stop();
     expect(none.planes).toBeUndefined();
+  });
+
+  it('decodeImage gives the same shared planes and hash with and without the first touch (option prefault)', async () => {
+    for (const name of ['camera.png', 'chessboard_GRAY_U16.tif']) {
+      const plain = await decodeImage(image(name));
+      const touched = await decodeImage(image(name), { prefault: true });
+      expect(touched.sourceSha256).toBe(plain.sourceSha256);
+      expect(touched.planes.length).toBe(plain.planes.length);
+      touched.planes.forEach((p, c) => {
+        expect(p.buffer instanceof SharedArrayBuffer).toBe(true);
+        expect(plain.planes[c].buffer instanceof SharedArrayBuffer).toBe(true);
+        expect(p).toEqual(plain.planes[c]);
+      });
+    }
   });
 });

@@ -2,11 +2,12 @@
 // (src-main/engine/lowrank/residual-check.ts checkResident): its bytes are range-decoded into that memory's q
 // region on the calling thread, no side job runs, and the check still refuses a changed coefficient, a
 // changed reconstruction offset and bytes that do not decode to the recorded values. Afterwards the plane
-// is rebuilt with the same bits as before the check.
+// is rebuilt with the same bits as before the check. The same on a second thread ('residual-verify'), in
+// that thread's coder memory and, once the encode is decided, in the plane's coefficient region ('lend').
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { forgetCodes, recordingCodes } from '../../src-main/engine/codec/coded-planes';
-import { giveBackWork, residentQView } from '../../src-main/engine/codec/resident-plane';
-import { ARENA_MIN_PIXELS, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
+import { giveBackWork, residentQ, residentQView } from '../../src-main/engine/codec/resident-plane';
+import { ARENA_MIN_PIXELS, type PlaneArena, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
 import { analysePlane, codeAnalysed, decodePlane } from '../../src-main/engine/codec/wavelet-plane';
 import { initEngine } from '../../src-main/engine/linalg';
 import { startResidualCheck } from '../../src-main/engine/lowrank/residual-check';
@@ -141,6 +142,65 @@ describe('the residual check of a resident plane on a second thread (offThread)'
     const d = code();
     d.bytes[d.bytes.length >> 1] ^= 0x5a;
     expect(check(runHere, d.bytes)).toThrow(
+      /^c\.tif: the residual layer just coded for plane 0 (decodes to other|cannot be range-decoded)/,
+    );
+  });
+});
+
+describe('the residual check of a decided plane on a second thread, in its coefficient memory (lend)', () => {
+  const later =
+    (names: string[]): SideRunner =>
+    (name, args) => {
+      names.push(name);
+      return () => runHere(name, args)();
+    };
+  /** A plane coded from its own analysis, kept so the test can read its coefficients afterwards. */
+  const coded = () => {
+    forgetCodes();
+    const a = analysePlane(rampPlane(w, h, 11), w, h);
+    return { a, c: recordingCodes(() => codeAnalysed(a, step, 2)) };
+  };
+  const check = (run: SideRunner, bytes: Uint8Array) =>
+    startResidualCheck(run, { steps: [step], bytes: [bytes] }, w, h, 'c.tif', 'all', 'lend');
+
+  it('decodes in the coefficient region beside a rebuild, passes, and the coefficients are refused after', () => {
+    const { a, c } = coded();
+    const arena = residentQ(c) as PlaneArena;
+    expect(arena).toBeDefined();
+    const rebuilt = () => rebuiltDigest(c.bytes);
+    const before = rebuilt();
+    const names: string[] = [];
+    const join = check(later(names), c.bytes);
+    expect(() => a.coeffs).toThrow('coefficients were overwritten');
+    expect(arena.onLoan).toBe(true);
+    expect(rebuilt()).toBe(before);
+    expect(join).not.toThrow();
+    expect(names).toEqual(['residual-verify']);
+    expect(arena.onLoan).toBe(false);
+    // The decode left the plane's q at the start of the lent region: the recorded values, in place.
+    const recorded = Int32Array.from(residentQView(c) as Int32Array);
+    expect(recorded.some((v) => v !== 0)).toBe(true);
+    expect(new Int32Array(arena.memory.buffer, arena.coeffsAt, w * h)).toEqual(recorded);
+    // Quantising the plane again would read the overwritten coefficients: refused, not computed.
+    expect(() => codeAnalysed(a, step * 2, 2)).toThrow('coefficients were overwritten');
+  });
+
+  it('refuses a changed coefficient (to or from 0), a changed offset and changed bytes, with the same messages', () => {
+    for (const pick of ['non-zero', 'zero'] as const) {
+      const { c } = coded();
+      const view = residentQView(c) as Int32Array;
+      const i = view.findIndex((v) => (pick === 'zero' ? v === 0 : v !== 0));
+      view[i] = pick === 'zero' ? 1 : 0;
+      expect(check(later([]), c.bytes)).toThrow(
+        'c.tif: the residual layer just coded for plane 0 decodes to other coefficients than it was coded from',
+      );
+    }
+    const { c } = coded();
+    (c.offsets as Float64Array)[1] += 0.125;
+    expect(check(later([]), c.bytes)).toThrow('decodes to other reconstruction offsets');
+    const d = coded().c;
+    d.bytes[d.bytes.length >> 1] ^= 0x5a;
+    expect(check(later([]), d.bytes)).toThrow(
       /^c\.tif: the residual layer just coded for plane 0 (decodes to other|cannot be range-decoded)/,
     );
   });

@@ -23,8 +23,6 @@
  *   Laplacian source the MSE-optimal reconstruction lies inside the bin, not at its edge).
  */
 import * as rc from './range-coder';
-import { workFree } from './resident-plane';
-import type { PlaneArena } from './wasm/arena';
 import {
   BAND_FIELDS,
   CLASSES,
@@ -43,7 +41,7 @@ import {
   PS_BINS,
   SIGN_CONTEXTS,
 } from './wasm/coder-constants';
-import { type CoderSetup, coderWasm, decodeAt, decodeWasm, encodeAt, encodeWasm } from './wasm/coder-runtime';
+import { type CoderSetup, coderWasm, decodeWasm, encodeWasm } from './wasm/coder-runtime';
 import type { Band } from './wavelet-transform';
 
 /** Neighbourhood sum → bin: 0, 1, 2, 3, 4–5, 6–7, 8–11, 12–17, 18–29 (≥ NB_SUMS = 30: bin 9). */
@@ -53,8 +51,8 @@ const NB_LUT = Uint8Array.from({ length: NB_SUMS }, (_, s) =>
 
 const OFFSET_MESSAGE = 'corrupt plane data (reconstruction offset)';
 
-/** What the WebAssembly port of this coder (./wasm/assembly/coder.ts) needs from here. */
-const SETUP: CoderSetup = {
+/** What the WebAssembly port of this coder (./wasm/assembly/coder.ts) needs (here and in ./coeff-coder-resident). */
+export const SETUP: CoderSetup = {
   recipFast: rc.RECIP_FAST,
   recipSlow: rc.RECIP_SLOW,
   nbLut: NB_LUT,
@@ -97,7 +95,7 @@ function classOf(b: Band): number {
  * context class, and the indices of its parent (same orientation, next coarser level) and of the sibling
  * bands of its level coded before it (HL before LH before HH), −1 where there is none.
  */
-function bandTable(bands: Band[]): Int32Array {
+export function bandTable(bands: Band[]): Int32Array {
   const t = new Int32Array(BAND_FIELDS * bands.length);
   const at = (orient: number, level: number) =>
     bands.findIndex((b) => b.orient === orient && b.level === level);
@@ -286,54 +284,15 @@ export function encodeCoefficientsV2(
   return { bytes: enc.finish(), offsets };
 }
 
-/**
- * Coder 2 on the q resident in a plane's arena (../resident-plane.ts) with its bin statistics `stats` (what
- * binStats gives): the bytes and offsets {@link encodeCoefficientsV2} returns for the same q, without copying
- * q; null where the port is unavailable (the caller then runs encodeCoefficientsV2).
- */
-export function encodeResidentV2(
-  arena: PlaneArena,
-  bands: Band[],
-  stats: { n: Int32Array; sum: Float64Array },
-): CodedV2 | null {
-  const c = bands.length <= MAX_BANDS && workFree(arena) ? arena.coder(SETUP) : null;
-  if (!c) return null;
-  const k = offsetCodes(stats.n, stats.sum);
-  const table = bandTable(bands);
-  const at = arena.coderLayout(table);
-  return { bytes: encodeAt(c, at, arena.n, arena.width, table, stats.n, k), offsets: offsetsOf(stats.n, k) };
-}
-
-/**
- * Range-decode coder 2's `bytes` into the q region of a plane's arena (free it first: ../resident-plane.ts
- * releaseForRedecode), where {@link decodeCoefficientsV2} decodes into an array: no fresh pages, and the
- * decoded q stays there to be read in place. Returns the reconstruction offsets and the decoded values' count
- * per band and bin class (|q| = 1, |q| ≥ 2); null where the port is unavailable (take decodeCoefficientsV2).
- * @throws RangeError as decodeCoefficientsV2
- */
-export function decodeResidentV2(
-  arena: PlaneArena,
-  bytes: Uint8Array,
-  bands: Band[],
-): { offsets: Float64Array; counts: Int32Array } | null {
-  const c = bands.length <= MAX_BANDS && workFree(arena) ? arena.coder(SETUP) : null;
-  if (!c) return null;
-  const table = bandTable(bands);
-  const got = decodeAt(c, arena.coderLayout(table), arena.n, arena.width, table, bytes);
-  if (!got) return null;
-  rc.checkStreamEnd('plane data', got.pos, bytes.length);
-  return { offsets: offsetsOf(got.counts, got.k), counts: got.counts };
-}
-
 /** Per band and bin class, the offset code (units of 1/OFFSET_UNIT) coder 2 writes, from binStats' counts and sums. */
-function offsetCodes(counts: Int32Array, sum: Float64Array): Int32Array {
+export function offsetCodes(counts: Int32Array, sum: Float64Array): Int32Array {
   return Int32Array.from(sum, (s, j) =>
     counts[j] ? Math.max(OFFSET_MIN, Math.min(OFFSET_MAX, Math.round((OFFSET_UNIT * s) / counts[j]))) : 0,
   );
 }
 
 /** The offsets the decoder rebuilds: k / OFFSET_UNIT for the bins with enough values, 0 for the others. */
-function offsetsOf(counts: Int32Array, k: Int32Array): Float64Array {
+export function offsetsOf(counts: Int32Array, k: Int32Array): Float64Array {
   const out = new Float64Array(k.length);
   for (let j = 0; j < out.length; j++) if (counts[j] >= MIN_OFFSET_COUNT) out[j] = k[j] / OFFSET_UNIT;
   return out;

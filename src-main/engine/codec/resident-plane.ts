@@ -51,7 +51,7 @@ const handedOut = new WeakMap<Float64Array, PlaneArena>();
  */
 export function residentArena(plane: object): PlaneArena | undefined {
   const arena = codecKernelsActive() ? arenaOf.get(plane) : undefined;
-  return arena && !workTaken.has(arena) && !arena.isReleased ? arena : undefined;
+  return arena && !workTaken.has(arena) && !arena.isReleased && !arena.coefficientsSpent ? arena : undefined;
 }
 
 /**
@@ -112,7 +112,17 @@ function releaseQ(arena: PlaneArena): void {
   qStats.delete(arena);
   // Values loaded back from their non-zeros and not handed out since: those non-zeros are still right.
   const unchanged = loadedBack.delete(arena);
-  if (!owner || denseQ.has(owner) || unchanged || !resultArena.has(owner)) return;
+  // Listed from the region while it still held them ({@link keepNonZeros}): the region has not changed since.
+  const listed = owner !== undefined && listedInPlace.delete(owner);
+  if (!owner || denseQ.has(owner) || unchanged || listed || !resultArena.has(owner)) return;
+  sparseQ.set(owner, nonZerosIn(arena, owner));
+}
+
+/** Results whose non-zeros were listed from their arena's q region while they held it, and still hold it. */
+const listedInPlace = new WeakSet<object>();
+
+/** The non-zeros (positions, values) of the q region, which `owner` holds. */
+function nonZerosIn(arena: PlaneArena, owner: object): { at: Int32Array; v: Int32Array } {
   const { n, workAt } = arena;
   // The quantiser counted the non-zeros (the result's nonZero). Below q lies free room (the coder's map, not in
   // use now) for 4n bytes: the kernel writes positions and values there when they fit, else a pass here.
@@ -142,7 +152,7 @@ function releaseQ(arena: PlaneArena): void {
     }
   }
   // (Fewer when a step far below the safe range wrapped a magnitude to 0, as an Int32Array store does.)
-  sparseQ.set(owner, { at: at.subarray(0, k), v: v.subarray(0, k) });
+  return { at: at.subarray(0, k), v: v.subarray(0, k) };
 }
 
 /** The arena still holding `result`'s quantised values (and its plane's coefficients), if any. */
@@ -192,24 +202,23 @@ export function releaseForRedecode(
 }
 
 /**
- * For a check that range-decodes `result`'s bytes elsewhere (another thread's memory, ../lowrank/residual-check):
- * `result`'s values to compare the decoded ones with, its non-zeros (kept here as when the region is reused) or
- * its array, while its arena's q region keeps holding them for the rebuild (which then neither loads them back
- * nor keeps them again). Undefined when `result` is not resident.
+ * For a check that range-decodes `result`'s bytes elsewhere (../lowrank/residual-check, on another thread):
+ * the arena holding `result`'s q (loaded back if the region was reused) and `result`'s values to compare the
+ * decoded ones with, listed from that region now: its non-zeros (positions, values), or its array when one was
+ * made. The region stays `result`'s, so the plane's next rebuild reads it where it is, and the region's next
+ * reuse keeps these non-zeros without listing them again. Undefined when `result` is not resident.
  */
-export function keptForCheck(
+export function keepNonZeros(
   result: object,
-): { dense?: Int32Array; at?: Int32Array; v?: Int32Array } | undefined {
+): { arena: PlaneArena; dense?: Int32Array; at?: Int32Array; v?: Int32Array } | undefined {
   const arena = residentQ(result);
   if (!arena) return undefined;
-  if (!denseQ.has(result) && !sparseQ.has(result)) {
-    releaseQ(arena);
-    qOwner.set(arena, result);
-    loadedBack.add(arena);
-  }
   const dense = denseQ.get(result);
-  const sparse = sparseQ.get(result);
-  return dense ? { dense } : sparse && { at: sparse.at, v: sparse.v };
+  if (dense) return { arena, dense };
+  const listed = nonZerosIn(arena, result);
+  sparseQ.set(result, listed);
+  listedInPlace.add(result);
+  return { arena, ...listed };
 }
 
 /**
@@ -223,6 +232,7 @@ export function residentQView(result: object): Int32Array | undefined {
   const arena = residentQ(result);
   if (!arena) return undefined;
   loadedBack.delete(arena);
+  listedInPlace.delete(result);
   return new Int32Array(arena.memory.buffer, arena.qAt, arena.n);
 }
 

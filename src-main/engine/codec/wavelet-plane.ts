@@ -20,10 +20,10 @@ import { recallCode, rememberCode } from './coded-planes';
 import {
   decodeCoefficientsV2,
   encodeCoefficientsV2,
-  encodeResidentV2,
   offsetsFromStats,
   reconstructionOffsetsV2,
 } from './coeff-coder';
+import { encodeResidentV2 } from './coeff-coder-resident';
 import { decodeCoefficientsV1, encodeCoefficientsV1 } from './coeff-coder-v1';
 import {
   adoptArena,
@@ -103,6 +103,8 @@ export function analysePlane(plane: ArrayLike<number>, width: number, height: nu
       return map;
     },
     get coeffs() {
+      if (arena.coefficientsSpent)
+        throw new Error('rankfold engine: a plane was read after its coefficients were overwritten');
       return arena.coeffs();
     },
   };

@@ -9,16 +9,18 @@
  * Where the recorded coefficients are resident in their plane's own memory (../codec/resident-plane), the
  * bytes are range-decoded there, into the q region (the recorded values kept as their non-zeros first), on
  * the calling thread: memory the encode already touched, so no fresh pages. With `offThread` (a caller with a
- * second thread), a 'residual-verify' job decodes them there instead, into that thread's memory, and compares
- * them with the recorded non-zeros, while this thread rebuilds the plane: the check leaves the critical path
- * (at the cost of the other thread's fresh pages: its coder's memory and a decode buffer, about 9 bytes per
- * pixel, kept for the next check). Otherwise (a plane coded on the other thread, a small plane, no WebAssembly)
- * a 'residual-decode' job of ./side-jobs decodes them on the second thread when there is one.
+ * second thread), a 'residual-verify' job decodes them there instead, and compares them with the recorded
+ * non-zeros (listed from the q region, which stays the plane's), while this thread rebuilds the plane over
+ * the q region: the check leaves the critical path. Where it decodes: with 'lend' (the encode is decided, so
+ * nothing reads the plane's transform coefficients again), in its arena's coefficient region, memory the
+ * forward transform touched; otherwise in that thread's coder memory (fresh pages the first time, about 5
+ * bytes per pixel, kept for the next check). Otherwise (a plane coded on the other thread, a small plane, no
+ * WebAssembly) a 'residual-decode' job of ./side-jobs decodes them on the second thread when there is one.
  */
 
 import { recallCode } from '../codec/coded-planes';
-import { decodeResidentV2 } from '../codec/coeff-coder';
-import { keptForCheck, releaseForRedecode, residentQ, residentQView } from '../codec/resident-plane';
+import { decodeResidentV2 } from '../codec/coeff-coder-resident';
+import { keepNonZeros, releaseForRedecode, residentQ, residentQView } from '../codec/resident-plane';
 import type { CodedCoefficients } from '../codec/wavelet-plane';
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import { sameAsKept, sameInt32, sameOffsets } from './residual-verify';
@@ -33,6 +35,13 @@ const WRITTEN_CODER = 2;
  * which checks only those (for the file that is kept).
  */
 export type CheckedPlanes = 'all' | 'elsewhere' | 'resident';
+
+/**
+ * Where a resident plane is checked: false, here; true, on the other thread in its coder's memory; 'lend', on
+ * the other thread in the plane's coefficient region (only once the encode is decided: the plane's
+ * coefficients are overwritten, and reading them afterwards throws).
+ */
+export type CheckThread = boolean | 'lend';
 
 /** Recorded encodes a call with 'elsewhere' left to a call with 'resident'. */
 const deferred = new WeakSet<CodedCoefficients>();
@@ -51,7 +60,7 @@ export function startResidualCheck(
   height: number,
   file: string,
   planes: CheckedPlanes = 'all',
-  offThread = false,
+  offThread: CheckThread = false,
 ): () => void {
   let failed: Error | undefined;
   const jobs = (residual?.bytes ?? []).flatMap((bytes, k) => {
@@ -63,7 +72,7 @@ export function startResidualCheck(
     }
     if (planes === 'resident' && !deferred.delete(coded)) return [];
     if (planes !== 'elsewhere') {
-      const job = offThread ? verifyElsewhere(run, coded, width, height) : undefined;
+      const job = offThread ? verifyElsewhere(run, coded, width, height, offThread === 'lend') : undefined;
       if (job) return [{ k, ...job }];
       const here = checkResident(coded, width, height);
       if (here !== undefined) {
@@ -94,17 +103,32 @@ export function startResidualCheck(
 
 /**
  * The check of a resident plane on the other thread ('residual-verify', ./residual-verify): its recorded
- * values taken as their non-zeros (../codec/resident-plane keptForCheck; the q region keeps them for the
- * rebuild), its bytes decoded into a buffer of the other thread's, so this thread may rebuild over the q
- * region meanwhile. Undefined when the plane is not resident.
+ * values listed as their non-zeros (../codec/resident-plane keepNonZeros; the q region stays the plane's, for
+ * the rebuild), its bytes decoded in the plane's coefficient region when `lend` (the arena lends it until the
+ * answer comes; ../codec/wasm/arena), else in the other thread's coder memory, so this thread may rebuild
+ * over the q region meanwhile. Undefined when the plane is not resident.
  */
-function verifyElsewhere(run: SideRunner, coded: CodedCoefficients, width: number, height: number) {
-  const kept = keptForCheck(coded);
+function verifyElsewhere(
+  run: SideRunner,
+  coded: CodedCoefficients,
+  width: number,
+  height: number,
+  lend: boolean,
+): { into?: Int32Array; differs: () => string | undefined } | undefined {
+  const kept = keepNonZeros(coded);
   if (!kept) return undefined;
-  const into = spareBuffer(width * height);
-  const args = { bytes: coded.bytes, width, height, kept, offsets: coded.offsets, into };
+  const { arena, ...values } = kept;
+  const region = lend ? arena.lendCoefficients() : undefined;
+  const args = { bytes: coded.bytes, width, height, kept: values, offsets: coded.offsets, region };
   const join = started(run, 'residual-verify', args);
-  return { into, differs: () => join() || undefined };
+  return {
+    differs: () => {
+      const what = join();
+      // Answered: nothing writes the region any more (without an answer it stays lent, so it is never reused).
+      if (region) arena.endLoan();
+      return what || undefined;
+    },
+  };
 }
 
 /**

@@ -80,7 +80,11 @@ export interface ResidualFirstInput {
   budget: Budget;
   /** The byte budget, for byte, percent and bpp budgets. */
   byteBudget?: number;
-  build: (base: QuantPlane[], residual?: ResidualBytes) => Uint8Array;
+  /**
+   * Build the file; `decided`: it is the last file built and nothing reads the analysed planes' coefficients
+   * afterwards (its residual check may decode over them, ./residual-check).
+   */
+  build: (base: QuantPlane[], residual?: ResidualBytes, decided?: boolean) => Uint8Array;
   /** Squared error (RGB or gray samples, rounded as written) of a built file against the source. */
   measuredSse: (bytes: Uint8Array) => number;
   cancel: () => void;
@@ -247,7 +251,7 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
     const { fit } = fitResidual(analysed, weights, scales, target, ratio, cancel, LANDING, code);
     if (!fit) return undefined;
     const residual = { steps: fit.steps, bytes: fit.bytes };
-    const file = inp.build(basePlanes, residual);
+    const file = inp.build(basePlanes, residual, true);
     if (file.length > byteBudget) return undefined;
     return { ...summary(residual, file.length, fit.sse, fit.codes), file };
   }

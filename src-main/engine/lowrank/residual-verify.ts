@@ -2,10 +2,12 @@
  * The comparison at the heart of ./residual-check: coefficients range-decoded from a residual plane's bytes
  * against the ones its encode recorded, given as an array or, as ../codec/resident-plane keeps them once their
  * memory is reused, as their non-zeros (positions and values). Also the whole check as one function of plain
- * data ({@link verifyResidual}), for the 'residual-verify' job of ./side-jobs: the second thread decodes into
- * its own memory while the calling thread rebuilds the plane over the recorded values' region.
+ * data ({@link verifyResidual}), for the 'residual-verify' job of ./side-jobs: the second thread decodes
+ * elsewhere than the recorded values' region (where the calling thread rebuilds the plane meanwhile).
  */
 import { decodeCoefficientsV2 } from '../codec/coeff-coder';
+import { decodeInPlaceV2 } from '../codec/coeff-coder-resident';
+import type { LentRegion } from '../codec/wasm/coder-runtime';
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 
 /** Recorded coefficients: the whole array (`dense`) or its non-zeros (`at`, `v`). */
@@ -42,10 +44,13 @@ export function sameInt32(a: Int32Array, b: Int32Array): boolean {
 }
 
 /**
- * Coder 2's `bytes` of a width×height residual plane decoded into `into` (zeroed first; width·height values,
- * given to reuse its pages) or a new array, and compared with the recorded coefficients `kept` and offsets
- * `offsets`: '' when they agree, else what differs, as the check's message words it ('decodes to other
- * coefficients than it was coded from', 'cannot be range-decoded (…)').
+ * Coder 2's `bytes` of a width×height residual plane range-decoded and compared with the recorded
+ * coefficients `kept` and offsets `offsets`: '' when they agree, else what differs, as the check's message
+ * words it ('decodes to other coefficients than it was coded from', 'cannot be range-decoded (…)'). The
+ * decoded values are compared where the decoder leaves them (../codec/coeff-coder decodeInPlaceV2): in
+ * `region` (lent by the plane's arena, whose coefficients are not needed any more) when given and large
+ * enough, else in the coder's own memory; the non-zero count is the decoder's own. Without the coder's
+ * WebAssembly port, into a new array.
  */
 export function verifyResidual(args: {
   bytes: Uint8Array;
@@ -53,21 +58,26 @@ export function verifyResidual(args: {
   height: number;
   kept: KeptCoefficients;
   offsets?: Float64Array;
-  into?: Int32Array;
+  region?: LentRegion;
 }): string {
-  const { bytes, width, height, kept, into } = args;
+  const { bytes, width, height, kept } = args;
   const n = width * height;
-  const q = into?.length === n ? into.fill(0) : new Int32Array(n);
-  let offsets: Float64Array;
+  const bands = bandsFor(width, height, levelsFor(width, height));
+  const differs = (q: Int32Array, nonZero: number, offsets: Float64Array) =>
+    !sameAsKept(q, nonZero, kept)
+      ? 'decodes to other coefficients than it was coded from'
+      : !sameOffsets(offsets, args.offsets)
+        ? 'decodes to other reconstruction offsets than it was coded from'
+        : '';
   try {
-    offsets = decodeCoefficientsV2(bytes, q, width, bandsFor(width, height, levelsFor(width, height)));
+    const inPlace = decodeInPlaceV2(bytes, n, width, bands, differs, args.region);
+    if (inPlace !== null) return inPlace;
+    const q = new Int32Array(n);
+    const offsets = decodeCoefficientsV2(bytes, q, width, bands);
+    let nonZero = 0;
+    if (!kept.dense) for (let i = 0; i < n; i++) if (q[i] !== 0) nonZero++;
+    return differs(q, nonZero, offsets);
   } catch (err) {
     return `cannot be range-decoded (${(err as Error).message})`;
   }
-  let nonZero = 0;
-  if (!kept.dense) for (let i = 0; i < n; i++) if (q[i] !== 0) nonZero++;
-  if (!sameAsKept(q, nonZero, kept)) return 'decodes to other coefficients than it was coded from';
-  if (!sameOffsets(offsets, args.offsets))
-    return 'decodes to other reconstruction offsets than it was coded from';
-  return '';
 }

@@ -60,6 +60,7 @@ export function finishScan(
   // and measures (started when the file was built, on the residual-only path); without one, those resident in
   // their plane's memory here and now, before the decode rebuilds over it.
   const started = takeStartedCheck(bytes);
+  // The encode is decided: the other thread may decode over the planes' transform coefficients.
   const here = startResidualCheck(
     run,
     residual,
@@ -67,7 +68,7 @@ export function finishScan(
     height,
     img.file,
     started ? 'resident' : 'all',
-    opts.side !== undefined,
+    opts.side !== undefined && 'lend',
   );
   const checked = () => {
     started?.();
@@ -186,14 +187,15 @@ export function residualFirstFor(
       maxValue: max,
       budget: opts.budget,
       byteBudget,
-      build: (planes, residual) => {
+      build: (planes, residual, decided) => {
         const file = build(planes, false, residual);
         if (side) {
           settle();
-          // Every plane checked on the second thread, beside this one's measuring (./residual-check).
+          // Every plane checked on the second thread, beside this one's measuring (./residual-check); in its
+          // plane's coefficient memory once the encode is decided.
           pending = {
             file,
-            join: startResidualCheck(side, residual, width, height, img.file, 'all', true),
+            join: startResidualCheck(side, residual, width, height, img.file, 'all', decided ? 'lend' : true),
           };
         }
         return file;

@@ -58,9 +58,9 @@ export interface SideJobs {
   /** The centre crop coded for a PSNR floor, then the base estimate at its bytes (./crop-fit cropFloor). */
   'crop-floor': { args: CropFloorArgs; result: Float64Array };
   /**
-   * A residual plane's bytes range-decoded (into `into` when given, as 'residual-decode') and compared with
-   * the coefficients and offsets its encode recorded (./residual-verify): '' when they agree, else what
-   * differs (./residual-check words the refusal).
+   * A residual plane's bytes range-decoded (in a region of its plane's shared memory when one is lent, else in
+   * the coder's own memory) and compared with the coefficients and offsets its encode recorded
+   * (./residual-verify): '' when they agree, else what differs (./residual-check words the refusal).
    */
   'residual-verify': {
     args: Parameters<typeof verifyResidual>[0];

@@ -56,6 +56,8 @@ export interface DecodeOptions {
   region?: Region;
   /** This file's probe with the same `page` and `pixelLimit`, if the caller has made it: not read again. */
   probe?: ProbeResult;
+  /** decodeImage: touch the planes' pages on a pool thread while sharp decodes (./prefault); for a spare core. */
+  prefault?: boolean;
 }
 
 /** A rectangle of a scan, in upright pixels. */
@@ -319,15 +321,17 @@ export function scanFields(scan: InterleavedScan, file: string) {
 
 /**
  * Decode a scan into planes, in shared memory: the encoder's second thread reads them without a copy
- * (engine/lowrank/side-jobs). They are allocated and their pages touched while sharp decodes (./prefault), so the
- * deinterleave writes to memory already present; should the decoded size differ from the header's, fresh ones.
+ * (engine/lowrank/side-jobs). With `prefault` they are allocated and touched while sharp decodes (./prefault), so
+ * the deinterleave writes to memory already present; should the decoded size differ from the header's, fresh ones.
  */
 export async function decodeImage(
   file: string,
   options: DecodeOptions = {},
 ): Promise<DecodedImage & WithWarnings> {
   const held: { planes?: Float32Array[] } = {};
-  const scan = await decodeInterleaved(file, options, (shape) => planesWhileDecoding(held, shape));
+  type Shape = { pixels: number; channels: number };
+  const touch = options.prefault ? (shape: Shape) => planesWhileDecoding(held, shape) : undefined;
+  const scan = await decodeInterleaved(file, options, touch);
   const { data, channels, bitDepth } = scan;
   const n = scan.width * scan.height;
   const early = held.planes;

@@ -217,7 +217,13 @@ async function compressWhole(
   t0: number,
   probe: ProbeResult,
 ): Promise<CompressReport & WithWarnings> {
-  const decoded = await decodeImage(input, { page: options.page, pixelLimit: options.pixelLimit, probe });
+  // The planes' pages are touched on a pool thread while sharp decodes only when this scan has a second core.
+  const decoded = await decodeImage(input, {
+    page: options.page,
+    pixelLimit: options.pixelLimit,
+    probe,
+    prefault: hooks.side !== undefined,
+  });
   const decodeMs = performance.now() - t0;
   const { bytes, report, result } = await compressDecoded(decoded, options, hooks);
   if (hooks.signal?.aborted) throw new CancelledError(`compressing ${input}`);

@@ -27,6 +27,7 @@ import {
   type CoderWasm,
   coderOn,
   coderWasmLoaded,
+  type LentRegion,
   type PlanesAt,
   planesLayout,
 } from './coder-runtime';
@@ -116,6 +117,9 @@ export class PlaneArena {
   readonly lift: LiftingExports;
   private coderCache: CoderWasm | null;
   private released = false;
+  /** The coefficients' region was lent (overwritten: never read again), and the loan is not over yet. */
+  private spent = false;
+  private lent = false;
   private buffer: ArrayBufferLike;
   private coeffView: Float64Array;
 
@@ -166,6 +170,8 @@ export class PlaneArena {
   release(): void {
     if (this.released) return;
     this.released = true;
+    // A region still lent may yet be written by the other thread: that memory goes to no other arena.
+    if (this.lent) return;
     spares.push({ memory: this.memory, lift: this.lift, coder: this.coderCache });
     if (spares.length > MAX_SPARES) spares.shift();
   }
@@ -183,6 +189,36 @@ export class PlaneArena {
       this.coeffView = new Float64Array(this.buffer, this.coeffsAt, this.n);
     }
     return this.buffer;
+  }
+
+  /**
+   * Lend the coefficients' region (8n bytes; memory the forward transform touched) to a decode on another
+   * thread (../coeff-coder-resident.ts decodeInPlaceV2): the caller reads these coefficients no more
+   * (../resident-plane then refuses them) and runs no coder on this memory until {@link endLoan}. q and the
+   * work region are not part of the loan: this thread may rebuild the plane meanwhile. Undefined while a loan
+   * is running.
+   */
+  lendCoefficients(): LentRegion | undefined {
+    this.fresh();
+    if (this.lent) return undefined;
+    this.spent = true;
+    this.lent = true;
+    return { memory: this.memory, at: this.coeffsAt, bytes: this.tmpAt - this.coeffsAt };
+  }
+
+  /** The decode given {@link lendCoefficients}'s region is over: nothing writes it any more. */
+  endLoan(): void {
+    this.lent = false;
+  }
+
+  /** Whether the coefficients' region is lent now (no coder may run on this memory meanwhile). */
+  get onLoan(): boolean {
+    return this.lent;
+  }
+
+  /** Whether the coefficients' region was lent: this plane's coefficients are gone. */
+  get coefficientsSpent(): boolean {
+    return this.spent;
   }
 
   /** The resident coefficients (a view: valid until the next call on this arena that may grow it). */

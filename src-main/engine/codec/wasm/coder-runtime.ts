@@ -154,6 +154,17 @@ export function planesLayout(n: number, table: Int32Array, q = PLANES_AT, mag = 
   return { q, mag, d, tail };
 }
 
+/**
+ * Bytes of a shared plane arena's memory (./arena.ts) lent to a decode on another thread: nothing else reads
+ * or writes them, nor runs a coder on that memory, until the decode is done.
+ */
+export interface LentRegion {
+  memory: WebAssembly.Memory;
+  /** Byte offset (a multiple of 8) and length of the region. */
+  at: number;
+  bytes: number;
+}
+
 /** Write the band table into the scratch area; returns the band count. */
 function putBands(buf: ArrayBuffer | SharedArrayBuffer, table: Int32Array): number {
   new Int32Array(buf, SCRATCH + AT_BANDS, table.length).set(table);
@@ -227,11 +238,28 @@ export function decodeWasm(
   width: number,
   table: Int32Array,
 ): { pos: number; counts: Int32Array; k: Int32Array } | null {
-  const n = q.length;
+  return decodeInPort(c, bytes, q.length, width, table, (got, decoded) => {
+    q.set(decoded);
+    return got;
+  });
+}
+
+/**
+ * Decode n coefficients with the port in its own memory and give `read` what {@link decodeAt} returns and a
+ * view of the decoded q there, valid during the call (no copy into fresh pages).
+ * Null if the plane does not fit in the port's memory.
+ */
+export function decodeInPort<T>(
+  c: CoderWasm,
+  bytes: Uint8Array,
+  n: number,
+  width: number,
+  table: Int32Array,
+  read: (got: { pos: number; counts: Int32Array; k: Int32Array }, q: Int32Array) => T,
+): T | null {
   try {
     const got = decodeAt(c, planesLayout(n, table), n, width, table, bytes);
-    if (got) q.set(new Int32Array(c.memory.buffer, got.at.q, n));
-    return got;
+    return got && read(got, new Int32Array(c.memory.buffer, got.at.q, n));
   } finally {
     releaseMemory();
   }
