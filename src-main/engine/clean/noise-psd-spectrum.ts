@@ -55,3 +55,17 @@ export function noisePsdAt(psd: NoisePsd, wy: number, wx: number): number {
     for (let dx = -L; dx <= L; dx++) s += psd.autocov[(dy + L) * side + dx + L] * Math.cos(wy * dy + wx * dx);
   return s / r0;
 }
+
+/**
+ * The variance of the finest 2-D Haar diagonal detail (a − b − c + d)/2 under the noise of `psd`, in the
+ * plane's units squared: r(0) − r(0, 1) − r(1, 0) + (r(1, 1) + r(1, −1))/2 (its quadratic form on the 2×2
+ * block). White noise of variance σ² gives σ², the 3×3 binomial kernel's noise 0.11·σ², the 5×5 Gaussian's
+ * 0.05·σ²; it is the quantity the white-noise estimate (noise-estimate.ts) measures.
+ */
+export function haarDiagonalVariance(psd: NoisePsd): number {
+  const L = psd.lag;
+  const side = 2 * L + 1;
+  const c = L * side + L;
+  const r = psd.autocov;
+  return r[c] - r[c + 1] - r[c + side] + (r[c + side + 1] + r[c + side - 1]) / 2;
+}
