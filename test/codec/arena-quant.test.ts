@@ -24,7 +24,7 @@ import {
   reconstructCoded,
 } from '../../src-main/engine/codec/wavelet-plane';
 import { bandsFor, LIFTING } from '../../src-main/engine/codec/wavelet-transform';
-import { SideThread } from '../../src-main/node/parallel/side-thread';
+import { realSideThread } from '../helpers/side-thread';
 import { digest, rampPlane, reference } from './plane-samples';
 
 /** Pieces computed by each runner, by operation. */
@@ -143,22 +143,10 @@ describe('quantiser, squared error and dequantisation split across threads', () 
 });
 
 describe('quantiser, squared error and dequantisation on a real second thread', () => {
-  let side: SideThread | undefined;
-  beforeAll(async () => {
-    setArenaMinPixels(1);
-    setSplitMinSamples(1);
-    side = SideThread.start();
-    await side?.ready();
-  });
-  afterAll(async () => {
-    setArenaMinPixels(ARENA_MIN_PIXELS);
-    setSplitMinSamples(SPLIT_MIN_SAMPLES);
-    await side?.close();
-  });
+  const sideThread = realSideThread();
 
   it('computes pieces in the shared memory, with the same bits', () => {
-    if (!side) throw new Error('the side worker is not built (npm run build)');
-    const thread = side;
+    const thread = sideThread();
     // Each offer gives the worker a moment, so it starts some pieces before the caller takes the rest back.
     const pause = new Int32Array(new SharedArrayBuffer(4));
     const offered: ArenaRunner = (a) => {

@@ -17,7 +17,7 @@ import {
 import { ARENA_MIN_PIXELS, PlaneArena, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
 import { isSharedMemory } from '../../src-main/engine/codec/wasm/shared-memory';
 import { forwardWavelet, inverseWavelet, LIFTING } from '../../src-main/engine/codec/wavelet-transform';
-import { SideThread } from '../../src-main/node/parallel/side-thread';
+import { realSideThread } from '../helpers/side-thread';
 import { digest, rampPlane, reference } from './plane-samples';
 
 /** Every piece computed at once, on this thread, as it is offered. */
@@ -106,22 +106,10 @@ describe('plane arena passes on two threads', () => {
 });
 
 describe('plane arena passes on a real second thread', () => {
-  let side: SideThread | undefined;
-  beforeAll(async () => {
-    setArenaMinPixels(1);
-    setSplitMinSamples(1);
-    side = SideThread.start();
-    await side?.ready();
-  });
-  afterAll(async () => {
-    setArenaMinPixels(ARENA_MIN_PIXELS);
-    setSplitMinSamples(SPLIT_MIN_SAMPLES);
-    await side?.close();
-  });
+  const sideThread = realSideThread();
 
   it('computes pieces in the shared memory, with the same bits', () => {
-    if (!side) throw new Error('the side worker is not built (npm run build)');
-    const thread = side;
+    const thread = sideThread();
     // Each offer gives the worker a moment, so it starts some pieces before the caller takes the rest back.
     const pause = new Int32Array(new SharedArrayBuffer(4));
     const offered: ArenaRunner = (a) => {
@@ -137,8 +125,7 @@ describe('plane arena passes on a real second thread', () => {
   });
 
   it('touches the work region ahead on the worker without changing a value', () => {
-    if (!side) throw new Error('the side worker is not built (npm run build)');
-    const thread = side;
+    const thread = sideThread();
     const arena = withArenaHelper(undefined, () => PlaneArena.create(301, 263));
     if (!arena) throw new Error('no arena');
     const work = new Int32Array(arena.memory.buffer, arena.workAt, (arena.endAt - arena.workAt) >> 2);
