@@ -24,7 +24,7 @@ import {
   reconstructCoded,
 } from '../../src-main/engine/codec/wavelet-plane';
 import { bandsFor, LIFTING } from '../../src-main/engine/codec/wavelet-transform';
-import { realSideThread } from '../helpers/side-thread';
+import { offeredWithPause, realSideThread } from '../helpers/side-thread';
 import { digest, rampPlane, reference } from './plane-samples';
 
 /** Pieces computed by each runner, by operation. */
@@ -147,13 +147,7 @@ describe('quantiser, squared error and dequantisation on a real second thread', 
 
   it('computes pieces in the shared memory, with the same bits', () => {
     const thread = sideThread();
-    // Each offer gives the worker a moment, so it starts some pieces before the caller takes the rest back.
-    const pause = new Int32Array(new SharedArrayBuffer(4));
-    const offered: ArenaRunner = (a) => {
-      const join = thread.run('arena-pass', a);
-      if (a.op !== 'load' && a.op !== 'rows' && a.op !== 'cols') Atomics.wait(pause, 0, 0, 5);
-      return join;
-    };
+    const offered = offeredWithPause(thread, (a) => a.op !== 'load' && a.op !== 'rows' && a.op !== 'cols');
     const taken = thread.taken;
     for (const [w, h] of [SIZES[3], SIZES[5]]) {
       const p = rampPlane(w, h, 7 * w + h);

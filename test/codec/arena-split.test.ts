@@ -17,7 +17,7 @@ import {
 import { ARENA_MIN_PIXELS, PlaneArena, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
 import { isSharedMemory } from '../../src-main/engine/codec/wasm/shared-memory';
 import { forwardWavelet, inverseWavelet, LIFTING } from '../../src-main/engine/codec/wavelet-transform';
-import { realSideThread } from '../helpers/side-thread';
+import { offeredWithPause, realSideThread } from '../helpers/side-thread';
 import { digest, rampPlane, reference } from './plane-samples';
 
 /** Every piece computed at once, on this thread, as it is offered. */
@@ -110,13 +110,7 @@ describe('plane arena passes on a real second thread', () => {
 
   it('computes pieces in the shared memory, with the same bits', () => {
     const thread = sideThread();
-    // Each offer gives the worker a moment, so it starts some pieces before the caller takes the rest back.
-    const pause = new Int32Array(new SharedArrayBuffer(4));
-    const offered: ArenaRunner = (a) => {
-      const join = thread.run('arena-pass', a);
-      Atomics.wait(pause, 0, 0, 5);
-      return join;
-    };
+    const offered = offeredWithPause(thread);
     for (const [w, h, levels] of [CASES[2], CASES[5]]) {
       const p = sharedPlane(w, h, 11 * w + h);
       expect(arenaRun(p, w, h, levels, offered)).toEqual(referenceRun(p, w, h, levels));

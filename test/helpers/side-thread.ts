@@ -2,7 +2,12 @@
 // describe block runs, arenas and splits are allowed at every size; afterwards the defaults are restored and
 // the thread is closed. Shared by test/codec/arena-split and test/codec/arena-quant.
 import { afterAll, beforeAll } from 'vitest';
-import { SPLIT_MIN_SAMPLES, setSplitMinSamples } from '../../src-main/engine/codec/arena-split';
+import {
+  type ArenaPassArgs,
+  type ArenaRunner,
+  SPLIT_MIN_SAMPLES,
+  setSplitMinSamples,
+} from '../../src-main/engine/codec/arena-split';
 import { ARENA_MIN_PIXELS, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
 import { SideThread } from '../../src-main/node/parallel/side-thread';
 
@@ -23,5 +28,21 @@ export function realSideThread(): () => SideThread {
   return () => {
     if (!side) throw new Error('the side worker is not built (npm run build)');
     return side;
+  };
+}
+
+/**
+ * A runner that offers each pass to `thread` and then waits 5 ms (for the passes `pauses` selects, all by
+ * default), so the worker starts some pieces before the caller takes the rest back.
+ */
+export function offeredWithPause(
+  thread: SideThread,
+  pauses: (a: ArenaPassArgs) => boolean = () => true,
+): ArenaRunner {
+  const pause = new Int32Array(new SharedArrayBuffer(4));
+  return (a) => {
+    const join = thread.run('arena-pass', a);
+    if (pauses(a)) Atomics.wait(pause, 0, 0, 5);
+    return join;
   };
 }
