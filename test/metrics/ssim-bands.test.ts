@@ -48,6 +48,9 @@ function measure(run: SideRunner, a: Float32Array, b: Float32Array, w: number, h
   return s.value();
 }
 
+/** Job states by letter (./side-jobs SideJobState). */
+const STATES = { a: 'answered', o: 'offered', r: 'running' } as const;
+
 const SIZES: Array<[number, number]> = [
   [11, 11],
   [13, 12],
@@ -117,7 +120,7 @@ describe('SSIM summed in a ring of slots equals ssim() of the whole planes bit f
         const i = jobs++;
         held++;
         most = Math.max(most, held);
-        const state = ({ a: 'answered', o: 'offered', r: 'running' } as const)[pattern[i % pattern.length]];
+        const state = STATES[pattern[i % pattern.length] as keyof typeof STATES];
         const done = state === 'answered' ? runHere(name, args)() : undefined;
         return Object.assign(
           () => {
