@@ -48,6 +48,9 @@ function measure(run: SideRunner, a: Float32Array, b: Float32Array, w: number, h
   return s.value();
 }
 
+/** Job states by letter (./side-jobs SideJobState). */
+const STATES = { a: 'answered', o: 'offered', r: 'running' } as const;
+
 const SIZES: Array<[number, number]> = [
   [11, 11],
   [13, 12],
@@ -100,6 +103,45 @@ describe('SSIM summed in a ring of slots equals ssim() of the whole planes bit f
     expect(measure(run, a, b, w, h, [16])).toBe(ssim(a, b, w, h, 255));
     expect(most).toBe(4);
     expect(held).toBe(0);
+  });
+
+  it('with every slot held, frees one without waiting: answered jobs, else the latest not started, summed here', () => {
+    const [w, h] = [23, 1500];
+    const [a, b] = pair(w, h, 5);
+    const want = ssim(a, b, w, h, 255);
+    // Job i's state until joined: by `pattern` (a: answered, computed when offered; o: offered; r: running). An
+    // offered or running job is computed when joined, reading its slot then, so a slot reused early shows.
+    for (const pattern of ['o', 'r', 'a', 'ro', 'rro', 'aro', 'rrrr', 'oar']) {
+      const joined: number[] = [];
+      let held = 0;
+      let most = 0;
+      let jobs = 0;
+      const run: SideRunner = (name, args) => {
+        const i = jobs++;
+        held++;
+        most = Math.max(most, held);
+        const state = STATES[pattern[i % pattern.length] as keyof typeof STATES];
+        const done = state === 'answered' ? runHere(name, args)() : undefined;
+        return Object.assign(
+          () => {
+            held--;
+            joined.push(i);
+            return done ?? runHere(name, args)();
+          },
+          { state: () => state },
+        );
+      };
+      expect(measure(run, a, b, w, h, [16])).toBe(want);
+      expect(most).toBe(4);
+      expect(held).toBe(0);
+      expect(joined.slice().sort((x, y) => x - y)).toEqual(Array.from({ length: jobs }, (_, i) => i));
+      // The latest job not started is summed first (the one just offered, whose slot is then reused); a running
+      // one is waited for only when no job is offered or answered, and then the oldest.
+      if (pattern === 'o') expect(joined.slice(0, 3)).toEqual([3, 4, 5]);
+      if (pattern === 'ro') expect(joined.slice(0, 4)).toEqual([3, 1, 5, 0]);
+      if (pattern === 'aro') expect(joined.slice(0, 3)).toEqual([3, 0, 5]);
+      if (pattern === 'rrrr') expect(joined.slice(0, 3)).toEqual([0, 1, 2]);
+    }
   });
 
   it('refuses a value before every row was added', () => {

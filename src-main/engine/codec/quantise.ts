@@ -95,6 +95,17 @@ export function reconstructPlane(plane: QuantPlane): Float64Array {
 }
 
 /**
+ * The value every sample of a plane rebuilt by {@link reconstructRows} takes when the plane is one tile with no
+ * kept component (a residual-only file's base: its mean alone), so a reader may add it instead of filling rows
+ * with it; undefined for any other plane.
+ */
+export function flatBase(plane: QuantPlane): number | undefined {
+  if (plane.tiles.length !== 1 || plane.tiles[0].u.length !== 0) return undefined;
+  // addTileRows's `mean`, the value its rows are filled with.
+  return plane.tiles[0].meanQ * plane.meanStep;
+}
+
+/**
  * Rows [y0, y1) of a plane (grey levels, before clamping) from its quantised factors, into `out`
  * ((y1 − y0)·width values, row-major). The same arithmetic as {@link reconstructPlane}, so a plane rebuilt
  * band by band equals the whole-plane result value for value; only the tiles that meet the band are read.

@@ -16,7 +16,7 @@ import {
   readImageHeader,
 } from '../codec/image-file';
 import { decodeExactSamples, isExactFile } from '../codec/lossless-file';
-import { reconstructRows } from '../codec/quantise';
+import { flatBase, reconstructRows } from '../codec/quantise';
 import { tileGrid } from '../codec/quantised';
 import { giveBackWork } from '../codec/resident-plane';
 import { roundInto, type SampleOut, ycbcrToRgbSamples } from '../colour';
@@ -184,19 +184,26 @@ function decodeRows<S extends SampleOut>(
   const bufs = quant.map(() => new Float64Array(band * width));
   // A grey scan into float32 samples (the report's decode) adds its residual while rounding, in one loop.
   const grey = !colour && samples[0] instanceof Float32Array ? (samples[0] as Float32Array) : undefined;
+  // A grey residual-only file's base is one value (../codec/quantise flatBase): added as it is, no rows rebuilt.
+  const flat = quant.map(({ q }, k) => (grey && residual[k] ? flatBase(q) : undefined));
   for (let y0 = 0; y0 < height; y0 += band) {
     const y1 = Math.min(height, y0 + band);
     const len = (y1 - y0) * width;
     const at = y0 * width;
     const outAt = whole ? at : 0;
     quant.forEach(({ q, rects }, k) => {
+      const r = residual[k];
+      const f = flat[k];
+      if (grey && r && f !== undefined) {
+        greyFlatInto(f, r, at, len, bitDepth === 16 ? 65535 : 255, grey, outAt);
+        return;
+      }
       try {
         reconstructRows(q, rects, y0, y1, bufs[k]);
       } catch (err) {
         planeFail(k, err);
       }
       // Two layers: base + residual in float64, before any rounding (the same sum decodeImageLayers gives).
-      const r = residual[k];
       if (grey) {
         greyInto(bufs[k], r, at, len, bitDepth === 16 ? 65535 : 255, grey, outAt);
         return;
@@ -237,6 +244,25 @@ function greyInto(
       const v = Math.round(base[i]);
       out[outAt + i] = v > 0 ? (v > max ? max : v) : 0;
     }
+}
+
+/**
+ * {@link greyInto} of a base whose every value is `base` (../codec/quantise flatBase): the same sum, rounding
+ * and clamping, without reading a rebuilt band.
+ */
+function greyFlatInto(
+  base: number,
+  residual: Float64Array,
+  at: number,
+  len: number,
+  max: number,
+  out: Float32Array,
+  outAt: number,
+): void {
+  for (let i = 0; i < len; i++) {
+    const v = Math.round(base + residual[at + i]);
+    out[outAt + i] = v > 0 ? (v > max ? max : v) : 0;
+  }
 }
 
 /** The decoded file: `samples` with the alpha plane, when there is one, decoded and appended. */

@@ -103,7 +103,16 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
 export type SideRunner = <K extends SideJobName>(
   name: K,
   args: SideJobs[K]['args'],
-) => () => SideJobs[K]['result'];
+) => SideJoin<SideJobs[K]['result']>;
+
+/**
+ * Where a started job is, before it is joined: 'offered' (no thread has started it: joining computes it on the
+ * calling thread), 'running' on the other thread (joining waits), or 'answered' (joining only reads the answer).
+ */
+export type SideJobState = 'offered' | 'running' | 'answered';
+
+/** A started job's join; `state` (when the runner can tell) says, without waiting, what joining it would do. */
+export type SideJoin<T> = (() => T) & { state?: () => SideJobState };
 
 /** Every job on the calling thread, at once (one thread: the work is done in the order it is asked for). */
 export const runHere: SideRunner = (name, args) => {

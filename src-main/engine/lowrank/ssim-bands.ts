@@ -6,14 +6,17 @@
  * lie in the slot. A slot starts with the last 2·radius rows of the one before, so consecutive jobs cover
  * consecutive window rows, each exactly once. Before a slot is written again its job is joined: computed here
  * when the other thread has not started it (a runner without a second thread computes each at once), so a slow
- * or absent worker never changes the value or waits for it.
+ * or absent worker never changes the value or waits for it. When every slot holds a job, this thread frees one
+ * without waiting where it can (./side-jobs SideJoin state): the jobs the other thread answered, else the
+ * latest one it has not started, summed here; it waits (for the oldest) only while the other thread is on the
+ * latest. So neither thread idles while the other has SSIM rows to sum, whichever is the faster.
  *
  * The value: the row sums added in row order from 0, divided by the window count, which is how
  * ../metrics SsimStream adds them (its running total) and how ../metrics ssim pools them, so it equals
  * `ssim(source, decoded, width, height, range)` bit for bit whichever thread summed which rows (Wang et al.
  * 2004, the defaults of ../metrics/ssim: 11×11 Gaussian window, σ = 1.5, K1 = 0.01, K2 = 0.03).
  */
-import type { SideRunner } from './side-jobs';
+import type { SideJoin, SideRunner } from './side-jobs';
 
 /** SSIM window radius of ../metrics's defaults (11×11 window). */
 const RADIUS = 5;
@@ -24,7 +27,7 @@ const OVERLAP = 2 * RADIUS;
  * filtering OVERLAP rows again (16% more filtering than one stream, on the other thread).
  */
 const SLOT_ROWS = 64;
-/** Slots in the ring: the other thread may lag this many jobs behind before the decode waits for it. */
+/** Slots: the other thread may lag this many jobs behind before this one sums a job itself (or waits). */
 const SLOTS = 4;
 
 /** Slots of earlier measurements, kept for the next one of the same width (no fresh pages each time). */
@@ -41,15 +44,24 @@ function takeSlots(width: number): Float32Array[] {
   );
 }
 
+/** A job still holding its slot: its place in job order and its join. */
+interface Pending {
+  index: number;
+  slot: number;
+  join: SideJoin<Float64Array>;
+}
+
 /**
  * The SSIM of `source` (the whole grey plane, width×height, height and width ≥ 11) against decoded rows
  * added in order with {@link SsimBands.add}; {@link SsimBands.value} once all `height` rows are in.
  */
 export class SsimBands {
   private readonly slots: Float32Array[];
-  /** Joins of the jobs still holding a slot, and the row sums of every job joined, in job order. */
-  private readonly pending: Array<{ slot: number; join: () => Float64Array }> = [];
+  /** Jobs still holding a slot, in job order; slots holding no job; the row sums of every job joined, by job. */
+  private readonly pending: Pending[] = [];
+  private readonly free: number[] = [];
   private readonly sums: Float64Array[] = [];
+  private jobs = 0;
   private slot = 0;
   /** Image row of the current slot's first row, and the rows in it. */
   private from = 0;
@@ -64,6 +76,7 @@ export class SsimBands {
     private readonly range: number,
   ) {
     this.slots = takeSlots(width);
+    for (let k = SLOTS - 1; k > 0; k--) this.free.push(k);
   }
 
   /** Add the next `rows` decoded rows, from b[0]. */
@@ -85,10 +98,7 @@ export class SsimBands {
       throw new RangeError(`SsimBands: ${this.from + this.filled} of ${this.height} rows were added`);
     if (this.filled > OVERLAP) this.submit(false);
     // From the last job down: a job the other thread has not started is computed here meanwhile.
-    const got: Float64Array[] = this.pending.map(() => new Float64Array(0));
-    for (let j = this.pending.length - 1; j >= 0; j--) got[j] = this.pending[j].join();
-    this.pending.length = 0;
-    this.sums.push(...got);
+    while (this.pending.length > 0) this.joinAt(this.pending.length - 1);
     let total = 0;
     for (const s of this.sums) for (let i = 0; i < s.length; i++) total += s[i];
     spare = { width: this.width, slots: this.slots };
@@ -106,7 +116,7 @@ export class SsimBands {
     this.pending.length = 0;
   }
 
-  /** Offer the current slot's window rows as a job; with `more`, start the next slot with its overlap. */
+  /** Offer the current slot's window rows as a job; with `more`, start a free slot with its overlap. */
   private submit(more: boolean): void {
     const { width, from, filled } = this;
     const rows = this.slots[this.slot];
@@ -119,17 +129,41 @@ export class SsimBands {
       from,
       to: from + filled - OVERLAP,
     });
-    this.pending.push({ slot: this.slot, join });
+    this.pending.push({ index: this.jobs++, slot: this.slot, join });
     if (!more) return;
-    const next = (this.slot + 1) % SLOTS;
-    // The next slot's job, if any, is the oldest still pending: joined (or taken back) before it is overwritten.
-    if (this.pending.length === SLOTS) {
-      const oldest = this.pending.shift() as { slot: number; join: () => Float64Array };
-      this.sums.push(oldest.join());
-    }
-    this.slots[next].set(rows.subarray((filled - OVERLAP) * width, filled * width));
+    const next = this.freeSlot();
+    const overlap = rows.subarray((filled - OVERLAP) * width, filled * width);
+    // The job just offered, when it was the one computed here to free a slot: its overlap moves to the start.
+    if (next === this.slot) rows.copyWithin(0, (filled - OVERLAP) * width, filled * width);
+    else this.slots[next].set(overlap);
     this.slot = next;
     this.from = from + filled - OVERLAP;
     this.filled = OVERLAP;
+  }
+
+  /**
+   * A slot no job holds, joining jobs to free one when none is: every answered job (no wait); else the latest
+   * one the other thread has not started, computed here (this thread sums instead of waiting, while the other
+   * goes on with the ones before it); else the oldest, waiting for it. A runner that cannot tell where its jobs
+   * are has the oldest joined, as it comes.
+   */
+  private freeSlot(): number {
+    if (this.free.length === 0) {
+      const state = (j: number) => this.pending[j].join.state?.();
+      for (let j = this.pending.length - 1; j >= 0; j--) if (state(j) === 'answered') this.joinAt(j);
+      if (this.free.length === 0) {
+        let j = this.pending.length - 1;
+        while (j > 0 && state(j) !== 'offered') j--;
+        this.joinAt(j);
+      }
+    }
+    return this.free.pop() as number;
+  }
+
+  /** Join pending job j: its row sums kept in job order, its slot free. */
+  private joinAt(j: number): void {
+    const [p] = this.pending.splice(j, 1);
+    this.sums[p.index] = p.join();
+    this.free.push(p.slot);
   }
 }

@@ -12,7 +12,13 @@
 import { existsSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { MessageChannel, type MessagePort, receiveMessageOnPort, Worker } from 'node:worker_threads';
-import { SIDE_JOBS, type SideJobName, type SideJobs, type SideRunner } from '../../engine/lowrank/side-jobs';
+import {
+  SIDE_JOBS,
+  type SideJobName,
+  type SideJobState,
+  type SideJobs,
+  type SideRunner,
+} from '../../engine/lowrank/side-jobs';
 
 /** States of a job's claim word. */
 export const CLAIM = { offered: 0, taken: 1, done: 2, failed: 3, withdrawn: 4 } as const;
@@ -69,6 +75,11 @@ function copied(args: Record<string, unknown>): { args: Record<string, unknown>;
   return { args: Object.fromEntries(Object.entries(args).map(([k, v]) => [k, copy(v)])), transfer };
 }
 
+/** A job's claim word as the state its join would find (only read before the join). */
+function stateOf(claim: number): SideJobState {
+  return claim === CLAIM.offered ? 'offered' : claim === CLAIM.taken ? 'running' : 'answered';
+}
+
 export class SideThread {
   private readonly worker: Worker;
   private readonly port: MessagePort;
@@ -103,7 +114,7 @@ export class SideThread {
     const claim = new Int32Array(new SharedArrayBuffer(4));
     const sent = copied(args as unknown as Record<string, unknown>);
     this.port.postMessage({ id, name, args: sent.args, claim } satisfies SideMessage, sent.transfer);
-    return (): SideJobs[K]['result'] => {
+    const join = (): SideJobs[K]['result'] => {
       if (Atomics.compareExchange(claim, 0, CLAIM.offered, CLAIM.withdrawn) === CLAIM.offered)
         return SIDE_JOBS[name](args);
       for (let waited = 0; ; waited += WAIT_SLICE_MS) {
@@ -117,6 +128,7 @@ export class SideThread {
       if (!answer.ok) throw new Error(`side thread: ${answer.message}`);
       return answer.value as SideJobs[K]['result'];
     };
+    return Object.assign(join, { state: () => stateOf(Atomics.load(claim, 0)) });
   };
 
   /** The answer to job `id`, reading the port until it arrives (it was posted before the claim word changed). */
