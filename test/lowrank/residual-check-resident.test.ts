@@ -195,6 +195,24 @@ describe('the residual check of a decided plane on a second thread, in its q reg
     expect(() => codeAnalysed(a, step * 2, 2)).toThrow('coefficients were overwritten');
   });
 
+  it('with a runner that computes at once (no second thread), checks inside the rebuild, once q is read', () => {
+    const { c } = coded();
+    const arena = residentQ(c) as PlaneArena;
+    const before = rebuiltDigest(c.bytes);
+    const join = check(runHere, c.bytes);
+    const x = decodePlane(c.bytes, w, h, step, 2);
+    expect(digest(x)).toBe(before);
+    expect(x.byteOffset).toBe(arena.coeffsAt);
+    giveBackWork(x);
+    expect(join).not.toThrow();
+    const d = coded().c;
+    const view = residentQView(d) as Int32Array;
+    view[view.findIndex((v) => v !== 0)] = 0;
+    const refused = check(runHere, d.bytes);
+    giveBackWork(decodePlane(d.bytes, w, h, step, 2));
+    expect(refused).toThrow('decodes to other coefficients than it was coded from');
+  });
+
   it('starts the check when joined if no rebuild came first, and the plane still rebuilds with the same bits', () => {
     const { c } = coded();
     const arena = residentQ(c) as PlaneArena;

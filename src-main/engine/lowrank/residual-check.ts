@@ -45,9 +45,10 @@ const WRITTEN_CODER = 2;
 export type CheckedPlanes = 'all' | 'elsewhere' | 'resident';
 
 /**
- * Where a resident plane is checked: false, here; true, on the other thread in its coder's memory; 'lend', on
- * the other thread in the plane's q region once its rebuild has read it (only once the encode is decided: the
- * rebuild overwrites the plane's coefficients, and reading them afterwards throws).
+ * Where a resident plane is checked: false, here; true, on the other thread in its coder's memory; 'lend', by
+ * the runner (on the other thread, or here with one that computes at once) in the plane's q region once its
+ * rebuild has read it (only once the encode is decided: the rebuild overwrites the plane's coefficients, and
+ * reading them afterwards throws).
  */
 export type CheckThread = boolean | 'lend';
 
