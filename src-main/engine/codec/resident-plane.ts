@@ -223,10 +223,8 @@ export function keepNonZeros(
   return { arena, ...listed };
 }
 
-/**
- * `arena`'s encode is decided (./wasm/arena.ts spend): once its rebuild has read q (or at the returned function)
- * q's region and the map are lent to `start`, for a decode with band table `table` (undefined: none may be).
- */
+/** `arena`'s encode is decided (./wasm/arena.ts spend): once its rebuild has read q (or when the returned
+ * function is called), q's region and the map go to `start`, for a decode with band table `table`. */
 export function lendAfterRebuild(
   arena: PlaneArena,
   table: Int32Array,
