@@ -61,7 +61,15 @@ export function finishScan(
   const started = takeStartedCheck(bytes);
   // The encode is decided: a resident plane is rebuilt over its transform coefficients, and its check decodes
   // in its q region once the rebuild has read q (on the other thread, or here at once: ./residual-check).
-  const here = startResidualCheck(run, residual, width, height, img.file, started ? 'resident' : 'all', 'lend');
+  const here = startResidualCheck(
+    run,
+    residual,
+    width,
+    height,
+    img.file,
+    started ? 'resident' : 'all',
+    'lend',
+  );
   const checked = () => {
     started?.();
     here();
