@@ -2,7 +2,8 @@
 // threads (src-main/engine/codec/arena-quant.ts): q, the non-zero count, the reconstruction offsets, the coded
 // bytes, the squared error and the rebuilt plane equal the TypeScript reference's bit for bit, on odd sizes and
 // 0–6 levels, whichever thread computes which piece: on one thread, every piece computed as it is offered, every
-// piece taken back by the caller (a side thread that never started them), and a real worker thread.
+// piece taken back by the caller (a side thread that never started them), and a real worker thread; and a
+// decided plane's rebuild over its coefficients (one split pass instead of the phases over q).
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { bandCuts } from '../../src-main/engine/codec/arena-quant';
 import {
@@ -13,6 +14,7 @@ import {
   setSplitMinSamples,
   withArenaHelper,
 } from '../../src-main/engine/codec/arena-split';
+import { bandTable } from '../../src-main/engine/codec/coeff-coder';
 import { quantiseResident, residentArena } from '../../src-main/engine/codec/resident-plane';
 import { ARENA_MIN_PIXELS, PlaneArena, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
 import { GEO, PAR, RESULTS } from '../../src-main/engine/codec/wasm/runtime';
@@ -112,6 +114,38 @@ describe('quantiser, squared error and dequantisation split across threads', () 
       expect(counts.get(`${how} dequantise`)).toBe(3 * phases(w * h));
     }
   });
+
+  it.each([SIZES[3], SIZES[5]])(
+    '%i×%i: a decided plane rebuilt over its coefficients, in one split pass, has the same bits',
+    (w, h) => {
+      const p = rampPlane(w, h, 5 * w + h);
+      const ref = reference(() => coded(p, w, h).out.rebuilt);
+      for (const run of [undefined, atOnce, takenBack]) {
+        counts.clear();
+        const got = withArenaHelper(run, () => {
+          const a = analysePlane(p, w, h, true);
+          const arena = residentArena(a) as PlaneArena;
+          const c = codeAnalysed(a, STEP, 2);
+          // Its first touch starts at the coder's map, right below q: the rest of the lower half is left out.
+          const map = arena.coderLayout(bandTable(a.bands)).mag;
+          let started = 0;
+          arena.spend(() => started++);
+          counts.clear();
+          const x = reconstructCoded(a, c);
+          return { rebuilt: digest(x), started, map, arena };
+        });
+        expect(got.rebuilt).toEqual(ref);
+        expect(got.arena.touchFrom).toBe(got.map);
+        expect(got.map).toBeGreaterThan(got.arena.workAt + 2 * w * h);
+        expect(got.map + w * h).toBeLessThanOrEqual(got.arena.qAt);
+        // What spend deferred ran once, when the rebuild had read q.
+        expect(got.started).toBe(1);
+        if (!run) continue;
+        const how = run === atOnce ? 'offered' : 'taken back';
+        expect(counts.get(`${how} dequantise`)).toBe(3);
+      }
+    },
+  );
 
   it('cuts the bands into runs of about a quarter of the plane: the finest level’s three and the rest', () => {
     const bands = bandsFor(3300, 2500, 6);

@@ -3,7 +3,8 @@
 // region on the calling thread, no side job runs, and the check still refuses a changed coefficient, a
 // changed reconstruction offset and bytes that do not decode to the recorded values. Afterwards the plane
 // is rebuilt with the same bits as before the check. The same on a second thread ('residual-verify'), in
-// that thread's coder memory and, once the encode is decided, in the plane's coefficient region ('lend').
+// that thread's coder memory and, once the encode is decided, in the plane's q region after its rebuild over
+// the coefficients has read q ('lend').
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { forgetCodes, recordingCodes } from '../../src-main/engine/codec/coded-planes';
 import { giveBackWork, residentQ, residentQView } from '../../src-main/engine/codec/resident-plane';
@@ -147,7 +148,7 @@ describe('the residual check of a resident plane on a second thread (offThread)'
   });
 });
 
-describe('the residual check of a decided plane on a second thread, in its coefficient memory (lend)', () => {
+describe('the residual check of a decided plane on a second thread, in its q region after the rebuild (lend)', () => {
   const later =
     (names: string[]): SideRunner =>
     (name, args) => {
@@ -163,26 +164,66 @@ describe('the residual check of a decided plane on a second thread, in its coeff
   const check = (run: SideRunner, bytes: Uint8Array) =>
     startResidualCheck(run, { steps: [step], bytes: [bytes] }, w, h, 'c.tif', 'all', 'lend');
 
-  it('decodes in the coefficient region beside a rebuild, passes, and the coefficients are refused after', () => {
+  it('rebuilds over the coefficients, then decodes in the q region beside the rest, passes, and the coefficients are refused after', () => {
     const { a, c } = coded();
     const arena = residentQ(c) as PlaneArena;
     expect(arena).toBeDefined();
+    const recorded = Int32Array.from(residentQView(c) as Int32Array);
+    expect(recorded.some((v) => v !== 0)).toBe(true);
     const rebuilt = () => rebuiltDigest(c.bytes);
     const before = rebuilt();
     const names: string[] = [];
     const join = check(later(names), c.bytes);
     expect(() => a.coeffs).toThrow('coefficients were overwritten');
+    // Nothing is lent (nor any job started) before the rebuild has read q.
+    expect(arena.onLoan).toBe(false);
+    expect(names).toEqual([]);
+    const x = decodePlane(c.bytes, w, h, step, 2);
+    expect(digest(x)).toBe(before);
+    // The rebuild lies over the coefficients; q's region is lent to the check's decode, started then.
+    expect(x.buffer).toBe(arena.memory.buffer);
+    expect(x.byteOffset).toBe(arena.coeffsAt);
     expect(arena.onLoan).toBe(true);
+    expect(names).toEqual(['residual-verify']);
+    giveBackWork(x);
+    expect(join).not.toThrow();
+    expect(arena.onLoan).toBe(false);
+    // The decode left the plane's q in its region: the recorded values, in place.
+    expect(new Int32Array(arena.memory.buffer, arena.qAt, w * h)).toEqual(recorded);
     expect(rebuilt()).toBe(before);
+    // Quantising the plane again would read the overwritten coefficients: refused, not computed.
+    expect(() => codeAnalysed(a, step * 2, 2)).toThrow('coefficients were overwritten');
+  });
+
+  it('with a runner that computes at once (no second thread), checks inside the rebuild, once q is read', () => {
+    const { c } = coded();
+    const arena = residentQ(c) as PlaneArena;
+    const before = rebuiltDigest(c.bytes);
+    const join = check(runHere, c.bytes);
+    const x = decodePlane(c.bytes, w, h, step, 2);
+    expect(digest(x)).toBe(before);
+    expect(x.byteOffset).toBe(arena.coeffsAt);
+    giveBackWork(x);
+    expect(join).not.toThrow();
+    const d = coded().c;
+    const view = residentQView(d) as Int32Array;
+    view[view.findIndex((v) => v !== 0)] = 0;
+    const refused = check(runHere, d.bytes);
+    giveBackWork(decodePlane(d.bytes, w, h, step, 2));
+    expect(refused).toThrow('decodes to other coefficients than it was coded from');
+  });
+
+  it('starts the check when joined if no rebuild came first, and the plane still rebuilds with the same bits', () => {
+    const { c } = coded();
+    const arena = residentQ(c) as PlaneArena;
+    const before = rebuiltDigest(c.bytes);
+    const names: string[] = [];
+    const join = check(later(names), c.bytes);
+    expect(names).toEqual([]);
     expect(join).not.toThrow();
     expect(names).toEqual(['residual-verify']);
     expect(arena.onLoan).toBe(false);
-    // The decode left the plane's q at the start of the lent region: the recorded values, in place.
-    const recorded = Int32Array.from(residentQView(c) as Int32Array);
-    expect(recorded.some((v) => v !== 0)).toBe(true);
-    expect(new Int32Array(arena.memory.buffer, arena.coeffsAt, w * h)).toEqual(recorded);
-    // Quantising the plane again would read the overwritten coefficients: refused, not computed.
-    expect(() => codeAnalysed(a, step * 2, 2)).toThrow('coefficients were overwritten');
+    expect(rebuiltDigest(c.bytes)).toBe(before);
   });
 
   it('refuses a changed coefficient (to or from 0), a changed offset and changed bytes, with the same messages', () => {

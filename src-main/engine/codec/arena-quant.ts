@@ -8,7 +8,7 @@
  *   squared error) are then formed by one thread in the band's raster order, the same operations as the
  *   single-thread kernels, so the bits do not depend on which thread took which piece; the non-zero count is
  *   an integer sum. The chunk flags of q (./wasm/runtime.ts CHUNK) are zeroed first and only set by a piece.
- * - The dequantisation writes the rebuilt coefficients (f64) over the work region whose upper half holds q
+ * - The dequantisation into the work region writes the rebuilt coefficients (f64) over it, whose upper half holds q
  *   (i32, ./wasm/arena.ts): x[i] lies over q[2i − n] and q[2i − n + 1]. It is done in phases: the first rebuilds
  *   the positions below ⌊n/2⌋, which lie below q; each next one the positions whose x lies over the q the
  *   phases before it have read, and whose own q lies where only later phases write (about half of what
@@ -70,11 +70,19 @@ export function errorsSplit(arena: PlaneArena, bands: ArrayLike<{ w: number; h: 
 const PHASE_UNIT = 16;
 
 /**
- * The arena's q rebuilt (the band tables written: Δ, d1, d2 per band) into its work region as f64, over q,
- * in the phases of this module's header.
+ * The arena's q rebuilt (the band tables written: Δ, d1, d2 per band) as f64 at `dst`: into its work region,
+ * over q, in the phases of this module's header; or into its coefficient region (which q does not overlap),
+ * in one pass.
  */
-export function dequantiseSplit(arena: PlaneArena, nb: number): void {
+export function dequantiseSplit(arena: PlaneArena, nb: number, dst = arena.workAt): void {
   const { n, width, qAt, workAt } = arena;
+  if (dst !== workAt) {
+    pass(arena, 'dequantise', false, splits(arena, n), (k) => {
+      const [i0, i1] = bounds(k, n, PHASE_UNIT);
+      return { a: [qAt, dst, width, nb, i0, i1] };
+    });
+    return;
+  }
   let from = 0;
   // A phase is split while its pieces are large enough (./arena-split.ts splits); the rest runs here.
   while (n - from >= 2 && splits(arena, (n - from) / (2 * PIECES))) {

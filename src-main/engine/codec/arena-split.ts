@@ -254,14 +254,15 @@ const touching = new WeakMap<PlaneArena, { stop: Int32Array; join: () => unknown
 const touchedTo = new WeakMap<PlaneArena, number>();
 
 /**
- * Offer the other thread the first touch of the arena's work region (q, then the reconstruction over it; fresh
- * pages cost more than the arithmetic on them), while this thread quantises and codes. The values are not
+ * Offer the other thread the first touch of the arena's work region from its touchFrom (q and the coder's map,
+ * then the reconstruction over it; fresh pages cost more than the arithmetic on them), while this thread
+ * quantises and codes. The values are not
  * changed, so this thread may write the region meanwhile. {@link settleTouch} ends it.
  */
 export function offerTouch(arena: PlaneArena): void {
   const run = helper;
   if (!run || !splits(arena, arena.n) || touching.has(arena)) return;
-  const from = touchedTo.get(arena) ?? arena.workAt;
+  const from = touchedTo.get(arena) ?? arena.touchFrom;
   if (from >= arena.endAt) return;
   const stop = new Int32Array(new SharedArrayBuffer(4));
   const args: ArenaPassArgs = {

@@ -66,7 +66,8 @@ export function decodeResidentV2(
  * array, and give `read` the decoded q where it lies (a view, valid during the call), its non-zero count (the
  * decoder's own count of the values it decoded) and the reconstruction offsets, as decodeCoefficientsV2 would
  * return them. Where: at the start of `region` (a coder instance on its memory; memory the encode already
- * touched) when q, the coder's map and the bytes fit there, else in the port's own memory. Null where the port
+ * touched; q, the map and the bytes where the region places them, ./wasm/coder-runtime.ts LentRegion) when they
+ * fit there, else in the port's own memory. Null where the port
  * is unavailable (take decodeCoefficientsV2).
  * @throws RangeError as decodeCoefficientsV2
  */
@@ -86,7 +87,12 @@ export function decodeInPlaceV2<T>(
     for (let j = 0; j < got.counts.length; j++) nonZero += got.counts[j];
     return read(q, nonZero, offsetsOf(got.counts, got.k));
   };
-  const at = region && planesLayout(n, table, region.at, region.at + 4 * n);
+  const placed = region?.mag !== undefined && region.tail !== undefined;
+  const at =
+    region &&
+    (placed
+      ? { ...planesLayout(n, table, region.at, region.mag), tail: region.tail as number }
+      : planesLayout(n, table, region.at, region.at + 4 * n));
   const c = at && at.tail + bytes.length <= region.at + region.bytes ? coderOn(region.memory, SETUP) : null;
   const got = c && at && decodeAt(c, at, n, width, table, bytes);
   if (c && got) return give(got, new Int32Array(c.memory.buffer, at.q, n));

@@ -12,6 +12,7 @@
 import { dequantiseSplit, errorsSplit, quantiseSplit } from './arena-quant';
 import { loadSplit, offerTouch, settleTouch, transformSplit } from './arena-split';
 import { PlaneArena } from './wasm/arena';
+import type { LentRegion } from './wasm/coder-runtime';
 import {
   type BandRect,
   CHUNK,
@@ -123,18 +124,19 @@ const listedInPlace = new WeakSet<object>();
 
 /** The non-zeros (positions, values) of the q region, which `owner` holds. */
 function nonZerosIn(arena: PlaneArena, owner: object): { at: Int32Array; v: Int32Array } {
-  const { n, workAt } = arena;
+  const { n, qAt } = arena;
   // The quantiser counted the non-zeros (the result's nonZero). Below q lies free room (the coder's map, not in
-  // use now) for 4n bytes: the kernel writes positions and values there when they fit, else a pass here.
+  // use now) for 4n bytes: the kernel writes positions and values right below q when they fit, else a pass here.
   const count = (owner as { nonZero?: number }).nonZero ?? 0;
   let at: Int32Array;
   let v: Int32Array;
   let k = 0;
   if (8 * count <= 4 * n) {
-    k = arena.lift.compactNonZero(arena.qAt, arena.flagsAt, n, workAt, workAt + 4 * count);
+    const from = qAt - 8 * count;
+    k = arena.lift.compactNonZero(qAt, arena.flagsAt, n, from, from + 4 * count);
     const buf = arena.memory.buffer;
-    at = new Int32Array(buf, workAt, k).slice();
-    v = new Int32Array(buf, workAt + 4 * count, k).slice();
+    at = new Int32Array(buf, from, k).slice();
+    v = new Int32Array(buf, from + 4 * count, k).slice();
   } else {
     const buf = arena.memory.buffer;
     const q = new Int32Array(buf, arena.qAt, n);
@@ -158,7 +160,7 @@ function nonZerosIn(arena: PlaneArena, owner: object): { at: Int32Array; v: Int3
 /** The arena still holding `result`'s quantised values (and its plane's coefficients), if any. */
 export function residentQ(result: object): PlaneArena | undefined {
   const arena = codecKernelsActive() ? resultArena.get(result) : undefined;
-  if (!arena || workTaken.has(arena) || arena.isReleased) return undefined;
+  if (!arena || workTaken.has(arena) || arena.isReleased || arena.onLoan) return undefined;
   if (qOwner.get(arena) === result) return arena;
   // Load it back (warm memory: cheaper than any copying path): its array, or zeros and its non-zeros.
   const dense = denseQ.get(result);
@@ -221,6 +223,21 @@ export function keepNonZeros(
   return { arena, ...listed };
 }
 
+/** `arena`'s encode is decided (./wasm/arena.ts spend): once its rebuild has read q (or when the returned
+ * function is called), q's region and the map go to `start`, for a decode with band table `table`. */
+export function lendAfterRebuild(
+  arena: PlaneArena,
+  table: Int32Array,
+  start: (region: LentRegion | undefined) => void,
+): () => void {
+  arena.spend(() => {
+    releaseQ(arena);
+    settleTouch(arena);
+    start(arena.isReleased ? undefined : arena.lendWork(table));
+  });
+  return () => arena.runDeferred();
+}
+
 /**
  * `result`'s quantised values where they lie in its arena (loaded back when the region was reused), as a view
  * valid until the next call on that arena; undefined when they are not resident or already made into an array
@@ -236,15 +253,17 @@ export function residentQView(result: object): Int32Array | undefined {
   return new Int32Array(arena.memory.buffer, arena.qAt, arena.n);
 }
 
-/** A new arena holding the forward transform (`levels` levels) of `plane`; null when none can be made. */
+/** A new arena holding `plane`'s forward transform (`levels` levels; `oneRebuild`: ./wasm/arena.ts), or null. */
 export function analyseResident(
   plane: ArrayLike<number>,
   width: number,
   height: number,
   levels: number,
+  oneRebuild = false,
 ): PlaneArena | null {
   const arena = PlaneArena.create(width, height);
   if (!arena) return null;
+  if (oneRebuild) arena.oneRebuild(levels);
   loadSplit(arena, plane);
   if (levels > 0) transformSplit(arena, levels, LIFTING, false);
   offerTouch(arena);
@@ -332,11 +351,11 @@ export function bandMaxResident(arena: PlaneArena, bands: BandRect[]): Float64Ar
 
 /**
  * The plane rebuilt from the resident q (par: Δ, d1, d2 per band) and inverse-transformed in the arena's work
- * region, over q (whose non-zeros are kept first, as when a quantisation reuses the region): a copy, or with
- * `handOut` the region itself (no copy into fresh pages; for the decoded file, usually the last use of the
- * plane). After a hand-out the arena is not used again (undefined: take the copying paths) until the caller
- * gives the region back ({@link giveBackWork}), so nothing writes over it, and the memory, which only the
- * coder grows, keeps its size.
+ * region over q (whose non-zeros are kept first, as when a quantisation reuses the region), or over the
+ * coefficients once the encode is decided (./wasm/arena.ts spend, whose deferred start runs once q is read):
+ * a copy, or with `handOut` the region itself (no copy into fresh pages; for the decoded file, usually the
+ * last use of the plane). After a hand-out the arena is not used again (undefined: take the copying paths)
+ * until the caller gives it back ({@link giveBackWork}), so nothing writes over it, and the memory keeps its size.
  */
 export function reconstructResident(
   arena: PlaneArena,
@@ -347,14 +366,15 @@ export function reconstructResident(
 ): Float64Array | undefined {
   if (workTaken.has(arena)) return undefined;
   arena.bands(bands, par);
-  const { n, workAt } = arena;
   // The region's q is about to be overwritten: its owner keeps its non-zeros (loaded back when next needed).
   releaseQ(arena);
   settleTouch(arena);
   if (handOut) workTaken.add(arena);
-  dequantiseSplit(arena, bands.length);
-  if (levels > 0) transformSplit(arena, levels, LIFTING, true, workAt);
-  const x = new Float64Array(arena.memory.buffer, workAt, n);
+  const at = arena.coefficientsSpent ? arena.coeffsAt : arena.workAt;
+  dequantiseSplit(arena, bands.length, at);
+  arena.runDeferred();
+  if (levels > 0) transformSplit(arena, levels, LIFTING, true, at);
+  const x = new Float64Array(arena.memory.buffer, at, arena.n);
   if (!handOut) return x.slice();
   handedOut.set(x, arena);
   return x;

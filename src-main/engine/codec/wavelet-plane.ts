@@ -79,14 +79,22 @@ export interface AnalysedPlane {
   coeffs: Float64Array;
 }
 
-/** Forward-transform a plane once, so it can be coded at several steps ({@link codeAnalysed}). */
-export function analysePlane(plane: ArrayLike<number>, width: number, height: number): AnalysedPlane {
+/**
+ * Forward-transform a plane once, so it can be coded at several steps ({@link codeAnalysed}). `oneRebuild`:
+ * the plane is rebuilt only after its encode is decided (./wasm/arena.ts oneRebuild: less memory touched).
+ */
+export function analysePlane(
+  plane: ArrayLike<number>,
+  width: number,
+  height: number,
+  oneRebuild = false,
+): AnalysedPlane {
   const n = width * height;
   if (plane.length !== n)
     throw new RangeError(`plane has ${plane.length} samples; expected ${width}×${height}`);
   const levels = levelsFor(width, height);
   const bands = bandsFor(width, height, levels);
-  const arena = analyseResident(plane, width, height, levels);
+  const arena = analyseResident(plane, width, height, levels, oneRebuild);
   if (!arena) {
     const x = transformedCopy(plane, width, height, levels);
     return { width, height, levels, bands, map: bandIndexMap(width, height, bands), coeffs: x };

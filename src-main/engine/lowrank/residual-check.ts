@@ -10,17 +10,25 @@
  * bytes are range-decoded there, into the q region (the recorded values kept as their non-zeros first), on
  * the calling thread: memory the encode already touched, so no fresh pages. With `offThread` (a caller with a
  * second thread), a 'residual-verify' job decodes them there instead, and compares them with the recorded
- * non-zeros (listed from the q region, which stays the plane's), while this thread rebuilds the plane over
- * the q region: the check leaves the critical path. Where it decodes: with 'lend' (the encode is decided, so
- * nothing reads the plane's transform coefficients again), in its arena's coefficient region, memory the
- * forward transform touched; otherwise in that thread's coder memory (fresh pages the first time, about 5
+ * non-zeros (listed from the q region, which stays the plane's), while this thread rebuilds the plane: the
+ * check leaves the critical path. Where it decodes: with 'lend' (the encode is decided, so nothing reads the
+ * plane's transform coefficients again, and the rebuild goes over them), in q's region and the coder's map
+ * once the rebuild has read q, memory the encode touched; otherwise in that thread's coder memory (fresh pages the first time, about 5
  * bytes per pixel, kept for the next check). Otherwise (a plane coded on the other thread, a small plane, no
  * WebAssembly) a 'residual-decode' job of ./side-jobs decodes them on the second thread when there is one.
  */
 
 import { recallCode } from '../codec/coded-planes';
+import { bandTable } from '../codec/coeff-coder';
 import { decodeResidentV2 } from '../codec/coeff-coder-resident';
-import { keepNonZeros, releaseForRedecode, residentQ, residentQView } from '../codec/resident-plane';
+import {
+  keepNonZeros,
+  lendAfterRebuild,
+  releaseForRedecode,
+  residentQ,
+  residentQView,
+} from '../codec/resident-plane';
+import type { LentRegion } from '../codec/wasm/coder-runtime';
 import type { CodedCoefficients } from '../codec/wavelet-plane';
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 import { sameAsKept, sameInt32, sameOffsets } from './residual-verify';
@@ -37,9 +45,10 @@ const WRITTEN_CODER = 2;
 export type CheckedPlanes = 'all' | 'elsewhere' | 'resident';
 
 /**
- * Where a resident plane is checked: false, here; true, on the other thread in its coder's memory; 'lend', on
- * the other thread in the plane's coefficient region (only once the encode is decided: the plane's
- * coefficients are overwritten, and reading them afterwards throws).
+ * Where a resident plane is checked: false, here; true, on the other thread in its coder's memory; 'lend', by
+ * the runner (on the other thread, or here with one that computes at once) in the plane's q region once its
+ * rebuild has read it (only once the encode is decided: the rebuild overwrites the plane's coefficients, and
+ * reading them afterwards throws).
  */
 export type CheckThread = boolean | 'lend';
 
@@ -104,9 +113,11 @@ export function startResidualCheck(
 /**
  * The check of a resident plane on the other thread ('residual-verify', ./residual-verify): its recorded
  * values listed as their non-zeros (../codec/resident-plane keepNonZeros; the q region stays the plane's, for
- * the rebuild), its bytes decoded in the plane's coefficient region when `lend` (the arena lends it until the
- * answer comes; ../codec/wasm/arena), else in the other thread's coder memory, so this thread may rebuild
- * over the q region meanwhile. Undefined when the plane is not resident.
+ * the rebuild). With `lend` (the encode is decided), the plane's rebuild goes over its coefficients and the
+ * job starts once that has read q (or when joined, if no rebuild came first), its bytes decoded in q's region
+ * and the coder's map (the arena lends them until the answer comes; ../codec/wasm/arena); else it starts now,
+ * decoding in the other thread's coder memory, so this thread may rebuild over the q region meanwhile.
+ * Undefined when the plane is not resident.
  */
 function verifyElsewhere(
   run: SideRunner,
@@ -118,14 +129,28 @@ function verifyElsewhere(
   const kept = keepNonZeros(coded);
   if (!kept) return undefined;
   const { arena, ...values } = kept;
-  const region = lend ? arena.lendCoefficients() : undefined;
-  const args = { bytes: coded.bytes, width, height, kept: values, offsets: coded.offsets, region };
-  const join = started(run, 'residual-verify', args);
+  const args = { bytes: coded.bytes, width, height, kept: values, offsets: coded.offsets };
+  if (!lend) {
+    const join = started(run, 'residual-verify', args);
+    return { differs: () => join() || undefined };
+  }
+  // Started once the report's rebuild (over the coefficients) has read q, in q's region and the coder's map.
+  let join: (() => string) | undefined;
+  let lent: LentRegion | undefined;
+  const now = lendAfterRebuild(
+    arena,
+    bandTable(bandsFor(width, height, levelsFor(width, height))),
+    (region) => {
+      lent = region;
+      join = started(run, 'residual-verify', { ...args, region });
+    },
+  );
   return {
     differs: () => {
-      const what = join();
+      now();
+      const what = (join as () => string)();
       // Answered: nothing writes the region any more (without an answer it stays lent, so it is never reused).
-      if (region) arena.endLoan();
+      if (lent) arena.endLoan();
       return what || undefined;
     },
   };

@@ -193,7 +193,9 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   }
   cancel();
   // With a second thread the whole planes are transformed meanwhile (wasted only when the base may pay).
-  const early = inp.side ? planes.map((p) => analysePlane(p, width, height)) : undefined;
+  // A byte budget's planes are rebuilt once, after the encode is decided (the PSNR floor's at every check).
+  const oneRebuild = byteBudget !== undefined;
+  const early = inp.side ? planes.map((p) => analysePlane(p, width, height, oneRebuild)) : undefined;
   if (fitJob) {
     const f = fitJob();
     cancel();
@@ -212,7 +214,7 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   const basePlanes = planes.map(() => emptyBase(width, height));
   // A colour scan's chroma planes are coded on the second thread while this one codes Y (./side-coder).
   const { analysed, code } = planesCoder(
-    early ?? planes.map((p) => analysePlane(p, width, height)),
+    early ?? planes.map((p) => analysePlane(p, width, height, oneRebuild)),
     inp.side,
   );
   const summary = (

@@ -57,10 +57,10 @@ export function finishScan(
   const run = opts.side ?? runHere;
   let bytes = file ?? build(basePlanes, false, residual);
   // The range decoder's check of the recorded residual planes, on the second thread while this one rebuilds
-  // and measures (started when the file was built, on the residual-only path); without one, those resident in
-  // their plane's memory here and now, before the decode rebuilds over it.
+  // and measures (started when the file was built, on the residual-only path); without one, here.
   const started = takeStartedCheck(bytes);
-  // The encode is decided: the other thread may decode over the planes' transform coefficients.
+  // The encode is decided: a resident plane is rebuilt over its transform coefficients, and its check decodes
+  // in its q region once the rebuild has read q (on the other thread, or here at once: ./residual-check).
   const here = startResidualCheck(
     run,
     residual,
@@ -68,7 +68,7 @@ export function finishScan(
     height,
     img.file,
     started ? 'resident' : 'all',
-    opts.side !== undefined && 'lend',
+    'lend',
   );
   const checked = () => {
     started?.();

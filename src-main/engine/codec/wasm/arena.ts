@@ -12,11 +12,16 @@
  * Layout (byte offsets): the lifting module's tables in the first page (./runtime.ts), the coder's scratch
  * from SCRATCH (./coder-constants.ts), then from {@link BASE}: the coefficients (f64), the transforms' scratch
  * (twice: the second for a second thread, ../arena-split.ts), the quantiser's chunk flags, then the work region of 8n bytes whose upper half is q (i32), and last the
- * coder's output (which may grow the memory). The reconstruction (f64) fills the whole work region, over q
- * (the kernel reads each q before anything writes over it; the caller first keeps q's non-zeros), so a plane
- * touches 16n bytes of fresh memory here and not 20n. The coder's magnitude map and the LL band's differences
- * sit in the work region's lower half while q is there (they fit when the LL band is at most n/4 values,
- * i.e. one level or more; otherwise after the work region).
+ * coder's output (which may grow the memory). The coder's magnitude map (u8) and the LL band's differences
+ * sit at the top of the work region's lower half, just below q (they fit when the LL band is at most n/4
+ * values, i.e. one level or more; otherwise after the work region); q's non-zeros are listed there too
+ * before q is overwritten. A rebuild whose plane may still be coded again (a quality floor's checks) fills
+ * the whole work region with the reconstruction (f64), over q (the kernel reads each q before anything
+ * writes over it; the caller first keeps q's non-zeros): a plane then touches 16n bytes of fresh memory here
+ * and not 20n. Once the encode is decided ({@link PlaneArena.spend}), the last rebuild goes over the
+ * coefficients instead, and the range decode of the report's check may then use q's region and the map's
+ * ({@link PlaneArena.lendWork}): a plane coded under a byte budget never touches the rest of the lower half
+ * (3n bytes; {@link PlaneArena.oneRebuild}), so 13n bytes in all.
  *
  * Every result equals the TypeScript reference's bit for bit: the kernels perform its operations in its order.
  */
@@ -44,6 +49,7 @@ const BASE = 2 * PAGE;
 const STRIP = 32;
 
 const align16 = (n: number) => (n + 15) & ~15;
+const align8 = (n: number) => (n + 7) & ~7;
 
 /**
  * Planes smaller than this use the shared kernels of ./runtime.ts (copying), not an arena of their own: each
@@ -114,12 +120,16 @@ export class PlaneArena {
   readonly qAt: number;
   /** Past the work region: the coder's output (and its map, when that does not fit below q). */
   readonly endAt: number;
+  /** Where the first touch of the work region starts (../arena-split.ts offerTouch): all of it by default. */
+  touchFrom: number;
   readonly lift: LiftingExports;
   private coderCache: CoderWasm | null;
   private released = false;
-  /** The coefficients' region was lent (overwritten: never read again), and the loan is not over yet. */
+  /** The coefficients are read no more (the encode is decided); q's region is lent, and the loan is not over yet. */
   private spent = false;
   private lent = false;
+  /** What {@link spend} deferred until the last rebuild has read q. */
+  private deferred: (() => void) | undefined;
   private buffer: ArrayBufferLike;
   private coeffView: Float64Array;
 
@@ -143,6 +153,7 @@ export class PlaneArena {
     this.workAt = this.flagsAt + align16(Math.ceil(n / CHUNK));
     this.qAt = this.workAt + 4 * n;
     this.endAt = this.workAt + align16(8 * n);
+    this.touchFrom = this.workAt;
     this.buffer = memory.buffer;
     this.coeffView = new Float64Array(this.buffer, this.coeffsAt, n);
     adoptArenaMemory(memory, lift);
@@ -192,31 +203,73 @@ export class PlaneArena {
   }
 
   /**
-   * Lend the coefficients' region (8n bytes; memory the forward transform touched) to a decode on another
-   * thread (../coeff-coder-resident.ts decodeInPlaceV2): the caller reads these coefficients no more
-   * (../resident-plane then refuses them) and runs no coder on this memory until {@link endLoan}. q and the
-   * work region are not part of the loan: this thread may rebuild the plane meanwhile. Undefined while a loan
-   * is running.
+   * Where the coder's map goes below q when the LL band has `ll` values ({@link coderLayout}: n bytes, then
+   * the LL band's differences), aligned down to 8.
    */
-  lendCoefficients(): LentRegion | undefined {
-    this.fresh();
-    if (this.lent) return undefined;
-    this.spent = true;
-    this.lent = true;
-    return { memory: this.memory, at: this.coeffsAt, bytes: this.tmpAt - this.coeffsAt };
+  private mapAt(ll: number): number {
+    return Math.floor((this.qAt - align8(this.n) - align8(4 * ll)) / 8) * 8;
   }
 
-  /** The decode given {@link lendCoefficients}'s region is over: nothing writes it any more. */
+  /**
+   * This plane is rebuilt once, over its coefficients, after its encode is decided (a byte budget): the first
+   * touch of the work region (../arena-split.ts) leaves out the lower half's part below the coder's map, which
+   * nothing then writes. `levels`: the transform's levels (they size the LL band).
+   */
+  oneRebuild(levels: number): void {
+    let w = this.width;
+    let h = this.height;
+    for (let l = 0; l < levels; l++) {
+      w = (w + 1) >> 1;
+      h = (h + 1) >> 1;
+    }
+    const at = this.mapAt(w * h);
+    if (at >= this.workAt) this.touchFrom = at;
+  }
+
+  /**
+   * The encode is decided: the caller reads these coefficients no more (../resident-plane then refuses them),
+   * so the plane's last rebuild goes over them, and `start` runs once that rebuild has read q
+   * ({@link runDeferred}), for a range decode that may then take the work region ({@link lendWork}).
+   */
+  spend(start: () => void): void {
+    this.fresh();
+    this.runDeferred();
+    this.spent = true;
+    this.deferred = start;
+  }
+
+  /** Run what {@link spend} deferred, if it has not run yet: q is read (or will not be). */
+  runDeferred(): void {
+    const start = this.deferred;
+    this.deferred = undefined;
+    start?.();
+  }
+
+  /**
+   * Lend q's region and the map's below it (memory the encode touched), to a decode on another thread
+   * (../coeff-coder-resident.ts decodeInPlaceV2) of the plane coded with band table `table`: the caller runs
+   * no coder on this memory and reads no q here until {@link endLoan}. The coded bytes go where the coder's
+   * output went. Undefined while a loan is running.
+   */
+  lendWork(table: Int32Array): LentRegion | undefined {
+    const buffer = this.fresh();
+    if (this.lent) return undefined;
+    this.lent = true;
+    const at = this.coderLayout(table);
+    return { memory: this.memory, at: at.q, bytes: buffer.byteLength - at.q, mag: at.mag, tail: at.tail };
+  }
+
+  /** The decode given {@link lendWork}'s region is over: nothing writes it any more. */
   endLoan(): void {
     this.lent = false;
   }
 
-  /** Whether the coefficients' region is lent now (no coder may run on this memory meanwhile). */
+  /** Whether the work region is lent now (no coder may run on this memory, no q be read, meanwhile). */
   get onLoan(): boolean {
     return this.lent;
   }
 
-  /** Whether the coefficients' region was lent: this plane's coefficients are gone. */
+  /** Whether the encode was decided ({@link spend}): this plane's coefficients are overwritten by its rebuild. */
   get coefficientsSpent(): boolean {
     return this.spent;
   }
@@ -260,8 +313,10 @@ export class PlaneArena {
    * band's differences below q when they fit there, and the output (which may grow the memory) last.
    */
   coderLayout(table: Int32Array): PlanesAt {
-    const below = planesLayout(this.n, table, this.qAt, this.workAt);
-    if (below.tail <= this.qAt) return { ...below, tail: this.endAt };
+    // The map and the LL band's differences take planesLayout's tail at 0 bytes: right below q.
+    const mag = Math.floor((this.qAt - planesLayout(this.n, table, 0, 0).tail) / 8) * 8;
+    const below = planesLayout(this.n, table, this.qAt, mag);
+    if (mag >= this.workAt && below.tail <= this.qAt) return { ...below, tail: this.endAt };
     return planesLayout(this.n, table, this.qAt, this.endAt);
   }
 

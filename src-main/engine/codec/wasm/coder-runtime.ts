@@ -163,6 +163,12 @@ export interface LentRegion {
   /** Byte offset (a multiple of 8) and length of the region. */
   at: number;
   bytes: number;
+  /**
+   * Where q goes is `at`; the magnitude map (then the LL band's differences) at `mag` below it and the bytes at
+   * `tail`, when given (also lent): ./arena.ts lendWork. Otherwise all follow each other from `at`.
+   */
+  mag?: number;
+  tail?: number;
 }
 
 /** Write the band table into the scratch area; returns the band count. */
