@@ -9,7 +9,7 @@
  * quantised result made from it ({@link ownQ}); a result whose q has since been overwritten, or any plane from
  * elsewhere (a copy in shared memory, the stack coder's own arrays), takes the TypeScript or copying path.
  */
-import { dequantiseSplit, errorsSplit, quantiseSplit } from './arena-quant';
+import { dequantiseSplit, errorsAtSplit, errorsSplit, quantiseSplit } from './arena-quant';
 import { loadSplit, offerTouch, settleTouch, transformSplit } from './arena-split';
 import { PlaneArena } from './wasm/arena';
 import {
@@ -317,6 +317,22 @@ export function bandErrorsResident(
   arena.bands(bands, par);
   errorsSplit(arena, bands);
   return results(arena, bands.length, 1).slice();
+}
+
+/**
+ * Per band, Σ(c − rebuilt(q))² of the resident coefficients quantised by par (Δ, ρ, zero threshold per band)
+ * and rebuilt with the offsets `offsets` gives for that quantisation's bin statistics: quantiseResident then
+ * bandErrorsResident's sums, bit for bit, with no q written (./arena-quant.ts errorsAtSplit); q, its owner and
+ * its statistics stay as they were.
+ */
+export function errorsAtResident(
+  arena: PlaneArena,
+  bands: BandRect[],
+  par: (bi: number) => number[],
+  offsets: (stats: { n: Int32Array; sum: Float64Array }) => Float64Array,
+): Float64Array {
+  arena.bands(bands, par);
+  return errorsAtSplit(arena, bands, () => offsets(statsOf(arena, bands.length)));
 }
 
 /** Per band, the largest magnitude of the resident coefficients (found once per arena and bands). */

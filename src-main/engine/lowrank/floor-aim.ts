@@ -21,6 +21,7 @@ import {
   reconstructCoded,
   releaseAnalysed,
   smallestSafeStep,
+  squaredErrorAt,
 } from '../codec/wavelet-plane';
 import { codeHere, type PlanesCoder, tidy } from './residual-fit';
 import type { SideRunner } from './side-jobs';
@@ -64,11 +65,9 @@ export function stepForError(analysed: AnalysedPlane[], weights: number[], targe
   const scales = stepScales(weights);
   const est = (d: number) =>
     analysed.reduce((s, a, k) => s + weights[k] * estimateSquaredError(a, d * scales[k]), 0);
+  // The exact error of each plane quantised at the step, without writing its q (../codec squaredErrorAt).
   const exact = (d: number) =>
-    analysed.reduce(
-      (s, a, k) => s + weights[k] * codedSquaredError(a, quantiseAnalysed(a, tidy(d * scales[k]))),
-      0,
-    );
+    analysed.reduce((s, a, k) => s + weights[k] * squaredErrorAt(a, tidy(d * scales[k])), 0);
   const solve = (t: number) => {
     let lo = Math.log2(1e-3);
     let hi = Math.log2(1e6);

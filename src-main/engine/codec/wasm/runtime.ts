@@ -26,6 +26,17 @@ type ColumnPass = (
   k: number,
 ) => void;
 
+/** A kernel over the bands b0 … b1 − 1 of the coefficients at x (../arena-quant.ts errorsAtStepSplit). */
+type BandsAt = (
+  x: number,
+  width: number,
+  b0: number,
+  b1: number,
+  geo: number,
+  par: number,
+  out: number,
+) => void;
+
 /** The lifting module's exports (./assembly/lifting.ts); pointers are byte offsets into its memory. */
 export interface LiftingExports {
   forward97(x: number, w: number, h: number, levels: number, tmp: number, buf: number, k: number): void;
@@ -74,6 +85,10 @@ export interface LiftingExports {
   compactNonZero(q: number, flags: number, n: number, at: number, v: number): number;
   binStats(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
   squaredError(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
+  /** Bands b0 … b1 − 1: the quantiser's bin statistics at out + 32·b, no q written (par: Δ, ρ, zero). */
+  binStatsAt: BandsAt;
+  /** Bands b0 … b1 − 1: squared error of the quantised values (not written), d1, d2 read at out + 32·b, Σ at + 16. */
+  errorsAt: BandsAt;
   bandMax(x: number, width: number, nb: number, geo: number, out: number): void;
 }
 

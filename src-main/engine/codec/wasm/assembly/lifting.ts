@@ -593,6 +593,94 @@ export function squaredError(x: usize, q: usize, width: i32, nb: i32, geo: usize
   }
 }
 
+/**
+ * Bands b0 … b1 − 1 at the quantiser's steps and thresholds (par: Δ, ρ, zero), q not written: at out + 32·b
+ * the bin statistics quantiseBands would write with them (n1, n2, s1, s2; same operations, same order).
+ */
+export function binStatsAt(x: usize, width: i32, b0: i32, b1: i32, geo: usize, par: usize, out: usize): void {
+  for (let bi = b0; bi < b1; bi++) {
+    const g = geo + (<usize>bi << 4);
+    const p = par + (<usize>bi << 5);
+    const x0 = load<i32>(g);
+    const y0 = load<i32>(g, 4);
+    const bw = load<i32>(g, 8);
+    const bh = load<i32>(g, 12);
+    const d = load<f64>(p);
+    const rho = load<f64>(p, 8);
+    const zero = load<f64>(p, 16);
+    let n1: f64 = 0;
+    let n2: f64 = 0;
+    let s1: f64 = 0;
+    let s2: f64 = 0;
+    for (let y = 0; y < bh; y++) {
+      const row = <usize>(y0 + y) * <usize>width + <usize>x0;
+      for (let i: usize = 0; i < <usize>bw; i++) {
+        const c = load<f64>(x + ((row + i) << 3));
+        const ac = abs<f64>(c);
+        if (!(ac > zero)) continue;
+        const u = ac / d;
+        const m = floor<f64>(u + rho);
+        if (m == 0) continue;
+        const v = toInt32(c < 0 ? -m : m);
+        if (v == 0) continue;
+        const a: f64 = v < 0 ? -<f64>v : <f64>v;
+        const r = u - a;
+        if (a == 1) {
+          n1++;
+          s1 += r;
+        } else {
+          n2++;
+          s2 += r;
+        }
+      }
+    }
+    const o = out + (<usize>bi << 5);
+    store<f64>(o, n1);
+    store<f64>(o, n2, 8);
+    store<f64>(o, s1, 16);
+    store<f64>(o, s2, 24);
+  }
+}
+
+/**
+ * Bands b0 … b1 − 1: Σ(c − rebuilt(q))² in raster order (c where q = 0), q being the values quantiseBands would
+ * store with par's Δ, ρ and zero threshold (worked out again, not read), the reconstruction offsets d1, d2 read
+ * from out + 32·b and the sum written at out + 32·b + 16: squaredError's band sums after quantiseBands, bit
+ * for bit, with no q in memory.
+ */
+export function errorsAt(x: usize, width: i32, b0: i32, b1: i32, geo: usize, par: usize, out: usize): void {
+  for (let bi = b0; bi < b1; bi++) {
+    const g = geo + (<usize>bi << 4);
+    const p = par + (<usize>bi << 5);
+    const o = out + (<usize>bi << 5);
+    const x0 = load<i32>(g);
+    const y0 = load<i32>(g, 4);
+    const bw = load<i32>(g, 8);
+    const bh = load<i32>(g, 12);
+    const step = load<f64>(p);
+    const rho = load<f64>(p, 8);
+    const zero = load<f64>(p, 16);
+    const d1 = load<f64>(o);
+    const d2 = load<f64>(o, 8);
+    let s: f64 = 0;
+    for (let y = 0; y < bh; y++) {
+      const row = <usize>(y0 + y) * <usize>width + <usize>x0;
+      for (let i: usize = 0; i < <usize>bw; i++) {
+        const c = load<f64>(x + ((row + i) << 3));
+        const ac = abs<f64>(c);
+        let v: i32 = 0;
+        if (ac > zero) {
+          const m = floor<f64>(ac / step + rho);
+          if (m != 0) v = toInt32(c < 0 ? -m : m);
+        }
+        const d = v == 0 ? c : c - rebuilt(<f64>v, step, d1, d2);
+        s += d * d;
+      }
+    }
+    store<f64>(o, s, 16);
+  }
+}
+
 /** Per band b, the largest |c| (0 for an empty band), into out + 8·b (f64). */
 export function bandMax(x: usize, width: i32, nb: i32, geo: usize, out: usize): void {
   for (let bi = 0; bi < nb; bi++) {
