@@ -40,7 +40,7 @@ import { quantiseWasm } from './wasm/runtime';
 import { codedSquaredError, dequantise } from './wavelet-rebuild';
 import { type Band, bandsFor, levelsFor, transformedCopy } from './wavelet-transform';
 
-export { estimateBits, estimateSquaredError } from './wavelet-estimate';
+export { estimateBits, estimateSquaredError, prepareEstimates } from './wavelet-estimate';
 export { codedSquaredError } from './wavelet-rebuild';
 
 export {
