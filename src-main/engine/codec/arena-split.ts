@@ -143,8 +143,10 @@ export function runArenaPass(args: ArenaPassArgs): number {
       lift.dequantiseInPlace(a[0], a[1], a[2], a[3], GEO, PAR, a[4], a[5]);
       break;
     case 'statsAt':
+      lift.quantiseStats(a[0], 0, a[1], a[2], a[3], GEO, PAR, 0, RESULTS);
+      break;
     case 'errorsAt':
-      (args.op === 'statsAt' ? lift.binStatsAt : lift.errorsAt)(a[0], a[1], a[2], a[3], GEO, PAR, RESULTS);
+      lift.errorsAt(a[0], a[1], a[2], a[3], GEO, PAR, RESULTS);
   }
   return 0;
 }

@@ -313,7 +313,8 @@ const CHUNK: i32 = 1 << CHUNK_BITS;
  * entries j·CHUNK … (j+1)·CHUNK − 1 receive a non-zero (never clears one: the caller zeroes the flags first, so
  * two threads quantising other bands may set flags at once). With `out` ≠ 0, also coder 2's bin statistics of
  * each band b at out + 32·b, as {@link binStats} computes them from the stored q (same terms, same order).
- * Returns the number of non-zero q.
+ * With q = 0, nothing but those statistics is stored (no q, no flags: the error at a step without q, {@link
+ * errorsAt}). Returns the number of non-zero q.
  */
 function quantiseBands(
   x: usize,
@@ -353,7 +354,7 @@ function quantiseBands(
           if (m != 0) {
             v = toInt32(c < 0 ? -m : m);
             nonZero++;
-            store<u8>(flags + ((row + i) >> CHUNK_BITS), 1);
+            if (q != 0) store<u8>(flags + ((row + i) >> CHUNK_BITS), 1);
             // binStats' terms: |q| as stored, and |c|/Δ − |q| into the class of |q| (none for a stored 0).
             if (out != 0 && v != 0) {
               const a: f64 = v < 0 ? -<f64>v : <f64>v;
@@ -368,7 +369,7 @@ function quantiseBands(
             }
           }
         }
-        store<i32>(q + ((row + i) << 2), v);
+        if (q != 0) store<i32>(q + ((row + i) << 2), v);
       }
     }
     if (out != 0) {
@@ -590,55 +591,6 @@ export function squaredError(x: usize, q: usize, width: i32, nb: i32, geo: usize
       }
     }
     store<f64>(out + (<usize>bi << 3), s);
-  }
-}
-
-/**
- * Bands b0 … b1 − 1 at the quantiser's steps and thresholds (par: Δ, ρ, zero), q not written: at out + 32·b
- * the bin statistics quantiseBands would write with them (n1, n2, s1, s2; same operations, same order).
- */
-export function binStatsAt(x: usize, width: i32, b0: i32, b1: i32, geo: usize, par: usize, out: usize): void {
-  for (let bi = b0; bi < b1; bi++) {
-    const g = geo + (<usize>bi << 4);
-    const p = par + (<usize>bi << 5);
-    const x0 = load<i32>(g);
-    const y0 = load<i32>(g, 4);
-    const bw = load<i32>(g, 8);
-    const bh = load<i32>(g, 12);
-    const d = load<f64>(p);
-    const rho = load<f64>(p, 8);
-    const zero = load<f64>(p, 16);
-    let n1: f64 = 0;
-    let n2: f64 = 0;
-    let s1: f64 = 0;
-    let s2: f64 = 0;
-    for (let y = 0; y < bh; y++) {
-      const row = <usize>(y0 + y) * <usize>width + <usize>x0;
-      for (let i: usize = 0; i < <usize>bw; i++) {
-        const c = load<f64>(x + ((row + i) << 3));
-        const ac = abs<f64>(c);
-        if (!(ac > zero)) continue;
-        const u = ac / d;
-        const m = floor<f64>(u + rho);
-        if (m == 0) continue;
-        const v = toInt32(c < 0 ? -m : m);
-        if (v == 0) continue;
-        const a: f64 = v < 0 ? -<f64>v : <f64>v;
-        const r = u - a;
-        if (a == 1) {
-          n1++;
-          s1 += r;
-        } else {
-          n2++;
-          s2 += r;
-        }
-      }
-    }
-    const o = out + (<usize>bi << 5);
-    store<f64>(o, n1);
-    store<f64>(o, n2, 8);
-    store<f64>(o, s1, 16);
-    store<f64>(o, s2, 24);
   }
 }
 
