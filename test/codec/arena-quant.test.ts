@@ -2,8 +2,9 @@
 // threads (src-main/engine/codec/arena-quant.ts): q, the non-zero count, the reconstruction offsets, the coded
 // bytes, the squared error and the rebuilt plane equal the TypeScript reference's bit for bit, on odd sizes and
 // 0–6 levels, whichever thread computes which piece: on one thread, every piece computed as it is offered, every
-// piece taken back by the caller (a side thread that never started them), and a real worker thread; and a
-// decided plane's rebuild over its coefficients (one split pass instead of the phases over q).
+// piece taken back by the caller (a side thread that never started them), and a real worker thread; a decided
+// plane's rebuild over its coefficients (one split pass instead of the phases over q); and the squared error at a
+// step without writing q (squaredErrorAt) equals that of the quantised plane, bit for bit.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { bandCuts } from '../../src-main/engine/codec/arena-quant';
 import {
@@ -24,6 +25,7 @@ import {
   codedSquaredError,
   quantiseAnalysed,
   reconstructCoded,
+  squaredErrorAt,
 } from '../../src-main/engine/codec/wavelet-plane';
 import { bandsFor, LIFTING } from '../../src-main/engine/codec/wavelet-transform';
 import { offeredWithPause, realSideThread } from '../helpers/side-thread';
@@ -57,6 +59,8 @@ const SIZES: Array<[number, number]> = [
   [401, 389],
 ];
 const STEP = 2.5;
+/** Steps of squaredErrorAt (quantiser statistics and error without q). */
+const SSE_STEPS = [0.7 * STEP, 2 * STEP, 9 * STEP];
 
 /**
  * Everything the split operations feed, as digests: q, counts, offsets, bytes, error, rebuilt plane; and
@@ -67,6 +71,8 @@ function coded(p: Float32Array, w: number, h: number) {
   const resident = residentArena(a) !== undefined;
   const c = codeAnalysed(a, STEP, 2);
   const out = {
+    // The error at other steps without writing q (first: q must still be c's afterwards).
+    sseAt: SSE_STEPS.map((s) => squaredErrorAt(a, s)),
     q: digest(c.q),
     nonZero: c.nonZero,
     bytes: digest(c.bytes),
@@ -112,6 +118,32 @@ describe('quantiser, squared error and dequantisation split across threads', () 
       expect(counts.get(`${how} quantise`)).toBe(6);
       expect(counts.get(`${how} errors`)).toBe(3);
       expect(counts.get(`${how} dequantise`)).toBe(3 * phases(w * h));
+      // Per squaredErrorAt, three pieces of each of its two passes.
+      expect(counts.get(`${how} statsAt`)).toBe(3 * SSE_STEPS.length);
+      expect(counts.get(`${how} errorsAt`)).toBe(3 * SSE_STEPS.length);
+    }
+  });
+
+  it('squaredErrorAt is the error of the quantised plane, bit for bit, and leaves q as it was', () => {
+    const [w, h] = [257, 193];
+    const p = rampPlane(w, h, 11);
+    for (const run of [undefined, atOnce, takenBack]) {
+      withArenaHelper(run, () => {
+        const a = analysePlane(p, w, h);
+        expect(residentArena(a)).toBeDefined();
+        const c = quantiseAnalysed(a, STEP);
+        const q = digest(c.q);
+        for (const s of SSE_STEPS) {
+          const at = squaredErrorAt(a, s);
+          expect(at).toBeGreaterThan(0);
+          expect(Object.is(at, codedSquaredError(a, quantiseAnalysed(a, s)))).toBe(true);
+        }
+        // Quantised again at STEP after the others: the error without q is still the coded plane's.
+        const again = quantiseAnalysed(a, STEP);
+        expect(squaredErrorAt(a, STEP)).toBe(codedSquaredError(a, again));
+        expect(digest(again.q)).toBe(q);
+        expect(() => squaredErrorAt(a, 0)).toThrow(RangeError);
+      });
     }
   });
 

@@ -18,7 +18,7 @@
  */
 import { bounds, PIECES, pass, splits, whileTouchPaused } from './arena-split';
 import type { PlaneArena } from './wasm/arena';
-import { CHUNK, GEO, PAR } from './wasm/runtime';
+import { CHUNK, GEO, PAR, RESULTS } from './wasm/runtime';
 
 /** Band indices cutting `bands` into PIECES runs of about equal samples: PIECES + 1 bounds, 0 first, nb last. */
 export function bandCuts(bands: ArrayLike<{ w: number; h: number }>): number[] {
@@ -64,6 +64,37 @@ export function errorsSplit(arena: PlaneArena, bands: ArrayLike<{ w: number; h: 
       a: [arena.coeffsAt, arena.qAt, arena.width, ...bandsOf(cuts, k)],
     })),
   );
+}
+
+/**
+ * Per band, Σ(c − rebuilt(q))² of the arena's coefficients quantised by the band tables (Δ, ρ, zero threshold
+ * per band, written by the caller), with q worked out in both passes and never stored: first the quantiser's bin
+ * statistics (in the kernels' results, as {@link quantiseSplit} leaves them), then `offsets()` (d1, d2 per band,
+ * from those statistics), then the error. The sums equal quantiseSplit then {@link errorsSplit} bit for bit
+ * (each band's sums formed by one thread in raster order), without writing q, its flags or their pages.
+ */
+export function errorsAtSplit(
+  arena: PlaneArena,
+  bands: ArrayLike<{ w: number; h: number }>,
+  offsets: () => Float64Array,
+): Float64Array {
+  const cuts = bandCuts(bands);
+  const nb = bands.length;
+  const run = (op: 'statsAt' | 'errorsAt') =>
+    pass(arena, op, false, splits(arena, arena.n), (k) => ({
+      a: [arena.coeffsAt, arena.width, ...bandsOf(cuts, k)],
+    }));
+  return whileTouchPaused(arena, () => {
+    run('statsAt');
+    const o = offsets();
+    const r = new Float64Array(arena.memory.buffer, RESULTS, 4 * nb);
+    for (let b = 0; b < nb; b++) {
+      r[4 * b] = o[2 * b];
+      r[4 * b + 1] = o[2 * b + 1];
+    }
+    run('errorsAt');
+    return Float64Array.from({ length: nb }, (_, b) => r[4 * b + 2]);
+  });
 }
 
 /** Positions a dequantisation piece's bounds are rounded to (16 f64 or q values: whole cache lines). */

@@ -23,11 +23,12 @@ export interface ArenaPassArgs {
   /** The arena's memory (shared) and a number naming it across threads. */
   memory: WebAssembly.Memory;
   id: number;
-  op: 'load' | 'rows' | 'cols' | 'touch' | 'quantise' | 'errors' | 'dequantise';
+  op: 'load' | 'rows' | 'cols' | 'touch' | 'quantise' | 'errors' | 'dequantise' | 'statsAt' | 'errorsAt';
   inverse: boolean;
   /**
    * load: dst (f64 bytes); rows: x, width, w, y0, y1; cols: x, width, w, h, c0, c1; touch: from, to (bytes);
-   * quantise and errors: x, q, width, b0, b1 (bands), flags (quantise); dequantise: q, x, width, nb, i0, i1.
+   * quantise and errors: x, q, width, b0, b1 (bands), flags (quantise); dequantise: q, x, width, nb, i0, i1;
+   * statsAt and errorsAt (the quantiser's statistics and error without q, ./arena-quant.ts): x, width, b0, b1.
    * The band tables (and the statistics written per band) are the kernels' (./wasm/runtime.ts GEO, PAR, RESULTS).
    */
   a: number[];
@@ -140,6 +141,12 @@ export function runArenaPass(args: ArenaPassArgs): number {
       break;
     case 'dequantise':
       lift.dequantiseInPlace(a[0], a[1], a[2], a[3], GEO, PAR, a[4], a[5]);
+      break;
+    case 'statsAt':
+      lift.quantiseStats(a[0], 0, a[1], a[2], a[3], GEO, PAR, 0, RESULTS);
+      break;
+    case 'errorsAt':
+      lift.errorsAt(a[0], a[1], a[2], a[3], GEO, PAR, RESULTS);
   }
   return 0;
 }

@@ -1,7 +1,7 @@
 /**
  * The plane coder's (./wavelet-plane.ts) operations on a plane whose coefficients are resident in its own
  * WebAssembly memory (./wasm/arena.ts): the forward transform, the quantiser with coder 2's bin statistics,
- * the transform-domain squared error, the band maxima and the reconstruction, each in place, each
+ * and the reconstruction (the squared error and band maxima: ./resident-bands.ts), each in place, each
  * bit-identical to the TypeScript in ./wavelet-plane.ts and ./coeff-coder.ts (same operations, same order).
  *
  * Which plane and which quantised coefficients are resident is kept here, by object identity: an analysed
@@ -9,8 +9,9 @@
  * quantised result made from it ({@link ownQ}); a result whose q has since been overwritten, or any plane from
  * elsewhere (a copy in shared memory, the stack coder's own arrays), takes the TypeScript or copying path.
  */
-import { dequantiseSplit, errorsSplit, quantiseSplit } from './arena-quant';
+import { dequantiseSplit, quantiseSplit } from './arena-quant';
 import { loadSplit, offerTouch, settleTouch, transformSplit } from './arena-split';
+import { statsOf } from './resident-bands';
 import { PlaneArena } from './wasm/arena';
 import type { LentRegion } from './wasm/coder-runtime';
 import {
@@ -39,8 +40,6 @@ const sparseQ = new WeakMap<object, { at: Int32Array; v: Int32Array }>();
 const qStats = new WeakMap<PlaneArena, { steps: Float64Array; n: Int32Array; sum: Float64Array }>();
 /** Arenas whose q region holds its owner's kept non-zeros as loaded back, not handed out as a view since. */
 const loadedBack = new WeakSet<PlaneArena>();
-/** Each arena's band maxima (its coefficients do not change), with the bands they are of. */
-const maxima = new WeakMap<PlaneArena, { bands: BandRect[]; top: Float64Array }>();
 /** Arenas whose work region holds a reconstruction handed to a caller: nothing may write it again. */
 const workTaken = new WeakSet<PlaneArena>();
 /** Each handed-out reconstruction's arena, until its caller gives it back ({@link giveBackWork}). */
@@ -290,25 +289,6 @@ export function quantiseResident(
   return nonZero;
 }
 
-/** The bin statistics in the kernels' results (4 f64 per band: n1, n2, s1, s2) as counts and sums. */
-function statsOf(arena: PlaneArena, nb: number): { n: Int32Array; sum: Float64Array } {
-  const r = results(arena, nb, 4);
-  const n = new Int32Array(2 * nb);
-  const sum = new Float64Array(2 * nb);
-  for (let b = 0; b < nb; b++) {
-    n[2 * b] = r[4 * b];
-    n[2 * b + 1] = r[4 * b + 1];
-    sum[2 * b] = r[4 * b + 2];
-    sum[2 * b + 1] = r[4 * b + 3];
-  }
-  return { n, sum };
-}
-
-/** Per-band results of the last statistics kernel, `per` f64 per band. */
-function results(arena: PlaneArena, nb: number, per: number): Float64Array {
-  return new Float64Array(arena.memory.buffer, RESULTS, per * nb);
-}
-
 /**
  * Coder 2's bin statistics of the resident coefficients and q (binStats in ./coeff-coder.ts): those the
  * quantiser made with the same steps when the q region still holds its values, else computed here.
@@ -325,28 +305,6 @@ export function binStatsResident(
   arena.bands(bands, (bi) => [steps[bi], 0, 0]);
   arena.lift.binStats(arena.coeffsAt, arena.qAt, arena.width, nb, GEO, PAR, RESULTS);
   return statsOf(arena, nb);
-}
-
-/** Per band, Σ(c − rebuilt(q))² of the resident coefficients and q (par: Δ, d1, d2 per band). */
-export function bandErrorsResident(
-  arena: PlaneArena,
-  bands: BandRect[],
-  par: (bi: number) => number[],
-): Float64Array {
-  arena.bands(bands, par);
-  errorsSplit(arena, bands);
-  return results(arena, bands.length, 1).slice();
-}
-
-/** Per band, the largest magnitude of the resident coefficients (found once per arena and bands). */
-export function bandMaxResident(arena: PlaneArena, bands: BandRect[]): Float64Array {
-  const known = maxima.get(arena);
-  if (known?.bands === bands) return known.top.slice();
-  arena.bands(bands, () => [0, 0, 0]);
-  arena.lift.bandMax(arena.coeffsAt, arena.width, bands.length, GEO, RESULTS);
-  const top = results(arena, bands.length, 1).slice();
-  maxima.set(arena, { bands, top });
-  return top.slice();
 }
 
 /**

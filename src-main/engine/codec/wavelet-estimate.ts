@@ -168,6 +168,14 @@ function estimateSquaredErrorAt(a: AnalysedPlane, step: number): number {
   return e * strideOf(a);
 }
 
+/**
+ * Build `a`'s sample for the estimates (sorted magnitudes, running sums of squares) now, where a thread would
+ * otherwise wait for another: every estimate is the same number whenever the sample was built.
+ */
+export function prepareEstimates(a: AnalysedPlane): void {
+  sampleSquares(a);
+}
+
 /** Per band, the running sums of the sorted sample's squares: entry i is v₀² + … + v_{i−1}², added in order. */
 const squaresCache = new WeakMap<AnalysedPlane, Float64Array[]>();
 function sampleSquares(a: AnalysedPlane): Float64Array[] {

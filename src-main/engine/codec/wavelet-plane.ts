@@ -25,10 +25,10 @@ import {
 } from './coeff-coder';
 import { encodeResidentV2 } from './coeff-coder-resident';
 import { decodeCoefficientsV1, encodeCoefficientsV1 } from './coeff-coder-v1';
+import { bandMaxResident, errorsAtResident } from './resident-bands';
 import {
   adoptArena,
   analyseResident,
-  bandMaxResident,
   binStatsResident,
   quantiseResident,
   releaseResident,
@@ -36,10 +36,10 @@ import {
   residentResult,
 } from './resident-plane';
 import { quantiseWasm } from './wasm/runtime';
-import { dequantise } from './wavelet-rebuild';
+import { codedSquaredError, dequantise } from './wavelet-rebuild';
 import { type Band, bandsFor, levelsFor, transformedCopy } from './wavelet-transform';
 
-export { estimateBits, estimateSquaredError } from './wavelet-estimate';
+export { estimateBits, estimateSquaredError, prepareEstimates } from './wavelet-estimate';
 export { codedSquaredError } from './wavelet-rebuild';
 
 export {
@@ -155,17 +155,23 @@ function zeroThreshold(d: number, rho: number): number {
   return t;
 }
 
+const rhoOf = (b: Band) => (b.orient === 0 ? 0.5 : DEAD_ZONE_RHO);
+
+/** The quantiser's parameters per band: step Δ_b, rounding offset ρ and zero threshold. */
+function quantiserPar(bands: Band[], steps: Float64Array): (bi: number) => [number, number, number] {
+  return (bi) => {
+    const rho = rhoOf(bands[bi]);
+    return [steps[bi], rho, zeroThreshold(steps[bi], rho)];
+  };
+}
+
 /**
  * Dead-zone quantisation of an analysed plane at pixel-domain step `step`, band by band (each band's
  * rectangle in raster order, so no per-coefficient band lookup): q = sign(c)·⌊|c|/Δ_b + ρ⌋.
  */
 function quantise(a: AnalysedPlane, steps: Float64Array): Omit<CodedCoefficients, 'bytes'> {
   const { width, bands } = a;
-  const rhoOf = (b: Band) => (b.orient === 0 ? 0.5 : DEAD_ZONE_RHO);
-  const par = (bi: number): [number, number, number] => {
-    const rho = rhoOf(bands[bi]);
-    return [steps[bi], rho, zeroThreshold(steps[bi], rho)];
-  };
+  const par = quantiserPar(bands, steps);
   const arena = residentArena(a);
   if (arena) return residentResult(arena, { steps, nonZero: quantiseResident(arena, bands, par) });
   const x = a.coeffs;
@@ -209,6 +215,22 @@ export function quantiseAnalysed(a: AnalysedPlane, step: number): Omit<CodedCoef
     ? offsetsFromStats(binStatsResident(arena, a.bands, steps))
     : reconstructionOffsetsV2(out.q, a.coeffs, steps, a.width, a.bands);
   return out;
+}
+
+/**
+ * {@link codedSquaredError} of {@link quantiseAnalysed}'s result at `step`, the same number bit for bit: on a
+ * resident plane without writing q (two passes over the coefficients, ./resident-plane errorsAtResident), for
+ * rate control that asks the error at steps it does not code; elsewhere by quantising.
+ */
+export function squaredErrorAt(a: AnalysedPlane, step: number): number {
+  const arena = residentArena(a);
+  if (!arena) return codedSquaredError(a, quantiseAnalysed(a, step));
+  checkStep(step);
+  const steps = bandSteps(a.bands, step);
+  const sums = errorsAtResident(arena, a.bands, quantiserPar(a.bands, steps), offsetsFromStats);
+  let e = 0;
+  for (let bi = 0; bi < a.bands.length; bi++) e += a.bands[bi].gain * sums[bi];
+  return e;
 }
 
 /**

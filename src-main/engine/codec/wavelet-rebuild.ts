@@ -3,7 +3,8 @@
  * {@link codedSquaredError}): quantised coefficients rebuilt inside their bins and inverse-transformed, by the
  * kernels on a resident plane (./resident-plane), else by the shared kernels or the TypeScript here.
  */
-import { bandErrorsResident, reconstructResident, residentArena, residentQ } from './resident-plane';
+import { bandErrorsResident } from './resident-bands';
+import { reconstructResident, residentArena, residentQ } from './resident-plane';
 import { reconstructWasm } from './wasm/runtime';
 import type { AnalysedPlane } from './wavelet-plane';
 import { type Band, inverseWavelet, LIFTING } from './wavelet-transform';

@@ -21,14 +21,16 @@ import {
   reconstructCoded,
   releaseAnalysed,
   smallestSafeStep,
+  squaredErrorAt,
 } from '../codec/wavelet-plane';
 import { codeHere, type PlanesCoder, tidy } from './residual-fit';
 import type { SideRunner } from './side-jobs';
 
 /**
- * A w×h crop of each plane with its top-left corner at (x0, y0), on a SharedArrayBuffer where the runtime has
- * one: the crops go to jobs of the second thread (./side-jobs), which then read them where they lie instead of
- * a copy made for each job (two copies of 2 MB of fresh pages per 512² crop on the residual-first path).
+ * A w×h crop of each plane with its top-left corner at (x0, y0), in `into` (w·h values each) when given, else on a
+ * SharedArrayBuffer where the runtime has one: the crops go to jobs of the second thread (./side-jobs), which then
+ * read them where they lie instead of a copy made for each job (two copies of 2 MB of fresh pages per 512² crop on
+ * the residual-first path).
  */
 export function cropPlanes(
   planes: ArrayLike<number>[],
@@ -37,12 +39,14 @@ export function cropPlanes(
   y0: number,
   w: number,
   h: number,
+  into?: Float64Array[],
 ): Float64Array[] {
-  return planes.map((p) => {
+  return planes.map((p, k) => {
     const out =
-      typeof SharedArrayBuffer === 'function'
+      into?.[k] ??
+      (typeof SharedArrayBuffer === 'function'
         ? new Float64Array(new SharedArrayBuffer(w * h * Float64Array.BYTES_PER_ELEMENT))
-        : new Float64Array(w * h);
+        : new Float64Array(w * h));
     for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) out[y * w + x] = p[(y0 + y) * width + x0 + x];
     return out;
   });
@@ -71,11 +75,9 @@ export function stepForError(analysed: AnalysedPlane[], weights: number[], targe
   const scales = stepScales(weights);
   const est = (d: number) =>
     analysed.reduce((s, a, k) => s + weights[k] * estimateSquaredError(a, d * scales[k]), 0);
+  // The exact error of each plane quantised at the step, without writing its q (../codec squaredErrorAt).
   const exact = (d: number) =>
-    analysed.reduce(
-      (s, a, k) => s + weights[k] * codedSquaredError(a, quantiseAnalysed(a, tidy(d * scales[k]))),
-      0,
-    );
+    analysed.reduce((s, a, k) => s + weights[k] * squaredErrorAt(a, tidy(d * scales[k])), 0);
   const solve = (t: number) => {
     let lo = Math.log2(1e-3);
     let hi = Math.log2(1e6);
@@ -185,13 +187,34 @@ export interface SpreadCropArgs {
 export function spreadCrop(a: SpreadCropArgs): Float64Array {
   const { weights, w, h } = a;
   const scales = stepScales(weights);
-  const crop = cropPlanes(a.planes, a.width, a.x0, a.y0, w, h);
+  const crop = cropOf(a);
   const analysed = crop.map((p) => analysePlane(p, w, h));
   const coded = analysed.map((an, k) => quantiseAnalysed(an, tidy(a.step * scales[k])));
   const transform = coded.reduce((s, c, k) => s + weights[k] * codedSquaredError(analysed[k], c), 0);
   const decoded = decodedSse(crop, analysed, coded, weights, a.maxValue);
   analysed.forEach(releaseAnalysed);
   return Float64Array.of(decoded, transform);
+}
+
+/**
+ * The crops {@link spreadCrop} made last on this thread, whose memory the next one reuses: a fresh 512² crop is
+ * 2 MB of fresh pages, whose first touch cost more than the copy into it (5 against 0.3 ms per crop, measured).
+ */
+let spareCrops: Float64Array[] = [];
+
+/** The job's crop: its planes when they are the crop already (f64), else copied into this thread's spare crops. */
+function cropOf(a: SpreadCropArgs): Float64Array[] {
+  const { planes, w, h } = a;
+  const n = w * h;
+  if (
+    a.x0 === 0 &&
+    a.y0 === 0 &&
+    a.width === w &&
+    planes.every((p) => p instanceof Float64Array && p.length === n)
+  )
+    return planes as Float64Array[];
+  spareCrops = planes.map((_, k) => (spareCrops[k]?.length === n ? spareCrops[k] : new Float64Array(n)));
+  return cropPlanes(planes, a.width, a.x0, a.y0, w, h, spareCrops);
 }
 
 const isShared = (p: ArrayLike<number>): p is Float32Array | Float64Array =>

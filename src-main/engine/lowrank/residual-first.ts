@@ -25,6 +25,7 @@ import {
   analysePlane,
   estimateBits,
   estimateSquaredError,
+  prepareEstimates,
   releaseAnalysed,
 } from '../codec/wavelet-plane';
 import { psnrFromSse } from '../metrics';
@@ -207,6 +208,9 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
     ratio = f.ratio;
     waveletSse = f.sse;
   }
+  // Under a floor the crop's job may still run on the second thread: the whole planes' estimate samples, which
+  // the aim needs first, are built meanwhile.
+  if (byteBudget === undefined) early?.forEach(prepareEstimates);
   const baseSse = baseJob();
   const decision = { waveletSse, baseSse, cropBytes };
   if (!(waveletSse < (byteBudget !== undefined ? MARGIN.bytes : MARGIN.floor) * baseSse)) return undefined;

@@ -161,7 +161,7 @@ export function residualFirstFor(
   if (!(kind === 'bytes' || kind === 'bpp' || kind === 'percent' || kind === 'psnr')) return undefined;
   // The last file checked under a quality floor and its decoding, so the report does not decode it again.
   let last: { bytes: Uint8Array; decoded: DecodedRkf } | undefined;
-  // With a second thread, each built file's residual check starts at once, beside the PSNR floor's decode.
+  // With a second thread, each file built for a byte budget has its residual check started at once.
   let pending: { file: Uint8Array; join: () => void } | undefined;
   const settle = () => {
     const p = pending;
@@ -189,7 +189,7 @@ export function residualFirstFor(
       byteBudget,
       build: (planes, residual, decided) => {
         const file = build(planes, false, residual);
-        if (side) {
+        if (side && kind !== 'psnr') {
           settle();
           // Every plane checked on the second thread, beside this one's measuring (./residual-check); in its
           // plane's coefficient memory once the encode is decided.
@@ -216,8 +216,14 @@ export function residualFirstFor(
     }),
   );
   if (!r) forgetCodes();
+  // A PSNR floor's file is decided only once measured (a file under the floor is coded again): the kept one is
+  // checked now, on the second thread in its planes' coefficient memory. Checked when built, it was decoded in
+  // that thread's own memory (about 5 fresh bytes a pixel), which kept it from the SSIM of the measuring: this
+  // thread then summed it alone.
+  if (kind === 'psnr' && side && r?.file)
+    startedChecks.set(r.file, startResidualCheck(side, r.residual, width, height, img.file, 'all', 'lend'));
   // The kept file's check is joined by finishScan; any other is joined now (its answer must not linger).
-  if (pending && r?.file === pending.file) startedChecks.set(pending.file, pending.join);
+  else if (pending && r?.file === pending.file) startedChecks.set(pending.file, pending.join);
   else settle();
   return r && { ...r, decoded: last && last.bytes === r.file ? last.decoded : undefined };
 }

@@ -46,7 +46,10 @@ export interface LiftingExports {
     flags: number,
     n: number,
   ): number;
-  /** Bands b0 … b1 − 1 quantised (flags zeroed first by the caller), with their bin statistics at out + 32·b. */
+  /**
+   * Bands b0 … b1 − 1 quantised (flags zeroed first by the caller), with their bin statistics at out + 32·b; with
+   * q = 0 only the statistics (no q, no flags).
+   */
   quantiseStats(
     x: number,
     q: number,
@@ -74,6 +77,8 @@ export interface LiftingExports {
   compactNonZero(q: number, flags: number, n: number, at: number, v: number): number;
   binStats(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
   squaredError(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
+  /** Bands b0 … b1 − 1: squared error of the quantised values (not written), d1, d2 read at out + 32·b, Σ at + 16. */
+  errorsAt(x: number, width: number, b0: number, b1: number, geo: number, par: number, out: number): void;
   bandMax(x: number, width: number, nb: number, geo: number, out: number): void;
 }
 

@@ -313,7 +313,8 @@ const CHUNK: i32 = 1 << CHUNK_BITS;
  * entries j·CHUNK … (j+1)·CHUNK − 1 receive a non-zero (never clears one: the caller zeroes the flags first, so
  * two threads quantising other bands may set flags at once). With `out` ≠ 0, also coder 2's bin statistics of
  * each band b at out + 32·b, as {@link binStats} computes them from the stored q (same terms, same order).
- * Returns the number of non-zero q.
+ * With q = 0, nothing but those statistics is stored (no q, no flags: the error at a step without q, {@link
+ * errorsAt}). Returns the number of non-zero q.
  */
 function quantiseBands(
   x: usize,
@@ -353,7 +354,7 @@ function quantiseBands(
           if (m != 0) {
             v = toInt32(c < 0 ? -m : m);
             nonZero++;
-            store<u8>(flags + ((row + i) >> CHUNK_BITS), 1);
+            if (q != 0) store<u8>(flags + ((row + i) >> CHUNK_BITS), 1);
             // binStats' terms: |q| as stored, and |c|/Δ − |q| into the class of |q| (none for a stored 0).
             if (out != 0 && v != 0) {
               const a: f64 = v < 0 ? -<f64>v : <f64>v;
@@ -368,7 +369,7 @@ function quantiseBands(
             }
           }
         }
-        store<i32>(q + ((row + i) << 2), v);
+        if (q != 0) store<i32>(q + ((row + i) << 2), v);
       }
     }
     if (out != 0) {
@@ -590,6 +591,45 @@ export function squaredError(x: usize, q: usize, width: i32, nb: i32, geo: usize
       }
     }
     store<f64>(out + (<usize>bi << 3), s);
+  }
+}
+
+/**
+ * Bands b0 … b1 − 1: Σ(c − rebuilt(q))² in raster order (c where q = 0), q being the values quantiseBands would
+ * store with par's Δ, ρ and zero threshold (worked out again, not read), the reconstruction offsets d1, d2 read
+ * from out + 32·b and the sum written at out + 32·b + 16: squaredError's band sums after quantiseBands, bit
+ * for bit, with no q in memory.
+ */
+export function errorsAt(x: usize, width: i32, b0: i32, b1: i32, geo: usize, par: usize, out: usize): void {
+  for (let bi = b0; bi < b1; bi++) {
+    const g = geo + (<usize>bi << 4);
+    const p = par + (<usize>bi << 5);
+    const o = out + (<usize>bi << 5);
+    const x0 = load<i32>(g);
+    const y0 = load<i32>(g, 4);
+    const bw = load<i32>(g, 8);
+    const bh = load<i32>(g, 12);
+    const step = load<f64>(p);
+    const rho = load<f64>(p, 8);
+    const zero = load<f64>(p, 16);
+    const d1 = load<f64>(o);
+    const d2 = load<f64>(o, 8);
+    let s: f64 = 0;
+    for (let y = 0; y < bh; y++) {
+      const row = <usize>(y0 + y) * <usize>width + <usize>x0;
+      for (let i: usize = 0; i < <usize>bw; i++) {
+        const c = load<f64>(x + ((row + i) << 3));
+        const ac = abs<f64>(c);
+        let v: i32 = 0;
+        if (ac > zero) {
+          const m = floor<f64>(ac / step + rho);
+          if (m != 0) v = toInt32(c < 0 ? -m : m);
+        }
+        const d = v == 0 ? c : c - rebuilt(<f64>v, step, d1, d2);
+        s += d * d;
+      }
+    }
+    store<f64>(o, s, 16);
   }
 }
 
