@@ -25,7 +25,10 @@ import {
 import { codeHere, type PlanesCoder, tidy } from './residual-fit';
 import type { SideRunner } from './side-jobs';
 
-/** A w×h crop of each plane with its top-left corner at (x0, y0). */
+/**
+ * A w×h crop of each plane with its top-left corner at (x0, y0); with `shared`, on a SharedArrayBuffer where
+ * there is one (a job for the second thread then reads it without a copy, ../../node/parallel/side-thread).
+ */
 export function cropPlanes(
   planes: ArrayLike<number>[],
   width: number,
@@ -33,9 +36,11 @@ export function cropPlanes(
   y0: number,
   w: number,
   h: number,
+  shared = false,
 ): Float64Array[] {
+  const share = shared && typeof SharedArrayBuffer === 'function';
   return planes.map((p) => {
-    const out = new Float64Array(w * h);
+    const out = share ? new Float64Array(new SharedArrayBuffer(8 * w * h)) : new Float64Array(w * h);
     for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) out[y * w + x] = p[(y0 + y) * width + x0 + x];
     return out;
   });
