@@ -19,7 +19,7 @@ import { Rng } from '../../src-main/engine/linalg/random';
 import { encodeScan } from '../../src-main/engine/lowrank/encode';
 import { spreadRatio } from '../../src-main/engine/lowrank/floor-aim';
 import { recodeSaving, residualFirst } from '../../src-main/engine/lowrank/residual-first';
-import { runHere } from '../../src-main/engine/lowrank/side-jobs';
+import { runHere, SIDE_JOBS, type SideRunner } from '../../src-main/engine/lowrank/side-jobs';
 import { psnr } from '../../src-main/engine/metrics';
 import { COMPRESSORS } from '../../src-main/node/services/compress';
 import { image } from '../helpers/fixtures';
@@ -163,30 +163,61 @@ describe('aiming the first encode at a PSNR floor', () => {
   }, 120_000);
 });
 
+/**
+ * residualFirst's input for a 1100×1000 plate at 0.1 bpp: ruled lines every 24 rows and columns on a separable
+ * shading, rank ≤ 3 plus the lines' rank, which the low-rank base codes for a few bytes and the wavelet codes
+ * only at length.
+ */
+function ruledPlate() {
+  const [w, h] = [1100, 1000];
+  const plane = new Float64Array(w * h);
+  for (let y = 0; y < h; y++)
+    for (let x = 0; x < w; x++)
+      plane[y * w + x] = y % 24 === 0 || x % 24 === 0 ? 40 : 120 + 80 * Math.sin(x / 180) * Math.cos(y / 150);
+  return {
+    planes: [plane],
+    weights: [1],
+    width: w,
+    height: h,
+    maxValue: 255,
+    budget: { kind: 'bpp' as const, bpp: 0.1 },
+    byteBudget: Math.floor((0.1 * w * h) / 8),
+    measuredSse: () => Number.NaN,
+    cancel: () => {},
+  };
+}
+
 describe('the decision', () => {
   it('leaves a low-rank ruled plate with smooth shading to the full two-layer search', () => {
-    // Ruled lines every 24 rows and columns on a separable shading: rank ≤ 3 plus the lines' rank, which the
-    // low-rank base codes for a few bytes and the wavelet codes only at length.
-    const [w, h] = [1100, 1000];
-    const plane = new Float64Array(w * h);
-    for (let y = 0; y < h; y++)
-      for (let x = 0; x < w; x++)
-        plane[y * w + x] =
-          y % 24 === 0 || x % 24 === 0 ? 40 : 120 + 80 * Math.sin(x / 180) * Math.cos(y / 150);
     const r = residualFirst({
-      planes: [plane],
-      weights: [1],
-      width: w,
-      height: h,
-      maxValue: 255,
-      budget: { kind: 'bpp', bpp: 0.1 },
-      byteBudget: Math.floor((0.1 * w * h) / 8),
+      ...ruledPlate(),
       build: () => {
         throw new Error('the shortcut should not write a file for this plate');
       },
-      measuredSse: () => Number.NaN,
-      cancel: () => {},
     });
     expect(r).toBeUndefined();
+  }, 120_000);
+
+  it('with a second thread, still leaves the plate to the full search when the estimate comes last', () => {
+    // A second thread that has started nothing: each job runs when it is joined. Under a byte budget the base
+    // estimate is joined only after the whole residual is fitted; the fitted residual is then dropped, and
+    // no file is built as decided (the frame without a residual is, to size the residual's share).
+    const joined: string[] = [];
+    const late: SideRunner = (name, args) => () => {
+      joined.push(name);
+      return SIDE_JOBS[name](args);
+    };
+    const built: Array<boolean | undefined> = [];
+    const r = residualFirst({
+      ...ruledPlate(),
+      build: (_base, _residual, decided) => {
+        built.push(decided);
+        return new Uint8Array(64);
+      },
+      side: late,
+    });
+    expect(r).toBeUndefined();
+    expect(joined).toEqual(['crop-fit', 'crop-base-sse']);
+    expect(built).toEqual([undefined]);
   }, 120_000);
 });

@@ -134,6 +134,8 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   const nc = planes.length;
   const cw = Math.min(width, CROP_SIDE);
   const ch = Math.min(height, CROP_SIDE);
+  // Shared with the second thread (./floor-aim cropPlanes): its jobs read the crop, which neither thread writes,
+  // without a copy.
   const crop = cropPlanes(planes, width, (width - cw) >> 1, (height - ch) >> 1, cw, ch);
   const scales = stepScales(weights);
   const startBase = (bytes: number) =>
@@ -155,10 +157,10 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   let fitJob: (() => CropFit) | undefined;
   if (byteBudget !== undefined) {
     cropBytes = (byteBudget * cw * ch) / (width * height);
-    // The bytes are known at once: the base estimate starts first (on the side thread, when there is one),
-    // then the crop's fit (there too, after the base, while this thread transforms the whole planes; without
-    // a second thread it runs here at once, and the whole planes are analysed in the crop's released memory).
-    baseJob = startBase(cropBytes);
+    // The bytes are known at once: the crop's fit starts first (on the side thread, when there is one), then
+    // the base estimate (there too, after the fit, while this thread transforms the whole planes, then codes:
+    // the fit is needed before the first encode, the estimate only once the residual is fitted; without a
+    // second thread both run here at once, and the whole planes are analysed in the crop's released memory).
     fitJob = (inp.side ?? runHere)('crop-fit', {
       crop,
       width: cw,
@@ -168,6 +170,7 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
       bytes: cropBytes,
       ratio,
     });
+    baseJob = startBase(cropBytes);
   } else {
     const db = (budget as { db: number }).db;
     const target = floorSse(db, cw * ch * nc, maxValue) * FLOOR_AIM;
@@ -211,9 +214,17 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   // Under a floor the crop's job may still run on the second thread: the whole planes' estimate samples, which
   // the aim needs first, are built meanwhile.
   if (byteBudget === undefined) early?.forEach(prepareEstimates);
-  const baseSse = baseJob();
-  const decision = { waveletSse, baseSse, cropBytes };
-  if (!(waveletSse < (byteBudget !== undefined ? MARGIN.bytes : MARGIN.floor) * baseSse)) return undefined;
+  let decision = { waveletSse, baseSse: Number.NaN, cropBytes };
+  /** The base estimate joined: whether the crop predicts that a base is not worth its bytes. */
+  const skipBase = () => {
+    const baseSse = baseJob();
+    decision = { waveletSse, baseSse, cropBytes };
+    return waveletSse < (byteBudget !== undefined ? MARGIN.bytes : MARGIN.floor) * baseSse;
+  };
+  // With a second thread under a byte budget, the estimate is joined only after the residual is fitted
+  // (below): this thread codes meanwhile instead of waiting for the other one to finish it.
+  const later = inp.side !== undefined && byteBudget !== undefined;
+  if (!later && !skipBase()) return undefined;
   cancel();
   const basePlanes = planes.map(() => emptyBase(width, height));
   // A colour scan's chroma planes are coded on the second thread while this one codes Y (./side-coder).
@@ -253,8 +264,16 @@ export function residualFirst(inp: ResidualFirstInput): ResidualOnly | undefined
   };
   if (byteBudget !== undefined) {
     const target = residualTarget(inp.build, basePlanes, byteBudget);
-    if (target < 8 * nc) return undefined;
-    const { fit } = fitResidual(analysed, weights, scales, target, ratio, cancel, LANDING, code);
+    const fit =
+      target < 8 * nc
+        ? undefined
+        : fitResidual(analysed, weights, scales, target, ratio, cancel, LANDING, code).fit;
+    // The fit is dropped when the estimate, joined only now, says a base may pay: the same outcome as
+    // deciding first, at the cost of the fit's encodes on that (rare, and ~15× costlier) path.
+    if (later && !skipBase()) {
+      analysed.forEach(releaseAnalysed);
+      return undefined;
+    }
     if (!fit) return undefined;
     const residual = { steps: fit.steps, bytes: fit.bytes };
     const file = inp.build(basePlanes, residual, true);
