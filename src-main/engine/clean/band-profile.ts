@@ -22,6 +22,7 @@
  */
 import { gatherLines, type LineResiduals } from './band-gather';
 import { interpolatedMedian } from './band-median';
+import { refinedProfile } from './band-refine';
 import { dominantPeriod, removeMean, rms, sharedEnergy } from './band-stats';
 import { medianInPlace, runningMedian } from './medians';
 import { MAD_TO_SIGMA } from './noise-estimate';
@@ -30,11 +31,20 @@ type BandingAxis = 'rows' | 'columns';
 
 export interface StripeProfile {
   axis: BandingAxis;
-  /** Offset per row (axis rows, length height) or per column (axis columns, length width), zero mean. */
+  /**
+   * Offset per row (axis rows, length height) or per column (axis columns, length width), zero mean. When
+   * detected, the background estimate of band-refine.ts; otherwise the profile the test ran on.
+   */
   profile: Float64Array;
   /** RMS of the profile in grey levels of the input. */
   strength: number;
-  /** 1.4826·median|profile|: the strength of the bulk of the profile, insensitive to a few spikes. */
+  /**
+   * The profile the detection test ran on (the same array as `profile` when not detected). The later
+   * decisions of banding.ts (the wide pass, the rows after the columns) were chosen on planes with this
+   * one subtracted, and still see those planes.
+   */
+  tested: Float64Array;
+  /** 1.4826·median|profile| of the profile the test ran on: the bulk's strength, insensitive to a few spikes. */
   robustStrength: number;
   /** RMS standard error of the median profile (from the spread across lines at each position). */
   noiseFloor: number;
@@ -155,7 +165,8 @@ export function estimateStripeProfile(
   }
   const col = new Float64Array(nLines);
   keep?.({ lines, resid, halfWindow: w });
-  if (background) keepBackground(resid, col);
+  const cut = backgroundCut(resid, col);
+  if (background) keepBackground(resid, col, cut);
   const half = nLines >> 1;
   const profile = new Float64Array(lineLen);
   const top = new Float64Array(lineLen);
@@ -175,6 +186,7 @@ export function estimateStripeProfile(
   }
   const span = lineSpan(resid, profile, nLines);
   const dependence = lineDependence(resid, profile, nLines);
+  const raw = Float64Array.from(profile);
   removeMean(profile);
   removeMean(top);
   removeMean(bottom);
@@ -209,7 +221,6 @@ export function estimateStripeProfile(
   // Energy shared by the two halves relative to the profile's energy: stripes are common to both halves,
   // content leaking into either half's median is not (and one busy half does not veto a real stripe).
   const consistency = sharedEnergy(top, bottom, profile);
-  const { period, share } = dominantPeriod(profile);
   // Robust strength 1.4826·median|profile| (MAD scale): a few full-length straight lines of the scene (a map
   // grid, a neatline, a table rule) make isolated spikes in the profile that pass every other test; they
   // barely move the median, whereas real banding affects most lines.
@@ -228,10 +239,14 @@ export function estimateStripeProfile(
     partsAgree(profile, nLines, (x, from, to) =>
       interpolatedMedian(col, finite(x * nLines + from, x * nLines + to)),
     );
+  // What is subtracted once detected: the same medians without the content biases (band-refine.ts).
+  const removed = detected ? refinedProfile(lines, resid, nLines, lineLen, w, cut, raw) : profile;
+  const { period, share } = dominantPeriod(removed);
   return {
     axis,
-    profile,
-    strength,
+    profile: removed,
+    tested: profile,
+    strength: detected ? rms(removed) : strength,
     robustStrength,
     noiseFloor,
     consistency,
@@ -360,10 +375,18 @@ const BACKGROUND_CUT = 3;
  * noise levels from the paper around it and drops out; banding moves the paper itself and stays. Without
  * this, lines of text pull the median at their rows and their period hides the banding's.
  */
-export function keepBackground(resid: Float64Array, scratch: Float64Array) {
+export function keepBackground(
+  resid: Float64Array,
+  scratch: Float64Array,
+  cut = backgroundCut(resid, scratch),
+) {
+  for (let i = 0; i < resid.length; i++) if (Math.abs(resid[i]) > cut) resid[i] = Number.NaN;
+}
+
+/** BACKGROUND_CUT robust standard deviations of the residuals (from an even sample of scratch.length of them). */
+function backgroundCut(resid: Float64Array, scratch: Float64Array): number {
   const step = Math.max(1, Math.floor(resid.length / scratch.length));
   let n = 0;
   for (let i = 0; i < resid.length && n < scratch.length; i += step) scratch[n++] = Math.abs(resid[i]);
-  const cut = (BACKGROUND_CUT * medianInPlace(scratch, n)) / MAD_TO_SIGMA;
-  for (let i = 0; i < resid.length; i++) if (Math.abs(resid[i]) > cut) resid[i] = Number.NaN;
+  return (BACKGROUND_CUT * medianInPlace(scratch, n)) / MAD_TO_SIGMA;
 }

@@ -90,7 +90,8 @@ export function analyseBanding(
   const firstColumns =
     mode === 'auto' && removeColumns && wideFirst(plane, width, height, columns, options, kept.r);
   if (firstColumns) columns = firstColumns;
-  let base = removeColumns ? subtractProfiles(plane, width, height, null, columns.profile) : plane;
+  // The planes the later steps look at have the tested profiles subtracted (StripeProfile.tested).
+  let base = removeColumns ? subtractProfiles(plane, width, height, null, columns.tested) : plane;
   if (!firstColumns && (mode === 'auto' || mode === 'columns' || mode === 'both'))
     if (
       addWideBands(
@@ -103,7 +104,7 @@ export function analyseBanding(
         base === plane ? kept.r : null,
       )
     ) {
-      base = subtractProfiles(plane, width, height, null, columns.profile);
+      base = subtractProfiles(plane, width, height, null, columns.tested);
       removeColumns = true;
     }
   kept.r = null;
@@ -113,7 +114,7 @@ export function analyseBanding(
   const firstRows = mode === 'auto' && removeRows && wideFirst(base, width, height, rows, options, kept.r);
   if (firstRows) rows = firstRows;
   else if (mode === 'auto' || mode === 'rows' || mode === 'both') {
-    const rest = removeRows ? subtractProfiles(base, width, height, rows.profile, null) : base;
+    const rest = removeRows ? subtractProfiles(base, width, height, rows.tested, null) : base;
     if (addWideBands(rest, width, height, rows, removeRows, options.maxValue, rest === base ? kept.r : null))
       removeRows = true;
   }
@@ -202,10 +203,13 @@ function findWideBands(
   return wide.detected ? wide : null;
 }
 
-/** Add `wide` to the axis's profile `p` in place (to its narrow profile when `narrowRemoved`, else alone). */
+/**
+ * Add `wide` to the axis's profile `p` in place (to its narrow profile when `narrowRemoved`, else alone),
+ * and to its tested profile.
+ */
 function mergeWide(p: StripeProfile, wide: WideBands, narrowRemoved: boolean) {
-  for (let i = 0; i < p.profile.length; i++)
-    p.profile[i] = (narrowRemoved ? p.profile[i] : 0) + wide.profile[i];
+  for (const a of p.tested === p.profile ? [p.profile] : [p.profile, p.tested])
+    for (let i = 0; i < a.length; i++) a[i] = (narrowRemoved ? a[i] : 0) + wide.profile[i];
   p.detected = true;
   p.wideSteps = wide.steps;
   p.strength = rms(p.profile);
@@ -263,12 +267,14 @@ function largeStep(profile: Float64Array, maxValue: number): boolean {
  */
 function clipSpikes(p: StripeProfile) {
   const limit = SPIKE_FACTOR * p.robustStrength + p.noiseFloor;
-  const centre = medianInPlace(Float64Array.from(p.profile), p.profile.length);
-  const L = p.profile.length;
+  // The spikes are found on the tested profile (the one the limits were chosen on) and clipped in both.
+  const t = p.tested;
+  const centre = medianInPlace(Float64Array.from(t), t.length);
+  const L = t.length;
   const content = new Uint8Array(L);
   let n = 0;
   for (let i = 0; i < L; i++)
-    if (Math.abs(p.profile[i] - centre) > limit && p.span[i] < FULL_SPAN) {
+    if (Math.abs(t[i] - centre) > limit && p.span[i] < FULL_SPAN) {
       content[i] = 1;
       n++;
     }
@@ -279,21 +285,22 @@ function clipSpikes(p: StripeProfile) {
     for (let k = 0; k < L; k++) {
       const i = pass ? L - 1 - k : k;
       const prev = pass ? i + 1 : i - 1;
-      if (
-        !content[i] &&
-        prev >= 0 &&
-        prev < L &&
-        content[prev] &&
-        Math.abs(p.profile[i] - centre) > shoulder
-      ) {
+      if (!content[i] && prev >= 0 && prev < L && content[prev] && Math.abs(t[i] - centre) > shoulder) {
         content[i] = 1;
         n++;
       }
     }
   p.clipped = n;
   if (n === 0) return;
-  if (n === L) {
-    p.profile.fill(0);
+  for (const a of t === p.profile ? [t] : [t, p.profile]) bridge(a, content);
+  if (p.detected) p.strength = rms(p.profile);
+}
+
+/** Replace the runs of `a` marked in `content` by straight lines between their neighbours, in place; zero mean. */
+function bridge(a: Float64Array, content: Uint8Array) {
+  const L = a.length;
+  if (content.every((c) => c === 1)) {
+    a.fill(0);
     return;
   }
   for (let i = 0; i < L; ) {
@@ -303,13 +310,12 @@ function clipSpikes(p: StripeProfile) {
     }
     let j = i;
     while (j < L && content[j]) j++;
-    const a = i > 0 ? p.profile[i - 1] : p.profile[j];
-    const b = j < L ? p.profile[j] : a;
-    for (let k = i; k < j; k++) p.profile[k] = a + ((b - a) * (k - i + 1)) / (j - i + 1);
+    const lo = i > 0 ? a[i - 1] : a[j];
+    const hi = j < L ? a[j] : lo;
+    for (let k = i; k < j; k++) a[k] = lo + ((hi - lo) * (k - i + 1)) / (j - i + 1);
     i = j;
   }
-  removeMean(p.profile);
-  if (p.detected) p.strength = rms(p.profile);
+  removeMean(a);
 }
 /** plane − b·1ᵀ − 1·sᵀ, as a new plane. Either profile may be null. */
 export function subtractProfiles(
