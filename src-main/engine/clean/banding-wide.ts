@@ -14,9 +14,9 @@
  *    band edge that meets a thin feature (a ruled line, a fold crease), or a thin feature alone. A group's
  *    net step is measured between windows of WINDOW px on either side, so a thin feature inside cancels.
  * 3. A group is a band edge when its net step is significant, at most MAX_STEP_8BIT grey levels, of the
- *    same sign and similar size in each quarter of the lines, and not spread more across lines than its
- *    surroundings (a content edge is rarely the same on every line). Opposite edges closer than
- *    MIN_BAND_WIDTH are a thin feature, not a band. The running sum of the edges is the profile.
+ *    same sign and similar size in each quarter of the lines and in their densest half, and not spread more
+ *    across lines than its surroundings (a content edge is rarely the same on every line). Opposite edges
+ *    closer than MIN_BAND_WIDTH are a thin feature, not a band. The running sum of the edges is the profile.
  * 4. Guards (a missed or invented edge offsets a whole stretch and makes an image worse): the profile must
  *    explain the direct per-position levels and reach the lines' detection threshold (banding-wide-checks.ts;
  *    chains too); each half of the lines is analysed alone: an edge one half finds and the whole missed
@@ -45,6 +45,7 @@ import { bridgeStep, chainProfile } from './band-bridge';
 import { type BandAxis, bandAxis, type Lines, type PositionStats } from './band-lines';
 import { removeMean, rms } from './band-stats';
 import {
+  densestAgrees,
   detectionThreshold,
   explainsLevels,
   partAgrees,
@@ -206,10 +207,7 @@ const NONE = { steps: 0, strength: 0, noiseFloor: 0, detected: false, links: 0, 
 /** The chained profile's edges and bridges on the whole lines hold at least one link. */
 const edgeLike = (whole: { edges: Edge[]; bridges: Edge[] }) => whole.edges.length + whole.bridges.length > 0;
 
-/**
- * Something on the whole lines of the axis resembles a band edge: the chained profile's lenient tests keep
- * an edge or bridge one (cached statistics: this costs only the grouping).
- */
+/** Something on the axis's whole lines resembles a band edge: the chain's lenient tests keep one (cached). */
 function resemblesBandEdges(shared: BandAxis): boolean {
   return edgeLike(edgeProfile(shared.lines(false, MIN_VALID_SHARE), 0, shared.nLines, true));
 }
@@ -270,15 +268,15 @@ function chained(
   return { ...made, detected, profile, strength, whole: detected && !kept.length && explains(profile) };
 }
 
-/** The net step across the differences a … b on the lines [from, to) (robustStep of the window differences). */
+/** The net step across a … b on the lines [from, to) (robustStep), and the per-line window steps `perLine`. */
 function groupStep(lines: Lines, a: number, b: number, from: number, to: number, scratch: Float64Array) {
-  const d = windowDifferences(lines.levels, lines.lineLen, WINDOW, a, b, from, to);
-  return robustStep(d, 0, to - from, scratch);
+  const perLine = windowDifferences(lines.levels, lines.lineLen, WINDOW, a, b, from, to);
+  return { ...robustStep(perLine, 0, to - from, scratch), perLine };
 }
 
 /**
  * Step 1 of the header on the lines [from, to): the robust step at each position, whether it is significant,
- * and the typical spread of a window step; the same for every candidate on these lines, so kept in `lines`.
+ * and the typical spread of a window step (the same for every candidate on these lines: kept in `lines`).
  */
 function positionStats(lines: Lines, from: number, to: number): PositionStats {
   const key = `${from}:${to}`;
@@ -361,15 +359,15 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
       Math.abs(all.step) > STEP_SE * se &&
       Math.abs(all.step) <= maxStep &&
       all.spread <= MAX_STEP_SPREAD * Math.max(typicalSpread, localSpread(first, b)) &&
-      slicesAgree(first, b, all.step)
+      slicesAgree(first, b, all.step) &&
+      densestAgrees(all.perLine, all.step, col)
     ) {
       edges.push({ at: largest(first, b, all.step), a: first, b, step: all.step, se });
       continue;
     }
     if (!chain) continue;
     // Step 5 of the header: bridge the content, or cut the chain.
-    const perLine = windowDifferences(lines.levels, lineLen, WINDOW, first, b, from, to);
-    let bridged = bridgeStep(perLine, typicalSpread, maxStep, ZERO_FLOOR_SD * typicalSpread);
+    let bridged = bridgeStep(all.perLine, typicalSpread, maxStep, ZERO_FLOOR_SD * typicalSpread);
     if (bridged !== null && bridged !== 0 && !slicesAgree(first, b, bridged)) bridged = null;
     const at = largest(first, b, bridged ?? 0);
     if (bridged === null) cuts.push(at);
