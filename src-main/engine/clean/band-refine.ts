@@ -23,7 +23,7 @@
  */
 import { interpolatedMedian } from './band-median';
 import { removeMean } from './band-stats';
-import { medianInPlace } from './medians';
+import { medianInPlace, runningMedian } from './medians';
 
 /** Share of the lines that must stay within the background cut around 0 at a position (chosen here: a quarter). */
 const MIN_KEPT = 0.25;
@@ -61,7 +61,7 @@ export function refinedProfile(
   for (let k = 0; k < nLines; k++) {
     const line = lines.subarray(k * lineLen, (k + 1) * lineLen);
     for (let x = 0; x < lineLen; x++) ok[x] = keep[x * nLines + k];
-    maskedRunningMedian(line, ok, w, med);
+    runningMedian(line, w, med, ok);
     endFit(line, ok, w, med, scratch, at);
     for (let x = 0; x < lineLen; x++) again[x * nLines + k] = line[x] - med[x];
   }
@@ -76,45 +76,6 @@ export function refinedProfile(
   }
   removeMean(profile);
   return profile;
-}
-
-/**
- * Running median over the window [x−w, x+w] clipped to the line, of the values with ok[i] = 1 only (a
- * sorted sliding window, as medians.ts runningMedian); NaN where the window holds none.
- */
-function maskedRunningMedian(line: Float64Array, ok: Uint8Array, w: number, out: Float64Array): void {
-  const L = line.length;
-  const win = new Float64Array(2 * w + 1);
-  let n = 0;
-  const lowerBound = (v: number) => {
-    let lo = 0;
-    let hi = n;
-    while (lo < hi) {
-      const mid = (lo + hi) >> 1;
-      if (win[mid] < v) lo = mid + 1;
-      else hi = mid;
-    }
-    return lo;
-  };
-  const insert = (i: number) => {
-    if (!ok[i]) return;
-    const lo = lowerBound(line[i]);
-    win.copyWithin(lo + 1, lo, n);
-    win[lo] = line[i];
-    n++;
-  };
-  const remove = (i: number) => {
-    if (!ok[i]) return;
-    const lo = lowerBound(line[i]);
-    win.copyWithin(lo, lo + 1, n);
-    n--;
-  };
-  for (let x = 0; x <= Math.min(w, L - 1); x++) insert(x);
-  for (let x = 0; x < L; x++) {
-    out[x] = n === 0 ? Number.NaN : n % 2 ? win[(n - 1) >> 1] : (win[n / 2 - 1] + win[n / 2]) / 2;
-    if (x - w >= 0) remove(x - w);
-    if (x + w + 1 < L) insert(x + w + 1);
-  }
 }
 
 /**

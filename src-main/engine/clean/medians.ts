@@ -7,8 +7,11 @@
  * - C. A. R. Hoare, "Algorithm 65: FIND", Commun. ACM 4(7):321–322, 1961: selection by partitioning.
  */
 
-/** Running median with a window [x−w, x+w] clipped to the line, via a sorted sliding window. */
-export function runningMedian(line: Float64Array, w: number, out: Float64Array): void {
+/**
+ * Running median with a window [x−w, x+w] clipped to the line, via a sorted sliding window. With `ok`, only
+ * the values with ok[i] = 1 count (NaN where the window holds none).
+ */
+export function runningMedian(line: Float64Array, w: number, out: Float64Array, ok?: Uint8Array): void {
   const L = line.length;
   const win = new Float64Array(2 * w + 1);
   let n = 0;
@@ -23,24 +26,24 @@ export function runningMedian(line: Float64Array, w: number, out: Float64Array):
     }
     return lo;
   };
-  const insert = (v: number) => {
-    const lo = lowerBound(v);
+  const insert = (i: number) => {
+    if (ok && !ok[i]) return;
+    const lo = lowerBound(line[i]);
     win.copyWithin(lo + 1, lo, n);
-    win[lo] = v;
+    win[lo] = line[i];
     n++;
   };
-  const remove = (v: number) => {
-    const lo = lowerBound(v);
+  const remove = (i: number) => {
+    if (ok && !ok[i]) return;
+    const lo = lowerBound(line[i]);
     win.copyWithin(lo, lo + 1, n);
     n--;
   };
-  for (let x = 0; x <= Math.min(w, L - 1); x++) insert(line[x]);
+  for (let x = 0; x <= Math.min(w, L - 1); x++) insert(x);
   for (let x = 0; x < L; x++) {
-    out[x] = n % 2 ? win[(n - 1) >> 1] : (win[n / 2 - 1] + win[n / 2]) / 2;
-    const add = x + w + 1;
-    const drop = x - w;
-    if (drop >= 0) remove(line[drop]);
-    if (add < L) insert(line[add]);
+    out[x] = n === 0 ? Number.NaN : n % 2 ? win[(n - 1) >> 1] : (win[n / 2 - 1] + win[n / 2]) / 2;
+    if (x - w >= 0) remove(x - w);
+    if (x + w + 1 < L) insert(x + w + 1);
   }
 }
 
