@@ -9,30 +9,18 @@
 import { describe, expect, it } from 'vitest';
 import { analyseBanding, subtractProfiles } from '../../src-main/engine/clean';
 import { estimateStripeProfile } from '../../src-main/engine/clean/band-profile';
-import { decodeImage } from '../../src-main/node/image/decode';
-import { fixture } from '../helpers/fixtures';
-import { damage, type Gray, psnr, rounded, sineProfile } from './helpers';
+import { autoBandingRemoved, damage, folderGray, psnr, rounded, sineProfile } from './helpers';
 
 const opts = { maxValue: 255 };
 
-async function retina(): Promise<Gray> {
-  const d = await decodeImage(fixture('banding', 'microaneurysms.png'));
-  return { width: d.width, height: d.height, data: Float32Array.from(d.planes[0]) };
-}
+const retina = () => folderGray('banding', 'microaneurysms.png');
 
 describe('rows of content shared by neighbouring lines', () => {
   it('microaneurysms.png as it is and with noise σ 3 (seeds 1–10): --banding auto leaves it unchanged', async () => {
     const g = await retina();
     for (const seed of [0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10]) {
       const dam = seed === 0 ? g.data : damage(g, { sigma: 3, seed });
-      const a = analyseBanding(dam, g.width, g.height, 'auto', opts);
-      const out = subtractProfiles(
-        dam,
-        g.width,
-        g.height,
-        a.removeRows ? a.rows.profile : null,
-        a.removeColumns ? a.columns.profile : null,
-      );
+      const out = autoBandingRemoved(dam, g);
       // Within 0.1 grey level RMS of the input (nothing removed gives exactly the input).
       expect(psnr(out, dam), `seed ${seed}`).toBeGreaterThan(20 * Math.log10(255 / 0.1));
     }

@@ -8,16 +8,11 @@
 import { describe, expect, it } from 'vitest';
 import { analyseBanding, subtractProfiles } from '../../src-main/engine/clean';
 import { densestAgrees, robustStep, shorth } from '../../src-main/engine/clean/banding-wide-checks';
-import { decodeImage } from '../../src-main/node/image/decode';
-import { fixture } from '../helpers/fixtures';
-import { bandProfile, damage, type Gray, gaussian, psnr, rng, rounded } from './helpers';
+import { autoBandingRemoved, bandProfile, damage, folderGray, gaussian, psnr, rng, rounded } from './helpers';
 
 const opts = { maxValue: 255 };
 
-async function coins(): Promise<Gray> {
-  const d = await decodeImage(fixture('banding', 'coins.png'));
-  return { width: d.width, height: d.height, data: Float32Array.from(d.planes[0]) };
-}
+const coins = () => folderGray('banding', 'coins.png');
 
 describe('a row of coins is not a wide band edge', () => {
   it('coins.png as it is and with noise σ 3 and 5 (seeds 1–3): --banding auto leaves it unchanged', async () => {
@@ -26,14 +21,7 @@ describe('a row of coins is not a wide band edge', () => {
     for (const sigma of [3, 5]) for (const seed of [1, 2, 3]) cases.push({ sigma, seed });
     for (const c of cases) {
       const dam = c.sigma === 0 ? g.data : damage(g, c);
-      const a = analyseBanding(dam, g.width, g.height, 'auto', opts);
-      const out = subtractProfiles(
-        dam,
-        g.width,
-        g.height,
-        a.removeRows ? a.rows.profile : null,
-        a.removeColumns ? a.columns.profile : null,
-      );
+      const out = autoBandingRemoved(dam, g);
       // Within 0.1 grey level RMS of the input (nothing removed gives exactly the input).
       expect(psnr(out, dam), `σ ${c.sigma} seed ${c.seed}`).toBeGreaterThan(20 * Math.log10(255 / 0.1));
     }

@@ -6,16 +6,11 @@
 // used it (bounded to 1.1× the fine-scale variance) and lost 5.04 dB (3×3 binomial) and 3.98 dB (5×5 Gaussian)
 // on these inputs, against a gain of +0.24 and +0.02 dB with it.
 import { describe, expect, it } from 'vitest';
-import { decodeImage } from '../../src-main/node/image/decode';
 import { cleanDecoded } from '../../src-main/node/services/clean';
-import { fixture } from '../helpers/fixtures';
 import { BINOMIAL_3, filteredNoise, GAUSSIAN_5 } from './correlated-noise';
-import { type Gray, greyDecoded, psnr } from './helpers';
+import { folderGray, greyDecoded, psnr } from './helpers';
 
-async function gravel(): Promise<Gray> {
-  const d = await decodeImage(fixture('texture', 'gravel-crop.png'));
-  return { width: d.width, height: d.height, data: Float32Array.from(d.planes[0]) };
-}
+const gravel = () => folderGray('texture', 'gravel-crop.png');
 
 describe('correlated noise on texture with no flat part: the noise is taken as white', () => {
   // [kernel, name, scikit-image 0.19.3 denoise_wavelet (BayesShrink, told the true σ) gain on this exact input,

@@ -1,9 +1,10 @@
 /** Synthetic damage for the cleaning tests: seeded Gaussian noise and stripe patterns on fixture images. */
 
 import type { DecodedImage } from '../../src-main/contract';
+import { analyseBanding, subtractProfiles } from '../../src-main/engine/clean';
 import { lcg32 } from '../../src-main/engine/linalg';
 import { decodeImage } from '../../src-main/node/image/decode';
-import { image } from '../helpers/fixtures';
+import { fixture, image } from '../helpers/fixtures';
 
 /** Uniform on (0, 1) from the engine's Numerical Recipes LCG (linalg/random.ts `lcg32`), seeded. */
 export function rng(seed: number): () => number {
@@ -33,6 +34,24 @@ export async function fixtureGray(
   for (let y = 0; y < c.h; y++)
     for (let x = 0; x < c.w; x++) out[y * c.w + x] = d.planes[0][(c.y + y) * d.width + c.x + x];
   return { width: c.w, height: c.h, data: out };
+}
+
+/** The first plane of a fixture kept in its own folder of test/fixtures (not images/), as it is. */
+export async function folderGray(folder: string, name: string): Promise<Gray> {
+  const d = await decodeImage(fixture(folder, name));
+  return { width: d.width, height: d.height, data: Float32Array.from(d.planes[0]) };
+}
+
+/** `data` (g's size) with what `--banding auto` finds removed: analyseBanding in auto mode, then its profiles. */
+export function autoBandingRemoved(data: Float32Array, g: Gray, maxValue = 255): Float32Array {
+  const a = analyseBanding(data, g.width, g.height, 'auto', { maxValue });
+  return subtractProfiles(
+    data,
+    g.width,
+    g.height,
+    a.removeRows ? a.rows.profile : null,
+    a.removeColumns ? a.columns.profile : null,
+  );
 }
 
 /** truth + σ·N(0,1) (+ optional row/column offsets), rounded and clipped to [0, max] as a real file would be. */
