@@ -5,19 +5,17 @@
 // piece taken back by the caller (a side thread that never started them), and a real worker thread; a decided
 // plane's rebuild over its coefficients (one split pass instead of the phases over q); and the squared error at a
 // step without writing q (squaredErrorAt) equals that of the quantised plane, bit for bit.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { bandCuts } from '../../src-main/engine/codec/arena-quant';
 import {
   type ArenaPassArgs,
   type ArenaRunner,
   runArenaPass,
-  SPLIT_MIN_SAMPLES,
-  setSplitMinSamples,
   withArenaHelper,
 } from '../../src-main/engine/codec/arena-split';
 import { bandTable } from '../../src-main/engine/codec/coeff-coder';
 import { quantiseResident, residentArena } from '../../src-main/engine/codec/resident-plane';
-import { ARENA_MIN_PIXELS, PlaneArena, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
+import { PlaneArena } from '../../src-main/engine/codec/wasm/arena';
 import { GEO, PAR, RESULTS } from '../../src-main/engine/codec/wasm/runtime';
 import {
   analysePlane,
@@ -28,7 +26,7 @@ import {
   squaredErrorAt,
 } from '../../src-main/engine/codec/wavelet-plane';
 import { bandsFor, LIFTING } from '../../src-main/engine/codec/wavelet-transform';
-import { offeredWithPause, realSideThread } from '../helpers/side-thread';
+import { arenasAtEverySize, offeredWithPause, realSideThread } from '../helpers/side-thread';
 import { digest, rampPlane, reference } from './plane-samples';
 
 /** Pieces computed by each runner, by operation. */
@@ -93,14 +91,7 @@ function phases(n: number): number {
 }
 
 describe('quantiser, squared error and dequantisation split across threads', () => {
-  beforeAll(() => {
-    setArenaMinPixels(1);
-    setSplitMinSamples(1);
-  });
-  afterAll(() => {
-    setArenaMinPixels(ARENA_MIN_PIXELS);
-    setSplitMinSamples(SPLIT_MIN_SAMPLES);
-  });
+  arenasAtEverySize();
 
   it.each(SIZES)('%i×%i: the same bits on one thread, split, and taken back', (w, h) => {
     const p = rampPlane(w, h, 3 * w + h);

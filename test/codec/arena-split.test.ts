@@ -2,22 +2,20 @@
 // coefficients and the rebuilt plane equal the single-thread kernels' and the TypeScript reference's bit for
 // bit, on odd sizes and 1–6 levels, whichever thread computes which piece: all pieces computed as they are
 // offered, all taken back by the caller (a side thread that never started them), and a real worker thread.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import {
   type ArenaRunner,
   loadSplit,
   offerTouch,
   runArenaPass,
-  SPLIT_MIN_SAMPLES,
-  setSplitMinSamples,
   settleTouch,
   transformSplit,
   withArenaHelper,
 } from '../../src-main/engine/codec/arena-split';
-import { ARENA_MIN_PIXELS, PlaneArena, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
+import { PlaneArena } from '../../src-main/engine/codec/wasm/arena';
 import { isSharedMemory } from '../../src-main/engine/codec/wasm/shared-memory';
 import { forwardWavelet, inverseWavelet, LIFTING } from '../../src-main/engine/codec/wavelet-transform';
-import { offeredWithPause, realSideThread } from '../helpers/side-thread';
+import { arenasAtEverySize, offeredWithPause, realSideThread } from '../helpers/side-thread';
 import { digest, rampPlane, reference } from './plane-samples';
 
 /** Every piece computed at once, on this thread, as it is offered. */
@@ -79,14 +77,7 @@ const CASES: Array<[number, number, number]> = [
 ];
 
 describe('plane arena passes on two threads', () => {
-  beforeAll(() => {
-    setArenaMinPixels(1);
-    setSplitMinSamples(1);
-  });
-  afterAll(() => {
-    setArenaMinPixels(ARENA_MIN_PIXELS);
-    setSplitMinSamples(SPLIT_MIN_SAMPLES);
-  });
+  arenasAtEverySize();
 
   it.each(CASES)('%i×%i, %i levels: the same bits on one thread, split, and taken back', (w, h, levels) => {
     const p = sharedPlane(w, h, w + 7 * h);

@@ -1,6 +1,7 @@
 // A real side thread (the built worker) for the tests of work that plane arenas share with it: while the
 // describe block runs, arenas and splits are allowed at every size; afterwards the defaults are restored and
-// the thread is closed. Shared by test/codec/arena-split and test/codec/arena-quant.
+// the thread is closed (arenasAtEverySize alone without the thread). Shared by test/codec/arena-split and
+// test/codec/arena-quant.
 import { afterAll, beforeAll } from 'vitest';
 import {
   type ArenaPassArgs,
@@ -11,18 +12,27 @@ import {
 import { ARENA_MIN_PIXELS, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
 import { SideThread } from '../../src-main/node/parallel/side-thread';
 
+/** Call inside a describe block: arenas and splits at every size while it runs, the defaults restored after. */
+export function arenasAtEverySize(): void {
+  beforeAll(() => {
+    setArenaMinPixels(1);
+    setSplitMinSamples(1);
+  });
+  afterAll(() => {
+    setArenaMinPixels(ARENA_MIN_PIXELS);
+    setSplitMinSamples(SPLIT_MIN_SAMPLES);
+  });
+}
+
 /** Call inside a describe block; the returned function gives the thread, or throws when the worker is not built. */
 export function realSideThread(): () => SideThread {
   let side: SideThread | undefined;
+  arenasAtEverySize();
   beforeAll(async () => {
-    setArenaMinPixels(1);
-    setSplitMinSamples(1);
     side = SideThread.start();
     await side?.ready();
   });
   afterAll(async () => {
-    setArenaMinPixels(ARENA_MIN_PIXELS);
-    setSplitMinSamples(SPLIT_MIN_SAMPLES);
     await side?.close();
   });
   return () => {
