@@ -17,6 +17,14 @@ import { digest, rampPlane } from '../codec/plane-samples';
 
 const [w, h, step] = [97, 83, 3];
 
+/** A runner whose jobs run only when joined (after the caller's rebuild), recording their names. */
+const later =
+  (names: string[]): SideRunner =>
+  (name, args) => {
+    names.push(name);
+    return () => runHere(name, args)();
+  };
+
 /** A runner that counts the jobs it is given (none for a resident plane). */
 function counting(): { run: SideRunner; jobs: () => number } {
   let n = 0;
@@ -106,13 +114,6 @@ describe('the residual check of a resident plane', () => {
 });
 
 describe('the residual check of a resident plane on a second thread (offThread)', () => {
-  /** A runner whose jobs run only when joined (after the caller's rebuild), recording their names. */
-  const later =
-    (names: string[]): SideRunner =>
-    (name, args) => {
-      names.push(name);
-      return () => runHere(name, args)();
-    };
   const check = (run: SideRunner, bytes: Uint8Array) =>
     startResidualCheck(run, { steps: [step], bytes: [bytes] }, w, h, 'c.tif', 'all', true);
 
@@ -149,12 +150,6 @@ describe('the residual check of a resident plane on a second thread (offThread)'
 });
 
 describe('the residual check of a decided plane on a second thread, in its q region after the rebuild (lend)', () => {
-  const later =
-    (names: string[]): SideRunner =>
-    (name, args) => {
-      names.push(name);
-      return () => runHere(name, args)();
-    };
   /** A plane coded from its own analysis, kept so the test can read its coefficients afterwards. */
   const coded = () => {
     forgetCodes();
