@@ -50,7 +50,7 @@ export function estimateNoiseSigma(
  * boundary of `grid`, −1 on an axis where the boundaries fall between aligned blocks (an odd window phase);
  * null when there is no grid or it straddles no aligned block.
  */
-export function gridSkip(grid: CodingGrid | null): { x: number; y: number } | null {
+function gridSkip(grid: CodingGrid | null): { x: number; y: number } | null {
   if (!grid) return null;
   const x = grid.x % 2 === 0 ? grid.x / 2 : -1;
   const y = grid.y % 2 === 0 ? grid.y / 2 : -1;
