@@ -61,14 +61,14 @@ export function codingGrid(plane: ArrayLike<number>, width: number, height: numb
   for (let y = 0; y < th * TILE; y++) {
     const r0 = y * width;
     const r1 = r0 + width;
-    const rowBase = Math.floor(y / TILE) * tw * PERIOD;
     const py = y % PERIOD;
-    for (let x = 0; x < tw * TILE; x++) {
-      const d = plane[r0 + x] - plane[r0 + x + 1] - plane[r1 + x] + plane[r1 + x + 1];
-      const t = rowBase + Math.floor(x / TILE) * PERIOD;
-      cols[t + (x % PERIOD)] += d * d;
-      rows[t + py] += d * d;
-    }
+    for (let tx = 0, t = Math.floor(y / TILE) * tw * PERIOD; tx < tw; tx++, t += PERIOD)
+      for (let x = tx * TILE; x < (tx + 1) * TILE; x++) {
+        const d = plane[r0 + x] - plane[r0 + x + 1] - plane[r1 + x] + plane[r1 + x + 1];
+        // TILE is a multiple of PERIOD, so the phase of x in its tile is that of x in the image.
+        cols[t + (x & (PERIOD - 1))] += d * d;
+        rows[t + py] += d * d;
+      }
   }
   const x = boundaryPhase(cols, tw * th);
   if (x < 0) return null;
