@@ -13,6 +13,7 @@
  * a = c, b = d, or a = b, c = d), so scanner banding does not inflate the estimate.
  */
 
+import { type CodingGrid, codingGrid } from './noise-grid';
 import { sortByKey } from './noise-sort';
 
 /** Φ⁻¹(3/4): the median of |N(0,1)| (standard normal quantile; 0.6744897501960817 to double precision). */
@@ -27,6 +28,8 @@ export const MAD_TO_SIGMA = 0.6744897501960817;
  * (|LH| + |HL| and the differences of neighbouring LL), and the median of |HH| is taken over the
  * `keep` fraction with the least texture. The selection therefore does not bias the noise part of HH.
  * Blocks touching `clipLow`/`clipHigh` (e.g. 0 and 255) are skipped, because clipping removes noise there.
+ * When the plane carries the 8×8 grid of JPEG coding (noise-grid.ts) at a phase where aligned blocks straddle
+ * its boundaries, those blocks are skipped too (gridSkip); otherwise the result is what it was without the test.
  */
 export function estimateNoiseSigma(
   plane: ArrayLike<number>,
@@ -37,13 +40,40 @@ export function estimateNoiseSigma(
   keep = NOISE_KEEP_FRACTION,
 ): number {
   const blocks = haarBlocks(plane, width, height, clipLow, clipHigh);
-  return blocks ? sigmaOfBlocks(blocks, keep) : 0;
+  if (!blocks) return 0;
+  const skip = gridSkip(codingGrid(plane, width, height));
+  return skip ? sigmaOfBlocks(blocks, keep, skip) : sigmaOfBlocks(blocks, keep);
 }
 
-/** σ̂ from the `keep` fraction of least-textured blocks (estimateNoiseSigma's rule; `blocks` is left as it was). */
-export function sigmaOfBlocks(blocks: HaarBlocks, keep = NOISE_KEEP_FRACTION): number {
-  const { hh, integral } = blocks;
-  const idx = scoreOrder(blocks);
+/**
+ * Block phases to leave out: the block column (bx mod 4) and row (by mod 4) whose 2×2 blocks straddle a
+ * boundary of `grid`, −1 on an axis where the boundaries fall between aligned blocks (an odd window phase);
+ * null when there is no grid or it straddles no aligned block.
+ */
+function gridSkip(grid: CodingGrid | null): { x: number; y: number } | null {
+  if (!grid) return null;
+  const x = grid.x % 2 === 0 ? grid.x / 2 : -1;
+  const y = grid.y % 2 === 0 ? grid.y / 2 : -1;
+  return x < 0 && y < 0 ? null : { x, y };
+}
+
+/**
+ * σ̂ from the `keep` fraction of least-textured blocks (estimateNoiseSigma's rule; `blocks` is left as it was).
+ * With `skip` (gridSkip), the blocks at those phases are left out first and the fraction is of the others.
+ */
+export function sigmaOfBlocks(
+  blocks: HaarBlocks,
+  keep = NOISE_KEEP_FRACTION,
+  skip?: { x: number; y: number },
+): number {
+  const { hh, integral, bw } = blocks;
+  let idx = scoreOrder(blocks);
+  if (skip) {
+    const kept = new Int32Array(idx.length);
+    let m = 0;
+    for (const i of idx) if ((i % bw) % 4 !== skip.x && Math.floor(i / bw) % 4 !== skip.y) kept[m++] = i;
+    idx = kept.subarray(0, m);
+  }
   const n = Math.max(1, Math.floor(idx.length * keep));
   const v = new Float64Array(n);
   for (let k = 0; k < n; k++) v[k] = hh[idx[k]];
