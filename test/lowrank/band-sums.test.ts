@@ -7,7 +7,6 @@
 // not resident is left to the TypeScript. A residual-only encode of a large scan reports the whole-plane
 // figures of its decoded file.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { DecodedImage } from '../../src-main/contract';
 import { forgetCodes, recordingCodes } from '../../src-main/engine/codec/coded-planes';
 import { giveBackWork, handOutArena } from '../../src-main/engine/codec/resident-plane';
 import { ARENA_MIN_PIXELS, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
@@ -20,7 +19,7 @@ import { encodeScan } from '../../src-main/engine/lowrank/encode';
 import { runHere } from '../../src-main/engine/lowrank/side-jobs';
 import { psnrPlanes, ssim } from '../../src-main/engine/metrics';
 import { COMPRESSORS } from '../../src-main/node/services/compress';
-import { field } from './noisy-field';
+import { field, greyScan } from './noisy-field';
 
 beforeAll(async () => {
   await initEngine();
@@ -107,20 +106,7 @@ describe('a grey residual band decoded and measured in one kernel pass', () => {
 describe('the residual-only encode of a large grey scan', () => {
   it('reports the PSNR and SSIM of its decoded file, bit for bit', () => {
     const [w, h] = [1320, 1260];
-    const img = {
-      file: 'scan.png',
-      width: w,
-      height: h,
-      channels: 1,
-      bitDepth: 8,
-      colour: 'gray',
-      hasAlpha: false,
-      planes: [field(w, h, 9, 255)],
-      meta: { format: 'png' },
-      inputBytes: w * h,
-      rawBytes: w * h,
-      sourceSha256: '0'.repeat(64),
-    } as DecodedImage;
+    const img = greyScan(w, h, 8, false);
     const later = ((name, args) => () => runHere(name, args)()) as typeof runHere;
     const r = encodeScan(img, {
       budget: { kind: 'bpp', bpp: 0.5 },
