@@ -14,31 +14,11 @@ import { encodeScan } from '../../src-main/engine/lowrank/encode';
 import { runHere, type SideRunner } from '../../src-main/engine/lowrank/side-jobs';
 import { psnrPlanes, ssim } from '../../src-main/engine/metrics';
 import { COMPRESSORS } from '../../src-main/node/services/compress';
-import { field } from './noisy-field';
+import { greyScan } from './noisy-field';
 
 beforeAll(async () => {
   await initEngine();
 });
-
-function scan(w: number, h: number, bitDepth: 8 | 16, alpha: boolean): DecodedImage {
-  const max = bitDepth === 16 ? 65535 : 255;
-  const planes = [field(w, h, 5, max)];
-  if (alpha) planes.push(Float32Array.from({ length: w * h }, (_, i) => (i % w < w / 4 ? 0 : max)));
-  return {
-    file: 'grey.tif',
-    width: w,
-    height: h,
-    channels: alpha ? 2 : 1,
-    bitDepth,
-    colour: 'gray',
-    hasAlpha: alpha,
-    planes,
-    meta: { format: 'tiff' },
-    inputBytes: w * h,
-    rawBytes: w * h * planes.length * (bitDepth / 8),
-    sourceSha256: '0'.repeat(64),
-  } as DecodedImage;
-}
 
 /** The whole-plane figures of a decoded file, as the report computed them before streaming. */
 function wholeFigures(img: DecodedImage, decoded: Float32Array[], max: number) {
@@ -61,7 +41,7 @@ describe('grey figures measured band by band', () => {
     [8, true, 1.5],
   ] as const)('%i-bit, alpha %s, %f bpp: the whole-plane figures bit for bit', (bitDepth, alpha, bpp) => {
     const [w, h] = [150, 203];
-    const img = scan(w, h, bitDepth, alpha);
+    const img = greyScan(w, h, bitDepth, alpha);
     const max = bitDepth === 16 ? 65535 : 255;
     const r = encodeScan(img, {
       budget: { kind: 'bpp', bpp },
@@ -98,7 +78,7 @@ describe('grey figures measured band by band', () => {
 
   it('a file that decodes to the source exactly is lossless; one changed sample or alpha value is not', () => {
     const [w, h] = [40, 90];
-    const img = scan(w, h, 8, true);
+    const img = greyScan(w, h, 8, true);
     const r = encodeScan(img, {
       budget: { kind: 'psnr', db: 99 },
       tile: 0,

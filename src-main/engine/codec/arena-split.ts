@@ -90,6 +90,9 @@ function kernelsFor(args: ArenaPassArgs): { lift: LiftingExports; tmp: number; b
   return { lift: r.lift, tmp: tmp1, buf: buf1, end };
 }
 
+/** Positions per call of the dequantisation kernel (any cut gives the same values: each x from its own q). */
+const DEQUANTISE_SLICE = 1 << 16;
+
 /** Pages touched between two looks at the stop word. */
 const TOUCH_BATCH = 64;
 /** Int32 words per 4 KiB page (the smallest page size of the systems this runs on). */
@@ -140,7 +143,10 @@ export function runArenaPass(args: ArenaPassArgs): number {
       lift.squaredError(a[0], a[1], a[2], a[4] - a[3], GEO + 16 * a[3], PAR + 32 * a[3], RESULTS + 8 * a[3]);
       break;
     case 'dequantise':
-      lift.dequantiseInPlace(a[0], a[1], a[2], a[3], GEO, PAR, a[4], a[5]);
+      // In slices: a call runs to its end in the code it started in, and the report's rebuild is often this
+      // kernel's first use, so one call per piece would run wholly in the engine's first, unoptimised code.
+      for (let i = a[4]; i < a[5]; i += DEQUANTISE_SLICE)
+        lift.dequantiseInPlace(a[0], a[1], a[2], a[3], GEO, PAR, i, Math.min(a[5], i + DEQUANTISE_SLICE));
       break;
     case 'statsAt':
       lift.quantiseStats(a[0], 0, a[1], a[2], a[3], GEO, PAR, 0, RESULTS);

@@ -350,6 +350,11 @@ export function giveBackWork(x: Float64Array): void {
   workTaken.delete(arena);
 }
 
+/** The arena whose memory holds `x`, a {@link reconstructResident} hand-out not given back yet; else undefined. */
+export function handOutArena(x: Float64Array): PlaneArena | undefined {
+  return handedOut.get(x);
+}
+
 /** Whether the arena's coder may run (its work region is not handed out). */
 export function workFree(arena: PlaneArena): boolean {
   return !workTaken.has(arena);

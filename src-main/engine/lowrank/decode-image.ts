@@ -20,6 +20,7 @@ import { flatBase, reconstructRows } from '../codec/quantise';
 import { tileGrid } from '../codec/quantised';
 import { giveBackWork } from '../codec/resident-plane';
 import { roundInto, type SampleOut, ycbcrToRgbSamples } from '../colour';
+import type { SquaredErrors } from './band-sums';
 
 export interface DecodedRkf {
   header: RkfHeader;
@@ -110,7 +111,9 @@ const codedChannels = (header: RkfHeader) => (header.colourTransform === 'ycbcr-
  * output channel but alpha, rounded and clamped, as decodeImageFile gives them) are written from index 0 of
  * band-sized float32 buffers, reused from band to band, and handed to `onBand` with the band's first row and
  * row count. A lossless file is decoded whole and handed over as one band. The alpha plane, when there is
- * one, is decoded whole and returned. Memory: O(band·width) besides the file's own decoding.
+ * one, is decoded whole and returned. Memory: O(band·width) besides the file's own decoding. With `errors`,
+ * each band's first channel is measured against its source as it is written (./band-sums: in the decode's own
+ * pass where the residual plane is resident), before `onBand` sees it.
  * @throws FormatError
  */
 export function decodeImageFileBands(
@@ -118,6 +121,7 @@ export function decodeImageFileBands(
   file: string,
   onBand: (samples: Float32Array[], y0: number, rows: number) => void,
   opts: ReadOptions = {},
+  errors?: SquaredErrors,
 ): Omit<DecodedRkf, 'samples'> & { alpha?: Float32Array } {
   const { view, header } = readImageHeader(bytes, file, opts);
   const { width, height, bitDepth } = header;
@@ -126,12 +130,13 @@ export function decodeImageFileBands(
   if (isExactFile(header)) {
     const whole = Array.from({ length: header.channels >= 3 ? 3 : 1 }, () => float32(width * height));
     decodeExactSamples(view, header, file, whole);
+    errors?.add(whole[0], 0, width * height);
     onBand(whole, 0, height);
     decoded = withAlpha(view, header, file, float32, whole);
   } else {
     const band = bandRows(header, STREAM_BAND_ROWS);
     const out = Array.from({ length: codedChannels(header) }, () => float32(band * width));
-    decodeRows(view, header, file, opts, band, out, false, onBand);
+    decodeRows(view, header, file, opts, band, out, false, onBand, errors);
     decoded = withAlpha(view, header, file, float32, out);
   }
   const count = isExactFile(header) && header.channels >= 3 ? 3 : codedChannels(header);
@@ -148,7 +153,8 @@ function bandRows(header: RkfHeader, untiled = BAND_ROWS): number {
 /**
  * The coded planes rebuilt `band` rows at a time into `samples` (float64 rows of the base, plus the residual layer,
  * then the colour transform undone, rounded and clamped): written at the band's place in whole planes
- * (`whole`) or from index 0 of band-sized arrays, and each band handed to `onBand`.
+ * (`whole`) or from index 0 of band-sized arrays, each band's first channel measured into `errors` (band-sized
+ * arrays only), and each band handed to `onBand`.
  */
 function decodeRows<S extends SampleOut>(
   view: ContainerView,
@@ -159,6 +165,7 @@ function decodeRows<S extends SampleOut>(
   samples: S[],
   whole: boolean,
   onBand?: (samples: S[], y0: number, rows: number) => void,
+  errors?: SquaredErrors,
 ): void {
   const { width, height, bitDepth } = header;
   const planeFail = (k: number, err: unknown): never => {
@@ -191,11 +198,15 @@ function decodeRows<S extends SampleOut>(
     const len = (y1 - y0) * width;
     const at = y0 * width;
     const outAt = whole ? at : 0;
+    let measured = false;
     quant.forEach(({ q, rects }, k) => {
       const r = residual[k];
       const f = flat[k];
       if (grey && r && f !== undefined) {
-        greyFlatInto(f, r, at, len, bitDepth === 16 ? 65535 : 255, grey, outAt);
+        const max = bitDepth === 16 ? 65535 : 255;
+        // A resident residual: decoded and measured in one kernel pass (./band-sums).
+        measured = !!errors?.addFlatResident(r, f, at, len, max, grey, outAt);
+        if (!measured) greyFlatInto(f, r, at, len, max, grey, outAt);
         return;
       }
       try {
@@ -214,6 +225,7 @@ function decodeRows<S extends SampleOut>(
       }
     });
     if (!grey) planesToSamples(bufs, colour, len, bitDepth, samples, outAt);
+    if (errors && !measured) errors.add(samples[0] as Float32Array, at, len);
     onBand?.(samples, y0, y1 - y0);
   }
   // The residual planes are not used past here: a plane rebuilt in its coder's memory gives that memory back.

@@ -12,6 +12,7 @@
  */
 import type { DecodedImage } from '../../contract';
 import { psnrFromMse, SsimStream } from '../metrics';
+import { SquaredErrors } from './band-sums';
 import { type DecodedRkf, decodeImageFile, decodeImageFileBands } from './decode-image';
 import type { SideRunner } from './side-jobs';
 import { SsimBands } from './ssim-bands';
@@ -30,8 +31,6 @@ export interface FileFigures {
 
 /** SSIM window side of ../metrics's defaults (Wang et al. 2004: 11×11). */
 const SSIM_SIDE = 11;
-/** ../metrics SseStream's block of samples: the PSNR's squared errors are summed per block, then over blocks. */
-const SSE_BLOCK = 4096;
 
 /**
  * The figures of the grey file `bytes` against the grey scan `img` (max: the largest sample value), measured
@@ -54,12 +53,17 @@ export function measureGreyFile(
   const ssim = windowed && !side ? new SsimStream(width, height, max) : undefined;
   let got: ReturnType<typeof decodeImageFileBands>;
   try {
-    got = decodeImageFileBands(bytes, img.file, (samples, y0, rows) => {
-      const b = samples[0];
-      banded?.add(b, rows);
-      sums.add(b, y0 * width, rows * width);
-      ssim?.addRows(source, b, rows, y0 * width, 0);
-    });
+    got = decodeImageFileBands(
+      bytes,
+      img.file,
+      (samples, y0, rows) => {
+        const b = samples[0];
+        banded?.add(b, rows);
+        ssim?.addRows(source, b, rows, y0 * width, 0);
+      },
+      {},
+      sums,
+    );
   } catch (err) {
     banded?.drop();
     throw err;
@@ -78,60 +82,10 @@ export function measureGreyFile(
   };
 }
 
-/**
- * Both sums of squared errors of a band, from one difference per sample: `running`, one running sum in sample
- * order (the Frobenius error's square, as squaredError in ./scan-finish), and the PSNR's, summed per block of
- * SSE_BLOCK samples counted from the plane's start and then over blocks, as ../metrics SseStream (and so sse)
- * adds them; plus whether every decoded sample equals the source's.
- */
-class SquaredErrors {
-  running = 0;
-  same = true;
-  private sum = 0;
-  private block = 0;
-  private inBlock = 0;
-
-  constructor(private readonly source: Float32Array) {}
-
-  /** Add the decoded samples b[0 … len − 1], which are the source's from `at`. */
-  add(b: Float32Array, at: number, len: number): void {
-    const source = this.source;
-    let running = this.running;
-    let differs = 0;
-    for (let i = 0; i < len; ) {
-      const take = Math.min(len - i, SSE_BLOCK - this.inBlock);
-      let block = this.block;
-      for (let k = i; k < i + take; k++) {
-        const d = source[at + k] - b[k];
-        const dd = d * d;
-        block += dd;
-        running += dd;
-        differs += dd;
-      }
-      i += take;
-      this.inBlock += take;
-      if (this.inBlock === SSE_BLOCK) {
-        this.sum += block;
-        this.block = 0;
-        this.inBlock = 0;
-      } else this.block = block;
-    }
-    this.running = running;
-    if (differs !== 0) this.same = false;
-  }
-
-  /** The PSNR's sum: the full blocks' sums, plus the partial last block's. */
-  blocked(): number {
-    return this.inBlock > 0 ? this.sum + this.block : this.sum;
-  }
-}
-
 /** Σ(source − decoded)² of the grey file `bytes` (the PSNR floor's check), band by band: no decoded plane. */
 export function measureGreySse(bytes: Uint8Array, img: DecodedImage): number {
   const sums = new SquaredErrors(img.planes[0]);
-  decodeImageFileBands(bytes, img.file, (samples, y0, rows) => {
-    sums.add(samples[0], y0 * img.width, rows * img.width);
-  });
+  decodeImageFileBands(bytes, img.file, () => {}, {}, sums);
   return sums.running;
 }
 

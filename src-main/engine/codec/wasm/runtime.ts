@@ -80,6 +80,20 @@ export interface LiftingExports {
   /** Bands b0 … b1 − 1: squared error of the quantised values (not written), d1, d2 read at out + 32·b, Σ at + 16. */
   errorsAt(x: number, width: number, b0: number, b1: number, geo: number, par: number, out: number): void;
   bandMax(x: number, width: number, nb: number, geo: number, out: number): void;
+  /**
+   * n decoded grey samples (f32 at out) of a plane whose base is one value, and their squared errors against
+   * the f32 source at src added to the sums at st (../resident-rows.ts).
+   */
+  greyFlatRows(
+    x: number,
+    src: number,
+    out: number,
+    n: number,
+    base: number,
+    max: number,
+    block: number,
+    st: number,
+  ): void;
 }
 
 const lifting = new LazyKernel<LiftingExports>(wasmBase64);

@@ -28,6 +28,7 @@ interface SsimExports {
     total: number,
     sums: number,
     f32in: number,
+    acc: number,
   ): number;
 }
 
@@ -94,7 +95,9 @@ export function ssimRowsWasm(
   const aAt = tmpAt + align16(40 * width);
   const bAt = aAt + align16(8 * chunk * width);
   const sumsAt = bAt + align16(8 * chunk * width);
-  if (!reserveBytes(k, sumsAt + 8 * chunk)) return null;
+  // Each row's sum as the kernel's column strips add to it.
+  const accAt = sumsAt + align16(8 * chunk);
+  if (!reserveBytes(k, accAt + 8 * chunk)) return null;
   const buf = () => k.memory.buffer;
   if (owner !== s) {
     if (owner) releaseRing(owner);
@@ -133,6 +136,7 @@ export function ssimRowsWasm(
       total,
       sums ? sumsAt : 0,
       f32 ? 1 : 0,
+      accAt,
     );
     if (sums) {
       const lo = Math.max(y, firstWin);

@@ -652,3 +652,78 @@ export function bandMax(x: usize, width: i32, nb: i32, geo: usize, out: usize): 
     store<f64>(out + (<usize>bi << 3), top);
   }
 }
+
+// ------------------------------------------------------------------ the report's decode of a grey residual plane
+
+/**
+ * The decoded samples of a grey plane whose base is the one value `base` (../../../lowrank/decode-image.ts
+ * greyFlatInto) and their squared errors against the source (../../../lowrank/band-sums.ts add), in one pass:
+ * out[i] (f32) = clamp(round(base + x[i])) for i < n, where round is JavaScript's Math.round (the nearest
+ * integer, halves up: ceil, less one where ceil − 0.5 > the value) and clamp maps values above max to max and
+ * anything not above 0 (NaN too) to 0; then with d = src[i] (f32) − out[i], d² is added to the sums at st (f64:
+ * the block's sum, the running sum, the blocks' sum, the samples in the block, the sum of all d² since the
+ * caller zeroed it), one sample at a time in order, and a block of `block` samples is added to the blocks' sum
+ * as it fills. The same operations in the same order as the TypeScript, so the same bits.
+ */
+export function greyFlatRows(x: usize, src: usize, out: usize, n: i32, base: f64, max: f64, block: i32, st: usize): void {
+  const bv = f64x2.splat(base);
+  const mv = f64x2.splat(max);
+  const half = f64x2.splat(0.5);
+  const one = f64x2.splat(1);
+  const zero = f64x2.splat(0);
+  let blk = load<f64>(st);
+  let running = load<f64>(st, 8);
+  let sum = load<f64>(st, 16);
+  let inBlock = <i32>load<f64>(st, 24);
+  let differs = load<f64>(st, 32);
+  let i = 0;
+  for (; i + 1 < n; i += 2) {
+    const s = f64x2.add(bv, v128.load(x + (<usize>i << 3)));
+    let r = f64x2.ceil(s);
+    r = f64x2.sub(r, v128.and(f64x2.gt(f64x2.sub(r, half), s), one));
+    const v = v128.bitselect(v128.bitselect(mv, r, f64x2.gt(r, mv)), zero, f64x2.gt(r, zero));
+    v128.store64_lane(out + (<usize>i << 2), f32x4.demote_f64x2_zero(v), 0);
+    const d = f64x2.sub(f64x2.promote_low_f32x4(v128.load64_zero(src + (<usize>i << 2))), v);
+    const dd = f64x2.mul(d, d);
+    const e0 = f64x2.extract_lane(dd, 0);
+    blk += e0;
+    running += e0;
+    differs += e0;
+    if (++inBlock == block) {
+      sum += blk;
+      blk = 0;
+      inBlock = 0;
+    }
+    const e1 = f64x2.extract_lane(dd, 1);
+    blk += e1;
+    running += e1;
+    differs += e1;
+    if (++inBlock == block) {
+      sum += blk;
+      blk = 0;
+      inBlock = 0;
+    }
+  }
+  for (; i < n; i++) {
+    const s = base + load<f64>(x + (<usize>i << 3));
+    let r = Math.ceil(s);
+    if (r - 0.5 > s) r -= 1;
+    const v: f64 = r > 0 ? (r > max ? max : r) : 0;
+    store<f32>(out + (<usize>i << 2), <f32>v);
+    const d = <f64>load<f32>(src + (<usize>i << 2)) - v;
+    const e = d * d;
+    blk += e;
+    running += e;
+    differs += e;
+    if (++inBlock == block) {
+      sum += blk;
+      blk = 0;
+      inBlock = 0;
+    }
+  }
+  store<f64>(st, blk);
+  store<f64>(st, running, 8);
+  store<f64>(st, sum, 16);
+  store<f64>(st, <f64>inBlock, 24);
+  store<f64>(st, differs, 32);
+}

@@ -15,18 +15,18 @@
 }
 
 /**
- * Products of one row pair into tmp (5 arrays of width: x, y, x², y², xy). With `f32in` the rows hold f32
- * samples, each widened to f64 exactly (as a Float32Array element read in JavaScript is).
+ * Products of one row pair's columns c0 … c1 − 1 into tmp (5 arrays of width: x, y, x², y², xy). With `f32in`
+ * the rows hold f32 samples, each widened to f64 exactly (as a Float32Array element read in JavaScript is).
  */
-function rowProducts(a: usize, b: usize, width: i32, tmp: usize, f32in: bool): void {
+function rowProducts(a: usize, b: usize, c0: i32, c1: i32, width: i32, tmp: usize, f32in: bool): void {
   const rx = tmp;
   const ry = at(tmp, width);
   const rxx = at(tmp, 2 * width);
   const ryy = at(tmp, 3 * width);
   const rxy = at(tmp, 4 * width);
-  let i = 0;
+  let i = c0;
   if (f32in) {
-    for (; i + 1 < width; i += 2) {
+    for (; i + 1 < c1; i += 2) {
       const p = f64x2.promote_low_f32x4(v128.load64_zero(a + (<usize>i << 2)));
       const q = f64x2.promote_low_f32x4(v128.load64_zero(b + (<usize>i << 2)));
       v128.store(at(rx, i), p);
@@ -36,7 +36,7 @@ function rowProducts(a: usize, b: usize, width: i32, tmp: usize, f32in: bool): v
       v128.store(at(rxy, i), f64x2.mul(p, q));
     }
   } else {
-    for (; i + 1 < width; i += 2) {
+    for (; i + 1 < c1; i += 2) {
       const p = v128.load(at(a, i));
       const q = v128.load(at(b, i));
       v128.store(at(rx, i), p);
@@ -46,7 +46,7 @@ function rowProducts(a: usize, b: usize, width: i32, tmp: usize, f32in: bool): v
       v128.store(at(rxy, i), f64x2.mul(p, q));
     }
   }
-  if (i < width) {
+  if (i < c1) {
     const p: f64 = f32in ? <f64>load<f32>(a + (<usize>i << 2)) : load<f64>(at(a, i));
     const q: f64 = f32in ? <f64>load<f32>(b + (<usize>i << 2)) : load<f64>(at(b, i));
     store<f64>(at(rx, i), p);
@@ -57,8 +57,11 @@ function rowProducts(a: usize, b: usize, width: i32, tmp: usize, f32in: bool): v
   }
 }
 
-/** The 11-tap pass of the products in tmp (./rowProducts) into the ring row at `ring`, any radius R. */
-function filterRow(width: i32, wv: i32, R: i32, g: usize, ring: usize, tmp: usize): void {
+/**
+ * The 11-tap pass of the products in tmp (./rowProducts) into the ring row at `ring`, any radius R: window
+ * columns j0 … j1 − 1 (j0 even).
+ */
+function filterRow(width: i32, wv: i32, R: i32, g: usize, ring: usize, tmp: usize, j0: i32, j1: i32): void {
   const rx = tmp;
   const ry = at(tmp, width);
   const rxx = at(tmp, 2 * width);
@@ -66,8 +69,8 @@ function filterRow(width: i32, wv: i32, R: i32, g: usize, ring: usize, tmp: usiz
   const rxy = at(tmp, 4 * width);
   const gc = load<f64>(at(g, R));
   const gcv = f64x2.splat(gc);
-  let j = 0;
-  for (; j + 1 < wv; j += 2) {
+  let j = j0;
+  for (; j + 1 < j1; j += 2) {
     const c = j + R;
     let sx = f64x2.mul(gcv, v128.load(at(rx, c)));
     let sy = f64x2.mul(gcv, v128.load(at(ry, c)));
@@ -90,7 +93,7 @@ function filterRow(width: i32, wv: i32, R: i32, g: usize, ring: usize, tmp: usiz
     v128.store(at(ring, 3 * wv + j), syy);
     v128.store(at(ring, 4 * wv + j), sxy);
   }
-  if (j < wv) filterTail(width, wv, R, g, ring, tmp, j);
+  if (j < j1) filterTail(width, wv, R, g, ring, tmp, j);
 }
 
 /** filterRow's scalar pass for the one column j left after the lane pairs (an odd wv). */
@@ -140,8 +143,11 @@ function filterTail(width: i32, wv: i32, R: i32, g: usize, ring: usize, tmp: usi
   return f64x2.div(num, den);
 }
 
-/** Σ over the window centres of the row whose window ends at ring row y (see SsimStream.windowRow). */
-function windowRow(ring: usize, stride: i32, wv: i32, R: i32, side: i32, g: usize, offs: usize, y: i32, C1: f64, C2: f64): f64 {
+/**
+ * `rowSum` plus, in column order, the SSIM of the window centres j0 … j1 − 1 (j0 even) of the row whose window
+ * ends at ring row y (see SsimStream.windowRow, which adds them to 0 from column 0).
+ */
+function windowRow(ring: usize, stride: i32, wv: i32, R: i32, side: i32, g: usize, offs: usize, y: i32, C1: f64, C2: f64, j0: i32, j1: i32, rowSum: f64): f64 {
   const base = y - side + 1;
   const oc = at(ring, ((base + R) % side) * stride);
   for (let t = 0; t < R; t++) {
@@ -151,9 +157,8 @@ function windowRow(ring: usize, stride: i32, wv: i32, R: i32, side: i32, g: usiz
   const gcv = v128.load64_splat(at(g, R));
   const c1 = f64x2.splat(C1);
   const c2 = f64x2.splat(C2);
-  let rowSum: f64 = 0;
-  let j = 0;
-  for (; j < wv; j += 2) {
+  let j = j0;
+  for (; j < j1; j += 2) {
     // The last odd column runs in lane 0 with lane 1 reading one sample past the row's block (still inside
     // the ring's memory); only lane 0 is added then.
     let ux = f64x2.mul(gcv, v128.load(at(oc, j)));
@@ -173,7 +178,7 @@ function windowRow(ring: usize, stride: i32, wv: i32, R: i32, side: i32, g: usiz
     }
     const r = ratio(ux, uy, uxx, uyy, uxy, c1, c2);
     rowSum += f64x2.extract_lane(r, 0);
-    if (j + 1 < wv) rowSum += f64x2.extract_lane(r, 1);
+    if (j + 1 < j1) rowSum += f64x2.extract_lane(r, 1);
   }
   return rowSum;
 }
@@ -193,7 +198,7 @@ function windowRow(ring: usize, stride: i32, wv: i32, R: i32, side: i32, g: usiz
  * filterRow for R = 5 (the 11×11 default) with the taps unrolled and held in registers: the same operations
  * in the same order, so the same bits. An odd last column goes through filterRow's scalar tail.
  */
-function filterRow5(width: i32, wv: i32, g: usize, ring: usize, tmp: usize): void {
+function filterRow5(width: i32, wv: i32, g: usize, ring: usize, tmp: usize, j0: i32, j1: i32): void {
   const rx = tmp;
   const ry = at(tmp, width);
   const rxx = at(tmp, 2 * width);
@@ -205,43 +210,58 @@ function filterRow5(width: i32, wv: i32, g: usize, ring: usize, tmp: usize): voi
   const w2 = v128.load64_splat(at(g, 2));
   const w3 = v128.load64_splat(at(g, 3));
   const w4 = v128.load64_splat(at(g, 4));
-  let j = 0;
-  for (; j + 1 < wv; j += 2) {
+  let j = j0;
+  for (; j + 1 < j1; j += 2) {
     v128.store(at(ring, j), tap5(rx, j, gcv, w0, w1, w2, w3, w4));
     v128.store(at(ring, wv + j), tap5(ry, j, gcv, w0, w1, w2, w3, w4));
     v128.store(at(ring, 2 * wv + j), tap5(rxx, j, gcv, w0, w1, w2, w3, w4));
     v128.store(at(ring, 3 * wv + j), tap5(ryy, j, gcv, w0, w1, w2, w3, w4));
     v128.store(at(ring, 4 * wv + j), tap5(rxy, j, gcv, w0, w1, w2, w3, w4));
   }
-  if (j < wv) filterTail(width, wv, 5, g, ring, tmp, j);
+  if (j < j1) filterTail(width, wv, 5, g, ring, tmp, j);
 }
+
+/**
+ * Window columns per strip (even): ssimRows works through the rows strip by strip, so the ring's part that a
+ * window row reads (2R + 1 rows of five arrays) stays in the cache from row to row instead of being read again
+ * from memory for every row (the whole ring is 5·(2R + 1)·width f64, larger than the cache on wide scans).
+ */
+const STRIP: i32 = 128;
 
 /**
  * Filter `rows` row pairs (a, b: f64, or f32 when f32in; row stride width) as ring rows y0 … y0 + rows − 1; for every y ≥ firstWin,
  * the window row ending at y is summed: into sums[y − y0] when sums ≠ 0, else added to `total` in row
  * order. Returns the new total. ring: side·5·wv f64 plus one spare f64; tmp: 5·width f64; g: 2R+1 taps;
- * offs: 2R i32.
+ * offs: 2R i32; acc: rows f64 (each row's sum as the strips add to it, in column order: the same sum).
  */
 export function ssimRows(
   a: usize, b: usize, width: i32, rows: i32, y0: i32, firstWin: i32,
   R: i32, g: usize, ring: usize, tmp: usize, offs: usize, C1: f64, C2: f64, total: f64, sums: usize, f32in: bool,
+  acc: usize,
 ): f64 {
   const side = 2 * R + 1;
   const wv = width - 2 * R;
   const stride = 5 * wv;
-  for (let i = 0; i < rows; i++) {
-    const y = y0 + i;
-    const o = <usize>i * <usize>width;
-    const ro = at(ring, (y % side) * stride);
-    if (f32in) rowProducts(a + (o << 2), b + (o << 2), width, tmp, true);
-    else rowProducts(at(a, <i32>o), at(b, <i32>o), width, tmp, false);
-    if (R == 5) filterRow5(width, wv, g, ro, tmp);
-    else filterRow(width, wv, R, g, ro, tmp);
-    if (y >= firstWin) {
-      const r = windowRow(ring, stride, wv, R, side, g, offs, y, C1, C2);
-      if (sums) store<f64>(at(sums, i), r);
-      else total += r;
+  for (let i = 0; i < rows; i++) store<f64>(at(acc, i), 0);
+  for (let j0 = 0; j0 < wv; j0 += STRIP) {
+    const j1 = j0 + STRIP < wv ? j0 + STRIP : wv;
+    const c1 = j1 + 2 * R;
+    for (let i = 0; i < rows; i++) {
+      const y = y0 + i;
+      const o = <usize>i * <usize>width;
+      const ro = at(ring, (y % side) * stride);
+      if (f32in) rowProducts(a + (o << 2), b + (o << 2), j0, c1, width, tmp, true);
+      else rowProducts(at(a, <i32>o), at(b, <i32>o), j0, c1, width, tmp, false);
+      if (R == 5) filterRow5(width, wv, g, ro, tmp, j0, j1);
+      else filterRow(width, wv, R, g, ro, tmp, j0, j1);
+      if (y >= firstWin) store<f64>(at(acc, i), windowRow(ring, stride, wv, R, side, g, offs, y, C1, C2, j0, j1, load<f64>(at(acc, i))));
     }
+  }
+  for (let i = 0; i < rows; i++) {
+    if (y0 + i < firstWin) continue;
+    const r = load<f64>(at(acc, i));
+    if (sums) store<f64>(at(sums, i), r);
+    else total += r;
   }
   return total;
 }
