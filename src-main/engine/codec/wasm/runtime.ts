@@ -80,6 +80,22 @@ export interface LiftingExports {
   /** Bands b0 … b1 − 1: squared error of the quantised values (not written), d1, d2 read at out + 32·b, Σ at + 16. */
   errorsAt(x: number, width: number, b0: number, b1: number, geo: number, par: number, out: number): void;
   bandMax(x: number, width: number, nb: number, geo: number, out: number): void;
+  /**
+   * The band x0, y0, w × h's magnitudes at the raster positions ≡ 0 (mod stride), sorted into out (f64; tmp as
+   * many, hist 6·2048 u32): the rate model's sample (../wavelet-estimate.ts). Returns how many.
+   */
+  sortedSample(
+    x: number,
+    width: number,
+    x0: number,
+    y0: number,
+    w: number,
+    h: number,
+    stride: number,
+    out: number,
+    tmp: number,
+    hist: number,
+  ): number;
 }
 
 const lifting = new LazyKernel<LiftingExports>(wasmBase64);

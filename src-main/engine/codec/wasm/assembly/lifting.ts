@@ -342,9 +342,20 @@ function quantiseBands(
     let n2: f64 = 0;
     let s1: f64 = 0;
     let s2: f64 = 0;
+    const zeros = f64x2.splat(zero);
     for (let y = 0; y < bh; y++) {
       const row = <usize>(y0 + y) * <usize>width + <usize>x0;
       for (let i: usize = 0; i < <usize>bw; i++) {
+        // Most coefficients lie in the dead zone: a pair of them at once (|c| > zero is false for both, as
+        // below, NaN included) stores its two zeros; any other pair goes through the scalar steps one by one.
+        if ((i & 1) == 0 && i + 2 <= <usize>bw) {
+          const pair = f64x2.abs(v128.load(x + ((row + i) << 3)));
+          if (!v128.any_true(f64x2.gt(pair, zeros))) {
+            if (q != 0) store<i64>(q + ((row + i) << 2), 0);
+            i++;
+            continue;
+          }
+        }
         const c = load<f64>(x + ((row + i) << 3));
         const ac = abs<f64>(c);
         let v: i32 = 0;
@@ -493,7 +504,23 @@ export function compactNonZero(q: usize, flags: usize, n: i32, at: usize, v: usi
   for (let j = 0; j < chunks; j++) {
     if (load<u8>(flags + <usize>j) == 0) continue;
     const end = min<i32>(n, (j + 1) << CHUNK_BITS);
-    for (let i = j << CHUNK_BITS; i < end; i++) {
+    let i = j << CHUNK_BITS;
+    // Most q are 0 even in a flagged chunk: runs of 16 zeros are passed over four vectors at a time (the
+    // non-zeros found, and their order, are those of the scalar loop below).
+    for (; i + 16 <= end; i += 16) {
+      const p = q + (<usize>i << 2);
+      const any = v128.or(v128.or(v128.load(p), v128.load(p, 16)), v128.or(v128.load(p, 32), v128.load(p, 48)));
+      if (!v128.any_true(any)) continue;
+      for (let t = i; t < i + 16; t++) {
+        const x = load<i32>(q + (<usize>t << 2));
+        if (x != 0) {
+          store<i32>(at + (<usize>k << 2), t);
+          store<i32>(v + (<usize>k << 2), x);
+          k++;
+        }
+      }
+    }
+    for (; i < end; i++) {
       const x = load<i32>(q + (<usize>i << 2));
       if (x != 0) {
         store<i32>(at + (<usize>k << 2), i);
@@ -641,14 +668,96 @@ export function bandMax(x: usize, width: i32, nb: i32, geo: usize, out: usize): 
     const y0 = load<i32>(g, 4);
     const bw = load<i32>(g, 8);
     const bh = load<i32>(g, 12);
+    // Two lanes: pmax(t, c) is c > t ? c : t, the scalar step, and the largest of a set is the same in any order
+    // (magnitudes are never −0; a NaN is passed over either way).
+    let tops = f64x2.splat(0);
     let top: f64 = 0;
     for (let y = 0; y < bh; y++) {
       const row = <usize>(y0 + y) * <usize>width + <usize>x0;
-      for (let i: usize = 0; i < <usize>bw; i++) {
+      let i: usize = 0;
+      for (; i + 2 <= <usize>bw; i += 2) tops = f64x2.pmax(tops, f64x2.abs(v128.load(x + ((row + i) << 3))));
+      for (; i < <usize>bw; i++) {
         const c = abs<f64>(load<f64>(x + ((row + i) << 3)));
         if (c > top) top = c;
       }
     }
+    const t0 = f64x2.extract_lane(tops, 0);
+    const t1 = f64x2.extract_lane(tops, 1);
+    if (t0 > top) top = t0;
+    if (t1 > top) top = t1;
     store<f64>(out + (<usize>bi << 3), top);
   }
+}
+
+// ------------------------------------------------------------------ the rate model's sample (../../wavelet-estimate.ts)
+
+/** Bits per digit of the sample's radix sort, and its digits (64 bits in 6). */
+const DIGIT_BITS = 11;
+const DIGIT_MASK: u64 = (1 << DIGIT_BITS) - 1;
+const DIGITS = 6;
+
+/**
+ * The magnitudes |c| of the band x0, y0, bw × bh at the raster positions i ≡ 0 (mod stride), taken row by row,
+ * sorted ascending into out (f64): the list wavelet-estimate's sortedSample gathers and sorts. The sort is a
+ * least-significant-digit radix sort of the magnitudes' bit patterns (a non-negative double's bits order as its
+ * value does, and a NaN's lie past +∞'s, last as a typed array's sort puts it), each pass a stable counting
+ * sort, so the result is the sorted list whatever the order of equal values. tmp takes as many f64 as out,
+ * hist DIGITS·2^DIGIT_BITS u32. Returns how many.
+ */
+export function sortedSample(
+  x: usize,
+  width: i32,
+  x0: i32,
+  y0: i32,
+  bw: i32,
+  bh: i32,
+  stride: i32,
+  out: usize,
+  tmp: usize,
+  hist: usize,
+): i32 {
+  const buckets = 1 << DIGIT_BITS;
+  memory.fill(hist, 0, <usize>(DIGITS * buckets) << 2);
+  let k = 0;
+  for (let y = 0; y < bh; y++) {
+    const row = <u32>(y0 + y) * <u32>width + <u32>x0;
+    const end = row + <u32>bw;
+    for (let i = row + ((<u32>stride - (row % <u32>stride)) % <u32>stride); i < end; i += <u32>stride) {
+      const v = load<u64>(x + (<usize>i << 3)) & 0x7fffffffffffffff;
+      store<u64>(out + (<usize>k << 3), v);
+      for (let d = 0; d < DIGITS; d++) {
+        const h = hist + ((<usize>(d * buckets) + <usize>((v >> <u64>(d * DIGIT_BITS)) & DIGIT_MASK)) << 2);
+        store<u32>(h, load<u32>(h) + 1);
+      }
+      k++;
+    }
+  }
+  let src = out;
+  let dst = tmp;
+  for (let d = 0; d < DIGITS; d++) {
+    const h = hist + (<usize>(d * buckets) << 2);
+    // Prefix sums into starting positions; a digit every value shares moves nothing.
+    let sum: u32 = 0;
+    let trivial = false;
+    for (let b = 0; b < buckets; b++) {
+      const c = load<u32>(h + (<usize>b << 2));
+      if (c == <u32>k) trivial = true;
+      store<u32>(h + (<usize>b << 2), sum);
+      sum += c;
+    }
+    if (trivial) continue;
+    const shift = <u64>(d * DIGIT_BITS);
+    for (let i = 0; i < k; i++) {
+      const v = load<u64>(src + (<usize>i << 3));
+      const at = h + (<usize>((v >> shift) & DIGIT_MASK) << 2);
+      const p = load<u32>(at);
+      store<u32>(at, p + 1);
+      store<u64>(dst + (<usize>p << 3), v);
+    }
+    const t = src;
+    src = dst;
+    dst = t;
+  }
+  if (src != out) memory.copy(out, src, <usize>k << 3);
+  return k;
 }
