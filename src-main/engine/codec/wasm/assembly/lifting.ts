@@ -342,20 +342,9 @@ function quantiseBands(
     let n2: f64 = 0;
     let s1: f64 = 0;
     let s2: f64 = 0;
-    const zeros = f64x2.splat(zero);
     for (let y = 0; y < bh; y++) {
       const row = <usize>(y0 + y) * <usize>width + <usize>x0;
       for (let i: usize = 0; i < <usize>bw; i++) {
-        // Most coefficients lie in the dead zone: a pair of them at once (|c| > zero is false for both, as
-        // below, NaN included) stores its two zeros; any other pair goes through the scalar steps one by one.
-        if ((i & 1) == 0 && i + 2 <= <usize>bw) {
-          const pair = f64x2.abs(v128.load(x + ((row + i) << 3)));
-          if (!v128.any_true(f64x2.gt(pair, zeros))) {
-            if (q != 0) store<i64>(q + ((row + i) << 2), 0);
-            i++;
-            continue;
-          }
-        }
         const c = load<f64>(x + ((row + i) << 3));
         const ac = abs<f64>(c);
         let v: i32 = 0;
@@ -504,23 +493,7 @@ export function compactNonZero(q: usize, flags: usize, n: i32, at: usize, v: usi
   for (let j = 0; j < chunks; j++) {
     if (load<u8>(flags + <usize>j) == 0) continue;
     const end = min<i32>(n, (j + 1) << CHUNK_BITS);
-    let i = j << CHUNK_BITS;
-    // Most q are 0 even in a flagged chunk: runs of 16 zeros are passed over four vectors at a time (the
-    // non-zeros found, and their order, are those of the scalar loop below).
-    for (; i + 16 <= end; i += 16) {
-      const p = q + (<usize>i << 2);
-      const any = v128.or(v128.or(v128.load(p), v128.load(p, 16)), v128.or(v128.load(p, 32), v128.load(p, 48)));
-      if (!v128.any_true(any)) continue;
-      for (let t = i; t < i + 16; t++) {
-        const x = load<i32>(q + (<usize>t << 2));
-        if (x != 0) {
-          store<i32>(at + (<usize>k << 2), t);
-          store<i32>(v + (<usize>k << 2), x);
-          k++;
-        }
-      }
-    }
-    for (; i < end; i++) {
+    for (let i = j << CHUNK_BITS; i < end; i++) {
       const x = load<i32>(q + (<usize>i << 2));
       if (x != 0) {
         store<i32>(at + (<usize>k << 2), i);
