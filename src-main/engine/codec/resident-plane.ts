@@ -355,6 +355,14 @@ export function handOutArena(x: Float64Array): PlaneArena | undefined {
   return handedOut.get(x);
 }
 
+/**
+ * Whether the arena's work region holds nothing anyone reads again (no result's q, no handed-out or lent
+ * region), so a kernel may use it as scratch until the next quantisation or rebuild writes it.
+ */
+export function workIdle(arena: PlaneArena): boolean {
+  return !qOwner.has(arena) && !workTaken.has(arena) && !arena.onLoan && !arena.isReleased;
+}
+
 /** Whether the arena's coder may run (its work region is not handed out). */
 export function workFree(arena: PlaneArena): boolean {
   return !workTaken.has(arena);

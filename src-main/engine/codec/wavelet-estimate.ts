@@ -4,6 +4,7 @@
  * per analysed plane. Re-exported by ./wavelet-plane.
  */
 import { bandSteps, DEAD_ZONE_RHO } from './band-steps';
+import { residentSample } from './resident-sample';
 import type { AnalysedPlane } from './wavelet-plane';
 
 /**
@@ -25,7 +26,14 @@ function sortedSample(a: AnalysedPlane): Float64Array[] {
   // The coefficients at i = 0, stride, 2·stride, … taken band by band (the bands tile the plane), each band's
   // list sorted: the same lists as one pass in index order, without a band map or growing arrays.
   const stride = strideOf(a);
-  const { width, coeffs: x } = a;
+  const { width } = a;
+  // A resident plane's lists come from its arena's kernel (the same lists: ./resident-sample).
+  const resident = residentSample(a, a.bands, width, stride);
+  if (resident) {
+    sampleCache.set(a, resident);
+    return resident;
+  }
+  const x = a.coeffs;
   const firstIn = (row: number) => row + ((stride - (row % stride)) % stride);
   const out = a.bands.map((b) => {
     let count = 0;

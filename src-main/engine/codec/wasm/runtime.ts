@@ -94,6 +94,22 @@ export interface LiftingExports {
     block: number,
     st: number,
   ): void;
+  /**
+   * The band x0, y0, w × h's magnitudes at the raster positions ≡ 0 (mod stride), sorted into out (f64; tmp as
+   * many, hist 6·2048 u32): the rate model's sample (../wavelet-estimate.ts). Returns how many.
+   */
+  sortedSample(
+    x: number,
+    width: number,
+    x0: number,
+    y0: number,
+    w: number,
+    h: number,
+    stride: number,
+    out: number,
+    tmp: number,
+    hist: number,
+  ): number;
 }
 
 const lifting = new LazyKernel<LiftingExports>(wasmBase64);

@@ -641,14 +641,23 @@ export function bandMax(x: usize, width: i32, nb: i32, geo: usize, out: usize): 
     const y0 = load<i32>(g, 4);
     const bw = load<i32>(g, 8);
     const bh = load<i32>(g, 12);
+    // Two lanes: pmax(t, c) is c > t ? c : t, the scalar step, and the largest of a set is the same in any order
+    // (magnitudes are never −0; a NaN is passed over either way).
+    let tops = f64x2.splat(0);
     let top: f64 = 0;
     for (let y = 0; y < bh; y++) {
       const row = <usize>(y0 + y) * <usize>width + <usize>x0;
-      for (let i: usize = 0; i < <usize>bw; i++) {
+      let i: usize = 0;
+      for (; i + 2 <= <usize>bw; i += 2) tops = f64x2.pmax(tops, f64x2.abs(v128.load(x + ((row + i) << 3))));
+      for (; i < <usize>bw; i++) {
         const c = abs<f64>(load<f64>(x + ((row + i) << 3)));
         if (c > top) top = c;
       }
     }
+    const t0 = f64x2.extract_lane(tops, 0);
+    const t1 = f64x2.extract_lane(tops, 1);
+    if (t0 > top) top = t0;
+    if (t1 > top) top = t1;
     store<f64>(out + (<usize>bi << 3), top);
   }
 }
@@ -726,4 +735,77 @@ export function greyFlatRows(x: usize, src: usize, out: usize, n: i32, base: f64
   store<f64>(st, sum, 16);
   store<f64>(st, <f64>inBlock, 24);
   store<f64>(st, differs, 32);
+}
+
+// ------------------------------------------------------------------ the rate model's sample (../../wavelet-estimate.ts)
+
+/** Bits per digit of the sample's radix sort, and its digits (64 bits in 6). */
+const DIGIT_BITS = 11;
+const DIGIT_MASK: u64 = (1 << DIGIT_BITS) - 1;
+const DIGITS = 6;
+
+/**
+ * The magnitudes |c| of the band x0, y0, bw × bh at the raster positions i ≡ 0 (mod stride), taken row by row,
+ * sorted ascending into out (f64): the list wavelet-estimate's sortedSample gathers and sorts. The sort is a
+ * least-significant-digit radix sort of the magnitudes' bit patterns (a non-negative double's bits order as its
+ * value does, and a NaN's lie past +∞'s, last as a typed array's sort puts it), each pass a stable counting
+ * sort, so the result is the sorted list whatever the order of equal values. tmp takes as many f64 as out,
+ * hist DIGITS·2^DIGIT_BITS u32. Returns how many.
+ */
+export function sortedSample(
+  x: usize,
+  width: i32,
+  x0: i32,
+  y0: i32,
+  bw: i32,
+  bh: i32,
+  stride: i32,
+  out: usize,
+  tmp: usize,
+  hist: usize,
+): i32 {
+  const buckets = 1 << DIGIT_BITS;
+  memory.fill(hist, 0, <usize>(DIGITS * buckets) << 2);
+  let k = 0;
+  for (let y = 0; y < bh; y++) {
+    const row = <u32>(y0 + y) * <u32>width + <u32>x0;
+    const end = row + <u32>bw;
+    for (let i = row + ((<u32>stride - (row % <u32>stride)) % <u32>stride); i < end; i += <u32>stride) {
+      const v = load<u64>(x + (<usize>i << 3)) & 0x7fffffffffffffff;
+      store<u64>(out + (<usize>k << 3), v);
+      for (let d = 0; d < DIGITS; d++) {
+        const h = hist + ((<usize>(d * buckets) + <usize>((v >> <u64>(d * DIGIT_BITS)) & DIGIT_MASK)) << 2);
+        store<u32>(h, load<u32>(h) + 1);
+      }
+      k++;
+    }
+  }
+  let src = out;
+  let dst = tmp;
+  for (let d = 0; d < DIGITS; d++) {
+    const h = hist + (<usize>(d * buckets) << 2);
+    // Prefix sums into starting positions; a digit every value shares moves nothing.
+    let sum: u32 = 0;
+    let trivial = false;
+    for (let b = 0; b < buckets; b++) {
+      const c = load<u32>(h + (<usize>b << 2));
+      if (c == <u32>k) trivial = true;
+      store<u32>(h + (<usize>b << 2), sum);
+      sum += c;
+    }
+    if (trivial) continue;
+    const shift = <u64>(d * DIGIT_BITS);
+    for (let i = 0; i < k; i++) {
+      const v = load<u64>(src + (<usize>i << 3));
+      const at = h + (<usize>((v >> shift) & DIGIT_MASK) << 2);
+      const p = load<u32>(at);
+      store<u32>(at, p + 1);
+      store<u64>(dst + (<usize>p << 3), v);
+    }
+    const t = src;
+    src = dst;
+    dst = t;
+  }
+  if (src != out) memory.copy(out, src, <usize>k << 3);
+  return k;
 }
