@@ -94,6 +94,8 @@ export function residentResult<T extends object>(arena: PlaneArena, fields: T): 
 function qValues(result: object, n: number): Int32Array {
   const known = denseQ.get(result);
   if (known) return known;
+  if (discarded.has(result))
+    throw new Error('internal: the quantised values of a discarded encode were read');
   const q = new Int32Array(n);
   const arena = resultArena.get(result);
   const sparse = sparseQ.get(result);
@@ -103,6 +105,26 @@ function qValues(result: object, n: number): Int32Array {
   denseQ.set(result, q);
   sparseQ.delete(result);
   return q;
+}
+
+/** Results whose quantised values their caller said it will not read again ({@link discardQ}). */
+const discarded = new WeakSet<object>();
+
+/**
+ * The caller will not read `result`'s quantised values again (a rate search's encode that is not kept, or
+ * whose values it would make again from the coefficients): when its arena's q region is next reused, they
+ * are dropped instead of kept as non-zeros (a pass over q and two fresh arrays). Reading them afterwards
+ * throws. No change (false) for a result whose q is an array already, or that is not resident.
+ */
+export function discardQ(result: object): boolean {
+  const arena = resultArena.get(result);
+  if (!arena || denseQ.has(result)) return false;
+  discarded.add(result);
+  resultArena.delete(result);
+  sparseQ.delete(result);
+  listedInPlace.delete(result);
+  if (qOwner.get(arena) === result) qOwner.delete(arena);
+  return true;
 }
 
 /** Before the arena's q region is overwritten: keep the non-zeros of the result it holds (unless it has its array). */

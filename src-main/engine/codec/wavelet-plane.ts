@@ -282,6 +282,20 @@ export function codeAnalysed(a: AnalysedPlane, step: number, coder: PlaneCoder =
 }
 
 /**
+ * {@link codeAnalysed}'s result `coded` at pixel-domain step `step`, made again from `a`'s coefficients after its
+ * quantised values were discarded (./resident-plane discardQ): the quantiser is a function of the coefficients
+ * and the steps, so q is the same, and the bytes and offsets are taken over without coding again. Recorded as
+ * the newest encode of those bytes (./coded-planes), so a decode of them reads this q.
+ */
+export function requantised(a: AnalysedPlane, coded: CodedCoefficients, step: number): CodedCoefficients {
+  const out = quantise(a, coded.steps) as CodedCoefficients;
+  out.bytes = coded.bytes;
+  if (coded.offsets) out.offsets = coded.offsets;
+  rememberCode({ bytes: out.bytes, width: a.width, height: a.height, step, coder: 2, coded: out });
+  return out;
+}
+
+/**
  * The plane exactly as the decoder rebuilds it from {@link codeAnalysed}'s coefficients. With `handOut`, a
  * resident plane's rebuild may be its arena's work region itself (no copy; ./resident-plane
  * reconstructResident): the caller gives it back with giveBackWork before the plane is used or released.

@@ -5,12 +5,14 @@
  * each candidate base and by ./residual-first for the residual-only file.
  */
 import type { QuantPlane } from '../codec/quantised';
+import { discardQ } from '../codec/resident-plane';
 import {
   type AnalysedPlane,
   type CodedCoefficients,
   codeAnalysed,
   codedSquaredError,
   estimateBits,
+  requantised,
   smallestSafeStep,
 } from '../codec/wavelet-plane';
 
@@ -115,11 +117,18 @@ export function fitResidual(
   // Never finer than 1/16 of a sample step (far finer than rounding to integers needs) nor than the coder's
   // range allows: a flat plane's rate model would otherwise pull the search to Δ → 0 (test/hostile/flat-scans).
   const safe = analysed.reduce((m, a, k) => Math.max(m, smallestSafeStep(a) / scales[k]), 1 / 16);
+  // A lazy fit reads q of the encode it keeps only, at the end: the encode before each one is discarded as it
+  // is quantised over (../codec/resident-plane discardQ: not listed as non-zeros, a pass and two fresh arrays on
+  // an 8-megapixel plane), and the kept one is quantised again when it is not the last ({@link keptCoded}).
+  let last: CodedCoefficients[] = [];
+  const dropped = new Set<CodedCoefficients>();
   const code = (step: number) => {
     cancel();
     const d = Math.max(step, safe);
     const steps = analysed.map((_, k) => tidy(d * scales[k]));
+    if (tol.lazy) for (const c of last) if (discardQ(c)) dropped.add(c);
     const coded = codePlanes(analysed, steps);
+    last = coded;
     const bytes = coded.map((c) => c.bytes);
     const size = bytes.reduce((s, b) => s + b.length, 0);
     const sse = tol.lazy ? Number.NaN : sseOf(coded);
@@ -180,9 +189,21 @@ export function fitResidual(
   }
   if (best) {
     best.codes = codes;
-    if (tol.lazy) best.sse = sseOf(best.coded);
+    if (tol.lazy) {
+      best.coded = keptCoded(analysed, best, dropped);
+      best.sse = sseOf(best.coded);
+    }
   }
   return { fit: best, ratio };
+}
+
+/** The kept encode's planes, each one whose q was discarded made again from the coefficients (same q, same bytes). */
+function keptCoded(
+  analysed: AnalysedPlane[],
+  best: Fitted,
+  dropped: Set<CodedCoefficients>,
+): CodedCoefficients[] {
+  return best.coded.map((c, k) => (dropped.has(c) ? requantised(analysed[k], c, best.steps[k]) : c));
 }
 
 function sizeOf(f: Fitted | undefined): number {
