@@ -12,9 +12,8 @@
  *    smooth illumination gives differences far below the significance threshold.
  * 2. Significant steps closer than GROUP_GAP px form one group: a band edge spread over a few pixels, a
  *    band edge that meets a thin feature (a ruled line, a fold crease), or a thin feature alone. A group's
- *    net step is measured between windows of WINDOW px on either side, so a thin feature inside cancels;
- *    where the positions beside the group share a slope (a steep gradient), what that slope adds between
- *    the windows is taken off first (slopeBeside).
+ *    net step is measured between windows of WINDOW px on either side, so a thin feature inside cancels
+ *    (less a slope the positions beside it share: band-group-step.ts slopeBeside).
  * 3. A group is a band edge when its net step is significant, at most MAX_STEP_8BIT grey levels, of the
  *    same sign and similar size in each quarter of the lines and in their densest half, and not spread more
  *    across lines than its surroundings (a content edge is rarely the same on every line). Opposite edges
@@ -45,6 +44,7 @@
  * The grouped step-sum construction, its guards, bridges and cuts are this project's (no source).
  */
 import { bridgeStep, chainProfile } from './band-bridge';
+import { groupStep, slopeBeside, WINDOW } from './band-group-step';
 import { type BandAxis, bandAxis, type Lines, type PositionStats } from './band-lines';
 import { removeMean, rms } from './band-stats';
 import {
@@ -55,10 +55,8 @@ import {
   robustStep,
   STEP_SE,
   standardError,
-  windowDifferences,
 } from './banding-wide-checks';
 import { medianInPlace } from './medians';
-import { MAD_TO_SIGMA } from './noise-estimate';
 
 /** The lines are split into this many parts (chosen here)… */
 const PARTS = 4;
@@ -94,16 +92,8 @@ const MIN_BAND_WIDTH = 24;
 const BORDER_SHARE = 0.03;
 /** Significant steps this close (px) form one group (chosen here; below the narrowest band of this pass). */
 const GROUP_GAP = 6;
-/** Pixels averaged on either side of a group for its net step (chosen here; at most GROUP_GAP). */
-const WINDOW = 4;
 /** Distance (px) from a group to the windows that give its local spread (chosen here: 2·GROUP_GAP). */
 const LOCAL_OFFSET = 12;
-/** Positions on either side of a group whose robust steps give the slope beside it (chosen here: LOCAL_OFFSET). */
-const SLOPE_REACH = 12;
-/** That slope is taken off only beyond this many of its standard errors from zero (chosen here: as STEP_SE). */
-const SLOPE_SE = 5;
-/** Standard error of a median over σ/√N for Gaussian data: √(π/2) (common practice). */
-const MEDIAN_SE_FACTOR = 1.2533;
 /** Positions sampled for the typical spread of a window step across lines (chosen here). */
 const TYPICAL_SAMPLES = 128;
 /** At least this share of the lines must give unclipped pixels at a position for a step there (chosen here). */
@@ -267,13 +257,9 @@ function chained(
   const noiseFloor = Math.sqrt(links.reduce((t, e) => t + e.se * e.se, 0));
   const strength = rms(profile);
   const made = { steps: edges.length, noiseFloor, links: links.length };
-  // An uncut chain has no cut to excuse it from the level check: its steps must at least take away
-  // variation from the direct levels (the clean top-left 256-px crop of scikit-image's rocket.jpg gave an
-  // uncut chain of four row links of 0.8–1.0 grey levels whose variation the levels hold a third of, and it
-  // was removed). Only the variation half, and at a lower share: on a busy image the levels follow the
-  // content (camera.png and text.png, bench seeds 1–2: true bands, 95–99 % removed, which the full check
-  // rejected). A chain on the paper is left to its strength tests, as before: the whole lines' levels follow
-  // the text there (step 6; page.png's columns, seed 1: a true band edge whose variation they hold a third of).
+  // An uncut chain has no cut to excuse it from the level check: its variation half, at a lower share, on
+  // the whole lines (banding-wide-checks.ts MIN_TV_EXPLAINED_UNCUT: a clean rocket.jpg crop's invented chain
+  // failed it; on the paper the whole lines' levels follow the text, step 6, and the chain is left as before).
   const detected =
     edges.length >= (background ? 1 : MIN_STEPS) &&
     strength >= Math.max((MIN_CHAIN_STRENGTH_8BIT * maxValue) / 255, 3 * noiseFloor) &&
@@ -286,42 +272,6 @@ function chained(
     if (explains(uncut)) return { ...made, detected, profile: uncut, strength: rms(uncut), whole: true };
   }
   return { ...made, detected, profile, strength, whole: detected && !kept.length && explains(profile) };
-}
-
-/**
- * The net step across a … b on the lines [from, to) (robustStep), and the per-line window steps `perLine`,
- * each less `tilt` (the slope beside the group over the distance between the windows: slopeBeside).
- */
-function groupStep(
-  lines: Lines,
-  a: number,
-  b: number,
-  from: number,
-  to: number,
-  scratch: Float64Array,
-  tilt = 0,
-) {
-  const perLine = windowDifferences(lines.levels, lines.lineLen, WINDOW, a, b, from, to);
-  if (tilt !== 0) for (let k = 0; k < perLine.length; k++) perLine[k] -= tilt;
-  return { ...robustStep(perLine, 0, to - from, scratch), perLine };
-}
-
-/**
- * The slope the positions beside the group a … b share (the median of the robust steps `step` of the
- * SLOPE_REACH positions on either side), times the distance between the centres of the group's two windows:
- * what a smooth gradient alone adds to its net step. 0 unless that median lies beyond SLOPE_SE of its
- * standard errors from zero (from the neighbours' own scatter), so where the image is flat beside the
- * group, its step is read as before.
- */
-function slopeBeside(step: Float64Array, a: number, b: number, scratch: Float64Array): number {
-  let m = 0;
-  for (let x = Math.max(0, a - SLOPE_REACH); x < a; x++) scratch[m++] = step[x];
-  for (let x = b + 1; x <= Math.min(step.length - 1, b + SLOPE_REACH); x++) scratch[m++] = step[x];
-  if (m < SLOPE_REACH) return 0;
-  const slope = medianInPlace(scratch, m);
-  for (let i = 0; i < m; i++) scratch[i] = Math.abs(scratch[i] - slope);
-  const sd = medianInPlace(scratch, m) / MAD_TO_SIGMA;
-  return Math.abs(slope) > (SLOPE_SE * MEDIAN_SE_FACTOR * sd) / Math.sqrt(m) ? slope * (b - a + WINDOW) : 0;
 }
 
 /**
@@ -403,9 +353,7 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
     const first = a;
     a = b;
     if (first < border || b >= n - border) continue;
-    // A smooth gradient the whole image shares reads as a step across any group; its slope beside the
-    // group is taken off first (scikit-image's color.png, grey, noise σ 3: a slope of ~0.7 grey levels per
-    // pixel made single noisy positions groups of ~2.8 and a bridge of −6.5, and the scan 1.2 dB worse).
+    // A shared gradient reads as a step across any group (color.png, σ 3: −1.2 dB): its slope is taken off.
     const tilt = slopeBeside(step, first, b, col);
     const all = windowStep(first, b, from, to, tilt);
     const se = standardError(all);
