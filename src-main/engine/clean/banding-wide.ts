@@ -257,9 +257,8 @@ function chained(
   const noiseFloor = Math.sqrt(links.reduce((t, e) => t + e.se * e.se, 0));
   const strength = rms(profile);
   const made = { steps: edges.length, noiseFloor, links: links.length };
-  // An uncut chain has no cut to excuse it from the level check: its variation half, at a lower share, on
-  // the whole lines (banding-wide-checks.ts MIN_TV_EXPLAINED_UNCUT: a clean rocket.jpg crop's invented chain
-  // failed it; on the paper the whole lines' levels follow the text, step 6, and the chain is left as before).
+  // An uncut chain, no cut to excuse it: the level check's variation half on the whole lines (banding-wide-
+  // checks.ts MIN_TV_EXPLAINED_UNCUT); on the paper the whole lines' levels follow the text (step 6).
   const detected =
     edges.length >= (background ? 1 : MIN_STEPS) &&
     strength >= Math.max((MIN_CHAIN_STRENGTH_8BIT * maxValue) / 255, 3 * noiseFloor) &&
