@@ -12,15 +12,17 @@
  *    smooth illumination gives differences far below the significance threshold.
  * 2. Significant steps closer than GROUP_GAP px form one group: a band edge spread over a few pixels, a
  *    band edge that meets a thin feature (a ruled line, a fold crease), or a thin feature alone. A group's
- *    net step is measured between windows of WINDOW px on either side, so a thin feature inside cancels.
+ *    net step is measured between windows of WINDOW px on either side, so a thin feature inside cancels
+ *    (less a slope the positions beside it share: band-group-step.ts slopeBeside).
  * 3. A group is a band edge when its net step is significant, at most MAX_STEP_8BIT grey levels, of the
  *    same sign and similar size in each quarter of the lines and in their densest half, and not spread more
  *    across lines than its surroundings (a content edge is rarely the same on every line). Opposite edges
  *    closer than MIN_BAND_WIDTH are a thin feature, not a band. The running sum of the edges is the profile.
  * 4. Guards (a missed or invented edge offsets a whole stretch and makes an image worse): the profile must
  *    explain the direct per-position levels and reach the lines' detection threshold (banding-wide-checks.ts;
- *    chains too); each half of the lines is analysed alone: an edge one half finds and the whole missed
- *    (content on the other half hid it) is added when the other half shows a step of that sign and size.
+ *    chains too; an uncut chain at least its variation half); each half of the lines is analysed alone: an
+ *    edge one half finds and the whole missed (content on the other half hid it) is added when the other
+ *    half shows a step of that sign and size.
  * 5. When these guards reject the profile, it is rebuilt as a chain (`chained`): edges must agree in each
  *    of CHAIN_PARTS slices of the lines, within their noise (partAgrees, lenient); a significant group that
  *    fails (content, which may hide a band edge) is bridged by the step most lines agree on, or cuts the
@@ -42,6 +44,7 @@
  * The grouped step-sum construction, its guards, bridges and cuts are this project's (no source).
  */
 import { bridgeStep, chainProfile } from './band-bridge';
+import { groupStep, slopeBeside, WINDOW } from './band-group-step';
 import { type BandAxis, bandAxis, type Lines, type PositionStats } from './band-lines';
 import { removeMean, rms } from './band-stats';
 import {
@@ -52,7 +55,6 @@ import {
   robustStep,
   STEP_SE,
   standardError,
-  windowDifferences,
 } from './banding-wide-checks';
 import { medianInPlace } from './medians';
 
@@ -90,8 +92,6 @@ const MIN_BAND_WIDTH = 24;
 const BORDER_SHARE = 0.03;
 /** Significant steps this close (px) form one group (chosen here; below the narrowest band of this pass). */
 const GROUP_GAP = 6;
-/** Pixels averaged on either side of a group for its net step (chosen here; at most GROUP_GAP). */
-const WINDOW = 4;
 /** Distance (px) from a group to the windows that give its local spread (chosen here: 2·GROUP_GAP). */
 const LOCAL_OFFSET = 12;
 /** Positions sampled for the typical spread of a window step across lines (chosen here). */
@@ -128,6 +128,8 @@ interface Edge {
   b: number;
   step: number;
   se: number;
+  /** The slope beside the group times the distance between its windows' centres (slopeBeside), taken off each line's window step. */
+  tilt: number;
 }
 
 /**
@@ -152,9 +154,9 @@ export function wideBandProfile(
 ): WideBands {
   const { lineLen, nLines } = shared;
   const lines = shared.lines(background, background ? MIN_VALID_SHARE_PAPER : MIN_VALID_SHARE);
-  const explains = (s: Float64Array) =>
-    explainsLevels(shared.levels(), s) ||
-    (background && paperLevels && explainsLevels(shared.levels(true), s));
+  const explains = (s: Float64Array, variationOnly = false) =>
+    explainsLevels(shared.levels(), s, variationOnly) ||
+    (background && paperLevels && explainsLevels(shared.levels(true), s, variationOnly));
   if (chain) return chained(shared, lines, background, explains);
   const whole = edgeProfile(lines, 0, nLines, false);
   const { profile } = whole;
@@ -177,11 +179,11 @@ export function wideBandProfile(
     if (!detected) break;
     for (const e of edgeProfile(lines, from, to, false).edges) {
       if ([...whole.edges, ...added].some((w) => Math.abs(w.at - e.at) <= GROUP_GAP)) continue;
-      if (!partAgrees(groupStep(lines, e.a, e.b, o0, o1, col), e.step, false)) {
+      if (!partAgrees(groupStep(lines, e.a, e.b, o0, o1, col, e.tilt), e.step, false)) {
         detected = false;
         break;
       }
-      const all = groupStep(lines, e.a, e.b, 0, nLines, col);
+      const all = groupStep(lines, e.a, e.b, 0, nLines, col, e.tilt);
       added.push({ ...e, step: all.step, se: standardError(all) });
     }
   }
@@ -220,7 +222,7 @@ function chained(
   shared: BandAxis,
   lines: Lines,
   background: boolean,
-  explains: (s: Float64Array) => boolean,
+  explains: (s: Float64Array, variationOnly?: boolean) => boolean,
 ): WideBands & { links: number; whole: boolean } {
   const { lineLen, nLines, maxValue } = lines;
   const whole = edgeProfile(lines, 0, nLines, true);
@@ -242,11 +244,11 @@ function chained(
   ])
     for (const e of edgeProfile(lines, from, to, true).edges) {
       if (links.some((w) => e.b >= w.a - GROUP_GAP && e.a <= w.b + GROUP_GAP)) continue;
-      if (!partAgrees(groupStep(lines, e.a, e.b, o0, o1, col), e.step, true)) {
+      if (!partAgrees(groupStep(lines, e.a, e.b, o0, o1, col, e.tilt), e.step, true)) {
         cuts.push(e.at);
         continue;
       }
-      const added = { ...e, step: groupStep(lines, e.a, e.b, 0, nLines, col).step };
+      const added = { ...e, step: groupStep(lines, e.a, e.b, 0, nLines, col, e.tilt).step };
       edges.push(added);
       links.push(added);
     }
@@ -255,10 +257,13 @@ function chained(
   const noiseFloor = Math.sqrt(links.reduce((t, e) => t + e.se * e.se, 0));
   const strength = rms(profile);
   const made = { steps: edges.length, noiseFloor, links: links.length };
+  // An uncut chain, no cut to excuse it: the level check's variation half on the whole lines (banding-wide-
+  // checks.ts MIN_TV_EXPLAINED_UNCUT); on the paper the whole lines' levels follow the text (step 6).
   const detected =
     edges.length >= (background ? 1 : MIN_STEPS) &&
     strength >= Math.max((MIN_CHAIN_STRENGTH_8BIT * maxValue) / 255, 3 * noiseFloor) &&
-    strength >= detectionThreshold(whole.typicalSpread, nLines);
+    strength >= detectionThreshold(whole.typicalSpread, nLines) &&
+    (kept.length > 0 || background || explains(profile, true));
   // A cut leaves each stretch's offset against the others in place; where content, not a hidden band edge,
   // caused it, the uncut chain is right. It is kept when it passes the plain step sum's level check.
   if (detected && kept.length) {
@@ -266,12 +271,6 @@ function chained(
     if (explains(uncut)) return { ...made, detected, profile: uncut, strength: rms(uncut), whole: true };
   }
   return { ...made, detected, profile, strength, whole: detected && !kept.length && explains(profile) };
-}
-
-/** The net step across a … b on the lines [from, to) (robustStep), and the per-line window steps `perLine`. */
-function groupStep(lines: Lines, a: number, b: number, from: number, to: number, scratch: Float64Array) {
-  const perLine = windowDifferences(lines.levels, lines.lineLen, WINDOW, a, b, from, to);
-  return { ...robustStep(perLine, 0, to - from, scratch), perLine };
 }
 
 /**
@@ -313,7 +312,8 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
   const count = to - from;
   const col = new Float64Array(count);
   const n = Math.max(0, lineLen - 1);
-  const windowStep = (a: number, b: number, k0: number, k1: number) => groupStep(lines, a, b, k0, k1, col);
+  const windowStep = (a: number, b: number, k0: number, k1: number, tilt = 0) =>
+    groupStep(lines, a, b, k0, k1, col, tilt);
   const { step, significant, typicalSpread } = positionStats(lines, from, to);
   // The spread beside a group (windows LOCAL_OFFSET px before and after it): in texture, content edges and
   // band edges alike come with a larger spread than the image's typical one.
@@ -327,10 +327,10 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
   // Steps next to the ends of the line are a plate rebate, a scan-bed edge or a page margin: content.
   const border = Math.max(MIN_BAND_WIDTH, Math.round(BORDER_SHARE * lineLen));
   const parts = chain ? CHAIN_PARTS : PARTS;
-  const slicesAgree = (a: number, b: number, s: number) => {
+  const slicesAgree = (a: number, b: number, s: number, tilt: number) => {
     for (let q = 0; q < parts; q++) {
       const k0 = from + Math.floor((q * count) / parts);
-      const part = windowStep(a, b, k0, from + Math.floor(((q + 1) * count) / parts));
+      const part = windowStep(a, b, k0, from + Math.floor(((q + 1) * count) / parts), tilt);
       if (!partAgrees(part, s, chain)) return false;
     }
     return true;
@@ -352,27 +352,29 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
     const first = a;
     a = b;
     if (first < border || b >= n - border) continue;
-    const all = windowStep(first, b, from, to);
+    // A shared gradient reads as a step across any group (color.png, σ 3: −1.2 dB): its slope is taken off.
+    const tilt = slopeBeside(step, first, b, col);
+    const all = windowStep(first, b, from, to, tilt);
     const se = standardError(all);
     if (
       all.count >= lines.minValid * count &&
       Math.abs(all.step) > STEP_SE * se &&
       Math.abs(all.step) <= maxStep &&
       all.spread <= MAX_STEP_SPREAD * Math.max(typicalSpread, localSpread(first, b)) &&
-      slicesAgree(first, b, all.step) &&
+      slicesAgree(first, b, all.step, tilt) &&
       densestAgrees(all.perLine, all.step, col)
     ) {
-      edges.push({ at: largest(first, b, all.step), a: first, b, step: all.step, se });
+      edges.push({ at: largest(first, b, all.step), a: first, b, step: all.step, se, tilt });
       continue;
     }
     if (!chain) continue;
     // Step 5 of the header: bridge the content, or cut the chain.
     let bridged = bridgeStep(all.perLine, typicalSpread, maxStep, ZERO_FLOOR_SD * typicalSpread);
-    if (bridged !== null && bridged !== 0 && !slicesAgree(first, b, bridged)) bridged = null;
+    if (bridged !== null && bridged !== 0 && !slicesAgree(first, b, bridged, tilt)) bridged = null;
     const at = largest(first, b, bridged ?? 0);
     if (bridged === null) cuts.push(at);
     else if (bridged !== 0)
-      bridges.push({ at, a: first, b, step: bridged, se: typicalSpread / Math.sqrt(count) });
+      bridges.push({ at, a: first, b, step: bridged, se: typicalSpread / Math.sqrt(count), tilt });
   }
   // A band has a width: kept edges of opposite sign closer than MIN_BAND_WIDTH px are a thin feature (a
   // narrow stripe is the narrow pass's job; a ruled line or grid line is content) and are dropped.
