@@ -14,6 +14,7 @@ import {
   MIN_PERIOD_SHARE,
   type StripeProfile,
 } from './band-profile';
+import { ruledSpikes } from './band-rules';
 import { dominantPeriod, removeMean, rms } from './band-stats';
 import { type WideBands, wideBandProfile } from './banding-wide';
 import { addsVariation } from './banding-wide-checks';
@@ -27,9 +28,10 @@ type BandingDirection = 'none' | 'rows' | 'columns' | 'both';
 /** In automatic mode, profile values beyond this many robust strengths are content, not banding. Fitted on: as SIGNIFICANCE (band-profile.ts). */
 const SPIKE_FACTOR = 5;
 /**
- * A spike carried by at least this share of the lines is a sensor defect and is removed whole; one carried
- * by fewer is content (chosen here: a ruled line or a map's grid stops at the margins, which are more than
- * 3 % of a page; a hot column with an offset of several noise levels is carried by nearly every line).
+ * A spike carried by fewer than this share of the lines is content (chosen here: a ruled line or a map's
+ * grid stops at the margins, which are more than 3 % of a page; a hot column with an offset of several noise
+ * levels is carried by nearly every line). One carried by more is a sensor defect, removed whole, unless
+ * band-rules.ts finds it is a printed line crossing a crop cut inside the margins.
  */
 const FULL_SPAN = 0.97;
 /**
@@ -37,6 +39,12 @@ const FULL_SPAN = 0.97;
  * reaches 1.35 robust strengths and Gaussian stripes pass 2 in 5 % of positions).
  */
 const SHOULDER_FACTOR = 2;
+/**
+ * The largest offset banding gives one position, in robust strengths (plus the noise floor): a printed
+ * line's fitted offset at black must exceed it (band-rules.ts). Chosen here: 3, which Gaussian stripes
+ * pass at 0.27 % of positions.
+ */
+const BANDING_REACH = 3;
 /** Band edges a wide profile measured on the background needs away from text pages (as banding-wide.ts MIN_STEPS)… */
 const MIN_WIDE_STEPS = 2;
 /**
@@ -86,7 +94,7 @@ export function analyseBanding(
   };
   let columns = profileOf(plane, width, height, 'columns', options, keep);
   let removeColumns = mode === 'auto' ? columns.detected : mode === 'columns' || mode === 'both';
-  if (mode === 'auto') clipSpikes(columns);
+  if (mode === 'auto') clipSpikes(columns, kept.r, options.maxValue);
   const firstColumns =
     mode === 'auto' && removeColumns && wideFirst(plane, width, height, columns, options, kept.r);
   if (firstColumns) columns = firstColumns;
@@ -109,7 +117,7 @@ export function analyseBanding(
     }
   kept.r = null;
   let rows = profileOf(base, width, height, 'rows', options, keep);
-  if (mode === 'auto') clipSpikes(rows);
+  if (mode === 'auto') clipSpikes(rows, kept.r, options.maxValue);
   let removeRows = mode === 'auto' ? rows.detected : mode === 'rows' || mode === 'both';
   const firstRows = mode === 'auto' && removeRows && wideFirst(base, width, height, rows, options, kept.r);
   if (firstRows) rows = firstRows;
@@ -259,13 +267,15 @@ function largeStep(profile: Float64Array, maxValue: number): boolean {
 
 /**
  * In automatic mode, positions where the profile exceeds SPIKE_FACTOR × its robust strength (plus the
- * noise floor) are checked: an offset carried by nearly every line (FULL_SPAN) is a sensor defect (a hot or
- * dead column) and is removed whole; otherwise it is content that crosses most but not all lines (a ruled
- * line, a grid line, the wells of a gel) and keeps its offset: the subtracted profile there is interpolated
- * linearly from the nearest positions that are not spikes, i.e. only the banding around it is removed.
- * `clipped` counts these. Forced modes (--banding rows|columns|both) subtract all.
+ * noise floor) and that fewer than FULL_SPAN of the lines carry are content that crosses most but not all
+ * lines (a ruled line, a grid line, the wells of a gel). An offset that every line carries is a printed line
+ * when it fades where the level under it nears its ink (band-rules.ts; a crop cut inside the margins shows
+ * its rules across every line), else a sensor defect (a hot or dead column), removed whole; faint lines
+ * below the spike limit are told apart the same way. Content keeps its offset: the subtracted profile there
+ * is interpolated linearly from the nearest positions that are not content, i.e. only the banding around it
+ * is removed. `clipped` counts these. Forced modes (--banding rows|columns|both) subtract all.
  */
-function clipSpikes(p: StripeProfile) {
+function clipSpikes(p: StripeProfile, lines: LineResiduals | null, maxValue: number) {
   const limit = SPIKE_FACTOR * p.robustStrength + p.noiseFloor;
   // The spikes are found on the tested profile (the one the limits were chosen on) and clipped in both.
   const t = p.tested;
@@ -278,9 +288,22 @@ function clipSpikes(p: StripeProfile) {
       content[i] = 1;
       n++;
     }
+  // Printed lines that cross every line, and faint ones below the spike limit, are content too: the
+  // offsets beyond the shoulder level not yet taken for content are checked by how they depend on the
+  // level under them (band-rules.ts).
+  const shoulder = SHOULDER_FACTOR * p.robustStrength + p.noiseFloor;
+  if (lines && p.detected) {
+    const candidates = t.map((v, i) => (!content[i] && Math.abs(v - centre) > shoulder ? 1 : 0));
+    const reach = BANDING_REACH * p.robustStrength + p.noiseFloor;
+    const rule = ruledSpikes(t, centre, Uint8Array.from(candidates), lines, { reach, limit }, maxValue);
+    for (let i = 0; i < L; i++)
+      if (rule[i]) {
+        content[i] = 1;
+        n++;
+      }
+  }
   // A content feature fades in over a few positions (a gel well, a blurred rule): its shoulders below the
   // spike limit belong to it, so the run grows while the offset stays above SHOULDER_FACTOR robust strengths.
-  const shoulder = SHOULDER_FACTOR * p.robustStrength + p.noiseFloor;
   for (let pass = 0; pass < 2; pass++)
     for (let k = 0; k < L; k++) {
       const i = pass ? L - 1 - k : k;
