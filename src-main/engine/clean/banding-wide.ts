@@ -44,7 +44,7 @@
  * The grouped step-sum construction, its guards, bridges and cuts are this project's (no source).
  */
 import { bridgeStep, chainProfile } from './band-bridge';
-import { groupStep, slopeBeside, WINDOW } from './band-group-step';
+import { groupStep, MIN_BORDER, slopeBeside, WINDOW } from './band-group-step';
 import { type BandAxis, bandAxis, type Lines, type PositionStats } from './band-lines';
 import { removeMean, rms } from './band-stats';
 import {
@@ -88,19 +88,8 @@ const MIN_STRENGTH_8BIT = 0.3;
 const MIN_STEPS = 2;
 /** Bands narrower than this are the narrow pass's (its window is 65 px; chosen here). */
 const MIN_BAND_WIDTH = 24;
-/** Steps closer to either end of the line than this share of it (or MIN_BORDER) are ignored (chosen here)… */
+/** Steps closer to either end of the line than this share of it (or MIN_BORDER px) are ignored (chosen here). */
 const BORDER_SHARE = 0.03;
-/**
- * …and than this many px on short lines (chosen here: twice the group's window, band-group-step.ts WINDOW, so
- * both windows and the slope beside a group still fit). It was MIN_BAND_WIDTH (24), but a line's last band is
- * cut short by the image's end, so an edge there is as likely as anywhere: the benchmark's row bands on
- * page.png (191 rows, an edge of 15.6 at row 177) and text.png (172 rows, seed 8: 12.4 at row 152) and the
- * column bands of scikit-image's 102-px microaneurysms.png (8 of 8 seeds) were left in place or half removed.
- * With 8, measured on 16 unseen scikit-image images × 2 axes × seeds 1–8: 101 → 110 of 256 cases ≥ 80 %
- * removed, made worse 11 → 11; their clean check set (696 cases) changed the same 8 as before. The edge's
- * other checks (slices, densest half, level check) apply near the ends as everywhere.
- */
-const MIN_BORDER = 8;
 /** Significant steps this close (px) form one group (chosen here; below the narrowest band of this pass). */
 const GROUP_GAP = 6;
 /** Distance (px) from a group to the windows that give its local spread (chosen here: 2·GROUP_GAP). */
