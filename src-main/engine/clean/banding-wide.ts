@@ -44,7 +44,7 @@
  * The grouped step-sum construction, its guards, bridges and cuts are this project's (no source).
  */
 import { bridgeStep, chainProfile } from './band-bridge';
-import { groupStep, slopeBeside, WINDOW } from './band-group-step';
+import { groupStep, MIN_BORDER, slopeBeside, WINDOW } from './band-group-step';
 import { type BandAxis, bandAxis, type Lines, type PositionStats } from './band-lines';
 import { removeMean, rms } from './band-stats';
 import {
@@ -88,7 +88,7 @@ const MIN_STRENGTH_8BIT = 0.3;
 const MIN_STEPS = 2;
 /** Bands narrower than this are the narrow pass's (its window is 65 px; chosen here). */
 const MIN_BAND_WIDTH = 24;
-/** Steps closer to either end of the line than this share of it (or MIN_BAND_WIDTH) are ignored (chosen here). */
+/** Steps closer to either end of the line than this share of it (or MIN_BORDER px) are ignored (chosen here). */
 const BORDER_SHARE = 0.03;
 /** Significant steps this close (px) form one group (chosen here; below the narrowest band of this pass). */
 const GROUP_GAP = 6;
@@ -325,7 +325,7 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
   };
   const maxStep = (MAX_STEP_8BIT * lines.maxValue) / 255;
   // Steps next to the ends of the line are a plate rebate, a scan-bed edge or a page margin: content.
-  const border = Math.max(MIN_BAND_WIDTH, Math.round(BORDER_SHARE * lineLen));
+  const border = Math.max(MIN_BORDER, Math.round(BORDER_SHARE * lineLen));
   const parts = chain ? CHAIN_PARTS : PARTS;
   const slicesAgree = (a: number, b: number, s: number, tilt: number) => {
     for (let q = 0; q < parts; q++) {
