@@ -33,6 +33,7 @@ import { decodeSamples } from '../image/raw-decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import { prepareFactorPath } from '../parallel/factor-path';
 import { SideThread } from '../parallel/side-thread';
+import { arenasAhead } from './arenas-ahead';
 import { compareCodecs } from './codec-comparison';
 import { ProgressSpans } from './progress-spans';
 
@@ -217,7 +218,25 @@ async function compressWhole(
   t0: number,
   probe: ProbeResult,
 ): Promise<CompressReport & WithWarnings> {
-  // The planes' pages are touched on a pool thread while sharp decodes only when this scan has a second core.
+  // With a second core, the planes' pages are touched on a pool thread while sharp decodes, and the whole
+  // planes' arenas made now have theirs touched on the side thread (./arenas-ahead).
+  const layers = options.layers ?? DEFAULT_LAYERS;
+  const dropAhead = arenasAhead(probe, { ...options, layers }, hooks.side);
+  try {
+    return await compressWholeDecoding(input, output, options, hooks, t0, probe);
+  } finally {
+    dropAhead();
+  }
+}
+
+async function compressWholeDecoding(
+  input: string,
+  output: string,
+  options: CompressOptions,
+  hooks: CompressHooks & CompressInternals,
+  t0: number,
+  probe: ProbeResult,
+): Promise<CompressReport & WithWarnings> {
   const decoded = await decodeImage(input, {
     page: options.page,
     pixelLimit: options.pixelLimit,
