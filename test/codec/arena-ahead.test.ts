@@ -131,4 +131,25 @@ describe('a touch from the last page down on the side thread', () => {
     expect(stopped()).toBeGreaterThan(from);
     expect(digest(words)).toBe(before);
   });
+
+  it('runs what was set with beforeNextJob once, before the next job only', () => {
+    const thread = sideThread();
+    const calls: string[] = [];
+    const job = () =>
+      thread.run('arena-pass', {
+        memory: new WebAssembly.Memory({ initial: 2, maximum: 65536, shared: true }),
+        id: 0,
+        op: 'touch',
+        inverse: false,
+        a: [65536, 2 * 65536],
+        scratch: [],
+        stop: new Int32Array(new SharedArrayBuffer(4)),
+      });
+    thread.beforeNextJob(() => calls.push('before'));
+    const first = job();
+    calls.push('posted');
+    first();
+    job()();
+    expect(calls).toEqual(['before', 'posted']);
+  });
 });

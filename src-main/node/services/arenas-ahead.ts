@@ -42,10 +42,16 @@ export function arenasAhead(
         stop,
       }),
     );
-    return () => {
+    let ended = false;
+    const end = () => {
+      if (ended) return;
+      ended = true;
       Atomics.store(stop, 0, 1);
       for (const join of joins) join();
     };
+    // Under a quality floor the encoder needs its first job (the crop's) right after the load: it goes first.
+    if (options.budget.kind === 'psnr') side.beforeNextJob(end);
+    return end;
   };
   prepareArenas(width, height, isColourScan(probe.meta) ? 3 : 1, touch);
   return dropPreparedArenas;
