@@ -204,7 +204,18 @@ export async function compressFile(
       await side?.close();
       return await compressTiled(input, output, options, hooks, t0);
     }
-    return await compressWhole(input, output, options, side ? { ...hooks, side } : hooks, t0, probe);
+    const whole = side ? { ...hooks, side } : hooks;
+    // With a second core, the whole planes' arenas are made now and touched on it meanwhile (./arenas-ahead).
+    const dropAhead = arenasAhead(
+      probe,
+      { ...options, layers: options.layers ?? DEFAULT_LAYERS },
+      whole.side,
+    );
+    try {
+      return await compressWhole(input, output, options, whole, t0, probe);
+    } finally {
+      dropAhead();
+    }
   } finally {
     await side?.close();
   }
@@ -218,25 +229,7 @@ async function compressWhole(
   t0: number,
   probe: ProbeResult,
 ): Promise<CompressReport & WithWarnings> {
-  // With a second core, the planes' pages are touched on a pool thread while sharp decodes, and the whole
-  // planes' arenas made now have theirs touched on the side thread (./arenas-ahead).
-  const layers = options.layers ?? DEFAULT_LAYERS;
-  const dropAhead = arenasAhead(probe, { ...options, layers }, hooks.side);
-  try {
-    return await compressWholeDecoding(input, output, options, hooks, t0, probe);
-  } finally {
-    dropAhead();
-  }
-}
-
-async function compressWholeDecoding(
-  input: string,
-  output: string,
-  options: CompressOptions,
-  hooks: CompressHooks & CompressInternals,
-  t0: number,
-  probe: ProbeResult,
-): Promise<CompressReport & WithWarnings> {
+  // The planes' pages are touched on a pool thread while sharp decodes only when this scan has a second core.
   const decoded = await decodeImage(input, {
     page: options.page,
     pixelLimit: options.pixelLimit,
