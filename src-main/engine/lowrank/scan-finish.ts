@@ -140,7 +140,26 @@ function measureDecoded(
   return { psnr, sse, ssim, lossless, decoded };
 }
 
-/** The residual-only shortcut of ./residual-first, where it applies: large scans, two layers allowed. */
+/**
+ * Whether the encode of a width×height scan tries the residual-only shortcut ({@link residualFirstFor}): large
+ * scans, two layers allowed, a byte budget or a PSNR floor. Such an encode first analyses its whole planes in
+ * arenas of their size (../../node/services/arenas-ahead.ts makes those ahead).
+ */
+export function residualFirstApplies(
+  width: number,
+  height: number,
+  opts: Pick<EncodeOptions, 'layers' | 'budget'>,
+): boolean {
+  const kind = opts.budget.kind;
+  return (
+    opts.layers === 'auto' &&
+    width * height > AUTO_PROBE_PIXELS * 1.5 &&
+    width * height <= RESIDUAL_MAX_PIXELS &&
+    (kind === 'bytes' || kind === 'bpp' || kind === 'percent' || kind === 'psnr')
+  );
+}
+
+/** The residual-only shortcut of ./residual-first, where it applies ({@link residualFirstApplies}). */
 export function residualFirstFor(
   img: DecodedImage,
   opts: EncodeOptions,
@@ -151,14 +170,8 @@ export function residualFirstFor(
   cancel: () => void,
 ) {
   const { width, height } = img;
+  if (!residualFirstApplies(width, height, opts)) return undefined;
   const kind = opts.budget.kind;
-  if (
-    opts.layers !== 'auto' ||
-    width * height <= AUTO_PROBE_PIXELS * 1.5 ||
-    width * height > RESIDUAL_MAX_PIXELS
-  )
-    return undefined;
-  if (!(kind === 'bytes' || kind === 'bpp' || kind === 'percent' || kind === 'psnr')) return undefined;
   // The last file checked under a quality floor and its decoding, so the report does not decode it again.
   let last: { bytes: Uint8Array; decoded: DecodedRkf } | undefined;
   // With a second thread, each file built for a byte budget has its residual check started at once.

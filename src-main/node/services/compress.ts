@@ -33,6 +33,7 @@ import { decodeSamples } from '../image/raw-decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import { prepareFactorPath } from '../parallel/factor-path';
 import { SideThread } from '../parallel/side-thread';
+import { arenasAhead } from './arenas-ahead';
 import { compareCodecs } from './codec-comparison';
 import { ProgressSpans } from './progress-spans';
 
@@ -203,7 +204,18 @@ export async function compressFile(
       await side?.close();
       return await compressTiled(input, output, options, hooks, t0);
     }
-    return await compressWhole(input, output, options, side ? { ...hooks, side } : hooks, t0, probe);
+    const whole = side ? { ...hooks, side } : hooks;
+    // With a second core, the whole planes' arenas are made now and touched on it meanwhile (./arenas-ahead).
+    const dropAhead = arenasAhead(
+      probe,
+      { ...options, layers: options.layers ?? DEFAULT_LAYERS },
+      whole.side,
+    );
+    try {
+      return await compressWhole(input, output, options, whole, t0, probe);
+    } finally {
+      dropAhead();
+    }
   } finally {
     await side?.close();
   }
