@@ -5,10 +5,9 @@
  */
 import type { DecodedImage } from '../../contract';
 import { forgetCodes, recordingCodes } from '../codec/coded-planes';
-import { encodePlanes, RESIDUAL_MAX_PIXELS } from '../codec/image-file';
+import { encodePlanes } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
 import { psnrPlanes } from '../metrics';
-import { AUTO_PROBE_PIXELS } from './centred-crop';
 import { type DecodedRkf, decodeImageFile } from './decode-image';
 import { type FileFigures, measureGreyFile, measureGreySse } from './decoded-figures';
 import type { EncodeOptions } from './encode-options';
@@ -16,6 +15,7 @@ import type { EncodedPlanes } from './error-figures';
 import type { ImageBuild } from './image-writer';
 import { startResidualCheck } from './residual-check';
 import { residualFirst } from './residual-first';
+import { residualFirstApplies } from './residual-scope';
 import { runHere, type SideRunner, ssimPlanesSplit } from './side-jobs';
 
 /** The coded planes of a scan with their names and weights. */
@@ -140,26 +140,7 @@ function measureDecoded(
   return { psnr, sse, ssim, lossless, decoded };
 }
 
-/**
- * Whether the encode of a width×height scan tries the residual-only shortcut ({@link residualFirstFor}): large
- * scans, two layers allowed, a byte budget or a PSNR floor. Such an encode first analyses its whole planes in
- * arenas of their size (../../node/services/arenas-ahead.ts makes those ahead).
- */
-export function residualFirstApplies(
-  width: number,
-  height: number,
-  opts: Pick<EncodeOptions, 'layers' | 'budget'>,
-): boolean {
-  const kind = opts.budget.kind;
-  return (
-    opts.layers === 'auto' &&
-    width * height > AUTO_PROBE_PIXELS * 1.5 &&
-    width * height <= RESIDUAL_MAX_PIXELS &&
-    (kind === 'bytes' || kind === 'bpp' || kind === 'percent' || kind === 'psnr')
-  );
-}
-
-/** The residual-only shortcut of ./residual-first, where it applies ({@link residualFirstApplies}). */
+/** The residual-only shortcut of ./residual-first, where it applies (./residual-scope.ts residualFirstApplies). */
 export function residualFirstFor(
   img: DecodedImage,
   opts: EncodeOptions,

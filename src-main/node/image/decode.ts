@@ -30,7 +30,8 @@ import {
 import { sharedFloat32 } from '../../engine/lowrank/decode-image';
 import { keepableMetadata, type MetadataToKeep, readPngMetadata } from './metadata-chunks';
 import { openInput, sniffFormat, sniffFormatOf } from './open-file';
-import { type Prefault, planesWhileDecoding } from './prefault';
+import { planesWhileDecoding } from './planes-ahead';
+import type { Prefault } from './prefault';
 import {
   depthBits,
   describeSharpError,

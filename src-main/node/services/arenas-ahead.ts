@@ -8,26 +8,46 @@
  * machine of issue #12, several times the load's own work on it) comes off this thread's critical path. The
  * touch ends when the last of these arenas is loaded. The file is the same bit for bit: the memory is as fresh
  * as the one the encoder would make, and the touch (an atomic add of 0 per page) changes no value.
+ *
+ * A grey scan's memory may have been made earlier still, by the launcher from the PNG's header (its
+ * coefficients' pages first-touched by a pool thread while the CLI's code loaded: ../cli/args/early-arena.ts):
+ * it is taken when the probe agrees, else its touch is stopped and it is dropped.
  */
 import type { Budget } from '../../contract';
 import { dropPreparedArenas, prepareArenas } from '../../engine/codec/wasm/arena';
-import { residualFirstApplies } from '../../engine/lowrank/scan-finish';
+import { residualFirstApplies } from '../../engine/lowrank/residual-scope';
 import type { ProbeResult } from '../image/decode';
 import { isColourScan } from '../image/refusals';
 import type { SideThread } from '../parallel/side-thread';
 
+/** A whole grey plane's arena memory made before the probe, its first touch on a pool thread under way. */
+export interface ArenaAhead {
+  width: number;
+  height: number;
+  memory: WebAssembly.Memory;
+  /** Stop the touch; resolves once nothing writes the memory any more (await it before the encode). */
+  touch: { stop(): Promise<void> };
+}
+
 /**
  * For a scan whose encode analyses its whole planes in arenas first (the residual-only shortcut, with a side
- * thread): make those arenas' memories and start their touch on `side`. Returns what forgets the memories no
- * arena took and ends the touch (call it once the encode is over or failed; a no-op when all were taken).
+ * thread): make those arenas' memories (or take `made`'s) and start their touch on `side`. Returns what
+ * forgets the memories no arena took and ends the touch (call it once the encode is over or failed; a no-op
+ * when all were taken).
  */
 export function arenasAhead(
   probe: ProbeResult,
   options: { layers: 'auto' | 'base'; budget: Budget; lossless?: boolean },
   side: SideThread | undefined,
+  made?: ArenaAhead,
 ): () => void {
   const { width, height } = probe;
-  if (!side || options.lossless || !residualFirstApplies(width, height, options)) return () => {};
+  const colour = isColourScan(probe.meta);
+  const applies = side && !options.lossless && residualFirstApplies(width, height, options);
+  const fits = applies && made?.width === width && made.height === height && !colour;
+  // Not taken: its pool thread stops after the request in flight, and nothing here keeps the memory.
+  if (!fits) made?.touch.stop();
+  if (!applies) return () => {};
   const touch: Parameters<typeof prepareArenas>[3] = (regions) => {
     const stop = new Int32Array(new SharedArrayBuffer(4));
     // Each plane's from its last page down (a[2] = 1), in the order the encoder loads them.
@@ -53,6 +73,6 @@ export function arenasAhead(
     if (options.budget.kind === 'psnr') side.beforeNextJob(end);
     return end;
   };
-  prepareArenas(width, height, isColourScan(probe.meta) ? 3 : 1, touch);
+  prepareArenas(width, height, colour ? 3 : 1, touch, fits && made ? [made.memory] : []);
   return dropPreparedArenas;
 }

@@ -27,6 +27,7 @@
  */
 
 import { growMemoryTo } from '../../linalg/wasm/runtime';
+import { align16, arenaBytes, BASE, CHUNK, MAX_BYTES, PAGE, STRIP } from './arena-size';
 import {
   type CoderSetup,
   type CoderWasm,
@@ -36,19 +37,9 @@ import {
   type PlanesAt,
   planesLayout,
 } from './coder-runtime';
-import { type BandRect, CHUNK, COEF, type LiftingExports, liftingOn, writeBands } from './runtime';
+import { type BandRect, COEF, type LiftingExports, liftingOn, writeBands } from './runtime';
 import { adoptArenaMemory, isSharedMemory, newArenaMemory } from './shared-memory';
 
-/** Bytes in a WebAssembly page. */
-const PAGE = 65536;
-/** Most memory a 32-bit module addresses, less a page. */
-const MAX_BYTES = 4 * 2 ** 30 - PAGE;
-/** Start of the plane's arrays: past the lifting tables (page 0) and the coder's scratch (page 1). */
-const BASE = 2 * PAGE;
-/** The kernels' column strip width (assembly/lifting.ts STRIP). */
-const STRIP = 32;
-
-const align16 = (n: number) => (n + 15) & ~15;
 const align8 = (n: number) => (n + 7) & ~7;
 
 /**
@@ -86,12 +77,8 @@ function takeSpare(bytes: number) {
 }
 
 /** Bytes of a width×height plane's arena memory; undefined when the plane gets none (too small or too large). */
-function arenaBytes(width: number, height: number): number | undefined {
-  const n = width * height;
-  if (n < minPixels) return undefined;
-  const scratch = 2 * (align16(16 * Math.max(width, height)) + align16(8 * STRIP * height));
-  const bytes = BASE + align16(8 * n) + scratch + align16(Math.ceil(n / CHUNK)) + align16(8 * n) + PAGE;
-  return bytes > MAX_BYTES ? undefined : bytes;
+function planeArenaBytes(width: number, height: number): number | undefined {
+  return width * height < minPixels ? undefined : arenaBytes(width, height);
 }
 
 /** Memories made ahead ({@link prepareArenas}) for the next arenas of one size, and what ends their touch. */
@@ -103,19 +90,23 @@ let ahead: { width: number; height: number; memories: WebAssembly.Memory[]; end:
  * the first touch, on another thread, of the byte ranges their loads write in full (the coefficients); what it
  * returns ends that touch once the last of them is loaded. False (nothing kept) when such a plane gets no arena
  * or no shared memory. The memory is as fresh as {@link PlaneArena.create} would make it, and a touch that
- * changes no value leaves it so.
+ * changes no value leaves it so. `made`: shared memories of that size made earlier still (by the CLI's
+ * launcher), taken first; their coefficients may hold any bytes (every load overwrites them all).
  */
 export function prepareArenas(
   width: number,
   height: number,
   count: number,
   touch: (regions: Array<{ memory: WebAssembly.Memory; from: number; to: number }>) => () => void,
+  made: readonly WebAssembly.Memory[] = [],
 ): boolean {
   dropPreparedArenas();
-  const bytes = arenaBytes(width, height);
+  const bytes = planeArenaBytes(width, height);
+  const pages = Math.ceil((bytes ?? 0) / PAGE);
   const memories: WebAssembly.Memory[] = [];
   while (bytes !== undefined && memories.length < count) {
-    const memory = newArenaMemory(Math.ceil(bytes / PAGE));
+    const early = made[memories.length];
+    const memory = early?.buffer.byteLength === pages * PAGE ? early : newArenaMemory(pages);
     if (!memory || !isSharedMemory(memory)) return false;
     memories.push(memory);
   }
@@ -220,7 +211,7 @@ export class PlaneArena {
 
   /** An arena for a width×height plane, or null (too small, no kernels, or no memory). */
   static create(width: number, height: number): PlaneArena | null {
-    const bytes = arenaBytes(width, height);
+    const bytes = planeArenaBytes(width, height);
     if (bytes === undefined) return null;
     const early = takePrepared(width, height);
     const spare = early ? undefined : takeSpare(bytes);
