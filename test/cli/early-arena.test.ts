@@ -110,6 +110,8 @@ describe('arenaAhead', () => {
       args(big, '--bpp', '0.25', '--stack'),
       args(big, '--bpp', '0.25', '--help'),
       args(big, '--bpp', '0.25', '--pixel-limit', '1000000'),
+      args(big, '--bpp', 'a quarter'),
+      args(big, '--budget', 'small'),
       [big, '--bpp', '0.25'],
       [big, '-o', join(dir, 'out.png'), '--bpp', '0.25'],
       [big, '-o', big.replace(/\.png$/, '.rkf').replace('big-grey', 'exists'), '--bpp', '0.25'],

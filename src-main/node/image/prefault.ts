@@ -35,10 +35,10 @@ export interface Prefault {
 /**
  * Start touching the pages of `views`, one chunk at a time on one pool thread (so it takes at most one core
  * beside sharp's decode). Never rejects: any failure just ends the touching early. Each next chunk is asked for
- * from this thread's event loop: `chunkBytes` larger than the default for a touch that must go on while this
- * thread runs long synchronous work (stop() then waits for the chunk in flight).
+ * from this thread's event loop: `firstBytes` (for the first request only) larger than a chunk for a touch that
+ * must go on while this thread runs long synchronous work (stop() may then wait for that request).
  */
-export function prefault(views: readonly ArrayBufferView[], chunkBytes = CHUNK_BYTES): Prefault {
+export function prefault(views: readonly ArrayBufferView[], firstBytes = CHUNK_BYTES): Prefault {
   let stopped = false;
   // The pool thread's position: views before `view` and bytes before `offset` in it are touched or in flight.
   let view = 0;
@@ -54,7 +54,7 @@ export function prefault(views: readonly ArrayBufferView[], chunkBytes = CHUNK_B
         return;
       }
       const v = views[view];
-      const length = Math.min(chunkBytes, v.byteLength - offset);
+      const length = Math.min(view === 0 && offset === 0 ? firstBytes : CHUNK_BYTES, v.byteLength - offset);
       const target = new Uint8Array(v.buffer, v.byteOffset + offset, length);
       offset += length;
       randomFill(target, (err) => {
