@@ -142,7 +142,12 @@ describe('the encoder adopts the memory made ahead', () => {
     if (!made) throw new Error('nothing made');
     const stop = made.touch.stop;
     const out = { ...made, stops: 0 };
-    out.touch = { stop: () => (out.stops++, stop()) };
+    out.touch = {
+      stop: () => {
+        out.stops++;
+        return stop();
+      },
+    };
     return out;
   }
 
