@@ -80,6 +80,7 @@ describe('arenaAhead', () => {
       ['--budget', '60kB'],
       ['--min-psnr=40'],
       ['--workers', '2', '--bpp', '1'],
+      ['--bpp', '0.25', '--tile', '64', '--json', '--page', '0'],
     ]) {
       const made = arenaAhead(args(big, ...budget));
       expect(made, budget.join(' ')).toBeDefined();
@@ -112,6 +113,9 @@ describe('arenaAhead', () => {
       args(big, '--bpp', '0.25', '--pixel-limit', '1000000'),
       args(big, '--bpp', 'a quarter'),
       args(big, '--budget', 'small'),
+      args(big, '--bpp', '0.25', '--tile', '7'),
+      args(big, '--bpp', '0.25', '--workers', 'many'),
+      args(big, '--bpp', '0.25', '--unheard-of'),
       [big, '--bpp', '0.25'],
       [big, '-o', join(dir, 'out.png'), '--bpp', '0.25'],
       [big, '-o', big.replace(/\.png$/, '.rkf').replace('big-grey', 'exists'), '--bpp', '0.25'],

@@ -18,6 +18,8 @@
  */
 import { closeSync, existsSync, fstatSync, openSync, readSync } from 'node:fs';
 import type { Budget } from '../../../contract';
+import { checkTile, parseBudgetText } from '../../../contract/budget';
+import { OPTIONS, optionValue, parseOptionText } from '../../../contract/options';
 import { arenaBytes, BASE, PAGE } from '../../../engine/codec/wasm/arena-size';
 import { isSharedMemory, newArenaMemory } from '../../../engine/codec/wasm/shared-memory';
 import { residualFirstApplies } from '../../../engine/lowrank/residual-scope';
@@ -56,6 +58,12 @@ const FIRST_TOUCH_BYTES = 32 << 20;
 
 /** Options of `compress` that take no value (the others take the next argument unless written with =). */
 const FLAGS = new Set(['--json', '--force', '--compare', '--stack', '--lossless']);
+/** Every option of `compress` (../commands/compress.ts); any other is refused by the command. */
+const KNOWN = new Set([
+  ...FLAGS,
+  ...['--output', '-o', '--tile', '--layers', '--page', '--pixel-limit', '--workers'],
+  ...['--rank', '--budget', '--bpp', '--min-psnr', '--min-ssim'],
+]);
 
 /**
  * What `compress ARGS` asks for, as far as the arguments show: the input (the first positional) and each
@@ -80,19 +88,32 @@ function compressArgs(argv: readonly string[]) {
   return input === undefined ? undefined : { input, given };
 }
 
-/** The budget kind of `compress` options, when it is one whose encode tries the residual-only shortcut. */
+/**
+ * The budget of `compress` options when it is one whose encode tries the residual-only shortcut, with every
+ * value the command checks before it decodes checked here by the contract's own parsers (a value it refuses
+ * makes nothing ahead); undefined otherwise.
+ */
 function budgetOf(given: Map<string, string>): Budget | undefined {
   if (given.has('--lossless') || given.has('--rank') || given.has('--min-ssim')) return undefined;
+  if ([...given.keys()].some((k) => !KNOWN.has(k))) return undefined;
   const kinds = (['--budget', '--bpp', '--min-psnr'] as const).filter((k) => given.has(k));
   if (kinds.length !== 1) return undefined;
-  // Only the kind counts here; a value the command refuses at once (not a number) makes nothing either.
-  const value = given.get(kinds[0]) ?? '';
-  if (kinds[0] === '--budget' ? !/^\d/.test(value) : !(Number(value) > 0)) return undefined;
-  return kinds[0] === '--budget'
-    ? { kind: 'bytes', bytes: 0 }
-    : kinds[0] === '--bpp'
-      ? { kind: 'bpp', bpp: 0 }
-      : { kind: 'psnr', db: 0 };
+  const text = (k: string) => given.get(k) as string;
+  try {
+    const tile = given.get('--tile')?.trim();
+    if (tile !== undefined && tile !== 'auto') checkTile(optionValue(OPTIONS.tile, tile));
+    for (const [k, d] of [
+      ['--workers', OPTIONS.workers],
+      ['--page', OPTIONS.page],
+      ['--pixel-limit', OPTIONS.pixelLimit],
+    ] as const)
+      if (given.has(k)) parseOptionText(d, text(k));
+    if (kinds[0] === '--budget') return parseBudgetText(text('--budget'));
+    if (kinds[0] === '--bpp') return { kind: 'bpp', bpp: parseOptionText(OPTIONS.bpp, text('--bpp')) };
+    return { kind: 'psnr', db: parseOptionText(OPTIONS.minPsnr, text('--min-psnr')) };
+  } catch {
+    return undefined;
+  }
 }
 
 /** Width and height of a complete grey PNG (colour types 0 and 4), read from its first 29 and last 12 bytes. */
