@@ -102,6 +102,9 @@ const requireCjs = {
 const builds = [];
 const nodeEntries = {};
 if (existsSync(r('src-main/node/cli/main.ts'))) nodeEntries.cli = 'src-main/node/cli/main.ts';
+// What bin/rankfold.mjs runs before it imports cli.js (a compress run's arena memory, made from the header).
+if (existsSync(r('src-main/node/cli/args/early-arena.ts')))
+  nodeEntries.early = 'src-main/node/cli/args/early-arena.ts';
 for (const f of list('src-main/node/workers', /\.ts$/))
   nodeEntries[`workers/${f.replace(/\.ts$/, '')}`] = `src-main/node/workers/${f}`;
 builds.push(

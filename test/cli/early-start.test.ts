@@ -5,7 +5,7 @@ import { mkdtempSync, rmSync, statSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, afterEach, describe, expect, it, vi } from 'vitest';
-import { compressWantsSide } from '../../src-main/node/cli/args/early-start';
+import { compressWantsSide } from '../../src-main/node/cli/args/early-arena';
 import { main } from '../../src-main/node/cli/main';
 import { SideThread } from '../../src-main/node/parallel/side-thread';
 import { image } from '../helpers/fixtures';

@@ -4,7 +4,8 @@
 // touches its planes so only when asked (the single-scan compress), with the same result.
 import { describe, expect, it } from 'vitest';
 import { decodeImage } from '../../src-main/node/image/decode';
-import { planesWhileDecoding, prefault } from '../../src-main/node/image/prefault';
+import { planesWhileDecoding } from '../../src-main/node/image/planes-ahead';
+import { prefault } from '../../src-main/node/image/prefault';
 import { image } from '../helpers/fixtures';
 
 /** Bytes one pool request writes (prefault.ts CHUNK_BYTES). */

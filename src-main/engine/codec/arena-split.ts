@@ -26,7 +26,8 @@ export interface ArenaPassArgs {
   op: 'load' | 'rows' | 'cols' | 'touch' | 'quantise' | 'errors' | 'dequantise' | 'statsAt' | 'errorsAt';
   inverse: boolean;
   /**
-   * load: dst (f64 bytes); rows: x, width, w, y0, y1; cols: x, width, w, h, c0, c1; touch: from, to (bytes);
+   * load: dst (f64 bytes); rows: x, width, w, y0, y1; cols: x, width, w, h, c0, c1; touch: from, to (bytes),
+   * and 1 to go from the last page down;
    * quantise and errors: x, q, width, b0, b1 (bands), flags (quantise); dequantise: q, x, width, nb, i0, i1;
    * statsAt and errorsAt (the quantiser's statistics and error without q, ./arena-quant.ts): x, width, b0, b1.
    * The band tables (and the statistics written per band) are the kernels' (./wasm/runtime.ts GEO, PAR, RESULTS).
@@ -101,20 +102,25 @@ const PAGE_WORDS = 1024;
 /**
  * One write per page of the bytes from `from` below `to` that changes no value (an atomic add of 0, which no
  * write of the other thread can interleave with), so those pages are faulted in on this thread; until `stop`.
- * Returns where it stopped (`to` when done).
+ * Returns where it stopped (`to` when done). `down`: from the last page down instead (returns `from` when done),
+ * towards a thread that writes the range from its start.
  */
 function touchPages(
   memory: WebAssembly.Memory,
   from: number,
   to: number,
   stop: Int32Array | undefined,
+  down = false,
 ): number {
   const v = new Int32Array(memory.buffer);
-  for (let i = from >> 2, k = 0; i < to >> 2; i += PAGE_WORDS, k++) {
+  const first = from >> 2;
+  const pages = Math.ceil(((to >> 2) - first) / PAGE_WORDS);
+  for (let k = 0; k < pages; k++) {
+    const i = first + (down ? pages - 1 - k : k) * PAGE_WORDS;
     if (k % TOUCH_BATCH === 0 && stop && Atomics.load(stop, 0) !== 0) return i << 2;
     Atomics.add(v, i, 0);
   }
-  return to;
+  return down ? from : to;
 }
 
 /**
@@ -125,7 +131,7 @@ export function runArenaPass(args: ArenaPassArgs): number {
   const a = args.a;
   // Pages are worth touching ahead only on another thread: taken back here, they are touched when used.
   if (args.op === 'touch')
-    return ownKernels(args.memory) ? a[0] : touchPages(args.memory, a[0], a[1], args.stop);
+    return ownKernels(args.memory) ? a[0] : touchPages(args.memory, a[0], a[1], args.stop, a[2] === 1);
   const { lift, tmp, buf, end } = kernelsFor(args);
   switch (args.op) {
     case 'load':
@@ -209,18 +215,19 @@ export function bounds(k: number, n: number, unit: number): [number, number] {
  */
 export function loadSplit(arena: PlaneArena, plane: ArrayLike<number>): void {
   const n = arena.n;
-  if (!(plane instanceof Float32Array && plane.buffer instanceof SharedArrayBuffer) || !splits(arena, n)) {
+  if (!(plane instanceof Float32Array && plane.buffer instanceof SharedArrayBuffer) || !splits(arena, n))
     arena.load(plane);
-    return;
+  else {
+    arena.coeffs();
+    pass(arena, 'load', false, true, (k) => {
+      const [from, to] = bounds(k, n, 4);
+      return {
+        a: [arena.coeffsAt + 8 * from, arena.qAt + 4 * from, to - from],
+        samples: plane.subarray(from, to),
+      };
+    });
   }
-  arena.coeffs();
-  pass(arena, 'load', false, true, (k) => {
-    const [from, to] = bounds(k, n, 4);
-    return {
-      a: [arena.coeffsAt + 8 * from, arena.qAt + 4 * from, to - from],
-      samples: plane.subarray(from, to),
-    };
-  });
+  arena.loaded();
 }
 
 /**

@@ -25,6 +25,7 @@ import { packIcc } from './icc-pack';
 import { checkExactHeader, EXACT_CHUNK, EXACT_CODING, isExactFile } from './lossless-file';
 import { DEAD_ZONE, reconstructRows } from './quantise';
 import { type QuantPlane, tileGrid } from './quantised';
+import { RESIDUAL_MAX_PIXELS } from './residual-limit';
 import { decodePlane as decodeWaveletPlane } from './wavelet-plane';
 
 type ColourTransform = 'none' | 'ycbcr-jfif' | 'rct';
@@ -146,11 +147,9 @@ function writeExactFile(parts: ImageFileParts, exact: Uint8Array[]): Uint8Array 
 
 /** Chunk type of a coded plane's residual layer (critical: a reader that does not know it must refuse). */
 const RESIDUAL = 'RSDL';
-/**
- * Largest scan (pixels) that may carry a residual layer: the decoder holds each coded plane's residual as
- * one float64 plane, so above this (the large-scan encoder's threshold, 2^25) files are base-only.
- */
-export const RESIDUAL_MAX_PIXELS = 1 << 25;
+
+/** Largest scan (pixels) that may carry a residual layer (./residual-limit.ts). */
+export { RESIDUAL_MAX_PIXELS } from './residual-limit';
 
 /** Chunk types of the image layout (the container's own INDX and fchk aside). */
 const KNOWN = new Set(['HEAD', 'PLNE', 'ALPH', 'ICCP', RESIDUAL, EXACT_CHUNK]);

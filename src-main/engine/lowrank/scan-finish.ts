@@ -5,10 +5,9 @@
  */
 import type { DecodedImage } from '../../contract';
 import { forgetCodes, recordingCodes } from '../codec/coded-planes';
-import { encodePlanes, RESIDUAL_MAX_PIXELS } from '../codec/image-file';
+import { encodePlanes } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
 import { psnrPlanes } from '../metrics';
-import { AUTO_PROBE_PIXELS } from './centred-crop';
 import { type DecodedRkf, decodeImageFile } from './decode-image';
 import { type FileFigures, measureGreyFile, measureGreySse } from './decoded-figures';
 import type { EncodeOptions } from './encode-options';
@@ -16,6 +15,7 @@ import type { EncodedPlanes } from './error-figures';
 import type { ImageBuild } from './image-writer';
 import { startResidualCheck } from './residual-check';
 import { residualFirst } from './residual-first';
+import { residualFirstApplies } from './residual-scope';
 import { runHere, type SideRunner, ssimPlanesSplit } from './side-jobs';
 
 /** The coded planes of a scan with their names and weights. */
@@ -140,7 +140,7 @@ function measureDecoded(
   return { psnr, sse, ssim, lossless, decoded };
 }
 
-/** The residual-only shortcut of ./residual-first, where it applies: large scans, two layers allowed. */
+/** The residual-only shortcut of ./residual-first, where it applies (./residual-scope.ts residualFirstApplies). */
 export function residualFirstFor(
   img: DecodedImage,
   opts: EncodeOptions,
@@ -151,14 +151,8 @@ export function residualFirstFor(
   cancel: () => void,
 ) {
   const { width, height } = img;
+  if (!residualFirstApplies(width, height, opts)) return undefined;
   const kind = opts.budget.kind;
-  if (
-    opts.layers !== 'auto' ||
-    width * height <= AUTO_PROBE_PIXELS * 1.5 ||
-    width * height > RESIDUAL_MAX_PIXELS
-  )
-    return undefined;
-  if (!(kind === 'bytes' || kind === 'bpp' || kind === 'percent' || kind === 'psnr')) return undefined;
   // The last file checked under a quality floor and its decoding, so the report does not decode it again.
   let last: { bytes: Uint8Array; decoded: DecodedRkf } | undefined;
   // With a second thread, each file built for a byte budget has its residual check started at once.

@@ -88,7 +88,8 @@ export async function main(argv: string[], io: CliIO): Promise<number> {
     );
     return 1;
   } finally {
-    await early.side?.close();
+    // The arena's touch, if the command left it running (it ends within one pool request), and the side.
+    await Promise.all([early.arena?.touch.stop(), early.side?.close()]);
   }
 }
 

@@ -30,11 +30,13 @@ import {
 import { sharedFloat32 } from '../../engine/lowrank/decode-image';
 import { keepableMetadata, type MetadataToKeep, readPngMetadata } from './metadata-chunks';
 import { openInput, sniffFormat, sniffFormatOf } from './open-file';
-import { type Prefault, planesWhileDecoding } from './prefault';
+import { planesWhileDecoding } from './planes-ahead';
+import type { Prefault } from './prefault';
 import {
   depthBits,
   describeSharpError,
   FORMAT_NAMES,
+  isColourScan,
   NOT_AN_IMAGE,
   refuseColourModel,
   refuseTiffModel,
@@ -211,12 +213,7 @@ export async function decodeInterleaved(
   const region = options.region && checkRegion(options.region, probe);
   const { meta, bitDepth } = probe;
   const hasAlpha = Boolean(meta.hasAlpha);
-  const isCmyk = meta.space === 'cmyk';
-  const isColour =
-    isCmyk ||
-    meta.space === 'srgb' ||
-    meta.space === 'rgb16' ||
-    (meta.channels ?? 1) - (hasAlpha ? 1 : 0) >= 3;
+  const isColour = isColourScan(meta);
   // sharp's 8-bit 'b-w' output drops an alpha band, so 8-bit gray+alpha is read as sRGB (R = G = B = gray,
   // an exact band copy) and bands 0 and 3 are kept.
   const grayAlpha8 = !isColour && hasAlpha && bitDepth === 8;

@@ -13,7 +13,6 @@
  */
 import { randomFill } from 'node:crypto';
 import { setImmediate as nextTurn } from 'node:timers/promises';
-import { sharedFloat32 } from '../../engine/lowrank/decode-image';
 
 /** Bytes written per request: small enough that `stop()` waits at most one request (~6 ms at 11 µs per 4 KiB page). */
 const CHUNK_BYTES = 2 << 20;
@@ -35,9 +34,11 @@ export interface Prefault {
 
 /**
  * Start touching the pages of `views`, one chunk at a time on one pool thread (so it takes at most one core
- * beside sharp's decode). Never rejects: any failure just ends the touching early.
+ * beside sharp's decode). Never rejects: any failure just ends the touching early. Each next chunk is asked for
+ * from this thread's event loop: `firstBytes` (for the first request only) larger than a chunk for a touch that
+ * must go on while this thread runs long synchronous work (stop() may then wait for that request).
  */
-export function prefault(views: readonly ArrayBufferView[]): Prefault {
+export function prefault(views: readonly ArrayBufferView[], firstBytes = CHUNK_BYTES): Prefault {
   let stopped = false;
   // The pool thread's position: views before `view` and bytes before `offset` in it are touched or in flight.
   let view = 0;
@@ -53,7 +54,7 @@ export function prefault(views: readonly ArrayBufferView[]): Prefault {
         return;
       }
       const v = views[view];
-      const length = Math.min(CHUNK_BYTES, v.byteLength - offset);
+      const length = Math.min(view === 0 && offset === 0 ? firstBytes : CHUNK_BYTES, v.byteLength - offset);
       const target = new Uint8Array(v.buffer, v.byteOffset + offset, length);
       offset += length;
       randomFill(target, (err) => {
@@ -85,20 +86,4 @@ export function prefault(views: readonly ArrayBufferView[]): Prefault {
     return stop();
   };
   return { stop, finish };
-}
-
-/**
- * `channels` shared planes of `pixels` samples, kept in `held`, with their first touch started. Planes that cannot
- * be allocated yet are left out (the caller allocates, or fails to, after the decode, as it always did).
- */
-export function planesWhileDecoding(
-  held: { planes?: Float32Array[] },
-  shape: { pixels: number; channels: number },
-): Prefault {
-  try {
-    held.planes = Array.from({ length: shape.channels }, () => sharedFloat32(shape.pixels));
-  } catch {
-    held.planes = undefined;
-  }
-  return prefault(held.planes ?? []);
 }

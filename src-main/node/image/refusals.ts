@@ -1,6 +1,7 @@
 /**
  * What Rankfold does not read, refused by name (TIFF colour models and sample formats, libvips colour spaces
- * and depths), and libvips failures turned into one sentence naming the file. No decoder text reaches a message.
+ * and depths), the depth and colour a readable header decodes to, and libvips failures turned into one sentence
+ * naming the file. No decoder text reaches a message.
  */
 import type { Metadata } from 'sharp';
 import { hinted, InputError } from '../../contract';
@@ -98,6 +99,17 @@ function sampleFormatName(format: number, bits: number): { id: string; words: st
     };
   if (format >= 5) return { id: 'complex', words: 'complex-number samples' };
   return { id: 'uint', words: `unsigned ${bits}-bit integer samples` };
+}
+
+/** Whether a scan with this header decodes to colour planes (RGB, or CMYK converted to sRGB). */
+export function isColourScan(meta: Metadata): boolean {
+  const space = meta.space;
+  return (
+    space === 'cmyk' ||
+    space === 'srgb' ||
+    space === 'rgb16' ||
+    (meta.channels ?? 1) - (meta.hasAlpha ? 1 : 0) >= 3
+  );
 }
 
 /** Refuse, by name, colour models libvips reports that Rankfold does not read (any format). */

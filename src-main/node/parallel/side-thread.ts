@@ -88,6 +88,8 @@ export class SideThread {
   /** Jobs the worker computed (the others were taken back and computed on the calling thread). */
   taken = 0;
   private readonly loaded: Promise<void>;
+  /** What runs once just before the next job is posted ({@link beforeNextJob}). */
+  private beforeNext: (() => void) | undefined;
 
   private constructor(file: string) {
     const { port1, port2 } = new MessageChannel();
@@ -110,6 +112,9 @@ export class SideThread {
   }
 
   run: SideRunner = <K extends SideJobName>(name: K, args: SideJobs[K]['args']) => {
+    const before = this.beforeNext;
+    this.beforeNext = undefined;
+    before?.();
     const id = this.next++;
     const claim = new Int32Array(new SharedArrayBuffer(4));
     const sent = copied(args as unknown as Record<string, unknown>);
@@ -142,6 +147,14 @@ export class SideThread {
     const a = this.answers.get(id) as SideAnswer;
     this.answers.delete(id);
     return a;
+  }
+
+  /**
+   * Run `fn` once, just before the next job is posted (not before one posted by `fn` itself): to end a job
+   * of the worker's idle time (a first touch of pages) that must not delay that one.
+   */
+  beforeNextJob(fn: () => void): void {
+    this.beforeNext = fn;
   }
 
   /** Resolves once the worker has loaded its code (or has exited). */

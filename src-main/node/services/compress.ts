@@ -33,6 +33,7 @@ import { decodeSamples } from '../image/raw-decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import { prepareFactorPath } from '../parallel/factor-path';
 import { SideThread } from '../parallel/side-thread';
+import { type ArenaAhead, arenasAhead } from './arenas-ahead';
 import { compareCodecs } from './codec-comparison';
 import { ProgressSpans } from './progress-spans';
 
@@ -71,6 +72,8 @@ export interface CompressInternals {
   workers?: number;
   /** A side thread already started (compressFile starts it before decoding, so it loads meanwhile). */
   side?: SideThread;
+  /** The whole plane's arena memory the CLI's launcher made from the scan's header (./arenas-ahead.ts). */
+  arenaAhead?: ArenaAhead;
 }
 
 export const ENCODER_NAME = 'rankfold 0.1.0';
@@ -203,7 +206,19 @@ export async function compressFile(
       await side?.close();
       return await compressTiled(input, output, options, hooks, t0);
     }
-    return await compressWhole(input, output, options, side ? { ...hooks, side } : hooks, t0, probe);
+    const whole = side ? { ...hooks, side } : hooks;
+    // With a second core, the whole planes' arenas are made now and touched on it meanwhile (./arenas-ahead).
+    const dropAhead = arenasAhead(
+      probe,
+      { ...options, layers: options.layers ?? DEFAULT_LAYERS },
+      whole.side,
+      hooks.arenaAhead,
+    );
+    try {
+      return await compressWhole(input, output, options, whole, t0, probe);
+    } finally {
+      dropAhead();
+    }
   } finally {
     await side?.close();
   }
@@ -225,6 +240,7 @@ async function compressWhole(
     prefault: hooks.side !== undefined,
   });
   const decodeMs = performance.now() - t0;
+  await hooks.arenaAhead?.touch.stop(); // the launcher's pool-thread touch writes that memory no more
   const { bytes, report, result } = await compressDecoded(decoded, options, hooks);
   if (hooks.signal?.aborted) throw new CancelledError(`compressing ${input}`);
   const byteBudget = budgetBytes(options.budget, decoded);

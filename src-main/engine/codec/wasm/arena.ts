@@ -27,6 +27,7 @@
  */
 
 import { growMemoryTo } from '../../linalg/wasm/runtime';
+import { align16, arenaBytes, BASE, CHUNK, MAX_BYTES, PAGE, STRIP } from './arena-size';
 import {
   type CoderSetup,
   type CoderWasm,
@@ -36,19 +37,9 @@ import {
   type PlanesAt,
   planesLayout,
 } from './coder-runtime';
-import { type BandRect, CHUNK, COEF, type LiftingExports, liftingOn, writeBands } from './runtime';
-import { adoptArenaMemory, newArenaMemory } from './shared-memory';
+import { type BandRect, COEF, type LiftingExports, liftingOn, writeBands } from './runtime';
+import { adoptArenaMemory, isSharedMemory, newArenaMemory } from './shared-memory';
 
-/** Bytes in a WebAssembly page. */
-const PAGE = 65536;
-/** Most memory a 32-bit module addresses, less a page. */
-const MAX_BYTES = 4 * 2 ** 30 - PAGE;
-/** Start of the plane's arrays: past the lifting tables (page 0) and the coder's scratch (page 1). */
-const BASE = 2 * PAGE;
-/** The kernels' column strip width (assembly/lifting.ts STRIP). */
-const STRIP = 32;
-
-const align16 = (n: number) => (n + 15) & ~15;
 const align8 = (n: number) => (n + 7) & ~7;
 
 /**
@@ -83,6 +74,63 @@ function takeSpare(bytes: number) {
   if (best < 0) return undefined;
   const [spare] = spares.splice(best, 1);
   return growMemoryTo(spare.memory, bytes, MAX_BYTES) ? spare : undefined;
+}
+
+/** Bytes of a width×height plane's arena memory; undefined when the plane gets none (too small or too large). */
+function planeArenaBytes(width: number, height: number): number | undefined {
+  return width * height < minPixels ? undefined : arenaBytes(width, height);
+}
+
+/** Memories made ahead ({@link prepareArenas}) for the next arenas of one size, and what ends their touch. */
+let ahead: { width: number; height: number; memories: WebAssembly.Memory[]; end: () => void } | undefined;
+
+/**
+ * Make the shared memories of `count` width×height planes' arenas now, before the planes exist (while the scan
+ * is decoded), for the next arenas of that size made on this thread (before any spare), and have `touch` start
+ * the first touch, on another thread, of the byte ranges their loads write in full (the coefficients); what it
+ * returns ends that touch once the last of them is loaded. False (nothing kept) when such a plane gets no arena
+ * or no shared memory. The memory is as fresh as {@link PlaneArena.create} would make it, and a touch that
+ * changes no value leaves it so. `made`: shared memories of that size made earlier still (by the CLI's
+ * launcher), taken first; their coefficients may hold any bytes (every load overwrites them all).
+ */
+export function prepareArenas(
+  width: number,
+  height: number,
+  count: number,
+  touch: (regions: Array<{ memory: WebAssembly.Memory; from: number; to: number }>) => () => void,
+  made: readonly WebAssembly.Memory[] = [],
+): boolean {
+  dropPreparedArenas();
+  const bytes = planeArenaBytes(width, height);
+  const pages = Math.ceil((bytes ?? 0) / PAGE);
+  const memories: WebAssembly.Memory[] = [];
+  while (bytes !== undefined && memories.length < count) {
+    const early = made[memories.length];
+    const memory = early?.buffer.byteLength === pages * PAGE ? early : newArenaMemory(pages);
+    if (!memory || !isSharedMemory(memory)) return false;
+    memories.push(memory);
+  }
+  if (memories.length === 0) return false;
+  const end = touch(memories.map((memory) => ({ memory, from: BASE, to: BASE + 8 * width * height })));
+  ahead = { width, height, memories, end };
+  return true;
+}
+
+/** Forget the memories {@link prepareArenas} made that no arena took, and end their touch. */
+export function dropPreparedArenas(): void {
+  const end = ahead?.end;
+  ahead = undefined;
+  end?.();
+}
+
+/** The next memory made ahead for a width×height plane, and with the last one what ends their touch. */
+function takePrepared(width: number, height: number) {
+  const a = ahead;
+  if (!a || a.width !== width || a.height !== height) return undefined;
+  const memory = a.memories.shift() as WebAssembly.Memory;
+  if (a.memories.length > 0) return { memory };
+  ahead = undefined;
+  return { memory, end: a.end };
 }
 
 /**
@@ -128,6 +176,8 @@ export class PlaneArena {
   /** The coefficients are read no more (the encode is decided); q's region is lent, and the loan is not over yet. */
   private spent = false;
   private lent = false;
+  /** Ends the touch of memories made ahead, once this arena is loaded ({@link loaded}). */
+  private afterLoad: (() => void) | undefined;
   /** What {@link spend} deferred until the last rebuild has read q. */
   private deferred: (() => void) | undefined;
   private buffer: ArrayBufferLike;
@@ -161,17 +211,27 @@ export class PlaneArena {
 
   /** An arena for a width×height plane, or null (too small, no kernels, or no memory). */
   static create(width: number, height: number): PlaneArena | null {
-    const n = width * height;
-    if (n < minPixels) return null;
-    const scratch = 2 * (align16(16 * Math.max(width, height)) + align16(8 * STRIP * height));
-    const bytes = BASE + align16(8 * n) + scratch + align16(Math.ceil(n / CHUNK)) + align16(8 * n) + PAGE;
-    if (bytes > MAX_BYTES) return null;
-    const spare = takeSpare(bytes);
+    const bytes = planeArenaBytes(width, height);
+    if (bytes === undefined) return null;
+    const early = takePrepared(width, height);
+    const spare = early ? undefined : takeSpare(bytes);
     if (spare) return new PlaneArena(spare.memory, spare.lift, width, height, spare.coder);
-    const memory = newArenaMemory(Math.ceil(bytes / PAGE));
-    if (!memory) return null;
-    const lift = liftingOn(memory);
-    return lift ? new PlaneArena(memory, lift, width, height) : null;
+    const memory = early?.memory ?? newArenaMemory(Math.ceil(bytes / PAGE));
+    const lift = memory && liftingOn(memory);
+    if (!lift) {
+      early?.end?.();
+      return null;
+    }
+    const arena = new PlaneArena(memory, lift, width, height);
+    arena.afterLoad = early?.end;
+    return arena;
+  }
+
+  /** The load is done: end the touch ahead of it ({@link prepareArenas}) if this arena's was the last. */
+  loaded(): void {
+    const end = this.afterLoad;
+    this.afterLoad = undefined;
+    end?.();
   }
 
   /**

@@ -10,6 +10,7 @@
  */
 import { decodeBase64 } from '../../linalg/wasm/runtime';
 import { LazyKernel, type LoadedKernel, reserveBytes } from '../../metrics/wasm/loader';
+import { CHUNK } from './arena-size';
 import { wasmBase64 } from './generated/lifting';
 import { wasmBase64 as sharedBase64 } from './generated/lifting-shared';
 import { isSharedMemory } from './shared-memory';
@@ -187,9 +188,8 @@ export function writeBands(buf: ArrayBufferLike, bands: BandRect[], par: (bi: nu
   });
 }
 
-/** q entries per chunk of the kernel's non-zero map (assembly/lifting.ts CHUNK_BITS, CHUNK). */
-export const CHUNK_BITS = 10;
-export const CHUNK = 1 << CHUNK_BITS;
+/** q entries per chunk of the kernel's non-zero map (./arena-size.ts). */
+export { CHUNK, CHUNK_BITS } from './arena-size';
 
 /**
  * Copy the chunks of the n values of q at `qAt` in `buf` whose flag (u8 at `flagsAt`, one per chunk) is set

@@ -4,34 +4,26 @@
  * its code on the other core (~160 ms) while this thread loads sharp and decodes the scan. The entry hands it to
  * the command and closes it after the command has finished, on every path (errors and bad input included).
  * The side thread never changes an encoder's output, so starting one the command does not use changes nothing.
+ * It also takes the whole plane's arena memory the launcher made before this code loaded (./early-arena.ts).
  */
 import type { SideThread } from '../../parallel/side-thread';
+import type { ArenaAhead } from '../../services/arenas-ahead';
+import { compressWantsSide, takeArenaAhead } from './early-arena';
 
-/** Started early for the command; owned (and closed) by the CLI entry. */
+/** Started early for the command; owned (and closed, or stopped) by the CLI entry. */
 export interface EarlyStart {
   side?: SideThread;
-}
-
-/**
- * True when `rankfold compress ARGS` will encode with two or more threads, as far as the arguments show before
- * the command parses them: not for help or `--stack`, nor with `--workers` 0 or 1 (the last one given counts).
- */
-export function compressWantsSide(argv: readonly string[]): boolean {
-  let workers: string | undefined;
-  for (let i = 0; i < argv.length; i++) {
-    const a = argv[i];
-    if (a === '--') break;
-    if (a === '--help' || a === '-h' || a === '--stack') return false;
-    if (a === '--workers') workers = argv[i + 1];
-    else if (a.startsWith('--workers=')) workers = a.slice('--workers='.length);
-  }
-  const n = workers === undefined ? Number.NaN : Number(workers);
-  return !(Number.isInteger(n) && n < 2);
+  /** A whole plane's arena memory made by the launcher, its first touch under way (for `compress` only). */
+  arena?: ArenaAhead;
 }
 
 /** Start what command `name` with arguments `argv` will want (nothing for most commands). */
 export async function startEarly(name: string, argv: readonly string[]): Promise<EarlyStart> {
-  if (name !== 'compress' || !compressWantsSide(argv)) return {};
+  const arena = takeArenaAhead();
+  if (name !== 'compress' || !compressWantsSide(argv)) {
+    await arena?.touch.stop();
+    return {};
+  }
   const { SideThread } = await import('../../parallel/side-thread');
-  return { side: SideThread.start() };
+  return { side: SideThread.start(), ...(arena ? { arena } : {}) };
 }

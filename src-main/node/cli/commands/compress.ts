@@ -149,6 +149,7 @@ export const command: Command = {
         workers,
         // The side thread the CLI entry started before loading this command (it closes it afterwards).
         side: (workers ?? 1) >= 2 ? early?.side : undefined,
+        arenaAhead: early?.arena,
         onProgress:
           io.isTTY && !v.json
             ? (p) => io.stderr(`\r${p.stage.padEnd(10)} ${Math.round(p.fraction * 100)}%`)
