@@ -15,7 +15,7 @@
  * it, made by the message, on the other).
  */
 import { type PlaneArena, widenStaged } from './wasm/arena';
-import { COEF, GEO, type LiftingExports, liftingOn, PAR, RESULTS } from './wasm/runtime';
+import { CHUNK, COEF, GEO, type LiftingExports, liftingOn, PAR, RESULTS } from './wasm/runtime';
 import { arenaMemoryId, isSharedMemory, ownKernels } from './wasm/shared-memory';
 
 /** One piece of a pass, as sent to the other thread. */
@@ -23,12 +23,23 @@ export interface ArenaPassArgs {
   /** The arena's memory (shared) and a number naming it across threads. */
   memory: WebAssembly.Memory;
   id: number;
-  op: 'load' | 'rows' | 'cols' | 'touch' | 'quantise' | 'errors' | 'dequantise' | 'statsAt' | 'errorsAt';
+  op:
+    | 'load'
+    | 'rows'
+    | 'cols'
+    | 'touch'
+    | 'quantise'
+    | 'errors'
+    | 'dequantise'
+    | 'statsAt'
+    | 'errorsAt'
+    | 'aside';
   inverse: boolean;
   /**
    * load: dst (f64 bytes); rows: x, width, w, y0, y1; cols: x, width, w, h, c0, c1; touch: from, to (bytes);
    * quantise and errors: x, q, width, b0, b1 (bands), flags (quantise); dequantise: q, x, width, nb, i0, i1;
-   * statsAt and errorsAt (the quantiser's statistics and error without q, ./arena-quant.ts): x, width, b0, b1.
+   * statsAt and errorsAt (the quantiser's statistics and error without q, ./arena-quant.ts): x, width, b0, b1;
+   * aside (./coded-aside.ts): x, q, width, nb, flags, n.
    * The band tables (and the statistics written per band) are the kernels' (./wasm/runtime.ts GEO, PAR, RESULTS).
    */
   a: number[];
@@ -38,6 +49,10 @@ export interface ArenaPassArgs {
   samples?: Float32Array;
   /** touch: set to 1 (on a SharedArrayBuffer) when the pages are needed: the other thread stops there. */
   stop?: Int32Array;
+  /** aside: where the per-band squared errors and q's non-zeros (positions, values) go (shared memory). */
+  sums?: Float64Array;
+  at?: Int32Array;
+  v?: Int32Array;
 }
 
 /** Offers a piece to the other thread; the returned function computes it here or waits for it (its
@@ -153,8 +168,71 @@ export function runArenaPass(args: ArenaPassArgs): number {
       break;
     case 'errorsAt':
       lift.errorsAt(a[0], a[1], a[2], a[3], GEO, PAR, RESULTS);
+      break;
+    case 'aside':
+      return aside(args, lift);
   }
   return 0;
+}
+
+/**
+ * The 'aside' piece (./coded-aside.ts), while the arena's own thread range-codes q (which the coder only reads):
+ * per band Σ(c − rebuilt(q))² (the band tables and Δ, d1, d2 written by the caller) into `sums`, band by band as
+ * the 'errors' pieces form them, then q's non-zeros in raster order into `at` and `v` (as many as `at` holds).
+ * Each part is skipped once `stop` is set: −1, nothing done; −2, the sums only; else the non-zeros listed.
+ */
+function aside(args: ArenaPassArgs, lift: LiftingExports): number {
+  const [x, qAt, width, nb, flagsAt, n] = args.a;
+  const { stop, sums, at, v } = args;
+  const stopped = () => stop !== undefined && Atomics.load(stop, 0) !== 0;
+  if (stopped() || !sums) return -1;
+  for (let b = 0; b < nb; b++) {
+    if (stopped()) return -1;
+    lift.squaredError(x, qAt, width, 1, GEO + 16 * b, PAR + 32 * b, RESULTS + 8 * b);
+  }
+  sums.set(new Float64Array(args.memory.buffer, RESULTS, nb));
+  if (!at || !v) return -2;
+  const buf = args.memory.buffer;
+  const q = new Int32Array(buf, qAt, n);
+  const flags = new Uint8Array(buf, flagsAt, Math.ceil(n / CHUNK));
+  let k = 0;
+  for (let j = 0; j < flags.length; j++) {
+    if ((j & 255) === 0 && stopped()) return -2;
+    if (!flags[j]) continue;
+    const end = Math.min(n, (j + 1) * CHUNK);
+    for (let i = j * CHUNK; i < end; i++) {
+      const value = q[i];
+      if (value === 0) continue;
+      if (k === at.length) return -2;
+      at[k] = i;
+      v[k++] = value;
+    }
+  }
+  return k;
+}
+
+/**
+ * Offer the other thread one piece alone, with no share computed here (./coded-aside.ts): its join, which
+ * computes it here when the other thread has not started it; undefined without a helper or a split arena.
+ */
+export function offerAlone(
+  arena: PlaneArena,
+  op: ArenaPassArgs['op'],
+  a: number[],
+  extra: Pick<ArenaPassArgs, 'stop' | 'sums' | 'at' | 'v'>,
+): (() => number) | undefined {
+  const run = helper;
+  if (!run || !splits(arena, arena.n)) return undefined;
+  const join = run({
+    memory: arena.memory,
+    id: arenaMemoryId(arena.memory),
+    op,
+    inverse: false,
+    a,
+    scratch: [],
+    ...extra,
+  });
+  return () => join() as number;
 }
 
 /**
