@@ -65,6 +65,21 @@ function figures(a: AnalysedPlane, c: CodedCoefficients) {
   return { bytes: digest(c.bytes), sse: codedSquaredError(a, c), nonZero: nonZeros(c.q) };
 }
 
+/** The TypeScript reference's figures of the plane coded at STEP. */
+function referenceFigures(p: Float32Array, w: number, h: number) {
+  return reference(() => {
+    const { a, c } = codedAt(p, w, h);
+    return figures(a, c);
+  });
+}
+
+/** The figures equal the reference's, the error bit for bit. */
+function expectSame(got: ReturnType<typeof figures>, ref: ReturnType<typeof figures>): void {
+  expect(got.bytes).toBe(ref.bytes);
+  expect(Object.is(got.sse, ref.sse)).toBe(true);
+  expect(got.nonZero).toEqual(ref.nonZero);
+}
+
 describe('squared error and non-zeros worked out beside an encode', () => {
   arenasAtEverySize();
   const side = realSideThread();
@@ -74,10 +89,7 @@ describe('squared error and non-zeros worked out beside an encode', () => {
     [257, 193],
   ])('%i×%i: computed as offered, they are the reference’s, and the check’s listing takes them', (w, h) => {
     const p = rampPlane(w, h, 7 * w + h);
-    const ref = reference(() => {
-      const { a, c } = codedAt(p, w, h);
-      return figures(a, c);
-    });
+    const ref = referenceFigures(p, w, h);
     expect(ref.nonZero.at.length).toBeGreaterThan(0);
     expect(ref.nonZero.at.length).toBeLessThan((w * h) / 2);
     seen.length = 0;
@@ -100,36 +112,27 @@ describe('squared error and non-zeros worked out beside an encode', () => {
       expect(Array.from(bandErrorsResident(arena, a.bands, par))).toEqual(Array.from(sums));
       // The report's check lists the same arrays instead of listing q again.
       expect(keepNonZeros(c)?.at).toBe(listed?.at);
-      const got = figures(a, c);
-      expect(got.bytes).toBe(ref.bytes);
-      expect(Object.is(got.sse, ref.sse)).toBe(true);
-      expect(got.nonZero).toEqual(ref.nonZero);
+      expectSame(figures(a, c), ref);
     });
   });
 
   it('taken back after the encode, it does nothing, and the error is computed as before', () => {
     const [w, h] = [257, 193];
     const p = rampPlane(w, h, 3);
-    const ref = reference(() => {
-      const { a, c } = codedAt(p, w, h);
-      return figures(a, c);
-    });
+    const ref = referenceFigures(p, w, h);
     seen.length = 0;
     withArenaHelper(takenBack, () => {
       const { a, c } = codedAt(p, w, h);
       expect(seen).toContain('aside');
       expect(errorsBeside(c)).toBeUndefined();
       expect(listedBeside(c)).toBeUndefined();
-      const got = figures(a, c);
+      expectSame(figures(a, c), ref);
       expect(seen).toContain('errors');
-      expect(got.bytes).toBe(ref.bytes);
-      expect(Object.is(got.sse, ref.sse)).toBe(true);
-      expect(got.nonZero).toEqual(ref.nonZero);
     });
   });
 
-  it('cut short: −1 once stopped before the sums, −2 with the sums but a list that does not fit', () => {
-    const [w, h] = [101, 77];
+  it('cut short: nothing once stopped, the sums alone when the list does not fit, else both', () => {
+    const [w, h] = [257, 193];
     const p = rampPlane(w, h, 5);
     let piece: ArenaPassArgs | undefined;
     const keep: ArenaRunner = (a) => {
@@ -137,22 +140,33 @@ describe('squared error and non-zeros worked out beside an encode', () => {
       return () => (a.op === 'aside' ? -1 : runArenaPass(a));
     };
     withArenaHelper(keep, () => {
-      const { a, c } = codedAt(p, w, h);
+      // A coarse step: few non-zeros, so the kernel's list fits below the coder's map.
+      const { a, c } = codedAt(p, w, h, 40);
       const args = piece as ArenaPassArgs;
       expect(args).toBeDefined();
       const nb = a.bands.length;
       // The band tables the piece reads are still this encode's (nothing ran on the arena since).
       const stop = new Int32Array(new SharedArrayBuffer(4));
-      const sums = new Float64Array(nb);
+      const sums = new Float64Array(nb + 1);
       expect(runArenaPass({ ...args, stop: Int32Array.of(1), sums })).toBe(-1);
       expect(sums.every((s) => s === 0)).toBe(true);
       const count = nonZeros(c.q).at.length;
       const short = { at: new Int32Array(count - 1), v: new Int32Array(count - 1) };
-      expect(runArenaPass({ ...args, stop, sums, ...short })).toBe(-2);
-      const whole = { at: new Int32Array(count), v: new Int32Array(count) };
-      const sums2 = new Float64Array(nb);
-      expect(runArenaPass({ ...args, stop, sums: sums2, ...whole })).toBe(count);
-      expect(Array.from(sums2)).toEqual(Array.from(sums));
+      // Too many for the list (the pass over the flags stops): none listed, the sums made.
+      expect(runArenaPass({ ...args, a: [...args.a.slice(0, 6), 0], stop, sums, ...short })).toBe(-1);
+      expect(sums[nb]).toBe(1);
+      // The whole list, by the kernel below the coder's map and by the pass over the chunk flags: the same.
+      expect(args.a[6]).toBeGreaterThan(0);
+      const listed = nonZeros(c.q);
+      for (const room of [args.a[6], 0]) {
+        const whole = { at: new Int32Array(count), v: new Int32Array(count) };
+        const sums2 = new Float64Array(nb + 1);
+        expect(runArenaPass({ ...args, a: [...args.a.slice(0, 6), room], stop, sums: sums2, ...whole })).toBe(
+          count,
+        );
+        expect({ at: Array.from(whole.at), v: Array.from(whole.v) }).toEqual(listed);
+        expect(Array.from(sums2)).toEqual(Array.from(sums));
+      }
       expect(
         Object.is(
           codedSquaredError(a, c),
@@ -178,18 +192,13 @@ describe('squared error and non-zeros worked out beside an encode', () => {
   it('on a real side thread the bytes, error and non-zeros are the reference’s', () => {
     const [w, h] = [401, 389];
     const p = rampPlane(w, h, 11);
-    const ref = reference(() => {
-      const { a, c } = codedAt(p, w, h);
-      return figures(a, c);
-    });
+    const ref = referenceFigures(p, w, h);
     for (let k = 0; k < 3; k++) {
       const got = withArenaHelper(offeredWithPause(side()), () => {
         const { a, c } = codedAt(p, w, h);
         return figures(a, c);
       });
-      expect(got.bytes).toBe(ref.bytes);
-      expect(Object.is(got.sse, ref.sse)).toBe(true);
-      expect(got.nonZero).toEqual(ref.nonZero);
+      expectSame(got, ref);
     }
   });
 });

@@ -39,7 +39,7 @@ export interface ArenaPassArgs {
    * load: dst (f64 bytes); rows: x, width, w, y0, y1; cols: x, width, w, h, c0, c1; touch: from, to (bytes);
    * quantise and errors: x, q, width, b0, b1 (bands), flags (quantise); dequantise: q, x, width, nb, i0, i1;
    * statsAt and errorsAt (the quantiser's statistics and error without q, ./arena-quant.ts): x, width, b0, b1;
-   * aside (./coded-aside.ts): x, q, width, nb, flags, n.
+   * aside (./coded-aside.ts): x, q, width, nb, flags, n, room (0: none).
    * The band tables (and the statistics written per band) are the kernels' (./wasm/runtime.ts GEO, PAR, RESULTS).
    */
   a: number[];
@@ -177,33 +177,47 @@ export function runArenaPass(args: ArenaPassArgs): number {
 
 /**
  * The 'aside' piece (./coded-aside.ts), while the arena's own thread range-codes q (which the coder only reads):
- * per band Σ(c − rebuilt(q))² (the band tables and Δ, d1, d2 written by the caller) into `sums`, band by band as
- * the 'errors' pieces form them, then q's non-zeros in raster order into `at` and `v` (as many as `at` holds).
- * Each part is skipped once `stop` is set: −1, nothing done; −2, the sums only; else the non-zeros listed.
+ * q's non-zeros in raster order into `at` and `v` (listed by the kernel into the free room at `room`, below the
+ * coder's map, then copied; by a pass here when there is no room), then per band Σ(c − rebuilt(q))² (the band
+ * tables and Δ, d1, d2 written by the caller) into `sums`, band by band as the 'errors' pieces form them, and 1
+ * after them. Each part is skipped once `stop` is set. Returns the non-zeros listed, or −1 for none.
  */
 function aside(args: ArenaPassArgs, lift: LiftingExports): number {
-  const [x, qAt, width, nb, flagsAt, n] = args.a;
+  const [x, qAt, width, nb, flagsAt, n, room] = args.a;
   const { stop, sums, at, v } = args;
   const stopped = () => stop !== undefined && Atomics.load(stop, 0) !== 0;
-  if (stopped() || !sums) return -1;
+  let k = -1;
+  if (at && v && !stopped()) {
+    const count = at.length;
+    if (room > 0) {
+      k = lift.compactNonZero(qAt, flagsAt, n, room, room + 4 * count);
+      at.set(new Int32Array(args.memory.buffer, room, k));
+      v.set(new Int32Array(args.memory.buffer, room + 4 * count, k));
+    } else k = listNonZeros(new Int32Array(args.memory.buffer, qAt, n), flagsAt, args, stopped);
+  }
+  if (!sums) return k;
   for (let b = 0; b < nb; b++) {
-    if (stopped()) return -1;
+    if (stopped()) return k;
     lift.squaredError(x, qAt, width, 1, GEO + 16 * b, PAR + 32 * b, RESULTS + 8 * b);
   }
   sums.set(new Float64Array(args.memory.buffer, RESULTS, nb));
-  if (!at || !v) return -2;
-  const buf = args.memory.buffer;
-  const q = new Int32Array(buf, qAt, n);
-  const flags = new Uint8Array(buf, flagsAt, Math.ceil(n / CHUNK));
+  sums[nb] = 1;
+  return k;
+}
+
+/** q's non-zeros in raster order into args.at and args.v, by the chunk flags at `flagsAt`; −1 if stopped or too many. */
+function listNonZeros(q: Int32Array, flagsAt: number, args: ArenaPassArgs, stopped: () => boolean): number {
+  const { at, v } = args as Required<ArenaPassArgs>;
+  const flags = new Uint8Array(args.memory.buffer, flagsAt, Math.ceil(q.length / CHUNK));
   let k = 0;
   for (let j = 0; j < flags.length; j++) {
-    if ((j & 255) === 0 && stopped()) return -2;
+    if ((j & 255) === 0 && stopped()) return -1;
     if (!flags[j]) continue;
-    const end = Math.min(n, (j + 1) * CHUNK);
+    const end = Math.min(q.length, (j + 1) * CHUNK);
     for (let i = j * CHUNK; i < end; i++) {
       const value = q[i];
       if (value === 0) continue;
-      if (k === at.length) return -2;
+      if (k === at.length) return -1;
       at[k] = i;
       v[k++] = value;
     }

@@ -22,10 +22,10 @@ const sumsOf = new WeakMap<object, Float64Array>();
 const listedOf = new WeakMap<object, { at: Int32Array; v: Int32Array }>();
 
 /**
- * Run `encode` (the range coding of `result`'s q, resident in `arena`: nothing may write the arena's q region or
- * kernel tables meanwhile) while the other thread works out `result`'s band errors (Δ, d1, d2 per band from
- * `par`) and lists its `nonZero` non-zeros; returns what `encode` returns. Without a second thread (or an arena
- * it shares), `encode` alone.
+ * Run `encode` (the range coding of `result`'s q, resident in `arena`, its map at `map`: nothing may write the
+ * arena's q region or kernel tables meanwhile) while the other thread lists its `nonZero` non-zeros and works
+ * out its band errors (Δ, d1, d2 per band from `par`); returns what `encode` returns. Without a second thread
+ * (or an arena it shares), `encode` alone.
  */
 export function besideEncode<T>(
   arena: PlaneArena,
@@ -33,24 +33,25 @@ export function besideEncode<T>(
   bands: BandRect[],
   par: (bi: number) => number[],
   nonZero: number,
+  map: number,
   encode: () => T,
 ): T {
   const nb = bands.length;
   const n = arena.n;
   // A list as large as q itself is not worth the fresh pages (the pass that needs it reads q where it is).
   const list = nonZero > 0 && 8 * nonZero <= 4 * n;
+  // The kernel lists them right below the coder's map (in the work region's lower half, which nothing reads
+  // during an encode), where they fit.
+  const room = Math.floor((map - 8 * nonZero) / 8) * 8;
   const shared = (bytes: number) => new SharedArrayBuffer(bytes);
   const stop = new Int32Array(shared(4));
-  const sums = new Float64Array(shared(8 * nb));
+  const sums = new Float64Array(shared(8 * (nb + 1)));
   const at = list ? new Int32Array(shared(4 * nonZero)) : undefined;
   const v = list ? new Int32Array(shared(4 * nonZero)) : undefined;
   arena.bands(bands, par);
-  const join = offerAlone(arena, 'aside', [arena.coeffsAt, arena.qAt, arena.width, nb, arena.flagsAt, n], {
-    stop,
-    sums,
-    at,
-    v,
-  });
+  const where = [arena.coeffsAt, arena.qAt, arena.width, nb, arena.flagsAt, n];
+  const fits = map < arena.qAt && room >= arena.workAt;
+  const join = offerAlone(arena, 'aside', [...where, fits ? room : 0], { stop, sums, at, v });
   if (!join) return encode();
   let out: T;
   try {
@@ -58,9 +59,10 @@ export function besideEncode<T>(
   } finally {
     // The encode is over (or failed): whatever the other thread has not done is dropped; it stops soon.
     Atomics.store(stop, 0, 1);
-    const done = join();
-    if (done !== -1) sumsOf.set(result, sums);
-    if (done >= 0 && at && v) listedOf.set(result, { at: at.subarray(0, done), v: v.subarray(0, done) });
+    const listed = join();
+    if (sums[nb] === 1) sumsOf.set(result, sums.subarray(0, nb));
+    if (listed >= 0 && at && v)
+      listedOf.set(result, { at: at.subarray(0, listed), v: v.subarray(0, listed) });
   }
   return out;
 }

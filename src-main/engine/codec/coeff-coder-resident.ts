@@ -45,7 +45,7 @@ export function encodeResidentV2(
   if (!beside) return { bytes: encode(), offsets };
   // The reconstruction's Δ, d1, d2 per band, as ./wavelet-rebuild.ts makes them from the result.
   const par = (bi: number) => [beside.steps[bi], offsets[2 * bi], offsets[2 * bi + 1]];
-  return { bytes: besideEncode(arena, beside.result, bands, par, beside.nonZero, encode), offsets };
+  return { bytes: besideEncode(arena, beside.result, bands, par, beside.nonZero, at.mag, encode), offsets };
 }
 
 /**
