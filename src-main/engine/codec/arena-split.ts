@@ -14,8 +14,10 @@
  * piece finds out where it runs from the memory object it is given (the arena's own on this thread; a copy of
  * it, made by the message, on the other).
  */
+
+import { asidePiece } from './aside-piece';
 import { type PlaneArena, widenStaged } from './wasm/arena';
-import { CHUNK, COEF, GEO, type LiftingExports, liftingOn, PAR, RESULTS } from './wasm/runtime';
+import { COEF, GEO, type LiftingExports, liftingOn, PAR, RESULTS } from './wasm/runtime';
 import { arenaMemoryId, isSharedMemory, ownKernels } from './wasm/shared-memory';
 
 /** One piece of a pass, as sent to the other thread. */
@@ -170,59 +172,9 @@ export function runArenaPass(args: ArenaPassArgs): number {
       lift.errorsAt(a[0], a[1], a[2], a[3], GEO, PAR, RESULTS);
       break;
     case 'aside':
-      return aside(args, lift);
+      return asidePiece(args, lift);
   }
   return 0;
-}
-
-/**
- * The 'aside' piece (./coded-aside.ts), while the arena's own thread range-codes q (which the coder only reads):
- * q's non-zeros in raster order into `at` and `v` (listed by the kernel into the free room at `room`, below the
- * coder's map, then copied; by a pass here when there is no room), then per band Σ(c − rebuilt(q))² (the band
- * tables and Δ, d1, d2 written by the caller) into `sums`, band by band as the 'errors' pieces form them, and 1
- * after them. Each part is skipped once `stop` is set. Returns the non-zeros listed, or −1 for none.
- */
-function aside(args: ArenaPassArgs, lift: LiftingExports): number {
-  const [x, qAt, width, nb, flagsAt, n, room] = args.a;
-  const { stop, sums, at, v } = args;
-  const stopped = () => stop !== undefined && Atomics.load(stop, 0) !== 0;
-  let k = -1;
-  if (at && v && !stopped()) {
-    const count = at.length;
-    if (room > 0) {
-      k = lift.compactNonZero(qAt, flagsAt, n, room, room + 4 * count);
-      at.set(new Int32Array(args.memory.buffer, room, k));
-      v.set(new Int32Array(args.memory.buffer, room + 4 * count, k));
-    } else k = listNonZeros(new Int32Array(args.memory.buffer, qAt, n), flagsAt, args, stopped);
-  }
-  if (!sums) return k;
-  for (let b = 0; b < nb; b++) {
-    if (stopped()) return k;
-    lift.squaredError(x, qAt, width, 1, GEO + 16 * b, PAR + 32 * b, RESULTS + 8 * b);
-  }
-  sums.set(new Float64Array(args.memory.buffer, RESULTS, nb));
-  sums[nb] = 1;
-  return k;
-}
-
-/** q's non-zeros in raster order into args.at and args.v, by the chunk flags at `flagsAt`; −1 if stopped or too many. */
-function listNonZeros(q: Int32Array, flagsAt: number, args: ArenaPassArgs, stopped: () => boolean): number {
-  const { at, v } = args as Required<ArenaPassArgs>;
-  const flags = new Uint8Array(args.memory.buffer, flagsAt, Math.ceil(q.length / CHUNK));
-  let k = 0;
-  for (let j = 0; j < flags.length; j++) {
-    if ((j & 255) === 0 && stopped()) return -1;
-    if (!flags[j]) continue;
-    const end = Math.min(q.length, (j + 1) * CHUNK);
-    for (let i = j * CHUNK; i < end; i++) {
-      const value = q[i];
-      if (value === 0) continue;
-      if (k === at.length) return -1;
-      at[k] = i;
-      v[k++] = value;
-    }
-  }
-  return k;
 }
 
 /**
