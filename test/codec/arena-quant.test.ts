@@ -4,7 +4,8 @@
 // 0–6 levels, whichever thread computes which piece: on one thread, every piece computed as it is offered, every
 // piece taken back by the caller (a side thread that never started them), and a real worker thread; a decided
 // plane's rebuild over its coefficients (one split pass instead of the phases over q); and the squared error at a
-// step without writing q (squaredErrorAt) equals that of the quantised plane, bit for bit.
+// step without writing q (squaredErrorAt) equals that of the quantised plane, bit for bit. (The squared error and
+// non-zeros worked out beside an encode: test/codec/coded-aside.test.ts.)
 import { describe, expect, it } from 'vitest';
 import { bandCuts } from '../../src-main/engine/codec/arena-quant';
 import {
@@ -105,9 +106,12 @@ describe('quantiser, squared error and dequantisation split across threads', () 
       expect(got.out).toEqual(ref.out);
       if (!run) continue;
       const how = run === atOnce ? 'offered' : 'taken back';
-      // Three pieces per split pass: two quantisations, one squared error, and each dequantisation phase.
+      // Three pieces per split pass: two quantisations, one squared error, and each dequantisation phase. The
+      // encode's piece beside it (coded-aside.ts) gives the squared error when computed as offered (no 'errors'
+      // pass then); taken back after the encode, it does nothing and the error is split as before.
       expect(counts.get(`${how} quantise`)).toBe(6);
-      expect(counts.get(`${how} errors`)).toBe(3);
+      expect(counts.get(`${how} aside`)).toBe(1);
+      expect(counts.get(`${how} errors`)).toBe(run === atOnce ? undefined : 3);
       expect(counts.get(`${how} dequantise`)).toBe(3 * phases(w * h));
       // Per squaredErrorAt, three pieces of each of its two passes.
       expect(counts.get(`${how} statsAt`)).toBe(3 * SSE_STEPS.length);

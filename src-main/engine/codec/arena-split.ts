@@ -14,6 +14,8 @@
  * piece finds out where it runs from the memory object it is given (the arena's own on this thread; a copy of
  * it, made by the message, on the other).
  */
+
+import { asidePiece } from './aside-piece';
 import { type PlaneArena, widenStaged } from './wasm/arena';
 import { COEF, GEO, type LiftingExports, liftingOn, PAR, RESULTS } from './wasm/runtime';
 import { arenaMemoryId, isSharedMemory, ownKernels } from './wasm/shared-memory';
@@ -23,13 +25,24 @@ export interface ArenaPassArgs {
   /** The arena's memory (shared) and a number naming it across threads. */
   memory: WebAssembly.Memory;
   id: number;
-  op: 'load' | 'rows' | 'cols' | 'touch' | 'quantise' | 'errors' | 'dequantise' | 'statsAt' | 'errorsAt';
+  op:
+    | 'load'
+    | 'rows'
+    | 'cols'
+    | 'touch'
+    | 'quantise'
+    | 'errors'
+    | 'dequantise'
+    | 'statsAt'
+    | 'errorsAt'
+    | 'aside';
   inverse: boolean;
   /**
    * load: dst (f64 bytes); rows: x, width, w, y0, y1; cols: x, width, w, h, c0, c1; touch: from, to (bytes),
    * and 1 to go from the last page down;
    * quantise and errors: x, q, width, b0, b1 (bands), flags (quantise); dequantise: q, x, width, nb, i0, i1;
-   * statsAt and errorsAt (the quantiser's statistics and error without q, ./arena-quant.ts): x, width, b0, b1.
+   * statsAt and errorsAt (the quantiser's statistics and error without q, ./arena-quant.ts): x, width, b0, b1;
+   * aside (./coded-aside.ts): x, q, width, nb, flags, n, room (0: none).
    * The band tables (and the statistics written per band) are the kernels' (./wasm/runtime.ts GEO, PAR, RESULTS).
    */
   a: number[];
@@ -39,6 +52,10 @@ export interface ArenaPassArgs {
   samples?: Float32Array;
   /** touch: set to 1 (on a SharedArrayBuffer) when the pages are needed: the other thread stops there. */
   stop?: Int32Array;
+  /** aside: where the per-band squared errors and q's non-zeros (positions, values) go (shared memory). */
+  sums?: Float64Array;
+  at?: Int32Array;
+  v?: Int32Array;
 }
 
 /** Offers a piece to the other thread; the returned function computes it here or waits for it (its
@@ -159,8 +176,35 @@ export function runArenaPass(args: ArenaPassArgs): number {
       break;
     case 'errorsAt':
       lift.errorsAt(a[0], a[1], a[2], a[3], GEO, PAR, RESULTS);
+      break;
+    case 'aside':
+      return asidePiece(args, lift);
   }
   return 0;
+}
+
+/**
+ * Offer the other thread one piece alone, with no share computed here (./coded-aside.ts): its join, which
+ * computes it here when the other thread has not started it; undefined without a helper or a split arena.
+ */
+export function offerAlone(
+  arena: PlaneArena,
+  op: ArenaPassArgs['op'],
+  a: number[],
+  extra: Pick<ArenaPassArgs, 'stop' | 'sums' | 'at' | 'v'>,
+): (() => number) | undefined {
+  const run = helper;
+  if (!run || !splits(arena, arena.n)) return undefined;
+  const join = run({
+    memory: arena.memory,
+    id: arenaMemoryId(arena.memory),
+    op,
+    inverse: false,
+    a,
+    scratch: [],
+    ...extra,
+  });
+  return () => join() as number;
 }
 
 /**

@@ -4,6 +4,7 @@
  * decode of a check that reads the decoded values in place, in a region lent by a plane's arena or in the
  * port's own memory. Same bytes, same coefficients as ./coeff-coder's array forms.
  */
+import { besideEncode } from './coded-aside';
 import { bandTable, type CodedV2, offsetCodes, offsetsOf, SETUP } from './coeff-coder';
 import * as rc from './range-coder';
 import { workFree } from './resident-plane';
@@ -25,18 +26,26 @@ import type { Band } from './wavelet-transform';
  * binStats gives): the bytes and offsets ./coeff-coder's encodeCoefficientsV2 returns for the same q, without
  * copying q; null where the port is unavailable, or the arena's coefficient region is lent to a decode on
  * another thread, whose coder shares this memory's scratch area (the caller then runs encodeCoefficientsV2).
+ * With `beside` (the quantised result q is of, its band steps and non-zero count), the other thread works out
+ * the result's band errors and non-zeros meanwhile (./coded-aside.ts).
  */
 export function encodeResidentV2(
   arena: PlaneArena,
   bands: Band[],
   stats: { n: Int32Array; sum: Float64Array },
+  beside?: { result: object; steps: Float64Array; nonZero: number },
 ): CodedV2 | null {
   const c = bands.length <= MAX_BANDS && workFree(arena) && !arena.onLoan ? arena.coder(SETUP) : null;
   if (!c) return null;
   const k = offsetCodes(stats.n, stats.sum);
+  const offsets = offsetsOf(stats.n, k);
   const table = bandTable(bands);
   const at = arena.coderLayout(table);
-  return { bytes: encodeAt(c, at, arena.n, arena.width, table, stats.n, k), offsets: offsetsOf(stats.n, k) };
+  const encode = () => encodeAt(c, at, arena.n, arena.width, table, stats.n, k);
+  if (!beside) return { bytes: encode(), offsets };
+  // The reconstruction's Δ, d1, d2 per band, as ./wavelet-rebuild.ts makes them from the result.
+  const par = (bi: number) => [beside.steps[bi], offsets[2 * bi], offsets[2 * bi + 1]];
+  return { bytes: besideEncode(arena, beside.result, bands, par, beside.nonZero, at.mag, encode), offsets };
 }
 
 /**

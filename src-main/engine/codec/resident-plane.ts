@@ -11,6 +11,7 @@
  */
 import { dequantiseSplit, quantiseSplit } from './arena-quant';
 import { loadSplit, offerTouch, settleTouch, transformSplit } from './arena-split';
+import { listedBeside } from './coded-aside';
 import { statsOf } from './resident-bands';
 import { PlaneArena } from './wasm/arena';
 import type { LentRegion } from './wasm/coder-runtime';
@@ -145,6 +146,8 @@ const listedInPlace = new WeakSet<object>();
 
 /** The non-zeros (positions, values) of the q region, which `owner` holds. */
 function nonZerosIn(arena: PlaneArena, owner: object): { at: Int32Array; v: Int32Array } {
+  const listed = listedBeside(owner);
+  if (listed) return listed;
   const { n, qAt } = arena;
   // The quantiser counted the non-zeros (the result's nonZero). Below q lies free room (the coder's map, not in
   // use now) for 4n bytes: the kernel writes positions and values right below q when they fit, else a pass here.

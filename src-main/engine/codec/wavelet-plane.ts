@@ -270,9 +270,15 @@ export function codeAnalysed(a: AnalysedPlane, step: number, coder: PlaneCoder =
   const arena = residentArena(a);
   if (coder === 1) coded.bytes = encodeCoefficientsV1(coded.q, width, bands);
   else {
-    // On a resident plane coder 2 reads q and the bin statistics where they are (./resident-plane).
+    // On a resident plane coder 2 reads q and the bin statistics where they are (./resident-plane), while the
+    // other thread works out the plane's error and non-zeros at this q (./coded-aside).
     const v2 =
-      (arena && encodeResidentV2(arena, bands, binStatsResident(arena, bands, steps))) ||
+      (arena &&
+        encodeResidentV2(arena, bands, binStatsResident(arena, bands, steps), {
+          result: coded,
+          steps,
+          nonZero: coded.nonZero,
+        })) ||
       encodeCoefficientsV2(coded.q, a.coeffs, steps, width, bands);
     coded.bytes = v2.bytes;
     coded.offsets = v2.offsets;

@@ -3,6 +3,7 @@
  * {@link codedSquaredError}): quantised coefficients rebuilt inside their bins and inverse-transformed, by the
  * kernels on a resident plane (./resident-plane), else by the shared kernels or the TypeScript here.
  */
+import { errorsBeside } from './coded-aside';
 import { bandErrorsResident } from './resident-bands';
 import { reconstructResident, residentArena, residentQ } from './resident-plane';
 import { reconstructWasm } from './wasm/runtime';
@@ -88,8 +89,14 @@ function rebuilt(v: number, step: number, d1: number, d2: number): number {
 export function codedSquaredError(a: AnalysedPlane, c: Quantised): number {
   const par = parOf(c);
   const arena = residentArena(a);
+  // Worked out beside c's encode (./coded-aside), from the same q and the same Δ, d1, d2.
+  const known = errorsBeside(c);
   const sums =
-    arena && residentQ(c) === arena ? bandErrorsResident(arena, a.bands, par) : bandErrors(a, c.q, par);
+    known?.length === a.bands.length
+      ? known
+      : arena && residentQ(c) === arena
+        ? bandErrorsResident(arena, a.bands, par)
+        : bandErrors(a, c.q, par);
   let e = 0;
   for (let bi = 0; bi < a.bands.length; bi++) e += a.bands[bi].gain * sums[bi];
   return e;
