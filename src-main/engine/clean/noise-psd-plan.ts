@@ -80,51 +80,32 @@ function planNoiseColour(
   if (choice === 'measured')
     return { psd, report: colourReport('correlated', 'forced', 'forced with --noise-colour measured', psd) };
   if (!psd.correlated) return { psd: null, report: null };
+  /** The verdict white, from the measurement: `reason` says why the spectrum is not taken as the noise's. */
+  const measuredWhite = (reason: string): NoiseColourPlan => ({
+    psd: null,
+    report: colourReport('white', 'measured', reason, psd),
+  });
   if (sigma8 < floor8)
-    return {
-      psd: null,
-      report: colourReport(
-        'white',
-        'measured',
-        'the spectrum looks correlated, but the fine-scale noise is below rounding level (smooth content, not noise)',
-        psd,
-      ),
-    };
+    return measuredWhite(
+      'the spectrum looks correlated, but the fine-scale noise is below rounding level (smooth content, not noise)',
+    );
   const excess = white > 0 ? haarDiagonalVariance(psd) / (white * white) : 1;
   if (excess > TEXTURE_RATIO)
-    return {
-      psd: null,
-      report: colourReport(
-        'white',
-        'measured',
-        `the flat blocks hold texture: their spectrum predicts ${excess.toFixed(1)} times the fine-scale variance the white-noise estimate sees`,
-        psd,
-      ),
-    };
+    return measuredWhite(
+      `the flat blocks hold texture: their spectrum predicts ${excess.toFixed(1)} times the fine-scale variance the white-noise estimate sees`,
+    );
   const fine = estimateNoiseSigma(plane, width, height, clipLow, clipHigh);
   const coarse = coarseNoiseSigma(plane, width, height, clipLow, clipHigh);
   const scale = fine > 0 ? coarse / fine : SCALE_RATIO;
   if (scale < SCALE_RATIO)
-    return {
-      psd: null,
-      report: colourReport(
-        'white',
-        'measured',
-        `the noise reads ${scale.toFixed(2)} times as strong one wavelet scale coarser (white noise: 1): the flat blocks' low frequencies are content`,
-        psd,
-      ),
-    };
+    return measuredWhite(
+      `the noise reads ${scale.toFixed(2)} times as strong one wavelet scale coarser (white noise: 1): the flat blocks' low frequencies are content`,
+    );
   const coarseExcess = coarse > 0 ? haarCoarseVariance(psd) / (coarse * coarse) : 1;
   if (coarseExcess > TEXTURE_RATIO)
-    return {
-      psd: null,
-      report: colourReport(
-        'white',
-        'measured',
-        `the flat blocks hold texture: their spectrum predicts ${coarseExcess.toFixed(1)} times the variance the white-noise estimate sees one wavelet scale coarser`,
-        psd,
-      ),
-    };
+    return measuredWhite(
+      `the flat blocks hold texture: their spectrum predicts ${coarseExcess.toFixed(1)} times the variance the white-noise estimate sees one wavelet scale coarser`,
+    );
   const bounded = excess > AGREEMENT ? scaledPsd(psd, AGREEMENT / excess) : psd;
   return {
     psd: bounded,
