@@ -4,6 +4,7 @@
 // texture bound is checked at that scale too (noise-psd-spectrum.ts haarCoarseVariance).
 import { describe, expect, it } from 'vitest';
 import { coarseNoiseSigma, estimateNoiseSigma } from '../../src-main/engine/clean/noise-estimate';
+import { textureFree } from '../../src-main/engine/clean/noise-psd-plan';
 import { haarCoarseVariance, haarDiagonalVariance } from '../../src-main/engine/clean/noise-psd-spectrum';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { cleanDecoded } from '../../src-main/node/services/clean';
@@ -76,5 +77,33 @@ describe('white noise on stained tissue (colour): cleaned as white noise', () =>
     // scikit-image 0.19.3 told σ 10 on this exact input (texture/SOURCES.md): NL-means +4.092 dB, the best of three
     // (wavelet +2.809, TV +0.601).
     expect(gain).toBeGreaterThan(4.092);
+  }, 60_000);
+});
+
+describe('white noise under texture whose share grows with scale (textureFree)', () => {
+  it('recovers n from n + t·gʲ exactly, and keeps v₁ where the texture does not grow faster', () => {
+    // n = 25, t = 10, g = 4: 35, 65, 185 → 35 − 30²/(120 − 30) = 25.
+    expect(textureFree([35, 65, 185])).toBeCloseTo(25, 12);
+    // White noise alone (no growth) and growth that slows down: the model says nothing, v₁ stands.
+    expect(textureFree([100, 100, 100])).toBe(100);
+    expect(textureFree([100, 140, 160])).toBe(100);
+    // Texture alone (n = 0) and growth that would put n below 0: clamped to 0.
+    expect(textureFree([10, 40, 160])).toBeCloseTo(0, 12);
+    expect(textureFree([10, 50, 100])).toBe(0);
+  });
+
+  it('grass crop with no noise added: read as texture and left untouched', async () => {
+    // test/fixtures/texture/grass-crop.png (SOURCES.md there). Before: the flat-block spectrum was read as
+    // texture and the scan cleaned as white noise of σ̂ 9.16 (the fine-scale detail of the grass itself).
+    const d = await decodeImage(fixture('texture', 'grass-crop.png'));
+    const out = await cleanDecoded(d, { noise: 'auto', banding: 'off', workers: 0 });
+    expect(out.report.noiseColour?.reason).toMatch(
+      /^the flat blocks hold texture.*without the texture's share/,
+    );
+    expect(out.report.noiseSigma).toBeLessThan(1);
+    expect(out.report.noiseSkipped).toMatch(/nothing to remove/);
+    expect(Buffer.from(out.planes[0].buffer).equals(Buffer.from(Float32Array.from(d.planes[0]).buffer))).toBe(
+      true,
+    );
   }, 60_000);
 });

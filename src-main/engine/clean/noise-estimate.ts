@@ -60,6 +60,41 @@ export function coarseNoiseSigma(
   clipLow = Number.NEGATIVE_INFINITY,
   clipHigh = Number.POSITIVE_INFINITY,
 ): number {
+  return scaleSigmas(plane, width, height, clipLow, clipHigh, 2)[1];
+}
+
+/**
+ * σ̂ at `scales` dyadic scales, finest first: the finest as sigmaOfBlocks reads it (no grid test), each next one
+ * on the 2×2 block means of the last plane, times 2 per step (coarseNoiseSigma); 0 where a plane has no blocks.
+ */
+export function scaleSigmas(
+  plane: ArrayLike<number>,
+  width: number,
+  height: number,
+  clipLow: number,
+  clipHigh: number,
+  scales: number,
+): number[] {
+  const out: number[] = [];
+  let p = plane;
+  let w = width;
+  let h = height;
+  for (let j = 0; j < scales; j++) {
+    const blocks = haarBlocks(p, w, h, clipLow, clipHigh);
+    out.push(blocks ? 2 ** j * sigmaOfBlocks(blocks) : 0);
+    if (j + 1 < scales) [p, w, h] = blockMeans(p, w, h, clipLow, clipHigh);
+  }
+  return out;
+}
+
+/** The plane of 2×2 block means; a block with a sample at or beyond a clip level gets that level. */
+function blockMeans(
+  plane: ArrayLike<number>,
+  width: number,
+  height: number,
+  clipLow: number,
+  clipHigh: number,
+): [Float64Array, number, number] {
   const bw = width >> 1;
   const bh = height >> 1;
   const means = new Float64Array(bw * bh);
@@ -72,8 +107,7 @@ export function coarseNoiseSigma(
       means[by * bw + bx] =
         low <= clipLow ? clipLow : high >= clipHigh ? clipHigh : (q[0] + q[1] + q[2] + q[3]) / 4;
     }
-  const blocks = haarBlocks(means, bw, bh, clipLow, clipHigh);
-  return blocks ? 2 * sigmaOfBlocks(blocks) : 0;
+  return [means, bw, bh];
 }
 
 /**

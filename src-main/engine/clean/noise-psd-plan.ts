@@ -40,7 +40,7 @@
  * 2.8, while correlated noise measured 0.7–1.4 on the bench's and 9 unseen images.
  */
 import type { CleanMethodOptions, NoiseColourChoice, NoiseColourReport } from '../../contract';
-import { coarseNoiseSigma, estimateNoiseSigma } from './noise-estimate';
+import { estimateNoiseSigma, scaleSigmas } from './noise-estimate';
 import { estimateNoisePsd, type NoisePsd, PSD_LAG } from './noise-psd';
 import { dctNoiseVariances, haarCoarseVariance, haarDiagonalVariance } from './noise-psd-spectrum';
 
@@ -49,6 +49,8 @@ interface NoiseColourPlan {
   report: NoiseColourReport | null;
   /** The measurement when the noise is modelled as correlated; null: white. */
   psd: NoisePsd | null;
+  /** White noise under texture: the factor (≤ 1) on the white-noise σ̂ that takes the texture out (textureFree). */
+  whiteFactor?: number;
 }
 
 /**
@@ -81,21 +83,33 @@ function planNoiseColour(
     return { psd, report: colourReport('correlated', 'forced', 'forced with --noise-colour measured', psd) };
   if (!psd.correlated) return { psd: null, report: null };
   /** The verdict white, from the measurement: `reason` says why the spectrum is not taken as the noise's. */
-  const measuredWhite = (reason: string): NoiseColourPlan => ({
+  const measuredWhite = (reason: string, whiteFactor?: number): NoiseColourPlan => ({
     psd: null,
     report: colourReport('white', 'measured', reason, psd),
+    ...(whiteFactor === undefined ? {} : { whiteFactor }),
   });
+  const scales = () => scaleSigmas(plane, width, height, clipLow, clipHigh, 3);
+  /** The texture verdicts: white, with σ̂ taken from the three scales (textureFree). */
+  const underTexture = (reason: string, s: number[]) => {
+    const f = s[0] > 0 ? Math.sqrt(textureFree(s.map((v) => v * v)) / (s[0] * s[0])) : 1;
+    return measuredWhite(
+      f < 1 ? `${reason}; the fine-scale σ̂ without the texture's share: ×${f.toFixed(2)}` : reason,
+      f,
+    );
+  };
   if (sigma8 < floor8)
     return measuredWhite(
       'the spectrum looks correlated, but the fine-scale noise is below rounding level (smooth content, not noise)',
     );
   const excess = white > 0 ? haarDiagonalVariance(psd) / (white * white) : 1;
   if (excess > TEXTURE_RATIO)
-    return measuredWhite(
+    return underTexture(
       `the flat blocks hold texture: their spectrum predicts ${excess.toFixed(1)} times the fine-scale variance the white-noise estimate sees`,
+      scales(),
     );
   const fine = estimateNoiseSigma(plane, width, height, clipLow, clipHigh);
-  const coarse = coarseNoiseSigma(plane, width, height, clipLow, clipHigh);
+  const s = scales();
+  const coarse = s[1];
   const scale = fine > 0 ? coarse / fine : SCALE_RATIO;
   if (scale < SCALE_RATIO)
     return measuredWhite(
@@ -103,8 +117,9 @@ function planNoiseColour(
     );
   const coarseExcess = coarse > 0 ? haarCoarseVariance(psd) / (coarse * coarse) : 1;
   if (coarseExcess > TEXTURE_RATIO)
-    return measuredWhite(
+    return underTexture(
       `the flat blocks hold texture: their spectrum predicts ${coarseExcess.toFixed(1)} times the variance the white-noise estimate sees one wavelet scale coarser`,
+      s,
     );
   const bounded = excess > AGREEMENT ? scaledPsd(psd, AGREEMENT / excess) : psd;
   return {
@@ -129,6 +144,20 @@ const TEXTURE_RATIO = 2;
  * read from as few as 8 blocks (noise alone measured 0.95–1.05 on the bench's flat cases). Chosen here.
  */
 const AGREEMENT = 1.1;
+
+/**
+ * The white-noise variance in three variances v₁, v₂, v₃ of the diagonal detail at successive scales (finest
+ * first) read as white noise n (the same at every scale) plus texture whose share grows by one factor per
+ * scale (t, g·t, g²·t): n = v₁ − d₁²/(d₂ − d₁), d₁ = v₂ − v₁, d₂ = v₃ − v₂ (the geometric series through three
+ * terms; Aitken's Δ² extrapolation, common practice). Kept within [0, v₁]; v₁ itself when the texture does not
+ * grow faster at each coarser scale (d₁ ≤ 0 or d₂ ≤ d₁), where the model says nothing.
+ */
+export function textureFree([v1, v2, v3]: number[]): number {
+  const d1 = v2 - v1;
+  const d2 = v3 - v2;
+  if (!(d1 > 0 && d2 > d1)) return v1;
+  return Math.min(v1, Math.max(0, v1 - (d1 * d1) / (d2 - d1)));
+}
 
 /**
  * Below this ratio of the coarse-scale to the finest-scale σ̂ the noise is white (file comment): the geometric
@@ -193,6 +222,9 @@ export function noiseColour(
     white: sigmas[0],
   });
   const psd = plan.psd;
+  const f = plan.whiteFactor;
+  if (f !== undefined && f < 1 && !o.given)
+    return { ...plan, sigmas: sigmas.map((v) => v * f), noiseSigma: noiseSigma * f };
   if (!psd || o.given) return { ...plan, sigmas, noiseSigma };
   const k = sigmas[0] > 0 ? psd.sigma / sigmas[0] : 1;
   return {
