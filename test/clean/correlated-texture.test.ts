@@ -4,7 +4,8 @@
 // with no flat part (a crop of scikit-image's gravel.png, test/fixtures/texture/SOURCES.md) and noise filtered
 // by a known kernel, the spectrum counts the gravel as noise: with the fallback removed, `--noise-colour auto`
 // used it (bounded to 1.1× the fine-scale variance) and lost 5.04 dB (3×3 binomial) and 3.98 dB (5×5 Gaussian)
-// on these inputs, against a gain of +0.24 and +0.02 dB with it.
+// on these inputs, against a gain of +0.24 and +0.02 dB with it (0 dB since the texture's share is taken out of
+// σ̂ on this verdict: see below).
 import { describe, expect, it } from 'vitest';
 import { cleanDecoded } from '../../src-main/node/services/clean';
 import { BINOMIAL_3, filteredNoise, GAUSSIAN_5 } from './correlated-noise';
@@ -34,9 +35,11 @@ describe('correlated noise on texture with no flat part: the noise is taken as w
       // Above TEXTURE_RATIO (2); noise alone measures 0.95–1.05 (noise-psd-plan.ts).
       expect(excess).toBeGreaterThan(2);
       expect(c?.reason).toMatch(/^the flat blocks hold texture/);
-      // The fallback is the white path itself: the same bytes as --noise-colour white.
-      const white = await run('white');
-      expect(Buffer.from(auto.planes[0].buffer).equals(Buffer.from(white.planes[0].buffer))).toBe(true);
+      // The white path at the σ̂ left when the texture's share is taken out across three scales (textureFree).
+      // Low-pass noise grows with scale as the gravel does, so on this all-texture crop it is all taken as
+      // texture and nothing is removed (0 dB; +0.24 and +0.02 dB when σ̂ was used as it stood; h16 measurement).
+      const factor = Number(/without the texture's share: ×([0-9.]+)/.exec(c?.reason ?? '')?.[1]);
+      expect(factor).toBeLessThan(1);
       // Not worse than the outside reference (scikit-image's NL-means does better here: +0.574 and +0.035 dB).
       const gain = psnr(auto.planes[0], t.data) - psnr(noisy, t.data);
       expect(gain).toBeGreaterThanOrEqual(wavelet);

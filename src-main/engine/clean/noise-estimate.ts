@@ -46,6 +46,71 @@ export function estimateNoiseSigma(
 }
 
 /**
+ * σ̂ of white noise read one wavelet scale coarser: the same rule (sigmaOfBlocks) on the plane of 2×2 block
+ * means, times 2. White noise of variance σ² gives the means variance σ²/4, so the result is σ again; noise
+ * with more power at low frequencies than at high ones reads more (filtered noise, noise-psd-plan.ts): 3.5σ̂
+ * through the 3×3 binomial kernel, 4.4σ̂ through the 5×5 Gaussian of σ = 1 (numpy 1.24.2 simulation on
+ * 2048² samples, the ratio to the finest-scale σ̂). A mean over a block with a sample at or beyond a clip level
+ * is set to that level, so that the coarse blocks holding it are skipped as clipped.
+ */
+export function coarseNoiseSigma(
+  plane: ArrayLike<number>,
+  width: number,
+  height: number,
+  clipLow = Number.NEGATIVE_INFINITY,
+  clipHigh = Number.POSITIVE_INFINITY,
+): number {
+  return scaleSigmas(plane, width, height, clipLow, clipHigh, 2)[1];
+}
+
+/**
+ * σ̂ at `scales` dyadic scales, finest first: the finest as sigmaOfBlocks reads it (no grid test), each next one
+ * on the 2×2 block means of the last plane, times 2 per step (coarseNoiseSigma); 0 where a plane has no blocks.
+ */
+export function scaleSigmas(
+  plane: ArrayLike<number>,
+  width: number,
+  height: number,
+  clipLow: number,
+  clipHigh: number,
+  scales: number,
+): number[] {
+  const out: number[] = [];
+  let p = plane;
+  let w = width;
+  let h = height;
+  for (let j = 0; j < scales; j++) {
+    const blocks = haarBlocks(p, w, h, clipLow, clipHigh);
+    out.push(blocks ? 2 ** j * sigmaOfBlocks(blocks) : 0);
+    if (j + 1 < scales) [p, w, h] = blockMeans(p, w, h, clipLow, clipHigh);
+  }
+  return out;
+}
+
+/** The plane of 2×2 block means; a block with a sample at or beyond a clip level gets that level. */
+function blockMeans(
+  plane: ArrayLike<number>,
+  width: number,
+  height: number,
+  clipLow: number,
+  clipHigh: number,
+): [Float64Array, number, number] {
+  const bw = width >> 1;
+  const bh = height >> 1;
+  const means = new Float64Array(bw * bh);
+  for (let by = 0; by < bh; by++)
+    for (let bx = 0; bx < bw; bx++) {
+      const i = 2 * by * width + 2 * bx;
+      const q = [plane[i], plane[i + 1], plane[i + width], plane[i + width + 1]];
+      const low = Math.min(...q);
+      const high = Math.max(...q);
+      means[by * bw + bx] =
+        low <= clipLow ? clipLow : high >= clipHigh ? clipHigh : (q[0] + q[1] + q[2] + q[3]) / 4;
+    }
+  return [means, bw, bh];
+}
+
+/**
  * Block phases to leave out: the block column (bx mod 4) and row (by mod 4) whose 2×2 blocks straddle a
  * boundary of `grid`, −1 on an axis where the boundaries fall between aligned blocks (an odd window phase);
  * null when there is no grid or it straddles no aligned block.

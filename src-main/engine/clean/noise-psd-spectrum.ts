@@ -69,3 +69,22 @@ export function haarDiagonalVariance(psd: NoisePsd): number {
   const r = psd.autocov;
   return r[c] - r[c + 1] - r[c + side] + (r[c + side + 1] + r[c + side - 1]) / 2;
 }
+
+/**
+ * The variance of the 2-D Haar diagonal detail one scale coarser, on the scale of the finest one: (A − B − C + D)/2
+ * of the means A, B, C, D of a 4×4 block's four 2×2 quadrants, times 2 (so white noise of variance σ² gives
+ * σ², as noise-estimate.ts coarseNoiseSigma reads it): (1/16)·Σ wᵢ·wⱼ·r(i − j) over the block, w = +1 on the
+ * top-left and bottom-right quadrants and −1 on the others.
+ */
+export function haarCoarseVariance(psd: NoisePsd): number {
+  const L = psd.lag;
+  const side = 2 * L + 1;
+  const w = (y: number, x: number) => (y < 2 === x < 2 ? 1 : -1);
+  let v = 0;
+  for (let y = 0; y < 4; y++)
+    for (let x = 0; x < 4; x++)
+      for (let y2 = 0; y2 < 4; y2++)
+        for (let x2 = 0; x2 < 4; x2++)
+          v += w(y, x) * w(y2, x2) * psd.autocov[(y - y2 + L) * side + x - x2 + L];
+  return v / 16;
+}

@@ -196,13 +196,16 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
   const sigma8 = (sigmas[0] * 255) / maxValue;
   const method = settings.method ?? 'groups';
   const fixedOverride = settings.rank !== undefined || settings.threshold !== undefined;
-  if (noiseSource === 'estimated' && sigma8 < MIN_AUTO_SIGMA_8BIT && !fixedOverride)
-    return noDenoise(
+  if (noiseSource === 'estimated' && sigma8 < MIN_AUTO_SIGMA_8BIT && !fixedOverride) {
+    const skipped = noDenoise(
       noiseSigma,
       noiseSource,
       `estimated noise σ ${noiseSigma.toFixed(2)} is below ${((MIN_AUTO_SIGMA_8BIT * maxValue) / 255).toFixed(2)} grey levels (rounding level); nothing to remove`,
       plan.report,
     );
+    // Where the texture's share took σ̂ down to this level, the colour report says so (noise-psd-plan.ts).
+    return tone.whiteFactor !== undefined && tone.report ? { ...skipped, noiseColour: tone.report } : skipped;
+  }
   const common: Omit<PreparedClean, 'params' | 'tile'> = {
     ...base,
     ...model,
