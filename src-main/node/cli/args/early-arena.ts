@@ -17,6 +17,7 @@
  * the touch are never read).
  */
 import { closeSync, existsSync, fstatSync, openSync, readSync } from 'node:fs';
+import { parseArgs } from 'node:util';
 import type { Budget } from '../../../contract';
 import { checkTile, parseBudgetText } from '../../../contract/budget';
 import { OPTIONS, optionValue, parseOptionText } from '../../../contract/options';
@@ -25,6 +26,8 @@ import { isSharedMemory, newArenaMemory } from '../../../engine/codec/wasm/share
 import { residualFirstApplies } from '../../../engine/lowrank/residual-scope';
 import { prefault } from '../../image/prefault';
 import type { ArenaAhead } from '../../services/arenas-ahead';
+import type { OptionSpec } from './command';
+import { COMPRESS_OPTIONS } from './compress-options';
 
 /** Where the launcher leaves it for the CLI entry (../cli/main.ts), which takes it once. */
 const KEY = Symbol.for('rankfold.arenaAhead');
@@ -56,36 +59,33 @@ export function compressWantsSide(argv: readonly string[]): boolean {
  */
 const FIRST_TOUCH_BYTES = 32 << 20;
 
-/** Options of `compress` that take no value (the others take the next argument unless written with =). */
-const FLAGS = new Set(['--json', '--force', '--compare', '--stack', '--lossless']);
-/** Every option of `compress` (../commands/compress.ts); any other is refused by the command. */
-const KNOWN = new Set([
-  ...FLAGS,
-  ...['--output', '-o', '--tile', '--layers', '--page', '--pixel-limit', '--workers'],
-  ...['--rank', '--budget', '--bpp', '--min-psnr', '--min-ssim'],
-]);
-
 /**
- * What `compress ARGS` asks for, as far as the arguments show: the input (the first positional) and each
- * option's last value; undefined when an option is given twice or the input is missing.
+ * What `compress ARGS` asks for, read with the command's own option declarations (./compress-options.ts) and
+ * node:util parseArgs as the command reads them: the input and each option's value as text (a switch as '');
+ * undefined when the command would refuse the arguments, there is not exactly one input, or an option is given
+ * twice.
  */
 function compressArgs(argv: readonly string[]) {
-  const given = new Map<string, string>();
-  let input: string | undefined;
-  for (let i = 0; i < argv.length; i++) {
-    const a = argv[i];
-    if (!a.startsWith('-') || a === '-') {
-      input ??= a;
-      continue;
-    }
-    if (a === '--') return undefined;
-    const eq = a.indexOf('=');
-    const name = eq > 0 ? a.slice(0, eq) : a;
-    const value = eq > 0 ? a.slice(eq + 1) : FLAGS.has(a) ? '' : argv[++i];
-    if (value === undefined || given.has(name)) return undefined;
-    given.set(name, value);
+  let parsed: ReturnType<typeof parseArgs<{ options: OptionSpec; allowPositionals: true; tokens: true }>>;
+  try {
+    parsed = parseArgs({
+      args: [...argv],
+      options: { ...COMPRESS_OPTIONS, help: { type: 'boolean', short: 'h' } },
+      allowPositionals: true,
+      strict: true,
+      tokens: true,
+    });
+  } catch {
+    return undefined;
   }
-  return input === undefined ? undefined : { input, given };
+  const given = new Map<string, string>();
+  for (const t of parsed.tokens) {
+    if (t.kind !== 'option') continue;
+    if (given.has(t.name)) return undefined;
+    given.set(t.name, t.value ?? '');
+  }
+  const [input, ...more] = parsed.positionals;
+  return input === undefined || more.length > 0 ? undefined : { input, given };
 }
 
 /**
@@ -94,23 +94,22 @@ function compressArgs(argv: readonly string[]) {
  * makes nothing ahead); undefined otherwise.
  */
 function budgetOf(given: Map<string, string>): Budget | undefined {
-  if (given.has('--lossless') || given.has('--rank') || given.has('--min-ssim')) return undefined;
-  if ([...given.keys()].some((k) => !KNOWN.has(k))) return undefined;
-  const kinds = (['--budget', '--bpp', '--min-psnr'] as const).filter((k) => given.has(k));
+  if (given.has('lossless') || given.has('rank') || given.has('min-ssim')) return undefined;
+  const kinds = (['budget', 'bpp', 'min-psnr'] as const).filter((k) => given.has(k));
   if (kinds.length !== 1) return undefined;
   const text = (k: string) => given.get(k) as string;
   try {
-    const tile = given.get('--tile')?.trim();
+    const tile = given.get('tile')?.trim();
     if (tile !== undefined && tile !== 'auto') checkTile(optionValue(OPTIONS.tile, tile));
     for (const [k, d] of [
-      ['--workers', OPTIONS.workers],
-      ['--page', OPTIONS.page],
-      ['--pixel-limit', OPTIONS.pixelLimit],
+      ['workers', OPTIONS.workers],
+      ['page', OPTIONS.page],
+      ['pixel-limit', OPTIONS.pixelLimit],
     ] as const)
       if (given.has(k)) parseOptionText(d, text(k));
-    if (kinds[0] === '--budget') return parseBudgetText(text('--budget'));
-    if (kinds[0] === '--bpp') return { kind: 'bpp', bpp: parseOptionText(OPTIONS.bpp, text('--bpp')) };
-    return { kind: 'psnr', db: parseOptionText(OPTIONS.minPsnr, text('--min-psnr')) };
+    if (kinds[0] === 'budget') return parseBudgetText(text('budget'));
+    if (kinds[0] === 'bpp') return { kind: 'bpp', bpp: parseOptionText(OPTIONS.bpp, text('bpp')) };
+    return { kind: 'psnr', db: parseOptionText(OPTIONS.minPsnr, text('min-psnr')) };
   } catch {
     return undefined;
   }
@@ -144,20 +143,19 @@ export function greyPngSize(file: string): { width: number; height: number } | u
  */
 export function arenaAhead(argv: readonly string[]): ArenaAhead | undefined {
   const args = compressArgs(argv);
-  if (!args || args.given.has('--stack') || args.given.has('--help') || args.given.has('-h'))
-    return undefined;
+  if (!args || args.given.has('stack') || args.given.has('help')) return undefined;
   if (!compressWantsSide(argv)) return undefined;
   const budget = budgetOf(args.given);
-  const layers = args.given.get('--layers') ?? 'auto';
+  const layers = args.given.get('layers') ?? 'auto';
   if (budget === undefined || layers !== 'auto') return undefined;
   // The command refuses these before it decodes (../../services/compress.ts compressFile).
-  const output = args.given.get('--output') ?? args.given.get('-o');
-  if (!output || !/\.rkf$/i.test(output) || (!args.given.has('--force') && existsSync(output)))
+  const output = args.given.get('output');
+  if (!output || !/\.rkf$/i.test(output) || (!args.given.has('force') && existsSync(output)))
     return undefined;
   const size = greyPngSize(args.input);
   if (!size) return undefined;
   const { width, height } = size;
-  const limit = args.given.get('--pixel-limit');
+  const limit = args.given.get('pixel-limit');
   if (limit !== undefined && !(Number(limit) >= width * height)) return undefined;
   if (!residualFirstApplies(width, height, { layers, budget })) return undefined;
   const bytes = arenaBytes(width, height);

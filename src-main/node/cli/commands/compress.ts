@@ -8,13 +8,9 @@ import {
   UsageError,
 } from '../../../contract';
 import { compressFile } from '../../services/compress';
-import { BUDGET_OPTIONS, parseBudgetOrLossless, parseTileOption } from '../args/budget-options';
-import { type CliIO, type Command, flags, parseCommandArgs } from '../args/command';
-
-const options = {
-  ...BUDGET_OPTIONS,
-  ...flags('output tile layers page pixel-limit workers', 'json force compare stack lossless'),
-};
+import { parseBudgetOrLossless, parseTileOption } from '../args/budget-options';
+import { type CliIO, type Command, parseCommandArgs } from '../args/command';
+import { COMPRESS_OPTIONS } from '../args/compress-options';
 
 const help = `Usage: rankfold compress IN -o OUT.rkf (--rank K | --budget SIZE | --bpp X | --min-psnr DB | --min-ssim S | --lossless) [options]
 
@@ -115,7 +111,7 @@ export const command: Command = {
       };
       return mod.runStack(argv, io);
     }
-    const { values: v, positionals } = parseCommandArgs('compress', argv, options);
+    const { values: v, positionals } = parseCommandArgs('compress', argv, COMPRESS_OPTIONS);
     const input = positionals[0];
     if (!input) throw new UsageError('compress: missing input file. See `rankfold compress --help`.');
     const output = v.output as string | undefined;
