@@ -12,7 +12,9 @@ import { ssim, ssimRowSums } from '../metrics';
 import { type CropBaseArgs, cropBaseError } from './base-estimate';
 import { type CropFit, type CropFitArgs, type CropFloorArgs, cropFit, cropFloor } from './crop-fit';
 import { type SpreadCropArgs, spreadCrop } from './floor-aim';
+import { planeEnergy } from './plane-energy';
 import { verifyResidual } from './residual-verify';
+import { touchPages } from './ssim-bands';
 
 export interface SideJobs {
   /** SSIM map row sums of window rows from … to − 1, from image rows from … to + 10 of both planes (../metrics). */
@@ -71,6 +73,10 @@ export interface SideJobs {
    * memory (../codec/arena-split, ../codec/arena-quant).
    */
   'arena-pass': { args: ArenaPassArgs; result: number };
+  /** The energy Σ_k weights[k]·Σ planes[k]² of a scan's planes (./plane-energy). */
+  'plane-energy': { args: { planes: Float32Array[]; weights: number[] }; result: number };
+  /** One value of every page of each (shared) array written with 0, so later writers take no page faults. */
+  'touch-pages': { args: { arrays: Float32Array[] }; result: number };
 }
 export type SideJobName = keyof SideJobs;
 
@@ -94,6 +100,8 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
     return { q, offsets };
   },
   'residual-verify': verifyResidual,
+  'plane-energy': ({ planes, weights }) => planeEnergy(planes, weights),
+  'touch-pages': touchPages,
 };
 
 /**
