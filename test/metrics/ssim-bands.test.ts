@@ -161,17 +161,30 @@ describe('SSIM summed in a ring of slots equals ssim() of the whole planes bit f
     readySlots(w, late);
     // Readied again for the same width: kept, no second job.
     readySlots(w, late);
-    expect(order).toEqual(['offer touch-pages']);
+    expect(order).toEqual(['offer touch-pages', 'offer ssim-ready']);
     expect(measure(late, a, b, w, h, [16])).toBe(want);
-    expect(order[1]).toBe('join touch-pages');
-    expect(order.filter((o) => o === 'join touch-pages')).toHaveLength(1);
-    // Slots of another width replace them, the pending job joined first.
+    expect(order.slice(2, 4)).toEqual(['join touch-pages', 'join ssim-ready']);
+    expect(order.filter((o) => o.startsWith('join touch'))).toHaveLength(1);
+    // The measurement kept its slots for the next one of that width: nothing to make.
     order.length = 0;
     readySlots(w, late);
+    expect(order).toEqual([]);
+    // Slots made for another width are dropped, their jobs joined, when a measurement takes slots of its own.
     readySlots(w + 1, late);
-    expect(order).toEqual(['offer touch-pages']);
+    expect(order).toEqual(['offer touch-pages', 'offer ssim-ready']);
     expect(measure(late, a, b, w, h, [16])).toBe(want);
-    expect(order.filter((o) => o.startsWith('join touch'))).toHaveLength(1);
+    expect(order.slice(2, 4)).toEqual(['join touch-pages', 'join ssim-ready']);
+    // Slots made for the width measured next are used, their jobs joined before the first write.
+    const [c, d] = pair(w + 1, h, 10);
+    order.length = 0;
+    readySlots(w + 1, late);
+    expect(measure(late, c, d, w + 1, h, [16])).toBe(ssim(c, d, w + 1, h, 255));
+    expect(order.slice(0, 4)).toEqual([
+      'offer touch-pages',
+      'offer ssim-ready',
+      'join touch-pages',
+      'join ssim-ready',
+    ]);
   });
 
   it('touchPages writes one value of every 4 KiB page of each array, and leaves zeros as they are', () => {

@@ -8,7 +8,7 @@ import { type ArenaPassArgs, runArenaPass } from '../codec/arena-split';
 import { decodeCoefficientsV2 } from '../codec/coeff-coder';
 import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../codec/wavelet-plane';
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
-import { ssim, ssimRowSums } from '../metrics';
+import { readySsimKernel, ssim, ssimRowSums } from '../metrics';
 import { type CropBaseArgs, cropBaseError } from './base-estimate';
 import { type CropFit, type CropFitArgs, type CropFloorArgs, cropFit, cropFloor } from './crop-fit';
 import { type SpreadCropArgs, spreadCrop } from './floor-aim';
@@ -77,6 +77,8 @@ export interface SideJobs {
   'plane-energy': { args: { planes: Float32Array[]; weights: number[] }; result: number };
   /** One value of every page of each (shared) array written with 0, so later writers take no page faults. */
   'touch-pages': { args: { arrays: Float32Array[] }; result: number };
+  /** The SSIM kernel of the thread that runs it made ready for `width`-wide rows (../metrics readySsimKernel). */
+  'ssim-ready': { args: { width: number }; result: number };
 }
 export type SideJobName = keyof SideJobs;
 
@@ -102,6 +104,7 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
   'residual-verify': verifyResidual,
   'plane-energy': ({ planes, weights }) => planeEnergy(planes, weights),
   'touch-pages': touchPages,
+  'ssim-ready': ({ width }) => readySsimKernel(width),
 };
 
 /**

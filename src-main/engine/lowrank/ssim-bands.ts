@@ -55,14 +55,25 @@ function newSlots(width: number): Float32Array[] {
  * Make the slots of the next measurement of a `width`-wide scan now, with their pages touched on the other
  * thread (`side`, a 'touch-pages' job of ./side-jobs), so the thread that later fills them with decoded rows
  * does not take their first-touch page faults (about 4 MB on a 3300-wide scan, ~11 ms at this project's
- * measured ~2.8 ms per fresh MB). Nothing is done when slots of that width are kept already or the runtime
- * has no shared memory. The touch job is joined before a slot is first written.
+ * measured ~2.8 ms per fresh MB), and that thread's SSIM kernel is made ready for the width (its ~2 MB of
+ * memory touched: ../metrics readySsimKernel). Nothing is done when slots of that width are kept already or the
+ * runtime has no shared memory. The jobs are joined before a slot is first written.
  */
 export function readySlots(width: number, side: SideRunner): void {
   if (spare?.width === width || typeof SharedArrayBuffer !== 'function') return;
   spare?.touched?.();
   const slots = newSlots(width);
-  spare = { width, slots, touched: side('touch-pages', { arrays: slots }) };
+  const touch = side('touch-pages', { arrays: slots });
+  // That thread's SSIM kernel made ready too (its memory's fresh pages touched): it sums most of the jobs.
+  const kernel = side('ssim-ready', { width });
+  spare = {
+    width,
+    slots,
+    touched: () => {
+      touch();
+      kernel();
+    },
+  };
 }
 
 /** Write 0 to one value of every 4 KiB page of each array (fresh zero pages: the values do not change). */
