@@ -7,7 +7,7 @@
 import { beforeAll, describe, expect, it } from 'vitest';
 import { initEngine } from '../../src-main/engine/linalg';
 import { runHere, type SideRunner } from '../../src-main/engine/lowrank/side-jobs';
-import { SsimBands } from '../../src-main/engine/lowrank/ssim-bands';
+import { readySlots, SsimBands, touchPages } from '../../src-main/engine/lowrank/ssim-bands';
 import { ssim } from '../../src-main/engine/metrics';
 import { lcg } from '../helpers/lcg';
 
@@ -142,6 +142,55 @@ describe('SSIM summed in a ring of slots equals ssim() of the whole planes bit f
       if (pattern === 'aro') expect(joined.slice(0, 3)).toEqual([3, 0, 5]);
       if (pattern === 'rrrr') expect(joined.slice(0, 3)).toEqual([0, 1, 2]);
     }
+  });
+
+  it('slots made ahead (readySlots) are touched by a job joined before any slot is written', () => {
+    const [w, h] = [40, 700];
+    const [a, b] = pair(w, h, 9);
+    const want = ssim(a, b, w, h, 255);
+    // The touch job runs only when joined: had a slot been written before that, the zeros it writes (one value
+    // per 1024, on rows the ramp makes non-zero) would change the value.
+    const order: string[] = [];
+    const late: SideRunner = (name, args) => {
+      order.push(`offer ${name}`);
+      return () => {
+        order.push(`join ${name}`);
+        return runHere(name, args)();
+      };
+    };
+    readySlots(w, late);
+    // Readied again for the same width: kept, no second job.
+    readySlots(w, late);
+    expect(order).toEqual(['offer touch-pages', 'offer ssim-ready']);
+    expect(measure(late, a, b, w, h, [16])).toBe(want);
+    expect(order.slice(2, 4)).toEqual(['join touch-pages', 'join ssim-ready']);
+    expect(order.filter((o) => o.startsWith('join touch'))).toHaveLength(1);
+    // The measurement kept its slots for the next one of that width: nothing to make.
+    order.length = 0;
+    readySlots(w, late);
+    expect(order).toEqual([]);
+    // Slots made for another width are dropped, their jobs joined, when a measurement takes slots of its own.
+    readySlots(w + 1, late);
+    expect(order).toEqual(['offer touch-pages', 'offer ssim-ready']);
+    expect(measure(late, a, b, w, h, [16])).toBe(want);
+    expect(order.slice(2, 4)).toEqual(['join touch-pages', 'join ssim-ready']);
+    // Slots made for the width measured next are used, their jobs joined before the first write.
+    const [c, d] = pair(w + 1, h, 10);
+    order.length = 0;
+    readySlots(w + 1, late);
+    expect(measure(late, c, d, w + 1, h, [16])).toBe(ssim(c, d, w + 1, h, 255));
+    expect(order.slice(0, 4)).toEqual([
+      'offer touch-pages',
+      'offer ssim-ready',
+      'join touch-pages',
+      'join ssim-ready',
+    ]);
+  });
+
+  it('touchPages writes one value of every 4 KiB page of each array, and leaves zeros as they are', () => {
+    const arrays = [new Float32Array(1024 * 3 + 1), new Float32Array(10)];
+    expect(touchPages({ arrays })).toBe(4 + 1);
+    for (const x of arrays) expect(x.every((v) => v === 0)).toBe(true);
   });
 
   it('refuses a value before every row was added', () => {

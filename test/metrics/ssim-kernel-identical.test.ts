@@ -4,7 +4,7 @@
 // the smallest plane the window allows, and a custom window radius.
 import { describe, expect, it } from 'vitest';
 import { SsimStream, ssim, ssimRowSums } from '../../src-main/engine/metrics';
-import { ssimKernelActive } from '../../src-main/engine/metrics/wasm/runtime';
+import { readySsimKernel, ssimKernelActive } from '../../src-main/engine/metrics/wasm/runtime';
 import { bothPaths, restoreKernelsAfterEach } from '../helpers/kernel-paths';
 import { lcg } from '../helpers/lcg';
 
@@ -49,6 +49,21 @@ describe('SSIM WebAssembly kernel gives the TypeScript bits', () => {
     expect([...sGot]).toEqual([...sRef]);
     const [r3, g3] = bothPaths(() => ssim(a, b, w, h, 255, { radius: 3, sigma: 1 }));
     expect(g3).toBe(r3);
+  });
+
+  it('readying the kernel for wider rows mid-stream (its memory grown, fresh pages touched) changes no bit', () => {
+    const [w, h] = [301, 97];
+    const [a, b] = planes(w, h, 11);
+    const [ref] = bothPaths(() => ssim(a, b, w, h, 255));
+    const s = new SsimStream(w, h, 255);
+    s.addRows(a, b, 40, 0, 0);
+    // 20 000 columns: a ring of 11·5·19 990 f64 (8.8 MB), more than any stream here used, so the memory grows.
+    const pages = readySsimKernel(20_000);
+    expect(pages).toBeGreaterThan((11 * 5 * 19_990 * 8) / 4096 - 256);
+    expect(readySsimKernel(20_000)).toBe(0);
+    expect(readySsimKernel(w)).toBe(0);
+    s.addRows(a, b, h - 40, 40 * w, 40 * w);
+    expect(s.value()).toBe(ref);
   });
 
   it('interleaved streams fed in uneven bands, with a skipped identical top, match the whole-plane value', () => {

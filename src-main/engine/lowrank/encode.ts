@@ -25,15 +25,8 @@ import { solveFloor, truncationError } from './floor-solve';
 import { fittingFactors } from './given-factors';
 import { imageWriter } from './image-writer';
 import { chooseExact } from './lossless-choice';
-import {
-  decodedSse,
-  finishScan,
-  maxOf,
-  measuredSse,
-  type Prepared,
-  residualFirstFor,
-  sumSquares,
-} from './scan-finish';
+import { startPlaneEnergy } from './plane-energy';
+import { decodedSse, finishScan, maxOf, measuredSse, type Prepared, residualFirstFor } from './scan-finish';
 import { type Plan, type PlaneInput, solveBytes, solveRank } from './solve';
 import { chooseLayers, emptyBase, type LayerPlan } from './two-layer';
 
@@ -76,27 +69,28 @@ function encodeLossy(img: DecodedImage, opts: EncodeOptions): EncodeResult {
   const first = residualFirstFor(img, opts, prep, max, byteBudget, build, cancel);
   if (first) {
     // Rank 0: the Eckart–Young optimum is the whole energy, which is the base error; σ₁ was not computed.
-    const energy = prep.planes.reduce((s, p, k) => s + prep.weights[k] * sumSquares(p), 0);
-    const errors = {
-      frobenius: Math.sqrt(energy),
-      frobeniusOptimal: Math.sqrt(energy),
-      spectralBound: Number.NaN,
-    };
-    const {
-      frobenius: _f,
-      baseBytes: _b,
-      ...r
-    } = finishScan(
-      img,
-      prep,
-      entropy,
-      opts,
-      build,
-      first.basePlanes,
-      first.residual,
-      first.file,
-      first.decoded,
-    );
+    // Summed on the second thread while this one measures the file (./plane-energy).
+    const energy = startPlaneEnergy(prep.planes, prep.weights, opts.side);
+    let finished: ReturnType<typeof finishScan>;
+    try {
+      finished = finishScan(
+        img,
+        prep,
+        entropy,
+        opts,
+        build,
+        first.basePlanes,
+        first.residual,
+        first.file,
+        first.decoded,
+      );
+    } catch (err) {
+      energy();
+      throw err;
+    }
+    const { frobenius: _f, baseBytes: _b, ...r } = finished;
+    const e = energy();
+    const errors = { frobenius: Math.sqrt(e), frobeniusOptimal: Math.sqrt(e), spectralBound: Number.NaN };
     progress('done', 1);
     return { ...r, errors, factorMs: 0, encodeMs: now() - t0, layers: first.layers };
   }

@@ -17,6 +17,7 @@ import { startResidualCheck } from './residual-check';
 import { residualFirst } from './residual-first';
 import { residualFirstApplies } from './residual-scope';
 import { runHere, type SideRunner, ssimPlanesSplit } from './side-jobs';
+import { readySlots } from './ssim-bands';
 
 /** The coded planes of a scan with their names and weights. */
 export interface Prepared extends EncodedPlanes {
@@ -56,6 +57,11 @@ export function finishScan(
   const max = maxOf(img.bitDepth);
   const run = opts.side ?? runHere;
   let bytes = file ?? build(basePlanes, false, residual);
+  const streamed = !prep.colour && !decodedFile;
+  // The SSIM's row slots of the grey file's measuring (./ssim-bands) made now, their pages touched on the
+  // other thread, idle while this one starts the file's decode.
+  if (streamed && opts.side && width >= 11 && height >= 11 && !measuredFiles.has(bytes))
+    readySlots(width, opts.side);
   // The range decoder's check of the recorded residual planes, on the second thread while this one rebuilds
   // and measures (started when the file was built, on the residual-only path); without one, here.
   const started = takeStartedCheck(bytes);
@@ -76,7 +82,6 @@ export function finishScan(
   };
   // A grey scan is measured while its file is decoded band by band (./decoded-figures: no decoded plane);
   // a colour scan, or a file the caller decoded already, on the whole decoded planes.
-  const streamed = !prep.colour && !decodedFile;
   const measure = (b: Uint8Array, d?: DecodedRkf) =>
     streamed
       ? (takeMeasured(b) ?? measureGreyFile(b, img, max, opts.side))
@@ -259,12 +264,6 @@ function squaredError(a: Float32Array[], b: Float32Array[]): number {
       sse += d * d;
     }
   return sse;
-}
-
-export function sumSquares(p: ArrayLike<number>): number {
-  let s = 0;
-  for (let i = 0; i < p.length; i++) s += p[i] * p[i];
-  return s;
 }
 
 function sameSamples(a: Float32Array[], b: Float32Array[]): boolean {

@@ -8,11 +8,13 @@ import { type ArenaPassArgs, runArenaPass } from '../codec/arena-split';
 import { decodeCoefficientsV2 } from '../codec/coeff-coder';
 import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../codec/wavelet-plane';
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
-import { ssim, ssimRowSums } from '../metrics';
+import { readySsimKernel, ssim, ssimRowSums } from '../metrics';
 import { type CropBaseArgs, cropBaseError } from './base-estimate';
 import { type CropFit, type CropFitArgs, type CropFloorArgs, cropFit, cropFloor } from './crop-fit';
 import { type SpreadCropArgs, spreadCrop } from './floor-aim';
+import { planeEnergy } from './plane-energy';
 import { verifyResidual } from './residual-verify';
+import { touchPages } from './ssim-bands';
 
 export interface SideJobs {
   /** SSIM map row sums of window rows from … to − 1, from image rows from … to + 10 of both planes (../metrics). */
@@ -71,6 +73,12 @@ export interface SideJobs {
    * memory (../codec/arena-split, ../codec/arena-quant).
    */
   'arena-pass': { args: ArenaPassArgs; result: number };
+  /** The energy Σ_k weights[k]·Σ planes[k]² of a scan's planes (./plane-energy). */
+  'plane-energy': { args: { planes: Float32Array[]; weights: number[] }; result: number };
+  /** One value of every page of each (shared) array written with 0, so later writers take no page faults. */
+  'touch-pages': { args: { arrays: Float32Array[] }; result: number };
+  /** The SSIM kernel of the thread that runs it made ready for `width`-wide rows (../metrics readySsimKernel). */
+  'ssim-ready': { args: { width: number }; result: number };
 }
 export type SideJobName = keyof SideJobs;
 
@@ -94,6 +102,9 @@ export const SIDE_JOBS: { [K in SideJobName]: (args: SideJobs[K]['args']) => Sid
     return { q, offsets };
   },
   'residual-verify': verifyResidual,
+  'plane-energy': ({ planes, weights }) => planeEnergy(planes, weights),
+  'touch-pages': touchPages,
+  'ssim-ready': ({ width }) => readySsimKernel(width),
 };
 
 /**

@@ -30,18 +30,61 @@ const SLOT_ROWS = 64;
 /** Slots: the other thread may lag this many jobs behind before this one sums a job itself (or waits). */
 const SLOTS = 4;
 
-/** Slots of earlier measurements, kept for the next one of the same width (no fresh pages each time). */
-let spare: { width: number; slots: Float32Array[] } | undefined;
+/**
+ * Slots of earlier measurements, kept for the next one of the same width (no fresh pages each time), or made
+ * ahead by {@link readySlots}; `touched` joins the job touching their pages, which must end before any write.
+ */
+let spare: { width: number; slots: Float32Array[]; touched?: () => unknown } | undefined;
 
-function takeSlots(width: number): Float32Array[] {
-  const kept = spare?.width === width ? spare.slots : undefined;
+function takeSlots(width: number): { slots: Float32Array[]; touched?: () => unknown } {
+  const kept = spare?.width === width ? spare : undefined;
+  if (spare && !kept) spare.touched?.();
   spare = undefined;
-  if (kept) return kept;
+  return kept ?? { slots: newSlots(width) };
+}
+
+function newSlots(width: number): Float32Array[] {
   const n = (OVERLAP + SLOT_ROWS) * width;
   const shared = typeof SharedArrayBuffer === 'function';
   return Array.from({ length: SLOTS }, () =>
     shared ? new Float32Array(new SharedArrayBuffer(4 * n)) : new Float32Array(n),
   );
+}
+
+/**
+ * Make the slots of the next measurement of a `width`-wide scan now, with their pages touched on the other
+ * thread (`side`, a 'touch-pages' job of ./side-jobs), so the thread that later fills them with decoded rows
+ * does not take their first-touch page faults (about 4 MB on a 3300-wide scan, ~11 ms at this project's
+ * measured ~2.8 ms per fresh MB), and that thread's SSIM kernel is made ready for the width (its ~2 MB of
+ * memory touched: ../metrics readySsimKernel). Nothing is done when slots of that width are kept already or the
+ * runtime has no shared memory. The jobs are joined before a slot is first written.
+ */
+export function readySlots(width: number, side: SideRunner): void {
+  if (spare?.width === width || typeof SharedArrayBuffer !== 'function') return;
+  spare?.touched?.();
+  const slots = newSlots(width);
+  const touch = side('touch-pages', { arrays: slots });
+  // That thread's SSIM kernel made ready too (its memory's fresh pages touched): it sums most of the jobs.
+  const kernel = side('ssim-ready', { width });
+  spare = {
+    width,
+    slots,
+    touched: () => {
+      touch();
+      kernel();
+    },
+  };
+}
+
+/** Write 0 to one value of every 4 KiB page of each array (fresh zero pages: the values do not change). */
+export function touchPages({ arrays }: { arrays: Float32Array[] }): number {
+  let pages = 0;
+  for (const a of arrays)
+    for (let i = 0; i < a.length; i += 1024) {
+      a[i] = 0;
+      pages++;
+    }
+  return pages;
 }
 
 /** A job still holding its slot: its place in job order and its join. */
@@ -57,6 +100,8 @@ interface Pending {
  */
 export class SsimBands {
   private readonly slots: Float32Array[];
+  /** The job touching the slots' pages (./ssim-bands readySlots), until joined before the first write. */
+  private touched: (() => unknown) | undefined;
   /** Jobs still holding a slot, in job order; slots holding no job; the row sums of every job joined, by job. */
   private readonly pending: Pending[] = [];
   private readonly free: number[] = [];
@@ -75,12 +120,15 @@ export class SsimBands {
     private readonly height: number,
     private readonly range: number,
   ) {
-    this.slots = takeSlots(width);
+    const { slots, touched } = takeSlots(width);
+    this.slots = slots;
+    this.touched = touched;
     for (let k = SLOTS - 1; k > 0; k--) this.free.push(k);
   }
 
   /** Add the next `rows` decoded rows, from b[0]. */
   add(b: Float32Array, rows: number): void {
+    this.joinTouch();
     const { width } = this;
     let done = 0;
     while (done < rows) {
@@ -94,6 +142,7 @@ export class SsimBands {
 
   /** The mean SSIM, once every row was added (joins every job). */
   value(): number {
+    this.joinTouch();
     if (this.from + this.filled !== this.height)
       throw new RangeError(`SsimBands: ${this.from + this.filled} of ${this.height} rows were added`);
     if (this.filled > OVERLAP) this.submit(false);
@@ -107,6 +156,7 @@ export class SsimBands {
 
   /** After a failed decode: every pending job joined (none may still read a slot), their sums dropped. */
   drop(): void {
+    this.joinTouch();
     for (let j = this.pending.length - 1; j >= 0; j--)
       try {
         this.pending[j].join();
@@ -114,6 +164,13 @@ export class SsimBands {
         // The decode's error is the one to report.
       }
     this.pending.length = 0;
+  }
+
+  /** The touch job of the slots joined (its answer only says it ended: nothing writes them from now on). */
+  private joinTouch(): void {
+    const t = this.touched;
+    this.touched = undefined;
+    t?.();
   }
 
   /** Offer the current slot's window rows as a job; with `more`, start a free slot with its overlap. */

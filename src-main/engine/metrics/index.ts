@@ -11,3 +11,4 @@ export {
 } from './eckart-young';
 export { frobeniusError, mse, psnr, psnrFromMse, psnrFromSse, psnrPlanes, SseStream, sse } from './psnr';
 export { SsimStream, ssim, ssimFromRowSums, ssimPlanes, ssimRowSums } from './ssim';
+export { readySsimKernel } from './wasm/runtime';

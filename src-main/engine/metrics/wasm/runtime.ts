@@ -89,15 +89,8 @@ export function ssimRowsWasm(
   const k = kernel.get();
   if (!k) return null;
   const { width, R } = s;
-  const chunk = Math.max(1, Math.floor(CALL_BYTES / (16 * width)));
-  const ringAt = DATA;
-  const tmpAt = ringAt + align16(8 * (s.ringLength + 2));
-  const aAt = tmpAt + align16(40 * width);
-  const bAt = aAt + align16(8 * chunk * width);
-  const sumsAt = bAt + align16(8 * chunk * width);
-  // Each row's sum as the kernel's column strips add to it.
-  const accAt = sumsAt + align16(8 * chunk);
-  if (!reserveBytes(k, accAt + 8 * chunk)) return null;
+  const { chunk, ringAt, tmpAt, aAt, bAt, sumsAt, accAt, end } = callLayout(width, s.ringLength);
+  if (!reserveBytes(k, end)) return null;
   const buf = () => k.memory.buffer;
   if (owner !== s) {
     if (owner) releaseRing(owner);
@@ -145,6 +138,42 @@ export function ssimRowsWasm(
     }
   }
   return total;
+}
+
+/**
+ * Where one call's regions lie (byte offsets) for a stream `width` wide whose ring holds `ringLength` values,
+ * the rows copied per call (`chunk`), and the bytes the memory needs (`end`).
+ */
+function callLayout(width: number, ringLength: number) {
+  const chunk = Math.max(1, Math.floor(CALL_BYTES / (16 * width)));
+  const ringAt = DATA;
+  const tmpAt = ringAt + align16(8 * (ringLength + 2));
+  const aAt = tmpAt + align16(40 * width);
+  const bAt = aAt + align16(8 * chunk * width);
+  const sumsAt = bAt + align16(8 * chunk * width);
+  // Each row's sum as the kernel's column strips add to it.
+  const accAt = sumsAt + align16(8 * chunk);
+  return { chunk, ringAt, tmpAt, aAt, bAt, sumsAt, accAt, end: accAt + 8 * chunk };
+}
+
+/**
+ * Make this thread's kernel ready for SSIM streams `width` wide (window radius R) before they come: compiled,
+ * its memory grown to what their calls need, and the grown pages touched (one byte written per 4 KiB page of
+ * memory no stream has used yet), so the first call takes no first-touch page faults (about 2 MB on a
+ * 3300-wide scan). Nothing changes for a stream: the kernel's memory only holds more touched pages. Returns
+ * the pages touched (0 when the kernel is unavailable or its memory was large enough already).
+ */
+export function readySsimKernel(width: number, R = 5): number {
+  const k = kernel.get();
+  const wv = width - 2 * R;
+  if (!k || wv < 1) return 0;
+  const { end } = callLayout(width, (2 * R + 1) * 5 * wv);
+  const have = k.memory.buffer.byteLength;
+  if (end <= have || !reserveBytes(k, end)) return 0;
+  const fresh = new Uint8Array(k.memory.buffer, have);
+  let pages = 0;
+  for (let i = 0; i < fresh.length; i += 4096, pages++) fresh[i] = 0;
+  return pages;
 }
 
 function copyRows(dst: Float32Array | Float64Array, src: ArrayLike<number>, from: number): void {
