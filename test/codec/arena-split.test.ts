@@ -1,9 +1,8 @@
 // A plane arena's load and 9/7 transforms split across two threads (src-main/engine/codec/arena-split.ts): the
 // coefficients and the rebuilt plane equal the single-thread kernels' and the TypeScript reference's bit for
 // bit, on odd sizes and 1–6 levels, whichever thread computes which piece: all pieces computed as they are
-// offered, all taken back by the caller (a side thread that never started them), and a real worker thread,
-// also while that thread runs the crop's base estimate (which lets pieces through between tiles).
-import { beforeAll, describe, expect, it } from 'vitest';
+// offered, all taken back by the caller (a side thread that never started them), and a real worker thread.
+import { describe, expect, it } from 'vitest';
 import {
   type ArenaRunner,
   loadSplit,
@@ -14,8 +13,6 @@ import {
   withArenaHelper,
 } from '../../src-main/engine/codec/arena-split';
 import { PlaneArena } from '../../src-main/engine/codec/wasm/arena';
-import { initEngine } from '../../src-main/engine/linalg';
-import { type CropBaseArgs, cropBaseError } from '../../src-main/engine/lowrank/base-estimate';
 import { isSharedMemory } from '../../src-main/engine/codec/wasm/shared-memory';
 import { forwardWavelet, inverseWavelet, LIFTING } from '../../src-main/engine/codec/wavelet-transform';
 import { arenasAtEverySize, offeredWithPause, realSideThread } from '../helpers/side-thread';
@@ -101,8 +98,6 @@ describe('plane arena passes on two threads', () => {
 
 describe('plane arena passes on a real second thread', () => {
   const sideThread = realSideThread();
-  // The worker runs the WebAssembly kernels (its tile SVDs among them): so must this thread, for the same value.
-  beforeAll(initEngine);
 
   it('computes pieces in the shared memory, with the same bits', () => {
     const thread = sideThread();
@@ -133,38 +128,4 @@ describe('plane arena passes on a real second thread', () => {
     expect(thread.taken).toBe(taken + 1);
     arena.release();
   });
-
-  it('are let through while the worker runs the crop base estimate, which it finishes with the same value', () => {
-    const thread = sideThread();
-    // Three 512² noisy planes (shared, as residual-first's crop is): an estimate of several hundred ms.
-    const [w, h] = [512, 512];
-    const crop = [1, 2, 3].map((seed) => {
-      const p = rampPlane(w, h, seed);
-      const s = new Float64Array(new SharedArrayBuffer(8 * p.length));
-      s.set(p);
-      return s;
-    });
-    const args: CropBaseArgs = {
-      crop,
-      width: w,
-      height: h,
-      weights: [0.6, 0.2, 0.2],
-      scales: [1, Math.sqrt(3), Math.sqrt(3)],
-      bytes: (0.25 * w * h) / 8,
-      maxValue: 255,
-      tiles: [32, 64],
-    };
-    const want = cropBaseError(args);
-    const job = thread.run('crop-base-sse', args);
-    const tick = new Int32Array(new SharedArrayBuffer(4));
-    while (job.state?.() === 'offered') Atomics.wait(tick, 0, 0, 1);
-    const taken = thread.taken;
-    const [pw, ph, levels] = CASES[2];
-    const p = sharedPlane(pw, ph, 5);
-    expect(arenaRun(p, pw, ph, levels, offeredWithPause(thread))).toEqual(referenceRun(p, pw, ph, levels));
-    // Pieces were computed by the worker while the estimate was still running there.
-    expect(job.state?.()).toBe('running');
-    expect(thread.taken).toBeGreaterThan(taken);
-    expect(job()).toBe(want);
-  }, 60_000);
 });

@@ -26,7 +26,6 @@ import { gramSvdColumns } from '../linalg/gram-svd';
 import { poolHull } from './allocate';
 import { codeLengths, countVector, newCounts, vectorBits } from './cost-model';
 import { meanRemovedTile } from './factorise';
-import { letPiecesThrough } from './side-yield';
 import { hillClimb, stepGrid } from './solve';
 
 /** One tile's SVD less its quantised mean: σ, and U (h-long) and V (w-long) columns stored one after another. */
@@ -71,7 +70,6 @@ export function tileColumns(
   const grid = tileGrid(width, height, tile);
   const cut = store && new Float64Array(grid.reduce((m, r) => Math.max(m, r.w * r.h), 0));
   return grid.map((rect) => {
-    letPiecesThrough();
     const { h, w } = rect;
     const { a, energy } = meanRemovedTile(plane, width, rect, { meanRemoval: true, meanStep }, false, cut);
     if (energy === 0)
@@ -261,7 +259,6 @@ function errorAtStep(
   for (const { tiles, weight, stepScale } of planes) {
     const step = delta * stepScale;
     for (const t of tiles) {
-      letPiecesThrough();
       let r = 0;
       while (r < t.s.length && !(t.s[r] < (0.5 + DEAD_ZONE) * step)) r++;
       for (let i = 0; i < r; i++, c++) {
