@@ -2,7 +2,9 @@
  * Thin SVD of a small matrix through the eigen-decomposition of its Gram matrix, as contiguous columns:
  * for n ≤ m (else on Aᵀ), G = AᵀA = W·Λ·Wᵀ by symmetric-eigen.ts (its WebAssembly kernel when loaded), V = W,
  * and each column A·w gives σ as its norm (more accurate for small σ than √λ) and u as itself over that
- * norm. Triplets are sorted by σ, non-increasing.
+ * norm. Triplets are sorted by σ, non-increasing (ties by λ, then by the eigenpair's index). The kernel's
+ * eigenpairs are used as it leaves them, unsorted: ordering them by λ first (symmetricEigen) cost a sort, two
+ * fresh arrays and an n² copy per tile, ~13 % of the warm crop estimate, for the same arrays bit for bit.
  *
  * Cost: about 2mnk + 4k³ flops for the decomposition, against one-sided Jacobi's 6–10 sweeps of ≈ 3mk²
  * each. On the 512² crop of an 8.25-MP scan (warm, load 18) its 256 tiles of 32² took 25–30 ms of user CPU
@@ -53,7 +55,18 @@ export function gramSvdColumns(a: Matrix, into?: SvdColumns): SvdColumns {
     const G = ws.f64(n * n);
     // G(i, j) = Σ_p A(p, i)·A(p, j): Aᵀ read with row stride 1 and column stride n.
     ws.gemm(n, n, m, A, 0, 1, n, A, 0, n, G, 0, n, false);
-    const { vectorsT } = symmetricEigen(G, n, ws);
+    // Eigenpairs unsorted from the kernel when it runs (row i of Et: the vector of λ[i]), else symmetric-eigen.ts's
+    // sorted by λ: either way the triplets are ordered below by σ, then λ, then index, which is the order by σ
+    // of the λ-sorted pairs (ties by λ position), so the arrays are the same.
+    let lam = ws.symEigen ? ws.f64(n) : undefined;
+    let Et = ws.symEigen ? ws.f64(n * n) : undefined;
+    if (!(ws.symEigen && lam && Et && ws.symEigen(G, n, lam, Et))) {
+      const r = symmetricEigen(G, n);
+      lam = r.values;
+      Et = r.vectorsT;
+    }
+    const vectorsT = Et;
+    const values = lam;
     // W row-major (column j = eigenvector j), then AW (m×n): column j is σⱼ·uⱼ.
     const W = ws.f64(n * n);
     for (let j = 0; j < n; j++) for (let i = 0; i < n; i++) W[i * n + j] = vectorsT[j * n + i];
@@ -62,7 +75,9 @@ export function gramSvdColumns(a: Matrix, into?: SvdColumns): SvdColumns {
     const norms = new Float64Array(n);
     for (let r = 0; r < m; r++) for (let j = 0; j < n; j++) norms[j] += AW[r * n + j] * AW[r * n + j];
     for (let j = 0; j < n; j++) norms[j] = Math.sqrt(norms[j]);
-    const order = Array.from({ length: n }, (_, j) => j).sort((x, y) => norms[y] - norms[x] || x - y);
+    const order = Array.from({ length: n }, (_, j) => j).sort(
+      (x, y) => norms[y] - norms[x] || values[y] - values[x] || x - y,
+    );
     for (let k = 0; k < n; k++) {
       const j = order[k];
       s[k] = norms[j];

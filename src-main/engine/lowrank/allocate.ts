@@ -41,9 +41,10 @@ export interface Block {
 }
 
 /**
- * Pool adjacent violators over one tile's steps (gains[i], costs[i], i < n; costs floored at 1e-9) into
- * scratch arrays: hull block j has gain sg[j], cost sc[j] and end rank se[j]. Returns the number of blocks,
- * trailing blocks with gain ≤ 0 dropped. {@link hullBlocks} and the large-scan encoder's packed order use it.
+ * Pool adjacent violators over one tile's steps (gains[from + i], costs[from + i], i < n; costs floored at
+ * 1e-9) into scratch arrays: hull block j has gain sg[j], cost sc[j] and end rank se[j]. Returns the number
+ * of blocks, trailing blocks with gain ≤ 0 dropped. {@link hullBlocks}, the large-scan encoder's packed order
+ * and the crop's base estimate (./base-estimate, every tile's steps in one array) use it.
  */
 export function poolHull(
   gains: ArrayLike<number>,
@@ -52,11 +53,12 @@ export function poolHull(
   sg: number[],
   sc: number[],
   se: number[],
+  from = 0,
 ): number {
   let m = 0;
   for (let i = 0; i < n; i++) {
-    let gain = gains[i];
-    let cost = Math.max(costs[i], 1e-9);
+    let gain = gains[from + i];
+    let cost = Math.max(costs[from + i], 1e-9);
     while (m > 0 && gain * sc[m - 1] >= sg[m - 1] * cost) {
       m--;
       gain = sg[m] + gain;

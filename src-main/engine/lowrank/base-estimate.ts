@@ -13,13 +13,17 @@
  *   within 1.3e-11 relative (mostly 1e-14–1e-13) on 13 images (6 of samples/, the 6 test fixtures and a
  *   3300×2500 grey speed scan) at 0.1, 0.25, 0.5 and 1 bpp and PSNR floors 33 and 38.5: none of the 78
  *   decisions changed; test/lowrank/base-estimate.test.ts checks ≤ 1e-9;
- * - every quantised vector of a step goes into one reused buffer instead of an object per component.
+ * - every quantised vector of a step goes into one reused buffer instead of an object per component, and a
+ *   step's gains, costs and hull blocks into typed arrays sized once per crop (no GainCost or Block objects;
+ *   the same hull, the same total order and the same sums in the same order, so the same value bit for bit:
+ *   checked against the object version on the 14 images of samples/, test/fixtures/images and the speed
+ *   scan at 0.05–2 bpp, 84 values equal). That took the side thread's CPU for the speed scan's crop from
+ *   ≈ 150 to ≈ 135 ms warm (the first, cold call ≈ 200 ms of its thread either way, load 9).
  */
 import { DEAD_ZONE } from '../codec/quantise';
 import { tileGrid } from '../codec/quantised';
 import { gramSvdColumns } from '../linalg/gram-svd';
-import { type GainCost, greedyOrder } from './allocate';
-import { prefixForBytes, prefixTotals } from './candidate';
+import { poolHull } from './allocate';
 import { codeLengths, countVector, newCounts, vectorBits } from './cost-model';
 import { meanRemovedTile } from './factorise';
 import { hillClimb, stepGrid } from './solve';
@@ -95,13 +99,13 @@ export interface CropBaseArgs {
 
 /**
  * Lowest estimated base error at `bytes` over the tile sides, each tiling factored on the crop. One column
- * store and one quantised-entry buffer, sized once for the largest tiling, serve every tiling and step
+ * store and one set of step arrays, sized once for the largest tiling, serve every tiling and step
  * (issue 12: fresh pages cost ≈ 11 µs each on the bench VM; per-tile arrays touched ≈ 6.5 k of them).
  */
 export function cropBaseError(a: CropBaseArgs): number {
   const per = a.tiles.map((t) => columnsLength(a.width, a.height, t));
   const store = new Float64Array(a.crop.length * Math.max(0, ...per));
-  const scratch = { q: new Int32Array(store.length) };
+  const scratch = new StepScratch(store.length);
   let best = Number.POSITIVE_INFINITY;
   a.tiles.forEach((tile, i) => {
     const planes: ColumnsPlane[] = a.crop.map((p, k) => ({
@@ -119,20 +123,78 @@ export function cropBaseError(a: CropBaseArgs): number {
  * (./solve estimateErrorAtBytes on the same tiles, the same value).
  */
 export function baseErrorAtBytes(planes: ColumnsPlane[], payload: number, maxValue: number): number {
-  return climb(planes, payload, maxValue, { q: new Int32Array(1 << 16) });
+  return climb(planes, payload, maxValue, new StepScratch(1 << 16));
 }
 
-function climb(
-  planes: ColumnsPlane[],
-  payload: number,
-  maxValue: number,
-  scratch: { q: Int32Array },
-): number {
+function climb(planes: ColumnsPlane[], payload: number, maxValue: number, scratch: StepScratch): number {
   const grid = stepGrid(maxValue);
-  return hillClimb(grid.length, (k) => errorAtStep(planes, grid[k], payload, scratch))[0].err;
+  // Σ weight·‖tile − mean‖², in the order errorAtStep summed it at every step.
+  let baseD = 0;
+  let count = 0;
+  for (const { tiles, weight } of planes)
+    for (const t of tiles) {
+      baseD += weight * t.energy;
+      count += t.s.length;
+    }
+  scratch.fit(count);
+  return hillClimb(grid.length, (k) => errorAtStep(planes, grid[k], payload, baseD, scratch))[0].err;
 }
 
-/** Quantise x[from … from + len) at scale/step into q[at …] (quantiseVector's arithmetic); returns Σ q². */
+/**
+ * Arrays one step's estimate works in, grown when a tiling needs more: quantised entries (q), and per
+ * component its gain, its cost and where its entries start; per hull block its gain, cost, tile and end rank.
+ */
+class StepScratch {
+  q: Int32Array;
+  gains = new Float64Array(0);
+  costs = new Float64Array(0);
+  at = new Int32Array(0);
+  bGain = new Float64Array(0);
+  bCost = new Float64Array(0);
+  bTile = new Int32Array(0);
+  bEnd = new Int32Array(0);
+  ratio = new Float64Array(0);
+  idx = new Uint32Array(0);
+  /** poolHull's scratch (one tile's blocks). */
+  sg: number[] = [];
+  sc: number[] = [];
+  se: number[] = [];
+  /** The quantised pair's Σ qᵤ·u and Σ q_v·v, set by {@link quantiseInto}. */
+  dot = 0;
+
+  constructor(entries: number) {
+    this.q = new Int32Array(entries);
+  }
+
+  /** Room for `n` components' gains, costs and blocks. */
+  fit(n: number): void {
+    if (this.gains.length >= n) return;
+    this.gains = new Float64Array(n);
+    this.costs = new Float64Array(n);
+    this.at = new Int32Array(n);
+    this.bGain = new Float64Array(n);
+    this.bCost = new Float64Array(n);
+    this.bTile = new Int32Array(n);
+    this.bEnd = new Int32Array(n);
+    this.ratio = new Float64Array(n);
+    this.idx = new Uint32Array(n);
+  }
+
+  /** Room for `n` quantised entries, keeping the first `used`. */
+  room(used: number, n: number): Int32Array {
+    if (this.q.length < n) {
+      const grown = new Int32Array(2 * n);
+      grown.set(this.q.subarray(0, used));
+      this.q = grown;
+    }
+    return this.q;
+  }
+}
+
+/**
+ * Quantise x[from … from + len) at scale/step into q[at …] (quantiseVector's arithmetic); returns Σ q² and
+ * sets s.dot to Σ q[at + j]·x[from + j] in order of j (what componentError's dot product gives).
+ */
 function quantiseInto(
   x: Float64Array,
   from: number,
@@ -140,36 +202,33 @@ function quantiseInto(
   inv: number,
   q: Int32Array,
   at: number,
+  s: StepScratch,
 ): number {
   let n2 = 0;
+  let d = 0;
   for (let j = 0; j < len; j++) {
-    const y = x[from + j] * inv;
+    const xj = x[from + j];
+    const y = xj * inv;
     const a = Math.abs(y);
     const r = a < 0.5 + DEAD_ZONE ? 0 : Math.floor(a + 0.5 - DEAD_ZONE);
-    q[at + j] = y < 0 ? -r : r;
+    const v = y < 0 ? -r : r;
+    q[at + j] = v;
     n2 += r * r;
+    d += v * xj;
   }
+  s.dot = d;
   return n2;
 }
 
-/** Σ q[at + j]·x[from + j] in order of j. */
-function dotQ(q: Int32Array, at: number, x: Float64Array, from: number, len: number): number {
-  let d = 0;
-  for (let j = 0; j < len; j++) d += q[at + j] * x[from + j];
-  return d;
-}
-
 /**
- * componentError of ../codec/quantise for the vectors q[at …] (h entries) and q[at + h …] (w entries)
+ * componentError of ../codec/quantise for the quantised pair (Σ q², and Σ q·x from {@link quantiseInto})
  * against σ·u·vᵀ, the same operations in the same order.
  */
 function quantisedError(
-  q: Int32Array,
-  at: number,
-  t: TileColumns,
-  i: number,
   nu2: number,
   nv2: number,
+  du: number,
+  dv: number,
   sigma: number,
   step: number,
 ): number {
@@ -177,58 +236,85 @@ function quantisedError(
   const nv = Math.sqrt(nv2);
   const c = nu > 0 && nv > 0 ? step / Math.sqrt(nu * nv) : 0;
   if (c === 0) return sigma * sigma;
-  const du = dotQ(q, at, t.u, i * t.h, t.h);
-  const dv = dotQ(q, at + t.h, t.v, i * t.w, t.w);
   const e = c * c * nu2 * nv2 + sigma * sigma - 2 * sigma * c * du * dv;
   return e > 0 ? e : 0;
 }
 
-/** The estimated error at step Δ = `delta` of the greedy prefix whose estimated bits fit `payload` bytes. */
+/**
+ * The estimated error at step Δ = `delta` of the greedy prefix whose estimated bits fit `payload` bytes:
+ * ./allocate greedyOrder's blocks (poolHull per tile, then ratio, tile and end rank: a total order) and
+ * ./candidate prefixTotals and prefixForBytes, in typed arrays (as ./packed-order does).
+ */
 function errorAtStep(
   planes: ColumnsPlane[],
   delta: number,
   payload: number,
-  scratch: { q: Int32Array },
+  baseD: number,
+  s: StepScratch,
 ): number {
   const counts = newCounts();
-  const seqs: Array<GainCost & { at: Int32Array; h: number; w: number }> = [];
-  let baseD = 0;
+  const { gains, costs, at } = s;
   let used = 0;
+  let c = 0;
   for (const { tiles, weight, stepScale } of planes) {
     const step = delta * stepScale;
     for (const t of tiles) {
-      baseD += weight * t.energy;
       let r = 0;
       while (r < t.s.length && !(t.s[r] < (0.5 + DEAD_ZONE) * step)) r++;
-      const gains = new Float64Array(r);
-      const at = new Int32Array(r);
-      for (let i = 0; i < r; i++) {
+      for (let i = 0; i < r; i++, c++) {
         const sigma = t.s[i];
-        if (scratch.q.length < used + t.h + t.w) {
-          const grown = new Int32Array(2 * (used + t.h + t.w));
-          grown.set(scratch.q.subarray(0, used));
-          scratch.q = grown;
-        }
-        const q = scratch.q;
+        const q = s.room(used, used + t.h + t.w);
         const inv = sigma / step;
-        const nu2 = quantiseInto(t.u, i * t.h, t.h, inv, q, used);
-        const nv2 = quantiseInto(t.v, i * t.w, t.w, inv, q, used + t.h);
-        const gain = sigma * sigma - quantisedError(q, used, t, i, nu2, nv2, sigma, step);
+        const nu2 = quantiseInto(t.u, i * t.h, t.h, inv, q, used, s);
+        const du = s.dot;
+        const nv2 = quantiseInto(t.v, i * t.w, t.w, inv, q, used + t.h, s);
+        const gain = sigma * sigma - quantisedError(nu2, nv2, du, s.dot, sigma, step);
         const err = sigma * sigma - gain;
-        gains[i] = weight * (sigma * sigma - err);
+        gains[c] = weight * (sigma * sigma - err);
         countVector(counts, q, used, t.h);
         countVector(counts, q, used + t.h, t.w);
-        at[i] = used;
+        at[c] = used;
         used += t.h + t.w;
       }
-      seqs.push({ gains, costs: new Float64Array(r), at, h: t.h, w: t.w });
     }
   }
   const table = codeLengths(counts);
-  for (const s of seqs)
-    for (let i = 0; i < s.at.length; i++)
-      (s.costs as Float64Array)[i] =
-        vectorBits(scratch.q, table, s.at[i], s.h) + vectorBits(scratch.q, table, s.at[i] + s.h, s.w) + 2;
-  const { cumCost, cumGain } = prefixTotals(greedyOrder(seqs));
-  return Math.max(0, baseD - cumGain[prefixForBytes(cumCost, payload, 1)]);
+  const { bGain, bCost, bTile, bEnd, ratio, idx, sg, sc, se } = s;
+  let nb = 0;
+  let tile = 0;
+  c = 0;
+  for (const { tiles, stepScale } of planes) {
+    const step = delta * stepScale;
+    for (const t of tiles) {
+      let r = 0;
+      while (r < t.s.length && !(t.s[r] < (0.5 + DEAD_ZONE) * step)) r++;
+      for (let i = 0; i < r; i++)
+        costs[c + i] =
+          vectorBits(s.q, table, at[c + i], t.h) + vectorBits(s.q, table, at[c + i] + t.h, t.w) + 2;
+      const m = poolHull(gains, costs, r, sg, sc, se, c);
+      for (let j = 0; j < m; j++, nb++) {
+        bGain[nb] = sg[j];
+        bCost[nb] = sc[j];
+        bTile[nb] = tile;
+        bEnd[nb] = se[j];
+        ratio[nb] = sg[j] / sc[j];
+      }
+      c += r;
+      tile++;
+    }
+  }
+  const order = idx.subarray(0, nb);
+  for (let i = 0; i < nb; i++) order[i] = i;
+  order.sort((x, y) => ratio[y] - ratio[x] || bTile[x] - bTile[y] || bEnd[x] - bEnd[y]);
+  // ./candidate prefixForBytes at ratio 1: the longest prefix whose cumulative cost is ≤ the payload's bits.
+  const bits = (payload * 8) / 1;
+  let cost = 0;
+  let gain = 0;
+  for (let i = 0; i < nb; i++) {
+    const b = order[i];
+    if (!(cost + bCost[b] <= bits)) break;
+    cost += bCost[b];
+    gain += bGain[b];
+  }
+  return Math.max(0, baseD - gain);
 }

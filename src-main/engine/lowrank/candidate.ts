@@ -231,7 +231,7 @@ function orderCandidate(
 }
 
 /** cumCost[P] and cumGain[P]: the totals of the first P blocks of a greedy order. */
-export function prefixTotals(order: Block[]): { cumCost: Float64Array; cumGain: Float64Array } {
+function prefixTotals(order: Block[]): { cumCost: Float64Array; cumGain: Float64Array } {
   const cumCost = new Float64Array(order.length + 1);
   const cumGain = new Float64Array(order.length + 1);
   for (let k = 0; k < order.length; k++) {
