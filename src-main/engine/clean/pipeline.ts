@@ -22,7 +22,7 @@ import { estimateNoiseSigma } from './noise-estimate';
 import { flatEvidence, MIN_FLAT_BLOCKS } from './noise-evidence';
 import { planNoiseModel } from './noise-model';
 import { patchCrossCovariance, WIENER_AVERAGE } from './noise-psd-cross';
-import { noiseColour, patchSpectrum } from './noise-psd-plan';
+import { clipLevels, noiseColour, patchSpectrum } from './noise-psd-plan';
 import { autoGroupParams, type GroupParams, groupMedianRuleSigma } from './patch-groups';
 import { coarseLevels, type DenoiseLevel } from './pyramid';
 import { type DenoiseStats, mergeStats, rowBands } from './row-bands';
@@ -208,8 +208,11 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     return tone.whiteFactor !== undefined && tone.report ? { ...skipped, noiseColour: tone.report } : skipped;
   }
   // White noise must be seen in the flat parts of the scan (noise-evidence.ts); otherwise σ̂ was read off content.
-  if (noiseSource === 'estimated' && !tone.psd && !fixedOverride) {
-    const evidence = flatEvidence(work[0], width, height, sigmas[0], 0, maxValue);
+  // Not with --noise-colour white or measured: there the user says what the noise is.
+  const autoColour = (settings.noiseColour ?? 'auto') === 'auto';
+  if (noiseSource === 'estimated' && autoColour && !tone.psd && !fixedOverride) {
+    const [lo, hi] = clipLevels(work[0], maxValue, stabilised);
+    const evidence = flatEvidence(work[0], width, height, sigmas[0], lo, hi);
     if (evidence.blocks < MIN_FLAT_BLOCKS) {
       const skipped = noDenoise(
         noiseSigma,
