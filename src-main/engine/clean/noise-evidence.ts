@@ -31,7 +31,9 @@ import { flatnessStatistic } from './noise-flat';
 const FLAT_QUANTILE = 13.3616;
 /**
  * Rounds of test and re-estimate (chosen here, as noise-level.ts FLAT_STEPS): white noise settles in 2–3 rounds
- * (the count changes by < 1 % after the third on the noisy cases measured), content falls to none in 2–4.
+ * (from the third to the fourth the count moved by 0.04–2.3 % on scikit-image's camera, coins, horse and
+ * green_palette with σ 2 and 5 added), content falls to none (horse, coins, microaneurysms, text, chelsea and ihc
+ * as stored) or to a few dozen blocks (gravel) in 1–4.
  */
 const EVIDENCE_STEPS = 4;
 /**
