@@ -214,18 +214,7 @@ export function noiseColour(
     return { psd: null, report, sigmas, noiseSigma };
   }
   const sigma8 = (sigmas[0] * 255) / o.maxValue;
-  // Clipped samples carry no noise: 0 and the maximum, or the extremes of a variance-stabilised plane.
-  let lo = 0;
-  let hi = o.maxValue;
-  if (o.stabilised) {
-    lo = Number.POSITIVE_INFINITY;
-    hi = Number.NEGATIVE_INFINITY;
-    for (const v of guide) {
-      if (v < lo) lo = v;
-      if (v > hi) hi = v;
-    }
-  }
-  const plan = planNoiseColour(guide, o, [lo, hi], choice, {
+  const plan = planNoiseColour(guide, o, clipLevels(guide, o.maxValue, o.stabilised), choice, {
     sigma8,
     floor8: ROUNDING_SIGMA_8BIT,
     white: sigmas[0],
@@ -241,6 +230,21 @@ export function noiseColour(
     sigmas: sigmas.map((s, c) => (c === 0 ? psd.sigma : s * k)),
     noiseSigma: o.colour ? noiseSigma * k : psd.sigma,
   };
+}
+
+/**
+ * The levels at which samples of `guide` are clipped and carry no noise: 0 and `maxValue`, or the extremes of a
+ * variance-stabilised plane (whose values are no longer on the sample scale).
+ */
+export function clipLevels(guide: Float32Array, maxValue: number, stabilised: boolean): [number, number] {
+  if (!stabilised) return [0, maxValue];
+  let lo = Number.POSITIVE_INFINITY;
+  let hi = Number.NEGATIVE_INFINITY;
+  for (const v of guide) {
+    if (v < lo) lo = v;
+    if (v > hi) hi = v;
+  }
+  return [lo, hi];
 }
 
 /** The DCT noise spectrum for patches of side p, or undefined when p is beyond the measured lags. */

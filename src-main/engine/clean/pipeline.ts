@@ -19,9 +19,10 @@ import { bandingReport } from './banding-report';
 import { lambdaStar } from './gavish-donoho';
 import { denoiseLevels, joinLevels, runLevelJobs, withPassThrough } from './level-jobs';
 import { estimateNoiseSigma } from './noise-estimate';
+import { flatEvidence, MIN_FLAT_BLOCKS } from './noise-evidence';
 import { planNoiseModel } from './noise-model';
 import { patchCrossCovariance, WIENER_AVERAGE } from './noise-psd-cross';
-import { noiseColour, patchSpectrum } from './noise-psd-plan';
+import { clipLevels, noiseColour, patchSpectrum } from './noise-psd-plan';
 import { autoGroupParams, type GroupParams, groupMedianRuleSigma } from './patch-groups';
 import { coarseLevels, type DenoiseLevel } from './pyramid';
 import { type DenoiseStats, mergeStats, rowBands } from './row-bands';
@@ -205,6 +206,22 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
     );
     // Where the texture's share took σ̂ down to this level, the colour report says so (noise-psd-plan.ts).
     return tone.whiteFactor !== undefined && tone.report ? { ...skipped, noiseColour: tone.report } : skipped;
+  }
+  // White noise must be seen in the flat parts of the scan (noise-evidence.ts); otherwise σ̂ was read off content.
+  // Not with --noise-colour white or measured: there the user says what the noise is.
+  const autoColour = (settings.noiseColour ?? 'auto') === 'auto';
+  if (noiseSource === 'estimated' && autoColour && !tone.psd && !fixedOverride) {
+    const [lo, hi] = clipLevels(work[0], maxValue, stabilised);
+    const evidence = flatEvidence(work[0], width, height, sigmas[0], lo, hi);
+    if (evidence.blocks < MIN_FLAT_BLOCKS) {
+      const skipped = noDenoise(
+        noiseSigma,
+        noiseSource,
+        `estimated noise σ ${noiseSigma.toFixed(2)} is not seen in the flat parts of the scan (${evidence.blocks} flat blocks agree with it, at least ${MIN_FLAT_BLOCKS} needed): it comes from edges or fine content; nothing to remove`,
+        plan.report,
+      );
+      return tone.report ? { ...skipped, noiseColour: tone.report } : skipped;
+    }
   }
   const common: Omit<PreparedClean, 'params' | 'tile'> = {
     ...base,
