@@ -90,6 +90,27 @@ export function greedyOrder(seqs: GainCost[]): Block[] {
   return all;
 }
 
+/**
+ * {@link greedyOrder}'s sort over hull blocks held in typed arrays (block i < n: gain[i], cost[i], tile[i] and
+ * endRank[i]): the block indices by gain/cost, non-increasing, then tile, then end rank, the same total order,
+ * so the same order. `ratio` and `idx` (at least n long) are scratch a caller may reuse; returns idx's first n.
+ */
+export function greedyBlockOrder(
+  gain: ArrayLike<number>,
+  cost: ArrayLike<number>,
+  tile: ArrayLike<number>,
+  endRank: ArrayLike<number>,
+  n: number,
+  ratio = new Float64Array(n),
+  idx = new Uint32Array(n),
+): Uint32Array {
+  for (let i = 0; i < n; i++) ratio[i] = gain[i] / cost[i];
+  const order = idx.subarray(0, n);
+  for (let i = 0; i < n; i++) order[i] = i;
+  order.sort((a, b) => ratio[b] - ratio[a] || tile[a] - tile[b] || endRank[a] - endRank[b]);
+  return order;
+}
+
 /** Ranks after taking the first `count` blocks of a greedy order. */
 export function ranksOfPrefix(order: Block[], count: number, tiles: number): Int32Array {
   const ranks = new Int32Array(tiles);

@@ -23,7 +23,7 @@
 import { DEAD_ZONE } from '../codec/quantise';
 import { tileGrid } from '../codec/quantised';
 import { gramSvdColumns } from '../linalg/gram-svd';
-import { poolHull } from './allocate';
+import { greedyBlockOrder, poolHull } from './allocate';
 import { codeLengths, countVector, newCounts, vectorBits } from './cost-model';
 import { meanRemovedTile } from './factorise';
 import { hillClimb, stepGrid } from './solve';
@@ -297,15 +297,12 @@ function errorAtStep(
         bCost[nb] = sc[j];
         bTile[nb] = tile;
         bEnd[nb] = se[j];
-        ratio[nb] = sg[j] / sc[j];
       }
       c += r;
       tile++;
     }
   }
-  const order = idx.subarray(0, nb);
-  for (let i = 0; i < nb; i++) order[i] = i;
-  order.sort((x, y) => ratio[y] - ratio[x] || bTile[x] - bTile[y] || bEnd[x] - bEnd[y]);
+  const order = greedyBlockOrder(bGain, bCost, bTile, bEnd, nb, ratio, idx);
   // ./candidate prefixForBytes at ratio 1: the longest prefix whose cumulative cost is ≤ the payload's bits.
   const bits = (payload * 8) / 1;
   let cost = 0;

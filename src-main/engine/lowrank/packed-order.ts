@@ -4,7 +4,7 @@
  * (./allocate poolHull) and the same sort (a total order: ratio, then tile, then rank), so the order and
  * the file are the same.
  */
-import { poolHull } from './allocate';
+import { greedyBlockOrder, poolHull } from './allocate';
 import { codeLengths, countVector, newCounts, vectorBits } from './cost-model';
 import { grow, type PackedPlane, tileRect, unpack, VectorPool } from './packed-store';
 
@@ -85,11 +85,7 @@ export function orderPacked(store: PackedPlane[], weights: number[]): PackedOrde
     }
     pp.err = new Float64Array(0);
   });
-  const ratio = new Float64Array(nb);
-  for (let i = 0; i < nb; i++) ratio[i] = bGain[i] / bCost[i];
-  const idx = new Uint32Array(nb);
-  for (let i = 0; i < nb; i++) idx[i] = i;
-  idx.sort((a, b) => ratio[b] - ratio[a] || bTile[a] - bTile[b] || bEnd[a] - bEnd[b]);
+  const idx = greedyBlockOrder(bGain, bCost, bTile, bEnd, nb);
   const tileOut = new Int32Array(nb);
   const endOut = new Int32Array(nb);
   const cumCost = new Float64Array(nb + 1);
