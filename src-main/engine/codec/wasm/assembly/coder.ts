@@ -378,91 +378,6 @@ function prepareRow(pm: usize, bw: i32, w: usize, y: i32): void {
 }
 
 /**
- * The encoder's end of a quiet run that starts at column x of a row (q at pq, the row's pass-1 bytes at pm,
- * band width bw): the first column from x whose coefficient is significant or whose pass-1 byte is not 0 (a
- * coded neighbour above, or a parent or sibling), else bw. Four columns at a time (q as i32x4, the bytes as
- * one u32) where they lie inside the band, then one by one.
- */
-@inline function quietEnd(pq: usize, pm: usize, x: i32, bw: i32): i32 {
-  while (x + 4 <= bw && !v128.any_true(v128.load(pq + (<usize>x << 2))) && load<u32>(pm + <usize>x) == 0) x += 4;
-  while (x < bw && load<i32>(pq + (<usize>x << 2)) == 0 && load<u8>(pm + <usize>x) == 0) x++;
-  return x;
-}
-
-/**
- * The encoder's `count` zeros in a row on the context at p, from range rng (≥ RENORM): each one bit(p, 0) with
- * adapt()'s update for a 0 (target PROB_ONE, (PROB_ONE − f)·r ≥ 0, so the truncating division is a shift) and
- * the renormalisation after it; returns the range. A 0 moves neither `low` nor the output, so only the range
- * and the context change, the same values step by step as codeDetail's symbol-by-symbol loop. While the
- * context is young its rates come from the tables; mature, they are fixed; settled (an update no longer changes
- * it), only the range moves.
- */
-function quietZeros(p: usize, rng: u32, count: i32): u32 {
-  let f = load<i32>(p);
-  let sl = load<i32>(p, 4);
-  let n = load<i32>(p, 8);
-  let k = count;
-  // Each loop below stops to renormalise outside it (a call inside would cost every step its registers).
-  for (; k > 0 && n < SLOW_WINDOW - 1; k--) {
-    let pr = <u32>(f + sl) >>> 1;
-    pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
-    rng = (rng >>> PROB_BITS) * pr;
-    f += ((PROB_ONE - f) * load<i32>(RF + (<usize>n << 2))) >>> 16;
-    sl += ((PROB_ONE - sl) * load<i32>(RS + (<usize>n << 2))) >>> 16;
-    n++;
-    if (rng < RENORM) rng = renormalised(rng);
-  }
-  const rf = load<i32>(RF + (<usize>(SLOW_WINDOW - 1) << 2));
-  const rs = load<i32>(RS + (<usize>(SLOW_WINDOW - 1) << 2));
-  let settled = false;
-  while (k > 0 && !settled) {
-    for (;;) {
-      let pr = <u32>(f + sl) >>> 1;
-      pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
-      rng = (rng >>> PROB_BITS) * pr;
-      const df = ((PROB_ONE - f) * rf) >>> 16;
-      const ds = ((PROB_ONE - sl) * rs) >>> 16;
-      f += df;
-      sl += ds;
-      k--;
-      if ((df | ds) == 0) {
-        settled = true;
-        break;
-      }
-      if (k == 0) break;
-      if (rng < RENORM) break;
-    }
-    if (rng < RENORM) rng = renormalised(rng);
-  }
-  if (k > 0) {
-    let pr = <u32>(f + sl) >>> 1;
-    pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
-    while (k > 0) {
-      for (;;) {
-        rng = (rng >>> PROB_BITS) * pr;
-        k--;
-        if (k == 0) break;
-        if (rng < RENORM) break;
-      }
-      if (rng < RENORM) rng = renormalised(rng);
-    }
-  }
-  store<i32>(p, f);
-  store<i32>(p, sl, 4);
-  store<i32>(p, n, 8);
-  return rng;
-}
-
-/** The encoder's renormalisation of range rng (< RENORM): the bytes shifted out (shiftLow), the range returned. */
-@inline function renormalised(rng: u32): u32 {
-  do {
-    rng <<= 8;
-    shiftLow();
-  } while (rng < RENORM);
-  return rng;
-}
-
-/**
  * One detail band: significance, sign and magnitude of every coefficient, in raster order, each row in two
  * passes. Pass 1 (prepareRow) gathers what the contexts need from outside the row; pass 2 adds the left
  * neighbours, held in registers, and looks the significance context up in the table at CT. The significance
@@ -504,88 +419,78 @@ function codeDetail<T>(q: usize, mag: usize, width: i32, bi: i32): void {
         // A quiet run: no coded neighbour, so one context (the first of the class) for as long as the
         // coefficients stay insignificant, kept in locals, and no magnitude to store (the byte is already 0).
         p = ZM + <usize>load<u16>(CT);
-        if (!isFloat<T>()) {
-          // The encoder knows where the run ends (its first significant coefficient or coded neighbour ahead,
-          // or the row's end) and codes its zeros in one go (quietZeros); at a significant coefficient with no
-          // coded neighbour ahead, on to its significance, sign and magnitude below.
-          const e = quietEnd(pq, pm, x, bw);
-          rng = quietZeros(p, rng, e - x);
-          x = e;
-          if (x >= bw || load<u8>(pm + <usize>x) != 0) continue;
-        } else {
-          let f = load<i32>(p);
-          let sl = load<i32>(p, 4);
-          let n = load<i32>(p, 8);
-          let sig = false;
-          // stop: the run has ended (a significant coefficient, the end of the row, a renormalisation, or a
-          // coded neighbour ahead).
-          let stop = false;
-          // Each step is bit(p, 0) with adapt()'s update for a 0: target PROB_ONE, (PROB_ONE − f)·r ≥ 0, so the
-          // truncating division is a shift. While the context is young, its rates come from the tables.
-          while (n < SLOW_WINDOW - 1) {
+        let f = load<i32>(p);
+        let sl = load<i32>(p, 4);
+        let n = load<i32>(p, 8);
+        let sig = false;
+        // stop: the run has ended (a significant coefficient, the end of the row, a renormalisation, or a
+        // coded neighbour ahead).
+        let stop = false;
+        // Each step is bit(p, 0) with adapt()'s update for a 0: target PROB_ONE, (PROB_ONE − f)·r ≥ 0, so the
+        // truncating division is a shift. While the context is young, its rates come from the tables.
+        while (n < SLOW_WINDOW - 1) {
+          let pr = <u32>(f + sl) >>> 1;
+          pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
+          const bound = (rng >>> PROB_BITS) * pr;
+          if (isFloat<T>() ? cd >= bound : load<i32>(pq + (<usize>x << 2)) != 0) {
+            sig = stop = true;
+            break;
+          }
+          rng = bound;
+          f += ((PROB_ONE - f) * load<i32>(RF + (<usize>n << 2))) >>> 16;
+          sl += ((PROB_ONE - sl) * load<i32>(RS + (<usize>n << 2))) >>> 16;
+          n++;
+          x++;
+          if (x >= bw || rng < RENORM || load<u8>(pm + <usize>x) != 0) {
+            stop = true;
+            break;
+          }
+        }
+        if (!stop) {
+          // A mature context: fixed rates, until an update no longer changes it.
+          const rf = load<i32>(RF + (<usize>(SLOW_WINDOW - 1) << 2));
+          const rs = load<i32>(RS + (<usize>(SLOW_WINDOW - 1) << 2));
+          let settled = false;
+          for (;;) {
             let pr = <u32>(f + sl) >>> 1;
             pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
             const bound = (rng >>> PROB_BITS) * pr;
-            if (cd >= bound) {
-              sig = stop = true;
+            if (isFloat<T>() ? cd >= bound : load<i32>(pq + (<usize>x << 2)) != 0) {
+              sig = true;
               break;
             }
             rng = bound;
-            f += ((PROB_ONE - f) * load<i32>(RF + (<usize>n << 2))) >>> 16;
-            sl += ((PROB_ONE - sl) * load<i32>(RS + (<usize>n << 2))) >>> 16;
-            n++;
+            const df = ((PROB_ONE - f) * rf) >>> 16;
+            const ds = ((PROB_ONE - sl) * rs) >>> 16;
+            f += df;
+            sl += ds;
             x++;
-            if (x >= bw || rng < RENORM || load<u8>(pm + <usize>x) != 0) {
-              stop = true;
+            if (x >= bw || rng < RENORM || load<u8>(pm + <usize>x) != 0) break;
+            if ((df | ds) == 0) {
+              settled = true;
               break;
             }
           }
-          if (!stop) {
-            // A mature context: fixed rates, until an update no longer changes it.
-            const rf = load<i32>(RF + (<usize>(SLOW_WINDOW - 1) << 2));
-            const rs = load<i32>(RS + (<usize>(SLOW_WINDOW - 1) << 2));
-            let settled = false;
+          if (settled) {
+            // A settled context: a 0 leaves it as it is, so only the range moves.
+            let pr = <u32>(f + sl) >>> 1;
+            pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
             for (;;) {
-              let pr = <u32>(f + sl) >>> 1;
-              pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
               const bound = (rng >>> PROB_BITS) * pr;
-              if (cd >= bound) {
+              if (isFloat<T>() ? cd >= bound : load<i32>(pq + (<usize>x << 2)) != 0) {
                 sig = true;
                 break;
               }
               rng = bound;
-              const df = ((PROB_ONE - f) * rf) >>> 16;
-              const ds = ((PROB_ONE - sl) * rs) >>> 16;
-              f += df;
-              sl += ds;
               x++;
               if (x >= bw || rng < RENORM || load<u8>(pm + <usize>x) != 0) break;
-              if ((df | ds) == 0) {
-                settled = true;
-                break;
-              }
-            }
-            if (settled) {
-              // A settled context: a 0 leaves it as it is, so only the range moves.
-              let pr = <u32>(f + sl) >>> 1;
-              pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
-              for (;;) {
-                const bound = (rng >>> PROB_BITS) * pr;
-                if (cd >= bound) {
-                  sig = true;
-                  break;
-                }
-                rng = bound;
-                x++;
-                if (x >= bw || rng < RENORM || load<u8>(pm + <usize>x) != 0) break;
-              }
             }
           }
-          store<i32>(p, f);
-          store<i32>(p, sl, 4);
-          store<i32>(p, n, 8);
-          if (!sig) continue;
         }
+        store<i32>(p, f);
+        store<i32>(p, sl, 4);
+        store<i32>(p, n, 8);
+        if (!sig) continue;
       } else {
         p = ZM + <usize>load<u16>(CT + (<usize>(k4 + above) << 1));
         // bit(p, 0) unless the coefficient is significant, the adaptation specialised for 0 (see adapt()).
