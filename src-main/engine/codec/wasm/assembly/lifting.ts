@@ -342,9 +342,24 @@ function quantiseBands(
     let n2: f64 = 0;
     let s1: f64 = 0;
     let s2: f64 = 0;
+    const zv = f64x2.splat(zero);
     for (let y = 0; y < bh; y++) {
       const row = <usize>(y0 + y) * <usize>width + <usize>x0;
-      for (let i: usize = 0; i < <usize>bw; i++) {
+      let i: usize = 0;
+      for (; i < <usize>bw; i++) {
+        // Four coefficients at a time while all four are within the zero threshold (most of a band at the
+        // steps of a rate search): four zeros stored and nothing else (the comparison is false for NaN, as
+        // the scalar one is). The group that has one above it goes through the scalar steps, in raster order.
+        if ((i & 3) == 0) {
+          for (; i + 4 <= <usize>bw; i += 4) {
+            const p0 = x + ((row + i) << 3);
+            const a0 = f64x2.gt(f64x2.abs(v128.load(p0)), zv);
+            const a1 = f64x2.gt(f64x2.abs(v128.load(p0, 16)), zv);
+            if (v128.any_true(v128.or(a0, a1))) break;
+            if (q != 0) v128.store(q + ((row + i) << 2), i32x4.splat(0));
+          }
+          if (i >= <usize>bw) break;
+        }
         const c = load<f64>(x + ((row + i) << 3));
         const ac = abs<f64>(c);
         let v: i32 = 0;
