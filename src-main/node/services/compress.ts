@@ -237,13 +237,9 @@ async function compressWhole(
 ): Promise<CompressReport & WithWarnings> {
   // The planes' pages are touched on a pool thread while sharp decodes only when this scan has a second core.
   // A grey scan whose encode takes the residual-only shortcut keeps its integer samples (../image/grey-samples).
-  const decode = residualFirstApplies(probe.width, probe.height, {
-    layers: options.layers ?? DEFAULT_LAYERS,
-    budget: options.budget,
-  })
-    ? decodeGreySamples
-    : decodeImage;
-  const decoded = await decode(input, {
+  const layers = options.layers ?? DEFAULT_LAYERS;
+  const shortcut = residualFirstApplies(probe.width, probe.height, { layers, budget: options.budget });
+  const decoded = await (shortcut ? decodeGreySamples : decodeImage)(input, {
     page: options.page,
     pixelLimit: options.pixelLimit,
     probe,
