@@ -1,5 +1,5 @@
-// A grey scan given to the whole-scan encoder as its decoder's integer samples (src-main/engine/lowrank/scan-image.ts,
-// as src-main/node/image/grey-samples.ts decodes it for `compress`): every 8-bit and 16-bit sample is exact in
+// A scan given to the whole-scan encoder as its decoder's integer samples (src-main/engine/lowrank/scan-image.ts,
+// as src-main/node/image/integer-samples.ts decodes it for `compress`): every 8-bit and 16-bit sample is exact in
 // f32, so the file and every figure must be those of the same scan given as a float plane, bit for bit, on the
 // residual-only shortcut (which reads the integers: arena load, plane energy, spread crops, squared errors,
 // SSIM) and on every other path (which widens them first, floatScan).
@@ -18,14 +18,17 @@ beforeAll(async () => {
   await initEngine();
 });
 
-/** The scan with its plane as shared integer samples (what decodeGreySamples gives). */
+/** The scan with its planes as shared integer samples (what decodeIntegerSamples gives). */
 function integerScan(img: DecodedImage): ScanImage {
   const n = img.width * img.height;
   const wide = img.bitDepth === 16;
-  const buffer = new SharedArrayBuffer(n * (wide ? 2 : 1));
-  const p = wide ? new Uint16Array(buffer) : new Uint8Array(buffer);
-  p.set(img.planes[0]);
-  return { ...img, planes: [p] };
+  const planes = img.planes.map((f) => {
+    const buffer = new SharedArrayBuffer(n * (wide ? 2 : 1));
+    const p = wide ? new Uint16Array(buffer) : new Uint8Array(buffer);
+    p.set(f);
+    return p;
+  });
+  return { ...img, planes };
 }
 
 /** A side runner computing each job on this thread when joined (the jobs' arrays are not copied). */

@@ -1,10 +1,10 @@
 /**
- * A decoded scan as the whole-scan encoder (./encode) takes it: float planes (the contract's DecodedImage), or,
- * for a grey scan, the decoder's integer samples themselves (8-bit or 16-bit, on shared memory), which hold the
- * same values. The residual-only shortcut (./residual-first) and the file's measuring (./scan-finish) read those
- * as they are: an 8-megapixel grey scan then never fills a 33 MB float plane of fresh pages (about 8 000 page
- * faults, issue #12). Every other path widens them to float planes first ({@link floatScan}), so it computes
- * exactly what it did on the decoder's float planes.
+ * A decoded scan as the whole-scan encoder (./encode) takes it: float planes (the contract's DecodedImage), or
+ * the decoder's integer samples themselves (8-bit or 16-bit, on shared memory; ../../node/image/integer-samples),
+ * which hold the same values. The residual-only shortcut (./residual-first) and the file's measuring
+ * (./scan-finish) read those as they are: an 8-megapixel grey scan then never fills a 33 MB float plane of fresh
+ * pages (about 8 000 page faults, issue #12). Every other path widens them to float planes first
+ * ({@link floatScan}), so it computes exactly what it did on the decoder's float planes.
  */
 import type { DecodedImage } from '../../contract';
 import { sharedFloat32 } from './decode-image';

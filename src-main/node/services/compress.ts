@@ -31,7 +31,7 @@ import { residualFirstApplies } from '../../engine/lowrank/residual-scope';
 import { floatScan, type ScanImage } from '../../engine/lowrank/scan-image';
 import { encodeScanTiled, TILED_PIXELS, tiledEncoderFits } from '../../engine/lowrank/tiled';
 import { decodeImage, hashSamples, type ProbeResult, probeImage } from '../image/decode';
-import { decodeGreySamples } from '../image/grey-samples';
+import { decodeIntegerSamples } from '../image/integer-samples';
 import { decodeSamples } from '../image/raw-decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import { prepareFactorPath } from '../parallel/factor-path';
@@ -236,10 +236,11 @@ async function compressWhole(
   probe: ProbeResult,
 ): Promise<CompressReport & WithWarnings> {
   // The planes' pages are touched on a pool thread while sharp decodes only when this scan has a second core.
-  // A grey scan whose encode takes the residual-only shortcut keeps its integer samples (../image/grey-samples).
+  // A scan without alpha whose encode takes the residual-only shortcut keeps its integer samples
+  // (../image/integer-samples).
   const layers = options.layers ?? DEFAULT_LAYERS;
   const shortcut = residualFirstApplies(probe.width, probe.height, { layers, budget: options.budget });
-  const decoded = await (shortcut ? decodeGreySamples : decodeImage)(input, {
+  const decoded = await (shortcut ? decodeIntegerSamples : decodeImage)(input, {
     page: options.page,
     pixelLimit: options.pixelLimit,
     probe,
