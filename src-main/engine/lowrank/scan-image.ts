@@ -10,7 +10,7 @@ import type { DecodedImage } from '../../contract';
 import { sharedFloat32 } from './decode-image';
 
 /** One channel's samples: float, or the decoder's integers (8-bit in Uint8Array, 16-bit in Uint16Array). */
-export type ScanPlane = Float32Array | Uint8Array | Uint16Array;
+type ScanPlane = Float32Array | Uint8Array | Uint16Array;
 
 export type ScanImage = Omit<DecodedImage, 'planes'> & { planes: ScanPlane[] };
 
