@@ -16,7 +16,7 @@
  */
 
 import { asidePiece } from './aside-piece';
-import { type PlaneArena, widenStaged } from './wasm/arena';
+import { isStagedSamples, type PlaneArena, type StagedSamples, widenStaged } from './wasm/arena';
 import { COEF, GEO, type LiftingExports, liftingOn, PAR, RESULTS } from './wasm/runtime';
 import { arenaMemoryId, isSharedMemory, ownKernels } from './wasm/shared-memory';
 
@@ -48,8 +48,8 @@ export interface ArenaPassArgs {
   a: number[];
   /** Scratch: the arena's own thread's tmp and buf, the other thread's tmp and buf, then the end of both. */
   scratch: number[];
-  /** load: the samples to widen (a Float32Array on shared memory when sent to the other thread). */
-  samples?: Float32Array;
+  /** load: the samples to widen (float or integer, on shared memory when sent to the other thread). */
+  samples?: StagedSamples;
   /** touch: set to 1 (on a SharedArrayBuffer) when the pages are needed: the other thread stops there. */
   stop?: Int32Array;
   /** aside: where the per-band squared errors and q's non-zeros (positions, values) go (shared memory). */
@@ -237,7 +237,7 @@ export function pass(
 /** A piece's kernel arguments (and samples for a load); k = −1: the whole pass. */
 interface ArenaPiece {
   a: number[];
-  samples?: Float32Array;
+  samples?: StagedSamples;
 }
 
 /** Whether passes over `samples` values are split: a helper is set, the memory is shared and the pass large. */
@@ -254,12 +254,13 @@ export function bounds(k: number, n: number, unit: number): [number, number] {
 }
 
 /**
- * Copy `plane`'s samples into the arena as f64 (./wasm/arena.ts load): a Float32Array on shared memory is copied
- * and widened piece by piece on both threads; anything else through the arena's own load.
+ * Copy `plane`'s samples into the arena as f64 (./wasm/arena.ts load): float or integer samples (a decoder's
+ * 8-bit or 16-bit ones) on shared memory are copied and widened piece by piece on both threads; anything else
+ * through the arena's own load.
  */
 export function loadSplit(arena: PlaneArena, plane: ArrayLike<number>): void {
   const n = arena.n;
-  if (!(plane instanceof Float32Array && plane.buffer instanceof SharedArrayBuffer) || !splits(arena, n))
+  if (!(isStagedSamples(plane) && plane.buffer instanceof SharedArrayBuffer) || !splits(arena, n))
     arena.load(plane);
   else {
     arena.coeffs();

@@ -126,7 +126,12 @@ export function estimateExactTotal(
  * each counted as the bits of their magnitude plus one, zeros as free. It runs as one plain loop (no model),
  * so it costs a fraction of a millisecond even before the JIT has compiled the coder. Bytes.
  */
-export function roughExactBytes(source: Float32Array[], width: number, height: number, rows: number): number {
+export function roughExactBytes(
+  source: ArrayLike<number>[],
+  width: number,
+  height: number,
+  rows: number,
+): number {
   if (height < 2) return 0;
   const step = Math.max(1, Math.floor((height - 1) / rows));
   let bits = 0;

@@ -39,7 +39,7 @@ export function greyFlatResident(
   at: number,
   len: number,
   max: number,
-  source: Float32Array,
+  source: Float32Array | Uint8Array | Uint16Array,
   sums: SquareSums,
   block: number,
   out: Float32Array,

@@ -24,7 +24,7 @@ export class SquaredErrors implements SquareSums {
   block = 0;
   inBlock = 0;
 
-  constructor(readonly source: Float32Array) {}
+  constructor(readonly source: Float32Array | Uint8Array | Uint16Array) {}
 
   /** Add the decoded samples b[0 … len − 1], which are the source's from `at`. */
   add(b: Float32Array, at: number, len: number): void {

@@ -10,10 +10,10 @@
  * Why: on the machines this runs on, the first touch of a fresh page costs more than the arithmetic done on
  * it, and a decoded copy of an 8-megapixel plane is 33 MB of fresh pages per decode.
  */
-import type { DecodedImage } from '../../contract';
 import { psnrFromMse, SsimStream } from '../metrics';
 import { SquaredErrors } from './band-sums';
 import { type DecodedRkf, decodeImageFile, decodeImageFileBands } from './decode-image';
+import type { ScanImage } from './scan-image';
 import type { SideRunner } from './side-jobs';
 import { SsimBands } from './ssim-bands';
 
@@ -41,7 +41,7 @@ const SSIM_SIDE = 11;
  */
 export function measureGreyFile(
   bytes: Uint8Array,
-  img: DecodedImage,
+  img: ScanImage,
   max: number,
   side?: SideRunner,
 ): FileFigures {
@@ -83,7 +83,7 @@ export function measureGreyFile(
 }
 
 /** Σ(source − decoded)² of the grey file `bytes` (the PSNR floor's check), band by band: no decoded plane. */
-export function measureGreySse(bytes: Uint8Array, img: DecodedImage): number {
+export function measureGreySse(bytes: Uint8Array, img: ScanImage): number {
   const sums = new SquaredErrors(img.planes[0]);
   decodeImageFileBands(bytes, img.file, () => {}, {}, sums);
   return sums.running;

@@ -27,6 +27,7 @@ import { imageWriter } from './image-writer';
 import { chooseExact } from './lossless-choice';
 import { startPlaneEnergy } from './plane-energy';
 import { decodedSse, finishScan, maxOf, measuredSse, type Prepared, residualFirstFor } from './scan-finish';
+import { floatScan, type ScanImage } from './scan-image';
 import { type Plan, type PlaneInput, solveBytes, solveRank } from './solve';
 import { chooseLayers, emptyBase, type LayerPlan } from './two-layer';
 
@@ -37,7 +38,7 @@ const RANK_QUANT_LOSS = 0.023;
 /** Per-sample quantisation MSE floor at a fixed rank (grey levels² on the 8-bit scale). */
 const RANK_QUANT_FLOOR_MSE = 0.01;
 
-function prepare(img: DecodedImage): Prepared {
+function prepare(img: ScanImage): Prepared {
   const colour = img.channels >= 3;
   if (colour) {
     const ycc = rgbToYcbcr(img.planes[0], img.planes[1], img.planes[2], img.bitDepth);
@@ -46,7 +47,7 @@ function prepare(img: DecodedImage): Prepared {
   return { names: ['gray'], planes: [img.planes[0]], weights: [1], colour };
 }
 
-export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult {
+export function encodeScan(img: ScanImage, opts: EncodeOptions): EncodeResult {
   const side = opts.side;
   // The plane arenas' passes use the side thread too (../codec/arena-split).
   const arenaSide = side && ((a: ArenaPassArgs) => side('arena-pass', a));
@@ -54,20 +55,22 @@ export function encodeScan(img: DecodedImage, opts: EncodeOptions): EncodeResult
 }
 
 /** {@link encodeScan}'s lossy file: low-rank base, with a residual layer where that wins. */
-function encodeLossy(img: DecodedImage, opts: EncodeOptions): EncodeResult {
+function encodeLossy(scan: ScanImage, opts: EncodeOptions): EncodeResult {
   const now = opts.now ?? Date.now;
   const progress = opts.onProgress ?? (() => {});
   const cancel = opts.checkCancelled ?? (() => {});
   const entropy = opts.entropy ?? 'rc';
-  const max = maxOf(img.bitDepth);
-  const { width, height } = img;
-  const prep = prepare(img);
-  const build = imageWriter(img, opts, prep.names);
+  const max = maxOf(scan.bitDepth);
+  const { width, height } = scan;
+  const scanPrep = prepare(scan);
+  const build = imageWriter(scan, opts, scanPrep.names);
   const meanStep = max / 1020;
-  const byteBudget = budgetBytes(opts.budget, img);
+  const byteBudget = budgetBytes(opts.budget, scan);
   const t0 = now();
-  const first = residualFirstFor(img, opts, prep, max, byteBudget, build, cancel);
+  const first = residualFirstFor(scan, opts, scanPrep, max, byteBudget, build, cancel);
   if (first) {
+    const img = scan;
+    const prep = scanPrep;
     // Rank 0: the Eckart–Young optimum is the whole energy, which is the base error; σ₁ was not computed.
     // Summed on the second thread while this one measures the file (./plane-energy).
     const energy = startPlaneEnergy(prep.planes, prep.weights, opts.side);
@@ -94,6 +97,9 @@ function encodeLossy(img: DecodedImage, opts: EncodeOptions): EncodeResult {
     progress('done', 1);
     return { ...r, errors, factorMs: 0, encodeMs: now() - t0, layers: first.layers };
   }
+  // Every other path computes on float planes (../scan-image: the same values as the decoder's integers).
+  const img = floatScan(scan);
+  const prep = img === scan ? scanPrep : prepare(img);
   const probed =
     opts.tile === 'auto' && opts.budget.kind !== 'rank' ? probeTile(img, opts, byteBudget) : undefined;
   const tiles: number[] =

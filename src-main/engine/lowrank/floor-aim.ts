@@ -167,7 +167,7 @@ export function decodedRatio(
 /** One crop of {@link spreadRatio}, as the side job 'spread-crop' (./side-jobs) takes it. */
 export interface SpreadCropArgs {
   /** The whole planes (width×height), or the crop itself (then x0 = y0 = 0 and width×height = w×h). */
-  planes: Array<Float32Array | Float64Array>;
+  planes: Array<Float32Array | Float64Array | Uint8Array | Uint16Array>;
   width: number;
   height: number;
   x0: number;
@@ -217,8 +217,11 @@ function cropOf(a: SpreadCropArgs): Float64Array[] {
   return cropPlanes(planes, a.width, a.x0, a.y0, w, h, spareCrops);
 }
 
-const isShared = (p: ArrayLike<number>): p is Float32Array | Float64Array =>
-  (p instanceof Float32Array || p instanceof Float64Array) &&
+const isShared = (p: ArrayLike<number>): p is SpreadCropArgs['planes'][number] =>
+  (p instanceof Float32Array ||
+    p instanceof Float64Array ||
+    p instanceof Uint8Array ||
+    p instanceof Uint16Array) &&
   typeof SharedArrayBuffer === 'function' &&
   p.buffer instanceof SharedArrayBuffer;
 
@@ -253,7 +256,7 @@ export function spreadRatio(
     const y0 = at(fy * height, height, h);
     // Only planes outside shared memory are cropped here (a crop made for shared planes would go unused).
     const where = shared
-      ? { planes: planes as Array<Float32Array | Float64Array>, width, height, x0, y0 }
+      ? { planes: planes as SpreadCropArgs['planes'], width, height, x0, y0 }
       : { planes: cropPlanes(planes, width, x0, y0, w, h), width: w, height: h, x0: 0, y0: 0 };
     return run('spread-crop', { ...where, w, h, weights, maxValue, step });
   });

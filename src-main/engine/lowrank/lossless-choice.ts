@@ -16,6 +16,7 @@ import { estimateExactTotal, roughExactBytes } from '../codec/lossless-image';
 import { decodeImageFile } from './decode-image';
 import { budgetBytes, type EncodeOptions, type EncodeResult } from './encode-options';
 import { exactImageFile } from './image-writer';
+import { floatScan, type ScanImage } from './scan-image';
 
 /**
  * An estimate up to this factor over the budget still pays for the real encode. The 64k-pixel estimate was
@@ -39,13 +40,13 @@ const ROUGH_MARGIN = 3;
  * whatever `lossy` writes.
  */
 export function chooseExact(
-  img: DecodedImage,
+  img: ScanImage,
   opts: EncodeOptions,
-  lossy: (img: DecodedImage, opts: EncodeOptions) => EncodeResult,
+  lossy: (img: ScanImage, opts: EncodeOptions) => EncodeResult,
 ): EncodeResult {
   const kind = opts.budget.kind;
   if (opts.exact === undefined || (opts.exact === 'auto' && kind === 'rank')) return lossy(img, opts);
-  if (opts.exact === 'always') return exactResult(img, opts);
+  if (opts.exact === 'always') return exactResult(floatScan(img), opts);
   const budget = budgetBytes(opts.budget, img);
   if (budget !== undefined) return exactWithin(img, opts, budget) ?? lossy(img, opts);
   const floor = lossy(img, opts);
@@ -53,14 +54,17 @@ export function chooseExact(
 }
 
 /** The lossless result when its file is at most `bytes` long (estimated first), else undefined. */
-function exactWithin(img: DecodedImage, opts: EncodeOptions, bytes: number): EncodeResult | undefined {
+function exactWithin(img: ScanImage, opts: EncodeOptions, bytes: number): EncodeResult | undefined {
   const now = opts.now ?? Date.now;
   const t0 = now();
-  const source = img.planes.slice(0, img.channels >= 3 ? 3 : 1);
-  if (roughExactBytes(source, img.width, img.height, ROUGH_ROWS) > ROUGH_MARGIN * bytes) return undefined;
+  const nc = img.channels >= 3 ? 3 : 1;
+  if (roughExactBytes(img.planes.slice(0, nc), img.width, img.height, ROUGH_ROWS) > ROUGH_MARGIN * bytes)
+    return undefined;
+  const float = floatScan(img);
+  const source = float.planes.slice(0, nc);
   const estimate = estimateExactTotal(source, img.width, img.height, img.bitDepth, ESTIMATE_PIXELS);
   if (estimate > ESTIMATE_MARGIN * bytes) return undefined;
-  const r = exactResult(img, opts, t0);
+  const r = exactResult(float, opts, t0);
   return r.bytes.length <= bytes ? r : undefined;
 }
 

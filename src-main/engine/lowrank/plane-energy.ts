@@ -22,19 +22,22 @@ export function planeEnergy(planes: ArrayLike<number>[], weights: number[]): num
 
 /**
  * {@link planeEnergy} started on the other thread when `side` is given and every plane lies in shared memory
- * (a grey scan's decoded plane: no copy is sent), else summed here at once; the returned function gives it.
+ * (a grey scan's decoded plane, float or its integer samples: no copy is sent), else summed here at once; the
+ * returned function gives it.
  */
+/** A plane the other thread reads without a copy. */
+export type SharedPlane = Float32Array | Uint8Array | Uint16Array;
+
 export function startPlaneEnergy(
   planes: ArrayLike<number>[],
   weights: number[],
   side?: SideRunner,
 ): () => number {
-  const shared = (p: ArrayLike<number>) =>
+  const shared = (p: ArrayLike<number>): p is SharedPlane =>
     typeof SharedArrayBuffer === 'function' &&
-    p instanceof Float32Array &&
+    (p instanceof Float32Array || p instanceof Uint8Array || p instanceof Uint16Array) &&
     p.buffer instanceof SharedArrayBuffer;
-  if (side && planes.every(shared))
-    return side('plane-energy', { planes: planes as Float32Array[], weights });
+  if (side && planes.every(shared)) return side('plane-energy', { planes, weights });
   const energy = planeEnergy(planes, weights);
   return () => energy;
 }

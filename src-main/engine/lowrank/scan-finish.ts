@@ -3,7 +3,6 @@
  * then writing the file, decoding it with the real reader and measuring it, so every figure in the report is
  * measured on the file as written.
  */
-import type { DecodedImage } from '../../contract';
 import { forgetCodes, recordingCodes } from '../codec/coded-planes';
 import { encodePlanes } from '../codec/image-file';
 import type { QuantPlane } from '../codec/quantised';
@@ -16,6 +15,7 @@ import type { ImageBuild } from './image-writer';
 import { startResidualCheck } from './residual-check';
 import { residualFirst } from './residual-first';
 import { residualFirstApplies } from './residual-scope';
+import type { ScanImage } from './scan-image';
 import { runHere, type SideRunner, ssimPlanesSplit } from './side-jobs';
 import { readySlots } from './ssim-bands';
 
@@ -43,7 +43,7 @@ export function maxOf(bitDepth: 8 | 16): number {
  * bytes decode to exactly those coefficients.
  */
 export function finishScan(
-  img: DecodedImage,
+  img: ScanImage,
   prep: Prepared,
   entropy: NonNullable<EncodeOptions['entropy']>,
   opts: EncodeOptions,
@@ -118,12 +118,7 @@ export function finishScan(
  * The figures of a decoded file on its whole planes: PSNR and the squared error on this thread while the other
  * computes its share of the SSIM (./side-jobs ssimPlanesSplit).
  */
-function measureDecoded(
-  decoded: DecodedRkf,
-  img: DecodedImage,
-  prep: Prepared,
-  run: SideRunner,
-): FileFigures {
+function measureDecoded(decoded: DecodedRkf, img: ScanImage, prep: Prepared, run: SideRunner): FileFigures {
   const { width, height } = img;
   const max = maxOf(img.bitDepth);
   const colourSamples = img.planes.slice(0, prep.colour ? 3 : 1);
@@ -147,7 +142,7 @@ function measureDecoded(
 
 /** The residual-only shortcut of ./residual-first, where it applies (./residual-scope.ts residualFirstApplies). */
 export function residualFirstFor(
-  img: DecodedImage,
+  img: ScanImage,
   opts: EncodeOptions,
   prep: Prepared,
   max: number,
@@ -256,7 +251,7 @@ function takeStartedCheck(file: Uint8Array): (() => void) | undefined {
 }
 
 /** Σ (a − b)² over every sample of every plane, in one running sum (plane by plane, in order). */
-function squaredError(a: Float32Array[], b: Float32Array[]): number {
+function squaredError(a: ArrayLike<number>[], b: Float32Array[]): number {
   let sse = 0;
   for (let c = 0; c < a.length; c++)
     for (let i = 0; i < a[c].length; i++) {
@@ -266,7 +261,7 @@ function squaredError(a: Float32Array[], b: Float32Array[]): number {
   return sse;
 }
 
-function sameSamples(a: Float32Array[], b: Float32Array[]): boolean {
+function sameSamples(a: Float32Array[], b: ArrayLike<number>[]): boolean {
   if (a.length !== b.length) return false;
   for (let c = 0; c < a.length; c++)
     for (let i = 0; i < a[c].length; i++) if (a[c][i] !== b[c][i]) return false;
@@ -274,12 +269,12 @@ function sameSamples(a: Float32Array[], b: Float32Array[]): boolean {
 }
 
 /** Weighted squared error of a built file against the source in the factor domain's weighting (RGB SSE). */
-export function measuredSse(bytes: Uint8Array, img: DecodedImage, prep: Prepared): number {
+export function measuredSse(bytes: Uint8Array, img: ScanImage, prep: Prepared): number {
   if (!prep.colour) return measureGreySse(bytes, img);
   return decodedSse(decodeImageFile(bytes, img.file), img, prep);
 }
 
-export function decodedSse(d: DecodedRkf, img: DecodedImage, prep: Prepared): number {
+export function decodedSse(d: DecodedRkf, img: ScanImage, prep: Prepared): number {
   const nc = prep.colour ? 3 : 1;
   let s = 0;
   for (let c = 0; c < nc; c++)

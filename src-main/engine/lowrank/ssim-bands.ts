@@ -115,7 +115,7 @@ export class SsimBands {
 
   constructor(
     private readonly run: SideRunner,
-    private readonly source: Float32Array,
+    private readonly source: Float32Array | Uint8Array | Uint16Array,
     private readonly width: number,
     private readonly height: number,
     private readonly range: number,

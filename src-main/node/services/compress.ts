@@ -27,8 +27,11 @@ import { initEngine } from '../../engine/linalg';
 import { encodeScan } from '../../engine/lowrank/encode';
 import { budgetBytes, type EncodeOptions, type EncodeResult } from '../../engine/lowrank/encode-options';
 import type { PlaneFactors } from '../../engine/lowrank/factorise';
+import { residualFirstApplies } from '../../engine/lowrank/residual-scope';
+import { floatScan, type ScanImage } from '../../engine/lowrank/scan-image';
 import { encodeScanTiled, TILED_PIXELS, tiledEncoderFits } from '../../engine/lowrank/tiled';
 import { decodeImage, hashSamples, type ProbeResult, probeImage } from '../image/decode';
+import { decodeIntegerSamples } from '../image/integer-samples';
 import { decodeSamples } from '../image/raw-decode';
 import { assertWritable, writeFileAtomic } from '../io/atomic';
 import { prepareFactorPath } from '../parallel/factor-path';
@@ -108,7 +111,7 @@ function summariseRanks(r: Pick<EncodeResult, 'ranks'>): CompressReport['ranks']
  * @throws UsageError for an impossible budget, CancelledError when the signal fires.
  */
 export async function compressDecoded(
-  decoded: DecodedImage,
+  decoded: ScanImage,
   options: CompressOptions,
   hooks: CompressHooks & CompressInternals = {},
 ): Promise<{ bytes: Uint8Array; report: CompressReport; result: EncodeResult }> {
@@ -135,7 +138,7 @@ export async function compressDecoded(
 }
 
 async function encodeAndReport(
-  decoded: DecodedImage,
+  decoded: ScanImage,
   options: CompressOptions,
   hooks: CompressHooks & CompressInternals,
   check: () => void,
@@ -163,7 +166,7 @@ async function encodeAndReport(
   if (options.compare) {
     const compared = spans.part(1 - COMPARE_SHARE, 1, 'compared');
     compared('compare', 0);
-    report.compare = await compareCodecs(decoded, outputBytes, undefined, {
+    report.compare = await compareCodecs(floatScan(decoded), outputBytes, undefined, {
       onProgress: (f) => compared('compare', f),
     });
     compared('done', 1);
@@ -233,7 +236,11 @@ async function compressWhole(
   probe: ProbeResult,
 ): Promise<CompressReport & WithWarnings> {
   // The planes' pages are touched on a pool thread while sharp decodes only when this scan has a second core.
-  const decoded = await decodeImage(input, {
+  // A scan without alpha whose encode takes the residual-only shortcut keeps its integer samples
+  // (../image/integer-samples).
+  const layers = options.layers ?? DEFAULT_LAYERS;
+  const shortcut = residualFirstApplies(probe.width, probe.height, { layers, budget: options.budget });
+  const decoded = await (shortcut ? decodeIntegerSamples : decodeImage)(input, {
     page: options.page,
     pixelLimit: options.pixelLimit,
     probe,
@@ -251,7 +258,7 @@ async function compressWhole(
     );
   await writeFileAtomic(output, bytes, { force: options.force });
   const onDisk = (await stat(output)).size;
-  await hooks.onWritten?.(decoded, result);
+  if (hooks.onWritten) await hooks.onWritten(floatScan(decoded), result);
   return {
     ...report,
     output,

@@ -134,14 +134,25 @@ function takePrepared(width: number, height: number) {
 }
 
 /**
+ * Samples a load widens through f32 (./arena.ts widenStaged): float, or a decoder's 8-bit or 16-bit integers,
+ * each of which an f32 holds exactly.
+ */
+export type StagedSamples = Float32Array | Uint8Array | Uint16Array;
+
+export function isStagedSamples(plane: ArrayLike<number>): plane is StagedSamples {
+  return plane instanceof Float32Array || plane instanceof Uint8Array || plane instanceof Uint16Array;
+}
+
+/**
  * f64 copies of `samples` at byte `dst` of `memory`, each piece of samples copied first to the `cap` bytes at
- * `stage` (a thread's own scratch) and widened from there by the kernel (exact: every f32 is an f64).
+ * `stage` (a thread's own scratch) as f32 (exact for integer samples too) and widened from there by the kernel
+ * (exact: every f32 is an f64).
  */
 export function widenStaged(
   memory: WebAssembly.Memory,
   lift: LiftingExports,
   dst: number,
-  samples: Float32Array,
+  samples: StagedSamples,
   stage: number,
   cap: number,
 ): void {
@@ -341,13 +352,13 @@ export class PlaneArena {
   }
 
   /**
-   * Copy the samples in as f64: a Float32Array through the widening kernel, staged piece by piece in the
+   * Copy the samples in as f64: float or integer ones through the widening kernel, staged piece by piece in the
    * transforms' scratch (not in q's region, whose fresh pages the rebuild touches later: a second thread may
    * touch them first, ../arena-split.ts).
    */
   load(plane: ArrayLike<number>): void {
     this.fresh();
-    if (plane instanceof Float32Array)
+    if (isStagedSamples(plane))
       widenStaged(this.memory, this.lift, this.coeffsAt, plane, this.tmpAt, this.sideTmpAt - this.tmpAt);
     else if (ArrayBuffer.isView(plane)) this.coeffView.set(plane as unknown as ArrayLike<number>);
     else for (let i = 0; i < this.n; i++) this.coeffView[i] = plane[i];
