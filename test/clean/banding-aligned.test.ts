@@ -5,24 +5,15 @@
 // edges where the wheel's rim and sectors meet them (seed 3: 38.6 % of the band energy removed, +1.54 dB;
 // seed 5: 52.1 %, +1.84 dB), the aligned reading kept them (measured when written: 99.9 %, +4.56 dB;
 // 100 %, +4.62 dB).
+
 import { describe, expect, it } from 'vitest';
 import { analyseBanding, subtractProfiles } from '../../src-main/engine/clean';
 import { alignedBands } from '../../src-main/engine/clean/band-aligned';
 import { bandAxis } from '../../src-main/engine/clean/band-lines';
+import { removedShare } from './banding-removal';
 import { autoBandingRemoved, bandProfile, damage, folderGray, type Gray, psnr, rounded } from './helpers';
 
 const opts = { maxValue: 255 };
-
-/** Share of the true profile's energy the estimate takes away (1 − ‖truth − est‖² / ‖truth‖²). */
-function removedShare(truth: Float64Array, est: Float64Array | null): number {
-  let e0 = 0;
-  let e1 = 0;
-  for (let i = 0; i < truth.length; i++) {
-    e0 += truth[i] ** 2;
-    e1 += (truth[i] - (est ? est[i] : 0)) ** 2;
-  }
-  return 1 - e1 / e0;
-}
 
 describe('wide row bands on a busy unseen image', () => {
   for (const seed of [3, 5])
