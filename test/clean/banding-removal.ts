@@ -1,6 +1,7 @@
 // The wide-band removal measurement shared by test/clean/banding-wide.test.ts and banding-chain.test.ts:
 // bands of 50–200 px, RMS 4 (bandProfile) plus noise σ 3 on one axis, removed by the wide pass alone or by
-// --banding auto, and the share of the band energy removed with the PSNR before and after.
+// --banding auto, and the share of the band energy removed with the PSNR before and after (removedShare,
+// also used by banding.test.ts and banding-aligned.test.ts).
 import { analyseBanding, subtractProfiles } from '../../src-main/engine/clean';
 import { wideBandProfile } from '../../src-main/engine/clean/banding-wide';
 import { bandProfile, damage, type Gray, psnr, rounded } from './helpers';
@@ -19,12 +20,6 @@ export function wideRemoval(img: Gray, axis: 'rows' | 'columns', seed: number, a
     const w = wideBandProfile(noisy, img.width, img.height, axis, 255);
     est = w.detected ? w.profile : null;
   }
-  let e0 = 0;
-  let e1 = 0;
-  for (let i = 0; i < len; i++) {
-    e0 += truth[i] ** 2;
-    e1 += (truth[i] - (est ? est[i] : 0)) ** 2;
-  }
   const out = rounded(
     subtractProfiles(
       noisy,
@@ -34,5 +29,16 @@ export function wideRemoval(img: Gray, axis: 'rows' | 'columns', seed: number, a
       axis === 'columns' ? est : null,
     ),
   );
-  return { removed: 1 - e1 / e0, before: psnr(noisy, img.data), after: psnr(out, img.data) };
+  return { removed: removedShare(truth, est), before: psnr(noisy, img.data), after: psnr(out, img.data) };
+}
+
+/** Share of the true profile's energy an estimate takes away: 1 − ‖s − ŝ‖²/‖s‖² (no estimate: 0). */
+export function removedShare(truth: Float64Array, estimate: Float64Array | null): number {
+  let e0 = 0;
+  let e1 = 0;
+  for (let i = 0; i < truth.length; i++) {
+    e0 += truth[i] ** 2;
+    e1 += (truth[i] - (estimate ? estimate[i] : 0)) ** 2;
+  }
+  return 1 - e1 / e0;
 }

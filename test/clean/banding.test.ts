@@ -2,10 +2,12 @@
 // with synthetic stripes of known profile. There are no published reference values for banding removal
 // (test/fixtures/reference/notes.md, "Not covered"), so the checks are orderings and bounds against the
 // known synthetic truth.
+
 import { describe, expect, it } from 'vitest';
 import { analyseBanding, dominantPeriod, runningMedian, subtractProfiles } from '../../src-main/engine/clean';
 import { interpolatedMedian } from '../../src-main/engine/clean/band-median';
 import { decodeImage } from '../../src-main/node/image/decode';
+import { removedShare } from './banding-removal';
 import {
   damage,
   fixtureGray,
@@ -24,16 +26,6 @@ async function sampleGray(file: string): Promise<Gray> {
 }
 
 const opts = { maxValue: 255 };
-
-function removedShare(truth: Float64Array, estimate: Float64Array | null): number {
-  let e0 = 0;
-  let e1 = 0;
-  for (let i = 0; i < truth.length; i++) {
-    e0 += truth[i] ** 2;
-    e1 += (truth[i] - (estimate ? estimate[i] : 0)) ** 2;
-  }
-  return 1 - e1 / e0;
-}
 
 describe('banding detection and removal', () => {
   for (const rms of [3, 8])

@@ -273,6 +273,15 @@ export function explainsLevels(c: Float64Array, s: Float64Array, variationOnly =
   return tvC - tvRest >= MIN_TV_EXPLAINED * tvS && rr <= cc - (edge < 0 ? 0.5 * ss : 0);
 }
 
+/**
+ * How much total variation subtracting s takes out of the levels c: TV(c) − TV(c − s). Real band edges are
+ * in c, so removing them takes about their size each; an edge c does not have adds its size instead.
+ */
+export function explainedVariation(c: Float64Array, s: Float64Array): number {
+  const { tvC, tvRest } = variations(c, s);
+  return tvC - tvRest;
+}
+
 /** Total variations of the levels c, of c − s and of s. */
 function variations(c: Float64Array, s: Float64Array) {
   let tvC = 0;
