@@ -4,10 +4,8 @@ import { describe, expect, it } from 'vitest';
 import { denoiseInProcess, finishClean, prepareClean } from '../../src-main/engine/clean';
 import { estimateNoisePsd } from '../../src-main/engine/clean/noise-psd';
 import { blockDegrees, floorTest } from '../../src-main/engine/clean/noise-psd-floor';
-import { decodeImage } from '../../src-main/node/image/decode';
-import { image } from '../helpers/fixtures';
 import { analyticPsd, BINOMIAL_3, filteredNoise } from './correlated-noise';
-import { psnr } from './helpers';
+import { fixtureInput, psnr } from './helpers';
 
 describe('blockDegrees', () => {
   it('white noise: a 16×16 block less its fitted plane has 256 − 3 = 253 degrees of freedom', () => {
@@ -46,27 +44,20 @@ describe('floorTest', () => {
 
 describe('clean scans do not read as correlated noise under --noise auto', () => {
   it('coins.png (scikit-image, clean, 8×8 blocking in its flat parts): untouched; with binomial noise σ 10 it is cleaned', async () => {
-    const d = await decodeImage(image('coins.png'));
-    const input = {
-      width: d.width,
-      height: d.height,
-      channels: d.channels,
-      bitDepth: d.bitDepth,
-      planes: d.planes,
-    };
+    const input = await fixtureInput('coins.png');
     const prep = prepareClean(input, { noise: 'auto', banding: 'off' });
     // Before the floor test it read as correlated noise of σ 2.49 (flatness 0.14) and 42 % of the samples changed.
     expect(prep.noiseColour?.reason).toMatch(/quieter than noise/);
     expect(prep.method).toBe('off');
     expect(finishClean(input, prep, null).changedSamples).toBe(0);
 
-    const n = filteredNoise(d.width, d.height, BINOMIAL_3, 10, 17);
-    const noisy = d.planes[0].map((v, i) => Math.min(255, Math.max(0, Math.round(v + n[i]))));
+    const n = filteredNoise(input.width, input.height, BINOMIAL_3, 10, 17);
+    const noisy = input.planes[0].map((v, i) => Math.min(255, Math.max(0, Math.round(v + n[i]))));
     const noisyInput = { ...input, planes: [noisy] };
     const noisyPrep = prepareClean(noisyInput, { noise: 'auto', banding: 'off' });
     expect(noisyPrep.noiseColour?.colour).toBe('correlated');
     expect(noisyPrep.method).toBe('groups');
     const out = finishClean(noisyInput, noisyPrep, denoiseInProcess(noisyPrep, 1).planes).planes[0];
-    expect(psnr(out, d.planes[0]) - psnr(noisy, d.planes[0])).toBeGreaterThan(3);
+    expect(psnr(out, input.planes[0]) - psnr(noisy, input.planes[0])).toBeGreaterThan(3);
   }, 120_000);
 });
