@@ -52,7 +52,7 @@ import type { CleanMethodOptions, NoiseColourChoice, NoiseColourReport } from '.
 import { NOISE_GAIN_YCBCR } from '../colour';
 import { estimateNoiseSigma, scaleSigmas } from './noise-estimate';
 import { estimateNoisePsd, type NoisePsd, PSD_LAG } from './noise-psd';
-import { type ClipChannel, MIN_FLOOR_BLOCKS, unclippedFloorTest } from './noise-psd-floor';
+import { type ClipChannel, unclippedFloorTest } from './noise-psd-floor';
 import { dctNoiseVariances, haarCoarseVariance, haarDiagonalVariance } from './noise-psd-spectrum';
 
 interface NoiseColourPlan {
@@ -134,10 +134,6 @@ function planNoiseColour(
       s,
     );
   const floor = unclippedFloorTest(psd, width, channels, psd.sigma / gain);
-  if (floor && floor.blocks < MIN_FLOOR_BLOCKS)
-    return measuredWhite(
-      `the spectrum looks correlated, but only ${floor.blocks} flat blocks away from the clip levels show it (at least ${MIN_FLOOR_BLOCKS} needed to tell noise from smooth content)`,
-    );
   if (floor?.content)
     return measuredWhite(
       `the flat blocks are quieter than noise of this spectrum allows: ${floor.below} of ${floor.blocks} lie below ${floor.floor.toFixed(2)} of their lower-quartile variance (noise: 1 in 100): smooth content, not noise`,
