@@ -2,6 +2,7 @@
 
 import type { DecodedImage } from '../../src-main/contract';
 import { analyseBanding, subtractProfiles } from '../../src-main/engine/clean';
+import type { CleanInput } from '../../src-main/engine/clean/pipeline';
 import { lcg32 } from '../../src-main/engine/linalg';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { fixture, image } from '../helpers/fixtures';
@@ -34,6 +35,12 @@ export async function fixtureGray(
   for (let y = 0; y < c.h; y++)
     for (let x = 0; x < c.w; x++) out[y * c.w + x] = d.planes[0][(c.y + y) * d.width + c.x + x];
   return { width: c.w, height: c.h, data: out };
+}
+
+/** A fixture image as the cleaning pipeline takes it (all channels, as decoded). */
+export async function fixtureInput(name: string): Promise<CleanInput> {
+  const d = await decodeImage(image(name));
+  return { width: d.width, height: d.height, channels: d.channels, bitDepth: d.bitDepth, planes: d.planes };
 }
 
 /** The first plane of a fixture kept in its own folder of test/fixtures (not images/), as it is. */

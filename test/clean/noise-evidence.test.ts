@@ -4,9 +4,7 @@
 import { describe, expect, it } from 'vitest';
 import { denoiseInProcess, finishClean, prepareClean } from '../../src-main/engine/clean';
 import { flatEvidence, MIN_FLAT_BLOCKS } from '../../src-main/engine/clean/noise-evidence';
-import { decodeImage } from '../../src-main/node/image/decode';
-import { image } from '../helpers/fixtures';
-import { damage, type Gray, psnr } from './helpers';
+import { damage, fixtureInput, type Gray, psnr } from './helpers';
 
 /** A clean, anti-aliased disc (0 inside, 255 outside, box-filtered over 4×4 subsamples), rounded to integers. */
 function disc(size = 192): Gray {
@@ -54,14 +52,7 @@ describe('flatEvidence', () => {
 
 describe('clean scans stay clean under --noise auto', () => {
   it('horse.png (scikit-image, clean RGBA silhouette): nothing is removed; with white σ 5 added it is cleaned', async () => {
-    const d = await decodeImage(image('horse.png'));
-    const input = {
-      width: d.width,
-      height: d.height,
-      channels: d.channels,
-      bitDepth: d.bitDepth,
-      planes: d.planes,
-    };
+    const input = await fixtureInput('horse.png');
     const prep = prepareClean(input, { noise: 'auto', banding: 'off' });
     // Before the flat-area test σ̂ read 46.7 off the outline's 7 unclipped blocks and 4.7 % of the samples changed.
     expect(prep.method).toBe('off');
@@ -69,10 +60,10 @@ describe('clean scans stay clean under --noise auto', () => {
     const fin = finishClean(input, prep, null);
     expect(fin.changedSamples).toBe(0);
 
-    const truth: Gray = { width: d.width, height: d.height, data: d.planes[0] };
-    const planes = d.planes.map((p, c) => (c < 3 ? damage(truth, { sigma: 5, seed: 11 + c }) : p));
+    const truth: Gray = { width: input.width, height: input.height, data: input.planes[0] };
+    const planes = input.planes.map((p, c) => (c < 3 ? damage(truth, { sigma: 5, seed: 11 + c }) : p));
     // Gray content: the three colour channels hold the same image, each with its own noise.
-    for (let c = 1; c < 3; c++) expect(d.planes[c].every((v, i) => v === d.planes[0][i])).toBe(true);
+    for (let c = 1; c < 3; c++) expect(input.planes[c].every((v, i) => v === input.planes[0][i])).toBe(true);
     const noisyInput = { ...input, planes };
     const noisyPrep = prepareClean(noisyInput, { noise: 'auto', banding: 'off' });
     expect(noisyPrep.method).toBe('groups');

@@ -49,8 +49,10 @@
  * (test/clean/correlated-texture.test.ts: nothing removed where the white path gained 0.24 dB).
  */
 import type { CleanMethodOptions, NoiseColourChoice, NoiseColourReport } from '../../contract';
+import { NOISE_GAIN_YCBCR } from '../colour';
 import { estimateNoiseSigma, scaleSigmas } from './noise-estimate';
 import { estimateNoisePsd, type NoisePsd, PSD_LAG } from './noise-psd';
+import { type ClipChannel, unclippedFloorTest } from './noise-psd-floor';
 import { dctNoiseVariances, haarCoarseVariance, haarDiagonalVariance } from './noise-psd-spectrum';
 
 interface NoiseColourPlan {
@@ -73,6 +75,7 @@ function planNoiseColour(
   [clipLow, clipHigh]: [number, number],
   choice: NoiseColourChoice,
   { sigma8, floor8, white }: { sigma8: number; floor8: number; white: number },
+  { channels, gain }: { channels: ClipChannel[]; gain: number },
 ): NoiseColourPlan {
   if (choice === 'white')
     return {
@@ -129,6 +132,11 @@ function planNoiseColour(
     return underTexture(
       `the flat blocks hold texture: their spectrum predicts ${coarseExcess.toFixed(1)} times the variance the white-noise estimate sees one wavelet scale coarser`,
       s,
+    );
+  const floor = unclippedFloorTest(psd, width, channels, psd.sigma / gain);
+  if (floor?.content)
+    return measuredWhite(
+      `the flat blocks are quieter than noise of this spectrum allows: ${floor.below} of ${floor.blocks} lie below ${floor.floor.toFixed(2)} of their lower-quartile variance (noise: 1 in 100): smooth content, not noise`,
     );
   const bounded = excess > AGREEMENT ? scaledPsd(psd, AGREEMENT / excess) : psd;
   return {
@@ -202,6 +210,8 @@ export function noiseColour(
     given: boolean;
     stabilised: boolean;
     settings: Pick<CleanMethodOptions, 'noiseColour' | 'method'>;
+    /** The colour channels the guide was made from (stabilised on that path): where their noise clips. */
+    source: Float32Array[];
   },
 ): NoiseColourPlan & { sigmas: number[]; noiseSigma: number } {
   const choice = o.settings.noiseColour ?? 'auto';
@@ -214,11 +224,18 @@ export function noiseColour(
     return { psd: null, report, sigmas, noiseSigma };
   }
   const sigma8 = (sigmas[0] * 255) / o.maxValue;
-  const plan = planNoiseColour(guide, o, clipLevels(guide, o.maxValue, o.stabilised), choice, {
-    sigma8,
-    floor8: ROUNDING_SIGMA_8BIT,
-    white: sigmas[0],
+  const channels = o.source.map((plane) => {
+    const [low, high] = clipLevels(plane, o.maxValue, o.stabilised);
+    return { plane, low, high };
   });
+  const plan = planNoiseColour(
+    guide,
+    o,
+    clipLevels(guide, o.maxValue, o.stabilised),
+    choice,
+    { sigma8, floor8: ROUNDING_SIGMA_8BIT, white: sigmas[0] },
+    { channels, gain: o.colour ? NOISE_GAIN_YCBCR[0] : 1 },
+  );
   const psd = plan.psd;
   const f = plan.whiteFactor;
   if (f !== undefined && f < 1 && !o.given)

@@ -33,7 +33,7 @@
 import { solveSpdRidge } from '../linalg';
 
 /** Side of the flat blocks (pixels): 256 samples each, so a plane fit removes ~1 % of white noise. */
-const BLOCK = 16;
+export const BLOCK = 16;
 /** Largest lag per axis of the measured autocovariance: covers the DCT of patches up to 8×8. */
 export const PSD_LAG = 7;
 /** Selection keeps blocks up to this multiple of the current flat-block variance (about 2.7 standard deviations for 40 effective samples). */
@@ -69,6 +69,13 @@ export interface NoisePsd {
   highShare: number;
   /** flatness < WHITE_FLATNESS and highShare < HIGH_SHARE. */
   correlated: boolean;
+  /**
+   * Plane-fit residual variance of each flat block used, flattest first (measured spectra only; the test of
+   * noise-psd-floor.ts reads it).
+   */
+  blockVariances?: Float64Array;
+  /** Top-left sample index (y·width + x) of each of those blocks, in the same order. */
+  blockOrigins?: Int32Array;
 }
 
 /** The half-plane of lags (Δy ≥ 0; Δx ≥ 0 when Δy = 0): each ±Δ pair once. */
@@ -79,7 +86,7 @@ function halfLags(L: number): Int32Array {
 }
 
 /** Orthonormal plane basis of a B×B block: constant, y ramp, x ramp (columns of Q, B² × 3, row-major). */
-function planeBasis(B: number): Float64Array {
+export function planeBasis(B: number): Float64Array {
   const Q = new Float64Array(B * B * 3);
   const c = (B - 1) / 2;
   const ramp = 1 / Math.sqrt((B * B * (B * B - 1)) / 12);
@@ -258,7 +265,11 @@ export function estimateNoisePsd(
     autocov[(dy + L) * side + dx + L] = r[a];
     autocov[(L - dy) * side + L - dx] = r[a];
   }
-  return psdFromAutocov(autocov, L, kept.length);
+  return {
+    ...psdFromAutocov(autocov, L, kept.length),
+    blockVariances: Float64Array.from(kept, (k) => vars[k]),
+    blockOrigins: Int32Array.from(kept, (k) => Math.floor(k / bw) * B * width + (k % bw) * B),
+  };
 }
 
 /** The NoisePsd of an autocovariance on the full (2·L + 1)² lag grid (r(0) > 0): σ, flatness, shares, the verdict. */

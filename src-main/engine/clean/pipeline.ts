@@ -179,7 +179,7 @@ export function prepareClean(input: CleanInput, settings: CleanSettings): Prepar
   const given = typeof settings.noise === 'number' || plan.report?.source === 'given';
   const stabilised = stabilisers !== null;
   const dims = { width, height, maxValue, colour };
-  const tone = noiseColour(work[0], sigmas, noiseSigma, { ...dims, given, stabilised, settings });
+  const tone = noiseColour(work[0], sigmas, noiseSigma, { ...dims, given, stabilised, settings, source });
   ({ sigmas, noiseSigma } = tone);
   const noiseSource =
     typeof settings.noise === 'number' || plan.report?.source === 'given' ? 'given' : 'estimated';
