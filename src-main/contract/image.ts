@@ -21,6 +21,17 @@ export interface ImageMeta {
   page?: number;
 }
 
+/**
+ * Samples every one of which an f32 holds exactly: float32, or a decoder's 8-bit or 16-bit integers. Kernels that
+ * read f32 take them all alike (the whole-scan encoder keeps a decoder's integer samples: issue #12).
+ */
+export type ExactF32Samples = Float32Array | Uint8Array | Uint16Array;
+
+/** Whether `a` is {@link ExactF32Samples}. */
+export function isExactF32Samples(a: ArrayLike<number>): a is ExactF32Samples {
+  return a instanceof Float32Array || a instanceof Uint8Array || a instanceof Uint16Array;
+}
+
 /** A decoded image: one Float32Array per channel, row-major, values on the source scale (0–255 or 0–65535). */
 export interface DecodedImage {
   /** Path it came from, for messages. */

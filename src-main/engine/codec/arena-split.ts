@@ -15,8 +15,9 @@
  * it, made by the message, on the other).
  */
 
+import { type ExactF32Samples, isExactF32Samples } from '../../contract';
 import { asidePiece } from './aside-piece';
-import { isStagedSamples, type PlaneArena, type StagedSamples, widenStaged } from './wasm/arena';
+import { type PlaneArena, widenStaged } from './wasm/arena';
 import { COEF, GEO, type LiftingExports, liftingOn, PAR, RESULTS } from './wasm/runtime';
 import { arenaMemoryId, isSharedMemory, ownKernels } from './wasm/shared-memory';
 
@@ -49,7 +50,7 @@ export interface ArenaPassArgs {
   /** Scratch: the arena's own thread's tmp and buf, the other thread's tmp and buf, then the end of both. */
   scratch: number[];
   /** load: the samples to widen (float or integer, on shared memory when sent to the other thread). */
-  samples?: StagedSamples;
+  samples?: ExactF32Samples;
   /** touch: set to 1 (on a SharedArrayBuffer) when the pages are needed: the other thread stops there. */
   stop?: Int32Array;
   /** aside: where the per-band squared errors and q's non-zeros (positions, values) go (shared memory). */
@@ -237,7 +238,7 @@ export function pass(
 /** A piece's kernel arguments (and samples for a load); k = −1: the whole pass. */
 interface ArenaPiece {
   a: number[];
-  samples?: StagedSamples;
+  samples?: ExactF32Samples;
 }
 
 /** Whether passes over `samples` values are split: a helper is set, the memory is shared and the pass large. */
@@ -260,7 +261,7 @@ export function bounds(k: number, n: number, unit: number): [number, number] {
  */
 export function loadSplit(arena: PlaneArena, plane: ArrayLike<number>): void {
   const n = arena.n;
-  if (!(isStagedSamples(plane) && plane.buffer instanceof SharedArrayBuffer) || !splits(arena, n))
+  if (!(isExactF32Samples(plane) && plane.buffer instanceof SharedArrayBuffer) || !splits(arena, n))
     arena.load(plane);
   else {
     arena.coeffs();

@@ -10,6 +10,7 @@
  * that waits for nothing else at the end of an encode; the kernel does the same operations in the same order
  * (so the same samples and the same sums, bit for bit) in a fraction of that.
  */
+import type { ExactF32Samples } from '../../contract';
 import { handOutArena } from './resident-plane';
 
 /**
@@ -39,7 +40,7 @@ export function greyFlatResident(
   at: number,
   len: number,
   max: number,
-  source: Float32Array | Uint8Array | Uint16Array,
+  source: ExactF32Samples,
   sums: SquareSums,
   block: number,
   out: Float32Array,

@@ -6,6 +6,7 @@
  * the decode and these sums are one kernel pass (../codec/resident-rows), with the same operations in the
  * same order.
  */
+import type { ExactF32Samples } from '../../contract';
 import { greyFlatResident, type SquareSums } from '../codec/resident-rows';
 
 /** ../metrics SseStream's block of samples: the PSNR's squared errors are summed per block, then over blocks. */
@@ -24,7 +25,7 @@ export class SquaredErrors implements SquareSums {
   block = 0;
   inBlock = 0;
 
-  constructor(readonly source: Float32Array | Uint8Array | Uint16Array) {}
+  constructor(readonly source: ExactF32Samples) {}
 
   /** Add the decoded samples b[0 … len − 1], which are the source's from `at`. */
   add(b: Float32Array, at: number, len: number): void {

@@ -10,6 +10,7 @@
  * first encode is aimed by {@link spreadRatio}: five crops spread over the scan, at the whole scan's step.
  */
 
+import { type ExactF32Samples, isExactF32Samples } from '../../contract';
 import { giveBackWork } from '../codec/resident-plane';
 import {
   type AnalysedPlane,
@@ -167,7 +168,7 @@ export function decodedRatio(
 /** One crop of {@link spreadRatio}, as the side job 'spread-crop' (./side-jobs) takes it. */
 export interface SpreadCropArgs {
   /** The whole planes (width×height), or the crop itself (then x0 = y0 = 0 and width×height = w×h). */
-  planes: Array<Float32Array | Float64Array | Uint8Array | Uint16Array>;
+  planes: Array<ExactF32Samples | Float64Array>;
   width: number;
   height: number;
   x0: number;
@@ -218,10 +219,7 @@ function cropOf(a: SpreadCropArgs): Float64Array[] {
 }
 
 const isShared = (p: ArrayLike<number>): p is SpreadCropArgs['planes'][number] =>
-  (p instanceof Float32Array ||
-    p instanceof Float64Array ||
-    p instanceof Uint8Array ||
-    p instanceof Uint16Array) &&
+  (isExactF32Samples(p) || p instanceof Float64Array) &&
   typeof SharedArrayBuffer === 'function' &&
   p.buffer instanceof SharedArrayBuffer;
 

@@ -6,6 +6,7 @@
  * encode and builds the file, does instead. Either thread runs the same function on the same samples in the
  * same order, so the value is the same bit for bit.
  */
+import { type ExactF32Samples, isExactF32Samples } from '../../contract';
 import type { SideRunner } from './side-jobs';
 
 /** Σ p[i]², in one running sum in index order. */
@@ -25,18 +26,13 @@ export function planeEnergy(planes: ArrayLike<number>[], weights: number[]): num
  * (a grey scan's decoded plane, float or its integer samples: no copy is sent), else summed here at once; the
  * returned function gives it.
  */
-/** A plane the other thread reads without a copy. */
-export type SharedPlane = Float32Array | Uint8Array | Uint16Array;
-
 export function startPlaneEnergy(
   planes: ArrayLike<number>[],
   weights: number[],
   side?: SideRunner,
 ): () => number {
-  const shared = (p: ArrayLike<number>): p is SharedPlane =>
-    typeof SharedArrayBuffer === 'function' &&
-    (p instanceof Float32Array || p instanceof Uint8Array || p instanceof Uint16Array) &&
-    p.buffer instanceof SharedArrayBuffer;
+  const shared = (p: ArrayLike<number>): p is ExactF32Samples =>
+    typeof SharedArrayBuffer === 'function' && isExactF32Samples(p) && p.buffer instanceof SharedArrayBuffer;
   if (side && planes.every(shared)) return side('plane-energy', { planes, weights });
   const energy = planeEnergy(planes, weights);
   return () => energy;

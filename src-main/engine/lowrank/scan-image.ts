@@ -6,13 +6,11 @@
  * pages (about 8 000 page faults, issue #12). Every other path widens them to float planes first
  * ({@link floatScan}), so it computes exactly what it did on the decoder's float planes.
  */
-import type { DecodedImage } from '../../contract';
+import type { DecodedImage, ExactF32Samples } from '../../contract';
 import { sharedFloat32 } from './decode-image';
 
-/** One channel's samples: float, or the decoder's integers (8-bit in Uint8Array, 16-bit in Uint16Array). */
-type ScanPlane = Float32Array | Uint8Array | Uint16Array;
-
-export type ScanImage = Omit<DecodedImage, 'planes'> & { planes: ScanPlane[] };
+/** One plane per channel: float, or the decoder's integers (8-bit in Uint8Array, 16-bit in Uint16Array). */
+export type ScanImage = Omit<DecodedImage, 'planes'> & { planes: ExactF32Samples[] };
 
 /** `img` with float planes: itself when its planes are float already, else with shared float copies. */
 export function floatScan(img: ScanImage): DecodedImage {

@@ -4,6 +4,7 @@
  * whichever thread computes it. The engine only sees a {@link SideRunner}; src-main/node/parallel/side-thread.ts
  * provides one backed by a worker thread, and {@link runHere} computes on the calling thread.
  */
+import type { ExactF32Samples } from '../../contract';
 import { type ArenaPassArgs, runArenaPass } from '../codec/arena-split';
 import { decodeCoefficientsV2 } from '../codec/coeff-coder';
 import { type AnalysedPlane, type CodedCoefficients, codeAnalysed } from '../codec/wavelet-plane';
@@ -12,7 +13,7 @@ import { readySsimKernel, ssim, ssimRowSums } from '../metrics';
 import { type CropBaseArgs, cropBaseError } from './base-estimate';
 import { type CropFit, type CropFitArgs, type CropFloorArgs, cropFit, cropFloor } from './crop-fit';
 import { type SpreadCropArgs, spreadCrop } from './floor-aim';
-import { planeEnergy, type SharedPlane } from './plane-energy';
+import { planeEnergy } from './plane-energy';
 import { verifyResidual } from './residual-verify';
 import { touchPages } from './ssim-bands';
 
@@ -20,7 +21,7 @@ export interface SideJobs {
   /** SSIM map row sums of window rows from … to − 1, from image rows from … to + 10 of both planes (../metrics). */
   'ssim-rows': {
     args: {
-      a: Float32Array | Float64Array | Uint8Array | Uint16Array;
+      a: ExactF32Samples | Float64Array;
       b: Float32Array | Float64Array;
       width: number;
       height: number;
@@ -74,7 +75,7 @@ export interface SideJobs {
    */
   'arena-pass': { args: ArenaPassArgs; result: number };
   /** The energy Σ_k weights[k]·Σ planes[k]² of a scan's planes (./plane-energy). */
-  'plane-energy': { args: { planes: SharedPlane[]; weights: number[] }; result: number };
+  'plane-energy': { args: { planes: ExactF32Samples[]; weights: number[] }; result: number };
   /** One value of every page of each (shared) array written with 0, so later writers take no page faults. */
   'touch-pages': { args: { arrays: Float32Array[] }; result: number };
   /** The SSIM kernel of the thread that runs it made ready for `width`-wide rows (../metrics readySsimKernel). */
@@ -147,7 +148,7 @@ const SSIM_PIECES = 8;
  */
 export function ssimPlanesSplit(
   run: SideRunner,
-  a: Array<Float32Array | Uint8Array | Uint16Array>,
+  a: ExactF32Samples[],
   b: Float32Array[],
   width: number,
   height: number,

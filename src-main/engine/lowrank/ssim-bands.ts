@@ -16,6 +16,7 @@
  * `ssim(source, decoded, width, height, range)` bit for bit whichever thread summed which rows (Wang et al.
  * 2004, the defaults of ../metrics/ssim: 11×11 Gaussian window, σ = 1.5, K1 = 0.01, K2 = 0.03).
  */
+import type { ExactF32Samples } from '../../contract';
 import type { SideJoin, SideRunner } from './side-jobs';
 
 /** SSIM window radius of ../metrics's defaults (11×11 window). */
@@ -115,7 +116,7 @@ export class SsimBands {
 
   constructor(
     private readonly run: SideRunner,
-    private readonly source: Float32Array | Uint8Array | Uint16Array,
+    private readonly source: ExactF32Samples,
     private readonly width: number,
     private readonly height: number,
     private readonly range: number,

@@ -26,6 +26,7 @@
  * Every result equals the TypeScript reference's bit for bit: the kernels perform its operations in its order.
  */
 
+import { type ExactF32Samples, isExactF32Samples } from '../../../contract';
 import { growMemoryTo } from '../../linalg/wasm/runtime';
 import { align16, arenaBytes, BASE, CHUNK, MAX_BYTES, PAGE, STRIP } from './arena-size';
 import {
@@ -134,16 +135,6 @@ function takePrepared(width: number, height: number) {
 }
 
 /**
- * Samples a load widens through f32 (./arena.ts widenStaged): float, or a decoder's 8-bit or 16-bit integers,
- * each of which an f32 holds exactly.
- */
-export type StagedSamples = Float32Array | Uint8Array | Uint16Array;
-
-export function isStagedSamples(plane: ArrayLike<number>): plane is StagedSamples {
-  return plane instanceof Float32Array || plane instanceof Uint8Array || plane instanceof Uint16Array;
-}
-
-/**
  * f64 copies of `samples` at byte `dst` of `memory`, each piece of samples copied first to the `cap` bytes at
  * `stage` (a thread's own scratch) as f32 (exact for integer samples too) and widened from there by the kernel
  * (exact: every f32 is an f64).
@@ -152,7 +143,7 @@ export function widenStaged(
   memory: WebAssembly.Memory,
   lift: LiftingExports,
   dst: number,
-  samples: StagedSamples,
+  samples: ExactF32Samples,
   stage: number,
   cap: number,
 ): void {
@@ -358,7 +349,7 @@ export class PlaneArena {
    */
   load(plane: ArrayLike<number>): void {
     this.fresh();
-    if (isStagedSamples(plane))
+    if (isExactF32Samples(plane))
       widenStaged(this.memory, this.lift, this.coeffsAt, plane, this.tmpAt, this.sideTmpAt - this.tmpAt);
     else if (ArrayBuffer.isView(plane)) this.coeffView.set(plane as unknown as ArrayLike<number>);
     else for (let i = 0; i < this.n; i++) this.coeffView[i] = plane[i];

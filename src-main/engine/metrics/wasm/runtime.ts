@@ -7,6 +7,7 @@
  * Layout (byte offsets): taps and ring offsets in the first page, then the ring, the row products, and the
  * input rows of one call.
  */
+import { isExactF32Samples } from '../../../contract';
 import { wasmBase64 } from './generated/ssim';
 import { LazyKernel, reserveBytes } from './loader';
 
@@ -61,10 +62,6 @@ let owner: SsimRing | null = null;
 
 const align16 = (n: number) => (n + 15) & ~15;
 
-/** Samples every one of which an f32 holds exactly: float32, or 8-bit or 16-bit integers. */
-const narrow = (a: ArrayLike<number>) =>
-  a instanceof Float32Array || a instanceof Uint8Array || a instanceof Uint16Array;
-
 /** Save the owner's ring back to its own array (before the TypeScript path touches it). */
 export function releaseRing(s: SsimRing): void {
   if (owner !== s) return;
@@ -109,7 +106,7 @@ export function ssimRowsWasm(
   new Float64Array(buf(), TAPS, s.g.length).set(s.g);
   // Float32 samples are copied as they are (no conversion in JavaScript) and widened exactly by the kernel;
   // integer samples (a decoder's 8-bit or 16-bit ones, exact in f32) go the same way, as f32.
-  const f32 = narrow(a) && narrow(b);
+  const f32 = isExactF32Samples(a) && isExactF32Samples(b);
   const rowsAt = (at: number, n: number) =>
     f32 ? new Float32Array(buf(), at, n) : new Float64Array(buf(), at, n);
   for (let r0 = 0; r0 < rows; r0 += chunk) {
