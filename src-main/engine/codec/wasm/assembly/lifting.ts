@@ -438,17 +438,7 @@ export function quantiseStats(
 }
 
 /** {@link quantiseStats} into an i16 q: NARROW_OVERFLOW (and q unfinished) when a |q| passes NARROW_MAX. */
-export function quantiseStats16(
-  x: usize,
-  q: usize,
-  width: i32,
-  b0: i32,
-  b1: i32,
-  geo: usize,
-  par: usize,
-  flags: usize,
-  out: usize,
-): i32 {
+export function quantiseStats16(x: usize, q: usize, width: i32, b0: i32, b1: i32, geo: usize, par: usize, flags: usize, out: usize): i32 {
   return quantiseBands<i16>(x, q, width, b0, b1, geo, par, flags, out);
 }
 
