@@ -5,9 +5,9 @@
 // plane decoded again after a give-back is rebuilt in its own memory with the same bits.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { forgetCodes, recordingCodes } from '../../src-main/engine/codec/coded-planes';
-import { giveBackWork, residentArena, residentQView } from '../../src-main/engine/codec/resident-plane';
 import { bandTable } from '../../src-main/engine/codec/coeff-coder';
 import { decodeInPlaceV2 } from '../../src-main/engine/codec/coeff-coder-resident';
+import { giveBackWork, residentArena, residentQView } from '../../src-main/engine/codec/resident-plane';
 import { ARENA_MIN_PIXELS, PlaneArena, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
 import type { LentRegion, QView } from '../../src-main/engine/codec/wasm/coder-runtime';
 import {
