@@ -4,7 +4,8 @@
 // 0–6 levels, whichever thread computes which piece: on one thread, every piece computed as it is offered, every
 // piece taken back by the caller (a side thread that never started them), and a real worker thread; a decided
 // plane's rebuild over its coefficients (one split pass instead of the phases over q); and the squared error at a
-// step without writing q (squaredErrorAt) equals that of the quantised plane, bit for bit. (The squared error and
+// step without writing q (squaredErrorAt) equals that of the quantised plane, bit for bit. q is i16 where every
+// |q| fits, else (a plane whose |q| passes 32767) i32, with the same bits. (The squared error and
 // non-zeros worked out beside an encode: test/codec/coded-aside.test.ts.)
 import { describe, expect, it } from 'vitest';
 import { bandCuts } from '../../src-main/engine/codec/arena-quant';
@@ -65,10 +66,11 @@ const SSE_STEPS = [0.7 * STEP, 2 * STEP, 9 * STEP];
  * Everything the split operations feed, as digests: q, counts, offsets, bytes, error, rebuilt plane; and
  * whether the plane had an arena.
  */
-function coded(p: Float32Array, w: number, h: number) {
+function coded(p: Float32Array, w: number, h: number, step = STEP) {
   const a = analysePlane(p, w, h);
   const resident = residentArena(a) !== undefined;
-  const c = codeAnalysed(a, STEP, 2);
+  const c = codeAnalysed(a, step, 2);
+  const narrow = residentArena(a)?.narrowQ;
   const out = {
     // The error at other steps without writing q (first: q must still be c's afterwards).
     sseAt: SSE_STEPS.map((s) => squaredErrorAt(a, s)),
@@ -79,15 +81,19 @@ function coded(p: Float32Array, w: number, h: number) {
     sse: codedSquaredError(a, c),
     rebuilt: digest(reconstructCoded(a, c)),
     // The statistics without range coding (rate control), at a second step.
-    offsets2: Array.from(quantiseAnalysed(a, 2 * STEP).offsets ?? []),
+    offsets2: Array.from(quantiseAnalysed(a, 2 * step).offsets ?? []),
   };
-  return { out, resident };
+  return { out, resident, narrow };
 }
 
-/** Phases of a dequantisation of n positions split down to single positions (arena-quant.ts). */
-function phases(n: number): number {
+/**
+ * Phases of a dequantisation of n positions split down to single positions (arena-quant.ts), over an i16 q
+ * (the work region's top quarter) or an i32 q (its upper half).
+ */
+function phases(n: number, narrow: boolean): number {
+  const s = narrow ? 2 : 4;
   let k = 0;
-  for (let from = 0; n - from >= 8; k++) from = Math.floor((n + from) / 2);
+  for (let from = 0; n - from >= 8; k++) from = Math.floor(((8 - s) * n + s * from) / 8);
   return k;
 }
 
@@ -103,6 +109,7 @@ describe('quantiser, squared error and dequantisation split across threads', () 
       counts.clear();
       const got = withArenaHelper(run, () => coded(p, w, h));
       expect(got.resident).toBe(true);
+      expect(got.narrow).toBe(true);
       expect(got.out).toEqual(ref.out);
       if (!run) continue;
       const how = run === atOnce ? 'offered' : 'taken back';
@@ -112,7 +119,7 @@ describe('quantiser, squared error and dequantisation split across threads', () 
       expect(counts.get(`${how} quantise`)).toBe(6);
       expect(counts.get(`${how} aside`)).toBe(1);
       expect(counts.get(`${how} errors`)).toBe(run === atOnce ? undefined : 3);
-      expect(counts.get(`${how} dequantise`)).toBe(3 * phases(w * h));
+      expect(counts.get(`${how} dequantise`)).toBe(3 * phases(w * h, true));
       // Per squaredErrorAt, three pieces of each of its two passes.
       expect(counts.get(`${how} statsAt`)).toBe(3 * SSE_STEPS.length);
       expect(counts.get(`${how} errorsAt`)).toBe(3 * SSE_STEPS.length);
@@ -174,6 +181,26 @@ describe('quantiser, squared error and dequantisation split across threads', () 
     },
   );
 
+  it.each([SIZES[2], SIZES[5]])(
+    '%i×%i: a plane whose |q| passes 32767 is quantised into an i32 q, with the same bits',
+    (w, h) => {
+      // Grey levels × 400 at a step of 0.05: LL magnitudes far past an i16's.
+      const p = rampPlane(w, h, 9 * w + h).map((v) => 400 * v);
+      const step = 0.05;
+      const ref = reference(() => coded(p, w, h, step));
+      for (const run of [undefined, atOnce, takenBack]) {
+        counts.clear();
+        const got = withArenaHelper(run, () => coded(p, w, h, step));
+        expect(got.resident).toBe(true);
+        expect(got.narrow).toBe(false);
+        expect(got.out).toEqual(ref.out);
+        if (!run) continue;
+        const how = run === atOnce ? 'offered' : 'taken back';
+        expect(counts.get(`${how} dequantise`)).toBe(3 * phases(w * h, false));
+      }
+    },
+  );
+
   it('cuts the bands into runs of about a quarter of the plane: the finest level’s three and the rest', () => {
     const bands = bandsFor(3300, 2500, 6);
     expect(bandCuts(bands)).toEqual([0, 16, 17, 18, 19]);
@@ -192,7 +219,8 @@ describe('quantiser, squared error and dequantisation split across threads', () 
         arena.transform(5, LIFTING, false);
         quantiseResident(arena, bands, (bi) => [steps[bi], 0.375, 0]);
         const fused = new Float64Array(arena.memory.buffer, RESULTS, 4 * bands.length).slice();
-        arena.lift.binStats(arena.coeffsAt, arena.qAt, w, bands.length, GEO, PAR, RESULTS);
+        expect(arena.narrowQ).toBe(true);
+        arena.lift.binStats16(arena.coeffsAt, arena.qAt, w, bands.length, GEO, PAR, RESULTS);
         const separate = new Float64Array(arena.memory.buffer, RESULTS, 4 * bands.length).slice();
         arena.release();
         return { fused, separate };

@@ -153,7 +153,10 @@ describe('squared error and non-zeros worked out beside an encode', () => {
       const count = nonZeros(c.q).at.length;
       const short = { at: new Int32Array(count - 1), v: new Int32Array(count - 1) };
       // Too many for the list (the pass over the flags stops): none listed, the sums made.
-      expect(runArenaPass({ ...args, a: [...args.a.slice(0, 6), 0], stop, sums, ...short })).toBe(-1);
+      // (a: x, q, width, nb, flags, n, room, narrow: the room replaced, q's width kept.)
+      const withRoom = (room: number) => [...args.a.slice(0, 6), room, args.a[7]];
+      expect(args.a[7]).toBe(1);
+      expect(runArenaPass({ ...args, a: withRoom(0), stop, sums, ...short })).toBe(-1);
       expect(sums[nb]).toBe(1);
       // The whole list, by the kernel below the coder's map and by the pass over the chunk flags: the same.
       expect(args.a[6]).toBeGreaterThan(0);
@@ -161,9 +164,7 @@ describe('squared error and non-zeros worked out beside an encode', () => {
       for (const room of [args.a[6], 0]) {
         const whole = { at: new Int32Array(count), v: new Int32Array(count) };
         const sums2 = new Float64Array(nb + 1);
-        expect(runArenaPass({ ...args, a: [...args.a.slice(0, 6), room], stop, sums: sums2, ...whole })).toBe(
-          count,
-        );
+        expect(runArenaPass({ ...args, a: withRoom(room), stop, sums: sums2, ...whole })).toBe(count);
         expect({ at: Array.from(whole.at), v: Array.from(whole.v) }).toEqual(listed);
         expect(Array.from(sums2)).toEqual(Array.from(sums));
       }

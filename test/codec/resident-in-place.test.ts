@@ -5,14 +5,18 @@
 // plane decoded again after a give-back is rebuilt in its own memory with the same bits.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { forgetCodes, recordingCodes } from '../../src-main/engine/codec/coded-planes';
+import { bandTable } from '../../src-main/engine/codec/coeff-coder';
+import { decodeInPlaceV2 } from '../../src-main/engine/codec/coeff-coder-resident';
 import { giveBackWork, residentArena, residentQView } from '../../src-main/engine/codec/resident-plane';
-import { ARENA_MIN_PIXELS, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
+import { ARENA_MIN_PIXELS, PlaneArena, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
+import type { LentRegion, QView } from '../../src-main/engine/codec/wasm/coder-runtime';
 import {
   analysePlane,
   codeAnalysed,
   decodePlane,
   reconstructCoded,
 } from '../../src-main/engine/codec/wavelet-plane';
+import { bandsFor, levelsFor } from '../../src-main/engine/codec/wavelet-transform';
 import { startResidualCheck } from '../../src-main/engine/lowrank/residual-check';
 import { runHere } from '../../src-main/engine/lowrank/side-jobs';
 import { digest, rampPlane, reference } from './plane-samples';
@@ -48,7 +52,9 @@ describe('resident quantised values read in place', () => {
       for (let k = STEPS.length - 1; k >= 0; k--) {
         const view = residentQView(coded[k]);
         expect(view).toBeDefined();
-        expect(digest(view as Int32Array)).toBe(ref[k]);
+        // An i16 view where every |q| fits (each value the reference's).
+        expect(view).toBeInstanceOf(Int16Array);
+        expect(digest(Int32Array.from(view as QView))).toBe(ref[k]);
       }
       // Once a result's q was made into an array, that array is the one to read.
       expect(digest(coded[0].q)).toBe(ref[0]);
@@ -57,6 +63,33 @@ describe('resident quantised values read in place', () => {
     },
   );
 
+  it('a decode into a lent i16 q whose values do not fit one decodes into an i32 q instead, with the same values', () => {
+    const [w, h] = [97, 83];
+    const bands = bandsFor(w, h, levelsFor(w, h));
+    // Grey levels at step 3 (every |q| fits an i16), and × 400 at step 0.05 (LL magnitudes far past one).
+    for (const [scale, step, narrow] of [
+      [1, 3, true],
+      [400, 0.05, false],
+    ] as const) {
+      const p = rampPlane(w, h, 13).map((v) => scale * v);
+      const ref = reference(() => codeAnalysed(analysePlane(p, w, h), step, 2));
+      const arena = PlaneArena.create(w, h) as PlaneArena;
+      const region = arena.lendWork(bandTable(bands)) as LentRegion;
+      expect(region.narrow).toBe(true);
+      const got = decodeInPlaceV2(
+        ref.bytes,
+        w * h,
+        w,
+        bands,
+        (q, nonZero) => ({ narrow: q instanceof Int16Array, q: digest(Int32Array.from(q)), nonZero }),
+        region,
+      );
+      arena.endLoan();
+      arena.release();
+      expect(got).toEqual({ narrow, q: digest(ref.q), nonZero: ref.nonZero });
+    }
+  });
+
   it('the residual check passes on the resident q and refuses when one resident value differs', () => {
     const [w, h, step] = [97, 83, 3];
     forgetCodes();
@@ -64,14 +97,14 @@ describe('resident quantised values read in place', () => {
     const c = recordingCodes(() => codeAnalysed(a, step, 2));
     const check = () => startResidualCheck(runHere, { steps: [step], bytes: [c.bytes] }, w, h, 'b.tif')();
     expect(check).not.toThrow();
-    const view = residentQView(c) as Int32Array;
+    const view = residentQView(c) as QView;
     view[view.length >> 1] += 1;
     expect(check).toThrow(
       'b.tif: the residual layer just coded for plane 0 decodes to other coefficients than it was coded from',
     );
     // The check decoded into the region (the view's values are now the decoded ones): undo the change where
     // the recorded values are now, the q loaded back into the region.
-    const again = residentQView(c) as Int32Array;
+    const again = residentQView(c) as QView;
     again[again.length >> 1] -= 1;
     expect(check).not.toThrow();
   });
@@ -119,7 +152,7 @@ describe('resident quantised values read in place', () => {
     const order = [2, 0, 1];
     const x = order.map((k) => digest(reconstructCoded(a, coded[k])));
     expect(x).toEqual(order.map((k) => ref.x[k]));
-    expect(order.map((k) => digest(residentQView(coded[k]) as Int32Array))).toEqual(
+    expect(order.map((k) => digest(Int32Array.from(residentQView(coded[k]) as QView)))).toEqual(
       order.map((k) => ref.q[k]),
     );
     // Coding again after the rebuilds quantises into the region afresh: the same bytes as the first time.
@@ -142,6 +175,6 @@ describe('resident quantised values read in place', () => {
     giveBackWork(x);
     forgetCodes();
     expect(residentArena(a)).toBeDefined();
-    expect(digest(residentQView(c) as Int32Array)).toBe(ref);
+    expect(digest(Int32Array.from(residentQView(c) as QView))).toBe(ref);
   });
 });

@@ -9,6 +9,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { forgetCodes, recordingCodes } from '../../src-main/engine/codec/coded-planes';
 import { giveBackWork, residentQ, residentQView } from '../../src-main/engine/codec/resident-plane';
 import { ARENA_MIN_PIXELS, type PlaneArena, setArenaMinPixels } from '../../src-main/engine/codec/wasm/arena';
+import type { QView } from '../../src-main/engine/codec/wasm/coder-runtime';
 import { analysePlane, codeAnalysed, decodePlane } from '../../src-main/engine/codec/wavelet-plane';
 import { initEngine } from '../../src-main/engine/linalg';
 import { startResidualCheck } from '../../src-main/engine/lowrank/residual-check';
@@ -79,7 +80,7 @@ describe('the residual check of a resident plane', () => {
     const later = (planes: 'elsewhere' | 'resident') =>
       startResidualCheck(e.run, { steps: [step], bytes: [c.bytes] }, w, h, 'c.tif', planes);
     later('elsewhere')();
-    const view = residentQView(c) as Int32Array;
+    const view = residentQView(c) as QView;
     view[view.findIndex((v) => v !== 0)] += 1;
     expect(later('resident')).toThrow('decodes to other coefficients');
     expect(later('resident')).not.toThrow();
@@ -89,7 +90,7 @@ describe('the residual check of a resident plane', () => {
   it('refuses a changed coefficient, also one changed to or from 0', () => {
     for (const pick of ['non-zero', 'zero'] as const) {
       const c = code();
-      const view = residentQView(c) as Int32Array;
+      const view = residentQView(c) as QView;
       const i = view.findIndex((v) => (pick === 'zero' ? v === 0 : v !== 0));
       expect(i).toBeGreaterThanOrEqual(0);
       view[i] = pick === 'zero' ? 1 : 0;
@@ -131,7 +132,7 @@ describe('the residual check of a resident plane on a second thread (offThread)'
   it('refuses a changed coefficient (to or from 0) and a changed offset, with the same messages', () => {
     for (const pick of ['non-zero', 'zero'] as const) {
       const c = code();
-      const view = residentQView(c) as Int32Array;
+      const view = residentQView(c) as QView;
       const i = view.findIndex((v) => (pick === 'zero' ? v === 0 : v !== 0));
       view[i] = pick === 'zero' ? 1 : 0;
       expect(check(later([]), c.bytes)).toThrow(
@@ -163,7 +164,7 @@ describe('the residual check of a decided plane on a second thread, in its q reg
     const { a, c } = coded();
     const arena = residentQ(c) as PlaneArena;
     expect(arena).toBeDefined();
-    const recorded = Int32Array.from(residentQView(c) as Int32Array);
+    const recorded = Int32Array.from(residentQView(c) as QView);
     expect(recorded.some((v) => v !== 0)).toBe(true);
     const rebuilt = () => rebuiltDigest(c.bytes);
     const before = rebuilt();
@@ -183,8 +184,9 @@ describe('the residual check of a decided plane on a second thread, in its q reg
     giveBackWork(x);
     expect(join).not.toThrow();
     expect(arena.onLoan).toBe(false);
-    // The decode left the plane's q in its region: the recorded values, in place.
-    expect(new Int32Array(arena.memory.buffer, arena.qAt, w * h)).toEqual(recorded);
+    // The decode left the plane's q in its region: the recorded values, in place (an i16 q: every |q| fits).
+    expect(arena.narrowQ).toBe(true);
+    expect(Int32Array.from(arena.qView())).toEqual(recorded);
     expect(rebuilt()).toBe(before);
     // Quantising the plane again would read the overwritten coefficients: refused, not computed.
     expect(() => codeAnalysed(a, step * 2, 2)).toThrow('coefficients were overwritten');
@@ -201,7 +203,7 @@ describe('the residual check of a decided plane on a second thread, in its q reg
     giveBackWork(x);
     expect(join).not.toThrow();
     const d = coded().c;
-    const view = residentQView(d) as Int32Array;
+    const view = residentQView(d) as QView;
     view[view.findIndex((v) => v !== 0)] = 0;
     const refused = check(runHere, d.bytes);
     giveBackWork(decodePlane(d.bytes, w, h, step, 2));
@@ -224,7 +226,7 @@ describe('the residual check of a decided plane on a second thread, in its q reg
   it('refuses a changed coefficient (to or from 0), a changed offset and changed bytes, with the same messages', () => {
     for (const pick of ['non-zero', 'zero'] as const) {
       const { c } = coded();
-      const view = residentQView(c) as Int32Array;
+      const view = residentQView(c) as QView;
       const i = view.findIndex((v) => (pick === 'zero' ? v === 0 : v !== 0));
       view[i] = pick === 'zero' ? 1 : 0;
       expect(check(later([]), c.bytes)).toThrow(

@@ -17,9 +17,10 @@
 
 import { type ExactF32Samples, isExactF32Samples } from '../../contract';
 import { asidePiece } from './aside-piece';
-import { type PlaneArena, widenStaged } from './wasm/arena';
+import type { PlaneArena } from './wasm/arena';
 import { COEF, GEO, type LiftingExports, liftingOn, PAR, RESULTS } from './wasm/runtime';
 import { arenaMemoryId, isSharedMemory, ownKernels } from './wasm/shared-memory';
+import { widenStaged } from './wasm/widen-staged';
 
 /** One piece of a pass, as sent to the other thread. */
 export interface ArenaPassArgs {
@@ -41,9 +42,10 @@ export interface ArenaPassArgs {
   /**
    * load: dst (f64 bytes); rows: x, width, w, y0, y1; cols: x, width, w, h, c0, c1; touch: from, to (bytes),
    * and 1 to go from the last page down;
-   * quantise and errors: x, q, width, b0, b1 (bands), flags (quantise); dequantise: q, x, width, nb, i0, i1;
-   * statsAt and errorsAt (the quantiser's statistics and error without q, ./arena-quant.ts): x, width, b0, b1;
-   * aside (./coded-aside.ts): x, q, width, nb, flags, n, room (0: none).
+   * quantise: x, q, width, b0, b1 (bands), flags, narrow; errors: x, q, width, b0, b1, narrow; dequantise: q,
+   * x, width, nb, i0, i1, narrow; statsAt and errorsAt (the quantiser's statistics and error without q,
+   * ./arena-quant.ts): x, width, b0, b1; aside (./coded-aside.ts): x, q, width, nb, flags, n, room (0: none),
+   * narrow. narrow: 1 for an i16 q (./wasm/arena.ts), 0 for an i32 one.
    * The band tables (and the statistics written per band) are the kernels' (./wasm/runtime.ts GEO, PAR, RESULTS).
    */
   a: number[];
@@ -162,15 +164,44 @@ export function runArenaPass(args: ArenaPassArgs): number {
       (args.inverse ? lift.inverseCols : lift.forwardCols)(a[0], a[1], a[2], a[3], a[4], a[5], buf, COEF);
       break;
     case 'quantise':
-      return lift.quantiseStats(a[0], a[1], a[2], a[3], a[4], GEO, PAR, a[5], RESULTS);
-    case 'errors':
-      lift.squaredError(a[0], a[1], a[2], a[4] - a[3], GEO + 16 * a[3], PAR + 32 * a[3], RESULTS + 8 * a[3]);
+      return (a[6] ? lift.quantiseStats16 : lift.quantiseStats)(
+        a[0],
+        a[1],
+        a[2],
+        a[3],
+        a[4],
+        GEO,
+        PAR,
+        a[5],
+        RESULTS,
+      );
+    case 'errors': {
+      const b0 = a[3];
+      (a[5] ? lift.squaredError16 : lift.squaredError)(
+        a[0],
+        a[1],
+        a[2],
+        a[4] - b0,
+        GEO + 16 * b0,
+        PAR + 32 * b0,
+        RESULTS + 8 * b0,
+      );
       break;
+    }
     case 'dequantise':
       // In slices: a call runs to its end in the code it started in, and the report's rebuild is often this
       // kernel's first use, so one call per piece would run wholly in the engine's first, unoptimised code.
       for (let i = a[4]; i < a[5]; i += DEQUANTISE_SLICE)
-        lift.dequantiseInPlace(a[0], a[1], a[2], a[3], GEO, PAR, i, Math.min(a[5], i + DEQUANTISE_SLICE));
+        (a[6] ? lift.dequantiseInPlace16 : lift.dequantiseInPlace)(
+          a[0],
+          a[1],
+          a[2],
+          a[3],
+          GEO,
+          PAR,
+          i,
+          Math.min(a[5], i + DEQUANTISE_SLICE),
+        );
       break;
     case 'statsAt':
       lift.quantiseStats(a[0], 0, a[1], a[2], a[3], GEO, PAR, 0, RESULTS);

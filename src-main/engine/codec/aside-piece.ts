@@ -5,7 +5,7 @@
  */
 import { CHUNK, GEO, type LiftingExports, PAR, RESULTS } from './wasm/runtime';
 
-/** What the piece reads (./arena-split.ts ArenaPassArgs: a = x, q, width, nb, flags, n, room). */
+/** What the piece reads (./arena-split.ts ArenaPassArgs: a = x, q, width, nb, flags, n, room, narrow). */
 export interface AsidePieceArgs {
   memory: WebAssembly.Memory;
   a: number[];
@@ -23,22 +23,38 @@ export interface AsidePieceArgs {
  * after them. Each part is skipped once `stop` is set. Returns the non-zeros listed, or −1 for none.
  */
 export function asidePiece(args: AsidePieceArgs, lift: LiftingExports): number {
-  const [x, qAt, width, nb, flagsAt, n, room] = args.a;
+  const [x, qAt, width, nb, flagsAt, n, room, narrow] = args.a;
   const { stop, sums, at, v } = args;
   const stopped = () => stop !== undefined && Atomics.load(stop, 0) !== 0;
   let k = -1;
   if (at && v && !stopped()) {
     const count = at.length;
     if (room > 0) {
-      k = lift.compactNonZero(qAt, flagsAt, n, room, room + 4 * count);
+      k = (narrow ? lift.compactNonZero16 : lift.compactNonZero)(qAt, flagsAt, n, room, room + 4 * count);
       at.set(new Int32Array(args.memory.buffer, room, k));
       v.set(new Int32Array(args.memory.buffer, room + 4 * count, k));
-    } else k = listNonZeros(new Int32Array(args.memory.buffer, qAt, n), flagsAt, args, stopped);
+    } else {
+      const buf = args.memory.buffer;
+      k = listNonZeros(
+        narrow ? new Int16Array(buf, qAt, n) : new Int32Array(buf, qAt, n),
+        flagsAt,
+        args,
+        stopped,
+      );
+    }
   }
   if (!sums) return k;
   for (let b = 0; b < nb; b++) {
     if (stopped()) return k;
-    lift.squaredError(x, qAt, width, 1, GEO + 16 * b, PAR + 32 * b, RESULTS + 8 * b);
+    (narrow ? lift.squaredError16 : lift.squaredError)(
+      x,
+      qAt,
+      width,
+      1,
+      GEO + 16 * b,
+      PAR + 32 * b,
+      RESULTS + 8 * b,
+    );
   }
   sums.set(new Float64Array(args.memory.buffer, RESULTS, nb));
   sums[nb] = 1;
@@ -46,7 +62,12 @@ export function asidePiece(args: AsidePieceArgs, lift: LiftingExports): number {
 }
 
 /** q's non-zeros in raster order into args.at and args.v, by the chunk flags at `flagsAt`; −1 if stopped or too many. */
-function listNonZeros(q: Int32Array, flagsAt: number, args: AsidePieceArgs, stopped: () => boolean): number {
+function listNonZeros(
+  q: Int32Array | Int16Array,
+  flagsAt: number,
+  args: AsidePieceArgs,
+  stopped: () => boolean,
+): number {
   const { at, v } = args as Required<AsidePieceArgs>;
   const flags = new Uint8Array(args.memory.buffer, flagsAt, Math.ceil(q.length / CHUNK));
   let k = 0;

@@ -51,7 +51,8 @@ export function besideEncode<T>(
   arena.bands(bands, par);
   const where = [arena.coeffsAt, arena.qAt, arena.width, nb, arena.flagsAt, n];
   const fits = map < arena.qAt && room >= arena.workAt;
-  const join = offerAlone(arena, 'aside', [...where, fits ? room : 0], { stop, sums, at, v });
+  const narrow = arena.narrowQ ? 1 : 0;
+  const join = offerAlone(arena, 'aside', [...where, fits ? room : 0, narrow], { stop, sums, at, v });
   if (!join) return encode();
   let out: T;
   try {

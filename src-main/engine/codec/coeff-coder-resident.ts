@@ -18,6 +18,7 @@ import {
   encodeAt,
   type LentRegion,
   planesLayout,
+  type QView,
 } from './wasm/coder-runtime';
 import type { Band } from './wavelet-transform';
 
@@ -85,12 +86,12 @@ export function decodeInPlaceV2<T>(
   n: number,
   width: number,
   bands: Band[],
-  read: (q: Int32Array, nonZero: number, offsets: Float64Array) => T,
+  read: (q: QView, nonZero: number, offsets: Float64Array) => T,
   region?: LentRegion,
 ): T | null {
   if (bands.length > MAX_BANDS) return null;
   const table = bandTable(bands);
-  const give = (got: { pos: number; counts: Int32Array; k: Int32Array }, q: Int32Array) => {
+  const give = (got: { pos: number; counts: Int32Array; k: Int32Array }, q: QView) => {
     rc.checkStreamEnd('plane data', got.pos, bytes.length);
     let nonZero = 0;
     for (let j = 0; j < got.counts.length; j++) nonZero += got.counts[j];
@@ -100,11 +101,19 @@ export function decodeInPlaceV2<T>(
   const at =
     region &&
     (placed
-      ? { ...planesLayout(n, table, region.at, region.mag), tail: region.tail as number }
+      ? {
+          ...planesLayout(n, table, region.at, region.mag),
+          tail: region.tail as number,
+          narrow: region.narrow,
+        }
       : planesLayout(n, table, region.at, region.at + 4 * n));
   const c = at && at.tail + bytes.length <= region.at + region.bytes ? coderOn(region.memory, SETUP) : null;
+  // (Into a narrow q, null too when a value does not fit: then into an i32 q in the port's own memory.)
   const got = c && at && decodeAt(c, at, n, width, table, bytes);
-  if (c && got) return give(got, new Int32Array(c.memory.buffer, at.q, n));
+  if (c && got) {
+    const buf = c.memory.buffer;
+    return give(got, at.narrow ? new Int16Array(buf, at.q, n) : new Int32Array(buf, at.q, n));
+  }
   const w = coderWasm(SETUP);
   return w && decodeInPort(w, bytes, n, width, table, give);
 }

@@ -14,7 +14,7 @@ import { loadSplit, offerTouch, settleTouch, transformSplit } from './arena-spli
 import { listedBeside } from './coded-aside';
 import { statsOf } from './resident-bands';
 import { PlaneArena } from './wasm/arena';
-import type { LentRegion } from './wasm/coder-runtime';
+import type { LentRegion, QView } from './wasm/coder-runtime';
 import {
   type BandRect,
   CHUNK,
@@ -31,6 +31,8 @@ const arenaOf = new WeakMap<object, PlaneArena>();
 /** The result whose quantised values are in each arena's q region, and each result's arena. */
 const qOwner = new WeakMap<PlaneArena, object>();
 const resultArena = new WeakMap<object, PlaneArena>();
+/** Whether each result's q is i16 in its arena (./wasm/arena.ts narrowQ): how it is loaded back there. */
+const qNarrow = new WeakMap<object, boolean>();
 /** A result's q as an array (made on first use), or its non-zeros (positions, values) once its region was reused. */
 const denseQ = new WeakMap<object, Int32Array>();
 const sparseQ = new WeakMap<object, { at: Int32Array; v: Int32Array }>();
@@ -78,6 +80,7 @@ export function adoptArena(plane: object, arena: PlaneArena): void {
 function ownQ(arena: PlaneArena, result: object): void {
   qOwner.set(arena, result);
   resultArena.set(result, arena);
+  qNarrow.set(result, arena.narrowQ);
 }
 
 /**
@@ -101,7 +104,7 @@ function qValues(result: object, n: number): Int32Array {
   const arena = resultArena.get(result);
   const sparse = sparseQ.get(result);
   if (arena && qOwner.get(arena) === result)
-    copyFlaggedChunks(arena.memory.buffer, arena.qAt, arena.flagsAt, n, q);
+    copyFlaggedChunks(arena.memory.buffer, arena.qAt, arena.flagsAt, n, q, arena.narrowQ);
   else if (sparse) for (let k = 0; k < sparse.at.length; k++) q[sparse.at[k]] = sparse.v[k];
   denseQ.set(result, q);
   sparseQ.delete(result);
@@ -156,15 +159,15 @@ function nonZerosIn(arena: PlaneArena, owner: object): { at: Int32Array; v: Int3
   let v: Int32Array;
   let k = 0;
   if (8 * count <= 4 * n) {
-    const from = qAt - 8 * count;
-    k = arena.lift.compactNonZero(qAt, arena.flagsAt, n, from, from + 4 * count);
+    const from = Math.floor((qAt - 8 * count) / 8) * 8;
+    const compact = arena.narrowQ ? arena.lift.compactNonZero16 : arena.lift.compactNonZero;
+    k = compact(qAt, arena.flagsAt, n, from, from + 4 * count);
     const buf = arena.memory.buffer;
     at = new Int32Array(buf, from, k).slice();
     v = new Int32Array(buf, from + 4 * count, k).slice();
   } else {
-    const buf = arena.memory.buffer;
-    const q = new Int32Array(buf, arena.qAt, n);
-    const flags = new Uint8Array(buf, arena.flagsAt, Math.ceil(n / CHUNK));
+    const q = arena.qView();
+    const flags = new Uint8Array(arena.memory.buffer, arena.flagsAt, Math.ceil(n / CHUNK));
     at = new Int32Array(count);
     v = new Int32Array(count);
     for (let j = 0; j < flags.length && k < count; j++) {
@@ -191,9 +194,9 @@ export function residentQ(result: object): PlaneArena | undefined {
   const sparse = sparseQ.get(result);
   if (!dense && !sparse) return undefined;
   releaseQ(arena);
-  const buf = arena.memory.buffer;
-  const q = new Int32Array(buf, arena.qAt, arena.n);
-  const flags = new Uint8Array(buf, arena.flagsAt, Math.ceil(arena.n / CHUNK));
+  arena.setNarrowQ(qNarrow.get(result) === true);
+  const q = arena.qView();
+  const flags = new Uint8Array(arena.memory.buffer, arena.flagsAt, Math.ceil(arena.n / CHUNK));
   if (dense) {
     q.set(dense);
     flags.fill(1);
@@ -268,13 +271,13 @@ export function lendAfterRebuild(
  * (read `result.q` then). Reading them in place skips the array {@link residentResult}'s `q` would make: n
  * fresh values, mostly zero pages.
  */
-export function residentQView(result: object): Int32Array | undefined {
+export function residentQView(result: object): QView | undefined {
   if (denseQ.has(result)) return undefined;
   const arena = residentQ(result);
   if (!arena) return undefined;
   loadedBack.delete(arena);
   listedInPlace.delete(result);
-  return new Int32Array(arena.memory.buffer, arena.qAt, arena.n);
+  return arena.qView();
 }
 
 /** A new arena holding `plane`'s forward transform (`levels` levels; `oneRebuild`: ./wasm/arena.ts), or null. */
@@ -328,7 +331,8 @@ export function binStatsResident(
   if (known && known.steps.length === nb && known.steps.every((d, bi) => d === steps[bi]))
     return { n: known.n.slice(), sum: known.sum.slice() };
   arena.bands(bands, (bi) => [steps[bi], 0, 0]);
-  arena.lift.binStats(arena.coeffsAt, arena.qAt, arena.width, nb, GEO, PAR, RESULTS);
+  const binStats = arena.narrowQ ? arena.lift.binStats16 : arena.lift.binStats;
+  binStats(arena.coeffsAt, arena.qAt, arena.width, nb, GEO, PAR, RESULTS);
   return statsOf(arena, nb);
 }
 

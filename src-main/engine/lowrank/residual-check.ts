@@ -174,7 +174,7 @@ function checkResident(coded: CodedCoefficients, width: number, height: number):
   }
   // No port here: the recorded values are kept (loaded back when next needed), and the side job checks.
   if (!got) return undefined;
-  const q = new Int32Array(arena.memory.buffer, arena.qAt, arena.n);
+  const q = arena.qView();
   let decoded = 0;
   for (let j = 0; j < got.counts.length; j++) decoded += got.counts[j];
   const differs = !sameAsKept(q, decoded, kept)

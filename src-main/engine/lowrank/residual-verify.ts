@@ -7,7 +7,7 @@
  */
 import { decodeCoefficientsV2 } from '../codec/coeff-coder';
 import { decodeInPlaceV2 } from '../codec/coeff-coder-resident';
-import type { LentRegion } from '../codec/wasm/coder-runtime';
+import type { LentRegion, QView } from '../codec/wasm/coder-runtime';
 import { bandsFor, levelsFor } from '../codec/wavelet-transform';
 
 /** Recorded coefficients: the whole array (`dense`) or its non-zeros (`at`, `v`). */
@@ -22,7 +22,7 @@ export interface KeptCoefficients {
  * non-zeros all found in q with q holding `nonZero` non-zeros in all (then q has no other non-zero, so every
  * other value is 0 as recorded).
  */
-export function sameAsKept(q: Int32Array, nonZero: number, kept: KeptCoefficients): boolean {
+export function sameAsKept(q: QView, nonZero: number, kept: KeptCoefficients): boolean {
   if (kept.dense) return kept.dense.length === q.length && sameInt32(kept.dense, q);
   const at = kept.at as Int32Array;
   const v = kept.v as Int32Array;
@@ -38,7 +38,7 @@ export function sameOffsets(got: Float64Array, o: Float64Array | undefined): boo
   return true;
 }
 
-export function sameInt32(a: Int32Array, b: Int32Array): boolean {
+export function sameInt32(a: QView, b: QView): boolean {
   for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
   return true;
 }
@@ -63,7 +63,7 @@ export function verifyResidual(args: {
   const { bytes, width, height, kept } = args;
   const n = width * height;
   const bands = bandsFor(width, height, levelsFor(width, height));
-  const differs = (q: Int32Array, nonZero: number, offsets: Float64Array) =>
+  const differs = (q: QView, nonZero: number, offsets: Float64Array) =>
     !sameAsKept(q, nonZero, kept)
       ? 'decodes to other coefficients than it was coded from'
       : !sameOffsets(offsets, args.offsets)

@@ -11,22 +11,24 @@
  *
  * Layout (byte offsets): the lifting module's tables in the first page (./runtime.ts), the coder's scratch
  * from SCRATCH (./coder-constants.ts), then from {@link BASE}: the coefficients (f64), the transforms' scratch
- * (twice: the second for a second thread, ../arena-split.ts), the quantiser's chunk flags, then the work region of 8n bytes whose upper half is q (i32), and last the
- * coder's output (which may grow the memory). The coder's magnitude map (u8) and the LL band's differences
- * sit at the top of the work region's lower half, just below q (they fit when the LL band is at most n/4
- * values, i.e. one level or more; otherwise after the work region); q's non-zeros are listed there too
- * before q is overwritten. A rebuild whose plane may still be coded again (a quality floor's checks) fills
+ * (twice: the second for a second thread, ../arena-split.ts), the quantiser's chunk flags, then the work region of 8n bytes whose top
+ * holds q, and last the coder's output (which may grow the memory). q is i16 (its top 2n bytes) when every
+ * |q| of the plane fits (the quantiser tries that first, ../arena-quant.ts; nearly every plane at the steps
+ * this program uses), else i32 (its upper half): a narrow q touches half the pages. The coder's magnitude map
+ * (u8) and the LL band's differences sit just below q (they fit when the LL band is at most n/4 values, i.e.
+ * one level or more; otherwise after the work region); q's non-zeros are listed there too before q is
+ * overwritten. A rebuild whose plane may still be coded again (a quality floor's checks) fills
  * the whole work region with the reconstruction (f64), over q (the kernel reads each q before anything
  * writes over it; the caller first keeps q's non-zeros): a plane then touches 16n bytes of fresh memory here
  * and not 20n. Once the encode is decided ({@link PlaneArena.spend}), the last rebuild goes over the
  * coefficients instead, and the range decode of the report's check may then use q's region and the map's
- * ({@link PlaneArena.lendWork}): a plane coded under a byte budget never touches the rest of the lower half
- * (3n bytes; {@link PlaneArena.oneRebuild}), so 13n bytes in all.
+ * ({@link PlaneArena.lendWork}): a plane coded under a byte budget with a narrow q never touches the work
+ * region below the map ({@link PlaneArena.oneRebuild}), so 11n bytes in all (13n with an i32 q).
  *
  * Every result equals the TypeScript reference's bit for bit: the kernels perform its operations in its order.
  */
 
-import { type ExactF32Samples, isExactF32Samples } from '../../../contract';
+import { isExactF32Samples } from '../../../contract';
 import { growMemoryTo } from '../../linalg/wasm/runtime';
 import { align16, arenaBytes, BASE, CHUNK, MAX_BYTES, PAGE, STRIP } from './arena-size';
 import {
@@ -40,6 +42,7 @@ import {
 } from './coder-runtime';
 import { type BandRect, COEF, type LiftingExports, liftingOn, writeBands } from './runtime';
 import { adoptArenaMemory, isSharedMemory, newArenaMemory } from './shared-memory';
+import { widenStaged } from './widen-staged';
 
 const align8 = (n: number) => (n + 7) & ~7;
 
@@ -134,28 +137,6 @@ function takePrepared(width: number, height: number) {
   return { memory, end: a.end };
 }
 
-/**
- * f64 copies of `samples` at byte `dst` of `memory`, each piece of samples copied first to the `cap` bytes at
- * `stage` (a thread's own scratch) as f32 (exact for integer samples too) and widened from there by the kernel
- * (exact: every f32 is an f64).
- */
-export function widenStaged(
-  memory: WebAssembly.Memory,
-  lift: LiftingExports,
-  dst: number,
-  samples: ExactF32Samples,
-  stage: number,
-  cap: number,
-): void {
-  const per = Math.max(4, (cap >> 2) & ~3);
-  const buf = memory.buffer;
-  for (let i = 0; i < samples.length; i += per) {
-    const m = Math.min(per, samples.length - i);
-    new Float32Array(buf, stage, m).set(samples.subarray(i, i + m));
-    lift.widen(dst + 8 * i, stage, m);
-  }
-}
-
 export class PlaneArena {
   readonly n: number;
   readonly coeffsAt: number;
@@ -165,9 +146,10 @@ export class PlaneArena {
   readonly sideTmpAt: number;
   readonly sideBufAt: number;
   readonly flagsAt: number;
-  /** Work region (8n bytes): q in its upper half, the coder's map below it; or the whole reconstruction. */
+  /** Work region (8n bytes): q at its top, the coder's map below it; or the whole reconstruction. */
   readonly workAt: number;
-  readonly qAt: number;
+  /** Whether q is i16 (2 bytes per value, the work region's top 2n bytes) or i32 (its upper half). */
+  private narrow = true;
   /** Past the work region: the coder's output (and its map, when that does not fit below q). */
   readonly endAt: number;
   /** Where the first touch of the work region starts (../arena-split.ts offerTouch): all of it by default. */
@@ -203,7 +185,6 @@ export class PlaneArena {
     this.sideBufAt = this.sideTmpAt + align16(16 * Math.max(width, height));
     this.flagsAt = this.sideBufAt + align16(8 * STRIP * height);
     this.workAt = this.flagsAt + align16(Math.ceil(n / CHUNK));
-    this.qAt = this.workAt + 4 * n;
     this.endAt = this.workAt + align16(8 * n);
     this.touchFrom = this.workAt;
     this.buffer = memory.buffer;
@@ -254,6 +235,27 @@ export class PlaneArena {
     return this.released;
   }
 
+  /** Where q lies: the work region's top 2n bytes (i16) or its upper half (i32), as {@link narrowQ} says. */
+  get qAt(): number {
+    return this.workAt + (this.narrow ? 6 : 4) * this.n;
+  }
+
+  /** Whether q is i16 (every |q| at most 32767), not i32. */
+  get narrowQ(): boolean {
+    return this.narrow;
+  }
+
+  /** The next q written here is i16 (`narrow`) or i32: it goes where {@link qAt} then says. */
+  setNarrowQ(narrow: boolean): void {
+    this.narrow = narrow;
+  }
+
+  /** The q values where they lie (a view: valid until the next call on this arena that may grow it). */
+  qView(): Int32Array | Int16Array {
+    const buf = this.fresh();
+    return this.narrow ? new Int16Array(buf, this.qAt, this.n) : new Int32Array(buf, this.qAt, this.n);
+  }
+
   /** Refresh the views if the memory grew (the coder grows it when its output outgrows the work region). */
   private fresh(): ArrayBufferLike {
     if (this.released) throw new Error('rankfold engine: a released plane arena was used');
@@ -266,7 +268,7 @@ export class PlaneArena {
 
   /**
    * Where the coder's map goes below q when the LL band has `ll` values ({@link coderLayout}: n bytes, then
-   * the LL band's differences), aligned down to 8.
+   * the LL band's differences), aligned down to 8; for a narrow q when the first touch is planned, before any q.
    */
   private mapAt(ll: number): number {
     return Math.floor((this.qAt - align8(this.n) - align8(4 * ll)) / 8) * 8;
@@ -274,8 +276,8 @@ export class PlaneArena {
 
   /**
    * This plane is rebuilt once, over its coefficients, after its encode is decided (a byte budget): the first
-   * touch of the work region (../arena-split.ts) leaves out the lower half's part below the coder's map, which
-   * nothing then writes. `levels`: the transform's levels (they size the LL band).
+   * touch of the work region (../arena-split.ts) leaves out the part below the coder's map (for a narrow q,
+   * which nearly every plane gets; an i32 q touches the rest itself), which nothing then writes. `levels`: the transform's levels (they size the LL band).
    */
   oneRebuild(levels: number): void {
     let w = this.width;
@@ -318,7 +320,8 @@ export class PlaneArena {
     if (this.lent) return undefined;
     this.lent = true;
     const at = this.coderLayout(table);
-    return { memory: this.memory, at: at.q, bytes: buffer.byteLength - at.q, mag: at.mag, tail: at.tail };
+    const { q, mag, tail, narrow } = at;
+    return { memory: this.memory, at: q, bytes: buffer.byteLength - q, mag, tail, narrow };
   }
 
   /** The decode given {@link lendWork}'s region is over: nothing writes it any more. */
@@ -378,8 +381,9 @@ export class PlaneArena {
     // The map and the LL band's differences take planesLayout's tail at 0 bytes: right below q.
     const mag = Math.floor((this.qAt - planesLayout(this.n, table, 0, 0).tail) / 8) * 8;
     const below = planesLayout(this.n, table, this.qAt, mag);
-    if (mag >= this.workAt && below.tail <= this.qAt) return { ...below, tail: this.endAt };
-    return planesLayout(this.n, table, this.qAt, this.endAt);
+    const narrow = this.narrow;
+    if (mag >= this.workAt && below.tail <= this.qAt) return { ...below, tail: this.endAt, narrow };
+    return { ...planesLayout(this.n, table, this.qAt, this.endAt), narrow };
   }
 
   /** The coefficient coder on this memory, or null where its port is unavailable or disabled. */

@@ -51,6 +51,8 @@ export const ERR_MAGNITUDE_RANGE = 1;
 export const ERR_EG_PREFIX = 2;
 export const ERR_OFFSET = 3;
 export const ERR_OUT_OF_MEMORY = 4;
+/** A decode into an i16 q met a value it cannot hold (the host decodes into an i32 q instead). */
+export const ERR_NARROW = 5;
 /** Most bands the port takes (6 levels need 19). */
 export const MAX_BANDS = 64;
 /** Integers per band in the port's band table: x0, y0, w, h, orient, class, parent, sibling 1, sibling 2. */

@@ -43,6 +43,9 @@ interface CoderExports {
   encode: PlaneKernel;
   /** Decode into q (a: where the bytes are, b: how many); returns the bytes read, or −1 if it read past their end. */
   decode: PlaneKernel;
+  /** The same on an i16 q; decode16 fails (ERR_NARROW) at a value an i16 q cannot hold. */
+  encode16: PlaneKernel;
+  decode16: PlaneKernel;
 }
 
 export interface CoderWasm {
@@ -169,7 +172,12 @@ export interface LentRegion {
    */
   mag?: number;
   tail?: number;
+  /** q is i16 (the arena's narrow q), not i32. */
+  narrow?: boolean;
 }
+
+/** q values where they lie in a memory: i32, or i16 (a plane arena's narrow q, ./arena.ts). */
+export type QView = Int32Array | Int16Array;
 
 /** Write the band table into the scratch area; returns the band count. */
 function putBands(buf: ArrayBuffer | SharedArrayBuffer, table: Int32Array): number {
@@ -183,6 +191,8 @@ export interface PlanesAt {
   mag: number;
   d: number;
   tail: number;
+  /** q is i16 (a plane arena's narrow q, ./arena.ts), not i32. */
+  narrow?: boolean;
 }
 
 /**
@@ -204,7 +214,16 @@ export function encodeAt(
   new Int32Array(buf, SCRATCH + AT_COUNTS, 2 * nb).set(counts);
   new Int32Array(buf, SCRATCH + AT_OFFSET_CODES, 2 * nb).set(k);
   const nonZero = counts.some((x) => x > 0) ? 1 : 0;
-  const len = c.exports.encode(at.q, at.mag, at.d, n, width, nb, nonZero, at.tail);
+  const len = (at.narrow ? c.exports.encode16 : c.exports.encode)(
+    at.q,
+    at.mag,
+    at.d,
+    n,
+    width,
+    nb,
+    nonZero,
+    at.tail,
+  );
   return new Uint8Array(c.memory.buffer, at.tail, len).slice();
 }
 
@@ -274,6 +293,8 @@ export function decodeInPort<T>(
 /**
  * Decode with the port into q where `at` places it in `c`'s memory (a plane's own memory, ./arena.ts: its
  * coderLayout), leaving it there: what {@link decodeWasm} returns, or null if the memory cannot hold the bytes.
+ * Into an i16 q (`at.narrow`), also null when the decode fails in any way (a value it cannot hold, or a
+ * stream the i32 decode would refuse too): the caller then decodes into an i32 q, which gives the answer.
  */
 export function decodeAt(
   c: CoderWasm,
@@ -287,7 +308,22 @@ export function decodeAt(
   const buf = c.memory.buffer;
   new Uint8Array(buf, at.tail, bytes.length).set(bytes);
   const nb = putBands(buf, table);
-  const pos = c.exports.decode(at.q, at.mag, at.d, n, width, nb, at.tail, bytes.length);
+  let pos: number;
+  try {
+    pos = (at.narrow ? c.exports.decode16 : c.exports.decode)(
+      at.q,
+      at.mag,
+      at.d,
+      n,
+      width,
+      nb,
+      at.tail,
+      bytes.length,
+    );
+  } catch (err) {
+    if (at.narrow) return null;
+    throw err;
+  }
   return {
     at,
     pos,

@@ -62,6 +62,8 @@ export interface LiftingExports {
     flags: number,
     out: number,
   ): number;
+  /** quantiseStats into an i16 q: 2^30 (q unfinished) at the first |q| past 32767. */
+  quantiseStats16: LiftingExports['quantiseStats'];
   dequantise(q: number, x: number, width: number, nb: number, geo: number, par: number): void;
   /** dequantise of the raster positions i0 … i1 − 1, in place over q (./assembly/lifting.ts). */
   dequantiseInPlace(
@@ -74,10 +76,16 @@ export interface LiftingExports {
     i0: number,
     i1: number,
   ): void;
+  /** The same on an i16 q (the arena's narrow q, ./arena.ts). */
+  dequantiseInPlace16: LiftingExports['dequantiseInPlace'];
   widen(dst: number, src: number, n: number): void;
   compactNonZero(q: number, flags: number, n: number, at: number, v: number): number;
   binStats(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
   squaredError(x: number, q: number, width: number, nb: number, geo: number, par: number, out: number): void;
+  /** compactNonZero, binStats and squaredError of an i16 q. */
+  compactNonZero16: LiftingExports['compactNonZero'];
+  binStats16: LiftingExports['binStats'];
+  squaredError16: LiftingExports['squaredError'];
   /** Bands b0 … b1 − 1: squared error of the quantised values (not written), d1, d2 read at out + 32·b, Σ at + 16. */
   errorsAt(x: number, width: number, b0: number, b1: number, geo: number, par: number, out: number): void;
   bandMax(x: number, width: number, nb: number, geo: number, out: number): void;
@@ -201,8 +209,9 @@ export function copyFlaggedChunks(
   flagsAt: number,
   n: number,
   out: Int32Array,
+  narrow = false,
 ): void {
-  const all = new Int32Array(buf, qAt, n);
+  const all = narrow ? new Int16Array(buf, qAt, n) : new Int32Array(buf, qAt, n);
   const flags = new Uint8Array(buf, flagsAt, Math.ceil(n / CHUNK));
   for (let j = 0; j < flags.length; j++)
     if (flags[j]) out.set(all.subarray(j * CHUNK, Math.min(n, (j + 1) * CHUNK)), j * CHUNK);

@@ -9,12 +9,14 @@
 // adaptation tables, the band table, the per-band statistics and every context; the planes (q, the magnitude
 // map, the LL differences, the coefficients, the input or output bytes) follow it at offsets the host passes.
 // The encoder's output is the last region: it grows the memory itself when the bytes outgrow it.
-// One direction is chosen at compile time by the type parameter: i32 = encoder (Enc), f64 = decoder (Dec).
+// One direction is chosen at compile time by the type parameter: i32 = encoder (Enc), f64 = decoder (Dec); q's
+// element type by a second one, Q: i32, or i16 (a plane arena's narrow q, ../arena.ts), where the decoder refuses
+// a value past NARROW_MAX (ERR_NARROW: the host decodes such a plane into an i32 q instead).
 
 import {
   AT_BANDS, AT_CONTEXTS, AT_COUNTS, AT_NB_LUT, AT_OFFSET_CODES, AT_RECIP_FAST, AT_RECIP_SLOW,
   BAND_FIELDS, CLASSES, CTX, EG_BITS, EG_PREFIX_LIMIT, ERR_EG_PREFIX, ERR_MAGNITUDE_RANGE, ERR_OFFSET,
-  ERR_OUT_OF_MEMORY, LL_CLASSES, MAG_BINS, MAX_MAGNITUDE, MIN_OFFSET_COUNT, NB_BINS, NB_SUMS, OFFSET_MAX,
+  ERR_NARROW, ERR_OUT_OF_MEMORY, LL_CLASSES, MAG_BINS, MAX_MAGNITUDE, MIN_OFFSET_COUNT, NB_BINS, NB_SUMS, OFFSET_MAX,
   OFFSET_MIN, PROB_BITS, PROB_INIT, PROB_MARGIN, PROB_ONE, PS_BINS, SCRATCH, SCRATCH_BYTES, SIGN_CONTEXTS, SLOW_WINDOW,
   UNARY,
 } from '../coder-constants';
@@ -30,6 +32,8 @@ const RENORM: u32 = 1 << 24;
 const P_LO: u32 = PROB_MARGIN;
 const P_HI: u32 = PROB_ONE - PROB_MARGIN;
 const UNARY_U: u32 = UNARY;
+/** Largest |q| an i16 q holds here (as the quantiser's narrow q, ./lifting.ts NARROW_MAX). */
+const NARROW_MAX: i64 = 32767;
 
 const RF: usize = SCRATCH + AT_RECIP_FAST;
 const RS: usize = SCRATCH + AT_RECIP_SLOW;
@@ -245,17 +249,18 @@ function int<T>(m: usize, c: i32, v: i64, cls: i32, prevSign: i32): i32 {
 @inline function band(bi: i32, field: i32): i32 { return load<i32>(BANDS + <usize>(bi * BAND_FIELDS + field) * 4); }
 
 /** The LL band (band 0's geometry) by MED prediction; differences in d. The decoder counts its values (setCounts). */
-function codeLL<T>(q: usize, d: usize, width: i32, bi: i32): void {
+function codeLL<T, Q>(q: usize, d: usize, width: i32, bi: i32): void {
   const x0 = band(bi, 0), y0 = band(bi, 1), bw = band(bi, 2), bh = band(bi, 3);
-  const w4 = <usize>width << 2;
+  const qs = sizeof<Q>();
+  const w4 = <usize>width << alignof<Q>();
   let n1 = 0;
   let n2 = 0;
   for (let y = 0; y < bh; y++)
     for (let x = 0; x < bw; x++) {
-      const pq = q + (<usize>((y0 + y) * width + x0 + x) << 2);
-      const a: i32 = x > 0 ? load<i32>(pq - 4) : y > 0 ? load<i32>(pq - w4) : 0;
-      const u: i32 = y > 0 ? load<i32>(pq - w4) : a;
-      const c: i32 = x > 0 && y > 0 ? load<i32>(pq - w4 - 4) : u;
+      const pq = q + (<usize>((y0 + y) * width + x0 + x) << alignof<Q>());
+      const a: i32 = x > 0 ? <i32>load<Q>(pq - qs) : y > 0 ? <i32>load<Q>(pq - w4) : 0;
+      const u: i32 = y > 0 ? <i32>load<Q>(pq - w4) : a;
+      const c: i32 = x > 0 && y > 0 ? <i32>load<Q>(pq - w4 - qs) : u;
       const mx = a > u ? a : u;
       const mn = a < u ? a : u;
       const pred: i64 = c >= mx ? <i64>mn : c <= mn ? <i64>mx : <i64>a + <i64>u - <i64>c;
@@ -263,11 +268,13 @@ function codeLL<T>(q: usize, d: usize, width: i32, bi: i32): void {
       const dl = x > 0 ? load<i32>(pd - 4) : 0;
       const act: u32 = iabs(dl) + (y > 0 ? iabs(load<i32>(pd - (<usize>bw << 2))) : 0);
       const cls = act == 0 ? 0 : act <= 2 ? 1 : act <= 6 ? 2 : act <= 20 ? 3 : 4;
-      const dv = int<T>(LLM, LL_CLASSES, isFloat<T>() ? 0 : <i64>load<i32>(pq) - pred, cls, sgn(dl));
+      const dv = int<T>(LLM, LL_CLASSES, isFloat<T>() ? 0 : <i64><i32>load<Q>(pq) - pred, cls, sgn(dl));
       store<i32>(pd, dv);
       if (isFloat<T>()) {
-        const v = <i32>(pred + <i64>dv);
-        store<i32>(pq, v);
+        const wide = pred + <i64>dv;
+        if (sizeof<Q>() == 2 && (wide > NARROW_MAX || wide < -NARROW_MAX)) coderError(ERR_NARROW, <f64>wide);
+        const v = <i32>wide;
+        store<Q>(pq, v);
         if (v == 1 || v == -1) n1++;
         else if (v != 0) n2++;
       }
@@ -384,7 +391,7 @@ function prepareRow(pm: usize, bw: i32, w: usize, y: i32): void {
  * bit, by far the most frequent symbol, is coded here with the range (and the decoder's code) in locals; the
  * rarer sign and magnitude go through bit() on the globals.
  */
-function codeDetail<T>(q: usize, mag: usize, width: i32, bi: i32): void {
+function codeDetail<T, Q>(q: usize, mag: usize, width: i32, bi: i32): void {
   const x0 = band(bi, 0), y0 = band(bi, 1), bw = band(bi, 2), bh = band(bi, 3);
   const orient = band(bi, 4), cls = band(bi, 5);
   const parent = band(bi, 6), s1 = band(bi, 7), s2 = band(bi, 8);
@@ -399,7 +406,7 @@ function codeDetail<T>(q: usize, mag: usize, width: i32, bi: i32): void {
   for (let y = 0; y < bh; y++) {
     const row = (y0 + y) * width + x0;
     const pm = mag + <usize>row;
-    const pq = q + (<usize>row << 2);
+    const pq = q + (<usize>row << alignof<Q>());
     linkRow(mag, width, y, parent, s1, s2);
     prepareRow(pm, bw, w, y);
     // k4 = 4·(2·left + two-left), l4 = 4·left: the row's own part of the context index.
@@ -432,7 +439,7 @@ function codeDetail<T>(q: usize, mag: usize, width: i32, bi: i32): void {
           let pr = <u32>(f + sl) >>> 1;
           pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
           const bound = (rng >>> PROB_BITS) * pr;
-          if (isFloat<T>() ? cd >= bound : load<i32>(pq + (<usize>x << 2)) != 0) {
+          if (isFloat<T>() ? cd >= bound : <i32>load<Q>(pq + (<usize>x << alignof<Q>())) != 0) {
             sig = stop = true;
             break;
           }
@@ -455,7 +462,7 @@ function codeDetail<T>(q: usize, mag: usize, width: i32, bi: i32): void {
             let pr = <u32>(f + sl) >>> 1;
             pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
             const bound = (rng >>> PROB_BITS) * pr;
-            if (isFloat<T>() ? cd >= bound : load<i32>(pq + (<usize>x << 2)) != 0) {
+            if (isFloat<T>() ? cd >= bound : <i32>load<Q>(pq + (<usize>x << alignof<Q>())) != 0) {
               sig = true;
               break;
             }
@@ -477,7 +484,7 @@ function codeDetail<T>(q: usize, mag: usize, width: i32, bi: i32): void {
             pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
             for (;;) {
               const bound = (rng >>> PROB_BITS) * pr;
-              if (isFloat<T>() ? cd >= bound : load<i32>(pq + (<usize>x << 2)) != 0) {
+              if (isFloat<T>() ? cd >= bound : <i32>load<Q>(pq + (<usize>x << alignof<Q>())) != 0) {
                 sig = true;
                 break;
               }
@@ -500,7 +507,7 @@ function codeDetail<T>(q: usize, mag: usize, width: i32, bi: i32): void {
         let pr = <u32>(f + sl) >>> 1;
         pr = pr < P_LO ? P_LO : pr > P_HI ? P_HI : pr;
         const bound = (rng >>> PROB_BITS) * pr;
-        if (isFloat<T>() ? cd < bound : load<i32>(pq + (<usize>x << 2)) == 0) {
+        if (isFloat<T>() ? cd < bound : <i32>load<Q>(pq + (<usize>x << alignof<Q>())) == 0) {
           rng = bound;
           store<i32>(p, n + <i32>(n < SLOW_WINDOW - 1), 8);
           store<i32>(p, f + (((PROB_ONE - f) * load<i32>(RF + (<usize>n << 2))) >>> 16));
@@ -517,16 +524,18 @@ function codeDetail<T>(q: usize, mag: usize, width: i32, bi: i32): void {
       if (isFloat<T>()) code = cd;
       bit<T>(p, 1);
       const xs = <usize>x;
-      const v = isFloat<T>() ? 0 : load<i32>(pq + (xs << 2));
-      const left = x > 0 ? load<i32>(pq + (xs << 2) - 4) : 0;
-      const up = y > 0 ? load<i32>(pq + (xs << 2) - (w << 2)) : 0;
+      const px = pq + (xs << alignof<Q>());
+      const v = isFloat<T>() ? 0 : <i32>load<Q>(px);
+      const left = x > 0 ? <i32>load<Q>(px - sizeof<Q>()) : 0;
+      const up = y > 0 ? <i32>load<Q>(px - (w << alignof<Q>())) : 0;
       const sc = (left > 0 ? 2 : left < 0 ? 0 : 1) * 3 + (up > 0 ? 2 : up < 0 ? 0 : 1);
       const neg = bit<T>(SM + <usize>(sBase + sc) * CTX_BYTES, v < 0 ? 1 : 0);
       const act = (l4 >> 2) + (y > 0 ? <i32>load<u8>(pm + xs - w) : 0) + (linkSum(x) >> 1);
       const mc = act == 0 ? 0 : act <= 1 ? 1 : act <= 3 ? 2 : act <= 6 ? 3 : act <= 12 ? 4 : 5;
       let a = <i32>magnitude<T>(MM, MM_C, isFloat<T>() ? 0 : <i64>iabs(v) - 1, mmBase + mc) + 1;
       if (isFloat<T>()) {
-        store<i32>(pq + (xs << 2), neg ? -a : a);
+        if (sizeof<Q>() == 2 && <i64>a > NARROW_MAX) coderError(ERR_NARROW, <f64>a);
+        store<Q>(px, neg ? -a : a);
         if (a == 1) n1++;
         else n2++;
       }
@@ -546,13 +555,13 @@ function codeDetail<T>(q: usize, mag: usize, width: i32, bi: i32): void {
   }
 }
 
-function codeCoefficients<T>(q: usize, mag: usize, d: usize, width: i32, nBands: i32): void {
+function codeCoefficients<T, Q>(q: usize, mag: usize, d: usize, width: i32, nBands: i32): void {
   if (TABLES_END > <usize>(SCRATCH + SCRATCH_BYTES)) unreachable();
   resetContexts();
   store<u8>(ZERO, 0);
   for (let bi = 0; bi < nBands; bi++) {
-    if (band(bi, 4) == 0) codeLL<T>(q, d, width, bi);
-    else codeDetail<T>(q, mag, width, bi);
+    if (band(bi, 4) == 0) codeLL<T, Q>(q, d, width, bi);
+    else codeDetail<T, Q>(q, mag, width, bi);
   }
 }
 
@@ -593,6 +602,15 @@ function classTable(cls: i32): void {
  * offset codes KS of the bins counted in COUNTS. Returns the byte count written at out (the last region).
  */
 export function encode(q: usize, mag: usize, d: usize, n: usize, width: i32, nBands: i32, nonZero: i32, out: usize): usize {
+  return encodeQ<i32>(q, mag, d, n, width, nBands, nonZero, out);
+}
+
+/** {@link encode} of an i16 q. */
+export function encode16(q: usize, mag: usize, d: usize, n: usize, width: i32, nBands: i32, nonZero: i32, out: usize): usize {
+  return encodeQ<i16>(q, mag, d, n, width, nBands, nonZero, out);
+}
+
+function encodeQ<Q>(q: usize, mag: usize, d: usize, n: usize, width: i32, nBands: i32, nonZero: i32, out: usize): usize {
   low = 0;
   range = 0xffffffff;
   cache = 0;
@@ -602,7 +620,7 @@ export function encode(q: usize, mag: usize, d: usize, n: usize, width: i32, nBa
   direct<Enc>(nonZero ? 1 : 0);
   if (nonZero) {
     memory.fill(mag, 0, n);
-    codeCoefficients<Enc>(q, mag, d, width, nBands);
+    codeCoefficients<Enc, Q>(q, mag, d, width, nBands);
     codeOffsets<Enc>(2 * nBands);
   }
   for (let i = 0; i < 5; i++) shiftLow();
@@ -614,7 +632,16 @@ export function encode(q: usize, mag: usize, d: usize, n: usize, width: i32, nBa
  * COUNTS. Returns the bytes read (the host checks it against len), or -1 if the decoder read past the end.
  */
 export function decode(q: usize, mag: usize, d: usize, n: usize, width: i32, nBands: i32, input: usize, len: usize): isize {
-  memory.fill(q, 0, n << 2);
+  return decodeQ<i32>(q, mag, d, n, width, nBands, input, len);
+}
+
+/** {@link decode} into an i16 q: ERR_NARROW (to the host) at the first |value| past NARROW_MAX. */
+export function decode16(q: usize, mag: usize, d: usize, n: usize, width: i32, nBands: i32, input: usize, len: usize): isize {
+  return decodeQ<i16>(q, mag, d, n, width, nBands, input, len);
+}
+
+function decodeQ<Q>(q: usize, mag: usize, d: usize, n: usize, width: i32, nBands: i32, input: usize, len: usize): isize {
+  memory.fill(q, 0, n << alignof<Q>());
   memory.fill(KS, 0, <usize>(2 * nBands) << 2);
   memory.fill(COUNTS, 0, <usize>(2 * nBands) << 2);
   inPos = input;
@@ -625,7 +652,7 @@ export function decode(q: usize, mag: usize, d: usize, n: usize, width: i32, nBa
   for (let i = 0; i < 5; i++) code = (code << 8) | nextByte();
   if (direct<Dec>(0)) {
     memory.fill(mag, 0, n);
-    codeCoefficients<Dec>(q, mag, d, width, nBands);
+    codeCoefficients<Dec, Q>(q, mag, d, width, nBands);
     codeOffsets<Dec>(2 * nBands);
   }
   return overrun ? -1 : <isize>(inPos - input);

@@ -308,15 +308,23 @@ const CHUNK_BITS = 10;
 const CHUNK: i32 = 1 << CHUNK_BITS;
 
 /**
+ * q as i16 (the arena's narrow q, ../arena.ts) holds |q| ≤ NARROW_MAX; a narrow quantisation that meets a larger
+ * one stops and returns NARROW_OVERFLOW (more than any count of non-zeros), and the host quantises again as i32.
+ */
+const NARROW_MAX: i32 = 32767;
+const NARROW_OVERFLOW: i32 = 1 << 30;
+
+/**
  * Dead-zone quantisation q = sign(c)·⌊|c|/Δ + ρ⌋ of every coefficient of bands b0 … b1 − 1 (zeros written too);
  * |c| ≤ the band's zero threshold is 0 without dividing, as in the TypeScript. Sets flags[j] (u8) to 1 when q
  * entries j·CHUNK … (j+1)·CHUNK − 1 receive a non-zero (never clears one: the caller zeroes the flags first, so
  * two threads quantising other bands may set flags at once). With `out` ≠ 0, also coder 2's bin statistics of
  * each band b at out + 32·b, as {@link binStats} computes them from the stored q (same terms, same order).
  * With q = 0, nothing but those statistics is stored (no q, no flags: the error at a step without q, {@link
- * errorsAt}). Returns the number of non-zero q.
+ * errorsAt}). Returns the number of non-zero q. Q: q's element type, i32 or i16 (then NARROW_OVERFLOW as soon as
+ * a |q| passes NARROW_MAX).
  */
-function quantiseBands(
+function quantiseBands<Q>(
   x: usize,
   q: usize,
   width: i32,
@@ -356,7 +364,10 @@ function quantiseBands(
             const a0 = f64x2.gt(f64x2.abs(v128.load(p0)), zv);
             const a1 = f64x2.gt(f64x2.abs(v128.load(p0, 16)), zv);
             if (v128.any_true(v128.or(a0, a1))) break;
-            if (q != 0) v128.store(q + ((row + i) << 2), i32x4.splat(0));
+            if (q != 0) {
+              if (sizeof<Q>() == 2) store<u64>(q + ((row + i) << 1), 0);
+              else v128.store(q + ((row + i) << 2), i32x4.splat(0));
+            }
           }
           if (i >= <usize>bw) break;
         }
@@ -368,6 +379,7 @@ function quantiseBands(
           const m = floor<f64>(u + rho);
           if (m != 0) {
             v = toInt32(c < 0 ? -m : m);
+            if (sizeof<Q>() == 2 && (v > NARROW_MAX || v < -NARROW_MAX)) return NARROW_OVERFLOW;
             nonZero++;
             if (q != 0) store<u8>(flags + ((row + i) >> CHUNK_BITS), 1);
             // binStats' terms: |q| as stored, and |c|/Δ − |q| into the class of |q| (none for a stored 0).
@@ -384,7 +396,7 @@ function quantiseBands(
             }
           }
         }
-        if (q != 0) store<i32>(q + ((row + i) << 2), v);
+        if (q != 0) store<Q>(q + ((row + i) << alignof<Q>()), v);
       }
     }
     if (out != 0) {
@@ -404,7 +416,7 @@ function quantiseBands(
  */
 export function quantise(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, flags: usize, n: i32): i32 {
   memory.fill(flags, 0, <usize>((n + CHUNK - 1) >> CHUNK_BITS));
-  return quantiseBands(x, q, width, 0, nb, geo, par, flags, 0);
+  return quantiseBands<i32>(x, q, width, 0, nb, geo, par, flags, 0);
 }
 
 /**
@@ -422,7 +434,12 @@ export function quantiseStats(
   flags: usize,
   out: usize,
 ): i32 {
-  return quantiseBands(x, q, width, b0, b1, geo, par, flags, out);
+  return quantiseBands<i32>(x, q, width, b0, b1, geo, par, flags, out);
+}
+
+/** {@link quantiseStats} into an i16 q: NARROW_OVERFLOW (and q unfinished) when a |q| passes NARROW_MAX. */
+export function quantiseStats16(x: usize, q: usize, width: i32, b0: i32, b1: i32, geo: usize, par: usize, flags: usize, out: usize): i32 {
+  return quantiseBands<i16>(x, q, width, b0, b1, geo, par, flags, out);
 }
 
 /** (v ± δ)·Δ with δ = d1 for |v| = 1 and d2 for |v| ≥ 2 (v ≠ 0), the TypeScript's `rebuilt`. */
@@ -461,6 +478,15 @@ export function dequantise(q: usize, x: usize, width: i32, nb: i32, geo: usize, 
  * is left as it is, as dequantise leaves it). Same values, bit for bit.
  */
 export function dequantiseInPlace(q: usize, x: usize, width: i32, nb: i32, geo: usize, par: usize, i0: i32, i1: i32): void {
+  dequantiseRange<i32>(q, x, width, nb, geo, par, i0, i1);
+}
+
+/** {@link dequantiseInPlace} of an i16 q (q = x + 6n in the arena: the same order keeps every read before its overwrite). */
+export function dequantiseInPlace16(q: usize, x: usize, width: i32, nb: i32, geo: usize, par: usize, i0: i32, i1: i32): void {
+  dequantiseRange<i16>(q, x, width, nb, geo, par, i0, i1);
+}
+
+function dequantiseRange<Q>(q: usize, x: usize, width: i32, nb: i32, geo: usize, par: usize, i0: i32, i1: i32): void {
   if (i1 <= i0) return;
   for (let y = i0 / width; y <= (i1 - 1) / width; y++) {
     // This row's columns within [i0, i1).
@@ -489,7 +515,7 @@ export function dequantiseInPlace(q: usize, x: usize, width: i32, nb: i32, geo: 
       const row = <usize>y * <usize>width;
       const c1 = <usize>min<i32>(bx + bw, hi);
       for (let i = <usize>max<i32>(bx, lo); i < c1; i++) {
-        const v = load<i32>(q + ((row + i) << 2));
+        const v = <i32>load<Q>(q + ((row + i) << alignof<Q>()));
         store<f64>(x + ((row + i) << 3), v != 0 ? rebuilt(<f64>v, step, d1, d2) : 0);
       }
       from = bx + bw;
@@ -503,13 +529,22 @@ export function dequantiseInPlace(q: usize, x: usize, width: i32, nb: i32, geo: 
  * before the region is reused.
  */
 export function compactNonZero(q: usize, flags: usize, n: i32, at: usize, v: usize): i32 {
+  return compactQ<i32>(q, flags, n, at, v);
+}
+
+/** {@link compactNonZero} of an i16 q (the values listed as i32). */
+export function compactNonZero16(q: usize, flags: usize, n: i32, at: usize, v: usize): i32 {
+  return compactQ<i16>(q, flags, n, at, v);
+}
+
+function compactQ<Q>(q: usize, flags: usize, n: i32, at: usize, v: usize): i32 {
   let k = 0;
   const chunks = (n + CHUNK - 1) >> CHUNK_BITS;
   for (let j = 0; j < chunks; j++) {
     if (load<u8>(flags + <usize>j) == 0) continue;
     const end = min<i32>(n, (j + 1) << CHUNK_BITS);
     for (let i = j << CHUNK_BITS; i < end; i++) {
-      const x = load<i32>(q + (<usize>i << 2));
+      const x = <i32>load<Q>(q + (<usize>i << alignof<Q>()));
       if (x != 0) {
         store<i32>(at + (<usize>k << 2), i);
         store<i32>(v + (<usize>k << 2), x);
@@ -545,6 +580,15 @@ export function widen(dst: usize, src: usize, n: i32): void {
  * |q| ≥ 2), then s1 and s2 = Σ(|c|/Δ_b − |q|) over each class, in raster order band by band (par: Δ_b first).
  */
 export function binStats(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, out: usize): void {
+  binStatsQ<i32>(x, q, width, nb, geo, par, out);
+}
+
+/** {@link binStats} of an i16 q. */
+export function binStats16(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, out: usize): void {
+  binStatsQ<i16>(x, q, width, nb, geo, par, out);
+}
+
+function binStatsQ<Q>(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, out: usize): void {
   for (let bi = 0; bi < nb; bi++) {
     const g = geo + (<usize>bi << 4);
     const x0 = load<i32>(g);
@@ -559,7 +603,7 @@ export function binStats(x: usize, q: usize, width: i32, nb: i32, geo: usize, pa
     for (let y = 0; y < bh; y++) {
       const row = <usize>(y0 + y) * <usize>width + <usize>x0;
       for (let i: usize = 0; i < <usize>bw; i++) {
-        const v = load<i32>(q + ((row + i) << 2));
+        const v = <i32>load<Q>(q + ((row + i) << alignof<Q>()));
         if (v == 0) continue;
         const a: f64 = v < 0 ? -<f64>v : <f64>v;
         const r = abs<f64>(load<f64>(x + ((row + i) << 3))) / d - a;
@@ -585,6 +629,15 @@ export function binStats(x: usize, q: usize, width: i32, nb: i32, geo: usize, pa
  * codedSquaredError in ../../wavelet-plane.ts (par: Δ, d1, d2 per band).
  */
 export function squaredError(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, out: usize): void {
+  squaredErrorQ<i32>(x, q, width, nb, geo, par, out);
+}
+
+/** {@link squaredError} of an i16 q. */
+export function squaredError16(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, out: usize): void {
+  squaredErrorQ<i16>(x, q, width, nb, geo, par, out);
+}
+
+function squaredErrorQ<Q>(x: usize, q: usize, width: i32, nb: i32, geo: usize, par: usize, out: usize): void {
   for (let bi = 0; bi < nb; bi++) {
     const g = geo + (<usize>bi << 4);
     const p = par + (<usize>bi << 5);
@@ -599,7 +652,7 @@ export function squaredError(x: usize, q: usize, width: i32, nb: i32, geo: usize
     for (let y = 0; y < bh; y++) {
       const row = <usize>(y0 + y) * <usize>width + <usize>x0;
       for (let i: usize = 0; i < <usize>bw; i++) {
-        const v = load<i32>(q + ((row + i) << 2));
+        const v = <i32>load<Q>(q + ((row + i) << alignof<Q>()));
         const c = load<f64>(x + ((row + i) << 3));
         const d = v == 0 ? c : c - rebuilt(<f64>v, step, d1, d2);
         s += d * d;
