@@ -138,16 +138,22 @@ export function errorAtStep(
  * makes its vector's peak +∞, so that vector is always quantised entry by entry, as before.
  */
 export function vectorPeaks(planes: ColumnsPlane[], s: StepScratch): void {
-  let k = 0;
-  let tile = 0;
-  for (const { tiles } of planes)
-    for (const t of tiles) {
-      s.first[tile++] = k;
-      for (let i = 0; i < t.s.length; i++, k++) {
-        s.peaks[2 * k] = peak(t.u, i * t.h, t.h);
-        s.peaks[2 * k + 1] = peak(t.v, i * t.w, t.w);
-      }
+  for (let p = 0, k = 0, tile = 0; p < planes.length; p++) {
+    const { tiles } = planes[p];
+    for (let t = 0; t < tiles.length; t++, tile++) {
+      s.first[tile] = k;
+      k = tilePeaks(tiles[t], k, s.peaks);
     }
+  }
+}
+
+/** One tile's vector peaks into peaks from component `k` on; returns the next component's index. */
+function tilePeaks(t: TileColumns, k: number, peaks: Float64Array): number {
+  for (let i = 0; i < t.s.length; i++, k++) {
+    peaks[2 * k] = peak(t.u, i * t.h, t.h);
+    peaks[2 * k + 1] = peak(t.v, i * t.w, t.w);
+  }
+  return k;
 }
 
 /** max |x[from … from + len)|, +∞ when one is NaN. */
