@@ -10,8 +10,8 @@ import { stepGrid } from '../../src-main/engine/lowrank/solve';
 import {
   type ColumnsPlane,
   errorAtStep,
+  readySteps,
   StepScratch,
-  vectorPeaks,
 } from '../../src-main/engine/lowrank/step-error';
 import { decodeImage } from '../../src-main/node/image/decode';
 import { image } from '../helpers/fixtures';
@@ -111,17 +111,9 @@ function crop(p: ArrayLike<number>, width: number, height: number, w: number, h:
 /** Every step of the grid through step-error and through the reference; also what the fast paths met. */
 function compareSteps(planes: ColumnsPlane[], payloads: number[], maxValue: number) {
   const s = new StepScratch();
-  let [baseD, count, entries, tiles, longest] = [0, 0, 0, 0, 0];
-  for (const p of planes)
-    for (const t of p.tiles) {
-      baseD += p.weight * t.energy;
-      count += t.s.length;
-      entries += t.s.length * (t.h + t.w);
-      tiles++;
-      longest = Math.max(longest, t.h, t.w);
-    }
-  s.fit(entries, count, tiles, longest);
-  vectorPeaks(planes, s);
+  const baseD = readySteps(planes, s);
+  const count = s.gains.length;
+  const entries = s.q.length;
   let zeroVectors = 0;
   let escapes = 0;
   let compared = 0;

@@ -27,7 +27,7 @@ import { tileGrid } from '../codec/quantised';
 import { gramSvdColumns } from '../linalg/gram-svd';
 import { meanRemovedTile } from './factorise';
 import { hillClimb, stepGrid } from './solve';
-import { type ColumnsPlane, errorAtStep, StepScratch, type TileColumns, vectorPeaks } from './step-error';
+import { type ColumnsPlane, errorAtStep, readySteps, StepScratch, type TileColumns } from './step-error';
 
 /** f64 values {@link tileColumns} stores for a plane's tiles of side `tile`: σ, U and V of every tile. */
 function columnsLength(width: number, height: number, tile: number): number {
@@ -110,21 +110,6 @@ export function baseErrorAtBytes(planes: ColumnsPlane[], payload: number, maxVal
 
 function climb(planes: ColumnsPlane[], payload: number, maxValue: number, scratch: StepScratch): number {
   const grid = stepGrid(maxValue);
-  // Σ weight·‖tile − mean‖², in the order errorAtStep summed it at every step.
-  let baseD = 0;
-  let count = 0;
-  let entries = 0;
-  let tileCount = 0;
-  let longest = 0;
-  for (const { tiles, weight } of planes)
-    for (const t of tiles) {
-      baseD += weight * t.energy;
-      count += t.s.length;
-      entries += t.s.length * (t.h + t.w);
-      tileCount++;
-      longest = Math.max(longest, t.h, t.w);
-    }
-  scratch.fit(entries, count, tileCount, longest);
-  vectorPeaks(planes, scratch);
+  const baseD = readySteps(planes, scratch);
   return hillClimb(grid.length, (k) => errorAtStep(planes, grid[k], payload, baseD, scratch))[0].err;
 }

@@ -98,7 +98,7 @@ export class StepScratch {
 
 /**
  * The estimated error at step Δ = `delta` of the greedy prefix whose estimated bits fit `payload` bytes;
- * `baseD` is Σ weight·‖tile − mean‖² in plane and tile order. `s` must have been fitted to the planes.
+ * `baseD` and `s` as {@link readySteps} gave and left them for these planes.
  */
 export function errorAtStep(
   planes: ColumnsPlane[],
@@ -134,17 +134,33 @@ export function errorAtStep(
 }
 
 /**
- * s.peaks and s.first for the planes' tiles (once per tiling: the steps only change the scale). A NaN entry
- * makes its vector's peak +∞, so that vector is always quantised entry by entry, as before.
+ * `s` fitted to the planes' tiles, with s.peaks and s.first (once per tiling: the steps only change the scale;
+ * a NaN entry makes its vector's peak +∞, so that vector is always quantised entry by entry, as before).
+ * Returns baseD, Σ weight·‖tile − mean‖² in plane and tile order (as the single-function step summed it).
  */
-export function vectorPeaks(planes: ColumnsPlane[], s: StepScratch): void {
+export function readySteps(planes: ColumnsPlane[], s: StepScratch): number {
+  let baseD = 0;
+  let count = 0;
+  let entries = 0;
+  let tiles = 0;
+  let longest = 0;
+  for (const { tiles: ts, weight } of planes)
+    for (const t of ts) {
+      baseD += weight * t.energy;
+      count += t.s.length;
+      entries += t.s.length * (t.h + t.w);
+      tiles++;
+      longest = Math.max(longest, t.h, t.w);
+    }
+  s.fit(entries, count, tiles, longest);
   for (let p = 0, k = 0, tile = 0; p < planes.length; p++) {
-    const { tiles } = planes[p];
-    for (let t = 0; t < tiles.length; t++, tile++) {
+    const ts = planes[p].tiles;
+    for (let t = 0; t < ts.length; t++, tile++) {
       s.first[tile] = k;
-      k = tilePeaks(tiles[t], k, s.peaks);
+      k = tilePeaks(ts[t], k, s.peaks);
     }
   }
+  return baseD;
 }
 
 /** One tile's vector peaks into peaks from component `k` on; returns the next component's index. */
@@ -171,7 +187,7 @@ function peak(x: Float64Array, from: number, len: number): number {
  * A tile's components above the dead zone at `step` quantised (magnitudes into s.q from `used`), their
  * entries counted, and each one's weighted gain into s.gains from `c` (`k`: the tile's first component in
  * s.peaks); returns how many there are. A vector
- * whose largest magnitude (s.peaks, from {@link vectorPeaks}) quantises to 0 is all zeros (x ↦ x·inv is
+ * whose largest magnitude (s.peaks, from {@link readySteps}) quantises to 0 is all zeros (x ↦ x·inv is
  * monotone in rounding too): it is counted at once (len entries of magnitude 0 after 0) and marked in s.zero
  * instead of written, and its Σ q² and Σ q·x are +0, what the loop gives.
  */
