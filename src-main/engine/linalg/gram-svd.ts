@@ -73,9 +73,7 @@ export function gramSvdColumns(a: Matrix, into?: SvdColumns): SvdColumns {
     const AW = ws.f64(m * n);
     ws.gemm(m, n, n, A, 0, n, 1, W, 0, n, AW, 0, n, false);
     const norms = columnNorms(AW, m, n);
-    const order = Array.from({ length: n }, (_, j) => j).sort(
-      (x, y) => norms[y] - norms[x] || values[y] - values[x] || x - y,
-    );
+    const order = tripletOrder(norms, values, n);
     writeTriplets(order, norms, vectorsT, AW, m, n, s, u, v);
     return { s, u, v };
   } finally {
@@ -97,12 +95,38 @@ function columnNorms(x: Float64Array, m: number, n: number): Float64Array {
 }
 
 /**
+ * Eigenpair indices by σ (norms), non-increasing, then λ (values), then index. With every norm and value
+ * finite that is a strict total order, so an insertion sort (no comparator calls: n ≤ 64 here, the pairs
+ * come partly ordered) gives the one sorted order Array sort gives; otherwise Array sort, as before.
+ */
+function tripletOrder(norms: Float64Array, values: ArrayLike<number>, n: number): ArrayLike<number> {
+  let finite = true;
+  for (let j = 0; j < n; j++) if (!(Number.isFinite(norms[j]) && Number.isFinite(values[j]))) finite = false;
+  if (!finite)
+    return Array.from({ length: n }, (_, j) => j).sort(
+      (x, y) => norms[y] - norms[x] || values[y] - values[x] || x - y,
+    );
+  const order = new Int32Array(n);
+  for (let i = 0; i < n; i++) {
+    let k = i;
+    for (; k > 0; k--) {
+      const y = order[k - 1];
+      // Does i go before y? (y < i, so a tie in σ and λ keeps y first.)
+      if (!(norms[i] > norms[y] || (norms[i] === norms[y] && values[i] > values[y]))) break;
+      order[k] = y;
+    }
+    order[k] = i;
+  }
+  return order;
+}
+
+/**
  * Triplet k from eigenpair order[k]: σ its column norm of AW, v its eigenvector (row of vectorsT), u its AW
  * column over σ (zeros where σ is 0). Plain loops: TypedArray set of a subarray view of the kernel's memory
  * cost more than the copy (a fresh view per column, ~7 % of the warm crop estimate).
  */
 function writeTriplets(
-  order: number[],
+  order: ArrayLike<number>,
   norms: Float64Array,
   vectorsT: Float64Array,
   AW: Float64Array,
