@@ -69,28 +69,82 @@ export function gramSvdColumns(a: Matrix, into?: SvdColumns): SvdColumns {
     const values = lam;
     // W row-major (column j = eigenvector j), then AW (m×n): column j is σⱼ·uⱼ.
     const W = ws.f64(n * n);
-    for (let j = 0; j < n; j++) for (let i = 0; i < n; i++) W[i * n + j] = vectorsT[j * n + i];
+    transposeSquare(vectorsT, W, n);
     const AW = ws.f64(m * n);
     ws.gemm(m, n, n, A, 0, n, 1, W, 0, n, AW, 0, n, false);
-    const norms = new Float64Array(n);
-    for (let r = 0; r < m; r++) for (let j = 0; j < n; j++) norms[j] += AW[r * n + j] * AW[r * n + j];
-    for (let j = 0; j < n; j++) norms[j] = Math.sqrt(norms[j]);
-    const order = Array.from({ length: n }, (_, j) => j).sort(
-      (x, y) => norms[y] - norms[x] || values[y] - values[x] || x - y,
-    );
-    for (let k = 0; k < n; k++) {
-      const j = order[k];
-      s[k] = norms[j];
-      v.set(vectorsT.subarray(j * n, j * n + n), k * n);
-      if (!(norms[j] > 0)) {
-        u.fill(0, k * m, k * m + m);
-        continue;
-      }
-      const inv = 1 / norms[j];
-      for (let r = 0; r < m; r++) u[k * m + r] = AW[r * n + j] * inv;
-    }
+    const norms = columnNorms(AW, m, n);
+    const order = tripletOrder(norms, values, n);
+    writeTriplets(order, norms, vectorsT, AW, m, n, s, u, v);
     return { s, u, v };
   } finally {
     ws.release();
+  }
+}
+
+/** out = xᵀ for n×n row-major x. */
+function transposeSquare(x: Float64Array, out: Float64Array, n: number): void {
+  for (let j = 0; j < n; j++) for (let i = 0; i < n; i++) out[i * n + j] = x[j * n + i];
+}
+
+/** The Euclidean norm of each column of the m×n row-major matrix x, summed down the rows. */
+function columnNorms(x: Float64Array, m: number, n: number): Float64Array {
+  const norms = new Float64Array(n);
+  for (let r = 0; r < m; r++) for (let j = 0; j < n; j++) norms[j] += x[r * n + j] * x[r * n + j];
+  for (let j = 0; j < n; j++) norms[j] = Math.sqrt(norms[j]);
+  return norms;
+}
+
+/**
+ * Eigenpair indices by σ (norms), non-increasing, then λ (values), then index. With every norm and value
+ * finite that is a strict total order, so an insertion sort (no comparator calls: n ≤ 64 here, the pairs
+ * come partly ordered) gives the one sorted order Array sort gives; otherwise Array sort, as before.
+ */
+function tripletOrder(norms: Float64Array, values: ArrayLike<number>, n: number): ArrayLike<number> {
+  let finite = true;
+  for (let j = 0; j < n; j++) if (!(Number.isFinite(norms[j]) && Number.isFinite(values[j]))) finite = false;
+  if (!finite)
+    return Array.from({ length: n }, (_, j) => j).sort(
+      (x, y) => norms[y] - norms[x] || values[y] - values[x] || x - y,
+    );
+  const order = new Int32Array(n);
+  for (let i = 0; i < n; i++) {
+    let k = i;
+    for (; k > 0; k--) {
+      const y = order[k - 1];
+      // Does i go before y? (y < i, so a tie in σ and λ keeps y first.)
+      if (!(norms[i] > norms[y] || (norms[i] === norms[y] && values[i] > values[y]))) break;
+      order[k] = y;
+    }
+    order[k] = i;
+  }
+  return order;
+}
+
+/**
+ * Triplet k from eigenpair order[k]: σ its column norm of AW, v its eigenvector (row of vectorsT), u its AW
+ * column over σ (zeros where σ is 0). Plain loops: TypedArray set of a subarray view of the kernel's memory
+ * cost more than the copy (a fresh view per column, ~7 % of the warm crop estimate).
+ */
+function writeTriplets(
+  order: ArrayLike<number>,
+  norms: Float64Array,
+  vectorsT: Float64Array,
+  AW: Float64Array,
+  m: number,
+  n: number,
+  s: Float64Array,
+  u: Float64Array,
+  v: Float64Array,
+): void {
+  for (let k = 0; k < n; k++) {
+    const j = order[k];
+    s[k] = norms[j];
+    for (let i = 0; i < n; i++) v[k * n + i] = vectorsT[j * n + i];
+    if (!(norms[j] > 0)) {
+      u.fill(0, k * m, k * m + m);
+      continue;
+    }
+    const inv = 1 / norms[j];
+    for (let r = 0; r < m; r++) u[k * m + r] = AW[r * n + j] * inv;
   }
 }
