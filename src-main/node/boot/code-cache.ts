@@ -14,6 +14,7 @@
  * Built alone as dist/boot.cjs for bin/rankfold.mjs, and into dist/workers/side-start.cjs (./side-start.ts).
  * No import of the program's own modules: this runs before any of them has loaded.
  */
+import { isAscii } from 'node:buffer';
 import { readFileSync, renameSync, writeFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { dirname } from 'node:path';
@@ -48,7 +49,10 @@ function writeCache(script: Script, file: string, stamp: string): void {
 
 /** Run the CommonJS bundle `file` in this thread (with its cache, if one matches) and return its exports. */
 export function runBundle(file: string): unknown {
-  const source = readFileSync(file, 'utf8');
+  // esbuild writes ASCII (non-ASCII characters escaped): read as Latin-1 it is the same text, copied rather than
+  // decoded from UTF-8 (~25 instructions a byte, 26 M for dist/cli.cjs under callgrind).
+  const bytes = readFileSync(file);
+  const source = bytes.toString(isAscii(bytes) ? 'latin1' : 'utf8');
   const stamp = STAMP.exec(source.slice(0, 200))?.[1];
   const cacheFile = `${file}.v8cache`;
   const cachedData = stamp ? readCache(cacheFile, stamp) : undefined;
