@@ -21,7 +21,7 @@ const { runBundle } = scripts ? createRequire(import.meta.url)(boot) : {};
 const early = dist('early.js');
 if (process.argv[2] === 'compress' && existsSync(early)) {
   try {
-    (scripts ? runBundle(dist('early.cjs')) : await import(early)).leaveArenaAhead(process.argv.slice(2));
+    (scripts ? runBundle(dist('early.cjs')).exports : await import(early)).leaveArenaAhead(process.argv.slice(2));
   } catch {
     // Nothing made ahead: the run makes its memory as it always did.
   }

@@ -47,8 +47,11 @@ function writeCache(script: Script, file: string, stamp: string): void {
   }
 }
 
-/** Run the CommonJS bundle `file` in this thread (with its cache, if one matches) and return its exports. */
-export function runBundle(file: string): unknown {
+/** What became of a bundle's cache: V8 used it, V8 refused it, or there was none for this build. */
+type CacheUse = 'used' | 'refused' | 'none';
+
+/** Run the CommonJS bundle `file` in this thread (with its cache, if one matches): its exports and the cache's use. */
+export function runBundle(file: string): { exports: unknown; cache: CacheUse } {
   // esbuild writes ASCII (non-ASCII characters escaped): read as Latin-1 it is the same text, copied rather than
   // decoded from UTF-8 (~25 instructions a byte, 26 M for dist/cli.cjs under callgrind).
   const bytes = readFileSync(file);
@@ -66,5 +69,8 @@ export function runBundle(file: string): unknown {
   const module = { exports: {} as unknown };
   const wrapped = script.runInThisContext() as (...args: unknown[]) => void;
   wrapped.call(module.exports, module.exports, createRequire(file), module, file, dirname(file));
-  return module.exports;
+  return {
+    exports: module.exports,
+    cache: !cachedData ? 'none' : script.cachedDataRejected ? 'refused' : 'used',
+  };
 }
