@@ -123,11 +123,12 @@ builds.push(
     },
   }),
 );
-// The same CLI, its early module and the side worker also as scripts (CommonJS), which bin/rankfold.mjs and the
-// side thread run with V8's code cache (src-main/node/boot/code-cache.ts; made below). A script has no
+// The same CLI and its early module also as scripts (CommonJS), which bin/rankfold.mjs runs with V8's code cache
+// (src-main/node/boot/code-cache.ts; made below). The side worker stays an ES module: run as a script with its
+// cache, it compiled ~15 ms less but its thread's run then cost ~40 ms more TurboFan work (perf, 6 runs each). A script has no
 // import.meta: the define and banner give it the module's own URL. The banner's first line carries the build
 // stamp (filled in below) that a cache must name; a cache of an earlier build is removed first.
-const SCRIPT_BUNDLES = ['cli', 'early', 'workers/side'];
+const SCRIPT_BUNDLES = ['cli', 'early'];
 const STAMP_HOLE = '/*rankfold-build:0000000000000000*/';
 for (const name of SCRIPT_BUNDLES) rmSync(r('dist', `${name}.cjs.v8cache`), { force: true });
 const scriptEntries = Object.fromEntries(
@@ -139,7 +140,6 @@ const scripts = Object.keys(scriptEntries).length
       entryPoints: {
         ...scriptEntries,
         boot: 'src-main/node/boot/code-cache.ts',
-        'workers/side-start': 'src-main/node/boot/side-start.ts',
       },
       outdir: r('dist'),
       outExtension: { '.js': '.cjs' },
@@ -208,7 +208,7 @@ if (existsSync(r('src-renderer/static')))
   cpSync(r('src-renderer/static'), r('dist/renderer'), { recursive: true });
 
 // 3. V8 code caches of the script bundles: each bundle's stamp is its content's hash, then one warm-up
-// `compress` of a sample writes the caches (dist/cli.cjs.v8cache, …) of every function it ran. Caches fit
+// `compress` of a sample writes the caches (dist/cli.cjs.v8cache, dist/early.cjs.v8cache) of every function it ran. Caches fit
 // this Node's V8 only; any other runs the bundles without them. A failed warm-up leaves none: never an error.
 if (scripts) {
   for (const name of Object.keys(scriptEntries)) {

@@ -1,6 +1,6 @@
 /**
- * Runs one of the launcher's script bundles (dist/cli.cjs, dist/early.cjs, dist/workers/side.cjs: CommonJS
- * builds of the same sources as the ESM bundles, scripts/build.mjs) with V8's code cache, so that a start
+ * Runs one of the launcher's script bundles (dist/cli.cjs, dist/early.cjs: CommonJS builds of the same sources
+ * as the ESM bundles, scripts/build.mjs) with V8's code cache, so that a start
  * spends less CPU compiling JavaScript. The cache (`BUNDLE.v8cache` beside the bundle) holds the bytecode of
  * every function a warm-up run of `npm run build` executed; V8 then neither parses the bundle nor compiles
  * those functions again when they first run (measured on the 2-core machine of issue #12: docs/architecture.md).
@@ -8,10 +8,9 @@
  * A cache is used only when its first line names the build stamp in the bundle's own first line (each build
  * writes a fresh pair) and V8 accepts the rest (same V8 version and flags, same source length); otherwise,
  * or when it is missing or unreadable, the bundle compiles as it would without one: never an error.
- * Only the build's warm-up (RANKFOLD_WRITE_CODE_CACHE=1) writes caches, when its thread exits (the side thread
- * is then let finish rather than terminated: ../parallel/side-thread.ts).
+ * Only the build's warm-up (RANKFOLD_WRITE_CODE_CACHE=1) writes caches, when its process exits.
  *
- * Built alone as dist/boot.cjs for bin/rankfold.mjs, and into dist/workers/side-start.cjs (./side-start.ts).
+ * Built alone as dist/boot.cjs for bin/rankfold.mjs.
  * No import of the program's own modules: this runs before any of them has loaded.
  */
 import { isAscii } from 'node:buffer';
@@ -23,7 +22,7 @@ import { Script } from 'node:vm';
 /** The stamp in a bundle's first line (written by scripts/build.mjs) and on a cache's first line. */
 const STAMP = /\/\*rankfold-build:(?!0{16})([0-9a-f]{16})\*\//;
 /** Set by the build's warm-up run only: write each bundle's cache when its thread finishes. */
-export const WRITE_ENV = 'RANKFOLD_WRITE_CODE_CACHE';
+const WRITE_ENV = 'RANKFOLD_WRITE_CODE_CACHE';
 
 /** The V8 data of `file`'s cache when its stamp is `stamp`, else undefined. */
 function readCache(file: string, stamp: string): Buffer | undefined {

@@ -19,7 +19,6 @@ import {
   type SideJobs,
   type SideRunner,
 } from '../../engine/lowrank/side-jobs';
-import { WRITE_ENV } from '../boot/code-cache';
 
 /** States of a job's claim word. */
 export const CLAIM = { offered: 0, taken: 1, done: 2, failed: 3, withdrawn: 4 } as const;
@@ -40,15 +39,13 @@ export type SideAnswer =
   | { id: number; ok: true; value: unknown }
   | { id: number; ok: false; message: string };
 
-/**
- * The built worker beside the running bundle (dist/cli.js or dist/cli.cjs) or, from sources, in dist/: the
- * entry that runs its script bundle with V8's code cache (../boot/side-start.ts) if built, else the ESM bundle.
- */
 function findSideWorker(): string | undefined {
-  return ['side-start.cjs', 'side.js']
-    .flatMap((name) =>
-      ['./workers/', '../workers/', '../../../dist/workers/', '../dist/workers/'].map((d) => d + name),
-    )
+  return [
+    './workers/side.js',
+    '../workers/side.js',
+    '../../../dist/workers/side.js',
+    '../dist/workers/side.js',
+  ]
     .map((p) => fileURLToPath(new URL(p, import.meta.url)))
     .find((c) => existsSync(c));
 }
@@ -91,7 +88,6 @@ export class SideThread {
   /** Jobs the worker computed (the others were taken back and computed on the calling thread). */
   taken = 0;
   private readonly loaded: Promise<void>;
-  private readonly exited: Promise<unknown>;
   /** What runs once just before the next job is posted ({@link beforeNextJob}). */
   private beforeNext: (() => void) | undefined;
 
@@ -100,7 +96,6 @@ export class SideThread {
     this.worker = new Worker(file, { workerData: { port: port2 }, transferList: [port2] });
     // Neither keeps the process alive; a failed start only means every job is taken back and run here.
     this.worker.on('error', () => {});
-    this.exited = new Promise((resolve) => this.worker.once('exit', resolve));
     this.loaded = new Promise((resolve) => {
       this.worker.once('message', () => resolve());
       this.worker.once('exit', () => resolve());
@@ -170,10 +165,6 @@ export class SideThread {
   /** Stop the worker. */
   async close(): Promise<void> {
     this.port.close();
-    // The build's warm-up lets the worker end by itself (its port closed), so that it writes its code cache.
-    if (process.env[WRITE_ENV] === '1') {
-      this.worker.ref();
-      await this.exited;
-    } else await this.worker.terminate();
+    await this.worker.terminate();
   }
 }

@@ -11,24 +11,22 @@ import { CLAIM, type SideAnswer, type SideMessage } from '../parallel/side-threa
 const port = (workerData as { port: MessagePort }).port;
 // The calling thread's engine runs its WebAssembly kernels (services/compress awaits initEngine): so must this
 // one, for the same results. Jobs offered before then wait in the port (or are taken back by the caller).
-// No top-level await: this entry is also built as a script (dist/workers/side.cjs, ../boot/side-start.ts).
-initEngine().then(() => {
-  port.on('message', (m: SideMessage) => {
-    if (Atomics.compareExchange(m.claim, 0, CLAIM.offered, CLAIM.taken) !== CLAIM.offered) return;
-    let answer: SideAnswer;
-    const transfer: ArrayBuffer[] = [];
-    try {
-      const value = (SIDE_JOBS[m.name as SideJobName] as (a: unknown) => unknown)(m.args);
-      // A fresh top-level array moves; arrays inside an object (a coded plane's q, bytes) are copied, since
-      // the coder may keep reusing their buffers.
-      if (value instanceof Float64Array) transfer.push(value.buffer as ArrayBuffer);
-      answer = { id: m.id, ok: true, value };
-    } catch (err) {
-      answer = { id: m.id, ok: false, message: (err as Error)?.message ?? String(err) };
-    }
-    port.postMessage(answer, transfer);
-    Atomics.store(m.claim, 0, answer.ok ? CLAIM.done : CLAIM.failed);
-    Atomics.notify(m.claim, 0);
-  });
-  parentPort?.postMessage('ready');
+await initEngine();
+port.on('message', (m: SideMessage) => {
+  if (Atomics.compareExchange(m.claim, 0, CLAIM.offered, CLAIM.taken) !== CLAIM.offered) return;
+  let answer: SideAnswer;
+  const transfer: ArrayBuffer[] = [];
+  try {
+    const value = (SIDE_JOBS[m.name as SideJobName] as (a: unknown) => unknown)(m.args);
+    // A fresh top-level array moves; arrays inside an object (a coded plane's q, bytes) are copied, since
+    // the coder may keep reusing their buffers.
+    if (value instanceof Float64Array) transfer.push(value.buffer as ArrayBuffer);
+    answer = { id: m.id, ok: true, value };
+  } catch (err) {
+    answer = { id: m.id, ok: false, message: (err as Error)?.message ?? String(err) };
+  }
+  port.postMessage(answer, transfer);
+  Atomics.store(m.claim, 0, answer.ok ? CLAIM.done : CLAIM.failed);
+  Atomics.notify(m.claim, 0);
 });
+parentPort?.postMessage('ready');
