@@ -73,8 +73,20 @@ let kernels: WasmKernels | null = null;
 let pending: Promise<{ wasm: boolean }> | null = null;
 let disabled = false;
 
-/** Decode base64 without atob/Buffer (neither is in ES2022). RFC 4648 §4. */
+/**
+ * Node's Buffer where the host has one (Node's threads, Electron's main process; not a browser page): found as a
+ * global, so the engine imports nothing from Node. Its native decode of the embedded kernels is ~20× cheaper than
+ * the loop below, which V8 also compiled with TurboFan in each thread that loads a kernel (~10–20 ms each).
+ */
+const hostBuffer = (globalThis as { Buffer?: { from(s: string, encoding: 'base64'): Uint8Array } }).Buffer;
+
+/** Decode base64 (RFC 4648 §4) with the host's native decoder where it has one, else {@link decodeBase64Js}. */
 export function decodeBase64(s: string): Uint8Array<ArrayBuffer> {
+  return hostBuffer ? new Uint8Array(hostBuffer.from(s, 'base64')) : decodeBase64Js(s);
+}
+
+/** Decode base64 without atob/Buffer (neither is in ES2022). RFC 4648 §4. */
+export function decodeBase64Js(s: string): Uint8Array<ArrayBuffer> {
   const table = new Uint8Array(128);
   const alphabet = 'ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/';
   for (let i = 0; i < 64; i++) table[alphabet.charCodeAt(i)] = i;
