@@ -1,11 +1,11 @@
 // A wide band edge is a step at one position; the scan's own row structure is not (src-main/engine/clean/
-// band-group-step.ts carriedShare, banding-wide.ts MIN_CARRIED_SHARE and THIN_PARTNER). scikit-image's
+// band-ramp.ts carriedShare, banding-wide.ts THIN_PARTNER). scikit-image's
 // text.png has a shading ramp across every column (rows 93–100, 8 grey levels) that the wide pass took for
 // a band edge beside a true one, and whose end, taken as the partner of a true edge nine rows before it,
 // made both be dropped as a thin feature. The planes here are synthetic: a flat grey with noise σ 3 and
 // known steps, so every expectation follows from the construction.
 import { describe, expect, it } from 'vitest';
-import { carriedShare } from '../../src-main/engine/clean/band-group-step';
+import { carriedShare } from '../../src-main/engine/clean/band-ramp';
 import { wideBandProfile } from '../../src-main/engine/clean/banding-wide';
 import { removedShare } from './banding-removal';
 import { gaussian, rng } from './helpers';

@@ -66,33 +66,3 @@ export function slopeBeside(step: Float64Array, a: number, b: number, scratch: F
   const sd = medianInPlace(scratch, m) / MAD_TO_SIGMA;
   return Math.abs(slope) > (SLOPE_SE * MEDIAN_SE_FACTOR * sd) / Math.sqrt(m) ? slope * (b - a + WINDOW) : 0;
 }
-
-/** Positions this far (px) on either side of a group give its own slope in carriedShare (as band-aligned.ts NEAR … FAR). */
-const CARRY_NEAR = 2;
-const CARRY_FAR = 5;
-
-/**
- * The share of a group's net step `net` (its window step) that the group's own robust steps `step` carry
- * above the slope of the positions CARRY_NEAR … CARRY_FAR px beside it (their median). A band edge is a
- * step at one position: its own difference holds the whole net step (share near 1) and the positions beside
- * it only content. A ramp of content that crosses every line (a shadow's soft edge) is a run of small
- * steps: its windows, each WINDOW px wide, add those beside the group, so its share stays near
- * 1 / WINDOW (a little more where the noise made the group's step the run's largest).
- */
-export function carriedShare(
-  step: Float64Array,
-  a: number,
-  b: number,
-  net: number,
-  scratch: Float64Array,
-): number {
-  let m = 0;
-  for (let o = CARRY_NEAR; o <= CARRY_FAR; o++) {
-    if (a - o >= 0) scratch[m++] = step[a - o];
-    if (b + o < step.length) scratch[m++] = step[b + o];
-  }
-  const slope = medianInPlace(scratch, m);
-  let sum = 0;
-  for (let x = a; x <= b; x++) sum += step[x] - slope;
-  return net === 0 ? 0 : sum / net;
-}

@@ -16,9 +16,9 @@
  *    (less a slope the positions beside it share: band-group-step.ts slopeBeside).
  * 3. A group is a band edge when its net step is significant, at most MAX_STEP_8BIT grey levels, of the
  *    same sign and similar size in each quarter of the lines and in their densest half, and not spread more
- *    across lines than its surroundings (a content edge is rarely the same on every line), nor a ramp (a
- *    group narrower than its windows carries its net step itself: band-group-step.ts carriedShare).
- *    Opposite edges of similar size closer than MIN_BAND_WIDTH are a thin feature, not a band. The running sum of the edges is the profile.
+ *    across lines than its surroundings (a content edge is rarely the same on every line), nor a ramp
+ *    (band-ramp.ts). Opposite edges of similar size closer than MIN_BAND_WIDTH are a thin feature, not a
+ *    band. The running sum of the edges is the profile.
  * 4. Guards (a missed or invented edge offsets a whole stretch and makes an image worse): the profile must
  *    explain the direct per-position levels and reach the lines' detection threshold (banding-wide-checks.ts;
  *    chains too; an uncut chain at least its variation half); each half of the lines is analysed alone: an
@@ -45,8 +45,9 @@
  * The grouped step-sum construction, its guards, bridges and cuts are this project's (no source).
  */
 import { bridgeStep, chainProfile } from './band-bridge';
-import { carriedShare, groupStep, MIN_BORDER, slopeBeside, WINDOW } from './band-group-step';
+import { groupStep, MIN_BORDER, slopeBeside, WINDOW } from './band-group-step';
 import { type BandAxis, bandAxis, type Lines, type PositionStats } from './band-lines';
+import { carriesStep, thinPair } from './band-ramp';
 import { removeMean, rms } from './band-stats';
 import {
   densestAgrees,
@@ -110,26 +111,6 @@ const MIN_VALID_SHARE_PAPER = 0.2;
  * pass is for are a few grey levels (issue 16 asks for RMS 4, whose largest steps are about 15; chosen here).
  */
 const MAX_STEP_8BIT = 24;
-/**
- * A group narrower than its windows is a band edge only when its own differences carry at least this
- * share of its net step (band-group-step.ts carriedShare); a chain neither bridges nor cuts one that does
- * not. A shading ramp across every column of scikit-image's text.png (rows 93–100, 8 grey levels) passed
- * every other test at row 96 (share 0.40) and was removed as a second band edge beside a true one.
- * Measured on the accepted one-position groups of the benchmark's and 16 unseen images' wide bands (seeds
- * 0–8, both axes): at true edges the share was at least 0.41 (1 % below 0.66, 1943 groups); elsewhere its
- * median was 0.40 (88 groups). Chosen here: 0.5. On text.png's paper alone the same ramp reads 0.55 and
- * is still taken (benchmark row bands: 57.6 → 64.8 % removed); 0.6 rejected it there but made an unseen
- * case worse (coins.png column bands, seed 8).
- */
-const MIN_CARRIED_SHARE = 0.5;
-/**
- * Opposite edges closer than MIN_BAND_WIDTH are a thin feature only when the smaller is at least this share
- * of the larger (chosen here: a ruled line's or a joint's two sides are alike). A small content step beside
- * a large band edge is dropped alone: on text.png's paper the end of the shading ramp (+2.3 at row 99) was
- * taken as the partner of a band edge of −7.2 nine rows before it, and both were dropped (benchmark seed 4:
- * nothing removed; now 98.9 %).
- */
-const THIN_PARTNER = 0.5;
 export interface WideBands {
   /** Offset per position (zero mean), grey levels. */
   profile: Float64Array;
@@ -386,7 +367,7 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
       densestAgrees(all.perLine, all.step, col)
     ) {
       // A ramp is no band edge, nor content that hides one: the chain neither bridges nor cuts it.
-      if (b - first >= WINDOW - 1 || carriedShare(step, first, b, all.step, col) >= MIN_CARRIED_SHARE)
+      if (carriesStep(step, first, b, all.step, col))
         edges.push({ at: largest(first, b, all.step), a: first, b, step: all.step, se, tilt });
       continue;
     }
@@ -399,15 +380,9 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
     else if (bridged !== 0)
       bridges.push({ at, a: first, b, step: bridged, se: typicalSpread / Math.sqrt(count), tilt });
   }
-  // A band has a width: kept edges of opposite sign closer than MIN_BAND_WIDTH px are a thin feature (a
-  // narrow stripe is the narrow pass's job; a ruled line or grid line is content) and are dropped, unless
-  // the other is less than THIN_PARTNER of the edge's size (then only the smaller is dropped).
+  // A band has a width: a kept edge with a close partner is part of a thin feature (band-ramp.ts).
   const close = (i: number, j: number) =>
-    j >= 0 &&
-    j < edges.length &&
-    Math.abs(edges[j].at - edges[i].at) < MIN_BAND_WIDTH &&
-    Math.sign(edges[j].step) !== Math.sign(edges[i].step) &&
-    Math.abs(edges[j].step) >= THIN_PARTNER * Math.abs(edges[i].step);
+    j >= 0 && j < edges.length && thinPair(edges[i], edges[j], MIN_BAND_WIDTH);
   const profile = new Float64Array(lineLen);
   let steps = 0;
   let err2 = 0;
