@@ -16,8 +16,9 @@
  *    (less a slope the positions beside it share: band-group-step.ts slopeBeside).
  * 3. A group is a band edge when its net step is significant, at most MAX_STEP_8BIT grey levels, of the
  *    same sign and similar size in each quarter of the lines and in their densest half, and not spread more
- *    across lines than its surroundings (a content edge is rarely the same on every line). Opposite edges
- *    closer than MIN_BAND_WIDTH are a thin feature, not a band. The running sum of the edges is the profile.
+ *    across lines than its surroundings (a content edge is rarely the same on every line), nor a ramp
+ *    (band-ramp.ts). Opposite edges of similar size closer than MIN_BAND_WIDTH are a thin feature, not a
+ *    band. The running sum of the edges is the profile.
  * 4. Guards (a missed or invented edge offsets a whole stretch and makes an image worse): the profile must
  *    explain the direct per-position levels and reach the lines' detection threshold (banding-wide-checks.ts;
  *    chains too; an uncut chain at least its variation half); each half of the lines is analysed alone: an
@@ -46,6 +47,7 @@
 import { bridgeStep, chainProfile } from './band-bridge';
 import { groupStep, MIN_BORDER, slopeBeside, WINDOW } from './band-group-step';
 import { type BandAxis, bandAxis, type Lines, type PositionStats } from './band-lines';
+import { carriesStep, thinPair } from './band-ramp';
 import { removeMean, rms } from './band-stats';
 import {
   densestAgrees,
@@ -364,7 +366,9 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
       slicesAgree(first, b, all.step, tilt) &&
       densestAgrees(all.perLine, all.step, col)
     ) {
-      edges.push({ at: largest(first, b, all.step), a: first, b, step: all.step, se, tilt });
+      // A ramp is no band edge, nor content that hides one: the chain neither bridges nor cuts it.
+      if (carriesStep(step, first, b, all.step, col))
+        edges.push({ at: largest(first, b, all.step), a: first, b, step: all.step, se, tilt });
       continue;
     }
     if (!chain) continue;
@@ -376,13 +380,9 @@ function edgeProfile(lines: Lines, from: number, to: number, chain: boolean) {
     else if (bridged !== 0)
       bridges.push({ at, a: first, b, step: bridged, se: typicalSpread / Math.sqrt(count), tilt });
   }
-  // A band has a width: kept edges of opposite sign closer than MIN_BAND_WIDTH px are a thin feature (a
-  // narrow stripe is the narrow pass's job; a ruled line or grid line is content) and are dropped.
+  // A band has a width: a kept edge with a close partner is part of a thin feature (band-ramp.ts).
   const close = (i: number, j: number) =>
-    j >= 0 &&
-    j < edges.length &&
-    Math.abs(edges[j].at - edges[i].at) < MIN_BAND_WIDTH &&
-    Math.sign(edges[j].step) !== Math.sign(edges[i].step);
+    j >= 0 && j < edges.length && thinPair(edges[i], edges[j], MIN_BAND_WIDTH);
   const profile = new Float64Array(lineLen);
   let steps = 0;
   let err2 = 0;
