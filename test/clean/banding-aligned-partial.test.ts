@@ -1,6 +1,6 @@
 // The aligned reading's level limit (src-main/engine/clean/band-aligned.ts, `partial`; banding.ts
 // alignedOrWide): a profile whose RMS is below the typical position's detection limit, but above what one
-// unseen edge may leave, replaces the step sum's profile when the step sum found no more edges than it.
+// unseen edge may leave, replaces the step sum's profile when the step sum found as many edges.
 // coins.png (test/fixtures/banding/SOURCES.md) is one of the unseen images the change was checked on, not
 // chosen on. Measured when written, with the limit applied whole as before: rows seed 2 30.4 % of the band
 // energy removed (+0.83 dB), columns seed 7 66.5 % (+2.61 dB); with this rule 99.3 % (+4.37 dB) and
