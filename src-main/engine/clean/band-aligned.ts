@@ -65,6 +65,12 @@ const GROUP_GAP = 6;
  * the top of samples/gel-scan.tif, 29 px high and crossing every lane, passed as a band at 24).
  */
 const MIN_BAND_WIDTH = 32;
+/**
+ * Largest RMS one unseen edge can leave, as a share of the detection limit: a step of the limit at
+ * mid-line leaves ±limit/2 after the zero mean (a step d splitting the line at share f leaves
+ * d·√(f(1 − f)) ≤ d/2; arithmetic).
+ */
+const UNSEEN_EDGE_RMS = 0.5;
 /** Measuring rounds, each with the previous round's steps taken off (chosen here: they settle by the third). */
 const ROUNDS = 3;
 /** Fewest values a strip needs for a trimmed mean (chosen here). */
@@ -83,6 +89,11 @@ export interface AlignedBands {
   noiseFloor: number;
   /** Significant steps whose strips disagree (content, which may hide a band edge): the profile is cut there. */
   cuts: number;
+  /**
+   * The profile's RMS is below the typical position's detection limit (though above what one unseen edge
+   * may leave): it may be missing edges of its own size.
+   */
+  partial: boolean;
 }
 
 interface Reading {
@@ -169,10 +180,14 @@ export function alignedBands(shared: BandAxis): AlignedBands | null {
   const profile = chainProfile(lineLen, edges, cuts);
   // Edges smaller than the typical position's limit go unseen, each leaving a stretch offset: a profile
   // below that limit may be missing edges of its own size (as banding-wide-checks.ts detectionThreshold).
+  // One unseen edge leaves at most half the limit as RMS (a step of the limit at mid-line, zero mean): a
+  // profile below that takes out less than a single unseen edge may leave, and is dropped here; between
+  // that and the limit it is `partial`, which banding.ts uses only when the step sum corroborates it.
   const limit = STEP_Z * medianInPlace(Float64Array.from(errors), errors.length);
-  if (rms(profile) < limit) return null;
+  const level = rms(profile);
+  if (level < UNSEEN_EDGE_RMS * limit) return null;
   const noiseFloor = Math.sqrt(edges.reduce((t, e) => t + e.se * e.se, 0));
-  return { profile, steps: edges.length, noiseFloor, cuts: cuts.length };
+  return { profile, steps: edges.length, noiseFloor, cuts: cuts.length, partial: level < limit };
 }
 
 /**
