@@ -41,8 +41,8 @@ const STRIPS = 16;
 /** Share trimmed from each end of a strip's values (chosen here: 20 %, Tukey and McLaughlin's example). */
 const TRIM = 0.2;
 /** Neighbour differences this far (px) on either side give a line's own slope (chosen here: 2 … 5). */
-const NEAR = 2;
-const FAR = 5;
+export const NEAR = 2;
+export const FAR = 5;
 /** A step must exceed this many standard errors (chosen here on half of the unseen images, seeds 1–4). */
 const STEP_Z = 6;
 /** …and this many 8-bit grey levels (chosen here: smaller edges leave less than the noise of a line). */

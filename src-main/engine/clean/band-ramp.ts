@@ -5,6 +5,7 @@
  * Here: how much of a group's window step its own positions carry, and which close pairs of edges are a
  * thin feature (a ruled line, a joint) rather than band edges.
  */
+import { FAR, NEAR } from './band-aligned';
 import { WINDOW } from './band-group-step';
 import { medianInPlace } from './medians';
 
@@ -20,15 +21,12 @@ import { medianInPlace } from './medians';
  * case worse (coins.png column bands, seed 8).
  */
 const MIN_CARRIED_SHARE = 0.5;
-/** Positions this far (px) on either side of a group give its own slope in carriedShare (as band-aligned.ts NEAR … FAR). */
-const CARRY_NEAR = 2;
-const CARRY_FAR = 5;
 
 /**
  * The share of a group's net step `net` (its window step) that the group's own robust steps `step` carry
- * above the slope of the positions CARRY_NEAR … CARRY_FAR px beside it (their median). A band edge is a
- * step at one position: its own difference holds the whole net step (share near 1) and the positions beside
- * it only content. A ramp of content that crosses every line (a shadow's soft edge) is a run of small
+ * above the slope of the positions NEAR … FAR px beside it (their median; ./band-aligned reads a line's own
+ * slope from the same positions). A band edge is a step at one position: its own difference holds the
+ * whole net step (share near 1) and the positions beside it only content. A ramp of content that crosses every line (a shadow's soft edge) is a run of small
  * steps: its windows, each WINDOW px wide, add those beside the group, so its share stays near
  * 1 / WINDOW (a little more where the noise made the group's step the run's largest).
  */
@@ -40,7 +38,7 @@ export function carriedShare(
   scratch: Float64Array,
 ): number {
   let m = 0;
-  for (let o = CARRY_NEAR; o <= CARRY_FAR; o++) {
+  for (let o = NEAR; o <= FAR; o++) {
     if (a - o >= 0) scratch[m++] = step[a - o];
     if (b + o < step.length) scratch[m++] = step[b + o];
   }
